@@ -1,0 +1,7 @@
+#!/usr/bin/env node
+// The command runs the TypeScript sources through tsx so that a fresh `npm ci` needs no build step.
+import { register } from 'tsx/esm/api';
+
+register();
+const { main } = await import('../src/cli/main.ts');
+process.exitCode = await main(process.argv.slice(2));
