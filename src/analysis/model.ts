@@ -1,0 +1,93 @@
+/** The shapes the pure analysis core hands between its stages. */
+import type { Sample } from '../domain/event.ts';
+import type { Finding } from '../domain/finding.ts';
+import type { Measurand } from '../domain/measurands.ts';
+
+/** One charge: the oil between two oil changes. Wear-metal series restart at every new charge. */
+export interface Charge {
+  readonly index: number;
+  readonly startedBy: 'first' | 'oilChanged' | 'oilHoursReset';
+  /** In time order. */
+  readonly samples: readonly Sample[];
+}
+
+/** A revision that a higher revision of the same sample replaced; kept so that the history says so. */
+export interface Superseded {
+  readonly sampleId: string;
+  readonly revision: number;
+  readonly replacedBy: number;
+}
+
+/** A component's history: the winning revision of every sample, in time order, split into charges. */
+export interface ComponentHistory {
+  readonly unit: string;
+  readonly component: string;
+  readonly samples: readonly Sample[];
+  readonly charges: readonly Charge[];
+  readonly superseded: readonly Superseded[];
+}
+
+/** One wear-metal interval on one charge: from the previous sample (or the residual of the last charge) to `to`. */
+export interface Interval {
+  readonly measurand: Measurand;
+  readonly chargeIndex: number;
+  readonly to: Sample;
+  /** Sample the interval starts from; for the first sample of a charge, the last sample of the previous charge. */
+  readonly from?: Sample;
+  readonly firstOfCharge: boolean;
+  /** Operating hours of the interval. */
+  readonly hours: number;
+  /** Concentration expected at the end with no wear: the previous level diluted by make-up oil or the residual share. */
+  readonly baseLevel: number;
+  /** Reading at the end of the interval (ppm). */
+  readonly level: number;
+  /** level − baseLevel: wear metal added in the interval, in ppm of the sump. */
+  readonly increment: number;
+  /** increment / hours, in ppm per hour. */
+  readonly rate: number;
+  /** True when either end is a censored reading: such an interval never raises a finding on its own. */
+  readonly censored: boolean;
+  /** True while the component is running in (new or overhauled): kept out of baselines. */
+  readonly runningIn: boolean;
+}
+
+/** Population statistics of one oil-hours band of one measurand in one group. */
+export interface BandStats {
+  /** Lower edge (inclusive) and upper edge (exclusive; null: open-ended) in oil hours. */
+  readonly fromHours: number;
+  readonly toHours: number | null;
+  readonly n: number;
+  readonly mean: number;
+  readonly sd: number;
+  /** Sorted values, present when the percentile method needs them. */
+  readonly values?: readonly number[];
+}
+
+/** In-control wear rate of a group, pooled from its components' stable history. */
+export interface RateBaseline {
+  /** ppm per operating hour. */
+  readonly rate: number;
+  /** Variance of the wear process per hour (ppm²/h). */
+  readonly processVariance: number;
+  readonly intervals: number;
+  readonly components: number;
+}
+
+export interface GroupStats {
+  readonly group: string;
+  readonly bands: Readonly<Partial<Record<Measurand, readonly BandStats[]>>>;
+  readonly baselines: Readonly<Partial<Record<Measurand, RateBaseline>>>;
+}
+
+/** The findings at one sample of the history. */
+export interface Step {
+  readonly sampleId: string;
+  readonly sampledAt: string;
+  readonly findings: readonly Finding[];
+}
+
+export interface Evaluation {
+  readonly history: ComponentHistory;
+  /** One step per sample, in time order; the last is the component's current state. */
+  readonly steps: readonly Step[];
+}

@@ -1,0 +1,36 @@
+/** `wearshift schema`: writes the JSON Schema of the result event (and of the configuration) for integrators. */
+import { mkdirSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import type { Command } from 'commander';
+import { z } from 'zod';
+import { ConfigSchema } from '../../domain/config.ts';
+import { ResultEventSchema } from '../../domain/event.ts';
+
+export function publishedSchemas(): Record<string, unknown> {
+  return {
+    'result-event.schema.json': {
+      $id: 'https://wearshift.invalid/schemas/result-event.schema.json',
+      title: 'wearshift result event',
+      ...z.toJSONSchema(ResultEventSchema, { io: 'input' }),
+    },
+    'config.schema.json': {
+      $id: 'https://wearshift.invalid/schemas/config.schema.json',
+      title: 'wearshift configuration',
+      ...z.toJSONSchema(ConfigSchema, { io: 'input', unrepresentable: 'any' }),
+    },
+  };
+}
+
+export function registerSchema(program: Command): void {
+  program
+    .command('schema')
+    .description('write the JSON Schemas of the result event and the configuration')
+    .option('--out <dir>', 'directory to write into', 'schemas')
+    .action((opts: { out: string }) => {
+      mkdirSync(opts.out, { recursive: true });
+      for (const [name, schema] of Object.entries(publishedSchemas())) {
+        writeFileSync(join(opts.out, name), `${JSON.stringify(schema, null, 2)}\n`);
+        process.stdout.write(`${join(opts.out, name)}\n`);
+      }
+    });
+}

@@ -1,0 +1,33 @@
+/** The `wearshift` command line. Each command lives in its own module under ./commands. */
+import { Command, CommanderError } from 'commander';
+import { InputError } from '../domain/errors.ts';
+import { registerSchema } from './commands/schema.ts';
+
+const CAUTION =
+  'wearshift advises: it does not replace the laboratory\'s diagnosis, the equipment maker\'s limits, local codes or licensed practice.';
+
+export function buildProgram(): Command {
+  const program = new Command('wearshift')
+    .description('Early warnings from used-oil analysis: wear-rate change detection beside classic limits, incidents and escalation.')
+    .addHelpText('after', `\nEnvironment: REDIS_URL, WEARSHIFT_CONFIG, PORT, WEARSHIFT_TOKEN_INGEST, WEARSHIFT_TOKEN_RESPONDER, WEARSHIFT_TOKEN_VIEWER.\n\n${CAUTION}`)
+    .showHelpAfterError()
+    .exitOverride();
+  registerSchema(program);
+  return program;
+}
+
+export async function main(argv: string[]): Promise<number> {
+  const program = buildProgram();
+  try {
+    await program.parseAsync(argv, { from: 'user' });
+    return typeof process.exitCode === 'number' ? process.exitCode : 0;
+  } catch (e) {
+    if (e instanceof CommanderError) return e.exitCode;
+    if (e instanceof InputError) {
+      process.stderr.write(`wearshift: ${e.message}\n`);
+      return 2;
+    }
+    process.stderr.write(`wearshift: ${e instanceof Error ? (e.stack ?? e.message) : String(e)}\n`);
+    return 1;
+  }
+}

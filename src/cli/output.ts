@@ -1,0 +1,30 @@
+/** Output for people (aligned tables) and for machines (`--json`: one JSON object per line). */
+
+export function writeJsonLine(value: unknown, out: NodeJS.WritableStream = process.stdout): void {
+  out.write(`${JSON.stringify(value)}\n`);
+}
+
+export function formatTable(headers: string[], rows: (string | number)[][]): string {
+  const cells = [headers, ...rows.map((r) => r.map(String))];
+  const widths = headers.map((_, c) => Math.max(...cells.map((r) => (r[c] ?? '').length)));
+  const line = (r: string[]) => r.map((v, c) => (c === 0 ? v.padEnd(widths[c]!) : v.padStart(widths[c]!))).join('  ');
+  return [line(cells[0]!), widths.map((w) => '─'.repeat(w)).join('  '), ...cells.slice(1).map(line)].join('\n') + '\n';
+}
+
+/** Rounds for display without trailing noise. */
+export function round(x: number, digits = 4): number {
+  return Number(x.toPrecision(digits));
+}
+
+/** Parses a number option; commander hands options over as strings. */
+export function numberOption(name: string) {
+  return (raw: string): number => {
+    const v = Number(raw);
+    if (raw.trim() === '' || !Number.isFinite(v)) throw new Error(`--${name} expects a number, got "${raw}"`);
+    return v;
+  };
+}
+
+export function numberListOption(name: string) {
+  return (raw: string): number[] => raw.split(',').map((p) => numberOption(name)(p));
+}

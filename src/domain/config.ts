@@ -1,0 +1,158 @@
+/**
+ * The YAML configuration: groups, limits, new-oil references and detection parameters.
+ * Every section is optional; an empty file gives the built-in defaults documented in the README.
+ */
+import { z } from 'zod';
+import { MEASURAND_NAMES, type Measurand } from './measurands.ts';
+import { parseReading } from './reading.ts';
+
+const measurandName = z.enum(MEASURAND_NAMES as [Measurand, ...Measurand[]], { error: (i) => `unknown measurand "${String(i.input)}"` });
+const positive = z.number().finite().positive();
+const nonNegative = z.number().finite().min(0);
+
+const levels = z
+  .object({ caution: nonNegative.optional(), alarm: nonNegative.optional() })
+  .strict()
+  .refine((l) => l.caution === undefined || l.alarm === undefined || l.caution <= l.alarm, { message: 'caution must not exceed alarm' });
+export type Levels = z.infer<typeof levels>;
+
+const levelsByMeasurand = z.partialRecord(measurandName, levels);
+
+const iso4406Code = z.string().refine((s) => parseReading(s, 'iso4406').ok, { message: 'expected an ISO 4406 code such as "17/15/12"' });
+
+export const BudgetSchema = z
+  .object({
+    alarms: positive.default(1).describe('False alarms allowed per component over `years`.'),
+    years: positive.default(5),
+    sampleIntervalHours: positive.default(250).describe('Typical operating hours between samples.'),
+    hoursPerYear: positive.max(8784).default(8760).describe('Operating hours per calendar year.'),
+  })
+  .strict();
+export type Budget = z.infer<typeof BudgetSchema>;
+
+export const DetectionSchema = z
+  .object({
+    measurands: z.array(measurandName).default(['Fe', 'Cu', 'Al', 'Cr', 'Pb', 'Sn', 'Ni']).describe('Wear metals whose wear rate is watched by EWMA and CUSUM.'),
+    budget: BudgetSchema.default(BudgetSchema.parse({})).describe('The false-alarm budget from which h and L are derived when not given.'),
+    ewma: z
+      .object({
+        enabled: z.boolean().default(true),
+        lambda: z.number().gt(0).max(1).default(0.2),
+        L: positive.optional().describe('Limit width in sigma; derived from the budget when absent.'),
+      })
+      .strict()
+      .default({ enabled: true, lambda: 0.2 }),
+    cusum: z
+      .object({
+        enabled: z.boolean().default(true),
+        k: nonNegative.default(0.5).describe('Reference value in sigma: half the shift to detect fastest.'),
+        h: positive.optional().describe('Decision interval in sigma; derived from the budget when absent.'),
+        headstart: nonNegative.max(1).default(0).describe('Fast-initial-response headstart as a fraction of h (0.5 is the usual choice).'),
+      })
+      .strict()
+      .default({ enabled: true, k: 0.5, headstart: 0 }),
+    sided: z.enum(['two', 'up']).default('two').describe('two: a fall in wear rate is reported too, as a possible sampling fault.'),
+    runningInHours: nonNegative.default(250).describe('Hours after a new or overhauled component kept out of the baseline.'),
+    baselineIntervals: z.number().int().min(2).default(8).describe('Stable intervals that form the own baseline (in-control rate and spread).'),
+    minBaselineIntervals: z.number().int().min(2).default(4).describe('Below this many own intervals the group baseline is used.'),
+    labNoise: z
+      .object({
+        absolute: nonNegative.default(1).describe('Lab repeatability floor in ppm (one standard deviation).'),
+        relative: nonNegative.max(1).default(0.05).describe('Lab repeatability as a fraction of the reading (one standard deviation).'),
+      })
+      .strict()
+      .default({ absolute: 1, relative: 0.05 }),
+  })
+  .strict();
+export type Detection = z.infer<typeof DetectionSchema>;
+
+export const PopulationSchema = z
+  .object({
+    measurands: z.array(measurandName).optional().describe('Measurands given population limits; default: every wear metal and Si, Na, K.'),
+    minResults: z.number().int().min(2).default(30).describe('Results a band needs before its limits are trusted (common practice: about 30).'),
+    bandHours: z.array(nonNegative).min(1).default([0, 250, 500, 1000]).describe('Lower edges of the oil-hours bands.'),
+    method: z.enum(['sigma', 'percentile']).default('sigma'),
+    sigma: z.object({ caution: positive.default(1), alarm: positive.default(2) }).strict().default({ caution: 1, alarm: 2 }),
+    percentile: z
+      .object({ caution: z.number().gt(0).lt(100).default(90), alarm: z.number().gt(0).lt(100).default(97.5) })
+      .strict()
+      .default({ caution: 90, alarm: 97.5 }),
+  })
+  .strict();
+export type Population = z.infer<typeof PopulationSchema>;
+
+export const ConditionSchema = z
+  .object({
+    tbnFallFraction: z.number().gt(0).lt(1).default(0.5).describe('Alarm when TBN falls to this fraction of new (common practice: half).'),
+    tanRise: z.object({ caution: positive.default(1), alarm: positive.default(2) }).strict().default({ caution: 1, alarm: 2 }).describe('TAN rise over new oil, mg KOH/g.'),
+    viscosityChangePercent: z.object({ caution: positive.default(10), alarm: positive.default(20) }).strict().default({ caution: 10, alarm: 20 }),
+    water: levels.default({ caution: 500, alarm: 1000 }).describe('Water in ppm.'),
+    fuel: levels.default({ caution: 2.5, alarm: 5 }).describe('Fuel dilution in %.'),
+    soot: levels.default({ caution: 1.5, alarm: 3 }).describe('Soot in %.'),
+    oxidation: levels.default({ caution: 20, alarm: 30 }).describe('Oxidation in A/cm above new oil.'),
+    nitration: levels.default({ caution: 20, alarm: 30 }).describe('Nitration in A/cm above new oil.'),
+    glycolSeverity: z.enum(['caution', 'alarm']).default('alarm').describe('Any glycol found is coolant in the oil.'),
+  })
+  .strict();
+export type Condition = z.infer<typeof ConditionSchema>;
+
+const NewOilSchema = z.partialRecord(measurandName, nonNegative).describe('New-oil reference values of this group.');
+
+const GroupSettingsSchema = z
+  .object({
+    sumpLitres: positive.optional().describe('Oil volume of the compartment, for the make-up-oil correction.'),
+    residualFraction: z.number().min(0).lt(1).optional().describe('Share of the old charge left after a drain (common practice: 0.05–0.2 engines, up to 0.4 hydraulics).'),
+    limits: levelsByMeasurand.optional().describe('Fixed caution/alarm levels per measurand.'),
+    rateLimits: levelsByMeasurand.optional().describe('Rate-of-change levels in ppm per 100 h.'),
+    newOil: NewOilSchema.optional(),
+    condition: ConditionSchema.partial().optional(),
+    cleanliness: z.object({ target: iso4406Code }).strict().optional(),
+    detection: DetectionSchema.partial().optional(),
+    population: PopulationSchema.partial().optional(),
+  })
+  .strict();
+
+export const GroupSchema = GroupSettingsSchema.extend({
+  name: z.string().min(1).max(80),
+  match: z
+    .object({
+      component: z.string().optional().describe('Component name, exactly.'),
+      unit: z.string().optional().describe('A regular expression on the unit name.'),
+    })
+    .strict()
+    .optional()
+    .describe('Which components belong; an event that names its group belongs to that group.'),
+}).strict();
+export type GroupConfig = z.infer<typeof GroupSchema>;
+
+export const ConfigSchema = z
+  .object({
+    redis: z
+      .object({
+        url: z.string().optional().describe('REDIS_URL wins when set.'),
+        prefix: z.string().min(1).default('{wearshift}').describe('Key prefix; keep the braces (a hash tag) for Redis Cluster.'),
+      })
+      .strict()
+      .default({ prefix: '{wearshift}' }),
+    detection: DetectionSchema.default(DetectionSchema.parse({})),
+    population: PopulationSchema.default(PopulationSchema.parse({})),
+    condition: ConditionSchema.default(ConditionSchema.parse({})),
+    defaults: GroupSettingsSchema.omit({ detection: true, population: true, condition: true }).default({}).describe('Settings for every group unless the group says otherwise.'),
+    groups: z.array(GroupSchema).default([]),
+    backfill: z
+      .object({ quietAfterDays: positive.default(30).describe('Findings on samples older than this when they arrive are recorded but page nobody.') })
+      .strict()
+      .default({ quietAfterDays: 30 }),
+  })
+  .strict()
+  .superRefine((c, ctx) => {
+    c.groups.forEach((g, i) => {
+      if (g.match?.unit === undefined) return;
+      try {
+        new RegExp(g.match.unit);
+      } catch (e) {
+        ctx.addIssue({ code: 'custom', path: ['groups', i, 'match', 'unit'], message: `not a valid regular expression: ${(e as Error).message}` });
+      }
+    });
+  });
+export type Config = z.infer<typeof ConfigSchema>;

@@ -1,0 +1,112 @@
+/**
+ * The result event (design brief §4) and the normalised sample the analysis core works on.
+ * The zod schema is the single source: the published JSON Schema in `schemas/` is generated from it.
+ */
+import { z } from 'zod';
+import { isMeasurand, MEASURAND_NAMES, type Measurand } from './measurands.ts';
+import { parseReading, type Reading } from './reading.ts';
+
+/** Names travel into e-mail headers, Redis keys and URLs: printable characters only, bounded length. */
+const identifier = (what: string) =>
+  z
+    .string()
+    .min(1, `${what} must not be empty`)
+    .max(80, `${what} must be at most 80 characters`)
+    .regex(/^[\p{L}\p{N}][\p{L}\p{N} ._:#()+\-/]*$/u, `${what} may hold letters, digits, spaces and . _ : # ( ) + - / only, starting with a letter or digit`);
+
+const hours = (what: string) => z.number().finite().min(0, `${what} must not be negative`).max(1e7, `${what} is implausibly large`);
+
+const readingValue = z.union([z.number(), z.string().max(40, 'a reading string must be at most 40 characters')], {
+  error: 'expected a finite number, a censored value such as "<1", or an ISO 4406 code such as "18/16/13"',
+});
+
+export const ResultEventSchema = z
+  .object({
+    sampleId: identifier('sampleId').describe('The laboratory sample number; with revision, the identity of a result.'),
+    revision: z.number().int().min(0).max(1000).default(0).describe('Re-issued results of one sample carry a higher revision; the highest wins.'),
+    unit: identifier('unit').describe('The machine or asset.'),
+    component: identifier('component').describe('The oil-wetted compartment of the unit (one sample point).'),
+    group: identifier('group').optional().describe('The like-for-like population; configuration rules or the component name assign one when absent.'),
+    sampledAt: z.iso.datetime({ offset: true, message: 'sampledAt must be an ISO 8601 date-time with a time zone, such as 2026-03-01T08:00:00Z' }).describe('When the oil was drawn.'),
+    unitHours: hours('unitHours').optional().describe("Hours on the unit's meter."),
+    oilHours: hours('oilHours').optional().describe('Hours on the current oil charge.'),
+    oilChanged: z.boolean().default(false).describe('The oil was changed at this sample (this sample is on a new charge).'),
+    componentChanged: z.boolean().default(false).describe('The component was replaced or overhauled at this sample: running-in starts again.'),
+    topUpLitres: z.number().finite().min(0, 'topUpLitres must not be negative').max(1e6).default(0).describe('Make-up oil added since the previous sample, in litres.'),
+    lab: identifier('lab').optional().describe('The reporting laboratory.'),
+    readings: z
+      .record(z.string().max(40), readingValue)
+      .refine((r) => Object.keys(r).length > 0, 'readings must hold at least one measurand')
+      .describe(`Readings by measurand: a number, a censored string such as "<1", or for iso4406 a code "18/16/13". Known measurands: ${MEASURAND_NAMES.join(', ')}.`),
+  })
+  .strict();
+
+export type ResultEvent = z.input<typeof ResultEventSchema>;
+
+/** A validated, normalised lab result. */
+export interface Sample {
+  readonly sampleId: string;
+  readonly revision: number;
+  readonly unit: string;
+  readonly component: string;
+  readonly group?: string;
+  readonly sampledAt: string;
+  /** sampledAt in epoch milliseconds, for ordering. */
+  readonly time: number;
+  readonly unitHours?: number;
+  readonly oilHours?: number;
+  readonly oilChanged: boolean;
+  readonly componentChanged: boolean;
+  readonly topUpLitres: number;
+  readonly lab?: string;
+  readonly readings: Readonly<Partial<Record<Measurand, Reading>>>;
+}
+
+export interface FieldIssue {
+  /** Dotted path of the offending field, e.g. `readings.Fe`; empty for the record as a whole. */
+  readonly path: string;
+  readonly reason: string;
+}
+
+export type ParsedEvent = { ok: true; sample: Sample } | { ok: false; issues: FieldIssue[] };
+
+/** Validates one event. Every problem is reported with its field path; nothing is guessed or dropped. */
+export function parseResultEvent(input: unknown): ParsedEvent {
+  const parsed = ResultEventSchema.safeParse(input);
+  if (!parsed.success) return { ok: false, issues: parsed.error.issues.map((i) => ({ path: i.path.join('.'), reason: i.message })) };
+  const e = parsed.data;
+  const issues: FieldIssue[] = [];
+  const readings: Partial<Record<Measurand, Reading>> = {};
+  for (const [name, raw] of Object.entries(e.readings)) {
+    if (!isMeasurand(name)) {
+      issues.push({ path: `readings.${name}`, reason: 'unknown measurand (see the measurand catalogue in the README)' });
+      continue;
+    }
+    const r = parseReading(raw, name);
+    if (r.ok) readings[name] = r.reading;
+    else issues.push({ path: `readings.${name}`, reason: r.reason });
+  }
+  if (issues.length > 0) return { ok: false, issues };
+  const sample: Sample = {
+    sampleId: e.sampleId,
+    revision: e.revision,
+    unit: e.unit,
+    component: e.component,
+    sampledAt: new Date(e.sampledAt).toISOString(),
+    time: Date.parse(e.sampledAt),
+    oilChanged: e.oilChanged,
+    componentChanged: e.componentChanged,
+    topUpLitres: e.topUpLitres,
+    readings,
+    ...(e.group !== undefined && { group: e.group }),
+    ...(e.unitHours !== undefined && { unitHours: e.unitHours }),
+    ...(e.oilHours !== undefined && { oilHours: e.oilHours }),
+    ...(e.lab !== undefined && { lab: e.lab }),
+  };
+  return { ok: true, sample };
+}
+
+/** The identity of a component's history. */
+export function componentKey(s: { unit: string; component: string }): string {
+  return `${s.unit}/${s.component}`;
+}

@@ -1,0 +1,66 @@
+/**
+ * One lab reading. Results below (or above) the method's reporting range are kept as censored values,
+ * never silently turned into numbers: "<1" means "below 1", not 0 and not 1.
+ */
+
+export type Reading =
+  | { readonly kind: 'value'; readonly value: number }
+  | { readonly kind: 'censored'; readonly bound: 'below' | 'above'; readonly limit: number }
+  | { readonly kind: 'code'; readonly code: Iso4406Code };
+
+/** An ISO 4406 code: scale numbers for ≥4, ≥6 and ≥14 µm(c); a microscope count (ISO 4407) has no ≥4 part. */
+export interface Iso4406Code {
+  readonly p4: number | null;
+  readonly p6: number;
+  readonly p14: number;
+}
+
+const CENSORED = /^\s*([<>])\s*=?\s*(\d+(?:\.\d+)?)\s*$/;
+const NUMBER = /^\s*[-+]?\d+(?:\.\d+)?(?:[eE][-+]?\d+)?\s*$/;
+const ISO_CODE = /^\s*(-|\d{1,2})\s*\/\s*(\d{1,2})\s*\/\s*(\d{1,2})\s*$/;
+
+export type ParsedReading = { ok: true; reading: Reading } | { ok: false; reason: string };
+
+/** Parses a reading as labs send it: a number, a censored string such as "<1", or an ISO 4406 code "18/16/13". */
+export function parseReading(raw: unknown, measurand: string): ParsedReading {
+  if (typeof raw === 'number') {
+    if (!Number.isFinite(raw)) return { ok: false, reason: 'must be a finite number' };
+    if (raw < 0) return { ok: false, reason: `must not be negative (got ${raw})` };
+    return { ok: true, reading: { kind: 'value', value: raw } };
+  }
+  if (typeof raw !== 'string') return { ok: false, reason: `expected a number or a string such as "<1", got ${describe(raw)}` };
+  if (measurand === 'iso4406') {
+    const m = ISO_CODE.exec(raw);
+    if (!m) return { ok: false, reason: `expected an ISO 4406 code such as "18/16/13" or "-/16/13", got "${clip(raw)}"` };
+    const [p4, p6, p14] = [m[1] === '-' ? null : Number(m[1]), Number(m[2]), Number(m[3])];
+    if ([p4 ?? 0, p6, p14].some((c) => c > 28)) return { ok: false, reason: `ISO 4406 scale numbers run from 0 to 28, got "${clip(raw)}"` };
+    return { ok: true, reading: { kind: 'code', code: { p4, p6, p14 } } };
+  }
+  const c = CENSORED.exec(raw);
+  if (c) return { ok: true, reading: { kind: 'censored', bound: c[1] === '<' ? 'below' : 'above', limit: Number(c[2]) } };
+  if (NUMBER.test(raw)) return parseReading(Number(raw), measurand);
+  return { ok: false, reason: `expected a number or a censored value such as "<1" or ">5000", got "${clip(raw)}"` };
+}
+
+/** The number to plot or compare; censored readings give their bound, which callers must treat as a bound. */
+export function readingNumber(r: Reading): number | undefined {
+  if (r.kind === 'value') return r.value;
+  if (r.kind === 'censored') return r.limit;
+  return undefined;
+}
+
+export function formatReading(r: Reading): string {
+  if (r.kind === 'value') return String(r.value);
+  if (r.kind === 'censored') return `${r.bound === 'below' ? '<' : '>'}${r.limit}`;
+  return `${r.code.p4 ?? '-'}/${r.code.p6}/${r.code.p14}`;
+}
+
+function describe(v: unknown): string {
+  if (v === null) return 'null';
+  if (Array.isArray(v)) return 'an array';
+  return typeof v;
+}
+
+function clip(s: string): string {
+  return s.length > 40 ? `${s.slice(0, 40)}…` : s;
+}
