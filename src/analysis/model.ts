@@ -73,6 +73,21 @@ export interface RateBaseline {
   readonly components: number;
 }
 
+/**
+ * Sufficient statistics of one component's baseline intervals for one measurand, so that a group baseline can
+ * be pooled from stored sums without reading every component's history again.
+ */
+export interface BaselineSums {
+  readonly intervals: number;
+  readonly sumHours: number;
+  readonly sumHoursSq: number;
+  readonly sumIncrement: number;
+  readonly sumIncrementSq: number;
+  readonly sumIncrementHours: number;
+  /** Sum over intervals of the lab variance of both end readings. */
+  readonly sumLabVariance: number;
+}
+
 export interface GroupStats {
   readonly group: string;
   readonly bands: Readonly<Partial<Record<Measurand, readonly BandStats[]>>>;
@@ -90,4 +105,6 @@ export interface Evaluation {
   readonly history: ComponentHistory;
   /** One step per sample, in time order; the last is the component's current state. */
   readonly steps: readonly Step[];
+  /** The component's own baseline sums per detection measurand, once its baseline is complete. */
+  readonly baselines: Readonly<Partial<Record<Measurand, BaselineSums>>>;
 }
