@@ -37,7 +37,12 @@ export interface Interval {
   readonly firstOfCharge: boolean;
   /** Operating hours of the interval. */
   readonly hours: number;
-  /** Concentration expected at the end with no wear: the previous level diluted by make-up oil or the residual share. */
+  /**
+   * Share of the previous reading that remains at the end with no wear: 1 − topUp/sump on one charge (1 without
+   * a sump volume), the residual fraction after a drain, 0 when the previous reading belongs to a replaced component.
+   */
+  readonly carryOver: number;
+  /** Concentration expected at the end with no wear: carryOver × the previous reading. */
   readonly baseLevel: number;
   /** Reading at the end of the interval (ppm). */
   readonly level: number;
