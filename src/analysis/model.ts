@@ -6,7 +6,8 @@ import type { Measurand } from '../domain/measurands.ts';
 /** One charge: the oil between two oil changes. Wear-metal series restart at every new charge. */
 export interface Charge {
   readonly index: number;
-  readonly startedBy: 'first' | 'oilChanged' | 'oilHoursReset';
+  /** componentChanged: the component was replaced or overhauled; none of the old charge's metal is carried over. */
+  readonly startedBy: 'first' | 'oilChanged' | 'oilHoursReset' | 'componentChanged';
   /** In time order. */
   readonly samples: readonly Sample[];
 }
