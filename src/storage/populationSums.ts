@@ -1,0 +1,83 @@
+/**
+ * Population statistics kept current as results arrive: each result adds its readings to n, sum and sum of
+ * squares of its group's oil-hours band (and its value, for the percentile method); a replacing revision
+ * takes its predecessor's share out first. The rules match `populationBands`, which computes the same
+ * statistics from scratch: latest revision only, a censored reading at its bound, no band without oil hours.
+ */
+import type { BandStats } from '../analysis/model.ts';
+import { populationMeasurands } from '../analysis/populationStats.ts';
+import type { Population } from '../domain/config.ts';
+import type { Sample } from '../domain/event.ts';
+import type { Measurand } from '../domain/measurands.ts';
+import { readingNumber } from '../domain/reading.ts';
+
+/** One reading's share of one band, the band named by its lower edge so that stored sums survive reordering of the edges. */
+export interface BandContribution {
+  readonly measurand: Measurand;
+  readonly fromHours: number;
+  readonly value: number;
+}
+
+export interface BandSums {
+  readonly n: number;
+  readonly sum: number;
+  readonly sumSq: number;
+  /** Sorted; kept for the percentile method only. */
+  readonly values?: readonly number[];
+}
+
+export function bandEdges(population: Population): number[] {
+  return [...new Set(population.bandHours)].sort((a, b) => a - b);
+}
+
+export function bandContributions(sample: Sample, population: Population): BandContribution[] {
+  const edges = bandEdges(population);
+  const oilHours = sample.oilHours;
+  if (oilHours === undefined || !(oilHours >= edges[0]!)) return [];
+  const fromHours = edges.filter((e) => oilHours >= e).at(-1)!;
+  const out: BandContribution[] = [];
+  for (const measurand of populationMeasurands(population)) {
+    const reading = sample.readings[measurand];
+    const value = reading && readingNumber(reading);
+    if (value !== undefined) out.push({ measurand, fromHours, value });
+  }
+  return out;
+}
+
+/**
+ * Summation order differs with arrival order (and Redis adds in long double), which moves the last bits of a
+ * sum. Twelve significant digits is far below any lab's resolution and far above that noise, so the same
+ * results give the same limits whatever the order they came in.
+ */
+const SIGNIFICANT_DIGITS = 12;
+
+function settle(x: number): number {
+  return x === 0 ? 0 : Number(x.toPrecision(SIGNIFICANT_DIGITS));
+}
+
+/** BandStats for every band of every population measurand of the group; an empty band has n = 0. */
+export function bandStatsFromSums(
+  sums: Partial<Record<Measurand, ReadonlyMap<number, BandSums>>>,
+  population: Population,
+): Partial<Record<Measurand, BandStats[]>> {
+  const edges = bandEdges(population);
+  const keepValues = population.method === 'percentile';
+  const out: Partial<Record<Measurand, BandStats[]>> = {};
+  for (const m of populationMeasurands(population)) {
+    out[m] = edges.map((fromHours, i) => {
+      const s = sums[m]?.get(fromHours);
+      const n = s?.n ?? 0;
+      const mean = n === 0 ? 0 : settle(s!.sum / n);
+      const variance = n < 2 ? 0 : Math.max(0, (s!.sumSq - (s!.sum * s!.sum) / n) / (n - 1));
+      return {
+        fromHours,
+        toHours: edges[i + 1] ?? null,
+        n,
+        mean,
+        sd: settle(Math.sqrt(variance)),
+        ...(keepValues && { values: s?.values ?? [] }),
+      };
+    });
+  }
+  return out;
+}
