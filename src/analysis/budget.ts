@@ -1,0 +1,56 @@
+/**
+ * From a false-alarm budget to the in-control run length each chart must have, and from that to the chart limits.
+ *
+ * The conversion (used by the built-in defaults):
+ * - samples per component in the budget period = years · hoursPerYear / sampleIntervalHours;
+ * - the component may raise `alarms` false alarms in that period, so its in-control ARL (in samples) is that number / alarms;
+ * - a component runs `charts` charts (detection measurands × enabled detectors; a two-sided chart counts once, with its
+ *   two-sided run length). Treated as independent, their false-alarm rates add, 1/ARL_component = Σ 1/ARL_chart, so each
+ *   chart needs ARL0 = ARL_component · charts.
+ * The monitored statistic is a standardised one-step prediction error, N(0, 1) and independent in control, so the limits are
+ * designed for exactly that input: h for the CUSUM with its configured k and headstart, L for the EWMA with exact
+ * time-varying limits, which is what the detectors draw.
+ */
+import type { Budget, Detection } from '../domain/config.ts';
+import { InputError } from '../domain/errors.ts';
+import { cusumDecisionInterval } from './arl/solveCusum.ts';
+import { ewmaLimitWidth } from './arl/solveEwma.ts';
+
+const NUMBER = String.raw`(\d+(?:\.\d+)?|\.\d+)`;
+const BUDGET_TEXT = new RegExp(String.raw`^\s*${NUMBER}\s*(?:false\s+alarms?\s+)?per\s+component\s+(?:per|every|in)\s+(?:${NUMBER}\s+)?years?\s*$`, 'i');
+
+/** Reads "1 per component per 5 years", "2 per component per year" (also "… every 2 years", "1 false alarm per component …"). */
+export function parseBudget(text: string): { alarms: number; years: number } {
+  const m = BUDGET_TEXT.exec(text);
+  if (!m) throw new InputError(`false-alarm budget "${text}" not understood: expected e.g. "1 per component per 5 years" or "2 per component per year"`);
+  const alarms = Number(m[1]);
+  const years = m[2] === undefined ? 1 : Number(m[2]);
+  if (!(alarms > 0)) throw new InputError(`false-alarm budget "${text}": the number of alarms must be more than 0`);
+  if (!(years > 0)) throw new InputError(`false-alarm budget "${text}": the period must be more than 0 years`);
+  return { alarms, years };
+}
+
+/** Samples one component gives in the budget period. */
+export function samplesPerBudgetPeriod(b: Budget): number {
+  return (b.years * b.hoursPerYear) / b.sampleIntervalHours;
+}
+
+/** In-control ARL (in samples) each of `charts` charts of one component needs to keep within the budget. */
+export function targetArl(b: Budget, charts: number): number {
+  if (!(Number.isInteger(charts) && charts >= 1)) throw new RangeError(`charts per component must be a whole number ≥ 1, got ${charts}`);
+  return (samplesPerBudgetPeriod(b) / b.alarms) * charts;
+}
+
+/**
+ * The limits the detectors use: d.ewma.L and d.cusum.h when configured, otherwise derived from the budget. With no detector
+ * enabled `charts` is 0 and the limits are designed as for a single chart, so that they stay defined.
+ */
+export function detectionLimits(d: Detection): { arl0: number; charts: number; ewmaL: number; cusumH: number } {
+  const detectors = (d.ewma.enabled ? 1 : 0) + (d.cusum.enabled ? 1 : 0);
+  const charts = d.measurands.length * detectors;
+  const arl0 = targetArl(d.budget, Math.max(1, charts));
+  const sided = d.sided === 'two' ? 'two' : 'one';
+  const ewmaL = d.ewma.L ?? ewmaLimitWidth({ lambda: d.ewma.lambda, arl0, sided, exactLimits: true });
+  const cusumH = d.cusum.h ?? cusumDecisionInterval({ k: d.cusum.k, arl0, sided, headstart: d.cusum.headstart });
+  return { arl0, charts, ewmaL, cusumH };
+}
