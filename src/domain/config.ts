@@ -5,6 +5,7 @@
 import { z } from 'zod';
 import { MEASURAND_NAMES, type Measurand } from './measurands.ts';
 import { parseReading } from './reading.ts';
+import { ChannelsSchema, EscalationSchema, escalationChannelIssues, IncidentsConfigSchema } from './escalationConfig.ts';
 
 const measurandName = z.enum(MEASURAND_NAMES as [Measurand, ...Measurand[]], { error: (i) => `unknown measurand "${String(i.input)}"` });
 const positive = z.number().finite().positive();
@@ -143,9 +144,13 @@ export const ConfigSchema = z
       .object({ quietAfterDays: positive.default(30).describe('Findings on samples older than this when they arrive are recorded but page nobody.') })
       .strict()
       .default({ quietAfterDays: 30 }),
+    incidents: IncidentsConfigSchema.default(IncidentsConfigSchema.parse({})),
+    escalation: EscalationSchema.default({ policies: [] }),
+    channels: ChannelsSchema.default({ webhooks: [], mqtt: [] }),
   })
   .strict()
   .superRefine((c, ctx) => {
+    for (const issue of escalationChannelIssues(c.escalation, c.channels)) ctx.addIssue({ code: 'custom', ...issue });
     c.groups.forEach((g, i) => {
       if (g.match?.unit === undefined) return;
       try {

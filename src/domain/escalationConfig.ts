@@ -1,0 +1,178 @@
+/**
+ * Configuration of incidents, escalation policies and notification channels (the `incidents`, `escalation`
+ * and `channels` sections). The incident engine reads the first two; the notification channels read the third.
+ */
+import { z } from 'zod';
+import { SEVERITIES } from './finding.ts';
+
+const positive = z.number().finite().positive();
+const name = z.string().min(1).max(80).regex(/^[A-Za-z0-9][A-Za-z0-9._-]*$/, 'a name may hold letters, digits, . _ - only');
+const envName = z.string().regex(/^[A-Z_][A-Z0-9_]*$/, 'expected an environment variable name such as WEBHOOK_SECRET');
+
+export const IncidentsConfigSchema = z
+  .object({
+    scope: z
+      .enum(['component', 'measurand'])
+      .default('component')
+      .describe('component: one open incident per unit/component; measurand: one per unit/component/measurand.'),
+    returnAfterSamples: z
+      .number()
+      .int()
+      .min(1)
+      .default(2)
+      .describe('Consecutive samples without findings after which an incident has returned to normal.'),
+    reopenWithinSamples: z
+      .number()
+      .int()
+      .min(0)
+      .default(3)
+      .describe('A finding within this many samples after the return to normal (or after closing) reopens the incident instead of opening a new one.'),
+    maxShelveHours: positive
+      .default(168)
+      .describe('Longest allowed shelving; shelving is always time-limited so that nothing stays suppressed by oversight.'),
+  })
+  .strict();
+export type IncidentsConfig = z.infer<typeof IncidentsConfigSchema>;
+
+export const EscalationTierSchema = z
+  .object({
+    afterMinutes: z.number().finite().min(0).describe('Minutes after the incident was announced without acknowledgement; tier 0 is usually 0.'),
+    email: z.array(z.email()).optional().describe('E-mail addresses.'),
+    webhooks: z.array(name).optional().describe('Names of entries in channels.webhooks.'),
+    mqtt: z.array(name).optional().describe('Names of entries in channels.mqtt.'),
+  })
+  .strict()
+  .refine((t) => (t.email?.length ?? 0) + (t.webhooks?.length ?? 0) + (t.mqtt?.length ?? 0) > 0, {
+    message: 'a tier needs at least one e-mail address, webhook or MQTT channel',
+  });
+export type EscalationTier = z.infer<typeof EscalationTierSchema>;
+
+export const EscalationPolicySchema = z
+  .object({
+    name,
+    match: z
+      .object({
+        groups: z.array(z.string().min(1)).min(1).optional().describe('Groups the policy applies to; absent: every group.'),
+        severities: z.array(z.enum(SEVERITIES)).min(1).optional().describe('Incident severities the policy applies to; absent: every severity.'),
+      })
+      .strict()
+      .default({}),
+    tiers: z
+      .array(EscalationTierSchema)
+      .min(1)
+      .refine((tiers) => tiers.every((t, i) => i === 0 || t.afterMinutes >= tiers[i - 1]!.afterMinutes), {
+        message: 'tiers must be in order of afterMinutes',
+      }),
+    repeatMinutes: positive.optional().describe('Re-send the last tier this often while the incident stays active and unacknowledged.'),
+  })
+  .strict();
+export type EscalationPolicy = z.infer<typeof EscalationPolicySchema>;
+
+export const EscalationSchema = z
+  .object({
+    policies: z
+      .array(EscalationPolicySchema)
+      .default([])
+      .describe('The first policy whose match fits the incident applies; with none, incidents are recorded and listed but nobody is notified.'),
+  })
+  .strict()
+  .refine((e) => new Set(e.policies.map((p) => p.name)).size === e.policies.length, { message: 'policy names must be unique', path: ['policies'] });
+export type Escalation = z.infer<typeof EscalationSchema>;
+
+const webhookSecret = z
+  .string()
+  .refine((s) => /^whsec_[A-Za-z0-9+/=]+$/.test(s) || /^[A-Z_][A-Z0-9_]*$/.test(s), {
+    message: 'expected an environment variable name (such as WEBHOOK_SECRET) or a literal secret "whsec_<base64>"',
+  });
+
+export const ChannelsSchema = z
+  .object({
+    email: z
+      .object({
+        from: z.string().min(3).describe('Sender, e.g. "wearshift <alerts@plant.example>".'),
+        smtp: z
+          .object({
+            host: z.string().min(1),
+            port: z.number().int().min(1).max(65535).default(587),
+            secure: z.boolean().optional().describe('TLS from the start (port 465); absent: STARTTLS when the server offers it.'),
+            user: z.string().optional(),
+            passwordEnv: envName.optional().describe('Environment variable holding the SMTP password.'),
+          })
+          .strict(),
+      })
+      .strict()
+      .optional(),
+    webhooks: z
+      .array(
+        z
+          .object({
+            name,
+            url: z.url({ protocol: /^https?$/ }),
+            secrets: z
+              .array(webhookSecret)
+              .min(1)
+              .describe('Standard Webhooks signing secrets; several during a rotation. Each is an environment variable name or a literal whsec_ value.'),
+            timeoutMs: z.number().int().positive().default(10_000),
+          })
+          .strict(),
+      )
+      .default([]),
+    mqtt: z
+      .array(
+        z
+          .object({
+            name,
+            url: z.url({ protocol: /^(mqtts?|wss?)$/ }),
+            topic: z
+              .string()
+              .min(1)
+              .default('plant/{unit}/{component}/oil')
+              .refine((t) => !/[+#]/.test(t.replace(/\{(unit|component|group)\}/g, '')), { message: 'a topic to publish to must not hold the wildcards + or #' })
+              .refine((t) => (t.match(/\{[^}]*\}/g) ?? []).every((p) => ['{unit}', '{component}', '{group}'].includes(p)), {
+                message: 'topic placeholders are {unit}, {component} and {group}',
+              }),
+            qos: z.union([z.literal(0), z.literal(1), z.literal(2)]).default(1),
+            username: z.string().optional(),
+            passwordEnv: envName.optional(),
+          })
+          .strict(),
+      )
+      .default([]),
+    ackLinks: z
+      .object({
+        baseUrl: z.url({ protocol: /^https?$/ }).describe('Public address of the HTTP API, for signed acknowledgement links in e-mails.'),
+        secretEnv: envName.describe('Environment variable holding the link-signing secret.'),
+        ttlHours: positive.default(72).describe('How long a link works.'),
+      })
+      .strict()
+      .optional(),
+  })
+  .strict()
+  .refine((c) => new Set(c.webhooks.map((w) => w.name)).size === c.webhooks.length, { message: 'webhook names must be unique', path: ['webhooks'] })
+  .refine((c) => new Set(c.mqtt.map((m) => m.name)).size === c.mqtt.length, { message: 'MQTT channel names must be unique', path: ['mqtt'] });
+export type Channels = z.infer<typeof ChannelsSchema>;
+
+export interface ConfigIssue {
+  readonly path: (string | number)[];
+  readonly message: string;
+}
+
+/** Escalation tiers may only name channels that exist; found at load time rather than when the first alarm fires. */
+export function escalationChannelIssues(escalation: Escalation, channels: Channels): ConfigIssue[] {
+  const webhooks = new Set(channels.webhooks.map((w) => w.name));
+  const mqtt = new Set(channels.mqtt.map((m) => m.name));
+  const issues: ConfigIssue[] = [];
+  escalation.policies.forEach((policy, p) =>
+    policy.tiers.forEach((tier, t) => {
+      const at = ['escalation', 'policies', p, 'tiers', t];
+      if ((tier.email?.length ?? 0) > 0 && channels.email === undefined) issues.push({ path: [...at, 'email'], message: 'e-mail targets need channels.email' });
+      tier.webhooks?.forEach((w, i) => {
+        if (!webhooks.has(w)) issues.push({ path: [...at, 'webhooks', i], message: `no webhook named "${w}" in channels.webhooks` });
+      });
+      tier.mqtt?.forEach((m, i) => {
+        if (!mqtt.has(m)) issues.push({ path: [...at, 'mqtt', i], message: `no MQTT channel named "${m}" in channels.mqtt` });
+      });
+    }),
+  );
+  return issues;
+}

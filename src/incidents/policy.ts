@@ -1,0 +1,58 @@
+/** Which escalation policy applies to an incident, and who of a tier hears of which event. */
+import type { Config } from '../domain/config.ts';
+import type { EscalationPolicy, EscalationTier, IncidentsConfig } from '../domain/escalationConfig.ts';
+import type { Severity } from '../domain/finding.ts';
+import type { ChannelKind, IncidentEventType } from './model.ts';
+
+/** The configuration the incident engine works by. */
+export interface IncidentRules {
+  readonly incidents: IncidentsConfig;
+  readonly policies: readonly EscalationPolicy[];
+}
+
+export function incidentRules(config: Pick<Config, 'incidents' | 'escalation'>): IncidentRules {
+  return { incidents: config.incidents, policies: config.escalation.policies };
+}
+
+export function selectPolicy(policies: readonly EscalationPolicy[], group: string, severity: Severity): EscalationPolicy | undefined {
+  return policies.find(
+    (p) => (p.match.groups === undefined || p.match.groups.includes(group)) && (p.match.severities === undefined || p.match.severities.includes(severity)),
+  );
+}
+
+/**
+ * E-mail carries what asks a person to act or tells them the matter is settled; the return to normal alone is
+ * news for the systems that mirror incident state (webhooks, MQTT), not for someone's inbox.
+ */
+const EMAIL_EVENTS: ReadonlySet<IncidentEventType> = new Set([
+  'wearshift.incident.opened',
+  'wearshift.incident.updated',
+  'wearshift.incident.escalated',
+  'wearshift.incident.acknowledged',
+  'wearshift.incident.closed',
+]);
+
+export interface Recipient {
+  readonly channel: ChannelKind;
+  readonly target: string;
+  readonly tier: number;
+}
+
+/** The recipients of tiers `fromTier..toTier` for one event; someone named in several tiers hears it once, at the lowest. */
+export function recipients(policy: EscalationPolicy, fromTier: number, toTier: number, type: IncidentEventType): Recipient[] {
+  const seen = new Set<string>();
+  const out: Recipient[] = [];
+  const add = (channel: ChannelKind, target: string, tier: number) => {
+    const id = `${channel}:${target}`;
+    if (seen.has(id)) return;
+    seen.add(id);
+    out.push({ channel, target, tier });
+  };
+  policy.tiers.slice(fromTier, toTier + 1).forEach((tier: EscalationTier, i) => {
+    const index = fromTier + i;
+    if (EMAIL_EVENTS.has(type)) tier.email?.forEach((a) => add('email', a, index));
+    tier.webhooks?.forEach((w) => add('webhook', w, index));
+    tier.mqtt?.forEach((m) => add('mqtt', m, index));
+  });
+  return out;
+}
