@@ -1,0 +1,64 @@
+/**
+ * The in-control wear rate and its spread, learnt from stable history (after running-in) and pooled
+ * across a group while a component's own history is short.
+ *
+ * Model, per interval i on one charge: increment_i = g·h_i + e_i with Var(e_i) = labVar_i + q·h_i, where g is
+ * the wear rate (ppm/h), q the variance the wear process adds per hour and labVar_i the lab variance of both
+ * readings. g is the ratio estimator Σincrement/Σhours (least squares for a variance growing with hours);
+ * q comes from the residuals by the method of moments: Σ(increment − g·h)² = ΣlabVar + q·Σh.
+ */
+import type { BaselineSums, Interval, RateBaseline } from './model.ts';
+
+export const EMPTY_SUMS: BaselineSums = {
+  intervals: 0,
+  sumHours: 0,
+  sumHoursSq: 0,
+  sumIncrement: 0,
+  sumIncrementSq: 0,
+  sumIncrementHours: 0,
+  sumLabVariance: 0,
+};
+
+export function addInterval(s: BaselineSums, i: Pick<Interval, 'hours' | 'increment'>, labVar: number): BaselineSums {
+  return {
+    intervals: s.intervals + 1,
+    sumHours: s.sumHours + i.hours,
+    sumHoursSq: s.sumHoursSq + i.hours ** 2,
+    sumIncrement: s.sumIncrement + i.increment,
+    sumIncrementSq: s.sumIncrementSq + i.increment ** 2,
+    sumIncrementHours: s.sumIncrementHours + i.increment * i.hours,
+    sumLabVariance: s.sumLabVariance + labVar,
+  };
+}
+
+export function poolBaselines(all: Iterable<BaselineSums>): BaselineSums {
+  let out = EMPTY_SUMS;
+  for (const s of all) {
+    out = {
+      intervals: out.intervals + s.intervals,
+      sumHours: out.sumHours + s.sumHours,
+      sumHoursSq: out.sumHoursSq + s.sumHoursSq,
+      sumIncrement: out.sumIncrement + s.sumIncrement,
+      sumIncrementSq: out.sumIncrementSq + s.sumIncrementSq,
+      sumIncrementHours: out.sumIncrementHours + s.sumIncrementHours,
+      sumLabVariance: out.sumLabVariance + s.sumLabVariance,
+    };
+  }
+  return out;
+}
+
+/**
+ * The wear process is never perfectly smooth: load and duty vary. The floor keeps the filter from treating
+ * the level as a perfect straight line (which would make it blind to its own estimation error): at least a
+ * tenth of the typical interval's wear, as one standard deviation per typical interval.
+ */
+const PROCESS_SPREAD_FLOOR = 0.1;
+
+export function rateBaseline(s: BaselineSums, components: number, typicalIntervalHours: number): RateBaseline | undefined {
+  if (s.intervals === 0 || s.sumHours <= 0) return undefined;
+  const rate = s.sumIncrement / s.sumHours;
+  const rss = s.sumIncrementSq - 2 * rate * s.sumIncrementHours + rate ** 2 * s.sumHoursSq;
+  const moment = (rss - s.sumLabVariance) / s.sumHours;
+  const floor = (PROCESS_SPREAD_FLOOR * Math.abs(rate)) ** 2 * typicalIntervalHours;
+  return { rate, processVariance: Math.max(moment, floor, 1e-9), intervals: s.intervals, components };
+}

@@ -1,0 +1,118 @@
+/**
+ * Calibration of the change detectors on the documented noise model (src/simulation/wearSeries.ts):
+ * in control, the observed run length to the first false signal must match the designed in-control ARL;
+ * after a wear-rate step, the detectors must catch it, and the delay is reported.
+ *
+ * The designed ARLs come from the project's own Markov-chain design, which tests/reference/arl*.test.ts checks
+ * against published tables (Lucas & Crosier 1982; Lucas & Saccucci 1990); this test closes the loop from the
+ * design to the data.
+ */
+import { describe, expect, it } from 'vitest';
+import { cusumDecisionInterval } from '../../src/analysis/arl/solveCusum.ts';
+import { ewmaLimitWidth } from '../../src/analysis/arl/solveEwma.ts';
+import { evaluateComponent } from '../../src/analysis/evaluate.ts';
+import type { GroupStats } from '../../src/analysis/model.ts';
+import { parseConfig } from '../../src/domain/configFile.ts';
+import { resolveSettings } from '../../src/domain/settings.ts';
+import { IN_CONTROL, SIM_CONFIG, simulatedSamples, steppedFe } from '../helpers/wearFleet.ts';
+
+const ARL0 = 100;
+const SERIES = 300;
+const LENGTH = 500;
+
+function settingsFor(baselineIntervals: number) {
+  const h = cusumDecisionInterval({ k: 0.5, arl0: ARL0, sided: 'two' });
+  const L = ewmaLimitWidth({ lambda: 0.2, arl0: ARL0, sided: 'two', exactLimits: true });
+  const config = parseConfig(`${SIM_CONFIG}\n`);
+  const base = resolveSettings(config, { unit: 'SIM', component: 'gearbox', group: 'sim-gearboxes' });
+  return {
+    ...base,
+    detection: { ...base.detection, baselineIntervals, cusum: { enabled: true, k: 0.5, h, headstart: 0 }, ewma: { enabled: true, lambda: 0.2, L } },
+  };
+}
+
+/** The true in-control parameters, as a group baseline pooled from a large population would give them. */
+const KNOWN: GroupStats = {
+  group: 'sim-gearboxes',
+  bands: {},
+  baselines: { Fe: { ...IN_CONTROL.metals.Fe!, intervals: 10_000, components: 100 } },
+};
+
+/** First step index (1 = first monitored interval) at which `rule` fires, or undefined. */
+function firstSignal(steps: ReturnType<typeof evaluateComponent>['steps'], rule: string, from = 1): number | undefined {
+  for (let i = from; i < steps.length; i++) if (steps[i]!.findings.some((f) => f.rule === rule)) return i - from + 1;
+  return undefined;
+}
+
+/** Maximum-likelihood ARL from right-censored geometric run lengths: observed points / signals. */
+function estimateArl(runs: (number | undefined)[], horizon: number): { arl: number; signals: number } {
+  let points = 0;
+  let signals = 0;
+  for (const r of runs) {
+    points += r ?? horizon;
+    if (r !== undefined) signals++;
+  }
+  return { arl: points / signals, signals };
+}
+
+describe('in-control false-alarm rate matches the design', () => {
+  it(`with known in-control parameters: observed ARL within ±20 % of the designed ${ARL0} (CUSUM k=0.5 and EWMA λ=0.2, two-sided)`, () => {
+    const settings = settingsFor(1_000_000);
+    const runs = { cusum: [] as (number | undefined)[], ewma: [] as (number | undefined)[] };
+    for (let s = 0; s < SERIES; s++) {
+      const ev = evaluateComponent(simulatedSamples({ samples: LENGTH + 1 }, 1000 + s), settings, KNOWN);
+      runs.cusum.push(firstSignal(ev.steps, 'cusum'));
+      runs.ewma.push(firstSignal(ev.steps, 'ewma'));
+    }
+    const cusum = estimateArl(runs.cusum, LENGTH);
+    const ewma = estimateArl(runs.ewma, LENGTH);
+    console.info(`calibration, known parameters: CUSUM ARL ${cusum.arl.toFixed(1)} (${cusum.signals} signals), EWMA ARL ${ewma.arl.toFixed(1)} (${ewma.signals} signals); designed ${ARL0}`);
+    // With ~300 signals the estimate's relative standard error is about 1/sqrt(300) ≈ 6 %: ±20 % is over 3 standard errors.
+    expect(cusum.arl).toBeGreaterThan(ARL0 * 0.8);
+    expect(cusum.arl).toBeLessThan(ARL0 * 1.2);
+    expect(ewma.arl).toBeGreaterThan(ARL0 * 0.8);
+    expect(ewma.arl).toBeLessThan(ARL0 * 1.2);
+  });
+
+  it('with the in-control rate and spread learnt from 8 own intervals: observed ARL within ±25 % of the design', () => {
+    const settings = settingsFor(8);
+    const runs = { cusum: [] as (number | undefined)[], ewma: [] as (number | undefined)[] };
+    for (let s = 0; s < 250; s++) {
+      const ev = evaluateComponent(simulatedSamples({ samples: LENGTH + 9 }, 3000 + s), settings);
+      runs.cusum.push(firstSignal(ev.steps, 'cusum', 9));
+      runs.ewma.push(firstSignal(ev.steps, 'ewma', 9));
+    }
+    const cusum = estimateArl(runs.cusum, LENGTH);
+    const ewma = estimateArl(runs.ewma, LENGTH);
+    console.info(`calibration, own 8-interval baseline: CUSUM ARL ${cusum.arl.toFixed(1)}, EWMA ARL ${ewma.arl.toFixed(1)}; designed ${ARL0}`);
+    // Estimation error in a short baseline usually inflates false alarms; the process-spread floor and the
+    // moment estimator's upward bias offset it here. The wider band allows for that and for sampling error.
+    for (const r of [cusum, ewma]) {
+      expect(r.arl).toBeGreaterThan(ARL0 * 0.75);
+      expect(r.arl).toBeLessThan(ARL0 * 1.25);
+    }
+  });
+});
+
+describe('a wear-rate step is detected', () => {
+  it('doubling of the Fe wear rate after 30 samples: both detectors catch it, median delay reported', () => {
+    const settings = settingsFor(8);
+    const delays = { cusum: [] as number[], ewma: [] as number[] };
+    const stepAt = 30;
+    for (let s = 0; s < 100; s++) {
+      const samples = simulatedSamples({ samples: stepAt + 60, metals: steppedFe(stepAt * IN_CONTROL.intervalHours, 2) }, 5000 + s);
+      const ev = evaluateComponent(samples, settings);
+      const first = ev.steps.findIndex((st) => Date.parse(st.sampledAt) - IN_CONTROL.startTime >= stepAt * IN_CONTROL.intervalHours * 3_600_000);
+      for (const rule of ['cusum', 'ewma'] as const) {
+        const d = firstSignal(ev.steps, rule, first);
+        if (d !== undefined) delays[rule].push(d);
+      }
+    }
+    const median = (xs: number[]) => [...xs].sort((a, b) => a - b)[Math.floor(xs.length / 2)]!;
+    console.info(`step ×2: CUSUM caught ${delays.cusum.length}/100, median delay ${median(delays.cusum)} samples; EWMA caught ${delays.ewma.length}/100, median ${median(delays.ewma)}`);
+    expect(delays.cusum.length).toBeGreaterThanOrEqual(95);
+    expect(delays.ewma.length).toBeGreaterThanOrEqual(95);
+    expect(median(delays.cusum)).toBeLessThanOrEqual(6);
+    expect(median(delays.ewma)).toBeLessThanOrEqual(6);
+  });
+});
