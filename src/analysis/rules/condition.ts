@@ -19,9 +19,10 @@ import type { Levels } from '../../domain/config.ts';
 import type { Finding } from '../../domain/finding.ts';
 import type { Measurand } from '../../domain/measurands.ts';
 import type { Reading } from '../../domain/reading.ts';
-import { crossing, findingAt, formatNumber, measurandTitle, quantity, readingText, type RuleInput, type Verdict } from './ruleInput.ts';
+import { crossing, findingAt, type Crossing, formatNumber, measurandTitle, quantity, readingText, type RuleInput, type Verdict } from './ruleInput.ts';
 
-type Judge = (reading: Reading, input: RuleInput) => Omit<Verdict, 'measurand' | 'rule'> | undefined;
+type Judgement = Omit<Verdict, 'measurand' | 'rule'>;
+type Judge = (reading: Reading, input: RuleInput) => Judgement | undefined;
 
 export function conditionFindings(input: RuleInput): Finding[] {
   const findings: Finding[] = [];
@@ -53,34 +54,16 @@ function baseNumber(reading: Reading, input: RuleInput) {
   if (fresh === undefined || !(fresh > 0)) return undefined;
   const fraction = input.settings.condition.tbnFallFraction;
   const fractions = { alarm: fraction, caution: (1 + fraction) / 2 };
-  const c = crossing(reading, { alarm: fresh * fractions.alarm, caution: fresh * fractions.caution }, 'below');
-  if (!c) return undefined;
-  return {
-    severity: c.severity,
-    value: c.value,
-    threshold: c.level,
-    basis: 'reading',
-    explanation:
-      `${measurandTitle('tbn')} ${readingText('tbn', reading)} is below the ${c.severity} level of ${quantity('tbn', c.level)} ` +
-      `(${formatNumber(fractions[c.severity])} of the new-oil ${quantity('tbn', fresh)}).`,
-  };
+  const levels = { alarm: fresh * fractions.alarm, caution: fresh * fractions.caution };
+  return levelVerdict('tbn', reading, levels, 'below', (c) => `${formatNumber(fractions[c.severity])} of the new-oil ${quantity('tbn', fresh)}`);
 }
 
 function acidNumber(reading: Reading, input: RuleInput) {
   const fresh = input.settings.newOil.tan;
   if (fresh === undefined) return undefined;
   const rise = input.settings.condition.tanRise;
-  const c = crossing(reading, { caution: fresh + rise.caution, alarm: fresh + rise.alarm }, 'above');
-  if (!c) return undefined;
-  return {
-    severity: c.severity,
-    value: c.value,
-    threshold: c.level,
-    basis: 'reading',
-    explanation:
-      `${measurandTitle('tan')} ${readingText('tan', reading)} is above the ${c.severity} level of ${quantity('tan', c.level)} ` +
-      `(new oil ${quantity('tan', fresh)} plus ${quantity('tan', rise[c.severity])}).`,
-  };
+  const levels = { caution: fresh + rise.caution, alarm: fresh + rise.alarm };
+  return levelVerdict('tan', reading, levels, 'above', (c) => `new oil ${quantity('tan', fresh)} plus ${quantity('tan', rise[c.severity])}`);
 }
 
 function viscosity(m: 'v40' | 'v100', reading: Reading, input: RuleInput) {
@@ -104,29 +87,26 @@ function viscosity(m: 'v40' | 'v100', reading: Reading, input: RuleInput) {
 }
 
 function riseOverNew(m: 'oxidation' | 'nitration', reading: Reading, input: RuleInput) {
-  const levels = input.settings.condition[m];
   const fresh = input.settings.newOil[m];
-  const c = crossing(reading, shifted(levels, fresh ?? 0), 'above');
-  if (!c) return undefined;
-  const reference = fresh === undefined ? 'taken as the rise over new oil' : `new oil ${quantity(m, fresh)} plus ${quantity(m, c.level - fresh)}`;
-  return {
-    severity: c.severity,
-    value: c.value,
-    threshold: c.level,
-    basis: 'reading',
-    explanation: `${measurandTitle(m)} ${readingText(m, reading)} is above the ${c.severity} level of ${quantity(m, c.level)} (${reference}).`,
-  };
+  return levelVerdict(m, reading, shifted(input.settings.condition[m], fresh ?? 0), 'above', (c) =>
+    fresh === undefined ? 'taken as the rise over new oil' : `new oil ${quantity(m, fresh)} plus ${quantity(m, c.level - fresh)}`,
+  );
 }
 
 function fixedLevel(m: 'water' | 'fuel' | 'soot', reading: Reading, levels: Levels) {
-  const c = crossing(reading, levels, 'above');
+  return levelVerdict(m, reading, levels, 'above');
+}
+
+/** A reading judged against caution/alarm levels, in the family's one sentence; `note` says where the level comes from. */
+function levelVerdict(m: Measurand, reading: Reading, levels: Levels, side: 'above' | 'below', note?: (c: Crossing) => string): Judgement | undefined {
+  const c = crossing(reading, levels, side);
   if (!c) return undefined;
   return {
     severity: c.severity,
     value: c.value,
     threshold: c.level,
     basis: 'reading',
-    explanation: `${measurandTitle(m)} ${readingText(m, reading)} is above the ${c.severity} level of ${quantity(m, c.level)}.`,
+    explanation: `${measurandTitle(m)} ${readingText(m, reading)} is ${side} the ${c.severity} level of ${quantity(m, c.level)}${note ? ` (${note(c)})` : ''}.`,
   };
 }
 
