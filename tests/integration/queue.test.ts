@@ -1,0 +1,220 @@
+/**
+ * The live pipeline on a private redis-server: producer → results worker → evaluate worker. Delivery is at
+ * least once and in any order; the stored state must not care.
+ */
+import type { Queue } from 'bullmq';
+import type { Redis } from 'ioredis';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { parseConfig } from '../../src/domain/configFile.ts';
+import type { ResultEvent } from '../../src/domain/event.ts';
+import { createResultProducer } from '../../src/intake/producer.ts';
+import { openQueue, QUEUE_NAMES, resolveQueueSettings, scheduleEvaluation } from '../../src/queue/queues.ts';
+import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
+import { silentLogger } from '../../src/runtime/logger.ts';
+import { RedisStorage } from '../../src/storage/redisStorage.ts';
+import { FLEET_CONFIG, inventedFleet } from '../helpers/fleetCsv.ts';
+import { drained } from '../helpers/queueDrain.ts';
+import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+
+const config = parseConfig(FLEET_CONFIG);
+let server: RedisServer;
+let prefixes = 0;
+
+beforeAll(async () => {
+  server = await startRedisServer();
+});
+afterAll(async () => {
+  await server?.dispose();
+});
+
+interface Line {
+  prefix: string;
+  connection: Redis;
+  workers: RunningWorkers;
+  queues: Queue[];
+  storage: RedisStorage;
+  send(events: readonly unknown[]): Promise<void>;
+  close(): Promise<void>;
+}
+
+async function pipeline(): Promise<Line> {
+  const prefix = `{q${++prefixes}}`;
+  const connection = server.client();
+  const workers = startWorkers({ connection, config, logger: silentLogger() }, { prefix, backoffMs: 50 });
+  const settings = resolveQueueSettings({ prefix });
+  const queues = [openQueue(QUEUE_NAMES.results, connection, settings), openQueue(QUEUE_NAMES.evaluate, connection, settings)];
+  const producer = createResultProducer({ connection, prefix });
+  return {
+    prefix,
+    connection,
+    workers,
+    queues,
+    storage: new RedisStorage(connection, { prefix }),
+    async send(events) {
+      const outcomes = await producer.add(events);
+      expect(outcomes.filter((o) => o.status !== 'accepted')).toEqual([]);
+      await drained(queues);
+    },
+    async close() {
+      await producer.close();
+      await workers.close();
+      await Promise.all(queues.map((q) => q.close()));
+    },
+  };
+}
+
+/** Everything the store holds that the order of arrival must not change. */
+async function storedState(line: Line) {
+  const components = await line.storage.components();
+  const perComponent = await Promise.all(
+    components.map(async (c) => ({
+      entry: c,
+      revisions: (await line.storage.revisions(c)).map((s) => `${s.sampleId}#${s.revision}`).sort(),
+      findings: await line.storage.findings(c),
+    })),
+  );
+  const groups = [...new Set(components.map((c) => c.group))].sort();
+  const population = await Promise.all(groups.map(async (g) => [g, Object.entries(await line.storage.population(g)).map(([m, bands]) => [m, [...bands!].sort((a, b) => a[0] - b[0]).map(([edge, s]) => [edge, s.n, Number(s.sum.toPrecision(12))])])]));
+  const baselines = await Promise.all(groups.map(async (g) => [g, await line.storage.groupBaselines(g)]));
+  return { perComponent, population, baselines };
+}
+
+async function reevaluateAll(line: Line) {
+  for (const c of await line.storage.components()) await scheduleEvaluation(line.queues[1]!, c);
+  await drained(line.queues);
+}
+
+const fleet = inventedFleet({ units: 4, samplesPerUnit: 20 });
+
+describe('live pipeline', () => {
+  it('finds what the fleet holds: the iron limit of the stepped unit and the dirt entry of another', async () => {
+    const line = await pipeline();
+    try {
+      await line.send(fleet);
+      const all = (await Promise.all((await line.storage.components()).map((c) => line.storage.findings(c)))).flat().flatMap((s) => s.findings);
+      expect(all.some((f) => f.unit === 'LS3-Marsh Lane' && f.measurand === 'Si' && f.rule === 'limit' && f.severity === 'alarm')).toBe(true);
+      expect(all.some((f) => f.unit === 'LS2-Marsh Lane' && f.measurand === 'Fe')).toBe(true);
+      expect((await line.storage.components()).map((c) => c.samples)).toEqual([20, 20, 20, 20]);
+    } finally {
+      await line.close();
+    }
+  });
+
+  it('a duplicate delivery changes nothing', async () => {
+    const line = await pipeline();
+    try {
+      await line.send(fleet);
+      const before = await storedState(line);
+      const marks = await Promise.all(before.perComponent.map((c) => line.storage.mark(c.entry)));
+      await line.send(fleet);
+      await line.send(fleet.slice(0, 10));
+      expect(await storedState(line)).toEqual(before);
+      expect(await Promise.all(before.perComponent.map((c) => line.storage.mark(c.entry)))).toEqual(marks);
+    } finally {
+      await line.close();
+    }
+  });
+
+  it('results delivered shuffled, in small bursts, reach the state of in-order delivery', async () => {
+    const inOrder = await pipeline();
+    const shuffled = await pipeline();
+    try {
+      await inOrder.send(fleet);
+      const mixed = [...fleet].sort((a, b) => hash(a.sampleId) - hash(b.sampleId));
+      for (let i = 0; i < mixed.length; i += 7) await shuffled.send(mixed.slice(i, i + 7));
+      // Histories, registry, population sums and baselines depend only on the results.
+      const a = await storedState(inOrder);
+      const b = await storedState(shuffled);
+      expect(b.population).toEqual(a.population);
+      expect(b.baselines).toEqual(a.baselines);
+      expect(b.perComponent.map((c) => [c.entry, c.revisions])).toEqual(a.perComponent.map((c) => [c.entry, c.revisions]));
+      // Findings also depend on the group's state when each component was last evaluated; once every
+      // component is evaluated with all results in, they agree too.
+      await reevaluateAll(inOrder);
+      await reevaluateAll(shuffled);
+      expect((await storedState(shuffled)).perComponent).toEqual((await storedState(inOrder)).perComponent);
+    } finally {
+      await inOrder.close();
+      await shuffled.close();
+    }
+  });
+
+  it('a late result takes its place in the history; a revision replaces the readings of its sample', async () => {
+    const line = await pipeline();
+    try {
+      const unit = 'LS1-Marsh Lane';
+      const own = fleet.filter((e) => e.unit === unit);
+      const late = own[6]!;
+      await line.send(fleet.filter((e) => e !== late));
+      const ref = { unit, component: 'gearbox' };
+      const fedBefore = await line.storage.lastFed(ref);
+      expect((await line.storage.component(ref))!.samples).toBe(19);
+      await line.send([late]);
+      expect((await line.storage.component(ref))!.samples).toBe(20);
+      // The late sample is in the past: the incident feed position stays at the latest sample.
+      expect(await line.storage.lastFed(ref)).toEqual(fedBefore);
+
+      // A sample well below the iron caution level of 45 ppm, so that its own limit finding is the revision's doing.
+      const target = own.slice(8, 16).find((e) => Number(e.readings.Fe) < 30)!;
+      const findingsAt = async (sampleId: string) => (await line.storage.findings(ref)).find((s) => s.sampleId === sampleId)?.findings ?? [];
+      expect((await findingsAt(target.sampleId)).some((f) => f.rule === 'limit' && f.measurand === 'Fe')).toBe(false);
+      const corrected: ResultEvent = { ...target, revision: 1, readings: { ...target.readings, Fe: 95 } };
+      await line.send([corrected]);
+      const revisions = (await line.storage.revisions(ref)).filter((s) => s.sampleId === target.sampleId);
+      expect(revisions.map((r) => r.revision).sort()).toEqual([0, 1]);
+      const after = await findingsAt(target.sampleId);
+      // FLEET_CONFIG: Fe alarm at 70 ppm.
+      expect(after.find((f) => f.rule === 'limit' && f.measurand === 'Fe')).toMatchObject({ severity: 'alarm', value: 95, threshold: 70 });
+      // The original revision arriving again afterwards is history only.
+      await line.send([target]);
+      expect((await findingsAt(target.sampleId)).some((f) => f.rule === 'limit' && f.measurand === 'Fe')).toBe(true);
+    } finally {
+      await line.close();
+    }
+  });
+
+  it('a burst of results for one component collapses into one evaluation of its whole history', async () => {
+    const line = await pipeline();
+    try {
+      const evaluator = line.workers.workers.find((w) => w.name === QUEUE_NAMES.evaluate)!;
+      await evaluator.pause();
+      const own = fleet.filter((e) => e.unit === 'LS4-Marsh Lane');
+      const producer = createResultProducer({ connection: line.connection, prefix: line.prefix });
+      const outcomes = await producer.add(own);
+      await producer.close();
+      expect(outcomes.every((o) => o.status === 'accepted')).toBe(true);
+      await drained([line.queues[0]!]);
+      expect(await line.queues[1]!.getJobCounts('waiting', 'active')).toEqual({ waiting: 1, active: 0 });
+      evaluator.resume();
+      await drained(line.queues);
+      expect(await line.queues[1]!.getCompletedCount()).toBe(1);
+      const ref = { unit: 'LS4-Marsh Lane', component: 'gearbox' };
+      expect(await line.storage.lastFed(ref)).toEqual({ sampleId: own.at(-1)!.sampleId, time: Date.parse(own.at(-1)!.sampledAt) });
+    } finally {
+      await line.close();
+    }
+  });
+
+  it('a job with bad data fails unrecoverably with field and reason; the worker goes on', async () => {
+    const line = await pipeline();
+    try {
+      const results = line.queues[0]!;
+      await results.add('result', { ...fleet[0], readings: { Fe: 'lots' } }, { attempts: 5 });
+      await results.add('result', fleet[1]);
+      await drained(line.queues);
+      const failed = await results.getFailed();
+      expect(failed).toHaveLength(1);
+      expect(failed[0]!.attemptsMade).toBe(1);
+      expect(failed[0]!.failedReason).toMatch(/readings\.Fe: expected a number/);
+      expect((await line.storage.components()).map((c) => c.samples)).toEqual([1]);
+    } finally {
+      await line.close();
+    }
+  });
+});
+
+function hash(s: string): number {
+  let h = 2166136261;
+  for (const ch of s) h = Math.imul(h ^ ch.charCodeAt(0), 16777619) >>> 0;
+  return h;
+}
