@@ -48,9 +48,13 @@ export function poolBaselines(all: Iterable<BaselineSums>): BaselineSums {
 }
 
 /**
- * The wear process is never perfectly smooth: load and duty vary. The floor keeps the filter from treating
- * the level as a perfect straight line (which would make it blind to its own estimation error): at least a
- * tenth of the typical interval's wear, as one standard deviation per typical interval.
+ * Floors on the wear-process variance. Where lab noise dominates, a Kalman filter averages many past readings
+ * and extrapolates them with the baseline rate; the error of a rate learnt from a short baseline then grows
+ * into a bias of the prediction errors (amplified by 1/gain) and the false-alarm rate rises well above design.
+ * So the filter is never allowed to trust its extrapolation more than one fresh reading: over a typical
+ * interval the process variance is at least the variance of one reading (gain ≥ about 0.6), and at least a
+ * tenth of the typical interval's wear as one standard deviation. Where the true process is smoother, the
+ * floor makes the detectors conservative (fewer false alarms than designed), never more alarm-prone.
  */
 const PROCESS_SPREAD_FLOOR = 0.1;
 
@@ -59,6 +63,8 @@ export function rateBaseline(s: BaselineSums, components: number, typicalInterva
   const rate = s.sumIncrement / s.sumHours;
   const rss = s.sumIncrementSq - 2 * rate * s.sumIncrementHours + rate ** 2 * s.sumHoursSq;
   const moment = (rss - s.sumLabVariance) / s.sumHours;
-  const floor = (PROCESS_SPREAD_FLOOR * Math.abs(rate)) ** 2 * typicalIntervalHours;
-  return { rate, processVariance: Math.max(moment, floor, 1e-9), intervals: s.intervals, components };
+  const wearFloor = (PROCESS_SPREAD_FLOOR * Math.abs(rate)) ** 2 * typicalIntervalHours;
+  const readingVariance = s.sumLabVariance / (2 * s.intervals);
+  const labFloor = readingVariance / typicalIntervalHours;
+  return { rate, processVariance: Math.max(moment, wearFloor, labFloor, 1e-9), intervals: s.intervals, components };
 }

@@ -87,7 +87,7 @@ function engine(unit: string, seed: number, leaking: boolean): WearSeriesOptions
       Na: Math.max(0, Math.round(3 + 1 * r.normal() + 18 * leak)),
       K: Math.max(0, Math.round(1 + 0.5 * r.normal() + 9 * leak)),
       glycol: leak > 1.2 ? jitterValue(r, 0.1 * leak, 0.02, 2) : '<0.05',
-      tbn: jitterValue(r, 10.2 - 4.2 * fraction, 0.2),
+      tbn: jitterValue(r, 10.3 - 2.0 * fraction, 0.2),
       v100: jitterValue(r, 14.2 + 0.6 * fraction + (leak > 1 ? 1.2 * leak : 0), 0.15),
       soot: jitterValue(r, 0.2 + 0.9 * fraction, 0.05, 2),
       fuel: Math.max(0, jitterValue(r, 0.6, 0.2)),
@@ -124,11 +124,11 @@ function hydraulic(unit: string, seed: number, bypassing: boolean): WearSeriesOp
     extraReadings: (ctx, r) => {
       const drift = bypassing && ctx.unitHours > driftFrom ? (ctx.unitHours - driftFrom) / 2200 : 0;
       // Counts per mL at ≥4, ≥6 and ≥14 µm(c); each doubling is one ISO 4406 code step.
-      const base = 2 ** (drift + 0.5 * r.normal() * 0.4);
+      const base = 2 ** (drift + 0.2 * r.normal());
       return {
-        p4: Math.round(900 * base),
-        p6: Math.round(240 * base),
-        p14: Math.round(22 * base),
+        p4: Math.round(450 * base),
+        p6: Math.round(120 * base),
+        p14: Math.round(11 * base),
         Si: jitterValue(r, 3, 0.6, 0),
         v40: jitterValue(r, 46, 0.8),
         water: Math.max(20, Math.round(90 + 30 * r.normal())),
