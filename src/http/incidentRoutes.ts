@@ -1,0 +1,104 @@
+/**
+ * The incident API (fastify 5 plugin): list and show for viewers and responders; acknowledge, shelve,
+ * unshelve, resolve and note for responders. Incident ids hold '/' and must be percent-encoded in the path.
+ */
+import type { FastifyPluginAsync, FastifyReply } from 'fastify';
+import { z } from 'zod';
+import { InputError } from '../domain/errors.ts';
+import type { IncidentAction } from '../incidents/applyAction.ts';
+import { IncidentConflictError, IncidentNotFoundError } from '../incidents/errors.ts';
+import { IncidentFilterSchema, type IncidentFilter } from '../incidents/listFilter.ts';
+import type { Incident, IncidentSummary } from '../incidents/model.ts';
+import { requireRole } from './auth.ts';
+
+/** What the routes need of the incident store (the Redis store provides it). */
+export interface IncidentRoutesStore {
+  get(incidentId: string): Promise<Incident | undefined>;
+  list(filter: IncidentFilter): Promise<IncidentSummary[]>;
+  applyAction(action: IncidentAction): Promise<{ incident: Incident }>;
+}
+
+export interface IncidentRoutesOptions {
+  readonly store: IncidentRoutesStore;
+  /** Default: the system clock. */
+  readonly now?: () => Date;
+}
+
+const by = z.string().trim().min(1, 'required').max(80, 'at most 80 characters').describe('Who acts.');
+const text = (max: number) => z.string().trim().min(1, 'required').max(max, `at most ${max} characters`);
+const instant = z.iso.datetime({ offset: true, message: 'expected an ISO 8601 date-time with a time zone, such as 2026-03-01T18:00:00Z' });
+
+const BODIES = {
+  ack: z.object({ by, note: text(2000).optional() }).strict(),
+  shelve: z.object({ by, until: instant, reason: text(500) }).strict(),
+  unshelve: z.object({ by }).strict(),
+  resolve: z.object({ by, note: text(2000) }).strict(),
+  note: z.object({ by, note: text(2000) }).strict(),
+} as const;
+type Verb = keyof typeof BODIES;
+
+function toAction(verb: Verb, incidentId: string, body: unknown, now: Date): IncidentAction | z.ZodError {
+  const base = { incidentId, now };
+  switch (verb) {
+    case 'ack': {
+      const b = BODIES.ack.safeParse(body);
+      return b.success ? { kind: 'acknowledge', ...base, by: b.data.by, ...(b.data.note !== undefined && { note: b.data.note }) } : b.error;
+    }
+    case 'shelve': {
+      const b = BODIES.shelve.safeParse(body);
+      return b.success ? { kind: 'shelve', ...base, by: b.data.by, until: new Date(b.data.until), reason: b.data.reason } : b.error;
+    }
+    case 'unshelve': {
+      const b = BODIES.unshelve.safeParse(body);
+      return b.success ? { kind: 'unshelve', ...base, by: b.data.by } : b.error;
+    }
+    case 'resolve':
+    case 'note': {
+      const b = BODIES[verb].safeParse(body);
+      return b.success ? { kind: verb, ...base, by: b.data.by, note: b.data.note } : b.error;
+    }
+  }
+}
+
+function invalid(reply: FastifyReply, where: 'body' | 'query', error: z.ZodError) {
+  const issues = error.issues.map((i) => ({ field: [where, ...i.path].join('.'), message: i.message }));
+  return reply.code(400).send({ error: 'invalid-request', message: issues.map((i) => `${i.field}: ${i.message}`).join('; '), issues });
+}
+
+function failed(reply: FastifyReply, e: unknown) {
+  if (e instanceof IncidentNotFoundError) return reply.code(404).send({ error: 'not-found', message: e.message });
+  if (e instanceof IncidentConflictError) return reply.code(409).send({ error: 'conflict', message: e.message });
+  if (e instanceof InputError) return reply.code(400).send({ error: 'invalid-request', message: e.message });
+  throw e;
+}
+
+export const incidentRoutes: FastifyPluginAsync<IncidentRoutesOptions> = async (app, options) => {
+  const now = options.now ?? (() => new Date());
+  const read = { preHandler: requireRole('viewer', 'responder') };
+  const act = { preHandler: requireRole('responder') };
+
+  app.get('/v1/incidents', read, async (request, reply) => {
+    const query = IncidentFilterSchema.safeParse(request.query ?? {});
+    if (!query.success) return invalid(reply, 'query', query.error);
+    return { incidents: await options.store.list(query.data) };
+  });
+
+  app.get<{ Params: { id: string } }>('/v1/incidents/:id', read, async (request, reply) => {
+    const incident = await options.store.get(request.params.id);
+    if (incident === undefined) return reply.code(404).send({ error: 'not-found', message: `no incident "${request.params.id}"` });
+    return { incident };
+  });
+
+  for (const verb of Object.keys(BODIES) as Verb[]) {
+    app.post<{ Params: { id: string } }>(`/v1/incidents/:id/${verb}`, act, async (request, reply) => {
+      const action = toAction(verb, request.params.id, request.body, now());
+      if (action instanceof z.ZodError) return invalid(reply, 'body', action);
+      try {
+        const { incident } = await options.store.applyAction(action);
+        return { incident };
+      } catch (e) {
+        return failed(reply, e);
+      }
+    });
+  }
+};
