@@ -1,0 +1,105 @@
+/**
+ * The pages behind e-mailed acknowledgement links (fastify 5 plugin).
+ *
+ * `GET /ack/<token>` only shows what the incident is and a confirmation form: mail scanners and link
+ * previews follow links, so a GET must never acknowledge. `POST /ack/<token>` from that form acknowledges.
+ */
+import type { FastifyPluginAsync, FastifyReply, FastifyRequest } from 'fastify';
+import { verifyAckLink, type AckLinkClaims } from '../notify/ackLink.ts';
+import { ACK_NAME_MAX, ACK_NOTE_MAX, renderAckPage, type AckIncidentSummary, type AckPageView } from '../notify/ackPage.ts';
+import { oneLine } from '../notify/safeText.ts';
+
+export interface AckLinkRoutesOptions {
+  /** Accepted signing secrets, the current one first; older ones keep links already sent working. */
+  secrets: string[];
+  /** Records the acknowledgement; should be idempotent, since two clicks may race. */
+  acknowledge(incidentId: string, by: string, note: string | undefined, context: { recipient: string }): Promise<void>;
+  /** The incident as the page shows it; undefined when no such incident is known. */
+  describe(incidentId: string): Promise<AckIncidentSummary | undefined>;
+  /** The clock for link expiry. Default: the system clock. */
+  now?: () => Date;
+}
+
+const FORM = 'application/x-www-form-urlencoded';
+
+const PAGE_HEADERS = {
+  'content-type': 'text/html; charset=utf-8',
+  // The token is a credential: keep it out of caches, out of Referer headers and out of search engines.
+  'cache-control': 'no-store',
+  'referrer-policy': 'no-referrer',
+  'x-robots-tag': 'noindex',
+  'x-content-type-options': 'nosniff',
+  'content-security-policy': "default-src 'none'; style-src 'unsafe-inline'; form-action 'self'; frame-ancestors 'none'",
+};
+
+export const ackLinkRoutes: FastifyPluginAsync<AckLinkRoutesOptions> = async (app, options) => {
+  if (options.secrets.length === 0) throw new TypeError('ackLinkRoutes: at least one secret is needed');
+  const now = options.now ?? (() => new Date());
+
+  if (!app.hasContentTypeParser(FORM)) {
+    app.addContentTypeParser(FORM, { parseAs: 'string', bodyLimit: 8192 }, (_req, body, done) => {
+      done(null, Object.fromEntries(new URLSearchParams(String(body))));
+    });
+  }
+
+  /** Verifies the link and finds its incident, or answers with the refusal page. */
+  async function resolve(request: FastifyRequest, reply: FastifyReply): Promise<{ claims: AckLinkClaims; incident: AckIncidentSummary } | undefined> {
+    // A wildcard rather than a :token parameter, because the router refuses parameters over 100 characters
+    // by default and a token with a long recipient address is longer than that.
+    const token = (request.params as Record<string, string | undefined>)['*'] ?? '';
+    const verdict = token.includes('/') ? ({ ok: false, reason: 'malformed' } as const) : verifyAckLink(token, options.secrets, now());
+    if (!verdict.ok) {
+      send(reply, verdict.reason === 'expired' ? 410 : 403, { kind: 'refused', reason: verdict.reason });
+      return undefined;
+    }
+    const incident = await options.describe(verdict.claims.incidentId);
+    if (incident === undefined) {
+      send(reply, 404, { kind: 'refused', reason: 'unknown-incident' });
+      return undefined;
+    }
+    return { claims: verdict.claims, incident };
+  }
+
+  app.get('/ack/*', async (request, reply) => {
+    const found = await resolve(request, reply);
+    if (!found) return reply;
+    const { claims, incident } = found;
+    if (incident.closed) return send(reply, 200, { kind: 'closed', incident });
+    if (incident.acknowledgedBy !== undefined) return send(reply, 200, { kind: 'already-acknowledged', incident });
+    return send(reply, 200, { kind: 'confirm', incident, name: claims.recipient, expiresAt: claims.expiresAt });
+  });
+
+  app.post('/ack/*', async (request, reply) => {
+    const found = await resolve(request, reply);
+    if (!found) return reply;
+    const { claims, incident } = found;
+    if (incident.closed) return send(reply, 409, { kind: 'closed', incident });
+    if (incident.acknowledgedBy !== undefined) return send(reply, 200, { kind: 'already-acknowledged', incident });
+
+    const form = (typeof request.body === 'object' && request.body !== null ? request.body : {}) as Record<string, unknown>;
+    const name = oneLine(field(form.name));
+    const note = oneLine(field(form.note));
+    const again = (problem: string) => send(reply, 400, { kind: 'confirm', incident, name, note, expiresAt: claims.expiresAt, problem });
+    if (name === '') return again('Please give your name: the acknowledgement records who owns the incident.');
+    if (name.length > ACK_NAME_MAX) return again(`The name may be at most ${ACK_NAME_MAX} characters long.`);
+    if (note.length > ACK_NOTE_MAX) return again(`The note may be at most ${ACK_NOTE_MAX} characters long.`);
+
+    try {
+      await options.acknowledge(incident.id, name, note === '' ? undefined : note, { recipient: claims.recipient });
+    } catch (e) {
+      request.log.error({ err: e, incidentId: incident.id }, 'acknowledgement from an e-mail link failed');
+      return send(reply, 500, { kind: 'failed' });
+    }
+    const after = await options.describe(incident.id).catch(() => undefined);
+    return send(reply, 200, { kind: 'done', incident: after ?? incident, by: name });
+  });
+};
+
+function field(value: unknown): string {
+  if (Array.isArray(value)) return field(value[0]);
+  return typeof value === 'string' ? value : '';
+}
+
+function send(reply: FastifyReply, status: number, view: AckPageView): FastifyReply {
+  return reply.code(status).headers(PAGE_HEADERS).send(renderAckPage(view));
+}

@@ -1,0 +1,208 @@
+/**
+ * Renders an incident message as an e-mail: a plain-text part for every reader and an HTML part with the same
+ * content. Values from lab feeds are sanitised for headers and escaped for HTML.
+ */
+import { createHash } from 'node:crypto';
+import { MEASURANDS, isMeasurand } from '../domain/measurands.ts';
+import { asksForAcknowledgement, type IncidentMessage } from './message.ts';
+import { formatNumber, formatTime } from './format.ts';
+import { escapeHtml, headerValue, httpUrl, oneLine } from './safeText.ts';
+
+export const ADVISORY_CAUTION =
+  "wearshift advises; the laboratory's diagnosis and the equipment maker's limits decide; local codes and licensed practice apply.";
+
+export interface EmailRenderOptions {
+  /** Sender, e.g. `wearshift <alerts@plant.example>`; its domain also names the Message-ID. */
+  from: string;
+  to: string | string[];
+  /** The signed acknowledgement link; left out of messages that no longer ask for acknowledgement. */
+  ackUrl?: string;
+  /** When the acknowledgement link stops working, so that the reader is told. */
+  ackExpiresAt?: Date;
+}
+
+export interface RenderedEmail {
+  from: string;
+  to: string | string[];
+  subject: string;
+  text: string;
+  html: string;
+  /** Message-ID, References, X-Wearshift-* and Auto-Submitted; every value is one sanitised line. */
+  headers: Record<string, string>;
+}
+
+/** Most mail clients show about this much of a subject line. */
+const SUBJECT_MAX = 180;
+/** More columns than this do not fit a phone screen; the findings' measurands come first. */
+const TABLE_MAX_MEASURANDS = 8;
+
+export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOptions): RenderedEmail {
+  const inc = msg.incident;
+  const incidentUrl = httpUrl(inc.url, 'incident.url');
+  const ackUrl = options.ackUrl !== undefined && asksForAcknowledgement(msg) ? httpUrl(options.ackUrl, 'ackUrl') : undefined;
+  const where = `${oneLine(inc.unit)} / ${oneLine(inc.component)}`;
+  const what = headline(msg);
+  const whatChanged = oneLine(msg.whatChanged);
+  const evidence = msg.findings.map((f) => ({
+    title: `${oneLine(f.measurand)}, ${oneLine(f.rule)} rule, ${oneLine(f.severity)}: ${statement(f)}`,
+    since: `sample ${oneLine(f.sampleId)}, drawn ${formatTime(f.sampledAt)}`,
+    explanation: oneLine(f.explanation),
+  }));
+  const table = resultsTable(msg);
+  const expiry = options.ackExpiresAt ? ` The link works until ${formatTime(options.ackExpiresAt.toISOString())}.` : '';
+  const context = `Open since ${formatTime(inc.openedAt)} · group ${oneLine(inc.group)} · state ${oneLine(inc.state)} · escalation tier ${inc.tier}.`;
+
+  const text = [
+    `Incident ${oneLine(inc.id)} on ${where}: ${inc.severity}. ${what}.`,
+    '',
+    'What changed',
+    whatChanged,
+    '',
+    'Evidence',
+    ...(evidence.length === 0 ? ['(no findings attached)'] : evidence.flatMap((e) => [`- ${e.title} (${e.since}).`, `  ${e.explanation}`])),
+    '',
+    'Last results',
+    ...textTable(table),
+    '',
+    `Incident: ${incidentUrl}`,
+    // The link alone on its line, so that no mail client takes trailing words into it.
+    ...(ackUrl ? ['Acknowledge (a page asks you to confirm):', ackUrl, ...(expiry ? [expiry.trim()] : [])] : []),
+    '',
+    context,
+    '',
+    ADVISORY_CAUTION,
+    '',
+  ].join('\n');
+
+  const html = [
+    '<!DOCTYPE html>',
+    '<html lang="en"><head><meta charset="utf-8"><title>' + escapeHtml(`${where}: ${what}`) + '</title></head>',
+    '<body style="font-family:sans-serif;line-height:1.4;max-width:46em">',
+    `<p><strong>Incident ${escapeHtml(oneLine(inc.id))} on ${escapeHtml(where)}: ${escapeHtml(inc.severity)}.</strong> ${escapeHtml(what)}.</p>`,
+    '<h3>What changed</h3>',
+    `<p>${escapeHtml(whatChanged)}</p>`,
+    '<h3>Evidence</h3>',
+    evidence.length === 0
+      ? '<p>(no findings attached)</p>'
+      : `<ul>${evidence.map((e) => `<li><strong>${escapeHtml(e.title)}</strong> (${escapeHtml(e.since)}).<br>${escapeHtml(e.explanation)}</li>`).join('')}</ul>`,
+    '<h3>Last results</h3>',
+    htmlTable(table),
+    `<p>Incident: <a href="${escapeHtml(incidentUrl)}">${escapeHtml(incidentUrl)}</a></p>`,
+    ...(ackUrl ? [`<p><a href="${escapeHtml(ackUrl)}">Acknowledge this incident</a> (a page asks you to confirm).${escapeHtml(expiry)}</p>`] : []),
+    `<p style="color:#555">${escapeHtml(context)}</p>`,
+    `<p style="color:#555"><em>${escapeHtml(ADVISORY_CAUTION)}</em></p>`,
+    '</body></html>',
+    '',
+  ].join('\n');
+
+  const domain = mailDomain(options.from);
+  return {
+    from: options.from,
+    to: options.to,
+    subject: headerValue(`[wearshift ${inc.severity}] ${where}: ${what} — ${whatChanged}`, SUBJECT_MAX),
+    text,
+    html,
+    headers: {
+      // The same idempotency key gives the same Message-ID, so a resend after a lost reply is recognisable.
+      'Message-ID': `<${digest(msg.idempotencyKey)}.message@${domain}>`,
+      // Every message of one incident refers to one thread root, so mail clients file them together.
+      References: `<${digest(inc.id)}.incident@${domain}>`,
+      'X-Wearshift-Incident': headerValue(inc.id, 120),
+      'X-Wearshift-Event': msg.type,
+      'X-Wearshift-Severity': inc.severity,
+      // RFC 3834: an automatic message; auto-responders should not answer it.
+      'Auto-Submitted': 'auto-generated',
+    },
+  };
+}
+
+function headline(msg: IncidentMessage): string {
+  const by = msg.incident.acknowledgedBy;
+  switch (msg.type) {
+    case 'opened':
+      return 'New incident';
+    case 'updated':
+      return 'New evidence';
+    case 'escalated':
+      return `Escalated to tier ${msg.incident.tier}, still not acknowledged`;
+    case 'acknowledged':
+      return by === undefined ? 'Acknowledged' : `Acknowledged by ${oneLine(by)}`;
+    case 'returned':
+      return by === undefined ? 'Readings back to normal, still to be acknowledged' : 'Readings back to normal';
+    case 'closed':
+      return 'Closed';
+  }
+}
+
+type MessageFinding = IncidentMessage['findings'][number];
+
+/** The value in the words of its basis, against its limit where the rule has one. */
+function statement(f: MessageFinding): string {
+  const value = formatNumber(f.value);
+  const unit = isMeasurand(f.measurand) ? MEASURANDS[f.measurand].unit : '';
+  const measured = (() => {
+    switch (f.basis) {
+      case 'reading':
+        return `reading ${value}${unit ? ` ${unit}` : ''}`;
+      case 'rate':
+        return `wear rate ${value} ppm per 100 h`;
+      case 'ewma':
+        return `EWMA statistic ${value}`;
+      case 'cusum':
+        return `CUSUM statistic ${value}`;
+      case 'change':
+        return `change ${value}${unit ? ` ${unit}` : ''}`;
+      case 'steps':
+        return `${value} code steps`;
+      default:
+        return `${oneLine(f.basis)} ${value}`;
+    }
+  })();
+  return f.threshold === undefined ? measured : `${measured} against its limit ${formatNumber(f.threshold)}`;
+}
+
+interface ResultsTable {
+  header: string[];
+  rows: string[][];
+}
+
+function resultsTable(msg: IncidentMessage): ResultsTable {
+  const measurands: string[] = [];
+  for (const name of [...msg.findings.map((f) => f.measurand), ...msg.recentResults.flatMap((r) => Object.keys(r.readings))]) {
+    if (!measurands.includes(name) && measurands.length < TABLE_MAX_MEASURANDS) measurands.push(name);
+  }
+  return {
+    header: ['Sample', 'Drawn', 'Oil h', ...measurands].map(oneLine),
+    rows: msg.recentResults.map((r) =>
+      [r.sampleId, formatTime(r.sampledAt), r.oilHours === undefined ? '' : formatNumber(r.oilHours), ...measurands.map((m) => r.readings[m] ?? '')].map(oneLine),
+    ),
+  };
+}
+
+function textTable(t: ResultsTable): string[] {
+  if (t.rows.length === 0) return ['(no results attached)'];
+  const widths = t.header.map((h, i) => Math.max(h.length, ...t.rows.map((r) => (r[i] ?? '').length)));
+  const line = (cells: string[]) => cells.map((c, i) => c.padEnd(widths[i] ?? 0)).join('  ').trimEnd();
+  return [line(t.header), ...t.rows.map(line)];
+}
+
+function htmlTable(t: ResultsTable): string {
+  if (t.rows.length === 0) return '<p>(no results attached)</p>';
+  const cell = (tag: 'th' | 'td', c: string) => `<${tag} style="border:1px solid #999;padding:2px 6px;text-align:left">${escapeHtml(c)}</${tag}>`;
+  return [
+    '<table style="border-collapse:collapse">',
+    `<thead><tr>${t.header.map((h) => cell('th', h)).join('')}</tr></thead>`,
+    `<tbody>${t.rows.map((r) => `<tr>${r.map((c) => cell('td', c)).join('')}</tr>`).join('')}</tbody>`,
+    '</table>',
+  ].join('');
+}
+
+function digest(text: string): string {
+  return createHash('sha256').update(text).digest('hex').slice(0, 32);
+}
+
+/** The domain of the sender's address; RFC 5322 wants a Message-ID the sender's domain vouches for. */
+function mailDomain(from: string): string {
+  const m = /@([A-Za-z0-9](?:[A-Za-z0-9-]*[A-Za-z0-9])?(?:\.[A-Za-z0-9](?:[A-Za-z0-9-]*[A-Za-z0-9])?)*)>?\s*$/.exec(from.trim());
+  return m?.[1]?.toLowerCase() ?? 'wearshift.invalid';
+}

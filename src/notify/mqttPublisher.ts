@@ -1,0 +1,106 @@
+/**
+ * Publishes incident CloudEvents to an MQTT broker with QoS 1, for plant messaging (SCADA gateways, historians).
+ *
+ * Messages published while the broker is unreachable wait in mqtt.js' outgoing store and are sent after
+ * reconnecting; `publish` resolves only when the broker's PUBACK has arrived. A fixed client id with
+ * `clean: false` asks the broker to keep our session (its in-flight state for us) across reconnects.
+ * The outgoing store lives in memory: what has not been acknowledged when the process ends is not sent, so the
+ * queue must treat a publish as done only when its promise resolves.
+ */
+import { connect, type IClientOptions, type IClientPublishOptions, type MqttClient } from 'mqtt';
+import type { IncidentCloudEvent } from './cloudEvent.ts';
+import { checkTopicTemplate, DEFAULT_TOPIC_TEMPLATE, incidentTopic } from './mqttTopic.ts';
+
+export interface MqttPublisherOptions {
+  /** Broker URL: `mqtt://host:1883`, `mqtts://host:8883`, `ws://...`. */
+  url: string;
+  /** Fixed across restarts, so that the broker finds our session again. */
+  clientId: string;
+  /** Placeholders {unit} {component} {group} {severity} {type}. Default `plant/{unit}/{component}/oil`. */
+  topicTemplate?: string;
+  username?: string;
+  password?: string;
+  /** Default 1 (at least once; receivers de-duplicate on the CloudEvent id). */
+  qos?: 1 | 2;
+  /** Keep the last event per topic on the broker for late subscribers. Default false. */
+  retain?: boolean;
+  /** 4 = MQTT 3.1.1, 5 = MQTT 5 (adds the content type to each message). Default 4. */
+  protocolVersion?: 4 | 5;
+  /** Pause between reconnection attempts. Default 1000 ms. */
+  reconnectPeriodMs?: number;
+  /** Give up one connection attempt after this long. Default 30 000 ms. */
+  connectTimeoutMs?: number;
+  /** Default 60 s. */
+  keepaliveSeconds?: number;
+  /** TLS material for mqtts:// and wss://, passed to mqtt.js. */
+  tls?: Pick<IClientOptions, 'ca' | 'cert' | 'key' | 'rejectUnauthorized' | 'servername'>;
+  /** Connection errors; the client keeps reconnecting after each. Default: ignored. */
+  onError?: (error: Error) => void;
+}
+
+export interface MqttPublisher {
+  /** Resolves with the topic once the broker has acknowledged the message; rejects when `signal` aborts first. */
+  publish(event: IncidentCloudEvent, options?: { signal?: AbortSignal }): Promise<{ topic: string }>;
+  readonly connected: boolean;
+  /** Waits for in-flight messages when connected; `force` drops them. */
+  close(options?: { force?: boolean }): Promise<void>;
+}
+
+export function createMqttPublisher(options: MqttPublisherOptions): MqttPublisher {
+  const template = options.topicTemplate ?? DEFAULT_TOPIC_TEMPLATE;
+  checkTopicTemplate(template);
+  if (options.clientId === '') throw new TypeError('an MQTT publisher needs a fixed, non-empty clientId');
+  const qos = options.qos ?? 1;
+  const protocolVersion = options.protocolVersion ?? 4;
+  const client: MqttClient = connect(options.url, {
+    clientId: options.clientId,
+    clean: false,
+    protocolVersion,
+    reconnectPeriod: options.reconnectPeriodMs ?? 1000,
+    connectTimeout: options.connectTimeoutMs ?? 30_000,
+    keepalive: options.keepaliveSeconds ?? 60,
+    queueQoSZero: false,
+    ...(options.username !== undefined && { username: options.username }),
+    ...(options.password !== undefined && { password: options.password }),
+    ...options.tls,
+  });
+  // Without a listener an 'error' event would end the process; a refused connection is routine here.
+  client.on('error', (e) => options.onError?.(e));
+
+  return {
+    get connected() {
+      return client.connected;
+    },
+    async publish(event, publishOptions) {
+      const topic = incidentTopic(template, event.data);
+      const publishOpts: IClientPublishOptions = {
+        qos,
+        retain: options.retain ?? false,
+        ...(protocolVersion === 5 && { properties: { contentType: 'application/cloudevents+json; charset=utf-8' } }),
+      };
+      const signal = publishOptions?.signal;
+      signal?.throwIfAborted();
+      const acknowledged = client.publishAsync(topic, JSON.stringify(event), publishOpts);
+      if (signal === undefined) {
+        await acknowledged;
+      } else {
+        let onAbort: (() => void) | undefined;
+        const aborted = new Promise<never>((_, reject) => {
+          onAbort = () => reject(signal.reason instanceof Error ? signal.reason : new Error('MQTT publish aborted'));
+          signal.addEventListener('abort', onAbort, { once: true });
+        });
+        try {
+          await Promise.race([acknowledged, aborted]);
+        } finally {
+          if (onAbort) signal.removeEventListener('abort', onAbort);
+          // The message stays in the outgoing store and may still go out; receivers de-duplicate on its id.
+          acknowledged.catch(() => undefined);
+        }
+      }
+      return { topic };
+    },
+    async close(closeOptions) {
+      await client.endAsync(closeOptions?.force ?? false);
+    },
+  };
+}

@@ -1,0 +1,121 @@
+/**
+ * One webhook delivery attempt: the CloudEvent as the body, Standard Webhooks headers, a timeout, and a
+ * verdict for the queue (delivered, retry, give up, or disable the endpoint). Retrying is the queue's job;
+ * `webhook-id` stays the same on every attempt so that the receiver can drop repeats.
+ */
+import type { IncidentCloudEvent } from './cloudEvent.ts';
+import { parseRetryAfter } from './retryTiming.ts';
+import { oneLine } from './safeText.ts';
+import { signWebhook } from './webhookSignature.ts';
+
+export interface WebhookEndpoint {
+  url: string;
+  /** `whsec_<base64>` secrets; during a rotation both the new and the old one. */
+  secrets: string[];
+  /** How long to wait for the response. Default 10 s. */
+  timeoutMs?: number;
+}
+
+export const DEFAULT_WEBHOOK_TIMEOUT_MS = 10_000;
+
+export interface DeliverOptions {
+  /** The attempt's time: the signed `webhook-timestamp` and the base of a Retry-After date. */
+  now: Date;
+  /** Which attempt this is, counted from 1. Default 1. */
+  attempt?: number;
+  /** Default: the global fetch. */
+  fetch?: typeof fetch;
+}
+
+export type DeliveryOutcome = 'delivered' | 'retry' | 'give-up' | 'disable';
+
+export interface DeliveryResult {
+  outcome: DeliveryOutcome;
+  /** HTTP status; absent when no response came (timeout, refused connection). */
+  status?: number;
+  attempt: number;
+  durationMs: number;
+  /** The receiver's Retry-After (429, 503), to wait instead of the backoff. */
+  retryAfterMs?: number;
+  /** True on 410 Gone: the receiver asks not to be called again. */
+  disable?: boolean;
+  error?: string;
+}
+
+/** Enough of an error response to tell what went wrong, not enough to bloat the delivery log. */
+const EXCERPT_BYTES = 300;
+
+export async function deliverWebhook(endpoint: WebhookEndpoint, event: IncidentCloudEvent, options: DeliverOptions): Promise<DeliveryResult> {
+  const attempt = options.attempt ?? 1;
+  const timeoutMs = endpoint.timeoutMs ?? DEFAULT_WEBHOOK_TIMEOUT_MS;
+  const url = new URL(endpoint.url);
+  if (url.protocol !== 'https:' && url.protocol !== 'http:') throw new TypeError(`webhook url must use http or https, got "${url.protocol}"`);
+  const body = JSON.stringify(event);
+  // fetch refuses URLs with user info; receivers that put basic-auth credentials there get them as a header.
+  const basicAuth: Record<string, string> =
+    url.username || url.password ? { authorization: `Basic ${Buffer.from(`${decodeURIComponent(url.username)}:${decodeURIComponent(url.password)}`).toString('base64')}` } : {};
+  url.username = '';
+  url.password = '';
+  const headers: Record<string, string> = {
+    ...signWebhook(event.id, options.now, body, endpoint.secrets),
+    ...basicAuth,
+    // CloudEvents HTTP binding, structured mode: the whole event is the body.
+    'content-type': 'application/cloudevents+json; charset=utf-8',
+    'user-agent': 'wearshift-webhook',
+  };
+  const started = performance.now();
+  const elapsed = () => Math.round(performance.now() - started);
+  let response: Response;
+  let excerpt: string;
+  try {
+    // Redirects are not followed: the signature was made for this receiver, and a redirect may lead anywhere.
+    response = await (options.fetch ?? fetch)(url, { method: 'POST', headers, body, redirect: 'manual', signal: AbortSignal.timeout(timeoutMs) });
+    excerpt = await responseExcerpt(response);
+  } catch (e) {
+    const error = isTimeout(e) ? `no response within ${timeoutMs} ms` : `no response: ${networkReason(e)}`;
+    return { outcome: 'retry', attempt, durationMs: elapsed(), error };
+  }
+  const durationMs = elapsed();
+  const status = response.status;
+  if (status >= 200 && status < 300) return { outcome: 'delivered', status, attempt, durationMs };
+  const error = `HTTP ${status}${excerpt ? `: ${excerpt}` : ''}`;
+  if (status === 410) return { outcome: 'disable', status, attempt, durationMs, disable: true, error };
+  if (status === 429 || status === 503) {
+    const retryAfterMs = parseRetryAfter(response.headers.get('retry-after'), options.now);
+    return { outcome: 'retry', status, attempt, durationMs, error, ...(retryAfterMs !== undefined && { retryAfterMs }) };
+  }
+  // 408 is the receiver's own timeout: as retryable as ours.
+  if (status >= 500 || status === 408) return { outcome: 'retry', status, attempt, durationMs, error };
+  if (status >= 300 && status < 400) {
+    return { outcome: 'give-up', status, attempt, durationMs, error: `HTTP ${status}: redirect to ${oneLine(response.headers.get('location') ?? '(no location)')} not followed` };
+  }
+  return { outcome: 'give-up', status, attempt, durationMs, error };
+}
+
+async function responseExcerpt(response: Response): Promise<string> {
+  if (response.body === null) return '';
+  const reader = response.body.getReader();
+  const chunks: Uint8Array[] = [];
+  let size = 0;
+  while (size < EXCERPT_BYTES) {
+    const { done, value } = await reader.read();
+    if (done) break;
+    chunks.push(value);
+    size += value.byteLength;
+  }
+  await reader.cancel().catch(() => undefined);
+  const text = Buffer.concat(chunks).subarray(0, EXCERPT_BYTES).toString('utf8');
+  return oneLine(text.replace(/\uFFFD+$/, ''));
+}
+
+function isTimeout(e: unknown): boolean {
+  return e instanceof Error && (e.name === 'TimeoutError' || (e.cause instanceof Error && e.cause.name === 'TimeoutError'));
+}
+
+/** fetch says only "fetch failed"; the reason (ECONNREFUSED, a DNS failure ...) is in its cause. */
+function networkReason(e: unknown): string {
+  if (!(e instanceof Error)) return String(e);
+  const cause = e.cause as (Error & { code?: string }) | undefined;
+  if (cause instanceof Error) return oneLine(`${cause.code ? `${cause.code} ` : ''}${cause.message}`);
+  return oneLine(e.message);
+}

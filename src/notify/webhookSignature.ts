@@ -1,0 +1,38 @@
+/**
+ * Standard Webhooks signatures: `webhook-signature: v1,<base64 HMAC-SHA256 of "{id}.{timestamp}.{body}">`,
+ * keyed by the bytes of a `whsec_<base64>` secret. With several secrets (rotation) every signature is sent,
+ * space-separated, and a receiver accepts the message when any one matches a key it holds.
+ */
+import { createHmac } from 'node:crypto';
+
+/** The Standard Webhooks specification asks for keys of 24 to 64 bytes. */
+const KEY_BYTES = { min: 24, max: 64 };
+const PREFIX = 'whsec_';
+
+/** The key bytes of a `whsec_<base64>` secret; throws a clear error for anything else. */
+export function webhookKey(secret: string): Buffer {
+  if (!secret.startsWith(PREFIX)) throw new TypeError(`a webhook secret must look like "${PREFIX}<base64>"`);
+  const encoded = secret.slice(PREFIX.length);
+  if (!/^[A-Za-z0-9+/]+={0,2}$/.test(encoded) || encoded.length % 4 !== 0) throw new TypeError('a webhook secret must be base64 after "whsec_"');
+  const key = Buffer.from(encoded, 'base64');
+  if (key.length < KEY_BYTES.min || key.length > KEY_BYTES.max) {
+    throw new TypeError(`a webhook secret must hold ${KEY_BYTES.min} to ${KEY_BYTES.max} bytes, this one holds ${key.length}`);
+  }
+  return key;
+}
+
+export interface WebhookHeaders {
+  'webhook-id': string;
+  'webhook-timestamp': string;
+  'webhook-signature': string;
+}
+
+/** The three Standard Webhooks headers for one attempt; `timestamp` is the attempt's time. */
+export function signWebhook(id: string, timestamp: Date, body: string, secrets: readonly string[]): WebhookHeaders {
+  if (secrets.length === 0) throw new TypeError('a webhook endpoint needs at least one secret');
+  if (!/^[\x21-\x7e]{1,255}$/.test(id)) throw new TypeError(`webhook-id "${id}" must be 1 to 255 visible ASCII characters (it is a header value)`);
+  const seconds = String(Math.floor(timestamp.getTime() / 1000));
+  const signed = `${id}.${seconds}.${body}`;
+  const signatures = secrets.map((s) => `v1,${createHmac('sha256', webhookKey(s)).update(signed).digest('base64')}`);
+  return { 'webhook-id': id, 'webhook-timestamp': seconds, 'webhook-signature': signatures.join(' ') };
+}

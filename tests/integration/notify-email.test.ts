@@ -1,0 +1,145 @@
+/**
+ * E-mail against a real SMTP server (npm smtp-server on a free port); the received message is parsed with
+ * mailparser, an independent MIME parser, so that what we check is what a mail client would see.
+ */
+import { createServer, type AddressInfo } from 'node:net';
+import { simpleParser, type ParsedMail } from 'mailparser';
+import { SMTPServer, type SMTPServerOptions } from 'smtp-server';
+import { afterEach, describe, expect, it } from 'vitest';
+import { signAckLink, ackLinkUrl } from '../../src/notify/ackLink.ts';
+import { renderIncidentEmail } from '../../src/notify/emailRender.ts';
+import { EmailDeliveryError, sendEmail } from '../../src/notify/emailSend.ts';
+import { incidentMessage } from '../unit/notify-fixtures.ts';
+
+interface Received {
+  mail: ParsedMail;
+  raw: string;
+  envelopeTo: string[];
+}
+
+const servers: SMTPServer[] = [];
+afterEach(async () => {
+  await Promise.all(servers.splice(0).map((s) => new Promise<void>((resolve) => s.close(() => resolve()))));
+});
+
+async function startSmtp(extra: Partial<SMTPServerOptions> = {}): Promise<{ port: number; received: Received[] }> {
+  const received: Received[] = [];
+  const server = new SMTPServer({
+    authOptional: true,
+    disabledCommands: ['STARTTLS'],
+    logger: false,
+    onData(stream, session, callback) {
+      const chunks: Buffer[] = [];
+      stream.on('data', (c: Buffer) => chunks.push(c));
+      stream.on('end', () => {
+        const raw = Buffer.concat(chunks).toString('utf8');
+        simpleParser(raw)
+          .then((mail) => {
+            received.push({ mail, raw, envelopeTo: session.envelope.rcptTo.map((r) => r.address) });
+            callback();
+          })
+          .catch(callback);
+      });
+    },
+    ...extra,
+  });
+  servers.push(server);
+  await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', () => resolve()));
+  return { port: (server.server.address() as AddressInfo).port, received };
+}
+
+const transport = (port: number) => ({ host: '127.0.0.1', port, secure: false, ignoreTLS: true });
+
+function mail(overrides: Parameters<typeof incidentMessage>[1] = {}) {
+  const token = signAckLink({ incidentId: 'INC-2026-0007', recipient: 'oncall@plant.example', expiresAt: new Date('2026-03-04T08:00:00Z') }, 'ack-secret-0123456789abcdef');
+  const ackUrl = ackLinkUrl('https://wearshift.plant.example', token);
+  const rendered = renderIncidentEmail(incidentMessage({}, overrides), {
+    from: 'wearshift <alerts@plant.example>',
+    to: ['oncall@plant.example', 'reliability@plant.example'],
+    ackUrl,
+    ackExpiresAt: new Date('2026-03-04T08:00:00Z'),
+  });
+  return { rendered, ackUrl };
+}
+
+describe('sending incident e-mail over SMTP', () => {
+  it('arrives with subject, both parts, the link and our headers intact', async () => {
+    const smtp = await startSmtp();
+    const { rendered, ackUrl } = mail({ unit: 'PS2-P3 Ölpumpe' });
+    const sent = await sendEmail(transport(smtp.port), rendered);
+    expect(smtp.received).toHaveLength(1);
+    const got = smtp.received[0]!;
+    expect(got.envelopeTo).toEqual(['oncall@plant.example', 'reliability@plant.example']);
+    expect(sent.accepted).toEqual(['oncall@plant.example', 'reliability@plant.example']);
+    expect(sent.messageId).toBe(rendered.headers['Message-ID']);
+    expect(got.mail.messageId).toBe(rendered.headers['Message-ID']);
+    // Non-ASCII goes out as an RFC 2047 encoded word and comes back as the same text.
+    expect(got.mail.subject).toBe(rendered.subject);
+    expect(got.mail.subject).toContain('PS2-P3 Ölpumpe / gearbox');
+    expect(got.mail.text).toContain(ackUrl);
+    expect(got.mail.text).toContain('CUSUM statistic 5.612 against its limit 5');
+    expect(got.mail.html).toContain(`href="${ackUrl}"`);
+    expect(got.mail.headers.get('x-wearshift-incident')).toBe('INC-2026-0007');
+    expect(got.mail.headers.get('auto-submitted')).toBe('auto-generated');
+    expect(got.mail.references).toBe(rendered.headers.References);
+  });
+
+  it('keeps a hostile unit name from adding headers or recipients', async () => {
+    const smtp = await startSmtp();
+    const { rendered } = mail({ unit: 'PS2\r\nBcc: victim@elsewhere.example\r\nX-Injected: yes', id: 'INC-9\r\nX-Injected: yes' });
+    await sendEmail(transport(smtp.port), rendered);
+    const got = smtp.received[0]!;
+    expect(got.envelopeTo).not.toContain('victim@elsewhere.example');
+    expect(got.mail.headers.has('x-injected')).toBe(false);
+    expect(got.mail.headers.has('bcc')).toBe(false);
+    expect(got.mail.subject).toContain('PS2 Bcc: victim@elsewhere.example X-Injected: yes / gearbox');
+    expect(got.mail.headers.get('x-wearshift-incident')).toBe('INC-9 X-Injected: yes');
+    const headerBlock = got.raw.slice(0, got.raw.indexOf('\r\n\r\n'));
+    expect(headerBlock).not.toMatch(/^X-Injected:/im);
+  });
+
+  it('sends a resend with the same Message-ID', async () => {
+    const smtp = await startSmtp();
+    await sendEmail(transport(smtp.port), mail().rendered);
+    await sendEmail(transport(smtp.port), mail().rendered);
+    expect(smtp.received.map((r) => r.mail.messageId)).toEqual([mail().rendered.headers['Message-ID'], mail().rendered.headers['Message-ID']]);
+  });
+
+  it('fails as retryable when no SMTP server listens', async () => {
+    const port = await freePort();
+    const error = await sendEmail({ ...transport(port), connectionTimeout: 2000 }, mail().rendered).catch((e: unknown) => e);
+    expect(error).toBeInstanceOf(EmailDeliveryError);
+    expect((error as EmailDeliveryError).retryable).toBe(true);
+    expect((error as EmailDeliveryError).message).toMatch(/ECONNECTION|ESOCKET|ECONNREFUSED/);
+  });
+
+  it('retries a 4xx reply and gives up on a 5xx reply (RFC 5321 §4.2.1)', async () => {
+    const reject = (code: number, text: string): Partial<SMTPServerOptions> => ({
+      onRcptTo(_address, _session, callback) {
+        callback(Object.assign(new Error(text), { responseCode: code }));
+      },
+    });
+    const busy = await startSmtp(reject(451, 'Requested action aborted: local error in processing'));
+    const transient = (await sendEmail(transport(busy.port), mail().rendered).catch((e: unknown) => e)) as EmailDeliveryError;
+    expect(transient).toBeInstanceOf(EmailDeliveryError);
+    expect(transient.responseCode).toBe(451);
+    expect(transient.retryable).toBe(true);
+
+    const refusing = await startSmtp(reject(550, 'No such user here'));
+    const permanent = (await sendEmail(transport(refusing.port), mail().rendered).catch((e: unknown) => e)) as EmailDeliveryError;
+    expect(permanent.responseCode).toBe(550);
+    expect(permanent.retryable).toBe(false);
+    expect(permanent.message).toContain('SMTP 550');
+    expect(busy.received).toHaveLength(0);
+    expect(refusing.received).toHaveLength(0);
+  });
+});
+
+/** A port that was free a moment ago: bind to 0, read it, close. */
+async function freePort(): Promise<number> {
+  const server = createServer();
+  await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', () => resolve()));
+  const { port } = server.address() as AddressInfo;
+  await new Promise<void>((resolve) => server.close(() => resolve()));
+  return port;
+}

@@ -1,0 +1,169 @@
+/**
+ * MQTT publishing against a real broker: aedes in-process on a net server, reached over TCP by mqtt.js
+ * clients, the way a plant gateway would be.
+ */
+import { createServer, type AddressInfo, type Server, type Socket } from 'node:net';
+import { Aedes, type AedesOptions } from 'aedes';
+import { connectAsync, type MqttClient } from 'mqtt';
+import { afterEach, describe, expect, it } from 'vitest';
+import { toCloudEvent, type IncidentCloudEvent } from '../../src/notify/cloudEvent.ts';
+import { createMqttPublisher, type MqttPublisher } from '../../src/notify/mqttPublisher.ts';
+import { incidentMessage } from '../unit/notify-fixtures.ts';
+
+interface Broker {
+  aedes: Aedes;
+  server: Server;
+  sockets: Set<Socket>;
+  port: number;
+}
+
+/** Starts a broker; `beforeListen` runs once the broker exists and before any client can connect. */
+async function startBroker(port = 0, options: AedesOptions = {}, beforeListen?: (aedes: Aedes) => Promise<void>): Promise<Broker> {
+  const aedes = await Aedes.createBroker(options);
+  await beforeListen?.(aedes);
+  const sockets = new Set<Socket>();
+  const server = createServer((socket) => {
+    sockets.add(socket);
+    socket.on('close', () => sockets.delete(socket));
+    aedes.handle(socket);
+  });
+  await new Promise<void>((resolve, reject) => {
+    server.once('error', reject);
+    server.listen(port, '127.0.0.1', () => resolve());
+  });
+  return { aedes, server, sockets, port: (server.address() as AddressInfo).port };
+}
+
+async function stopBroker(b: Broker): Promise<void> {
+  await new Promise<void>((resolve) => b.aedes.close(() => resolve()));
+  for (const s of b.sockets) s.destroy();
+  await new Promise<void>((resolve) => b.server.close(() => resolve()));
+}
+
+const cleanup: Array<() => Promise<unknown>> = [];
+afterEach(async () => {
+  for (const step of cleanup.splice(0).reverse()) await step().catch(() => undefined);
+});
+
+function publisherFor(port: number, clientId: string): MqttPublisher {
+  const publisher = createMqttPublisher({ url: `mqtt://127.0.0.1:${port}`, clientId, reconnectPeriodMs: 100, connectTimeoutMs: 2000 });
+  cleanup.push(() => publisher.close({ force: true }));
+  return publisher;
+}
+
+async function subscriber(port: number, clientId: string, topic: string): Promise<{ client: MqttClient; received: Array<{ topic: string; qos: number; event: IncidentCloudEvent }> }> {
+  const client = await connectAsync(`mqtt://127.0.0.1:${port}`, { clientId, clean: false, reconnectPeriod: 100 });
+  cleanup.push(() => client.endAsync(true));
+  const received: Array<{ topic: string; qos: number; event: IncidentCloudEvent }> = [];
+  client.on('message', (t, payload, packet) => received.push({ topic: t, qos: packet.qos, event: JSON.parse(payload.toString('utf8')) as IncidentCloudEvent }));
+  await client.subscribeAsync(topic, { qos: 1 });
+  return { client, received };
+}
+
+async function waitFor(check: () => boolean, timeoutMs: number, what: string): Promise<void> {
+  const until = Date.now() + timeoutMs;
+  while (!check()) {
+    if (Date.now() > until) throw new Error(`timed out waiting for ${what}`);
+    await new Promise((r) => setTimeout(r, 20));
+  }
+}
+
+const event = toCloudEvent(incidentMessage({}, { unit: 'Line 2/P3' }), { time: '2026-03-01T08:05:00Z' });
+
+describe('MQTT publishing', () => {
+  it('delivers the CloudEvent with QoS 1 on the templated, sanitised topic', async () => {
+    const broker = await startBroker();
+    cleanup.push(() => stopBroker(broker));
+    const sessions: Array<{ id: string; clean: boolean }> = [];
+    broker.aedes.on('client', (c) => sessions.push({ id: c.id, clean: c.clean }));
+    const sub = await subscriber(broker.port, 'board-1', 'plant/#');
+    const publisher = publisherFor(broker.port, 'wearshift-test-1');
+    const { topic } = await publisher.publish(event);
+    expect(topic).toBe('plant/Line 2%2FP3/gearbox/oil');
+    await waitFor(() => sub.received.length === 1, 2000, 'the subscriber to receive the event');
+    expect(sub.received[0]).toEqual({ topic, qos: 1, event });
+    // A persistent session under the fixed client id, so that the broker keeps our state across reconnects.
+    expect(sessions).toContainEqual({ id: 'wearshift-test-1', clean: false });
+  });
+
+  it('resolves only once the broker has acknowledged (PUBACK)', async () => {
+    // The broker sends PUBACK only after authorizePublish has let the message through; holding that back
+    // for 400 ms holds back the acknowledgement.
+    let release = 0;
+    const broker = await startBroker(0, {
+      authorizePublish: (_client, _packet, callback) => {
+        setTimeout(() => {
+          release = Date.now();
+          callback(null);
+        }, 400);
+      },
+    });
+    cleanup.push(() => stopBroker(broker));
+    const publisher = publisherFor(broker.port, 'wearshift-test-2');
+    await waitFor(() => publisher.connected, 2000, 'the publisher to connect');
+    let resolvedAt = 0;
+    const published = publisher.publish(event).then(() => {
+      resolvedAt = Date.now();
+    });
+    await new Promise((r) => setTimeout(r, 200));
+    expect(resolvedAt).toBe(0);
+    await published;
+    expect(release).toBeGreaterThan(0);
+    expect(resolvedAt).toBeGreaterThanOrEqual(release);
+  });
+
+  it('queues a message while the broker is down and sends it after the broker comes back on the same port', async () => {
+    let broker = await startBroker();
+    const port = broker.port;
+    cleanup.push(() => stopBroker(broker));
+    const sub = await subscriber(port, 'board-2', 'plant/#');
+    const publisher = publisherFor(port, 'wearshift-test-3');
+    await publisher.publish(toCloudEvent(incidentMessage({ idempotencyKey: 'before-outage' }), { time: '2026-03-01T08:05:00Z' }));
+    await waitFor(() => sub.received.length === 1, 2000, 'the first event');
+
+    await stopBroker(broker);
+    await waitFor(() => !publisher.connected, 2000, 'the publisher to notice the outage');
+
+    let acknowledged = false;
+    const pending = publisher.publish(toCloudEvent(incidentMessage({ idempotencyKey: 'during-outage' }), { time: '2026-03-01T08:06:00Z' })).then(() => {
+      acknowledged = true;
+    });
+    await new Promise((r) => setTimeout(r, 300));
+    expect(acknowledged).toBe(false);
+
+    // The restarted broker has an empty memory, so its listener is in place before the port opens: what it
+    // sees can only be the publisher's queued message, sent after reconnecting.
+    const afterRestart: IncidentCloudEvent[] = [];
+    broker = await startBroker(port, {}, (aedes) => new Promise<void>((resolve) => {
+      aedes.subscribe('plant/#', (packet, done) => {
+        afterRestart.push(JSON.parse(packet.payload.toString()) as IncidentCloudEvent);
+        done();
+      }, resolve);
+    }));
+    await pending;
+    await waitFor(() => afterRestart.length === 1, 5000, 'the queued event after reconnecting');
+    expect(afterRestart.map((e) => e.id)).toEqual(['during-outage']);
+    expect(sub.received.map((r) => r.event.id)).toEqual(['before-outage']);
+  });
+
+  it('lets a caller stop waiting without losing the message', async () => {
+    const broker = await startBroker();
+    const port = broker.port;
+    await stopBroker(broker);
+    const publisher = publisherFor(port, 'wearshift-test-4');
+    const error = await publisher.publish(event, { signal: AbortSignal.timeout(200) }).catch((e: unknown) => e);
+    expect((error as Error).name).toBe('TimeoutError');
+    const back = await startBroker(port);
+    cleanup.push(() => stopBroker(back));
+    const seen: string[] = [];
+    back.aedes.on('publish', (packet, client) => {
+      if (client?.id === 'wearshift-test-4') seen.push(packet.topic);
+    });
+    await waitFor(() => seen.length === 1, 5000, 'the message given up on to still go out');
+  });
+
+  it('refuses a template that would publish to wildcards', () => {
+    expect(() => createMqttPublisher({ url: 'mqtt://127.0.0.1:1', clientId: 'x', topicTemplate: 'plant/+/oil' })).toThrow(/"\+", "#"/);
+    expect(() => createMqttPublisher({ url: 'mqtt://127.0.0.1:1', clientId: '' })).toThrow(/clientId/);
+  });
+});

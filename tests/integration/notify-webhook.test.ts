@@ -1,0 +1,186 @@
+/**
+ * Webhook delivery to a real HTTP receiver (node:http on a free port). The receiver checks every request with
+ * the `standardwebhooks` npm package, the reference implementation of the Standard Webhooks specification,
+ * exactly as an integrator's endpoint would.
+ */
+import { randomBytes } from 'node:crypto';
+import { createServer, type IncomingHttpHeaders, type Server } from 'node:http';
+import type { AddressInfo } from 'node:net';
+import { Webhook, WebhookVerificationError } from 'standardwebhooks';
+import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest';
+import { toCloudEvent } from '../../src/notify/cloudEvent.ts';
+import { webhookLogEntry } from '../../src/notify/deliveryLog.ts';
+import { delayBeforeNextAttempt } from '../../src/notify/retryTiming.ts';
+import { deliverWebhook } from '../../src/notify/webhookDelivery.ts';
+import { incidentMessage } from '../unit/notify-fixtures.ts';
+
+interface Request {
+  path: string;
+  headers: IncomingHttpHeaders;
+  body: string;
+  verdict: 'verified' | string;
+}
+
+type Behaviour = (req: Request) => { status: number; headers?: Record<string, string>; body?: string; delayMs?: number };
+
+const currentSecret = `whsec_${randomBytes(32).toString('base64')}`;
+const previousSecret = `whsec_${randomBytes(32).toString('base64')}`;
+let receiverSecret = currentSecret;
+let behaviour: Behaviour;
+const requests: Request[] = [];
+let server: Server;
+let base: string;
+
+beforeAll(async () => {
+  server = createServer((req, res) => {
+    const chunks: Buffer[] = [];
+    req.on('data', (c: Buffer) => chunks.push(c));
+    req.on('end', () => {
+      const body = Buffer.concat(chunks).toString('utf8');
+      let verdict: string;
+      try {
+        new Webhook(receiverSecret).verify(body, req.headers as Record<string, string>);
+        verdict = 'verified';
+      } catch (e) {
+        verdict = e instanceof WebhookVerificationError ? e.message : String(e);
+      }
+      const request = { path: req.url ?? '', headers: req.headers, body, verdict };
+      requests.push(request);
+      const answer = behaviour(request);
+      setTimeout(() => {
+        if (res.destroyed) return;
+        res.writeHead(answer.status, answer.headers).end(answer.body ?? '');
+      }, answer.delayMs ?? 0);
+    });
+  });
+  await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', () => resolve()));
+  base = `http://127.0.0.1:${(server.address() as AddressInfo).port}`;
+});
+
+afterAll(async () => {
+  server.closeAllConnections();
+  await new Promise<void>((resolve) => server.close(() => resolve()));
+});
+
+beforeEach(() => {
+  requests.length = 0;
+  receiverSecret = currentSecret;
+  // An honest receiver: 204 when the signature verifies, 401 when it does not.
+  behaviour = (r) => (r.verdict === 'verified' ? { status: 204 } : { status: 401, body: r.verdict });
+});
+
+const event = toCloudEvent(incidentMessage(), { time: '2026-03-01T08:05:00Z' });
+const endpoint = (path = '/hook', secrets = [currentSecret]) => ({ url: `${base}${path}`, secrets, timeoutMs: 2000 });
+
+describe('webhook delivery', () => {
+  it('delivers a CloudEvent the standardwebhooks verifier accepts', async () => {
+    const result = await deliverWebhook(endpoint(), event, { now: new Date() });
+    expect(result).toMatchObject({ outcome: 'delivered', status: 204, attempt: 1 });
+    expect(requests).toHaveLength(1);
+    const got = requests[0]!;
+    expect(got.verdict).toBe('verified');
+    expect(got.headers['webhook-id']).toBe(event.id);
+    expect(got.headers['content-type']).toBe('application/cloudevents+json; charset=utf-8');
+    const body = JSON.parse(got.body) as typeof event;
+    expect(body).toEqual(event);
+    expect(body.data.incident.id).toBe('INC-2026-0007');
+  });
+
+  it('sends credentials from the endpoint URL as basic authentication', async () => {
+    const url = new URL(endpoint().url);
+    url.username = 'plant-gw';
+    url.password = 'p@ss:word';
+    expect(await deliverWebhook({ ...endpoint(), url: url.href }, event, { now: new Date() })).toMatchObject({ outcome: 'delivered' });
+    expect(requests[0]!.headers.authorization).toBe(`Basic ${Buffer.from('plant-gw:p@ss:word').toString('base64')}`);
+  });
+
+  it('signs with both secrets during a rotation, so receivers holding either one accept it', async () => {
+    for (const held of [currentSecret, previousSecret]) {
+      receiverSecret = held;
+      const result = await deliverWebhook(endpoint('/hook', [currentSecret, previousSecret]), event, { now: new Date() });
+      expect(result.outcome).toBe('delivered');
+    }
+    expect(requests.map((r) => r.verdict)).toEqual(['verified', 'verified']);
+    expect(String(requests[0]!.headers['webhook-signature']).split(' ')).toHaveLength(2);
+    receiverSecret = `whsec_${randomBytes(32).toString('base64')}`;
+    const refused = await deliverWebhook(endpoint('/hook', [currentSecret, previousSecret]), event, { now: new Date() });
+    expect(refused).toMatchObject({ outcome: 'give-up', status: 401 });
+    expect(requests[2]!.verdict).toBe('No matching signature found');
+  });
+
+  it('keeps the webhook-id and the body across retries, with a fresh timestamp', async () => {
+    const first = new Date();
+    await deliverWebhook(endpoint(), event, { now: first, attempt: 1 });
+    await deliverWebhook(endpoint(), event, { now: new Date(first.getTime() + 30_000), attempt: 2 });
+    const [a, b] = requests;
+    expect(a!.headers['webhook-id']).toBe(b!.headers['webhook-id']);
+    expect(a!.body).toBe(b!.body);
+    expect(Number(b!.headers['webhook-timestamp']) - Number(a!.headers['webhook-timestamp'])).toBe(30);
+    expect(b!.verdict).toBe('verified');
+  });
+
+  it('is rejected by the verifier when the body is changed, the timestamp is stale or the key is wrong', async () => {
+    await deliverWebhook(endpoint(), event, { now: new Date() });
+    const genuine = requests[0]!;
+    const headers = genuine.headers as Record<string, string>;
+    const verifier = new Webhook(currentSecret);
+    expect(() => verifier.verify(genuine.body, headers)).not.toThrow();
+    expect(() => verifier.verify(genuine.body.replace('"caution"', '"watch"'), headers)).toThrow('No matching signature found');
+    expect(() => new Webhook(previousSecret).verify(genuine.body, headers)).toThrow('No matching signature found');
+
+    // Sent ten minutes late (the verifier tolerates five): the receiver refuses it as a possible replay.
+    const stale = await deliverWebhook(endpoint(), event, { now: new Date(Date.now() - 10 * 60_000) });
+    expect(requests[1]!.verdict).toBe('Message timestamp too old');
+    expect(stale).toMatchObject({ outcome: 'give-up', status: 401, error: 'HTTP 401: Message timestamp too old' });
+  });
+
+  it('classifies the receiver’s answers: 500 retry, 410 disable, 400 give up, redirect not followed', async () => {
+    behaviour = () => ({ status: 500, body: 'database unavailable' });
+    expect(await deliverWebhook(endpoint(), event, { now: new Date(), attempt: 3 })).toMatchObject({ outcome: 'retry', status: 500, attempt: 3, error: 'HTTP 500: database unavailable' });
+    behaviour = () => ({ status: 410 });
+    expect(await deliverWebhook(endpoint(), event, { now: new Date() })).toMatchObject({ outcome: 'disable', status: 410, disable: true });
+    behaviour = () => ({ status: 400, body: 'x'.repeat(5000) });
+    const bad = await deliverWebhook(endpoint(), event, { now: new Date() });
+    expect(bad).toMatchObject({ outcome: 'give-up', status: 400 });
+    expect(bad.error!.length).toBeLessThan(320);
+    behaviour = () => ({ status: 302, headers: { location: `${base}/elsewhere` } });
+    expect(await deliverWebhook(endpoint(), event, { now: new Date() })).toMatchObject({ outcome: 'give-up', status: 302 });
+    expect(requests.map((r) => r.path)).not.toContain('/elsewhere');
+  });
+
+  it('honours Retry-After on 429 (seconds) and 503 (HTTP date)', async () => {
+    behaviour = () => ({ status: 429, headers: { 'retry-after': '7' } });
+    const limited = await deliverWebhook(endpoint(), event, { now: new Date(), attempt: 2 });
+    expect(limited).toMatchObject({ outcome: 'retry', status: 429, retryAfterMs: 7000 });
+    expect(delayBeforeNextAttempt(limited, { baseMs: 1000, maxMs: 60_000 }, () => 0.5)).toBe(7000);
+
+    const now = new Date('2026-03-01T08:05:00Z');
+    behaviour = () => ({ status: 503, headers: { 'retry-after': 'Sun, 01 Mar 2026 08:07:30 GMT' } });
+    // The signature is minutes old by the test's clock, so the receiver does not check it here.
+    expect(await deliverWebhook(endpoint(), event, { now })).toMatchObject({ outcome: 'retry', status: 503, retryAfterMs: 150_000 });
+  });
+
+  it('gives up waiting for a slow receiver after the timeout and asks for a retry', async () => {
+    behaviour = () => ({ status: 204, delayMs: 3000 });
+    const result = await deliverWebhook({ ...endpoint(), timeoutMs: 300 }, event, { now: new Date() });
+    expect(result).toMatchObject({ outcome: 'retry', error: 'no response within 300 ms' });
+    expect(result.status).toBeUndefined();
+    expect(result.durationMs).toBeGreaterThanOrEqual(250);
+    expect(result.durationMs).toBeLessThan(2000);
+  });
+
+  it('asks for a retry when nobody listens, and logs the attempt without the URL’s secrets', async () => {
+    const closed = createServer();
+    await new Promise<void>((resolve) => closed.listen(0, '127.0.0.1', () => resolve()));
+    const port = (closed.address() as AddressInfo).port;
+    await new Promise<void>((resolve) => closed.close(() => resolve()));
+    const url = `http://user:pw@127.0.0.1:${port}/hook?token=s3cret`;
+    const at = new Date();
+    const result = await deliverWebhook({ url, secrets: [currentSecret] }, event, { now: at });
+    expect(result).toMatchObject({ outcome: 'retry' });
+    expect(result.error).toMatch(/ECONNREFUSED/);
+    const entry = webhookLogEntry(url, event.id, at, result);
+    expect(entry).toMatchObject({ channel: 'webhook', target: `http://127.0.0.1:${port}/hook?…`, eventId: event.id, outcome: 'retry', attempt: 1 });
+    expect(JSON.stringify(entry)).not.toMatch(/s3cret|pw@/);
+  });
+});
