@@ -1,0 +1,33 @@
+/**
+ * Probes for the orchestrator: `/healthz` says the process is alive (it answers), `/readyz` that it can do
+ * its work (Redis answers a PING within the timeout). Neither needs a token: they reveal nothing.
+ */
+import type { FastifyPluginAsync } from 'fastify';
+
+export interface HealthRoutesOptions {
+  /** Resolves when Redis answers; a connection without an offline queue fails at once when Redis is away. */
+  ping(): Promise<unknown>;
+  /** Longest wait for the PING. Default 1000 ms. */
+  timeoutMs?: number;
+}
+
+export const healthRoutes: FastifyPluginAsync<HealthRoutesOptions> = async (app, options) => {
+  const timeoutMs = options.timeoutMs ?? 1000;
+  app.get('/healthz', async () => ({ status: 'ok' }));
+  app.get('/readyz', async (_request, reply) => {
+    let timer: NodeJS.Timeout | undefined;
+    try {
+      await Promise.race([
+        options.ping(),
+        new Promise((_, reject) => {
+          timer = setTimeout(() => reject(new Error(`no answer within ${timeoutMs} ms`)), timeoutMs);
+        }),
+      ]);
+      return { status: 'ready', redis: 'ok' };
+    } catch (e) {
+      return reply.code(503).send({ status: 'unavailable', redis: (e as Error).message });
+    } finally {
+      clearTimeout(timer);
+    }
+  });
+};
