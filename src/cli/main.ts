@@ -2,6 +2,8 @@
 import { Command, CommanderError } from 'commander';
 import { InputError } from '../domain/errors.ts';
 import { registerSchema } from './commands/schema.ts';
+import { registerChart } from './commands/chart.ts';
+import { registerDesign } from './commands/design.ts';
 
 const CAUTION =
   'wearshift advises: it does not replace the laboratory\'s diagnosis, the equipment maker\'s limits, local codes or licensed practice.';
@@ -13,6 +15,8 @@ export function buildProgram(): Command {
     .showHelpAfterError()
     .exitOverride();
   registerSchema(program);
+  registerChart(program);
+  registerDesign(program);
   return program;
 }
 

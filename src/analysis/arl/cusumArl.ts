@@ -26,7 +26,7 @@ export interface CusumArlOptions {
   readonly headstart?: number;
 }
 
-/** Lines of constant total a high two-sided headstart is followed through; a smaller k than that allows is refused. */
+/** At most this many lines of constant total are stepped through for a high two-sided headstart; a k that needs more is refused. */
 const MAX_HEADSTART_LINES = 2000;
 
 /** Run lengths beyond 1e9 samples are returned as Infinity (see reliableRunLength). */
@@ -50,7 +50,8 @@ function computeCusumArl(o: CusumArlOptions): number {
   const down = solveUpperSum(downStep, h);
   const combined = (u: number, v: number): number =>
     (oneSided(upStep, up, u) * down.atLower + oneSided(downStep, down, v) * up.atLower - up.atLower * down.atLower) / (up.atLower + down.atLower);
-  if (2 * start <= h + 2 * k) return combined(start, start);
+  // Within rounding of the boundary the states past it carry no weight (the combination is continuous there).
+  if (2 * start <= (h + 2 * k) * (1 + 1e-12)) return combined(start, start);
   return fromHighHeadstart(upStep, h, k, start, combined);
 }
 

@@ -1,0 +1,216 @@
+/**
+ * `wearshift design cusum|ewma`: average run lengths for given chart parameters, or the parameter (h, L) that meets a target
+ * in-control run length, given directly or derived from a false-alarm budget.
+ */
+import { type Command, InvalidArgumentError, Option } from 'commander';
+import { cusumArl } from '../../analysis/arl/cusumArl.ts';
+import { ewmaArl } from '../../analysis/arl/ewmaArl.ts';
+import { cusumDecisionInterval } from '../../analysis/arl/solveCusum.ts';
+import { ewmaLimitWidth } from '../../analysis/arl/solveEwma.ts';
+import { parseBudget, samplesPerBudgetPeriod, targetArl } from '../../analysis/budget.ts';
+import { type Budget, BudgetSchema } from '../../domain/config.ts';
+import { InputError } from '../../domain/errors.ts';
+import { formatTable, numberListOption, numberOption, round, writeJsonLine } from '../output.ts';
+
+type Sided = 'one' | 'two';
+
+/** The shifts of the published tables (Lucas & Crosier 1982; Lucas & Saccucci 1990), in sigma. */
+const TABLE_SHIFTS = [0, 0.25, 0.5, 0.75, 1, 1.5, 2, 2.5, 3, 4, 5];
+
+interface CommonOptions {
+  sided: Sided;
+  shifts?: number[];
+  arl0?: number;
+  budget?: string;
+  every?: number;
+  hoursPerYear?: number;
+  charts?: number;
+  json?: boolean;
+}
+
+/** How a target in-control run length was derived from a false-alarm budget. */
+interface BudgetConversion {
+  alarms: number;
+  years: number;
+  sampleIntervalHours: number;
+  hoursPerYear: number;
+  samplesPerComponent: number;
+  componentArl0: number;
+  charts: number;
+  arl0: number;
+}
+
+function numberArgument(name: string) {
+  const parse = numberOption(name);
+  return (raw: string): number => {
+    try {
+      return parse(raw);
+    } catch (e) {
+      throw new InvalidArgumentError((e as Error).message);
+    }
+  };
+}
+
+function numberListArgument(name: string) {
+  const parse = numberListOption(name);
+  return (raw: string): number[] => {
+    try {
+      return parse(raw);
+    } catch (e) {
+      throw new InvalidArgumentError((e as Error).message);
+    }
+  };
+}
+
+function asInputError<T>(run: () => T): T {
+  try {
+    return run();
+  } catch (e) {
+    if (e instanceof RangeError) throw new InputError(e.message);
+    throw e;
+  }
+}
+
+function tidy(x: number): number {
+  return Number(x.toPrecision(12));
+}
+
+/** The target in-control run length: --arl0, or the budget conversion; undefined when the parameter itself was given. */
+function targetFrom(opts: CommonOptions, parameter: string, given: boolean): { arl0: number; conversion?: BudgetConversion } | undefined {
+  const targets = [given, opts.arl0 !== undefined, opts.budget !== undefined].filter(Boolean).length;
+  if (targets !== 1) throw new InputError(`give exactly one of --${parameter}, --arl0 or --budget`);
+  const budgetOnly = { every: opts.every, 'hours-per-year': opts.hoursPerYear, charts: opts.charts };
+  if (opts.budget === undefined) {
+    const stray = Object.entries(budgetOnly).find(([, v]) => v !== undefined);
+    if (stray) throw new InputError(`--${stray[0]} applies only with --budget`);
+    return opts.arl0 === undefined ? undefined : { arl0: opts.arl0 };
+  }
+  const { alarms, years } = parseBudget(opts.budget);
+  const parsed = BudgetSchema.safeParse({ alarms, years, sampleIntervalHours: opts.every, hoursPerYear: opts.hoursPerYear });
+  if (!parsed.success) throw new InputError(`--every / --hours-per-year: ${parsed.error.issues.map((i) => `${i.path.join('.')}: ${i.message}`).join('; ')}`);
+  const budget: Budget = parsed.data;
+  const charts = opts.charts ?? 1;
+  const arl0 = asInputError(() => targetArl(budget, charts));
+  const samplesPerComponent = samplesPerBudgetPeriod(budget);
+  return {
+    arl0,
+    conversion: {
+      alarms,
+      years,
+      sampleIntervalHours: budget.sampleIntervalHours,
+      hoursPerYear: budget.hoursPerYear,
+      samplesPerComponent: tidy(samplesPerComponent),
+      componentArl0: tidy(samplesPerComponent / alarms),
+      charts,
+      arl0: tidy(arl0),
+    },
+  };
+}
+
+function conversionLines(c: BudgetConversion): string {
+  return [
+    `budget: ${c.alarms} false alarm(s) per component per ${c.years} year(s), a sample every ${c.sampleIntervalHours} operating hours, ${c.hoursPerYear} hours per year`,
+    `  ${c.years} × ${c.hoursPerYear} / ${c.sampleIntervalHours} = ${round(c.samplesPerComponent, 6)} samples per component; / ${c.alarms} = component in-control ARL ${round(c.componentArl0, 6)}`,
+    `  ${c.charts} chart(s) per component, false-alarm rates adding up: each chart needs ARL0 = ${round(c.componentArl0, 6)} × ${c.charts} = ${round(c.arl0, 6)}`,
+  ].join('\n') + '\n';
+}
+
+function arlTable(shifts: readonly number[], arl: (shift: number) => number): { shift: number; arl: number | null }[] {
+  return shifts.map((shift) => {
+    const value = asInputError(() => arl(shift));
+    return { shift, arl: Number.isFinite(value) ? tidy(value) : null };
+  });
+}
+
+function writeArlTable(out: NodeJS.WritableStream, rows: { shift: number; arl: number | null }[]): void {
+  out.write(formatTable(['shift (σ)', 'ARL'], rows.map((r) => [r.shift, r.arl === null ? '> 1e9' : round(r.arl, 4)])));
+}
+
+const COMMON_HELP = `
+Give exactly one of: the parameter itself (--h / --L), a target in-control run length --arl0, or a false-alarm --budget;
+with --arl0 or --budget the parameter that gives that in-control (zero-shift) run length is solved for.
+Run lengths count samples until the first signal on independent N(shift, 1) observations (shift in sigma; one-sided charts
+watch the upper side, so negative shifts make them slower), from the chart's start state. They are shown at --shifts
+(default: the shifts of the published tables, ${TABLE_SHIFTS.join(', ')}); beyond 1e9 samples as "> 1e9" (null with --json).
+
+--budget "A per component per Y years" with --every HOURS (default ${BudgetSchema.parse({}).sampleIntervalHours}), --hours-per-year (default ${BudgetSchema.parse({}).hoursPerYear})
+and --charts N (default 1; charts per component, e.g. measurands × detectors): each chart's ARL0 =
+Y · hours-per-year / every / A · N, because the false-alarm rates of a component's charts add up. The conversion is printed.
+--json prints one JSON object.`;
+
+function common(c: Command, parameter: string): Command {
+  return c
+    .addOption(new Option('--sided <one|two>', 'two: signals on increases and decreases; one: upper side only').choices(['one', 'two']).default('two'))
+    .option('--shifts <list>', 'comma-separated mean shifts in sigma, e.g. 0,0.5,1', numberListArgument('shifts'))
+    .option('--arl0 <N>', `target in-control average run length in samples: solve for ${parameter}`, numberArgument('arl0'))
+    .option('--budget <text>', `false-alarm budget, e.g. "1 per component per 5 years": derive ARL0, then solve for ${parameter}`)
+    .option('--every <hours>', 'with --budget: operating hours between samples', numberArgument('every'))
+    .option('--hours-per-year <hours>', 'with --budget: operating hours per year', numberArgument('hours-per-year'))
+    .option('--charts <N>', 'with --budget: charts per component sharing the budget', numberArgument('charts'))
+    .option('--json', 'machine-readable output (one JSON object)')
+    .addHelpText('after', COMMON_HELP);
+}
+
+export function registerDesign(program: Command, output: NodeJS.WritableStream = process.stdout): void {
+  const design = program.command('design').description('average run lengths of EWMA or CUSUM parameters, or the h / L that meets a target in-control run length');
+
+  common(
+    design
+      .command('cusum')
+      .description(
+        'tabular CUSUM run lengths (Page\'s integral equation by Nyström quadrature; two-sided combined exactly, also with a headstart), or the decision interval h for a target ARL0',
+      )
+      .option('--k <K>', 'reference value in sigma', numberArgument('k'), 0.5)
+      .option('--h <H>', 'decision interval in sigma: show its ARLs', numberArgument('h'))
+      .option('--headstart <F>', 'fast-initial-response headstart as a fraction of h, 0 ≤ F < 1 (0: zero state)', numberArgument('headstart'), 0),
+    'h',
+  ).action((opts: CommonOptions & { k: number; h?: number; headstart: number }) => {
+    const target = targetFrom(opts, 'h', opts.h !== undefined);
+    const settings = { k: opts.k, sided: opts.sided, headstart: opts.headstart };
+    const h = target ? asInputError(() => cusumDecisionInterval({ ...settings, arl0: target.arl0 })) : opts.h!;
+    const shifts = opts.shifts ?? TABLE_SHIFTS;
+    const arl = arlTable(shifts, (shift) => cusumArl({ ...settings, h, shift }));
+    if (opts.json) {
+      writeJsonLine(
+        { method: 'cusum', sided: opts.sided, k: opts.k, headstart: opts.headstart, ...(target ? { arl0: tidy(target.arl0) } : {}), h: tidy(h), ...(target?.conversion ? { budget: target.conversion } : {}), arl },
+        output,
+      );
+      return;
+    }
+    output.write(`CUSUM, ${opts.sided}-sided, k = ${opts.k}, ${opts.headstart ? `headstart ${opts.headstart}·h` : 'zero state'}\n`);
+    if (target?.conversion) output.write(conversionLines(target.conversion));
+    output.write(target ? `decision interval h = ${round(h, 6)} for an in-control ARL of ${round(target.arl0, 6)}\n` : `decision interval h = ${h}\n`);
+    writeArlTable(output, arl);
+  });
+
+  common(
+    design
+      .command('ewma')
+      .description(
+        'EWMA run lengths (Crowder\'s integral equation by Nyström quadrature; steady-state limits as in the published tables unless --exact-limits), or the limit width L for a target ARL0',
+      )
+      .requiredOption('--lambda <λ>', 'smoothing constant, 0 < λ ≤ 1', numberArgument('lambda'))
+      .option('--L <L>', 'limit width in standard deviations of the EWMA: show its ARLs', numberArgument('L'))
+      .option('--exact-limits', 'time-varying exact limits from the start, as the detectors draw them (default: steady-state limits)'),
+    'L',
+  ).action((opts: CommonOptions & { lambda: number; L?: number; exactLimits?: boolean }) => {
+    const target = targetFrom(opts, 'L', opts.L !== undefined);
+    const exactLimits = opts.exactLimits ?? false;
+    const settings = { lambda: opts.lambda, sided: opts.sided, exactLimits };
+    const L = target ? asInputError(() => ewmaLimitWidth({ ...settings, arl0: target.arl0 })) : opts.L!;
+    const shifts = opts.shifts ?? TABLE_SHIFTS;
+    const arl = arlTable(shifts, (shift) => ewmaArl({ ...settings, L, shift }));
+    const limits = exactLimits ? 'exact' : 'steady';
+    if (opts.json) {
+      writeJsonLine(
+        { method: 'ewma', sided: opts.sided, lambda: opts.lambda, limits, ...(target ? { arl0: tidy(target.arl0) } : {}), L: tidy(L), ...(target?.conversion ? { budget: target.conversion } : {}), arl },
+        output,
+      );
+      return;
+    }
+    output.write(`EWMA, ${opts.sided}-sided, λ = ${opts.lambda}, ${exactLimits ? 'exact time-varying' : 'steady-state'} limits\n`);
+    if (target?.conversion) output.write(conversionLines(target.conversion));
+    output.write(target ? `limit width L = ${round(L, 6)} for an in-control ARL of ${round(target.arl0, 6)}\n` : `limit width L = ${L}\n`);
+    writeArlTable(output, arl);
+  });
+}

@@ -1,0 +1,68 @@
+import { describe, expect, it } from 'vitest';
+import { cusumArl } from '../../src/analysis/arl/cusumArl.ts';
+import { ewmaArl } from '../../src/analysis/arl/ewmaArl.ts';
+import { detectionLimits, parseBudget, targetArl } from '../../src/analysis/budget.ts';
+import { BudgetSchema, DetectionSchema } from '../../src/domain/config.ts';
+import { InputError } from '../../src/domain/errors.ts';
+
+describe('parseBudget', () => {
+  it('reads the documented forms', () => {
+    expect(parseBudget('1 per component per 5 years')).toEqual({ alarms: 1, years: 5 });
+    expect(parseBudget('2 per component per year')).toEqual({ alarms: 2, years: 1 });
+    expect(parseBudget('  0.5 false alarms per component every 2 years ')).toEqual({ alarms: 0.5, years: 2 });
+    expect(parseBudget('1 False Alarm per Component per 10 Years')).toEqual({ alarms: 1, years: 10 });
+  });
+
+  it('refuses anything else with an error that shows the expected form', () => {
+    for (const bad of ['', 'once a year', '1 per unit per year', '1 per component per 5 months', '0 per component per year', '-1 per component per year', '1 per component per 0 years']) {
+      expect(() => parseBudget(bad)).toThrow(InputError);
+    }
+    expect(() => parseBudget('once a year')).toThrow(/"once a year".*1 per component per 5 years/);
+  });
+});
+
+describe('targetArl', () => {
+  it('converts the budget into samples per false alarm, shared by the charts', () => {
+    // 5 years × 8760 h / 250 h = 175.2 samples per component in the period; one false alarm allowed.
+    const b = BudgetSchema.parse({ alarms: 1, years: 5, sampleIntervalHours: 250, hoursPerYear: 8760 });
+    expect(targetArl(b, 1)).toBeCloseTo(175.2, 10);
+    // 14 charts whose false-alarm rates add: each needs 14 times the component's run length.
+    expect(targetArl(b, 14)).toBeCloseTo(175.2 * 14, 10);
+    expect(targetArl({ ...b, alarms: 2, years: 1 }, 3)).toBeCloseTo(((8760 / 250) / 2) * 3, 10);
+    expect(() => targetArl(b, 0)).toThrow(RangeError);
+  });
+});
+
+describe('detectionLimits', () => {
+  it('derives h and L from the default budget: two-sided charts meeting the per-chart ARL0', () => {
+    const d = DetectionSchema.parse({});
+    const limits = detectionLimits(d);
+    expect(limits.charts).toBe(d.measurands.length * 2);
+    expect(limits.arl0).toBeCloseTo(targetArl(d.budget, limits.charts), 10);
+    expect(cusumArl({ k: d.cusum.k, h: limits.cusumH, shift: 0, sided: 'two', headstart: d.cusum.headstart }) / limits.arl0).toBeCloseTo(1, 6);
+    // The detectors draw exact time-varying limits, so L is designed for them.
+    expect(ewmaArl({ lambda: d.ewma.lambda, L: limits.ewmaL, shift: 0, sided: 'two', exactLimits: true }) / limits.arl0).toBeCloseTo(1, 6);
+  });
+
+  it('keeps configured h and L, counts only enabled detectors, and designs one-sided charts for sided: up', () => {
+    const given = detectionLimits(DetectionSchema.parse({ ewma: { L: 2.9 }, cusum: { h: 4.5 } }));
+    expect(given.ewmaL).toBe(2.9);
+    expect(given.cusumH).toBe(4.5);
+
+    const cusumOnly = detectionLimits(DetectionSchema.parse({ measurands: ['Fe', 'Cu'], ewma: { enabled: false }, sided: 'up', cusum: { headstart: 0.5 } }));
+    expect(cusumOnly.charts).toBe(2);
+    expect(cusumArl({ k: 0.5, h: cusumOnly.cusumH, shift: 0, sided: 'one', headstart: 0.5 }) / cusumOnly.arl0).toBeCloseTo(1, 6);
+
+    const none = detectionLimits(DetectionSchema.parse({ ewma: { enabled: false }, cusum: { enabled: false } }));
+    expect(none.charts).toBe(0);
+    expect(none.arl0).toBeCloseTo(targetArl(DetectionSchema.parse({}).budget, 1), 10);
+  });
+
+  it('answers a repeated design from its cache', () => {
+    const d = DetectionSchema.parse({ ewma: { lambda: 0.15 } });
+    const first = detectionLimits(d);
+    const start = performance.now();
+    for (let i = 0; i < 100; i++) expect(detectionLimits(d)).toEqual(first);
+    expect(performance.now() - start).toBeLessThan(50);
+  });
+});
