@@ -4,6 +4,7 @@ import { InputError } from '../domain/errors.ts';
 import { registerSchema } from './commands/schema.ts';
 import { registerChart } from './commands/chart.ts';
 import { registerDesign } from './commands/design.ts';
+import { registerIncidents } from './commands/incidents.ts';
 
 const CAUTION =
   'wearshift advises: it does not replace the laboratory\'s diagnosis, the equipment maker\'s limits, local codes or licensed practice.';
@@ -17,6 +18,7 @@ export function buildProgram(): Command {
   registerSchema(program);
   registerChart(program);
   registerDesign(program);
+  registerIncidents(program);
   return program;
 }
 

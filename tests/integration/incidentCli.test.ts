@@ -1,0 +1,124 @@
+/** `wearshift incidents …` against a private redis-server, run in-process through the real command parser. */
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
+import type { Step } from '../../src/analysis/model.ts';
+import { main } from '../../src/cli/main.ts';
+import { ConfigSchema } from '../../src/domain/config.ts';
+import type { Severity } from '../../src/domain/finding.ts';
+import { incidentRules } from '../../src/incidents/policy.ts';
+import { RedisIncidentStore } from '../../src/incidents/redisIncidentStore.ts';
+import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+
+let server: RedisServer;
+let dir: string;
+let configFile: string;
+const savedUrl = process.env.REDIS_URL;
+
+function step(unit: string, n: number, severity: Severity): Step {
+  const sampleId = `${unit}-${n}`;
+  const sampledAt = new Date(Date.parse('2026-02-01T00:00:00Z') + n * 86_400_000).toISOString();
+  return {
+    sampleId,
+    sampledAt,
+    findings: [{ unit, component: 'engine', group: 'engines', measurand: 'Fe', rule: 'limit', severity, value: 120, threshold: 100, basis: 'reading', sampleId, sampledAt, explanation: 'Fe above its caution limit' }],
+  };
+}
+
+async function run(...argv: string[]): Promise<{ code: number; out: string; err: string }> {
+  let out = '';
+  let err = '';
+  const o = vi.spyOn(process.stdout, 'write').mockImplementation((s) => ((out += String(s)), true));
+  const e = vi.spyOn(process.stderr, 'write').mockImplementation((s) => ((err += String(s)), true));
+  try {
+    const code = await main(argv);
+    return { code, out, err };
+  } finally {
+    o.mockRestore();
+    e.mockRestore();
+    process.exitCode = undefined;
+  }
+}
+
+beforeAll(async () => {
+  server = await startRedisServer();
+  dir = mkdtempSync(join(tmpdir(), 'wearshift-cli-'));
+  configFile = join(dir, 'site.yaml');
+  writeFileSync(configFile, "redis:\n  prefix: '{cli}'\n");
+  process.env.REDIS_URL = server.url;
+  const store = new RedisIncidentStore(server.client(), { rules: incidentRules(ConfigSchema.parse({})), prefix: '{cli}' });
+  for (const [unit, severity] of [['GEN-1', 'caution'], ['GEN-2', 'alarm']] as const) {
+    const s = step(unit, 1, severity);
+    await store.applySteps({ unit, component: 'engine' }, [s], { group: 'engines', now: new Date('2026-02-03T00:00:00Z'), quietBefore: new Date(0) });
+  }
+});
+
+afterAll(async () => {
+  if (savedUrl === undefined) delete process.env.REDIS_URL;
+  else process.env.REDIS_URL = savedUrl;
+  rmSync(dir, { recursive: true, force: true });
+  await server.dispose();
+});
+
+describe('wearshift incidents', () => {
+  it('lists as a table and as JSON lines', async () => {
+    const table = await run('incidents', 'list', '--config', configFile);
+    expect(table.code).toBe(0);
+    const lines = table.out.trim().split('\n');
+    expect(lines[0]).toMatch(/^incident\s+severity\s+state/);
+    expect(lines[2]).toContain('GEN-2/engine@GEN-2-1');
+    expect(lines[3]).toContain('GEN-1/engine@GEN-1-1');
+
+    const json = await run('incidents', 'list', '--severity', 'caution', '--json', '--config', configFile);
+    const parsed = json.out.trim().split('\n').map((l) => JSON.parse(l) as { id: string; severity: string });
+    expect(parsed.map((p) => [p.id, p.severity])).toEqual([['GEN-1/engine@GEN-1-1', 'caution']]);
+  });
+
+  it('acknowledges, shelves and resolves, and shows the timeline', async () => {
+    const id = 'GEN-2/engine@GEN-2-1';
+    const ack = await run('incidents', 'ack', id, '--by', 'R. Tanaka', '--note', 'on site at 14:00', '--config', configFile);
+    expect(ack).toMatchObject({ code: 0, out: `${id}: active, acknowledged\n` });
+    const until = new Date(Date.now() + 3_600_000).toISOString();
+    const shelve = await run('incidents', 'shelve', id, '--until', until, '--reason', 'crane lift today', '--by', 'R. Tanaka', '--json', '--config', configFile);
+    expect(JSON.parse(shelve.out).shelved).toMatchObject({ until, reason: 'crane lift today' });
+    const resolve = await run('incidents', 'resolve', id, '--note', 'filter element replaced', '--by', 'R. Tanaka', '--config', configFile);
+    expect(resolve.out).toBe(`${id}: closed\n`);
+
+    const show = await run('incidents', 'show', id, '--config', configFile);
+    expect(show.code).toBe(0);
+    expect(show.out).toContain('acknowledged by R. Tanaka: on site at 14:00');
+    expect(show.out).toContain('shelved by R. Tanaka until');
+    expect(show.out).toContain('closed (resolved) by R. Tanaka: filter element replaced');
+
+    const closed = await run('incidents', 'list', '--state', 'closed', '--json', '--config', configFile);
+    expect(closed.out.trim().split('\n').map((l) => (JSON.parse(l) as { id: string }).id)).toEqual([id]);
+  });
+
+  it('fails with a clear message and exit code 2 on bad input', async () => {
+    const unknown = await run('incidents', 'show', 'GEN-9/engine@X', '--config', configFile);
+    expect(unknown).toMatchObject({ code: 2, err: 'wearshift: no incident "GEN-9/engine@X"\n' });
+    const noNote = await run('incidents', 'resolve', 'GEN-1/engine@GEN-1-1', '--note', ' ', '--by', 'x', '--config', configFile);
+    expect(noNote).toMatchObject({ code: 2, err: 'wearshift: note: required\n' });
+    const badUntil = await run('incidents', 'shelve', 'GEN-1/engine@GEN-1-1', '--until', 'tomorrow', '--reason', 'x', '--by', 'x', '--config', configFile);
+    expect(badUntil.code).toBe(2);
+    expect(badUntil.err).toContain('--until: expected an ISO 8601 date-time');
+    const badState = await run('incidents', 'list', '--state', 'gone', '--config', configFile);
+    expect(badState.err).toContain('--state: unknown state "gone"');
+    const missingBy = await run('incidents', 'ack', 'GEN-1/engine@GEN-1-1', '--config', configFile);
+    expect(missingBy.code).not.toBe(0);
+    expect(missingBy.err).toContain("required option '--by <name>'");
+  });
+
+  it('says where it tried when Redis cannot be reached', async () => {
+    const saved = process.env.REDIS_URL;
+    process.env.REDIS_URL = 'redis://127.0.0.1:1';
+    try {
+      const r = await run('incidents', 'list', '--config', configFile);
+      expect(r.code).toBe(2);
+      expect(r.err).toContain('cannot reach Redis at redis://127.0.0.1:1');
+    } finally {
+      process.env.REDIS_URL = saved;
+    }
+  });
+});
