@@ -1,0 +1,55 @@
+/**
+ * The text alternative of a trend chart: what a sighted reader takes from it, in words, for screen readers and
+ * for mail clients that block images. It names the span, the latest reading against its limits, the latest wear rate
+ * and detector state, and the findings of the latest sample.
+ */
+import type { Measurand } from '../domain/measurands.ts';
+import type { ComponentSeries, MeasurandSeries } from './componentSeries.ts';
+
+export function chartAltText(series: ComponentSeries, measurand: Measurand): string {
+  const m = series.measurands.find((s) => s.measurand === measurand);
+  if (m === undefined) return `No ${measurand} readings for ${series.unit} / ${series.component}.`;
+  const points = m.charges.flatMap((c) => c.points);
+  const first = points[0];
+  const last = points[points.length - 1];
+  if (first === undefined || last === undefined) return `No ${measurand} readings for ${series.unit} / ${series.component}.`;
+  const charges = m.charges.filter((c) => c.points.length > 0).length;
+  const parts = [
+    `Trend of ${m.measurand} (${m.label}) for ${series.unit} / ${series.component}: ${points.length} ${points.length === 1 ? 'reading' : 'readings'} on ${charges} oil ${charges === 1 ? 'charge' : 'charges'} from ${day(first.sampledAt)} to ${day(last.sampledAt)}.`,
+    `Latest reading ${last.text} ${m.unit} on ${day(last.sampledAt)}${levelsText(m)}.`,
+  ];
+  const rate = m.rates?.points[m.rates.points.length - 1];
+  if (rate !== undefined) parts.push(`Latest wear rate ${fmt(rate.per100h)} ${m.unit} per 100 h${rate.runningIn ? ' (running in)' : ''}.`);
+  const cusum = m.cusum?.points[m.cusum.points.length - 1];
+  if (m.cusum && cusum) {
+    const stat = Math.max(cusum.upper, m.cusum.sided === 'two' ? cusum.lower : 0);
+    parts.push(`CUSUM ${fmt(stat)} against its decision interval ${fmt(m.cusum.h)}${stat > m.cusum.h ? ', above it' : ''}.`);
+  }
+  const ewma = m.ewma?.points[m.ewma.points.length - 1];
+  if (ewma) parts.push(`EWMA ${fmt(ewma.ewma)} within limits ${fmt(ewma.lcl)} to ${fmt(ewma.ucl)}${ewma.ewma > ewma.ucl || ewma.ewma < ewma.lcl ? ': outside them' : ''}.`);
+  const latest = m.marks.filter((k) => k.sampleId === last.sampleId);
+  parts.push(
+    latest.length === 0
+      ? `No rule fired on the latest sample; ${m.marks.length} ${m.marks.length === 1 ? 'finding' : 'findings'} over the whole history.`
+      : `On the latest sample: ${latest.map((k) => `${k.severity} by the ${k.rule} rule${k.direction ? ` (${k.direction})` : ''}`).join('; ')}.`,
+  );
+  return parts.join(' ');
+}
+
+function levelsText(m: MeasurandSeries): string {
+  const out: string[] = [];
+  if (m.limits?.caution !== undefined) out.push(`caution level ${fmt(m.limits.caution)}`);
+  if (m.limits?.alarm !== undefined) out.push(`alarm level ${fmt(m.limits.alarm)}`);
+  const population = m.population?.[m.population.length - 1]?.status;
+  if (population?.kind === 'limits') out.push(`group limits ${fmt(population.caution)} and ${fmt(population.alarm)}`);
+  if (population?.kind === 'not-enough-data') out.push('group limits not yet known (not enough data)');
+  return out.length === 0 ? '' : ` (${out.join(', ')})`;
+}
+
+function day(iso: string): string {
+  return iso.slice(0, 10);
+}
+
+function fmt(v: number): string {
+  return Math.abs(v) >= 1000 ? String(Math.round(v)) : String(Number(v.toPrecision(3)));
+}

@@ -1,0 +1,237 @@
+/**
+ * The series behind a component's trend charts and the body of `GET /v1/units/:unit/components/:component/series`:
+ * per measurand, the readings per oil charge, the wear rate per interval, the change detectors' statistics against
+ * their limits, the fixed and population limits, and a mark wherever a rule fired. Pure: built from an evaluation
+ * and the settings and group statistics it ran with, so the chart shows exactly what the worker judged.
+ */
+import type { Levels } from '../domain/config.ts';
+import type { Finding, RuleFamily, Severity } from '../domain/finding.ts';
+import { MEASURAND_NAMES, MEASURANDS, type Measurand } from '../domain/measurands.ts';
+import { formatReading } from '../domain/reading.ts';
+import type { ComponentSettings } from '../domain/settings.ts';
+import { wearIntervals } from '../analysis/intervals.ts';
+import type { Charge, Evaluation, GroupStats, Interval } from '../analysis/model.ts';
+import { populationMeasurands } from '../analysis/populationStats.ts';
+import { populationLimitStatus, type PopulationLimitStatus } from '../analysis/rules/population.ts';
+import type { RuleInput } from '../analysis/rules/ruleInput.ts';
+import { detectorTraces, type CusumTrace, type EwmaTrace } from './detectorTraces.ts';
+
+export interface ComponentSeries {
+  readonly unit: string;
+  readonly component: string;
+  readonly group: string;
+  readonly samples: number;
+  readonly charges: number;
+  readonly measurands: readonly MeasurandSeries[];
+}
+
+export interface MeasurandSeries {
+  readonly measurand: Measurand;
+  /** From the measurand catalogue: "iron", "base number (TBN)". */
+  readonly label: string;
+  /** Unit of measure of the readings: "ppm", "mg KOH/g". */
+  readonly unit: string;
+  readonly charges: readonly ChargeReadings[];
+  /** The fixed caution/alarm levels configured for the group; null when none are set. */
+  readonly limits: Levels | null;
+  /** Population limits at each reading; null when the population rule does not judge this measurand. */
+  readonly population: readonly PopulationPoint[] | null;
+  /** Wear metals only. */
+  readonly rates: RateSeries | null;
+  /** Detection measurands only, when the detector is enabled. */
+  readonly cusum: CusumTrace | null;
+  readonly ewma: EwmaTrace | null;
+  /** One mark per finding of this measurand, in time order. */
+  readonly marks: readonly RuleMark[];
+}
+
+/** The readings of one oil charge; wear-metal series restart at every new charge. */
+export interface ChargeReadings {
+  readonly index: number;
+  readonly startedBy: Charge['startedBy'];
+  readonly points: readonly ReadingPoint[];
+}
+
+export interface ReadingPoint {
+  readonly sampleId: string;
+  readonly sampledAt: string;
+  readonly oilHours: number | null;
+  /** The reading; for a censored reading, its bound. */
+  readonly value: number;
+  /** Below or above the lab's reporting range: `value` is a bound, not a measurement. */
+  readonly censored: boolean;
+  /** The reading as the lab gave it: "12", "<1". */
+  readonly text: string;
+}
+
+export interface PopulationPoint {
+  readonly sampleId: string;
+  readonly sampledAt: string;
+  readonly oilHours: number | null;
+  /** The band's limits, or "not enough data" with how many results the band has and needs. */
+  readonly status: PopulationLimitStatus;
+}
+
+export interface RateSeries {
+  /** Rate-of-change levels in ppm per 100 h configured for the group; null when none are set. */
+  readonly limits: Levels | null;
+  readonly points: readonly RatePoint[];
+}
+
+export interface RatePoint {
+  /** The sample that ends the interval. */
+  readonly sampleId: string;
+  readonly sampledAt: string;
+  readonly chargeIndex: number;
+  readonly hours: number;
+  /** Wear metal gained per 100 operating hours on the charge (ppm/100 h). */
+  readonly per100h: number;
+  readonly firstOfCharge: boolean;
+  /** Either end is censored: the rate is a bound only. */
+  readonly censored: boolean;
+  /** New or overhauled component: fast wear is expected and not judged. */
+  readonly runningIn: boolean;
+}
+
+/** Which chart panel a rule's verdict belongs on. */
+export type MarkPanel = 'readings' | 'rate' | 'cusum' | 'ewma';
+
+export interface RuleMark {
+  readonly sampleId: string;
+  readonly sampledAt: string;
+  readonly rule: RuleFamily;
+  readonly severity: Severity;
+  readonly direction?: 'up' | 'down';
+  readonly value: number;
+  readonly threshold?: number;
+  readonly panel: MarkPanel;
+  readonly explanation: string;
+}
+
+export interface ComponentSeriesOptions {
+  /** Only these measurands, in this order. Default: every measurand with a numeric reading, detection measurands first. */
+  readonly measurands?: readonly Measurand[];
+}
+
+export function buildComponentSeries(
+  evaluation: Evaluation,
+  settings: ComponentSettings,
+  group?: GroupStats,
+  options: ComponentSeriesOptions = {},
+): ComponentSeries {
+  const { history } = evaluation;
+  const intervalCache = new Map<Measurand, readonly Interval[]>();
+  const input: RuleInput = {
+    history,
+    settings,
+    intervals: (m) => {
+      let list = intervalCache.get(m);
+      if (list === undefined) intervalCache.set(m, (list = wearIntervals(history, m, settings)));
+      return list;
+    },
+    ...(group !== undefined && { group }),
+  };
+  const findings = evaluation.steps.flatMap((s) => s.findings);
+  const measurands = options.measurands ?? plottedMeasurands(evaluation, settings);
+  return {
+    unit: history.unit,
+    component: history.component,
+    group: settings.group,
+    samples: history.samples.length,
+    charges: history.charges.length,
+    measurands: measurands.map((m) => measurandSeries(input, m, findings.filter((f) => f.measurand === m))),
+  };
+}
+
+function measurandSeries(input: RuleInput, m: Measurand, findings: readonly Finding[]): MeasurandSeries {
+  const { history, settings } = input;
+  const info = MEASURANDS[m];
+  const charges = history.charges.map((c) => ({
+    index: c.index,
+    startedBy: c.startedBy,
+    points: c.samples.flatMap((s) => {
+      const r = s.readings[m];
+      if (r === undefined || r.kind === 'code') return [];
+      return [
+        {
+          sampleId: s.sampleId,
+          sampledAt: s.sampledAt,
+          oilHours: s.oilHours ?? null,
+          value: r.kind === 'value' ? r.value : r.limit,
+          censored: r.kind === 'censored',
+          text: formatReading(r),
+        },
+      ];
+    }),
+  }));
+  const population = populationMeasurands(settings.population).includes(m)
+    ? history.samples
+        .filter((s) => s.readings[m] !== undefined)
+        .map((s) => ({ sampleId: s.sampleId, sampledAt: s.sampledAt, oilHours: s.oilHours ?? null, status: populationLimitStatus(input, m, s) }))
+    : null;
+  const rates: RateSeries | null =
+    info.kind === 'wear'
+      ? {
+          limits: settings.rateLimits[m] ?? null,
+          points: input.intervals(m).map((iv) => ({
+            sampleId: iv.to.sampleId,
+            sampledAt: iv.to.sampledAt,
+            chargeIndex: iv.chargeIndex,
+            hours: iv.hours,
+            per100h: iv.rate * 100,
+            firstOfCharge: iv.firstOfCharge,
+            censored: iv.censored,
+            runningIn: iv.runningIn,
+          })),
+        }
+      : null;
+  const traces = settings.detection.measurands.includes(m) ? detectorTraces(input, m) : { cusum: null, ewma: null };
+  return {
+    measurand: m,
+    label: info.label,
+    unit: info.unit,
+    charges,
+    limits: settings.limits[m] ?? null,
+    population,
+    rates,
+    cusum: traces.cusum,
+    ewma: traces.ewma,
+    marks: findings.map((f) => ({
+      sampleId: f.sampleId,
+      sampledAt: f.sampledAt,
+      rule: f.rule,
+      severity: f.severity,
+      ...(f.direction !== undefined && { direction: f.direction }),
+      value: f.value,
+      ...(f.threshold !== undefined && { threshold: f.threshold }),
+      panel: panelOf(f.rule),
+      explanation: f.explanation,
+    })),
+  };
+}
+
+function panelOf(rule: RuleFamily): MarkPanel {
+  switch (rule) {
+    case 'rate':
+      return 'rate';
+    case 'cusum':
+      return 'cusum';
+    case 'ewma':
+      return 'ewma';
+    default:
+      return 'readings';
+  }
+}
+
+/** Detection measurands first (the ones the engineer configured to watch), then the catalogue order. */
+function plottedMeasurands(evaluation: Evaluation, settings: ComponentSettings): Measurand[] {
+  const present = new Set<Measurand>();
+  for (const s of evaluation.history.samples) {
+    for (const m of MEASURAND_NAMES) {
+      const r = s.readings[m];
+      if (r !== undefined && r.kind !== 'code') present.add(m);
+    }
+  }
+  const first = settings.detection.measurands.filter((m) => present.has(m));
+  return [...first, ...MEASURAND_NAMES.filter((m) => present.has(m) && !first.includes(m))];
+}

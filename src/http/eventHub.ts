@@ -1,0 +1,85 @@
+/**
+ * In-process publish/subscribe for live updates: the processors publish incident changes and new results, and every
+ * open `GET /v1/events` stream (the board) receives them. Delivery is best effort and in memory: a page that
+ * reconnects reloads the incident list, so nothing depends on an event arriving. Across processes (`wearshift
+ * worker` and `wearshift api` apart), a bridge forwards Redis pub/sub messages into the API process's hub.
+ */
+import type { IncidentChange } from '../queue/incidentFeed.ts';
+
+export type LiveEvent =
+  | {
+      readonly type: 'incident';
+      readonly incidentId: string;
+      readonly unit: string;
+      readonly component: string;
+      readonly severity: string;
+      /** The incident's state after the change, in words. */
+      readonly state: string;
+      /** What happened: the timeline entry's kind ("opened", "acknowledged", "finding", ...). */
+      readonly change: string;
+      readonly at: string;
+    }
+  | {
+      readonly type: 'result';
+      readonly unit: string;
+      readonly component: string;
+      readonly sampleId: string;
+      readonly sampledAt: string;
+    };
+
+export type LiveListener = (event: LiveEvent, id: number) => void;
+
+export interface EventHub {
+  /** Hands the event to every subscriber now; a subscriber that throws does not keep it from the others. */
+  publish(event: LiveEvent): void;
+  /** Returns the function that ends the subscription. */
+  subscribe(listener: LiveListener): () => void;
+  readonly subscribers: number;
+}
+
+export interface EventHubOptions {
+  /** Told about a subscriber that threw. Default: ignored (the subscriber's own stream handles its errors). */
+  onListenerError?: (error: unknown) => void;
+}
+
+export function createEventHub(options: EventHubOptions = {}): EventHub {
+  const listeners = new Set<LiveListener>();
+  let sequence = 0;
+  return {
+    publish(event) {
+      const id = ++sequence;
+      for (const listener of [...listeners]) {
+        try {
+          listener(event, id);
+        } catch (e) {
+          options.onListenerError?.(e);
+        }
+      }
+    },
+    subscribe(listener) {
+      // A wrapper per call, so that subscribing the same function twice gives two independent subscriptions.
+      const entry: LiveListener = (event, id) => listener(event, id);
+      listeners.add(entry);
+      return () => {
+        listeners.delete(entry);
+      };
+    },
+    get subscribers() {
+      return listeners.size;
+    },
+  };
+}
+
+/** The live event for one incident change as the incident feed reports it. */
+export function incidentEvent(change: IncidentChange): LiveEvent {
+  return {
+    type: 'incident',
+    incidentId: change.incidentId,
+    unit: change.unit,
+    component: change.component,
+    severity: change.severity,
+    state: change.state,
+    change: change.entry.kind,
+    at: change.entry.at,
+  };
+}
