@@ -1,4 +1,5 @@
 /** Output for people (aligned tables) and for machines (`--json`: one JSON object per line). */
+import { InvalidArgumentError } from 'commander';
 
 export function writeJsonLine(value: unknown, out: NodeJS.WritableStream = process.stdout): void {
   out.write(`${JSON.stringify(value)}\n`);
@@ -20,7 +21,7 @@ export function round(x: number, digits = 4): number {
 export function numberOption(name: string) {
   return (raw: string): number => {
     const v = Number(raw);
-    if (raw.trim() === '' || !Number.isFinite(v)) throw new Error(`--${name} expects a number, got "${raw}"`);
+    if (raw.trim() === '' || !Number.isFinite(v)) throw new InvalidArgumentError(`--${name} expects a number, got "${raw}"`);
     return v;
   };
 }

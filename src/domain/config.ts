@@ -48,7 +48,7 @@ export const DetectionSchema = z
         enabled: z.boolean().default(true),
         k: nonNegative.default(0.5).describe('Reference value in sigma: half the shift to detect fastest.'),
         h: positive.optional().describe('Decision interval in sigma; derived from the budget when absent.'),
-        headstart: nonNegative.max(1).default(0).describe('Fast-initial-response headstart as a fraction of h (0.5 is the usual choice).'),
+        headstart: nonNegative.lt(1).default(0).describe('Fast-initial-response headstart as a fraction of h (0.5 is the usual choice).'),
       })
       .strict()
       .default({ enabled: true, k: 0.5, headstart: 0 }),

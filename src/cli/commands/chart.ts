@@ -2,7 +2,7 @@
  * `wearshift chart cusum|ewma`: runs one detector over a plain series of numbers read from stdin, with the parameters in
  * sigma units, and prints every point (a table, or JSON lines with --json).
  */
-import { type Command, InvalidArgumentError } from 'commander';
+import { type Command } from 'commander';
 import { type CusumPoint, cusumChart } from '../../analysis/cusum.ts';
 import { type EwmaPoint, ewmaChart } from '../../analysis/ewma.ts';
 import { InputError } from '../../domain/errors.ts';
@@ -33,18 +33,6 @@ async function readAll(input: NodeJS.ReadableStream): Promise<string> {
   let text = '';
   for await (const chunk of input) text += typeof chunk === 'string' ? chunk : (chunk as Buffer).toString('utf8');
   return text;
-}
-
-/** Commander reports an InvalidArgumentError as a usage error naming the option. */
-function numberArgument(name: string) {
-  const parse = numberOption(name);
-  return (raw: string): number => {
-    try {
-      return parse(raw);
-    } catch (e) {
-      throw new InvalidArgumentError((e as Error).message);
-    }
-  };
 }
 
 /** Parameter errors of the analysis core are the user's to fix. */
@@ -79,8 +67,8 @@ export function registerChart(program: Command, io: ChartIo = { input: process.s
     .description('run one detector (EWMA or CUSUM) over a plain series of numbers from stdin; parameters in sigma units');
   const common = (c: Command) =>
     c
-      .requiredOption('--target <T>', 'in-control mean of the series', numberArgument('target'))
-      .requiredOption('--sigma <S>', 'in-control standard deviation of one value (> 0)', numberArgument('sigma'))
+      .requiredOption('--target <T>', 'in-control mean of the series', numberOption('target'))
+      .requiredOption('--sigma <S>', 'in-control standard deviation of one value (> 0)', numberOption('sigma'))
       .option('--json', 'one JSON object per point (JSON lines)')
       .addHelpText('after', '\nstdin: numbers separated by spaces, commas or newlines; a token that is not a number stops the run (exit 2).');
 
@@ -88,9 +76,9 @@ export function registerChart(program: Command, io: ChartIo = { input: process.s
     chart
       .command('cusum')
       .description('tabular CUSUM: C+ = max(0, C+ + z − k), C− = max(0, C− − z − k), z = (x − target)/sigma; signals when a sum exceeds h; no reset')
-      .requiredOption('--k <K>', 'reference value in sigma (half the shift to detect fastest)', numberArgument('k'))
-      .requiredOption('--h <H>', 'decision interval in sigma', numberArgument('h'))
-      .option('--headstart <F>', 'fast-initial-response headstart: both sums start at F·h, 0 ≤ F < 1', numberArgument('headstart'), 0),
+      .requiredOption('--k <K>', 'reference value in sigma (half the shift to detect fastest)', numberOption('k'))
+      .requiredOption('--h <H>', 'decision interval in sigma', numberOption('h'))
+      .option('--headstart <F>', 'fast-initial-response headstart: both sums start at F·h, 0 ≤ F < 1', numberOption('headstart'), 0),
   ).action(async (opts: CommonOptions & { k: number; h: number; headstart: number }) => {
     const values = parseSeries(await readAll(io.input));
     const points = asInputError(() => cusumChart(values, opts.target, opts.sigma, { k: opts.k, h: opts.h, headstart: opts.headstart }));
@@ -106,8 +94,8 @@ export function registerChart(program: Command, io: ChartIo = { input: process.s
     chart
       .command('ewma')
       .description('EWMA chart starting at the target: w = λ·x + (1 − λ)·w, limits target ± L·sigma·sqrt(λ/(2 − λ)·(1 − (1 − λ)^(2i))); no reset')
-      .requiredOption('--lambda <λ>', 'smoothing constant, 0 < λ ≤ 1', numberArgument('lambda'))
-      .requiredOption('--L <L>', 'limit width in standard deviations of the EWMA', numberArgument('L'))
+      .requiredOption('--lambda <λ>', 'smoothing constant, 0 < λ ≤ 1', numberOption('lambda'))
+      .requiredOption('--L <L>', 'limit width in standard deviations of the EWMA', numberOption('L'))
       .option('--steady-limits', 'use the steady-state limits target ± L·sigma·sqrt(λ/(2 − λ)) from the first point (default: exact time-varying limits)'),
   ).action(async (opts: CommonOptions & { lambda: number; L: number; steadyLimits?: boolean }) => {
     const values = parseSeries(await readAll(io.input));

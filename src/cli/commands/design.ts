@@ -2,7 +2,7 @@
  * `wearshift design cusum|ewma`: average run lengths for given chart parameters, or the parameter (h, L) that meets a target
  * in-control run length, given directly or derived from a false-alarm budget.
  */
-import { type Command, InvalidArgumentError, Option } from 'commander';
+import { type Command, Option } from 'commander';
 import { cusumArl } from '../../analysis/arl/cusumArl.ts';
 import { ewmaArl } from '../../analysis/arl/ewmaArl.ts';
 import { cusumDecisionInterval } from '../../analysis/arl/solveCusum.ts';
@@ -38,28 +38,6 @@ interface BudgetConversion {
   componentArl0: number;
   charts: number;
   arl0: number;
-}
-
-function numberArgument(name: string) {
-  const parse = numberOption(name);
-  return (raw: string): number => {
-    try {
-      return parse(raw);
-    } catch (e) {
-      throw new InvalidArgumentError((e as Error).message);
-    }
-  };
-}
-
-function numberListArgument(name: string) {
-  const parse = numberListOption(name);
-  return (raw: string): number[] => {
-    try {
-      return parse(raw);
-    } catch (e) {
-      throw new InvalidArgumentError((e as Error).message);
-    }
-  };
 }
 
 function asInputError<T>(run: () => T): T {
@@ -141,12 +119,12 @@ Y · hours-per-year / every / A · N, because the false-alarm rates of a compone
 function common(c: Command, parameter: string): Command {
   return c
     .addOption(new Option('--sided <one|two>', 'two: signals on increases and decreases; one: upper side only').choices(['one', 'two']).default('two'))
-    .option('--shifts <list>', 'comma-separated mean shifts in sigma, e.g. 0,0.5,1', numberListArgument('shifts'))
-    .option('--arl0 <N>', `target in-control average run length in samples: solve for ${parameter}`, numberArgument('arl0'))
+    .option('--shifts <list>', 'comma-separated mean shifts in sigma, e.g. 0,0.5,1', numberListOption('shifts'))
+    .option('--arl0 <N>', `target in-control average run length in samples: solve for ${parameter}`, numberOption('arl0'))
     .option('--budget <text>', `false-alarm budget, e.g. "1 per component per 5 years": derive ARL0, then solve for ${parameter}`)
-    .option('--every <hours>', 'with --budget: operating hours between samples', numberArgument('every'))
-    .option('--hours-per-year <hours>', 'with --budget: operating hours per year', numberArgument('hours-per-year'))
-    .option('--charts <N>', 'with --budget: charts per component sharing the budget', numberArgument('charts'))
+    .option('--every <hours>', 'with --budget: operating hours between samples', numberOption('every'))
+    .option('--hours-per-year <hours>', 'with --budget: operating hours per year', numberOption('hours-per-year'))
+    .option('--charts <N>', 'with --budget: charts per component sharing the budget', numberOption('charts'))
     .option('--json', 'machine-readable output (one JSON object)')
     .addHelpText('after', COMMON_HELP);
 }
@@ -160,9 +138,9 @@ export function registerDesign(program: Command, output: NodeJS.WritableStream =
       .description(
         'tabular CUSUM run lengths (Page\'s integral equation by Nyström quadrature; two-sided combined exactly, also with a headstart), or the decision interval h for a target ARL0',
       )
-      .option('--k <K>', 'reference value in sigma', numberArgument('k'), 0.5)
-      .option('--h <H>', 'decision interval in sigma: show its ARLs', numberArgument('h'))
-      .option('--headstart <F>', 'fast-initial-response headstart as a fraction of h, 0 ≤ F < 1 (0: zero state)', numberArgument('headstart'), 0),
+      .option('--k <K>', 'reference value in sigma', numberOption('k'), 0.5)
+      .option('--h <H>', 'decision interval in sigma: show its ARLs', numberOption('h'))
+      .option('--headstart <F>', 'fast-initial-response headstart as a fraction of h, 0 ≤ F < 1 (0: zero state)', numberOption('headstart'), 0),
     'h',
   ).action((opts: CommonOptions & { k: number; h?: number; headstart: number }) => {
     const target = targetFrom(opts, 'h', opts.h !== undefined);
@@ -189,8 +167,8 @@ export function registerDesign(program: Command, output: NodeJS.WritableStream =
       .description(
         'EWMA run lengths (Crowder\'s integral equation by Nyström quadrature; steady-state limits as in the published tables unless --exact-limits), or the limit width L for a target ARL0',
       )
-      .requiredOption('--lambda <λ>', 'smoothing constant, 0 < λ ≤ 1', numberArgument('lambda'))
-      .option('--L <L>', 'limit width in standard deviations of the EWMA: show its ARLs', numberArgument('L'))
+      .requiredOption('--lambda <λ>', 'smoothing constant, 0 < λ ≤ 1', numberOption('lambda'))
+      .option('--L <L>', 'limit width in standard deviations of the EWMA: show its ARLs', numberOption('L'))
       .option('--exact-limits', 'time-varying exact limits from the start, as the detectors draw them (default: steady-state limits)'),
     'L',
   ).action((opts: CommonOptions & { lambda: number; L?: number; exactLimits?: boolean }) => {
