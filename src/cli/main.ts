@@ -1,6 +1,7 @@
 /** The `wearshift` command line. Each command lives in its own module under ./commands. */
 import { Command, CommanderError } from 'commander';
 import { InputError } from '../domain/errors.ts';
+import { registerDocs } from './commands/docs.ts';
 import { registerSchema } from './commands/schema.ts';
 import { registerChart } from './commands/chart.ts';
 import { registerDesign } from './commands/design.ts';
@@ -16,6 +17,7 @@ export function buildProgram(): Command {
     .showHelpAfterError()
     .exitOverride();
   registerSchema(program);
+  registerDocs(program);
   registerChart(program);
   registerDesign(program);
   registerIncidents(program);

@@ -54,8 +54,7 @@ export const DetectionSchema = z
       .default({ enabled: true, k: 0.5, headstart: 0 }),
     sided: z.enum(['two', 'up']).default('two').describe('two: a fall in wear rate is reported too, as a possible sampling fault.'),
     runningInHours: nonNegative.default(250).describe('Hours after a new or overhauled component kept out of the baseline.'),
-    baselineIntervals: z.number().int().min(2).default(12).describe('Stable intervals that form the own baseline (in-control rate and spread).'),
-    minBaselineIntervals: z.number().int().min(2).default(4).describe('Below this many own intervals the group baseline is used.'),
+    baselineIntervals: z.number().int().min(2).default(12).describe('Stable intervals that form the own baseline (in-control rate and spread); until then the group baseline is used.'),
     labNoise: z
       .object({
         absolute: nonNegative.default(1).describe('Lab repeatability floor in ppm (one standard deviation).'),

@@ -18,7 +18,6 @@ detection:
   measurands: [Fe, Cu]
   runningInHours: 0
   baselineIntervals: 6
-  minBaselineIntervals: 4
 groups:
   - name: lift-gearboxes
     match: { component: gearbox, unit: "^LS" }

@@ -26,11 +26,17 @@ export function registerSchema(program: Command): void {
     .command('schema')
     .description('write the JSON Schemas of the result event and the configuration')
     .option('--out <dir>', 'directory to write into', 'schemas')
-    .action((opts: { out: string }) => {
-      mkdirSync(opts.out, { recursive: true });
-      for (const [name, schema] of Object.entries(publishedSchemas())) {
-        writeFileSync(join(opts.out, name), `${JSON.stringify(schema, null, 2)}\n`);
-        process.stdout.write(`${join(opts.out, name)}\n`);
-      }
-    });
+    .action((opts: { out: string }) => writeSchemas(opts.out));
+}
+
+export function schemaFileText(schema: unknown): string {
+  return `${JSON.stringify(schema, null, 2)}\n`;
+}
+
+export function writeSchemas(dir: string): void {
+  mkdirSync(dir, { recursive: true });
+  for (const [name, schema] of Object.entries(publishedSchemas())) {
+    writeFileSync(join(dir, name), schemaFileText(schema));
+    process.stdout.write(`${join(dir, name)}\n`);
+  }
 }
