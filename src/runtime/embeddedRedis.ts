@@ -1,0 +1,138 @@
+/**
+ * A private redis-server for the demo and the integration tests: a free port, a temporary directory, no
+ * persistence unless asked for. Nothing here ever connects to a Redis it did not start. `stop()` + `start()`
+ * restarts on the same port (with `appendOnly` the data survives).
+ */
+import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
+import { mkdtempSync, rmSync } from 'node:fs';
+import { createServer } from 'node:net';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+
+export interface EmbeddedRedisOptions {
+  /** Keep an append-only file in the temporary directory, so that a restart keeps the data. Default false. */
+  appendOnly?: boolean;
+  /** Extra `--name value` arguments, e.g. `['--maxmemory-policy', 'allkeys-lru']`. */
+  args?: string[];
+  /** The executable. Default `redis-server` from PATH. */
+  command?: string;
+  /** Longest wait for "Ready to accept connections". Default 10 000 ms. */
+  startTimeoutMs?: number;
+}
+
+export interface EmbeddedRedis {
+  readonly port: number;
+  readonly url: string;
+  readonly dir: string;
+  /** Starts the server again on the same port (after stop()). */
+  start(): Promise<void>;
+  /** Stops the server (SIGTERM, waits for exit); the directory stays until dispose(). */
+  stop(): Promise<void>;
+  /** Stops the server and removes its directory. */
+  dispose(): Promise<void>;
+}
+
+/** Where none is installed, what to do about it, in one line. */
+export const NO_REDIS_SERVER_HINT =
+  'no redis-server found on PATH: install one (Debian/Ubuntu: apt-get install redis-server), or run `docker compose up redis` and set REDIS_URL=redis://localhost:6379, or point REDIS_URL at a Redis of your own';
+
+export class RedisServerMissingError extends Error {
+  override readonly name = 'RedisServerMissingError';
+  constructor() {
+    super(NO_REDIS_SERVER_HINT);
+  }
+}
+
+/** True when `command` can be run (it answers `--version`). */
+export function redisServerAvailable(command = 'redis-server'): boolean {
+  const probe = spawnSync(command, ['--version'], { stdio: 'ignore' });
+  return probe.error === undefined && probe.status === 0;
+}
+
+export async function freePort(): Promise<number> {
+  return new Promise((resolve, reject) => {
+    const srv = createServer();
+    srv.unref();
+    srv.on('error', reject);
+    srv.listen(0, '127.0.0.1', () => {
+      const address = srv.address();
+      const port = typeof address === 'object' && address !== null ? address.port : 0;
+      srv.close(() => resolve(port));
+    });
+  });
+}
+
+/** Throws RedisServerMissingError when the executable cannot be found. */
+export async function startEmbeddedRedis(options: EmbeddedRedisOptions = {}): Promise<EmbeddedRedis> {
+  const command = options.command ?? 'redis-server';
+  if (!redisServerAvailable(command)) throw new RedisServerMissingError();
+  const dir = mkdtempSync(join(tmpdir(), 'wearshift-redis-'));
+  const port = await freePort();
+  const startTimeoutMs = options.startTimeoutMs ?? 10_000;
+  let child: ChildProcess | undefined;
+
+  const start = async () => {
+    const args = [
+      '--port', String(port),
+      '--bind', '127.0.0.1',
+      '--dir', dir,
+      '--save', '',
+      '--appendonly', options.appendOnly ? 'yes' : 'no',
+      // Queues must never lose jobs to eviction.
+      '--maxmemory-policy', 'noeviction',
+      ...(options.args ?? []),
+    ];
+    const proc = spawn(command, args, { stdio: ['ignore', 'pipe', 'pipe'] });
+    child = proc;
+    let output = '';
+    await new Promise<void>((resolve, reject) => {
+      const timer = setTimeout(() => reject(new Error(`redis-server did not start on port ${port}:\n${output}`)), startTimeoutMs);
+      const onData = (d: Buffer) => {
+        output += d.toString();
+        if (output.includes('Ready to accept connections')) {
+          clearTimeout(timer);
+          resolve();
+        }
+      };
+      proc.stdout!.on('data', onData);
+      proc.stderr!.on('data', onData);
+      proc.once('error', (e) => {
+        clearTimeout(timer);
+        reject(e);
+      });
+      proc.once('exit', (code) => {
+        clearTimeout(timer);
+        reject(new Error(`redis-server exited with ${code}:\n${output}`));
+      });
+    });
+  };
+
+  const stop = async () => {
+    const proc = child;
+    child = undefined;
+    if (proc === undefined || proc.exitCode !== null || proc.signalCode !== null) return;
+    await new Promise<void>((resolve) => {
+      proc.once('exit', () => resolve());
+      proc.kill('SIGTERM');
+    });
+  };
+
+  try {
+    await start();
+  } catch (e) {
+    await stop();
+    rmSync(dir, { recursive: true, force: true });
+    throw e;
+  }
+  return {
+    port,
+    url: `redis://127.0.0.1:${port}`,
+    dir,
+    start,
+    stop,
+    async dispose() {
+      await stop();
+      rmSync(dir, { recursive: true, force: true });
+    },
+  };
+}
