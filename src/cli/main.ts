@@ -6,6 +6,13 @@ import { registerSchema } from './commands/schema.ts';
 import { registerChart } from './commands/chart.ts';
 import { registerDesign } from './commands/design.ts';
 import { registerIncidents } from './commands/incidents.ts';
+import { registerDemo } from './commands/demo.ts';
+import { registerApi } from './commands/api.ts';
+import { registerFailed } from './commands/failed.ts';
+import { registerImport } from './commands/import.ts';
+import { registerReplay } from './commands/replay.ts';
+import { registerServe } from './commands/serve.ts';
+import { registerWorker } from './commands/worker.ts';
 
 const CAUTION =
   'wearshift advises: it does not replace the laboratory\'s diagnosis, the equipment maker\'s limits, local codes or licensed practice.';
@@ -21,6 +28,13 @@ export function buildProgram(): Command {
   registerChart(program);
   registerDesign(program);
   registerIncidents(program);
+  registerDemo(program);
+  registerServe(program);
+  registerWorker(program);
+  registerApi(program);
+  registerImport(program);
+  registerReplay(program);
+  registerFailed(program);
   return program;
 }
 

@@ -1,41 +1,70 @@
 /**
- * The HTTP API: one fastify application with the result intake, the probes, the metrics and — when an
- * incident store is given — the acknowledgement-link pages. JSON in and out; bearer tokens per role.
+ * The HTTP API: one fastify application with the probes and the metrics, and — for what is given — the
+ * result intake, the incident API and acknowledgement-link pages, the component series and charts, and the
+ * live event stream. JSON in and out; bearer tokens per role (auth.ts).
  */
 import Fastify from 'fastify';
+import type { Config } from '../domain/config.ts';
+import { componentKey } from '../domain/event.ts';
+import { resolveSettings } from '../domain/settings.ts';
 import { describeState, type Incident } from '../incidents/model.ts';
 import type { RedisIncidentStore } from '../incidents/redisIncidentStore.ts';
 import type { AckIncidentSummary } from '../notify/ackPage.ts';
 import type { Logger } from '../runtime/logger.ts';
 import type { Metrics } from '../runtime/metrics.ts';
+import { groupStatsFor } from '../queue/evaluateStored.ts';
+import type { Storage } from '../storage/storage.ts';
 import { ackLinkRoutes } from './ackLinkRoutes.ts';
+import type { EventHub } from './eventHub.ts';
+import { eventRoutes } from './eventRoutes.ts';
 import { healthRoutes } from './healthRoutes.ts';
+import { incidentRoutes } from './incidentRoutes.ts';
 import { metricsRoute } from './metrics.ts';
 import { DEFAULT_BODY_LIMIT_BYTES, resultRoutes, type ResultRoutesOptions } from './resultRoutes.ts';
+import { seriesRoutes } from './seriesRoutes.ts';
 
 export interface ServerOptions {
   readonly logger: Logger;
   readonly metrics: Metrics;
   /** Readiness check: resolves when Redis answers. */
   ping(): Promise<unknown>;
-  readonly producer: ResultRoutesOptions['producer'];
+  /** The result intake; without it, no POST /v1/results (a worker's metrics port). */
+  readonly producer?: ResultRoutesOptions['producer'];
   /** Largest request body in bytes. Default 5 MiB. */
   readonly bodyLimitBytes?: number;
   /** Serve /metrics without a token. Default: WEARSHIFT_METRICS_PUBLIC === '1'. */
   readonly metricsPublic?: boolean;
-  /** The incident store, for the acknowledgement-link pages. */
+  /** The incident store, for the incident API and the acknowledgement-link pages. */
   readonly incidents?: RedisIncidentStore;
+  /** Stored histories and the configuration, for the series and chart routes. */
+  readonly histories?: { readonly storage: Storage; readonly config: Config };
+  /** Live events, for GET /v1/events. */
+  readonly hub?: EventHub;
   /** Link-signing secrets (current first); the pages are served only with a store and at least one secret. */
   readonly ackLinkSecrets?: readonly string[];
 }
 
 export async function buildServer(options: ServerOptions) {
   const bodyLimit = options.bodyLimitBytes ?? DEFAULT_BODY_LIMIT_BYTES;
-  const app = Fastify({ loggerInstance: options.logger, bodyLimit, disableRequestLogging: false });
+  const app = Fastify({ loggerInstance: options.logger, bodyLimit });
   await app.register(healthRoutes, { ping: options.ping });
   await app.register(metricsRoute, { metrics: options.metrics, ...(options.metricsPublic !== undefined && { public: options.metricsPublic }) });
-  await app.register(resultRoutes, { producer: options.producer, metrics: options.metrics, bodyLimitBytes: bodyLimit });
+  if (options.producer !== undefined) await app.register(resultRoutes, { producer: options.producer, metrics: options.metrics, bodyLimitBytes: bodyLimit });
+  if (options.hub !== undefined) await app.register(eventRoutes, { hub: options.hub });
+  const histories = options.histories;
+  if (histories !== undefined) {
+    await app.register(seriesRoutes, {
+      loadComponent: async (unit, component) => {
+        const entry = await histories.storage.component({ unit, component });
+        if (entry === undefined) return undefined;
+        const settings = resolveSettings(histories.config, entry);
+        const [samples, group] = await Promise.all([histories.storage.revisions(entry), groupStatsFor(histories.storage, settings, componentKey(entry))]);
+        return { samples, settings, group };
+      },
+    });
+  }
   const store = options.incidents;
+  if (store !== undefined) await app.register(incidentRoutes, { store });
   if (store !== undefined && (options.ackLinkSecrets?.length ?? 0) > 0) {
     await app.register(ackLinkRoutes, {
       secrets: [...options.ackLinkSecrets!],

@@ -71,7 +71,7 @@ async function evaluateUnderLease(deps: EvaluationDeps, ref: ComponentRef, lease
   const [entry, revisions, fedBefore] = await Promise.all([storage.component(ref), storage.revisions(ref), storage.lastFed(ref)]);
   if (entry === undefined || revisions.length === 0) return { kind: 'empty' };
   const settings = resolveSettings(deps.config, { unit: entry.unit, component: entry.component, group: entry.group });
-  const group = await groupStats(storage, settings, componentKey(ref));
+  const group = await groupStatsFor(storage, settings, componentKey(ref));
   const evaluation = evaluateComponent(revisions, settings, group);
   const { fed, fresh } = stepsToFeed(evaluation.steps, fedBefore);
   const now = deps.now();
@@ -118,7 +118,7 @@ export function stepsToFeed(steps: readonly Step[], fed: FedPosition | undefined
  * baseline: the group is the reference while the own history is short, and judging a component against
  * itself would make its early steps depend on how often it had been evaluated before.
  */
-async function groupStats(storage: Storage, settings: ComponentSettings, self: string): Promise<GroupStats> {
+export async function groupStatsFor(storage: Storage, settings: ComponentSettings, self: string): Promise<GroupStats> {
   const [population, stored] = await Promise.all([storage.population(settings.group), storage.groupBaselines(settings.group)]);
   const others = stored.filter(([key]) => key !== self);
   const baselines: Partial<Record<Measurand, RateBaseline>> = {};

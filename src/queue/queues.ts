@@ -51,7 +51,10 @@ export function defaultJobOptions(settings: Required<QueueSettings>): JobsOption
 }
 
 export function openQueue(name: QueueName, connection: ConnectionOptions, settings: Required<QueueSettings>): Queue {
-  return new Queue(name, { connection, prefix: settings.prefix, defaultJobOptions: defaultJobOptions(settings) });
+  const queue = new Queue(name, { connection, prefix: settings.prefix, defaultJobOptions: defaultJobOptions(settings) });
+  // Without a listener BullMQ prints every reconnection failure; the connection's owner reports outages once.
+  queue.on('error', () => {});
+  return queue;
 }
 
 /** Schedules an evaluation of the component; collapses with one already waiting. */

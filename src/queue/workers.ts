@@ -6,13 +6,21 @@
 import { DelayedError, UnrecoverableError, Worker, type Job } from 'bullmq';
 import type { Redis } from 'ioredis';
 import type { Config } from '../domain/config.ts';
+import type { LiveEvent } from '../http/eventHub.ts';
+import { incidentEvent } from '../http/eventHub.ts';
+import type { NotifyEffect } from '../incidents/model.ts';
+import type { RedisIncidentStore } from '../incidents/redisIncidentStore.ts';
+import { DEFAULT_BACKOFF, delayBeforeNextAttempt } from '../notify/retryTiming.ts';
 import type { Logger } from '../runtime/logger.ts';
 import type { Metrics } from '../runtime/metrics.ts';
 import { RedisStorage } from '../storage/redisStorage.ts';
 import type { Storage } from '../storage/storage.ts';
 import { DEFAULT_LOCK_TTL_MS, evaluateStored, type EvaluationResult } from './evaluateStored.ts';
-import type { IncidentFeed } from './incidentFeed.ts';
+import { incidentMessage } from './incidentMessage.ts';
+import { DeliveryRetry, type NotificationChannels } from './notificationChannels.ts';
+import { startOutboxRelay, type EscalateJobData } from './outboxRelay.ts';
 import { openQueue, QUEUE_NAMES, resolveQueueSettings, scheduleEvaluation, type EvaluateJobData, type QueueSettings } from './queues.ts';
+import { redisIncidentFeed } from './redisIncidentFeed.ts';
 import { InvalidResultError, storeResult } from './storeResult.ts';
 
 export interface WorkerSettings extends QueueSettings {
@@ -24,9 +32,23 @@ export interface WorkerSettings extends QueueSettings {
   lockTtlMs?: number;
   /** Delay before trying again an evaluation whose component another worker is evaluating. Default 500 ms. */
   busyRetryMs?: number;
+  /** Notifications this process delivers at once. Default 4. */
+  notifyConcurrency?: number;
+  /** Delivery attempts of one notification (backoff from 5 s, doubling, at most an hour apart). Default 20. */
+  notifyAttempts?: number;
+  /** How often the incident outbox is looked at besides after each evaluation. Default 1000 ms. */
+  outboxIntervalMs?: number;
 }
 
-export const WORKER_DEFAULTS = { resultsConcurrency: 8, evaluateConcurrency: 2, lockTtlMs: DEFAULT_LOCK_TTL_MS, busyRetryMs: 500 } as const;
+export const WORKER_DEFAULTS = {
+  resultsConcurrency: 8,
+  evaluateConcurrency: 2,
+  lockTtlMs: DEFAULT_LOCK_TTL_MS,
+  busyRetryMs: 500,
+  notifyConcurrency: 4,
+  notifyAttempts: 20,
+  outboxIntervalMs: 1000,
+} as const;
 
 export interface WorkerDeps {
   /** A connection made with `connectRedis(url, 'worker')` (no request retry limit, as BullMQ workers need). */
@@ -34,7 +56,14 @@ export interface WorkerDeps {
   readonly config: Config;
   readonly logger: Logger;
   readonly metrics?: Metrics;
-  readonly incidents?: IncidentFeed;
+  /** The incident store: evaluations feed it, escalation checks run against it, its outbox fills the notify queue. */
+  readonly incidentStore?: RedisIncidentStore;
+  /** Channels for the notify queue; without them this process delivers no notifications. */
+  readonly channels?: NotificationChannels;
+  /** Public address of the HTTP API, for the incident links in messages. */
+  readonly apiBaseUrl?: string;
+  /** Told about stored results and incident changes, for live views. */
+  readonly live?: (event: LiveEvent) => void;
   /** Default: Redis storage on `connection` with the same prefix. */
   readonly storage?: Storage;
   /** Processing clock, epoch ms. Default `Date.now`. */
@@ -53,8 +82,12 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   const now = deps.now ?? Date.now;
   const storage = deps.storage ?? new RedisStorage(deps.connection, { prefix: queueSettings.prefix });
   const evaluateQueue = openQueue(QUEUE_NAMES.evaluate, deps.connection, queueSettings);
-  const { logger, metrics } = deps;
+  const { logger, metrics, incidentStore } = deps;
   const workerOptions = { connection: deps.connection, prefix: queueSettings.prefix, removeOnComplete: queueSettings.keepCompleted, removeOnFail: queueSettings.keepFailed };
+  const incidents = incidentStore && redisIncidentFeed(incidentStore);
+  const notifyQueue = incidentStore && openQueue(QUEUE_NAMES.notify, deps.connection, { ...queueSettings, attempts: s.notifyAttempts });
+  const escalateQueue = incidentStore && openQueue(QUEUE_NAMES.escalate, deps.connection, queueSettings);
+  const relay = incidentStore && startOutboxRelay(incidentStore, { notify: notifyQueue!, escalate: escalateQueue! }, logger, { intervalMs: s.outboxIntervalMs });
 
   const results = new Worker(
     QUEUE_NAMES.results,
@@ -72,6 +105,9 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
       metrics?.stored(stored.outcome.status);
       if (stored.outcome.evaluationDue) await scheduleEvaluation(evaluateQueue, stored.sample);
       const { sample } = stored;
+      if (stored.outcome.status === 'new' || stored.outcome.status === 'replacement') {
+        deps.live?.({ type: 'result', unit: sample.unit, component: sample.component, sampleId: sample.sampleId, sampledAt: sample.sampledAt });
+      }
       return { sampleId: sample.sampleId, revision: sample.revision, unit: sample.unit, component: sample.component, status: stored.outcome.status };
     },
     { ...workerOptions, concurrency: s.resultsConcurrency },
@@ -81,7 +117,7 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
     QUEUE_NAMES.evaluate,
     async (job: Job, token?: string) => {
       const ref = evaluateJobData(job.data);
-      const result: EvaluationResult = await evaluateStored({ storage, config: deps.config, now, lockTtlMs: s.lockTtlMs, ...(deps.incidents && { incidents: deps.incidents }) }, ref);
+      const result: EvaluationResult = await evaluateStored({ storage, config: deps.config, now, lockTtlMs: s.lockTtlMs, ...(incidents && { incidents }) }, ref);
       if (result.kind === 'busy' || result.kind === 'lost-lock') {
         // Another worker holds the component: come back shortly and evaluate whatever has arrived by then.
         await job.moveToDelayed(Date.now() + s.busyRetryMs, token);
@@ -90,6 +126,8 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
       if (result.kind === 'empty') return { kind: 'empty' };
       metrics?.evaluated(result.durationMs / 1000, 'evaluated');
       metrics?.findings(result.newFindings);
+      for (const change of result.incidents.changes) deps.live?.(incidentEvent(change));
+      if (result.incidents.effects.length > 0) relay?.kick();
       return {
         kind: 'evaluated',
         fed: result.fed.map((st) => st.sampleId),
@@ -101,19 +139,68 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
     { ...workerOptions, concurrency: s.evaluateConcurrency },
   );
 
-  for (const w of [results, evaluate]) {
+  const workers: Worker[] = [results, evaluate] as Worker[];
+
+  if (incidentStore !== undefined) {
+    workers.push(
+      new Worker(
+        QUEUE_NAMES.escalate,
+        async (job: Job<EscalateJobData>) => {
+          const { effects } = await incidentStore.applyEscalationCheck({ incidentId: job.data.incidentId, now: new Date(now()) });
+          if (effects.length > 0) relay!.kick();
+          return { effects: effects.length };
+        },
+        { ...workerOptions, concurrency: s.notifyConcurrency },
+      ),
+    );
+  }
+
+  const channels = deps.channels;
+  if (incidentStore !== undefined && channels !== undefined) {
+    const apiBaseUrl = deps.apiBaseUrl ?? 'http://localhost:8080';
+    workers.push(
+      new Worker(
+        QUEUE_NAMES.notify,
+        async (job: Job<NotifyEffect>) => {
+          const effect = job.data;
+          const revisions = await storage.revisions(effect.incident);
+          return channels.deliver(effect, incidentMessage(effect, revisions, apiBaseUrl), job.attemptsMade + 1);
+        },
+        {
+          ...workerOptions,
+          concurrency: s.notifyConcurrency,
+          settings: {
+            // The receiver's Retry-After wins; otherwise exponential backoff with full jitter.
+            backoffStrategy: (attemptsMade: number, _type?: string, err?: Error) =>
+              delayBeforeNextAttempt({ attempt: Math.max(1, attemptsMade), ...(err instanceof DeliveryRetry && err.retryAfterMs !== undefined && { retryAfterMs: err.retryAfterMs }) }, DEFAULT_BACKOFF, Math.random),
+          },
+        },
+      ),
+    );
+  }
+
+  for (const w of workers) {
     w.on('failed', (job, err) => {
       const final = err instanceof UnrecoverableError || (job !== undefined && job.attemptsMade >= (job.opts.attempts ?? 1));
       logger[final ? 'error' : 'warn']({ queue: w.name, jobId: job?.id, attempt: job?.attemptsMade, err: err.message }, final ? 'job failed' : 'job failed; will retry');
     });
-    w.on('error', (err) => logger.error({ queue: w.name, err: err.message }, 'worker error'));
+    // A Redis outage makes every reconnection attempt an error: one line per message and minute is enough.
+    const lastLogged = new Map<string, number>();
+    w.on('error', (err) => {
+      const t = Date.now();
+      if (t - (lastLogged.get(err.message) ?? -Infinity) < 60_000) return;
+      lastLogged.set(err.message, t);
+      logger.error({ queue: w.name, err: err.message }, 'worker error');
+    });
   }
 
   return {
-    workers: [results, evaluate],
+    workers,
     async close() {
-      await Promise.all([results.close(), evaluate.close()]);
-      await evaluateQueue.close();
+      await Promise.all(workers.map((w) => w.close()));
+      await relay?.close();
+      await Promise.all([evaluateQueue.close(), notifyQueue?.close(), escalateQueue?.close()]);
+      await channels?.close();
     },
   };
 }

@@ -5,6 +5,7 @@
  */
 import { Redis, type RedisOptions } from 'ioredis';
 import type { Config } from '../domain/config.ts';
+import { InputError } from '../domain/errors.ts';
 import { maskUrl, type Logger } from './logger.ts';
 
 export const DEFAULT_REDIS_URL = 'redis://127.0.0.1:6379';
@@ -55,4 +56,21 @@ export async function checkEvictionPolicy(redis: Redis, logger: Logger): Promise
     logger.warn({ err: (e as Error).message }, 'could not read the Redis maxmemory-policy (CONFIG GET refused); make sure it is noeviction');
     return undefined;
   }
+}
+
+/** A connection for a command line: it fails at once when Redis is away instead of retrying for ever. */
+export async function connectForCommand(url: string): Promise<Redis> {
+  const redis = new Redis(url, { lazyConnect: true, maxRetriesPerRequest: 1, connectTimeout: 3000, retryStrategy: () => null });
+  redis.on('error', () => {});
+  try {
+    await redis.connect();
+  } catch (e) {
+    redis.disconnect();
+    throw new InputError(`cannot reach Redis at ${maskUrl(url)} (REDIS_URL or redis.url): ${(e as Error).message}`);
+  }
+  return redis;
+}
+
+export async function closeQuietly(redis: Redis): Promise<void> {
+  await redis.quit().catch(() => redis.disconnect());
 }

@@ -1,0 +1,13 @@
+/** `wearshift api`: the HTTP API only (intake, incidents, series, probes, metrics); workers run elsewhere. */
+import type { Command } from 'commander';
+import { runService, type ServiceCommandOptions } from '../../runtime/runService.ts';
+
+export function registerApi(program: Command): void {
+  program
+    .command('api')
+    .description('run the HTTP API only; results are queued for workers started with `wearshift worker`')
+    .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
+    .option('--port <n>', 'HTTP port (default: PORT, else 8080)')
+    .option('--shutdown-timeout <seconds>', 'longest wait for open requests and connections at shutdown', '10')
+    .action((opts: ServiceCommandOptions) => runService('api', opts));
+}

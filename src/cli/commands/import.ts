@@ -1,0 +1,121 @@
+/**
+ * `wearshift import FILE`: validates a CSV or JSONL file of results line by line and enqueues the valid
+ * ones for the workers. Every rejected line is reported with its number, its sampleId, the field and the
+ * reason; the exit code is 1 when any line was rejected. `--dry-run` only validates (no Redis needed).
+ */
+import { statSync } from 'node:fs';
+import { MultiBar, Presets } from 'cli-progress';
+import type { Command } from 'commander';
+import { loadConfig } from '../../domain/configFile.ts';
+import { InputError } from '../../domain/errors.ts';
+import type { FieldIssue } from '../../domain/event.ts';
+import { formatOf, readRecordFile } from '../../intake/fileRecords.ts';
+import { createResultProducer, type ResultProducer } from '../../intake/producer.ts';
+import { claimedSampleId, validateResult } from '../../intake/validate.ts';
+import { closeQuietly, connectForCommand, redisUrl } from '../../runtime/redis.ts';
+import { writeJsonLine } from '../output.ts';
+
+interface ImportOptions {
+  config?: string;
+  format?: string;
+  dryRun?: boolean;
+  json?: boolean;
+  batchSize: string;
+}
+
+export function registerImport(program: Command): void {
+  program
+    .command('import')
+    .description('validate a CSV or JSONL file of lab results and enqueue the valid ones, with a per-line error report')
+    .argument('<file>', 'CSV (event field names as columns, readings as extra columns) or JSONL (one event per line)')
+    .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
+    .option('--format <format>', 'csv or jsonl (default: from the file name)')
+    .option('--dry-run', 'validate only; nothing is enqueued and Redis is not needed')
+    .option('--json', 'JSON lines: one per rejected line, then a summary')
+    .option('--batch-size <n>', 'records enqueued per round trip', '500')
+    .action(async (file: string, opts: ImportOptions) => {
+      process.exitCode = await importFile(file, opts);
+    });
+}
+
+async function importFile(file: string, opts: ImportOptions): Promise<number> {
+  const batchSize = Number(opts.batchSize);
+  if (!Number.isInteger(batchSize) || batchSize < 1) throw new InputError(`--batch-size: expected a whole number from 1, got "${opts.batchSize}"`);
+  let format;
+  let size;
+  try {
+    format = formatOf(file, opts.format);
+    size = statSync(file).size;
+  } catch (e) {
+    throw new InputError((e as Error).message);
+  }
+  const config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
+  const producer = opts.dryRun ? undefined : await connectProducer(redisUrl(config), config.redis.prefix);
+  const { records, stream } = readRecordFile(file, format);
+  const bar = process.stderr.isTTY && !opts.json ? new MultiBar({ format: ' {bar} {percentage}% | {value}/{total} bytes | {accepted} accepted, {rejected} rejected', hideCursor: true, stream: process.stderr }, Presets.shades_classic) : undefined;
+  const progress = bar?.create(size, 0, { accepted: 0, rejected: 0 });
+  const counts = { lines: 0, accepted: 0, rejected: 0, enqueued: 0 };
+  const report = (line: number, sampleId: string | undefined, issues: readonly FieldIssue[]) => {
+    counts.rejected += 1;
+    if (opts.json) return writeJsonLine({ type: 'rejected', line, ...(sampleId !== undefined && { sampleId }), errors: issues });
+    for (const i of issues) {
+      const text = `line ${line}${sampleId === undefined ? '' : ` (sampleId ${sampleId})`}: ${i.path || '(record)'}: ${i.reason}`;
+      if (bar) bar.log(`${text}\n`);
+      else process.stderr.write(`${text}\n`);
+    }
+  };
+  let batch: unknown[] = [];
+  const flush = async () => {
+    if (producer === undefined || batch.length === 0) return;
+    try {
+      await producer.add(batch);
+    } catch (e) {
+      throw new InputError(`Redis refused the results after ${counts.enqueued} were enqueued: ${(e as Error).message}. Import the file again once Redis is back: results already stored are recognised and kept once.`);
+    }
+    counts.enqueued += batch.length;
+    batch = [];
+  };
+  try {
+    for await (const r of records) {
+      counts.lines += 1;
+      if ('issues' in r) report(r.line, undefined, r.issues);
+      else {
+        const parsed = validateResult(r.record, { now: Date.now() });
+        if (parsed.ok) {
+          counts.accepted += 1;
+          batch.push(r.record);
+          if (batch.length >= batchSize) await flush();
+        } else report(r.line, claimedSampleId(r.record), parsed.issues);
+      }
+      progress?.update(stream.bytesRead, { accepted: counts.accepted, rejected: counts.rejected });
+    }
+    await flush();
+  } finally {
+    progress?.update(size);
+    bar?.stop();
+    await producer?.close();
+  }
+  const summary = { type: 'summary', file, records: counts.lines, accepted: counts.accepted, rejected: counts.rejected, enqueued: counts.enqueued, dryRun: Boolean(opts.dryRun) };
+  if (opts.json) writeJsonLine(summary);
+  else
+    process.stdout.write(
+      opts.dryRun
+        ? `${file}: ${counts.accepted} valid, ${counts.rejected} rejected of ${counts.lines} records (dry run: nothing enqueued)\n`
+        : `${file}: ${counts.enqueued} enqueued, ${counts.rejected} rejected of ${counts.lines} records\n`,
+    );
+  return counts.rejected > 0 ? 1 : 0;
+}
+
+async function connectProducer(url: string, prefix: string): Promise<ResultProducer> {
+  const redis = await connectForCommand(url).catch((e: Error) => {
+    throw new InputError(`${e.message}; use --dry-run to validate without Redis`);
+  });
+  const producer = createResultProducer({ connection: redis, prefix });
+  return {
+    add: (events) => producer.add(events),
+    async close() {
+      await producer.close();
+      await closeQuietly(redis);
+    },
+  };
+}

@@ -1,0 +1,13 @@
+/** `wearshift serve`: queue workers and the HTTP API in one process. */
+import type { Command } from 'commander';
+import { runService, type ServiceCommandOptions } from '../../runtime/runService.ts';
+
+export function registerServe(program: Command): void {
+  program
+    .command('serve')
+    .description('run the queue workers and the HTTP API in one process (graceful shutdown on SIGTERM/SIGINT)')
+    .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
+    .option('--port <n>', 'HTTP port (default: PORT, else 8080)')
+    .option('--shutdown-timeout <seconds>', 'longest wait for active jobs and connections at shutdown', '10')
+    .action((opts: ServiceCommandOptions) => runService('serve', opts));
+}

@@ -1,0 +1,13 @@
+/** `wearshift worker`: the queue workers only; run as many as the load needs, on any machines, against one Redis. */
+import type { Command } from 'commander';
+import { runService, type ServiceCommandOptions } from '../../runtime/runService.ts';
+
+export function registerWorker(program: Command): void {
+  program
+    .command('worker')
+    .description('run the queue workers only (results, evaluate, notify, escalate); several may share one Redis')
+    .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
+    .option('--metrics-port <n>', 'also serve /healthz, /readyz and /metrics on this port')
+    .option('--shutdown-timeout <seconds>', 'longest wait for active jobs and connections at shutdown', '10')
+    .action((opts: ServiceCommandOptions) => runService('worker', opts));
+}

@@ -1,0 +1,91 @@
+/**
+ * Result files read as a stream of records with their line numbers, so that a file of any size is imported
+ * in constant memory and every error names its line.
+ *
+ * CSV: a header row with the event field names; every other column is a reading named by its measurand
+ * (`Fe` or `readings.Fe`); an empty cell means "no value" (no reading, or the field left out). Numbers and
+ * the booleans true/false, yes/no, 1/0 are converted; anything else is passed on as text for validation to
+ * judge, so a censored reading "<1" or an ISO 4406 code "18/16/13" stays as the lab wrote it.
+ * JSONL: one JSON event per line; blank lines are skipped.
+ */
+import { createReadStream, type ReadStream } from 'node:fs';
+import { createInterface } from 'node:readline';
+import type { Readable } from 'node:stream';
+import { parse } from 'csv-parse';
+import type { FieldIssue } from '../domain/event.ts';
+
+export type FileFormat = 'csv' | 'jsonl';
+
+export type SourceRecord = { readonly line: number; readonly record: unknown } | { readonly line: number; readonly issues: readonly FieldIssue[] };
+
+export function formatOf(path: string, explicit?: string): FileFormat {
+  const f = (explicit ?? path.split('.').pop() ?? '').toLowerCase();
+  if (f === 'csv') return 'csv';
+  if (f === 'jsonl' || f === 'ndjson') return 'jsonl';
+  throw new Error(`${path}: cannot tell the format from the name; use --format csv or --format jsonl`);
+}
+
+export function readRecordFile(path: string, format: FileFormat): { records: AsyncIterable<SourceRecord>; stream: ReadStream } {
+  const stream = createReadStream(path);
+  return { stream, records: format === 'csv' ? csvRecords(stream) : jsonlRecords(stream) };
+}
+
+export async function* jsonlRecords(input: Readable): AsyncIterable<SourceRecord> {
+  let line = 0;
+  for await (const text of createInterface({ input, crlfDelay: Infinity })) {
+    line += 1;
+    if (text.trim() === '') continue;
+    try {
+      yield { line, record: JSON.parse(text) as unknown };
+    } catch (e) {
+      yield { line, issues: [{ path: '', reason: `not valid JSON: ${(e as Error).message}` }] };
+    }
+  }
+}
+
+const NUMERIC_FIELDS = new Set(['revision', 'unitHours', 'oilHours', 'topUpLitres']);
+const BOOLEAN_FIELDS = new Set(['oilChanged', 'componentChanged']);
+const TEXT_FIELDS = new Set(['sampleId', 'unit', 'component', 'group', 'sampledAt', 'lab']);
+const NUMBER = /^\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*$/;
+const BOOLEANS: Record<string, boolean> = { true: true, false: false, yes: true, no: false, '1': true, '0': false };
+
+export async function* csvRecords(input: Readable): AsyncIterable<SourceRecord> {
+  const parser = input.pipe(parse({ bom: true, relax_column_count: true, skip_empty_lines: true, trim: true, info: true }));
+  let header: string[] | undefined;
+  try {
+    for await (const { record, info } of parser as AsyncIterable<{ record: string[]; info: { lines: number } }>) {
+      if (header === undefined) {
+        const twice = record.find((name, i) => record.indexOf(name) !== i);
+        if (twice !== undefined) {
+          yield { line: info.lines, issues: [{ path: '', reason: `column "${twice}" appears twice in the header; nothing was read` }] };
+          return;
+        }
+        header = record;
+        continue;
+      }
+      if (record.length !== header.length) {
+        yield { line: info.lines, issues: [{ path: '', reason: `has ${record.length} cells, the header has ${header.length}` }] };
+        continue;
+      }
+      yield { line: info.lines, record: csvEvent(header, record) };
+    }
+  } catch (e) {
+    const err = e as Error & { lines?: number };
+    yield { line: err.lines ?? 0, issues: [{ path: '', reason: `CSV syntax error, reading stopped here: ${err.message}` }] };
+  }
+}
+
+function csvEvent(header: readonly string[], cells: readonly string[]): Record<string, unknown> {
+  const event: Record<string, unknown> = {};
+  const readings: Record<string, unknown> = {};
+  header.forEach((name, i) => {
+    const cell = cells[i]!;
+    if (cell === '') return;
+    if (TEXT_FIELDS.has(name)) event[name] = cell;
+    else if (NUMERIC_FIELDS.has(name)) event[name] = NUMBER.test(cell) ? Number(cell) : cell;
+    else if (BOOLEAN_FIELDS.has(name)) event[name] = BOOLEANS[cell.toLowerCase()] ?? cell;
+    else readings[name.startsWith('readings.') ? name.slice('readings.'.length) : name] = NUMBER.test(cell) ? Number(cell) : cell;
+  });
+  event.readings = readings;
+  return event;
+}

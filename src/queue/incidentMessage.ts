@@ -1,0 +1,48 @@
+/** Maps an incident engine's notify effect onto the message every channel renders (src/notify/message.ts). */
+import { buildHistory } from '../analysis/history.ts';
+import type { Sample } from '../domain/event.ts';
+import { formatReading } from '../domain/reading.ts';
+import type { NotifyEffect } from '../incidents/model.ts';
+import type { IncidentMessage, IncidentMessageType } from '../notify/message.ts';
+
+/** About five recent results, as the message format asks. */
+const RECENT_RESULTS = 5;
+
+export function incidentMessage(effect: NotifyEffect, revisions: readonly Sample[], apiBaseUrl: string): IncidentMessage {
+  const s = effect.incident;
+  const recent = buildHistory(revisions).samples.slice(-RECENT_RESULTS);
+  return {
+    type: effect.type.slice('wearshift.incident.'.length) as IncidentMessageType,
+    incident: {
+      id: s.id,
+      unit: s.unit,
+      component: s.component,
+      group: s.group,
+      severity: s.severity,
+      state: s.state,
+      openedAt: s.openedAt,
+      ...(s.acknowledgedBy !== undefined && { acknowledgedBy: s.acknowledgedBy }),
+      tier: s.tier,
+      url: `${apiBaseUrl.replace(/\/+$/, '')}/v1/incidents/${encodeURIComponent(s.id)}`,
+    },
+    findings: s.findings.map((f) => ({
+      measurand: f.measurand,
+      rule: f.rule,
+      severity: f.severity,
+      value: f.value,
+      ...(f.threshold !== undefined && { threshold: f.threshold }),
+      basis: f.basis,
+      sampleId: f.sampleId,
+      sampledAt: f.sampledAt,
+      explanation: f.explanation,
+    })),
+    recentResults: recent.map((r) => ({
+      sampleId: r.sampleId,
+      sampledAt: r.sampledAt,
+      ...(r.oilHours !== undefined && { oilHours: r.oilHours }),
+      readings: Object.fromEntries(Object.entries(r.readings).map(([m, reading]) => [m, formatReading(reading!)])),
+    })),
+    whatChanged: s.reason,
+    idempotencyKey: effect.key,
+  };
+}

@@ -1,0 +1,40 @@
+/** What `wearshift serve|worker|api` share: configuration, logger, the services, and shutdown on signals. */
+import { loadConfig } from '../domain/configFile.ts';
+import { InputError } from '../domain/errors.ts';
+import { createLogger } from './logger.ts';
+import { DEFAULT_PORT, startServices } from './services.ts';
+import { DEFAULT_SHUTDOWN_TIMEOUT_MS, onShutdownSignals } from './shutdown.ts';
+
+export interface ServiceCommandOptions {
+  config?: string;
+  port?: string;
+  metricsPort?: string;
+  shutdownTimeout?: string;
+}
+
+export type ServiceKind = 'serve' | 'worker' | 'api';
+
+export function portNumber(raw: string, what: string): number {
+  const n = Number(raw);
+  if (!Number.isInteger(n) || n < 0 || n > 65535) throw new InputError(`${what}: expected a port number from 0 to 65535, got "${raw}"`);
+  return n;
+}
+
+export async function runService(kind: ServiceKind, opts: ServiceCommandOptions, env: NodeJS.ProcessEnv = process.env): Promise<void> {
+  const config = loadConfig(opts.config ?? env.WEARSHIFT_CONFIG);
+  const logger = createLogger({ base: { role: kind } });
+  const port = opts.port !== undefined ? portNumber(opts.port, '--port') : env.PORT !== undefined && env.PORT !== '' ? portNumber(env.PORT, 'PORT') : DEFAULT_PORT;
+  const timeoutMs = opts.shutdownTimeout === undefined ? DEFAULT_SHUTDOWN_TIMEOUT_MS : Number(opts.shutdownTimeout) * 1000;
+  if (!(timeoutMs > 0)) throw new InputError(`--shutdown-timeout: expected a positive number of seconds, got "${opts.shutdownTimeout}"`);
+  const running = await startServices({
+    workers: kind !== 'api',
+    http: kind !== 'worker',
+    config,
+    logger,
+    port,
+    env,
+    ...(opts.metricsPort !== undefined && { metricsPort: portNumber(opts.metricsPort, '--metrics-port') }),
+  });
+  if (running.url !== undefined) logger.info({ url: running.url }, 'listening');
+  onShutdownSignals(running.closers, { logger, timeoutMs });
+}
