@@ -9,6 +9,7 @@ import type { ComponentSeries, MeasurandSeries } from './componentSeries.ts';
 export function chartAltText(series: ComponentSeries, measurand: Measurand): string {
   const m = series.measurands.find((s) => s.measurand === measurand);
   if (m === undefined) return `No ${measurand} readings for ${series.unit} / ${series.component}.`;
+  if (m.cleanliness !== null) return cleanlinessText(series, m);
   const points = m.charges.flatMap((c) => c.points);
   const first = points[0];
   const last = points[points.length - 1];
@@ -27,13 +28,29 @@ export function chartAltText(series: ComponentSeries, measurand: Measurand): str
   }
   const ewma = m.ewma?.points[m.ewma.points.length - 1];
   if (ewma) parts.push(`EWMA ${fmt(ewma.ewma)} within limits ${fmt(ewma.lcl)} to ${fmt(ewma.ucl)}${ewma.ewma > ewma.ucl || ewma.ewma < ewma.lcl ? ': outside them' : ''}.`);
-  const latest = m.marks.filter((k) => k.sampleId === last.sampleId);
-  parts.push(
-    latest.length === 0
-      ? `No rule fired on the latest sample; ${m.marks.length} ${m.marks.length === 1 ? 'finding' : 'findings'} over the whole history.`
-      : `On the latest sample: ${latest.map((k) => `${k.severity} by the ${k.rule} rule${k.direction ? ` (${k.direction})` : ''}`).join('; ')}.`,
-  );
+  parts.push(findingsText(m, last.sampleId));
   return parts.join(' ');
+}
+
+function cleanlinessText(series: ComponentSeries, m: MeasurandSeries): string {
+  const points = m.cleanliness!.points;
+  const first = points[0];
+  const last = points[points.length - 1];
+  if (first === undefined || last === undefined) return `No ISO 4406 codes for ${series.unit} / ${series.component}.`;
+  const target = m.cleanliness!.target;
+  const parts = [
+    `ISO 4406 cleanliness of ${series.unit} / ${series.component}: ${points.length} ${points.length === 1 ? 'code' : 'codes'} from ${day(first.sampledAt)} to ${day(last.sampledAt)}.`,
+    `Latest code ${last.text} on ${day(last.sampledAt)}${target === null ? ', no target set' : ` against the target ${target.p4 ?? '-'}/${target.p6}/${target.p14}`}.`,
+  ];
+  parts.push(findingsText(m, last.sampleId));
+  return parts.join(' ');
+}
+
+function findingsText(m: MeasurandSeries, lastSampleId: string): string {
+  const latest = m.marks.filter((k) => k.sampleId === lastSampleId);
+  return latest.length === 0
+    ? `No rule fired on the latest sample; ${m.marks.length} ${m.marks.length === 1 ? 'finding' : 'findings'} over the whole history.`
+    : `On the latest sample: ${latest.map((k) => `${k.severity} by the ${k.rule} rule${k.direction ? ` (${k.direction})` : ''}`).join('; ')}.`;
 }
 
 function levelsText(m: MeasurandSeries): string {

@@ -5,11 +5,13 @@
  * and the settings and group statistics it ran with, so the chart shows exactly what the worker judged.
  */
 import type { Levels } from '../domain/config.ts';
+import type { Sample } from '../domain/event.ts';
 import type { Finding, RuleFamily, Severity } from '../domain/finding.ts';
 import { MEASURAND_NAMES, MEASURANDS, type Measurand } from '../domain/measurands.ts';
-import { formatReading } from '../domain/reading.ts';
+import { formatReading, parseReading, type Iso4406Code } from '../domain/reading.ts';
 import type { ComponentSettings } from '../domain/settings.ts';
 import { wearIntervals } from '../analysis/intervals.ts';
+import { iso4406FromCounts } from '../analysis/iso4406.ts';
 import type { Charge, Evaluation, GroupStats, Interval } from '../analysis/model.ts';
 import { populationMeasurands } from '../analysis/populationStats.ts';
 import { populationLimitStatus, type PopulationLimitStatus } from '../analysis/rules/population.ts';
@@ -38,6 +40,8 @@ export interface MeasurandSeries {
   readonly population: readonly PopulationPoint[] | null;
   /** Wear metals only. */
   readonly rates: RateSeries | null;
+  /** ISO 4406 codes only: the scale number of each size range at every sample, and the group's target code. */
+  readonly cleanliness: CleanlinessSeries | null;
   /** Detection measurands only, when the detector is enabled. */
   readonly cusum: CusumTrace | null;
   readonly ewma: EwmaTrace | null;
@@ -93,6 +97,22 @@ export interface RatePoint {
   readonly runningIn: boolean;
 }
 
+export interface CleanlinessSeries {
+  readonly target: Iso4406Code | null;
+  readonly points: readonly CodePoint[];
+}
+
+export interface CodePoint {
+  readonly sampleId: string;
+  readonly sampledAt: string;
+  readonly oilHours: number | null;
+  readonly code: Iso4406Code;
+  /** "18/16/13". */
+  readonly text: string;
+  /** Worked out from the particle counts per mL, the lab having given no code. */
+  readonly fromCounts: boolean;
+}
+
 /** Which chart panel a rule's verdict belongs on. */
 export type MarkPanel = 'readings' | 'rate' | 'cusum' | 'ewma';
 
@@ -109,7 +129,7 @@ export interface RuleMark {
 }
 
 export interface ComponentSeriesOptions {
-  /** Only these measurands, in this order. Default: every measurand with a numeric reading, detection measurands first. */
+  /** Only these measurands, in this order. Default: every measurand with a reading, detection measurands first. */
   readonly measurands?: readonly Measurand[];
 }
 
@@ -185,6 +205,18 @@ function measurandSeries(input: RuleInput, m: Measurand, findings: readonly Find
           })),
         }
       : null;
+  const cleanliness: CleanlinessSeries | null =
+    m === 'iso4406'
+      ? {
+          target: targetCode(settings.cleanlinessTarget),
+          points: history.samples.flatMap((s) => {
+            const code = sampleCode(s);
+            return code === undefined
+              ? []
+              : [{ sampleId: s.sampleId, sampledAt: s.sampledAt, oilHours: s.oilHours ?? null, ...code, text: formatReading({ kind: 'code', code: code.code }) }];
+          }),
+        }
+      : null;
   const traces = settings.detection.measurands.includes(m) ? detectorTraces(input, m) : { cusum: null, ewma: null };
   return {
     measurand: m,
@@ -194,6 +226,7 @@ function measurandSeries(input: RuleInput, m: Measurand, findings: readonly Find
     limits: settings.limits[m] ?? null,
     population,
     rates,
+    cleanliness,
     cusum: traces.cusum,
     ewma: traces.ewma,
     marks: findings.map((f) => ({
@@ -208,6 +241,19 @@ function measurandSeries(input: RuleInput, m: Measurand, findings: readonly Find
       explanation: f.explanation,
     })),
   };
+}
+
+/** The lab's code, else the code of the particle counts, as the cleanliness rule judges it. */
+function sampleCode(s: Sample): { code: Iso4406Code; fromCounts: boolean } | undefined {
+  const { iso4406, p4, p6, p14 } = s.readings;
+  if (iso4406?.kind === 'code') return { code: iso4406.code, fromCounts: false };
+  if (p6?.kind !== 'value' || p14?.kind !== 'value') return undefined;
+  return { code: iso4406FromCounts(p4?.kind === 'value' ? p4.value : undefined, p6.value, p14.value), fromCounts: true };
+}
+
+function targetCode(target: string | undefined): Iso4406Code | null {
+  const parsed = target === undefined ? undefined : parseReading(target, 'iso4406');
+  return parsed?.ok && parsed.reading.kind === 'code' ? parsed.reading.code : null;
 }
 
 function panelOf(rule: RuleFamily): MarkPanel {
@@ -228,10 +274,10 @@ function plottedMeasurands(evaluation: Evaluation, settings: ComponentSettings):
   const present = new Set<Measurand>();
   for (const s of evaluation.history.samples) {
     for (const m of MEASURAND_NAMES) {
-      const r = s.readings[m];
-      if (r !== undefined && r.kind !== 'code') present.add(m);
+      if (s.readings[m] !== undefined) present.add(m);
     }
   }
+  if (evaluation.history.samples.some((s) => sampleCode(s) !== undefined)) present.add('iso4406');
   const first = settings.detection.measurands.filter((m) => present.has(m));
   return [...first, ...MEASURAND_NAMES.filter((m) => present.has(m) && !first.includes(m))];
 }

@@ -15,7 +15,8 @@ import type { Levels } from '../domain/config.ts';
 import { MEASURANDS, type Measurand } from '../domain/measurands.ts';
 import { escapeHtml as escapeXml } from '../notify/safeText.ts';
 import { chartAltText } from './altText.ts';
-import type { ComponentSeries, MarkPanel, MeasurandSeries, RuleMark } from './componentSeries.ts';
+import type { Iso4406Code } from '../domain/reading.ts';
+import type { CleanlinessSeries, ComponentSeries, MarkPanel, MeasurandSeries, RuleMark } from './componentSeries.ts';
 import { NEUTRAL, SEVERITY_STYLE } from './severityStyle.ts';
 
 export interface TrendChartOptions {
@@ -48,7 +49,7 @@ interface Point {
 
 export function renderTrendChart(series: ComponentSeries, measurand: Measurand, options: TrendChartOptions = {}): string {
   const m = series.measurands.find((s) => s.measurand === measurand);
-  if (m === undefined) throw new RangeError(`no ${measurand} readings for ${series.unit}/${series.component}`);
+  if (m === undefined || sampleTimes(m).length === 0) throw new RangeError(`no ${measurand} readings for ${series.unit}/${series.component}`);
   const width = Math.max(320, Math.round(options.width ?? DEFAULT_CHART_WIDTH));
   const title = options.title === undefined ? `${series.unit} / ${series.component} — ${m.measurand} (${m.label})` : options.title;
 
@@ -63,8 +64,7 @@ export function renderTrendChart(series: ComponentSeries, measurand: Measurand, 
   const axisBottom = top;
   const height = axisBottom + 62;
 
-  const times = m.charges.flatMap((c) => c.points.map((p) => Date.parse(p.sampledAt)));
-  const [t0, t1] = extent(times) as [number, number];
+  const [t0, t1] = extent(sampleTimes(m)) as [number, number];
   const pad = Math.max((t1 - t0) * 0.02, 86_400_000);
   const x = scaleUtc()
     .domain([new Date(t0 - pad), new Date(t1 + pad)])
@@ -104,7 +104,17 @@ interface PanelSpec {
   readonly domain: [number, number];
 }
 
+/** Times of every sample that has a reading of the measurand. */
+function sampleTimes(m: MeasurandSeries): number[] {
+  return [...m.charges.flatMap((c) => c.points), ...(m.cleanliness?.points ?? [])].map((p) => Date.parse(p.sampledAt));
+}
+
 function panelsOf(m: MeasurandSeries): PanelSpec[] {
+  if (m.cleanliness !== null) {
+    const t = m.cleanliness.target;
+    const numbers = [...m.cleanliness.points.flatMap((p) => codeNumbers(p.code)), ...(t === null ? [] : codeNumbers(t))];
+    return [{ key: 'readings', heading: 'ISO 4406 scale number per size range (each step doubles the count)', height: 190, domain: [(min(numbers) ?? 0) - 1, (max(numbers) ?? 1) + 1] }];
+  }
   const readings = m.charges.flatMap((c) => c.points.map((p) => p.value));
   const kind = MEASURANDS[m.measurand].kind;
   const fromZero = kind === 'wear' || kind === 'contaminant';
@@ -198,7 +208,7 @@ function xAxis(x: ScaleTime<number, number>, ticks: Date[], y: number): string[]
 function drawPanel(key: MarkPanel, m: MeasurandSeries, x: ScaleTime<number, number>, f: Frame, width: number, labels: PanelLabels): string[] {
   switch (key) {
     case 'readings':
-      return drawReadings(m, x, f, width, labels);
+      return m.cleanliness === null ? drawReadings(m, x, f, width, labels) : drawCodes(m.cleanliness, x, f, width, labels);
     case 'rate':
       return drawRates(m, x, f, width, labels);
     case 'cusum':
@@ -230,6 +240,40 @@ function drawReadings(m: MeasurandSeries, x: ScaleTime<number, number>, f: Frame
           : `<circle cx="${px}" cy="${py}" r="2.6" fill="${NEUTRAL.data}"><title>${escapeXml(`${p.sampleId}: ${p.text} ${m.unit}`)}</title></circle>`,
       );
     }
+  }
+  return out;
+}
+
+const SIZE_RANGES = [
+  { key: 'p4', label: '≥4 µm', dash: '' },
+  { key: 'p6', label: '≥6 µm', dash: '5 2' },
+  { key: 'p14', label: '≥14 µm', dash: '1.5 2.5' },
+] as const;
+
+function codeNumbers(code: Iso4406Code): number[] {
+  return [code.p4, code.p6, code.p14].filter((n): n is number => n !== null);
+}
+
+/** One line per size range, each with its own dash pattern and name, against the target's scale numbers. */
+function drawCodes(c: CleanlinessSeries, x: ScaleTime<number, number>, f: Frame, width: number, labels: PanelLabels): string[] {
+  const out: string[] = [];
+  for (const range of SIZE_RANGES) {
+    const target = c.target?.[range.key];
+    if (target !== undefined && target !== null) {
+      const y = r(f.y(target));
+      out.push(
+        `<line data-limit="target" data-kind="cleanliness" data-size="${range.key}" data-value="${target}" x1="${MARGIN.left}" x2="${width - MARGIN.right}" y1="${y}" y2="${y}" stroke="${NEUTRAL.limit}" stroke-width="1.4" stroke-dasharray="4 3"/>`,
+      );
+      labels.inPlot(MARGIN.left + 4, y - 3, `target ${range.label} ${target}`, 'start', { fill: NEUTRAL.mutedText, halo: true });
+    }
+    const pts = c.points.map((p) => ({ sampleId: p.sampleId, time: Date.parse(p.sampledAt), value: p.code[range.key] ?? NaN }));
+    if (pts.every((p) => Number.isNaN(p.value))) continue;
+    out.push(path(pts, x, f.y, { stroke: NEUTRAL.data, width: 1.6, ...(range.dash && { dash: range.dash }) }, `data-size="${range.key}"`));
+    for (const p of pts.filter((q) => !Number.isNaN(q.value))) {
+      out.push(`<circle cx="${r(x(p.time))}" cy="${r(f.y(p.value))}" r="2.4" fill="${NEUTRAL.data}"><title>${escapeXml(`${p.sampleId}: ${range.label} scale number ${p.value}`)}</title></circle>`);
+    }
+    const last = [...pts].reverse().find((p) => !Number.isNaN(p.value))!;
+    labels.right(f.y(last.value), `${range.label} ${last.value}`);
   }
   return out;
 }
@@ -382,8 +426,11 @@ function drawMarks(m: MeasurandSeries, panel: MarkPanel, x: ScaleTime<number, nu
 
 function markValue(m: MeasurandSeries, mark: RuleMark): number {
   switch (mark.panel) {
-    case 'readings':
+    case 'readings': {
+      const code = m.cleanliness?.points.find((p) => p.sampleId === mark.sampleId)?.code;
+      if (code !== undefined) return max(codeNumbers(code))!;
       return m.charges.flatMap((c) => c.points).find((p) => p.sampleId === mark.sampleId)?.value ?? mark.value;
+    }
     case 'rate':
       return m.rates?.points.find((p) => p.sampleId === mark.sampleId)?.per100h ?? mark.value;
     case 'cusum':

@@ -4,7 +4,9 @@
  * reconnects reloads the incident list, so nothing depends on an event arriving. Across processes (`wearshift
  * worker` and `wearshift api` apart), a bridge forwards Redis pub/sub messages into the API process's hub.
  */
+import { describeState } from '../incidents/model.ts';
 import type { IncidentChange } from '../queue/incidentFeed.ts';
+import type { IncidentRoutesStore } from './incidentRoutes.ts';
 
 export type LiveEvent =
   | {
@@ -81,5 +83,32 @@ export function incidentEvent(change: IncidentChange): LiveEvent {
     state: change.state,
     change: change.entry.kind,
     at: change.entry.at,
+  };
+}
+
+/**
+ * The incident store with every operator action (acknowledge, shelve, resolve, ...) announced on the hub, so that
+ * every open board sees what one responder did. For `incidentRoutes`: `{ store: announcingActions(store, hub) }`.
+ */
+export function announcingActions(store: IncidentRoutesStore, hub: EventHub): IncidentRoutesStore {
+  return {
+    get: (incidentId) => store.get(incidentId),
+    list: (filter) => store.list(filter),
+    async applyAction(action) {
+      const result = await store.applyAction(action);
+      const { incident } = result;
+      const last = incident.timeline[incident.timeline.length - 1];
+      hub.publish({
+        type: 'incident',
+        incidentId: incident.id,
+        unit: incident.unit,
+        component: incident.component,
+        severity: incident.severity,
+        state: describeState(incident),
+        change: last?.kind ?? action.kind,
+        at: last?.at ?? action.now.toISOString(),
+      });
+      return result;
+    },
   };
 }

@@ -81,7 +81,8 @@ export const seriesRoutes: FastifyPluginAsync<SeriesRoutesOptions> = async (app,
     if (typeof width === 'string') return reply.code(400).send({ error: 'invalid-request', message: width });
     const series = await load(request, reply, [measurand]);
     if (series === undefined) return reply;
-    if (series.measurands[0]!.charges.every((c) => c.points.length === 0)) {
+    const m = series.measurands[0]!;
+    if (m.charges.every((c) => c.points.length === 0) && (m.cleanliness?.points.length ?? 0) === 0) {
       return reply.code(404).send({ error: 'not-found', message: `no ${measurand} readings for ${series.unit} / ${series.component}` });
     }
     const svg = renderTrendChart(series, measurand, { width, ...(request.query.title === 'none' && { title: false as const }) });

@@ -1,0 +1,522 @@
+/*
+ * The control-room board in the browser: open incidents by severity and waiting time, their trend charts, live
+ * updates over server-sent events, and acknowledge / shelve / resolve with a note. Plain DOM, no framework: every
+ * value from the server goes in as text (textContent), never as markup; the one exception is the chart, an SVG our
+ * own server draws, which is parsed as SVG and stripped of anything active before it is shown.
+ */
+/* global document, sessionStorage, fetch, EventSource, DOMParser, URLSearchParams, setTimeout, clearTimeout, setInterval, location */
+
+const TOKEN_KEY = 'wearshift.token';
+const NAME_KEY = 'wearshift.name';
+const EVENT_COOKIE = 'wearshift_token';
+const SEVERITY_RANK = { watch: 0, caution: 1, alarm: 2 };
+const GLYPH = { watch: '◇', caution: '▲', alarm: '■' };
+const SHELVE_CHOICES = [
+  ['1', '1 hour'],
+  ['8', '8 hours'],
+  ['24', '24 hours'],
+  ['72', '3 days'],
+];
+
+const $ = (id) => document.getElementById(id);
+
+const session = {
+  token: sessionStorage.getItem(TOKEN_KEY),
+  name: sessionStorage.getItem(NAME_KEY) ?? '',
+  roles: [],
+};
+let events;
+let reloadTimer;
+let firstLoad = true;
+let connectedBefore = false;
+/** Incidents on the page by id, with the DOM of their card. */
+const cards = new Map();
+
+// ---------------------------------------------------------------- API
+
+async function api(path, options = {}) {
+  const headers = { accept: 'application/json', authorization: `Bearer ${session.token}` };
+  if (options.body !== undefined) headers['content-type'] = 'application/json';
+  let response;
+  try {
+    response = await fetch(path, { method: options.method ?? 'GET', headers, body: options.body === undefined ? undefined : JSON.stringify(options.body) });
+  } catch {
+    return { ok: false, status: 0, body: { message: 'the server cannot be reached' } };
+  }
+  const type = response.headers.get('content-type') ?? '';
+  const body = type.includes('json') ? await response.json().catch(() => ({})) : await response.text();
+  return { ok: response.ok, status: response.status, body };
+}
+
+function problemText(result) {
+  const message = typeof result.body === 'object' && result.body !== null && typeof result.body.message === 'string' ? result.body.message : '';
+  const reason =
+    result.status === 403
+      ? 'Refused (403 forbidden)'
+      : result.status === 401
+        ? 'Refused (401: token not accepted)'
+        : result.status === 0
+          ? 'Not sent'
+          : `Failed (${result.status})`;
+  return message === '' ? `${reason}.` : `${reason}: ${message}.`;
+}
+
+const incidentPath = (id) => `/v1/incidents/${encodeURIComponent(id)}`;
+const componentPath = (unit, component) => `/units/${encodeURIComponent(unit)}/components/${encodeURIComponent(component)}`;
+const apiComponentPath = (unit, component) => `/v1/units/${encodeURIComponent(unit)}/components/${encodeURIComponent(component)}`;
+
+// ---------------------------------------------------------------- sign-in
+
+async function signIn(token, name) {
+  session.token = token;
+  const result = await api('/v1/session');
+  if (!result.ok) {
+    session.token = null;
+    return result.status === 401 ? 'That token is not accepted.' : problemText(result);
+  }
+  session.roles = result.body.roles;
+  session.name = name;
+  sessionStorage.setItem(TOKEN_KEY, token);
+  sessionStorage.setItem(NAME_KEY, name);
+  // EventSource cannot send headers: the token rides along in a cookie for the event stream's path only.
+  const secure = location.protocol === 'https:' ? '; Secure' : '';
+  document.cookie = `${EVENT_COOKIE}=${encodeURIComponent(token)}; Path=/v1/events; SameSite=Strict${secure}`;
+  return undefined;
+}
+
+function signOut() {
+  sessionStorage.removeItem(TOKEN_KEY);
+  document.cookie = `${EVENT_COOKIE}=; Path=/v1/events; Max-Age=0; SameSite=Strict`;
+  events?.close();
+  location.reload();
+}
+
+const canAct = () => session.roles.includes('responder');
+
+function showSignIn(message) {
+  $('sign-in').hidden = false;
+  $('board').hidden = true;
+  $('component').hidden = true;
+  $('sign-in-error').textContent = message ?? '';
+  $('name').value = session.name;
+  $('token').focus();
+}
+
+function renderWho() {
+  const role = canAct() ? 'responder' : session.roles.includes('viewer') ? 'viewer' : session.roles.join(', ');
+  $('who-text').textContent = `Signed in as ${role}${session.name ? ` (${session.name})` : ''}`;
+  $('sign-out').hidden = false;
+}
+
+// ---------------------------------------------------------------- formatting
+
+const dateTime = new Intl.DateTimeFormat(undefined, { dateStyle: 'medium', timeStyle: 'short' });
+const formatTime = (iso) => dateTime.format(new Date(iso));
+
+function duration(ms) {
+  const minutes = Math.max(0, Math.floor(ms / 60_000));
+  if (minutes < 60) return `${minutes} min`;
+  const hours = Math.floor(minutes / 60);
+  if (hours < 48) return `${hours} h ${String(minutes % 60).padStart(2, '0')} min`;
+  return `${Math.floor(hours / 24)} days ${hours % 24} h`;
+}
+
+/** Since when the incident has waited for someone: when it was announced, else its opening sample. */
+const waitingSince = (incident) => incident.escalation?.startedAt ?? incident.openedAt;
+
+function el(tag, attrs = {}, ...children) {
+  const node = document.createElement(tag);
+  for (const [key, value] of Object.entries(attrs)) {
+    if (value === undefined || value === null || value === false) continue;
+    if (key === 'text') node.textContent = value;
+    else if (key === 'hidden') node.hidden = Boolean(value);
+    else node.setAttribute(key, value === true ? '' : String(value));
+  }
+  for (const child of children) if (child !== undefined && child !== null) node.append(child);
+  return node;
+}
+
+function severityBadge(severity) {
+  return el('span', { class: 'sev', 'data-severity': severity }, el('span', { class: 'glyph', 'aria-hidden': 'true', text: GLYPH[severity] ?? '?' }), ` ${severity}`);
+}
+
+function stateWords(incident) {
+  if (incident.closed) return 'closed';
+  const parts = [incident.alarm === 'active' ? 'active' : 'returned to normal', incident.acknowledged ? 'acknowledged' : 'unacknowledged'];
+  if (incident.shelved) parts.push(`shelved until ${formatTime(incident.shelved.until)}`);
+  return parts.join(', ');
+}
+
+function measurandsOf(incident) {
+  const seen = [];
+  for (const f of incident.evidence ?? []) if (!seen.includes(f.measurand)) seen.push(f.measurand);
+  if (seen.length === 0 && incident.measurand) seen.push(incident.measurand);
+  return seen;
+}
+
+// ---------------------------------------------------------------- charts
+
+/** Drawn narrower than the card, so that scaling it up makes its words larger on a wall screen. */
+async function loadChart(container, unit, component, measurand, width = 640) {
+  const query = new URLSearchParams({ measurand, title: 'none', width: String(width) });
+  const result = await api(`${apiComponentPath(unit, component)}/chart.svg?${query}`);
+  container.replaceChildren();
+  if (!result.ok) {
+    container.append(el('p', { class: 'chart-problem', text: `Chart of ${measurand} not available: ${problemText(result)}` }));
+    return;
+  }
+  const doc = new DOMParser().parseFromString(result.body, 'image/svg+xml');
+  const svg = doc.documentElement;
+  if (svg.nodeName !== 'svg') {
+    container.append(el('p', { class: 'chart-problem', text: `Chart of ${measurand} could not be read.` }));
+    return;
+  }
+  for (const active of svg.querySelectorAll('script, foreignObject')) active.remove();
+  for (const node of [svg, ...svg.querySelectorAll('*')]) {
+    for (const attr of [...node.attributes]) if (/^on/i.test(attr.name) || /javascript:/i.test(attr.value)) node.removeAttribute(attr.name);
+  }
+  container.append(document.importNode(svg, true));
+}
+
+// ---------------------------------------------------------------- the board
+
+function sortIncidents(list) {
+  // Most severe first; within a severity, the one that has waited longest first.
+  return [...list].sort(
+    (a, b) => SEVERITY_RANK[b.severity] - SEVERITY_RANK[a.severity] || Date.parse(waitingSince(a)) - Date.parse(waitingSince(b)) || (a.id < b.id ? -1 : 1),
+  );
+}
+
+async function loadBoard() {
+  const result = await api('/v1/incidents?state=open&limit=500');
+  if (!result.ok) {
+    if (result.status === 401) return showSignIn('The token is no longer accepted; please sign in again.');
+    $('summary').textContent = `Incidents could not be loaded. ${problemText(result)}`;
+    return;
+  }
+  renderBoard(sortIncidents(result.body.incidents));
+}
+
+function renderBoard(incidents) {
+  const counts = { alarm: 0, caution: 0, watch: 0 };
+  for (const i of incidents) counts[i.severity] += 1;
+  const summary = $('summary');
+  summary.replaceChildren(
+    ...['alarm', 'caution', 'watch'].map((s) => el('span', {}, severityBadge(s), `: ${counts[s]}`)),
+    el('span', { text: `${incidents.filter((i) => !i.acknowledged).length} waiting for acknowledgement` }),
+  );
+  $('empty').hidden = incidents.length > 0;
+
+  const list = $('incidents');
+  const keep = new Set(incidents.map((i) => i.id));
+  for (const [id, card] of cards) {
+    if (!keep.has(id)) {
+      card.node.remove();
+      cards.delete(id);
+    }
+  }
+  let previous = null;
+  for (const incident of incidents) {
+    let card = cards.get(incident.id);
+    if (card === undefined) {
+      card = createCard(incident);
+      cards.set(incident.id, card);
+      if (cards.size > 1 && !firstLoad) card.node.classList.add('is-new');
+    }
+    updateCard(card, incident);
+    // Move a card only when it is out of place: moving the card holding the focus would lose it.
+    const expected = previous === null ? list.firstElementChild : previous.nextElementSibling;
+    if (expected !== card.node) list.insertBefore(card.node, expected);
+    previous = card.node;
+  }
+  firstLoad = false;
+}
+
+function createCard(incident) {
+  const id = `inc-${cards.size}-${Date.now().toString(36)}`;
+  const title = el('h3', { id: `${id}-title` });
+  const node = el('li', { class: 'incident', 'aria-labelledby': `${id}-title`, 'data-incident': incident.id });
+  const badge = el('span');
+  const state = el('p', { class: 'state' });
+  const evidence = el('ul', { class: 'evidence', 'aria-label': 'Evidence' });
+  const chart = el('div', { class: 'chart' }, el('p', { class: 'loading', text: 'Loading the trend chart…' }));
+  const note = el('textarea', { id: `${id}-note`, maxlength: '2000', rows: '2' });
+  const shelveFor = el('select', { id: `${id}-shelve`, 'aria-label': 'Shelve for' }, ...SHELVE_CHOICES.map(([value, label]) => el('option', { value, text: label })));
+  const status = el('p', { class: 'action-status', role: 'status' });
+  const buttons = {
+    ack: el('button', { type: 'button', 'data-action': 'ack', text: 'Acknowledge' }),
+    shelve: el('button', { type: 'button', 'data-action': 'shelve', text: 'Shelve' }),
+    resolve: el('button', { type: 'button', 'data-action': 'resolve', text: 'Resolve' }),
+  };
+  const viewerNote = el('p', { class: 'hint', id: `${id}-why`, hidden: true, text: 'Acknowledge, shelve and resolve need a responder token; this token is a viewer token.' });
+  const actions = el(
+    'div',
+    { class: 'actions', role: 'group', 'aria-label': 'Respond' },
+    el('label', { for: `${id}-note`, text: 'Note' }, el('span', { class: 'hint', text: ' (required to shelve or resolve)' })),
+    note,
+    el('div', { class: 'action-row' }, buttons.ack, buttons.shelve, shelveFor, buttons.resolve),
+    viewerNote,
+    status,
+  );
+  node.append(el('div', { class: 'incident-head' }, badge, title), state, evidence, chart, actions);
+  const card = { node, title, badge, state, evidence, chart, note, shelveFor, status, buttons, viewerNote, incident, chartKey: '' };
+  for (const [action, button] of Object.entries(buttons)) button.addEventListener('click', () => act(card, action));
+  return card;
+}
+
+function updateCard(card, incident) {
+  card.incident = incident;
+  const { node } = card;
+  node.dataset.severity = incident.severity;
+  node.dataset.acknowledged = String(Boolean(incident.acknowledged));
+  card.badge.replaceChildren(severityBadge(incident.severity));
+  const measurands = measurandsOf(incident);
+  card.title.replaceChildren(
+    el('a', { href: componentPath(incident.unit, incident.component), text: `${incident.unit} / ${incident.component}` }),
+    measurands.length > 0 ? ` — ${measurands.join(', ')}` : '',
+  );
+  renderState(card);
+  card.evidence.replaceChildren(
+    ...(incident.evidence ?? []).slice(0, 4).map((f) => el('li', {}, el('strong', { text: `${f.severity} · ${f.rule}: ` }), f.explanation)),
+  );
+  const enabled = canAct() && !incident.closed;
+  for (const button of Object.values(card.buttons)) {
+    button.disabled = !enabled;
+    if (canAct()) button.removeAttribute('aria-describedby');
+    else button.setAttribute('aria-describedby', card.viewerNote.id);
+  }
+  card.buttons.ack.disabled = !enabled || Boolean(incident.acknowledged);
+  card.viewerNote.hidden = canAct();
+  // The chart follows the incident's latest sample; a new result redraws it.
+  const chartKey = `${measurands[0] ?? ''}@${incident.lastSampleId}`;
+  if (measurands.length > 0 && chartKey !== card.chartKey) {
+    card.chartKey = chartKey;
+    void loadChart(card.chart, incident.unit, incident.component, measurands[0]);
+  } else if (measurands.length === 0) {
+    card.chart.replaceChildren(el('p', { class: 'chart-problem', text: 'No measurand to chart.' }));
+  }
+}
+
+function renderState(card) {
+  const incident = card.incident;
+  const words = stateWords(incident);
+  const parts = [el('strong', { text: words })];
+  if (incident.acknowledged) {
+    const ack = incident.acknowledged;
+    parts.push(` · by ${ack.by} at ${formatTime(ack.at)}`);
+    if (ack.note) parts.push(` — “${ack.note}”`);
+  } else {
+    parts.push(' · ', el('span', { class: 'waiting', text: `waiting ${duration(Date.now() - Date.parse(waitingSince(incident)))}` }));
+    if (incident.escalation && incident.escalation.reachedTier > 0) parts.push(` · escalated to tier ${incident.escalation.reachedTier}`);
+  }
+  parts.push(` · opened by sample ${incident.openedBySampleId} of ${formatTime(incident.openedAt)}`);
+  card.state.replaceChildren(...parts);
+}
+
+async function act(card, action) {
+  const note = card.note.value.trim();
+  const by = session.name.trim() || 'board user';
+  let body;
+  if (action === 'ack') body = note === '' ? { by } : { by, note };
+  else if (note === '') {
+    setStatus(card, 'error', `Write a note first: ${action === 'shelve' ? 'the reason for shelving' : 'how it was resolved'}.`);
+    card.note.focus();
+    return;
+  } else if (action === 'shelve') body = { by, until: new Date(Date.now() + Number(card.shelveFor.value) * 3_600_000).toISOString(), reason: note };
+  else body = { by, note };
+  setStatus(card, 'busy', 'Sending…');
+  const result = await api(`${incidentPath(card.incident.id)}/${action}`, { method: 'POST', body });
+  if (!result.ok) {
+    setStatus(card, 'error', problemText(result));
+    return;
+  }
+  const verb = { ack: 'Acknowledged', shelve: 'Shelved', resolve: 'Resolved' }[action];
+  card.note.value = '';
+  setStatus(card, 'done', `${verb}.`);
+  announce(`${verb}: ${card.incident.unit} / ${card.incident.component}.`);
+  if (result.body.incident.closed) scheduleReload(0);
+  else updateCard(card, { ...card.incident, ...result.body.incident });
+}
+
+function setStatus(card, kind, message) {
+  card.status.dataset.kind = kind;
+  card.status.textContent = message;
+}
+
+function announce(message) {
+  $('announcer').textContent = message;
+}
+
+function scheduleReload(delay = 250) {
+  clearTimeout(reloadTimer);
+  reloadTimer = setTimeout(() => void (view === 'board' ? loadBoard() : loadComponentPage()), delay);
+}
+
+// ---------------------------------------------------------------- live updates
+
+function connectEvents() {
+  events = new EventSource('/v1/events');
+  const live = $('live');
+  events.addEventListener('open', () => {
+    live.dataset.live = 'on';
+    live.textContent = 'Live updates: connected';
+    // Whatever happened while the stream was down is in the next list.
+    if (connectedBefore) scheduleReload(0);
+    connectedBefore = true;
+  });
+  events.addEventListener('error', () => {
+    const closed = events.readyState === EventSource.CLOSED;
+    live.dataset.live = 'lost';
+    live.textContent = closed ? 'Live updates: refused by the server (sign in again)' : 'Live updates: reconnecting…';
+  });
+  events.addEventListener('incident', (message) => {
+    const event = JSON.parse(message.data);
+    if (view === 'component' && (event.unit !== page.unit || event.component !== page.component)) return;
+    announce(`Incident ${event.change}: ${event.unit} / ${event.component}, ${event.severity}, ${event.state}.`);
+    scheduleReload();
+  });
+  events.addEventListener('result', (message) => {
+    const event = JSON.parse(message.data);
+    if (view === 'board') {
+      for (const card of cards.values()) {
+        if (card.incident.unit === event.unit && card.incident.component === event.component) {
+          card.chartKey = '';
+          updateCard(card, card.incident);
+        }
+      }
+    } else if (event.unit === page.unit && event.component === page.component) {
+      scheduleReload();
+    }
+  });
+}
+
+// ---------------------------------------------------------------- the component page
+
+const view = document.body.dataset.view === 'component' ? 'component' : 'board';
+const page = (() => {
+  const match = /^\/units\/([^/]+)\/components\/([^/]+)\/?$/.exec(location.pathname);
+  return match ? { unit: decodeURIComponent(match[1]), component: decodeURIComponent(match[2]) } : { unit: '', component: '' };
+})();
+
+async function loadComponentPage() {
+  $('view-title').textContent = `${page.unit} / ${page.component}`;
+  document.title = `${page.unit} / ${page.component} · wearshift`;
+  const [history, series] = await Promise.all([
+    api(`/v1/incidents?${new URLSearchParams({ state: 'all', unit: page.unit, limit: '1000' })}`),
+    api(`${apiComponentPath(page.unit, page.component)}/series`),
+  ]);
+  if (history.status === 401 || series.status === 401) return showSignIn('The token is no longer accepted; please sign in again.');
+  renderHistory(history);
+  renderCharts(series);
+}
+
+function renderHistory(result) {
+  const list = $('history');
+  if (!result.ok) {
+    list.replaceChildren(el('li', { class: 'note', text: `The incident history could not be loaded. ${problemText(result)}` }));
+    return;
+  }
+  const incidents = result.body.incidents.filter((i) => i.component === page.component).sort((a, b) => Date.parse(b.openedAt) - Date.parse(a.openedAt));
+  $('history-empty').hidden = incidents.length > 0;
+  list.replaceChildren(
+    ...incidents.map((incident) => {
+      const timeline = el('ol', { class: 'timeline' });
+      const details = el('details', {}, el('summary', { text: 'Timeline' }), timeline);
+      details.addEventListener('toggle', async () => {
+        if (!details.open || timeline.childElementCount > 0) return;
+        const full = await api(incidentPath(incident.id));
+        if (!full.ok) return timeline.replaceChildren(el('li', { text: problemText(full) }));
+        timeline.replaceChildren(...full.body.incident.timeline.map((entry) => el('li', { text: timelineText(entry) })));
+      });
+      return el(
+        'li',
+        { class: 'incident', 'data-severity': incident.severity, 'data-acknowledged': String(Boolean(incident.acknowledged)) },
+        el('div', { class: 'incident-head' }, severityBadge(incident.severity), el('h3', { text: `${measurandsOf(incident).join(', ') || 'Incident'} — opened ${formatTime(incident.openedAt)}` })),
+        el('p', { class: 'state' }, el('strong', { text: stateWords(incident) }), incident.closed ? ` · ${incident.closed.how} ${formatTime(incident.closed.at)}` : ''),
+        details,
+      );
+    }),
+  );
+}
+
+function timelineText(entry) {
+  const at = formatTime(entry.at);
+  switch (entry.kind) {
+    case 'finding':
+      return `${at}: ${entry.measurand} ${entry.rule} ${entry.change.replace('-', ' ')} (${entry.severity})${entry.explanation ? ` — ${entry.explanation}` : ''}`;
+    case 'acknowledged':
+      return `${at}: acknowledged by ${entry.by}${entry.note ? ` — ${entry.note}` : ''}`;
+    case 'shelved':
+      return `${at}: shelved by ${entry.by} until ${formatTime(entry.until)} — ${entry.reason}`;
+    case 'closed':
+      return `${at}: closed (${entry.how})${entry.by ? ` by ${entry.by}` : ''}${entry.note ? ` — ${entry.note}` : ''}`;
+    case 'notified':
+      return `${at}: told tier ${entry.tier} (${entry.targets.length} recipients)`;
+    default:
+      return `${at}: ${entry.kind.replace('-', ' ')}${entry.by ? ` by ${entry.by}` : ''}${entry.note ? ` — ${entry.note}` : ''}`;
+  }
+}
+
+function renderCharts(result) {
+  const charts = $('charts');
+  if (!result.ok) {
+    $('series-note').hidden = false;
+    $('series-note').textContent = `No trends: ${problemText(result)}`;
+    charts.replaceChildren();
+    return;
+  }
+  $('series-note').hidden = true;
+  charts.replaceChildren(
+    ...result.body.measurands.map((m) => {
+      const holder = el('div', { class: 'chart' }, el('p', { class: 'loading', text: 'Loading…' }));
+      void loadChart(holder, page.unit, page.component, m.measurand, 760);
+      return el('figure', {}, el('figcaption', { text: `${m.measurand} — ${m.label} (${m.unit})` }), holder);
+    }),
+  );
+}
+
+// ---------------------------------------------------------------- start
+
+async function start() {
+  $('sign-in').hidden = true;
+  renderWho();
+  // Listen before loading, so that nothing that changes during the first load goes unseen.
+  connectEvents();
+  if (view === 'board') {
+    $('board').hidden = false;
+    const note = $('role-note');
+    note.hidden = canAct();
+    note.textContent = canAct() ? '' : 'This is a viewer token: the board is read-only. Acknowledge, shelve and resolve need a responder token.';
+    await loadBoard();
+    // Waiting times move on by themselves.
+    setInterval(() => cards.forEach(renderState), 30_000);
+  } else {
+    $('component').hidden = false;
+    await loadComponentPage();
+  }
+}
+
+$('sign-in-form').addEventListener('submit', async (event) => {
+  event.preventDefault();
+  const token = $('token').value.trim();
+  if (token === '') {
+    $('sign-in-error').textContent = 'Enter the access token.';
+    return;
+  }
+  const problem = await signIn(token, $('name').value.trim());
+  if (problem !== undefined) {
+    $('sign-in-error').textContent = problem;
+    return;
+  }
+  $('token').value = '';
+  await start();
+});
+$('sign-out').addEventListener('click', signOut);
+
+if (session.token) {
+  const problem = await signIn(session.token, session.name);
+  if (problem === undefined) await start();
+  else showSignIn(problem);
+} else {
+  showSignIn();
+}

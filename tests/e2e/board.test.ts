@@ -1,0 +1,186 @@
+/**
+ * The control-room board in a real browser (Debian's Chromium driven by playwright-core) against the real routes,
+ * a real incident store in a private redis-server and the demo fleet evaluated by the real core: the page lists
+ * the open incidents with their charts, a server-sent event brings a new one in without a reload, acknowledging
+ * from the page changes the incident through the API, a viewer token cannot, and the page raises no console error.
+ */
+import { existsSync, mkdirSync, mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { chromium, type BrowserContext, type Page } from 'playwright-core';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { startBoardFixture, TOKENS, type BoardFixture } from './boardFixture.ts';
+
+const CHROMIUM = '/usr/bin/chromium';
+const HAVE_CHROMIUM = existsSync(CHROMIUM);
+if (!HAVE_CHROMIUM) console.warn(`board e2e skipped: no Chromium at ${CHROMIUM} (apt-get install -y chromium; CI installs it)`);
+
+const OUT = new URL('./out/', import.meta.url).pathname;
+const SEVERITY_RANK: Record<string, number> = { watch: 0, caution: 1, alarm: 2 };
+
+describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
+  let fixture: BoardFixture;
+  let context: BrowserContext;
+  let profile: string;
+  let page: Page;
+  const problems: string[] = [];
+  const saved = { ...process.env };
+
+  const watch = (p: Page, into: string[]) => {
+    p.on('console', (m) => {
+      if (m.type() === 'error' || m.type() === 'warning') into.push(`${m.type()}: ${m.text()}`);
+    });
+    p.on('pageerror', (e) => into.push(`page error: ${e.message}`));
+  };
+
+  const api = async (path: string, token = TOKENS.responder) => {
+    const response = await fixture.app.inject({ method: 'GET', url: path, headers: { authorization: `Bearer ${token}` } });
+    return response.json();
+  };
+
+  const signIn = async (p: Page, token: string, name: string) => {
+    await p.goto(fixture.url);
+    await p.locator('#token').fill(token);
+    await p.locator('#name').fill(name);
+    await p.locator('#token').press('Enter');
+    await p.locator('#live[data-live="on"]').waitFor();
+  };
+
+  beforeAll(async () => {
+    fixture = await startBoardFixture([
+      ['PS2-P3', 'gearbox'],
+      ['PR-2', 'hydraulic'],
+      ['GEN-3', 'engine'],
+    ]);
+    expect(await fixture.feed('PS2-P3', 'gearbox')).toBeGreaterThan(0);
+    expect(await fixture.feed('PR-2', 'hydraulic')).toBeGreaterThan(0);
+    mkdirSync(OUT, { recursive: true });
+    profile = mkdtempSync(join(tmpdir(), 'wearshift-chromium-'));
+    context = await chromium.launchPersistentContext(profile, {
+      executablePath: CHROMIUM,
+      headless: true,
+      args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking', '--disable-quic', '--no-first-run', '--disable-component-update', '--disable-sync'],
+      viewport: { width: 1920, height: 1080 },
+    });
+    page = await context.newPage();
+    watch(page, problems);
+  });
+
+  afterAll(async () => {
+    await context?.close();
+    await fixture?.close();
+    if (profile) rmSync(profile, { recursive: true, force: true });
+    process.env = saved;
+  });
+
+  it('lists the open incidents, most severe first, each with who owns it or how long it has waited, and its chart', async () => {
+    await signIn(page, TOKENS.responder, 'R. Tanaka');
+    const expected = (await api('/v1/incidents?state=open')).incidents as { id: string; severity: string }[];
+    expect(expected.length).toBeGreaterThanOrEqual(2);
+    const cards = page.locator('#incidents > li.incident');
+    await expect.poll(() => cards.count()).toBe(expected.length);
+    const shown = await cards.evaluateAll((els) => els.map((e) => ({ id: e.getAttribute('data-incident'), severity: e.getAttribute('data-severity') })));
+    expect(new Set(shown.map((s) => s.id))).toEqual(new Set(expected.map((e) => e.id)));
+    const ranks = shown.map((s) => SEVERITY_RANK[s.severity!]!);
+    expect([...ranks].sort((a, b) => b - a)).toEqual(ranks);
+    // Severity in words and shape, not colour alone.
+    const first = cards.first();
+    await expect.poll(() => first.locator('.sev').first().innerText()).toMatch(/^[◇▲■]\s+(watch|caution|alarm)$/);
+    await expect.poll(() => first.locator('.state').innerText()).toMatch(/unacknowledged · waiting \d+ min/);
+    await page.locator('.incident .chart svg[role="img"]').nth(expected.length - 1).waitFor();
+    const labels = await page.locator('.incident .chart svg').evaluateAll((svgs) => svgs.map((s) => s.getAttribute('aria-label') ?? ''));
+    expect(labels).toHaveLength(expected.length);
+    for (const label of labels) expect(label).toMatch(/^(Trend of|ISO 4406 cleanliness of)/);
+    expect(await page.locator('.incident .chart svg .mark').count()).toBeGreaterThan(0);
+  });
+
+  it('brings in a new incident from a server-sent event, without reloading the page', async () => {
+    await page.evaluate(() => Object.assign(globalThis, { boardMarker: 'still the same page' }));
+    const before = await page.locator('#incidents > li.incident').count();
+    expect(await fixture.feed('GEN-3', 'engine')).toBeGreaterThan(0);
+    const card = page.locator('#incidents > li.incident[data-incident^="GEN-3/engine"]');
+    await card.waitFor({ timeout: 10_000 });
+    expect(await page.locator('#incidents > li.incident').count()).toBe(before + 1);
+    expect(await page.evaluate(() => (globalThis as { boardMarker?: string }).boardMarker)).toBe('still the same page');
+    await expect.poll(() => page.locator('#announcer').innerText()).toContain('GEN-3 / engine');
+  });
+
+  it('acknowledges with a note from the page, through the API, using the keyboard', async () => {
+    const card = page.locator('#incidents > li.incident[data-incident^="GEN-3/engine"]');
+    const id = (await card.getAttribute('data-incident'))!;
+    await card.locator('textarea').fill('Checking the coolant system today.');
+    await card.locator('button[data-action="ack"]').focus();
+    await page.keyboard.press('Enter');
+    await expect.poll(() => card.locator('.action-status').innerText()).toBe('Acknowledged.');
+    const { incident } = await api(`/v1/incidents/${encodeURIComponent(id)}`);
+    expect(incident.acknowledged).toMatchObject({ by: 'R. Tanaka', note: 'Checking the coolant system today.' });
+    await expect.poll(() => card.locator('.state').innerText()).toContain('acknowledged · by R. Tanaka');
+    expect(await card.locator('button[data-action="ack"]').isDisabled()).toBe(true);
+  });
+
+  it('keeps a viewer token from acknowledging, and says so plainly', async () => {
+    const viewer = await context.newPage();
+    const viewerProblems: string[] = [];
+    watch(viewer, viewerProblems);
+    await signIn(viewer, TOKENS.viewer, 'A. Viewer');
+    const card = viewer.locator('#incidents > li.incident[data-incident^="PS2-P3/gearbox"]');
+    await card.waitFor();
+    const id = (await card.getAttribute('data-incident'))!;
+    expect(await viewer.locator('#role-note').innerText()).toContain('viewer token');
+    for (const action of ['ack', 'shelve', 'resolve']) expect(await card.locator(`button[data-action="${action}"]`).isDisabled()).toBe(true);
+    // Should the page ever offer the button anyway, the server refuses and the page shows why.
+    await card.locator('button[data-action="ack"]').evaluate((b) => b.removeAttribute('disabled'));
+    await card.locator('button[data-action="ack"]').click();
+    await expect.poll(() => card.locator('.action-status').innerText()).toMatch(/Refused \(403 forbidden\): this needs the role responder; the token holds viewer/);
+    const { incident } = await api(`/v1/incidents/${encodeURIComponent(id)}`);
+    expect(incident.acknowledged).toBeNull();
+    // The refused request is the one error the browser reports.
+    expect(viewerProblems).toEqual([expect.stringContaining('403')]);
+    await viewer.close();
+  });
+
+  it('opens the component page by keyboard: every series and the incident history', async () => {
+    await page.locator('#incidents > li.incident[data-incident^="PS2-P3/gearbox"] h3 a').focus();
+    await page.keyboard.press('Enter');
+    await page.waitForURL(/\/units\/PS2-P3\/components\/gearbox$/);
+    await page.locator('#live[data-live="on"]').waitFor();
+    const series = await api('/v1/units/PS2-P3/components/gearbox/series');
+    const measurands = (series.measurands as { measurand: string }[]).map((m) => m.measurand);
+    expect(measurands.slice(0, 2)).toEqual(['Fe', 'Cu']);
+    await expect.poll(() => page.locator('#charts figure svg[role="img"]').count(), { timeout: 20_000 }).toBe(measurands.length);
+    expect(await page.locator('#view-title').innerText()).toBe('PS2-P3 / gearbox');
+    const history = page.locator('#history > li');
+    await expect.poll(() => history.count()).toBeGreaterThan(0);
+    await history.first().locator('summary').focus();
+    await page.keyboard.press('Enter');
+    await expect.poll(() => history.first().locator('.timeline li').count()).toBeGreaterThan(0);
+    expect(await history.first().locator('.timeline li').first().innerText()).toMatch(/opened/);
+    await page.screenshot({ path: join(OUT, 'component-wall.png'), fullPage: true });
+  });
+
+  it('starts with a skip link and shows where the keyboard focus is', async () => {
+    await page.goto(fixture.url);
+    await page.locator('#incidents > li.incident').first().waitFor();
+    await page.keyboard.press('Tab');
+    // Expressions run in the page; the project's TypeScript has no DOM library.
+    expect(await page.evaluate('document.activeElement.className')).toBe('skip-link');
+    const focusStyle = async () =>
+      page.evaluate('(() => { const s = getComputedStyle(document.activeElement); return { style: s.outlineStyle, width: parseFloat(s.outlineWidth) }; })()');
+    expect(await focusStyle()).toEqual({ style: 'solid', width: 3 });
+    for (let i = 0; i < 4; i++) await page.keyboard.press('Tab');
+    expect(await page.evaluate('document.activeElement.tagName')).toMatch(/^(A|BUTTON|TEXTAREA|SELECT)$/);
+    expect(await focusStyle()).toEqual({ style: 'solid', width: 3 });
+  });
+
+  it('reads on a wall screen and a phone, with no console error on the way', async () => {
+    await page.setViewportSize({ width: 1920, height: 1080 });
+    await page.locator('.incident .chart svg').first().waitFor();
+    await page.screenshot({ path: join(OUT, 'board-wall.png') });
+    await page.setViewportSize({ width: 390, height: 844 });
+    await page.waitForTimeout(200);
+    const overflow = await page.evaluate('document.documentElement.scrollWidth - document.documentElement.clientWidth');
+    expect(overflow).toBeLessThanOrEqual(0);
+    await page.screenshot({ path: join(OUT, 'board-phone.png'), fullPage: true });
+    expect(problems).toEqual([]);
+  });
+});

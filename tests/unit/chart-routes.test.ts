@@ -1,0 +1,98 @@
+import Fastify, { type FastifyInstance } from 'fastify';
+import { PNG } from 'pngjs';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { seriesRoutes } from '../../src/http/seriesRoutes.ts';
+import { boardRoutes } from '../../src/http/boardRoutes.ts';
+import { fixtureGroup, fixtureSamples, fixtureSeries, fixtureSettings } from './chart-fixtures.ts';
+
+const saved = { ...process.env };
+let app: FastifyInstance;
+const viewer = { authorization: 'Bearer view-1' };
+const base = '/v1/units/PS2-P3/components/gearbox';
+
+beforeAll(async () => {
+  process.env.WEARSHIFT_TOKEN_VIEWER = 'view-1';
+  process.env.WEARSHIFT_TOKEN_RESPONDER = 'resp-1';
+  process.env.WEARSHIFT_TOKEN_INGEST = 'ingest-1';
+  app = Fastify();
+  await app.register(seriesRoutes, {
+    loadComponent: async (unit, component) =>
+      unit === 'PS2-P3' && component === 'gearbox' ? { samples: fixtureSamples(), settings: fixtureSettings(), group: fixtureGroup() } : undefined,
+  });
+  await app.register(boardRoutes);
+  await app.ready();
+});
+
+afterAll(async () => {
+  process.env = saved;
+  await app.close();
+});
+
+describe('series and chart routes', () => {
+  it('serve the series model of the stored history to a viewer', async () => {
+    const res = await app.inject({ method: 'GET', url: `${base}/series`, headers: viewer });
+    expect(res.statusCode).toBe(200);
+    expect(res.json()).toEqual(JSON.parse(JSON.stringify(fixtureSeries().series)));
+    const one = await app.inject({ method: 'GET', url: `${base}/series?measurand=Si`, headers: { authorization: 'Bearer resp-1' } });
+    expect(one.json().measurands.map((m: { measurand: string }) => m.measurand)).toEqual(['Si']);
+  });
+
+  it('need a viewer or responder token (401 without, 403 for ingest)', async () => {
+    expect((await app.inject({ method: 'GET', url: `${base}/series` })).statusCode).toBe(401);
+    expect((await app.inject({ method: 'GET', url: `${base}/chart.svg?measurand=Fe`, headers: { authorization: 'Bearer ingest-1' } })).statusCode).toBe(403);
+  });
+
+  it('answer 404 for an unknown component and 400 naming the field for a bad query', async () => {
+    const missing = await app.inject({ method: 'GET', url: '/v1/units/PS9/components/gearbox/series', headers: viewer });
+    expect(missing.statusCode).toBe(404);
+    expect(missing.json().message).toBe('no component "gearbox" of unit "PS9" is known');
+    const unknown = await app.inject({ method: 'GET', url: `${base}/series?measurand=Fe,Xx`, headers: viewer });
+    expect(unknown.statusCode).toBe(400);
+    expect(unknown.json().message).toBe('measurand: unknown measurand "Xx"');
+    const noMeasurand = await app.inject({ method: 'GET', url: `${base}/chart.svg`, headers: viewer });
+    expect(noMeasurand.json().message).toMatch(/^measurand: required/);
+    const width = await app.inject({ method: 'GET', url: `${base}/chart.svg?measurand=Fe&width=10`, headers: viewer });
+    expect(width.statusCode).toBe(400);
+    expect(width.json().message).toMatch(/^width: expected a whole number of pixels from 320 to 2000/);
+    const noReadings = await app.inject({ method: 'GET', url: `${base}/chart.svg?measurand=Cu`, headers: viewer });
+    expect(noReadings.statusCode).toBe(404);
+    expect(noReadings.json().message).toBe('no Cu readings for PS2-P3 / gearbox');
+  });
+
+  it('draw the chart as SVG and as PNG of the width asked', async () => {
+    const svg = await app.inject({ method: 'GET', url: `${base}/chart.svg?measurand=Fe&width=500&title=none`, headers: viewer });
+    expect(svg.statusCode).toBe(200);
+    expect(svg.headers['content-type']).toBe('image/svg+xml; charset=utf-8');
+    expect(svg.headers['content-security-policy']).toContain("default-src 'none'");
+    expect(svg.body).toMatch(/^<svg [^>]*width="500"/);
+    expect(svg.body).not.toContain('font-weight="bold">PS2-P3 / gearbox'); // no heading with title=none
+    const png = await app.inject({ method: 'GET', url: `${base}/chart.png?measurand=Fe`, headers: viewer });
+    expect(png.headers['content-type']).toBe('image/png');
+    expect(PNG.sync.read(png.rawPayload).width).toBe(600);
+  });
+});
+
+describe('board routes', () => {
+  it('serve the page shell and its assets without a token, under a strict content security policy', async () => {
+    const page = await app.inject({ method: 'GET', url: '/' });
+    expect(page.statusCode).toBe(200);
+    expect(page.body).toContain('<body data-view="board">');
+    expect(page.headers['content-security-policy']).toContain("script-src 'self'");
+    const component = await app.inject({ method: 'GET', url: '/units/PS2-P3/components/gearbox' });
+    expect(component.body).toContain('<body data-view="component">');
+    for (const [name, type] of [['board.js', 'text/javascript'], ['board.css', 'text/css'], ['icon.svg', 'image/svg+xml']]) {
+      const asset = await app.inject({ method: 'GET', url: `/board/${name}` });
+      expect(asset.statusCode).toBe(200);
+      expect(asset.headers['content-type']).toContain(type);
+    }
+    expect((await app.inject({ method: 'GET', url: '/board/../http/auth.ts' })).statusCode).toBe(404);
+  });
+
+  it('tell the page which roles its token holds', async () => {
+    expect((await app.inject({ method: 'GET', url: '/v1/session', headers: viewer })).json()).toEqual({ roles: ['viewer'] });
+    expect((await app.inject({ method: 'GET', url: '/v1/session', headers: { authorization: 'Bearer resp-1' } })).json()).toEqual({ roles: ['responder'] });
+    const unknown = await app.inject({ method: 'GET', url: '/v1/session', headers: { authorization: 'Bearer nope' } });
+    expect(unknown.statusCode).toBe(401);
+    expect(unknown.headers['www-authenticate']).toMatch(/^Bearer/);
+  });
+});
