@@ -1,0 +1,63 @@
+/** `wearshift demo`: the invented demo fleet end to end, in one process, in about a minute. */
+import type { Command } from 'commander';
+import { InputError } from '../../domain/errors.ts';
+import { demoPassed, formatIntro, formatReport } from '../../demo/report.ts';
+import { DEMO_DEFAULTS, runDemo } from '../../demo/runDemo.ts';
+import { RedisServerMissingError } from '../../runtime/embeddedRedis.ts';
+
+interface DemoCommandOptions {
+  keepOpen?: boolean;
+  json?: boolean;
+  out: string;
+  config: string;
+  feedSeconds: string;
+}
+
+export function registerDemo(program: Command): void {
+  program
+    .command('demo')
+    .description('play the invented demo fleet through workers, API, e-mail and webhooks; print when each rule caught each fault')
+    .option('--keep-open', 'leave the API running afterwards (Ctrl-C ends it) and print its address and a viewer token')
+    .option('--json', 'print the report as one JSON line instead of text')
+    .option('--out <dir>', 'where the received e-mails (.eml) and webhook deliveries (.json) go', 'demo/out')
+    .option('--config <file>', 'the demo configuration', DEMO_DEFAULTS.configFile)
+    .option('--feed-seconds <s>', 'how long the playback of the 18 months of lab reports takes', String(DEMO_DEFAULTS.feedSeconds))
+    .addHelpText('after', '\nWithout REDIS_URL the demo starts a private redis-server from PATH; with it, it uses a key prefix of its own and removes only its keys.')
+    .action((opts: DemoCommandOptions) => demo(opts));
+}
+
+async function demo(opts: DemoCommandOptions): Promise<void> {
+  const feedSeconds = Number(opts.feedSeconds);
+  if (!(feedSeconds > 0 && feedSeconds <= 600)) throw new InputError(`--feed-seconds: expected a number of seconds from 0 to 600, got "${opts.feedSeconds}"`);
+  const text = !opts.json;
+  const print = (line: string) => void (text && process.stdout.write(`${line}\n`));
+  if (text) for (const line of formatIntro({ redis: process.env.REDIS_URL ? 'REDIS_URL, under a key prefix of its own' : 'a private redis-server from PATH', outDir: opts.out, feedSeconds })) print(line);
+  let run;
+  try {
+    run = await runDemo({ outDir: opts.out, configFile: opts.config, feedSeconds, ...(opts.keepOpen && { keepOpen: true }), progress: print });
+  } catch (e) {
+    if (e instanceof RedisServerMissingError) {
+      process.stderr.write(`wearshift demo: ${e.message}\n`);
+      process.exitCode = 2;
+      return;
+    }
+    throw e;
+  }
+  const { report } = run;
+  if (text) for (const line of formatReport(report, opts.out)) print(line);
+  else process.stdout.write(`${JSON.stringify(report)}\n`);
+  process.exitCode = demoPassed(report) ? 0 : 1;
+  if (!opts.keepOpen) return;
+
+  print('', );
+  print(`The API stays up at ${report.apiUrl} — the board at ${report.apiUrl}/ where this build serves one.`);
+  print(`Viewer token: ${run.viewerToken}`);
+  print(`  curl -H 'Authorization: Bearer ${run.viewerToken}' ${report.apiUrl}/v1/incidents`);
+  print('Press Ctrl-C to stop.');
+  await new Promise<void>((resolve) => {
+    const stop = () => resolve();
+    process.once('SIGINT', stop);
+    process.once('SIGTERM', stop);
+  });
+  await run.close();
+}

@@ -1,0 +1,61 @@
+/**
+ * The demo's mail server: a real SMTP server (smtp-server) on a free local port that keeps every message as
+ * it arrived (the raw DATA, ready to be written as an .eml file) beside its parsed form.
+ */
+import type { AddressInfo } from 'node:net';
+import { simpleParser, type ParsedMail } from 'mailparser';
+import { SMTPServer } from 'smtp-server';
+
+export interface ReceivedMail {
+  /** Arrival order, from 1. */
+  readonly seq: number;
+  readonly receivedAt: number;
+  /** Envelope recipients. */
+  readonly to: readonly string[];
+  readonly raw: string;
+  readonly parsed: ParsedMail;
+}
+
+export interface MailReceiver {
+  readonly port: number;
+  readonly received: readonly ReceivedMail[];
+  /** Called for every message once it is parsed. */
+  onMail(listener: (mail: ReceivedMail) => void): void;
+  close(): Promise<void>;
+}
+
+export async function startMailReceiver(): Promise<MailReceiver> {
+  const received: ReceivedMail[] = [];
+  const listeners: ((mail: ReceivedMail) => void)[] = [];
+  const server = new SMTPServer({
+    authOptional: true,
+    // A local receiver without a certificate: offering STARTTLS would make the sender try it and fail.
+    disabledCommands: ['STARTTLS'],
+    logger: false,
+    onData(stream, session, callback) {
+      const chunks: Buffer[] = [];
+      stream.on('data', (c: Buffer) => chunks.push(c));
+      stream.on('end', () => {
+        const raw = Buffer.concat(chunks).toString('utf8');
+        simpleParser(raw)
+          .then((parsed) => {
+            const mail: ReceivedMail = { seq: received.length + 1, receivedAt: Date.now(), to: session.envelope.rcptTo.map((r) => r.address), raw, parsed };
+            received.push(mail);
+            callback();
+            for (const l of listeners) l(mail);
+          })
+          .catch(callback);
+      });
+    },
+  });
+  await new Promise<void>((resolve, reject) => {
+    server.once('error', reject);
+    server.listen(0, '127.0.0.1', () => resolve());
+  });
+  return {
+    port: (server.server.address() as AddressInfo).port,
+    received,
+    onMail: (l) => void listeners.push(l),
+    close: () => new Promise<void>((resolve) => server.close(() => resolve())),
+  };
+}
