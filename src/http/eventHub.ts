@@ -87,10 +87,12 @@ export function incidentEvent(change: IncidentChange): LiveEvent {
 }
 
 /**
- * The incident store with every operator action (acknowledge, shelve, resolve, ...) announced on the hub, so that
- * every open board sees what one responder did. For `incidentRoutes`: `{ store: announcingActions(store, hub) }`.
+ * The incident store with every operator action (acknowledge, shelve, resolve, ...) announced, so that every open
+ * board sees what one responder did. `publish` is the hub's (one process) or the Redis live channel's (several API
+ * processes, each bridging the channel into its own hub). For `incidentRoutes`:
+ * `{ store: announcingActions(store, (e) => hub.publish(e)) }`.
  */
-export function announcingActions(store: IncidentRoutesStore, hub: EventHub): IncidentRoutesStore {
+export function announcingActions(store: IncidentRoutesStore, publish: (event: LiveEvent) => void): IncidentRoutesStore {
   return {
     get: (incidentId) => store.get(incidentId),
     list: (filter) => store.list(filter),
@@ -98,7 +100,7 @@ export function announcingActions(store: IncidentRoutesStore, hub: EventHub): In
       const result = await store.applyAction(action);
       const { incident } = result;
       const last = incident.timeline[incident.timeline.length - 1];
-      hub.publish({
+      publish({
         type: 'incident',
         incidentId: incident.id,
         unit: incident.unit,

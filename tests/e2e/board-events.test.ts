@@ -108,7 +108,7 @@ describe('GET /v1/events', () => {
     const store = { get: async () => incident, list: async () => [], applyAction: async () => ({ incident }) };
     const heard: LiveEvent[] = [];
     const stop = hub.subscribe((e) => heard.push(e));
-    await announcingActions(store, hub).applyAction({ kind: 'acknowledge', incidentId: 'X/y@S1', by: 'R. Tanaka', now: new Date() });
+    await announcingActions(store, (e) => hub.publish(e)).applyAction({ kind: 'acknowledge', incidentId: 'X/y@S1', by: 'R. Tanaka', now: new Date() });
     stop();
     expect(heard).toEqual([{ type: 'incident', incidentId: 'X/y@S1', unit: 'X', component: 'y', severity: 'caution', state: 'active, acknowledged', change: 'acknowledged', at: '2026-03-01T09:00:00.000Z' }]);
   });

@@ -17,6 +17,8 @@ if (!HAVE_CHROMIUM) console.warn(`board e2e skipped: no Chromium at ${CHROMIUM} 
 
 const OUT = new URL('./out/', import.meta.url).pathname;
 const SEVERITY_RANK: Record<string, number> = { watch: 0, caution: 1, alarm: 2 };
+/** The machine is shared and small: give the page time, but fail rather than hang. */
+const poll = <T>(read: () => T | Promise<T>) => expect.poll(read, { timeout: 20_000, interval: 100 });
 
 describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
   let fixture: BoardFixture;
@@ -78,15 +80,15 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     const expected = (await api('/v1/incidents?state=open')).incidents as { id: string; severity: string }[];
     expect(expected.length).toBeGreaterThanOrEqual(2);
     const cards = page.locator('#incidents > li.incident');
-    await expect.poll(() => cards.count()).toBe(expected.length);
+    await poll(() => cards.count()).toBe(expected.length);
     const shown = await cards.evaluateAll((els) => els.map((e) => ({ id: e.getAttribute('data-incident'), severity: e.getAttribute('data-severity') })));
     expect(new Set(shown.map((s) => s.id))).toEqual(new Set(expected.map((e) => e.id)));
     const ranks = shown.map((s) => SEVERITY_RANK[s.severity!]!);
     expect([...ranks].sort((a, b) => b - a)).toEqual(ranks);
     // Severity in words and shape, not colour alone.
     const first = cards.first();
-    await expect.poll(() => first.locator('.sev').first().innerText()).toMatch(/^[◇▲■]\s+(watch|caution|alarm)$/);
-    await expect.poll(() => first.locator('.state').innerText()).toMatch(/unacknowledged · waiting \d+ min/);
+    await poll(() => first.locator('.sev').first().innerText()).toMatch(/^[◇▲■]\s+(watch|caution|alarm)$/);
+    await poll(() => first.locator('.state').innerText()).toMatch(/unacknowledged · waiting \d+ min/);
     await page.locator('.incident .chart svg[role="img"]').nth(expected.length - 1).waitFor();
     const labels = await page.locator('.incident .chart svg').evaluateAll((svgs) => svgs.map((s) => s.getAttribute('aria-label') ?? ''));
     expect(labels).toHaveLength(expected.length);
@@ -99,10 +101,10 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     const before = await page.locator('#incidents > li.incident').count();
     expect(await fixture.feed('GEN-3', 'engine')).toBeGreaterThan(0);
     const card = page.locator('#incidents > li.incident[data-incident^="GEN-3/engine"]');
-    await card.waitFor({ timeout: 10_000 });
+    await card.waitFor({ timeout: 20_000 });
     expect(await page.locator('#incidents > li.incident').count()).toBe(before + 1);
     expect(await page.evaluate(() => (globalThis as { boardMarker?: string }).boardMarker)).toBe('still the same page');
-    await expect.poll(() => page.locator('#announcer').innerText()).toContain('GEN-3 / engine');
+    await poll(() => page.locator('#announcer').innerText()).toContain('GEN-3 / engine');
   });
 
   it('acknowledges with a note from the page, through the API, using the keyboard', async () => {
@@ -111,10 +113,10 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     await card.locator('textarea').fill('Checking the coolant system today.');
     await card.locator('button[data-action="ack"]').focus();
     await page.keyboard.press('Enter');
-    await expect.poll(() => card.locator('.action-status').innerText()).toBe('Acknowledged.');
+    await poll(() => card.locator('.action-status').innerText()).toBe('Acknowledged.');
     const { incident } = await api(`/v1/incidents/${encodeURIComponent(id)}`);
     expect(incident.acknowledged).toMatchObject({ by: 'R. Tanaka', note: 'Checking the coolant system today.' });
-    await expect.poll(() => card.locator('.state').innerText()).toContain('acknowledged · by R. Tanaka');
+    await poll(() => card.locator('.state').innerText()).toContain('acknowledged · by R. Tanaka');
     expect(await card.locator('button[data-action="ack"]').isDisabled()).toBe(true);
   });
 
@@ -131,7 +133,7 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     // Should the page ever offer the button anyway, the server refuses and the page shows why.
     await card.locator('button[data-action="ack"]').evaluate((b) => b.removeAttribute('disabled'));
     await card.locator('button[data-action="ack"]').click();
-    await expect.poll(() => card.locator('.action-status').innerText()).toMatch(/Refused \(403 forbidden\): this needs the role responder; the token holds viewer/);
+    await poll(() => card.locator('.action-status').innerText()).toMatch(/Refused \(403 forbidden\): this needs the role responder; the token holds viewer/);
     const { incident } = await api(`/v1/incidents/${encodeURIComponent(id)}`);
     expect(incident.acknowledged).toBeNull();
     // The refused request is the one error the browser reports.
@@ -147,13 +149,13 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     const series = await api('/v1/units/PS2-P3/components/gearbox/series');
     const measurands = (series.measurands as { measurand: string }[]).map((m) => m.measurand);
     expect(measurands.slice(0, 2)).toEqual(['Fe', 'Cu']);
-    await expect.poll(() => page.locator('#charts figure svg[role="img"]').count(), { timeout: 20_000 }).toBe(measurands.length);
+    await poll(() => page.locator('#charts figure svg[role="img"]').count()).toBe(measurands.length);
     expect(await page.locator('#view-title').innerText()).toBe('PS2-P3 / gearbox');
     const history = page.locator('#history > li');
-    await expect.poll(() => history.count()).toBeGreaterThan(0);
+    await poll(() => history.count()).toBeGreaterThan(0);
     await history.first().locator('summary').focus();
     await page.keyboard.press('Enter');
-    await expect.poll(() => history.first().locator('.timeline li').count()).toBeGreaterThan(0);
+    await poll(() => history.first().locator('.timeline li').count()).toBeGreaterThan(0);
     expect(await history.first().locator('.timeline li').first().innerText()).toMatch(/opened/);
     await page.screenshot({ path: join(OUT, 'component-wall.png'), fullPage: true });
   });

@@ -49,7 +49,7 @@ export async function startBoardFixture(components: readonly [string, string][])
   process.env.WEARSHIFT_TOKEN_RESPONDER = TOKENS.responder;
 
   const app = Fastify();
-  await app.register(incidentRoutes, { store: announcingActions(store, hub) });
+  await app.register(incidentRoutes, { store: announcingActions(store, (e) => hub.publish(e)) });
   await app.register(seriesRoutes, {
     loadComponent: async (unit, component) => {
       const list = samples.get(componentKey({ unit, component }));
