@@ -120,6 +120,27 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     expect(await card.locator('button[data-action="ack"]').isDisabled()).toBe(true);
   });
 
+  it('shelves with a reason and resolves with a note; both ask for the note first', async () => {
+    const card = page.locator('#incidents > li.incident[data-incident^="PR-2/hydraulic"]');
+    const id = (await card.getAttribute('data-incident'))!;
+    await card.locator('button[data-action="shelve"]').click();
+    await poll(() => card.locator('.action-status').innerText()).toBe('Write a note first: the reason for shelving.');
+    expect(await page.evaluate('document.activeElement.tagName')).toBe('TEXTAREA');
+    await card.locator('textarea').fill('Filter change booked for the next stop.');
+    await card.locator('select').selectOption('8');
+    await card.locator('button[data-action="shelve"]').click();
+    await poll(() => card.locator('.state').innerText()).toMatch(/shelved until/);
+    const shelved = (await api(`/v1/incidents/${encodeURIComponent(id)}`)).incident;
+    expect(shelved.shelved).toMatchObject({ by: 'R. Tanaka', reason: 'Filter change booked for the next stop.' });
+    const hours = (Date.parse(shelved.shelved.until) - Date.parse(shelved.shelved.at)) / 3_600_000;
+    expect(hours).toBeCloseTo(8, 1);
+
+    await card.locator('textarea').fill('Filter replaced; bypass valve reseated.');
+    await card.locator('button[data-action="resolve"]').click();
+    await card.waitFor({ state: 'detached', timeout: 20_000 });
+    expect((await api(`/v1/incidents/${encodeURIComponent(id)}`)).incident.closed).toMatchObject({ how: 'resolved', by: 'R. Tanaka' });
+  });
+
   it('keeps a viewer token from acknowledging, and says so plainly', async () => {
     const viewer = await context.newPage();
     const viewerProblems: string[] = [];
