@@ -6,7 +6,10 @@ type Element = ReturnType<typeof DomUtils.findAll>[number];
 import { chartAltText } from '../../src/charts/altText.ts';
 import type { ComponentSeries } from '../../src/charts/componentSeries.ts';
 import { renderTrendChart } from '../../src/charts/trendChart.ts';
-import { fixtureSeries } from './chart-fixtures.ts';
+import { evaluateComponent } from '../../src/analysis/evaluate.ts';
+import { buildComponentSeries } from '../../src/charts/componentSeries.ts';
+import { fixtureSeries, fixtureSettings } from './chart-fixtures.ts';
+import { sample, settingsFrom } from './history-fixtures.ts';
 
 function parse(svg: string) {
   const doc = parseDocument(svg, { xmlMode: true });
@@ -111,6 +114,45 @@ describe('trend chart SVG', () => {
     const odd = renderTrendChart({ ...series, unit: 'P&1 <b>' }, 'Fe');
     expect(odd).not.toContain('<b>');
     expect(() => new Resvg(odd)).not.toThrow();
+  });
+
+  it('draws a history of one censored reading: no rate, no detector, a span around the one day', () => {
+    const settings = fixtureSettings();
+    const one = buildComponentSeries(evaluateComponent([sample(5, { oilHours: 100, readings: { Fe: '<1' } })], settings), settings);
+    const chart = parse(renderTrendChart(one, 'Fe'));
+    expect(chart.all((e) => e.attribs['data-panel'] !== undefined).map((e) => e.attribs['data-panel'])).toEqual(['readings']);
+    expect(chart.all((e) => e.name === 'circle' && e.attribs['data-censored'] === 'true')).toHaveLength(1);
+    expect(chart.all((e) => e.attribs['data-axis'] === 'x').length).toBeGreaterThanOrEqual(1);
+  });
+
+  it('draws ISO 4406 codes as one line per size range against the target code, marking the steps worse', () => {
+    const settings = settingsFrom(`groups:\n  - name: pump-gearboxes\n    cleanliness: { target: "17/15/12" }\n`);
+    const samples = [
+      sample(1, { readings: { iso4406: '16/14/11' } }),
+      sample(2, { readings: { iso4406: '18/15/12' } }), // one step worse in the ≥4 µm range: caution (common practice)
+      sample(3, { readings: { p4: 2000, p6: 900, p14: 100 } }), // 18/17/14 from the counts (ISO 4406 table): alarm
+    ];
+    const evaluation = evaluateComponent(samples, settings);
+    const series = buildComponentSeries(evaluation, settings);
+    const codes = series.measurands.find((m) => m.measurand === 'iso4406')!;
+    expect(codes.cleanliness!.points.map((p) => [p.text, p.fromCounts])).toEqual([
+      ['16/14/11', false],
+      ['18/15/12', false],
+      ['18/17/14', true],
+    ]);
+    const chart = parse(renderTrendChart(series, 'iso4406'));
+    const panel = chart.all((e) => e.attribs['data-panel'] === 'readings')[0]!;
+    expect(chart.all((e) => e.name === 'path' && e.attribs['data-size'] !== undefined)).toHaveLength(3);
+    for (const [size, value] of [['p4', 17], ['p6', 15], ['p14', 12]] as const) {
+      const line = chart.all((e) => e.name === 'line' && e.attribs['data-kind'] === 'cleanliness' && e.attribs['data-size'] === size)[0]!;
+      expect(Number(line.attribs.y1)).toBeCloseTo(yFromTicks(panel, value), 0);
+    }
+    const marks = chart.all((e) => e.attribs.class === 'mark').map((e) => [e.attribs['data-sample'], e.attribs['data-severity']]);
+    expect(marks).toEqual([
+      ['S-0002', 'caution'],
+      ['S-0003', 'alarm'],
+    ]);
+    expect(chartAltText(series, 'iso4406')).toContain('Latest code 18/17/14 on 2026-01-04 against the target 17/15/12.');
   });
 
   it('refuses a measurand the component has no readings of', () => {
