@@ -132,7 +132,8 @@ export async function runDemo(options: DemoOptions): Promise<DemoRun> {
 
     const mail = await startMailReceiver();
     closers.push({ name: 'smtp receiver', close: () => mail.close() });
-    const webhookSecret = `whsec_${randomBytes(24).toString('base64')}`;
+    // DEMO_WEBHOOK_SECRET lets a receiver outside the demo (or a test) check the deliveries written out.
+    const webhookSecret = env.DEMO_WEBHOOK_SECRET || `whsec_${randomBytes(24).toString('base64')}`;
     const hooks = await startWebhookReceiver(webhookSecret);
     closers.push({ name: 'webhook receiver', close: () => hooks.close() });
     const port = await freePort();
@@ -183,7 +184,7 @@ export async function runDemo(options: DemoOptions): Promise<DemoRun> {
     const settled = await settle({ queues, store, settleMs, isDone: async () => (await answering.then(() => true)) && (await storyDone(store)) });
     await answering;
 
-    const timelines = await readTimelines(storage);
+    const timelines = await readTimelines(storage, config.incidents.returnAfterSamples);
     const findingsByRule = await countFindings(storage);
     const incidents = await readIncidents(store);
     const files = writeOut(options.outDir, mail.received, hooks.received);
@@ -303,7 +304,7 @@ async function storyDone(store: RedisIncidentStore): Promise<boolean> {
   return ack?.acknowledged != null && esc !== undefined && esc.escalation.reachedTier >= ESCALATION_TIER;
 }
 
-async function readTimelines(storage: RedisStorage): Promise<ComponentTimeline[]> {
+async function readTimelines(storage: RedisStorage, returnAfterSamples: number): Promise<ComponentTimeline[]> {
   const components = await storage.components();
   const order = (u: string, c: string) => {
     const story = DEMO_STORIES.findIndex((s) => s.unit === u && s.component === c);
@@ -313,7 +314,7 @@ async function readTimelines(storage: RedisStorage): Promise<ComponentTimeline[]
   return Promise.all(
     components.map(async (c) => {
       const [samples, steps] = await Promise.all([storage.revisions(c), storage.findings(c)]);
-      return componentTimeline({ unit: c.unit, component: c.component, sampleDates: samples.map((s) => ({ sampleId: s.sampleId, sampledAt: s.sampledAt })), steps });
+      return componentTimeline({ unit: c.unit, component: c.component, sampleDates: samples.map((s) => ({ sampleId: s.sampleId, sampledAt: s.sampledAt })), steps, returnAfterSamples });
     }),
   );
 }

@@ -19,11 +19,14 @@ export interface ComponentTimeline {
   readonly unit: string;
   readonly component: string;
   readonly samples: number;
-  /** The first finding of each rule family (and direction), in sample order. */
+  /**
+   * The first finding of each rule family (and direction), in sample order: within the episode that led up
+   * to the fixed limit when one was crossed, over the whole history otherwise.
+   */
   readonly firsts: readonly FirstFinding[];
   /** The first finding of the fixed-limit family. */
   readonly fixedLimit?: FirstFinding;
-  /** The first finding that is not a fall (a fall in wear rate points to a sampling fault, not wear). */
+  /** The first rise (not a fall: a fall in wear rate points to a sampling fault) of the episode that reached the fixed limit. */
   readonly earliest?: FirstFinding;
   /** Samples from the earliest finding up to (not including) the fixed limit's sample. */
   readonly samplesAhead?: number;
@@ -33,32 +36,59 @@ export interface ComponentTimeline {
 export interface TimelineInput {
   readonly unit: string;
   readonly component: string;
-  /** Sample dates of every distinct sample of the component. */
+  /** Every distinct sample of the component. */
   readonly sampleDates: readonly { readonly sampleId: string; readonly sampledAt: string }[];
   readonly steps: readonly StepRecord[];
+  /**
+   * Consecutive samples without a rising finding that end an episode, as incidents.returnAfterSamples ends an
+   * incident. Default 2.
+   */
+  readonly returnAfterSamples?: number;
 }
 
-const byDate = (a: { sampledAt: string; sampleId: string }, b: { sampledAt: string; sampleId: string }) =>
+type Dated = { readonly sampledAt: string; readonly sampleId: string };
+const byDate = (a: Dated, b: Dated) =>
   a.sampledAt < b.sampledAt ? -1 : a.sampledAt > b.sampledAt ? 1 : a.sampleId < b.sampleId ? -1 : a.sampleId > b.sampleId ? 1 : 0;
 
 export function componentTimeline(input: TimelineInput): ComponentTimeline {
+  const steps = [...input.steps].sort(byDate);
+  const samples = [...new Map(input.sampleDates.map((s) => [s.sampleId, s])).values()].sort(byDate);
+  const base = { unit: input.unit, component: input.component, samples: samples.length };
+  const limitStep = steps.find((st) => st.findings.some((f) => f.rule === 'limit'));
+  if (limitStep === undefined) return { ...base, firsts: firstsOf(steps) };
+
+  // The episode: walk back from the fixed limit's sample while fewer than returnAfterSamples clean samples
+  // separate rising findings, so that a false alarm months earlier is not counted as an early warning.
+  const rising = new Map(steps.map((st) => [st.sampleId, st.findings.some((f) => f.direction !== 'down')]));
+  const gap = input.returnAfterSamples ?? 2;
+  let at = samples.findIndex((s) => s.sampleId === limitStep.sampleId);
+  let start = at;
+  let clean = 0;
+  while (--at >= 0 && clean < gap) {
+    if (rising.get(samples[at]!.sampleId) === true) {
+      start = at;
+      clean = 0;
+    } else clean++;
+  }
+  const from = samples[start] ?? limitStep;
+  const episode = steps.filter((st) => byDate(st, from) >= 0);
+  const firsts = firstsOf(episode);
+  const fixedLimit = firsts.find((f) => f.rule === 'limit')!;
+  const earliest = firsts.find((f) => f.direction !== 'down') ?? fixedLimit;
+  const samplesAhead = samples.filter((s) => byDate(s, earliest) >= 0 && byDate(s, fixedLimit) < 0).length;
+  const daysAhead = Math.round((Date.parse(fixedLimit.sampledAt) - Date.parse(earliest.sampledAt)) / 86_400_000);
+  return { ...base, firsts, fixedLimit, earliest, samplesAhead, daysAhead };
+}
+
+function firstsOf(steps: readonly StepRecord[]): FirstFinding[] {
   const firsts = new Map<string, FirstFinding>();
-  for (const step of [...input.steps].sort(byDate)) {
+  for (const step of steps) {
     for (const f of step.findings) {
       const key = `${f.rule}${f.direction === 'down' ? ':down' : ''}`;
       if (!firsts.has(key)) firsts.set(key, firstOf(f, step));
     }
   }
-  const ordered = [...firsts.values()].sort(byDate);
-  const fixedLimit = ordered.find((f) => f.rule === 'limit');
-  const earliest = ordered.find((f) => f.direction !== 'down');
-  const samples = new Set(input.sampleDates.map((s) => s.sampleId)).size;
-  const base = { unit: input.unit, component: input.component, samples, firsts: ordered, ...(fixedLimit && { fixedLimit }), ...(earliest && { earliest }) };
-  if (fixedLimit === undefined || earliest === undefined || earliest === fixedLimit) return base;
-  const distinct = new Map(input.sampleDates.map((s) => [s.sampleId, s.sampledAt]));
-  const samplesAhead = [...distinct].filter(([id, at]) => byDate({ sampleId: id, sampledAt: at }, earliest) >= 0 && byDate({ sampleId: id, sampledAt: at }, fixedLimit) < 0).length;
-  const daysAhead = Math.round((Date.parse(fixedLimit.sampledAt) - Date.parse(earliest.sampledAt)) / 86_400_000);
-  return { ...base, samplesAhead, daysAhead };
+  return [...firsts.values()].sort(byDate);
 }
 
 function firstOf(f: Finding, step: StepRecord): FirstFinding {
@@ -83,8 +113,7 @@ export function formatTimeline(t: ComponentTimeline): string {
 }
 
 function verdict(t: ComponentTimeline): string {
-  if (t.earliest === undefined) return '';
-  if (t.fixedLimit === undefined) return ' → no fixed limit crossed in the demo period';
+  if (t.fixedLimit === undefined) return t.firsts.length > 0 ? ' → no fixed limit crossed in the demo period' : '';
   if (t.samplesAhead === undefined || t.samplesAhead === 0) return ' → first seen at the fixed limit';
   return ` → caught ${t.samplesAhead} sample${t.samplesAhead === 1 ? '' : 's'} (${t.daysAhead} days) before the fixed limit`;
 }
