@@ -50,28 +50,69 @@ const NUMBER = /^\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*$/;
 const BOOLEANS: Record<string, boolean> = { true: true, false: false, yes: true, no: false, '1': true, '0': false };
 
 export async function* csvRecords(input: Readable): AsyncIterable<SourceRecord> {
-  const parser = input.pipe(parse({ bom: true, relax_column_count: true, skip_empty_lines: true, trim: true, info: true }));
   let header: string[] | undefined;
-  try {
-    for await (const { record, info } of parser as AsyncIterable<{ record: string[]; info: { lines: number } }>) {
-      if (header === undefined) {
-        const twice = record.find((name, i) => record.indexOf(name) !== i);
-        if (twice !== undefined) {
-          yield { line: info.lines, issues: [{ path: '', reason: `column "${twice}" appears twice in the header; nothing was read` }] };
-          return;
-        }
-        header = record;
-        continue;
-      }
-      if (record.length !== header.length) {
-        yield { line: info.lines, issues: [{ path: '', reason: `has ${record.length} cells, the header has ${header.length}` }] };
-        continue;
-      }
-      yield { line: info.lines, record: csvEvent(header, record) };
+  for await (const item of parsedRows(input)) {
+    if ('error' in item) {
+      yield { line: item.line, issues: [{ path: '', reason: `CSV syntax error, reading stopped here: ${item.error}` }] };
+      return;
     }
-  } catch (e) {
-    const err = e as Error & { lines?: number };
-    yield { line: err.lines ?? 0, issues: [{ path: '', reason: `CSV syntax error, reading stopped here: ${err.message}` }] };
+    const { record, line } = item;
+    if (header === undefined) {
+      const twice = record.find((name, i) => record.indexOf(name) !== i);
+      if (twice !== undefined) {
+        yield { line, issues: [{ path: '', reason: `column "${twice}" appears twice in the header; nothing was read` }] };
+        return;
+      }
+      header = record;
+      continue;
+    }
+    if (record.length !== header.length) {
+      yield { line, issues: [{ path: '', reason: `has ${record.length} cells, the header has ${header.length}` }] };
+      continue;
+    }
+    yield { line, record: csvEvent(header, record) };
+  }
+}
+
+type ParsedRow = { record: string[]; line: number } | { error: string; line: number };
+
+/**
+ * The parser's rows, then its error if any. A stream's own async iterator drops rows still buffered when the
+ * stream fails, and every row before a syntax error must still be imported or reported.
+ */
+async function* parsedRows(input: Readable): AsyncIterable<ParsedRow> {
+  const parser = input.pipe(parse({ bom: true, relax_column_count: true, skip_empty_lines: true, trim: true, info: true }));
+  const queue: ParsedRow[] = [];
+  let finished = false;
+  let wake: (() => void) | undefined;
+  const notify = () => {
+    wake?.();
+    wake = undefined;
+  };
+  parser.on('data', (d: { record: string[]; info: { lines: number } }) => {
+    queue.push({ record: d.record, line: d.info.lines });
+    if (queue.length > 1000) parser.pause();
+    notify();
+  });
+  parser.on('error', (e: Error & { lines?: number }) => {
+    queue.push({ error: e.message, line: e.lines ?? parser.info.lines });
+    finished = true;
+    notify();
+  });
+  parser.on('end', () => {
+    finished = true;
+    notify();
+  });
+  for (;;) {
+    const next = queue.shift();
+    if (next !== undefined) {
+      if (queue.length < 100 && parser.isPaused()) parser.resume();
+      yield next;
+      if ('error' in next) return;
+      continue;
+    }
+    if (finished) return;
+    await new Promise<void>((resolve) => (wake = resolve));
   }
 }
 

@@ -8,7 +8,6 @@ import type { Step } from '../analysis/model.ts';
 import type { Config } from '../domain/config.ts';
 import type { FieldIssue } from '../domain/event.ts';
 import type { Finding } from '../domain/finding.ts';
-import type { Measurand } from '../domain/measurands.ts';
 import { incidentRules } from '../incidents/policy.ts';
 import type { TimelineEntry } from '../incidents/model.ts';
 import type { SourceRecord } from '../intake/fileRecords.ts';
@@ -19,16 +18,19 @@ import { InvalidResultError, storeResult } from './storeResult.ts';
 
 export type FindingLine = { readonly type: 'finding'; readonly quiet: boolean } & Finding;
 
+/**
+ * One timeline entry of an incident, flat: the entry's own fields, its kind as `change`, and the incident's
+ * state and severity after the evaluation as `incidentState` and `incidentSeverity`.
+ */
 export type IncidentLine = {
   readonly type: 'incident';
   readonly incidentId: string;
   readonly unit: string;
   readonly component: string;
-  readonly measurand?: Measurand;
   /** The timeline entry's kind: opened, finding, returned, acknowledged, closed, ... */
   readonly change: TimelineEntry['kind'];
-  readonly state: string;
-  readonly severity: string;
+  readonly incidentState: string;
+  readonly incidentSeverity: string;
 } & Omit<TimelineEntry, 'kind'>;
 
 export type TimelineLine = FindingLine | IncidentLine;
@@ -98,11 +100,10 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
           incidentId: c.incidentId,
           unit: c.unit,
           component: c.component,
-          ...(c.measurand !== undefined && { measurand: c.measurand }),
           change: kind,
-          state: c.state,
-          severity: c.severity,
           ...entry,
+          incidentState: c.state,
+          incidentSeverity: c.severity,
         } as IncidentLine,
       });
     }

@@ -3,6 +3,7 @@
  * idempotent, evaluations of one component are serialised by a Redis lock, and BullMQ hands every job to one
  * worker at a time (a worker that dies mid-job leaves a stalled job that another worker picks up).
  */
+import { hostname } from 'node:os';
 import { DelayedError, UnrecoverableError, Worker, type Job } from 'bullmq';
 import type { Redis } from 'ioredis';
 import type { Config } from '../domain/config.ts';
@@ -83,7 +84,14 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   const storage = deps.storage ?? new RedisStorage(deps.connection, { prefix: queueSettings.prefix });
   const evaluateQueue = openQueue(QUEUE_NAMES.evaluate, deps.connection, queueSettings);
   const { logger, metrics, incidentStore } = deps;
-  const workerOptions = { connection: deps.connection, prefix: queueSettings.prefix, removeOnComplete: queueSettings.keepCompleted, removeOnFail: queueSettings.keepFailed };
+  const workerOptions = {
+    connection: deps.connection,
+    prefix: queueSettings.prefix,
+    removeOnComplete: queueSettings.keepCompleted,
+    removeOnFail: queueSettings.keepFailed,
+    // Stored on every job this process handles, so that an operator can tell which process did what.
+    name: `${hostname()}:${process.pid}`,
+  };
   const incidents = incidentStore && redisIncidentFeed(incidentStore);
   const notifyQueue = incidentStore && openQueue(QUEUE_NAMES.notify, deps.connection, { ...queueSettings, attempts: s.notifyAttempts });
   const escalateQueue = incidentStore && openQueue(QUEUE_NAMES.escalate, deps.connection, queueSettings);

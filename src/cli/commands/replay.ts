@@ -65,5 +65,6 @@ function readable(line: TimelineLine): string {
   }
   const l = line as unknown as Record<string, unknown>;
   const detail = typeof l.explanation === 'string' ? `  ${l.explanation}` : typeof l.how === 'string' ? `  ${l.how}` : '';
-  return `${String(l.at).slice(0, 16).replace('T', ' ')}  ${where}  incident ${line.incidentId}  ${line.change}  ${line.severity}  ${line.state}${detail}`;
+  const severity = typeof l.severity === 'string' ? l.severity : line.incidentSeverity;
+  return `${String(l.at).slice(0, 16).replace('T', ' ')}  ${where}  incident ${line.incidentId}  ${line.change}  ${severity}  ${line.incidentState}${detail}`;
 }

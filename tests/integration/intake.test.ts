@@ -1,0 +1,92 @@
+/** `wearshift import` as an operator runs it: the per-line error report, the exit code, and the enqueued results. */
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
+import { runCli } from '../helpers/cli.ts';
+import { fleetCsv, inventedFleet } from '../helpers/fleetCsv.ts';
+import { freePort, startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+
+let dir: string;
+let server: RedisServer;
+
+beforeAll(async () => {
+  dir = mkdtempSync(join(tmpdir(), 'wearshift-import-'));
+  server = await startRedisServer();
+});
+afterAll(async () => {
+  rmSync(dir, { recursive: true, force: true });
+  await server?.dispose();
+});
+
+const fleet = inventedFleet({ units: 2, samplesPerUnit: 6 });
+
+function withErrors(): string {
+  const lines = fleetCsv(fleet).trimEnd().split('\n');
+  const header = lines[0]!.split(',');
+  const fe = header.indexOf('Fe');
+  const when = header.indexOf('sampledAt');
+  const bad = (n: number, col: number, value: string) => {
+    const cells = lines[n]!.split(',');
+    cells[col] = value;
+    lines[n] = cells.join(',');
+  };
+  bad(3, fe, '-1');
+  bad(7, when, '2026-13-40T00:00:00Z');
+  return `${lines.join('\n')}\n`;
+}
+
+describe('wearshift import', () => {
+  it('--dry-run validates without Redis, reports each bad line with sampleId, field and reason, and exits 1', async () => {
+    const file = join(dir, 'bad.csv');
+    writeFileSync(file, withErrors());
+    // Nothing listens on this port: a dry run must not need Redis.
+    const r = await runCli(['import', file, '--dry-run'], { REDIS_URL: `redis://127.0.0.1:${await freePort()}` });
+    expect(r.code).toBe(1);
+    const lines = r.stderr.trim().split('\n');
+    expect(lines).toEqual([
+      `line 4 (sampleId ${fleet[2]!.sampleId}): readings.Fe: must not be negative (got -1)`,
+      `line 8 (sampleId ${fleet[6]!.sampleId}): sampledAt: sampledAt must be an ISO 8601 date-time with a time zone, such as 2026-03-01T08:00:00Z`,
+    ]);
+    expect(r.stdout).toBe(`${file}: 10 valid, 2 rejected of 12 records (dry run: nothing enqueued)\n`);
+  });
+
+  it('exits 0 on a clean file, and --json gives one line per rejected record and a summary', async () => {
+    const clean = join(dir, 'clean.jsonl');
+    writeFileSync(clean, fleet.map((e) => JSON.stringify(e)).join('\n'));
+    const ok = await runCli(['import', clean, '--dry-run', '--json']);
+    expect(ok.code).toBe(0);
+    expect(JSON.parse(ok.stdout)).toEqual({ type: 'summary', file: clean, records: 12, accepted: 12, rejected: 0, enqueued: 0, dryRun: true });
+
+    const bad = join(dir, 'bad-json.csv');
+    writeFileSync(bad, withErrors());
+    const r = await runCli(['import', bad, '--dry-run', '--json']);
+    const out = r.stdout.trim().split('\n').map((l) => JSON.parse(l) as Record<string, unknown>);
+    expect(out.map((o) => o.type)).toEqual(['rejected', 'rejected', 'summary']);
+    expect(out[0]).toEqual({ type: 'rejected', line: 4, sampleId: fleet[2]!.sampleId, errors: [{ path: 'readings.Fe', reason: 'must not be negative (got -1)' }] });
+  });
+
+  it('enqueues the valid lines on the results queue and still reports the bad ones', async () => {
+    const file = join(dir, 'to-queue.csv');
+    writeFileSync(file, withErrors());
+    const prefix = '{import}';
+    const config = join(dir, 'config.yaml');
+    writeFileSync(config, `redis:\n  prefix: "${prefix}"\n`);
+    const r = await runCli(['import', file, '--config', config], { REDIS_URL: server.url });
+    expect(r.code).toBe(1);
+    expect(r.stdout).toBe(`${file}: 10 enqueued, 2 rejected of 12 records\n`);
+    const queue = openQueue(QUEUE_NAMES.results, server.client(), resolveQueueSettings({ prefix }));
+    const jobs = await queue.getWaiting(0, 100);
+    expect(jobs.map((j) => (j.data as { sampleId: string }).sampleId).sort()).toEqual(fleet.filter((_, i) => i !== 2 && i !== 6).map((e) => e.sampleId).sort());
+    await queue.close();
+  });
+
+  it('says clearly when Redis cannot be reached', async () => {
+    const file = join(dir, 'clean2.jsonl');
+    writeFileSync(file, JSON.stringify(fleet[0]));
+    const r = await runCli(['import', file], { REDIS_URL: `redis://127.0.0.1:${await freePort()}` });
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/cannot reach Redis at redis:\/\/127\.0\.0\.1:\d+.*use --dry-run to validate without Redis/);
+  });
+});

@@ -1,0 +1,88 @@
+/** Reading result files (CSV, JSONL) into records, and the validation every intake path shares. */
+import { Readable } from 'node:stream';
+import { describe, expect, it } from 'vitest';
+import { csvRecords, formatOf, jsonlRecords, type SourceRecord } from '../../src/intake/fileRecords.ts';
+import { validateBatch, validateResult } from '../../src/intake/validate.ts';
+
+async function all(it: AsyncIterable<SourceRecord>): Promise<SourceRecord[]> {
+  const out: SourceRecord[] = [];
+  for await (const r of it) out.push(r);
+  return out;
+}
+
+const NOW = Date.parse('2026-03-02T00:00:00Z');
+
+describe('CSV records', () => {
+  it('maps event columns to fields and other columns to readings; an empty cell is no value', async () => {
+    const csv = [
+      'sampleId,revision,unit,component,sampledAt,oilHours,oilChanged,topUpLitres,Fe,Si,iso4406,readings.v100',
+      'LAB-1,0,PS2-P3,gearbox,2026-03-01T08:00:00Z,250,false,2.5,12,<1,18/16/13,13.9',
+      'LAB-2,,PS2-P3,gearbox,2026-03-01T09:00:00Z,,yes,,7,,,',
+    ].join('\n');
+    const [a, b] = await all(csvRecords(Readable.from([csv])));
+    expect(a).toEqual({
+      line: 2,
+      record: { sampleId: 'LAB-1', revision: 0, unit: 'PS2-P3', component: 'gearbox', sampledAt: '2026-03-01T08:00:00Z', oilHours: 250, oilChanged: false, topUpLitres: 2.5, readings: { Fe: 12, Si: '<1', iso4406: '18/16/13', v100: 13.9 } },
+    });
+    expect(b).toEqual({ line: 3, record: { sampleId: 'LAB-2', unit: 'PS2-P3', component: 'gearbox', sampledAt: '2026-03-01T09:00:00Z', oilChanged: true, readings: { Fe: 7 } } });
+    // The censored reading stays censored through validation: a bound, not a number.
+    const parsed = validateResult((a as { record: unknown }).record, { now: NOW });
+    expect(parsed.ok && parsed.sample.readings.Si).toEqual({ kind: 'censored', bound: 'below', limit: 1 });
+  });
+
+  it('reports a row with the wrong number of cells by its line and goes on', async () => {
+    const csv = 'sampleId,unit,component,sampledAt,Fe\nA,U,c,2026-03-01T08:00:00Z,1\nB,U,c\nC,U,c,2026-03-01T08:00:00Z,3\n';
+    const records = await all(csvRecords(Readable.from([csv])));
+    expect(records.map((r) => r.line)).toEqual([2, 3, 4]);
+    expect(records[1]).toEqual({ line: 3, issues: [{ path: '', reason: 'has 3 cells, the header has 5' }] });
+  });
+
+  it('counts lines of quoted cells that span lines, and stops with a clear reason at broken quoting', async () => {
+    const csv = 'sampleId,unit,component,sampledAt,lab,Fe\nA,U,c,2026-03-01T08:00:00Z,"North\nlab",1\nB,U,c,2026-03-01T08:00:00Z,"unclosed,2\n';
+    const records = await all(csvRecords(Readable.from([csv])));
+    expect(records[0]).toMatchObject({ line: 3, record: { lab: 'North\nlab' } });
+    expect(records[1]).toMatchObject({ issues: [{ reason: expect.stringMatching(/^CSV syntax error, reading stopped here/) }] });
+  });
+
+  it('refuses a header that names a column twice', async () => {
+    const records = await all(csvRecords(Readable.from(['sampleId,Fe,Fe\nA,1,2\n'])));
+    expect(records).toEqual([{ line: 1, issues: [{ path: '', reason: 'column "Fe" appears twice in the header; nothing was read' }] }]);
+  });
+});
+
+describe('JSONL records', () => {
+  it('skips blank lines and reports a line that is not JSON', async () => {
+    const records = await all(jsonlRecords(Readable.from(['{"sampleId":"A"}\n\n{oops\n{"sampleId":"B"}\n'])));
+    expect(records.map((r) => [r.line, 'record' in r ? (r.record as { sampleId: string }).sampleId : 'error'])).toEqual([
+      [1, 'A'],
+      [3, 'error'],
+      [4, 'B'],
+    ]);
+  });
+
+  it('tells the format by the file name', () => {
+    expect(formatOf('a/b.CSV')).toBe('csv');
+    expect(formatOf('x.ndjson')).toBe('jsonl');
+    expect(() => formatOf('x.txt')).toThrow(/--format/);
+  });
+});
+
+describe('validation', () => {
+  const event = { sampleId: 'L-1', unit: 'U', component: 'engine', sampledAt: '2026-03-01T08:00:00Z', readings: { Fe: 3 } };
+
+  it('rejects a sample drawn more than a day ahead of the clock, and accepts one just inside', () => {
+    const ahead = validateResult({ ...event, sampledAt: '2026-03-03T00:00:01Z' }, { now: NOW });
+    expect(ahead).toMatchObject({ ok: false, issues: [{ path: 'sampledAt', reason: expect.stringMatching(/^lies in the future/) }] });
+    expect(validateResult({ ...event, sampledAt: '2026-03-02T23:59:59Z' }, { now: NOW }).ok).toBe(true);
+  });
+
+  it('gives every record of a batch an outcome and echoes the sampleId of a rejected one', () => {
+    const { outcomes, accepted } = validateBatch([event, { ...event, sampleId: 'L-2', readings: { Zz: 1 } }, 42], { now: NOW });
+    expect(outcomes).toEqual([
+      { index: 0, sampleId: 'L-1', status: 'accepted' },
+      { index: 1, sampleId: 'L-2', status: 'rejected', errors: [{ path: 'readings.Zz', reason: 'unknown measurand (see the measurand catalogue in the README)' }] },
+      { index: 2, status: 'rejected', errors: [expect.objectContaining({ path: '' })] },
+    ]);
+    expect(accepted.map((a) => a.index)).toEqual([0]);
+  });
+});
