@@ -1,0 +1,158 @@
+/**
+ * `wearshift demo` as a user runs it: a child process with a private redis-server, the real SMTP and webhook
+ * receivers inside it. What it wrote out is checked from the outside: the webhook deliveries against the
+ * Standard Webhooks specification with the reference library (npm `standardwebhooks`), the e-mails by parsing
+ * the raw messages with mailparser.
+ */
+import { spawn } from 'node:child_process';
+import { mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { simpleParser } from 'mailparser';
+import { Webhook } from 'standardwebhooks';
+import { afterAll, describe, expect, it } from 'vitest';
+import type { DemoReport } from '../../src/demo/runDemo.ts';
+import { formatTimeline } from '../../src/demo/timeline.ts';
+import { redisServerAvailable } from '../../src/runtime/embeddedRedis.ts';
+import { startRedisServer } from '../helpers/redisServer.ts';
+
+interface Run {
+  code: number | null;
+  stdout: string;
+  stderr: string;
+}
+
+function wearshift(args: string[], env: NodeJS.ProcessEnv, timeoutMs: number): Promise<Run> {
+  return new Promise((resolve) => {
+    const child = spawn(process.execPath, ['bin/wearshift.js', ...args], { env, stdio: ['ignore', 'pipe', 'pipe'] });
+    let stdout = '';
+    let stderr = '';
+    child.stdout.on('data', (d: Buffer) => (stdout += d.toString()));
+    child.stderr.on('data', (d: Buffer) => (stderr += d.toString()));
+    const timer = setTimeout(() => child.kill('SIGKILL'), timeoutMs);
+    child.on('close', (code) => {
+      clearTimeout(timer);
+      resolve({ code, stdout, stderr });
+    });
+  });
+}
+
+const dirs: string[] = [];
+const tempDir = () => {
+  const d = mkdtempSync(join(tmpdir(), 'wearshift-demo-test-'));
+  dirs.push(d);
+  return d;
+};
+afterAll(() => {
+  for (const d of dirs) rmSync(d, { recursive: true, force: true });
+});
+
+const baseEnv = (): NodeJS.ProcessEnv => {
+  const env = { ...process.env, LOG_LEVEL: 'error' };
+  delete env.REDIS_URL;
+  return env;
+};
+
+describe.skipIf(!redisServerAvailable())('wearshift demo', () => {
+  const secret = `whsec_${Buffer.from('demo-test-secret-0123456789abcdef').toString('base64')}`;
+  const out = tempDir();
+  let run: Run;
+  let report: DemoReport;
+
+  it('runs the fleet end to end and exits 0 within two minutes', async () => {
+    const started = Date.now();
+    run = await wearshift(['demo', '--json', '--out', out, '--feed-seconds', '15'], { ...baseEnv(), DEMO_WEBHOOK_SECRET: secret }, 120_000);
+    expect(run.code, run.stderr).toBe(0);
+    expect(Date.now() - started).toBeLessThan(120_000);
+    report = JSON.parse(run.stdout.trim().split('\n').at(-1)!) as DemoReport;
+    expect(report.resultsAccepted).toBe(report.resultsSent);
+    expect(report.resultsRejected).toBe(0);
+  }, 130_000);
+
+  it('shows the PS2-P3 gearbox change caught before its fixed limit', () => {
+    const gearbox = report.timelines.find((t) => t.unit === 'PS2-P3' && t.component === 'gearbox')!;
+    expect(gearbox.fixedLimit?.rule).toBe('limit');
+    expect(gearbox.earliest!.sampledAt < gearbox.fixedLimit!.sampledAt).toBe(true);
+    // The fault is a wear-rate step: a change detector or the rate rule, not a level, should speak first.
+    expect(['cusum', 'ewma', 'rate', 'population']).toContain(gearbox.earliest!.rule);
+    expect(gearbox.samplesAhead).toBeGreaterThan(0);
+    expect(formatTimeline(gearbox)).toMatch(/^Fe (cusum|ewma|rate|population) .* → caught \d+ samples? \(\d+ days\) before the fixed limit$/);
+    // The healthy gearboxes never reach a fixed limit.
+    for (const t of report.timelines.filter((x) => x.component === 'gearbox' && x.unit !== 'PS2-P3')) expect(t.fixedLimit).toBeUndefined();
+  });
+
+  it('writes the received e-mails as raw messages that parse, with an acknowledgement link', async () => {
+    const files = readdirSync(out);
+    const emls = files.filter((f) => f.endsWith('.eml'));
+    expect(emls.length).toBeGreaterThan(0);
+    expect(emls.length).toBe(report.mails.length);
+    const parsed = await Promise.all(emls.map(async (f) => simpleParser(readFileSync(join(out, f), 'utf8'))));
+    for (const m of parsed) expect(m.headers.get('x-wearshift-incident')).toMatch(/^[A-Z0-9-]+\/[a-z]+@/);
+    const gearboxMail = parsed.find((m) => String(m.headers.get('x-wearshift-incident')).startsWith('PS2-P3/gearbox') && /\/ack\//.test(m.text ?? ''));
+    expect(gearboxMail, 'a PS2-P3 gearbox mail asking for acknowledgement').toBeDefined();
+  });
+
+  it('writes webhook deliveries whose Standard Webhooks signatures verify', () => {
+    const files = readdirSync(out).filter((f) => /^webhook-.*\.json$/.test(f));
+    expect(files.length).toBeGreaterThan(0);
+    const verifier = new Webhook(secret);
+    for (const f of files) {
+      const { headers, body } = JSON.parse(readFileSync(join(out, f), 'utf8')) as { headers: Record<string, string>; body: string };
+      const event = verifier.verify(body, headers) as { specversion: string; type: string };
+      expect(event.specversion).toBe('1.0');
+      expect(event.type).toMatch(/^wearshift\.incident\./);
+    }
+    // A tampered body must not verify: the check above is not vacuous.
+    const { headers, body } = JSON.parse(readFileSync(join(out, files[0]!), 'utf8')) as { headers: Record<string, string>; body: string };
+    expect(() => verifier.verify(body.replace('"specversion":"1.0"', '"specversion":"1.1"'), headers)).toThrow();
+  });
+
+  it('acknowledged the PS2-P3 gearbox incident and escalated the unanswered GEN-3 engine to tier 2', () => {
+    const events = readdirSync(out)
+      .filter((f) => /^webhook-.*\.json$/.test(f))
+      .map((f) => JSON.parse((JSON.parse(readFileSync(join(out, f), 'utf8')) as { body: string }).body) as { id: string; type: string; data: { incident: { id: string; unit: string; component: string; tier: number; state: string } } });
+    // Deliveries run concurrently; the incident's event sequence number (in the CloudEvent id) orders them.
+    const eventSeq = (e: { id: string }) => Number(e.id.split(':')[1]);
+    const gearbox = events.filter((e) => e.data.incident.unit === 'PS2-P3' && e.data.incident.component === 'gearbox').sort((a, b) => eventSeq(a) - eventSeq(b));
+    expect(gearbox.map((e) => e.type)).toContain('wearshift.incident.acknowledged');
+    const lastGearbox = gearbox.at(-1)!;
+    expect(lastGearbox.data.incident.state).toMatch(/\backnowledged/);
+    expect(lastGearbox.data.incident.state).not.toMatch(/unacknowledged/);
+    const engine = events.filter((e) => e.data.incident.unit === 'GEN-3' && e.data.incident.component === 'engine');
+    expect(engine.some((e) => e.type === 'wearshift.incident.escalated' && e.data.incident.tier === 2)).toBe(true);
+    expect(engine.map((e) => e.type)).not.toContain('wearshift.incident.acknowledged');
+    const incident = report.incidents.find((i) => i.unit === 'PS2-P3' && i.component === 'gearbox')!;
+    expect(incident.acknowledgedBy).toBeDefined();
+    expect(report.incidents.find((i) => i.unit === 'GEN-3')!.acknowledgedBy).toBeUndefined();
+  });
+
+  it('under REDIS_URL keeps to a key prefix of its own and leaves other keys alone', async () => {
+    const redis = await startRedisServer();
+    try {
+      const client = redis.client();
+      await client.set('someone-else:key', 'keep me');
+      const result = await wearshift(['demo', '--json', '--out', tempDir(), '--feed-seconds', '8'], { ...baseEnv(), REDIS_URL: redis.url }, 120_000);
+      expect(result.code, result.stderr).toBe(0);
+      const r = JSON.parse(result.stdout.trim().split('\n').at(-1)!) as DemoReport;
+      expect(r.redis).toBe('REDIS_URL');
+      expect(r.prefix).toMatch(/^\{wearshift-demo-[0-9a-f]+\}$/);
+      expect(await client.get('someone-else:key')).toBe('keep me');
+      expect(await client.keys('*')).toEqual(['someone-else:key']);
+    } finally {
+      await redis.dispose();
+    }
+  }, 130_000);
+});
+
+describe('wearshift demo without a redis-server', () => {
+  it('says in one line how to get one and exits 2', async () => {
+    const env = { ...baseEnv(), PATH: tempDir() };
+    const result = await wearshift(['demo', '--out', tempDir()], env, 60_000);
+    expect(result.code).toBe(2);
+    const lines = result.stderr.trim().split('\n');
+    expect(lines).toHaveLength(1);
+    expect(lines[0]).toMatch(/apt-get install redis-server/);
+    expect(lines[0]).toMatch(/docker compose up redis/);
+    expect(lines[0]).toMatch(/REDIS_URL/);
+  }, 70_000);
+});
