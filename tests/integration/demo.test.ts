@@ -48,7 +48,7 @@ afterAll(() => {
 });
 
 const baseEnv = (): NodeJS.ProcessEnv => {
-  const env = { ...process.env, LOG_LEVEL: 'error' };
+  const env: NodeJS.ProcessEnv = { ...process.env, LOG_LEVEL: 'error' };
   delete env.REDIS_URL;
   return env;
 };
