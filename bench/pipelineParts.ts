@@ -1,0 +1,409 @@
+/**
+ * The queue benchmarks, each on a private redis-server of its own (started here, flushed between phases, removed at
+ * the end) with worker processes started as an operator starts them: `node bin/wearshift.js worker` with REDIS_URL
+ * and a configuration file. Results enter through the result producer (src/intake/producer.ts), the integrators' way
+ * in: validated, then enqueued on the `results` queue.
+ *
+ * - throughput: results per second from the first enqueue until every result is stored, its component evaluated and
+ *   the findings fed to the incident store (results and evaluate queues drained, every component's last sample
+ *   fed), beside a bare BullMQ worker that does nothing with the same events, for one and two worker processes;
+ * - latency: at a steady 200 results/s onto components with history, from enqueue to the evaluation that covered the
+ *   result (the evaluate job's completion event) and to the incident's notification job on the `notify` queue;
+ * - backfill: 100 000 old results (quiet: nobody is paged) over 1 000 components: wall time, the worker's peak
+ *   resident memory, Redis memory per component.
+ */
+import { Queue, QueueEvents, type Job } from 'bullmq';
+import type { Redis } from 'ioredis';
+import type { ResultEvent } from '../src/domain/event.ts';
+import type { NotifyEffect } from '../src/incidents/model.ts';
+import { createResultProducer, type ResultProducer } from '../src/intake/producer.ts';
+import { defaultJobOptions, openQueue, QUEUE_NAMES, resolveQueueSettings } from '../src/queue/queues.ts';
+import { WORKER_DEFAULTS } from '../src/queue/workers.ts';
+import { RedisStorage } from '../src/storage/redisStorage.ts';
+import { startRedisServer, type RedisServer } from '../tests/helpers/redisServer.ts';
+import {
+  drainedAt,
+  labFeed,
+  pipelineMissing,
+  sleep,
+  startBareWorker,
+  startReceiver,
+  startWorkerProcess,
+  workersListening,
+  writeConfig,
+  type ChildWorker,
+  type Receiver,
+} from './pipeline.ts';
+import { skipped, type PartResult } from './report.ts';
+import type { RunOptions } from './runner.ts';
+import { fmt, percentile, round } from './stats.ts';
+
+const PREFIX = '{bench}';
+const DAY_MS = 86_400_000;
+/** Far enough back that no sample is backfill: every finding may page someone. */
+const NEVER_QUIET_DAYS = 100_000;
+
+const size = (scale: number, n: number, least: number) => Math.max(least, Math.round(n * scale));
+
+interface Line {
+  readonly server: RedisServer;
+  readonly receiver: Receiver;
+}
+
+async function withLine<T>(fn: (line: Line) => Promise<T>): Promise<T> {
+  const server = await startRedisServer();
+  const receiver = await startReceiver();
+  try {
+    return await fn({ server, receiver });
+  } finally {
+    await receiver.close();
+    await server.dispose();
+  }
+}
+
+interface Session {
+  readonly client: Redis;
+  readonly queues: { readonly results: Queue; readonly evaluate: Queue; readonly notify: Queue };
+  readonly workers: readonly ChildWorker[];
+  readonly producer: ResultProducer;
+  close(): Promise<void>;
+}
+
+/** A clean Redis and `processes` worker processes, listening on the queues. */
+async function openSession(line: Line, processes: number, quietAfterDays: number): Promise<Session> {
+  const client = line.server.client();
+  await client.flushall();
+  const configFile = writeConfig(line.server.dir, { prefix: PREFIX, webhookUrl: line.receiver.url, quietAfterDays });
+  const settings = resolveQueueSettings({ prefix: PREFIX });
+  const queues = {
+    results: openQueue(QUEUE_NAMES.results, client, settings),
+    evaluate: openQueue(QUEUE_NAMES.evaluate, client, settings),
+    notify: openQueue(QUEUE_NAMES.notify, client, settings),
+  };
+  const workers = Array.from({ length: processes }, () => startWorkerProcess(line.server.url, configFile));
+  const producer = createResultProducer({ connection: client, prefix: PREFIX });
+  const close = async () => {
+    await producer.close();
+    await Promise.all(workers.map((w) => w.stop()));
+    await Promise.all(Object.values(queues).map((q) => q.close()));
+  };
+  try {
+    await workersListening([queues.results, queues.evaluate], processes, workers);
+  } catch (e) {
+    await close();
+    throw e;
+  }
+  return { client, queues, workers, producer, close };
+}
+
+async function send(producer: ResultProducer, events: readonly ResultEvent[], batch: number): Promise<void> {
+  for (let i = 0; i < events.length; i += batch) {
+    const outcomes = await producer.add(events.slice(i, i + batch));
+    const rejected = outcomes.find((r) => r.status !== 'accepted');
+    if (rejected !== undefined) throw new Error(`the producer rejected ${rejected.sampleId}: ${JSON.stringify(rejected.errors)}`);
+  }
+}
+
+/** Components whose last result has not reached the incident engine (must be none once the queues are drained). */
+async function lagging(client: Redis, events: readonly ResultEvent[]): Promise<number> {
+  const last = new Map<string, ResultEvent>();
+  for (const e of events) last.set(`${e.unit}/${e.component}`, e);
+  const storage = new RedisStorage(client, { prefix: PREFIX });
+  let behind = 0;
+  for (const e of last.values()) if ((await storage.lastFed(e))?.sampleId !== e.sampleId) behind++;
+  return behind;
+}
+
+async function notifyJobs(queue: Queue): Promise<Job<NotifyEffect>[]> {
+  return (await queue.getJobs(['waiting', 'active', 'delayed', 'completed', 'failed'], 0, -1)) as Job<NotifyEffect>[];
+}
+
+interface PhaseFigures {
+  readonly perSec: number;
+  readonly intakePerSec: number;
+  readonly seconds: number;
+  readonly notifications: number;
+  readonly lagging: number;
+}
+
+async function pipelinePhase(line: Line, events: readonly ResultEvent[], processes: number, log: RunOptions['log']): Promise<PhaseFigures> {
+  const s = await openSession(line, processes, NEVER_QUIET_DAYS);
+  try {
+    const t0 = performance.now();
+    await send(s.producer, events, 100);
+    const intake = performance.now();
+    const end = await drainedAt([s.queues.results, s.queues.evaluate]);
+    const seconds = (end - t0) / 1000;
+    const figures = {
+      perSec: events.length / seconds,
+      intakePerSec: events.length / ((intake - t0) / 1000),
+      seconds,
+      notifications: (await notifyJobs(s.queues.notify)).length,
+      lagging: await lagging(s.client, events),
+    };
+    log(`throughput: ${processes} worker process(es): ${fmt(figures.perSec)} results/s over ${fmt(seconds)} s`);
+    return figures;
+  } finally {
+    await s.close();
+  }
+}
+
+async function barePhase(line: Line, events: readonly ResultEvent[], log: RunOptions['log']): Promise<{ perSec: number; seconds: number }> {
+  const client = line.server.client();
+  await client.flushall();
+  const settings = resolveQueueSettings({ prefix: PREFIX });
+  const queue = new Queue('bare', { connection: client, prefix: PREFIX, defaultJobOptions: defaultJobOptions(settings) });
+  const worker = startBareWorker(line.server.url, PREFIX, 'bare', WORKER_DEFAULTS.resultsConcurrency);
+  try {
+    await workersListening([queue], 1, [worker]);
+    const t0 = performance.now();
+    for (let i = 0; i < events.length; i += 100) await queue.addBulk(events.slice(i, i + 100).map((data) => ({ name: 'result', data })));
+    const seconds = ((await drainedAt([queue])) - t0) / 1000;
+    log(`throughput: bare BullMQ worker: ${fmt(events.length / seconds)} jobs/s`);
+    return { perSec: events.length / seconds, seconds };
+  } finally {
+    await worker.stop();
+    await queue.close();
+  }
+}
+
+/** Bare worker and pipeline must reach at least this share of the bare worker's rate. */
+const THROUGHPUT_RATIO_TARGET = 0.5;
+
+export async function runThroughput(o: RunOptions): Promise<PartResult> {
+  const missing = pipelineMissing();
+  if (missing !== undefined) return skipped('throughput', missing);
+  const components = size(o.scale, 200, 10);
+  const perComponent = 25;
+  return withLine(async (line) => {
+    const events = labFeed({ components, samplesPerComponent: perComponent, faultyShare: 0.1, endsBeforeNowMs: 2 * DAY_MS, now: Date.now(), seed: o.seed, unitPrefix: 'TP' });
+    const bare = await barePhase(line, events, o.log);
+    const one = await pipelinePhase(line, events, 1, o.log);
+    const two = await pipelinePhase(line, events, 2, o.log);
+    const ratio = one.perSec / bare.perSec;
+    const met = ratio >= THROUGHPUT_RATIO_TARGET;
+    const lag = one.lagging + two.lagging;
+    return {
+      name: 'throughput',
+      json: {
+        workerPerSec: round(one.perSec),
+        barePerSec: round(bare.perSec),
+        ratio: round(ratio),
+        twoWorkersPerSec: round(two.perSec),
+        twoWorkersRatio: round(two.perSec / bare.perSec),
+        intakePerSec: round(one.intakePerSec),
+        results: events.length,
+        components,
+        notificationsQueued: one.notifications,
+        componentsNotFullyEvaluated: lag,
+        target: { ratioAtLeast: THROUGHPUT_RATIO_TARGET, met },
+      },
+      table: {
+        columns: ['run', 'results/s', 'vs bare', 'seconds', 'notifications'],
+        rows: [
+          ['bare BullMQ no-op worker', fmt(bare.perSec), '1', fmt(bare.seconds), '–'],
+          ['1 worker process', fmt(one.perSec), fmt(ratio), fmt(one.seconds), String(one.notifications)],
+          ['2 worker processes', fmt(two.perSec), fmt(two.perSec / bare.perSec), fmt(two.seconds), String(two.notifications)],
+        ],
+      },
+      notes: [
+        `${events.length} results (${components} components × ${perComponent}, interleaved by sampling time, 10 % with a tripling iron wear rate), enqueued by the result producer in batches of 100 as fast as it goes;`,
+        `  end to end: stored, evaluated, findings fed to the incident store (results and evaluate queues drained; every component's last sample fed: ${lag === 0 ? 'yes' : `NO, ${lag} behind`})`,
+        `bare: one BullMQ worker process, concurrency ${WORKER_DEFAULTS.resultsConcurrency} (as the results worker), no-op processor, the same events added with addBulk (no validation)`,
+        `intake alone (validation + enqueue, 1 worker running): ${fmt(one.intakePerSec)} results/s`,
+        `target: 1 worker process ≥ ${THROUGHPUT_RATIO_TARGET} × bare: ${met ? 'MET' : 'MISSED'} (${fmt(ratio)})`,
+      ],
+    };
+  });
+}
+
+export async function runLatency(o: RunOptions): Promise<PartResult> {
+  const missing = pipelineMissing();
+  if (missing !== undefined) return skipped('latency', missing);
+  const rate = 200;
+  const seconds = Math.max(5, 30 * o.scale);
+  const components = size(o.scale, 300, 20);
+  const history = 16;
+  const streamed = Math.round(rate * seconds);
+  const perComponent = history + Math.ceil(streamed / components);
+  return withLine(async (line) => {
+    const feed = labFeed({ components, samplesPerComponent: perComponent, faultyShare: 0.2, endsBeforeNowMs: 3_600_000, now: Date.now(), seed: o.seed + 1, unitPrefix: 'LT' });
+    const seen = new Map<string, number>();
+    const preload: ResultEvent[] = [];
+    const stream: ResultEvent[] = [];
+    for (const e of feed) {
+      const n = seen.get(e.unit) ?? 0;
+      seen.set(e.unit, n + 1);
+      (n < history ? preload : stream).push(e);
+    }
+    stream.splice(streamed);
+    const s = await openSession(line, 1, NEVER_QUIET_DAYS);
+    const events = new QueueEvents(QUEUE_NAMES.evaluate, { connection: line.server.client(), prefix: PREFIX });
+    try {
+      await send(s.producer, preload, 500);
+      await drainedAt([s.queues.results, s.queues.evaluate]);
+      await drainedAt([s.queues.notify], { delayedToo: false });
+      o.log(`latency: ${preload.length} results of history loaded; streaming ${stream.length} at ${rate}/s`);
+
+      const evaluatedAt = new Map<string, number>();
+      events.on('completed', ({ returnvalue }) => {
+        const at = Date.now();
+        const value = (typeof returnvalue === 'string' ? JSON.parse(returnvalue) : returnvalue) as { fed?: string[] } | null;
+        for (const id of value?.fed ?? []) if (!evaluatedAt.has(id)) evaluatedAt.set(id, at);
+      });
+      await events.waitUntilReady();
+      const enqueuedAt = new Map<string, number>();
+      const start = Date.now();
+      let sent = 0;
+      while (sent < stream.length) {
+        const due = Math.min(stream.length, Math.floor(((Date.now() - start) / 1000) * rate));
+        if (due > sent) {
+          const batch = stream.slice(sent, due);
+          const at = Date.now();
+          for (const e of batch) enqueuedAt.set(e.sampleId, at);
+          await send(s.producer, batch, batch.length);
+          sent = due;
+        }
+        await sleep(5);
+      }
+      const sentRate = stream.length / ((Date.now() - start) / 1000);
+      await drainedAt([s.queues.results, s.queues.evaluate]);
+      await drainedAt([s.queues.notify], { delayedToo: false });
+      await sleep(500);
+
+      const toEvaluation = stream.map((e) => (evaluatedAt.get(e.sampleId) ?? NaN) - enqueuedAt.get(e.sampleId)!);
+      const unmatched = toEvaluation.filter(Number.isNaN).length;
+      const evaluation = toEvaluation.filter((x) => !Number.isNaN(x));
+      const byType = new Map<string, number>();
+      const toNotification: number[] = [];
+      for (const job of await notifyJobs(s.queues.notify)) {
+        const queuedFor = enqueuedAt.get(job.data.incident.lastSampleId);
+        if (queuedFor === undefined) continue;
+        toNotification.push(job.timestamp - queuedFor);
+        byType.set(job.data.type, (byType.get(job.data.type) ?? 0) + 1);
+      }
+      const p = (xs: number[], q: number) => (xs.length === 0 ? NaN : percentile(xs, q));
+      const figures = {
+        notification: { p50: p(toNotification, 0.5), p99: p(toNotification, 0.99), count: toNotification.length },
+        evaluation: { p50: p(evaluation, 0.5), p99: p(evaluation, 0.99), count: evaluation.length },
+      };
+      return {
+        name: 'latency',
+        json: {
+          endpoint: 'notification queued (notify job created), and evaluation completed',
+          rate,
+          achievedRate: round(sentRate),
+          notificationP50Ms: round(figures.notification.p50),
+          notificationP99Ms: round(figures.notification.p99),
+          notifications: figures.notification.count,
+          notificationTypes: Object.fromEntries(byType),
+          evaluationP50Ms: round(figures.evaluation.p50),
+          evaluationP99Ms: round(figures.evaluation.p99),
+          evaluated: figures.evaluation.count,
+          unmatched,
+          streamed: stream.length,
+          historyLoaded: preload.length,
+          components,
+        },
+        table: {
+          columns: ['from enqueue to', 'p50 ms', 'p99 ms', 'results'],
+          rows: [
+            ['notification queued', fmt(figures.notification.p50), fmt(figures.notification.p99), String(figures.notification.count)],
+            ['evaluation completed', fmt(figures.evaluation.p50), fmt(figures.evaluation.p99), String(figures.evaluation.count)],
+          ],
+        },
+        notes: [
+          `steady ${rate} results/s (achieved ${fmt(sentRate)}) for ${fmt(seconds)} s onto ${components} components that already hold ${history} results each; one worker process`,
+          `notification queued: the notify job of an incident opened or updated by the result (its creation time); ${[...byType].map(([t, n]) => `${t.replace('wearshift.incident.', '')} ${n}`).join(', ') || 'none'}`,
+          `evaluation completed: the evaluate job that fed the result to the incident engine, as its completion event reaches the producer's process` +
+            (unmatched > 0 ? `; ${unmatched} results matched no completion event` : ''),
+        ],
+      };
+    } finally {
+      await events.close();
+      await s.close();
+    }
+  });
+}
+
+export async function runBackfill(o: RunOptions): Promise<PartResult> {
+  const missing = pipelineMissing();
+  if (missing !== undefined) return skipped('backfill', missing);
+  const components = size(o.scale, 1000, 10);
+  const perComponent = 100;
+  return withLine(async (line) => {
+    const events = labFeed({ components, samplesPerComponent: perComponent, faultyShare: 0.05, endsBeforeNowMs: 90 * DAY_MS, now: Date.now(), seed: o.seed + 2, unitPrefix: 'BF' });
+    // The default backfill setting: findings on samples older than 30 days are recorded but page nobody.
+    const s = await openSession(line, 1, 30);
+    try {
+      const before = await usedMemory(s.client);
+      const t0 = performance.now();
+      await send(s.producer, events, 1000);
+      const intake = performance.now();
+      o.log(`backfill: ${events.length} results enqueued in ${fmt((intake - t0) / 1000)} s`);
+      const end = await drainedAt([s.queues.results, s.queues.evaluate], { pollMs: 200 });
+      const seconds = (end - t0) / 1000;
+      const peakRssKb = s.workers[0]!.peakRssKb();
+      const after = await usedMemory(s.client);
+      const keys = await memoryByKind(s.client);
+      const behind = await lagging(s.client, events);
+      const notifications = (await notifyJobs(s.queues.notify)).length;
+      const perComponentBytes = (after - before) / components;
+      return {
+        name: 'backfill',
+        json: {
+          results: events.length,
+          components,
+          wallSeconds: round(seconds),
+          resultsPerSec: round(events.length / seconds),
+          intakeSeconds: round((intake - t0) / 1000),
+          workerPeakRssMb: round(peakRssKb / 1024),
+          redisUsedMemoryDeltaMb: round((after - before) / 2 ** 20),
+          redisBytesPerComponent: round(perComponentBytes),
+          redisBytesByKind: keys,
+          notificationsQueued: notifications,
+          componentsNotFullyEvaluated: behind,
+        },
+        table: {
+          columns: ['results', 'components', 'wall s', 'results/s', 'worker peak RSS MB', 'Redis KB / component'],
+          rows: [[String(events.length), String(components), fmt(seconds), fmt(events.length / seconds), fmt(peakRssKb / 1024), fmt(perComponentBytes / 1024)]],
+        },
+        notes: [
+          `${perComponent} results per component over ${fmt((perComponent * 250) / 8760)} years of operation, all older than 90 days (quiet: ${notifications} notifications), enqueued in batches of 1000 while one worker process runs`,
+          `wall time: first enqueue to results and evaluate queues drained; every component's last sample fed: ${behind === 0 ? 'yes' : `NO, ${behind} behind`}`,
+          `worker peak RSS: VmHWM of the worker process; Redis: INFO used_memory after − before, per component`,
+          `Redis by key kind (MEMORY USAGE, KB per component): ${Object.entries(keys)
+            .map(([k, b]) => `${k} ${fmt(b / 1024 / components)}`)
+            .join(', ')}`,
+        ],
+      };
+    } finally {
+      await s.close();
+    }
+  });
+}
+
+async function usedMemory(client: Redis): Promise<number> {
+  const info = await client.info('memory');
+  return Number(/used_memory:(\d+)/.exec(info)?.[1] ?? NaN);
+}
+
+/** Bytes held per kind of key: the stored state by its key family, BullMQ's keys by queue. */
+async function memoryByKind(client: Redis): Promise<Record<string, number>> {
+  const totals: Record<string, number> = {};
+  let cursor = '0';
+  do {
+    const [next, keys] = await client.scan(cursor, 'MATCH', `${PREFIX}:*`, 'COUNT', 1000);
+    cursor = next;
+    const pipeline = client.pipeline();
+    for (const key of keys) pipeline.memory('USAGE', key);
+    const sizes = (await pipeline.exec()) ?? [];
+    keys.forEach((key, i) => {
+      const parts = key.slice(PREFIX.length + 1).split(':');
+      const queue = (Object.values(QUEUE_NAMES) as string[]).includes(parts[0]!);
+      const kind = queue ? `queue ${parts[0]}` : parts.slice(0, parts[0] === 'store' || parts[0] === 'eval' ? 2 : 1).join(':');
+      totals[kind] = (totals[kind] ?? 0) + Number(sizes[i]?.[1] ?? 0);
+    });
+  } while (cursor !== '0');
+  return totals;
+}
