@@ -3,7 +3,8 @@
  * target. The scale comes from the standard's table, whose bounds are rounded (0.64 → 1.3, 640 → 1300), so a
  * power-of-two formula would put counts near those bounds in the wrong code.
  */
-import type { Iso4406Code } from '../domain/reading.ts';
+import type { Sample } from '../domain/event.ts';
+import { parseReading, type Iso4406Code } from '../domain/reading.ts';
 
 /**
  * Upper bound ("up to and including") of each scale number, index = scale number; each range starts
@@ -37,4 +38,19 @@ export function codeStepsWorse(actual: Iso4406Code, target: Iso4406Code): number
   const steps = [actual.p6 - target.p6, actual.p14 - target.p14];
   if (actual.p4 !== null && target.p4 !== null) steps.push(actual.p4 - target.p4);
   return Math.max(...steps);
+}
+
+/** The code a cleanliness judgement uses: the lab's ISO 4406 code, else the code of the particle counts. */
+export function sampleIso4406Code(sample: Sample): { code: Iso4406Code; fromCounts: boolean } | undefined {
+  const { iso4406, p4, p6, p14 } = sample.readings;
+  if (iso4406?.kind === 'code') return { code: iso4406.code, fromCounts: false };
+  if (p6?.kind !== 'value' || p14?.kind !== 'value') return undefined;
+  return { code: iso4406FromCounts(p4?.kind === 'value' ? p4.value : undefined, p6.value, p14.value), fromCounts: true };
+}
+
+/** A configured target code ("17/15/12"); the configuration schema has already checked its form. */
+export function targetIso4406Code(target: string | undefined): Iso4406Code | undefined {
+  if (target === undefined) return undefined;
+  const parsed = parseReading(target, 'iso4406');
+  return parsed.ok && parsed.reading.kind === 'code' ? parsed.reading.code : undefined;
 }

@@ -5,13 +5,12 @@
  * and the settings and group statistics it ran with, so the chart shows exactly what the worker judged.
  */
 import type { Levels } from '../domain/config.ts';
-import type { Sample } from '../domain/event.ts';
 import type { Finding, RuleFamily, Severity } from '../domain/finding.ts';
 import { MEASURAND_NAMES, MEASURANDS, type Measurand } from '../domain/measurands.ts';
-import { formatReading, parseReading, type Iso4406Code } from '../domain/reading.ts';
+import { formatReading, type Iso4406Code } from '../domain/reading.ts';
 import type { ComponentSettings } from '../domain/settings.ts';
 import { wearIntervals } from '../analysis/intervals.ts';
-import { iso4406FromCounts } from '../analysis/iso4406.ts';
+import { sampleIso4406Code, targetIso4406Code } from '../analysis/iso4406.ts';
 import type { Charge, Evaluation, GroupStats, Interval } from '../analysis/model.ts';
 import { populationMeasurands } from '../analysis/populationStats.ts';
 import { populationLimitStatus, type PopulationLimitStatus } from '../analysis/rules/population.ts';
@@ -208,9 +207,9 @@ function measurandSeries(input: RuleInput, m: Measurand, findings: readonly Find
   const cleanliness: CleanlinessSeries | null =
     m === 'iso4406'
       ? {
-          target: targetCode(settings.cleanlinessTarget),
+          target: targetIso4406Code(settings.cleanlinessTarget) ?? null,
           points: history.samples.flatMap((s) => {
-            const code = sampleCode(s);
+            const code = sampleIso4406Code(s);
             return code === undefined
               ? []
               : [{ sampleId: s.sampleId, sampledAt: s.sampledAt, oilHours: s.oilHours ?? null, ...code, text: formatReading({ kind: 'code', code: code.code }) }];
@@ -243,19 +242,6 @@ function measurandSeries(input: RuleInput, m: Measurand, findings: readonly Find
   };
 }
 
-/** The lab's code, else the code of the particle counts, as the cleanliness rule judges it. */
-function sampleCode(s: Sample): { code: Iso4406Code; fromCounts: boolean } | undefined {
-  const { iso4406, p4, p6, p14 } = s.readings;
-  if (iso4406?.kind === 'code') return { code: iso4406.code, fromCounts: false };
-  if (p6?.kind !== 'value' || p14?.kind !== 'value') return undefined;
-  return { code: iso4406FromCounts(p4?.kind === 'value' ? p4.value : undefined, p6.value, p14.value), fromCounts: true };
-}
-
-function targetCode(target: string | undefined): Iso4406Code | null {
-  const parsed = target === undefined ? undefined : parseReading(target, 'iso4406');
-  return parsed?.ok && parsed.reading.kind === 'code' ? parsed.reading.code : null;
-}
-
 function panelOf(rule: RuleFamily): MarkPanel {
   switch (rule) {
     case 'rate':
@@ -277,7 +263,7 @@ function plottedMeasurands(evaluation: Evaluation, settings: ComponentSettings):
       if (s.readings[m] !== undefined) present.add(m);
     }
   }
-  if (evaluation.history.samples.some((s) => sampleCode(s) !== undefined)) present.add('iso4406');
+  if (evaluation.history.samples.some((s) => sampleIso4406Code(s) !== undefined)) present.add('iso4406');
   const first = settings.detection.measurands.filter((m) => present.has(m));
   return [...first, ...MEASURAND_NAMES.filter((m) => present.has(m) && !first.includes(m))];
 }

@@ -6,13 +6,10 @@
  * tests/unit/chart-series.test.ts checks that these traces cross their limits exactly where the rule raised findings.
  */
 import type { Measurand } from '../domain/measurands.ts';
-import { rateBaseline } from '../analysis/baseline.ts';
 import { detectionLimits } from '../analysis/budget.ts';
 import { cusumChart } from '../analysis/cusum.ts';
 import { ewmaChart } from '../analysis/ewma.ts';
-import { innovations, type Innovation } from '../analysis/innovations.ts';
-import type { Interval, RateBaseline } from '../analysis/model.ts';
-import { ownBaseline } from '../analysis/ownBaseline.ts';
+import { lifeInnovations } from '../analysis/rules/change.ts';
 import type { RuleInput } from '../analysis/rules/ruleInput.ts';
 
 export interface DetectorPointBase {
@@ -52,9 +49,6 @@ export interface EwmaTrace {
   readonly points: readonly EwmaPoint[];
 }
 
-/** Same rule as the change family: a group baseline counts once it pools at least two components. */
-const MIN_GROUP_COMPONENTS = 2;
-
 export function detectorTraces(input: RuleInput, measurand: Measurand): { cusum: CusumTrace | null; ewma: EwmaTrace | null } {
   const { detection } = input.settings;
   if (!detection.cusum.enabled && !detection.ewma.enabled) return { cusum: null, ewma: null };
@@ -62,7 +56,7 @@ export function detectorTraces(input: RuleInput, measurand: Measurand): { cusum:
   const intervals = input.intervals(measurand);
   const cusum: CusumPoint[] = [];
   const ewma: EwmaPoint[] = [];
-  lifeInnovations(input, measurand, intervals).forEach((errors, life) => {
+  lifeInnovations(input, measurand).forEach(({ errors }, life) => {
     const base = errors.map((e) => ({ sampleId: intervals[e.interval]!.to.sampleId, sampledAt: intervals[e.interval]!.to.sampledAt, life, z: e.z }));
     const zs = errors.map((e) => e.z);
     if (detection.cusum.enabled) {
@@ -79,20 +73,4 @@ export function detectorTraces(input: RuleInput, measurand: Measurand): { cusum:
     cusum: detection.cusum.enabled ? { k: detection.cusum.k, h: limits.cusumH, sided: detection.sided, points: cusum } : null,
     ewma: detection.ewma.enabled ? { lambda: detection.ewma.lambda, L: limits.ewmaL, sided: detection.sided, points: ewma } : null,
   };
-}
-
-/** The prediction errors of each life of the component, in the order of its lives. */
-function lifeInnovations(input: RuleInput, measurand: Measurand, intervals: readonly Interval[]): Innovation[][] {
-  const { detection } = input.settings;
-  const pooled = input.group?.baselines[measurand];
-  const groupBaseline = pooled !== undefined && pooled.components >= MIN_GROUP_COMPONENTS ? pooled : undefined;
-  const starts = intervals.flatMap((iv, i) => (i === 0 || iv.to.componentChanged ? [i] : []));
-  return starts.map((start, n) => {
-    const end = starts[n + 1] ?? intervals.length;
-    const own = ownBaseline(intervals.slice(0, end), detection, start);
-    const ownRate = own && rateBaseline(own.sums, 1, detection.budget.sampleIntervalHours);
-    const baselineAt = (index: number): RateBaseline | undefined =>
-      index < start || index >= end ? undefined : own && ownRate && index > own.completedAt ? ownRate : groupBaseline;
-    return innovations(intervals, detection.labNoise, baselineAt);
-  });
 }

@@ -14,7 +14,7 @@ import { cusumChart } from '../cusum.ts';
 import { ewmaChart } from '../ewma.ts';
 import { innovations, type Innovation } from '../innovations.ts';
 import type { BaselineSums, GroupStats, Interval, RateBaseline } from '../model.ts';
-import { ownBaseline } from '../ownBaseline.ts';
+import { ownBaseline, type OwnBaseline } from '../ownBaseline.ts';
 import type { RuleInput } from './ruleInput.ts';
 
 export interface ChangeDetection {
@@ -34,32 +34,44 @@ export function changeFindings(input: RuleInput): ChangeDetection {
   const limits = detectionLimits(detection);
   for (const measurand of detection.measurands) {
     const intervals = input.intervals(measurand);
-    const groupBaseline = trustedGroupBaseline(input.group, measurand);
-    for (const life of lives(intervals)) {
-      const own = ownBaseline(intervals.slice(0, life.end), detection, life.start);
-      const ownRate = own && rateBaseline(own.sums, 1, detection.budget.sampleIntervalHours);
-      if (own && life.end === intervals.length) baselines[measurand] = own.sums;
-      const baselineAt = (index: number): RateBaseline | undefined =>
-        index < life.start || index >= life.end ? undefined : own && ownRate && index > own.completedAt ? ownRate : groupBaseline;
-      const errors = innovations(intervals, detection.labNoise, baselineAt);
-      findings.push(...detectorFindings(input, measurand, intervals, errors, limits, own !== undefined ? own.completedAt : Infinity));
+    for (const life of lifeInnovations(input, measurand)) {
+      if (life.own && life.current) baselines[measurand] = life.own.sums;
+      findings.push(...detectorFindings(input, measurand, intervals, life.errors, limits, life.own?.completedAt ?? Infinity));
     }
   }
   return { findings, baselines };
 }
 
+export interface LifeInnovations {
+  readonly errors: Innovation[];
+  /** The life's own baseline, once complete. */
+  readonly own?: OwnBaseline;
+  /** True for the component's current life (since its last replacement). */
+  readonly current: boolean;
+}
+
+/**
+ * The prediction errors of each life of the component (between replacements), each judged against its own
+ * baseline once complete, else the group's. The detectors and the trend charts both start from these.
+ */
+export function lifeInnovations(input: RuleInput, measurand: Measurand): LifeInnovations[] {
+  const { detection } = input.settings;
+  const intervals = input.intervals(measurand);
+  const groupBaseline = trustedGroupBaseline(input.group, measurand);
+  const starts = intervals.flatMap((iv, i) => (i === 0 || iv.to.componentChanged ? [i] : []));
+  return starts.map((start, n) => {
+    const end = starts[n + 1] ?? intervals.length;
+    const own = ownBaseline(intervals.slice(0, end), detection, start);
+    const ownRate = own && rateBaseline(own.sums, 1, detection.budget.sampleIntervalHours);
+    const baselineAt = (index: number): RateBaseline | undefined =>
+      index < start || index >= end ? undefined : own && ownRate && index > own.completedAt ? ownRate : groupBaseline;
+    return { errors: innovations(intervals, detection.labNoise, baselineAt), current: end === intervals.length, ...(own && { own }) };
+  });
+}
+
 function trustedGroupBaseline(group: GroupStats | undefined, m: Measurand): RateBaseline | undefined {
   const b = group?.baselines[m];
   return b !== undefined && b.components >= MIN_GROUP_COMPONENTS ? b : undefined;
-}
-
-/** Stretches of intervals between component replacements; each life learns its own baseline. */
-function lives(intervals: readonly Interval[]): { start: number; end: number }[] {
-  const starts = [0];
-  intervals.forEach((iv, i) => {
-    if (i > 0 && iv.to.componentChanged) starts.push(i);
-  });
-  return starts.map((start, n) => ({ start, end: starts[n + 1] ?? intervals.length }));
 }
 
 function detectorFindings(

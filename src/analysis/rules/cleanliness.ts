@@ -4,18 +4,17 @@
  * caution and two or more an alarm (common practice). The code is the lab's `iso4406` result, else it is
  * worked out from the particle counts per mL (p4 optional, p6 and p14 needed; censored counts give no code).
  */
-import type { Sample } from '../../domain/event.ts';
 import type { Finding } from '../../domain/finding.ts';
-import { formatReading, parseReading, type Iso4406Code } from '../../domain/reading.ts';
-import { codeStepsWorse, iso4406FromCounts } from '../iso4406.ts';
+import { formatReading, type Iso4406Code } from '../../domain/reading.ts';
+import { codeStepsWorse, sampleIso4406Code, targetIso4406Code } from '../iso4406.ts';
 import { findingAt, type RuleInput } from './ruleInput.ts';
 
 export function cleanlinessFindings(input: RuleInput): Finding[] {
-  const target = targetCode(input.settings.cleanlinessTarget);
+  const target = targetIso4406Code(input.settings.cleanlinessTarget);
   if (target === undefined) return [];
   const findings: Finding[] = [];
   for (const sample of input.history.samples) {
-    const code = sampleCode(sample);
+    const code = sampleIso4406Code(sample);
     if (code === undefined) continue;
     const steps = codeStepsWorse(code.code, target);
     if (steps < 1) continue;
@@ -36,17 +35,4 @@ export function cleanlinessFindings(input: RuleInput): Finding[] {
     );
   }
   return findings;
-}
-
-function targetCode(target: string | undefined): Iso4406Code | undefined {
-  if (target === undefined) return undefined;
-  const parsed = parseReading(target, 'iso4406');
-  return parsed.ok && parsed.reading.kind === 'code' ? parsed.reading.code : undefined;
-}
-
-function sampleCode(sample: Sample): { code: Iso4406Code; fromCounts: boolean } | undefined {
-  const { iso4406, p4, p6, p14 } = sample.readings;
-  if (iso4406?.kind === 'code') return { code: iso4406.code, fromCounts: false };
-  if (p6?.kind !== 'value' || p14?.kind !== 'value') return undefined;
-  return { code: iso4406FromCounts(p4?.kind === 'value' ? p4.value : undefined, p6.value, p14.value), fromCounts: true };
 }
