@@ -1,4 +1,5 @@
 /** Maps an incident engine's notify effect onto the message every channel renders (src/notify/message.ts). */
+import { createHash } from 'node:crypto';
 import { buildHistory } from '../analysis/history.ts';
 import type { Sample } from '../domain/event.ts';
 import { formatReading } from '../domain/reading.ts';
@@ -43,6 +44,16 @@ export function incidentMessage(effect: NotifyEffect, revisions: readonly Sample
       readings: Object.fromEntries(Object.entries(r.readings).map(([m, reading]) => [m, formatReading(reading!)])),
     })),
     whatChanged: s.reason,
-    idempotencyKey: effect.key,
+    idempotencyKey: idempotencyKey(effect.key),
   };
+}
+
+/**
+ * The effect key, fit to travel as the CloudEvent id and the `webhook-id` header (1 to 255 visible ASCII
+ * characters): percent-encoded, so that unit names with spaces or accents stay readable; a digest when the
+ * encoded key would be too long.
+ */
+export function idempotencyKey(effectKey: string): string {
+  const encoded = encodeURIComponent(effectKey);
+  return encoded.length <= 255 ? encoded : `sha256-${createHash('sha256').update(effectKey).digest('base64url')}`;
 }
