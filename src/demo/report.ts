@@ -62,6 +62,7 @@ export function formatReport(r: DemoReport, outDir: string): string[] {
   lines.push(`  ${mark(r.checks.escalated)} ${DEMO_STORIES[1]!.unit} ${DEMO_STORIES[1]!.component} left unacknowledged and escalated to tier 2`);
   lines.push(`  ${mark(r.checks.webhooksVerified)} every webhook delivery verified with standardwebhooks`);
   lines.push(`  ${mark(r.checks.settled)} pipeline settled (queues and outbox empty) within the wait`);
+  lines.push(`  ${mark(r.checks.noFailedJobs)} no job failed${r.failedJobs.map((f) => `; ${f.count} ${f.queue} job${f.count === 1 ? '' : 's'} failed: ${f.reason}`).join('')}`);
   lines.push('', `Done in ${r.seconds.total} s. Alerts advise: the laboratory's diagnosis and the equipment maker's limits decide.`);
   return lines;
 }

@@ -44,6 +44,15 @@ export interface DemoOptions {
   /** Progress lines for people, as the run goes. */
   readonly progress?: (line: string) => void;
   readonly logger?: Logger;
+  /** Aborting stops the run; everything it started is closed before runDemo rejects. */
+  readonly signal?: AbortSignal;
+}
+
+export class DemoInterrupted extends Error {
+  override readonly name = 'DemoInterrupted';
+  constructor() {
+    super('demo interrupted; the Redis, receivers and services it started are stopped');
+  }
 }
 
 export const DEMO_DEFAULTS = { configFile: 'demo/config.yaml', feedSeconds: 30, settleSeconds: 60 } as const;
@@ -85,6 +94,8 @@ export interface DemoReport {
   readonly mails: readonly { readonly seq: number; readonly to: string; readonly subject: string; readonly file: string }[];
   readonly webhooks: readonly { readonly seq: number; readonly type: string; readonly verified: boolean; readonly file: string }[];
   readonly acknowledgements: readonly AckAttempt[];
+  /** Jobs that failed for good, per queue, with the first reason. */
+  readonly failedJobs: readonly { readonly queue: string; readonly count: number; readonly reason: string }[];
   /** The demo's own checks of its story; all true on a good run. */
   readonly checks: {
     readonly caughtBeforeFixedLimit: boolean;
@@ -92,6 +103,7 @@ export interface DemoReport {
     readonly escalated: boolean;
     readonly webhooksVerified: boolean;
     readonly settled: boolean;
+    readonly noFailedJobs: boolean;
   };
   readonly seconds: { readonly feed: number; readonly total: number };
 }
@@ -118,6 +130,9 @@ export async function runDemo(options: DemoOptions): Promise<DemoRun> {
     await closeAll(closers.splice(0).reverse(), { timeoutMs: 15_000, logger });
   };
 
+  const checkAborted = () => {
+    if (options.signal?.aborted) throw new DemoInterrupted();
+  };
   try {
     // Redis: a private server unless REDIS_URL names one; then a key prefix of this run's own keeps every
     // other key out of reach, and only keys under that prefix are removed at the end.
@@ -177,13 +192,15 @@ export async function runDemo(options: DemoOptions): Promise<DemoRun> {
     const plan = planFeed(demoFleet(), { now: Date.now(), durationMs: feedMs });
     say(`Feeding ${plan.results.length} lab reports (${plan.firstSampledAt.slice(0, 10)} … ${plan.lastSampledAt.slice(0, 10)}) into ${apiUrl}/v1/results over ${feedMs / 1000} s`);
     const feedStarted = Date.now();
-    const fed = await feed(plan, `${apiUrl}/v1/results`, tokens.ingest, say, started);
+    checkAborted();
+    const fed = await feed(plan, `${apiUrl}/v1/results`, tokens.ingest, say, started, checkAborted);
     const feedSeconds = (Date.now() - feedStarted) / 1000;
 
     say(`Waiting for the pipeline to settle and for ${ESCALATING_UNIT.unit} ${ESCALATING_UNIT.component} to reach tier ${ESCALATION_TIER} (nobody answers its mails) …`);
-    const settled = await settle({ queues, store, settleMs, isDone: async () => (await answering.then(() => true)) && (await storyDone(store)) });
+    const settled = await settle({ queues, store, settleMs, checkAborted, isDone: async () => (await answering.then(() => true)) && (await storyDone(store)) });
     await answering;
 
+    const failedJobs = await readFailedJobs(queues);
     const timelines = await readTimelines(storage, config.incidents.returnAfterSamples);
     const findingsByRule = await countFindings(storage);
     const incidents = await readIncidents(store);
@@ -208,12 +225,14 @@ export async function runDemo(options: DemoOptions): Promise<DemoRun> {
       mails: files.mails,
       webhooks: files.webhooks,
       acknowledgements,
+      failedJobs,
       checks: {
         caughtBeforeFixedLimit: (story?.samplesAhead ?? 0) > 0,
         acknowledged: ack?.acknowledgedBy === DEMO_RESPONDER,
         escalated: (esc?.highestTierTold ?? 0) >= ESCALATION_TIER && esc?.acknowledgedBy === undefined,
         webhooksVerified: files.webhooks.length > 0 && files.webhooks.every((w) => w.verified),
         settled,
+        noFailedJobs: failedJobs.length === 0,
       },
       seconds: { feed: round1(feedSeconds), total: round1((Date.now() - started) / 1000) },
     };
@@ -252,13 +271,21 @@ export function demoConfig(config: Config, wiring: DemoWiring): Config {
   };
 }
 
-async function feed(plan: FeedPlan, url: string, ingestToken: string, say: (line: string) => void, started: number): Promise<{ accepted: number; rejected: number }> {
+async function feed(
+  plan: FeedPlan,
+  url: string,
+  ingestToken: string,
+  say: (line: string) => void,
+  started: number,
+  checkAborted: () => void,
+): Promise<{ accepted: number; rejected: number }> {
   const t0 = Date.now();
   let next = 0;
   let accepted = 0;
   let rejected = 0;
   let quarter = 1;
   while (next < plan.results.length) {
+    checkAborted();
     const elapsed = Date.now() - t0;
     const batch: unknown[] = [];
     while (next < plan.results.length && plan.results[next]!.atMs <= elapsed) batch.push(plan.results[next++]!.event);
@@ -285,16 +312,33 @@ async function feed(plan: FeedPlan, url: string, ingestToken: string, say: (line
 }
 
 /** Every result stored and evaluated, every notification delivered, and the demo's story played out. */
-async function settle(args: { queues: Queue[]; store: RedisIncidentStore; settleMs: number; isDone: () => Promise<boolean> }): Promise<boolean> {
+async function settle(args: { queues: Queue[]; store: RedisIncidentStore; settleMs: number; checkAborted: () => void; isDone: () => Promise<boolean> }): Promise<boolean> {
   const deadline = Date.now() + args.settleMs;
   while (Date.now() < deadline) {
+    args.checkAborted();
     const counts = await Promise.all(args.queues.map((q) => q.getJobCounts('waiting', 'active', 'delayed', 'prioritized', 'waiting-children')));
     const busy = counts.some((c) => Object.values(c).some((n) => n > 0));
     const outbox = await args.store.outboxSize();
-    if (!busy && outbox.waiting + outbox.claimed === 0 && (await args.isDone())) return true;
+    if (!busy && outbox.waiting + outbox.claimed === 0) {
+      if (await args.isDone()) return true;
+      // A result or an evaluation that failed for good cannot come right by waiting.
+      const failed = await Promise.all(args.queues.filter((q) => q.name !== QUEUE_NAMES.notify).map((q) => q.getJobCounts('failed')));
+      if (failed.some((c) => (c['failed'] ?? 0) > 0)) return false;
+    }
     await sleep(250);
   }
   return false;
+}
+
+async function readFailedJobs(queues: Queue[]): Promise<DemoReport['failedJobs'][number][]> {
+  const failed = await Promise.all(
+    queues.map(async (q) => {
+      const count = (await q.getJobCounts('failed'))['failed'] ?? 0;
+      const [first] = count > 0 ? await q.getFailed(0, 0) : [];
+      return { queue: q.name, count, reason: first?.failedReason ?? '' };
+    }),
+  );
+  return failed.filter((f) => f.count > 0);
 }
 
 async function storyDone(store: RedisIncidentStore): Promise<boolean> {

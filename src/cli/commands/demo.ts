@@ -2,7 +2,7 @@
 import type { Command } from 'commander';
 import { InputError } from '../../domain/errors.ts';
 import { demoPassed, formatIntro, formatReport } from '../../demo/report.ts';
-import { DEMO_DEFAULTS, runDemo } from '../../demo/runDemo.ts';
+import { DEMO_DEFAULTS, DemoInterrupted, runDemo } from '../../demo/runDemo.ts';
 import { RedisServerMissingError } from '../../runtime/embeddedRedis.ts';
 
 interface DemoCommandOptions {
@@ -32,16 +32,24 @@ async function demo(opts: DemoCommandOptions): Promise<void> {
   const text = !opts.json;
   const print = (line: string) => void (text && process.stdout.write(`${line}\n`));
   if (text) for (const line of formatIntro({ redis: process.env.REDIS_URL ? 'REDIS_URL, under a key prefix of its own' : 'a private redis-server from PATH', outDir: opts.out, feedSeconds })) print(line);
+  // Ctrl-C during the run still stops the private redis-server and everything else the demo started.
+  const interrupt = new AbortController();
+  const abort = () => interrupt.abort();
+  process.once('SIGINT', abort);
+  process.once('SIGTERM', abort);
   let run;
   try {
-    run = await runDemo({ outDir: opts.out, configFile: opts.config, feedSeconds, ...(opts.keepOpen && { keepOpen: true }), progress: print });
+    run = await runDemo({ outDir: opts.out, configFile: opts.config, feedSeconds, ...(opts.keepOpen && { keepOpen: true }), progress: print, signal: interrupt.signal });
   } catch (e) {
-    if (e instanceof RedisServerMissingError) {
+    if (e instanceof RedisServerMissingError || e instanceof DemoInterrupted) {
       process.stderr.write(`wearshift demo: ${e.message}\n`);
-      process.exitCode = 2;
+      process.exitCode = e instanceof DemoInterrupted ? 130 : 2;
       return;
     }
     throw e;
+  } finally {
+    process.off('SIGINT', abort);
+    process.off('SIGTERM', abort);
   }
   const { report } = run;
   if (text) for (const line of formatReport(report, opts.out)) print(line);
@@ -49,8 +57,10 @@ async function demo(opts: DemoCommandOptions): Promise<void> {
   process.exitCode = demoPassed(report) ? 0 : 1;
   if (!opts.keepOpen) return;
 
-  print('', );
-  print(`The API stays up at ${report.apiUrl} — the board at ${report.apiUrl}/ where this build serves one.`);
+  const board = await fetch(`${report.apiUrl}/`).then((r) => r.ok && (r.headers.get('content-type') ?? '').startsWith('text/html'), () => false);
+  print('');
+  print(`The API stays up at ${report.apiUrl}; the receivers keep taking mail and webhooks (not written out any more).`);
+  print(board ? `Board: ${report.apiUrl}/ — paste the viewer token when it asks.` : 'This build serves no board at /; the API answers as below.');
   print(`Viewer token: ${run.viewerToken}`);
   print(`  curl -H 'Authorization: Bearer ${run.viewerToken}' ${report.apiUrl}/v1/incidents`);
   print('Press Ctrl-C to stop.');
