@@ -20,9 +20,4 @@ export class MemoryIncidentFeed implements IncidentFeed {
     this.states.set(key, state);
     return { changes: incidentChanges(before, state), effects };
   }
-
-  /** Every component's incidents, by component key. */
-  all(): ReadonlyMap<string, ComponentIncidents> {
-    return this.states;
-  }
 }

@@ -53,8 +53,6 @@ export interface ReplayOutcome {
   readonly timeline: TimelineLine[];
   readonly records: number;
   readonly rejected: number;
-  readonly storage: MemoryStorage;
-  readonly incidents: MemoryIncidentFeed;
 }
 
 export async function replayRecords(records: AsyncIterable<SourceRecord> | Iterable<SourceRecord>, options: ReplayOptions): Promise<ReplayOutcome> {
@@ -110,7 +108,7 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
   }
   // Array.prototype.sort is stable: lines of one instant keep the order they were produced in.
   const timeline = keyed.sort((a, b) => a.key - b.key).map((k) => k.line);
-  return { timeline, records: count, rejected, storage, incidents };
+  return { timeline, records: count, rejected };
 }
 
 /** The step's findings unless exactly these were listed for its sample before (a latest step fed again). */

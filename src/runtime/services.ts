@@ -19,7 +19,7 @@ import { bridgeLiveEvents, livePublisher } from './liveBridge.ts';
 import { maskUrl, type Logger } from './logger.ts';
 import { createMetrics } from './metrics.ts';
 import { checkEvictionPolicy, connectRedis, redisUrl } from './redis.ts';
-import type { Closer } from './shutdown.ts';
+import { closeAll, DEFAULT_SHUTDOWN_TIMEOUT_MS, type Closer } from './shutdown.ts';
 
 export interface ServiceOptions {
   /** Run the queue workers. */
@@ -48,6 +48,17 @@ export interface RunningServices {
 export const DEFAULT_PORT = 8080;
 
 export async function startServices(options: ServiceOptions): Promise<RunningServices> {
+  const started: Closer[][] = [];
+  try {
+    return await start(options, started);
+  } catch (e) {
+    // A port in use, a bad secret: what did start must not keep the process alive without signal handlers.
+    await closeAll(started.flat(), { logger: options.logger, timeoutMs: DEFAULT_SHUTDOWN_TIMEOUT_MS });
+    throw e;
+  }
+}
+
+async function start(options: ServiceOptions, started: Closer[][]): Promise<RunningServices> {
   const { config, logger } = options;
   const env = options.env ?? process.env;
   const url = redisUrl(config, env);
@@ -56,6 +67,17 @@ export async function startServices(options: ServiceOptions): Promise<RunningSer
   const stopWorkers: Closer[] = [];
   const stopHttp: Closer[] = [];
   const connections: Redis[] = [];
+  const stopQueues: Closer[] = [];
+  const stopRedis: Closer[] = [
+    {
+      name: 'redis',
+      close: async () => {
+        // quit() waits for Redis to answer; a connection that is not up is dropped instead.
+        await Promise.all(connections.map((c) => (c.status === 'ready' ? c.quit().catch(() => c.disconnect()) : (c.disconnect(), undefined))));
+      },
+    },
+  ];
+  started.push(stopWorkers, stopHttp, stopQueues, stopRedis);
   logger.info({ redis: maskUrl(url), prefix, workers: options.workers, http: options.http }, 'starting');
 
   // Requests fail fast while Redis is away; workers wait for it.
@@ -65,6 +87,7 @@ export async function startServices(options: ServiceOptions): Promise<RunningSer
   const metrics = createMetrics();
   const queueSettings = resolveQueueSettings({ ...options.workerSettings, prefix });
   const counted: Queue[] = Object.values(QUEUE_NAMES).map((name) => openQueue(name, request, queueSettings));
+  stopQueues.push({ name: 'queues', close: () => Promise.all(counted.map((q) => q.close())) });
   metrics.watchQueues(async () => {
     const entries = await Promise.all(counted.map(async (q) => [q.name, await q.getJobCounts('waiting', 'active', 'delayed', 'prioritized', 'failed')] as const));
     return Object.fromEntries(entries);
@@ -119,17 +142,9 @@ export async function startServices(options: ServiceOptions): Promise<RunningSer
     } else {
       server = await buildServer({ logger, metrics, ping });
     }
-    listening = await server.listen({ port: options.http ? port : options.metricsPort!, host: options.host ?? '0.0.0.0' });
     stopHttp.unshift({ name: 'http', close: () => server.close() });
+    listening = await server.listen({ port: options.http ? port : options.metricsPort!, host: options.host ?? '0.0.0.0' });
   }
 
-  const closers: Closer[] = [...stopWorkers, ...stopHttp, { name: 'queues', close: () => Promise.all(counted.map((q) => q.close())) }];
-  closers.push({
-    name: 'redis',
-    close: async () => {
-      // quit() waits for Redis to answer; a connection that is not up is dropped instead.
-      await Promise.all(connections.map((c) => (c.status === 'ready' ? c.quit().catch(() => c.disconnect()) : (c.disconnect(), undefined))));
-    },
-  });
-  return { closers, ...(listening !== undefined && { url: listening }) };
+  return { closers: started.flat(), ...(listening !== undefined && { url: listening }) };
 }

@@ -2,10 +2,11 @@
  * Operating `wearshift serve` as a process: probes, the eviction-policy warning, redacted logs, and
  * graceful shutdown on SIGTERM — bounded even when Redis has gone away.
  */
+import { createServer } from 'node:net';
 import { PassThrough } from 'node:stream';
 import { afterEach, describe, expect, it } from 'vitest';
 import { createLogger, maskUrl } from '../../src/runtime/logger.ts';
-import { startCli } from '../helpers/cli.ts';
+import { runCli, startCli } from '../helpers/cli.ts';
 import { freePort, startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const servers: RedisServer[] = [];
@@ -52,6 +53,21 @@ describe('wearshift serve as a process', () => {
     expect(log).toMatch(/"part":"queue workers","msg":"closed"/);
     expect(log).toMatch(/"part":"redis","msg":"closed"/);
     expect(log).not.toContain('ingest-secret-token-77');
+  });
+
+  it('exits with an error, and without workers left running, when its port is taken', async () => {
+    const redis = await startRedisServer();
+    servers.push(redis);
+    const blocker = createServer();
+    const port = await freePort();
+    await new Promise<void>((resolve) => blocker.listen(port, '0.0.0.0', () => resolve()));
+    try {
+      const r = await runCli(['serve', '--port', String(port)], { REDIS_URL: redis.url, LOG_LEVEL: 'warn' }, 30_000);
+      expect(r.code).toBe(1);
+      expect(r.stderr).toMatch(/EADDRINUSE/);
+    } finally {
+      blocker.close();
+    }
   });
 
   it('exits within the shutdown bound when Redis is gone, and /healthz answers while /readyz says 503', async () => {
