@@ -18,6 +18,7 @@ export function formatReport(r: DemoReport, outDir: string): string[] {
   const lines: string[] = [];
   const width = Math.max(...r.timelines.map((t) => `${t.unit} ${t.component}`.length)) + 2;
   lines.push('', 'Timeline — when each rule first spoke, by sample date, beside the fixed limit:');
+  lines.push('  (severity: watch = a change detected, no limit crossed < caution < alarm; "fall" = wear rate dropped, usually a sampling fault)');
   const quiet: string[] = [];
   for (const t of r.timelines) {
     if (t.firsts.length === 0) quiet.push(`${t.unit} ${t.component}`);
@@ -41,10 +42,12 @@ export function formatReport(r: DemoReport, outDir: string): string[] {
   const verified = r.webhooks.filter((w) => w.verified).length;
   lines.push(`  Webhooks           ${r.webhooks.length} received, ${verified} with a valid Standard Webhooks signature (${[...byType].map(([t, n]) => `${t} ${n}`).join(', ')}) → ${outDir}/webhook-*.json`);
   const acks = r.acknowledgements.filter((a) => a.outcome === 'acknowledged');
-  lines.push(
-    `  Acknowledged       ${acks.length === 0 ? 'nothing' : acks.map((a) => `${a.incidentId} by ${a.by} (link in mail #${a.mailSeq} to ${a.recipient}: page ${a.pageStatus}, form ${a.formStatus})`).join('; ')}`,
-  );
-  if (acks.length > 1) lines.push('                     (new evidence withdraws an acknowledgement, so each new mail was answered again)');
+  if (acks.length === 0) lines.push('  Acknowledged       nothing');
+  for (const [i, a] of acks.entries()) {
+    const label = i === 0 ? '  Acknowledged       ' : '                     ';
+    lines.push(`${label}${a.incidentId} by ${a.by}: link in mail #${a.mailSeq} to ${a.recipient}, confirmation page ${a.pageStatus}, form sent ${a.formStatus}`);
+  }
+  if (acks.length > 1) lines.push('                     (new evidence withdraws an acknowledgement and asks again, so each new mail was answered)');
   const escalated = r.incidents.filter((i) => i.highestTierTold >= 1);
   lines.push(`  Escalated          ${escalated.length === 0 ? 'nothing' : escalated.map((i) => `${i.unit} ${i.component} to tier ${i.highestTierTold}${i.acknowledgedBy ? ' (before it was acknowledged)' : ' (never acknowledged)'}`).join('; ')}`);
 

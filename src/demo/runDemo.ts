@@ -179,6 +179,7 @@ export async function runDemo(options: DemoOptions): Promise<DemoRun> {
     let answering: Promise<void> = Promise.resolve();
     mail.onMail((m: ReceivedMail) => {
       const id = incidentIdOf(m);
+      if (m.parsed.headers.get('x-wearshift-event') === 'escalated') say(`  ${seconds(started)}  ${id ?? 'an incident'} not acknowledged: escalation mail #${m.seq} to ${m.to.join(', ')}`);
       if (id === undefined || !id.startsWith(`${ACK_UNIT.unit}/${ACK_UNIT.component}`) || ackLinkOf(m) === undefined) return;
       answering = answering.then(async () => {
         const attempt = await acknowledgeByMail(m, DEMO_RESPONDER, 'Taking this: will pull a confirmation sample and check the bearing temperatures.').catch(
