@@ -1,8 +1,10 @@
-import { defineConfig } from 'vitest/config';
+import { configDefaults, defineConfig } from 'vitest/config';
 
 export default defineConfig({
   test: {
     include: ['tests/**/*.test.ts'],
+    // Real processes, crashes and outages: a run of its own (`npm run test:faults`, vitest.faults.config.ts).
+    exclude: [...configDefaults.exclude, 'tests/faults/**'],
     testTimeout: 60_000,
     hookTimeout: 60_000,
     // Integration suites start their own redis-server, SMTP and HTTP peers; two cores are all we have.
