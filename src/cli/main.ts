@@ -8,6 +8,7 @@ import { registerDesign } from './commands/design.ts';
 import { registerIncidents } from './commands/incidents.ts';
 import { registerDemo } from './commands/demo.ts';
 import { registerApi } from './commands/api.ts';
+import { registerBacktest } from './commands/backtest.ts';
 import { registerFailed } from './commands/failed.ts';
 import { registerImport } from './commands/import.ts';
 import { registerReplay } from './commands/replay.ts';
@@ -34,6 +35,7 @@ export function buildProgram(): Command {
   registerApi(program);
   registerImport(program);
   registerReplay(program);
+  registerBacktest(program);
   registerFailed(program);
   return program;
 }

@@ -1,0 +1,58 @@
+/**
+ * A backtest of one history under one or two configurations: each configuration (with the false-alarm budget put in,
+ * when one is given) replays the same records through the worker's pipeline, and the runs are summarised side by side.
+ */
+import type { Config } from '../domain/config.ts';
+import type { SourceRecord } from '../intake/fileRecords.ts';
+import type { RejectedRecord } from '../queue/replayHistory.ts';
+import { detectorParameters, withBudget, type BudgetText } from './parameters.ts';
+import { runBacktest, type BacktestRun } from './run.ts';
+import { buildBacktestSummary, type BacktestSummary } from './summary.ts';
+
+export interface BacktestConfiguration {
+  /** How the report names it: the file name, or "built-in defaults". */
+  readonly label: string;
+  readonly configFile: string | null;
+  readonly config: Config;
+}
+
+export interface BacktestOptions {
+  /** The history's name as the report shows it. */
+  readonly file: string;
+  /** One configuration, or two to compare. */
+  readonly configurations: readonly BacktestConfiguration[];
+  /** Replaces the configured false-alarm budget (alarms and period) in every configuration. */
+  readonly budget?: BudgetText;
+  readonly now?: number;
+  /** Told about each rejected record once (during the first run). */
+  readonly onRejected?: (r: RejectedRecord) => void;
+}
+
+export interface Backtest {
+  readonly summary: BacktestSummary;
+  readonly runs: readonly BacktestRun[];
+}
+
+export async function backtest(records: readonly SourceRecord[], options: BacktestOptions): Promise<Backtest> {
+  if (options.configurations.length === 0) throw new RangeError('a backtest needs a configuration');
+  const runs: BacktestRun[] = [];
+  const inputs = [];
+  for (const [i, c] of options.configurations.entries()) {
+    const config = options.budget === undefined ? c.config : withBudget(c.config, options.budget);
+    const run = await runBacktest(records, {
+      config,
+      ...(options.now !== undefined && { now: options.now }),
+      ...(i === 0 && options.onRejected !== undefined && { onRejected: options.onRejected }),
+    });
+    runs.push(run);
+    inputs.push({
+      label: c.label,
+      configFile: c.configFile,
+      budget: options.budget ?? null,
+      parameters: detectorParameters(config, run.components),
+      components: run.components,
+    });
+  }
+  const summary = buildBacktestSummary({ file: options.file, records: runs[0]!.records, rejected: runs[0]!.rejected, runs: inputs });
+  return { summary, runs };
+}

@@ -1,0 +1,93 @@
+/**
+ * The detector parameters a backtest ran with, and a configuration with a false-alarm budget put in place of the
+ * configured one. The numbers come from the detectors' own design path (budget.ts: detectionLimits), so they are the
+ * ones the worker uses and the ones `wearshift design --budget … --every … --charts …` prints for the same target.
+ */
+import { detectionLimits, parseBudget, samplesPerBudgetPeriod } from '../analysis/budget.ts';
+import type { Config, Detection } from '../domain/config.ts';
+import { resolveSettings } from '../domain/settings.ts';
+
+export interface BudgetText {
+  /** As the user wrote it: "1 per component per 3 years". */
+  readonly text: string;
+  readonly alarms: number;
+  readonly years: number;
+}
+
+/** The chart parameters of one set of detection settings, with the conversion from the budget to ARL0. */
+export interface DetectorParameters {
+  /** Groups of the history that run with these settings. */
+  readonly groups: readonly string[];
+  readonly measurands: readonly string[];
+  readonly sided: Detection['sided'];
+  readonly budget: { readonly alarms: number; readonly years: number; readonly sampleIntervalHours: number; readonly hoursPerYear: number };
+  /** years · hoursPerYear / sampleIntervalHours. */
+  readonly samplesPerComponent: number;
+  /** samplesPerComponent / alarms: the in-control run length of the whole component. */
+  readonly componentArl0: number;
+  /** Detection measurands × enabled detectors. */
+  readonly charts: number;
+  /** componentArl0 × charts: the in-control run length each chart is designed for. */
+  readonly arl0: number;
+  readonly cusum: { readonly enabled: boolean; readonly k: number; readonly headstart: number; readonly h: number; readonly fromBudget: boolean };
+  readonly ewma: { readonly enabled: boolean; readonly lambda: number; readonly L: number; readonly fromBudget: boolean };
+  /** The `wearshift design` commands that print the same h and L. */
+  readonly designCommands: readonly string[];
+}
+
+/** Same rounding as `wearshift design --json`: twelve significant figures, so that both print equal numbers. */
+function tidy(x: number): number {
+  return Number(x.toPrecision(12));
+}
+
+/** The configuration with the budget's alarms and period in place of the configured ones, everywhere they are set. */
+export function withBudget(config: Config, budget: BudgetText): Config {
+  const swap = <T extends { budget?: Detection['budget'] }>(d: T): T =>
+    d.budget === undefined ? d : { ...d, budget: { ...d.budget, alarms: budget.alarms, years: budget.years } };
+  return {
+    ...config,
+    detection: swap(config.detection),
+    groups: config.groups.map((g) => (g.detection === undefined ? g : { ...g, detection: swap(g.detection) })),
+  };
+}
+
+export function readBudget(text: string): BudgetText {
+  return { text, ...parseBudget(text) };
+}
+
+/** One entry per distinct detection settings among the components, with the groups that use it. */
+export function detectorParameters(config: Config, components: readonly { unit: string; component: string; group?: string }[]): DetectorParameters[] {
+  const byDesign = new Map<string, { detection: Detection; groups: Set<string> }>();
+  for (const c of components) {
+    const settings = resolveSettings(config, c);
+    const key = JSON.stringify(settings.detection);
+    const known = byDesign.get(key) ?? { detection: settings.detection, groups: new Set<string>() };
+    known.groups.add(settings.group);
+    byDesign.set(key, known);
+  }
+  return [...byDesign.values()].map(({ detection, groups }) => parametersOf(detection, [...groups].sort()));
+}
+
+function parametersOf(d: Detection, groups: string[]): DetectorParameters {
+  const limits = detectionLimits(d);
+  const samplesPerComponent = samplesPerBudgetPeriod(d.budget);
+  const sided = d.sided === 'two' ? 'two' : 'one';
+  const budgetArgs = `--budget "${d.budget.alarms} per component per ${d.budget.years} years" --every ${d.budget.sampleIntervalHours} --hours-per-year ${d.budget.hoursPerYear} --charts ${Math.max(1, limits.charts)} --sided ${sided}`;
+  const designCommands = [
+    ...(d.cusum.h === undefined ? [`wearshift design cusum --k ${d.cusum.k} --headstart ${d.cusum.headstart} ${budgetArgs}`] : []),
+    ...(d.ewma.L === undefined ? [`wearshift design ewma --lambda ${d.ewma.lambda} --exact-limits ${budgetArgs}`] : []),
+  ];
+  return {
+    groups,
+    measurands: d.measurands,
+    sided: d.sided,
+    budget: { alarms: d.budget.alarms, years: d.budget.years, sampleIntervalHours: d.budget.sampleIntervalHours, hoursPerYear: d.budget.hoursPerYear },
+    samplesPerComponent: tidy(samplesPerComponent),
+    componentArl0: tidy(samplesPerComponent / d.budget.alarms),
+    charts: limits.charts,
+    arl0: tidy(limits.arl0),
+    cusum: { enabled: d.cusum.enabled, k: d.cusum.k, headstart: d.cusum.headstart, h: tidy(limits.cusumH), fromBudget: d.cusum.h === undefined },
+    ewma: { enabled: d.ewma.enabled, lambda: d.ewma.lambda, L: tidy(limits.ewmaL), fromBudget: d.ewma.L === undefined },
+    designCommands,
+  };
+}
