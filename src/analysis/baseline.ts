@@ -68,3 +68,19 @@ export function rateBaseline(s: BaselineSums, components: number, typicalInterva
   const labFloor = readingVariance / typicalIntervalHours;
   return { rate, processVariance: Math.max(moment, wearFloor, labFloor, 1e-9), intervals: s.intervals, components };
 }
+
+/**
+ * A group baseline from its components' own baseline sums: the pooled rate and process variance, and the
+ * unit-to-unit spread of the rate (the variance of the components' own rates). Units of one design still wear at
+ * different rates; judged against the group's mean rate a slow unit would look like a fall and a fast one like a
+ * shift, so the spread travels with the baseline and the filter learns each component's own rate from it.
+ */
+export function groupBaseline(components: readonly BaselineSums[], typicalIntervalHours: number): RateBaseline | undefined {
+  const usable = components.filter((c) => c.sumHours > 0);
+  const pooled = rateBaseline(poolBaselines(usable), usable.length, typicalIntervalHours);
+  if (pooled === undefined || usable.length < 2) return pooled;
+  const rates = usable.map((c) => c.sumIncrement / c.sumHours);
+  const mean = rates.reduce((a, b) => a + b, 0) / rates.length;
+  const spread = rates.reduce((a, r) => a + (r - mean) ** 2, 0) / (rates.length - 1);
+  return { ...pooled, rateVariance: spread };
+}

@@ -10,6 +10,11 @@
  * and are negatively correlated, which would make run-length designs for independent data wrong.
  * A shift of the wear rate to g + δ gives prediction errors with a positive mean (δ·h at first, growing to
  * δ·h/K as the filter settles, K being its gain), which the detectors accumulate.
+ *
+ * Judged against a group baseline (while the component's own history is short), the component's rate is a state
+ * of the filter too, starting from the group's rate with the unit-to-unit spread as its variance, and learnt from
+ * the readings; the errors stay N(0, 1) for a unit whose rate is anywhere in the group's spread. Once the own
+ * baseline is complete the rate is fixed at the component's own, so that a later shift is not learnt away.
  */
 import type { Detection } from '../domain/config.ts';
 import { labVariance } from './labNoise.ts';
@@ -24,14 +29,22 @@ export interface Innovation {
   readonly baselineRate: number;
 }
 
+/** Level and rate with their covariance: variance (level), covariance (level, rate), rateVariance. */
 interface FilterState {
   readonly level: number;
   readonly variance: number;
+  readonly rate: number;
+  readonly covariance: number;
+  readonly rateVariance: number;
 }
 
-/** A level known from one reading: its uncertainty is the lab's. */
-function settled(level: number, noise: Detection['labNoise']): FilterState {
-  return { level, variance: labVariance(noise, level) };
+/** A level known from one reading (its uncertainty is the lab's), the rate as the baseline gives it. */
+function settled(level: number, noise: Detection['labNoise'], baseline: RateBaseline | undefined): FilterState {
+  return { level, variance: labVariance(noise, level), ...baselineRate(baseline) };
+}
+
+function baselineRate(b: RateBaseline | undefined): Pick<FilterState, 'rate' | 'covariance' | 'rateVariance'> {
+  return { rate: b?.rate ?? 0, covariance: 0, rateVariance: b?.rateVariance ?? 0 };
 }
 
 /**
@@ -46,35 +59,50 @@ export function innovations(
   const out: Innovation[] = [];
   let state: FilterState | undefined;
   let previousTo: string | undefined;
+  let previousBaseline: RateBaseline | undefined;
   intervals.forEach((iv, index) => {
     const continuous = state !== undefined && iv.from !== undefined && iv.from.sampleId === previousTo;
     previousTo = iv.to.sampleId;
     const baseline = baselineAt(index);
+    const switched = baseline !== previousBaseline;
+    previousBaseline = baseline;
     if (iv.runningIn || baseline === undefined) {
-      state = iv.censored ? undefined : settled(iv.level, noise);
+      state = iv.censored ? undefined : settled(iv.level, noise, baseline);
       return;
     }
-    if (!continuous) {
+    if (!continuous || state === undefined) {
       // The chain broke (first interval, a gap, a censored reading): start again from the interval's first reading.
       if (iv.censored) {
         state = undefined;
         return;
       }
-      state = iv.carryOver === 0 ? { level: 0, variance: 0 } : settled(iv.baseLevel / iv.carryOver, noise);
+      const from = iv.carryOver === 0 ? { level: 0, variance: 0 } : settled(iv.baseLevel / iv.carryOver, noise, baseline);
+      state = { ...from, ...baselineRate(baseline) };
+    } else if (switched) {
+      // A new baseline (the own one completed): its rate replaces what the filter had learnt.
+      state = { ...state, ...baselineRate(baseline) };
     }
-    const current = state as FilterState;
-    const predicted = iv.carryOver * current.level + baseline.rate * iv.hours;
-    const predictedVariance = iv.carryOver ** 2 * current.variance + baseline.processVariance * iv.hours;
+    const s = state;
+    const c = iv.carryOver;
+    const h = iv.hours;
+    const predicted = c * s.level + h * s.rate;
+    const predictedVariance = c * c * s.variance + 2 * c * h * s.covariance + h * h * s.rateVariance + baseline.processVariance * h;
+    const predictedCovariance = c * s.covariance + h * s.rateVariance;
     if (iv.censored) {
       // A censored reading tells too little to update on; time still passes.
-      state = { level: predicted, variance: predictedVariance };
+      state = { ...s, level: predicted, variance: predictedVariance, covariance: predictedCovariance };
       return;
     }
     const errorVariance = predictedVariance + labVariance(noise, iv.level);
     const error = iv.level - predicted;
-    const gain = predictedVariance / errorVariance;
-    state = { level: predicted + gain * error, variance: (1 - gain) * predictedVariance };
-    out.push({ interval: index, z: error / Math.sqrt(errorVariance), rate: iv.rate, baselineRate: baseline.rate });
+    state = {
+      level: predicted + (predictedVariance / errorVariance) * error,
+      variance: predictedVariance - predictedVariance ** 2 / errorVariance,
+      rate: s.rate + (predictedCovariance / errorVariance) * error,
+      covariance: predictedCovariance - (predictedVariance * predictedCovariance) / errorVariance,
+      rateVariance: s.rateVariance - predictedCovariance ** 2 / errorVariance,
+    };
+    out.push({ interval: index, z: error / Math.sqrt(errorVariance), rate: iv.rate, baselineRate: s.rate });
   });
   return out;
 }

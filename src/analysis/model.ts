@@ -75,6 +75,11 @@ export interface RateBaseline {
   readonly rate: number;
   /** Variance of the wear process per hour (ppm²/h). */
   readonly processVariance: number;
+  /**
+   * How uncertain `rate` is for one component, (ppm/h)²: 0 for a component's own baseline; for a group
+   * baseline, the spread of the wear rate from unit to unit. Above 0, the filter learns the component's rate.
+   */
+  readonly rateVariance?: number;
   readonly intervals: number;
   readonly components: number;
 }

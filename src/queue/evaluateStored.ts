@@ -8,7 +8,7 @@
  * unless its findings changed. Backfill: a step whose sample is older than `backfill.quietAfterDays` at
  * processing time is fed as quiet: recorded and applied to incidents, but nobody is notified.
  */
-import { rateBaseline, poolBaselines } from '../analysis/baseline.ts';
+import { groupBaseline } from '../analysis/baseline.ts';
 import { evaluateComponent } from '../analysis/evaluate.ts';
 import type { BaselineSums, GroupStats, RateBaseline, Step } from '../analysis/model.ts';
 import type { Config } from '../domain/config.ts';
@@ -124,7 +124,7 @@ export async function groupStatsFor(storage: Storage, settings: ComponentSetting
   const baselines: Partial<Record<Measurand, RateBaseline>> = {};
   for (const m of settings.detection.measurands) {
     const sums = others.map(([, b]) => b[m]).filter((b): b is BaselineSums => b !== undefined);
-    const pooled = sums.length > 0 ? rateBaseline(poolBaselines(sums), sums.length, settings.detection.budget.sampleIntervalHours) : undefined;
+    const pooled = groupBaseline(sums, settings.detection.budget.sampleIntervalHours);
     if (pooled !== undefined) baselines[m] = pooled;
   }
   return { group: settings.group, bands: bandStatsFromSums(population, settings.population), baselines };

@@ -1,0 +1,31 @@
+import { describe, expect, it } from 'vitest';
+import { addInterval, EMPTY_SUMS, groupBaseline, poolBaselines, rateBaseline } from '../../src/analysis/baseline.ts';
+
+const sums = (intervals: [hours: number, increment: number][], labVar = 0) => intervals.reduce((s, [hours, increment]) => addInterval(s, { hours, increment }, labVar), EMPTY_SUMS);
+
+describe('baselines', () => {
+  it('rate is Σincrement / Σhours and the process variance comes from the residuals (method of moments)', () => {
+    // Increments 10, 14, 6 over 250 h each: rate 30/750 = 0.04 ppm/h; residuals 0, 4, −4 → Σr² = 32 over 750 h.
+    const b = rateBaseline(sums([[250, 10], [250, 14], [250, 6]]), 1, 250)!;
+    expect(b.rate).toBeCloseTo(0.04, 12);
+    expect(b.processVariance).toBeCloseTo(32 / 750, 12);
+  });
+
+  it('lab variance is taken out of the residuals, down to the floor of one reading per typical interval', () => {
+    const b = rateBaseline(sums([[250, 10], [250, 14], [250, 6]], 20), 1, 250)!;
+    // (32 − 3·20)/750 < 0, so the floor holds: one reading's variance (20/2) per 250 h.
+    expect(b.processVariance).toBeCloseTo(10 / 250, 12);
+  });
+
+  it('a group baseline pools the rate and carries the unit-to-unit spread of the components’ own rates', () => {
+    const a = sums([[500, 20]]); // 0.04 ppm/h
+    const b = sums([[500, 30]]); // 0.06 ppm/h
+    const c = sums([[1000, 50]]); // 0.05 ppm/h
+    const g = groupBaseline([a, b, c], 250)!;
+    expect(g.rate).toBeCloseTo(100 / 2000, 12);
+    // Sample variance of 0.04, 0.06, 0.05 = 0.0001.
+    expect(g.rateVariance).toBeCloseTo(0.0001, 12);
+    expect(g.components).toBe(3);
+    expect(poolBaselines([a, b, c]).intervals).toBe(3);
+  });
+});
