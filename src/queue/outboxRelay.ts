@@ -36,7 +36,9 @@ export function effectJobId(key: string): string {
 
 export async function relayEffects(effects: readonly IncidentEffect[], queues: { notify: Queue; escalate: Queue }, now: number): Promise<void> {
   const notify = effects.filter((e): e is NotifyEffect => e.kind === 'notify');
-  if (notify.length > 0) await queues.notify.addBulk(notify.map((e) => ({ name: e.type, data: e, opts: { jobId: effectJobId(e.key) } })));
+  // A backoff type BullMQ does not know itself: only then does it ask the notify worker's backoffStrategy
+  // (Retry-After, full jitter from 5 s) instead of the queue's plain exponential default.
+  if (notify.length > 0) await queues.notify.addBulk(notify.map((e) => ({ name: e.type, data: e, opts: { jobId: effectJobId(e.key), backoff: { type: 'delivery' } } })));
   for (const e of effects) {
     if (e.kind !== 'schedule-escalation') continue;
     const data: EscalateJobData = { incidentId: e.incidentId, tier: e.tier, reason: e.reason };
