@@ -11,7 +11,9 @@ const RECENT_RESULTS = 5;
 
 export function incidentMessage(effect: NotifyEffect, revisions: readonly Sample[], apiBaseUrl: string): IncidentMessage {
   const s = effect.incident;
-  const recent = buildHistory(revisions).samples.slice(-RECENT_RESULTS);
+  // Up to the sample the event is about: results stored later would change the message between retries.
+  const until = Date.parse(s.lastSampledAt);
+  const recent = buildHistory(revisions).samples.filter((x) => x.time <= until).slice(-RECENT_RESULTS);
   return {
     type: effect.type.slice('wearshift.incident.'.length) as IncidentMessageType,
     incident: {
