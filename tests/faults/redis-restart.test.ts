@@ -1,0 +1,73 @@
+/**
+ * Redis restarted in the middle of a stream (append-only file on, same port, same directory): the worker
+ * process reports itself not ready while Redis is away, reconnects by itself when it is back, and goes on
+ * where it stopped. Nothing accepted is lost, nothing is stored or told twice.
+ */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { createResultProducer } from '../../src/intake/producer.ts';
+import { inventedFleet } from '../helpers/fleetCsv.ts';
+import { freePort } from '../helpers/redisServer.ts';
+import { startWearshift, stopAll, waitFor } from '../helpers/processes.ts';
+import { mailReceiver, webhookReceiver, type MailReceiver, type WebhookReceiver } from './peers.ts';
+import { allIncidents, effectKeyOf, PREFIX, recordedNotifications, settled, startScenario, storageAgainst, storedCount, type Scenario } from './scenario.ts';
+
+let scenario: Scenario;
+let smtp: MailReceiver;
+let hooks: WebhookReceiver;
+
+beforeAll(async () => {
+  smtp = mailReceiver(await freePort());
+  await smtp.start();
+  hooks = await webhookReceiver();
+  scenario = await startScenario({ smtpPort: smtp.port, webhookUrl: hooks.url, appendOnly: true });
+});
+
+afterAll(async () => {
+  await stopAll();
+  await scenario?.dispose();
+  await smtp?.stop();
+  await hooks?.close();
+});
+
+const readiness = async (url: string) => (await fetch(`${url}/readyz`, { signal: AbortSignal.timeout(3000) }).catch(() => undefined))?.status;
+
+describe('Redis restarted mid-stream', () => {
+  it('the worker waits, reconnects and finishes; every result stored once, every notification told once', async () => {
+    const fleet = inventedFleet({ units: 20, samplesPerUnit: 60, seed: 11 });
+    const worker = await startWearshift('worker', { env: scenario.env(hooks.secret) });
+    const producer = createResultProducer({ connection: scenario.client, prefix: PREFIX });
+    expect((await producer.add(fleet)).every((o) => o.status === 'accepted')).toBe(true);
+    await producer.close();
+
+    await waitFor('a few hundred results stored', async () => (await storedCount(scenario)) >= 300, 90_000, 20);
+    const before = await storedCount(scenario);
+    await scenario.redis.stop();
+    await waitFor('the worker to report itself not ready', async () => (await readiness(worker.url)) === 503, 10_000, 200);
+    // Long enough for every connection of the worker to notice and start its reconnection attempts.
+    await new Promise((r) => setTimeout(r, 3000));
+    await scenario.redis.start();
+    await waitFor('the worker to report itself ready again', async () => (await readiness(worker.url)) === 200, 30_000, 200);
+    // The append-only file brought back everything stored before the stop.
+    expect(await storedCount(scenario)).toBeGreaterThanOrEqual(before);
+
+    await settled(scenario, fleet.length, 180_000).catch((e: Error) => {
+      throw new Error(`${e.message}\nlast lines of the worker:\n${worker.output().slice(-4000)}`);
+    });
+    expect(worker.output()).toMatch(/redis connection restored/);
+
+    const perComponent = await storageAgainst(scenario, fleet);
+    expect(perComponent).toHaveLength(20);
+    for (const c of perComponent) expect(c).toEqual({ component: c.component, sent: 60, stored: 60, revisions: 60, registry: 60 });
+
+    const told = recordedNotifications(await allIncidents(scenario));
+    expect(told.byChannel.webhook.length).toBeGreaterThan(0);
+    const delivered = hooks.delivered();
+    expect([...delivered.keys()].map(effectKeyOf).sort()).toEqual([...told.byChannel.webhook].sort());
+    expect([...delivered.entries()].filter(([, n]) => n !== 1)).toEqual([]);
+    expect(smtp.mails).toHaveLength(told.byChannel.email.length);
+    expect(new Set(smtp.mails.map((m) => m.messageId)).size).toBe(smtp.mails.length);
+    expect(await Promise.all(Object.values(scenario.queues).map((q) => q.getFailedCount()))).toEqual([0, 0, 0, 0]);
+    console.info(`redis restart: stopped at ${before}/${fleet.length} stored; ${told.byChannel.webhook.length} webhook and ${told.byChannel.email.length} e-mail notifications, each delivered once`);
+    expect(await worker.stop()).toBe(0);
+  });
+});
