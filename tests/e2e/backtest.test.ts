@@ -1,0 +1,173 @@
+/**
+ * `wearshift backtest` as a user runs it: the real command line on a simulated fleet with injected wear-rate steps,
+ * the JSON it prints against the JSON its HTML embeds, the page in a real browser (Debian's Chromium via
+ * playwright-core) with every network request refused, a false-alarm budget against `wearshift design` for the same
+ * target, a second configuration side by side, and the errors for bad input.
+ */
+import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { chromium } from 'playwright-core';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { BacktestSummary } from '../../src/backtest/summary.ts';
+import { runCli } from '../helpers/cli.ts';
+import { FLEET_CONFIG, fleetEvents, fleetJsonl, OTHER_CONFIG, STEPPED_UNITS } from '../unit/backtestFleet.ts';
+
+const CHROMIUM = '/usr/bin/chromium';
+const HAVE_CHROMIUM = existsSync(CHROMIUM);
+const NOW = ['--now', '2026-01-01T00:00:00Z'];
+const BUDGET = '1 per component per 3 years';
+
+function embedded(html: string): unknown {
+  const json = /<script type="application\/json" id="summary">([\s\S]*?)<\/script>/.exec(html)?.[1];
+  if (json === undefined) throw new Error('no embedded summary');
+  return JSON.parse(json);
+}
+
+/** Splits a command line shown to users into arguments (double quotes group words). */
+function words(command: string): string[] {
+  return [...command.matchAll(/"([^"]*)"|(\S+)/g)].map((m) => m[1] ?? m[2]!);
+}
+
+describe('wearshift backtest', () => {
+  let dir: string;
+  const file = (name: string) => join(dir, name);
+
+  beforeAll(() => {
+    dir = mkdtempSync(join(tmpdir(), 'wearshift-backtest-'));
+    writeFileSync(file('fleet.jsonl'), fleetJsonl());
+    writeFileSync(file('config.yaml'), FLEET_CONFIG);
+    writeFileSync(file('other.yaml'), OTHER_CONFIG);
+  });
+  afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+  describe('report and JSON', () => {
+    let summary: BacktestSummary;
+    let html: string;
+
+    beforeAll(async () => {
+      const r = await runCli(['backtest', file('fleet.jsonl'), '--config', file('config.yaml'), '--out', file('report.html'), '--json', ...NOW]);
+      expect(r.stderr).toBe('');
+      expect(r.code).toBe(0);
+      const lines = r.stdout.trim().split('\n');
+      expect(lines).toHaveLength(1);
+      summary = JSON.parse(lines[0]!) as BacktestSummary;
+      html = readFileSync(file('report.html'), 'utf8');
+    });
+
+    it('prints the summary the page embeds', () => {
+      expect(embedded(html)).toEqual(summary);
+      expect(summary.records).toBe(fleetEvents().length);
+      expect(summary.runs[0]!.episodes.filter((e) => e.caughtBy === 'both').map((e) => e.unit).sort()).toEqual(STEPPED_UNITS);
+    });
+
+    it.skipIf(!HAVE_CHROMIUM)('opens offline in Chromium without a console error and asks the network for nothing', async () => {
+      const profile = mkdtempSync(join(tmpdir(), 'wearshift-chromium-'));
+      const context = await chromium.launchPersistentContext(profile, {
+        executablePath: CHROMIUM,
+        args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking', '--disable-quic', '--no-first-run', '--disable-component-update', '--disable-sync'],
+      });
+      const requested: string[] = [];
+      const problems: string[] = [];
+      try {
+        await context.route('**/*', (route) => {
+          const url = route.request().url();
+          if (url === `file://${file('report.html')}`) return route.continue();
+          requested.push(url);
+          return route.abort();
+        });
+        const page = await context.newPage();
+        page.on('console', (m) => {
+          if (m.type() === 'error' || m.type() === 'warning') problems.push(`${m.type()}: ${m.text()}`);
+        });
+        page.on('pageerror', (e) => problems.push(`page error: ${e.message}`));
+        await page.goto(`file://${file('report.html')}`, { waitUntil: 'load' });
+        const both = summary.runs[0]!.episodes.filter((e) => e.caughtBy === 'both');
+        await expect.poll(() => page.locator('#earliness tr[data-incident]').count()).toBe(both.length);
+        const text = await page.locator(`#earliness tr[data-incident="${both[0]!.incidentId}"]`).innerText();
+        expect(text).toContain(`${both[0]!.leadVsLimit!.samples} sample`);
+        expect(await page.locator('details.component').count()).toBe(summary.fleet.components);
+        expect(await page.locator('details.component[open] svg').first().isVisible()).toBe(true);
+        expect(JSON.parse((await page.locator('#summary').textContent())!)).toEqual(summary);
+      } finally {
+        await context.close();
+        rmSync(profile, { recursive: true, force: true });
+      }
+      expect(requested).toEqual([]);
+      expect(problems).toEqual([]);
+    });
+  });
+
+  if (!HAVE_CHROMIUM) console.warn(`backtest browser check skipped: no Chromium at ${CHROMIUM} (apt-get install -y chromium)`);
+  if (!HAVE_CHROMIUM) it.skip(`browser check skipped: no Chromium at ${CHROMIUM} (apt-get install -y chromium)`, () => {});
+
+  it('designs h and L from a budget as wearshift design does for the same target', async () => {
+    const bt = await runCli(['backtest', file('fleet.jsonl'), '--config', file('config.yaml'), '--budget', BUDGET, '--json', ...NOW]);
+    expect(bt.code).toBe(0);
+    const p = (JSON.parse(bt.stdout) as BacktestSummary).runs[0]!.parameters[0]!;
+    // Fe watched by EWMA and CUSUM: two charts share the component's budget; samples every 250 h (the configured default).
+    const common = ['--budget', BUDGET, '--every', '250', '--charts', '2', '--json'];
+    const cusum = JSON.parse((await runCli(['design', 'cusum', '--k', '0.5', ...common])).stdout);
+    const ewma = JSON.parse((await runCli(['design', 'ewma', '--lambda', '0.2', '--exact-limits', ...common])).stdout);
+    expect(p.cusum.h).toBe(cusum.h);
+    expect(p.ewma.L).toBe(ewma.L);
+    expect(p.arl0).toBe(cusum.arl0);
+    expect({ alarms: p.budget.alarms, years: p.budget.years, samplesPerComponent: p.samplesPerComponent, componentArl0: p.componentArl0, charts: p.charts }).toEqual({
+      alarms: cusum.budget.alarms,
+      years: cusum.budget.years,
+      samplesPerComponent: cusum.budget.samplesPerComponent,
+      componentArl0: cusum.budget.componentArl0,
+      charts: cusum.budget.charts,
+    });
+    // The commands the report shows print the same numbers.
+    const shown = await Promise.all(p.designCommands.map((c) => runCli([...words(c).slice(1), '--json'])));
+    expect(shown.map((r) => JSON.parse(r.stdout)).map((j) => j.h ?? j.L)).toEqual([p.cusum.h, p.ewma.L]);
+    // One false alarm in 3 years allows more per sample than the configured one in 5 years: a lower h.
+    const plain = await runCli(['backtest', file('fleet.jsonl'), '--config', file('config.yaml'), '--json', ...NOW]);
+    expect((JSON.parse(plain.stdout) as BacktestSummary).runs[0]!.parameters[0]!.cusum.h).toBeGreaterThan(p.cusum.h);
+  });
+
+  it('shows two configurations side by side and marks what differs', async () => {
+    const r = await runCli(['backtest', file('fleet.jsonl'), '--config', file('config.yaml'), '--compare', file('other.yaml'), '--out', file('compare.html'), ...NOW]);
+    expect(r.code).toBe(0);
+    expect(r.stdout).toContain(`differs: incidents with cusum`);
+    const html = readFileSync(file('compare.html'), 'utf8');
+    const summary = embedded(html) as BacktestSummary;
+    expect(summary.runs.map((x) => x.configFile)).toEqual([file('config.yaml'), file('other.yaml')]);
+    const differing = summary.comparison!.filter((row) => row.differs).map((row) => row.metric);
+    expect(differing).toContain('incidents with cusum');
+    expect(html.match(/<tr class="differs">/g)?.length).toBe(differing.length);
+  });
+
+  it('reports a bad record by line and field, and backtests the rest', async () => {
+    const lines = fleetJsonl().trim().split('\n');
+    const bad = JSON.parse(lines[3]!);
+    bad.readings.Fe = 'lots';
+    lines[3] = JSON.stringify(bad);
+    lines.splice(7, 0, '{not json');
+    writeFileSync(file('bad.jsonl'), lines.join('\n') + '\n');
+    const r = await runCli(['backtest', file('bad.jsonl'), '--config', file('config.yaml'), '--json', ...NOW]);
+    expect(r.code).toBe(1);
+    expect(r.stderr).toMatch(new RegExp(`^line 4 \\(sampleId ${bad.sampleId}\\): readings\\.Fe: `, 'm'));
+    expect(r.stderr).toMatch(/^line 8: \(record\): not valid JSON/m);
+    const summary = JSON.parse(r.stdout) as BacktestSummary;
+    expect([summary.records, summary.rejected, summary.fleet.samples]).toEqual([lines.length, 2, lines.length - 2]);
+  });
+
+  it('refuses a missing file, an unreadable budget and a run without an output', async () => {
+    const [missing, budget, none, format] = await Promise.all([
+      runCli(['backtest', file('nowhere.jsonl'), '--out', file('x.html')]),
+      runCli(['backtest', file('fleet.jsonl'), '--budget', 'rarely', '--json']),
+      runCli(['backtest', file('fleet.jsonl')]),
+      runCli(['backtest', file('config.yaml'), '--json']),
+    ]);
+    expect(missing.code).toBe(2);
+    expect(missing.stderr).toContain(`${file('nowhere.jsonl')}: ENOENT`);
+    expect(budget.code).toBe(2);
+    expect(budget.stderr).toContain('false-alarm budget "rarely" not understood');
+    expect(none.code).toBe(2);
+    expect(none.stderr).toContain('give --out report.html, --json, or both');
+    expect(format.code).toBe(2);
+    expect(format.stderr).toContain('cannot tell the format');
+  });
+});
