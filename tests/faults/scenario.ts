@@ -48,8 +48,7 @@ export interface Scenario {
  * backfilled findings paging like live ones so that the old simulated dates still notify.
  */
 export function scenarioConfig(options: ScenarioOptions): string {
-  const email = options.smtpPort !== undefined;
-  const webhook = options.webhookUrl !== undefined;
+  const notifies = options.smtpPort !== undefined || options.webhookUrl !== undefined;
   return `
 redis: { prefix: "${PREFIX}" }
 detection:
@@ -65,7 +64,13 @@ groups:
     limits:
       Fe: { caution: 45, alarm: 70 }
       Si: { caution: 15, alarm: 25 }
-escalation:
+${notifies ? notifying(options) : ''}`;
+}
+
+function notifying(options: ScenarioOptions): string {
+  const email = options.smtpPort !== undefined;
+  const webhook = options.webhookUrl !== undefined;
+  return `escalation:
   policies:
     - name: control-room
       tiers:
