@@ -18,7 +18,8 @@ import type { Measurand } from '../domain/measurands.ts';
 import { resolveSettings, type ComponentSettings } from '../domain/settings.ts';
 import { bandStatsFromSums } from '../storage/populationSums.ts';
 import type { ComponentRef, FedPosition, Lease, Storage } from '../storage/storage.ts';
-import type { IncidentFeed, IncidentFeedResult } from './incidentFeed.ts';
+import type { IncidentEffect } from '../incidents/model.ts';
+import type { IncidentChange, IncidentContext, IncidentFeed, IncidentFeedResult } from './incidentFeed.ts';
 
 export interface EvaluationDeps {
   readonly storage: Storage;
@@ -76,10 +77,7 @@ async function evaluateUnderLease(deps: EvaluationDeps, ref: ComponentRef, lease
   const { fed, fresh } = stepsToFeed(evaluation.steps, fedBefore);
   const now = deps.now();
   const quietBefore = new Date(now - deps.config.backfill.quietAfterDays * DAY_MS);
-  const incidents: IncidentFeedResult =
-    deps.incidents === undefined || fed.length === 0
-      ? { changes: [], effects: [] }
-      : await deps.incidents.apply(ref, fed, { group: settings.group, now: new Date(now), quietBefore });
+  const incidents = await feedIncidents(deps.incidents, ref, fed, { group: settings.group, now: new Date(now), quietBefore });
   const last = fed.at(-1);
   if (lost()) return { kind: 'lost-lock' };
   const committed = await storage.commit(ref, lease, {
@@ -99,6 +97,22 @@ async function evaluateUnderLease(deps: EvaluationDeps, ref: ComponentRef, lease
     incidents,
     durationMs: performance.now() - started,
   };
+}
+
+/**
+ * One step at a time, as replay feeds them, so that the incidents do not depend on how many results one
+ * evaluation took in: an incident opened and closed inside a batch is committed like any other.
+ */
+async function feedIncidents(feed: IncidentFeed | undefined, ref: ComponentRef, steps: readonly Step[], context: IncidentContext): Promise<IncidentFeedResult> {
+  const changes: IncidentChange[] = [];
+  const effects: IncidentEffect[] = [];
+  if (feed === undefined) return { changes, effects };
+  for (const step of steps) {
+    const r = await feed.apply(ref, [step], context);
+    changes.push(...r.changes);
+    effects.push(...r.effects);
+  }
+  return { changes, effects };
 }
 
 /** Steps after the last one fed; when none, the latest step again (see the module comment). */

@@ -1,7 +1,7 @@
 /**
  * The queues and the options their jobs carry. `results` holds lab results as received; `evaluate` holds
- * one job per component at most waiting and one active (BullMQ deduplication with keepLastIfActive), so a
- * burst of results for one component collapses into one evaluation of its whole history.
+ * at most one job per component waiting and one active (BullMQ deduplication), so a burst of results for
+ * one component collapses into one evaluation of its whole history.
  */
 import { Queue, type ConnectionOptions, type JobsOptions, type KeepJobs } from 'bullmq';
 import { componentKey } from '../domain/event.ts';
@@ -57,8 +57,17 @@ export function openQueue(name: QueueName, connection: ConnectionOptions, settin
   return queue;
 }
 
-/** Schedules an evaluation of the component; collapses with one already waiting. */
-export async function scheduleEvaluation(queue: Queue, ref: ComponentRef): Promise<void> {
+/** Results of one component arriving closer together than this are evaluated together. */
+export const DEFAULT_EVALUATE_DEBOUNCE_MS = 250;
+
+/**
+ * Schedules an evaluation of the component `debounceMs` from now. A later result of the same component
+ * replaces the scheduled job and starts the wait again (debounce), so a burst — an import, a lab sending a
+ * batch — is evaluated once, after its last result is stored, and results processed side by side by several
+ * workers are all in the history before the incident engine sees any of them. While an evaluation runs, one
+ * more is kept to follow it (keepLastIfActive).
+ */
+export async function scheduleEvaluation(queue: Queue, ref: ComponentRef, debounceMs = DEFAULT_EVALUATE_DEBOUNCE_MS): Promise<void> {
   const data: EvaluateJobData = { unit: ref.unit, component: ref.component };
-  await queue.add('evaluate', data, { deduplication: { id: componentKey(ref), keepLastIfActive: true } });
+  await queue.add('evaluate', data, { delay: debounceMs, deduplication: { id: componentKey(ref), keepLastIfActive: true, replace: true } });
 }

@@ -20,7 +20,7 @@ import { DEFAULT_LOCK_TTL_MS, evaluateStored, type EvaluationResult } from './ev
 import { incidentMessage } from './incidentMessage.ts';
 import { DeliveryRetry, type NotificationChannels } from './notificationChannels.ts';
 import { startOutboxRelay, type EscalateJobData } from './outboxRelay.ts';
-import { openQueue, QUEUE_NAMES, resolveQueueSettings, scheduleEvaluation, type EvaluateJobData, type QueueSettings } from './queues.ts';
+import { DEFAULT_EVALUATE_DEBOUNCE_MS, openQueue, QUEUE_NAMES, resolveQueueSettings, scheduleEvaluation, type EvaluateJobData, type QueueSettings } from './queues.ts';
 import { redisIncidentFeed } from './redisIncidentFeed.ts';
 import { InvalidResultError, storeResult } from './storeResult.ts';
 
@@ -33,6 +33,8 @@ export interface WorkerSettings extends QueueSettings {
   lockTtlMs?: number;
   /** Delay before trying again an evaluation whose component another worker is evaluating. Default 500 ms. */
   busyRetryMs?: number;
+  /** Wait after a component's latest result before it is evaluated; a further result restarts the wait. Default 250 ms. */
+  evaluateDebounceMs?: number;
   /** Notifications this process delivers at once. Default 4. */
   notifyConcurrency?: number;
   /** Delivery attempts of one notification (backoff from 5 s, doubling, at most an hour apart). Default 20. */
@@ -46,6 +48,7 @@ export const WORKER_DEFAULTS = {
   evaluateConcurrency: 2,
   lockTtlMs: DEFAULT_LOCK_TTL_MS,
   busyRetryMs: 500,
+  evaluateDebounceMs: DEFAULT_EVALUATE_DEBOUNCE_MS,
   notifyConcurrency: 4,
   notifyAttempts: 20,
   outboxIntervalMs: 1000,
@@ -111,7 +114,7 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
         throw e;
       }
       metrics?.stored(stored.outcome.status);
-      if (stored.outcome.evaluationDue) await scheduleEvaluation(evaluateQueue, stored.sample);
+      if (stored.outcome.evaluationDue) await scheduleEvaluation(evaluateQueue, stored.sample, s.evaluateDebounceMs);
       const { sample } = stored;
       if (stored.outcome.status === 'new' || stored.outcome.status === 'replacement') {
         deps.live?.({ type: 'result', unit: sample.unit, component: sample.component, sampleId: sample.sampleId, sampledAt: sample.sampledAt });

@@ -1,6 +1,8 @@
 /**
  * Scaling out: two `wearshift worker` processes on one Redis must end in the state one process reaches on
- * the same input — histories, registry, population sums, baselines, findings and incidents.
+ * the same input — histories, registry, population sums, baselines, findings and incidents. Incidents follow
+ * the order in which the engine sees the steps; the evaluation debounce (queues.ts) lets a burst be stored
+ * completely, whichever process stores which result, before a component is evaluated.
  */
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -50,20 +52,26 @@ async function runWith(processes: number, prefix: string, redis: Redis) {
   const file = join(dir, `${processes}.yaml`);
   writeFileSync(file, config(prefix));
   const workers = Array.from({ length: processes }, () => startCli(['worker', '--config', file], { REDIS_URL: server.url, LOG_LEVEL: 'warn' }));
+  const settings = resolveQueueSettings({ prefix });
+  const queues = [QUEUE_NAMES.results, QUEUE_NAMES.evaluate].map((n) => openQueue(n, redis, settings));
   try {
+    // Every process must be taking jobs before the results arrive, or the first one does all the work.
+    const deadline = Date.now() + 60_000;
+    while ((await queues[0]!.getWorkersCount()) < processes) {
+      if (Date.now() > deadline) throw new Error(`only ${await queues[0]!.getWorkersCount()} of ${processes} workers came up`);
+      await new Promise((r) => setTimeout(r, 200));
+    }
     const producer = createResultProducer({ connection: redis, prefix });
     // Twice, shuffled the second time: redeliveries arrive while the first copies are being processed.
     await producer.add(fleet);
     await producer.add([...fleet].reverse());
     await producer.close();
-    const settings = resolveQueueSettings({ prefix });
-    const queues = [QUEUE_NAMES.results, QUEUE_NAMES.evaluate].map((n) => openQueue(n, redis, settings));
     await drained(queues, 120_000);
     const completed = await queues[0]!.getCompleted(0, 1000);
     const processedBy = new Set(completed.map((j) => j.processedBy));
-    await Promise.all(queues.map((q) => q.close()));
     return { processedBy, state: await snapshot(redis, prefix) };
   } finally {
+    await Promise.all(queues.map((q) => q.close()));
     for (const w of workers) expect(await w.stop()).toBe(0);
   }
 }
