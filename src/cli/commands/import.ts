@@ -91,7 +91,7 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
     }
     await flush();
   } finally {
-    progress?.update(size);
+    progress?.update(size, { accepted: counts.accepted, rejected: counts.rejected });
     bar?.stop();
     await producer?.close();
   }
