@@ -30,7 +30,9 @@ export function componentCharts(run: ComponentRun, options: ChartOptions = {}): 
   const series = buildComponentSeries(evaluation, run.settings, run.groupStats);
   const detection = new Set<Measurand>(run.settings.detection.measurands);
   const flaggedOnly = options.flaggedOnly ?? true;
-  return series.measurands
+  // Measurands where a rule fired first, so that an open component shows its story at the top.
+  const measurands = [...series.measurands].sort((a, b) => Number(b.marks.length > 0) - Number(a.marks.length > 0));
+  return measurands
     .filter((m) => !flaggedOnly || m.marks.length > 0 || detection.has(m.measurand))
     .flatMap((m) => {
       const plotted = m.charges.some((c) => c.points.length > 0) || (m.cleanliness?.points.length ?? 0) > 0;

@@ -52,8 +52,10 @@ export function renderBacktestReport(summary: BacktestSummary, components: reado
     '<main>',
     headline(summary, main),
     summary.comparison === null ? '' : comparison(summary),
-    parameters(summary),
+    '<div class="pair">',
     families(summary),
+    parameters(summary),
+    '</div>',
     earlinessSection(summary),
     oneSided(summary),
     episodesSection(main),
@@ -99,7 +101,7 @@ function headline(s: BacktestSummary, r: RunSummary): string {
     card(
       cls.medianSamples === null ? '–' : `${num(cls.medianSamples, 3)} samples`,
       'median lead over classic rules',
-      cls.episodes === 0 ? 'none caught by both' : `limit, rate or group limit; ${cls.medianHours === null ? '' : `${num(cls.medianHours, 4)} h, `}over ${cls.episodes} ${plural(cls.episodes, 'incident')}`,
+      cls.episodes === 0 ? 'none caught by both' : `first of fixed, rate or group limit; ${cls.medianHours === null ? '' : `${num(cls.medianHours, 4)} operating hours, `}over ${cls.episodes} ${plural(cls.episodes, 'incident')}`,
       'lead-classic',
     ),
     card(`${r.oneSided.changeOnly.length} / ${r.oneSided.classicOnly.length}`, 'one side only', 'EWMA/CUSUM only / classic rules only', 'one-sided'),
@@ -240,7 +242,8 @@ function oneSided(s: BacktestSummary): string {
 }
 
 function episodeItem(x: EpisodeSummary): string {
-  return `<li data-incident="${e(x.incidentId)}">${severityTag(x.peakSeverity)} <strong>${e(`${x.unit} / ${x.component}`)}</strong> from ${day(x.openedAt)}: ${e(x.families.map((f) => FAMILY_WORD[f]).join(', '))}</li>`;
+  const what = x.firsts.map((f) => `${FAMILY_WORD[f.rule]}${arrow(f.direction)} ${f.measurand}`).join(', ');
+  return `<li data-incident="${e(x.incidentId)}">${severityTag(x.peakSeverity)} <a href="#${anchor(x.unit, x.component)}"><strong>${e(`${x.unit} / ${x.component}`)}</strong></a> from ${day(x.openedAt)}: ${e(what)}</li>`;
 }
 
 function episodesSection(r: RunSummary): string {
@@ -268,9 +271,12 @@ function componentsSection(s: BacktestSummary, r: RunSummary, components: readon
   const out = [
     '<section aria-labelledby="h-components" id="components">',
     '<h2 id="h-components">Trend charts per component</h2>',
-    `<p>Marks show where each rule family fired as each sample arrived${s.runs.length > 1 ? ` under ${e(r.label)}` : ''}: ${(['watch', 'caution', 'alarm'] as const).map((x) => severityTag(x)).join(' ')}. Components with an incident are open; the others are folded.</p>`,
+    `<p>Marks show where each rule family fired as each sample arrived${s.runs.length > 1 ? ` under ${e(r.label)}` : ''}: ${(['watch', 'caution', 'alarm'] as const).map((x) => severityTag(x)).join(' ')}. The lines show the history as finally stored: a result corrected later, or a baseline completed later, can leave a mark where the line no longer crosses its limit. Components with an incident come first, most severe first, and are open; the others are folded.</p>`,
   ];
-  for (const c of components) {
+  const peakOf = (c: ReportComponent) =>
+    r.episodes.filter((x) => x.unit === c.unit && x.component === c.component).reduce((p, x) => Math.max(p, SEVERITY_RANK[x.peakSeverity]), -1);
+  const ordered = [...components].sort((a, b) => peakOf(b) - peakOf(a));
+  for (const c of ordered) {
     const span = spans.get(`${c.unit}/${c.component}`);
     const incidents = r.episodes.filter((x) => x.unit === c.unit && x.component === c.component);
     const peak = incidents.reduce<Severity | null>((p, x) => (p === null || SEVERITY_RANK[x.peakSeverity] > SEVERITY_RANK[p] ? x.peakSeverity : p), null);
@@ -336,6 +342,9 @@ h1 { margin: 4px 0 6px; font-size: 24px; font-weight: 600; }
 .lede { margin: 0; color: var(--muted); }
 main { padding: 8px 32px 24px; max-width: 1180px; }
 section { margin: 22px 0; }
+.pair { display: grid; grid-template-columns: minmax(0, 1fr); gap: 0 28px; }
+@media (min-width: 1100px) { .pair { grid-template-columns: 500px minmax(0, 1fr); } }
+#families th[scope="row"] { white-space: nowrap; }
 h2 { font-size: 18px; font-weight: 600; margin: 0 0 10px; padding-bottom: 4px; border-bottom: 1px solid #c9c9c7; }
 h3 { font-size: 15px; margin: 14px 0 6px; }
 h4 { font-size: 14px; margin: 0 0 6px; }
@@ -348,7 +357,7 @@ p { margin: 6px 0; }
 table { border-collapse: collapse; background: var(--panel); border: 1px solid #cfcfcd; font-size: 14px; }
 th, td { padding: 6px 10px; border-bottom: 1px solid var(--line); text-align: left; vertical-align: top; }
 thead th { background: #e9e9e7; font-weight: 600; font-size: 13px; color: #333; }
-td.n { text-align: right; font-variant-numeric: tabular-nums; }
+td.n { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
 tr.total th, tr.total td { border-top: 2px solid #bdbdbb; }
 .code { font-family: "DejaVu Sans Mono", monospace; font-size: 12px; color: var(--muted); }
 .sub { display: block; font-size: 12px; color: var(--muted); font-weight: normal; }
@@ -362,7 +371,7 @@ tr.total th, tr.total td { border-top: 2px solid #bdbdbb; }
 .params { background: var(--panel); border: 1px solid #cfcfcd; border-radius: 6px; padding: 10px 14px; margin: 8px 0; }
 .params .groups { font-weight: 600; margin: 0 0 4px; }
 .conversion { margin: 4px 0; padding-left: 22px; }
-pre { background: #ececea; border: 1px solid #d4d4d2; padding: 8px 10px; overflow-x: auto; font-size: 12.5px; margin: 4px 0 0; }
+pre { background: #ececea; border: 1px solid #d4d4d2; padding: 8px 10px; white-space: pre-wrap; overflow-wrap: anywhere; font-size: 12.5px; margin: 4px 0 0; }
 .cmd-note { font-size: 13px; color: var(--muted); margin-bottom: 0; }
 .medians { background: var(--panel); border-left: 4px solid #8a8a8a; padding: 8px 12px; }
 .sides { display: grid; grid-template-columns: repeat(auto-fit, minmax(280px, 1fr)); gap: 12px; }
