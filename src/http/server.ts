@@ -15,8 +15,9 @@ import type { Metrics } from '../runtime/metrics.ts';
 import { groupStatsFor } from '../queue/evaluateStored.ts';
 import type { Storage } from '../storage/storage.ts';
 import { ackLinkRoutes } from './ackLinkRoutes.ts';
-import type { EventHub } from './eventHub.ts';
+import { announcingActions, type EventHub, type LiveEvent } from './eventHub.ts';
 import { eventRoutes } from './eventRoutes.ts';
+import { boardRoutes } from './boardRoutes.ts';
 import { healthRoutes } from './healthRoutes.ts';
 import { incidentRoutes } from './incidentRoutes.ts';
 import { metricsRoute } from './metrics.ts';
@@ -42,6 +43,8 @@ export interface ServerOptions {
   readonly hub?: EventHub;
   /** Link-signing secrets (current first); the pages are served only with a store and at least one secret. */
   readonly ackLinkSecrets?: readonly string[];
+  /** Announces incident actions taken here to every process's live feed (Redis pub/sub), so all boards update. */
+  readonly announce?: (event: LiveEvent) => void;
 }
 
 export async function buildServer(options: ServerOptions) {
@@ -63,8 +66,10 @@ export async function buildServer(options: ServerOptions) {
       },
     });
   }
-  const store = options.incidents;
+  // Acknowledgements from the API, the board or an e-mail link are announced like the worker's incident changes.
+  const store = options.incidents && (options.announce ? announcingActions(options.incidents, options.announce) : options.incidents);
   if (store !== undefined) await app.register(incidentRoutes, { store });
+  if (options.producer !== undefined) await app.register(boardRoutes);
   if (store !== undefined && (options.ackLinkSecrets?.length ?? 0) > 0) {
     await app.register(ackLinkRoutes, {
       secrets: [...options.ackLinkSecrets!],

@@ -137,6 +137,7 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
         histories: { storage: new RedisStorage(request, { prefix }), config },
         hub,
         ackLinkSecrets,
+        announce: livePublisher(request, prefix, logger),
       });
       stopHttp.push({ name: 'result producer', close: () => producer.close() });
     } else {
