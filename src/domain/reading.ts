@@ -15,6 +15,12 @@ export interface Iso4406Code {
   readonly p14: number;
 }
 
+/**
+ * No measurand reaches this in its unit (a million ppm is pure metal; particle counts per mL stay below 1e7).
+ * Larger numbers are typing or unit errors, and near the float limit the rules' arithmetic overflows.
+ */
+export const MAX_READING = 1e9;
+
 const CENSORED = /^\s*([<>])\s*=?\s*(\d+(?:\.\d+)?)\s*$/;
 const NUMBER = /^\s*[-+]?\d+(?:\.\d+)?(?:[eE][-+]?\d+)?\s*$/;
 const ISO_CODE = /^\s*(-|\d{1,2})\s*\/\s*(\d{1,2})\s*\/\s*(\d{1,2})\s*$/;
@@ -24,8 +30,11 @@ export type ParsedReading = { ok: true; reading: Reading } | { ok: false; reason
 /** Parses a reading as labs send it: a number, a censored string such as "<1", or an ISO 4406 code "18/16/13". */
 export function parseReading(raw: unknown, measurand: string): ParsedReading {
   if (typeof raw === 'number') {
+    // A bare number is no cleanliness code; accepted, it would be stored and never judged.
+    if (measurand === 'iso4406') return { ok: false, reason: `expected an ISO 4406 code such as "18/16/13" or "-/16/13", got the number ${raw}` };
     if (!Number.isFinite(raw)) return { ok: false, reason: 'must be a finite number' };
     if (raw < 0) return { ok: false, reason: `must not be negative (got ${raw})` };
+    if (raw > MAX_READING) return { ok: false, reason: `is implausibly large (got ${raw}, at most ${MAX_READING})` };
     return { ok: true, reading: { kind: 'value', value: raw } };
   }
   if (typeof raw !== 'string') return { ok: false, reason: `expected a number or a string such as "<1", got ${describe(raw)}` };
@@ -37,7 +46,11 @@ export function parseReading(raw: unknown, measurand: string): ParsedReading {
     return { ok: true, reading: { kind: 'code', code: { p4, p6, p14 } } };
   }
   const c = CENSORED.exec(raw);
-  if (c) return { ok: true, reading: { kind: 'censored', bound: c[1] === '<' ? 'below' : 'above', limit: Number(c[2]) } };
+  if (c) {
+    const limit = Number(c[2]);
+    if (limit > MAX_READING) return { ok: false, reason: `is implausibly large (got "${clip(raw)}", at most ${MAX_READING})` };
+    return { ok: true, reading: { kind: 'censored', bound: c[1] === '<' ? 'below' : 'above', limit } };
+  }
   if (NUMBER.test(raw)) return parseReading(Number(raw), measurand);
   return { ok: false, reason: `expected a number or a censored value such as "<1" or ">5000", got "${clip(raw)}"` };
 }
