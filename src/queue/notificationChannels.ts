@@ -14,6 +14,7 @@ import { EmailDeliveryError, sendEmail } from '../notify/emailSend.ts';
 import { asksForAcknowledgement, type IncidentMessage } from '../notify/message.ts';
 import { createMqttPublisher, type MqttPublisher } from '../notify/mqttPublisher.ts';
 import { deliverWebhook } from '../notify/webhookDelivery.ts';
+import type { DisabledEndpoints } from './disabledEndpoints.ts';
 import type { Logger } from '../runtime/logger.ts';
 
 export class DeliveryRetry extends Error {
@@ -38,6 +39,8 @@ export interface NotificationChannelOptions {
   readonly env?: NodeJS.ProcessEnv;
   /** Longest wait for an MQTT broker's acknowledgement. Default 30 000 ms. */
   readonly mqttTimeoutMs?: number;
+  /** Where a 410 Gone is remembered; without it, a 410 fails only the delivery at hand. */
+  readonly disabledEndpoints?: DisabledEndpoints;
 }
 
 /** Secrets are environment variable names in the configuration; a literal `whsec_` value is allowed for webhooks. */
@@ -112,6 +115,8 @@ export function notificationChannels(channels: Channels, options: NotificationCh
   const webhook = async (effect: NotifyEffect, message: IncidentMessage, attempt: number): Promise<string> => {
     const c = channels.webhooks.find((w) => w.name === effect.target);
     if (c === undefined) throw new UnrecoverableError(`no webhook named "${effect.target}" in channels.webhooks`);
+    const disabled = await options.disabledEndpoints?.reason(c.name);
+    if (disabled !== undefined) return `webhook ${c.name}: not sent, the endpoint is disabled (${disabled})`;
     const endpoint = { url: c.url, secrets: c.secrets.map((s) => secretFrom(s, env, `channels.webhooks ${c.name}`)), timeoutMs: c.timeoutMs };
     const result = await deliverWebhook(endpoint, toCloudEvent(message, { time: effect.at }), { now: new Date(), attempt });
     const what = `webhook ${c.name}: ${result.status ?? result.error ?? 'no response'}`;
@@ -121,7 +126,8 @@ export function notificationChannels(channels: Channels, options: NotificationCh
       case 'retry':
         throw new DeliveryRetry(what, result.retryAfterMs);
       case 'disable':
-        throw new UnrecoverableError(`${what}: the receiver answered 410 Gone and asks not to be called again; remove it from the configuration`);
+        await options.disabledEndpoints?.disable(c.name, `410 Gone at ${new Date().toISOString()}`);
+        throw new UnrecoverableError(`${what}: the receiver answered 410 Gone and asks not to be called again; the endpoint is disabled until removed from the configuration`);
       case 'give-up':
         throw new UnrecoverableError(`${what}: the receiver refused the delivery`);
     }

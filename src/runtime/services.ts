@@ -11,6 +11,7 @@ import { buildServer } from '../http/server.ts';
 import { RedisIncidentStore } from '../incidents/redisIncidentStore.ts';
 import { incidentRules } from '../incidents/policy.ts';
 import { createResultProducer } from '../intake/producer.ts';
+import { redisDisabledEndpoints } from '../queue/disabledEndpoints.ts';
 import { notificationChannels } from '../queue/notificationChannels.ts';
 import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../queue/queues.ts';
 import { startWorkers, type WorkerSettings } from '../queue/workers.ts';
@@ -107,7 +108,7 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
         logger,
         metrics,
         incidentStore,
-        ...(hasChannels && { channels: notificationChannels(config.channels, { logger, env }) }),
+        ...(hasChannels && { channels: notificationChannels(config.channels, { logger, env, disabledEndpoints: redisDisabledEndpoints(connection, prefix) }) }),
         apiBaseUrl,
         live: livePublisher(connection, prefix, logger),
       },
