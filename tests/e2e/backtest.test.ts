@@ -102,13 +102,18 @@ describe('wearshift backtest', () => {
   if (!HAVE_CHROMIUM) it.skip(`browser check skipped: no Chromium at ${CHROMIUM} (apt-get install -y chromium)`, () => {});
 
   it('designs h and L from a budget as wearshift design does for the same target', async () => {
-    const bt = await runCli(['backtest', file('fleet.jsonl'), '--config', file('config.yaml'), '--budget', BUDGET, '--json', ...NOW]);
-    expect(bt.code).toBe(0);
-    const p = (JSON.parse(bt.stdout) as BacktestSummary).runs[0]!.parameters[0]!;
     // Fe watched by EWMA and CUSUM: two charts share the component's budget; samples every 250 h (the configured default).
     const common = ['--budget', BUDGET, '--every', '250', '--charts', '2', '--json'];
-    const cusum = JSON.parse((await runCli(['design', 'cusum', '--k', '0.5', ...common])).stdout);
-    const ewma = JSON.parse((await runCli(['design', 'ewma', '--lambda', '0.2', '--exact-limits', ...common])).stdout);
+    const [bt, plain, cusumRun, ewmaRun] = await Promise.all([
+      runCli(['backtest', file('fleet.jsonl'), '--config', file('config.yaml'), '--budget', BUDGET, '--json', ...NOW]),
+      runCli(['backtest', file('fleet.jsonl'), '--config', file('config.yaml'), '--json', ...NOW]),
+      runCli(['design', 'cusum', '--k', '0.5', ...common]),
+      runCli(['design', 'ewma', '--lambda', '0.2', '--exact-limits', ...common]),
+    ]);
+    expect(bt.code).toBe(0);
+    const p = (JSON.parse(bt.stdout) as BacktestSummary).runs[0]!.parameters[0]!;
+    const cusum = JSON.parse(cusumRun.stdout);
+    const ewma = JSON.parse(ewmaRun.stdout);
     expect(p.cusum.h).toBe(cusum.h);
     expect(p.ewma.L).toBe(ewma.L);
     expect(p.arl0).toBe(cusum.arl0);
@@ -123,9 +128,8 @@ describe('wearshift backtest', () => {
     const shown = await Promise.all(p.designCommands.map((c) => runCli([...words(c).slice(1), '--json'])));
     expect(shown.map((r) => JSON.parse(r.stdout)).map((j) => j.h ?? j.L)).toEqual([p.cusum.h, p.ewma.L]);
     // One false alarm in 3 years allows more per sample than the configured one in 5 years: a lower h.
-    const plain = await runCli(['backtest', file('fleet.jsonl'), '--config', file('config.yaml'), '--json', ...NOW]);
     expect((JSON.parse(plain.stdout) as BacktestSummary).runs[0]!.parameters[0]!.cusum.h).toBeGreaterThan(p.cusum.h);
-  });
+  }, 180_000);
 
   it('shows two configurations side by side and marks what differs', async () => {
     const r = await runCli(['backtest', file('fleet.jsonl'), '--config', file('config.yaml'), '--compare', file('other.yaml'), '--out', file('compare.html'), ...NOW]);
@@ -169,5 +173,5 @@ describe('wearshift backtest', () => {
     expect(none.stderr).toContain('give --out report.html, --json, or both');
     expect(format.code).toBe(2);
     expect(format.stderr).toContain('cannot tell the format');
-  });
+  }, 120_000);
 });
