@@ -1,0 +1,142 @@
+/**
+ * A flood for one component: 2 000 results in one request over a real port, with the queue workers running
+ * in-process on a private redis-server. All are stored; the component is evaluated by one evaluation at a
+ * time (never two at once), far fewer times than there are results; and the API keeps answering within a
+ * second while the flood is worked off.
+ */
+import type { AddressInfo } from 'node:net';
+import type { Queue } from 'bullmq';
+import type { Redis } from 'ioredis';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { parseConfig } from '../../src/domain/configFile.ts';
+import { buildServer, type WearshiftServer } from '../../src/http/server.ts';
+import { createResultProducer, type ResultProducer } from '../../src/intake/producer.ts';
+import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
+import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
+import { silentLogger } from '../../src/runtime/logger.ts';
+import { createMetrics } from '../../src/runtime/metrics.ts';
+import { RedisStorage } from '../../src/storage/redisStorage.ts';
+import { inventedFleet } from '../helpers/fleetCsv.ts';
+import { drained } from '../helpers/queueDrain.ts';
+import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+
+const prefix = '{flood}';
+const INGEST = 'ingest-flood-0e91b3';
+const FLOOD = 2000;
+const FLOOD_UNIT = 'LS1-Marsh Lane';
+let holding = 0;
+let maxHolding = 0;
+let evaluationsRun = 0;
+
+let redis: RedisServer;
+let client: Redis;
+let app: WearshiftServer;
+let base: string;
+let producer: ResultProducer;
+let workers: RunningWorkers;
+let results: Queue;
+let evaluate: Queue;
+const saved = { ...process.env };
+
+beforeAll(async () => {
+  redis = await startRedisServer();
+  client = redis.client();
+  process.env.WEARSHIFT_TOKEN_INGEST = INGEST;
+  // FLEET_CONFIG's detection settings (tests/helpers/fleetCsv.ts), so that every evaluation runs EWMA and CUSUM.
+  const config = parseConfig(`redis: { prefix: "${prefix}" }\ndetection: { measurands: [Fe, Cu], runningInHours: 0, baselineIntervals: 6 }`);
+  producer = createResultProducer({ connection: client, prefix });
+  // Two processes' worth of evaluation slots and a short debounce: evaluations follow the stored results
+  // closely, and a second one of the component must wait for the first. The storage is watched where an
+  // evaluation holds its component: between acquiring and releasing the lease.
+  const watched = new Proxy(new RedisStorage(client, { prefix }), {
+    get(target, name, receiver) {
+      const value = Reflect.get(target, name, receiver) as unknown;
+      if (name === 'acquire') {
+        return async (ref: { unit: string; component: string }, ttl: number) => {
+          const lease = await target.acquire(ref, ttl);
+          if (lease !== undefined && ref.unit === FLOOD_UNIT) {
+            holding++;
+            evaluationsRun++;
+            maxHolding = Math.max(maxHolding, holding);
+          }
+          return lease;
+        };
+      }
+      if (name === 'release') {
+        return async (lease: Parameters<RedisStorage['release']>[0]) => {
+          if (lease.key.includes(FLOOD_UNIT)) holding--;
+          return target.release(lease);
+        };
+      }
+      return typeof value === 'function' ? (value as (...a: unknown[]) => unknown).bind(target) : value;
+    },
+  });
+  workers = startWorkers({ connection: client, config, logger: silentLogger(), storage: watched }, { prefix, evaluateConcurrency: 4, evaluateDebounceMs: 50 });
+  const settings = resolveQueueSettings({ prefix });
+  results = openQueue(QUEUE_NAMES.results, client, settings);
+  evaluate = openQueue(QUEUE_NAMES.evaluate, client, settings);
+  app = await buildServer({ logger: silentLogger(), metrics: createMetrics({ defaultMetrics: false }), ping: () => client.ping(), producer });
+  await app.listen({ port: 0, host: '127.0.0.1' });
+  base = `http://127.0.0.1:${(app.server.address() as AddressInfo).port}`;
+});
+
+afterAll(async () => {
+  process.env = saved;
+  await app?.close();
+  await workers?.close();
+  await producer?.close();
+  await results?.close();
+  await evaluate?.close();
+  await redis?.dispose();
+});
+
+describe('a flood of results for one component', () => {
+  it('stores all 2 000, evaluates one at a time, and the API stays responsive', async () => {
+    const unit = FLOOD_UNIT;
+    const events = inventedFleet({ units: 1, samplesPerUnit: FLOOD, seed: 3 });
+    expect(new Set(events.map((e) => e.sampleId)).size).toBe(FLOOD);
+    // The simulated dates run for decades; the flood is a backfill, all of it in the past.
+    const shift = Date.parse(events.at(-1)!.sampledAt) - (Date.now() - 86_400_000);
+    const flood = events.map((e) => ({ ...e, sampledAt: new Date(Date.parse(e.sampledAt) - shift).toISOString() }));
+
+    const started = Date.now();
+    const res = await fetch(`${base}/v1/results`, { method: 'POST', headers: { authorization: `Bearer ${INGEST}`, 'content-type': 'application/json' }, body: JSON.stringify(flood) });
+    const acceptMs = Date.now() - started;
+    expect(res.status).toBe(202);
+    const outcomes = (await res.json()) as { status: string }[];
+    expect(outcomes.filter((o) => o.status !== 'accepted')).toEqual([]);
+
+    // While the flood is being stored and evaluated, probes and another intake request answer promptly.
+    const latencies: number[] = [];
+    const storage = new RedisStorage(client, { prefix });
+    let stored = 0;
+    while (stored < FLOOD) {
+      const t = Date.now();
+      const [health, one] = await Promise.all([
+        fetch(`${base}/healthz`),
+        fetch(`${base}/v1/results`, {
+          method: 'POST',
+          headers: { authorization: `Bearer ${INGEST}`, 'content-type': 'application/json' },
+          body: JSON.stringify({ sampleId: `OTHER-${latencies.length}`, unit: 'LS2-Marsh Lane', component: 'gearbox', sampledAt: new Date(Date.now() - 3_600_000).toISOString(), readings: { Fe: 3 } }),
+        }),
+      ]);
+      latencies.push(Date.now() - t);
+      expect([health.status, one.status]).toEqual([200, 202]);
+      stored = (await storage.component({ unit, component: 'gearbox' }))?.samples ?? 0;
+      await new Promise((r) => setTimeout(r, 50));
+    }
+    await drained([results, evaluate], 120_000);
+
+    const revisions = await storage.revisions({ unit, component: 'gearbox' });
+    expect(new Set(revisions.map((s) => s.sampleId)).size).toBe(FLOOD);
+    expect(maxHolding).toBe(1);
+    expect(holding).toBe(0);
+    const evaluations = evaluationsRun;
+    expect(evaluations).toBeGreaterThan(0);
+    expect(evaluations).toBeLessThan(FLOOD / 10);
+    // Every stored sample ended up judged: the last evaluation saw the whole history.
+    expect(await storage.lastFed({ unit, component: 'gearbox' })).toEqual({ sampleId: flood.at(-1)!.sampleId, time: Date.parse(flood.at(-1)!.sampledAt) });
+    expect(Math.max(...latencies)).toBeLessThan(1000);
+    console.info(`flood: ${FLOOD} accepted in ${acceptMs} ms, stored in ${Date.now() - started} ms, ${evaluations} evaluations (never two at once), API answered in at most ${Math.max(...latencies)} ms over ${latencies.length} probes`);
+  });
+});
