@@ -61,6 +61,17 @@ describe('wearshift backtest', () => {
       expect(summary.runs[0]!.episodes.filter((e) => e.caughtBy === 'both').map((e) => e.unit).sort()).toEqual(STEPPED_UNITS);
     });
 
+    it('lists the incidents wearshift replay reports for the same history and configuration', async () => {
+      const replay = await runCli(['replay', file('fleet.jsonl'), '--config', file('config.yaml'), '--json', ...NOW]);
+      expect(replay.code).toBe(0);
+      const lines = replay.stdout.trim().split('\n').map((l) => JSON.parse(l) as { type: string; incidentId?: string; change?: string; sampleId?: string; rule?: string });
+      const opened = lines.filter((l) => l.type === 'incident' && l.change === 'opened').map((l) => l.incidentId).sort();
+      expect(summary.runs[0]!.episodes.map((e) => e.incidentId).sort()).toEqual(opened);
+      const flagged = new Map<string, Set<string>>();
+      for (const l of lines.filter((x) => x.type === 'finding')) flagged.set(l.rule!, (flagged.get(l.rule!) ?? new Set()).add(l.sampleId!));
+      for (const [rule, count] of Object.entries(summary.runs[0]!.samplesFlagged)) expect(count, rule).toBe(flagged.get(rule)?.size ?? 0);
+    });
+
     it.skipIf(!HAVE_CHROMIUM)('opens offline in Chromium without a console error and asks the network for nothing', async () => {
       const profile = mkdtempSync(join(tmpdir(), 'wearshift-chromium-'));
       const context = await chromium.launchPersistentContext(profile, {

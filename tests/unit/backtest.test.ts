@@ -7,7 +7,7 @@ import { describe, expect, it } from 'vitest';
 import { backtest, type Backtest } from '../../src/backtest/backtest.ts';
 import { renderBacktestReport } from '../../src/backtest/reportHtml.ts';
 import { componentCharts } from '../../src/backtest/charts.ts';
-import { readBudget } from '../../src/backtest/parameters.ts';
+import { detectorParameters, readBudget, withBudget } from '../../src/backtest/parameters.ts';
 import type { EpisodeSummary } from '../../src/backtest/summary.ts';
 import { evaluateComponent } from '../../src/analysis/evaluate.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
@@ -152,6 +152,28 @@ describe('backtest with a budget and a second configuration', async () => {
     expect(rows.get('incidents with cusum')!.values[1]).toBe(0);
     expect(rows.get('incidents with cusum')!.differs).toBe(a!.incidents.byFamily.cusum.incidents > 0);
     expect(rows.get('incidents')!.values).toEqual([a!.incidents.total, b!.incidents.total]);
+  });
+
+  it('puts the budget in place wherever a group sets its own, and keeps limits given outright', () => {
+    const grouped = parseConfig(`
+detection: { measurands: [Fe] }
+groups:
+  - name: own-budget
+    detection: { measurands: [Fe], budget: { alarms: 2, years: 1, sampleIntervalHours: 500 } }
+  - name: fixed-h
+    detection: { measurands: [Fe], cusum: { h: 4 } }
+`);
+    const params = detectorParameters(withBudget(grouped, budget), [
+      { unit: 'U1', component: 'gearbox', group: 'own-budget' },
+      { unit: 'U2', component: 'gearbox', group: 'fixed-h' },
+      { unit: 'U3', component: 'gearbox' },
+    ]);
+    const of = (g: string) => params.find((p) => p.groups.includes(g))!;
+    // The group's own sample interval stays: 3 years × 8760 h / 500 h = 52.56 samples, 1 alarm, 2 charts.
+    expect(of('own-budget')).toMatchObject({ budget: { alarms: 1, years: 3, sampleIntervalHours: 500 }, samplesPerComponent: 52.56, arl0: 105.12 });
+    expect(of('fixed-h').cusum).toMatchObject({ h: 4, fromBudget: false });
+    expect(of('fixed-h').designCommands.some((c) => c.includes('design cusum'))).toBe(false);
+    expect(of('gearbox').budget).toMatchObject({ alarms: 1, years: 3, sampleIntervalHours: 250 });
   });
 
   it('rejects a budget it cannot read, naming what it expects', () => {
