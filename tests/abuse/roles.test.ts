@@ -29,8 +29,10 @@ const ACK_SECRET = 'roles-ack-secret-0123456789abcdef';
 const UNIT = 'PS2-P3';
 const COMPONENT = 'gearbox';
 const ID = `${UNIT}/${COMPONENT}@LAB-0100`;
+const OTHER_ID = `PS2-P4/${COMPONENT}@LAB-0100`;
 
 let redis: RedisServer;
+let store: RedisIncidentStore;
 let app: WearshiftServer;
 let base: string;
 let producer: ResultProducer;
@@ -41,6 +43,7 @@ beforeAll(async () => {
   const client = redis.client();
   const config = parseConfig(`redis: { prefix: "${prefix}" }`);
   const incidents = new RedisIncidentStore(client, { rules: incidentRules(config), prefix });
+  store = incidents;
   const storage = new RedisStorage(client, { prefix });
   const sampledAt = new Date(Date.now() - 86_400_000).toISOString();
   await storeResult(storage, config, { sampleId: 'LAB-0100', unit: UNIT, component: COMPONENT, sampledAt, oilHours: 250, readings: { Fe: 80 } }, Date.now());
@@ -51,6 +54,10 @@ beforeAll(async () => {
   };
   await incidents.applySteps({ unit: UNIT, component: COMPONENT }, [step], { group: COMPONENT, now: new Date(), quietBefore: new Date(0) });
   expect(await incidents.get(ID)).toBeDefined();
+  // A second incident that no route of the matrix touches, for the acknowledgement links.
+  const other = { ...step, findings: step.findings.map((f) => ({ ...f, unit: 'PS2-P4' })) };
+  await incidents.applySteps({ unit: 'PS2-P4', component: COMPONENT }, [other], { group: COMPONENT, now: new Date(), quietBefore: new Date(0) });
+  expect(await incidents.get(OTHER_ID)).toBeDefined();
 
   process.env.WEARSHIFT_TOKEN_INGEST = TOKENS.ingest;
   process.env.WEARSHIFT_TOKEN_RESPONDER = TOKENS.responder;
@@ -183,5 +190,24 @@ describe('role matrix over every route', () => {
       const refused = await call({ method: 'GET', route: '/ack/*', url: `/ack/${forged}`, allowed: 'public', ok: 403 }, caller);
       expect(refused.status, `GET with a link signed by another key as ${caller}`).toBe(403);
     }
+  });
+
+  it('acknowledgement links: forged, expired or for no known incident, they acknowledge nothing in the store', async () => {
+    const expiresAt = new Date(Date.now() + 3_600_000);
+    const good = signAckLink({ incidentId: OTHER_ID, recipient: 'oncall@plant.example', expiresAt }, ACK_SECRET);
+    const forged = `${good.slice(0, 12)}${good[12] === 'A' ? 'B' : 'A'}${good.slice(13)}`;
+    const expired = signAckLink({ incidentId: OTHER_ID, recipient: 'oncall@plant.example', expiresAt: new Date(Date.now() - 1000) }, ACK_SECRET);
+    const unknown = signAckLink({ incidentId: 'PS9-P9/gearbox@LAB-9999', recipient: 'oncall@plant.example', expiresAt }, ACK_SECRET);
+    const wrongKey = signAckLink({ incidentId: OTHER_ID, recipient: 'oncall@plant.example', expiresAt }, 'some-other-secret-0123456789abcdef');
+    const form = new URLSearchParams({ name: 'R. Okafor' }).toString();
+    const postAck = (token: string) => fetch(`${base}/ack/${token}`, { method: 'POST', headers: { 'content-type': 'application/x-www-form-urlencoded' }, body: form });
+    expect((await postAck(forged)).status).toBe(403);
+    expect((await postAck(expired)).status).toBe(410);
+    expect((await postAck(wrongKey)).status).toBe(403);
+    expect((await postAck(unknown)).status).toBe(404);
+    expect((await store.get(OTHER_ID))!.acknowledged).toBeNull();
+    // The genuine link does acknowledge, by the name typed in the form.
+    expect((await postAck(good)).status).toBe(200);
+    expect((await store.get(OTHER_ID))!.acknowledged).toMatchObject({ by: 'R. Okafor' });
   });
 });
