@@ -69,6 +69,8 @@ export function applyAction(state: ComponentIncidents, action: IncidentAction, r
       const max = rules.incidents.maxShelveHours;
       if (hours > max) throw new InputError(`until: shelving is limited to ${max} h (incidents.maxShelveHours); ${isoOf(action.until)} is ${Math.round(hours)} h away`);
       const until = isoOf(action.until);
+      // Shelving again until the same time (a double click, a retried request) changes nothing.
+      if (inc.shelved?.until === until) break;
       inc.shelved = { by: action.by, at, until, reason: action.reason };
       inc.timeline.push({ kind: 'shelved', at, by: action.by, until, reason: action.reason });
       cancelEscalations(inc, work, 'shelved');
