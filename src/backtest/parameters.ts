@@ -42,7 +42,7 @@ function tidy(x: number): number {
 
 /** The configuration with the budget's alarms and period in place of the configured ones, everywhere they are set. */
 export function withBudget(config: Config, budget: BudgetText): Config {
-  const swap = <T extends { budget?: Detection['budget'] }>(d: T): T =>
+  const swap = <T extends { budget?: Partial<Detection['budget']> }>(d: T): T =>
     d.budget === undefined ? d : { ...d, budget: { ...d.budget, alarms: budget.alarms, years: budget.years } };
   return {
     ...config,

@@ -96,6 +96,28 @@ export const ConditionSchema = z
   .strict();
 export type Condition = z.infer<typeof ConditionSchema>;
 
+/**
+ * A group's override of a top-level section: the same fields, all optional and without defaults, so that a
+ * group naming one field keeps the top-level value of every other (defaults belong to the top level only).
+ */
+function overrideOf(schema: z.ZodType): z.ZodType {
+  if (schema instanceof z.ZodDefault) return overrideOf(schema.removeDefault() as z.ZodType);
+  if (schema instanceof z.ZodOptional) return overrideOf(schema.unwrap() as z.ZodType);
+  if (!(schema instanceof z.ZodObject) || !hasDefaults(schema)) return schema;
+  const shape = Object.fromEntries(Object.entries(schema.shape).map(([k, v]) => [k, overrideOf(v as z.ZodType).optional()]));
+  const rebuilt = z.object(shape).strict();
+  return schema.description === undefined ? rebuilt : rebuilt.describe(schema.description);
+}
+
+function hasDefaults(schema: z.ZodType): boolean {
+  if (schema instanceof z.ZodDefault) return true;
+  if (schema instanceof z.ZodOptional) return hasDefaults(schema.unwrap() as z.ZodType);
+  return schema instanceof z.ZodObject && Object.values(schema.shape).some((v) => hasDefaults(v as z.ZodType));
+}
+
+type Override<T> = { [K in keyof T]?: T[K] extends readonly unknown[] ? T[K] : T[K] extends object ? Override<T[K]> : T[K] };
+const override = <T extends z.ZodType>(schema: T) => overrideOf(schema) as unknown as z.ZodType<Override<z.infer<T>>>;
+
 const NewOilSchema = z.partialRecord(measurandName, nonNegative).describe('New-oil reference values of this group.');
 
 const GroupSettingsSchema = z
@@ -105,10 +127,10 @@ const GroupSettingsSchema = z
     limits: levelsByMeasurand.optional().describe('Fixed caution/alarm levels per measurand.'),
     rateLimits: levelsByMeasurand.optional().describe('Rate-of-change levels in ppm per 100 h.'),
     newOil: NewOilSchema.optional(),
-    condition: ConditionSchema.partial().optional(),
+    condition: override(ConditionSchema).optional(),
     cleanliness: z.object({ target: iso4406Code }).strict().optional(),
-    detection: DetectionSchema.partial().optional(),
-    population: PopulationSchema.partial().optional(),
+    detection: override(DetectionSchema).optional(),
+    population: override(PopulationSchema).optional(),
   })
   .strict();
 

@@ -48,10 +48,26 @@ export function resolveSettings(config: Config, c: { unit: string; component: st
     limits: { ...d.limits, ...g?.limits },
     rateLimits: { ...d.rateLimits, ...g?.rateLimits },
     newOil: { ...d.newOil, ...g?.newOil },
-    condition: { ...config.condition, ...g?.condition },
-    detection: { ...config.detection, ...g?.detection },
-    population: { ...config.population, ...g?.population },
+    condition: mergeOverride(config.condition, g?.condition),
+    detection: mergeOverride(config.detection, g?.detection),
+    population: mergeOverride(config.population, g?.population),
     ...(sumpLitres !== undefined && { sumpLitres }),
     ...(cleanlinessTarget !== undefined && { cleanlinessTarget }),
   };
+}
+
+/** A group's override over the top-level section, field by field (nested objects too; lists replace). */
+function mergeOverride<T extends object>(base: T, over: unknown): T {
+  if (over === undefined || over === null) return base;
+  const out: Record<string, unknown> = { ...(base as Record<string, unknown>) };
+  for (const [k, v] of Object.entries(over as Record<string, unknown>)) {
+    if (v === undefined) continue;
+    const b = out[k];
+    out[k] = isPlainObject(v) && isPlainObject(b) ? mergeOverride(b, v) : v;
+  }
+  return out as T;
+}
+
+function isPlainObject(v: unknown): v is Record<string, unknown> {
+  return typeof v === 'object' && v !== null && !Array.isArray(v);
 }
