@@ -117,16 +117,12 @@ async function storedAndEvaluated(records: readonly SourceRecord[], config: Conf
   return storage;
 }
 
-const FINDING_CHANGES = new Set(['raised', 'severity-changed', 'cleared']);
-
 function incidentRecord(id: string, lines: readonly IncidentLine[]): IncidentRecord {
   const first = lines[0]!;
   const last = lines.at(-1)!;
   const entries = lines.map((l) => {
-    const { type: _type, incidentId: _id, unit: _unit, component: _component, change, incidentState: _state, incidentSeverity: _severity, ...rest } = l;
-    // A finding entry's own `change` (raised, severity-changed, cleared) takes the place of its kind on the flat line.
-    const findingChange = change as string;
-    return (FINDING_CHANGES.has(findingChange) ? { kind: 'finding', change: findingChange, ...rest } : { kind: change, ...rest }) as TimelineEntry;
+    const { type: _type, incidentId: _id, unit: _unit, component: _component, change, findingChange, incidentState: _state, incidentSeverity: _severity, ...rest } = l;
+    return (change === 'finding' ? { kind: 'finding', change: findingChange, ...rest } : { kind: change, ...rest }) as TimelineEntry;
   });
   const opened = entries.find((x) => x.kind === 'opened');
   const sampled = entries.flatMap((x) => ('sampleId' in x ? [x.at] : [])).sort();

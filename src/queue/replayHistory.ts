@@ -29,6 +29,8 @@ export type IncidentLine = {
   readonly component: string;
   /** The timeline entry's kind: opened, finding, returned, acknowledged, closed, ... */
   readonly change: TimelineEntry['kind'];
+  /** For a `finding` entry: raised, severity-changed or cleared. */
+  readonly findingChange?: 'raised' | 'severity-changed' | 'cleared';
   readonly incidentState: string;
   readonly incidentSeverity: string;
 } & Omit<TimelineEntry, 'kind'>;
@@ -98,8 +100,10 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
           incidentId: c.incidentId,
           unit: c.unit,
           component: c.component,
-          change: kind,
           ...entry,
+          // A finding entry has a `change` of its own (raised, severity-changed, cleared): it moves aside for the kind.
+          ...('change' in entry && { findingChange: entry.change }),
+          change: kind,
           incidentState: c.state,
           incidentSeverity: c.severity,
         } as IncidentLine,

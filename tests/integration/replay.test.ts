@@ -104,7 +104,7 @@ describe('replay and the live worker', () => {
       for (const id of replayIds) {
         const live = (await store.get(id))!;
         const fromReplay = incidentLines.filter((l) => l.incidentId === id).map((l) => entryOf(l));
-        expect(fromReplay).toEqual(live.timeline.map(({ kind, ...rest }) => ({ change: kind, ...rest })));
+        expect(fromReplay).toEqual(live.timeline.map(({ kind, ...rest }) => ({ ...rest, ...('change' in rest && { findingChange: rest.change }), change: kind })));
       }
     } finally {
       expect(await worker.stop()).toBe(0);
