@@ -70,4 +70,30 @@ describe('Redis restarted mid-stream', () => {
     console.info(`redis restart: stopped at ${before}/${fleet.length} stored; ${told.byChannel.webhook.length} webhook and ${told.byChannel.email.length} e-mail notifications, each delivered once`);
     expect(await worker.stop()).toBe(0);
   });
+
+  it('wearshift serve answers 503 with Retry-After while Redis is away, accepts nothing half, and takes results again after', async () => {
+    const token = 'ingest-restart-5a1c';
+    const serve = await startWearshift('serve', { env: { ...scenario.env(hooks.secret), WEARSHIFT_TOKEN_INGEST: token } });
+    const send = (sampleId: string) =>
+      fetch(`${serve.url}/v1/results`, {
+        method: 'POST',
+        headers: { authorization: `Bearer ${token}`, 'content-type': 'application/json' },
+        body: JSON.stringify({ sampleId, unit: 'LS90-Marsh Lane', component: 'gearbox', sampledAt: '2025-06-01T08:00:00Z', oilHours: 10, readings: { Fe: 4 } }),
+        signal: AbortSignal.timeout(10_000),
+      });
+    expect((await send('RS-1')).status).toBe(202);
+    await scenario.redis.stop();
+    await waitFor('serve to report itself not ready', async () => (await readiness(serve.url)) === 503, 10_000, 200);
+    const during = await send('RS-2');
+    expect(during.status).toBe(503);
+    expect(during.headers.get('retry-after')).toBe('5');
+    expect(await during.json()).toMatchObject({ error: 'unavailable', message: expect.stringMatching(/nothing was accepted/) });
+    await scenario.redis.start();
+    await waitFor('serve to report itself ready again', async () => (await readiness(serve.url)) === 200, 30_000, 200);
+    expect((await send('RS-3')).status).toBe(202);
+    const ref = { unit: 'LS90-Marsh Lane', component: 'gearbox' };
+    await waitFor('RS-1 and RS-3 stored', async () => ((await scenario.storage.component(ref))?.samples ?? 0) >= 2, 30_000, 100);
+    expect((await scenario.storage.revisions(ref)).map((r) => r.sampleId).sort()).toEqual(['RS-1', 'RS-3']);
+    expect(await serve.stop()).toBe(0);
+  });
 });
