@@ -61,7 +61,7 @@ export function runDesignCheck(options: DesignCheckOptions = {}): PartResult {
     };
     const group: GroupStats = { group: GROUP, bands: {}, baselines: c.group === undefined ? {} : { Fe: c.group } };
     const fleet = simulateFleet(o.components, { fleetSeed: o.seed * 100 + 50 + n, samples: monitorFrom + o.monitoredSamples }, c.model);
-    const tally = { ewma: { runs: 0, firsts: 0, alarms: 0, incidents: 0 }, cusum: { runs: 0, firsts: 0, alarms: 0, incidents: 0 } };
+    const tally = { ewma: { runs: 0, firsts: 0, alarms: 0, incidents: 0, chronic: 0 }, cusum: { runs: 0, firsts: 0, alarms: 0, incidents: 0, chronic: 0 } };
     let hours = 0;
     for (const component of fleet) {
       const steps = evaluateComponent(component.samples, settings, group).steps;
@@ -74,12 +74,13 @@ export function runDesignCheck(options: DesignCheckOptions = {}): PartResult {
         if (first >= 0) t.firsts++;
         t.alarms += episodes(fired, monitorFrom, fired.length - 1, 1);
         t.incidents += episodes(fired, monitorFrom, fired.length - 1, gap);
+        if (fired.subarray(monitorFrom).reduce((n, x) => n + x, 0) > (fired.length - monitorFrom) / 2) t.chronic++;
       }
     }
     const years = hours / HOURS_PER_COMPONENT_YEAR;
     const figures = (rule: 'ewma' | 'cusum') => {
       const t = tally[rule];
-      return { arlToFirst: t.runs / t.firsts, alarmsPer100: (100 * t.alarms) / years, incidentsPer100: (100 * t.incidents) / years };
+      return { arlToFirst: t.runs / t.firsts, alarmsPer100: (100 * t.alarms) / years, incidentsPer100: (100 * t.incidents) / years, chronic: t.chronic / fleet.length };
     };
     return { name: c.name, ewma: figures('ewma'), cusum: figures('cusum') };
   });
@@ -98,12 +99,21 @@ export function runDesignCheck(options: DesignCheckOptions = {}): PartResult {
       monitoredSamples: o.monitoredSamples,
       cases: results.map((r) => ({
         case: r.name,
-        ewma: { arlToFirstSamples: round(r.ewma.arlToFirst), alarmsPer100ComponentYears: round(r.ewma.alarmsPer100), incidentsPer100ComponentYears: round(r.ewma.incidentsPer100) },
-        cusum: { arlToFirstSamples: round(r.cusum.arlToFirst), alarmsPer100ComponentYears: round(r.cusum.alarmsPer100), incidentsPer100ComponentYears: round(r.cusum.incidentsPer100) },
+        ...Object.fromEntries(
+          (['ewma', 'cusum'] as const).map((rule) => [
+            rule,
+            {
+              arlToFirstSamples: round(r[rule].arlToFirst),
+              alarmsPer100ComponentYears: round(r[rule].alarmsPer100),
+              incidentsPer100ComponentYears: round(r[rule].incidentsPer100),
+              chronicShare: round(r[rule].chronic),
+            },
+          ]),
+        ),
       })),
     },
     table: {
-      columns: ['case', 'EWMA ARL', 'CUSUM ARL', 'EWMA FA', 'CUSUM FA', 'EWMA incid.', 'CUSUM incid.'],
+      columns: ['case', 'EWMA ARL', 'CUSUM ARL', 'EWMA FA', 'CUSUM FA', 'EWMA incid.', 'CUSUM incid.', 'EWMA chronic', 'CUSUM chronic'],
       rows: results.map((r) => [
         r.name,
         fmt(r.ewma.arlToFirst),
@@ -112,12 +122,15 @@ export function runDesignCheck(options: DesignCheckOptions = {}): PartResult {
         fmt(r.cusum.alarmsPer100),
         fmt(r.ewma.incidentsPer100),
         fmt(r.cusum.incidentsPer100),
+        `${fmt(100 * r.ewma.chronic)} %`,
+        `${fmt(100 * r.cusum.chronic)} %`,
       ]),
     },
     notes: [
       `designed: one chart per component, ARL0 ${fmt(limits.arl0)} samples (budget ${base.detection.budget.alarms} per component per ${base.detection.budget.years} years = ${fmt(budgetPer100)} per 100 component-years): ` +
         `EWMA λ ${base.detection.ewma.lambda} L ${fmt(L)}, CUSUM k ${base.detection.cusum.k} h ${fmt(h)}, two-sided, exact EWMA limits`,
-      `ARL: monitored samples to the first false signal (right-censored estimate); FA: false alarms (runs of firing samples) and incidents per 100 component-years`,
+      `ARL: monitored samples to the first false signal (right-censored estimate); FA: false alarms (runs of firing samples) and incidents per 100 component-years;`,
+      `  chronic: share of in-control components on which the chart fires at more than half of the monitored samples (a standing false alarm)`,
       `${o.components} in-control components × ${o.monitoredSamples} monitored samples per case; ${fmt(seconds)} s`,
     ],
   };

@@ -41,11 +41,11 @@ import { fmt, median, percentile, round } from './stats.ts';
 export interface DetectionOptions {
   /** In-control components whose readings and rates set the population and rate limits. Default 300. */
   trainingComponents?: number;
-  /** In-control components the thresholds are tuned on. Default 2000. */
+  /** In-control components the thresholds are tuned on. Default 1500. */
   tuningComponents?: number;
-  /** Fresh in-control components for the achieved false-alarm rates. Default 2000. */
+  /** Fresh in-control components for the achieved false-alarm rates. Default 1500. */
   testComponents?: number;
-  /** Stepped components per step factor. Default 1000. */
+  /** Stepped components per step factor. Default 800. */
   steppedComponents?: number;
   /** Default [1.5, 2, 3]. */
   factors?: readonly number[];
@@ -57,7 +57,7 @@ export interface DetectionOptions {
   horizon?: number;
   /** The false-alarm budget every family is matched to. Default 1 per component per 5 years (20 per 100 component-years). */
   budget?: Pick<Budget, 'alarms' | 'years'>;
-  /** Bisection steps per knob. Default 14. */
+  /** Bisection steps per knob (each halves the knob's range on a log scale). Default 12. */
   iterations?: number;
   seed?: number;
 }
@@ -116,15 +116,15 @@ interface Context {
 export function runDetection(options: DetectionOptions = {}): PartResult {
   const o = {
     trainingComponents: 300,
-    tuningComponents: 2000,
-    testComponents: 2000,
-    steppedComponents: 1000,
+    tuningComponents: 1500,
+    testComponents: 1500,
+    steppedComponents: 800,
     factors: [1.5, 2, 3],
     monitoredSamples: 70,
     stepWindow: 20,
     horizon: 40,
     budget: { alarms: 1, years: 5 },
-    iterations: 14,
+    iterations: 12,
     seed: 1,
     ...options,
   };
@@ -312,7 +312,7 @@ function learnLimits(training: readonly SimulatedComponent[], base: ComponentSet
 }
 
 /** The settings that run exactly the given families at the given knobs (every other family off). */
-export function settingsFor(base: ComponentSettings, knobs: Knobs, rate: Limits['rate']): ComponentSettings {
+function settingsFor(base: ComponentSettings, knobs: Knobs, rate: Limits['rate']): ComponentSettings {
   const d = base.detection;
   return {
     ...base,

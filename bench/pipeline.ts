@@ -10,6 +10,7 @@ import { createServer, type Server } from 'node:http';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import type { JobType, Queue } from 'bullmq';
+import type { Redis } from 'ioredis';
 import type { ResultEvent } from '../src/domain/event.ts';
 import { seededRandom } from '../src/simulation/random.ts';
 import { simulateWearSeries } from '../src/simulation/wearSeries.ts';
@@ -83,6 +84,8 @@ export interface ChildWorker {
   exited(): string | undefined;
   /** Peak resident set size so far (VmHWM), kB; read while the process lives. */
   peakRssKb(): number;
+  /** CPU time used so far (user + system), seconds; read while the process lives. */
+  cpuSeconds(): number;
   /** SIGTERM, then wait for the exit (SIGKILL after 20 s). */
   stop(): Promise<void>;
 }
@@ -95,8 +98,10 @@ function child(args: readonly string[], env: NodeJS.ProcessEnv, name: string): C
   });
   let ended: string | undefined;
   const exited = new Promise<void>((resolve) => proc.once('exit', () => resolve()));
+  let stopping = false;
   proc.once('exit', (code, signal) => {
     ended = `${name} (pid ${proc.pid}) exited with ${code ?? signal}: ${stderr.trim().split('\n').slice(-5).join(' | ')}`;
+    if (!stopping) process.stderr.write(`[bench] ${ended}\n`);
   });
   return {
     pid: proc.pid!,
@@ -105,8 +110,14 @@ function child(args: readonly string[], env: NodeJS.ProcessEnv, name: string): C
       const status = readFileSync(`/proc/${proc.pid}/status`, 'utf8');
       return Number(/VmHWM:\s+(\d+)\s+kB/.exec(status)?.[1] ?? NaN);
     },
+    cpuSeconds() {
+      // /proc/<pid>/stat: fields 14 and 15 (utime, stime) in clock ticks, 100 per second on Linux.
+      const fields = readFileSync(`/proc/${proc.pid}/stat`, 'utf8').replace(/^.*\) /, '').split(' ');
+      return (Number(fields[11]) + Number(fields[12])) / 100;
+    },
     async stop() {
       if (proc.exitCode !== null || proc.signalCode !== null) return;
+      stopping = true;
       const timer = setTimeout(() => proc.kill('SIGKILL'), 20_000);
       proc.kill('SIGTERM');
       await exited;
@@ -140,21 +151,29 @@ export async function workersListening(queues: readonly Queue[], count: number, 
 
 /**
  * Resolves with the time (performance.now()) of the first of two consecutive polls that found no job waiting, active,
- * prioritised or (when `delayedToo`) delayed on any of the queues.
+ * prioritised or (when `delayedToo`) delayed on any of the queues. Fails at once when one of `processes` has ended:
+ * nothing would drain the queues any more.
  */
-export async function drainedAt(queues: readonly Queue[], options: { pollMs?: number; timeoutMs?: number; delayedToo?: boolean } = {}): Promise<number> {
+export async function drainedAt(
+  queues: readonly Queue[],
+  processes: readonly ChildWorker[],
+  options: { pollMs?: number; timeoutMs?: number; delayedToo?: boolean } = {},
+): Promise<number> {
   const pollMs = options.pollMs ?? 25;
-  const deadline = performance.now() + (options.timeoutMs ?? 600_000);
+  const timeoutMs = options.timeoutMs ?? 600_000;
+  const deadline = performance.now() + timeoutMs;
   const states: JobType[] = ['waiting', 'active', 'prioritized', 'waiting-children', ...(options.delayedToo === false ? [] : (['delayed'] as const))];
   let firstQuiet: number | undefined;
   for (;;) {
+    const ended = processes.map((p) => p.exited()).find((e) => e !== undefined);
+    if (ended !== undefined) throw new Error(ended);
     const at = performance.now();
     const counts = await Promise.all(queues.map((q) => q.getJobCounts(...states)));
     const busy = counts.some((c) => Object.values(c).some((n) => n > 0));
     if (busy) firstQuiet = undefined;
     else if (firstQuiet === undefined) firstQuiet = at;
     else return firstQuiet;
-    if (performance.now() > deadline) throw new Error(`queues not drained within ${options.timeoutMs ?? 600_000} ms: ${JSON.stringify(counts)}`);
+    if (performance.now() > deadline) throw new Error(`queues not drained within ${timeoutMs} ms: ${JSON.stringify(counts)}`);
     await sleep(pollMs);
   }
 }
@@ -239,6 +258,20 @@ export function labFeed(o: FeedOptions): ResultEvent[] {
     events.push(...series.map((s) => s.event));
   }
   return events.sort((a, b) => Date.parse(a.sampledAt) - Date.parse(b.sampledAt) || (a.sampleId < b.sampleId ? -1 : 1));
+}
+
+/** Calls and server-side microseconds of the scripts and commands Redis ran since the last CONFIG RESETSTAT. */
+export async function redisWork(client: Redis): Promise<{ calls: number; usec: number; scriptCalls: number }> {
+  const stats = await client.info('commandstats');
+  let calls = 0;
+  let usec = 0;
+  let scriptCalls = 0;
+  for (const m of stats.matchAll(/^cmdstat_(\S+?):calls=(\d+),usec=(\d+)/gm)) {
+    calls += Number(m[2]);
+    usec += Number(m[3]);
+    if (m[1] === 'evalsha' || m[1] === 'eval' || m[1] === 'fcall') scriptCalls += Number(m[2]);
+  }
+  return { calls, usec, scriptCalls };
 }
 
 export function sleep(ms: number): Promise<void> {

@@ -24,6 +24,7 @@ import { startRedisServer, type RedisServer } from '../tests/helpers/redisServer
 import {
   drainedAt,
   labFeed,
+  redisWork,
   pipelineMissing,
   sleep,
   startBareWorker,
@@ -124,17 +125,29 @@ interface PhaseFigures {
   readonly seconds: number;
   readonly notifications: number;
   readonly lagging: number;
+  /** Worker processes' CPU milliseconds per result. */
+  readonly workerCpuMs: number;
+  /** Redis server time (all commands and scripts) per result, µs, and Lua script calls per result. */
+  readonly redisUs: number;
+  readonly redisScripts: number;
 }
 
 async function pipelinePhase(line: Line, events: readonly ResultEvent[], processes: number, log: RunOptions['log']): Promise<PhaseFigures> {
   const s = await openSession(line, processes, NEVER_QUIET_DAYS);
   try {
+    const cpuBefore = s.workers.reduce((t, w) => t + w.cpuSeconds(), 0);
+    await s.client.config('RESETSTAT');
     const t0 = performance.now();
     await send(s.producer, events, 100);
     const intake = performance.now();
-    const end = await drainedAt([s.queues.results, s.queues.evaluate]);
+    const end = await drainedAt([s.queues.results, s.queues.evaluate], s.workers);
     const seconds = (end - t0) / 1000;
+    const cpu = s.workers.reduce((t, w) => t + w.cpuSeconds(), 0) - cpuBefore;
+    const redis = await redisWork(s.client);
     const figures = {
+      workerCpuMs: (1000 * cpu) / events.length,
+      redisUs: redis.usec / events.length,
+      redisScripts: redis.scriptCalls / events.length,
       perSec: events.length / seconds,
       intakePerSec: events.length / ((intake - t0) / 1000),
       seconds,
@@ -158,7 +171,7 @@ async function barePhase(line: Line, events: readonly ResultEvent[], log: RunOpt
     await workersListening([queue], 1, [worker]);
     const t0 = performance.now();
     for (let i = 0; i < events.length; i += 100) await queue.addBulk(events.slice(i, i + 100).map((data) => ({ name: 'result', data })));
-    const seconds = ((await drainedAt([queue])) - t0) / 1000;
+    const seconds = ((await drainedAt([queue], [worker])) - t0) / 1000;
     log(`throughput: bare BullMQ worker: ${fmt(events.length / seconds)} jobs/s`);
     return { perSec: events.length / seconds, seconds };
   } finally {
@@ -167,13 +180,17 @@ async function barePhase(line: Line, events: readonly ResultEvent[], log: RunOpt
   }
 }
 
-/** Bare worker and pipeline must reach at least this share of the bare worker's rate. */
+function costOf(f: PhaseFigures) {
+  return { workerCpuMs: round(f.workerCpuMs), redisServerUs: round(f.redisUs), redisScriptCalls: round(f.redisScripts) };
+}
+
+/** One worker process must reach at least this share of the bare worker's rate. */
 const THROUGHPUT_RATIO_TARGET = 0.5;
 
 export async function runThroughput(o: RunOptions): Promise<PartResult> {
   const missing = pipelineMissing();
   if (missing !== undefined) return skipped('throughput', missing);
-  const components = size(o.scale, 200, 10);
+  const components = size(o.scale, 160, 10);
   const perComponent = 25;
   return withLine(async (line) => {
     const events = labFeed({ components, samplesPerComponent: perComponent, faultyShare: 0.1, endsBeforeNowMs: 2 * DAY_MS, now: Date.now(), seed: o.seed, unitPrefix: 'TP' });
@@ -196,6 +213,7 @@ export async function runThroughput(o: RunOptions): Promise<PartResult> {
         components,
         notificationsQueued: one.notifications,
         componentsNotFullyEvaluated: lag,
+        perResult: { oneWorker: costOf(one), twoWorkers: costOf(two) },
         target: { ratioAtLeast: THROUGHPUT_RATIO_TARGET, met },
       },
       table: {
@@ -211,6 +229,8 @@ export async function runThroughput(o: RunOptions): Promise<PartResult> {
         `  end to end: stored, evaluated, findings fed to the incident store (results and evaluate queues drained; every component's last sample fed: ${lag === 0 ? 'yes' : `NO, ${lag} behind`})`,
         `bare: one BullMQ worker process, concurrency ${WORKER_DEFAULTS.resultsConcurrency} (as the results worker), no-op processor, the same events added with addBulk (no validation)`,
         `intake alone (validation + enqueue, 1 worker running): ${fmt(one.intakePerSec)} results/s`,
+        `per result, 1 / 2 worker processes: worker CPU ${fmt(one.workerCpuMs)} / ${fmt(two.workerCpuMs)} ms, Redis server time ${fmt(one.redisUs)} / ${fmt(two.redisUs)} µs ` +
+          `in ${fmt(one.redisScripts)} / ${fmt(two.redisScripts)} Lua script calls (INFO commandstats; includes the producer's and BullMQ's)`,
         `target: 1 worker process ≥ ${THROUGHPUT_RATIO_TARGET} × bare: ${met ? 'MET' : 'MISSED'} (${fmt(ratio)})`,
       ],
     };
@@ -221,7 +241,7 @@ export async function runLatency(o: RunOptions): Promise<PartResult> {
   const missing = pipelineMissing();
   if (missing !== undefined) return skipped('latency', missing);
   const rate = 200;
-  const seconds = Math.max(5, 30 * o.scale);
+  const seconds = Math.max(5, 20 * o.scale);
   const components = size(o.scale, 300, 20);
   const history = 16;
   const streamed = Math.round(rate * seconds);
@@ -241,8 +261,8 @@ export async function runLatency(o: RunOptions): Promise<PartResult> {
     const events = new QueueEvents(QUEUE_NAMES.evaluate, { connection: line.server.client(), prefix: PREFIX });
     try {
       await send(s.producer, preload, 500);
-      await drainedAt([s.queues.results, s.queues.evaluate]);
-      await drainedAt([s.queues.notify], { delayedToo: false });
+      await drainedAt([s.queues.results, s.queues.evaluate], s.workers);
+      await drainedAt([s.queues.notify], s.workers, { delayedToo: false });
       o.log(`latency: ${preload.length} results of history loaded; streaming ${stream.length} at ${rate}/s`);
 
       const evaluatedAt = new Map<string, number>();
@@ -255,7 +275,14 @@ export async function runLatency(o: RunOptions): Promise<PartResult> {
       const enqueuedAt = new Map<string, number>();
       const start = Date.now();
       let sent = 0;
+      const backlog = { results: 0, evaluate: 0 };
+      let lookedAt = 0;
       while (sent < stream.length) {
+        if (Date.now() - lookedAt >= 1000) {
+          lookedAt = Date.now();
+          backlog.results = Math.max(backlog.results, await s.queues.results.getWaitingCount());
+          backlog.evaluate = Math.max(backlog.evaluate, await s.queues.evaluate.getWaitingCount());
+        }
         const due = Math.min(stream.length, Math.floor(((Date.now() - start) / 1000) * rate));
         if (due > sent) {
           const batch = stream.slice(sent, due);
@@ -267,8 +294,8 @@ export async function runLatency(o: RunOptions): Promise<PartResult> {
         await sleep(5);
       }
       const sentRate = stream.length / ((Date.now() - start) / 1000);
-      await drainedAt([s.queues.results, s.queues.evaluate]);
-      await drainedAt([s.queues.notify], { delayedToo: false });
+      await drainedAt([s.queues.results, s.queues.evaluate], s.workers);
+      await drainedAt([s.queues.notify], s.workers, { delayedToo: false });
       await sleep(500);
 
       const toEvaluation = stream.map((e) => (evaluatedAt.get(e.sampleId) ?? NaN) - enqueuedAt.get(e.sampleId)!);
@@ -301,6 +328,8 @@ export async function runLatency(o: RunOptions): Promise<PartResult> {
           evaluationP99Ms: round(figures.evaluation.p99),
           evaluated: figures.evaluation.count,
           unmatched,
+          peakResultsWaiting: backlog.results,
+          peakEvaluationsWaiting: backlog.evaluate,
           streamed: stream.length,
           historyLoaded: preload.length,
           components,
@@ -313,7 +342,8 @@ export async function runLatency(o: RunOptions): Promise<PartResult> {
           ],
         },
         notes: [
-          `steady ${rate} results/s (achieved ${fmt(sentRate)}) for ${fmt(seconds)} s onto ${components} components that already hold ${history} results each; one worker process`,
+          `steady ${rate} results/s (achieved ${fmt(sentRate)}) for ${fmt(seconds)} s onto ${components} components that already hold ${history} results each; one worker process; ` +
+            `at most ${backlog.results} results and ${backlog.evaluate} evaluations waiting (looked at every second; one evaluation waits per component at most)`,
           `notification queued: the notify job of an incident opened or updated by the result (its creation time); ${[...byType].map(([t, n]) => `${t.replace('wearshift.incident.', '')} ${n}`).join(', ') || 'none'}`,
           `evaluation completed: the evaluate job that fed the result to the incident engine, as its completion event reaches the producer's process` +
             (unmatched > 0 ? `; ${unmatched} results matched no completion event` : ''),
@@ -341,7 +371,7 @@ export async function runBackfill(o: RunOptions): Promise<PartResult> {
       await send(s.producer, events, 1000);
       const intake = performance.now();
       o.log(`backfill: ${events.length} results enqueued in ${fmt((intake - t0) / 1000)} s`);
-      const end = await drainedAt([s.queues.results, s.queues.evaluate], { pollMs: 200 });
+      const end = await drainedAt([s.queues.results, s.queues.evaluate], s.workers, { pollMs: 200 });
       const seconds = (end - t0) / 1000;
       const peakRssKb = s.workers[0]!.peakRssKb();
       const after = await usedMemory(s.client);

@@ -7,11 +7,13 @@
  *   npm run bench -- --scale 0.1        every size shrunk tenfold, for a quick run
  *   npm run bench -- --json             JSON lines
  */
+import { cpus, loadavg, totalmem } from 'node:os';
 import { parseArgs } from 'node:util';
 import { runDesignCheck } from './designCheck.ts';
 import { runDetection } from './detection.ts';
 import { jsonLine, renderPart, type PartResult } from './report.ts';
 import { runScaling } from './scaling.ts';
+import { redisServerVersion } from './pipeline.ts';
 import { runBackfill, runLatency, runThroughput } from './pipelineParts.ts';
 
 export interface RunOptions {
@@ -31,11 +33,11 @@ export const PARTS: Record<string, Part> = {
     runDetection({
       seed,
       trainingComponents: at(scale, 300, 30),
-      tuningComponents: at(scale, 2000, 50),
-      testComponents: at(scale, 2000, 50),
-      steppedComponents: at(scale, 1000, 50),
+      tuningComponents: at(scale, 1500, 50),
+      testComponents: at(scale, 1500, 50),
+      steppedComponents: at(scale, 800, 50),
     }),
-  'design-check': ({ scale, seed }) => runDesignCheck({ seed, components: at(scale, 400, 40) }),
+  'design-check': ({ scale, seed }) => runDesignCheck({ seed, components: at(scale, 300, 40) }),
   scaling: ({ scale, seed }) => runScaling({ seed, histories: at(scale, 5, 2), batches: at(scale, 15, 3) }),
   throughput: (o) => runThroughput(o),
   latency: (o) => runLatency(o),
@@ -78,6 +80,9 @@ export async function main(argv: string[]): Promise<number> {
   const log = (line: string) => process.stderr.write(`[bench] ${line}\n`);
   let failed = false;
   const started = performance.now();
+  const machine = machineLine();
+  log(`machine: ${machine.cores} cores, ${machine.memoryGb} GB, load average ${machine.loadAverage.join(' ')}, node ${machine.node}, redis-server ${machine.redisServer}`);
+  if (args.json) process.stdout.write(`${JSON.stringify({ bench: 'machine', ...machine, scale, seed })}\n`);
   for (const name of names) {
     log(`${name}: running${scale === 1 ? '' : ` at scale ${scale}`}`);
     const t0 = performance.now();
@@ -96,6 +101,17 @@ export async function main(argv: string[]): Promise<number> {
   }
   log(`total ${((performance.now() - started) / 1000).toFixed(1)} s`);
   return failed ? 1 : 0;
+}
+
+/** The machine the figures belong to; the load average tells whether others were using it at the same time. */
+function machineLine() {
+  return {
+    cores: cpus().length,
+    memoryGb: Math.round(totalmem() / 2 ** 30),
+    loadAverage: loadavg().map((x) => Number(x.toFixed(2))),
+    node: process.version,
+    redisServer: redisServerVersion(),
+  };
 }
 
 function usageError(message: string): number {
