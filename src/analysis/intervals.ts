@@ -35,6 +35,12 @@ import type { ComponentHistory, Interval } from './model.ts';
  *
  * Only wear measurands (catalogue kind 'wear') have intervals; any other measurand gives none.
  */
+/**
+ * Two samples less than an operating hour apart are a re-sample, not a wear interval: the rise over so short a
+ * run is lab noise divided by almost nothing. Such a pair gives no interval (the readings still count as readings).
+ */
+export const MIN_INTERVAL_HOURS = 1;
+
 export function wearIntervals(history: ComponentHistory, measurand: Measurand, settings: ComponentSettings): Interval[] {
   if (MEASURANDS[measurand].kind !== 'wear') return [];
   const intervals: Interval[] = [];
@@ -60,7 +66,7 @@ export function wearIntervals(history: ComponentHistory, measurand: Measurand, s
             : undefined;
       previous = current;
       makeUpShare = 1;
-      if (step === undefined || !(step.hours > 0)) continue;
+      if (step === undefined || !(step.hours >= MIN_INTERVAL_HOURS)) continue;
 
       const fromLevel = step.from?.level ?? 0;
       const baseLevel = step.carryOver * fromLevel;

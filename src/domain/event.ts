@@ -14,6 +14,13 @@ const identifier = (what: string) =>
     .max(80, `${what} must be at most 80 characters`)
     .regex(/^[\p{L}\p{N}][\p{L}\p{N} ._:#()+\-/]*$/u, `${what} may hold letters, digits, spaces and . _ : # ( ) + - / only, starting with a letter or digit`);
 
+/**
+ * Unit and component names make up a component's identity (`unit/component`) in keys, incident ids and URLs,
+ * so they may not contain the slash that separates them: otherwise "Line 2" + "Pump 3/gearbox" and
+ * "Line 2/Pump 3" + "gearbox" would be one history.
+ */
+const partName = (what: string) => identifier(what).refine((v) => !v.includes('/'), `${what} may not contain "/" (it separates unit and component in incident ids and keys)`);
+
 const hours = (what: string) => z.number().finite().min(0, `${what} must not be negative`).max(1e7, `${what} is implausibly large`);
 
 const readingValue = z.union([z.number(), z.string().max(40, 'a reading string must be at most 40 characters')], {
@@ -24,8 +31,8 @@ export const ResultEventSchema = z
   .object({
     sampleId: identifier('sampleId').describe('The laboratory sample number; with revision, the identity of a result.'),
     revision: z.number().int().min(0).max(1000).default(0).describe('Re-issued results of one sample carry a higher revision; the highest wins.'),
-    unit: identifier('unit').describe('The machine or asset.'),
-    component: identifier('component').describe('The oil-wetted compartment of the unit (one sample point).'),
+    unit: partName('unit').describe('The machine or asset.'),
+    component: partName('component').describe('The oil-wetted compartment of the unit (one sample point).'),
     group: identifier('group').optional().describe('The like-for-like population; configuration rules or the component name assign one when absent.'),
     sampledAt: z.iso.datetime({ offset: true, message: 'sampledAt must be an ISO 8601 date-time with a time zone, such as 2026-03-01T08:00:00Z' }).describe('When the oil was drawn.'),
     unitHours: hours('unitHours').optional().describe("Hours on the unit's meter."),

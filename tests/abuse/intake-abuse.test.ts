@@ -224,16 +224,17 @@ describe('requests refused as a whole (nothing in them is accepted)', () => {
 });
 
 describe('component identity', () => {
-  it('two components whose names differ only in where the slash falls keep separate histories', async () => {
-    // "Line 2" / "Pump 3/gearbox" and "Line 2/Pump 3" / "gearbox" are two different compartments.
+  it('a slash in a unit or component name is refused, so that two compartments can never share one history', async () => {
+    // "Line 2" / "Pump 3/gearbox" and "Line 2/Pump 3" / "gearbox" would both be "Line 2/Pump 3/gearbox".
     const a = valid({ unit: 'Line 2', component: 'Pump 3/gearbox' });
     const b = valid({ unit: 'Line 2/Pump 3', component: 'gearbox' });
-    const res = await post(JSON.stringify([a, b]));
-    expect(res.json<Outcome[]>().map((o) => o.status)).toEqual(['accepted', 'accepted']);
+    const c = valid({ unit: 'Line 2 Pump 3', component: 'gearbox' });
+    const res = await post(JSON.stringify([a, b, c]));
+    const outcomes = res.json<Outcome[]>();
+    expect(outcomes.map((o) => o.status)).toEqual(['rejected', 'rejected', 'accepted']);
+    expect(outcomes[0]!.errors).toEqual([{ path: 'component', reason: expect.stringMatching(/may not contain "\/"/) }]);
+    expect(outcomes[1]!.errors).toEqual([{ path: 'unit', reason: expect.stringMatching(/may not contain "\/"/) }]);
     await drained(queues);
-    const ofA = await storage.revisions({ unit: 'Line 2', component: 'Pump 3/gearbox' });
-    const ofB = await storage.revisions({ unit: 'Line 2/Pump 3', component: 'gearbox' });
-    expect(ofA.map((s) => s.sampleId)).toEqual([a.sampleId]);
-    expect(ofB.map((s) => s.sampleId)).toEqual([b.sampleId]);
+    expect((await storage.revisions({ unit: 'Line 2 Pump 3', component: 'gearbox' })).map((s) => s.sampleId)).toEqual([c.sampleId]);
   });
 });
