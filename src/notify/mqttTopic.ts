@@ -34,5 +34,6 @@ export function incidentTopic(template: string, msg: IncidentMessage): string {
 
 /** Text that stays within one topic level and means no wildcard. */
 export function topicLevelText(value: string): string {
-  return value.replace(/[%/+#\p{Cc}]/gu, (c) => `%${c.charCodeAt(0).toString(16).toUpperCase().padStart(2, '0')}`);
+  // encodeURIComponent gives the UTF-8 bytes, so C1 control characters (U+0080–U+009F) decode back too.
+  return value.replace(/[%/+#\p{Cc}]/gu, (c) => encodeURIComponent(c));
 }
