@@ -237,34 +237,103 @@ export async function runThroughput(o: RunOptions): Promise<PartResult> {
   });
 }
 
+interface Stage {
+  readonly p50: number;
+  readonly p99: number;
+  readonly count: number;
+}
+
+interface Phase {
+  readonly rate: number;
+  readonly seconds: number;
+  readonly achievedRate: number;
+  readonly notification: Stage;
+  readonly evaluation: Stage;
+  readonly notificationTypes: Record<string, number>;
+  readonly unmatched: number;
+  readonly backlog: { results: number; evaluate: number };
+}
+
+/** Offers `stream` at a steady `rate` and measures, per result, the time to its evaluation and to its notification. */
+async function steadyPhase(s: Session, stream: readonly ResultEvent[], rate: number, evaluatedAt: ReadonlyMap<string, number>): Promise<Phase> {
+  const enqueuedAt = new Map<string, number>();
+  const backlog = { results: 0, evaluate: 0 };
+  const start = Date.now();
+  let sent = 0;
+  let lookedAt = 0;
+  while (sent < stream.length) {
+    if (Date.now() - lookedAt >= 1000) {
+      lookedAt = Date.now();
+      backlog.results = Math.max(backlog.results, await s.queues.results.getWaitingCount());
+      backlog.evaluate = Math.max(backlog.evaluate, await s.queues.evaluate.getWaitingCount());
+    }
+    const due = Math.min(stream.length, Math.floor(((Date.now() - start) / 1000) * rate));
+    if (due > sent) {
+      const batch = stream.slice(sent, due);
+      const at = Date.now();
+      for (const e of batch) enqueuedAt.set(e.sampleId, at);
+      await send(s.producer, batch, batch.length);
+      sent = due;
+    }
+    await sleep(5);
+  }
+  const seconds = (Date.now() - start) / 1000;
+  await drainedAt([s.queues.results, s.queues.evaluate], s.workers);
+  await drainedAt([s.queues.notify], s.workers, { delayedToo: false });
+  // Completion events travel on a stream of their own; give the last ones time to arrive.
+  await sleep(500);
+
+  const toEvaluation = stream.map((e) => (evaluatedAt.get(e.sampleId) ?? NaN) - enqueuedAt.get(e.sampleId)!);
+  const evaluation = toEvaluation.filter((x) => !Number.isNaN(x));
+  const notificationTypes: Record<string, number> = {};
+  const toNotification: number[] = [];
+  for (const job of await notifyJobs(s.queues.notify)) {
+    const queuedFor = enqueuedAt.get(job.data.incident.lastSampleId);
+    if (queuedFor === undefined) continue;
+    toNotification.push(job.timestamp - queuedFor);
+    const type = job.data.type.replace('wearshift.incident.', '');
+    notificationTypes[type] = (notificationTypes[type] ?? 0) + 1;
+  }
+  const stage = (xs: number[]): Stage => ({ p50: xs.length === 0 ? NaN : percentile(xs, 0.5), p99: xs.length === 0 ? NaN : percentile(xs, 0.99), count: xs.length });
+  return {
+    rate,
+    seconds,
+    achievedRate: stream.length / seconds,
+    notification: stage(toNotification),
+    evaluation: stage(evaluation),
+    notificationTypes,
+    unmatched: toEvaluation.length - evaluation.length,
+    backlog,
+  };
+}
+
+/** The rate the brief asks for, and a lower one that shows the latency without a queue. */
+const LATENCY_RATES = [200, 50] as const;
+
 export async function runLatency(o: RunOptions): Promise<PartResult> {
   const missing = pipelineMissing();
   if (missing !== undefined) return skipped('latency', missing);
-  const rate = 200;
-  const seconds = Math.max(5, 20 * o.scale);
+  const durations = [Math.max(5, 20 * o.scale), Math.max(5, 10 * o.scale)];
+  const counts = LATENCY_RATES.map((rate, i) => Math.round(rate * durations[i]!));
   const components = size(o.scale, 300, 20);
   const history = 16;
-  const streamed = Math.round(rate * seconds);
-  const perComponent = history + Math.ceil(streamed / components);
+  const perComponent = history + Math.ceil(counts.reduce((a, b) => a + b, 0) / components);
   return withLine(async (line) => {
     const feed = labFeed({ components, samplesPerComponent: perComponent, faultyShare: 0.2, endsBeforeNowMs: 3_600_000, now: Date.now(), seed: o.seed + 1, unitPrefix: 'LT' });
     const seen = new Map<string, number>();
     const preload: ResultEvent[] = [];
-    const stream: ResultEvent[] = [];
+    const later: ResultEvent[] = [];
     for (const e of feed) {
       const n = seen.get(e.unit) ?? 0;
       seen.set(e.unit, n + 1);
-      (n < history ? preload : stream).push(e);
+      (n < history ? preload : later).push(e);
     }
-    stream.splice(streamed);
     const s = await openSession(line, 1, NEVER_QUIET_DAYS);
     const events = new QueueEvents(QUEUE_NAMES.evaluate, { connection: line.server.client(), prefix: PREFIX });
     try {
       await send(s.producer, preload, 500);
       await drainedAt([s.queues.results, s.queues.evaluate], s.workers);
       await drainedAt([s.queues.notify], s.workers, { delayedToo: false });
-      o.log(`latency: ${preload.length} results of history loaded; streaming ${stream.length} at ${rate}/s`);
-
       const evaluatedAt = new Map<string, number>();
       events.on('completed', ({ returnvalue }) => {
         const at = Date.now();
@@ -272,81 +341,53 @@ export async function runLatency(o: RunOptions): Promise<PartResult> {
         for (const id of value?.fed ?? []) if (!evaluatedAt.has(id)) evaluatedAt.set(id, at);
       });
       await events.waitUntilReady();
-      const enqueuedAt = new Map<string, number>();
-      const start = Date.now();
-      let sent = 0;
-      const backlog = { results: 0, evaluate: 0 };
-      let lookedAt = 0;
-      while (sent < stream.length) {
-        if (Date.now() - lookedAt >= 1000) {
-          lookedAt = Date.now();
-          backlog.results = Math.max(backlog.results, await s.queues.results.getWaitingCount());
-          backlog.evaluate = Math.max(backlog.evaluate, await s.queues.evaluate.getWaitingCount());
-        }
-        const due = Math.min(stream.length, Math.floor(((Date.now() - start) / 1000) * rate));
-        if (due > sent) {
-          const batch = stream.slice(sent, due);
-          const at = Date.now();
-          for (const e of batch) enqueuedAt.set(e.sampleId, at);
-          await send(s.producer, batch, batch.length);
-          sent = due;
-        }
-        await sleep(5);
+      const phases: Phase[] = [];
+      let from = 0;
+      for (const [i, rate] of LATENCY_RATES.entries()) {
+        const stream = later.slice(from, from + counts[i]!);
+        from += counts[i]!;
+        o.log(`latency: ${preload.length} results of history loaded; streaming ${stream.length} at ${rate}/s`);
+        phases.push(await steadyPhase(s, stream, rate, evaluatedAt));
       }
-      const sentRate = stream.length / ((Date.now() - start) / 1000);
-      await drainedAt([s.queues.results, s.queues.evaluate], s.workers);
-      await drainedAt([s.queues.notify], s.workers, { delayedToo: false });
-      await sleep(500);
-
-      const toEvaluation = stream.map((e) => (evaluatedAt.get(e.sampleId) ?? NaN) - enqueuedAt.get(e.sampleId)!);
-      const unmatched = toEvaluation.filter(Number.isNaN).length;
-      const evaluation = toEvaluation.filter((x) => !Number.isNaN(x));
-      const byType = new Map<string, number>();
-      const toNotification: number[] = [];
-      for (const job of await notifyJobs(s.queues.notify)) {
-        const queuedFor = enqueuedAt.get(job.data.incident.lastSampleId);
-        if (queuedFor === undefined) continue;
-        toNotification.push(job.timestamp - queuedFor);
-        byType.set(job.data.type, (byType.get(job.data.type) ?? 0) + 1);
-      }
-      const p = (xs: number[], q: number) => (xs.length === 0 ? NaN : percentile(xs, q));
-      const figures = {
-        notification: { p50: p(toNotification, 0.5), p99: p(toNotification, 0.99), count: toNotification.length },
-        evaluation: { p50: p(evaluation, 0.5), p99: p(evaluation, 0.99), count: evaluation.length },
-      };
+      const [main, low] = phases as [Phase, Phase];
+      const phaseJson = (p: Phase) => ({
+        rate: p.rate,
+        achievedRate: round(p.achievedRate),
+        seconds: round(p.seconds),
+        notificationP50Ms: round(p.notification.p50),
+        notificationP99Ms: round(p.notification.p99),
+        notifications: p.notification.count,
+        notificationTypes: p.notificationTypes,
+        evaluationP50Ms: round(p.evaluation.p50),
+        evaluationP99Ms: round(p.evaluation.p99),
+        evaluated: p.evaluation.count,
+        unmatched: p.unmatched,
+        peakResultsWaiting: p.backlog.results,
+        peakEvaluationsWaiting: p.backlog.evaluate,
+      });
       return {
         name: 'latency',
         json: {
           endpoint: 'notification queued (notify job created), and evaluation completed',
-          rate,
-          achievedRate: round(sentRate),
-          notificationP50Ms: round(figures.notification.p50),
-          notificationP99Ms: round(figures.notification.p99),
-          notifications: figures.notification.count,
-          notificationTypes: Object.fromEntries(byType),
-          evaluationP50Ms: round(figures.evaluation.p50),
-          evaluationP99Ms: round(figures.evaluation.p99),
-          evaluated: figures.evaluation.count,
-          unmatched,
-          peakResultsWaiting: backlog.results,
-          peakEvaluationsWaiting: backlog.evaluate,
-          streamed: stream.length,
+          ...phaseJson(main),
+          lowerRate: phaseJson(low),
           historyLoaded: preload.length,
           components,
         },
         table: {
-          columns: ['from enqueue to', 'p50 ms', 'p99 ms', 'results'],
-          rows: [
-            ['notification queued', fmt(figures.notification.p50), fmt(figures.notification.p99), String(figures.notification.count)],
-            ['evaluation completed', fmt(figures.evaluation.p50), fmt(figures.evaluation.p99), String(figures.evaluation.count)],
-          ],
+          columns: ['rate', 'from enqueue to', 'p50 ms', 'p99 ms', 'results', 'evaluations waiting (max)'],
+          rows: phases.flatMap((p) => [
+            [`${p.rate}/s`, 'notification queued', fmt(p.notification.p50), fmt(p.notification.p99), String(p.notification.count), String(p.backlog.evaluate)],
+            [`${p.rate}/s`, 'evaluation completed', fmt(p.evaluation.p50), fmt(p.evaluation.p99), String(p.evaluation.count), String(p.backlog.evaluate)],
+          ]),
         },
         notes: [
-          `steady ${rate} results/s (achieved ${fmt(sentRate)}) for ${fmt(seconds)} s onto ${components} components that already hold ${history} results each; one worker process; ` +
-            `at most ${backlog.results} results and ${backlog.evaluate} evaluations waiting (looked at every second; one evaluation waits per component at most)`,
-          `notification queued: the notify job of an incident opened or updated by the result (its creation time); ${[...byType].map(([t, n]) => `${t.replace('wearshift.incident.', '')} ${n}`).join(', ') || 'none'}`,
+          `${components} components holding ${history} results each, then ${phases.map((p) => `${fmt(p.seconds)} s at ${p.rate}/s (achieved ${fmt(p.achievedRate)})`).join(', then ')}; one worker process`,
+          `notification queued: the notify job of an incident the result opened, updated or returned (the job's creation time); ` +
+            phases.map((p) => `${p.rate}/s: ${Object.entries(p.notificationTypes).map(([t, n]) => `${t} ${n}`).join(', ') || 'none'}`).join('; '),
           `evaluation completed: the evaluate job that fed the result to the incident engine, as its completion event reaches the producer's process` +
-            (unmatched > 0 ? `; ${unmatched} results matched no completion event` : ''),
+            (phases.some((p) => p.unmatched > 0) ? `; ${phases.map((p) => p.unmatched).join(' / ')} results matched no completion event` : ''),
+          `evaluations waiting: looked at every second; at most one waits per component, so a full queue means the evaluate stage is saturated`,
         ],
       };
     } finally {
