@@ -19,6 +19,23 @@ export interface EmailRenderOptions {
   ackUrl?: string;
   /** When the acknowledgement link stops working, so that the reader is told. */
   ackExpiresAt?: Date;
+  /** The trend chart of the incident's evidence, shown inline in the HTML part. */
+  chart?: EmailChart;
+}
+
+export interface EmailChart {
+  readonly png: Buffer;
+  readonly width: number;
+  /** Says in words what the chart shows, for readers who do not see images. */
+  readonly alt: string;
+}
+
+export interface EmailAttachment {
+  filename: string;
+  content: Buffer;
+  contentType: string;
+  /** Content-ID the HTML part refers to (`cid:`), for an inline image. */
+  cid: string;
 }
 
 export interface RenderedEmail {
@@ -29,7 +46,10 @@ export interface RenderedEmail {
   html: string;
   /** Message-ID, References, X-Wearshift-* and Auto-Submitted; every value is one sanitised line. */
   headers: Record<string, string>;
+  attachments: EmailAttachment[];
 }
+
+const CHART_CID = 'trend-chart@wearshift';
 
 /** Most mail clients show about this much of a subject line. */
 const SUBJECT_MAX = 180;
@@ -60,6 +80,7 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
     '',
     'Evidence',
     ...(evidence.length === 0 ? ['(no findings attached)'] : evidence.flatMap((e) => [`- ${e.title} (${e.since}).`, `  ${e.explanation}`])),
+    ...(options.chart ? ['', 'Trend', oneLine(options.chart.alt)] : []),
     '',
     'Last results',
     ...textTable(table),
@@ -85,6 +106,9 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
     evidence.length === 0
       ? '<p>(no findings attached)</p>'
       : `<ul>${evidence.map((e) => `<li><strong>${escapeHtml(e.title)}</strong> (${escapeHtml(e.since)}).<br>${escapeHtml(e.explanation)}</li>`).join('')}</ul>`,
+    ...(options.chart
+      ? ['<h3>Trend</h3>', `<p><img src="cid:${CHART_CID}" width="${options.chart.width}" style="max-width:100%;height:auto" alt="${escapeHtml(oneLine(options.chart.alt))}"></p>`]
+      : []),
     '<h3>Last results</h3>',
     htmlTable(table),
     `<p>Incident: <a href="${escapeHtml(incidentUrl)}">${escapeHtml(incidentUrl)}</a></p>`,
@@ -113,6 +137,7 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
       // RFC 3834: an automatic message; auto-responders should not answer it.
       'Auto-Submitted': 'auto-generated',
     },
+    attachments: options.chart ? [{ filename: 'trend.png', content: options.chart.png, contentType: 'image/png', cid: CHART_CID }] : [],
   };
 }
 

@@ -40,7 +40,7 @@ export async function sendEmail(transport: SMTPTransportOptions | Transporter, m
   const own = !isTransporter(transport);
   const transporter = isTransporter(transport) ? transport : createTransport({ ...SMTP_TIMEOUT_DEFAULTS, ...transport });
   try {
-    const info = await transporter.sendMail({ from: mail.from, to: mail.to, subject: mail.subject, text: mail.text, html: mail.html, headers: mail.headers });
+    const info = await transporter.sendMail({ from: mail.from, to: mail.to, subject: mail.subject, text: mail.text, html: mail.html, headers: mail.headers, attachments: mail.attachments });
     return { messageId: String(info.messageId), accepted: addresses(info.accepted), rejected: addresses(info.rejected) };
   } catch (e) {
     throw classifySmtpError(e);

@@ -9,7 +9,7 @@ import type { Channels } from '../domain/escalationConfig.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
 import { ackLinkUrl, signAckLink } from '../notify/ackLink.ts';
 import { toCloudEvent } from '../notify/cloudEvent.ts';
-import { renderIncidentEmail } from '../notify/emailRender.ts';
+import { renderIncidentEmail, type EmailChart } from '../notify/emailRender.ts';
 import { EmailDeliveryError, sendEmail } from '../notify/emailSend.ts';
 import { asksForAcknowledgement, type IncidentMessage } from '../notify/message.ts';
 import { createMqttPublisher, type MqttPublisher } from '../notify/mqttPublisher.ts';
@@ -29,8 +29,8 @@ export class DeliveryRetry extends Error {
 }
 
 export interface NotificationChannels {
-  /** Delivers one message; resolves with a line for the job's return value. */
-  deliver(effect: NotifyEffect, message: IncidentMessage, attempt: number): Promise<string>;
+  /** Delivers one message (an e-mail may carry the trend chart inline); resolves with a line for the job's return value. */
+  deliver(effect: NotifyEffect, message: IncidentMessage, attempt: number, chart?: EmailChart): Promise<string>;
   close(): Promise<void>;
 }
 
@@ -75,7 +75,7 @@ export function notificationChannels(channels: Channels, options: NotificationCh
     return created;
   };
 
-  const email = async (effect: NotifyEffect, message: IncidentMessage): Promise<string> => {
+  const email = async (effect: NotifyEffect, message: IncidentMessage, chart: EmailChart | undefined): Promise<string> => {
     const cfg = channels.email;
     if (cfg === undefined) throw new UnrecoverableError('an e-mail notification, but channels.email is not configured');
     const links = channels.ackLinks;
@@ -89,7 +89,7 @@ export function notificationChannels(channels: Channels, options: NotificationCh
             return { ackUrl: ackLinkUrl(links.baseUrl, token), ackExpiresAt: expiresAt };
           })()
         : {};
-    const mail = renderIncidentEmail(message, { from: cfg.from, to: effect.target, ...ack });
+    const mail = renderIncidentEmail(message, { from: cfg.from, to: effect.target, ...ack, ...(chart && { chart }) });
     const smtp = cfg.smtp;
     try {
       const sent = await sendEmail(
@@ -145,10 +145,10 @@ export function notificationChannels(channels: Channels, options: NotificationCh
   };
 
   return {
-    async deliver(effect, message, attempt) {
+    async deliver(effect, message, attempt, chart) {
       switch (effect.channel) {
         case 'email':
-          return email(effect, message);
+          return email(effect, message, chart);
         case 'webhook':
           return webhook(effect, message, attempt);
         case 'mqtt':

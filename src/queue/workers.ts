@@ -7,6 +7,7 @@ import { hostname } from 'node:os';
 import { DelayedError, UnrecoverableError, Worker, type Job } from 'bullmq';
 import type { Redis } from 'ioredis';
 import type { Config } from '../domain/config.ts';
+import type { Sample } from '../domain/event.ts';
 import type { LiveEvent } from '../http/eventHub.ts';
 import { incidentEvent } from '../http/eventHub.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
@@ -17,6 +18,7 @@ import type { Metrics } from '../runtime/metrics.ts';
 import { RedisStorage } from '../storage/redisStorage.ts';
 import type { Storage } from '../storage/storage.ts';
 import { DEFAULT_LOCK_TTL_MS, evaluateStored, type EvaluationResult } from './evaluateStored.ts';
+import { incidentChart } from './incidentChart.ts';
 import { incidentMessage } from './incidentMessage.ts';
 import { DeliveryRetry, type NotificationChannels } from './notificationChannels.ts';
 import { startOutboxRelay, type EscalateJobData } from './outboxRelay.ts';
@@ -167,6 +169,15 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   }
 
   const channels = deps.channels;
+  // The chart is a help, not the message: a history it cannot draw sends the mail without it.
+  const emailChart = async (effect: NotifyEffect, revisions: readonly Sample[]) => {
+    try {
+      return await incidentChart(storage, deps.config, effect, revisions);
+    } catch (e) {
+      logger.warn({ incidentId: effect.incidentId, err: (e as Error).message }, 'incident e-mail sent without its trend chart');
+      return undefined;
+    }
+  };
   if (incidentStore !== undefined && channels !== undefined) {
     const apiBaseUrl = deps.apiBaseUrl ?? 'http://localhost:8080';
     workers.push(
@@ -175,7 +186,8 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
         async (job: Job<NotifyEffect>) => {
           const effect = job.data;
           const revisions = await storage.revisions(effect.incident);
-          return channels.deliver(effect, incidentMessage(effect, revisions, apiBaseUrl), job.attemptsMade + 1);
+          const chart = effect.channel === 'email' ? await emailChart(effect, revisions) : undefined;
+          return channels.deliver(effect, incidentMessage(effect, revisions, apiBaseUrl), job.attemptsMade + 1, chart);
         },
         {
           ...workerOptions,

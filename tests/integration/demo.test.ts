@@ -118,6 +118,9 @@ describe.skipIf(!redisServerAvailable())('wearshift demo', () => {
     const lastGearbox = gearbox.at(-1)!;
     expect(lastGearbox.data.incident.state).toMatch(/\backnowledged/);
     expect(lastGearbox.data.incident.state).not.toMatch(/unacknowledged/);
+    // Acknowledged from its e-mail link before its tier-1 delay ran out: nobody further up was told.
+    expect(gearbox.filter((e) => e.type === 'wearshift.incident.escalated')).toEqual([]);
+    expect(Math.max(...gearbox.map((e) => e.data.incident.tier))).toBe(0);
     const engine = events.filter((e) => e.data.incident.unit === 'GEN-3' && e.data.incident.component === 'engine');
     expect(engine.some((e) => e.type === 'wearshift.incident.escalated' && e.data.incident.tier === 2)).toBe(true);
     expect(engine.map((e) => e.type)).not.toContain('wearshift.incident.acknowledged');

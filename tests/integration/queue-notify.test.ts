@@ -7,6 +7,8 @@ import { randomBytes } from 'node:crypto';
 import { createServer, type Server } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { simpleParser, type ParsedMail } from 'mailparser';
+import { PNG } from 'pngjs';
+import { EMAIL_CHART_WIDTH } from '../../src/queue/incidentChart.ts';
 import { SMTPServer } from 'smtp-server';
 import { Webhook } from 'standardwebhooks';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -136,6 +138,15 @@ describe('notifications from the live worker', () => {
     expect(first.mail.subject).toMatch(/BP4-Hill Street/);
     expect(first.mail.text).toMatch(/https:\/\/wearshift\.waterworks\.example\/ack\//);
     expect(first.mail.text).toMatch(/WW-3/);
+    // The trend chart travels inline: a PNG of the documented width that the HTML part shows with alt text.
+    const chart = first.mail.attachments.find((a) => a.contentType === 'image/png');
+    expect(chart).toBeDefined();
+    const png = PNG.sync.read(chart!.content);
+    expect(png.width).toBe(EMAIL_CHART_WIDTH);
+    expect(png.height).toBeGreaterThan(100);
+    expect(chart!.contentId).toBe('<trend-chart@wearshift>');
+    // mailparser inlines cid: images as data URLs; the alt text names the measurand in words.
+    expect(String(first.mail.html)).toMatch(/<img src="(cid:trend-chart@wearshift|data:image\/png;base64,[^"]+)"[^>]* alt="[^"]*(Fe|iron)[^"]*"/);
 
     const escalated = await until('the tier-1 e-mail', () => mails.find((m) => m.to.includes('duty-manager@waterworks.example')));
     expect(escalated.mail.headers.get('x-wearshift-event')).toBe('escalated');
