@@ -6,6 +6,8 @@
 import { detectionLimits, parseBudget, samplesPerBudgetPeriod } from '../analysis/budget.ts';
 import type { Config, Detection } from '../domain/config.ts';
 import { resolveSettings } from '../domain/settings.ts';
+// The same rounding as `wearshift design --json`, so that both print equal numbers.
+import { tidy } from '../cli/output.ts';
 
 export interface BudgetText {
   /** As the user wrote it: "1 per component per 3 years". */
@@ -33,11 +35,6 @@ export interface DetectorParameters {
   readonly ewma: { readonly enabled: boolean; readonly lambda: number; readonly L: number; readonly fromBudget: boolean };
   /** The `wearshift design` commands that print the same h and L. */
   readonly designCommands: readonly string[];
-}
-
-/** Same rounding as `wearshift design --json`: twelve significant figures, so that both print equal numbers. */
-function tidy(x: number): number {
-  return Number(x.toPrecision(12));
 }
 
 /** The configuration with the budget's alarms and period in place of the configured ones, everywhere they are set. */

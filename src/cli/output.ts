@@ -1,5 +1,6 @@
 /** Output for people (aligned tables) and for machines (`--json`: one JSON object per line). */
 import { InvalidArgumentError } from 'commander';
+import { InputError } from '../domain/errors.ts';
 
 export function writeJsonLine(value: unknown, out: NodeJS.WritableStream = process.stdout): void {
   out.write(`${JSON.stringify(value)}\n`);
@@ -28,4 +29,19 @@ export function numberOption(name: string) {
 
 export function numberListOption(name: string) {
   return (raw: string): number[] => raw.split(',').map((p) => numberOption(name)(p));
+}
+
+/** JSON output keeps 12 significant digits: enough for any check, without binary noise such as 0.04999999999999982. */
+export function tidy(x: number): number {
+  return Number(x.toPrecision(12));
+}
+
+/** Parameter errors of the analysis core (RangeError) are the user's to fix: printed without a stack, exit 2. */
+export function asInputError<T>(run: () => T): T {
+  try {
+    return run();
+  } catch (e) {
+    if (e instanceof RangeError) throw new InputError(e.message);
+    throw e;
+  }
 }

@@ -6,7 +6,7 @@ import { type Command } from 'commander';
 import { type CusumPoint, cusumChart } from '../../analysis/cusum.ts';
 import { type EwmaPoint, ewmaChart } from '../../analysis/ewma.ts';
 import { InputError } from '../../domain/errors.ts';
-import { formatTable, numberOption, round, writeJsonLine } from '../output.ts';
+import { asInputError, formatTable, numberOption, round, tidy, writeJsonLine } from '../output.ts';
 
 export interface ChartIo {
   readonly input: NodeJS.ReadableStream;
@@ -33,21 +33,6 @@ async function readAll(input: NodeJS.ReadableStream): Promise<string> {
   let text = '';
   for await (const chunk of input) text += typeof chunk === 'string' ? chunk : (chunk as Buffer).toString('utf8');
   return text;
-}
-
-/** Parameter errors of the analysis core are the user's to fix. */
-function asInputError<T>(run: () => T): T {
-  try {
-    return run();
-  } catch (e) {
-    if (e instanceof RangeError) throw new InputError(e.message);
-    throw e;
-  }
-}
-
-/** JSON output keeps 12 significant digits: enough for any check, without binary noise such as 0.04999999999999982. */
-function tidy(x: number): number {
-  return Number(x.toPrecision(12));
 }
 
 function firstSignalLine(points: readonly (CusumPoint | EwmaPoint)[]): string {

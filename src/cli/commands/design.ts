@@ -10,7 +10,7 @@ import { ewmaLimitWidth } from '../../analysis/arl/solveEwma.ts';
 import { parseBudget, samplesPerBudgetPeriod, targetArl } from '../../analysis/budget.ts';
 import { type Budget, BudgetSchema } from '../../domain/config.ts';
 import { InputError } from '../../domain/errors.ts';
-import { formatTable, numberListOption, numberOption, round, writeJsonLine } from '../output.ts';
+import { asInputError, formatTable, numberListOption, numberOption, round, tidy, writeJsonLine } from '../output.ts';
 
 type Sided = 'one' | 'two';
 
@@ -38,19 +38,6 @@ interface BudgetConversion {
   componentArl0: number;
   charts: number;
   arl0: number;
-}
-
-function asInputError<T>(run: () => T): T {
-  try {
-    return run();
-  } catch (e) {
-    if (e instanceof RangeError) throw new InputError(e.message);
-    throw e;
-  }
-}
-
-function tidy(x: number): number {
-  return Number(x.toPrecision(12));
 }
 
 /** The target in-control run length: --arl0, or the budget conversion; undefined when the parameter itself was given. */
