@@ -84,3 +84,25 @@ export function groupBaseline(components: readonly BaselineSums[], typicalInterv
   const spread = rates.reduce((a, r) => a + (r - mean) ** 2, 0) / (rates.length - 1);
   return { ...pooled, rateVariance: spread };
 }
+
+/**
+ * How many baselines' worth of data the filter weighs when it keeps learning a component's own rate: long enough
+ * that a real shift shows for many samples before it is learnt, short enough that the rate learnt from the first
+ * baseline stops being frozen with its estimation error.
+ */
+const OWN_RATE_MEMORY = 4;
+
+/**
+ * A component's own baseline as the filter uses it: the rate learnt from its stable intervals, with that
+ * estimate's own uncertainty (the variance of the ratio estimator), and a slow drift so that the filter keeps
+ * refining the rate over a memory of OWN_RATE_MEMORY baselines instead of freezing the first estimate's error.
+ */
+export function ownRateBaseline(s: BaselineSums, typicalIntervalHours: number): RateBaseline | undefined {
+  const base = rateBaseline(s, 1, typicalIntervalHours);
+  if (base === undefined) return undefined;
+  // Consecutive increments share a reading, so over a run of intervals the lab noise of the inner readings
+  // cancels: what remains is the wear process over all the hours and the lab noise of the two end readings.
+  const rateVariance = (base.processVariance * s.sumHours + s.sumLabVariance / s.intervals) / s.sumHours ** 2;
+  const memory = OWN_RATE_MEMORY * s.intervals;
+  return { ...base, rateVariance, rateDrift: (rateVariance * s.intervals) / (memory ** 2 * typicalIntervalHours) };
+}

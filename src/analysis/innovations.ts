@@ -85,12 +85,13 @@ export function innovations(
     const s = state;
     const c = iv.carryOver;
     const h = iv.hours;
+    const rateVariance = s.rateVariance + (baseline.rateDrift ?? 0) * h;
     const predicted = c * s.level + h * s.rate;
-    const predictedVariance = c * c * s.variance + 2 * c * h * s.covariance + h * h * s.rateVariance + baseline.processVariance * h;
-    const predictedCovariance = c * s.covariance + h * s.rateVariance;
+    const predictedVariance = c * c * s.variance + 2 * c * h * s.covariance + h * h * rateVariance + baseline.processVariance * h;
+    const predictedCovariance = c * s.covariance + h * rateVariance;
     if (iv.censored) {
       // A censored reading tells too little to update on; time still passes.
-      state = { ...s, level: predicted, variance: predictedVariance, covariance: predictedCovariance };
+      state = { ...s, level: predicted, variance: predictedVariance, covariance: predictedCovariance, rateVariance };
       return;
     }
     const errorVariance = predictedVariance + labVariance(noise, iv.level);
@@ -100,7 +101,7 @@ export function innovations(
       variance: predictedVariance - predictedVariance ** 2 / errorVariance,
       rate: s.rate + (predictedCovariance / errorVariance) * error,
       covariance: predictedCovariance - (predictedVariance * predictedCovariance) / errorVariance,
-      rateVariance: s.rateVariance - predictedCovariance ** 2 / errorVariance,
+      rateVariance: rateVariance - predictedCovariance ** 2 / errorVariance,
     };
     out.push({ interval: index, z: error / Math.sqrt(errorVariance), rate: iv.rate, baselineRate: s.rate });
   });

@@ -80,6 +80,8 @@ export interface RateBaseline {
    * baseline, the spread of the wear rate from unit to unit. Above 0, the filter learns the component's rate.
    */
   readonly rateVariance?: number;
+  /** How fast the component's rate may wander, (ppm/h)² per hour; above 0, the filter keeps learning it. */
+  readonly rateDrift?: number;
   readonly intervals: number;
   readonly components: number;
 }

@@ -77,22 +77,22 @@ describe('in-control false-alarm rate matches the design', () => {
     expect(ewma.arl).toBeLessThan(ARL0 * 1.2);
   });
 
-  it('with the in-control rate and spread learnt from 8 own intervals: observed ARL within ±25 % of the design', () => {
-    const settings = settingsFor(8);
+  it('with the rate learnt from the default 12 own intervals: no more false alarms than designed, and not blunted past 2.5 × the design', () => {
+    const settings = settingsFor(12);
     const runs = { cusum: [] as (number | undefined)[], ewma: [] as (number | undefined)[] };
     for (let s = 0; s < 250; s++) {
-      const ev = evaluateComponent(simulatedSamples({ samples: LENGTH + 9 }, 3000 + s), settings);
-      runs.cusum.push(firstSignal(ev.steps, 'cusum', 9));
-      runs.ewma.push(firstSignal(ev.steps, 'ewma', 9));
+      const ev = evaluateComponent(simulatedSamples({ samples: LENGTH + 13 }, 3000 + s), settings);
+      runs.cusum.push(firstSignal(ev.steps, 'cusum', 13));
+      runs.ewma.push(firstSignal(ev.steps, 'ewma', 13));
     }
     const cusum = estimateArl(runs.cusum, LENGTH);
     const ewma = estimateArl(runs.ewma, LENGTH);
-    console.info(`calibration, own 8-interval baseline: CUSUM ARL ${cusum.arl.toFixed(1)}, EWMA ARL ${ewma.arl.toFixed(1)}; designed ${ARL0}`);
-    // Estimation error in a short baseline usually inflates false alarms; the process-spread floor and the
-    // moment estimator's upward bias offset it here. The wider band allows for that and for sampling error.
+    console.info(`calibration, own 12-interval baseline: CUSUM ARL ${cusum.arl.toFixed(1)}, EWMA ARL ${ewma.arl.toFixed(1)}; designed ${ARL0}`);
+    // The filter goes on learning the rate with the baseline's own uncertainty, so a short baseline's estimation
+    // error does not turn into a standing bias. Carrying that uncertainty errs on the quiet side here.
     for (const r of [cusum, ewma]) {
-      expect(r.arl).toBeGreaterThan(ARL0 * 0.75);
-      expect(r.arl).toBeLessThan(ARL0 * 1.25);
+      expect(r.arl).toBeGreaterThan(ARL0 * 0.8);
+      expect(r.arl).toBeLessThan(ARL0 * 2.5);
     }
   });
 });

@@ -8,7 +8,7 @@
 import type { Finding } from '../../domain/finding.ts';
 import { MEASURANDS, type Measurand } from '../../domain/measurands.ts';
 import type { ComponentSettings } from '../../domain/settings.ts';
-import { rateBaseline } from '../baseline.ts';
+import { ownRateBaseline } from '../baseline.ts';
 import { detectionLimits } from '../budget.ts';
 import { cusumChart } from '../cusum.ts';
 import { ewmaChart } from '../ewma.ts';
@@ -62,7 +62,7 @@ export function lifeInnovations(input: RuleInput, measurand: Measurand): LifeInn
   return starts.map((start, n) => {
     const end = starts[n + 1] ?? intervals.length;
     const own = ownBaseline(intervals.slice(0, end), detection, start);
-    const ownRate = own && rateBaseline(own.sums, 1, detection.budget.sampleIntervalHours);
+    const ownRate = own && ownRateBaseline(own.sums, detection.budget.sampleIntervalHours);
     const baselineAt = (index: number): RateBaseline | undefined =>
       index < start || index >= end ? undefined : own && ownRate && index > own.completedAt ? ownRate : groupBaseline;
     return { errors: innovations(intervals, detection.labNoise, baselineAt), current: end === intervals.length, ...(own && { own }) };
