@@ -11,10 +11,12 @@
  * A shift of the wear rate to g + δ gives prediction errors with a positive mean (δ·h at first, growing to
  * δ·h/K as the filter settles, K being its gain), which the detectors accumulate.
  *
- * Judged against a group baseline (while the component's own history is short), the component's rate is a state
- * of the filter too, starting from the group's rate with the unit-to-unit spread as its variance, and learnt from
- * the readings; the errors stay N(0, 1) for a unit whose rate is anywhere in the group's spread. Once the own
- * baseline is complete the rate is fixed at the component's own, so that a later shift is not learnt away.
+ * The component's rate is a state of the filter too. Against a group baseline (while the own history is short)
+ * it starts from the group's rate with the unit-to-unit spread as its variance and is learnt from the readings,
+ * so the errors stay N(0, 1) for a unit whose rate is anywhere in the group's spread. Once the own baseline is
+ * complete it restarts from the own estimate with that estimate's uncertainty and a slow drift, so the filter
+ * keeps refining it over a long memory: a real shift shows for many samples before it is learnt, while the first
+ * estimate's error does not stay frozen into a standing bias.
  */
 import type { Detection } from '../domain/config.ts';
 import { labVariance } from './labNoise.ts';

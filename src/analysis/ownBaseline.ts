@@ -1,7 +1,7 @@
 /**
  * A component's own baseline: its first stable intervals after running-in (not censored, not running-in),
- * counted from the last component change. Once complete it is frozen, so that a later shift in wear rate
- * cannot creep into the reference it is judged against.
+ * counted from the last component change. Once complete its sums are fixed (they are what the group pools);
+ * the filter starts from the rate they give and refines it slowly (see innovations.ts).
  */
 import type { Detection } from '../domain/config.ts';
 import { addInterval, EMPTY_SUMS } from './baseline.ts';
