@@ -45,3 +45,11 @@ export function asInputError<T>(run: () => T): T {
     throw e;
   }
 }
+
+/** `--now`: the processing time a command judges against (future dates, backfill); default the clock. */
+export function processingTime(text: string | undefined): number {
+  if (text === undefined) return Date.now();
+  const now = Date.parse(text);
+  if (Number.isNaN(now)) throw new InputError(`--now: expected an ISO 8601 date-time, got "${text}"`);
+  return now;
+}

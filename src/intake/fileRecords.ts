@@ -12,6 +12,7 @@ import { createReadStream, type ReadStream } from 'node:fs';
 import { createInterface } from 'node:readline';
 import type { Readable } from 'node:stream';
 import { parse } from 'csv-parse';
+import { InputError } from '../domain/errors.ts';
 import type { FieldIssue } from '../domain/event.ts';
 
 export type FileFormat = 'csv' | 'jsonl';
@@ -22,7 +23,7 @@ export function formatOf(path: string, explicit?: string): FileFormat {
   const f = (explicit ?? path.split('.').pop() ?? '').toLowerCase();
   if (f === 'csv') return 'csv';
   if (f === 'jsonl' || f === 'ndjson') return 'jsonl';
-  throw new Error(`${path}: cannot tell the format from the name; use --format csv or --format jsonl`);
+  throw new InputError(`${path}: cannot tell the format from the name; use --format csv or --format jsonl`);
 }
 
 export function readRecordFile(path: string, format: FileFormat): { records: AsyncIterable<SourceRecord>; stream: ReadStream } {

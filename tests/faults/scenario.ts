@@ -17,6 +17,7 @@ import { RedisIncidentStore } from '../../src/incidents/redisIncidentStore.ts';
 import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
 import { RedisStorage } from '../../src/storage/redisStorage.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { FLEET_CONFIG } from '../helpers/fleetCsv.ts';
 import { waitFor } from '../helpers/processes.ts';
 
 export const PREFIX = '{faults}';
@@ -51,19 +52,8 @@ export function scenarioConfig(options: ScenarioOptions): string {
   const notifies = options.smtpPort !== undefined || options.webhookUrl !== undefined;
   return `
 redis: { prefix: "${PREFIX}" }
-detection:
-  measurands: [Fe, Cu]
-  runningInHours: 0
-  baselineIntervals: 6
 backfill: { quietAfterDays: 36500 }
-groups:
-  - name: lift-gearboxes
-    match: { component: gearbox, unit: "^LS" }
-    sumpLitres: 40
-    residualFraction: 0.1
-    limits:
-      Fe: { caution: 45, alarm: 70 }
-      Si: { caution: 15, alarm: 25 }
+${FLEET_CONFIG}
 ${notifies ? notifying(options) : ''}`;
 }
 

@@ -15,7 +15,7 @@ import { loadConfig } from '../../domain/configFile.ts';
 import { InputError } from '../../domain/errors.ts';
 import { formatOf, readRecordFile, type SourceRecord } from '../../intake/fileRecords.ts';
 import type { RejectedRecord } from '../../queue/replayHistory.ts';
-import { writeJsonLine } from '../output.ts';
+import { processingTime, writeJsonLine } from '../output.ts';
 
 interface BacktestCommandOptions {
   config?: string;
@@ -52,14 +52,8 @@ export function registerBacktest(program: Command): void {
     .addHelpText('after', HELP)
     .action(async (file: string, opts: BacktestCommandOptions) => {
       if (opts.out === undefined && !opts.json) throw new InputError('give --out report.html, --json, or both');
-      let format;
-      try {
-        format = formatOf(file, opts.format);
-      } catch (e) {
-        throw new InputError((e as Error).message);
-      }
-      const now = opts.now === undefined ? Date.now() : Date.parse(opts.now);
-      if (Number.isNaN(now)) throw new InputError(`--now: expected an ISO 8601 date-time, got "${opts.now}"`);
+      const format = formatOf(file, opts.format);
+      const now = processingTime(opts.now);
       const budget = opts.budget === undefined ? undefined : readBudget(opts.budget);
       const configurations = configurationsOf(opts);
       const records = await readAll(file, format);

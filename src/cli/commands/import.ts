@@ -41,10 +41,9 @@ export function registerImport(program: Command): void {
 async function importFile(file: string, opts: ImportOptions): Promise<number> {
   const batchSize = Number(opts.batchSize);
   if (!Number.isInteger(batchSize) || batchSize < 1) throw new InputError(`--batch-size: expected a whole number from 1, got "${opts.batchSize}"`);
-  let format;
+  const format = formatOf(file, opts.format);
   let size;
   try {
-    format = formatOf(file, opts.format);
     size = statSync(file).size;
   } catch (e) {
     throw new InputError((e as Error).message);

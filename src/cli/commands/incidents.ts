@@ -3,7 +3,6 @@
  * against the Redis incident store. Messages that an action causes go to the outbox, which the worker sends.
  */
 import type { Command } from 'commander';
-import { Redis } from 'ioredis';
 import type { Config } from '../../domain/config.ts';
 import { loadConfig } from '../../domain/configFile.ts';
 import { InputError } from '../../domain/errors.ts';
@@ -12,8 +11,7 @@ import { IncidentFilterSchema } from '../../incidents/listFilter.ts';
 import { describeState, type Incident, type IncidentSummary, type TimelineEntry } from '../../incidents/model.ts';
 import { incidentRules } from '../../incidents/policy.ts';
 import { RedisIncidentStore } from '../../incidents/redisIncidentStore.ts';
-import { maskUrl } from '../../runtime/logger.ts';
-import { redisUrl } from '../../runtime/redis.ts';
+import { closeQuietly, connectForCommand, redisUrl } from '../../runtime/redis.ts';
 import { formatTable, writeJsonLine } from '../output.ts';
 
 interface CommonOptions {
@@ -23,20 +21,11 @@ interface CommonOptions {
 
 async function withStore<T>(opts: CommonOptions, work: (store: RedisIncidentStore) => Promise<T>): Promise<T> {
   const config: Config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
-  const url = redisUrl(config);
-  // A command line should fail at once when Redis is away, not retry for ever.
-  const redis = new Redis(url, { lazyConnect: true, maxRetriesPerRequest: 1, connectTimeout: 3000, retryStrategy: () => null });
-  redis.on('error', () => {});
-  try {
-    await redis.connect();
-  } catch (e) {
-    redis.disconnect();
-    throw new InputError(`cannot reach Redis at ${maskUrl(url)} (REDIS_URL or redis.url): ${(e as Error).message}`);
-  }
+  const redis = await connectForCommand(redisUrl(config));
   try {
     return await work(new RedisIncidentStore(redis, { rules: incidentRules(config), prefix: config.redis.prefix }));
   } finally {
-    await redis.quit().catch(() => redis.disconnect());
+    await closeQuietly(redis);
   }
 }
 

@@ -8,7 +8,7 @@ import { loadConfig } from '../../domain/configFile.ts';
 import { InputError } from '../../domain/errors.ts';
 import { formatOf, readRecordFile } from '../../intake/fileRecords.ts';
 import { replayRecords, type RejectedRecord, type TimelineLine } from '../../queue/replayHistory.ts';
-import { writeJsonLine } from '../output.ts';
+import { processingTime, writeJsonLine } from '../output.ts';
 
 interface ReplayCommandOptions {
   config?: string;
@@ -27,14 +27,8 @@ export function registerReplay(program: Command): void {
     .option('--now <time>', 'processing time for the backfill rule, ISO 8601 (default: now)')
     .option('--json', 'JSON lines: {"type":"finding",...} and {"type":"incident",...}')
     .action(async (file: string, opts: ReplayCommandOptions) => {
-      let format;
-      try {
-        format = formatOf(file, opts.format);
-      } catch (e) {
-        throw new InputError((e as Error).message);
-      }
-      const now = opts.now === undefined ? Date.now() : Date.parse(opts.now);
-      if (Number.isNaN(now)) throw new InputError(`--now: expected an ISO 8601 date-time, got "${opts.now}"`);
+      const format = formatOf(file, opts.format);
+      const now = processingTime(opts.now);
       const config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
       const { records, stream } = readRecordFile(file, format);
       const opened = new Promise<void>((resolve, reject) => {
