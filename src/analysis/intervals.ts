@@ -3,9 +3,10 @@
  * the oil left over from the previous charge, per operating hour. A rising concentration alone says little:
  * its slope against the hours on the charge is the wear rate.
  */
-import type { Sample } from '../domain/event.ts';
 import { MEASURANDS, type Measurand } from '../domain/measurands.ts';
 import type { ComponentSettings } from '../domain/settings.ts';
+import { advanceCharge, type ChargeTrack } from './fold/chargeTrack.ts';
+import { advanceWear, EMPTY_WEAR_TRACK, rollOverCharge, type WearTrack } from './fold/wearTrack.ts';
 import type { ComponentHistory, Interval } from './model.ts';
 
 /**
@@ -35,92 +36,20 @@ import type { ComponentHistory, Interval } from './model.ts';
  *
  * Only wear measurands (catalogue kind 'wear') have intervals; any other measurand gives none.
  */
-/**
- * Two samples less than an operating hour apart are a re-sample, not a wear interval: the rise over so short a
- * run is lab noise divided by almost nothing. Such a pair gives no interval (the readings still count as readings).
- */
-export const MIN_INTERVAL_HOURS = 1;
+export { MIN_INTERVAL_HOURS } from './fold/wearTrack.ts';
 
 export function wearIntervals(history: ComponentHistory, measurand: Measurand, settings: ComponentSettings): Interval[] {
   if (MEASURANDS[measurand].kind !== 'wear') return [];
   const intervals: Interval[] = [];
-  const runningInHours = settings.detection.runningInHours;
-  let lastChange: { sample: Sample; chargeIndex: number } | undefined;
-  let previousChargeLast: ReadingAt | undefined;
-  for (const charge of history.charges) {
-    const freshOil = charge.samples[0]?.componentChanged === true;
-    let previous: ReadingAt | undefined;
-    let makeUpShare = 1;
-    for (const sample of charge.samples) {
-      if (sample.componentChanged) lastChange = { sample, chargeIndex: charge.index };
-      if (previous !== undefined) makeUpShare *= 1 - makeUpFraction(sample, settings.sumpLitres);
-      const current = readingAt(sample, measurand);
-      if (current === undefined) continue;
-
-      const step = previous
-        ? { from: previous, carryOver: makeUpShare, hours: hoursBetween(previous.sample, sample), firstOfCharge: false }
-        : freshOil
-          ? { from: previousChargeLast, carryOver: 0, hours: sample.oilHours ?? NaN, firstOfCharge: true }
-          : charge.index > 0 && previousChargeLast
-            ? { from: previousChargeLast, carryOver: settings.residualFraction, hours: sample.oilHours ?? NaN, firstOfCharge: true }
-            : undefined;
-      previous = current;
-      makeUpShare = 1;
-      if (step === undefined || !(step.hours >= MIN_INTERVAL_HOURS)) continue;
-
-      const fromLevel = step.from?.level ?? 0;
-      const baseLevel = step.carryOver * fromLevel;
-      const increment = current.level - baseLevel;
-      intervals.push({
-        measurand,
-        chargeIndex: charge.index,
-        to: sample,
-        ...(step.from && { from: step.from.sample }),
-        firstOfCharge: step.firstOfCharge,
-        hours: step.hours,
-        carryOver: step.carryOver,
-        baseLevel,
-        level: current.level,
-        increment,
-        rate: increment / step.hours,
-        censored: current.censored || (step.carryOver > 0 && step.from?.censored === true),
-        runningIn: lastChange !== undefined && hoursSince(lastChange, sample, charge.index) <= runningInHours,
-      });
-    }
-    previousChargeLast = previous;
+  let charge: ChargeTrack | undefined;
+  let track: WearTrack = EMPTY_WEAR_TRACK;
+  for (const sample of history.samples) {
+    const next = advanceCharge(charge, sample);
+    charge = next.track;
+    if (next.newCharge) track = rollOverCharge(track);
+    const r = advanceWear(track, sample, measurand, charge, settings);
+    track = r.track;
+    if (r.interval !== undefined) intervals.push(r.interval);
   }
   return intervals;
-}
-
-interface ReadingAt {
-  readonly sample: Sample;
-  readonly level: number;
-  readonly censored: boolean;
-}
-
-function readingAt(sample: Sample, measurand: Measurand): ReadingAt | undefined {
-  const r = sample.readings[measurand];
-  if (r === undefined || r.kind === 'code') return undefined;
-  return r.kind === 'value' ? { sample, level: r.value, censored: false } : { sample, level: r.limit, censored: true };
-}
-
-function makeUpFraction(sample: Sample, sumpLitres: number | undefined): number {
-  if (sumpLitres === undefined || !(sample.topUpLitres > 0)) return 0;
-  return Math.min(1, sample.topUpLitres / sumpLitres);
-}
-
-function hoursBetween(a: Sample, b: Sample): number {
-  const oil = difference(a.oilHours, b.oilHours);
-  return Number.isNaN(oil) ? difference(a.unitHours, b.unitHours) : oil;
-}
-
-function hoursSince(change: { sample: Sample; chargeIndex: number }, sample: Sample, chargeIndex: number): number {
-  const unit = difference(change.sample.unitHours, sample.unitHours);
-  if (!Number.isNaN(unit) || change.chargeIndex !== chargeIndex) return unit;
-  return difference(change.sample.oilHours, sample.oilHours);
-}
-
-/** y − x; NaN when either is unknown, so that every comparison with it is false. */
-function difference(x: number | undefined, y: number | undefined): number {
-  return x === undefined || y === undefined ? NaN : y - x;
 }

@@ -34,7 +34,7 @@ export interface Interval {
   readonly chargeIndex: number;
   readonly to: Sample;
   /** Sample the interval starts from; for the first sample of a charge, the last sample of the previous charge. */
-  readonly from?: Sample;
+  readonly from?: { readonly sampleId: string; readonly sampledAt: string };
   readonly firstOfCharge: boolean;
   /** Operating hours of the interval. */
   readonly hours: number;

@@ -7,7 +7,8 @@
  * evaluation step, so the charts show what the board would show after the last sample.
  */
 import { evaluateComponent } from '../analysis/evaluate.ts';
-import type { Evaluation, GroupStats } from '../analysis/model.ts';
+import type { FullEvaluation } from '../analysis/evaluate.ts';
+import type { GroupStats } from '../analysis/model.ts';
 import type { Config } from '../domain/config.ts';
 import { componentKey, type Sample } from '../domain/event.ts';
 import { findingKey, maxSeverity, type Finding, type Severity } from '../domain/finding.ts';
@@ -33,7 +34,7 @@ export interface ComponentRun {
   readonly settings: ComponentSettings;
   readonly groupStats: GroupStats;
   /** The whole history evaluated at the end, for the chart traces and levels. */
-  readonly evaluation: Evaluation;
+  readonly evaluation: FullEvaluation;
 }
 
 export interface BacktestRun {

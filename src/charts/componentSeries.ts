@@ -9,7 +9,8 @@ import type { Finding, RuleFamily, Severity } from '../domain/finding.ts';
 import { MEASURAND_NAMES, MEASURANDS, type Measurand } from '../domain/measurands.ts';
 import { formatReading, type Iso4406Code } from '../domain/reading.ts';
 import type { ComponentSettings } from '../domain/settings.ts';
-import { wearIntervals } from '../analysis/intervals.ts';
+import type { FullEvaluation } from '../analysis/evaluate.ts';
+import type { FoldStep } from '../analysis/fold/analysisFold.ts';
 import { sampleIso4406Code, targetIso4406Code } from '../analysis/iso4406.ts';
 import type { Charge, Evaluation, GroupStats, Interval } from '../analysis/model.ts';
 import { populationMeasurands } from '../analysis/populationStats.ts';
@@ -133,23 +134,21 @@ export interface ComponentSeriesOptions {
 }
 
 export function buildComponentSeries(
-  evaluation: Evaluation,
+  evaluation: FullEvaluation,
   settings: ComponentSettings,
   group?: GroupStats,
   options: ComponentSeriesOptions = {},
 ): ComponentSeries {
   const { history } = evaluation;
-  const intervalCache = new Map<Measurand, readonly Interval[]>();
-  const input: RuleInput = {
-    history,
-    settings,
-    intervals: (m) => {
-      let list = intervalCache.get(m);
-      if (list === undefined) intervalCache.set(m, (list = wearIntervals(history, m, settings)));
-      return list;
-    },
-    ...(group !== undefined && { group }),
-  };
+  const intervals = new Map<Measurand, Interval[]>();
+  for (const step of evaluation.steps) {
+    for (const iv of step.detail.intervals) {
+      const list = intervals.get(iv.measurand);
+      if (list === undefined) intervals.set(iv.measurand, [iv]);
+      else list.push(iv);
+    }
+  }
+  const input: RuleInput = { history, settings, intervals: (m) => intervals.get(m) ?? [], ...(group !== undefined && { group }) };
   const findings = evaluation.steps.flatMap((s) => s.findings);
   const measurands = options.measurands ?? plottedMeasurands(evaluation, settings);
   return {
@@ -158,11 +157,11 @@ export function buildComponentSeries(
     group: settings.group,
     samples: history.samples.length,
     charges: history.charges.length,
-    measurands: measurands.map((m) => measurandSeries(input, m, findings.filter((f) => f.measurand === m))),
+    measurands: measurands.map((m) => measurandSeries(input, evaluation.steps, m, findings.filter((f) => f.measurand === m))),
   };
 }
 
-function measurandSeries(input: RuleInput, m: Measurand, findings: readonly Finding[]): MeasurandSeries {
+function measurandSeries(input: RuleInput, steps: readonly FoldStep[], m: Measurand, findings: readonly Finding[]): MeasurandSeries {
   const { history, settings } = input;
   const info = MEASURANDS[m];
   const charges = history.charges.map((c) => ({
@@ -216,7 +215,7 @@ function measurandSeries(input: RuleInput, m: Measurand, findings: readonly Find
           }),
         }
       : null;
-  const traces = settings.detection.measurands.includes(m) ? detectorTraces(input, m) : { cusum: null, ewma: null };
+  const traces = settings.detection.measurands.includes(m) ? detectorTraces(steps, settings, m) : { cusum: null, ewma: null };
   return {
     measurand: m,
     label: info.label,

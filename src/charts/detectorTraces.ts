@@ -1,16 +1,13 @@
 /**
  * The EWMA and CUSUM statistics at every judged interval of one detection measurand, for the chart's detector panels.
  * The findings only say where a detector signalled; the chart must show how the statistic moved towards its limit.
- * The inputs are built as the `ewma`/`cusum` rule family builds them (src/analysis/rules/change.ts): each life of the
- * component (between replacements) on its own, judged against its own baseline once complete, else the group's.
+ * The evaluation hands them over with each step (the statistics the rule judged), so nothing is computed twice.
  * tests/unit/chart-series.test.ts checks that these traces cross their limits exactly where the rule raised findings.
  */
 import type { Measurand } from '../domain/measurands.ts';
 import { detectionLimits } from '../analysis/budget.ts';
-import { cusumChart } from '../analysis/cusum.ts';
-import { ewmaChart } from '../analysis/ewma.ts';
-import { lifeInnovations } from '../analysis/rules/change.ts';
-import type { RuleInput } from '../analysis/rules/ruleInput.ts';
+import type { FoldStep } from '../analysis/fold/analysisFold.ts';
+import type { ComponentSettings } from '../domain/settings.ts';
 
 export interface DetectorPointBase {
   /** The sample that ends the judged interval. */
@@ -49,26 +46,20 @@ export interface EwmaTrace {
   readonly points: readonly EwmaPoint[];
 }
 
-export function detectorTraces(input: RuleInput, measurand: Measurand): { cusum: CusumTrace | null; ewma: EwmaTrace | null } {
-  const { detection } = input.settings;
+export function detectorTraces(steps: readonly FoldStep[], settings: ComponentSettings, measurand: Measurand): { cusum: CusumTrace | null; ewma: EwmaTrace | null } {
+  const { detection } = settings;
   if (!detection.cusum.enabled && !detection.ewma.enabled) return { cusum: null, ewma: null };
   const limits = detectionLimits(detection);
-  const intervals = input.intervals(measurand);
   const cusum: CusumPoint[] = [];
   const ewma: EwmaPoint[] = [];
-  lifeInnovations(input, measurand).forEach(({ errors }, life) => {
-    const base = errors.map((e) => ({ sampleId: intervals[e.interval]!.to.sampleId, sampledAt: intervals[e.interval]!.to.sampledAt, life, z: e.z }));
-    const zs = errors.map((e) => e.z);
-    if (detection.cusum.enabled) {
-      const params = { k: detection.cusum.k, h: limits.cusumH, headstart: detection.cusum.headstart };
-      cusumChart(zs, 0, 1, params).forEach((p, n) => cusum.push({ ...base[n]!, upper: p.upper, lower: p.lower }));
+  for (const step of steps) {
+    for (const p of step.detail.change) {
+      if (p.interval.measurand !== measurand) continue;
+      const base = { sampleId: step.sampleId, sampledAt: step.sampledAt, life: p.life, z: p.z };
+      if (p.cusum !== undefined) cusum.push({ ...base, upper: p.cusum.upper, lower: p.cusum.lower });
+      if (p.ewma !== undefined) ewma.push({ ...base, ewma: p.ewma.value, ucl: p.ewma.ucl, lcl: p.ewma.lcl });
     }
-    if (detection.ewma.enabled) {
-      ewmaChart(zs, 0, 1, { lambda: detection.ewma.lambda, L: limits.ewmaL, exactLimits: true }).forEach((p, n) =>
-        ewma.push({ ...base[n]!, ewma: p.ewma, ucl: p.ucl, lcl: p.lcl }),
-      );
-    }
-  });
+  }
   return {
     cusum: detection.cusum.enabled ? { k: detection.cusum.k, h: limits.cusumH, sided: detection.sided, points: cusum } : null,
     ewma: detection.ewma.enabled ? { lambda: detection.ewma.lambda, L: limits.ewmaL, sided: detection.sided, points: ewma } : null,

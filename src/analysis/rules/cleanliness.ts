@@ -7,32 +7,31 @@
 import type { Finding } from '../../domain/finding.ts';
 import { formatReading, type Iso4406Code } from '../../domain/reading.ts';
 import { codeStepsWorse, sampleIso4406Code, targetIso4406Code } from '../iso4406.ts';
-import { findingAt, type RuleInput } from './ruleInput.ts';
+import { findingAt, sweep, type RuleInput, type SampleInput } from './ruleInput.ts';
 
 export function cleanlinessFindings(input: RuleInput): Finding[] {
+  return sweep(input, cleanlinessVerdicts);
+}
+
+export function cleanlinessVerdicts(input: SampleInput): Finding[] {
   const target = targetIso4406Code(input.settings.cleanlinessTarget);
-  if (target === undefined) return [];
-  const findings: Finding[] = [];
-  for (const sample of input.history.samples) {
-    const code = sampleIso4406Code(sample);
-    if (code === undefined) continue;
-    const steps = codeStepsWorse(code.code, target);
-    if (steps < 1) continue;
-    const severity = steps >= 2 ? 'alarm' : 'caution';
-    const text = (c: Iso4406Code) => formatReading({ kind: 'code', code: c });
-    findings.push(
-      findingAt(input, sample, {
-        measurand: 'iso4406',
-        rule: 'cleanliness',
-        severity,
-        value: steps,
-        threshold: severity === 'alarm' ? 2 : 1,
-        basis: 'steps',
-        explanation:
-          `ISO 4406 code ${text(code.code)}${code.fromCounts ? ' (from the particle counts)' : ''} is ${steps} ` +
-          `scale step${steps === 1 ? '' : 's'} worse than the target ${text(target)}; each step doubles the particle count.`,
-      }),
-    );
-  }
-  return findings;
+  const code = target && sampleIso4406Code(input.sample);
+  if (target === undefined || code === undefined) return [];
+  const steps = codeStepsWorse(code.code, target);
+  if (steps < 1) return [];
+  const severity = steps >= 2 ? 'alarm' : 'caution';
+  const text = (c: Iso4406Code) => formatReading({ kind: 'code', code: c });
+  return [
+    findingAt(input, input.sample, {
+      measurand: 'iso4406',
+      rule: 'cleanliness',
+      severity,
+      value: steps,
+      threshold: severity === 'alarm' ? 2 : 1,
+      basis: 'steps',
+      explanation:
+        `ISO 4406 code ${text(code.code)}${code.fromCounts ? ' (from the particle counts)' : ''} is ${steps} ` +
+        `scale step${steps === 1 ? '' : 's'} worse than the target ${text(target)}; each step doubles the particle count.`,
+    }),
+  ];
 }

@@ -19,19 +19,21 @@ import type { Levels } from '../../domain/config.ts';
 import type { Finding } from '../../domain/finding.ts';
 import type { Measurand } from '../../domain/measurands.ts';
 import type { Reading } from '../../domain/reading.ts';
-import { crossing, findingAt, type Crossing, formatNumber, measurandTitle, quantity, readingText, type RuleInput, type Verdict } from './ruleInput.ts';
+import { crossing, findingAt, type Crossing, formatNumber, measurandTitle, quantity, readingText, sweep, type RuleInput, type SampleInput, type Verdict } from './ruleInput.ts';
 
 type Judgement = Omit<Verdict, 'measurand' | 'rule'>;
-type Judge = (reading: Reading, input: RuleInput) => Judgement | undefined;
+type Judge = (reading: Reading, input: SampleInput) => Judgement | undefined;
 
 export function conditionFindings(input: RuleInput): Finding[] {
+  return sweep(input, conditionVerdicts);
+}
+
+export function conditionVerdicts(input: SampleInput): Finding[] {
   const findings: Finding[] = [];
-  for (const sample of input.history.samples) {
-    for (const [m, judge] of JUDGES) {
-      const reading = sample.readings[m];
-      const verdict = reading && judge(reading, input);
-      if (verdict) findings.push(findingAt(input, sample, { measurand: m, rule: 'condition', ...verdict }));
-    }
+  for (const [m, judge] of JUDGES) {
+    const reading = input.sample.readings[m];
+    const verdict = reading && judge(reading, input);
+    if (verdict) findings.push(findingAt(input, input.sample, { measurand: m, rule: 'condition', ...verdict }));
   }
   return findings;
 }
@@ -49,7 +51,7 @@ const JUDGES: readonly (readonly [Measurand, Judge])[] = [
   ['nitration', (r, input) => riseOverNew('nitration', r, input)],
 ];
 
-function baseNumber(reading: Reading, input: RuleInput) {
+function baseNumber(reading: Reading, input: SampleInput) {
   const fresh = input.settings.newOil.tbn;
   if (fresh === undefined || !(fresh > 0)) return undefined;
   const fraction = input.settings.condition.tbnFallFraction;
@@ -58,7 +60,7 @@ function baseNumber(reading: Reading, input: RuleInput) {
   return levelVerdict('tbn', reading, levels, 'below', (c) => `${formatNumber(fractions[c.severity])} of the new-oil ${quantity('tbn', fresh)}`);
 }
 
-function acidNumber(reading: Reading, input: RuleInput) {
+function acidNumber(reading: Reading, input: SampleInput) {
   const fresh = input.settings.newOil.tan;
   if (fresh === undefined) return undefined;
   const rise = input.settings.condition.tanRise;
@@ -66,7 +68,7 @@ function acidNumber(reading: Reading, input: RuleInput) {
   return levelVerdict('tan', reading, levels, 'above', (c) => `new oil ${quantity('tan', fresh)} plus ${quantity('tan', rise[c.severity])}`);
 }
 
-function viscosity(m: 'v40' | 'v100', reading: Reading, input: RuleInput) {
+function viscosity(m: 'v40' | 'v100', reading: Reading, input: SampleInput) {
   const fresh = input.settings.newOil[m];
   if (fresh === undefined || !(fresh > 0)) return undefined;
   const percent = input.settings.condition.viscosityChangePercent;
@@ -86,7 +88,7 @@ function viscosity(m: 'v40' | 'v100', reading: Reading, input: RuleInput) {
   };
 }
 
-function riseOverNew(m: 'oxidation' | 'nitration', reading: Reading, input: RuleInput) {
+function riseOverNew(m: 'oxidation' | 'nitration', reading: Reading, input: SampleInput) {
   const fresh = input.settings.newOil[m];
   return levelVerdict(m, reading, shifted(input.settings.condition[m], fresh ?? 0), 'above', (c) =>
     fresh === undefined ? 'taken as the rise over new oil' : `new oil ${quantity(m, fresh)} plus ${quantity(m, c.level - fresh)}`,
@@ -110,7 +112,7 @@ function levelVerdict(m: Measurand, reading: Reading, levels: Levels, side: 'abo
   };
 }
 
-function glycol(reading: Reading, input: RuleInput) {
+function glycol(reading: Reading, input: SampleInput) {
   const c = crossing(reading, { alarm: 0 }, 'above');
   if (!c) return undefined;
   return {

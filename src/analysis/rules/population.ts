@@ -10,7 +10,7 @@ import type { Finding } from '../../domain/finding.ts';
 import type { Measurand } from '../../domain/measurands.ts';
 import type { BandStats } from '../model.ts';
 import { bandFor, percentileOfSorted, populationMeasurands } from '../populationStats.ts';
-import { crossing, findingAt, formatNumber, measurandTitle, quantity, readingText, type RuleInput } from './ruleInput.ts';
+import { crossing, findingAt, formatNumber, measurandTitle, quantity, readingText, sweep, type RuleInput, type SampleInput } from './ruleInput.ts';
 
 export type PopulationLimitStatus =
   | { readonly kind: 'limits'; readonly caution: number; readonly alarm: number; readonly n: number }
@@ -21,54 +21,54 @@ export type PopulationLimitStatus =
  * or in a group without statistics reports n = 0; so does a band that carries no values under the percentile
  * method (statistics built for the sigma method).
  */
-export function populationLimitStatus(input: RuleInput, measurand: Measurand, sample: Sample): PopulationLimitStatus {
+export function populationLimitStatus(input: Pick<SampleInput, 'settings' | 'group'>, measurand: Measurand, sample: Sample): PopulationLimitStatus {
   const band = bandOf(input, measurand, sample);
   return band === undefined ? { kind: 'not-enough-data', n: 0, needed: input.settings.population.minResults } : bandLimits(input, band);
 }
 
 export function populationFindings(input: RuleInput): Finding[] {
+  return sweep(input, populationVerdicts);
+}
+
+export function populationVerdicts(input: SampleInput): Finding[] {
   const { population, group } = input.settings;
-  const measurands = populationMeasurands(population);
-  const limitsOfBand = new Map<BandStats, PopulationLimitStatus>();
+  const sample = input.sample;
   const findings: Finding[] = [];
-  for (const sample of input.history.samples) {
-    for (const m of measurands) {
-      const reading = sample.readings[m];
-      const band = reading && bandOf(input, m, sample);
-      if (!reading || !band) continue;
-      let status = limitsOfBand.get(band);
-      if (status === undefined) limitsOfBand.set(band, (status = bandLimits(input, band)));
-      if (status.kind !== 'limits') continue;
-      const c = crossing(reading, status, 'above');
-      if (!c) continue;
-      const basis =
-        population.method === 'sigma'
-          ? `mean ${quantity(m, band.mean)} + ${formatNumber(population.sigma[c.severity])}σ`
-          : `${formatNumber(population.percentile[c.severity])}th percentile`;
-      findings.push(
-        findingAt(input, sample, {
-          measurand: m,
-          rule: 'population',
-          severity: c.severity,
-          value: c.value,
-          threshold: c.level,
-          basis: 'reading',
-          explanation:
-            `${measurandTitle(m)} ${readingText(m, reading)} at ${formatNumber(sample.oilHours!)} oil hours is above the population ` +
-            `${c.severity} level of ${quantity(m, c.level)} (${basis} of ${status.n} results in the ${bandName(band)} band of group ${group}).`,
-        }),
-      );
-    }
+  for (const m of populationMeasurands(population)) {
+    const reading = sample.readings[m];
+    const band = reading && bandOf(input, m, sample);
+    if (!reading || !band) continue;
+    const status = bandLimits(input, band);
+    if (status.kind !== 'limits') continue;
+    const c = crossing(reading, status, 'above');
+    if (!c) continue;
+    const basis =
+      population.method === 'sigma'
+        ? `mean ${quantity(m, band.mean)} + ${formatNumber(population.sigma[c.severity])}σ`
+        : `${formatNumber(population.percentile[c.severity])}th percentile`;
+    findings.push(
+      findingAt(input, sample, {
+        measurand: m,
+        rule: 'population',
+        severity: c.severity,
+        value: c.value,
+        threshold: c.level,
+        basis: 'reading',
+        explanation:
+          `${measurandTitle(m)} ${readingText(m, reading)} at ${formatNumber(sample.oilHours!)} oil hours is above the population ` +
+          `${c.severity} level of ${quantity(m, c.level)} (${basis} of ${status.n} results in the ${bandName(band)} band of group ${group}).`,
+      }),
+    );
   }
   return findings;
 }
 
-function bandOf(input: RuleInput, m: Measurand, sample: Sample): BandStats | undefined {
+function bandOf(input: Pick<SampleInput, 'group'>, m: Measurand, sample: Sample): BandStats | undefined {
   const bands = input.group?.bands[m];
   return bands === undefined || sample.oilHours === undefined ? undefined : bandFor(bands, sample.oilHours);
 }
 
-function bandLimits(input: RuleInput, band: BandStats): PopulationLimitStatus {
+function bandLimits(input: Pick<SampleInput, 'settings'>, band: BandStats): PopulationLimitStatus {
   const p = input.settings.population;
   if (p.method === 'sigma') {
     if (band.n < p.minResults) return { kind: 'not-enough-data', n: band.n, needed: p.minResults };

@@ -10,6 +10,19 @@ import { formatReading, type Reading } from '../../domain/reading.ts';
 import type { ComponentSettings } from '../../domain/settings.ts';
 import type { ComponentHistory, GroupStats, Interval } from '../model.ts';
 
+/** What every rule judges one sample with: the component, its settings and its group's statistics at the sample. */
+export interface SampleInput {
+  readonly unit: string;
+  readonly component: string;
+  readonly settings: ComponentSettings;
+  /** Population statistics and baselines of the component's group as they stood when the sample was drawn. */
+  readonly group?: GroupStats;
+  readonly sample: Sample;
+  /** The wear interval of each metal that ends at this sample. */
+  readonly intervals: ReadonlyMap<Measurand, Interval>;
+}
+
+/** A whole history with its intervals, for judging every sample in one sweep (tests, and tools that need one family). */
 export interface RuleInput {
   readonly history: ComponentHistory;
   readonly settings: ComponentSettings;
@@ -19,13 +32,36 @@ export interface RuleInput {
   readonly intervals: (m: Measurand) => readonly Interval[];
 }
 
+/** Runs a per-sample rule over every sample of a history. */
+export function sweep(input: RuleInput, judge: (s: SampleInput) => Finding[], measurands: readonly Measurand[] = []): Finding[] {
+  const ending = new Map<string, Map<Measurand, Interval>>();
+  for (const m of measurands) {
+    for (const iv of input.intervals(m)) {
+      let byMeasurand = ending.get(iv.to.sampleId);
+      if (byMeasurand === undefined) ending.set(iv.to.sampleId, (byMeasurand = new Map()));
+      byMeasurand.set(m, iv);
+    }
+  }
+  const none = new Map<Measurand, Interval>();
+  return input.history.samples.flatMap((sample) =>
+    judge({
+      unit: input.history.unit,
+      component: input.history.component,
+      settings: input.settings,
+      ...(input.group !== undefined && { group: input.group }),
+      sample,
+      intervals: ending.get(sample.sampleId) ?? none,
+    }),
+  );
+}
+
 /** A finding without the identity fields that come from the component and the sample. */
 export type Verdict = Omit<Finding, 'unit' | 'component' | 'group' | 'sampleId' | 'sampledAt'>;
 
-export function findingAt(input: RuleInput, sample: Sample, verdict: Verdict): Finding {
+export function findingAt(input: Pick<SampleInput, 'unit' | 'component' | 'settings'>, sample: Sample, verdict: Verdict): Finding {
   return {
-    unit: input.history.unit,
-    component: input.history.component,
+    unit: input.unit,
+    component: input.component,
     group: input.settings.group,
     sampleId: sample.sampleId,
     sampledAt: sample.sampledAt,

@@ -1,0 +1,185 @@
+/**
+ * The analysis of one component as a fold over its samples in order: each sample moves a compact state (the
+ * charge, each metal's interval track, each detection measurand's filter, baseline and detectors) and yields the
+ * findings of every rule family at that sample. The state is plain JSON: a worker keeps it as a checkpoint, so a
+ * result that arrives in order costs the same whatever the length of the history, and a late one rewinds to a
+ * checkpoint before it and folds forward. Folding a whole history from the empty state is the full evaluation;
+ * both give the same steps.
+ */
+import type { Sample } from '../../domain/event.ts';
+import { findingKey, type Finding } from '../../domain/finding.ts';
+import { MEASURANDS, type Measurand } from '../../domain/measurands.ts';
+import type { ComponentSettings } from '../../domain/settings.ts';
+import { detectionLimits } from '../budget.ts';
+import type { BaselineSums, GroupStats, Interval, RateBaseline, Step } from '../model.ts';
+import { changeVerdicts } from '../rules/change.ts';
+import { cleanlinessVerdicts } from '../rules/cleanliness.ts';
+import { conditionVerdicts } from '../rules/condition.ts';
+import { limitVerdicts } from '../rules/limit.ts';
+import { populationVerdicts } from '../rules/population.ts';
+import { rateVerdicts } from '../rules/rate.ts';
+import type { SampleInput } from '../rules/ruleInput.ts';
+import { advanceCharge, type ChargeTrack } from './chargeTrack.ts';
+import { advanceChange, emptyChangeTrack, type ChangePoint, type ChangeTrack, type DetectorLimits } from './changeTrack.ts';
+import { advanceWear, EMPTY_WEAR_TRACK, rollOverCharge, type WearTrack } from './wearTrack.ts';
+
+/** Where a sample sorts in a history: by sampling time, then unit hours (missing last), then sampleId. */
+export interface OrderKey {
+  readonly sampleId: string;
+  readonly time: number;
+  readonly unitHours?: number;
+}
+
+export interface AnalysisState {
+  readonly unit: string;
+  readonly component: string;
+  /** Samples folded in. */
+  readonly samples: number;
+  readonly last?: OrderKey;
+  readonly charge?: ChargeTrack;
+  readonly wear: Readonly<Partial<Record<Measurand, WearTrack>>>;
+  readonly change: Readonly<Partial<Record<Measurand, ChangeTrack>>>;
+}
+
+/** What the analysis saw at one sample besides its findings: the intervals ending there and the detectors' statistics. */
+export interface StepDetail {
+  readonly intervals: readonly Interval[];
+  readonly change: readonly ChangePoint[];
+}
+
+export interface FoldStep extends Step {
+  readonly detail: StepDetail;
+}
+
+export function emptyAnalysisState(unit: string, component: string): AnalysisState {
+  return { unit, component, samples: 0, wear: {}, change: {} };
+}
+
+/** A group baseline is trusted once it pools at least this many components' complete baselines. */
+export const MIN_GROUP_COMPONENTS = 2;
+
+export function trustedGroupBaseline(group: GroupStats | undefined, m: Measurand): RateBaseline | undefined {
+  const b = group?.baselines[m];
+  return b !== undefined && b.components >= MIN_GROUP_COMPONENTS ? b : undefined;
+}
+
+export interface AnalysisFoldOptions {
+  /** Hold the learnt rate while an upward change is signalled. Default true. */
+  readonly holdRateWhileSignalling?: boolean;
+}
+
+export class AnalysisFold {
+  private s: {
+    unit: string;
+    component: string;
+    samples: number;
+    last?: OrderKey;
+    charge?: ChargeTrack;
+    wear: Partial<Record<Measurand, WearTrack>>;
+    change: Partial<Record<Measurand, ChangeTrack>>;
+  };
+  private readonly limits: DetectorLimits;
+  private readonly detecting: boolean;
+  private readonly hold: boolean;
+
+  constructor(
+    private readonly settings: ComponentSettings,
+    state: AnalysisState,
+    options: AnalysisFoldOptions = {},
+  ) {
+    this.s = structuredClone(state) as AnalysisFold['s'];
+    const d = settings.detection;
+    this.detecting = d.ewma.enabled || d.cusum.enabled;
+    const l = detectionLimits(d);
+    this.limits = { cusumH: l.cusumH, ewmaL: l.ewmaL };
+    this.hold = options.holdRateWhileSignalling ?? false;
+  }
+
+  /** A copy of the state after the samples folded so far. */
+  state(): AnalysisState {
+    return structuredClone(this.s);
+  }
+
+  /** The own baseline sums of the current life per detection measurand, once complete (what the group pools). */
+  baselines(): Partial<Record<Measurand, BaselineSums>> {
+    const out: Partial<Record<Measurand, BaselineSums>> = {};
+    if (!this.detecting) return out;
+    for (const m of this.settings.detection.measurands) {
+      const own = this.s.change[m]?.own;
+      if (own?.completedAt !== undefined) out[m] = own.sums;
+    }
+    return out;
+  }
+
+  /** Folds in the next sample (in history order) and returns its step. */
+  advance(sample: Sample, group: GroupStats | undefined): FoldStep {
+    const s = this.s;
+    const { track: charge, newCharge } = advanceCharge(s.charge, sample);
+    s.charge = charge;
+    if (newCharge) for (const m of Object.keys(s.wear) as Measurand[]) s.wear[m] = rollOverCharge(s.wear[m]!);
+    const intervals = new Map<Measurand, Interval>();
+    for (const m of wearMeasurandsOf(sample, s.wear)) {
+      const { track, interval } = advanceWear(s.wear[m] ?? EMPTY_WEAR_TRACK, sample, m, charge, this.settings);
+      s.wear[m] = track;
+      if (interval !== undefined) intervals.set(m, interval);
+    }
+    const input: SampleInput = {
+      unit: s.unit,
+      component: s.component,
+      settings: this.settings,
+      ...(group !== undefined && { group }),
+      sample,
+      intervals,
+    };
+    const points: ChangePoint[] = [];
+    if (this.detecting) {
+      for (const m of this.settings.detection.measurands) {
+        const iv = intervals.get(m);
+        if (iv === undefined) continue;
+        const before = s.change[m] ?? emptyChangeTrack(this.settings.detection);
+        const { track, point } = advanceChange(before, iv, {
+          detection: this.settings.detection,
+          limits: this.limits,
+          group: trustedGroupBaseline(group, m),
+          holdRateWhileSignalling: this.hold,
+        });
+        s.change[m] = track;
+        if (point !== undefined) points.push(point);
+      }
+    }
+    const findings = [
+      ...limitVerdicts(input),
+      ...rateVerdicts(input),
+      ...populationVerdicts(input),
+      ...conditionVerdicts(input),
+      ...cleanlinessVerdicts(input),
+      ...changeVerdicts(input, points, s.change),
+    ].sort(byKey);
+    s.samples += 1;
+    s.last = { sampleId: sample.sampleId, time: sample.time, ...(sample.unitHours !== undefined && { unitHours: sample.unitHours }) };
+    return { sampleId: sample.sampleId, sampledAt: sample.sampledAt, findings, detail: { intervals: [...intervals.values()], change: points } };
+  }
+}
+
+/** Wear metals read at this sample, and those tracked already (their make-up share moves on). */
+function wearMeasurandsOf(sample: Sample, tracked: Partial<Record<Measurand, WearTrack>>): Measurand[] {
+  const out = new Set(Object.keys(tracked) as Measurand[]);
+  for (const m of Object.keys(sample.readings) as Measurand[]) if (MEASURANDS[m].kind === 'wear') out.add(m);
+  return [...out];
+}
+
+function byKey(a: Finding, b: Finding): number {
+  const ka = findingKey(a);
+  const kb = findingKey(b);
+  return ka < kb ? -1 : ka > kb ? 1 : 0;
+}
+
+/** Compares order keys as the history orders samples: time, then unit hours (missing last), then sampleId. */
+export function compareOrder(a: OrderKey, b: OrderKey): number {
+  if (a.time !== b.time) return a.time < b.time ? -1 : 1;
+  const x = a.unitHours;
+  const y = b.unitHours;
+  if (x !== undefined && y !== undefined && x !== y) return x < y ? -1 : 1;
+  if ((x === undefined) !== (y === undefined)) return x === undefined ? 1 : -1;
+  return a.sampleId < b.sampleId ? -1 : a.sampleId > b.sampleId ? 1 : 0;
+}

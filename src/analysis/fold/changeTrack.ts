@@ -1,0 +1,242 @@
+/**
+ * Change detection on one detection measurand, one interval at a time: the Kalman filter of level and rate,
+ * the component's own baseline as it forms, and the EWMA and CUSUM of the standardised prediction errors. Each
+ * life of the component (between replacements) starts afresh.
+ *
+ * The concentration on a charge follows a local level model: the level grows by g·h over h operating hours plus
+ * a wear-process disturbance of variance q·h, make-up oil and drains scale the carried-over level by the
+ * interval's carry-over share, and each reading adds lab noise. A Kalman filter predicts every reading from the
+ * history before it; the prediction error divided by its standard deviation is N(0, 1) and independent from
+ * sample to sample while the wear rate stays at g (in control). Plain standardised increments
+ * (Δc − g·Δh)/sd are the special case without lab noise; with lab noise, consecutive increments share a reading
+ * and are negatively correlated, which would make run-length designs for independent data wrong.
+ * A shift of the wear rate to g + δ gives prediction errors with a positive mean (δ·h at first, growing to
+ * δ·h/K as the filter settles, K being its gain), which the detectors accumulate.
+ *
+ * The component's rate is a state of the filter too. Against a group baseline (while the own history is short)
+ * it starts from the group's rate with the unit-to-unit spread as its variance and is learnt from the readings,
+ * so the errors stay N(0, 1) for a unit whose rate is anywhere in the group's spread. Once the own baseline is
+ * complete it restarts from the own estimate with that estimate's uncertainty and a slow drift, so the filter
+ * keeps refining it over a long memory: a real shift shows for many samples before it is learnt, while the first
+ * estimate's error does not stay frozen into a standing bias.
+ *
+ * While an upward change is signalled, the filter does not learn the rate from the intervals that raise it:
+ * the in-control rate stays what it was learnt from before the change, so a sustained shift stays flagged for
+ * as long as it lasts instead of being absorbed into the baseline. Learning resumes once both detectors are
+ * back within their limits.
+ */
+import type { Detection } from '../../domain/config.ts';
+import { addInterval, EMPTY_SUMS, ownRateBaseline } from '../baseline.ts';
+import { cusumStart, cusumStep, type CusumState } from '../cusum.ts';
+import { ewmaLimitFactor } from '../ewma.ts';
+import { labVariance } from '../labNoise.ts';
+import type { BaselineSums, Interval, RateBaseline } from '../model.ts';
+import { incrementLabVariance, isStable } from '../ownBaseline.ts';
+
+/** Level and rate with their covariance. */
+export interface FilterState {
+  readonly level: number;
+  readonly variance: number;
+  readonly rate: number;
+  readonly covariance: number;
+  readonly rateVariance: number;
+}
+
+/** Where the in-control rate comes from: the component's own stable history, its group, or nowhere yet. */
+export type BaselineSource = 'own' | 'group' | null;
+
+/** The samples the own baseline was learnt from. */
+export interface OwnBaselineState {
+  readonly sums: BaselineSums;
+  readonly firstSampleId?: string;
+  readonly firstSampledAt?: string;
+  /** Set once complete: the interval (index) and sample that completed it. */
+  readonly completedAt?: number;
+  readonly completedSampleId?: string;
+  readonly completedSampledAt?: string;
+}
+
+export interface ChangeTrack {
+  /** Intervals of the measurand seen so far (the index of the next one). */
+  readonly intervals: number;
+  /** Component life, from 0; −1 before the first interval. */
+  readonly life: number;
+  readonly own: OwnBaselineState;
+  readonly filter?: FilterState;
+  readonly previousTo?: string;
+  readonly previousSource: BaselineSource;
+  /** The last interval's end reading, to restart the filter at a new life. */
+  readonly last?: { readonly level: number; readonly censored: boolean };
+  readonly cusum: CusumState;
+  readonly ewma: { readonly value: number; readonly n: number };
+  /** The sample where the present upward signal began; rate learning is paused while it lasts. */
+  readonly signalSince?: { readonly sampleId: string; readonly sampledAt: string };
+}
+
+export interface DetectorLimits {
+  readonly cusumH: number;
+  readonly ewmaL: number;
+}
+
+/** What the detectors saw at one interval. */
+export interface ChangePoint {
+  readonly interval: Interval;
+  readonly life: number;
+  /** Standardised prediction error. */
+  readonly z: number;
+  /** The in-control rate the interval was judged against (ppm/h), and where it came from. */
+  readonly baselineRate: number;
+  readonly source: 'own' | 'group';
+  readonly cusum?: { readonly upper: number; readonly lower: number; readonly h: number };
+  readonly ewma?: { readonly value: number; readonly ucl: number; readonly lcl: number };
+  /** True while the filter's rate learning is paused by an upward signal. */
+  readonly learningPaused: boolean;
+}
+
+export function emptyChangeTrack(detection: Detection): ChangeTrack {
+  return {
+    intervals: 0,
+    life: -1,
+    own: { sums: EMPTY_SUMS },
+    previousSource: null,
+    cusum: cusumStart({ k: detection.cusum.k, h: 1, headstart: 0 }),
+    ewma: { value: 0, n: 0 },
+  };
+}
+
+/** A level known from one reading (its uncertainty is the lab's), the rate as the baseline gives it. */
+function settled(level: number, noise: Detection['labNoise'], baseline: RateBaseline | undefined): FilterState {
+  return { level, variance: labVariance(noise, level), ...baselineRate(baseline) };
+}
+
+function baselineRate(b: RateBaseline | undefined): Pick<FilterState, 'rate' | 'covariance' | 'rateVariance'> {
+  return { rate: b?.rate ?? 0, covariance: 0, rateVariance: b?.rateVariance ?? 0 };
+}
+
+export interface ChangeInput {
+  readonly detection: Detection;
+  readonly limits: DetectorLimits;
+  /** The group baseline that applies at this interval, when trusted. */
+  readonly group: RateBaseline | undefined;
+  /** Hold the rate while an upward change is signalled (see the module comment). */
+  readonly holdRateWhileSignalling: boolean;
+}
+
+/**
+ * One interval through the track. Returns the new track and, when the interval was judged, the point the
+ * detectors saw.
+ */
+export function advanceChange(t: ChangeTrack, iv: Interval, input: ChangeInput): { track: ChangeTrack; point?: ChangePoint } {
+  const { detection, limits } = input;
+  const noise = detection.labNoise;
+  const index = t.intervals;
+  let track: ChangeTrack = t;
+  if (index === 0 || iv.to.componentChanged) {
+    // A new life: the own baseline, the filter and the detectors start again.
+    const last = t.last;
+    track = {
+      ...emptyChangeTrack(detection),
+      life: t.life + 1,
+      cusum: cusumStart({ k: detection.cusum.k, h: limits.cusumH, headstart: detection.cusum.headstart }),
+      ...(index > 0 && last && !last.censored && { filter: settled(last.level, noise, undefined) }),
+      ...(t.previousTo !== undefined && { previousTo: t.previousTo }),
+    };
+  }
+  const own = track.own;
+  const ownRate = own.completedAt !== undefined ? ownRateBaseline(own.sums, detection.budget.sampleIntervalHours) : undefined;
+  const source: BaselineSource = ownRate !== undefined && index > own.completedAt! ? 'own' : input.group !== undefined ? 'group' : null;
+  const baseline = source === 'own' ? ownRate : source === 'group' ? input.group : undefined;
+  const continuous = track.filter !== undefined && iv.from !== undefined && iv.from.sampleId === track.previousTo;
+  const switched = source !== track.previousSource;
+  const paused = input.holdRateWhileSignalling && track.signalSince !== undefined;
+  const common = { intervals: index + 1, previousTo: iv.to.sampleId, previousSource: source, last: { level: iv.level, censored: iv.censored }, own: grownOwn(own, iv, index, detection) };
+
+  if (iv.runningIn || baseline === undefined) {
+    const { filter: _f, ...rest } = track;
+    return { track: { ...rest, ...common, ...(!iv.censored && { filter: settled(iv.level, noise, baseline) }) } };
+  }
+  let state = track.filter;
+  if (!continuous || state === undefined) {
+    if (iv.censored) {
+      const { filter: _f, ...rest } = track;
+      return { track: { ...rest, ...common } };
+    }
+    const from = iv.carryOver === 0 ? { level: 0, variance: 0 } : settled(iv.baseLevel / iv.carryOver, noise, baseline);
+    state = { ...from, ...baselineRate(baseline) };
+  } else if (switched) {
+    state = { ...state, ...baselineRate(baseline) };
+  }
+  const c = iv.carryOver;
+  const h = iv.hours;
+  // While an upward change is signalled the rate is held: no drift, no learning from these intervals.
+  const rateVariance = paused ? state.rateVariance : state.rateVariance + (baseline.rateDrift ?? 0) * h;
+  const predicted = c * state.level + h * state.rate;
+  const predictedVariance = c * c * state.variance + 2 * c * h * state.covariance + h * h * rateVariance + baseline.processVariance * h;
+  const predictedCovariance = c * state.covariance + h * rateVariance;
+  if (iv.censored) {
+    // A censored reading tells too little to update on; time still passes.
+    const filter = { ...state, level: predicted, variance: predictedVariance, covariance: predictedCovariance, rateVariance };
+    return { track: { ...track, ...common, filter } };
+  }
+  const errorVariance = predictedVariance + labVariance(noise, iv.level);
+  const error = iv.level - predicted;
+  const filter: FilterState = paused
+    ? {
+        // The level follows the readings; the rate and its uncertainty stay as they were before the change.
+        level: predicted + (predictedVariance / errorVariance) * error,
+        variance: predictedVariance - predictedVariance ** 2 / errorVariance,
+        rate: state.rate,
+        covariance: 0,
+        rateVariance: state.rateVariance,
+      }
+    : {
+        level: predicted + (predictedVariance / errorVariance) * error,
+        variance: predictedVariance - predictedVariance ** 2 / errorVariance,
+        rate: state.rate + (predictedCovariance / errorVariance) * error,
+        covariance: predictedCovariance - (predictedVariance * predictedCovariance) / errorVariance,
+        rateVariance: rateVariance - predictedCovariance ** 2 / errorVariance,
+      };
+  const z = error / Math.sqrt(errorVariance);
+
+  let cusumState = track.cusum;
+  let cusumOut: ChangePoint['cusum'];
+  if (detection.cusum.enabled) {
+    const next = cusumStep(cusumState, z, { k: detection.cusum.k, h: limits.cusumH, headstart: detection.cusum.headstart });
+    cusumState = { upper: next.upper, lower: next.lower };
+    cusumOut = { upper: next.upper, lower: next.lower, h: limits.cusumH };
+  }
+  let ewmaState = track.ewma;
+  let ewmaOut: ChangePoint['ewma'];
+  if (detection.ewma.enabled) {
+    const n = ewmaState.n + 1;
+    const value = detection.ewma.lambda * z + (1 - detection.ewma.lambda) * ewmaState.value;
+    const half = limits.ewmaL * ewmaLimitFactor(detection.ewma.lambda, n, true);
+    ewmaState = { value, n };
+    ewmaOut = { value, ucl: half, lcl: -half };
+  }
+  const signalling = (cusumOut !== undefined && cusumOut.upper > cusumOut.h) || (ewmaOut !== undefined && ewmaOut.value > ewmaOut.ucl);
+  const signalSince = signalling ? (track.signalSince ?? { sampleId: iv.to.sampleId, sampledAt: iv.to.sampledAt }) : undefined;
+  const { signalSince: _s, ...rest } = track;
+  return {
+    track: { ...rest, ...common, filter, cusum: cusumState, ewma: ewmaState, ...(signalSince && { signalSince }) },
+    point: {
+      interval: iv,
+      life: track.life,
+      z,
+      baselineRate: state.rate,
+      source: source as 'own' | 'group',
+      ...(cusumOut && { cusum: cusumOut }),
+      ...(ewmaOut && { ewma: ewmaOut }),
+      learningPaused: paused,
+    },
+  };
+}
+
+/** The own baseline takes the life's first stable intervals until it is complete; then it is fixed. */
+function grownOwn(own: OwnBaselineState, iv: Interval, index: number, detection: Detection): OwnBaselineState {
+  if (own.completedAt !== undefined || !isStable(iv)) return own;
+  const sums = addInterval(own.sums, iv, incrementLabVariance(iv, detection.labNoise));
+  const first = own.firstSampleId === undefined ? { firstSampleId: iv.to.sampleId, firstSampledAt: iv.to.sampledAt } : {};
+  const base = { ...own, ...first, sums };
+  return sums.intervals >= detection.baselineIntervals ? { ...base, completedAt: index, completedSampleId: iv.to.sampleId, completedSampledAt: iv.to.sampledAt } : base;
+}
