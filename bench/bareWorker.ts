@@ -4,7 +4,7 @@
  * BENCH_QUEUE, BENCH_CONCURRENCY. Stops on SIGTERM.
  */
 import { Worker } from 'bullmq';
-import { connectRedis } from '../src/runtime/redis.ts';
+import { connectRedis } from '../src/redis/connection.ts';
 
 const connection = connectRedis(process.env.REDIS_URL ?? '', 'worker');
 const worker = new Worker(process.env.BENCH_QUEUE ?? 'bare', async () => undefined, {

@@ -19,7 +19,7 @@ import type { NotifyEffect } from '../src/incidents/model.ts';
 import { createResultProducer, type ResultProducer } from '../src/intake/producer.ts';
 import { defaultJobOptions, openQueue, QUEUE_NAMES, resolveQueueSettings } from '../src/queue/queues.ts';
 import { WORKER_DEFAULTS } from '../src/queue/workers.ts';
-import { RedisStorage } from '../src/storage/redisStorage.ts';
+import { RedisStore } from '../src/redis/redisStore.ts';
 import { startRedisServer, type RedisServer } from '../tests/helpers/redisServer.ts';
 import {
   drainedAt,
@@ -109,9 +109,9 @@ async function send(producer: ResultProducer, events: readonly ResultEvent[], ba
 async function lagging(client: Redis, events: readonly ResultEvent[]): Promise<number> {
   const last = new Map<string, ResultEvent>();
   for (const e of events) last.set(`${e.unit}/${e.component}`, e);
-  const storage = new RedisStorage(client, { prefix: PREFIX });
+  const storage = new RedisStore(client, { prefix: PREFIX });
   let behind = 0;
-  for (const e of last.values()) if ((await storage.lastFed(e))?.sampleId !== e.sampleId) behind++;
+  for (const e of last.values()) if ((await storage.evaluationInput(e))?.latest?.position?.sampleId !== e.sampleId) behind++;
   return behind;
 }
 

@@ -82,7 +82,21 @@ export function groupBaseline(components: readonly BaselineSums[], typicalInterv
   const rates = usable.map((c) => c.sumIncrement / c.sumHours);
   const mean = rates.reduce((a, b) => a + b, 0) / rates.length;
   const spread = rates.reduce((a, r) => a + (r - mean) ** 2, 0) / (rates.length - 1);
-  return { ...pooled, rateVariance: spread };
+  const peers = peerRates(rates);
+  return { ...pooled, rateVariance: spread, ...(peers && { peers }) };
+}
+
+/**
+ * The spread of the components' own in-control rates on a log scale (wear rates of like-for-like units spread
+ * roughly lognormally: a unit twice as fast is as unusual as one half as fast). Components whose learnt rate is
+ * not above zero (lab noise on a clean unit) take no part.
+ */
+function peerRates(rates: readonly number[]): RateBaseline['peers'] {
+  const logs = rates.filter((r) => r > 0).map(Math.log);
+  if (logs.length < 2) return undefined;
+  const meanLog = logs.reduce((a, b) => a + b, 0) / logs.length;
+  const sdLog = Math.sqrt(logs.reduce((a, x) => a + (x - meanLog) ** 2, 0) / (logs.length - 1));
+  return { components: logs.length, meanLogRate: meanLog, sdLogRate: sdLog };
 }
 
 /**

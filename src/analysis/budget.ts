@@ -11,7 +11,7 @@
  * designed for exactly that input: h for the CUSUM with its configured k and headstart, L for the EWMA with exact
  * time-varying limits, which is what the detectors draw.
  */
-import type { Budget, Detection } from '../domain/config.ts';
+import type { Budget, Detection, Population } from '../domain/config.ts';
 import { InputError } from '../domain/errors.ts';
 import { cusumDecisionInterval } from './arl/solveCusum.ts';
 import { ewmaLimitWidth } from './arl/solveEwma.ts';
@@ -44,13 +44,22 @@ export function targetArl(b: Budget, charts: number): number {
 /**
  * The limits the detectors use: d.ewma.L and d.cusum.h when configured, otherwise derived from the budget. With no detector
  * enabled `charts` is 0 and the limits are designed as for a single chart, so that they stay defined.
+ *
+ * The budget counts incidents, and only an upward signal opens one (a fall is a sampling finding, for whoever takes the
+ * samples), so each chart is designed one-sided: its upper side meets the per-chart ARL0. The lower side uses the same
+ * limit. `share` is the part of the budget the change detectors get (the rest goes to the comparison with peers).
  */
-export function detectionLimits(d: Detection): { arl0: number; charts: number; ewmaL: number; cusumH: number } {
+export function detectionLimits(d: Detection, share = 1): { arl0: number; charts: number; ewmaL: number; cusumH: number; share: number } {
+  if (!(share > 0 && share <= 1)) throw new RangeError(`budget share must be in (0, 1], got ${share}`);
   const detectors = (d.ewma.enabled ? 1 : 0) + (d.cusum.enabled ? 1 : 0);
   const charts = d.measurands.length * detectors;
-  const arl0 = targetArl(d.budget, Math.max(1, charts));
-  const sided = d.sided === 'two' ? 'two' : 'one';
-  const ewmaL = d.ewma.L ?? ewmaLimitWidth({ lambda: d.ewma.lambda, arl0, sided, exactLimits: true });
-  const cusumH = d.cusum.h ?? cusumDecisionInterval({ k: d.cusum.k, arl0, sided, headstart: d.cusum.headstart });
-  return { arl0, charts, ewmaL, cusumH };
+  const arl0 = targetArl(d.budget, Math.max(1, charts)) / share;
+  const ewmaL = d.ewma.L ?? ewmaLimitWidth({ lambda: d.ewma.lambda, arl0, sided: 'one', exactLimits: true });
+  const cusumH = d.cusum.h ?? cusumDecisionInterval({ k: d.cusum.k, arl0, sided: 'one', headstart: d.cusum.headstart });
+  return { arl0, charts, ewmaL, cusumH, share };
+}
+
+/** The part of the false-alarm budget the change detectors get: all of it unless the comparison with peers takes a share. */
+export function changeBudgetShare(population: Pick<Population, 'peers'>): number {
+  return population.peers.enabled ? 1 - population.peers.budgetShare : 1;
 }

@@ -5,12 +5,19 @@
  */
 import type { Sample } from '../domain/event.ts';
 import type { ComponentSettings } from '../domain/settings.ts';
-import { AnalysisFold, emptyAnalysisState, type AnalysisFoldOptions, type FoldStep } from './fold/analysisFold.ts';
+import { AnalysisFold, emptyAnalysisState, type AnalysisFoldOptions, type AnalysisState, type FoldStep } from './fold/analysisFold.ts';
 import { buildHistory } from './history.ts';
-import type { Evaluation, GroupStats } from './model.ts';
+import type { Evaluation, GroupStats, SampleMark } from './model.ts';
 
 export interface FullEvaluation extends Evaluation {
   readonly steps: readonly FoldStep[];
+  /** The fold's state after the last sample. */
+  readonly state: AnalysisState;
+}
+
+export interface EvaluateOptions extends AnalysisFoldOptions {
+  /** What responders said of samples in doubt, by sampleId. */
+  readonly marks?: ReadonlyMap<string, SampleMark>;
 }
 
 /**
@@ -21,11 +28,11 @@ export function evaluateComponent(
   samples: Iterable<Sample>,
   settings: ComponentSettings,
   group?: GroupStats | ((sample: Sample) => GroupStats | undefined),
-  options: AnalysisFoldOptions = {},
+  options: EvaluateOptions = {},
 ): FullEvaluation {
   const history = buildHistory(samples);
   const fold = new AnalysisFold(settings, emptyAnalysisState(history.unit, history.component), options);
   const groupAt = typeof group === 'function' ? group : () => group;
-  const steps = history.samples.map((s) => fold.advance(s, groupAt(s)));
-  return { history, steps, baselines: fold.baselines() };
+  const steps = history.samples.map((s) => fold.advance(s, groupAt(s), options.marks?.get(s.sampleId)));
+  return { history, steps, baselines: fold.baselines(), state: fold.state() };
 }

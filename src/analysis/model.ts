@@ -82,6 +82,8 @@ export interface RateBaseline {
   readonly rateVariance?: number;
   /** How fast the component's rate may wander, (ppm/h)² per hour; above 0, the filter keeps learning it. */
   readonly rateDrift?: number;
+  /** For a group baseline: the spread of the pooled components' own rates on a log scale (ln ppm/h). */
+  readonly peers?: { readonly components: number; readonly meanLogRate: number; readonly sdLogRate: number };
   readonly intervals: number;
   readonly components: number;
 }
@@ -107,11 +109,23 @@ export interface GroupStats {
   readonly baselines: Readonly<Partial<Record<Measurand, RateBaseline>>>;
 }
 
+/**
+ * How a sample stands with the analysis: `accepted`; `in-doubt` (a sampling check fired: kept out of the wear
+ * analysis, baselines and group statistics, other findings held); `confirmed` (a responder said the sample is
+ * genuine: accepted, no sampling checks); `rejected` (a responder said it is wrong: left out entirely).
+ */
+export type SampleStatus = 'accepted' | 'in-doubt' | 'confirmed' | 'rejected';
+
+/** What a responder said of a sample in doubt. */
+export type SampleMark = 'confirmed' | 'rejected';
+
 /** The findings at one sample of the history. */
 export interface Step {
   readonly sampleId: string;
   readonly sampledAt: string;
   readonly findings: readonly Finding[];
+  /** Absent when the sample was accepted. */
+  readonly status?: Exclude<SampleStatus, 'accepted'>;
 }
 
 export interface Evaluation {

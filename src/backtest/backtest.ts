@@ -4,7 +4,7 @@
  */
 import type { Config } from '../domain/config.ts';
 import type { SourceRecord } from '../intake/fileRecords.ts';
-import type { RejectedRecord } from '../queue/replayHistory.ts';
+import type { RejectedRecord } from '../pipeline/replay.ts';
 import { detectorParameters, withBudget, type BudgetText } from './parameters.ts';
 import { runBacktest, type BacktestRun } from './run.ts';
 import { buildBacktestSummary, type BacktestSummary } from './summary.ts';

@@ -3,7 +3,7 @@
  * configured one. The numbers come from the detectors' own design path (budget.ts: detectionLimits), so they are the
  * ones the worker uses and the ones `wearshift design --budget … --every … --charts …` prints for the same target.
  */
-import { detectionLimits, parseBudget, samplesPerBudgetPeriod } from '../analysis/budget.ts';
+import { changeBudgetShare, detectionLimits, parseBudget, samplesPerBudgetPeriod } from '../analysis/budget.ts';
 import type { Config, Detection } from '../domain/config.ts';
 import { resolveSettings } from '../domain/settings.ts';
 // The same rounding as `wearshift design --json`, so that both print equal numbers.
@@ -54,22 +54,24 @@ export function readBudget(text: string): BudgetText {
 
 /** One entry per distinct detection settings among the components, with the groups that use it. */
 export function detectorParameters(config: Config, components: readonly { unit: string; component: string; group?: string }[]): DetectorParameters[] {
-  const byDesign = new Map<string, { detection: Detection; groups: Set<string> }>();
+  const byDesign = new Map<string, { detection: Detection; share: number; groups: Set<string> }>();
   for (const c of components) {
     const settings = resolveSettings(config, c);
-    const key = JSON.stringify(settings.detection);
-    const known = byDesign.get(key) ?? { detection: settings.detection, groups: new Set<string>() };
+    const share = changeBudgetShare(settings.population);
+    const key = JSON.stringify([settings.detection, share]);
+    const known = byDesign.get(key) ?? { detection: settings.detection, share, groups: new Set<string>() };
     known.groups.add(settings.group);
     byDesign.set(key, known);
   }
-  return [...byDesign.values()].map(({ detection, groups }) => parametersOf(detection, [...groups].sort()));
+  return [...byDesign.values()].map(({ detection, share, groups }) => parametersOf(detection, share, [...groups].sort()));
 }
 
-function parametersOf(d: Detection, groups: string[]): DetectorParameters {
-  const limits = detectionLimits(d);
+function parametersOf(d: Detection, share: number, groups: string[]): DetectorParameters {
+  const limits = detectionLimits(d, share);
   const samplesPerComponent = samplesPerBudgetPeriod(d.budget);
-  const sided = d.sided === 'two' ? 'two' : 'one';
-  const budgetArgs = `--budget "${d.budget.alarms} per component per ${d.budget.years} years" --every ${d.budget.sampleIntervalHours} --hours-per-year ${d.budget.hoursPerYear} --charts ${Math.max(1, limits.charts)} --sided ${sided}`;
+  const budgetArgs =
+    `--budget "${d.budget.alarms} per component per ${d.budget.years} years" --every ${d.budget.sampleIntervalHours} --hours-per-year ${d.budget.hoursPerYear} ` +
+    `--charts ${Math.max(1, limits.charts)} --share ${tidy(share)} --sided one`;
   const designCommands = [
     ...(d.cusum.h === undefined ? [`wearshift design cusum --k ${d.cusum.k} --headstart ${d.cusum.headstart} ${budgetArgs}`] : []),
     ...(d.ewma.L === undefined ? [`wearshift design ewma --lambda ${d.ewma.lambda} --exact-limits ${budgetArgs}`] : []),

@@ -4,7 +4,7 @@
  * it shows is embedded verbatim as JSON (`<script type="application/json" id="summary">`) for tools and tests.
  * Severity is given by shape and word (◇ watch, ▲ caution, ■ alarm, as on the board), colour only adds to it.
  */
-import { RULE_FAMILIES, type RuleFamily, type Severity } from '../domain/finding.ts';
+import { RULE_FAMILIES, RULE_FAMILY_LABELS, type RuleFamily, type Severity } from '../domain/finding.ts';
 import { NEUTRAL, SEVERITY_STYLE } from '../charts/severityStyle.ts';
 import { escapeHtml } from '../notify/safeText.ts';
 import type { ComponentChart } from './charts.ts';
@@ -20,15 +20,7 @@ export interface ReportComponent {
 const CAUTION =
   'wearshift advises: it does not replace the laboratory\u2019s diagnosis, the equipment maker\u2019s limits, local codes or licensed practice.';
 
-const FAMILY_WORD: Record<RuleFamily, string> = {
-  limit: 'fixed limit',
-  rate: 'rate limit',
-  population: 'group limit',
-  ewma: 'EWMA',
-  cusum: 'CUSUM',
-  condition: 'oil condition',
-  cleanliness: 'cleanliness',
-};
+const FAMILY_WORD: Record<RuleFamily, string> = RULE_FAMILY_LABELS;
 
 export function renderBacktestReport(summary: BacktestSummary, components: readonly ReportComponent[]): string {
   const main = summary.runs[0]!;

@@ -235,13 +235,15 @@ function measurandSeries(input: RuleInput, steps: readonly FoldStep[], m: Measur
       ...(f.direction !== undefined && { direction: f.direction }),
       value: f.value,
       ...(f.threshold !== undefined && { threshold: f.threshold }),
-      panel: panelOf(f.rule),
+      panel: panelOf(f),
       explanation: f.explanation,
     })),
   };
 }
 
-function panelOf(rule: RuleFamily): MarkPanel {
+/** The panel of the statistic the rule judged: a sampling finding on a detector's fall sits on that detector's panel. */
+function panelOf(f: Finding): MarkPanel {
+  const rule: RuleFamily = f.rule === 'sampling' && (f.basis === 'cusum' || f.basis === 'ewma') ? f.basis : f.rule;
   switch (rule) {
     case 'rate':
       return 'rate';

@@ -5,7 +5,7 @@
  * tests/unit/chart-series.test.ts checks that these traces cross their limits exactly where the rule raised findings.
  */
 import type { Measurand } from '../domain/measurands.ts';
-import { detectionLimits } from '../analysis/budget.ts';
+import { changeBudgetShare, detectionLimits } from '../analysis/budget.ts';
 import type { FoldStep } from '../analysis/fold/analysisFold.ts';
 import type { ComponentSettings } from '../domain/settings.ts';
 
@@ -49,7 +49,7 @@ export interface EwmaTrace {
 export function detectorTraces(steps: readonly FoldStep[], settings: ComponentSettings, measurand: Measurand): { cusum: CusumTrace | null; ewma: EwmaTrace | null } {
   const { detection } = settings;
   if (!detection.cusum.enabled && !detection.ewma.enabled) return { cusum: null, ewma: null };
-  const limits = detectionLimits(detection);
+  const limits = detectionLimits(detection, changeBudgetShare(settings.population));
   const cusum: CusumPoint[] = [];
   const ewma: EwmaPoint[] = [];
   for (const step of steps) {

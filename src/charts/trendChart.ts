@@ -12,6 +12,7 @@ import { scaleLinear, scaleUtc, type ScaleLinear, type ScaleTime } from 'd3-scal
 import { curveStepAfter, line, symbol } from 'd3-shape';
 import { utcFormat } from 'd3-time-format';
 import type { Levels } from '../domain/config.ts';
+import { RULE_FAMILY_LABELS } from '../domain/finding.ts';
 import { MEASURANDS, type Measurand } from '../domain/measurands.ts';
 import { escapeHtml as escapeXml } from '../notify/safeText.ts';
 import { chartAltText } from './altText.ts';
@@ -442,16 +443,7 @@ function markValue(m: MeasurandSeries, mark: RuleMark): number {
 
 function ruleWord(mark: RuleMark): string {
   const arrow = mark.direction === 'up' ? ' ↑' : mark.direction === 'down' ? ' ↓' : '';
-  const names: Record<RuleMark['rule'], string> = {
-    limit: 'limit',
-    rate: 'rate limit',
-    population: 'group limit',
-    ewma: 'EWMA',
-    cusum: 'CUSUM',
-    condition: 'oil condition',
-    cleanliness: 'cleanliness',
-  };
-  return `${names[mark.rule]}${arrow}`;
+  return `${RULE_FAMILY_LABELS[mark.rule]}${arrow}`;
 }
 
 function legend(y: number, width: number): string[] {

@@ -53,3 +53,7 @@ export function processingTime(text: string | undefined): number {
   if (Number.isNaN(now)) throw new InputError(`--now: expected an ISO 8601 date-time, got "${text}"`);
   return now;
 }
+
+/** The caution every human-readable output that carries findings ends with. */
+export const ADVISORY_LINE =
+  'wearshift advises: the laboratory\u2019s diagnosis, the equipment maker\u2019s limits, local codes and licensed practice decide.';

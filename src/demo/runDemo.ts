@@ -14,14 +14,14 @@ import { loadConfig } from '../domain/configFile.ts';
 import { RULE_FAMILIES, type RuleFamily } from '../domain/finding.ts';
 import type { Incident } from '../incidents/model.ts';
 import { incidentRules } from '../incidents/policy.ts';
-import { RedisIncidentStore } from '../incidents/redisIncidentStore.ts';
+import { RedisIncidents } from '../redis/redisIncidents.ts';
 import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../queue/queues.ts';
 import { freePort, startEmbeddedRedis, type EmbeddedRedis } from '../runtime/embeddedRedis.ts';
 import { createLogger, type Logger } from '../runtime/logger.ts';
-import { connectRedis } from '../runtime/redis.ts';
+import { connectRedis } from '../redis/connection.ts';
 import { startServices } from '../runtime/services.ts';
 import { closeAll, type Closer } from '../runtime/shutdown.ts';
-import { RedisStorage } from '../storage/redisStorage.ts';
+import { RedisStore } from '../redis/redisStore.ts';
 import { planFeed, type FeedPlan } from './feedPlan.ts';
 import { DEMO_STORIES, demoFleet } from './fleet.ts';
 import { startMailReceiver, type ReceivedMail } from './mailReceiver.ts';
@@ -168,8 +168,8 @@ export async function runDemo(options: DemoOptions): Promise<DemoRun> {
     closers.push({ name: 'wearshift services', close: () => closeAll(services.closers, { timeoutMs: 10_000, logger }) });
     const conn = connectRedis(url, 'worker', logger);
     closers.push({ name: 'demo redis connection', close: () => conn.quit().catch(() => conn.disconnect()) });
-    const store = new RedisIncidentStore(conn, { rules: incidentRules(config), prefix });
-    const storage = new RedisStorage(conn, { prefix });
+    const store = new RedisIncidents(conn, { rules: incidentRules(config), prefix });
+    const storage = new RedisStore(conn, { prefix, config });
     const queueSettings = resolveQueueSettings({ prefix });
     const queues = [QUEUE_NAMES.results, QUEUE_NAMES.evaluate, QUEUE_NAMES.notify].map((n) => openQueue(n, conn, queueSettings));
     closers.push({ name: 'demo queues', close: () => Promise.all(queues.map((q) => q.close())) });
@@ -313,7 +313,7 @@ async function feed(
 }
 
 /** Every result stored and evaluated, every notification delivered, and the demo's story played out. */
-async function settle(args: { queues: Queue[]; store: RedisIncidentStore; settleMs: number; checkAborted: () => void; isDone: () => Promise<boolean> }): Promise<boolean> {
+async function settle(args: { queues: Queue[]; store: RedisIncidents; settleMs: number; checkAborted: () => void; isDone: () => Promise<boolean> }): Promise<boolean> {
   const deadline = Date.now() + args.settleMs;
   while (Date.now() < deadline) {
     args.checkAborted();
@@ -342,14 +342,14 @@ async function readFailedJobs(queues: Queue[]): Promise<DemoReport['failedJobs']
   return failed.filter((f) => f.count > 0);
 }
 
-async function storyDone(store: RedisIncidentStore): Promise<boolean> {
+async function storyDone(store: RedisIncidents): Promise<boolean> {
   const open = await store.list({ state: 'open', limit: 1000 });
   const ack = open.find((i) => i.unit === ACK_UNIT.unit && i.component === ACK_UNIT.component);
   const esc = open.find((i) => i.unit === ESCALATING_UNIT.unit && i.component === ESCALATING_UNIT.component);
   return ack?.acknowledged != null && esc !== undefined && esc.escalation.reachedTier >= ESCALATION_TIER;
 }
 
-async function readTimelines(storage: RedisStorage, returnAfterSamples: number): Promise<ComponentTimeline[]> {
+async function readTimelines(storage: RedisStore, returnAfterSamples: number): Promise<ComponentTimeline[]> {
   const components = await storage.components();
   const order = (u: string, c: string) => {
     const story = DEMO_STORIES.findIndex((s) => s.unit === u && s.component === c);
@@ -359,22 +359,22 @@ async function readTimelines(storage: RedisStorage, returnAfterSamples: number):
   return Promise.all(
     components.map(async (c) => {
       const [samples, steps] = await Promise.all([storage.revisions(c), storage.findings(c)]);
-      return componentTimeline({ unit: c.unit, component: c.component, sampleDates: samples.map((s) => ({ sampleId: s.sampleId, sampledAt: s.sampledAt })), steps, returnAfterSamples });
+      return componentTimeline({ unit: c.unit, component: c.component, sampleDates: samples.map(({ sample: s }) => ({ sampleId: s.sampleId, sampledAt: s.sampledAt })), steps, returnAfterSamples });
     }),
   );
 }
 
-async function countFindings(storage: RedisStorage): Promise<Record<RuleFamily, number>> {
+async function countFindings(storage: RedisStore): Promise<Record<RuleFamily, number>> {
   const counts = Object.fromEntries(RULE_FAMILIES.map((r) => [r, 0])) as Record<RuleFamily, number>;
   for (const c of await storage.components()) for (const step of await storage.findings(c)) for (const f of step.findings) counts[f.rule]++;
   return counts;
 }
 
-async function readIncidents(store: RedisIncidentStore): Promise<DemoIncident[]> {
+async function readIncidents(store: RedisIncidents): Promise<DemoIncident[]> {
   const list = await store.list({ state: 'all', limit: 1000 });
   const full = (await Promise.all(list.map((i) => store.get(i.id)))).filter((i): i is Incident => i !== undefined);
   return full.map((i) => {
-    const notified = i.timeline.filter((t) => t.kind === 'notified');
+    const notified = i.notifications;
     return {
       id: i.id,
       unit: i.unit,

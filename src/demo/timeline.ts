@@ -2,9 +2,9 @@
  * The demo's headline: for each component, when each rule family first spoke (by sample date), and how many
  * samples earlier than the fixed limit the first upward change was seen.
  */
-import type { Finding, RuleFamily, Severity } from '../domain/finding.ts';
+import { RULE_FAMILY_LABELS, type Finding, type RuleFamily, type Severity } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
-import type { StepRecord } from '../storage/storage.ts';
+import type { StepRecord } from '../pipeline/ports.ts';
 
 export interface FirstFinding {
   readonly rule: RuleFamily;
@@ -95,15 +95,7 @@ function firstOf(f: Finding, step: StepRecord): FirstFinding {
   return { rule: f.rule, measurand: f.measurand, severity: f.severity, ...(f.direction && { direction: f.direction }), sampleId: step.sampleId, sampledAt: step.sampledAt };
 }
 
-const RULE_LABEL: Record<RuleFamily, string> = {
-  limit: 'fixed limit',
-  rate: 'rate',
-  population: 'population',
-  ewma: 'ewma',
-  cusum: 'cusum',
-  condition: 'condition',
-  cleanliness: 'cleanliness',
-};
+const RULE_LABEL: Record<RuleFamily, string> = RULE_FAMILY_LABELS;
 
 /** e.g. "Fe cusum watch 2026-04-10 · Fe rate caution 2026-06-19 · Fe fixed limit caution 2026-06-30 → caught 8 samples (81 days) before the fixed limit" */
 export function formatTimeline(t: ComponentTimeline): string {

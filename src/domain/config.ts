@@ -77,6 +77,31 @@ export const PopulationSchema = z
       .object({ caution: z.number().gt(0).lt(100).default(90), alarm: z.number().gt(0).lt(100).default(97.5) })
       .strict()
       .default({ caution: 90, alarm: 97.5 }),
+    opensIncidents: z
+      .boolean()
+      .default(false)
+      .describe(
+        'Whether a single result above its band\'s population level opens an incident. Default false: such a result is shown as an advisory (a per-sample limit at mean + 1σ flags about 16 % of healthy results by construction and cannot hold a false-alarm budget).',
+      ),
+    peers: z
+      .object({
+        enabled: z.boolean().default(true).describe('Compare each component\'s own in-control wear rate with the rates of the other units of its group.'),
+        minComponents: z.number().int().min(3).default(5).describe('Other units with a complete own baseline needed before the comparison is made.'),
+        minRatio: z
+          .number()
+          .min(1)
+          .default(1.5)
+          .describe('A rate is compared only when it is at least this many times the peers\' typical rate: a unit wearing a little faster than its peers is no incident.'),
+        budgetShare: z
+          .number()
+          .gt(0)
+          .lt(1)
+          .default(0.2)
+          .describe('Share of the false-alarm budget (detection.budget) given to this comparison; the change detectors get the rest.'),
+      })
+      .strict()
+      .default({ enabled: true, minComponents: 5, minRatio: 1.5, budgetShare: 0.2 })
+      .describe('Rate compared with like-for-like units: a component that wears faster than its peers from the start (its own baseline would hide it).'),
   })
   .strict();
 export type Population = z.infer<typeof PopulationSchema>;
@@ -153,9 +178,25 @@ export const ConfigSchema = z
       .object({
         url: z.string().optional().describe('REDIS_URL wins when set.'),
         prefix: z.string().min(1).default('{wearshift}').describe('Key prefix; keep the braces (a hash tag) for Redis Cluster.'),
+        partitions: z
+          .number()
+          .int()
+          .min(1)
+          .max(1024)
+          .default(1)
+          .describe('Partitions of the keys and queues by component (each its own hash tag, so a Redis Cluster spreads them over its shards). Every process must use the same number; see the README on sharding.'),
+        cluster: z
+          .object({
+            nodes: z
+              .array(z.string().regex(/^[^\s:]+:\d{1,5}$/, 'expected host:port'))
+              .min(1)
+              .describe('Seed nodes of a Redis Cluster (host:port); REDIS_CLUSTER_NODES wins when set.'),
+          })
+          .strict()
+          .optional(),
       })
       .strict()
-      .default({ prefix: '{wearshift}' }),
+      .default({ prefix: '{wearshift}', partitions: 1 }),
     detection: DetectionSchema.default(DetectionSchema.parse({})),
     population: PopulationSchema.default(PopulationSchema.parse({})),
     condition: ConditionSchema.default(ConditionSchema.parse({})),

@@ -54,9 +54,14 @@ export const EscalationPolicySchema = z
       .object({
         groups: z.array(z.string().min(1)).min(1).optional().describe('Groups the policy applies to; absent: every group.'),
         severities: z.array(z.enum(SEVERITIES)).min(1).optional().describe('Incident severities the policy applies to; absent: every severity.'),
+        kinds: z
+          .array(z.enum(['machine', 'sampling']))
+          .min(1)
+          .default(['machine'])
+          .describe('Incident kinds the policy applies to: machine (wear, condition, cleanliness) and/or sampling (sampling and data faults, for whoever takes the samples and the lab).'),
       })
       .strict()
-      .default({}),
+      .default({ kinds: ['machine'] }),
     tiers: z
       .array(EscalationTierSchema)
       .min(1)

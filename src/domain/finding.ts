@@ -1,8 +1,47 @@
 /** What the analysis core concludes: one rule's verdict on the latest state of one measurand of one component. */
 import type { Measurand } from './measurands.ts';
 
-export const RULE_FAMILIES = ['limit', 'rate', 'population', 'ewma', 'cusum', 'condition', 'cleanliness'] as const;
+export const RULE_FAMILIES = ['limit', 'rate', 'population', 'ewma', 'cusum', 'condition', 'cleanliness', 'sampling'] as const;
 export type RuleFamily = (typeof RULE_FAMILIES)[number];
+
+/**
+ * How each family is named for people: the one label table (board, charts, e-mail, replay, backtest). A family
+ * added to RULE_FAMILIES without a label here fails the type check.
+ */
+export const RULE_FAMILY_LABELS = {
+  limit: 'fixed limit',
+  rate: 'rate limit',
+  population: 'group limit',
+  ewma: 'EWMA',
+  cusum: 'CUSUM',
+  condition: 'oil condition',
+  cleanliness: 'cleanliness',
+  sampling: 'sampling check',
+} as const satisfies Record<RuleFamily, string>;
+
+/**
+ * What a finding asks of people (ISA-18.2 separates alarms, which need a response, from alerts and advisories):
+ * - `incident`: opens or updates an incident and is announced by its escalation policy — a machine incident, or
+ *   for the `sampling` family a sampling incident for whoever takes the samples and the lab;
+ * - `advisory`: shown as status (board, charts, API, e-mail evidence), the way a lab report shows it, but opens
+ *   nothing: e.g. a single result above the population limits of its band;
+ * - `held`: would open an incident, but its sample is in doubt (a sampling finding at the same sample); it counts
+ *   once a responder confirms the sample.
+ */
+export const DISPOSITIONS = ['incident', 'advisory', 'held'] as const;
+export type Disposition = (typeof DISPOSITIONS)[number];
+
+/** The checks of the `sampling` family: sampling and data faults, not wear. */
+export const SAMPLING_CHECKS = [
+  'new-oil-mid-charge',
+  'oil-hours-back',
+  'unit-hours-back',
+  'reading-drop',
+  'duplicate-bottle',
+  'foreign-oil',
+  'rate-fall',
+] as const;
+export type SamplingCheck = (typeof SAMPLING_CHECKS)[number];
 
 export const SEVERITIES = ['watch', 'caution', 'alarm'] as const;
 export type Severity = (typeof SEVERITIES)[number];
@@ -30,6 +69,10 @@ export interface Finding {
   readonly basis: string;
   /** For change detectors: which way the shift went. A fall in a wear rate points to a sampling fault. */
   readonly direction?: 'up' | 'down';
+  /** What the finding asks of people; see DISPOSITIONS. */
+  readonly disposition: Disposition;
+  /** For the `sampling` family: which check fired. */
+  readonly check?: SamplingCheck;
   readonly sampleId: string;
   readonly sampledAt: string;
   /** One sentence an engineer understands. */
@@ -37,6 +80,13 @@ export interface Finding {
 }
 
 /** A stable identity for "the same finding", used to de-duplicate notifications. */
-export function findingKey(f: Pick<Finding, 'measurand' | 'rule' | 'direction'>): string {
-  return `${f.measurand}:${f.rule}${f.direction ? `:${f.direction}` : ''}`;
+export function findingKey(f: Pick<Finding, 'measurand' | 'rule' | 'direction' | 'check'>): string {
+  return `${f.measurand}:${f.rule}${f.direction ? `:${f.direction}` : ''}${f.check ? `:${f.check}` : ''}`;
+}
+
+/** The incident a finding belongs to: a machine incident, or a sampling incident for the sampling family. */
+export type IncidentKind = 'machine' | 'sampling';
+
+export function incidentKindOf(f: Pick<Finding, 'rule'>): IncidentKind {
+  return f.rule === 'sampling' ? 'sampling' : 'machine';
 }

@@ -9,19 +9,21 @@ export interface MeasurandInfo {
   readonly kind: MeasurandKind;
   readonly unit: string;
   readonly label: string;
+  /** Where a wear metal usually comes from (common practice; the lab and the equipment maker know the metallurgy of a given machine). */
+  readonly origin?: string;
 }
 
-const element = (kind: MeasurandKind, label: string): MeasurandInfo => ({ kind, unit: 'ppm', label });
+const element = (kind: MeasurandKind, label: string, origin?: string): MeasurandInfo => ({ kind, unit: 'ppm', label, ...(origin !== undefined && { origin }) });
 
 export const MEASURANDS = {
   // Wear metals (ICP/RDE spectroscopy, mg/kg)
-  Fe: element('wear', 'iron'),
-  Cu: element('wear', 'copper'),
-  Al: element('wear', 'aluminium'),
-  Cr: element('wear', 'chromium'),
-  Pb: element('wear', 'lead'),
-  Sn: element('wear', 'tin'),
-  Ni: element('wear', 'nickel'),
+  Fe: element('wear', 'iron', 'gears, bearings, shafts, liners'),
+  Cu: element('wear', 'copper', 'bushings, thrust washers, coolers'),
+  Al: element('wear', 'aluminium', 'pistons, pump housings, thrust washers'),
+  Cr: element('wear', 'chromium', 'piston rings, plated shafts, bearing steels'),
+  Pb: element('wear', 'lead', 'plain-bearing overlays'),
+  Sn: element('wear', 'tin', 'plain-bearing overlays, bronze parts'),
+  Ni: element('wear', 'nickel', 'bearing steels, valve gear'),
   Ag: element('wear', 'silver'),
   Ti: element('wear', 'titanium'),
   Mn: element('wear', 'manganese'),
@@ -66,6 +68,12 @@ export const MEASURAND_NAMES = Object.keys(MEASURANDS) as Measurand[];
 
 export function isMeasurand(name: string): name is Measurand {
   return Object.hasOwn(MEASURANDS, name);
+}
+
+/** Where a wear metal usually comes from, when the catalogue says (common practice). */
+export function originOf(m: Measurand): string | undefined {
+  const info: MeasurandInfo = MEASURANDS[m];
+  return info.origin;
 }
 
 export function measurandsOfKind(kind: MeasurandKind): Measurand[] {

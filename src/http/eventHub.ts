@@ -5,29 +5,10 @@
  * worker` and `wearshift api` apart), a bridge forwards Redis pub/sub messages into the API process's hub.
  */
 import { describeState } from '../incidents/model.ts';
-import type { IncidentChange } from '../queue/incidentFeed.ts';
+import type { LiveEvent } from '../pipeline/liveEvent.ts';
 import type { IncidentRoutesStore } from './incidentRoutes.ts';
 
-export type LiveEvent =
-  | {
-      readonly type: 'incident';
-      readonly incidentId: string;
-      readonly unit: string;
-      readonly component: string;
-      readonly severity: string;
-      /** The incident's state after the change, in words. */
-      readonly state: string;
-      /** What happened: the timeline entry's kind ("opened", "acknowledged", "finding", ...). */
-      readonly change: string;
-      readonly at: string;
-    }
-  | {
-      readonly type: 'result';
-      readonly unit: string;
-      readonly component: string;
-      readonly sampleId: string;
-      readonly sampledAt: string;
-    };
+export type { LiveEvent };
 
 export type LiveListener = (event: LiveEvent, id: number) => void;
 
@@ -69,20 +50,6 @@ export function createEventHub(options: EventHubOptions = {}): EventHub {
     get subscribers() {
       return listeners.size;
     },
-  };
-}
-
-/** The live event for one incident change as the incident feed reports it. */
-export function incidentEvent(change: IncidentChange): LiveEvent {
-  return {
-    type: 'incident',
-    incidentId: change.incidentId,
-    unit: change.unit,
-    component: change.component,
-    severity: change.severity,
-    state: change.state,
-    change: change.entry.kind,
-    at: change.entry.at,
   };
 }
 

@@ -3,30 +3,21 @@
  * - `GET /v1/units/:unit/components/:component/series[?measurand=Fe,Cu]`: the series model as JSON;
  * - `GET /v1/units/:unit/components/:component/chart.svg?measurand=Fe[&width=760]`: the trend chart as SVG;
  * - `GET /v1/units/:unit/components/:component/chart.png?measurand=Fe[&width=600]`: the same chart as PNG.
- * Every request evaluates the stored history afresh with the pure core, so the chart shows what the worker judged
- * from the same samples and settings.
+ * Every request builds the component view (src/pipeline/componentView.ts): the evaluation the worker's checkpoints
+ * reached, from the same samples, marks, settings and group statistics; the series also says what the analysis
+ * cannot judge yet (`readiness`).
  */
 import type { FastifyPluginAsync, FastifyReply, FastifyRequest, preHandlerAsyncHookHandler } from 'fastify';
-import { evaluateComponent } from '../analysis/evaluate.ts';
-import type { GroupStats } from '../analysis/model.ts';
 import { renderChartPng } from '../charts/chartPng.ts';
 import { buildComponentSeries, type ComponentSeries } from '../charts/componentSeries.ts';
 import { DEFAULT_CHART_WIDTH, renderTrendChart } from '../charts/trendChart.ts';
-import type { Sample } from '../domain/event.ts';
 import { isMeasurand, type Measurand } from '../domain/measurands.ts';
-import type { ComponentSettings } from '../domain/settings.ts';
+import type { ComponentView } from '../pipeline/componentView.ts';
 import { requireRole } from './auth.ts';
 
-export interface LoadedComponent {
-  readonly samples: readonly Sample[];
-  readonly settings: ComponentSettings;
-  /** The group's population statistics and pooled baselines, when known. */
-  readonly group?: GroupStats;
-}
-
 export interface SeriesRoutesOptions {
-  /** The stored history of a component and the settings it is judged with; undefined when no such component is known. */
-  loadComponent(unit: string, component: string): Promise<LoadedComponent | undefined>;
+  /** The component view (history, settings, group statistics, evaluation); undefined when no such component is known. */
+  loadComponent(unit: string, component: string): Promise<ComponentView | undefined>;
   /** Guards every route. Default: a viewer or responder bearer token (see auth.ts). */
   authorize?: preHandlerAsyncHookHandler;
 }
@@ -53,15 +44,15 @@ export const seriesRoutes: FastifyPluginAsync<SeriesRoutesOptions> = async (app,
   const preHandler = options.authorize ?? requireRole('viewer', 'responder');
   const base = '/v1/units/:unit/components/:component';
 
-  async function load(request: FastifyRequest<{ Params: Params }>, reply: FastifyReply, measurands?: Measurand[]): Promise<ComponentSeries | undefined> {
+  async function load(request: FastifyRequest<{ Params: Params }>, reply: FastifyReply, measurands?: Measurand[]): Promise<(ComponentSeries & Pick<ComponentView, 'readiness'>) | undefined> {
     const { unit, component } = request.params;
-    const loaded = await options.loadComponent(unit, component);
-    if (loaded === undefined) {
+    const view = await options.loadComponent(unit, component);
+    if (view === undefined) {
       await reply.code(404).send({ error: 'not-found', message: `no component "${component}" of unit "${unit}" is known` });
       return undefined;
     }
-    const evaluation = evaluateComponent(loaded.samples, loaded.settings, loaded.group);
-    return buildComponentSeries(evaluation, loaded.settings, loaded.group, measurands === undefined ? {} : { measurands });
+    const series = buildComponentSeries(view.evaluation, view.settings, view.group, measurands === undefined ? {} : { measurands });
+    return { ...series, readiness: view.readiness };
   }
 
   app.get<{ Params: Params; Querystring: Query }>(`${base}/series`, { preHandler }, async (request, reply) => {

@@ -5,15 +5,13 @@
  */
 import Fastify from 'fastify';
 import type { Config } from '../domain/config.ts';
-import { componentKey } from '../domain/event.ts';
-import { resolveSettings } from '../domain/settings.ts';
 import { describeState, type Incident } from '../incidents/model.ts';
-import type { RedisIncidentStore } from '../incidents/redisIncidentStore.ts';
+import type { RedisIncidents } from '../redis/redisIncidents.ts';
 import type { AckIncidentSummary } from '../notify/ackPage.ts';
 import type { Logger } from '../runtime/logger.ts';
 import type { Metrics } from '../runtime/metrics.ts';
-import { groupStatsFor } from '../queue/evaluateStored.ts';
-import type { Storage } from '../storage/storage.ts';
+import { componentView } from '../pipeline/componentView.ts';
+import type { ComponentStore, GroupLedger } from '../pipeline/ports.ts';
 import { ackLinkRoutes } from './ackLinkRoutes.ts';
 import { announcingActions, type EventHub, type LiveEvent } from './eventHub.ts';
 import { eventRoutes } from './eventRoutes.ts';
@@ -36,9 +34,9 @@ export interface ServerOptions {
   /** Serve /metrics without a token. Default: WEARSHIFT_METRICS_PUBLIC === '1'. */
   readonly metricsPublic?: boolean;
   /** The incident store, for the incident API and the acknowledgement-link pages. */
-  readonly incidents?: RedisIncidentStore;
-  /** Stored histories and the configuration, for the series and chart routes. */
-  readonly histories?: { readonly storage: Storage; readonly config: Config };
+  readonly incidents?: RedisIncidents;
+  /** Stored histories, group statistics and the configuration, for the series and chart routes. */
+  readonly histories?: { readonly store: ComponentStore; readonly ledger: GroupLedger; readonly config: Config };
   /** Live events, for GET /v1/events. */
   readonly hub?: EventHub;
   /** Link-signing secrets (current first); the pages are served only with a store and at least one secret. */
@@ -57,13 +55,7 @@ export async function buildServer(options: ServerOptions) {
   const histories = options.histories;
   if (histories !== undefined) {
     await app.register(seriesRoutes, {
-      loadComponent: async (unit, component) => {
-        const entry = await histories.storage.component({ unit, component });
-        if (entry === undefined) return undefined;
-        const settings = resolveSettings(histories.config, entry);
-        const [samples, group] = await Promise.all([histories.storage.revisions(entry), groupStatsFor(histories.storage, settings, componentKey(entry))]);
-        return { samples, settings, group };
-      },
+      loadComponent: (unit, component) => componentView(histories.store, histories.ledger, histories.config, { unit, component }),
     });
   }
   // Acknowledgements from the API, the board or an e-mail link are announced like the worker's incident changes.

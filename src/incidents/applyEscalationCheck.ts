@@ -4,7 +4,7 @@
  * nothing due and change nothing. A check also ends shelving whose time is up.
  */
 import { draftOf, findDraft, type Work } from './draft.ts';
-import { advanceEscalation } from './escalation.ts';
+import { advanceEscalation, annunciate } from './escalation.ts';
 import type { ComponentIncidents, IncidentResult } from './model.ts';
 import type { IncidentRules } from './policy.ts';
 import { endExpiredShelving } from './shelving.ts';
@@ -23,9 +23,12 @@ export function applyEscalationCheck(state: ComponentIncidents, check: Escalatio
   endExpiredShelving(draft, work);
   const inc = findDraft(draft, check.incidentId);
   const dueAt = inc?.escalation.dueAt ?? null;
-  if (inc === undefined || dueAt === null || check.now.getTime() < Date.parse(dueAt) - CLOCK_SKEW_TOLERANCE_MS) return { state: draft, effects: work.effects };
-  inc.escalation.dueAt = null;
-  const at = new Date(Math.max(check.now.getTime(), Date.parse(dueAt)));
-  advanceEscalation(inc, { ...work, now: at });
+  if (inc !== undefined && dueAt !== null && check.now.getTime() >= Date.parse(dueAt) - CLOCK_SKEW_TOLERANCE_MS) {
+    inc.escalation.dueAt = null;
+    const at = new Date(Math.max(check.now.getTime(), Date.parse(dueAt)));
+    advanceEscalation(inc, { ...work, now: at });
+  }
+  // A shelving that ended above is told now.
+  annunciate(Object.values(draft.incidents), work);
   return { state: draft, effects: work.effects };
 }

@@ -2,21 +2,27 @@
  * The engine's operations copy the state once and then change the copy in place: simpler to read than
  * rebuilding nested objects at every step, and the caller's state is never touched.
  */
-import type { ComponentIncidents, EscalationProgress, Incident, IncidentEffect, JudgedSteps, TimelineEntry } from './model.ts';
+import type { ComponentIncidents, EscalationProgress, Incident, IncidentEffect, LoggedAction, NotifiedEntry, StepPosition, TimelineEntry, Told } from './model.ts';
 import type { IncidentRules } from './policy.ts';
 
 type Mutable<T> = { -readonly [K in keyof T]: T[K] };
 
-export type DraftIncident = Mutable<Omit<Incident, 'timeline' | 'escalation'>> & {
+export type DraftIncident = Mutable<Omit<Incident, 'timeline' | 'escalation' | 'notifications' | 'told'>> & {
   timeline: TimelineEntry[];
   escalation: Mutable<EscalationProgress>;
+  notifications: NotifiedEntry[];
+  told: Mutable<Told>;
 };
 
 export interface DraftState {
   readonly unit: string;
   readonly component: string;
-  judged: JudgedSteps | null;
+  judged: StepPosition | null;
   incidents: Record<string, DraftIncident>;
+  actions: LoggedAction[];
+  actionSeq: number;
+  /** Closed incidents a new one of the same key replaced during this operation (they leave the state; the store keeps their records). Not persisted. */
+  replaced?: DraftIncident[];
 }
 
 /** What one operation works with: the time it runs at, the rules, and the effects it collects. */

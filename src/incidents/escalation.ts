@@ -1,16 +1,22 @@
 /**
- * Telling people: announcing an incident to tier 0, escalating tier by tier while nobody acknowledges, and
- * passing on state changes to everyone told so far. Every message is an effect with a key derived from the
- * incident's own event counter, so the same input always yields the same keys and the queue de-duplicates.
+ * The annunciation: telling people what the verdict (verdict.ts) says. Announcing an incident to tier 0,
+ * escalating tier by tier while nobody acknowledges, and passing on state changes to everyone told so far. It
+ * compares each incident's verdict with what has been told (`announced`, `told`) and tells the difference, so
+ * running it again changes nothing, and a verdict folded again after a late result is told as news, once.
+ * Every message is an effect with a key derived from the incident's own event counter, so the same input always
+ * yields the same keys and the queue de-duplicates.
  */
 import { maxSeverity, severityRank } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
 import type { EscalationPolicy } from '../domain/escalationConfig.ts';
 import { isoOf, type DraftIncident, type Work } from './draft.ts';
-import { describeState, type IncidentEventType, type IncidentSnapshot } from './model.ts';
+import { describeState, type ClosedHow, type IncidentEventType, type IncidentSnapshot } from './model.ts';
 import { recipients, selectPolicy } from './policy.ts';
 
 const MINUTE = 60_000;
+
+/** The longest record of notifications kept per incident: the first and the latest. */
+export const NOTIFICATION_LIMIT = 200;
 
 export function snapshot(inc: DraftIncident, reason: string): IncidentSnapshot {
   return {
@@ -60,7 +66,8 @@ function sendEvent(inc: DraftIncident, work: Work, policy: EscalationPolicy, typ
       incident: payload,
     });
   }
-  inc.timeline.push({ kind: 'notified', at, type, tier: toTier, eventSeq: inc.eventSeq, targets: to.map((r) => `${r.channel}:${r.target}`), reason });
+  inc.notifications.push({ kind: 'notified', at, type, tier: toTier, eventSeq: inc.eventSeq, targets: to.map((r) => `${r.channel}:${r.target}`), reason });
+  if (inc.notifications.length > NOTIFICATION_LIMIT) inc.notifications.splice(1, inc.notifications.length - NOTIFICATION_LIMIT);
   return true;
 }
 
@@ -71,8 +78,14 @@ export function tellReached(inc: DraftIncident, work: Work, type: IncidentEventT
   sendEvent(inc, work, policy, type, 0, inc.escalation.reachedTier, reason);
 }
 
-function mayEscalate(inc: DraftIncident): boolean {
-  return inc.closed === null && inc.shelved === null && inc.acknowledged === null && inc.alarm === 'active';
+/** Shelving hides an incident from annunciation until its time is up. */
+export function shelvedAt(inc: Pick<DraftIncident, 'shelved'>, now: Date): boolean {
+  return inc.shelved !== null && Date.parse(inc.shelved.until) > now.getTime();
+}
+
+/** Tiers are told while the incident stays active, unacknowledged and not shelved; tier 0 (the announcement) also once it has returned. */
+function mayEscalate(inc: DraftIncident, now: Date): boolean {
+  return inc.closed === null && !shelvedAt(inc, now) && inc.acknowledged === null && (inc.alarm === 'active' || inc.escalation.nextTier === 0);
 }
 
 /**
@@ -82,7 +95,7 @@ function mayEscalate(inc: DraftIncident): boolean {
 export function advanceEscalation(inc: DraftIncident, work: Work, firstReason?: string): void {
   const policy = chainPolicy(inc, work);
   const esc = inc.escalation;
-  if (policy === undefined || esc.startedAt === null || !mayEscalate(inc)) return;
+  if (policy === undefined || esc.startedAt === null || !mayEscalate(inc, work.now)) return;
   const now = work.now.getTime();
   const started = Date.parse(esc.startedAt);
   while (esc.nextTier < policy.tiers.length && started + policy.tiers[esc.nextTier]!.afterMinutes * MINUTE <= now) {
@@ -143,7 +156,7 @@ function announce(inc: DraftIncident, work: Work, type: IncidentEventType, reaso
     severity: told === null ? inc.severity : maxSeverity(told.severity, inc.severity),
     measurands: [...new Set([...(told?.measurands ?? []), ...measurandsOf(inc)])].sort(),
   };
-  const policy = selectPolicy(work.rules.policies, inc.group, inc.severity);
+  const policy = selectPolicy(work.rules.policies, inc.group, inc.severity, inc.kind);
   const esc = inc.escalation;
   const running = !restart && policy !== undefined && esc.policy === policy.name && esc.startedAt !== null;
   if (running) {
@@ -153,34 +166,93 @@ function announce(inc: DraftIncident, work: Work, type: IncidentEventType, reaso
   }
   inc.escalation = { policy: policy?.name ?? null, startedAt: isoOf(work.now), firstType: type, nextTier: 0, reachedTier: -1, lastSentAt: null, dueAt: null };
   if (policy === undefined) {
-    inc.timeline.push({ kind: 'notified', at: isoOf(work.now), type, tier: 0, eventSeq: inc.eventSeq, targets: [], reason: `${reason}; no escalation policy matches` });
+    inc.notifications.push({ kind: 'notified', at: isoOf(work.now), type, tier: 0, eventSeq: inc.eventSeq, targets: [], reason: `${reason}; no escalation policy matches` });
     return;
   }
   advanceEscalation(inc, work, reason);
 }
 
+const CLOSED_BECAUSE: Record<ClosedHow, string> = {
+  'acknowledged-and-returned': 'returned to normal and acknowledged',
+  resolved: 'resolved by hand',
+  'returned-unannounced': 'returned to normal before anyone was told',
+  withdrawn: 'withdrawn: a late or corrected result changed the history so that this incident no longer stands',
+};
+
+export function cancelEscalations(inc: DraftIncident, work: Work, reason: 'acknowledged' | 'shelved' | 'closed'): void {
+  if (inc.escalation.dueAt === null) return;
+  inc.escalation.dueAt = null;
+  work.effects.push({ kind: 'cancel-escalations', key: `${inc.id}:cancel:${reason}:${work.now.getTime()}`, incidentId: inc.id, reason });
+}
+
+/** The sample of the latest return to normal, from the timeline. */
+function lastReturn(inc: DraftIncident): string | null {
+  for (let i = inc.timeline.length - 1; i >= 0; i--) {
+    const e = inc.timeline[i]!;
+    if (e.kind === 'returned') return e.sampleId;
+    if (e.kind === 'active-again') return null;
+  }
+  return null;
+}
+
 /**
- * After the incident changed: announce it when it is new or the evidence is new, otherwise keep the
- * escalation going. New evidence withdraws an acknowledgement (ISA-18.2 practice: it needs a fresh look).
- * When shelving ends on an active, unacknowledged incident, it is announced again.
+ * Tells what the verdict of every incident adds to what has been told: a new incident or new evidence is
+ * announced (if its latest sample arrived live), an acknowledgement, a return to normal and a closing go to
+ * everyone told so far, shelving cancels the escalation until its time is up; the escalation itself goes on by its
+ * scheduled checks.
  */
-export function announceIfDue(inc: DraftIncident, work: Work, options: { quiet: boolean; shelvingEnded?: boolean }): void {
-  if (options.quiet || inc.shelved !== null || inc.closed !== null || inc.alarm !== 'active') return;
-  if (inc.announced === null) {
-    announce(inc, work, 'wearshift.incident.opened', announcementReason(inc, 'wearshift.incident.opened'), true);
+export function annunciate(incidents: Iterable<DraftIncident>, work: Work): void {
+  for (const inc of incidents) annunciateOne(inc, work);
+}
+
+function annunciateOne(inc: DraftIncident, work: Work): void {
+  const told = inc.told;
+  if (inc.closed !== null) {
+    if (told.closed) return;
+    told.closed = true;
+    cancelEscalations(inc, work, 'closed');
+    const note = inc.closed.note === undefined ? '' : `: ${inc.closed.note}`;
+    if (inc.announced !== null) tellReached(inc, work, 'wearshift.incident.closed', `${CLOSED_BECAUSE[inc.closed.how]}${note}`);
     return;
   }
-  const news = newEvidence(inc);
-  const wasAcknowledged = inc.acknowledged !== null;
-  if (news !== null) {
-    if (wasAcknowledged) {
-      inc.acknowledged = null;
-      inc.timeline.push({ kind: 'unacknowledged', at: isoOf(work.now), reason: `new evidence: ${news}` });
-    }
-    announce(inc, work, 'wearshift.incident.updated', `new evidence: ${news}`, wasAcknowledged || options.shelvingEnded === true);
-  } else if (!wasAcknowledged && options.shelvingEnded === true) {
-    announce(inc, work, 'wearshift.incident.updated', 'shelving ended; still active and unacknowledged', true);
-  } else if (!wasAcknowledged) {
-    advanceEscalation(inc, work);
+  // Reopened after a closing that was told: its next closing is news again.
+  told.closed = false;
+  const ack = inc.acknowledged;
+  const shelved = shelvedAt(inc, work.now);
+  let ackWithdrawn = false;
+  if (ack !== null && told.acknowledgedAt !== ack.at) {
+    told.acknowledgedAt = ack.at;
+    cancelEscalations(inc, work, 'acknowledged');
+    if (!shelved) tellReached(inc, work, 'wearshift.incident.acknowledged', `acknowledged by ${ack.by}${ack.note === undefined ? '' : `: ${ack.note}`}`);
+  } else if (ack === null && told.acknowledgedAt !== null) {
+    told.acknowledgedAt = null;
+    ackWithdrawn = true;
   }
+  if (shelved) {
+    if (told.shelvedUntil !== inc.shelved!.until) {
+      told.shelvedUntil = inc.shelved!.until;
+      cancelEscalations(inc, work, 'shelved');
+      const until = Date.parse(inc.shelved!.until);
+      work.effects.push({ kind: 'schedule-escalation', key: `${inc.id}:shelving-ends:0:${until}`, incidentId: inc.id, tier: 0, at: inc.shelved!.until, reason: 'shelving-ends' });
+    }
+    return;
+  }
+  const shelvingEnded = told.shelvedUntil !== null;
+  told.shelvedUntil = null;
+  if (inc.announced === null) {
+    if (!inc.live || !(inc.lastLive || shelvingEnded)) return;
+    announce(inc, work, 'wearshift.incident.opened', announcementReason(inc, 'wearshift.incident.opened'), true);
+  } else if (inc.alarm === 'active' && (inc.lastLive || shelvingEnded)) {
+    const news = newEvidence(inc);
+    if (news !== null) announce(inc, work, 'wearshift.incident.updated', `new evidence: ${news}`, ackWithdrawn || shelvingEnded);
+    else if (ack === null && shelvingEnded) announce(inc, work, 'wearshift.incident.updated', 'shelving ended; still active and unacknowledged', true);
+  }
+  if (inc.alarm === 'returned') {
+    const returned = lastReturn(inc);
+    if (returned !== null && told.returnedAt !== returned && ack === null && inc.lastLive) {
+      told.returnedAt = returned;
+      tellReached(inc, work, 'wearshift.incident.returned', `returned to normal after ${inc.cleanSteps} samples without findings; still unacknowledged`);
+    }
+  }
+  // Otherwise the escalation goes on by its scheduled checks (applyEscalationCheck).
 }

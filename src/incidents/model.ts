@@ -3,7 +3,7 @@
  * IEC 62682: an incident is active or returned to normal, acknowledged or unacknowledged, may be shelved until a
  * time, and is finally closed. Everything here is plain JSON so that the store can keep it as it is.
  */
-import type { Finding, Severity } from '../domain/finding.ts';
+import type { Finding, IncidentKind, Severity } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
 
 export type AlarmCondition = 'active' | 'returned';
@@ -24,6 +24,11 @@ export interface Acknowledgement {
   readonly by: string;
   readonly at: string;
   readonly note?: string;
+  /** Through a signed e-mail link: the address the link was sent to (`by` is the name typed on the page). */
+  readonly recipient?: string;
+  /** What was acknowledged: evidence beyond it (a higher severity, a new measurand) withdraws the acknowledgement. */
+  readonly severity: Severity;
+  readonly measurands: readonly Measurand[];
 }
 
 export interface Shelving {
@@ -39,7 +44,9 @@ export type ClosedHow =
   /** Closed by hand with a note. */
   | 'resolved'
   /** Only ever seen in quiet backfill, so nobody was asked to acknowledge it. */
-  | 'returned-unannounced';
+  | 'returned-unannounced'
+  /** A late or corrected result changed the history so that this incident no longer stands; see the incident that replaced it. */
+  | 'withdrawn';
 
 export interface Closure {
   readonly at: string;
@@ -78,28 +85,44 @@ export type TimelineEntry =
     }
   | { readonly kind: 'returned'; readonly at: string; readonly sampleId: string }
   | { readonly kind: 'active-again'; readonly at: string; readonly sampleId: string; readonly reopened: boolean }
-  | { readonly kind: 'acknowledged'; readonly at: string; readonly by: string; readonly note?: string }
+  | { readonly kind: 'acknowledged'; readonly at: string; readonly by: string; readonly note?: string; readonly recipient?: string }
   | { readonly kind: 'unacknowledged'; readonly at: string; readonly reason: string }
   | { readonly kind: 'shelved'; readonly at: string; readonly by: string; readonly until: string; readonly reason: string }
   | { readonly kind: 'unshelved'; readonly at: string; readonly by?: string }
   | { readonly kind: 'closed'; readonly at: string; readonly how: ClosedHow; readonly by?: string; readonly note?: string }
-  | { readonly kind: 'note'; readonly at: string; readonly by: string; readonly note: string }
-  | {
-      readonly kind: 'notified';
-      readonly at: string;
-      readonly type: IncidentEventType;
-      readonly tier: number;
-      readonly eventSeq: number;
-      /** `channel:target` of every message sent; empty when the policy names nobody for this event. */
-      readonly targets: readonly string[];
-      readonly reason: string;
-    };
+  | { readonly kind: 'note'; readonly at: string; readonly by: string; readonly note: string };
+
+/** One message event: who was told what, when. The annunciation's record, kept beside the verdict's timeline. */
+export interface NotifiedEntry {
+  readonly kind: 'notified';
+  /** Processing time of the event. */
+  readonly at: string;
+  readonly type: IncidentEventType;
+  readonly tier: number;
+  readonly eventSeq: number;
+  /** `channel:target` of every message sent; empty when the policy names nobody for this event. */
+  readonly targets: readonly string[];
+  readonly reason: string;
+}
+
+/** What the annunciation has passed on of the verdict so far, so that it tells each change once. */
+export interface Told {
+  /** `at` of the acknowledgement last told (or cancelled escalations for); null when none. */
+  readonly acknowledgedAt: string | null;
+  /** sampleId of the return to normal last told; null when none. */
+  readonly returnedAt: string | null;
+  readonly closed: boolean;
+  /** `until` of the shelving whose escalations were last cancelled; null when none. */
+  readonly shelvedUntil: string | null;
+}
 
 export interface Incident {
-  /** `unit/component[/measurand]@openingSampleId`: the same history gives the same id, live or in replay. */
+  /** `unit/component[/measurand|/sampling]@openingSampleId`: the same history gives the same id, live or in replay. */
   readonly id: string;
-  /** `unit/component[/measurand]`: at most one incident per key is open. */
+  /** `unit/component[/measurand|/sampling]`: at most one incident per key is open. */
   readonly key: string;
+  /** A machine incident (wear, condition, cleanliness) or a sampling incident (sampling and data faults). */
+  readonly kind: IncidentKind;
   readonly unit: string;
   readonly component: string;
   readonly group: string;
@@ -117,6 +140,8 @@ export interface Incident {
   readonly activeFindings: readonly Finding[];
   /** The findings of the latest sample that had any: what the incident is about. */
   readonly evidence: readonly Finding[];
+  /** Advisory and held findings of the same sample, shown beside the evidence the way a lab report shows them. */
+  readonly context: readonly Finding[];
   readonly acknowledged: Acknowledgement | null;
   readonly shelved: Shelving | null;
   readonly closed: Closure | null;
@@ -124,32 +149,62 @@ export interface Incident {
   readonly cleanSteps: number;
   /** Samples since the return to normal or the closing, for the reopen window; null while active. */
   readonly stepsSinceEnd: number | null;
+  /** A sample of this incident arrived live (not as backfill): someone is asked to acknowledge it. */
+  readonly live: boolean;
+  /** The latest sample of the incident arrived live. */
+  readonly lastLive: boolean;
+  /** The verdict's record: findings, returns, operator actions. Depends only on the results and the actions. */
+  readonly timeline: readonly TimelineEntry[];
+
+  // The annunciation: what was told to whom. Never rewound; a late result that changes the verdict is told as news.
   /** What notifications have told so far: new evidence is what goes beyond it. Null until first announced. */
   readonly announced: { readonly severity: Severity; readonly measurands: readonly Measurand[] } | null;
   /** Counts the incident's events; part of every effect key, so a redelivered input yields the same keys. */
   readonly eventSeq: number;
   readonly escalation: EscalationProgress;
-  readonly timeline: readonly TimelineEntry[];
+  readonly told: Told;
+  readonly notifications: readonly NotifiedEntry[];
 }
 
-export type IncidentSummary = Omit<Incident, 'timeline'>;
+export type IncidentSummary = Omit<Incident, 'timeline' | 'notifications'>;
 
-/** The last step judged, so that redelivered steps change nothing. */
-export interface JudgedSteps {
-  readonly sampledAt: string;
-  /** Samples at exactly `sampledAt` already judged (ties in sample time are possible). */
-  readonly sampleIds: readonly string[];
-  readonly lastSampleId: string;
-  /** The last step's findings as judged; a re-evaluation that changes them is applied as a revision. */
-  readonly lastFingerprint: string;
+/** Where a step sorts in the history (see analysis/fold: time, unit hours, sampleId). */
+export interface StepPosition {
+  readonly sampleId: string;
+  readonly time: number;
+  readonly unitHours?: number;
 }
+
+/**
+ * An operator's (or the shelving clock's) action, logged with the step that was the latest when it was taken, so that
+ * folding the history again after a late result puts it back in the same place.
+ */
+export interface LoggedAction {
+  readonly seq: number;
+  /** The latest step judged when the action was taken; null before any. */
+  readonly after: StepPosition | null;
+  readonly action: RecordedAction;
+}
+
+/** An action as the log keeps it (plain JSON). */
+export type RecordedAction =
+  | { readonly kind: 'acknowledge'; readonly incidentId: string; readonly by: string; readonly at: string; readonly note?: string; readonly recipient?: string }
+  | { readonly kind: 'shelve'; readonly incidentId: string; readonly by: string; readonly at: string; readonly until: string; readonly reason: string }
+  | { readonly kind: 'unshelve'; readonly incidentId: string; readonly by?: string; readonly at: string }
+  | { readonly kind: 'resolve'; readonly incidentId: string; readonly by: string; readonly at: string; readonly note: string }
+  | { readonly kind: 'note'; readonly incidentId: string; readonly by: string; readonly at: string; readonly note: string };
 
 /** The incident state of one component: its current (or most recently closed) incident per key. */
 export interface ComponentIncidents {
   readonly unit: string;
   readonly component: string;
-  readonly judged: JudgedSteps | null;
+  /** The last step judged; steps at or before it are not judged again (redelivery). */
+  readonly judged: StepPosition | null;
   readonly incidents: Readonly<Record<string, Incident>>;
+  /** Actions, oldest first (the latest ACTION_LOG_LIMIT). */
+  readonly actions: readonly LoggedAction[];
+  /** Sequence number of the last action logged. */
+  readonly actionSeq: number;
 }
 
 /** The incident as a message shows it, frozen at the moment of the event. */
@@ -214,15 +269,23 @@ export type IncidentEffect = NotifyEffect | ScheduleEscalationEffect | CancelEsc
 export interface IncidentResult {
   readonly state: ComponentIncidents;
   readonly effects: readonly IncidentEffect[];
+  /** Closed incidents that a new one of the same key replaced in the state: their records stay as they are. */
+  readonly archived?: readonly Incident[];
 }
 
 export function emptyComponentIncidents(unit: string, component: string): ComponentIncidents {
-  return { unit, component, judged: null, incidents: {} };
+  return { unit, component, judged: null, incidents: {}, actions: [], actionSeq: 0 };
 }
 
 export function summarize(incident: Incident): IncidentSummary {
-  const { timeline: _timeline, ...summary } = incident;
+  const { timeline: _timeline, notifications: _notifications, ...summary } = incident;
   return summary;
+}
+
+/** The verdict's timeline and the annunciation's record in one list for people, ordered by time (stable). */
+export function mergedTimeline(incident: Pick<Incident, 'timeline' | 'notifications'>): Array<TimelineEntry | NotifiedEntry> {
+  const all: Array<TimelineEntry | NotifiedEntry> = [...incident.timeline, ...incident.notifications];
+  return all.map((e, i) => ({ e, i, t: Date.parse(e.at) })).sort((a, b) => a.t - b.t || a.i - b.i).map((x) => x.e);
 }
 
 /** The state in the standards' words, for people. */

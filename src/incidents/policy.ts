@@ -1,7 +1,7 @@
 /** Which escalation policy applies to an incident, and who of a tier hears of which event. */
 import type { Config } from '../domain/config.ts';
 import type { EscalationPolicy, EscalationTier, IncidentsConfig } from '../domain/escalationConfig.ts';
-import type { Severity } from '../domain/finding.ts';
+import type { IncidentKind, Severity } from '../domain/finding.ts';
 import type { ChannelKind, IncidentEventType } from './model.ts';
 
 /** The configuration the incident engine works by. */
@@ -14,9 +14,12 @@ export function incidentRules(config: Pick<Config, 'incidents' | 'escalation'>):
   return { incidents: config.incidents, policies: config.escalation.policies };
 }
 
-export function selectPolicy(policies: readonly EscalationPolicy[], group: string, severity: Severity): EscalationPolicy | undefined {
+export function selectPolicy(policies: readonly EscalationPolicy[], group: string, severity: Severity, kind: IncidentKind = 'machine'): EscalationPolicy | undefined {
   return policies.find(
-    (p) => (p.match.groups === undefined || p.match.groups.includes(group)) && (p.match.severities === undefined || p.match.severities.includes(severity)),
+    (p) =>
+      (p.match.groups === undefined || p.match.groups.includes(group)) &&
+      (p.match.severities === undefined || p.match.severities.includes(severity)) &&
+      p.match.kinds.includes(kind),
   );
 }
 

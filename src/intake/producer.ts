@@ -3,15 +3,17 @@
  * HTTP. It validates every record exactly as the HTTP intake and the worker do, enqueues the valid ones on
  * the `results` queue and tells, record by record, what happened.
  */
-import { Queue } from 'bullmq';
-import type { Redis } from 'ioredis';
-import { connectRedis } from '../runtime/redis.ts';
-import { openQueue, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from '../queue/queues.ts';
+import type { Queue } from 'bullmq';
+import { connectRedis, type RedisConnection, type RedisTarget } from '../redis/connection.ts';
+import { Partitions } from '../redis/keys.ts';
+import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from '../queue/queues.ts';
 import { validateBatch, type RecordOutcome, type ValidationOptions } from './validate.ts';
 
 export interface ResultProducerOptions extends Pick<QueueSettings, 'prefix' | 'attempts' | 'backoffMs' | 'keepCompleted' | 'keepFailed'> {
-  /** A Redis URL (`redis://host:6379/0`) or an ioredis connection the caller owns (and closes). */
-  connection: string | Redis;
+  /** A Redis URL (`redis://host:6379/0`), a cluster's seed nodes, or an ioredis connection the caller owns (and closes). */
+  connection: string | RedisTarget | RedisConnection;
+  /** Key partitions, as the workers use them (configuration `redis.partitions`). Default 1. */
+  partitions?: number;
   /** The clock for the "not in the future" check. Default `Date.now`. */
   now?: () => number;
   /** How far ahead of the clock a sampledAt may lie. Default one day. */
@@ -48,19 +50,29 @@ export interface ResultProducer {
  * at least once: adding a result twice is harmless, the store keeps one copy per sampleId and revision.
  */
 export function createResultProducer(options: ResultProducerOptions): ResultProducer {
-  const ownConnection = typeof options.connection === 'string';
-  const redis = typeof options.connection === 'string' ? connectRedis(options.connection, 'request') : options.connection;
-  const queue: Queue = openQueue(QUEUE_NAMES.results, redis, resolveQueueSettings(options));
+  const given = options.connection;
+  const ownConnection = typeof given === 'string' || (typeof given === 'object' && 'kind' in given);
+  const redis = ownConnection ? connectRedis(given as string | RedisTarget, 'request') : (given as RedisConnection);
+  const settings = resolveQueueSettings(options);
+  const partitions = new Partitions(settings.prefix, options.partitions ?? 1);
+  const queues: Queue[] = openPartitionedQueues(QUEUE_NAMES.results, redis, settings, partitions);
   const now = options.now ?? Date.now;
   return {
     async add(events) {
       const records = Array.isArray(events) ? events : [events];
       const { outcomes, accepted } = validateBatch(records, { now: now(), ...(options.maxAheadMs !== undefined && { maxAheadMs: options.maxAheadMs }) });
-      if (accepted.length > 0) await queue.addBulk(accepted.map((r) => ({ name: 'result', data: r.event })));
+      // Each result goes to its component's partition (one bulk add per partition).
+      const byPartition = new Map<number, typeof accepted>();
+      for (const r of accepted) {
+        const e = r.event as { unit: string; component: string };
+        const p = partitions.of(e);
+        byPartition.set(p, [...(byPartition.get(p) ?? []), r]);
+      }
+      await Promise.all([...byPartition].map(([p, list]) => queues[p]!.addBulk(list.map((r) => ({ name: 'result', data: r.event })))));
       return outcomes;
     },
     async close() {
-      await queue.close();
+      await Promise.all(queues.map((q) => q.close()));
       if (ownConnection) await redis.quit().catch(() => redis.disconnect());
     },
   };

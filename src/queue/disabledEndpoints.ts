@@ -3,7 +3,7 @@
  * wants no more deliveries; the mark is kept in Redis so that every worker process, and every later message,
  * respects it until an operator removes the endpoint from the configuration or clears the mark.
  */
-import type { Redis } from 'ioredis';
+import type { RedisConnection as Redis } from '../redis/connection.ts';
 
 export interface DisabledEndpoints {
   reason(name: string): Promise<string | undefined>;

@@ -3,11 +3,12 @@
  * configuration, a receiver back online). A failed result job keeps its record, so nothing accepted is lost.
  */
 import type { Job } from 'bullmq';
-import type { Redis } from 'ioredis';
+import type { RedisConnection as Redis } from '../redis/connection.ts';
+import { Partitions } from '../redis/keys.ts';
 import { openQueue, QUEUE_NAMES, resolveQueueSettings, type QueueName } from './queues.ts';
 
 export interface FailedJob {
-  /** `queue/id`, the form `wearshift failed retry` takes. */
+  /** `queue/id` (`queue.partition/id` with several partitions), the form `wearshift failed retry` takes. */
   readonly ref: string;
   readonly queue: QueueName;
   readonly id: string;
@@ -33,10 +34,17 @@ function subjectOf(queue: QueueName, data: unknown): string | undefined {
   return text(d.incidentId);
 }
 
-function describe(queue: QueueName, job: Job): FailedJob {
+/** Where the jobs of a queue live: every partition's queue for results and evaluate, the shared one for the others. */
+export function queueLocations(name: QueueName, prefix: string, partitionCount: number): Array<{ label: string; prefix: string }> {
+  const partitions = new Partitions(prefix, partitionCount);
+  if (name === QUEUE_NAMES.notify || name === QUEUE_NAMES.escalate) return [{ label: name, prefix: partitions.sharedTag() }];
+  return partitions.all().map((p) => ({ label: partitionCount === 1 ? name : `${name}.${p}`, prefix: partitions.tag(p) }));
+}
+
+function describe(queue: QueueName, label: string, job: Job): FailedJob {
   const subject = subjectOf(queue, job.data);
   return {
-    ref: `${queue}/${job.id}`,
+    ref: `${label}/${job.id}`,
     queue,
     id: String(job.id),
     name: job.name,
@@ -47,45 +55,51 @@ function describe(queue: QueueName, job: Job): FailedJob {
   };
 }
 
-export async function listFailedJobs(connection: Redis, prefix: string, queues: readonly QueueName[] = ALL_QUEUES, limit = 1000): Promise<FailedJob[]> {
-  const settings = resolveQueueSettings({ prefix });
+export async function listFailedJobs(connection: Redis, prefix: string, queues: readonly QueueName[] = ALL_QUEUES, limit = 1000, partitions = 1): Promise<FailedJob[]> {
   const out: FailedJob[] = [];
   for (const name of queues) {
-    const queue = openQueue(name, connection, settings);
-    try {
-      for (const job of await queue.getFailed(0, limit - 1)) if (job !== undefined) out.push(describe(name, job));
-    } finally {
-      await queue.close();
+    for (const at of queueLocations(name, prefix, partitions)) {
+      const queue = openQueue(name, connection, resolveQueueSettings({ prefix: at.prefix }));
+      try {
+        for (const job of await queue.getFailed(0, limit - 1)) if (job !== undefined) out.push(describe(name, at.label, job));
+      } finally {
+        await queue.close();
+      }
     }
   }
   return out;
 }
 
-/** Retries one failed job (`queue/id`); resolves false when no such failed job exists. */
-export async function retryFailedJob(connection: Redis, prefix: string, queueName: QueueName, id: string): Promise<boolean> {
-  const queue = openQueue(queueName, connection, resolveQueueSettings({ prefix }));
-  try {
-    const job = await queue.getJob(id);
-    if (job === undefined || !(await job.isFailed())) return false;
-    await job.retry('failed');
-    return true;
-  } finally {
-    await queue.close();
+/** Retries one failed job (`queue/id`, or `queue.partition/id`); resolves false when no such failed job exists. */
+export async function retryFailedJob(connection: Redis, prefix: string, queueName: QueueName, id: string, partitions = 1, partition?: number): Promise<boolean> {
+  const locations = queueLocations(queueName, prefix, partitions).filter((_, i) => partition === undefined || i === partition);
+  for (const at of locations) {
+    const queue = openQueue(queueName, connection, resolveQueueSettings({ prefix: at.prefix }));
+    try {
+      const job = await queue.getJob(id);
+      if (job === undefined || !(await job.isFailed())) continue;
+      await job.retry('failed');
+      return true;
+    } finally {
+      await queue.close();
+    }
   }
+  return false;
 }
 
 /** Retries every failed job of the queues; resolves with how many there were. */
-export async function retryAllFailedJobs(connection: Redis, prefix: string, queues: readonly QueueName[] = ALL_QUEUES): Promise<number> {
-  const settings = resolveQueueSettings({ prefix });
+export async function retryAllFailedJobs(connection: Redis, prefix: string, queues: readonly QueueName[] = ALL_QUEUES, partitions = 1): Promise<number> {
   let total = 0;
   for (const name of queues) {
-    const queue = openQueue(name, connection, settings);
-    try {
-      const count = await queue.getFailedCount();
-      if (count > 0) await queue.retryJobs({ state: 'failed', count: 1000 });
-      total += count;
-    } finally {
-      await queue.close();
+    for (const at of queueLocations(name, prefix, partitions)) {
+      const queue = openQueue(name, connection, resolveQueueSettings({ prefix: at.prefix }));
+      try {
+        const count = await queue.getFailedCount();
+        if (count > 0) await queue.retryJobs({ state: 'failed', count: 1000 });
+        total += count;
+      } finally {
+        await queue.close();
+      }
     }
   }
   return total;

@@ -7,7 +7,7 @@
 import { createHash } from 'node:crypto';
 import type { Queue } from 'bullmq';
 import type { IncidentEffect, NotifyEffect } from '../incidents/model.ts';
-import type { RedisIncidentStore } from '../incidents/redisIncidentStore.ts';
+import type { RedisIncidents } from '../redis/redisIncidents.ts';
 import type { Logger } from '../runtime/logger.ts';
 
 export interface EscalateJobData {
@@ -47,7 +47,7 @@ export async function relayEffects(effects: readonly IncidentEffect[], queues: {
   // cancel-escalations needs no job: a delayed check re-reads the incident and finds nothing due.
 }
 
-export function startOutboxRelay(store: RedisIncidentStore, queues: { notify: Queue; escalate: Queue }, logger: Logger, settings: OutboxRelaySettings = {}): OutboxRelay {
+export function startOutboxRelay(store: Pick<RedisIncidents, 'drainOutbox'>, queues: { notify: Queue; escalate: Queue }, logger: Logger, settings: OutboxRelaySettings = {}): OutboxRelay {
   const intervalMs = settings.intervalMs ?? 1000;
   let running: Promise<void> | undefined;
   let again = false;

@@ -1,12 +1,14 @@
 /**
- * The queues and the options their jobs carry. `results` holds lab results as received; `evaluate` holds
- * at most one job per component waiting and one active (BullMQ deduplication), so a burst of results for
- * one component collapses into one evaluation of its whole history.
+ * The queues and the options their jobs carry. `results` holds lab results as received, and `evaluate` the
+ * components to evaluate again (a burst whose results found the component busy, a late result of another unit that
+ * re-judges this one), at most one waiting per component (BullMQ deduplication). Both are partitioned like the
+ * stored state (src/redis/keys.ts): one queue of each per partition, under the partition's hash tag. `notify` and
+ * `escalate` carry messages and escalation checks and are shared.
  */
 import { Queue, type ConnectionOptions, type JobsOptions, type KeepJobs } from 'bullmq';
 import { componentKey } from '../domain/event.ts';
-import type { ComponentRef } from '../storage/storage.ts';
-import { DEFAULT_PREFIX } from '../storage/keys.ts';
+import type { ComponentRef } from '../pipeline/ports.ts';
+import { DEFAULT_PREFIX, Partitions } from '../redis/keys.ts';
 
 export const QUEUE_NAMES = { results: 'results', evaluate: 'evaluate', notify: 'notify', escalate: 'escalate' } as const;
 export type QueueName = (typeof QUEUE_NAMES)[keyof typeof QUEUE_NAMES];
@@ -19,7 +21,7 @@ export interface EvaluateJobData {
 export interface QueueSettings {
   /** BullMQ key prefix, shared with the stored state. Keep a hash tag for Redis Cluster. Default `{wearshift}`. */
   prefix?: string;
-  /** Completed jobs kept for inspection. Default: the last 1000, at most one day old. */
+  /** Completed jobs kept for inspection. Default: the last 100, at most an hour old (they cost Redis memory per result). */
   keepCompleted?: KeepJobs;
   /** Failed jobs kept for `wearshift failed list|retry`. Default: the last 10 000, at most 14 days old. */
   keepFailed?: KeepJobs;
@@ -31,7 +33,7 @@ export interface QueueSettings {
 
 export const QUEUE_DEFAULTS = {
   prefix: DEFAULT_PREFIX,
-  keepCompleted: { age: 24 * 3600, count: 1000 },
+  keepCompleted: { age: 3600, count: 100 },
   keepFailed: { age: 14 * 24 * 3600, count: 10_000 },
   attempts: 5,
   backoffMs: 1000,
@@ -57,17 +59,24 @@ export function openQueue(name: QueueName, connection: ConnectionOptions, settin
   return queue;
 }
 
-/** Results of one component arriving closer together than this are evaluated together. */
-export const DEFAULT_EVALUATE_DEBOUNCE_MS = 250;
+/** The partitioned queues of one kind, by partition. */
+export function openPartitionedQueues(name: 'results' | 'evaluate', connection: ConnectionOptions, settings: Required<QueueSettings>, partitions: Partitions): Queue[] {
+  return partitions.all().map((p) => openQueue(name, connection, { ...settings, prefix: partitions.tag(p) }));
+}
+
+/** The shared queues (notify, escalate) live under their own tag. */
+export function openSharedQueue(name: 'notify' | 'escalate', connection: ConnectionOptions, settings: Required<QueueSettings>, partitions: Partitions): Queue {
+  return openQueue(name, connection, { ...settings, prefix: partitions.sharedTag() });
+}
+
+/** A component that found its evaluation busy is tried again after this wait unless the holder got to it first. */
+export const DEFAULT_EVALUATE_RETRY_MS = 200;
 
 /**
- * Schedules an evaluation of the component `debounceMs` from now. A later result of the same component
- * replaces the scheduled job and starts the wait again (debounce), so a burst — an import, a lab sending a
- * batch — is evaluated once, after its last result is stored, and results processed side by side by several
- * workers are all in the history before the incident engine sees any of them. While an evaluation runs, one
- * more is kept to follow it (keepLastIfActive).
+ * Schedules an evaluation of the component. A later request for the same component while one waits changes
+ * nothing; while an evaluation runs, one more is kept to follow it (keepLastIfActive).
  */
-export async function scheduleEvaluation(queue: Queue, ref: ComponentRef, debounceMs = DEFAULT_EVALUATE_DEBOUNCE_MS): Promise<void> {
+export async function scheduleEvaluation(queue: Queue, ref: ComponentRef, delayMs = 0): Promise<void> {
   const data: EvaluateJobData = { unit: ref.unit, component: ref.component };
-  await queue.add('evaluate', data, { delay: debounceMs, deduplication: { id: componentKey(ref), keepLastIfActive: true, replace: true } });
+  await queue.add('evaluate', data, { delay: delayMs, deduplication: { id: componentKey(ref), keepLastIfActive: true } });
 }

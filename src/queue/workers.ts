@@ -1,42 +1,45 @@
 /**
- * The queue workers of one process. Any number of processes may run them against one Redis: the store is
- * idempotent, evaluations of one component are serialised by a Redis lock, and BullMQ hands every job to one
- * worker at a time (a worker that dies mid-job leaves a stalled job that another worker picks up).
+ * The queue workers of one process. Any number of processes may run them against one Redis or one Redis Cluster:
+ * the store is idempotent, evaluations of one component are serialised by a Redis lock, and BullMQ hands every job
+ * to one worker at a time (a worker that dies mid-job leaves a stalled job that another worker picks up). Results
+ * and evaluations are consumed from every partition's queue; messages and escalation checks from the shared ones.
  */
 import { hostname } from 'node:os';
-import { DelayedError, UnrecoverableError, Worker, type Job } from 'bullmq';
-import type { Redis } from 'ioredis';
+import { UnrecoverableError, Worker, type Processor, type Queue } from 'bullmq';
 import type { Config } from '../domain/config.ts';
-import type { Sample } from '../domain/event.ts';
-import type { LiveEvent } from '../http/eventHub.ts';
-import { incidentEvent } from '../http/eventHub.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
-import type { RedisIncidentStore } from '../incidents/redisIncidentStore.ts';
+import { incidentRules } from '../incidents/policy.ts';
 import { DEFAULT_BACKOFF, delayBeforeNextAttempt } from '../notify/retryTiming.ts';
+import { DEFAULT_CHECKPOINT_EVERY, DEFAULT_LOCK_TTL_MS } from '../pipeline/evaluateStored.ts';
+import type { LiveEvent } from '../pipeline/liveEvent.ts';
+import type { ComponentStore, GroupLedger } from '../pipeline/ports.ts';
+import { Partitions } from '../redis/keys.ts';
+import { RedisIncidents } from '../redis/redisIncidents.ts';
+import { RedisStore, type RedisConnection } from '../redis/redisStore.ts';
 import type { Logger } from '../runtime/logger.ts';
 import type { Metrics } from '../runtime/metrics.ts';
-import { RedisStorage } from '../storage/redisStorage.ts';
-import type { Storage } from '../storage/storage.ts';
-import { DEFAULT_LOCK_TTL_MS, evaluateStored, type EvaluationResult } from './evaluateStored.ts';
-import { incidentChart } from './incidentChart.ts';
-import { incidentMessage } from './incidentMessage.ts';
+import type { EvaluationRunnerDeps } from './evaluationRunner.ts';
 import { DeliveryRetry, type NotificationChannels } from './notificationChannels.ts';
 import { startOutboxRelay, type EscalateJobData } from './outboxRelay.ts';
-import { DEFAULT_EVALUATE_DEBOUNCE_MS, openQueue, QUEUE_NAMES, resolveQueueSettings, scheduleEvaluation, type EvaluateJobData, type QueueSettings } from './queues.ts';
-import { redisIncidentFeed } from './redisIncidentFeed.ts';
-import { InvalidResultError, storeResult } from './storeResult.ts';
+import { escalateProcessor } from './processors/escalateProcessor.ts';
+import { evaluateProcessor } from './processors/evaluateProcessor.ts';
+import { notifyProcessor } from './processors/notifyProcessor.ts';
+import { resultsProcessor } from './processors/resultsProcessor.ts';
+import { DEFAULT_EVALUATE_RETRY_MS, openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from './queues.ts';
 
 export interface WorkerSettings extends QueueSettings {
-  /** Results this process stores at once. Default 8 (mostly waiting on Redis). */
+  /** Key partitions, as configured (`redis.partitions`). Default 1. */
+  partitions?: number;
+  /** Results this process stores (and evaluates, when the component is free) at once, per partition. Default 8. */
   resultsConcurrency?: number;
-  /** Components this process evaluates at once. Default 2 (evaluation is CPU work). */
+  /** Components this process evaluates at once from the evaluate queue, per partition. Default 2. */
   evaluateConcurrency?: number;
   /** Lifetime of a component's evaluation lock, renewed at a third of it. Default 30 000 ms. */
   lockTtlMs?: number;
-  /** Delay before trying again an evaluation whose component another worker is evaluating. Default 500 ms. */
+  /** Delay before trying again an evaluation whose component another worker is evaluating. Default 200 ms. */
   busyRetryMs?: number;
-  /** Wait after a component's latest result before it is evaluated; a further result restarts the wait. Default 250 ms. */
-  evaluateDebounceMs?: number;
+  /** A sparse checkpoint every this many samples of a component. Default 50. */
+  checkpointEvery?: number;
   /** Notifications this process delivers at once. Default 4. */
   notifyConcurrency?: number;
   /** Delivery attempts of one notification (backoff from 5 s, doubling, at most an hour apart). Default 20. */
@@ -46,34 +49,33 @@ export interface WorkerSettings extends QueueSettings {
 }
 
 export const WORKER_DEFAULTS = {
+  partitions: 1,
   resultsConcurrency: 8,
   evaluateConcurrency: 2,
   lockTtlMs: DEFAULT_LOCK_TTL_MS,
-  busyRetryMs: 500,
-  evaluateDebounceMs: DEFAULT_EVALUATE_DEBOUNCE_MS,
+  busyRetryMs: DEFAULT_EVALUATE_RETRY_MS,
+  checkpointEvery: DEFAULT_CHECKPOINT_EVERY,
   notifyConcurrency: 4,
   notifyAttempts: 20,
   outboxIntervalMs: 1000,
 } as const;
 
 export interface WorkerDeps {
-  /** A connection made with `connectRedis(url, 'worker')` (no request retry limit, as BullMQ workers need). */
-  readonly connection: Redis;
+  /** A connection made with `connectRedis(url, 'worker')` (no request retry limit, as BullMQ workers need), or a Cluster. */
+  readonly connection: RedisConnection;
   readonly config: Config;
   readonly logger: Logger;
   readonly metrics?: Metrics;
-  /** The incident store: evaluations feed it, escalation checks run against it, its outbox fills the notify queue. */
-  readonly incidentStore?: RedisIncidentStore;
   /** Channels for the notify queue; without them this process delivers no notifications. */
   readonly channels?: NotificationChannels;
   /** Public address of the HTTP API, for the incident links in messages. */
   readonly apiBaseUrl?: string;
   /** Told about stored results and incident changes, for live views. */
   readonly live?: (event: LiveEvent) => void;
-  /** Default: Redis storage on `connection` with the same prefix. */
-  readonly storage?: Storage;
   /** Processing clock, epoch ms. Default `Date.now`. */
   readonly now?: () => number;
+  /** The store and group ledger. Default: the Redis store on `connection` with the same prefix and partitions. */
+  readonly store?: ComponentStore & GroupLedger;
 }
 
 export interface RunningWorkers {
@@ -86,119 +88,58 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   const queueSettings = resolveQueueSettings(settings);
   const s = { ...WORKER_DEFAULTS, ...settings };
   const now = deps.now ?? Date.now;
-  const storage = deps.storage ?? new RedisStorage(deps.connection, { prefix: queueSettings.prefix });
-  const evaluateQueue = openQueue(QUEUE_NAMES.evaluate, deps.connection, queueSettings);
-  const { logger, metrics, incidentStore } = deps;
-  const workerOptions = {
+  const partitions = new Partitions(queueSettings.prefix, s.partitions);
+  const { logger, metrics } = deps;
+  const store = deps.store ?? new RedisStore(deps.connection, { prefix: queueSettings.prefix, partitions: s.partitions, config: deps.config });
+  const incidents = new RedisIncidents(deps.connection, { rules: incidentRules(deps.config), prefix: queueSettings.prefix, partitions: s.partitions });
+  const evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, deps.connection, queueSettings, partitions);
+  const notifyQueue = openSharedQueue(QUEUE_NAMES.notify, deps.connection, { ...queueSettings, attempts: s.notifyAttempts }, partitions);
+  const escalateQueue = openSharedQueue(QUEUE_NAMES.escalate, deps.connection, queueSettings, partitions);
+  const relay = startOutboxRelay(incidents, { notify: notifyQueue, escalate: escalateQueue }, logger, { intervalMs: s.outboxIntervalMs });
+  const name = `${hostname()}:${process.pid}`;
+  const options = (prefix: string, concurrency: number) => ({
     connection: deps.connection,
-    prefix: queueSettings.prefix,
+    prefix,
     removeOnComplete: queueSettings.keepCompleted,
     removeOnFail: queueSettings.keepFailed,
     // Stored on every job this process handles, so that an operator can tell which process did what.
-    name: `${hostname()}:${process.pid}`,
+    name,
+    concurrency,
+  });
+  const runner: EvaluationRunnerDeps = {
+    store,
+    ledger: store,
+    config: deps.config,
+    rules: incidentRules(deps.config),
+    now,
+    lockTtlMs: s.lockTtlMs,
+    checkpointEvery: s.checkpointEvery,
+    partitions,
+    evaluateQueues,
+    logger,
+    ...(metrics && { metrics }),
+    ...(deps.live && { live: deps.live }),
+    onEffects: () => relay.kick(),
   };
-  const incidents = incidentStore && redisIncidentFeed(incidentStore);
-  const notifyQueue = incidentStore && openQueue(QUEUE_NAMES.notify, deps.connection, { ...queueSettings, attempts: s.notifyAttempts });
-  const escalateQueue = incidentStore && openQueue(QUEUE_NAMES.escalate, deps.connection, queueSettings);
-  const relay = incidentStore && startOutboxRelay(incidentStore, { notify: notifyQueue!, escalate: escalateQueue! }, logger, { intervalMs: s.outboxIntervalMs });
 
-  const results = new Worker(
-    QUEUE_NAMES.results,
-    async (job: Job) => {
-      let stored;
-      try {
-        stored = await storeResult(storage, deps.config, job.data, now());
-      } catch (e) {
-        if (e instanceof InvalidResultError) {
-          metrics?.rejected('queue', e.issues);
-          throw new UnrecoverableError(e.message);
-        }
-        throw e;
-      }
-      metrics?.stored(stored.outcome.status);
-      if (stored.outcome.evaluationDue) await scheduleEvaluation(evaluateQueue, stored.sample, s.evaluateDebounceMs);
-      const { sample } = stored;
-      if (stored.outcome.status === 'new' || stored.outcome.status === 'replacement') {
-        deps.live?.({ type: 'result', unit: sample.unit, component: sample.component, sampleId: sample.sampleId, sampledAt: sample.sampledAt });
-      }
-      return { sampleId: sample.sampleId, revision: sample.revision, unit: sample.unit, component: sample.component, status: stored.outcome.status };
-    },
-    { ...workerOptions, concurrency: s.resultsConcurrency },
-  );
-
-  const evaluate = new Worker(
-    QUEUE_NAMES.evaluate,
-    async (job: Job, token?: string) => {
-      const ref = evaluateJobData(job.data);
-      const result: EvaluationResult = await evaluateStored({ storage, config: deps.config, now, lockTtlMs: s.lockTtlMs, ...(incidents && { incidents }) }, ref);
-      if (result.kind === 'busy' || result.kind === 'lost-lock') {
-        // Another worker holds the component: come back shortly and evaluate whatever has arrived by then.
-        await job.moveToDelayed(Date.now() + s.busyRetryMs, token);
-        throw new DelayedError();
-      }
-      if (result.kind === 'empty') return { kind: 'empty' };
-      metrics?.evaluated(result.durationMs / 1000, 'evaluated');
-      metrics?.findings(result.newFindings);
-      for (const change of result.incidents.changes) deps.live?.(incidentEvent(change));
-      if (result.incidents.effects.length > 0) relay?.kick();
-      return {
-        kind: 'evaluated',
-        fed: result.fed.map((st) => st.sampleId),
-        newFindings: result.newFindings.length,
-        incidentChanges: result.incidents.changes.length,
-        durationMs: Math.round(result.durationMs),
-      };
-    },
-    { ...workerOptions, concurrency: s.evaluateConcurrency },
-  );
-
-  const workers: Worker[] = [results, evaluate] as Worker[];
-
-  if (incidentStore !== undefined) {
-    workers.push(
-      new Worker(
-        QUEUE_NAMES.escalate,
-        async (job: Job<EscalateJobData>) => {
-          const { effects } = await incidentStore.applyEscalationCheck({ incidentId: job.data.incidentId, now: new Date(now()) });
-          if (effects.length > 0) relay!.kick();
-          return { effects: effects.length };
-        },
-        { ...workerOptions, concurrency: s.notifyConcurrency },
-      ),
-    );
+  const workers: Worker[] = [];
+  for (const p of partitions.all()) {
+    const prefix = partitions.tag(p);
+    workers.push(new Worker(QUEUE_NAMES.results, resultsProcessor(runner, s.busyRetryMs), options(prefix, s.resultsConcurrency)));
+    workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs), options(prefix, s.evaluateConcurrency)));
   }
-
+  workers.push(new Worker(QUEUE_NAMES.escalate, escalateProcessor(incidents, now, () => relay.kick()) as Processor, options(partitions.sharedTag(), s.notifyConcurrency)));
   const channels = deps.channels;
-  // The chart is a help, not the message: a history it cannot draw sends the mail without it.
-  const emailChart = async (effect: NotifyEffect, revisions: readonly Sample[]) => {
-    try {
-      return await incidentChart(storage, deps.config, effect, revisions);
-    } catch (e) {
-      logger.warn({ incidentId: effect.incidentId, err: (e as Error).message }, 'incident e-mail sent without its trend chart');
-      return undefined;
-    }
-  };
-  if (incidentStore !== undefined && channels !== undefined) {
-    const apiBaseUrl = deps.apiBaseUrl ?? 'http://localhost:8080';
+  if (channels !== undefined) {
     workers.push(
-      new Worker(
-        QUEUE_NAMES.notify,
-        async (job: Job<NotifyEffect>) => {
-          const effect = job.data;
-          const revisions = await storage.revisions(effect.incident);
-          const chart = effect.channel === 'email' ? await emailChart(effect, revisions) : undefined;
-          return channels.deliver(effect, incidentMessage(effect, revisions, apiBaseUrl), job.attemptsMade + 1, chart);
+      new Worker(QUEUE_NAMES.notify, notifyProcessor({ store, ledger: store, config: deps.config, channels, apiBaseUrl: deps.apiBaseUrl ?? 'http://localhost:8080', logger }) as Processor, {
+        ...options(partitions.sharedTag(), s.notifyConcurrency),
+        settings: {
+          // The receiver's Retry-After wins; otherwise exponential backoff with full jitter.
+          backoffStrategy: (attemptsMade: number, _type?: string, err?: Error) =>
+            delayBeforeNextAttempt({ attempt: Math.max(1, attemptsMade), ...(err instanceof DeliveryRetry && err.retryAfterMs !== undefined && { retryAfterMs: err.retryAfterMs }) }, DEFAULT_BACKOFF, Math.random),
         },
-        {
-          ...workerOptions,
-          concurrency: s.notifyConcurrency,
-          settings: {
-            // The receiver's Retry-After wins; otherwise exponential backoff with full jitter.
-            backoffStrategy: (attemptsMade: number, _type?: string, err?: Error) =>
-              delayBeforeNextAttempt({ attempt: Math.max(1, attemptsMade), ...(err instanceof DeliveryRetry && err.retryAfterMs !== undefined && { retryAfterMs: err.retryAfterMs }) }, DEFAULT_BACKOFF, Math.random),
-          },
-        },
-      ),
+      }),
     );
   }
 
@@ -221,17 +162,11 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
     workers,
     async close() {
       await Promise.all(workers.map((w) => w.close()));
-      await relay?.close();
-      await Promise.all([evaluateQueue.close(), notifyQueue?.close(), escalateQueue?.close()]);
+      await relay.close();
+      await Promise.all([...evaluateQueues, notifyQueue, escalateQueue].map((q: Queue) => q.close()));
       await channels?.close();
     },
   };
 }
 
-function evaluateJobData(data: unknown): EvaluateJobData {
-  const d = data as Partial<EvaluateJobData> | null;
-  if (typeof d?.unit !== 'string' || typeof d.component !== 'string') {
-    throw new UnrecoverableError('evaluate job: data must be {"unit": string, "component": string}');
-  }
-  return { unit: d.unit, component: d.component };
-}
+export type { NotifyEffect, EscalateJobData };

@@ -3,7 +3,7 @@
  * receives into its in-memory hub (src/http/eventHub.ts). Pub/sub is fire-and-forget, which suits events that
  * only refresh a view: a board that missed one reloads the incident list when it reconnects.
  */
-import type { Redis } from 'ioredis';
+import type { RedisConnection as Redis } from '../redis/connection.ts';
 import type { EventHub, LiveEvent } from '../http/eventHub.ts';
 import type { Logger } from './logger.ts';
 

@@ -4,22 +4,22 @@
  * ones finish, then close HTTP, then the Redis connections.
  */
 import type { Queue } from 'bullmq';
-import type { Redis } from 'ioredis';
 import type { Config } from '../domain/config.ts';
 import { createEventHub } from '../http/eventHub.ts';
 import { buildServer } from '../http/server.ts';
-import { RedisIncidentStore } from '../incidents/redisIncidentStore.ts';
 import { incidentRules } from '../incidents/policy.ts';
 import { createResultProducer } from '../intake/producer.ts';
 import { redisDisabledEndpoints } from '../queue/disabledEndpoints.ts';
 import { notificationChannels } from '../queue/notificationChannels.ts';
-import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../queue/queues.ts';
+import { openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings } from '../queue/queues.ts';
+import { Partitions } from '../redis/keys.ts';
 import { startWorkers, type WorkerSettings } from '../queue/workers.ts';
-import { RedisStorage } from '../storage/redisStorage.ts';
+import { RedisIncidents } from '../redis/redisIncidents.ts';
+import { RedisStore } from '../redis/redisStore.ts';
 import { bridgeLiveEvents, livePublisher } from './liveBridge.ts';
-import { maskUrl, type Logger } from './logger.ts';
+import type { Logger } from './logger.ts';
 import { createMetrics } from './metrics.ts';
-import { checkEvictionPolicy, connectRedis, redisUrl } from './redis.ts';
+import { checkEvictionPolicy, connectRedis, describeTarget, redisTarget, type RedisConnection } from '../redis/connection.ts';
 import { closeAll, DEFAULT_SHUTDOWN_TIMEOUT_MS, type Closer } from './shutdown.ts';
 
 export interface ServiceOptions {
@@ -62,12 +62,13 @@ export async function startServices(options: ServiceOptions): Promise<RunningSer
 async function start(options: ServiceOptions, started: Closer[][]): Promise<RunningServices> {
   const { config, logger } = options;
   const env = options.env ?? process.env;
-  const url = redisUrl(config, env);
+  const target = redisTarget(config, env);
+  const partitionCount = config.redis.partitions;
   const prefix = config.redis.prefix;
   const port = options.port ?? DEFAULT_PORT;
   const stopWorkers: Closer[] = [];
   const stopHttp: Closer[] = [];
-  const connections: Redis[] = [];
+  const connections: RedisConnection[] = [];
   const stopQueues: Closer[] = [];
   const stopRedis: Closer[] = [
     {
@@ -79,26 +80,39 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
     },
   ];
   started.push(stopWorkers, stopHttp, stopQueues, stopRedis);
-  logger.info({ redis: maskUrl(url), prefix, workers: options.workers, http: options.http }, 'starting');
+  logger.info({ redis: describeTarget(target), prefix, partitions: partitionCount, workers: options.workers, http: options.http }, 'starting');
 
   // Requests fail fast while Redis is away; workers wait for it.
-  const request = connectRedis(url, 'request', logger);
+  const request = connectRedis(target, 'request', logger);
   connections.push(request);
   request.once('ready', () => void checkEvictionPolicy(request, logger));
   const metrics = createMetrics();
   const queueSettings = resolveQueueSettings({ ...options.workerSettings, prefix });
-  const counted: Queue[] = Object.values(QUEUE_NAMES).map((name) => openQueue(name, request, queueSettings));
-  stopQueues.push({ name: 'queues', close: () => Promise.all(counted.map((q) => q.close())) });
+  const partitions = new Partitions(prefix, partitionCount);
+  const counted: Array<readonly [string, Queue[]]> = [
+    [QUEUE_NAMES.results, openPartitionedQueues(QUEUE_NAMES.results, request, queueSettings, partitions)],
+    [QUEUE_NAMES.evaluate, openPartitionedQueues(QUEUE_NAMES.evaluate, request, queueSettings, partitions)],
+    [QUEUE_NAMES.notify, [openSharedQueue(QUEUE_NAMES.notify, request, queueSettings, partitions)]],
+    [QUEUE_NAMES.escalate, [openSharedQueue(QUEUE_NAMES.escalate, request, queueSettings, partitions)]],
+  ];
+  stopQueues.push({ name: 'queues', close: () => Promise.all(counted.flatMap(([, qs]) => qs.map((q) => q.close()))) });
   metrics.watchQueues(async () => {
-    const entries = await Promise.all(counted.map(async (q) => [q.name, await q.getJobCounts('waiting', 'active', 'delayed', 'prioritized', 'failed')] as const));
+    const states = ['waiting', 'active', 'delayed', 'prioritized', 'failed'] as const;
+    const entries = await Promise.all(
+      counted.map(async ([name, qs]) => {
+        const counts = await Promise.all(qs.map((q) => q.getJobCounts(...states)));
+        const total: Record<string, number> = {};
+        for (const c of counts) for (const [k, v] of Object.entries(c)) total[k] = (total[k] ?? 0) + v;
+        return [name, total] as const;
+      }),
+    );
     return Object.fromEntries(entries);
   });
   const apiBaseUrl = config.channels.ackLinks?.baseUrl ?? `http://localhost:${port}`;
 
   if (options.workers) {
-    const connection = connectRedis(url, 'worker', logger);
+    const connection = connectRedis(target, 'worker', logger);
     connections.push(connection);
-    const incidentStore = new RedisIncidentStore(connection, { rules: incidentRules(config), prefix });
     const hasChannels = config.channels.email !== undefined || config.channels.webhooks.length > 0 || config.channels.mqtt.length > 0;
     if (hasChannels && config.channels.ackLinks === undefined) logger.warn(`messages will link to ${apiBaseUrl}; set channels.ackLinks.baseUrl to the public address of the API`);
     const workers = startWorkers(
@@ -107,12 +121,11 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
         config,
         logger,
         metrics,
-        incidentStore,
         ...(hasChannels && { channels: notificationChannels(config.channels, { logger, env, disabledEndpoints: redisDisabledEndpoints(connection, prefix) }) }),
         apiBaseUrl,
         live: livePublisher(connection, prefix, logger),
       },
-      { ...options.workerSettings, prefix },
+      { ...options.workerSettings, prefix, partitions: partitionCount },
     );
     stopWorkers.push({ name: 'queue workers', close: () => workers.close() });
   }
@@ -122,9 +135,9 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
     const ping = () => request.ping();
     let server;
     if (options.http) {
-      const producer = createResultProducer({ connection: request, prefix });
+      const producer = createResultProducer({ connection: request, prefix, partitions: partitionCount });
       const hub = createEventHub();
-      const subscriber = connectRedis(url, 'worker', logger);
+      const subscriber = connectRedis(target, 'worker', logger);
       connections.push(subscriber);
       subscriber.once('ready', () => void bridgeLiveEvents(subscriber, prefix, hub, logger).catch((e: Error) => logger.warn({ err: e.message }, 'live events unavailable')));
       const ackSecretEnv = config.channels.ackLinks?.secretEnv;
@@ -134,8 +147,11 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
         metrics,
         ping,
         producer,
-        incidents: new RedisIncidentStore(request, { rules: incidentRules(config), prefix }),
-        histories: { storage: new RedisStorage(request, { prefix }), config },
+        incidents: new RedisIncidents(request, { rules: incidentRules(config), prefix, partitions: partitionCount }),
+        histories: (() => {
+          const store = new RedisStore(request, { prefix, partitions: partitionCount, config });
+          return { store, ledger: store, config };
+        })(),
         hub,
         ackLinkSecrets,
         announce: livePublisher(request, prefix, logger),

@@ -17,7 +17,7 @@ import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/qu
 import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
 import { silentLogger } from '../../src/runtime/logger.ts';
 import { createMetrics } from '../../src/runtime/metrics.ts';
-import { RedisStorage } from '../../src/storage/redisStorage.ts';
+import { RedisStore } from '../../src/redis/redisStore.ts';
 import { drained } from '../helpers/queueDrain.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
@@ -31,7 +31,7 @@ let app: WearshiftServer;
 let producer: ResultProducer;
 let workers: RunningWorkers;
 let queues: Queue[];
-let storage: RedisStorage;
+let storage: RedisStore;
 const saved = { ...process.env };
 
 beforeAll(async () => {
@@ -40,7 +40,7 @@ beforeAll(async () => {
   process.env.WEARSHIFT_TOKEN_INGEST = INGEST;
   const config = parseConfig(`redis: { prefix: "${prefix}" }`);
   producer = createResultProducer({ connection: client, prefix });
-  storage = new RedisStorage(client, { prefix });
+  storage = new RedisStore(client, { prefix });
   workers = startWorkers({ connection: client, config, logger: silentLogger() }, { prefix });
   const settings = resolveQueueSettings({ prefix });
   queues = [openQueue(QUEUE_NAMES.results, client, settings), openQueue(QUEUE_NAMES.evaluate, client, settings)];
@@ -82,7 +82,7 @@ const post = (payload: string, contentType = 'application/json') =>
 async function storedIds(): Promise<Set<string>> {
   await drained(queues);
   const all = await Promise.all((await storage.components()).map((c) => storage.revisions(c)));
-  return new Set(all.flat().map((s) => s.sampleId));
+  return new Set(all.flat().map((s) => s.sample.sampleId));
 }
 
 /** Sends `bad` between two valid records; expects 202, the bad one rejected at `path` for `reason`, both valid ones stored. */
@@ -235,6 +235,6 @@ describe('component identity', () => {
     expect(outcomes[0]!.errors).toEqual([{ path: 'component', reason: expect.stringMatching(/may not contain "\/"/) }]);
     expect(outcomes[1]!.errors).toEqual([{ path: 'unit', reason: expect.stringMatching(/may not contain "\/"/) }]);
     await drained(queues);
-    expect((await storage.revisions({ unit: 'Line 2 Pump 3', component: 'gearbox' })).map((s) => s.sampleId)).toEqual([c.sampleId]);
+    expect((await storage.revisions({ unit: 'Line 2 Pump 3', component: 'gearbox' })).map((s) => s.sample.sampleId)).toEqual([c.sampleId]);
   });
 });

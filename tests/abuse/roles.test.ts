@@ -12,13 +12,13 @@ import { parseConfig } from '../../src/domain/configFile.ts';
 import { createEventHub } from '../../src/http/eventHub.ts';
 import { buildServer, type WearshiftServer } from '../../src/http/server.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
-import { RedisIncidentStore } from '../../src/incidents/redisIncidentStore.ts';
+import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
 import { createResultProducer, type ResultProducer } from '../../src/intake/producer.ts';
 import { signAckLink } from '../../src/notify/ackLink.ts';
-import { storeResult } from '../../src/queue/storeResult.ts';
+import { storeResult } from '../../src/pipeline/storeResult.ts';
 import { silentLogger } from '../../src/runtime/logger.ts';
 import { createMetrics } from '../../src/runtime/metrics.ts';
-import { RedisStorage } from '../../src/storage/redisStorage.ts';
+import { RedisStore } from '../../src/redis/redisStore.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const prefix = '{roles}';
@@ -44,13 +44,13 @@ beforeAll(async () => {
   const config = parseConfig(`redis: { prefix: "${prefix}" }`);
   const incidents = new RedisIncidentStore(client, { rules: incidentRules(config), prefix });
   store = incidents;
-  const storage = new RedisStorage(client, { prefix });
+  const storage = new RedisStore(client, { prefix, config });
   const sampledAt = new Date(Date.now() - 86_400_000).toISOString();
   await storeResult(storage, config, { sampleId: 'LAB-0100', unit: UNIT, component: COMPONENT, sampledAt, oilHours: 250, readings: { Fe: 80 } }, Date.now());
   const step: Step = {
     sampleId: 'LAB-0100',
     sampledAt,
-    findings: [{ unit: UNIT, component: COMPONENT, group: COMPONENT, measurand: 'Fe', rule: 'limit', severity: 'alarm', value: 80, threshold: 70, basis: 'reading', sampleId: 'LAB-0100', sampledAt, explanation: 'Fe 80 ppm is above the alarm level of 70 ppm.' }],
+    findings: [{ unit: UNIT, component: COMPONENT, group: COMPONENT, measurand: 'Fe', rule: 'limit', disposition: 'incident', severity: 'alarm', value: 80, threshold: 70, basis: 'reading', sampleId: 'LAB-0100', sampledAt, explanation: 'Fe 80 ppm is above the alarm level of 70 ppm.' }],
   };
   await incidents.applySteps({ unit: UNIT, component: COMPONENT }, [step], { group: COMPONENT, now: new Date(), quietBefore: new Date(0) });
   expect(await incidents.get(ID)).toBeDefined();
@@ -70,7 +70,7 @@ beforeAll(async () => {
     ping: () => client.ping(),
     producer,
     incidents,
-    histories: { storage, config },
+    histories: { store: storage, ledger: storage, config },
     hub: createEventHub(),
     ackLinkSecrets: [ACK_SECRET],
   });

@@ -113,8 +113,9 @@ describe('wearshift backtest', () => {
   if (!HAVE_CHROMIUM) it.skip(`browser check skipped: no Chromium at ${CHROMIUM} (apt-get install -y chromium)`, () => {});
 
   it('designs h and L from a budget as wearshift design does for the same target', async () => {
-    // Fe watched by EWMA and CUSUM: two charts share the component's budget; samples every 250 h (the configured default).
-    const common = ['--budget', BUDGET, '--every', '250', '--charts', '2', '--json'];
+    // Fe watched by EWMA and CUSUM: two charts share the change detectors' part of the component's budget (0.8: the
+    // comparison with peers takes the rest), each designed on its upper side; samples every 250 h (the configured default).
+    const common = ['--budget', BUDGET, '--every', '250', '--charts', '2', '--share', '0.8', '--sided', 'one', '--json'];
     const [bt, plain, cusumRun, ewmaRun] = await Promise.all([
       runCli(['backtest', file('fleet.jsonl'), '--config', file('config.yaml'), '--budget', BUDGET, '--json', ...NOW]),
       runCli(['backtest', file('fleet.jsonl'), '--config', file('config.yaml'), '--json', ...NOW]),

@@ -9,13 +9,15 @@ import { loadConfig } from '../../src/domain/configFile.ts';
 import { componentKey, parseResultEvent, type Sample } from '../../src/domain/event.ts';
 import { resolveSettings } from '../../src/domain/settings.ts';
 import { boardRoutes } from '../../src/http/boardRoutes.ts';
-import { announcingActions, createEventHub, incidentEvent, type EventHub } from '../../src/http/eventHub.ts';
+import { announcingActions, createEventHub, type EventHub } from '../../src/http/eventHub.ts';
+import { incidentEvent } from '../../src/pipeline/liveEvent.ts';
+import { viewOf } from '../../src/pipeline/componentView.ts';
 import { eventRoutes } from '../../src/http/eventRoutes.ts';
 import { incidentRoutes } from '../../src/http/incidentRoutes.ts';
 import { seriesRoutes } from '../../src/http/seriesRoutes.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
-import { RedisIncidentStore } from '../../src/incidents/redisIncidentStore.ts';
-import { incidentChanges } from '../../src/queue/incidentChanges.ts';
+import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
+import { incidentChanges } from '../../src/pipeline/incidentChanges.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 export const TOKENS = { viewer: 'board-viewer-token', responder: 'board-responder-token' };
@@ -53,7 +55,9 @@ export async function startBoardFixture(components: readonly [string, string][])
   await app.register(seriesRoutes, {
     loadComponent: async (unit, component) => {
       const list = samples.get(componentKey({ unit, component }));
-      return list === undefined ? undefined : { samples: list, settings: resolveSettings(config, list[0]!) };
+      if (list === undefined) return undefined;
+      const settings = resolveSettings(config, list[0]!);
+      return viewOf({ unit, component, group: settings.group, samples: list.length, lastSampledAt: list.at(-1)!.sampledAt }, settings, list, () => undefined);
     },
   });
   await app.register(eventRoutes, { hub });

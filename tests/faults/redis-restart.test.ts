@@ -93,7 +93,7 @@ describe('Redis restarted mid-stream', () => {
     expect((await send('RS-3')).status).toBe(202);
     const ref = { unit: 'LS90-Marsh Lane', component: 'gearbox' };
     await waitFor('RS-1 and RS-3 stored', async () => ((await scenario.storage.component(ref))?.samples ?? 0) >= 2, 30_000, 100);
-    expect((await scenario.storage.revisions(ref)).map((r) => r.sampleId).sort()).toEqual(['RS-1', 'RS-3']);
+    expect((await scenario.storage.revisions(ref)).map((r) => r.sample.sampleId).sort()).toEqual(['RS-1', 'RS-3']);
     expect(await serve.stop()).toBe(0);
   });
 });

@@ -13,9 +13,9 @@ import type { Config } from '../../src/domain/config.ts';
 import type { ResultEvent } from '../../src/domain/event.ts';
 import type { Incident } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
-import { RedisIncidentStore } from '../../src/incidents/redisIncidentStore.ts';
+import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
 import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
-import { RedisStorage } from '../../src/storage/redisStorage.ts';
+import { RedisStore } from '../../src/redis/redisStore.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { FLEET_CONFIG } from '../helpers/fleetCsv.ts';
 import { waitFor } from '../helpers/processes.ts';
@@ -36,7 +36,7 @@ export interface Scenario {
   /** A client of the private Redis that waits through an outage. */
   readonly client: Redis;
   readonly config: Config;
-  readonly storage: RedisStorage;
+  readonly storage: RedisStore;
   readonly incidents: RedisIncidentStore;
   readonly queues: Record<keyof typeof QUEUE_NAMES, Queue>;
   /** Environment of a worker child, with the webhook secret under WEBHOOK_SECRET. */
@@ -90,7 +90,7 @@ export async function startScenario(options: ScenarioOptions): Promise<Scenario>
     redis,
     client,
     config,
-    storage: new RedisStorage(client, { prefix: PREFIX }),
+    storage: new RedisStore(client, { prefix: PREFIX, config }),
     incidents: new RedisIncidentStore(client, { rules: incidentRules(config), prefix: PREFIX }),
     queues,
     env: (webhookSecret) => ({ REDIS_URL: redis.url, WEARSHIFT_CONFIG: configFile, ...(webhookSecret !== undefined && { WEBHOOK_SECRET: webhookSecret }) }),
@@ -143,12 +143,11 @@ export interface ToldOnce {
   readonly byChannel: { email: string[]; webhook: string[] };
 }
 
-/** The notifications the incident timelines record (the effect keys, which are the messages' idempotency keys). */
+/** The notifications the incidents record (the effect keys, which are the messages' idempotency keys). */
 export function recordedNotifications(incidents: readonly Incident[]): ToldOnce {
   const keys: string[] = [];
   for (const inc of incidents) {
-    for (const entry of inc.timeline) {
-      if (entry.kind !== 'notified') continue;
+    for (const entry of inc.notifications) {
       for (const target of entry.targets) {
         const [channel, ...rest] = target.split(':');
         keys.push(`${inc.id}:${entry.eventSeq}:${channel}:${entry.tier}:${rest.join(':')}`);
@@ -178,7 +177,7 @@ export async function storageAgainst(s: Scenario, sent: readonly ResultEvent[]):
   for (const c of await s.storage.components()) {
     const key = `${c.unit}/${c.component}`;
     const revisions = await s.storage.revisions(c);
-    out.push({ component: key, sent: byComponent.get(key)?.size ?? 0, stored: new Set(revisions.map((r) => r.sampleId)).size, revisions: revisions.length, registry: c.samples });
+    out.push({ component: key, sent: byComponent.get(key)?.size ?? 0, stored: new Set(revisions.map((r) => r.sample.sampleId)).size, revisions: revisions.length, registry: c.samples });
   }
   return out.sort((a, b) => (a.component < b.component ? -1 : 1));
 }

@@ -76,7 +76,7 @@ describe.skipIf(!redisServerAvailable())('wearshift demo', () => {
     // The fault is a wear-rate step: a change detector or the rate rule, not a level, should speak first.
     expect(['cusum', 'ewma', 'rate', 'population']).toContain(gearbox.earliest!.rule);
     expect(gearbox.samplesAhead).toBeGreaterThan(0);
-    expect(formatTimeline(gearbox)).toMatch(/^Fe (cusum|ewma|rate|population) .* → caught \d+ samples? \(\d+ days\) before the fixed limit$/);
+    expect(formatTimeline(gearbox)).toMatch(/^Fe (CUSUM|EWMA|rate limit|group limit) .* → caught \d+ samples? \(\d+ days\) before the fixed limit$/);
     // The healthy gearboxes never reach a fixed limit.
     for (const t of report.timelines.filter((x) => x.component === 'gearbox' && x.unit !== 'PS2-P3')) expect(t.fixedLimit).toBeUndefined();
   });

@@ -8,7 +8,7 @@ import { createResultProducer, type ResultProducer } from '../../src/intake/prod
 import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
 import { silentLogger } from '../../src/runtime/logger.ts';
 import { createMetrics } from '../../src/runtime/metrics.ts';
-import { connectRedis } from '../../src/runtime/redis.ts';
+import { connectRedis } from '../../src/redis/connection.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const INGEST = 'ingest-token-5f2c9a';

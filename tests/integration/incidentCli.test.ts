@@ -8,7 +8,7 @@ import { main } from '../../src/cli/main.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import type { Severity } from '../../src/domain/finding.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
-import { RedisIncidentStore } from '../../src/incidents/redisIncidentStore.ts';
+import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 let server: RedisServer;
@@ -22,7 +22,7 @@ function step(unit: string, n: number, severity: Severity): Step {
   return {
     sampleId,
     sampledAt,
-    findings: [{ unit, component: 'engine', group: 'engines', measurand: 'Fe', rule: 'limit', severity, value: 120, threshold: 100, basis: 'reading', sampleId, sampledAt, explanation: 'Fe above its caution limit' }],
+    findings: [{ unit, component: 'engine', group: 'engines', measurand: 'Fe', rule: 'limit', disposition: 'incident', severity, value: 120, threshold: 100, basis: 'reading', sampleId, sampledAt, explanation: 'Fe above its caution limit' }],
   };
 }
 

@@ -5,7 +5,7 @@ import type { Step } from '../../src/analysis/model.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import { incidentRoutes } from '../../src/http/incidentRoutes.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
-import { RedisIncidentStore } from '../../src/incidents/redisIncidentStore.ts';
+import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const NOW = new Date('2026-04-02T10:00:00Z');
@@ -26,7 +26,7 @@ beforeAll(async () => {
     sampleId: 'LAB-0100',
     sampledAt: '2026-04-01T08:00:00Z',
     findings: [
-      { unit: 'PS2-P3', component: 'gearbox', group: 'gearboxes', measurand: 'Fe', rule: 'cusum', severity: 'alarm', value: 7, threshold: 5, basis: 'cusum', direction: 'up', sampleId: 'LAB-0100', sampledAt: '2026-04-01T08:00:00Z', explanation: 'Fe wear rate shifted up' },
+      { unit: 'PS2-P3', component: 'gearbox', group: 'gearboxes', measurand: 'Fe', rule: 'cusum', disposition: 'incident', severity: 'alarm', value: 7, threshold: 5, basis: 'cusum', direction: 'up', sampleId: 'LAB-0100', sampledAt: '2026-04-01T08:00:00Z', explanation: 'Fe wear rate shifted up' },
     ],
   };
   await store.applySteps({ unit: 'PS2-P3', component: 'gearbox' }, [step], { group: 'gearboxes', now: NOW, quietBefore: new Date(0) });
@@ -95,7 +95,7 @@ describe('incident routes', () => {
   it('acknowledges, shelves, resolves; acting on a closed incident is a 409', async () => {
     const ack = await app.inject({ method: 'POST', url: `${PATH}/ack`, headers: auth('resp-1'), payload: { by: 'R. Tanaka', note: 'on my way' } });
     expect(ack.statusCode).toBe(200);
-    expect(ack.json().incident.acknowledged).toEqual({ by: 'R. Tanaka', at: NOW.toISOString(), note: 'on my way' });
+    expect(ack.json().incident.acknowledged).toEqual({ by: 'R. Tanaka', at: NOW.toISOString(), note: 'on my way', severity: 'alarm', measurands: ['Fe'] });
     const shelve = await app.inject({ method: 'POST', url: `${PATH}/shelve`, headers: auth('resp-1'), payload: { by: 'R. Tanaka', reason: 'oil change booked', until: '2026-04-03T10:00:00Z' } });
     expect(shelve.json().incident.shelved).toMatchObject({ until: '2026-04-03T10:00:00.000Z', reason: 'oil change booked' });
     const resolve = await app.inject({ method: 'POST', url: `${PATH}/resolve`, headers: auth('resp-1'), payload: { by: 'R. Tanaka', note: 'bearing replaced' } });

@@ -8,7 +8,7 @@ import { IncidentConflictError, IncidentNotFoundError } from '../../src/incident
 import { IncidentFilterSchema } from '../../src/incidents/listFilter.ts';
 import type { IncidentEffect } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
-import { RedisIncidentStore } from '../../src/incidents/redisIncidentStore.ts';
+import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const RULES = incidentRules(
@@ -29,7 +29,7 @@ function step(unit: string, component: string, n: number, ...f: [Finding['measur
   return {
     sampleId,
     sampledAt,
-    findings: f.map(([measurand, severity]) => ({ unit, component, group: 'engines', measurand, rule: 'limit', severity, value: 1, basis: 'reading', sampleId, sampledAt, explanation: `${measurand} high` })),
+    findings: f.map(([measurand, severity]) => ({ unit, component, group: 'engines', measurand, rule: 'limit', disposition: 'incident', severity, value: 1, basis: 'reading', sampleId, sampledAt, explanation: `${measurand} high` })),
   };
 }
 

@@ -14,7 +14,7 @@ import { Webhook } from 'standardwebhooks';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
-import { RedisIncidentStore } from '../../src/incidents/redisIncidentStore.ts';
+import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
 import { createResultProducer } from '../../src/intake/producer.ts';
 import { notificationChannels } from '../../src/queue/notificationChannels.ts';
 import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
@@ -101,7 +101,7 @@ channels:
   const connection = redis.client();
   store = new RedisIncidentStore(connection, { rules: incidentRules(config), prefix });
   workers = startWorkers(
-    { connection, config, logger: silentLogger(), incidentStore: store, channels: notificationChannels(config.channels, { logger: silentLogger(), env }), apiBaseUrl: 'https://wearshift.waterworks.example' },
+    { connection, config, logger: silentLogger(), channels: notificationChannels(config.channels, { logger: silentLogger(), env }), apiBaseUrl: 'https://wearshift.waterworks.example' },
     { prefix, outboxIntervalMs: 200 },
   );
 });

@@ -3,15 +3,18 @@
  * least once and in any order; the stored state must not care.
  */
 import type { Queue } from 'bullmq';
-import type { Redis } from 'ioredis';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import type { ResultEvent } from '../../src/domain/event.ts';
+import type { Incident } from '../../src/incidents/model.ts';
+import { incidentRules } from '../../src/incidents/policy.ts';
 import { createResultProducer } from '../../src/intake/producer.ts';
-import { openQueue, QUEUE_NAMES, resolveQueueSettings, scheduleEvaluation } from '../../src/queue/queues.ts';
+import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
 import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
+import type { RedisConnection } from '../../src/redis/connection.ts';
+import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
+import { RedisStore } from '../../src/redis/redisStore.ts';
 import { silentLogger } from '../../src/runtime/logger.ts';
-import { RedisStorage } from '../../src/storage/redisStorage.ts';
 import { FLEET_CONFIG, inventedFleet } from '../helpers/fleetCsv.ts';
 import { drained } from '../helpers/queueDrain.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
@@ -29,10 +32,11 @@ afterAll(async () => {
 
 interface Line {
   prefix: string;
-  connection: Redis;
+  connection: RedisConnection;
   workers: RunningWorkers;
   queues: Queue[];
-  storage: RedisStorage;
+  storage: RedisStore;
+  incidents: RedisIncidents;
   send(events: readonly unknown[]): Promise<void>;
   close(): Promise<void>;
 }
@@ -49,7 +53,8 @@ async function pipeline(): Promise<Line> {
     connection,
     workers,
     queues,
-    storage: new RedisStorage(connection, { prefix }),
+    storage: new RedisStore(connection, { prefix, config }),
+    incidents: new RedisIncidents(connection, { rules: incidentRules(config), prefix }),
     async send(events) {
       const outcomes = await producer.add(events);
       expect(outcomes.filter((o) => o.status !== 'accepted')).toEqual([]);
@@ -63,25 +68,27 @@ async function pipeline(): Promise<Line> {
   };
 }
 
+/** The verdict of an incident: everything but what was told to whom. */
+function verdict(i: Incident) {
+  const { announced: _a, eventSeq: _e, escalation: _s, told: _t, notifications: _n, ...rest } = i;
+  return rest;
+}
+
 /** Everything the store holds that the order of arrival must not change. */
 async function storedState(line: Line) {
   const components = await line.storage.components();
   const perComponent = await Promise.all(
     components.map(async (c) => ({
       entry: c,
-      revisions: (await line.storage.revisions(c)).map((s) => `${s.sampleId}#${s.revision}`).sort(),
+      revisions: (await line.storage.revisions(c)).map((s) => `${s.sample.sampleId}#${s.sample.revision}`).sort(),
       findings: await line.storage.findings(c),
+      // The group's statistics as the next sample would see them (other units only).
+      group: await line.storage.asOf(c.group, '9999-12', c),
     })),
   );
-  const groups = [...new Set(components.map((c) => c.group))].sort();
-  const population = await Promise.all(groups.map(async (g) => [g, Object.entries(await line.storage.population(g)).map(([m, bands]) => [m, [...bands!].sort((a, b) => a[0] - b[0]).map(([edge, s]) => [edge, s.n, Number(s.sum.toPrecision(12))])])]));
-  const baselines = await Promise.all(groups.map(async (g) => [g, await line.storage.groupBaselines(g)]));
-  return { perComponent, population, baselines };
-}
-
-async function reevaluateAll(line: Line) {
-  for (const c of await line.storage.components()) await scheduleEvaluation(line.queues[1]!, c);
-  await drained(line.queues);
+  const incidents = (await line.incidents.list({ state: 'all', limit: 1000 })).map((i) => i.id).sort();
+  const records = await Promise.all(incidents.map(async (id) => verdict((await line.incidents.get(id))!)));
+  return { perComponent, incidents: records.filter((i) => i.closed?.how !== 'withdrawn') };
 }
 
 const fleet = inventedFleet({ units: 4, samplesPerUnit: 20 });
@@ -105,34 +112,29 @@ describe('live pipeline', () => {
     try {
       await line.send(fleet);
       const before = await storedState(line);
-      const marks = await Promise.all(before.perComponent.map((c) => line.storage.mark(c.entry)));
+      const marks = await Promise.all(before.perComponent.map(async (c) => (await line.storage.evaluationInput(c.entry))!.mark));
       await line.send(fleet);
       await line.send(fleet.slice(0, 10));
       expect(await storedState(line)).toEqual(before);
-      expect(await Promise.all(before.perComponent.map((c) => line.storage.mark(c.entry)))).toEqual(marks);
+      expect(await Promise.all(before.perComponent.map(async (c) => (await line.storage.evaluationInput(c.entry))!.mark))).toEqual(marks);
     } finally {
       await line.close();
     }
   });
 
-  it('results delivered shuffled, in small bursts, reach the state of in-order delivery', async () => {
+  it('results delivered shuffled, in small bursts, reach the findings and incidents of in-order delivery', async () => {
     const inOrder = await pipeline();
     const shuffled = await pipeline();
     try {
       await inOrder.send(fleet);
       const mixed = [...fleet].sort((a, b) => hash(a.sampleId) - hash(b.sampleId));
       for (let i = 0; i < mixed.length; i += 7) await shuffled.send(mixed.slice(i, i + 7));
-      // Histories, registry, population sums and baselines depend only on the results.
+      // Histories, group statistics, findings and incidents depend only on the results: late results rewound
+      // their component, and the group's cascade judged the other units again.
       const a = await storedState(inOrder);
       const b = await storedState(shuffled);
-      expect(b.population).toEqual(a.population);
-      expect(b.baselines).toEqual(a.baselines);
-      expect(b.perComponent.map((c) => [c.entry, c.revisions])).toEqual(a.perComponent.map((c) => [c.entry, c.revisions]));
-      // Findings also depend on the group's state when each component was last evaluated; once every
-      // component is evaluated with all results in, they agree too.
-      await reevaluateAll(inOrder);
-      await reevaluateAll(shuffled);
-      expect((await storedState(shuffled)).perComponent).toEqual((await storedState(inOrder)).perComponent);
+      expect(a.incidents.length).toBeGreaterThan(0);
+      expect(b).toEqual(a);
     } finally {
       await inOrder.close();
       await shuffled.close();
@@ -147,12 +149,13 @@ describe('live pipeline', () => {
       const late = own[6]!;
       await line.send(fleet.filter((e) => e !== late));
       const ref = { unit, component: 'gearbox' };
-      const fedBefore = await line.storage.lastFed(ref);
       expect((await line.storage.component(ref))!.samples).toBe(19);
       await line.send([late]);
       expect((await line.storage.component(ref))!.samples).toBe(20);
-      // The late sample is in the past: the incident feed position stays at the latest sample.
-      expect(await line.storage.lastFed(ref)).toEqual(fedBefore);
+      // Folded again from before it: the latest checkpoint still stands after the last sample, and covers all 20.
+      const input = (await line.storage.evaluationInput(ref))!;
+      expect(input.latest).toMatchObject({ count: 20, position: { sampleId: own.at(-1)!.sampleId } });
+      expect(input.dirtyFrom).toBeUndefined();
 
       // A sample well below the iron caution level of 45 ppm, so that its own limit finding is the revision's doing.
       const target = own.slice(8, 16).find((e) => Number(e.readings.Fe) < 30)!;
@@ -160,8 +163,8 @@ describe('live pipeline', () => {
       expect((await findingsAt(target.sampleId)).some((f) => f.rule === 'limit' && f.measurand === 'Fe')).toBe(false);
       const corrected: ResultEvent = { ...target, revision: 1, readings: { ...target.readings, Fe: 95 } };
       await line.send([corrected]);
-      const revisions = (await line.storage.revisions(ref)).filter((s) => s.sampleId === target.sampleId);
-      expect(revisions.map((r) => r.revision).sort()).toEqual([0, 1]);
+      const revisions = (await line.storage.revisions(ref)).filter((s) => s.sample.sampleId === target.sampleId);
+      expect(revisions.map((r) => r.sample.revision).sort()).toEqual([0, 1]);
       const after = await findingsAt(target.sampleId);
       // FLEET_CONFIG: Fe alarm at 70 ppm.
       expect(after.find((f) => f.rule === 'limit' && f.measurand === 'Fe')).toMatchObject({ severity: 'alarm', value: 95, threshold: 70 });
@@ -173,25 +176,17 @@ describe('live pipeline', () => {
     }
   });
 
-  it('a burst of results for one component collapses into one evaluation of its whole history', async () => {
+  it('a burst of results for one component is judged in order, one evaluation at a time, up to its last result', async () => {
     const line = await pipeline();
     try {
-      const evaluator = line.workers.workers.find((w) => w.name === QUEUE_NAMES.evaluate)!;
-      await evaluator.pause();
       const own = fleet.filter((e) => e.unit === 'LS4-Marsh Lane');
-      const producer = createResultProducer({ connection: line.connection, prefix: line.prefix });
-      const outcomes = await producer.add(own);
-      await producer.close();
-      expect(outcomes.every((o) => o.status === 'accepted')).toBe(true);
-      await drained([line.queues[0]!]);
-      const pending = await line.queues[1]!.getJobCounts('waiting', 'delayed', 'active');
-      expect((pending.waiting ?? 0) + (pending.delayed ?? 0)).toBe(1);
-      expect(pending.active).toBe(0);
-      evaluator.resume();
-      await drained(line.queues);
-      expect(await line.queues[1]!.getCompletedCount()).toBe(1);
+      await line.send(own);
       const ref = { unit: 'LS4-Marsh Lane', component: 'gearbox' };
-      expect(await line.storage.lastFed(ref)).toEqual({ sampleId: own.at(-1)!.sampleId, time: Date.parse(own.at(-1)!.sampledAt) });
+      const input = (await line.storage.evaluationInput(ref))!;
+      expect(input.latest).toMatchObject({ count: own.length, position: { sampleId: own.at(-1)!.sampleId } });
+      expect(input.dirtyFrom).toBeUndefined();
+      // Nothing is left waiting: a result that found the component busy left at most a job that found nothing to do.
+      expect(await line.queues[1]!.getFailedCount()).toBe(0);
     } finally {
       await line.close();
     }

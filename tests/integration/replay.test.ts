@@ -1,11 +1,9 @@
 /**
- * `wearshift replay` against the live worker: an invented fleet imported with `wearshift import` into a
- * running `wearshift worker` (child processes on a private redis-server) must give the findings and
- * incidents that `wearshift replay` prints for the same file.
- *
- * The groups hold two components each and the population limits need more results than the fleet has:
- * group baselines and population limits are read when a component is evaluated, and a live worker that
- * collapses a burst evaluates later than replay, with more group data (see the README on replay).
+ * The same verdict everywhere: an invented fleet imported with `wearshift import` into a running `wearshift worker`
+ * (a child process on a private redis-server, several evaluations at once), `wearshift replay` and `wearshift
+ * backtest` on the same file give identical incidents, and identical findings. Group statistics (population limits,
+ * pooled baselines, the comparison with peers) are within reach, so the verdict depends on other units' results:
+ * it does so as of each sample's month, never on when a worker got to it.
  */
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -13,11 +11,11 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import type { Finding } from '../../src/domain/finding.ts';
+import { describeState } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
-import { RedisIncidentStore } from '../../src/incidents/redisIncidentStore.ts';
 import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
-import type { IncidentLine, TimelineLine } from '../../src/queue/replayHistory.ts';
-import { RedisStorage } from '../../src/storage/redisStorage.ts';
+import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
+import { RedisStore } from '../../src/redis/redisStore.ts';
 import { runCli, startCli } from '../helpers/cli.ts';
 import { fleetCsv, inventedFleet } from '../helpers/fleetCsv.ts';
 import { drained } from '../helpers/queueDrain.ts';
@@ -29,14 +27,11 @@ detection:
   measurands: [Fe, Cu]
   runningInHours: 0
   baselineIntervals: 6
-population: { minResults: 500 }
+population: { minResults: 12, bandHours: [0, 500], peers: { minComponents: 3 } }
+backfill: { quietAfterDays: 100000 }
 groups:
-  - name: lift-gearboxes-north
-    match: { component: gearbox, unit: "^LS[12]-" }
-    sumpLitres: 40
-    limits: { Fe: { caution: 45, alarm: 70 }, Si: { caution: 15, alarm: 25 } }
-  - name: lift-gearboxes-south
-    match: { component: gearbox, unit: "^LS[34]-" }
+  - name: lift-gearboxes
+    match: { component: gearbox, unit: "^LS" }
     sumpLitres: 40
     limits: { Fe: { caution: 45, alarm: 70 }, Si: { caution: 15, alarm: 25 } }
 `;
@@ -53,61 +48,77 @@ afterAll(async () => {
   rmSync(dir, { recursive: true, force: true });
 });
 
-const findingKey = (f: Finding) => JSON.stringify([f.unit, f.component, f.sampleId, f.measurand, f.rule, f.direction ?? '', f.severity, f.value, f.threshold ?? null]);
+const findingKey = (f: Finding) => JSON.stringify([f.unit, f.component, f.sampleId, f.measurand, f.rule, f.check ?? '', f.direction ?? '', f.severity, f.disposition, f.value, f.threshold ?? null]);
 
-/** The timeline entry a replay line carries. */
-function entryOf(line: IncidentLine): Record<string, unknown> {
-  const { type: _type, incidentId: _id, unit: _unit, component: _component, incidentState: _state, incidentSeverity: _severity, ...entry } = line;
-  return entry;
+interface VerdictLine {
+  type: 'verdict';
+  incidentId: string;
+  state: string;
+  peakSeverity: string;
+  openedAt: string;
+  lastSampledAt: string;
+  closed: string | null;
 }
 
-describe('replay and the live worker', () => {
-  it('give the same findings and incidents on the same file', async () => {
+describe('the live worker, replay and backtest', () => {
+  it('give identical incidents and findings on the same file (2 400 results)', async () => {
     const file = join(dir, 'fleet.csv');
     const configFile = join(dir, 'config.yaml');
-    writeFileSync(file, fleetCsv(inventedFleet({ units: 4, samplesPerUnit: 24 })));
+    writeFileSync(file, fleetCsv(inventedFleet({ units: 40, samplesPerUnit: 60, seed: 11 })));
     writeFileSync(configFile, CONFIG);
     const env = { REDIS_URL: server.url, LOG_LEVEL: 'warn' };
 
     const worker = startCli(['worker', '--config', configFile], env);
     try {
-      const imported = await runCli(['import', file, '--config', configFile], env);
+      const imported = await runCli(['import', file, '--config', configFile], env, 120_000);
       expect(imported.code).toBe(0);
       const redis = server.client();
       const prefix = '{replay}';
       const settings = resolveQueueSettings({ prefix });
       const queues = [openQueue(QUEUE_NAMES.results, redis, settings), openQueue(QUEUE_NAMES.evaluate, redis, settings)];
-      await drained(queues, 90_000);
+      const t0 = Date.now();
+      await drained(queues, 600_000);
+      console.info(`live worker settled ${Date.now() - t0} ms after the import`);
       await Promise.all(queues.map((q) => q.close()));
 
-      const storage = new RedisStorage(redis, { prefix });
+      const config = parseConfig(CONFIG);
+      const storage = new RedisStore(redis, { prefix, config });
       const components = await storage.components();
-      expect(components).toHaveLength(4);
+      expect(components).toHaveLength(40);
+      expect(components.reduce((n, c) => n + c.samples, 0)).toBe(2400);
       const liveFindings = (await Promise.all(components.map((c) => storage.findings(c)))).flat().flatMap((s) => s.findings);
-
-      const replayed = await runCli(['replay', file, '--config', configFile, '--json'], env);
-      expect(replayed.code).toBe(0);
-      const lines = replayed.stdout.trim().split('\n').map((l) => JSON.parse(l) as TimelineLine);
-      const replayFindings = lines.filter((l) => l.type === 'finding') as Finding[];
-
-      expect(liveFindings.length).toBeGreaterThan(10);
-      expect(new Set(liveFindings.map((f) => f.rule))).toEqual(new Set(['limit', 'ewma', 'cusum']));
-      expect(replayFindings.map(findingKey).sort()).toEqual(liveFindings.map(findingKey).sort());
-
-      const store = new RedisIncidentStore(redis, { rules: incidentRules(parseConfig(CONFIG)), prefix });
-      const incidentLines = lines.filter((l): l is IncidentLine => l.type === 'incident');
-      const replayIds = [...new Set(incidentLines.map((l) => l.incidentId))].sort();
-      const liveIds = (await store.list({ state: 'all', limit: 1000 })).map((i) => i.id).sort();
-      expect(replayIds.length).toBeGreaterThan(1);
-      expect(replayIds).toEqual(liveIds);
-      // Every timeline entry of every incident, in order.
-      for (const id of replayIds) {
-        const live = (await store.get(id))!;
-        const fromReplay = incidentLines.filter((l) => l.incidentId === id).map((l) => entryOf(l));
-        expect(fromReplay).toEqual(live.timeline.map(({ kind, ...rest }) => ({ ...rest, ...('change' in rest && { findingChange: rest.change }), change: kind })));
+      const store = new RedisIncidents(redis, { rules: incidentRules(config), prefix });
+      const live = [];
+      for (const summary of await store.list({ state: 'all', limit: 1000 })) {
+        const i = (await store.get(summary.id))!;
+        if (i.closed?.how === 'withdrawn') continue;
+        live.push({ incidentId: i.id, state: describeState(i), peakSeverity: i.peakSeverity, openedAt: i.openedAt, lastSampledAt: i.lastSampledAt, closed: i.closed?.how ?? null });
       }
+      live.sort((a, b) => (a.incidentId < b.incidentId ? -1 : 1));
+
+      const replayed = await runCli(['replay', file, '--config', configFile, '--json'], env, 300_000);
+      expect(replayed.code).toBe(0);
+      const lines = replayed.stdout.trim().split('\n').map((l) => JSON.parse(l) as { type: string } & Record<string, unknown>);
+      const verdicts = (lines.filter((l) => l.type === 'verdict') as unknown as VerdictLine[])
+        .map(({ incidentId, state, peakSeverity, openedAt, lastSampledAt, closed }) => ({ incidentId, state, peakSeverity, openedAt, lastSampledAt, closed }))
+        .sort((a, b) => (a.incidentId < b.incidentId ? -1 : 1));
+      expect(live.length).toBeGreaterThan(3);
+      expect(verdicts).toEqual(live);
+
+      // The findings as the verdict stands: the findings log live, and the last finding lines per sample in replay.
+      const replayFindings = new Map<string, Finding[]>();
+      for (const l of lines.filter((x) => x.type === 'finding') as unknown as Finding[]) replayFindings.set(`${l.unit}/${l.component}/${l.sampleId}`, []);
+      for (const l of lines.filter((x) => x.type === 'finding') as unknown as Finding[]) replayFindings.get(`${l.unit}/${l.component}/${l.sampleId}`)!.push(l);
+      expect(new Set(liveFindings.map((f) => f.rule))).toEqual(new Set(['limit', 'ewma', 'cusum', 'population', 'sampling'].filter((r) => liveFindings.some((f) => f.rule === r))));
+      expect(liveFindings.map(findingKey).sort()).toEqual([...replayFindings.values()].flat().map(findingKey).sort());
+
+      const backtest = await runCli(['backtest', file, '--config', configFile, '--json'], env, 300_000);
+      expect(backtest.code).toBe(0);
+      const summary = JSON.parse(backtest.stdout) as { runs: { episodes: { incidentId: string; state: string; peakSeverity: string; openedAt: string; lastSampledAt: string }[] }[] };
+      const episodes = summary.runs[0]!.episodes.map(({ incidentId, state, peakSeverity, openedAt, lastSampledAt }) => ({ incidentId, state, peakSeverity, openedAt, lastSampledAt })).sort((a, b) => (a.incidentId < b.incidentId ? -1 : 1));
+      expect(episodes).toEqual(live.map(({ closed: _c, ...rest }) => rest));
     } finally {
       expect(await worker.stop()).toBe(0);
     }
-  });
+  }, 900_000);
 });

@@ -1,17 +1,21 @@
 /**
- * Storage contract, run against the Redis storage (a private redis-server) and the in-memory storage used by
- * replay: both must make the same decisions. Population sums kept incrementally are checked against
- * `populationBands`, which computes the same statistics from scratch.
+ * The storage contract of the pipeline (src/pipeline/ports.ts), run against the Redis store (a private
+ * redis-server, with one partition and with several) and the in-memory store of replay: both must make the same
+ * decisions. The group statistics kept as month buckets are checked against `populationBands`, which computes the
+ * same statistics from scratch.
  */
 import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest';
-import { populationBands } from '../../src/analysis/populationStats.ts';
+import { populationBands, populationMeasurands } from '../../src/analysis/populationStats.ts';
+import { emptyAnalysisState } from '../../src/analysis/fold/analysisFold.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import { parseResultEvent, type ResultEvent, type Sample } from '../../src/domain/event.ts';
 import { resolveSettings } from '../../src/domain/settings.ts';
-import { MemoryStorage } from '../../src/storage/memoryStorage.ts';
-import { bandContributions, bandStatsFromSums } from '../../src/storage/populationSums.ts';
-import { RedisStorage } from '../../src/storage/redisStorage.ts';
-import type { Placement, Storage } from '../../src/storage/storage.ts';
+import { emptyComponentIncidents } from '../../src/incidents/model.ts';
+import { positionOf } from '../../src/incidents/verdict.ts';
+import { populationShare, monthOf } from '../../src/pipeline/groupShares.ts';
+import { MemoryStore } from '../../src/pipeline/memory/memoryStore.ts';
+import type { Checkpoint, ComponentStore, EvaluationCommit, GroupLedger, Lease } from '../../src/pipeline/ports.ts';
+import { RedisStore } from '../../src/redis/redisStore.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const config = parseConfig(`
@@ -19,21 +23,11 @@ population:
   measurands: [Fe, Cu, Si]
   bandHours: [0, 250, 500]
 `);
-const percentileConfig = parseConfig(`
-population:
-  method: percentile
-  measurands: [Fe]
-`);
 
 function sample(e: Partial<ResultEvent> & { sampleId: string }): Sample {
   const parsed = parseResultEvent({ unit: 'U-1', component: 'gearbox', sampledAt: '2025-01-01T00:00:00Z', readings: { Fe: 10 }, ...e });
   if (!parsed.ok) throw new Error(JSON.stringify(parsed.issues));
   return parsed.sample;
-}
-
-function placementOf(s: Sample, cfg = config): Placement {
-  const settings = resolveSettings(cfg, s);
-  return { group: settings.group, contributions: bandContributions(s, settings.population), keepValues: settings.population.method === 'percentile' };
 }
 
 let server: RedisServer;
@@ -46,138 +40,201 @@ afterAll(async () => {
   await server?.dispose();
 });
 
-const implementations: Array<[string, () => Storage]> = [
-  ['redis', () => new RedisStorage(server.client(), { prefix: `{t${++prefixCounter}}` })],
-  ['memory', () => new MemoryStorage()],
+type Store = ComponentStore & GroupLedger;
+
+const implementations: Array<[string, () => Store]> = [
+  ['redis, one partition', () => new RedisStore(server.client(), { prefix: `{t${++prefixCounter}}`, config })],
+  ['redis, five partitions', () => new RedisStore(server.client(), { prefix: `{t${++prefixCounter}}`, partitions: 5, config })],
+  ['memory', () => new MemoryStore({ config })],
 ];
 
-describe.each(implementations)('%s storage', (_name, make) => {
-  let store: Storage;
+const GROUP = 'gearbox';
+
+/** A commit that records the samples' population shares and nothing else changes. */
+function commitOf(samples: readonly Sample[], mark: number, extra: Partial<EvaluationCommit> = {}): EvaluationCommit {
+  const ref = samples[0]!;
+  const settings = resolveSettings(config, ref);
+  const last = samples.at(-1)!;
+  return {
+    mark,
+    group: GROUP,
+    latest: { position: positionOf(last), count: samples.length, analysis: emptyAnalysisState(ref.unit, ref.component), incidents: emptyComponentIncidents(ref.unit, ref.component) },
+    sparse: [],
+    rewoundTo: undefined,
+    steps: [],
+    shares: samples.map((s) => ({ sampleId: s.sampleId, month: monthOf(s.time), values: populationShare(s, settings) })),
+    baselines: {},
+    incidents: emptyComponentIncidents(ref.unit, ref.component),
+    incidentsVersion: 0,
+    effects: [],
+    archived: [],
+    withdrawn: [],
+    horizon: last.time,
+    ...extra,
+  };
+}
+
+describe.each(implementations)('%s store', (_name, make) => {
+  let store: Store;
   beforeEach(() => {
     store = make();
   });
 
-  it('stores a result once: a redelivery changes nothing and says so', async () => {
+  it('stores a result once: a redelivery changes nothing and says so; the same sample and revision with other content is a conflict', async () => {
     const s = sample({ sampleId: 'L-1', oilHours: 100, readings: { Fe: 12, Cu: 3 } });
-    expect(await store.store(s, placementOf(s))).toEqual({ status: 'new', evaluationDue: true });
-    const before = { revisions: await store.revisions(s), population: await store.population('gearbox'), mark: await store.mark(s) };
+    expect(await store.store(s, GROUP, 1000)).toEqual({ status: 'new', evaluationDue: true });
+    const before = { revisions: await store.revisions(s), input: await store.evaluationInput(s) };
     // Same result, readings listed in another order: still the same result.
     const again = sample({ sampleId: 'L-1', oilHours: 100, readings: { Cu: 3, Fe: 12 } });
-    expect((await store.store(again, placementOf(again))).status).toBe('duplicate');
+    expect((await store.store(again, GROUP, 2000)).status).toBe('duplicate');
     expect(await store.revisions(s)).toEqual(before.revisions);
-    expect(await store.population('gearbox')).toEqual(before.population);
-    expect(await store.mark(s)).toBe(before.mark);
+    expect((await store.evaluationInput(s))!.mark).toBe(before.input!.mark);
+    const other = sample({ sampleId: 'L-1', oilHours: 100, readings: { Fe: 99 } });
+    expect((await store.store(other, GROUP, 3000)).status).toBe('conflict');
+    expect((await store.revisions(s)).map((r) => r.sample.readings.Fe)).toEqual([{ kind: 'value', value: 12 }]);
+    // The stored sample is the validated one, with the time it first arrived.
+    expect(before.revisions).toEqual([{ sample: s, receivedAt: 1000 }]);
   });
 
-  it('reports a conflicting result under the same revision and keeps the stored one', async () => {
-    const s = sample({ sampleId: 'L-2', readings: { Fe: 12 } });
-    await store.store(s, placementOf(s));
-    const other = sample({ sampleId: 'L-2', readings: { Fe: 99 } });
-    expect((await store.store(other, placementOf(other))).status).toBe('conflict');
-    expect((await store.revisions(s)).map((r) => r.readings.Fe)).toEqual([{ kind: 'value', value: 12 }]);
+  it('hands back the winning revisions after a position, in history order; a lower revision afterwards is history only', async () => {
+    const a = sample({ sampleId: 'A', sampledAt: '2025-01-03T00:00:00Z', unitHours: 300 });
+    const b = sample({ sampleId: 'B', sampledAt: '2025-01-01T00:00:00Z', unitHours: 100 });
+    const c = sample({ sampleId: 'C', sampledAt: '2025-01-02T00:00:00Z' });
+    for (const s of [a, b, c]) await store.store(s, GROUP, 1);
+    const b1 = sample({ sampleId: 'B', revision: 1, sampledAt: '2025-01-01T00:00:00Z', unitHours: 100, readings: { Fe: 20 } });
+    expect((await store.store(b1, GROUP, 2)).status).toBe('replacement');
+    expect((await store.store(b, GROUP, 3)).status).toBe('duplicate');
+    const b0late = sample({ sampleId: 'B', revision: 0, sampledAt: '2025-01-01T00:00:00Z', unitHours: 100, readings: { Fe: 5 } });
+    expect((await store.store(b0late, GROUP, 4)).status).toBe('conflict');
+    expect((await store.samplesAfter(a, null)).map((s) => `${s.sample.sampleId}/${s.sample.revision}`)).toEqual(['B/1', 'C/0', 'A/0']);
+    expect((await store.samplesAfter(a, positionOf(c))).map((s) => s.sample.sampleId)).toEqual(['A']);
+    expect((await store.revisions(a)).length).toBe(4);
+    expect(await store.component(a)).toMatchObject({ unit: 'U-1', component: 'gearbox', group: GROUP, samples: 3, lastSampledAt: a.sampledAt });
   });
 
-  it('a higher revision replaces the readings and the population share; a lower one afterwards is history only', async () => {
-    const r0 = sample({ sampleId: 'L-3', revision: 0, oilHours: 300, readings: { Fe: 40 } });
-    const r2 = sample({ sampleId: 'L-3', revision: 2, oilHours: 300, readings: { Fe: 20 } });
-    const r1 = sample({ sampleId: 'L-3', revision: 1, oilHours: 300, readings: { Fe: 30 } });
-    expect((await store.store(r0, placementOf(r0))).status).toBe('new');
-    expect((await store.store(r2, placementOf(r2))).status).toBe('replacement');
-    expect((await store.store(r1, placementOf(r1))).status).toBe('superseded');
-    expect((await store.revisions(r0)).map((r) => r.revision).sort()).toEqual([0, 1, 2]);
-    const band = (await store.population('gearbox')).Fe?.get(250);
-    expect(band).toMatchObject({ n: 1, sum: 20, sumSq: 400 });
-    const entry = await store.component(r0);
-    expect(entry).toEqual({ unit: 'U-1', component: 'gearbox', group: 'gearbox', samples: 1, lastSampledAt: '2025-01-01T00:00:00.000Z' });
+  it('marks the earliest changed position and clears it only when the commit covers every change', async () => {
+    const first = sample({ sampleId: 'S-2', sampledAt: '2025-02-01T00:00:00Z' });
+    await store.store(first, GROUP, 1);
+    const input = (await store.evaluationInput(first))!;
+    expect(input.dirtyFrom).toEqual(positionOf(first));
+    const late = sample({ sampleId: 'S-1', sampledAt: '2025-01-01T00:00:00Z' });
+    await store.store(late, GROUP, 2);
+    expect((await store.evaluationInput(first))!.dirtyFrom).toEqual(positionOf(late));
+    const lease = (await store.acquire(first, 10_000))!;
+    // Committed with the mark read before the late result: the change after it stays marked.
+    expect((await store.commit(first, lease, commitOf([late, first], input.mark))).ok).toBe(true);
+    expect((await store.evaluationInput(first))!.dirtyFrom).toEqual(positionOf(late));
+    const now = (await store.evaluationInput(first))!;
+    const again = await store.commit(first, lease, commitOf([late, first], now.mark, { incidentsVersion: 1 }));
+    expect(again.ok).toBe(true);
+    expect((await store.evaluationInput(first))!.dirtyFrom).toBeUndefined();
+    await store.release(lease);
   });
 
-  it('keeps population statistics equal to a computation from scratch, whatever the order of arrival', async () => {
-    const events: Sample[] = [];
-    for (let i = 0; i < 60; i++) {
-      const unit = `U-${i % 5}`;
-      events.push(
-        sample({
-          unit,
-          sampleId: `P-${i}`,
-          sampledAt: new Date(Date.UTC(2025, 0, 1 + i)).toISOString(),
-          oilHours: (i * 37) % 700,
-          readings: { Fe: 5 + ((i * 13) % 17) + i / 10, Cu: i % 3 === 0 ? '<1' : 2 + (i % 4), Si: 3 + (i % 5) },
-        }),
-      );
-      // Every fifth result is re-issued with corrected readings.
-      if (i % 5 === 0) events.push(sample({ unit, sampleId: `P-${i}`, revision: 1, sampledAt: new Date(Date.UTC(2025, 0, 1 + i)).toISOString(), oilHours: (i * 37) % 700, readings: { Fe: 50 + i } }));
+  it('keeps the lock to one holder, and refuses a commit under a lost lock or after the incidents moved on', async () => {
+    const s = sample({ sampleId: 'K-1' });
+    await store.store(s, GROUP, 1);
+    const lease = (await store.acquire(s, 60_000))!;
+    expect(await store.acquire(s, 60_000)).toBeUndefined();
+    expect(await store.renew(lease, 60_000)).toBe(true);
+    const intruder: Lease = { key: lease.key, token: 'not-mine' };
+    expect(await store.commit(s, intruder, commitOf([s], 1))).toEqual({ ok: false, reason: 'lost-lock' });
+    expect(await store.commit(s, lease, commitOf([s], 1, { incidentsVersion: 7 }))).toEqual({ ok: false, reason: 'incidents-changed' });
+    expect((await store.commit(s, lease, commitOf([s], 1))).ok).toBe(true);
+    await store.release(lease);
+    expect(await store.acquire(s, 60_000)).toBeDefined();
+  });
+
+  it('keeps group statistics as of a month from other units only, equal to computing them from scratch', async () => {
+    const mk = (unit: string, n: number, month: string, oilHours: number, fe: number, cu: number) =>
+      sample({ unit, sampleId: `${unit}-${n}`, sampledAt: `${month}-1${n}T06:00:00Z`, oilHours, readings: { Fe: fe, Cu: cu, Si: '<2' } });
+    const perUnit = {
+      'U-1': [mk('U-1', 1, '2025-01', 100, 10, 2), mk('U-1', 2, '2025-02', 300, 15, 3), mk('U-1', 3, '2025-03', 600, 22, 4)],
+      'U-2': [mk('U-2', 1, '2025-01', 120, 12, 1), mk('U-2', 2, '2025-02', 350, 18, 2), mk('U-2', 3, '2025-03', 620, 30, 5)],
+      'U-3': [mk('U-3', 1, '2025-01', 90, 8, 2), mk('U-3', 2, '2025-03', 280, 11, 2)],
+    };
+    for (const [unit, samples] of Object.entries(perUnit)) {
+      for (const s of samples) await store.store(s, GROUP, 1);
+      const ref = { unit, component: 'gearbox' };
+      const input = (await store.evaluationInput(ref))!;
+      const lease = (await store.acquire(ref, 10_000))!;
+      expect((await store.commit(ref, lease, commitOf(samples, input.mark))).ok).toBe(true);
+      await store.release(lease);
     }
-    const shuffled = [...events].sort((a, b) => ((a.time * 7919 + a.revision) % 101) - ((b.time * 7919 + b.revision) % 101));
-    for (const s of shuffled) await store.store(s, placementOf(s));
-    const population = resolveSettings(config, { unit: 'U-0', component: 'gearbox' }).population;
-    const incremental = bandStatsFromSums(await store.population('gearbox'), population);
-    const scratch = populationBands(events, population, ['Fe', 'Cu', 'Si']);
-    for (const m of ['Fe', 'Cu', 'Si'] as const) {
-      const a = incremental[m]!;
-      const b = scratch[m]!;
-      expect(a.map((x) => [x.fromHours, x.toHours, x.n])).toEqual(b.map((x) => [x.fromHours, x.toHours, x.n]));
-      a.forEach((x, i) => {
-        expect(x.mean).toBeCloseTo(b[i]!.mean, 9);
-        expect(x.sd).toBeCloseTo(b[i]!.sd, 9);
-      });
+    const settings = resolveSettings(config, { unit: 'U-1', component: 'gearbox' });
+    const measurands = populationMeasurands(settings.population);
+    const asOf = await store.asOf(GROUP, '2025-03', { unit: 'U-1', component: 'gearbox' });
+    // Other units' results sampled before March: U-2's and U-3's January and February results.
+    const expected = populationBands([...perUnit['U-2'].slice(0, 2), ...perUnit['U-3'].slice(0, 1)], settings.population, measurands);
+    for (const m of measurands) {
+      expect(asOf.bands[m]!.map((b) => [b.n, b.mean, b.sd].map((x) => Number(x.toPrecision(10))))).toEqual(expected[m]!.map((b) => [b.n, b.mean, b.sd].map((x) => Number(x.toPrecision(10)))));
     }
-    expect((await store.components()).map((c) => [c.unit, c.samples])).toEqual([0, 1, 2, 3, 4].map((u) => [`U-${u}`, 12]));
+    // January: nothing before it.
+    expect((await store.asOf(GROUP, '2025-01', { unit: 'U-1', component: 'gearbox' })).bands.Fe!.every((b) => b.n === 0)).toBe(true);
+    // Evaluated up to March: all three are found when January changes.
+    expect((await store.membersAfter(GROUP, Date.parse('2025-02-01T00:00:00Z'))).map((r) => r.unit).sort()).toEqual(['U-1', 'U-2', 'U-3']);
   });
 
-  it('keeps the values for the percentile method and swaps a replaced value', async () => {
-    const a = sample({ sampleId: 'V-1', oilHours: 10, readings: { Fe: 7 } });
-    const b = sample({ sampleId: 'V-2', oilHours: 20, readings: { Fe: 3 } });
-    const a1 = sample({ sampleId: 'V-1', revision: 1, oilHours: 10, readings: { Fe: 9 } });
-    for (const s of [a, b, a1]) await store.store(s, placementOf(s, percentileConfig));
-    const population = resolveSettings(percentileConfig, a).population;
-    const bands = bandStatsFromSums(await store.population('gearbox'), population);
-    expect(bands.Fe![0]!.values).toEqual([3, 9]);
-    const scratch = populationBands([a, b, a1], population, ['Fe']).Fe![0]!;
-    expect(bands.Fe![0]).toMatchObject({ n: scratch.n, mean: scratch.mean, values: scratch.values });
-    expect(bands.Fe![0]!.sd).toBeCloseTo(scratch.sd, 10);
+  it('replaces a sample\u2019s share when its revision or its standing changes, and takes it out when it is left out', async () => {
+    const ref = { unit: 'U-1', component: 'gearbox' };
+    const s = sample({ sampleId: 'R-1', sampledAt: '2025-01-05T00:00:00Z', oilHours: 100, readings: { Fe: 10 } });
+    const other = sample({ unit: 'U-9', sampleId: 'O-1', sampledAt: '2025-04-05T00:00:00Z', readings: { Fe: 1 } });
+    await store.store(s, GROUP, 1);
+    await store.store(other, GROUP, 1);
+    const commitShares = async (shares: EvaluationCommit['shares']) => {
+      const input = (await store.evaluationInput(ref))!;
+      const lease = (await store.acquire(ref, 10_000))!;
+      const r = await store.commit(ref, lease, { ...commitOf([s], input.mark, { incidentsVersion: input.incidentsVersion }), shares });
+      await store.release(lease);
+      return r;
+    };
+    const fe = async () => (await store.asOf(GROUP, '2025-04', { unit: 'U-9', component: 'gearbox' })).bands.Fe!.find((b) => b.fromHours === 0)!;
+    await commitShares([{ sampleId: 'R-1', month: '2025-01', values: { 'Fe|0': 10 } }]);
+    expect(await fe()).toMatchObject({ n: 1, mean: 10 });
+    expect(await commitShares([{ sampleId: 'R-1', month: '2025-01', values: { 'Fe|0': 10 } }])).toEqual({ ok: true });
+    await commitShares([{ sampleId: 'R-1', month: '2025-01', values: { 'Fe|0': 14 } }]);
+    expect(await fe()).toMatchObject({ n: 1, mean: 14 });
+    expect(await commitShares([{ sampleId: 'R-1', month: '2025-01', values: null }])).toEqual({ ok: true, changedMonth: '2025-01' });
+    expect((await fe()).n).toBe(0);
   });
 
-  it('evaluation lock: one holder at a time, released only by its holder, commits refused after loss', async () => {
-    const ref = { unit: 'U-9', component: 'engine' };
-    const s = sample({ ...ref, sampleId: 'K-1' });
-    await store.store(s, placementOf(s));
-    const lease = await store.acquire(ref, 10_000);
-    expect(lease).toBeDefined();
-    expect(await store.acquire(ref, 10_000)).toBeUndefined();
-    const intruder = { key: lease!.key, token: 'not-mine' };
-    await store.release(intruder);
-    expect(await store.acquire(ref, 10_000)).toBeUndefined();
-    expect(await store.commit(ref, intruder, { mark: 1, steps: [], group: 'engine', baselines: {} })).toBe(false);
-    expect(await store.commit(ref, lease!, { mark: 1, steps: [], group: 'engine', baselines: {}, fed: { sampleId: 'K-1', time: s.time } })).toBe(true);
-    expect(await store.lastFed(ref)).toEqual({ sampleId: 'K-1', time: s.time });
-    // A redelivery after the evaluation is committed owes no evaluation.
-    expect(await store.store(s, placementOf(s))).toEqual({ status: 'duplicate', evaluationDue: false });
-    await store.release(lease!);
-    expect(await store.acquire(ref, 10_000)).toBeDefined();
+  it('keeps sparse checkpoints, drops those after a rewind, and finds the latest one before a position', async () => {
+    const samples = Array.from({ length: 6 }, (_, i) => sample({ sampleId: `C-${i}`, sampledAt: `2025-01-0${i + 1}T00:00:00Z` }));
+    for (const s of samples) await store.store(s, GROUP, 1);
+    const ref = samples[0]!;
+    const cp = (i: number): Checkpoint => ({ position: positionOf(samples[i]!), count: i + 1, analysis: emptyAnalysisState('U-1', 'gearbox'), incidents: emptyComponentIncidents('U-1', 'gearbox') });
+    let lease = (await store.acquire(ref, 10_000))!;
+    let input = (await store.evaluationInput(ref))!;
+    await store.commit(ref, lease, commitOf(samples, input.mark, { sparse: [cp(1), cp(3), cp(5)] }));
+    expect((await store.checkpointBefore(ref, positionOf(samples[4]!)))?.count).toBe(4);
+    expect((await store.checkpointBefore(ref, positionOf(samples[1]!)))).toBeUndefined();
+    input = (await store.evaluationInput(ref))!;
+    await store.commit(ref, lease, commitOf(samples, input.mark, { incidentsVersion: 1, rewoundTo: positionOf(samples[2]!) }));
+    await store.release(lease);
+    expect((await store.checkpointBefore(ref, positionOf(samples[5]!)))?.count).toBe(2);
+    lease = (await store.acquire(ref, 10_000))!;
+    input = (await store.evaluationInput(ref))!;
+    await store.commit(ref, lease, commitOf(samples, input.mark, { incidentsVersion: 2, rewoundTo: null }));
+    await store.release(lease);
+    expect(await store.checkpointBefore(ref, positionOf(samples[5]!))).toBeUndefined();
   });
 
-  it('findings log: later evaluations overwrite and clear steps, and the log is bounded', async () => {
-    const ref = { unit: 'U-8', component: 'engine' };
-    const s = sample({ ...ref, sampleId: 'F-1' });
-    await store.store(s, placementOf(s));
-    const lease = (await store.acquire(ref, 10_000))!;
-    const finding = { unit: 'U-8', component: 'engine', group: 'engine', measurand: 'Fe' as const, rule: 'limit' as const, severity: 'alarm' as const, value: 1, basis: 'reading', sampleId: 'F-1', sampledAt: s.sampledAt, explanation: 'x' };
-    await store.commit(ref, lease, { mark: 1, group: 'engine', baselines: {}, steps: [{ sampleId: 'F-1', sampledAt: s.sampledAt, findings: [finding] }] });
-    expect((await store.findings(ref)).map((x) => x.sampleId)).toEqual(['F-1']);
-    await store.commit(ref, lease, { mark: 1, group: 'engine', baselines: {}, steps: [{ sampleId: 'F-1', sampledAt: s.sampledAt, findings: [] }] });
-    expect(await store.findings(ref)).toEqual([]);
-  });
-
-  it('baseline sums follow the component into its current group', async () => {
-    const ref = { unit: 'U-7', component: 'engine' };
-    const s = sample({ ...ref, sampleId: 'B-1' });
-    await store.store(s, placementOf(s));
-    const lease = (await store.acquire(ref, 10_000))!;
-    const sums = { intervals: 8, sumHours: 2000, sumHoursSq: 5e5, sumIncrement: 80, sumIncrementSq: 900, sumIncrementHours: 2e4, sumLabVariance: 16 };
-    await store.commit(ref, lease, { mark: 1, group: 'g-a', baselines: { Fe: sums }, steps: [] });
-    expect(await store.groupBaselines('g-a')).toEqual([['U-7/engine', { Fe: sums }]]);
-    await store.commit(ref, lease, { mark: 1, group: 'g-b', baselines: { Fe: sums }, steps: [] });
-    expect(await store.groupBaselines('g-a')).toEqual([]);
-    expect(await store.groupBaselines('g-b')).toEqual([['U-7/engine', { Fe: sums }]]);
+  it('records what a responder said of a sample and marks the component for evaluation from it', async () => {
+    const a = sample({ sampleId: 'M-1', sampledAt: '2025-01-01T00:00:00Z' });
+    const b = sample({ sampleId: 'M-2', sampledAt: '2025-01-02T00:00:00Z' });
+    await store.store(a, GROUP, 1);
+    await store.store(b, GROUP, 1);
+    const lease = (await store.acquire(a, 10_000))!;
+    const input = (await store.evaluationInput(a))!;
+    await store.commit(a, lease, commitOf([a, b], input.mark));
+    await store.release(lease);
+    expect((await store.evaluationInput(a))!.dirtyFrom).toBeUndefined();
+    expect(await store.markSample(a, 'M-2', 'confirmed')).toBe(true);
+    expect(await store.markSample(a, 'no-such-sample', 'rejected')).toBe(false);
+    const after = (await store.evaluationInput(a))!;
+    expect(after.marks.get('M-2')).toBe('confirmed');
+    expect(after.dirtyFrom).toEqual(positionOf(b));
+    await store.markSample(a, 'M-2', null);
+    expect((await store.evaluationInput(a))!.marks.has('M-2')).toBe(false);
   });
 });

@@ -41,9 +41,12 @@ const KNOWN: GroupStats = {
   baselines: { Fe: { ...IN_CONTROL.metals.Fe!, intervals: 10_000, components: 100 } },
 };
 
-/** First step index (1 = first monitored interval) at which `rule` fires, or undefined. */
+/**
+ * First step index (1 = first monitored interval) at which the detector signals either way, or undefined. An upward
+ * signal is a finding of its own family; a fall is a sampling finding (check rate-fall) with the detector as basis.
+ */
 function firstSignal(steps: ReturnType<typeof evaluateComponent>['steps'], rule: string, from = 1): number | undefined {
-  for (let i = from; i < steps.length; i++) if (steps[i]!.findings.some((f) => f.rule === rule)) return i - from + 1;
+  for (let i = from; i < steps.length; i++) if (steps[i]!.findings.some((f) => f.rule === rule || (f.rule === 'sampling' && f.basis === rule))) return i - from + 1;
   return undefined;
 }
 

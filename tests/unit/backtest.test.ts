@@ -169,8 +169,9 @@ groups:
       { unit: 'U3', component: 'gearbox' },
     ]);
     const of = (g: string) => params.find((p) => p.groups.includes(g))!;
-    // The group's own sample interval stays: 3 years × 8760 h / 500 h = 52.56 samples, 1 alarm, 2 charts.
-    expect(of('own-budget')).toMatchObject({ budget: { alarms: 1, years: 3, sampleIntervalHours: 500 }, samplesPerComponent: 52.56, arl0: 105.12 });
+    // The group's own sample interval stays: 3 years × 8760 h / 500 h = 52.56 samples, 1 alarm, 2 charts; the change
+    // detectors get 0.8 of the budget (the comparison with peers the rest): 52.56 × 2 / 0.8 = 131.4.
+    expect(of('own-budget')).toMatchObject({ budget: { alarms: 1, years: 3, sampleIntervalHours: 500 }, samplesPerComponent: 52.56, arl0: 131.4 });
     expect(of('fixed-h').cusum).toMatchObject({ h: 4, fromBudget: false });
     expect(of('fixed-h').designCommands.some((c) => c.includes('design cusum'))).toBe(false);
     expect(of('gearbox').budget).toMatchObject({ alarms: 1, years: 3, sampleIntervalHours: 250 });

@@ -34,14 +34,24 @@ describe('targetArl', () => {
 });
 
 describe('detectionLimits', () => {
-  it('derives h and L from the default budget: two-sided charts meeting the per-chart ARL0', () => {
+  it('derives h and L from the default budget: the upper side of each chart (an upward signal opens an incident) meets the per-chart ARL0', () => {
     const d = DetectionSchema.parse({});
     const limits = detectionLimits(d);
     expect(limits.charts).toBe(d.measurands.length * 2);
     expect(limits.arl0).toBeCloseTo(targetArl(d.budget, limits.charts), 10);
-    expect(cusumArl({ k: d.cusum.k, h: limits.cusumH, shift: 0, sided: 'two', headstart: d.cusum.headstart }) / limits.arl0).toBeCloseTo(1, 6);
+    expect(cusumArl({ k: d.cusum.k, h: limits.cusumH, shift: 0, sided: 'one', headstart: d.cusum.headstart }) / limits.arl0).toBeCloseTo(1, 6);
     // The detectors draw exact time-varying limits, so L is designed for them.
-    expect(ewmaArl({ lambda: d.ewma.lambda, L: limits.ewmaL, shift: 0, sided: 'two', exactLimits: true }) / limits.arl0).toBeCloseTo(1, 6);
+    expect(ewmaArl({ lambda: d.ewma.lambda, L: limits.ewmaL, shift: 0, sided: 'one', exactLimits: true }) / limits.arl0).toBeCloseTo(1, 6);
+  });
+
+  it('gives the change detectors their share of the budget: a smaller share, a longer in-control run length per chart', () => {
+    const d = DetectionSchema.parse({});
+    const whole = detectionLimits(d);
+    const part = detectionLimits(d, 0.8);
+    expect(part.arl0).toBeCloseTo(whole.arl0 / 0.8, 8);
+    expect(part.cusumH).toBeGreaterThan(whole.cusumH);
+    expect(cusumArl({ k: d.cusum.k, h: part.cusumH, shift: 0, sided: 'one' }) / part.arl0).toBeCloseTo(1, 6);
+    expect(() => detectionLimits(d, 0)).toThrow(RangeError);
   });
 
   it('keeps configured h and L, counts only enabled detectors, and designs one-sided charts for sided: up', () => {
@@ -58,11 +68,9 @@ describe('detectionLimits', () => {
     expect(none.arl0).toBeCloseTo(targetArl(DetectionSchema.parse({}).budget, 1), 10);
   });
 
-  it('answers a repeated design from its cache', () => {
+  it('answers a repeated design with the same limits (the solution is cached; its speed is in the benchmark)', () => {
     const d = DetectionSchema.parse({ ewma: { lambda: 0.15 } });
     const first = detectionLimits(d);
-    const start = performance.now();
     for (let i = 0; i < 100; i++) expect(detectionLimits(d)).toEqual(first);
-    expect(performance.now() - start).toBeLessThan(50);
   });
 });

@@ -3,6 +3,7 @@ import { PNG } from 'pngjs';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { seriesRoutes } from '../../src/http/seriesRoutes.ts';
 import { boardRoutes } from '../../src/http/boardRoutes.ts';
+import { viewOf } from '../../src/pipeline/componentView.ts';
 import { fixtureGroup, fixtureSamples, fixtureSeries, fixtureSettings } from './chart-fixtures.ts';
 
 const saved = { ...process.env };
@@ -17,7 +18,9 @@ beforeAll(async () => {
   app = Fastify();
   await app.register(seriesRoutes, {
     loadComponent: async (unit, component) =>
-      unit === 'PS2-P3' && component === 'gearbox' ? { samples: fixtureSamples(), settings: fixtureSettings(), group: fixtureGroup() } : undefined,
+      unit === 'PS2-P3' && component === 'gearbox'
+        ? viewOf({ unit, component, group: fixtureSettings().group, samples: fixtureSamples().length, lastSampledAt: '' }, fixtureSettings(), fixtureSamples(), () => fixtureGroup())
+        : undefined,
   });
   await app.register(boardRoutes);
   await app.ready();
@@ -32,7 +35,10 @@ describe('series and chart routes', () => {
   it('serve the series model of the stored history to a viewer', async () => {
     const res = await app.inject({ method: 'GET', url: `${base}/series`, headers: viewer });
     expect(res.statusCode).toBe(200);
-    expect(res.json()).toEqual(JSON.parse(JSON.stringify(fixtureSeries().series)));
+    const { readiness, ...series } = res.json();
+    expect(series).toEqual(JSON.parse(JSON.stringify(fixtureSeries().series)));
+    // What the analysis cannot judge yet, per measurand (first-day behaviour).
+    expect(readiness.find((r: { measurand: string }) => r.measurand === 'Fe')?.summary).toMatch(/^Fe: /);
     const one = await app.inject({ method: 'GET', url: `${base}/series?measurand=Si`, headers: { authorization: 'Bearer resp-1' } });
     expect(one.json().measurands.map((m: { measurand: string }) => m.measurand)).toEqual(['Si']);
   });

@@ -105,13 +105,15 @@ describe('component series: detector statistics', () => {
     const cusumDown = fe.cusum!.points.filter((p) => p.lower > fe.cusum!.h).map((p) => p.sampleId);
     const ewmaUp = fe.ewma!.points.filter((p) => p.ewma > p.ucl).map((p) => p.sampleId);
     const ewmaDown = fe.ewma!.points.filter((p) => p.ewma < p.lcl).map((p) => p.sampleId);
-    const of = (rule: string, direction: string) => findings.filter((f) => f.rule === rule && f.direction === direction).map((f) => f.sampleId);
+    // An upward signal is a finding of the detector's family; a fall one of the sampling family (check rate-fall).
+    const of = (rule: string, direction: string) =>
+      findings.filter((f) => f.measurand === 'Fe' && f.direction === direction && (f.rule === rule || (f.rule === 'sampling' && f.basis === rule))).map((f) => f.sampleId);
     expect(cusumUp.length).toBeGreaterThan(0); // the tripled wear rate is detected
     expect(cusumUp).toEqual(of('cusum', 'up'));
     expect(cusumDown).toEqual(of('cusum', 'down'));
     expect(ewmaUp).toEqual(of('ewma', 'up'));
     expect(ewmaDown).toEqual(of('ewma', 'down'));
-    const markedCusum = fe.marks.filter((m) => m.rule === 'cusum').length;
+    const markedCusum = fe.marks.filter((m) => m.rule === 'cusum' || (m.rule === 'sampling' && m.panel === 'cusum')).length;
     expect(markedCusum).toBe(cusumUp.length + cusumDown.length);
   });
 });

@@ -101,7 +101,7 @@ describe('trend chart SVG', () => {
     expect(new Set(outlines).size).toBe(shapes.size);
     expect(shapes.has('alarm') && shapes.has('caution')).toBe(true);
     const words = all((e) => e.name === 'text').map((e) => DomUtils.textContent(e));
-    expect(words).toContain('alarm · limit');
+    expect(words).toContain('alarm · fixed limit');
     expect(words).toContain('caution · rate limit');
     expect(words.filter((w) => ['watch', 'caution', 'alarm'].includes(w))).toEqual(['watch', 'caution', 'alarm']); // the legend
   });

@@ -51,7 +51,7 @@ describe('wearshift design cusum', () => {
 
   it('derives ARL0 from a false-alarm budget, prints the conversion, then solves h', async () => {
     const out = await designJson(['cusum', '--budget', '1 per component per 5 years', '--every', '250', '--charts', '14', '--shifts', '0']);
-    expect(out.budget).toEqual({ alarms: 1, years: 5, sampleIntervalHours: 250, hoursPerYear: 8760, samplesPerComponent: 175.2, componentArl0: 175.2, charts: 14, arl0: 2452.8 });
+    expect(out.budget).toEqual({ alarms: 1, years: 5, sampleIntervalHours: 250, hoursPerYear: 8760, samplesPerComponent: 175.2, componentArl0: 175.2, charts: 14, share: 1, arl0: 2452.8 });
     expect(out.arl0).toBeCloseTo(2452.8, 8);
     expect(cusumArl({ k: 0.5, h: out.h as number, shift: 0, sided: 'two' })).toBeCloseTo(2452.8, 4);
 

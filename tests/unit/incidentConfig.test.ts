@@ -30,7 +30,7 @@ escalation:
     expect(c.channels.mqtt[0]).toMatchObject({ topic: 'plant/{unit}/{component}/oil', qos: 1 });
     expect(c.channels.webhooks[0]!.timeoutMs).toBe(10_000);
     expect(c.channels.ackLinks!.ttlHours).toBe(72);
-    expect(c.escalation.policies[0]!.match).toEqual({ severities: ['alarm'] });
+    expect(c.escalation.policies[0]!.match).toEqual({ severities: ['alarm'], kinds: ['machine'] });
   });
 
   it('names the field and the reason of every mistake', () => {

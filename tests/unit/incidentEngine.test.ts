@@ -13,6 +13,7 @@ import type { Measurand } from '../../src/domain/measurands.ts';
 import { applyAction } from '../../src/incidents/applyAction.ts';
 import { applyEscalationCheck } from '../../src/incidents/applyEscalationCheck.ts';
 import { applySteps, type StepContext } from '../../src/incidents/applySteps.ts';
+import { IncidentFold } from '../../src/incidents/incidentFold.ts';
 import { IncidentConflictError, IncidentNotFoundError } from '../../src/incidents/errors.ts';
 import { emptyComponentIncidents, type ComponentIncidents, type IncidentEffect, type NotifyEffect } from '../../src/incidents/model.ts';
 import { incidentRules, type IncidentRules } from '../../src/incidents/policy.ts';
@@ -24,7 +25,7 @@ const DAY = 86_400_000;
 const MIN = 60_000;
 
 function finding(measurand: Measurand, severity: Severity, rule: RuleFamily = 'cusum'): Omit<Finding, 'sampleId' | 'sampledAt'> {
-  return { unit: UNIT, component: COMPONENT, group: 'gearboxes', measurand, rule, severity, value: 6, threshold: 5, basis: 'cusum', explanation: `${measurand} ${rule}` };
+  return { unit: UNIT, component: COMPONENT, group: 'gearboxes', measurand, rule, disposition: 'incident', severity, value: 6, threshold: 5, basis: 'cusum', explanation: `${measurand} ${rule}` };
 }
 
 function step(n: number, ...findings: Omit<Finding, 'sampleId' | 'sampledAt'>[]): Step {
@@ -251,15 +252,21 @@ describe('incident life cycle', () => {
     expect(partial.state).toEqual(once.state);
   });
 
-  it('a re-evaluation that changes the last step is applied once, as a revision', () => {
+  it('a re-evaluation that changes the last step (folded again from the checkpoint before it) is told once, as new evidence', () => {
     const now = new Date(T0 + 20 * DAY);
-    let state = applySteps(emptyComponentIncidents(UNIT, COMPONENT), [step(1, finding('Fe', 'caution'))], ctx(now)).state;
+    const base = emptyComponentIncidents(UNIT, COMPONENT);
+    const first = applySteps(base, [step(1, finding('Fe', 'caution'))], ctx(now));
     const revised = step(1, finding('Fe', 'alarm'));
-    const r = applySteps(state, [revised], ctx(now));
-    state = r.state;
-    expect(only(state).severity).toBe('alarm');
+    const fold = new IncidentFold(base, first.state, ctx(now));
+    fold.step(revised);
+    const r = fold.finish();
+    expect(only(r.state).severity).toBe('alarm');
+    expect(only(r.state).id).toBe(only(first.state).id);
     expect(notifies(r.effects).map((e) => e.type)).toEqual(['wearshift.incident.updated', 'wearshift.incident.updated']);
-    expect(applySteps(state, [revised], ctx(now)).effects).toEqual([]);
+    // Folding the same steps again tells nothing more.
+    const again = new IncidentFold(base, r.state, ctx(now));
+    again.step(revised);
+    expect(again.finish().effects).toEqual([]);
   });
 
   it('quiet backfill records incidents but tells nobody; the first live finding announces', () => {
@@ -268,7 +275,7 @@ describe('incident life cycle', () => {
     const backfill = applySteps(emptyComponentIncidents(UNIT, COMPONENT), old, ctx(now));
     expect(backfill.effects).toEqual([]);
     expect(only(backfill.state).severity).toBe('alarm');
-    expect(only(backfill.state).timeline.filter((t) => t.kind === 'notified')).toEqual([]);
+    expect(only(backfill.state).notifications).toEqual([]);
 
     const live = step(39, finding('Fe', 'alarm'));
     const r = applySteps(backfill.state, [live], ctx(liveAt(live)));
@@ -335,8 +342,8 @@ describe('incident life cycle', () => {
     const rules = rulesFrom({});
     const r = feed(emptyComponentIncidents(UNIT, COMPONENT), step(1, finding('Fe', 'alarm')), rules);
     expect(r.effects).toEqual([]);
-    expect(only(r.state).timeline.at(-1)).toMatchObject({ kind: 'notified', targets: [] });
-    expect((only(r.state).timeline.at(-1) as { reason: string }).reason).toContain('no escalation policy matches');
+    expect(only(r.state).notifications.at(-1)).toMatchObject({ kind: 'notified', targets: [] });
+    expect(only(r.state).notifications.at(-1)!.reason).toContain('no escalation policy matches');
   });
 
   it('picks the first policy whose groups and severities match', () => {

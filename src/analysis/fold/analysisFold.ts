@@ -10,16 +10,18 @@ import type { Sample } from '../../domain/event.ts';
 import { findingKey, type Finding } from '../../domain/finding.ts';
 import { MEASURANDS, type Measurand } from '../../domain/measurands.ts';
 import type { ComponentSettings } from '../../domain/settings.ts';
-import { detectionLimits } from '../budget.ts';
-import type { BaselineSums, GroupStats, Interval, RateBaseline, Step } from '../model.ts';
+import { changeBudgetShare, detectionLimits } from '../budget.ts';
+import type { BaselineSums, GroupStats, Interval, RateBaseline, SampleMark, SampleStatus, Step } from '../model.ts';
 import { changeVerdicts } from '../rules/change.ts';
 import { cleanlinessVerdicts } from '../rules/cleanliness.ts';
 import { conditionVerdicts } from '../rules/condition.ts';
 import { limitVerdicts } from '../rules/limit.ts';
 import { populationVerdicts } from '../rules/population.ts';
+import { peerVerdict } from '../rules/peers.ts';
 import { rateVerdicts } from '../rules/rate.ts';
+import { advanceSampling, EMPTY_SAMPLING_TRACK, samplingChecks, type SamplingTrack } from '../rules/sampling.ts';
 import type { SampleInput } from '../rules/ruleInput.ts';
-import { advanceCharge, type ChargeTrack } from './chargeTrack.ts';
+import { advanceCharge, chargeStart, type ChargeTrack } from './chargeTrack.ts';
 import { advanceChange, emptyChangeTrack, type ChangePoint, type ChangeTrack, type DetectorLimits } from './changeTrack.ts';
 import { advanceWear, EMPTY_WEAR_TRACK, rollOverCharge, type WearTrack } from './wearTrack.ts';
 
@@ -39,6 +41,7 @@ export interface AnalysisState {
   readonly charge?: ChargeTrack;
   readonly wear: Readonly<Partial<Record<Measurand, WearTrack>>>;
   readonly change: Readonly<Partial<Record<Measurand, ChangeTrack>>>;
+  readonly sampling: SamplingTrack;
 }
 
 /** What the analysis saw at one sample besides its findings: the intervals ending there and the detectors' statistics. */
@@ -52,7 +55,7 @@ export interface FoldStep extends Step {
 }
 
 export function emptyAnalysisState(unit: string, component: string): AnalysisState {
-  return { unit, component, samples: 0, wear: {}, change: {} };
+  return { unit, component, samples: 0, wear: {}, change: {}, sampling: EMPTY_SAMPLING_TRACK };
 }
 
 /** A group baseline is trusted once it pools at least this many components' complete baselines. */
@@ -77,6 +80,7 @@ export class AnalysisFold {
     charge?: ChargeTrack;
     wear: Partial<Record<Measurand, WearTrack>>;
     change: Partial<Record<Measurand, ChangeTrack>>;
+    sampling: SamplingTrack;
   };
   private readonly limits: DetectorLimits;
   private readonly detecting: boolean;
@@ -90,9 +94,9 @@ export class AnalysisFold {
     this.s = structuredClone(state) as AnalysisFold['s'];
     const d = settings.detection;
     this.detecting = d.ewma.enabled || d.cusum.enabled;
-    const l = detectionLimits(d);
+    const l = detectionLimits(d, changeBudgetShare(settings.population));
     this.limits = { cusumH: l.cusumH, ewmaL: l.ewmaL };
-    this.hold = options.holdRateWhileSignalling ?? false;
+    this.hold = options.holdRateWhileSignalling ?? true;
   }
 
   /** A copy of the state after the samples folded so far. */
@@ -111,54 +115,91 @@ export class AnalysisFold {
     return out;
   }
 
-  /** Folds in the next sample (in history order) and returns its step. */
-  advance(sample: Sample, group: GroupStats | undefined): FoldStep {
+  /**
+   * Folds in the next sample (in history order) and returns its step.
+   * @param group the group's statistics as they stood when the sample was drawn (other units only)
+   * @param mark what a responder said of the sample, if anything
+   */
+  advance(sample: Sample, group: GroupStats | undefined, mark?: SampleMark): FoldStep {
     const s = this.s;
-    const { track: charge, newCharge } = advanceCharge(s.charge, sample);
-    s.charge = charge;
-    if (newCharge) for (const m of Object.keys(s.wear) as Measurand[]) s.wear[m] = rollOverCharge(s.wear[m]!);
+    const base = { unit: s.unit, component: s.component, settings: this.settings, ...(group !== undefined && { group }), sample };
+    const prior = s.charge;
+    const verdict =
+      mark === undefined
+        ? samplingChecks({ ...base, intervals: NO_INTERVALS }, s.sampling, {
+            ...(prior?.lastOilHours !== undefined && { lastOilHours: prior.lastOilHours }),
+            continuesCharge: prior !== undefined && chargeStart(sample, prior.lastOilHours) === undefined,
+            changeReported: sample.oilChanged || sample.componentChanged,
+            carryOver: () => carryOverOf(sample, this.settings.sumpLitres),
+          })
+        : { findings: [], inDoubt: false };
+    const status: SampleStatus = mark ?? (verdict.inDoubt ? 'in-doubt' : 'accepted');
+    const included = status === 'accepted' || status === 'confirmed';
     const intervals = new Map<Measurand, Interval>();
-    for (const m of wearMeasurandsOf(sample, s.wear)) {
-      const { track, interval } = advanceWear(s.wear[m] ?? EMPTY_WEAR_TRACK, sample, m, charge, this.settings);
-      s.wear[m] = track;
-      if (interval !== undefined) intervals.set(m, interval);
-    }
-    const input: SampleInput = {
-      unit: s.unit,
-      component: s.component,
-      settings: this.settings,
-      ...(group !== undefined && { group }),
-      sample,
-      intervals,
-    };
     const points: ChangePoint[] = [];
-    if (this.detecting) {
-      for (const m of this.settings.detection.measurands) {
-        const iv = intervals.get(m);
-        if (iv === undefined) continue;
-        const before = s.change[m] ?? emptyChangeTrack(this.settings.detection);
-        const { track, point } = advanceChange(before, iv, {
-          detection: this.settings.detection,
-          limits: this.limits,
-          group: trustedGroupBaseline(group, m),
-          holdRateWhileSignalling: this.hold,
-        });
-        s.change[m] = track;
-        if (point !== undefined) points.push(point);
+    const peerFindings: Finding[] = [];
+    let newCharge = false;
+    if (included) {
+      const next = advanceCharge(s.charge, sample);
+      s.charge = next.track;
+      newCharge = next.newCharge;
+      if (newCharge) for (const m of Object.keys(s.wear) as Measurand[]) s.wear[m] = rollOverCharge(s.wear[m]!);
+      for (const m of wearMeasurandsOf(sample, s.wear)) {
+        const { track, interval } = advanceWear(s.wear[m] ?? EMPTY_WEAR_TRACK, sample, m, next.track, this.settings);
+        s.wear[m] = track;
+        if (interval !== undefined) intervals.set(m, interval);
       }
     }
-    const findings = [
-      ...limitVerdicts(input),
-      ...rateVerdicts(input),
-      ...populationVerdicts(input),
-      ...conditionVerdicts(input),
-      ...cleanlinessVerdicts(input),
-      ...changeVerdicts(input, points, s.change),
-    ].sort(byKey);
+    s.sampling = advanceSampling(s.sampling, sample, included, newCharge);
+    const input: SampleInput = { ...base, intervals };
+    if (included && this.detecting) {
+      for (const m of this.settings.detection.measurands) {
+        const iv = intervals.get(m);
+        const before = s.change[m] ?? emptyChangeTrack(this.settings.detection);
+        let track = before;
+        if (iv !== undefined) {
+          const r = advanceChange(before, iv, { detection: this.settings.detection, limits: this.limits, group: trustedGroupBaseline(group, m), holdRateWhileSignalling: this.hold });
+          track = r.track;
+          if (r.point !== undefined) points.push(r.point);
+        }
+        if (track.own.completedAt !== undefined) {
+          const peer = peerVerdict(input, m, track.own, group?.baselines[m]?.peers, track.peerFlagged === true);
+          if (peer.finding !== undefined) peerFindings.push(peer.finding);
+          track = { ...track, peerFlagged: peer.flagged };
+        }
+        if (track !== before) s.change[m] = track;
+      }
+    }
+    let findings: Finding[] =
+      status === 'rejected'
+        ? []
+        : [
+            ...limitVerdicts(input),
+            ...rateVerdicts(input),
+            ...populationVerdicts(input),
+            ...conditionVerdicts(input),
+            ...cleanlinessVerdicts(input),
+            ...changeVerdicts(input, points, s.change),
+            ...peerFindings,
+          ];
+    if (status === 'in-doubt') findings = findings.map((f) => (f.disposition === 'incident' ? { ...f, disposition: 'held' as const } : f));
+    findings = [...findings, ...verdict.findings].sort(byKey);
     s.samples += 1;
     s.last = { sampleId: sample.sampleId, time: sample.time, ...(sample.unitHours !== undefined && { unitHours: sample.unitHours }) };
-    return { sampleId: sample.sampleId, sampledAt: sample.sampledAt, findings, detail: { intervals: [...intervals.values()], change: points } };
+    return {
+      sampleId: sample.sampleId,
+      sampledAt: sample.sampledAt,
+      findings,
+      ...(status !== 'accepted' && { status }),
+      detail: { intervals: [...intervals.values()], change: points },
+    };
   }
+}
+
+const NO_INTERVALS: ReadonlyMap<Measurand, Interval> = new Map();
+
+function carryOverOf(sample: Sample, sumpLitres: number | undefined): number {
+  return sumpLitres === undefined || !(sample.topUpLitres > 0) ? 1 : 1 - Math.min(1, sample.topUpLitres / sumpLitres);
 }
 
 /** Wear metals read at this sample, and those tracked already (their make-up share moves on). */

@@ -71,6 +71,8 @@ export interface ChangeTrack {
   readonly ewma: { readonly value: number; readonly n: number };
   /** The sample where the present upward signal began; rate learning is paused while it lasts. */
   readonly signalSince?: { readonly sampleId: string; readonly sampledAt: string };
+  /** The comparison with peers stands flagged in this life (rules/peers.ts). */
+  readonly peerFlagged?: boolean;
 }
 
 export interface DetectorLimits {

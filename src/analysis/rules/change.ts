@@ -1,34 +1,35 @@
 /**
  * The `ewma` and `cusum` rule families: change detection on the standardised prediction errors of each
- * detection measurand (see innovations.ts and fold/changeTrack.ts). In control the errors are independent
- * N(0, 1), so the chart limits come straight from run-length design (budget.ts). Findings are `watch`: a change
- * is detected, no limit is crossed. A fall is reported too (two-sided) because a wear rate does not fall by
- * itself: it points at a sampling fault, an unreported oil change or a mixed-up bottle.
+ * detection measurand (see fold/changeTrack.ts). In control the errors are independent N(0, 1), so the chart
+ * limits come straight from run-length design (budget.ts). An upward signal is a `watch` finding that opens an
+ * incident: a change is detected, no limit is crossed. A fall is reported too (two-sided), but as a finding of
+ * the `sampling` family (check `rate-fall`): a wear rate does not fall by itself; it points at a sampling fault,
+ * an unreported oil change or a mixed-up bottle, which is for whoever takes the samples, not for the machine's
+ * on-call engineer.
  */
 import type { Finding } from '../../domain/finding.ts';
-import { MEASURANDS, type Measurand } from '../../domain/measurands.ts';
+import { MEASURANDS, originOf, type Measurand } from '../../domain/measurands.ts';
 import type { ComponentSettings } from '../../domain/settings.ts';
 import type { ChangePoint, ChangeTrack } from '../fold/changeTrack.ts';
 import { findingAt, type SampleInput } from './ruleInput.ts';
 
-export function changeVerdicts(input: SampleInput, points: readonly ChangePoint[], _tracks: Readonly<Partial<Record<Measurand, ChangeTrack>>>): Finding[] {
+export function changeVerdicts(input: SampleInput, points: readonly ChangePoint[], tracks: Readonly<Partial<Record<Measurand, ChangeTrack>>>): Finding[] {
   const { settings } = input;
   const out: Finding[] = [];
   for (const p of points) {
     const m = p.interval.measurand;
+    const track = tracks[m];
     const report = (rule: 'ewma' | 'cusum', direction: 'up' | 'down', value: number, threshold: number) => {
       if (direction === 'down' && settings.detection.sided !== 'two') return;
+      const common = { measurand: m, severity: 'watch' as const, value: round(value), threshold: round(threshold), basis: rule, direction };
       out.push(
-        findingAt(input, input.sample, {
-          measurand: m,
-          rule,
-          severity: 'watch',
-          value: round(value),
-          threshold: round(threshold),
-          basis: rule,
-          direction,
-          explanation: explain(m, rule, direction, value, threshold, p, settings),
-        }),
+        findingAt(
+          input,
+          input.sample,
+          direction === 'up'
+            ? { ...common, rule, disposition: 'incident', explanation: explainRise(m, rule, value, threshold, p, track, settings) }
+            : { ...common, rule: 'sampling', check: 'rate-fall', disposition: 'incident', explanation: explainFall(m, rule, value, threshold, p, track, settings) },
+        ),
       );
     };
     if (p.cusum !== undefined) {
@@ -43,14 +44,40 @@ export function changeVerdicts(input: SampleInput, points: readonly ChangePoint[
   return out;
 }
 
-function explain(m: Measurand, rule: 'ewma' | 'cusum', direction: 'up' | 'down', value: number, threshold: number, p: ChangePoint, settings: ComponentSettings): string {
-  const name = `${m} (${MEASURANDS[m].label})`;
-  const stat = rule === 'cusum' ? `CUSUM ${fmt(value)} against its decision interval ${fmt(threshold)}` : `EWMA ${fmt(value)} beyond its limit ${fmt(threshold)}`;
-  const reference = p.source === 'own' ? 'its own stable history' : `group ${settings.group}`;
-  const rates = `in-control ${fmt(p.baselineRate * 100)} ppm/100 h from ${reference}, latest interval ${fmt(p.interval.rate * 100)} ppm/100 h`;
-  return direction === 'up'
-    ? `${name} wear rate has shifted up: ${stat} (${rates}).`
-    : `${name} is rising more slowly than it should: ${stat} (${rates}); check for a sampling fault or an unreported oil change.`;
+function statistic(rule: 'ewma' | 'cusum', value: number, threshold: number): string {
+  return rule === 'cusum' ? `CUSUM ${fmt(value)} beyond its decision interval ${fmt(threshold)}` : `EWMA ${fmt(value)} beyond its limit ${fmt(threshold)}`;
+}
+
+/** Where the in-control rate the interval was judged against comes from, in words. */
+export function baselineProvenance(p: ChangePoint, track: ChangeTrack | undefined, settings: ComponentSettings): string {
+  const own = track?.own;
+  const rate = `${fmt(p.baselineRate * 100)} ppm/100 h`;
+  let text: string;
+  if (p.source === 'own' && own?.completedSampleId !== undefined) {
+    text = `the in-control rate ${rate}, learnt from this component's own samples ${own.firstSampleId} to ${own.completedSampleId} (${own.sums.intervals} intervals) and refined since`;
+  } else {
+    const have = own?.sums.intervals ?? 0;
+    text = `the in-control rate ${rate} of group ${settings.group} (this component's own baseline has ${have} of ${settings.detection.baselineIntervals} intervals)`;
+  }
+  if (p.learningPaused && track?.signalSince !== undefined) text += `, held since sample ${track.signalSince.sampleId} where the change was first signalled`;
+  return text;
+}
+
+function explainRise(m: Measurand, rule: 'ewma' | 'cusum', value: number, threshold: number, p: ChangePoint, track: ChangeTrack | undefined, settings: ComponentSettings): string {
+  const origin = originOf(m);
+  return (
+    `${m} (${MEASURANDS[m].label}) is accumulating faster than before: ${statistic(rule, value, threshold)}; the latest interval gained ` +
+    `${fmt(p.interval.rate * 100)} ppm/100 h against ${baselineProvenance(p, track, settings)}. ` +
+    `It points to ${origin ?? 'the parts this metal comes from'} wearing faster; next: re-sample to confirm, and ask the lab to review the trend.`
+  );
+}
+
+function explainFall(m: Measurand, rule: 'ewma' | 'cusum', value: number, threshold: number, p: ChangePoint, track: ChangeTrack | undefined, settings: ComponentSettings): string {
+  return (
+    `${m} (${MEASURANDS[m].label}) is rising more slowly than this component's wear can explain: ${statistic(rule, value, threshold)}; the latest interval gained ` +
+    `${fmt(p.interval.rate * 100)} ppm/100 h against ${baselineProvenance(p, track, settings)}. ` +
+    'A wear rate does not fall by itself: check the sample point and the oil-change records (an unreported drain or top-up), and ask the lab.'
+  );
 }
 
 function round(x: number): number {

@@ -25,6 +25,7 @@ export function cleanlinessVerdicts(input: SampleInput): Finding[] {
     findingAt(input, input.sample, {
       measurand: 'iso4406',
       rule: 'cleanliness',
+      disposition: 'incident',
       severity,
       value: steps,
       threshold: severity === 'alarm' ? 2 : 1,

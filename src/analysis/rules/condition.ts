@@ -21,7 +21,7 @@ import type { Measurand } from '../../domain/measurands.ts';
 import type { Reading } from '../../domain/reading.ts';
 import { crossing, findingAt, type Crossing, formatNumber, measurandTitle, quantity, readingText, sweep, type RuleInput, type SampleInput, type Verdict } from './ruleInput.ts';
 
-type Judgement = Omit<Verdict, 'measurand' | 'rule'>;
+type Judgement = Omit<Verdict, 'measurand' | 'rule' | 'disposition'>;
 type Judge = (reading: Reading, input: SampleInput) => Judgement | undefined;
 
 export function conditionFindings(input: RuleInput): Finding[] {
@@ -33,7 +33,7 @@ export function conditionVerdicts(input: SampleInput): Finding[] {
   for (const [m, judge] of JUDGES) {
     const reading = input.sample.readings[m];
     const verdict = reading && judge(reading, input);
-    if (verdict) findings.push(findingAt(input, input.sample, { measurand: m, rule: 'condition', ...verdict }));
+    if (verdict) findings.push(findingAt(input, input.sample, { measurand: m, rule: 'condition', disposition: 'incident', ...verdict }));
   }
   return findings;
 }

@@ -23,6 +23,7 @@ export function limitVerdicts(input: SampleInput): Finding[] {
       findingAt(input, input.sample, {
         measurand: m,
         rule: 'limit',
+        disposition: 'incident',
         severity: c.severity,
         value: c.value,
         threshold: c.level,

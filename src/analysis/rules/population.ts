@@ -50,6 +50,7 @@ export function populationVerdicts(input: SampleInput): Finding[] {
       findingAt(input, sample, {
         measurand: m,
         rule: 'population',
+        disposition: population.opensIncidents ? 'incident' : 'advisory',
         severity: c.severity,
         value: c.value,
         threshold: c.level,

@@ -25,6 +25,7 @@ export function rateVerdicts(input: SampleInput): Finding[] {
       findingAt(input, input.sample, {
         measurand: m,
         rule: 'rate',
+        disposition: 'incident',
         severity: c.severity,
         value: per100h,
         threshold: c.level,

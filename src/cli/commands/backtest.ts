@@ -14,7 +14,7 @@ import type { BacktestSummary } from '../../backtest/summary.ts';
 import { loadConfig } from '../../domain/configFile.ts';
 import { InputError } from '../../domain/errors.ts';
 import { formatOf, readRecordFile, type SourceRecord } from '../../intake/fileRecords.ts';
-import type { RejectedRecord } from '../../queue/replayHistory.ts';
+import type { RejectedRecord } from '../../pipeline/replay.ts';
 import { processingTime, writeJsonLine } from '../output.ts';
 
 interface BacktestCommandOptions {

@@ -25,6 +25,7 @@ interface CommonOptions {
   every?: number;
   hoursPerYear?: number;
   charts?: number;
+  share?: number;
   json?: boolean;
 }
 
@@ -37,6 +38,7 @@ interface BudgetConversion {
   samplesPerComponent: number;
   componentArl0: number;
   charts: number;
+  share: number;
   arl0: number;
 }
 
@@ -44,7 +46,7 @@ interface BudgetConversion {
 function targetFrom(opts: CommonOptions, parameter: string, given: boolean): { arl0: number; conversion?: BudgetConversion } | undefined {
   const targets = [given, opts.arl0 !== undefined, opts.budget !== undefined].filter(Boolean).length;
   if (targets !== 1) throw new InputError(`give exactly one of --${parameter}, --arl0 or --budget`);
-  const budgetOnly = { every: opts.every, 'hours-per-year': opts.hoursPerYear, charts: opts.charts };
+  const budgetOnly = { every: opts.every, 'hours-per-year': opts.hoursPerYear, charts: opts.charts, share: opts.share };
   if (opts.budget === undefined) {
     const stray = Object.entries(budgetOnly).find(([, v]) => v !== undefined);
     if (stray) throw new InputError(`--${stray[0]} applies only with --budget`);
@@ -55,7 +57,9 @@ function targetFrom(opts: CommonOptions, parameter: string, given: boolean): { a
   if (!parsed.success) throw new InputError(`--every / --hours-per-year: ${parsed.error.issues.map((i) => `${i.path.join('.')}: ${i.message}`).join('; ')}`);
   const budget: Budget = parsed.data;
   const charts = opts.charts ?? 1;
-  const arl0 = asInputError(() => targetArl(budget, charts));
+  const share = opts.share ?? 1;
+  if (!(share > 0 && share <= 1)) throw new InputError(`--share must be a fraction in (0, 1], got ${share}`);
+  const arl0 = asInputError(() => targetArl(budget, charts)) / share;
   const samplesPerComponent = samplesPerBudgetPeriod(budget);
   return {
     arl0,
@@ -67,6 +71,7 @@ function targetFrom(opts: CommonOptions, parameter: string, given: boolean): { a
       samplesPerComponent: tidy(samplesPerComponent),
       componentArl0: tidy(samplesPerComponent / alarms),
       charts,
+      share,
       arl0: tidy(arl0),
     },
   };
@@ -76,7 +81,9 @@ function conversionLines(c: BudgetConversion): string {
   return [
     `budget: ${c.alarms} false alarm(s) per component per ${c.years} year(s), a sample every ${c.sampleIntervalHours} operating hours, ${c.hoursPerYear} hours per year`,
     `  ${c.years} × ${c.hoursPerYear} / ${c.sampleIntervalHours} = ${round(c.samplesPerComponent, 6)} samples per component; / ${c.alarms} = component in-control ARL ${round(c.componentArl0, 6)}`,
-    `  ${c.charts} chart(s) per component, false-alarm rates adding up: each chart needs ARL0 = ${round(c.componentArl0, 6)} × ${c.charts} = ${round(c.arl0, 6)}`,
+    c.share === 1
+      ? `  ${c.charts} chart(s) per component, false-alarm rates adding up: each chart needs ARL0 = ${round(c.componentArl0, 6)} × ${c.charts} = ${round(c.arl0, 6)}`
+      : `  ${c.charts} chart(s) per component sharing ${round(c.share, 6)} of the budget, false-alarm rates adding up: each chart needs ARL0 = ${round(c.componentArl0, 6)} × ${c.charts} / ${round(c.share, 6)} = ${round(c.arl0, 6)}`,
   ].join('\n') + '\n';
 }
 
@@ -112,6 +119,7 @@ function common(c: Command, parameter: string): Command {
     .option('--every <hours>', 'with --budget: operating hours between samples', numberOption('every'))
     .option('--hours-per-year <hours>', 'with --budget: operating hours per year', numberOption('hours-per-year'))
     .option('--charts <N>', 'with --budget: charts per component sharing the budget', numberOption('charts'))
+    .option('--share <fraction>', 'with --budget: the part of the budget these charts get (default 1)', numberOption('share'))
     .option('--json', 'machine-readable output (one JSON object)')
     .addHelpText('after', COMMON_HELP);
 }

@@ -1,12 +1,11 @@
 /** `wearshift failed list|retry`: failed jobs with their reasons, and retrying them once the cause is fixed. */
 import type { Command } from 'commander';
-import type { Redis } from 'ioredis';
 import type { Config } from '../../domain/config.ts';
 import { loadConfig } from '../../domain/configFile.ts';
 import { InputError } from '../../domain/errors.ts';
 import { ALL_QUEUES, isQueueName, listFailedJobs, retryAllFailedJobs, retryFailedJob } from '../../queue/failedJobs.ts';
 import type { QueueName } from '../../queue/queues.ts';
-import { closeQuietly, connectForCommand, redisUrl } from '../../runtime/redis.ts';
+import { closeQuietly, connectForCommand, redisTarget, type RedisConnection as Redis } from '../../redis/connection.ts';
 import { formatTable, writeJsonLine } from '../output.ts';
 
 interface FailedOptions {
@@ -18,7 +17,7 @@ interface FailedOptions {
 
 async function withRedis<T>(opts: FailedOptions, work: (redis: Redis, config: Config) => Promise<T>): Promise<T> {
   const config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
-  const redis = await connectForCommand(redisUrl(config));
+  const redis = await connectForCommand(redisTarget(config));
   try {
     return await work(redis, config);
   } finally {
@@ -42,7 +41,7 @@ export function registerFailed(program: Command): void {
     .option('--json', 'one JSON object per job')
     .action((opts: FailedOptions) =>
       withRedis(opts, async (redis, config) => {
-        const jobs = await listFailedJobs(redis, config.redis.prefix, queuesOf(opts));
+        const jobs = await listFailedJobs(redis, config.redis.prefix, queuesOf(opts), 1000, config.redis.partitions);
         if (opts.json) return jobs.forEach((j) => writeJsonLine(j));
         if (jobs.length === 0) return void process.stdout.write('no failed jobs\n');
         const rows = jobs.map((j) => [j.ref, j.subject ?? '', j.failedAt?.slice(0, 19).replace('T', ' ') ?? '', j.attempts, j.reason]);
@@ -60,15 +59,17 @@ export function registerFailed(program: Command): void {
     .action((job: string | undefined, opts: FailedOptions) =>
       withRedis(opts, async (redis, config) => {
         if (opts.all) {
-          const n = await retryAllFailedJobs(redis, config.redis.prefix, queuesOf(opts));
+          const n = await retryAllFailedJobs(redis, config.redis.prefix, queuesOf(opts), config.redis.partitions);
           if (opts.json) writeJsonLine({ retried: n });
           else process.stdout.write(`${n} failed job${n === 1 ? '' : 's'} back on the queue\n`);
           return;
         }
         if (job === undefined) throw new InputError('name a job (QUEUE/ID as `failed list` shows it) or give --all');
-        const [queue, id] = job.includes('/') ? [job.slice(0, job.indexOf('/')), job.slice(job.indexOf('/') + 1)] : ['results', job];
-        if (!isQueueName(queue)) throw new InputError(`${job}: unknown queue "${queue}"; expected one of ${ALL_QUEUES.join(', ')}`);
-        if (!(await retryFailedJob(redis, config.redis.prefix, queue, id))) throw new InputError(`${job}: no such failed job`);
+        const [label, id] = job.includes('/') ? [job.slice(0, job.indexOf('/')), job.slice(job.indexOf('/') + 1)] : ['results', job];
+        const [queue, part] = label.split('.');
+        if (queue === undefined || !isQueueName(queue)) throw new InputError(`${job}: unknown queue "${label}"; expected one of ${ALL_QUEUES.join(', ')}`);
+        const partition = part === undefined ? undefined : Number(part);
+        if (!(await retryFailedJob(redis, config.redis.prefix, queue, id, config.redis.partitions, partition))) throw new InputError(`${job}: no such failed job`);
         if (opts.json) writeJsonLine({ retried: 1, job });
         else process.stdout.write(`${job} back on the queue\n`);
       }),

@@ -12,7 +12,7 @@ import type { FieldIssue } from '../../domain/event.ts';
 import { formatOf, readRecordFile } from '../../intake/fileRecords.ts';
 import { createResultProducer, type ResultProducer } from '../../intake/producer.ts';
 import { claimedSampleId, validateResult } from '../../intake/validate.ts';
-import { closeQuietly, connectForCommand, redisUrl } from '../../runtime/redis.ts';
+import { closeQuietly, connectForCommand, redisUrl } from '../../redis/connection.ts';
 import { writeJsonLine } from '../output.ts';
 
 interface ImportOptions {

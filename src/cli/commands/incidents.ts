@@ -8,10 +8,10 @@ import { loadConfig } from '../../domain/configFile.ts';
 import { InputError } from '../../domain/errors.ts';
 import type { IncidentAction } from '../../incidents/applyAction.ts';
 import { IncidentFilterSchema } from '../../incidents/listFilter.ts';
-import { describeState, type Incident, type IncidentSummary, type TimelineEntry } from '../../incidents/model.ts';
+import { describeState, mergedTimeline, type Incident, type IncidentSummary, type NotifiedEntry, type TimelineEntry } from '../../incidents/model.ts';
 import { incidentRules } from '../../incidents/policy.ts';
-import { RedisIncidentStore } from '../../incidents/redisIncidentStore.ts';
-import { closeQuietly, connectForCommand, redisUrl } from '../../runtime/redis.ts';
+import { closeQuietly, connectForCommand, redisTarget } from '../../redis/connection.ts';
+import { RedisIncidents } from '../../redis/redisIncidents.ts';
 import { formatTable, writeJsonLine } from '../output.ts';
 
 interface CommonOptions {
@@ -19,11 +19,11 @@ interface CommonOptions {
   json?: boolean;
 }
 
-async function withStore<T>(opts: CommonOptions, work: (store: RedisIncidentStore) => Promise<T>): Promise<T> {
+async function withStore<T>(opts: CommonOptions, work: (store: RedisIncidents) => Promise<T>): Promise<T> {
   const config: Config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
-  const redis = await connectForCommand(redisUrl(config));
+  const redis = await connectForCommand(redisTarget(config));
   try {
-    return await work(new RedisIncidentStore(redis, { rules: incidentRules(config), prefix: config.redis.prefix }));
+    return await work(new RedisIncidents(redis, { rules: incidentRules(config), prefix: config.redis.prefix, partitions: config.redis.partitions }));
   } finally {
     await closeQuietly(redis);
   }
@@ -48,7 +48,7 @@ function printList(list: IncidentSummary[], json: boolean): void {
   process.stdout.write(formatTable(['incident', 'severity', 'state', 'measurands', 'opened (sample)', 'last sample'], rows));
 }
 
-function entryText(e: TimelineEntry): string {
+function entryText(e: TimelineEntry | NotifiedEntry): string {
   switch (e.kind) {
     case 'opened':
       return `opened at sample ${e.sampleId}, ${e.severity}`;
@@ -59,7 +59,7 @@ function entryText(e: TimelineEntry): string {
     case 'active-again':
       return `${e.reopened ? 'reopened' : 'active again'} (sample ${e.sampleId})`;
     case 'acknowledged':
-      return `acknowledged by ${e.by}${e.note ? `: ${e.note}` : ''}`;
+      return `acknowledged by ${e.by}${e.recipient ? ` (link sent to ${e.recipient})` : ''}${e.note ? `: ${e.note}` : ''}`;
     case 'unacknowledged':
       return `acknowledgement withdrawn: ${e.reason}`;
     case 'shelved':
@@ -88,7 +88,7 @@ function printIncident(i: Incident, json: boolean): void {
     ...i.evidence.map((f) => `  ${f.measurand} ${f.rule} ${f.severity}: ${f.explanation}`),
     '',
     'timeline',
-    ...i.timeline.map((e) => `  ${e.at}  ${entryText(e)}`),
+    ...mergedTimeline(i).map((e) => `  ${e.at}  ${entryText(e)}`),
   ];
   process.stdout.write(`${lines.join('\n')}\n`);
 }

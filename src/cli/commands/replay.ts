@@ -1,14 +1,19 @@
 /**
  * `wearshift replay FILE`: the whole pipeline in-process on a history, no Redis: the same storing,
  * evaluation and incident code as the live worker, records taken in file order. Prints the findings of each
- * newly judged sample and every incident change, in time order.
+ * newly judged sample and every incident change, in time order; then the incidents as the verdict stands after the
+ * last record, and what each component cannot be judged on yet.
  */
 import type { Command } from 'commander';
 import { loadConfig } from '../../domain/configFile.ts';
 import { InputError } from '../../domain/errors.ts';
 import { formatOf, readRecordFile } from '../../intake/fileRecords.ts';
-import { replayRecords, type RejectedRecord, type TimelineLine } from '../../queue/replayHistory.ts';
-import { processingTime, writeJsonLine } from '../output.ts';
+import { replayRecords, type RejectedRecord, type TimelineLine } from '../../pipeline/replay.ts';
+import { ADVISORY_LINE, processingTime, writeJsonLine } from '../output.ts';
+import type { Config } from '../../domain/config.ts';
+import { describeState, type Incident } from '../../incidents/model.ts';
+import { componentView } from '../../pipeline/componentView.ts';
+import type { MemoryStore } from '../../pipeline/memory/memoryStore.ts';
 
 interface ReplayCommandOptions {
   config?: string;
@@ -41,9 +46,53 @@ export function registerReplay(program: Command): void {
         if (opts.json) writeJsonLine(line);
         else process.stdout.write(`${readable(line)}\n`);
       }
+      // The verdict as it stands after the last record (what the live worker reaches with the same results), and what
+      // each component cannot be judged on yet.
+      const verdicts = outcome.store.incidents().filter((i) => i.closed?.how !== 'withdrawn').map(verdictLine);
+      const readiness = await readinessLines(outcome.store, config);
+      if (opts.json) {
+        for (const v of verdicts) writeJsonLine(v);
+        for (const r of readiness) writeJsonLine(r);
+      } else {
+        process.stdout.write(`\nincidents after the last record: ${verdicts.length}\n`);
+        for (const v of verdicts) process.stdout.write(`  ${v.incidentId}  ${v.kind}  ${v.peakSeverity}  ${v.state}\n`);
+        const waiting = readiness.flatMap((r) => r.measurands.filter((m) => m.changeDetection === 'waiting' || (m.band !== undefined && m.band.have < m.band.need)).map((m) => `  ${r.unit}/${r.component}  ${m.summary}`));
+        if (waiting.length > 0) process.stdout.write(`\nnot judged yet:\n${waiting.join('\n')}\n`);
+        process.stdout.write(`\n${ADVISORY_LINE}\n`);
+      }
       if (!opts.json) process.stderr.write(`${file}: ${outcome.records} records, ${outcome.rejected} rejected, ${outcome.timeline.length} timeline lines\n`);
       process.exitCode = outcome.rejected > 0 ? 1 : 0;
     });
+}
+
+/** One line per incident as the verdict stands at the end. */
+function verdictLine(i: Incident) {
+  return {
+    type: 'verdict' as const,
+    incidentId: i.id,
+    kind: i.kind,
+    unit: i.unit,
+    component: i.component,
+    ...(i.measurand !== undefined && { measurand: i.measurand }),
+    state: describeState(i),
+    severity: i.severity,
+    peakSeverity: i.peakSeverity,
+    openedAt: i.openedAt,
+    openedBySampleId: i.openedBySampleId,
+    lastSampleId: i.lastSampleId,
+    lastSampledAt: i.lastSampledAt,
+    closed: i.closed?.how ?? null,
+    evidence: i.evidence.map((f) => `${f.measurand}:${f.rule}${f.check ? `:${f.check}` : ''}:${f.severity}`),
+  };
+}
+
+async function readinessLines(store: MemoryStore, config: Config) {
+  const out = [];
+  for (const c of await store.components()) {
+    const view = await componentView(store, store, config, c);
+    if (view !== undefined) out.push({ type: 'readiness' as const, unit: c.unit, component: c.component, measurands: view.readiness });
+  }
+  return out;
 }
 
 function reportRejected(r: RejectedRecord, json: boolean): void {

@@ -1,22 +1,11 @@
 /**
- * Population statistics kept current as results arrive: each result adds its readings to n, sum and sum of
- * squares of its group's oil-hours band (and its value, for the percentile method); a replacing revision
- * takes its predecessor's share out first. The rules match `populationBands`, which computes the same
- * statistics from scratch: latest revision only, a censored reading at its bound, no band without oil hours.
+ * Population band statistics from sums: n, Σx and Σx² per band (and the sorted values for the percentile method)
+ * give the mean and the sample standard deviation of the band, with the band edges of the group's settings.
  */
 import type { BandStats } from '../analysis/model.ts';
 import { populationMeasurands } from '../analysis/populationStats.ts';
 import type { Population } from '../domain/config.ts';
-import type { Sample } from '../domain/event.ts';
 import type { Measurand } from '../domain/measurands.ts';
-import { readingNumber } from '../domain/reading.ts';
-
-/** One reading's share of one band, the band named by its lower edge so that stored sums survive reordering of the edges. */
-export interface BandContribution {
-  readonly measurand: Measurand;
-  readonly fromHours: number;
-  readonly value: number;
-}
 
 export interface BandSums {
   readonly n: number;
@@ -28,20 +17,6 @@ export interface BandSums {
 
 export function bandEdges(population: Population): number[] {
   return [...new Set(population.bandHours)].sort((a, b) => a - b);
-}
-
-export function bandContributions(sample: Sample, population: Population): BandContribution[] {
-  const edges = bandEdges(population);
-  const oilHours = sample.oilHours;
-  if (oilHours === undefined || !(oilHours >= edges[0]!)) return [];
-  const fromHours = edges.filter((e) => oilHours >= e).at(-1)!;
-  const out: BandContribution[] = [];
-  for (const measurand of populationMeasurands(population)) {
-    const reading = sample.readings[measurand];
-    const value = reading && readingNumber(reading);
-    if (value !== undefined) out.push({ measurand, fromHours, value });
-  }
-  return out;
 }
 
 /**

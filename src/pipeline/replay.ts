@@ -1,0 +1,130 @@
+/**
+ * The whole pipeline in one process without Redis: every record, in file order, goes through the same storing and
+ * evaluation code as in the live worker (storeResult, evaluateStored), on in-memory storage, and every component a
+ * late result re-judges is evaluated again before the next record. The timeline it returns lists the findings of
+ * each newly judged step and every incident change, in sample-time order; the store it hands back holds the
+ * final state (histories, incidents), which depends only on the set of records.
+ */
+import type { Step } from '../analysis/model.ts';
+import type { Config } from '../domain/config.ts';
+import type { FieldIssue } from '../domain/event.ts';
+import type { Finding } from '../domain/finding.ts';
+import { incidentRules } from '../incidents/policy.ts';
+import type { NotifiedEntry, TimelineEntry } from '../incidents/model.ts';
+import type { SourceRecord } from '../intake/fileRecords.ts';
+import type { EvaluationDeps } from './evaluateStored.ts';
+import { MemoryStore } from './memory/memoryStore.ts';
+import { settleComponent } from './settleComponent.ts';
+import { InvalidResultError, storeResult } from './storeResult.ts';
+
+export type FindingLine = { readonly type: 'finding'; readonly quiet: boolean } & Finding;
+
+/**
+ * One timeline entry of an incident, flat: the entry's own fields, its kind as `change`, and the incident's state and
+ * severity after the evaluation as `incidentState` and `incidentSeverity`.
+ */
+export type IncidentLine = {
+  readonly type: 'incident';
+  readonly incidentId: string;
+  readonly unit: string;
+  readonly component: string;
+  /** The timeline entry's kind: opened, finding, returned, acknowledged, closed, notified, ... */
+  readonly change: TimelineEntry['kind'] | NotifiedEntry['kind'];
+  /** For a `finding` entry: raised, severity-changed or cleared. */
+  readonly findingChange?: 'raised' | 'severity-changed' | 'cleared';
+  readonly incidentState: string;
+  readonly incidentSeverity: string;
+} & Record<string, unknown>;
+
+export type TimelineLine = FindingLine | IncidentLine;
+
+export interface RejectedRecord {
+  readonly line: number;
+  readonly sampleId?: string;
+  readonly errors: readonly FieldIssue[];
+}
+
+export interface ReplayOptions {
+  readonly config: Config;
+  /** The processing time: each record's arrival, and what decides backfill (quiet). Default: the clock when replay starts. */
+  readonly now?: number;
+  /** Told about each rejected record as it is met. */
+  readonly onRejected?: (r: RejectedRecord) => void;
+}
+
+export interface ReplayOutcome {
+  readonly timeline: TimelineLine[];
+  readonly records: number;
+  readonly rejected: number;
+  /** The final state. */
+  readonly store: MemoryStore;
+}
+
+const DAY_MS = 86_400_000;
+
+export async function replayRecords(records: AsyncIterable<SourceRecord> | Iterable<SourceRecord>, options: ReplayOptions): Promise<ReplayOutcome> {
+  const { config } = options;
+  const now = options.now ?? Date.now();
+  const store = new MemoryStore({ config, now: () => now });
+  const deps: EvaluationDeps = { store, ledger: store, config, rules: incidentRules(config), now: () => now };
+  const printed = new Map<string, string>();
+  const keyed: Array<{ key: number; line: TimelineLine }> = [];
+  let count = 0;
+  let rejected = 0;
+  const reject = (r: RejectedRecord) => {
+    rejected += 1;
+    options.onRejected?.(r);
+  };
+  const quietBefore = now - config.backfill.quietAfterDays * DAY_MS;
+  for await (const r of records) {
+    count += 1;
+    if ('issues' in r) {
+      reject({ line: r.line, errors: r.issues });
+      continue;
+    }
+    let stored;
+    try {
+      stored = await storeResult(store, config, r.record, now);
+    } catch (e) {
+      if (!(e instanceof InvalidResultError)) throw e;
+      reject({ line: r.line, ...(e.sampleId !== undefined && { sampleId: e.sampleId }), errors: e.issues });
+      continue;
+    }
+    if (!stored.outcome.evaluationDue) continue;
+    await settleComponent(deps, stored.sample, (result) => {
+      const key = Math.max(...result.steps.map((s) => Date.parse(s.sampledAt)));
+      for (const step of result.steps) {
+        for (const f of changedFindings(step, printed)) keyed.push({ key: Date.parse(f.sampledAt), line: { type: 'finding', ...f, quiet: Date.parse(f.sampledAt) < quietBefore } });
+      }
+      for (const c of result.changes) {
+        const { kind, ...entry } = c.entry;
+        keyed.push({
+          key,
+          line: {
+            type: 'incident',
+            incidentId: c.incidentId,
+            unit: c.unit,
+            component: c.component,
+            ...entry,
+            // A finding entry has a `change` of its own (raised, severity-changed, cleared): it moves aside for the kind.
+            ...('change' in entry && { findingChange: entry.change }),
+            change: kind,
+            incidentState: c.state,
+            incidentSeverity: c.severity,
+          } as IncidentLine,
+        });
+      }
+    });
+  }
+  // Array.prototype.sort is stable: lines of one instant keep the order they were produced in.
+  const timeline = keyed.sort((a, b) => a.key - b.key).map((k) => k.line);
+  return { timeline, records: count, rejected, store };
+}
+
+/** The step's findings unless exactly these were listed for its sample before (a step folded again). */
+function changedFindings(step: Step, printed: Map<string, string>): readonly Finding[] {
+  const fingerprint = JSON.stringify(step.findings);
+  if (printed.get(step.sampleId) === fingerprint) return [];
+  printed.set(step.sampleId, fingerprint);
+  return step.findings;
+}

@@ -1,0 +1,61 @@
+/**
+ * Evaluates a component until nothing is due, as the results and evaluate processors both do: when another worker
+ * holds the component it says so (the caller schedules a later try, which the holder usually makes unnecessary: it
+ * evaluates again before letting go whenever more results arrived meanwhile). Every component the group's cascade
+ * marks is scheduled on its partition's evaluate queue.
+ */
+import type { Queue } from 'bullmq';
+import { componentKey } from '../domain/event.ts';
+import { evaluateStored, type EvaluationDeps } from '../pipeline/evaluateStored.ts';
+import { incidentEvent, type LiveEvent } from '../pipeline/liveEvent.ts';
+import type { ComponentRef } from '../pipeline/ports.ts';
+import type { Partitions } from '../redis/keys.ts';
+import type { Logger } from '../runtime/logger.ts';
+import type { Metrics } from '../runtime/metrics.ts';
+import { scheduleEvaluation } from './queues.ts';
+
+export interface EvaluationRunnerDeps extends EvaluationDeps {
+  readonly partitions: Partitions;
+  /** The evaluate queue of each partition. */
+  readonly evaluateQueues: readonly Queue[];
+  readonly logger: Logger;
+  readonly metrics?: Metrics;
+  readonly live?: (event: LiveEvent) => void;
+  /** Told when an evaluation produced messages or escalation checks (the outbox relay drains then). */
+  readonly onEffects?: () => void;
+}
+
+export type RunOutcome = 'done' | 'busy';
+
+/** Evaluations of one component in a row before it lets others have a turn (a flood of one component's results). */
+const MAX_ROUNDS = 50;
+
+export async function runEvaluation(deps: EvaluationRunnerDeps, ref: ComponentRef): Promise<RunOutcome> {
+  for (let round = 0; round < MAX_ROUNDS; round++) {
+    const result = await evaluateStored(deps, ref);
+    switch (result.kind) {
+      case 'busy':
+      case 'lost-lock':
+        return 'busy';
+      case 'retry':
+        continue;
+      case 'empty':
+      case 'unchanged':
+        return 'done';
+      case 'evaluated': {
+        deps.metrics?.evaluated(result.durationMs / 1000, 'evaluated');
+        deps.metrics?.findings(result.steps.flatMap((s) => s.findings));
+        for (const change of result.changes) deps.live?.(incidentEvent(change));
+        if (result.effects.length > 0) deps.onEffects?.();
+        for (const c of result.cascade) {
+          await deps.store.markDirty(c.ref, c.from);
+          await scheduleEvaluation(deps.evaluateQueues[deps.partitions.of(c.ref)]!, c.ref);
+        }
+        if (result.cascade.length > 0) deps.logger.debug({ component: componentKey(ref), cascade: result.cascade.length }, 'group statistics changed: later samples of other units judged again');
+      }
+    }
+  }
+  // Still more due: leave the rest to a scheduled evaluation so other components get their turn.
+  await scheduleEvaluation(deps.evaluateQueues[deps.partitions.of(ref)]!, ref);
+  return 'done';
+}

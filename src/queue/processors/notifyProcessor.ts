@@ -1,0 +1,39 @@
+/**
+ * The notify processor: renders one message (with the trend chart for e-mail) and delivers it over its channel.
+ * Failures the receiver may get over are retried with backoff, or after its Retry-After.
+ */
+import type { Job, Processor } from 'bullmq';
+import type { Config } from '../../domain/config.ts';
+import type { NotifyEffect } from '../../incidents/model.ts';
+import type { ComponentStore, GroupLedger } from '../../pipeline/ports.ts';
+import type { Logger } from '../../runtime/logger.ts';
+import { incidentChart } from '../incidentChart.ts';
+import { incidentMessage } from '../incidentMessage.ts';
+import type { NotificationChannels } from '../notificationChannels.ts';
+
+export interface NotifyDeps {
+  readonly store: ComponentStore;
+  readonly ledger: GroupLedger;
+  readonly config: Config;
+  readonly channels: NotificationChannels;
+  readonly apiBaseUrl: string;
+  readonly logger: Logger;
+}
+
+export function notifyProcessor(deps: NotifyDeps): Processor<NotifyEffect> {
+  // The chart is a help, not the message: a history it cannot draw sends the mail without it.
+  const emailChart = async (effect: NotifyEffect) => {
+    try {
+      return await incidentChart(deps.store, deps.ledger, deps.config, effect);
+    } catch (e) {
+      deps.logger.warn({ incidentId: effect.incidentId, err: (e as Error).message }, 'incident e-mail sent without its trend chart');
+      return undefined;
+    }
+  };
+  return async (job: Job<NotifyEffect>) => {
+    const effect = job.data;
+    const samples = (await deps.store.revisions(effect.incident)).map((s) => s.sample);
+    const chart = effect.channel === 'email' ? await emailChart(effect) : undefined;
+    return deps.channels.deliver(effect, incidentMessage(effect, samples, deps.apiBaseUrl), job.attemptsMade + 1, chart);
+  };
+}

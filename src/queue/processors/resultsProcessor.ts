@@ -1,0 +1,34 @@
+/**
+ * The results processor: stores one lab result and, when the component is free, evaluates it in the same job (one
+ * job per result on the hot path). A result whose component another worker is evaluating leaves an evaluate job
+ * behind, which usually finds nothing left to do: the holder evaluates again before letting go.
+ */
+import { UnrecoverableError, type Job, type Processor } from 'bullmq';
+import { InvalidResultError, storeResult } from '../../pipeline/storeResult.ts';
+import { runEvaluation, type EvaluationRunnerDeps } from '../evaluationRunner.ts';
+import { DEFAULT_EVALUATE_RETRY_MS, scheduleEvaluation } from '../queues.ts';
+
+export function resultsProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_EVALUATE_RETRY_MS): Processor {
+  return async (job: Job) => {
+    let stored;
+    try {
+      stored = await storeResult(deps.store, deps.config, job.data, deps.now());
+    } catch (e) {
+      if (e instanceof InvalidResultError) {
+        deps.metrics?.rejected('queue', e.issues);
+        throw new UnrecoverableError(e.message);
+      }
+      throw e;
+    }
+    deps.metrics?.stored(stored.outcome.status);
+    const { sample } = stored;
+    if (stored.outcome.status === 'new' || stored.outcome.status === 'replacement') {
+      deps.live?.({ type: 'result', unit: sample.unit, component: sample.component, sampleId: sample.sampleId, sampledAt: sample.sampledAt });
+    }
+    if (stored.outcome.evaluationDue) {
+      const outcome = await runEvaluation(deps, sample);
+      if (outcome === 'busy') await scheduleEvaluation(deps.evaluateQueues[deps.partitions.of(sample)]!, sample, retryMs);
+    }
+    return { sampleId: sample.sampleId, revision: sample.revision, unit: sample.unit, component: sample.component, status: stored.outcome.status };
+  };
+}

@@ -1,0 +1,126 @@
+/**
+ * Redis connections, to one Redis or to a Redis Cluster. BullMQ workers block on Redis and must retry for ever
+ * (`maxRetriesPerRequest: null`); request paths (HTTP intake, readiness probe) must fail fast instead of queueing
+ * commands while Redis is away, so they get a connection without the offline queue.
+ */
+import { Cluster, Redis, type ClusterOptions, type RedisOptions } from 'ioredis';
+import type { Config } from '../domain/config.ts';
+import { InputError } from '../domain/errors.ts';
+import { maskUrl, type Logger } from '../runtime/logger.ts';
+
+export const DEFAULT_REDIS_URL = 'redis://127.0.0.1:6379';
+
+/** One Redis by URL, or a Redis Cluster by its seed nodes. */
+export type RedisTarget = { readonly kind: 'single'; readonly url: string } | { readonly kind: 'cluster'; readonly nodes: readonly { host: string; port: number }[] };
+
+export type RedisConnection = Redis | Cluster;
+
+/** `REDIS_URL` wins over the configuration file, which wins over the local default. */
+export function redisUrl(config: Pick<Config, 'redis'>, env: NodeJS.ProcessEnv = process.env): string {
+  return env.REDIS_URL || config.redis.url || DEFAULT_REDIS_URL;
+}
+
+/** `REDIS_CLUSTER_NODES=host:port,host:port` (or `redis.cluster.nodes`) names a cluster; otherwise one Redis by URL. */
+export function redisTarget(config: Pick<Config, 'redis'>, env: NodeJS.ProcessEnv = process.env): RedisTarget {
+  const listed = env.REDIS_CLUSTER_NODES?.split(',').map((s) => s.trim()).filter((s) => s !== '') ?? config.redis.cluster?.nodes;
+  if (listed === undefined || listed.length === 0) return { kind: 'single', url: redisUrl(config, env) };
+  const nodes = listed.map((n) => {
+    const m = /^([^\s:]+):(\d{1,5})$/.exec(n);
+    if (!m) throw new InputError(`REDIS_CLUSTER_NODES / redis.cluster.nodes: "${n}" is not host:port`);
+    return { host: m[1]!, port: Number(m[2]) };
+  });
+  return { kind: 'cluster', nodes };
+}
+
+/** For logs and messages: the URL without its password, or the seed nodes. */
+export function describeTarget(t: RedisTarget): string {
+  return t.kind === 'single' ? maskUrl(t.url) : `cluster ${t.nodes.map((n) => `${n.host}:${n.port}`).join(',')}`;
+}
+
+export type ConnectionRole = 'worker' | 'request';
+
+function roleOptions(role: ConnectionRole): RedisOptions {
+  return role === 'worker'
+    ? { maxRetriesPerRequest: null, enableReadyCheck: true }
+    : { maxRetriesPerRequest: 1, enableOfflineQueue: false, connectTimeout: 2000 };
+}
+
+export function connectRedis(target: string | RedisTarget, role: ConnectionRole, logger?: Logger): RedisConnection {
+  const t: RedisTarget = typeof target === 'string' ? { kind: 'single', url: target } : target;
+  const options = roleOptions(role);
+  const retryStrategy = (attempt: number) => Math.min(200 * attempt, 2000);
+  const redis: RedisConnection =
+    t.kind === 'single'
+      ? new Redis(t.url, { ...options, retryStrategy, lazyConnect: false })
+      : new Cluster([...t.nodes], {
+          redisOptions: options,
+          clusterRetryStrategy: retryStrategy,
+          enableReadyCheck: true,
+          // BullMQ needs this for workers; requests fail fast through redisOptions.
+          ...(role === 'worker' && { enableOfflineQueue: true }),
+          ...(role === 'request' && { enableOfflineQueue: false }),
+        } satisfies ClusterOptions);
+  let reported = false;
+  const where = describeTarget(t);
+  // ioredis emits an error for every failed reconnect; one line per outage is enough.
+  redis.on('error', (e: Error) => {
+    if (reported) return;
+    reported = true;
+    logger?.warn({ err: e.message, redis: where, role }, 'redis connection error');
+  });
+  redis.on('ready', () => {
+    if (reported) logger?.info({ redis: where, role }, 'redis connection restored');
+    reported = false;
+  });
+  return redis;
+}
+
+/**
+ * BullMQ loses jobs when Redis evicts keys under memory pressure, and so would the histories: only
+ * `noeviction` is safe. Managed services sometimes forbid CONFIG; then say that the policy is unknown.
+ */
+export async function checkEvictionPolicy(redis: RedisConnection, logger: Logger): Promise<string | undefined> {
+  try {
+    const reply = (await redis.config('GET', 'maxmemory-policy')) as unknown as string[];
+    const policy = reply[1];
+    if (policy !== 'noeviction') {
+      logger.warn(
+        { maxmemoryPolicy: policy },
+        `Redis maxmemory-policy is "${policy}": under memory pressure Redis will evict queued jobs and stored histories. Set maxmemory-policy to noeviction.`,
+      );
+    }
+    return policy;
+  } catch (e) {
+    logger.warn({ err: (e as Error).message }, 'could not read the Redis maxmemory-policy (CONFIG GET refused); make sure it is noeviction');
+    return undefined;
+  }
+}
+
+/** A connection for a command line: it fails at once when Redis is away instead of retrying for ever. */
+export async function connectForCommand(target: string | RedisTarget): Promise<RedisConnection> {
+  const t: RedisTarget = typeof target === 'string' ? { kind: 'single', url: target } : target;
+  if (t.kind === 'cluster') {
+    const cluster = new Cluster([...t.nodes], { lazyConnect: true, redisOptions: { maxRetriesPerRequest: 1, connectTimeout: 3000 }, clusterRetryStrategy: () => null });
+    cluster.on('error', () => {});
+    try {
+      await cluster.connect();
+    } catch (e) {
+      cluster.disconnect();
+      throw new InputError(`cannot reach the Redis Cluster at ${describeTarget(t)} (REDIS_CLUSTER_NODES or redis.cluster.nodes): ${(e as Error).message}`);
+    }
+    return cluster;
+  }
+  const redis = new Redis(t.url, { lazyConnect: true, maxRetriesPerRequest: 1, connectTimeout: 3000, retryStrategy: () => null });
+  redis.on('error', () => {});
+  try {
+    await redis.connect();
+  } catch (e) {
+    redis.disconnect();
+    throw new InputError(`cannot reach Redis at ${maskUrl(t.url)} (REDIS_URL or redis.url): ${(e as Error).message}`);
+  }
+  return redis;
+}
+
+export async function closeQuietly(redis: RedisConnection): Promise<void> {
+  await redis.quit().catch(() => redis.disconnect());
+}

@@ -1,0 +1,111 @@
+/**
+ * Key layout. Components are spread over N partitions by a hash of their identity; every key of a partition carries
+ * the partition's hash tag, so the Lua scripts, which touch a component's keys, its group's share in the partition
+ * and the partition's incident records and outbox at once, stay within one Redis Cluster slot, while the cluster
+ * spreads the partitions over its shards. With one partition (the default) the tag is the configured prefix itself
+ * (`{wearshift}`), as on a single Redis.
+ *
+ * Changing the number of partitions moves every component to another partition: stop the workers, export the
+ * histories (`wearshift backfill` of an export, or a Redis migration), and import them again; see the README.
+ */
+import { createHash } from 'node:crypto';
+import { componentKey } from '../domain/event.ts';
+
+export const DEFAULT_PREFIX = '{wearshift}';
+
+export interface ComponentRefLike {
+  readonly unit: string;
+  readonly component: string;
+}
+
+/** The prefix without its braces, e.g. "wearshift". */
+function inner(prefix: string): string {
+  const m = /^\{([^{}]+)\}$/.exec(prefix);
+  return m ? m[1]! : prefix.replace(/[{}]/g, '');
+}
+
+export class Partitions {
+  readonly count: number;
+  private readonly prefix: string;
+
+  constructor(prefix: string = DEFAULT_PREFIX, count = 1) {
+    if (!(Number.isInteger(count) && count >= 1 && count <= 1024)) throw new RangeError(`partitions must be a whole number from 1 to 1024, got ${count}`);
+    this.count = count;
+    this.prefix = prefix;
+  }
+
+  /** The hash tag of partition `p` (the configured prefix when there is one partition). */
+  tag(p: number): string {
+    return this.count === 1 ? this.prefix : `{${inner(this.prefix)}/${p}}`;
+  }
+
+  /** The partition of a component: stable for its identity. */
+  of(ref: ComponentRefLike): number {
+    if (this.count === 1) return 0;
+    const digest = createHash('sha1').update(componentKey(ref)).digest();
+    return digest.readUInt32BE(0) % this.count;
+  }
+
+  all(): number[] {
+    return Array.from({ length: this.count }, (_, i) => i);
+  }
+
+  /** The tag of queues that are not partitioned (notifications, escalations). */
+  sharedTag(): string {
+    return this.count === 1 ? this.prefix : `{${inner(this.prefix)}/shared}`;
+  }
+}
+
+/** Keys of one component, in its partition. */
+export function componentKeys(tag: string, ref: ComponentRefLike) {
+  const c = `${tag}:c:${encodeURIComponent(ref.unit)}/${encodeURIComponent(ref.component)}`;
+  return {
+    /** hash `sampleId␟revision` → `receivedAt|encoded sample`: every revision ever stored. */
+    revisions: `${c}:rev`,
+    /** hash sampleId → `revision|time|unitHours|share`: the revision in force, its position and its population share. */
+    winners: `${c}:win`,
+    /** sorted set sampleId by sampling time of the revision in force. */
+    order: `${c}:ord`,
+    /** hash: mark, done, dirty, latest checkpoint, sparse checkpoints (cp|…), incidents, version, marks, baseline shares (bl|…), group. */
+    evaluation: `${c}:ev`,
+    /** hash `month|field` → number: the component's own shares of its group's month buckets (to take out of "as of"). */
+    own: `${c}:own`,
+    /** hash `time|sampleId` → step JSON: the steps with findings (the latest ones). */
+    steps: `${c}:steps`,
+    /** sorted set incident id by opening time: the component's incidents on record. */
+    incidents: `${c}:inc`,
+    lock: `${c}:lock`,
+  };
+}
+
+/** Keys of one partition. */
+export function partitionKeys(tag: string) {
+  return {
+    /** hash component key → {unit, component, group}. */
+    registry: `${tag}:components`,
+    /** hash incident id → incident JSON. */
+    records: `${tag}:inc:records`,
+    /** sorted sets of open (by severity and age) and closed (by closing time) incident ids. */
+    open: `${tag}:inc:open`,
+    closed: `${tag}:inc:closed`,
+    /** list of effects waiting to be handed to the queues, and the claimed ones. */
+    outbox: `${tag}:inc:outbox`,
+    outboxClaimed: `${tag}:inc:outbox:claimed`,
+    /** Group keys live under this prefix + group name: `…:v` month versions, `…:m:<month>` buckets, `…:h` horizons. */
+    groupPrefix: `${tag}:g:`,
+  };
+}
+
+export function groupKeys(tag: string, group: string) {
+  const g = `${tag}:g:${encodeURIComponent(group)}`;
+  return {
+    /** hash month → version: a month bucket changed when its version did. */
+    versions: `${g}:v`,
+    bucketPrefix: `${g}:m:`,
+    bucket: (month: string) => `${g}:m:${month}`,
+    /** sorted set of the partition's components of the group by the sampling time they were evaluated up to. */
+    horizons: `${g}:h`,
+  };
+}
+
+export { componentKey };

@@ -1,0 +1,227 @@
+/**
+ * The incident API over Redis: reading incidents (one, a list across partitions), an operator's action or a delayed
+ * escalation check (read the component's incidents, run the pure engine, commit with a compare-and-set on their
+ * version together with the records, the list indexes and the outbox of messages — all or nothing), and handing the
+ * outbox over to the queues. Evaluations write the same keys in their commit (redisStore.ts).
+ */
+import type { Step } from '../analysis/model.ts';
+import { applyAction, type ActionResult, type IncidentAction } from '../incidents/applyAction.ts';
+import { applyEscalationCheck, type EscalationCheck } from '../incidents/applyEscalationCheck.ts';
+import { applySteps } from '../incidents/applySteps.ts';
+import { IncidentConflictError, IncidentNotFoundError } from '../incidents/errors.ts';
+import { matchesFilter, type IncidentFilter } from '../incidents/listFilter.ts';
+import { emptyComponentIncidents, findIncident, summarize, type ComponentIncidents, type Incident, type IncidentEffect, type IncidentSummary } from '../incidents/model.ts';
+import type { IncidentRules } from '../incidents/policy.ts';
+import { componentKeys, partitionKeys, Partitions } from './keys.ts';
+import { incidentRecordRows, type RedisConnection } from './redisStore.ts';
+import { CLAIM_OUTBOX, UPDATE_INCIDENTS } from './scripts.ts';
+
+export interface RedisIncidentsOptions {
+  readonly rules: IncidentRules;
+  /** Key prefix; default `{wearshift}`. Keep a hash tag (braces) for Redis Cluster. */
+  readonly prefix?: string;
+  /** Partitions, as the worker's storage uses them. Default 1. */
+  readonly partitions?: number;
+  /** Compare-and-set attempts before an operation gives up under contention; default 25. */
+  readonly maxAttempts?: number;
+}
+
+export interface ComponentRef {
+  readonly unit: string;
+  readonly component: string;
+}
+
+export interface StepsInput {
+  readonly group: string;
+  readonly now: Date;
+  readonly quietBefore: Date;
+}
+
+export interface StoredStepsResult {
+  readonly before: ComponentIncidents;
+  readonly state: ComponentIncidents;
+  readonly effects: readonly IncidentEffect[];
+}
+
+export interface DrainOptions {
+  /** Effects handed over per call of the handler; default 100. */
+  readonly batchSize?: number;
+  /** A claimed batch whose handler neither finished nor failed within this time is handed out again; default 60 s. */
+  readonly claimTimeoutMs?: number;
+  /** Default: the system clock. */
+  readonly now?: () => number;
+}
+
+/** The component an incident belongs to, from its id (`unit/component[/…]@sampleId`; names hold no "/"). */
+export function ownerOf(incidentId: string): ComponentRef | undefined {
+  const at = incidentId.indexOf('@');
+  if (at <= 0) return undefined;
+  const [unit, component] = incidentId.slice(0, at).split('/');
+  return unit && component ? { unit, component } : undefined;
+}
+
+export class RedisIncidents {
+  readonly partitions: Partitions;
+  private readonly rules: IncidentRules;
+  private readonly maxAttempts: number;
+
+  constructor(
+    private readonly redis: RedisConnection,
+    options: RedisIncidentsOptions,
+  ) {
+    this.partitions = new Partitions(options.prefix, options.partitions ?? 1);
+    this.rules = options.rules;
+    this.maxAttempts = options.maxAttempts ?? 25;
+  }
+
+  private keysOf(ref: ComponentRef) {
+    const tag = this.partitions.tag(this.partitions.of(ref));
+    return { c: componentKeys(tag, ref), p: partitionKeys(tag) };
+  }
+
+  /** Feeds evaluation steps of one component (see applySteps); effects go to the outbox. For tools and tests. */
+  async applySteps(ref: ComponentRef, steps: readonly Step[], input: StepsInput): Promise<StoredStepsResult> {
+    return this.update(ref, (before) => {
+      const r = applySteps(before, steps, { ...input, rules: this.rules });
+      return { ...r, before };
+    });
+  }
+
+  /** An operator action (acknowledge, shelve, unshelve, resolve, note); errors name the field or the conflict. */
+  async applyAction(action: IncidentAction): Promise<ActionResult> {
+    const ref = ownerOf(action.incidentId);
+    if (ref === undefined || (await this.get(action.incidentId)) === undefined) throw new IncidentNotFoundError(action.incidentId);
+    return this.update(ref, (state) => {
+      if (findIncident(state, action.incidentId) === undefined) {
+        // Only a closed incident leaves the component's state: a later one of the same key replaced it.
+        throw new IncidentConflictError(action.incidentId, 'is closed and archived; its timeline is final');
+      }
+      return applyAction(state, action, this.rules);
+    });
+  }
+
+  /** A delayed escalation check; an incident the store does not know is a stale job and yields nothing. */
+  async applyEscalationCheck(check: EscalationCheck): Promise<{ effects: readonly IncidentEffect[] }> {
+    const ref = ownerOf(check.incidentId);
+    if (ref === undefined) return { effects: [] };
+    const r = await this.update(ref, (state) => applyEscalationCheck(state, check, this.rules));
+    return { effects: r.effects };
+  }
+
+  async component(ref: ComponentRef): Promise<ComponentIncidents> {
+    return (await this.read(ref)).state;
+  }
+
+  async get(incidentId: string): Promise<Incident | undefined> {
+    const ref = ownerOf(incidentId);
+    if (ref === undefined) return undefined;
+    const raw = await this.redis.hget(this.keysOf(ref).p.records, incidentId);
+    return raw === null ? undefined : (JSON.parse(raw) as Incident);
+  }
+
+  /** Open incidents by severity (highest first), then newest first; closed ones newest closing first. */
+  async list(filter: IncidentFilter): Promise<IncidentSummary[]> {
+    const wantOpen = filter.state !== 'closed';
+    const wantClosed = filter.state === 'closed' || filter.state === 'all';
+    const out: IncidentSummary[] = [];
+    if (wantOpen) out.push(...(await this.scanAll('open', false, filter)));
+    if (wantClosed && out.length < filter.limit) out.push(...(await this.scanAll('closed', true, filter)).slice(0, filter.limit - out.length));
+    return out.slice(0, filter.limit);
+  }
+
+  /**
+   * Hands the outbox of every partition to `handler` in batches until it is empty; returns how many effects were
+   * handed over. An effect leaves the outbox only after its handler resolved; a failed or interrupted batch is handed
+   * out again (after the claim timeout), so the handler must be idempotent — effect keys make that easy.
+   */
+  async drainOutbox(handler: (effects: IncidentEffect[]) => Promise<void>, options: DrainOptions = {}): Promise<number> {
+    const batchSize = options.batchSize ?? 100;
+    const claimTimeoutMs = options.claimTimeoutMs ?? 60_000;
+    const now = options.now ?? Date.now;
+    let handed = 0;
+    for (const n of this.partitions.all()) {
+      const p = partitionKeys(this.partitions.tag(n));
+      for (;;) {
+        const t = now();
+        const raw = (await this.redis.eval(CLAIM_OUTBOX, 2, p.outbox, p.outboxClaimed, String(t), String(batchSize), String(t - claimTimeoutMs))) as string[];
+        if (raw.length === 0) break;
+        await handler(raw.map((r) => JSON.parse(r) as IncidentEffect));
+        await this.redis.zrem(p.outboxClaimed, ...raw);
+        handed += raw.length;
+      }
+    }
+    return handed;
+  }
+
+  /** Effects waiting in the outboxes, and claimed ones not yet confirmed. */
+  async outboxSize(): Promise<{ waiting: number; claimed: number }> {
+    const sizes = await Promise.all(
+      this.partitions.all().map(async (n) => {
+        const p = partitionKeys(this.partitions.tag(n));
+        return [await this.redis.llen(p.outbox), await this.redis.zcard(p.outboxClaimed)] as const;
+      }),
+    );
+    return { waiting: sizes.reduce((a, [w]) => a + w, 0), claimed: sizes.reduce((a, [, c]) => a + c, 0) };
+  }
+
+  /** Every partition's index merged in order (scores: open by severity and age ascending, closed newest first). */
+  private async scanAll(which: 'open' | 'closed', newestFirst: boolean, filter: IncidentFilter): Promise<IncidentSummary[]> {
+    const lists = await Promise.all(this.partitions.all().map((n) => this.scan(n, which, newestFirst, filter)));
+    const all = lists.flat();
+    all.sort((a, b) => (newestFirst ? b.score - a.score : a.score - b.score) || (a.summary.id < b.summary.id ? -1 : 1));
+    return all.slice(0, filter.limit).map((x) => x.summary);
+  }
+
+  private async scan(n: number, which: 'open' | 'closed', newestFirst: boolean, filter: IncidentFilter): Promise<Array<{ score: number; summary: IncidentSummary }>> {
+    const p = partitionKeys(this.partitions.tag(n));
+    const zset = which === 'open' ? p.open : p.closed;
+    const out: Array<{ score: number; summary: IncidentSummary }> = [];
+    const page = 200;
+    for (let start = 0; out.length < filter.limit; start += page) {
+      const flat = newestFirst ? await this.redis.zrevrange(zset, start, start + page - 1, 'WITHSCORES') : await this.redis.zrange(zset, start, start + page - 1, 'WITHSCORES');
+      if (flat.length === 0) break;
+      const ids: string[] = [];
+      const scores: number[] = [];
+      for (let i = 0; i < flat.length; i += 2) {
+        ids.push(flat[i]!);
+        scores.push(Number(flat[i + 1]));
+      }
+      const records = await this.redis.hmget(p.records, ...ids);
+      records.forEach((raw, i) => {
+        if (raw === null || out.length >= filter.limit) return;
+        const summary = summarize(JSON.parse(raw) as Incident);
+        if (matchesFilter(summary, filter)) out.push({ score: scores[i]!, summary });
+      });
+      if (ids.length < page) break;
+    }
+    return out;
+  }
+
+  private async read(ref: ComponentRef): Promise<{ version: string; state: ComponentIncidents }> {
+    const [version, raw] = await this.redis.hmget(this.keysOf(ref).c.evaluation, 'version', 'incidents');
+    return { version: version ?? '0', state: raw === null || raw === undefined ? emptyComponentIncidents(ref.unit, ref.component) : (JSON.parse(raw) as ComponentIncidents) };
+  }
+
+  private async update<R extends { state: ComponentIncidents; effects: readonly IncidentEffect[]; archived?: readonly Incident[] }>(
+    ref: ComponentRef,
+    operate: (state: ComponentIncidents) => R,
+  ): Promise<R> {
+    const { c, p } = this.keysOf(ref);
+    for (let attempt = 1; ; attempt++) {
+      const { version, state } = await this.read(ref);
+      const result = operate(state);
+      const changed = [...changedIncidents(state, result.state), ...(result.archived ?? [])];
+      if (changed.length === 0 && result.effects.length === 0 && JSON.stringify(state) === JSON.stringify(result.state)) return result;
+      const payload = { state: JSON.stringify(result.state), records: incidentRecordRows(changed), outbox: result.effects.map((e) => JSON.stringify(e)) };
+      const committed = await this.redis.eval(UPDATE_INCIDENTS, 6, c.evaluation, p.records, p.open, p.closed, p.outbox, c.incidents, version, JSON.stringify(payload));
+      if (committed === 1) return result;
+      if (attempt >= this.maxAttempts) throw new Error(`incidents of ${ref.unit}/${ref.component}: gave up after ${attempt} concurrent updates`);
+      await new Promise((r) => setTimeout(r, Math.random() * Math.min(50, 2 ** attempt)));
+    }
+  }
+}
+
+function changedIncidents(before: ComponentIncidents, after: ComponentIncidents): Incident[] {
+  const old = new Map(Object.values(before.incidents).map((i) => [i.id, JSON.stringify(i)]));
+  return Object.values(after.incidents).filter((i) => old.get(i.id) !== JSON.stringify(i));
+}

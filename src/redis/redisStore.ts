@@ -1,0 +1,478 @@
+/**
+ * The pipeline's storage on Redis (single node or Cluster): components and their group shares partitioned by
+ * component (keys.ts), every write that must not be seen half-done one Lua script (scripts.ts). Implements the
+ * component store and the group ledger of src/pipeline/ports.ts; the incident API (list, get, actions) over the
+ * same keys is redisIncidents.ts.
+ */
+import { randomUUID } from 'node:crypto';
+import type { GroupStats, SampleMark } from '../analysis/model.ts';
+import type { Config } from '../domain/config.ts';
+import { ConfigSchema } from '../domain/config.ts';
+import { componentKey, type Sample } from '../domain/event.ts';
+import type { Measurand } from '../domain/measurands.ts';
+import { resolveSettings } from '../domain/settings.ts';
+import { severityRank } from '../domain/finding.ts';
+import { emptyComponentIncidents, type ComponentIncidents, type Incident, type StepPosition } from '../incidents/model.ts';
+import { comparePosition } from '../incidents/verdict.ts';
+import { baselineBucketOf, combineBuckets, groupStatsOf, type BaselineBucket, type MonthBucket, type PopulationCell } from '../pipeline/groupShares.ts';
+import type {
+  BaselineShare,
+  Checkpoint,
+  CommitOutcome,
+  ComponentEntry,
+  ComponentRef,
+  ComponentStore,
+  EvaluationCommit,
+  EvaluationInput,
+  GroupLedger,
+  Lease,
+  StepRecord,
+  StoredSample,
+  StoreOutcome,
+  StoreStatus,
+} from '../pipeline/ports.ts';
+import { decodeSample, encodeSample } from '../pipeline/sampleCodec.ts';
+import type { RedisConnection } from './connection.ts';
+import { componentKeys, groupKeys, partitionKeys, Partitions } from './keys.ts';
+import { COMMIT_EVALUATION, MARK_DIRTY, MARK_SAMPLE, RELEASE_LOCK, RENEW_LOCK, STORE_SAMPLE } from './scripts.ts';
+
+export type { RedisConnection };
+
+export interface RedisStoreOptions {
+  /** Key prefix; keep a hash tag (braces) for Redis Cluster. Default `{wearshift}`. */
+  readonly prefix?: string;
+  /** Partitions of the keys (see keys.ts and the README on sharding). Default 1. */
+  readonly partitions?: number;
+  /** Steps with findings kept per component in the findings log (the oldest go first). Default 200. */
+  readonly findingsLogLimit?: number;
+  /** The configuration, for each group's population settings. Default: the built-in defaults. */
+  readonly config?: Config;
+}
+
+export const DEFAULT_FINDINGS_LOG_LIMIT = 200;
+
+type ScriptCall = (...args: string[]) => Promise<unknown>;
+
+const BASELINE_FIELDS = ['components', 'intervals', 'sumHours', 'sumHoursSq', 'sumIncrement', 'sumIncrementSq', 'sumIncrementHours', 'sumLabVariance', 'sumRate', 'sumRateSq', 'positive', 'sumLog', 'sumLogSq'] as const;
+
+export function positionText(p: StepPosition): string {
+  return `${p.time}|${p.unitHours ?? ''}|${p.sampleId}`;
+}
+
+export function parsePosition(text: string): StepPosition {
+  const [time, unitHours, ...rest] = text.split('|');
+  return { sampleId: rest.join('|'), time: Number(time), ...(unitHours !== '' && unitHours !== undefined && { unitHours: Number(unitHours) }) };
+}
+
+/** Open incidents by severity (highest first), then the most recently opened. */
+export function openScore(inc: Incident): string {
+  return String((2 - severityRank(inc.severity)) * 1e13 + (1e13 - Date.parse(inc.openedAt)));
+}
+
+export function incidentRecordRows(incidents: readonly Incident[]): Array<[string, string, 'open' | 'closed', string, string]> {
+  return incidents.map((inc) => [
+    inc.id,
+    JSON.stringify(inc),
+    inc.closed === null ? 'open' : 'closed',
+    inc.closed === null ? openScore(inc) : String(Date.parse(inc.closed.at)),
+    String(Date.parse(inc.openedAt)),
+  ]);
+}
+
+export class RedisStore implements ComponentStore, GroupLedger {
+  readonly partitions: Partitions;
+  private readonly findingsLogLimit: number;
+  private readonly config: Config;
+  private readonly scripts: Record<'store' | 'renew' | 'release' | 'commit' | 'markDirty' | 'markSample', ScriptCall>;
+  /** Month buckets read before, by `partition|group|month` with the version they were read at. */
+  private readonly bucketCache = new Map<string, { version: string; bucket: MonthBucket }>();
+
+  constructor(
+    private readonly redis: RedisConnection,
+    options: RedisStoreOptions = {},
+  ) {
+    this.partitions = new Partitions(options.prefix, options.partitions ?? 1);
+    this.findingsLogLimit = options.findingsLogLimit ?? DEFAULT_FINDINGS_LOG_LIMIT;
+    this.config = options.config ?? ConfigSchema.parse({});
+    const define = (name: string, numberOfKeys: number, lua: string): ScriptCall => {
+      const commandName = `wearshift_${name}`;
+      if (!(commandName in redis)) redis.defineCommand(commandName, { numberOfKeys, lua });
+      const command = (redis as unknown as Record<string, ScriptCall>)[commandName]!;
+      return (...args) => command.apply(redis, args);
+    };
+    this.scripts = {
+      store: define('store', 5, STORE_SAMPLE),
+      renew: define('renewLock', 1, RENEW_LOCK),
+      release: define('releaseLock', 1, RELEASE_LOCK),
+      commit: define('commit', 11, COMMIT_EVALUATION),
+      markDirty: define('markDirty', 1, MARK_DIRTY),
+      markSample: define('markSample', 2, MARK_SAMPLE),
+    };
+  }
+
+  private tagOf(ref: ComponentRef): string {
+    return this.partitions.tag(this.partitions.of(ref));
+  }
+
+  private keysOf(ref: ComponentRef) {
+    const tag = this.tagOf(ref);
+    return { tag, c: componentKeys(tag, ref), p: partitionKeys(tag) };
+  }
+
+  async store(sample: Sample, group: string, receivedAt: number): Promise<StoreOutcome> {
+    const { c, p } = this.keysOf(sample);
+    const registry = JSON.stringify({ unit: sample.unit, component: sample.component, group });
+    const [status, due] = (await this.scripts.store(
+      c.revisions,
+      c.winners,
+      c.order,
+      c.evaluation,
+      p.registry,
+      sample.sampleId,
+      String(sample.revision),
+      encodeSample(sample),
+      String(receivedAt),
+      String(sample.time),
+      sample.unitHours === undefined ? '' : String(sample.unitHours),
+      componentKey(sample),
+      registry,
+    )) as [StoreStatus, number];
+    return { status, evaluationDue: due === 1 };
+  }
+
+  async component(ref: ComponentRef): Promise<ComponentEntry | undefined> {
+    const { c, p } = this.keysOf(ref);
+    const [head, count, last] = await Promise.all([
+      this.redis.hget(p.registry, componentKey(ref)),
+      this.redis.zcard(c.order),
+      this.redis.zrange(c.order, -1, -1, 'WITHSCORES'),
+    ]);
+    if (head === null) return undefined;
+    return entryOf(JSON.parse(head) as RegistryHead, count, last);
+  }
+
+  async components(): Promise<ComponentEntry[]> {
+    const heads = (
+      await Promise.all(this.partitions.all().map(async (n) => Object.values(await this.redis.hgetall(partitionKeys(this.partitions.tag(n)).registry))))
+    )
+      .flat()
+      .map((j) => JSON.parse(j) as RegistryHead);
+    heads.sort((a, b) => (componentKey(a) < componentKey(b) ? -1 : componentKey(a) > componentKey(b) ? 1 : 0));
+    return Promise.all(
+      heads.map(async (h) => {
+        const c = componentKeys(this.tagOf(h), h);
+        const [count, last] = await Promise.all([this.redis.zcard(c.order), this.redis.zrange(c.order, -1, -1, 'WITHSCORES')]);
+        return entryOf(h, count, last);
+      }),
+    );
+  }
+
+  async revisions(ref: ComponentRef): Promise<StoredSample[]> {
+    const { c } = this.keysOf(ref);
+    return Object.values(await this.redis.hgetall(c.revisions)).map((v) => stored(v, ref));
+  }
+
+  async samplesAfter(ref: ComponentRef, position: StepPosition | null): Promise<StoredSample[]> {
+    const { c } = this.keysOf(ref);
+    const ids = position === null ? await this.redis.zrange(c.order, 0, -1) : await this.redis.zrangebyscore(c.order, position.time, '+inf');
+    if (ids.length === 0) return [];
+    const winners = await this.redis.hmget(c.winners, ...ids);
+    const picked: Array<{ id: string; revision: string; position: StepPosition }> = [];
+    ids.forEach((id, i) => {
+      const w = winners[i];
+      if (w === null || w === undefined) return;
+      const [revision, time, unitHours] = w.split('|');
+      const pos: StepPosition = { sampleId: id, time: Number(time), ...(unitHours !== '' && { unitHours: Number(unitHours) }) };
+      if (position === null || comparePosition(pos, position) > 0) picked.push({ id, revision: revision!, position: pos });
+    });
+    picked.sort((a, b) => comparePosition(a.position, b.position));
+    if (picked.length === 0) return [];
+    const values = await this.redis.hmget(c.revisions, ...picked.map((x) => `${x.id}\u001f${x.revision}`));
+    return values.map((v, i) => {
+      if (v === null) throw new Error(`${componentKey(ref)}: revision ${picked[i]!.revision} of ${picked[i]!.id} missing`);
+      return stored(v, ref);
+    });
+  }
+
+  async evaluationInput(ref: ComponentRef): Promise<EvaluationInput | undefined> {
+    const { c, p } = this.keysOf(ref);
+    const [head, count, last, fields] = await Promise.all([
+      this.redis.hget(p.registry, componentKey(ref)),
+      this.redis.zcard(c.order),
+      this.redis.zrange(c.order, -1, -1, 'WITHSCORES'),
+      this.redis.hmget(c.evaluation, 'mark', 'dirty', 'latest', 'incidents', 'version', 'marks'),
+    ]);
+    if (head === null || count === 0) return undefined;
+    const [mark, dirty, latest, incidents, version, marks] = fields;
+    return {
+      entry: entryOf(JSON.parse(head) as RegistryHead, count, last),
+      mark: Number(mark ?? 0),
+      ...(dirty !== null && dirty !== undefined && { dirtyFrom: parsePosition(dirty) }),
+      ...(latest !== null && latest !== undefined && { latest: JSON.parse(latest) as Checkpoint }),
+      marks: new Map(Object.entries(JSON.parse(marks ?? '{}') as Record<string, SampleMark>)),
+      incidents: incidents === null || incidents === undefined ? emptyComponentIncidents(ref.unit, ref.component) : (JSON.parse(incidents) as ComponentIncidents),
+      incidentsVersion: Number(version ?? 0),
+    };
+  }
+
+  async checkpointBefore(ref: ComponentRef, position: StepPosition): Promise<Checkpoint | undefined> {
+    const { c } = this.keysOf(ref);
+    let best: { count: number; field: string } | undefined;
+    for (const field of await this.redis.hkeys(c.evaluation)) {
+      if (!field.startsWith('cp|')) continue;
+      const bar = field.indexOf('|', 3);
+      const count = Number(field.slice(3, bar));
+      if (comparePosition(parsePosition(field.slice(bar + 1)), position) >= 0) continue;
+      if (best === undefined || count > best.count) best = { count, field };
+    }
+    if (best === undefined) return undefined;
+    const json = await this.redis.hget(c.evaluation, best.field);
+    return json === null ? undefined : (JSON.parse(json) as Checkpoint);
+  }
+
+  async acquire(ref: ComponentRef, ttlMs: number): Promise<Lease | undefined> {
+    const { c } = this.keysOf(ref);
+    const token = randomUUID();
+    const ok = await this.redis.set(c.lock, token, 'PX', ttlMs, 'NX');
+    return ok === 'OK' ? { key: c.lock, token } : undefined;
+  }
+
+  async renew(lease: Lease, ttlMs: number): Promise<boolean> {
+    return (await this.scripts.renew(lease.key, lease.token, String(ttlMs))) === 1;
+  }
+
+  async release(lease: Lease): Promise<void> {
+    await this.scripts.release(lease.key, lease.token);
+  }
+
+  async commit(ref: ComponentRef, lease: Lease, commit: EvaluationCommit): Promise<CommitOutcome> {
+    const { tag, c, p } = this.keysOf(ref);
+    const g = groupKeys(tag, commit.group);
+    const settings = resolveSettings(this.config, { unit: ref.unit, component: ref.component, group: commit.group });
+    const payload = {
+      latest: JSON.stringify(commit.latest),
+      sparse: commit.sparse.map((cp) => [`cp|${String(cp.count).padStart(10, '0')}|${positionText(cp.position!)}`, JSON.stringify(cp)]),
+      rewound: commit.rewoundTo === undefined ? '' : commit.rewoundTo === null ? 'start' : positionText(commit.rewoundTo),
+      steps: commit.steps.map((s) => [`${String(Date.parse(s.sampledAt)).padStart(15, '0')}|${s.sampleId}`, s.findings.length === 0 ? '' : JSON.stringify(s)]),
+      limit: this.findingsLogLimit,
+      shares: commit.shares.map((s) => [s.sampleId, s.values === null ? '' : `${s.month};${Object.entries(s.values).map(([f, v]) => `${f}=${v}`).join(',')}`]),
+      baselines: Object.fromEntries(
+        (settings.detection.measurands as Measurand[]).map((m) => {
+          const share = commit.baselines[m];
+          const entry = share && baselineBucketOf(share.sums);
+          return [m, share && entry ? `${share.month};${baselineValues(entry).join(',')}` : ''];
+        }),
+      ),
+      groupPrefix: g.versions.slice(0, -2),
+      member: JSON.stringify({ unit: ref.unit, component: ref.component }),
+      horizon: commit.horizon,
+      registry: JSON.stringify({ unit: ref.unit, component: ref.component, group: commit.group }),
+      keepValues: settings.population.method === 'percentile' ? 1 : 0,
+      componentKey: componentKey(ref),
+      version: String(commit.incidentsVersion),
+      state: JSON.stringify(commit.incidents),
+      records: incidentRecordRows([...Object.values(commit.incidents.incidents), ...commit.archived, ...commit.withdrawn]),
+      outbox: commit.effects.map((e) => JSON.stringify(e)),
+    };
+    const result = (await this.scripts.commit(
+      lease.key,
+      c.evaluation,
+      c.winners,
+      c.steps,
+      c.incidents,
+      c.own,
+      p.registry,
+      p.records,
+      p.open,
+      p.closed,
+      p.outbox,
+      lease.token,
+      String(commit.mark),
+      JSON.stringify(payload),
+    )) as [number, string?];
+    if (result[0] === 0) return { ok: false, reason: 'lost-lock' };
+    if (result[0] === -1) return { ok: false, reason: 'incidents-changed' };
+    return { ok: true, ...(result[1] && { changedMonth: result[1] }) };
+  }
+
+  async markDirty(ref: ComponentRef, from: StepPosition): Promise<void> {
+    const { c } = this.keysOf(ref);
+    await this.scripts.markDirty(c.evaluation, positionText(from));
+  }
+
+  async markSample(ref: ComponentRef, sampleId: string, mark: SampleMark | null): Promise<boolean> {
+    const { c } = this.keysOf(ref);
+    return (await this.scripts.markSample(c.evaluation, c.winners, sampleId, mark ?? '')) === 1;
+  }
+
+  async findings(ref: ComponentRef): Promise<StepRecord[]> {
+    const { c } = this.keysOf(ref);
+    const all = await this.redis.hgetall(c.steps);
+    return Object.keys(all)
+      .sort()
+      .map((k) => JSON.parse(all[k]!) as StepRecord);
+  }
+
+  async incidentsOpenedAfter(ref: ComponentRef, position: StepPosition | null): Promise<Incident[]> {
+    const { c, p } = this.keysOf(ref);
+    const ids = position === null ? await this.redis.zrange(c.incidents, 0, -1) : await this.redis.zrangebyscore(c.incidents, position.time, '+inf');
+    if (ids.length === 0) return [];
+    const raw = await this.redis.hmget(p.records, ...ids);
+    const incidents = raw.filter((r): r is string => r !== null).map((r) => JSON.parse(r) as Incident);
+    if (position === null) return incidents;
+    const openers = await this.redis.hmget(c.winners, ...incidents.map((i) => i.openedBySampleId));
+    return incidents.filter((inc, i) => {
+      const unitHours = openers[i]?.split('|')[2];
+      const opened: StepPosition = { sampleId: inc.openedBySampleId, time: Date.parse(inc.openedAt), ...(unitHours && { unitHours: Number(unitHours) }) };
+      return comparePosition(opened, position) > 0;
+    });
+  }
+
+  // The group ledger.
+
+  async asOf(group: string, month: string, self: ComponentRef): Promise<GroupStats> {
+    const settings = resolveSettings(this.config, { unit: self.unit, component: self.component, group });
+    const keepValues = settings.population.method === 'percentile';
+    const parts: Array<readonly [MonthBucket, 1 | -1]> = [];
+    await Promise.all(
+      this.partitions.all().map(async (n) => {
+        const tag = this.partitions.tag(n);
+        const g = groupKeys(tag, group);
+        const versions = await this.redis.hgetall(g.versions);
+        await Promise.all(
+          Object.entries(versions)
+            .filter(([m]) => m < month)
+            .map(async ([m, version]) => {
+              const cacheKey = `${n}|${group}|${m}`;
+              const cached = this.bucketCache.get(cacheKey);
+              if (cached !== undefined && cached.version === version) {
+                parts.push([cached.bucket, 1]);
+                return;
+              }
+              const bucket = parseBucket(await this.redis.hgetall(g.bucket(m)));
+              if (keepValues) await this.readValues(`${g.bucketPrefix.slice(0, -3)}:vals:${m}:`, bucket);
+              this.bucketCache.set(cacheKey, { version, bucket });
+              parts.push([bucket, 1]);
+            }),
+        );
+      }),
+    );
+    const own = await this.redis.hgetall(componentKeys(this.tagOf(self), self).own);
+    const registry = await this.component(self);
+    if (registry?.group === group) {
+      const byMonth = new Map<string, Record<string, string>>();
+      for (const [field, value] of Object.entries(own)) {
+        const bar = field.indexOf('|');
+        const m = field.slice(0, bar);
+        if (m >= month) continue;
+        let fields = byMonth.get(m);
+        if (fields === undefined) byMonth.set(m, (fields = {}));
+        fields[field.slice(bar + 1)] = value;
+      }
+      for (const fields of byMonth.values()) parts.push([parseBucket(fields), -1]);
+    }
+    if (this.bucketCache.size > 10_000) this.bucketCache.clear();
+    return groupStatsOf(group, combineBuckets(parts, keepValues), settings);
+  }
+
+  async touch(group: string, self: ComponentRef, horizon: number): Promise<void> {
+    const g = groupKeys(this.tagOf(self), group);
+    await this.redis.zadd(g.horizons, 'GT', horizon, JSON.stringify({ unit: self.unit, component: self.component }));
+  }
+
+  async membersAfter(group: string, from: number): Promise<ComponentRef[]> {
+    const lists = await Promise.all(this.partitions.all().map((n) => this.redis.zrangebyscore(groupKeys(this.partitions.tag(n), group).horizons, from, '+inf')));
+    return lists.flat().map((j) => JSON.parse(j) as ComponentRef);
+  }
+
+  /** The values of a month bucket, for the percentile method (one sorted set per field). */
+  private async readValues(prefix: string, bucket: MonthBucket): Promise<void> {
+    await Promise.all(
+      Object.keys(bucket.population).map(async (field) => {
+        const scores = await this.redis.zrange(`${prefix}${field}`, 0, -1, 'WITHSCORES');
+        const values: number[] = [];
+        for (let i = 1; i < scores.length; i += 2) values.push(Number(scores[i]));
+        (bucket.population as Record<string, PopulationCell>)[field] = { ...bucket.population[field]!, values: values.sort((a, b) => a - b) };
+      }),
+    );
+  }
+}
+
+interface RegistryHead {
+  readonly unit: string;
+  readonly component: string;
+  readonly group: string;
+}
+
+function entryOf(h: RegistryHead, count: number, last: string[]): ComponentEntry {
+  return { unit: h.unit, component: h.component, group: h.group, samples: count, lastSampledAt: new Date(Number(last[1] ?? 0)).toISOString() };
+}
+
+function stored(value: string, ref: ComponentRef): StoredSample {
+  const bar = value.indexOf('|');
+  return { receivedAt: Number(value.slice(0, bar)), sample: decodeSample(value.slice(bar + 1), ref) };
+}
+
+function baselineValues(b: BaselineBucket): number[] {
+  return [
+    b.components,
+    b.sums.intervals,
+    b.sums.sumHours,
+    b.sums.sumHoursSq,
+    b.sums.sumIncrement,
+    b.sums.sumIncrementSq,
+    b.sums.sumIncrementHours,
+    b.sums.sumLabVariance,
+    b.sumRate,
+    b.sumRateSq,
+    b.positive,
+    b.sumLog,
+    b.sumLogSq,
+  ];
+}
+
+/** A month bucket from its hash fields: `p|measurand|edge|n|s|q` and `b|measurand|name`. */
+function parseBucket(fields: Record<string, string>): MonthBucket {
+  const population: Record<string, PopulationCell> = {};
+  const raw: Partial<Record<Measurand, Record<string, number>>> = {};
+  for (const [field, value] of Object.entries(fields)) {
+    const parts = field.split('|');
+    if (parts[0] === 'p' && parts.length === 4) {
+      const key = `${parts[1]}|${parts[2]}`;
+      const cell = (population[key] ??= { n: 0, sum: 0, sumSq: 0 }) as { n: number; sum: number; sumSq: number };
+      const v = Number(value);
+      if (parts[3] === 'n') cell.n = Math.round(v);
+      else if (parts[3] === 's') cell.sum = v;
+      else if (parts[3] === 'q') cell.sumSq = v;
+    } else if (parts[0] === 'b' && parts.length === 3) {
+      (raw[parts[1] as Measurand] ??= {})[parts[2]!] = Number(value);
+    }
+  }
+  for (const [k, cell] of Object.entries(population)) if (cell.n <= 0) delete population[k];
+  const baselines: Partial<Record<Measurand, BaselineBucket>> = {};
+  for (const [m, v] of Object.entries(raw) as [Measurand, Record<string, number>][]) {
+    const components = Math.round(v.components ?? 0);
+    if (components <= 0) continue;
+    baselines[m] = {
+      components,
+      sums: {
+        intervals: Math.round(v.intervals ?? 0),
+        sumHours: v.sumHours ?? 0,
+        sumHoursSq: v.sumHoursSq ?? 0,
+        sumIncrement: v.sumIncrement ?? 0,
+        sumIncrementSq: v.sumIncrementSq ?? 0,
+        sumIncrementHours: v.sumIncrementHours ?? 0,
+        sumLabVariance: v.sumLabVariance ?? 0,
+      },
+      sumRate: v.sumRate ?? 0,
+      sumRateSq: v.sumRateSq ?? 0,
+      positive: Math.round(v.positive ?? 0),
+      sumLog: v.sumLog ?? 0,
+      sumLogSq: v.sumLogSq ?? 0,
+    };
+  }
+  return { population, baselines };
+}
+
+export { BASELINE_FIELDS };
+export type { BaselineShare };

@@ -1,0 +1,317 @@
+/**
+ * Lua scripts: each runs atomically in Redis, so concurrent workers and redeliveries never see half a change.
+ * Every key a script touches carries its partition's hash tag (keys.ts), so each script stays within one Redis
+ * Cluster slot. Numbers travel as strings made by JavaScript (shortest exact form) or by Lua's %.17g, never rounded.
+ *
+ * A position in a history is `time|unitHours|sampleId` (unitHours empty when unknown) and compares as the analysis
+ * orders samples: by time, then unit hours (missing last), then sampleId.
+ */
+
+const POSITION = `
+local function pos_parse(p)
+  local t, u, id = string.match(p, '^([^|]*)|([^|]*)|(.*)$')
+  return tonumber(t), (u ~= '' and tonumber(u) or nil), id
+end
+local function pos_cmp(a, b)
+  local ta, ua, ia = pos_parse(a)
+  local tb, ub, ib = pos_parse(b)
+  if ta ~= tb then return ta < tb and -1 or 1 end
+  if ua ~= nil and ub ~= nil and ua ~= ub then return ua < ub and -1 or 1 end
+  if (ua == nil) ~= (ub == nil) then return ua == nil and 1 or -1 end
+  if ia == ib then return 0 end
+  return ia < ib and -1 or 1
+end
+local function mark_dirty(ev, pos)
+  local cur = redis.call('HGET', ev, 'dirty')
+  if not cur or pos_cmp(pos, cur) < 0 then redis.call('HSET', ev, 'dirty', pos) end
+end
+`;
+
+/**
+ * KEYS: revisions, winners, order, evaluation, registry.
+ * ARGV: sampleId, revision, encoded sample, receivedAt, time, unitHours or '', component key, registry JSON.
+ * Returns {status, evaluationDue (0|1)}.
+ */
+export const STORE_SAMPLE = `${POSITION}
+local field = ARGV[1] .. '\\31' .. ARGV[2]
+local stored = redis.call('HGET', KEYS[1], field)
+local function due()
+  return tonumber(redis.call('HGET', KEYS[4], 'mark') or '0') > tonumber(redis.call('HGET', KEYS[4], 'done') or '0')
+end
+if stored then
+  local sep = string.find(stored, '|', 1, true)
+  return { string.sub(stored, sep + 1) == ARGV[3] and 'duplicate' or 'conflict', due() and 1 or 0 }
+end
+redis.call('HSET', KEYS[1], field, ARGV[4] .. '|' .. ARGV[3])
+local pos = ARGV[5] .. '|' .. ARGV[6] .. '|' .. ARGV[1]
+local winner = redis.call('HGET', KEYS[2], ARGV[1])
+local status = 'new'
+local share = ''
+if winner then
+  local wrev, wtime, wuh, wshare = string.match(winner, '^([^|]*)|([^|]*)|([^|]*)|(.*)$')
+  if tonumber(ARGV[2]) < tonumber(wrev) then
+    status = 'superseded'
+  else
+    status = 'replacement'
+    share = wshare
+    local old = wtime .. '|' .. wuh .. '|' .. ARGV[1]
+    if pos_cmp(old, pos) < 0 then mark_dirty(KEYS[4], old) end
+  end
+end
+if status ~= 'superseded' then
+  mark_dirty(KEYS[4], pos)
+  redis.call('HSET', KEYS[2], ARGV[1], ARGV[2] .. '|' .. ARGV[5] .. '|' .. ARGV[6] .. '|' .. share)
+  redis.call('ZADD', KEYS[3], ARGV[5], ARGV[1])
+  redis.call('HSET', KEYS[5], ARGV[7], ARGV[8])
+end
+redis.call('HINCRBY', KEYS[4], 'mark', 1)
+return { status, due() and 1 or 0 }
+`;
+
+/** KEYS: lock. ARGV: token, ttl ms. Returns 1 when renewed. */
+export const RENEW_LOCK = `
+if redis.call('GET', KEYS[1]) == ARGV[1] then return redis.call('PEXPIRE', KEYS[1], ARGV[2]) end
+return 0
+`;
+
+/** KEYS: lock. ARGV: token. Deletes only our own lock. */
+export const RELEASE_LOCK = `
+if redis.call('GET', KEYS[1]) == ARGV[1] then return redis.call('DEL', KEYS[1]) end
+return 0
+`;
+
+/** KEYS: evaluation. ARGV: position. Marks the component for evaluation from the position. */
+export const MARK_DIRTY = `${POSITION}
+mark_dirty(KEYS[1], ARGV[1])
+redis.call('HINCRBY', KEYS[1], 'mark', 1)
+return 1
+`;
+
+/** KEYS: evaluation, winners. ARGV: sampleId, mark ('' clears it). Returns 0 when the component has no such sample. */
+export const MARK_SAMPLE = `${POSITION}
+local winner = redis.call('HGET', KEYS[2], ARGV[1])
+if not winner then return 0 end
+local _, wtime, wuh = string.match(winner, '^([^|]*)|([^|]*)|([^|]*)|')
+local marks = cjson.decode(redis.call('HGET', KEYS[1], 'marks') or '{}')
+if ARGV[2] == '' then marks[ARGV[1]] = nil else marks[ARGV[1]] = ARGV[2] end
+redis.call('HSET', KEYS[1], 'marks', next(marks) == nil and '{}' or cjson.encode(marks))
+mark_dirty(KEYS[1], wtime .. '|' .. wuh .. '|' .. ARGV[1])
+redis.call('HINCRBY', KEYS[1], 'mark', 1)
+return 1
+`;
+
+/** The incident part of a commit: records, indexes and the outbox. */
+const INCIDENT_RECORDS = `
+local function write_incidents(p, recordsKey, openKey, closedKey, outboxKey, indexKey)
+  for _, r in ipairs(p.records) do
+    redis.call('HSET', recordsKey, r[1], r[2])
+    if r[3] == 'open' then
+      redis.call('ZADD', openKey, r[4], r[1])
+      redis.call('ZREM', closedKey, r[1])
+    else
+      redis.call('ZADD', closedKey, r[4], r[1])
+      redis.call('ZREM', openKey, r[1])
+    end
+    redis.call('ZADD', indexKey, r[5], r[1])
+  end
+  for _, e in ipairs(p.outbox) do redis.call('RPUSH', outboxKey, e) end
+end
+`;
+
+/**
+ * An operator's action or an escalation check on a component's incidents: compare-and-set on the version.
+ * KEYS: evaluation, records, open, closed, outbox, component incident index.
+ * ARGV: expected version, payload JSON {state, records: [[id, json, open|closed, score, openedTime]], outbox: [json]}.
+ * Returns 1, or 0 when the version moved on (someone else changed the incidents: read again and retry).
+ */
+export const UPDATE_INCIDENTS = `${INCIDENT_RECORDS}
+if (redis.call('HGET', KEYS[1], 'version') or '0') ~= ARGV[1] then return 0 end
+local p = cjson.decode(ARGV[2])
+redis.call('HSET', KEYS[1], 'incidents', p.state, 'version', tostring(tonumber(ARGV[1]) + 1))
+write_incidents(p, KEYS[2], KEYS[3], KEYS[4], KEYS[5], KEYS[6])
+return 1
+`;
+
+/**
+ * Commits an evaluation: only while the lock holds and the incidents are still at the version read.
+ * KEYS: lock, evaluation, winners, steps, component incident index, own shares, registry, records, open, closed, outbox.
+ * ARGV: token, mark, payload JSON:
+ *   latest, sparse [[field, json]], rewound ('' none, 'start', or a position), steps [[field, json or '']], limit,
+ *   shares [[sampleId, share or '']] (share: month;field=value,...), baselines {measurand: entry or ''}
+ *   (entry: month;v1,...,v13), group, groupPrefix, member, horizon, registry, keepValues (0|1), componentKey,
+ *   version, state, records, outbox.
+ * Returns {1, earliest changed month or ''}, {0} when the lock was lost, {-1} when the incidents changed.
+ */
+export const COMMIT_EVALUATION = `${POSITION}${INCIDENT_RECORDS}
+if redis.call('GET', KEYS[1]) ~= ARGV[1] then return { 0 } end
+local ev = KEYS[2]
+local p = cjson.decode(ARGV[3])
+if (redis.call('HGET', ev, 'version') or '0') ~= p.version then return { -1 } end
+
+-- The component's change mark and the checkpoints.
+if tonumber(ARGV[2]) > tonumber(redis.call('HGET', ev, 'done') or '0') then redis.call('HSET', ev, 'done', ARGV[2]) end
+if redis.call('HGET', ev, 'mark') == ARGV[2] then redis.call('HDEL', ev, 'dirty') end
+redis.call('HSET', ev, 'latest', p.latest)
+local fields = redis.call('HKEYS', ev)
+if p.rewound ~= '' then
+  for _, f in ipairs(fields) do
+    if string.sub(f, 1, 3) == 'cp|' then
+      local cpos = string.match(f, '^cp|[^|]*|(.*)$')
+      if p.rewound == 'start' or pos_cmp(cpos, p.rewound) > 0 then redis.call('HDEL', ev, f) end
+    end
+  end
+end
+for _, cp in ipairs(p.sparse) do redis.call('HSET', ev, cp[1], cp[2]) end
+-- Keep the four latest sparse checkpoints and up to four older ones at every eighth step of their spacing.
+local cps = {}
+for _, f in ipairs(redis.call('HKEYS', ev)) do
+  if string.sub(f, 1, 3) == 'cp|' then table.insert(cps, { tonumber(string.match(f, '^cp|([^|]*)|')), f }) end
+end
+table.sort(cps, function(a, b) return a[1] > b[1] end)
+if #cps > 4 then
+  local spacing = cps[1][1] - cps[2][1]
+  local older = 0
+  for i = 5, #cps do
+    if spacing > 0 and cps[i][1] % (spacing * 8) == 0 and older < 4 then older = older + 1 else redis.call('HDEL', ev, cps[i][2]) end
+  end
+end
+
+-- The findings log: steps with findings, the latest ones.
+for _, s in ipairs(p.steps) do
+  if s[2] == '' then redis.call('HDEL', KEYS[4], s[1]) else redis.call('HSET', KEYS[4], s[1], s[2]) end
+end
+local excess = redis.call('HLEN', KEYS[4]) - tonumber(p.limit)
+if excess > 0 then
+  local names = redis.call('HKEYS', KEYS[4])
+  table.sort(names)
+  for i = 1, excess do redis.call('HDEL', KEYS[4], names[i]) end
+end
+
+-- The group's month buckets in this partition, and the component's own shares of them.
+local changed = nil
+local function apply(prefix, month, values, sign)
+  local bucket = prefix .. ':m:' .. month
+  for f, v in pairs(values) do
+    redis.call('HINCRBYFLOAT', bucket, f, sign * v)
+    redis.call('HINCRBYFLOAT', KEYS[6], month .. '|' .. f, sign * v)
+  end
+  redis.call('HINCRBY', prefix .. ':v', month, 1)
+  if changed == nil or month < changed then changed = month end
+end
+local function population(share)
+  local month, list = string.match(share, '^([^;]*);(.*)$')
+  local values = {}
+  local raw = {}
+  for f, v in string.gmatch(list, '([^,=]+)=([^,]+)') do
+    local x = tonumber(v)
+    values['p|' .. f .. '|n'] = (values['p|' .. f .. '|n'] or 0) + 1
+    values['p|' .. f .. '|s'] = (values['p|' .. f .. '|s'] or 0) + x
+    values['p|' .. f .. '|q'] = (values['p|' .. f .. '|q'] or 0) + x * x
+    raw[f] = x
+  end
+  return month, values, raw
+end
+local function keep_values(prefix, month, raw, member, add)
+  if p.keepValues ~= 1 then return end
+  for f, x in pairs(raw) do
+    local key = prefix .. ':vals:' .. month .. ':' .. f
+    if add then redis.call('ZADD', key, x, member) else redis.call('ZREM', key, member) end
+  end
+end
+local baselineNames = { 'components', 'intervals', 'sumHours', 'sumHoursSq', 'sumIncrement', 'sumIncrementSq', 'sumIncrementHours', 'sumLabVariance', 'sumRate', 'sumRateSq', 'positive', 'sumLog', 'sumLogSq' }
+local function baseline(m, entry)
+  local month, list = string.match(entry, '^([^;]*);(.*)$')
+  local values = {}
+  local i = 1
+  for v in string.gmatch(list, '([^,]+)') do
+    values['b|' .. m .. '|' .. baselineNames[i]] = tonumber(v)
+    i = i + 1
+  end
+  return month, values
+end
+local oldPrefix = redis.call('HGET', ev, 'gp')
+if oldPrefix and oldPrefix ~= p.groupPrefix then
+  -- The component changed group: its shares move with it.
+  local winners = redis.call('HGETALL', KEYS[3])
+  for i = 1, #winners, 2 do
+    local share = string.match(winners[i + 1], '^[^|]*|[^|]*|[^|]*|(.*)$')
+    if share ~= '' then
+      local month, values, raw = population(share)
+      apply(oldPrefix, month, values, -1)
+      keep_values(oldPrefix, month, raw, p.componentKey .. '\\31' .. winners[i], false)
+      apply(p.groupPrefix, month, values, 1)
+      keep_values(p.groupPrefix, month, raw, p.componentKey .. '\\31' .. winners[i], true)
+    end
+  end
+  for _, f in ipairs(fields) do
+    if string.sub(f, 1, 3) == 'bl|' then
+      local month, values = baseline(string.sub(f, 4), redis.call('HGET', ev, f))
+      apply(oldPrefix, month, values, -1)
+      apply(p.groupPrefix, month, values, 1)
+    end
+  end
+  redis.call('ZREM', oldPrefix .. ':h', p.member)
+end
+redis.call('HSET', ev, 'gp', p.groupPrefix)
+for _, s in ipairs(p.shares) do
+  local winner = redis.call('HGET', KEYS[3], s[1])
+  if winner then
+    local head, old = string.match(winner, '^([^|]*|[^|]*|[^|]*)|(.*)$')
+    if old ~= s[2] then
+      local member = p.componentKey .. '\\31' .. s[1]
+      if old ~= '' then
+        local month, values, raw = population(old)
+        apply(p.groupPrefix, month, values, -1)
+        keep_values(p.groupPrefix, month, raw, member, false)
+      end
+      if s[2] ~= '' then
+        local month, values, raw = population(s[2])
+        apply(p.groupPrefix, month, values, 1)
+        keep_values(p.groupPrefix, month, raw, member, true)
+      end
+      redis.call('HSET', KEYS[3], s[1], head .. '|' .. s[2])
+    end
+  end
+end
+for m, entry in pairs(p.baselines) do
+  local old = redis.call('HGET', ev, 'bl|' .. m) or ''
+  if old ~= entry then
+    if old ~= '' then
+      local month, values = baseline(m, old)
+      apply(p.groupPrefix, month, values, -1)
+    end
+    if entry ~= '' then
+      local month, values = baseline(m, entry)
+      apply(p.groupPrefix, month, values, 1)
+      redis.call('HSET', ev, 'bl|' .. m, entry)
+    else
+      redis.call('HDEL', ev, 'bl|' .. m)
+    end
+  end
+end
+redis.call('ZADD', p.groupPrefix .. ':h', 'GT', p.horizon, p.member)
+redis.call('HSET', KEYS[7], p.componentKey, p.registry)
+
+-- The incidents, their records and their messages.
+redis.call('HSET', ev, 'incidents', p.state, 'version', tostring(tonumber(p.version) + 1))
+write_incidents(p, KEYS[8], KEYS[9], KEYS[10], KEYS[11], KEYS[5])
+return { 1, changed or '' }
+`;
+
+/** Claims up to ARGV[2] effects: first those whose claim went stale (a drainer died), then new ones. KEYS: outbox, claimed. */
+export const CLAIM_OUTBOX = `
+local n = tonumber(ARGV[2])
+local out = redis.call('ZRANGEBYSCORE', KEYS[2], '-inf', ARGV[3], 'LIMIT', 0, n)
+for _, m in ipairs(out) do redis.call('ZADD', KEYS[2], ARGV[1], m) end
+local rest = n - #out
+if rest > 0 then
+  local items = redis.call('LPOP', KEYS[1], rest)
+  if items then
+    for _, m in ipairs(items) do
+      redis.call('ZADD', KEYS[2], ARGV[1], m)
+      table.insert(out, m)
+    end
+  end
+end
+return out
+`;
