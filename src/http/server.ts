@@ -21,6 +21,7 @@ import { incidentRoutes } from './incidentRoutes.ts';
 import { metricsRoute } from './metrics.ts';
 import { DEFAULT_BODY_LIMIT_BYTES, resultRoutes, type ResultRoutesOptions } from './resultRoutes.ts';
 import { seriesRoutes } from './seriesRoutes.ts';
+import { sampleVerdictRoutes, type SampleVerdictTaker } from './sampleVerdictRoutes.ts';
 
 export interface ServerOptions {
   readonly logger: Logger;
@@ -37,6 +38,8 @@ export interface ServerOptions {
   readonly incidents?: RedisIncidents;
   /** Stored histories, group statistics and the configuration, for the series and chart routes. */
   readonly histories?: { readonly store: ComponentStore; readonly ledger: GroupLedger; readonly config: Config };
+  /** Takes a responder's verdict on a sample in doubt, for POST …/samples/:sampleId/verdict. */
+  readonly sampleVerdicts?: SampleVerdictTaker;
   /** Live events, for GET /v1/events. */
   readonly hub?: EventHub;
   /** Link-signing secrets (current first); the pages are served only with a store and at least one secret. */
@@ -58,6 +61,7 @@ export async function buildServer(options: ServerOptions) {
       loadComponent: (unit, component) => componentView(histories.store, histories.ledger, histories.config, { unit, component }),
     });
   }
+  if (options.sampleVerdicts !== undefined) await app.register(sampleVerdictRoutes, { verdicts: options.sampleVerdicts });
   // Acknowledgements from the API, the board or an e-mail link are announced like the worker's incident changes.
   const store = options.incidents && (options.announce ? announcingActions(options.incidents, options.announce) : options.incidents);
   if (store !== undefined) await app.register(incidentRoutes, { store });

@@ -253,7 +253,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
       latest: JSON.stringify(commit.latest),
       sparse: commit.sparse.map((cp) => [`cp|${String(cp.count).padStart(10, '0')}|${positionText(cp.position!)}`, JSON.stringify(cp)]),
       rewound: commit.rewoundTo === undefined ? '' : commit.rewoundTo === null ? 'start' : positionText(commit.rewoundTo),
-      steps: commit.steps.map((s) => [`${String(Date.parse(s.sampledAt)).padStart(15, '0')}|${s.sampleId}`, s.findings.length === 0 ? '' : JSON.stringify(s)]),
+      steps: commit.steps.map((s) => [`${String(Date.parse(s.sampledAt)).padStart(15, '0')}|${s.sampleId}`, s.findings.length === 0 && s.status === undefined ? '' : JSON.stringify(s)]),
       limit: this.findingsLogLimit,
       shares: commit.shares.map((s) => [s.sampleId, s.values === null ? '' : `${s.month};${Object.entries(s.values).map(([f, v]) => `${f}=${v}`).join(',')}`]),
       baselines: Object.fromEntries(

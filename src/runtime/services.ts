@@ -13,6 +13,7 @@ import { redisDisabledEndpoints } from '../queue/disabledEndpoints.ts';
 import { notificationChannels } from '../queue/notificationChannels.ts';
 import { openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings } from '../queue/queues.ts';
 import { Partitions } from '../redis/keys.ts';
+import { SampleVerdicts } from '../queue/sampleVerdicts.ts';
 import { startWorkers, type WorkerSettings } from '../queue/workers.ts';
 import { RedisIncidents } from '../redis/redisIncidents.ts';
 import { RedisStore } from '../redis/redisStore.ts';
@@ -89,9 +90,10 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
   const metrics = createMetrics();
   const queueSettings = resolveQueueSettings({ ...options.workerSettings, prefix });
   const partitions = new Partitions(prefix, partitionCount);
+  const evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, request, queueSettings, partitions);
   const counted: Array<readonly [string, Queue[]]> = [
     [QUEUE_NAMES.results, openPartitionedQueues(QUEUE_NAMES.results, request, queueSettings, partitions)],
-    [QUEUE_NAMES.evaluate, openPartitionedQueues(QUEUE_NAMES.evaluate, request, queueSettings, partitions)],
+    [QUEUE_NAMES.evaluate, evaluateQueues],
     [QUEUE_NAMES.notify, [openSharedQueue(QUEUE_NAMES.notify, request, queueSettings, partitions)]],
     [QUEUE_NAMES.escalate, [openSharedQueue(QUEUE_NAMES.escalate, request, queueSettings, partitions)]],
   ];
@@ -142,16 +144,15 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
       subscriber.once('ready', () => void bridgeLiveEvents(subscriber, prefix, hub, logger).catch((e: Error) => logger.warn({ err: e.message }, 'live events unavailable')));
       const ackSecretEnv = config.channels.ackLinks?.secretEnv;
       const ackLinkSecrets = ackSecretEnv === undefined ? [] : (env[ackSecretEnv] ?? '').split(',').map((x) => x.trim()).filter((x) => x !== '');
+      const httpStore = new RedisStore(request, { prefix, partitions: partitionCount, config });
       server = await buildServer({
         logger,
         metrics,
         ping,
         producer,
         incidents: new RedisIncidents(request, { rules: incidentRules(config), prefix, partitions: partitionCount }),
-        histories: (() => {
-          const store = new RedisStore(request, { prefix, partitions: partitionCount, config });
-          return { store, ledger: store, config };
-        })(),
+        histories: { store: httpStore, ledger: httpStore, config },
+        sampleVerdicts: new SampleVerdicts(httpStore, evaluateQueues, partitions),
         hub,
         ackLinkSecrets,
         announce: livePublisher(request, prefix, logger),

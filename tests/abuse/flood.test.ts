@@ -127,7 +127,7 @@ describe('a flood of results for one component', () => {
       stored = (await storage.component({ unit, component: 'gearbox' }))?.samples ?? 0;
       await new Promise((r) => setTimeout(r, 50));
     }
-    await drained([results, evaluate], 120_000);
+    await drained([results, evaluate], 480_000);
 
     const revisions = await storage.revisions({ unit, component: 'gearbox' });
     expect(new Set(revisions.map((s) => s.sample.sampleId)).size).toBe(FLOOD);
@@ -143,5 +143,5 @@ describe('a flood of results for one component', () => {
     // Bounded generously for a busy two-core machine: the API is never stuck behind the flood (speed figures are the benchmark's).
     expect(Math.max(...latencies)).toBeLessThan(15_000);
     console.info(`flood: ${FLOOD} accepted in ${acceptMs} ms, stored in ${Date.now() - started} ms, ${evaluations} evaluations (never two at once), API answered in at most ${Math.max(...latencies)} ms over ${latencies.length} probes`);
-  });
+  }, 600_000);
 });

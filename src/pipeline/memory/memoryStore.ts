@@ -226,7 +226,7 @@ export class MemoryStore implements ComponentStore, GroupLedger {
     for (const cp of commit.sparse) c.sparse.set(cp.count, JSON.stringify(cp));
     thinCheckpoints(c.sparse);
     for (const step of commit.steps) {
-      if (step.findings.length === 0) c.steps.delete(step.sampleId);
+      if (step.findings.length === 0 && step.status === undefined) c.steps.delete(step.sampleId);
       else c.steps.set(step.sampleId, { ...step, time: Date.parse(step.sampledAt) });
     }
     const kept = [...c.steps.values()].sort(byTimeThenId);

@@ -1,0 +1,59 @@
+/**
+ * A responder's word on a sample that a sampling finding put in doubt (fastify 5 plugin):
+ * `POST /v1/units/:unit/components/:component/samples/:sampleId/verdict` with
+ * `{"verdict": "confirmed" | "rejected" | "withdrawn", "by": "…"}`.
+ *
+ * - `confirmed`: the sample is genuine; it goes back into the trend, the baselines and the group statistics.
+ * - `rejected`: the sample is wrong (new oil sent by mistake, another unit's bottle); it stays out for good.
+ * - `withdrawn`: takes an earlier word back; the sampling rule judges the sample again.
+ *
+ * The component is evaluated again from that sample on. Answers 202 with the verdict taken, 404 when the component
+ * holds no such sample, 400 naming the field and reason for a bad body.
+ */
+import type { FastifyPluginAsync } from 'fastify';
+import { z } from 'zod';
+import type { SampleMark } from '../analysis/model.ts';
+import type { ComponentRef } from '../pipeline/ports.ts';
+import { requireRole } from './auth.ts';
+
+/** What the route needs: stores the mark and has the component evaluated again; false for an unknown sample. */
+export interface SampleVerdictTaker {
+  mark(ref: ComponentRef, sampleId: string, mark: SampleMark | null): Promise<boolean>;
+}
+
+export interface SampleVerdictRoutesOptions {
+  readonly verdicts: SampleVerdictTaker;
+}
+
+export const VerdictBodySchema = z
+  .object({
+    verdict: z.enum(['confirmed', 'rejected', 'withdrawn']).describe('confirmed: genuine, back into the trend; rejected: kept out for good; withdrawn: the sampling rule judges it again.'),
+    by: z.string().trim().min(1, 'required').max(80, 'at most 80 characters').describe('Who gives the verdict.'),
+  })
+  .strict();
+
+interface Params {
+  unit: string;
+  component: string;
+  sampleId: string;
+}
+
+export const sampleVerdictRoutes: FastifyPluginAsync<SampleVerdictRoutesOptions> = async (app, options) => {
+  app.post<{ Params: Params }>(
+    '/v1/units/:unit/components/:component/samples/:sampleId/verdict',
+    { preHandler: requireRole('responder') },
+    async (request, reply) => {
+      const body = VerdictBodySchema.safeParse(request.body);
+      if (!body.success) {
+        const issues = body.error.issues.map((i) => ({ field: ['body', ...i.path].join('.'), message: i.message }));
+        return reply.code(400).send({ error: 'invalid-request', message: issues.map((i) => `${i.field}: ${i.message}`).join('; '), issues });
+      }
+      const { unit, component, sampleId } = request.params;
+      const mark: SampleMark | null = body.data.verdict === 'withdrawn' ? null : body.data.verdict;
+      const known = await options.verdicts.mark({ unit, component }, sampleId, mark);
+      if (!known) return reply.code(404).send({ error: 'not-found', message: `component "${component}" of unit "${unit}" holds no sample "${sampleId}"` });
+      request.log.info({ unit, component, sampleId, verdict: body.data.verdict, by: body.data.by }, 'sample verdict taken');
+      return reply.code(202).send({ unit, component, sampleId, verdict: body.data.verdict, by: body.data.by });
+    },
+  );
+};
