@@ -249,18 +249,27 @@ function createCard(incident) {
     resolve: el('button', { type: 'button', 'data-action': 'resolve', text: 'Resolve' }),
   };
   const viewerNote = el('p', { class: 'hint', id: `${id}-why`, hidden: true, text: 'Acknowledge, shelve and resolve need a responder token; this token is a viewer token.' });
+  // A sampling incident asks whoever takes samples, or the lab, whether the sample in doubt is genuine.
+  const verdicts = {
+    confirmed: el('button', { type: 'button', 'data-verdict': 'confirmed', text: 'Sample is genuine' }),
+    rejected: el('button', { type: 'button', 'data-verdict': 'rejected', text: 'Sample is wrong' }),
+  };
+  const sampleQuestion = el('p', { class: 'hint' });
+  const sampleRow = el('div', { class: 'sample-verdict', role: 'group', 'aria-label': 'The sample in doubt', hidden: true }, sampleQuestion, el('div', { class: 'action-row' }, verdicts.confirmed, verdicts.rejected));
   const actions = el(
     'div',
     { class: 'actions', role: 'group', 'aria-label': 'Respond' },
     el('label', { for: `${id}-note`, text: 'Note' }, el('span', { class: 'hint', text: ' (required to shelve or resolve)' })),
     note,
     el('div', { class: 'action-row' }, buttons.ack, buttons.shelve, shelveFor, buttons.resolve),
+    sampleRow,
     viewerNote,
     status,
   );
   node.append(el('div', { class: 'incident-head' }, badge, title), state, evidence, chart, actions);
-  const card = { node, title, badge, state, evidence, chart, note, shelveFor, status, buttons, viewerNote, incident, chartKey: '' };
+  const card = { node, title, badge, state, evidence, chart, note, shelveFor, status, buttons, viewerNote, incident, chartKey: '', verdicts, sampleRow, sampleQuestion };
   for (const [action, button] of Object.entries(buttons)) button.addEventListener('click', () => act(card, action));
+  for (const [verdict, button] of Object.entries(verdicts)) button.addEventListener('click', () => judgeSample(card, verdict));
   return card;
 }
 
@@ -286,6 +295,12 @@ function updateCard(card, incident) {
     else button.setAttribute('aria-describedby', card.viewerNote.id);
   }
   card.buttons.ack.disabled = !enabled || Boolean(incident.acknowledged);
+  const doubt = sampleInDoubt(incident);
+  card.sampleRow.hidden = doubt === undefined;
+  if (doubt !== undefined) {
+    card.sampleQuestion.textContent = `Sample ${doubt.sampleId} of ${formatTime(doubt.sampledAt)} is kept out of the trend until someone who knows says what it was.`;
+    for (const button of Object.values(card.verdicts)) button.disabled = !enabled;
+  }
   card.viewerNote.hidden = canAct();
   // The chart follows the incident's latest sample; a new result redraws it.
   const chartKey = `${measurands[0] ?? ''}@${incident.lastSampleId}`;
@@ -336,6 +351,27 @@ async function act(card, action) {
   announce(`${verb}: ${card.incident.unit} / ${card.incident.component}.`);
   if (result.body.incident.closed) scheduleReload(0);
   else updateCard(card, { ...card.incident, ...result.body.incident });
+}
+
+/** The latest sample a sampling finding of the incident put in doubt, if any. */
+function sampleInDoubt(incident) {
+  return (incident.evidence ?? []).find((f) => f.rule === 'sampling');
+}
+
+async function judgeSample(card, verdict) {
+  const doubt = sampleInDoubt(card.incident);
+  if (doubt === undefined) return;
+  const by = session.name.trim() || 'board user';
+  setStatus(card, 'busy', 'Sending…');
+  const path = `${apiComponentPath(card.incident.unit, card.incident.component)}/samples/${encodeURIComponent(doubt.sampleId)}/verdict`;
+  const result = await api(path, { method: 'POST', body: { verdict, by } });
+  if (!result.ok) {
+    setStatus(card, 'error', problemText(result));
+    return;
+  }
+  const words = verdict === 'confirmed' ? 'genuine: it goes back into the trend' : 'wrong: it stays out of the trend';
+  setStatus(card, 'done', `Sample ${doubt.sampleId} marked ${words}. The component is judged again.`);
+  announce(`Sample ${doubt.sampleId} marked ${verdict}.`);
 }
 
 function setStatus(card, kind, message) {
@@ -407,7 +443,16 @@ async function loadComponentPage() {
   ]);
   if (history.status === 401 || series.status === 401) return showSignIn('The token is no longer accepted; please sign in again.');
   renderHistory(history);
+  renderReadiness(series);
   renderCharts(series);
+}
+
+/** What the analysis cannot judge yet and what it needs, per measurand (first-day behaviour). */
+function renderReadiness(result) {
+  const list = $('readiness');
+  const rows = result.ok ? (result.body.readiness ?? []) : [];
+  $('readiness-empty').hidden = rows.length > 0;
+  list.replaceChildren(...rows.map((r) => el('li', { 'data-measurand': r.measurand }, el('strong', { text: `${r.measurand}: ` }), r.summary)));
 }
 
 function renderHistory(result) {

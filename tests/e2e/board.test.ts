@@ -9,7 +9,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { chromium, type BrowserContext, type Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { startBoardFixture, TOKENS, type BoardFixture } from './boardFixture.ts';
+import { SAMPLE_DOUBT, startBoardFixture, TOKENS, type BoardFixture } from './boardFixture.ts';
 
 const CHROMIUM = '/usr/bin/chromium';
 const HAVE_CHROMIUM = existsSync(CHROMIUM);
@@ -56,6 +56,7 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     ]);
     expect(await fixture.feed('PS2-P3', 'gearbox')).toBeGreaterThan(0);
     expect(await fixture.feed('PR-2', 'hydraulic')).toBeGreaterThan(0);
+    expect(await fixture.feed(SAMPLE_DOUBT.unit, SAMPLE_DOUBT.component)).toBeGreaterThan(0);
     mkdirSync(OUT, { recursive: true });
     profile = mkdtempSync(join(tmpdir(), 'wearshift-chromium-'));
     context = await chromium.launchPersistentContext(profile, {
@@ -172,6 +173,11 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     expect(measurands.slice(0, 2)).toEqual(['Fe', 'Cu']);
     await poll(() => page.locator('#charts figure svg[role="img"]').count()).toBe(measurands.length);
     expect(await page.locator('#view-title').innerText()).toBe('PS2-P3 / gearbox');
+    // What the analysis can judge yet, per measurand, as the series API says it.
+    const readiness = series.readiness as { measurand: string; summary: string }[];
+    expect(readiness.length).toBeGreaterThan(0);
+    await poll(() => page.locator('#readiness li').count()).toBe(readiness.length);
+    expect(await page.locator(`#readiness li[data-measurand="${readiness[0]!.measurand}"]`).innerText()).toContain(readiness[0]!.summary);
     const history = page.locator('#history > li');
     await poll(() => history.count()).toBeGreaterThan(0);
     await history.first().locator('summary').focus();
@@ -179,6 +185,21 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     await poll(() => history.first().locator('.timeline li').count()).toBeGreaterThan(0);
     expect(await history.first().locator('.timeline li').first().innerText()).toMatch(/opened/);
     await page.screenshot({ path: join(OUT, 'component-wall.png'), fullPage: true });
+  });
+
+  it('asks about a sample in doubt and takes the answer: the sample is wrong', async () => {
+    await page.goto(fixture.url);
+    const card = page.locator(`#incidents > li.incident[data-incident^="${SAMPLE_DOUBT.unit}/${SAMPLE_DOUBT.component}"]`);
+    await card.first().waitFor();
+    const row = card.first().locator('.sample-verdict');
+    expect(await row.isVisible()).toBe(true);
+    expect(await row.innerText()).toContain(SAMPLE_DOUBT.sampleId);
+    // Machine incidents carry no such question.
+    expect(await page.locator(`#incidents > li.incident[data-incident^="PS2-P3/gearbox"] .sample-verdict`).first().isVisible()).toBe(false);
+    await row.locator('button[data-verdict="rejected"]').click();
+    await poll(() => card.first().locator('.action-status').innerText()).toMatch(new RegExp(`Sample ${SAMPLE_DOUBT.sampleId} marked wrong`));
+    // The verdict reached the server through the API, as the board user (the worker's side is tests/integration/sample-verdict.test.ts).
+    expect(fixture.verdicts).toEqual([{ ...SAMPLE_DOUBT, mark: 'rejected' }]);
   });
 
   it('starts with a skip link and shows where the keyboard focus is', async () => {

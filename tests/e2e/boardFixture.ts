@@ -15,6 +15,8 @@ import { viewOf } from '../../src/pipeline/componentView.ts';
 import { eventRoutes } from '../../src/http/eventRoutes.ts';
 import { incidentRoutes } from '../../src/http/incidentRoutes.ts';
 import { seriesRoutes } from '../../src/http/seriesRoutes.ts';
+import { sampleVerdictRoutes } from '../../src/http/sampleVerdictRoutes.ts';
+import type { SampleMark } from '../../src/analysis/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
 import { incidentChanges } from '../../src/pipeline/incidentChanges.ts';
@@ -27,12 +29,37 @@ export interface BoardFixture {
   readonly app: FastifyInstance;
   readonly hub: EventHub;
   readonly store: RedisIncidentStore;
+  /** The sample verdicts taken, in order. */
+  readonly verdicts: { unit: string; component: string; sampleId: string; mark: SampleMark | null }[];
   /** Feeds a component's evaluated history to the incident store and publishes what changed, as the worker does. */
   feed(unit: string, component: string): Promise<number>;
   close(): Promise<void>;
 }
 
 const config = loadConfig(new URL('../../demo/config.yaml', import.meta.url).pathname);
+
+/**
+ * An invented pump gearbox whose sixth bottle holds new oil, sent by mistake in the middle of a charge: a sampling
+ * finding puts it in doubt.
+ */
+export const SAMPLE_DOUBT = { unit: 'PS9-P1', component: 'gearbox', sampleId: 'PS9-P1-G-6' } as const;
+
+function sampleInDoubtHistory(): Sample[] {
+  return [1, 2, 3, 4, 5, 6, 7].map((i) => {
+    const readings = i === 6 ? { Fe: 1, Cu: '<1', Si: 4 } : { Fe: 8 + 6 * i, Cu: 2 + i, Si: 4 };
+    const parsed = parseResultEvent({
+      sampleId: `PS9-P1-G-${i}`,
+      unit: SAMPLE_DOUBT.unit,
+      component: SAMPLE_DOUBT.component,
+      sampledAt: new Date(Date.UTC(2026, 0, 1 + i * 14, 8)).toISOString(),
+      unitHours: 1000 + i * 250,
+      oilHours: i * 250,
+      readings,
+    });
+    if (!parsed.ok) throw new Error(`invented event invalid: ${JSON.stringify(parsed.issues)}`);
+    return parsed.sample;
+  });
+}
 
 export async function startBoardFixture(components: readonly [string, string][]): Promise<BoardFixture> {
   const redis: RedisServer = await startRedisServer();
@@ -45,6 +72,10 @@ export async function startBoardFixture(components: readonly [string, string][])
     if (!wanted.has(key)) continue;
     samples.set(key, [...(samples.get(key) ?? []), parsed.sample]);
   }
+  samples.set(componentKey(SAMPLE_DOUBT), sampleInDoubtHistory());
+  const marks = new Map<string, Map<string, SampleMark>>();
+  const verdicts: BoardFixture['verdicts'] = [];
+  const marksOf = (key: string) => marks.get(key) ?? new Map<string, SampleMark>();
   const store = new RedisIncidentStore(redis.client(), { rules: incidentRules(config), prefix: '{board-e2e}' });
   const hub = createEventHub();
   process.env.WEARSHIFT_TOKEN_VIEWER = TOKENS.viewer;
@@ -57,29 +88,46 @@ export async function startBoardFixture(components: readonly [string, string][])
       const list = samples.get(componentKey({ unit, component }));
       if (list === undefined) return undefined;
       const settings = resolveSettings(config, list[0]!);
-      return viewOf({ unit, component, group: settings.group, samples: list.length, lastSampledAt: list.at(-1)!.sampledAt }, settings, list, () => undefined);
+      return viewOf({ unit, component, group: settings.group, samples: list.length, lastSampledAt: list.at(-1)!.sampledAt }, settings, list, () => undefined, marksOf(componentKey({ unit, component })));
+    },
+  });
+  // As the worker does after a verdict: the mark is kept and the component judged again from the start.
+  await app.register(sampleVerdictRoutes, {
+    verdicts: {
+      async mark(ref, sampleId, mark) {
+        const key = componentKey(ref);
+        if (!(samples.get(key) ?? []).some((s) => s.sampleId === sampleId)) return false;
+        const kept = marksOf(key);
+        if (mark === null) kept.delete(sampleId);
+        else kept.set(sampleId, mark);
+        marks.set(key, kept);
+        verdicts.push({ unit: ref.unit, component: ref.component, sampleId, mark });
+        await feed(ref.unit, ref.component);
+        return true;
+      },
     },
   });
   await app.register(eventRoutes, { hub });
   await app.register(boardRoutes);
   const address = await app.listen({ host: '127.0.0.1', port: 0 });
 
-  const feed = async (unit: string, component: string) => {
+  async function feed(unit: string, component: string) {
     const list = samples.get(componentKey({ unit, component }));
     if (list === undefined) throw new Error(`no demo samples for ${unit}/${component}`);
     const settings = resolveSettings(config, list[0]!);
-    const { steps } = evaluateComponent(list, settings);
+    const { steps } = evaluateComponent(list, settings, undefined, { marks: marksOf(componentKey({ unit, component })) });
     const result = await store.applySteps({ unit, component }, steps, { group: settings.group, now: new Date(), quietBefore: new Date(0) });
     const changes = incidentChanges(result.before, result.state);
     for (const change of changes) hub.publish(incidentEvent(change));
     return changes.length;
-  };
+  }
 
   return {
     url: address,
     app,
     hub,
     store,
+    verdicts,
     feed,
     async close() {
       await app.close();

@@ -14,6 +14,9 @@ import { SampleVerdicts } from '../../src/queue/sampleVerdicts.ts';
 import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
 import { Partitions } from '../../src/redis/keys.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
+import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
+import { incidentRules } from '../../src/incidents/policy.ts';
+import { IncidentFilterSchema } from '../../src/incidents/listFilter.ts';
 import { silentLogger } from '../../src/runtime/logger.ts';
 import { createMetrics } from '../../src/runtime/metrics.ts';
 import { drained } from '../helpers/queueDrain.ts';
@@ -125,5 +128,11 @@ describe('a responder marks a sample in doubt', () => {
     expect((await post('V-6', { verdict: 'rejected', by: 'lab desk' })).status).toBe(202);
     await drained(queues, 120_000);
     expect((await statusOf('V-6')).status).toBe('rejected');
+    // The sampling incident the bottle opened no longer stands: withdrawn, with the sample.
+    const incidents = new RedisIncidents(redis.client(), { rules: incidentRules(config), prefix });
+    const all = await incidents.list(IncidentFilterSchema.parse({ state: 'all', unit: ref.unit }));
+    const sampling = all.filter((i) => i.id.includes('sampling'));
+    expect(sampling.length).toBeGreaterThan(0);
+    expect(sampling.filter((i) => i.closed === null)).toEqual([]);
   });
 });
