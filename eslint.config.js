@@ -1,5 +1,6 @@
 import js from '@eslint/js';
 import tseslint from 'typescript-eslint';
+import layers from './eslint/layers.js';
 
 export default tseslint.config(
   { ignores: ['node_modules/**', 'demo/out/**', 'schemas/**', 'coverage/**'] },
@@ -8,6 +9,11 @@ export default tseslint.config(
   {
     files: ['**/*.js'],
     languageOptions: { globals: { process: 'readonly', console: 'readonly' } },
+  },
+  {
+    files: ['src/**/*.ts', 'bench/**/*.ts'],
+    plugins: { layers },
+    rules: { 'layers/allowed-imports': 'error' },
   },
   {
     rules: {

@@ -16,11 +16,11 @@ import { Queue, QueueEvents, type Job } from 'bullmq';
 import type { Redis } from 'ioredis';
 import type { ResultEvent } from '../src/domain/event.ts';
 import type { NotifyEffect } from '../src/incidents/model.ts';
-import { createResultProducer, type ResultProducer } from '../src/intake/producer.ts';
+import { createResultProducer, type ResultProducer } from '../src/queue/producer.ts';
 import { defaultJobOptions, openQueue, QUEUE_NAMES, resolveQueueSettings } from '../src/queue/queues.ts';
 import { WORKER_DEFAULTS } from '../src/queue/workers.ts';
 import { RedisStore } from '../src/redis/redisStore.ts';
-import { startRedisServer, type RedisServer } from '../tests/helpers/redisServer.ts';
+import { startEmbeddedRedis as startRedisServer, type EmbeddedRedis as RedisServer } from '../src/runtime/embeddedRedis.ts';
 import {
   drainedAt,
   labFeed,

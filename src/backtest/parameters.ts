@@ -7,7 +7,7 @@ import { changeBudgetShare, detectionLimits, parseBudget, samplesPerBudgetPeriod
 import type { Config, Detection } from '../domain/config.ts';
 import { resolveSettings } from '../domain/settings.ts';
 // The same rounding as `wearshift design --json`, so that both print equal numbers.
-import { tidy } from '../cli/output.ts';
+import { tidy } from '../domain/numbers.ts';
 
 export interface BudgetText {
   /** As the user wrote it: "1 per component per 3 years". */

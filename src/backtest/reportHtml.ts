@@ -4,9 +4,10 @@
  * it shows is embedded verbatim as JSON (`<script type="application/json" id="summary">`) for tools and tests.
  * Severity is given by shape and word (◇ watch, ▲ caution, ■ alarm, as on the board), colour only adds to it.
  */
+import { ADVICE_CAUTION } from '../domain/caution.ts';
 import { RULE_FAMILIES, RULE_FAMILY_LABELS, type RuleFamily, type Severity } from '../domain/finding.ts';
 import { NEUTRAL, SEVERITY_STYLE } from '../charts/severityStyle.ts';
-import { escapeHtml } from '../notify/safeText.ts';
+import { escapeHtml } from '../domain/safeText.ts';
 import type { ComponentChart } from './charts.ts';
 import type { DetectorParameters } from './parameters.ts';
 import type { BacktestSummary, Earliness, EpisodeSummary, Firing, Lead, RunSummary } from './summary.ts';
@@ -18,7 +19,7 @@ export interface ReportComponent {
 }
 
 const CAUTION =
-  'wearshift advises: it does not replace the laboratory\u2019s diagnosis, the equipment maker\u2019s limits, local codes or licensed practice.';
+  ADVICE_CAUTION;
 
 const FAMILY_WORD: Record<RuleFamily, string> = RULE_FAMILY_LABELS;
 

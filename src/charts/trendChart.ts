@@ -14,7 +14,7 @@ import { utcFormat } from 'd3-time-format';
 import type { Levels } from '../domain/config.ts';
 import { RULE_FAMILY_LABELS } from '../domain/finding.ts';
 import { MEASURANDS, type Measurand } from '../domain/measurands.ts';
-import { escapeHtml as escapeXml } from '../notify/safeText.ts';
+import { escapeHtml as escapeXml } from '../domain/safeText.ts';
 import { chartAltText } from './altText.ts';
 import type { Iso4406Code } from '../domain/reading.ts';
 import type { CleanlinessSeries, ComponentSeries, MarkPanel, MeasurandSeries, RuleMark } from './componentSeries.ts';

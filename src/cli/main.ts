@@ -1,4 +1,5 @@
 /** The `wearshift` command line. Each command lives in its own module under ./commands. */
+import { ADVICE_CAUTION } from '../domain/caution.ts';
 import { Command, CommanderError } from 'commander';
 import { InputError } from '../domain/errors.ts';
 import { registerDocs } from './commands/docs.ts';
@@ -16,7 +17,7 @@ import { registerServe } from './commands/serve.ts';
 import { registerWorker } from './commands/worker.ts';
 
 const CAUTION =
-  'wearshift advises: it does not replace the laboratory\'s diagnosis, the equipment maker\'s limits, local codes or licensed practice.';
+  ADVICE_CAUTION;
 
 export function buildProgram(): Command {
   const program = new Command('wearshift')

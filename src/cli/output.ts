@@ -1,4 +1,5 @@
 /** Output for people (aligned tables) and for machines (`--json`: one JSON object per line). */
+import { ADVICE_CAUTION } from '../domain/caution.ts';
 import { InvalidArgumentError } from 'commander';
 import { InputError } from '../domain/errors.ts';
 
@@ -31,10 +32,7 @@ export function numberListOption(name: string) {
   return (raw: string): number[] => raw.split(',').map((p) => numberOption(name)(p));
 }
 
-/** JSON output keeps 12 significant digits: enough for any check, without binary noise such as 0.04999999999999982. */
-export function tidy(x: number): number {
-  return Number(x.toPrecision(12));
-}
+export { tidy } from '../domain/numbers.ts';
 
 /** Parameter errors of the analysis core (RangeError) are the user's to fix: printed without a stack, exit 2. */
 export function asInputError<T>(run: () => T): T {
@@ -56,4 +54,4 @@ export function processingTime(text: string | undefined): number {
 
 /** The caution every human-readable output that carries findings ends with. */
 export const ADVISORY_LINE =
-  'wearshift advises: the laboratory\u2019s diagnosis, the equipment maker\u2019s limits, local codes and licensed practice decide.';
+  ADVICE_CAUTION;

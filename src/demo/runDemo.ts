@@ -17,7 +17,7 @@ import { incidentRules } from '../incidents/policy.ts';
 import { RedisIncidents } from '../redis/redisIncidents.ts';
 import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../queue/queues.ts';
 import { freePort, startEmbeddedRedis, type EmbeddedRedis } from '../runtime/embeddedRedis.ts';
-import { createLogger, type Logger } from '../runtime/logger.ts';
+import { createLogger, type Logger } from '../telemetry/logger.ts';
 import { connectRedis } from '../redis/connection.ts';
 import { startServices } from '../runtime/services.ts';
 import { closeAll, type Closer } from '../runtime/shutdown.ts';

@@ -27,6 +27,9 @@ const readingValue = z.union([z.number(), z.string().max(40, 'a reading string m
   error: 'expected a finite number, a censored value such as "<1", or an ISO 4406 code such as "18/16/13"',
 });
 
+/** The start of the reason given for a sampledAt ahead of the server clock (counted as its own kind of rejection). */
+export const FUTURE_REASON = 'lies in the future';
+
 export const ResultEventSchema = z
   .object({
     sampleId: identifier('sampleId').describe('The laboratory sample number; with revision, the identity of a result.'),

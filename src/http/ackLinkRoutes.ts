@@ -7,7 +7,7 @@
 import type { FastifyPluginAsync, FastifyReply, FastifyRequest } from 'fastify';
 import { verifyAckLink, type AckLinkClaims } from '../notify/ackLink.ts';
 import { ACK_NAME_MAX, ACK_NOTE_MAX, renderAckPage, type AckIncidentSummary, type AckPageView } from '../notify/ackPage.ts';
-import { oneLine } from '../notify/safeText.ts';
+import { oneLine } from '../domain/safeText.ts';
 
 export interface AckLinkRoutesOptions {
   /** Accepted signing secrets, the current one first; older ones keep links already sent working. */

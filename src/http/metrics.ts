@@ -4,7 +4,7 @@
  * on a trusted network that cannot send a bearer token.
  */
 import type { FastifyPluginAsync } from 'fastify';
-import type { Metrics } from '../runtime/metrics.ts';
+import type { Metrics } from '../telemetry/metrics.ts';
 import { requireRole } from './auth.ts';
 
 export interface MetricsRouteOptions {

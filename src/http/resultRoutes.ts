@@ -6,7 +6,7 @@
  */
 import type { FastifyError, FastifyPluginAsync } from 'fastify';
 import type { RecordOutcome } from '../intake/validate.ts';
-import type { Metrics } from '../runtime/metrics.ts';
+import type { Metrics } from '../telemetry/metrics.ts';
 import { requireRole } from './auth.ts';
 
 export interface ResultRoutesOptions {

@@ -6,10 +6,10 @@
 import Fastify from 'fastify';
 import type { Config } from '../domain/config.ts';
 import { describeState, type Incident } from '../incidents/model.ts';
-import type { RedisIncidents } from '../redis/redisIncidents.ts';
+import type { IncidentRoutesStore } from './incidentRoutes.ts';
 import type { AckIncidentSummary } from '../notify/ackPage.ts';
-import type { Logger } from '../runtime/logger.ts';
-import type { Metrics } from '../runtime/metrics.ts';
+import type { Logger } from '../telemetry/logger.ts';
+import type { Metrics } from '../telemetry/metrics.ts';
 import { componentView } from '../pipeline/componentView.ts';
 import type { ComponentStore, GroupLedger } from '../pipeline/ports.ts';
 import { ackLinkRoutes } from './ackLinkRoutes.ts';
@@ -35,7 +35,7 @@ export interface ServerOptions {
   /** Serve /metrics without a token. Default: WEARSHIFT_METRICS_PUBLIC === '1'. */
   readonly metricsPublic?: boolean;
   /** The incident store, for the incident API and the acknowledgement-link pages. */
-  readonly incidents?: RedisIncidents;
+  readonly incidents?: IncidentRoutesStore;
   /** Stored histories, group statistics and the configuration, for the series and chart routes. */
   readonly histories?: { readonly store: ComponentStore; readonly ledger: GroupLedger; readonly config: Config };
   /** Takes a responder's verdict on a sample in doubt, for POST …/samples/:sampleId/verdict. */

@@ -15,7 +15,8 @@ export interface ValidationOptions {
 export const DEFAULT_MAX_AHEAD_MS = 24 * 60 * 60 * 1000;
 
 /** Start of the reason given for a sampledAt ahead of the clock (metrics count these apart). */
-export const FUTURE_REASON = 'lies in the future';
+export { FUTURE_REASON } from '../domain/event.ts';
+import { FUTURE_REASON } from '../domain/event.ts';
 
 export function validateResult(input: unknown, options: ValidationOptions): ParsedEvent {
   const parsed = parseResultEvent(input);

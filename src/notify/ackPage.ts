@@ -1,6 +1,6 @@
 /** The small HTML pages behind an acknowledgement link: confirm, done, and the refusals. */
-import { escapeHtml, oneLine } from './safeText.ts';
-import { ADVISORY_CAUTION } from './emailRender.ts';
+import { escapeHtml, oneLine } from '../domain/safeText.ts';
+import { ADVICE_CAUTION } from '../domain/caution.ts';
 import { formatTime } from './format.ts';
 
 /** What the confirmation page tells about an incident; supplied by whoever stores incidents. */
@@ -113,7 +113,7 @@ function page(title: string, body: string[]): string {
     '</head><body>',
     `<h1>${escapeHtml(oneLine(title))}</h1>`,
     ...body.filter((b) => b !== ''),
-    `<p class="quiet"><em>${escapeHtml(ADVISORY_CAUTION)}</em></p>`,
+    `<p class="quiet"><em>${escapeHtml(ADVICE_CAUTION)}</em></p>`,
     '</body></html>',
     '',
   ].join('\n');

@@ -6,10 +6,10 @@ import { createHash } from 'node:crypto';
 import { MEASURANDS, isMeasurand } from '../domain/measurands.ts';
 import { asksForAcknowledgement, type IncidentMessage } from './message.ts';
 import { formatNumber, formatTime } from './format.ts';
-import { escapeHtml, headerValue, httpUrl, oneLine } from './safeText.ts';
+import { ADVICE_CAUTION } from '../domain/caution.ts';
+import { escapeHtml, headerValue, httpUrl, oneLine } from '../domain/safeText.ts';
 
-export const ADVISORY_CAUTION =
-  "wearshift advises; the laboratory's diagnosis and the equipment maker's limits decide; local codes and licensed practice apply.";
+export { ADVICE_CAUTION as ADVISORY_CAUTION } from '../domain/caution.ts';
 
 export interface EmailRenderOptions {
   /** Sender, e.g. `wearshift <alerts@plant.example>`; its domain also names the Message-ID. */
@@ -91,7 +91,7 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
     '',
     context,
     '',
-    ADVISORY_CAUTION,
+    ADVICE_CAUTION,
     '',
   ].join('\n');
 
@@ -114,7 +114,7 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
     `<p>Incident: <a href="${escapeHtml(incidentUrl)}">${escapeHtml(incidentUrl)}</a></p>`,
     ...(ackUrl ? [`<p><a href="${escapeHtml(ackUrl)}">Acknowledge this incident</a> (a page asks you to confirm).${escapeHtml(expiry)}</p>`] : []),
     `<p style="color:#555">${escapeHtml(context)}</p>`,
-    `<p style="color:#555"><em>${escapeHtml(ADVISORY_CAUTION)}</em></p>`,
+    `<p style="color:#555"><em>${escapeHtml(ADVICE_CAUTION)}</em></p>`,
     '</body></html>',
     '',
   ].join('\n');

@@ -1,5 +1,5 @@
 /** How times and numbers read in messages and pages. */
-import { oneLine } from './safeText.ts';
+import { oneLine } from '../domain/safeText.ts';
 
 /** "2026-03-01 08:00 UTC": unambiguous across the sites' time zones. */
 export function formatTime(iso: string): string {

@@ -40,6 +40,8 @@ export interface IncidentMessage {
   recentResults: Array<{ sampleId: string; sampledAt: string; oilHours?: number; readings: Record<string, string> }>;
   /** One sentence, e.g. "Fe wear rate shifted up (CUSUM 5.6 above its limit 5.0) since LAB-0042." */
   whatChanged: string;
+  /** The caution that goes with every finding: the tool advises, people decide (ADVICE_CAUTION). */
+  advice: string;
   /** From the incident engine: the same key means the same message, so every channel can de-duplicate on it. */
   idempotencyKey: string;
 }

@@ -5,7 +5,7 @@
  */
 import type { IncidentCloudEvent } from './cloudEvent.ts';
 import { parseRetryAfter } from './retryTiming.ts';
-import { oneLine } from './safeText.ts';
+import { oneLine } from '../domain/safeText.ts';
 import { signWebhook } from './webhookSignature.ts';
 
 export interface WebhookEndpoint {

@@ -10,8 +10,8 @@ import { evaluateStored, type EvaluationDeps } from '../pipeline/evaluateStored.
 import { incidentEvent, type LiveEvent } from '../pipeline/liveEvent.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
 import type { Partitions } from '../redis/keys.ts';
-import type { Logger } from '../runtime/logger.ts';
-import type { Metrics } from '../runtime/metrics.ts';
+import type { Logger } from '../telemetry/logger.ts';
+import type { Metrics } from '../telemetry/metrics.ts';
 import { scheduleEvaluation } from './queues.ts';
 
 export interface EvaluationRunnerDeps extends EvaluationDeps {

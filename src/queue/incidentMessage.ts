@@ -1,4 +1,5 @@
 /** Maps an incident engine's notify effect onto the message every channel renders (src/notify/message.ts). */
+import { ADVICE_CAUTION } from '../domain/caution.ts';
 import { createHash } from 'node:crypto';
 import { buildHistory } from '../analysis/history.ts';
 import type { Sample } from '../domain/event.ts';
@@ -46,6 +47,7 @@ export function incidentMessage(effect: NotifyEffect, revisions: readonly Sample
       readings: Object.fromEntries(Object.entries(r.readings).map(([m, reading]) => [m, formatReading(reading!)])),
     })),
     whatChanged: s.reason,
+    advice: ADVICE_CAUTION,
     idempotencyKey: idempotencyKey(effect.key),
   };
 }

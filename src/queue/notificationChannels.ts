@@ -15,7 +15,7 @@ import { asksForAcknowledgement, type IncidentMessage } from '../notify/message.
 import { createMqttPublisher, type MqttPublisher } from '../notify/mqttPublisher.ts';
 import { deliverWebhook } from '../notify/webhookDelivery.ts';
 import type { DisabledEndpoints } from './disabledEndpoints.ts';
-import type { Logger } from '../runtime/logger.ts';
+import type { Logger } from '../telemetry/logger.ts';
 
 export class DeliveryRetry extends Error {
   override readonly name = 'DeliveryRetry';

@@ -8,7 +8,7 @@ import { createHash } from 'node:crypto';
 import type { Queue } from 'bullmq';
 import type { IncidentEffect, NotifyEffect } from '../incidents/model.ts';
 import type { RedisIncidents } from '../redis/redisIncidents.ts';
-import type { Logger } from '../runtime/logger.ts';
+import type { Logger } from '../telemetry/logger.ts';
 
 export interface EscalateJobData {
   readonly incidentId: string;

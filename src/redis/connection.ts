@@ -6,7 +6,7 @@
 import { Cluster, Redis, type ClusterOptions, type RedisOptions } from 'ioredis';
 import type { Config } from '../domain/config.ts';
 import { InputError } from '../domain/errors.ts';
-import { maskUrl, type Logger } from '../runtime/logger.ts';
+import { maskUrl, type Logger } from '../telemetry/logger.ts';
 
 export const DEFAULT_REDIS_URL = 'redis://127.0.0.1:6379';
 

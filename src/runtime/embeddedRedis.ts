@@ -8,6 +8,7 @@ import { mkdtempSync, rmSync } from 'node:fs';
 import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { Redis } from 'ioredis';
 
 export interface EmbeddedRedisOptions {
   /** Keep an append-only file in the temporary directory, so that a restart keeps the data. Default false. */
@@ -28,7 +29,9 @@ export interface EmbeddedRedis {
   start(): Promise<void>;
   /** Stops the server (SIGTERM, waits for exit); the directory stays until dispose(). */
   stop(): Promise<void>;
-  /** Stops the server and removes its directory. */
+  /** A client of this server (no retry limit, errors swallowed: the caller watches the commands), closed by dispose(). */
+  client(): Redis;
+  /** Closes the clients, stops the server and removes its directory. */
   dispose(): Promise<void>;
 }
 
@@ -124,13 +127,21 @@ export async function startEmbeddedRedis(options: EmbeddedRedisOptions = {}): Pr
     rmSync(dir, { recursive: true, force: true });
     throw e;
   }
+  const clients: Redis[] = [];
   return {
     port,
     url: `redis://127.0.0.1:${port}`,
     dir,
     start,
     stop,
+    client() {
+      const c = new Redis(port, '127.0.0.1', { maxRetriesPerRequest: null, lazyConnect: false });
+      c.on('error', () => {});
+      clients.push(c);
+      return c;
+    },
     async dispose() {
+      for (const c of clients) c.disconnect();
       await stop();
       rmSync(dir, { recursive: true, force: true });
     },

@@ -5,7 +5,7 @@
  */
 import type { RedisConnection as Redis } from '../redis/connection.ts';
 import type { EventHub, LiveEvent } from '../http/eventHub.ts';
-import type { Logger } from './logger.ts';
+import type { Logger } from '../telemetry/logger.ts';
 
 export function liveChannel(prefix: string): string {
   return `${prefix}:live`;

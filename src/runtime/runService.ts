@@ -1,7 +1,7 @@
 /** What `wearshift serve|worker|api` share: configuration, logger, the services, and shutdown on signals. */
 import { loadConfig } from '../domain/configFile.ts';
 import { InputError } from '../domain/errors.ts';
-import { createLogger } from './logger.ts';
+import { createLogger } from '../telemetry/logger.ts';
 import { DEFAULT_PORT, startServices } from './services.ts';
 import { DEFAULT_SHUTDOWN_TIMEOUT_MS, onShutdownSignals } from './shutdown.ts';
 

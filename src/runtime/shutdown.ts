@@ -3,7 +3,7 @@
  * Redis — in that order — but never wait longer than the bound, because a Redis that has gone away can
  * leave a close() hanging. A second signal exits at once.
  */
-import type { Logger } from './logger.ts';
+import type { Logger } from '../telemetry/logger.ts';
 
 export interface Closer {
   readonly name: string;

@@ -13,11 +13,11 @@ import { createEventHub } from '../../src/http/eventHub.ts';
 import { buildServer, type WearshiftServer } from '../../src/http/server.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
-import { createResultProducer, type ResultProducer } from '../../src/intake/producer.ts';
+import { createResultProducer, type ResultProducer } from '../../src/queue/producer.ts';
 import { signAckLink } from '../../src/notify/ackLink.ts';
 import { storeResult } from '../../src/pipeline/storeResult.ts';
-import { silentLogger } from '../../src/runtime/logger.ts';
-import { createMetrics } from '../../src/runtime/metrics.ts';
+import { silentLogger } from '../../src/telemetry/logger.ts';
+import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 

@@ -6,7 +6,7 @@
  * de-duplicates anything.
  */
 import { afterEach, describe, expect, it } from 'vitest';
-import { createResultProducer } from '../../src/intake/producer.ts';
+import { createResultProducer } from '../../src/queue/producer.ts';
 import { DEFAULT_BACKOFF } from '../../src/notify/retryTiming.ts';
 import { inventedFleet } from '../helpers/fleetCsv.ts';
 import { freePort } from '../helpers/redisServer.ts';

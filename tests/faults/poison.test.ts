@@ -5,7 +5,7 @@
  * (The in-process case with one bad measurand and `failed retry`: tests/integration/queue-failed.test.ts.)
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { createResultProducer } from '../../src/intake/producer.ts';
+import { createResultProducer } from '../../src/queue/producer.ts';
 import { inventedFleet } from '../helpers/fleetCsv.ts';
 import { runCli } from '../helpers/cli.ts';
 import { startWearshift, stopAll } from '../helpers/processes.ts';

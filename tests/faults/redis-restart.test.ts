@@ -4,7 +4,7 @@
  * where it stopped. Nothing accepted is lost, nothing is stored or told twice.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { createResultProducer } from '../../src/intake/producer.ts';
+import { createResultProducer } from '../../src/queue/producer.ts';
 import { inventedFleet } from '../helpers/fleetCsv.ts';
 import { freePort } from '../helpers/redisServer.ts';
 import { startWearshift, stopAll, waitFor } from '../helpers/processes.ts';

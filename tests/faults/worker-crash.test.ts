@@ -8,7 +8,7 @@
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { NotifyEffect } from '../../src/incidents/model.ts';
-import { createResultProducer } from '../../src/intake/producer.ts';
+import { createResultProducer } from '../../src/queue/producer.ts';
 import { inventedFleet } from '../helpers/fleetCsv.ts';
 import { freePort } from '../helpers/redisServer.ts';
 import { startWearshift, stopAll, waitFor } from '../helpers/processes.ts';

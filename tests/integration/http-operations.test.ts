@@ -5,7 +5,7 @@
 import { createServer } from 'node:net';
 import { PassThrough } from 'node:stream';
 import { afterEach, describe, expect, it } from 'vitest';
-import { createLogger, maskUrl } from '../../src/runtime/logger.ts';
+import { createLogger, maskUrl } from '../../src/telemetry/logger.ts';
 import { runCli, startCli } from '../helpers/cli.ts';
 import { freePort, startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 

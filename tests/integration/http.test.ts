@@ -4,10 +4,10 @@
 import type { Queue } from 'bullmq';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { buildServer, type WearshiftServer } from '../../src/http/server.ts';
-import { createResultProducer, type ResultProducer } from '../../src/intake/producer.ts';
+import { createResultProducer, type ResultProducer } from '../../src/queue/producer.ts';
 import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
-import { silentLogger } from '../../src/runtime/logger.ts';
-import { createMetrics } from '../../src/runtime/metrics.ts';
+import { silentLogger } from '../../src/telemetry/logger.ts';
+import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { connectRedis } from '../../src/redis/connection.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 

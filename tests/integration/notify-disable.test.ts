@@ -9,7 +9,7 @@ import { ChannelsSchema } from '../../src/domain/escalationConfig.ts';
 import type { NotifyEffect } from '../../src/incidents/model.ts';
 import { redisDisabledEndpoints } from '../../src/queue/disabledEndpoints.ts';
 import { notificationChannels } from '../../src/queue/notificationChannels.ts';
-import { silentLogger } from '../../src/runtime/logger.ts';
+import { silentLogger } from '../../src/telemetry/logger.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { incidentMessage } from '../unit/notify-fixtures.ts';
 

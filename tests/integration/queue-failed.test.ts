@@ -6,7 +6,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
 import { startWorkers } from '../../src/queue/workers.ts';
-import { silentLogger } from '../../src/runtime/logger.ts';
+import { silentLogger } from '../../src/telemetry/logger.ts';
 import { runCli } from '../helpers/cli.ts';
 import { drained } from '../helpers/queueDrain.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';

@@ -15,10 +15,10 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
-import { createResultProducer } from '../../src/intake/producer.ts';
+import { createResultProducer } from '../../src/queue/producer.ts';
 import { notificationChannels } from '../../src/queue/notificationChannels.ts';
 import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
-import { silentLogger } from '../../src/runtime/logger.ts';
+import { silentLogger } from '../../src/telemetry/logger.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const WEBHOOK_SECRET = `whsec_${randomBytes(24).toString('base64')}`;

@@ -10,7 +10,7 @@ import { loadConfig } from '../../domain/configFile.ts';
 import { InputError } from '../../domain/errors.ts';
 import type { FieldIssue } from '../../domain/event.ts';
 import { formatOf, readRecordFile } from '../../intake/fileRecords.ts';
-import { createResultProducer, type ResultProducer } from '../../intake/producer.ts';
+import { createResultProducer, type ResultProducer } from '../../queue/producer.ts';
 import { claimedSampleId, validateResult } from '../../intake/validate.ts';
 import { closeQuietly, connectForCommand, redisUrl } from '../../redis/connection.ts';
 import { writeJsonLine } from '../output.ts';

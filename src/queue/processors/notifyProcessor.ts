@@ -6,7 +6,7 @@ import type { Job, Processor } from 'bullmq';
 import type { Config } from '../../domain/config.ts';
 import type { NotifyEffect } from '../../incidents/model.ts';
 import type { ComponentStore, GroupLedger } from '../../pipeline/ports.ts';
-import type { Logger } from '../../runtime/logger.ts';
+import type { Logger } from '../../telemetry/logger.ts';
 import { incidentChart } from '../incidentChart.ts';
 import { incidentMessage } from '../incidentMessage.ts';
 import type { NotificationChannels } from '../notificationChannels.ts';

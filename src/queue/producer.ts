@@ -6,8 +6,8 @@
 import type { Queue } from 'bullmq';
 import { connectRedis, type RedisConnection, type RedisTarget } from '../redis/connection.ts';
 import { Partitions } from '../redis/keys.ts';
-import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from '../queue/queues.ts';
-import { validateBatch, type RecordOutcome, type ValidationOptions } from './validate.ts';
+import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from './queues.ts';
+import { validateBatch, type RecordOutcome, type ValidationOptions } from '../intake/validate.ts';
 
 export interface ResultProducerOptions extends Pick<QueueSettings, 'prefix' | 'attempts' | 'backoffMs' | 'keepCompleted' | 'keepFailed'> {
   /** A Redis URL (`redis://host:6379/0`), a cluster's seed nodes, or an ioredis connection the caller owns (and closes). */

@@ -5,7 +5,7 @@
 import { Counter, Gauge, Histogram, Registry, collectDefaultMetrics } from 'prom-client';
 import type { FieldIssue } from '../domain/event.ts';
 import type { Finding } from '../domain/finding.ts';
-import { FUTURE_REASON } from '../intake/validate.ts';
+import { FUTURE_REASON } from '../domain/event.ts';
 
 /** Reads the job counts of the queues; wired by whoever owns the queues. */
 export type QueueDepthSource = () => Promise<Record<string, Record<string, number>>>;

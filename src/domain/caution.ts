@@ -1,0 +1,6 @@
+/**
+ * The one caution that goes with every finding, wherever it reaches a person or another system (board, e-mail,
+ * acknowledgement page, webhook and MQTT data, command line, backtest report): the tool advises, people decide.
+ */
+export const ADVICE_CAUTION =
+  "wearshift advises: the laboratory's diagnosis, the equipment maker's limits, local codes and licensed practice decide.";
