@@ -10,5 +10,5 @@
 export { createResultProducer, type ResultProducer, type ResultProducerOptions } from './queue/producer.ts';
 export { parseResultEvent, ResultEventSchema, type FieldIssue, type ParsedEvent, type ResultEvent, type Sample } from './domain/event.ts';
 export type { RecordOutcome } from './intake/validate.ts';
-export { DEFAULT_WEBHOOK_TOLERANCE_SECONDS, verifyWebhook, type WebhookHeaders, type WebhookRefusal } from './notify/webhookSignature.ts';
+export { DEFAULT_WEBHOOK_TOLERANCE_SECONDS, verifyWebhook, type WebhookHeaders, type WebhookRefusal } from './channels/webhook/webhookSignature.ts';
 export { ADVICE_CAUTION } from './domain/caution.ts';

@@ -157,6 +157,10 @@ export const ChannelsSchema = z
   .refine((c) => new Set(c.mqtt.map((m) => m.name)).size === c.mqtt.length, { message: 'MQTT channel names must be unique', path: ['mqtt'] });
 export type Channels = z.infer<typeof ChannelsSchema>;
 
+/** The notification channels; each has its folder under src/channels and one line in src/channels/registry.ts. */
+export const CHANNEL_KINDS = ['email', 'webhook', 'mqtt'] as const;
+export type ChannelKind = (typeof CHANNEL_KINDS)[number];
+
 export interface ConfigIssue {
   readonly path: (string | number)[];
   readonly message: string;

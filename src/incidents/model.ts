@@ -18,7 +18,8 @@ export const INCIDENT_EVENT_TYPES = [
 ] as const;
 export type IncidentEventType = (typeof INCIDENT_EVENT_TYPES)[number];
 
-export type ChannelKind = 'email' | 'webhook' | 'mqtt';
+export type { ChannelKind } from '../domain/escalationConfig.ts';
+import type { ChannelKind } from '../domain/escalationConfig.ts';
 
 export interface Acknowledgement {
   readonly by: string;

@@ -9,7 +9,7 @@ import { renderTrendChart } from '../charts/trendChart.ts';
 import type { Config } from '../domain/config.ts';
 import { severityRank } from '../domain/finding.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
-import type { EmailChart } from '../notify/emailRender.ts';
+import type { EmailChart } from '../channels/email/emailRender.ts';
 import { componentView } from '../pipeline/componentView.ts';
 import type { ComponentStore, GroupLedger } from '../pipeline/ports.ts';
 

@@ -9,8 +9,9 @@ import { createEventHub } from '../http/eventHub.ts';
 import { buildServer } from '../http/server.ts';
 import { incidentRules } from '../incidents/policy.ts';
 import { createResultProducer } from '../queue/producer.ts';
-import { redisDisabledEndpoints } from '../queue/disabledEndpoints.ts';
-import { notificationChannels } from '../queue/notificationChannels.ts';
+import { redisDisabledEndpoints } from '../redis/disabledEndpoints.ts';
+import { notificationChannels } from '../channels/openChannels.ts';
+import { configuredChannels } from '../channels/registry.ts';
 import { openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings } from '../queue/queues.ts';
 import { Partitions } from '../redis/keys.ts';
 import { SampleVerdicts } from '../queue/sampleVerdicts.ts';
@@ -115,7 +116,7 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
   if (options.workers) {
     const connection = connectRedis(target, 'worker', logger);
     connections.push(connection);
-    const hasChannels = config.channels.email !== undefined || config.channels.webhooks.length > 0 || config.channels.mqtt.length > 0;
+    const hasChannels = configuredChannels(config.channels).length > 0;
     if (hasChannels && config.channels.ackLinks === undefined) logger.warn(`messages will link to ${apiBaseUrl}; set channels.ackLinks.baseUrl to the public address of the API`);
     const workers = startWorkers(
       {

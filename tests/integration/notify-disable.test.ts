@@ -7,8 +7,8 @@ import type { AddressInfo } from 'node:net';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { ChannelsSchema } from '../../src/domain/escalationConfig.ts';
 import type { NotifyEffect } from '../../src/incidents/model.ts';
-import { redisDisabledEndpoints } from '../../src/queue/disabledEndpoints.ts';
-import { notificationChannels } from '../../src/queue/notificationChannels.ts';
+import { redisDisabledEndpoints } from '../../src/redis/disabledEndpoints.ts';
+import { notificationChannels } from '../../src/channels/openChannels.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { incidentMessage } from '../unit/notify-fixtures.ts';
@@ -53,12 +53,12 @@ describe('410 Gone disables a webhook endpoint', () => {
     const { port } = receiver.address() as AddressInfo;
     const channels = ChannelsSchema.parse({ webhooks: [{ name: 'plant-bus', url: `http://127.0.0.1:${port}/hook`, secrets: [`whsec_${Buffer.alloc(32, 7).toString('base64')}`] }] });
     const first = notificationChannels(channels, { logger: silentLogger(), disabledEndpoints: redisDisabledEndpoints(redis.client(), '{t}') });
-    await expect(first.deliver(effect(1), incidentMessage(), 1)).rejects.toThrow(/410 Gone.*disabled/);
+    await expect(first.deliver({ effect: effect(1), message: incidentMessage(), attempt: 1 })).rejects.toThrow(/410 Gone.*disabled/);
     expect(requests).toBe(1);
 
     // Another worker process: its own channels, the same Redis.
     const second = notificationChannels(channels, { logger: silentLogger(), disabledEndpoints: redisDisabledEndpoints(redis.client(), '{t}') });
-    await expect(second.deliver(effect(2), incidentMessage(), 1)).resolves.toMatch(/not sent, the endpoint is disabled \(410 Gone/);
+    await expect(second.deliver({ effect: effect(2), message: incidentMessage(), attempt: 1 })).resolves.toMatch(/not sent, the endpoint is disabled \(410 Gone/);
     expect(requests).toBe(1);
     await Promise.all([first.close(), second.close()]);
   });

@@ -7,8 +7,8 @@ import { simpleParser, type ParsedMail } from 'mailparser';
 import { SMTPServer, type SMTPServerOptions } from 'smtp-server';
 import { afterEach, describe, expect, it } from 'vitest';
 import { signAckLink, ackLinkUrl } from '../../src/notify/ackLink.ts';
-import { renderIncidentEmail } from '../../src/notify/emailRender.ts';
-import { EmailDeliveryError, sendEmail } from '../../src/notify/emailSend.ts';
+import { renderIncidentEmail } from '../../src/channels/email/emailRender.ts';
+import { EmailDeliveryError, sendEmail } from '../../src/channels/email/emailSend.ts';
 import { incidentMessage } from '../unit/notify-fixtures.ts';
 
 interface Received {

@@ -7,7 +7,7 @@ import { Aedes, type AedesOptions } from 'aedes';
 import { connectAsync, type MqttClient } from 'mqtt';
 import { afterEach, describe, expect, it } from 'vitest';
 import { toCloudEvent, type IncidentCloudEvent } from '../../src/notify/cloudEvent.ts';
-import { createMqttPublisher, type MqttPublisher } from '../../src/notify/mqttPublisher.ts';
+import { createMqttPublisher, type MqttPublisher } from '../../src/channels/mqtt/mqttPublisher.ts';
 import { incidentMessage } from '../unit/notify-fixtures.ts';
 
 interface Broker {

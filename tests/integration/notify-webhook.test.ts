@@ -9,9 +9,9 @@ import type { AddressInfo } from 'node:net';
 import { Webhook, WebhookVerificationError } from 'standardwebhooks';
 import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest';
 import { toCloudEvent } from '../../src/notify/cloudEvent.ts';
-import { webhookLogEntry } from '../../src/notify/deliveryLog.ts';
+import { webhookLogEntry } from '../../src/channels/webhook/deliveryLog.ts';
 import { delayBeforeNextAttempt } from '../../src/notify/retryTiming.ts';
-import { deliverWebhook } from '../../src/notify/webhookDelivery.ts';
+import { deliverWebhook } from '../../src/channels/webhook/webhookDelivery.ts';
 import { incidentMessage } from '../unit/notify-fixtures.ts';
 
 interface Request {

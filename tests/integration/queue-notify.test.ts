@@ -16,7 +16,7 @@ import { parseConfig } from '../../src/domain/configFile.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
 import { createResultProducer } from '../../src/queue/producer.ts';
-import { notificationChannels } from '../../src/queue/notificationChannels.ts';
+import { notificationChannels } from '../../src/channels/openChannels.ts';
 import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { ADVISORY_CAUTION, renderIncidentEmail } from '../../src/notify/emailRender.ts';
+import { ADVISORY_CAUTION, renderIncidentEmail } from '../../src/channels/email/emailRender.ts';
 import { incidentMessage } from './notify-fixtures.ts';
 
 const options = {

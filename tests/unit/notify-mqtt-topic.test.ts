@@ -1,6 +1,6 @@
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import { checkTopicTemplate, incidentTopic, topicLevelText } from '../../src/notify/mqttTopic.ts';
+import { checkTopicTemplate, incidentTopic, topicLevelText } from '../../src/channels/mqtt/mqttTopic.ts';
 import { incidentMessage } from './notify-fixtures.ts';
 
 describe('MQTT topic from a template', () => {

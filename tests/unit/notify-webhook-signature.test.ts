@@ -2,7 +2,7 @@ import { randomBytes } from 'node:crypto';
 import { Webhook } from 'standardwebhooks';
 import { describe, expect, it } from 'vitest';
 import { toCloudEvent } from '../../src/notify/cloudEvent.ts';
-import { signWebhook, webhookKey } from '../../src/notify/webhookSignature.ts';
+import { signWebhook, webhookKey } from '../../src/channels/webhook/webhookSignature.ts';
 import { incidentMessage } from './notify-fixtures.ts';
 
 const secret = () => `whsec_${randomBytes(32).toString('base64')}`;

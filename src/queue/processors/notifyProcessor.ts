@@ -2,14 +2,15 @@
  * The notify processor: renders one message (with the trend chart for e-mail) and delivers it over its channel.
  * Failures the receiver may get over are retried with backoff, or after its Retry-After.
  */
-import type { Job, Processor } from 'bullmq';
+import { UnrecoverableError, type Job, type Processor } from 'bullmq';
+import { DeliveryRefused } from '../../channels/errors.ts';
+import type { NotificationChannels } from '../../channels/openChannels.ts';
 import type { Config } from '../../domain/config.ts';
 import type { NotifyEffect } from '../../incidents/model.ts';
 import type { ComponentStore, GroupLedger } from '../../pipeline/ports.ts';
 import type { Logger } from '../../telemetry/logger.ts';
 import { incidentChart } from '../incidentChart.ts';
 import { incidentMessage } from '../incidentMessage.ts';
-import type { NotificationChannels } from '../notificationChannels.ts';
 
 export interface NotifyDeps {
   readonly store: ComponentStore;
@@ -34,6 +35,12 @@ export function notifyProcessor(deps: NotifyDeps): Processor<NotifyEffect> {
     const effect = job.data;
     const samples = (await deps.store.revisions(effect.incident)).map((s) => s.sample);
     const chart = effect.channel === 'email' ? await emailChart(effect) : undefined;
-    return deps.channels.deliver(effect, incidentMessage(effect, samples, deps.apiBaseUrl), job.attemptsMade + 1, chart);
+    try {
+      return await deps.channels.deliver({ effect, message: incidentMessage(effect, samples, deps.apiBaseUrl), attempt: job.attemptsMade + 1, ...(chart && { chart }) });
+    } catch (e) {
+      // A refusal will come again: no retry (BullMQ's UnrecoverableError); anything else is retried with backoff.
+      if (e instanceof DeliveryRefused) throw new UnrecoverableError(e.message);
+      throw e;
+    }
   };
 }

@@ -4,8 +4,8 @@
  * values are percent-encoded: `%` → %25, `/` → %2F, `+` → %2B, `#` → %23, controls and NUL → %XX.
  * The encoding is reversible, so two different units never share a topic.
  */
-import type { IncidentMessage } from './message.ts';
-import { checkTemplate, fillTemplate } from './template.ts';
+import type { IncidentMessage } from '../../notify/message.ts';
+import { checkTemplate, fillTemplate } from '../../notify/template.ts';
 
 export const DEFAULT_TOPIC_TEMPLATE = 'plant/{unit}/{component}/oil';
 

@@ -3,12 +3,9 @@
  * wants no more deliveries; the mark is kept in Redis so that every worker process, and every later message,
  * respects it until an operator removes the endpoint from the configuration or clears the mark.
  */
-import type { RedisConnection as Redis } from '../redis/connection.ts';
+import type { RedisConnection as Redis } from './connection.ts';
 
-export interface DisabledEndpoints {
-  reason(name: string): Promise<string | undefined>;
-  disable(name: string, reason: string): Promise<void>;
-}
+import type { DisabledEndpoints } from '../channels/channel.ts';
 
 export function redisDisabledEndpoints(redis: Redis, prefix: string): DisabledEndpoints {
   const key = `${prefix}:notify:webhooks:disabled`;

@@ -3,13 +3,13 @@
  * content. Values from lab feeds are sanitised for headers and escaped for HTML.
  */
 import { createHash } from 'node:crypto';
-import { MEASURANDS, isMeasurand } from '../domain/measurands.ts';
-import { asksForAcknowledgement, type IncidentMessage } from './message.ts';
-import { formatNumber, formatTime } from './format.ts';
-import { ADVICE_CAUTION } from '../domain/caution.ts';
-import { escapeHtml, headerValue, httpUrl, oneLine } from '../domain/safeText.ts';
+import { MEASURANDS, isMeasurand } from '../../domain/measurands.ts';
+import { asksForAcknowledgement, type IncidentMessage } from '../../notify/message.ts';
+import { formatNumber, formatTime } from '../../notify/format.ts';
+import { ADVICE_CAUTION } from '../../domain/caution.ts';
+import { escapeHtml, headerValue, httpUrl, oneLine } from '../../domain/safeText.ts';
 
-export { ADVICE_CAUTION as ADVISORY_CAUTION } from '../domain/caution.ts';
+export { ADVICE_CAUTION as ADVISORY_CAUTION } from '../../domain/caution.ts';
 
 export interface EmailRenderOptions {
   /** Sender, e.g. `wearshift <alerts@plant.example>`; its domain also names the Message-ID. */

@@ -3,9 +3,9 @@
  * verdict for the queue (delivered, retry, give up, or disable the endpoint). Retrying is the queue's job;
  * `webhook-id` stays the same on every attempt so that the receiver can drop repeats.
  */
-import type { IncidentCloudEvent } from './cloudEvent.ts';
-import { parseRetryAfter } from './retryTiming.ts';
-import { oneLine } from '../domain/safeText.ts';
+import type { IncidentCloudEvent } from '../../notify/cloudEvent.ts';
+import { parseRetryAfter } from '../../notify/retryTiming.ts';
+import { oneLine } from '../../domain/safeText.ts';
 import { signWebhook } from './webhookSignature.ts';
 
 export interface WebhookEndpoint {

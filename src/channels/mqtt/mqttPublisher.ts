@@ -8,7 +8,7 @@
  * queue must treat a publish as done only when its promise resolves.
  */
 import { connect, type IClientOptions, type IClientPublishOptions, type MqttClient } from 'mqtt';
-import type { IncidentCloudEvent } from './cloudEvent.ts';
+import type { IncidentCloudEvent } from '../../notify/cloudEvent.ts';
 import { checkTopicTemplate, DEFAULT_TOPIC_TEMPLATE, incidentTopic } from './mqttTopic.ts';
 
 export interface MqttPublisherOptions {

@@ -1,0 +1,51 @@
+/**
+ * One notification channel: what the notify worker needs of e-mail, webhooks, MQTT or any channel added later.
+ * A channel is its own folder under src/channels with a `ChannelDefinition`, registered by one line in
+ * registry.ts; `tsc` fails while a kind of `CHANNEL_KINDS` has no definition there.
+ */
+import type { Logger } from '../telemetry/logger.ts';
+import type { Channels } from '../domain/escalationConfig.ts';
+import type { NotifyEffect } from '../incidents/model.ts';
+import type { IncidentMessage } from '../notify/message.ts';
+import type { EmailChart } from './email/emailRender.ts';
+
+/** Webhook endpoints (or other targets) a receiver asked never to call again, kept where every process sees them. */
+export interface DisabledEndpoints {
+  reason(name: string): Promise<string | undefined>;
+  disable(name: string, reason: string): Promise<void>;
+}
+
+/** What every channel may use. */
+export interface ChannelContext {
+  readonly logger: Logger;
+  /** Where secrets named in the configuration are read. */
+  readonly env: NodeJS.ProcessEnv;
+  /** Longest wait for an MQTT broker's acknowledgement. Default 30 000 ms. */
+  readonly mqttTimeoutMs: number;
+  /** Where a 410 Gone is remembered; without it, a 410 fails only the delivery at hand. */
+  readonly disabledEndpoints?: DisabledEndpoints;
+}
+
+/** One delivery: the effect (who, which tier), the rendered message, the attempt number and, for e-mail, the chart. */
+export interface Delivery {
+  readonly effect: NotifyEffect;
+  readonly message: IncidentMessage;
+  readonly attempt: number;
+  readonly chart?: EmailChart;
+}
+
+export interface Channel {
+  /**
+   * Delivers one message; resolves with one line for the job's return value. Throws `DeliveryRetry` when a later
+   * attempt may succeed and `DeliveryRefused` when it will not (errors.ts).
+   */
+  deliver(delivery: Delivery): Promise<string>;
+  close(): Promise<void>;
+}
+
+export interface ChannelDefinition {
+  /** Whether the configuration names any target of this channel (otherwise it is not opened). */
+  configured(channels: Channels): boolean;
+  /** Opens the channel for the configuration (no connection is made before the first delivery). */
+  open(channels: Channels, context: ChannelContext): Channel;
+}

@@ -1,0 +1,50 @@
+/** The e-mail channel: renders the incident message (with its chart and acknowledgement link) and sends it by SMTP. */
+import { ackLinkUrl, signAckLink } from '../../notify/ackLink.ts';
+import { asksForAcknowledgement } from '../../notify/message.ts';
+import type { ChannelDefinition } from '../channel.ts';
+import { DeliveryRefused, DeliveryRetry } from '../errors.ts';
+import { secretFrom } from '../secrets.ts';
+import { renderIncidentEmail } from './emailRender.ts';
+import { EmailDeliveryError, sendEmail } from './emailSend.ts';
+
+export const emailChannel: ChannelDefinition = {
+  configured: (channels) => channels.email !== undefined,
+  open(channels, { env }) {
+    return {
+      async deliver({ effect, message, chart }) {
+        const cfg = channels.email;
+        if (cfg === undefined) throw new DeliveryRefused('an e-mail notification, but channels.email is not configured');
+        const links = channels.ackLinks;
+        const ack =
+          links !== undefined && asksForAcknowledgement(message)
+            ? (() => {
+                const expiresAt = new Date(Date.now() + links.ttlHours * 3_600_000);
+                // The variable may list several secrets during a rotation; links are signed with the first.
+                const secret = secretFrom(links.secretEnv, env, 'channels.ackLinks').split(',')[0]!.trim();
+                const token = signAckLink({ incidentId: effect.incidentId, recipient: effect.target, expiresAt }, secret);
+                return { ackUrl: ackLinkUrl(links.baseUrl, token), ackExpiresAt: expiresAt };
+              })()
+            : {};
+        const mail = renderIncidentEmail(message, { from: cfg.from, to: effect.target, ...ack, ...(chart && { chart }) });
+        const smtp = cfg.smtp;
+        try {
+          const sent = await sendEmail(
+            {
+              host: smtp.host,
+              port: smtp.port,
+              ...(smtp.secure !== undefined && { secure: smtp.secure }),
+              ...(smtp.user !== undefined && { auth: { user: smtp.user, pass: smtp.passwordEnv === undefined ? '' : secretFrom(smtp.passwordEnv, env, 'channels.email.smtp') } }),
+            },
+            mail,
+          );
+          if (sent.accepted.length === 0) throw new DeliveryRefused(`e-mail to ${effect.target}: the server refused the recipient`);
+          return `email ${effect.target}: ${sent.messageId}`;
+        } catch (e) {
+          if (e instanceof EmailDeliveryError) throw e.retryable ? new DeliveryRetry(e.message) : new DeliveryRefused(e.message);
+          throw e;
+        }
+      },
+      async close() {},
+    };
+  },
+};

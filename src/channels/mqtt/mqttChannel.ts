@@ -1,0 +1,46 @@
+/** The MQTT channel: the CloudEvent published to each named broker, one session per broker and process. */
+import { hostname } from 'node:os';
+import { toCloudEvent } from '../../notify/cloudEvent.ts';
+import type { ChannelDefinition } from '../channel.ts';
+import { DeliveryRefused, DeliveryRetry } from '../errors.ts';
+import { secretFrom } from '../secrets.ts';
+import { createMqttPublisher, type MqttPublisher } from './mqttPublisher.ts';
+
+export const mqttChannel: ChannelDefinition = {
+  configured: (channels) => channels.mqtt.length > 0,
+  open(channels, { env, logger, mqttTimeoutMs }) {
+    const publishers = new Map<string, MqttPublisher>();
+    const publisher = (name: string): MqttPublisher => {
+      const existing = publishers.get(name);
+      if (existing !== undefined) return existing;
+      const c = channels.mqtt.find((m) => m.name === name);
+      if (c === undefined) throw new DeliveryRefused(`no MQTT channel named "${name}" in channels.mqtt`);
+      const created = createMqttPublisher({
+        url: c.url,
+        // One session per process: two processes sharing a client id would keep taking the session from each other.
+        clientId: `wearshift-${name}-${hostname()}-${process.pid}`,
+        topicTemplate: c.topic,
+        qos: c.qos === 0 ? 1 : c.qos,
+        ...(c.username !== undefined && { username: c.username }),
+        ...(c.passwordEnv !== undefined && { password: secretFrom(c.passwordEnv, env, `channels.mqtt ${name}`) }),
+        onError: (e) => logger.warn({ channel: `mqtt:${name}`, err: e.message }, 'MQTT connection error'),
+      });
+      publishers.set(name, created);
+      return created;
+    };
+    return {
+      async deliver({ effect, message }) {
+        const target = publisher(effect.target);
+        try {
+          const { topic } = await target.publish(toCloudEvent(message, { time: effect.at }), { signal: AbortSignal.timeout(mqttTimeoutMs) });
+          return `mqtt ${effect.target}: ${topic}`;
+        } catch (e) {
+          throw new DeliveryRetry(`mqtt ${effect.target}: ${(e as Error).message}`);
+        }
+      },
+      async close() {
+        await Promise.all([...publishers.values()].map((p) => p.close()));
+      },
+    };
+  },
+};

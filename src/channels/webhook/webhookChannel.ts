@@ -1,0 +1,35 @@
+/** The webhook channel: a CloudEvent signed by Standard Webhooks, POSTed to each named endpoint; 410 Gone disables it. */
+import { toCloudEvent } from '../../notify/cloudEvent.ts';
+import type { ChannelDefinition } from '../channel.ts';
+import { DeliveryRefused, DeliveryRetry } from '../errors.ts';
+import { secretFrom } from '../secrets.ts';
+import { deliverWebhook } from './webhookDelivery.ts';
+
+export const webhookChannel: ChannelDefinition = {
+  configured: (channels) => channels.webhooks.length > 0,
+  open(channels, { env, disabledEndpoints }) {
+    return {
+      async deliver({ effect, message, attempt }) {
+        const c = channels.webhooks.find((w) => w.name === effect.target);
+        if (c === undefined) throw new DeliveryRefused(`no webhook named "${effect.target}" in channels.webhooks`);
+        const disabled = await disabledEndpoints?.reason(c.name);
+        if (disabled !== undefined) return `webhook ${c.name}: not sent, the endpoint is disabled (${disabled})`;
+        const endpoint = { url: c.url, secrets: c.secrets.map((s) => secretFrom(s, env, `channels.webhooks ${c.name}`)), timeoutMs: c.timeoutMs };
+        const result = await deliverWebhook(endpoint, toCloudEvent(message, { time: effect.at }), { now: new Date(), attempt });
+        const what = `webhook ${c.name}: ${result.status ?? result.error ?? 'no response'}`;
+        switch (result.outcome) {
+          case 'delivered':
+            return what;
+          case 'retry':
+            throw new DeliveryRetry(what, result.retryAfterMs);
+          case 'disable':
+            await disabledEndpoints?.disable(c.name, `410 Gone at ${new Date().toISOString()}`);
+            throw new DeliveryRefused(`${what}: the receiver answered 410 Gone and asks not to be called again; the endpoint is disabled until removed from the configuration`);
+          case 'give-up':
+            throw new DeliveryRefused(`${what}: the receiver refused the delivery`);
+        }
+      },
+      async close() {},
+    };
+  },
+};
