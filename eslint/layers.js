@@ -17,7 +17,7 @@ export const LAYERS = {
   pipeline: ['domain', 'analysis', 'incidents', 'intake'],
   redis: ['domain', 'analysis', 'incidents', 'intake', 'pipeline', 'channels', 'telemetry'],
   charts: ['domain', 'analysis', 'pipeline'],
-  notify: ['domain', 'analysis', 'incidents', 'charts', 'telemetry'],
+  notify: ['domain', 'analysis', 'incidents', 'pipeline', 'charts', 'telemetry'],
   channels: ['domain', 'analysis', 'incidents', 'charts', 'notify', 'telemetry'],
   queue: ['domain', 'analysis', 'incidents', 'intake', 'pipeline', 'redis', 'charts', 'notify', 'channels', 'telemetry'],
   http: ['domain', 'analysis', 'incidents', 'intake', 'pipeline', 'charts', 'notify', 'channels', 'telemetry'],

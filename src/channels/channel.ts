@@ -7,7 +7,7 @@ import type { Logger } from '../telemetry/logger.ts';
 import type { Channels } from '../domain/escalationConfig.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
 import type { IncidentMessage } from '../notify/message.ts';
-import type { EmailChart } from './email/emailRender.ts';
+import type { EmailChart } from '../notify/incidentChart.ts';
 
 /** Webhook endpoints (or other targets) a receiver asked never to call again, kept where every process sees them. */
 export interface DisabledEndpoints {

@@ -10,7 +10,7 @@ import { mkdirSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Queue } from 'bullmq';
 import type { Config } from '../domain/config.ts';
-import { loadConfig } from '../domain/configFile.ts';
+import { loadConfig } from '../runtime/loadConfig.ts';
 import { RULE_FAMILIES, type RuleFamily } from '../domain/finding.ts';
 import type { Incident } from '../incidents/model.ts';
 import { incidentRules } from '../incidents/policy.ts';

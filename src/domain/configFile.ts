@@ -1,5 +1,4 @@
-/** Reads a YAML configuration file; errors name the file, the path inside it and the reason. */
-import { readFileSync } from 'node:fs';
+/** Parses a YAML configuration; errors name the source, the path inside it and the reason. Reading the file is the shell's (src/runtime/loadConfig.ts). */
 import { parse } from 'yaml';
 import { ConfigSchema, type Config } from './config.ts';
 import { InputError } from './errors.ts';
@@ -17,15 +16,4 @@ export function parseConfig(text: string, source = 'configuration'): Config {
     throw new InputError(`${source}: invalid configuration\n${lines.join('\n')}`);
   }
   return parsed.data;
-}
-
-export function loadConfig(file: string | undefined): Config {
-  if (file === undefined) return parseConfig('');
-  let text: string;
-  try {
-    text = readFileSync(file, 'utf8');
-  } catch (e) {
-    throw new InputError(`${file}: cannot read the configuration: ${(e as Error).message}`);
-  }
-  return parseConfig(text, file);
 }

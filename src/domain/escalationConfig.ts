@@ -161,6 +161,16 @@ export type Channels = z.infer<typeof ChannelsSchema>;
 export const CHANNEL_KINDS = ['email', 'webhook', 'mqtt'] as const;
 export type ChannelKind = (typeof CHANNEL_KINDS)[number];
 
+/**
+ * Where an escalation tier lists each channel's targets, and which incident events the channel carries: e-mail only
+ * the ones a person acts on (its reader sees the incident's state in every message), machines every event.
+ */
+export const TIER_TARGETS = {
+  email: { field: 'email', everyEvent: false },
+  webhook: { field: 'webhooks', everyEvent: true },
+  mqtt: { field: 'mqtt', everyEvent: true },
+} as const satisfies Record<ChannelKind, { field: keyof EscalationTier; everyEvent: boolean }>;
+
 export interface ConfigIssue {
   readonly path: (string | number)[];
   readonly message: string;

@@ -1,6 +1,6 @@
 /** Which escalation policy applies to an incident, and who of a tier hears of which event. */
 import type { Config } from '../domain/config.ts';
-import type { EscalationPolicy, EscalationTier, IncidentsConfig } from '../domain/escalationConfig.ts';
+import { CHANNEL_KINDS, TIER_TARGETS, type EscalationPolicy, type EscalationTier, type IncidentsConfig } from '../domain/escalationConfig.ts';
 import type { IncidentKind, Severity } from '../domain/finding.ts';
 import type { ChannelKind, IncidentEventType } from './model.ts';
 
@@ -27,7 +27,7 @@ export function selectPolicy(policies: readonly EscalationPolicy[], group: strin
  * E-mail carries what asks a person to act or tells them the matter is settled; the return to normal alone is
  * news for the systems that mirror incident state (webhooks, MQTT), not for someone's inbox.
  */
-const EMAIL_EVENTS: ReadonlySet<IncidentEventType> = new Set([
+const PERSON_EVENTS: ReadonlySet<IncidentEventType> = new Set([
   'wearshift.incident.opened',
   'wearshift.incident.updated',
   'wearshift.incident.escalated',
@@ -53,9 +53,10 @@ export function recipients(policy: EscalationPolicy, fromTier: number, toTier: n
   };
   policy.tiers.slice(fromTier, toTier + 1).forEach((tier: EscalationTier, i) => {
     const index = fromTier + i;
-    if (EMAIL_EVENTS.has(type)) tier.email?.forEach((a) => add('email', a, index));
-    tier.webhooks?.forEach((w) => add('webhook', w, index));
-    tier.mqtt?.forEach((m) => add('mqtt', m, index));
+    for (const kind of CHANNEL_KINDS) {
+      const { field, everyEvent } = TIER_TARGETS[kind];
+      if (everyEvent || PERSON_EVENTS.has(type)) (tier[field] as readonly string[] | undefined)?.forEach((t) => add(kind, t, index));
+    }
   });
   return out;
 }

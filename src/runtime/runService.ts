@@ -1,5 +1,5 @@
 /** What `wearshift serve|worker|api` share: configuration, logger, the services, and shutdown on signals. */
-import { loadConfig } from '../domain/configFile.ts';
+import { loadConfig } from './loadConfig.ts';
 import { InputError } from '../domain/errors.ts';
 import { createLogger } from '../telemetry/logger.ts';
 import { DEFAULT_PORT, startServices } from './services.ts';

@@ -5,7 +5,7 @@
 import Fastify, { type FastifyInstance } from 'fastify';
 import { evaluateComponent } from '../../src/analysis/evaluate.ts';
 import { demoFleet } from '../../src/demo/fleet.ts';
-import { loadConfig } from '../../src/domain/configFile.ts';
+import { loadConfig } from '../../src/runtime/loadConfig.ts';
 import { componentKey, parseResultEvent, type Sample } from '../../src/domain/event.ts';
 import { resolveSettings } from '../../src/domain/settings.ts';
 import { boardRoutes } from '../../src/http/boardRoutes.ts';

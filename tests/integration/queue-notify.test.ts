@@ -8,7 +8,7 @@ import { createServer, type Server } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { simpleParser, type ParsedMail } from 'mailparser';
 import { PNG } from 'pngjs';
-import { EMAIL_CHART_WIDTH } from '../../src/queue/incidentChart.ts';
+import { EMAIL_CHART_WIDTH } from '../../src/notify/incidentChart.ts';
 import { SMTPServer } from 'smtp-server';
 import { Webhook } from 'standardwebhooks';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';

@@ -23,12 +23,8 @@ export interface EmailRenderOptions {
   chart?: EmailChart;
 }
 
-export interface EmailChart {
-  readonly png: Buffer;
-  readonly width: number;
-  /** Says in words what the chart shows, for readers who do not see images. */
-  readonly alt: string;
-}
+export type { EmailChart } from '../../notify/incidentChart.ts';
+import type { EmailChart } from '../../notify/incidentChart.ts';
 
 export interface EmailAttachment {
   filename: string;

@@ -11,7 +11,7 @@ import { componentCharts } from '../../backtest/charts.ts';
 import { readBudget } from '../../backtest/parameters.ts';
 import { renderBacktestReport } from '../../backtest/reportHtml.ts';
 import type { BacktestSummary } from '../../backtest/summary.ts';
-import { loadConfig } from '../../domain/configFile.ts';
+import { loadConfig } from '../../runtime/loadConfig.ts';
 import { InputError } from '../../domain/errors.ts';
 import { formatOf, readRecordFile, type SourceRecord } from '../../intake/fileRecords.ts';
 import type { RejectedRecord } from '../../pipeline/replay.ts';

@@ -1,7 +1,7 @@
 /** `wearshift failed list|retry`: failed jobs with their reasons, and retrying them once the cause is fixed. */
 import type { Command } from 'commander';
 import type { Config } from '../../domain/config.ts';
-import { loadConfig } from '../../domain/configFile.ts';
+import { loadConfig } from '../../runtime/loadConfig.ts';
 import { InputError } from '../../domain/errors.ts';
 import { ALL_QUEUES, isQueueName, listFailedJobs, retryAllFailedJobs, retryFailedJob } from '../../queue/failedJobs.ts';
 import type { QueueName } from '../../queue/queues.ts';

@@ -6,7 +6,7 @@
 import { statSync } from 'node:fs';
 import { MultiBar, Presets } from 'cli-progress';
 import type { Command } from 'commander';
-import { loadConfig } from '../../domain/configFile.ts';
+import { loadConfig } from '../../runtime/loadConfig.ts';
 import { InputError } from '../../domain/errors.ts';
 import type { FieldIssue } from '../../domain/event.ts';
 import { formatOf, readRecordFile } from '../../intake/fileRecords.ts';

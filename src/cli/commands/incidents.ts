@@ -4,7 +4,7 @@
  */
 import type { Command } from 'commander';
 import type { Config } from '../../domain/config.ts';
-import { loadConfig } from '../../domain/configFile.ts';
+import { loadConfig } from '../../runtime/loadConfig.ts';
 import { InputError } from '../../domain/errors.ts';
 import type { IncidentAction } from '../../incidents/applyAction.ts';
 import { IncidentFilterSchema } from '../../incidents/listFilter.ts';

@@ -5,7 +5,7 @@
  * last record, and what each component cannot be judged on yet.
  */
 import type { Command } from 'commander';
-import { loadConfig } from '../../domain/configFile.ts';
+import { loadConfig } from '../../runtime/loadConfig.ts';
 import { InputError } from '../../domain/errors.ts';
 import { formatOf, readRecordFile } from '../../intake/fileRecords.ts';
 import { replayRecords, type RejectedRecord, type TimelineLine } from '../../pipeline/replay.ts';

@@ -9,8 +9,8 @@ import type { Config } from '../../domain/config.ts';
 import type { NotifyEffect } from '../../incidents/model.ts';
 import type { ComponentStore, GroupLedger } from '../../pipeline/ports.ts';
 import type { Logger } from '../../telemetry/logger.ts';
-import { incidentChart } from '../incidentChart.ts';
-import { incidentMessage } from '../incidentMessage.ts';
+import { incidentChart } from '../../notify/incidentChart.ts';
+import { incidentMessage } from '../../notify/incidentMessage.ts';
 
 export interface NotifyDeps {
   readonly store: ComponentStore;

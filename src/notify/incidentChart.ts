@@ -9,12 +9,19 @@ import { renderTrendChart } from '../charts/trendChart.ts';
 import type { Config } from '../domain/config.ts';
 import { severityRank } from '../domain/finding.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
-import type { EmailChart } from '../channels/email/emailRender.ts';
 import { componentView } from '../pipeline/componentView.ts';
 import type { ComponentStore, GroupLedger } from '../pipeline/ports.ts';
 
 /** Wide enough to read on a desktop client, narrow enough for a phone (the HTML lets it shrink). */
 export const EMAIL_CHART_WIDTH = 600;
+
+/** The incident's trend chart as an inline PNG, for the e-mail channel. */
+export interface EmailChart {
+  readonly png: Buffer;
+  readonly width: number;
+  /** Says in words what the chart shows, for readers who do not see images. */
+  readonly alt: string;
+}
 
 export async function incidentChart(store: ComponentStore, ledger: GroupLedger, config: Config, effect: NotifyEffect): Promise<EmailChart | undefined> {
   const measurand = effect.incident.measurand ?? [...effect.incident.findings].sort((a, b) => severityRank(b.severity) - severityRank(a.severity))[0]?.measurand;

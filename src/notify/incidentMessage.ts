@@ -5,7 +5,7 @@ import { buildHistory } from '../analysis/history.ts';
 import type { Sample } from '../domain/event.ts';
 import { formatReading } from '../domain/reading.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
-import type { IncidentMessage, IncidentMessageType } from '../notify/message.ts';
+import type { IncidentMessage, IncidentMessageType } from './message.ts';
 
 /** About five recent results, as the message format asks. */
 const RECENT_RESULTS = 5;
