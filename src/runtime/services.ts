@@ -18,6 +18,9 @@ import { RedisIncidents } from '../redis/redisIncidents.ts';
 import { RedisStore } from '../redis/redisStore.ts';
 import { bridgeLiveEvents, livePublisher } from './liveBridge.ts';
 import type { Logger } from './logger.ts';
+import { tierZeroResponders } from '../incidents/responders.ts';
+import { readRecentIncidents } from '../redis/recentIncidents.ts';
+import { registerAlarmGauges } from './alarmGauges.ts';
 import { createMetrics } from './metrics.ts';
 import { checkEvictionPolicy, connectRedis, describeTarget, redisTarget, type RedisConnection } from '../redis/connection.ts';
 import { closeAll, DEFAULT_SHUTDOWN_TIMEOUT_MS, type Closer } from './shutdown.ts';
@@ -107,6 +110,11 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
       }),
     );
     return Object.fromEntries(entries);
+  });
+  registerAlarmGauges(metrics.registry, {
+    source: (o) => readRecentIncidents(request, partitions, o),
+    config: config.alarmFigures,
+    responders: tierZeroResponders(config.escalation.policies),
   });
   const apiBaseUrl = config.channels.ackLinks?.baseUrl ?? `http://localhost:${port}`;
 
