@@ -71,7 +71,7 @@ function listTable(caption: string, head: readonly string[], rows: readonly (rea
   if (rows.length === 0) return `<p class="empty">${e(caption)}: none.</p>`;
   return [
     `<table class="bad-actors"><caption>${e(caption)}</caption><thead><tr>${head.map((h) => `<th scope="col">${e(h)}</th>`).join('')}</tr></thead><tbody>`,
-    ...rows.map(([first, ...rest]) => `<tr><th scope="row">${e(first ?? '')}</th>${rest.map((c) => `<td class="n">${e(c)}</td>`).join('')}</tr>`),
+    ...rows.map(([first, ...rest]) => `<tr><th scope="row">${e(first ?? '')}</th>${rest.map((c) => `<td${/^[\d.]+$/.test(c) ? ' class="n"' : ''}>${e(c)}</td>`).join('')}</tr>`),
     '</tbody></table>',
   ].join('\n');
 }

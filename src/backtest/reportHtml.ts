@@ -388,5 +388,7 @@ a { color: #1f3f7a; }
 footer { padding: 14px 32px 28px; color: var(--muted); font-size: 13px; border-top: 1px solid #c9c9c7; }
 table.bad-actors caption { text-align: left; font-weight: 600; padding: 4px 0; }
 #alarm-figures details { margin-top: 10px; }
+#alarm-figures .pair { align-items: start; }
+#alarm-figures table { margin-bottom: 12px; }
 @media print { details.component { break-inside: avoid; } }
 `;
