@@ -38,7 +38,7 @@ function figuresBlock(f: AlarmFigures): string {
       busiest === null ? 'no escalation policy names anybody' : `${busiest.responder}${busiest.perDay.peakAt === null ? '' : `, peak on ${busiest.perDay.peakAt}`}`,
     ],
     ['busiest responder, per week', busiest === null ? '–' : `${num(busiest.perWeek.average)} average, ${busiest.perWeek.peak} peak`, busiest?.perWeek.peakAt ? `peak in the week of ${busiest.perWeek.peakAt}` : ''],
-    ['heard by nobody', String(f.unrouted), 'annunciations no escalation policy matches'],
+    ['heard by nobody', String(f.unrouted + f.quiet), `annunciations no escalation policy matches${f.quiet > 0 ? `, or only seen in quiet backfill (${f.quiet})` : ''}`],
     ['standing', `${f.standing.peak} at most at once`, `active longer than ${num(f.standing.afterDays)} days; ${f.standing.incidents} incidents in all, ${f.standing.atEnd} at the end`],
     ['stale', `${f.stale.peak} at most at once`, `open and unacknowledged longer than ${num(f.stale.afterDays)} days; ${f.stale.incidents} incidents in all, ${f.stale.atEnd} at the end`],
     ['chattering', `${f.chattering.incidents} incidents`, `${f.chattering.annunciations} annunciations within ${num(f.chattering.withinDays)} days of a return to normal`],

@@ -8,6 +8,7 @@
  *   (UTC) and per week (Monday to Sunday, UTC): the average over the period and the peak day or week.
  * - Standing: in the active alarm state (acknowledged or not) for longer than `standingAfterDays`.
  * - Stale: open, unacknowledged and not shelved for longer than `staleAfterDays` (still asking for a response).
+ * - An incident only ever seen in quiet backfill (`live: false`) asked nobody: it loads no responder and is not stale.
  * - Chattering: active again within `chatteringWithinDays` of the return to normal (or of the closing of an incident
  *   closed while active), or a new incident of the same key opened within that time of the previous one's end.
  * - Bad actors: the components with the most annunciations and the rule/measurand pairs raised in the most incidents.
@@ -31,6 +32,12 @@ export interface FigureIncident {
   readonly kind: IncidentKind;
   readonly peakSeverity: Severity;
   readonly timeline: readonly TimelineEntry[];
+  /**
+   * False when the incident was only ever seen in quiet backfill (results older than backfill.quietAfterDays when
+   * they arrived): nobody was asked to respond, so it loads no responder and cannot go stale. A backtest leaves it
+   * out, to count every incident as if its results had arrived live.
+   */
+  readonly live?: boolean;
 }
 
 export type FigureThresholds = Pick<AlarmFiguresConfig, 'standingAfterDays' | 'staleAfterDays' | 'chatteringWithinDays' | 'topBadActors'>;
@@ -97,6 +104,8 @@ export interface AlarmFigures {
   readonly busiest: ResponderLoad | null;
   /** Annunciations of incidents that no tier-0 target hears of (no policy matches). */
   readonly unrouted: number;
+  /** Annunciations of incidents only seen in quiet backfill (`live: false`): recorded, nobody told. */
+  readonly quiet: number;
   readonly standing: DurationFigure;
   readonly stale: DurationFigure;
   readonly chattering: {
@@ -141,7 +150,12 @@ export function alarmFigures(input: AlarmFigureInput): AlarmFigures {
   // Load per responder.
   const heard = new Map<string, number[]>(input.responders.all.map((r) => [r, []]));
   let unrouted = 0;
+  let quiet = 0;
   for (const a of annunciations) {
+    if (a.incident.live === false) {
+      quiet += 1;
+      continue;
+    }
     const targets = input.responders.of(a.incident);
     if (targets.length === 0) unrouted += 1;
     for (const r of targets) heard.set(r, [...(heard.get(r) ?? []), a.t]);
@@ -193,8 +207,9 @@ export function alarmFigures(input: AlarmFigureInput): AlarmFigures {
     responders,
     busiest,
     unrouted,
+    quiet,
     standing: durationFigure(incidents, (i) => standingIntervals(i, thresholds.standingAfterDays * DAY_MS), thresholds.standingAfterDays, from, to),
-    stale: durationFigure(incidents, (i) => staleIntervals(i, thresholds.staleAfterDays * DAY_MS), thresholds.staleAfterDays, from, to),
+    stale: durationFigure(incidents.filter((i) => i.live !== false), (i) => staleIntervals(i, thresholds.staleAfterDays * DAY_MS), thresholds.staleAfterDays, from, to),
     chattering: { withinDays: thresholds.chatteringWithinDays, incidents: chatteringIds.length, annunciations: chattering.length, ids: chatteringIds },
     badActors: { components, pairs, topComponentsShare: annunciations.length === 0 ? null : round(topTotal / annunciations.length, 4) },
   };

@@ -48,9 +48,10 @@ export function registerAlarmGauges(registry: Registry, options: AlarmGaugeOptio
       return { at: t, figures: null, read: 0, truncated: false, components: 0 };
     }
   };
-  /** The figures, recomputed when older than refreshSeconds; concurrent scrapes share one computation. */
+  /** The figures, recomputed when older than refreshSeconds (or failed); concurrent scrapes share one computation. */
   const current = async (): Promise<Computed> => {
-    if (last !== null && now() - last.at < config.refreshSeconds * 1000) return last;
+    // A failed read is tried again at the next scrape rather than kept for refreshSeconds.
+    if (last !== null && last.figures !== null && now() - last.at < config.refreshSeconds * 1000) return last;
     running ??= compute().finally(() => {
       running = null;
     });
@@ -86,6 +87,7 @@ export function registerAlarmGauges(registry: Registry, options: AlarmGaugeOptio
   gauge('wearshift_alarm_figures_window_days', 'Trailing window of the rate figures, days (alarmFigures.liveWindowDays).', [], (g) => g.set(config.liveWindowDays));
   gauge('wearshift_alarm_annunciations', 'Annunciations (an incident opening or becoming active again, by sampling time) in the window.', [], (g, _c, f) => g.set(f.annunciations));
   gauge('wearshift_alarm_unrouted_annunciations', 'Annunciations in the window that no escalation policy sends to anybody.', [], (g, _c, f) => g.set(f.unrouted));
+  gauge('wearshift_alarm_quiet_annunciations', 'Annunciations in the window of incidents only seen in quiet backfill (recorded, nobody told).', [], (g, _c, f) => g.set(f.quiet));
   gauge(
     'wearshift_alarm_responder_annunciations',
     'Annunciations per tier-0 responder of the escalation policies in the window, per day and per week (ISA-18.2 / IEC 62682: alarms per operator), average and peak.',

@@ -70,8 +70,10 @@ beforeAll(async () => {
   await incidents.applySteps({ unit: 'U2', component: 'gearbox' }, [step('U2', 1, 1, 'limit')], input);
   // U3: opened 20 days ago, back to normal after two clean samples (12 days ago), active again 2 days ago (Tuesday): chattering.
   await incidents.applySteps({ unit: 'U3', component: 'gearbox' }, [step('U3', 1, 20, 'ewma'), step('U3', 2, 16, null), step('U3', 3, 12, null), step('U3', 4, 2, 'ewma')], input);
-  // Four components on record: the three above and a quiet one.
-  for (const unit of ['U1', 'U2', 'U3', 'U4']) {
+  // U5: opened 25 days ago by a result that arrived as quiet backfill: on record, nobody was told.
+  await incidents.applySteps({ unit: 'U5', component: 'gearbox' }, [step('U5', 1, 25, 'rate')], { ...input, quietBefore: new Date(NOW) });
+  // Five components on record: the four above and one without incidents.
+  for (const unit of ['U1', 'U2', 'U3', 'U4', 'U5']) {
     const parsed = parseResultEvent({ sampleId: `${unit}-0`, unit, component: 'gearbox', sampledAt: ago(50), readings: { Fe: 10 } });
     if (!parsed.ok) throw new Error(JSON.stringify(parsed.issues));
     await store.store(parsed.sample, 'gearboxes', NOW - 50 * DAY);
@@ -99,10 +101,11 @@ describe('/metrics: live alarm figures from the incident store', () => {
     expect(res.statusCode).toBe(200);
     const text = res.body;
     expect(gauge(text, 'wearshift_alarm_figures_up').get('')).toBe(1);
-    expect(gauge(text, 'wearshift_alarm_figures_incidents_read').get('')).toBe(3);
+    expect(gauge(text, 'wearshift_alarm_figures_incidents_read').get('')).toBe(4);
     expect(gauge(text, 'wearshift_alarm_figures_truncated').get('')).toBe(0);
-    // In the 30-day window: U2 opened, U3 opened and active again; U1 opened before it.
-    expect(gauge(text, 'wearshift_alarm_annunciations').get('')).toBe(3);
+    // In the 30-day window: U2 opened, U3 opened and active again, U5 opened (quietly); U1 opened before it.
+    expect(gauge(text, 'wearshift_alarm_annunciations').get('')).toBe(4);
+    expect(gauge(text, 'wearshift_alarm_quiet_annunciations').get('')).toBe(1);
     const load = gauge(text, 'wearshift_alarm_responder_annunciations');
     expect(load.get('{responder="email:oncall@plant.example",period="day",stat="average"}')).toBeCloseTo(3 / 30, 4);
     expect(load.get('{responder="email:oncall@plant.example",period="day",stat="peak"}')).toBe(1);
@@ -111,14 +114,15 @@ describe('/metrics: live alarm figures from the incident store', () => {
     expect(load.get('{responder="email:oncall@plant.example",period="week",stat="average"}')).toBeCloseTo(3 / (30 / 7), 4);
     expect([...load.keys()].some((k) => k.includes('lead@plant.example'))).toBe(false);
     expect(gauge(text, 'wearshift_alarm_unrouted_annunciations').get('')).toBe(0);
-    expect(gauge(text, 'wearshift_alarm_incidents_open').get('')).toBe(3);
+    expect(gauge(text, 'wearshift_alarm_incidents_open').get('')).toBe(4);
     expect(gauge(text, 'wearshift_alarm_incidents_standing').get('')).toBe(1);
-    expect(gauge(text, 'wearshift_alarm_incidents_stale').get('')).toBe(2); // U1 (40 days) and U3 (unacknowledged since 20 days)
+    // U1 (40 days) and U3 (unacknowledged since 20 days); U5 asked nobody.
+    expect(gauge(text, 'wearshift_alarm_incidents_stale').get('')).toBe(2);
     expect(gauge(text, 'wearshift_alarm_incidents_chattering').get('')).toBe(1);
     const opened = gauge(text, 'wearshift_alarm_incidents_opened');
-    expect([opened.get('{family="all"}'), opened.get('{family="ewma"}'), opened.get('{family="limit"}'), opened.get('{family="cusum"}')]).toEqual([2, 1, 1, 0]);
-    // 2 incidents over 4 components watched for 30 days: 2 · 100 / (4 · 30 / 365.25).
-    expect(gauge(text, 'wearshift_alarm_incidents_per_100_component_years').get('{family="all"}')).toBeCloseTo((2 * 100) / ((4 * 30) / 365.25), 3);
+    expect([opened.get('{family="all"}'), opened.get('{family="ewma"}'), opened.get('{family="limit"}'), opened.get('{family="rate"}'), opened.get('{family="cusum"}')]).toEqual([3, 1, 1, 1, 0]);
+    // 3 incidents over 5 components watched for 30 days: 3 · 100 / (5 · 30 / 365.25).
+    expect(gauge(text, 'wearshift_alarm_incidents_per_100_component_years').get('{family="all"}')).toBeCloseTo((3 * 100) / ((5 * 30) / 365.25), 3);
     const actors = gauge(text, 'wearshift_alarm_bad_actor_annunciations');
     expect(actors.get('{unit="U3",component="gearbox"}')).toBe(2);
     expect(actors.get('{unit="U2",component="gearbox"}')).toBe(1);
@@ -132,9 +136,9 @@ describe('/metrics: live alarm figures from the incident store', () => {
     clock = NOW + 10 * DAY; // U2 has now waited 11 days unacknowledged
     const later = await app.inject({ method: 'GET', url: '/metrics' });
     expect(gauge(later.body, 'wearshift_alarm_incidents_stale').get('')).toBe(3);
-    // U1 only: U3 is active again for 12 days, U2 for 11, both under standingAfterDays.
-    expect(gauge(later.body, 'wearshift_alarm_incidents_standing').get('')).toBe(1);
-    // U3's opening (30 days before the clock) is still in the window, U2's and U3's later annunciations too.
+    // U1 and U5 (active for 35 days, told or not); U3 is active again for 12 days, U2 for 11.
+    expect(gauge(later.body, 'wearshift_alarm_incidents_standing').get('')).toBe(2);
+    // U3's opening (30 days before the clock) is still in the window, U2's and U3's later annunciations too; U5's not.
     expect(gauge(later.body, 'wearshift_alarm_annunciations').get('')).toBe(3);
   });
 });
@@ -154,10 +158,14 @@ describe('/metrics: bounded reads', () => {
     expect(gauge(text, 'wearshift_alarm_figures_truncated').get('')).toBe(1);
   });
 
-  it('says the figures are down when the store cannot be read', async () => {
+  it('says the figures are down when the store cannot be read, and reads again at the next scrape', async () => {
     const metrics = createMetrics({ defaultMetrics: false });
+    let reads = 0;
     registerAlarmGauges(metrics.registry, {
-      source: () => Promise.reject(new Error('connection refused')),
+      source: () => {
+        reads += 1;
+        return Promise.reject(new Error('connection refused'));
+      },
       config: config.alarmFigures,
       responders: tierZeroResponders([]),
       now: () => NOW,
@@ -166,6 +174,9 @@ describe('/metrics: bounded reads', () => {
     expect(gauge(text, 'wearshift_alarm_figures_up').get('')).toBe(0);
     expect(gauge(text, 'wearshift_alarm_incidents_open').get('')).toBeNaN();
     expect(gauge(text, 'wearshift_alarm_responder_annunciations').size).toBe(0);
+    const before = reads;
+    await metrics.registry.metrics();
+    expect(reads).toBe(before + 1);
   });
 });
 
@@ -176,15 +187,11 @@ describe('wearshift serve', () => {
     const serve = startCli(['serve', '--port', String(port)], { REDIS_URL: redis.url, WEARSHIFT_METRICS_PUBLIC: '1', LOG_LEVEL: 'warn' });
     try {
       const deadline = Date.now() + 60_000;
-      let text = '';
-      while (Date.now() < deadline) {
-        const r = await fetch(`http://127.0.0.1:${port}/metrics`).catch(() => undefined);
-        if (r?.status === 200) {
-          text = await r.text();
-          break;
-        }
+      while ((await fetch(`http://127.0.0.1:${port}/readyz`).then((r) => r.status, () => 0)) !== 200) {
+        if (Date.now() > deadline) throw new Error('wearshift serve did not get ready');
         await new Promise((resolve) => setTimeout(resolve, 200));
       }
+      const text = await (await fetch(`http://127.0.0.1:${port}/metrics`)).text();
       expect(gauge(text, 'wearshift_alarm_figures_up').get('')).toBe(1);
       expect(gauge(text, 'wearshift_alarm_incidents_open').get('')).toBe(0);
       expect(gauge(text, 'wearshift_alarm_figures_window_days').get('')).toBe(30);

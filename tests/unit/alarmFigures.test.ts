@@ -65,6 +65,15 @@ describe('load per responder (ISA-18.2 / IEC 62682: annunciated alarms per opera
     expect(f.busiest?.responder).toBe('email:a@plant.example');
   });
 
+  it('an incident only seen in quiet backfill asked nobody: no responder load, never stale, still counted as opened', () => {
+    const list = [incident('A', [opened(0)], { live: false }), incident('B', [opened(1)])];
+    const f = alarmFigures({ incidents: list, from: T0, to: T0 + 20 * DAY, thresholds, responders: everyone('mqtt:board') });
+    expect(f).toMatchObject({ incidents: 2, annunciations: 2, quiet: 1, unrouted: 0 });
+    expect(f.responders[0]!.annunciations).toBe(1);
+    expect(f.stale.ids).toEqual([list[1]!.id]);
+    expect(f.standing.incidents).toBe(0);
+  });
+
   it('only annunciations inside the period count', () => {
     const list = [incident('A', [opened(-3)]), incident('B', [opened(1)]), incident('C', [opened(30)])];
     const f = alarmFigures({ incidents: list, from: T0, to: T0 + 10 * DAY, thresholds, responders: everyone('mqtt:board') });
