@@ -139,10 +139,12 @@ export function alarmFigures(input: AlarmFigureInput): AlarmFigures {
   const per100 = (n: number) => (componentYears !== null && componentYears > 0 ? round((100 * n) / componentYears, 4) : null);
 
   const annunciations = annunciationsOf(incidents, thresholds.chatteringWithinDays * DAY_MS).filter((a) => inPeriod(a.t));
-  const opened = incidents.filter((i) => i.timeline.some((e) => e.kind === 'opened' && inPeriod(Date.parse(e.at))));
+  const opened = incidents.filter((i) => ordered(i).some(({ e, t }) => e.kind === 'opened' && inPeriod(t)));
+  const familyCount = new Map<RuleFamily, number>();
+  for (const i of opened) for (const f of new Set(raisedPairs(i, -Infinity, to).map((p) => p.rule))) familyCount.set(f, (familyCount.get(f) ?? 0) + 1);
   const byFamily = Object.fromEntries(
     RULE_FAMILIES.map((f) => {
-      const n = opened.filter((i) => raisedPairs(i, -Infinity, to).some((p) => p.rule === f)).length;
+      const n = familyCount.get(f) ?? 0;
       return [f, { incidents: n, per100ComponentYears: per100(n) }];
     }),
   ) as AlarmFigures['byFamily'];
@@ -158,7 +160,11 @@ export function alarmFigures(input: AlarmFigureInput): AlarmFigures {
     }
     const targets = input.responders.of(a.incident);
     if (targets.length === 0) unrouted += 1;
-    for (const r of targets) heard.set(r, [...(heard.get(r) ?? []), a.t]);
+    for (const r of targets) {
+      const times = heard.get(r);
+      if (times === undefined) heard.set(r, [a.t]);
+      else times.push(a.t);
+    }
   }
   const responders = [...heard.entries()]
     .map(([responder, times]) => loadOf(responder, times, days))
@@ -220,16 +226,30 @@ export function componentYearsOf(components: number, from: number, to: number): 
   return (components * Math.max(0, to - from)) / YEAR_MS;
 }
 
+type Timed = ReadonlyArray<{ readonly e: TimelineEntry; readonly t: number }>;
+
+/** Timelines in time order, parsed once per incident object (the figures walk each timeline several times). */
+const ORDERED = new WeakMap<FigureIncident, Timed>();
+
 /** The timeline in time order (stable, so that entries of one sample keep their order). */
-function ordered(i: FigureIncident): Array<{ e: TimelineEntry; t: number }> {
-  return i.timeline.map((e, n) => ({ e, t: Date.parse(e.at), n })).sort((a, b) => a.t - b.t || a.n - b.n);
+function ordered(i: FigureIncident): Timed {
+  let known = ORDERED.get(i);
+  if (known === undefined) {
+    known = i.timeline.map((e, n) => ({ e, t: Date.parse(e.at), n })).sort((a, b) => a.t - b.t || a.n - b.n);
+    ORDERED.set(i, known);
+  }
+  return known;
 }
 
 /** Every annunciation of every incident, with whether it chatters (came within `window` of the last return to normal). */
 function annunciationsOf(incidents: readonly FigureIncident[], window: number): Annunciation[] {
   const out: Annunciation[] = [];
   const byKey = new Map<string, FigureIncident[]>();
-  for (const i of incidents) byKey.set(i.key, [...(byKey.get(i.key) ?? []), i]);
+  for (const i of incidents) {
+    const list = byKey.get(i.key);
+    if (list === undefined) byKey.set(i.key, [i]);
+    else list.push(i);
+  }
   for (const list of byKey.values()) {
     const sorted = list.map((i) => ({ i, opened: openedAt(i) })).sort((a, b) => a.opened - b.opened || compare(a.i.id, b.i.id));
     let previousEnd: number | null = null;
@@ -255,8 +275,7 @@ function annunciationsOf(incidents: readonly FigureIncident[], window: number): 
 }
 
 function openedAt(i: FigureIncident): number {
-  const e = i.timeline.find((x) => x.kind === 'opened');
-  return e === undefined ? Number.POSITIVE_INFINITY : Date.parse(e.at);
+  return ordered(i).find((x) => x.e.kind === 'opened')?.t ?? Number.POSITIVE_INFINITY;
 }
 
 function isOpenAt(i: FigureIncident, t: number): boolean {
@@ -272,9 +291,8 @@ function isOpenAt(i: FigureIncident, t: number): boolean {
 /** Rule/measurand pairs the incident raised (or changed the severity of) between `from` and `to`. */
 function raisedPairs(i: FigureIncident, from: number, to: number): Array<{ rule: RuleFamily; measurand: Measurand }> {
   const seen = new Map<string, { rule: RuleFamily; measurand: Measurand }>();
-  for (const e of i.timeline) {
+  for (const { e, t } of ordered(i)) {
     if (e.kind !== 'finding' || e.change === 'cleared') continue;
-    const t = Date.parse(e.at);
     if (t < from || t > to) continue;
     seen.set(`${e.rule}|${e.measurand}`, { rule: e.rule, measurand: e.measurand });
   }
