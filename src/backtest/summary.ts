@@ -11,7 +11,8 @@
  *   operating hours (unit-hours meter; null when a sample has none) and in calendar days; negative when the limit came first;
  * - component-years are the span from each component's first to its last sample, in years of 365.25 days;
  * - the alarm-management key figures (incidents/alarmFigures.ts) run over the fleet's span, from its first to its last
- *   sample; nobody acknowledges in a backtest, so `stale` counts what would go stale if nobody answered.
+ *   sample; nobody acknowledges in a backtest, so `stale` counts what would go stale if nobody answered (an incident
+ *   seen only in quiet backfill, by the processing time, closes on its return to normal as in production).
  */
 import type { Sample } from '../domain/event.ts';
 import { RULE_FAMILIES, SEVERITIES, type IncidentKind, type RuleFamily, type Severity } from '../domain/finding.ts';
