@@ -127,7 +127,6 @@ function common(c: Command, parameter: string): Command {
 
 export function registerDesign(program: Command, output: NodeJS.WritableStream = process.stdout): void {
   const design = program.command('design').description('average run lengths of EWMA or CUSUM parameters, or the h / L that meets a target in-control run length; the noise a configuration gives');
-  registerDesignNoise(design, output);
 
   common(
     design
@@ -188,4 +187,6 @@ export function registerDesign(program: Command, output: NodeJS.WritableStream =
     output.write(target ? `limit width L = ${round(L, 6)} for an in-control ARL of ${round(target.arl0, 6)}\n` : `limit width L = ${L}\n`);
     writeArlTable(output, arl);
   });
+
+  registerDesignNoise(design, output);
 }
