@@ -1,7 +1,7 @@
 /**
  * The queue benchmarks, each on a private redis-server of its own (started here, flushed between phases, removed at
  * the end) with worker processes started as an operator starts them: `node bin/wearshift.js worker` with REDIS_URL
- * and a configuration file. Results enter through the result producer (src/intake/producer.ts), the integrators' way
+ * and a configuration file. Results enter through the result producer (src/queue/producer.ts), the integrators' way
  * in: validated, then enqueued on the `results` queue.
  *
  * - throughput: results per second from the first enqueue until every result is stored, its component evaluated and

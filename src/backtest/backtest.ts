@@ -3,6 +3,7 @@
  * when one is given) replays the same records through the worker's pipeline, and the runs are summarised side by side.
  */
 import type { Config } from '../domain/config.ts';
+import { tierZeroResponders } from '../incidents/responders.ts';
 import type { SourceRecord } from '../intake/fileRecords.ts';
 import type { RejectedRecord } from '../pipeline/replay.ts';
 import { detectorParameters, withBudget, type BudgetText } from './parameters.ts';
@@ -51,6 +52,7 @@ export async function backtest(records: readonly SourceRecord[], options: Backte
       budget: options.budget ?? null,
       parameters: detectorParameters(config, run.components),
       components: run.components,
+      alarm: { thresholds: config.alarmFigures, responders: tierZeroResponders(config.escalation.policies) },
     });
   }
   const summary = buildBacktestSummary({ file: options.file, records: runs[0]!.records, rejected: runs[0]!.rejected, runs: inputs });

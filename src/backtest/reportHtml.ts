@@ -8,6 +8,7 @@ import { ADVICE_CAUTION } from '../domain/caution.ts';
 import { RULE_FAMILIES, RULE_FAMILY_LABELS, type RuleFamily, type Severity } from '../domain/finding.ts';
 import { NEUTRAL, SEVERITY_STYLE } from '../charts/severityStyle.ts';
 import { escapeHtml } from '../domain/safeText.ts';
+import { alarmSection } from './alarmSection.ts';
 import type { ComponentChart } from './charts.ts';
 import type { DetectorParameters } from './parameters.ts';
 import type { BacktestSummary, Earliness, EpisodeSummary, Firing, Lead, RunSummary } from './summary.ts';
@@ -49,6 +50,7 @@ export function renderBacktestReport(summary: BacktestSummary, components: reado
     families(summary),
     parameters(summary),
     '</div>',
+    alarmSection(summary),
     earlinessSection(summary),
     oneSided(summary),
     episodesSection(main),
@@ -385,5 +387,9 @@ figure.chart figcaption { font-weight: 600; margin-bottom: 2px; }
 figure.chart svg { max-width: 100%; height: auto; border-radius: 4px; }
 a { color: #1f3f7a; }
 footer { padding: 14px 32px 28px; color: var(--muted); font-size: 13px; border-top: 1px solid #c9c9c7; }
+table.bad-actors caption { text-align: left; font-weight: 600; padding: 4px 0; }
+#alarm-figures details { margin-top: 10px; }
+#alarm-figures .pair { align-items: start; }
+#alarm-figures table { margin-bottom: 12px; }
 @media print { details.component { break-inside: avoid; } }
 `;

@@ -79,8 +79,11 @@ export async function runBacktest(records: readonly SourceRecord[], options: Bac
 function incidentRecord(inc: Incident): IncidentRecord {
   return {
     id: inc.id,
+    key: inc.key,
     unit: inc.unit,
     component: inc.component,
+    group: inc.group,
+    kind: inc.kind,
     measurand: inc.measurand ?? null,
     openedAt: inc.openedAt,
     lastSampledAt: inc.lastSampledAt,

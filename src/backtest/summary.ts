@@ -9,11 +9,15 @@
  * - classic families are `limit` (fixed), `rate` and `population`; `condition` and `cleanliness` count for neither side;
  * - a lead is counted in samples of the component (from the detector's sample up to, not including, the limit's), in
  *   operating hours (unit-hours meter; null when a sample has none) and in calendar days; negative when the limit came first;
- * - component-years are the span from each component's first to its last sample, in years of 365.25 days.
+ * - component-years are the span from each component's first to its last sample, in years of 365.25 days;
+ * - the alarm-management key figures (incidents/alarmFigures.ts) run over the fleet's span, from its first to its last
+ *   sample; nobody acknowledges in a backtest, so `stale` counts what would go stale if nobody answered (an incident
+ *   seen only in quiet backfill, by the processing time, closes on its return to normal as in production).
  */
 import type { Sample } from '../domain/event.ts';
-import { RULE_FAMILIES, SEVERITIES, type RuleFamily, type Severity } from '../domain/finding.ts';
+import { RULE_FAMILIES, SEVERITIES, type IncidentKind, type RuleFamily, type Severity } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
+import { alarmFigures, type AlarmFigures, type FigureThresholds, type ResponderMap } from '../incidents/alarmFigures.ts';
 import type { TimelineEntry } from '../incidents/model.ts';
 import type { BudgetText, DetectorParameters } from './parameters.ts';
 
@@ -96,6 +100,8 @@ export interface RunSummary {
   readonly earliness: { readonly vsLimit: Earliness; readonly vsClassic: Earliness };
   /** Incident ids caught by one side only, or by neither (oil condition, cleanliness, a fall only). */
   readonly oneSided: { readonly changeOnly: readonly string[]; readonly classicOnly: readonly string[]; readonly neither: readonly string[] };
+  /** The alarm-management key figures (ISA-18.2 / IEC 62682, EEMUA 191) over the fleet's span. */
+  readonly alarmFigures: AlarmFigures;
 }
 
 export interface ComponentSpan {
@@ -129,8 +135,12 @@ export interface BacktestSummary {
 /** One incident as the pipeline reported it: its timeline entries and the state it ended in. */
 export interface IncidentRecord {
   readonly id: string;
+  /** `unit/component[/measurand|/sampling]`: at most one incident per key is open. */
+  readonly key: string;
   readonly unit: string;
   readonly component: string;
+  readonly group: string;
+  readonly kind: IncidentKind;
   /** Set when incidents are kept per measurand (incidents.scope: measurand). */
   readonly measurand: Measurand | null;
   readonly openedAt: string;
@@ -157,6 +167,8 @@ export interface RunInput {
   readonly budget: BudgetText | null;
   readonly parameters: readonly DetectorParameters[];
   readonly components: readonly ComponentOutcome[];
+  /** Thresholds (config `alarmFigures`) and who hears of what (tier 0 of the escalation policies). */
+  readonly alarm: { readonly thresholds: FigureThresholds; readonly responders: ResponderMap };
 }
 
 export interface SummaryInput {
@@ -172,7 +184,8 @@ export function buildBacktestSummary(input: SummaryInput): BacktestSummary {
   const components = first.components.map(spanOf);
   const componentYears = components.reduce((sum, c) => sum + c.years, 0);
   const times = components.flatMap((c) => (c.from === null || c.to === null ? [] : [c.from, c.to])).sort();
-  const runs = input.runs.map((r) => runSummary(r, componentYears));
+  const span = times.length === 0 ? null : { from: Date.parse(times[0]!), to: Date.parse(times.at(-1)!) };
+  const runs = input.runs.map((r) => runSummary(r, componentYears, span));
   return {
     kind: 'wearshift.backtest',
     file: input.file,
@@ -198,7 +211,7 @@ function spanOf(c: ComponentOutcome): ComponentSpan {
   return { unit: c.unit, component: c.component, group: c.group, samples: c.samples.length, from, to, years: round(years, 4) };
 }
 
-function runSummary(run: RunInput, componentYears: number): RunSummary {
+function runSummary(run: RunInput, componentYears: number, span: { from: number; to: number } | null): RunSummary {
   const episodes = run.components.flatMap((c) => c.incidents.map((i) => episodeOf(c, i))).sort((a, b) => (a.openedAt < b.openedAt ? -1 : a.openedAt > b.openedAt ? 1 : a.incidentId < b.incidentId ? -1 : 1));
   const per100 = (n: number) => (componentYears > 0 ? round((100 * n) / componentYears, 4) : null);
   const byFamily = Object.fromEntries(
@@ -225,6 +238,14 @@ function runSummary(run: RunInput, componentYears: number): RunSummary {
     episodes,
     earliness: { vsLimit: earliness(episodes, 'limit'), vsClassic: earliness(episodes, 'classic') },
     oneSided: { changeOnly: ids('change-only'), classicOnly: ids('classic-only'), neither: ids('neither') },
+    alarmFigures: alarmFigures({
+      incidents: run.components.flatMap((c) => c.incidents.map((i) => ({ ...i, timeline: i.entries }))),
+      from: span?.from ?? 0,
+      to: span?.to ?? 0,
+      thresholds: run.alarm.thresholds,
+      responders: run.alarm.responders,
+      componentYears,
+    }),
   };
 }
 
@@ -331,6 +352,11 @@ function comparisonRows(runs: readonly RunSummary[]): ComparisonRow[] {
     row('median lead over classic rules, operating hours', (r) => r.earliness.vsClassic.medianHours),
     row('caught by EWMA/CUSUM only', (r) => r.oneSided.changeOnly.length),
     row('caught by classic rules only', (r) => r.oneSided.classicOnly.length),
+    row('busiest responder, incidents per day (average)', (r) => r.alarmFigures.busiest?.perDay.average ?? null),
+    row('busiest responder, incidents per week (peak)', (r) => r.alarmFigures.busiest?.perWeek.peak ?? null),
+    row('standing incidents at most at once', (r) => r.alarmFigures.standing.peak),
+    row('stale incidents at most at once (nobody acknowledges)', (r) => r.alarmFigures.stale.peak),
+    row('chattering incidents', (r) => r.alarmFigures.chattering.incidents),
   ];
 }
 

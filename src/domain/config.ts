@@ -5,6 +5,7 @@
 import { z } from 'zod';
 import { MEASURAND_NAMES, type Measurand } from './measurands.ts';
 import { parseReading } from './reading.ts';
+import { AlarmFiguresSchema } from './alarmFiguresConfig.ts';
 import { ChannelsSchema, EscalationSchema, escalationChannelIssues, IncidentsConfigSchema } from './escalationConfig.ts';
 
 const measurandName = z.enum(MEASURAND_NAMES as [Measurand, ...Measurand[]], { error: (i) => `unknown measurand "${String(i.input)}"` });
@@ -207,6 +208,7 @@ export const ConfigSchema = z
       .strict()
       .default({ quietAfterDays: 30 }),
     incidents: IncidentsConfigSchema.default(IncidentsConfigSchema.parse({})),
+    alarmFigures: AlarmFiguresSchema.default(AlarmFiguresSchema.parse({})).describe('Thresholds of the alarm-management key figures (ISA-18.2 / IEC 62682, EEMUA 191) in backtest, design noise and /metrics.'),
     escalation: EscalationSchema.default({ policies: [] }),
     channels: ChannelsSchema.default({ webhooks: [], mqtt: [] }),
   })

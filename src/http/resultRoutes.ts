@@ -10,7 +10,7 @@ import type { Metrics } from '../telemetry/metrics.ts';
 import { requireRole } from './auth.ts';
 
 export interface ResultRoutesOptions {
-  /** Validates and enqueues; the producer of src/intake/producer.ts. */
+  /** Validates and enqueues; the producer of src/queue/producer.ts. */
   producer: { add(events: unknown): Promise<RecordOutcome[]> };
   metrics?: Metrics;
   /** Largest request body in bytes. Default 5 MiB. */

@@ -35,7 +35,7 @@ export interface ResultProducer {
  * Creates a producer of lab results.
  *
  * ```ts
- * import { createResultProducer } from 'wearshift/src/intake/producer.ts';
+ * import { createResultProducer } from 'wearshift';
  *
  * const producer = createResultProducer({ connection: process.env.REDIS_URL!, prefix: '{wearshift}' });
  * const outcomes = await producer.add({

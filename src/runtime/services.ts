@@ -21,6 +21,9 @@ import { RedisStore } from '../redis/redisStore.ts';
 import { bridgeLiveEvents, livePublisher } from './liveBridge.ts';
 import type { Logger } from '../telemetry/logger.ts';
 import { createMetrics } from '../telemetry/metrics.ts';
+import { tierZeroResponders } from '../incidents/responders.ts';
+import { readRecentIncidents } from '../redis/recentIncidents.ts';
+import { registerAlarmGauges } from './alarmGauges.ts';
 import { checkEvictionPolicy, connectRedis, describeTarget, redisTarget, type RedisConnection } from '../redis/connection.ts';
 import { closeAll, DEFAULT_SHUTDOWN_TIMEOUT_MS, type Closer } from './shutdown.ts';
 
@@ -110,6 +113,11 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
       }),
     );
     return Object.fromEntries(entries);
+  });
+  registerAlarmGauges(metrics.registry, {
+    source: (o) => readRecentIncidents(request, partitions, o),
+    config: config.alarmFigures,
+    responders: tierZeroResponders(config.escalation.policies),
   });
   const apiBaseUrl = config.channels.ackLinks?.baseUrl ?? `http://localhost:${port}`;
 

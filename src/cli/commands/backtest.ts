@@ -1,6 +1,7 @@
 /**
  * `wearshift backtest FILE`: replays a CSV or JSONL history through the worker's own pipeline in-process (no Redis)
- * and writes a self-contained HTML report: incidents per rule family and per 100 component-years, how much earlier
+ * and writes a self-contained HTML report: incidents per rule family and per 100 component-years, the alarm-management
+ * key figures (load per responder, standing, stale, chattering, bad actors), how much earlier
  * EWMA/CUSUM spoke than the fixed and classic limits, what only one side caught, the detector parameters (from a
  * false-alarm budget with --budget), a second configuration side by side with --compare, and every trend chart.
  */
@@ -31,6 +32,9 @@ const HELP = `
 Each configuration replays the whole file on its own, in file order, through the same storing, evaluation and incident
 code as the worker. An incident is one episode; EWMA/CUSUM count on rises only, classic rules are limit, rate and
 population. Leads are in samples of the component, operating hours (unit-hours meter) and days.
+The alarm-management key figures (ISA-18.2 / IEC 62682, EEMUA 191) count annunciations (an incident opening or becoming
+active again) per tier-0 responder of the escalation policies, per day and per week (average and peak), and standing,
+stale and chattering incidents by the thresholds of the alarmFigures section; nobody acknowledges in a backtest.
 --budget "A per component per Y years" replaces the configured false-alarm budget (alarms and period; the sample
 interval and hours per year stay as configured) in every configuration; the report shows the h and L it gives and the
 "wearshift design" commands that print the same numbers.
@@ -122,6 +126,11 @@ function readable(s: BacktestSummary, out: string | undefined): string {
       `${prefix}caught by both sides: ${cls.episodes}; EWMA/CUSUM ahead of the fixed limit by a median of ${lim.medianSamples === null ? '-' : `${fmt(lim.medianSamples)} samples${lim.medianHours === null ? '' : ` (${fmt(lim.medianHours)} operating hours)`}`} over ${lim.episodes}, of the first classic rule by ${cls.medianSamples === null ? '-' : `${fmt(cls.medianSamples)} samples${cls.medianHours === null ? '' : ` (${fmt(cls.medianHours)} h)`}`}`,
     );
     lines.push(`${prefix}one side only: EWMA/CUSUM ${r.oneSided.changeOnly.length}, classic ${r.oneSided.classicOnly.length}; neither ${r.oneSided.neither.length}`);
+    const a = r.alarmFigures;
+    const busiest = a.busiest === null ? 'no responder named' : `busiest responder ${a.busiest.responder}: ${fmt(a.busiest.perDay.average)} per day (peak ${a.busiest.perDay.peak}), ${fmt(a.busiest.perWeek.average)} per week (peak ${a.busiest.perWeek.peak})`;
+    lines.push(
+      `${prefix}alarm figures: ${a.annunciations} annunciations, ${busiest}; standing ${a.standing.peak} at most at once, stale ${a.stale.peak} (nobody acknowledges), chattering ${a.chattering.incidents}`,
+    );
   }
   for (const row of s.comparison ?? []) if (row.differs) lines.push(`differs: ${row.metric}: ${row.values.map((v) => (v === null ? '-' : String(v))).join(' vs ')}`);
   if (out !== undefined) lines.push(`report: ${out}`);

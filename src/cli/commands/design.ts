@@ -10,6 +10,7 @@ import { ewmaLimitWidth } from '../../analysis/arl/solveEwma.ts';
 import { parseBudget, samplesPerBudgetPeriod, targetArl } from '../../analysis/budget.ts';
 import { type Budget, BudgetSchema } from '../../domain/config.ts';
 import { InputError } from '../../domain/errors.ts';
+import { registerDesignNoise } from './designNoise.ts';
 import { asInputError, formatTable, numberListOption, numberOption, round, tidy, writeJsonLine } from '../output.ts';
 
 type Sided = 'one' | 'two';
@@ -125,7 +126,7 @@ function common(c: Command, parameter: string): Command {
 }
 
 export function registerDesign(program: Command, output: NodeJS.WritableStream = process.stdout): void {
-  const design = program.command('design').description('average run lengths of EWMA or CUSUM parameters, or the h / L that meets a target in-control run length');
+  const design = program.command('design').description('average run lengths of EWMA or CUSUM parameters, or the h / L that meets a target in-control run length; the noise a configuration gives');
 
   common(
     design
@@ -186,4 +187,6 @@ export function registerDesign(program: Command, output: NodeJS.WritableStream =
     output.write(target ? `limit width L = ${round(L, 6)} for an in-control ARL of ${round(target.arl0, 6)}\n` : `limit width L = ${L}\n`);
     writeArlTable(output, arl);
   });
+
+  registerDesignNoise(design, output);
 }
