@@ -4,7 +4,7 @@
  */
 import type { AddressInfo } from 'node:net';
 import { simpleParser, type ParsedMail } from 'mailparser';
-import { SMTPServer } from 'smtp-server';
+import { SMTPServer, type SMTPServerOptions } from 'smtp-server';
 
 export interface ReceivedMail {
   /** Arrival order, from 1. */
@@ -24,7 +24,8 @@ export interface MailReceiver {
   close(): Promise<void>;
 }
 
-export async function startMailReceiver(): Promise<MailReceiver> {
+/** `extra` adds to or overrides the server's options (a test's refusals, say). */
+export async function startMailReceiver(extra: Partial<SMTPServerOptions> = {}, port = 0): Promise<MailReceiver> {
   const received: ReceivedMail[] = [];
   const listeners: ((mail: ReceivedMail) => void)[] = [];
   const server = new SMTPServer({
@@ -47,10 +48,11 @@ export async function startMailReceiver(): Promise<MailReceiver> {
           .catch(callback);
       });
     },
+    ...extra,
   });
   await new Promise<void>((resolve, reject) => {
     server.once('error', reject);
-    server.listen(0, '127.0.0.1', () => resolve());
+    server.listen(port, '127.0.0.1', () => resolve());
   });
   return {
     port: (server.server.address() as AddressInfo).port,

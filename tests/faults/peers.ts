@@ -6,8 +6,7 @@
 import { randomBytes } from 'node:crypto';
 import { createServer, type IncomingMessage, type Server, type ServerResponse } from 'node:http';
 import type { AddressInfo } from 'node:net';
-import { simpleParser } from 'mailparser';
-import { SMTPServer } from 'smtp-server';
+import { startMailReceiver, type MailReceiver as SharedReceiver } from '../../src/demo/mailReceiver.ts';
 import { Webhook } from 'standardwebhooks';
 
 export interface ReceivedMail {
@@ -27,47 +26,30 @@ export interface MailReceiver {
   stop(): Promise<void>;
 }
 
-/** A mail receiver on `port`, not yet listening. */
+/** A mail receiver on `port`, not yet listening: the shared one (src/demo/mailReceiver.ts), stopped and started again. */
 export function mailReceiver(port: number): MailReceiver {
   const mails: ReceivedMail[] = [];
-  let server: SMTPServer | undefined;
+  let server: SharedReceiver | undefined;
   return {
     port,
     mails,
     async start() {
-      const s = new SMTPServer({
-        authOptional: true,
-        disabledCommands: ['STARTTLS'],
-        logger: false,
-        onData(stream, session, callback) {
-          const chunks: Buffer[] = [];
-          stream.on('data', (c: Buffer) => chunks.push(c));
-          stream.on('end', () => {
-            simpleParser(Buffer.concat(chunks))
-              .then((mail) => {
-                mails.push({
-                  messageId: mail.messageId ?? '',
-                  incidentId: String(mail.headers.get('x-wearshift-incident') ?? ''),
-                  event: String(mail.headers.get('x-wearshift-event') ?? ''),
-                  to: session.envelope.rcptTo.map((r) => r.address),
-                  at: Date.now(),
-                });
-                callback();
-              })
-              .catch(callback);
-          });
-        },
-      });
-      await new Promise<void>((resolve, reject) => {
-        s.once('error', reject);
-        s.listen(port, '127.0.0.1', () => resolve());
-      });
+      const s = await startMailReceiver({}, port);
+      s.onMail((mail) =>
+        mails.push({
+          messageId: mail.parsed.messageId ?? '',
+          incidentId: String(mail.parsed.headers.get('x-wearshift-incident') ?? ''),
+          event: String(mail.parsed.headers.get('x-wearshift-event') ?? ''),
+          to: [...mail.to],
+          at: mail.receivedAt,
+        }),
+      );
       server = s;
     },
     async stop() {
       const s = server;
       server = undefined;
-      if (s !== undefined) await new Promise<void>((resolve) => s.close(() => resolve()));
+      await s?.close();
     },
   };
 }

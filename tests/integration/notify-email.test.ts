@@ -3,49 +3,23 @@
  * mailparser, an independent MIME parser, so that what we check is what a mail client would see.
  */
 import { createServer, type AddressInfo } from 'node:net';
-import { simpleParser, type ParsedMail } from 'mailparser';
-import { SMTPServer, type SMTPServerOptions } from 'smtp-server';
+import type { SMTPServerOptions } from 'smtp-server';
+import { startMailReceiver, type MailReceiver } from '../../src/demo/mailReceiver.ts';
 import { afterEach, describe, expect, it } from 'vitest';
 import { signAckLink, ackLinkUrl } from '../../src/notify/ackLink.ts';
 import { renderIncidentEmail } from '../../src/channels/email/emailRender.ts';
 import { EmailDeliveryError, sendEmail } from '../../src/channels/email/emailSend.ts';
 import { incidentMessage } from '../unit/notify-fixtures.ts';
 
-interface Received {
-  mail: ParsedMail;
-  raw: string;
-  envelopeTo: string[];
-}
-
-const servers: SMTPServer[] = [];
+const receivers: MailReceiver[] = [];
 afterEach(async () => {
-  await Promise.all(servers.splice(0).map((s) => new Promise<void>((resolve) => s.close(() => resolve()))));
+  await Promise.all(receivers.splice(0).map((r) => r.close()));
 });
 
-async function startSmtp(extra: Partial<SMTPServerOptions> = {}): Promise<{ port: number; received: Received[] }> {
-  const received: Received[] = [];
-  const server = new SMTPServer({
-    authOptional: true,
-    disabledCommands: ['STARTTLS'],
-    logger: false,
-    onData(stream, session, callback) {
-      const chunks: Buffer[] = [];
-      stream.on('data', (c: Buffer) => chunks.push(c));
-      stream.on('end', () => {
-        const raw = Buffer.concat(chunks).toString('utf8');
-        simpleParser(raw)
-          .then((mail) => {
-            received.push({ mail, raw, envelopeTo: session.envelope.rcptTo.map((r) => r.address) });
-            callback();
-          })
-          .catch(callback);
-      });
-    },
-    ...extra,
-  });
-  servers.push(server);
-  await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', () => resolve()));
-  return { port: (server.server.address() as AddressInfo).port, received };
+async function startSmtp(extra: Partial<SMTPServerOptions> = {}): Promise<MailReceiver> {
+  const receiver = await startMailReceiver(extra);
+  receivers.push(receiver);
+  return receiver;
 }
 
 const transport = (port: number) => ({ host: '127.0.0.1', port, secure: false, ignoreTLS: true });
@@ -69,19 +43,19 @@ describe('sending incident e-mail over SMTP', () => {
     const sent = await sendEmail(transport(smtp.port), rendered);
     expect(smtp.received).toHaveLength(1);
     const got = smtp.received[0]!;
-    expect(got.envelopeTo).toEqual(['oncall@plant.example', 'reliability@plant.example']);
+    expect(got.to).toEqual(['oncall@plant.example', 'reliability@plant.example']);
     expect(sent.accepted).toEqual(['oncall@plant.example', 'reliability@plant.example']);
     expect(sent.messageId).toBe(rendered.headers['Message-ID']);
-    expect(got.mail.messageId).toBe(rendered.headers['Message-ID']);
+    expect(got.parsed.messageId).toBe(rendered.headers['Message-ID']);
     // Non-ASCII goes out as an RFC 2047 encoded word and comes back as the same text.
-    expect(got.mail.subject).toBe(rendered.subject);
-    expect(got.mail.subject).toContain('PS2-P3 Ölpumpe / gearbox');
-    expect(got.mail.text).toContain(ackUrl);
-    expect(got.mail.text).toContain('CUSUM statistic 5.612 against its limit 5');
-    expect(got.mail.html).toContain(`href="${ackUrl}"`);
-    expect(got.mail.headers.get('x-wearshift-incident')).toBe('INC-2026-0007');
-    expect(got.mail.headers.get('auto-submitted')).toBe('auto-generated');
-    expect(got.mail.references).toBe(rendered.headers.References);
+    expect(got.parsed.subject).toBe(rendered.subject);
+    expect(got.parsed.subject).toContain('PS2-P3 Ölpumpe / gearbox');
+    expect(got.parsed.text).toContain(ackUrl);
+    expect(got.parsed.text).toContain('CUSUM statistic 5.612 against its limit 5');
+    expect(got.parsed.html).toContain(`href="${ackUrl}"`);
+    expect(got.parsed.headers.get('x-wearshift-incident')).toBe('INC-2026-0007');
+    expect(got.parsed.headers.get('auto-submitted')).toBe('auto-generated');
+    expect(got.parsed.references).toBe(rendered.headers.References);
   });
 
   it('keeps a hostile unit name from adding headers or recipients', async () => {
@@ -89,11 +63,11 @@ describe('sending incident e-mail over SMTP', () => {
     const { rendered } = mail({ unit: 'PS2\r\nBcc: victim@elsewhere.example\r\nX-Injected: yes', id: 'INC-9\r\nX-Injected: yes' });
     await sendEmail(transport(smtp.port), rendered);
     const got = smtp.received[0]!;
-    expect(got.envelopeTo).not.toContain('victim@elsewhere.example');
-    expect(got.mail.headers.has('x-injected')).toBe(false);
-    expect(got.mail.headers.has('bcc')).toBe(false);
-    expect(got.mail.subject).toContain('PS2 Bcc: victim@elsewhere.example X-Injected: yes / gearbox');
-    expect(got.mail.headers.get('x-wearshift-incident')).toBe('INC-9 X-Injected: yes');
+    expect(got.to).not.toContain('victim@elsewhere.example');
+    expect(got.parsed.headers.has('x-injected')).toBe(false);
+    expect(got.parsed.headers.has('bcc')).toBe(false);
+    expect(got.parsed.subject).toContain('PS2 Bcc: victim@elsewhere.example X-Injected: yes / gearbox');
+    expect(got.parsed.headers.get('x-wearshift-incident')).toBe('INC-9 X-Injected: yes');
     const headerBlock = got.raw.slice(0, got.raw.indexOf('\r\n\r\n'));
     expect(headerBlock).not.toMatch(/^X-Injected:/im);
   });
@@ -102,7 +76,7 @@ describe('sending incident e-mail over SMTP', () => {
     const smtp = await startSmtp();
     await sendEmail(transport(smtp.port), mail().rendered);
     await sendEmail(transport(smtp.port), mail().rendered);
-    expect(smtp.received.map((r) => r.mail.messageId)).toEqual([mail().rendered.headers['Message-ID'], mail().rendered.headers['Message-ID']]);
+    expect(smtp.received.map((r) => r.parsed.messageId)).toEqual([mail().rendered.headers['Message-ID'], mail().rendered.headers['Message-ID']]);
   });
 
   it('fails as retryable when no SMTP server listens', async () => {

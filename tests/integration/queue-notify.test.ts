@@ -6,10 +6,9 @@
 import { randomBytes } from 'node:crypto';
 import { createServer, type Server } from 'node:http';
 import type { AddressInfo } from 'node:net';
-import { simpleParser, type ParsedMail } from 'mailparser';
 import { PNG } from 'pngjs';
 import { EMAIL_CHART_WIDTH } from '../../src/notify/incidentChart.ts';
-import { SMTPServer } from 'smtp-server';
+import { startMailReceiver, type MailReceiver } from '../../src/demo/mailReceiver.ts';
 import { Webhook } from 'standardwebhooks';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
@@ -25,9 +24,8 @@ const WEBHOOK_SECRET = `whsec_${randomBytes(24).toString('base64')}`;
 const prefix = '{notify}';
 
 let redis: RedisServer;
-let smtp: SMTPServer;
+let smtp: MailReceiver;
 let receiver: Server;
-const mails: Array<{ to: string[]; mail: ParsedMail }> = [];
 const hooks: Array<{ type: string; id: string; incidentId: string; verified: boolean }> = [];
 let workers: RunningWorkers;
 let store: RedisIncidentStore;
@@ -44,20 +42,7 @@ async function until<T>(what: string, probe: () => T | undefined, timeoutMs = 20
 
 beforeAll(async () => {
   redis = await startRedisServer();
-  smtp = new SMTPServer({
-    authOptional: true,
-    disabledCommands: ['STARTTLS'],
-    logger: false,
-    onData(stream, session, callback) {
-      simpleParser(stream)
-        .then((mail) => {
-          mails.push({ to: session.envelope.rcptTo.map((r) => r.address), mail });
-          callback();
-        })
-        .catch(callback);
-    },
-  });
-  await new Promise<void>((resolve) => smtp.listen(0, '127.0.0.1', () => resolve()));
+  smtp = await startMailReceiver();
   const verifier = new Webhook(WEBHOOK_SECRET);
   receiver = createServer((req, res) => {
     const chunks: Buffer[] = [];
@@ -92,7 +77,7 @@ escalation:
 channels:
   email:
     from: "wearshift <alerts@waterworks.example>"
-    smtp: { host: 127.0.0.1, port: ${(smtp.server.address() as AddressInfo).port}, secure: false }
+    smtp: { host: 127.0.0.1, port: ${smtp.port}, secure: false }
   webhooks:
     - { name: control-room, url: "http://127.0.0.1:${(receiver.address() as AddressInfo).port}/hooks", secrets: [NOTIFY_TEST_WEBHOOK_SECRET] }
   ackLinks: { baseUrl: "https://wearshift.waterworks.example", secretEnv: NOTIFY_TEST_ACK_SECRET }
@@ -108,7 +93,7 @@ channels:
 
 afterAll(async () => {
   await workers?.close();
-  await new Promise<void>((resolve) => (smtp ? smtp.close(() => resolve()) : resolve()));
+  await smtp?.close();
   await new Promise<void>((resolve) => (receiver ? receiver.close(() => resolve()) : resolve()));
   await redis?.dispose();
 });
@@ -134,22 +119,22 @@ describe('notifications from the live worker', () => {
     const opened = await until('the webhook', () => hooks.find((h) => h.type === 'wearshift.incident.opened'));
     expect(opened.verified).toBe(true);
     expect(opened.incidentId).toBe('BP4-Hill Street/gearbox@WW-3');
-    const first = await until('the tier-0 e-mail', () => mails.find((m) => m.to.includes('oncall@waterworks.example')));
-    expect(first.mail.subject).toMatch(/BP4-Hill Street/);
-    expect(first.mail.text).toMatch(/https:\/\/wearshift\.waterworks\.example\/ack\//);
-    expect(first.mail.text).toMatch(/WW-3/);
+    const first = await until('the tier-0 e-mail', () => smtp.received.find((m) => m.to.includes('oncall@waterworks.example')));
+    expect(first.parsed.subject).toMatch(/BP4-Hill Street/);
+    expect(first.parsed.text).toMatch(/https:\/\/wearshift\.waterworks\.example\/ack\//);
+    expect(first.parsed.text).toMatch(/WW-3/);
     // The trend chart travels inline: a PNG of the documented width that the HTML part shows with alt text.
-    const chart = first.mail.attachments.find((a) => a.contentType === 'image/png');
+    const chart = first.parsed.attachments.find((a) => a.contentType === 'image/png');
     expect(chart).toBeDefined();
     const png = PNG.sync.read(chart!.content);
     expect(png.width).toBe(EMAIL_CHART_WIDTH);
     expect(png.height).toBeGreaterThan(100);
     expect(chart!.contentId).toBe('<trend-chart@wearshift>');
     // mailparser inlines cid: images as data URLs; the alt text names the measurand in words.
-    expect(String(first.mail.html)).toMatch(/<img src="(cid:trend-chart@wearshift|data:image\/png;base64,[^"]+)"[^>]* alt="[^"]*(Fe|iron)[^"]*"/);
+    expect(String(first.parsed.html)).toMatch(/<img src="(cid:trend-chart@wearshift|data:image\/png;base64,[^"]+)"[^>]* alt="[^"]*(Fe|iron)[^"]*"/);
 
-    const escalated = await until('the tier-1 e-mail', () => mails.find((m) => m.to.includes('duty-manager@waterworks.example')));
-    expect(escalated.mail.headers.get('x-wearshift-event')).toBe('escalated');
+    const escalated = await until('the tier-1 e-mail', () => smtp.received.find((m) => m.to.includes('duty-manager@waterworks.example')));
+    expect(escalated.parsed.headers.get('x-wearshift-event')).toBe('escalated');
 
     await store.applyAction({ kind: 'acknowledge', incidentId: opened.incidentId, by: 'R. Okafor', now: new Date() });
     const acked = await until('the acknowledgement webhook', () => hooks.find((h) => h.type === 'wearshift.incident.acknowledged'));
