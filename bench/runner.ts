@@ -12,6 +12,7 @@ import { parseArgs } from 'node:util';
 import { runDesignCheck } from './designCheck.ts';
 import { runDetection } from './detection.ts';
 import { jsonLine, renderPart, type PartResult } from './report.ts';
+import { runQuiet } from './quiet.ts';
 import { runScaling } from './scaling.ts';
 import { redisServerVersion } from './pipeline.ts';
 import { runBackfill, runLatency, runThroughput } from './pipelineParts.ts';
@@ -38,6 +39,7 @@ export const PARTS: Record<string, Part> = {
       steppedComponents: at(scale, 800, 50),
     }),
   'design-check': ({ scale, seed }) => runDesignCheck({ seed, components: at(scale, 300, 40) }),
+  quiet: ({ scale, seed, log }) => runQuiet({ seed, log, componentsPerKind: at(scale, 150, 15) }),
   scaling: ({ scale, seed }) => runScaling({ seed, histories: at(scale, 5, 2), batches: at(scale, 15, 3) }),
   throughput: (o) => runThroughput(o),
   latency: (o) => runLatency(o),
