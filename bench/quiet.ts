@@ -143,6 +143,15 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
     for (const f of openingFamilies(inc)) perFamily.set(f, perFamily.get(f)! + 1);
   }
   const per100 = (n: number) => (100 * n) / componentYears;
+  // Where the healthy incidents come from: fleet kind, family (sampling: its check) and measurand of the opening findings.
+  const kindOfUnit = new Map(clean.map((u) => [u.unit, u.kind]));
+  const sources = new Map<string, number>();
+  for (const inc of cleanRun.incidents) {
+    for (const f of inc.evidence.length > 0 ? openingFindings(inc) : []) {
+      const key = `${kindOfUnit.get(inc.unit)} ${f.rule}${f.check !== undefined ? `/${f.check}` : ''} ${f.measurand}`;
+      sources.set(key, (sources.get(key) ?? 0) + 1);
+    }
+  }
   const byKind = (['gearbox', 'engine'] as const).map((k) => {
     const units = new Set(clean.filter((u) => u.kind === k).map((u) => u.unit));
     const years = clean.filter((u) => u.kind === k).reduce((sum, u) => sum + u.hours[u.hours.length - 1]! / YEAR_HOURS, 0);
@@ -154,6 +163,7 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
   const cleanSignatures = signaturesByUnitKeys(cleanRun.incidents);
   const injectedSignatures = signaturesByUnit(injectedRun.incidents);
   const delays = new Map<string, number[]>(CHANGE_KINDS.map((c) => [c.label, []]));
+  const byMetal = new Map<string, number[]>();
   plans.forEach((p, i) => {
     if (p.change === undefined) return;
     const u = injected[i]!;
@@ -163,7 +173,10 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
     const found = (injectedSignatures.get(u.unit) ?? []).filter((s) => s.measurand === measurand && s.rule !== 'sampling' && !before.has(s.key));
     const index = new Map(u.events.map((e, j) => [e.sampleId, j]));
     const at = Math.min(...found.map((s) => index.get(s.sampleId) ?? Infinity).filter((j) => j >= first));
-    delays.get(p.change.label)!.push(Number.isFinite(at) ? at - first + 1 : Infinity);
+    const delay = Number.isFinite(at) ? at - first + 1 : Infinity;
+    delays.get(p.change.label)!.push(delay);
+    const key = `${p.change.label} ${u.kind} ${measurand}`;
+    byMetal.set(key, [...(byMetal.get(key) ?? []), delay]);
   });
   const changeRows = CHANGE_KINDS.map((c) => {
     const d = delays.get(c.label)!;
@@ -219,7 +232,7 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
   rows.push(['healthy: machine (wear) incidents', fmt(per100(machine)), '', '']);
   rows.push(['healthy: sampling incidents', fmt(per100(sampling)), '', '']);
   for (const f of RULE_FAMILIES) rows.push([`  opened by ${f}`, fmt(per100(perFamily.get(f)!)), '', '']);
-  for (const k of byKind) rows.push([`  ${k.kind === "gearbox" ? "gearboxes" : "engines"} (${fmt(k.componentYears)} component-years): machine / all`, `${fmt(k.machine)} / ${fmt(k.all)}`, '', '']);
+  for (const k of byKind) rows.push([`  ${k.kind === 'gearbox' ? 'gearboxes' : 'engines'} (${fmt(k.componentYears)} component-years): machine / all`, `${fmt(k.machine)} / ${fmt(k.all)}`, '', '']);
   rows.push(['healthy components with any incident', `${noisy.size} of ${clean.length}`, '', '']);
   for (const c of changeRows) {
     rows.push([`${c.change} (${c.n}): median samples / within 3 / 5 / 15 / caught`, `${fmt(c.median)} / ${pct(c.within3)} / ${pct(c.within5)} / ${pct(c.within15)} / ${pct(c.caught)}`, '', '']);
@@ -246,7 +259,9 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
         byFamily: Object.fromEntries(RULE_FAMILIES.map((f) => [f, round(per100(perFamily.get(f)!))])),
         byKind: byKind.map((k) => ({ kind: k.kind, componentYears: round(k.componentYears), machine: round(k.machine), all: round(k.all) })),
         componentsWithIncidents: noisy.size,
+        openedBy: Object.fromEntries([...sources].sort((a, b) => b[1] - a[1])),
       },
+      changesByMetal: Object.fromEntries([...byMetal].sort().map(([k, d]) => [k, { n: d.length, median: round(median(d)), within5: round(share(d, (x) => x <= 5)), within15: round(share(d, (x) => x <= 15)) }])),
       changes: changeRows.map((c) => ({ ...c, median: round(c.median), within3: round(c.within3), within5: round(c.within5), within15: round(c.within15), caught: round(c.caught) })),
       faults: Object.fromEntries(FAULT_KINDS.map((k) => [k, faultRows.get(k)])),
       targets,
@@ -299,6 +314,16 @@ function signaturesByUnit(incidents: readonly Incident[]): Map<string, Signature
 
 function signaturesByUnitKeys(incidents: readonly Incident[]): Map<string, Set<string>> {
   return new Map([...signaturesByUnit(incidents)].map(([u, list]) => [u, new Set(list.map((s) => s.key))]));
+}
+
+/** The findings raised at the sample that opened the incident (their rule, check and measurand). */
+function openingFindings(inc: Incident): { rule: RuleFamily; check?: string; measurand: string }[] {
+  const checks = new Map(inc.evidence.map((f) => [`${f.rule}|${f.measurand}`, f.check]));
+  return inc.timeline.flatMap((e) =>
+    e.kind === 'finding' && e.change === 'raised' && e.sampleId === inc.openedBySampleId
+      ? [{ rule: e.rule, measurand: e.measurand, ...(e.rule === 'sampling' && { check: checks.get(`${e.rule}|${e.measurand}`) ?? (e.direction === 'down' ? 'rate-fall' : '?') }) }]
+      : [],
+  );
 }
 
 function openingFamilies(inc: Incident): Set<RuleFamily> {
