@@ -43,6 +43,8 @@ export interface QuietOptions {
   /** Components per like-for-like group. Default 25. */
   readonly groupSize?: number;
   readonly seed?: number;
+  /** Configuration text (YAML) to measure instead of the built-in defaults (the runner always measures the defaults). */
+  readonly configText?: string;
   /** Progress lines. */
   readonly log?: (line: string) => void;
 }
@@ -81,7 +83,7 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
   const samples = options.samples ?? 100;
   const groupSize = options.groupSize ?? 25;
   const log = options.log ?? (() => {});
-  const config = parseConfig('', 'built-in defaults');
+  const config = parseConfig(options.configText ?? '', options.configText === undefined ? 'built-in defaults' : 'configuration under test');
 
   const plans: Plan[] = [];
   for (const kindName of ['gearbox', 'engine'] as const) {
