@@ -239,6 +239,7 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
   for (const c of changeRows) {
     rows.push([`${c.change} (${c.n}): median samples / within 3 / 5 / 15 / caught`, `${fmt(c.median)} / ${pct(c.within3)} / ${pct(c.within5)} / ${pct(c.within15)} / ${pct(c.caught)}`, '', '']);
   }
+  for (const [key, d] of [...byMetal].sort()) rows.push([`  ${key} (${d.length}): median / within 5 / 15`, `${fmt(median(d))} / ${pct(share(d, (x) => x <= 5))} / ${pct(share(d, (x) => x <= 15))}`, '', '']);
   rows.push(['×2 steps and ramps: median samples to incident', fmt(doublingMedian), '≤ 3', mark(targets.doublingMedianSamples.met)]);
   rows.push(['×2 steps and ramps: share within 5 samples', pct(doublingWithin5), '≥ 90 %', mark(targets.doublingWithin5.met)]);
   rows.push(['×1.5 steps: share within 15 samples', pct(step15), '≥ 80 %', mark(targets.step15Within15.met)]);
