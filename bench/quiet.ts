@@ -89,7 +89,7 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
   for (const kindName of ['gearbox', 'engine'] as const) {
     const kind = FLEET_KINDS[kindName];
     for (let i = 0; i < perKind; i++) {
-      const base: ComponentPlan = { kind, fleetSeed: seed, index: i, group: `${kindName}s-${String(Math.floor(i / groupSize) + 1).padStart(2, '0')}`, samples };
+      const base: ComponentPlan = { kind, fleetSeed: seed, index: i, group: `${kindName === 'gearbox' ? 'gearboxes' : 'engines'}-${String(Math.floor(i / groupSize) + 1).padStart(2, '0')}`, samples };
       const pick = seededRandom(mix(seed, kindName === 'gearbox' ? 11 : 12, i));
       const role = i % 3;
       if (role === 1) {

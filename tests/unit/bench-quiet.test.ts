@@ -10,7 +10,7 @@ import { ENGINES, GEARBOXES, simulateUnit } from '../../bench/quietFleet.ts';
 import { parseResultEvent } from '../../src/domain/event.ts';
 import { seededRandom } from '../../src/simulation/random.ts';
 
-const plan = (kind = ENGINES, index = 0) => ({ kind, fleetSeed: 7, index, group: `${kind.name}s-01`, samples: 60 });
+const plan = (kind = ENGINES, index = 0) => ({ kind, fleetSeed: 7, index, group: `${kind.component}-group`, samples: 60 });
 
 describe('quiet bench fleets', () => {
   it('invented engines: valid events, lead near its detection limit reported censored, silicon steady', () => {
