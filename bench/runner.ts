@@ -2,7 +2,7 @@
  * The benchmark runner behind `npm run bench` (entry: main.ts): the benchmarks of the analysis core and of the queue pipeline. A table per part on screen; with
  * --json one JSON line per part on stdout (the tables then go to stderr). Not part of `npm test`.
  *
- *   npm run bench                       every part at the documented sizes (about 10 minutes on 2 cores)
+ *   npm run bench                       every part at the documented sizes (about 10 minutes on 2 cores, and 7–30 more for quiet)
  *   npm run bench -- --only detection   one part (repeat --only for several)
  *   npm run bench -- --scale 0.1        every size shrunk tenfold, for a quick run
  *   npm run bench -- --json             JSON lines
@@ -12,6 +12,7 @@ import { parseArgs } from 'node:util';
 import { runDesignCheck } from './designCheck.ts';
 import { runDetection } from './detection.ts';
 import { jsonLine, renderPart, type PartResult } from './report.ts';
+import { runQuiet } from './quiet.ts';
 import { runScaling } from './scaling.ts';
 import { redisServerVersion } from './pipeline.ts';
 import { runBackfill, runLatency, runThroughput } from './pipelineParts.ts';
@@ -38,6 +39,7 @@ export const PARTS: Record<string, Part> = {
       steppedComponents: at(scale, 800, 50),
     }),
   'design-check': ({ scale, seed }) => runDesignCheck({ seed, components: at(scale, 300, 40) }),
+  quiet: ({ scale, seed, log }) => runQuiet({ seed, log, componentsPerKind: at(scale, 150, 15) }),
   scaling: ({ scale, seed }) => runScaling({ seed, histories: at(scale, 5, 2), batches: at(scale, 15, 3) }),
   throughput: (o) => runThroughput(o),
   latency: (o) => runLatency(o),

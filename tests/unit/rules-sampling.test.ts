@@ -66,23 +66,85 @@ describe('sampling checks', () => {
     expect(label.at(mislabelled.sampleId).status).toBe('in-doubt');
   });
 
-  it('unit hours going backwards, one metal far below what the charge holds, a duplicated bottle, another oil', () => {
+  it('unit hours going backwards: a wrong label or a replaced hour meter', () => {
     const healthy = charge([10, 20, 30, 40, 50]);
     const back = sample(60, { unitHours: 1500, oilHours: 1500, readings: { Fe: 38, Cu: 7, Ca: 2400, Zn: 1100, P: 950, Si: 4 } });
-    expect(checks(run([...healthy, back]).sampling(back.sampleId))).toEqual(['unit-hours-back']);
+    const { at, sampling } = run([...healthy, back]);
+    expect(checks(sampling(back.sampleId))).toEqual(['unit-hours-back']);
+    expect(at(back.sampleId).status).toBe('in-doubt');
+    expect(sampling(back.sampleId)[0]!.explanation).toMatch(/Check the label/);
+  });
 
+  it('one metal far below what the charge already holds, also when the lab reports it censored', () => {
+    const healthy = charge([10, 20, 30, 40, 50]);
     const drop = sample(60, { unitHours: 2500, oilHours: 1500, readings: { Fe: 9, Cu: 7, Ca: 2400, Zn: 1100, P: 950, Si: 4 } });
     expect(checks(run([...healthy, drop]).sampling(drop.sampleId))).toEqual(['reading-drop']);
+    // "<2" says the iron is at most 2 ppm, after 32 ppm on the same charge: far below, whatever the exact value.
+    const censored = sample(60, { unitHours: 2500, oilHours: 1500, readings: { Fe: '<2', Cu: 7, Ca: 2400, Zn: 1100, P: 950, Si: 4 } });
+    const { at, sampling } = run([...healthy, censored]);
+    expect(checks(sampling(censored.sampleId))).toEqual(['reading-drop']);
+    expect(at(censored.sampleId).status).toBe('in-doubt');
+    // A censored reading near a low level is no drop: "<2" after 3 ppm of copper tells nothing.
+    const low = charge([10, 20, 30]).map((s) => ({ ...s, readings: { ...s.readings, Fe: { kind: 'value' as const, value: 3 } } }));
+    const lowCensored = sample(40, { unitHours: 2000, oilHours: 1000, readings: { Fe: '<2', Cu: 5, Ca: 2400, Zn: 1100, P: 950, Si: 4 } });
+    expect(run([...low, lowCensored]).sampling(lowCensored.sampleId)).toEqual([]);
+  });
 
+  it('a duplicated bottle: identical readings under two sample numbers', () => {
+    const healthy = charge([10, 20, 30, 40, 50]);
     const twin = sample(60, { sampleId: 'S-TWIN', unitHours: 2250, oilHours: 1250, readings: { Fe: 32, Cu: 6, Ca: 2400, Zn: 1100, P: 950, Si: 4 } });
     const duplicated = run([...healthy, twin]);
     expect(checks(duplicated.sampling('S-TWIN'))).toContain('duplicate-bottle');
     expect(duplicated.sampling('S-TWIN').find((f) => f.check === 'duplicate-bottle')!.explanation).toContain(healthy[4]!.sampleId);
+    expect(duplicated.at('S-TWIN').status).toBe('in-doubt');
+  });
 
+  it('another unit\'s sample: the additive elements do not match the charge\'s oil', () => {
+    const healthy = charge([10, 20, 30, 40, 50]);
     const foreign = sample(60, { unitHours: 2500, oilHours: 1500, readings: { Fe: 38, Cu: 7, Ca: 3900, Zn: 300, P: 950, Si: 4 } });
     const other = run([...healthy, foreign]);
     expect(checks(other.sampling(foreign.sampleId))).toEqual(['foreign-oil']);
     expect(other.at(foreign.sampleId).status).toBe('in-doubt');
+  });
+
+  it('the oil reference carries over a drain while the oil stays the same, so a short charge is judged from its second sample', () => {
+    const first = charge([10, 20, 30]);
+    const drained = sample(40, { unitHours: 2000, oilHours: 250, oilChanged: true, readings: { Fe: 9, Cu: 2, Ca: 2450, Zn: 1080, P: 960, Si: 4 } });
+    const foreign = sample(50, { unitHours: 2250, oilHours: 500, readings: { Fe: 15, Cu: 3, Ca: 3900, Zn: 300, P: 950, Si: 4 } });
+    expect(checks(run([...first, drained, foreign]).sampling(foreign.sampleId))).toEqual(['foreign-oil']);
+    // A new charge of another oil starts a reference of its own: its samples are not judged against the old oil.
+    const otherOil = (day: number, oilHours: number, oilChanged: boolean) =>
+      sample(day, { unitHours: 1750 + oilHours, oilHours, oilChanged, readings: { Fe: 4 + oilHours / 50, Cu: 1 + oilHours / 250, Ca: 3900, Zn: 300, P: 950, Si: 4 } });
+    const changed = run([...first, otherOil(40, 250, true), otherOil(50, 500, false), otherOil(60, 750, false)]);
+    expect(changed.ev.steps.flatMap((s) => s.findings).filter((f) => f.check === 'foreign-oil')).toEqual([]);
+  });
+
+  it('a new-oil bottle is recognised from one clearly shown metal when the charge\'s metals add up', () => {
+    // Copper near its detection limit: only iron shows clearly, but iron and copper together held more than 8 ppm.
+    const healthy = [10, 20, 30, 40, 50].map((day, i) =>
+      sample(day, { unitHours: 1250 + i * 250, oilHours: 250 * (i + 1), readings: { Fe: 6 + 5 * i, Cu: i < 2 ? '<1' : 1.6, Ca: 2400, Zn: 1100, P: 950, Si: 4 } }),
+    );
+    const bottle = sample(60, { unitHours: 2500, oilHours: 1500, readings: { Fe: '<1', Cu: '<1', Ca: 2400, Zn: 1100, P: 950, Si: 1 } });
+    const { at, sampling } = run([...healthy, bottle]);
+    expect(checks(sampling(bottle.sampleId))).toEqual(['new-oil-mid-charge']);
+    expect(at(bottle.sampleId).status).toBe('in-doubt');
+    // Early in a charge, with little metal to lose, readings near the detection limit are no fault.
+    const early = [sample(10, { unitHours: 1250, oilHours: 250, readings: { Fe: 3.5, Cu: '<1', Ca: 2400, Zn: 1100, P: 950, Si: 4 } })];
+    const limit = sample(20, { unitHours: 1500, oilHours: 500, readings: { Fe: '<1', Cu: '<1', Ca: 2400, Zn: 1100, P: 950, Si: 4 } });
+    expect(run([...early, limit]).sampling(limit.sampleId)).toEqual([]);
+  });
+
+  it('a wear rate falling over several samples: a sampling finding, the samples stay in the trend', () => {
+    // Iron gains 6 ppm per 250 h for eight samples (the baseline is 4 intervals), then about nothing for six (no two bottles alike).
+    const rising = Array.from({ length: 9 }, (_, i) => sample(10 * (i + 1), { unitHours: 1250 + 250 * i, oilHours: 250 * (i + 1), readings: { Fe: 8 + 6 * i, Cu: 2, Ca: 2400, Zn: 1100, P: 950, Si: 4 } }));
+    const flat = Array.from({ length: 6 }, (_, i) => sample(100 + 10 * i, { unitHours: 3500 + 250 * i, oilHours: 2500 + 250 * i, readings: { Fe: 56.5 + 0.5 * i, Cu: 2, Ca: 2400, Zn: 1100, P: 950, Si: 4 } }));
+    const { ev } = run([...rising, ...flat]);
+    const falls = ev.steps.flatMap((s) => s.findings).filter((f) => f.check === 'rate-fall');
+    expect(falls.length).toBeGreaterThan(0);
+    expect(falls[0]).toMatchObject({ rule: 'sampling', measurand: 'Fe', direction: 'down', disposition: 'incident' });
+    expect(falls.every((f) => flat.some((s) => s.sampleId === f.sampleId))).toBe(true);
+    // A genuine event, not a suspect bottle: the samples are not put in doubt.
+    expect(ev.steps.every((s) => s.status === undefined)).toBe(true);
   });
 
   it('holds the other findings of a sample in doubt, and counts them once a responder confirms it', () => {

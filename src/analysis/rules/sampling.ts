@@ -43,6 +43,8 @@ const FINGERPRINTS_KEPT = 12;
 const ADDITIVE_REFERENCE = 5;
 /** A wear metal this high (ppm) on the previous sample is expected to show again on the same charge. */
 const NEW_OIL_FROM = 3;
+/** The wear metals the charge shows must add up to at least this (ppm) before a sample reading like new oil is judged. */
+const NEW_OIL_TOTAL = 8;
 /** "Near zero": at most this share of the previous reading (or 1 ppm). */
 const NEW_OIL_SHARE = 0.25;
 /** A single metal falling below this share of what the charge held, and beyond 4 lab standard deviations. */
@@ -147,9 +149,13 @@ export function samplingChecks(input: SampleInput, track: SamplingTrack, ctx: Sa
   }
 
   if (ctx.continuesCharge && last !== undefined) {
-    const compared = WEAR.filter((m) => (last.wear[m] ?? 0) >= NEW_OIL_FROM && valueOf(s.readings[m]) !== undefined);
-    const nearZero = compared.filter((m) => valueOf(s.readings[m])! <= Math.max(1, NEW_OIL_SHARE * last.wear[m]!));
-    if (compared.length >= 2 && nearZero.length === compared.length) {
+    // Every metal the charge already shows (from NEW_OIL_FROM / 2) must read near zero; together they held at least
+    // NEW_OIL_TOTAL ppm, and one of them at least NEW_OIL_FROM, so a sample near the detection limit throughout stays clear.
+    const shown = WEAR.filter((m) => (last.wear[m] ?? 0) >= NEW_OIL_FROM / 2 && valueOf(s.readings[m]) !== undefined);
+    const compared = shown.filter((m) => last.wear[m]! >= NEW_OIL_FROM);
+    const nearZero = shown.filter((m) => valueOf(s.readings[m])! <= Math.max(1, NEW_OIL_SHARE * last.wear[m]!));
+    const held = shown.reduce((sum, m) => sum + last.wear[m]!, 0);
+    if (compared.length >= 1 && held >= NEW_OIL_TOTAL && nearZero.length === shown.length) {
       const list = compared.map((m) => `${m} ${readingText(m, s.readings[m]!)} after ${quantity(m, last.wear[m]!)}`).join(', ');
       add(
         'new-oil-mid-charge',
@@ -165,7 +171,8 @@ export function samplingChecks(input: SampleInput, track: SamplingTrack, ctx: Sa
     } else {
       for (const m of WEAR) {
         const p = last.wear[m];
-        const x = s.readings[m]?.kind === 'value' ? (s.readings[m] as { value: number }).value : undefined;
+        // A censored "<x" reading counts by its bound: the metal is at most x.
+        const x = belowOrAt(s.readings[m]);
         if (p === undefined || x === undefined || p < DROP_FROM) continue;
         const expected = ctx.carryOver(m) * p;
         const sd = Math.sqrt(labVariance(input.settings.detection.labNoise, expected) + labVariance(input.settings.detection.labNoise, x));
@@ -228,7 +235,7 @@ export function advanceSampling(track: SamplingTrack, sample: Sample, accepted: 
     const v = valueOf(sample.readings[m]);
     if (v !== undefined) wear[m] = v;
   }
-  const additives: Partial<Record<Measurand, number[]>> = newCharge ? {} : { ...(track.additives as Partial<Record<Measurand, number[]>>) };
+  const additives: Partial<Record<Measurand, number[]>> = newCharge && !sameOil(track.additives, sample) ? {} : { ...(track.additives as Partial<Record<Measurand, number[]>>) };
   for (const m of ADDITIVES) {
     const v = valueOf(sample.readings[m]);
     if (v !== undefined) additives[m] = [...(additives[m] ?? []), v].slice(-ADDITIVE_REFERENCE);
@@ -245,12 +252,38 @@ export function advanceSampling(track: SamplingTrack, sample: Sample, accepted: 
   };
 }
 
+/**
+ * Whether the first sample of a new charge shows the oil of the reference (every additive element compared within
+ * ADDITIVE_SHARE): then the reference carries over the drain, so that a short charge is judged from its second sample
+ * on; a charge of another oil starts a reference of its own.
+ */
+function sameOil(reference: SamplingTrack['additives'], sample: Sample): boolean {
+  let compared = 0;
+  for (const m of ADDITIVES) {
+    const history = reference[m];
+    const x = valueOf(sample.readings[m]);
+    if (history === undefined || history.length === 0 || x === undefined) continue;
+    const ref = median(history);
+    if (Math.max(ref, x) < 100) continue;
+    if (Math.abs(x - ref) > ADDITIVE_SHARE * Math.max(ref, 100)) return false;
+    compared += 1;
+  }
+  return compared > 0;
+}
+
 /** Readings that identify a bottle: at least four, three of them measured above zero. */
 function fingerprint(s: Sample): string | undefined {
   const entries = Object.entries(s.readings).sort(([a], [b]) => (a < b ? -1 : 1));
   const measured = entries.filter(([, r]) => r !== undefined && r.kind === 'value' && r.value > 0).length;
   if (entries.length < 4 || measured < 3) return undefined;
   return JSON.stringify(entries);
+}
+
+/** A reading's value, or the bound of a "<x" reading (the value is at most x); undefined for ">x" and codes. */
+function belowOrAt(r: Reading | undefined): number | undefined {
+  if (r === undefined) return undefined;
+  if (r.kind === 'value') return r.value;
+  return r.kind === 'censored' && r.bound === 'below' ? r.limit : undefined;
 }
 
 function valueOf(r: Reading | undefined): number | undefined {
