@@ -18,7 +18,8 @@
  *
  * A change is caught at the first sample from the change on at which a machine incident is opened or escalated on the
  * changed metal (a finding of a non-sampling family raised, or its severity changed, on that metal) that the clean
- * twin does not have at the same sample. Delay: samples from the first sample after the change start (1: that sample).
+ * twin does not have at the same sample. Delay: samples from the first sample after the rate has doubled (a step at
+ * once, a ramp at its end; 1: that sample; a ramp caught while still rising counts as 1).
  * A fault is flagged when its sample carries a `sampling` finding; it opens a wear incident when, within the fault's
  * sample and the next 5, a machine incident is opened or escalated that the clean twin does not have.
  */
@@ -169,13 +170,16 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
   plans.forEach((p, i) => {
     if (p.change === undefined) return;
     const u = injected[i]!;
-    const { measurand, atHours } = p.change.spec;
-    const first = u.hours.findIndex((h) => h > atHours);
+    const { measurand, atHours, rampHours } = p.change.spec;
+    // A step doubles the rate at once; a ramp reaches the doubling at its end. Delays count from the first sample
+    // after the doubling is reached; a ramp caught while still rising counts as caught at that first sample.
+    const first = u.hours.findIndex((h) => h > atHours + (rampHours ?? 0));
+    const start = u.hours.findIndex((h) => h > atHours);
     const before = cleanSignatures.get(u.unit) ?? new Set<string>();
     const found = (injectedSignatures.get(u.unit) ?? []).filter((s) => s.measurand === measurand && s.rule !== 'sampling' && !before.has(s.key));
     const index = new Map(u.events.map((e, j) => [e.sampleId, j]));
-    const at = Math.min(...found.map((s) => index.get(s.sampleId) ?? Infinity).filter((j) => j >= first));
-    const delay = Number.isFinite(at) ? at - first + 1 : Infinity;
+    const at = Math.min(...found.map((s) => index.get(s.sampleId) ?? Infinity).filter((j) => j >= start));
+    const delay = Number.isFinite(at) ? Math.max(1, at - first + 1) : Infinity;
     delays.get(p.change.label)!.push(delay);
     const key = `${p.change.label} ${u.kind} ${measurand}`;
     byMetal.set(key, [...(byMetal.get(key) ?? []), delay]);
