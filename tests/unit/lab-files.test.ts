@@ -217,3 +217,12 @@ describe('mapping file', () => {
     );
   });
 });
+
+describe('mapping reference', () => {
+  it('README lab mapping reference equals the one generated from the zod schema (run `npm run docs` after a change)', async () => {
+    const { withMappingReference } = await import('../../src/intake/labFiles/mappingReference.ts');
+    const readme = readFileSync('README.md', 'utf8');
+    expect(withMappingReference(readme)).toBe(readme);
+    expect(readme).toContain('| `charge.column` | string |');
+  });
+});

@@ -57,11 +57,11 @@ export const LabMappingSchema = z
     charge: z
       .object({
         column: columnName.describe('The charge (oil-fill) number column.'),
-        firstRow: z.enum(['same', 'changed']).default('same').describe('What the first row of a component in the file counts as: same = the charge it was already on, changed = a new charge.'),
+        firstRow: z.enum(['same', 'changed']).default('same').describe('What the first sample of a component in the file counts as: same = the charge it was already on, changed = a new charge.'),
       })
       .strict()
       .optional()
-      .describe('A charge-number column sets oilChanged when the number changes from the previous row of the same unit and component; a number going backwards is an error.'),
+      .describe('A charge-number column sets oilChanged when the number differs from the last accepted sample of the same unit and component in the file; a number going backwards is an error (rows in sampling order).'),
     measurands: z
       .array(
         z
