@@ -6,6 +6,7 @@ import { z } from 'zod';
 import { MEASURAND_NAMES, type Measurand } from './measurands.ts';
 import { parseReading } from './reading.ts';
 import { ChannelsSchema, EscalationSchema, escalationChannelIssues, IncidentsConfigSchema } from './escalationConfig.ts';
+import { OpcuaConfigSchema } from './opcuaConfig.ts';
 
 const measurandName = z.enum(MEASURAND_NAMES as [Measurand, ...Measurand[]], { error: (i) => `unknown measurand "${String(i.input)}"` });
 const positive = z.number().finite().positive();
@@ -209,6 +210,7 @@ export const ConfigSchema = z
     incidents: IncidentsConfigSchema.default(IncidentsConfigSchema.parse({})),
     escalation: EscalationSchema.default({ policies: [] }),
     channels: ChannelsSchema.default({ webhooks: [], mqtt: [] }),
+    opcua: OpcuaConfigSchema.optional().describe('The OPC UA Alarms & Conditions server for control rooms (see the README).'),
   })
   .strict()
   .superRefine((c, ctx) => {
