@@ -5,7 +5,9 @@
  */
 import type { Queue } from 'bullmq';
 import type { Config } from '../domain/config.ts';
-import { createEventHub } from '../http/eventHub.ts';
+import { announcingActions, createEventHub } from '../http/eventHub.ts';
+import { OpcuaConfigSchema } from '../domain/opcuaConfig.ts';
+import { OpcuaAlarmServer } from '../opcua/alarmServer.ts';
 import { buildServer } from '../http/server.ts';
 import { incidentRules } from '../incidents/policy.ts';
 import { createResultProducer } from '../intake/producer.ts';
@@ -37,6 +39,8 @@ export interface ServiceOptions {
   readonly metricsPort?: number;
   readonly workerSettings?: WorkerSettings;
   readonly env?: NodeJS.ProcessEnv;
+  /** Start the OPC UA alarm server on this port (overrides `opcua.port`); with `http` only. */
+  readonly opcuaPort?: number;
 }
 
 export interface RunningServices {
@@ -142,12 +146,13 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
       subscriber.once('ready', () => void bridgeLiveEvents(subscriber, prefix, hub, logger).catch((e: Error) => logger.warn({ err: e.message }, 'live events unavailable')));
       const ackSecretEnv = config.channels.ackLinks?.secretEnv;
       const ackLinkSecrets = ackSecretEnv === undefined ? [] : (env[ackSecretEnv] ?? '').split(',').map((x) => x.trim()).filter((x) => x !== '');
+      const incidents = new RedisIncidents(request, { rules: incidentRules(config), prefix, partitions: partitionCount });
       server = await buildServer({
         logger,
         metrics,
         ping,
         producer,
-        incidents: new RedisIncidents(request, { rules: incidentRules(config), prefix, partitions: partitionCount }),
+        incidents,
         histories: (() => {
           const store = new RedisStore(request, { prefix, partitions: partitionCount, config });
           return { store, ledger: store, config };
@@ -157,6 +162,18 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
         announce: livePublisher(request, prefix, logger),
       });
       stopHttp.push({ name: 'result producer', close: () => producer.close() });
+      if (options.opcuaPort !== undefined || config.opcua?.port !== undefined) {
+        const opcua = new OpcuaAlarmServer({
+          config: config.opcua ?? OpcuaConfigSchema.parse({}),
+          ...(options.opcuaPort !== undefined && { port: options.opcuaPort }),
+          store: announcingActions(incidents, livePublisher(request, prefix, logger)),
+          subscribe: (listener) => hub.subscribe((event) => listener(event)),
+          logger,
+          env,
+        });
+        stopHttp.unshift({ name: 'opc ua', close: () => opcua.stop() });
+        logger.info({ url: await opcua.start() }, 'OPC UA alarm server listening');
+      }
     } else {
       server = await buildServer({ logger, metrics, ping });
     }
