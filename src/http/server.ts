@@ -16,6 +16,7 @@ import { ackLinkRoutes } from './ackLinkRoutes.ts';
 import { announcingActions, type EventHub, type LiveEvent } from './eventHub.ts';
 import { eventRoutes } from './eventRoutes.ts';
 import { boardRoutes } from './boardRoutes.ts';
+import { contractRoutes } from './contractRoutes.ts';
 import { healthRoutes } from './healthRoutes.ts';
 import { incidentRoutes } from './incidentRoutes.ts';
 import { metricsRoute } from './metrics.ts';
@@ -49,6 +50,7 @@ export async function buildServer(options: ServerOptions) {
   const bodyLimit = options.bodyLimitBytes ?? DEFAULT_BODY_LIMIT_BYTES;
   const app = Fastify({ loggerInstance: options.logger, bodyLimit });
   await app.register(healthRoutes, { ping: options.ping });
+  await app.register(contractRoutes);
   await app.register(metricsRoute, { metrics: options.metrics, ...(options.metricsPublic !== undefined && { public: options.metricsPublic }) });
   if (options.producer !== undefined) await app.register(resultRoutes, { producer: options.producer, metrics: options.metrics, bodyLimitBytes: bodyLimit });
   if (options.hub !== undefined) await app.register(eventRoutes, { hub: options.hub });

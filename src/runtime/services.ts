@@ -7,7 +7,6 @@ import type { Queue } from 'bullmq';
 import type { Config } from '../domain/config.ts';
 import { announcingActions, createEventHub } from '../http/eventHub.ts';
 import { OpcuaConfigSchema } from '../domain/opcuaConfig.ts';
-import { OpcuaAlarmServer } from '../opcua/alarmServer.ts';
 import { buildServer } from '../http/server.ts';
 import { incidentRules } from '../incidents/policy.ts';
 import { createResultProducer } from '../intake/producer.ts';
@@ -163,6 +162,8 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
       });
       stopHttp.push({ name: 'result producer', close: () => producer.close() });
       if (options.opcuaPort !== undefined || config.opcua?.port !== undefined) {
+        // Loaded only when asked for: the OPC UA stack is large, and every other command starts faster without it.
+        const { OpcuaAlarmServer } = await import('../opcua/alarmServer.ts');
         const opcua = new OpcuaAlarmServer({
           config: config.opcua ?? OpcuaConfigSchema.parse({}),
           ...(options.opcuaPort !== undefined && { port: options.opcuaPort }),

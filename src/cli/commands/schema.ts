@@ -1,4 +1,4 @@
-/** `wearshift schema`: writes the JSON Schemas of the result event, the configuration and the lab mapping for integrators. */
+/** `wearshift schema`: writes the JSON Schemas of the result event, the configuration and the lab mapping, the OpenAPI document of the HTTP API and the AsyncAPI document of the webhook and MQTT events, for integrators. */
 import { mkdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Command } from 'commander';
@@ -6,6 +6,8 @@ import { z } from 'zod';
 import { ConfigSchema } from '../../domain/config.ts';
 import { ResultEventSchema } from '../../domain/event.ts';
 import { LabMappingSchema } from '../../intake/labFiles/mappingSchema.ts';
+import { asyncApiDocument } from '../../contracts/asyncapi.ts';
+import { openApiDocument } from '../../contracts/openapi.ts';
 
 export function publishedSchemas(): Record<string, unknown> {
   return {
@@ -24,13 +26,15 @@ export function publishedSchemas(): Record<string, unknown> {
       title: 'wearshift lab mapping',
       ...z.toJSONSchema(LabMappingSchema, { io: 'input', unrepresentable: 'any' }),
     },
+    'openapi.json': openApiDocument(),
+    'asyncapi.json': asyncApiDocument(),
   };
 }
 
 export function registerSchema(program: Command): void {
   program
     .command('schema')
-    .description('write the JSON Schemas of the result event, the configuration and the lab mapping')
+    .description('write the JSON Schemas of the result event, the configuration and the lab mapping, and the OpenAPI and AsyncAPI documents')
     .option('--out <dir>', 'directory to write into', 'schemas')
     .action((opts: { out: string }) => writeSchemas(opts.out));
 }
