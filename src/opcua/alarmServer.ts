@@ -134,6 +134,8 @@ export class OpcuaAlarmServer {
     await this.enqueue(() => this.refreshAll());
     this.unsubscribe = this.options.subscribe?.((event) => {
       if (event.type === 'incident') void this.enqueue(() => this.refresh(event.incidentId));
+      // A component appears in the address space with its first result (or its first open incident).
+      else void this.enqueue(async () => void this.component(event.unit, event.component));
     });
     this.timer = setInterval(() => void this.enqueue(() => this.refreshAll()), c.refreshSeconds * 1000);
     this.timer.unref();
