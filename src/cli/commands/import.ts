@@ -102,7 +102,8 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
         const parsed = validateResult(r.record, { now: Date.now() });
         if (parsed.ok) {
           counts.accepted += 1;
-          batch.push(r.record);
+          // A dry run keeps nothing: memory stays flat however long the file.
+          if (producer !== undefined) batch.push(r.record);
           if (batch.length >= batchSize) await flush();
         } else report(r.line, claimedSampleId(r.record), parsed.issues);
       }

@@ -71,8 +71,10 @@ export async function importLabFile(file: string, opts: LabImportOptions): Promi
           if (opts.json) writeJsonLine({ type: 'mapped', row: r.row, event: r.event });
           else process.stdout.write(`row ${r.row} → ${JSON.stringify(r.event)}\n`);
         }
-        batch.push(r.event);
-        if (batch.length >= opts.batchSize) await flush();
+        if (producer !== undefined) {
+          batch.push(r.event);
+          if (batch.length >= opts.batchSize) await flush();
+        }
       }
       progress?.update(stream.bytesRead, { accepted: counts.accepted, rejected: counts.rejected });
     }

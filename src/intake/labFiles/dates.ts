@@ -98,8 +98,16 @@ export function toEpoch(w: WallClock, zone: string): number {
   return t;
 }
 
+/** Formatters are costly to build (about a millisecond each): one per zone, kept. */
+const FORMATTERS = new Map<string, Intl.DateTimeFormat>();
+
 function zoneOffsetMs(epoch: number, zone: string): number {
-  const parts = new Intl.DateTimeFormat('en-US', { timeZone: zone, hourCycle: 'h23', year: 'numeric', month: 'numeric', day: 'numeric', hour: 'numeric', minute: 'numeric', second: 'numeric' }).formatToParts(new Date(epoch));
+  let formatter = FORMATTERS.get(zone);
+  if (formatter === undefined) {
+    formatter = new Intl.DateTimeFormat('en-US', { timeZone: zone, hourCycle: 'h23', year: 'numeric', month: 'numeric', day: 'numeric', hour: 'numeric', minute: 'numeric', second: 'numeric' });
+    FORMATTERS.set(zone, formatter);
+  }
+  const parts = formatter.formatToParts(new Date(epoch));
   const get = (type: string) => Number(parts.find((p) => p.type === type)?.value);
   return Date.UTC(get('year'), get('month') - 1, get('day'), get('hour'), get('minute'), get('second')) - Math.floor(epoch / 1000) * 1000;
 }
@@ -114,6 +122,17 @@ const ISO_LOCAL = compileFormat('YYYY-MM-DDTHH:mm:ss');
 const ISO_LOCAL_MIN = compileFormat('YYYY-MM-DDTHH:mm');
 const ISO_DATE = compileFormat('YYYY-MM-DD');
 
+const COMPILED = new Map<string, CompiledFormat>();
+
+function compiled(format: string): CompiledFormat {
+  let c = COMPILED.get(format);
+  if (c === undefined) {
+    c = compileFormat(format);
+    if (COMPILED.size < 100) COMPILED.set(format, c);
+  }
+  return c;
+}
+
 /** Reads text with the mapping's formats ("iso" included); epoch ms or undefined. */
 export function readDate(text: string, formats: readonly string[], zone: string): number | undefined {
   const t = text.trim();
@@ -124,7 +143,7 @@ export function readDate(text: string, formats: readonly string[], zone: string)
       if (w) return toEpoch(w, zone);
       continue;
     }
-    const w = readWallClock(t, [compileFormat(f)]);
+    const w = readWallClock(t, [compiled(f)]);
     if (w) return toEpoch(w, zone);
   }
   return undefined;
