@@ -22,9 +22,11 @@ export const LAYERS = {
   queue: ['domain', 'analysis', 'incidents', 'intake', 'pipeline', 'redis', 'charts', 'notify', 'channels', 'telemetry'],
   http: ['domain', 'analysis', 'incidents', 'intake', 'pipeline', 'charts', 'notify', 'channels', 'telemetry'],
   backtest: ['domain', 'analysis', 'simulation', 'incidents', 'intake', 'pipeline', 'charts', 'notify', 'channels', 'telemetry'],
-  runtime: ['domain', 'analysis', 'incidents', 'intake', 'pipeline', 'redis', 'charts', 'notify', 'channels', 'queue', 'http', 'telemetry'],
-  demo: ['domain', 'analysis', 'simulation', 'incidents', 'intake', 'pipeline', 'redis', 'charts', 'notify', 'channels', 'queue', 'http', 'telemetry', 'runtime'],
-  cli: ['domain', 'analysis', 'simulation', 'incidents', 'intake', 'pipeline', 'redis', 'charts', 'notify', 'channels', 'queue', 'http', 'telemetry', 'runtime', 'backtest', 'demo'],
+  contracts: ['domain', 'analysis', 'incidents', 'intake', 'pipeline', 'charts', 'notify', 'channels', 'http', 'telemetry'],
+  opcua: ['domain', 'analysis', 'incidents', 'intake', 'pipeline', 'notify', 'http', 'telemetry'],
+  runtime: ['domain', 'analysis', 'incidents', 'intake', 'pipeline', 'redis', 'charts', 'notify', 'channels', 'queue', 'http', 'contracts', 'opcua', 'telemetry'],
+  demo: ['domain', 'analysis', 'simulation', 'incidents', 'intake', 'pipeline', 'redis', 'charts', 'notify', 'channels', 'queue', 'http', 'telemetry', 'runtime', 'contracts', 'opcua'],
+  cli: ['domain', 'analysis', 'simulation', 'incidents', 'intake', 'pipeline', 'redis', 'charts', 'notify', 'channels', 'queue', 'http', 'telemetry', 'runtime', 'contracts', 'opcua', 'backtest', 'demo'],
   board: [],
 };
 

@@ -7,6 +7,7 @@ import { MEASURAND_NAMES, type Measurand } from './measurands.ts';
 import { parseReading } from './reading.ts';
 import { AlarmFiguresSchema } from './alarmFiguresConfig.ts';
 import { ChannelsSchema, EscalationSchema, escalationChannelIssues, IncidentsConfigSchema } from './escalationConfig.ts';
+import { OpcuaConfigSchema } from './opcuaConfig.ts';
 
 const measurandName = z.enum(MEASURAND_NAMES as [Measurand, ...Measurand[]], { error: (i) => `unknown measurand "${String(i.input)}"` });
 const positive = z.number().finite().positive();
@@ -211,6 +212,7 @@ export const ConfigSchema = z
     alarmFigures: AlarmFiguresSchema.default(AlarmFiguresSchema.parse({})).describe('Thresholds of the alarm-management key figures (ISA-18.2 / IEC 62682, EEMUA 191) in backtest, design noise and /metrics.'),
     escalation: EscalationSchema.default({ policies: [] }),
     channels: ChannelsSchema.default({ webhooks: [], mqtt: [] }),
+    opcua: OpcuaConfigSchema.optional().describe('The OPC UA Alarms & Conditions server for control rooms (see the README).'),
   })
   .strict()
   .superRefine((c, ctx) => {

@@ -28,33 +28,33 @@ const by = z.string().trim().min(1, 'required').max(80, 'at most 80 characters')
 const text = (max: number) => z.string().trim().min(1, 'required').max(max, `at most ${max} characters`);
 const instant = z.iso.datetime({ offset: true, message: 'expected an ISO 8601 date-time with a time zone, such as 2026-03-01T18:00:00Z' });
 
-const BODIES = {
+export const INCIDENT_ACTION_BODIES = {
   ack: z.object({ by, note: text(2000).optional() }).strict(),
   shelve: z.object({ by, until: instant, reason: text(500) }).strict(),
   unshelve: z.object({ by }).strict(),
   resolve: z.object({ by, note: text(2000) }).strict(),
   note: z.object({ by, note: text(2000) }).strict(),
 } as const;
-type Verb = keyof typeof BODIES;
+type Verb = keyof typeof INCIDENT_ACTION_BODIES;
 
 function toAction(verb: Verb, incidentId: string, body: unknown, now: Date): IncidentAction | z.ZodError {
   const base = { incidentId, now };
   switch (verb) {
     case 'ack': {
-      const b = BODIES.ack.safeParse(body);
+      const b = INCIDENT_ACTION_BODIES.ack.safeParse(body);
       return b.success ? { kind: 'acknowledge', ...base, by: b.data.by, ...(b.data.note !== undefined && { note: b.data.note }) } : b.error;
     }
     case 'shelve': {
-      const b = BODIES.shelve.safeParse(body);
+      const b = INCIDENT_ACTION_BODIES.shelve.safeParse(body);
       return b.success ? { kind: 'shelve', ...base, by: b.data.by, until: new Date(b.data.until), reason: b.data.reason } : b.error;
     }
     case 'unshelve': {
-      const b = BODIES.unshelve.safeParse(body);
+      const b = INCIDENT_ACTION_BODIES.unshelve.safeParse(body);
       return b.success ? { kind: 'unshelve', ...base, by: b.data.by } : b.error;
     }
     case 'resolve':
     case 'note': {
-      const b = BODIES[verb].safeParse(body);
+      const b = INCIDENT_ACTION_BODIES[verb].safeParse(body);
       return b.success ? { kind: verb, ...base, by: b.data.by, note: b.data.note } : b.error;
     }
   }
@@ -89,7 +89,7 @@ export const incidentRoutes: FastifyPluginAsync<IncidentRoutesOptions> = async (
     return { incident };
   });
 
-  for (const verb of Object.keys(BODIES) as Verb[]) {
+  for (const verb of Object.keys(INCIDENT_ACTION_BODIES) as Verb[]) {
     app.post<{ Params: { id: string } }>(`/v1/incidents/:id/${verb}`, act, async (request, reply) => {
       const action = toAction(verb, request.params.id, request.body, now());
       if (action instanceof z.ZodError) return invalid(reply, 'body', action);

@@ -16,6 +16,7 @@ import { ackLinkRoutes } from './ackLinkRoutes.ts';
 import { announcingActions, type EventHub, type LiveEvent } from './eventHub.ts';
 import { eventRoutes } from './eventRoutes.ts';
 import { boardRoutes } from './boardRoutes.ts';
+import { contractRoutes } from './contractRoutes.ts';
 import { healthRoutes } from './healthRoutes.ts';
 import { incidentRoutes } from './incidentRoutes.ts';
 import { metricsRoute } from './metrics.ts';
@@ -38,6 +39,8 @@ export interface ServerOptions {
   readonly incidents?: IncidentRoutesStore;
   /** Stored histories, group statistics and the configuration, for the series and chart routes. */
   readonly histories?: { readonly store: ComponentStore; readonly ledger: GroupLedger; readonly config: Config };
+  /** The OpenAPI document served at GET /openapi.json (src/contracts/openapi.ts); without it, no such route. */
+  readonly openApi?: object;
   /** Takes a responder's verdict on a sample in doubt, for POST …/samples/:sampleId/verdict. */
   readonly sampleVerdicts?: SampleVerdictTaker;
   /** Live events, for GET /v1/events. */
@@ -52,6 +55,7 @@ export async function buildServer(options: ServerOptions) {
   const bodyLimit = options.bodyLimitBytes ?? DEFAULT_BODY_LIMIT_BYTES;
   const app = Fastify({ loggerInstance: options.logger, bodyLimit });
   await app.register(healthRoutes, { ping: options.ping });
+  if (options.openApi !== undefined) await app.register(contractRoutes, { openApi: options.openApi });
   await app.register(metricsRoute, { metrics: options.metrics, ...(options.metricsPublic !== undefined && { public: options.metricsPublic }) });
   if (options.producer !== undefined) await app.register(resultRoutes, { producer: options.producer, metrics: options.metrics, bodyLimitBytes: bodyLimit });
   if (options.hub !== undefined) await app.register(eventRoutes, { hub: options.hub });

@@ -75,14 +75,14 @@ export async function* csvRecords(input: Readable): AsyncIterable<SourceRecord> 
   }
 }
 
-type ParsedRow = { record: string[]; line: number } | { error: string; line: number };
+export type ParsedRow = { record: string[]; line: number } | { error: string; line: number };
 
 /**
  * The parser's rows, then its error if any. A stream's own async iterator drops rows still buffered when the
  * stream fails, and every row before a syntax error must still be imported or reported.
  */
-async function* parsedRows(input: Readable): AsyncIterable<ParsedRow> {
-  const parser = input.pipe(parse({ bom: true, relax_column_count: true, skip_empty_lines: true, trim: true, info: true }));
+export async function* parsedRows(input: Readable, options: { delimiter?: string; skip_empty_lines?: boolean } = {}): AsyncIterable<ParsedRow> {
+  const parser = input.pipe(parse({ bom: true, relax_column_count: true, skip_empty_lines: true, trim: true, ...options, info: true }));
   const queue: ParsedRow[] = [];
   let finished = false;
   let wake: (() => void) | undefined;

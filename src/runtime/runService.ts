@@ -10,6 +10,7 @@ export interface ServiceCommandOptions {
   port?: string;
   metricsPort?: string;
   shutdownTimeout?: string;
+  opcuaPort?: string;
 }
 
 export type ServiceKind = 'serve' | 'worker' | 'api';
@@ -34,6 +35,7 @@ export async function runService(kind: ServiceKind, opts: ServiceCommandOptions,
     port,
     env,
     ...(opts.metricsPort !== undefined && { metricsPort: portNumber(opts.metricsPort, '--metrics-port') }),
+    ...(opts.opcuaPort !== undefined && { opcuaPort: portNumber(opts.opcuaPort, '--opcua-port') }),
   });
   if (running.url !== undefined) logger.info({ url: running.url }, 'listening');
   onShutdownSignals(running.closers, { logger, timeoutMs });

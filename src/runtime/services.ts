@@ -5,7 +5,8 @@
  */
 import type { Queue } from 'bullmq';
 import type { Config } from '../domain/config.ts';
-import { createEventHub } from '../http/eventHub.ts';
+import { announcingActions, createEventHub } from '../http/eventHub.ts';
+import { OpcuaConfigSchema } from '../domain/opcuaConfig.ts';
 import { buildServer } from '../http/server.ts';
 import { incidentRules } from '../incidents/policy.ts';
 import { createResultProducer } from '../queue/producer.ts';
@@ -14,6 +15,7 @@ import { notificationChannels } from '../channels/openChannels.ts';
 import { configuredChannels } from '../channels/registry.ts';
 import { openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings } from '../queue/queues.ts';
 import { Partitions } from '../redis/keys.ts';
+import { openApiDocument } from '../contracts/openapi.ts';
 import { SampleVerdicts } from '../queue/sampleVerdicts.ts';
 import { startWorkers, type WorkerSettings } from '../queue/workers.ts';
 import { RedisIncidents } from '../redis/redisIncidents.ts';
@@ -42,6 +44,8 @@ export interface ServiceOptions {
   readonly metricsPort?: number;
   readonly workerSettings?: WorkerSettings;
   readonly env?: NodeJS.ProcessEnv;
+  /** Start the OPC UA alarm server on this port (overrides `opcua.port`); with `http` only. */
+  readonly opcuaPort?: number;
 }
 
 export interface RunningServices {
@@ -154,12 +158,14 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
       const ackSecretEnv = config.channels.ackLinks?.secretEnv;
       const ackLinkSecrets = ackSecretEnv === undefined ? [] : (env[ackSecretEnv] ?? '').split(',').map((x) => x.trim()).filter((x) => x !== '');
       const httpStore = new RedisStore(request, { prefix, partitions: partitionCount, config });
+      const incidents = new RedisIncidents(request, { rules: incidentRules(config), prefix, partitions: partitionCount });
       server = await buildServer({
         logger,
         metrics,
         ping,
+        openApi: openApiDocument(),
         producer,
-        incidents: new RedisIncidents(request, { rules: incidentRules(config), prefix, partitions: partitionCount }),
+        incidents,
         histories: { store: httpStore, ledger: httpStore, config },
         sampleVerdicts: new SampleVerdicts(httpStore, evaluateQueues, partitions),
         hub,
@@ -167,6 +173,20 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
         announce: livePublisher(request, prefix, logger),
       });
       stopHttp.push({ name: 'result producer', close: () => producer.close() });
+      if (options.opcuaPort !== undefined || config.opcua?.port !== undefined) {
+        // Loaded only when asked for: the OPC UA stack is large, and every other command starts faster without it.
+        const { OpcuaAlarmServer } = await import('../opcua/alarmServer.ts');
+        const opcua = new OpcuaAlarmServer({
+          config: config.opcua ?? OpcuaConfigSchema.parse({}),
+          ...(options.opcuaPort !== undefined && { port: options.opcuaPort }),
+          store: announcingActions(incidents, livePublisher(request, prefix, logger)),
+          subscribe: (listener) => hub.subscribe((event) => listener(event)),
+          logger,
+          env,
+        });
+        stopHttp.unshift({ name: 'opc ua', close: () => opcua.stop() });
+        logger.info({ url: await opcua.start() }, 'OPC UA alarm server listening');
+      }
     } else {
       server = await buildServer({ logger, metrics, ping });
     }

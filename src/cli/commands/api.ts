@@ -8,6 +8,7 @@ export function registerApi(program: Command): void {
     .description('run the HTTP API only; results are queued for workers started with `wearshift worker`')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--port <n>', 'HTTP port (default: PORT, else 8080)')
+    .option('--opcua-port <n>', 'also serve OPC UA Alarms & Conditions on this opc.tcp port (default: opcua.port of the configuration, else off)')
     .option('--shutdown-timeout <seconds>', 'longest wait for open requests and connections at shutdown', '10')
     .action((opts: ServiceCommandOptions) => runService('api', opts));
 }

@@ -1,17 +1,18 @@
-/** `wearshift docs`: regenerates the README's configuration reference and the published JSON Schemas. */
+/** `wearshift docs`: regenerates the README's configuration and lab mapping references and the published JSON Schemas. */
 import { readFileSync, writeFileSync } from 'node:fs';
 import type { Command } from 'commander';
 import { withConfigReference } from '../../domain/configReference.ts';
+import { withMappingReference } from '../../intake/labFiles/mappingReference.ts';
 import { writeSchemas } from './schema.ts';
 
 export function registerDocs(program: Command): void {
   program
     .command('docs')
-    .description('rewrite the configuration reference in README.md and the JSON Schemas in schemas/ from the code')
+    .description('rewrite the configuration and lab mapping references in README.md and the JSON Schemas in schemas/ from the code')
     .option('--readme <file>', 'README to update', 'README.md')
     .option('--schemas <dir>', 'directory for the JSON Schemas', 'schemas')
     .action((opts: { readme: string; schemas: string }) => {
-      writeFileSync(opts.readme, withConfigReference(readFileSync(opts.readme, 'utf8')));
+      writeFileSync(opts.readme, withMappingReference(withConfigReference(readFileSync(opts.readme, 'utf8'))));
       process.stdout.write(`${opts.readme}\n`);
       writeSchemas(opts.schemas);
     });

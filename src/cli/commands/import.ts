@@ -14,6 +14,7 @@ import { createResultProducer, type ResultProducer } from '../../queue/producer.
 import { claimedSampleId, validateResult } from '../../intake/validate.ts';
 import { closeQuietly, connectForCommand, redisUrl } from '../../redis/connection.ts';
 import { writeJsonLine } from '../output.ts';
+import { importLabFile } from './importLabFile.ts';
 
 interface ImportOptions {
   config?: string;
@@ -21,6 +22,8 @@ interface ImportOptions {
   dryRun?: boolean;
   json?: boolean;
   batchSize: string;
+  map?: string;
+  show: string;
 }
 
 export function registerImport(program: Command): void {
@@ -29,7 +32,9 @@ export function registerImport(program: Command): void {
     .description('validate a CSV or JSONL file of lab results and enqueue the valid ones, with a per-line error report')
     .argument('<file>', 'CSV (event field names as columns, readings as extra columns) or JSONL (one event per line)')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
-    .option('--format <format>', 'csv or jsonl (default: from the file name)')
+    .option('--format <format>', 'csv or jsonl; with --map csv or xlsx (default: from the file name)')
+    .option('--map <file>', "a lab mapping (YAML) that reads the lab's own CSV or .xlsx export: column names, units, dates, layout")
+    .option('--show <n>', 'with --map and --dry-run: mapped events printed to check the mapping', '3')
     .option('--dry-run', 'validate only; nothing is enqueued and Redis is not needed')
     .option('--json', 'JSON lines: one per rejected line, then a summary')
     .option('--batch-size <n>', 'records enqueued per round trip', '500')
@@ -41,6 +46,21 @@ export function registerImport(program: Command): void {
 async function importFile(file: string, opts: ImportOptions): Promise<number> {
   const batchSize = Number(opts.batchSize);
   if (!Number.isInteger(batchSize) || batchSize < 1) throw new InputError(`--batch-size: expected a whole number from 1, got "${opts.batchSize}"`);
+  if (opts.map !== undefined) {
+    const show = Number(opts.show);
+    if (!Number.isInteger(show) || show < 0) throw new InputError(`--show: expected a whole number from 0, got "${opts.show}"`);
+    const config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
+    return importLabFile(file, {
+      map: opts.map,
+      ...(opts.format !== undefined && { format: opts.format }),
+      ...(opts.dryRun !== undefined && { dryRun: opts.dryRun }),
+      ...(opts.json !== undefined && { json: opts.json }),
+      batchSize,
+      show,
+      now: Date.now(),
+      connect: () => connectProducer(redisUrl(config), config.redis.prefix),
+    });
+  }
   const format = formatOf(file, opts.format);
   let size;
   try {
@@ -82,7 +102,8 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
         const parsed = validateResult(r.record, { now: Date.now() });
         if (parsed.ok) {
           counts.accepted += 1;
-          batch.push(r.record);
+          // A dry run keeps nothing: memory stays flat however long the file.
+          if (producer !== undefined) batch.push(r.record);
           if (batch.length >= batchSize) await flush();
         } else report(r.line, claimedSampleId(r.record), parsed.issues);
       }

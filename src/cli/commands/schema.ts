@@ -1,10 +1,13 @@
-/** `wearshift schema`: writes the JSON Schema of the result event (and of the configuration) for integrators. */
+/** `wearshift schema`: writes the JSON Schemas of the result event, the configuration and the lab mapping, the OpenAPI document of the HTTP API and the AsyncAPI document of the webhook and MQTT events, for integrators. */
 import { mkdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Command } from 'commander';
 import { z } from 'zod';
 import { ConfigSchema } from '../../domain/config.ts';
 import { ResultEventSchema } from '../../domain/event.ts';
+import { LabMappingSchema } from '../../intake/labFiles/mappingSchema.ts';
+import { asyncApiDocument } from '../../contracts/asyncapi.ts';
+import { openApiDocument } from '../../contracts/openapi.ts';
 
 export function publishedSchemas(): Record<string, unknown> {
   return {
@@ -18,13 +21,20 @@ export function publishedSchemas(): Record<string, unknown> {
       title: 'wearshift configuration',
       ...z.toJSONSchema(ConfigSchema, { io: 'input', unrepresentable: 'any' }),
     },
+    'lab-mapping.schema.json': {
+      $id: 'https://wearshift.invalid/schemas/lab-mapping.schema.json',
+      title: 'wearshift lab mapping',
+      ...z.toJSONSchema(LabMappingSchema, { io: 'input', unrepresentable: 'any' }),
+    },
+    'openapi.json': openApiDocument(),
+    'asyncapi.json': asyncApiDocument(),
   };
 }
 
 export function registerSchema(program: Command): void {
   program
     .command('schema')
-    .description('write the JSON Schemas of the result event and the configuration')
+    .description('write the JSON Schemas of the result event, the configuration and the lab mapping, and the OpenAPI and AsyncAPI documents')
     .option('--out <dir>', 'directory to write into', 'schemas')
     .action((opts: { out: string }) => writeSchemas(opts.out));
 }

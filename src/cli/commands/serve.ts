@@ -8,6 +8,7 @@ export function registerServe(program: Command): void {
     .description('run the queue workers and the HTTP API in one process (graceful shutdown on SIGTERM/SIGINT)')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--port <n>', 'HTTP port (default: PORT, else 8080)')
+    .option('--opcua-port <n>', 'also serve OPC UA Alarms & Conditions on this opc.tcp port (default: opcua.port of the configuration, else off)')
     .option('--shutdown-timeout <seconds>', 'longest wait for active jobs and connections at shutdown', '10')
     .action((opts: ServiceCommandOptions) => runService('serve', opts));
 }

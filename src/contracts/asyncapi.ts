@@ -1,0 +1,80 @@
+/**
+ * The AsyncAPI 3.0 document of the events wearshift sends: incident messages to webhooks (HTTP POST, Standard
+ * Webhooks signatures) and to MQTT (QoS 1, topic from a template, default plant/{unit}/{component}/oil), both a
+ * CloudEvents 1.0 event in structured JSON. Generated from the zod schemas in eventSchemas.ts; written to
+ * schemas/asyncapi.json by `wearshift schema`.
+ */
+import { z } from 'zod';
+import { API_VERSION } from './openapi.ts';
+import { IncidentCloudEventSchema, WebhookHeadersSchema } from './eventSchemas.ts';
+
+type Json = Record<string, unknown>;
+
+function schemaOf(schema: z.ZodType): Json {
+  const { $schema: _drop, ...rest } = z.toJSONSchema(schema, { io: 'output', unrepresentable: 'any' }) as Json;
+  return rest;
+}
+
+export const DEFAULT_MQTT_TOPIC = 'plant/{unit}/{component}/oil';
+
+export function asyncApiDocument(): Json {
+  const message = { $ref: '#/components/messages/incidentEvent' };
+  return {
+    asyncapi: '3.0.0',
+    info: {
+      title: 'wearshift incident events',
+      version: API_VERSION,
+      description:
+        'Incident changes (opened, updated, escalated, acknowledged, returned, closed) as CloudEvents 1.0 in structured JSON mode. Receivers de-duplicate on source + id; a retry carries the same bytes. wearshift advises: the laboratory\u2019s diagnosis, the equipment maker\u2019s limits, local codes and licensed practice decide.',
+    },
+    defaultContentType: 'application/cloudevents+json',
+    servers: {
+      webhookReceiver: { host: 'receiver.example', protocol: 'https', description: 'Each configured webhook endpoint (channels.webhooks[].url).' },
+      mqttBroker: { host: 'broker.example:8883', protocol: 'mqtt', description: 'Each configured broker (channels.mqtt[].url).' },
+    },
+    channels: {
+      webhook: {
+        address: null,
+        title: 'Webhook endpoint',
+        description: 'POST to the configured URL. 2xx is delivered; 410 disables the endpoint; 429 and 503 are retried after Retry-After; other 5xx, timeouts and network errors are retried with exponential backoff.',
+        servers: [{ $ref: '#/servers/webhookReceiver' }],
+        messages: { incidentEvent: message },
+        bindings: { http: { bindingVersion: '0.3.0' } },
+      },
+      mqtt: {
+        address: DEFAULT_MQTT_TOPIC,
+        title: 'MQTT topic',
+        description: 'The topic template of channels.mqtt[].topic (placeholders {unit}, {component}, {group}, percent-encoded so that they add no level or wildcard).',
+        servers: [{ $ref: '#/servers/mqttBroker' }],
+        parameters: { unit: { description: 'The unit, percent-encoded.' }, component: { description: 'The component, percent-encoded.' } },
+        messages: { incidentEvent: message },
+      },
+    },
+    operations: {
+      sendWebhook: {
+        action: 'send',
+        channel: { $ref: '#/channels/webhook' },
+        messages: [{ $ref: '#/channels/webhook/messages/incidentEvent' }],
+        bindings: { http: { method: 'POST', bindingVersion: '0.3.0' } },
+      },
+      publishMqtt: {
+        action: 'send',
+        channel: { $ref: '#/channels/mqtt' },
+        messages: [{ $ref: '#/channels/mqtt/messages/incidentEvent' }],
+        bindings: { mqtt: { qos: 1, retain: false, bindingVersion: '0.2.0' } },
+      },
+    },
+    components: {
+      messages: {
+        incidentEvent: {
+          name: 'incidentEvent',
+          title: 'Incident event',
+          contentType: 'application/cloudevents+json',
+          headers: { ...schemaOf(WebhookHeadersSchema), description: 'Standard Webhooks headers (webhooks only; MQTT carries the event alone).' },
+          payload: { $ref: '#/components/schemas/IncidentCloudEvent' },
+        },
+      },
+      schemas: { IncidentCloudEvent: schemaOf(IncidentCloudEventSchema) },
+    },
+  };
+}

@@ -1,0 +1,182 @@
+/**
+ * The OpenAPI 3.1 document of the HTTP API, generated from the zod schemas the routes validate with (the result
+ * event, the incident filter, the action bodies) and the answer schemas in responseSchemas.ts. OpenAPI 3.1 uses
+ * JSON Schema 2020-12, which is what zod writes, so the schemas go in unchanged. Served at GET /openapi.json and
+ * written to schemas/openapi.json by `wearshift schema`.
+ */
+import { z } from 'zod';
+import { ResultEventSchema } from '../domain/event.ts';
+import { IncidentFilterSchema } from '../incidents/listFilter.ts';
+import { INCIDENT_ACTION_BODIES } from '../http/incidentRoutes.ts';
+import { ErrorBodySchema, HealthSchema, IncidentEnvelopeSchema, IncidentListSchema, ResultOutcomesSchema, SeriesSchema } from './responseSchemas.ts';
+
+export const API_VERSION = '1';
+
+type Json = Record<string, unknown>;
+
+/** A zod schema as a JSON Schema for a component: no `$schema`, definitions inlined. */
+function schemaOf(schema: z.ZodType, io: 'input' | 'output'): Json {
+  const { $schema: _drop, ...rest } = z.toJSONSchema(schema, { io, unrepresentable: 'any' }) as Json;
+  return rest;
+}
+
+const ref = (name: string) => ({ $ref: `#/components/schemas/${name}` });
+const json = (name: string) => ({ 'application/json': { schema: ref(name) } });
+const error = (description: string) => ({ description, content: json('Error') });
+const AUTH_ERRORS = { '401': error('No or unknown bearer token.'), '403': error("The token's role does not permit this.") };
+
+const VERB_TEXT: Record<keyof typeof INCIDENT_ACTION_BODIES, string> = {
+  ack: 'Acknowledge (ISA-18.2): someone owns it; escalation stops. Acknowledging a returned incident closes it.',
+  shelve: 'Shelve until a time, with a reason: no escalation meanwhile.',
+  unshelve: 'End a shelving early.',
+  resolve: 'Close by hand, with a note.',
+  note: 'Add a note to the timeline.',
+};
+
+/** Query parameters from the filter schema: one parameter per field. */
+function queryParameters(schema: z.ZodObject): Json[] {
+  const js = schemaOf(schema, 'input') as { properties?: Record<string, Json>; required?: string[] };
+  return Object.entries(js.properties ?? {}).map(([name, s]) => ({ name, in: 'query', required: (js.required ?? []).includes(name), schema: s, ...(typeof s.description === 'string' && { description: s.description }) }));
+}
+
+export function openApiDocument(): Json {
+  const component = [
+    { name: 'unit', in: 'path', required: true, schema: { type: 'string' } },
+    { name: 'component', in: 'path', required: true, schema: { type: 'string' } },
+  ];
+  const incidentId = { name: 'id', in: 'path', required: true, description: 'The incident id, percent-encoded (it contains "/").', schema: { type: 'string' } };
+  const actions = Object.fromEntries(
+    (Object.keys(INCIDENT_ACTION_BODIES) as (keyof typeof INCIDENT_ACTION_BODIES)[]).map((verb) => [
+      `/v1/incidents/{id}/${verb}`,
+      {
+        post: {
+          operationId: `${verb}Incident`,
+          summary: VERB_TEXT[verb],
+          tags: ['incidents'],
+          security: [{ bearer: ['responder'] }],
+          parameters: [incidentId],
+          requestBody: { required: true, content: json(`${verb[0]!.toUpperCase()}${verb.slice(1)}Body`) },
+          responses: { '200': { description: 'The incident after the action.', content: json('IncidentEnvelope') }, '400': error('A field is missing or invalid.'), ...AUTH_ERRORS, '404': error('No such incident.'), '409': error('The incident changed meanwhile or the action does not apply to its state.') },
+        },
+      },
+    ]),
+  );
+  return {
+    openapi: '3.1.0',
+    info: {
+      title: 'wearshift HTTP API',
+      version: API_VERSION,
+      description:
+        'Lab results in; incidents, component series and live events out. Bearer tokens by role (ingest, responder, viewer). wearshift advises: the laboratory\u2019s diagnosis, the equipment maker\u2019s limits, local codes and licensed practice decide.',
+    },
+    jsonSchemaDialect: 'https://json-schema.org/draft/2020-12/schema',
+    servers: [{ url: '/' }],
+    tags: [{ name: 'results' }, { name: 'incidents' }, { name: 'components' }, { name: 'operations' }],
+    paths: {
+      '/v1/results': {
+        post: {
+          operationId: 'postResults',
+          summary: 'One result event, an array of them, or NDJSON lines; every record gets an outcome.',
+          tags: ['results'],
+          security: [{ bearer: ['ingest'] }],
+          requestBody: {
+            required: true,
+            content: {
+              'application/json': { schema: { oneOf: [ref('ResultEvent'), { type: 'array', items: ref('ResultEvent') }] } },
+              'application/x-ndjson': { schema: { type: 'string', description: 'One result event per line.' } },
+            },
+          },
+          responses: {
+            '202': { description: 'At least one record was accepted (rejected ones carry their errors).', content: json('ResultOutcomes') },
+            '400': error('The body holds no result.'),
+            ...AUTH_ERRORS,
+            '413': error('The body exceeds the limit (5 MB by default).'),
+            '422': { description: 'No record was accepted.', content: json('ResultOutcomes') },
+            '503': error('The results queue is unavailable; nothing was accepted.'),
+          },
+        },
+      },
+      '/v1/incidents': {
+        get: {
+          operationId: 'listIncidents',
+          summary: 'Incidents, most severe and oldest first.',
+          tags: ['incidents'],
+          security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
+          parameters: queryParameters(IncidentFilterSchema),
+          responses: { '200': { description: 'The incidents that match.', content: json('IncidentList') }, '400': error('A query parameter is invalid.'), ...AUTH_ERRORS },
+        },
+      },
+      '/v1/incidents/{id}': {
+        get: {
+          operationId: 'getIncident',
+          summary: 'One incident with its timeline.',
+          tags: ['incidents'],
+          security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
+          parameters: [incidentId],
+          responses: { '200': { description: 'The incident.', content: json('IncidentEnvelope') }, ...AUTH_ERRORS, '404': error('No such incident.') },
+        },
+      },
+      ...actions,
+      '/v1/units/{unit}/components/{component}/series': {
+        get: {
+          operationId: 'getSeries',
+          summary: 'Chart data of a component.',
+          tags: ['components'],
+          security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
+          parameters: [...component, { name: 'measurands', in: 'query', required: false, description: 'Comma-separated measurands; default all.', schema: { type: 'string' } }],
+          responses: { '200': { description: 'The series.', content: json('Series') }, '400': error('Unknown measurand.'), ...AUTH_ERRORS, '404': error('No such component.') },
+        },
+      },
+      '/v1/units/{unit}/components/{component}/chart.svg': {
+        get: {
+          operationId: 'getChartSvg',
+          summary: 'Trend chart of one measurand as SVG.',
+          tags: ['components'],
+          security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
+          parameters: [...component, { name: 'measurand', in: 'query', required: true, schema: { type: 'string' } }, { name: 'width', in: 'query', required: false, schema: { type: 'integer' } }],
+          responses: { '200': { description: 'The chart.', content: { 'image/svg+xml': { schema: { type: 'string' } } } }, '400': error('Missing or unknown measurand.'), ...AUTH_ERRORS, '404': error('No readings.') },
+        },
+      },
+      '/v1/units/{unit}/components/{component}/chart.png': {
+        get: {
+          operationId: 'getChartPng',
+          summary: 'Trend chart of one measurand as PNG.',
+          tags: ['components'],
+          security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
+          parameters: [...component, { name: 'measurand', in: 'query', required: true, schema: { type: 'string' } }, { name: 'width', in: 'query', required: false, schema: { type: 'integer' } }],
+          responses: { '200': { description: 'The chart.', content: { 'image/png': { schema: { type: 'string', contentEncoding: 'binary' } } } }, '400': error('Missing or unknown measurand.'), ...AUTH_ERRORS, '404': error('No readings.') },
+        },
+      },
+      '/v1/events': {
+        get: {
+          operationId: 'streamEvents',
+          summary: 'Server-sent events: incident changes and new results (the board\u2019s live feed).',
+          tags: ['incidents'],
+          security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
+          responses: { '200': { description: 'An event stream; each data line is a JSON live event.', content: { 'text/event-stream': { schema: { type: 'string' } } } }, ...AUTH_ERRORS },
+        },
+      },
+      '/healthz': { get: { operationId: 'healthz', summary: 'The process is alive.', tags: ['operations'], security: [], responses: { '200': { description: 'Alive.', content: json('Health') } } } },
+      '/readyz': {
+        get: { operationId: 'readyz', summary: 'Redis answers.', tags: ['operations'], security: [], responses: { '200': { description: 'Ready.', content: json('Health') }, '503': { description: 'Redis does not answer.', content: json('Health') } } },
+      },
+      '/metrics': {
+        get: { operationId: 'metrics', summary: 'Prometheus text exposition.', tags: ['operations'], security: [{ bearer: ['viewer'] }], responses: { '200': { description: 'Metrics.', content: { 'text/plain': { schema: { type: 'string' } } } }, ...AUTH_ERRORS } },
+      },
+      '/openapi.json': { get: { operationId: 'openapi', summary: 'This document.', tags: ['operations'], security: [], responses: { '200': { description: 'The OpenAPI document.', content: { 'application/json': { schema: { type: 'object' } } } } } } },
+    },
+    components: {
+      securitySchemes: { bearer: { type: 'http', scheme: 'bearer', description: 'Tokens from WEARSHIFT_TOKEN_INGEST, WEARSHIFT_TOKEN_RESPONDER, WEARSHIFT_TOKEN_VIEWER.' } },
+      schemas: {
+        ResultEvent: schemaOf(ResultEventSchema, 'input'),
+        ResultOutcomes: schemaOf(ResultOutcomesSchema, 'output'),
+        IncidentList: schemaOf(IncidentListSchema, 'output'),
+        IncidentEnvelope: schemaOf(IncidentEnvelopeSchema, 'output'),
+        Series: schemaOf(SeriesSchema, 'output'),
+        Health: schemaOf(HealthSchema, 'output'),
+        Error: schemaOf(ErrorBodySchema, 'output'),
+        ...Object.fromEntries(Object.entries(INCIDENT_ACTION_BODIES).map(([verb, s]) => [`${verb[0]!.toUpperCase()}${verb.slice(1)}Body`, schemaOf(s, 'input')])),
+      },
+    },
+  };
+}

@@ -1,0 +1,88 @@
+/**
+ * The shapes of the HTTP API's answers, for the OpenAPI document. Requests are validated by the routes' own zod
+ * schemas (the result event, the incident filter, the action bodies), which the document reuses as they are;
+ * the answers are written here once. Incident objects are described by their stable fields and allow more, so
+ * that adding a field is not a breaking change.
+ */
+import { z } from 'zod';
+import { SEVERITIES } from '../domain/finding.ts';
+
+const isoTime = z.string().describe('RFC 3339 date-time.');
+
+export const FieldIssueSchema = z.object({ path: z.string().describe('Dotted path of the field, e.g. readings.Fe; empty for the record.'), reason: z.string() }).strict();
+
+export const RecordOutcomeSchema = z
+  .object({
+    index: z.number().int().min(0).describe('Position in the request (0-based).'),
+    line: z.number().int().min(1).optional().describe('Line of an NDJSON body (1-based).'),
+    sampleId: z.string().optional(),
+    status: z.enum(['accepted', 'rejected']),
+    errors: z.array(FieldIssueSchema).optional(),
+  })
+  .strict();
+
+export const ResultOutcomesSchema = z.array(RecordOutcomeSchema).describe('One outcome per record, in order.');
+
+export const ErrorBodySchema = z
+  .object({
+    error: z.string().describe('A machine-readable word: invalid-request, not-found, conflict, unauthorized, forbidden, payload-too-large, unavailable, bad-request, internal.'),
+    message: z.string(),
+    issues: z.array(z.object({ field: z.string(), message: z.string() }).strict()).optional(),
+  })
+  .strict();
+
+const findingSchema = z
+  .object({
+    measurand: z.string(),
+    rule: z.string(),
+    severity: z.enum(SEVERITIES),
+    disposition: z.string(),
+    value: z.number(),
+    threshold: z.number().optional(),
+    basis: z.string(),
+    sampleId: z.string(),
+    sampledAt: isoTime,
+    explanation: z.string(),
+  })
+  .loose();
+
+const actor = z.object({ by: z.string(), at: isoTime }).loose();
+
+export const IncidentSummarySchema = z
+  .object({
+    id: z.string().describe('unit/component[/measurand|/sampling]@openingSampleId'),
+    key: z.string(),
+    kind: z.enum(['machine', 'sampling']),
+    unit: z.string(),
+    component: z.string(),
+    group: z.string(),
+    measurand: z.string().optional(),
+    openedAt: isoTime,
+    openedBySampleId: z.string(),
+    lastSampleId: z.string(),
+    lastSampledAt: isoTime,
+    alarm: z.enum(['active', 'returned']).describe('ISA-18.2 alarm state.'),
+    severity: z.enum(SEVERITIES),
+    peakSeverity: z.enum(SEVERITIES),
+    evidence: z.array(findingSchema),
+    activeFindings: z.array(findingSchema),
+    acknowledged: actor.nullable(),
+    shelved: actor.extend({ until: isoTime, reason: z.string() }).nullable(),
+    closed: z.object({ at: isoTime, how: z.string() }).loose().nullable(),
+  })
+  .loose();
+
+export const IncidentSchema = IncidentSummarySchema.extend({
+  timeline: z.array(z.object({ kind: z.string(), at: isoTime }).loose()).describe('The verdict: findings, returns, operator actions.'),
+  notifications: z.array(z.object({ kind: z.literal('notified'), at: isoTime }).loose()),
+}).loose();
+
+export const IncidentListSchema = z.object({ incidents: z.array(IncidentSummarySchema) }).strict();
+export const IncidentEnvelopeSchema = z.object({ incident: IncidentSchema }).strict();
+
+export const HealthSchema = z.object({ status: z.enum(['ok', 'ready', 'unavailable']), redis: z.string().optional() }).strict();
+
+export const SeriesSchema = z
+  .object({ unit: z.string(), component: z.string() })
+  .loose()
+  .describe('Chart data of a component: readings per charge, wear rates, detector statistics against their limits, fixed and group limits, where each rule fired.');
