@@ -11,6 +11,7 @@ import { cpus, loadavg, totalmem } from 'node:os';
 import { parseArgs } from 'node:util';
 import { runDesignCheck } from './designCheck.ts';
 import { runDetection } from './detection.ts';
+import { runForecast } from './forecast.ts';
 import { jsonLine, renderPart, type PartResult } from './report.ts';
 import { runScaling } from './scaling.ts';
 import { redisServerVersion } from './pipeline.ts';
@@ -38,6 +39,7 @@ export const PARTS: Record<string, Part> = {
       steppedComponents: at(scale, 800, 50),
     }),
   'design-check': ({ scale, seed }) => runDesignCheck({ seed, components: at(scale, 300, 40) }),
+  forecast: ({ scale, seed }) => runForecast({ seed, components: at(scale, 300, 30), trainingComponents: at(scale, 40, 10) }),
   scaling: ({ scale, seed }) => runScaling({ seed, histories: at(scale, 5, 2), batches: at(scale, 15, 3) }),
   throughput: (o) => runThroughput(o),
   latency: (o) => runLatency(o),

@@ -33,16 +33,24 @@ import { quantileFunction } from './quantile.ts';
 import { forecastText, type WordingContext } from './wording.ts';
 
 const DAY_MS = 86_400_000;
+const CENSORED_LATEST = 'the latest reading is censored: a bound, not a value';
+const TOO_MANY_CENSORED = 'more than a third of the readings on this charge are censored';
 const PROJECTION_POINTS = 24;
 
 export interface ForecastOptions {
   /** Only these measurands. Default: every measurand with a reading on the present charge and a level to watch. */
   readonly measurands?: readonly Measurand[];
+  /**
+   * Default true: say "not enough history" where the forecast is unreliable (first charge, censored readings, too
+   * few intervals or readings). False forecasts there too and names the gate in `gatedBy` (the benchmark measures
+   * what the gates hide).
+   */
+  readonly gates?: boolean;
 }
 
 /** A trend ready to project, or why there is none. */
 type Basis =
-  | { readonly ok: true; readonly basis: ForecastBasis; readonly trend: ProjectedTrend; readonly rateDrift: number; readonly df?: number }
+  | { readonly ok: true; readonly basis: ForecastBasis; readonly trend: ProjectedTrend; readonly rateDrift: number; readonly df?: number; readonly gate?: string }
   | { readonly ok: false; readonly reason: string };
 
 export function forecastComponent(state: AnalysisState, settings: ComponentSettings, group: GroupStats | undefined, options: ForecastOptions = {}): ComponentForecast {
@@ -59,7 +67,8 @@ export function forecastComponent(state: AnalysisState, settings: ComponentSetti
   for (const m of measurands) {
     const specs = limitSpecs(m, settings, group);
     if (specs.length === 0) continue;
-    const b = nowOil === null || horizonOil === null ? { ok: false as const, reason: 'the latest sample gives no oil hours' } : basisOf(m, state, settings, group, config);
+    const found = nowOil === null || horizonOil === null ? { ok: false as const, reason: 'the latest sample gives no oil hours' } : basisOf(m, state, settings, group, config);
+    const b: Basis = found.ok && found.gate !== undefined && options.gates !== false ? { ok: false, reason: found.gate } : found;
     if (!b.ok) {
       out.push({ measurand: m, status: 'not-enough-history', reason: b.reason, projection: [], limits: specs.map((s) => unforecast(m, s, b.reason, ctx)) });
       continue;
@@ -86,7 +95,8 @@ export function forecastComponent(state: AnalysisState, settings: ComponentSetti
           const next = crossingQuantile(start, { levelAt: (tau) => spec.levelAt(tau), side: spec.side, horizon: chargeHours, z: 0 });
           nextCharge = { oilHours: next ?? null };
         }
-        parts = { ...head(m, spec, levelNow), outcome: 'after-oil-change', ...(nextCharge && { nextCharge }) };
+        const early = query(z.low);
+        parts = { ...head(m, spec, levelNow), outcome: 'after-oil-change', ...(early !== undefined && { early: time(early) }), ...(nextCharge && { nextCharge }) };
       } else if (t0 + central <= nowOil!) {
         parts = { ...head(m, spec, spec.levelAt(t0 + central) ?? levelNow), outcome: 'already' };
       } else {
@@ -103,7 +113,7 @@ export function forecastComponent(state: AnalysisState, settings: ComponentSetti
       const estimate = parts.outcome === 'already' ? projectAt(trend, Math.max(0, nowOil! - t0)).mean : undefined;
       return { ...parts, text: forecastText(m, spec, parts, ctx, estimate) } satisfies LimitForecast;
     });
-    out.push({ measurand: m, status: 'forecast', basis: b.basis, projection: projection(trend, t0, horizon, z), limits });
+    out.push({ measurand: m, status: 'forecast', ...(b.gate !== undefined && { gatedBy: b.gate }), basis: b.basis, projection: projection(trend, t0, horizon, z), limits });
   }
   return {
     sampleId: state.last?.sampleId ?? '',
@@ -151,7 +161,6 @@ function filterBasis(m: Measurand, state: AnalysisState, settings: ComponentSett
   const last = wear?.previous;
   const counts = state.forecast?.filter[m];
   if (last === undefined) return { ok: false, reason: 'no reading on this charge yet' };
-  if (last.censored) return { ok: false, reason: 'the latest reading is censored: a bound, not a value' };
   if (last.oilHours === undefined) return { ok: false, reason: 'the latest reading gives no oil hours' };
   const own = change?.own;
   const baseline: RateBaseline | undefined =
@@ -161,9 +170,15 @@ function filterBasis(m: Measurand, state: AnalysisState, settings: ComponentSett
   if (f === undefined || change?.previousTo !== last.sampleId) return { ok: false, reason: 'the latest interval was not judged (running-in or censored)' };
   const updates = counts?.updates ?? 0;
   const censored = counts?.censored ?? 0;
-  if (updates < config.minIntervals) return { ok: false, reason: `fewer than ${config.minIntervals} judged wear intervals on this charge` };
-  if (3 * censored > updates + censored) return { ok: false, reason: 'too many censored readings on this charge' };
-  if ((state.charge?.index ?? 0) === 0 && own?.completedAt === undefined) return { ok: false, reason: "first charge of the history, before the component's own baseline is complete" };
+  const gate = last.censored
+    ? CENSORED_LATEST
+    : 3 * censored > updates + censored
+      ? TOO_MANY_CENSORED
+      : updates < config.minIntervals
+        ? `fewer than ${config.minIntervals} judged wear intervals on this charge`
+        : (state.charge?.index ?? 0) === 0 && own?.completedAt === undefined
+          ? "first charge of the history, before the component's own baseline is complete"
+          : undefined;
   const since = change.signalSince !== undefined ? counts?.since : undefined;
   const q = baseline.processVariance;
   const rate = since !== undefined && since.hours > 0 ? since.increment / since.hours : f.rate;
@@ -183,6 +198,7 @@ function filterBasis(m: Measurand, state: AnalysisState, settings: ComponentSett
     },
     trend: { level: f.level, rate, levelVariance: f.variance, covariance, rateVariance, processVariance: q, dilution: 0, makeUpLevel: 0 },
     rateDrift: baseline.rateDrift ?? 0,
+    ...(gate !== undefined && { gate }),
   };
 }
 
@@ -190,11 +206,16 @@ function trendBasis(m: Measurand, state: AnalysisState, config: ForecastConfig):
   const t = state.forecast?.trend[m];
   const last = t?.last;
   if (t === undefined || last === undefined) return { ok: false, reason: 'no reading on this charge yet' };
-  if (last.censored) return { ok: false, reason: 'the latest reading is censored: a bound, not a value' };
   if (last.oilHours === undefined) return { ok: false, reason: 'the latest reading gives no oil hours' };
-  if (3 * t.censored > t.readings) return { ok: false, reason: 'too many censored readings on this charge' };
   const { n, st, stt, sy, sty, syy } = t.sums;
-  if (n < config.minReadings) return { ok: false, reason: `fewer than ${config.minReadings} readings on this charge` };
+  if (n < 3) return { ok: false, reason: `fewer than ${config.minReadings} readings on this charge` };
+  const gate = last.censored
+    ? CENSORED_LATEST
+    : 3 * t.censored > t.readings
+      ? TOO_MANY_CENSORED
+      : n < config.minReadings
+        ? `fewer than ${config.minReadings} readings on this charge`
+        : undefined;
   const tBar = st / n;
   const yBar = sy / n;
   const sxx = stt - n * tBar * tBar;
@@ -213,6 +234,7 @@ function trendBasis(m: Measurand, state: AnalysisState, config: ForecastConfig):
     trend: { level, rate: slope, levelVariance, covariance: s2 * (d / sxx), rateVariance, processVariance: 0, dilution: 0, makeUpLevel: 0 },
     rateDrift: 0,
     df: n - 2,
+    ...(gate !== undefined && { gate }),
   };
 }
 

@@ -79,6 +79,8 @@ export interface MeasurandForecast {
   readonly measurand: Measurand;
   readonly status: 'forecast' | 'not-enough-history';
   readonly reason?: string;
+  /** Only when asked to forecast past the reliability gates: the gate this forecast would have stopped at. */
+  readonly gatedBy?: string;
   readonly basis?: ForecastBasis;
   /** The projected level from the last reading to the horizon, for the dashed line and its band on the chart. */
   readonly projection: readonly ProjectionPoint[];
