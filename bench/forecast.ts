@@ -151,6 +151,7 @@ interface Outcome {
   error?: number;
   gate?: string;
   method: string;
+  firstCharge: boolean;
 }
 
 function scoreComponent(sim: Simulated, settings: ComponentSettings, group: GroupStats, scenario: ForecastScenario): Outcome[] {
@@ -176,6 +177,7 @@ function scoreComponent(sim: Simulated, settings: ComponentSettings, group: Grou
       ...(central !== undefined && truth !== Infinity && { error: Math.abs(central - truth) }),
       ...(m.gatedBy !== undefined && { gate: gateName(m.gatedBy) }),
       method: m.basis!.method,
+      firstCharge: mark.charge === 0,
     });
   });
   return out;
@@ -233,13 +235,26 @@ export function runForecast(options: ForecastBenchOptions): PartResult {
       const list = all.filter((o) => o.gate === undefined && o.method === method);
       if (list.length > 0 && list.length < all.length) rows.push(row(`  of which ${method}`, figures(list)));
     }
+    const first = all.filter((o) => o.gate === undefined && o.firstCharge);
+    if (first.length > 0) rows.push(row('  of which first charge', figures(first)));
     const gates: Record<string, unknown> = {};
     for (const [gate, list] of [...byGate].sort()) {
       const f = figures(list);
       rows.push(row(`gated: ${gate}`, f));
       gates[gate] = { n: f.n, coverage: round(f.coverage), medianAbsErrorHours: round(f.medianError) };
     }
-    json[scenario] = { stated: { n: stated.n, coverage: round(stated.coverage), medianAbsErrorHours: round(stated.medianError) }, gates };
+    const byMethod: Record<string, unknown> = {};
+    for (const method of ['filter', 'filter-since-signal', 'trend']) {
+      const f = figures(all.filter((o) => o.gate === undefined && o.method === method));
+      if (f.n > 0) byMethod[method] = { n: f.n, coverage: round(f.coverage), medianAbsErrorHours: round(f.medianError) };
+    }
+    const fc = figures(first);
+    json[scenario] = {
+      stated: { n: stated.n, coverage: round(stated.coverage), medianAbsErrorHours: round(stated.medianError) },
+      byMethod,
+      firstCharge: { n: fc.n, coverage: round(fc.coverage), medianAbsErrorHours: round(fc.medianError) },
+      gates,
+    };
   }
   return {
     name: 'forecast',

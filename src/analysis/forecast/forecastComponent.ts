@@ -14,9 +14,11 @@
  * intervals.ts gives the level the next charge starts from.
  *
  * Where a forecast would mislead, it says "not enough history" with the reason: no reading or no oil hours on the
- * present charge, a censored latest reading, too many censored readings, too few intervals or readings on the
- * charge, no wear-rate baseline yet, or the first charge of the history before the component's own baseline is
- * complete (the benchmark in bench/forecast.ts shows the interval too narrow there).
+ * present charge; no wear-rate baseline yet (on a component's first charge, until its group has a trusted baseline
+ * or its own is complete, the filter knows no rate); a censored latest reading or more than a third censored on the
+ * charge; too few judged intervals or readings on the charge. bench/forecast.ts measures what these gates hide.
+ * On a first charge with a trusted group baseline the filter starts from the group's rate with the unit-to-unit
+ * spread as its uncertainty, and the benchmark finds the interval honest there, so it is stated.
  */
 import { ADVISORY_CAUTION, FORECAST_CAUTION } from '../../domain/caution.ts';
 import { DEFAULT_FORECAST, type ForecastConfig } from '../../domain/forecastConfig.ts';
@@ -176,9 +178,7 @@ function filterBasis(m: Measurand, state: AnalysisState, settings: ComponentSett
       ? TOO_MANY_CENSORED
       : updates < config.minIntervals
         ? `fewer than ${config.minIntervals} judged wear intervals on this charge`
-        : (state.charge?.index ?? 0) === 0 && own?.completedAt === undefined
-          ? "first charge of the history, before the component's own baseline is complete"
-          : undefined;
+        : undefined;
   const since = change.signalSince !== undefined ? counts?.since : undefined;
   const q = baseline.processVariance;
   const rate = since !== undefined && since.hours > 0 ? since.increment / since.hours : f.rate;
