@@ -115,7 +115,11 @@ export function forecastComponent(state: AnalysisState, settings: ComponentSetti
       const estimate = parts.outcome === 'already' ? projectAt(trend, Math.max(0, nowOil! - t0)).mean : undefined;
       return { ...parts, text: forecastText(m, spec, parts, ctx, estimate) } satisfies LimitForecast;
     });
-    out.push({ measurand: m, status: 'forecast', ...(b.gate !== undefined && { gatedBy: b.gate }), basis: b.basis, projection: projection(trend, t0, horizon, z), limits });
+    const points = projection(trend, t0, horizon, z).map((p) => {
+      const at = timeOf(p.oilHours, nowOil!, hoursPerDay, lastTime).date;
+      return at === undefined ? p : { ...p, at: atTime(p.oilHours, nowOil!, hoursPerDay!, lastTime) };
+    });
+    out.push({ measurand: m, status: 'forecast', ...(b.gate !== undefined && { gatedBy: b.gate }), basis: b.basis, projection: points, limits });
   }
   return {
     sampleId: state.last?.sampleId ?? '',
@@ -247,6 +251,11 @@ function projection(t: ProjectedTrend, t0: number, horizon: number, z: { low: nu
     out.push({ oilHours: t0 + tau, central: p.mean, low: p.mean + z.low * p.sd, high: p.mean + z.high * p.sd });
   }
   return out;
+}
+
+/** The time at which the component reaches `oilHours` (from the latest sample's time, at its recent hours per day). */
+function atTime(oilHours: number, nowOil: number, hoursPerDay: number, lastTime: number): string {
+  return new Date(lastTime + (Math.max(0, oilHours - nowOil) / hoursPerDay) * DAY_MS).toISOString();
 }
 
 function timeOf(oilHours: number, nowOil: number, hoursPerDay: number | null, lastTime: number): ForecastTime {

@@ -70,6 +70,8 @@ export interface ForecastBasis {
 /** The projected level at one oil-hours point: median and the interval percentiles. */
 export interface ProjectionPoint {
   readonly oilHours: number;
+  /** When the component reaches these oil hours at its recent hours per day; absent when those are unknown. */
+  readonly at?: string;
   readonly central: number;
   readonly low: number;
   readonly high: number;
