@@ -70,15 +70,16 @@ export interface CrossingQuery {
   /** The level at τ hours on; undefined where there is none (a population band without enough results). */
   readonly levelAt: (tau: number) => number | undefined;
   readonly side: 'above' | 'below';
-  /** Search [0, horizon] hours. */
+  /** Search [from, horizon] hours (from: default 0; a later quantile need not look before an earlier one). */
   readonly horizon: number;
+  readonly from?: number;
   /** F⁻¹ of the quantile wanted (0 for the median). */
   readonly z: number;
 }
 
 /** Grid points over the horizon; the bisection then refines within one step. */
-const GRID = 400;
-const BISECTIONS = 50;
+const GRID = 120;
+const BISECTIONS = 40;
 
 /** The first τ in [0, horizon] at which the crossing has happened with the wanted probability; undefined: not within the horizon. */
 export function crossingQuantile(t: ProjectedTrend, q: CrossingQuery): number | undefined {
@@ -89,11 +90,12 @@ export function crossingQuantile(t: ProjectedTrend, q: CrossingQuery): number | 
     const beyond = q.side === 'above' ? p.mean - level : level - p.mean;
     return beyond - q.z * p.sd;
   };
-  if (margin(0) >= 0) return 0;
-  if (!(q.horizon > 0)) return undefined;
-  let previous = 0;
+  const from = Math.max(0, q.from ?? 0);
+  if (margin(from) >= 0) return from;
+  if (!(q.horizon > from)) return undefined;
+  let previous = from;
   for (let i = 1; i <= GRID; i++) {
-    const tau = (q.horizon * i) / GRID;
+    const tau = from + ((q.horizon - from) * i) / GRID;
     if (margin(tau) >= 0) {
       let lo = previous;
       let hi = tau;

@@ -83,7 +83,7 @@ export function forecastComponent(state: AnalysisState, settings: ComponentSetti
     const time = (tau: number): ForecastTime => timeOf(t0 + tau, nowOil!, hoursPerDay, lastTime);
     const limits = specs.map((spec) => {
       const levelAt = (tau: number) => spec.levelAt(t0 + tau);
-      const query = (zq: number, h = horizon, tr: ProjectedTrend = trend, at = levelAt) => crossingQuantile(tr, { levelAt: at, side: spec.side, horizon: h, z: zq });
+      const query = (zq: number, h = horizon, from = 0) => crossingQuantile(trend, { levelAt, side: spec.side, horizon: h, z: zq, from });
       const central = query(0);
       const levelNow = spec.levelAt(nowOil!) ?? spec.levelAt(t0) ?? 0;
       let parts: Omit<LimitForecast, 'text'>;
@@ -102,8 +102,9 @@ export function forecastComponent(state: AnalysisState, settings: ComponentSetti
       } else if (t0 + central <= nowOil!) {
         parts = { ...head(m, spec, spec.levelAt(t0 + central) ?? levelNow), outcome: 'already' };
       } else {
-        const early = query(z.low);
-        const late = query(z.high);
+        // Quantiles are ordered: the early one lies before the central, the late one after it.
+        const early = query(z.low, central);
+        const late = query(z.high, horizon, central);
         parts = {
           ...head(m, spec, spec.levelAt(t0 + central) ?? levelNow),
           outcome: 'crossing',
