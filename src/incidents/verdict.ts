@@ -128,7 +128,8 @@ function withFindings(
   inc.activeFindings = findings;
   inc.evidence = findings;
   inc.context = context;
-  const forecast = forecastOf(step.forecast, measurandsOf(findings));
+  // A sampling incident is about the samples, not the machine: no time to limit.
+  const forecast = inc.kind === 'machine' ? forecastOf(step.forecast, measurandsOf(findings)) : undefined;
   if (forecast !== undefined) inc.forecast = forecast;
   else delete inc.forecast;
   inc.severity = highest(findings);

@@ -115,8 +115,10 @@ async function evaluateUnderLease(deps: EvaluationDeps, ref: ComponentRef, lease
     const stats = statsByMonth.get(monthOf(sample.time));
     const step = fold.advance(sample, stats, input.marks.get(sample.sampleId));
     steps.push(step);
-    // The forecast travels with an incident's evidence, so it is made only where a step asks for an incident.
-    const forecast = step.findings.some((f) => f.disposition === 'incident') ? fold.forecast(stats) : undefined;
+    // The forecast travels with an incident's evidence, so it is made only where a step asks for an incident, and
+    // only for the measurands of that evidence.
+    const evidence = [...new Set(step.findings.filter((f) => f.disposition === 'incident' && f.rule !== 'sampling').map((f) => f.measurand))];
+    const forecast = evidence.length > 0 ? fold.forecast(stats, { measurands: evidence }) : undefined;
     incidents.step({
       ...step,
       time: sample.time,
