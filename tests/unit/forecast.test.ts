@@ -5,6 +5,7 @@
  * is checked against reference libraries in tests/reference/forecast-interval.test.ts; its coverage on fleets with
  * known true rates is measured by `npm run bench -- --only forecast`. Simulated data: the documented noise model.
  */
+import fc from 'fast-check';
 import { afterEach, describe, expect, it, vi } from 'vitest';
 import { evaluateComponent } from '../../src/analysis/evaluate.ts';
 import { forecastComponent } from '../../src/analysis/forecast/forecastComponent.ts';
@@ -133,6 +134,37 @@ describe('forecast in the analysis core', () => {
     const ungated = forecastComponent(evaluateComponent([...samples.slice(0, -1), censored], settings).state, settings, undefined, { measurands: ['Fe'], gates: false });
     expect(ungated.measurands[0]!.status).toBe('forecast');
     expect(ungated.measurands[0]!.gatedBy).toContain('censored');
+  });
+});
+
+describe('forecast properties', () => {
+  it('on any simulated history: never throws, percentiles in order, finite numbers, band around the central line', () => {
+    fc.assert(
+      fc.property(
+        fc.integer({ min: 1, max: 1000 }),
+        fc.integer({ min: 1, max: 45 }),
+        fc.double({ min: 0.005, max: 0.2, noNaN: true }),
+        fc.constantFrom(1, 1.5, 3),
+        fc.constantFrom(60, 120, 250),
+        (seed, n, rate, factor, interval) => {
+          const samples = simulatedSamples({ samples: n, intervalHours: interval, metals: { Fe: { rate, processVariance: 0.4 * rate, step: { atHours: 1500, factor } } } }, seed);
+          const settings = settingsOf(samples);
+          const f = forecastComponent(evaluateComponent(samples, settings).state, settings, undefined);
+          for (const m of f.measurands) {
+            for (const p of m.projection) expect(p.low <= p.central + 1e-9 && p.central <= p.high + 1e-9).toBe(true);
+            for (const l of m.limits) {
+              expect(l.text.length).toBeGreaterThan(0);
+              const times = [l.early, l.central, l.late].filter((t) => t !== undefined);
+              for (const t of times) expect(Number.isFinite(t.oilHours) && t.hoursFromNow >= 0).toBe(true);
+              if (l.early && l.central) expect(l.early.oilHours).toBeLessThanOrEqual(l.central.oilHours + 1e-6);
+              if (l.central && l.late) expect(l.central.oilHours).toBeLessThanOrEqual(l.late.oilHours + 1e-6);
+              if (l.outcome === 'crossing') expect(l.central).toBeDefined();
+            }
+          }
+        },
+      ),
+      { numRuns: 40 },
+    );
   });
 });
 
