@@ -119,6 +119,21 @@ describe('forecast in the analysis core', () => {
     }
   });
 
+  it('without a planned charge length, expects the oil change where the recent past charges ended', () => {
+    const samples = simulatedSamples({ samples: 33, intervalHours: 120 }, 13);
+    const { chargeHours: _planned, ...unplanned } = settingsOf(samples);
+    const { state } = evaluateComponent(samples, unplanned);
+    const f = forecastComponent(state, unplanned, undefined, { measurands: ['Fe'] });
+    const past = state.forecast!.pastCharges!;
+    expect(past.length).toBeGreaterThan(0);
+    // The simulated oil is changed every 1000 oil hours (tests/helpers/wearFleet.ts): the last samples of past charges lie just before.
+    for (const h of past) expect(h).toBeGreaterThan(700);
+    expect(f.chargeHoursFrom).toBe('past-charges');
+    expect(f.chargeHours).toBe(Math.max(...past));
+    const alarm = f.measurands[0]!.limits.find((l) => l.severity === 'alarm')!;
+    if (alarm.outcome === 'after-oil-change') expect(alarm.text).toContain('as on past charges');
+  });
+
   it('says "not enough history to forecast" on a first sample and on a censored latest reading', () => {
     const samples = simulatedSamples({ samples: 33, intervalHours: 120 }, 13);
     const settings = settingsOf(samples);

@@ -59,11 +59,14 @@ export function forecastComponent(state: AnalysisState, settings: ComponentSetti
   const config = settings.forecast ?? DEFAULT_FORECAST;
   const track = state.forecast;
   const nowOil = state.charge?.lastOilHours ?? null;
-  const chargeHours = settings.chargeHours ?? null;
+  const past = Math.max(0, ...(track?.pastCharges ?? []));
+  const expected = past > 0 && (nowOil === null || past > nowOil) ? past : null;
+  const chargeHours = settings.chargeHours ?? expected;
+  const chargeHoursFrom = settings.chargeHours !== undefined ? ('planned' as const) : expected !== null ? ('past-charges' as const) : null;
   const horizonOil = nowOil === null ? null : chargeHours !== null ? Math.max(chargeHours, nowOil) : nowOil + config.horizonHours;
   const hoursPerDay = track === undefined ? null : hoursPerDayOf(track.usage);
   const lastTime = state.last?.time ?? 0;
-  const ctx: WordingContext = { chargeHours, horizonHours: config.horizonHours, residualFraction: settings.residualFraction };
+  const ctx: WordingContext = { chargeHours, planned: chargeHoursFrom === 'planned', horizonHours: config.horizonHours, residualFraction: settings.residualFraction };
   const measurands = options.measurands ?? candidates(state, settings);
   const out: MeasurandForecast[] = [];
   for (const m of measurands) {
@@ -128,6 +131,7 @@ export function forecastComponent(state: AnalysisState, settings: ComponentSetti
     oilHours: nowOil,
     hoursPerDay,
     chargeHours,
+    chargeHoursFrom,
     horizonOilHours: horizonOil,
     percentiles: [config.interval.lower, config.interval.upper],
     measurands: out,

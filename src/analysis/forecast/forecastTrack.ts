@@ -61,6 +61,10 @@ export interface FilterCounts {
 
 export interface ForecastTrack {
   readonly chargeIndex: number;
+  /** The last oil hours known on the present charge. */
+  readonly oilHours?: number;
+  /** Oil hours the recent past charges ran to before their drain, newest last (the expected charge length when none is planned). */
+  readonly pastCharges?: readonly number[];
   /** Newest last. */
   readonly usage: readonly UsagePoint[];
   /** Σ −ln(1 − topUp/sump) over the present charge: the make-up oil's dilution in oil-hours terms. */
@@ -88,6 +92,8 @@ export interface ForecastStepInput {
 
 /** A make-up share this close to 1 is a refill, not a top-up; capped so the logarithm stays finite. */
 const MAX_TOP_UP_SHARE = 0.95;
+/** Past charges remembered for the expected charge length. */
+const PAST_CHARGES = 3;
 
 export function advanceForecast(track: ForecastTrack | undefined, input: ForecastStepInput): ForecastTrack {
   const { sample, settings } = input;
@@ -101,6 +107,12 @@ export function advanceForecast(track: ForecastTrack | undefined, input: Forecas
   if (!fresh && settings.sumpLitres !== undefined && sample.topUpLitres > 0) {
     topUp += -Math.log(1 - Math.min(MAX_TOP_UP_SHARE, sample.topUpLitres / settings.sumpLitres));
   }
+  const pastCharges = [...(track?.pastCharges ?? [])];
+  if (track !== undefined && fresh && track.oilHours !== undefined) {
+    pastCharges.push(track.oilHours);
+    if (pastCharges.length > PAST_CHARGES) pastCharges.splice(0, pastCharges.length - PAST_CHARGES);
+  }
+  const oilHours = sample.oilHours ?? (fresh ? undefined : track.oilHours);
   const usage = [...(track?.usage ?? [])];
   if (sample.unitHours !== undefined && Number.isFinite(sample.unitHours)) {
     usage.push({ time: sample.time, unitHours: sample.unitHours });
@@ -134,7 +146,15 @@ export function advanceForecast(track: ForecastTrack | undefined, input: Forecas
       last: { sampleId: sample.sampleId, sampledAt: sample.sampledAt, level, censored, ...(t !== undefined && { oilHours: t }) },
     };
   }
-  return { chargeIndex: input.chargeIndex, usage, topUp, filter, trend };
+  return {
+    chargeIndex: input.chargeIndex,
+    ...(oilHours !== undefined && { oilHours }),
+    ...(pastCharges.length > 0 && { pastCharges }),
+    usage,
+    topUp,
+    filter,
+    trend,
+  };
 }
 
 function addSince(s: SinceSignal | undefined, iv: Interval, settings: ComponentSettings): SinceSignal {

@@ -96,8 +96,12 @@ export interface ComponentForecast {
   readonly oilHours: number | null;
   /** Operating hours per calendar day from recent samples; null when unknown. */
   readonly hoursPerDay: number | null;
-  /** The planned oil change in oil hours on the present charge; null when the group sets none. */
+  /**
+   * The oil change in oil hours on the present charge: planned (the group's `chargeHours`), else expected from the
+   * longest of the recent past charges when the present one has not outrun it; null when neither is known.
+   */
   readonly chargeHours: number | null;
+  readonly chargeHoursFrom: 'planned' | 'past-charges' | null;
   /** The last oil hours the forecast looks to. */
   readonly horizonOilHours: number | null;
   /** The interval's percentiles, e.g. [10, 90]. */

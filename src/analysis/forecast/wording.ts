@@ -6,6 +6,8 @@ import type { LimitSpec } from './limits.ts';
 
 export interface WordingContext {
   readonly chargeHours: number | null;
+  /** The charge length is the group's plan (else: expected from the past charges). */
+  readonly planned: boolean;
   readonly horizonHours: number;
   readonly residualFraction: number;
 }
@@ -43,7 +45,8 @@ export function forecastText(m: Measurand, spec: LimitSpec, f: Parts, ctx: Wordi
       const verb = f.side === 'above' ? 'reach' : 'fall to';
       if (ctx.chargeHours === null) return `At the present rate, ${title} does not ${verb} ${level} within the next ${formatNumber(ctx.horizonHours)} operating hours.`;
       const accumulates = MEASURANDS[m].kind === 'wear' || MEASURANDS[m].kind === 'contaminant';
-      if (!accumulates) return `At the present rate, ${title} does not ${verb} ${level} before the next oil change (planned at ${formatNumber(ctx.chargeHours)} oil hours).`;
+      const when = ctx.planned ? `planned at ${formatNumber(ctx.chargeHours)} oil hours` : `expected at about ${formatNumber(ctx.chargeHours)} oil hours, as on past charges`;
+      if (!accumulates) return `At the present rate, ${title} does not ${verb} ${level} before the next oil change (${when}).`;
       const next = f.nextCharge?.oilHours;
       const after =
         next === undefined
@@ -51,7 +54,7 @@ export function forecastText(m: Measurand, spec: LimitSpec, f: Parts, ctx: Wordi
           : next === null
             ? '; nor in the next charge'
             : `; from the ${formatNumber(ctx.residualFraction * 100)} % residual oil left at the drain, it would about ${roundHours(next)} oil hours into the next charge`;
-      return `At the present rate, ${title} does not ${verb} ${level} within this charge (oil change planned at ${formatNumber(ctx.chargeHours)} oil hours)${after}.`;
+      return `At the present rate, ${title} does not ${verb} ${level} within this charge (oil change ${when})${after}.`;
     }
   }
 }
