@@ -19,7 +19,7 @@ export const ForecastSchema = z
       .finite()
       .positive()
       .default(2000)
-      .describe('How far ahead, in operating hours, a forecast looks when the group sets no planned charge length (chargeHours).'),
+      .describe('How far ahead, in operating hours, a forecast looks when the group sets no planned charge length (chargeHours) and no past charge shows one.'),
     minIntervals: z
       .number()
       .int()
