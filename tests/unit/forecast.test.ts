@@ -239,6 +239,8 @@ describe('forecast where it shows', () => {
     expect(fe.projection.length).toBeGreaterThan(2);
     expect(fe.projection.every((p) => p.low <= p.central && p.central <= p.high && p.at !== undefined)).toBe(true);
     const svg = renderTrendChart(series, 'Fe');
+    const nearest = fe.limits.filter((l) => l.outcome === 'crossing')[0]!;
+    expect(svg).toContain(`Dashed projection: ${nearest.text.replaceAll('&', '&amp;')}`);
     expect(svg).toMatch(/<polygon data-forecast-band="10-90" points="[\d., -]+"/);
     expect(svg).toMatch(/<path data-forecast-central="true" d="M[\d.,L]+" fill="none" stroke="#2b2b2b" stroke-width="1.6" stroke-dasharray="5 4"\/>/);
     const off = buildComponentSeries(evaluation, { ...settings, forecast: { ...settings.forecast!, enabled: false } }, undefined, { measurands: ['Fe'] });
