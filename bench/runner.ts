@@ -11,6 +11,7 @@ import { cpus, loadavg, totalmem } from 'node:os';
 import { parseArgs } from 'node:util';
 import { runDesignCheck } from './designCheck.ts';
 import { runDetection } from './detection.ts';
+import { runForecast } from './forecast.ts';
 import { jsonLine, renderPart, type PartResult } from './report.ts';
 import { runQuiet } from './quiet.ts';
 import { runScaling } from './scaling.ts';
@@ -40,6 +41,7 @@ export const PARTS: Record<string, Part> = {
     }),
   'design-check': ({ scale, seed }) => runDesignCheck({ seed, components: at(scale, 300, 40) }),
   quiet: ({ scale, seed, log }) => runQuiet({ seed, log, componentsPerKind: at(scale, 150, 15) }),
+  forecast: ({ scale, seed }) => runForecast({ seed, components: at(scale, 300, 30), trainingComponents: at(scale, 40, 10) }),
   scaling: ({ scale, seed }) => runScaling({ seed, histories: at(scale, 5, 2), batches: at(scale, 15, 3) }),
   throughput: (o) => runThroughput(o),
   latency: (o) => runLatency(o),

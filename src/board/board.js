@@ -285,8 +285,11 @@ function updateCard(card, incident) {
     measurands.length > 0 ? ` — ${measurands.join(', ')}` : '',
   );
   renderState(card);
+  const forecasts = (incident.forecast ?? []).slice(0, 4);
   card.evidence.replaceChildren(
     ...(incident.evidence ?? []).slice(0, 4).map((f) => el('li', {}, el('strong', { text: `${f.severity} · ${f.rule}: ` }), f.explanation)),
+    ...forecasts.map((f) => el('li', { class: 'forecast', 'data-forecast': f.outcome }, el('strong', { text: 'time to limit: ' }), f.text)),
+    ...(forecasts.length > 0 ? [el('li', { class: 'forecast-caution', text: FORECAST_CAUTION })] : []),
   );
   const enabled = canAct() && !incident.closed;
   for (const button of Object.values(card.buttons)) {
@@ -502,6 +505,18 @@ function timelineText(entry) {
   }
 }
 
+/** Beside every forecast, as in the e-mail (src/domain/caution.ts). */
+const FORECAST_CAUTION = 'A forecast assumes the present rate continues; wear can speed up or settle at any time.';
+
+/** The forecast sentences of one measurand's series, under its chart on the component page. */
+function forecastList(m) {
+  const limits = m.forecast?.limits ?? [];
+  if (limits.length === 0) return [];
+  const seen = new Set();
+  const lines = limits.filter((l) => !seen.has(l.text) && seen.add(l.text)).map((l) => el('li', { 'data-forecast': l.outcome, text: l.text }));
+  return [el('ul', { class: 'evidence forecast', 'aria-label': `Time to limit, ${m.measurand}` }, ...lines), el('p', { class: 'hint', text: FORECAST_CAUTION })];
+}
+
 function renderCharts(result) {
   const charts = $('charts');
   if (!result.ok) {
@@ -515,7 +530,7 @@ function renderCharts(result) {
     ...result.body.measurands.map((m) => {
       const holder = el('div', { class: 'chart' }, el('p', { class: 'loading', text: 'Loading…' }));
       void loadChart(holder, page.unit, page.component, m.measurand, 760);
-      return el('figure', {}, el('figcaption', { text: `${m.measurand} — ${m.label} (${m.unit})` }), holder);
+      return el('figure', {}, el('figcaption', { text: `${m.measurand} — ${m.label} (${m.unit})` }), holder, ...forecastList(m));
     }),
   );
 }

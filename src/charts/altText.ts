@@ -29,6 +29,9 @@ export function chartAltText(series: ComponentSeries, measurand: Measurand): str
   const ewma = m.ewma?.points[m.ewma.points.length - 1];
   if (ewma) parts.push(`EWMA ${fmt(ewma.ewma)} within limits ${fmt(ewma.lcl)} to ${fmt(ewma.ucl)}${ewma.ewma > ewma.ucl || ewma.ewma < ewma.lcl ? ': outside them' : ''}.`);
   parts.push(findingsText(m, last.sampleId));
+  // The nearest level the trend heads for, as the dashed projection shows it.
+  const ahead = m.forecast?.limits.filter((l) => l.outcome === 'crossing').sort((a, b) => a.central!.hoursFromNow - b.central!.hoursFromNow)[0];
+  if (ahead !== undefined) parts.push(`Dashed projection: ${ahead.text} A forecast assumes the present rate continues.`);
   return parts.join(' ');
 }
 

@@ -17,6 +17,8 @@ import { populationMeasurands } from '../analysis/populationStats.ts';
 import { populationLimitStatus, type PopulationLimitStatus } from '../analysis/rules/population.ts';
 import type { RuleInput } from '../analysis/rules/ruleInput.ts';
 import { detectorTraces, type CusumTrace, type EwmaTrace } from './detectorTraces.ts';
+import { forecastComponent } from '../analysis/forecast/forecastComponent.ts';
+import type { ComponentForecast, MeasurandForecast } from '../analysis/forecast/model.ts';
 
 export interface ComponentSeries {
   readonly unit: string;
@@ -24,6 +26,11 @@ export interface ComponentSeries {
   readonly group: string;
   readonly samples: number;
   readonly charges: number;
+  /**
+   * The time-to-limit forecasts' common ground (latest sample, hours per day, planned charge length, percentiles,
+   * caution); each measurand's own forecast is in its series. Null when forecasts are disabled.
+   */
+  readonly forecast: Omit<ComponentForecast, 'measurands'> | null;
   readonly measurands: readonly MeasurandSeries[];
 }
 
@@ -47,6 +54,11 @@ export interface MeasurandSeries {
   readonly ewma: EwmaTrace | null;
   /** One mark per finding of this measurand, in time order. */
   readonly marks: readonly RuleMark[];
+  /**
+   * When the reading is expected to cross each of its levels at the present rate, with the projection drawn dashed
+   * with its band on the chart; null when the measurand has no level to forecast or forecasts are disabled.
+   */
+  readonly forecast: MeasurandForecast | null;
 }
 
 /** The readings of one oil charge; wear-metal series restart at every new charge. */
@@ -151,17 +163,23 @@ export function buildComponentSeries(
   const input: RuleInput = { history, settings, intervals: (m) => intervals.get(m) ?? [], ...(group !== undefined && { group }) };
   const findings = evaluation.steps.flatMap((s) => s.findings);
   const measurands = options.measurands ?? plottedMeasurands(evaluation, settings);
+  const forecast = settings.forecast?.enabled === false || history.samples.length === 0 ? undefined : forecastComponent(evaluation.state, settings, group, { measurands });
+  const { measurands: perMeasurand, ...common } = forecast ?? { measurands: [] };
   return {
     unit: history.unit,
     component: history.component,
     group: settings.group,
     samples: history.samples.length,
     charges: history.charges.length,
-    measurands: measurands.map((m) => measurandSeries(input, evaluation.steps, m, findings.filter((f) => f.measurand === m))),
+    forecast: forecast === undefined ? null : (common as Omit<ComponentForecast, 'measurands'>),
+    measurands: measurands.map((m) => ({
+      ...measurandSeries(input, evaluation.steps, m, findings.filter((f) => f.measurand === m)),
+      forecast: perMeasurand.find((f) => f.measurand === m) ?? null,
+    })),
   };
 }
 
-function measurandSeries(input: RuleInput, steps: readonly FoldStep[], m: Measurand, findings: readonly Finding[]): MeasurandSeries {
+function measurandSeries(input: RuleInput, steps: readonly FoldStep[], m: Measurand, findings: readonly Finding[]): Omit<MeasurandSeries, 'forecast'> {
   const { history, settings } = input;
   const info = MEASURANDS[m];
   const charges = history.charges.map((c) => ({

@@ -65,7 +65,9 @@ export function renderTrendChart(series: ComponentSeries, measurand: Measurand, 
   const axisBottom = top;
   const height = axisBottom + 62;
 
-  const [t0, t1] = extent(sampleTimes(m)) as [number, number];
+  const projection = projectionOf(m);
+  const [t0, tLast] = extent(sampleTimes(m)) as [number, number];
+  const t1 = Math.max(tLast, ...projection.map((p) => p.time));
   const pad = Math.max((t1 - t0) * 0.02, 86_400_000);
   const x = scaleUtc()
     .domain([new Date(t0 - pad), new Date(t1 + pad)])
@@ -88,12 +90,13 @@ export function renderTrendChart(series: ComponentSeries, measurand: Measurand, 
     const labels = new PanelLabels(f, width);
     out.push(...gridAndYAxis(f, x, xTicks, width));
     out.push(...drawPanel(key, m, x, f, width, labels));
+    if (key === 'readings' && projection.length > 0) out.push(...drawProjection(m, projection, series.forecast?.percentiles ?? [10, 90], x, f, labels));
     out.push(...drawMarks(m, key, x, f, width, labels));
     out.push(...labels.render());
     out.push('</g>');
   }
   out.push(...xAxis(x, xTicks, axisBottom));
-  out.push(...legend(axisBottom + 44, width));
+  out.push(...legend(axisBottom + 44, width, projection.length > 0 ? m.forecast?.projection.length ?? 0 : 0));
   out.push('</svg>');
   return out.join('\n');
 }
@@ -120,12 +123,13 @@ function panelsOf(m: MeasurandSeries): PanelSpec[] {
   const kind = MEASURANDS[m.measurand].kind;
   const fromZero = kind === 'wear' || kind === 'contaminant';
   const populationLevels = (m.population ?? []).flatMap((p) => (p.status.kind === 'limits' ? [p.status.caution, p.status.alarm] : []));
+  const projected = projectionOf(m).flatMap((p) => [p.central, p.low, p.high]);
   const panels: PanelSpec[] = [
     {
       key: 'readings',
       heading: readingsHeading(m),
       height: 170,
-      domain: domainOf([...readings, ...nearLevels(m.limits, readings), ...near(populationLevels, readings)], fromZero),
+      domain: domainOf([...readings, ...nearLevels(m.limits, readings), ...near(populationLevels, readings), ...near(projected, readings)], fromZero),
     },
   ];
   if (m.rates !== null && m.rates.points.length > 0) {
@@ -446,7 +450,48 @@ function ruleWord(mark: RuleMark): string {
   return `${RULE_FAMILY_LABELS[mark.rule]}${arrow}`;
 }
 
-function legend(y: number, width: number): string[] {
+interface ProjectionAt {
+  readonly time: number;
+  readonly central: number;
+  readonly low: number;
+  readonly high: number;
+}
+
+/** The forecast's projection on the time axis: only when the hours run per day place it in time. */
+function projectionOf(m: MeasurandSeries): ProjectionAt[] {
+  if (m.cleanliness !== null || m.forecast === null) return [];
+  return m.forecast.projection.flatMap((p) => (p.at === undefined ? [] : [{ time: Date.parse(p.at), central: p.central, low: p.low, high: p.high }]));
+}
+
+/**
+ * The projected level from the last reading on: the central estimate dashed, the interval as a light band, so that the
+ * engineer sees where the trend heads and how sure that is, not a line to take as fact.
+ */
+function drawProjection(
+  m: MeasurandSeries,
+  points: readonly ProjectionAt[],
+  [a, b]: readonly [number, number],
+  x: ScaleTime<number, number>,
+  f: Frame,
+  labels: PanelLabels,
+): string[] {
+  const [lo, hi] = f.y.domain() as [number, number];
+  const clamp = (v: number) => f.y(Math.min(hi, Math.max(lo, v)));
+  const upper = points.map((p) => `${r(x(p.time))},${r(clamp(p.high))}`);
+  const lower = [...points].reverse().map((p) => `${r(x(p.time))},${r(clamp(p.low))}`);
+  const central = points.map((p, i) => `${i === 0 ? 'M' : 'L'}${r(x(p.time))},${r(clamp(p.central))}`).join('');
+  const title = escapeXml(`Projection at the present rate, ${a}th–${b}th percentile band; a forecast assumes the present rate continues`);
+  const last = points[points.length - 1]!;
+  labels.inPlot(r(x(last.time)) - 4, r(clamp(last.central)) - 6, 'forecast', 'end', { fill: NEUTRAL.mutedText });
+  return [
+    `<g data-forecast="${escapeXml(m.measurand)}"><title>${title}</title>`,
+    `<polygon data-forecast-band="${a}-${b}" points="${[...upper, ...lower].join(' ')}" fill="${NEUTRAL.band}" fill-opacity="0.28" stroke="none"/>`,
+    `<path data-forecast-central="true" d="${central}" fill="none" stroke="${NEUTRAL.data}" stroke-width="1.6" stroke-dasharray="5 4"/>`,
+    '</g>',
+  ];
+}
+
+function legend(y: number, width: number, forecastPoints = 0): string[] {
   const out: string[] = [`<g data-legend="severity">`];
   let px = MARGIN.left;
   for (const style of Object.values(SEVERITY_STYLE)) {
@@ -464,6 +509,13 @@ function legend(y: number, width: number): string[] {
   };
   item(`<line x1="${px}" x2="${px + 24}" y1="${y - 4}" y2="${y - 4}" stroke="${NEUTRAL.limit}" stroke-width="1.6" stroke-dasharray="6 3"/>`, 'limit', 78);
   item(`<line x1="${px + 5}" x2="${px + 19}" y1="${y - 4}" y2="${y - 4}" stroke="${NEUTRAL.band}" stroke-width="2.4"/>`, 'group limit', 124);
+  if (forecastPoints > 0 && px + 100 < width) {
+    item(
+      `<g data-legend-item="forecast"><rect x="${px}" y="${y - 9}" width="24" height="10" fill="${NEUTRAL.band}" fill-opacity="0.28"/><line x1="${px}" x2="${px + 24}" y1="${y - 4}" y2="${y - 4}" stroke="${NEUTRAL.data}" stroke-width="1.6" stroke-dasharray="5 4"/></g>`,
+      'forecast',
+      96,
+    );
+  }
   if (px + 140 < width) item(`<circle cx="${px + 12}" cy="${y - 4}" r="3.5" fill="${NEUTRAL.panel}" stroke="${NEUTRAL.data}" stroke-width="1.4"/>`, 'censored or not judged', 0);
   out.push('</g>');
   return out;

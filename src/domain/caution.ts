@@ -4,3 +4,9 @@
  */
 export const ADVICE_CAUTION =
   "wearshift advises: the laboratory's diagnosis, the equipment maker's limits, local codes and licensed practice decide.";
+
+/** Former name of ADVICE_CAUTION. */
+export const ADVISORY_CAUTION = ADVICE_CAUTION;
+
+/** What a time-to-limit forecast rests on. */
+export const FORECAST_CAUTION = 'A forecast assumes the present rate continues; wear can speed up or settle at any time.';

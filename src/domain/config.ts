@@ -8,6 +8,7 @@ import { parseReading } from './reading.ts';
 import { AlarmFiguresSchema } from './alarmFiguresConfig.ts';
 import { ChannelsSchema, EscalationSchema, escalationChannelIssues, IncidentsConfigSchema } from './escalationConfig.ts';
 import { OpcuaConfigSchema } from './opcuaConfig.ts';
+import { DEFAULT_FORECAST, ForecastSchema } from './forecastConfig.ts';
 
 const measurandName = z.enum(MEASURAND_NAMES as [Measurand, ...Measurand[]], { error: (i) => `unknown measurand "${String(i.input)}"` });
 const positive = z.number().finite().positive();
@@ -151,6 +152,7 @@ const GroupSettingsSchema = z
   .object({
     sumpLitres: positive.optional().describe('Oil volume of the compartment, for the make-up-oil correction.'),
     residualFraction: z.number().min(0).lt(1).optional().describe('Share of the old charge left after a drain (common practice: 0.05–0.2 engines, up to 0.4 hydraulics).'),
+    chargeHours: positive.optional().describe('Planned oil-change interval in oil hours: the horizon of the time-to-limit forecasts.'),
     limits: levelsByMeasurand.optional().describe('Fixed caution/alarm levels per measurand.'),
     rateLimits: levelsByMeasurand.optional().describe('Rate-of-change levels in ppm per 100 h.'),
     newOil: NewOilSchema.optional(),
@@ -202,6 +204,7 @@ export const ConfigSchema = z
     detection: DetectionSchema.default(DetectionSchema.parse({})),
     population: PopulationSchema.default(PopulationSchema.parse({})),
     condition: ConditionSchema.default(ConditionSchema.parse({})),
+    forecast: ForecastSchema.default(DEFAULT_FORECAST),
     defaults: GroupSettingsSchema.omit({ detection: true, population: true, condition: true }).default({}).describe('Settings for every group unless the group says otherwise.'),
     groups: z.array(GroupSchema).default([]),
     backfill: z

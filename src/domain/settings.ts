@@ -3,6 +3,7 @@
  * group whose match fits, else a group named after the component (like-for-like by compartment name).
  */
 import type { Condition, Config, Detection, GroupConfig, Levels, Population } from './config.ts';
+import type { ForecastConfig } from './forecastConfig.ts';
 import type { Measurand } from './measurands.ts';
 
 export interface ComponentSettings {
@@ -17,6 +18,10 @@ export interface ComponentSettings {
   readonly cleanlinessTarget?: string;
   readonly detection: Detection;
   readonly population: Population;
+  /** Planned oil-change interval in oil hours, when the group sets one (forecast horizon). */
+  readonly chargeHours?: number;
+  /** Time-to-limit forecasts; absent: the defaults of forecastConfig.ts. */
+  readonly forecast?: ForecastConfig;
 }
 
 /** Common practice: about 10 % of an engine charge stays behind after a drain (5–20 % engines, up to 40 % hydraulics). */
@@ -42,6 +47,7 @@ export function resolveSettings(config: Config, c: { unit: string; component: st
   const d = config.defaults;
   const sumpLitres = g?.sumpLitres ?? d.sumpLitres;
   const cleanlinessTarget = g?.cleanliness?.target ?? d.cleanliness?.target;
+  const chargeHours = g?.chargeHours ?? d.chargeHours;
   return {
     group,
     residualFraction: g?.residualFraction ?? d.residualFraction ?? DEFAULT_RESIDUAL_FRACTION,
@@ -51,6 +57,8 @@ export function resolveSettings(config: Config, c: { unit: string; component: st
     condition: mergeOverride(config.condition, g?.condition),
     detection: mergeOverride(config.detection, g?.detection),
     population: mergeOverride(config.population, g?.population),
+    forecast: config.forecast,
+    ...(chargeHours !== undefined && { chargeHours }),
     ...(sumpLitres !== undefined && { sumpLitres }),
     ...(cleanlinessTarget !== undefined && { cleanlinessTarget }),
   };

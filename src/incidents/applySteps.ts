@@ -2,6 +2,7 @@
  * Feeds one component's evaluation steps into its incidents: the verdict judges each step (verdict.ts), then the
  * annunciation tells what changed (escalation.ts). Steps already judged are skipped, so redelivery changes nothing.
  */
+import type { ComponentForecast } from '../analysis/forecast/model.ts';
 import type { Finding } from '../domain/finding.ts';
 import { draftOf, type Work } from './draft.ts';
 import { annunciate } from './escalation.ts';
@@ -27,6 +28,8 @@ export interface IncidentStep {
   readonly time?: number;
   readonly unitHours?: number;
   readonly findings: readonly Finding[];
+  /** The component's time-to-limit forecasts after this step, when it has findings that ask for an incident. */
+  readonly forecast?: ComponentForecast;
   /** The sample arrived as backfill; default: sampled before the context's quietBefore. */
   readonly quiet?: boolean;
 }

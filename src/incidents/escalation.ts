@@ -37,6 +37,7 @@ export function snapshot(inc: DraftIncident, reason: string): IncidentSnapshot {
     lastSampledAt: inc.lastSampledAt,
     tier: Math.max(0, inc.escalation.reachedTier),
     findings: structuredClone(inc.evidence),
+    ...(inc.forecast !== undefined && { forecast: structuredClone(inc.forecast) }),
     reason,
   };
 }

@@ -5,6 +5,7 @@
  */
 import type { Finding, IncidentKind, Severity } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
+import type { LimitForecast } from '../analysis/forecast/model.ts';
 
 export type AlarmCondition = 'active' | 'returned';
 
@@ -143,6 +144,11 @@ export interface Incident {
   readonly evidence: readonly Finding[];
   /** Advisory and held findings of the same sample, shown beside the evidence the way a lab report shows them. */
   readonly context: readonly Finding[];
+  /**
+   * How long until the evidence's measurands cross their limits, as of the evidence's sample (analysis/forecast);
+   * absent when forecasts are disabled. A forecast assumes the present rate continues.
+   */
+  readonly forecast?: readonly LimitForecast[];
   readonly acknowledged: Acknowledgement | null;
   readonly shelved: Shelving | null;
   readonly closed: Closure | null;
@@ -229,6 +235,8 @@ export interface IncidentSnapshot {
   /** Highest escalation tier told; 0 before the first escalation. */
   readonly tier: number;
   readonly findings: readonly Finding[];
+  /** Time-to-limit forecasts of the evidence's measurands (see Incident.forecast). */
+  readonly forecast?: readonly LimitForecast[];
   /** One sentence: why this message goes out. */
   readonly reason: string;
 }

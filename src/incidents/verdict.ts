@@ -16,6 +16,7 @@ import type { DraftIncident, DraftState } from './draft.ts';
 import { IncidentConflictError, IncidentNotFoundError } from './errors.ts';
 import type { Closure, RecordedAction, StepPosition } from './model.ts';
 import type { IncidentRules } from './policy.ts';
+import type { ComponentForecast, LimitForecast } from '../analysis/forecast/model.ts';
 
 /** A step as the verdict judges it. */
 export interface VerdictStep {
@@ -24,6 +25,8 @@ export interface VerdictStep {
   readonly time: number;
   readonly unitHours?: number;
   readonly findings: readonly Finding[];
+  /** The component's time-to-limit forecasts after this step (analysis/forecast); absent when not made. */
+  readonly forecast?: ComponentForecast;
 }
 
 export interface StepOptions {
@@ -125,6 +128,10 @@ function withFindings(
   inc.activeFindings = findings;
   inc.evidence = findings;
   inc.context = context;
+  // A sampling incident is about the samples, not the machine: no time to limit.
+  const forecast = inc.kind === 'machine' ? forecastOf(step.forecast, measurandsOf(findings)) : undefined;
+  if (forecast !== undefined) inc.forecast = forecast;
+  else delete inc.forecast;
   inc.severity = highest(findings);
   inc.peakSeverity = maxSeverity(inc.peakSeverity, inc.severity);
   inc.cleanSteps = 0;
@@ -145,6 +152,22 @@ function withFindings(
     }
   }
   return inc;
+}
+
+/**
+ * The forecasts an incident carries: those of its evidence's measurands, not the levels already crossed (the
+ * findings say so), and one "not enough history" line per measurand rather than one per level.
+ */
+function forecastOf(forecast: ComponentForecast | undefined, measurands: readonly Measurand[]): LimitForecast[] | undefined {
+  if (forecast === undefined) return undefined;
+  const out: LimitForecast[] = [];
+  for (const m of measurands) {
+    const limits = forecast.measurands.find((x) => x.measurand === m)?.limits ?? [];
+    const unknown = limits.find((l) => l.outcome === 'not-enough-history');
+    if (unknown !== undefined) out.push(unknown);
+    else out.push(...limits.filter((l) => l.outcome === 'crossing' || l.outcome === 'after-oil-change'));
+  }
+  return out;
 }
 
 function openIncident(

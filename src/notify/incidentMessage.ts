@@ -6,6 +6,7 @@ import type { Sample } from '../domain/event.ts';
 import { formatReading } from '../domain/reading.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
 import type { IncidentMessage, IncidentMessageType } from './message.ts';
+import { ADVISORY_CAUTION, FORECAST_CAUTION } from '../domain/caution.ts';
 
 /** About five recent results, as the message format asks. */
 const RECENT_RESULTS = 5;
@@ -40,6 +41,24 @@ export function incidentMessage(effect: NotifyEffect, revisions: readonly Sample
       sampledAt: f.sampledAt,
       explanation: f.explanation,
     })),
+    ...(s.forecast !== undefined &&
+      s.forecast.length > 0 && {
+        forecast: {
+          caution: `${FORECAST_CAUTION} ${ADVISORY_CAUTION}`,
+          items: s.forecast.map((f) => ({
+            measurand: f.measurand,
+            severity: f.severity,
+            source: f.source,
+            side: f.side,
+            level: f.level,
+            outcome: f.outcome,
+            text: f.text,
+            ...(f.central && { central: { ...f.central } }),
+            ...(f.early && { early: { ...f.early } }),
+            ...(f.late && { late: { ...f.late } }),
+          })),
+        },
+      }),
     recentResults: recent.map((r) => ({
       sampleId: r.sampleId,
       sampledAt: r.sampledAt,

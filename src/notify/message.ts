@@ -36,6 +36,28 @@ export interface IncidentMessage {
     sampledAt: string;
     explanation: string;
   }>;
+  /**
+   * How long until the evidence's measurands cross their limits at the present rate (central estimate and
+   * interval, in operating hours and as a date), or why there is no forecast; with the caution that a forecast
+   * assumes the present rate continues. Absent when forecasts are disabled.
+   */
+  forecast?: {
+    caution: string;
+    items: Array<{
+      measurand: string;
+      severity: string;
+      /** fixed, population or condition. */
+      source: string;
+      side: 'above' | 'below';
+      level: number;
+      /** crossing, after-oil-change or not-enough-history. */
+      outcome: string;
+      text: string;
+      central?: ForecastTimeMessage;
+      early?: ForecastTimeMessage;
+      late?: ForecastTimeMessage;
+    }>;
+  };
   /** The last few results (about five), newest last, readings already formatted. */
   recentResults: Array<{ sampleId: string; sampledAt: string; oilHours?: number; readings: Record<string, string> }>;
   /** One sentence, e.g. "Fe wear rate shifted up (CUSUM 5.6 above its limit 5.0) since LAB-0042." */
@@ -44,6 +66,13 @@ export interface IncidentMessage {
   advice: string;
   /** From the incident engine: the same key means the same message, so every channel can de-duplicate on it. */
   idempotencyKey: string;
+}
+
+/** A forecast time: oil hours on the charge, operating hours from the latest sample, date (YYYY-MM-DD) when known. */
+export interface ForecastTimeMessage {
+  oilHours: number;
+  hoursFromNow: number;
+  date?: string;
 }
 
 /** Whether a message still asks someone to take ownership, so that it carries an acknowledgement link. */

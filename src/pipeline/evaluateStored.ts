@@ -112,9 +112,20 @@ async function evaluateUnderLease(deps: EvaluationDeps, ref: ComponentRef, lease
   let count = start.count;
   for (const s of stored) {
     const sample = s.sample;
-    const step = fold.advance(sample, statsByMonth.get(monthOf(sample.time)), input.marks.get(sample.sampleId));
+    const stats = statsByMonth.get(monthOf(sample.time));
+    const step = fold.advance(sample, stats, input.marks.get(sample.sampleId));
     steps.push(step);
-    incidents.step({ ...step, time: sample.time, ...(sample.unitHours !== undefined && { unitHours: sample.unitHours }), quiet: s.receivedAt - sample.time > quietAfter });
+    // The forecast travels with an incident's evidence, so it is made only where a step asks for an incident, and
+    // only for the measurands of that evidence.
+    const evidence = [...new Set(step.findings.filter((f) => f.disposition === 'incident' && f.rule !== 'sampling').map((f) => f.measurand))];
+    const forecast = evidence.length > 0 ? fold.forecast(stats, { measurands: evidence }) : undefined;
+    incidents.step({
+      ...step,
+      time: sample.time,
+      ...(sample.unitHours !== undefined && { unitHours: sample.unitHours }),
+      quiet: s.receivedAt - sample.time > quietAfter,
+      ...(forecast !== undefined && { forecast }),
+    });
     const included = step.status === undefined || step.status === 'confirmed';
     shares.push({ sampleId: sample.sampleId, month: monthOf(sample.time), values: included ? populationShare(sample, settings) : null });
     count += 1;

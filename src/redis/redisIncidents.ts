@@ -5,6 +5,7 @@
  * outbox over to the queues. Evaluations write the same keys in their commit (redisStore.ts).
  */
 import type { Step } from '../analysis/model.ts';
+import type { IncidentStep } from '../incidents/applySteps.ts';
 import { applyAction, type ActionResult, type IncidentAction } from '../incidents/applyAction.ts';
 import { applyEscalationCheck, type EscalationCheck } from '../incidents/applyEscalationCheck.ts';
 import { applySteps } from '../incidents/applySteps.ts';
@@ -80,7 +81,7 @@ export class RedisIncidents {
   }
 
   /** Feeds evaluation steps of one component (see applySteps); effects go to the outbox. For tools and tests. */
-  async applySteps(ref: ComponentRef, steps: readonly Step[], input: StepsInput): Promise<StoredStepsResult> {
+  async applySteps(ref: ComponentRef, steps: readonly (Step & Pick<IncidentStep, 'forecast'>)[], input: StepsInput): Promise<StoredStepsResult> {
     return this.update(ref, (before) => {
       const r = applySteps(before, steps, { ...input, rules: this.rules });
       return { ...r, before };

@@ -97,6 +97,20 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     expect(await page.locator('.incident .chart svg .mark').count()).toBeGreaterThan(0);
   });
 
+  it("shows each incident's time to limit, as the API gives it, with the caution that it assumes the present rate continues", async () => {
+    const open = (await api('/v1/incidents?state=open')).incidents as { id: string; forecast?: { text: string }[] }[];
+    const withForecast = open.filter((i) => (i.forecast?.length ?? 0) > 0);
+    expect(withForecast.length).toBeGreaterThan(0);
+    for (const incident of withForecast) {
+      const card = page.locator(`#incidents > li.incident[data-incident="${incident.id}"]`);
+      const items = card.locator('.evidence li.forecast');
+      await poll(() => items.count()).toBe(Math.min(4, incident.forecast!.length));
+      const texts = await items.evaluateAll((els) => els.map((e) => e.textContent ?? ''));
+      for (const [i, t] of texts.entries()) expect(t).toBe(`time to limit: ${incident.forecast![i]!.text}`);
+      expect(await card.locator('.evidence li.forecast-caution').innerText()).toContain('A forecast assumes the present rate continues');
+    }
+  });
+
   it('brings in a new incident from a server-sent event, without reloading the page', async () => {
     await page.evaluate(() => Object.assign(globalThis, { boardMarker: 'still the same page' }));
     const before = await page.locator('#incidents > li.incident').count();
@@ -172,6 +186,17 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     const measurands = (series.measurands as { measurand: string }[]).map((m) => m.measurand);
     expect(measurands.slice(0, 2)).toEqual(['Fe', 'Cu']);
     await poll(() => page.locator('#charts figure svg[role="img"]').count()).toBe(measurands.length);
+    // Each series' forecasts under its chart, and the projection drawn dashed with its band on the chart itself.
+    const forecasting = (series.measurands as { measurand: string; forecast: { status: string; limits: { text: string }[]; projection: { at?: string }[] } | null }[]).filter(
+      (m) => m.forecast !== null && m.forecast.limits.length > 0,
+    );
+    expect(forecasting.length).toBeGreaterThan(0);
+    for (const m of forecasting) {
+      const list = page.locator(`#charts ul.forecast[aria-label="Time to limit, ${m.measurand}"] li`);
+      await poll(() => list.count()).toBe(new Set(m.forecast!.limits.map((l) => l.text)).size);
+    }
+    const projected = forecasting.filter((m) => m.forecast!.status === 'forecast' && m.forecast!.projection.some((p) => p.at !== undefined));
+    if (projected.length > 0) await poll(() => page.locator('#charts svg [data-forecast-band]').count()).toBeGreaterThan(0);
     expect(await page.locator('#view-title').innerText()).toBe('PS2-P3 / gearbox');
     // What the analysis can judge yet, per measurand, as the series API says it.
     const readiness = series.readiness as { measurand: string; summary: string }[];

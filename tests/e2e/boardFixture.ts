@@ -3,7 +3,8 @@
  * real incident store in a private redis-server, fed with the invented demo fleet evaluated by the real core.
  */
 import Fastify, { type FastifyInstance } from 'fastify';
-import { evaluateComponent } from '../../src/analysis/evaluate.ts';
+import { AnalysisFold, emptyAnalysisState } from '../../src/analysis/fold/analysisFold.ts';
+import { buildHistory } from '../../src/analysis/history.ts';
 import { demoFleet } from '../../src/demo/fleet.ts';
 import { loadConfig } from '../../src/runtime/loadConfig.ts';
 import { componentKey, parseResultEvent, type Sample } from '../../src/domain/event.ts';
@@ -115,7 +116,15 @@ export async function startBoardFixture(components: readonly [string, string][])
     const list = samples.get(componentKey({ unit, component }));
     if (list === undefined) throw new Error(`no demo samples for ${unit}/${component}`);
     const settings = resolveSettings(config, list[0]!);
-    const { steps } = evaluateComponent(list, settings, undefined, { marks: marksOf(componentKey({ unit, component })) });
+    // As the worker folds them (src/pipeline/evaluateStored.ts): a step that asks for an incident carries the
+    // time-to-limit forecast of its evidence's measurands.
+    const fold = new AnalysisFold(settings, emptyAnalysisState(unit, component));
+    const steps = buildHistory(list).samples.map((s) => {
+      const step = fold.advance(s, undefined, marksOf(componentKey({ unit, component })).get(s.sampleId));
+      const evidence = [...new Set(step.findings.filter((f) => f.disposition === 'incident' && f.rule !== 'sampling').map((f) => f.measurand))];
+      const forecast = evidence.length > 0 ? fold.forecast(undefined, { measurands: evidence }) : undefined;
+      return { ...step, ...(forecast !== undefined && { forecast }) };
+    });
     const result = await store.applySteps({ unit, component }, steps, { group: settings.group, now: new Date(), quietBefore: new Date(0) });
     const changes = incidentChanges(result.before, result.state);
     for (const change of changes) hub.publish(incidentEvent(change));

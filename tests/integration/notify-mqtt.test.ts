@@ -86,6 +86,29 @@ describe('MQTT publishing', () => {
     expect(sessions).toContainEqual({ id: 'wearshift-test-1', clean: false });
   });
 
+  it('carries the time-to-limit forecast and its caution in the event data to a subscriber', async () => {
+    const { evaluateComponent } = await import('../../src/analysis/evaluate.ts');
+    const { forecastComponent } = await import('../../src/analysis/forecast/forecastComponent.ts');
+    const { parseConfig } = await import('../../src/domain/configFile.ts');
+    const { resolveSettings } = await import('../../src/domain/settings.ts');
+    const { FORECAST_CAUTION } = await import('../../src/domain/caution.ts');
+    const { simulatedSamples, SIM_CONFIG } = await import('../helpers/wearFleet.ts');
+    const samples = simulatedSamples({ samples: 33, intervalHours: 120 }, 13);
+    const settings = resolveSettings(parseConfig(`${SIM_CONFIG}    chargeHours: 1000\n    limits: { Fe: { caution: 40, alarm: 60 } }\n`), samples[0]!);
+    const f = forecastComponent(evaluateComponent(samples, settings).state, settings, undefined, { measurands: ['Fe'] });
+    const items = f.measurands[0]!.limits.map((l) => ({ measurand: l.measurand, severity: l.severity, source: l.source, side: l.side, level: l.level, outcome: l.outcome, text: l.text }));
+    const withForecast = toCloudEvent(incidentMessage({ forecast: { caution: f.caution, items } }), { time: '2026-03-01T08:05:00Z' });
+    const broker = await startBroker();
+    cleanup.push(() => stopBroker(broker));
+    const sub = await subscriber(broker.port, 'board-forecast', 'plant/#');
+    const publisher = publisherFor(broker.port, 'wearshift-test-forecast');
+    await publisher.publish(withForecast);
+    await waitFor(() => sub.received.length === 1, 2000, 'the subscriber to receive the event');
+    const got = sub.received[0]!.event as IncidentCloudEvent;
+    expect(got.data.forecast!.caution).toContain(FORECAST_CAUTION);
+    expect(got.data.forecast!.items.map((i) => i.text)).toEqual(items.map((i) => i.text));
+  });
+
   it('resolves only once the broker has acknowledged (PUBACK)', async () => {
     // The broker sends PUBACK only after authorizePublish has let the message through; holding that back
     // for 400 ms holds back the acknowledgement.

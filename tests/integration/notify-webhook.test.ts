@@ -184,3 +184,26 @@ describe('webhook delivery', () => {
     expect(JSON.stringify(entry)).not.toMatch(/s3cret|pw@/);
   });
 });
+
+describe('webhook delivery of a time-to-limit forecast', () => {
+  it('carries the forecast and its caution in the CloudEvent data to a receiver that verifies the signature', async () => {
+    const { evaluateComponent } = await import('../../src/analysis/evaluate.ts');
+    const { forecastComponent } = await import('../../src/analysis/forecast/forecastComponent.ts');
+    const { parseConfig } = await import('../../src/domain/configFile.ts');
+    const { resolveSettings } = await import('../../src/domain/settings.ts');
+    const { FORECAST_CAUTION } = await import('../../src/domain/caution.ts');
+    const { simulatedSamples, SIM_CONFIG } = await import('../helpers/wearFleet.ts');
+    const samples = simulatedSamples({ samples: 33, intervalHours: 120 }, 13);
+    const settings = resolveSettings(parseConfig(`${SIM_CONFIG}    chargeHours: 1000\n    limits: { Fe: { caution: 40, alarm: 60 } }\n`), samples[0]!);
+    const f = forecastComponent(evaluateComponent(samples, settings).state, settings, undefined, { measurands: ['Fe'] });
+    const items = f.measurands[0]!.limits.map((l) => ({ measurand: l.measurand, severity: l.severity, source: l.source, side: l.side, level: l.level, outcome: l.outcome, text: l.text, ...(l.central && { central: l.central }) }));
+    const withForecast = toCloudEvent(incidentMessage({ forecast: { caution: f.caution, items } }), { time: '2026-03-01T08:05:00Z' });
+    const result = await deliverWebhook(endpoint(), withForecast, { now: new Date() });
+    expect(result).toMatchObject({ outcome: 'delivered', status: 204 });
+    const body = JSON.parse(requests[0]!.body) as { data: { forecast: { caution: string; items: { text: string; outcome: string }[] } } };
+    expect(requests[0]!.verdict).toBe('verified');
+    expect(body.data.forecast.caution).toContain(FORECAST_CAUTION);
+    expect(body.data.forecast.items.map((i) => i.text)).toEqual(items.map((i) => i.text));
+    expect(body.data.forecast.items.some((i) => i.outcome === 'crossing')).toBe(true);
+  });
+});

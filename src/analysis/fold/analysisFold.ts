@@ -24,6 +24,11 @@ import type { SampleInput } from '../rules/ruleInput.ts';
 import { advanceCharge, chargeStart, type ChargeTrack } from './chargeTrack.ts';
 import { advanceChange, emptyChangeTrack, type ChangePoint, type ChangeTrack, type DetectorLimits } from './changeTrack.ts';
 import { advanceWear, EMPTY_WEAR_TRACK, rollOverCharge, type WearTrack } from './wearTrack.ts';
+import { DEFAULT_FORECAST } from '../../domain/forecastConfig.ts';
+import { advanceForecast, type ForecastTrack } from '../forecast/forecastTrack.ts';
+import { forecastMeasurands } from '../forecast/limits.ts';
+import { forecastComponent, type ForecastOptions } from '../forecast/forecastComponent.ts';
+import type { ComponentForecast } from '../forecast/model.ts';
 
 /** Where a sample sorts in a history: by sampling time, then unit hours (missing last), then sampleId. */
 export interface OrderKey {
@@ -42,6 +47,8 @@ export interface AnalysisState {
   readonly wear: Readonly<Partial<Record<Measurand, WearTrack>>>;
   readonly change: Readonly<Partial<Record<Measurand, ChangeTrack>>>;
   readonly sampling: SamplingTrack;
+  /** What the time-to-limit forecast needs beyond the tracks above (forecast/forecastTrack.ts); absent when disabled. */
+  readonly forecast?: ForecastTrack;
 }
 
 /** What the analysis saw at one sample besides its findings: the intervals ending there and the detectors' statistics. */
@@ -81,8 +88,11 @@ export class AnalysisFold {
     wear: Partial<Record<Measurand, WearTrack>>;
     change: Partial<Record<Measurand, ChangeTrack>>;
     sampling: SamplingTrack;
+    forecast?: ForecastTrack;
   };
   private readonly limits: DetectorLimits;
+  /** Measurands the forecast fits a straight line to (those with a level to watch that the filter does not follow); null: no forecast. */
+  private readonly trendMeasurands: readonly Measurand[] | null;
   private readonly detecting: boolean;
   private readonly hold: boolean;
 
@@ -97,6 +107,15 @@ export class AnalysisFold {
     const l = detectionLimits(d, changeBudgetShare(settings.population));
     this.limits = { cusumH: l.cusumH, ewmaL: l.ewmaL };
     this.hold = options.holdRateWhileSignalling ?? true;
+    const forecast = settings.forecast ?? DEFAULT_FORECAST;
+    this.trendMeasurands = forecast.enabled
+      ? forecastMeasurands(settings).filter((m) => !(d.measurands.includes(m) && MEASURANDS[m].kind === 'wear'))
+      : null;
+  }
+
+  /** The time-to-limit forecasts as of the samples folded so far (forecast/forecastComponent.ts); undefined when disabled. */
+  forecast(group: GroupStats | undefined, options: ForecastOptions = {}): ComponentForecast | undefined {
+    return this.trendMeasurands === null ? undefined : forecastComponent(this.s, this.settings, group, options);
   }
 
   /** A copy of the state after the samples folded so far. */
@@ -169,6 +188,19 @@ export class AnalysisFold {
         }
         if (track !== before) s.change[m] = track;
       }
+    }
+    if (included && this.trendMeasurands !== null) {
+      s.forecast = advanceForecast(s.forecast, {
+        sample,
+        chargeIndex: s.charge!.index,
+        newCharge,
+        settings: this.settings,
+        intervals,
+        points,
+        change: s.change,
+        trendMeasurands: this.trendMeasurands,
+        usageSamples: (this.settings.forecast ?? DEFAULT_FORECAST).usageSamples,
+      });
     }
     let findings: Finding[] =
       status === 'rejected'

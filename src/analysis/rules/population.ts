@@ -26,6 +26,15 @@ export function populationLimitStatus(input: Pick<SampleInput, 'settings' | 'gro
   return band === undefined ? { kind: 'not-enough-data', n: 0, needed: input.settings.population.minResults } : bandLimits(input, band);
 }
 
+/** The population alarm level of the oil-hours band holding `oilHours`; undefined where the band has no trusted limits. */
+export function populationAlarmAt(input: Pick<SampleInput, 'settings' | 'group'>, measurand: Measurand, oilHours: number): number | undefined {
+  const bands = input.group?.bands[measurand];
+  const band = bands === undefined ? undefined : bandFor(bands, oilHours);
+  if (band === undefined) return undefined;
+  const status = bandLimits(input, band);
+  return status.kind === 'limits' ? status.alarm : undefined;
+}
+
 export function populationFindings(input: RuleInput): Finding[] {
   return sweep(input, populationVerdicts);
 }

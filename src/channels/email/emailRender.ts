@@ -9,7 +9,9 @@ import { formatNumber, formatTime } from '../../notify/format.ts';
 import { ADVICE_CAUTION } from '../../domain/caution.ts';
 import { escapeHtml, headerValue, httpUrl, oneLine } from '../../domain/safeText.ts';
 
-export { ADVICE_CAUTION as ADVISORY_CAUTION } from '../../domain/caution.ts';
+import { ADVISORY_CAUTION, FORECAST_CAUTION } from '../../domain/caution.ts';
+
+export { ADVISORY_CAUTION };
 
 export interface EmailRenderOptions {
   /** Sender, e.g. `wearshift <alerts@plant.example>`; its domain also names the Message-ID. */
@@ -64,6 +66,7 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
     since: `sample ${oneLine(f.sampleId)}, drawn ${formatTime(f.sampledAt)}`,
     explanation: oneLine(f.explanation),
   }));
+  const forecasts = (msg.forecast?.items ?? []).map((f) => oneLine(f.text));
   const table = resultsTable(msg);
   const expiry = options.ackExpiresAt ? ` The link works until ${formatTime(options.ackExpiresAt.toISOString())}.` : '';
   const context = `Open since ${formatTime(inc.openedAt)} · group ${oneLine(inc.group)} · state ${oneLine(inc.state)} · escalation tier ${inc.tier}.`;
@@ -76,6 +79,7 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
     '',
     'Evidence',
     ...(evidence.length === 0 ? ['(no findings attached)'] : evidence.flatMap((e) => [`- ${e.title} (${e.since}).`, `  ${e.explanation}`])),
+    ...(forecasts.length > 0 ? ['', 'Time to limit', ...forecasts.map((f) => `- ${f}`), `  ${FORECAST_CAUTION}`] : []),
     ...(options.chart ? ['', 'Trend', oneLine(options.chart.alt)] : []),
     '',
     'Last results',
@@ -102,6 +106,9 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
     evidence.length === 0
       ? '<p>(no findings attached)</p>'
       : `<ul>${evidence.map((e) => `<li><strong>${escapeHtml(e.title)}</strong> (${escapeHtml(e.since)}).<br>${escapeHtml(e.explanation)}</li>`).join('')}</ul>`,
+    ...(forecasts.length > 0
+      ? ['<h3>Time to limit</h3>', `<ul>${forecasts.map((f) => `<li>${escapeHtml(f)}</li>`).join('')}</ul>`, `<p style="color:#555"><em>${escapeHtml(FORECAST_CAUTION)}</em></p>`]
+      : []),
     ...(options.chart
       ? ['<h3>Trend</h3>', `<p><img src="cid:${CHART_CID}" width="${options.chart.width}" style="max-width:100%;height:auto" alt="${escapeHtml(oneLine(options.chart.alt))}"></p>`]
       : []),

@@ -2,6 +2,7 @@
  * `wearshift incidents list|show|ack|shelve|unshelve|resolve|note`: the on-call engineer's commands, straight
  * against the Redis incident store. Messages that an action causes go to the outbox, which the worker sends.
  */
+import { FORECAST_CAUTION } from '../../domain/caution.ts';
 import type { Command } from 'commander';
 import type { Config } from '../../domain/config.ts';
 import { loadConfig } from '../../runtime/loadConfig.ts';
@@ -86,6 +87,7 @@ function printIncident(i: Incident, json: boolean): void {
     '',
     'evidence',
     ...i.evidence.map((f) => `  ${f.measurand} ${f.rule} ${f.severity}: ${f.explanation}`),
+    ...((i.forecast?.length ?? 0) > 0 ? ['', 'time to limit', ...i.forecast!.map((f) => `  ${f.text}`), `  (${FORECAST_CAUTION})`] : []),
     '',
     'timeline',
     ...mergedTimeline(i).map((e) => `  ${e.at}  ${entryText(e)}`),

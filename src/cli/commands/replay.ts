@@ -2,7 +2,7 @@
  * `wearshift replay FILE`: the whole pipeline in-process on a history, no Redis: the same storing,
  * evaluation and incident code as the live worker, records taken in file order. Prints the findings of each
  * newly judged sample and every incident change, in time order; then the incidents as the verdict stands after the
- * last record, and what each component cannot be judged on yet.
+ * last record with the time-to-limit forecasts of their evidence, and what each component cannot be judged on yet.
  */
 import type { Command } from 'commander';
 import { loadConfig } from '../../runtime/loadConfig.ts';
@@ -10,6 +10,7 @@ import { InputError } from '../../domain/errors.ts';
 import { formatOf, readRecordFile } from '../../intake/fileRecords.ts';
 import { replayRecords, type RejectedRecord, type TimelineLine } from '../../pipeline/replay.ts';
 import { ADVISORY_LINE, processingTime, writeJsonLine } from '../output.ts';
+import { FORECAST_CAUTION } from '../../domain/caution.ts';
 import type { Config } from '../../domain/config.ts';
 import { describeState, type Incident } from '../../incidents/model.ts';
 import { componentView } from '../../pipeline/componentView.ts';
@@ -25,7 +26,7 @@ interface ReplayCommandOptions {
 export function registerReplay(program: Command): void {
   program
     .command('replay')
-    .description('run intake, evaluation and incidents in-process on a CSV or JSONL history (no Redis); print findings and incident changes in time order')
+    .description('run intake, evaluation and incidents in-process on a CSV or JSONL history (no Redis); print findings and incident changes in time order, then the open incidents with their time-to-limit forecasts')
     .argument('<file>', 'CSV or JSONL, as for import')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--format <format>', 'csv or jsonl (default: from the file name)')
@@ -55,7 +56,11 @@ export function registerReplay(program: Command): void {
         for (const r of readiness) writeJsonLine(r);
       } else {
         process.stdout.write(`\nincidents after the last record: ${verdicts.length}\n`);
-        for (const v of verdicts) process.stdout.write(`  ${v.incidentId}  ${v.kind}  ${v.peakSeverity}  ${v.state}\n`);
+        for (const v of verdicts) {
+          process.stdout.write(`  ${v.incidentId}  ${v.kind}  ${v.peakSeverity}  ${v.state}\n`);
+          if (v.closed === null) for (const f of v.forecast ?? []) process.stdout.write(`      ${f.text}\n`);
+        }
+        if (verdicts.some((v) => v.closed === null && (v.forecast?.length ?? 0) > 0)) process.stdout.write(`  (${FORECAST_CAUTION})\n`);
         const waiting = readiness.flatMap((r) => r.measurands.filter((m) => m.changeDetection === 'waiting' || (m.band !== undefined && m.band.have < m.band.need)).map((m) => `  ${r.unit}/${r.component}  ${m.summary}`));
         if (waiting.length > 0) process.stdout.write(`\nnot judged yet:\n${waiting.join('\n')}\n`);
         process.stdout.write(`\n${ADVISORY_LINE}\n`);
@@ -83,6 +88,8 @@ function verdictLine(i: Incident) {
     lastSampledAt: i.lastSampledAt,
     closed: i.closed?.how ?? null,
     evidence: i.evidence.map((f) => `${f.measurand}:${f.rule}${f.check ? `:${f.check}` : ''}:${f.severity}`),
+    /** Time-to-limit forecasts of the evidence's measurands as of the incident's latest evidence; they assume the present rate continues. */
+    ...(i.forecast !== undefined && { forecast: i.forecast }),
   };
 }
 

@@ -1,0 +1,112 @@
+/**
+ * When a projected trend crosses a level, with its uncertainty.
+ *
+ * The level x(τ) τ operating hours after the last reading follows dx/dτ = g + κ·(m − x): the wear rate g, and
+ * make-up oil at κ sump volumes per hour that brings the make-up oil's own level m (0 for a wear metal; the new-oil
+ * value for an oil property). With a = e^(−κτ) and b = (1 − a)/κ (b = τ without make-up oil):
+ *
+ *   E x(τ)   = a·x₀ + b·g + (1 − a)·m
+ *   Var x(τ) = a²·Var x₀ + 2ab·Cov(x₀, g) + b²·Var g + q·(1 − a²)/(2κ)      (q·τ without make-up oil)
+ *
+ * where (x₀, g) and their covariance are what the filter (or the fit) knows now and q is the wear process's own
+ * variance per hour; a rate that may wander (the filter's rate drift d per hour) adds d·τ³/3. The crossing time T of a rising level L is the first τ with x(τ) ≥ L, so
+ * P(T ≤ τ) = P(x(τ) ≥ L) = F((E x(τ) − L)/sd x(τ)) for a location-scale F (normal for a known variance, Student's t
+ * for a fitted line). The p-quantile of T is the first τ where (E x(τ) − L)/sd x(τ) ≥ F⁻¹(p): found on a grid over
+ * the horizon, then by bisection. For a falling quantity the signs turn round. Where the level depends on the
+ * oil hours (a population limit by band), L(τ) is read at each τ.
+ */
+
+export interface ProjectedTrend {
+  readonly level: number;
+  readonly rate: number;
+  readonly levelVariance: number;
+  readonly covariance: number;
+  readonly rateVariance: number;
+  /** Wear-process variance per hour (0 for a fitted line: its residual spread is in the fit's variances). */
+  readonly processVariance: number;
+  /** Make-up oil in sump volumes per operating hour (κ). */
+  readonly dilution: number;
+  /** The level the make-up oil brings (m). */
+  readonly makeUpLevel: number;
+  /** How fast the rate may wander, (rate unit)² per hour: a random walk of the rate adds drift·τ³/3 to Var x(τ). */
+  readonly rateDrift?: number;
+}
+
+export interface Projection {
+  readonly mean: number;
+  readonly sd: number;
+}
+
+const TINY_DILUTION = 1e-9;
+
+export function projectAt(t: ProjectedTrend, tau: number): Projection {
+  const k = t.dilution;
+  const a = k > TINY_DILUTION ? Math.exp(-k * tau) : 1;
+  const b = k > TINY_DILUTION ? (1 - a) / k : tau;
+  const process = k > TINY_DILUTION ? (1 - a * a) / (2 * k) : tau;
+  const mean = a * t.level + b * t.rate + (1 - a) * t.makeUpLevel;
+  const drift = t.rateDrift ?? 0;
+  const variance = a * a * t.levelVariance + 2 * a * b * t.covariance + b * b * t.rateVariance + t.processVariance * process + (drift * tau ** 3) / 3;
+  return { mean, sd: Math.sqrt(Math.max(0, variance)) };
+}
+
+/** The trend as it stands τ hours on: the level's mean and variance, its covariance with the rate. */
+export function trendAt(t: ProjectedTrend, tau: number): ProjectedTrend {
+  const k = t.dilution;
+  const a = k > TINY_DILUTION ? Math.exp(-k * tau) : 1;
+  const b = k > TINY_DILUTION ? (1 - a) / k : tau;
+  const p = projectAt(t, tau);
+  const drift = t.rateDrift ?? 0;
+  return {
+    ...t,
+    level: p.mean,
+    levelVariance: p.sd ** 2,
+    covariance: a * t.covariance + b * t.rateVariance + (drift * tau * tau) / 2,
+    rateVariance: t.rateVariance + drift * tau,
+  };
+}
+
+export interface CrossingQuery {
+  /** The level at τ hours on; undefined where there is none (a population band without enough results). */
+  readonly levelAt: (tau: number) => number | undefined;
+  readonly side: 'above' | 'below';
+  /** Search [from, horizon] hours (from: default 0; a later quantile need not look before an earlier one). */
+  readonly horizon: number;
+  readonly from?: number;
+  /** F⁻¹ of the quantile wanted (0 for the median). */
+  readonly z: number;
+}
+
+/** Grid points over the horizon; the bisection then refines within one step. */
+const GRID = 120;
+const BISECTIONS = 40;
+
+/** The first τ in [0, horizon] at which the crossing has happened with the wanted probability; undefined: not within the horizon. */
+export function crossingQuantile(t: ProjectedTrend, q: CrossingQuery): number | undefined {
+  const margin = (tau: number): number => {
+    const level = q.levelAt(tau);
+    if (level === undefined) return -Infinity;
+    const p = projectAt(t, tau);
+    const beyond = q.side === 'above' ? p.mean - level : level - p.mean;
+    return beyond - q.z * p.sd;
+  };
+  const from = Math.max(0, q.from ?? 0);
+  if (margin(from) >= 0) return from;
+  if (!(q.horizon > from)) return undefined;
+  let previous = from;
+  for (let i = 1; i <= GRID; i++) {
+    const tau = from + ((q.horizon - from) * i) / GRID;
+    if (margin(tau) >= 0) {
+      let lo = previous;
+      let hi = tau;
+      for (let j = 0; j < BISECTIONS; j++) {
+        const mid = (lo + hi) / 2;
+        if (margin(mid) >= 0) hi = mid;
+        else lo = mid;
+      }
+      return hi;
+    }
+    previous = tau;
+  }
+  return undefined;
+}
