@@ -8,6 +8,28 @@ export type IncidentMessageType = (typeof INCIDENT_MESSAGE_TYPES)[number];
 
 export type MessageSeverity = 'watch' | 'caution' | 'alarm';
 
+/** Every message, page and payload that carries findings says this (the `advisory` field of the event data). */
+export const ADVISORY_CAUTION =
+  "wearshift advises; the laboratory's diagnosis and the equipment maker's limits decide; local codes and licensed practice apply.";
+
+const SEVERITY_ORDER: readonly MessageSeverity[] = ['watch', 'caution', 'alarm'];
+
+/**
+ * The one rule for an incident's severity, shown the same on the board card, in the evidence, in e-mail subjects,
+ * pages and command output: the highest severity among its evidence (the findings of its latest sample with
+ * findings); when the incident was more severe before, the peak is written beside it, "watch (peak caution)", so
+ * that a later message that says less than an earlier one reads as a change, not a contradiction.
+ */
+export function severityWords(severity: MessageSeverity, peakSeverity?: MessageSeverity): string {
+  return peakSeverity !== undefined && SEVERITY_ORDER.indexOf(peakSeverity) > SEVERITY_ORDER.indexOf(severity) ? `${severity} (peak ${peakSeverity})` : severity;
+}
+
+/** Most severe first, so that the finding that sets the incident's severity is always the first one shown. */
+export function bySeverity<T extends { severity: string }>(findings: readonly T[]): T[] {
+  const rank = (s: string) => SEVERITY_ORDER.indexOf(s as MessageSeverity);
+  return [...findings].sort((a, b) => rank(b.severity) - rank(a.severity));
+}
+
 export interface IncidentMessage {
   type: IncidentMessageType;
   incident: {
@@ -15,14 +37,19 @@ export interface IncidentMessage {
     unit: string;
     component: string;
     group: string;
+    /** The highest severity among the findings below: see `severityWords`. */
     severity: MessageSeverity;
+    /** The highest severity the incident has had. */
+    peakSeverity: MessageSeverity;
     state: string;
     openedAt: string;
     acknowledgedBy?: string;
     /** Escalation tier the incident has reached; 0 before the first escalation. */
     tier: number;
-    /** The incident's address in the API or on the board. */
+    /** The incident's page on the board (it asks for a viewer token, as the board does). */
     url: string;
+    /** The incident in the JSON API (a bearer token), for integrations. */
+    apiUrl: string;
   };
   findings: Array<{
     measurand: string;
@@ -42,6 +69,8 @@ export interface IncidentMessage {
   whatChanged: string;
   /** From the incident engine: the same key means the same message, so every channel can de-duplicate on it. */
   idempotencyKey: string;
+  /** Always ADVISORY_CAUTION: integrators that pass the severity on pass this with it. */
+  advisory: string;
 }
 
 /** Whether a message still asks someone to take ownership, so that it carries an acknowledgement link. */

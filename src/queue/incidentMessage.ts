@@ -4,7 +4,7 @@ import { buildHistory } from '../analysis/history.ts';
 import type { Sample } from '../domain/event.ts';
 import { formatReading } from '../domain/reading.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
-import type { IncidentMessage, IncidentMessageType } from '../notify/message.ts';
+import { ADVISORY_CAUTION, type IncidentMessage, type IncidentMessageType } from '../notify/message.ts';
 
 /** About five recent results, as the message format asks. */
 const RECENT_RESULTS = 5;
@@ -22,11 +22,13 @@ export function incidentMessage(effect: NotifyEffect, revisions: readonly Sample
       component: s.component,
       group: s.group,
       severity: s.severity,
+      peakSeverity: s.peakSeverity,
       state: s.state,
       openedAt: s.openedAt,
       ...(s.acknowledgedBy !== undefined && { acknowledgedBy: s.acknowledgedBy }),
       tier: s.tier,
-      url: `${apiBaseUrl.replace(/\/+$/, '')}/v1/incidents/${encodeURIComponent(s.id)}`,
+      url: `${apiBaseUrl.replace(/\/+$/, '')}/incidents/${encodeURIComponent(s.id)}`,
+      apiUrl: `${apiBaseUrl.replace(/\/+$/, '')}/v1/incidents/${encodeURIComponent(s.id)}`,
     },
     findings: s.findings.map((f) => ({
       measurand: f.measurand,
@@ -47,6 +49,7 @@ export function incidentMessage(effect: NotifyEffect, revisions: readonly Sample
     })),
     whatChanged: s.reason,
     idempotencyKey: idempotencyKey(effect.key),
+    advisory: ADVISORY_CAUTION,
   };
 }
 

@@ -41,6 +41,8 @@ export interface NotificationChannelOptions {
   readonly mqttTimeoutMs?: number;
   /** Where a 410 Gone is remembered; without it, a 410 fails only the delivery at hand. */
   readonly disabledEndpoints?: DisabledEndpoints;
+  /** The zone e-mails show times in (`display.timeZone`). Default UTC. */
+  readonly timeZone?: string;
 }
 
 /** Secrets are environment variable names in the configuration; a literal `whsec_` value is allowed for webhooks. */
@@ -89,7 +91,7 @@ export function notificationChannels(channels: Channels, options: NotificationCh
             return { ackUrl: ackLinkUrl(links.baseUrl, token), ackExpiresAt: expiresAt };
           })()
         : {};
-    const mail = renderIncidentEmail(message, { from: cfg.from, to: effect.target, ...ack, ...(chart && { chart }) });
+    const mail = renderIncidentEmail(message, { from: cfg.from, to: effect.target, ...ack, ...(chart && { chart }), ...(options.timeZone !== undefined && { timeZone: options.timeZone }) });
     const smtp = cfg.smtp;
     try {
       const sent = await sendEmail(

@@ -121,7 +121,7 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
         config,
         logger,
         metrics,
-        ...(hasChannels && { channels: notificationChannels(config.channels, { logger, env, disabledEndpoints: redisDisabledEndpoints(connection, prefix) }) }),
+        ...(hasChannels && { channels: notificationChannels(config.channels, { logger, env, disabledEndpoints: redisDisabledEndpoints(connection, prefix), timeZone: config.display.timeZone }) }),
         apiBaseUrl,
         live: livePublisher(connection, prefix, logger),
       },
@@ -155,6 +155,7 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
         hub,
         ackLinkSecrets,
         announce: livePublisher(request, prefix, logger),
+        timeZone: config.display.timeZone,
       });
       stopHttp.push({ name: 'result producer', close: () => producer.close() });
     } else {
