@@ -314,7 +314,7 @@ function updateCard(card, incident) {
   card.badge.replaceChildren(severityBadge(incident.severity, incident.peakSeverity));
   const measurands = measurandsOf(incident);
   card.title.replaceChildren(
-    el('a', { href: incidentPagePath(incident.id), text: `${incident.unit} / ${incident.component}` }),
+    el('a', { href: componentPath(incident.unit, incident.component), text: `${incident.unit} / ${incident.component}` }),
     measurands.length > 0 ? ` — ${measurands.join(', ')}` : '',
   );
   renderState(card);
@@ -361,6 +361,7 @@ function renderState(card) {
     if (incident.escalation && incident.escalation.reachedTier > 0) parts.push(` · escalated to tier ${incident.escalation.reachedTier}`);
   }
   parts.push(` · opened by sample ${incident.openedBySampleId} of ${formatTime(incident.openedAt)}`);
+  if (view !== 'incident') parts.push(' · ', el('a', { class: 'incident-link', href: incidentPagePath(incident.id), text: 'incident page and timeline' }));
   card.state.replaceChildren(...parts);
 }
 

@@ -79,7 +79,8 @@ export async function buildServer(options: ServerOptions) {
   return app;
 }
 
-function ackSummary(incident: Incident, timeZone: string | undefined): AckIncidentSummary {
+/** The incident as the acknowledgement pages show it. */
+export function ackSummary(incident: Incident, timeZone: string | undefined): AckIncidentSummary {
   const latest = incident.evidence[0];
   return {
     id: incident.id,

@@ -166,11 +166,17 @@ function headline(msg: IncidentMessage): string {
 
 type MessageFinding = IncidentMessage['findings'][number];
 
-/** "Fe cusum, Cu limit": what the evidence is about, most severe first, for the subject line. */
+/** "Fe: cusum, rate; Cu: limit": what the evidence is about, most severe first, for the subject line. */
 function evidenceSummary(msg: IncidentMessage): string {
-  const names = [...new Set(bySeverity(msg.findings).map((f) => `${oneLine(f.measurand)} ${oneLine(f.rule)}`))];
-  if (names.length === 0) return 'no findings attached';
-  return names.length <= 3 ? names.join(', ') : `${names.slice(0, 3).join(', ')} and ${names.length - 3} more`;
+  const rules = new Map<string, string[]>();
+  for (const f of bySeverity(msg.findings)) {
+    const list = rules.get(oneLine(f.measurand)) ?? [];
+    if (!list.includes(oneLine(f.rule))) list.push(oneLine(f.rule));
+    rules.set(oneLine(f.measurand), list);
+  }
+  if (rules.size === 0) return 'no findings attached';
+  const parts = [...rules].map(([m, r]) => `${m}: ${r.join(', ')}`);
+  return parts.length <= 3 ? parts.join('; ') : `${parts.slice(0, 3).join('; ')} and ${parts.length - 3} more`;
 }
 
 /**
