@@ -177,8 +177,13 @@ function severityBadge(severity, peak) {
   return el('span', { class: 'sev', 'data-severity': severity }, el('span', { class: 'glyph', 'aria-hidden': 'true', text: GLYPH[severity] ?? '?' }), ` ${severityWords(severity, peak)}`);
 }
 
-/** Most severe first: the finding that sets the incident's severity always leads the evidence. */
-const bySeverity = (findings) => [...(findings ?? [])].sort((a, b) => (SEVERITY_RANK[b.severity] ?? -1) - (SEVERITY_RANK[a.severity] ?? -1));
+/**
+ * Most severe first: the finding that sets the incident's severity always leads the evidence; within a severity, the
+ * one furthest beyond its limit first (as in src/notify/message.ts), so that the chart follows the strongest signal.
+ */
+const beyondLimit = (f) => (typeof f.value === 'number' && typeof f.threshold === 'number' && f.threshold !== 0 ? Math.abs(f.value / f.threshold) : 0);
+const bySeverity = (findings) =>
+  [...(findings ?? [])].sort((a, b) => (SEVERITY_RANK[b.severity] ?? -1) - (SEVERITY_RANK[a.severity] ?? -1) || beyondLimit(b) - beyondLimit(a));
 
 function stateWords(incident) {
   if (incident.closed) return 'closed';

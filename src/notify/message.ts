@@ -24,10 +24,14 @@ export function severityWords(severity: MessageSeverity, peakSeverity?: MessageS
   return peakSeverity !== undefined && SEVERITY_ORDER.indexOf(peakSeverity) > SEVERITY_ORDER.indexOf(severity) ? `${severity} (peak ${peakSeverity})` : severity;
 }
 
-/** Most severe first, so that the finding that sets the incident's severity is always the first one shown. */
-export function bySeverity<T extends { severity: string }>(findings: readonly T[]): T[] {
+/**
+ * Most severe first, so that the finding that sets the incident's severity is always the first one shown; within a
+ * severity, the one furthest beyond its limit (value / limit) first, so that the chart follows the strongest signal.
+ */
+export function bySeverity<T extends { severity: string; value?: number; threshold?: number }>(findings: readonly T[]): T[] {
   const rank = (s: string) => SEVERITY_ORDER.indexOf(s as MessageSeverity);
-  return [...findings].sort((a, b) => rank(b.severity) - rank(a.severity));
+  const beyond = (f: T) => (f.value !== undefined && f.threshold !== undefined && f.threshold !== 0 ? Math.abs(f.value / f.threshold) : 0);
+  return [...findings].sort((a, b) => rank(b.severity) - rank(a.severity) || beyond(b) - beyond(a));
 }
 
 export interface IncidentMessage {

@@ -54,11 +54,15 @@ export function baselineProvenance(p: ChangePoint, track: ChangeTrack | undefine
   const rate = `${fmt(p.baselineRate * 100)} ppm/100 h`;
   let text: string;
   if (p.source === 'own' && own?.completedSampleId !== undefined) {
-    text = `the reference rate ${rate}: what this component's own samples ${own.firstSampleId} to ${own.completedSampleId} showed (${own.sums.intervals} intervals), updated with each sample since, so a slow change may have moved it too; it is a usual rate, not a proven healthy one`;
-  } else {
-    const have = own?.sums.intervals ?? 0;
-    text = `the reference rate ${rate} of group ${settings.group}, typical of its components, not of this one (this component's own baseline has ${have} of ${settings.detection.baselineIntervals} intervals)`;
+    const held = p.learningPaused && track?.signalSince !== undefined;
+    text =
+      `the reference rate ${rate}: what this component's own samples ${own.firstSampleId} to ${own.completedSampleId} showed (${own.sums.intervals} intervals), ` +
+      (held ? `updated with later samples and held since sample ${track.signalSince!.sampleId} where the change was first signalled` : 'updated with each sample since') +
+      ` (its usual rate, not a proven healthy one: a slow change before then may be in it)`;
+    return text;
   }
+  const have = own?.sums.intervals ?? 0;
+  text = `the reference rate ${rate} of group ${settings.group}, typical of its components, not of this one (this component's own baseline has ${have} of ${settings.detection.baselineIntervals} intervals)`;
   if (p.learningPaused && track?.signalSince !== undefined) text += `, held since sample ${track.signalSince.sampleId} where the change was first signalled`;
   return text;
 }
