@@ -29,7 +29,9 @@ function words(command: string): string[] {
   return [...command.matchAll(/"([^"]*)"|(\S+)/g)].map((m) => m[1] ?? m[2]!);
 }
 
-describe('wearshift backtest', () => {
+// Each case starts the real command line (a Node process through tsx): on a busy shared machine that alone can take
+// a minute, so the bound is generous; nothing here measures speed.
+describe('wearshift backtest', { timeout: 600_000 }, () => {
   let dir: string;
   const file = (name: string) => join(dir, name);
 
@@ -57,6 +59,8 @@ describe('wearshift backtest', () => {
 
     it('prints the summary the page embeds', () => {
       expect(embedded(html)).toEqual(summary);
+      // Every key names something: no "undefined" slipped in from an absent field.
+      expect(JSON.stringify(summary)).not.toMatch(/"undefined"\s*:/);
       expect(summary.records).toBe(fleetEvents().length);
       expect(summary.runs[0]!.episodes.filter((e) => e.caughtBy === 'both').map((e) => e.unit).sort()).toEqual(STEPPED_UNITS);
     });
@@ -98,6 +102,15 @@ describe('wearshift backtest', () => {
         const text = await page.locator(`#earliness tr[data-incident="${both[0]!.incidentId}"]`).innerText();
         expect(text).toContain(`${both[0]!.leadVsLimit!.samples} sample`);
         expect(await page.locator('details.component').count()).toBe(summary.fleet.components);
+        // The caution and the summary come first, before any list or chart.
+        expect(await page.locator('header.page .caution').innerText()).toContain('wearshift advises');
+        expect(await page.locator('main > section').first().getAttribute('class')).toBe('headline');
+        // Long sections are folded: no component is open until asked for, and a link from the incident list opens it.
+        expect(await page.locator('details.component[open]').count()).toBe(0);
+        const first = summary.runs[0]!.episodes[0]!;
+        await page.locator('details.episodes-list').evaluate((d) => d.setAttribute('open', ''));
+        await page.locator(`#incidents tr[data-incident="${first.incidentId}"] th a`).click();
+        await expect.poll(() => page.locator('details.component[open]').count(), { timeout: 120_000 }).toBe(1);
         expect(await page.locator('details.component[open] svg').first().isVisible()).toBe(true);
         expect(JSON.parse((await page.locator('#summary').textContent())!)).toEqual(summary);
       } finally {

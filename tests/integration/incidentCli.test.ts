@@ -61,7 +61,9 @@ afterAll(async () => {
   await server.dispose();
 });
 
-describe('wearshift incidents', () => {
+// Each case starts the real command line (a Node process through tsx): on a busy shared machine that alone can take
+// a minute, so the bound is generous; nothing here measures speed.
+describe('wearshift incidents', { timeout: 600_000 }, () => {
   it('lists as a table and as JSON lines', async () => {
     const table = await run('incidents', 'list', '--config', configFile);
     expect(table.code).toBe(0);

@@ -37,7 +37,9 @@ function withErrors(): string {
   return `${lines.join('\n')}\n`;
 }
 
-describe('wearshift import', () => {
+// Each case starts the real command line (a Node process through tsx): on a busy shared machine that alone can take
+// a minute, so the bound is generous; nothing here measures speed.
+describe('wearshift import', { timeout: 600_000 }, () => {
   it('--dry-run validates without Redis, reports each bad line with sampleId, field and reason, and exits 1', async () => {
     const file = join(dir, 'bad.csv');
     writeFileSync(file, withErrors());
