@@ -267,7 +267,7 @@ function componentsSection(s: BacktestSummary, r: RunSummary, components: readon
   const out = [
     '<section aria-labelledby="h-components" id="components">',
     '<h2 id="h-components">Trend charts per component</h2>',
-    `<p>Marks show where each rule family fired as each sample arrived${s.runs.length > 1 ? ` under ${e(r.label)}` : ''}: ${(['watch', 'caution', 'alarm'] as const).map((x) => severityTag(x)).join(' ')}. The lines show the history as finally stored: a result corrected later, or a baseline completed later, can leave a mark where the line no longer crosses its limit. Components with an incident come first, most severe first; every component is folded (open one by its name, or from the incident list). The caution at the top of this page applies to every chart.</p>`,
+    `<p>Marks show where each rule family fired as each sample arrived${s.runs.length > 1 ? ` under ${e(r.label)}` : ''}: ${(['watch', 'caution', 'alarm'] as const).map((x) => severityTag(x)).join(' ')}. The lines show the history as finally stored: a result corrected later, or a baseline completed later, can leave a mark where the line no longer crosses its limit. Components with an incident come first, most severe first, and are open; the others are folded (open one by its name). The caution at the top of this page applies to every chart.</p>`,
   ];
   const peakOf = (c: ReportComponent) =>
     r.episodes.filter((x) => x.unit === c.unit && x.component === c.component).reduce((p, x) => Math.max(p, SEVERITY_RANK[x.peakSeverity]), -1);
@@ -277,7 +277,7 @@ function componentsSection(s: BacktestSummary, r: RunSummary, components: readon
     const incidents = r.episodes.filter((x) => x.unit === c.unit && x.component === c.component);
     const peak = incidents.reduce<Severity | null>((p, x) => (p === null || SEVERITY_RANK[x.peakSeverity] > SEVERITY_RANK[p] ? x.peakSeverity : p), null);
     out.push(
-      `<details class="component" id="${anchor(c.unit, c.component)}">`,
+      `<details class="component" id="${anchor(c.unit, c.component)}"${incidents.length > 0 ? ' open' : ''}>`,
       `<summary><span class="name">${e(`${c.unit} / ${c.component}`)}</span> <span class="meta">${e(span?.group ?? '')} · ${span?.samples ?? 0} samples · ${span?.from ? `${day(span.from)} to ${day(span.to!)}` : ''}</span> <span class="status">${peak === null ? 'no incident' : `${severityTag(peak)} ${incidents.length} ${plural(incidents.length, 'incident')}`}</span></summary>`,
       ...c.charts.map((ch) => `<figure class="chart" data-measurand="${e(ch.measurand)}"><figcaption>${e(ch.measurand)} <span class="sub">${ch.marks} ${plural(ch.marks, 'finding')}</span></figcaption>${ch.svg}</figure>`),
       '</details>',
