@@ -100,7 +100,7 @@ describe.skipIf(!HAVE_CHROMIUM)('trend chart labels in Chromium', { timeout: 600
             }
           }
           const headings = await page.locator('g[data-panel] > text').first().textContent();
-          if (!(headings ?? '').startsWith(`${measurand} `)) problems.push(`${where}: the first panel heading "${headings}" does not name ${measurand}`);
+          if (!new RegExp(`^${measurand}[ :]`).test(headings ?? '')) problems.push(`${where}: the first panel heading "${headings}" does not name ${measurand}`);
         }
       }
     }
