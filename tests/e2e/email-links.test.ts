@@ -76,6 +76,10 @@ describe.skipIf(!HAVE_CHROMIUM)("following an incident e-mail's links in Chromiu
     );
     try {
       const message = incidentMessage(effect, fixture.samples('PS2-P3', 'gearbox'), fixture.url);
+      // What webhooks and MQTT carry as the event data: the caution travels with the severity.
+      expect(message.advisory).toBe(ADVISORY_CAUTION);
+      expect(message.incident.url).toBe(`${fixture.url}/incidents/${encodeURIComponent(effect.incidentId)}`);
+      expect(message.incident.apiUrl).toBe(`${fixture.url}/v1/incidents/${encodeURIComponent(effect.incidentId)}`);
       await channels.deliver(effect, message, 1);
     } finally {
       await channels.close();
