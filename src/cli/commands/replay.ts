@@ -111,6 +111,7 @@ function readable(line: TimelineLine, zone: string): string {
   }
   const l = line as unknown as Record<string, unknown>;
   const detail = typeof l.explanation === 'string' ? `  ${l.explanation}` : typeof l.how === 'string' ? `  ${l.how}` : '';
-  const severity = typeof l.severity === 'string' ? l.severity : line.incidentSeverity;
-  return `${formatTime(String(l.at), zone)}  ${where}  incident ${line.incidentId}  ${line.change}  ${severity}  ${line.incidentState}${detail}`;
+  // The incident's severity by the one rule; a finding entry says its own severity beside its change.
+  const change = line.change === 'finding' && typeof l.severity === 'string' ? `finding (${l.severity})` : line.change;
+  return `${formatTime(String(l.at), zone)}  ${where}  incident ${line.incidentId}  ${change}  incident ${line.incidentSeverity}  ${line.incidentState}${detail}`;
 }
