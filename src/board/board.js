@@ -10,6 +10,8 @@ const TOKEN_KEY = 'wearshift.token';
 const NAME_KEY = 'wearshift.name';
 const EVENT_COOKIE = 'wearshift_token';
 const SEVERITY_RANK = { watch: 0, caution: 1, alarm: 2 };
+/** Findings a card on the board shows; the rest are a link away, on the incident page. */
+const CARD_EVIDENCE = 3;
 const GLYPH = { watch: '◇', caution: '▲', alarm: '■' };
 const SHELVE_CHOICES = [
   ['1', '1 hour'],
@@ -323,9 +325,15 @@ function updateCard(card, incident) {
     measurands.length > 0 ? ` — ${measurands.join(', ')}` : '',
   );
   renderState(card);
-  // Every finding, most severe first: the first one always carries the incident's severity.
+  // Most severe first: the first one always carries the incident's severity. The board's cards show the first
+  // few; the incident page shows every one.
+  const evidence = bySeverity(incident.evidence);
+  const shown = view === 'incident' ? evidence : evidence.slice(0, CARD_EVIDENCE);
   card.evidence.replaceChildren(
-    ...bySeverity(incident.evidence).map((f) => el('li', { 'data-severity': f.severity }, el('strong', { text: `${f.measurand} · ${f.severity} · ${f.rule}: ` }), f.explanation)),
+    ...shown.map((f) => el('li', { 'data-severity': f.severity }, el('strong', { text: `${f.measurand} · ${f.severity} · ${f.rule}: ` }), f.explanation)),
+    evidence.length > shown.length
+      ? el('li', { class: 'more' }, el('a', { href: incidentPagePath(incident.id), text: `${evidence.length - shown.length} more ${evidence.length - shown.length === 1 ? 'finding' : 'findings'} on the incident page` }))
+      : null,
   );
   const enabled = canAct() && !incident.closed;
   for (const button of Object.values(card.buttons)) {
