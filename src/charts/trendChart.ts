@@ -147,7 +147,8 @@ function panelsOf(m: MeasurandSeries): PanelSpec[] {
 
 /** Names the measurand, so that a chart shown without its title (the board's cards) still says what it shows. */
 function readingsHeading(m: MeasurandSeries): string {
-  return `${m.measurand} (${m.label}) per oil charge, ${m.unit}`;
+  const name = m.label.toLowerCase() === m.measurand.toLowerCase() ? m.measurand : `${m.measurand} (${m.label})`;
+  return `${name} per oil charge, ${m.unit}`;
 }
 
 function domainOf(values: number[], fromZero: boolean): [number, number] {
