@@ -42,6 +42,7 @@ export function renderBacktestReport(summary: BacktestSummary, components: reado
     `<p class="product">wearshift · backtest</p>`,
     `<h1>${e(title)}</h1>`,
     `<p class="lede">${e(lede(summary))}</p>`,
+    `<p class="caution" role="note"><strong>Caution.</strong> ${e(CAUTION)}</p>`,
     '</header>',
     '<main>',
     headline(summary, main),
@@ -248,6 +249,8 @@ function episodesSection(r: RunSummary): string {
     r.episodes.length === 0
       ? '<p class="empty">The history raised no incident.</p>'
       : [
+          // A long list is folded: the summary above says what it adds up to.
+          `<details class="episodes-list"${r.episodes.length <= EPISODES_OPEN ? ' open' : ''}><summary>The ${r.episodes.length} ${plural(r.episodes.length, 'incident')}, oldest first</summary>`,
           '<table class="episodes">',
           '<thead><tr><th scope="col">component</th><th scope="col">peak</th><th scope="col">opened</th><th scope="col">last sample</th><th scope="col">state</th><th scope="col">rule families, first raise</th></tr></thead>',
           '<tbody>',
@@ -256,6 +259,7 @@ function episodesSection(r: RunSummary): string {
               `<tr data-incident="${e(x.incidentId)}"><th scope="row"><a href="#${anchor(x.unit, x.component)}">${e(`${x.unit} / ${x.component}`)}</a>${x.measurand ? ` ${e(x.measurand)}` : ''}</th><td>${severityTag(x.peakSeverity)}</td><td>${day(x.openedAt)}</td><td>${day(x.lastSampledAt)}</td><td>${e(x.state)}</td><td class="firsts">${x.firsts.map((f) => `<span class="firing">${e(`${FAMILY_WORD[f.rule]}${arrow(f.direction)} ${f.measurand}`)} <span class="when">${day(f.sampledAt)}</span></span>`).join(' ')}</td></tr>`,
           ),
           '</tbody></table>',
+          '</details>',
         ].join('\n'),
     '</section>',
   ].join('\n');
@@ -266,7 +270,7 @@ function componentsSection(s: BacktestSummary, r: RunSummary, components: readon
   const out = [
     '<section aria-labelledby="h-components" id="components">',
     '<h2 id="h-components">Trend charts per component</h2>',
-    `<p>Marks show where each rule family fired as each sample arrived${s.runs.length > 1 ? ` under ${e(r.label)}` : ''}: ${(['watch', 'caution', 'alarm'] as const).map((x) => severityTag(x)).join(' ')}. The lines show the history as finally stored: a result corrected later, or a baseline completed later, can leave a mark where the line no longer crosses its limit. Components with an incident come first, most severe first, and are open; the others are folded.</p>`,
+    `<p>Marks show where each rule family fired as each sample arrived${s.runs.length > 1 ? ` under ${e(r.label)}` : ''}: ${(['watch', 'caution', 'alarm'] as const).map((x) => severityTag(x)).join(' ')}. The lines show the history as finally stored: a result corrected later, or a baseline completed later, can leave a mark where the line no longer crosses its limit. Components with an incident come first, most severe first, and are open; the others are folded (open one by its name). The caution at the top of this page applies to every chart.</p>`,
   ];
   const peakOf = (c: ReportComponent) =>
     r.episodes.filter((x) => x.unit === c.unit && x.component === c.component).reduce((p, x) => Math.max(p, SEVERITY_RANK[x.peakSeverity]), -1);
@@ -287,6 +291,9 @@ function componentsSection(s: BacktestSummary, r: RunSummary, components: readon
 }
 
 const SEVERITY_RANK: Record<Severity, number> = { watch: 0, caution: 1, alarm: 2 };
+
+/** Up to this many incidents the list is shown open; a longer one is folded. */
+const EPISODES_OPEN = 12;
 
 function severityTag(s: Severity): string {
   const style = SEVERITY_STYLE[s];
@@ -335,6 +342,7 @@ header.page { padding: 22px 32px 14px; background: #d9d9d7; border-bottom: 1px s
 .product { margin: 0; font-size: 12px; letter-spacing: .08em; text-transform: uppercase; color: var(--muted); }
 h1 { margin: 4px 0 6px; font-size: 24px; font-weight: 600; }
 .lede { margin: 0; color: var(--muted); }
+.caution { margin: 0.6rem 0 0; padding: 0.5rem 0.75rem; border-left: 4px solid #555; background: #f2f2f2; }
 main { padding: 8px 32px 24px; max-width: 1180px; }
 section { margin: 22px 0; }
 .pair { display: grid; grid-template-columns: minmax(0, 1fr); gap: 0 28px; }

@@ -10,6 +10,8 @@ const TOKEN_KEY = 'wearshift.token';
 const NAME_KEY = 'wearshift.name';
 const EVENT_COOKIE = 'wearshift_token';
 const SEVERITY_RANK = { watch: 0, caution: 1, alarm: 2 };
+/** Findings a card on the board shows; the rest are a link away, on the incident page. */
+const CARD_EVIDENCE = 3;
 const GLYPH = { watch: '◇', caution: '▲', alarm: '■' };
 const SHELVE_CHOICES = [
   ['1', '1 hour'],
@@ -24,6 +26,8 @@ const session = {
   token: sessionStorage.getItem(TOKEN_KEY),
   name: sessionStorage.getItem(NAME_KEY) ?? '',
   roles: [],
+  /** The site zone times are shown in; the server says which (display.timeZone). */
+  timeZone: 'UTC',
 };
 let events;
 let reloadTimer;
@@ -62,6 +66,7 @@ function problemText(result) {
 }
 
 const incidentPath = (id) => `/v1/incidents/${encodeURIComponent(id)}`;
+const incidentPagePath = (id) => `/incidents/${encodeURIComponent(id)}`;
 const componentPath = (unit, component) => `/units/${encodeURIComponent(unit)}/components/${encodeURIComponent(component)}`;
 const apiComponentPath = (unit, component) => `/v1/units/${encodeURIComponent(unit)}/components/${encodeURIComponent(component)}`;
 
@@ -75,6 +80,7 @@ async function signIn(token, name) {
     return result.status === 401 ? 'That token is not accepted.' : problemText(result);
   }
   session.roles = result.body.roles;
+  session.timeZone = typeof result.body.timeZone === 'string' ? result.body.timeZone : 'UTC';
   session.name = name;
   sessionStorage.setItem(TOKEN_KEY, token);
   sessionStorage.setItem(NAME_KEY, name);
@@ -96,6 +102,7 @@ const canAct = () => session.roles.includes('responder');
 function showSignIn(message) {
   $('sign-in').hidden = false;
   $('board').hidden = true;
+  $('incident').hidden = true;
   $('component').hidden = true;
   $('sign-in-error').textContent = message ?? '';
   $('name').value = session.name;
@@ -110,8 +117,32 @@ function renderWho() {
 
 // ---------------------------------------------------------------- formatting
 
-const dateTime = new Intl.DateTimeFormat(undefined, { dateStyle: 'medium', timeStyle: 'short' });
-const formatTime = (iso) => dateTime.format(new Date(iso));
+/**
+ * One time format everywhere (the same as src/notify/format.ts, which e-mails and the command line use): ISO 8601
+ * to the minute with its zone, 2026-03-01T08:00Z in UTC or 2026-03-01T09:00+01:00 in the site zone.
+ */
+const wallClocks = new Map();
+function formatTime(iso) {
+  const t = new Date(iso);
+  if (Number.isNaN(t.getTime())) return String(iso);
+  const ms = Math.floor(t.getTime() / 60_000) * 60_000;
+  const zone = session.timeZone;
+  if (zone === 'UTC' || zone === 'Etc/UTC') return `${new Date(ms).toISOString().slice(0, 16)}Z`;
+  let f = wallClocks.get(zone);
+  if (f === undefined) {
+    f = new Intl.DateTimeFormat('en-US', { timeZone: zone, hourCycle: 'h23', year: 'numeric', month: '2-digit', day: '2-digit', hour: '2-digit', minute: '2-digit', second: '2-digit' });
+    wallClocks.set(zone, f);
+  }
+  const p = Object.fromEntries(f.formatToParts(new Date(ms)).map((x) => [x.type, x.value]));
+  const offset = Math.round((Date.UTC(Number(p.year), Number(p.month) - 1, Number(p.day), Number(p.hour), Number(p.minute)) - ms) / 60_000);
+  const pad = (n) => String(Math.trunc(Math.abs(n))).padStart(2, '0');
+  return `${p.year}-${p.month}-${p.day}T${p.hour}:${p.minute}${offset === 0 ? 'Z' : `${offset < 0 ? '-' : '+'}${pad(offset / 60)}:${pad(offset % 60)}`}`;
+}
+
+function timeZoneNote() {
+  const zone = session.timeZone;
+  return zone === 'UTC' || zone === 'Etc/UTC' ? 'Times are ISO 8601 in UTC (Z).' : `Times are ISO 8601 in the site zone ${zone}, offset written with each time.`;
+}
 
 function duration(ms) {
   const minutes = Math.max(0, Math.floor(ms / 60_000));
@@ -136,9 +167,25 @@ function el(tag, attrs = {}, ...children) {
   return node;
 }
 
-function severityBadge(severity) {
-  return el('span', { class: 'sev', 'data-severity': severity }, el('span', { class: 'glyph', 'aria-hidden': 'true', text: GLYPH[severity] ?? '?' }), ` ${severity}`);
+/**
+ * The one rule for an incident's severity (as in src/notify/message.ts): the highest severity of its evidence;
+ * when it was more severe before, the peak is written beside it.
+ */
+function severityWords(severity, peak) {
+  return peak !== undefined && SEVERITY_RANK[peak] > SEVERITY_RANK[severity] ? `${severity} (peak ${peak})` : severity;
 }
+
+function severityBadge(severity, peak) {
+  return el('span', { class: 'sev', 'data-severity': severity }, el('span', { class: 'glyph', 'aria-hidden': 'true', text: GLYPH[severity] ?? '?' }), ` ${severityWords(severity, peak)}`);
+}
+
+/**
+ * Most severe first: the finding that sets the incident's severity always leads the evidence; within a severity, the
+ * one furthest beyond its limit first (as in src/notify/message.ts), so that the chart follows the strongest signal.
+ */
+const beyondLimit = (f) => (typeof f.value === 'number' && typeof f.threshold === 'number' && f.threshold !== 0 ? Math.abs(f.value / f.threshold) : 0);
+const bySeverity = (findings) =>
+  [...(findings ?? [])].sort((a, b) => (SEVERITY_RANK[b.severity] ?? -1) - (SEVERITY_RANK[a.severity] ?? -1) || beyondLimit(b) - beyondLimit(a));
 
 function stateWords(incident) {
   if (incident.closed) return 'closed';
@@ -147,10 +194,11 @@ function stateWords(incident) {
   return parts.join(', ');
 }
 
+/** The incident's measurands, the one that sets its severity first (an incident kept per measurand: that one). */
 function measurandsOf(incident) {
   const seen = [];
-  for (const f of incident.evidence ?? []) if (!seen.includes(f.measurand)) seen.push(f.measurand);
-  if (seen.length === 0 && incident.measurand) seen.push(incident.measurand);
+  if (incident.measurand) seen.push(incident.measurand);
+  for (const f of bySeverity(incident.evidence)) if (!seen.includes(f.measurand)) seen.push(f.measurand);
   return seen;
 }
 
@@ -238,7 +286,8 @@ function createCard(incident) {
   const node = el('li', { class: 'incident', 'aria-labelledby': `${id}-title`, 'data-incident': incident.id });
   const badge = el('span');
   const state = el('p', { class: 'state' });
-  const evidence = el('ul', { class: 'evidence', 'aria-label': 'Evidence' });
+  const evidence = el('ul', { class: 'evidence', 'aria-label': 'Evidence, most severe first' });
+  const chartCaption = el('p', { class: 'chart-caption' });
   const chart = el('div', { class: 'chart' }, el('p', { class: 'loading', text: 'Loading the trend chart…' }));
   const note = el('textarea', { id: `${id}-note`, maxlength: '2000', rows: '2' });
   const shelveFor = el('select', { id: `${id}-shelve`, 'aria-label': 'Shelve for' }, ...SHELVE_CHOICES.map(([value, label]) => el('option', { value, text: label })));
@@ -266,8 +315,8 @@ function createCard(incident) {
     viewerNote,
     status,
   );
-  node.append(el('div', { class: 'incident-head' }, badge, title), state, evidence, chart, actions);
-  const card = { node, title, badge, state, evidence, chart, note, shelveFor, status, buttons, viewerNote, incident, chartKey: '', verdicts, sampleRow, sampleQuestion };
+  node.append(el('div', { class: 'incident-head' }, badge, title), state, evidence, chartCaption, chart, actions);
+  const card = { node, title, badge, state, evidence, chartCaption, chart, note, shelveFor, status, buttons, viewerNote, incident, chartKey: '', verdicts, sampleRow, sampleQuestion };
   for (const [action, button] of Object.entries(buttons)) button.addEventListener('click', () => act(card, action));
   for (const [verdict, button] of Object.entries(verdicts)) button.addEventListener('click', () => judgeSample(card, verdict));
   return card;
@@ -278,16 +327,23 @@ function updateCard(card, incident) {
   const { node } = card;
   node.dataset.severity = incident.severity;
   node.dataset.acknowledged = String(Boolean(incident.acknowledged));
-  card.badge.replaceChildren(severityBadge(incident.severity));
+  card.badge.replaceChildren(severityBadge(incident.severity, incident.peakSeverity));
   const measurands = measurandsOf(incident);
   card.title.replaceChildren(
     el('a', { href: componentPath(incident.unit, incident.component), text: `${incident.unit} / ${incident.component}` }),
     measurands.length > 0 ? ` — ${measurands.join(', ')}` : '',
   );
   renderState(card);
+  // Most severe first: the first one always carries the incident's severity. The board's cards show the first
+  // few; the incident page shows every one.
+  const evidence = bySeverity(incident.evidence);
+  const shown = view === 'incident' ? evidence : evidence.slice(0, CARD_EVIDENCE);
   const forecasts = (incident.forecast ?? []).slice(0, 4);
   card.evidence.replaceChildren(
-    ...(incident.evidence ?? []).slice(0, 4).map((f) => el('li', {}, el('strong', { text: `${f.severity} · ${f.rule}: ` }), f.explanation)),
+    ...shown.map((f) => el('li', { 'data-severity': f.severity }, el('strong', { text: `${f.measurand} · ${f.severity} · ${f.rule}: ` }), f.explanation)),
+    evidence.length > shown.length
+      ? el('li', { class: 'more' }, el('a', { href: incidentPagePath(incident.id), text: `${evidence.length - shown.length} more ${evidence.length - shown.length === 1 ? 'finding' : 'findings'} on the incident page` }))
+      : null,
     ...forecasts.map((f) => el('li', { class: 'forecast', 'data-forecast': f.outcome }, el('strong', { text: 'time to limit: ' }), f.text)),
     ...(forecasts.length > 0 ? [el('li', { class: 'forecast-caution', text: FORECAST_CAUTION })] : []),
   );
@@ -306,13 +362,21 @@ function updateCard(card, incident) {
   }
   card.viewerNote.hidden = canAct();
   // The chart follows the incident's latest sample; a new result redraws it.
+  // The chart shows the measurand of the most severe finding, and says so.
   const chartKey = `${measurands[0] ?? ''}@${incident.lastSampleId}`;
+  card.chartCaption.textContent = measurands.length > 0 ? chartCaptionText(measurands[0], measurands.length) : '';
+  card.chart.dataset.measurand = measurands[0] ?? '';
   if (measurands.length > 0 && chartKey !== card.chartKey) {
     card.chartKey = chartKey;
     void loadChart(card.chart, incident.unit, incident.component, measurands[0]);
   } else if (measurands.length === 0) {
     card.chart.replaceChildren(el('p', { class: 'chart-problem', text: 'No measurand to chart.' }));
   }
+}
+
+function chartCaptionText(measurand, count) {
+  const others = count > 1 ? ` The other measurands are on the component page.` : '';
+  return `Trend of ${measurand}, the measurand of the most severe finding.${others}`;
 }
 
 function renderState(card) {
@@ -328,6 +392,7 @@ function renderState(card) {
     if (incident.escalation && incident.escalation.reachedTier > 0) parts.push(` · escalated to tier ${incident.escalation.reachedTier}`);
   }
   parts.push(` · opened by sample ${incident.openedBySampleId} of ${formatTime(incident.openedAt)}`);
+  if (view !== 'incident') parts.push(' · ', el('a', { class: 'incident-link', href: incidentPagePath(incident.id), text: 'incident page and timeline' }));
   card.state.replaceChildren(...parts);
 }
 
@@ -388,7 +453,7 @@ function announce(message) {
 
 function scheduleReload(delay = 250) {
   clearTimeout(reloadTimer);
-  reloadTimer = setTimeout(() => void (view === 'board' ? loadBoard() : loadComponentPage()), delay);
+  reloadTimer = setTimeout(() => void (view === 'board' ? loadBoard() : view === 'incident' ? loadIncidentPage() : loadComponentPage()), delay);
 }
 
 // ---------------------------------------------------------------- live updates
@@ -411,12 +476,13 @@ function connectEvents() {
   events.addEventListener('incident', (message) => {
     const event = JSON.parse(message.data);
     if (view === 'component' && (event.unit !== page.unit || event.component !== page.component)) return;
+    if (view === 'incident' && event.incidentId !== undefined && event.incidentId !== page.incidentId) return;
     announce(`Incident ${event.change}: ${event.unit} / ${event.component}, ${event.severity}, ${event.state}.`);
     scheduleReload();
   });
   events.addEventListener('result', (message) => {
     const event = JSON.parse(message.data);
-    if (view === 'board') {
+    if (view !== 'component') {
       for (const card of cards.values()) {
         if (card.incident.unit === event.unit && card.incident.component === event.component) {
           card.chartKey = '';
@@ -431,11 +497,56 @@ function connectEvents() {
 
 // ---------------------------------------------------------------- the component page
 
-const view = document.body.dataset.view === 'component' ? 'component' : 'board';
+const view = ['component', 'incident'].includes(document.body.dataset.view) ? document.body.dataset.view : 'board';
 const page = (() => {
   const match = /^\/units\/([^/]+)\/components\/([^/]+)\/?$/.exec(location.pathname);
-  return match ? { unit: decodeURIComponent(match[1]), component: decodeURIComponent(match[2]) } : { unit: '', component: '' };
+  const incident = /^\/incidents\/(.+)$/.exec(location.pathname);
+  return {
+    unit: match ? decodeURIComponent(match[1]) : '',
+    component: match ? decodeURIComponent(match[2]) : '',
+    incidentId: incident ? decodeURIComponent(incident[1]) : '',
+  };
 })();
+
+// ---------------------------------------------------------------- the incident page (where e-mail links lead)
+
+async function loadIncidentPage() {
+  const result = await api(incidentPath(page.incidentId));
+  if (result.status === 401) return showSignIn('The token is no longer accepted; please sign in again.');
+  const problem = $('incident-problem');
+  if (!result.ok) {
+    problem.hidden = false;
+    problem.textContent = result.status === 404 ? `No incident "${page.incidentId}" is known here.` : `The incident could not be loaded. ${problemText(result)}`;
+    return;
+  }
+  problem.hidden = true;
+  const incident = result.body.incident;
+  $('view-title').textContent = `Incident on ${incident.unit} / ${incident.component}`;
+  document.title = `${incident.unit} / ${incident.component}: ${severityWords(incident.severity, incident.peakSeverity)} · wearshift`;
+  $('incident-component').href = componentPath(incident.unit, incident.component);
+  $('incident-component').textContent = `all of ${incident.unit} / ${incident.component}`;
+  let card = cards.get(incident.id);
+  if (card === undefined) {
+    card = createCard(incident);
+    cards.set(incident.id, card);
+    $('incident-card').replaceChildren(card.node);
+  }
+  updateCard(card, incident);
+  card.node.dataset.closed = String(Boolean(incident.closed));
+  $('incident-timeline').replaceChildren(...incident.timeline.map((entry) => el('li', { text: timelineText(entry) })));
+  const charts = $('incident-charts');
+  const wanted = measurandsOf(incident);
+  if (charts.dataset.measurands !== wanted.join(',')) {
+    charts.dataset.measurands = wanted.join(',');
+    charts.replaceChildren(
+      ...wanted.map((m) => {
+        const holder = el('div', { class: 'chart', 'data-measurand': m }, el('p', { class: 'loading', text: 'Loading…' }));
+        void loadChart(holder, incident.unit, incident.component, m, 760);
+        return el('figure', {}, el('figcaption', { text: `Trend of ${m}` }), holder);
+      }),
+    );
+  }
+}
 
 async function loadComponentPage() {
   $('view-title').textContent = `${page.unit} / ${page.component}`;
@@ -479,7 +590,7 @@ function renderHistory(result) {
       return el(
         'li',
         { class: 'incident', 'data-severity': incident.severity, 'data-acknowledged': String(Boolean(incident.acknowledged)) },
-        el('div', { class: 'incident-head' }, severityBadge(incident.severity), el('h3', { text: `${measurandsOf(incident).join(', ') || 'Incident'} — opened ${formatTime(incident.openedAt)}` })),
+        el('div', { class: 'incident-head' }, severityBadge(incident.severity, incident.peakSeverity), el('h3', {}, el('a', { href: incidentPagePath(incident.id), text: `${measurandsOf(incident).join(', ') || 'Incident'} — opened ${formatTime(incident.openedAt)}` }))),
         el('p', { class: 'state' }, el('strong', { text: stateWords(incident) }), incident.closed ? ` · ${incident.closed.how} ${formatTime(incident.closed.at)}` : ''),
         details,
       );
@@ -539,6 +650,7 @@ function renderCharts(result) {
 
 async function start() {
   $('sign-in').hidden = true;
+  $('time-note').textContent = timeZoneNote();
   renderWho();
   // Listen before loading, so that nothing that changes during the first load goes unseen.
   connectEvents();
@@ -549,6 +661,10 @@ async function start() {
     note.textContent = canAct() ? '' : 'This is a viewer token: the board is read-only. Acknowledge, shelve and resolve need a responder token.';
     await loadBoard();
     // Waiting times move on by themselves.
+    setInterval(() => cards.forEach(renderState), 30_000);
+  } else if (view === 'incident') {
+    $('incident').hidden = false;
+    await loadIncidentPage();
     setInterval(() => cards.forEach(renderState), 30_000);
   } else {
     $('component').hidden = false;

@@ -24,6 +24,8 @@ export interface ChannelContext {
   readonly mqttTimeoutMs: number;
   /** Where a 410 Gone is remembered; without it, a 410 fails only the delivery at hand. */
   readonly disabledEndpoints?: DisabledEndpoints;
+  /** The zone messages show times in (`display.timeZone`). Default UTC. */
+  readonly timeZone?: string;
 }
 
 /** One delivery: the effect (who, which tier), the rendered message, the attempt number and, for e-mail, the chart. */

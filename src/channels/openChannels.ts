@@ -23,6 +23,8 @@ export interface NotificationChannelOptions {
   readonly mqttTimeoutMs?: number;
   /** Where a 410 Gone is remembered; without it, a 410 fails only the delivery at hand. */
   readonly disabledEndpoints?: DisabledEndpoints;
+  /** The zone e-mails show times in (`display.timeZone`). Default UTC. */
+  readonly timeZone?: string;
 }
 
 export const DEFAULT_MQTT_TIMEOUT_MS = 30_000;
@@ -33,6 +35,7 @@ export function notificationChannels(channels: Channels, options: NotificationCh
     env: options.env ?? process.env,
     mqttTimeoutMs: options.mqttTimeoutMs ?? DEFAULT_MQTT_TIMEOUT_MS,
     ...(options.disabledEndpoints !== undefined && { disabledEndpoints: options.disabledEndpoints }),
+    ...(options.timeZone !== undefined && { timeZone: options.timeZone }),
   };
   const open = new Map<ChannelKind, Channel>(configuredChannels(channels).map((kind) => [kind, CHANNELS[kind].open(channels, context)]));
   return {

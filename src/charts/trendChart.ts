@@ -117,7 +117,7 @@ function panelsOf(m: MeasurandSeries): PanelSpec[] {
   if (m.cleanliness !== null) {
     const t = m.cleanliness.target;
     const numbers = [...m.cleanliness.points.flatMap((p) => codeNumbers(p.code)), ...(t === null ? [] : codeNumbers(t))];
-    return [{ key: 'readings', heading: 'ISO 4406 scale number per size range (each step doubles the count)', height: 190, domain: [(min(numbers) ?? 0) - 1, (max(numbers) ?? 1) + 1] }];
+    return [{ key: 'readings', heading: `${m.measurand}: scale number per size range (each step doubles the count)`, height: 190, domain: [(min(numbers) ?? 0) - 1, (max(numbers) ?? 1) + 1] }];
   }
   const readings = m.charges.flatMap((c) => c.points.map((p) => p.value));
   const kind = MEASURANDS[m.measurand].kind;
@@ -134,7 +134,7 @@ function panelsOf(m: MeasurandSeries): PanelSpec[] {
   ];
   if (m.rates !== null && m.rates.points.length > 0) {
     const rates = m.rates.points.map((p) => p.per100h);
-    panels.push({ key: 'rate', heading: `Wear rate, ${m.unit} per 100 h`, height: 110, domain: domainOf([0, ...rates, ...nearLevels(m.rates.limits, rates)], false) });
+    panels.push({ key: 'rate', heading: `${m.measurand} wear rate, ${m.unit} per 100 h`, height: 110, domain: domainOf([0, ...rates, ...nearLevels(m.rates.limits, rates)], false) });
   }
   if (m.cusum !== null && m.cusum.points.length > 0) {
     const two = m.cusum.sided === 'two';
@@ -149,8 +149,10 @@ function panelsOf(m: MeasurandSeries): PanelSpec[] {
   return panels;
 }
 
+/** Names the measurand, so that a chart shown without its title (the board's cards) still says what it shows. */
 function readingsHeading(m: MeasurandSeries): string {
-  return `Reading per oil charge, ${m.unit}`;
+  const name = m.label.toLowerCase() === m.measurand.toLowerCase() ? m.measurand : `${m.measurand} (${m.label})`;
+  return `${name} per oil charge, ${m.unit}`;
 }
 
 function domainOf(values: number[], fromZero: boolean): [number, number] {
@@ -549,6 +551,15 @@ class PanelLabels {
 
   inPlot(x: number, y: number, content: string, anchor: 'start' | 'end', style: LabelStyle = {}): void {
     const w = textWidth(content, 11);
+    // A word that would run out of the plot into the margin labels turns to the other side of its point.
+    const plotRight = this.width - MARGIN.right;
+    if (anchor === 'start' && x + w > plotRight) {
+      x = x - 6;
+      anchor = 'end';
+    } else if (anchor === 'end' && x - w < MARGIN.left) {
+      x = x + 6;
+      anchor = 'start';
+    }
     const box = { x0: anchor === 'start' ? x : x - w, x1: anchor === 'start' ? x + w : x, y0: y - 10, y1: y + 2 };
     if (this.placed.some((b) => b.x0 < box.x1 && box.x0 < b.x1 && b.y0 < box.y1 && box.y0 < b.y1)) return;
     this.placed.push(box);

@@ -1,5 +1,6 @@
 /** The `wearshift` command line. Each command lives in its own module under ./commands. */
 import { ADVICE_CAUTION } from '../domain/caution.ts';
+import { readFileSync } from 'node:fs';
 import { Command, CommanderError } from 'commander';
 import { InputError } from '../domain/errors.ts';
 import { registerDocs } from './commands/docs.ts';
@@ -22,23 +23,35 @@ const CAUTION =
 export function buildProgram(): Command {
   const program = new Command('wearshift')
     .description('Early warnings from used-oil analysis: wear-rate change detection beside classic limits, incidents and escalation.')
+    .version(packageVersion(), '-V, --version', 'print the version of wearshift')
     .addHelpText('after', `\nEnvironment: REDIS_URL, WEARSHIFT_CONFIG, PORT, WEARSHIFT_TOKEN_INGEST, WEARSHIFT_TOKEN_RESPONDER, WEARSHIFT_TOKEN_VIEWER.\n\n${CAUTION}`)
     .showHelpAfterError()
     .exitOverride();
-  registerSchema(program);
-  registerDocs(program);
-  registerChart(program);
-  registerDesign(program);
-  registerIncidents(program);
+  // What an engineer runs first; the tools for people who change wearshift itself come last.
+  program.commandsGroup('Try it and run it:');
   registerDemo(program);
   registerServe(program);
   registerWorker(program);
   registerApi(program);
+  program.commandsGroup('Results and incidents:');
   registerImport(program);
+  registerIncidents(program);
   registerReplay(program);
-  registerBacktest(program);
   registerFailed(program);
+  program.commandsGroup('Tuning and checking the detectors:');
+  registerDesign(program);
+  registerBacktest(program);
+  registerChart(program);
+  program.commandsGroup('For developers of wearshift:');
+  registerSchema(program);
+  registerDocs(program);
   return program;
+}
+
+/** The version in package.json, read next to the sources (works from any directory, and through npm link). */
+function packageVersion(): string {
+  const pkg = JSON.parse(readFileSync(new URL('../../package.json', import.meta.url), 'utf8')) as { version?: string };
+  return pkg.version ?? 'unknown';
 }
 
 export async function main(argv: string[]): Promise<number> {

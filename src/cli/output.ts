@@ -1,7 +1,9 @@
 /** Output for people (aligned tables) and for machines (`--json`: one JSON object per line). */
 import { ADVICE_CAUTION } from '../domain/caution.ts';
 import { InvalidArgumentError } from 'commander';
+import type { Config } from '../domain/config.ts';
 import { InputError } from '../domain/errors.ts';
+import { describeTarget, redisTarget } from '../redis/connection.ts';
 
 export function writeJsonLine(value: unknown, out: NodeJS.WritableStream = process.stdout): void {
   out.write(`${JSON.stringify(value)}\n`);
@@ -55,3 +57,21 @@ export function processingTime(text: string | undefined): number {
 /** The caution every human-readable output that carries findings ends with. */
 export const ADVISORY_LINE =
   ADVICE_CAUTION;
+/**
+ * Which Redis and key prefix a command uses, and why: "Redis redis://127.0.0.1:6379 (the default: neither REDIS_URL
+ * nor redis.url is set), key prefix {wearshift}". Commands that read or write stored data print it first, so
+ * that nobody works on whatever Redis happens to answer on localhost without knowing.
+ */
+export function redisChoice(config: Pick<Config, 'redis'>, env: NodeJS.ProcessEnv = process.env): string {
+  const target = redisTarget(config, env);
+  const source = env.REDIS_CLUSTER_NODES
+    ? 'REDIS_CLUSTER_NODES'
+    : target.kind === 'cluster'
+      ? 'redis.cluster.nodes in the configuration'
+      : env.REDIS_URL
+        ? 'REDIS_URL'
+        : config.redis.url
+          ? 'redis.url in the configuration'
+          : 'the default: neither REDIS_URL nor redis.url is set';
+  return `Redis ${describeTarget(target)} (${source}), key prefix ${config.redis.prefix}`;
+}

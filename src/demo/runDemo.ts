@@ -112,6 +112,8 @@ export interface DemoRun {
   readonly report: DemoReport;
   /** Set with `keepOpen`: a viewer token for the API and the board. */
   readonly viewerToken?: string;
+  /** Set with `keepOpen`: a responder token, to acknowledge, shelve and resolve on the board. */
+  readonly responderToken?: string;
   /** Closes what is still running (everything, with `keepOpen`; nothing otherwise). */
   close(): Promise<void>;
 }
@@ -238,7 +240,7 @@ export async function runDemo(options: DemoOptions): Promise<DemoRun> {
       seconds: { feed: round1(feedSeconds), total: round1((Date.now() - started) / 1000) },
     };
 
-    if (options.keepOpen) return { report, viewerToken: tokens.viewer, close: closeEverything };
+    if (options.keepOpen) return { report, viewerToken: tokens.viewer, responderToken: tokens.responder, close: closeEverything };
     await closeEverything();
     return { report: { ...report, seconds: { ...report.seconds, total: round1((Date.now() - started) / 1000) } }, close: async () => {} };
   } catch (e) {

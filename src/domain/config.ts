@@ -14,6 +14,16 @@ const measurandName = z.enum(MEASURAND_NAMES as [Measurand, ...Measurand[]], { e
 const positive = z.number().finite().positive();
 const nonNegative = z.number().finite().min(0);
 
+/** Whether the runtime knows the IANA zone name. */
+function isTimeZone(name: string): boolean {
+  try {
+    new Intl.DateTimeFormat('en-US', { timeZone: name });
+    return true;
+  } catch {
+    return false;
+  }
+}
+
 const levels = z
   .object({ caution: nonNegative.optional(), alarm: nonNegative.optional() })
   .strict()
@@ -216,6 +226,17 @@ export const ConfigSchema = z
     escalation: EscalationSchema.default({ policies: [] }),
     channels: ChannelsSchema.default({ webhooks: [], mqtt: [] }),
     opcua: OpcuaConfigSchema.optional().describe('The OPC UA Alarms & Conditions server for control rooms (see the README).'),
+    display: z
+      .object({
+        timeZone: z
+          .string()
+          .min(1)
+          .default('UTC')
+          .refine((name) => isTimeZone(name), { message: 'not a time zone name this runtime knows (an IANA name such as UTC or Europe/Berlin)' })
+          .describe('The site zone every time is shown in (board, e-mail, command line), ISO 8601 with its offset. Default UTC.'),
+      })
+      .strict()
+      .default({ timeZone: 'UTC' }),
   })
   .strict()
   .superRefine((c, ctx) => {

@@ -9,7 +9,7 @@ import { parseReading, type Reading } from './reading.ts';
 /** Names travel into e-mail headers, Redis keys and URLs: printable characters only, bounded length. */
 const identifier = (what: string) =>
   z
-    .string()
+    .string({ error: (i) => (i.input === undefined ? `${what} is required (missing or empty)` : `${what} must be text`) })
     .min(1, `${what} must not be empty`)
     .max(80, `${what} must be at most 80 characters`)
     .regex(/^[\p{L}\p{N}][\p{L}\p{N} ._:#()+\-/]*$/u, `${what} may hold letters, digits, spaces and . _ : # ( ) + - / only, starting with a letter or digit`);
@@ -37,11 +37,16 @@ export const ResultEventSchema = z
     unit: partName('unit').describe('The machine or asset.'),
     component: partName('component').describe('The oil-wetted compartment of the unit (one sample point).'),
     group: identifier('group').optional().describe('The like-for-like population; configuration rules or the component name assign one when absent.'),
-    sampledAt: z.iso.datetime({ offset: true, message: 'sampledAt must be an ISO 8601 date-time with a time zone, such as 2026-03-01T08:00:00Z' }).describe('When the oil was drawn.'),
+    sampledAt: z
+      .iso.datetime({
+        offset: true,
+        error: (i) => (i.input === undefined ? 'sampledAt is required (missing or empty)' : 'sampledAt must be an ISO 8601 date-time with a time zone, such as 2026-03-01T08:00:00Z'),
+      })
+      .describe('When the oil was drawn.'),
     unitHours: hours('unitHours').optional().describe("Hours on the unit's meter."),
     oilHours: hours('oilHours').optional().describe('Hours on the current oil charge.'),
-    oilChanged: z.boolean().default(false).describe('The oil was changed at this sample (this sample is on a new charge).'),
-    componentChanged: z.boolean().default(false).describe('The component was replaced or overhauled at this sample: running-in starts again.'),
+    oilChanged: z.boolean({ error: 'oilChanged must be true or false' }).default(false).describe('The oil was changed at this sample (this sample is on a new charge).'),
+    componentChanged: z.boolean({ error: 'componentChanged must be true or false' }).default(false).describe('The component was replaced or overhauled at this sample: running-in starts again.'),
     topUpLitres: z.number().finite().min(0, 'topUpLitres must not be negative').max(1e6).default(0).describe('Make-up oil added since the previous sample, in litres.'),
     lab: identifier('lab').optional().describe('The reporting laboratory.'),
     readings: z
@@ -83,7 +88,16 @@ export type ParsedEvent = { ok: true; sample: Sample } | { ok: false; issues: Fi
 /** Validates one event. Every problem is reported with its field path; nothing is guessed or dropped. */
 export function parseResultEvent(input: unknown): ParsedEvent {
   const parsed = ResultEventSchema.safeParse(input);
-  if (!parsed.success) return { ok: false, issues: parsed.error.issues.map((i) => ({ path: i.path.join('.'), reason: i.message })) };
+  if (!parsed.success) {
+    // Every problem of the record at once: the readings are judged too, so that one correction round is enough.
+    const issues = parsed.error.issues.map((i) => ({ path: i.path.join('.'), reason: i.message }));
+    const raw = typeof input === 'object' && input !== null ? (input as { readings?: unknown }).readings : undefined;
+    if (typeof raw === 'object' && raw !== null && !Array.isArray(raw)) {
+      const reported = new Set(issues.map((i) => i.path));
+      for (const issue of readingIssues(raw as Record<string, unknown>)) if (!reported.has(issue.path)) issues.push(issue);
+    }
+    return { ok: false, issues };
+  }
   const e = parsed.data;
   const issues: FieldIssue[] = [];
   const readings: Partial<Record<Measurand, Reading>> = {};
@@ -114,6 +128,19 @@ export function parseResultEvent(input: unknown): ParsedEvent {
     ...(e.lab !== undefined && { lab: e.lab }),
   };
   return { ok: true, sample };
+}
+
+/** The measurand and value problems of a readings object, as parseResultEvent reports them. */
+function readingIssues(readings: Record<string, unknown>): FieldIssue[] {
+  const issues: FieldIssue[] = [];
+  for (const [name, raw] of Object.entries(readings)) {
+    if (!isMeasurand(name)) issues.push({ path: `readings.${name}`, reason: 'unknown measurand (see the measurand catalogue in the README)' });
+    else if (typeof raw === 'number' || typeof raw === 'string') {
+      const r = parseReading(raw, name);
+      if (!r.ok) issues.push({ path: `readings.${name}`, reason: r.reason });
+    }
+  }
+  return issues;
 }
 
 /** The identity of a component's history. */

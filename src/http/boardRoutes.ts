@@ -1,7 +1,9 @@
 /**
- * The control-room board (fastify 5 plugin): the page at `/` (open incidents), the component page at
- * `/units/:unit/components/:component` (all its trends and its incident history), their static assets under
- * `/board/`, and `GET /v1/session`, which tells the page which roles its token holds.
+ * The control-room board (fastify 5 plugin): the page at `/` (open incidents), the incident page at
+ * `/incidents/<percent-encoded id>` (one incident with its evidence, charts and timeline: where e-mail links lead),
+ * the component page at `/units/:unit/components/:component` (all its trends and its incident history), their
+ * static assets under `/board/`, and `GET /v1/session`, which tells the page which roles its token holds and the
+ * zone it shows times in.
  *
  * The pages themselves carry no data and need no token: the script asks for one, keeps it in the tab's
  * sessionStorage and sends it as a bearer token to the API (incidents, series, charts) and as a cookie to the
@@ -14,7 +16,11 @@ import { rolesOf, ROLES, tokensFromEnv } from './auth.ts';
 export interface BoardRoutesOptions {
   /** Tokens for `GET /v1/session`, as auth.ts reads them. Default: the environment. */
   env?: NodeJS.ProcessEnv;
+  /** The site zone the pages show times in (`display.timeZone`). Default UTC. */
+  timeZone?: string;
 }
+
+type View = 'board' | 'incident' | 'component';
 
 const asset = (name: string) => readFileSync(new URL(`../board/${name}`, import.meta.url), 'utf8');
 
@@ -37,10 +43,14 @@ export const boardRoutes: FastifyPluginAsync<BoardRoutesOptions> = async (app, o
   const shell = asset('board.html');
   const assets = new Map(Object.keys(ASSET_TYPES).map((name) => [name, asset(name)]));
   const tokens = tokensFromEnv(options.env);
-  const page = (view: 'board' | 'component') => shell.replace('{{view}}', view);
-  const sendPage = (reply: FastifyReply, view: 'board' | 'component') => reply.headers(PAGE_HEADERS).send(page(view));
+  const timeZone = options.timeZone ?? 'UTC';
+  const page = (view: View) => shell.replace('{{view}}', view);
+  const sendPage = (reply: FastifyReply, view: View) => reply.headers(PAGE_HEADERS).send(page(view));
 
   app.get('/', async (_request, reply) => sendPage(reply, 'board'));
+  // A wildcard: incident ids hold '/', which a link may carry encoded (%2F) or not. The page itself holds no data;
+  // its script asks for the token and loads the incident from the API, exactly as the board does.
+  app.get('/incidents/*', async (_request, reply) => sendPage(reply, 'incident'));
   app.get('/units/:unit/components/:component', async (_request, reply) => sendPage(reply, 'component'));
 
   app.get<{ Params: { name: string } }>('/board/:name', async (request, reply) => {
@@ -59,6 +69,6 @@ export const boardRoutes: FastifyPluginAsync<BoardRoutesOptions> = async (app, o
         .header('cache-control', 'no-store')
         .send({ error: 'unauthorized', message: match === null ? 'an Authorization: Bearer <token> header is required' : 'unknown token' });
     }
-    return reply.header('cache-control', 'no-store').send({ roles: ROLES.filter((r) => roles.has(r)) });
+    return reply.header('cache-control', 'no-store').send({ roles: ROLES.filter((r) => roles.has(r)), timeZone });
   });
 };

@@ -49,6 +49,8 @@ export interface ServerOptions {
   readonly ackLinkSecrets?: readonly string[];
   /** Announces incident actions taken here to every process's live feed (Redis pub/sub), so all boards update. */
   readonly announce?: (event: LiveEvent) => void;
+  /** The site zone the board and the acknowledgement pages show times in (`display.timeZone`). Default UTC. */
+  readonly timeZone?: string;
 }
 
 export async function buildServer(options: ServerOptions) {
@@ -69,7 +71,7 @@ export async function buildServer(options: ServerOptions) {
   // Acknowledgements from the API, the board or an e-mail link are announced like the worker's incident changes.
   const store = options.incidents && (options.announce ? announcingActions(options.incidents, options.announce) : options.incidents);
   if (store !== undefined) await app.register(incidentRoutes, { store });
-  if (options.producer !== undefined) await app.register(boardRoutes);
+  if (options.producer !== undefined) await app.register(boardRoutes, { ...(options.timeZone !== undefined && { timeZone: options.timeZone }) });
   if (store !== undefined && (options.ackLinkSecrets?.length ?? 0) > 0) {
     await app.register(ackLinkRoutes, {
       secrets: [...options.ackLinkSecrets!],
@@ -78,21 +80,24 @@ export async function buildServer(options: ServerOptions) {
       },
       describe: async (incidentId) => {
         const incident = await store.get(incidentId);
-        return incident === undefined ? undefined : ackSummary(incident);
+        return incident === undefined ? undefined : ackSummary(incident, options.timeZone);
       },
     });
   }
   return app;
 }
 
-function ackSummary(incident: Incident): AckIncidentSummary {
+/** The incident as the acknowledgement pages show it. */
+export function ackSummary(incident: Incident, timeZone: string | undefined): AckIncidentSummary {
   const latest = incident.evidence[0];
   return {
     id: incident.id,
     unit: incident.unit,
     component: incident.component,
     severity: incident.severity,
+    peakSeverity: incident.peakSeverity,
     state: describeState(incident),
+    ...(timeZone !== undefined && { timeZone }),
     openedAt: incident.openedAt,
     ...(latest !== undefined && { whatChanged: latest.explanation }),
     ...(incident.acknowledged !== null && { acknowledgedBy: incident.acknowledged.by }),

@@ -3,9 +3,10 @@
  * in constant memory and every error names its line.
  *
  * CSV: a header row with the event field names; every other column is a reading named by its measurand
- * (`Fe` or `readings.Fe`); an empty cell means "no value" (no reading, or the field left out). Numbers and
- * the booleans true/false, yes/no, 1/0 are converted; anything else is passed on as text for validation to
- * judge, so a censored reading "<1" or an ISO 4406 code "18/16/13" stays as the lab wrote it.
+ * (`Fe` or `readings.Fe`); an empty cell means "no value" (no reading, or the field left out: oilChanged and
+ * componentChanged then default to false). Numbers and the booleans true/false are converted; anything else is
+ * passed on as text for validation to judge (so "no", "0" or "yes" in oilChanged is rejected, not guessed), and a
+ * censored reading "<1" or an ISO 4406 code "18/16/13" stays as the lab wrote it.
  * JSONL: one JSON event per line; blank lines are skipped.
  */
 import { createReadStream, type ReadStream } from 'node:fs';
@@ -17,7 +18,9 @@ import type { FieldIssue } from '../domain/event.ts';
 
 export type FileFormat = 'csv' | 'jsonl';
 
-export type SourceRecord = { readonly line: number; readonly record: unknown } | { readonly line: number; readonly issues: readonly FieldIssue[] };
+export type SourceRecord =
+  | { readonly line: number; readonly record: unknown }
+  | { readonly line: number; readonly issues: readonly FieldIssue[]; readonly sampleId?: string };
 
 export function formatOf(path: string, explicit?: string): FileFormat {
   const f = (explicit ?? path.split('.').pop() ?? '').toLowerCase();
@@ -48,7 +51,7 @@ const NUMERIC_FIELDS = new Set(['revision', 'unitHours', 'oilHours', 'topUpLitre
 const BOOLEAN_FIELDS = new Set(['oilChanged', 'componentChanged']);
 const TEXT_FIELDS = new Set(['sampleId', 'unit', 'component', 'group', 'sampledAt', 'lab']);
 const NUMBER = /^\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*$/;
-const BOOLEANS: Record<string, boolean> = { true: true, false: false, yes: true, no: false, '1': true, '0': false };
+const BOOLEANS: Record<string, boolean> = { true: true, false: false };
 
 export async function* csvRecords(input: Readable): AsyncIterable<SourceRecord> {
   let header: string[] | undefined;
@@ -68,7 +71,10 @@ export async function* csvRecords(input: Readable): AsyncIterable<SourceRecord> 
       continue;
     }
     if (record.length !== header.length) {
-      yield { line, issues: [{ path: '', reason: `has ${record.length} cells, the header has ${header.length}` }] };
+      // The line's sampleId, when its column is there, so that the sender can find the line.
+      const at = header.indexOf('sampleId');
+      const sampleId = at >= 0 && at < record.length && record[at] !== '' ? record[at] : undefined;
+      yield { line, issues: [{ path: '', reason: `has ${record.length} cells, the header has ${header.length}` }], ...(sampleId !== undefined && { sampleId }) };
       continue;
     }
     yield { line, record: csvEvent(header, record) };

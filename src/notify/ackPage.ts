@@ -1,7 +1,7 @@
 /** The small HTML pages behind an acknowledgement link: confirm, done, and the refusals. */
 import { escapeHtml, oneLine } from '../domain/safeText.ts';
-import { ADVICE_CAUTION } from '../domain/caution.ts';
-import { formatTime } from './format.ts';
+import { ADVISORY_CAUTION, severityWords } from './message.ts';
+import { formatTime, timeZoneNote } from './format.ts';
 
 /** What the confirmation page tells about an incident; supplied by whoever stores incidents. */
 export interface AckIncidentSummary {
@@ -9,6 +9,9 @@ export interface AckIncidentSummary {
   unit: string;
   component: string;
   severity: 'watch' | 'caution' | 'alarm';
+  peakSeverity?: 'watch' | 'caution' | 'alarm';
+  /** The zone times are shown in (`display.timeZone`). Default UTC. */
+  timeZone?: string;
   /** Shown as given. */
   state: string;
   openedAt: string;
@@ -63,7 +66,7 @@ export function renderAckPage(view: AckPageView): string {
         `<p><label>Note (optional)<br><textarea name="note" maxlength="${ACK_NOTE_MAX}" rows="3" cols="40">${escapeHtml(view.note ?? '')}</textarea></label></p>`,
         '<p><button type="submit">Acknowledge</button></p>',
         '</form>',
-        `<p class="quiet">This link works until ${escapeHtml(formatTime(view.expiresAt.toISOString()))}.</p>`,
+        `<p class="quiet">This link works until ${escapeHtml(formatTime(view.expiresAt.toISOString(), inc.timeZone))}. ${escapeHtml(timeZoneNote(inc.timeZone))}</p>`,
       ]);
     }
     case 'done':
@@ -93,9 +96,9 @@ export function renderAckPage(view: AckPageView): string {
 function describe(inc: AckIncidentSummary): string {
   const rows: Array<[string, string]> = [
     ['Unit / component', `${oneLine(inc.unit)} / ${oneLine(inc.component)}`],
-    ['Severity', inc.severity],
+    ['Severity', severityWords(inc.severity, inc.peakSeverity)],
     ['State', oneLine(inc.state)],
-    ['Open since', formatTime(inc.openedAt)],
+    ['Open since', formatTime(inc.openedAt, inc.timeZone)],
   ];
   if (inc.whatChanged) rows.push(['What changed', oneLine(inc.whatChanged)]);
   if (inc.acknowledgedBy) rows.push(['Acknowledged by', oneLine(inc.acknowledgedBy)]);
@@ -113,7 +116,7 @@ function page(title: string, body: string[]): string {
     '</head><body>',
     `<h1>${escapeHtml(oneLine(title))}</h1>`,
     ...body.filter((b) => b !== ''),
-    `<p class="quiet"><em>${escapeHtml(ADVICE_CAUTION)}</em></p>`,
+    `<p class="quiet"><em>${escapeHtml(ADVISORY_CAUTION)}</em></p>`,
     '</body></html>',
     '',
   ].join('\n');

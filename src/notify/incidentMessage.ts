@@ -1,5 +1,4 @@
 /** Maps an incident engine's notify effect onto the message every channel renders (src/notify/message.ts). */
-import { ADVICE_CAUTION } from '../domain/caution.ts';
 import { createHash } from 'node:crypto';
 import { buildHistory } from '../analysis/history.ts';
 import type { Sample } from '../domain/event.ts';
@@ -24,11 +23,13 @@ export function incidentMessage(effect: NotifyEffect, revisions: readonly Sample
       component: s.component,
       group: s.group,
       severity: s.severity,
+      peakSeverity: s.peakSeverity,
       state: s.state,
       openedAt: s.openedAt,
       ...(s.acknowledgedBy !== undefined && { acknowledgedBy: s.acknowledgedBy }),
       tier: s.tier,
-      url: `${apiBaseUrl.replace(/\/+$/, '')}/v1/incidents/${encodeURIComponent(s.id)}`,
+      url: `${apiBaseUrl.replace(/\/+$/, '')}/incidents/${encodeURIComponent(s.id)}`,
+      apiUrl: `${apiBaseUrl.replace(/\/+$/, '')}/v1/incidents/${encodeURIComponent(s.id)}`,
     },
     findings: s.findings.map((f) => ({
       measurand: f.measurand,
@@ -66,8 +67,8 @@ export function incidentMessage(effect: NotifyEffect, revisions: readonly Sample
       readings: Object.fromEntries(Object.entries(r.readings).map(([m, reading]) => [m, formatReading(reading!)])),
     })),
     whatChanged: s.reason,
-    advice: ADVICE_CAUTION,
     idempotencyKey: idempotencyKey(effect.key),
+    advisory: ADVISORY_CAUTION,
   };
 }
 

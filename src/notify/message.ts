@@ -8,6 +8,31 @@ export type IncidentMessageType = (typeof INCIDENT_MESSAGE_TYPES)[number];
 
 export type MessageSeverity = 'watch' | 'caution' | 'alarm';
 
+/** Every message, page and payload that carries findings says this (the `advisory` field of the event data). */
+export { ADVISORY_CAUTION } from '../domain/caution.ts';
+
+const SEVERITY_ORDER: readonly MessageSeverity[] = ['watch', 'caution', 'alarm'];
+
+/**
+ * The one rule for an incident's severity, shown the same on the board card, in the evidence, in e-mail subjects,
+ * pages and command output: the highest severity among its evidence (the findings of its latest sample with
+ * findings); when the incident was more severe before, the peak is written beside it, "watch (peak caution)", so
+ * that a later message that says less than an earlier one reads as a change, not a contradiction.
+ */
+export function severityWords(severity: MessageSeverity, peakSeverity?: MessageSeverity): string {
+  return peakSeverity !== undefined && SEVERITY_ORDER.indexOf(peakSeverity) > SEVERITY_ORDER.indexOf(severity) ? `${severity} (peak ${peakSeverity})` : severity;
+}
+
+/**
+ * Most severe first, so that the finding that sets the incident's severity is always the first one shown; within a
+ * severity, the one furthest beyond its limit (value / limit) first, so that the chart follows the strongest signal.
+ */
+export function bySeverity<T extends { severity: string; value?: number; threshold?: number }>(findings: readonly T[]): T[] {
+  const rank = (s: string) => SEVERITY_ORDER.indexOf(s as MessageSeverity);
+  const beyond = (f: T) => (f.value !== undefined && f.threshold !== undefined && f.threshold !== 0 ? Math.abs(f.value / f.threshold) : 0);
+  return [...findings].sort((a, b) => rank(b.severity) - rank(a.severity) || beyond(b) - beyond(a));
+}
+
 export interface IncidentMessage {
   type: IncidentMessageType;
   incident: {
@@ -15,14 +40,19 @@ export interface IncidentMessage {
     unit: string;
     component: string;
     group: string;
+    /** The highest severity among the findings below: see `severityWords`. */
     severity: MessageSeverity;
+    /** The highest severity the incident has had. */
+    peakSeverity: MessageSeverity;
     state: string;
     openedAt: string;
     acknowledgedBy?: string;
     /** Escalation tier the incident has reached; 0 before the first escalation. */
     tier: number;
-    /** The incident's address in the API or on the board. */
+    /** The incident's page on the board (it asks for a viewer token, as the board does). */
     url: string;
+    /** The incident in the JSON API (a bearer token), for integrations. */
+    apiUrl: string;
   };
   findings: Array<{
     measurand: string;
@@ -62,10 +92,10 @@ export interface IncidentMessage {
   recentResults: Array<{ sampleId: string; sampledAt: string; oilHours?: number; readings: Record<string, string> }>;
   /** One sentence, e.g. "Fe wear rate shifted up (CUSUM 5.6 above its limit 5.0) since LAB-0042." */
   whatChanged: string;
-  /** The caution that goes with every finding: the tool advises, people decide (ADVICE_CAUTION). */
-  advice: string;
   /** From the incident engine: the same key means the same message, so every channel can de-duplicate on it. */
   idempotencyKey: string;
+  /** Always ADVISORY_CAUTION: integrators that pass the severity on pass this with it. */
+  advisory: string;
 }
 
 /** A forecast time: oil hours on the charge, operating hours from the latest sample, date (YYYY-MM-DD) when known. */

@@ -79,7 +79,7 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
   for await (const r of records) {
     count += 1;
     if ('issues' in r) {
-      reject({ line: r.line, errors: r.issues });
+      reject({ line: r.line, ...(r.sampleId !== undefined && { sampleId: r.sampleId }), errors: r.issues });
       continue;
     }
     let stored;

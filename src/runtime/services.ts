@@ -136,7 +136,7 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
         config,
         logger,
         metrics,
-        ...(hasChannels && { channels: notificationChannels(config.channels, { logger, env, disabledEndpoints: redisDisabledEndpoints(connection, prefix) }) }),
+        ...(hasChannels && { channels: notificationChannels(config.channels, { logger, env, disabledEndpoints: redisDisabledEndpoints(connection, prefix), timeZone: config.display.timeZone }) }),
         apiBaseUrl,
         live: livePublisher(connection, prefix, logger),
       },
@@ -171,6 +171,7 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
         hub,
         ackLinkSecrets,
         announce: livePublisher(request, prefix, logger),
+        timeZone: config.display.timeZone,
       });
       stopHttp.push({ name: 'result producer', close: () => producer.close() });
       if (options.opcuaPort !== undefined || config.opcua?.port !== undefined) {

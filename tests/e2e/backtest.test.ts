@@ -29,7 +29,9 @@ function words(command: string): string[] {
   return [...command.matchAll(/"([^"]*)"|(\S+)/g)].map((m) => m[1] ?? m[2]!);
 }
 
-describe('wearshift backtest', () => {
+// Each case starts the real command line (a Node process through tsx): on a busy shared machine that alone can take
+// a minute, so the bound is generous; nothing here measures speed.
+describe('wearshift backtest', { timeout: 600_000 }, () => {
   let dir: string;
   const file = (name: string) => join(dir, name);
 
@@ -57,6 +59,8 @@ describe('wearshift backtest', () => {
 
     it('prints the summary the page embeds', () => {
       expect(embedded(html)).toEqual(summary);
+      // Every key names something: no "undefined" slipped in from an absent field.
+      expect(JSON.stringify(summary)).not.toMatch(/"undefined"\s*:/);
       expect(summary.records).toBe(fleetEvents().length);
       expect(summary.runs[0]!.episodes.filter((e) => e.caughtBy === 'both').map((e) => e.unit).sort()).toEqual(STEPPED_UNITS);
     });
@@ -98,7 +102,15 @@ describe('wearshift backtest', () => {
         const text = await page.locator(`#earliness tr[data-incident="${both[0]!.incidentId}"]`).innerText();
         expect(text).toContain(`${both[0]!.leadVsLimit!.samples} sample`);
         expect(await page.locator('details.component').count()).toBe(summary.fleet.components);
+        // The caution and the summary come first, before any list or chart.
+        expect(await page.locator('header.page .caution').innerText()).toContain('wearshift advises');
+        expect(await page.locator('main > section').first().getAttribute('class')).toBe('headline');
+        // Long sections fold: components without an incident are folded, and a click folds an open one.
+        const withIncident = new Set(summary.runs[0]!.episodes.map((x) => `${x.unit}/${x.component}`)).size;
+        expect(await page.locator('details.component[open]').count()).toBe(withIncident);
         expect(await page.locator('details.component[open] svg').first().isVisible()).toBe(true);
+        await page.locator('details.component[open] > summary').first().click();
+        await expect.poll(() => page.locator('details.component[open]').count(), { timeout: 120_000 }).toBe(withIncident - 1);
         expect(JSON.parse((await page.locator('#summary').textContent())!)).toEqual(summary);
       } finally {
         await context.close();

@@ -9,7 +9,10 @@ import { demoFleet } from '../../src/demo/fleet.ts';
 import { loadConfig } from '../../src/runtime/loadConfig.ts';
 import { componentKey, parseResultEvent, type Sample } from '../../src/domain/event.ts';
 import { resolveSettings } from '../../src/domain/settings.ts';
+import { ackLinkRoutes } from '../../src/http/ackLinkRoutes.ts';
 import { boardRoutes } from '../../src/http/boardRoutes.ts';
+import { ackSummary } from '../../src/http/server.ts';
+import type { IncidentEffect } from '../../src/incidents/model.ts';
 import { announcingActions, createEventHub, type EventHub } from '../../src/http/eventHub.ts';
 import { incidentEvent } from '../../src/pipeline/liveEvent.ts';
 import { viewOf } from '../../src/pipeline/componentView.ts';
@@ -34,6 +37,10 @@ export interface BoardFixture {
   readonly verdicts: { unit: string; component: string; sampleId: string; mark: SampleMark | null }[];
   /** Feeds a component's evaluated history to the incident store and publishes what changed, as the worker does. */
   feed(unit: string, component: string): Promise<number>;
+  /** The effects (messages to send) of every feed so far, as the worker's outbox holds them. */
+  readonly effects: IncidentEffect[];
+  /** The stored samples of a component, as the notify worker reads them for a message. */
+  samples(unit: string, component: string): Sample[];
   close(): Promise<void>;
 }
 
@@ -62,7 +69,16 @@ function sampleInDoubtHistory(): Sample[] {
   });
 }
 
-export async function startBoardFixture(components: readonly [string, string][]): Promise<BoardFixture> {
+export interface BoardFixtureOptions {
+  /** Serve the acknowledgement-link pages, links signed with this secret. */
+  readonly ackSecret?: string;
+  /** `display.timeZone` for the board and the pages. */
+  readonly timeZone?: string;
+}
+
+export { config as demoConfig };
+
+export async function startBoardFixture(components: readonly [string, string][], options: BoardFixtureOptions = {}): Promise<BoardFixture> {
   const redis: RedisServer = await startRedisServer();
   const samples = new Map<string, Sample[]>();
   const wanted = new Set(components.map(([unit, component]) => componentKey({ unit, component })));
@@ -109,7 +125,20 @@ export async function startBoardFixture(components: readonly [string, string][])
     },
   });
   await app.register(eventRoutes, { hub });
-  await app.register(boardRoutes);
+  await app.register(boardRoutes, { ...(options.timeZone !== undefined && { timeZone: options.timeZone }) });
+  if (options.ackSecret !== undefined) {
+    await app.register(ackLinkRoutes, {
+      secrets: [options.ackSecret],
+      acknowledge: async (incidentId, by, note) => {
+        await announcingActions(store, (e) => hub.publish(e)).applyAction({ kind: 'acknowledge', incidentId, by, now: new Date(), ...(note !== undefined && { note }) });
+      },
+      describe: async (incidentId) => {
+        const incident = await store.get(incidentId);
+        return incident === undefined ? undefined : ackSummary(incident, options.timeZone);
+      },
+    });
+  }
+  const effects: IncidentEffect[] = [];
   const address = await app.listen({ host: '127.0.0.1', port: 0 });
 
   async function feed(unit: string, component: string) {
@@ -126,6 +155,7 @@ export async function startBoardFixture(components: readonly [string, string][])
       return { ...step, ...(forecast !== undefined && { forecast }) };
     });
     const result = await store.applySteps({ unit, component }, steps, { group: settings.group, now: new Date(), quietBefore: new Date(0) });
+    effects.push(...result.effects);
     const changes = incidentChanges(result.before, result.state);
     for (const change of changes) hub.publish(incidentEvent(change));
     return changes.length;
@@ -138,6 +168,8 @@ export async function startBoardFixture(components: readonly [string, string][])
     store,
     verdicts,
     feed,
+    effects,
+    samples: (unit, component) => samples.get(componentKey({ unit, component })) ?? [],
     async close() {
       await app.close();
       await redis.dispose();

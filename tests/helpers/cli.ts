@@ -10,7 +10,8 @@ export interface CliResult {
   readonly stderr: string;
 }
 
-export function runCli(args: readonly string[], env: NodeJS.ProcessEnv = {}, timeoutMs = 60_000): Promise<CliResult> {
+/** The bound only stops a hung command: a busy shared machine can take minutes to start Node and tsx. */
+export function runCli(args: readonly string[], env: NodeJS.ProcessEnv = {}, timeoutMs = 600_000): Promise<CliResult> {
   return new Promise((resolve, reject) => {
     const child = spawn(process.execPath, [BIN, ...args], { env: { ...process.env, ...env }, stdio: ['ignore', 'pipe', 'pipe'] });
     let stdout = '';

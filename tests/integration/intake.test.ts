@@ -37,7 +37,9 @@ function withErrors(): string {
   return `${lines.join('\n')}\n`;
 }
 
-describe('wearshift import', () => {
+// Each case starts the real command line (a Node process through tsx): on a busy shared machine that alone can take
+// a minute, so the bound is generous; nothing here measures speed.
+describe('wearshift import', { timeout: 600_000 }, () => {
   it('--dry-run validates without Redis, reports each bad line with sampleId, field and reason, and exits 1', async () => {
     const file = join(dir, 'bad.csv');
     writeFileSync(file, withErrors());
@@ -57,7 +59,7 @@ describe('wearshift import', () => {
     writeFileSync(clean, fleet.map((e) => JSON.stringify(e)).join('\n'));
     const ok = await runCli(['import', clean, '--dry-run', '--json']);
     expect(ok.code).toBe(0);
-    expect(JSON.parse(ok.stdout)).toEqual({ type: 'summary', file: clean, records: 12, accepted: 12, rejected: 0, enqueued: 0, dryRun: true });
+    expect(JSON.parse(ok.stdout)).toEqual({ type: 'summary', file: clean, records: 12, accepted: 12, rejected: 0, enqueued: 0, withoutOilChanged: fleet.filter((e) => !('oilChanged' in e)).length, dryRun: true });
 
     const bad = join(dir, 'bad-json.csv');
     writeFileSync(bad, withErrors());
@@ -76,6 +78,8 @@ describe('wearshift import', () => {
     const r = await runCli(['import', file, '--config', config], { REDIS_URL: server.url });
     expect(r.code).toBe(1);
     expect(r.stdout).toBe(`${file}: 10 enqueued, 2 rejected of 12 records\n`);
+    // Which Redis and prefix, said before anything is written.
+    expect(r.stderr.split('\n')[0]).toBe(`wearshift: Redis ${server.url} (REDIS_URL), key prefix ${prefix}`);
     const queue = openQueue(QUEUE_NAMES.results, server.client(), resolveQueueSettings({ prefix }));
     const jobs = await queue.getWaiting(0, 100);
     expect(jobs.map((j) => (j.data as { sampleId: string }).sampleId).sort()).toEqual(fleet.filter((_, i) => i !== 2 && i !== 6).map((e) => e.sampleId).sort());

@@ -65,7 +65,7 @@ describe('acknowledgement link pages', () => {
       expect(res.body).toContain('Fe wear rate shifted up since LAB-0042.');
       expect(res.body).toContain('<form method="post">');
       expect(res.body).toContain('value="oncall@plant.example"');
-      expect(res.body).toContain('2026-03-04 08:00 UTC');
+      expect(res.body).toContain('2026-03-04T08:00Z');
     }
     const head = await app.inject({ method: 'HEAD', url: `/ack/${token()}` });
     expect(head.statusCode).toBe(200);

@@ -86,6 +86,13 @@ describe('board routes', () => {
     expect(page.headers['content-security-policy']).toContain("script-src 'self'");
     const component = await app.inject({ method: 'GET', url: '/units/PS2-P3/components/gearbox' });
     expect(component.body).toContain('<body data-view="component">');
+    // The incident page, where e-mail links lead: the id holds '/', encoded or not.
+    for (const url of ['/incidents/PS2-P3%2Fgearbox%40LAB-0042', '/incidents/PS2-P3/gearbox@LAB-0042']) {
+      const incident = await app.inject({ method: 'GET', url });
+      expect(incident.statusCode).toBe(200);
+      expect(incident.headers['content-type']).toContain('text/html');
+      expect(incident.body).toContain('<body data-view="incident">');
+    }
     for (const [name, type] of [['board.js', 'text/javascript'], ['board.css', 'text/css'], ['icon.svg', 'image/svg+xml']]) {
       const asset = await app.inject({ method: 'GET', url: `/board/${name}` });
       expect(asset.statusCode).toBe(200);
@@ -95,8 +102,8 @@ describe('board routes', () => {
   });
 
   it('tell the page which roles its token holds', async () => {
-    expect((await app.inject({ method: 'GET', url: '/v1/session', headers: viewer })).json()).toEqual({ roles: ['viewer'] });
-    expect((await app.inject({ method: 'GET', url: '/v1/session', headers: { authorization: 'Bearer resp-1' } })).json()).toEqual({ roles: ['responder'] });
+    expect((await app.inject({ method: 'GET', url: '/v1/session', headers: viewer })).json()).toEqual({ roles: ['viewer'], timeZone: 'UTC' });
+    expect((await app.inject({ method: 'GET', url: '/v1/session', headers: { authorization: 'Bearer resp-1' } })).json()).toEqual({ roles: ['responder'], timeZone: 'UTC' });
     const unknown = await app.inject({ method: 'GET', url: '/v1/session', headers: { authorization: 'Bearer nope' } });
     expect(unknown.statusCode).toBe(401);
     expect(unknown.headers['www-authenticate']).toMatch(/^Bearer/);

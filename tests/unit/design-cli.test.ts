@@ -50,20 +50,43 @@ describe('wearshift design cusum', () => {
   });
 
   it('derives ARL0 from a false-alarm budget, prints the conversion, then solves h', async () => {
-    const out = await designJson(['cusum', '--budget', '1 per component per 5 years', '--every', '250', '--charts', '14', '--shifts', '0']);
+    const out = await designJson(['cusum', '--budget', '1 per component per 5 years', '--every', '250', '--charts', '14', '--share', '1', '--sided', 'two', '--shifts', '0']);
     expect(out.budget).toEqual({ alarms: 1, years: 5, sampleIntervalHours: 250, hoursPerYear: 8760, samplesPerComponent: 175.2, componentArl0: 175.2, charts: 14, share: 1, arl0: 2452.8 });
     expect(out.arl0).toBeCloseTo(2452.8, 8);
     expect(cusumArl({ k: 0.5, h: out.h as number, shift: 0, sided: 'two' })).toBeCloseTo(2452.8, 4);
 
-    const text = await runDesign(['cusum', '--budget', '2 per component per year', '--every', '500', '--hours-per-year', '4000']);
+    const text = await runDesign(['cusum', '--budget', '2 per component per year', '--every', '500', '--hours-per-year', '4000', '--charts', '1', '--share', '1']);
     expect(text).toContain('1 × 4000 / 500 = 8 samples per component; / 2 = component in-control ARL 4');
-    expect(text).toMatch(/decision interval h = [\d.]+ for an in-control ARL of 4\n/);
+    expect(text).toMatch(/decision interval h = [\d.]+ for an in-control ARL of 4 samples\n/);
+    // Run lengths in samples and, with the sample interval known, in operating hours (ARL × 500 h).
+    expect(text).toMatch(/ARL \(samples\)\s+ARL \(operating hours, a sample every 500 h\)/);
+    expect(text).toMatch(/^0\s+4\s+2000$/m);
+    expect(text).toContain('wearshift advises');
+  });
+
+  it('with a budget, answers the h and L the worker uses with the configuration: its charts, budget share and one-sided design', async () => {
+    const { loadConfig } = await import('../../src/runtime/loadConfig.ts');
+    const { changeBudgetShare, detectionLimits } = await import('../../src/analysis/budget.ts');
+    const config = loadConfig(new URL('../../demo/config.yaml', import.meta.url).pathname);
+    const detection = { ...config.detection, budget: { ...config.detection.budget, sampleIntervalHours: 250 } };
+    const worker = detectionLimits(detection, changeBudgetShare(config.population));
+    const demo = new URL('../../demo/config.yaml', import.meta.url).pathname;
+    const cusum = await designJson(['cusum', '--budget', '1 per component per 5 years', '--every', '250', '--config', demo, '--shifts', '0']);
+    expect(cusum).toMatchObject({ sided: 'one' });
+    expect((cusum.budget as { charts: number }).charts).toBe(worker.charts);
+    expect(cusum.h as number).toBeCloseTo(worker.cusumH, 6);
+    const ewma = await designJson(['ewma', '--budget', '1 per component per 5 years', '--every', '250', '--config', demo, '--shifts', '0']);
+    expect(ewma).toMatchObject({ sided: 'one', limits: 'exact', lambda: config.detection.ewma.lambda });
+    expect(ewma.L as number).toBeCloseTo(worker.ewmaL, 6);
+    const text = await runDesign(['cusum', '--budget', '1 per component per 5 years', '--every', '250', '--config', demo]);
+    expect(text).toContain(`a "chart" is one wear metal watched by one detector`);
   });
 
   it('prints a table of run lengths without --json, with "> 1e9" for a run that never ends in practice', async () => {
     const text = await runDesign(['cusum', '--h', '4', '--sided', 'one', '--shifts', '-3,0']);
     expect(text).toMatch(/^-3\s+> 1e9$/m);
     expect(text).toMatch(/^0\s+335\.4$/m);
+    expect(text).toContain('ARL (samples)');
     expect((await designJson(['cusum', '--h', '4', '--sided', 'one', '--shifts', '-3'])).arl).toEqual([{ shift: -3, arl: null }]);
   });
 

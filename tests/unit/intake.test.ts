@@ -17,7 +17,7 @@ describe('CSV records', () => {
     const csv = [
       'sampleId,revision,unit,component,sampledAt,oilHours,oilChanged,topUpLitres,Fe,Si,iso4406,readings.v100',
       'LAB-1,0,PS2-P3,gearbox,2026-03-01T08:00:00Z,250,false,2.5,12,<1,18/16/13,13.9',
-      'LAB-2,,PS2-P3,gearbox,2026-03-01T09:00:00Z,,yes,,7,,,',
+      'LAB-2,,PS2-P3,gearbox,2026-03-01T09:00:00Z,,TRUE,,7,,,',
     ].join('\n');
     const [a, b] = await all(csvRecords(Readable.from([csv])));
     expect(a).toEqual({
@@ -34,7 +34,25 @@ describe('CSV records', () => {
     const csv = 'sampleId,unit,component,sampledAt,Fe\nA,U,c,2026-03-01T08:00:00Z,1\nB,U,c\nC,U,c,2026-03-01T08:00:00Z,3\n';
     const records = await all(csvRecords(Readable.from([csv])));
     expect(records.map((r) => r.line)).toEqual([2, 3, 4]);
-    expect(records[1]).toEqual({ line: 3, issues: [{ path: '', reason: 'has 3 cells, the header has 5' }] });
+    // The sampleId travels with the report, so that the sender can find the line.
+    expect(records[1]).toEqual({ line: 3, sampleId: 'B', issues: [{ path: '', reason: 'has 3 cells, the header has 5' }] });
+  });
+
+  it('takes oilChanged only as true or false: "no", "0", "yes" and "1" reach validation as text and are refused', async () => {
+    const csv = ['sampleId,unit,component,sampledAt,oilChanged,Fe', ...['no', '0', 'yes', '1'].map((v, i) => `L-${i},U,c,2026-03-01T08:00:00Z,${v},1`)].join('\n');
+    for (const r of await all(csvRecords(Readable.from([csv])))) {
+      const parsed = validateResult((r as { record: unknown }).record, { now: NOW });
+      expect(parsed.ok).toBe(false);
+      expect(!parsed.ok && parsed.issues).toEqual([{ path: 'oilChanged', reason: 'oilChanged must be true or false' }]);
+    }
+  });
+
+  it('reports every problem of a line at once, and names a missing field in words', () => {
+    const parsed = validateResult({ sampleId: 'L-9', component: 'gearbox', sampledAt: '2026-03-01T08:00:00Z', unitHours: -5, readings: { Fe: 'abc', Zz: 1 } }, { now: NOW });
+    expect(parsed.ok).toBe(false);
+    const paths = !parsed.ok ? parsed.issues.map((i) => i.path).sort() : [];
+    expect(paths).toEqual(['readings.Fe', 'readings.Zz', 'unit', 'unitHours']);
+    expect(!parsed.ok && parsed.issues.find((i) => i.path === 'unit')?.reason).toBe('unit is required (missing or empty)');
   });
 
   it('counts lines of quoted cells that span lines, and stops with a clear reason at broken quoting', async () => {

@@ -12,14 +12,17 @@ const options = {
 describe('incident e-mail', () => {
   it('says what changed, the evidence against its limit and since when, in both parts', () => {
     const mail = renderIncidentEmail(incidentMessage(), options);
-    expect(mail.subject).toBe('[wearshift caution] PS2-P3 / gearbox: New incident — Fe wear rate shifted up (CUSUM 5.6 above its limit 5.0) since LAB-0042.');
+    expect(mail.subject).toBe('[wearshift caution] PS2-P3 / gearbox: New incident — Fe: cusum, rate');
     for (const part of [mail.text, mail.html]) {
       expect(part).toContain('Fe wear rate shifted up (CUSUM 5.6 above its limit 5.0) since LAB-0042.');
       expect(part).toContain('CUSUM statistic 5.612 against its limit 5');
       expect(part).toContain('wear rate 4.5 ppm per 100 h');
-      expect(part).toContain('sample LAB-0042, drawn 2026-03-01 08:00 UTC');
-      expect(part).toContain('https://wearshift.plant.example/v1/incidents/INC-2026-0007');
-      expect(part).toContain('2026-03-04 08:00 UTC');
+      expect(part).toContain('sample LAB-0042, drawn 2026-03-01T08:00Z');
+      // The link leads to the board's page for the incident, not to the JSON API.
+      expect(part).toContain('https://wearshift.plant.example/incidents/INC-2026-0007');
+      expect(part).not.toContain('/v1/incidents/');
+      expect(part).toContain('2026-03-04T08:00Z');
+      expect(part).toContain('Times are ISO 8601 in UTC (Z).');
     }
     expect(mail.text).toContain(ADVISORY_CAUTION);
     expect(mail.html).toContain(ADVISORY_CAUTION.replace(/'/g, '&#39;'));
@@ -30,8 +33,8 @@ describe('incident e-mail', () => {
     const lines = text.split('\n');
     const header = lines.findIndex((l) => l.startsWith('Sample'));
     expect(lines[header]?.split(/\s{2,}/)).toEqual(['Sample', 'Drawn', 'Oil h', 'Fe', 'Cu', 'Si']);
-    expect(lines[header + 1]?.split(/\s{2,}/)).toEqual(['LAB-0038', '2026-01-05 08:00 UTC', '250', '12', '3', '<1']);
-    expect(lines[header + 3]?.split(/\s{2,}/)).toEqual(['LAB-0042', '2026-03-01 08:00 UTC', '750', '28', '4', '2']);
+    expect(lines[header + 1]?.split(/\s{2,}/)).toEqual(['LAB-0038', '2026-01-05T08:00Z', '250', '12', '3', '<1']);
+    expect(lines[header + 3]?.split(/\s{2,}/)).toEqual(['LAB-0042', '2026-03-01T08:00Z', '750', '28', '4', '2']);
   });
 
   it('keeps the acknowledgement link intact in text and correctly escaped in HTML', () => {
@@ -82,8 +85,45 @@ describe('incident e-mail', () => {
   });
 
   it('cuts an overlong subject to one line of bounded length', () => {
-    const mail = renderIncidentEmail(incidentMessage({ whatChanged: 'Fe '.repeat(200) }), options);
+    const mail = renderIncidentEmail(incidentMessage({}, { unit: 'PS2-P3 '.repeat(40) }), options);
     expect(mail.subject.length).toBeLessThanOrEqual(180);
     expect(mail.subject.endsWith('…')).toBe(true);
+  });
+
+  it('says the headline once: the reason loses the words the headline already says', () => {
+    const mail = renderIncidentEmail(incidentMessage({ whatChanged: 'new incident, caution: Fe (cusum, caution), Fe (rate, watch)' }), options);
+    expect(mail.subject.toLowerCase().split('new incident').length - 1).toBe(1);
+    expect(mail.text.toLowerCase().split('new incident').length - 1).toBe(1);
+    expect(mail.text).toContain('Fe (cusum, caution), Fe (rate, watch)');
+  });
+
+  it('writes the severity by the one rule: the evidence\'s highest, the peak beside it when it was higher', () => {
+    const later = incidentMessage({ type: 'updated' }, { severity: 'watch', peakSeverity: 'caution' });
+    later.findings = later.findings.map((f) => ({ ...f, severity: 'watch' }));
+    const mail = renderIncidentEmail(later, options);
+    expect(mail.subject.startsWith('[wearshift watch (peak caution)] ')).toBe(true);
+    expect(mail.text).toContain('PS2-P3 / gearbox: watch (peak caution).');
+    // Evidence most severe first, so that the first line carries the incident's severity.
+    const first = renderIncidentEmail(incidentMessage(), options).text.split('\n').find((l) => l.startsWith('- '));
+    expect(first).toContain('cusum rule, caution');
+  });
+
+  it('writes a viscosity change and its limit as percentages, a reading and its limit in the same unit', () => {
+    const msg = incidentMessage();
+    msg.findings = [
+      { measurand: 'v40', rule: 'condition', severity: 'alarm', value: 47.55, threshold: 20, basis: 'change', sampleId: 'LAB-0042', sampledAt: '2026-03-01T08:00:00Z', explanation: 'Viscosity rose.' },
+      { measurand: 'tbn', rule: 'condition', severity: 'caution', value: 5.5, threshold: 6, basis: 'reading', sampleId: 'LAB-0042', sampledAt: '2026-03-01T08:00:00Z', explanation: 'TBN fell.' },
+    ];
+    const { text } = renderIncidentEmail(msg, options);
+    expect(text).toContain('change from new oil 47.55 % against its limit 20 %');
+    expect(text).not.toContain('mm²/s against');
+    expect(text).toContain('reading 5.5 mg KOH/g against its limit 6 mg KOH/g');
+  });
+
+  it('shows times in the configured site zone with their offset, and names the zone', () => {
+    // Europe/Berlin is UTC+1 in March 2026 (before the change to summer time on 29 March): IANA tz database.
+    const { text } = renderIncidentEmail(incidentMessage(), { ...options, timeZone: 'Europe/Berlin' });
+    expect(text).toContain('drawn 2026-03-01T09:00+01:00');
+    expect(text).toContain('site zone Europe/Berlin');
   });
 });

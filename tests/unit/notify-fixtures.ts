@@ -1,5 +1,5 @@
 /** An invented incident message (demo fleet naming) shared by the notification tests. */
-import { ADVICE_CAUTION } from '../../src/domain/caution.ts';
+import { ADVISORY_CAUTION } from '../../src/domain/caution.ts';
 import type { IncidentMessage } from '../../src/notify/message.ts';
 
 export function incidentMessage(overrides: Partial<IncidentMessage> = {}, incident: Partial<IncidentMessage['incident']> = {}): IncidentMessage {
@@ -11,10 +11,12 @@ export function incidentMessage(overrides: Partial<IncidentMessage> = {}, incide
       component: 'gearbox',
       group: 'pump-gearboxes',
       severity: 'caution',
+      peakSeverity: 'caution',
       state: 'active, unacknowledged',
       openedAt: '2026-03-01T08:00:00Z',
       tier: 0,
-      url: 'https://wearshift.plant.example/v1/incidents/INC-2026-0007',
+      url: 'https://wearshift.plant.example/incidents/INC-2026-0007',
+      apiUrl: 'https://wearshift.plant.example/v1/incidents/INC-2026-0007',
       ...incident,
     },
     findings: [
@@ -46,8 +48,8 @@ export function incidentMessage(overrides: Partial<IncidentMessage> = {}, incide
       { sampleId: 'LAB-0042', sampledAt: '2026-03-01T08:00:00Z', oilHours: 750, readings: { Fe: '28', Cu: '4', Si: '2' } },
     ],
     whatChanged: 'Fe wear rate shifted up (CUSUM 5.6 above its limit 5.0) since LAB-0042.',
-    advice: ADVICE_CAUTION,
     idempotencyKey: 'INC-2026-0007:opened:1',
+    advisory: ADVISORY_CAUTION,
     ...overrides,
   };
 }

@@ -37,9 +37,12 @@ describe('limit rule', () => {
     const f = findings[0]!;
     expect(f).toMatchObject({ unit: 'PS2-P3', component: 'gearbox', group: 'pump-gearboxes', rule: 'limit', basis: 'reading' });
     expect(f.sampledAt).toBe(samples[1]!.sampledAt);
-    expect(f.explanation).toBe('Fe 152 ppm is above the caution level of 150 ppm set for group pump-gearboxes.');
-    expect(findings[2]!.explanation).toBe('Fe >180 ppm is above the caution level of 150 ppm set for group pump-gearboxes.');
-    expect(findings[4]!.explanation).toBe('Water 1500 ppm is above the alarm level of 1000 ppm set for group pump-gearboxes.');
+    expect(f.explanation.slice(0, 'Fe 152 ppm is above the caution level of 150 ppm set for group pump-gearboxes.'.length)).toBe('Fe 152 ppm is above the caution level of 150 ppm set for group pump-gearboxes.');
+    expect(f.explanation).toMatch(/\. It may point to .+; next: re-sample to confirm .+ask the lab/);
+    expect(findings[2]!.explanation.slice(0, 'Fe >180 ppm is above the caution level of 150 ppm set for group pump-gearboxes.'.length)).toBe('Fe >180 ppm is above the caution level of 150 ppm set for group pump-gearboxes.');
+    expect(findings[2]!.explanation).toMatch(/\. It may point to .+; next: re-sample to confirm .+ask the lab/);
+    expect(findings[4]!.explanation.slice(0, 'Water 1500 ppm is above the alarm level of 1000 ppm set for group pump-gearboxes.'.length)).toBe('Water 1500 ppm is above the alarm level of 1000 ppm set for group pump-gearboxes.');
+    expect(findings[4]!.explanation).toMatch(/\. It may point to .+; next: re-sample to confirm .+ask the lab/);
   });
 
   it('stays silent without configured limits', () => {

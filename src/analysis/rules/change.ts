@@ -54,11 +54,15 @@ export function baselineProvenance(p: ChangePoint, track: ChangeTrack | undefine
   const rate = `${fmt(p.baselineRate * 100)} ppm/100 h`;
   let text: string;
   if (p.source === 'own' && own?.completedSampleId !== undefined) {
-    text = `the in-control rate ${rate}, learnt from this component's own samples ${own.firstSampleId} to ${own.completedSampleId} (${own.sums.intervals} intervals) and refined since`;
-  } else {
-    const have = own?.sums.intervals ?? 0;
-    text = `the in-control rate ${rate} of group ${settings.group} (this component's own baseline has ${have} of ${settings.detection.baselineIntervals} intervals)`;
+    const held = p.learningPaused && track?.signalSince !== undefined;
+    text =
+      `the reference rate ${rate}: what this component's own samples ${own.firstSampleId} to ${own.completedSampleId} showed (${own.sums.intervals} intervals), ` +
+      (held ? `updated with later samples and held since sample ${track.signalSince!.sampleId} where the change was first signalled` : 'updated with each sample since') +
+      ` (its usual rate, not a proven healthy one: a slow change before then may be in it)`;
+    return text;
   }
+  const have = own?.sums.intervals ?? 0;
+  text = `the reference rate ${rate} of group ${settings.group}, typical of its components, not of this one (this component's own baseline has ${have} of ${settings.detection.baselineIntervals} intervals)`;
   if (p.learningPaused && track?.signalSince !== undefined) text += `, held since sample ${track.signalSince.sampleId} where the change was first signalled`;
   return text;
 }
@@ -68,7 +72,7 @@ function explainRise(m: Measurand, rule: 'ewma' | 'cusum', value: number, thresh
   return (
     `${m} (${MEASURANDS[m].label}) is accumulating faster than before: ${statistic(rule, value, threshold)}; the latest interval gained ` +
     `${fmt(p.interval.rate * 100)} ppm/100 h against ${baselineProvenance(p, track, settings)}. ` +
-    `It points to ${origin ?? 'the parts this metal comes from'} wearing faster; next: re-sample to confirm, and ask the lab to review the trend.`
+    `It may point to ${origin ?? 'the parts this metal comes from'} wearing faster, or to a change in sampling or duty; next: re-sample to confirm (same sample point, machine at working temperature), and ask the lab to review the trend.`
   );
 }
 

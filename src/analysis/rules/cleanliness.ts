@@ -8,6 +8,7 @@ import type { Finding } from '../../domain/finding.ts';
 import { formatReading, type Iso4406Code } from '../../domain/reading.ts';
 import { codeStepsWorse, sampleIso4406Code, targetIso4406Code } from '../iso4406.ts';
 import { findingAt, sweep, type RuleInput, type SampleInput } from './ruleInput.ts';
+import { nextStep } from './nextStep.ts';
 
 export function cleanlinessFindings(input: RuleInput): Finding[] {
   return sweep(input, cleanlinessVerdicts);
@@ -32,7 +33,7 @@ export function cleanlinessVerdicts(input: SampleInput): Finding[] {
       basis: 'steps',
       explanation:
         `ISO 4406 code ${text(code.code)}${code.fromCounts ? ' (from the particle counts)' : ''} is ${steps} ` +
-        `scale step${steps === 1 ? '' : 's'} worse than the target ${text(target)}; each step doubles the particle count.`,
+        `scale step${steps === 1 ? '' : 's'} worse than the target ${text(target)}; each step doubles the particle count. ${nextStep('iso4406')}`,
     }),
   ];
 }

@@ -20,6 +20,7 @@ import type { Finding } from '../../domain/finding.ts';
 import type { Measurand } from '../../domain/measurands.ts';
 import type { Reading } from '../../domain/reading.ts';
 import { crossing, findingAt, type Crossing, formatNumber, measurandTitle, quantity, readingText, sweep, type RuleInput, type SampleInput, type Verdict } from './ruleInput.ts';
+import { nextStep } from './nextStep.ts';
 
 type Judgement = Omit<Verdict, 'measurand' | 'rule' | 'disposition'>;
 type Judge = (reading: Reading, input: SampleInput) => Judgement | undefined;
@@ -84,7 +85,7 @@ function viscosity(m: 'v40' | 'v100', reading: Reading, input: SampleInput) {
     basis: 'change',
     explanation:
       `${measurandTitle(m)} ${readingText(m, reading)} is ${formatNumber(Math.abs(change))} % ${up ? 'above' : 'below'} ` +
-      `the new-oil ${quantity(m, fresh)}, more than the ${c.severity} change of ${formatNumber(percent[c.severity])} %.`,
+      `the new-oil ${quantity(m, fresh)}, more than the ${c.severity} change of ${formatNumber(percent[c.severity])} %. ${nextStep(m)}`,
   };
 }
 
@@ -108,7 +109,7 @@ function levelVerdict(m: Measurand, reading: Reading, levels: Levels, side: 'abo
     value: c.value,
     threshold: c.level,
     basis: 'reading',
-    explanation: `${measurandTitle(m)} ${readingText(m, reading)} is ${side} the ${c.severity} level of ${quantity(m, c.level)}${note ? ` (${note(c)})` : ''}.`,
+    explanation: `${measurandTitle(m)} ${readingText(m, reading)} is ${side} the ${c.severity} level of ${quantity(m, c.level)}${note ? ` (${note(c)})` : ''}. ${nextStep(m)}`,
   };
 }
 
@@ -120,7 +121,7 @@ function glycol(reading: Reading, input: SampleInput) {
     value: c.value,
     threshold: 0,
     basis: 'reading',
-    explanation: `${measurandTitle('glycol')} ${readingText('glycol', reading)} found: coolant is getting into the oil.`,
+    explanation: `${measurandTitle('glycol')} ${readingText('glycol', reading)} found. ${nextStep('glycol')}`,
   };
 }
 

@@ -6,6 +6,7 @@
 import type { Finding } from '../../domain/finding.ts';
 import { MEASURAND_NAMES } from '../../domain/measurands.ts';
 import { crossing, findingAt, measurandTitle, quantity, readingText, sweep, type RuleInput, type SampleInput } from './ruleInput.ts';
+import { nextStep } from './nextStep.ts';
 
 export function limitFindings(input: RuleInput): Finding[] {
   return sweep(input, limitVerdicts);
@@ -28,7 +29,7 @@ export function limitVerdicts(input: SampleInput): Finding[] {
         value: c.value,
         threshold: c.level,
         basis: 'reading',
-        explanation: `${measurandTitle(m)} ${readingText(m, reading)} is above the ${c.severity} level of ${quantity(m, c.level)} set for group ${group}.`,
+        explanation: `${measurandTitle(m)} ${readingText(m, reading)} is above the ${c.severity} level of ${quantity(m, c.level)} set for group ${group}. ${nextStep(m)}`,
       }),
     );
   }

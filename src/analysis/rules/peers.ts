@@ -79,7 +79,7 @@ export function peerVerdict(input: SampleInput, m: Measurand, own: OwnBaselineSt
       basis: 'peer rate',
       explanation:
         `${m} (${MEASURANDS[m].label}) wears ${formatNumber(ratio)} times as fast as the other ${peers!.components} units of group ${settings.group}: ` +
-        `its own in-control rate ${formatNumber(ownRate * 100)} ppm/100 h (learnt from samples ${own.firstSampleId} to ${own.completedSampleId}) against their typical ` +
+        `its own usual rate ${formatNumber(ownRate * 100)} ppm/100 h (learnt from samples ${own.firstSampleId} to ${own.completedSampleId}) against their typical ` +
         `${formatNumber(peerRate * 100)} ppm/100 h, ${formatNumber(score)} standard deviations above their mean on a log scale (prediction limit ${formatNumber(limit)}). ` +
         `It points to ${origin ?? 'the parts this metal comes from'} wearing faster than on like-for-like units; next: ask the lab to review the history ` +
         'and compare the unit\u2019s duty, oil and filtration with its peers.',

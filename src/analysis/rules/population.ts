@@ -11,6 +11,7 @@ import type { Measurand } from '../../domain/measurands.ts';
 import type { BandStats } from '../model.ts';
 import { bandFor, percentileOfSorted, populationMeasurands } from '../populationStats.ts';
 import { crossing, findingAt, formatNumber, measurandTitle, quantity, readingText, sweep, type RuleInput, type SampleInput } from './ruleInput.ts';
+import { nextStep } from './nextStep.ts';
 
 export type PopulationLimitStatus =
   | { readonly kind: 'limits'; readonly caution: number; readonly alarm: number; readonly n: number }
@@ -66,7 +67,7 @@ export function populationVerdicts(input: SampleInput): Finding[] {
         basis: 'reading',
         explanation:
           `${measurandTitle(m)} ${readingText(m, reading)} at ${formatNumber(sample.oilHours!)} oil hours is above the population ` +
-          `${c.severity} level of ${quantity(m, c.level)} (${basis} of ${status.n} results in the ${bandName(band)} band of group ${group}).`,
+          `${c.severity} level of ${quantity(m, c.level)} (${basis} of ${status.n} results in the ${bandName(band)} band of group ${group}): higher than most like-for-like components at this point of the charge. ${nextStep(m)}`,
       }),
     );
   }

@@ -7,6 +7,7 @@
 import type { Finding } from '../../domain/finding.ts';
 import { MEASURAND_NAMES } from '../../domain/measurands.ts';
 import { crossing, findingAt, formatNumber, measurandTitle, quantity, sweep, type RuleInput, type SampleInput } from './ruleInput.ts';
+import { nextStep } from './nextStep.ts';
 
 export function rateFindings(input: RuleInput): Finding[] {
   return sweep(input, rateVerdicts, MEASURAND_NAMES.filter((m) => input.settings.rateLimits[m] !== undefined));
@@ -32,7 +33,7 @@ export function rateVerdicts(input: SampleInput): Finding[] {
         basis: 'rate',
         explanation:
           `${measurandTitle(m)} gained ${quantity(m, iv.increment)} in ${formatNumber(iv.hours)} h on this charge ` +
-          `(${quantity(m, per100h)} per 100 h), above the ${c.severity} rate of ${quantity(m, c.level)} per 100 h set for group ${group}.`,
+          `(${quantity(m, per100h)} per 100 h), above the ${c.severity} rate of ${quantity(m, c.level)} per 100 h set for group ${group}. ${nextStep(m)}`,
       }),
     );
   }

@@ -9,7 +9,7 @@ import { EmailDeliveryError, sendEmail } from './emailSend.ts';
 
 export const emailChannel: ChannelDefinition = {
   configured: (channels) => channels.email !== undefined,
-  open(channels, { env }) {
+  open(channels, { env, timeZone }) {
     return {
       async deliver({ effect, message, chart }) {
         const cfg = channels.email;
@@ -25,7 +25,7 @@ export const emailChannel: ChannelDefinition = {
                 return { ackUrl: ackLinkUrl(links.baseUrl, token), ackExpiresAt: expiresAt };
               })()
             : {};
-        const mail = renderIncidentEmail(message, { from: cfg.from, to: effect.target, ...ack, ...(chart && { chart }) });
+        const mail = renderIncidentEmail(message, { from: cfg.from, to: effect.target, ...ack, ...(chart && { chart }), ...(timeZone !== undefined && { timeZone }) });
         const smtp = cfg.smtp;
         try {
           const sent = await sendEmail(

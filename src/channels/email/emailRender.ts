@@ -4,12 +4,10 @@
  */
 import { createHash } from 'node:crypto';
 import { MEASURANDS, isMeasurand } from '../../domain/measurands.ts';
-import { asksForAcknowledgement, type IncidentMessage } from '../../notify/message.ts';
-import { formatNumber, formatTime } from '../../notify/format.ts';
-import { ADVICE_CAUTION } from '../../domain/caution.ts';
-import { escapeHtml, headerValue, httpUrl, oneLine } from '../../domain/safeText.ts';
-
 import { ADVISORY_CAUTION, FORECAST_CAUTION } from '../../domain/caution.ts';
+import { asksForAcknowledgement, bySeverity, severityWords, type IncidentMessage } from '../../notify/message.ts';
+import { DEFAULT_TIME_ZONE, formatNumber, formatTime as formatTimeIn, timeZoneNote } from '../../notify/format.ts';
+import { escapeHtml, headerValue, httpUrl, oneLine } from '../../domain/safeText.ts';
 
 export { ADVISORY_CAUTION };
 
@@ -23,6 +21,8 @@ export interface EmailRenderOptions {
   ackExpiresAt?: Date;
   /** The trend chart of the incident's evidence, shown inline in the HTML part. */
   chart?: EmailChart;
+  /** The site zone times are shown in (`display.timeZone`). Default UTC. */
+  timeZone?: string;
 }
 
 export type { EmailChart } from '../../notify/incidentChart.ts';
@@ -56,23 +56,26 @@ const TABLE_MAX_MEASURANDS = 8;
 
 export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOptions): RenderedEmail {
   const inc = msg.incident;
+  const zone = options.timeZone ?? DEFAULT_TIME_ZONE;
+  const formatTime = (iso: string) => formatTimeIn(iso, zone);
+  const severity = severityWords(inc.severity, inc.peakSeverity);
   const incidentUrl = httpUrl(inc.url, 'incident.url');
   const ackUrl = options.ackUrl !== undefined && asksForAcknowledgement(msg) ? httpUrl(options.ackUrl, 'ackUrl') : undefined;
   const where = `${oneLine(inc.unit)} / ${oneLine(inc.component)}`;
   const what = headline(msg);
-  const whatChanged = oneLine(msg.whatChanged);
-  const evidence = msg.findings.map((f) => ({
+  const whatChanged = withoutHeadline(oneLine(msg.whatChanged), what);
+  const evidence = bySeverity(msg.findings).map((f) => ({
     title: `${oneLine(f.measurand)}, ${oneLine(f.rule)} rule, ${oneLine(f.severity)}: ${statement(f)}`,
     since: `sample ${oneLine(f.sampleId)}, drawn ${formatTime(f.sampledAt)}`,
     explanation: oneLine(f.explanation),
   }));
   const forecasts = (msg.forecast?.items ?? []).map((f) => oneLine(f.text));
-  const table = resultsTable(msg);
+  const table = resultsTable(msg, formatTime);
   const expiry = options.ackExpiresAt ? ` The link works until ${formatTime(options.ackExpiresAt.toISOString())}.` : '';
-  const context = `Open since ${formatTime(inc.openedAt)} · group ${oneLine(inc.group)} · state ${oneLine(inc.state)} · escalation tier ${inc.tier}.`;
+  const context = `Open since ${formatTime(inc.openedAt)} · group ${oneLine(inc.group)} · state ${oneLine(inc.state)} · escalation tier ${inc.tier}. ${timeZoneNote(zone)}`;
 
   const text = [
-    `Incident ${oneLine(inc.id)} on ${where}: ${inc.severity}. ${what}.`,
+    `Incident ${oneLine(inc.id)} on ${where}: ${severity}. ${what}.`,
     '',
     'What changed',
     whatChanged,
@@ -85,13 +88,14 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
     'Last results',
     ...textTable(table),
     '',
-    `Incident: ${incidentUrl}`,
+    'Incident on the board (sign in with your board token):',
+    incidentUrl,
     // The link alone on its line, so that no mail client takes trailing words into it.
     ...(ackUrl ? ['Acknowledge (a page asks you to confirm):', ackUrl, ...(expiry ? [expiry.trim()] : [])] : []),
     '',
     context,
     '',
-    ADVICE_CAUTION,
+    ADVISORY_CAUTION,
     '',
   ].join('\n');
 
@@ -99,7 +103,7 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
     '<!DOCTYPE html>',
     '<html lang="en"><head><meta charset="utf-8"><title>' + escapeHtml(`${where}: ${what}`) + '</title></head>',
     '<body style="font-family:sans-serif;line-height:1.4;max-width:46em">',
-    `<p><strong>Incident ${escapeHtml(oneLine(inc.id))} on ${escapeHtml(where)}: ${escapeHtml(inc.severity)}.</strong> ${escapeHtml(what)}.</p>`,
+    `<p><strong>Incident ${escapeHtml(oneLine(inc.id))} on ${escapeHtml(where)}: ${escapeHtml(severity)}.</strong> ${escapeHtml(what)}.</p>`,
     '<h3>What changed</h3>',
     `<p>${escapeHtml(whatChanged)}</p>`,
     '<h3>Evidence</h3>',
@@ -114,10 +118,10 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
       : []),
     '<h3>Last results</h3>',
     htmlTable(table),
-    `<p>Incident: <a href="${escapeHtml(incidentUrl)}">${escapeHtml(incidentUrl)}</a></p>`,
+    `<p><a href="${escapeHtml(incidentUrl)}">Open the incident on the board</a> (sign in with your board token).</p>`,
     ...(ackUrl ? [`<p><a href="${escapeHtml(ackUrl)}">Acknowledge this incident</a> (a page asks you to confirm).${escapeHtml(expiry)}</p>`] : []),
     `<p style="color:#555">${escapeHtml(context)}</p>`,
-    `<p style="color:#555"><em>${escapeHtml(ADVICE_CAUTION)}</em></p>`,
+    `<p style="color:#555"><em>${escapeHtml(ADVISORY_CAUTION)}</em></p>`,
     '</body></html>',
     '',
   ].join('\n');
@@ -126,7 +130,7 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
   return {
     from: options.from,
     to: options.to,
-    subject: headerValue(`[wearshift ${inc.severity}] ${where}: ${what} — ${whatChanged}`, SUBJECT_MAX),
+    subject: headerValue(`[wearshift ${severity}] ${where}: ${what} — ${evidenceSummary(msg)}`, SUBJECT_MAX),
     text,
     html,
     headers: {
@@ -164,14 +168,38 @@ function headline(msg: IncidentMessage): string {
 
 type MessageFinding = IncidentMessage['findings'][number];
 
-/** The value in the words of its basis, against its limit where the rule has one. */
+/** "Fe: cusum, rate; Cu: limit": what the evidence is about, most severe first, for the subject line. */
+function evidenceSummary(msg: IncidentMessage): string {
+  const rules = new Map<string, string[]>();
+  for (const f of bySeverity(msg.findings)) {
+    const list = rules.get(oneLine(f.measurand)) ?? [];
+    if (!list.includes(oneLine(f.rule))) list.push(oneLine(f.rule));
+    rules.set(oneLine(f.measurand), list);
+  }
+  if (rules.size === 0) return 'no findings attached';
+  const parts = [...rules].map(([m, r]) => `${m}: ${r.join(', ')}`);
+  return parts.length <= 3 ? parts.join('; ') : `${parts.slice(0, 3).join('; ')} and ${parts.length - 3} more`;
+}
+
+/**
+ * The engine's reason often starts with the headline's own words ("new incident, caution: …"); the message says
+ * those once, in the headline.
+ */
+function withoutHeadline(reason: string, headline: string): string {
+  const m = /^(new incident|new evidence)(, (watch|caution|alarm))?: /i.exec(reason);
+  if (m !== null && headline.toLowerCase().startsWith(m[1]!.toLowerCase())) return reason.slice(m[0].length);
+  return reason;
+}
+
+/** The value in the words of its basis, against its limit where the rule has one, both in the same unit. */
 function statement(f: MessageFinding): string {
   const value = formatNumber(f.value);
   const unit = isMeasurand(f.measurand) ? MEASURANDS[f.measurand].unit : '';
+  const withUnit = (x: string, u: string) => (u === '' ? x : u === '%' ? `${x} %` : `${x} ${u}`);
   const measured = (() => {
     switch (f.basis) {
       case 'reading':
-        return `reading ${value}${unit ? ` ${unit}` : ''}`;
+        return `reading ${withUnit(value, unit)}`;
       case 'rate':
         return `wear rate ${value} ppm per 100 h`;
       case 'ewma':
@@ -179,14 +207,17 @@ function statement(f: MessageFinding): string {
       case 'cusum':
         return `CUSUM statistic ${value}`;
       case 'change':
-        return `change ${value}${unit ? ` ${unit}` : ''}`;
+        // The condition rule's change from the new-oil value is in per cent of that value.
+        return `change from new oil ${withUnit(value, '%')}`;
       case 'steps':
         return `${value} code steps`;
       default:
         return `${oneLine(f.basis)} ${value}`;
     }
   })();
-  return f.threshold === undefined ? measured : `${measured} against its limit ${formatNumber(f.threshold)}`;
+  if (f.threshold === undefined) return measured;
+  const limitUnit = f.basis === 'change' ? '%' : f.basis === 'reading' ? unit : f.basis === 'rate' ? 'ppm per 100 h' : '';
+  return `${measured} against its limit ${withUnit(formatNumber(f.threshold), limitUnit)}`;
 }
 
 interface ResultsTable {
@@ -194,7 +225,7 @@ interface ResultsTable {
   rows: string[][];
 }
 
-function resultsTable(msg: IncidentMessage): ResultsTable {
+function resultsTable(msg: IncidentMessage, formatTime: (iso: string) => string): ResultsTable {
   const measurands: string[] = [];
   for (const name of [...msg.findings.map((f) => f.measurand), ...msg.recentResults.flatMap((r) => Object.keys(r.readings))]) {
     if (!measurands.includes(name) && measurands.length < TABLE_MAX_MEASURANDS) measurands.push(name);

@@ -17,7 +17,7 @@ export function registerDemo(program: Command): void {
   program
     .command('demo')
     .description('play the invented demo fleet through workers, API, e-mail and webhooks; print when each rule caught each fault')
-    .option('--keep-open', 'leave the API running afterwards (Ctrl-C ends it) and print its address and a viewer token')
+    .option('--keep-open', 'leave the API running afterwards (Ctrl-C ends it) and print its address, a viewer token and a responder token')
     .option('--json', 'print the report as one JSON line instead of text')
     .option('--out <dir>', 'where the received e-mails (.eml) and webhook deliveries (.json) go', 'demo/out')
     .option('--config <file>', 'the demo configuration', DEMO_DEFAULTS.configFile)
@@ -60,8 +60,9 @@ async function demo(opts: DemoCommandOptions): Promise<void> {
   const board = await fetch(`${report.apiUrl}/`).then((r) => r.ok && (r.headers.get('content-type') ?? '').startsWith('text/html'), () => false);
   print('');
   print(`The API stays up at ${report.apiUrl}; the receivers keep taking mail and webhooks (not written out any more).`);
-  print(board ? `Board: ${report.apiUrl}/ — paste the viewer token when it asks.` : 'This build serves no board at /; the API answers as below.');
-  print(`Viewer token: ${run.viewerToken}`);
+  print(board ? `Board: ${report.apiUrl}/ — paste a token when it asks: the viewer token to look, the responder token to acknowledge, shelve and resolve.` : 'This build serves no board at /; the API answers as below.');
+  print(`Viewer token:    ${run.viewerToken}`);
+  print(`Responder token: ${run.responderToken}`);
   print(`  curl -H 'Authorization: Bearer ${run.viewerToken}' ${report.apiUrl}/v1/incidents`);
   print('Press Ctrl-C to stop.');
   await new Promise<void>((resolve) => {

@@ -1,17 +1,20 @@
 /**
  * `wearshift design cusum|ewma`: average run lengths for given chart parameters, or the parameter (h, L) that meets a target
- * in-control run length, given directly or derived from a false-alarm budget.
+ * in-control run length, given directly or derived from a false-alarm budget. With a budget, every choice the worker makes
+ * (charts per component, the budget share, one-sided design, k, headstart, λ, exact limits) defaults to the configuration's,
+ * so that the answer is the h or L the worker uses.
  */
 import { type Command, Option } from 'commander';
 import { cusumArl } from '../../analysis/arl/cusumArl.ts';
 import { ewmaArl } from '../../analysis/arl/ewmaArl.ts';
 import { cusumDecisionInterval } from '../../analysis/arl/solveCusum.ts';
 import { ewmaLimitWidth } from '../../analysis/arl/solveEwma.ts';
-import { parseBudget, samplesPerBudgetPeriod, targetArl } from '../../analysis/budget.ts';
-import { type Budget, BudgetSchema } from '../../domain/config.ts';
+import { changeBudgetShare, detectionLimits, parseBudget, samplesPerBudgetPeriod, targetArl } from '../../analysis/budget.ts';
+import { type Budget, BudgetSchema, type Config } from '../../domain/config.ts';
+import { loadConfig } from '../../runtime/loadConfig.ts';
 import { InputError } from '../../domain/errors.ts';
 import { registerDesignNoise } from './designNoise.ts';
-import { asInputError, formatTable, numberListOption, numberOption, round, tidy, writeJsonLine } from '../output.ts';
+import { ADVISORY_LINE, asInputError, formatTable, numberListOption, numberOption, round, tidy, writeJsonLine } from '../output.ts';
 
 type Sided = 'one' | 'two';
 
@@ -19,7 +22,8 @@ type Sided = 'one' | 'two';
 const TABLE_SHIFTS = [0, 0.25, 0.5, 0.75, 1, 1.5, 2, 2.5, 3, 4, 5];
 
 interface CommonOptions {
-  sided: Sided;
+  sided?: Sided;
+  config?: string;
   shifts?: number[];
   arl0?: number;
   budget?: string;
@@ -57,8 +61,9 @@ function targetFrom(opts: CommonOptions, parameter: string, given: boolean): { a
   const parsed = BudgetSchema.safeParse({ alarms, years, sampleIntervalHours: opts.every, hoursPerYear: opts.hoursPerYear });
   if (!parsed.success) throw new InputError(`--every / --hours-per-year: ${parsed.error.issues.map((i) => `${i.path.join('.')}: ${i.message}`).join('; ')}`);
   const budget: Budget = parsed.data;
-  const charts = opts.charts ?? 1;
-  const share = opts.share ?? 1;
+  const worker = workerDesign(opts);
+  const charts = opts.charts ?? worker.charts;
+  const share = opts.share ?? worker.share;
   if (!(share > 0 && share <= 1)) throw new InputError(`--share must be a fraction in (0, 1], got ${share}`);
   const arl0 = asInputError(() => targetArl(budget, charts)) / share;
   const samplesPerComponent = samplesPerBudgetPeriod(budget);
@@ -78,9 +83,27 @@ function targetFrom(opts: CommonOptions, parameter: string, given: boolean): { a
   };
 }
 
-function conversionLines(c: BudgetConversion): string {
+/** The configuration the worker runs with: --config, else WEARSHIFT_CONFIG, else the built-in defaults. */
+function configOf(opts: CommonOptions): Config {
+  return loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
+}
+
+/** How the worker designs its charts from the configuration's top-level detection settings. */
+function workerDesign(opts: CommonOptions): { charts: number; share: number; measurands: number; detectors: number } {
+  const config = configOf(opts);
+  const d = config.detection;
+  const share = changeBudgetShare(config.population);
+  const detectors = (d.ewma.enabled ? 1 : 0) + (d.cusum.enabled ? 1 : 0);
+  return { charts: Math.max(1, detectionLimits(d, share).charts), share, measurands: d.measurands.length, detectors };
+}
+
+function conversionLines(c: BudgetConversion, opts: CommonOptions): string {
+  const w = workerDesign(opts);
   return [
     `budget: ${c.alarms} false alarm(s) per component per ${c.years} year(s), a sample every ${c.sampleIntervalHours} operating hours, ${c.hoursPerYear} hours per year`,
+    `  a "chart" is one wear metal watched by one detector: the configuration watches ${w.measurands} wear metal(s) with ${w.detectors} detector(s) (EWMA, CUSUM), ${w.charts} charts per component${
+      opts.charts === undefined ? '' : `; --charts ${opts.charts} given`
+    }`,
     `  ${c.years} × ${c.hoursPerYear} / ${c.sampleIntervalHours} = ${round(c.samplesPerComponent, 6)} samples per component; / ${c.alarms} = component in-control ARL ${round(c.componentArl0, 6)}`,
     c.share === 1
       ? `  ${c.charts} chart(s) per component, false-alarm rates adding up: each chart needs ARL0 = ${round(c.componentArl0, 6)} × ${c.charts} = ${round(c.arl0, 6)}`
@@ -95,8 +118,23 @@ function arlTable(shifts: readonly number[], arl: (shift: number) => number): { 
   });
 }
 
-function writeArlTable(out: NodeJS.WritableStream, rows: { shift: number; arl: number | null }[]): void {
-  out.write(formatTable(['shift (σ)', 'ARL'], rows.map((r) => [r.shift, r.arl === null ? '> 1e9' : round(r.arl, 4)])));
+/** Operating hours between samples, for the table's hours column: --every, or the budget's sample interval. */
+function everyHours(opts: CommonOptions, target: { conversion?: BudgetConversion } | undefined): number | undefined {
+  return target?.conversion?.sampleIntervalHours ?? opts.every;
+}
+
+/** ARLs in samples and, when the sample interval is known, in operating hours. */
+function writeArlTable(out: NodeJS.WritableStream, rows: { shift: number; arl: number | null }[], every?: number): void {
+  const headers = every === undefined ? ['shift (σ)', 'ARL (samples)'] : ['shift (σ)', 'ARL (samples)', `ARL (operating hours, a sample every ${every} h)`];
+  out.write(
+    formatTable(
+      headers,
+      rows.map((r) => {
+        const samples = r.arl === null ? '> 1e9' : round(r.arl, 4);
+        return every === undefined ? [r.shift, samples] : [r.shift, samples, r.arl === null ? '—' : round(r.arl * every, 4)];
+      }),
+    ),
+  );
 }
 
 const COMMON_HELP = `
@@ -107,20 +145,24 @@ watch the upper side, so negative shifts make them slower), from the chart's sta
 (default: the shifts of the published tables, ${TABLE_SHIFTS.join(', ')}); beyond 1e9 samples as "> 1e9" (null with --json).
 
 --budget "A per component per Y years" with --every HOURS (default ${BudgetSchema.parse({}).sampleIntervalHours}), --hours-per-year (default ${BudgetSchema.parse({}).hoursPerYear})
-and --charts N (default 1; charts per component, e.g. measurands × detectors): each chart's ARL0 =
-Y · hours-per-year / every / A · N, because the false-alarm rates of a component's charts add up. The conversion is printed.
---json prints one JSON object.`;
+and --charts N: each chart's ARL0 = Y · hours-per-year / every / A · N / share, because the false-alarm rates of a
+component's charts add up. A "chart" is one wear metal watched by one detector; with a budget, --charts, --share,
+--sided, --k, --headstart, --lambda and the limits default to what the worker does with the configuration (--config,
+else WEARSHIFT_CONFIG, else the built-in defaults: 7 wear metals × EWMA and CUSUM = 14 charts, 0.8 of the budget, one-sided),
+so the answer is the h or L the worker uses. The conversion is printed.
+Run lengths are in samples; with --every (or a budget) also in operating hours. --json prints one JSON object.`;
 
 function common(c: Command, parameter: string): Command {
   return c
-    .addOption(new Option('--sided <one|two>', 'two: signals on increases and decreases; one: upper side only').choices(['one', 'two']).default('two'))
+    .addOption(new Option('--sided <one|two>', 'two: signals on increases and decreases; one: upper side only (default: two; with --budget, one, as the worker designs)').choices(['one', 'two']))
     .option('--shifts <list>', 'comma-separated mean shifts in sigma, e.g. 0,0.5,1', numberListOption('shifts'))
     .option('--arl0 <N>', `target in-control average run length in samples: solve for ${parameter}`, numberOption('arl0'))
     .option('--budget <text>', `false-alarm budget, e.g. "1 per component per 5 years": derive ARL0, then solve for ${parameter}`)
     .option('--every <hours>', 'with --budget: operating hours between samples', numberOption('every'))
     .option('--hours-per-year <hours>', 'with --budget: operating hours per year', numberOption('hours-per-year'))
-    .option('--charts <N>', 'with --budget: charts per component sharing the budget', numberOption('charts'))
-    .option('--share <fraction>', 'with --budget: the part of the budget these charts get (default 1)', numberOption('share'))
+    .option('--charts <N>', 'with --budget: charts (wear metal × detector) per component sharing the budget (default: from the configuration)', numberOption('charts'))
+    .option('--share <fraction>', 'with --budget: the part of the budget these charts get (default: from the configuration)', numberOption('share'))
+    .option('--config <file>', 'with --budget: the configuration whose detection settings to follow (default: WEARSHIFT_CONFIG)')
     .option('--json', 'machine-readable output (one JSON object)')
     .addHelpText('after', COMMON_HELP);
 }
@@ -134,11 +176,13 @@ export function registerDesign(program: Command, output: NodeJS.WritableStream =
       .description(
         'tabular CUSUM run lengths (Page\'s integral equation by Nyström quadrature; two-sided combined exactly, also with a headstart), or the decision interval h for a target ARL0',
       )
-      .option('--k <K>', 'reference value in sigma', numberOption('k'), 0.5)
+      .option('--k <K>', 'reference value in sigma (default 0.5; with --budget, the configuration\'s)', numberOption('k'))
       .option('--h <H>', 'decision interval in sigma: show its ARLs', numberOption('h'))
-      .option('--headstart <F>', 'fast-initial-response headstart as a fraction of h, 0 ≤ F < 1 (0: zero state)', numberOption('headstart'), 0),
+      .option('--headstart <F>', 'fast-initial-response headstart as a fraction of h, 0 ≤ F < 1 (default 0, the zero state; with --budget, the configuration\'s)', numberOption('headstart')),
     'h',
-  ).action((opts: CommonOptions & { k: number; h?: number; headstart: number }) => {
+  ).action((given: CommonOptions & { k?: number; h?: number; headstart?: number }) => {
+    const cusum = given.budget === undefined ? undefined : configOf(given).detection.cusum;
+    const opts = { ...given, sided: given.sided ?? (given.budget === undefined ? 'two' : 'one'), k: given.k ?? cusum?.k ?? 0.5, headstart: given.headstart ?? cusum?.headstart ?? 0 } as const;
     const target = targetFrom(opts, 'h', opts.h !== undefined);
     const settings = { k: opts.k, sided: opts.sided, headstart: opts.headstart };
     const h = target ? asInputError(() => cusumDecisionInterval({ ...settings, arl0: target.arl0 })) : opts.h!;
@@ -152,9 +196,10 @@ export function registerDesign(program: Command, output: NodeJS.WritableStream =
       return;
     }
     output.write(`CUSUM, ${opts.sided}-sided, k = ${opts.k}, ${opts.headstart ? `headstart ${opts.headstart}·h` : 'zero state'}\n`);
-    if (target?.conversion) output.write(conversionLines(target.conversion));
-    output.write(target ? `decision interval h = ${round(h, 6)} for an in-control ARL of ${round(target.arl0, 6)}\n` : `decision interval h = ${h}\n`);
-    writeArlTable(output, arl);
+    if (target?.conversion) output.write(conversionLines(target.conversion, opts));
+    output.write(target ? `decision interval h = ${round(h, 6)} for an in-control ARL of ${round(target.arl0, 6)} samples\n` : `decision interval h = ${h}\n`);
+    writeArlTable(output, arl, everyHours(opts, target));
+    output.write(`\n${ADVISORY_LINE}\n`);
   });
 
   common(
@@ -163,13 +208,16 @@ export function registerDesign(program: Command, output: NodeJS.WritableStream =
       .description(
         'EWMA run lengths (Crowder\'s integral equation by Nyström quadrature; steady-state limits as in the published tables unless --exact-limits), or the limit width L for a target ARL0',
       )
-      .requiredOption('--lambda <λ>', 'smoothing constant, 0 < λ ≤ 1', numberOption('lambda'))
+      .option('--lambda <λ>', 'smoothing constant, 0 < λ ≤ 1 (required without --budget; with it, default the configuration\'s)', numberOption('lambda'))
       .option('--L <L>', 'limit width in standard deviations of the EWMA: show its ARLs', numberOption('L'))
-      .option('--exact-limits', 'time-varying exact limits from the start, as the detectors draw them (default: steady-state limits)'),
+      .option('--exact-limits', 'time-varying exact limits from the start, as the detectors draw them (default: steady-state limits; with --budget, exact)'),
     'L',
-  ).action((opts: CommonOptions & { lambda: number; L?: number; exactLimits?: boolean }) => {
+  ).action((given: CommonOptions & { lambda?: number; L?: number; exactLimits?: boolean }) => {
+    const lambda = given.lambda ?? (given.budget === undefined ? undefined : configOf(given).detection.ewma.lambda);
+    if (lambda === undefined) throw new InputError('--lambda is required (or give --budget to follow the configuration)');
+    const opts = { ...given, lambda, sided: given.sided ?? (given.budget === undefined ? 'two' : 'one') } as const;
     const target = targetFrom(opts, 'L', opts.L !== undefined);
-    const exactLimits = opts.exactLimits ?? false;
+    const exactLimits = opts.exactLimits ?? opts.budget !== undefined;
     const settings = { lambda: opts.lambda, sided: opts.sided, exactLimits };
     const L = target ? asInputError(() => ewmaLimitWidth({ ...settings, arl0: target.arl0 })) : opts.L!;
     const shifts = opts.shifts ?? TABLE_SHIFTS;
@@ -183,9 +231,10 @@ export function registerDesign(program: Command, output: NodeJS.WritableStream =
       return;
     }
     output.write(`EWMA, ${opts.sided}-sided, λ = ${opts.lambda}, ${exactLimits ? 'exact time-varying' : 'steady-state'} limits\n`);
-    if (target?.conversion) output.write(conversionLines(target.conversion));
-    output.write(target ? `limit width L = ${round(L, 6)} for an in-control ARL of ${round(target.arl0, 6)}\n` : `limit width L = ${L}\n`);
-    writeArlTable(output, arl);
+    if (target?.conversion) output.write(conversionLines(target.conversion, opts));
+    output.write(target ? `limit width L = ${round(L, 6)} for an in-control ARL of ${round(target.arl0, 6)} samples\n` : `limit width L = ${L}\n`);
+    writeArlTable(output, arl, everyHours(opts, target));
+    output.write(`\n${ADVISORY_LINE}\n`);
   });
 
   registerDesignNoise(design, output);

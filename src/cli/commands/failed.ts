@@ -6,7 +6,7 @@ import { InputError } from '../../domain/errors.ts';
 import { ALL_QUEUES, isQueueName, listFailedJobs, retryAllFailedJobs, retryFailedJob } from '../../queue/failedJobs.ts';
 import type { QueueName } from '../../queue/queues.ts';
 import { closeQuietly, connectForCommand, redisTarget, type RedisConnection as Redis } from '../../redis/connection.ts';
-import { formatTable, writeJsonLine } from '../output.ts';
+import { formatTable, writeJsonLine, redisChoice } from '../output.ts';
 
 interface FailedOptions {
   config?: string;
@@ -17,6 +17,7 @@ interface FailedOptions {
 
 async function withRedis<T>(opts: FailedOptions, work: (redis: Redis, config: Config) => Promise<T>): Promise<T> {
   const config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
+  process.stderr.write(`wearshift: ${redisChoice(config)}\n`);
   const redis = await connectForCommand(redisTarget(config));
   try {
     return await work(redis, config);

@@ -13,7 +13,7 @@ import { formatOf, readRecordFile } from '../../intake/fileRecords.ts';
 import { createResultProducer, type ResultProducer } from '../../queue/producer.ts';
 import { claimedSampleId, validateResult } from '../../intake/validate.ts';
 import { closeQuietly, connectForCommand, redisUrl } from '../../redis/connection.ts';
-import { writeJsonLine } from '../output.ts';
+import { redisChoice, writeJsonLine } from '../output.ts';
 import { importLabFile } from './importLabFile.ts';
 
 interface ImportOptions {
@@ -69,11 +69,13 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
     throw new InputError((e as Error).message);
   }
   const config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
+  const redis = opts.dryRun ? undefined : redisChoice(config);
+  if (redis !== undefined && !opts.json) process.stderr.write(`wearshift: ${redis}\n`);
   const producer = opts.dryRun ? undefined : await connectProducer(redisUrl(config), config.redis.prefix);
   const { records, stream } = readRecordFile(file, format);
   const bar = process.stderr.isTTY && !opts.json ? new MultiBar({ format: ' {bar} {percentage}% | {value}/{total} bytes | {accepted} accepted, {rejected} rejected', hideCursor: true, stream: process.stderr }, Presets.shades_classic) : undefined;
   const progress = bar?.create(size, 0, { accepted: 0, rejected: 0 });
-  const counts = { lines: 0, accepted: 0, rejected: 0, enqueued: 0 };
+  const counts = { lines: 0, accepted: 0, rejected: 0, enqueued: 0, noOilChanged: 0 };
   const report = (line: number, sampleId: string | undefined, issues: readonly FieldIssue[]) => {
     counts.rejected += 1;
     if (opts.json) return writeJsonLine({ type: 'rejected', line, ...(sampleId !== undefined && { sampleId }), errors: issues });
@@ -97,11 +99,13 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
   try {
     for await (const r of records) {
       counts.lines += 1;
-      if ('issues' in r) report(r.line, undefined, r.issues);
+      if ('issues' in r) report(r.line, r.sampleId, r.issues);
       else {
         const parsed = validateResult(r.record, { now: Date.now() });
         if (parsed.ok) {
           counts.accepted += 1;
+          // Said in the summary, not guessed silently: a record without oilChanged is taken as "no oil change".
+          if (typeof r.record === 'object' && r.record !== null && !('oilChanged' in r.record)) counts.noOilChanged += 1;
           // A dry run keeps nothing: memory stays flat however long the file.
           if (producer !== undefined) batch.push(r.record);
           if (batch.length >= batchSize) await flush();
@@ -115,14 +119,28 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
     bar?.stop();
     await producer?.close();
   }
-  const summary = { type: 'summary', file, records: counts.lines, accepted: counts.accepted, rejected: counts.rejected, enqueued: counts.enqueued, dryRun: Boolean(opts.dryRun) };
+  const summary = {
+    type: 'summary',
+    file,
+    records: counts.lines,
+    accepted: counts.accepted,
+    rejected: counts.rejected,
+    enqueued: counts.enqueued,
+    withoutOilChanged: counts.noOilChanged,
+    dryRun: Boolean(opts.dryRun),
+    ...(redis !== undefined && { redis }),
+  };
   if (opts.json) writeJsonLine(summary);
-  else
+  else {
     process.stdout.write(
       opts.dryRun
         ? `${file}: ${counts.accepted} valid, ${counts.rejected} rejected of ${counts.lines} records (dry run: nothing enqueued)\n`
         : `${file}: ${counts.enqueued} enqueued, ${counts.rejected} rejected of ${counts.lines} records\n`,
     );
+    if (counts.noOilChanged > 0) {
+      process.stdout.write(`${counts.noOilChanged} accepted ${counts.noOilChanged === 1 ? 'record gives' : 'records give'} no oilChanged (empty or missing): taken as no oil change. Write true where the oil was changed.\n`);
+    }
+  }
   return counts.rejected > 0 ? 1 : 0;
 }
 

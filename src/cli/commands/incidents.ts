@@ -13,18 +13,22 @@ import { describeState, mergedTimeline, type Incident, type IncidentSummary, typ
 import { incidentRules } from '../../incidents/policy.ts';
 import { closeQuietly, connectForCommand, redisTarget } from '../../redis/connection.ts';
 import { RedisIncidents } from '../../redis/redisIncidents.ts';
-import { formatTable, writeJsonLine } from '../output.ts';
+import { formatTime, timeZoneNote } from '../../notify/format.ts';
+import { ADVISORY_CAUTION, bySeverity, severityWords } from '../../notify/message.ts';
+import { formatTable, redisChoice, writeJsonLine } from '../output.ts';
 
 interface CommonOptions {
   config?: string;
   json?: boolean;
 }
 
-async function withStore<T>(opts: CommonOptions, work: (store: RedisIncidents) => Promise<T>): Promise<T> {
+async function withStore<T>(opts: CommonOptions, work: (store: RedisIncidents, config: Config) => Promise<T>): Promise<T> {
   const config: Config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
+  // Which Redis, on stderr: the output itself stays the incidents (and one JSON object per line with --json).
+  process.stderr.write(`wearshift: ${redisChoice(config)}\n`);
   const redis = await connectForCommand(redisTarget(config));
   try {
-    return await work(new RedisIncidents(redis, { rules: incidentRules(config), prefix: config.redis.prefix, partitions: config.redis.partitions }));
+    return await work(new RedisIncidents(redis, { rules: incidentRules(config), prefix: config.redis.prefix, partitions: config.redis.partitions }), config);
   } finally {
     await closeQuietly(redis);
   }
@@ -42,14 +46,15 @@ function measurands(i: IncidentSummary): string {
   return [...new Set(i.evidence.map((f) => f.measurand))].join(',');
 }
 
-function printList(list: IncidentSummary[], json: boolean): void {
-  if (json) return list.forEach((i) => writeJsonLine(i));
+function printList(list: IncidentSummary[], json: boolean, zone: string): void {
+  if (json) return list.forEach((i) => writeJsonLine({ ...i, advisory: ADVISORY_CAUTION }));
   if (list.length === 0) return void process.stdout.write('no incidents match\n');
-  const rows = list.map((i) => [i.id, i.severity, describeState(i), measurands(i), i.openedAt.slice(0, 16).replace('T', ' '), i.lastSampleId]);
+  const rows = list.map((i) => [i.id, severityWords(i.severity, i.peakSeverity), describeState(i), measurands(i), formatTime(i.openedAt, zone), i.lastSampleId]);
   process.stdout.write(formatTable(['incident', 'severity', 'state', 'measurands', 'opened (sample)', 'last sample'], rows));
+  process.stdout.write(`\n${timeZoneNote(zone)}\n${ADVISORY_CAUTION}\n`);
 }
 
-function entryText(e: TimelineEntry | NotifiedEntry): string {
+function entryText(e: TimelineEntry | NotifiedEntry, zone: string): string {
   switch (e.kind) {
     case 'opened':
       return `opened at sample ${e.sampleId}, ${e.severity}`;
@@ -64,7 +69,7 @@ function entryText(e: TimelineEntry | NotifiedEntry): string {
     case 'unacknowledged':
       return `acknowledgement withdrawn: ${e.reason}`;
     case 'shelved':
-      return `shelved by ${e.by} until ${e.until}: ${e.reason}`;
+      return `shelved by ${e.by} until ${formatTime(e.until, zone)}: ${e.reason}`;
     case 'unshelved':
       return e.by ? `unshelved by ${e.by}` : 'shelving ended';
     case 'closed':
@@ -76,21 +81,26 @@ function entryText(e: TimelineEntry | NotifiedEntry): string {
   }
 }
 
-function printIncident(i: Incident, json: boolean): void {
-  if (json) return writeJsonLine(i);
+function printIncident(i: Incident, json: boolean, zone: string): void {
+  if (json) return writeJsonLine({ ...i, advisory: ADVISORY_CAUTION });
   const lines = [
     `${i.id}`,
     `  ${i.unit} / ${i.component}${i.measurand ? ` / ${i.measurand}` : ''} · group ${i.group}`,
-    `  ${i.severity} (peak ${i.peakSeverity}) · ${describeState(i)}`,
-    `  opened ${i.openedAt} at sample ${i.openedBySampleId}; last sample ${i.lastSampleId} (${i.lastSampledAt})`,
-    ...(i.escalation.policy ? [`  escalation: policy ${i.escalation.policy}, tier ${Math.max(0, i.escalation.reachedTier)}${i.escalation.dueAt ? `, next check ${i.escalation.dueAt}` : ''}`] : []),
+    `  ${severityWords(i.severity, i.peakSeverity)} · ${describeState(i)}`,
+    `  opened ${formatTime(i.openedAt, zone)} at sample ${i.openedBySampleId}; last sample ${i.lastSampleId} (${formatTime(i.lastSampledAt, zone)})`,
+    ...(i.escalation.policy
+      ? [`  escalation: policy ${i.escalation.policy}, tier ${Math.max(0, i.escalation.reachedTier)}${i.escalation.dueAt ? `, next check ${formatTime(i.escalation.dueAt, zone)}` : ''}`]
+      : []),
     '',
-    'evidence',
-    ...i.evidence.map((f) => `  ${f.measurand} ${f.rule} ${f.severity}: ${f.explanation}`),
+    'evidence (most severe first)',
+    ...bySeverity(i.evidence).map((f) => `  ${f.measurand} ${f.rule} ${f.severity}: ${f.explanation}`),
     ...((i.forecast?.length ?? 0) > 0 ? ['', 'time to limit', ...i.forecast!.map((f) => `  ${f.text}`), `  (${FORECAST_CAUTION})`] : []),
     '',
     'timeline',
-    ...mergedTimeline(i).map((e) => `  ${e.at}  ${entryText(e)}`),
+    ...mergedTimeline(i).map((e) => `  ${formatTime(e.at, zone)}  ${entryText(e, zone)}`),
+    '',
+    timeZoneNote(zone),
+    ADVISORY_CAUTION,
   ];
   process.stdout.write(`${lines.join('\n')}\n`);
 }
@@ -130,7 +140,8 @@ export function registerIncidents(program: Command): void {
         ...(opts.group !== undefined && { group: opts.group }),
       });
       if (!parsed.success) throw new InputError(parsed.error.issues.map((i) => `--${String(i.path[0])}: ${i.message}`).join('; '));
-      printList(await withStore(opts, (store) => store.list(parsed.data)), opts.json === true);
+      const { list, zone } = await withStore(opts, async (store, config) => ({ list: await store.list(parsed.data), zone: config.display.timeZone }));
+      printList(list, opts.json === true, zone);
     });
 
   incidents
@@ -139,9 +150,9 @@ export function registerIncidents(program: Command): void {
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--json', 'the incident as one JSON line')
     .action(async (id: string, opts: CommonOptions) => {
-      const incident = await withStore(opts, (store) => store.get(id));
+      const { incident, zone } = await withStore(opts, async (store, config) => ({ incident: await store.get(id), zone: config.display.timeZone }));
       if (incident === undefined) throw new InputError(`no incident "${id}"`);
-      printIncident(incident, opts.json === true);
+      printIncident(incident, opts.json === true, zone);
     });
 
   actionCommand(

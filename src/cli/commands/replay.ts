@@ -11,6 +11,8 @@ import { formatOf, readRecordFile } from '../../intake/fileRecords.ts';
 import { replayRecords, type RejectedRecord, type TimelineLine } from '../../pipeline/replay.ts';
 import { ADVISORY_LINE, processingTime, writeJsonLine } from '../output.ts';
 import { FORECAST_CAUTION } from '../../domain/caution.ts';
+import { formatTime, timeZoneNote } from '../../notify/format.ts';
+import { ADVISORY_CAUTION, severityWords } from '../../notify/message.ts';
 import type { Config } from '../../domain/config.ts';
 import { describeState, type Incident } from '../../incidents/model.ts';
 import { componentView } from '../../pipeline/componentView.ts';
@@ -43,27 +45,28 @@ export function registerReplay(program: Command): void {
       });
       await opened;
       const outcome = await replayRecords(records, { config, now, onRejected: (r) => reportRejected(r, Boolean(opts.json)) });
+      const zone = config.display.timeZone;
       for (const line of outcome.timeline) {
         if (opts.json) writeJsonLine(line);
-        else process.stdout.write(`${readable(line)}\n`);
+        else process.stdout.write(`${readable(line, zone)}\n`);
       }
       // The verdict as it stands after the last record (what the live worker reaches with the same results), and what
       // each component cannot be judged on yet.
       const verdicts = outcome.store.incidents().filter((i) => i.closed?.how !== 'withdrawn').map(verdictLine);
       const readiness = await readinessLines(outcome.store, config);
       if (opts.json) {
-        for (const v of verdicts) writeJsonLine(v);
+        for (const v of verdicts) writeJsonLine({ ...v, advisory: ADVISORY_CAUTION });
         for (const r of readiness) writeJsonLine(r);
       } else {
         process.stdout.write(`\nincidents after the last record: ${verdicts.length}\n`);
         for (const v of verdicts) {
-          process.stdout.write(`  ${v.incidentId}  ${v.kind}  ${v.peakSeverity}  ${v.state}\n`);
+          process.stdout.write(`  ${v.incidentId}  ${v.kind}  ${severityWords(v.severity, v.peakSeverity)}  ${v.state}\n`);
           if (v.closed === null) for (const f of v.forecast ?? []) process.stdout.write(`      ${f.text}\n`);
         }
         if (verdicts.some((v) => v.closed === null && (v.forecast?.length ?? 0) > 0)) process.stdout.write(`  (${FORECAST_CAUTION})\n`);
         const waiting = readiness.flatMap((r) => r.measurands.filter((m) => m.changeDetection === 'waiting' || (m.band !== undefined && m.band.have < m.band.need)).map((m) => `  ${r.unit}/${r.component}  ${m.summary}`));
         if (waiting.length > 0) process.stdout.write(`\nnot judged yet:\n${waiting.join('\n')}\n`);
-        process.stdout.write(`\n${ADVISORY_LINE}\n`);
+        process.stdout.write(`\n${timeZoneNote(zone)}\n${ADVISORY_LINE}\n`);
       }
       if (!opts.json) process.stderr.write(`${file}: ${outcome.records} records, ${outcome.rejected} rejected, ${outcome.timeline.length} timeline lines\n`);
       process.exitCode = outcome.rejected > 0 ? 1 : 0;
@@ -107,14 +110,15 @@ function reportRejected(r: RejectedRecord, json: boolean): void {
   for (const e of r.errors) process.stderr.write(`line ${r.line}${r.sampleId === undefined ? '' : ` (sampleId ${r.sampleId})`}: ${e.path || '(record)'}: ${e.reason}\n`);
 }
 
-function readable(line: TimelineLine): string {
+function readable(line: TimelineLine, zone: string): string {
   const where = `${line.unit}/${line.component}`;
   if (line.type === 'finding') {
     const rule = `${line.measurand} ${line.rule}${line.direction ? ` ${line.direction}` : ''}`;
-    return `${line.sampledAt.slice(0, 16).replace('T', ' ')}  ${where}  ${line.sampleId}  ${rule}  ${line.severity}${line.quiet ? ' (quiet)' : ''}  ${line.explanation}`;
+    return `${formatTime(line.sampledAt, zone)}  ${where}  ${line.sampleId}  ${rule}  ${line.severity}${line.quiet ? ' (quiet)' : ''}  ${line.explanation}`;
   }
   const l = line as unknown as Record<string, unknown>;
   const detail = typeof l.explanation === 'string' ? `  ${l.explanation}` : typeof l.how === 'string' ? `  ${l.how}` : '';
-  const severity = typeof l.severity === 'string' ? l.severity : line.incidentSeverity;
-  return `${String(l.at).slice(0, 16).replace('T', ' ')}  ${where}  incident ${line.incidentId}  ${line.change}  ${severity}  ${line.incidentState}${detail}`;
+  // The incident's severity by the one rule; a finding entry says its own severity beside its change.
+  const change = line.change === 'finding' && typeof l.severity === 'string' ? `finding (${l.severity})` : line.change;
+  return `${formatTime(String(l.at), zone)}  ${where}  incident ${line.incidentId}  ${change}  incident ${line.incidentSeverity}  ${line.incidentState}${detail}`;
 }
