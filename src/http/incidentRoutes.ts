@@ -9,7 +9,7 @@ import type { IncidentAction } from '../incidents/applyAction.ts';
 import { IncidentConflictError, IncidentNotFoundError } from '../incidents/errors.ts';
 import { IncidentFilterSchema, type IncidentFilter } from '../incidents/listFilter.ts';
 import type { Incident, IncidentSummary } from '../incidents/model.ts';
-import { requireRole } from './auth.ts';
+import { credentialOf, requireRole } from './auth.ts';
 
 /** What the routes need of the incident store (the Redis store provides it). */
 export interface IncidentRoutesStore {
@@ -91,8 +91,11 @@ export const incidentRoutes: FastifyPluginAsync<IncidentRoutesOptions> = async (
 
   for (const verb of Object.keys(BODIES) as Verb[]) {
     app.post<{ Params: { id: string } }>(`/v1/incidents/:id/${verb}`, act, async (request, reply) => {
-      const action = toAction(verb, request.params.id, request.body, now());
-      if (action instanceof z.ZodError) return invalid(reply, 'body', action);
+      const parsed = toAction(verb, request.params.id, request.body, now());
+      if (parsed instanceof z.ZodError) return invalid(reply, 'body', parsed);
+      const credential = credentialOf(request);
+      // Who acknowledged is recorded by the token presented, not only by the name typed.
+      const action: IncidentAction = parsed.kind === 'acknowledge' && credential !== undefined ? { ...parsed, credential } : parsed;
       try {
         const { incident } = await options.store.applyAction(action);
         return { incident };

@@ -59,7 +59,7 @@ function entryText(e: TimelineEntry | NotifiedEntry): string {
     case 'active-again':
       return `${e.reopened ? 'reopened' : 'active again'} (sample ${e.sampleId})`;
     case 'acknowledged':
-      return `acknowledged by ${e.by}${e.recipient ? ` (link sent to ${e.recipient})` : ''}${e.note ? `: ${e.note}` : ''}`;
+      return `acknowledged by ${e.by}${e.credential ? ` (${e.credential})` : e.recipient ? ` (link sent to ${e.recipient})` : ''}${e.note ? `: ${e.note}` : ''}`;
     case 'unacknowledged':
       return `acknowledgement withdrawn: ${e.reason}`;
     case 'shelved':
