@@ -75,7 +75,7 @@ export const seriesRoutes: FastifyPluginAsync<SeriesRoutesOptions> = async (app,
     const result = await compute(request, reply, (input) => ({ kind: 'series', input, ...(measurands !== undefined && { measurands }) }));
     if (result === undefined) return reply;
     if (result.kind !== 'series') throw new Error(`unexpected chart result ${result.kind}`);
-    return reply.header('cache-control', 'no-store').send(result.series);
+    return reply.header('cache-control', 'no-store').type('application/json; charset=utf-8').send(result.json);
   });
 
   const chart = (format: 'svg' | 'png') => async (request: FastifyRequest<{ Params: Params; Querystring: Query }>, reply: FastifyReply) => {
