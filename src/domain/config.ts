@@ -5,7 +5,7 @@
 import { z } from 'zod';
 import { MEASURAND_NAMES, type Measurand } from './measurands.ts';
 import { parseReading } from './reading.ts';
-import { ChannelsSchema, EscalationSchema, escalationChannelIssues, IncidentsConfigSchema } from './escalationConfig.ts';
+import { ChannelsSchema, DEFAULT_FLOOD_CONTROL, EscalationSchema, escalationChannelIssues, IncidentsConfigSchema } from './escalationConfig.ts';
 
 const measurandName = z.enum(MEASURAND_NAMES as [Measurand, ...Measurand[]], { error: (i) => `unknown measurand "${String(i.input)}"` });
 const positive = z.number().finite().positive();
@@ -208,7 +208,7 @@ export const ConfigSchema = z
       .default({ quietAfterDays: 30 }),
     incidents: IncidentsConfigSchema.default(IncidentsConfigSchema.parse({})),
     escalation: EscalationSchema.default({ policies: [] }),
-    channels: ChannelsSchema.default({ webhooks: [], mqtt: [] }),
+    channels: ChannelsSchema.default({ webhooks: [], mqtt: [], floodControl: DEFAULT_FLOOD_CONTROL }),
   })
   .strict()
   .superRefine((c, ctx) => {

@@ -14,6 +14,8 @@ import { EmailDeliveryError, sendEmail } from '../notify/emailSend.ts';
 import { asksForAcknowledgement, type IncidentMessage } from '../notify/message.ts';
 import { createMqttPublisher, type MqttPublisher } from '../notify/mqttPublisher.ts';
 import { deliverWebhook } from '../notify/webhookDelivery.ts';
+import { floodSummaryEvent, renderFloodSummaryEmail, type FloodSummary } from '../notify/floodControl.ts';
+import type { IncidentCloudEvent } from '../notify/cloudEvent.ts';
 import type { DisabledEndpoints } from './disabledEndpoints.ts';
 import type { Logger } from '../runtime/logger.ts';
 
@@ -31,6 +33,8 @@ export class DeliveryRetry extends Error {
 export interface NotificationChannels {
   /** Delivers one message (an e-mail may carry the trend chart inline); resolves with a line for the job's return value. */
   deliver(effect: NotifyEffect, message: IncidentMessage, attempt: number, chart?: EmailChart): Promise<string>;
+  /** Delivers the summary of an alarm flood's held-back messages to its target (src/notify/floodControl.ts). */
+  deliverSummary(summary: FloodSummary, window: number, attempt: number): Promise<string>;
   close(): Promise<void>;
 }
 
@@ -73,6 +77,52 @@ export function notificationChannels(channels: Channels, options: NotificationCh
     });
     publishers.set(name, created);
     return created;
+  };
+
+  const smtpTransport = () => {
+    const smtp = channels.email!.smtp;
+    return {
+      host: smtp.host,
+      port: smtp.port,
+      ...(smtp.secure !== undefined && { secure: smtp.secure }),
+      ...(smtp.user !== undefined && { auth: { user: smtp.user, pass: smtp.passwordEnv === undefined ? '' : secretFrom(smtp.passwordEnv, env, 'channels.email.smtp') } }),
+    };
+  };
+
+  const summary = async (s: FloodSummary, window: number, attempt: number): Promise<string> => {
+    const event = floodSummaryEvent(s, window);
+    switch (s.channel) {
+      case 'email': {
+        if (channels.email === undefined) throw new UnrecoverableError('a flood summary by e-mail, but channels.email is not configured');
+        try {
+          const sent = await sendEmail(smtpTransport(), renderFloodSummaryEmail(s, { from: channels.email.from, to: s.target }));
+          return `flood summary by email ${s.target}: ${s.held.length} held back, ${sent.messageId}`;
+        } catch (e) {
+          if (e instanceof EmailDeliveryError) throw e.retryable ? new DeliveryRetry(e.message) : new UnrecoverableError(e.message);
+          throw e;
+        }
+      }
+      case 'webhook': {
+        const c = channels.webhooks.find((w) => w.name === s.target);
+        if (c === undefined) throw new UnrecoverableError(`no webhook named "${s.target}" in channels.webhooks`);
+        const endpoint = { url: c.url, secrets: c.secrets.map((x) => secretFrom(x, env, `channels.webhooks ${c.name}`)), timeoutMs: c.timeoutMs };
+        // The delivery signs and posts any CloudEvent; only its id and body are read.
+        const result = await deliverWebhook(endpoint, event as unknown as IncidentCloudEvent, { now: new Date(), attempt });
+        const what = `flood summary by webhook ${c.name}: ${result.status ?? result.error ?? 'no response'}`;
+        if (result.outcome === 'delivered') return what;
+        if (result.outcome === 'retry') throw new DeliveryRetry(what, result.retryAfterMs);
+        throw new UnrecoverableError(what);
+      }
+      case 'mqtt': {
+        try {
+          const { topic } = await publisher(s.target).publishSummary(event, { signal: AbortSignal.timeout(mqttTimeoutMs) });
+          return `flood summary by mqtt ${s.target}: ${topic}`;
+        } catch (e) {
+          if (e instanceof UnrecoverableError) throw e;
+          throw new DeliveryRetry(`mqtt ${s.target}: ${(e as Error).message}`);
+        }
+      }
+    }
   };
 
   const email = async (effect: NotifyEffect, message: IncidentMessage, chart: EmailChart | undefined): Promise<string> => {
@@ -155,6 +205,7 @@ export function notificationChannels(channels: Channels, options: NotificationCh
           return mqtt(effect, message);
       }
     },
+    deliverSummary: summary,
     async close() {
       await Promise.all([...publishers.values()].map((p) => p.close()));
     },
