@@ -114,6 +114,8 @@ export const resultRoutes: FastifyPluginAsync<ResultRoutesOptions> = async (app,
     const accepted = outcomes.filter((o) => o.status === 'accepted').length;
     options.metrics?.accepted('http', accepted);
     for (const o of outcomes) if (o.status === 'rejected') options.metrics?.rejected('http', o.errors ?? []);
-    return reply.code(accepted > 0 ? 202 : 422).send(outcomes);
+    // Nothing accepted and every refusal a revision conflict: 409, as for any other conflict with what is stored.
+    const allConflicts = accepted === 0 && outcomes.every((o) => o.conflict === true);
+    return reply.code(accepted > 0 ? 202 : allConflicts ? 409 : 422).send(outcomes);
   });
 };

@@ -7,6 +7,7 @@ import type { Queue } from 'bullmq';
 import { connectRedis, type RedisConnection, type RedisTarget } from '../redis/connection.ts';
 import { Partitions } from '../redis/keys.ts';
 import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from '../queue/queues.ts';
+import { revisionConflicts } from './revisionConflicts.ts';
 import { validateBatch, type RecordOutcome, type ValidationOptions } from './validate.ts';
 
 export interface ResultProducerOptions extends Pick<QueueSettings, 'prefix' | 'attempts' | 'backoffMs' | 'keepCompleted' | 'keepFailed'> {
@@ -60,7 +61,14 @@ export function createResultProducer(options: ResultProducerOptions): ResultProd
   return {
     async add(events) {
       const records = Array.isArray(events) ? events : [events];
-      const { outcomes, accepted } = validateBatch(records, { now: now(), ...(options.maxAheadMs !== undefined && { maxAheadMs: options.maxAheadMs }) });
+      const validated = validateBatch(records, { now: now(), ...(options.maxAheadMs !== undefined && { maxAheadMs: options.maxAheadMs }) });
+      // A sampleId and revision already stored (or earlier in the request) with other content is refused, not lost silently.
+      const conflicts = await revisionConflicts(redis, partitions, validated.accepted);
+      const accepted = validated.accepted.filter((r) => !conflicts.has(r.index));
+      const outcomes = validated.outcomes.map((o) => {
+        const issue = conflicts.get(o.index);
+        return issue === undefined ? o : { index: o.index, ...(o.sampleId !== undefined && { sampleId: o.sampleId }), status: 'rejected' as const, conflict: true, errors: [issue] };
+      });
       // Each result goes to its component's partition (one bulk add per partition).
       const byPartition = new Map<number, typeof accepted>();
       for (const r of accepted) {

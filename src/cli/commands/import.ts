@@ -14,6 +14,8 @@ import { createResultProducer, type ResultProducer } from '../../intake/producer
 import { claimedSampleId, validateResult } from '../../intake/validate.ts';
 import { closeQuietly, connectForCommand, redisUrl } from '../../redis/connection.ts';
 import { writeJsonLine } from '../output.ts';
+import { terminalText } from '../terminalText.ts';
+import { confusableWarnings } from '../../intake/confusableNames.ts';
 
 interface ImportOptions {
   config?: string;
@@ -58,20 +60,29 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
     counts.rejected += 1;
     if (opts.json) return writeJsonLine({ type: 'rejected', line, ...(sampleId !== undefined && { sampleId }), errors: issues });
     for (const i of issues) {
-      const text = `line ${line}${sampleId === undefined ? '' : ` (sampleId ${sampleId})`}: ${i.path || '(record)'}: ${i.reason}`;
+      // Values from the file are echoed in reasons: shown with their control characters escaped, never acted on.
+      const text = terminalText(`line ${line}${sampleId === undefined ? '' : ` (sampleId ${sampleId})`}: ${i.path || '(record)'}: ${i.reason}`);
       if (bar) bar.log(`${text}\n`);
       else process.stderr.write(`${text}\n`);
     }
   };
-  let batch: unknown[] = [];
+  let batch: { line: number; record: unknown }[] = [];
   const flush = async () => {
     if (producer === undefined || batch.length === 0) return;
+    let outcomes;
     try {
-      await producer.add(batch);
+      outcomes = await producer.add(batch.map((b) => b.record));
     } catch (e) {
       throw new InputError(`Redis refused the results after ${counts.enqueued} were enqueued: ${(e as Error).message}. Import the file again once Redis is back: results already stored are recognised and kept once.`);
     }
-    counts.enqueued += batch.length;
+    // The producer may still refuse a record (a correction without a higher revision): reported like any other.
+    outcomes.forEach((o, i) => {
+      if (o.status === 'accepted') counts.enqueued += 1;
+      else {
+        counts.accepted -= 1;
+        report(batch[i]!.line, o.sampleId, o.errors ?? []);
+      }
+    });
     batch = [];
   };
   try {
@@ -82,7 +93,11 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
         const parsed = validateResult(r.record, { now: Date.now() });
         if (parsed.ok) {
           counts.accepted += 1;
-          batch.push(r.record);
+          for (const w of confusableWarnings(parsed.sample)) {
+            if (opts.json) writeJsonLine({ type: 'warning', line: r.line, sampleId: parsed.sample.sampleId, warning: w });
+            else process.stderr.write(terminalText(`line ${r.line} (sampleId ${parsed.sample.sampleId}): warning: ${w.path}: ${w.reason}\n`));
+          }
+          batch.push({ line: r.line, record: r.record });
           if (batch.length >= batchSize) await flush();
         } else report(r.line, claimedSampleId(r.record), parsed.issues);
       }
@@ -99,8 +114,8 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
   else
     process.stdout.write(
       opts.dryRun
-        ? `${file}: ${counts.accepted} valid, ${counts.rejected} rejected of ${counts.lines} records (dry run: nothing enqueued)\n`
-        : `${file}: ${counts.enqueued} enqueued, ${counts.rejected} rejected of ${counts.lines} records\n`,
+        ? terminalText(`${file}: ${counts.accepted} valid, ${counts.rejected} rejected of ${counts.lines} records (dry run: nothing enqueued)\n`)
+        : terminalText(`${file}: ${counts.enqueued} enqueued, ${counts.rejected} rejected of ${counts.lines} records\n`),
     );
   return counts.rejected > 0 ? 1 : 0;
 }

@@ -13,6 +13,7 @@ import { incidentRules } from '../../incidents/policy.ts';
 import { closeQuietly, connectForCommand, redisTarget } from '../../redis/connection.ts';
 import { RedisIncidents } from '../../redis/redisIncidents.ts';
 import { formatTable, writeJsonLine } from '../output.ts';
+import { terminalText } from '../terminalText.ts';
 
 interface CommonOptions {
   config?: string;
@@ -45,7 +46,7 @@ function printList(list: IncidentSummary[], json: boolean): void {
   if (json) return list.forEach((i) => writeJsonLine(i));
   if (list.length === 0) return void process.stdout.write('no incidents match\n');
   const rows = list.map((i) => [i.id, i.severity, describeState(i), measurands(i), i.openedAt.slice(0, 16).replace('T', ' '), i.lastSampleId]);
-  process.stdout.write(formatTable(['incident', 'severity', 'state', 'measurands', 'opened (sample)', 'last sample'], rows));
+  process.stdout.write(terminalText(formatTable(['incident', 'severity', 'state', 'measurands', 'opened (sample)', 'last sample'], rows)));
 }
 
 function entryText(e: TimelineEntry | NotifiedEntry): string {
@@ -90,7 +91,8 @@ function printIncident(i: Incident, json: boolean): void {
     'timeline',
     ...mergedTimeline(i).map((e) => `  ${e.at}  ${entryText(e)}`),
   ];
-  process.stdout.write(`${lines.join('\n')}\n`);
+  // Each line made safe on its own: a line break inside a note or name must not start a line of its own either.
+  process.stdout.write(`${lines.map((l) => terminalText(l).replace(/\n/g, '\\n')).join('\n')}\n`);
 }
 
 type ActionBuilder = (id: string, opts: Record<string, unknown>, now: Date) => IncidentAction;
@@ -102,7 +104,7 @@ function actionCommand(parent: Command, name: string, description: string, confi
     .action(async (id: string, opts: CommonOptions & Record<string, unknown>) => {
       const { incident } = await withStore(opts, (store) => store.applyAction(build(id, opts, new Date())));
       if (opts.json) writeJsonLine(incident);
-      else process.stdout.write(`${incident.id}: ${describeState(incident)}\n`);
+      else process.stdout.write(`${terminalText(incident.id)}: ${describeState(incident)}\n`);
     });
 }
 
