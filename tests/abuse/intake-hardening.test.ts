@@ -15,6 +15,7 @@ import type { Step } from '../../src/analysis/model.ts';
 import { main } from '../../src/cli/main.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
+import { formatReading } from '../../src/domain/reading.ts';
 import { buildServer, type WearshiftServer } from '../../src/http/server.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { createResultProducer, type ResultProducer } from '../../src/intake/producer.ts';
@@ -113,7 +114,7 @@ describe('a correction with the same sampleId and revision', () => {
     expect((await post(result({ revision: 1, readings: { Fe: 99 } }))).statusCode).toBe(202);
     await drained(queues);
     const stored = (await storage.revisions({ unit: 'PS1', component: 'gearbox' })).filter((s) => s.sample.sampleId === 'LAB-9001');
-    expect(stored.map((s) => [s.sample.revision, s.sample.readings.Fe?.value])).toEqual(expect.arrayContaining([[0, 12], [1, 99]]));
+    expect(stored.map((s) => [s.sample.revision, formatReading(s.sample.readings.Fe!)])).toEqual(expect.arrayContaining([[0, '12'], [1, '99']]));
   }, 120_000);
 
   it('that slips past the intake (sent straight to the queue) fails its job with the reason instead of succeeding', async () => {
