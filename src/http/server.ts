@@ -59,7 +59,7 @@ export async function buildServer(options: ServerOptions) {
     loggerInstance: options.logger,
     bodyLimit,
     // Incident ids run to 256 characters, more when percent-encoded; the router's default of 100 refused them (414).
-    maxParamLength: limits.maxParamLength,
+    routerOptions: { maxParamLength: limits.maxParamLength },
     // A body sent a byte at a time, or a socket opened and left idle, is cut off instead of holding a descriptor.
     requestTimeout: limits.requestTimeoutMs,
     keepAliveTimeout: limits.keepAliveTimeoutMs,

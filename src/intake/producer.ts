@@ -63,6 +63,8 @@ export function createResultProducer(options: ResultProducerOptions): ResultProd
       const records = Array.isArray(events) ? events : [events];
       const validated = validateBatch(records, { now: now(), ...(options.maxAheadMs !== undefined && { maxAheadMs: options.maxAheadMs }) });
       // A sampleId and revision already stored (or earlier in the request) with other content is refused, not lost silently.
+      // Once the connection is ready, as the queue waits for it: a request connection has no offline queue.
+      if (validated.accepted.length > 0) await queues[0]!.waitUntilReady();
       const conflicts = await revisionConflicts(redis, partitions, validated.accepted);
       const accepted = validated.accepted.filter((r) => !conflicts.has(r.index));
       const outcomes = validated.outcomes.map((o) => {
