@@ -10,6 +10,7 @@ import type { NotifyEffect } from '../incidents/model.ts';
 import type { EmailChart } from '../notify/emailRender.ts';
 import type { ComponentStore, GroupLedger } from '../pipeline/ports.ts';
 import type { ChartPool } from '../render/chartPool.ts';
+import { runChartJob } from '../render/chartJob.ts';
 import { componentInput } from '../render/componentInput.ts';
 import { sharedChartPool } from '../render/sharedChartPool.ts';
 
@@ -21,7 +22,10 @@ export async function incidentChart(store: ComponentStore, ledger: GroupLedger, 
   if (measurand === undefined) return undefined;
   const input = await componentInput(store, ledger, config, effect.incident);
   if (input === undefined) return undefined;
-  const result = await pool.run({ kind: 'chart', format: 'png', input, measurand, width: EMAIL_CHART_WIDTH, title: true });
+  const job = { kind: 'chart', format: 'png', input, measurand, width: EMAIL_CHART_WIDTH, title: true } as const;
+  // A history within the drawing budget is drawn here at once (a fraction of a second); a longer one on the chart
+  // thread, bounded in time, so that it cannot hold up the other jobs of this process.
+  const result = input.samples.length <= pool.sampleBudget ? runChartJob(job, pool.sampleBudget) : await pool.run(job);
   if (result.kind !== 'png') return undefined;
   return { png: Buffer.from(result.png), width: EMAIL_CHART_WIDTH, alt: result.alt };
 }

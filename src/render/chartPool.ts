@@ -14,7 +14,7 @@ export interface ChartPoolOptions {
   readonly concurrency?: number;
   /** Jobs waiting for a thread; beyond them, `run` rejects as busy. Default 16. */
   readonly queue?: number;
-  /** Longest a job may run. Default 20 000 ms. */
+  /** Longest a job may run, from when its thread takes it (a new thread's start-up is bounded at three times this). Default 20 000 ms. */
   readonly timeoutMs?: number;
   /** Most samples a chart draws (src/charts/chartWindow.ts). Default 1 000. */
   readonly sampleBudget?: number;
@@ -122,10 +122,11 @@ export class ChartPool {
       this.release(slot);
       return true;
     };
-    // The time limit runs from the request, loading of the thread included.
-    const timer = setTimeout(() => {
-      if (finish(true)) w.reject(new ChartUnavailableError(`the chart took longer than ${this.timeoutMs} ms and was abandoned`, 'timeout', 30));
-    }, this.timeoutMs);
+    // A new thread first loads the program (seconds on a busy machine): bounded apart, so that the job's own time
+    // limit measures the job.
+    let timer = setTimeout(() => {
+      if (finish(true)) w.reject(new ChartUnavailableError(`the chart thread did not start within ${3 * this.timeoutMs} ms`, 'failed', 30));
+    }, 3 * this.timeoutMs);
     const onMessage = (m: { id?: number; ok?: boolean; result?: ChartJobResult; message?: string }) => {
       if (m.id !== id) return;
       if (!finish(false)) return;
@@ -143,7 +144,12 @@ export class ChartPool {
     worker.on('exit', onExit);
     ready.then(
       () => {
-        if (!settled) worker.postMessage({ id, job: w.job, sampleBudget: this.sampleBudget } satisfies ChartRequest);
+        if (settled) return;
+        clearTimeout(timer);
+        timer = setTimeout(() => {
+          if (finish(true)) w.reject(new ChartUnavailableError(`the chart took longer than ${this.timeoutMs} ms and was abandoned`, 'timeout', 30));
+        }, this.timeoutMs);
+        worker.postMessage({ id, job: w.job, sampleBudget: this.sampleBudget } satisfies ChartRequest);
       },
       (e: Error) => onError(e),
     );
