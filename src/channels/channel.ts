@@ -7,6 +7,7 @@ import type { Logger } from '../telemetry/logger.ts';
 import type { Channels } from '../domain/escalationConfig.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
 import type { IncidentMessage } from '../notify/message.ts';
+import type { FloodSummary } from '../notify/floodControl.ts';
 import type { EmailChart } from '../notify/incidentChart.ts';
 
 /** Webhook endpoints (or other targets) a receiver asked never to call again, kept where every process sees them. */
@@ -42,6 +43,8 @@ export interface Channel {
    * attempt may succeed and `DeliveryRefused` when it will not (errors.ts).
    */
   deliver(delivery: Delivery): Promise<string>;
+  /** Delivers the summary of an alarm flood's held-back messages to one of its targets (src/notify/floodControl.ts). */
+  deliverSummary(summary: FloodSummary, window: number, attempt: number): Promise<string>;
   close(): Promise<void>;
 }
 

@@ -5,6 +5,7 @@
 import type { Channels } from '../domain/escalationConfig.ts';
 import type { ChannelKind } from '../domain/escalationConfig.ts';
 import type { Logger } from '../telemetry/logger.ts';
+import type { FloodSummary } from '../notify/floodControl.ts';
 import type { Channel, Delivery, DisabledEndpoints } from './channel.ts';
 import { DeliveryRefused } from './errors.ts';
 import { CHANNELS, configuredChannels } from './registry.ts';
@@ -12,6 +13,8 @@ import { CHANNELS, configuredChannels } from './registry.ts';
 export interface NotificationChannels {
   /** Delivers one message over the channel of its effect; resolves with a line for the job's return value. */
   deliver(delivery: Delivery): Promise<string>;
+  /** Delivers the summary of an alarm flood's held-back messages over the summary's channel. */
+  deliverSummary(summary: FloodSummary, window: number, attempt: number): Promise<string>;
   close(): Promise<void>;
 }
 
@@ -43,6 +46,11 @@ export function notificationChannels(channels: Channels, options: NotificationCh
       const channel = open.get(delivery.effect.channel);
       if (channel === undefined) throw new DeliveryRefused(`a ${delivery.effect.channel} notification, but no ${delivery.effect.channel} channel is configured`);
       return channel.deliver(delivery);
+    },
+    async deliverSummary(summary, window, attempt) {
+      const channel = open.get(summary.channel);
+      if (channel === undefined) throw new DeliveryRefused(`a flood summary by ${summary.channel}, but no ${summary.channel} channel is configured`);
+      return channel.deliverSummary(summary, window, attempt);
     },
     async close() {
       await Promise.all([...open.values()].map((c) => c.close()));

@@ -1,10 +1,12 @@
 /**
  * The demo's mail server: a real SMTP server (smtp-server) on a free local port that keeps every message as
- * it arrived (the raw DATA, ready to be written as an .eml file) beside its parsed form.
+ * it arrived (the raw DATA, ready to be written as an .eml file) beside its parsed form. The SMTP server and the mail
+ * parser are development dependencies (a production install has neither): they are loaded when the demo starts.
  */
 import type { AddressInfo } from 'node:net';
-import { simpleParser, type ParsedMail } from 'mailparser';
-import { SMTPServer, type SMTPServerOptions } from 'smtp-server';
+import type { ParsedMail } from 'mailparser';
+import type { SMTPServerOptions } from 'smtp-server';
+import { InputError } from '../domain/errors.ts';
 
 export interface ReceivedMail {
   /** Arrival order, from 1. */
@@ -24,8 +26,18 @@ export interface MailReceiver {
   close(): Promise<void>;
 }
 
-/** `extra` adds to or overrides the server's options (a test's refusals, say). */
+async function demoMailPackages() {
+  try {
+    const [{ simpleParser }, { SMTPServer }] = await Promise.all([import('mailparser'), import('smtp-server')]);
+    return { simpleParser, SMTPServer };
+  } catch {
+    throw new InputError('the demo needs its development dependencies (smtp-server, mailparser), which a production install leaves out: run `npm ci` without --omit=dev');
+  }
+}
+
+/** `extra` adds to or overrides the server's options (a test's refusals, say); `port` 0 takes a free one. */
 export async function startMailReceiver(extra: Partial<SMTPServerOptions> = {}, port = 0): Promise<MailReceiver> {
+  const { simpleParser, SMTPServer } = await demoMailPackages();
   const received: ReceivedMail[] = [];
   const listeners: ((mail: ReceivedMail) => void)[] = [];
   const server = new SMTPServer({

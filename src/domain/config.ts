@@ -6,7 +6,7 @@ import { z } from 'zod';
 import { MEASURAND_NAMES, type Measurand } from './measurands.ts';
 import { parseReading } from './reading.ts';
 import { AlarmFiguresSchema } from './alarmFiguresConfig.ts';
-import { ChannelsSchema, EscalationSchema, escalationChannelIssues, IncidentsConfigSchema } from './escalationConfig.ts';
+import { ChannelsSchema, DEFAULT_FLOOD_CONTROL, EscalationSchema, escalationChannelIssues, IncidentsConfigSchema } from './escalationConfig.ts';
 import { OpcuaConfigSchema } from './opcuaConfig.ts';
 import { DEFAULT_FORECAST, ForecastSchema } from './forecastConfig.ts';
 
@@ -224,7 +224,7 @@ export const ConfigSchema = z
     incidents: IncidentsConfigSchema.default(IncidentsConfigSchema.parse({})),
     alarmFigures: AlarmFiguresSchema.default(AlarmFiguresSchema.parse({})).describe('Thresholds of the alarm-management key figures (ISA-18.2 / IEC 62682, EEMUA 191) in backtest, design noise and /metrics.'),
     escalation: EscalationSchema.default({ policies: [] }),
-    channels: ChannelsSchema.default({ webhooks: [], mqtt: [] }),
+    channels: ChannelsSchema.default({ webhooks: [], mqtt: [], floodControl: DEFAULT_FLOOD_CONTROL }),
     opcua: OpcuaConfigSchema.optional().describe('The OPC UA Alarms & Conditions server for control rooms (see the README).'),
     display: z
       .object({

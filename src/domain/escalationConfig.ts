@@ -90,6 +90,9 @@ const webhookSecret = z
     message: 'expected an environment variable name (such as WEBHOOK_SECRET) or a literal secret "whsec_<base64>"',
   });
 
+/** Alarm-flood handling by default: ten messages per target per ten minutes, then one summary. */
+export const DEFAULT_FLOOD_CONTROL = { maxMessages: 10, windowMinutes: 10 };
+
 export const ChannelsSchema = z
   .object({
     email: z
@@ -143,6 +146,14 @@ export const ChannelsSchema = z
           .strict(),
       )
       .default([]),
+    floodControl: z
+      .object({
+        maxMessages: z.number().int().min(1).default(10).describe('Messages per target (e-mail address, webhook, MQTT channel) within one window; beyond them incidents are held back.'),
+        windowMinutes: positive.default(10).describe('Length of the window; at its end, one summary lists every incident held back in it.'),
+      })
+      .strict()
+      .default(DEFAULT_FLOOD_CONTROL)
+      .describe('Alarm-flood handling (ISA-18.2): at most maxMessages per target per window, then one summary of the rest.'),
     ackLinks: z
       .object({
         baseUrl: z.url({ protocol: /^https?$/ }).describe('Public address of the HTTP API, for signed acknowledgement links in e-mails.'),

@@ -6,10 +6,15 @@ import { z } from 'zod';
 import { isMeasurand, MEASURAND_NAMES, type Measurand } from './measurands.ts';
 import { parseReading, type Reading } from './reading.ts';
 
-/** Names travel into e-mail headers, Redis keys and URLs: printable characters only, bounded length. */
+/**
+ * Names travel into e-mail headers, Redis keys and URLs: printable characters only, bounded length. Trimmed and in
+ * Unicode normal form NFKC, so that "PS1 " and "ＰＳ1" (full-width) are the unit PS1, not new units that read like it.
+ */
 const identifier = (what: string) =>
   z
     .string({ error: (i) => (i.input === undefined ? `${what} is required (missing or empty)` : `${what} must be text`) })
+    .trim()
+    .normalize('NFKC')
     .min(1, `${what} must not be empty`)
     .max(80, `${what} must be at most 80 characters`)
     .regex(/^[\p{L}\p{N}][\p{L}\p{N} ._:#()+\-/]*$/u, `${what} may hold letters, digits, spaces and . _ : # ( ) + - / only, starting with a letter or digit`);

@@ -41,6 +41,14 @@ export function rolesOf(token: string, tokens: readonly TokenEntry[]): Set<Role>
   return roles;
 }
 
+/** The credential each authorised request presented, as the incident history records it. */
+const credentials = new WeakMap<FastifyRequest, string>();
+
+/** "responder token 3f2a9c1e": the role the request was let through for and the first digest bytes of its token. */
+export function credentialOf(request: FastifyRequest): string | undefined {
+  return credentials.get(request);
+}
+
 /**
  * A fastify preHandler that lets a request through when its bearer token holds one of `roles`:
  * 401 (with `WWW-Authenticate: Bearer`) without a known token, 403 when the token's roles do not permit it.
@@ -59,8 +67,12 @@ export function requireRole(...roles: Role[]) {
         .send({ error: 'unauthorized', message: match === null ? 'an Authorization: Bearer <token> header is required' : 'unknown token' });
       return;
     }
-    if (!roles.some((r) => held.has(r))) {
+    const role = roles.find((r) => held.has(r));
+    if (role === undefined) {
       await reply.code(403).send({ error: 'forbidden', message: `this needs the role ${roles.join(' or ')}; the token holds ${[...held].join(', ')}` });
+      return;
     }
+    // Eight hex digits of the token's SHA-256: tells tokens apart in the history without being usable as one.
+    credentials.set(request, `${role} token ${digest(match![1]!).subarray(0, 4).toString('hex')}`);
   };
 }

@@ -13,6 +13,7 @@ import type { FastifyPluginAsync, preHandlerAsyncHookHandler } from 'fastify';
 import type { ServerResponse } from 'node:http';
 import { requireRole } from './auth.ts';
 import type { EventHub } from './eventHub.ts';
+import { DEFAULT_HTTP_LIMITS } from './limits.ts';
 
 export const EVENT_TOKEN_COOKIE = 'wearshift_token';
 
@@ -22,8 +23,15 @@ export interface EventRoutesOptions {
   authorize?: preHandlerAsyncHookHandler;
   /** Interval of the keep-alive comment. Default 20 000 ms. */
   heartbeatMs?: number;
-  /** A client that falls this many bytes behind is disconnected (it reconnects and reloads). Default 1 MiB. */
+  /**
+   * A client that falls this many bytes behind is disconnected (it reconnects and reloads). Measured on the socket
+   * (bytes written but not yet taken by the kernel) before every write, heartbeats included. Default 256 KiB.
+   */
   maxBufferedBytes?: number;
+  /** Most open streams; a further client gets 503 with Retry-After. Default 500. */
+  maxClients?: number;
+  /** Told of every client cut off for falling behind (metrics, tests). */
+  onSlowClient?: (bufferedBytes: number) => void;
   /** The reconnection delay the stream asks browsers for. Default 3000 ms. */
   retryMs?: number;
 }
@@ -31,7 +39,8 @@ export interface EventRoutesOptions {
 export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, options) => {
   const authorize = options.authorize ?? requireRole('viewer', 'responder');
   const heartbeatMs = options.heartbeatMs ?? 20_000;
-  const maxBuffered = options.maxBufferedBytes ?? 1024 * 1024;
+  const maxBuffered = options.maxBufferedBytes ?? DEFAULT_HTTP_LIMITS.maxEventBufferBytes;
+  const maxClients = options.maxClients ?? DEFAULT_HTTP_LIMITS.maxEventClients;
   const open = new Set<ServerResponse>();
 
   // Streams never end by themselves: without this, closing the server would wait for every browser to leave.
@@ -47,6 +56,9 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
     },
     preHandler: authorize,
     handler: async (request, reply) => {
+      if (open.size >= maxClients) {
+        return reply.code(503).header('retry-after', '30').send({ error: 'unavailable', message: `${open.size} live-event clients are connected, the most this process serves; try again later` });
+      }
       const res = reply.raw;
       reply.hijack();
       res.writeHead(200, {
@@ -58,14 +70,21 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
       });
       res.write(`retry: ${options.retryMs ?? 3000}\n: connected\n\n`);
       open.add(res);
-      const unsubscribe = options.hub.subscribe((event, id) => {
-        if (res.writableLength > maxBuffered) {
+      // What the client has not taken yet: the response's buffer, which counts the socket's (data the kernel would not take).
+      const behind = () => Math.max(res.writableLength, res.socket?.writableLength ?? 0);
+      const send = (chunk: string) => {
+        if (res.destroyed) return;
+        const buffered = behind();
+        if (buffered + Buffer.byteLength(chunk) > maxBuffered) {
+          options.onSlowClient?.(buffered);
+          request.log.info({ bufferedBytes: buffered, maxBufferedBytes: maxBuffered }, 'live-event client disconnected: it fell too far behind');
           res.destroy();
           return;
         }
-        res.write(`id: ${id}\nevent: ${event.type}\ndata: ${JSON.stringify(event)}\n\n`);
-      });
-      const heartbeat = setInterval(() => res.write(': keep-alive\n\n'), heartbeatMs);
+        res.write(chunk);
+      };
+      const unsubscribe = options.hub.subscribe((event, id) => send(`id: ${id}\nevent: ${event.type}\ndata: ${JSON.stringify(event)}\n\n`));
+      const heartbeat = setInterval(() => send(': keep-alive\n\n'), heartbeatMs);
       heartbeat.unref();
       res.on('close', () => {
         clearInterval(heartbeat);

@@ -3,6 +3,7 @@
  * its work (Redis answers a PING within the timeout). Neither needs a token: they reveal nothing.
  */
 import type { FastifyPluginAsync } from 'fastify';
+import { UNAVAILABLE_RETRY_AFTER_S } from './unavailable.ts';
 
 export interface HealthRoutesOptions {
   /** Resolves when Redis answers; a connection without an offline queue fails at once when Redis is away. */
@@ -25,7 +26,9 @@ export const healthRoutes: FastifyPluginAsync<HealthRoutesOptions> = async (app,
       ]);
       return { status: 'ready', redis: 'ok' };
     } catch (e) {
-      return reply.code(503).send({ status: 'unavailable', redis: (e as Error).message });
+      // The probe says that Redis does not answer, not what the client library said about it.
+      const reason = /within \d+ ms/.test((e as Error).message) ? (e as Error).message : 'not answering';
+      return reply.code(503).header('retry-after', String(UNAVAILABLE_RETRY_AFTER_S)).send({ status: 'unavailable', redis: reason });
     } finally {
       clearTimeout(timer);
     }

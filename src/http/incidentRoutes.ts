@@ -9,7 +9,7 @@ import type { IncidentAction } from '../incidents/applyAction.ts';
 import { IncidentConflictError, IncidentNotFoundError } from '../incidents/errors.ts';
 import { IncidentFilterSchema, type IncidentFilter } from '../incidents/listFilter.ts';
 import type { Incident, IncidentSummary } from '../incidents/model.ts';
-import { requireRole } from './auth.ts';
+import { credentialOf, requireRole } from './auth.ts';
 
 /** What the routes need of the incident store (the Redis store provides it). */
 export interface IncidentRoutesStore {
@@ -24,8 +24,27 @@ export interface IncidentRoutesOptions {
   readonly now?: () => Date;
 }
 
-const by = z.string().trim().min(1, 'required').max(80, 'at most 80 characters').describe('Who acts.');
-const text = (max: number) => z.string().trim().min(1, 'required').max(max, `at most ${max} characters`);
+// Control characters (ESC, CR, C1) and bidirectional overrides would act on a terminal that prints the history, or
+// make a line read differently from what it holds: refused, naming the field. Notes may hold line breaks and tabs.
+// eslint-disable-next-line no-control-regex
+const CONTROLS_IN_A_LINE = /[\u0000-\u001f\u007f-\u009f\u2028\u2029\u202a-\u202e\u2066-\u2069]/;
+// eslint-disable-next-line no-control-regex
+const CONTROLS_IN_TEXT = /[\u0000-\u0008\u000b-\u001f\u007f-\u009f\u2028\u2029\u202a-\u202e\u2066-\u2069]/;
+const by = z
+  .string()
+  .trim()
+  .normalize('NFKC')
+  .min(1, 'required')
+  .max(80, 'at most 80 characters')
+  .refine((s) => !CONTROLS_IN_A_LINE.test(s), 'must be one line without control characters')
+  .describe('Who acts.');
+const text = (max: number) =>
+  z
+    .string()
+    .trim()
+    .min(1, 'required')
+    .max(max, `at most ${max} characters`)
+    .refine((s) => !CONTROLS_IN_TEXT.test(s), 'must not hold control characters other than line breaks and tabs');
 const instant = z.iso.datetime({ offset: true, message: 'expected an ISO 8601 date-time with a time zone, such as 2026-03-01T18:00:00Z' });
 
 export const INCIDENT_ACTION_BODIES = {
@@ -91,8 +110,11 @@ export const incidentRoutes: FastifyPluginAsync<IncidentRoutesOptions> = async (
 
   for (const verb of Object.keys(INCIDENT_ACTION_BODIES) as Verb[]) {
     app.post<{ Params: { id: string } }>(`/v1/incidents/:id/${verb}`, act, async (request, reply) => {
-      const action = toAction(verb, request.params.id, request.body, now());
-      if (action instanceof z.ZodError) return invalid(reply, 'body', action);
+      const parsed = toAction(verb, request.params.id, request.body, now());
+      if (parsed instanceof z.ZodError) return invalid(reply, 'body', parsed);
+      const credential = credentialOf(request);
+      // Who acknowledged is recorded by the token presented, not only by the name typed.
+      const action: IncidentAction = parsed.kind === 'acknowledge' && credential !== undefined ? { ...parsed, credential } : parsed;
       try {
         const { incident } = await options.store.applyAction(action);
         return { incident };

@@ -2,12 +2,15 @@
  * `POST /v1/results`: one result event, an array of them (application/json), or one per line
  * (application/x-ndjson). Every record gets an outcome; valid records are enqueued even when others in the
  * same request are rejected. 202 when at least one record was accepted, 422 when none was (same body);
- * 413 above the body limit; 503 when the queue cannot take the records (then none was accepted).
+ * 413 above the body limit or above `maxRecords` records (the message names the limit; nothing was accepted);
+ * 503 when the queue cannot take the records (then none was accepted). The reply stays small whatever is sent:
+ * every rejected record names its first problems, the first `detailedRejections` of them all their problems.
  */
 import type { FastifyError, FastifyPluginAsync } from 'fastify';
 import type { RecordOutcome } from '../intake/validate.ts';
 import type { Metrics } from '../telemetry/metrics.ts';
 import { requireRole } from './auth.ts';
+import { DEFAULT_HTTP_LIMITS, formatBytes } from './limits.ts';
 
 export interface ResultRoutesOptions {
   /** Validates and enqueues; the producer of src/queue/producer.ts. */
@@ -15,9 +18,15 @@ export interface ResultRoutesOptions {
   metrics?: Metrics;
   /** Largest request body in bytes. Default 5 MiB. */
   bodyLimitBytes?: number;
+  /** Most records in one request. Default 5 000 (limits.ts). */
+  maxRecords?: number;
+  /** Rejected records whose every problem is listed; later ones list their first `ISSUES_PER_RECORD`. Default 100. */
+  detailedRejections?: number;
 }
 
-export const DEFAULT_BODY_LIMIT_BYTES = 5 * 1024 * 1024;
+export const DEFAULT_BODY_LIMIT_BYTES = DEFAULT_HTTP_LIMITS.bodyLimitBytes;
+/** Problems listed per rejected record beyond the first `detailedRejections` ones (the rest are counted). */
+export const ISSUES_PER_RECORD = 3;
 
 const NDJSON = 'application/x-ndjson';
 
@@ -25,30 +34,46 @@ const NDJSON = 'application/x-ndjson';
 type NdjsonLine = { line: number; ok: true; value: unknown } | { line: number; ok: false; reason: string };
 
 class NdjsonBody {
-  constructor(readonly lines: NdjsonLine[]) {}
+  constructor(
+    readonly lines: NdjsonLine[],
+    /** More non-empty lines than the record limit: parsing stopped there. */
+    readonly overflow: boolean,
+  ) {}
 }
 
 export const resultRoutes: FastifyPluginAsync<ResultRoutesOptions> = async (app, options) => {
   const bodyLimit = options.bodyLimitBytes ?? DEFAULT_BODY_LIMIT_BYTES;
+  const maxRecords = options.maxRecords ?? DEFAULT_HTTP_LIMITS.maxRecordsPerRequest;
+  const detailed = options.detailedRejections ?? 100;
+  const tooMany = (count: string) => ({
+    error: 'too-many-records',
+    message: `the request holds ${count} records, more than the limit of ${maxRecords} per request; nothing was accepted, send them in batches of at most ${maxRecords}`,
+    maxRecords,
+  });
 
   app.addContentTypeParser(NDJSON, { parseAs: 'string', bodyLimit }, (_req, body, done) => {
     const lines: NdjsonLine[] = [];
-    String(body)
-      .split('\n')
-      .forEach((text, i) => {
-        if (text.trim() === '') return;
-        try {
-          lines.push({ line: i + 1, ok: true, value: JSON.parse(text) });
-        } catch (e) {
-          lines.push({ line: i + 1, ok: false, reason: `not valid JSON: ${(e as Error).message}` });
-        }
-      });
-    done(null, new NdjsonBody(lines));
+    const text = String(body);
+    let start = 0;
+    for (let n = 1; start <= text.length; n++) {
+      const end = text.indexOf('\n', start);
+      const line = text.slice(start, end === -1 ? text.length : end);
+      start = end === -1 ? text.length + 1 : end + 1;
+      if (line.trim() === '') continue;
+      // Counting stops at the first line over the limit: the request is refused whole, so the rest is not parsed.
+      if (lines.length === maxRecords) return done(null, new NdjsonBody(lines, true));
+      try {
+        lines.push({ line: n, ok: true, value: JSON.parse(line) });
+      } catch (e) {
+        lines.push({ line: n, ok: false, reason: `not valid JSON: ${(e as Error).message.slice(0, 200)}` });
+      }
+    }
+    done(null, new NdjsonBody(lines, false));
   });
 
   app.setErrorHandler((error: FastifyError, request, reply) => {
     if (error.code === 'FST_ERR_CTP_BODY_TOO_LARGE') {
-      return reply.code(413).send({ error: 'payload-too-large', message: `the request body exceeds the limit of ${formatBytes(bodyLimit)}; send the results in smaller batches` });
+      return reply.code(413).send({ error: 'payload-too-large', message: `the request body exceeds the limit of ${formatBytes(bodyLimit)}; send the results in smaller batches`, maxBytes: bodyLimit });
     }
     if (error.statusCode !== undefined && error.statusCode >= 400 && error.statusCode < 500) {
       return reply.code(error.statusCode).send({ error: 'bad-request', message: error.message });
@@ -59,6 +84,8 @@ export const resultRoutes: FastifyPluginAsync<ResultRoutesOptions> = async (app,
 
   app.post('/v1/results', { bodyLimit, onRequest: requireRole('ingest') }, async (request, reply) => {
     const body = request.body;
+    if (body instanceof NdjsonBody && body.overflow) return reply.code(413).send(tooMany(`more than ${maxRecords}`));
+    if (Array.isArray(body) && body.length > maxRecords) return reply.code(413).send(tooMany(String(body.length)));
     const records: { position: number; line?: number; value?: unknown; notJson?: string }[] =
       body instanceof NdjsonBody
         ? body.lines.map((l, i) => (l.ok ? { position: i, line: l.line, value: l.value } : { position: i, line: l.line, notJson: l.reason }))
@@ -75,18 +102,20 @@ export const resultRoutes: FastifyPluginAsync<ResultRoutesOptions> = async (app,
       return reply.code(503).header('retry-after', '5').send({ error: 'unavailable', message: 'the results queue is unavailable; nothing was accepted, send again later' });
     }
     const byPosition = new Map(parsed.map((r, i) => [r.position, enqueued[i]!]));
-    const outcomes: (RecordOutcome & { line?: number })[] = records.map((r) => {
+    let rejections = 0;
+    const outcomes: (RecordOutcome & { line?: number; moreErrors?: number })[] = records.map((r) => {
       const line = r.line === undefined ? {} : { line: r.line };
-      if (r.notJson !== undefined) return { index: r.position, ...line, status: 'rejected', errors: [{ path: '', reason: r.notJson }] };
-      return { ...byPosition.get(r.position)!, index: r.position, ...line };
+      const outcome: RecordOutcome =
+        r.notJson !== undefined ? { index: r.position, ...line, status: 'rejected', errors: [{ path: '', reason: r.notJson }] } : { ...byPosition.get(r.position)!, index: r.position, ...line };
+      const errors = outcome.errors ?? [];
+      if (outcome.status !== 'rejected' || ++rejections <= detailed || errors.length <= ISSUES_PER_RECORD) return outcome;
+      return { ...outcome, errors: errors.slice(0, ISSUES_PER_RECORD), moreErrors: errors.length - ISSUES_PER_RECORD };
     });
     const accepted = outcomes.filter((o) => o.status === 'accepted').length;
     options.metrics?.accepted('http', accepted);
     for (const o of outcomes) if (o.status === 'rejected') options.metrics?.rejected('http', o.errors ?? []);
-    return reply.code(accepted > 0 ? 202 : 422).send(outcomes);
+    // Nothing accepted and every refusal a revision conflict: 409, as for any other conflict with what is stored.
+    const allConflicts = accepted === 0 && outcomes.every((o) => o.conflict === true);
+    return reply.code(accepted > 0 ? 202 : allConflicts ? 409 : 422).send(outcomes);
   });
 };
-
-function formatBytes(n: number): string {
-  return n % (1024 * 1024) === 0 ? `${n / (1024 * 1024)} MB` : n % 1024 === 0 ? `${n / 1024} kB` : `${n} bytes`;
-}

@@ -5,19 +5,24 @@
  * - `GET /v1/units/:unit/components/:component/chart.png?measurand=Fe[&width=600]`: the same chart as PNG.
  * Every request builds the component view (src/pipeline/componentView.ts): the evaluation the worker's checkpoints
  * reached, from the same samples, marks, settings and group statistics; the series also says what the analysis
- * cannot judge yet (`readiness`).
+ * cannot judge yet (`readiness`). The evaluation and the drawing run on a chart thread (src/render/chartPool.ts),
+ * bounded in time and in number at once: a very long history answers 503 with Retry-After rather than stall the
+ * process, and a chart draws at most the pool's sample budget (the latest samples; the heading says so).
  */
 import type { FastifyPluginAsync, FastifyReply, FastifyRequest, preHandlerAsyncHookHandler } from 'fastify';
-import { renderChartPng } from '../charts/chartPng.ts';
-import { buildComponentSeries, type ComponentSeries } from '../charts/componentSeries.ts';
-import { DEFAULT_CHART_WIDTH, renderTrendChart } from '../charts/trendChart.ts';
+import { DEFAULT_CHART_WIDTH } from '../charts/trendChart.ts';
 import { isMeasurand, type Measurand } from '../domain/measurands.ts';
-import type { ComponentView } from '../pipeline/componentView.ts';
+import type { ChartJob, ChartJobResult } from '../render/chartJob.ts';
+import { ChartPool } from '../render/chartPool.ts';
+import type { ComponentInput } from '../render/componentInput.ts';
+import { ChartUnavailableError } from '../render/errors/chartErrors.ts';
 import { requireRole } from './auth.ts';
 
 export interface SeriesRoutesOptions {
-  /** The component view (history, settings, group statistics, evaluation); undefined when no such component is known. */
-  loadComponent(unit: string, component: string): Promise<ComponentView | undefined>;
+  /** What the component's view is computed from; undefined when no such component is known (componentInput.ts). */
+  loadInput(unit: string, component: string): Promise<ComponentInput | undefined>;
+  /** Where the evaluation and drawing run, off the event loop and bounded. Default: a pool of one thread, closed with the app. */
+  pool?: ChartPool;
   /** Guards every route. Default: a viewer or responder bearer token (see auth.ts). */
   authorize?: preHandlerAsyncHookHandler;
 }
@@ -38,56 +43,74 @@ interface Params {
   component: string;
 }
 
-type Query = Record<string, string | undefined>;
+type Query = Record<string, string | string[] | undefined>;
 
 export const seriesRoutes: FastifyPluginAsync<SeriesRoutesOptions> = async (app, options) => {
   const preHandler = options.authorize ?? requireRole('viewer', 'responder');
   const base = '/v1/units/:unit/components/:component';
+  const pool = options.pool ?? new ChartPool();
+  if (options.pool === undefined) app.addHook('onClose', async () => pool.close());
 
-  async function load(request: FastifyRequest<{ Params: Params }>, reply: FastifyReply, measurands?: Measurand[]): Promise<(ComponentSeries & Pick<ComponentView, 'readiness'>) | undefined> {
+  /** Loads the input and runs the job on the pool; answers 404 or 503 itself and then returns undefined. */
+  async function compute(request: FastifyRequest<{ Params: Params }>, reply: FastifyReply, job: (input: ComponentInput) => ChartJob): Promise<ChartJobResult | undefined> {
     const { unit, component } = request.params;
-    const view = await options.loadComponent(unit, component);
-    if (view === undefined) {
+    const input = await options.loadInput(unit, component);
+    if (input === undefined) {
       await reply.code(404).send({ error: 'not-found', message: `no component "${component}" of unit "${unit}" is known` });
       return undefined;
     }
-    const series = buildComponentSeries(view.evaluation, view.settings, view.group, measurands === undefined ? {} : { measurands });
-    return { ...series, readiness: view.readiness };
+    try {
+      return await pool.run(job(input));
+    } catch (e) {
+      if (!(e instanceof ChartUnavailableError)) throw e;
+      request.log.warn({ unit, component, reason: e.reason, samples: input.samples.length }, 'chart not drawn');
+      await reply.code(503).header('retry-after', String(e.retryAfterS)).send({ error: 'unavailable', message: e.message });
+      return undefined;
+    }
   }
 
   app.get<{ Params: Params; Querystring: Query }>(`${base}/series`, { preHandler }, async (request, reply) => {
     const measurands = parseMeasurands(request.query.measurand);
     if (typeof measurands === 'string') return reply.code(400).send({ error: 'invalid-request', message: measurands });
-    const series = await load(request, reply, measurands);
-    if (series === undefined) return reply;
-    return reply.header('cache-control', 'no-store').send(series);
+    const result = await compute(request, reply, (input) => ({ kind: 'series', input, ...(measurands !== undefined && { measurands }) }));
+    if (result === undefined) return reply;
+    if (result.kind !== 'series') throw new Error(`unexpected chart result ${result.kind}`);
+    return reply.header('cache-control', 'no-store').type('application/json; charset=utf-8').send(result.json);
   });
 
   const chart = (format: 'svg' | 'png') => async (request: FastifyRequest<{ Params: Params; Querystring: Query }>, reply: FastifyReply) => {
-    const measurand = request.query.measurand;
+    const measurand = single(request.query.measurand);
     if (measurand === undefined || !isMeasurand(measurand)) {
       return reply.code(400).send({ error: 'invalid-request', message: `measurand: ${measurand === undefined ? 'required' : `unknown measurand "${measurand}"`}, e.g. ?measurand=Fe` });
     }
-    const width = parseWidth(request.query.width, format === 'svg' ? DEFAULT_CHART_WIDTH : PNG_DEFAULT_WIDTH);
+    const width = parseWidth(single(request.query.width), format === 'svg' ? DEFAULT_CHART_WIDTH : PNG_DEFAULT_WIDTH);
     if (typeof width === 'string') return reply.code(400).send({ error: 'invalid-request', message: width });
-    const series = await load(request, reply, [measurand]);
-    if (series === undefined) return reply;
-    const m = series.measurands[0]!;
-    if (m.charges.every((c) => c.points.length === 0) && (m.cleanliness?.points.length ?? 0) === 0) {
-      return reply.code(404).send({ error: 'not-found', message: `no ${measurand} readings for ${series.unit} / ${series.component}` });
-    }
-    const svg = renderTrendChart(series, measurand, { width, ...(request.query.title === 'none' && { title: false as const }) });
-    if (format === 'svg') return reply.headers(SVG_HEADERS).send(svg);
-    return reply.headers({ 'content-type': 'image/png', 'cache-control': 'no-store', 'x-content-type-options': 'nosniff' }).send(renderChartPng(svg, width));
+    const title = single(request.query.title) !== 'none';
+    const result = await compute(request, reply, (input) => ({ kind: 'chart', format, input, measurand, width, title }));
+    if (result === undefined) return reply;
+    const { unit, component } = request.params;
+    if (result.kind === 'no-readings') return reply.code(404).send({ error: 'not-found', message: `no ${measurand} readings for ${unit} / ${component}` });
+    if (result.kind === 'svg') return reply.headers(SVG_HEADERS).send(result.svg);
+    if (result.kind === 'png') return reply.headers({ 'content-type': 'image/png', 'cache-control': 'no-store', 'x-content-type-options': 'nosniff' }).send(Buffer.from(result.png));
+    throw new Error(`unexpected chart result ${result.kind}`);
   };
   app.get<{ Params: Params; Querystring: Query }>(`${base}/chart.svg`, { preHandler }, chart('svg'));
   app.get<{ Params: Params; Querystring: Query }>(`${base}/chart.png`, { preHandler }, chart('png'));
 };
 
-/** "Fe,Cu" → the measurands; an error message naming the field when one is unknown; undefined when absent. */
-function parseMeasurands(raw: string | undefined): Measurand[] | string | undefined {
-  if (raw === undefined || raw.trim() === '') return undefined;
-  const names = raw.split(',').map((s) => s.trim());
+/** A query parameter given more than once counts by its first value, for parameters that take one. */
+function single(raw: string | string[] | undefined): string | undefined {
+  return Array.isArray(raw) ? raw[0] : raw;
+}
+
+/**
+ * "Fe,Cu" (or `measurand=Fe&measurand=Cu`) → the measurands; an error message naming the field when one is unknown;
+ * undefined when absent.
+ */
+function parseMeasurands(raw: string | string[] | undefined): Measurand[] | string | undefined {
+  const joined = Array.isArray(raw) ? raw.join(',') : raw;
+  if (joined === undefined || joined.trim() === '') return undefined;
+  const names = joined.split(',').map((s) => s.trim()).filter((s) => s !== '');
   const unknown = names.filter((n) => !isMeasurand(n));
   if (unknown.length > 0) return `measurand: unknown measurand${unknown.length > 1 ? 's' : ''} ${unknown.map((n) => `"${n}"`).join(', ')}`;
   return [...new Set(names as Measurand[])];

@@ -10,7 +10,7 @@ import type { IncidentRoutesStore } from './incidentRoutes.ts';
 import type { AckIncidentSummary } from '../notify/ackPage.ts';
 import type { Logger } from '../telemetry/logger.ts';
 import type { Metrics } from '../telemetry/metrics.ts';
-import { componentView } from '../pipeline/componentView.ts';
+import { componentInput } from '../render/componentInput.ts';
 import type { ComponentStore, GroupLedger } from '../pipeline/ports.ts';
 import { ackLinkRoutes } from './ackLinkRoutes.ts';
 import { announcingActions, type EventHub, type LiveEvent } from './eventHub.ts';
@@ -20,9 +20,12 @@ import { contractRoutes } from './contractRoutes.ts';
 import { healthRoutes } from './healthRoutes.ts';
 import { incidentRoutes } from './incidentRoutes.ts';
 import { metricsRoute } from './metrics.ts';
-import { DEFAULT_BODY_LIMIT_BYTES, resultRoutes, type ResultRoutesOptions } from './resultRoutes.ts';
+import { resolveHttpLimits, type HttpLimits } from './limits.ts';
+import { resultRoutes, type ResultRoutesOptions } from './resultRoutes.ts';
 import { seriesRoutes } from './seriesRoutes.ts';
 import { sampleVerdictRoutes, type SampleVerdictTaker } from './sampleVerdictRoutes.ts';
+import { ChartPool } from '../render/chartPool.ts';
+import { isStoreUnavailable, UNAVAILABLE_RETRY_AFTER_S } from './unavailable.ts';
 
 export interface ServerOptions {
   readonly logger: Logger;
@@ -31,8 +34,12 @@ export interface ServerOptions {
   ping(): Promise<unknown>;
   /** The result intake; without it, no POST /v1/results (a worker's metrics port). */
   readonly producer?: ResultRoutesOptions['producer'];
-  /** Largest request body in bytes. Default 5 MiB. */
+  /** Largest request body in bytes. Default 5 MiB (the same as `limits.bodyLimitBytes`). */
   readonly bodyLimitBytes?: number;
+  /** Request, socket, live-stream and chart bounds; see limits.ts for each default. */
+  readonly limits?: Partial<HttpLimits>;
+  /** Where charts and series are computed; default: a pool of `limits.chartConcurrency` threads of this process. */
+  readonly chartPool?: ChartPool;
   /** Serve /metrics without a token. Default: WEARSHIFT_METRICS_PUBLIC === '1'. */
   readonly metricsPublic?: boolean;
   /** The incident store, for the incident API and the acknowledgement-link pages. */
@@ -54,17 +61,52 @@ export interface ServerOptions {
 }
 
 export async function buildServer(options: ServerOptions) {
-  const bodyLimit = options.bodyLimitBytes ?? DEFAULT_BODY_LIMIT_BYTES;
-  const app = Fastify({ loggerInstance: options.logger, bodyLimit });
+  const limits = resolveHttpLimits({ ...options.limits, ...(options.bodyLimitBytes !== undefined && { bodyLimitBytes: options.bodyLimitBytes }) });
+  const bodyLimit = limits.bodyLimitBytes;
+  const app = Fastify({
+    loggerInstance: options.logger,
+    bodyLimit,
+    // Incident ids run to 256 characters, more when percent-encoded; the router's default of 100 refused them (414).
+    routerOptions: { maxParamLength: limits.maxParamLength },
+    // A body sent a byte at a time, or a socket opened and left idle, is cut off instead of holding a descriptor.
+    requestTimeout: limits.requestTimeoutMs,
+    keepAliveTimeout: limits.keepAliveTimeoutMs,
+    connectionTimeout: limits.idleSocketTimeoutMs,
+    http: { headersTimeout: limits.headersTimeoutMs, connectionsCheckingInterval: limits.timeoutCheckIntervalMs },
+  });
+  app.server.maxConnections = limits.maxConnections;
+  // A refused request (no token, too large) gets its answer and then the socket is closed, whatever the client
+  // still sends: a refused body is not read to its end.
+  app.addHook('onSend', async (_request, reply) => {
+    if ([401, 403, 408, 413].includes(reply.statusCode)) reply.header('connection', 'close');
+  });
+  app.setErrorHandler(async (error: Error & { statusCode?: number }, request, reply) => {
+    const status = error.statusCode;
+    if (status !== undefined && status >= 400 && status < 500) throw error;
+    if (isStoreUnavailable(error) || !(await answers(options.ping))) {
+      request.log.warn({ err: error.message }, 'store unavailable');
+      return reply
+        .code(503)
+        .header('retry-after', String(UNAVAILABLE_RETRY_AFTER_S))
+        .send({ error: 'unavailable', message: `the store is unavailable; nothing was changed, try again in ${UNAVAILABLE_RETRY_AFTER_S} s` });
+    }
+    request.log.error({ err: error }, 'request failed');
+    return reply.code(500).send({ error: 'internal', message: `the request failed (request ${request.id}); the service log has the details` });
+  });
   await app.register(healthRoutes, { ping: options.ping });
   if (options.openApi !== undefined) await app.register(contractRoutes, { openApi: options.openApi });
   await app.register(metricsRoute, { metrics: options.metrics, ...(options.metricsPublic !== undefined && { public: options.metricsPublic }) });
-  if (options.producer !== undefined) await app.register(resultRoutes, { producer: options.producer, metrics: options.metrics, bodyLimitBytes: bodyLimit });
-  if (options.hub !== undefined) await app.register(eventRoutes, { hub: options.hub });
+  if (options.producer !== undefined) {
+    await app.register(resultRoutes, { producer: options.producer, metrics: options.metrics, bodyLimitBytes: bodyLimit, maxRecords: limits.maxRecordsPerRequest });
+  }
+  if (options.hub !== undefined) await app.register(eventRoutes, { hub: options.hub, maxBufferedBytes: limits.maxEventBufferBytes, maxClients: limits.maxEventClients });
   const histories = options.histories;
   if (histories !== undefined) {
+    const pool = options.chartPool ?? new ChartPool({ concurrency: limits.chartConcurrency, queue: limits.chartQueue, timeoutMs: limits.chartTimeoutMs, sampleBudget: limits.chartSampleBudget });
+    if (options.chartPool === undefined) app.addHook('onClose', async () => pool.close());
     await app.register(seriesRoutes, {
-      loadComponent: (unit, component) => componentView(histories.store, histories.ledger, histories.config, { unit, component }),
+      loadInput: (unit, component) => componentInput(histories.store, histories.ledger, histories.config, { unit, component }),
+      pool,
     });
   }
   if (options.sampleVerdicts !== undefined) await app.register(sampleVerdictRoutes, { verdicts: options.sampleVerdicts });
@@ -75,8 +117,9 @@ export async function buildServer(options: ServerOptions) {
   if (store !== undefined && (options.ackLinkSecrets?.length ?? 0) > 0) {
     await app.register(ackLinkRoutes, {
       secrets: [...options.ackLinkSecrets!],
-      acknowledge: async (incidentId, by, note) => {
-        await store.applyAction({ kind: 'acknowledge', incidentId, by, now: new Date(), ...(note !== undefined && { note }) });
+      acknowledge: async (incidentId, by, note, context) => {
+        // The signed recipient the link was sent to is recorded beside the name typed on the page.
+        await store.applyAction({ kind: 'acknowledge', incidentId, by, now: new Date(), recipient: context.recipient, credential: `e-mail link to ${context.recipient}`, ...(note !== undefined && { note }) });
       },
       describe: async (incidentId) => {
         const incident = await store.get(incidentId);
@@ -85,6 +128,19 @@ export async function buildServer(options: ServerOptions) {
     });
   }
   return app;
+}
+
+/** Whether the store answers within a second. */
+async function answers(ping: () => Promise<unknown>): Promise<boolean> {
+  let timer: NodeJS.Timeout | undefined;
+  try {
+    await Promise.race([ping(), new Promise((_, reject) => (timer = setTimeout(() => reject(new Error('timeout')), 1000)))]);
+    return true;
+  } catch {
+    return false;
+  } finally {
+    clearTimeout(timer);
+  }
 }
 
 /** The incident as the acknowledgement pages show it. */

@@ -22,7 +22,13 @@ interface ActionBase {
 }
 
 export type IncidentAction =
-  | (ActionBase & { readonly kind: 'acknowledge'; readonly note?: string; readonly recipient?: string })
+  | (ActionBase & {
+      readonly kind: 'acknowledge';
+      readonly note?: string;
+      readonly recipient?: string;
+      /** The credential the action came with ("responder token 3f2a9c1e", "e-mail link to ..."): who it really was, beside the name given. */
+      readonly credential?: string;
+    })
   | (ActionBase & { readonly kind: 'shelve'; readonly until: Date; readonly reason: string })
   | (ActionBase & { readonly kind: 'unshelve' })
   | (ActionBase & { readonly kind: 'resolve'; readonly note: string })
@@ -56,7 +62,14 @@ function record(action: IncidentAction): RecordedAction {
     case 'acknowledge':
       if (action.note !== undefined) checkText('note', action.note, 2000);
       if (action.recipient !== undefined) checkText('recipient', action.recipient, 320);
-      return { kind: 'acknowledge', ...base, ...(action.note !== undefined && { note: action.note }), ...(action.recipient !== undefined && { recipient: action.recipient }) };
+      if (action.credential !== undefined) checkText('credential', action.credential, 400);
+      return {
+        kind: 'acknowledge',
+        ...base,
+        ...(action.note !== undefined && { note: action.note }),
+        ...(action.recipient !== undefined && { recipient: action.recipient }),
+        ...(action.credential !== undefined && { credential: action.credential }),
+      };
     case 'shelve':
       checkText('reason', action.reason, 500);
       if (!(action.until instanceof Date) || Number.isNaN(action.until.getTime())) throw new InputError('until: not a valid time');
@@ -76,5 +89,5 @@ function checkText(field: string, value: unknown, max: number): void {
   if (typeof value !== 'string' || value.trim() === '') throw new InputError(`${field}: required`);
   if (value.length > max) throw new InputError(`${field}: at most ${max} characters`);
   // eslint-disable-next-line no-control-regex
-  if ((field === 'by' || field === 'recipient') && /[\u0000-\u001f\u007f]/.test(value)) throw new InputError(`${field}: must be one line of printable characters`);
+  if ((field === 'by' || field === 'recipient' || field === 'credential') && /[\u0000-\u001f\u007f]/.test(value)) throw new InputError(`${field}: must be one line of printable characters`);
 }

@@ -28,6 +28,8 @@ export interface Acknowledgement {
   readonly note?: string;
   /** Through a signed e-mail link: the address the link was sent to (`by` is the name typed on the page). */
   readonly recipient?: string;
+  /** The credential presented: an API token's role and fingerprint, or the e-mail link and its recipient. */
+  readonly credential?: string;
   /** What was acknowledged: evidence beyond it (a higher severity, a new measurand) withdraws the acknowledgement. */
   readonly severity: Severity;
   readonly measurands: readonly Measurand[];
@@ -87,7 +89,7 @@ export type TimelineEntry =
     }
   | { readonly kind: 'returned'; readonly at: string; readonly sampleId: string }
   | { readonly kind: 'active-again'; readonly at: string; readonly sampleId: string; readonly reopened: boolean }
-  | { readonly kind: 'acknowledged'; readonly at: string; readonly by: string; readonly note?: string; readonly recipient?: string }
+  | { readonly kind: 'acknowledged'; readonly at: string; readonly by: string; readonly note?: string; readonly recipient?: string; readonly credential?: string }
   | { readonly kind: 'unacknowledged'; readonly at: string; readonly reason: string }
   | { readonly kind: 'shelved'; readonly at: string; readonly by: string; readonly until: string; readonly reason: string }
   | { readonly kind: 'unshelved'; readonly at: string; readonly by?: string }
@@ -195,7 +197,7 @@ export interface LoggedAction {
 
 /** An action as the log keeps it (plain JSON). */
 export type RecordedAction =
-  | { readonly kind: 'acknowledge'; readonly incidentId: string; readonly by: string; readonly at: string; readonly note?: string; readonly recipient?: string }
+  | { readonly kind: 'acknowledge'; readonly incidentId: string; readonly by: string; readonly at: string; readonly note?: string; readonly recipient?: string; readonly credential?: string }
   | { readonly kind: 'shelve'; readonly incidentId: string; readonly by: string; readonly at: string; readonly until: string; readonly reason: string }
   | { readonly kind: 'unshelve'; readonly incidentId: string; readonly by?: string; readonly at: string }
   | { readonly kind: 'resolve'; readonly incidentId: string; readonly by: string; readonly at: string; readonly note: string }

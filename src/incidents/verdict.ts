@@ -293,10 +293,18 @@ export function judgeAction(draft: DraftState, action: RecordedAction, rules: In
         at,
         ...(action.note !== undefined && { note: action.note }),
         ...(action.recipient !== undefined && { recipient: action.recipient }),
+        ...(action.credential !== undefined && { credential: action.credential }),
         severity: inc.severity,
         measurands: measurandsOf(inc.evidence),
       };
-      push(inc, { kind: 'acknowledged', at, by: action.by, ...(action.note !== undefined && { note: action.note }), ...(action.recipient !== undefined && { recipient: action.recipient }) });
+      push(inc, {
+        kind: 'acknowledged',
+        at,
+        by: action.by,
+        ...(action.note !== undefined && { note: action.note }),
+        ...(action.recipient !== undefined && { recipient: action.recipient }),
+        ...(action.credential !== undefined && { credential: action.credential }),
+      });
       if (inc.alarm === 'returned') close(inc, { at, how: 'acknowledged-and-returned', by: action.by });
       break;
     }

@@ -4,6 +4,7 @@
  * day ahead of the server clock is a clock or typing error, not a result.
  */
 import { parseResultEvent, type FieldIssue, type ParsedEvent, type Sample } from '../domain/event.ts';
+import { confusableWarnings } from './confusableNames.ts';
 
 export interface ValidationOptions {
   /** The server clock, epoch ms. */
@@ -37,6 +38,10 @@ export interface RecordOutcome {
   readonly sampleId?: string;
   readonly status: 'accepted' | 'rejected';
   readonly errors?: readonly FieldIssue[];
+  /** Accepted, but worth a look: a unit or component name that can be mistaken for another (confusableNames.ts). */
+  readonly warnings?: readonly FieldIssue[];
+  /** Rejected because its sampleId and revision are already stored (or earlier in the request) with other content. */
+  readonly conflict?: boolean;
 }
 
 export interface ValidatedRecord {
@@ -59,7 +64,8 @@ export function validateBatch(records: readonly unknown[], options: ValidationOp
     const parsed = validateResult(event, options);
     if (parsed.ok) {
       accepted.push({ index, event, sample: parsed.sample });
-      outcomes.push({ index, sampleId: parsed.sample.sampleId, status: 'accepted' });
+      const warnings = confusableWarnings(parsed.sample);
+      outcomes.push({ index, sampleId: parsed.sample.sampleId, status: 'accepted', ...(warnings.length > 0 && { warnings }) });
     } else {
       const sampleId = claimedSampleId(event);
       outcomes.push({ index, ...(sampleId !== undefined && { sampleId }), status: 'rejected', errors: parsed.issues });

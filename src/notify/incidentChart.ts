@@ -1,16 +1,17 @@
 /**
  * The trend chart an incident e-mail carries inline: the component's history evaluated as the worker judges
- * it, drawn for the measurand behind the incident (its own measurand, else its most severe finding's).
+ * it, drawn for the measurand behind the incident (its own measurand, else its most severe finding's). Drawn on a
+ * chart thread with a time limit and a sample budget (src/render/chartPool.ts), so a very long history delays no
+ * other job of this process; a chart that cannot be drawn in time is left out of the mail.
  */
-import { chartAltText } from '../charts/altText.ts';
-import { renderChartPng } from '../charts/chartPng.ts';
-import { buildComponentSeries } from '../charts/componentSeries.ts';
-import { renderTrendChart } from '../charts/trendChart.ts';
 import type { Config } from '../domain/config.ts';
 import { severityRank } from '../domain/finding.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
-import { componentView } from '../pipeline/componentView.ts';
 import type { ComponentStore, GroupLedger } from '../pipeline/ports.ts';
+import type { ChartPool } from '../render/chartPool.ts';
+import { runChartJob } from '../render/chartJob.ts';
+import { componentInput } from '../render/componentInput.ts';
+import { sharedChartPool } from '../render/sharedChartPool.ts';
 
 /** Wide enough to read on a desktop client, narrow enough for a phone (the HTML lets it shrink). */
 export const EMAIL_CHART_WIDTH = 600;
@@ -23,13 +24,15 @@ export interface EmailChart {
   readonly alt: string;
 }
 
-export async function incidentChart(store: ComponentStore, ledger: GroupLedger, config: Config, effect: NotifyEffect): Promise<EmailChart | undefined> {
+export async function incidentChart(store: ComponentStore, ledger: GroupLedger, config: Config, effect: NotifyEffect, pool: ChartPool = sharedChartPool()): Promise<EmailChart | undefined> {
   const measurand = effect.incident.measurand ?? [...effect.incident.findings].sort((a, b) => severityRank(b.severity) - severityRank(a.severity))[0]?.measurand;
   if (measurand === undefined) return undefined;
-  const view = await componentView(store, ledger, config, effect.incident);
-  if (view === undefined) return undefined;
-  const series = buildComponentSeries(view.evaluation, view.settings, view.group, { measurands: [measurand] });
-  if (!series.measurands.some((m) => m.measurand === measurand)) return undefined;
-  const svg = renderTrendChart(series, measurand, { width: EMAIL_CHART_WIDTH });
-  return { png: renderChartPng(svg, EMAIL_CHART_WIDTH), width: EMAIL_CHART_WIDTH, alt: chartAltText(series, measurand) };
+  const input = await componentInput(store, ledger, config, effect.incident);
+  if (input === undefined) return undefined;
+  const job = { kind: 'chart', format: 'png', input, measurand, width: EMAIL_CHART_WIDTH, title: true } as const;
+  // A history within the drawing budget is drawn here at once (a fraction of a second); a longer one on the chart
+  // thread, bounded in time, so that it cannot hold up the other jobs of this process.
+  const result = input.samples.length <= pool.sampleBudget ? runChartJob(job, pool.sampleBudget) : await pool.run(job);
+  if (result.kind !== 'png') return undefined;
+  return { png: Buffer.from(result.png), width: EMAIL_CHART_WIDTH, alt: result.alt };
 }

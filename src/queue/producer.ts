@@ -8,6 +8,7 @@ import { connectRedis, type RedisConnection, type RedisTarget } from '../redis/c
 import { Partitions } from '../redis/keys.ts';
 import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from './queues.ts';
 import { validateBatch, type RecordOutcome, type ValidationOptions } from '../intake/validate.ts';
+import { revisionConflicts } from '../redis/revisionConflicts.ts';
 
 export interface ResultProducerOptions extends Pick<QueueSettings, 'prefix' | 'attempts' | 'backoffMs' | 'keepCompleted' | 'keepFailed'> {
   /** A Redis URL (`redis://host:6379/0`), a cluster's seed nodes, or an ioredis connection the caller owns (and closes). */
@@ -60,7 +61,16 @@ export function createResultProducer(options: ResultProducerOptions): ResultProd
   return {
     async add(events) {
       const records = Array.isArray(events) ? events : [events];
-      const { outcomes, accepted } = validateBatch(records, { now: now(), ...(options.maxAheadMs !== undefined && { maxAheadMs: options.maxAheadMs }) });
+      const validated = validateBatch(records, { now: now(), ...(options.maxAheadMs !== undefined && { maxAheadMs: options.maxAheadMs }) });
+      // A sampleId and revision already stored (or earlier in the request) with other content is refused, not lost silently.
+      // Once the connection is ready, as the queue waits for it: a request connection has no offline queue.
+      if (validated.accepted.length > 0) await queues[0]!.waitUntilReady();
+      const conflicts = await revisionConflicts(redis, partitions, validated.accepted);
+      const accepted = validated.accepted.filter((r) => !conflicts.has(r.index));
+      const outcomes = validated.outcomes.map((o) => {
+        const issue = conflicts.get(o.index);
+        return issue === undefined ? o : { index: o.index, ...(o.sampleId !== undefined && { sampleId: o.sampleId }), status: 'rejected' as const, conflict: true, errors: [issue] };
+      });
       // Each result goes to its component's partition (one bulk add per partition).
       const byPartition = new Map<number, typeof accepted>();
       for (const r of accepted) {

@@ -24,7 +24,9 @@ import type { NotificationChannels } from '../channels/openChannels.ts';
 import { startOutboxRelay, type EscalateJobData } from './outboxRelay.ts';
 import { escalateProcessor } from './processors/escalateProcessor.ts';
 import { evaluateProcessor } from './processors/evaluateProcessor.ts';
-import { notifyProcessor } from './processors/notifyProcessor.ts';
+import { FLOOD_SUMMARY_JOB, notifyProcessor } from './processors/notifyProcessor.ts';
+import { DEFAULT_FLOOD_CONTROL } from '../domain/escalationConfig.ts';
+import { FloodLedger } from '../redis/floodLedger.ts';
 import { resultsProcessor } from './processors/resultsProcessor.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from './queues.ts';
 
@@ -133,14 +135,33 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   const channels = deps.channels;
   if (channels !== undefined) {
     workers.push(
-      new Worker(QUEUE_NAMES.notify, notifyProcessor({ store, ledger: store, config: deps.config, channels, apiBaseUrl: deps.apiBaseUrl ?? 'http://localhost:8080', logger }) as Processor, {
+      new Worker(
+        QUEUE_NAMES.notify,
+        notifyProcessor({
+          store,
+          ledger: store,
+          config: deps.config,
+          channels,
+          apiBaseUrl: deps.apiBaseUrl ?? 'http://localhost:8080',
+          logger,
+          flood: {
+            settings: deps.config.channels.floodControl ?? DEFAULT_FLOOD_CONTROL,
+            ledger: new FloodLedger(deps.connection, queueSettings.prefix),
+            now,
+            scheduleSummary: async (data, jobId, delay) => {
+              await notifyQueue.add(FLOOD_SUMMARY_JOB, data as never, { jobId, delay, backoff: { type: 'delivery' } });
+            },
+          },
+        }) as Processor,
+        {
         ...options(partitions.sharedTag(), s.notifyConcurrency),
         settings: {
           // The receiver's Retry-After wins; otherwise exponential backoff with full jitter.
           backoffStrategy: (attemptsMade: number, _type?: string, err?: Error) =>
             delayBeforeNextAttempt({ attempt: Math.max(1, attemptsMade), ...(err instanceof DeliveryRetry && err.retryAfterMs !== undefined && { retryAfterMs: err.retryAfterMs }) }, DEFAULT_BACKOFF, Math.random),
+          },
         },
-      }),
+      ),
     );
   }
 

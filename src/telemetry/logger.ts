@@ -1,9 +1,12 @@
 /**
  * Structured logs (pino, JSON lines on stderr so that stdout stays free for `--json` output).
  * Credentials never reach a log line: authorization headers, tokens, passwords and secrets are redacted
- * wherever they appear in the first few levels of a logged object, and Redis URLs lose their password.
+ * wherever they appear in the first few levels of a logged object, and Redis URLs lose their password. Every line
+ * is also scrubbed as text just before it is written (redactText.ts): acknowledgement-link tokens in URLs, `token=`
+ * query parameters, bearer tokens inside messages and the configured API tokens never reach the output.
  */
 import { pino, type Logger, type LoggerOptions } from 'pino';
+import { redactText, secretsFromEnv } from './redactText.ts';
 
 export type { Logger } from 'pino';
 
@@ -19,6 +22,8 @@ export interface LoggerSettings {
   destination?: NodeJS.WritableStream;
   /** Bound fields on every line, e.g. `{ role: 'worker' }`. */
   base?: Record<string, unknown>;
+  /** Values never to be written, wherever they appear. Default: the API tokens of the environment (auth.ts). */
+  secrets?: readonly string[];
 }
 
 export function createLogger(settings: LoggerSettings = {}): Logger {
@@ -27,8 +32,14 @@ export function createLogger(settings: LoggerSettings = {}): Logger {
     base: { pid: process.pid, ...settings.base },
     redact: { paths: REDACTED_PATHS, censor: '[redacted]' },
     timestamp: pino.stdTimeFunctions.isoTime,
+    hooks: { streamWrite: secretFreeLine(settings.secrets ?? secretsFromEnv()) },
   };
   return pino(options, (settings.destination ?? process.stderr) as pino.DestinationStream);
+}
+
+/** The last step before a line is written: the line with every credential in its text redacted. */
+export function secretFreeLine(known: readonly string[]): (line: string) => string {
+  return (line) => redactText(line, known);
 }
 
 /** A logger that writes nothing, for commands that print their own output and for tests. */

@@ -178,7 +178,7 @@ describe('requests refused as a whole (nothing in them is accepted)', () => {
       expect(payload.length).toBeGreaterThan(LIMIT);
       const res = await post(payload, type);
       expect(res.statusCode).toBe(413);
-      expect(res.json()).toEqual({ error: 'payload-too-large', message: 'the request body exceeds the limit of 256 kB; send the results in smaller batches' });
+      expect(res.json()).toEqual({ error: 'payload-too-large', message: 'the request body exceeds the limit of 256 kB; send the results in smaller batches', maxBytes: LIMIT });
     }
     expect((await storedIds()).size).toBe(before);
   });

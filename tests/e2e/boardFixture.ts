@@ -15,7 +15,7 @@ import { ackSummary } from '../../src/http/server.ts';
 import type { IncidentEffect } from '../../src/incidents/model.ts';
 import { announcingActions, createEventHub, type EventHub } from '../../src/http/eventHub.ts';
 import { incidentEvent } from '../../src/pipeline/liveEvent.ts';
-import { viewOf } from '../../src/pipeline/componentView.ts';
+import { inputOf } from '../../src/render/componentInput.ts';
 import { eventRoutes } from '../../src/http/eventRoutes.ts';
 import { incidentRoutes } from '../../src/http/incidentRoutes.ts';
 import { seriesRoutes } from '../../src/http/seriesRoutes.ts';
@@ -101,11 +101,11 @@ export async function startBoardFixture(components: readonly [string, string][],
   const app = Fastify();
   await app.register(incidentRoutes, { store: announcingActions(store, (e) => hub.publish(e)) });
   await app.register(seriesRoutes, {
-    loadComponent: async (unit, component) => {
+    loadInput: async (unit, component) => {
       const list = samples.get(componentKey({ unit, component }));
       if (list === undefined) return undefined;
       const settings = resolveSettings(config, list[0]!);
-      return viewOf({ unit, component, group: settings.group, samples: list.length, lastSampledAt: list.at(-1)!.sampledAt }, settings, list, () => undefined, marksOf(componentKey({ unit, component })));
+      return inputOf({ unit, component, group: settings.group, samples: list.length, lastSampledAt: list.at(-1)!.sampledAt }, settings, list, () => undefined, marksOf(componentKey({ unit, component })));
     },
   });
   // As the worker does after a verdict: the mark is kept and the component judged again from the start.

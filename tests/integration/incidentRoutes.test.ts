@@ -1,4 +1,5 @@
 /** The incident HTTP API over a real Redis store: roles (RFC 6750 bearer tokens), validation, 404 and 409. */
+import { createHash } from 'node:crypto';
 import Fastify, { type FastifyInstance } from 'fastify';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Step } from '../../src/analysis/model.ts';
@@ -95,7 +96,9 @@ describe('incident routes', () => {
   it('acknowledges, shelves, resolves; acting on a closed incident is a 409', async () => {
     const ack = await app.inject({ method: 'POST', url: `${PATH}/ack`, headers: auth('resp-1'), payload: { by: 'R. Tanaka', note: 'on my way' } });
     expect(ack.statusCode).toBe(200);
-    expect(ack.json().incident.acknowledged).toEqual({ by: 'R. Tanaka', at: NOW.toISOString(), note: 'on my way', severity: 'alarm', measurands: ['Fe'] });
+    // The token that acted is recorded beside the typed name: its role and the first bytes of its SHA-256.
+    const credential = `responder token ${createHash('sha256').update('resp-1').digest('hex').slice(0, 8)}`;
+    expect(ack.json().incident.acknowledged).toEqual({ by: 'R. Tanaka', at: NOW.toISOString(), note: 'on my way', credential, severity: 'alarm', measurands: ['Fe'] });
     const shelve = await app.inject({ method: 'POST', url: `${PATH}/shelve`, headers: auth('resp-1'), payload: { by: 'R. Tanaka', reason: 'oil change booked', until: '2026-04-03T10:00:00Z' } });
     expect(shelve.json().incident.shelved).toMatchObject({ until: '2026-04-03T10:00:00.000Z', reason: 'oil change booked' });
     const resolve = await app.inject({ method: 'POST', url: `${PATH}/resolve`, headers: auth('resp-1'), payload: { by: 'R. Tanaka', note: 'bearing replaced' } });

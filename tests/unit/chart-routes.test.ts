@@ -3,7 +3,7 @@ import { PNG } from 'pngjs';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { seriesRoutes } from '../../src/http/seriesRoutes.ts';
 import { boardRoutes } from '../../src/http/boardRoutes.ts';
-import { viewOf } from '../../src/pipeline/componentView.ts';
+import { inputOf } from '../../src/render/componentInput.ts';
 import { fixtureGroup, fixtureSamples, fixtureSeries, fixtureSettings } from './chart-fixtures.ts';
 
 const saved = { ...process.env };
@@ -17,9 +17,9 @@ beforeAll(async () => {
   process.env.WEARSHIFT_TOKEN_INGEST = 'ingest-1';
   app = Fastify();
   await app.register(seriesRoutes, {
-    loadComponent: async (unit, component) =>
+    loadInput: async (unit, component) =>
       unit === 'PS2-P3' && component === 'gearbox'
-        ? viewOf({ unit, component, group: fixtureSettings().group, samples: fixtureSamples().length, lastSampledAt: '' }, fixtureSettings(), fixtureSamples(), () => fixtureGroup())
+        ? inputOf({ unit, component, group: fixtureSettings().group, samples: fixtureSamples().length, lastSampledAt: '' }, fixtureSettings(), fixtureSamples(), () => fixtureGroup())
         : undefined,
   });
   await app.register(boardRoutes);

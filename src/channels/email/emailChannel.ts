@@ -1,11 +1,24 @@
 /** The e-mail channel: renders the incident message (with its chart and acknowledgement link) and sends it by SMTP. */
 import { ackLinkUrl, signAckLink } from '../../notify/ackLink.ts';
 import { asksForAcknowledgement } from '../../notify/message.ts';
+import { renderFloodSummaryEmail } from './floodSummaryEmail.ts';
+import type { Channels } from '../../domain/escalationConfig.ts';
 import type { ChannelDefinition } from '../channel.ts';
 import { DeliveryRefused, DeliveryRetry } from '../errors.ts';
 import { secretFrom } from '../secrets.ts';
 import { renderIncidentEmail } from './emailRender.ts';
 import { EmailDeliveryError, sendEmail } from './emailSend.ts';
+
+type Smtp = NonNullable<Channels['email']>['smtp'];
+
+function smtpTransport(smtp: Smtp, env: NodeJS.ProcessEnv) {
+  return {
+    host: smtp.host,
+    port: smtp.port,
+    ...(smtp.secure !== undefined && { secure: smtp.secure }),
+    ...(smtp.user !== undefined && { auth: { user: smtp.user, pass: smtp.passwordEnv === undefined ? '' : secretFrom(smtp.passwordEnv, env, 'channels.email.smtp') } }),
+  };
+}
 
 export const emailChannel: ChannelDefinition = {
   configured: (channels) => channels.email !== undefined,
@@ -26,19 +39,21 @@ export const emailChannel: ChannelDefinition = {
               })()
             : {};
         const mail = renderIncidentEmail(message, { from: cfg.from, to: effect.target, ...ack, ...(chart && { chart }), ...(timeZone !== undefined && { timeZone }) });
-        const smtp = cfg.smtp;
         try {
-          const sent = await sendEmail(
-            {
-              host: smtp.host,
-              port: smtp.port,
-              ...(smtp.secure !== undefined && { secure: smtp.secure }),
-              ...(smtp.user !== undefined && { auth: { user: smtp.user, pass: smtp.passwordEnv === undefined ? '' : secretFrom(smtp.passwordEnv, env, 'channels.email.smtp') } }),
-            },
-            mail,
-          );
+          const sent = await sendEmail(smtpTransport(cfg.smtp, env), mail);
           if (sent.accepted.length === 0) throw new DeliveryRefused(`e-mail to ${effect.target}: the server refused the recipient`);
           return `email ${effect.target}: ${sent.messageId}`;
+        } catch (e) {
+          if (e instanceof EmailDeliveryError) throw e.retryable ? new DeliveryRetry(e.message) : new DeliveryRefused(e.message);
+          throw e;
+        }
+      },
+      async deliverSummary(s, _window, _attempt) {
+        const cfg = channels.email;
+        if (cfg === undefined) throw new DeliveryRefused('a flood summary by e-mail, but channels.email is not configured');
+        try {
+          const sent = await sendEmail(smtpTransport(cfg.smtp, env), renderFloodSummaryEmail(s, { from: cfg.from, to: s.target }));
+          return `flood summary by email ${s.target}: ${s.held.length} held back, ${sent.messageId}`;
         } catch (e) {
           if (e instanceof EmailDeliveryError) throw e.retryable ? new DeliveryRetry(e.message) : new DeliveryRefused(e.message);
           throw e;

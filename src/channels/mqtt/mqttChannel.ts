@@ -1,6 +1,7 @@
 /** The MQTT channel: the CloudEvent published to each named broker, one session per broker and process. */
 import { hostname } from 'node:os';
 import { toCloudEvent } from '../../notify/cloudEvent.ts';
+import { floodSummaryEvent } from '../../notify/floodControl.ts';
 import type { ChannelDefinition } from '../channel.ts';
 import { DeliveryRefused, DeliveryRetry } from '../errors.ts';
 import { secretFrom } from '../secrets.ts';
@@ -36,6 +37,15 @@ export const mqttChannel: ChannelDefinition = {
           return `mqtt ${effect.target}: ${topic}`;
         } catch (e) {
           throw new DeliveryRetry(`mqtt ${effect.target}: ${(e as Error).message}`);
+        }
+      },
+      async deliverSummary(s, window) {
+        const target = publisher(s.target);
+        try {
+          const { topic } = await target.publishSummary(floodSummaryEvent(s, window), { signal: AbortSignal.timeout(mqttTimeoutMs) });
+          return `flood summary by mqtt ${s.target}: ${topic}`;
+        } catch (e) {
+          throw new DeliveryRetry(`mqtt ${s.target}: ${(e as Error).message}`);
         }
       },
       async close() {

@@ -41,6 +41,11 @@ export interface MqttPublisherOptions {
 export interface MqttPublisher {
   /** Resolves with the topic once the broker has acknowledged the message; rejects when `signal` aborts first. */
   publish(event: IncidentCloudEvent, options?: { signal?: AbortSignal }): Promise<{ topic: string }>;
+  /**
+   * Publishes an alarm-flood summary (src/notify/floodControl.ts) on the channel's topic template filled with
+   * unit "wearshift", component "flood-summary", group "all", type "flood-summary" and the highest held severity.
+   */
+  publishSummary(event: { id: string; data: { held: readonly { severity: string }[] } }, options?: { signal?: AbortSignal }): Promise<{ topic: string }>;
   readonly connected: boolean;
   /** Waits for in-flight messages when connected; `force` drops them. */
   close(options?: { force?: boolean }): Promise<void>;
@@ -72,35 +77,44 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
       return client.connected;
     },
     async publish(event, publishOptions) {
-      const topic = incidentTopic(template, event.data);
-      const publishOpts: IClientPublishOptions = {
-        qos,
-        retain: options.retain ?? false,
-        ...(protocolVersion === 5 && { properties: { contentType: 'application/cloudevents+json; charset=utf-8' } }),
-      };
-      const signal = publishOptions?.signal;
-      signal?.throwIfAborted();
-      const acknowledged = client.publishAsync(topic, JSON.stringify(event), publishOpts);
-      if (signal === undefined) {
-        await acknowledged;
-      } else {
-        let onAbort: (() => void) | undefined;
-        const aborted = new Promise<never>((_, reject) => {
-          onAbort = () => reject(signal.reason instanceof Error ? signal.reason : new Error('MQTT publish aborted'));
-          signal.addEventListener('abort', onAbort, { once: true });
-        });
-        try {
-          await Promise.race([acknowledged, aborted]);
-        } finally {
-          if (onAbort) signal.removeEventListener('abort', onAbort);
-          // The message stays in the outgoing store and may still go out; receivers de-duplicate on its id.
-          acknowledged.catch(() => undefined);
-        }
-      }
-      return { topic };
+      return send(incidentTopic(template, event.data), event, publishOptions);
+    },
+    async publishSummary(event, publishOptions) {
+      const severities = event.data.held.map((h) => h.severity);
+      const severity = ['alarm', 'caution', 'watch'].find((s) => severities.includes(s)) ?? 'watch';
+      const pseudo = { type: 'flood-summary', incident: { unit: 'wearshift', component: 'flood-summary', group: 'all', severity } } as unknown as IncidentCloudEvent['data'];
+      return send(incidentTopic(template, pseudo), event, publishOptions);
     },
     async close(closeOptions) {
       await client.endAsync(closeOptions?.force ?? false);
     },
   };
+
+  async function send(topic: string, event: unknown, publishOptions: { signal?: AbortSignal } | undefined): Promise<{ topic: string }> {
+    const publishOpts: IClientPublishOptions = {
+      qos,
+      retain: options.retain ?? false,
+      ...(protocolVersion === 5 && { properties: { contentType: 'application/cloudevents+json; charset=utf-8' } }),
+    };
+    const signal = publishOptions?.signal;
+    signal?.throwIfAborted();
+    const acknowledged = client.publishAsync(topic, JSON.stringify(event), publishOpts);
+    if (signal === undefined) {
+      await acknowledged;
+    } else {
+      let onAbort: (() => void) | undefined;
+      const aborted = new Promise<never>((_, reject) => {
+        onAbort = () => reject(signal.reason instanceof Error ? signal.reason : new Error('MQTT publish aborted'));
+        signal.addEventListener('abort', onAbort, { once: true });
+      });
+      try {
+        await Promise.race([acknowledged, aborted]);
+      } finally {
+        if (onAbort) signal.removeEventListener('abort', onAbort);
+        // The message stays in the outgoing store and may still go out; receivers de-duplicate on its id.
+        acknowledged.catch(() => undefined);
+      }
+    }
+    return { topic };
+  }
 }

@@ -1,5 +1,6 @@
 /** The webhook channel: a CloudEvent signed by Standard Webhooks, POSTed to each named endpoint; 410 Gone disables it. */
-import { toCloudEvent } from '../../notify/cloudEvent.ts';
+import { toCloudEvent, type IncidentCloudEvent } from '../../notify/cloudEvent.ts';
+import { floodSummaryEvent } from '../../notify/floodControl.ts';
 import type { ChannelDefinition } from '../channel.ts';
 import { DeliveryRefused, DeliveryRetry } from '../errors.ts';
 import { secretFrom } from '../secrets.ts';
@@ -28,6 +29,17 @@ export const webhookChannel: ChannelDefinition = {
           case 'give-up':
             throw new DeliveryRefused(`${what}: the receiver refused the delivery`);
         }
+      },
+      async deliverSummary(s, window, attempt) {
+        const c = channels.webhooks.find((w) => w.name === s.target);
+        if (c === undefined) throw new DeliveryRefused(`no webhook named "${s.target}" in channels.webhooks`);
+        const endpoint = { url: c.url, secrets: c.secrets.map((x) => secretFrom(x, env, `channels.webhooks ${c.name}`)), timeoutMs: c.timeoutMs };
+        // The delivery signs and posts any CloudEvent; only its id and body are read.
+        const result = await deliverWebhook(endpoint, floodSummaryEvent(s, window) as unknown as IncidentCloudEvent, { now: new Date(), attempt });
+        const what = `flood summary by webhook ${c.name}: ${result.status ?? result.error ?? 'no response'}`;
+        if (result.outcome === 'delivered') return what;
+        if (result.outcome === 'retry') throw new DeliveryRetry(what, result.retryAfterMs);
+        throw new DeliveryRefused(what);
       },
       async close() {},
     };

@@ -15,6 +15,8 @@ import { claimedSampleId, validateResult } from '../../intake/validate.ts';
 import { closeQuietly, connectForCommand, redisUrl } from '../../redis/connection.ts';
 import { redisChoice, writeJsonLine } from '../output.ts';
 import { importLabFile } from './importLabFile.ts';
+import { terminalText } from '../terminalText.ts';
+import { confusableWarnings } from '../../intake/confusableNames.ts';
 
 interface ImportOptions {
   config?: string;
@@ -80,20 +82,29 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
     counts.rejected += 1;
     if (opts.json) return writeJsonLine({ type: 'rejected', line, ...(sampleId !== undefined && { sampleId }), errors: issues });
     for (const i of issues) {
-      const text = `line ${line}${sampleId === undefined ? '' : ` (sampleId ${sampleId})`}: ${i.path || '(record)'}: ${i.reason}`;
+      // Values from the file are echoed in reasons: shown with their control characters escaped, never acted on.
+      const text = terminalText(`line ${line}${sampleId === undefined ? '' : ` (sampleId ${sampleId})`}: ${i.path || '(record)'}: ${i.reason}`);
       if (bar) bar.log(`${text}\n`);
       else process.stderr.write(`${text}\n`);
     }
   };
-  let batch: unknown[] = [];
+  let batch: { line: number; record: unknown }[] = [];
   const flush = async () => {
     if (producer === undefined || batch.length === 0) return;
+    let outcomes;
     try {
-      await producer.add(batch);
+      outcomes = await producer.add(batch.map((b) => b.record));
     } catch (e) {
       throw new InputError(`Redis refused the results after ${counts.enqueued} were enqueued: ${(e as Error).message}. Import the file again once Redis is back: results already stored are recognised and kept once.`);
     }
-    counts.enqueued += batch.length;
+    // The producer may still refuse a record (a correction without a higher revision): reported like any other.
+    outcomes.forEach((o, i) => {
+      if (o.status === 'accepted') counts.enqueued += 1;
+      else {
+        counts.accepted -= 1;
+        report(batch[i]!.line, o.sampleId, o.errors ?? []);
+      }
+    });
     batch = [];
   };
   try {
@@ -104,10 +115,14 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
         const parsed = validateResult(r.record, { now: Date.now() });
         if (parsed.ok) {
           counts.accepted += 1;
+          for (const w of confusableWarnings(parsed.sample)) {
+            if (opts.json) writeJsonLine({ type: 'warning', line: r.line, sampleId: parsed.sample.sampleId, warning: w });
+            else process.stderr.write(terminalText(`line ${r.line} (sampleId ${parsed.sample.sampleId}): warning: ${w.path}: ${w.reason}\n`));
+          }
           // Said in the summary, not guessed silently: a record without oilChanged is taken as "no oil change".
           if (typeof r.record === 'object' && r.record !== null && !('oilChanged' in r.record)) counts.noOilChanged += 1;
           // A dry run keeps nothing: memory stays flat however long the file.
-          if (producer !== undefined) batch.push(r.record);
+          if (producer !== undefined) batch.push({ line: r.line, record: r.record });
           if (batch.length >= batchSize) await flush();
         } else report(r.line, claimedSampleId(r.record), parsed.issues);
       }
@@ -134,8 +149,8 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
   else {
     process.stdout.write(
       opts.dryRun
-        ? `${file}: ${counts.accepted} valid, ${counts.rejected} rejected of ${counts.lines} records (dry run: nothing enqueued)\n`
-        : `${file}: ${counts.enqueued} enqueued, ${counts.rejected} rejected of ${counts.lines} records\n`,
+        ? terminalText(`${file}: ${counts.accepted} valid, ${counts.rejected} rejected of ${counts.lines} records (dry run: nothing enqueued)\n`)
+        : terminalText(`${file}: ${counts.enqueued} enqueued, ${counts.rejected} rejected of ${counts.lines} records\n`),
     );
     if (counts.noOilChanged > 0) {
       process.stdout.write(`${counts.noOilChanged} accepted ${counts.noOilChanged === 1 ? 'record gives' : 'records give'} no oilChanged (empty or missing): taken as no oil change. Write true where the oil was changed.\n`);

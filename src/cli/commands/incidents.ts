@@ -16,6 +16,7 @@ import { RedisIncidents } from '../../redis/redisIncidents.ts';
 import { formatTime, timeZoneNote } from '../../notify/format.ts';
 import { ADVISORY_CAUTION, bySeverity, severityWords } from '../../notify/message.ts';
 import { formatTable, redisChoice, writeJsonLine } from '../output.ts';
+import { terminalText } from '../terminalText.ts';
 
 interface CommonOptions {
   config?: string;
@@ -50,7 +51,7 @@ function printList(list: IncidentSummary[], json: boolean, zone: string): void {
   if (json) return list.forEach((i) => writeJsonLine({ ...i, advisory: ADVISORY_CAUTION }));
   if (list.length === 0) return void process.stdout.write('no incidents match\n');
   const rows = list.map((i) => [i.id, severityWords(i.severity, i.peakSeverity), describeState(i), measurands(i), formatTime(i.openedAt, zone), i.lastSampleId]);
-  process.stdout.write(formatTable(['incident', 'severity', 'state', 'measurands', 'opened (sample)', 'last sample'], rows));
+  process.stdout.write(terminalText(formatTable(['incident', 'severity', 'state', 'measurands', 'opened (sample)', 'last sample'], rows)));
   process.stdout.write(`\n${timeZoneNote(zone)}\n${ADVISORY_CAUTION}\n`);
 }
 
@@ -65,7 +66,7 @@ function entryText(e: TimelineEntry | NotifiedEntry, zone: string): string {
     case 'active-again':
       return `${e.reopened ? 'reopened' : 'active again'} (sample ${e.sampleId})`;
     case 'acknowledged':
-      return `acknowledged by ${e.by}${e.recipient ? ` (link sent to ${e.recipient})` : ''}${e.note ? `: ${e.note}` : ''}`;
+      return `acknowledged by ${e.by}${e.credential ? ` (${e.credential})` : e.recipient ? ` (link sent to ${e.recipient})` : ''}${e.note ? `: ${e.note}` : ''}`;
     case 'unacknowledged':
       return `acknowledgement withdrawn: ${e.reason}`;
     case 'shelved':
@@ -102,7 +103,8 @@ function printIncident(i: Incident, json: boolean, zone: string): void {
     timeZoneNote(zone),
     ADVISORY_CAUTION,
   ];
-  process.stdout.write(`${lines.join('\n')}\n`);
+  // Each line made safe on its own: a line break inside a note or name must not start a line of its own either.
+  process.stdout.write(`${lines.map((l) => terminalText(l).replace(/\n/g, '\\n')).join('\n')}\n`);
 }
 
 type ActionBuilder = (id: string, opts: Record<string, unknown>, now: Date) => IncidentAction;
@@ -114,7 +116,7 @@ function actionCommand(parent: Command, name: string, description: string, confi
     .action(async (id: string, opts: CommonOptions & Record<string, unknown>) => {
       const { incident } = await withStore(opts, (store) => store.applyAction(build(id, opts, new Date())));
       if (opts.json) writeJsonLine(incident);
-      else process.stdout.write(`${incident.id}: ${describeState(incident)}\n`);
+      else process.stdout.write(`${terminalText(incident.id)}: ${describeState(incident)}\n`);
     });
 }
 

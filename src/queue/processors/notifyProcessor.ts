@@ -1,16 +1,27 @@
 /**
  * The notify processor: renders one message (with the trend chart for e-mail) and delivers it over its channel.
- * Failures the receiver may get over are retried with backoff, or after its Retry-After.
+ * Failures the receiver may get over are retried with backoff, or after its Retry-After. Alarm floods are handled
+ * here (src/notify/floodControl.ts): beyond the target's allowance in the window, the message is held back and one
+ * summary job per target and window, delayed to the window's end, lists all it held.
  */
 import { UnrecoverableError, type Job, type Processor } from 'bullmq';
 import { DeliveryRefused } from '../../channels/errors.ts';
 import type { NotificationChannels } from '../../channels/openChannels.ts';
 import type { Config } from '../../domain/config.ts';
 import type { NotifyEffect } from '../../incidents/model.ts';
+import { floodKey, floodWindow, heldMessage, type FloodControlSettings, type FloodTarget } from '../../notify/floodControl.ts';
 import type { ComponentStore, GroupLedger } from '../../pipeline/ports.ts';
+import type { FloodLedger } from '../../redis/floodLedger.ts';
 import type { Logger } from '../../telemetry/logger.ts';
 import { incidentChart } from '../../notify/incidentChart.ts';
 import { incidentMessage } from '../../notify/incidentMessage.ts';
+
+/** The job name of a flood summary on the notify queue. */
+export const FLOOD_SUMMARY_JOB = 'wearshift.flood-summary';
+
+export interface FloodSummaryJob extends FloodTarget {
+  readonly window: number;
+}
 
 export interface NotifyDeps {
   readonly store: ComponentStore;
@@ -19,9 +30,18 @@ export interface NotifyDeps {
   readonly channels: NotificationChannels;
   readonly apiBaseUrl: string;
   readonly logger: Logger;
+  /** Alarm-flood handling; without it every message is delivered. */
+  readonly flood?: {
+    readonly settings: FloodControlSettings;
+    readonly ledger: FloodLedger;
+    /** Adds the summary job (one per target and window: the job id is its key) to run after `delayMs`. */
+    scheduleSummary(job: FloodSummaryJob, jobId: string, delayMs: number): Promise<void>;
+    /** Default `Date.now`. */
+    readonly now?: () => number;
+  };
 }
 
-export function notifyProcessor(deps: NotifyDeps): Processor<NotifyEffect> {
+export function notifyProcessor(deps: NotifyDeps): Processor<NotifyEffect | FloodSummaryJob> {
   // The chart is a help, not the message: a history it cannot draw sends the mail without it.
   const emailChart = async (effect: NotifyEffect) => {
     try {
@@ -31,16 +51,50 @@ export function notifyProcessor(deps: NotifyDeps): Processor<NotifyEffect> {
       return undefined;
     }
   };
-  return async (job: Job<NotifyEffect>) => {
-    const effect = job.data;
-    const samples = (await deps.store.revisions(effect.incident)).map((s) => s.sample);
-    const chart = effect.channel === 'email' ? await emailChart(effect) : undefined;
-    try {
-      return await deps.channels.deliver({ effect, message: incidentMessage(effect, samples, deps.apiBaseUrl), attempt: job.attemptsMade + 1, ...(chart && { chart }) });
-    } catch (e) {
-      // A refusal will come again: no retry (BullMQ's UnrecoverableError); anything else is retried with backoff.
-      if (e instanceof DeliveryRefused) throw new UnrecoverableError(e.message);
-      throw e;
+  return async (job: Job<NotifyEffect | FloodSummaryJob>) => {
+    const flood = deps.flood;
+    if (job.name === FLOOD_SUMMARY_JOB) {
+      if (flood === undefined) return 'flood summary: flood control is off';
+      const data = job.data as FloodSummaryJob;
+      const held = await flood.ledger.held(data, data.window);
+      if (held.length === 0) return 'flood summary: nothing was held back';
+      const length = flood.settings.windowMinutes * 60_000;
+      const summary = {
+        channel: data.channel,
+        target: data.target,
+        window: { from: new Date(data.window * length).toISOString(), until: new Date((data.window + 1) * length).toISOString() },
+        maxMessages: flood.settings.maxMessages,
+        held,
+      };
+      return refusedForGood(() => deps.channels.deliverSummary(summary, data.window, job.attemptsMade + 1));
     }
+    const effect = job.data as NotifyEffect;
+    const samples = (await deps.store.revisions(effect.incident)).map((s) => s.sample);
+    const message = incidentMessage(effect, samples, deps.apiBaseUrl);
+    if (flood !== undefined) {
+      const now = (flood.now ?? Date.now)();
+      const target: FloodTarget = { channel: effect.channel, target: effect.target };
+      const window = floodWindow(now, flood.settings);
+      const position = await flood.ledger.position(target, window.index, effect.key);
+      if (position > flood.settings.maxMessages) {
+        await flood.ledger.hold(target, window.index, effect.key, heldMessage(message, effect.at));
+        // Every held message asks for the summary; the job id makes it one per target and window.
+        await flood.scheduleSummary({ ...target, window: window.index }, `flood-summary-${floodKey(target, window.index)}`, Math.max(0, window.endsAt - now));
+        deps.logger.info({ channel: effect.channel, incidentId: effect.incidentId, position, maxMessages: flood.settings.maxMessages }, 'message held back by alarm-flood control');
+        return `${effect.channel} ${effect.target}: held back (alarm flood: message ${position} of the window, ${flood.settings.maxMessages} allowed); listed in the summary at ${new Date(window.endsAt).toISOString()}`;
+      }
+    }
+    const chart = effect.channel === 'email' ? await emailChart(effect) : undefined;
+    return refusedForGood(() => deps.channels.deliver({ effect, message, attempt: job.attemptsMade + 1, ...(chart && { chart }) }));
   };
+}
+
+/** A refusal will come again: no retry (BullMQ's UnrecoverableError); anything else is retried with backoff. */
+async function refusedForGood(deliver: () => Promise<string>): Promise<string> {
+  try {
+    return await deliver();
+  } catch (e) {
+    if (e instanceof DeliveryRefused) throw new UnrecoverableError(e.message);
+    throw e;
+  }
 }

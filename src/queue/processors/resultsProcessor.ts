@@ -4,6 +4,7 @@
  * behind, which usually finds nothing left to do: the holder evaluates again before letting go.
  */
 import { UnrecoverableError, type Job, type Processor } from 'bullmq';
+import { conflictReason } from '../../redis/revisionConflicts.ts';
 import { InvalidResultError, storeResult } from '../../pipeline/storeResult.ts';
 import { runEvaluation, type EvaluationRunnerDeps } from '../evaluationRunner.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, scheduleEvaluation } from '../queues.ts';
@@ -21,6 +22,11 @@ export function resultsProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_E
       throw e;
     }
     deps.metrics?.stored(stored.outcome.status);
+    if (stored.outcome.status === 'conflict') {
+      // Two different results with one sampleId and revision raced past the intake's check: the first stands, and the
+      // second is a failed job that says why (listed by `wearshift failed`), not a silent success.
+      throw new UnrecoverableError(`${stored.sample.unit} / ${stored.sample.component}: ${conflictReason(stored.sample.sampleId, stored.sample.revision, 'stored')}; this result was not stored`);
+    }
     const { sample } = stored;
     if (stored.outcome.status === 'new' || stored.outcome.status === 'replacement') {
       deps.live?.({ type: 'result', unit: sample.unit, component: sample.component, sampleId: sample.sampleId, sampledAt: sample.sampledAt });

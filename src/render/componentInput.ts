@@ -1,0 +1,37 @@
+/**
+ * What a component's chart or series is computed from, loaded from the store on the request's thread and handed
+ * (structured-cloned) to a chart thread: the component, its settings, its samples, the group statistics of each
+ * sampling month and the responders' marks. The evaluation itself, the costly part, runs on the chart thread.
+ */
+import type { GroupStats, SampleMark } from '../analysis/model.ts';
+import type { Config } from '../domain/config.ts';
+import type { Sample } from '../domain/event.ts';
+import { resolveSettings, type ComponentSettings } from '../domain/settings.ts';
+import { monthOf } from '../pipeline/groupShares.ts';
+import type { ComponentEntry, ComponentRef, ComponentStore, GroupLedger } from '../pipeline/ports.ts';
+
+export interface ComponentInput {
+  readonly entry: ComponentEntry;
+  readonly settings: ComponentSettings;
+  readonly samples: readonly Sample[];
+  /** Group statistics by sampling month ("2026-03"), as of that month. */
+  readonly groups: ReadonlyMap<string, GroupStats | undefined>;
+  readonly marks: ReadonlyMap<string, SampleMark>;
+}
+
+export async function componentInput(store: ComponentStore, ledger: GroupLedger, config: Config, ref: ComponentRef): Promise<ComponentInput | undefined> {
+  const [entry, input] = await Promise.all([store.component(ref), store.evaluationInput(ref)]);
+  if (entry === undefined) return undefined;
+  const settings = resolveSettings(config, entry);
+  const samples = (await store.samplesAfter(ref, null)).map((s) => s.sample);
+  const groups = new Map<string, GroupStats | undefined>();
+  for (const month of new Set(samples.map((s) => monthOf(s.time)))) groups.set(month, await ledger.asOf(settings.group, month, ref));
+  return { entry, settings, samples, groups, marks: input?.marks ?? new Map() };
+}
+
+/** The input from its parts, the group statistics given per sample (tests, fixtures). */
+export function inputOf(entry: ComponentEntry, settings: ComponentSettings, samples: readonly Sample[], groupAt: (s: Sample) => GroupStats | undefined = () => undefined, marks: ReadonlyMap<string, SampleMark> = new Map()): ComponentInput {
+  const groups = new Map<string, GroupStats | undefined>();
+  for (const s of samples) if (!groups.has(monthOf(s.time))) groups.set(monthOf(s.time), groupAt(s));
+  return { entry, settings, samples, groups, marks };
+}
