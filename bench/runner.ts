@@ -11,6 +11,7 @@ import { cpus, loadavg, totalmem } from 'node:os';
 import { parseArgs } from 'node:util';
 import { runDesignCheck } from './designCheck.ts';
 import { runDetection } from './detection.ts';
+import { runEvaluationCost } from './evaluationCost.ts';
 import { jsonLine, renderPart, type PartResult } from './report.ts';
 import { runScaling } from './scaling.ts';
 import { redisServerVersion } from './pipeline.ts';
@@ -42,6 +43,7 @@ export const PARTS: Record<string, Part> = {
   throughput: (o) => runThroughput(o),
   latency: (o) => runLatency(o),
   backfill: (o) => runBackfill(o),
+  'evaluation-cost': (o) => runEvaluationCost(o),
 };
 
 const USAGE = `usage: npm run bench -- [--only NAME]... [--scale S] [--seed N] [--json]

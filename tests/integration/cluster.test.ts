@@ -14,6 +14,7 @@ import { parseConfig } from '../../src/domain/configFile.ts';
 import { describeState } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
+import { hashSlot } from '../../src/redis/hashSlot.ts';
 import { componentKeys, Partitions } from '../../src/redis/keys.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
@@ -148,6 +149,14 @@ describe('two worker processes on a Redis Cluster of 3 masters', () => {
         shardsOfComponents.add(nodeOf(slot));
       }
       expect(shardsOfComponents.size).toBe(3);
+      // The partitions' tags land where the cluster says, four of the twelve on each shard.
+      const partitionsPerShard = [0, 0, 0];
+      for (const p of partitions.all()) {
+        const slot = Number(await redis.cluster('KEYSLOT', partitions.tag(p)));
+        expect(hashSlot(partitions.tag(p))).toBe(slot);
+        partitionsPerShard[nodeOf(slot)]! += 1;
+      }
+      expect(partitionsPerShard).toEqual([4, 4, 4]);
       console.info(`keys per shard: ${perShard.join(', ')}`);
       // No script or multi-key command crossed slots, and no job failed.
       for (const w of workers) expect(w.output()).not.toMatch(/CROSSSLOT|non local key|job failed|worker error/);
