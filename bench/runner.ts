@@ -9,6 +9,7 @@
  */
 import { cpus, loadavg, totalmem } from 'node:os';
 import { parseArgs } from 'node:util';
+import { runCluster } from './cluster.ts';
 import { runDesignCheck } from './designCheck.ts';
 import { runDetection } from './detection.ts';
 import { runEvaluationCost } from './evaluationCost.ts';
@@ -44,6 +45,7 @@ export const PARTS: Record<string, Part> = {
   latency: (o) => runLatency(o),
   backfill: (o) => runBackfill(o),
   'evaluation-cost': (o) => runEvaluationCost(o),
+  cluster: (o) => runCluster(o),
 };
 
 const USAGE = `usage: npm run bench -- [--only NAME]... [--scale S] [--seed N] [--json]
