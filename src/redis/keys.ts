@@ -10,8 +10,8 @@
  * contiguous, near-equal slot ranges (what `redis-cli --cluster create` and rebalancing make) then holds N/shards
  * partitions on each shard, give or take one, instead of the uneven share that tags hashed at random would give.
  *
- * Changing the number of partitions moves every component to another partition: stop the workers, export the
- * histories (`wearshift backfill` of an export, or a Redis migration), and import them again; see the README.
+ * Changing the number of partitions moves most components to another partition: stop the workers and import the
+ * results again from their source files under a new prefix; see the README ("Sharding on Redis Cluster").
  */
 import { createHash } from 'node:crypto';
 import { componentKey } from '../domain/event.ts';
