@@ -55,7 +55,7 @@ export async function runCluster(o: RunOptions): Promise<PartResult> {
     const cpuBefore = worker.cpuSeconds();
     const t0 = performance.now();
     for (let i = 0; i < events.length; i += 500) await producer.add(events.slice(i, i + 500));
-    const end = await drainedAt(queues, [worker], { pollMs: 200 });
+    const end = await drainedAt(queues, [worker], { pollMs: 200, timeoutMs: 3_600_000 });
     const seconds = (end - t0) / 1000;
     const cpu = worker.cpuSeconds() - cpuBefore;
     const work = await Promise.all(nodes.map((n) => redisWork(n)));
