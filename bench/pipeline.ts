@@ -42,6 +42,8 @@ export interface ConfigOptions {
   readonly webhookUrl: string;
   /** Findings on samples older than this many days page nobody. */
   readonly quietAfterDays: number;
+  /** Key partitions (`redis.partitions`). Default 1. */
+  readonly partitions?: number;
 }
 
 /** The worker configuration: iron and copper watched, an iron limit, one escalation tier with a webhook. */
@@ -52,6 +54,7 @@ export function writeConfig(dir: string, o: ConfigOptions): string {
     file,
     `redis:
   prefix: "${o.prefix}"
+  partitions: ${o.partitions ?? 1}
 detection:
   measurands: [Fe, Cu]
   runningInHours: 0
@@ -129,6 +132,11 @@ function child(args: readonly string[], env: NodeJS.ProcessEnv, name: string): C
 /** `node bin/wearshift.js worker` with the given configuration file, logging warnings only. */
 export function startWorkerProcess(redisUrl: string, configFile: string): ChildWorker {
   return child([CLI, 'worker'], { REDIS_URL: redisUrl, WEARSHIFT_CONFIG: configFile, LOG_LEVEL: 'warn' }, 'wearshift worker');
+}
+
+/** The same, on a Redis Cluster named by its seed nodes (REDIS_CLUSTER_NODES). */
+export function startClusterWorkerProcess(seeds: string, configFile: string): ChildWorker {
+  return child([CLI, 'worker'], { REDIS_URL: '', REDIS_CLUSTER_NODES: seeds, WEARSHIFT_CONFIG: configFile, LOG_LEVEL: 'warn' }, 'wearshift worker (cluster)');
 }
 
 /** A BullMQ worker doing nothing with its jobs: the floor any BullMQ pipeline pays per job. */

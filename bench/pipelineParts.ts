@@ -7,8 +7,8 @@
  * - throughput: results per second from the first enqueue until every result is stored, its component evaluated and
  *   the findings fed to the incident store (results and evaluate queues drained, every component's last sample
  *   fed), beside a bare BullMQ worker that does nothing with the same events, for one and two worker processes;
- * - latency: at a steady 200 results/s onto components with history, from enqueue to the evaluation that covered the
- *   result (the evaluate job's completion event) and to the incident's notification job on the `notify` queue;
+ * - latency: at a steady 200 results/s onto components with history, from enqueue to the completion of the result's
+ *   job (stored, and evaluated when the component was free) and to the incident's notification job on the `notify` queue;
  * - backfill: 100 000 old results (quiet: nobody is paged) over 1 000 components: wall time, the worker's peak
  *   resident memory, Redis memory per component.
  */
@@ -329,7 +329,8 @@ export async function runLatency(o: RunOptions): Promise<PartResult> {
       (n < history ? preload : later).push(e);
     }
     const s = await openSession(line, 1, NEVER_QUIET_DAYS);
-    const events = new QueueEvents(QUEUE_NAMES.evaluate, { connection: line.server.client(), prefix: PREFIX });
+    // A result is evaluated in its own results job when its component is free, else by an evaluate job after it.
+    const events = new QueueEvents(QUEUE_NAMES.results, { connection: line.server.client(), prefix: PREFIX });
     try {
       await send(s.producer, preload, 500);
       await drainedAt([s.queues.results, s.queues.evaluate], s.workers);
@@ -337,8 +338,8 @@ export async function runLatency(o: RunOptions): Promise<PartResult> {
       const evaluatedAt = new Map<string, number>();
       events.on('completed', ({ returnvalue }) => {
         const at = Date.now();
-        const value = (typeof returnvalue === 'string' ? JSON.parse(returnvalue) : returnvalue) as { fed?: string[] } | null;
-        for (const id of value?.fed ?? []) if (!evaluatedAt.has(id)) evaluatedAt.set(id, at);
+        const value = (typeof returnvalue === 'string' ? JSON.parse(returnvalue) : returnvalue) as { sampleId?: string } | null;
+        if (value?.sampleId !== undefined && !evaluatedAt.has(value.sampleId)) evaluatedAt.set(value.sampleId, at);
       });
       await events.waitUntilReady();
       const phases: Phase[] = [];
@@ -378,14 +379,14 @@ export async function runLatency(o: RunOptions): Promise<PartResult> {
           columns: ['rate', 'from enqueue to', 'p50 ms', 'p99 ms', 'results', 'evaluations waiting (max)'],
           rows: phases.flatMap((p) => [
             [`${p.rate}/s`, 'notification queued', fmt(p.notification.p50), fmt(p.notification.p99), String(p.notification.count), String(p.backlog.evaluate)],
-            [`${p.rate}/s`, 'evaluation completed', fmt(p.evaluation.p50), fmt(p.evaluation.p99), String(p.evaluation.count), String(p.backlog.evaluate)],
+            [`${p.rate}/s`, 'results job completed', fmt(p.evaluation.p50), fmt(p.evaluation.p99), String(p.evaluation.count), String(p.backlog.evaluate)],
           ]),
         },
         notes: [
           `${components} components holding ${history} results each, then ${phases.map((p) => `${fmt(p.seconds)} s at ${p.rate}/s (achieved ${fmt(p.achievedRate)})`).join(', then ')}; one worker process`,
           `notification queued: the notify job of an incident the result opened, updated or returned (the job's creation time); ` +
             phases.map((p) => `${p.rate}/s: ${Object.entries(p.notificationTypes).map(([t, n]) => `${t} ${n}`).join(', ') || 'none'}`).join('; '),
-          `evaluation completed: the evaluate job that fed the result to the incident engine, as its completion event reaches the producer's process` +
+          `results job completed: the result stored, and evaluated in the same job when its component was free, as the job's completion event reaches the producer's process` +
             (phases.some((p) => p.unmatched > 0) ? `; ${phases.map((p) => p.unmatched).join(' / ')} results matched no completion event` : ''),
           `evaluations waiting: looked at every second; at most one waits per component, so a full queue means the evaluate stage is saturated`,
         ],
@@ -396,6 +397,9 @@ export async function runLatency(o: RunOptions): Promise<PartResult> {
     }
   });
 }
+
+/** Redis bytes of one component's own keys at 100 samples. */
+const COMPONENT_BYTES_TARGET = 40 * 1024;
 
 export async function runBackfill(o: RunOptions): Promise<PartResult> {
   const missing = pipelineMissing();
@@ -420,6 +424,9 @@ export async function runBackfill(o: RunOptions): Promise<PartResult> {
       const behind = await lagging(s.client, events);
       const notifications = (await notifyJobs(s.queues.notify)).length;
       const perComponentBytes = (after - before) / components;
+      // The component's own keys (MEMORY USAGE summed over them), per component: the storage target.
+      const componentKeysBytes = (keys.c ?? 0) / components;
+      const storageMet = componentKeysBytes <= COMPONENT_BYTES_TARGET;
       return {
         name: 'backfill',
         json: {
@@ -432,17 +439,20 @@ export async function runBackfill(o: RunOptions): Promise<PartResult> {
           redisUsedMemoryDeltaMb: round((after - before) / 2 ** 20),
           redisBytesPerComponent: round(perComponentBytes),
           redisBytesByKind: keys,
+          componentKeysBytes: round(componentKeysBytes),
+          storageTarget: { componentKeysBytesAtMost: COMPONENT_BYTES_TARGET, met: storageMet },
           notificationsQueued: notifications,
           componentsNotFullyEvaluated: behind,
         },
         table: {
-          columns: ['results', 'components', 'wall s', 'results/s', 'worker peak RSS MB', 'Redis KB / component'],
-          rows: [[String(events.length), String(components), fmt(seconds), fmt(events.length / seconds), fmt(peakRssKb / 1024), fmt(perComponentBytes / 1024)]],
+          columns: ['results', 'components', 'wall s', 'results/s', 'worker peak RSS MB', 'Redis KB / component', 'own keys KB / component'],
+          rows: [[String(events.length), String(components), fmt(seconds), fmt(events.length / seconds), fmt(peakRssKb / 1024), fmt(perComponentBytes / 1024), fmt(componentKeysBytes / 1024)]],
         },
         notes: [
           `${perComponent} results per component over ${fmt((perComponent * 250) / 8760)} years of operation, all older than 90 days (quiet: ${notifications} notifications), enqueued in batches of 1000 while one worker process runs`,
           `wall time: first enqueue to results and evaluate queues drained; every component's last sample fed: ${behind === 0 ? 'yes' : `NO, ${behind} behind`}`,
           `worker peak RSS: VmHWM of the worker process; Redis: INFO used_memory after − before, per component`,
+          `a component's own keys (c:…, MEMORY USAGE) at ${perComponent} samples: ${fmt(componentKeysBytes / 1024)} KB; target ≤ ${COMPONENT_BYTES_TARGET / 1024} KB: ${storageMet ? 'MET' : 'MISSED'}`,
           `Redis by key kind (MEMORY USAGE, KB per component): ${Object.entries(keys)
             .map(([k, b]) => `${k} ${fmt(b / 1024 / components)}`)
             .join(', ')}`,

@@ -9,9 +9,11 @@
  */
 import { cpus, loadavg, totalmem } from 'node:os';
 import { parseArgs } from 'node:util';
+import { runCluster } from './cluster.ts';
 import { runDesignCheck } from './designCheck.ts';
 import { runDetection } from './detection.ts';
 import { runForecast } from './forecast.ts';
+import { runEvaluationCost } from './evaluationCost.ts';
 import { jsonLine, renderPart, type PartResult } from './report.ts';
 import { runQuiet } from './quiet.ts';
 import { runScaling } from './scaling.ts';
@@ -46,6 +48,8 @@ export const PARTS: Record<string, Part> = {
   throughput: (o) => runThroughput(o),
   latency: (o) => runLatency(o),
   backfill: (o) => runBackfill(o),
+  'evaluation-cost': (o) => runEvaluationCost(o),
+  cluster: (o) => runCluster(o),
 };
 
 const USAGE = `usage: npm run bench -- [--only NAME]... [--scale S] [--seed N] [--json]

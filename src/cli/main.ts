@@ -24,7 +24,7 @@ export function buildProgram(): Command {
   const program = new Command('wearshift')
     .description('Early warnings from used-oil analysis: wear-rate change detection beside classic limits, incidents and escalation.')
     .version(packageVersion(), '-V, --version', 'print the version of wearshift')
-    .addHelpText('after', `\nEnvironment: REDIS_URL, WEARSHIFT_CONFIG, PORT, WEARSHIFT_TOKEN_INGEST, WEARSHIFT_TOKEN_RESPONDER, WEARSHIFT_TOKEN_VIEWER.\n\n${CAUTION}`)
+    .addHelpText('after', `\nEnvironment: REDIS_URL, REDIS_CLUSTER_NODES (host:port,… of a Redis Cluster), WEARSHIFT_CONFIG, PORT, WEARSHIFT_TOKEN_INGEST, WEARSHIFT_TOKEN_RESPONDER, WEARSHIFT_TOKEN_VIEWER.\n\n${CAUTION}`)
     .showHelpAfterError()
     .exitOverride();
   // What an engineer runs first; the tools for people who change wearshift itself come last.

@@ -39,6 +39,9 @@ export function describeTarget(t: RedisTarget): string {
 
 export type ConnectionRole = 'worker' | 'request';
 
+/** How long a cluster client waits for the slot map (CLUSTER SLOTS); ioredis's 1 s fails on a busy node. */
+export const SLOTS_REFRESH_TIMEOUT_MS = 5000;
+
 function roleOptions(role: ConnectionRole): RedisOptions {
   return role === 'worker'
     ? { maxRetriesPerRequest: null, enableReadyCheck: true }
@@ -56,6 +59,7 @@ export function connectRedis(target: string | RedisTarget, role: ConnectionRole,
           redisOptions: options,
           clusterRetryStrategy: retryStrategy,
           enableReadyCheck: true,
+          slotsRefreshTimeout: SLOTS_REFRESH_TIMEOUT_MS,
           // BullMQ needs this for workers; requests fail fast through redisOptions.
           ...(role === 'worker' && { enableOfflineQueue: true }),
           ...(role === 'request' && { enableOfflineQueue: false }),
@@ -100,7 +104,7 @@ export async function checkEvictionPolicy(redis: RedisConnection, logger: Logger
 export async function connectForCommand(target: string | RedisTarget): Promise<RedisConnection> {
   const t: RedisTarget = typeof target === 'string' ? { kind: 'single', url: target } : target;
   if (t.kind === 'cluster') {
-    const cluster = new Cluster([...t.nodes], { lazyConnect: true, redisOptions: { maxRetriesPerRequest: 1, connectTimeout: 3000 }, clusterRetryStrategy: () => null });
+    const cluster = new Cluster([...t.nodes], { lazyConnect: true, slotsRefreshTimeout: SLOTS_REFRESH_TIMEOUT_MS, redisOptions: { maxRetriesPerRequest: 1, connectTimeout: 3000 }, clusterRetryStrategy: () => null });
     cluster.on('error', () => {});
     try {
       await cluster.connect();

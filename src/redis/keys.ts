@@ -5,11 +5,17 @@
  * spreads the partitions over its shards. With one partition (the default) the tag is the configured prefix itself
  * (`{wearshift}`), as on a single Redis.
  *
- * Changing the number of partitions moves every component to another partition: stop the workers, export the
- * histories (`wearshift backfill` of an export, or a Redis migration), and import them again; see the README.
+ * The tag of partition p is chosen so that its hash slot lies in the p-th of N equal slices of the 16 384 slots
+ * (`{wearshift/p}`, or `{wearshift/p-k}` with the least k that lands there). A cluster whose shards serve
+ * contiguous, near-equal slot ranges (what `redis-cli --cluster create` and rebalancing make) then holds N/shards
+ * partitions on each shard, give or take one, instead of the uneven share that tags hashed at random would give.
+ *
+ * Changing the number of partitions moves most components to another partition: stop the workers and import the
+ * results again from their source files under a new prefix; see the README ("Sharding on Redis Cluster").
  */
 import { createHash } from 'node:crypto';
 import { componentKey } from '../domain/event.ts';
+import { crc16, crc16Byte, HASH_SLOTS, hashSlot } from './hashSlot.ts';
 
 export const DEFAULT_PREFIX = '{wearshift}';
 
@@ -27,6 +33,7 @@ function inner(prefix: string): string {
 export class Partitions {
   readonly count: number;
   private readonly prefix: string;
+  private readonly tags: string[] = [];
 
   constructor(prefix: string = DEFAULT_PREFIX, count = 1) {
     if (!(Number.isInteger(count) && count >= 1 && count <= 1024)) throw new RangeError(`partitions must be a whole number from 1 to 1024, got ${count}`);
@@ -36,7 +43,8 @@ export class Partitions {
 
   /** The hash tag of partition `p` (the configured prefix when there is one partition). */
   tag(p: number): string {
-    return this.count === 1 ? this.prefix : `{${inner(this.prefix)}/${p}}`;
+    if (this.count === 1) return this.prefix;
+    return (this.tags[p] ??= alignedTag(inner(this.prefix), p, this.count));
   }
 
   /** The partition of a component: stable for its identity. */
@@ -53,6 +61,24 @@ export class Partitions {
   /** The tag of queues that are not partitioned (notifications, escalations). */
   sharedTag(): string {
     return this.count === 1 ? this.prefix : `{${inner(this.prefix)}/shared}`;
+  }
+}
+
+/** `{name/p}` or `{name/p-k}`: the first whose slot falls in the p-th of `count` equal slices of the slot space. */
+export function alignedTag(name: string, p: number, count: number): string {
+  if (!(Number.isInteger(p) && p >= 0 && p < count)) throw new RangeError(`partition ${p} is not one of 0…${count - 1}`);
+  const from = Math.ceil((p * HASH_SLOTS) / count);
+  const to = Math.ceil(((p + 1) * HASH_SLOTS) / count);
+  const plain = `{${name}/${p}}`;
+  const inSlice = (slot: number) => slot >= from && slot < to;
+  if (inSlice(hashSlot(plain))) return plain;
+  // The CRC of "name/p-" once, then only the digits of k (about `count` tries on average).
+  const head = crc16(Buffer.from(`${name}/${p}-`, 'utf8'));
+  for (let k = 1; ; k++) {
+    const digits = String(k);
+    let crc = head;
+    for (let i = 0; i < digits.length; i++) crc = crc16Byte(crc, digits.charCodeAt(i));
+    if (inSlice(crc % HASH_SLOTS)) return `{${name}/${p}-${k}}`;
   }
 }
 

@@ -33,6 +33,7 @@ import type {
 } from '../pipeline/ports.ts';
 import { decodeSample, encodeSample } from '../pipeline/sampleCodec.ts';
 import type { RedisConnection } from './connection.ts';
+import { compactText, expandText } from './compactText.ts';
 import { componentKeys, groupKeys, partitionKeys, Partitions } from './keys.ts';
 import { COMMIT_EVALUATION, MARK_DIRTY, MARK_SAMPLE, RELEASE_LOCK, RENEW_LOCK, STORE_SAMPLE } from './scripts.ts';
 
@@ -208,7 +209,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
       entry: entryOf(JSON.parse(head) as RegistryHead, count, last),
       mark: Number(mark ?? 0),
       ...(dirty !== null && dirty !== undefined && { dirtyFrom: parsePosition(dirty) }),
-      ...(latest !== null && latest !== undefined && { latest: JSON.parse(latest) as Checkpoint }),
+      ...(latest !== null && latest !== undefined && { latest: JSON.parse(expandText(latest)) as Checkpoint }),
       marks: new Map(Object.entries(JSON.parse(marks ?? '{}') as Record<string, SampleMark>)),
       incidents: incidents === null || incidents === undefined ? emptyComponentIncidents(ref.unit, ref.component) : (JSON.parse(incidents) as ComponentIncidents),
       incidentsVersion: Number(version ?? 0),
@@ -227,7 +228,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
     }
     if (best === undefined) return undefined;
     const json = await this.redis.hget(c.evaluation, best.field);
-    return json === null ? undefined : (JSON.parse(json) as Checkpoint);
+    return json === null ? undefined : (JSON.parse(expandText(json)) as Checkpoint);
   }
 
   async acquire(ref: ComponentRef, ttlMs: number): Promise<Lease | undefined> {
@@ -250,10 +251,10 @@ export class RedisStore implements ComponentStore, GroupLedger {
     const g = groupKeys(tag, commit.group);
     const settings = resolveSettings(this.config, { unit: ref.unit, component: ref.component, group: commit.group });
     const payload = {
-      latest: JSON.stringify(commit.latest),
-      sparse: commit.sparse.map((cp) => [`cp|${String(cp.count).padStart(10, '0')}|${positionText(cp.position!)}`, JSON.stringify(cp)]),
+      latest: compactText(JSON.stringify(commit.latest)),
+      sparse: commit.sparse.map((cp) => [`cp|${String(cp.count).padStart(10, '0')}|${positionText(cp.position!)}`, compactText(JSON.stringify(cp))]),
       rewound: commit.rewoundTo === undefined ? '' : commit.rewoundTo === null ? 'start' : positionText(commit.rewoundTo),
-      steps: commit.steps.map((s) => [`${String(Date.parse(s.sampledAt)).padStart(15, '0')}|${s.sampleId}`, s.findings.length === 0 && s.status === undefined ? '' : JSON.stringify(s)]),
+      steps: commit.steps.map((s) => [`${String(Date.parse(s.sampledAt)).padStart(15, '0')}|${s.sampleId}`, s.findings.length === 0 && s.status === undefined ? '' : compactText(JSON.stringify(s))]),
       limit: this.findingsLogLimit,
       shares: commit.shares.map((s) => [s.sampleId, s.values === null ? '' : `${s.month};${Object.entries(s.values).map(([f, v]) => `${f}=${v}`).join(',')}`]),
       baselines: Object.fromEntries(
@@ -310,7 +311,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
     const all = await this.redis.hgetall(c.steps);
     return Object.keys(all)
       .sort()
-      .map((k) => JSON.parse(all[k]!) as StepRecord);
+      .map((k) => JSON.parse(expandText(all[k]!)) as StepRecord);
   }
 
   async incidentsOpenedAfter(ref: ComponentRef, position: StepPosition | null): Promise<Incident[]> {

@@ -12,7 +12,7 @@ import type { FieldIssue } from '../../domain/event.ts';
 import { formatOf, readRecordFile } from '../../intake/fileRecords.ts';
 import { createResultProducer, type ResultProducer } from '../../queue/producer.ts';
 import { claimedSampleId, validateResult } from '../../intake/validate.ts';
-import { closeQuietly, connectForCommand, redisUrl } from '../../redis/connection.ts';
+import { closeQuietly, connectForCommand, redisTarget, type RedisTarget } from '../../redis/connection.ts';
 import { redisChoice, writeJsonLine } from '../output.ts';
 import { importLabFile } from './importLabFile.ts';
 import { terminalText } from '../terminalText.ts';
@@ -60,7 +60,7 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
       batchSize,
       show,
       now: Date.now(),
-      connect: () => connectProducer(redisUrl(config), config.redis.prefix),
+      connect: () => connectProducer(redisTarget(config), config.redis.prefix, config.redis.partitions),
     });
   }
   const format = formatOf(file, opts.format);
@@ -73,7 +73,7 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
   const config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
   const redis = opts.dryRun ? undefined : redisChoice(config);
   if (redis !== undefined && !opts.json) process.stderr.write(`wearshift: ${redis}\n`);
-  const producer = opts.dryRun ? undefined : await connectProducer(redisUrl(config), config.redis.prefix);
+  const producer = opts.dryRun ? undefined : await connectProducer(redisTarget(config), config.redis.prefix, config.redis.partitions);
   const { records, stream } = readRecordFile(file, format);
   const bar = process.stderr.isTTY && !opts.json ? new MultiBar({ format: ' {bar} {percentage}% | {value}/{total} bytes | {accepted} accepted, {rejected} rejected', hideCursor: true, stream: process.stderr }, Presets.shades_classic) : undefined;
   const progress = bar?.create(size, 0, { accepted: 0, rejected: 0 });
@@ -159,11 +159,11 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
   return counts.rejected > 0 ? 1 : 0;
 }
 
-async function connectProducer(url: string, prefix: string): Promise<ResultProducer> {
-  const redis = await connectForCommand(url).catch((e: Error) => {
+async function connectProducer(target: RedisTarget, prefix: string, partitions: number): Promise<ResultProducer> {
+  const redis = await connectForCommand(target).catch((e: Error) => {
     throw new InputError(`${e.message}; use --dry-run to validate without Redis`);
   });
-  const producer = createResultProducer({ connection: redis, prefix });
+  const producer = createResultProducer({ connection: redis, prefix, partitions });
   return {
     add: (events) => producer.add(events),
     async close() {

@@ -1,11 +1,11 @@
-/** `wearshift worker`: the queue workers only; run as many as the load needs, on any machines, against one Redis. */
+/** `wearshift worker`: the queue workers only; run as many as the load needs, on any machines, against one Redis or one Redis Cluster. */
 import type { Command } from 'commander';
 import { runService, type ServiceCommandOptions } from '../../runtime/runService.ts';
 
 export function registerWorker(program: Command): void {
   program
     .command('worker')
-    .description('run the queue workers only (results, evaluate, notify, escalate); several may share one Redis')
+    .description('run the queue workers only (results, evaluate, notify, escalate); several may share one Redis or Redis Cluster (REDIS_CLUSTER_NODES)')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--metrics-port <n>', 'also serve /healthz, /readyz and /metrics on this port')
     .option('--shutdown-timeout <seconds>', 'longest wait for active jobs and connections at shutdown', '10')
