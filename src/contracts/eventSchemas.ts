@@ -7,6 +7,7 @@ import { SEVERITIES } from '../domain/finding.ts';
 import { INCIDENT_MESSAGE_TYPES } from '../notify/message.ts';
 
 const isoTime = z.string().describe('RFC 3339 date-time.');
+const forecastTime = z.object({ oilHours: z.number(), hoursFromNow: z.number(), date: z.string().optional() }).strict();
 
 export const IncidentMessageSchema = z
   .object({
@@ -17,12 +18,14 @@ export const IncidentMessageSchema = z
         unit: z.string(),
         component: z.string(),
         group: z.string(),
-        severity: z.enum(SEVERITIES),
+        severity: z.enum(SEVERITIES).describe('The highest severity of the current evidence.'),
+        peakSeverity: z.enum(SEVERITIES).describe('The highest severity the incident has reached.'),
         state: z.string().describe('In words, e.g. "active, unacknowledged".'),
         openedAt: isoTime,
         acknowledgedBy: z.string().optional(),
         tier: z.number().int().min(0).describe('Escalation tier reached; 0 before the first escalation.'),
-        url: z.string().describe("The incident's address in the API or on the board."),
+        url: z.string().describe("The incident's page on the board."),
+        apiUrl: z.string().describe("The incident's address in the JSON API."),
       })
       .strict(),
     findings: z.array(
@@ -40,9 +43,33 @@ export const IncidentMessageSchema = z
         })
         .strict(),
     ),
+    forecast: z
+      .object({
+        caution: z.string().describe('A forecast assumes the present rate continues.'),
+        items: z.array(
+          z
+            .object({
+              measurand: z.string(),
+              severity: z.string(),
+              source: z.string().describe('fixed, population or condition.'),
+              side: z.enum(['above', 'below']),
+              level: z.number(),
+              outcome: z.string().describe('crossing, after-oil-change or not-enough-history.'),
+              text: z.string(),
+              central: forecastTime.optional(),
+              early: forecastTime.optional().describe('10th percentile.'),
+              late: forecastTime.optional().describe('90th percentile.'),
+            })
+            .strict(),
+        ),
+      })
+      .strict()
+      .optional()
+      .describe('Time-to-limit forecasts of the evidence measurands; absent when forecasts are disabled.'),
     recentResults: z.array(z.object({ sampleId: z.string(), sampledAt: isoTime, oilHours: z.number().optional(), readings: z.record(z.string(), z.string()) }).strict()).describe('The last few results, newest last.'),
     whatChanged: z.string().describe('One sentence of what changed.'),
     idempotencyKey: z.string().min(1).describe('The same key means the same message.'),
+    advisory: z.string().describe('The tool advises; the lab, the equipment maker, local codes and licensed practice decide.'),
   })
   .strict();
 

@@ -160,7 +160,7 @@ describe('alarm flood', () => {
     }
     // The summary says what happened and keeps the advisory caution.
     expect(summaryTexts[0]).toMatch(/^Alarm flood: \d+ more incident messages on \d+ components held back \(\d+ alarms\)/);
-    expect(summaryTexts[0]).toContain('https://wearshift.waterworks.example/v1/incidents/');
+    expect(summaryTexts[0]).toContain('https://wearshift.waterworks.example/incidents/');
     expect(summaryTexts[0]).toContain('wearshift advises');
   }, 6 * 60_000);
 });

@@ -106,8 +106,8 @@ async function rejectedBeside(bad: unknown, path: string, reason: RegExp): Promi
 
 describe('records that are wrong in themselves', () => {
   it('wrong types name the field', async () => {
-    await rejectedBeside(valid({ sampleId: 123 }), 'sampleId', /expected string, received number/);
-    await rejectedBeside(valid({ oilChanged: 'yes' }), 'oilChanged', /expected boolean/);
+    await rejectedBeside(valid({ sampleId: 123 }), 'sampleId', /sampleId must be text/);
+    await rejectedBeside(valid({ oilChanged: 'yes' }), 'oilChanged', /oilChanged must be true or false/);
     await rejectedBeside(valid({ unitHours: '250' }), 'unitHours', /expected number, received string/);
     await rejectedBeside(valid({ readings: [10, 12] }), 'readings', /expected record, received array/);
     await rejectedBeside(valid({ readings: { Fe: { value: 10 } } }), 'readings.Fe', /expected a finite number, a censored value/);

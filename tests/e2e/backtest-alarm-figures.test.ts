@@ -126,6 +126,6 @@ describe('wearshift backtest: alarm-management key figures', () => {
     expect(html).toContain('id="alarm-figures"');
     expect(html).toContain('email:north@plant.example');
     expect(html).toMatch(/ISA-18\.2/);
-    expect(html).toContain('does not replace the laboratory');
+    expect(html).toContain('the equipment maker&#39;s limits');
   });
 });

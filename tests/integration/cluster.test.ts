@@ -93,7 +93,8 @@ describe('two worker processes on a Redis Cluster of 3 masters', () => {
       }
 
       const first = await runCli(['import', file, '--config', configFile], env, 120_000);
-      expect(first.stderr).toBe('');
+      // The only line on stderr says which Redis the import writes to: the cluster, named by REDIS_CLUSTER_NODES.
+      expect(first.stderr.trim().split('\n')).toEqual([expect.stringMatching(/^wearshift: Redis cluster .*\(REDIS_CLUSTER_NODES\)/)]);
       expect(first.code).toBe(0);
       expect(first.stdout).toContain(`${UNITS * SAMPLES} enqueued`);
       // A redelivery of every record while the first copies are being processed.

@@ -141,7 +141,10 @@ describe('forecast in the analysis core', () => {
     expect(first.measurands[0]!.status).toBe('not-enough-history');
     expect(first.measurands[0]!.limits[0]!.text).toMatch(/^Fe: not enough history to forecast \(.+\)\.$/);
     const last = samples.at(-1)!;
-    const censored: Sample = { ...last, readings: { ...last.readings, Fe: { kind: 'censored', bound: 'below', limit: 5 } } };
+    // "<x" at about the reading it replaces: below the lab's reporting range, not a fall a sampling check would flag.
+    const before = last.readings.Fe;
+    const near = before !== undefined && before.kind === 'value' ? Math.ceil(before.value) + 1 : 5;
+    const censored: Sample = { ...last, readings: { ...last.readings, Fe: { kind: 'censored', bound: 'below', limit: near } } };
     const f = forecastComponent(evaluateComponent([...samples.slice(0, -1), censored], settings).state, settings, undefined, { measurands: ['Fe'] });
     expect(f.measurands[0]!.status).toBe('not-enough-history');
     expect(f.measurands[0]!.reason).toContain('censored');

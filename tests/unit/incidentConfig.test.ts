@@ -1,13 +1,14 @@
 /** The `incidents`, `escalation` and `channels` configuration sections: defaults and clear errors. */
 import { describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
+import { DEFAULT_FLOOD_CONTROL } from '../../src/domain/escalationConfig.ts';
 
 describe('incident and escalation configuration', () => {
   it('defaults to component scope, return after 2 clean samples, reopen within 3, no policies', () => {
     const c = parseConfig('');
     expect(c.incidents).toEqual({ scope: 'component', returnAfterSamples: 2, reopenWithinSamples: 3, maxShelveHours: 168 });
     expect(c.escalation.policies).toEqual([]);
-    expect(c.channels).toEqual({ webhooks: [], mqtt: [] });
+    expect(c.channels).toEqual({ webhooks: [], mqtt: [], floodControl: DEFAULT_FLOOD_CONTROL });
   });
 
   it('accepts a complete example', () => {
