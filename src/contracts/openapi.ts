@@ -7,6 +7,7 @@
 import { z } from 'zod';
 import { ResultEventSchema } from '../domain/event.ts';
 import { IncidentFilterSchema } from '../incidents/listFilter.ts';
+import { VerdictBodySchema } from '../http/sampleVerdictRoutes.ts';
 import { INCIDENT_ACTION_BODIES } from '../http/incidentRoutes.ts';
 import { ErrorBodySchema, HealthSchema, IncidentEnvelopeSchema, IncidentListSchema, ResultOutcomesSchema, SeriesSchema } from './responseSchemas.ts';
 
@@ -127,6 +128,22 @@ export function openApiDocument(): Json {
           responses: { '200': { description: 'The series.', content: json('Series') }, '400': error('Unknown measurand.'), ...AUTH_ERRORS, '404': error('No such component.') },
         },
       },
+      '/v1/units/{unit}/components/{component}/samples/{sampleId}/verdict': {
+        post: {
+          operationId: 'judgeSample',
+          summary: 'A responder\u2019s word on a sample a sampling finding put in doubt: confirmed (back into the trend), rejected (kept out), or withdrawn; the component is evaluated again from it.',
+          tags: ['components'],
+          security: [{ bearer: ['responder'] }],
+          parameters: [...component, { name: 'sampleId', in: 'path', required: true, schema: { type: 'string' } }],
+          requestBody: { required: true, content: json('VerdictBody') },
+          responses: {
+            '202': { description: 'The verdict taken.', content: { 'application/json': { schema: { type: 'object', properties: { unit: { type: 'string' }, component: { type: 'string' }, sampleId: { type: 'string' }, verdict: { type: 'string' }, by: { type: 'string' } }, required: ['unit', 'component', 'sampleId', 'verdict', 'by'] } } } },
+            '400': error('A field is missing or invalid.'),
+            ...AUTH_ERRORS,
+            '404': error('The component holds no such sample.'),
+          },
+        },
+      },
       '/v1/units/{unit}/components/{component}/chart.svg': {
         get: {
           operationId: 'getChartSvg',
@@ -175,6 +192,7 @@ export function openApiDocument(): Json {
         Series: schemaOf(SeriesSchema, 'output'),
         Health: schemaOf(HealthSchema, 'output'),
         Error: schemaOf(ErrorBodySchema, 'output'),
+        VerdictBody: schemaOf(VerdictBodySchema, 'input'),
         ...Object.fromEntries(Object.entries(INCIDENT_ACTION_BODIES).map(([verb, s]) => [`${verb[0]!.toUpperCase()}${verb.slice(1)}Body`, schemaOf(s, 'input')])),
       },
     },
