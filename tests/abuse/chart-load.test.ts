@@ -13,6 +13,7 @@ import { ChartPool } from '../../src/render/chartPool.ts';
 import { inputOf, type ComponentInput } from '../../src/render/componentInput.ts';
 import { CONFIG } from '../unit/chart-fixtures.ts';
 import { sample, settingsFrom } from '../unit/history-fixtures.ts';
+import { healthProbe } from '../helpers/healthProbe.ts';
 
 const TIME_LIMIT_MS = 5000;
 const HEALTHZ_MAX_MS = 1000;
@@ -60,38 +61,11 @@ afterAll(async () => {
   await patient?.close();
 });
 
-function healthProbe() {
-  let stopped = false;
-  let slowest = 0;
-  let answered = 0;
-  const failures: string[] = [];
-  const done = (async () => {
-    while (!stopped) {
-      const t0 = performance.now();
-      try {
-        const res = await fetch(`${base}/healthz`, { signal: AbortSignal.timeout(30_000) });
-        if (res.status !== 200) failures.push(`status ${res.status}`);
-        await res.text();
-        answered++;
-      } catch (e) {
-        failures.push((e as Error).message);
-      }
-      slowest = Math.max(slowest, performance.now() - t0);
-      await new Promise((r) => setTimeout(r, 50));
-    }
-  })();
-  return {
-    async stop() {
-      stopped = true;
-      await done;
-      return { slowest, answered, failures };
-    },
-  };
-}
+const startProbe = () => healthProbe(base, 50);
 
 describe('chart rendering under load', () => {
   it('answers for a 50 000-sample history within the time limit while /healthz keeps answering', async () => {
-    const probe = healthProbe();
+    const probe = startProbe();
     const rssBefore = process.memoryUsage().rss;
     const t0 = performance.now();
     for (const format of ['svg', 'png']) {

@@ -22,6 +22,7 @@ import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { createLogger } from '../../src/telemetry/logger.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { healthProbe } from '../helpers/healthProbe.ts';
 
 const prefix = '{hostile}';
 const TOKENS = { ingest: 'ingest-hostile-5d1c2e8a', responder: 'responder-hostile-9b3f7a61', viewer: 'viewer-hostile-27c4e0d9' };
@@ -125,35 +126,7 @@ afterAll(async () => {
 
 const auth = (role: keyof typeof TOKENS) => ({ authorization: `Bearer ${TOKENS[role]}` });
 
-/** Polls /healthz every 100 ms until stopped; every probe must answer 200. Returns the slowest answer. */
-function healthProbe() {
-  let stopped = false;
-  let slowest = 0;
-  let answered = 0;
-  const failures: string[] = [];
-  const done = (async () => {
-    while (!stopped) {
-      const t0 = performance.now();
-      try {
-        const res = await fetch(`${base}/healthz`, { signal: AbortSignal.timeout(30_000) });
-        if (res.status !== 200) failures.push(`status ${res.status}`);
-        await res.text();
-        answered++;
-      } catch (e) {
-        failures.push((e as Error).message);
-      }
-      slowest = Math.max(slowest, performance.now() - t0);
-      await new Promise((r) => setTimeout(r, 100));
-    }
-  })();
-  return {
-    async stop() {
-      stopped = true;
-      await done;
-      return { slowest, answered, failures };
-    },
-  };
-}
+const startProbe = () => healthProbe(base, 100);
 
 /** A raw socket that records what the server sent and when it closed the connection. */
 function rawSocket(): { socket: Socket; received: () => string; closed: Promise<void> } {
@@ -170,7 +143,7 @@ const within = <T,>(p: Promise<T>, ms: number, what: string) =>
 
 describe('records per request', () => {
   it('refuses more records than the cap with 413 naming it, and the reply does not grow with the garbage sent', async () => {
-    const probe = healthProbe();
+    const probe = startProbe();
     const tooMany = await fetch(`${base}/v1/results`, { method: 'POST', headers: { ...auth('ingest'), 'content-type': 'application/json' }, body: JSON.stringify(Array.from({ length: 501 }, () => ({}))) });
     expect(tooMany.status).toBe(413);
     const body = (await tooMany.json()) as { error: string; message: string; maxRecords: number };
@@ -204,7 +177,7 @@ describe('records per request', () => {
 describe('timeouts', () => {
   it('cuts off slow bodies, with and without a token, and sockets that never send a request', async () => {
     const rssBefore = process.memoryUsage().rss;
-    const probe = healthProbe();
+    const probe = startProbe();
     const sockets: ReturnType<typeof rawSocket>[] = [];
     const drip: NodeJS.Timeout[] = [];
     const slowPost = (headers: string) => {
@@ -268,7 +241,7 @@ describe('incident ids of the longest valid length', () => {
 describe('live-event clients', () => {
   it('are capped in number and cut off when they fall behind, while the API keeps answering', async () => {
     const rssBefore = process.memoryUsage().rss;
-    const probe = healthProbe();
+    const probe = startProbe();
     const clients = Array.from({ length: LIMITS.maxEventClients }, () => {
       const s = rawSocket();
       s.socket.write(`GET /v1/events HTTP/1.1\r\nHost: 127.0.0.1\r\nAuthorization: Bearer ${TOKENS.viewer}\r\n\r\n`);
