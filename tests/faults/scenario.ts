@@ -66,6 +66,8 @@ function notifying(options: ScenarioOptions): string {
       tiers:
         - afterMinutes: 0
 ${email ? `          email: [${ONCALL}]\n` : ''}${webhook ? `          webhooks: [${WEBHOOK}]\n` : ''}channels:
+  # Every message counts here, so none is held back by alarm-flood control (tested in tests/abuse/alarm-flood.test.ts).
+  floodControl: { maxMessages: 100000, windowMinutes: 10 }
 ${email ? `  email: { from: "wearshift <alerts@plant.example>", smtp: { host: 127.0.0.1, port: ${options.smtpPort} } }\n` : ''}${
     webhook ? `  webhooks:\n    - { name: ${WEBHOOK}, url: "${options.webhookUrl}", secrets: [WEBHOOK_SECRET], timeoutMs: ${options.webhookTimeoutMs ?? 5000} }\n` : ''
   }`;
