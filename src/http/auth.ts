@@ -1,6 +1,7 @@
 /**
- * Bearer-token roles for the HTTP API. Tokens come from WEARSHIFT_TOKEN_INGEST, WEARSHIFT_TOKEN_RESPONDER and
- * WEARSHIFT_TOKEN_VIEWER, each a comma-separated list (several tokens allow rotation). A token may hold
+ * Bearer-token roles for the HTTP API. The tokens are handed to the server (`AccessTokens`); the process wiring
+ * reads them from WEARSHIFT_TOKEN_INGEST, WEARSHIFT_TOKEN_RESPONDER and WEARSHIFT_TOKEN_VIEWER, each a
+ * comma-separated list (several tokens allow rotation), in src/runtime/accessTokensFromEnv.ts. A token may hold
  * several roles. Comparison runs over digests in constant time and always against every token, so timing
  * says nothing about how close a guess came.
  */
@@ -10,35 +11,24 @@ import type { FastifyReply, FastifyRequest } from 'fastify';
 export const ROLES = ['ingest', 'responder', 'viewer'] as const;
 export type Role = (typeof ROLES)[number];
 
-const ENV_OF: Record<Role, string> = {
-  ingest: 'WEARSHIFT_TOKEN_INGEST',
-  responder: 'WEARSHIFT_TOKEN_RESPONDER',
-  viewer: 'WEARSHIFT_TOKEN_VIEWER',
-};
-
-interface TokenEntry {
-  readonly digest: Buffer;
-  readonly role: Role;
-}
-
 const digest = (token: string) => createHash('sha256').update(token).digest();
 
-export function tokensFromEnv(env: NodeJS.ProcessEnv = process.env): TokenEntry[] {
-  return ROLES.flatMap((role) =>
-    (env[ENV_OF[role]] ?? '')
-      .split(',')
-      .map((t) => t.trim())
-      .filter((t) => t !== '')
-      .map((t) => ({ digest: digest(t), role })),
-  );
-}
+/** The API's bearer tokens by role, kept as digests only. */
+export class AccessTokens {
+  private readonly entries: readonly { readonly digest: Buffer; readonly role: Role }[];
 
-/** The roles a presented token holds; empty for an unknown token. */
-export function rolesOf(token: string, tokens: readonly TokenEntry[]): Set<Role> {
-  const d = digest(token);
-  const roles = new Set<Role>();
-  for (const entry of tokens) if (timingSafeEqual(d, entry.digest)) roles.add(entry.role);
-  return roles;
+  /** @param byRole the tokens each role accepts (several during a rotation); empty strings are ignored */
+  constructor(byRole: Readonly<Partial<Record<Role, readonly string[]>>>) {
+    this.entries = ROLES.flatMap((role) => (byRole[role] ?? []).map((t) => t.trim()).filter((t) => t !== '').map((t) => ({ digest: digest(t), role })));
+  }
+
+  /** The roles a presented token holds; empty for an unknown token. Compares against every token in constant time. */
+  rolesOf(token: string): Set<Role> {
+    const d = digest(token);
+    const roles = new Set<Role>();
+    for (const entry of this.entries) if (timingSafeEqual(d, entry.digest)) roles.add(entry.role);
+    return roles;
+  }
 }
 
 /** The credential each authorised request presented, as the incident history records it. */
@@ -52,14 +42,12 @@ export function credentialOf(request: FastifyRequest): string | undefined {
 /**
  * A fastify preHandler that lets a request through when its bearer token holds one of `roles`:
  * 401 (with `WWW-Authenticate: Bearer`) without a known token, 403 when the token's roles do not permit it.
- * The tokens are read from the environment when the handler is made.
  */
-export function requireRole(...roles: Role[]) {
-  const tokens = tokensFromEnv();
+export function requireRole(tokens: AccessTokens, ...roles: Role[]) {
   return async (request: FastifyRequest, reply: FastifyReply): Promise<void> => {
     const header = request.headers.authorization;
     const match = header === undefined ? null : /^Bearer\s+(\S+)\s*$/i.exec(header);
-    const held = match === null ? new Set<Role>() : rolesOf(match[1]!, tokens);
+    const held = match === null ? new Set<Role>() : tokens.rolesOf(match[1]!);
     if (held.size === 0) {
       await reply
         .code(401)

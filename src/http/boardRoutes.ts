@@ -11,11 +11,11 @@
  */
 import { readFileSync } from 'node:fs';
 import type { FastifyPluginAsync, FastifyReply } from 'fastify';
-import { rolesOf, ROLES, tokensFromEnv } from './auth.ts';
+import { ROLES, type AccessTokens } from './auth.ts';
 
 export interface BoardRoutesOptions {
-  /** Tokens for `GET /v1/session`, as auth.ts reads them. Default: the environment. */
-  env?: NodeJS.ProcessEnv;
+  /** The API's bearer tokens, for `GET /v1/session`. */
+  readonly tokens: AccessTokens;
   /** The site zone the pages show times in (`display.timeZone`). Default UTC. */
   timeZone?: string;
 }
@@ -42,7 +42,7 @@ const ASSET_TYPES: Record<string, string> = {
 export const boardRoutes: FastifyPluginAsync<BoardRoutesOptions> = async (app, options) => {
   const shell = asset('board.html');
   const assets = new Map(Object.keys(ASSET_TYPES).map((name) => [name, asset(name)]));
-  const tokens = tokensFromEnv(options.env);
+  const tokens = options.tokens;
   const timeZone = options.timeZone ?? 'UTC';
   const page = (view: View) => shell.replace('{{view}}', view);
   const sendPage = (reply: FastifyReply, view: View) => reply.headers(PAGE_HEADERS).send(page(view));
@@ -61,7 +61,7 @@ export const boardRoutes: FastifyPluginAsync<BoardRoutesOptions> = async (app, o
 
   app.get('/v1/session', async (request, reply) => {
     const match = /^Bearer\s+(\S+)\s*$/i.exec(request.headers.authorization ?? '');
-    const roles = match === null ? new Set() : rolesOf(match[1]!, tokens);
+    const roles = match === null ? new Set() : tokens.rolesOf(match[1]!);
     if (roles.size === 0) {
       return reply
         .code(401)

@@ -11,13 +11,15 @@
  */
 import type { FastifyPluginAsync, preHandlerAsyncHookHandler } from 'fastify';
 import type { ServerResponse } from 'node:http';
-import { requireRole } from './auth.ts';
+import { requireRole, type AccessTokens } from './auth.ts';
 import type { EventHub } from './eventHub.ts';
 import { DEFAULT_HTTP_LIMITS } from './limits.ts';
 
 export const EVENT_TOKEN_COOKIE = 'wearshift_token';
 
 export interface EventRoutesOptions {
+  /** The API's bearer tokens. */
+  readonly tokens: AccessTokens;
   hub: EventHub;
   /** Default: a viewer or responder token, from the bearer header or the `wearshift_token` cookie. */
   authorize?: preHandlerAsyncHookHandler;
@@ -37,7 +39,7 @@ export interface EventRoutesOptions {
 }
 
 export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, options) => {
-  const authorize = options.authorize ?? requireRole('viewer', 'responder');
+  const authorize = options.authorize ?? requireRole(options.tokens, 'viewer', 'responder');
   const heartbeatMs = options.heartbeatMs ?? 20_000;
   const maxBuffered = options.maxBufferedBytes ?? DEFAULT_HTTP_LIMITS.maxEventBufferBytes;
   const maxClients = options.maxClients ?? DEFAULT_HTTP_LIMITS.maxEventClients;

@@ -9,7 +9,7 @@ import type { IncidentAction } from '../incidents/applyAction.ts';
 import { IncidentConflictError, IncidentNotFoundError } from '../incidents/errors.ts';
 import { IncidentFilterSchema, type IncidentFilter } from '../incidents/listFilter.ts';
 import type { Incident, IncidentSummary } from '../incidents/model.ts';
-import { credentialOf, requireRole } from './auth.ts';
+import { credentialOf, requireRole, type AccessTokens } from './auth.ts';
 
 /** What the routes need of the incident store (the Redis store provides it). */
 export interface IncidentRoutesStore {
@@ -19,6 +19,8 @@ export interface IncidentRoutesStore {
 }
 
 export interface IncidentRoutesOptions {
+  /** The API's bearer tokens. */
+  readonly tokens: AccessTokens;
   readonly store: IncidentRoutesStore;
   /** Default: the system clock. */
   readonly now?: () => Date;
@@ -93,8 +95,8 @@ function failed(reply: FastifyReply, e: unknown) {
 
 export const incidentRoutes: FastifyPluginAsync<IncidentRoutesOptions> = async (app, options) => {
   const now = options.now ?? (() => new Date());
-  const read = { preHandler: requireRole('viewer', 'responder') };
-  const act = { preHandler: requireRole('responder') };
+  const read = { preHandler: requireRole(options.tokens, 'viewer', 'responder') };
+  const act = { preHandler: requireRole(options.tokens, 'responder') };
 
   app.get('/v1/incidents', read, async (request, reply) => {
     const query = IncidentFilterSchema.safeParse(request.query ?? {});

@@ -9,10 +9,12 @@
 import type { FastifyError, FastifyPluginAsync } from 'fastify';
 import type { RecordOutcome } from '../intake/validate.ts';
 import type { Metrics } from '../telemetry/metrics.ts';
-import { requireRole } from './auth.ts';
+import { requireRole, type AccessTokens } from './auth.ts';
 import { DEFAULT_HTTP_LIMITS, formatBytes } from './limits.ts';
 
 export interface ResultRoutesOptions {
+  /** The API's bearer tokens. */
+  readonly tokens: AccessTokens;
   /** Validates and enqueues; the producer of src/queue/producer.ts. */
   producer: { add(events: unknown): Promise<RecordOutcome[]> };
   metrics?: Metrics;
@@ -82,7 +84,7 @@ export const resultRoutes: FastifyPluginAsync<ResultRoutesOptions> = async (app,
     return reply.code(500).send({ error: 'internal', message: 'the results could not be taken; nothing was accepted' });
   });
 
-  app.post('/v1/results', { bodyLimit, onRequest: requireRole('ingest') }, async (request, reply) => {
+  app.post('/v1/results', { bodyLimit, onRequest: requireRole(options.tokens, 'ingest') }, async (request, reply) => {
     const body = request.body;
     if (body instanceof NdjsonBody && body.overflow) return reply.code(413).send(tooMany(`more than ${maxRecords}`));
     if (Array.isArray(body) && body.length > maxRecords) return reply.code(413).send(tooMany(String(body.length)));

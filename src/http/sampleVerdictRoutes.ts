@@ -14,7 +14,7 @@ import type { FastifyPluginAsync } from 'fastify';
 import { z } from 'zod';
 import type { SampleMark } from '../analysis/model.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
-import { requireRole } from './auth.ts';
+import { requireRole, type AccessTokens } from './auth.ts';
 
 /** What the route needs: stores the mark and has the component evaluated again; false for an unknown sample. */
 export interface SampleVerdictTaker {
@@ -22,6 +22,8 @@ export interface SampleVerdictTaker {
 }
 
 export interface SampleVerdictRoutesOptions {
+  /** The API's bearer tokens. */
+  readonly tokens: AccessTokens;
   readonly verdicts: SampleVerdictTaker;
 }
 
@@ -41,7 +43,7 @@ interface Params {
 export const sampleVerdictRoutes: FastifyPluginAsync<SampleVerdictRoutesOptions> = async (app, options) => {
   app.post<{ Params: Params }>(
     '/v1/units/:unit/components/:component/samples/:sampleId/verdict',
-    { preHandler: requireRole('responder') },
+    { preHandler: requireRole(options.tokens, 'responder') },
     async (request, reply) => {
       const body = VerdictBodySchema.safeParse(request.body);
       if (!body.success) {

@@ -16,9 +16,11 @@ import type { ChartJob, ChartJobResult } from '../render/chartJob.ts';
 import { ChartPool } from '../render/chartPool.ts';
 import type { ComponentInput } from '../render/componentInput.ts';
 import { ChartUnavailableError } from '../render/errors/chartErrors.ts';
-import { requireRole } from './auth.ts';
+import { requireRole, type AccessTokens } from './auth.ts';
 
 export interface SeriesRoutesOptions {
+  /** The API's bearer tokens. */
+  readonly tokens: AccessTokens;
   /** What the component's view is computed from; undefined when no such component is known (componentInput.ts). */
   loadInput(unit: string, component: string): Promise<ComponentInput | undefined>;
   /** Where the evaluation and drawing run, off the event loop and bounded. Default: a pool of one thread, closed with the app. */
@@ -46,7 +48,7 @@ interface Params {
 type Query = Record<string, string | string[] | undefined>;
 
 export const seriesRoutes: FastifyPluginAsync<SeriesRoutesOptions> = async (app, options) => {
-  const preHandler = options.authorize ?? requireRole('viewer', 'responder');
+  const preHandler = options.authorize ?? requireRole(options.tokens, 'viewer', 'responder');
   const base = '/v1/units/:unit/components/:component';
   const pool = options.pool ?? new ChartPool();
   if (options.pool === undefined) app.addHook('onClose', async () => pool.close());

@@ -16,6 +16,7 @@ import { ackLinkRoutes } from './ackLinkRoutes.ts';
 import { announcingActions, type EventHub, type LiveEvent } from './eventHub.ts';
 import { eventRoutes } from './eventRoutes.ts';
 import { boardRoutes } from './boardRoutes.ts';
+import type { AccessTokens } from './auth.ts';
 import { contractRoutes } from './contractRoutes.ts';
 import { healthRoutes } from './healthRoutes.ts';
 import { incidentRoutes } from './incidentRoutes.ts';
@@ -28,6 +29,8 @@ import { ChartPool } from '../render/chartPool.ts';
 import { isStoreUnavailable, UNAVAILABLE_RETRY_AFTER_S } from './unavailable.ts';
 
 export interface ServerOptions {
+  /** The API's bearer tokens by role (the runtime reads them from the environment: src/runtime/accessTokensFromEnv.ts). */
+  readonly tokens: AccessTokens;
   readonly logger: Logger;
   readonly metrics: Metrics;
   /** Readiness check: resolves when Redis answers. */
@@ -40,7 +43,7 @@ export interface ServerOptions {
   readonly limits?: Partial<HttpLimits>;
   /** Where charts and series are computed; default: a pool of `limits.chartConcurrency` threads of this process. */
   readonly chartPool?: ChartPool;
-  /** Serve /metrics without a token. Default: WEARSHIFT_METRICS_PUBLIC === '1'. */
+  /** Serve /metrics without a token (the runtime sets it from WEARSHIFT_METRICS_PUBLIC=1). Default false. */
   readonly metricsPublic?: boolean;
   /** The incident store, for the incident API and the acknowledgement-link pages. */
   readonly incidents?: IncidentRoutesStore;
@@ -95,25 +98,26 @@ export async function buildServer(options: ServerOptions) {
   });
   await app.register(healthRoutes, { ping: options.ping });
   if (options.openApi !== undefined) await app.register(contractRoutes, { openApi: options.openApi });
-  await app.register(metricsRoute, { metrics: options.metrics, ...(options.metricsPublic !== undefined && { public: options.metricsPublic }) });
+  await app.register(metricsRoute, { tokens: options.tokens, metrics: options.metrics, ...(options.metricsPublic !== undefined && { public: options.metricsPublic }) });
   if (options.producer !== undefined) {
-    await app.register(resultRoutes, { producer: options.producer, metrics: options.metrics, bodyLimitBytes: bodyLimit, maxRecords: limits.maxRecordsPerRequest });
+    await app.register(resultRoutes, { tokens: options.tokens, producer: options.producer, metrics: options.metrics, bodyLimitBytes: bodyLimit, maxRecords: limits.maxRecordsPerRequest });
   }
-  if (options.hub !== undefined) await app.register(eventRoutes, { hub: options.hub, maxBufferedBytes: limits.maxEventBufferBytes, maxClients: limits.maxEventClients });
+  if (options.hub !== undefined) await app.register(eventRoutes, { tokens: options.tokens, hub: options.hub, maxBufferedBytes: limits.maxEventBufferBytes, maxClients: limits.maxEventClients });
   const histories = options.histories;
   if (histories !== undefined) {
     const pool = options.chartPool ?? new ChartPool({ concurrency: limits.chartConcurrency, queue: limits.chartQueue, timeoutMs: limits.chartTimeoutMs, sampleBudget: limits.chartSampleBudget });
     if (options.chartPool === undefined) app.addHook('onClose', async () => pool.close());
     await app.register(seriesRoutes, {
+      tokens: options.tokens,
       loadInput: (unit, component) => componentInput(histories.store, histories.ledger, histories.config, { unit, component }),
       pool,
     });
   }
-  if (options.sampleVerdicts !== undefined) await app.register(sampleVerdictRoutes, { verdicts: options.sampleVerdicts });
+  if (options.sampleVerdicts !== undefined) await app.register(sampleVerdictRoutes, { tokens: options.tokens, verdicts: options.sampleVerdicts });
   // Acknowledgements from the API, the board or an e-mail link are announced like the worker's incident changes.
   const store = options.incidents && (options.announce ? announcingActions(options.incidents, options.announce) : options.incidents);
-  if (store !== undefined) await app.register(incidentRoutes, { store });
-  if (options.producer !== undefined) await app.register(boardRoutes, { ...(options.timeZone !== undefined && { timeZone: options.timeZone }) });
+  if (store !== undefined) await app.register(incidentRoutes, { tokens: options.tokens, store });
+  if (options.producer !== undefined) await app.register(boardRoutes, { tokens: options.tokens, ...(options.timeZone !== undefined && { timeZone: options.timeZone }) });
   if (store !== undefined && (options.ackLinkSecrets?.length ?? 0) > 0) {
     await app.register(ackLinkRoutes, {
       secrets: [...options.ackLinkSecrets!],

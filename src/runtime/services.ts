@@ -16,6 +16,7 @@ import { configuredChannels } from '../channels/registry.ts';
 import { openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings } from '../queue/queues.ts';
 import { Partitions } from '../redis/keys.ts';
 import { openApiDocument } from '../contracts/openapi.ts';
+import { accessTokensFromEnv } from './accessTokensFromEnv.ts';
 import { SampleVerdicts } from '../queue/sampleVerdicts.ts';
 import { startWorkers, type WorkerSettings } from '../queue/workers.ts';
 import { RedisIncidents } from '../redis/redisIncidents.ts';
@@ -148,6 +149,9 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
   let listening: string | undefined;
   if (options.http || options.metricsPort !== undefined) {
     const ping = () => request.ping();
+    // Tokens and the metrics switch come from the environment here, and are handed to the server.
+    const tokens = accessTokensFromEnv(env);
+    const metricsPublic = env.WEARSHIFT_METRICS_PUBLIC === '1';
     let server;
     if (options.http) {
       const producer = createResultProducer({ connection: request, prefix, partitions: partitionCount });
@@ -160,6 +164,8 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
       const httpStore = new RedisStore(request, { prefix, partitions: partitionCount, config });
       const incidents = new RedisIncidents(request, { rules: incidentRules(config), prefix, partitions: partitionCount });
       server = await buildServer({
+        tokens,
+        metricsPublic,
         logger,
         metrics,
         ping,
@@ -189,7 +195,7 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
         logger.info({ url: await opcua.start() }, 'OPC UA alarm server listening');
       }
     } else {
-      server = await buildServer({ logger, metrics, ping });
+      server = await buildServer({ tokens, metricsPublic, logger, metrics, ping });
     }
     stopHttp.unshift({ name: 'http', close: () => server.close() });
     listening = await server.listen({ port: options.http ? port : options.metricsPort!, host: options.host ?? '0.0.0.0' });

@@ -14,6 +14,7 @@ import { inputOf, type ComponentInput } from '../../src/render/componentInput.ts
 import { CONFIG } from '../unit/chart-fixtures.ts';
 import { sample, settingsFrom } from '../unit/history-fixtures.ts';
 import { healthProbe } from '../helpers/healthProbe.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
 const TIME_LIMIT_MS = 5000;
 const HEALTHZ_MAX_MS = 1000;
@@ -49,8 +50,8 @@ beforeAll(async () => {
   app = Fastify();
   await app.register(healthRoutes, { ping: async () => 'PONG' });
   patient = new ChartPool({ concurrency: 1, queue: 4, timeoutMs: 10 * 60_000, sampleBudget: 1000 });
-  await app.register(seriesRoutes, { loadInput: async (unit) => inputs.get(unit), pool });
-  await app.register(seriesRoutes, { loadInput: async (unit) => inputs.get(unit), pool: patient, prefix: '/patient' });
+  await app.register(seriesRoutes, { tokens: accessTokensFromEnv(process.env), loadInput: async (unit) => inputs.get(unit), pool });
+  await app.register(seriesRoutes, { tokens: accessTokensFromEnv(process.env), loadInput: async (unit) => inputs.get(unit), pool: patient, prefix: '/patient' });
   base = await app.listen({ host: '127.0.0.1', port: 0 });
 }, 120_000);
 

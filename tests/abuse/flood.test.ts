@@ -19,6 +19,7 @@ import { RedisStore } from '../../src/redis/redisStore.ts';
 import { inventedFleet } from '../helpers/fleetCsv.ts';
 import { drained } from '../helpers/queueDrain.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
 const prefix = '{flood}';
 const INGEST = 'ingest-flood-0e91b3';
@@ -77,7 +78,7 @@ beforeAll(async () => {
   const settings = resolveQueueSettings({ prefix });
   results = openQueue(QUEUE_NAMES.results, client, settings);
   evaluate = openQueue(QUEUE_NAMES.evaluate, client, settings);
-  app = await buildServer({ logger: silentLogger(), metrics: createMetrics({ defaultMetrics: false }), ping: () => client.ping(), producer });
+  app = await buildServer({ tokens: accessTokensFromEnv(process.env), logger: silentLogger(), metrics: createMetrics({ defaultMetrics: false }), ping: () => client.ping(), producer });
   await app.listen({ port: 0, host: '127.0.0.1' });
   base = `http://127.0.0.1:${(app.server.address() as AddressInfo).port}`;
 });

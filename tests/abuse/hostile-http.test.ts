@@ -23,6 +23,7 @@ import { createLogger } from '../../src/telemetry/logger.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { healthProbe } from '../helpers/healthProbe.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
 const prefix = '{hostile}';
 const TOKENS = { ingest: 'ingest-hostile-5d1c2e8a', responder: 'responder-hostile-9b3f7a61', viewer: 'viewer-hostile-27c4e0d9' };
@@ -102,7 +103,7 @@ beforeAll(async () => {
       done();
     },
   });
-  app = await buildServer({
+  app = await buildServer({ tokens: accessTokensFromEnv(process.env),
     logger: createLogger({ level: 'info', destination: capture }),
     metrics: createMetrics({ defaultMetrics: false }),
     ping: () => request.ping(),

@@ -20,6 +20,7 @@ import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
 import { drained } from '../helpers/queueDrain.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
 const prefix = '{abuse}';
 const INGEST = 'ingest-abuse-6c0d2a';
@@ -44,7 +45,7 @@ beforeAll(async () => {
   workers = startWorkers({ connection: client, config, logger: silentLogger() }, { prefix });
   const settings = resolveQueueSettings({ prefix });
   queues = [openQueue(QUEUE_NAMES.results, client, settings), openQueue(QUEUE_NAMES.evaluate, client, settings)];
-  app = await buildServer({ logger: silentLogger(), metrics: createMetrics({ defaultMetrics: false }), ping: () => client.ping(), producer, bodyLimitBytes: LIMIT });
+  app = await buildServer({ tokens: accessTokensFromEnv(process.env), logger: silentLogger(), metrics: createMetrics({ defaultMetrics: false }), ping: () => client.ping(), producer, bodyLimitBytes: LIMIT });
   await app.ready();
 });
 

@@ -27,6 +27,7 @@ import { silentLogger } from '../../src/telemetry/logger.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { drained } from '../helpers/queueDrain.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
 const prefix = '{hardening}';
 const INGEST = 'ingest-hardening-71c0e2';
@@ -56,7 +57,7 @@ beforeAll(async () => {
   workers = startWorkers({ connection: client, config, logger: silentLogger() }, { prefix });
   const settings = resolveQueueSettings({ prefix });
   queues = [openQueue(QUEUE_NAMES.results, client, settings), openQueue(QUEUE_NAMES.evaluate, client, settings)];
-  app = await buildServer({ logger: silentLogger(), metrics: createMetrics({ defaultMetrics: false }), ping: () => client.ping(), producer, incidents });
+  app = await buildServer({ tokens: accessTokensFromEnv(process.env), logger: silentLogger(), metrics: createMetrics({ defaultMetrics: false }), ping: () => client.ping(), producer, incidents });
   await app.ready();
   dir = mkdtempSync(join(tmpdir(), 'wearshift-hardening-'));
   configFile = join(dir, 'site.yaml');

@@ -20,6 +20,7 @@ import { silentLogger } from '../../src/telemetry/logger.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
 const prefix = '{roles}';
 const TOKENS = { ingest: 'ingest-tok-3b81f0', responder: 'responder-tok-c4d2e9', viewer: 'viewer-tok-77a1b5' } as const;
@@ -64,7 +65,7 @@ beforeAll(async () => {
   process.env.WEARSHIFT_TOKEN_VIEWER = TOKENS.viewer;
   delete process.env.WEARSHIFT_METRICS_PUBLIC;
   producer = createResultProducer({ connection: client, prefix });
-  app = await buildServer({
+  app = await buildServer({ tokens: accessTokensFromEnv(process.env),
     logger: silentLogger(),
     metrics: createMetrics({ defaultMetrics: false }),
     ping: () => client.ping(),

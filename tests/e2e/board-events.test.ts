@@ -8,6 +8,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { announcingActions, createEventHub, type EventHub, type LiveEvent } from '../../src/http/eventHub.ts';
 import { eventRoutes } from '../../src/http/eventRoutes.ts';
 import type { Incident } from '../../src/incidents/model.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
 const saved = { ...process.env };
 let app: FastifyInstance;
@@ -19,7 +20,7 @@ beforeAll(async () => {
   process.env.WEARSHIFT_TOKEN_INGEST = 'ingest-1';
   hub = createEventHub();
   app = Fastify();
-  await app.register(eventRoutes, { hub, heartbeatMs: 200 });
+  await app.register(eventRoutes, { tokens: accessTokensFromEnv(process.env), hub, heartbeatMs: 200 });
   url = `${await app.listen({ host: '127.0.0.1', port: 0 })}/v1/events`;
 });
 
@@ -129,7 +130,7 @@ describe('GET /v1/events', () => {
   it('lets the server close while a stream is open', async () => {
     const local = Fastify();
     const localHub = createEventHub();
-    await local.register(eventRoutes, { hub: localHub });
+    await local.register(eventRoutes, { tokens: accessTokensFromEnv(process.env), hub: localHub });
     const address = await local.listen({ host: '127.0.0.1', port: 0 });
     const response = await fetch(`${address}/v1/events`, { headers: { authorization: 'Bearer view-1' } });
     await until(() => localHub.subscribers === 1);

@@ -25,6 +25,7 @@ import { incidentRules } from '../../src/incidents/policy.ts';
 import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
 import { incidentChanges } from '../../src/pipeline/incidentChanges.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
 export const TOKENS = { viewer: 'board-viewer-token', responder: 'board-responder-token' };
 
@@ -99,8 +100,8 @@ export async function startBoardFixture(components: readonly [string, string][],
   process.env.WEARSHIFT_TOKEN_RESPONDER = TOKENS.responder;
 
   const app = Fastify();
-  await app.register(incidentRoutes, { store: announcingActions(store, (e) => hub.publish(e)) });
-  await app.register(seriesRoutes, {
+  await app.register(incidentRoutes, { tokens: accessTokensFromEnv(process.env), store: announcingActions(store, (e) => hub.publish(e)) });
+  await app.register(seriesRoutes, { tokens: accessTokensFromEnv(process.env),
     loadInput: async (unit, component) => {
       const list = samples.get(componentKey({ unit, component }));
       if (list === undefined) return undefined;
@@ -109,7 +110,7 @@ export async function startBoardFixture(components: readonly [string, string][],
     },
   });
   // As the worker does after a verdict: the mark is kept and the component judged again from the start.
-  await app.register(sampleVerdictRoutes, {
+  await app.register(sampleVerdictRoutes, { tokens: accessTokensFromEnv(process.env),
     verdicts: {
       async mark(ref, sampleId, mark) {
         const key = componentKey(ref);
@@ -124,8 +125,8 @@ export async function startBoardFixture(components: readonly [string, string][],
       },
     },
   });
-  await app.register(eventRoutes, { hub });
-  await app.register(boardRoutes, { ...(options.timeZone !== undefined && { timeZone: options.timeZone }) });
+  await app.register(eventRoutes, { tokens: accessTokensFromEnv(process.env), hub });
+  await app.register(boardRoutes, { tokens: accessTokensFromEnv(process.env), ...(options.timeZone !== undefined && { timeZone: options.timeZone }) });
   if (options.ackSecret !== undefined) {
     await app.register(ackLinkRoutes, {
       secrets: [options.ackSecret],

@@ -33,6 +33,7 @@ import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { createLogger } from '../../src/telemetry/logger.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
 type Json = Record<string, any>; // eslint-disable-line @typescript-eslint/no-explicit-any
 
@@ -96,7 +97,7 @@ beforeAll(async () => {
   const connection = redis.client();
   incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix: '{contracts}' });
   producer = createResultProducer({ connection, prefix: '{contracts}' });
-  app = await buildServer({ logger: createLogger({ level: 'silent' }), metrics: createMetrics(), ping: () => connection.ping(), producer, incidents, openApi: openApiDocument() });
+  app = await buildServer({ tokens: accessTokensFromEnv(process.env), logger: createLogger({ level: 'silent' }), metrics: createMetrics(), ping: () => connection.ping(), producer, incidents, openApi: openApiDocument() });
   base = await app.listen({ port: 0, host: '127.0.0.1' });
 }, 120_000);
 

@@ -10,6 +10,7 @@ import { silentLogger } from '../../src/telemetry/logger.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { connectRedis } from '../../src/redis/connection.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
 const INGEST = 'ingest-token-5f2c9a';
 const VIEWER = 'viewer-token-81be07';
@@ -31,7 +32,7 @@ beforeAll(async () => {
   pingRedis = connectRedis(server.url, 'request');
   producer = createResultProducer({ connection: server.url, prefix });
   results = openQueue(QUEUE_NAMES.results, server.client(), resolveQueueSettings({ prefix }));
-  app = await buildServer({ logger: silentLogger(), metrics: createMetrics({ defaultMetrics: false }), ping: () => pingRedis.ping(), producer, bodyLimitBytes: 64 * 1024 });
+  app = await buildServer({ tokens: accessTokensFromEnv(process.env), logger: silentLogger(), metrics: createMetrics({ defaultMetrics: false }), ping: () => pingRedis.ping(), producer, bodyLimitBytes: 64 * 1024 });
   base = await app.listen({ port: 0, host: '127.0.0.1' });
 });
 

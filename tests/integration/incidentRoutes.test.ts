@@ -8,6 +8,7 @@ import { incidentRoutes } from '../../src/http/incidentRoutes.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
 const NOW = new Date('2026-04-02T10:00:00Z');
 const ID = 'PS2-P3/gearbox@LAB-0100';
@@ -35,7 +36,7 @@ beforeAll(async () => {
   process.env.WEARSHIFT_TOKEN_RESPONDER = 'resp-1';
   process.env.WEARSHIFT_TOKEN_INGEST = 'ingest-1';
   app = Fastify();
-  await app.register(incidentRoutes, { store, now: () => NOW });
+  await app.register(incidentRoutes, { tokens: accessTokensFromEnv(process.env), store, now: () => NOW });
   await app.ready();
 });
 
@@ -111,7 +112,7 @@ describe('incident routes', () => {
 
   it('serves over a real listening port', async () => {
     const live = Fastify();
-    await live.register(incidentRoutes, { store });
+    await live.register(incidentRoutes, { tokens: accessTokensFromEnv(process.env), store });
     const address = await live.listen({ port: 0, host: '127.0.0.1' });
     try {
       const r = await fetch(`${address}${PATH}`, { headers: auth('view-1') });

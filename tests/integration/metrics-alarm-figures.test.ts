@@ -21,6 +21,7 @@ import { registerAlarmGauges } from '../../src/runtime/alarmGauges.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { startCli } from '../helpers/cli.ts';
 import { freePort, startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
 const DAY = 86_400_000;
 /** A Thursday. */
@@ -86,7 +87,7 @@ beforeAll(async () => {
     now: () => clock,
   });
   app = Fastify();
-  await app.register(metricsRoute, { metrics, public: true });
+  await app.register(metricsRoute, { tokens: accessTokensFromEnv(process.env), metrics, public: true });
   await app.ready();
 }, 60_000);
 

@@ -21,6 +21,7 @@ import { silentLogger } from '../../src/telemetry/logger.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { drained } from '../helpers/queueDrain.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
 const RESPONDER = 'resp-verdict-51c2';
 const VIEWER = 'view-verdict-77aa';
@@ -65,7 +66,7 @@ beforeAll(async () => {
   queues = [openQueue(QUEUE_NAMES.results, client, settings), ...evaluateQueues];
   producer = createResultProducer({ connection: client, prefix });
   store = new RedisStore(client, { prefix, config });
-  app = await buildServer({
+  app = await buildServer({ tokens: accessTokensFromEnv(process.env),
     logger: silentLogger(),
     metrics: createMetrics({ defaultMetrics: false }),
     ping: () => client.ping(),

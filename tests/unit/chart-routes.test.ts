@@ -5,6 +5,7 @@ import { seriesRoutes } from '../../src/http/seriesRoutes.ts';
 import { boardRoutes } from '../../src/http/boardRoutes.ts';
 import { inputOf } from '../../src/render/componentInput.ts';
 import { fixtureGroup, fixtureSamples, fixtureSeries, fixtureSettings } from './chart-fixtures.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
 const saved = { ...process.env };
 let app: FastifyInstance;
@@ -16,13 +17,13 @@ beforeAll(async () => {
   process.env.WEARSHIFT_TOKEN_RESPONDER = 'resp-1';
   process.env.WEARSHIFT_TOKEN_INGEST = 'ingest-1';
   app = Fastify();
-  await app.register(seriesRoutes, {
+  await app.register(seriesRoutes, { tokens: accessTokensFromEnv(process.env),
     loadInput: async (unit, component) =>
       unit === 'PS2-P3' && component === 'gearbox'
         ? inputOf({ unit, component, group: fixtureSettings().group, samples: fixtureSamples().length, lastSampledAt: '' }, fixtureSettings(), fixtureSamples(), () => fixtureGroup())
         : undefined,
   });
-  await app.register(boardRoutes);
+  await app.register(boardRoutes, { tokens: accessTokensFromEnv(process.env) });
   await app.ready();
 });
 
