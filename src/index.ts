@@ -11,4 +11,4 @@ export { createResultProducer, type ResultProducer, type ResultProducerOptions }
 export { parseResultEvent, ResultEventSchema, type FieldIssue, type ParsedEvent, type ResultEvent, type Sample } from './domain/event.ts';
 export type { RecordOutcome } from './intake/validate.ts';
 export { DEFAULT_WEBHOOK_TOLERANCE_SECONDS, verifyWebhook, type WebhookHeaders, type WebhookRefusal } from './channels/webhook/webhookSignature.ts';
-export { ADVICE_CAUTION } from './domain/caution.ts';
+export { ADVISORY_CAUTION } from './domain/caution.ts';

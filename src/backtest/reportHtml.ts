@@ -4,7 +4,7 @@
  * it shows is embedded verbatim as JSON (`<script type="application/json" id="summary">`) for tools and tests.
  * Severity is given by shape and word (◇ watch, ▲ caution, ■ alarm, as on the board), colour only adds to it.
  */
-import { ADVICE_CAUTION } from '../domain/caution.ts';
+import { ADVISORY_CAUTION } from '../domain/caution.ts';
 import { RULE_FAMILIES, RULE_FAMILY_LABELS, type RuleFamily, type Severity } from '../domain/finding.ts';
 import { NEUTRAL, SEVERITY_STYLE } from '../charts/severityStyle.ts';
 import { escapeHtml } from '../domain/safeText.ts';
@@ -20,7 +20,7 @@ export interface ReportComponent {
 }
 
 const CAUTION =
-  ADVICE_CAUTION;
+  ADVISORY_CAUTION;
 
 const FAMILY_WORD: Record<RuleFamily, string> = RULE_FAMILY_LABELS;
 

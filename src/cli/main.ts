@@ -1,5 +1,5 @@
 /** The `wearshift` command line. Each command lives in its own module under ./commands. */
-import { ADVICE_CAUTION } from '../domain/caution.ts';
+import { ADVISORY_CAUTION } from '../domain/caution.ts';
 import { readFileSync } from 'node:fs';
 import { Command, CommanderError } from 'commander';
 import { InputError } from '../domain/errors.ts';
@@ -18,7 +18,7 @@ import { registerServe } from './commands/serve.ts';
 import { registerWorker } from './commands/worker.ts';
 
 const CAUTION =
-  ADVICE_CAUTION;
+  ADVISORY_CAUTION;
 
 export function buildProgram(): Command {
   const program = new Command('wearshift')

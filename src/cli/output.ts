@@ -1,5 +1,5 @@
 /** Output for people (aligned tables) and for machines (`--json`: one JSON object per line). */
-import { ADVICE_CAUTION } from '../domain/caution.ts';
+import { ADVISORY_CAUTION } from '../domain/caution.ts';
 import { InvalidArgumentError } from 'commander';
 import type { Config } from '../domain/config.ts';
 import { InputError } from '../domain/errors.ts';
@@ -56,7 +56,7 @@ export function processingTime(text: string | undefined): number {
 
 /** The caution every human-readable output that carries findings ends with. */
 export const ADVISORY_LINE =
-  ADVICE_CAUTION;
+  ADVISORY_CAUTION;
 /**
  * Which Redis and key prefix a command uses, and why: "Redis redis://127.0.0.1:6379 (the default: neither REDIS_URL
  * nor redis.url is set), key prefix {wearshift}". Commands that read or write stored data print it first, so

@@ -1,5 +1,5 @@
 /** The demo's printed story: the timeline per component and the summary, for people reading a terminal. */
-import { ADVICE_CAUTION } from '../domain/caution.ts';
+import { ADVISORY_CAUTION } from '../domain/caution.ts';
 import { RULE_FAMILIES } from '../domain/finding.ts';
 import { DEMO_STORIES } from './fleet.ts';
 import type { DemoReport } from './runDemo.ts';
@@ -67,7 +67,7 @@ export function formatReport(r: DemoReport, outDir: string): string[] {
   lines.push(`  ${mark(r.checks.webhooksVerified)} every webhook delivery verified with standardwebhooks`);
   lines.push(`  ${mark(r.checks.settled)} pipeline settled (queues and outbox empty) within the wait`);
   lines.push(`  ${mark(r.checks.noFailedJobs)} no job failed${r.failedJobs.map((f) => `; ${f.count} ${f.queue} job${f.count === 1 ? '' : 's'} failed: ${f.reason}`).join('')}`);
-  lines.push('', `Done in ${r.seconds.total} s. ${ADVICE_CAUTION}`);
+  lines.push('', `Done in ${r.seconds.total} s. ${ADVISORY_CAUTION}`);
   return lines;
 }
 

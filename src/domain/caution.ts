@@ -2,11 +2,8 @@
  * The one caution that goes with every finding, wherever it reaches a person or another system (board, e-mail,
  * acknowledgement page, webhook and MQTT data, command line, backtest report): the tool advises, people decide.
  */
-export const ADVICE_CAUTION =
+export const ADVISORY_CAUTION =
   "wearshift advises: the laboratory's diagnosis, the equipment maker's limits, local codes and licensed practice decide.";
-
-/** Former name of ADVICE_CAUTION. */
-export const ADVISORY_CAUTION = ADVICE_CAUTION;
 
 /** What a time-to-limit forecast rests on. */
 export const FORECAST_CAUTION = 'A forecast assumes the present rate continues; wear can speed up or settle at any time.';

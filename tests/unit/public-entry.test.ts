@@ -12,7 +12,7 @@ const secret = () => `whsec_${randomBytes(32).toString('base64')}`;
 
 describe("the package's public entry point", () => {
   it('offers the producer, the event schema and the webhook check, and nothing of the internals', () => {
-    expect(Object.keys(wearshift).sort()).toEqual(['ADVICE_CAUTION', 'DEFAULT_WEBHOOK_TOLERANCE_SECONDS', 'ResultEventSchema', 'createResultProducer', 'parseResultEvent', 'verifyWebhook']);
+    expect(Object.keys(wearshift).sort()).toEqual(['ADVISORY_CAUTION', 'DEFAULT_WEBHOOK_TOLERANCE_SECONDS', 'ResultEventSchema', 'createResultProducer', 'parseResultEvent', 'verifyWebhook']);
     const parsed = wearshift.parseResultEvent({ sampleId: 'LAB-1', unit: 'PS2-P3', component: 'gearbox', sampledAt: '2026-03-01T08:00:00Z', readings: { Fe: 12 } });
     expect(parsed.ok).toBe(true);
     const bad = wearshift.parseResultEvent({ sampleId: 'LAB-2', unit: 'PS2-P3', component: 'gearbox', sampledAt: 'yesterday', readings: { Fe: 12 } });
