@@ -17,6 +17,7 @@ import { IncidentConflictError, IncidentNotFoundError } from './errors.ts';
 import type { Closure, RecordedAction, StepPosition } from './model.ts';
 import type { IncidentRules } from './policy.ts';
 import type { ComponentForecast, LimitForecast } from '../analysis/forecast/model.ts';
+import { compareOrder } from '../analysis/fold/analysisFold.ts';
 
 /** A step as the verdict judges it. */
 export interface VerdictStep {
@@ -43,14 +44,9 @@ export function positionOf(step: Pick<VerdictStep, 'sampleId' | 'time' | 'unitHo
   return { sampleId: step.sampleId, time: step.time, ...(step.unitHours !== undefined && { unitHours: step.unitHours }) };
 }
 
-/** Compares positions as the history orders samples: time, then unit hours (missing last), then sampleId. */
+/** Compares positions as the history orders samples (the analysis core's order: time, unit hours, sampleId). */
 export function comparePosition(a: StepPosition, b: StepPosition): number {
-  if (a.time !== b.time) return a.time < b.time ? -1 : 1;
-  const x = a.unitHours;
-  const y = b.unitHours;
-  if (x !== undefined && y !== undefined && x !== y) return x < y ? -1 : 1;
-  if ((x === undefined) !== (y === undefined)) return x === undefined ? 1 : -1;
-  return a.sampleId < b.sampleId ? -1 : a.sampleId > b.sampleId ? 1 : 0;
+  return compareOrder(a, b);
 }
 
 /** Judges one step; a step at or before the last one judged is skipped (a redelivery). Returns false when skipped. */

@@ -87,27 +87,7 @@ export async function startEmbeddedRedis(options: EmbeddedRedisOptions = {}): Pr
     ];
     const proc = spawn(command, args, { stdio: ['ignore', 'pipe', 'pipe'] });
     child = proc;
-    let output = '';
-    await new Promise<void>((resolve, reject) => {
-      const timer = setTimeout(() => reject(new Error(`redis-server did not start on port ${port}:\n${output}`)), startTimeoutMs);
-      const onData = (d: Buffer) => {
-        output += d.toString();
-        if (output.includes('Ready to accept connections')) {
-          clearTimeout(timer);
-          resolve();
-        }
-      };
-      proc.stdout!.on('data', onData);
-      proc.stderr!.on('data', onData);
-      proc.once('error', (e) => {
-        clearTimeout(timer);
-        reject(e);
-      });
-      proc.once('exit', (code) => {
-        clearTimeout(timer);
-        reject(new Error(`redis-server exited with ${code}:\n${output}`));
-      });
-    });
+    await untilReady(proc, startTimeoutMs, `redis-server on port ${port}`);
   };
 
   const stop = async () => {
@@ -146,4 +126,35 @@ export async function startEmbeddedRedis(options: EmbeddedRedisOptions = {}): Pr
       rmSync(dir, { recursive: true, force: true });
     },
   };
+}
+
+/**
+ * Resolves once a spawned redis-server says it accepts connections; rejects with its output when it exits first or
+ * does not get there within `timeoutMs` (then it is killed).
+ */
+export function untilReady(proc: ChildProcess, timeoutMs: number, what: string): Promise<void> {
+  let output = '';
+  return new Promise<void>((resolve, reject) => {
+    const timer = setTimeout(() => {
+      proc.kill('SIGKILL');
+      reject(new Error(`${what} did not start:\n${output}`));
+    }, timeoutMs);
+    const onData = (d: Buffer) => {
+      output += d.toString();
+      if (output.includes('Ready to accept connections')) {
+        clearTimeout(timer);
+        resolve();
+      }
+    };
+    proc.stdout!.on('data', onData);
+    proc.stderr!.on('data', onData);
+    proc.once('error', (e) => {
+      clearTimeout(timer);
+      reject(e);
+    });
+    proc.once('exit', (code) => {
+      clearTimeout(timer);
+      reject(new Error(`${what} exited with ${code}:\n${output}`));
+    });
+  });
 }

@@ -12,7 +12,7 @@ import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { Cluster, Redis } from 'ioredis';
-import { redisServerAvailable, RedisServerMissingError } from './embeddedRedis.ts';
+import { redisServerAvailable, RedisServerMissingError, untilReady } from './embeddedRedis.ts';
 
 export interface RedisClusterOptions {
   /** Masters. Default 3. */
@@ -66,7 +66,7 @@ export async function freeClusterPort(taken: ReadonlySet<number> = new Set()): P
   throw new Error('no free port pair (port and port + 10000) found for a cluster node');
 }
 
-function startNode(command: string, port: number, dir: string, timeoutMs: number): Promise<ChildProcess> {
+async function startNode(command: string, port: number, dir: string, timeoutMs: number): Promise<ChildProcess> {
   mkdirSync(dir, { recursive: true });
   const args = [
     '--port', String(port),
@@ -80,30 +80,8 @@ function startNode(command: string, port: number, dir: string, timeoutMs: number
     '--cluster-node-timeout', '5000',
   ];
   const proc = spawn(command, args, { stdio: ['ignore', 'pipe', 'pipe'] });
-  let output = '';
-  return new Promise((resolve, reject) => {
-    const timer = setTimeout(() => {
-      proc.kill('SIGKILL');
-      reject(new Error(`cluster node did not start on port ${port}:\n${output}`));
-    }, timeoutMs);
-    const onData = (d: Buffer) => {
-      output += d.toString();
-      if (output.includes('Ready to accept connections')) {
-        clearTimeout(timer);
-        resolve(proc);
-      }
-    };
-    proc.stdout!.on('data', onData);
-    proc.stderr!.on('data', onData);
-    proc.once('error', (e) => {
-      clearTimeout(timer);
-      reject(e);
-    });
-    proc.once('exit', (code) => {
-      clearTimeout(timer);
-      reject(new Error(`cluster node on port ${port} exited with ${code}:\n${output}`));
-    });
-  });
+  await untilReady(proc, timeoutMs, `cluster node on port ${port}`);
+  return proc;
 }
 
 async function kill(proc: ChildProcess): Promise<void> {
