@@ -11,6 +11,7 @@ interface DemoCommandOptions {
   out: string;
   config: string;
   feedSeconds: string;
+  settleSeconds: string;
 }
 
 export function registerDemo(program: Command): void {
@@ -22,6 +23,7 @@ export function registerDemo(program: Command): void {
     .option('--out <dir>', 'where the received e-mails (.eml) and webhook deliveries (.json) go', 'demo/out')
     .option('--config <file>', 'the demo configuration', DEMO_DEFAULTS.configFile)
     .option('--feed-seconds <s>', 'how long the playback of the 18 months of lab reports takes', String(DEMO_DEFAULTS.feedSeconds))
+    .option('--settle-seconds <s>', 'how long to wait after the feed for the queues to empty and the escalation to play out (ends as soon as it has)', String(DEMO_DEFAULTS.settleSeconds))
     .addHelpText('after', '\nWithout REDIS_URL the demo starts a private redis-server from PATH; with it, it uses a key prefix of its own and removes only its keys.')
     .action((opts: DemoCommandOptions) => demo(opts));
 }
@@ -29,6 +31,8 @@ export function registerDemo(program: Command): void {
 async function demo(opts: DemoCommandOptions): Promise<void> {
   const feedSeconds = Number(opts.feedSeconds);
   if (!(feedSeconds > 0 && feedSeconds <= 600)) throw new InputError(`--feed-seconds: expected a number of seconds from 0 to 600, got "${opts.feedSeconds}"`);
+  const settleSeconds = Number(opts.settleSeconds);
+  if (!(settleSeconds > 0 && settleSeconds <= 3600)) throw new InputError(`--settle-seconds: expected a number of seconds from 0 to 3600, got "${opts.settleSeconds}"`);
   const text = !opts.json;
   const print = (line: string) => void (text && process.stdout.write(`${line}\n`));
   if (text) for (const line of formatIntro({ redis: process.env.REDIS_URL ? 'REDIS_URL, under a key prefix of its own' : 'a private redis-server from PATH', outDir: opts.out, feedSeconds })) print(line);
@@ -39,7 +43,7 @@ async function demo(opts: DemoCommandOptions): Promise<void> {
   process.once('SIGTERM', abort);
   let run;
   try {
-    run = await runDemo({ outDir: opts.out, configFile: opts.config, feedSeconds, ...(opts.keepOpen && { keepOpen: true }), progress: print, signal: interrupt.signal });
+    run = await runDemo({ outDir: opts.out, configFile: opts.config, feedSeconds, settleSeconds, ...(opts.keepOpen && { keepOpen: true }), progress: print, signal: interrupt.signal });
   } catch (e) {
     if (e instanceof RedisServerMissingError || e instanceof DemoInterrupted) {
       process.stderr.write(`wearshift demo: ${e.message}\n`);
