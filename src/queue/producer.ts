@@ -7,7 +7,7 @@ import type { Queue } from 'bullmq';
 import { connectRedis, type RedisConnection, type RedisTarget } from '../redis/connection.ts';
 import { Partitions } from '../redis/keys.ts';
 import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from './queues.ts';
-import { validateBatch, type RecordOutcome, type ValidationOptions } from '../intake/validate.ts';
+import { validateBatch, type RecordOutcome, type ValidatedRecord, type ValidationOptions } from '../intake/validate.ts';
 import { revisionConflicts } from '../redis/revisionConflicts.ts';
 
 export interface ResultProducerOptions extends Pick<QueueSettings, 'prefix' | 'attempts' | 'backoffMs' | 'keepCompleted' | 'keepFailed'> {
@@ -28,6 +28,14 @@ export interface ResultProducer {
    * not enqueued. Rejects only when Redis cannot take the accepted records (then none of them was enqueued).
    */
   add(events: unknown): Promise<RecordOutcome[]>;
+  /**
+   * Enqueues records that `validateBatch` (or `validateResult`) already accepted, without validating them again:
+   * for a caller that reports validation in its own terms (the import command names the line, or the lab
+   * file's row and column). Resolves with one outcome per record, in order: `accepted`, or `rejected` with
+   * `conflict: true` when its sampleId and revision are already stored with other content. The workers still
+   * validate every job they take.
+   */
+  enqueue(records: readonly ValidatedRecord[]): Promise<RecordOutcome[]>;
   /** Closes the queue, and the connection when the producer opened it. */
   close(): Promise<void>;
 }
@@ -58,28 +66,37 @@ export function createResultProducer(options: ResultProducerOptions): ResultProd
   const partitions = new Partitions(settings.prefix, options.partitions ?? 1);
   const queues: Queue[] = openPartitionedQueues(QUEUE_NAMES.results, redis, settings, partitions);
   const now = options.now ?? Date.now;
+  const enqueue = async (records: readonly ValidatedRecord[]): Promise<Map<number, RecordOutcome>> => {
+    // A sampleId and revision already stored (or earlier in the request) with other content is refused, not lost silently.
+    // Once the connection is ready, as the queue waits for it: a request connection has no offline queue.
+    if (records.length === 0) return new Map();
+    await queues[0]!.waitUntilReady();
+    const conflicts = await revisionConflicts(redis, partitions, records);
+    const accepted = records.filter((r) => !conflicts.has(r.index));
+    // Each result goes to its component's partition (one bulk add per partition).
+    const byPartition = new Map<number, ValidatedRecord[]>();
+    for (const r of accepted) {
+      const p = partitions.of(r.sample);
+      byPartition.set(p, [...(byPartition.get(p) ?? []), r]);
+    }
+    await Promise.all([...byPartition].map(([p, list]) => queues[p]!.addBulk(list.map((r) => ({ name: 'result', data: r.event })))));
+    const issues = new Map<number, RecordOutcome>();
+    for (const [index, issue] of conflicts) {
+      const sampleId = records.find((r) => r.index === index)?.sample.sampleId;
+      issues.set(index, { index, ...(sampleId !== undefined && { sampleId }), status: 'rejected', conflict: true, errors: [issue] });
+    }
+    return issues;
+  };
   return {
     async add(events) {
       const records = Array.isArray(events) ? events : [events];
       const validated = validateBatch(records, { now: now(), ...(options.maxAheadMs !== undefined && { maxAheadMs: options.maxAheadMs }) });
-      // A sampleId and revision already stored (or earlier in the request) with other content is refused, not lost silently.
-      // Once the connection is ready, as the queue waits for it: a request connection has no offline queue.
-      if (validated.accepted.length > 0) await queues[0]!.waitUntilReady();
-      const conflicts = await revisionConflicts(redis, partitions, validated.accepted);
-      const accepted = validated.accepted.filter((r) => !conflicts.has(r.index));
-      const outcomes = validated.outcomes.map((o) => {
-        const issue = conflicts.get(o.index);
-        return issue === undefined ? o : { index: o.index, ...(o.sampleId !== undefined && { sampleId: o.sampleId }), status: 'rejected' as const, conflict: true, errors: [issue] };
-      });
-      // Each result goes to its component's partition (one bulk add per partition).
-      const byPartition = new Map<number, typeof accepted>();
-      for (const r of accepted) {
-        const e = r.event as { unit: string; component: string };
-        const p = partitions.of(e);
-        byPartition.set(p, [...(byPartition.get(p) ?? []), r]);
-      }
-      await Promise.all([...byPartition].map(([p, list]) => queues[p]!.addBulk(list.map((r) => ({ name: 'result', data: r.event })))));
-      return outcomes;
+      const conflicts = await enqueue(validated.accepted);
+      return validated.outcomes.map((o) => conflicts.get(o.index) ?? o);
+    },
+    async enqueue(records) {
+      const conflicts = await enqueue(records);
+      return records.map((r) => conflicts.get(r.index) ?? { index: r.index, sampleId: r.sample.sampleId, status: 'accepted' });
     },
     async close() {
       await Promise.all(queues.map((q) => q.close()));

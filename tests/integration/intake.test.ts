@@ -86,6 +86,24 @@ describe('wearshift import', { timeout: 600_000 }, () => {
     await queue.close();
   });
 
+  it('validates each line once and reports a revision conflict the producer refused by its line, not as enqueued', async () => {
+    const lines = fleetCsv(fleet.slice(0, 3)).trimEnd().split('\n');
+    const header = lines[0]!.split(',');
+    const fe = header.indexOf('Fe');
+    // Line 4 repeats line 3's sampleId and revision with another Fe reading: a correction without a higher revision.
+    const repeat = lines[3]!.split(',');
+    repeat[fe] = String(Number(repeat[fe]) + 50);
+    const file = join(dir, 'conflict.csv');
+    writeFileSync(file, `${[...lines, repeat.join(',')].join('\n')}\n`);
+    const config = join(dir, 'conflict.yaml');
+    writeFileSync(config, 'redis:\n  prefix: "{import-conflict}"\n');
+    const r = await runCli(['import', file, '--config', config, '--json'], { REDIS_URL: server.url });
+    expect(r.code).toBe(1);
+    const out = r.stdout.trim().split('\n').map((l) => JSON.parse(l) as Record<string, unknown>);
+    expect(out.filter((o) => o.type === 'rejected')).toEqual([{ type: 'rejected', line: 5, sampleId: fleet[2]!.sampleId, errors: [expect.objectContaining({ path: 'revision' })] }]);
+    expect(out.at(-1)).toMatchObject({ type: 'summary', records: 4, accepted: 3, rejected: 1, enqueued: 3 });
+  });
+
   it('says clearly when Redis cannot be reached', async () => {
     const file = join(dir, 'clean2.jsonl');
     writeFileSync(file, JSON.stringify(fleet[0]));

@@ -11,7 +11,7 @@ import { InputError } from '../../domain/errors.ts';
 import type { FieldIssue } from '../../domain/event.ts';
 import { formatOf, readRecordFile } from '../../intake/fileRecords.ts';
 import { createResultProducer, type ResultProducer } from '../../queue/producer.ts';
-import { claimedSampleId, validateResult } from '../../intake/validate.ts';
+import { claimedSampleId, validateResult, type ValidatedRecord } from '../../intake/validate.ts';
 import { closeQuietly, connectForCommand, redisTarget, type RedisTarget } from '../../redis/connection.ts';
 import { redisChoice, writeJsonLine } from '../output.ts';
 import { importLabFile } from './importLabFile.ts';
@@ -88,23 +88,24 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
       else process.stderr.write(`${text}\n`);
     }
   };
-  let batch: { line: number; record: unknown }[] = [];
+  // Each record is validated once, here; the producer only enqueues (and refuses a revision conflict).
+  let batch: ValidatedRecord[] = [];
   const flush = async () => {
     if (producer === undefined || batch.length === 0) return;
     let outcomes;
     try {
-      outcomes = await producer.add(batch.map((b) => b.record));
+      outcomes = await producer.enqueue(batch);
     } catch (e) {
       throw new InputError(`Redis refused the results after ${counts.enqueued} were enqueued: ${(e as Error).message}. Import the file again once Redis is back: results already stored are recognised and kept once.`);
     }
     // The producer may still refuse a record (a correction without a higher revision): reported like any other.
-    outcomes.forEach((o, i) => {
+    for (const o of outcomes) {
       if (o.status === 'accepted') counts.enqueued += 1;
       else {
         counts.accepted -= 1;
-        report(batch[i]!.line, o.sampleId, o.errors ?? []);
+        report(o.index, o.sampleId, o.errors ?? []);
       }
-    });
+    }
     batch = [];
   };
   try {
@@ -122,7 +123,7 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
           // Said in the summary, not guessed silently: a record without oilChanged is taken as "no oil change".
           if (typeof r.record === 'object' && r.record !== null && !('oilChanged' in r.record)) counts.noOilChanged += 1;
           // A dry run keeps nothing: memory stays flat however long the file.
-          if (producer !== undefined) batch.push({ line: r.line, record: r.record });
+          if (producer !== undefined) batch.push({ index: r.line, event: r.record, sample: parsed.sample });
           if (batch.length >= batchSize) await flush();
         } else report(r.line, claimedSampleId(r.record), parsed.issues);
       }
@@ -166,6 +167,7 @@ async function connectProducer(target: RedisTarget, prefix: string, partitions: 
   const producer = createResultProducer({ connection: redis, prefix, partitions });
   return {
     add: (events) => producer.add(events),
+    enqueue: (records) => producer.enqueue(records),
     async close() {
       await producer.close();
       await closeQuietly(redis);

@@ -11,7 +11,7 @@ import { loadLabMapping } from '../../intake/labFiles/loadMapping.ts';
 import type { LabIssue } from '../../intake/labFiles/labRecordReader.ts';
 import { readLabFile } from '../../intake/labFiles/readLabFile.ts';
 import type { ResultProducer } from '../../queue/producer.ts';
-import { validateResult } from '../../intake/validate.ts';
+import { validateResult, type ValidatedRecord } from '../../intake/validate.ts';
 import { writeJsonLine } from '../output.ts';
 
 export interface LabImportOptions {
@@ -46,25 +46,36 @@ export async function importLabFile(file: string, opts: LabImportOptions): Promi
   const progress = bar?.create(size, 0, { accepted: 0, rejected: 0 });
   const counts = { records: 0, accepted: 0, rejected: 0, enqueued: 0, shown: 0 };
   const say = (text: string) => (bar ? bar.log(`${text}\n`) : process.stderr.write(`${text}\n`));
-  let batch: unknown[] = [];
+  // Each sample is validated once, by the reader (so that an error names its row and column); the producer only
+  // enqueues, and refuses a sampleId and revision already stored with other content.
+  let batch: ValidatedRecord[] = [];
+  const reject = (row: number, sampleId: string | undefined, issues: readonly LabIssue[]) => {
+    counts.rejected += 1;
+    if (opts.json) writeJsonLine({ type: 'rejected', row, ...(sampleId !== undefined && { sampleId }), errors: issues });
+    else for (const i of issues) say(`${describeLabIssue(i)}${sampleId === undefined ? '' : ` [sampleId ${sampleId}]`}`);
+  };
   const flush = async () => {
     if (producer === undefined || batch.length === 0) return;
+    let outcomes;
     try {
-      await producer.add(batch);
+      outcomes = await producer.enqueue(batch);
     } catch (e) {
       throw new InputError(`Redis refused the results after ${counts.enqueued} were enqueued: ${(e as Error).message}. Import the file again once Redis is back: results already stored are recognised and kept once.`);
     }
-    counts.enqueued += batch.length;
+    for (const o of outcomes) {
+      if (o.status === 'accepted') counts.enqueued += 1;
+      else {
+        counts.accepted -= 1;
+        reject(o.index, o.sampleId, (o.errors ?? []).map((e) => ({ row: o.index, ...(e.path !== '' && { field: e.path }), reason: e.reason })));
+      }
+    }
     batch = [];
   };
   try {
     for await (const r of records) {
       counts.records += 1;
-      if (r.status === 'rejected') {
-        counts.rejected += 1;
-        if (opts.json) writeJsonLine({ type: 'rejected', row: r.row, ...(r.sampleId !== undefined && { sampleId: r.sampleId }), errors: r.issues });
-        else for (const i of r.issues) say(`${describeLabIssue(i)}${r.sampleId === undefined ? '' : ` [sampleId ${r.sampleId}]`}`);
-      } else {
+      if (r.status === 'rejected') reject(r.row, r.sampleId, r.issues);
+      else {
         counts.accepted += 1;
         if (opts.dryRun && counts.shown < opts.show) {
           counts.shown += 1;
@@ -72,7 +83,7 @@ export async function importLabFile(file: string, opts: LabImportOptions): Promi
           else process.stdout.write(`row ${r.row} → ${JSON.stringify(r.event)}\n`);
         }
         if (producer !== undefined) {
-          batch.push(r.event);
+          batch.push({ index: r.row, event: r.event, sample: r.sample });
           if (batch.length >= opts.batchSize) await flush();
         }
       }
