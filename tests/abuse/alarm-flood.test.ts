@@ -8,8 +8,6 @@
 import { randomBytes } from 'node:crypto';
 import { createServer, type Server } from 'node:http';
 import type { AddressInfo } from 'node:net';
-import { simpleParser } from 'mailparser';
-import { SMTPServer } from 'smtp-server';
 import { Webhook } from 'standardwebhooks';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
@@ -17,6 +15,7 @@ import { createResultProducer } from '../../src/queue/producer.ts';
 import { notificationChannels } from '../../src/channels/openChannels.ts';
 import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
+import { startMailReceiver, type MailReceiver } from '../../src/demo/mailReceiver.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const WEBHOOK_SECRET = `whsec_${randomBytes(24).toString('base64')}`;
@@ -35,7 +34,7 @@ interface Received {
 }
 
 let redis: RedisServer;
-let smtp: SMTPServer;
+let smtp: MailReceiver;
 let receiver: Server;
 let workers: RunningWorkers;
 const mail: Received[] = [];
@@ -52,28 +51,18 @@ async function until(what: string, probe: () => boolean, timeoutMs: number): Pro
 
 beforeAll(async () => {
   redis = await startRedisServer();
-  smtp = new SMTPServer({
-    authOptional: true,
-    disabledCommands: ['STARTTLS'],
-    logger: false,
-    onData(stream, _session, callback) {
-      simpleParser(stream)
-        .then((m) => {
-          const type = m.headers.get('x-wearshift-type');
-          if (type === 'flood-summary') {
-            summaryTexts.push(m.text ?? '');
-            const ids = [...(m.text ?? '').matchAll(/ · (FL-\d+\/gearbox@[^\s]+)$/gm)].map((x) => x[1]!);
-            mail.push({ at: Date.now(), kind: 'summary', incidents: ids });
-          } else {
-            const id = /Incident (FL-\d+\/gearbox@\S+) on /.exec(m.text ?? '')?.[1];
-            mail.push({ at: Date.now(), kind: 'single', incidents: id === undefined ? [] : [id] });
-          }
-          callback();
-        })
-        .catch(callback);
-    },
+  smtp = await startMailReceiver();
+  smtp.onMail(({ receivedAt, parsed: m }) => {
+    const type = m.headers.get('x-wearshift-type');
+    if (type === 'flood-summary') {
+      summaryTexts.push(m.text ?? '');
+      const ids = [...(m.text ?? '').matchAll(/ · (FL-\d+\/gearbox@[^\s]+)$/gm)].map((x) => x[1]!);
+      mail.push({ at: receivedAt, kind: 'summary', incidents: ids });
+    } else {
+      const id = /Incident (FL-\d+\/gearbox@\S+) on /.exec(m.text ?? '')?.[1];
+      mail.push({ at: receivedAt, kind: 'single', incidents: id === undefined ? [] : [id] });
+    }
   });
-  await new Promise<void>((resolve) => smtp.listen(0, '127.0.0.1', () => resolve()));
   const verifier = new Webhook(WEBHOOK_SECRET);
   receiver = createServer((req, res) => {
     const chunks: Buffer[] = [];
@@ -108,7 +97,7 @@ escalation:
 channels:
   email:
     from: "wearshift <alerts@waterworks.example>"
-    smtp: { host: 127.0.0.1, port: ${(smtp.server.address() as AddressInfo).port}, secure: false }
+    smtp: { host: 127.0.0.1, port: ${smtp.port}, secure: false }
   webhooks:
     - { name: control-room, url: "http://127.0.0.1:${(receiver.address() as AddressInfo).port}/hooks", secrets: [FLOOD_TEST_WEBHOOK_SECRET] }
   floodControl: { maxMessages: ${MAX}, windowMinutes: ${WINDOW_MINUTES} }
@@ -122,7 +111,7 @@ channels:
 
 afterAll(async () => {
   await workers?.close();
-  await new Promise<void>((resolve) => (smtp ? smtp.close(() => resolve()) : resolve()));
+  await smtp?.close();
   await new Promise<void>((resolve) => (receiver ? receiver.close(() => resolve()) : resolve()));
   await redis?.dispose();
 });
