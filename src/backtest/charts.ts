@@ -4,7 +4,7 @@
  * whole history, as the board draws them.
  */
 import { buildComponentSeries } from '../charts/componentSeries.ts';
-import { renderTrendChart } from '../charts/trendChart.ts';
+import { renderTrendChart } from '../charts/trendChart/trendChart.ts';
 import type { Measurand } from '../domain/measurands.ts';
 import type { ComponentRun } from './run.ts';
 

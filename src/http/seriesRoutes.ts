@@ -10,7 +10,7 @@
  * process, and a chart draws at most the pool's sample budget (the latest samples; the heading says so).
  */
 import type { FastifyPluginAsync, FastifyReply, FastifyRequest, preHandlerAsyncHookHandler } from 'fastify';
-import { DEFAULT_CHART_WIDTH } from '../charts/trendChart.ts';
+import { DEFAULT_CHART_WIDTH } from '../charts/trendChart/trendChart.ts';
 import { isMeasurand, type Measurand } from '../domain/measurands.ts';
 import type { ChartJob, ChartJobResult } from '../render/chartJob.ts';
 import { ChartPool } from '../render/chartPool.ts';

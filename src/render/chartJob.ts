@@ -7,7 +7,7 @@ import { chartAltText } from '../charts/altText.ts';
 import { renderChartPng } from '../charts/chartPng.ts';
 import { latestWindow } from '../charts/chartWindow.ts';
 import { buildComponentSeries, type ComponentSeries } from '../charts/componentSeries.ts';
-import { renderTrendChart } from '../charts/trendChart.ts';
+import { renderTrendChart } from '../charts/trendChart/trendChart.ts';
 import type { MeasurandReadiness } from '../analysis/readiness.ts';
 import type { Measurand } from '../domain/measurands.ts';
 import { monthOf } from '../pipeline/groupShares.ts';

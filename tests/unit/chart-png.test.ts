@@ -1,7 +1,7 @@
 import { PNG } from 'pngjs';
 import { describe, expect, it } from 'vitest';
 import { renderChartPng } from '../../src/charts/chartPng.ts';
-import { renderTrendChart } from '../../src/charts/trendChart.ts';
+import { renderTrendChart } from '../../src/charts/trendChart/trendChart.ts';
 import { fixtureSeries } from './chart-fixtures.ts';
 
 /** Pixels clearly darker than the chart's grey ground. */

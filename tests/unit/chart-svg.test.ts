@@ -5,7 +5,7 @@ type Element = ReturnType<typeof DomUtils.findAll>[number];
 
 import { chartAltText } from '../../src/charts/altText.ts';
 import type { ComponentSeries } from '../../src/charts/componentSeries.ts';
-import { renderTrendChart } from '../../src/charts/trendChart.ts';
+import { renderTrendChart } from '../../src/charts/trendChart/trendChart.ts';
 import { evaluateComponent } from '../../src/analysis/evaluate.ts';
 import { buildComponentSeries } from '../../src/charts/componentSeries.ts';
 import { fixtureSeries, fixtureSettings } from './chart-fixtures.ts';

@@ -10,7 +10,7 @@ import { afterEach, describe, expect, it, vi } from 'vitest';
 import { evaluateComponent } from '../../src/analysis/evaluate.ts';
 import { forecastComponent } from '../../src/analysis/forecast/forecastComponent.ts';
 import { buildComponentSeries } from '../../src/charts/componentSeries.ts';
-import { renderTrendChart } from '../../src/charts/trendChart.ts';
+import { renderTrendChart } from '../../src/charts/trendChart/trendChart.ts';
 import { FORECAST_CAUTION } from '../../src/domain/caution.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import type { Sample } from '../../src/domain/event.ts';
