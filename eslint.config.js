@@ -3,7 +3,7 @@ import tseslint from 'typescript-eslint';
 import layers from './eslint/layers.js';
 
 export default tseslint.config(
-  { ignores: ['node_modules/**', 'demo/out/**', 'schemas/**', 'coverage/**'] },
+  { ignores: ['node_modules/**', 'dist/**', 'demo/out/**', 'schemas/**', 'coverage/**'] },
   js.configs.recommended,
   ...tseslint.configs.recommended,
   {

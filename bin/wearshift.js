@@ -1,12 +1,30 @@
 #!/usr/bin/env node
-// The command runs the TypeScript sources through tsx so that a fresh `npm ci` needs no build step.
-import { register } from 'tsx/esm/api';
+// Runs the compiled build in dist/ (made by `npm ci` through the prepare script, or `npm run build`) while it matches
+// the sources; otherwise — sources edited since, or a production install without TypeScript — it runs the
+// TypeScript sources through tsx, so a fresh clone needs no separate build step and a stale build is never run.
+import { readFileSync } from 'node:fs';
+import { fileURLToPath } from 'node:url';
+import { sourceSignature } from './sourceSignature.mjs';
 
-register();
+const root = fileURLToPath(new URL('../', import.meta.url));
+function builtFromTheseSources() {
+  try {
+    return readFileSync(`${root}dist/.source-signature`, 'utf8') === sourceSignature(`${root}src`);
+  } catch {
+    return false;
+  }
+}
+
 // A reader that stops early (`wearshift chart ... | head`) is not an error.
 process.stdout.on('error', (e) => {
   if (e.code === 'EPIPE') process.exit(0);
   throw e;
 });
-const { main } = await import('../src/cli/main.ts');
+let main;
+if (builtFromTheseSources()) ({ main } = await import('../dist/cli/main.js'));
+else {
+  const { register } = await import('tsx/esm/api');
+  register();
+  ({ main } = await import('../src/cli/main.ts'));
+}
 process.exitCode = await main(process.argv.slice(2));

@@ -1,51 +1,40 @@
-/** The `wearshift` command line. Each command lives in its own module under ./commands. */
+/** The `wearshift` command line. Each command lives in its own module under ./commands, loaded only when it runs. */
 import { ADVISORY_CAUTION } from '../domain/caution.ts';
 import { readFileSync } from 'node:fs';
-import { Command, CommanderError } from 'commander';
+import { Command, CommanderError, Help } from 'commander';
 import { InputError } from '../domain/errors.ts';
-import { registerDocs } from './commands/docs.ts';
-import { registerSchema } from './commands/schema.ts';
-import { registerChart } from './commands/chart.ts';
-import { registerDesign } from './commands/design.ts';
-import { registerIncidents } from './commands/incidents.ts';
-import { registerDemo } from './commands/demo.ts';
-import { registerApi } from './commands/api.ts';
-import { registerBacktest } from './commands/backtest.ts';
-import { registerFailed } from './commands/failed.ts';
-import { registerImport } from './commands/import.ts';
-import { registerReplay } from './commands/replay.ts';
-import { registerServe } from './commands/serve.ts';
-import { registerWorker } from './commands/worker.ts';
+import { COMMANDS, type CommandEntry } from './commandIndex.ts';
 
-const CAUTION =
-  ADVISORY_CAUTION;
-
-export function buildProgram(): Command {
+/**
+ * The program with every command listed and `load` (or, by default, none) loaded in full. A command not loaded is
+ * there by name and summary only: enough for `wearshift --help`, for "did you mean" and for `help <command>` to
+ * name it; `main` loads the one the arguments call for.
+ */
+export async function buildProgram(load: (entry: CommandEntry) => boolean = () => false): Promise<Command> {
   const program = new Command('wearshift')
     .description('Early warnings from used-oil analysis: wear-rate change detection beside classic limits, incidents and escalation.')
     .version(packageVersion(), '-V, --version', 'print the version of wearshift')
-    .addHelpText('after', `\nEnvironment: REDIS_URL, REDIS_CLUSTER_NODES (host:port,… of a Redis Cluster), WEARSHIFT_CONFIG, PORT, WEARSHIFT_TOKEN_INGEST, WEARSHIFT_TOKEN_RESPONDER, WEARSHIFT_TOKEN_VIEWER.\n\n${CAUTION}`)
+    .addHelpText('after', `\nEnvironment: REDIS_URL, REDIS_CLUSTER_NODES (host:port,… of a Redis Cluster), WEARSHIFT_CONFIG, PORT, WEARSHIFT_TOKEN_INGEST, WEARSHIFT_TOKEN_RESPONDER, WEARSHIFT_TOKEN_VIEWER.\n\n${ADVISORY_CAUTION}`)
     .showHelpAfterError()
     .exitOverride();
-  // What an engineer runs first; the tools for people who change wearshift itself come last.
-  program.commandsGroup('Try it and run it:');
-  registerDemo(program);
-  registerServe(program);
-  registerWorker(program);
-  registerApi(program);
-  program.commandsGroup('Results and incidents:');
-  registerImport(program);
-  registerIncidents(program);
-  registerReplay(program);
-  registerFailed(program);
-  program.commandsGroup('Tuning and checking the detectors:');
-  registerDesign(program);
-  registerBacktest(program);
-  registerChart(program);
-  program.commandsGroup('For developers of wearshift:');
-  registerSchema(program);
-  registerDocs(program);
+  const usage = new Map(COMMANDS.map((c) => [c.name, c.usage]));
+  const defaultTerm = new Help().subcommandTerm.bind(new Help());
+  program.configureHelp({ subcommandTerm: (cmd) => (usage.has(cmd.name()) ? `${cmd.name()} ${usage.get(cmd.name())}`.trimEnd() : defaultTerm(cmd)) });
+  // What an engineer runs first; the tools for people who change wearshift itself come last (the order of COMMANDS).
+  let group: string | undefined;
+  for (const entry of COMMANDS) {
+    if (entry.group !== group) program.commandsGroup((group = entry.group));
+    if (load(entry)) await entry.register(program);
+    else program.command(entry.name);
+    program.commands.find((c) => c.name() === entry.name)!.description(entry.summary);
+  }
   return program;
+}
+
+/** The command the arguments call for (`wearshift <name> …` or `wearshift help <name>`), if any. */
+function calledFor(argv: readonly string[]): string | undefined {
+  const words = argv.filter((a) => !a.startsWith('-'));
+  return words[0] === 'help' ? words[1] : words[0];
 }
 
 /** The version in package.json, read next to the sources (works from any directory, and through npm link). */
@@ -55,7 +44,8 @@ function packageVersion(): string {
 }
 
 export async function main(argv: string[]): Promise<number> {
-  const program = buildProgram();
+  const called = calledFor(argv);
+  const program = await buildProgram((entry) => entry.name === called);
   try {
     await program.parseAsync(argv, { from: 'user' });
     return typeof process.exitCode === 'number' ? process.exitCode : 0;

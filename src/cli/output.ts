@@ -3,7 +3,7 @@ import { ADVISORY_CAUTION } from '../domain/caution.ts';
 import { InvalidArgumentError } from 'commander';
 import type { Config } from '../domain/config.ts';
 import { InputError } from '../domain/errors.ts';
-import { describeTarget, redisTarget } from '../redis/connection.ts';
+import { describeTarget, redisTarget } from '../redis/target.ts';
 
 export function writeJsonLine(value: unknown, out: NodeJS.WritableStream = process.stdout): void {
   out.write(`${JSON.stringify(value)}\n`);

@@ -4,38 +4,13 @@
  * commands while Redis is away, so they get a connection without the offline queue.
  */
 import { Cluster, Redis, type ClusterOptions, type RedisOptions } from 'ioredis';
-import type { Config } from '../domain/config.ts';
 import { InputError } from '../domain/errors.ts';
 import { maskUrl, type Logger } from '../telemetry/logger.ts';
 
-export const DEFAULT_REDIS_URL = 'redis://127.0.0.1:6379';
-
-/** One Redis by URL, or a Redis Cluster by its seed nodes. */
-export type RedisTarget = { readonly kind: 'single'; readonly url: string } | { readonly kind: 'cluster'; readonly nodes: readonly { host: string; port: number }[] };
+export { DEFAULT_REDIS_URL, describeTarget, redisTarget, redisUrl, type RedisTarget } from './target.ts';
+import { describeTarget, type RedisTarget } from './target.ts';
 
 export type RedisConnection = Redis | Cluster;
-
-/** `REDIS_URL` wins over the configuration file, which wins over the local default. */
-export function redisUrl(config: Pick<Config, 'redis'>, env: NodeJS.ProcessEnv = process.env): string {
-  return env.REDIS_URL || config.redis.url || DEFAULT_REDIS_URL;
-}
-
-/** `REDIS_CLUSTER_NODES=host:port,host:port` (or `redis.cluster.nodes`) names a cluster; otherwise one Redis by URL. */
-export function redisTarget(config: Pick<Config, 'redis'>, env: NodeJS.ProcessEnv = process.env): RedisTarget {
-  const listed = env.REDIS_CLUSTER_NODES?.split(',').map((s) => s.trim()).filter((s) => s !== '') ?? config.redis.cluster?.nodes;
-  if (listed === undefined || listed.length === 0) return { kind: 'single', url: redisUrl(config, env) };
-  const nodes = listed.map((n) => {
-    const m = /^([^\s:]+):(\d{1,5})$/.exec(n);
-    if (!m) throw new InputError(`REDIS_CLUSTER_NODES / redis.cluster.nodes: "${n}" is not host:port`);
-    return { host: m[1]!, port: Number(m[2]) };
-  });
-  return { kind: 'cluster', nodes };
-}
-
-/** For logs and messages: the URL without its password, or the seed nodes. */
-export function describeTarget(t: RedisTarget): string {
-  return t.kind === 'single' ? maskUrl(t.url) : `cluster ${t.nodes.map((n) => `${n.host}:${n.port}`).join(',')}`;
-}
 
 export type ConnectionRole = 'worker' | 'request';
 

@@ -5,7 +5,6 @@ import { runService, type ServiceCommandOptions } from '../../runtime/runService
 export function registerApi(program: Command): void {
   program
     .command('api')
-    .description('run the HTTP API only; results are queued for workers started with `wearshift worker`')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--port <n>', 'HTTP port (default: PORT, else 8080)')
     .option('--opcua-port <n>', 'also serve OPC UA Alarms & Conditions on this opc.tcp port (default: opcua.port of the configuration, else off)')

@@ -44,7 +44,6 @@ Give --out, --json or both. Exit code 1 when records were rejected (the rest is 
 export function registerBacktest(program: Command): void {
   program
     .command('backtest')
-    .description('replay a history in-process (no Redis) and report what each rule family would have caught, and how early, as one HTML file')
     .argument('<file>', 'CSV or JSONL history, as for import')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG, else the built-in defaults)')
     .option('--format <format>', 'csv or jsonl (default: from the file name)')

@@ -48,8 +48,7 @@ interface CommonOptions {
 
 export function registerChart(program: Command, io: ChartIo = { input: process.stdin, output: process.stdout }): void {
   const chart = program
-    .command('chart')
-    .description('run one detector (EWMA or CUSUM) over a plain series of numbers from stdin; parameters in sigma units');
+    .command('chart');
   const common = (c: Command) =>
     c
       .requiredOption('--target <T>', 'in-control mean of the series', numberOption('target'))

@@ -17,7 +17,6 @@ interface DemoCommandOptions {
 export function registerDemo(program: Command): void {
   program
     .command('demo')
-    .description('play the invented demo fleet through workers, API, e-mail and webhooks; print when each rule caught each fault')
     .option('--keep-open', 'leave the API running afterwards (Ctrl-C ends it) and print its address, a viewer token and a responder token')
     .option('--json', 'print the report as one JSON line instead of text')
     .option('--out <dir>', 'where the received e-mails (.eml) and webhook deliveries (.json) go', 'demo/out')

@@ -168,7 +168,7 @@ function common(c: Command, parameter: string): Command {
 }
 
 export function registerDesign(program: Command, output: NodeJS.WritableStream = process.stdout): void {
-  const design = program.command('design').description('average run lengths of EWMA or CUSUM parameters, or the h / L that meets a target in-control run length; the noise a configuration gives');
+  const design = program.command('design');
 
   common(
     design

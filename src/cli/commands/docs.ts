@@ -8,7 +8,6 @@ import { writeSchemas } from './schema.ts';
 export function registerDocs(program: Command): void {
   program
     .command('docs')
-    .description('rewrite the configuration and lab mapping references in README.md and the JSON Schemas in schemas/ from the code')
     .option('--readme <file>', 'README to update', 'README.md')
     .option('--schemas <dir>', 'directory for the JSON Schemas', 'schemas')
     .action((opts: { readme: string; schemas: string }) => {

@@ -33,7 +33,7 @@ function queuesOf(opts: FailedOptions): QueueName[] {
 }
 
 export function registerFailed(program: Command): void {
-  const failed = program.command('failed').description('failed jobs: list them with their reasons, retry them after a fix');
+  const failed = program.command('failed');
   failed
     .command('list')
     .description('list failed jobs (newest first per queue)')

@@ -31,7 +31,6 @@ interface ImportOptions {
 export function registerImport(program: Command): void {
   program
     .command('import')
-    .description('validate a CSV or JSONL file of lab results and enqueue the valid ones, with a per-line error report')
     .argument('<file>', 'CSV (event field names as columns, readings as extra columns) or JSONL (one event per line)')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--format <format>', 'csv or jsonl; with --map csv or xlsx (default: from the file name)')

@@ -121,7 +121,7 @@ function actionCommand(parent: Command, name: string, description: string, confi
 }
 
 export function registerIncidents(program: Command): void {
-  const incidents = program.command('incidents').description('list, show, acknowledge, shelve and resolve incidents');
+  const incidents = program.command('incidents');
 
   incidents
     .command('list')

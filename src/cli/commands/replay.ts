@@ -28,7 +28,6 @@ interface ReplayCommandOptions {
 export function registerReplay(program: Command): void {
   program
     .command('replay')
-    .description('run intake, evaluation and incidents in-process on a CSV or JSONL history (no Redis); print findings and incident changes in time order, then the open incidents with their time-to-limit forecasts')
     .argument('<file>', 'CSV or JSONL, as for import')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--format <format>', 'csv or jsonl (default: from the file name)')

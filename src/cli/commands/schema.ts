@@ -34,7 +34,6 @@ export function publishedSchemas(): Record<string, unknown> {
 export function registerSchema(program: Command): void {
   program
     .command('schema')
-    .description('write the JSON Schemas of the result event, the configuration and the lab mapping, and the OpenAPI and AsyncAPI documents')
     .option('--out <dir>', 'directory to write into', 'schemas')
     .action((opts: { out: string }) => writeSchemas(opts.out));
 }

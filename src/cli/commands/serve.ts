@@ -5,7 +5,6 @@ import { runService, type ServiceCommandOptions } from '../../runtime/runService
 export function registerServe(program: Command): void {
   program
     .command('serve')
-    .description('run the queue workers and the HTTP API in one process (graceful shutdown on SIGTERM/SIGINT)')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--port <n>', 'HTTP port (default: PORT, else 8080)')
     .option('--opcua-port <n>', 'also serve OPC UA Alarms & Conditions on this opc.tcp port (default: opcua.port of the configuration, else off)')

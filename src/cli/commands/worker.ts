@@ -5,7 +5,6 @@ import { runService, type ServiceCommandOptions } from '../../runtime/runService
 export function registerWorker(program: Command): void {
   program
     .command('worker')
-    .description('run the queue workers only (results, evaluate, notify, escalate); several may share one Redis or Redis Cluster (REDIS_CLUSTER_NODES)')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--metrics-port <n>', 'also serve /healthz, /readyz and /metrics on this port')
     .option('--shutdown-timeout <seconds>', 'longest wait for active jobs and connections at shutdown', '10')
