@@ -2,7 +2,7 @@
  * How times and numbers read in messages and pages. One time format everywhere a person reads a time (e-mail,
  * acknowledgement page, board, `wearshift incidents`, `wearshift replay`): ISO 8601 to the minute with its zone,
  * `2026-03-01T08:00Z` in UTC (the default) or `2026-03-01T09:00+01:00` in the site zone `display.timeZone`. The
- * board (src/board/board.js) carries a copy of `formatTime` for the browser; an e2e test compares the two.
+ * board (src/board/format.js) carries a copy of `formatTime` for the browser; an e2e test compares the two.
  */
 import { oneLine } from '../domain/safeText.ts';
 

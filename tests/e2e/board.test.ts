@@ -26,6 +26,8 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
   let profile: string;
   let page: Page;
   const problems: string[] = [];
+  /** The board's scripts the first page fetched (the entry and the ES modules it imports), by file name. */
+  const scripts = new Map<string, { status: number; type: string }>();
   const saved = { ...process.env };
 
   const watch = (p: Page, into: string[]) => {
@@ -67,6 +69,10 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     });
     page = await context.newPage();
     watch(page, problems);
+    page.on('response', (r) => {
+      const name = /^\/board\/([^/]+\.js)$/.exec(new URL(r.url()).pathname)?.[1];
+      if (name !== undefined) scripts.set(name, { status: r.status(), type: r.headers()['content-type'] ?? '' });
+    });
   });
 
   afterAll(async () => {
@@ -95,6 +101,9 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     expect(labels).toHaveLength(expected.length);
     for (const label of labels) expect(label).toMatch(/^(Trend of|ISO 4406 cleanliness of)/);
     expect(await page.locator('.incident .chart svg .mark').count()).toBeGreaterThan(0);
+    // The entry script and the ES modules it imports all came from /board/ as JavaScript, under the page's policy.
+    expect([...scripts.keys()]).toEqual(expect.arrayContaining(['board.js', 'boardView.js', 'card.js', 'liveEvents.js', 'session.js', 'sampleVerdict.js']));
+    for (const [name, script] of scripts) expect(script, name).toEqual({ status: 200, type: expect.stringMatching(/^text\/javascript/) });
   });
 
   it("shows each incident's time to limit, as the API gives it, with the caution that it assumes the present rate continues", async () => {

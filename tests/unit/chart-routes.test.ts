@@ -102,6 +102,30 @@ describe('board routes', () => {
     expect((await app.inject({ method: 'GET', url: '/board/../http/auth.ts' })).statusCode).toBe(404);
   });
 
+  it('serve every module the board script imports, as JavaScript, and nothing that is not a board asset', async () => {
+    // Follow the imports from the entry script through every module it reaches, as the browser does.
+    const seen = new Set<string>();
+    const queue = ['board.js'];
+    while (queue.length > 0) {
+      const name = queue.shift()!;
+      if (seen.has(name)) continue;
+      seen.add(name);
+      const script = await app.inject({ method: 'GET', url: `/board/${name}` });
+      expect(script.statusCode, name).toBe(200);
+      expect(script.headers['content-type'], name).toMatch(/^text\/javascript/);
+      expect(script.headers['x-content-type-options'], name).toBe('nosniff');
+      for (const [, target] of script.body.matchAll(/^import\s[^;]*?from\s+'([^']+)';/gm)) {
+        expect(target, `${name} imports ${target}`).toMatch(/^\.\/[a-z][a-zA-Z0-9-]*\.js$/);
+        queue.push(target!.slice(2));
+      }
+    }
+    expect(seen.size).toBeGreaterThan(5);
+    for (const url of ['/board/nope.js', '/board/board.html', '/board/.hidden.js', '/board/Board.js', '/board/..%2Fhttp%2Fauth.ts', '/board/%2e%2e%2Fboard.js', '/board/modules/board.js']) {
+      const missing = await app.inject({ method: 'GET', url });
+      expect(missing.statusCode, url).toBe(404);
+    }
+  });
+
   it('tell the page which roles its token holds', async () => {
     expect((await app.inject({ method: 'GET', url: '/v1/session', headers: viewer })).json()).toEqual({ roles: ['viewer'], timeZone: 'UTC' });
     expect((await app.inject({ method: 'GET', url: '/v1/session', headers: { authorization: 'Bearer resp-1' } })).json()).toEqual({ roles: ['responder'], timeZone: 'UTC' });

@@ -1,0 +1,158 @@
+/*
+ * An incident card, on the board and on the incident page: its severity, state, evidence and forecasts, the trend
+ * of its leading measurand, and acknowledge / shelve / resolve with a note (enabled for a responder token only).
+ */
+import { setStatus } from './cardStatus.js';
+import { loadChart } from './chart.js';
+import { announce, el } from './dom.js';
+import { duration, formatTime } from './format.js';
+import { bySeverity, FORECAST_CAUTION, measurandsOf, severityBadge, stateWords, waitingSince } from './incidentText.js';
+import { view } from './page.js';
+import { componentPath, incidentPagePath, incidentPath } from './paths.js';
+import { scheduleReload } from './reload.js';
+import { createSampleVerdict, listenForVerdicts, updateSampleVerdict } from './sampleVerdict.js';
+import { api, canAct, problemText, session } from './session.js';
+
+/** Findings a card on the board shows; the rest are a link away, on the incident page. */
+const CARD_EVIDENCE = 3;
+const SHELVE_CHOICES = [
+  ['1', '1 hour'],
+  ['8', '8 hours'],
+  ['24', '24 hours'],
+  ['72', '3 days'],
+];
+
+/** Incidents on the page by id, with the DOM of their card. */
+export const cards = new Map();
+
+export function createCard(incident) {
+  const id = `inc-${cards.size}-${Date.now().toString(36)}`;
+  const title = el('h3', { id: `${id}-title` });
+  const node = el('li', { class: 'incident', 'aria-labelledby': `${id}-title`, 'data-incident': incident.id });
+  const badge = el('span');
+  const state = el('p', { class: 'state' });
+  const evidence = el('ul', { class: 'evidence', 'aria-label': 'Evidence, most severe first' });
+  const chartCaption = el('p', { class: 'chart-caption' });
+  const chart = el('div', { class: 'chart' }, el('p', { class: 'loading', text: 'Loading the trend chart…' }));
+  const note = el('textarea', { id: `${id}-note`, maxlength: '2000', rows: '2' });
+  const shelveFor = el('select', { id: `${id}-shelve`, 'aria-label': 'Shelve for' }, ...SHELVE_CHOICES.map(([value, label]) => el('option', { value, text: label })));
+  const status = el('p', { class: 'action-status', role: 'status' });
+  const buttons = {
+    ack: el('button', { type: 'button', 'data-action': 'ack', text: 'Acknowledge' }),
+    shelve: el('button', { type: 'button', 'data-action': 'shelve', text: 'Shelve' }),
+    resolve: el('button', { type: 'button', 'data-action': 'resolve', text: 'Resolve' }),
+  };
+  const viewerNote = el('p', { class: 'hint', id: `${id}-why`, hidden: true, text: 'Acknowledge, shelve and resolve need a responder token; this token is a viewer token.' });
+  // A sampling incident asks whoever takes samples, or the lab, whether the sample in doubt is genuine.
+  const { verdicts, sampleQuestion, sampleRow } = createSampleVerdict();
+  const actions = el(
+    'div',
+    { class: 'actions', role: 'group', 'aria-label': 'Respond' },
+    el('label', { for: `${id}-note`, text: 'Note' }, el('span', { class: 'hint', text: ' (required to shelve or resolve)' })),
+    note,
+    el('div', { class: 'action-row' }, buttons.ack, buttons.shelve, shelveFor, buttons.resolve),
+    sampleRow,
+    viewerNote,
+    status,
+  );
+  node.append(el('div', { class: 'incident-head' }, badge, title), state, evidence, chartCaption, chart, actions);
+  const card = { node, title, badge, state, evidence, chartCaption, chart, note, shelveFor, status, buttons, viewerNote, incident, chartKey: '', verdicts, sampleRow, sampleQuestion };
+  for (const [action, button] of Object.entries(buttons)) button.addEventListener('click', () => act(card, action));
+  listenForVerdicts(card);
+  return card;
+}
+
+export function updateCard(card, incident) {
+  card.incident = incident;
+  const { node } = card;
+  node.dataset.severity = incident.severity;
+  node.dataset.acknowledged = String(Boolean(incident.acknowledged));
+  card.badge.replaceChildren(severityBadge(incident.severity, incident.peakSeverity));
+  const measurands = measurandsOf(incident);
+  card.title.replaceChildren(
+    el('a', { href: componentPath(incident.unit, incident.component), text: `${incident.unit} / ${incident.component}` }),
+    measurands.length > 0 ? ` — ${measurands.join(', ')}` : '',
+  );
+  renderState(card);
+  // Most severe first: the first one always carries the incident's severity. The board's cards show the first
+  // few; the incident page shows every one.
+  const evidence = bySeverity(incident.evidence);
+  const shown = view === 'incident' ? evidence : evidence.slice(0, CARD_EVIDENCE);
+  const forecasts = (incident.forecast ?? []).slice(0, 4);
+  card.evidence.replaceChildren(
+    ...shown.map((f) => el('li', { 'data-severity': f.severity }, el('strong', { text: `${f.measurand} · ${f.severity} · ${f.rule}: ` }), f.explanation)),
+    evidence.length > shown.length
+      ? el('li', { class: 'more' }, el('a', { href: incidentPagePath(incident.id), text: `${evidence.length - shown.length} more ${evidence.length - shown.length === 1 ? 'finding' : 'findings'} on the incident page` }))
+      : null,
+    ...forecasts.map((f) => el('li', { class: 'forecast', 'data-forecast': f.outcome }, el('strong', { text: 'time to limit: ' }), f.text)),
+    ...(forecasts.length > 0 ? [el('li', { class: 'forecast-caution', text: FORECAST_CAUTION })] : []),
+  );
+  const enabled = canAct() && !incident.closed;
+  for (const button of Object.values(card.buttons)) {
+    button.disabled = !enabled;
+    if (canAct()) button.removeAttribute('aria-describedby');
+    else button.setAttribute('aria-describedby', card.viewerNote.id);
+  }
+  card.buttons.ack.disabled = !enabled || Boolean(incident.acknowledged);
+  updateSampleVerdict(card, incident, enabled);
+  card.viewerNote.hidden = canAct();
+  // The chart follows the incident's latest sample; a new result redraws it.
+  // The chart shows the measurand of the most severe finding, and says so.
+  const chartKey = `${measurands[0] ?? ''}@${incident.lastSampleId}`;
+  card.chartCaption.textContent = measurands.length > 0 ? chartCaptionText(measurands[0], measurands.length) : '';
+  card.chart.dataset.measurand = measurands[0] ?? '';
+  if (measurands.length > 0 && chartKey !== card.chartKey) {
+    card.chartKey = chartKey;
+    void loadChart(card.chart, incident.unit, incident.component, measurands[0]);
+  } else if (measurands.length === 0) {
+    card.chart.replaceChildren(el('p', { class: 'chart-problem', text: 'No measurand to chart.' }));
+  }
+}
+
+function chartCaptionText(measurand, count) {
+  const others = count > 1 ? ` The other measurands are on the component page.` : '';
+  return `Trend of ${measurand}, the measurand of the most severe finding.${others}`;
+}
+
+export function renderState(card) {
+  const incident = card.incident;
+  const words = stateWords(incident);
+  const parts = [el('strong', { text: words })];
+  if (incident.acknowledged) {
+    const ack = incident.acknowledged;
+    parts.push(` · by ${ack.by} at ${formatTime(ack.at)}`);
+    if (ack.note) parts.push(` — “${ack.note}”`);
+  } else {
+    parts.push(' · ', el('span', { class: 'waiting', text: `waiting ${duration(Date.now() - Date.parse(waitingSince(incident)))}` }));
+    if (incident.escalation && incident.escalation.reachedTier > 0) parts.push(` · escalated to tier ${incident.escalation.reachedTier}`);
+  }
+  parts.push(` · opened by sample ${incident.openedBySampleId} of ${formatTime(incident.openedAt)}`);
+  if (view !== 'incident') parts.push(' · ', el('a', { class: 'incident-link', href: incidentPagePath(incident.id), text: 'incident page and timeline' }));
+  card.state.replaceChildren(...parts);
+}
+
+async function act(card, action) {
+  const note = card.note.value.trim();
+  const by = session.name.trim() || 'board user';
+  let body;
+  if (action === 'ack') body = note === '' ? { by } : { by, note };
+  else if (note === '') {
+    setStatus(card, 'error', `Write a note first: ${action === 'shelve' ? 'the reason for shelving' : 'how it was resolved'}.`);
+    card.note.focus();
+    return;
+  } else if (action === 'shelve') body = { by, until: new Date(Date.now() + Number(card.shelveFor.value) * 3_600_000).toISOString(), reason: note };
+  else body = { by, note };
+  setStatus(card, 'busy', 'Sending…');
+  const result = await api(`${incidentPath(card.incident.id)}/${action}`, { method: 'POST', body });
+  if (!result.ok) {
+    setStatus(card, 'error', problemText(result));
+    return;
+  }
+  const verb = { ack: 'Acknowledged', shelve: 'Shelved', resolve: 'Resolved' }[action];
+  card.note.value = '';
+  setStatus(card, 'done', `${verb}.`);
+  announce(`${verb}: ${card.incident.unit} / ${card.incident.component}.`);
+  if (result.body.incident.closed) scheduleReload(0);
+  else updateCard(card, { ...card.incident, ...result.body.incident });
+}
+

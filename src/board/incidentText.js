@@ -1,0 +1,68 @@
+/*
+ * An incident in words and badges, the same everywhere on the board: its severity (with its peak), its state, its
+ * evidence most severe first, its measurands, its timeline entries, and the caution beside every forecast.
+ */
+import { el } from './dom.js';
+import { formatTime } from './format.js';
+
+export const SEVERITY_RANK = { watch: 0, caution: 1, alarm: 2 };
+const GLYPH = { watch: '◇', caution: '▲', alarm: '■' };
+
+/** Beside every forecast, as in the e-mail (src/domain/caution.ts). */
+export const FORECAST_CAUTION = 'A forecast assumes the present rate continues; wear can speed up or settle at any time.';
+
+/** Since when the incident has waited for someone: when it was announced, else its opening sample. */
+export const waitingSince = (incident) => incident.escalation?.startedAt ?? incident.openedAt;
+
+/**
+ * The one rule for an incident's severity (as in src/notify/message.ts): the highest severity of its evidence;
+ * when it was more severe before, the peak is written beside it.
+ */
+export function severityWords(severity, peak) {
+  return peak !== undefined && SEVERITY_RANK[peak] > SEVERITY_RANK[severity] ? `${severity} (peak ${peak})` : severity;
+}
+
+export function severityBadge(severity, peak) {
+  return el('span', { class: 'sev', 'data-severity': severity }, el('span', { class: 'glyph', 'aria-hidden': 'true', text: GLYPH[severity] ?? '?' }), ` ${severityWords(severity, peak)}`);
+}
+
+/**
+ * Most severe first: the finding that sets the incident's severity always leads the evidence; within a severity, the
+ * one furthest beyond its limit first (as in src/notify/message.ts), so that the chart follows the strongest signal.
+ */
+const beyondLimit = (f) => (typeof f.value === 'number' && typeof f.threshold === 'number' && f.threshold !== 0 ? Math.abs(f.value / f.threshold) : 0);
+export const bySeverity = (findings) =>
+  [...(findings ?? [])].sort((a, b) => (SEVERITY_RANK[b.severity] ?? -1) - (SEVERITY_RANK[a.severity] ?? -1) || beyondLimit(b) - beyondLimit(a));
+
+export function stateWords(incident) {
+  if (incident.closed) return 'closed';
+  const parts = [incident.alarm === 'active' ? 'active' : 'returned to normal', incident.acknowledged ? 'acknowledged' : 'unacknowledged'];
+  if (incident.shelved) parts.push(`shelved until ${formatTime(incident.shelved.until)}`);
+  return parts.join(', ');
+}
+
+/** The incident's measurands, the one that sets its severity first (an incident kept per measurand: that one). */
+export function measurandsOf(incident) {
+  const seen = [];
+  if (incident.measurand) seen.push(incident.measurand);
+  for (const f of bySeverity(incident.evidence)) if (!seen.includes(f.measurand)) seen.push(f.measurand);
+  return seen;
+}
+
+export function timelineText(entry) {
+  const at = formatTime(entry.at);
+  switch (entry.kind) {
+    case 'finding':
+      return `${at}: ${entry.measurand} ${entry.rule} ${entry.change.replace('-', ' ')} (${entry.severity})${entry.explanation ? ` — ${entry.explanation}` : ''}`;
+    case 'acknowledged':
+      return `${at}: acknowledged by ${entry.by}${entry.note ? ` — ${entry.note}` : ''}`;
+    case 'shelved':
+      return `${at}: shelved by ${entry.by} until ${formatTime(entry.until)} — ${entry.reason}`;
+    case 'closed':
+      return `${at}: closed (${entry.how})${entry.by ? ` by ${entry.by}` : ''}${entry.note ? ` — ${entry.note}` : ''}`;
+    case 'notified':
+      return `${at}: told tier ${entry.tier} (${entry.targets.length} recipients)`;
+    default:
+      return `${at}: ${entry.kind.replace('-', ' ')}${entry.by ? ` by ${entry.by}` : ''}${entry.note ? ` — ${entry.note}` : ''}`;
+  }
+}
