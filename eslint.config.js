@@ -11,6 +11,10 @@ export default tseslint.config(
     languageOptions: { globals: { process: 'readonly', console: 'readonly' } },
   },
   {
+    files: ['bin/**/*.js', 'bin/**/*.mjs'],
+    languageOptions: { globals: { process: 'readonly', console: 'readonly', URL: 'readonly' } },
+  },
+  {
     files: ['src/**/*.ts', 'bench/**/*.ts'],
     plugins: { layers },
     rules: { 'layers/allowed-imports': 'error' },
