@@ -17,6 +17,7 @@ import { runEvaluationCost } from './evaluationCost.ts';
 import { jsonLine, renderPart, type PartResult } from './report.ts';
 import { runQuiet } from './quiet.ts';
 import { runScaling } from './scaling.ts';
+import { runStartup } from './startup.ts';
 import { redisServerVersion } from './pipeline.ts';
 import { runBackfill, runLatency, runThroughput } from './pipelineParts.ts';
 
@@ -50,6 +51,7 @@ export const PARTS: Record<string, Part> = {
   backfill: (o) => runBackfill(o),
   'evaluation-cost': (o) => runEvaluationCost(o),
   cluster: (o) => runCluster(o),
+  startup: (o) => runStartup(o),
 };
 
 const USAGE = `usage: npm run bench -- [--only NAME]... [--scale S] [--seed N] [--json]

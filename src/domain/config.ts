@@ -2,6 +2,7 @@
  * The YAML configuration: groups, limits, new-oil references and detection parameters.
  * Every section is optional; an empty file gives the built-in defaults documented in the README.
  */
+import { DEFAULT_HOURS_PER_YEAR, DEFAULT_SAMPLE_INTERVAL_HOURS } from './budgetDefaults.ts';
 import { z } from 'zod';
 import { MEASURAND_NAMES, type Measurand } from './measurands.ts';
 import { parseReading } from './reading.ts';
@@ -38,8 +39,8 @@ export const BudgetSchema = z
   .object({
     alarms: positive.default(1).describe('False alarms allowed per component over `years`.'),
     years: positive.default(5),
-    sampleIntervalHours: positive.default(250).describe('Typical operating hours between samples.'),
-    hoursPerYear: positive.max(8784).default(8760).describe('Operating hours per calendar year.'),
+    sampleIntervalHours: positive.default(DEFAULT_SAMPLE_INTERVAL_HOURS).describe('Typical operating hours between samples.'),
+    hoursPerYear: positive.max(8784).default(DEFAULT_HOURS_PER_YEAR).describe('Operating hours per calendar year.'),
   })
   .strict();
 export type Budget = z.infer<typeof BudgetSchema>;

@@ -10,8 +10,8 @@ import { ewmaArl } from '../../analysis/arl/ewmaArl.ts';
 import { cusumDecisionInterval } from '../../analysis/arl/solveCusum.ts';
 import { ewmaLimitWidth } from '../../analysis/arl/solveEwma.ts';
 import { changeBudgetShare, detectionLimits, parseBudget, samplesPerBudgetPeriod, targetArl } from '../../analysis/budget.ts';
-import { type Budget, BudgetSchema, type Config } from '../../domain/config.ts';
-import { loadConfig } from '../../runtime/loadConfig.ts';
+import type { Budget, BudgetSchema, Config } from '../../domain/config.ts';
+import { DEFAULT_HOURS_PER_YEAR, DEFAULT_SAMPLE_INTERVAL_HOURS } from '../../domain/budgetDefaults.ts';
 import { InputError } from '../../domain/errors.ts';
 import { registerDesignNoise } from './designNoise.ts';
 import { ADVISORY_LINE, asInputError, formatTable, numberListOption, numberOption, round, tidy, writeJsonLine } from '../output.ts';
@@ -48,7 +48,7 @@ interface BudgetConversion {
 }
 
 /** The target in-control run length: --arl0, or the budget conversion; undefined when the parameter itself was given. */
-function targetFrom(opts: CommonOptions, parameter: string, given: boolean): { arl0: number; conversion?: BudgetConversion } | undefined {
+function targetFrom(opts: CommonOptions, parameter: string, given: boolean, ctx: BudgetContext | undefined): { arl0: number; conversion?: BudgetConversion } | undefined {
   const targets = [given, opts.arl0 !== undefined, opts.budget !== undefined].filter(Boolean).length;
   if (targets !== 1) throw new InputError(`give exactly one of --${parameter}, --arl0 or --budget`);
   const budgetOnly = { every: opts.every, 'hours-per-year': opts.hoursPerYear, charts: opts.charts, share: opts.share };
@@ -58,10 +58,10 @@ function targetFrom(opts: CommonOptions, parameter: string, given: boolean): { a
     return opts.arl0 === undefined ? undefined : { arl0: opts.arl0 };
   }
   const { alarms, years } = parseBudget(opts.budget);
-  const parsed = BudgetSchema.safeParse({ alarms, years, sampleIntervalHours: opts.every, hoursPerYear: opts.hoursPerYear });
+  const parsed = ctx!.BudgetSchema.safeParse({ alarms, years, sampleIntervalHours: opts.every, hoursPerYear: opts.hoursPerYear });
   if (!parsed.success) throw new InputError(`--every / --hours-per-year: ${parsed.error.issues.map((i) => `${i.path.join('.')}: ${i.message}`).join('; ')}`);
   const budget: Budget = parsed.data;
-  const worker = workerDesign(opts);
+  const worker = workerDesign(ctx!.config);
   const charts = opts.charts ?? worker.charts;
   const share = opts.share ?? worker.share;
   if (!(share > 0 && share <= 1)) throw new InputError(`--share must be a fraction in (0, 1], got ${share}`);
@@ -83,22 +83,29 @@ function targetFrom(opts: CommonOptions, parameter: string, given: boolean): { a
   };
 }
 
-/** The configuration the worker runs with: --config, else WEARSHIFT_CONFIG, else the built-in defaults. */
-function configOf(opts: CommonOptions): Config {
-  return loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
+interface BudgetContext {
+  /** The configuration the worker runs with: --config, else WEARSHIFT_CONFIG, else the built-in defaults. */
+  readonly config: Config;
+  readonly BudgetSchema: typeof BudgetSchema;
+}
+
+/** With --budget only: the configuration and the budget's schema, loaded then (the configuration parser is not small). */
+async function budgetContext(opts: CommonOptions): Promise<BudgetContext | undefined> {
+  if (opts.budget === undefined) return undefined;
+  const [{ loadConfig }, config] = await Promise.all([import('../../runtime/loadConfig.ts'), import('../../domain/config.ts')]);
+  return { config: loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG), BudgetSchema: config.BudgetSchema };
 }
 
 /** How the worker designs its charts from the configuration's top-level detection settings. */
-function workerDesign(opts: CommonOptions): { charts: number; share: number; measurands: number; detectors: number } {
-  const config = configOf(opts);
+function workerDesign(config: Config): { charts: number; share: number; measurands: number; detectors: number } {
   const d = config.detection;
   const share = changeBudgetShare(config.population);
   const detectors = (d.ewma.enabled ? 1 : 0) + (d.cusum.enabled ? 1 : 0);
   return { charts: Math.max(1, detectionLimits(d, share).charts), share, measurands: d.measurands.length, detectors };
 }
 
-function conversionLines(c: BudgetConversion, opts: CommonOptions): string {
-  const w = workerDesign(opts);
+function conversionLines(c: BudgetConversion, opts: CommonOptions, config: Config): string {
+  const w = workerDesign(config);
   return [
     `budget: ${c.alarms} false alarm(s) per component per ${c.years} year(s), a sample every ${c.sampleIntervalHours} operating hours, ${c.hoursPerYear} hours per year`,
     `  a "chart" is one wear metal watched by one detector: the configuration watches ${w.measurands} wear metal(s) with ${w.detectors} detector(s) (EWMA, CUSUM), ${w.charts} charts per component${
@@ -144,7 +151,7 @@ Run lengths count samples until the first signal on independent N(shift, 1) obse
 watch the upper side, so negative shifts make them slower), from the chart's start state. They are shown at --shifts
 (default: the shifts of the published tables, ${TABLE_SHIFTS.join(', ')}); beyond 1e9 samples as "> 1e9" (null with --json).
 
---budget "A per component per Y years" with --every HOURS (default ${BudgetSchema.parse({}).sampleIntervalHours}), --hours-per-year (default ${BudgetSchema.parse({}).hoursPerYear})
+--budget "A per component per Y years" with --every HOURS (default ${DEFAULT_SAMPLE_INTERVAL_HOURS}), --hours-per-year (default ${DEFAULT_HOURS_PER_YEAR})
 and --charts N: each chart's ARL0 = Y · hours-per-year / every / A · N / share, because the false-alarm rates of a
 component's charts add up. A "chart" is one wear metal watched by one detector; with a budget, --charts, --share,
 --sided, --k, --headstart, --lambda and the limits default to what the worker does with the configuration (--config,
@@ -180,10 +187,11 @@ export function registerDesign(program: Command, output: NodeJS.WritableStream =
       .option('--h <H>', 'decision interval in sigma: show its ARLs', numberOption('h'))
       .option('--headstart <F>', 'fast-initial-response headstart as a fraction of h, 0 ≤ F < 1 (default 0, the zero state; with --budget, the configuration\'s)', numberOption('headstart')),
     'h',
-  ).action((given: CommonOptions & { k?: number; h?: number; headstart?: number }) => {
-    const cusum = given.budget === undefined ? undefined : configOf(given).detection.cusum;
+  ).action(async (given: CommonOptions & { k?: number; h?: number; headstart?: number }) => {
+    const ctx = await budgetContext(given);
+    const cusum = ctx?.config.detection.cusum;
     const opts = { ...given, sided: given.sided ?? (given.budget === undefined ? 'two' : 'one'), k: given.k ?? cusum?.k ?? 0.5, headstart: given.headstart ?? cusum?.headstart ?? 0 } as const;
-    const target = targetFrom(opts, 'h', opts.h !== undefined);
+    const target = targetFrom(opts, 'h', opts.h !== undefined, ctx);
     const settings = { k: opts.k, sided: opts.sided, headstart: opts.headstart };
     const h = target ? asInputError(() => cusumDecisionInterval({ ...settings, arl0: target.arl0 })) : opts.h!;
     const shifts = opts.shifts ?? TABLE_SHIFTS;
@@ -196,7 +204,7 @@ export function registerDesign(program: Command, output: NodeJS.WritableStream =
       return;
     }
     output.write(`CUSUM, ${opts.sided}-sided, k = ${opts.k}, ${opts.headstart ? `headstart ${opts.headstart}·h` : 'zero state'}\n`);
-    if (target?.conversion) output.write(conversionLines(target.conversion, opts));
+    if (target?.conversion) output.write(conversionLines(target.conversion, opts, ctx!.config));
     output.write(target ? `decision interval h = ${round(h, 6)} for an in-control ARL of ${round(target.arl0, 6)} samples\n` : `decision interval h = ${h}\n`);
     writeArlTable(output, arl, everyHours(opts, target));
     output.write(`\n${ADVISORY_LINE}\n`);
@@ -212,11 +220,12 @@ export function registerDesign(program: Command, output: NodeJS.WritableStream =
       .option('--L <L>', 'limit width in standard deviations of the EWMA: show its ARLs', numberOption('L'))
       .option('--exact-limits', 'time-varying exact limits from the start, as the detectors draw them (default: steady-state limits; with --budget, exact)'),
     'L',
-  ).action((given: CommonOptions & { lambda?: number; L?: number; exactLimits?: boolean }) => {
-    const lambda = given.lambda ?? (given.budget === undefined ? undefined : configOf(given).detection.ewma.lambda);
+  ).action(async (given: CommonOptions & { lambda?: number; L?: number; exactLimits?: boolean }) => {
+    const ctx = await budgetContext(given);
+    const lambda = given.lambda ?? ctx?.config.detection.ewma.lambda;
     if (lambda === undefined) throw new InputError('--lambda is required (or give --budget to follow the configuration)');
     const opts = { ...given, lambda, sided: given.sided ?? (given.budget === undefined ? 'two' : 'one') } as const;
-    const target = targetFrom(opts, 'L', opts.L !== undefined);
+    const target = targetFrom(opts, 'L', opts.L !== undefined, ctx);
     const exactLimits = opts.exactLimits ?? opts.budget !== undefined;
     const settings = { lambda: opts.lambda, sided: opts.sided, exactLimits };
     const L = target ? asInputError(() => ewmaLimitWidth({ ...settings, arl0: target.arl0 })) : opts.L!;
@@ -231,7 +240,7 @@ export function registerDesign(program: Command, output: NodeJS.WritableStream =
       return;
     }
     output.write(`EWMA, ${opts.sided}-sided, λ = ${opts.lambda}, ${exactLimits ? 'exact time-varying' : 'steady-state'} limits\n`);
-    if (target?.conversion) output.write(conversionLines(target.conversion, opts));
+    if (target?.conversion) output.write(conversionLines(target.conversion, opts, ctx!.config));
     output.write(target ? `limit width L = ${round(L, 6)} for an in-control ARL of ${round(target.arl0, 6)} samples\n` : `limit width L = ${L}\n`);
     writeArlTable(output, arl, everyHours(opts, target));
     output.write(`\n${ADVISORY_LINE}\n`);

@@ -4,8 +4,7 @@
  * responder of the escalation policies, beside the published reference of ~150 alarms per operator per day.
  */
 import type { Command } from 'commander';
-import { designNoise, type DesignNoise } from '../../backtest/designNoise.ts';
-import { loadConfig } from '../../runtime/loadConfig.ts';
+import type { DesignNoise } from '../../backtest/designNoise.ts';
 import { InputError } from '../../domain/errors.ts';
 import { RULE_FAMILIES, RULE_FAMILY_LABELS } from '../../domain/finding.ts';
 import { ADVISORY_LINE, formatTable, numberOption, writeJsonLine } from '../output.ts';
@@ -38,9 +37,11 @@ export function registerDesignNoise(design: Command, output: NodeJS.WritableStre
     .option('--components <N>', 'fleet size: incidents per day and week, and per tier-0 responder', numberOption('components'))
     .option('--json', 'machine-readable output (one JSON object)')
     .addHelpText('after', HELP)
-    .action((opts: NoiseOptions) => {
+    .action(async (opts: NoiseOptions) => {
       if (opts.components !== undefined && !(Number.isInteger(opts.components) && opts.components >= 1)) throw new InputError(`--components must be a whole number ≥ 1, got ${opts.components}`);
       const file = opts.config ?? process.env.WEARSHIFT_CONFIG;
+      // Loaded when the command runs: `design --help` and `design ewma` do without the configuration parser and the simulation.
+      const [{ loadConfig }, { designNoise }] = await Promise.all([import('../../runtime/loadConfig.ts'), import('../../backtest/designNoise.ts')]);
       const config = loadConfig(file);
       const names = config.groups.map((g) => g.name);
       if (opts.group !== undefined && !names.includes(opts.group)) throw new InputError(`--group: no group "${opts.group}" in ${file ?? 'the built-in defaults'} (groups: ${names.join(', ') || 'none'})`);
