@@ -81,7 +81,9 @@ describe('Redis restarted mid-stream', () => {
         body: JSON.stringify({ sampleId, unit: 'LS90-Marsh Lane', component: 'gearbox', sampledAt: '2025-06-01T08:00:00Z', oilHours: 10, readings: { Fe: 4 } }),
         signal: AbortSignal.timeout(10_000),
       });
-    expect((await send('RS-1')).status).toBe(202);
+    const first = await send('RS-1');
+    // Seen once on a loaded machine: a 500 here. What serve said then is the clue.
+    expect(first.status, first.status === 202 ? '' : `${await first.text()}\nlast lines of serve:\n${serve.output().slice(-4000)}`).toBe(202);
     await scenario.redis.stop();
     await waitFor('serve to report itself not ready', async () => (await readiness(serve.url)) === 503, 10_000, 200);
     const during = await send('RS-2');
