@@ -80,7 +80,8 @@ describe('arrival order', () => {
       }),
       { numRuns: 12 },
     );
-  });
+    // Twelve full replays, CPU-bound: about 11 s on a quiet two-core machine, several times that on a busy one.
+  }, 600_000);
 
   it('the component view (one fold from the start) shows the steps the checkpoints reached', async () => {
     const { store, findings } = await run([...records].reverse(), 'one-by-one');
@@ -89,5 +90,5 @@ describe('arrival order', () => {
       const withFindings = view.evaluation.steps.filter((s) => s.findings.length > 0).map((s) => ({ sampleId: s.sampleId, sampledAt: s.sampledAt, findings: s.findings, ...(s.status && { status: s.status }) }));
       expect(withFindings).toEqual(findings[`${c.unit}/${c.component}`]);
     }
-  });
+  }, 300_000);
 });
