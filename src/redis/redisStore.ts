@@ -48,9 +48,15 @@ export interface RedisStoreOptions {
   readonly findingsLogLimit?: number;
   /** The configuration, for each group's population settings. Default: the built-in defaults. */
   readonly config?: Config;
+  /**
+   * Group statistics "as of a month" kept in memory, each with the month versions it was built from, so that the
+   * next evaluation of the same component in the same month reads the versions only. Default 2000 (0: none).
+   */
+  readonly groupStatsMemo?: number;
 }
 
 export const DEFAULT_FINDINGS_LOG_LIMIT = 200;
+export const DEFAULT_GROUP_STATS_MEMO = 2000;
 
 type ScriptCall = (...args: string[]) => Promise<unknown>;
 
@@ -87,6 +93,9 @@ export class RedisStore implements ComponentStore, GroupLedger {
   private readonly scripts: Record<'store' | 'renew' | 'release' | 'commit' | 'markDirty' | 'markSample', ScriptCall>;
   /** Month buckets read before, by `partition|group|month` with the version they were read at. */
   private readonly bucketCache = new Map<string, { version: string; bucket: MonthBucket }>();
+  /** Group statistics given out before, by `group|month|component|own group`, with the month versions they were built from (least recently used first). */
+  private readonly statsMemo = new Map<string, { signature: string; stats: GroupStats }>();
+  private readonly statsMemoLimit: number;
 
   constructor(
     private readonly redis: RedisConnection,
@@ -94,6 +103,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
   ) {
     this.partitions = new Partitions(options.prefix, options.partitions ?? 1);
     this.findingsLogLimit = options.findingsLogLimit ?? DEFAULT_FINDINGS_LOG_LIMIT;
+    this.statsMemoLimit = options.groupStatsMemo ?? DEFAULT_GROUP_STATS_MEMO;
     this.config = options.config ?? ConfigSchema.parse({});
     const define = (name: string, numberOfKeys: number, lua: string): ScriptCall => {
       const commandName = `wearshift_${name}`;
@@ -334,12 +344,35 @@ export class RedisStore implements ComponentStore, GroupLedger {
   async asOf(group: string, month: string, self: ComponentRef): Promise<GroupStats> {
     const settings = resolveSettings(this.config, { unit: self.unit, component: self.component, group });
     const keepValues = settings.population.method === 'percentile';
+    const selfKeys = componentKeys(this.tagOf(self), self);
+    const [versionsByPartition, head, committedPrefix] = await Promise.all([
+      Promise.all(this.partitions.all().map((n) => this.redis.hgetall(groupKeys(this.partitions.tag(n), group).versions))),
+      this.redis.hget(partitionKeys(this.tagOf(self)).registry, componentKey(self)),
+      this.redis.hget(selfKeys.evaluation, 'gp'),
+    ]);
+    const withoutOwn = head !== null && (JSON.parse(head) as RegistryHead).group === group;
+    // Every change to a month bucket, and to the component's own shares of its group's buckets, moves the month's
+    // version in the component's partition: the same versions (and the same own group) give the same statistics.
+    const signature = versionsByPartition
+      .map((versions, n) =>
+        Object.entries(versions)
+          .filter(([m]) => m < month)
+          .sort(([a], [b]) => (a < b ? -1 : 1))
+          .map(([m, v]) => `${n}:${m}=${v}`)
+          .join(','),
+      )
+      .join(';');
+    const memoKey = `${group}|${month}|${componentKey(self)}|${withoutOwn ? committedPrefix ?? '' : '-'}`;
+    const memo = this.statsMemo.get(memoKey);
+    if (memo !== undefined && memo.signature === signature) {
+      this.statsMemo.delete(memoKey);
+      this.statsMemo.set(memoKey, memo);
+      return memo.stats;
+    }
     const parts: Array<readonly [MonthBucket, 1 | -1]> = [];
     await Promise.all(
-      this.partitions.all().map(async (n) => {
-        const tag = this.partitions.tag(n);
-        const g = groupKeys(tag, group);
-        const versions = await this.redis.hgetall(g.versions);
+      versionsByPartition.map(async (versions, n) => {
+        const g = groupKeys(this.partitions.tag(n), group);
         await Promise.all(
           Object.entries(versions)
             .filter(([m]) => m < month)
@@ -358,9 +391,8 @@ export class RedisStore implements ComponentStore, GroupLedger {
         );
       }),
     );
-    const own = await this.redis.hgetall(componentKeys(this.tagOf(self), self).own);
-    const registry = await this.component(self);
-    if (registry?.group === group) {
+    if (withoutOwn) {
+      const own = await this.redis.hgetall(selfKeys.own);
       const byMonth = new Map<string, Record<string, string>>();
       for (const [field, value] of Object.entries(own)) {
         const bar = field.indexOf('|');
@@ -373,7 +405,11 @@ export class RedisStore implements ComponentStore, GroupLedger {
       for (const fields of byMonth.values()) parts.push([parseBucket(fields), -1]);
     }
     if (this.bucketCache.size > 10_000) this.bucketCache.clear();
-    return groupStatsOf(group, combineBuckets(parts, keepValues), settings);
+    const stats = groupStatsOf(group, combineBuckets(parts, keepValues), settings);
+    this.statsMemo.delete(memoKey);
+    this.statsMemo.set(memoKey, { signature, stats });
+    while (this.statsMemo.size > this.statsMemoLimit) this.statsMemo.delete(this.statsMemo.keys().next().value!);
+    return stats;
   }
 
   async touch(group: string, self: ComponentRef, horizon: number): Promise<void> {
