@@ -86,6 +86,32 @@ export function incidentRecordRows(incidents: readonly Incident[]): Array<[strin
   ]);
 }
 
+/** The commit script's first argument after the payload: the incidents' JSON texts follow as arguments of their own. */
+const FIRST_RECORD_ARGUMENT = 4;
+const INCIDENTS_MARK = '@@incidents@@';
+
+/**
+ * The incident part of a commit with each incident's JSON text sent once, as a script argument of its own (not
+ * escaped inside the payload): its record row names the argument, and the state is the text around the incidents
+ * (`stateHead`, `stateTail`) with `stateIncidents` [[key as JSON, argument]] between, which the script joins into
+ * exactly `JSON.stringify(state)`.
+ */
+function incidentArguments(commit: EvaluationCommit, first: number) {
+  const state = commit.incidents;
+  const stateEntries = Object.entries(state.incidents);
+  const rows = incidentRecordRows([...stateEntries.map(([, inc]) => inc), ...commit.archived, ...commit.withdrawn]);
+  const texts = rows.map((r) => r[1]);
+  const around = JSON.stringify({ ...state, incidents: INCIDENTS_MARK });
+  const at = around.indexOf(`"${INCIDENTS_MARK}"`);
+  return {
+    texts,
+    records: rows.map(([id, , status, score, opened], i) => [id, first + i, status, score, opened] as const),
+    stateHead: around.slice(0, at),
+    stateTail: around.slice(at + INCIDENTS_MARK.length + 2),
+    stateIncidents: stateEntries.map(([key], i) => [JSON.stringify(key), first + i] as const),
+  };
+}
+
 export class RedisStore implements ComponentStore, GroupLedger {
   readonly partitions: Partitions;
   private readonly findingsLogLimit: number;
@@ -260,7 +286,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
     const { tag, c, p } = this.keysOf(ref);
     const g = groupKeys(tag, commit.group);
     const settings = resolveSettings(this.config, { unit: ref.unit, component: ref.component, group: commit.group });
-    const payload = {
+    const payload0 = {
       latest: compactText(JSON.stringify(commit.latest)),
       sparse: commit.sparse.map((cp) => [`cp|${String(cp.count).padStart(10, '0')}|${positionText(cp.position!)}`, compactText(JSON.stringify(cp))]),
       rewound: commit.rewoundTo === undefined ? '' : commit.rewoundTo === null ? 'start' : positionText(commit.rewoundTo),
@@ -281,10 +307,11 @@ export class RedisStore implements ComponentStore, GroupLedger {
       keepValues: settings.population.method === 'percentile' ? 1 : 0,
       componentKey: componentKey(ref),
       version: String(commit.incidentsVersion),
-      state: JSON.stringify(commit.incidents),
-      records: incidentRecordRows([...Object.values(commit.incidents.incidents), ...commit.archived, ...commit.withdrawn]),
+      ...incidentArguments(commit, FIRST_RECORD_ARGUMENT),
       outbox: commit.effects.map((e) => JSON.stringify(e)),
     };
+    const { texts, ...head } = payload0;
+    const payload = { head, texts };
     const result = (await this.scripts.commit(
       lease.key,
       c.evaluation,
@@ -299,7 +326,8 @@ export class RedisStore implements ComponentStore, GroupLedger {
       p.outbox,
       lease.token,
       String(commit.mark),
-      JSON.stringify(payload),
+      JSON.stringify(payload.head),
+      ...payload.texts,
     )) as [number, string?];
     if (result[0] === 0) return { ok: false, reason: 'lost-lock' };
     if (result[0] === -1) return { ok: false, reason: 'incidents-changed' };
