@@ -49,14 +49,18 @@ export interface RedisStoreOptions {
   /** The configuration, for each group's population settings. Default: the built-in defaults. */
   readonly config?: Config;
   /**
-   * Group statistics "as of a month" kept in memory, each with the month versions it was built from, so that the
-   * next evaluation of the same component in the same month reads the versions only. Default 2000 (0: none).
+   * Components whose group statistics "as of a month" are kept in memory (the latest months asked), each with the
+   * month versions it was built from, so that the next evaluation of the same component in the same month reads
+   * the versions only, and one in a later month adds the months since. Not for the percentile method. Default
+   * 1000 (0: none).
    */
   readonly groupStatsMemo?: number;
 }
 
 export const DEFAULT_FINDINGS_LOG_LIMIT = 200;
-export const DEFAULT_GROUP_STATS_MEMO = 2000;
+export const DEFAULT_GROUP_STATS_MEMO = 1000;
+/** Months kept per component in the memo of group statistics. */
+const MEMO_MONTHS = 4;
 
 type ScriptCall = (...args: string[]) => Promise<unknown>;
 
@@ -119,8 +123,11 @@ export class RedisStore implements ComponentStore, GroupLedger {
   private readonly scripts: Record<'store' | 'renew' | 'release' | 'commit' | 'markDirty' | 'markSample', ScriptCall>;
   /** Month buckets read before, by `partition|group|month` with the version they were read at. */
   private readonly bucketCache = new Map<string, { version: string; bucket: MonthBucket }>();
-  /** Group statistics given out before, by `group|month|component|own group`, with the month versions they were built from (least recently used first). */
-  private readonly statsMemo = new Map<string, { signature: string; stats: GroupStats }>();
+  /**
+   * Group statistics given out before, by `group|component|own group` (least recently used first): for the latest
+   * months asked, the sum they were built from and the month versions before them.
+   */
+  private readonly statsMemo = new Map<string, Array<{ month: string; signature: string; sum: MonthBucket; stats: GroupStats }>>();
   private readonly statsMemoLimit: number;
 
   constructor(
@@ -381,29 +388,36 @@ export class RedisStore implements ComponentStore, GroupLedger {
     const withoutOwn = head !== null && (JSON.parse(head) as RegistryHead).group === group;
     // Every change to a month bucket, and to the component's own shares of its group's buckets, moves the month's
     // version in the component's partition: the same versions (and the same own group) give the same statistics.
-    const signature = versionsByPartition
-      .map((versions, n) =>
-        Object.entries(versions)
-          .filter(([m]) => m < month)
-          .sort(([a], [b]) => (a < b ? -1 : 1))
-          .map(([m, v]) => `${n}:${m}=${v}`)
-          .join(','),
-      )
-      .join(';');
-    const memoKey = `${group}|${month}|${componentKey(self)}|${withoutOwn ? committedPrefix ?? '' : '-'}`;
-    const memo = this.statsMemo.get(memoKey);
-    if (memo !== undefined && memo.signature === signature) {
+    const signatureBefore = (month: string) =>
+      versionsByPartition
+        .map((versions, n) =>
+          Object.entries(versions)
+            .filter(([m]) => m < month)
+            .sort(([a], [b]) => (a < b ? -1 : 1))
+            .map(([m, v]) => `${n}:${m}=${v}`)
+            .join(','),
+        )
+        .join(';');
+    const signature = signatureBefore(month);
+    const memoKey = `${group}|${componentKey(self)}|${withoutOwn ? (committedPrefix ?? '') : '-'}`;
+    // Not for the percentile method: its statistics carry every value of the group.
+    const kept = keepValues ? undefined : this.statsMemo.get(memoKey);
+    if (kept !== undefined) {
       this.statsMemo.delete(memoKey);
-      this.statsMemo.set(memoKey, memo);
-      return memo.stats;
+      this.statsMemo.set(memoKey, kept);
     }
-    const parts: Array<readonly [MonthBucket, 1 | -1]> = [];
+    const exact = kept?.find((e) => e.month === month && e.signature === signature);
+    if (exact !== undefined) return exact.stats;
+    // An earlier month whose months before it are unchanged: its sum plus the months from it on.
+    const base = kept?.filter((e) => e.month < month && e.signature === signatureBefore(e.month)).at(-1);
+    const wanted = (m: string) => m < month && (base === undefined || m >= base.month);
+    const parts: Array<readonly [MonthBucket, 1 | -1]> = base === undefined ? [] : [[base.sum, 1]];
     await Promise.all(
       versionsByPartition.map(async (versions, n) => {
         const g = groupKeys(this.partitions.tag(n), group);
         await Promise.all(
           Object.entries(versions)
-            .filter(([m]) => m < month)
+            .filter(([m]) => wanted(m))
             .map(async ([m, version]) => {
               const cacheKey = `${n}|${group}|${m}`;
               const cached = this.bucketCache.get(cacheKey);
@@ -425,7 +439,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
       for (const [field, value] of Object.entries(own)) {
         const bar = field.indexOf('|');
         const m = field.slice(0, bar);
-        if (m >= month) continue;
+        if (!wanted(m)) continue;
         let fields = byMonth.get(m);
         if (fields === undefined) byMonth.set(m, (fields = {}));
         fields[field.slice(bar + 1)] = value;
@@ -433,10 +447,13 @@ export class RedisStore implements ComponentStore, GroupLedger {
       for (const fields of byMonth.values()) parts.push([parseBucket(fields), -1]);
     }
     if (this.bucketCache.size > 10_000) this.bucketCache.clear();
-    const stats = groupStatsOf(group, combineBuckets(parts, keepValues), settings);
-    this.statsMemo.delete(memoKey);
-    this.statsMemo.set(memoKey, { signature, stats });
-    while (this.statsMemo.size > this.statsMemoLimit) this.statsMemo.delete(this.statsMemo.keys().next().value!);
+    const sum = combineBuckets(parts, keepValues);
+    const stats = groupStatsOf(group, sum, settings);
+    if (!keepValues && this.statsMemoLimit > 0) {
+      const entries = [...(kept ?? []).filter((e) => e.month !== month), { month, signature, sum, stats }].sort((a, b) => (a.month < b.month ? -1 : 1));
+      this.statsMemo.set(memoKey, entries.slice(-MEMO_MONTHS));
+      while (this.statsMemo.size > this.statsMemoLimit) this.statsMemo.delete(this.statsMemo.keys().next().value!);
+    }
     return stats;
   }
 

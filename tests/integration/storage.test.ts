@@ -227,6 +227,13 @@ describe.each(implementations)('%s store', (_name, make) => {
     expect(await fe(u1)).toMatchObject({ n: 1, mean: 30 });
     expect((await store.asOf(GROUP, '2025-02', u1)).bands.Fe!.every((x) => x.n === 0)).toBe(true);
     expect((await store.asOf(GROUP, '2025-02', u2)).bands.Fe!.find((x) => x.fromHours === 0)).toMatchObject({ n: 1, mean: 14 });
+    // A later month after an earlier one: the months between are added, the component's own share taken out.
+    expect(await fe(u2)).toMatchObject({ n: 1, mean: 14 });
+    const c = sample({ unit: 'U-3', sampleId: 'C-1', sampledAt: '2025-03-05T00:00:00Z', oilHours: 100, readings: { Fe: 40 } });
+    await store.store(c, GROUP, 1);
+    await commitShare(c, 40);
+    expect(await fe(u2)).toMatchObject({ n: 2, mean: 27 });
+    expect(await fe(u1)).toMatchObject({ n: 2, mean: 35 });
   });
 
   it('keeps sparse checkpoints, drops those after a rewind, and finds the latest one before a position', async () => {
