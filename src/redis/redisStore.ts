@@ -399,9 +399,12 @@ export class RedisStore implements ComponentStore, GroupLedger {
         )
         .join(';');
     const signature = signatureBefore(month);
-    const memoKey = `${group}|${componentKey(self)}|${withoutOwn ? (committedPrefix ?? '') : '-'}`;
-    // Not for the percentile method: its statistics carry every value of the group.
-    const kept = keepValues ? undefined : this.statsMemo.get(memoKey);
+    const memoKey = `${group}|${componentKey(self)}|${withoutOwn ? 'own' : '-'}`;
+    // Not for the percentile method (its statistics carry every value of the group), nor while the component's own
+    // shares were last committed to another group (they move, and the versions of this group with them, at its next
+    // commit).
+    const memoized = !keepValues && this.statsMemoLimit > 0 && (!withoutOwn || committedPrefix === groupKeys(this.tagOf(self), group).versions.slice(0, -2));
+    const kept = memoized ? this.statsMemo.get(memoKey) : undefined;
     if (kept !== undefined) {
       this.statsMemo.delete(memoKey);
       this.statsMemo.set(memoKey, kept);
@@ -449,7 +452,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
     if (this.bucketCache.size > 10_000) this.bucketCache.clear();
     const sum = combineBuckets(parts, keepValues);
     const stats = groupStatsOf(group, sum, settings);
-    if (!keepValues && this.statsMemoLimit > 0) {
+    if (memoized) {
       const entries = [...(kept ?? []).filter((e) => e.month !== month), { month, signature, sum, stats }].sort((a, b) => (a.month < b.month ? -1 : 1));
       this.statsMemo.set(memoKey, entries.slice(-MEMO_MONTHS));
       while (this.statsMemo.size > this.statsMemoLimit) this.statsMemo.delete(this.statsMemo.keys().next().value!);
