@@ -100,7 +100,8 @@ export class IncidentFold {
 }
 
 function carryAnnunciation(inc: DraftIncident, before: Incident): void {
-  const copy = structuredClone(before);
+  const { announced, eventSeq, escalation, told, notifications } = before;
+  const copy = structuredClone({ announced, eventSeq, escalation, told, notifications });
   inc.announced = copy.announced;
   inc.eventSeq = copy.eventSeq;
   inc.escalation = copy.escalation;

@@ -48,9 +48,19 @@ export interface RedisStoreOptions {
   readonly findingsLogLimit?: number;
   /** The configuration, for each group's population settings. Default: the built-in defaults. */
   readonly config?: Config;
+  /**
+   * Components whose group statistics "as of a month" are kept in memory (the latest months asked), each with the
+   * month versions it was built from, so that the next evaluation of the same component in the same month reads
+   * the versions only, and one in a later month adds the months since. Not for the percentile method. Default
+   * 1000 (0: none).
+   */
+  readonly groupStatsMemo?: number;
 }
 
 export const DEFAULT_FINDINGS_LOG_LIMIT = 200;
+export const DEFAULT_GROUP_STATS_MEMO = 1000;
+/** Months kept per component in the memo of group statistics. */
+const MEMO_MONTHS = 4;
 
 type ScriptCall = (...args: string[]) => Promise<unknown>;
 
@@ -80,6 +90,32 @@ export function incidentRecordRows(incidents: readonly Incident[]): Array<[strin
   ]);
 }
 
+/** The commit script's first argument after the payload: the incidents' JSON texts follow as arguments of their own. */
+const FIRST_RECORD_ARGUMENT = 4;
+const INCIDENTS_MARK = '@@incidents@@';
+
+/**
+ * The incident part of a commit with each incident's JSON text sent once, as a script argument of its own (not
+ * escaped inside the payload): its record row names the argument, and the state is the text around the incidents
+ * (`stateHead`, `stateTail`) with `stateIncidents` [[key as JSON, argument]] between, which the script joins into
+ * exactly `JSON.stringify(state)`.
+ */
+function incidentArguments(commit: EvaluationCommit, first: number) {
+  const state = commit.incidents;
+  const stateEntries = Object.entries(state.incidents);
+  const rows = incidentRecordRows([...stateEntries.map(([, inc]) => inc), ...commit.archived, ...commit.withdrawn]);
+  const texts = rows.map((r) => r[1]);
+  const around = JSON.stringify({ ...state, incidents: INCIDENTS_MARK });
+  const at = around.indexOf(`"${INCIDENTS_MARK}"`);
+  return {
+    texts,
+    records: rows.map(([id, , status, score, opened], i) => [id, first + i, status, score, opened] as const),
+    stateHead: around.slice(0, at),
+    stateTail: around.slice(at + INCIDENTS_MARK.length + 2),
+    stateIncidents: stateEntries.map(([key], i) => [JSON.stringify(key), first + i] as const),
+  };
+}
+
 export class RedisStore implements ComponentStore, GroupLedger {
   readonly partitions: Partitions;
   private readonly findingsLogLimit: number;
@@ -87,6 +123,12 @@ export class RedisStore implements ComponentStore, GroupLedger {
   private readonly scripts: Record<'store' | 'renew' | 'release' | 'commit' | 'markDirty' | 'markSample', ScriptCall>;
   /** Month buckets read before, by `partition|group|month` with the version they were read at. */
   private readonly bucketCache = new Map<string, { version: string; bucket: MonthBucket }>();
+  /**
+   * Group statistics given out before, by `group|component|own group` (least recently used first): for the latest
+   * months asked, the sum they were built from and the month versions before them.
+   */
+  private readonly statsMemo = new Map<string, Array<{ month: string; signature: string; sum: MonthBucket; stats: GroupStats }>>();
+  private readonly statsMemoLimit: number;
 
   constructor(
     private readonly redis: RedisConnection,
@@ -94,6 +136,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
   ) {
     this.partitions = new Partitions(options.prefix, options.partitions ?? 1);
     this.findingsLogLimit = options.findingsLogLimit ?? DEFAULT_FINDINGS_LOG_LIMIT;
+    this.statsMemoLimit = options.groupStatsMemo ?? DEFAULT_GROUP_STATS_MEMO;
     this.config = options.config ?? ConfigSchema.parse({});
     const define = (name: string, numberOfKeys: number, lua: string): ScriptCall => {
       const commandName = `wearshift_${name}`;
@@ -250,7 +293,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
     const { tag, c, p } = this.keysOf(ref);
     const g = groupKeys(tag, commit.group);
     const settings = resolveSettings(this.config, { unit: ref.unit, component: ref.component, group: commit.group });
-    const payload = {
+    const payload0 = {
       latest: compactText(JSON.stringify(commit.latest)),
       sparse: commit.sparse.map((cp) => [`cp|${String(cp.count).padStart(10, '0')}|${positionText(cp.position!)}`, compactText(JSON.stringify(cp))]),
       rewound: commit.rewoundTo === undefined ? '' : commit.rewoundTo === null ? 'start' : positionText(commit.rewoundTo),
@@ -271,10 +314,11 @@ export class RedisStore implements ComponentStore, GroupLedger {
       keepValues: settings.population.method === 'percentile' ? 1 : 0,
       componentKey: componentKey(ref),
       version: String(commit.incidentsVersion),
-      state: JSON.stringify(commit.incidents),
-      records: incidentRecordRows([...Object.values(commit.incidents.incidents), ...commit.archived, ...commit.withdrawn]),
+      ...incidentArguments(commit, FIRST_RECORD_ARGUMENT),
       outbox: commit.effects.map((e) => JSON.stringify(e)),
     };
+    const { texts, ...head } = payload0;
+    const payload = { head, texts };
     const result = (await this.scripts.commit(
       lease.key,
       c.evaluation,
@@ -289,7 +333,8 @@ export class RedisStore implements ComponentStore, GroupLedger {
       p.outbox,
       lease.token,
       String(commit.mark),
-      JSON.stringify(payload),
+      JSON.stringify(payload.head),
+      ...payload.texts,
     )) as [number, string?];
     if (result[0] === 0) return { ok: false, reason: 'lost-lock' };
     if (result[0] === -1) return { ok: false, reason: 'incidents-changed' };
@@ -334,15 +379,48 @@ export class RedisStore implements ComponentStore, GroupLedger {
   async asOf(group: string, month: string, self: ComponentRef): Promise<GroupStats> {
     const settings = resolveSettings(this.config, { unit: self.unit, component: self.component, group });
     const keepValues = settings.population.method === 'percentile';
-    const parts: Array<readonly [MonthBucket, 1 | -1]> = [];
-    await Promise.all(
-      this.partitions.all().map(async (n) => {
-        const tag = this.partitions.tag(n);
-        const g = groupKeys(tag, group);
-        const versions = await this.redis.hgetall(g.versions);
-        await Promise.all(
+    const selfKeys = componentKeys(this.tagOf(self), self);
+    const [versionsByPartition, head, committedPrefix] = await Promise.all([
+      Promise.all(this.partitions.all().map((n) => this.redis.hgetall(groupKeys(this.partitions.tag(n), group).versions))),
+      this.redis.hget(partitionKeys(this.tagOf(self)).registry, componentKey(self)),
+      this.redis.hget(selfKeys.evaluation, 'gp'),
+    ]);
+    const withoutOwn = head !== null && (JSON.parse(head) as RegistryHead).group === group;
+    // Every change to a month bucket, and to the component's own shares of its group's buckets, moves the month's
+    // version in the component's partition: the same versions (and the same own group) give the same statistics.
+    const signatureBefore = (month: string) =>
+      versionsByPartition
+        .map((versions, n) =>
           Object.entries(versions)
             .filter(([m]) => m < month)
+            .sort(([a], [b]) => (a < b ? -1 : 1))
+            .map(([m, v]) => `${n}:${m}=${v}`)
+            .join(','),
+        )
+        .join(';');
+    const signature = signatureBefore(month);
+    const memoKey = `${group}|${componentKey(self)}|${withoutOwn ? 'own' : '-'}`;
+    // Not for the percentile method (its statistics carry every value of the group), nor while the component's own
+    // shares were last committed to another group (they move, and the versions of this group with them, at its next
+    // commit).
+    const memoized = !keepValues && this.statsMemoLimit > 0 && (!withoutOwn || committedPrefix === groupKeys(this.tagOf(self), group).versions.slice(0, -2));
+    const kept = memoized ? this.statsMemo.get(memoKey) : undefined;
+    if (kept !== undefined) {
+      this.statsMemo.delete(memoKey);
+      this.statsMemo.set(memoKey, kept);
+    }
+    const exact = kept?.find((e) => e.month === month && e.signature === signature);
+    if (exact !== undefined) return exact.stats;
+    // An earlier month whose months before it are unchanged: its sum plus the months from it on.
+    const base = kept?.filter((e) => e.month < month && e.signature === signatureBefore(e.month)).at(-1);
+    const wanted = (m: string) => m < month && (base === undefined || m >= base.month);
+    const parts: Array<readonly [MonthBucket, 1 | -1]> = base === undefined ? [] : [[base.sum, 1]];
+    await Promise.all(
+      versionsByPartition.map(async (versions, n) => {
+        const g = groupKeys(this.partitions.tag(n), group);
+        await Promise.all(
+          Object.entries(versions)
+            .filter(([m]) => wanted(m))
             .map(async ([m, version]) => {
               const cacheKey = `${n}|${group}|${m}`;
               const cached = this.bucketCache.get(cacheKey);
@@ -358,14 +436,13 @@ export class RedisStore implements ComponentStore, GroupLedger {
         );
       }),
     );
-    const own = await this.redis.hgetall(componentKeys(this.tagOf(self), self).own);
-    const registry = await this.component(self);
-    if (registry?.group === group) {
+    if (withoutOwn) {
+      const own = await this.redis.hgetall(selfKeys.own);
       const byMonth = new Map<string, Record<string, string>>();
       for (const [field, value] of Object.entries(own)) {
         const bar = field.indexOf('|');
         const m = field.slice(0, bar);
-        if (m >= month) continue;
+        if (!wanted(m)) continue;
         let fields = byMonth.get(m);
         if (fields === undefined) byMonth.set(m, (fields = {}));
         fields[field.slice(bar + 1)] = value;
@@ -373,7 +450,14 @@ export class RedisStore implements ComponentStore, GroupLedger {
       for (const fields of byMonth.values()) parts.push([parseBucket(fields), -1]);
     }
     if (this.bucketCache.size > 10_000) this.bucketCache.clear();
-    return groupStatsOf(group, combineBuckets(parts, keepValues), settings);
+    const sum = combineBuckets(parts, keepValues);
+    const stats = groupStatsOf(group, sum, settings);
+    if (memoized) {
+      const entries = [...(kept ?? []).filter((e) => e.month !== month), { month, signature, sum, stats }].sort((a, b) => (a.month < b.month ? -1 : 1));
+      this.statsMemo.set(memoKey, entries.slice(-MEMO_MONTHS));
+      while (this.statsMemo.size > this.statsMemoLimit) this.statsMemo.delete(this.statsMemo.keys().next().value!);
+    }
+    return stats;
   }
 
   async touch(group: string, self: ComponentRef, horizon: number): Promise<void> {

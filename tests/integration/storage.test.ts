@@ -198,6 +198,44 @@ describe.each(implementations)('%s store', (_name, make) => {
     expect((await fe()).n).toBe(0);
   });
 
+  it('gives the statistics of the month anew when a bucket before it or the component\u2019s own share changes', async () => {
+    const u1 = { unit: 'U-1', component: 'gearbox' };
+    const u2 = { unit: 'U-2', component: 'gearbox' };
+    const a = sample({ unit: 'U-1', sampleId: 'A-1', sampledAt: '2025-01-05T00:00:00Z', oilHours: 100, readings: { Fe: 10 } });
+    const b = sample({ unit: 'U-2', sampleId: 'B-1', sampledAt: '2025-02-05T00:00:00Z', oilHours: 100, readings: { Fe: 20 } });
+    await store.store(a, GROUP, 1);
+    await store.store(b, GROUP, 1);
+    const commitShare = async (s: Sample, fe: number) => {
+      const input = (await store.evaluationInput(s))!;
+      const lease = (await store.acquire(s, 10_000))!;
+      await store.commit(s, lease, { ...commitOf([s], input.mark, { incidentsVersion: input.incidentsVersion }), shares: [{ sampleId: s.sampleId, month: monthOf(s.time), values: { 'Fe|0': fe } }] });
+      await store.release(lease);
+    };
+    const fe = async (ref: typeof u1) => (await store.asOf(GROUP, '2025-04', ref)).bands.Fe!.find((x) => x.fromHours === 0)!;
+    await commitShare(a, 10);
+    await commitShare(b, 20);
+    expect(await fe(u1)).toMatchObject({ n: 1, mean: 20 });
+    expect(await fe(u2)).toMatchObject({ n: 1, mean: 10 });
+    // Asked again with nothing changed: the same.
+    expect(await fe(u1)).toMatchObject({ n: 1, mean: 20 });
+    // The component's own share changes: what it is judged with does not, the others' does.
+    await commitShare(a, 14);
+    expect(await fe(u1)).toMatchObject({ n: 1, mean: 20 });
+    expect(await fe(u2)).toMatchObject({ n: 1, mean: 14 });
+    // Another component's share of an earlier month changes.
+    await commitShare(b, 30);
+    expect(await fe(u1)).toMatchObject({ n: 1, mean: 30 });
+    expect((await store.asOf(GROUP, '2025-02', u1)).bands.Fe!.every((x) => x.n === 0)).toBe(true);
+    expect((await store.asOf(GROUP, '2025-02', u2)).bands.Fe!.find((x) => x.fromHours === 0)).toMatchObject({ n: 1, mean: 14 });
+    // A later month after an earlier one: the months between are added, the component's own share taken out.
+    expect(await fe(u2)).toMatchObject({ n: 1, mean: 14 });
+    const c = sample({ unit: 'U-3', sampleId: 'C-1', sampledAt: '2025-03-05T00:00:00Z', oilHours: 100, readings: { Fe: 40 } });
+    await store.store(c, GROUP, 1);
+    await commitShare(c, 40);
+    expect(await fe(u2)).toMatchObject({ n: 2, mean: 27 });
+    expect(await fe(u1)).toMatchObject({ n: 2, mean: 35 });
+  });
+
   it('keeps sparse checkpoints, drops those after a rewind, and finds the latest one before a position', async () => {
     const samples = Array.from({ length: 6 }, (_, i) => sample({ sampleId: `C-${i}`, sampledAt: `2025-01-0${i + 1}T00:00:00Z` }));
     for (const s of samples) await store.store(s, GROUP, 1);
