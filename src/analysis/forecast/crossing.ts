@@ -16,6 +16,8 @@
  * oil hours (a population limit by band), L(τ) is read at each τ.
  */
 
+import { normalCdf } from "../arl/normal.ts";
+
 export interface ProjectedTrend {
   readonly level: number;
   readonly rate: number;
@@ -30,6 +32,8 @@ export interface ProjectedTrend {
   readonly makeUpLevel: number;
   /** How fast the rate may wander, (rate unit)² per hour: a random walk of the rate adds drift·τ³/3 to Var x(τ). */
   readonly rateDrift?: number;
+  /** A rate that changes steadily: its change per hour (c), with its variance and its covariance with the rate. */
+  readonly acceleration?: { readonly value: number; readonly variance: number; readonly rateCovariance: number };
 }
 
 export interface Projection {
@@ -44,9 +48,18 @@ export function projectAt(t: ProjectedTrend, tau: number): Projection {
   const a = k > TINY_DILUTION ? Math.exp(-k * tau) : 1;
   const b = k > TINY_DILUTION ? (1 - a) / k : tau;
   const process = k > TINY_DILUTION ? (1 - a * a) / (2 * k) : tau;
-  const mean = a * t.level + b * t.rate + (1 - a) * t.makeUpLevel;
+  // A rate changing by c per hour adds c·∫₀^τ e^(−κ(τ−s))·s ds = c·(τ − b)/κ (c·τ²/2 without make-up oil).
+  const e = k > TINY_DILUTION ? (tau - b) / k : (tau * tau) / 2;
+  const c = t.acceleration;
+  const mean = a * t.level + b * t.rate + (1 - a) * t.makeUpLevel + (c === undefined ? 0 : e * c.value);
   const drift = t.rateDrift ?? 0;
-  const variance = a * a * t.levelVariance + 2 * a * b * t.covariance + b * b * t.rateVariance + t.processVariance * process + (drift * tau ** 3) / 3;
+  const variance =
+    a * a * t.levelVariance +
+    2 * a * b * t.covariance +
+    b * b * t.rateVariance +
+    t.processVariance * process +
+    (drift * tau ** 3) / 3 +
+    (c === undefined ? 0 : e * e * c.variance + 2 * b * e * c.rateCovariance);
   return { mean, sd: Math.sqrt(Math.max(0, variance)) };
 }
 
@@ -57,12 +70,16 @@ export function trendAt(t: ProjectedTrend, tau: number): ProjectedTrend {
   const b = k > TINY_DILUTION ? (1 - a) / k : tau;
   const p = projectAt(t, tau);
   const drift = t.rateDrift ?? 0;
+  const c = t.acceleration;
+  const e = k > TINY_DILUTION ? (tau - b) / k : (tau * tau) / 2;
   return {
     ...t,
     level: p.mean,
     levelVariance: p.sd ** 2,
-    covariance: a * t.covariance + b * t.rateVariance + (drift * tau * tau) / 2,
-    rateVariance: t.rateVariance + drift * tau,
+    covariance: a * t.covariance + b * t.rateVariance + (drift * tau * tau) / 2 + (c === undefined ? 0 : (e + tau * b) * c.rateCovariance + tau * e * c.variance),
+    rate: t.rate + (c === undefined ? 0 : tau * c.value),
+    rateVariance: t.rateVariance + drift * tau + (c === undefined ? 0 : tau * tau * c.variance + 2 * tau * c.rateCovariance),
+    ...(c !== undefined && { acceleration: { ...c, rateCovariance: c.rateCovariance + tau * c.variance } }),
   };
 }
 
@@ -109,4 +126,73 @@ export function crossingQuantile(t: ProjectedTrend, q: CrossingQuery): number | 
     previous = tau;
   }
   return undefined;
+}
+
+/** Trends weighed together: P(x(τ) ≤ v) = Σ weight·Φ((v − E_k x(τ))/sd_k x(τ)), the weights summing to 1. */
+export type TrendMixture = readonly { readonly weight: number; readonly trend: ProjectedTrend }[];
+
+export interface MixtureQuery {
+  readonly levelAt: (tau: number) => number | undefined;
+  readonly side: 'above' | 'below';
+  readonly horizon: number;
+  readonly from?: number;
+  /** The probability wanted (0.5 for the median). */
+  readonly p: number;
+}
+
+/** P(x(τ) has crossed the level): each trend's normal probability, weighed. */
+function crossedProbability(mix: TrendMixture, tau: number, level: number, side: 'above' | 'below'): number {
+  let sum = 0;
+  for (const { weight, trend } of mix) {
+    const p = projectAt(trend, tau);
+    const beyond = side === 'above' ? p.mean - level : level - p.mean;
+    sum += weight * (p.sd > 0 ? normalCdf(beyond / p.sd) : beyond >= 0 ? 1 : 0);
+  }
+  return sum;
+}
+
+/**
+ * As crossingQuantile for normal trends weighed together: the first τ in [from, horizon] at which the crossing has
+ * happened with probability p; undefined: not within the horizon. One trend of weight 1 gives crossingQuantile's
+ * answer with z = Φ⁻¹(p).
+ */
+export function mixtureCrossingQuantile(mix: TrendMixture, q: MixtureQuery): number | undefined {
+  const margin = (tau: number): number => {
+    const level = q.levelAt(tau);
+    return level === undefined ? -Infinity : crossedProbability(mix, tau, level, q.side) - q.p;
+  };
+  const from = Math.max(0, q.from ?? 0);
+  if (margin(from) >= 0) return from;
+  if (!(q.horizon > from)) return undefined;
+  let previous = from;
+  for (let i = 1; i <= GRID; i++) {
+    const tau = from + ((q.horizon - from) * i) / GRID;
+    if (margin(tau) >= 0) {
+      let lo = previous;
+      let hi = tau;
+      for (let j = 0; j < BISECTIONS; j++) {
+        const mid = (lo + hi) / 2;
+        if (margin(mid) >= 0) hi = mid;
+        else lo = mid;
+      }
+      return hi;
+    }
+    previous = tau;
+  }
+  return undefined;
+}
+
+/** The p-quantile of the mixture's level τ hours on, by bisection between the trends' own extremes. */
+export function mixtureLevelQuantile(mix: TrendMixture, tau: number, p: number): number {
+  const points = mix.map(({ trend }) => projectAt(trend, tau));
+  let lo = Math.min(...points.map((x) => x.mean - 10 * x.sd));
+  let hi = Math.max(...points.map((x) => x.mean + 10 * x.sd));
+  if (!(hi > lo)) return lo;
+  const below = (v: number) => mix.reduce((a, { weight }, k) => a + weight * (points[k]!.sd > 0 ? normalCdf((v - points[k]!.mean) / points[k]!.sd) : v >= points[k]!.mean ? 1 : 0), 0);
+  for (let j = 0; j < 60; j++) {
+    const mid = (lo + hi) / 2;
+    if (below(mid) >= p) hi = mid;
+    else lo = mid;
+  }
+  return (lo + hi) / 2;
 }
