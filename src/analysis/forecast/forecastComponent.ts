@@ -27,7 +27,7 @@ import type { ComponentSettings } from '../../domain/settings.ts';
 import { ownRateBaseline } from '../baseline.ts';
 import { labVariance } from '../labNoise.ts';
 import { trustedGroupBaseline, type AnalysisState } from '../fold/analysisFold.ts';
-import type { GroupStats, RateBaseline } from '../model.ts';
+import type { BaselineSums, GroupStats, RateBaseline } from '../model.ts';
 import { crossingQuantile, mixtureCrossingQuantile, mixtureLevelQuantile, projectAt, trendAt, type ProjectedTrend, type TrendMixture } from './crossing.ts';
 import type { ForecastTrack, RecentInterval, UsagePoint } from './forecastTrack.ts';
 import { limitSpecs, makeUpLevel, type LimitSpec } from './limits.ts';
@@ -39,6 +39,8 @@ const DAY_MS = 86_400_000;
 const CENSORED_LATEST = 'the latest reading is censored: a bound, not a value';
 const TOO_MANY_CENSORED = 'more than a third of the readings on this charge are censored';
 const PROJECTION_POINTS = 24;
+/** The wear-process floor of baseline.ts that the forecast keeps: a tenth of a typical interval's wear as one standard deviation. */
+const PROCESS_SPREAD_FLOOR = 0.1;
 /** Recent intervals needed before the recent trend includes a change of the rate (else: a constant rate). */
 const RECENT_MIN = 4;
 
@@ -213,7 +215,7 @@ function filterBasis(m: Measurand, state: AnalysisState, settings: ComponentSett
         ? `fewer than ${config.minIntervals} judged wear intervals on this charge`
         : undefined;
   const since = change.signalSince !== undefined ? counts?.since : undefined;
-  const q = baseline.processVariance;
+  const q = own?.completedAt !== undefined ? projectedProcessVariance(own.sums, settings.detection.budget.sampleIntervalHours) : baseline.processVariance;
   const rate = since !== undefined && since.hours > 0 ? since.increment / since.hours : f.rate;
   const rateVariance = since !== undefined && since.hours > 0 ? (since.labVariance + q * since.hours) / since.hours ** 2 : f.rateVariance;
   const covariance = since !== undefined ? 0 : f.covariance;
@@ -235,6 +237,19 @@ function filterBasis(m: Measurand, state: AnalysisState, settings: ComponentSett
     ...(gate !== undefined && { gate }),
     ...(recent && { recent }),
   };
+}
+
+/**
+ * The wear-process variance per hour the projection carries, from the component's own baseline: the method of
+ * moments of baseline.ts without the floor that keeps the detectors from trusting their extrapolation more than one
+ * fresh reading (a detector's concern that would widen every forecast interval), with the other floor kept (one
+ * tenth of a typical interval's wear as a standard deviation) so that a noisy small estimate does not shrink it to
+ * nothing. A group baseline's process variance (first charge) stays as the group gives it.
+ */
+function projectedProcessVariance(s: BaselineSums, typicalIntervalHours: number): number {
+  const rate = s.sumIncrement / s.sumHours;
+  const rss = s.sumIncrementSq - 2 * rate * s.sumIncrementHours + rate * rate * s.sumHoursSq;
+  return Math.max((rss - s.sumLabVariance) / s.sumHours, (PROCESS_SPREAD_FLOOR * rate) ** 2 * typicalIntervalHours, 1e-9);
 }
 
 /**
