@@ -97,21 +97,21 @@ export function forecastComponent(state: AnalysisState, settings: ComponentSetti
     const t0 = b.basis.oilHours;
     const horizon = Math.max(0, horizonOil! - t0);
     const drifting = (t: ProjectedTrend): ProjectedTrend => (b.rateDrift > 0 ? { ...t, rateDrift: b.rateDrift } : t);
-    const trend: ProjectedTrend = b.rateDrift > 0 ? { ...b.trend, rateDrift: b.rateDrift } : b.trend;
+    const trend = drifting(b.trend);
     // A wear metal with recent intervals: the filter's trend and the recent trend, weighed by how well each accounts for them.
     const mix: TrendMixture | undefined =
       b.recent === undefined
         ? undefined
         : [
             { weight: 1 - b.recent.weight, trend },
-            { weight: b.recent.weight, trend: b.rateDrift > 0 ? { ...b.recent.trend, rateDrift: b.rateDrift } : b.recent.trend },
+            { weight: b.recent.weight, trend: drifting(b.recent.trend) },
           ];
     const basis: ForecastBasis = b.recent === undefined ? b.basis : { ...b.basis, recent: recentBasis(b.recent) };
     const time = (tau: number): ForecastTime => timeOf(t0 + tau, nowOil!, hoursPerDay, lastTime);
     const limits = specs.map((spec) => {
       const levelAt = (tau: number) => spec.levelAt(t0 + tau);
-      const query = (p: number, h = horizon, from = 0) =>
-        mix === undefined ? crossingQuantile(trend, { levelAt, side: spec.side, horizon: h, z: q(p), from }) : mixtureCrossingQuantile(mix, { levelAt, side: spec.side, horizon: h, p, from });
+      const query = (pq: number, h = horizon, from = 0) =>
+        mix === undefined ? crossingQuantile(trend, { levelAt, side: spec.side, horizon: h, z: q(pq), from }) : mixtureCrossingQuantile(mix, { levelAt, side: spec.side, horizon: h, p: pq, from });
       const central = query(0.5);
       const levelNow = spec.levelAt(nowOil!) ?? spec.levelAt(t0) ?? 0;
       let parts: Omit<LimitForecast, 'text'>;
