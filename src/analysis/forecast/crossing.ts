@@ -9,14 +9,20 @@
  *   Var x(τ) = a²·Var x₀ + 2ab·Cov(x₀, g) + b²·Var g + q·(1 − a²)/(2κ)      (q·τ without make-up oil)
  *
  * where (x₀, g) and their covariance are what the filter (or the fit) knows now and q is the wear process's own
- * variance per hour; a rate that may wander (the filter's rate drift d per hour) adds d·τ³/3. The crossing time T of a rising level L is the first τ with x(τ) ≥ L, so
+ * variance per hour; a rate that may wander (the filter's rate drift d per hour) adds d·τ³/3. A rate that changes
+ * steadily by c per hour (the recent trend, fitted with Var c and Cov(g, c)) adds e·c to the mean and
+ * e²·Var c + 2b·e·Cov(g, c) to the variance, e = (τ − b)/κ (τ²/2 without make-up oil).
+ *
+ * The crossing time T of a rising level L is the first τ with x(τ) ≥ L, so
  * P(T ≤ τ) = P(x(τ) ≥ L) = F((E x(τ) − L)/sd x(τ)) for a location-scale F (normal for a known variance, Student's t
  * for a fitted line). The p-quantile of T is the first τ where (E x(τ) − L)/sd x(τ) ≥ F⁻¹(p): found on a grid over
  * the horizon, then by bisection. For a falling quantity the signs turn round. Where the level depends on the
- * oil hours (a population limit by band), L(τ) is read at each τ.
+ * oil hours (a population limit by band), L(τ) is read at each τ. For several normal trends weighed together (a
+ * mixture) P(T ≤ τ) = Σ w_k·Φ((E_k x(τ) − L)/sd_k x(τ)), and the p-quantile is the first τ where that reaches p,
+ * found the same way.
  */
 
-import { normalCdf } from "../arl/normal.ts";
+import { normalCdf } from '../arl/normal.ts';
 
 export interface ProjectedTrend {
   readonly level: number;

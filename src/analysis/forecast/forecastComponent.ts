@@ -7,7 +7,13 @@
  * charge with their covariance, the wear process's variance per hour and the rate's drift from the baseline the
  * filter runs with (fold/changeTrack.ts). While an upward change is signalled the filter holds its rate at the
  * pre-change value; the forecast then takes the rate of the intervals since the signal began (the ratio estimator
- * of baseline.ts), since that is the rate that continues. Any other measurand with a level to watch is projected
+ * of baseline.ts), since that is the rate that continues. The wear process's variance the projection carries is the
+ * component's own (method of moments) without the floor set for the detectors. Beside the filter's trend the
+ * forecast weighs the recent trend: the latest reading carried on at the rate of the last judged intervals and its
+ * steady change (recentTrend), with the posterior weight of that fit against the filter's rate; the central estimate
+ * and the interval are the median and percentiles of the two together. On steady wear the filter's trend carries
+ * almost all the weight; where the rate has changed, the recent trend does, before the detectors signal and while
+ * a rising rate keeps rising after the signal. Any other measurand with a level to watch is projected
  * from a straight line fitted to the present charge's uncensored readings, its interval from Student's t with
  * n − 2 degrees of freedom. Make-up oil on the charge dilutes the projection (crossing.ts); the planned charge
  * length bounds it; for a wear metal whose crossing falls beyond the oil change, the residual-oil rule of

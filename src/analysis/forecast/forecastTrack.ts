@@ -2,7 +2,8 @@
  * What the forecast needs beyond the change-detection state, kept in the fold's state one sample at a time:
  * the hours run per calendar day (recent unit-hours readings), the make-up oil of the present charge, how many
  * intervals the filter has judged on it per wear metal (and the rate of the intervals since an upward change
- * was signalled, while the filter holds its own rate), and for measurands the filter does not watch, the sums of
+ * was signalled, while the filter holds its own rate), its last RECENT_INTERVALS judged intervals (for the recent
+ * trend the forecast weighs beside the filter's), and for measurands the filter does not watch, the sums of
  * a straight-line fit to the present charge's readings. Plain JSON, constant size per measurand.
  */
 import type { Sample } from '../../domain/event.ts';
@@ -59,8 +60,10 @@ export interface RecentInterval {
 }
 
 /**
- * Judged intervals kept for the rate of the recent intervals (newest last): across oil changes (an interval over a
- * drain measures wear from the residual oil on), started afresh when the component is replaced.
+ * Judged intervals kept for the recent trend (newest last): enough to fit a rate and its change per hour with some
+ * degrees of freedom to spare, few enough to be recent (at the usual 100–250 h between samples, one or two charges).
+ * Kept across oil changes (an interval over a drain measures wear from the residual oil on), started afresh when the
+ * component is replaced.
  */
 export const RECENT_INTERVALS = 8;
 
