@@ -7,7 +7,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { evaluateComponent } from '../../src/analysis/evaluate.ts';
-import { crossingQuantile, mixtureCrossingQuantile, mixtureLevelQuantile, projectAt, trendAt, type ProjectedTrend } from '../../src/analysis/forecast/crossing.ts';
+import { crossingQuantile, mixtureCrossing, mixtureLevelQuantile, projectAt, trendAt, type ProjectedTrend } from '../../src/analysis/forecast/crossing.ts';
 import { forecastComponent } from '../../src/analysis/forecast/forecastComponent.ts';
 import { normalQuantile } from '../../src/analysis/forecast/quantile.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
@@ -21,8 +21,11 @@ describe('forecast: mixture of trends', () => {
   it('a mixture of one trend, or of two copies of it, gives the single trend’s quantiles', () => {
     for (const p of [0.1, 0.5, 0.9]) {
       const single = crossingQuantile(TREND, { ...ABOVE, z: normalQuantile(p) })!;
-      expect(mixtureCrossingQuantile([{ weight: 1, trend: TREND }], { ...ABOVE, p })!).toBeCloseTo(single, 6);
-      expect(mixtureCrossingQuantile([{ weight: 0.3, trend: TREND }, { weight: 0.7, trend: TREND }], { ...ABOVE, p })!).toBeCloseTo(single, 6);
+      expect(mixtureCrossing([{ weight: 1, trend: TREND }], ABOVE).quantile(p)!).toBeCloseTo(single, 6);
+      expect(mixtureCrossing([{ weight: 0.3, trend: TREND }, { weight: 0.7, trend: TREND }], ABOVE).quantile(p)!).toBeCloseTo(single, 6);
+      // A search from a later start, or bounded below the horizon, finds the same crossing where it lies within.
+      expect(mixtureCrossing([{ weight: 1, trend: TREND }], ABOVE).quantile(p, single / 2, single + 1)!).toBeCloseTo(single, 6);
+      expect(mixtureCrossing([{ weight: 1, trend: TREND }], ABOVE).quantile(p, 0, single / 2)).toBeUndefined();
       const x = projectAt(TREND, 300);
       expect(mixtureLevelQuantile([{ weight: 1, trend: TREND }], 300, p)).toBeCloseTo(x.mean + normalQuantile(p) * x.sd, 6);
     }
@@ -31,9 +34,9 @@ describe('forecast: mixture of trends', () => {
   it('lies between its trends: a faster trend beside a slower one moves every percentile earlier', () => {
     const fast: ProjectedTrend = { ...TREND, rate: 0.1 };
     for (const p of [0.1, 0.5, 0.9]) {
-      const slow = mixtureCrossingQuantile([{ weight: 1, trend: TREND }], { ...ABOVE, p })!;
-      const quick = mixtureCrossingQuantile([{ weight: 1, trend: fast }], { ...ABOVE, p })!;
-      const both = mixtureCrossingQuantile([{ weight: 0.5, trend: TREND }, { weight: 0.5, trend: fast }], { ...ABOVE, p })!;
+      const slow = mixtureCrossing([{ weight: 1, trend: TREND }], ABOVE).quantile(p)!;
+      const quick = mixtureCrossing([{ weight: 1, trend: fast }], ABOVE).quantile(p)!;
+      const both = mixtureCrossing([{ weight: 0.5, trend: TREND }, { weight: 0.5, trend: fast }], ABOVE).quantile(p)!;
       expect(both).toBeGreaterThanOrEqual(quick - 1e-6);
       expect(both).toBeLessThanOrEqual(slow + 1e-6);
     }

@@ -23,6 +23,7 @@
  */
 
 import { normalCdf } from '../arl/normal.ts';
+import { normalQuantile as normalQuantileOf } from './quantile.ts';
 
 export interface ProjectedTrend {
   readonly level: number;
@@ -140,10 +141,8 @@ export type TrendMixture = readonly { readonly weight: number; readonly trend: P
 export interface MixtureQuery {
   readonly levelAt: (tau: number) => number | undefined;
   readonly side: 'above' | 'below';
+  /** The grid spans [0, horizon] hours. */
   readonly horizon: number;
-  readonly from?: number;
-  /** The probability wanted (0.5 for the median). */
-  readonly p: number;
 }
 
 /** P(x(τ) has crossed the level): each trend's normal probability, weighed. */
@@ -158,47 +157,72 @@ function crossedProbability(mix: TrendMixture, tau: number, level: number, side:
 }
 
 /**
- * As crossingQuantile for normal trends weighed together: the first τ in [from, horizon] at which the crossing has
- * happened with probability p; undefined: not within the horizon. One trend of weight 1 gives crossingQuantile's
- * answer with z = Φ⁻¹(p).
+ * As crossingQuantile for normal trends weighed together: `quantile(p, from, to)` is the first τ in [from, to] at
+ * which the crossing has happened with probability p; undefined: not within it. The probabilities on the grid over
+ * [0, horizon] are worked out once and shared by every quantile; the bisection then refines within one step. One
+ * trend of weight 1 gives crossingQuantile's answer with z = Φ⁻¹(p) (to within the bisection).
  */
-export function mixtureCrossingQuantile(mix: TrendMixture, q: MixtureQuery): number | undefined {
-  const margin = (tau: number): number => {
+export function mixtureCrossing(mix: TrendMixture, q: MixtureQuery): { quantile: (p: number, from?: number, to?: number) => number | undefined } {
+  const probability = (tau: number): number => {
     const level = q.levelAt(tau);
-    return level === undefined ? -Infinity : crossedProbability(mix, tau, level, q.side) - q.p;
+    return level === undefined ? -Infinity : crossedProbability(mix, tau, level, q.side);
   };
-  const from = Math.max(0, q.from ?? 0);
-  if (margin(from) >= 0) return from;
-  if (!(q.horizon > from)) return undefined;
-  let previous = from;
-  for (let i = 1; i <= GRID; i++) {
-    const tau = from + ((q.horizon - from) * i) / GRID;
-    if (margin(tau) >= 0) {
-      let lo = previous;
-      let hi = tau;
-      for (let j = 0; j < BISECTIONS; j++) {
-        const mid = (lo + hi) / 2;
-        if (margin(mid) >= 0) hi = mid;
-        else lo = mid;
+  const grid: number[] = [];
+  const at = (i: number): number => (grid[i] ??= probability((q.horizon * i) / GRID));
+  const quantile = (p: number, from = 0, to = q.horizon): number | undefined => {
+    const start = Math.max(0, from);
+    const end = Math.min(to, q.horizon);
+    if (probability(start) >= p) return start;
+    if (!(end > start)) return undefined;
+    let previous = start;
+    for (let i = Math.floor((start / q.horizon) * GRID) + 1; i <= GRID; i++) {
+      const gridTau = (q.horizon * i) / GRID;
+      const tau = Math.min(gridTau, end);
+      if ((tau === gridTau ? at(i) : probability(tau)) >= p) {
+        let lo = previous;
+        let hi = tau;
+        for (let j = 0; j < BISECTIONS; j++) {
+          const mid = (lo + hi) / 2;
+          if (probability(mid) >= p) hi = mid;
+          else lo = mid;
+        }
+        return hi;
       }
-      return hi;
+      if (tau >= end) return undefined;
+      previous = tau;
     }
-    previous = tau;
-  }
-  return undefined;
+    return undefined;
+  };
+  return { quantile };
 }
 
-/** The p-quantile of the mixture's level τ hours on, by bisection between the trends' own extremes. */
+/**
+ * The p-quantile of the mixture's level τ hours on: Newton's method on the mixture's distribution function from the
+ * weighed trends' own quantiles, kept within a bracket that bisection narrows whenever a step would leave it.
+ */
 export function mixtureLevelQuantile(mix: TrendMixture, tau: number, p: number): number {
-  const points = mix.map(({ trend }) => projectAt(trend, tau));
-  let lo = Math.min(...points.map((x) => x.mean - 10 * x.sd));
-  let hi = Math.max(...points.map((x) => x.mean + 10 * x.sd));
+  const points = mix.map(({ weight, trend }) => ({ weight, ...projectAt(trend, tau) }));
+  const z = normalQuantileOf(p);
+  let lo = Math.min(...points.map((x) => x.mean + Math.min(z, 0) * x.sd - x.sd));
+  let hi = Math.max(...points.map((x) => x.mean + Math.max(z, 0) * x.sd + x.sd));
   if (!(hi > lo)) return lo;
-  const below = (v: number) => mix.reduce((a, { weight }, k) => a + weight * (points[k]!.sd > 0 ? normalCdf((v - points[k]!.mean) / points[k]!.sd) : v >= points[k]!.mean ? 1 : 0), 0);
-  for (let j = 0; j < 60; j++) {
-    const mid = (lo + hi) / 2;
-    if (below(mid) >= p) hi = mid;
-    else lo = mid;
+  let x = points.reduce((a, q) => a + q.weight * (q.mean + z * q.sd), 0);
+  for (let j = 0; j < 100; j++) {
+    let f = -p;
+    let density = 0;
+    for (const q of points) {
+      if (q.sd > 0) {
+        const u = (x - q.mean) / q.sd;
+        f += q.weight * normalCdf(u);
+        density += (q.weight * Math.exp(-0.5 * u * u)) / (q.sd * Math.sqrt(2 * Math.PI));
+      } else if (x >= q.mean) f += q.weight;
+    }
+    if (f >= 0) hi = x;
+    else lo = x;
+    const step = density > 0 ? x - f / density : NaN;
+    const next = step > lo && step < hi ? step : (lo + hi) / 2;
+    if (Math.abs(next - x) <= 1e-12 * Math.max(1, Math.abs(x)) || hi - lo <= 1e-12 * Math.max(1, Math.abs(x))) return next;
+    x = next;
   }
-  return (lo + hi) / 2;
+  return x;
 }

@@ -34,7 +34,7 @@ import { ownRateBaseline } from '../baseline.ts';
 import { labVariance } from '../labNoise.ts';
 import { trustedGroupBaseline, type AnalysisState } from '../fold/analysisFold.ts';
 import type { BaselineSums, GroupStats, RateBaseline } from '../model.ts';
-import { crossingQuantile, mixtureCrossingQuantile, mixtureLevelQuantile, projectAt, trendAt, type ProjectedTrend, type TrendMixture } from './crossing.ts';
+import { crossingQuantile, mixtureCrossing, mixtureLevelQuantile, projectAt, trendAt, type ProjectedTrend, type TrendMixture } from './crossing.ts';
 import type { ForecastTrack, RecentInterval, UsagePoint } from './forecastTrack.ts';
 import { limitSpecs, makeUpLevel, type LimitSpec } from './limits.ts';
 import type { ComponentForecast, ForecastBasis, ForecastTime, LimitForecast, MeasurandForecast, ProjectionPoint } from './model.ts';
@@ -116,8 +116,9 @@ export function forecastComponent(state: AnalysisState, settings: ComponentSetti
     const time = (tau: number): ForecastTime => timeOf(t0 + tau, nowOil!, hoursPerDay, lastTime);
     const limits = specs.map((spec) => {
       const levelAt = (tau: number) => spec.levelAt(t0 + tau);
+      const mixed = mix === undefined ? undefined : mixtureCrossing(mix, { levelAt, side: spec.side, horizon });
       const query = (pq: number, h = horizon, from = 0) =>
-        mix === undefined ? crossingQuantile(trend, { levelAt, side: spec.side, horizon: h, z: q(pq), from }) : mixtureCrossingQuantile(mix, { levelAt, side: spec.side, horizon: h, p: pq, from });
+        mixed === undefined ? crossingQuantile(trend, { levelAt, side: spec.side, horizon: h, z: q(pq), from }) : mixed.quantile(pq, from, h);
       const central = query(0.5);
       const levelNow = spec.levelAt(nowOil!) ?? spec.levelAt(t0) ?? 0;
       let parts: Omit<LimitForecast, 'text'>;
