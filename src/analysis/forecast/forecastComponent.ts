@@ -126,6 +126,8 @@ export function forecastComponent(state: AnalysisState, settings: ComponentSetti
         const accumulates = MEASURANDS[m].kind === 'wear' || MEASURANDS[m].kind === 'contaminant';
         let nextCharge: LimitForecast['nextCharge'];
         if (accumulates && chargeHours !== null) {
+          // The next charge is projected from the filter's trend alone: a rate change seen in the recent intervals
+          // is not carried over a drain into a whole further charge.
           const atDrain = trendAt(trend, horizon);
           const r = settings.residualFraction;
           const start: ProjectedTrend = { ...atDrain, level: r * atDrain.level, levelVariance: r * r * atDrain.levelVariance, covariance: r * atDrain.covariance, dilution: 0 };
