@@ -148,6 +148,8 @@ function trueCrossing(path: TruePath, charge: number, fromOil: number): number {
 
 interface Outcome {
   covered: boolean;
+  /** Not covered: the true crossing came before the interval (the forecast was late) or after it. */
+  miss?: 'before' | 'after';
   /** The true level crosses within the charge. */
   crosses: boolean;
   error?: number;
@@ -176,6 +178,7 @@ function scoreComponent(sim: Simulated, settings: ComponentSettings, group: Grou
     const central = limit.central?.oilHours;
     out.push({
       covered,
+      ...(!covered && { miss: truth < lo ? ('before' as const) : ('after' as const) }),
       crosses: truth !== Infinity,
       ...(central !== undefined && truth !== Infinity && { error: Math.abs(central - truth) }),
       ...(m.gatedBy !== undefined && { gate: gateName(m.gatedBy) }),
@@ -210,6 +213,9 @@ interface Figures {
   /** Coverage among the forecasts whose true crossing falls within the charge. */
   crossingCoverage: number;
   medianError: number;
+  /** Share of forecasts whose true crossing came before the interval's lower percentile. */
+  before: number;
+  after: number;
 }
 
 function figures(outcomes: readonly Outcome[]): Figures {
@@ -220,6 +226,8 @@ function figures(outcomes: readonly Outcome[]): Figures {
     coverage: outcomes.filter((o) => o.covered).length / Math.max(1, outcomes.length),
     crossingCoverage: crossing.filter((o) => o.covered).length / Math.max(1, crossing.length),
     medianError: median(errors),
+    before: outcomes.filter((o) => o.miss === 'before').length / Math.max(1, outcomes.length),
+    after: outcomes.filter((o) => o.miss === 'after').length / Math.max(1, outcomes.length),
   };
 }
 
@@ -240,7 +248,7 @@ export function runForecast(options: ForecastBenchOptions): PartResult {
     const stated = figures(all.filter((o) => o.gate === undefined));
     const byGate = new Map<string, Outcome[]>();
     for (const o of all) if (o.gate !== undefined) byGate.set(o.gate, [...(byGate.get(o.gate) ?? []), o]);
-    const row = (label: string, f: Figures) => [scenario, label, String(f.n), `${fmt(f.coverage * 100)} %`, `${fmt(f.crossingCoverage * 100)} %`, fmt(f.medianError)];
+    const row = (label: string, f: Figures) => [scenario, label, String(f.n), `${fmt(f.coverage * 100)} %`, `${fmt(f.crossingCoverage * 100)} %`, `${fmt(f.before * 100)} %`, `${fmt(f.after * 100)} %`, fmt(f.medianError)];
     rows.push(row('stated', stated));
     for (const method of ['filter', 'filter-since-signal', 'trend']) {
       const list = all.filter((o) => o.gate === undefined && o.method === method);
@@ -260,8 +268,9 @@ export function runForecast(options: ForecastBenchOptions): PartResult {
       if (f.n > 0) byMethod[method] = { n: f.n, coverage: round(f.coverage), crossingCoverage: round(f.crossingCoverage), medianAbsErrorHours: round(f.medianError) };
     }
     const fc = figures(first);
+    const shares = (f: Figures) => ({ truthBefore: round(f.before), truthAfter: round(f.after) });
     json[scenario] = {
-      stated: { n: stated.n, coverage: round(stated.coverage), crossingCoverage: round(stated.crossingCoverage), medianAbsErrorHours: round(stated.medianError) },
+      stated: { n: stated.n, coverage: round(stated.coverage), crossingCoverage: round(stated.crossingCoverage), ...shares(stated), medianAbsErrorHours: round(stated.medianError) },
       byMethod,
       firstCharge: { n: fc.n, coverage: round(fc.coverage), crossingCoverage: round(fc.crossingCoverage), medianAbsErrorHours: round(fc.medianError) },
       gates,
@@ -270,7 +279,7 @@ export function runForecast(options: ForecastBenchOptions): PartResult {
   return {
     name: 'forecast',
     json,
-    table: { columns: ['scenario', 'forecasts', 'n', '10–90 % coverage', 'where it crosses', 'median |error| h'], rows },
+    table: { columns: ['scenario', 'forecasts', 'n', '10–90 % coverage', 'where it crosses', 'truth before', 'truth after', 'median |error| h'], rows },
     notes: [
       `${components} components per scenario, ${samples} samples each (every 100 h ± 40 %), oil change at ${CHARGE_HOURS} oil hours, Fe alarm level ${LIMIT} ppm.`,
       'stated: what the product says; gated: forecasts the product replaces by "not enough history to forecast", by the gate that stops them.',

@@ -9,12 +9,21 @@
  *   Var x(τ) = a²·Var x₀ + 2ab·Cov(x₀, g) + b²·Var g + q·(1 − a²)/(2κ)      (q·τ without make-up oil)
  *
  * where (x₀, g) and their covariance are what the filter (or the fit) knows now and q is the wear process's own
- * variance per hour; a rate that may wander (the filter's rate drift d per hour) adds d·τ³/3. The crossing time T of a rising level L is the first τ with x(τ) ≥ L, so
+ * variance per hour; a rate that may wander (the filter's rate drift d per hour) adds d·τ³/3. A rate that changes
+ * steadily by c per hour (the recent trend, fitted with Var c and Cov(g, c)) adds e·c to the mean and
+ * e²·Var c + 2b·e·Cov(g, c) to the variance, e = (τ − b)/κ (τ²/2 without make-up oil).
+ *
+ * The crossing time T of a rising level L is the first τ with x(τ) ≥ L, so
  * P(T ≤ τ) = P(x(τ) ≥ L) = F((E x(τ) − L)/sd x(τ)) for a location-scale F (normal for a known variance, Student's t
  * for a fitted line). The p-quantile of T is the first τ where (E x(τ) − L)/sd x(τ) ≥ F⁻¹(p): found on a grid over
  * the horizon, then by bisection. For a falling quantity the signs turn round. Where the level depends on the
- * oil hours (a population limit by band), L(τ) is read at each τ.
+ * oil hours (a population limit by band), L(τ) is read at each τ. For several normal trends weighed together (a
+ * mixture) P(T ≤ τ) = Σ w_k·Φ((E_k x(τ) − L)/sd_k x(τ)), and the p-quantile is the first τ where that reaches p,
+ * found the same way.
  */
+
+import { normalCdf } from '../arl/normal.ts';
+import { normalQuantile as normalQuantileOf } from './quantile.ts';
 
 export interface ProjectedTrend {
   readonly level: number;
@@ -30,6 +39,8 @@ export interface ProjectedTrend {
   readonly makeUpLevel: number;
   /** How fast the rate may wander, (rate unit)² per hour: a random walk of the rate adds drift·τ³/3 to Var x(τ). */
   readonly rateDrift?: number;
+  /** A rate that changes steadily: its change per hour (c), with its variance and its covariance with the rate. */
+  readonly acceleration?: { readonly value: number; readonly variance: number; readonly rateCovariance: number };
 }
 
 export interface Projection {
@@ -44,9 +55,18 @@ export function projectAt(t: ProjectedTrend, tau: number): Projection {
   const a = k > TINY_DILUTION ? Math.exp(-k * tau) : 1;
   const b = k > TINY_DILUTION ? (1 - a) / k : tau;
   const process = k > TINY_DILUTION ? (1 - a * a) / (2 * k) : tau;
-  const mean = a * t.level + b * t.rate + (1 - a) * t.makeUpLevel;
+  // A rate changing by c per hour adds c·∫₀^τ e^(−κ(τ−s))·s ds = c·(τ − b)/κ (c·τ²/2 without make-up oil).
+  const e = k > TINY_DILUTION ? (tau - b) / k : (tau * tau) / 2;
+  const c = t.acceleration;
+  const mean = a * t.level + b * t.rate + (1 - a) * t.makeUpLevel + (c === undefined ? 0 : e * c.value);
   const drift = t.rateDrift ?? 0;
-  const variance = a * a * t.levelVariance + 2 * a * b * t.covariance + b * b * t.rateVariance + t.processVariance * process + (drift * tau ** 3) / 3;
+  const variance =
+    a * a * t.levelVariance +
+    2 * a * b * t.covariance +
+    b * b * t.rateVariance +
+    t.processVariance * process +
+    (drift * tau ** 3) / 3 +
+    (c === undefined ? 0 : e * e * c.variance + 2 * b * e * c.rateCovariance);
   return { mean, sd: Math.sqrt(Math.max(0, variance)) };
 }
 
@@ -57,12 +77,16 @@ export function trendAt(t: ProjectedTrend, tau: number): ProjectedTrend {
   const b = k > TINY_DILUTION ? (1 - a) / k : tau;
   const p = projectAt(t, tau);
   const drift = t.rateDrift ?? 0;
+  const c = t.acceleration;
+  const e = k > TINY_DILUTION ? (tau - b) / k : (tau * tau) / 2;
   return {
     ...t,
     level: p.mean,
     levelVariance: p.sd ** 2,
-    covariance: a * t.covariance + b * t.rateVariance + (drift * tau * tau) / 2,
-    rateVariance: t.rateVariance + drift * tau,
+    covariance: a * t.covariance + b * t.rateVariance + (drift * tau * tau) / 2 + (c === undefined ? 0 : (e + tau * b) * c.rateCovariance + tau * e * c.variance),
+    rate: t.rate + (c === undefined ? 0 : tau * c.value),
+    rateVariance: t.rateVariance + drift * tau + (c === undefined ? 0 : tau * tau * c.variance + 2 * tau * c.rateCovariance),
+    ...(c !== undefined && { acceleration: { ...c, rateCovariance: c.rateCovariance + tau * c.variance } }),
   };
 }
 
@@ -109,4 +133,96 @@ export function crossingQuantile(t: ProjectedTrend, q: CrossingQuery): number | 
     previous = tau;
   }
   return undefined;
+}
+
+/** Trends weighed together: P(x(τ) ≤ v) = Σ weight·Φ((v − E_k x(τ))/sd_k x(τ)), the weights summing to 1. */
+export type TrendMixture = readonly { readonly weight: number; readonly trend: ProjectedTrend }[];
+
+export interface MixtureQuery {
+  readonly levelAt: (tau: number) => number | undefined;
+  readonly side: 'above' | 'below';
+  /** The grid spans [0, horizon] hours. */
+  readonly horizon: number;
+}
+
+/** P(x(τ) has crossed the level): each trend's normal probability, weighed. */
+function crossedProbability(mix: TrendMixture, tau: number, level: number, side: 'above' | 'below'): number {
+  let sum = 0;
+  for (const { weight, trend } of mix) {
+    const p = projectAt(trend, tau);
+    const beyond = side === 'above' ? p.mean - level : level - p.mean;
+    sum += weight * (p.sd > 0 ? normalCdf(beyond / p.sd) : beyond >= 0 ? 1 : 0);
+  }
+  return sum;
+}
+
+/**
+ * As crossingQuantile for normal trends weighed together: `quantile(p, from, to)` is the first τ in [from, to] at
+ * which the crossing has happened with probability p; undefined: not within it. The probabilities on the grid over
+ * [0, horizon] are worked out once and shared by every quantile; the bisection then refines within one step. One
+ * trend of weight 1 gives crossingQuantile's answer with z = Φ⁻¹(p) (to within the bisection).
+ */
+export function mixtureCrossing(mix: TrendMixture, q: MixtureQuery): { quantile: (p: number, from?: number, to?: number) => number | undefined } {
+  const probability = (tau: number): number => {
+    const level = q.levelAt(tau);
+    return level === undefined ? -Infinity : crossedProbability(mix, tau, level, q.side);
+  };
+  const grid: number[] = [];
+  const at = (i: number): number => (grid[i] ??= probability((q.horizon * i) / GRID));
+  const quantile = (p: number, from = 0, to = q.horizon): number | undefined => {
+    const start = Math.max(0, from);
+    const end = Math.min(to, q.horizon);
+    if (probability(start) >= p) return start;
+    if (!(end > start)) return undefined;
+    let previous = start;
+    for (let i = Math.floor((start / q.horizon) * GRID) + 1; i <= GRID; i++) {
+      const gridTau = (q.horizon * i) / GRID;
+      const tau = Math.min(gridTau, end);
+      if ((tau === gridTau ? at(i) : probability(tau)) >= p) {
+        let lo = previous;
+        let hi = tau;
+        for (let j = 0; j < BISECTIONS; j++) {
+          const mid = (lo + hi) / 2;
+          if (probability(mid) >= p) hi = mid;
+          else lo = mid;
+        }
+        return hi;
+      }
+      if (tau >= end) return undefined;
+      previous = tau;
+    }
+    return undefined;
+  };
+  return { quantile };
+}
+
+/**
+ * The p-quantile of the mixture's level τ hours on: Newton's method on the mixture's distribution function from the
+ * weighed trends' own quantiles, kept within a bracket that bisection narrows whenever a step would leave it.
+ */
+export function mixtureLevelQuantile(mix: TrendMixture, tau: number, p: number): number {
+  const points = mix.map(({ weight, trend }) => ({ weight, ...projectAt(trend, tau) }));
+  const z = normalQuantileOf(p);
+  let lo = Math.min(...points.map((x) => x.mean + Math.min(z, 0) * x.sd - x.sd));
+  let hi = Math.max(...points.map((x) => x.mean + Math.max(z, 0) * x.sd + x.sd));
+  if (!(hi > lo)) return lo;
+  let x = points.reduce((a, q) => a + q.weight * (q.mean + z * q.sd), 0);
+  for (let j = 0; j < 100; j++) {
+    let f = -p;
+    let density = 0;
+    for (const q of points) {
+      if (q.sd > 0) {
+        const u = (x - q.mean) / q.sd;
+        f += q.weight * normalCdf(u);
+        density += (q.weight * Math.exp(-0.5 * u * u)) / (q.sd * Math.sqrt(2 * Math.PI));
+      } else if (x >= q.mean) f += q.weight;
+    }
+    if (f >= 0) hi = x;
+    else lo = x;
+    const step = density > 0 ? x - f / density : NaN;
+    const next = step > lo && step < hi ? step : (lo + hi) / 2;
+    if (Math.abs(next - x) <= 1e-12 * Math.max(1, Math.abs(x)) || hi - lo <= 1e-12 * Math.max(1, Math.abs(x))) return next;
+    x = next;
+  }
+  return x;
 }

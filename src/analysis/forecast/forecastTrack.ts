@@ -2,7 +2,8 @@
  * What the forecast needs beyond the change-detection state, kept in the fold's state one sample at a time:
  * the hours run per calendar day (recent unit-hours readings), the make-up oil of the present charge, how many
  * intervals the filter has judged on it per wear metal (and the rate of the intervals since an upward change
- * was signalled, while the filter holds its own rate), and for measurands the filter does not watch, the sums of
+ * was signalled, while the filter holds its own rate), its last RECENT_INTERVALS judged intervals (for the recent
+ * trend the forecast weighs beside the filter's), and for measurands the filter does not watch, the sums of
  * a straight-line fit to the present charge's readings. Plain JSON, constant size per measurand.
  */
 import type { Sample } from '../../domain/event.ts';
@@ -51,12 +52,29 @@ export interface SinceSignal {
   readonly labVariance: number;
 }
 
+/** One judged interval of the recent window: what the ratio estimator needs. */
+export interface RecentInterval {
+  readonly hours: number;
+  readonly increment: number;
+  readonly labVariance: number;
+}
+
+/**
+ * Judged intervals kept for the recent trend (newest last): enough to fit a rate and its change per hour with some
+ * degrees of freedom to spare, few enough to be recent (at the usual 100–250 h between samples, one or two charges).
+ * Kept across oil changes (an interval over a drain measures wear from the residual oil on), started afresh when the
+ * component is replaced.
+ */
+export const RECENT_INTERVALS = 8;
+
 export interface FilterCounts {
   /** Intervals the filter updated on, on the present charge. */
   readonly updates: number;
   /** Censored intervals on the present charge. */
   readonly censored: number;
   readonly since?: SinceSignal;
+  /** The last RECENT_INTERVALS judged, uncensored intervals (newest last). */
+  readonly recent?: readonly RecentInterval[];
 }
 
 export interface ForecastTrack {
@@ -100,7 +118,7 @@ export function advanceForecast(track: ForecastTrack | undefined, input: Forecas
   const fresh = track === undefined || input.newCharge || track.chargeIndex !== input.chargeIndex;
   const filter: Partial<Record<Measurand, FilterCounts>> = {};
   for (const [m, c] of Object.entries(track?.filter ?? {}) as [Measurand, FilterCounts][]) {
-    filter[m] = fresh ? { updates: 0, censored: 0, ...(c.since && { since: c.since }) } : c;
+    filter[m] = fresh ? { updates: 0, censored: 0, ...(c.since && { since: c.since }), ...(c.recent && { recent: c.recent }) } : c;
   }
   const trend: Partial<Record<Measurand, TrendTrack>> = fresh ? {} : { ...track.trend };
   let topUp = fresh ? 0 : track.topUp;
@@ -125,10 +143,13 @@ export function advanceForecast(track: ForecastTrack | undefined, input: Forecas
     const updated = !iv.censored && judged.has(m);
     const signalling = input.change[m]?.signalSince !== undefined;
     const since = signalling && updated ? addSince(before.since, iv, settings) : signalling ? before.since : undefined;
+    const kept = iv.to.componentChanged === true ? [] : (before.recent ?? []);
+    const recent = updated ? [...kept, { hours: iv.hours, increment: iv.increment, labVariance: incrementLabVariance(iv, settings.detection.labNoise) }].slice(-RECENT_INTERVALS) : kept;
     filter[m] = {
       updates: before.updates + (updated ? 1 : 0),
       censored: before.censored + (iv.censored ? 1 : 0),
       ...(since && { since }),
+      ...(recent.length > 0 && { recent }),
     };
   }
   for (const m of input.trendMeasurands) {

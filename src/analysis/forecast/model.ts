@@ -65,6 +65,22 @@ export interface ForecastBasis {
   readonly rate: number;
   readonly levelSd: number;
   readonly rateSd: number;
+  /**
+   * A wear metal the filter watches, with at least 2 judged intervals lately: the second trend the forecast weighs
+   * beside the filter's (with `weight`): the latest reading carried on at the rate of the recent intervals, and
+   * with 4 or more of them, that rate's steady change per hour (`rateChange`, ppm/h per hour).
+   */
+  readonly recent?: {
+    readonly weight: number;
+    readonly intervals: number;
+    readonly hours: number;
+    readonly level: number;
+    readonly rate: number;
+    readonly levelSd: number;
+    readonly rateSd: number;
+    readonly rateChange?: number;
+    readonly rateChangeSd?: number;
+  };
 }
 
 /** The projected level at one oil-hours point: median and the interval percentiles. */
