@@ -9,7 +9,7 @@ export const SEVERITY_RANK = { watch: 0, caution: 1, alarm: 2 };
 const GLYPH = { watch: '◇', caution: '▲', alarm: '■' };
 
 /** Beside every forecast, as in the e-mail (src/domain/caution.ts). */
-export const FORECAST_CAUTION = 'A forecast assumes the present rate continues; wear can speed up or settle at any time.';
+export const FORECAST_CAUTION = 'A forecast assumes the present trend continues; wear can speed up or settle at any time.';
 
 /** Since when the incident has waited for someone: when it was announced, else its opening sample. */
 export const waitingSince = (incident) => incident.escalation?.startedAt ?? incident.openedAt;

@@ -31,7 +31,7 @@ export function chartAltText(series: ComponentSeries, measurand: Measurand): str
   parts.push(findingsText(m, last.sampleId));
   // The nearest level the trend heads for, as the dashed projection shows it.
   const ahead = m.forecast?.limits.filter((l) => l.outcome === 'crossing').sort((a, b) => a.central!.hoursFromNow - b.central!.hoursFromNow)[0];
-  if (ahead !== undefined) parts.push(`Dashed projection: ${ahead.text} A forecast assumes the present rate continues.`);
+  if (ahead !== undefined) parts.push(`Dashed projection: ${ahead.text} A forecast assumes the present trend continues.`);
   return parts.join(' ');
 }
 

@@ -55,7 +55,7 @@ export interface MeasurandSeries {
   /** One mark per finding of this measurand, in time order. */
   readonly marks: readonly RuleMark[];
   /**
-   * When the reading is expected to cross each of its levels at the present rate, with the projection drawn dashed
+   * When the reading is expected to cross each of its levels at the present trend, with the projection drawn dashed
    * with its band on the chart; null when the measurand has no level to forecast or forecasts are disabled.
    */
   readonly forecast: MeasurandForecast | null;

@@ -45,7 +45,7 @@ export const IncidentMessageSchema = z
     ),
     forecast: z
       .object({
-        caution: z.string().describe('A forecast assumes the present rate continues.'),
+        caution: z.string().describe('A forecast assumes the present trend continues.'),
         items: z.array(
           z
             .object({

@@ -6,4 +6,4 @@ export const ADVISORY_CAUTION =
   "wearshift advises: the laboratory's diagnosis, the equipment maker's limits, local codes and licensed practice decide.";
 
 /** What a time-to-limit forecast rests on. */
-export const FORECAST_CAUTION = 'A forecast assumes the present rate continues; wear can speed up or settle at any time.';
+export const FORECAST_CAUTION = 'A forecast assumes the present trend continues; wear can speed up or settle at any time.';

@@ -148,7 +148,7 @@ export interface Incident {
   readonly context: readonly Finding[];
   /**
    * How long until the evidence's measurands cross their limits, as of the evidence's sample (analysis/forecast);
-   * absent when forecasts are disabled. A forecast assumes the present rate continues.
+   * absent when forecasts are disabled. A forecast assumes the present trend continues.
    */
   readonly forecast?: readonly LimitForecast[];
   readonly acknowledged: Acknowledgement | null;

@@ -67,9 +67,9 @@ export interface IncidentMessage {
     explanation: string;
   }>;
   /**
-   * How long until the evidence's measurands cross their limits at the present rate (central estimate and
+   * How long until the evidence's measurands cross their limits at the present trend (central estimate and
    * interval, in operating hours and as a date), or why there is no forecast; with the caution that a forecast
-   * assumes the present rate continues. Absent when forecasts are disabled.
+   * assumes the present trend continues. Absent when forecasts are disabled.
    */
   forecast?: {
     caution: string;

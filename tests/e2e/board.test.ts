@@ -106,7 +106,7 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     for (const [name, script] of scripts) expect(script, name).toEqual({ status: 200, type: expect.stringMatching(/^text\/javascript/) });
   });
 
-  it("shows each incident's time to limit, as the API gives it, with the caution that it assumes the present rate continues", async () => {
+  it("shows each incident's time to limit, as the API gives it, with the caution that it assumes the present trend continues", async () => {
     const open = (await api('/v1/incidents?state=open')).incidents as { id: string; forecast?: { text: string }[] }[];
     const withForecast = open.filter((i) => (i.forecast?.length ?? 0) > 0);
     expect(withForecast.length).toBeGreaterThan(0);
@@ -116,7 +116,7 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
       await poll(() => items.count()).toBe(Math.min(4, incident.forecast!.length));
       const texts = await items.evaluateAll((els) => els.map((e) => e.textContent ?? ''));
       for (const [i, t] of texts.entries()) expect(t).toBe(`time to limit: ${incident.forecast![i]!.text}`);
-      expect(await card.locator('.evidence li.forecast-caution').innerText()).toContain('A forecast assumes the present rate continues');
+      expect(await card.locator('.evidence li.forecast-caution').innerText()).toContain('A forecast assumes the present trend continues');
     }
   });
 

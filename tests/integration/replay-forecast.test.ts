@@ -1,7 +1,7 @@
 /**
  * `wearshift replay` on an invented history (the documented noise model, tests/helpers/wearFleet.ts): the open
  * incidents come with the time-to-limit forecasts of their evidence, in the JSON verdict lines and in the readable
- * output beside the caution that a forecast assumes the present rate continues.
+ * output beside the caution that a forecast assumes the present trend continues.
  */
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -56,7 +56,7 @@ describe('wearshift replay with forecasts', () => {
       expect(['crossing', 'after-oil-change', 'not-enough-history']).toContain(f.outcome);
       if (f.outcome === 'crossing') {
         expect(f.central!.hoursFromNow).toBeGreaterThan(0);
-        expect(f.text).toMatch(/^At the present rate, Fe (reaches|falls to) the (caution|alarm) level/);
+        expect(f.text).toMatch(/^At the present trend, Fe (reaches|falls to) the (caution|alarm) level/);
       }
       if (f.outcome === 'not-enough-history') expect(f.text).toMatch(/not enough history to forecast \(.+\)\.$/);
     }

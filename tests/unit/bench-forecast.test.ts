@@ -7,7 +7,7 @@ describe('bench: forecast', () => {
     const r = runForecast({ seed: 3, components: 4, trainingComponents: 4, samples: 40 });
     const steady = (r.json.steady as { stated: { n: number; coverage: number; medianAbsErrorHours: number } }).stated;
     expect(steady.n).toBeGreaterThan(20);
-    // Steady wear at the present rate is what the forecast models: most true crossings fall inside the interval.
+    // Steady wear at the present trend is what the forecast models: most true crossings fall inside the interval.
     expect(steady.coverage).toBeGreaterThan(0.6);
     expect(steady.medianAbsErrorHours).toBeGreaterThan(0);
     expect(steady.medianAbsErrorHours).toBeLessThan(300);

@@ -123,6 +123,6 @@ export interface ComponentForecast {
   /** The interval's percentiles, e.g. [10, 90]. */
   readonly percentiles: readonly [number, number];
   readonly measurands: readonly MeasurandForecast[];
-  /** "A forecast assumes the present rate continues" and the advisory caution. */
+  /** "A forecast assumes the present trend continues" and the advisory caution. */
   readonly caution: string;
 }

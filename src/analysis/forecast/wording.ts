@@ -39,14 +39,14 @@ export function forecastText(m: Measurand, spec: LimitSpec, f: Parts, ctx: Wordi
     case 'crossing': {
       const c = f.central!;
       const range = f.late === undefined ? `${roundHours(f.early!.hoursFromNow)} h or later, past the ${ctx.chargeHours !== null ? 'planned oil change' : 'forecast horizon'}` : `${roundHours(f.early!.hoursFromNow)}–${roundHours(f.late.hoursFromNow)} h`;
-      return `At the present rate, ${title} ${reach} ${level} in about ${roundHours(c.hoursFromNow)} operating hours (${range})${dateText(c)}.`;
+      return `At the present trend, ${title} ${reach} ${level} in about ${roundHours(c.hoursFromNow)} operating hours (${range})${dateText(c)}.`;
     }
     case 'after-oil-change': {
       const verb = f.side === 'above' ? 'reach' : 'fall to';
-      if (ctx.chargeHours === null) return `At the present rate, ${title} does not ${verb} ${level} within the next ${formatNumber(ctx.horizonHours)} operating hours.`;
+      if (ctx.chargeHours === null) return `At the present trend, ${title} does not ${verb} ${level} within the next ${formatNumber(ctx.horizonHours)} operating hours.`;
       const accumulates = MEASURANDS[m].kind === 'wear' || MEASURANDS[m].kind === 'contaminant';
       const when = ctx.planned ? `planned at ${formatNumber(ctx.chargeHours)} oil hours` : `expected at about ${formatNumber(ctx.chargeHours)} oil hours, as on past charges`;
-      if (!accumulates) return `At the present rate, ${title} does not ${verb} ${level} before the next oil change (${when}).`;
+      if (!accumulates) return `At the present trend, ${title} does not ${verb} ${level} before the next oil change (${when}).`;
       const next = f.nextCharge?.oilHours;
       const after =
         next === undefined
@@ -54,7 +54,7 @@ export function forecastText(m: Measurand, spec: LimitSpec, f: Parts, ctx: Wordi
           : next === null
             ? '; nor in the next charge'
             : `; from the ${formatNumber(ctx.residualFraction * 100)} % residual oil left at the drain, it would about ${roundHours(next)} oil hours into the next charge`;
-      return `At the present rate, ${title} does not ${verb} ${level} within this charge (oil change ${when})${after}.`;
+      return `At the present trend, ${title} does not ${verb} ${level} within this charge (oil change ${when})${after}.`;
     }
   }
 }

@@ -24,7 +24,7 @@ export function drawProjection(
   const upper = points.map((p) => `${r(x(p.time))},${r(clamp(p.high))}`);
   const lower = [...points].reverse().map((p) => `${r(x(p.time))},${r(clamp(p.low))}`);
   const central = points.map((p, i) => `${i === 0 ? 'M' : 'L'}${r(x(p.time))},${r(clamp(p.central))}`).join('');
-  const title = escapeXml(`Projection at the present rate, ${a}th–${b}th percentile band; a forecast assumes the present rate continues`);
+  const title = escapeXml(`Projection at the present trend, ${a}th–${b}th percentile band; a forecast assumes the present trend continues`);
   const last = points[points.length - 1]!;
   labels.inPlot(r(x(last.time)) - 4, r(clamp(last.central)) - 6, 'forecast', 'end', { fill: NEUTRAL.mutedText });
   return [

@@ -90,7 +90,7 @@ function verdictLine(i: Incident) {
     lastSampledAt: i.lastSampledAt,
     closed: i.closed?.how ?? null,
     evidence: i.evidence.map((f) => `${f.measurand}:${f.rule}${f.check ? `:${f.check}` : ''}:${f.severity}`),
-    /** Time-to-limit forecasts of the evidence's measurands as of the incident's latest evidence; they assume the present rate continues. */
+    /** Time-to-limit forecasts of the evidence's measurands as of the incident's latest evidence; they assume the present trend continues. */
     ...(i.forecast !== undefined && { forecast: i.forecast }),
   };
 }
