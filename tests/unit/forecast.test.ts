@@ -94,7 +94,7 @@ describe('forecast in the analysis core', () => {
     expect(f.hoursPerDay).toBeCloseTo(24, 0);
     const expected = new Date(Date.parse(f.sampledAt) + (c.hoursFromNow / f.hoursPerDay!) * 86_400_000).toISOString().slice(0, 10);
     expect(c.date).toBe(expected);
-    expect(caution.text).toMatch(/^At the present rate, Fe reaches the caution level of 40 ppm .* in about \d+ operating hours \(\d+–\d+ h\), around \d+ \w{3} \d{4}\.$/);
+    expect(caution.text).toMatch(/^At the present rate, Fe reaches the caution level of 40 ppm .* in about \d+(?:\.\d+)? operating hours \(\d+–\d+ h\), around \d+ \w{3} \d{4}\.$/);
   });
 
   it('beyond the planned oil change: "not within this charge", and where the next charge would cross from the residual oil', () => {
