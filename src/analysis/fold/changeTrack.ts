@@ -18,7 +18,8 @@
  * so the errors stay N(0, 1) for a unit whose rate is anywhere in the group's spread. Once the own baseline is
  * complete it restarts from the own estimate with that estimate's uncertainty and a slow drift, so the filter
  * keeps refining it over a long memory: a real shift shows for many samples before it is learnt, while the first
- * estimate's error does not stay frozen into a standing bias.
+ * estimate's error does not stay frozen into a standing bias. The wear-process variance is refined the same way,
+ * by the stable intervals after the baseline (none while an upward change is signalled; baseline.ts).
  *
  * While an upward change is signalled, the filter does not learn the rate from the intervals that raise it:
  * the in-control rate stays what it was learnt from before the change, so a sustained shift stays flagged for
@@ -239,7 +240,7 @@ export function advanceChange(t: ChangeTrack, iv: Interval, input: ChangeInput):
   };
 }
 
-/** The own baseline takes the life's first stable intervals until it is complete; then it is fixed. */
+/** The own baseline takes the life's first stable intervals until it is complete; then it is fixed, and later stable intervals go on refining the process variance (OwnBaselineState.later). */
 function grownOwn(own: OwnBaselineState, iv: Interval, index: number, detection: Detection, paused: boolean): OwnBaselineState {
   if (!isStable(iv)) return own;
   if (own.completedAt !== undefined) {
