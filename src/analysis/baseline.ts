@@ -58,15 +58,34 @@ export function poolBaselines(all: Iterable<BaselineSums>): BaselineSums {
  */
 const PROCESS_SPREAD_FLOOR = 0.1;
 
-export function rateBaseline(s: BaselineSums, components: number, typicalIntervalHours: number): RateBaseline | undefined {
+export function rateBaseline(s: BaselineSums, components: number, typicalIntervalHours: number, options: { predictive?: boolean } = {}): RateBaseline | undefined {
   if (s.intervals === 0 || s.sumHours <= 0) return undefined;
   const rate = s.sumIncrement / s.sumHours;
   const rss = s.sumIncrementSq - 2 * rate * s.sumIncrementHours + rate ** 2 * s.sumHoursSq;
-  const moment = (rss - s.sumLabVariance) / s.sumHours;
+  const moment = options.predictive === true ? predictiveProcessVariance(s, rss) : (rss - s.sumLabVariance) / s.sumHours;
   const wearFloor = (PROCESS_SPREAD_FLOOR * Math.abs(rate)) ** 2 * typicalIntervalHours;
   const readingVariance = s.sumLabVariance / (2 * s.intervals);
   const labFloor = readingVariance / typicalIntervalHours;
   return { rate, processVariance: Math.max(moment, wearFloor, labFloor, 1e-9), intervals: s.intervals, components };
+}
+
+/**
+ * The wear-process variance a filter should predict with when it is estimated from one component's few intervals.
+ * Two corrections, both for the short sample:
+ * - unbiased: fitting the rate takes up part of the residuals' process variance, E[rss] = ΣlabVar + q·(H − Σh²/H)
+ *   (the lab noise of consecutive increments telescopes, so fitting the rate takes almost none of it);
+ * - predictive: the estimate carries ν = intervals − 1 degrees of freedom; a prediction error standardised by it
+ *   spreads like Student's t with ν degrees of freedom, variance ν/(ν − 2) times the estimate's. Without this a
+ *   component whose variance happened to be estimated low has wider errors than its chart was designed for, and
+ *   since a chart's false-alarm rate grows much faster than linearly with that width, such components spend far more
+ *   of the false-alarm budget than those estimated high give back.
+ */
+function predictiveProcessVariance(s: BaselineSums, rss: number): number {
+  const effectiveHours = s.sumHours - s.sumHoursSq / s.sumHours;
+  if (!(effectiveHours > 0)) return (rss - s.sumLabVariance) / s.sumHours;
+  const unbiased = (rss - s.sumLabVariance) / effectiveHours;
+  const nu = s.intervals - 1;
+  return nu > 2 ? (unbiased * nu) / (nu - 2) : unbiased;
 }
 
 /**
@@ -104,16 +123,23 @@ function peerRates(rates: readonly number[]): RateBaseline['peers'] {
  * that a real shift shows for many samples before it is learnt, short enough that the rate learnt from the first
  * baseline stops being frozen with its estimation error.
  */
-const OWN_RATE_MEMORY = 4;
+export const OWN_RATE_MEMORY = 4;
 
 /**
  * A component's own baseline as the filter uses it: the rate learnt from its stable intervals, with that
  * estimate's own uncertainty (the variance of the ratio estimator), and a slow drift so that the filter keeps
  * refining the rate over a memory of OWN_RATE_MEMORY baselines instead of freezing the first estimate's error.
+ * The wear-process variance is the predictive one (predictiveProcessVariance) from the baseline's intervals together
+ * with `later`, the stable intervals after it (fold/changeTrack.ts: up to OWN_RATE_MEMORY baselines in all, none
+ * while a change is signalled): 11 degrees of freedom leave one component in ten with a variance estimated at half
+ * its value or less, and where the wear process rather than the lab dominates the prediction error, such a
+ * component's errors are far wider than its charts were designed for.
  */
-export function ownRateBaseline(s: BaselineSums, typicalIntervalHours: number): RateBaseline | undefined {
-  const base = rateBaseline(s, 1, typicalIntervalHours);
-  if (base === undefined) return undefined;
+export function ownRateBaseline(s: BaselineSums, typicalIntervalHours: number, later?: BaselineSums): RateBaseline | undefined {
+  const own = rateBaseline(s, 1, typicalIntervalHours, { predictive: true });
+  if (own === undefined) return undefined;
+  const spread = later !== undefined && later.intervals > 0 ? rateBaseline(poolBaselines([s, later]), 1, typicalIntervalHours, { predictive: true }) : undefined;
+  const base = spread === undefined ? own : { ...own, processVariance: spread.processVariance };
   // Consecutive increments share a reading, so over a run of intervals the lab noise of the inner readings
   // cancels: what remains is the wear process over all the hours and the lab noise of the two end readings.
   const rateVariance = (base.processVariance * s.sumHours + s.sumLabVariance / s.intervals) / s.sumHours ** 2;

@@ -18,7 +18,8 @@
  * so the errors stay N(0, 1) for a unit whose rate is anywhere in the group's spread. Once the own baseline is
  * complete it restarts from the own estimate with that estimate's uncertainty and a slow drift, so the filter
  * keeps refining it over a long memory: a real shift shows for many samples before it is learnt, while the first
- * estimate's error does not stay frozen into a standing bias.
+ * estimate's error does not stay frozen into a standing bias. The wear-process variance is refined the same way,
+ * by the stable intervals after the baseline (none while an upward change is signalled; baseline.ts).
  *
  * While an upward change is signalled, the filter does not learn the rate from the intervals that raise it:
  * the in-control rate stays what it was learnt from before the change, so a sustained shift stays flagged for
@@ -26,7 +27,7 @@
  * back within their limits.
  */
 import type { Detection } from '../../domain/config.ts';
-import { addInterval, EMPTY_SUMS, ownRateBaseline } from '../baseline.ts';
+import { addInterval, EMPTY_SUMS, OWN_RATE_MEMORY, ownRateBaseline } from '../baseline.ts';
 import { cusumStart, cusumStep, type CusumState } from '../cusum.ts';
 import { ewmaLimitFactor } from '../ewma.ts';
 import { labVariance } from '../labNoise.ts';
@@ -54,6 +55,11 @@ export interface OwnBaselineState {
   readonly completedAt?: number;
   readonly completedSampleId?: string;
   readonly completedSampledAt?: string;
+  /**
+   * Stable intervals after the baseline was complete, taken while no upward change is signalled, until the baseline
+   * and these together hold OWN_RATE_MEMORY baselines' worth: they go on refining the wear-process variance.
+   */
+  readonly later?: BaselineSums;
 }
 
 export interface ChangeTrack {
@@ -145,13 +151,13 @@ export function advanceChange(t: ChangeTrack, iv: Interval, input: ChangeInput):
     };
   }
   const own = track.own;
-  const ownRate = own.completedAt !== undefined ? ownRateBaseline(own.sums, detection.budget.sampleIntervalHours) : undefined;
+  const ownRate = own.completedAt !== undefined ? ownRateBaseline(own.sums, detection.budget.sampleIntervalHours, own.later) : undefined;
   const source: BaselineSource = ownRate !== undefined && index > own.completedAt! ? 'own' : input.group !== undefined ? 'group' : null;
   const baseline = source === 'own' ? ownRate : source === 'group' ? input.group : undefined;
   const continuous = track.filter !== undefined && iv.from !== undefined && iv.from.sampleId === track.previousTo;
   const switched = source !== track.previousSource;
   const paused = input.holdRateWhileSignalling && track.signalSince !== undefined;
-  const common = { intervals: index + 1, previousTo: iv.to.sampleId, previousSource: source, last: { level: iv.level, censored: iv.censored }, own: grownOwn(own, iv, index, detection) };
+  const common = { intervals: index + 1, previousTo: iv.to.sampleId, previousSource: source, last: { level: iv.level, censored: iv.censored }, own: grownOwn(own, iv, index, detection, paused) };
 
   if (iv.runningIn || baseline === undefined) {
     const { filter: _f, ...rest } = track;
@@ -234,9 +240,14 @@ export function advanceChange(t: ChangeTrack, iv: Interval, input: ChangeInput):
   };
 }
 
-/** The own baseline takes the life's first stable intervals until it is complete; then it is fixed. */
-function grownOwn(own: OwnBaselineState, iv: Interval, index: number, detection: Detection): OwnBaselineState {
-  if (own.completedAt !== undefined || !isStable(iv)) return own;
+/** The own baseline takes the life's first stable intervals until it is complete; then it is fixed, and later stable intervals go on refining the process variance (OwnBaselineState.later). */
+function grownOwn(own: OwnBaselineState, iv: Interval, index: number, detection: Detection, paused: boolean): OwnBaselineState {
+  if (!isStable(iv)) return own;
+  if (own.completedAt !== undefined) {
+    const later = own.later ?? EMPTY_SUMS;
+    if (paused || index <= own.completedAt || own.sums.intervals + later.intervals >= OWN_RATE_MEMORY * detection.baselineIntervals) return own;
+    return { ...own, later: addInterval(later, iv, incrementLabVariance(iv, detection.labNoise)) };
+  }
   const sums = addInterval(own.sums, iv, incrementLabVariance(iv, detection.labNoise));
   const first = own.firstSampleId === undefined ? { firstSampleId: iv.to.sampleId, firstSampledAt: iv.to.sampledAt } : {};
   const base = { ...own, ...first, sums };
