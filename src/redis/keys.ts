@@ -94,7 +94,10 @@ export function componentKeys(tag: string, ref: ComponentRefLike) {
     order: `${c}:ord`,
     /** hash: mark, done, dirty, latest checkpoint, sparse checkpoints (cp|…), incidents, version, marks, baseline shares (bl|…), group. */
     evaluation: `${c}:ev`,
-    /** hash `month|field` → number: the component's own shares of its group's month buckets (to take out of "as of"). */
+    /**
+     * An earlier layout's hash `month|field` → number of the component's own shares of its group's month buckets; they
+     * are now read from the winners' shares and the baseline entries (bl|…), and the commit deletes this key.
+     */
     own: `${c}:own`,
     /** hash `time|sampleId` → step JSON: the steps with findings (the latest ones). */
     steps: `${c}:steps`,

@@ -14,7 +14,7 @@ import { resolveSettings } from '../domain/settings.ts';
 import { severityRank } from '../domain/finding.ts';
 import { emptyComponentIncidents, type ComponentIncidents, type Incident, type StepPosition } from '../incidents/model.ts';
 import { comparePosition } from '../incidents/verdict.ts';
-import { baselineBucketOf, combineBuckets, groupStatsOf, type BaselineBucket, type MonthBucket, type PopulationCell } from '../pipeline/groupShares.ts';
+import { addBaseline, addPopulation, baselineBucketOf, combineBuckets, groupStatsOf, type BaselineBucket, type MonthBucket, type PopulationCell } from '../pipeline/groupShares.ts';
 import type {
   BaselineShare,
   Checkpoint,
@@ -437,17 +437,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
       }),
     );
     if (withoutOwn) {
-      const own = await this.redis.hgetall(selfKeys.own);
-      const byMonth = new Map<string, Record<string, string>>();
-      for (const [field, value] of Object.entries(own)) {
-        const bar = field.indexOf('|');
-        const m = field.slice(0, bar);
-        if (!wanted(m)) continue;
-        let fields = byMonth.get(m);
-        if (fields === undefined) byMonth.set(m, (fields = {}));
-        fields[field.slice(bar + 1)] = value;
-      }
-      for (const fields of byMonth.values()) parts.push([parseBucket(fields), -1]);
+      for (const [m, bucket] of await this.ownBuckets(selfKeys)) if (wanted(m)) parts.push([bucket, -1]);
     }
     if (this.bucketCache.size > 10_000) this.bucketCache.clear();
     const sum = combineBuckets(parts, keepValues);
@@ -468,6 +458,43 @@ export class RedisStore implements ComponentStore, GroupLedger {
   async membersAfter(group: string, from: number): Promise<ComponentRef[]> {
     const lists = await Promise.all(this.partitions.all().map((n) => this.redis.zrangebyscore(groupKeys(this.partitions.tag(n), group).horizons, from, '+inf')));
     return lists.flat().map((j) => JSON.parse(j) as ComponentRef);
+  }
+
+  /**
+   * The component's own shares of its group's month buckets, by month: the population shares of its winners and its
+   * baseline entries (what its commits added to the buckets of the group it was last committed to).
+   */
+  private async ownBuckets(c: ReturnType<typeof componentKeys>): Promise<Map<string, MonthBucket>> {
+    const [winners, fields] = await Promise.all([this.redis.hgetall(c.winners), this.redis.hkeys(c.evaluation)]);
+    const blFields = fields.filter((f) => f.startsWith('bl|'));
+    const blValues = blFields.length === 0 ? [] : await this.redis.hmget(c.evaluation, ...blFields);
+    const out = new Map<string, { population: Record<string, PopulationCell>; baselines: Partial<Record<Measurand, BaselineBucket>> }>();
+    const bucket = (month: string) => {
+      let b = out.get(month);
+      if (b === undefined) out.set(month, (b = { population: {}, baselines: {} }));
+      return b;
+    };
+    for (const winner of Object.values(winners)) {
+      const share = winner.split('|').slice(3).join('|');
+      if (share === '') continue;
+      const semi = share.indexOf(';');
+      const values: Record<string, number> = {};
+      for (const item of share.slice(semi + 1).split(',')) {
+        const eq = item.lastIndexOf('=');
+        values[item.slice(0, eq)] = Number(item.slice(eq + 1));
+      }
+      addPopulation(bucket(share.slice(0, semi)).population, values, 1, false);
+    }
+    blFields.forEach((field, i) => {
+      const entry = blValues[i];
+      if (entry === null || entry === undefined) return;
+      const semi = entry.indexOf(';');
+      const b = baselineOfValues(entry.slice(semi + 1).split(',').map(Number));
+      const m = field.slice(3) as Measurand;
+      const target = bucket(entry.slice(0, semi)).baselines;
+      target[m] = addBaseline(target[m], b, 1)!;
+    });
+    return out;
   }
 
   /** The values of a month bucket, for the percentile method (one sorted set per field). */
@@ -514,6 +541,20 @@ function baselineValues(b: BaselineBucket): number[] {
     b.sumLog,
     b.sumLogSq,
   ];
+}
+
+/** A baseline entry from its stored values (baselineValues' order). */
+function baselineOfValues(v: readonly number[]): BaselineBucket {
+  const [components, intervals, sumHours, sumHoursSq, sumIncrement, sumIncrementSq, sumIncrementHours, sumLabVariance, sumRate, sumRateSq, positive, sumLog, sumLogSq] = v.map((x) => x ?? 0) as number[];
+  return {
+    components: components!,
+    sums: { intervals: intervals!, sumHours: sumHours!, sumHoursSq: sumHoursSq!, sumIncrement: sumIncrement!, sumIncrementSq: sumIncrementSq!, sumIncrementHours: sumIncrementHours!, sumLabVariance: sumLabVariance! },
+    sumRate: sumRate!,
+    sumRateSq: sumRateSq!,
+    positive: positive!,
+    sumLog: sumLog!,
+    sumLogSq: sumLogSq!,
+  };
 }
 
 /** A month bucket from its hash fields: `p|measurand|edge|n|s|q` and `b|measurand|name`. */

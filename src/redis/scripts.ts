@@ -134,7 +134,8 @@ return 1
 
 /**
  * Commits an evaluation: only while the lock holds and the incidents are still at the version read.
- * KEYS: lock, evaluation, winners, steps, component incident index, own shares, registry, records, open, closed, outbox.
+ * KEYS: lock, evaluation, winners, steps, component incident index, own shares of an earlier layout (deleted), registry,
+ * records, open, closed, outbox.
  * ARGV: token, mark, payload JSON:
  *   latest, sparse [[field, json]], rewound ('' none, 'start', or a position), steps [[field, json or '']], limit,
  *   shares [[sampleId, share or '']] (share: month;field=value,...), baselines {measurand: entry or ''}
@@ -190,13 +191,14 @@ if excess > 0 then
   for i = 1, excess do redis.call('HDEL', KEYS[4], names[i]) end
 end
 
--- The group's month buckets in this partition, and the component's own shares of them.
+-- The group's month buckets in this partition. The component's own shares of them are its winners' population
+-- shares and its baseline entries (bl|…), read from there; the hash of them that an earlier layout kept goes.
+redis.call('DEL', KEYS[6])
 local changed = nil
 local function apply(prefix, month, values, sign)
   local bucket = prefix .. ':m:' .. month
   for f, v in pairs(values) do
     redis.call('HINCRBYFLOAT', bucket, f, sign * v)
-    redis.call('HINCRBYFLOAT', KEYS[6], month .. '|' .. f, sign * v)
   end
   redis.call('HINCRBY', prefix .. ':v', month, 1)
   if changed == nil or month < changed then changed = month end
