@@ -82,11 +82,17 @@ export function alignedTag(name: string, p: number, count: number): string {
   }
 }
 
+/** The field of a component's revisions hash that holds their common group and lab. */
+export const COMMON_FIELD = '*';
+
 /** Keys of one component, in its partition. */
 export function componentKeys(tag: string, ref: ComponentRefLike) {
   const c = `${tag}:c:${encodeURIComponent(ref.unit)}/${encodeURIComponent(ref.component)}`;
   return {
-    /** hash `sampleId␟revision` → `receivedAt|encoded sample`: every revision ever stored. */
+    /**
+     * hash `sampleId␟revision` → `receivedAt|stored sample` (sampleCodec.ts): every revision ever stored; and the field
+     * `*` → `group,lab`, the common group and lab the stored samples refer to.
+     */
     revisions: `${c}:rev`,
     /** hash sampleId → `revision|time|unitHours|share`: the revision in force, its position and its population share. */
     winners: `${c}:win`,

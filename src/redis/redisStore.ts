@@ -31,10 +31,10 @@ import type {
   StoreOutcome,
   StoreStatus,
 } from '../pipeline/ports.ts';
-import { decodeSample, encodeSample } from '../pipeline/sampleCodec.ts';
+import { decodeCompactSample, decodeSample, encodeSample, encodeSampleCore, isCompactSample } from '../pipeline/sampleCodec.ts';
 import type { RedisConnection } from './connection.ts';
 import { compactText, expandText } from './compactText.ts';
-import { componentKeys, groupKeys, partitionKeys, Partitions } from './keys.ts';
+import { COMMON_FIELD, componentKeys, groupKeys, partitionKeys, Partitions } from './keys.ts';
 import { COMMIT_EVALUATION, MARK_DIRTY, MARK_SAMPLE, RELEASE_LOCK, RENEW_LOCK, STORE_SAMPLE } from './scripts.ts';
 
 export type { RedisConnection };
@@ -174,12 +174,15 @@ export class RedisStore implements ComponentStore, GroupLedger {
       p.registry,
       sample.sampleId,
       String(sample.revision),
-      encodeSample(sample),
-      String(receivedAt),
+      encodeSampleCore(sample),
+      receivedAt.toString(36),
       String(sample.time),
       sample.unitHours === undefined ? '' : String(sample.unitHours),
       componentKey(sample),
       registry,
+      sample.group ?? '',
+      sample.lab ?? '',
+      encodeSample(sample),
     )) as [StoreStatus, number];
     return { status, evaluationDue: due === 1 };
   }
@@ -213,7 +216,11 @@ export class RedisStore implements ComponentStore, GroupLedger {
 
   async revisions(ref: ComponentRef): Promise<StoredSample[]> {
     const { c } = this.keysOf(ref);
-    return Object.values(await this.redis.hgetall(c.revisions)).map((v) => stored(v, ref));
+    const all = await this.redis.hgetall(c.revisions);
+    const common = all[COMMON_FIELD];
+    return Object.entries(all)
+      .filter(([field]) => field !== COMMON_FIELD)
+      .map(([field, v]) => stored(field, v, common, ref));
   }
 
   async samplesAfter(ref: ComponentRef, position: StepPosition | null): Promise<StoredSample[]> {
@@ -231,10 +238,12 @@ export class RedisStore implements ComponentStore, GroupLedger {
     });
     picked.sort((a, b) => comparePosition(a.position, b.position));
     if (picked.length === 0) return [];
-    const values = await this.redis.hmget(c.revisions, ...picked.map((x) => `${x.id}\u001f${x.revision}`));
-    return values.map((v, i) => {
-      if (v === null) throw new Error(`${componentKey(ref)}: revision ${picked[i]!.revision} of ${picked[i]!.id} missing`);
-      return stored(v, ref);
+    const fields = picked.map((x) => `${x.id}\u001f${x.revision}`);
+    const values = await this.redis.hmget(c.revisions, COMMON_FIELD, ...fields);
+    const common = values[0] ?? undefined;
+    return values.slice(1).map((v, i) => {
+      if (v === null || v === undefined) throw new Error(`${componentKey(ref)}: revision ${picked[i]!.revision} of ${picked[i]!.id} missing`);
+      return stored(fields[i]!, v, common, ref);
     });
   }
 
@@ -520,9 +529,18 @@ function entryOf(h: RegistryHead, count: number, last: string[]): ComponentEntry
   return { unit: h.unit, component: h.component, group: h.group, samples: count, lastSampledAt: new Date(Number(last[1] ?? 0)).toISOString() };
 }
 
-function stored(value: string, ref: ComponentRef): StoredSample {
+/**
+ * A stored revision: `receivedAt|sample`, the receivedAt in base 36 and the sample in the shorter form (with the
+ * component's common group and lab), or, written by the earlier layout, the receivedAt in decimal and the sample as
+ * a JSON array.
+ */
+function stored(field: string, value: string, common: string | undefined, ref: ComponentRef): StoredSample {
   const bar = value.indexOf('|');
-  return { receivedAt: Number(value.slice(0, bar)), sample: decodeSample(value.slice(bar + 1), ref) };
+  const body = value.slice(bar + 1);
+  if (!isCompactSample(body)) return { receivedAt: Number(value.slice(0, bar)), sample: decodeSample(body, ref) };
+  const sep = field.lastIndexOf('\u001f');
+  if (common === undefined) throw new Error(`${componentKey(ref)}: the common group and lab of the revisions are missing`);
+  return { receivedAt: parseInt(value.slice(0, bar), 36), sample: decodeCompactSample(body, field.slice(0, sep), Number(field.slice(sep + 1)), common, ref) };
 }
 
 function baselineValues(b: BaselineBucket): number[] {

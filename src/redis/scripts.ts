@@ -29,20 +29,39 @@ end
 
 /**
  * KEYS: revisions, winners, order, evaluation, registry.
- * ARGV: sampleId, revision, encoded sample, receivedAt, time, unitHours or '', component key, registry JSON.
+ * ARGV: sampleId, revision, sample core (encodeSampleCore), receivedAt (base 36), time, unitHours or '', component
+ * key, registry JSON, group or '', lab or '', the sample in the earlier stored form (encodeSample).
+ * The revisions hash keeps the component's common group and lab under the field `*` (set by the first sample stored
+ * in this layout, never changed); a revision is stored as `receivedAt|core,group,lab` with `*` for the common ones.
+ * A revision stored in the earlier layout (`receivedAt|[JSON array]`) is compared in the earlier form.
  * Returns {status, evaluationDue (0|1)}.
  */
 export const STORE_SAMPLE = `${POSITION}
 local field = ARGV[1] .. '\\31' .. ARGV[2]
+local common = redis.call('HGET', KEYS[1], '*')
 local stored = redis.call('HGET', KEYS[1], field)
 local function due()
   return tonumber(redis.call('HGET', KEYS[4], 'mark') or '0') > tonumber(redis.call('HGET', KEYS[4], 'done') or '0')
 end
+local function part(v, c)
+  if v == '' then return '' elseif v == c then return '*' else return v end
+end
+local function compose(c)
+  local cg, cl = string.match(c, '^([^,]*),(.*)$')
+  return ARGV[3] .. ',' .. part(ARGV[9], cg) .. ',' .. part(ARGV[10], cl)
+end
 if stored then
   local sep = string.find(stored, '|', 1, true)
-  return { string.sub(stored, sep + 1) == ARGV[3] and 'duplicate' or 'conflict', due() and 1 or 0 }
+  local body = string.sub(stored, sep + 1)
+  local same
+  if string.sub(body, 1, 1) == '[' then same = body == ARGV[11] else same = common and body == compose(common) end
+  return { same and 'duplicate' or 'conflict', due() and 1 or 0 }
 end
-redis.call('HSET', KEYS[1], field, ARGV[4] .. '|' .. ARGV[3])
+if not common then
+  common = ARGV[9] .. ',' .. ARGV[10]
+  redis.call('HSET', KEYS[1], '*', common)
+end
+redis.call('HSET', KEYS[1], field, ARGV[4] .. '|' .. compose(common))
 local pos = ARGV[5] .. '|' .. ARGV[6] .. '|' .. ARGV[1]
 local winner = redis.call('HGET', KEYS[2], ARGV[1])
 local status = 'new'
