@@ -92,27 +92,19 @@ export function incidentRecordRows(incidents: readonly Incident[]): Array<[strin
 
 /** The commit script's first argument after the payload: the incidents' JSON texts follow as arguments of their own. */
 const FIRST_RECORD_ARGUMENT = 4;
-const INCIDENTS_MARK = '@@incidents@@';
 
 /**
- * The incident part of a commit with each incident's JSON text sent once, as a script argument of its own (not
- * escaped inside the payload): its record row names the argument, and the state is the text around the incidents
- * (`stateHead`, `stateTail`) with `stateIncidents` [[key as JSON, argument]] between, which the script joins into
- * exactly `JSON.stringify(state)`.
+ * The incident part of a commit: each incident's JSON text is sent once, as a script argument of its own (not
+ * escaped inside the payload), which its record row names; the component's incident state, which holds them too, is
+ * stored compact (compactText.ts) and sent so.
  */
 function incidentArguments(commit: EvaluationCommit, first: number) {
   const state = commit.incidents;
-  const stateEntries = Object.entries(state.incidents);
-  const rows = incidentRecordRows([...stateEntries.map(([, inc]) => inc), ...commit.archived, ...commit.withdrawn]);
-  const texts = rows.map((r) => r[1]);
-  const around = JSON.stringify({ ...state, incidents: INCIDENTS_MARK });
-  const at = around.indexOf(`"${INCIDENTS_MARK}"`);
+  const rows = incidentRecordRows([...Object.values(state.incidents), ...commit.archived, ...commit.withdrawn]);
   return {
-    texts,
+    texts: rows.map((r) => r[1]),
     records: rows.map(([id, , status, score, opened], i) => [id, first + i, status, score, opened] as const),
-    stateHead: around.slice(0, at),
-    stateTail: around.slice(at + INCIDENTS_MARK.length + 2),
-    stateIncidents: stateEntries.map(([key], i) => [JSON.stringify(key), first + i] as const),
+    state: compactText(JSON.stringify(state)),
   };
 }
 
@@ -263,7 +255,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
       ...(dirty !== null && dirty !== undefined && { dirtyFrom: parsePosition(dirty) }),
       ...(latest !== null && latest !== undefined && { latest: JSON.parse(expandText(latest)) as Checkpoint }),
       marks: new Map(Object.entries(JSON.parse(marks ?? '{}') as Record<string, SampleMark>)),
-      incidents: incidents === null || incidents === undefined ? emptyComponentIncidents(ref.unit, ref.component) : (JSON.parse(incidents) as ComponentIncidents),
+      incidents: incidents === null || incidents === undefined ? emptyComponentIncidents(ref.unit, ref.component) : (JSON.parse(expandText(incidents)) as ComponentIncidents),
       incidentsVersion: Number(version ?? 0),
     };
   }

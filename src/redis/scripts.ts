@@ -140,7 +140,7 @@ end
 /**
  * An operator's action or an escalation check on a component's incidents: compare-and-set on the version.
  * KEYS: evaluation, records, open, closed, outbox, component incident index.
- * ARGV: expected version, payload JSON {state, records: [[id, json, open|closed, score, openedTime]], outbox: [json]}.
+ * ARGV: expected version, payload JSON {state (compact, compactText.ts), records: [[id, json, open|closed, score, openedTime]], outbox: [json]}.
  * Returns 1, or 0 when the version moved on (someone else changed the incidents: read again and retry).
  */
 export const UPDATE_INCIDENTS = `${INCIDENT_RECORDS}
@@ -159,10 +159,9 @@ return 1
  *   latest, sparse [[field, json]], rewound ('' none, 'start', or a position), steps [[field, json or '']], limit,
  *   shares [[sampleId, share or '']] (share: month;field=value,...), baselines {measurand: entry or ''}
  *   (entry: month;v1,...,v13), group, groupPrefix, member, horizon, registry, keepValues (0|1), componentKey,
- *   version, stateHead, stateTail, stateIncidents [[key as JSON, argument]], records [[id, argument, open|closed,
+ *   version, state (the component's incident state, stored as given: compact), records [[id, argument, open|closed,
  *   score, openedTime]], outbox;
- * then the incidents' JSON texts, one argument each (ARGV[4] on), which records and stateIncidents name: the
- * incident state written is stateHead .. '{' .. key:text, ... .. '}' .. stateTail.
+ * then the incidents' JSON texts, one argument each (ARGV[4] on), which records name.
  * Returns {1, earliest changed month or ''}, {0} when the lock was lost, {-1} when the incidents changed.
  */
 export const COMMIT_EVALUATION = `${POSITION}${INCIDENT_RECORDS}
@@ -318,16 +317,7 @@ redis.call('HSET', KEYS[7], p.componentKey, p.registry)
 
 -- The incidents, their records and their messages: each incident's JSON text is an argument of its own.
 for _, r in ipairs(p.records) do r[2] = ARGV[r[2]] end
-local state = { p.stateHead, '{' }
-for i, e in ipairs(p.stateIncidents) do
-  if i > 1 then table.insert(state, ',') end
-  table.insert(state, e[1])
-  table.insert(state, ':')
-  table.insert(state, ARGV[e[2]])
-end
-table.insert(state, '}')
-table.insert(state, p.stateTail)
-redis.call('HSET', ev, 'incidents', table.concat(state), 'version', tostring(tonumber(p.version) + 1))
+redis.call('HSET', ev, 'incidents', p.state, 'version', tostring(tonumber(p.version) + 1))
 write_incidents(p, KEYS[8], KEYS[9], KEYS[10], KEYS[11], KEYS[5])
 return { 1, changed or '' }
 `;
