@@ -316,9 +316,16 @@ describe('redis store, a store written by the earlier layout', () => {
     expect((await store.store(moved, GROUP, 6000)).status).toBe('duplicate');
     expect([...(await revisionConflicts(client, store.partitions, [{ index: 0, event: {}, sample: next }, { index: 1, event: {}, sample: { ...moved, lab: 'South lab' } }])).keys()]).toEqual([1]);
 
-    const lease = (await store.acquire(old, 10_000))!;
+    // Checkpoints and the incident state written plain still read.
+    const plain = commitOf([old], 1);
+    await client.hset(keys.evaluation, 'latest', JSON.stringify(plain.latest), 'incidents', JSON.stringify(plain.incidents));
     const input = (await store.evaluationInput(old))!;
+    expect(input.latest).toEqual(plain.latest);
+    expect(input.incidents).toEqual(plain.incidents);
+
+    const lease = (await store.acquire(old, 10_000))!;
     expect((await store.commit(old, lease, commitOf([old, next, moved], input.mark))).ok).toBe(true);
     expect(await client.exists(keys.own)).toBe(0);
+    expect((await store.evaluationInput(old))!.latest).toEqual(commitOf([old, next, moved], input.mark).latest);
   });
 });
