@@ -75,13 +75,13 @@ export async function runCluster(o: RunOptions): Promise<PartResult> {
     const perShardUs = work.map((w) => w.usec / events.length);
     const bytes = after.reduce((t, a, i) => t + a - before[i]!, 0);
     const bytesPerResult = bytes / events.length;
-    // The component's own keys (MEMORY USAGE over them), on a sample of components.
+    // The component's own keys (MEMORY USAGE over them, every element counted), on a sample of components.
     const sample = [...new Set(events.map((e) => e.unit))].slice(0, 40);
     let componentBytes = 0;
     for (const unit of sample) {
       const ref = { unit, component: 'gearbox' };
       const c = componentKeys(partitions.tag(partitions.of(ref)), ref);
-      for (const key of [c.revisions, c.winners, c.order, c.evaluation, c.own, c.steps, c.incidents]) componentBytes += Number((await client.memory('USAGE', key)) ?? 0);
+      for (const key of [c.revisions, c.winners, c.order, c.evaluation, c.steps, c.incidents]) componentBytes += Number((await client.memory('USAGE', key, 'SAMPLES', 0)) ?? 0);
     }
     componentBytes /= sample.length;
     const workerCpuMs = (1000 * cpu) / events.length;

@@ -421,6 +421,7 @@ export async function runBackfill(o: RunOptions): Promise<PartResult> {
       const peakRssKb = s.workers[0]!.peakRssKb();
       const after = await usedMemory(s.client);
       const keys = await memoryByKind(s.client);
+      const componentParts = await memoryByKind(s.client, 'c:*');
       const behind = await lagging(s.client, events);
       const notifications = (await notifyJobs(s.queues.notify)).length;
       const perComponentBytes = (after - before) / components;
@@ -439,6 +440,7 @@ export async function runBackfill(o: RunOptions): Promise<PartResult> {
           redisUsedMemoryDeltaMb: round((after - before) / 2 ** 20),
           redisBytesPerComponent: round(perComponentBytes),
           redisBytesByKind: keys,
+          componentKeysBytesByKind: Object.fromEntries(Object.entries(componentParts).map(([k, b]) => [k, round(b / components)])),
           componentKeysBytes: round(componentKeysBytes),
           storageTarget: { componentKeysBytesAtMost: COMPONENT_BYTES_TARGET, met: storageMet },
           notificationsQueued: notifications,
@@ -453,6 +455,10 @@ export async function runBackfill(o: RunOptions): Promise<PartResult> {
           `wall time: first enqueue to results and evaluate queues drained; every component's last sample fed: ${behind === 0 ? 'yes' : `NO, ${behind} behind`}`,
           `worker peak RSS: VmHWM of the worker process; Redis: INFO used_memory after − before, per component`,
           `a component's own keys (c:…, MEMORY USAGE) at ${perComponent} samples: ${fmt(componentKeysBytes / 1024)} KB; target ≤ ${COMPONENT_BYTES_TARGET / 1024} KB: ${storageMet ? 'MET' : 'MISSED'}`,
+          `a component's own keys by kind (MEMORY USAGE, KB per component): ${Object.entries(componentParts)
+            .sort(([a], [b]) => (a < b ? -1 : 1))
+            .map(([k, b]) => `${k} ${fmt(b / 1024 / components)}`)
+            .join(', ')}`,
           `Redis by key kind (MEMORY USAGE, KB per component): ${Object.entries(keys)
             .map(([k, b]) => `${k} ${fmt(b / 1024 / components)}`)
             .join(', ')}`,
@@ -469,20 +475,23 @@ async function usedMemory(client: Redis): Promise<number> {
   return Number(/used_memory:(\d+)/.exec(info)?.[1] ?? NaN);
 }
 
-/** Bytes held per kind of key: the stored state by its key family, BullMQ's keys by queue. */
-async function memoryByKind(client: Redis): Promise<Record<string, number>> {
+/**
+ * Bytes held per kind of key: the stored state by its key family, BullMQ's keys by queue; with `within` (`c:*`),
+ * the keys of that family by their last part (a component's `rev`, `win`, `ord`, `ev`, `steps`, `inc`).
+ */
+async function memoryByKind(client: Redis, within?: string): Promise<Record<string, number>> {
   const totals: Record<string, number> = {};
   let cursor = '0';
   do {
-    const [next, keys] = await client.scan(cursor, 'MATCH', `${PREFIX}:*`, 'COUNT', 1000);
+    const [next, keys] = await client.scan(cursor, 'MATCH', `${PREFIX}:${within ?? '*'}`, 'COUNT', 1000);
     cursor = next;
     const pipeline = client.pipeline();
-    for (const key of keys) pipeline.memory('USAGE', key);
+    for (const key of keys) pipeline.memory('USAGE', key, 'SAMPLES', 0);
     const sizes = (await pipeline.exec()) ?? [];
     keys.forEach((key, i) => {
       const parts = key.slice(PREFIX.length + 1).split(':');
       const queue = (Object.values(QUEUE_NAMES) as string[]).includes(parts[0]!);
-      const kind = queue ? `queue ${parts[0]}` : parts.slice(0, parts[0] === 'store' || parts[0] === 'eval' ? 2 : 1).join(':');
+      const kind = within !== undefined ? parts.at(-1)! : queue ? `queue ${parts[0]}` : parts.slice(0, parts[0] === 'store' || parts[0] === 'eval' ? 2 : 1).join(':');
       totals[kind] = (totals[kind] ?? 0) + Number(sizes[i]?.[1] ?? 0);
     });
   } while (cursor !== '0');

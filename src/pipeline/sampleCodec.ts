@@ -1,10 +1,10 @@
 /**
- * The compact stored form of a sample: a JSON array without the component's identity (it is in the key), without
+ * The stored forms of a sample. The earlier one, still read and recognised: a JSON array without the component's identity (it is in the key), without
  * defaults, and with the readings as the lab wrote them ("Fe=12;Si=<1;iso4406=18/16/13"), in measurand order so
  * that a redelivery listing them in another order is recognised as the same result. About a third of the plain JSON.
  *
  * [sampleId, revision, time, unitHours|null, oilHours|null, flags, topUpLitres, group|null, lab|null, readings]
- * flags: 1 oilChanged, 2 componentChanged.
+ * flags: 1 oilChanged, 2 componentChanged. The shorter one the store writes now is described at encodeSampleCore.
  */
 import type { Sample } from '../domain/event.ts';
 import { isMeasurand, type Measurand } from '../domain/measurands.ts';
@@ -12,18 +12,14 @@ import { formatReading, parseReading, type Reading } from '../domain/reading.ts'
 
 type Encoded = [string, number, number, number | null, number | null, number, number, string | null, string | null, string];
 
-export function encodeSample(s: Sample): string {
-  const readings = (Object.entries(s.readings) as [Measurand, Reading][])
+function readingsText(s: Sample): string {
+  return (Object.entries(s.readings) as [Measurand, Reading][])
     .sort(([a], [b]) => (a < b ? -1 : a > b ? 1 : 0))
     .map(([m, r]) => `${m}=${formatReading(r)}`)
     .join(';');
-  const flags = (s.oilChanged ? 1 : 0) | (s.componentChanged ? 2 : 0);
-  const row: Encoded = [s.sampleId, s.revision, s.time, s.unitHours ?? null, s.oilHours ?? null, flags, s.topUpLitres, s.group ?? null, s.lab ?? null, readings];
-  return JSON.stringify(row);
 }
 
-export function decodeSample(text: string, ref: { unit: string; component: string }): Sample {
-  const [sampleId, revision, time, unitHours, oilHours, flags, topUpLitres, group, lab, readingText] = JSON.parse(text) as Encoded;
+function parseReadings(readingText: string, sampleId: string): Partial<Record<Measurand, Reading>> {
   const readings: Partial<Record<Measurand, Reading>> = {};
   if (readingText !== '') {
     for (const part of readingText.split(';')) {
@@ -36,6 +32,20 @@ export function decodeSample(text: string, ref: { unit: string; component: strin
       readings[m] = parsed.reading;
     }
   }
+  return readings;
+}
+
+/** The earlier stored form (read, and compared with for a redelivery of a sample stored in it). */
+export function encodeSample(s: Sample): string {
+  const readings = readingsText(s);
+  const flags = (s.oilChanged ? 1 : 0) | (s.componentChanged ? 2 : 0);
+  const row: Encoded = [s.sampleId, s.revision, s.time, s.unitHours ?? null, s.oilHours ?? null, flags, s.topUpLitres, s.group ?? null, s.lab ?? null, readings];
+  return JSON.stringify(row);
+}
+
+export function decodeSample(text: string, ref: { unit: string; component: string }): Sample {
+  const [sampleId, revision, time, unitHours, oilHours, flags, topUpLitres, group, lab, readingText] = JSON.parse(text) as Encoded;
+  const readings = parseReadings(readingText, sampleId);
   return {
     sampleId,
     revision,
@@ -51,5 +61,66 @@ export function decodeSample(text: string, ref: { unit: string; component: strin
     ...(unitHours !== null && { unitHours }),
     ...(oilHours !== null && { oilHours }),
     ...(lab !== null && { lab }),
+  };
+}
+
+/**
+ * The shorter stored form of a sample (the store's layout since the storage diet), small enough that a component's
+ * revisions fit Redis's compact hash encoding with the server's defaults for a typical sample: the sampleId and the
+ * revision are left out (they name the stored field), the time is in base 36, defaults are empty, and the group and
+ * the lab are `*` when they are the component's common ones (those of its first stored sample, kept beside the
+ * revisions and never changed), so a sample's stored form depends on the sample and that fixed pair only.
+ *
+ * core: `time36,unitHours,oilHours,flags,topUpLitres,readings`; stored: `core,group,lab` (group and lab: '' absent,
+ * `*` common, else the text: identifiers hold no commas).
+ */
+export function encodeSampleCore(s: Sample): string {
+  if (!Number.isSafeInteger(s.time)) throw new RangeError(`sample ${s.sampleId}: time ${s.time} is not a whole number of milliseconds`);
+  const flags = (s.oilChanged ? 1 : 0) | (s.componentChanged ? 2 : 0);
+  return [s.time.toString(36), s.unitHours ?? '', s.oilHours ?? '', flags === 0 ? '' : flags, s.topUpLitres === 0 ? '' : s.topUpLitres, readingsText(s)].join(',');
+}
+
+/** The common group and lab of a component's revisions, as kept: `group,lab` ('' when absent). */
+export function commonText(group: string | undefined, lab: string | undefined): string {
+  return `${group ?? ''},${lab ?? ''}`;
+}
+
+/** The stored form of a sample from its core, its group and lab, and the component's common pair (`group,lab`). */
+export function composeStoredSample(core: string, group: string | undefined, lab: string | undefined, common: string): string {
+  const comma = common.indexOf(',');
+  const part = (v: string | undefined, c: string) => (v === undefined || v === '' ? '' : v === c ? '*' : v);
+  return `${core},${part(group, common.slice(0, comma))},${part(lab, common.slice(comma + 1))}`;
+}
+
+/** True for the shorter form; the earlier one (encodeSample) is a JSON array. */
+export function isCompactSample(text: string): boolean {
+  return !text.startsWith('[');
+}
+
+export function decodeCompactSample(text: string, sampleId: string, revision: number, common: string, ref: { unit: string; component: string }): Sample {
+  const parts = text.split(',');
+  if (parts.length !== 8) throw new Error(`stored sample ${sampleId}: ${parts.length} parts, not 8`);
+  const [time36, unitHours, oilHours, flagText, topUp, readingText, groupPart, labPart] = parts as [string, string, string, string, string, string, string, string];
+  const comma = common.indexOf(',');
+  const whole = (p: string, c: string) => (p === '' ? undefined : p === '*' ? c : p);
+  const group = whole(groupPart, common.slice(0, comma));
+  const lab = whole(labPart, common.slice(comma + 1));
+  const time = parseInt(time36, 36);
+  const flags = flagText === '' ? 0 : Number(flagText);
+  return {
+    sampleId,
+    revision,
+    unit: ref.unit,
+    component: ref.component,
+    sampledAt: new Date(time).toISOString(),
+    time,
+    oilChanged: (flags & 1) !== 0,
+    componentChanged: (flags & 2) !== 0,
+    topUpLitres: topUp === '' ? 0 : Number(topUp),
+    readings: parseReadings(readingText, sampleId),
+    ...(group !== undefined && { group }),
+    ...(unitHours !== '' && { unitHours: Number(unitHours) }),
+    ...(oilHours !== '' && { oilHours: Number(oilHours) }),
+    ...(lab !== undefined && { lab }),
   };
 }

@@ -82,19 +82,28 @@ export function alignedTag(name: string, p: number, count: number): string {
   }
 }
 
+/** The field of a component's revisions hash that holds their common group and lab. */
+export const COMMON_FIELD = '*';
+
 /** Keys of one component, in its partition. */
 export function componentKeys(tag: string, ref: ComponentRefLike) {
   const c = `${tag}:c:${encodeURIComponent(ref.unit)}/${encodeURIComponent(ref.component)}`;
   return {
-    /** hash `sampleId␟revision` → `receivedAt|encoded sample`: every revision ever stored. */
+    /**
+     * hash `sampleId␟revision` → `receivedAt|stored sample` (sampleCodec.ts): every revision ever stored; and the field
+     * `*` → `group,lab`, the common group and lab the stored samples refer to.
+     */
     revisions: `${c}:rev`,
     /** hash sampleId → `revision|time|unitHours|share`: the revision in force, its position and its population share. */
     winners: `${c}:win`,
     /** sorted set sampleId by sampling time of the revision in force. */
     order: `${c}:ord`,
-    /** hash: mark, done, dirty, latest checkpoint, sparse checkpoints (cp|…), incidents, version, marks, baseline shares (bl|…), group. */
+    /** hash: mark, done, dirty, latest checkpoint, sparse checkpoints (cp|…), incidents (compact, compactText.ts), version, marks, baseline shares (bl|…), group. */
     evaluation: `${c}:ev`,
-    /** hash `month|field` → number: the component's own shares of its group's month buckets (to take out of "as of"). */
+    /**
+     * An earlier layout's hash `month|field` → number of the component's own shares of its group's month buckets; they
+     * are now read from the winners' shares and the baseline entries (bl|…), and the commit deletes this key.
+     */
     own: `${c}:own`,
     /** hash `time|sampleId` → step JSON: the steps with findings (the latest ones). */
     steps: `${c}:steps`,

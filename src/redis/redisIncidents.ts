@@ -13,6 +13,7 @@ import { IncidentConflictError, IncidentNotFoundError } from '../incidents/error
 import { matchesFilter, type IncidentFilter } from '../incidents/listFilter.ts';
 import { emptyComponentIncidents, findIncident, summarize, type ComponentIncidents, type Incident, type IncidentEffect, type IncidentSummary } from '../incidents/model.ts';
 import type { IncidentRules } from '../incidents/policy.ts';
+import { compactText, expandText } from './compactText.ts';
 import { componentKeys, partitionKeys, Partitions } from './keys.ts';
 import { incidentRecordRows, type RedisConnection } from './redisStore.ts';
 import { CLAIM_OUTBOX, UPDATE_INCIDENTS } from './scripts.ts';
@@ -200,7 +201,7 @@ export class RedisIncidents {
 
   private async read(ref: ComponentRef): Promise<{ version: string; state: ComponentIncidents }> {
     const [version, raw] = await this.redis.hmget(this.keysOf(ref).c.evaluation, 'version', 'incidents');
-    return { version: version ?? '0', state: raw === null || raw === undefined ? emptyComponentIncidents(ref.unit, ref.component) : (JSON.parse(raw) as ComponentIncidents) };
+    return { version: version ?? '0', state: raw === null || raw === undefined ? emptyComponentIncidents(ref.unit, ref.component) : (JSON.parse(expandText(raw)) as ComponentIncidents) };
   }
 
   private async update<R extends { state: ComponentIncidents; effects: readonly IncidentEffect[]; archived?: readonly Incident[] }>(
@@ -213,7 +214,7 @@ export class RedisIncidents {
       const result = operate(state);
       const changed = [...changedIncidents(state, result.state), ...(result.archived ?? [])];
       if (changed.length === 0 && result.effects.length === 0 && JSON.stringify(state) === JSON.stringify(result.state)) return result;
-      const payload = { state: JSON.stringify(result.state), records: incidentRecordRows(changed), outbox: result.effects.map((e) => JSON.stringify(e)) };
+      const payload = { state: compactText(JSON.stringify(result.state)), records: incidentRecordRows(changed), outbox: result.effects.map((e) => JSON.stringify(e)) };
       const committed = await this.redis.eval(UPDATE_INCIDENTS, 6, c.evaluation, p.records, p.open, p.closed, p.outbox, c.incidents, version, JSON.stringify(payload));
       if (committed === 1) return result;
       if (attempt >= this.maxAttempts) throw new Error(`incidents of ${ref.unit}/${ref.component}: gave up after ${attempt} concurrent updates`);

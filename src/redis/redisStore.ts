@@ -14,7 +14,7 @@ import { resolveSettings } from '../domain/settings.ts';
 import { severityRank } from '../domain/finding.ts';
 import { emptyComponentIncidents, type ComponentIncidents, type Incident, type StepPosition } from '../incidents/model.ts';
 import { comparePosition } from '../incidents/verdict.ts';
-import { baselineBucketOf, combineBuckets, groupStatsOf, type BaselineBucket, type MonthBucket, type PopulationCell } from '../pipeline/groupShares.ts';
+import { addBaseline, addPopulation, baselineBucketOf, combineBuckets, groupStatsOf, type BaselineBucket, type MonthBucket, type PopulationCell } from '../pipeline/groupShares.ts';
 import type {
   BaselineShare,
   Checkpoint,
@@ -31,10 +31,10 @@ import type {
   StoreOutcome,
   StoreStatus,
 } from '../pipeline/ports.ts';
-import { decodeSample, encodeSample } from '../pipeline/sampleCodec.ts';
+import { decodeCompactSample, decodeSample, encodeSample, encodeSampleCore, isCompactSample } from '../pipeline/sampleCodec.ts';
 import type { RedisConnection } from './connection.ts';
 import { compactText, expandText } from './compactText.ts';
-import { componentKeys, groupKeys, partitionKeys, Partitions } from './keys.ts';
+import { COMMON_FIELD, componentKeys, groupKeys, partitionKeys, Partitions } from './keys.ts';
 import { COMMIT_EVALUATION, MARK_DIRTY, MARK_SAMPLE, RELEASE_LOCK, RENEW_LOCK, STORE_SAMPLE } from './scripts.ts';
 
 export type { RedisConnection };
@@ -92,27 +92,19 @@ export function incidentRecordRows(incidents: readonly Incident[]): Array<[strin
 
 /** The commit script's first argument after the payload: the incidents' JSON texts follow as arguments of their own. */
 const FIRST_RECORD_ARGUMENT = 4;
-const INCIDENTS_MARK = '@@incidents@@';
 
 /**
- * The incident part of a commit with each incident's JSON text sent once, as a script argument of its own (not
- * escaped inside the payload): its record row names the argument, and the state is the text around the incidents
- * (`stateHead`, `stateTail`) with `stateIncidents` [[key as JSON, argument]] between, which the script joins into
- * exactly `JSON.stringify(state)`.
+ * The incident part of a commit: each incident's JSON text is sent once, as a script argument of its own (not
+ * escaped inside the payload), which its record row names; the component's incident state, which holds them too, is
+ * stored compact (compactText.ts) and sent so.
  */
 function incidentArguments(commit: EvaluationCommit, first: number) {
   const state = commit.incidents;
-  const stateEntries = Object.entries(state.incidents);
-  const rows = incidentRecordRows([...stateEntries.map(([, inc]) => inc), ...commit.archived, ...commit.withdrawn]);
-  const texts = rows.map((r) => r[1]);
-  const around = JSON.stringify({ ...state, incidents: INCIDENTS_MARK });
-  const at = around.indexOf(`"${INCIDENTS_MARK}"`);
+  const rows = incidentRecordRows([...Object.values(state.incidents), ...commit.archived, ...commit.withdrawn]);
   return {
-    texts,
+    texts: rows.map((r) => r[1]),
     records: rows.map(([id, , status, score, opened], i) => [id, first + i, status, score, opened] as const),
-    stateHead: around.slice(0, at),
-    stateTail: around.slice(at + INCIDENTS_MARK.length + 2),
-    stateIncidents: stateEntries.map(([key], i) => [JSON.stringify(key), first + i] as const),
+    state: compactText(JSON.stringify(state)),
   };
 }
 
@@ -174,12 +166,15 @@ export class RedisStore implements ComponentStore, GroupLedger {
       p.registry,
       sample.sampleId,
       String(sample.revision),
-      encodeSample(sample),
-      String(receivedAt),
+      encodeSampleCore(sample),
+      receivedAt.toString(36),
       String(sample.time),
       sample.unitHours === undefined ? '' : String(sample.unitHours),
       componentKey(sample),
       registry,
+      sample.group ?? '',
+      sample.lab ?? '',
+      encodeSample(sample),
     )) as [StoreStatus, number];
     return { status, evaluationDue: due === 1 };
   }
@@ -213,7 +208,11 @@ export class RedisStore implements ComponentStore, GroupLedger {
 
   async revisions(ref: ComponentRef): Promise<StoredSample[]> {
     const { c } = this.keysOf(ref);
-    return Object.values(await this.redis.hgetall(c.revisions)).map((v) => stored(v, ref));
+    const all = await this.redis.hgetall(c.revisions);
+    const common = all[COMMON_FIELD];
+    return Object.entries(all)
+      .filter(([field]) => field !== COMMON_FIELD)
+      .map(([field, v]) => stored(field, v, common, ref));
   }
 
   async samplesAfter(ref: ComponentRef, position: StepPosition | null): Promise<StoredSample[]> {
@@ -231,10 +230,12 @@ export class RedisStore implements ComponentStore, GroupLedger {
     });
     picked.sort((a, b) => comparePosition(a.position, b.position));
     if (picked.length === 0) return [];
-    const values = await this.redis.hmget(c.revisions, ...picked.map((x) => `${x.id}\u001f${x.revision}`));
-    return values.map((v, i) => {
-      if (v === null) throw new Error(`${componentKey(ref)}: revision ${picked[i]!.revision} of ${picked[i]!.id} missing`);
-      return stored(v, ref);
+    const fields = picked.map((x) => `${x.id}\u001f${x.revision}`);
+    const values = await this.redis.hmget(c.revisions, COMMON_FIELD, ...fields);
+    const common = values[0] ?? undefined;
+    return values.slice(1).map((v, i) => {
+      if (v === null || v === undefined) throw new Error(`${componentKey(ref)}: revision ${picked[i]!.revision} of ${picked[i]!.id} missing`);
+      return stored(fields[i]!, v, common, ref);
     });
   }
 
@@ -254,7 +255,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
       ...(dirty !== null && dirty !== undefined && { dirtyFrom: parsePosition(dirty) }),
       ...(latest !== null && latest !== undefined && { latest: JSON.parse(expandText(latest)) as Checkpoint }),
       marks: new Map(Object.entries(JSON.parse(marks ?? '{}') as Record<string, SampleMark>)),
-      incidents: incidents === null || incidents === undefined ? emptyComponentIncidents(ref.unit, ref.component) : (JSON.parse(incidents) as ComponentIncidents),
+      incidents: incidents === null || incidents === undefined ? emptyComponentIncidents(ref.unit, ref.component) : (JSON.parse(expandText(incidents)) as ComponentIncidents),
       incidentsVersion: Number(version ?? 0),
     };
   }
@@ -437,17 +438,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
       }),
     );
     if (withoutOwn) {
-      const own = await this.redis.hgetall(selfKeys.own);
-      const byMonth = new Map<string, Record<string, string>>();
-      for (const [field, value] of Object.entries(own)) {
-        const bar = field.indexOf('|');
-        const m = field.slice(0, bar);
-        if (!wanted(m)) continue;
-        let fields = byMonth.get(m);
-        if (fields === undefined) byMonth.set(m, (fields = {}));
-        fields[field.slice(bar + 1)] = value;
-      }
-      for (const fields of byMonth.values()) parts.push([parseBucket(fields), -1]);
+      for (const [m, bucket] of await this.ownBuckets(selfKeys)) if (wanted(m)) parts.push([bucket, -1]);
     }
     if (this.bucketCache.size > 10_000) this.bucketCache.clear();
     const sum = combineBuckets(parts, keepValues);
@@ -468,6 +459,43 @@ export class RedisStore implements ComponentStore, GroupLedger {
   async membersAfter(group: string, from: number): Promise<ComponentRef[]> {
     const lists = await Promise.all(this.partitions.all().map((n) => this.redis.zrangebyscore(groupKeys(this.partitions.tag(n), group).horizons, from, '+inf')));
     return lists.flat().map((j) => JSON.parse(j) as ComponentRef);
+  }
+
+  /**
+   * The component's own shares of its group's month buckets, by month: the population shares of its winners and its
+   * baseline entries (what its commits added to the buckets of the group it was last committed to).
+   */
+  private async ownBuckets(c: ReturnType<typeof componentKeys>): Promise<Map<string, MonthBucket>> {
+    const [winners, fields] = await Promise.all([this.redis.hgetall(c.winners), this.redis.hkeys(c.evaluation)]);
+    const blFields = fields.filter((f) => f.startsWith('bl|'));
+    const blValues = blFields.length === 0 ? [] : await this.redis.hmget(c.evaluation, ...blFields);
+    const out = new Map<string, { population: Record<string, PopulationCell>; baselines: Partial<Record<Measurand, BaselineBucket>> }>();
+    const bucket = (month: string) => {
+      let b = out.get(month);
+      if (b === undefined) out.set(month, (b = { population: {}, baselines: {} }));
+      return b;
+    };
+    for (const winner of Object.values(winners)) {
+      const share = winner.split('|').slice(3).join('|');
+      if (share === '') continue;
+      const semi = share.indexOf(';');
+      const values: Record<string, number> = {};
+      for (const item of share.slice(semi + 1).split(',')) {
+        const eq = item.lastIndexOf('=');
+        values[item.slice(0, eq)] = Number(item.slice(eq + 1));
+      }
+      addPopulation(bucket(share.slice(0, semi)).population, values, 1, false);
+    }
+    blFields.forEach((field, i) => {
+      const entry = blValues[i];
+      if (entry === null || entry === undefined) return;
+      const semi = entry.indexOf(';');
+      const b = baselineOfValues(entry.slice(semi + 1).split(',').map(Number));
+      const m = field.slice(3) as Measurand;
+      const target = bucket(entry.slice(0, semi)).baselines;
+      target[m] = addBaseline(target[m], b, 1)!;
+    });
+    return out;
   }
 
   /** The values of a month bucket, for the percentile method (one sorted set per field). */
@@ -493,9 +521,18 @@ function entryOf(h: RegistryHead, count: number, last: string[]): ComponentEntry
   return { unit: h.unit, component: h.component, group: h.group, samples: count, lastSampledAt: new Date(Number(last[1] ?? 0)).toISOString() };
 }
 
-function stored(value: string, ref: ComponentRef): StoredSample {
+/**
+ * A stored revision: `receivedAt|sample`, the receivedAt in base 36 and the sample in the shorter form (with the
+ * component's common group and lab), or, written by the earlier layout, the receivedAt in decimal and the sample as
+ * a JSON array.
+ */
+function stored(field: string, value: string, common: string | undefined, ref: ComponentRef): StoredSample {
   const bar = value.indexOf('|');
-  return { receivedAt: Number(value.slice(0, bar)), sample: decodeSample(value.slice(bar + 1), ref) };
+  const body = value.slice(bar + 1);
+  if (!isCompactSample(body)) return { receivedAt: Number(value.slice(0, bar)), sample: decodeSample(body, ref) };
+  const sep = field.lastIndexOf('\u001f');
+  if (common === undefined) throw new Error(`${componentKey(ref)}: the common group and lab of the revisions are missing`);
+  return { receivedAt: parseInt(value.slice(0, bar), 36), sample: decodeCompactSample(body, field.slice(0, sep), Number(field.slice(sep + 1)), common, ref) };
 }
 
 function baselineValues(b: BaselineBucket): number[] {
@@ -514,6 +551,20 @@ function baselineValues(b: BaselineBucket): number[] {
     b.sumLog,
     b.sumLogSq,
   ];
+}
+
+/** A baseline entry from its stored values (baselineValues' order). */
+function baselineOfValues(v: readonly number[]): BaselineBucket {
+  const [components, intervals, sumHours, sumHoursSq, sumIncrement, sumIncrementSq, sumIncrementHours, sumLabVariance, sumRate, sumRateSq, positive, sumLog, sumLogSq] = v.map((x) => x ?? 0) as number[];
+  return {
+    components: components!,
+    sums: { intervals: intervals!, sumHours: sumHours!, sumHoursSq: sumHoursSq!, sumIncrement: sumIncrement!, sumIncrementSq: sumIncrementSq!, sumIncrementHours: sumIncrementHours!, sumLabVariance: sumLabVariance! },
+    sumRate: sumRate!,
+    sumRateSq: sumRateSq!,
+    positive: positive!,
+    sumLog: sumLog!,
+    sumLogSq: sumLogSq!,
+  };
 }
 
 /** A month bucket from its hash fields: `p|measurand|edge|n|s|q` and `b|measurand|name`. */

@@ -4,14 +4,24 @@
  * the record, the field and the reason — and so does a second record of the same request with the same identity
  * and other content. The same content again is a harmless redelivery and stays accepted.
  */
-import type { FieldIssue } from '../domain/event.ts';
-import { encodeSample } from '../pipeline/sampleCodec.ts';
-import { componentKeys, type Partitions } from './keys.ts';
+import type { FieldIssue, Sample } from '../domain/event.ts';
+import { composeStoredSample, encodeSample, encodeSampleCore, isCompactSample } from '../pipeline/sampleCodec.ts';
+import { COMMON_FIELD, componentKeys, type Partitions } from './keys.ts';
 import type { RedisConnection } from './connection.ts';
 import type { ValidatedRecord } from '../intake/validate.ts';
 
 export function conflictReason(sampleId: string, revision: number, where: 'stored' | 'request'): string {
   return `sample ${sampleId} revision ${revision} is already ${where === 'stored' ? 'stored' : 'in this request'} with different content; a correction needs a higher revision (e.g. ${revision + 1})`;
+}
+
+/**
+ * Whether a stored revision (`receivedAt|stored sample`, redisStore.ts) holds this sample: compared in the form it
+ * was stored in, the shorter one with the component's common group and lab, or the earlier JSON array.
+ */
+function sameAsStored(value: string, common: string | undefined, sample: Sample, earlierForm: string): boolean {
+  const body = value.slice(value.indexOf('|') + 1);
+  if (!isCompactSample(body)) return body === earlierForm;
+  return common !== undefined && body === composeStoredSample(encodeSampleCore(sample), sample.group, sample.lab, common);
 }
 
 /** The index of every conflicting record with its issue. */
@@ -20,17 +30,16 @@ export async function revisionConflicts(redis: RedisConnection, partitions: Part
   if (records.length === 0) return conflicts;
   const encoded = records.map((r) => encodeSample(r.sample));
   const stored = await Promise.all(
-    records.map((r) => {
+    records.map(async (r, i) => {
       const tag = partitions.tag(partitions.of(r.sample));
-      return redis.hget(componentKeys(tag, r.sample).revisions, `${r.sample.sampleId}\u001f${r.sample.revision}`);
+      const [value, common] = await redis.hmget(componentKeys(tag, r.sample).revisions, `${r.sample.sampleId}\u001f${r.sample.revision}`, COMMON_FIELD);
+      return value === null || value === undefined ? null : sameAsStored(value, common ?? undefined, r.sample, encoded[i]!);
     }),
   );
   const seen = new Map<string, string>();
   records.forEach((r, i) => {
     const { sample } = r;
-    const value = stored[i];
-    // Stored as `receivedAt|encoded sample`.
-    if (value !== null && value !== undefined && value.slice(value.indexOf('|') + 1) !== encoded[i]) {
+    if (stored[i] === false) {
       conflicts.set(r.index, { path: 'revision', reason: conflictReason(sample.sampleId, sample.revision, 'stored') });
       return;
     }

@@ -29,20 +29,39 @@ end
 
 /**
  * KEYS: revisions, winners, order, evaluation, registry.
- * ARGV: sampleId, revision, encoded sample, receivedAt, time, unitHours or '', component key, registry JSON.
+ * ARGV: sampleId, revision, sample core (encodeSampleCore), receivedAt (base 36), time, unitHours or '', component
+ * key, registry JSON, group or '', lab or '', the sample in the earlier stored form (encodeSample).
+ * The revisions hash keeps the component's common group and lab under the field `*` (set by the first sample stored
+ * in this layout, never changed); a revision is stored as `receivedAt|core,group,lab` with `*` for the common ones.
+ * A revision stored in the earlier layout (`receivedAt|[JSON array]`) is compared in the earlier form.
  * Returns {status, evaluationDue (0|1)}.
  */
 export const STORE_SAMPLE = `${POSITION}
 local field = ARGV[1] .. '\\31' .. ARGV[2]
+local common = redis.call('HGET', KEYS[1], '*')
 local stored = redis.call('HGET', KEYS[1], field)
 local function due()
   return tonumber(redis.call('HGET', KEYS[4], 'mark') or '0') > tonumber(redis.call('HGET', KEYS[4], 'done') or '0')
 end
+local function part(v, c)
+  if v == '' then return '' elseif v == c then return '*' else return v end
+end
+local function compose(c)
+  local cg, cl = string.match(c, '^([^,]*),(.*)$')
+  return ARGV[3] .. ',' .. part(ARGV[9], cg) .. ',' .. part(ARGV[10], cl)
+end
 if stored then
   local sep = string.find(stored, '|', 1, true)
-  return { string.sub(stored, sep + 1) == ARGV[3] and 'duplicate' or 'conflict', due() and 1 or 0 }
+  local body = string.sub(stored, sep + 1)
+  local same
+  if string.sub(body, 1, 1) == '[' then same = body == ARGV[11] else same = common and body == compose(common) end
+  return { same and 'duplicate' or 'conflict', due() and 1 or 0 }
 end
-redis.call('HSET', KEYS[1], field, ARGV[4] .. '|' .. ARGV[3])
+if not common then
+  common = ARGV[9] .. ',' .. ARGV[10]
+  redis.call('HSET', KEYS[1], '*', common)
+end
+redis.call('HSET', KEYS[1], field, ARGV[4] .. '|' .. compose(common))
 local pos = ARGV[5] .. '|' .. ARGV[6] .. '|' .. ARGV[1]
 local winner = redis.call('HGET', KEYS[2], ARGV[1])
 local status = 'new'
@@ -121,7 +140,7 @@ end
 /**
  * An operator's action or an escalation check on a component's incidents: compare-and-set on the version.
  * KEYS: evaluation, records, open, closed, outbox, component incident index.
- * ARGV: expected version, payload JSON {state, records: [[id, json, open|closed, score, openedTime]], outbox: [json]}.
+ * ARGV: expected version, payload JSON {state (compact, compactText.ts), records: [[id, json, open|closed, score, openedTime]], outbox: [json]}.
  * Returns 1, or 0 when the version moved on (someone else changed the incidents: read again and retry).
  */
 export const UPDATE_INCIDENTS = `${INCIDENT_RECORDS}
@@ -134,15 +153,15 @@ return 1
 
 /**
  * Commits an evaluation: only while the lock holds and the incidents are still at the version read.
- * KEYS: lock, evaluation, winners, steps, component incident index, own shares, registry, records, open, closed, outbox.
+ * KEYS: lock, evaluation, winners, steps, component incident index, own shares of an earlier layout (deleted), registry,
+ * records, open, closed, outbox.
  * ARGV: token, mark, payload JSON:
  *   latest, sparse [[field, json]], rewound ('' none, 'start', or a position), steps [[field, json or '']], limit,
  *   shares [[sampleId, share or '']] (share: month;field=value,...), baselines {measurand: entry or ''}
  *   (entry: month;v1,...,v13), group, groupPrefix, member, horizon, registry, keepValues (0|1), componentKey,
- *   version, stateHead, stateTail, stateIncidents [[key as JSON, argument]], records [[id, argument, open|closed,
+ *   version, state (the component's incident state, stored as given: compact), records [[id, argument, open|closed,
  *   score, openedTime]], outbox;
- * then the incidents' JSON texts, one argument each (ARGV[4] on), which records and stateIncidents name: the
- * incident state written is stateHead .. '{' .. key:text, ... .. '}' .. stateTail.
+ * then the incidents' JSON texts, one argument each (ARGV[4] on), which records name.
  * Returns {1, earliest changed month or ''}, {0} when the lock was lost, {-1} when the incidents changed.
  */
 export const COMMIT_EVALUATION = `${POSITION}${INCIDENT_RECORDS}
@@ -190,13 +209,14 @@ if excess > 0 then
   for i = 1, excess do redis.call('HDEL', KEYS[4], names[i]) end
 end
 
--- The group's month buckets in this partition, and the component's own shares of them.
+-- The group's month buckets in this partition. The component's own shares of them are its winners' population
+-- shares and its baseline entries (bl|…), read from there; the hash of them that an earlier layout kept goes.
+redis.call('DEL', KEYS[6])
 local changed = nil
 local function apply(prefix, month, values, sign)
   local bucket = prefix .. ':m:' .. month
   for f, v in pairs(values) do
     redis.call('HINCRBYFLOAT', bucket, f, sign * v)
-    redis.call('HINCRBYFLOAT', KEYS[6], month .. '|' .. f, sign * v)
   end
   redis.call('HINCRBY', prefix .. ':v', month, 1)
   if changed == nil or month < changed then changed = month end
@@ -297,16 +317,7 @@ redis.call('HSET', KEYS[7], p.componentKey, p.registry)
 
 -- The incidents, their records and their messages: each incident's JSON text is an argument of its own.
 for _, r in ipairs(p.records) do r[2] = ARGV[r[2]] end
-local state = { p.stateHead, '{' }
-for i, e in ipairs(p.stateIncidents) do
-  if i > 1 then table.insert(state, ',') end
-  table.insert(state, e[1])
-  table.insert(state, ':')
-  table.insert(state, ARGV[e[2]])
-end
-table.insert(state, '}')
-table.insert(state, p.stateTail)
-redis.call('HSET', ev, 'incidents', table.concat(state), 'version', tostring(tonumber(p.version) + 1))
+redis.call('HSET', ev, 'incidents', p.state, 'version', tostring(tonumber(p.version) + 1))
 write_incidents(p, KEYS[8], KEYS[9], KEYS[10], KEYS[11], KEYS[5])
 return { 1, changed or '' }
 `;

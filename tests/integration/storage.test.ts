@@ -15,7 +15,10 @@ import { positionOf } from '../../src/incidents/verdict.ts';
 import { populationShare, monthOf } from '../../src/pipeline/groupShares.ts';
 import { MemoryStore } from '../../src/pipeline/memory/memoryStore.ts';
 import type { Checkpoint, ComponentStore, EvaluationCommit, GroupLedger, Lease } from '../../src/pipeline/ports.ts';
+import { COMMON_FIELD, componentKeys } from '../../src/redis/keys.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
+import { revisionConflicts } from '../../src/redis/revisionConflicts.ts';
+import { encodeSample } from '../../src/pipeline/sampleCodec.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const config = parseConfig(`
@@ -274,5 +277,55 @@ describe.each(implementations)('%s store', (_name, make) => {
     expect(after.dirtyFrom).toEqual(positionOf(b));
     await store.markSample(a, 'M-2', null);
     expect((await store.evaluationInput(a))!.marks.has('M-2')).toBe(false);
+  });
+});
+
+describe('redis store, a store written by the earlier layout', () => {
+  it('reads revisions stored in the earlier form, recognises their redelivery and conflicts, and drops the own-shares hash at the next commit', async () => {
+    const client = server.client();
+    const store = new RedisStore(client, { prefix: `{t${++prefixCounter}}`, config });
+    const old = sample({ sampleId: 'E-1', sampledAt: '2025-01-01T00:00:00Z', oilHours: 100, lab: 'North lab', group: GROUP, readings: { Fe: 12, Cu: 3 } });
+    expect((await store.store(old, GROUP, 1000)).status).toBe('new');
+    // What the earlier layout wrote: `receivedAt|JSON array`, no common group and lab, and a hash of own shares.
+    const keys = componentKeys(store.partitions.tag(store.partitions.of(old)), old);
+    await client.del(keys.revisions);
+    await client.hset(keys.revisions, 'E-1\u001f0', `1000|${encodeSample(old)}`);
+    await client.hset(keys.own, '2025-01|p|Fe|0|n', '1');
+    expect(await store.revisions(old)).toEqual([{ sample: old, receivedAt: 1000 }]);
+    expect((await store.store(sample({ sampleId: 'E-1', sampledAt: '2025-01-01T00:00:00Z', oilHours: 100, lab: 'North lab', group: GROUP, readings: { Cu: 3, Fe: 12 } }), GROUP, 2000)).status).toBe('duplicate');
+    const other = sample({ sampleId: 'E-1', sampledAt: '2025-01-01T00:00:00Z', oilHours: 100, lab: 'North lab', group: GROUP, readings: { Fe: 99 } });
+    expect((await store.store(other, GROUP, 3000)).status).toBe('conflict');
+    const conflicts = await revisionConflicts(client, store.partitions, [
+      { index: 0, event: {}, sample: old },
+      { index: 1, event: {}, sample: other },
+    ]);
+    expect([...conflicts.keys()]).toEqual([1]);
+
+    // New revisions beside the old one: the common group and lab come from the first one stored in the new form.
+    const next = sample({ sampleId: 'E-2', sampledAt: '2025-01-02T00:00:00Z', oilHours: 200, lab: 'North lab', group: GROUP, readings: { Fe: 13 } });
+    const moved = sample({ sampleId: 'E-3', sampledAt: '2025-01-03T00:00:00Z', unitHours: 12.5, oilChanged: true, topUpLitres: 1.5, group: 'other-group', readings: { Fe: '<1', iso4406: '18/16/13' } });
+    expect((await store.store(next, GROUP, 4000)).status).toBe('new');
+    expect((await store.store(moved, GROUP, 5000)).status).toBe('new');
+    expect(await client.hget(keys.revisions, COMMON_FIELD)).toBe(`${GROUP},North lab`);
+    const all = (await store.revisions(old)).sort((a, b) => a.receivedAt - b.receivedAt);
+    expect(all).toEqual([
+      { sample: old, receivedAt: 1000 },
+      { sample: next, receivedAt: 4000 },
+      { sample: moved, receivedAt: 5000 },
+    ]);
+    expect((await store.store(moved, GROUP, 6000)).status).toBe('duplicate');
+    expect([...(await revisionConflicts(client, store.partitions, [{ index: 0, event: {}, sample: next }, { index: 1, event: {}, sample: { ...moved, lab: 'South lab' } }])).keys()]).toEqual([1]);
+
+    // Checkpoints and the incident state written plain still read.
+    const plain = commitOf([old], 1);
+    await client.hset(keys.evaluation, 'latest', JSON.stringify(plain.latest), 'incidents', JSON.stringify(plain.incidents));
+    const input = (await store.evaluationInput(old))!;
+    expect(input.latest).toEqual(plain.latest);
+    expect(input.incidents).toEqual(plain.incidents);
+
+    const lease = (await store.acquire(old, 10_000))!;
+    expect((await store.commit(old, lease, commitOf([old, next, moved], input.mark))).ok).toBe(true);
+    expect(await client.exists(keys.own)).toBe(0);
+    expect((await store.evaluationInput(old))!.latest).toEqual(commitOf([old, next, moved], input.mark).latest);
   });
 });

@@ -1,24 +1,55 @@
-/** Stored checkpoints and findings log records: deflated above a size, read back exactly, plain JSON still read. */
-import { inflateRawSync } from 'node:zlib';
+/** Stored checkpoints and findings log records: deflated above a size, read back exactly, earlier forms still read. */
+import { deflateRawSync, inflateRawSync } from 'node:zlib';
 import { describe, expect, it } from 'vitest';
+import { COMPACT_DICTIONARY_Z2 } from '../../src/redis/compactDictionary.ts';
 import { COMPACT_FROM_CHARS, compactText, expandText } from '../../src/redis/compactText.ts';
 
 describe('compactText', () => {
   const long = JSON.stringify({ sampleId: 'MLAB-1-0042', findings: Array.from({ length: 6 }, (_, i) => ({ measurand: 'Fe', rule: 'ewma', value: i * 1.5, explanation: 'Fe (iron) is accumulating faster than before (ünïcode kept)' })) });
+  const record = JSON.stringify({
+    sampleId: 'MLAB-7-0042',
+    sampledAt: '2026-03-04T05:06:07.000Z',
+    findings: [
+      {
+        unit: 'HT-7',
+        component: 'engine',
+        group: 'haul-trucks',
+        sampleId: 'MLAB-7-0042',
+        sampledAt: '2026-03-04T05:06:07.000Z',
+        measurand: 'Fe',
+        rule: 'limit',
+        disposition: 'incident',
+        severity: 'caution',
+        value: 61,
+        threshold: 60,
+        basis: 'reading',
+        explanation:
+          'Fe 61 ppm is above the caution level of 60 ppm set for group haul-trucks. It may point to gears, bearings, shafts, liners wearing faster; next: re-sample to confirm (same sample point, machine running at working temperature), and ask the lab to review the trend.',
+      },
+    ],
+  });
 
-  it('stores a long value deflated (RFC 1951) in base64, shorter, and reads it back exactly', () => {
+  it('stores a long value deflated (RFC 1951) against the preset dictionary, in base64, shorter, and reads it back exactly', () => {
     const stored = compactText(long);
-    expect(stored.startsWith('z1:')).toBe(true);
+    expect(stored.startsWith('z2:')).toBe(true);
     expect(stored.length).toBeLessThan(long.length / 2);
-    // Any raw-deflate decoder reads it: node's zlib, independent of expandText.
-    expect(inflateRawSync(Buffer.from(stored.slice(3), 'base64')).toString('utf8')).toBe(long);
+    // Any raw-deflate decoder given the dictionary reads it: node's zlib, independent of expandText.
+    expect(inflateRawSync(Buffer.from(stored.slice(3), 'base64'), { dictionary: Buffer.from(COMPACT_DICTIONARY_Z2, 'utf8') }).toString('utf8')).toBe(long);
     expect(expandText(stored)).toBe(long);
   });
 
-  it('keeps short values and reads plain JSON written before', () => {
+  it('shrinks a single findings log record to a fraction of what deflate alone makes of it', () => {
+    const alone = deflateRawSync(Buffer.from(record, 'utf8')).toString('base64').length;
+    const stored = compactText(record);
+    expect(expandText(stored)).toBe(record);
+    expect(stored.length).toBeLessThan(alone / 2);
+  });
+
+  it('keeps short values and reads plain JSON and the dictionary-less z1 form written before', () => {
     const short = '{"a":1}';
     expect(short.length).toBeLessThan(COMPACT_FROM_CHARS);
     expect(compactText(short)).toBe(short);
     expect(expandText(long)).toBe(long);
+    expect(expandText(`z1:${deflateRawSync(Buffer.from(long, 'utf8')).toString('base64')}`)).toBe(long);
   });
 });
