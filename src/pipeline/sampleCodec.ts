@@ -45,22 +45,40 @@ export function encodeSample(s: Sample): string {
 
 export function decodeSample(text: string, ref: { unit: string; component: string }): Sample {
   const [sampleId, revision, time, unitHours, oilHours, flags, topUpLitres, group, lab, readingText] = JSON.parse(text) as Encoded;
-  const readings = parseReadings(readingText, sampleId);
+  return assembleSample({ sampleId, revision, ref, time, flags, topUpLitres, readingText, group: group ?? undefined, lab: lab ?? undefined, unitHours: unitHours ?? undefined, oilHours: oilHours ?? undefined });
+}
+
+interface SampleParts {
+  readonly sampleId: string;
+  readonly revision: number;
+  readonly ref: { unit: string; component: string };
+  readonly time: number;
+  readonly flags: number;
+  readonly topUpLitres: number;
+  readonly readingText: string;
+  readonly group: string | undefined;
+  readonly lab: string | undefined;
+  readonly unitHours: number | undefined;
+  readonly oilHours: number | undefined;
+}
+
+/** The sample both stored forms decode to. */
+function assembleSample(p: SampleParts): Sample {
   return {
-    sampleId,
-    revision,
-    unit: ref.unit,
-    component: ref.component,
-    sampledAt: new Date(time).toISOString(),
-    time,
-    oilChanged: (flags & 1) !== 0,
-    componentChanged: (flags & 2) !== 0,
-    topUpLitres,
-    readings,
-    ...(group !== null && { group }),
-    ...(unitHours !== null && { unitHours }),
-    ...(oilHours !== null && { oilHours }),
-    ...(lab !== null && { lab }),
+    sampleId: p.sampleId,
+    revision: p.revision,
+    unit: p.ref.unit,
+    component: p.ref.component,
+    sampledAt: new Date(p.time).toISOString(),
+    time: p.time,
+    oilChanged: (p.flags & 1) !== 0,
+    componentChanged: (p.flags & 2) !== 0,
+    topUpLitres: p.topUpLitres,
+    readings: parseReadings(p.readingText, p.sampleId),
+    ...(p.group !== undefined && { group: p.group }),
+    ...(p.unitHours !== undefined && { unitHours: p.unitHours }),
+    ...(p.oilHours !== undefined && { oilHours: p.oilHours }),
+    ...(p.lab !== undefined && { lab: p.lab }),
   };
 }
 
@@ -105,22 +123,17 @@ export function decodeCompactSample(text: string, sampleId: string, revision: nu
   const whole = (p: string, c: string) => (p === '' ? undefined : p === '*' ? c : p);
   const group = whole(groupPart, common.slice(0, comma));
   const lab = whole(labPart, common.slice(comma + 1));
-  const time = parseInt(time36, 36);
-  const flags = flagText === '' ? 0 : Number(flagText);
-  return {
+  return assembleSample({
     sampleId,
     revision,
-    unit: ref.unit,
-    component: ref.component,
-    sampledAt: new Date(time).toISOString(),
-    time,
-    oilChanged: (flags & 1) !== 0,
-    componentChanged: (flags & 2) !== 0,
+    ref,
+    time: parseInt(time36, 36),
+    flags: flagText === '' ? 0 : Number(flagText),
     topUpLitres: topUp === '' ? 0 : Number(topUp),
-    readings: parseReadings(readingText, sampleId),
-    ...(group !== undefined && { group }),
-    ...(unitHours !== '' && { unitHours: Number(unitHours) }),
-    ...(oilHours !== '' && { oilHours: Number(oilHours) }),
-    ...(lab !== undefined && { lab }),
-  };
+    readingText,
+    group,
+    lab,
+    unitHours: unitHours === '' ? undefined : Number(unitHours),
+    oilHours: oilHours === '' ? undefined : Number(oilHours),
+  });
 }
