@@ -246,7 +246,13 @@ function annunciateOne(inc: DraftIncident, work: Work): void {
   } else if (inc.alarm === 'active' && (inc.lastLive || shelvingEnded)) {
     const news = newEvidence(inc);
     if (news !== null) announce(inc, work, 'wearshift.incident.updated', `new evidence: ${news}`, ackWithdrawn || shelvingEnded);
-    else if (ack === null && shelvingEnded) announce(inc, work, 'wearshift.incident.updated', 'shelving ended; still active and unacknowledged', true);
+    else if (ackWithdrawn) {
+      // Evidence beyond what was acknowledged, though not beyond what was ever announced (the severity fell before the
+      // acknowledgement and rose again): the acknowledgement is withdrawn, so the chain starts again — an
+      // unacknowledged active alarm is never left silent.
+      const withdrawn = [...inc.timeline].reverse().find((e) => e.kind === 'unacknowledged');
+      announce(inc, work, 'wearshift.incident.updated', `acknowledgement withdrawn: ${withdrawn?.reason ?? 'new evidence'}; acknowledge again`, true);
+    } else if (ack === null && shelvingEnded) announce(inc, work, 'wearshift.incident.updated', 'shelving ended; still active and unacknowledged', true);
   }
   if (inc.alarm === 'returned') {
     const returned = lastReturn(inc);

@@ -167,6 +167,27 @@ describe('incident life cycle', () => {
     expect(news.effects.some((e) => e.kind === 'schedule-escalation' && e.tier === 1)).toBe(true);
   });
 
+  it('an acknowledgement withdrawn by a severity already announced before it still announces and escalates again', () => {
+    // Alarm announced, then the severity falls to caution and the caution is acknowledged; the alarm comes back.
+    // Nothing is new against what was ever announced, but the acknowledgement no longer covers the evidence: an
+    // unacknowledged active alarm must not be left silent (ISA-18.2: a re-alarm is annunciated; from memory).
+    let state = feed(emptyComponentIncidents(UNIT, COMPONENT), step(1, finding('Fe', 'alarm'))).state;
+    state = feed(state, step(2, finding('Fe', 'caution'))).state;
+    const id = only(state).id;
+    state = applyAction(state, { kind: 'acknowledge', incidentId: id, by: 'R. Tanaka', now: new Date(T0 + 20 * DAY + 2 * 3_600_000) }, RULES).state;
+    expect(only(state).acknowledged).toMatchObject({ severity: 'caution' });
+    const back = feed(state, step(3, finding('Fe', 'alarm')));
+    expect(only(back.state).acknowledged).toBeNull();
+    expect(notifies(back.effects).map((e) => [e.type, e.tier])).toEqual([
+      ['wearshift.incident.updated', 0],
+      ['wearshift.incident.updated', 0],
+    ]);
+    expect(notifies(back.effects)[0]!.incident.reason).toMatch(/^acknowledgement withdrawn: new evidence: severity rose from caution to alarm; acknowledge again/);
+    expect(back.effects.some((e) => e.kind === 'schedule-escalation' && e.tier === 1)).toBe(true);
+    // Redelivered, the same step tells nobody twice.
+    expect(feed(back.state, step(3, finding('Fe', 'alarm'))).effects).toEqual([]);
+  });
+
   it('returns to normal after the configured clean samples; closes only once acknowledged', () => {
     let state = feed(emptyComponentIncidents(UNIT, COMPONENT), step(1, finding('Fe', 'alarm'))).state;
     const id = only(state).id;
