@@ -159,11 +159,16 @@ export async function runDemo(options: DemoOptions): Promise<DemoRun> {
     const fileConfig = loadConfig(options.configFile ?? DEMO_DEFAULTS.configFile);
     const config = demoConfig(fileConfig, { prefix, smtpPort: mail.port, webhookUrl: hooks.url, apiUrl });
     const tokens = { ingest: token(), responder: token(), viewer: token() };
-    // The API reads its tokens from the process environment when its routes are built.
-    process.env.WEARSHIFT_TOKEN_INGEST = tokens.ingest;
-    process.env.WEARSHIFT_TOKEN_RESPONDER = tokens.responder;
-    process.env.WEARSHIFT_TOKEN_VIEWER = tokens.viewer;
-    const serviceEnv = { ...env, REDIS_URL: url, DEMO_WEBHOOK_SECRET: webhookSecret, DEMO_ACK_SECRET: token() };
+    // The services take the API's tokens from the environment they are handed, not from the process's.
+    const serviceEnv = {
+      ...env,
+      REDIS_URL: url,
+      DEMO_WEBHOOK_SECRET: webhookSecret,
+      DEMO_ACK_SECRET: token(),
+      WEARSHIFT_TOKEN_INGEST: tokens.ingest,
+      WEARSHIFT_TOKEN_RESPONDER: tokens.responder,
+      WEARSHIFT_TOKEN_VIEWER: tokens.viewer,
+    };
 
     if (redis === undefined) closers.push({ name: 'demo keys', close: () => deleteKeys(url!, prefix, logger) });
     const services = await startServices({ workers: true, http: true, config, logger, port, host: '127.0.0.1', env: serviceEnv, workerSettings: { outboxIntervalMs: 250 } });

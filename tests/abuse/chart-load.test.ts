@@ -16,6 +16,9 @@ import { sample, settingsFrom } from '../unit/history-fixtures.ts';
 import { healthProbe } from '../helpers/healthProbe.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
+/** The API's tokens, handed to the routes (never written into the process environment). */
+const tokenEnv: NodeJS.ProcessEnv = {};
+
 const TIME_LIMIT_MS = 5000;
 const HEALTHZ_MAX_MS = 1000;
 const ANSWER_WITHIN_MS = TIME_LIMIT_MS + 60_000;
@@ -41,7 +44,7 @@ const saved = { ...process.env };
 const viewer = { authorization: 'Bearer chart-viewer-4f1e' };
 
 beforeAll(async () => {
-  process.env.WEARSHIFT_TOKEN_VIEWER = 'chart-viewer-4f1e';
+  tokenEnv.WEARSHIFT_TOKEN_VIEWER = 'chart-viewer-4f1e';
   for (const [unit, n] of [['LONG-50K', 50_000], ['MID-3K', 3000], ['SHORT-40', 40]] as const) {
     const samples = history(n);
     inputs.set(unit, inputOf({ unit, component: 'gearbox', group: settings.group, samples: n, lastSampledAt: samples.at(-1)!.sampledAt }, settings, samples));
@@ -50,8 +53,8 @@ beforeAll(async () => {
   app = Fastify();
   await app.register(healthRoutes, { ping: async () => 'PONG' });
   patient = new ChartPool({ concurrency: 1, queue: 4, timeoutMs: 10 * 60_000, sampleBudget: 1000 });
-  await app.register(seriesRoutes, { tokens: accessTokensFromEnv(process.env), loadInput: async (unit) => inputs.get(unit), pool });
-  await app.register(seriesRoutes, { tokens: accessTokensFromEnv(process.env), loadInput: async (unit) => inputs.get(unit), pool: patient, prefix: '/patient' });
+  await app.register(seriesRoutes, { tokens: accessTokensFromEnv(tokenEnv), loadInput: async (unit) => inputs.get(unit), pool });
+  await app.register(seriesRoutes, { tokens: accessTokensFromEnv(tokenEnv), loadInput: async (unit) => inputs.get(unit), pool: patient, prefix: '/patient' });
   base = await app.listen({ host: '127.0.0.1', port: 0 });
 }, 120_000);
 

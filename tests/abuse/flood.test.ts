@@ -21,6 +21,9 @@ import { drained } from '../helpers/queueDrain.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
+/** The API's tokens, handed to the routes (never written into the process environment). */
+const tokenEnv: NodeJS.ProcessEnv = {};
+
 const prefix = '{flood}';
 const INGEST = 'ingest-flood-0e91b3';
 const FLOOD = 2000;
@@ -43,7 +46,7 @@ const saved = { ...process.env };
 beforeAll(async () => {
   redis = await startRedisServer();
   client = redis.client();
-  process.env.WEARSHIFT_TOKEN_INGEST = INGEST;
+  tokenEnv.WEARSHIFT_TOKEN_INGEST = INGEST;
   // FLEET_CONFIG's detection settings (tests/helpers/fleetCsv.ts), so that every evaluation runs EWMA and CUSUM.
   const config = parseConfig(`redis: { prefix: "${prefix}" }\ndetection: { measurands: [Fe, Cu], runningInHours: 0, baselineIntervals: 6 }`);
   producer = createResultProducer({ connection: client, prefix });
@@ -78,7 +81,7 @@ beforeAll(async () => {
   const settings = resolveQueueSettings({ prefix });
   results = openQueue(QUEUE_NAMES.results, client, settings);
   evaluate = openQueue(QUEUE_NAMES.evaluate, client, settings);
-  app = await buildServer({ tokens: accessTokensFromEnv(process.env), logger: silentLogger(), metrics: createMetrics({ defaultMetrics: false }), ping: () => client.ping(), producer });
+  app = await buildServer({ tokens: accessTokensFromEnv(tokenEnv), logger: silentLogger(), metrics: createMetrics({ defaultMetrics: false }), ping: () => client.ping(), producer });
   await app.listen({ port: 0, host: '127.0.0.1' });
   base = `http://127.0.0.1:${(app.server.address() as AddressInfo).port}`;
 });

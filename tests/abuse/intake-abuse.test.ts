@@ -22,6 +22,9 @@ import { drained } from '../helpers/queueDrain.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
+/** The API's tokens, handed to the routes (never written into the process environment). */
+const tokenEnv: NodeJS.ProcessEnv = {};
+
 const prefix = '{abuse}';
 const INGEST = 'ingest-abuse-6c0d2a';
 const LIMIT = 256 * 1024;
@@ -38,14 +41,14 @@ const saved = { ...process.env };
 beforeAll(async () => {
   redis = await startRedisServer();
   client = redis.client();
-  process.env.WEARSHIFT_TOKEN_INGEST = INGEST;
+  tokenEnv.WEARSHIFT_TOKEN_INGEST = INGEST;
   const config = parseConfig(`redis: { prefix: "${prefix}" }`);
   producer = createResultProducer({ connection: client, prefix });
   storage = new RedisStore(client, { prefix });
   workers = startWorkers({ connection: client, config, logger: silentLogger() }, { prefix });
   const settings = resolveQueueSettings({ prefix });
   queues = [openQueue(QUEUE_NAMES.results, client, settings), openQueue(QUEUE_NAMES.evaluate, client, settings)];
-  app = await buildServer({ tokens: accessTokensFromEnv(process.env), logger: silentLogger(), metrics: createMetrics({ defaultMetrics: false }), ping: () => client.ping(), producer, bodyLimitBytes: LIMIT });
+  app = await buildServer({ tokens: accessTokensFromEnv(tokenEnv), logger: silentLogger(), metrics: createMetrics({ defaultMetrics: false }), ping: () => client.ping(), producer, bodyLimitBytes: LIMIT });
   await app.ready();
 });
 

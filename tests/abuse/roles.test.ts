@@ -22,6 +22,9 @@ import { RedisStore } from '../../src/redis/redisStore.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
+/** The API's tokens, handed to the routes (never written into the process environment). */
+const tokenEnv: NodeJS.ProcessEnv = {};
+
 const prefix = '{roles}';
 const TOKENS = { ingest: 'ingest-tok-3b81f0', responder: 'responder-tok-c4d2e9', viewer: 'viewer-tok-77a1b5' } as const;
 const CALLERS = ['none', 'unknown', 'ingest', 'responder', 'viewer'] as const;
@@ -60,12 +63,12 @@ beforeAll(async () => {
   await incidents.applySteps({ unit: 'PS2-P4', component: COMPONENT }, [other], { group: COMPONENT, now: new Date(), quietBefore: new Date(0) });
   expect(await incidents.get(OTHER_ID)).toBeDefined();
 
-  process.env.WEARSHIFT_TOKEN_INGEST = TOKENS.ingest;
-  process.env.WEARSHIFT_TOKEN_RESPONDER = TOKENS.responder;
-  process.env.WEARSHIFT_TOKEN_VIEWER = TOKENS.viewer;
+  tokenEnv.WEARSHIFT_TOKEN_INGEST = TOKENS.ingest;
+  tokenEnv.WEARSHIFT_TOKEN_RESPONDER = TOKENS.responder;
+  tokenEnv.WEARSHIFT_TOKEN_VIEWER = TOKENS.viewer;
   delete process.env.WEARSHIFT_METRICS_PUBLIC;
   producer = createResultProducer({ connection: client, prefix });
-  app = await buildServer({ tokens: accessTokensFromEnv(process.env),
+  app = await buildServer({ tokens: accessTokensFromEnv(tokenEnv),
     logger: silentLogger(),
     metrics: createMetrics({ defaultMetrics: false }),
     ping: () => client.ping(),

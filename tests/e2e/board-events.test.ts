@@ -10,17 +10,20 @@ import { eventRoutes } from '../../src/http/eventRoutes.ts';
 import type { Incident } from '../../src/incidents/model.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
+/** The API's tokens, handed to the routes (never written into the process environment). */
+const tokenEnv: NodeJS.ProcessEnv = {};
+
 const saved = { ...process.env };
 let app: FastifyInstance;
 let hub: EventHub;
 let url: string;
 
 beforeAll(async () => {
-  process.env.WEARSHIFT_TOKEN_VIEWER = 'view-1';
-  process.env.WEARSHIFT_TOKEN_INGEST = 'ingest-1';
+  tokenEnv.WEARSHIFT_TOKEN_VIEWER = 'view-1';
+  tokenEnv.WEARSHIFT_TOKEN_INGEST = 'ingest-1';
   hub = createEventHub();
   app = Fastify();
-  await app.register(eventRoutes, { tokens: accessTokensFromEnv(process.env), hub, heartbeatMs: 200 });
+  await app.register(eventRoutes, { tokens: accessTokensFromEnv(tokenEnv), hub, heartbeatMs: 200 });
   url = `${await app.listen({ host: '127.0.0.1', port: 0 })}/v1/events`;
 });
 
@@ -130,7 +133,7 @@ describe('GET /v1/events', () => {
   it('lets the server close while a stream is open', async () => {
     const local = Fastify();
     const localHub = createEventHub();
-    await local.register(eventRoutes, { tokens: accessTokensFromEnv(process.env), hub: localHub });
+    await local.register(eventRoutes, { tokens: accessTokensFromEnv(tokenEnv), hub: localHub });
     const address = await local.listen({ host: '127.0.0.1', port: 0 });
     const response = await fetch(`${address}/v1/events`, { headers: { authorization: 'Bearer view-1' } });
     await until(() => localHub.subscribers === 1);

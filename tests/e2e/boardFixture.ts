@@ -27,6 +27,9 @@ import { incidentChanges } from '../../src/pipeline/incidentChanges.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
+/** The API's tokens, handed to the routes (never written into the process environment). */
+const tokenEnv: NodeJS.ProcessEnv = {};
+
 export const TOKENS = { viewer: 'board-viewer-token', responder: 'board-responder-token' };
 
 export interface BoardFixture {
@@ -96,12 +99,12 @@ export async function startBoardFixture(components: readonly [string, string][],
   const marksOf = (key: string) => marks.get(key) ?? new Map<string, SampleMark>();
   const store = new RedisIncidentStore(redis.client(), { rules: incidentRules(config), prefix: '{board-e2e}' });
   const hub = createEventHub();
-  process.env.WEARSHIFT_TOKEN_VIEWER = TOKENS.viewer;
-  process.env.WEARSHIFT_TOKEN_RESPONDER = TOKENS.responder;
+  tokenEnv.WEARSHIFT_TOKEN_VIEWER = TOKENS.viewer;
+  tokenEnv.WEARSHIFT_TOKEN_RESPONDER = TOKENS.responder;
 
   const app = Fastify();
-  await app.register(incidentRoutes, { tokens: accessTokensFromEnv(process.env), store: announcingActions(store, (e) => hub.publish(e)) });
-  await app.register(seriesRoutes, { tokens: accessTokensFromEnv(process.env),
+  await app.register(incidentRoutes, { tokens: accessTokensFromEnv(tokenEnv), store: announcingActions(store, (e) => hub.publish(e)) });
+  await app.register(seriesRoutes, { tokens: accessTokensFromEnv(tokenEnv),
     loadInput: async (unit, component) => {
       const list = samples.get(componentKey({ unit, component }));
       if (list === undefined) return undefined;
@@ -110,7 +113,7 @@ export async function startBoardFixture(components: readonly [string, string][],
     },
   });
   // As the worker does after a verdict: the mark is kept and the component judged again from the start.
-  await app.register(sampleVerdictRoutes, { tokens: accessTokensFromEnv(process.env),
+  await app.register(sampleVerdictRoutes, { tokens: accessTokensFromEnv(tokenEnv),
     verdicts: {
       async mark(ref, sampleId, mark) {
         const key = componentKey(ref);
@@ -125,8 +128,8 @@ export async function startBoardFixture(components: readonly [string, string][],
       },
     },
   });
-  await app.register(eventRoutes, { tokens: accessTokensFromEnv(process.env), hub });
-  await app.register(boardRoutes, { tokens: accessTokensFromEnv(process.env), ...(options.timeZone !== undefined && { timeZone: options.timeZone }) });
+  await app.register(eventRoutes, { tokens: accessTokensFromEnv(tokenEnv), hub });
+  await app.register(boardRoutes, { tokens: accessTokensFromEnv(tokenEnv), ...(options.timeZone !== undefined && { timeZone: options.timeZone }) });
   if (options.ackSecret !== undefined) {
     await app.register(ackLinkRoutes, {
       secrets: [options.ackSecret],

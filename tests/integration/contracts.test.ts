@@ -35,6 +35,9 @@ import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
+/** The API's tokens, handed to the routes (never written into the process environment). */
+const tokenEnv: NodeJS.ProcessEnv = {};
+
 type Json = Record<string, any>; // eslint-disable-line @typescript-eslint/no-explicit-any
 
 const openapi = openApiDocument() as Json;
@@ -90,14 +93,14 @@ function step(sampleId: string): Step {
 }
 
 beforeAll(async () => {
-  process.env.WEARSHIFT_TOKEN_INGEST = 'ingest-c';
-  process.env.WEARSHIFT_TOKEN_RESPONDER = 'resp-c';
-  process.env.WEARSHIFT_TOKEN_VIEWER = 'view-c';
+  tokenEnv.WEARSHIFT_TOKEN_INGEST = 'ingest-c';
+  tokenEnv.WEARSHIFT_TOKEN_RESPONDER = 'resp-c';
+  tokenEnv.WEARSHIFT_TOKEN_VIEWER = 'view-c';
   redis = await startRedisServer();
   const connection = redis.client();
   incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix: '{contracts}' });
   producer = createResultProducer({ connection, prefix: '{contracts}' });
-  app = await buildServer({ tokens: accessTokensFromEnv(process.env), logger: createLogger({ level: 'silent' }), metrics: createMetrics(), ping: () => connection.ping(), producer, incidents, openApi: openApiDocument() });
+  app = await buildServer({ tokens: accessTokensFromEnv(tokenEnv), logger: createLogger({ level: 'silent' }), metrics: createMetrics(), ping: () => connection.ping(), producer, incidents, openApi: openApiDocument() });
   base = await app.listen({ port: 0, host: '127.0.0.1' });
 }, 120_000);
 

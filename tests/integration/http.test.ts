@@ -12,6 +12,9 @@ import { connectRedis } from '../../src/redis/connection.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
+/** The API's tokens, handed to the routes (never written into the process environment). */
+const tokenEnv: NodeJS.ProcessEnv = {};
+
 const INGEST = 'ingest-token-5f2c9a';
 const VIEWER = 'viewer-token-81be07';
 const prefix = '{http}';
@@ -27,12 +30,12 @@ const good = (n: number) => ({ sampleId: `H-${n}`, unit: 'LS7-Quarry Road', comp
 
 beforeAll(async () => {
   server = await startRedisServer();
-  process.env.WEARSHIFT_TOKEN_INGEST = `unused-one, ${INGEST}`;
-  process.env.WEARSHIFT_TOKEN_VIEWER = VIEWER;
+  tokenEnv.WEARSHIFT_TOKEN_INGEST = `unused-one, ${INGEST}`;
+  tokenEnv.WEARSHIFT_TOKEN_VIEWER = VIEWER;
   pingRedis = connectRedis(server.url, 'request');
   producer = createResultProducer({ connection: server.url, prefix });
   results = openQueue(QUEUE_NAMES.results, server.client(), resolveQueueSettings({ prefix }));
-  app = await buildServer({ tokens: accessTokensFromEnv(process.env), logger: silentLogger(), metrics: createMetrics({ defaultMetrics: false }), ping: () => pingRedis.ping(), producer, bodyLimitBytes: 64 * 1024 });
+  app = await buildServer({ tokens: accessTokensFromEnv(tokenEnv), logger: silentLogger(), metrics: createMetrics({ defaultMetrics: false }), ping: () => pingRedis.ping(), producer, bodyLimitBytes: 64 * 1024 });
   base = await app.listen({ port: 0, host: '127.0.0.1' });
 });
 

@@ -10,6 +10,9 @@ import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncid
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
+/** The API's tokens, handed to the routes (never written into the process environment). */
+const tokenEnv: NodeJS.ProcessEnv = {};
+
 const NOW = new Date('2026-04-02T10:00:00Z');
 const ID = 'PS2-P3/gearbox@LAB-0100';
 const PATH = `/v1/incidents/${encodeURIComponent(ID)}`;
@@ -32,11 +35,11 @@ beforeAll(async () => {
     ],
   };
   await store.applySteps({ unit: 'PS2-P3', component: 'gearbox' }, [step], { group: 'gearboxes', now: NOW, quietBefore: new Date(0) });
-  process.env.WEARSHIFT_TOKEN_VIEWER = 'view-1, view-2';
-  process.env.WEARSHIFT_TOKEN_RESPONDER = 'resp-1';
-  process.env.WEARSHIFT_TOKEN_INGEST = 'ingest-1';
+  tokenEnv.WEARSHIFT_TOKEN_VIEWER = 'view-1, view-2';
+  tokenEnv.WEARSHIFT_TOKEN_RESPONDER = 'resp-1';
+  tokenEnv.WEARSHIFT_TOKEN_INGEST = 'ingest-1';
   app = Fastify();
-  await app.register(incidentRoutes, { tokens: accessTokensFromEnv(process.env), store, now: () => NOW });
+  await app.register(incidentRoutes, { tokens: accessTokensFromEnv(tokenEnv), store, now: () => NOW });
   await app.ready();
 });
 
@@ -112,7 +115,7 @@ describe('incident routes', () => {
 
   it('serves over a real listening port', async () => {
     const live = Fastify();
-    await live.register(incidentRoutes, { tokens: accessTokensFromEnv(process.env), store });
+    await live.register(incidentRoutes, { tokens: accessTokensFromEnv(tokenEnv), store });
     const address = await live.listen({ port: 0, host: '127.0.0.1' });
     try {
       const r = await fetch(`${address}${PATH}`, { headers: auth('view-1') });

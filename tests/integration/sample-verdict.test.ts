@@ -23,6 +23,9 @@ import { drained } from '../helpers/queueDrain.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
+/** The API's tokens, handed to the routes (never written into the process environment). */
+const tokenEnv: NodeJS.ProcessEnv = {};
+
 const RESPONDER = 'resp-verdict-51c2';
 const VIEWER = 'view-verdict-77aa';
 const config = parseConfig(`
@@ -55,8 +58,8 @@ function event(i: number, readings: Record<string, number | string>) {
 }
 
 beforeAll(async () => {
-  process.env.WEARSHIFT_TOKEN_RESPONDER = RESPONDER;
-  process.env.WEARSHIFT_TOKEN_VIEWER = VIEWER;
+  tokenEnv.WEARSHIFT_TOKEN_RESPONDER = RESPONDER;
+  tokenEnv.WEARSHIFT_TOKEN_VIEWER = VIEWER;
   redis = await startRedisServer();
   const client = redis.client();
   workers = startWorkers({ connection: client, config, logger: silentLogger() }, { prefix, backoffMs: 50 });
@@ -66,7 +69,7 @@ beforeAll(async () => {
   queues = [openQueue(QUEUE_NAMES.results, client, settings), ...evaluateQueues];
   producer = createResultProducer({ connection: client, prefix });
   store = new RedisStore(client, { prefix, config });
-  app = await buildServer({ tokens: accessTokensFromEnv(process.env),
+  app = await buildServer({ tokens: accessTokensFromEnv(tokenEnv),
     logger: silentLogger(),
     metrics: createMetrics({ defaultMetrics: false }),
     ping: () => client.ping(),

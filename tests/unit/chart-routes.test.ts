@@ -7,23 +7,26 @@ import { inputOf } from '../../src/render/componentInput.ts';
 import { fixtureGroup, fixtureSamples, fixtureSeries, fixtureSettings } from './chart-fixtures.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
+/** The API's tokens, handed to the routes (never written into the process environment). */
+const tokenEnv: NodeJS.ProcessEnv = {};
+
 const saved = { ...process.env };
 let app: FastifyInstance;
 const viewer = { authorization: 'Bearer view-1' };
 const base = '/v1/units/PS2-P3/components/gearbox';
 
 beforeAll(async () => {
-  process.env.WEARSHIFT_TOKEN_VIEWER = 'view-1';
-  process.env.WEARSHIFT_TOKEN_RESPONDER = 'resp-1';
-  process.env.WEARSHIFT_TOKEN_INGEST = 'ingest-1';
+  tokenEnv.WEARSHIFT_TOKEN_VIEWER = 'view-1';
+  tokenEnv.WEARSHIFT_TOKEN_RESPONDER = 'resp-1';
+  tokenEnv.WEARSHIFT_TOKEN_INGEST = 'ingest-1';
   app = Fastify();
-  await app.register(seriesRoutes, { tokens: accessTokensFromEnv(process.env),
+  await app.register(seriesRoutes, { tokens: accessTokensFromEnv(tokenEnv),
     loadInput: async (unit, component) =>
       unit === 'PS2-P3' && component === 'gearbox'
         ? inputOf({ unit, component, group: fixtureSettings().group, samples: fixtureSamples().length, lastSampledAt: '' }, fixtureSettings(), fixtureSamples(), () => fixtureGroup())
         : undefined,
   });
-  await app.register(boardRoutes, { tokens: accessTokensFromEnv(process.env) });
+  await app.register(boardRoutes, { tokens: accessTokensFromEnv(tokenEnv) });
   await app.ready();
 });
 
