@@ -15,6 +15,7 @@ import { claimedSampleId, validateResult, type ValidatedRecord } from '../../int
 import { closeQuietly, connectForCommand, redisTarget, type RedisTarget } from '../../redis/connection.ts';
 import { redisChoice, writeJsonLine } from '../output.ts';
 import { importLabFile } from './importLabFile.ts';
+import { enqueueBatch } from '../enqueueBatch.ts';
 import { terminalText } from '../terminalText.ts';
 import { confusableWarnings } from '../../intake/confusableNames.ts';
 
@@ -90,21 +91,8 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
   // Each record is validated once, here; the producer only enqueues (and refuses a revision conflict).
   let batch: ValidatedRecord[] = [];
   const flush = async () => {
-    if (producer === undefined || batch.length === 0) return;
-    let outcomes;
-    try {
-      outcomes = await producer.enqueue(batch);
-    } catch (e) {
-      throw new InputError(`Redis refused the results after ${counts.enqueued} were enqueued: ${(e as Error).message}. Import the file again once Redis is back: results already stored are recognised and kept once.`);
-    }
-    // The producer may still refuse a record (a correction without a higher revision): reported like any other.
-    for (const o of outcomes) {
-      if (o.status === 'accepted') counts.enqueued += 1;
-      else {
-        counts.accepted -= 1;
-        report(o.index, o.sampleId, o.errors ?? []);
-      }
-    }
+    if (producer === undefined) return;
+    await enqueueBatch(producer, batch, counts, report);
     batch = [];
   };
   try {

@@ -13,6 +13,7 @@ import { readLabFile } from '../../intake/labFiles/readLabFile.ts';
 import type { ResultProducer } from '../../queue/producer.ts';
 import { validateResult, type ValidatedRecord } from '../../intake/validate.ts';
 import { writeJsonLine } from '../output.ts';
+import { enqueueBatch } from '../enqueueBatch.ts';
 
 export interface LabImportOptions {
   readonly map: string;
@@ -55,20 +56,10 @@ export async function importLabFile(file: string, opts: LabImportOptions): Promi
     else for (const i of issues) say(`${describeLabIssue(i)}${sampleId === undefined ? '' : ` [sampleId ${sampleId}]`}`);
   };
   const flush = async () => {
-    if (producer === undefined || batch.length === 0) return;
-    let outcomes;
-    try {
-      outcomes = await producer.enqueue(batch);
-    } catch (e) {
-      throw new InputError(`Redis refused the results after ${counts.enqueued} were enqueued: ${(e as Error).message}. Import the file again once Redis is back: results already stored are recognised and kept once.`);
-    }
-    for (const o of outcomes) {
-      if (o.status === 'accepted') counts.enqueued += 1;
-      else {
-        counts.accepted -= 1;
-        reject(o.index, o.sampleId, (o.errors ?? []).map((e) => ({ row: o.index, ...(e.path !== '' && { field: e.path }), reason: e.reason })));
-      }
-    }
+    if (producer === undefined) return;
+    await enqueueBatch(producer, batch, counts, (row, sampleId, errors) =>
+      reject(row, sampleId, errors.map((e) => ({ row, ...(e.path !== '' && { field: e.path }), reason: e.reason }))),
+    );
     batch = [];
   };
   try {

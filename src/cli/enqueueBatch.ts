@@ -1,0 +1,36 @@
+/**
+ * Enqueues one batch of records an import already validated, for `import` and `import --map`: the producer only
+ * refuses a sampleId and revision already stored with other content, which is reported like any other rejection.
+ */
+import { InputError } from '../domain/errors.ts';
+import type { FieldIssue } from '../domain/event.ts';
+import type { ValidatedRecord } from '../intake/validate.ts';
+import type { ResultProducer } from '../queue/producer.ts';
+
+export interface ImportCounts {
+  accepted: number;
+  enqueued: number;
+}
+
+/** `refused` gets the record's line or row (its index), its sampleId and the reasons. */
+export async function enqueueBatch(
+  producer: ResultProducer,
+  batch: readonly ValidatedRecord[],
+  counts: ImportCounts,
+  refused: (index: number, sampleId: string | undefined, errors: readonly FieldIssue[]) => void,
+): Promise<void> {
+  if (batch.length === 0) return;
+  let outcomes;
+  try {
+    outcomes = await producer.enqueue(batch);
+  } catch (e) {
+    throw new InputError(`Redis refused the results after ${counts.enqueued} were enqueued: ${(e as Error).message}. Import the file again once Redis is back: results already stored are recognised and kept once.`);
+  }
+  for (const o of outcomes) {
+    if (o.status === 'accepted') counts.enqueued += 1;
+    else {
+      counts.accepted -= 1;
+      refused(o.index, o.sampleId, o.errors ?? []);
+    }
+  }
+}
