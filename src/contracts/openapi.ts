@@ -45,6 +45,7 @@ export function openApiDocument(): Json {
     { name: 'unit', in: 'path', required: true, schema: { type: 'string' } },
     { name: 'component', in: 'path', required: true, schema: { type: 'string' } },
   ];
+  const chartTitle = { name: 'title', in: 'query', required: false, description: '"none" leaves out the heading (the board\u2019s cards show their own); otherwise the chart has one.', schema: { type: 'string' } };
   const incidentId = { name: 'id', in: 'path', required: true, description: 'The incident id, percent-encoded (it contains "/").', schema: { type: 'string' } };
   const actions = Object.fromEntries(
     (Object.keys(INCIDENT_ACTION_BODIES) as (keyof typeof INCIDENT_ACTION_BODIES)[]).map((verb) => [
@@ -124,7 +125,7 @@ export function openApiDocument(): Json {
           summary: 'Chart data of a component.',
           tags: ['components'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
-          parameters: [...component, { name: 'measurands', in: 'query', required: false, description: 'Comma-separated measurands; default all.', schema: { type: 'string' } }],
+          parameters: [...component, { name: 'measurand', in: 'query', required: false, description: 'Comma-separated measurands (or the parameter repeated); default all.', schema: { type: 'string' } }],
           responses: { '200': { description: 'The series.', content: json('Series') }, '400': error('Unknown measurand.'), ...AUTH_ERRORS, '404': error('No such component.') },
         },
       },
@@ -150,7 +151,7 @@ export function openApiDocument(): Json {
           summary: 'Trend chart of one measurand as SVG.',
           tags: ['components'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
-          parameters: [...component, { name: 'measurand', in: 'query', required: true, schema: { type: 'string' } }, { name: 'width', in: 'query', required: false, schema: { type: 'integer' } }],
+          parameters: [...component, { name: 'measurand', in: 'query', required: true, schema: { type: 'string' } }, { name: 'width', in: 'query', required: false, schema: { type: 'integer' } }, chartTitle],
           responses: { '200': { description: 'The chart.', content: { 'image/svg+xml': { schema: { type: 'string' } } } }, '400': error('Missing or unknown measurand.'), ...AUTH_ERRORS, '404': error('No readings.') },
         },
       },
@@ -160,7 +161,7 @@ export function openApiDocument(): Json {
           summary: 'Trend chart of one measurand as PNG.',
           tags: ['components'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
-          parameters: [...component, { name: 'measurand', in: 'query', required: true, schema: { type: 'string' } }, { name: 'width', in: 'query', required: false, schema: { type: 'integer' } }],
+          parameters: [...component, { name: 'measurand', in: 'query', required: true, schema: { type: 'string' } }, { name: 'width', in: 'query', required: false, schema: { type: 'integer' } }, chartTitle],
           responses: { '200': { description: 'The chart.', content: { 'image/png': { schema: { type: 'string', contentEncoding: 'binary' } } } }, '400': error('Missing or unknown measurand.'), ...AUTH_ERRORS, '404': error('No readings.') },
         },
       },
