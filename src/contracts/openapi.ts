@@ -9,7 +9,7 @@ import { ResultEventSchema } from '../domain/event.ts';
 import { IncidentFilterSchema } from '../incidents/listFilter.ts';
 import { VerdictBodySchema } from '../http/sampleVerdictRoutes.ts';
 import { INCIDENT_ACTION_BODIES } from '../http/incidentRoutes.ts';
-import { ErrorBodySchema, HealthSchema, IncidentEnvelopeSchema, IncidentListSchema, ResultOutcomesSchema, SeriesSchema } from './responseSchemas.ts';
+import { ErrorBodySchema, HealthSchema, SessionSchema, IncidentEnvelopeSchema, IncidentListSchema, ResultOutcomesSchema, SeriesSchema } from './responseSchemas.ts';
 
 export const API_VERSION = '1';
 
@@ -174,6 +174,15 @@ export function openApiDocument(): Json {
           responses: { '200': { description: 'An event stream; each data line is a JSON live event.', content: { 'text/event-stream': { schema: { type: 'string' } } } }, ...AUTH_ERRORS },
         },
       },
+      '/v1/session': {
+        get: {
+          operationId: 'getSession',
+          summary: 'What a token may do: its roles, and the time zone times are shown in (the board signs in with it).',
+          tags: ['operations'],
+          security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }, { bearer: ['ingest'] }],
+          responses: { '200': { description: 'The roles of the token.', content: json('Session') }, '401': error('No or unknown bearer token.') },
+        },
+      },
       '/healthz': { get: { operationId: 'healthz', summary: 'The process is alive.', tags: ['operations'], security: [], responses: { '200': { description: 'Alive.', content: json('Health') } } } },
       '/readyz': {
         get: { operationId: 'readyz', summary: 'Redis answers.', tags: ['operations'], security: [], responses: { '200': { description: 'Ready.', content: json('Health') }, '503': { description: 'Redis does not answer.', content: json('Health') } } },
@@ -192,6 +201,7 @@ export function openApiDocument(): Json {
         IncidentEnvelope: schemaOf(IncidentEnvelopeSchema, 'output'),
         Series: schemaOf(SeriesSchema, 'output'),
         Health: schemaOf(HealthSchema, 'output'),
+        Session: schemaOf(SessionSchema, 'output'),
         Error: schemaOf(ErrorBodySchema, 'output'),
         VerdictBody: schemaOf(VerdictBodySchema, 'input'),
         ...Object.fromEntries(Object.entries(INCIDENT_ACTION_BODIES).map(([verb, s]) => [`${verb[0]!.toUpperCase()}${verb.slice(1)}Body`, schemaOf(s, 'input')])),

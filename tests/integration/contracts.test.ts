@@ -196,6 +196,17 @@ describe('real HTTP answers match the OpenAPI document', () => {
     expectValid(responseSchema('/v1/incidents/{id}', 'get', 404), await missing.json(), 'GET 404');
   });
 
+  it('session: the roles of a token, 401 without one', async () => {
+    const session = await fetch(`${base}/v1/session`, { headers: auth('resp-c') });
+    expect(session.status).toBe(200);
+    const body = (await session.json()) as { roles: string[] };
+    expect(body.roles).toEqual(['responder']);
+    expectValid(responseSchema('/v1/session', 'get', 200), body, 'GET /v1/session');
+    const none = await fetch(`${base}/v1/session`);
+    expect(none.status).toBe(401);
+    expectValid(responseSchema('/v1/session', 'get', 401), await none.json(), 'GET /v1/session 401');
+  });
+
   it('probes', async () => {
     const health = await fetch(`${base}/healthz`);
     expectValid(responseSchema('/healthz', 'get', 200), await health.json(), '/healthz');
