@@ -9,7 +9,7 @@ import { ResultEventSchema } from '../domain/event.ts';
 import { IncidentFilterSchema } from '../incidents/listFilter.ts';
 import { VerdictBodySchema } from '../http/sampleVerdictRoutes.ts';
 import { INCIDENT_ACTION_BODIES } from '../http/incidentRoutes.ts';
-import { ErrorBodySchema, HealthSchema, IncidentEnvelopeSchema, IncidentListSchema, ResultOutcomesSchema, SeriesSchema } from './responseSchemas.ts';
+import { ErrorBodySchema, HealthSchema, SessionSchema, IncidentEnvelopeSchema, IncidentListSchema, ResultOutcomesSchema, SeriesSchema } from './responseSchemas.ts';
 
 export const API_VERSION = '1';
 
@@ -45,6 +45,7 @@ export function openApiDocument(): Json {
     { name: 'unit', in: 'path', required: true, schema: { type: 'string' } },
     { name: 'component', in: 'path', required: true, schema: { type: 'string' } },
   ];
+  const chartTitle = { name: 'title', in: 'query', required: false, description: '"none" leaves out the heading (the board\u2019s cards show their own); otherwise the chart has one.', schema: { type: 'string' } };
   const incidentId = { name: 'id', in: 'path', required: true, description: 'The incident id, percent-encoded (it contains "/").', schema: { type: 'string' } };
   const actions = Object.fromEntries(
     (Object.keys(INCIDENT_ACTION_BODIES) as (keyof typeof INCIDENT_ACTION_BODIES)[]).map((verb) => [
@@ -124,7 +125,7 @@ export function openApiDocument(): Json {
           summary: 'Chart data of a component.',
           tags: ['components'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
-          parameters: [...component, { name: 'measurands', in: 'query', required: false, description: 'Comma-separated measurands; default all.', schema: { type: 'string' } }],
+          parameters: [...component, { name: 'measurand', in: 'query', required: false, description: 'Comma-separated measurands (or the parameter repeated); default all.', schema: { type: 'string' } }],
           responses: { '200': { description: 'The series.', content: json('Series') }, '400': error('Unknown measurand.'), ...AUTH_ERRORS, '404': error('No such component.') },
         },
       },
@@ -150,7 +151,7 @@ export function openApiDocument(): Json {
           summary: 'Trend chart of one measurand as SVG.',
           tags: ['components'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
-          parameters: [...component, { name: 'measurand', in: 'query', required: true, schema: { type: 'string' } }, { name: 'width', in: 'query', required: false, schema: { type: 'integer' } }],
+          parameters: [...component, { name: 'measurand', in: 'query', required: true, schema: { type: 'string' } }, { name: 'width', in: 'query', required: false, schema: { type: 'integer' } }, chartTitle],
           responses: { '200': { description: 'The chart.', content: { 'image/svg+xml': { schema: { type: 'string' } } } }, '400': error('Missing or unknown measurand.'), ...AUTH_ERRORS, '404': error('No readings.') },
         },
       },
@@ -160,7 +161,7 @@ export function openApiDocument(): Json {
           summary: 'Trend chart of one measurand as PNG.',
           tags: ['components'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
-          parameters: [...component, { name: 'measurand', in: 'query', required: true, schema: { type: 'string' } }, { name: 'width', in: 'query', required: false, schema: { type: 'integer' } }],
+          parameters: [...component, { name: 'measurand', in: 'query', required: true, schema: { type: 'string' } }, { name: 'width', in: 'query', required: false, schema: { type: 'integer' } }, chartTitle],
           responses: { '200': { description: 'The chart.', content: { 'image/png': { schema: { type: 'string', contentEncoding: 'binary' } } } }, '400': error('Missing or unknown measurand.'), ...AUTH_ERRORS, '404': error('No readings.') },
         },
       },
@@ -171,6 +172,15 @@ export function openApiDocument(): Json {
           tags: ['incidents'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
           responses: { '200': { description: 'An event stream; each data line is a JSON live event.', content: { 'text/event-stream': { schema: { type: 'string' } } } }, ...AUTH_ERRORS },
+        },
+      },
+      '/v1/session': {
+        get: {
+          operationId: 'getSession',
+          summary: 'What a token may do: its roles, and the time zone times are shown in (the board signs in with it).',
+          tags: ['operations'],
+          security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }, { bearer: ['ingest'] }],
+          responses: { '200': { description: 'The roles of the token.', content: json('Session') }, '401': error('No or unknown bearer token.') },
         },
       },
       '/healthz': { get: { operationId: 'healthz', summary: 'The process is alive.', tags: ['operations'], security: [], responses: { '200': { description: 'Alive.', content: json('Health') } } } },
@@ -191,6 +201,7 @@ export function openApiDocument(): Json {
         IncidentEnvelope: schemaOf(IncidentEnvelopeSchema, 'output'),
         Series: schemaOf(SeriesSchema, 'output'),
         Health: schemaOf(HealthSchema, 'output'),
+        Session: schemaOf(SessionSchema, 'output'),
         Error: schemaOf(ErrorBodySchema, 'output'),
         VerdictBody: schemaOf(VerdictBodySchema, 'input'),
         ...Object.fromEntries(Object.entries(INCIDENT_ACTION_BODIES).map(([verb, s]) => [`${verb[0]!.toUpperCase()}${verb.slice(1)}Body`, schemaOf(s, 'input')])),

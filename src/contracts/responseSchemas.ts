@@ -6,6 +6,7 @@
  */
 import { z } from 'zod';
 import { SEVERITIES } from '../domain/finding.ts';
+import { ROLES } from '../http/auth.ts';
 
 const isoTime = z.string().describe('RFC 3339 date-time.');
 
@@ -79,6 +80,10 @@ export const IncidentSchema = IncidentSummarySchema.extend({
 
 export const IncidentListSchema = z.object({ incidents: z.array(IncidentSummarySchema) }).strict();
 export const IncidentEnvelopeSchema = z.object({ incident: IncidentSchema }).strict();
+
+export const SessionSchema = z
+  .object({ roles: z.array(z.enum(ROLES)).describe('The roles the token holds.'), timeZone: z.string().describe('display.timeZone: the zone times are shown in for people.') })
+  .strict();
 
 export const HealthSchema = z.object({ status: z.enum(['ok', 'ready', 'unavailable']), redis: z.string().optional() }).strict();
 

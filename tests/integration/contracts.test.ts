@@ -7,6 +7,10 @@
  * against the schemas the documents give for them.
  */
 import { randomBytes } from 'node:crypto';
+import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import Fastify from 'fastify';
 import { createServer, type IncomingHttpHeaders, type Server } from 'node:http';
 import { createServer as createTcpServer, type AddressInfo } from 'node:net';
 import asyncApiSpecs from '@asyncapi/specs';
@@ -34,6 +38,10 @@ import { createLogger } from '../../src/telemetry/logger.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
+import { seriesRoutes } from '../../src/http/seriesRoutes.ts';
+import { inputOf } from '../../src/render/componentInput.ts';
+import { fixtureGroup, fixtureSamples, fixtureSettings } from '../unit/chart-fixtures.ts';
+import { runCli } from '../helpers/cli.ts';
 
 /** The API's tokens, handed to the routes (never written into the process environment). */
 const tokenEnv: NodeJS.ProcessEnv = {};
@@ -131,6 +139,17 @@ describe('the documents', () => {
     broken.operations.sendWebhook.action = 'broadcast';
     expect(validate(broken)).toBe(false);
   });
+  it('wearshift schema writes both documents as the code generates them', async () => {
+    const out = mkdtempSync(join(tmpdir(), 'wearshift-schema-'));
+    try {
+      const r = await runCli(['schema', '--out', out]);
+      expect(r.code).toBe(0);
+      expect(JSON.parse(readFileSync(join(out, 'openapi.json'), 'utf8'))).toEqual(JSON.parse(JSON.stringify(openapi)));
+      expect(JSON.parse(readFileSync(join(out, 'asyncapi.json'), 'utf8'))).toEqual(JSON.parse(JSON.stringify(asyncapi)));
+    } finally {
+      rmSync(out, { recursive: true, force: true });
+    }
+  });
 });
 
 describe('real HTTP answers match the OpenAPI document', () => {
@@ -177,12 +196,57 @@ describe('real HTTP answers match the OpenAPI document', () => {
     expectValid(responseSchema('/v1/incidents/{id}', 'get', 404), await missing.json(), 'GET 404');
   });
 
+  it('session: the roles of a token, 401 without one', async () => {
+    const session = await fetch(`${base}/v1/session`, { headers: auth('resp-c') });
+    expect(session.status).toBe(200);
+    const body = (await session.json()) as { roles: string[] };
+    expect(body.roles).toEqual(['responder']);
+    expectValid(responseSchema('/v1/session', 'get', 200), body, 'GET /v1/session');
+    const none = await fetch(`${base}/v1/session`);
+    expect(none.status).toBe(401);
+    expectValid(responseSchema('/v1/session', 'get', 401), await none.json(), 'GET /v1/session 401');
+  });
+
   it('probes', async () => {
     const health = await fetch(`${base}/healthz`);
     expectValid(responseSchema('/healthz', 'get', 200), await health.json(), '/healthz');
     const ready = await fetch(`${base}/readyz`);
     expect(ready.status).toBe(200);
     expectValid(responseSchema('/readyz', 'get', 200), await ready.json(), '/readyz');
+  });
+
+  it('component series and charts: the answer matches the Series schema, and the query parameters the document names are the ones the routes read', async () => {
+    const series = Fastify();
+    await series.register(seriesRoutes, {
+      tokens: accessTokensFromEnv(tokenEnv),
+      loadInput: async (unit, component) =>
+        unit === 'PS2-P3' && component === 'gearbox' ? inputOf({ unit, component, group: fixtureSettings().group, samples: fixtureSamples().length, lastSampledAt: '' }, fixtureSettings(), fixtureSamples(), () => fixtureGroup()) : undefined,
+    });
+    await series.ready();
+    try {
+      const path = '/v1/units/{unit}/components/{component}/series';
+      const query = (p: string) => (openapi.paths[p].get.parameters as { name: string; in: string }[]).filter((x) => x.in === 'query').map((x) => x.name);
+      const url = (p: string, q: string) => `${p.replace('{unit}', 'PS2-P3').replace('{component}', 'gearbox')}?${q}`;
+      const [filter] = query(path);
+      const one = await series.inject({ method: 'GET', url: url(path, `${filter}=Si`), headers: { authorization: 'Bearer view-c' } });
+      expect(one.statusCode).toBe(200);
+      expectValid(responseSchema(path, 'get', 200), one.json(), 'GET series');
+      // The documented parameter takes effect: only the measurand asked for comes back.
+      expect(one.json().measurands.map((m: { measurand: string }) => m.measurand)).toEqual(['Si']);
+      const unknown = await series.inject({ method: 'GET', url: url(path, `${filter}=Xx`), headers: { authorization: 'Bearer view-c' } });
+      expect(unknown.statusCode).toBe(400);
+      expectValid(responseSchema(path, 'get', 400), unknown.json(), 'GET series 400');
+      for (const chart of ['/v1/units/{unit}/components/{component}/chart.svg', '/v1/units/{unit}/components/{component}/chart.png']) {
+        const names = query(chart);
+        expect(names).toContain('measurand');
+        const res = await series.inject({ method: 'GET', url: url(chart, 'measurand=Fe&width=640&title=none'), headers: { authorization: 'Bearer view-c' } });
+        expect(res.statusCode).toBe(200);
+        // Every parameter the route reads is documented.
+        expect(names.sort()).toEqual(['measurand', 'title', 'width']);
+      }
+    } finally {
+      await series.close();
+    }
   });
 
   it('the schemas are strict enough to fail: an outcome with an unknown status is refused', () => {

@@ -8,8 +8,10 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import {
   AttributeIds,
+  BrowseDirection,
   ClientMonitoredItem,
   ClientSubscription,
+  DataType,
   MessageSecurityMode,
   OPCUACertificateManager,
   OPCUAClient,
@@ -29,12 +31,13 @@ import { ConfigSchema } from '../../src/domain/config.ts';
 import { OpcuaConfigSchema } from '../../src/domain/opcuaConfig.ts';
 import { announcingActions, createEventHub } from '../../src/http/eventHub.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
-import { incidentEvent } from '../../src/pipeline/liveEvent.ts';
+import { incidentEvent, type LiveEvent } from '../../src/pipeline/liveEvent.ts';
 import { OpcuaAlarmServer } from '../../src/opcua/alarmServer.ts';
 import { ONE_SHOT_REASON } from '../../src/opcua/conditionView.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { bridgeLiveEvents, livePublisher } from '../../src/runtime/liveBridge.ts';
 import { createLogger } from '../../src/telemetry/logger.ts';
+import { waitFor } from '../helpers/processes.ts';
 import { freePort, startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const PREFIX = '{opcua}';
@@ -48,6 +51,7 @@ let opcua: OpcuaAlarmServer;
 let dir: string;
 let endpoint: string;
 let announce: ReturnType<typeof livePublisher>;
+let hub: ReturnType<typeof createEventHub>;
 const env = { WS_OPCUA_OPERATOR: 'op-secret-1', WS_OPCUA_WATCHER: 'watch-secret-1' };
 
 function step(sampleId: string, sampledAt: string, severity: 'caution' | 'alarm' | null, unit = 'PS2-P3'): Step {
@@ -68,7 +72,7 @@ async function judge(steps: Step[], now: Date, unit = 'PS2-P3'): Promise<void> {
   for (const change of incidentChanges(r.before, r.state)) announce(incidentEvent(change));
 }
 
-async function connect(user?: { userName: string; password: string }, security: { mode: MessageSecurityMode; policy: SecurityPolicy; pki?: string } = { mode: MessageSecurityMode.None, policy: SecurityPolicy.None }) {
+async function connect(user?: { userName: string; password: string }, security: { mode: MessageSecurityMode; policy: SecurityPolicy; pki?: string } = { mode: MessageSecurityMode.None, policy: SecurityPolicy.None }, url = endpoint) {
   const client = OPCUAClient.create({
     endpointMustExist: false,
     securityMode: security.mode,
@@ -77,7 +81,7 @@ async function connect(user?: { userName: string; password: string }, security: 
     requestedSessionTimeout: 120_000,
     ...(security.pki !== undefined && { clientCertificateManager: new OPCUACertificateManager({ rootFolder: security.pki, automaticallyAcceptUnknownCertificate: true }) }),
   });
-  await client.connect(endpoint);
+  await client.connect(url);
   const session = await client.createSession(user === undefined ? { type: UserTokenType.Anonymous } : { type: UserTokenType.UserName, ...user });
   return { client, session, close: async () => (await session.close(), await client.disconnect()) };
 }
@@ -114,12 +118,37 @@ async function events(session: ClientSession) {
 }
 
 const ofIncident = (id: string) => (f: Fields) => f['1:IncidentId'] === id;
+const shelvingStateOf = (f: Fields) => (f['ShelvingState.CurrentState'] as { text?: string } | undefined)?.text;
+
+/** The next live event (the board's feed: GET /v1/events and the board pages) that matches. */
+function nextLive(pred: (e: LiveEvent) => boolean): Promise<LiveEvent> {
+  return new Promise((resolve, reject) => {
+    const timer = setTimeout(() => (stop(), reject(new Error('no matching live event'))), 120_000);
+    const stop = hub.subscribe((e) => {
+      if (!pred(e)) return;
+      clearTimeout(timer);
+      stop();
+      resolve(e);
+    });
+  });
+}
+
+/** The browse names below a node (every forward reference). */
+async function children(session: ClientSession, nodeId: string): Promise<string[]> {
+  const result = await session.browse({ nodeId, browseDirection: BrowseDirection.Forward, includeSubtypes: true, resultMask: 63 });
+  return (result.references ?? []).map((r) => String(r.browseName.name));
+}
+
+async function shelvingStateNode(session: ClientSession, conditionId: NodeId): Promise<NodeId> {
+  const refs = await session.browse({ nodeId: conditionId, browseDirection: BrowseDirection.Forward, resultMask: 63 });
+  return refs.references!.find((r) => r.browseName.name === 'ShelvingState')!.nodeId;
+}
 
 beforeAll(async () => {
   dir = mkdtempSync(join(tmpdir(), 'wearshift-opcua-'));
   redis = await startRedisServer();
   store = new RedisIncidents(redis.client(), { rules: incidentRules(ConfigSchema.parse({})), prefix: PREFIX });
-  const hub = createEventHub();
+  hub = createEventHub();
   await bridgeLiveEvents(redis.client(), PREFIX, hub, logger);
   announce = livePublisher(redis.client(), PREFIX, logger);
   const port = await freePort();
@@ -157,8 +186,11 @@ describe('OPC UA alarms and conditions', () => {
     expect((raised.Message as { text: string }).text).toContain('wearshift advises');
     expect(String(raised.SourceName)).toContain('gearbox');
 
+    // The board follows the live feed: the acknowledgement made in the control room reaches it as any other does.
+    const onBoard = nextLive((e) => e.type === 'incident' && e.incidentId === ID && e.change === 'acknowledged');
     const status = await session.acknowledgeCondition(raised.ConditionId as NodeId, raised.EventId as Buffer, 'seen from the DCS');
     expect(status).toEqual(StatusCodes.Good);
+    expect(await onBoard).toMatchObject({ unit: 'PS2-P3', component: 'gearbox' });
     const stored = await store.get(ID);
     expect(stored?.acknowledged).toMatchObject({ by: 'operator (OPC UA)', note: 'seen from the DCS' });
     expect(stored?.timeline.at(-1)).toMatchObject({ kind: 'acknowledged', by: 'operator (OPC UA)' });
@@ -180,6 +212,45 @@ describe('OPC UA alarms and conditions', () => {
     await close();
     await expect(connect()).rejects.toThrow();
     await expect(connect({ userName: 'operator', password: 'wrong' })).rejects.toThrow();
+  }, 240_000);
+
+  it('with opcua.anonymous: viewer an anonymous session browses and subscribes but may not act', async () => {
+    const viewerServer = new OpcuaAlarmServer({
+      config: OpcuaConfigSchema.parse({ port: await freePort(), host: '127.0.0.1', securityModes: ['None'], pkiDir: join(dir, 'anonymous-pki'), anonymous: 'viewer', refreshSeconds: 3600 }),
+      store: announcingActions(store, announce),
+      subscribe: (l) => hub.subscribe((e) => l(e)),
+      logger,
+      env,
+    });
+    const url = await viewerServer.start();
+    try {
+      const { session, close } = await connect(undefined, undefined, url);
+      const feed = await events(session);
+      expect(await callConditionRefresh(session, feed.subscription.subscriptionId)).toEqual(StatusCodes.Good);
+      const shown = await feed.next(ofIncident(ID));
+      expect(shown.Retain).toBe(true);
+      const before = (await store.get(ID))!.timeline.length;
+      expect(await session.addCommentCondition(shown.ConditionId as NodeId, shown.EventId as Buffer, 'anonymous note')).toEqual(StatusCodes.BadUserAccessDenied);
+      expect(await session.acknowledgeCondition(shown.ConditionId as NodeId, shown.EventId as Buffer, 'anonymous ack')).toEqual(StatusCodes.BadUserAccessDenied);
+      expect((await store.get(ID))!.timeline).toHaveLength(before);
+      await close();
+    } finally {
+      await viewerServer.stop();
+    }
+  }, 240_000);
+
+  it('each unit and component is an object under Objects/Wearshift: a component appears with its first result; its open incidents are conditions below it', async () => {
+    const { session, close } = await connect({ userName: 'watcher', password: env.WS_OPCUA_WATCHER });
+    announce({ type: 'result', unit: 'PS6-P2', component: 'main bearing', sampleId: 'LAB-0300', sampledAt: '2026-04-01T08:00:00Z' });
+    await waitFor('unit PS6-P2 under Objects/Wearshift', async () => (await children(session, 'ns=1;s=Wearshift')).includes('PS6-P2'), 120_000);
+    expect(await children(session, 'ns=1;s=Wearshift')).toContain('PS2-P3');
+    expect(await children(session, 'ns=1;s=unit:PS6-P2')).toContain('main bearing');
+    expect(await children(session, 'ns=1;s=unit:PS2-P3')).toContain('gearbox');
+    expect(await children(session, 'ns=1;s=component:PS2-P3/gearbox')).toContain(ID);
+    const count = (key: string) => session.read({ nodeId: `ns=1;s=component:${key}/OpenIncidents`, attributeId: AttributeIds.Value });
+    expect((await count('PS2-P3/gearbox')).value.value).toBe(1);
+    expect((await count('PS6-P2/main bearing')).value.value).toBe(0);
+    await close();
   }, 240_000);
 
   it('a shelving made through the API shows at once; the client unshelves and shelves one-shot; ConditionRefresh after a reconnect shows the state', async () => {
@@ -235,6 +306,26 @@ describe('OPC UA alarms and conditions', () => {
     expect((await store.get(id))?.closed).toMatchObject({ how: 'resolved', by: 'operator (OPC UA)', note: 'bearing replaced' });
     const closed = await feed.next((f) => ofIncident(id)(f) && f['ConfirmedState.Id'] === true);
     expect(closed.Retain).toBe(false);
+    await close();
+  }, 240_000);
+
+  it('TimedShelve from the client shelves for the given time; longer than opcua.maxShelveHours is refused', async () => {
+    const { session, close } = await connect({ userName: 'operator', password: env.WS_OPCUA_OPERATOR });
+    const feed = await events(session);
+    const id = 'PS2-P5/gearbox@LAB-0400';
+    await judge([step('LAB-0400', '2026-05-02T08:00:00Z', 'alarm', 'PS2-P5')], new Date(), 'PS2-P5');
+    const raised = await feed.next((f) => ofIncident(id)(f) && f['ActiveState.Id'] === true);
+    const shelvingId = await shelvingStateNode(session, raised.ConditionId as NodeId);
+    const timedShelve = (ms: number) => session.call({ objectId: shelvingId, methodId: 'i=2949' /* ShelvedStateMachineType.TimedShelve */, inputArguments: [{ dataType: DataType.Double, value: ms }] as never });
+    // The default opcua.maxShelveHours is 168.
+    expect((await timedShelve(169 * 3_600_000)).statusCode).toEqual(StatusCodes.BadShelvingTimeOutOfRange);
+    expect((await store.get(id))?.shelved).toBeNull();
+    expect((await timedShelve(2 * 3_600_000)).statusCode).toEqual(StatusCodes.Good);
+    const shelved = (await store.get(id))?.shelved;
+    expect(shelved).toMatchObject({ by: 'operator (OPC UA)', reason: 'timed shelving from OPC UA for 2 h' });
+    expect(Date.parse(shelved!.until) - Date.parse(shelved!.at)).toBe(2 * 3_600_000);
+    await feed.next((f) => ofIncident(id)(f) && shelvingStateOf(f) === 'TimedShelved');
+    expect((await timedShelve(3_600_000)).statusCode).toEqual(StatusCodes.BadConditionAlreadyShelved);
     await close();
   }, 240_000);
 

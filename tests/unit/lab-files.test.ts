@@ -4,16 +4,19 @@
  * cells and from definitions outside the project, never copied from the reader's output.
  */
 import { readFileSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { Readable } from 'node:stream';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { parse } from 'csv-parse/sync';
 import ExcelJS from 'exceljs';
+import JSZip from 'jszip';
 import { afterAll, describe, expect, it } from 'vitest';
 import { InputError } from '../../src/domain/errors.ts';
 import { buildGearboxWorkbook } from '../../demo/labs/buildGearboxWorkbook.ts';
 import type { LabRecord } from '../../src/intake/labFiles/labRecordReader.ts';
 import { loadLabMapping, parseLabMapping } from '../../src/intake/labFiles/loadMapping.ts';
 import { readLabFile } from '../../src/intake/labFiles/readLabFile.ts';
+import { xlsxRows } from '../../src/intake/labFiles/rowSources.ts';
 import { conversionFor } from '../../src/intake/labFiles/units.ts';
 import { validateResult } from '../../src/intake/validate.ts';
 
@@ -62,6 +65,7 @@ describe('demo engine lab: wide CSV, semicolons, decimal commas, local dates, ch
       expect(r.event.unit).toBe(row.Engine);
       expect(r.event.component).toBe('engine');
       expect(r.event.oilHours).toBe(Number(row['Hours on oil']));
+      expect(r.event.unitHours).toBe(Number(row['Engine hours']));
       const readings = r.event.readings as Record<string, number>;
       expect(readings.Fe).toBe(num(row['Fe (ppm)']!));
       expect(readings.tbn).toBe(num(row.TBN!));
@@ -162,6 +166,43 @@ describe('demo gearbox lab: long layout in an Excel workbook', () => {
     expect(events[0]!.sample.readings.Si).toEqual({ kind: 'censored', bound: 'below', limit: 1 });
     expect(events[0]!.event.sampledAt).toBe('2026-01-10T09:30:00.000Z');
     expect(events[0]!.event.oilChanged).toBe(true);
+  });
+
+  it('reads a workbook as a stream: with the shared strings ahead of the sheet in the zip, the first rows come out long before the end of the file', async () => {
+    const written = join(dir, 'long-written.xlsx');
+    const writer = new ExcelJS.stream.xlsx.WorkbookWriter({ filename: written, useSharedStrings: true });
+    const sheet = writer.addWorksheet('Results');
+    sheet.addRow(['Lab ref', 'Asset', 'Test', 'Result']).commit();
+    for (let i = 0; i < 40_000; i += 1) sheet.addRow([`GB-${i % 50}`, `PS${i % 97}`, 'Iron', ((i * 7919) % 1000) / 10]).commit();
+    sheet.commit();
+    await writer.commit();
+    // The writer puts the sheet first, so the reader has to spool it to a temporary file before it knows the shared
+    // strings; the same entries with the workbook and shared strings first can be read row by row as they arrive.
+    const original = await JSZip.loadAsync(readFileSync(written));
+    const names = Object.keys(original.files).filter((n) => !original.files[n]!.dir);
+    const order = ['[Content_Types].xml', '_rels/.rels', 'xl/workbook.xml', 'xl/_rels/workbook.xml.rels', 'xl/sharedStrings.xml', 'xl/styles.xml'];
+    const reordered = new JSZip();
+    for (const name of [...order.filter((n) => names.includes(n)), ...names.filter((n) => !order.includes(n))]) reordered.file(name, await original.files[name]!.async('nodebuffer'));
+    const bytes = await reordered.generateAsync({ type: 'nodebuffer', compression: 'DEFLATE' });
+    // The file is handed over 4 KB at a time, only when the reader asks for more.
+    let offered = 0;
+    const input = new Readable({
+      highWaterMark: 4096,
+      read() {
+        const chunk = bytes.subarray(offered, offered + 4096);
+        offered += chunk.length;
+        this.push(chunk.length > 0 ? chunk : null);
+      },
+    });
+    let offeredAtRow2: number | undefined;
+    let rows = 0;
+    for await (const r of xlsxRows(input, 'Results')) {
+      expect(r).not.toHaveProperty('error');
+      rows += 1;
+      if (rows === 2) offeredAtRow2 = offered;
+    }
+    expect(rows).toBe(40_001);
+    expect(offeredAtRow2).toBeLessThan(bytes.length / 4);
   });
 
   it('reports a unit that does not convert, an unparseable date and a charge number going backwards in a workbook', async () => {

@@ -4,7 +4,6 @@
  * reason; the exit code is 1 when any line was rejected. `--dry-run` only validates (no Redis needed).
  */
 import { statSync } from 'node:fs';
-import { MultiBar, Presets } from 'cli-progress';
 import type { Command } from 'commander';
 import { loadConfig } from '../../runtime/loadConfig.ts';
 import { InputError } from '../../domain/errors.ts';
@@ -16,6 +15,7 @@ import { closeQuietly, connectForCommand, redisTarget, type RedisTarget } from '
 import { redisChoice, writeJsonLine } from '../output.ts';
 import { importLabFile } from './importLabFile.ts';
 import { enqueueBatch } from '../enqueueBatch.ts';
+import { importProgress } from '../importProgress.ts';
 import { terminalText } from '../terminalText.ts';
 import { confusableWarnings } from '../../intake/confusableNames.ts';
 
@@ -75,8 +75,7 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
   if (redis !== undefined && !opts.json) process.stderr.write(`wearshift: ${redis}\n`);
   const producer = opts.dryRun ? undefined : await connectProducer(redisTarget(config), config.redis.prefix, config.redis.partitions);
   const { records, stream } = readRecordFile(file, format);
-  const bar = process.stderr.isTTY && !opts.json ? new MultiBar({ format: ' {bar} {percentage}% | {value}/{total} bytes | {accepted} accepted, {rejected} rejected', hideCursor: true, stream: process.stderr }, Presets.shades_classic) : undefined;
-  const progress = bar?.create(size, 0, { accepted: 0, rejected: 0 });
+  const bar = importProgress(size, opts.json);
   const counts = { lines: 0, accepted: 0, rejected: 0, enqueued: 0, noOilChanged: 0 };
   const report = (line: number, sampleId: string | undefined, issues: readonly FieldIssue[]) => {
     counts.rejected += 1;
@@ -84,7 +83,7 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
     for (const i of issues) {
       // Values from the file are echoed in reasons: shown with their control characters escaped, never acted on.
       const text = terminalText(`line ${line}${sampleId === undefined ? '' : ` (sampleId ${sampleId})`}: ${i.path || '(record)'}: ${i.reason}`);
-      if (bar) bar.log(`${text}\n`);
+      if (bar) bar.log(text);
       else process.stderr.write(`${text}\n`);
     }
   };
@@ -105,7 +104,11 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
           counts.accepted += 1;
           for (const w of confusableWarnings(parsed.sample)) {
             if (opts.json) writeJsonLine({ type: 'warning', line: r.line, sampleId: parsed.sample.sampleId, warning: w });
-            else process.stderr.write(terminalText(`line ${r.line} (sampleId ${parsed.sample.sampleId}): warning: ${w.path}: ${w.reason}\n`));
+            else {
+              const text = terminalText(`line ${r.line} (sampleId ${parsed.sample.sampleId}): warning: ${w.path}: ${w.reason}`);
+              if (bar) bar.log(text);
+              else process.stderr.write(`${text}\n`);
+            }
           }
           // Said in the summary, not guessed silently: a record without oilChanged is taken as "no oil change".
           if (typeof r.record === 'object' && r.record !== null && !('oilChanged' in r.record)) counts.noOilChanged += 1;
@@ -114,12 +117,11 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
           if (batch.length >= batchSize) await flush();
         } else report(r.line, claimedSampleId(r.record), parsed.issues);
       }
-      progress?.update(stream.bytesRead, { accepted: counts.accepted, rejected: counts.rejected });
+      bar?.update(stream.bytesRead, counts);
     }
     await flush();
   } finally {
-    progress?.update(size, { accepted: counts.accepted, rejected: counts.rejected });
-    bar?.stop();
+    bar?.stop(size, counts);
     await producer?.close();
   }
   const summary = {

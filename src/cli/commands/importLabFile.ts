@@ -1,11 +1,11 @@
 /**
  * `wearshift import --map lab.yaml FILE`: a lab's own CSV or .xlsx export read through a mapping file,
  * streamed, with the same per-record report, progress bar and exit codes as a plain import. Errors name the
- * row, the column and the reason. `--dry-run` prints the first mapped events so that the mapping can be
+ * row, the column and the reason; cell text echoed to the terminal is shown with its control characters escaped,
+ * as in a plain import. `--dry-run` prints the first mapped events so that the mapping can be
  * checked before anything is enqueued.
  */
 import { statSync } from 'node:fs';
-import { MultiBar, Presets } from 'cli-progress';
 import { InputError } from '../../domain/errors.ts';
 import { loadLabMapping } from '../../intake/labFiles/loadMapping.ts';
 import type { LabIssue } from '../../intake/labFiles/labRecordReader.ts';
@@ -14,6 +14,9 @@ import type { ResultProducer } from '../../queue/producer.ts';
 import { validateResult, type ValidatedRecord } from '../../intake/validate.ts';
 import { writeJsonLine } from '../output.ts';
 import { enqueueBatch } from '../enqueueBatch.ts';
+import { importProgress } from '../importProgress.ts';
+import { terminalText } from '../terminalText.ts';
+import { confusableWarnings } from '../../intake/confusableNames.ts';
 
 export interface LabImportOptions {
   readonly map: string;
@@ -43,10 +46,10 @@ export async function importLabFile(file: string, opts: LabImportOptions): Promi
   }
   const { records, stream } = readLabFile(file, mapping, { ...(opts.format !== undefined && { format: opts.format }), validate: (e) => validateResult(e, { now: opts.now }) });
   const producer = opts.dryRun ? undefined : await opts.connect();
-  const bar = process.stderr.isTTY && !opts.json ? new MultiBar({ format: ' {bar} {percentage}% | {value}/{total} bytes | {accepted} accepted, {rejected} rejected', hideCursor: true, stream: process.stderr }, Presets.shades_classic) : undefined;
-  const progress = bar?.create(size, 0, { accepted: 0, rejected: 0 });
+  const bar = importProgress(size, opts.json);
   const counts = { records: 0, accepted: 0, rejected: 0, enqueued: 0, shown: 0 };
-  const say = (text: string) => (bar ? bar.log(`${text}\n`) : process.stderr.write(`${text}\n`));
+  // Cells from the lab's file are echoed in reasons: shown with their control characters escaped, never acted on.
+  const say = (text: string) => (bar ? bar.log(terminalText(text)) : process.stderr.write(`${terminalText(text)}\n`));
   // Each sample is validated once, by the reader (so that an error names its row and column); the producer only
   // enqueues, and refuses a sampleId and revision already stored with other content.
   let batch: ValidatedRecord[] = [];
@@ -68,23 +71,26 @@ export async function importLabFile(file: string, opts: LabImportOptions): Promi
       if (r.status === 'rejected') reject(r.row, r.sampleId, r.issues);
       else {
         counts.accepted += 1;
+        for (const w of confusableWarnings(r.sample)) {
+          if (opts.json) writeJsonLine({ type: 'warning', row: r.row, sampleId: r.sample.sampleId, warning: w });
+          else say(`row ${r.row} (sampleId ${r.sample.sampleId}): warning: ${w.path}: ${w.reason}`);
+        }
         if (opts.dryRun && counts.shown < opts.show) {
           counts.shown += 1;
           if (opts.json) writeJsonLine({ type: 'mapped', row: r.row, event: r.event });
-          else process.stdout.write(`row ${r.row} → ${JSON.stringify(r.event)}\n`);
+          else process.stdout.write(terminalText(`row ${r.row} → ${JSON.stringify(r.event)}\n`));
         }
         if (producer !== undefined) {
           batch.push({ index: r.row, event: r.event, sample: r.sample });
           if (batch.length >= opts.batchSize) await flush();
         }
       }
-      progress?.update(stream.bytesRead, { accepted: counts.accepted, rejected: counts.rejected });
+      bar?.update(stream.bytesRead, counts);
     }
     await flush();
   } finally {
     stream.destroy();
-    progress?.update(size, { accepted: counts.accepted, rejected: counts.rejected });
-    bar?.stop();
+    bar?.stop(size, counts);
     await producer?.close();
   }
   const summary = { type: 'summary', file, map: opts.map, records: counts.records, accepted: counts.accepted, rejected: counts.rejected, enqueued: counts.enqueued, dryRun: Boolean(opts.dryRun) };
@@ -92,8 +98,8 @@ export async function importLabFile(file: string, opts: LabImportOptions): Promi
   else
     process.stdout.write(
       opts.dryRun
-        ? `${file}: ${counts.accepted} valid, ${counts.rejected} rejected of ${counts.records} samples (dry run: nothing enqueued)\n`
-        : `${file}: ${counts.enqueued} enqueued, ${counts.rejected} rejected of ${counts.records} samples\n`,
+        ? terminalText(`${file}: ${counts.accepted} valid, ${counts.rejected} rejected of ${counts.records} samples (dry run: nothing enqueued)\n`)
+        : terminalText(`${file}: ${counts.enqueued} enqueued, ${counts.rejected} rejected of ${counts.records} samples\n`),
     );
   return counts.rejected > 0 ? 1 : 0;
 }

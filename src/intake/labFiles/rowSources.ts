@@ -1,7 +1,9 @@
 /**
  * The rows of a lab file, streamed: CSV through csv-parse, Excel workbooks (.xlsx) through the exceljs
- * streaming reader, which reads the zip entry by entry and hands rows over as it parses them, so a
- * workbook of any length is read in bounded memory (its shared-string table aside).
+ * streaming reader, which reads the zip entry by entry and hands rows over as it parses them. A worksheet
+ * that comes before the workbook part or the shared-string table in the zip (as Excel and exceljs write
+ * them) is first spooled to a temporary file by the reader and parsed from there, so a workbook of any
+ * length is read in bounded memory either way (its shared-string table aside).
  */
 import type { Readable } from 'node:stream';
 import ExcelJS from 'exceljs';
