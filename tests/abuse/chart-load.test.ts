@@ -20,7 +20,9 @@ import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 const tokenEnv: NodeJS.ProcessEnv = {};
 
 const TIME_LIMIT_MS = 5000;
-const HEALTHZ_MAX_MS = 1000;
+// /healthz answers while an attack runs: bounded for a loaded two-core machine (2.4 s seen with two suites and other
+// jobs beside), yet far below what the attacks did before their fixes (a 16 s stall, refused for two minutes, 262 s).
+const HEALTHZ_MAX_MS = 10_000;
 const ANSWER_WITHIN_MS = TIME_LIMIT_MS + 60_000;
 
 /** An invented gearbox history: eight samples per oil charge, iron rising along each charge. */
