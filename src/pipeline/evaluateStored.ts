@@ -10,7 +10,7 @@
  * evaluation again from the month after (`cascade`), so that every verdict ends up depending on the set of results
  * only, whatever the order they arrived in.
  */
-import { AnalysisFold, emptyAnalysisState, type FoldStep } from '../analysis/fold/analysisFold.ts';
+import { AnalysisFold, emptyAnalysisState, type AnalysisState, type FoldStep } from '../analysis/fold/analysisFold.ts';
 import type { GroupStats } from '../analysis/model.ts';
 import type { Config } from '../domain/config.ts';
 import { resolveSettings, type ComponentSettings } from '../domain/settings.ts';
@@ -134,15 +134,16 @@ async function evaluateUnderLease(deps: EvaluationDeps, ref: ComponentRef, lease
   const verdict = incidents.finish(incremental ? [] : await store.incidentsOpenedAfter(ref, start.position));
   if (lost()) return { kind: 'lost-lock' };
   const last = stored.at(-1)?.sample;
+  const finalState = fold.state();
   const commit: EvaluationCommit = {
     mark: input.mark,
     group,
-    latest: { position: last ? positionOf(last) : start.position, count, analysis: fold.state(), incidents: emptyComponentIncidents(ref.unit, ref.component) },
+    latest: { position: last ? positionOf(last) : start.position, count, analysis: finalState, incidents: emptyComponentIncidents(ref.unit, ref.component) },
     sparse,
     rewoundTo: incremental ? undefined : start.position,
     steps: steps.map((s) => ({ sampleId: s.sampleId, sampledAt: s.sampledAt, findings: s.findings, ...(s.status && { status: s.status }) })),
     shares,
-    baselines: baselineShares(fold, settings),
+    baselines: baselineShares(fold, finalState, settings),
     incidents: verdict.state,
     incidentsVersion: input.incidentsVersion,
     effects: verdict.effects,
@@ -176,10 +177,9 @@ export function emptyCheckpoint(ref: ComponentRef): Checkpoint {
   return { position: null, count: 0, analysis: emptyAnalysisState(ref.unit, ref.component), incidents: emptyComponentIncidents(ref.unit, ref.component) };
 }
 
-/** The component's complete own baselines, each with the month it was complete in (from the fold's state). */
-function baselineShares(fold: AnalysisFold, settings: ComponentSettings): Partial<Record<Measurand, BaselineShare>> {
+/** The component's complete own baselines, each with the month it was complete in (from the fold's final state). */
+function baselineShares(fold: AnalysisFold, state: AnalysisState, settings: ComponentSettings): Partial<Record<Measurand, BaselineShare>> {
   const out: Partial<Record<Measurand, BaselineShare>> = {};
-  const state = fold.state();
   for (const [m, sums] of Object.entries(fold.baselines()) as [Measurand, NonNullable<ReturnType<AnalysisFold['baselines']>[Measurand]>][]) {
     const at = state.change[m]?.own.completedSampledAt;
     if (at !== undefined && settings.detection.measurands.includes(m)) out[m] = { month: monthOf(Date.parse(at)), sums };
