@@ -48,13 +48,13 @@ describe('the command line from any directory', () => {
 
   it('lists the operator commands first and the developer commands (schema, docs) last in --help', async () => {
     const help = await run(['--help']);
-    const at = (name: string) => help.search(new RegExp(`^  ${name}\\b`, 'm'));
+    const at = (name: string) => help.search(new RegExp(`^ {2}${name}\\b`, 'm'));
     const operator = ['demo', 'serve', 'worker', 'api', 'import', 'incidents', 'replay', 'design', 'backtest'].map(at);
     const developer = ['schema', 'docs'].map(at);
     for (const i of [...operator, ...developer]) expect(i).toBeGreaterThan(0);
     expect(Math.min(...developer)).toBeGreaterThan(Math.max(...operator));
     expect(help.indexOf('For developers of wearshift:')).toBeGreaterThan(Math.max(...operator));
-    expect(help).toMatch(/^  -V, --version/m);
+    expect(help).toMatch(/^ {2}-V, --version/m);
   }, 600_000);
 });
 
