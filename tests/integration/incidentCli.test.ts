@@ -67,6 +67,8 @@ describe('wearshift incidents', { timeout: 600_000 }, () => {
   it('lists as a table and as JSON lines', async () => {
     const table = await run('incidents', 'list', '--config', configFile);
     expect(table.code).toBe(0);
+    // Which Redis and key prefix the list comes from, said before the table (on stderr, so that the table pipes).
+    expect(table.err).toMatch(/^wearshift: Redis redis:\/\/127\.0\.0\.1:\d+ \(REDIS_URL\), key prefix \{cli\}\n/);
     const lines = table.out.trim().split('\n');
     expect(lines[0]).toMatch(/^incident\s+severity\s+state/);
     expect(lines[2]).toContain('GEN-2/engine@GEN-2-1');
