@@ -40,7 +40,7 @@ const LIMITS = {
 };
 /** Generous bounds: a busy shared machine, never the speed of this one. */
 const DISCONNECT_WITHIN_MS = 60_000;
-const HEALTHZ_MAX_MS = 2000;
+const HEALTHZ_MAX_MS = 5000;
 const MEMORY_GROWTH_MAX = 300 * 1024 * 1024;
 
 // The longest ids the schema allows: unit, component and sampleId of 80 characters each (242 characters), the unit
