@@ -108,7 +108,18 @@ beforeAll(async () => {
   const connection = redis.client();
   incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix: '{contracts}' });
   producer = createResultProducer({ connection, prefix: '{contracts}' });
-  app = await buildServer({ tokens: accessTokensFromEnv(tokenEnv), logger: createLogger({ level: 'silent' }), metrics: createMetrics(), ping: () => connection.ping(), producer, incidents, openApi: openApiDocument() });
+  // Validating an answer compiles schemas synchronously, which on a busy machine can outlast the server's 5 s
+  // keep-alive: the next fetch would then reuse a socket the server is closing (ECONNRESET). Kept alive longer here.
+  app = await buildServer({
+    tokens: accessTokensFromEnv(tokenEnv),
+    logger: createLogger({ level: 'silent' }),
+    metrics: createMetrics(),
+    ping: () => connection.ping(),
+    producer,
+    incidents,
+    openApi: openApiDocument(),
+    limits: { keepAliveTimeoutMs: 120_000 },
+  });
   base = await app.listen({ port: 0, host: '127.0.0.1' });
 }, 120_000);
 
