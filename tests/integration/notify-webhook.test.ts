@@ -70,7 +70,7 @@ beforeEach(() => {
 });
 
 const event = toCloudEvent(incidentMessage(), { time: '2026-03-01T08:05:00Z' });
-const endpoint = (path = '/hook', secrets = [currentSecret]) => ({ url: `${base}${path}`, secrets, timeoutMs: 2000 });
+const endpoint = (path = '/hook', secrets = [currentSecret]) => ({ url: `${base}${path}`, secrets, timeoutMs: 30_000 });
 
 describe('webhook delivery', () => {
   it('delivers a CloudEvent the standardwebhooks verifier accepts', async () => {
