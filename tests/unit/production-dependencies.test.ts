@@ -28,7 +28,7 @@ describe('production dependencies', () => {
   });
 });
 
-/** npm's own version-range library, the rules `npm ci` checks `engines` with (it ships with npm and sits in the tree). */
+/** npm's own version-range library (semver, a development dependency), the rules `npm ci` checks `engines` with. */
 const semver = createRequire(import.meta.url)('semver') as { satisfies(version: string, range: string): boolean; minVersion(range: string): { version: string } | null };
 
 describe('the Node.js version', () => {
