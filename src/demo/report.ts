@@ -5,6 +5,22 @@ import { DEMO_STORIES } from './fleet.ts';
 import type { DemoReport } from './runDemo.ts';
 import { formatTimeline } from './timeline.ts';
 
+/**
+ * What `wearshift demo --keep-open` prints once the run is over: where the API and the board are, a viewer token to
+ * look and a responder token to acknowledge, shelve and resolve on the board.
+ */
+export function formatKeepOpen(args: { apiUrl: string; board: boolean; viewerToken: string; responderToken: string }): string[] {
+  return [
+    '',
+    `The API stays up at ${args.apiUrl}; the receivers keep taking mail and webhooks (not written out any more).`,
+    args.board ? `Board: ${args.apiUrl}/ — paste a token when it asks: the viewer token to look, the responder token to acknowledge, shelve and resolve.` : 'This build serves no board at /; the API answers as below.',
+    `Viewer token:    ${args.viewerToken}`,
+    `Responder token: ${args.responderToken}`,
+    `  curl -H 'Authorization: Bearer ${args.viewerToken}' ${args.apiUrl}/v1/incidents`,
+    'Press Ctrl-C to stop.',
+  ];
+}
+
 export function formatIntro(args: { redis: string; outDir: string; feedSeconds: number }): string[] {
   return [
     'wearshift demo — an invented water utility: 8 pump gearboxes, 4 prime-power generator engines, 3 press hydraulics, 18 months of oil samples.',

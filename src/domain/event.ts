@@ -15,7 +15,8 @@ const identifier = (what: string) =>
     .string({ error: (i) => (i.input === undefined ? `${what} is required (missing or empty)` : `${what} must be text`) })
     .trim()
     .normalize('NFKC')
-    .min(1, `${what} must not be empty`)
+    // An empty name gets one plain reason, not the character rule as well.
+    .min(1, { error: `${what} must not be empty`, abort: true })
     .max(80, `${what} must be at most 80 characters`)
     .regex(/^[\p{L}\p{N}][\p{L}\p{N} ._:#()+\-/]*$/u, `${what} may hold letters, digits, spaces and . _ : # ( ) + - / only, starting with a letter or digit`);
 

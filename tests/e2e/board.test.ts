@@ -18,7 +18,7 @@ if (!HAVE_CHROMIUM) console.warn(`board e2e skipped: no Chromium at ${CHROMIUM} 
 const OUT = new URL('./out/', import.meta.url).pathname;
 const SEVERITY_RANK: Record<string, number> = { watch: 0, caution: 1, alarm: 2 };
 /** The machine is shared and small: give the page time, but fail rather than hang. */
-const poll = <T>(read: () => T | Promise<T>) => expect.poll(read, { timeout: 20_000, interval: 100 });
+const poll = <T>(read: () => T | Promise<T>) => expect.poll(read, { timeout: 120_000, interval: 100 });
 
 describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
   let fixture: BoardFixture;
@@ -125,7 +125,7 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     const before = await page.locator('#incidents > li.incident').count();
     expect(await fixture.feed('GEN-3', 'engine')).toBeGreaterThan(0);
     const card = page.locator('#incidents > li.incident[data-incident^="GEN-3/engine"]');
-    await card.waitFor({ timeout: 20_000 });
+    await card.waitFor({ timeout: 120_000 });
     expect(await page.locator('#incidents > li.incident').count()).toBe(before + 1);
     expect(await page.evaluate(() => (globalThis as { boardMarker?: string }).boardMarker)).toBe('still the same page');
     await poll(() => page.locator('#announcer').innerText()).toContain('GEN-3 / engine');
@@ -161,7 +161,7 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
 
     await card.locator('textarea').fill('Filter replaced; bypass valve reseated.');
     await card.locator('button[data-action="resolve"]').click();
-    await card.waitFor({ state: 'detached', timeout: 20_000 });
+    await card.waitFor({ state: 'detached', timeout: 120_000 });
     expect((await api(`/v1/incidents/${encodeURIComponent(id)}`)).incident.closed).toMatchObject({ how: 'resolved', by: 'R. Tanaka' });
   });
 

@@ -22,6 +22,7 @@ import { Ajv2020 } from 'ajv/dist/2020.js';
 import formats from 'ajv-formats';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Step } from '../../src/analysis/model.ts';
+import { ADVISORY_CAUTION } from '../../src/domain/caution.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import { asyncApiDocument } from '../../src/contracts/asyncapi.ts';
 import { openApiDocument } from '../../src/contracts/openapi.ts';
@@ -108,7 +109,18 @@ beforeAll(async () => {
   const connection = redis.client();
   incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix: '{contracts}' });
   producer = createResultProducer({ connection, prefix: '{contracts}' });
-  app = await buildServer({ tokens: accessTokensFromEnv(tokenEnv), logger: createLogger({ level: 'silent' }), metrics: createMetrics(), ping: () => connection.ping(), producer, incidents, openApi: openApiDocument() });
+  // Validating an answer compiles schemas synchronously, which on a busy machine can outlast the server's 5 s
+  // keep-alive: the next fetch would then reuse a socket the server is closing (ECONNRESET). Kept alive longer here.
+  app = await buildServer({
+    tokens: accessTokensFromEnv(tokenEnv),
+    logger: createLogger({ level: 'silent' }),
+    metrics: createMetrics(),
+    ping: () => connection.ping(),
+    producer,
+    incidents,
+    openApi: openApiDocument(),
+    limits: { keepAliveTimeoutMs: 120_000 },
+  });
   base = await app.listen({ port: 0, host: '127.0.0.1' });
 }, 120_000);
 
@@ -288,6 +300,8 @@ describe('real deliveries match the AsyncAPI document', () => {
     expect(delivery.outcome).toBe('delivered');
     expect(received).toHaveLength(1);
     expectValid(payloadSchema, JSON.parse(received[0]!.body), 'the webhook body');
+    // Integrators pass the severity on with the caution beside it, word for word.
+    expect((JSON.parse(received[0]!.body) as { data: { advisory: string } }).data.advisory).toBe(ADVISORY_CAUTION);
     expectValid(headersSchema, received[0]!.headers, 'the webhook headers');
 
     const aedes = await Aedes.createBroker();
@@ -307,6 +321,7 @@ describe('real deliveries match the AsyncAPI document', () => {
       // The topic follows the channel address of the document with its parameters filled in.
       expect(topic).toBe(asyncapi.channels.mqtt.address.replace('{unit}', 'PS7-P1').replace('{component}', 'gearbox'));
       expectValid(payloadSchema, JSON.parse(messages[0]!.payload), 'the MQTT payload');
+      expect((JSON.parse(messages[0]!.payload) as { data: { advisory: string } }).data.advisory).toBe(ADVISORY_CAUTION);
     } finally {
       await publisher.close({ force: true });
       await subscriber.endAsync(true);

@@ -5,6 +5,7 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import type { Step } from '../../src/analysis/model.ts';
 import { main } from '../../src/cli/main.ts';
+import { ADVISORY_CAUTION } from '../../src/domain/caution.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import type { Severity } from '../../src/domain/finding.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
@@ -67,14 +68,20 @@ describe('wearshift incidents', { timeout: 600_000 }, () => {
   it('lists as a table and as JSON lines', async () => {
     const table = await run('incidents', 'list', '--config', configFile);
     expect(table.code).toBe(0);
+    // Which Redis and key prefix the list comes from, said before the table (on stderr, so that the table pipes).
+    expect(table.err).toMatch(/^wearshift: Redis redis:\/\/127\.0\.0\.1:\d+ \(REDIS_URL\), key prefix \{cli\}\n/);
     const lines = table.out.trim().split('\n');
     expect(lines[0]).toMatch(/^incident\s+severity\s+state/);
     expect(lines[2]).toContain('GEN-2/engine@GEN-2-1');
     expect(lines[3]).toContain('GEN-1/engine@GEN-1-1');
+    // Opened at the sample's time, in the one time format; then the zone stated and the caution.
+    expect(lines[2]).toMatch(/ \d{4}-\d\d-\d\dT\d\d:\d\dZ /);
+    expect(lines.slice(-2)).toEqual(['Times are ISO 8601 in UTC (Z).', ADVISORY_CAUTION]);
 
     const json = await run('incidents', 'list', '--severity', 'caution', '--json', '--config', configFile);
     const parsed = json.out.trim().split('\n').map((l) => JSON.parse(l) as { id: string; severity: string });
     expect(parsed.map((p) => [p.id, p.severity])).toEqual([['GEN-1/engine@GEN-1-1', 'caution']]);
+    expect(json.out.trim().split('\n').map((l) => (JSON.parse(l) as { advisory?: string }).advisory)).toEqual([ADVISORY_CAUTION]);
   });
 
   it('acknowledges, shelves and resolves, and shows the timeline', async () => {
@@ -92,6 +99,10 @@ describe('wearshift incidents', { timeout: 600_000 }, () => {
     expect(show.out).toContain('acknowledged by R. Tanaka: on site at 14:00');
     expect(show.out).toContain('shelved by R. Tanaka until');
     expect(show.out).toContain('closed (resolved) by R. Tanaka: filter element replaced');
+    // Times to the minute with their zone, never raw ISO with seconds and milliseconds; the caution closes it.
+    expect(show.out).toMatch(/opened \d{4}-\d\d-\d\dT\d\d:\d\dZ at sample/);
+    expect(show.out).not.toMatch(/T\d\d:\d\d:\d\d/);
+    expect(show.out.trimEnd().split('\n').at(-1)).toBe(ADVISORY_CAUTION);
 
     const closed = await run('incidents', 'list', '--state', 'closed', '--json', '--config', configFile);
     expect(closed.out.trim().split('\n').map((l) => (JSON.parse(l) as { id: string }).id)).toEqual([id]);

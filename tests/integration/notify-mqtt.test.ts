@@ -60,6 +60,9 @@ async function subscriber(port: number, clientId: string, topic: string): Promis
   return { client, received };
 }
 
+/** Waits for an event end here only when something is broken: generous for a busy shared machine. */
+const WAIT_MS = 60_000;
+
 async function waitFor(check: () => boolean, timeoutMs: number, what: string): Promise<void> {
   const until = Date.now() + timeoutMs;
   while (!check()) {
@@ -80,7 +83,7 @@ describe('MQTT publishing', () => {
     const publisher = publisherFor(broker.port, 'wearshift-test-1');
     const { topic } = await publisher.publish(event);
     expect(topic).toBe('plant/Line 2%2FP3/gearbox/oil');
-    await waitFor(() => sub.received.length === 1, 2000, 'the subscriber to receive the event');
+    await waitFor(() => sub.received.length === 1, WAIT_MS, 'the subscriber to receive the event');
     expect(sub.received[0]).toEqual({ topic, qos: 1, event });
     // A persistent session under the fixed client id, so that the broker keeps our state across reconnects.
     expect(sessions).toContainEqual({ id: 'wearshift-test-1', clean: false });
@@ -103,7 +106,7 @@ describe('MQTT publishing', () => {
     const sub = await subscriber(broker.port, 'board-forecast', 'plant/#');
     const publisher = publisherFor(broker.port, 'wearshift-test-forecast');
     await publisher.publish(withForecast);
-    await waitFor(() => sub.received.length === 1, 2000, 'the subscriber to receive the event');
+    await waitFor(() => sub.received.length === 1, WAIT_MS, 'the subscriber to receive the event');
     const got = sub.received[0]!.event as IncidentCloudEvent;
     expect(got.data.forecast!.caution).toContain(FORECAST_CAUTION);
     expect(got.data.forecast!.items.map((i) => i.text)).toEqual(items.map((i) => i.text));
@@ -123,7 +126,7 @@ describe('MQTT publishing', () => {
     });
     cleanup.push(() => stopBroker(broker));
     const publisher = publisherFor(broker.port, 'wearshift-test-2');
-    await waitFor(() => publisher.connected, 2000, 'the publisher to connect');
+    await waitFor(() => publisher.connected, WAIT_MS, 'the publisher to connect');
     let resolvedAt = 0;
     const published = publisher.publish(event).then(() => {
       resolvedAt = Date.now();
@@ -142,10 +145,10 @@ describe('MQTT publishing', () => {
     const sub = await subscriber(port, 'board-2', 'plant/#');
     const publisher = publisherFor(port, 'wearshift-test-3');
     await publisher.publish(toCloudEvent(incidentMessage({ idempotencyKey: 'before-outage' }), { time: '2026-03-01T08:05:00Z' }));
-    await waitFor(() => sub.received.length === 1, 2000, 'the first event');
+    await waitFor(() => sub.received.length === 1, WAIT_MS, 'the first event');
 
     await stopBroker(broker);
-    await waitFor(() => !publisher.connected, 2000, 'the publisher to notice the outage');
+    await waitFor(() => !publisher.connected, WAIT_MS, 'the publisher to notice the outage');
 
     let acknowledged = false;
     const pending = publisher.publish(toCloudEvent(incidentMessage({ idempotencyKey: 'during-outage' }), { time: '2026-03-01T08:06:00Z' })).then(() => {
@@ -164,7 +167,7 @@ describe('MQTT publishing', () => {
       }, resolve);
     }));
     await pending;
-    await waitFor(() => afterRestart.length === 1, 5000, 'the queued event after reconnecting');
+    await waitFor(() => afterRestart.length === 1, WAIT_MS, 'the queued event after reconnecting');
     expect(afterRestart.map((e) => e.id)).toEqual(['during-outage']);
     expect(sub.received.map((r) => r.event.id)).toEqual(['before-outage']);
   });
@@ -182,7 +185,7 @@ describe('MQTT publishing', () => {
     back.aedes.on('publish', (packet, client) => {
       if (client?.id === 'wearshift-test-4') seen.push(packet.topic);
     });
-    await waitFor(() => seen.length === 1, 5000, 'the message given up on to still go out');
+    await waitFor(() => seen.length === 1, WAIT_MS, 'the message given up on to still go out');
   });
 
   it('refuses a template that would publish to wildcards', () => {

@@ -30,7 +30,7 @@ const hooks: Array<{ type: string; id: string; incidentId: string; verified: boo
 let workers: RunningWorkers;
 let store: RedisIncidentStore;
 
-async function until<T>(what: string, probe: () => T | undefined, timeoutMs = 20_000): Promise<T> {
+async function until<T>(what: string, probe: () => T | undefined, timeoutMs = 120_000): Promise<T> {
   const deadline = Date.now() + timeoutMs;
   for (;;) {
     const v = probe();

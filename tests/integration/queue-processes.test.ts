@@ -55,7 +55,7 @@ async function runWith(processes: number, prefix: string, redis: Redis) {
   const queues = [QUEUE_NAMES.results, QUEUE_NAMES.evaluate].map((n) => openQueue(n, redis, settings));
   try {
     // Every process must be taking jobs before the results arrive, or the first one does all the work.
-    const deadline = Date.now() + 60_000;
+    const deadline = Date.now() + 240_000;
     while ((await queues[0]!.getWorkersCount()) < processes) {
       if (Date.now() > deadline) throw new Error(`only ${await queues[0]!.getWorkersCount()} of ${processes} workers came up`);
       await new Promise((r) => setTimeout(r, 200));
@@ -105,5 +105,5 @@ describe('several worker processes on one Redis', () => {
     expect(one.state.components.map((c) => c.samples)).toEqual([24, 24, 24, 24]);
     expect(one.state.findings.flat().length).toBeGreaterThan(5);
     expect(two.state).toEqual(one.state);
-  });
+  }, 600_000);
 });

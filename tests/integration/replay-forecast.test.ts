@@ -7,7 +7,8 @@ import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
-import { FORECAST_CAUTION } from '../../src/domain/caution.ts';
+import { ADVISORY_CAUTION, FORECAST_CAUTION } from '../../src/domain/caution.ts';
+import { timeZoneNote } from '../../src/notify/format.ts';
 import type { LimitForecast } from '../../src/analysis/forecast/model.ts';
 import { seededRandom } from '../../src/simulation/random.ts';
 import { simulateWearSeries } from '../../src/simulation/wearSeries.ts';
@@ -64,5 +65,9 @@ describe('wearshift replay with forecasts', () => {
     expect(readable.code).toBe(0);
     for (const f of forecasts) expect(readable.stdout).toContain(f.text);
     expect(readable.stdout).toContain(FORECAST_CAUTION);
+    // The one time format (ISO 8601 to the minute, the zone written: UTC by default) and the caution, once, at the end.
+    expect(readable.stdout).toMatch(/^\d{4}-\d\d-\d\dT\d\d:\d\dZ {2}/m);
+    expect(readable.stdout).not.toMatch(/T\d\d:\d\d:\d\d/);
+    expect(readable.stdout.trimEnd().split('\n').slice(-2)).toEqual([timeZoneNote(), ADVISORY_CAUTION]);
   });
 });

@@ -60,5 +60,8 @@ describe('a sustained doubling of the wear rate', () => {
     expect(later.explanation).toMatch(/what this component's own samples SIM-101-gearbox-0002 to SIM-101-gearbox-0013 showed \(12 intervals\)/);
     expect(later.explanation).toMatch(/held since sample SIM-101-gearbox-00\d\d where the change was first signalled/);
     expect(later.explanation).toMatch(/next: re-sample to confirm/);
+    // It claims no more than the model knows: a usual rate, learnt from the samples, not a proven healthy one.
+    expect(later.explanation).toContain('its usual rate, not a proven healthy one');
+    expect(later.explanation).not.toMatch(/in-control|stable history/i);
   });
 });

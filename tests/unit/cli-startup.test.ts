@@ -4,12 +4,14 @@
  * command loaded in full. bin/wearshift.js runs the compiled build only while it was built from the sources as
  * they are (bin/sourceSignature.mjs).
  */
-import { mkdtempSync, rmSync, utimesSync, writeFileSync } from 'node:fs';
+import { execFile } from 'node:child_process';
+import { mkdtempSync, readFileSync, rmSync, utimesSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { COMMANDS } from '../../src/cli/commandIndex.ts';
 import { buildProgram } from '../../src/cli/main.ts';
+import { BIN } from '../helpers/cli.ts';
 // @ts-expect-error a plain JavaScript module of the launcher, without type declarations
 import { sourceSignature } from '../../bin/sourceSignature.mjs';
 
@@ -28,6 +30,32 @@ describe('the command index', () => {
     expect(design.commands.map((c) => c.name())).toEqual(expect.arrayContaining(['ewma', 'cusum', 'noise']));
     expect(program.commands.find((c) => c.name() === 'import')!.options).toEqual([]);
   }, 60_000);
+});
+
+describe('the command line from any directory', () => {
+  const elsewhere = mkdtempSync(join(tmpdir(), 'wearshift-elsewhere-'));
+  afterAll(() => rmSync(elsewhere, { recursive: true, force: true }));
+  /** `wearshift …` started outside the checkout, as after `npm link`; bounded only against a hung command. */
+  const run = (args: string[]) =>
+    new Promise<string>((resolve, reject) =>
+      execFile(process.execPath, [BIN, ...args], { cwd: elsewhere, timeout: 600_000 }, (error, stdout, stderr) => (error ? reject(new Error(`${error.message}\n${stderr}`)) : resolve(stdout))),
+    );
+
+  it('prints the version in package.json with --version', async () => {
+    const { version } = JSON.parse(readFileSync(new URL('../../package.json', import.meta.url), 'utf8')) as { version: string };
+    expect((await run(['--version'])).trim()).toBe(version);
+  }, 600_000);
+
+  it('lists the operator commands first and the developer commands (schema, docs) last in --help', async () => {
+    const help = await run(['--help']);
+    const at = (name: string) => help.search(new RegExp(`^ {2}${name}\\b`, 'm'));
+    const operator = ['demo', 'serve', 'worker', 'api', 'import', 'incidents', 'replay', 'design', 'backtest'].map(at);
+    const developer = ['schema', 'docs'].map(at);
+    for (const i of [...operator, ...developer]) expect(i).toBeGreaterThan(0);
+    expect(Math.min(...developer)).toBeGreaterThan(Math.max(...operator));
+    expect(help.indexOf('For developers of wearshift:')).toBeGreaterThan(Math.max(...operator));
+    expect(help).toMatch(/^ {2}-V, --version/m);
+  }, 600_000);
 });
 
 describe('the build signature', () => {

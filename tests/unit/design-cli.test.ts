@@ -23,7 +23,10 @@ async function designJson(args: string[]): Promise<Record<string, unknown>> {
   return JSON.parse(lines[0]!) as Record<string, unknown>;
 }
 
-afterEach(() => vi.restoreAllMocks());
+afterEach(() => {
+  vi.restoreAllMocks();
+  vi.unstubAllEnvs();
+});
 
 describe('wearshift design cusum', () => {
   it('prints run lengths in the documented JSON shape, two-sided and zero-state by default', async () => {
@@ -80,6 +83,22 @@ describe('wearshift design cusum', () => {
     expect(ewma.L as number).toBeCloseTo(worker.ewmaL, 6);
     const text = await runDesign(['cusum', '--budget', '1 per component per 5 years', '--every', '250', '--config', demo]);
     expect(text).toContain(`a "chart" is one wear metal watched by one detector`);
+  });
+
+  it('without --config or --charts, follows the built-in configuration the worker runs with (its 14 charts), not one chart', async () => {
+    vi.stubEnv('WEARSHIFT_CONFIG', undefined);
+    const { ConfigSchema } = await import('../../src/domain/config.ts');
+    const { changeBudgetShare, detectionLimits } = await import('../../src/analysis/budget.ts');
+    const config = ConfigSchema.parse({});
+    const detection = { ...config.detection, budget: { ...config.detection.budget, sampleIntervalHours: 250 } };
+    const worker = detectionLimits(detection, changeBudgetShare(config.population));
+    expect(worker.charts).toBe(14);
+    // The command the reliability engineer typed: once it answered the h of a single chart, far below the worker's.
+    const cusum = await designJson(['cusum', '--budget', '1 per component per 5 years', '--every', '250', '--shifts', '0']);
+    expect((cusum.budget as { charts: number }).charts).toBe(14);
+    expect(cusum.h as number).toBeCloseTo(worker.cusumH, 6);
+    const oneChart = await designJson(['cusum', '--budget', '1 per component per 5 years', '--every', '250', '--charts', '1', '--shifts', '0']);
+    expect(cusum.h as number).toBeGreaterThan(oneChart.h as number);
   });
 
   it('prints a table of run lengths without --json, with "> 1e9" for a run that never ends in practice', async () => {

@@ -180,6 +180,9 @@ describe.each(['component', 'measurand'] as const)('incident engine properties (
             if (inc.closed.how !== 'resolved') expect(inc.alarm).toBe('returned');
           }
           if (inc.closed === null && inc.alarm === 'active') expect(inc.activeFindings.length + inc.cleanSteps).toBeGreaterThan(0);
+          // The one severity rule: an incident is as severe as the most severe finding of its evidence, never more or less.
+          expect(inc.evidence.length).toBeGreaterThan(0);
+          expect(inc.severity).toBe(SEVERITIES[Math.max(...inc.evidence.map((f) => SEVERITIES.indexOf(f.severity)))]);
           expect(inc.peakSeverity).toBe(SEVERITIES[Math.max(...inc.timeline.filter((t) => t.kind === 'finding' && t.change !== 'cleared').map((t) => SEVERITIES.indexOf((t as { severity: (typeof SEVERITIES)[number] }).severity)))]);
         }
         // Nothing is sent about a shelved incident.

@@ -53,6 +53,11 @@ describe('CSV records', () => {
     const paths = !parsed.ok ? parsed.issues.map((i) => i.path).sort() : [];
     expect(paths).toEqual(['readings.Fe', 'readings.Zz', 'unit', 'unitHours']);
     expect(!parsed.ok && parsed.issues.find((i) => i.path === 'unit')?.reason).toBe('unit is required (missing or empty)');
+    // An empty or blank unit: one plain reason, not the character rule beside it.
+    for (const unit of ['', '   ']) {
+      const blank = validateResult({ sampleId: 'L-9', unit, component: 'gearbox', sampledAt: '2026-03-01T08:00:00Z', readings: { Fe: 1 } }, { now: NOW });
+      expect(!blank.ok && blank.issues).toEqual([{ path: 'unit', reason: 'unit must not be empty' }]);
+    }
   });
 
   it('counts lines of quoted cells that span lines, and stops with a clear reason at broken quoting', async () => {

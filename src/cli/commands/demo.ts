@@ -1,7 +1,7 @@
 /** `wearshift demo`: the invented demo fleet end to end, in one process, in about a minute. */
 import type { Command } from 'commander';
 import { InputError } from '../../domain/errors.ts';
-import { demoPassed, formatIntro, formatReport } from '../../demo/report.ts';
+import { demoPassed, formatIntro, formatKeepOpen, formatReport } from '../../demo/report.ts';
 import { DEMO_DEFAULTS, DemoInterrupted, runDemo } from '../../demo/runDemo.ts';
 import { RedisServerMissingError } from '../../runtime/embeddedRedis.ts';
 
@@ -61,13 +61,7 @@ async function demo(opts: DemoCommandOptions): Promise<void> {
   if (!opts.keepOpen) return;
 
   const board = await fetch(`${report.apiUrl}/`).then((r) => r.ok && (r.headers.get('content-type') ?? '').startsWith('text/html'), () => false);
-  print('');
-  print(`The API stays up at ${report.apiUrl}; the receivers keep taking mail and webhooks (not written out any more).`);
-  print(board ? `Board: ${report.apiUrl}/ — paste a token when it asks: the viewer token to look, the responder token to acknowledge, shelve and resolve.` : 'This build serves no board at /; the API answers as below.');
-  print(`Viewer token:    ${run.viewerToken}`);
-  print(`Responder token: ${run.responderToken}`);
-  print(`  curl -H 'Authorization: Bearer ${run.viewerToken}' ${report.apiUrl}/v1/incidents`);
-  print('Press Ctrl-C to stop.');
+  for (const line of formatKeepOpen({ apiUrl: report.apiUrl, board, viewerToken: String(run.viewerToken), responderToken: String(run.responderToken) })) print(line);
   await new Promise<void>((resolve) => {
     const stop = () => resolve();
     process.once('SIGINT', stop);

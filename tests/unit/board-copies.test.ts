@@ -1,0 +1,72 @@
+/**
+ * The board runs in the browser and carries its own copies of the one severity rule, the evidence order and the one
+ * time format (src/board/incidentText.js, src/board/format.js). They must read exactly as the server's
+ * (src/notify/message.ts, src/notify/format.ts) that e-mails, pages and the command line use, for every severity
+ * pair and for instants across zones with and without summer time.
+ */
+import { beforeAll, describe, expect, it } from 'vitest';
+import { bySeverity, severityWords, type MessageSeverity } from '../../src/notify/message.ts';
+import { formatTime, timeZoneNote } from '../../src/notify/format.ts';
+import { FORECAST_CAUTION } from '../../src/domain/caution.ts';
+
+interface BoardText {
+  FORECAST_CAUTION: string;
+  severityWords(severity: string, peak?: string): string;
+  bySeverity<T>(findings: readonly T[]): T[];
+}
+interface BoardFormat {
+  formatTime(iso: string): string;
+  timeZoneNote(): string;
+}
+
+let text: BoardText;
+let format: BoardFormat;
+let session: { timeZone: string };
+
+beforeAll(async () => {
+  // The board's session module reads the tab's sessionStorage when loaded; an empty one stands in for it.
+  (globalThis as { sessionStorage?: unknown }).sessionStorage ??= { getItem: () => null, setItem: () => undefined, removeItem: () => undefined };
+  // @ts-expect-error a plain JavaScript module of the board, without type declarations
+  text = (await import('../../src/board/incidentText.js')) as BoardText;
+  // @ts-expect-error a plain JavaScript module of the board, without type declarations
+  format = (await import('../../src/board/format.js')) as BoardFormat;
+  // @ts-expect-error a plain JavaScript module of the board, without type declarations
+  session = ((await import('../../src/board/session.js')) as { session: { timeZone: string } }).session;
+});
+
+const SEVERITIES: readonly MessageSeverity[] = ['watch', 'caution', 'alarm'];
+
+describe("the board's copies", () => {
+  it('write every severity with its peak as the server does', () => {
+    for (const severity of SEVERITIES) {
+      for (const peak of [undefined, ...SEVERITIES]) expect(text.severityWords(severity, peak), `${severity} / ${peak}`).toBe(severityWords(severity, peak));
+    }
+    expect(text.severityWords('watch', 'caution')).toBe('watch (peak caution)');
+  });
+
+  it('carry the caution beside forecasts word for word', () => {
+    expect(text.FORECAST_CAUTION).toBe(FORECAST_CAUTION);
+  });
+
+  it('order evidence most severe first, then furthest beyond its limit, as the server does', () => {
+    const findings = [
+      { id: 'a', severity: 'watch', value: 9, threshold: 3 },
+      { id: 'b', severity: 'caution', value: 4, threshold: 2 },
+      { id: 'c', severity: 'alarm', value: 11, threshold: 10 },
+      { id: 'd', severity: 'caution', value: 30, threshold: 10 },
+      { id: 'e', severity: 'watch' },
+    ];
+    const order = (list: readonly { id: string }[]) => list.map((f) => f.id).join('');
+    expect(order(text.bySeverity(findings))).toBe(order(bySeverity(findings)));
+    expect(order(bySeverity(findings))).toBe('cdbae');
+  });
+
+  it('write times in the site zone exactly as e-mails and the command line do', () => {
+    const instants = ['2026-03-01T08:00:59.999Z', '2026-03-08T06:59:00Z', '2026-03-08T07:00:00Z', '2026-07-01T12:00:00Z', '2026-10-25T00:30:00Z', '2026-12-31T23:59:00Z', 'not a time'];
+    for (const zone of ['UTC', 'Etc/UTC', 'America/New_York', 'Europe/Berlin', 'Asia/Kathmandu', 'Asia/Kolkata', 'Australia/Adelaide']) {
+      session.timeZone = zone;
+      for (const iso of instants) expect(format.formatTime(iso), `${iso} in ${zone}`).toBe(formatTime(iso, zone));
+      expect(format.timeZoneNote()).toBe(timeZoneNote(zone));
+    }
+  });
+});
