@@ -105,6 +105,17 @@ describe('wearshift import --map', () => {
     await queue.close();
   });
 
+  it('says which Redis and key prefix it writes to before it enqueues, as a plain import does', async () => {
+    const prefix = '{labimport-named}';
+    const config = join(dir, 'config-named.yaml');
+    writeFileSync(config, `redis:\n  prefix: "${prefix}"\n`);
+    const r = await runCli(['import', '--map', 'demo/labs/gearbox-lab.map.yaml', '--config', config, 'demo/labs/gearbox-lab.xlsx'], { REDIS_URL: server.url });
+    expect(r.code).toBe(0);
+    const first = r.stderr.split('\n')[0]!;
+    expect(first).toContain(server.url.replace(/^redis:\/\//, '').replace(/\/$/, ''));
+    expect(first).toContain(prefix);
+  });
+
   it('a mapping mistake stops with exit 2 and the path in the mapping', async () => {
     const map = join(dir, 'bad.yaml');
     writeFileSync(map, 'layout: sideways\n');

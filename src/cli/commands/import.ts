@@ -52,6 +52,7 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
     const show = Number(opts.show);
     if (!Number.isInteger(show) || show < 0) throw new InputError(`--show: expected a whole number from 0, got "${opts.show}"`);
     const config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
+    announceRedis(config, opts);
     return importLabFile(file, {
       map: opts.map,
       ...(opts.format !== undefined && { format: opts.format }),
@@ -71,8 +72,7 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
     throw new InputError((e as Error).message);
   }
   const config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
-  const redis = opts.dryRun ? undefined : redisChoice(config);
-  if (redis !== undefined && !opts.json) process.stderr.write(`wearshift: ${redis}\n`);
+  const redis = announceRedis(config, opts);
   const producer = opts.dryRun ? undefined : await connectProducer(redisTarget(config), config.redis.prefix, config.redis.partitions);
   const { records, stream } = readRecordFile(file, format);
   const bar = importProgress(size, opts.json);
@@ -162,4 +162,14 @@ async function connectProducer(target: RedisTarget, prefix: string, partitions: 
       await closeQuietly(redis);
     },
   };
+}
+
+/**
+ * Which Redis and key prefix the records go to (undefined with --dry-run, which needs no Redis), said on stderr unless
+ * the output is JSON lines.
+ */
+function announceRedis(config: ReturnType<typeof loadConfig>, opts: Pick<ImportOptions, 'dryRun' | 'json'>): string | undefined {
+  const redis = opts.dryRun ? undefined : redisChoice(config);
+  if (redis !== undefined && !opts.json) process.stderr.write(`wearshift: ${redis}\n`);
+  return redis;
 }
