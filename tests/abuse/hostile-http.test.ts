@@ -177,6 +177,7 @@ const within = <T,>(p: Promise<T>, ms: number, what: string) =>
 
 describe('records per request', () => {
   it('refuses more records than the cap with 413 naming it, and the reply does not grow with the garbage sent', async () => {
+    const rssBefore = process.memoryUsage().rss;
     const probe = startProbe();
     const tooMany = await fetch(`${base}/v1/results`, { method: 'POST', headers: { ...auth('ingest'), 'content-type': 'application/json' }, body: JSON.stringify(Array.from({ length: 501 }, () => ({}))) });
     expect(tooMany.status).toBe(413);
@@ -205,6 +206,7 @@ describe('records per request', () => {
     const health = await probe.stop();
     expect(health.failures).toEqual([]);
     expect(health.slowest).toBeLessThan(HEALTHZ_MAX_MS);
+    expect(process.memoryUsage().rss - rssBefore).toBeLessThan(MEMORY_GROWTH_MAX);
   }, 120_000);
 });
 
