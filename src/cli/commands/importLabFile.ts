@@ -14,6 +14,7 @@ import type { ResultProducer } from '../../queue/producer.ts';
 import { validateResult, type ValidatedRecord } from '../../intake/validate.ts';
 import { writeJsonLine } from '../output.ts';
 import { enqueueBatch } from '../enqueueBatch.ts';
+import { terminalText } from '../terminalText.ts';
 
 export interface LabImportOptions {
   readonly map: string;
@@ -46,7 +47,8 @@ export async function importLabFile(file: string, opts: LabImportOptions): Promi
   const bar = process.stderr.isTTY && !opts.json ? new MultiBar({ format: ' {bar} {percentage}% | {value}/{total} bytes | {accepted} accepted, {rejected} rejected', hideCursor: true, stream: process.stderr }, Presets.shades_classic) : undefined;
   const progress = bar?.create(size, 0, { accepted: 0, rejected: 0 });
   const counts = { records: 0, accepted: 0, rejected: 0, enqueued: 0, shown: 0 };
-  const say = (text: string) => (bar ? bar.log(`${text}\n`) : process.stderr.write(`${text}\n`));
+  // Cell text quoted in a message is shown escaped (terminalText.ts): nothing in a lab file acts on the terminal.
+  const say = (text: string) => (bar ? bar.log(terminalText(`${text}\n`)) : process.stderr.write(terminalText(`${text}\n`)));
   // Each sample is validated once, by the reader (so that an error names its row and column); the producer only
   // enqueues, and refuses a sampleId and revision already stored with other content.
   let batch: ValidatedRecord[] = [];
@@ -71,7 +73,7 @@ export async function importLabFile(file: string, opts: LabImportOptions): Promi
         if (opts.dryRun && counts.shown < opts.show) {
           counts.shown += 1;
           if (opts.json) writeJsonLine({ type: 'mapped', row: r.row, event: r.event });
-          else process.stdout.write(`row ${r.row} → ${JSON.stringify(r.event)}\n`);
+          else process.stdout.write(terminalText(`row ${r.row} → ${JSON.stringify(r.event)}\n`));
         }
         if (producer !== undefined) {
           batch.push({ index: r.row, event: r.event, sample: r.sample });
