@@ -109,6 +109,9 @@ describe('Redis restarted mid-stream', () => {
       const text = await res.text();
       expect(`${path} ${res.status} ${res.headers.get('retry-after')}`, text).toBe(`${path} 503 5`);
     }
+    // The metrics need no Redis to answer: what could not be read (queue depth, alarm figures) is left out or stale.
+    const metrics = await fetch(`${serve.url}/metrics`, { headers: asViewer, signal: AbortSignal.timeout(30_000) });
+    expect(metrics.status, await metrics.text()).toBe(200);
     await scenario.redis.start();
     await waitFor('serve to report itself ready again', async () => (await readiness(serve.url)) === 200, 30_000, 200);
     expect((await send('RS-3')).status).toBe(202);
