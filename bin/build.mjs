@@ -1,8 +1,8 @@
 #!/usr/bin/env node
 // `npm run build`, and the prepare script that `npm ci` / `npm install` run: compiles src/ to plain JavaScript in
 // dist/ (no type check here: `npm run typecheck` does that) so that `wearshift` starts without compiling TypeScript.
-// Without TypeScript (a production install with --omit=dev) it builds nothing and the command runs the sources
-// through tsx, as it does whenever src/ changed after the build.
+// Without TypeScript (a production install with --omit=dev) it builds nothing: such an install runs a dist/ built
+// beforehand (the Dockerfile builds in a stage with the development dependencies).
 import { spawnSync } from 'node:child_process';
 import { cpSync, rmSync, writeFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
@@ -16,7 +16,7 @@ let tsc;
 try {
   tsc = createRequire(import.meta.url).resolve('typescript/bin/tsc');
 } catch {
-  process.stderr.write('wearshift build: TypeScript is not installed, so nothing is compiled; the command runs the sources through tsx\n');
+  process.stderr.write('wearshift build: TypeScript is not installed, so nothing is compiled; the command needs a dist/ built where the development dependencies are installed\n');
   process.exit(0);
 }
 const signature = sourceSignature(src);

@@ -1,7 +1,8 @@
 #!/usr/bin/env node
 // Runs the compiled build in dist/ (made by `npm ci` through the prepare script, or `npm run build`) while it matches
-// the sources; otherwise — sources edited since, or a production install without TypeScript — it runs the
-// TypeScript sources through tsx, so a fresh clone needs no separate build step and a stale build is never run.
+// the sources; otherwise — sources edited since — it runs the TypeScript sources through tsx (a development
+// dependency), so a fresh clone needs no separate build step and a stale build is never run. A production install
+// (--omit=dev, as in the Dockerfile) has no TypeScript compiler and runs the build only.
 import { readFileSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import { sourceSignature } from './sourceSignature.mjs';
@@ -23,7 +24,13 @@ process.stdout.on('error', (e) => {
 let main;
 if (builtFromTheseSources()) ({ main } = await import('../dist/cli/main.js'));
 else {
-  const { register } = await import('tsx/esm/api');
+  let register;
+  try {
+    ({ register } = await import('tsx/esm/api'));
+  } catch {
+    process.stderr.write('wearshift: dist/ is missing or older than src/, and tsx (a development dependency) is not installed: run `npm run build` where the development dependencies are installed\n');
+    process.exit(1);
+  }
   register();
   ({ main } = await import('../src/cli/main.ts'));
 }

@@ -19,6 +19,9 @@ export const RecordOutcomeSchema = z
     sampleId: z.string().optional(),
     status: z.enum(['accepted', 'rejected']),
     errors: z.array(FieldIssueSchema).optional(),
+    moreErrors: z.number().int().min(0).optional().describe('Problems of this record not listed (beyond the first 100 rejected records, three are listed per record).'),
+    conflict: z.literal(true).optional().describe('Refused because the same sampleId and revision is stored (or earlier in the request) with other content; a correction needs a higher revision.'),
+    warnings: z.array(FieldIssueSchema).optional().describe('Accepted, but worth a look: e.g. a name that mixes scripts or is written in letters that look Latin.'),
   })
   .strict();
 
@@ -26,9 +29,11 @@ export const ResultOutcomesSchema = z.array(RecordOutcomeSchema).describe('One o
 
 export const ErrorBodySchema = z
   .object({
-    error: z.string().describe('A machine-readable word: invalid-request, not-found, conflict, unauthorized, forbidden, payload-too-large, unavailable, bad-request, internal.'),
+    error: z.string().describe('A machine-readable word: invalid-request, not-found, conflict, unauthorized, forbidden, payload-too-large, too-many-records, unavailable, bad-request, internal.'),
     message: z.string(),
     issues: z.array(z.object({ field: z.string(), message: z.string() }).strict()).optional(),
+    maxBytes: z.number().int().positive().optional().describe('With payload-too-large: the body limit in bytes.'),
+    maxRecords: z.number().int().positive().optional().describe('With too-many-records: the most records one request may hold.'),
   })
   .strict();
 

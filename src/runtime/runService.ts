@@ -1,7 +1,9 @@
 /** What `wearshift serve|worker|api` share: configuration, logger, the services, and shutdown on signals. */
 import { loadConfig } from './loadConfig.ts';
 import { InputError } from '../domain/errors.ts';
-import { createLogger } from '../telemetry/logger.ts';
+import type { Config } from '../domain/config.ts';
+import { createLogger, type Logger } from '../telemetry/logger.ts';
+import { secretsFromEnv, secretsOfConfig } from '../telemetry/redactText.ts';
 import { DEFAULT_PORT, startServices } from './services.ts';
 import { DEFAULT_SHUTDOWN_TIMEOUT_MS, onShutdownSignals } from './shutdown.ts';
 
@@ -21,9 +23,14 @@ export function portNumber(raw: string, what: string): number {
   return n;
 }
 
+/** The logger of a service: every line scrubbed of the API tokens and of the passwords and secrets the configuration names. */
+export function serviceLogger(kind: ServiceKind, config: Config, env: NodeJS.ProcessEnv, destination?: NodeJS.WritableStream): Logger {
+  return createLogger({ base: { role: kind }, secrets: [...secretsFromEnv(env), ...secretsOfConfig(config, env)], ...(destination !== undefined && { destination }) });
+}
+
 export async function runService(kind: ServiceKind, opts: ServiceCommandOptions, env: NodeJS.ProcessEnv = process.env): Promise<void> {
   const config = loadConfig(opts.config ?? env.WEARSHIFT_CONFIG);
-  const logger = createLogger({ base: { role: kind } });
+  const logger = serviceLogger(kind, config, env);
   const port = opts.port !== undefined ? portNumber(opts.port, '--port') : env.PORT !== undefined && env.PORT !== '' ? portNumber(env.PORT, 'PORT') : DEFAULT_PORT;
   const timeoutMs = opts.shutdownTimeout === undefined ? DEFAULT_SHUTDOWN_TIMEOUT_MS : Number(opts.shutdownTimeout) * 1000;
   if (!(timeoutMs > 0)) throw new InputError(`--shutdown-timeout: expected a positive number of seconds, got "${opts.shutdownTimeout}"`);

@@ -3,7 +3,8 @@
  * `channels.floodControl` at 5 messages per target per window, each target — an e-mail address at a real SMTP server
  * (npm smtp-server), a webhook at a real HTTP receiver checked with the Standard Webhooks reference library (npm
  * standardwebhooks) — gets at most 5 single messages per window, and one summary per window lists the rest; every
- * incident reaches each target exactly once, singly or in a summary. Live worker on a private redis-server.
+ * incident reaches each target exactly once, singly or in a summary. Live worker on a private redis-server; /healthz
+ * of the same process is polled meanwhile, and its latency and the memory growth bounded generously.
  */
 import { randomBytes } from 'node:crypto';
 import { createServer, type Server } from 'node:http';
@@ -17,6 +18,9 @@ import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { startMailReceiver, type MailReceiver } from '../../src/demo/mailReceiver.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import Fastify, { type FastifyInstance } from 'fastify';
+import { healthRoutes } from '../../src/http/healthRoutes.ts';
+import { healthProbe } from '../helpers/healthProbe.ts';
 
 const WEBHOOK_SECRET = `whsec_${randomBytes(24).toString('base64')}`;
 const prefix = '{alarm-flood}';
@@ -25,6 +29,9 @@ const MAX = 5;
 /** 20 s windows: long enough for the flood to fall in one or two, short enough to wait for the summary. */
 const WINDOW_MINUTES = 1 / 3;
 const WINDOW_MS = WINDOW_MINUTES * 60_000;
+/** Generous bounds for a busy two-core machine, never the speed of this one. */
+const HEALTHZ_MAX_MS = 2000;
+const MEMORY_GROWTH_MAX = 300 * 1024 * 1024;
 
 interface Received {
   readonly at: number;
@@ -37,6 +44,9 @@ let redis: RedisServer;
 let smtp: MailReceiver;
 let receiver: Server;
 let workers: RunningWorkers;
+/** /healthz served from this process, where the queue workers run: a flood must not stall it. */
+let health: FastifyInstance;
+let healthBase: string;
 const mail: Received[] = [];
 const hooks: Received[] = [];
 const summaryTexts: string[] = [];
@@ -102,6 +112,9 @@ channels:
     - { name: control-room, url: "http://127.0.0.1:${(receiver.address() as AddressInfo).port}/hooks", secrets: [FLOOD_TEST_WEBHOOK_SECRET] }
   floodControl: { maxMessages: ${MAX}, windowMinutes: ${WINDOW_MINUTES} }
 `);
+  health = Fastify();
+  await health.register(healthRoutes, { ping: async () => 'PONG' });
+  healthBase = await health.listen({ host: '127.0.0.1', port: 0 });
   const env = { FLOOD_TEST_WEBHOOK_SECRET: WEBHOOK_SECRET };
   workers = startWorkers(
     { connection: redis.client(), config, logger: silentLogger(), channels: notificationChannels(config.channels, { logger: silentLogger(), env }), apiBaseUrl: 'https://wearshift.waterworks.example' },
@@ -111,6 +124,7 @@ channels:
 
 afterAll(async () => {
   await workers?.close();
+  await health?.close();
   await smtp?.close();
   await new Promise<void>((resolve) => (receiver ? receiver.close(() => resolve()) : resolve()));
   await redis?.dispose();
@@ -127,6 +141,8 @@ function allowance(received: readonly Received[]): number {
 
 describe('alarm flood', () => {
   it('rate-limits each target and summarises the rest, losing no incident', async () => {
+    const rssBefore = process.memoryUsage().rss;
+    const probe = healthProbe(healthBase, 100);
     const producer = createResultProducer({ connection: redis.client(), prefix });
     const sampledAt = new Date(Date.now() - 3_600_000).toISOString();
     const outcomes = await producer.add(Array.from({ length: UNITS }, (_, i) => ({ sampleId: `LAB-${i}`, unit: `FL-${i}`, component: 'gearbox', sampledAt, oilHours: 200, readings: { Fe: 120 } })));
@@ -136,6 +152,11 @@ describe('alarm flood', () => {
     const covered = (received: readonly Received[]) => new Set(received.flatMap((r) => r.incidents)).size;
     // Every incident reaches each target, singly or in a summary (the last summary comes at its window's end).
     await until('every incident by e-mail and webhook', () => covered(mail) === UNITS && covered(hooks) === UNITS, 5 * 60_000);
+    const probed = await probe.stop();
+    expect(probed.failures).toEqual([]);
+    expect(probed.answered).toBeGreaterThan(0);
+    expect(probed.slowest).toBeLessThan(HEALTHZ_MAX_MS);
+    expect(process.memoryUsage().rss - rssBefore).toBeLessThan(MEMORY_GROWTH_MAX);
 
     for (const received of [mail, hooks]) {
       const all = received.flatMap((r) => r.incidents);

@@ -24,6 +24,8 @@ const TIME_LIMIT_MS = 5000;
 // jobs beside), yet far below what the attacks did before their fixes (a 16 s stall, refused for two minutes, 262 s).
 const HEALTHZ_MAX_MS = 10_000;
 const ANSWER_WITHIN_MS = TIME_LIMIT_MS + 60_000;
+/** Generous: the 50 000 samples are cloned to the chart thread, which holds its own heap. */
+const MEMORY_GROWTH_MAX = 1024 * 1024 * 1024;
 
 /** An invented gearbox history: eight samples per oil charge, iron rising along each charge. */
 function history(n: number): Sample[] {
@@ -74,23 +76,31 @@ describe('chart rendering under load', () => {
     const probe = startProbe();
     const rssBefore = process.memoryUsage().rss;
     const t0 = performance.now();
+    const answers: string[] = [];
     for (const format of ['svg', 'png']) {
+      const asked = performance.now();
       const res = await fetch(`${base}/v1/units/LONG-50K/components/gearbox/chart.${format}?measurand=Fe`, { headers: viewer, signal: AbortSignal.timeout(ANSWER_WITHIN_MS) });
       const body = Buffer.from(await res.arrayBuffer());
+      answers.push(`chart.${format} ${res.status} in ${(performance.now() - asked).toFixed(0)} ms`);
       // Either drawn (over the latest 1 000 samples) or abandoned at the time limit; never a stall, never a 500.
       expect([200, 503]).toContain(res.status);
       if (res.status === 503) expect(res.headers.get('retry-after')).toMatch(/^\d+$/);
       else expect(body.length).toBeLessThan(2 * 1024 * 1024);
     }
+    const asked = performance.now();
     const series = await fetch(`${base}/v1/units/LONG-50K/components/gearbox/series?measurand=Fe`, { headers: viewer, signal: AbortSignal.timeout(ANSWER_WITHIN_MS) });
     await series.arrayBuffer();
+    answers.push(`series ${series.status} in ${(performance.now() - asked).toFixed(0)} ms`);
     expect([200, 503]).toContain(series.status);
     expect(performance.now() - t0).toBeLessThan(3 * ANSWER_WITHIN_MS);
     const health = await probe.stop();
     expect(health.failures).toEqual([]);
     expect(health.answered).toBeGreaterThan(3);
     expect(health.slowest).toBeLessThan(HEALTHZ_MAX_MS);
-    console.info(`50k-sample chart: /healthz answered ${health.answered} times, slowest ${health.slowest.toFixed(0)} ms; rss +${((process.memoryUsage().rss - rssBefore) / 1e6).toFixed(0)} MB`);
+    expect(process.memoryUsage().rss - rssBefore).toBeLessThan(MEMORY_GROWTH_MAX);
+    // The issue's figures (an answer within 1 s, /healthz under 100 ms) are measured and reported here, not asserted:
+    // they depend on the machine; the assertions above are the generous bounds.
+    console.info(`50k-sample chart: ${answers.join(', ')}; /healthz answered ${health.answered} times, slowest ${health.slowest.toFixed(0)} ms; rss +${((process.memoryUsage().rss - rssBefore) / 1e6).toFixed(0)} MB`);
   }, 300_000);
 
   it('draws a history over the budget over its latest samples, and says so in the heading', async () => {

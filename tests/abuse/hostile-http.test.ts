@@ -19,7 +19,13 @@ import { createResultProducer, type ResultProducer } from '../../src/queue/produ
 import { signAckLink } from '../../src/notify/ackLink.ts';
 import { connectRedis, type RedisConnection } from '../../src/redis/connection.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
-import { createLogger } from '../../src/telemetry/logger.ts';
+import { RedisStore } from '../../src/redis/redisStore.ts';
+import { Partitions } from '../../src/redis/keys.ts';
+import { openPartitionedQueues, resolveQueueSettings, QUEUE_NAMES } from '../../src/queue/queues.ts';
+import { SampleVerdicts } from '../../src/queue/sampleVerdicts.ts';
+import type { Queue } from 'bullmq';
+import { parseConfig } from '../../src/domain/configFile.ts';
+import { serviceLogger } from '../../src/runtime/runService.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { healthProbe } from '../helpers/healthProbe.ts';
@@ -28,6 +34,25 @@ import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 const prefix = '{hostile}';
 const TOKENS = { ingest: 'ingest-hostile-5d1c2e8a', responder: 'responder-hostile-9b3f7a61', viewer: 'viewer-hostile-27c4e0d9' };
 const ACK_SECRET = 'ack-secret-hostile-3e8f1a0b2c';
+/** The credentials a configuration names (environment variables, a literal webhook secret): none may reach the log. */
+const CONFIG_SECRETS = {
+  HOSTILE_SMTP_PASSWORD: 'smtp-password-hostile-8c1d',
+  HOSTILE_WEBHOOK_SECRET: 'webhook-secret-hostile-f07a2e',
+  HOSTILE_MQTT_PASSWORD: 'mqtt-password-hostile-41bb',
+  HOSTILE_ACK_SECRET: ACK_SECRET,
+};
+const LITERAL_WEBHOOK_SECRET = 'whsec_aG9zdGlsZS1saXRlcmFsLXNlY3JldA==';
+const SERVICE_CONFIG = parseConfig(`
+channels:
+  email:
+    from: "wearshift <alerts@plant.example>"
+    smtp: { host: 127.0.0.1, port: 2525, user: alerts, passwordEnv: HOSTILE_SMTP_PASSWORD }
+  webhooks:
+    - { name: control-room, url: "http://127.0.0.1:9/hooks", secrets: [HOSTILE_WEBHOOK_SECRET, "${LITERAL_WEBHOOK_SECRET}"] }
+  mqtt:
+    - { name: plant-broker, url: "mqtt://127.0.0.1:1883", username: wearshift, passwordEnv: HOSTILE_MQTT_PASSWORD }
+  ackLinks: { baseUrl: "https://wearshift.plant.example", secretEnv: HOSTILE_ACK_SECRET }
+`);
 const NOW = new Date();
 const LIMITS = {
   maxRecordsPerRequest: 500,
@@ -61,6 +86,7 @@ let base: string;
 let host: { host: string; port: number };
 let hub: EventHub;
 let producer: ResultProducer;
+let evaluateQueues: Queue[] = [];
 let redisGone = false;
 const logLines: string[] = [];
 const saved = { ...process.env };
@@ -99,6 +125,9 @@ beforeAll(async () => {
   await incidents.applySteps({ unit: 'PS7-Quarry Road', component: 'gearbox' }, [step('PS7-Quarry Road', 'gearbox', 'LAB-7001')], { group: 'gearboxes', now: NOW, quietBefore: new Date(0) });
   producer = createResultProducer({ connection: request, prefix });
   hub = createEventHub();
+  const store = new RedisStore(request, { prefix });
+  const partitions = new Partitions(prefix, 1);
+  evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, request, resolveQueueSettings({ prefix }), partitions);
   const capture = new Writable({
     write(chunk, _encoding, done) {
       logLines.push(String(chunk));
@@ -106,11 +135,14 @@ beforeAll(async () => {
     },
   });
   app = await buildServer({ tokens: accessTokensFromEnv(process.env),
-    logger: createLogger({ level: 'info', destination: capture }),
+    // The logger `wearshift serve` makes for this configuration (src/runtime/runService.ts).
+    logger: serviceLogger('serve', SERVICE_CONFIG, { ...process.env, ...CONFIG_SECRETS }, capture),
     metrics: createMetrics({ defaultMetrics: false }),
     ping: () => request.ping(),
     producer,
     incidents,
+    histories: { store, ledger: store, config: ConfigSchema.parse({}) },
+    sampleVerdicts: new SampleVerdicts(store, evaluateQueues, partitions),
     hub,
     ackLinkSecrets: [ACK_SECRET],
     limits: LIMITS,
@@ -123,6 +155,7 @@ afterAll(async () => {
   process.env = saved;
   await app?.close();
   await producer?.close();
+  await Promise.all(evaluateQueues.map((q) => q.close()));
   request?.disconnect();
   if (!redisGone) await redis?.dispose();
 });
@@ -146,6 +179,7 @@ const within = <T,>(p: Promise<T>, ms: number, what: string) =>
 
 describe('records per request', () => {
   it('refuses more records than the cap with 413 naming it, and the reply does not grow with the garbage sent', async () => {
+    const rssBefore = process.memoryUsage().rss;
     const probe = startProbe();
     const tooMany = await fetch(`${base}/v1/results`, { method: 'POST', headers: { ...auth('ingest'), 'content-type': 'application/json' }, body: JSON.stringify(Array.from({ length: 501 }, () => ({}))) });
     expect(tooMany.status).toBe(413);
@@ -174,6 +208,7 @@ describe('records per request', () => {
     const health = await probe.stop();
     expect(health.failures).toEqual([]);
     expect(health.slowest).toBeLessThan(HEALTHZ_MAX_MS);
+    expect(process.memoryUsage().rss - rssBefore).toBeLessThan(MEMORY_GROWTH_MAX);
   }, 120_000);
 });
 
@@ -279,7 +314,7 @@ describe('live-event clients', () => {
 });
 
 describe('secrets in the log', () => {
-  it('never carry an acknowledgement token, a token query or an API token', async () => {
+  it('never carry an acknowledgement token, a token query, an API token or a credential the configuration names', async () => {
     const link = signAckLink({ incidentId: SHORT_ID, recipient: 'second@plant.example', expiresAt: new Date(Date.now() + 3_600_000) }, ACK_SECRET);
     const forged = `${link.slice(0, 12)}${link[12] === 'A' ? 'B' : 'A'}${link.slice(13)}`;
     await (await fetch(`${base}/ack/${link}`)).text();
@@ -290,12 +325,16 @@ describe('secrets in the log', () => {
     await (await fetch(`${base}/v1/incidents/${TOKENS.responder}`, { headers: auth('viewer') })).text();
     // Something that logs a header value or an error holding one.
     app.log.warn({ upstream: `Bearer ${TOKENS.ingest}` }, `forwarded with Authorization: Bearer ${TOKENS.ingest}`);
+    // A channel or library error that quotes a configured credential in its text (not in a field named as secret).
+    for (const secret of [...Object.values(CONFIG_SECRETS), LITERAL_WEBHOOK_SECRET]) app.log.error({ err: { message: `login refused for ${secret}` }, detail: [`auth=${secret}`] }, `delivery failed: ${secret}`);
     await new Promise((r) => setTimeout(r, 200));
     const log = logLines.join('');
     // The requests were logged (so the check below means something), with the secret parts replaced.
     expect(log).toContain('/ack/[redacted]');
     expect(log).toContain('token=[redacted]');
-    for (const secret of [link, forged, link.split('.')[0]!, link.split('.')[1]!, 'query-secret-0a9b8c7d', ...Object.values(TOKENS)]) expect(log).not.toContain(secret);
+    expect(log).toContain('delivery failed: [redacted]');
+    const secrets = [link, forged, link.split('.')[0]!, link.split('.')[1]!, 'query-secret-0a9b8c7d', ...Object.values(TOKENS), ...Object.values(CONFIG_SECRETS), LITERAL_WEBHOOK_SECRET];
+    for (const secret of secrets) expect(log, secret).not.toContain(secret);
   });
 });
 
@@ -305,11 +344,28 @@ describe('Redis away', () => {
     redisGone = true;
     const deadline = Date.now() + 30_000;
     while (request.status === 'ready' && Date.now() < deadline) await new Promise((r) => setTimeout(r, 50));
+    const incident = `/v1/incidents/${encodeURIComponent(SHORT_ID)}`;
+    const component = '/v1/units/PS7-Quarry%20Road/components/gearbox';
+    const json = (role: keyof typeof TOKENS, body: unknown): RequestInit => ({ method: 'POST', headers: { ...auth(role), 'content-type': 'application/json' }, body: JSON.stringify(body) });
+    const link = signAckLink({ incidentId: SHORT_ID, recipient: 'away@plant.example', expiresAt: new Date(Date.now() + 3_600_000) }, ACK_SECRET);
+    // Every route of the server that reads or writes Redis (src/http/*Routes.ts); the token-free board pages,
+    // /healthz, /openapi.json and /v1/events do not touch it.
     const routes: [string, string, RequestInit][] = [
       ['GET', '/v1/incidents', { headers: auth('viewer') }],
-      ['GET', `/v1/incidents/${encodeURIComponent(SHORT_ID)}`, { headers: auth('viewer') }],
-      ['POST', `/v1/incidents/${encodeURIComponent(SHORT_ID)}/note`, { headers: { ...auth('responder'), 'content-type': 'application/json' }, body: JSON.stringify({ by: 'R. Tanaka', note: 'checking' }) }],
-      ['POST', '/v1/results', { headers: { ...auth('ingest'), 'content-type': 'application/json' }, body: JSON.stringify({ sampleId: 'X-1', unit: 'PS7', component: 'gearbox', sampledAt: NOW.toISOString(), readings: { Fe: 1 } }) }],
+      ['GET', incident, { headers: auth('viewer') }],
+      ['POST', `${incident}/note`, json('responder', { by: 'R. Tanaka', note: 'checking' })],
+      ['POST', `${incident}/ack`, json('responder', { by: 'R. Tanaka' })],
+      ['POST', `${incident}/shelve`, json('responder', { by: 'R. Tanaka', until: new Date(Date.now() + 3_600_000).toISOString(), reason: 'awaiting resample' })],
+      ['POST', `${incident}/unshelve`, json('responder', { by: 'R. Tanaka' })],
+      ['POST', `${incident}/resolve`, json('responder', { by: 'R. Tanaka', note: 'filter changed' })],
+      ['POST', '/v1/results', json('ingest', { sampleId: 'X-1', unit: 'PS7', component: 'gearbox', sampledAt: NOW.toISOString(), readings: { Fe: 1 } })],
+      ['GET', `${component}/series`, { headers: auth('viewer') }],
+      ['GET', `${component}/series?measurand=Fe&measurand=Cu`, { headers: auth('viewer') }],
+      ['GET', `${component}/chart.svg?measurand=Fe`, { headers: auth('viewer') }],
+      ['GET', `${component}/chart.png?measurand=Fe`, { headers: auth('viewer') }],
+      ['POST', `${component}/samples/LAB-7001/verdict`, json('responder', { verdict: 'confirmed', by: 'R. Tanaka' })],
+      ['GET', `/ack/${link}`, {}],
+      ['POST', `/ack/${link}`, { method: 'POST', headers: { 'content-type': 'application/x-www-form-urlencoded' }, body: 'name=R.+Tanaka' }],
       ['GET', '/readyz', {}],
     ];
     for (const [method, path, init] of routes) {

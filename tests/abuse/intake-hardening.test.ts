@@ -2,8 +2,8 @@
  * Careless and hostile content that used to pass: a correction sent with the same sampleId and revision (accepted,
  * then silently discarded), names that read like another unit ("PS1 " with a trailing space, "ＰＳ1" full-width,
  * "РS1" with a Cyrillic Р), and control characters (ESC, CR, C1) in notes and names that a terminal would act on
- * when `wearshift incidents show` or `import --dry-run` prints them. Real API, queue workers and CLI over a private
- * redis-server. The confusable letters are from Unicode Technical Standard #39 (confusables), from memory.
+ * when `wearshift incidents show`, `import --dry-run`, `replay` or `failed list` prints them. Real API, queue
+ * workers and CLI over a private redis-server. The confusable letters are from Unicode Technical Standard #39 (confusables), from memory.
  */
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -192,5 +192,28 @@ describe('control characters', () => {
     expect(`${run.out}${run.err}`).not.toMatch(/[\u001b]/);
     expect(run.err).toContain('\\x1B[2J');
     expect(run.err).toContain('line 2 (sampleId LAB-9302): warning: unit:');
+  });
+
+  it('in a file are shown escaped by `replay`', async () => {
+    const file = join(dir, 'hostile-replay.ndjson');
+    writeFileSync(file, `${JSON.stringify(result({ sampleId: 'LAB-9401', readings: { [`Fe${ESC}[2J`]: 1, [`Cu\u009b31m`]: 2 } }))}\n${JSON.stringify(result({ sampleId: 'LAB-9402', sampledAt: '2026-03-02T08:00:00Z' }))}\n`);
+    const run = await cli('replay', file, '--config', configFile, '--now', '2026-04-01T00:00:00Z');
+    // eslint-disable-next-line no-control-regex
+    expect(`${run.out}${run.err}`).not.toMatch(/[\u001b\u009b]/);
+    expect(run.err).toContain('\\x1B[2J');
+    expect(run.err).toContain('\\x9B31m');
+  });
+
+  it('in a job that failed are shown escaped by `failed list`', async () => {
+    const [results] = queues;
+    const job = await results!.add('result', result({ sampleId: `LAB-9501${ESC}]0;owned\u0007`, unit: `PS9${ESC}[2J` }));
+    const deadline = Date.now() + 60_000;
+    while ((await job.getState()) !== 'failed' && Date.now() < deadline) await new Promise((r) => setTimeout(r, 100));
+    expect(await job.getState()).toBe('failed');
+    const listed = await cli('failed', 'list', '--queue', 'results', '--config', configFile);
+    expect(listed.code).toBe(0);
+    // eslint-disable-next-line no-control-regex
+    expect(listed.out).not.toMatch(/[\u0007\u001b]/);
+    expect(listed.out).toContain('LAB-9501\\x1B]0;owned\\x07');
   });
 });

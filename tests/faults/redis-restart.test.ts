@@ -73,7 +73,9 @@ describe('Redis restarted mid-stream', () => {
 
   it('wearshift serve answers 503 with Retry-After while Redis is away, accepts nothing half, and takes results again after', async () => {
     const token = 'ingest-restart-5a1c';
-    const serve = await startWearshift('serve', { env: { ...scenario.env(hooks.secret), WEARSHIFT_TOKEN_INGEST: token } });
+    const viewer = 'viewer-restart-7e20';
+    const responder = 'responder-restart-c41b';
+    const serve = await startWearshift('serve', { env: { ...scenario.env(hooks.secret), WEARSHIFT_TOKEN_INGEST: token, WEARSHIFT_TOKEN_VIEWER: viewer, WEARSHIFT_TOKEN_RESPONDER: responder } });
     const send = (sampleId: string) =>
       fetch(`${serve.url}/v1/results`, {
         method: 'POST',
@@ -90,6 +92,26 @@ describe('Redis restarted mid-stream', () => {
     expect(during.status).toBe(503);
     expect(during.headers.get('retry-after')).toBe('5');
     expect(await during.json()).toMatchObject({ error: 'unavailable', message: expect.stringMatching(/nothing was accepted/) });
+    // The reading and acting routes too, as the running process wires them: 503 with Retry-After, never 500.
+    const component = `/v1/units/${encodeURIComponent('LS90-Marsh Lane')}/components/gearbox`;
+    const incident = `/v1/incidents/${encodeURIComponent('LS90-Marsh Lane/gearbox@RS-1')}`;
+    const asViewer = { authorization: `Bearer ${viewer}` };
+    const asResponder = { authorization: `Bearer ${responder}`, 'content-type': 'application/json' };
+    for (const [path, init] of [
+      ['/v1/incidents', { headers: asViewer }],
+      [incident, { headers: asViewer }],
+      [`${incident}/ack`, { method: 'POST', headers: asResponder, body: JSON.stringify({ by: 'R. Tanaka' }) }],
+      [`${component}/series?measurand=Fe&measurand=Cu`, { headers: asViewer }],
+      [`${component}/chart.svg?measurand=Fe`, { headers: asViewer }],
+      [`${component}/samples/RS-1/verdict`, { method: 'POST', headers: asResponder, body: JSON.stringify({ verdict: 'confirmed', by: 'R. Tanaka' }) }],
+    ] as [string, RequestInit][]) {
+      const res = await fetch(`${serve.url}${path}`, { ...init, signal: AbortSignal.timeout(30_000) });
+      const text = await res.text();
+      expect(`${path} ${res.status} ${res.headers.get('retry-after')}`, text).toBe(`${path} 503 5`);
+    }
+    // The metrics need no Redis to answer: what could not be read (queue depth, alarm figures) is left out or stale.
+    const metrics = await fetch(`${serve.url}/metrics`, { headers: asViewer, signal: AbortSignal.timeout(30_000) });
+    expect(metrics.status, await metrics.text()).toBe(200);
     await scenario.redis.start();
     await waitFor('serve to report itself ready again', async () => (await readiness(serve.url)) === 200, 30_000, 200);
     expect((await send('RS-3')).status).toBe(202);

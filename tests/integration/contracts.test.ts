@@ -184,6 +184,36 @@ describe('real HTTP answers match the OpenAPI document', () => {
     expectValid(responseSchema('/v1/results', 'post', 401), await anonymous.json(), 'POST /v1/results 401');
   });
 
+  it('POST /v1/results under careless and hostile input: conflict, warnings, errors left out, too many records, too large', async () => {
+    const good = { sampleId: 'C-50', unit: 'PS2-P3', component: 'gearbox', sampledAt: new Date(NOW.getTime() - 86_400_000).toISOString(), readings: { Fe: 12 } };
+    // Two versions of one sampleId and revision in one request: the second is a conflict.
+    const twice = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c'), body: JSON.stringify([good, { ...good, readings: { Fe: 13 } }]) });
+    const outcomes = (await twice.json()) as { status: string; conflict?: boolean }[];
+    expect([twice.status, outcomes[1]?.conflict]).toEqual([202, true]);
+    expectValid(responseSchema('/v1/results', 'post', 202), outcomes, 'POST /v1/results 202 with a conflict');
+    // A request of conflicts only is answered 409 with the same outcomes (a stored sample is needed for that, see
+    // tests/abuse/intake-hardening.test.ts): the document describes it.
+    expectValid(responseSchema('/v1/results', 'post', 409), [outcomes[1]], 'POST /v1/results 409');
+    // A unit name in letters that look Latin (a Cyrillic Р): accepted with a warning.
+    const lookAlike = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c'), body: JSON.stringify({ ...good, sampleId: 'C-51', unit: '\u0420S2-P3' }) });
+    const warned = (await lookAlike.json()) as { warnings?: unknown[] }[];
+    expect([lookAlike.status, warned[0]?.warnings?.length]).toEqual([202, 1]);
+    expectValid(responseSchema('/v1/results', 'post', 202), warned, 'POST /v1/results 202 with a warning');
+    // Beyond the first 100 rejected records, three problems are listed per record and the rest counted.
+    const empty = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c'), body: JSON.stringify(Array.from({ length: 120 }, () => ({}))) });
+    const rejected = (await empty.json()) as { moreErrors?: number }[];
+    expect([empty.status, rejected[119]!.moreErrors! > 0]).toEqual([422, true]);
+    expectValid(responseSchema('/v1/results', 'post', 422), rejected, 'POST /v1/results 422 with errors left out');
+    const tooMany = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c'), body: JSON.stringify(Array.from({ length: 5001 }, () => ({}))) });
+    const tooManyBody = (await tooMany.json()) as { error: string; maxRecords: number };
+    expect([tooMany.status, tooManyBody.error, tooManyBody.maxRecords]).toEqual([413, 'too-many-records', 5000]);
+    expectValid(responseSchema('/v1/results', 'post', 413), tooManyBody, 'POST /v1/results 413 too-many-records');
+    const tooLarge = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c'), body: JSON.stringify([{ sampleId: 'x'.repeat(6 * 1024 * 1024) }]) });
+    const tooLargeBody = (await tooLarge.json()) as { maxBytes: number };
+    expect([tooLarge.status, tooLargeBody.maxBytes]).toEqual([413, 5 * 1024 * 1024]);
+    expectValid(responseSchema('/v1/results', 'post', 413), tooLargeBody, 'POST /v1/results 413 payload-too-large');
+  });
+
   it('incidents: list, show, acknowledge, a bad body and an unknown id', async () => {
     await incidents.applySteps({ unit: 'PS2-P3', component: 'gearbox' }, [step('C-100')], { group: 'gearboxes', now: NOW, quietBefore: new Date(0) });
     const list = await fetch(`${base}/v1/incidents`, { headers: auth('view-c') });

@@ -7,6 +7,7 @@ import { ALL_QUEUES, isQueueName, listFailedJobs, retryAllFailedJobs, retryFaile
 import type { QueueName } from '../../queue/queues.ts';
 import { closeQuietly, connectForCommand, redisTarget, type RedisConnection as Redis } from '../../redis/connection.ts';
 import { formatTable, writeJsonLine, redisChoice } from '../output.ts';
+import { terminalText } from '../terminalText.ts';
 
 interface FailedOptions {
   config?: string;
@@ -46,7 +47,8 @@ export function registerFailed(program: Command): void {
         if (opts.json) return jobs.forEach((j) => writeJsonLine(j));
         if (jobs.length === 0) return void process.stdout.write('no failed jobs\n');
         const rows = jobs.map((j) => [j.ref, j.subject ?? '', j.failedAt?.slice(0, 19).replace('T', ' ') ?? '', j.attempts, j.reason]);
-        process.stdout.write(formatTable(['job', 'about', 'failed at', 'attempts', 'reason'], rows));
+        // What a job is about and why it failed can quote what a producer sent: shown escaped, never acting on the terminal.
+        process.stdout.write(terminalText(formatTable(['job', 'about', 'failed at', 'attempts', 'reason'], rows)));
       }),
     );
   failed

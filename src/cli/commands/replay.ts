@@ -17,6 +17,7 @@ import type { Config } from '../../domain/config.ts';
 import { describeState, type Incident } from '../../incidents/model.ts';
 import { componentView } from '../../pipeline/componentView.ts';
 import type { MemoryStore } from '../../pipeline/memory/memoryStore.ts';
+import { terminalText } from '../terminalText.ts';
 
 interface ReplayCommandOptions {
   config?: string;
@@ -47,7 +48,7 @@ export function registerReplay(program: Command): void {
       const zone = config.display.timeZone;
       for (const line of outcome.timeline) {
         if (opts.json) writeJsonLine(line);
-        else process.stdout.write(`${readable(line, zone)}\n`);
+        else process.stdout.write(terminalText(`${readable(line, zone)}\n`));
       }
       // The verdict as it stands after the last record (what the live worker reaches with the same results), and what
       // each component cannot be judged on yet.
@@ -59,15 +60,15 @@ export function registerReplay(program: Command): void {
       } else {
         process.stdout.write(`\nincidents after the last record: ${verdicts.length}\n`);
         for (const v of verdicts) {
-          process.stdout.write(`  ${v.incidentId}  ${v.kind}  ${severityWords(v.severity, v.peakSeverity)}  ${v.state}\n`);
-          if (v.closed === null) for (const f of v.forecast ?? []) process.stdout.write(`      ${f.text}\n`);
+          process.stdout.write(terminalText(`  ${v.incidentId}  ${v.kind}  ${severityWords(v.severity, v.peakSeverity)}  ${v.state}\n`));
+          if (v.closed === null) for (const f of v.forecast ?? []) process.stdout.write(terminalText(`      ${f.text}\n`));
         }
         if (verdicts.some((v) => v.closed === null && (v.forecast?.length ?? 0) > 0)) process.stdout.write(`  (${FORECAST_CAUTION})\n`);
         const waiting = readiness.flatMap((r) => r.measurands.filter((m) => m.changeDetection === 'waiting' || (m.band !== undefined && m.band.have < m.band.need)).map((m) => `  ${r.unit}/${r.component}  ${m.summary}`));
-        if (waiting.length > 0) process.stdout.write(`\nnot judged yet:\n${waiting.join('\n')}\n`);
+        if (waiting.length > 0) process.stdout.write(terminalText(`\nnot judged yet:\n${waiting.join('\n')}\n`));
         process.stdout.write(`\n${timeZoneNote(zone)}\n${ADVISORY_LINE}\n`);
       }
-      if (!opts.json) process.stderr.write(`${file}: ${outcome.records} records, ${outcome.rejected} rejected, ${outcome.timeline.length} timeline lines\n`);
+      if (!opts.json) process.stderr.write(terminalText(`${file}: ${outcome.records} records, ${outcome.rejected} rejected, ${outcome.timeline.length} timeline lines\n`));
       process.exitCode = outcome.rejected > 0 ? 1 : 0;
     });
 }
@@ -106,7 +107,7 @@ async function readinessLines(store: MemoryStore, config: Config) {
 
 function reportRejected(r: RejectedRecord, json: boolean): void {
   if (json) return writeJsonLine({ type: 'rejected', ...r });
-  for (const e of r.errors) process.stderr.write(`line ${r.line}${r.sampleId === undefined ? '' : ` (sampleId ${r.sampleId})`}: ${e.path || '(record)'}: ${e.reason}\n`);
+  for (const e of r.errors) process.stderr.write(terminalText(`line ${r.line}${r.sampleId === undefined ? '' : ` (sampleId ${r.sampleId})`}: ${e.path || '(record)'}: ${e.reason}\n`));
 }
 
 function readable(line: TimelineLine, zone: string): string {
