@@ -18,6 +18,11 @@ export interface FullEvaluation extends Evaluation {
 export interface EvaluateOptions extends AnalysisFoldOptions {
   /** What responders said of samples in doubt, by sampleId. */
   readonly marks?: ReadonlyMap<string, SampleMark>;
+  /**
+   * The fold's state after the samples before these (a stored checkpoint): the samples given are then the ones after
+   * it, and their steps are the ones the whole history gives. Default: the empty state (the samples are the history).
+   */
+  readonly start?: AnalysisState;
 }
 
 /**
@@ -31,7 +36,7 @@ export function evaluateComponent(
   options: EvaluateOptions = {},
 ): FullEvaluation {
   const history = buildHistory(samples);
-  const fold = new AnalysisFold(settings, emptyAnalysisState(history.unit, history.component), options);
+  const fold = new AnalysisFold(settings, options.start ?? emptyAnalysisState(history.unit, history.component), options);
   const groupAt = typeof group === 'function' ? group : () => group;
   const steps = history.samples.map((s) => fold.advance(s, groupAt(s), options.marks?.get(s.sampleId)));
   return { history, steps, baselines: fold.baselines(), state: fold.state() };

@@ -109,7 +109,8 @@ export async function buildServer(options: ServerOptions) {
     if (options.chartPool === undefined) app.addHook('onClose', async () => pool.close());
     await app.register(seriesRoutes, {
       tokens: options.tokens,
-      loadInput: (unit, component) => componentInput(histories.store, histories.ledger, histories.config, { unit, component }),
+      // The latest samples the chart draws, from the stored checkpoint before them: a long history costs no more.
+      loadInput: (unit, component) => componentInput(histories.store, histories.ledger, histories.config, { unit, component }, { latestSamples: pool.sampleBudget }),
       pool,
     });
   }

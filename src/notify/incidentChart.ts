@@ -27,7 +27,7 @@ export interface EmailChart {
 export async function incidentChart(store: ComponentStore, ledger: GroupLedger, config: Config, effect: NotifyEffect, pool: ChartPool = sharedChartPool()): Promise<EmailChart | undefined> {
   const measurand = effect.incident.measurand ?? [...effect.incident.findings].sort((a, b) => severityRank(b.severity) - severityRank(a.severity))[0]?.measurand;
   if (measurand === undefined) return undefined;
-  const input = await componentInput(store, ledger, config, effect.incident);
+  const input = await componentInput(store, ledger, config, effect.incident, { latestSamples: pool.sampleBudget });
   if (input === undefined) return undefined;
   const job = { kind: 'chart', format: 'png', input, measurand, width: EMAIL_CHART_WIDTH, title: true } as const;
   // A history within the drawing budget is drawn here at once (a fraction of a second); a longer one on the chart

@@ -6,6 +6,7 @@
  */
 import { evaluateComponent, type FullEvaluation } from '../analysis/evaluate.ts';
 import type { GroupStats, SampleMark } from '../analysis/model.ts';
+import type { AnalysisState } from '../analysis/fold/analysisFold.ts';
 import type { Sample } from '../domain/event.ts';
 import { readinessOf, type MeasurandReadiness } from '../analysis/readiness.ts';
 import type { Config } from '../domain/config.ts';
@@ -38,15 +39,19 @@ export async function componentView(store: ComponentStore, ledger: GroupLedger, 
   );
 }
 
-/** The view from its parts (pure): the whole history folded with the group statistics of each sample. */
+/**
+ * The view from its parts (pure): the history folded with the group statistics of each sample; with `start` (a stored
+ * checkpoint's state) only the samples after it, which then give the steps the whole history gives.
+ */
 export function viewOf(
   entry: ComponentEntry,
   settings: ComponentSettings,
   samples: readonly Sample[],
   groupAt: (s: Sample) => GroupStats | undefined,
   marks: ReadonlyMap<string, SampleMark> = new Map(),
+  start?: AnalysisState,
 ): ComponentView {
-  const evaluation = evaluateComponent(samples, settings, groupAt, { marks });
+  const evaluation = evaluateComponent(samples, settings, groupAt, { marks, ...(start !== undefined && { start }) });
   const latest = evaluation.history.samples.at(-1);
   const group = latest === undefined ? undefined : groupAt(latest);
   return { entry, settings, evaluation, group, readiness: readinessOf(evaluation.state, settings, group, latest) };

@@ -143,6 +143,8 @@ export interface ComponentStore {
   evaluationInput(ref: ComponentRef): Promise<EvaluationInput | undefined>;
   /** The latest sparse checkpoint strictly before `position`. */
   checkpointBefore(ref: ComponentRef, position: StepPosition): Promise<Checkpoint | undefined>;
+  /** The latest sparse checkpoint after at most `count` samples (where a bounded view of a long history starts). */
+  checkpointAtMost(ref: ComponentRef, count: number): Promise<Checkpoint | undefined>;
   acquire(ref: ComponentRef, ttlMs: number): Promise<Lease | undefined>;
   renew(lease: Lease, ttlMs: number): Promise<boolean>;
   release(lease: Lease): Promise<void>;

@@ -261,13 +261,22 @@ export class RedisStore implements ComponentStore, GroupLedger {
   }
 
   async checkpointBefore(ref: ComponentRef, position: StepPosition): Promise<Checkpoint | undefined> {
+    return this.latestCheckpointWhere(ref, (_, at) => comparePosition(at, position) < 0);
+  }
+
+  async checkpointAtMost(ref: ComponentRef, count: number): Promise<Checkpoint | undefined> {
+    return this.latestCheckpointWhere(ref, (n) => n <= count);
+  }
+
+  /** The sparse checkpoint with the highest count among those `accept` takes (by their count and position). */
+  private async latestCheckpointWhere(ref: ComponentRef, accept: (count: number, position: StepPosition) => boolean): Promise<Checkpoint | undefined> {
     const { c } = this.keysOf(ref);
     let best: { count: number; field: string } | undefined;
     for (const field of await this.redis.hkeys(c.evaluation)) {
       if (!field.startsWith('cp|')) continue;
       const bar = field.indexOf('|', 3);
       const count = Number(field.slice(3, bar));
-      if (comparePosition(parsePosition(field.slice(bar + 1)), position) >= 0) continue;
+      if (!accept(count, parsePosition(field.slice(bar + 1)))) continue;
       if (best === undefined || count > best.count) best = { count, field };
     }
     if (best === undefined) return undefined;

@@ -27,16 +27,20 @@ export type ChartJobResult =
 
 export function runChartJob(job: ChartJob, sampleBudget: number): ChartJobResult {
   const { input } = job;
-  const view = viewOf(input.entry, input.settings, input.samples, (s) => input.groups.get(monthOf(s.time)), input.marks);
+  const view = viewOf(input.entry, input.settings, input.samples, (s) => input.groups.get(monthOf(s.time)), input.marks, input.start?.analysis);
+  const earlier = input.start?.samples ?? 0;
   if (job.kind === 'series') {
     const series = buildComponentSeries(view.evaluation, view.settings, view.group, job.measurands === undefined ? {} : { measurands: job.measurands });
-    const body: ComponentSeries & { readonly readiness: readonly MeasurandReadiness[] } = { ...series, readiness: view.readiness };
+    const body: ComponentSeries & { readonly readiness: readonly MeasurandReadiness[]; readonly earlierSamples?: number } = { ...series, readiness: view.readiness, ...(earlier > 0 && { earlierSamples: earlier }) };
     return { kind: 'series', json: JSON.stringify(body) };
   }
   const full = buildComponentSeries(view.evaluation, view.settings, view.group, { measurands: [job.measurand] });
   const m = full.measurands.find((x) => x.measurand === job.measurand);
   if (m === undefined || (m.charges.every((c) => c.points.length === 0) && (m.cleanliness?.points.length ?? 0) === 0)) return { kind: 'no-readings' };
-  const { series, shown, of } = latestWindow(full, sampleBudget);
+  const window = latestWindow(full, sampleBudget);
+  const { series, shown } = window;
+  // Samples before a bounded input's start were folded into its checkpoint, not loaded: they count in the history.
+  const of = window.of + earlier;
   const heading = `${series.unit} / ${series.component} — ${m.measurand} (${m.label})${shown < of ? ` — latest ${shown} of ${of} samples` : ''}`;
   const svg = renderTrendChart(series, job.measurand, { width: job.width, title: job.title ? heading : false });
   const alt = chartAltText(series, job.measurand);

@@ -9,6 +9,8 @@ import type { Sample } from '../domain/event.ts';
 import { resolveSettings, type ComponentSettings } from '../domain/settings.ts';
 import { monthOf } from '../pipeline/groupShares.ts';
 import type { ComponentEntry, ComponentRef, ComponentStore, GroupLedger } from '../pipeline/ports.ts';
+import { viewStart } from '../pipeline/viewStart.ts';
+import type { AnalysisState } from '../analysis/fold/analysisFold.ts';
 
 export interface ComponentInput {
   readonly entry: ComponentEntry;
@@ -17,16 +19,28 @@ export interface ComponentInput {
   /** Group statistics by sampling month ("2026-03"), as of that month. */
   readonly groups: ReadonlyMap<string, GroupStats | undefined>;
   readonly marks: ReadonlyMap<string, SampleMark>;
+  /** Where the samples start when they are not the whole history: the analysis state after the earlier ones, and how many those are. */
+  readonly start?: { readonly analysis: AnalysisState; readonly samples: number };
 }
 
-export async function componentInput(store: ComponentStore, ledger: GroupLedger, config: Config, ref: ComponentRef): Promise<ComponentInput | undefined> {
+export interface ComponentInputOptions {
+  /**
+   * Load at least this many of the latest samples, and start from the latest stored checkpoint before them rather
+   * than from the first sample, so that the work a chart or series costs (reading, evaluating, cloning to the chart
+   * thread) is bounded by this and not by the length of the history. Default: the whole history.
+   */
+  readonly latestSamples?: number;
+}
+
+export async function componentInput(store: ComponentStore, ledger: GroupLedger, config: Config, ref: ComponentRef, options: ComponentInputOptions = {}): Promise<ComponentInput | undefined> {
   const [entry, input] = await Promise.all([store.component(ref), store.evaluationInput(ref)]);
   if (entry === undefined) return undefined;
   const settings = resolveSettings(config, entry);
-  const samples = (await store.samplesAfter(ref, null)).map((s) => s.sample);
+  const start = await viewStart(store, ref, input, options.latestSamples);
+  const samples = (await store.samplesAfter(ref, start?.position ?? null)).map((s) => s.sample);
   const groups = new Map<string, GroupStats | undefined>();
   for (const month of new Set(samples.map((s) => monthOf(s.time)))) groups.set(month, await ledger.asOf(settings.group, month, ref));
-  return { entry, settings, samples, groups, marks: input?.marks ?? new Map() };
+  return { entry, settings, samples, groups, marks: input?.marks ?? new Map(), ...(start !== undefined && { start: { analysis: start.analysis, samples: start.count } }) };
 }
 
 /** The input from its parts, the group statistics given per sample (tests, fixtures). */

@@ -178,12 +178,21 @@ export class MemoryStore implements ComponentStore, GroupLedger {
   }
 
   async checkpointBefore(ref: ComponentRef, position: StepPosition): Promise<Checkpoint | undefined> {
+    return this.latestCheckpointWhere(ref, (cp) => comparePosition(cp.position!, position) < 0);
+  }
+
+  async checkpointAtMost(ref: ComponentRef, count: number): Promise<Checkpoint | undefined> {
+    return this.latestCheckpointWhere(ref, (cp) => cp.count <= count);
+  }
+
+  /** The sparse checkpoint with the highest count among those `accept` takes. */
+  private latestCheckpointWhere(ref: ComponentRef, accept: (cp: Checkpoint) => boolean): Checkpoint | undefined {
     const c = this.byKey.get(componentKey(ref));
     if (c === undefined) return undefined;
     let best: Checkpoint | undefined;
     for (const json of c.sparse.values()) {
       const cp = JSON.parse(json) as Checkpoint;
-      if (cp.position === null || comparePosition(cp.position, position) >= 0) continue;
+      if (cp.position === null || !accept(cp)) continue;
       if (best === undefined || cp.count > best.count) best = cp;
     }
     return best;
