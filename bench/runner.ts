@@ -18,6 +18,7 @@ import { jsonLine, renderPart, type PartResult } from './report.ts';
 import { runQuiet } from './quiet.ts';
 import { runScaling } from './scaling.ts';
 import { runStartup } from './startup.ts';
+import { runLongChart } from './longChart.ts';
 import { redisServerVersion } from './pipeline.ts';
 import { runBackfill, runLatency, runThroughput } from './pipelineParts.ts';
 
@@ -52,6 +53,7 @@ export const PARTS: Record<string, Part> = {
   'evaluation-cost': (o) => runEvaluationCost(o),
   cluster: (o) => runCluster(o),
   startup: (o) => runStartup(o),
+  'long-chart': (o) => runLongChart(o),
 };
 
 const USAGE = `usage: npm run bench -- [--only NAME]... [--scale S] [--seed N] [--json]
