@@ -10,6 +10,8 @@ import { incidentRules } from '../src/incidents/policy.ts';
 import { evaluateStored } from '../src/pipeline/evaluateStored.ts';
 import { storeResult } from '../src/pipeline/storeResult.ts';
 import { RedisStore } from '../src/redis/redisStore.ts';
+import { monitorEventLoopDelay } from 'node:perf_hooks';
+import { ChartPool } from '../src/render/chartPool.ts';
 import { runChartJob } from '../src/render/chartJob.ts';
 import { componentInput } from '../src/render/componentInput.ts';
 import { startEmbeddedRedis } from '../src/runtime/embeddedRedis.ts';
@@ -75,6 +77,26 @@ export async function runLongChart(o: RunOptions): Promise<PartResult> {
     const whole = await answer(undefined);
     const bounded: Awaited<ReturnType<typeof answer>>[] = [];
     for (let i = 0; i < 5; i++) bounded.push(await answer(BUDGET));
+    // As `serve` answers: loaded on this thread, evaluated and drawn on the chart pool's thread, while the event loop's
+    // delay (what a /healthz request waits) is sampled.
+    const pool = new ChartPool({ sampleBudget: BUDGET });
+    const delay = monitorEventLoopDelay({ resolution: 5 });
+    const pooled: number[] = [];
+    try {
+      await pool.run({ kind: 'chart', format: 'svg', input: (await componentInput(store, store, config, ref, { latestSamples: BUDGET }))!, measurand: 'Fe', width: 800, title: true });
+      delay.enable();
+      for (let i = 0; i < 5; i++) {
+        const t0 = performance.now();
+        const input = (await componentInput(store, store, config, ref, { latestSamples: BUDGET }))!;
+        const r = await pool.run({ kind: 'chart', format: 'svg', input, measurand: 'Fe', width: 800, title: true });
+        if (r.kind !== 'svg') throw new Error(`long-chart: ${r.kind}`);
+        pooled.push(performance.now() - t0);
+      }
+      delay.disable();
+    } finally {
+      await pool.close();
+    }
+    const loopMaxMs = delay.max / 1e6;
     const totals = bounded.map((b) => b.loadMs + b.drawMs);
     const boundedMs = median(totals);
     const met = boundedMs <= ANSWER_WITHIN_MS;
@@ -85,6 +107,7 @@ export async function runLongChart(o: RunOptions): Promise<PartResult> {
         samples,
         whole: { samplesRead: whole.read, loadMs: round(whole.loadMs), drawMs: round(whole.drawMs) },
         bounded: { samplesRead: bounded[0]!.read, medianMs: round(boundedMs), runs: totals.map((t) => round(t)) },
+        onChartThread: { medianMs: round(median(pooled)), eventLoopDelayMaxMs: round(loopMaxMs) },
         ratio: round(boundedMs / (whole.loadMs + whole.drawMs)),
         target: { answerWithinMs: ANSWER_WITHIN_MS, met },
       },
@@ -93,6 +116,7 @@ export async function runLongChart(o: RunOptions): Promise<PartResult> {
         rows: [row('whole history', whole, whole.loadMs + whole.drawMs), row(`from the checkpoint (median of ${totals.length})`, bounded[totals.indexOf(boundedMs)] ?? bounded[0]!, boundedMs)],
       },
       notes: [
+        `on the chart thread, as serve answers (load here, evaluate and draw on the pool's thread): median ${fmt(median(pooled))} ms over ${pooled.length}; the longest event-loop delay meanwhile ${fmt(loopMaxMs)} ms (what a /healthz request would have waited; the issue's figure: under 100 ms)`,
         `one invented gearbox, ${samples} samples (Fe, Cu), stored in a private redis-server and evaluated once by the worker's code; the iron chart as GET …/chart.svg computes it (load on the request's thread, evaluation and drawing on the chart thread, here in process)`,
         `target: the chart of a ${samples}-sample history within ${ANSWER_WITHIN_MS} ms: ${met ? 'MET' : 'MISSED'} (${fmt(boundedMs)} ms, ${fmt((whole.loadMs + whole.drawMs) / boundedMs)} × faster than from the whole history)`,
       ],
