@@ -26,6 +26,7 @@ import { escalateProcessor } from './processors/escalateProcessor.ts';
 import { evaluateProcessor } from './processors/evaluateProcessor.ts';
 import { FLOOD_SUMMARY_JOB, notifyProcessor } from './processors/notifyProcessor.ts';
 import { DEFAULT_FLOOD_CONTROL } from '../domain/escalationConfig.ts';
+import { DeliveryLedger } from '../redis/deliveryLedger.ts';
 import { FloodLedger } from '../redis/floodLedger.ts';
 import { resultsProcessor } from './processors/resultsProcessor.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from './queues.ts';
@@ -144,6 +145,8 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
           channels,
           apiBaseUrl: deps.apiBaseUrl ?? 'http://localhost:8080',
           logger,
+          deliveries: new DeliveryLedger(deps.connection, queueSettings.prefix),
+          now,
           flood: {
             settings: deps.config.channels.floodControl ?? DEFAULT_FLOOD_CONTROL,
             ledger: new FloodLedger(deps.connection, queueSettings.prefix),

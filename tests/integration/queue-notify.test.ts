@@ -17,6 +17,10 @@ import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncid
 import { createResultProducer } from '../../src/queue/producer.ts';
 import { notificationChannels } from '../../src/channels/openChannels.ts';
 import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
+import { Queue } from 'bullmq';
+import type { NotifyEffect } from '../../src/incidents/model.ts';
+import { relayEffects } from '../../src/queue/outboxRelay.ts';
+import { idempotencyKey } from '../../src/notify/incidentMessage.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
@@ -141,5 +145,39 @@ describe('notifications from the live worker', () => {
     expect(acked.verified).toBe(true);
     // One delivery per effect, whatever the retries and relays.
     expect(new Set(hooks.map((h) => h.id)).size).toBe(hooks.length);
+  });
+
+  it('a delivered message handed to the queue again after its job was removed is not sent twice', async () => {
+    // An outbox relay that died between handing effects over and confirming them hands them over again when its
+    // claim runs out; by then the first job may be gone (completed jobs are kept by count and age), so the job id
+    // alone no longer makes it one job.
+    const connection = redis.client();
+    const notify = new Queue('notify', { connection, prefix });
+    const escalate = new Queue('escalate', { connection, prefix });
+    try {
+      const done = await notify.getCompleted();
+      const first = done.find((j) => (j.data as NotifyEffect).channel === 'webhook');
+      expect(first).toBeDefined();
+      const effect = first!.data as NotifyEffect;
+      const before = hooks.filter((h) => h.id === idempotencyKey(effect.key)).length;
+      expect(before).toBe(1);
+      await first!.remove();
+      await relayEffects([effect], { notify, escalate }, Date.now());
+      const deadline = Date.now() + 120_000;
+      let state = '';
+      let job = await notify.getJob(first!.id!);
+      while (Date.now() < deadline) {
+        job = await notify.getJob(first!.id!);
+        state = job === undefined ? 'gone' : await job.getState();
+        if (state === 'completed' || state === 'failed') break;
+        await new Promise((r) => setTimeout(r, 100));
+      }
+      expect(state).toBe('completed');
+      expect(String(job!.returnvalue)).toMatch(/delivered before; not sent again/);
+      expect(hooks.filter((h) => h.id === idempotencyKey(effect.key))).toHaveLength(1);
+    } finally {
+      await notify.close();
+      await escalate.close();
+    }
   });
 });

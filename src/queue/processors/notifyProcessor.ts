@@ -11,6 +11,7 @@ import type { Config } from '../../domain/config.ts';
 import type { NotifyEffect } from '../../incidents/model.ts';
 import { floodKey, floodWindow, heldMessage, type FloodControlSettings, type FloodTarget } from '../../notify/floodControl.ts';
 import type { ComponentStore, GroupLedger } from '../../pipeline/ports.ts';
+import type { DeliveryLedger } from '../../redis/deliveryLedger.ts';
 import type { FloodLedger } from '../../redis/floodLedger.ts';
 import type { Logger } from '../../telemetry/logger.ts';
 import { incidentChart } from '../../notify/incidentChart.ts';
@@ -30,6 +31,13 @@ export interface NotifyDeps {
   readonly channels: NotificationChannels;
   readonly apiBaseUrl: string;
   readonly logger: Logger;
+  /**
+   * Deliveries already made, by idempotency key: a job that comes again for a delivered message (handed over
+   * twice after its first job was removed) sends nothing. Without it, every job is delivered.
+   */
+  readonly deliveries?: Pick<DeliveryLedger, 'delivered' | 'record'>;
+  /** The clock a delivery is recorded with. Default `Date.now`. */
+  readonly now?: () => number;
   /** Alarm-flood handling; without it every message is delivered. */
   readonly flood?: {
     readonly settings: FloodControlSettings;
@@ -66,9 +74,12 @@ export function notifyProcessor(deps: NotifyDeps): Processor<NotifyEffect | Floo
         maxMessages: flood.settings.maxMessages,
         held,
       };
-      return refusedForGood(() => deps.channels.deliverSummary(summary, data.window, job.attemptsMade + 1));
+      const summaryKey = `flood-summary:${floodKey(data, data.window)}`;
+      if (await deps.deliveries?.delivered(summaryKey)) return 'flood summary: delivered before; not sent again';
+      return once(summaryKey, () => deps.channels.deliverSummary(summary, data.window, job.attemptsMade + 1));
     }
     const effect = job.data as NotifyEffect;
+    if (await deps.deliveries?.delivered(effect.key)) return `${effect.channel} ${effect.target}: delivered before; not sent again`;
     const samples = (await deps.store.revisions(effect.incident)).map((s) => s.sample);
     const message = incidentMessage(effect, samples, deps.apiBaseUrl);
     if (flood !== undefined) {
@@ -85,8 +96,15 @@ export function notifyProcessor(deps: NotifyDeps): Processor<NotifyEffect | Floo
       }
     }
     const chart = effect.channel === 'email' ? await emailChart(effect) : undefined;
-    return refusedForGood(() => deps.channels.deliver({ effect, message, attempt: job.attemptsMade + 1, ...(chart && { chart }) }));
+    return once(effect.key, () => deps.channels.deliver({ effect, message, attempt: job.attemptsMade + 1, ...(chart && { chart }) }));
   };
+
+  /** Delivers a message and records it as delivered as soon as the channel took it. */
+  async function once(messageKey: string, deliver: () => Promise<string>): Promise<string> {
+    const outcome = await refusedForGood(deliver);
+    await deps.deliveries?.record(messageKey, (deps.now ?? Date.now)());
+    return outcome;
+  }
 }
 
 /** A refusal will come again: no retry (BullMQ's UnrecoverableError); anything else is retried with backoff. */

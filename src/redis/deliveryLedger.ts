@@ -1,0 +1,34 @@
+/**
+ * Which notifications have been delivered, shared by every worker process. BullMQ drops a job id's memory when the
+ * completed job is removed (queue option `keepCompleted`); an effect handed to the notify queue again after that
+ * (an outbox relay that died between handing over and confirming, a re-run evaluation) would become a new job and
+ * a second message. The notify processor asks this ledger first and records a delivery as soon as the channel took
+ * it, so only a message in flight when its worker died can go out twice (with the same idempotency key).
+ */
+import type { RedisConnection } from './connection.ts';
+
+/** How long a delivery is remembered: a week, far longer than any outbox claim, retry series or replay. */
+export const DELIVERED_KEEP_S = 7 * 24 * 3600;
+
+export class DeliveryLedger {
+  constructor(
+    private readonly redis: RedisConnection,
+    private readonly prefix: string,
+    private readonly keepS: number = DELIVERED_KEEP_S,
+  ) {}
+
+  /** True when the message with this idempotency key was delivered before. */
+  async delivered(messageKey: string): Promise<boolean> {
+    return (await this.redis.exists(this.key(messageKey))) === 1;
+  }
+
+  /** Records the delivery of the message with this idempotency key. */
+  async record(messageKey: string, at: number): Promise<void> {
+    await this.redis.set(this.key(messageKey), String(at), 'EX', this.keepS);
+  }
+
+  private key(messageKey: string): string {
+    // Under the prefix's hash tag, as every key of the program.
+    return `${this.prefix}:delivered:${messageKey}`;
+  }
+}
