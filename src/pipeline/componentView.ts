@@ -28,8 +28,7 @@ export async function componentView(store: ComponentStore, ledger: GroupLedger, 
   if (entry === undefined) return undefined;
   const settings = resolveSettings(config, entry);
   const stored = await store.samplesAfter(ref, null);
-  const stats = new Map<string, GroupStats>();
-  for (const month of new Set(stored.map((s) => monthOf(s.sample.time)))) stats.set(month, await ledger.asOf(settings.group, month, ref));
+  const stats = await ledger.asOfMonths(settings.group, stored.map((s) => monthOf(s.sample.time)), ref);
   return viewOf(
     entry,
     settings,

@@ -11,7 +11,6 @@
  * only, whatever the order they arrived in.
  */
 import { AnalysisFold, emptyAnalysisState, type AnalysisState, type FoldStep } from '../analysis/fold/analysisFold.ts';
-import type { GroupStats } from '../analysis/model.ts';
 import type { Config } from '../domain/config.ts';
 import { resolveSettings, type ComponentSettings } from '../domain/settings.ts';
 import { IncidentFold } from '../incidents/incidentFold.ts';
@@ -94,8 +93,7 @@ async function evaluateUnderLease(deps: EvaluationDeps, ref: ComponentRef, lease
   const now = deps.now();
   const group = settings.group;
   if (stored.length > 0) await ledger.touch(group, ref, stored.at(-1)!.sample.time);
-  const statsByMonth = new Map<string, GroupStats>();
-  for (const month of new Set(stored.map((s) => monthOf(s.sample.time)))) statsByMonth.set(month, await ledger.asOf(group, month, ref));
+  const statsByMonth = await ledger.asOfMonths(group, stored.map((s) => monthOf(s.sample.time)), ref);
 
   const fold = new AnalysisFold(settings, start.analysis);
   const incidents = new IncidentFold(incremental ? input.incidents : start.incidents, input.incidents, {

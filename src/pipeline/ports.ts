@@ -149,8 +149,8 @@ export interface ComponentStore {
   renew(lease: Lease, ttlMs: number): Promise<boolean>;
   release(lease: Lease): Promise<void>;
   commit(ref: ComponentRef, lease: Lease, commit: EvaluationCommit): Promise<CommitOutcome>;
-  /** Marks the component for evaluation from `from` (a late result of another component changed its group's past). */
-  markDirty(ref: ComponentRef, from: StepPosition): Promise<void>;
+  /** Marks each component for evaluation from its `from` (a late result of another component changed its group's past). */
+  markDirty(marks: readonly { readonly ref: ComponentRef; readonly from: StepPosition }[]): Promise<void>;
   /** Records what a responder said of a sample and marks the component for evaluation from it. */
   markSample(ref: ComponentRef, sampleId: string, mark: SampleMark | null): Promise<boolean>;
   /** The findings log of the component, in time order (steps with findings, the latest ones). */
@@ -167,6 +167,8 @@ export interface ComponentStore {
 export interface GroupLedger {
   /** The statistics that apply to samples of `month`, without the component's own share. */
   asOf(group: string, month: string, self: ComponentRef): Promise<GroupStats>;
+  /** `asOf` for each of several months (an evaluation's samples span several), by month. */
+  asOfMonths(group: string, months: readonly string[], self: ComponentRef): Promise<Map<string, GroupStats>>;
   /** Notes that `self` is being evaluated up to `horizon` (epoch ms): a later change before it re-evaluates it. */
   touch(group: string, self: ComponentRef, horizon: number): Promise<void>;
   /** Components of the group evaluated up to `from` (epoch ms) or later. */

@@ -21,8 +21,8 @@ export async function settleComponent(deps: EvaluationDeps, ref: ComponentRef, o
       if (result.kind !== 'evaluated') break;
       evaluations += 1;
       onEvaluated?.(result);
+      await deps.store.markDirty(result.cascade);
       for (const c of result.cascade) {
-        await deps.store.markDirty(c.ref, c.from);
         if (!queued.has(componentKey(c.ref))) {
           queued.add(componentKey(c.ref));
           queue.push(c.ref);

@@ -12,7 +12,7 @@ import type { ComponentRef } from '../pipeline/ports.ts';
 import type { Partitions } from '../redis/keys.ts';
 import type { Logger } from '../telemetry/logger.ts';
 import type { Metrics } from '../telemetry/metrics.ts';
-import { scheduleEvaluation } from './queues.ts';
+import { scheduleEvaluation, scheduleEvaluations } from './queues.ts';
 
 export interface EvaluationRunnerDeps extends EvaluationDeps {
   readonly partitions: Partitions;
@@ -47,10 +47,8 @@ export async function runEvaluation(deps: EvaluationRunnerDeps, ref: ComponentRe
         deps.metrics?.findings(result.steps.flatMap((s) => s.findings));
         for (const change of result.changes) deps.live?.(incidentEvent(change));
         if (result.effects.length > 0) deps.onEffects?.();
-        for (const c of result.cascade) {
-          await deps.store.markDirty(c.ref, c.from);
-          await scheduleEvaluation(deps.evaluateQueues[deps.partitions.of(c.ref)]!, c.ref);
-        }
+        await deps.store.markDirty(result.cascade);
+        await scheduleEvaluations(deps.evaluateQueues, deps.partitions, result.cascade.map((c) => c.ref));
         if (result.cascade.length > 0) deps.logger.debug({ component: componentKey(ref), cascade: result.cascade.length }, 'group statistics changed: later samples of other units judged again');
       }
     }

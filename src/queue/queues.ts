@@ -80,3 +80,17 @@ export async function scheduleEvaluation(queue: Queue, ref: ComponentRef, delayM
   const data: EvaluateJobData = { unit: ref.unit, component: ref.component };
   await queue.add('evaluate', data, { delay: delayMs, deduplication: { id: componentKey(ref), keepLastIfActive: true } });
 }
+
+/** `scheduleEvaluation` for many components (a group's cascade), one round trip per partition. */
+export async function scheduleEvaluations(queues: readonly Queue[], partitions: Partitions, refs: readonly ComponentRef[]): Promise<void> {
+  const byPartition = new Map<number, ComponentRef[]>();
+  for (const ref of refs) {
+    const p = partitions.of(ref);
+    byPartition.set(p, [...(byPartition.get(p) ?? []), ref]);
+  }
+  await Promise.all(
+    [...byPartition].map(([p, list]) =>
+      queues[p]!.addBulk(list.map((ref) => ({ name: 'evaluate', data: { unit: ref.unit, component: ref.component } satisfies EvaluateJobData, opts: { deduplication: { id: componentKey(ref), keepLastIfActive: true } } }))),
+    ),
+  );
+}

@@ -351,9 +351,21 @@ export class RedisStore implements ComponentStore, GroupLedger {
     return { ok: true, ...(result[1] && { changedMonth: result[1] }) };
   }
 
-  async markDirty(ref: ComponentRef, from: StepPosition): Promise<void> {
-    const { c } = this.keysOf(ref);
-    await this.scripts.markDirty(c.evaluation, positionText(from));
+  async markDirty(marks: readonly { readonly ref: ComponentRef; readonly from: StepPosition }[]): Promise<void> {
+    // One round trip per partition (a group's cascade marks dozens; a cluster's pipeline stays within one slot).
+    const byTag = new Map<string, string[]>();
+    for (const { ref, from } of marks) {
+      const tag = this.tagOf(ref);
+      byTag.set(tag, [...(byTag.get(tag) ?? []), this.keysOf(ref).c.evaluation, positionText(from)]);
+    }
+    await Promise.all(
+      [...byTag.values()].map(async (args) => {
+        const pipeline = this.redis.pipeline() as unknown as Record<'wearshift_markDirty', (key: string, position: string) => void> & { exec(): Promise<Array<[Error | null, unknown]> | null> };
+        for (let i = 0; i < args.length; i += 2) pipeline.wearshift_markDirty(args[i]!, args[i + 1]!);
+        const failed = ((await pipeline.exec()) ?? []).find(([err]) => err !== null);
+        if (failed) throw failed[0]!;
+      }),
+    );
   }
 
   async markSample(ref: ComponentRef, sampleId: string, mark: SampleMark | null): Promise<boolean> {
@@ -387,6 +399,14 @@ export class RedisStore implements ComponentStore, GroupLedger {
   // The group ledger.
 
   async asOf(group: string, month: string, self: ComponentRef): Promise<GroupStats> {
+    return (await this.asOfMonths(group, [month], self)).get(month)!;
+  }
+
+  /**
+   * The statistics of several months at once (an evaluation's samples span several): the group's versions and the
+   * component's own shares are read once, and each month starts from the one before it.
+   */
+  async asOfMonths(group: string, months: readonly string[], self: ComponentRef): Promise<Map<string, GroupStats>> {
     const settings = resolveSettings(this.config, { unit: self.unit, component: self.component, group });
     const keepValues = settings.population.method === 'percentile';
     const selfKeys = componentKeys(this.tagOf(self), self);
@@ -408,56 +428,73 @@ export class RedisStore implements ComponentStore, GroupLedger {
             .join(','),
         )
         .join(';');
-    const signature = signatureBefore(month);
     const memoKey = `${group}|${componentKey(self)}|${withoutOwn ? 'own' : '-'}`;
     // Not for the percentile method (its statistics carry every value of the group), nor while the component's own
     // shares were last committed to another group (they move, and the versions of this group with them, at its next
     // commit).
     const memoized = !keepValues && this.statsMemoLimit > 0 && (!withoutOwn || committedPrefix === groupKeys(this.tagOf(self), group).versions.slice(0, -2));
-    const kept = memoized ? this.statsMemo.get(memoKey) : undefined;
-    if (kept !== undefined) {
-      this.statsMemo.delete(memoKey);
-      this.statsMemo.set(memoKey, kept);
+    let own: Promise<Map<string, MonthBucket>> | undefined;
+    // Without the memo, the month before serves as the base of the next.
+    let previous: { month: string; signature: string; sum: MonthBucket } | undefined;
+    const out = new Map<string, GroupStats>();
+    for (const month of [...new Set(months)].sort()) {
+      const signature = signatureBefore(month);
+      const kept = memoized ? this.statsMemo.get(memoKey) : undefined;
+      if (kept !== undefined) {
+        this.statsMemo.delete(memoKey);
+        this.statsMemo.set(memoKey, kept);
+      }
+      const exact = kept?.find((e) => e.month === month && e.signature === signature);
+      if (exact !== undefined) {
+        out.set(month, exact.stats);
+        previous = exact;
+        continue;
+      }
+      // An earlier month whose months before it are unchanged: its sum plus the months from it on.
+      const candidates = [...(kept ?? []), ...(previous !== undefined && !keepValues ? [previous] : [])];
+      const base = candidates
+        .filter((e) => e.month < month && e.signature === signatureBefore(e.month))
+        .sort((a, b) => (a.month < b.month ? -1 : a.month > b.month ? 1 : 0))
+        .at(-1);
+      const wanted = (m: string) => m < month && (base === undefined || m >= base.month);
+      const parts: Array<readonly [MonthBucket, 1 | -1]> = base === undefined ? [] : [[base.sum, 1]];
+      await Promise.all(
+        versionsByPartition.map(async (versions, n) => {
+          const g = groupKeys(this.partitions.tag(n), group);
+          await Promise.all(
+            Object.entries(versions)
+              .filter(([m]) => wanted(m))
+              .map(async ([m, version]) => {
+                const cacheKey = `${n}|${group}|${m}`;
+                const cached = this.bucketCache.get(cacheKey);
+                if (cached !== undefined && cached.version === version) {
+                  parts.push([cached.bucket, 1]);
+                  return;
+                }
+                const bucket = parseBucket(await this.redis.hgetall(g.bucket(m)));
+                if (keepValues) await this.readValues(`${g.bucketPrefix.slice(0, -3)}:vals:${m}:`, bucket);
+                this.bucketCache.set(cacheKey, { version, bucket });
+                parts.push([bucket, 1]);
+              }),
+          );
+        }),
+      );
+      if (withoutOwn) {
+        own ??= this.ownBuckets(selfKeys);
+        for (const [m, bucket] of await own) if (wanted(m)) parts.push([bucket, -1]);
+      }
+      if (this.bucketCache.size > 10_000) this.bucketCache.clear();
+      const sum = combineBuckets(parts, keepValues);
+      const stats = groupStatsOf(group, sum, settings);
+      out.set(month, stats);
+      previous = { month, signature, sum };
+      if (memoized) {
+        const entries = [...(kept ?? []).filter((e) => e.month !== month), { month, signature, sum, stats }].sort((a, b) => (a.month < b.month ? -1 : 1));
+        this.statsMemo.set(memoKey, entries.slice(-MEMO_MONTHS));
+        while (this.statsMemo.size > this.statsMemoLimit) this.statsMemo.delete(this.statsMemo.keys().next().value!);
+      }
     }
-    const exact = kept?.find((e) => e.month === month && e.signature === signature);
-    if (exact !== undefined) return exact.stats;
-    // An earlier month whose months before it are unchanged: its sum plus the months from it on.
-    const base = kept?.filter((e) => e.month < month && e.signature === signatureBefore(e.month)).at(-1);
-    const wanted = (m: string) => m < month && (base === undefined || m >= base.month);
-    const parts: Array<readonly [MonthBucket, 1 | -1]> = base === undefined ? [] : [[base.sum, 1]];
-    await Promise.all(
-      versionsByPartition.map(async (versions, n) => {
-        const g = groupKeys(this.partitions.tag(n), group);
-        await Promise.all(
-          Object.entries(versions)
-            .filter(([m]) => wanted(m))
-            .map(async ([m, version]) => {
-              const cacheKey = `${n}|${group}|${m}`;
-              const cached = this.bucketCache.get(cacheKey);
-              if (cached !== undefined && cached.version === version) {
-                parts.push([cached.bucket, 1]);
-                return;
-              }
-              const bucket = parseBucket(await this.redis.hgetall(g.bucket(m)));
-              if (keepValues) await this.readValues(`${g.bucketPrefix.slice(0, -3)}:vals:${m}:`, bucket);
-              this.bucketCache.set(cacheKey, { version, bucket });
-              parts.push([bucket, 1]);
-            }),
-        );
-      }),
-    );
-    if (withoutOwn) {
-      for (const [m, bucket] of await this.ownBuckets(selfKeys)) if (wanted(m)) parts.push([bucket, -1]);
-    }
-    if (this.bucketCache.size > 10_000) this.bucketCache.clear();
-    const sum = combineBuckets(parts, keepValues);
-    const stats = groupStatsOf(group, sum, settings);
-    if (memoized) {
-      const entries = [...(kept ?? []).filter((e) => e.month !== month), { month, signature, sum, stats }].sort((a, b) => (a.month < b.month ? -1 : 1));
-      this.statsMemo.set(memoKey, entries.slice(-MEMO_MONTHS));
-      while (this.statsMemo.size > this.statsMemoLimit) this.statsMemo.delete(this.statsMemo.keys().next().value!);
-    }
-    return stats;
+    return out;
   }
 
   async touch(group: string, self: ComponentRef, horizon: number): Promise<void> {

@@ -38,8 +38,7 @@ export async function componentInput(store: ComponentStore, ledger: GroupLedger,
   const settings = resolveSettings(config, entry);
   const start = await viewStart(store, ref, input, options.latestSamples);
   const samples = (await store.samplesAfter(ref, start?.position ?? null)).map((s) => s.sample);
-  const groups = new Map<string, GroupStats | undefined>();
-  for (const month of new Set(samples.map((s) => monthOf(s.time)))) groups.set(month, await ledger.asOf(settings.group, month, ref));
+  const groups: Map<string, GroupStats | undefined> = await ledger.asOfMonths(settings.group, samples.map((s) => monthOf(s.time)), ref);
   return { entry, settings, samples, groups, marks: input?.marks ?? new Map(), ...(start !== undefined && { start: { analysis: start.analysis, samples: start.count } }) };
 }
 

@@ -288,11 +288,13 @@ export class MemoryStore implements ComponentStore, GroupLedger {
     return { ok: true, ...(changed !== undefined && { changedMonth: changed }) };
   }
 
-  async markDirty(ref: ComponentRef, from: StepPosition): Promise<void> {
-    const c = this.byKey.get(componentKey(ref));
-    if (c === undefined) return;
-    dirty(c, from);
-    c.mark += 1;
+  async markDirty(marks: readonly { readonly ref: ComponentRef; readonly from: StepPosition }[]): Promise<void> {
+    for (const { ref, from } of marks) {
+      const c = this.byKey.get(componentKey(ref));
+      if (c === undefined) continue;
+      dirty(c, from);
+      c.mark += 1;
+    }
   }
 
   async markSample(ref: ComponentRef, sampleId: string, mark: SampleMark | null): Promise<boolean> {
@@ -332,6 +334,12 @@ export class MemoryStore implements ComponentStore, GroupLedger {
     for (const [m, bucket] of g?.months ?? []) if (m < month) parts.push([bucket, 1]);
     if (c !== undefined && c.group === group) for (const [m, bucket] of ownBuckets(c)) if (m < month) parts.push([bucket, -1]);
     return groupStatsOf(group, combineBuckets(parts, keepValues), settings);
+  }
+
+  async asOfMonths(group: string, months: readonly string[], self: ComponentRef): Promise<Map<string, GroupStats>> {
+    const out = new Map<string, GroupStats>();
+    for (const month of new Set(months)) out.set(month, await this.asOf(group, month, self));
+    return out;
   }
 
   async touch(group: string, self: ComponentRef, horizon: number): Promise<void> {
