@@ -288,6 +288,8 @@ async function steadyPhase(s: Session, stream: readonly ResultEvent[], rate: num
   const notificationTypes: Record<string, number> = {};
   const toNotification: number[] = [];
   for (const job of await notifyJobs(s.queues.notify)) {
+    // An alarm-flood summary (held messages listed at the window's end) belongs to no one result.
+    if (job.data.incident === undefined) continue;
     const queuedFor = enqueuedAt.get(job.data.incident.lastSampleId);
     if (queuedFor === undefined) continue;
     toNotification.push(job.timestamp - queuedFor);
