@@ -77,8 +77,13 @@ export const DEFAULT_EVALUATE_RETRY_MS = 200;
  * nothing; while an evaluation runs, one more is kept to follow it (keepLastIfActive).
  */
 export async function scheduleEvaluation(queue: Queue, ref: ComponentRef, delayMs = 0): Promise<void> {
-  const data: EvaluateJobData = { unit: ref.unit, component: ref.component };
-  await queue.add('evaluate', data, { delay: delayMs, deduplication: { id: componentKey(ref), keepLastIfActive: true } });
+  const job = evaluateJob(ref, delayMs);
+  await queue.add(job.name, job.data, job.opts);
+}
+
+/** The evaluate job of a component: deduplicated by the component's key. */
+function evaluateJob(ref: ComponentRef, delayMs = 0): { name: 'evaluate'; data: EvaluateJobData; opts: JobsOptions } {
+  return { name: 'evaluate', data: { unit: ref.unit, component: ref.component }, opts: { delay: delayMs, deduplication: { id: componentKey(ref), keepLastIfActive: true } } };
 }
 
 /** `scheduleEvaluation` for many components (a group's cascade), one round trip per partition. */
@@ -90,7 +95,7 @@ export async function scheduleEvaluations(queues: readonly Queue[], partitions: 
   }
   await Promise.all(
     [...byPartition].map(([p, list]) =>
-      queues[p]!.addBulk(list.map((ref) => ({ name: 'evaluate', data: { unit: ref.unit, component: ref.component } satisfies EvaluateJobData, opts: { deduplication: { id: componentKey(ref), keepLastIfActive: true } } }))),
+      queues[p]!.addBulk(list.map((ref) => evaluateJob(ref))),
     ),
   );
 }
