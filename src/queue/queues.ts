@@ -91,11 +91,7 @@ export async function scheduleEvaluations(queues: readonly Queue[], partitions: 
   const byPartition = new Map<number, ComponentRef[]>();
   for (const ref of refs) {
     const p = partitions.of(ref);
-    byPartition.set(p, [...(byPartition.get(p) ?? []), ref]);
+    (byPartition.get(p) ?? byPartition.set(p, []).get(p)!).push(ref);
   }
-  await Promise.all(
-    [...byPartition].map(([p, list]) =>
-      queues[p]!.addBulk(list.map((ref) => evaluateJob(ref))),
-    ),
-  );
+  await Promise.all([...byPartition].map(([p, list]) => queues[p]!.addBulk(list.map((ref) => evaluateJob(ref)))));
 }

@@ -356,7 +356,8 @@ export class RedisStore implements ComponentStore, GroupLedger {
     const byTag = new Map<string, string[]>();
     for (const { ref, from } of marks) {
       const tag = this.tagOf(ref);
-      byTag.set(tag, [...(byTag.get(tag) ?? []), this.keysOf(ref).c.evaluation, positionText(from)]);
+      const args = byTag.get(tag) ?? byTag.set(tag, []).get(tag)!;
+      args.push(this.keysOf(ref).c.evaluation, positionText(from));
     }
     await Promise.all(
       [...byTag.values()].map(async (args) => {
