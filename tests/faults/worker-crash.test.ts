@@ -94,14 +94,15 @@ describe('a worker killed mid-backfill', () => {
     for (const inc of incidents) expect(mailsPerIncident(inc.id)).toBe(told.byChannel.email.filter((k) => k.startsWith(`${inc.id}:`)).length);
     // Delivery is at least once: a message the dead worker had sent but not yet recorded as sent goes out
     // again, with the same Message-ID. Only such messages may repeat, once: the job among those the dead worker
-    // held, the repeat from the worker started after the kill.
+    // held, the repeat from the worker started after the kill. (The job names the event in full, `wearshift.incident.opened`;
+    // the mail's X-Wearshift-Event header names it short, `opened`.)
     const repeats = smtp.mails.filter((m, i) => smtp.mails.findIndex((o) => o.messageId === m.messageId) !== i);
     for (const again of repeats) {
       const original = smtp.mails.find((m) => m.messageId === again.messageId)!;
       expect(smtp.mails.filter((m) => m.messageId === again.messageId)).toHaveLength(2);
       expect(original.at).toBeLessThanOrEqual(again.at);
       expect(again.at).toBeGreaterThan(restartedAt);
-      expect(notifyInFlight.some((e) => e.channel === 'email' && e.incidentId === again.incidentId && e.type === again.event)).toBe(true);
+      expect(notifyInFlight.some((e) => e.channel === 'email' && e.incidentId === again.incidentId && e.type === `wearshift.incident.${again.event}`)).toBe(true);
     }
     expect(repeats.length + hookRepeats.length).toBeLessThanOrEqual(notifyInFlight.length);
 
