@@ -18,7 +18,7 @@ import { emptyComponentIncidents, type StepPosition } from '../incidents/model.t
 import type { IncidentRules } from '../incidents/policy.ts';
 import { comparePosition, positionOf } from '../incidents/verdict.ts';
 import { monthOf, populationShare, startOfNextMonth } from './groupShares.ts';
-import type { BaselineShare, Checkpoint, ComponentRef, ComponentStore, EvaluationCommit, GroupLedger, Lease, SampleShare, StoredSample } from './ports.ts';
+import type { BaselineShare, Checkpoint, ComponentRef, ComponentStore, EvaluationCommit, EvaluationInput, GroupLedger, Lease, SampleShare, StoredSample } from './ports.ts';
 import { keepRenewed } from './keepRenewed.ts';
 import { incidentChanges } from './incidentChanges.ts';
 import type { IncidentChange } from './incidentChanges.ts';
@@ -59,27 +59,31 @@ export type EvaluationResult =
       readonly effects: readonly IncidentEffect[];
       /** Other components of the group to evaluate again, from the given position. */
       readonly cascade: readonly { readonly ref: ComponentRef; readonly from: StepPosition }[];
+      /** Nothing arrived while it ran: no evaluation of the component is due now (its lock is already let go). */
+      readonly settled: boolean;
       readonly durationMs: number;
     };
 
 export async function evaluateStored(deps: EvaluationDeps, ref: ComponentRef): Promise<EvaluationResult> {
+  const started = performance.now();
   const ttl = deps.lockTtlMs ?? DEFAULT_LOCK_TTL_MS;
-  const lease = await deps.store.acquire(ref, ttl);
-  if (lease === undefined) return { kind: 'busy' };
+  const held = await deps.store.acquireWithInput(ref, ttl);
+  if (held === undefined) return { kind: 'busy' };
+  const { lease, input } = held;
   const renewal = keepRenewed(deps.store, lease, ttl);
+  let result: EvaluationResult | undefined;
   try {
-    return await evaluateUnderLease(deps, ref, lease, () => renewal.lost);
+    if (input === undefined) return (result = { kind: 'empty' });
+    return (result = await evaluateUnderLease(deps, ref, lease, input, started, () => renewal.lost));
   } finally {
     renewal.stop();
-    await deps.store.release(lease);
+    // A settled commit let go of the lock in its own write.
+    if (!(result?.kind === 'evaluated' && result.settled)) await deps.store.release(lease);
   }
 }
 
-async function evaluateUnderLease(deps: EvaluationDeps, ref: ComponentRef, lease: Lease, lost: () => boolean): Promise<EvaluationResult> {
-  const started = performance.now();
+async function evaluateUnderLease(deps: EvaluationDeps, ref: ComponentRef, lease: Lease, input: EvaluationInput, started: number, lost: () => boolean): Promise<EvaluationResult> {
   const { store, ledger } = deps;
-  const input = await store.evaluationInput(ref);
-  if (input === undefined) return { kind: 'empty' };
   if (input.dirtyFrom === undefined && input.latest !== undefined) return { kind: 'unchanged' };
   const settings = resolveSettings(deps.config, input.entry);
   const latest = input.latest;
@@ -148,6 +152,7 @@ async function evaluateUnderLease(deps: EvaluationDeps, ref: ComponentRef, lease
     archived: verdict.archived,
     withdrawn: verdict.withdrawn,
     horizon: last?.time ?? 0,
+    releaseWhenSettled: true,
   };
   const outcome = await store.commit(ref, lease, commit);
   if (!outcome.ok) return { kind: outcome.reason === 'lost-lock' ? 'lost-lock' : 'retry' };
@@ -167,6 +172,7 @@ async function evaluateUnderLease(deps: EvaluationDeps, ref: ComponentRef, lease
     changes: incidentChanges(input.incidents, verdict.state, verdict.withdrawn),
     effects: verdict.effects,
     cascade,
+    settled: outcome.settled,
     durationMs: performance.now() - started,
   };
 }

@@ -119,10 +119,21 @@ export interface EvaluationCommit {
   readonly withdrawn: readonly Incident[];
   /** The latest sampling time folded, for the group's cascade. */
   readonly horizon: number;
+  /**
+   * Let go of the lease in the same write when nothing changed since the input was read (the evaluation is then
+   * complete, and a second look would find nothing to do). Default false.
+   */
+  readonly releaseWhenSettled?: boolean;
 }
 
 export type CommitOutcome =
-  | { readonly ok: true; /** Earliest month whose group statistics this commit changed, if any. */ readonly changedMonth?: string }
+  | {
+      readonly ok: true;
+      /** Earliest month whose group statistics this commit changed, if any. */
+      readonly changedMonth?: string;
+      /** Nothing changed since the input was read: no evaluation is due (and the lease was let go when asked to). */
+      readonly settled: boolean;
+    }
   | { readonly ok: false; readonly reason: 'lost-lock' | 'incidents-changed' };
 
 /** Proof of holding a component's evaluation lock; writes made under a lost lease are refused. */
@@ -146,6 +157,11 @@ export interface ComponentStore {
   /** The latest sparse checkpoint after at most `count` samples (where a bounded view of a long history starts). */
   checkpointAtMost(ref: ComponentRef, count: number): Promise<Checkpoint | undefined>;
   acquire(ref: ComponentRef, ttlMs: number): Promise<Lease | undefined>;
+  /**
+   * `acquire` and, when the lock was free, `evaluationInput` in one step (one round trip on Redis). Undefined when
+   * another holds the lock; `input` undefined when the component has no samples.
+   */
+  acquireWithInput(ref: ComponentRef, ttlMs: number): Promise<{ readonly lease: Lease; readonly input: EvaluationInput | undefined } | undefined>;
   renew(lease: Lease, ttlMs: number): Promise<boolean>;
   release(lease: Lease): Promise<void>;
   commit(ref: ComponentRef, lease: Lease, commit: EvaluationCommit): Promise<CommitOutcome>;

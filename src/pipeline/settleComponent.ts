@@ -28,6 +28,7 @@ export async function settleComponent(deps: EvaluationDeps, ref: ComponentRef, o
           queue.push(c.ref);
         }
       }
+      if (result.settled) break;
     }
   }
   return evaluations;

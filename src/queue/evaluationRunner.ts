@@ -50,6 +50,7 @@ export async function runEvaluation(deps: EvaluationRunnerDeps, ref: ComponentRe
         await deps.store.markDirty(result.cascade);
         await scheduleEvaluations(deps.evaluateQueues, deps.partitions, result.cascade.map((c) => c.ref));
         if (result.cascade.length > 0) deps.logger.debug({ component: componentKey(ref), cascade: result.cascade.length }, 'group statistics changed: later samples of other units judged again');
+        if (result.settled) return 'done';
       }
     }
   }

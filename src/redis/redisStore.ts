@@ -35,7 +35,7 @@ import { decodeCompactSample, decodeSample, encodeSample, encodeSampleCore, isCo
 import type { RedisConnection } from './connection.ts';
 import { compactText, expandText } from './compactText.ts';
 import { COMMON_FIELD, componentKeys, groupKeys, partitionKeys, Partitions } from './keys.ts';
-import { COMMIT_EVALUATION, MARK_DIRTY, MARK_SAMPLE, RELEASE_LOCK, RENEW_LOCK, STORE_SAMPLE } from './scripts.ts';
+import { ACQUIRE_WITH_INPUT, COMMIT_EVALUATION, MARK_DIRTY, MARK_SAMPLE, RELEASE_LOCK, RENEW_LOCK, SAMPLES_AFTER, STORE_SAMPLE } from './scripts.ts';
 
 export type { RedisConnection };
 
@@ -112,7 +112,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
   readonly partitions: Partitions;
   private readonly findingsLogLimit: number;
   private readonly config: Config;
-  private readonly scripts: Record<'store' | 'renew' | 'release' | 'commit' | 'markDirty' | 'markSample', ScriptCall>;
+  private readonly scripts: Record<'store' | 'acquireWithInput' | 'samplesAfter' | 'renew' | 'release' | 'commit' | 'markDirty' | 'markSample', ScriptCall>;
   /** Month buckets read before, by `partition|group|month` with the version they were read at. */
   private readonly bucketCache = new Map<string, { version: string; bucket: MonthBucket }>();
   /**
@@ -138,6 +138,8 @@ export class RedisStore implements ComponentStore, GroupLedger {
     };
     this.scripts = {
       store: define('store', 5, STORE_SAMPLE),
+      acquireWithInput: define('acquireWithInput', 4, ACQUIRE_WITH_INPUT),
+      samplesAfter: define('samplesAfter', 3, SAMPLES_AFTER),
       renew: define('renewLock', 1, RENEW_LOCK),
       release: define('releaseLock', 1, RELEASE_LOCK),
       commit: define('commit', 11, COMMIT_EVALUATION),
@@ -217,26 +219,19 @@ export class RedisStore implements ComponentStore, GroupLedger {
 
   async samplesAfter(ref: ComponentRef, position: StepPosition | null): Promise<StoredSample[]> {
     const { c } = this.keysOf(ref);
-    const ids = position === null ? await this.redis.zrange(c.order, 0, -1) : await this.redis.zrangebyscore(c.order, position.time, '+inf');
-    if (ids.length === 0) return [];
-    const winners = await this.redis.hmget(c.winners, ...ids);
-    const picked: Array<{ id: string; revision: string; position: StepPosition }> = [];
-    ids.forEach((id, i) => {
-      const w = winners[i];
-      if (w === null || w === undefined) return;
-      const [revision, time, unitHours] = w.split('|');
-      const pos: StepPosition = { sampleId: id, time: Number(time), ...(unitHours !== '' && { unitHours: Number(unitHours) }) };
-      if (position === null || comparePosition(pos, position) > 0) picked.push({ id, revision: revision!, position: pos });
-    });
+    // One script: the sorted set's ids after the position's time, their winners, the winning revisions.
+    const reply = (await this.scripts.samplesAfter(c.order, c.winners, c.revisions, position === null ? '' : positionText(position))) as string[];
+    const common = reply[0] === '' ? undefined : reply[0];
+    const picked: Array<{ field: string; value: string; position: StepPosition }> = [];
+    for (let i = 1; i < reply.length; i += 3) {
+      const id = reply[i]!;
+      const [revision, time, unitHours] = reply[i + 1]!.split('|');
+      const value = reply[i + 2]!;
+      if (value === '') throw new Error(`${componentKey(ref)}: revision ${revision} of ${id} missing`);
+      picked.push({ field: `${id}\u001f${revision}`, value, position: { sampleId: id, time: Number(time), ...(unitHours !== '' && { unitHours: Number(unitHours) }) } });
+    }
     picked.sort((a, b) => comparePosition(a.position, b.position));
-    if (picked.length === 0) return [];
-    const fields = picked.map((x) => `${x.id}\u001f${x.revision}`);
-    const values = await this.redis.hmget(c.revisions, COMMON_FIELD, ...fields);
-    const common = values[0] ?? undefined;
-    return values.slice(1).map((v, i) => {
-      if (v === null || v === undefined) throw new Error(`${componentKey(ref)}: revision ${picked[i]!.revision} of ${picked[i]!.id} missing`);
-      return stored(fields[i]!, v, common, ref);
-    });
+    return picked.map((x) => stored(x.field, x.value, common, ref));
   }
 
   async evaluationInput(ref: ComponentRef): Promise<EvaluationInput | undefined> {
@@ -247,16 +242,18 @@ export class RedisStore implements ComponentStore, GroupLedger {
       this.redis.zrange(c.order, -1, -1, 'WITHSCORES'),
       this.redis.hmget(c.evaluation, 'mark', 'dirty', 'latest', 'incidents', 'version', 'marks'),
     ]);
-    if (head === null || count === 0) return undefined;
-    const [mark, dirty, latest, incidents, version, marks] = fields;
+    return inputOf(ref, head, count, last, fields.map((f) => f ?? ''));
+  }
+
+  async acquireWithInput(ref: ComponentRef, ttlMs: number): Promise<{ lease: Lease; input: EvaluationInput | undefined } | undefined> {
+    const { c, p } = this.keysOf(ref);
+    const token = randomUUID();
+    const reply = (await this.scripts.acquireWithInput(c.lock, p.registry, c.order, c.evaluation, token, String(ttlMs), componentKey(ref))) as Array<string | number>;
+    if (reply[0] === 0) return undefined;
+    const [, head, count, lastId, lastTime, ...fields] = reply as [number, string, number, string, string, ...string[]];
     return {
-      entry: entryOf(JSON.parse(head) as RegistryHead, count, last),
-      mark: Number(mark ?? 0),
-      ...(dirty !== null && dirty !== undefined && { dirtyFrom: parsePosition(dirty) }),
-      ...(latest !== null && latest !== undefined && { latest: JSON.parse(expandText(latest)) as Checkpoint }),
-      marks: new Map(Object.entries(JSON.parse(marks ?? '{}') as Record<string, SampleMark>)),
-      incidents: incidents === null || incidents === undefined ? emptyComponentIncidents(ref.unit, ref.component) : (JSON.parse(expandText(incidents)) as ComponentIncidents),
-      incidentsVersion: Number(version ?? 0),
+      lease: { key: c.lock, token },
+      input: inputOf(ref, head === '' ? null : head, count, lastId === '' ? [] : [lastId, lastTime], fields),
     };
   }
 
@@ -326,6 +323,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
       version: String(commit.incidentsVersion),
       ...incidentArguments(commit, FIRST_RECORD_ARGUMENT),
       outbox: commit.effects.map((e) => JSON.stringify(e)),
+      release: commit.releaseWhenSettled === true ? 1 : 0,
     };
     const { texts, ...head } = payload0;
     const payload = { head, texts };
@@ -345,10 +343,10 @@ export class RedisStore implements ComponentStore, GroupLedger {
       String(commit.mark),
       JSON.stringify(payload.head),
       ...payload.texts,
-    )) as [number, string?];
+    )) as [number, string?, number?];
     if (result[0] === 0) return { ok: false, reason: 'lost-lock' };
     if (result[0] === -1) return { ok: false, reason: 'incidents-changed' };
-    return { ok: true, ...(result[1] && { changedMonth: result[1] }) };
+    return { ok: true, settled: result[2] === 1, ...(result[1] && { changedMonth: result[1] }) };
   }
 
   async markDirty(marks: readonly { readonly ref: ComponentRef; readonly from: StepPosition }[]): Promise<void> {
@@ -566,6 +564,21 @@ interface RegistryHead {
 
 function entryOf(h: RegistryHead, count: number, last: string[]): ComponentEntry {
   return { unit: h.unit, component: h.component, group: h.group, samples: count, lastSampledAt: new Date(Number(last[1] ?? 0)).toISOString() };
+}
+
+/** The evaluation input from the registry entry, the sample count, the last sample and the evaluation fields ('' missing). */
+function inputOf(ref: ComponentRef, head: string | null, count: number, last: string[], fields: readonly string[]): EvaluationInput | undefined {
+  if (head === null || count === 0) return undefined;
+  const [mark, dirty, latest, incidents, version, marks] = fields;
+  return {
+    entry: entryOf(JSON.parse(head) as RegistryHead, count, last),
+    mark: Number(mark || 0),
+    ...(dirty && { dirtyFrom: parsePosition(dirty) }),
+    ...(latest && { latest: JSON.parse(expandText(latest)) as Checkpoint }),
+    marks: new Map(Object.entries(JSON.parse(marks || '{}') as Record<string, SampleMark>)),
+    incidents: incidents ? (JSON.parse(expandText(incidents)) as ComponentIncidents) : emptyComponentIncidents(ref.unit, ref.component),
+    incidentsVersion: Number(version || 0),
+  };
 }
 
 /**

@@ -99,6 +99,68 @@ if redis.call('GET', KEYS[1]) == ARGV[1] then return redis.call('DEL', KEYS[1]) 
 return 0
 `;
 
+/**
+ * Takes a component's evaluation lock and reads what an evaluation starts from, in one step.
+ * KEYS: lock, registry, order, evaluation. ARGV: token, lock lifetime (ms), component key.
+ * Returns {0} when another holds the lock, else {1, registry entry, samples, last sample, its time, mark, dirty,
+ * latest checkpoint, incidents, incidents version, marks} ('' for what is missing).
+ */
+export const ACQUIRE_WITH_INPUT = `
+if not redis.call('SET', KEYS[1], ARGV[1], 'PX', ARGV[2], 'NX') then return { 0 } end
+local head = redis.call('HGET', KEYS[2], ARGV[3]) or ''
+local count = redis.call('ZCARD', KEYS[3])
+local last = redis.call('ZRANGE', KEYS[3], -1, -1, 'WITHSCORES')
+local f = redis.call('HMGET', KEYS[4], 'mark', 'dirty', 'latest', 'incidents', 'version', 'marks')
+local out = { 1, head, count, last[1] or '', last[2] or '' }
+for i = 1, 6 do out[5 + i] = f[i] or '' end
+return out
+`;
+
+/**
+ * The winning revisions of a component after a position (all when ARGV[1] is ''), in the order of the sorted set
+ * (by time; JavaScript orders samples of one time). KEYS: order, winners, revisions. ARGV: position or ''.
+ * Returns {common group and lab or '', then per sample: id, winner entry, stored revision or ''}.
+ */
+export const SAMPLES_AFTER = `${POSITION}
+-- HMGET in slices: unpack() takes at most a few thousand values.
+local function hmget(key, names)
+  local got = {}
+  for from = 1, #names, 1000 do
+    local slice = redis.call('HMGET', key, unpack(names, from, math.min(from + 999, #names)))
+    for i = 1, #slice do got[from + i - 1] = slice[i] end
+  end
+  return got
+end
+local ids
+if ARGV[1] == '' then
+  ids = redis.call('ZRANGE', KEYS[1], 0, -1)
+else
+  ids = redis.call('ZRANGEBYSCORE', KEYS[1], string.match(ARGV[1], '^([^|]*)|'), '+inf')
+end
+local out = { redis.call('HGET', KEYS[3], '*') or '' }
+if #ids == 0 then return out end
+local winners = hmget(KEYS[2], ids)
+local picked, fields = {}, {}
+for i, id in ipairs(ids) do
+  local w = winners[i]
+  if w then
+    local rev, t, u = string.match(w, '^([^|]*)|([^|]*)|([^|]*)')
+    if ARGV[1] == '' or pos_cmp(t .. '|' .. u .. '|' .. id, ARGV[1]) > 0 then
+      table.insert(picked, { id, w })
+      table.insert(fields, id .. '\\31' .. rev)
+    end
+  end
+end
+if #fields == 0 then return out end
+local values = hmget(KEYS[3], fields)
+for i, x in ipairs(picked) do
+  table.insert(out, x[1])
+  table.insert(out, x[2])
+  table.insert(out, values[i] or '')
+end
+return out
+`;
+
 /** KEYS: evaluation. ARGV: position. Marks the component for evaluation from the position. */
 export const MARK_DIRTY = `${POSITION}
 mark_dirty(KEYS[1], ARGV[1])
@@ -162,7 +224,9 @@ return 1
  *   version, state (the component's incident state, stored as given: compact), records [[id, argument, open|closed,
  *   score, openedTime]], outbox;
  * then the incidents' JSON texts, one argument each (ARGV[4] on), which records name.
- * Returns {1, earliest changed month or ''}, {0} when the lock was lost, {-1} when the incidents changed.
+ * With release 1 in the payload, the lock goes too when nothing changed since the evaluation's input (settled).
+ * Returns {1, earliest changed month or '', settled (0|1)}, {0} when the lock was lost, {-1} when the incidents
+ * changed.
  */
 export const COMMIT_EVALUATION = `${POSITION}${INCIDENT_RECORDS}
 if redis.call('GET', KEYS[1]) ~= ARGV[1] then return { 0 } end
@@ -172,7 +236,8 @@ if (redis.call('HGET', ev, 'version') or '0') ~= p.version then return { -1 } en
 
 -- The component's change mark and the checkpoints.
 if tonumber(ARGV[2]) > tonumber(redis.call('HGET', ev, 'done') or '0') then redis.call('HSET', ev, 'done', ARGV[2]) end
-if redis.call('HGET', ev, 'mark') == ARGV[2] then redis.call('HDEL', ev, 'dirty') end
+local settled = redis.call('HGET', ev, 'mark') == ARGV[2]
+if settled then redis.call('HDEL', ev, 'dirty') end
 redis.call('HSET', ev, 'latest', p.latest)
 local fields = redis.call('HKEYS', ev)
 if p.rewound ~= '' then
@@ -319,7 +384,8 @@ redis.call('HSET', KEYS[7], p.componentKey, p.registry)
 for _, r in ipairs(p.records) do r[2] = ARGV[r[2]] end
 redis.call('HSET', ev, 'incidents', p.state, 'version', tostring(tonumber(p.version) + 1))
 write_incidents(p, KEYS[8], KEYS[9], KEYS[10], KEYS[11], KEYS[5])
-return { 1, changed or '' }
+if settled and p.release == 1 then redis.call('DEL', KEYS[1]) end
+return { 1, changed or '', settled and 1 or 0 }
 `;
 
 /** Claims up to ARGV[2] effects: first those whose claim went stale (a drainer died), then new ones. KEYS: outbox, claimed. */

@@ -56,22 +56,43 @@ beforeAll(async () => {
   const watched = new Proxy(new RedisStore(client, { prefix, config }), {
     get(target, name, receiver) {
       const value = Reflect.get(target, name, receiver) as unknown;
+      const taken = (ref: { unit: string }, lease: { token: string } | undefined) => {
+        if (lease !== undefined && ref.unit === FLOOD_UNIT) {
+          held.add(lease.token);
+          holding++;
+          evaluationsRun++;
+          maxHolding = Math.max(maxHolding, holding);
+        }
+      };
+      const letGo = (lease: { token: string }) => {
+        if (held.delete(lease.token)) holding--;
+      };
       if (name === 'acquire') {
         return async (ref: { unit: string; component: string }, ttl: number) => {
           const lease = await target.acquire(ref, ttl);
-          if (lease !== undefined && ref.unit === FLOOD_UNIT) {
-            held.add(lease.token);
-            holding++;
-            evaluationsRun++;
-            maxHolding = Math.max(maxHolding, holding);
-          }
+          taken(ref, lease);
           return lease;
+        };
+      }
+      if (name === 'acquireWithInput') {
+        return async (ref: { unit: string; component: string }, ttl: number) => {
+          const got = await target.acquireWithInput(ref, ttl);
+          taken(ref, got?.lease);
+          return got;
         };
       }
       if (name === 'release') {
         return async (lease: Parameters<RedisStore['release']>[0]) => {
-          if (held.delete(lease.token)) holding--;
+          letGo(lease);
           return target.release(lease);
+        };
+      }
+      if (name === 'commit') {
+        // A settled commit lets go of the lease in its own write.
+        return async (...args: Parameters<RedisStore['commit']>) => {
+          const outcome = await target.commit(...args);
+          if (outcome.ok && outcome.settled && args[2].releaseWhenSettled === true) letGo(args[1]);
+          return outcome;
         };
       }
       return typeof value === 'function' ? (value as (...a: unknown[]) => unknown).bind(target) : value;

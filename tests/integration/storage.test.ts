@@ -148,6 +148,39 @@ describe.each(implementations)('%s store', (_name, make) => {
     expect(await store.acquire(s, 60_000)).toBeDefined();
   });
 
+  it('takes the lock with the input in one step, and a settled commit lets go of it only when nothing arrived meanwhile', async () => {
+    const s = sample({ sampleId: 'W-1', sampledAt: '2025-02-01T00:00:00Z' });
+    // No samples yet: the lock, and no input.
+    const empty = await store.acquireWithInput(s, 60_000);
+    expect(empty).toMatchObject({ input: undefined });
+    await store.release(empty!.lease);
+    await store.store(s, GROUP, 1);
+    const held = (await store.acquireWithInput(s, 60_000))!;
+    expect(held.input).toEqual(await store.evaluationInput(s));
+    expect(held.input!.dirtyFrom).toEqual(positionOf(s));
+    expect(await store.acquireWithInput(s, 60_000)).toBeUndefined();
+    expect(await store.acquire(s, 60_000)).toBeUndefined();
+    // A result arrives while the evaluation runs: the commit is not settled and keeps the lock.
+    const next = sample({ sampleId: 'W-2', sampledAt: '2025-03-01T00:00:00Z' });
+    await store.store(next, GROUP, 2);
+    const first = await store.commit(s, held.lease, { ...commitOf([s], held.input!.mark), releaseWhenSettled: true });
+    expect(first).toMatchObject({ ok: true, settled: false });
+    expect(await store.acquire(s, 60_000)).toBeUndefined();
+    expect((await store.evaluationInput(s))!.dirtyFrom).toBeDefined();
+    // Covering everything: settled, and the lock is free in the same step.
+    const now = (await store.evaluationInput(s))!;
+    const second = await store.commit(s, held.lease, { ...commitOf([s, next], now.mark, { incidentsVersion: now.incidentsVersion }), releaseWhenSettled: true });
+    expect(second).toMatchObject({ ok: true, settled: true });
+    expect((await store.evaluationInput(s))!.dirtyFrom).toBeUndefined();
+    const again = await store.acquire(s, 60_000);
+    expect(again).toBeDefined();
+    // Without asking, a settled commit keeps the lock.
+    const latest = (await store.evaluationInput(s))!;
+    expect(await store.commit(s, again!, { ...commitOf([s, next], latest.mark, { incidentsVersion: latest.incidentsVersion }) })).toMatchObject({ ok: true, settled: true });
+    expect(await store.acquire(s, 60_000)).toBeUndefined();
+    await store.release(again!);
+  });
+
   it('keeps group statistics as of a month from other units only, equal to computing them from scratch', async () => {
     const mk = (unit: string, n: number, month: string, oilHours: number, fe: number, cu: number) =>
       sample({ unit, sampleId: `${unit}-${n}`, sampledAt: `${month}-1${n}T06:00:00Z`, oilHours, readings: { Fe: fe, Cu: cu, Si: '<2' } });
@@ -194,10 +227,10 @@ describe.each(implementations)('%s store', (_name, make) => {
     const fe = async () => (await store.asOf(GROUP, '2025-04', { unit: 'U-9', component: 'gearbox' })).bands.Fe!.find((b) => b.fromHours === 0)!;
     await commitShares([{ sampleId: 'R-1', month: '2025-01', values: { 'Fe|0': 10 } }]);
     expect(await fe()).toMatchObject({ n: 1, mean: 10 });
-    expect(await commitShares([{ sampleId: 'R-1', month: '2025-01', values: { 'Fe|0': 10 } }])).toEqual({ ok: true });
+    expect(await commitShares([{ sampleId: 'R-1', month: '2025-01', values: { 'Fe|0': 10 } }])).toEqual({ ok: true, settled: true });
     await commitShares([{ sampleId: 'R-1', month: '2025-01', values: { 'Fe|0': 14 } }]);
     expect(await fe()).toMatchObject({ n: 1, mean: 14 });
-    expect(await commitShares([{ sampleId: 'R-1', month: '2025-01', values: null }])).toEqual({ ok: true, changedMonth: '2025-01' });
+    expect(await commitShares([{ sampleId: 'R-1', month: '2025-01', values: null }])).toEqual({ ok: true, settled: true, changedMonth: '2025-01' });
     expect((await fe()).n).toBe(0);
   });
 

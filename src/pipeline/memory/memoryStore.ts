@@ -207,6 +207,11 @@ export class MemoryStore implements ComponentStore, GroupLedger {
     return { key, token };
   }
 
+  async acquireWithInput(ref: ComponentRef, ttlMs: number): Promise<{ lease: Lease; input: EvaluationInput | undefined } | undefined> {
+    const lease = await this.acquire(ref, ttlMs);
+    return lease === undefined ? undefined : { lease, input: await this.evaluationInput(ref) };
+  }
+
   async renew(lease: Lease, ttlMs: number): Promise<boolean> {
     const held = this.locks.get(lease.key);
     if (held?.token !== lease.token) return false;
@@ -224,7 +229,8 @@ export class MemoryStore implements ComponentStore, GroupLedger {
     if (c === undefined) return { ok: false, reason: 'lost-lock' };
     if (c.incidentsVersion !== commit.incidentsVersion) return { ok: false, reason: 'incidents-changed' };
     c.evaluated = Math.max(c.evaluated, commit.mark);
-    if (c.mark === commit.mark) delete c.dirtyFrom;
+    const settled = c.mark === commit.mark;
+    if (settled) delete c.dirtyFrom;
     c.latest = JSON.stringify(commit.latest);
     if (commit.rewoundTo !== undefined) {
       for (const [count, json] of c.sparse) {
@@ -285,7 +291,8 @@ export class MemoryStore implements ComponentStore, GroupLedger {
     for (const inc of [...Object.values(commit.incidents.incidents), ...commit.archived, ...commit.withdrawn]) this.records.set(inc.id, structuredClone(inc));
     this.outboxList.push(...commit.effects);
     this.group(c.group).horizons.set(componentKey(ref), { ref: { unit: ref.unit, component: ref.component }, time: Math.max(this.group(c.group).horizons.get(componentKey(ref))?.time ?? 0, commit.horizon) });
-    return { ok: true, ...(changed !== undefined && { changedMonth: changed }) };
+    if (settled && commit.releaseWhenSettled === true) this.locks.delete(lease.key);
+    return { ok: true, settled, ...(changed !== undefined && { changedMonth: changed }) };
   }
 
   async markDirty(marks: readonly { readonly ref: ComponentRef; readonly from: StepPosition }[]): Promise<void> {
