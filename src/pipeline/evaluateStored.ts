@@ -99,7 +99,8 @@ async function evaluateUnderLease(deps: EvaluationDeps, ref: ComponentRef, lease
   if (stored.length > 0) await ledger.touch(group, ref, stored.at(-1)!.sample.time);
   const statsByMonth = await ledger.asOfMonths(group, stored.map((s) => monthOf(s.sample.time)), ref);
 
-  const fold = new AnalysisFold(settings, start.analysis);
+  // The checkpoint was decoded for this evaluation alone: the fold may work on it in place.
+  const fold = new AnalysisFold(settings, start.analysis, { adoptState: true });
   const incidents = new IncidentFold(incremental ? input.incidents : start.incidents, input.incidents, {
     group,
     now: new Date(now),
@@ -136,7 +137,7 @@ async function evaluateUnderLease(deps: EvaluationDeps, ref: ComponentRef, lease
   const verdict = incidents.finish(incremental ? [] : await store.incidentsOpenedAfter(ref, start.position));
   if (lost()) return { kind: 'lost-lock' };
   const last = stored.at(-1)?.sample;
-  const finalState = fold.state();
+  const finalState = fold.finalState();
   const commit: EvaluationCommit = {
     mark: input.mark,
     group,

@@ -76,6 +76,11 @@ export function trustedGroupBaseline(group: GroupStats | undefined, m: Measurand
 export interface AnalysisFoldOptions {
   /** Hold the learnt rate while an upward change is signalled. Default true. */
   readonly holdRateWhileSignalling?: boolean;
+  /**
+   * The state is handed over: the fold works on it in place instead of on a copy, and the caller does not use it
+   * again (a checkpoint just decoded). Default false.
+   */
+  readonly adoptState?: boolean;
 }
 
 export class AnalysisFold {
@@ -101,7 +106,7 @@ export class AnalysisFold {
     state: AnalysisState,
     options: AnalysisFoldOptions = {},
   ) {
-    this.s = structuredClone(state) as AnalysisFold['s'];
+    this.s = (options.adoptState === true ? state : structuredClone(state)) as AnalysisFold['s'];
     const d = settings.detection;
     this.detecting = d.ewma.enabled || d.cusum.enabled;
     const l = detectionLimits(d, changeBudgetShare(settings.population));
@@ -121,6 +126,11 @@ export class AnalysisFold {
   /** A copy of the state after the samples folded so far. */
   state(): AnalysisState {
     return structuredClone(this.s);
+  }
+
+  /** The state after the samples folded so far, without a copy: the last use of the fold (it must not advance after it). */
+  finalState(): AnalysisState {
+    return this.s;
   }
 
   /** The own baseline sums of the current life per detection measurand, once complete (what the group pools). */
