@@ -9,15 +9,16 @@
  *   fed), beside a bare BullMQ worker that does nothing with the same events, for one and two worker processes;
  * - latency: at a steady 200 results/s onto components with history, from enqueue to the completion of the result's
  *   job (stored, and evaluated when the component was free) and to the incident's notification job on the `notify` queue;
- * - backfill: 100 000 old results (quiet: nobody is paged) over 1 000 components: wall time, the worker's peak
- *   resident memory, Redis memory per component.
+ * - backfill: 100 000 old results (quiet: nobody is paged) over 1 000 components, sent as history jobs (stored and
+ *   evaluated month by month): wall time, the worker's peak resident memory, Redis memory per component.
  */
 import { Queue, QueueEvents, type Job } from 'bullmq';
 import type { Redis } from 'ioredis';
 import type { ResultEvent } from '../src/domain/event.ts';
 import type { NotifyEffect } from '../src/incidents/model.ts';
 import { createResultProducer, type ResultProducer } from '../src/queue/producer.ts';
-import { defaultJobOptions, openQueue, QUEUE_NAMES, resolveQueueSettings } from '../src/queue/queues.ts';
+import { DEFAULT_HISTORY_JOB_SIZE, defaultJobOptions, openQueue, QUEUE_NAMES, resolveQueueSettings } from '../src/queue/queues.ts';
+import { validateBatch } from '../src/intake/validate.ts';
 import { WORKER_DEFAULTS } from '../src/queue/workers.ts';
 import { RedisStore } from '../src/redis/redisStore.ts';
 import { startEmbeddedRedis as startRedisServer, type EmbeddedRedis as RedisServer } from '../src/runtime/embeddedRedis.ts';
@@ -40,6 +41,8 @@ import type { RunOptions } from './runner.ts';
 import { fmt, percentile, round } from './stats.ts';
 
 const PREFIX = '{bench}';
+/** Results per history job in the backfill part (the import's default). */
+const HISTORY_JOB_SIZE = DEFAULT_HISTORY_JOB_SIZE;
 const DAY_MS = 86_400_000;
 /** Far enough back that no sample is backfill: every finding may page someone. */
 const NEVER_QUIET_DAYS = 100_000;
@@ -64,7 +67,7 @@ async function withLine<T>(fn: (line: Line) => Promise<T>): Promise<T> {
 
 interface Session {
   readonly client: Redis;
-  readonly queues: { readonly results: Queue; readonly evaluate: Queue; readonly notify: Queue };
+  readonly queues: { readonly results: Queue; readonly history: Queue; readonly evaluate: Queue; readonly notify: Queue };
   readonly workers: readonly ChildWorker[];
   readonly producer: ResultProducer;
   close(): Promise<void>;
@@ -78,6 +81,7 @@ async function openSession(line: Line, processes: number, quietAfterDays: number
   const settings = resolveQueueSettings({ prefix: PREFIX });
   const queues = {
     results: openQueue(QUEUE_NAMES.results, client, settings),
+    history: openQueue(QUEUE_NAMES.history, client, settings),
     evaluate: openQueue(QUEUE_NAMES.evaluate, client, settings),
     notify: openQueue(QUEUE_NAMES.notify, client, settings),
   };
@@ -415,10 +419,17 @@ export async function runBackfill(o: RunOptions): Promise<PartResult> {
     try {
       const before = await usedMemory(s.client);
       const t0 = performance.now();
-      await send(s.producer, events, 1000);
+      // As `wearshift import --history` sends them: validated, then a history job of 10 000 results at a time.
+      for (let i = 0; i < events.length; i += HISTORY_JOB_SIZE) {
+        const chunk = events.slice(i, i + HISTORY_JOB_SIZE);
+        const validated = validateBatch(chunk, { now: Date.now() });
+        if (validated.accepted.length !== chunk.length) throw new Error(`backfill: ${chunk.length - validated.accepted.length} invented results did not validate`);
+        const refused = (await s.producer.enqueueHistory(validated.accepted, HISTORY_JOB_SIZE)).find((r) => r.status !== 'accepted');
+        if (refused !== undefined) throw new Error(`the producer refused ${refused.sampleId}: ${JSON.stringify(refused.errors)}`);
+      }
       const intake = performance.now();
-      o.log(`backfill: ${events.length} results enqueued in ${fmt((intake - t0) / 1000)} s`);
-      const end = await drainedAt([s.queues.results, s.queues.evaluate], s.workers, { pollMs: 200 });
+      o.log(`backfill: ${events.length} results enqueued in ${Math.ceil(events.length / HISTORY_JOB_SIZE)} history jobs in ${fmt((intake - t0) / 1000)} s`);
+      const end = await drainedAt([s.queues.history, s.queues.results, s.queues.evaluate], s.workers, { pollMs: 200 });
       const seconds = (end - t0) / 1000;
       const peakRssKb = s.workers[0]!.peakRssKb();
       const after = await usedMemory(s.client);
@@ -453,7 +464,7 @@ export async function runBackfill(o: RunOptions): Promise<PartResult> {
           rows: [[String(events.length), String(components), fmt(seconds), fmt(events.length / seconds), fmt(peakRssKb / 1024), fmt(perComponentBytes / 1024), fmt(componentKeysBytes / 1024)]],
         },
         notes: [
-          `${perComponent} results per component over ${fmt((perComponent * 250) / 8760)} years of operation, all older than 90 days (quiet: ${notifications} notifications), enqueued in batches of 1000 while one worker process runs`,
+          `${perComponent} results per component over ${fmt((perComponent * 250) / 8760)} years of operation, all older than 90 days (quiet: ${notifications} notifications), in sampling-time order, enqueued as history jobs of ${HISTORY_JOB_SIZE} results (as \`wearshift import --history\` does) while one worker process runs`,
           `wall time: first enqueue to results and evaluate queues drained; every component's last sample fed: ${behind === 0 ? 'yes' : `NO, ${behind} behind`}`,
           `worker peak RSS: VmHWM of the worker process; Redis: INFO used_memory after − before, per component`,
           `a component's own keys (c:…, MEMORY USAGE) at ${perComponent} samples: ${fmt(componentKeysBytes / 1024)} KB; target ≤ ${COMPONENT_BYTES_TARGET / 1024} KB: ${storageMet ? 'MET' : 'MISSED'}`,

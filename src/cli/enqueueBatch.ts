@@ -12,17 +12,21 @@ export interface ImportCounts {
   enqueued: number;
 }
 
-/** `refused` gets the record's line or row (its index), its sampleId and the reasons. */
+/**
+ * `refused` gets the record's line or row (its index), its sampleId and the reasons. With `history` the batch goes
+ * as one history job (stored and evaluated month by month) instead of one job per record.
+ */
 export async function enqueueBatch(
   producer: ResultProducer,
   batch: readonly ValidatedRecord[],
   counts: ImportCounts,
   refused: (index: number, sampleId: string | undefined, errors: readonly FieldIssue[]) => void,
+  history = false,
 ): Promise<void> {
   if (batch.length === 0) return;
   let outcomes;
   try {
-    outcomes = await producer.enqueue(batch);
+    outcomes = history ? await producer.enqueueHistory(batch, batch.length) : await producer.enqueue(batch);
   } catch (e) {
     throw new InputError(`Redis refused the results after ${counts.enqueued} were enqueued: ${(e as Error).message}. Import the file again once Redis is back: results already stored are recognised and kept once.`);
   }

@@ -145,6 +145,8 @@ export interface Lease {
 export interface ComponentStore {
   /** Stores the revision (idempotent) and marks the component for evaluation from the sample's position. */
   store(sample: Sample, group: string, receivedAt: number): Promise<StoreOutcome>;
+  /** `store` for several results at once (one round trip on Redis), the outcomes in the same order. */
+  storeMany(items: readonly { readonly sample: Sample; readonly group: string }[], receivedAt: number): Promise<StoreOutcome[]>;
   component(ref: ComponentRef): Promise<ComponentEntry | undefined>;
   components(): Promise<ComponentEntry[]>;
   /** Every stored revision of the component's samples, in no particular order. */

@@ -29,7 +29,18 @@ export interface StoredResult {
 export async function storeResult(store: Pick<ComponentStore, 'store'>, config: Config, record: unknown, now: number): Promise<StoredResult> {
   const parsed = validateResult(record, { now });
   if (!parsed.ok) throw new InvalidResultError(parsed.issues, claimedSampleId(record));
-  const sample = parsed.sample;
+  return storeSample(store, config, parsed.sample, now);
+}
+
+/** Stores samples already validated (with the same clock) in one step: finds each one's group and stores them. */
+export async function storeSamples(store: Pick<ComponentStore, 'storeMany'>, config: Config, samples: readonly Sample[], now: number): Promise<StoredResult[]> {
+  const items = samples.map((sample) => ({ sample, group: resolveSettings(config, sample).group }));
+  const outcomes = await store.storeMany(items, now);
+  return items.map((it, i) => ({ ...it, outcome: outcomes[i]! }));
+}
+
+/** Stores a sample already validated (with the same clock): finds its group and stores it. */
+export async function storeSample(store: Pick<ComponentStore, 'store'>, config: Config, sample: Sample, now: number): Promise<StoredResult> {
   const group = resolveSettings(config, sample).group;
   const outcome = await store.store(sample, group, now);
   return { sample, group, outcome };

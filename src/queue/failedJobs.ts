@@ -30,11 +30,12 @@ function subjectOf(queue: QueueName, data: unknown): string | undefined {
   const d = (data ?? {}) as Record<string, unknown>;
   const text = (v: unknown) => (typeof v === 'string' ? v : undefined);
   if (queue === QUEUE_NAMES.results) return text(d.sampleId);
+  if (queue === QUEUE_NAMES.history) return Array.isArray(d.records) ? `${d.records.length} results` : undefined;
   if (queue === QUEUE_NAMES.evaluate) return typeof d.unit === 'string' && typeof d.component === 'string' ? `${d.unit}/${d.component}` : undefined;
   return text(d.incidentId);
 }
 
-/** Where the jobs of a queue live: every partition's queue for results and evaluate, the shared one for the others. */
+/** Where the jobs of a queue live: every partition's queue for results, history and evaluate, the shared one for the others. */
 export function queueLocations(name: QueueName, prefix: string, partitionCount: number): Array<{ label: string; prefix: string }> {
   const partitions = new Partitions(prefix, partitionCount);
   if (name === QUEUE_NAMES.notify || name === QUEUE_NAMES.escalate) return [{ label: name, prefix: partitions.sharedTag() }];

@@ -10,7 +10,7 @@ import { componentKey } from '../domain/event.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
 import { DEFAULT_PREFIX, Partitions } from '../redis/keys.ts';
 
-export const QUEUE_NAMES = { results: 'results', evaluate: 'evaluate', notify: 'notify', escalate: 'escalate' } as const;
+export const QUEUE_NAMES = { results: 'results', history: 'history', evaluate: 'evaluate', notify: 'notify', escalate: 'escalate' } as const;
 export type QueueName = (typeof QUEUE_NAMES)[keyof typeof QUEUE_NAMES];
 
 export interface EvaluateJobData {
@@ -60,7 +60,7 @@ export function openQueue(name: QueueName, connection: ConnectionOptions, settin
 }
 
 /** The partitioned queues of one kind, by partition. */
-export function openPartitionedQueues(name: 'results' | 'evaluate', connection: ConnectionOptions, settings: Required<QueueSettings>, partitions: Partitions): Queue[] {
+export function openPartitionedQueues(name: 'results' | 'history' | 'evaluate', connection: ConnectionOptions, settings: Required<QueueSettings>, partitions: Partitions): Queue[] {
   return partitions.all().map((p) => openQueue(name, connection, { ...settings, prefix: partitions.tag(p) }));
 }
 
@@ -71,6 +71,19 @@ export function openSharedQueue(name: 'notify' | 'escalate', connection: Connect
 
 /** A component that found its evaluation busy is tried again after this wait unless the holder got to it first. */
 export const DEFAULT_EVALUATE_RETRY_MS = 200;
+
+/**
+ * A job of the `history` queue: many old results of one partition, stored and evaluated month by month
+ * (processors/historyProcessor.ts). The queue runs one job at a time across all workers (BullMQ's global
+ * concurrency), so that histories are evaluated in the order they were sent.
+ */
+export const HISTORY_JOB = 'history';
+/** Results per history job. */
+export const DEFAULT_HISTORY_JOB_SIZE = 10_000;
+
+export interface HistoryJobData {
+  readonly records: readonly unknown[];
+}
 
 /**
  * Schedules an evaluation of the component. A later request for the same component while one waits changes

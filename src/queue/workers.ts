@@ -28,6 +28,7 @@ import { FLOOD_SUMMARY_JOB, notifyProcessor } from './processors/notifyProcessor
 import { DEFAULT_FLOOD_CONTROL } from '../domain/escalationConfig.ts';
 import { DeliveryLedger } from '../redis/deliveryLedger.ts';
 import { FloodLedger } from '../redis/floodLedger.ts';
+import { historyProcessor } from './processors/historyProcessor.ts';
 import { resultsProcessor } from './processors/resultsProcessor.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from './queues.ts';
 
@@ -131,6 +132,8 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
     const prefix = partitions.tag(p);
     workers.push(new Worker(QUEUE_NAMES.results, resultsProcessor(runner, s.busyRetryMs), options(prefix, s.resultsConcurrency)));
     workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs), options(prefix, s.evaluateConcurrency)));
+    // One history at a time (the producer sets the queue's global concurrency to 1 as well).
+    workers.push(new Worker(QUEUE_NAMES.history, historyProcessor(runner, s.busyRetryMs), options(prefix, 1)));
   }
   workers.push(new Worker(QUEUE_NAMES.escalate, escalateProcessor(incidents, now, () => relay.kick()) as Processor, options(partitions.sharedTag(), s.notifyConcurrency)));
   const channels = deps.channels;

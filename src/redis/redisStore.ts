@@ -158,9 +158,39 @@ export class RedisStore implements ComponentStore, GroupLedger {
   }
 
   async store(sample: Sample, group: string, receivedAt: number): Promise<StoreOutcome> {
+    const [status, due] = (await this.scripts.store(...this.storeArguments(sample, group, receivedAt))) as [StoreStatus, number];
+    return { status, evaluationDue: due === 1 };
+  }
+
+  async storeMany(items: readonly { readonly sample: Sample; readonly group: string }[], receivedAt: number): Promise<StoreOutcome[]> {
+    // One pipeline per partition (a cluster's pipeline stays within one slot).
+    const byTag = new Map<string, number[]>();
+    items.forEach(({ sample }, i) => {
+      const tag = this.tagOf(sample);
+      (byTag.get(tag) ?? byTag.set(tag, []).get(tag)!).push(i);
+    });
+    const out: StoreOutcome[] = new Array(items.length);
+    await Promise.all(
+      [...byTag.values()].map(async (indexes) => {
+        const pipeline = this.redis.pipeline() as unknown as Record<'wearshift_store', (...args: string[]) => void> & { exec(): Promise<Array<[Error | null, unknown]> | null> };
+        for (const i of indexes) pipeline.wearshift_store(...this.storeArguments(items[i]!.sample, items[i]!.group, receivedAt));
+        const replies = (await pipeline.exec()) ?? [];
+        indexes.forEach((i, k) => {
+          const [err, reply] = replies[k] ?? [new Error('no reply from Redis'), undefined];
+          if (err !== null) throw err;
+          const [status, due] = reply as [StoreStatus, number];
+          out[i] = { status, evaluationDue: due === 1 };
+        });
+      }),
+    );
+    return out;
+  }
+
+  /** The store script's keys and arguments (scripts.ts, STORE_SAMPLE). */
+  private storeArguments(sample: Sample, group: string, receivedAt: number): string[] {
     const { c, p } = this.keysOf(sample);
     const registry = JSON.stringify({ unit: sample.unit, component: sample.component, group });
-    const [status, due] = (await this.scripts.store(
+    return [
       c.revisions,
       c.winners,
       c.order,
@@ -177,8 +207,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
       sample.group ?? '',
       sample.lab ?? '',
       encodeSample(sample),
-    )) as [StoreStatus, number];
-    return { status, evaluationDue: due === 1 };
+    ];
   }
 
   async component(ref: ComponentRef): Promise<ComponentEntry | undefined> {

@@ -84,6 +84,7 @@ export async function startScenario(options: ScenarioOptions): Promise<Scenario>
   const settings = resolveQueueSettings({ prefix: PREFIX });
   const queues = {
     results: openQueue(QUEUE_NAMES.results, client, settings),
+    history: openQueue(QUEUE_NAMES.history, client, settings),
     evaluate: openQueue(QUEUE_NAMES.evaluate, client, settings),
     notify: openQueue(QUEUE_NAMES.notify, client, settings),
     escalate: openQueue(QUEUE_NAMES.escalate, client, settings),

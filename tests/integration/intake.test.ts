@@ -86,6 +86,28 @@ describe('wearshift import', { timeout: 600_000 }, () => {
     await queue.close();
   });
 
+  it('with --history enqueues the valid lines as history jobs of --batch-size results and still reports the bad ones', async () => {
+    const file = join(dir, 'history.csv');
+    writeFileSync(file, withErrors());
+    const prefix = '{import-history}';
+    const config = join(dir, 'history.yaml');
+    writeFileSync(config, `redis:\n  prefix: "${prefix}"\n`);
+    const r = await runCli(['import', file, '--config', config, '--history', '--batch-size', '4'], { REDIS_URL: server.url });
+    expect(r.code).toBe(1);
+    expect(r.stdout).toBe(`${file}: 10 enqueued, 2 rejected of 12 records\n`);
+    const settings = resolveQueueSettings({ prefix });
+    const history = openQueue(QUEUE_NAMES.history, server.client(), settings);
+    const results = openQueue(QUEUE_NAMES.results, server.client(), settings);
+    const jobs = await history.getWaiting(0, 100);
+    // 10 valid lines in jobs of at most 4, nothing on the results queue.
+    expect(jobs.map((j) => (j.data as { records: unknown[] }).records.length).sort()).toEqual([2, 4, 4]);
+    const sent = jobs.flatMap((j) => (j.data as { records: Array<{ sampleId: string }> }).records.map((e) => e.sampleId));
+    expect(sent.sort()).toEqual(fleet.filter((_, i) => i !== 2 && i !== 6).map((e) => e.sampleId).sort());
+    expect(await results.getWaitingCount()).toBe(0);
+    await history.close();
+    await results.close();
+  });
+
   it('validates each line once and reports a revision conflict the producer refused by its line, not as enqueued', async () => {
     const lines = fleetCsv(fleet.slice(0, 3)).trimEnd().split('\n');
     const header = lines[0]!.split(',');

@@ -9,7 +9,8 @@ import type { ResultEvent } from '../../src/domain/event.ts';
 import type { Incident } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { createResultProducer } from '../../src/queue/producer.ts';
-import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
+import { HISTORY_JOB, openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
+import { validateBatch } from '../../src/intake/validate.ts';
 import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
 import type { RedisConnection } from '../../src/redis/connection.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
@@ -38,6 +39,9 @@ interface Line {
   storage: RedisStore;
   incidents: RedisIncidents;
   send(events: readonly unknown[]): Promise<void>;
+  /** Sends the results as history jobs of `perJob` results (`wearshift import --history`). */
+  sendHistory(events: readonly unknown[], perJob: number): Promise<void>;
+  history: Queue;
   close(): Promise<void>;
 }
 
@@ -46,7 +50,8 @@ async function pipeline(): Promise<Line> {
   const connection = server.client();
   const workers = startWorkers({ connection, config, logger: silentLogger() }, { prefix, backoffMs: 50 });
   const settings = resolveQueueSettings({ prefix });
-  const queues = [openQueue(QUEUE_NAMES.results, connection, settings), openQueue(QUEUE_NAMES.evaluate, connection, settings)];
+  const history = openQueue(QUEUE_NAMES.history, connection, settings);
+  const queues = [openQueue(QUEUE_NAMES.results, connection, settings), openQueue(QUEUE_NAMES.evaluate, connection, settings), history];
   const producer = createResultProducer({ connection, prefix });
   return {
     prefix,
@@ -60,6 +65,14 @@ async function pipeline(): Promise<Line> {
       expect(outcomes.filter((o) => o.status !== 'accepted')).toEqual([]);
       await drained(queues);
     },
+    async sendHistory(events, perJob) {
+      const validated = validateBatch(events, { now: Date.now() });
+      expect(validated.accepted).toHaveLength(events.length);
+      const outcomes = await producer.enqueueHistory(validated.accepted, perJob);
+      expect(outcomes.filter((o) => o.status !== 'accepted')).toEqual([]);
+      await drained(queues);
+    },
+    history,
     async close() {
       await producer.close();
       await workers.close();
@@ -187,6 +200,49 @@ describe('live pipeline', () => {
       expect(input.dirtyFrom).toBeUndefined();
       // Nothing is left waiting: a result that found the component busy left at most a job that found nothing to do.
       expect(await line.queues[1]!.getFailedCount()).toBe(0);
+    } finally {
+      await line.close();
+    }
+  });
+
+  it('a history sent as history jobs, in order or shuffled, reaches the state of one job per result', async () => {
+    const single = await pipeline();
+    const inOrder = await pipeline();
+    const shuffled = await pipeline();
+    try {
+      await single.send(fleet);
+      // Four jobs in sampling-time order; then jobs of shuffled results (each job is put in order, the jobs are not).
+      const byTime = [...fleet].sort((a, b) => Date.parse(a.sampledAt) - Date.parse(b.sampledAt));
+      await inOrder.sendHistory(byTime, 20);
+      await shuffled.sendHistory([...fleet].sort((a, b) => hash(a.sampleId) - hash(b.sampleId)), 30);
+      const expected = await storedState(single);
+      expect(expected.incidents.length).toBeGreaterThan(0);
+      expect(await storedState(inOrder)).toEqual(expected);
+      expect(await storedState(shuffled)).toEqual(expected);
+      // Completed history jobs are removed (their data is the whole batch); none failed.
+      expect(await inOrder.history.getJobCounts('completed', 'failed')).toEqual({ completed: 0, failed: 0 });
+    } finally {
+      await single.close();
+      await inOrder.close();
+      await shuffled.close();
+    }
+  });
+
+  it('a history job stores and evaluates what it can take and fails naming each record it cannot', async () => {
+    const line = await pipeline();
+    try {
+      const own = fleet.filter((e) => e.unit === fleet[0]!.unit);
+      const bad = { ...own[3]!, sampleId: 'BAD-1', readings: { Fe: 'lots' } };
+      await line.history.add(HISTORY_JOB, { records: [...own.slice(0, 3), bad, ...own.slice(3)] }, { attempts: 5 });
+      await drained(line.queues);
+      const failed = await line.history.getFailed();
+      expect(failed).toHaveLength(1);
+      expect(failed[0]!.attemptsMade).toBe(1);
+      expect(failed[0]!.failedReason).toMatch(/1 of 21 results .*record 4 \(sampleId BAD-1\).*readings\.Fe: expected a number/);
+      const ref = { unit: own[0]!.unit, component: own[0]!.component };
+      expect((await line.storage.component(ref))?.samples).toBe(own.length);
+      // Evaluated up to its last result.
+      expect((await line.storage.evaluationInput(ref))?.latest?.position?.sampleId).toBe(own.at(-1)!.sampleId);
     } finally {
       await line.close();
     }

@@ -10,6 +10,7 @@ import { InputError } from '../../domain/errors.ts';
 import type { FieldIssue } from '../../domain/event.ts';
 import { formatOf, readRecordFile } from '../../intake/fileRecords.ts';
 import { createResultProducer, type ResultProducer } from '../../queue/producer.ts';
+import { DEFAULT_HISTORY_JOB_SIZE } from '../../queue/queues.ts';
 import { claimedSampleId, validateResult, type ValidatedRecord } from '../../intake/validate.ts';
 import { closeQuietly, connectForCommand, redisTarget, type RedisTarget } from '../../redis/connection.ts';
 import { redisChoice, writeJsonLine } from '../output.ts';
@@ -24,7 +25,8 @@ interface ImportOptions {
   format?: string;
   dryRun?: boolean;
   json?: boolean;
-  batchSize: string;
+  batchSize?: string;
+  history?: boolean;
   map?: string;
   show: string;
 }
@@ -39,14 +41,16 @@ export function registerImport(program: Command): void {
     .option('--show <n>', 'with --map and --dry-run: mapped events printed to check the mapping', '3')
     .option('--dry-run', 'validate only; nothing is enqueued and Redis is not needed')
     .option('--json', 'JSON lines: one per rejected line, then a summary')
-    .option('--batch-size <n>', 'records enqueued per round trip', '500')
+    .option('--history', 'a history of old results: stored and evaluated month by month in jobs of --batch-size results, each component once per month of a job instead of once per result; best with the file in sampling-time order')
+    .option('--batch-size <n>', 'records enqueued per round trip; with --history, results per history job (default 500; with --history 10000)')
     .action(async (file: string, opts: ImportOptions) => {
       process.exitCode = await importFile(file, opts);
     });
 }
 
 async function importFile(file: string, opts: ImportOptions): Promise<number> {
-  const batchSize = Number(opts.batchSize);
+  const history = opts.history === true;
+  const batchSize = Number(opts.batchSize ?? (history ? DEFAULT_HISTORY_JOB_SIZE : 500));
   if (!Number.isInteger(batchSize) || batchSize < 1) throw new InputError(`--batch-size: expected a whole number from 1, got "${opts.batchSize}"`);
   if (opts.map !== undefined) {
     const show = Number(opts.show);
@@ -59,6 +63,7 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
       ...(opts.dryRun !== undefined && { dryRun: opts.dryRun }),
       ...(opts.json !== undefined && { json: opts.json }),
       batchSize,
+      history,
       show,
       now: Date.now(),
       connect: () => connectProducer(redisTarget(config), config.redis.prefix, config.redis.partitions),
@@ -91,7 +96,7 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
   let batch: ValidatedRecord[] = [];
   const flush = async () => {
     if (producer === undefined) return;
-    await enqueueBatch(producer, batch, counts, report);
+    await enqueueBatch(producer, batch, counts, report, history);
     batch = [];
   };
   try {
@@ -157,6 +162,7 @@ async function connectProducer(target: RedisTarget, prefix: string, partitions: 
   return {
     add: (events) => producer.add(events),
     enqueue: (records) => producer.enqueue(records),
+    enqueueHistory: (records, perJob) => producer.enqueueHistory(records, perJob),
     async close() {
       await producer.close();
       await closeQuietly(redis);

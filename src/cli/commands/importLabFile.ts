@@ -24,6 +24,8 @@ export interface LabImportOptions {
   readonly dryRun?: boolean;
   readonly json?: boolean;
   readonly batchSize: number;
+  /** Enqueue as history jobs of `batchSize` results (see `ResultProducer.enqueueHistory`). Default false. */
+  readonly history?: boolean;
   /** Mapped events printed in a dry run. */
   readonly show: number;
   /** The processing time for the "not in the future" check. */
@@ -60,8 +62,12 @@ export async function importLabFile(file: string, opts: LabImportOptions): Promi
   };
   const flush = async () => {
     if (producer === undefined) return;
-    await enqueueBatch(producer, batch, counts, (row, sampleId, errors) =>
-      reject(row, sampleId, errors.map((e) => ({ row, ...(e.path !== '' && { field: e.path }), reason: e.reason }))),
+    await enqueueBatch(
+      producer,
+      batch,
+      counts,
+      (row, sampleId, errors) => reject(row, sampleId, errors.map((e) => ({ row, ...(e.path !== '' && { field: e.path }), reason: e.reason }))),
+      opts.history === true,
     );
     batch = [];
   };

@@ -137,6 +137,12 @@ export class MemoryStore implements ComponentStore, GroupLedger {
     return { status, evaluationDue: c.mark > c.evaluated };
   }
 
+  async storeMany(items: readonly { readonly sample: Sample; readonly group: string }[], receivedAt: number): Promise<StoreOutcome[]> {
+    const out: StoreOutcome[] = [];
+    for (const { sample, group } of items) out.push(await this.store(sample, group, receivedAt));
+    return out;
+  }
+
   async component(ref: ComponentRef): Promise<ComponentEntry | undefined> {
     const c = this.byKey.get(componentKey(ref));
     return c && entryOf(c);

@@ -1,7 +1,8 @@
 /**
  * The results processor: stores one lab result and, when the component is free, evaluates it in the same job (one
  * job per result on the hot path). A result whose component another worker is evaluating leaves an evaluate job
- * behind, which usually finds nothing left to do: the holder evaluates again before letting go.
+ * behind, which usually finds nothing left to do: the holder evaluates again before letting go. Histories (many old
+ * results at once) have a queue of their own (historyProcessor.ts).
  */
 import { UnrecoverableError, type Job, type Processor } from 'bullmq';
 import { conflictReason } from '../../redis/revisionConflicts.ts';
