@@ -116,14 +116,14 @@ export async function settled(s: Scenario, expectedResults: number, timeoutMs: n
   let quiet = 0;
   let last = '';
   await waitFor(
-    () => `all ${expectedResults} results stored and the results, evaluate and notify queues idle (last seen: ${last})`,
+    () => `all ${expectedResults} results stored and the results, history, evaluate and notify queues idle (last seen: ${last})`,
     async () => {
       const [stored, counts, outbox] = await Promise.all([
         storedCount(s),
-        Promise.all([s.queues.results, s.queues.evaluate, s.queues.notify].map((q) => q.getJobCounts(...busy))),
+        Promise.all([s.queues.results, s.queues.evaluate, s.queues.notify, s.queues.history].map((q) => q.getJobCounts(...busy))),
         s.incidents.outboxSize(),
       ]);
-      last = JSON.stringify({ stored, results: counts[0], evaluate: counts[1], notify: counts[2], outbox });
+      last = JSON.stringify({ stored, results: counts[0], evaluate: counts[1], notify: counts[2], history: counts[3], outbox });
       const idle = stored >= expectedResults && counts.every((c) => Object.values(c).every((n) => n === 0)) && outbox.waiting + outbox.claimed === 0;
       quiet = idle ? quiet + 1 : 0;
       // Twice a second apart: an evaluation may add notifications just after the queues looked idle.

@@ -173,6 +173,8 @@ describe('notifications from the live worker', () => {
         await new Promise((r) => setTimeout(r, 100));
       }
       expect(state).toBe('completed');
+      // Read again: the job read before its state may predate its completion.
+      job = await notify.getJob(first!.id!);
       expect(String(job!.returnvalue)).toMatch(/delivered before; not sent again/);
       expect(hooks.filter((h) => h.id === idempotencyKey(effect.key))).toHaveLength(1);
     } finally {
