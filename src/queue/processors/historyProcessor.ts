@@ -1,6 +1,6 @@
 /**
- * The history processor: a job of the `history` queue carries many results of one partition (an import of old results) stored and evaluated month by month.
- * The results are put in history order and taken one sampling month at a time: the month's results are stored, then
+ * The history processor: a job of the `history` queue carries many results of one partition (an import of old
+ * results). They are put in history order and taken one sampling month at a time: the month's results are stored, then
  * every component they made due is evaluated once, before the next month is stored. A component is evaluated once
  * per month of the job instead of once per result, and no evaluation runs past a month whose results of other units
  * are still to come, so the group's cascade (a commit that changes statistics of a month others have passed) does
