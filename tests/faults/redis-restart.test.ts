@@ -66,7 +66,7 @@ describe('Redis restarted mid-stream', () => {
     expect([...delivered.entries()].filter(([, n]) => n !== 1)).toEqual([]);
     expect(smtp.mails).toHaveLength(told.byChannel.email.length);
     expect(new Set(smtp.mails.map((m) => m.messageId)).size).toBe(smtp.mails.length);
-    expect(await Promise.all(Object.values(scenario.queues).map((q) => q.getFailedCount()))).toEqual([0, 0, 0, 0]);
+    expect(await Promise.all(Object.values(scenario.queues).map((q) => q.getFailedCount()))).toEqual(Object.values(scenario.queues).map(() => 0));
     console.info(`redis restart: stopped at ${before}/${fleet.length} stored; ${told.byChannel.webhook.length} webhook and ${told.byChannel.email.length} e-mail notifications, each delivered once`);
     expect(await worker.stop()).toBe(0);
   });
