@@ -1,9 +1,9 @@
 /**
  * Sharding on Redis Cluster: a private cluster of 3 masters (tests/helpers/redisCluster.ts), two `wearshift worker`
  * processes named to it by REDIS_CLUSTER_NODES, keys and queues in 12 partitions, an invented fleet imported twice
- * with `wearshift import` (the second time a redelivery of every record). Every result is stored once, the incidents
- * are those `wearshift replay` gives on the same file, both processes took part, and each of the three shards holds
- * a share of the keys: the partitions, not one hash tag, decide where a component lives.
+ * with `wearshift import` (the second time a redelivery of every record, as history jobs: `--history`). Every result
+ * is stored once, the incidents are those `wearshift replay` gives on the same file, both processes took part, and
+ * each of the three shards holds a share of the keys: the partitions, not one hash tag, decide where a component lives.
  */
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -81,7 +81,12 @@ describe('two worker processes on a Redis Cluster of 3 masters', () => {
     const settings = resolveQueueSettings({ prefix: PREFIX });
     const partitions = new Partitions(PREFIX, PARTITIONS);
     const resultQueues = openPartitionedQueues(QUEUE_NAMES.results, redis, settings, partitions);
-    const queues = [...resultQueues, ...openPartitionedQueues(QUEUE_NAMES.evaluate, redis, settings, partitions), openSharedQueue(QUEUE_NAMES.escalate, redis, settings, partitions)];
+    const queues = [
+      ...resultQueues,
+      ...openPartitionedQueues(QUEUE_NAMES.history, redis, settings, partitions),
+      ...openPartitionedQueues(QUEUE_NAMES.evaluate, redis, settings, partitions),
+      openSharedQueue(QUEUE_NAMES.escalate, redis, settings, partitions),
+    ];
     const workers: WearshiftProcess[] = [];
     try {
       for (let i = 0; i < 2; i++) workers.push(await startWearshift('worker', { env, args: ['--config', configFile], readyTimeoutMs: 120_000 }));
@@ -97,10 +102,13 @@ describe('two worker processes on a Redis Cluster of 3 masters', () => {
       expect(first.stderr.trim().split('\n')).toEqual([expect.stringMatching(/^wearshift: Redis cluster .*\(REDIS_CLUSTER_NODES\)/)]);
       expect(first.code).toBe(0);
       expect(first.stdout).toContain(`${UNITS * SAMPLES} enqueued`);
-      // A redelivery of every record while the first copies are being processed.
-      const again = await runCli(['import', file, '--config', configFile], env, 120_000);
+      // A redelivery of every record while the first copies are being processed, as history jobs (per partition).
+      const again = await runCli(['import', file, '--config', configFile, '--history', '--batch-size', '50'], env, 120_000);
       expect(again.code).toBe(0);
+      expect(again.stdout).toContain(`${UNITS * SAMPLES} enqueued`);
       await drained(queues, 600_000);
+      // None failed: the history jobs were stored and evaluated (a completed one is removed).
+      expect((await Promise.all(queues.map((q) => q.getFailedCount()))).every((n) => n === 0)).toBe(true);
 
       // Every result stored once: one revision per sampleId, in the component's own partition.
       const config = parseConfig(CONFIG);
