@@ -130,8 +130,8 @@ function child(args: readonly string[], env: NodeJS.ProcessEnv, name: string): C
 }
 
 /** `node bin/wearshift.js worker` with the given configuration file, logging warnings only. */
-export function startWorkerProcess(redisUrl: string, configFile: string): ChildWorker {
-  return child([CLI, 'worker'], { REDIS_URL: redisUrl, WEARSHIFT_CONFIG: configFile, LOG_LEVEL: 'warn' }, 'wearshift worker');
+export function startWorkerProcess(redisUrl: string, configFile: string, args: readonly string[] = []): ChildWorker {
+  return child([CLI, 'worker', ...args], { REDIS_URL: redisUrl, WEARSHIFT_CONFIG: configFile, LOG_LEVEL: 'warn' }, 'wearshift worker');
 }
 
 /** The same, on a Redis Cluster named by its seed nodes (REDIS_CLUSTER_NODES). */

@@ -10,7 +10,8 @@
  * - latency: at a steady 200 results/s onto components with history, from enqueue to the completion of the result's
  *   job (stored, and evaluated when the component was free) and to the incident's notification job on the `notify` queue;
  * - backfill: 100 000 old results (quiet: nobody is paged) over 1 000 components, sent as history jobs (stored and
- *   evaluated month by month): wall time, the worker's peak resident memory, Redis memory per component.
+ *   evaluated month by month), once on the worker's own thread and once with history threads: wall time, the worker's
+ *   peak resident memory, Redis memory per component.
  */
 import { Queue, QueueEvents, type Job } from 'bullmq';
 import type { Redis } from 'ioredis';
@@ -74,7 +75,7 @@ interface Session {
 }
 
 /** A clean Redis and `processes` worker processes, listening on the queues. */
-async function openSession(line: Line, processes: number, quietAfterDays: number): Promise<Session> {
+async function openSession(line: Line, processes: number, quietAfterDays: number, workerArgs: readonly string[] = []): Promise<Session> {
   const client = line.server.client();
   await client.flushall();
   const configFile = writeConfig(line.server.dir, { prefix: PREFIX, webhookUrl: line.receiver.url, quietAfterDays });
@@ -85,7 +86,7 @@ async function openSession(line: Line, processes: number, quietAfterDays: number
     evaluate: openQueue(QUEUE_NAMES.evaluate, client, settings),
     notify: openQueue(QUEUE_NAMES.notify, client, settings),
   };
-  const workers = Array.from({ length: processes }, () => startWorkerProcess(line.server.url, configFile));
+  const workers = Array.from({ length: processes }, () => startWorkerProcess(line.server.url, configFile, workerArgs));
   const producer = createResultProducer({ connection: client, prefix: PREFIX });
   const close = async () => {
     await producer.close();
@@ -406,6 +407,58 @@ export async function runLatency(o: RunOptions): Promise<PartResult> {
 
 /** Redis bytes of one component's own keys at 100 samples. */
 const COMPONENT_BYTES_TARGET = 40 * 1024;
+/** The backfill of 100 000 results over 1 000 components, on 2 cores. */
+const BACKFILL_SECONDS_TARGET = 60;
+
+/** History threads of the measured backfill run (`wearshift worker --history-threads`), beside a run without. */
+const BACKFILL_HISTORY_THREADS = 2;
+
+interface BackfillRun {
+  readonly threads: number;
+  readonly seconds: number;
+  readonly intakeSeconds: number;
+  readonly peakRssKb: number;
+  readonly perComponentBytes: number;
+  readonly keys: Record<string, number>;
+  readonly componentParts: Record<string, number>;
+  readonly behind: number;
+  readonly notifications: number;
+}
+
+/** One backfill of `events` into a clean Redis, with one worker process using `threads` history threads. */
+async function backfillRun(line: Line, events: readonly ResultEvent[], threads: number, o: RunOptions): Promise<BackfillRun> {
+  // The default backfill setting: findings on samples older than 30 days are recorded but page nobody.
+  const s = await openSession(line, 1, 30, ['--history-threads', String(threads)]);
+  try {
+    const before = await usedMemory(s.client);
+    const t0 = performance.now();
+    // As `wearshift import --history` sends them: validated, then a history job of 10 000 results at a time.
+    for (let i = 0; i < events.length; i += HISTORY_JOB_SIZE) {
+      const chunk = events.slice(i, i + HISTORY_JOB_SIZE);
+      const validated = validateBatch(chunk, { now: Date.now() });
+      if (validated.accepted.length !== chunk.length) throw new Error(`backfill: ${chunk.length - validated.accepted.length} invented results did not validate`);
+      const refused = (await s.producer.enqueueHistory(validated.accepted, HISTORY_JOB_SIZE)).find((r) => r.status !== 'accepted');
+      if (refused !== undefined) throw new Error(`the producer refused ${refused.sampleId}: ${JSON.stringify(refused.errors)}`);
+    }
+    const intake = performance.now();
+    o.log(`backfill (${threads} history threads): ${events.length} results enqueued in ${Math.ceil(events.length / HISTORY_JOB_SIZE)} history jobs in ${fmt((intake - t0) / 1000)} s`);
+    const end = await drainedAt([s.queues.history, s.queues.results, s.queues.evaluate], s.workers, { pollMs: 200 });
+    const after = await usedMemory(s.client);
+    return {
+      threads,
+      seconds: (end - t0) / 1000,
+      intakeSeconds: (intake - t0) / 1000,
+      peakRssKb: s.workers[0]!.peakRssKb(),
+      perComponentBytes: after - before,
+      keys: await memoryByKind(s.client),
+      componentParts: await memoryByKind(s.client, 'c:*'),
+      behind: await lagging(s.client, events),
+      notifications: (await notifyJobs(s.queues.notify)).length,
+    };
+  } finally {
+    await s.close();
+  }
+}
 
 export async function runBackfill(o: RunOptions): Promise<PartResult> {
   const missing = pipelineMissing();
@@ -414,72 +467,58 @@ export async function runBackfill(o: RunOptions): Promise<PartResult> {
   const perComponent = 100;
   return withLine(async (line) => {
     const events = labFeed({ components, samplesPerComponent: perComponent, faultyShare: 0.05, endsBeforeNowMs: 90 * DAY_MS, now: Date.now(), seed: o.seed + 2, unitPrefix: 'BF' });
-    // The default backfill setting: findings on samples older than 30 days are recorded but page nobody.
-    const s = await openSession(line, 1, 30);
-    try {
-      const before = await usedMemory(s.client);
-      const t0 = performance.now();
-      // As `wearshift import --history` sends them: validated, then a history job of 10 000 results at a time.
-      for (let i = 0; i < events.length; i += HISTORY_JOB_SIZE) {
-        const chunk = events.slice(i, i + HISTORY_JOB_SIZE);
-        const validated = validateBatch(chunk, { now: Date.now() });
-        if (validated.accepted.length !== chunk.length) throw new Error(`backfill: ${chunk.length - validated.accepted.length} invented results did not validate`);
-        const refused = (await s.producer.enqueueHistory(validated.accepted, HISTORY_JOB_SIZE)).find((r) => r.status !== 'accepted');
-        if (refused !== undefined) throw new Error(`the producer refused ${refused.sampleId}: ${JSON.stringify(refused.errors)}`);
-      }
-      const intake = performance.now();
-      o.log(`backfill: ${events.length} results enqueued in ${Math.ceil(events.length / HISTORY_JOB_SIZE)} history jobs in ${fmt((intake - t0) / 1000)} s`);
-      const end = await drainedAt([s.queues.history, s.queues.results, s.queues.evaluate], s.workers, { pollMs: 200 });
-      const seconds = (end - t0) / 1000;
-      const peakRssKb = s.workers[0]!.peakRssKb();
-      const after = await usedMemory(s.client);
-      const keys = await memoryByKind(s.client);
-      const componentParts = await memoryByKind(s.client, 'c:*');
-      const behind = await lagging(s.client, events);
-      const notifications = (await notifyJobs(s.queues.notify)).length;
-      const perComponentBytes = (after - before) / components;
-      // The component's own keys (MEMORY USAGE summed over them), per component: the storage target.
-      const componentKeysBytes = (keys.c ?? 0) / components;
-      const storageMet = componentKeysBytes <= COMPONENT_BYTES_TARGET;
-      return {
-        name: 'backfill',
-        json: {
-          results: events.length,
-          components,
-          wallSeconds: round(seconds),
-          resultsPerSec: round(events.length / seconds),
-          intakeSeconds: round((intake - t0) / 1000),
-          workerPeakRssMb: round(peakRssKb / 1024),
-          redisUsedMemoryDeltaMb: round((after - before) / 2 ** 20),
-          redisBytesPerComponent: round(perComponentBytes),
-          redisBytesByKind: keys,
-          componentKeysBytesByKind: Object.fromEntries(Object.entries(componentParts).map(([k, b]) => [k, round(b / components)])),
-          componentKeysBytes: round(componentKeysBytes),
-          storageTarget: { componentKeysBytesAtMost: COMPONENT_BYTES_TARGET, met: storageMet },
-          notificationsQueued: notifications,
-          componentsNotFullyEvaluated: behind,
-        },
-        table: {
-          columns: ['results', 'components', 'wall s', 'results/s', 'worker peak RSS MB', 'Redis KB / component', 'own keys KB / component'],
-          rows: [[String(events.length), String(components), fmt(seconds), fmt(events.length / seconds), fmt(peakRssKb / 1024), fmt(perComponentBytes / 1024), fmt(componentKeysBytes / 1024)]],
-        },
-        notes: [
-          `${perComponent} results per component over ${fmt((perComponent * 250) / 8760)} years of operation, all older than 90 days (quiet: ${notifications} notifications), in sampling-time order, enqueued as history jobs of ${HISTORY_JOB_SIZE} results (as \`wearshift import --history\` does) while one worker process runs`,
-          `wall time: first enqueue to results and evaluate queues drained; every component's last sample fed: ${behind === 0 ? 'yes' : `NO, ${behind} behind`}`,
-          `worker peak RSS: VmHWM of the worker process; Redis: INFO used_memory after − before, per component`,
-          `a component's own keys (c:…, MEMORY USAGE) at ${perComponent} samples: ${fmt(componentKeysBytes / 1024)} KB; target ≤ ${COMPONENT_BYTES_TARGET / 1024} KB: ${storageMet ? 'MET' : 'MISSED'}`,
-          `a component's own keys by kind (MEMORY USAGE, KB per component): ${Object.entries(componentParts)
-            .sort(([a], [b]) => (a < b ? -1 : 1))
-            .map(([k, b]) => `${k} ${fmt(b / 1024 / components)}`)
-            .join(', ')}`,
-          `Redis by key kind (MEMORY USAGE, KB per component): ${Object.entries(keys)
-            .map(([k, b]) => `${k} ${fmt(b / 1024 / components)}`)
-            .join(', ')}`,
-        ],
-      };
-    } finally {
-      await s.close();
-    }
+    // The same results, first on the worker's own thread alone, then with history threads (each run from an empty Redis).
+    const runs = [await backfillRun(line, events, 0, o), await backfillRun(line, events, BACKFILL_HISTORY_THREADS, o)];
+    const measured = runs[1]!;
+    const { keys, componentParts } = measured;
+    // The component's own keys (MEMORY USAGE summed over them), per component: the storage target.
+    const componentKeysBytes = (keys.c ?? 0) / components;
+    const storageMet = componentKeysBytes <= COMPONENT_BYTES_TARGET;
+    const timeMet = measured.seconds <= BACKFILL_SECONDS_TARGET;
+    const runJson = (r: BackfillRun) => ({
+      historyThreads: r.threads,
+      wallSeconds: round(r.seconds),
+      resultsPerSec: round(events.length / r.seconds),
+      intakeSeconds: round(r.intakeSeconds),
+      workerPeakRssMb: round(r.peakRssKb / 1024),
+      redisUsedMemoryDeltaMb: round(r.perComponentBytes / 2 ** 20),
+      redisBytesPerComponent: round(r.perComponentBytes / components),
+      notificationsQueued: r.notifications,
+      componentsNotFullyEvaluated: r.behind,
+    });
+    return {
+      name: 'backfill',
+      json: {
+        results: events.length,
+        components,
+        ...runJson(measured),
+        withoutThreads: runJson(runs[0]!),
+        speedup: round(runs[0]!.seconds / measured.seconds),
+        timeTarget: { wallSecondsAtMost: BACKFILL_SECONDS_TARGET, met: timeMet },
+        redisBytesByKind: keys,
+        componentKeysBytesByKind: Object.fromEntries(Object.entries(componentParts).map(([k, b]) => [k, round(b / components)])),
+        componentKeysBytes: round(componentKeysBytes),
+        storageTarget: { componentKeysBytesAtMost: COMPONENT_BYTES_TARGET, met: storageMet },
+      },
+      table: {
+        columns: ['results', 'components', 'history threads', 'wall s', 'results/s', 'worker peak RSS MB', 'Redis KB / component'],
+        rows: runs.map((r) => [String(events.length), String(components), String(r.threads), fmt(r.seconds), fmt(events.length / r.seconds), fmt(r.peakRssKb / 1024), fmt(r.perComponentBytes / components / 1024)]),
+      },
+      notes: [
+        `${perComponent} results per component over ${fmt((perComponent * 250) / 8760)} years of operation, all older than 90 days (quiet: ${runs.map((r) => r.notifications).join(' / ')} notifications), in sampling-time order, enqueued as history jobs of ${HISTORY_JOB_SIZE} results (as \`wearshift import --history\` does) while one worker process runs, first without history threads, then with \`--history-threads ${BACKFILL_HISTORY_THREADS}\`, each from an empty Redis`,
+        `with ${BACKFILL_HISTORY_THREADS} history threads: ${fmt(measured.seconds)} s, ${fmt(runs[0]!.seconds / measured.seconds)} times as fast as the worker's own thread alone in the same run; target ≤ ${BACKFILL_SECONDS_TARGET} s: ${timeMet ? 'MET' : 'MISSED'}`,
+        `wall time: first enqueue to history, results and evaluate queues drained; every component's last sample fed: ${runs.every((r) => r.behind === 0) ? 'yes' : `NO, ${runs.map((r) => r.behind).join(' / ')} behind`}`,
+        `worker peak RSS: VmHWM of the worker process (its threads included); Redis: INFO used_memory after − before, per component`,
+        `a component's own keys (c:…, MEMORY USAGE) at ${perComponent} samples: ${fmt(componentKeysBytes / 1024)} KB; target ≤ ${COMPONENT_BYTES_TARGET / 1024} KB: ${storageMet ? 'MET' : 'MISSED'}`,
+        `a component's own keys by kind (MEMORY USAGE, KB per component): ${Object.entries(componentParts)
+          .sort(([a], [b]) => (a < b ? -1 : 1))
+          .map(([k, b]) => `${k} ${fmt(b / 1024 / components)}`)
+          .join(', ')}`,
+        `Redis by key kind (MEMORY USAGE, KB per component): ${Object.entries(keys)
+          .map(([k, b]) => `${k} ${fmt(b / 1024 / components)}`)
+          .join(', ')}`,
+      ],
+    };
   });
 }
 

@@ -23,8 +23,9 @@ const signature = sourceSignature(src);
 rmSync(dist, { recursive: true, force: true });
 const run = spawnSync(process.execPath, [tsc, '-p', 'tsconfig.build.json'], { cwd: root, stdio: 'inherit' });
 if (run.status !== 0) process.exit(run.status ?? 1);
-// What the compiler does not carry over: the board's static files, and the chart thread's entry (which under tsx
-// registers the TypeScript loader first; compiled, it loads the compiled thread directly).
+// What the compiler does not carry over: the board's static files, and the chart and evaluation threads' entries
+// (which under tsx register the TypeScript loader first; compiled, they load the compiled thread directly).
 cpSync(`${src}/board`, `${dist}/board`, { recursive: true });
 writeFileSync(`${dist}/render/chartThread.mjs`, "// Entry of a chart thread in the compiled build (see src/render/chartThread.mjs).\nawait import('./chartThread.js');\n");
+writeFileSync(`${dist}/queue/evaluationThread.mjs`, "// Entry of an evaluation thread in the compiled build (see src/queue/evaluationThread.mjs).\nawait import('./evaluationThread.js');\n");
 writeFileSync(`${dist}/.source-signature`, signature);

@@ -149,6 +149,7 @@ async function evaluateUnderLease(deps: EvaluationDeps, ref: ComponentRef, lease
     baselines: baselineShares(fold, finalState, settings),
     incidents: verdict.state,
     incidentsVersion: input.incidentsVersion,
+    recorded: input.incidents,
     effects: verdict.effects,
     archived: verdict.archived,
     withdrawn: verdict.withdrawn,

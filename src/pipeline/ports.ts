@@ -113,6 +113,11 @@ export interface EvaluationCommit {
   /** The incidents after the evaluation, the version read, their effects, and incidents withdrawn. */
   readonly incidents: ComponentIncidents;
   readonly incidentsVersion: number;
+  /**
+   * The incidents as the input found them, whose records are on file at `incidentsVersion`: a store need not write
+   * the unchanged ones again. Default: every incident is written.
+   */
+  readonly recorded?: ComponentIncidents;
   readonly effects: readonly IncidentEffect[];
   /** Incidents to keep on record beside the state: closed ones a new incident of their key replaced, and withdrawn ones. */
   readonly archived: readonly Incident[];

@@ -7,6 +7,7 @@
 import type { Queue } from 'bullmq';
 import { componentKey } from '../domain/event.ts';
 import { evaluateStored, type EvaluationDeps } from '../pipeline/evaluateStored.ts';
+import { summarizeEvaluation, type EvaluationSummary } from '../pipeline/evaluationSummary.ts';
 import { incidentEvent, type LiveEvent } from '../pipeline/liveEvent.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
 import type { Partitions } from '../redis/keys.ts';
@@ -23,6 +24,8 @@ export interface EvaluationRunnerDeps extends EvaluationDeps {
   readonly live?: (event: LiveEvent) => void;
   /** Told when an evaluation produced messages or escalation checks (the outbox relay drains then). */
   readonly onEffects?: () => void;
+  /** Where an evaluation runs. Default: `evaluateStored` on this thread (an EvaluationThreadPool runs it on others). */
+  readonly evaluator?: (ref: ComponentRef) => Promise<EvaluationSummary>;
 }
 
 export type RunOutcome = 'done' | 'busy';
@@ -32,7 +35,7 @@ const MAX_ROUNDS = 50;
 
 export async function runEvaluation(deps: EvaluationRunnerDeps, ref: ComponentRef): Promise<RunOutcome> {
   for (let round = 0; round < MAX_ROUNDS; round++) {
-    const result = await evaluateStored(deps, ref);
+    const result = deps.evaluator !== undefined ? await deps.evaluator(ref) : summarizeEvaluation(await evaluateStored(deps, ref));
     switch (result.kind) {
       case 'busy':
       case 'lost-lock':
@@ -44,7 +47,7 @@ export async function runEvaluation(deps: EvaluationRunnerDeps, ref: ComponentRe
         return 'done';
       case 'evaluated': {
         deps.metrics?.evaluated(result.durationMs / 1000, 'evaluated');
-        deps.metrics?.findings(result.steps.flatMap((s) => s.findings));
+        deps.metrics?.findings(result.findings);
         for (const change of result.changes) deps.live?.(incidentEvent(change));
         if (result.effects.length > 0) deps.onEffects?.();
         await deps.store.markDirty(result.cascade);

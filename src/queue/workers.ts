@@ -28,7 +28,9 @@ import { FLOOD_SUMMARY_JOB, notifyProcessor } from './processors/notifyProcessor
 import { DEFAULT_FLOOD_CONTROL } from '../domain/escalationConfig.ts';
 import { DeliveryLedger } from '../redis/deliveryLedger.ts';
 import { FloodLedger } from '../redis/floodLedger.ts';
-import { historyProcessor } from './processors/historyProcessor.ts';
+import { EvaluationThreadPool } from './evaluationThreadPool.ts';
+import { HISTORY_EVALUATIONS_PER_THREAD, historyProcessor } from './processors/historyProcessor.ts';
+import type { RedisTarget } from '../redis/target.ts';
 import { resultsProcessor } from './processors/resultsProcessor.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from './queues.ts';
 
@@ -51,6 +53,12 @@ export interface WorkerSettings extends QueueSettings {
   notifyAttempts?: number;
   /** How often the incident outbox is looked at besides after each evaluation. Default 1000 ms. */
   outboxIntervalMs?: number;
+  /**
+   * Threads that evaluate the components of a history job's month beside this one (evaluationThreadPool.ts), each
+   * with its own Redis connection: a history import then uses more than one core. 0: the worker's own thread
+   * evaluates them. Needs `WorkerDeps.target` and the Redis store. Default 0.
+   */
+  historyThreads?: number;
 }
 
 export const WORKER_DEFAULTS = {
@@ -63,6 +71,7 @@ export const WORKER_DEFAULTS = {
   notifyConcurrency: 4,
   notifyAttempts: 20,
   outboxIntervalMs: 1000,
+  historyThreads: 0,
 } as const;
 
 export interface WorkerDeps {
@@ -81,6 +90,8 @@ export interface WorkerDeps {
   readonly now?: () => number;
   /** The store and group ledger. Default: the Redis store on `connection` with the same prefix and partitions. */
   readonly store?: ComponentStore & GroupLedger;
+  /** The Redis or Redis Cluster `connection` talks to, for the connections of evaluation threads (`historyThreads`). */
+  readonly target?: RedisTarget;
 }
 
 export interface RunningWorkers {
@@ -127,13 +138,30 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
     onEffects: () => relay.kick(),
   };
 
+  let pool: EvaluationThreadPool | undefined;
+  if (s.historyThreads > 0) {
+    if (deps.target === undefined || deps.store !== undefined) throw new Error('historyThreads: the evaluation threads need the Redis target (WorkerDeps.target) and the Redis store');
+    pool = new EvaluationThreadPool({
+      threads: s.historyThreads,
+      target: deps.target,
+      prefix: queueSettings.prefix,
+      partitions: s.partitions,
+      config: deps.config,
+      lockTtlMs: s.lockTtlMs,
+      checkpointEvery: s.checkpointEvery,
+    });
+  }
+  const threads = pool;
+  const historyRunner: EvaluationRunnerDeps = threads === undefined ? runner : { ...runner, evaluator: (ref) => threads.evaluate(ref, now()) };
+  const historyAtOnce = HISTORY_EVALUATIONS_PER_THREAD * Math.max(1, s.historyThreads);
+
   const workers: Worker[] = [];
   for (const p of partitions.all()) {
     const prefix = partitions.tag(p);
     workers.push(new Worker(QUEUE_NAMES.results, resultsProcessor(runner, s.busyRetryMs), options(prefix, s.resultsConcurrency)));
     workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs), options(prefix, s.evaluateConcurrency)));
     // One history at a time (the producer sets the queue's global concurrency to 1 as well).
-    workers.push(new Worker(QUEUE_NAMES.history, historyProcessor(runner, s.busyRetryMs), options(prefix, 1)));
+    workers.push(new Worker(QUEUE_NAMES.history, historyProcessor(historyRunner, s.busyRetryMs, historyAtOnce), options(prefix, 1)));
   }
   workers.push(new Worker(QUEUE_NAMES.escalate, escalateProcessor(incidents, now, () => relay.kick()) as Processor, options(partitions.sharedTag(), s.notifyConcurrency)));
   const channels = deps.channels;
@@ -190,6 +218,7 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
     workers,
     async close() {
       await Promise.all(workers.map((w) => w.close()));
+      await pool?.close();
       await relay.close();
       await Promise.all([...evaluateQueues, notifyQueue, escalateQueue].map((q: Queue) => q.close()));
       await channels?.close();

@@ -23,9 +23,10 @@ function roleOptions(role: ConnectionRole): RedisOptions {
     : { maxRetriesPerRequest: 1, enableOfflineQueue: false, connectTimeout: 2000 };
 }
 
-export function connectRedis(target: string | RedisTarget, role: ConnectionRole, logger?: Logger): RedisConnection {
+/** `name`: the connection's name in Redis (CLIENT LIST), for connections an operator may want to tell apart. */
+export function connectRedis(target: string | RedisTarget, role: ConnectionRole, logger?: Logger, name?: string): RedisConnection {
   const t: RedisTarget = typeof target === 'string' ? { kind: 'single', url: target } : target;
-  const options = roleOptions(role);
+  const options: RedisOptions = { ...roleOptions(role), ...(name !== undefined && { connectionName: name }) };
   const retryStrategy = (attempt: number) => Math.min(200 * attempt, 2000);
   const redis: RedisConnection =
     t.kind === 'single'

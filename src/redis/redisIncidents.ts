@@ -13,6 +13,7 @@ import { IncidentConflictError, IncidentNotFoundError } from '../incidents/error
 import { matchesFilter, type IncidentFilter } from '../incidents/listFilter.ts';
 import { emptyComponentIncidents, findIncident, summarize, type ComponentIncidents, type Incident, type IncidentEffect, type IncidentSummary } from '../incidents/model.ts';
 import type { IncidentRules } from '../incidents/policy.ts';
+import { changedIncidents } from './changedIncidents.ts';
 import { compactText, expandText } from './compactText.ts';
 import { componentKeys, partitionKeys, Partitions } from './keys.ts';
 import { incidentRecordRows, type RedisConnection } from './redisStore.ts';
@@ -223,7 +224,3 @@ export class RedisIncidents {
   }
 }
 
-function changedIncidents(before: ComponentIncidents, after: ComponentIncidents): Incident[] {
-  const old = new Map(Object.values(before.incidents).map((i) => [i.id, JSON.stringify(i)]));
-  return Object.values(after.incidents).filter((i) => old.get(i.id) !== JSON.stringify(i));
-}

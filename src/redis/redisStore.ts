@@ -33,6 +33,7 @@ import type {
 } from '../pipeline/ports.ts';
 import { decodeCompactSample, decodeSample, encodeSample, encodeSampleCore, isCompactSample } from '../pipeline/sampleCodec.ts';
 import type { RedisConnection } from './connection.ts';
+import { changedIncidents } from './changedIncidents.ts';
 import { compactText, expandText } from './compactText.ts';
 import { COMMON_FIELD, componentKeys, groupKeys, partitionKeys, Partitions } from './keys.ts';
 import { ACQUIRE_WITH_INPUT, COMMIT_EVALUATION, MARK_DIRTY, MARK_SAMPLE, RELEASE_LOCK, RENEW_LOCK, SAMPLES_AFTER, STORE_SAMPLE } from './scripts.ts';
@@ -94,13 +95,15 @@ export function incidentRecordRows(incidents: readonly Incident[]): Array<[strin
 const FIRST_RECORD_ARGUMENT = 4;
 
 /**
- * The incident part of a commit: each incident's JSON text is sent once, as a script argument of its own (not
+ * The incident part of a commit: each changed incident's JSON text is sent once, as a script argument of its own (not
  * escaped inside the payload), which its record row names; the component's incident state, which holds them too, is
  * stored compact (compactText.ts) and sent so.
  */
 function incidentArguments(commit: EvaluationCommit, first: number) {
   const state = commit.incidents;
-  const rows = incidentRecordRows([...Object.values(state.incidents), ...commit.archived, ...commit.withdrawn]);
+  // Records already on file as they are (the input's state, at the version the commit checks) are not sent again.
+  const current = commit.recorded === undefined ? Object.values(state.incidents) : changedIncidents(commit.recorded, state);
+  const rows = incidentRecordRows([...current, ...commit.archived, ...commit.withdrawn]);
   return {
     texts: rows.map((r) => r[1]),
     records: rows.map(([id, , status, score, opened], i) => [id, first + i, status, score, opened] as const),

@@ -13,9 +13,13 @@ export interface ServiceCommandOptions {
   metricsPort?: string;
   shutdownTimeout?: string;
   opcuaPort?: string;
+  historyThreads?: string;
 }
 
 export type ServiceKind = 'serve' | 'worker' | 'api';
+
+/** More evaluation threads than this would only wait on one Redis in turn. */
+export const MAX_HISTORY_THREADS = 16;
 
 export function portNumber(raw: string, what: string): number {
   const n = Number(raw);
@@ -34,6 +38,10 @@ export async function runService(kind: ServiceKind, opts: ServiceCommandOptions,
   const port = opts.port !== undefined ? portNumber(opts.port, '--port') : env.PORT !== undefined && env.PORT !== '' ? portNumber(env.PORT, 'PORT') : DEFAULT_PORT;
   const timeoutMs = opts.shutdownTimeout === undefined ? DEFAULT_SHUTDOWN_TIMEOUT_MS : Number(opts.shutdownTimeout) * 1000;
   if (!(timeoutMs > 0)) throw new InputError(`--shutdown-timeout: expected a positive number of seconds, got "${opts.shutdownTimeout}"`);
+  const historyThreads = opts.historyThreads === undefined ? undefined : Number(opts.historyThreads);
+  if (historyThreads !== undefined && !(Number.isInteger(historyThreads) && historyThreads >= 0 && historyThreads <= MAX_HISTORY_THREADS)) {
+    throw new InputError(`--history-threads: expected a whole number from 0 to ${MAX_HISTORY_THREADS}, got "${opts.historyThreads}"`);
+  }
   const running = await startServices({
     workers: kind !== 'api',
     http: kind !== 'worker',
@@ -43,6 +51,7 @@ export async function runService(kind: ServiceKind, opts: ServiceCommandOptions,
     env,
     ...(opts.metricsPort !== undefined && { metricsPort: portNumber(opts.metricsPort, '--metrics-port') }),
     ...(opts.opcuaPort !== undefined && { opcuaPort: portNumber(opts.opcuaPort, '--opcua-port') }),
+    ...(historyThreads !== undefined && { workerSettings: { historyThreads } }),
   });
   if (running.url !== undefined) logger.info({ url: running.url }, 'listening');
   onShutdownSignals(running.closers, { logger, timeoutMs });

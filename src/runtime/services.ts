@@ -141,6 +141,7 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
         ...(hasChannels && { channels: notificationChannels(config.channels, { logger, env, disabledEndpoints: redisDisabledEndpoints(connection, prefix), timeZone: config.display.timeZone }) }),
         apiBaseUrl,
         live: livePublisher(connection, prefix, logger),
+        target,
       },
       { ...options.workerSettings, prefix, partitions: partitionCount },
     );

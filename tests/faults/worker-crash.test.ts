@@ -53,7 +53,9 @@ async function crashMidBackfill(sending: Sending, seed: number): Promise<void> {
   // 50 gearboxes × 60 samples; the fleet's in-control iron climbs past the 45 ppm caution level late in
   // many drains, so dozens of incidents open and notify while the backfill runs.
   const fleet = inventedFleet({ units: 50, samplesPerUnit: 60, seed });
-  const first = await startWearshift('worker', { env: scenario.env(hooks.secret) });
+  // History jobs are evaluated on two history threads: the kill stops them mid-evaluation too.
+  const args = sending === 'one job per result' ? [] : ['--history-threads', '2'];
+  const first = await startWearshift('worker', { env: scenario.env(hooks.secret), args });
   const producer = createResultProducer({ connection: scenario.client, prefix: PREFIX });
   // A history goes in sampling-time order, as a lab export lists it.
   const byTime = [...fleet].sort((a, b) => Date.parse(a.sampledAt) - Date.parse(b.sampledAt));
@@ -76,7 +78,7 @@ async function crashMidBackfill(sending: Sending, seed: number): Promise<void> {
   // The receivers here time a message when they have read it, not when it was sent: a request the dead worker had
   // written before the kill may still be read after it. A repeat can only come from the second worker, started now.
   const restartedAt = Date.now();
-  const second = await startWearshift('worker', { env: scenario.env(hooks.secret) });
+  const second = await startWearshift('worker', { env: scenario.env(hooks.secret), args });
   // The killed worker's jobs come back only when their locks (30 s) have run out.
   await settled(scenario, fleet.length, 180_000).catch((e: Error) => {
     throw new Error(`${e.message}\nlast lines of the second worker:\n${second.output().slice(-4000)}`);

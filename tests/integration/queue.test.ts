@@ -45,10 +45,11 @@ interface Line {
   close(): Promise<void>;
 }
 
-async function pipeline(): Promise<Line> {
+/** `historyThreads`: threads that evaluate the months of history jobs (each its own connection to the same Redis). */
+async function pipeline(historyThreads = 0): Promise<Line> {
   const prefix = `{q${++prefixes}}`;
   const connection = server.client();
-  const workers = startWorkers({ connection, config, logger: silentLogger() }, { prefix, backoffMs: 50 });
+  const workers = startWorkers({ connection, config, logger: silentLogger(), target: { kind: 'single', url: server.url } }, { prefix, backoffMs: 50, historyThreads });
   const settings = resolveQueueSettings({ prefix });
   const history = openQueue(QUEUE_NAMES.history, connection, settings);
   const queues = [openQueue(QUEUE_NAMES.results, connection, settings), openQueue(QUEUE_NAMES.evaluate, connection, settings), history];
@@ -225,6 +226,23 @@ describe('live pipeline', () => {
       await single.close();
       await inOrder.close();
       await shuffled.close();
+    }
+  });
+
+  it('history jobs evaluated on history threads reach the state of one job per result', async () => {
+    const single = await pipeline();
+    const threaded = await pipeline(2);
+    try {
+      await single.send(fleet);
+      // Jobs of shuffled results: each month's components are evaluated on two threads with connections of their own.
+      await threaded.sendHistory([...fleet].sort((a, b) => hash(a.sampleId) - hash(b.sampleId)), 30);
+      const expected = await storedState(single);
+      expect(expected.incidents.length).toBeGreaterThan(0);
+      expect(await storedState(threaded)).toEqual(expected);
+      expect(await threaded.history.getJobCounts('completed', 'failed')).toEqual({ completed: 0, failed: 0 });
+    } finally {
+      await single.close();
+      await threaded.close();
     }
   });
 

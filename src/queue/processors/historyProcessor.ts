@@ -21,8 +21,8 @@ import { conflictReason } from '../../redis/revisionConflicts.ts';
 import { runEvaluation, type EvaluationRunnerDeps } from '../evaluationRunner.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, scheduleEvaluation, type HistoryJobData } from '../queues.ts';
 
-/** Evaluations of one month run this many at a time (they wait on Redis in turn). */
-const EVALUATIONS_AT_ONCE = 4;
+/** Evaluations of one month run this many at a time per evaluating thread (they wait on Redis in turn). */
+export const HISTORY_EVALUATIONS_PER_THREAD = 4;
 
 export interface HistoryOutcome {
   readonly results: number;
@@ -30,11 +30,12 @@ export interface HistoryOutcome {
   readonly evaluations: number;
 }
 
-export function historyProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_EVALUATE_RETRY_MS): Processor {
-  return (job: Job) => processHistory(deps, job, retryMs);
+/** `atOnce`: evaluations of one month in flight at a time. Default HISTORY_EVALUATIONS_PER_THREAD. */
+export function historyProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_EVALUATE_RETRY_MS, atOnce = HISTORY_EVALUATIONS_PER_THREAD): Processor {
+  return (job: Job) => processHistory(deps, job, retryMs, atOnce);
 }
 
-async function processHistory(deps: EvaluationRunnerDeps, job: Job, retryMs: number): Promise<HistoryOutcome> {
+async function processHistory(deps: EvaluationRunnerDeps, job: Job, retryMs: number, atOnce: number): Promise<HistoryOutcome> {
   const data = job.data as Partial<HistoryJobData> | null;
   if (!Array.isArray(data?.records)) throw new UnrecoverableError('history job: data must be {"records": [result, ...]}');
   const now = deps.now();
@@ -76,7 +77,7 @@ async function processHistory(deps: EvaluationRunnerDeps, job: Job, retryMs: num
     evaluations += refs.length;
     let next = 0;
     await Promise.all(
-      Array.from({ length: Math.min(EVALUATIONS_AT_ONCE, refs.length) }, async () => {
+      Array.from({ length: Math.min(atOnce, refs.length) }, async () => {
         while (next < refs.length) {
           const ref = refs[next++]!;
           if ((await runEvaluation(deps, ref)) === 'busy') await scheduleEvaluation(deps.evaluateQueues[deps.partitions.of(ref)]!, ref, retryMs);
