@@ -1,6 +1,6 @@
 /**
  * Sharding on Redis Cluster: a private cluster of 3 masters (tests/helpers/redisCluster.ts), two `wearshift worker`
- * processes named to it by REDIS_CLUSTER_NODES, keys and queues in 12 partitions, an invented fleet imported twice
+ * processes named to it by REDIS_CLUSTER_NODES (the second with a history thread, `--history-threads 1`), keys and queues in 12 partitions, an invented fleet imported twice
  * with `wearshift import` (first as history jobs, `--history`; then a redelivery of every record). Every result
  * is stored once, the incidents are those `wearshift replay` gives on the same file, both processes took part, and
  * each of the three shards holds a share of the keys: the partitions, not one hash tag, decide where a component lives.
@@ -89,7 +89,8 @@ describe('two worker processes on a Redis Cluster of 3 masters', () => {
     ];
     const workers: WearshiftProcess[] = [];
     try {
-      for (let i = 0; i < 2; i++) workers.push(await startWearshift('worker', { env, args: ['--config', configFile], readyTimeoutMs: 120_000 }));
+      // The second evaluates history months on a thread of its own too (its own connection to the cluster).
+      for (let i = 0; i < 2; i++) workers.push(await startWearshift('worker', { env, args: ['--config', configFile, '--history-threads', String(i)], readyTimeoutMs: 120_000 }));
       // Both processes take jobs from every partition before the results arrive.
       const deadline = Date.now() + 60_000;
       while ((await Promise.all(resultQueues.map((q) => q.getWorkersCount()))).some((n) => n < 2)) {
