@@ -1,5 +1,5 @@
 /**
- * Threads that evaluate components beside the worker's own, each with its own Redis connection and store: an
+ * Threads that evaluate components for the worker's own thread, each with its own Redis connection and store: an
  * evaluation is mostly serialising, compressing and talking to Redis, all on one thread in Node, so a worker whose
  * history job has a month's components to evaluate (processors/historyProcessor.ts) uses more cores this way. The
  * evaluation is the same `evaluateStored` (the same locks, commits and verdicts); the calling thread keeps the rest

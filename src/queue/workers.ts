@@ -54,8 +54,8 @@ export interface WorkerSettings extends QueueSettings {
   /** How often the incident outbox is looked at besides after each evaluation. Default 1000 ms. */
   outboxIntervalMs?: number;
   /**
-   * Threads that evaluate the components of a history job's month beside this one (evaluationThreadPool.ts), each
-   * with its own Redis connection: a history import then uses more than one core. 0: the worker's own thread
+   * Threads that evaluate the components of a history job's month in place of this one (evaluationThreadPool.ts),
+   * each with its own Redis connection: a history import then uses more than one core. 0: the worker's own thread
    * evaluates them. Needs `WorkerDeps.target` and the Redis store. Default 0.
    */
   historyThreads?: number;

@@ -8,7 +8,7 @@ export function registerServe(program: Command): void {
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--port <n>', 'HTTP port (default: PORT, else 8080)')
     .option('--opcua-port <n>', 'also serve OPC UA Alarms & Conditions on this opc.tcp port (default: opcua.port of the configuration, else off)')
-    .option('--history-threads <n>', 'threads that evaluate the components of a history import beside the main one, each with its own Redis connection (0: none)', '0')
+    .option('--history-threads <n>', 'threads that evaluate the components of a history import (`import --history`), each with its own Redis connection; 0: the main thread does', '0')
     .option('--shutdown-timeout <seconds>', 'longest wait for active jobs and connections at shutdown', '10')
     .action((opts: ServiceCommandOptions) => runService('serve', opts));
 }

@@ -7,7 +7,7 @@ export function registerWorker(program: Command): void {
     .command('worker')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--metrics-port <n>', 'also serve /healthz, /readyz and /metrics on this port')
-    .option('--history-threads <n>', 'threads that evaluate the components of a history import beside the main one, each with its own Redis connection (0: none)', '0')
+    .option('--history-threads <n>', 'threads that evaluate the components of a history import (`import --history`), each with its own Redis connection; 0: the main thread does', '0')
     .option('--shutdown-timeout <seconds>', 'longest wait for active jobs and connections at shutdown', '10')
     .action((opts: ServiceCommandOptions) => runService('worker', opts));
 }
