@@ -18,7 +18,8 @@ import type { Redis } from 'ioredis';
 import type { ResultEvent } from '../src/domain/event.ts';
 import type { NotifyEffect } from '../src/incidents/model.ts';
 import { createResultProducer, type ResultProducer } from '../src/queue/producer.ts';
-import { DEFAULT_HISTORY_JOB_SIZE, defaultJobOptions, openQueue, QUEUE_NAMES, resolveQueueSettings } from '../src/queue/queues.ts';
+import { DEFAULT_HISTORY_JOB_SIZE, defaultJobOptions, openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings } from '../src/queue/queues.ts';
+import { Partitions } from '../src/redis/keys.ts';
 import { validateBatch } from '../src/intake/validate.ts';
 import { WORKER_DEFAULTS } from '../src/queue/workers.ts';
 import { RedisStore } from '../src/redis/redisStore.ts';
@@ -68,30 +69,33 @@ async function withLine<T>(fn: (line: Line) => Promise<T>): Promise<T> {
 
 interface Session {
   readonly client: Redis;
+  /** The queues of partition 0 (all of them with one partition), and the shared notify queue. */
   readonly queues: { readonly results: Queue; readonly history: Queue; readonly evaluate: Queue; readonly notify: Queue };
+  /** Every partition's results and evaluate queues and the history queue: drained when the work is done. */
+  readonly work: readonly Queue[];
   readonly workers: readonly ChildWorker[];
   readonly producer: ResultProducer;
   close(): Promise<void>;
 }
 
-/** A clean Redis and `processes` worker processes, listening on the queues. */
-async function openSession(line: Line, processes: number, quietAfterDays: number, workerArgs: readonly string[] = []): Promise<Session> {
+/** A clean Redis and `processes` worker processes, listening on the queues; keys and queues in `partitions` partitions. */
+async function openSession(line: Line, processes: number, quietAfterDays: number, workerArgs: readonly string[] = [], partitionCount = 1): Promise<Session> {
   const client = line.server.client();
   await client.flushall();
-  const configFile = writeConfig(line.server.dir, { prefix: PREFIX, webhookUrl: line.receiver.url, quietAfterDays });
+  const configFile = writeConfig(line.server.dir, { prefix: PREFIX, webhookUrl: line.receiver.url, quietAfterDays, partitions: partitionCount });
   const settings = resolveQueueSettings({ prefix: PREFIX });
-  const queues = {
-    results: openQueue(QUEUE_NAMES.results, client, settings),
-    history: openQueue(QUEUE_NAMES.history, client, settings),
-    evaluate: openQueue(QUEUE_NAMES.evaluate, client, settings),
-    notify: openQueue(QUEUE_NAMES.notify, client, settings),
-  };
+  const partitions = new Partitions(PREFIX, partitionCount);
+  const results = openPartitionedQueues(QUEUE_NAMES.results, client, settings, partitions);
+  const evaluate = openPartitionedQueues(QUEUE_NAMES.evaluate, client, settings, partitions);
+  const history = openSharedQueue(QUEUE_NAMES.history, client, settings, partitions);
+  const queues = { results: results[0]!, history, evaluate: evaluate[0]!, notify: openSharedQueue(QUEUE_NAMES.notify, client, settings, partitions) };
+  const work = [history, ...results, ...evaluate];
   const workers = Array.from({ length: processes }, () => startWorkerProcess(line.server.url, configFile, workerArgs));
-  const producer = createResultProducer({ connection: client, prefix: PREFIX });
+  const producer = createResultProducer({ connection: client, prefix: PREFIX, partitions: partitionCount });
   const close = async () => {
     await producer.close();
     await Promise.all(workers.map((w) => w.stop()));
-    await Promise.all(Object.values(queues).map((q) => q.close()));
+    await Promise.all([...work, queues.notify].map((q) => q.close()));
   };
   try {
     await workersListening([queues.results, queues.evaluate], processes, workers);
@@ -99,7 +103,7 @@ async function openSession(line: Line, processes: number, quietAfterDays: number
     await close();
     throw e;
   }
-  return { client, queues, workers, producer, close };
+  return { client, queues, work, workers, producer, close };
 }
 
 async function send(producer: ResultProducer, events: readonly ResultEvent[], batch: number): Promise<void> {
@@ -111,10 +115,10 @@ async function send(producer: ResultProducer, events: readonly ResultEvent[], ba
 }
 
 /** Components whose last result has not reached the incident engine (must be none once the queues are drained). */
-async function lagging(client: Redis, events: readonly ResultEvent[]): Promise<number> {
+async function lagging(client: Redis, events: readonly ResultEvent[], partitions = 1): Promise<number> {
   const last = new Map<string, ResultEvent>();
   for (const e of events) last.set(`${e.unit}/${e.component}`, e);
-  const storage = new RedisStore(client, { prefix: PREFIX });
+  const storage = new RedisStore(client, { prefix: PREFIX, partitions });
   let behind = 0;
   for (const e of last.values()) if ((await storage.evaluationInput(e))?.latest?.position?.sampleId !== e.sampleId) behind++;
   return behind;
@@ -412,9 +416,12 @@ const BACKFILL_SECONDS_TARGET = 60;
 
 /** History threads of the measured backfill run (`wearshift worker --history-threads`), beside a run without. */
 const BACKFILL_HISTORY_THREADS = 2;
+/** Partitions of the third backfill run (`redis.partitions`). */
+const BACKFILL_PARTITIONS = 4;
 
 interface BackfillRun {
   readonly threads: number;
+  readonly partitions: number;
   readonly seconds: number;
   readonly intakeSeconds: number;
   readonly peakRssKb: number;
@@ -426,9 +433,9 @@ interface BackfillRun {
 }
 
 /** One backfill of `events` into a clean Redis, with one worker process using `threads` history threads. */
-async function backfillRun(line: Line, events: readonly ResultEvent[], threads: number, o: RunOptions): Promise<BackfillRun> {
+async function backfillRun(line: Line, events: readonly ResultEvent[], threads: number, o: RunOptions, partitions = 1): Promise<BackfillRun> {
   // The default backfill setting: findings on samples older than 30 days are recorded but page nobody.
-  const s = await openSession(line, 1, 30, ['--history-threads', String(threads)]);
+  const s = await openSession(line, 1, 30, ['--history-threads', String(threads)], partitions);
   try {
     const before = await usedMemory(s.client);
     const t0 = performance.now();
@@ -442,17 +449,18 @@ async function backfillRun(line: Line, events: readonly ResultEvent[], threads: 
     }
     const intake = performance.now();
     o.log(`backfill (${threads} history threads): ${events.length} results enqueued in ${Math.ceil(events.length / HISTORY_JOB_SIZE)} history jobs in ${fmt((intake - t0) / 1000)} s`);
-    const end = await drainedAt([s.queues.history, s.queues.results, s.queues.evaluate], s.workers, { pollMs: 200 });
+    const end = await drainedAt(s.work, s.workers, { pollMs: 200 });
     const after = await usedMemory(s.client);
     return {
       threads,
+      partitions,
       seconds: (end - t0) / 1000,
       intakeSeconds: (intake - t0) / 1000,
       peakRssKb: s.workers[0]!.peakRssKb(),
       perComponentBytes: after - before,
       keys: await memoryByKind(s.client),
       componentParts: await memoryByKind(s.client, 'c:*'),
-      behind: await lagging(s.client, events),
+      behind: await lagging(s.client, events, partitions),
       notifications: (await notifyJobs(s.queues.notify)).length,
     };
   } finally {
@@ -468,7 +476,13 @@ export async function runBackfill(o: RunOptions): Promise<PartResult> {
   return withLine(async (line) => {
     const events = labFeed({ components, samplesPerComponent: perComponent, faultyShare: 0.05, endsBeforeNowMs: 90 * DAY_MS, now: Date.now(), seed: o.seed + 2, unitPrefix: 'BF' });
     // The same results, first on the worker's own thread alone, then with history threads (each run from an empty Redis).
-    const runs = [await backfillRun(line, events, 0, o), await backfillRun(line, events, BACKFILL_HISTORY_THREADS, o)];
+    // And with the keys in BACKFILL_PARTITIONS partitions (as on a Redis Cluster; here one Redis): one history queue
+    // for all of them.
+    const runs = [
+      await backfillRun(line, events, 0, o),
+      await backfillRun(line, events, BACKFILL_HISTORY_THREADS, o),
+      await backfillRun(line, events, BACKFILL_HISTORY_THREADS, o, BACKFILL_PARTITIONS),
+    ];
     const measured = runs[1]!;
     const { keys, componentParts } = measured;
     // The component's own keys (MEMORY USAGE summed over them), per component: the storage target.
@@ -477,6 +491,7 @@ export async function runBackfill(o: RunOptions): Promise<PartResult> {
     const timeMet = measured.seconds <= BACKFILL_SECONDS_TARGET;
     const runJson = (r: BackfillRun) => ({
       historyThreads: r.threads,
+      partitions: r.partitions,
       wallSeconds: round(r.seconds),
       resultsPerSec: round(events.length / r.seconds),
       intakeSeconds: round(r.intakeSeconds),
@@ -493,6 +508,7 @@ export async function runBackfill(o: RunOptions): Promise<PartResult> {
         components,
         ...runJson(measured),
         withoutThreads: runJson(runs[0]!),
+        partitioned: runJson(runs[2]!),
         speedup: round(runs[0]!.seconds / measured.seconds),
         timeTarget: { wallSecondsAtMost: BACKFILL_SECONDS_TARGET, met: timeMet },
         redisBytesByKind: keys,
@@ -501,11 +517,11 @@ export async function runBackfill(o: RunOptions): Promise<PartResult> {
         storageTarget: { componentKeysBytesAtMost: COMPONENT_BYTES_TARGET, met: storageMet },
       },
       table: {
-        columns: ['results', 'components', 'history threads', 'wall s', 'results/s', 'worker peak RSS MB', 'Redis KB / component'],
-        rows: runs.map((r) => [String(events.length), String(components), String(r.threads), fmt(r.seconds), fmt(events.length / r.seconds), fmt(r.peakRssKb / 1024), fmt(r.perComponentBytes / components / 1024)]),
+        columns: ['results', 'components', 'history threads', 'partitions', 'wall s', 'results/s', 'worker peak RSS MB', 'Redis KB / component'],
+        rows: runs.map((r) => [String(events.length), String(components), String(r.threads), String(r.partitions), fmt(r.seconds), fmt(events.length / r.seconds), fmt(r.peakRssKb / 1024), fmt(r.perComponentBytes / components / 1024)]),
       },
       notes: [
-        `${perComponent} results per component over ${fmt((perComponent * 250) / 8760)} years of operation, all older than 90 days (quiet: ${runs.map((r) => r.notifications).join(' / ')} notifications), in sampling-time order, enqueued as history jobs of ${HISTORY_JOB_SIZE} results (as \`wearshift import --history\` does) while one worker process runs, first without history threads, then with \`--history-threads ${BACKFILL_HISTORY_THREADS}\`, each from an empty Redis`,
+        `${perComponent} results per component over ${fmt((perComponent * 250) / 8760)} years of operation, all older than 90 days (quiet: ${runs.map((r) => r.notifications).join(' / ')} notifications), in sampling-time order, enqueued as history jobs of ${HISTORY_JOB_SIZE} results (as \`wearshift import --history\` does) while one worker process runs, first without history threads, then with \`--history-threads ${BACKFILL_HISTORY_THREADS}\`, then so with the keys in ${BACKFILL_PARTITIONS} partitions (\`redis.partitions\`; one Redis), each from an empty Redis`,
         `with ${BACKFILL_HISTORY_THREADS} history threads: ${fmt(measured.seconds)} s, ${fmt(runs[0]!.seconds / measured.seconds)} times as fast as the worker's own thread alone in the same run; target ≤ ${BACKFILL_SECONDS_TARGET} s: ${timeMet ? 'MET' : 'MISSED'}`,
         `wall time: first enqueue to history, results and evaluate queues drained; every component's last sample fed: ${runs.every((r) => r.behind === 0) ? 'yes' : `NO, ${runs.map((r) => r.behind).join(' / ')} behind`}`,
         `worker peak RSS: VmHWM of the worker process (its threads included); Redis: INFO used_memory after − before, per component`,

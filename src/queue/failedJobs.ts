@@ -35,10 +35,10 @@ function subjectOf(queue: QueueName, data: unknown): string | undefined {
   return text(d.incidentId);
 }
 
-/** Where the jobs of a queue live: every partition's queue for results, history and evaluate, the shared one for the others. */
+/** Where the jobs of a queue live: every partition's queue for results and evaluate, the shared one for the others. */
 export function queueLocations(name: QueueName, prefix: string, partitionCount: number): Array<{ label: string; prefix: string }> {
   const partitions = new Partitions(prefix, partitionCount);
-  if (name === QUEUE_NAMES.notify || name === QUEUE_NAMES.escalate) return [{ label: name, prefix: partitions.sharedTag() }];
+  if (name === QUEUE_NAMES.history || name === QUEUE_NAMES.notify || name === QUEUE_NAMES.escalate) return [{ label: name, prefix: partitions.sharedTag() }];
   return partitions.all().map((p) => ({ label: partitionCount === 1 ? name : `${name}.${p}`, prefix: partitions.tag(p) }));
 }
 

@@ -6,7 +6,7 @@
 import type { Queue } from 'bullmq';
 import { connectRedis, type RedisConnection, type RedisTarget } from '../redis/connection.ts';
 import { Partitions } from '../redis/keys.ts';
-import { DEFAULT_HISTORY_JOB_SIZE, HISTORY_JOB, openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings, type HistoryJobData, type QueueSettings } from './queues.ts';
+import { DEFAULT_HISTORY_JOB_SIZE, HISTORY_JOB, openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings, type HistoryJobData, type QueueSettings } from './queues.ts';
 import { validateBatch, type RecordOutcome, type ValidatedRecord, type ValidationOptions } from '../intake/validate.ts';
 import { revisionConflicts } from '../redis/revisionConflicts.ts';
 
@@ -38,7 +38,7 @@ export interface ResultProducer {
   enqueue(records: readonly ValidatedRecord[]): Promise<RecordOutcome[]>;
   /**
    * `enqueue` for a history (years of old results, an import): the records go in jobs of up to `perJob` results
-   * (default 10 000; per partition), which a worker stores and evaluates one sampling month at a time, each component
+   * (default 10 000; one `history` queue for all partitions, in the order given), which a worker stores and evaluates one sampling month at a time, each component
    * once per month of the job rather than once per result. Best in sampling-time order, as a lab export lists them;
    * any order gives the same verdicts. Live results go one job each (`add`, `enqueue`).
    */
@@ -72,7 +72,7 @@ export function createResultProducer(options: ResultProducerOptions): ResultProd
   const settings = resolveQueueSettings(options);
   const partitions = new Partitions(settings.prefix, options.partitions ?? 1);
   const queues: Queue[] = openPartitionedQueues(QUEUE_NAMES.results, redis, settings, partitions);
-  const historyQueues: Queue[] = openPartitionedQueues(QUEUE_NAMES.history, redis, settings, partitions);
+  const historyQueue = openSharedQueue(QUEUE_NAMES.history, redis, settings, partitions);
   // Set once per producer, before its first history job: one history job at a time across all workers.
   let historyReady: Promise<unknown> | undefined;
   const now = options.now ?? Date.now;
@@ -83,21 +83,21 @@ export function createResultProducer(options: ResultProducerOptions): ResultProd
     await queues[0]!.waitUntilReady();
     const conflicts = await revisionConflicts(redis, partitions, records);
     const accepted = records.filter((r) => !conflicts.has(r.index));
-    // Each result goes to its component's partition (one bulk add per partition).
-    const byPartition = new Map<number, ValidatedRecord[]>();
-    for (const r of accepted) {
-      const p = partitions.of(r.sample);
-      byPartition.set(p, [...(byPartition.get(p) ?? []), r]);
+    if (perJob !== undefined) {
+      // History jobs, in the order given, whatever the partitions: one queue for all of them. A completed history job
+      // is removed at once: its data is the whole batch of results, stored by then.
+      const jobs: Array<{ name: string; data: HistoryJobData; opts: { removeOnComplete: true } }> = [];
+      for (let i = 0; i < accepted.length; i += perJob) jobs.push({ name: HISTORY_JOB, data: { records: accepted.slice(i, i + perJob).map((r) => r.event) }, opts: { removeOnComplete: true } });
+      await historyQueue.addBulk(jobs);
+    } else {
+      // Each result goes to its component's partition (one bulk add per partition).
+      const byPartition = new Map<number, ValidatedRecord[]>();
+      for (const r of accepted) {
+        const p = partitions.of(r.sample);
+        byPartition.set(p, [...(byPartition.get(p) ?? []), r]);
+      }
+      await Promise.all([...byPartition].map(([p, list]) => queues[p]!.addBulk(list.map((r) => ({ name: 'result', data: r.event })))));
     }
-    await Promise.all(
-      [...byPartition].map(([p, list]) => {
-        if (perJob === undefined) return queues[p]!.addBulk(list.map((r) => ({ name: 'result', data: r.event })));
-        // A completed history job is removed at once: its data is the whole batch of results, stored by then.
-        const jobs: Array<{ name: string; data: HistoryJobData; opts: { removeOnComplete: true } }> = [];
-        for (let i = 0; i < list.length; i += perJob) jobs.push({ name: HISTORY_JOB, data: { records: list.slice(i, i + perJob).map((r) => r.event) }, opts: { removeOnComplete: true } });
-        return historyQueues[p]!.addBulk(jobs);
-      }),
-    );
     const issues = new Map<number, RecordOutcome>();
     for (const [index, issue] of conflicts) {
       const sampleId = records.find((r) => r.index === index)?.sample.sampleId;
@@ -118,13 +118,13 @@ export function createResultProducer(options: ResultProducerOptions): ResultProd
     },
     async enqueueHistory(records, perJob = DEFAULT_HISTORY_JOB_SIZE) {
       if (!(Number.isInteger(perJob) && perJob >= 1)) throw new RangeError(`results per history job must be a whole number from 1, got ${perJob}`);
-      historyReady ??= Promise.all(historyQueues.map((q) => q.setGlobalConcurrency(1)));
+      historyReady ??= historyQueue.setGlobalConcurrency(1);
       await historyReady;
       const conflicts = await enqueue(records, perJob);
       return records.map((r) => conflicts.get(r.index) ?? { index: r.index, sampleId: r.sample.sampleId, status: 'accepted' });
     },
     async close() {
-      await Promise.all([...queues, ...historyQueues].map((q) => q.close()));
+      await Promise.all([...queues, historyQueue].map((q) => q.close()));
       if (ownConnection) await redis.quit().catch(() => redis.disconnect());
     },
   };

@@ -60,12 +60,12 @@ export function openQueue(name: QueueName, connection: ConnectionOptions, settin
 }
 
 /** The partitioned queues of one kind, by partition. */
-export function openPartitionedQueues(name: 'results' | 'history' | 'evaluate', connection: ConnectionOptions, settings: Required<QueueSettings>, partitions: Partitions): Queue[] {
+export function openPartitionedQueues(name: 'results' | 'evaluate', connection: ConnectionOptions, settings: Required<QueueSettings>, partitions: Partitions): Queue[] {
   return partitions.all().map((p) => openQueue(name, connection, { ...settings, prefix: partitions.tag(p) }));
 }
 
-/** The shared queues (notify, escalate) live under their own tag. */
-export function openSharedQueue(name: 'notify' | 'escalate', connection: ConnectionOptions, settings: Required<QueueSettings>, partitions: Partitions): Queue {
+/** The shared queues (history, notify, escalate) live under their own tag. */
+export function openSharedQueue(name: 'history' | 'notify' | 'escalate', connection: ConnectionOptions, settings: Required<QueueSettings>, partitions: Partitions): Queue {
   return openQueue(name, connection, { ...settings, prefix: partitions.sharedTag() });
 }
 
@@ -73,9 +73,10 @@ export function openSharedQueue(name: 'notify' | 'escalate', connection: Connect
 export const DEFAULT_EVALUATE_RETRY_MS = 200;
 
 /**
- * A job of the `history` queue: many old results of one partition, stored and evaluated month by month
- * (processors/historyProcessor.ts). The queue runs one job at a time across all workers (BullMQ's global
- * concurrency), so that histories are evaluated in the order they were sent.
+ * A job of the `history` queue: many old results, of components in any partition, stored and evaluated month by
+ * month (processors/historyProcessor.ts). The queue is one for all partitions (under the shared tag) and runs one job
+ * at a time across all workers (BullMQ's global concurrency), so that histories are evaluated in the order they were
+ * sent and no partition's months run ahead of another's (which would make the group's statistics re-judge them).
  */
 export const HISTORY_JOB = 'history';
 /** Results per history job. */

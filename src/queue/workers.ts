@@ -160,9 +160,9 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
     const prefix = partitions.tag(p);
     workers.push(new Worker(QUEUE_NAMES.results, resultsProcessor(runner, s.busyRetryMs), options(prefix, s.resultsConcurrency)));
     workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs), options(prefix, s.evaluateConcurrency)));
-    // One history at a time (the producer sets the queue's global concurrency to 1 as well).
-    workers.push(new Worker(QUEUE_NAMES.history, historyProcessor(historyRunner, s.busyRetryMs, historyAtOnce), options(prefix, 1)));
   }
+  // One history job at a time, for every partition (the producer sets the queue's global concurrency to 1 as well).
+  workers.push(new Worker(QUEUE_NAMES.history, historyProcessor(historyRunner, s.busyRetryMs, historyAtOnce), options(partitions.sharedTag(), 1)));
   workers.push(new Worker(QUEUE_NAMES.escalate, escalateProcessor(incidents, now, () => relay.kick()) as Processor, options(partitions.sharedTag(), s.notifyConcurrency)));
   const channels = deps.channels;
   if (channels !== undefined) {

@@ -102,7 +102,7 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
   const evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, request, queueSettings, partitions);
   const counted: Array<readonly [string, Queue[]]> = [
     [QUEUE_NAMES.results, openPartitionedQueues(QUEUE_NAMES.results, request, queueSettings, partitions)],
-    [QUEUE_NAMES.history, openPartitionedQueues(QUEUE_NAMES.history, request, queueSettings, partitions)],
+    [QUEUE_NAMES.history, [openSharedQueue(QUEUE_NAMES.history, request, queueSettings, partitions)]],
     [QUEUE_NAMES.evaluate, evaluateQueues],
     [QUEUE_NAMES.notify, [openSharedQueue(QUEUE_NAMES.notify, request, queueSettings, partitions)]],
     [QUEUE_NAMES.escalate, [openSharedQueue(QUEUE_NAMES.escalate, request, queueSettings, partitions)]],

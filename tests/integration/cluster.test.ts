@@ -83,7 +83,7 @@ describe('two worker processes on a Redis Cluster of 3 masters', () => {
     const resultQueues = openPartitionedQueues(QUEUE_NAMES.results, redis, settings, partitions);
     const queues = [
       ...resultQueues,
-      ...openPartitionedQueues(QUEUE_NAMES.history, redis, settings, partitions),
+      openSharedQueue(QUEUE_NAMES.history, redis, settings, partitions),
       ...openPartitionedQueues(QUEUE_NAMES.evaluate, redis, settings, partitions),
       openSharedQueue(QUEUE_NAMES.escalate, redis, settings, partitions),
     ];
@@ -98,7 +98,7 @@ describe('two worker processes on a Redis Cluster of 3 masters', () => {
         await new Promise((r) => setTimeout(r, 200));
       }
 
-      // First as history jobs of 50 results (per partition), stored and evaluated month by month.
+      // First as history jobs of 50 results (one queue for every partition), stored and evaluated month by month.
       const first = await runCli(['import', file, '--config', configFile, '--history', '--batch-size', '50'], env, 120_000);
       // The only line on stderr says which Redis the import writes to: the cluster, named by REDIS_CLUSTER_NODES.
       expect(first.stderr.trim().split('\n')).toEqual([expect.stringMatching(/^wearshift: Redis cluster .*\(REDIS_CLUSTER_NODES\)/)]);

@@ -1,5 +1,5 @@
 /**
- * The history processor: a job of the `history` queue carries many results of one partition (an import of old
+ * The history processor: a job of the `history` queue carries many results, of any partitions (an import of old
  * results). They are put in history order and taken one sampling month at a time: the month's results are stored, then
  * every component they made due is evaluated once, before the next month is stored. A component is evaluated once
  * per month of the job instead of once per result, and no evaluation runs past a month whose results of other units
