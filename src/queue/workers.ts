@@ -56,7 +56,9 @@ export interface WorkerSettings extends QueueSettings {
   /**
    * Threads that evaluate the components of a history job's month in place of this one (evaluationThreadPool.ts),
    * each with its own Redis connection: a history import then uses more than one core. 0: the worker's own thread
-   * evaluates them. Needs `WorkerDeps.target` and the Redis store. Default 0.
+   * evaluates them. Needs `WorkerDeps.target` and the Redis store. Default 0 here; `wearshift worker` and `serve`
+   * default to the machine's cores, at most 4 (runService.ts). Threads start at the first history evaluation and end
+   * after a minute without one.
    */
   historyThreads?: number;
 }

@@ -1,4 +1,5 @@
 /** What `wearshift serve|worker|api` share: configuration, logger, the services, and shutdown on signals. */
+import { availableParallelism } from 'node:os';
 import { loadConfig } from './loadConfig.ts';
 import { InputError } from '../domain/errors.ts';
 import type { Config } from '../domain/config.ts';
@@ -20,6 +21,14 @@ export type ServiceKind = 'serve' | 'worker' | 'api';
 
 /** More evaluation threads than this would only wait on one Redis in turn. */
 export const MAX_HISTORY_THREADS = 16;
+
+/**
+ * `--history-threads` when not given: the machine's cores, at most 4; none on one core (the worker's own thread
+ * would only wait for a single one). Threads start only when a history job comes and end a minute after it.
+ */
+export function defaultHistoryThreads(cores = availableParallelism()): number {
+  return cores < 2 ? 0 : Math.min(cores, 4);
+}
 
 export function portNumber(raw: string, what: string): number {
   const n = Number(raw);

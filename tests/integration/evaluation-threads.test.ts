@@ -75,4 +75,22 @@ describe('evaluation threads', () => {
     await waitFor('the threads\' connections closed', async () => !(await clientNames()).includes(EVALUATION_THREAD_CONNECTION), 30_000);
     await expect(pool.evaluate(there.refs[0]!, NOW)).rejects.toThrow(/closed/);
   });
+
+  it('end when idle and start again when needed', async () => {
+    const there = await storedFleet('{th-idle}');
+    const pool = new EvaluationThreadPool({ threads: 2, idleMs: 100, target: { kind: 'single', url: server.url }, prefix: '{th-idle}', partitions: 1, config, lockTtlMs: 30_000, checkpointEvery: 50 });
+    try {
+      expect(pool.running).toBe(0);
+      expect((await Promise.all(there.refs.map((ref) => pool.evaluate(ref, NOW)))).every((s) => s.kind === 'evaluated' || s.kind === 'unchanged')).toBe(true);
+      // Nothing more to do: both end (at least 100 ms later), and their connections with them.
+      await waitFor('idle threads ended', () => pool.running === 0, 30_000, 20);
+      await waitFor("the idle threads' connections closed", async () => !(await clientNames()).includes(EVALUATION_THREAD_CONNECTION), 30_000);
+      // The next request starts one again.
+      const again = await pool.evaluate(there.refs[0]!, NOW);
+      expect(again.kind).toBe('unchanged');
+      expect(pool.running).toBe(1);
+    } finally {
+      await pool.close();
+    }
+  });
 });

@@ -1,13 +1,13 @@
 /** `wearshift worker`: the queue workers only; run as many as the load needs, on any machines, against one Redis or one Redis Cluster. */
 import type { Command } from 'commander';
-import { runService, type ServiceCommandOptions } from '../../runtime/runService.ts';
+import { defaultHistoryThreads, runService, type ServiceCommandOptions } from '../../runtime/runService.ts';
 
 export function registerWorker(program: Command): void {
   program
     .command('worker')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--metrics-port <n>', 'also serve /healthz, /readyz and /metrics on this port')
-    .option('--history-threads <n>', 'threads that evaluate the components of a history import (`import --history`), each with its own Redis connection; 0: the main thread does', '0')
+    .option('--history-threads <n>', 'threads that evaluate the components of a history import (`import --history`), each with its own Redis connection, started when a history job comes and ended a minute after; 0: the main thread does; by default the number of cores, at most 4 (0 on one core)', String(defaultHistoryThreads()))
     .option('--shutdown-timeout <seconds>', 'longest wait for active jobs and connections at shutdown', '10')
     .action((opts: ServiceCommandOptions) => runService('worker', opts));
 }
