@@ -85,11 +85,10 @@ export class EvaluationThreadPool {
       this.slots.map(async (thread, slot) => {
         if (thread === undefined) return;
         const exited = new Promise<void>((resolve) => thread.worker.once('exit', () => resolve()));
-        this.retire(slot, thread);
-        let timer: NodeJS.Timeout | undefined;
-        const late = new Promise<'late'>((resolve) => (timer = setTimeout(() => resolve('late'), CLOSE_WAIT_MS)));
-        if ((await Promise.race([exited, late])) === 'late') await thread.worker.terminate();
-        clearTimeout(timer);
+        // Requests still held (their callers gave up waiting) fail with the thread.
+        if (thread.pending.size > 0) await thread.worker.terminate();
+        else this.retire(slot, thread);
+        await exited;
       }),
     );
   }
@@ -120,11 +119,17 @@ export class EvaluationThreadPool {
     return thread;
   }
 
-  /** Takes an idle thread out of its slot and lets it close its connection and end. */
+  /**
+   * Takes an idle thread out of its slot and lets it close its connection and end; one that has not ended after
+   * CLOSE_WAIT_MS (its connection cannot say goodbye while Redis is away) is stopped.
+   */
   private retire(slot: number, thread: Running): void {
     if (this.slots[slot] !== thread || thread.pending.size > 0) return;
     clearTimeout(thread.idle);
     this.slots[slot] = undefined;
+    const stop = setTimeout(() => void thread.worker.terminate(), CLOSE_WAIT_MS);
+    stop.unref();
+    thread.worker.once('exit', () => clearTimeout(stop));
     thread.worker.postMessage({ close: true } satisfies ThreadRequest);
   }
 }
