@@ -23,6 +23,7 @@
  * A fault is flagged when its sample carries a `sampling` finding; it opens a wear incident when, within the fault's
  * sample and the next 5, a machine incident is opened or escalated that the clean twin does not have.
  */
+import { changeBudgetShare, samplesPerBudgetPeriod } from '../src/analysis/budget.ts';
 import type { Config } from '../src/domain/config.ts';
 import { parseConfig } from '../src/domain/configFile.ts';
 import type { ResultEvent } from '../src/domain/event.ts';
@@ -33,6 +34,7 @@ import { componentView } from '../src/pipeline/componentView.ts';
 import { replayRecords } from '../src/pipeline/replay.ts';
 import { seededRandom, type Random } from '../src/simulation/random.ts';
 import { FLEET_KINDS, mix, newOilReadings, simulateUnit, type ComponentPlan, type FleetKindName, type SimulatedUnit, type WearChange } from './quietFleet.ts';
+import { ceilingProbability } from './detectionCeiling.ts';
 import type { PartResult } from './report.ts';
 import { fmt, median, round } from './stats.ts';
 
@@ -166,6 +168,11 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
   const cleanSignatures = signaturesByUnitKeys(cleanRun.incidents);
   const injectedSignatures = signaturesByUnit(injectedRun.incidents);
   const delays = new Map<string, number[]>(CHANGE_KINDS.map((c) => [c.label, []]));
+  // False alarms per sample the change detectors may raise on a healthy component: all on the changed metal, or shared by the watched metals.
+  const componentRate = (changeBudgetShare(config.population) * config.detection.budget.alarms) / samplesPerBudgetPeriod(config.detection.budget);
+  const ceilingRates = [componentRate, componentRate / Math.max(1, config.detection.measurands.length)] as const;
+  const ceilings = new Map<string, number[][]>();
+  const ceilingByMetal = new Map<string, number[][]>();
   const byMetal = new Map<string, number[]>();
   plans.forEach((p, i) => {
     if (p.change === undefined) return;
@@ -183,6 +190,12 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
     delays.get(p.change.label)!.push(delay);
     const key = `${p.change.label} ${u.kind} ${measurand}`;
     byMetal.set(key, [...(byMetal.get(key) ?? []), delay]);
+    // The best any detector could do on this change (detectionCeiling.ts), within the window its target is judged on.
+    const window = p.change.spec.factor === 2 ? 5 : 15;
+    const last = first + window - 1;
+    const bounds = ceilingRates.map((rate) => ceilingProbability(clean[i]!, p.base.kind, measurand, p.change!.spec, last, Math.min(0.5, window * rate)));
+    ceilings.set(p.change.label, [...(ceilings.get(p.change.label) ?? []), bounds]);
+    ceilingByMetal.set(key, [...(ceilingByMetal.get(key) ?? []), bounds]);
   });
   const changeRows = CHANGE_KINDS.map((c) => {
     const d = delays.get(c.label)!;
@@ -197,6 +210,9 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
     };
   });
   const doublings = [...delays.get('×2 step')!, ...delays.get('×2 ramp (1000 h)')!];
+  const meanBounds = (list: readonly number[][]) => ceilingRates.map((_, j) => list.reduce((a, b) => a + b[j]!, 0) / Math.max(1, list.length));
+  const doublingCeiling = meanBounds([...(ceilings.get('×2 step') ?? []), ...(ceilings.get('×2 ramp (1000 h)') ?? [])]);
+  const step15Ceiling = meanBounds(ceilings.get('×1.5 step') ?? []);
 
   // 2b. Sampling faults.
   const faultRows = new Map<FaultKind, { n: number; flagged: number; wear: number }>(FAULT_KINDS.map((k) => [k, { n: 0, flagged: 0, wear: 0 }]));
@@ -247,6 +263,8 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
   rows.push(['×2 steps and ramps: median samples to incident', fmt(doublingMedian), '≤ 3', mark(targets.doublingMedianSamples.met)]);
   rows.push(['×2 steps and ramps: share within 5 samples', pct(doublingWithin5), '≥ 90 %', mark(targets.doublingWithin5.met)]);
   rows.push(['×1.5 steps: share within 15 samples', pct(step15), '≥ 80 %', mark(targets.step15Within15.met)]);
+  rows.push(['  best possible (oracle; budget on the one metal / shared): ×2 within 5', `${pct(doublingCeiling[0]!)} / ${pct(doublingCeiling[1]!)}`, '', '']);
+  rows.push(['  best possible (oracle; budget on the one metal / shared): ×1.5 within 15', `${pct(step15Ceiling[0]!)} / ${pct(step15Ceiling[1]!)}`, '', '']);
   for (const k of FAULT_KINDS) {
     const r = faultRows.get(k)!;
     rows.push([`fault ${k} (${r.n}): flagged / wear incident`, `${pct(r.flagged / r.n)} / ${pct(r.wear / r.n)}`, '', TARGET_FAULTS.includes(k) ? '' : 'apart']);
@@ -269,6 +287,12 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
         openedBy: Object.fromEntries([...sources].sort((a, b) => b[1] - a[1])),
       },
       changesByMetal: Object.fromEntries([...byMetal].sort().map(([k, d]) => [k, { n: d.length, median: round(median(d)), within5: round(share(d, (x) => x <= 5)), within15: round(share(d, (x) => x <= 15)) }])),
+      ceiling: {
+        falseAlarmsPerSample: { oneMetal: round(ceilingRates[0]), shared: round(ceilingRates[1]) },
+        doublingsWithin5: { oneMetal: round(doublingCeiling[0]!), shared: round(doublingCeiling[1]!) },
+        step15Within15: { oneMetal: round(step15Ceiling[0]!), shared: round(step15Ceiling[1]!) },
+        byMetal: Object.fromEntries([...ceilingByMetal].sort().map(([k, list]) => [k, meanBounds(list).map((x) => round(x))])),
+      },
       changes: changeRows.map((c) => ({ ...c, median: round(c.median), within3: round(c.within3), within5: round(c.within5), within15: round(c.within15), caught: round(c.caught) })),
       faults: Object.fromEntries(FAULT_KINDS.map((k) => [k, faultRows.get(k)])),
       targets,
@@ -278,6 +302,7 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
       `${clean.length} components (${perKind} gearboxes, ${perKind} diesel engines) × ${samples} samples, groups of ${groupSize}, ${fmt(componentYears)} component-years; ` +
         'rate spread 40 %, lab noise 1 ppm + 5 %, "<1" below 1 ppm, drains with residual oil, top-ups, intervals 250 h ± 40 %',
       'through replayRecords (the path of replay and backtest) with an empty configuration; a component-year is 8760 operating hours',
+      'best possible: an oracle knowing the true rate, variances, carry-overs and change time (detectionCeiling.ts), false alarms over the window = window × the change budget per sample, on the one metal or shared by the watched metals; a real detector does worse',
       `incidents per family: the families of the findings that opened each incident; faults: wear incident = a machine incident opened or escalated within ${FAULT_WINDOW} samples that the clean twin does not have`,
     ],
   };

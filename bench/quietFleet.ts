@@ -70,8 +70,10 @@ export const FLEET_KINDS: Readonly<Record<FleetKindName, FleetKind>> = { gearbox
 /** Unit-to-unit spread of the in-control wear rates (coefficient of variation of a lognormal factor). */
 export const RATE_CV = 0.4;
 const CONTAMINANT_CV = 0.3;
-const PROCESS_VARIANCE_PER_RATE = 0.4;
-const LAB = { absolute: 1, relative: 0.05 };
+/** The wear process adds a variance of this times the in-control rate per operating hour (ppm²). */
+export const PROCESS_VARIANCE_PER_RATE = 0.4;
+/** Lab noise: one standard deviation sqrt(absolute² + (relative·level)²) ppm. */
+export const LAB_NOISE = { absolute: 1, relative: 0.05 } as const;
 const DETECTION_LIMIT = 1;
 const INTERVAL_HOURS = 250;
 const JITTER = 0.4;
@@ -145,7 +147,7 @@ export function simulateUnit(plan: ComponentPlan): SimulatedUnit {
     const readings: Record<string, number | string> = {};
     for (const m of Object.keys(rates)) readings[m] = labReading(levels[m]!, rng);
     for (const [m, c] of Object.entries(dirt)) readings[m] = labReading(c, rng);
-    for (const [m, c] of Object.entries(kind.additives)) readings[m] = Math.round(c * (1 + LAB.relative * rng.normal()));
+    for (const [m, c] of Object.entries(kind.additives)) readings[m] = Math.round(c * (1 + LAB_NOISE.relative * rng.normal()));
     for (const [m, e] of Object.entries(kind.extras)) readings[m] = round(Math.max(0, e.mean + e.sd * rng.normal()), e.decimals);
     trueLevels.push({ ...levels });
     hours.push(unitHours);
@@ -167,7 +169,7 @@ export function simulateUnit(plan: ComponentPlan): SimulatedUnit {
 
 /** A reading as the lab reports it: one decimal, "<1" below the detection limit. */
 export function labReading(level: number, rng: Random): number | string {
-  const sd = Math.sqrt(LAB.absolute ** 2 + (LAB.relative * level) ** 2);
+  const sd = Math.sqrt(LAB_NOISE.absolute ** 2 + (LAB_NOISE.relative * level) ** 2);
   const x = Math.max(0, Math.round((level + sd * rng.normal()) * 10) / 10);
   return x < DETECTION_LIMIT ? `<${DETECTION_LIMIT}` : x;
 }
@@ -177,7 +179,7 @@ export function newOilReadings(kind: FleetKind, rng: Random): Record<string, num
   const readings: Record<string, number | string> = {};
   for (const m of Object.keys(kind.metals)) readings[m] = labReading(0.3 * rng.next(), rng);
   for (const m of Object.keys(kind.contaminants)) readings[m] = labReading(1 + rng.next(), rng);
-  for (const [m, c] of Object.entries(kind.additives)) readings[m] = Math.round(c * (1 + LAB.relative * rng.normal()));
+  for (const [m, c] of Object.entries(kind.additives)) readings[m] = Math.round(c * (1 + LAB_NOISE.relative * rng.normal()));
   for (const [m, e] of Object.entries(kind.extras)) readings[m] = round(Math.max(0, 0.2 * e.mean), e.decimals);
   return readings;
 }
