@@ -2,9 +2,9 @@
  * The best any detector could do on a planned wear change of the `quiet` fleets: an upper bound on the chance that a
  * change is flagged within n samples, for a given false-alarm probability over those n samples.
  *
- * The bound is an oracle's. It knows everything the product has to learn or guess: the component's true in-control rate,
- * the wear-process and lab variances of the simulation (quietFleet.ts), the carry-over of every drain and top-up, the
- * sample the change starts at and the change's exact shape. Under those assumptions the readings are Gaussian with a
+ * The bound is an oracle's. It knows much that the product has to learn or guess: the wear-process and lab variances of
+ * the simulation (quietFleet.ts), the carry-over of every drain and top-up, the sample the change starts at and the
+ * change's exact shape; one of the two oracles is told the component's true in-control rate as well. Under those assumptions the readings are Gaussian with a
  * known covariance, and "no change" against "this change" is a test of a known mean shift d: by the Neyman–Pearson
  * lemma the most powerful test at false-alarm probability α detects with probability Φ(√(dᵀΣ⁻¹d) − z₁₋α) (common
  * practice, any statistics text on the matched filter). dᵀΣ⁻¹d is computed by the prediction-error decomposition: a
@@ -12,9 +12,9 @@
  * shift into innovation means m_k, and dᵀΣ⁻¹d = Σ m_k²/S_k (Harvey, "Forecasting, structural time series models and
  * the Kalman filter", 1989, from memory; tests/unit/bench-ceiling.test.ts checks the identity against the direct
  * matrix computation). Censoring below the detection limit, the unknown variances and the unknown change time are
- * ignored, so a real detector does worse, never better. Two oracles: one is told the component's true in-control rate;
- * the other learns it from the readings (before the change and after it: the rate is a state of its filter with an
- * uninformative prior), as any real detector must.
+ * ignored, so a real detector does worse, never better. The oracle that is not told the rate learns it from the
+ * readings, before the change and after it (the rate is a state of its filter with an uninformative prior), as any
+ * real detector must.
  *
  * α: a detector that keeps to the false-alarm budget raises, on a healthy metal, at most `window` × its per-sample
  * false-alarm rate over `window` samples. Two rates are reported: the whole change-detection budget of the component
