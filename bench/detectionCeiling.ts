@@ -12,7 +12,8 @@
  * shift into innovation means m_k, and dᵀΣ⁻¹d = Σ m_k²/S_k (Harvey, "Forecasting, structural time series models and
  * the Kalman filter", 1989, from memory; tests/unit/bench-ceiling.test.ts checks the identity against the direct
  * matrix computation). Censoring below the detection limit, the unknown variances and the unknown change time are
- * ignored, so a real detector does worse, never better. The oracle that is not told the rate learns it from the
+ * ignored, and the lab variance is the healthy twin's (a change raises the level and with it the lab noise), so a real
+ * detector does worse, never better. The oracle that is not told the rate learns it from the
  * readings, before the change and after it (the rate is a state of its filter with an uninformative prior), as any
  * real detector must.
  *
