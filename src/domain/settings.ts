@@ -11,6 +11,8 @@ export interface ComponentSettings {
   readonly sumpLitres?: number;
   /** Share of the previous charge left in the sump after a drain. */
   readonly residualFraction: number;
+  /** True when neither the group nor the defaults set `residualFraction`: the built-in share stands in. */
+  readonly residualFractionDefaulted?: boolean;
   readonly limits: Readonly<Partial<Record<Measurand, Levels>>>;
   readonly rateLimits: Readonly<Partial<Record<Measurand, Levels>>>;
   readonly newOil: Readonly<Partial<Record<Measurand, number>>>;
@@ -51,6 +53,7 @@ export function resolveSettings(config: Config, c: { unit: string; component: st
   return {
     group,
     residualFraction: g?.residualFraction ?? d.residualFraction ?? DEFAULT_RESIDUAL_FRACTION,
+    ...(g?.residualFraction === undefined && d.residualFraction === undefined && { residualFractionDefaulted: true }),
     limits: { ...d.limits, ...g?.limits },
     rateLimits: { ...d.rateLimits, ...g?.rateLimits },
     newOil: { ...d.newOil, ...g?.newOil },

@@ -72,7 +72,22 @@ function explainRise(m: Measurand, rule: 'ewma' | 'cusum', value: number, thresh
   return (
     `${m} (${MEASURANDS[m].label}) is accumulating faster than before: ${statistic(rule, value, threshold)}; the latest interval gained ` +
     `${fmt(p.interval.rate * 100)} ppm/100 h against ${baselineProvenance(p, track, settings)}. ` +
-    `It may point to ${origin ?? 'the parts this metal comes from'} wearing faster, or to a change in sampling or duty; next: re-sample to confirm (same sample point, machine at working temperature), and ask the lab to review the trend.`
+    `It may point to ${origin ?? 'the parts this metal comes from'} wearing faster, or to a change in sampling or duty; next: re-sample to confirm (same sample point, machine at working temperature), and ask the lab to review the trend.` +
+    residualHint(p, settings, 'more')
+  );
+}
+
+/**
+ * At the first sample after an oil change judged with the built-in residual share: a share far from the real one
+ * biases that interval by the difference times the previous charge's level, so the explanation says which setting
+ * removes the doubt (BENCHMARKS.md: a 30 % residual judged at 10 % makes healthy gearboxes signal).
+ */
+function residualHint(p: ChangePoint, settings: ComponentSettings, direction: 'more' | 'less'): string {
+  const iv = p.interval;
+  if (settings.residualFractionDefaulted !== true || !iv.firstOfCharge || !(iv.carryOver > 0)) return '';
+  return (
+    ` This is the first sample after an oil change, judged as if ${fmt(iv.carryOver * 100)} % of the old oil stayed in the sump (the built-in share: group ${settings.group} sets no residualFraction); ` +
+    `if ${direction} of it stays behind, set residualFraction for the group and this interval reads differently.`
   );
 }
 
@@ -80,7 +95,8 @@ function explainFall(m: Measurand, rule: 'ewma' | 'cusum', value: number, thresh
   return (
     `${m} (${MEASURANDS[m].label}) is rising more slowly than this component's wear can explain: ${statistic(rule, value, threshold)}; the latest interval gained ` +
     `${fmt(p.interval.rate * 100)} ppm/100 h against ${baselineProvenance(p, track, settings)}. ` +
-    'A wear rate does not fall by itself: check the sample point and the oil-change records (an unreported drain or top-up), and ask the lab.'
+    'A wear rate does not fall by itself: check the sample point and the oil-change records (an unreported drain or top-up), and ask the lab.' +
+    residualHint(p, settings, 'less')
   );
 }
 
