@@ -23,21 +23,9 @@
  * shares it.
  */
 import { normalCdf } from '../src/analysis/arl/normal.ts';
+import { normalQuantile } from '../src/analysis/forecast/quantile.ts';
 import type { FleetKind, SimulatedUnit, WearChange } from './quietFleet.ts';
 import { LAB_NOISE, PROCESS_VARIANCE_PER_RATE } from './quietFleet.ts';
-
-/** Upper quantile of the standard normal: z with 1 − Φ(z) = p (bisection; p in (0, 0.5]). */
-export function upperQuantile(p: number): number {
-  if (!(p > 0 && p <= 0.5)) throw new RangeError(`tail probability must be in (0, 0.5], got ${p}`);
-  let lo = 0;
-  let hi = 40;
-  for (let i = 0; i < 200; i++) {
-    const mid = (lo + hi) / 2;
-    if (1 - normalCdf(mid) > p) lo = mid;
-    else hi = mid;
-  }
-  return (lo + hi) / 2;
-}
 
 /**
  * One interval of the true model: carry-over of the level, operating hours, the wear process's variance, the extra
@@ -118,5 +106,6 @@ export function modelSteps(unit: SimulatedUnit, kind: FleetKind, measurand: stri
 export function ceilingProbability(unit: SimulatedUnit, kind: FleetKind, measurand: string, change: WearChange, last: number, alpha: number, rateKnown = true): number {
   const rate = unit.rates[measurand]!;
   const snr = Math.sqrt(matchedSnrSquared(modelSteps(unit, kind, measurand, change, last), { level: 0, rate: rateKnown ? 0 : (100 * rate) ** 2 }));
-  return normalCdf(snr - upperQuantile(alpha));
+  // z₁₋α = −Φ⁻¹(α), exact in the far tail where 1 − α would round.
+  return normalCdf(snr + normalQuantile(alpha));
 }
