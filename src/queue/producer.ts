@@ -94,7 +94,9 @@ export function createResultProducer(options: ResultProducerOptions): ResultProd
       const byPartition = new Map<number, ValidatedRecord[]>();
       for (const r of accepted) {
         const p = partitions.of(r.sample);
-        byPartition.set(p, [...(byPartition.get(p) ?? []), r]);
+        const list = byPartition.get(p);
+        if (list === undefined) byPartition.set(p, [r]);
+        else list.push(r);
       }
       await Promise.all([...byPartition].map(([p, list]) => queues[p]!.addBulk(list.map((r) => ({ name: 'result', data: r.event })))));
     }
