@@ -46,6 +46,12 @@ export interface QuietOptions {
   /** Components per like-for-like group. Default 25. */
   readonly groupSize?: number;
   readonly seed?: number;
+  /**
+   * Independent fleets, seeded `seed`, `seed + 1`, …, each in groups of its own, measured together: every figure is pooled
+   * over them, and the main ones are also given per fleet (one fleet's 30–34 changes of a kind move a share by about 3
+   * points each). Default 1.
+   */
+  readonly fleets?: number;
   /** Configuration text (YAML) to measure instead of the built-in defaults (the runner always measures the defaults). */
   readonly configText?: string;
   /** Progress lines. */
@@ -75,13 +81,16 @@ interface Fault {
 }
 
 interface Plan {
+  /** The seed of the fleet it belongs to. */
+  readonly seed: number;
   readonly base: ComponentPlan;
   readonly change?: { readonly label: string; readonly spec: WearChange };
   readonly fault?: FaultKind;
 }
 
 export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> {
-  const seed = options.seed ?? 1;
+  const firstSeed = options.seed ?? 1;
+  const fleetSeeds = Array.from({ length: options.fleets ?? 1 }, (_, f) => firstSeed + f);
   const perKind = options.componentsPerKind ?? 150;
   const samples = options.samples ?? 100;
   const groupSize = options.groupSize ?? 25;
@@ -89,24 +98,28 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
   const config = parseConfig(options.configText ?? '', options.configText === undefined ? 'built-in defaults' : 'configuration under test');
 
   const plans: Plan[] = [];
-  for (const kindName of ['gearbox', 'engine'] as const) {
-    const kind = FLEET_KINDS[kindName];
-    for (let i = 0; i < perKind; i++) {
-      const base: ComponentPlan = { kind, fleetSeed: seed, index: i, group: `${kindName === 'gearbox' ? 'gearboxes' : 'engines'}-${String(Math.floor(i / groupSize) + 1).padStart(2, '0')}`, samples };
-      const pick = seededRandom(mix(seed, kindName === 'gearbox' ? 11 : 12, i));
-      const role = i % 3;
-      if (role === 1) {
-        const c = CHANGE_KINDS[Math.floor(i / 3) % CHANGE_KINDS.length]!;
-        const metals = CHANGED_METALS[kindName];
-        const measurand = metals[Math.floor(i / 9) % metals.length]!;
-        const twin = simulateUnit(base);
-        const k = 15 + Math.floor(pick.next() * 25);
-        const atHours = twin.hours[k - 1]! + pick.next() * (twin.hours[k]! - twin.hours[k - 1]!);
-        plans.push({ base, change: { label: c.label, spec: { measurand, shape: c.shape, factor: c.factor, atHours, ...(c.shape === 'ramp' && { rampHours: 1000 }) } } });
-      } else if (role === 2) {
-        plans.push({ base, fault: FAULT_KINDS[Math.floor(i / 3) % FAULT_KINDS.length]! });
-      } else {
-        plans.push({ base });
+  for (const seed of fleetSeeds) {
+    for (const kindName of ['gearbox', 'engine'] as const) {
+      const kind = FLEET_KINDS[kindName];
+      for (let i = 0; i < perKind; i++) {
+        // With several fleets, each has groups of its own (unit names already carry the fleet's seed).
+        const fleet = fleetSeeds.length > 1 ? `fleet${seed}-` : '';
+        const base: ComponentPlan = { kind, fleetSeed: seed, index: i, group: `${fleet}${kindName === 'gearbox' ? 'gearboxes' : 'engines'}-${String(Math.floor(i / groupSize) + 1).padStart(2, '0')}`, samples };
+        const pick = seededRandom(mix(seed, kindName === 'gearbox' ? 11 : 12, i));
+        const role = i % 3;
+        if (role === 1) {
+          const c = CHANGE_KINDS[Math.floor(i / 3) % CHANGE_KINDS.length]!;
+          const metals = CHANGED_METALS[kindName];
+          const measurand = metals[Math.floor(i / 9) % metals.length]!;
+          const twin = simulateUnit(base);
+          const k = 15 + Math.floor(pick.next() * 25);
+          const atHours = twin.hours[k - 1]! + pick.next() * (twin.hours[k]! - twin.hours[k - 1]!);
+          plans.push({ seed, base, change: { label: c.label, spec: { measurand, shape: c.shape, factor: c.factor, atHours, ...(c.shape === 'ramp' && { rampHours: 1000 }) } } });
+        } else if (role === 2) {
+          plans.push({ seed, base, fault: FAULT_KINDS[Math.floor(i / 3) % FAULT_KINDS.length]! });
+        } else {
+          plans.push({ seed, base });
+        }
       }
     }
   }
@@ -117,8 +130,9 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
     if (p.change !== undefined) return simulateUnit({ ...p.base, change: p.change.spec });
     if (p.fault !== undefined) {
       const donorKind = p.fault === 'other-unit-same-oil' ? p.base.kind.name : p.base.kind.name === 'gearbox' ? 'engine' : 'gearbox';
-      const donor = clean.find((u, j) => j !== i && u.kind === donorKind)!;
-      const r = injectFault(clean[i]!, p.fault, donor, seededRandom(mix(seed, 21, i)));
+      const donor = clean.find((u, j) => j !== i && plans[j]!.seed === p.seed && u.kind === donorKind)!;
+      // The index within the fleet, so that a fleet's faults do not depend on the fleets measured beside it.
+      const r = injectFault(clean[i]!, p.fault, donor, seededRandom(mix(p.seed, 21, i - plans.findIndex((q) => q.seed === p.seed))));
       faults.set(clean[i]!.unit, r.fault);
       return { ...clean[i]!, events: r.events };
     }
@@ -168,6 +182,7 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
   const cleanSignatures = signaturesByUnitKeys(cleanRun.incidents);
   const injectedSignatures = signaturesByUnit(injectedRun.incidents);
   const delays = new Map<string, number[]>(CHANGE_KINDS.map((c) => [c.label, []]));
+  const fleetFigures = new Map(fleetSeeds.map((f) => [f, { doublings: [] as number[], steps15: [] as number[], faults: 0, flagged: 0, wear: 0 }]));
   // False alarms per sample the change detectors may raise on a healthy component: all on the changed metal, or shared by the watched metals.
   const componentRate = (changeBudgetShare(config.population) * config.detection.budget.alarms) / samplesPerBudgetPeriod(config.detection.budget);
   const ceilingRates = [componentRate, componentRate / Math.max(1, config.detection.measurands.length)] as const;
@@ -188,6 +203,7 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
     const at = Math.min(...found.map((s) => index.get(s.sampleId) ?? Infinity).filter((j) => j >= start));
     const delay = Number.isFinite(at) ? Math.max(1, at - first + 1) : Infinity;
     delays.get(p.change.label)!.push(delay);
+    fleetFigures.get(p.seed)![p.change.spec.factor === 2 ? 'doublings' : 'steps15'].push(delay);
     const key = `${p.change.label} ${u.kind} ${measurand}`;
     byMetal.set(key, [...(byMetal.get(key) ?? []), delay]);
     // The best any detector could do on this change (detectionCeiling.ts), within the window its target is judged on.
@@ -230,7 +246,14 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
     const from = order.indexOf(fault.sampleId);
     const window = new Set(order.slice(from, from + FAULT_WINDOW + 1));
     const before = cleanSignatures.get(u.unit) ?? new Set<string>();
-    if ((injectedSignatures.get(u.unit) ?? []).some((s) => s.rule !== 'sampling' && window.has(s.sampleId) && !before.has(s.key))) row.wear += 1;
+    const wear = (injectedSignatures.get(u.unit) ?? []).some((s) => s.rule !== 'sampling' && window.has(s.sampleId) && !before.has(s.key));
+    if (wear) row.wear += 1;
+    if (TARGET_FAULTS.includes(fault.kind)) {
+      const f = fleetFigures.get(p.seed)!;
+      f.faults += 1;
+      if (step?.findings.some((x) => x.rule === 'sampling')) f.flagged += 1;
+      if (wear) f.wear += 1;
+    }
   }
   const targetFaults = TARGET_FAULTS.map((k) => faultRows.get(k)!);
   const faultN = targetFaults.reduce((s, r) => s + r.n, 0);
@@ -273,10 +296,36 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
   }
   rows.push(['faults flagged as sampling findings', pct(flaggedShare), '≥ 80 %', mark(targets.faultsFlagged.met)]);
   rows.push(['faults opening a wear incident', pct(wearShare), '≤ 5 %', mark(targets.faultsOpeningWearIncident.met)]);
+  // The same targets fleet by fleet: how far one fleet's figures stray from the pooled ones.
+  const byFleet = fleetSeeds.map((seed) => {
+    const f = fleetFigures.get(seed)!;
+    const units = new Set(clean.filter((_, i) => plans[i]!.seed === seed).map((u) => u.unit));
+    const years = clean.filter((u) => units.has(u.unit)).reduce((sum, u) => sum + u.hours[u.hours.length - 1]! / YEAR_HOURS, 0);
+    return {
+      seed,
+      healthyAll: per100Of(cleanRun.incidents.filter((i) => units.has(i.unit)).length, years),
+      doublingMedian: median(f.doublings),
+      doublingWithin5: share(f.doublings, (x) => x <= 5),
+      step15Within15: share(f.steps15, (x) => x <= 15),
+      faultsFlagged: f.flagged / f.faults,
+      faultsOpeningWearIncident: f.wear / f.faults,
+    };
+  });
+  if (byFleet.length > 1) {
+    for (const f of byFleet) {
+      rows.push([
+        `  fleet seed ${f.seed}: healthy / ×2 median / within 5 / ×1.5 within 15 / faults flagged / wear`,
+        `${fmt(f.healthyAll)} / ${fmt(f.doublingMedian)} / ${pct(f.doublingWithin5)} / ${pct(f.step15Within15)} / ${pct(f.faultsFlagged)} / ${pct(f.faultsOpeningWearIncident)}`,
+        '',
+        '',
+      ]);
+    }
+  }
 
   return {
     name: 'quiet',
     json: {
+      fleets: fleetSeeds,
       components: clean.length,
       samplesPerComponent: samples,
       groupSize,
@@ -298,10 +347,12 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
       changes: changeRows.map((c) => ({ ...c, median: round(c.median), within3: round(c.within3), within5: round(c.within5), within15: round(c.within15), caught: round(c.caught) })),
       faults: Object.fromEntries(FAULT_KINDS.map((k) => [k, faultRows.get(k)])),
       targets,
+      byFleet: byFleet.map((f) => Object.fromEntries(Object.entries(f).map(([k, v]) => [k, round(v)]))),
     },
     table: { columns: ['quiet (built-in defaults)', 'result', 'target', ''], rows },
     notes: [
-      `${clean.length} components (${perKind} gearboxes, ${perKind} diesel engines) × ${samples} samples, groups of ${groupSize}, ${fmt(componentYears)} component-years; ` +
+      `${fleetSeeds.length === 1 ? 'one fleet' : `${fleetSeeds.length} fleets (seeds ${fleetSeeds.join(', ')}), pooled`}: ` +
+        `${clean.length} components (${perKind} gearboxes, ${perKind} diesel engines per fleet) × ${samples} samples, groups of ${groupSize}, ${fmt(componentYears)} component-years; ` +
         'rate spread 40 %, lab noise 1 ppm + 5 %, "<1" below 1 ppm, drains with residual oil, top-ups, intervals 250 h ± 40 %',
       'through replayRecords (the path of replay and backtest) with an empty configuration; a component-year is 8760 operating hours',
       'best possible: an oracle knowing the variances, carry-overs and change time (detectionCeiling.ts), told the true rate or learning it from the readings; false alarms over the window = window × the change budget per sample, on the one metal or shared by the watched metals; a real detector does worse',

@@ -44,7 +44,7 @@ export const PARTS: Record<string, Part> = {
       steppedComponents: at(scale, 800, 50),
     }),
   'design-check': ({ scale, seed }) => runDesignCheck({ seed, components: at(scale, 300, 40) }),
-  quiet: ({ scale, seed, log }) => runQuiet({ seed, log, componentsPerKind: at(scale, 150, 15) }),
+  quiet: ({ scale, seed, log }) => runQuiet({ seed, log, componentsPerKind: at(scale, 150, 15), fleets: QUIET_FLEETS }),
   forecast: ({ scale, seed }) => runForecast({ seed, components: at(scale, 300, 30), trainingComponents: at(scale, 40, 10) }),
   scaling: ({ scale, seed }) => runScaling({ seed, histories: at(scale, 5, 2), batches: at(scale, 15, 3) }),
   throughput: (o) => runThroughput(o),
@@ -55,6 +55,9 @@ export const PARTS: Record<string, Part> = {
   startup: (o) => runStartup(o),
   'long-chart': (o) => runLongChart(o),
 };
+
+/** Fleets the quiet part pools (seeds --seed, --seed + 1, …): one fleet's 30-odd changes of a kind leave its shares too uncertain to judge a target on. */
+const QUIET_FLEETS = 3;
 
 const USAGE = `usage: npm run bench -- [--only NAME]... [--scale S] [--seed N] [--json]
 parts: ${Object.keys(PARTS).join(', ')}`;

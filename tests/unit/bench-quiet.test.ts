@@ -78,4 +78,23 @@ describe('quiet bench part', () => {
       expect(b.shared).toBeGreaterThanOrEqual(b.sharedRateLearnt);
     }
   }, 600_000);
+
+  it('pools several fleets, each measured as it would be alone', async () => {
+    const alone = (await runQuiet({ componentsPerKind: 9, samples: 70, groupSize: 9, seed: 2 })).json as { targets: Record<string, { value: number }>; changes: { n: number }[] };
+    const pooled = (await runQuiet({ componentsPerKind: 9, samples: 70, groupSize: 9, seed: 2, fleets: 2 })).json as {
+      fleets: number[];
+      changes: { n: number }[];
+      byFleet: { seed: number; healthyAll: number; doublingWithin5: number; step15Within15: number; faultsFlagged: number; faultsOpeningWearIncident: number }[];
+    };
+    expect(pooled.fleets).toEqual([2, 3]);
+    expect(pooled.byFleet.map((f) => f.seed)).toEqual([2, 3]);
+    expect(pooled.changes.reduce((s, c) => s + c.n, 0)).toBe(2 * alone.changes.reduce((s, c) => s + c.n, 0));
+    // Fleets have groups of their own: the first fleet's figures are those it gives alone.
+    const first = pooled.byFleet[0]!;
+    expect(first.healthyAll).toBeCloseTo(alone.targets.healthyAllFamilies!.value, 1);
+    expect(first.doublingWithin5).toBeCloseTo(alone.targets.doublingWithin5!.value, 3);
+    expect(first.step15Within15).toBeCloseTo(alone.targets.step15Within15!.value, 3);
+    expect(first.faultsFlagged).toBeCloseTo(alone.targets.faultsFlagged!.value, 3);
+    expect(first.faultsOpeningWearIncident).toBeCloseTo(alone.targets.faultsOpeningWearIncident!.value, 3);
+  }, 600_000);
 });
