@@ -23,7 +23,7 @@
  * A fault is flagged when its sample carries a `sampling` finding; it opens a wear incident when, within the fault's
  * sample and the next 5, a machine incident is opened or escalated that the clean twin does not have.
  */
-import { changeBudgetShare, samplesPerBudgetPeriod } from '../src/analysis/budget.ts';
+import { changeDesign, samplesPerBudgetPeriod } from '../src/analysis/budget.ts';
 import type { Config } from '../src/domain/config.ts';
 import { parseConfig } from '../src/domain/configFile.ts';
 import type { ResultEvent } from '../src/domain/event.ts';
@@ -184,7 +184,7 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
   const delays = new Map<string, number[]>(CHANGE_KINDS.map((c) => [c.label, []]));
   const fleetFigures = new Map(fleetSeeds.map((f) => [f, { doublings: [] as number[], steps15: [] as number[], faults: 0, flagged: 0, wear: 0 }]));
   // False alarms per sample the change detectors may raise on a healthy component: all on the changed metal, or shared by the watched metals.
-  const componentRate = (changeBudgetShare(config.population) * config.detection.budget.alarms) / samplesPerBudgetPeriod(config.detection.budget);
+  const componentRate = (changeDesign(config.detection, config.population).riseShare * config.detection.budget.alarms) / samplesPerBudgetPeriod(config.detection.budget);
   const ceilingRates = [componentRate, componentRate / Math.max(1, config.detection.measurands.length)] as const;
   const ceilings = new Map<string, number[][]>();
   const ceilingByMetal = new Map<string, number[][]>();

@@ -2,7 +2,7 @@
  * The benchmark runner behind `npm run bench` (entry: main.ts): the benchmarks of the analysis core and of the queue pipeline. A table per part on screen; with
  * --json one JSON line per part on stdout (the tables then go to stderr). Not part of `npm test`.
  *
- *   npm run bench                       every part at the documented sizes (about 10 minutes on 2 cores, and 7–30 more for quiet)
+ *   npm run bench                       every part at the documented sizes (about 10 minutes on 2 cores, and about 6 more for the three fleets of quiet)
  *   npm run bench -- --only detection   one part (repeat --only for several)
  *   npm run bench -- --scale 0.1        every size shrunk tenfold, for a quick run
  *   npm run bench -- --json             JSON lines

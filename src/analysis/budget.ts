@@ -4,9 +4,9 @@
  * The conversion (used by the built-in defaults):
  * - samples per component in the budget period = years · hoursPerYear / sampleIntervalHours;
  * - the component may raise `alarms` false alarms in that period, so its in-control ARL (in samples) is that number / alarms;
- * - a component runs `charts` charts (detection measurands × enabled detectors; a two-sided chart counts once, with its
- *   two-sided run length). Treated as independent, their false-alarm rates add, 1/ARL_component = Σ 1/ARL_chart, so each
- *   chart needs ARL0 = ARL_component · charts.
+ * - a component runs `charts` charts (detection measurands × enabled detectors). Treated as independent, their
+ *   false-alarm rates add, 1/ARL_component = Σ 1/ARL_chart, so each chart needs ARL0 = ARL_component · charts / share,
+ *   where share is the part of the budget the side being designed gets (changeDesign: rise and fall apart).
  * The monitored statistic is a standardised one-step prediction error, N(0, 1) and independent in control, so the limits are
  * designed for exactly that input: h for the CUSUM with its configured k and headstart, L for the EWMA with exact
  * time-varying limits, which is what the detectors draw.
@@ -45,9 +45,10 @@ export function targetArl(b: Budget, charts: number): number {
  * The limits the detectors use: d.ewma.L and d.cusum.h when configured, otherwise derived from the budget. With no detector
  * enabled `charts` is 0 and the limits are designed as for a single chart, so that they stay defined.
  *
- * The budget counts incidents, and only an upward signal opens one (a fall is a sampling finding, for whoever takes the
- * samples), so each chart is designed one-sided: its upper side meets the per-chart ARL0. The lower side uses the same
- * limit. `share` is the part of the budget the change detectors get (the rest goes to the comparison with peers).
+ * The budget counts incidents of every kind: an upward signal opens a wear incident, a downward one a sampling incident
+ * (for whoever takes the samples), so each side is designed one-sided for its part of the budget:
+ * `share` (changeDesign gives the rise side the change detectors' share less what the fall side takes, and the fall
+ * side its part).
  */
 export function detectionLimits(d: Detection, share = 1): { arl0: number; charts: number; ewmaL: number; cusumH: number; share: number } {
   if (!(share > 0 && share <= 1)) throw new RangeError(`budget share must be in (0, 1], got ${share}`);
@@ -62,4 +63,29 @@ export function detectionLimits(d: Detection, share = 1): { arl0: number; charts
 /** The part of the false-alarm budget the change detectors get: all of it unless the comparison with peers takes a share. */
 export function changeBudgetShare(population: Pick<Population, 'peers'>): number {
   return population.peers.enabled ? 1 - population.peers.budgetShare : 1;
+}
+
+export type DetectorDesign = ReturnType<typeof detectionLimits>;
+
+/** Both sides of the change detectors' charts, each designed for its part of the budget. */
+export interface ChangeDesign {
+  /** The upward side: a signal opens a wear incident. Designed for `riseShare` of the budget. */
+  readonly rise: DetectorDesign;
+  readonly riseShare: number;
+  /** The downward side (sided: two): a signal opens a sampling incident. Designed for `fallShare` of the budget. */
+  readonly fall?: DetectorDesign;
+  readonly fallShare: number;
+}
+
+/**
+ * Every side of a chart that can open an incident spends the one false-alarm budget: the change detectors' share
+ * (changeBudgetShare) goes to the rise side, less `detection.fallShare` of it for the fall side when the charts are
+ * two-sided. Configured h and L apply to both sides as given.
+ */
+export function changeDesign(d: Detection, population: Pick<Population, 'peers'>): ChangeDesign {
+  const share = changeBudgetShare(population);
+  if (d.sided !== 'two') return { rise: detectionLimits(d, share), riseShare: share, fallShare: 0 };
+  const fallShare = share * d.fallShare;
+  const riseShare = share - fallShare;
+  return { rise: detectionLimits(d, riseShare), riseShare, fall: detectionLimits(d, fallShare), fallShare };
 }

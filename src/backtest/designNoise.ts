@@ -5,18 +5,20 @@
  * - `ewma`, `cusum`: each chart raises on average one false signal per in-control run length (ARL0, from the run-length
  *   integral equations of analysis/arl, upper side, as the detectors are designed), so a component with m charts of a
  *   detector raises m · samplesPerYear / ARL0 a year;
+ * - `sampling`: the fall side of two-sided charts the same way, with its own limits (a fall opens a sampling incident);
+ *   the other sampling checks depend on the data, so this part is a floor of the family's noise;
  * - `population`: the comparison with peers takes its share of the budget (population.peers.budgetShare of
  *   detection.budget); with population.opensIncidents a single result above the band's caution level opens one too,
  *   which under a normal spread happens to 1 − Φ(sigma.caution) of healthy results (or 1 − percentile.caution / 100),
  *   per measurand and sample: an upper bound, as findings of one sample share an incident;
- * - `limit`, `rate`, `condition`, `cleanliness`, `sampling`: set by the site's levels and the data, not derivable from
- *   the configuration: null here, measured by `wearshift backtest` on a history.
+ * - `limit`, `rate`, `condition`, `cleanliness`: set by the site's levels and the data, not derivable from the
+ *   configuration: null here, measured by `wearshift backtest` on a history.
  * The total adds the families that can be derived; incidents of one component merge, so it is an upper bound.
  */
 import { cusumArl } from '../analysis/arl/cusumArl.ts';
 import { ewmaArl } from '../analysis/arl/ewmaArl.ts';
 import { normalCdf } from '../analysis/arl/normal.ts';
-import { changeBudgetShare, detectionLimits } from '../analysis/budget.ts';
+import { changeDesign, type DetectorDesign } from '../analysis/budget.ts';
 import { populationMeasurands } from '../analysis/populationStats.ts';
 import type { Config } from '../domain/config.ts';
 import { RULE_FAMILIES, SEVERITIES, type RuleFamily } from '../domain/finding.ts';
@@ -61,17 +63,36 @@ export function designNoise(config: Config, options: { readonly group?: string; 
   const d = settings.detection;
   const samplesPerYear = d.budget.hoursPerYear / d.budget.sampleIntervalHours;
   const per100 = (perComponentYear: number) => round(100 * perComponentYear, 4);
-  const limits = detectionLimits(d, changeBudgetShare(settings.population));
+  const design = changeDesign(d, settings.population);
   const m = d.measurands.length;
   const byFamily = Object.fromEntries(RULE_FAMILIES.map((f) => [f, { per100ComponentYears: null, basis: 'set by the site\u2019s levels and the data: run wearshift backtest on a history' }])) as Record<RuleFamily, FamilyNoise>;
-  if (d.ewma.enabled && m > 0) {
-    const arl0 = ewmaArl({ lambda: d.ewma.lambda, L: limits.ewmaL, shift: 0, sided: 'one', exactLimits: true });
-    byFamily.ewma = { per100ComponentYears: per100((m * samplesPerYear) / arl0), basis: `${m} chart(s), ARL0 ${round(arl0, 1)} samples (L = ${round(limits.ewmaL, 4)}), ${round(samplesPerYear, 3)} samples a year` };
-  } else byFamily.ewma = { per100ComponentYears: 0, basis: 'off' };
-  if (d.cusum.enabled && m > 0) {
-    const arl0 = cusumArl({ k: d.cusum.k, h: limits.cusumH, shift: 0, sided: 'one', headstart: d.cusum.headstart });
-    byFamily.cusum = { per100ComponentYears: per100((m * samplesPerYear) / arl0), basis: `${m} chart(s), ARL0 ${round(arl0, 1)} samples (h = ${round(limits.cusumH, 4)}), ${round(samplesPerYear, 3)} samples a year` };
-  } else byFamily.cusum = { per100ComponentYears: 0, basis: 'off' };
+  // One side of one detector's m charts: each raises samplesPerYear / ARL0 false signals a year.
+  const chartNoise = (detector: 'ewma' | 'cusum', limits: DetectorDesign): { perYear: number; basis: string } => {
+    const arl0 =
+      detector === 'ewma'
+        ? ewmaArl({ lambda: d.ewma.lambda, L: limits.ewmaL, shift: 0, sided: 'one', exactLimits: true })
+        : cusumArl({ k: d.cusum.k, h: limits.cusumH, shift: 0, sided: 'one', headstart: d.cusum.headstart });
+    const limit = detector === 'ewma' ? `L = ${round(limits.ewmaL, 4)}` : `h = ${round(limits.cusumH, 4)}`;
+    return { perYear: (m * samplesPerYear) / arl0, basis: `${m} chart(s), ARL0 ${round(arl0, 1)} samples (${limit})` };
+  };
+  const enabled = (['ewma', 'cusum'] as const).filter((detector) => d[detector].enabled && m > 0);
+  for (const detector of ['ewma', 'cusum'] as const) {
+    if (!enabled.includes(detector)) {
+      byFamily[detector] = { per100ComponentYears: 0, basis: 'off' };
+      continue;
+    }
+    const n = chartNoise(detector, design.rise);
+    byFamily[detector] = { per100ComponentYears: per100(n.perYear), basis: `${n.basis}, ${round(samplesPerYear, 3)} samples a year` };
+  }
+  if (design.fall !== undefined && enabled.length > 0) {
+    const fall = enabled.map((detector) => ({ detector, ...chartNoise(detector, design.fall!) }));
+    byFamily.sampling = {
+      per100ComponentYears: per100(fall.reduce((sum, f) => sum + f.perYear, 0)),
+      basis:
+        `at least: the fall side of the charts (${fall.map((f) => `${f.detector === 'ewma' ? 'EWMA' : 'CUSUM'} ${f.basis}`).join('; ')}), ${round(samplesPerYear, 3)} samples a year; ` +
+        'the other sampling checks depend on the data: run wearshift backtest on a history',
+    };
+  }
   byFamily.population = populationNoise(settings, samplesPerYear);
   const per100ComponentYears = round(
     RULE_FAMILIES.reduce((s, f) => s + (byFamily[f].per100ComponentYears ?? 0), 0),

@@ -149,8 +149,11 @@ function parameterBlock(p: DetectorParameters): string {
     '<ol class="conversion">',
     `<li>${num(b.years, 6)} years × ${num(b.hoursPerYear, 6)} h / ${num(b.sampleIntervalHours, 6)} h between samples = ${num(p.samplesPerComponent, 6)} samples per component</li>`,
     `<li>/ ${num(b.alarms, 6)} false ${plural(b.alarms, 'alarm')} = component in-control ARL ${num(p.componentArl0, 6)}</li>`,
-    `<li>× ${p.charts} ${plural(p.charts, 'chart')} per component (rates of false alarms add up) = per-chart ARL0 <strong>${num(p.arl0, 6)}</strong></li>`,
+    `<li>× ${p.charts} ${plural(p.charts, 'chart')} per component (rates of false alarms add up) / ${num(p.share, 4)} (the part of the budget a rise gets: a wear incident) = per-chart ARL0 <strong>${num(p.arl0, 6)}</strong></li>`,
     `<li>CUSUM k = ${num(p.cusum.k, 4)}, headstart ${num(p.cusum.headstart, 3)}: <strong>${e(h)}</strong>; EWMA λ = ${num(p.ewma.lambda, 4)}, exact limits: <strong>${e(L)}</strong></li>`,
+    p.fall === null
+      ? ''
+      : `<li>a fall (a sampling incident) gets ${num(p.fall.share, 4)} of the budget: per-chart ARL0 ${num(p.fall.arl0, 6)}, CUSUM h = ${num(p.fall.h, 6)}, EWMA L = ${num(p.fall.L, 6)}</li>`,
     '</ol>',
     p.designCommands.length === 0 ? '' : `<p class="cmd-note">The same numbers from the design command:</p><pre>${p.designCommands.map(e).join('\n')}</pre>`,
     '</div>',

@@ -23,8 +23,9 @@ export function chartAltText(series: ComponentSeries, measurand: Measurand): str
   if (rate !== undefined) parts.push(`Latest wear rate ${fmt(rate.per100h)} ${m.unit} per 100 h${rate.runningIn ? ' (running in)' : ''}.`);
   const cusum = m.cusum?.points[m.cusum.points.length - 1];
   if (m.cusum && cusum) {
-    const stat = Math.max(cusum.upper, m.cusum.sided === 'two' ? cusum.lower : 0);
-    parts.push(`CUSUM ${fmt(stat)} against its decision interval ${fmt(m.cusum.h)}${stat > m.cusum.h ? ', above it' : ''}.`);
+    const falling = m.cusum.sided === 'two' && cusum.lower / m.cusum.hFall > cusum.upper / m.cusum.h;
+    const [stat, h] = falling ? [cusum.lower, m.cusum.hFall] : [cusum.upper, m.cusum.h];
+    parts.push(`CUSUM ${falling ? 'of a fall ' : ''}${fmt(stat)} against its decision interval ${fmt(h)}${stat > h ? ', above it' : ''}.`);
   }
   const ewma = m.ewma?.points[m.ewma.points.length - 1];
   if (ewma) parts.push(`EWMA ${fmt(ewma.ewma)} within limits ${fmt(ewma.lcl)} to ${fmt(ewma.ucl)}${ewma.ewma > ewma.ucl || ewma.ewma < ewma.lcl ? ': outside them' : ''}.`);

@@ -5,7 +5,7 @@
  * tests/unit/chart-series.test.ts checks that these traces cross their limits exactly where the rule raised findings.
  */
 import type { Measurand } from '../domain/measurands.ts';
-import { changeBudgetShare, detectionLimits } from '../analysis/budget.ts';
+import { changeDesign } from '../analysis/budget.ts';
 import type { FoldStep } from '../analysis/fold/analysisFold.ts';
 import type { ComponentSettings } from '../domain/settings.ts';
 
@@ -32,8 +32,10 @@ export interface EwmaPoint extends DetectorPointBase {
 
 export interface CusumTrace {
   readonly k: number;
-  /** Decision interval in sigma: a sum above it signals. */
+  /** Decision interval in sigma: an upper sum above it signals a rise. */
   readonly h: number;
+  /** The lower sum's decision interval (sided: two; the fall side has its own part of the budget). */
+  readonly hFall: number;
   /** 'two': the lower sum (a fall in wear rate, a possible sampling fault) is judged too. */
   readonly sided: 'two' | 'up';
   readonly points: readonly CusumPoint[];
@@ -42,6 +44,8 @@ export interface CusumTrace {
 export interface EwmaTrace {
   readonly lambda: number;
   readonly L: number;
+  /** The lower limit's width (sided: two). */
+  readonly LFall: number;
   readonly sided: 'two' | 'up';
   readonly points: readonly EwmaPoint[];
 }
@@ -49,7 +53,7 @@ export interface EwmaTrace {
 export function detectorTraces(steps: readonly FoldStep[], settings: ComponentSettings, measurand: Measurand): { cusum: CusumTrace | null; ewma: EwmaTrace | null } {
   const { detection } = settings;
   if (!detection.cusum.enabled && !detection.ewma.enabled) return { cusum: null, ewma: null };
-  const limits = detectionLimits(detection, changeBudgetShare(settings.population));
+  const { rise, fall = rise } = changeDesign(detection, settings.population);
   const cusum: CusumPoint[] = [];
   const ewma: EwmaPoint[] = [];
   for (const step of steps) {
@@ -61,7 +65,7 @@ export function detectorTraces(steps: readonly FoldStep[], settings: ComponentSe
     }
   }
   return {
-    cusum: detection.cusum.enabled ? { k: detection.cusum.k, h: limits.cusumH, sided: detection.sided, points: cusum } : null,
-    ewma: detection.ewma.enabled ? { lambda: detection.ewma.lambda, L: limits.ewmaL, sided: detection.sided, points: ewma } : null,
+    cusum: detection.cusum.enabled ? { k: detection.cusum.k, h: rise.cusumH, hFall: fall.cusumH, sided: detection.sided, points: cusum } : null,
+    ewma: detection.ewma.enabled ? { lambda: detection.ewma.lambda, L: rise.ewmaL, LFall: fall.ewmaL, sided: detection.sided, points: ewma } : null,
   };
 }

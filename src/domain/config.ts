@@ -67,6 +67,14 @@ export const DetectionSchema = z
       .strict()
       .default({ enabled: true, k: 0.5, headstart: 0 }),
     sided: z.enum(['two', 'up']).default('two').describe('two: a fall in wear rate is reported too, as a possible sampling fault.'),
+    fallShare: z
+      .number()
+      .gt(0)
+      .lt(1)
+      .default(0.1)
+      .describe(
+        'With sided: two, the part of the change detectors\' false-alarm budget their fall side gets (a fall opens a sampling incident); the rise side, which opens wear incidents, gets the rest. Applies where h and L are derived from the budget.',
+      ),
     runningInHours: nonNegative.default(250).describe('Hours after a new or overhauled component kept out of the baseline.'),
     baselineIntervals: z.number().int().min(2).default(12).describe('Stable intervals that form the own baseline (in-control rate and spread); until then the group baseline is used.'),
     labNoise: z

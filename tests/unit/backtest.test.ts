@@ -170,8 +170,10 @@ groups:
     ]);
     const of = (g: string) => params.find((p) => p.groups.includes(g))!;
     // The group's own sample interval stays: 3 years × 8760 h / 500 h = 52.56 samples, 1 alarm, 2 charts; the change
-    // detectors get 0.8 of the budget (the comparison with peers the rest): 52.56 × 2 / 0.8 = 131.4.
-    expect(of('own-budget')).toMatchObject({ budget: { alarms: 1, years: 3, sampleIntervalHours: 500 }, samplesPerComponent: 52.56, arl0: 131.4 });
+    // detectors get 0.8 of the budget (the comparison with peers the rest), and of that a rise 0.9 (detection.fallShare
+    // 0.1 goes to a fall): 52.56 × 2 / 0.72 = 146 for the rise side, 52.56 × 2 / 0.08 = 1314 for the fall side.
+    expect(of('own-budget')).toMatchObject({ budget: { alarms: 1, years: 3, sampleIntervalHours: 500 }, samplesPerComponent: 52.56, share: 0.72, arl0: 146 });
+    expect(of('own-budget').fall).toMatchObject({ share: 0.08, arl0: 1314 });
     expect(of('fixed-h').cusum).toMatchObject({ h: 4, fromBudget: false });
     expect(of('fixed-h').designCommands.some((c) => c.includes('design cusum'))).toBe(false);
     expect(of('gearbox').budget).toMatchObject({ alarms: 1, years: 3, sampleIntervalHours: 250 });

@@ -1,8 +1,8 @@
 import { describe, expect, it } from 'vitest';
 import { cusumArl } from '../../src/analysis/arl/cusumArl.ts';
 import { ewmaArl } from '../../src/analysis/arl/ewmaArl.ts';
-import { detectionLimits, parseBudget, targetArl } from '../../src/analysis/budget.ts';
-import { BudgetSchema, DetectionSchema } from '../../src/domain/config.ts';
+import { changeBudgetShare, changeDesign, detectionLimits, parseBudget, targetArl } from '../../src/analysis/budget.ts';
+import { BudgetSchema, ConfigSchema, DetectionSchema } from '../../src/domain/config.ts';
 import { InputError } from '../../src/domain/errors.ts';
 
 describe('parseBudget', () => {
@@ -66,6 +66,24 @@ describe('detectionLimits', () => {
     const none = detectionLimits(DetectionSchema.parse({ ewma: { enabled: false }, cusum: { enabled: false } }));
     expect(none.charts).toBe(0);
     expect(none.arl0).toBeCloseTo(targetArl(DetectionSchema.parse({}).budget, 1), 10);
+  });
+
+  it('splits the change detectors\' share between the rise side (wear incidents) and the fall side (sampling incidents), each side meeting its own run length', () => {
+    const config = ConfigSchema.parse({});
+    const design = changeDesign(config.detection, config.population);
+    expect(design.riseShare + design.fallShare).toBeCloseTo(changeBudgetShare(config.population), 12);
+    expect(design.fallShare).toBeCloseTo(changeBudgetShare(config.population) * config.detection.fallShare, 12);
+    const fall = design.fall!;
+    expect(fall.arl0 / design.rise.arl0).toBeCloseTo(design.riseShare / design.fallShare, 8);
+    // Each side is a one-sided chart of its own: its in-control run length from the integral equations (analysis/arl).
+    const d = config.detection;
+    expect(cusumArl({ k: d.cusum.k, h: fall.cusumH, shift: 0, sided: 'one', headstart: d.cusum.headstart }) / fall.arl0).toBeCloseTo(1, 6);
+    expect(ewmaArl({ lambda: d.ewma.lambda, L: fall.ewmaL, shift: 0, sided: 'one', exactLimits: true }) / fall.arl0).toBeCloseTo(1, 6);
+    expect(fall.cusumH).toBeGreaterThan(design.rise.cusumH);
+    // Upper side only: no fall side, the rise side has the whole share.
+    const up = changeDesign(ConfigSchema.parse({ detection: { sided: 'up' } }).detection, config.population);
+    expect(up.fall).toBeUndefined();
+    expect(up.riseShare).toBe(changeBudgetShare(config.population));
   });
 
   it('answers a repeated design with the same limits (the solution is cached; its speed is in the benchmark)', () => {

@@ -96,13 +96,14 @@ describe('component series: detector statistics', () => {
       w = e.lambda * p.z + (1 - e.lambda) * w;
       expect(p.ewma).toBeCloseTo(w, 12);
       expect(p.ucl).toBeCloseTo(e.L * Math.sqrt((e.lambda / (2 - e.lambda)) * (1 - (1 - e.lambda) ** (2 * i))), 12);
-      expect(p.lcl).toBeCloseTo(-p.ucl, 12);
+      // The lower limit has the fall side's own width (its part of the budget: budget.ts changeDesign).
+      expect(p.lcl).toBeCloseTo(-e.LFall * Math.sqrt((e.lambda / (2 - e.lambda)) * (1 - (1 - e.lambda) ** (2 * i))), 12);
     });
   });
 
   it('cross their limits exactly where the change rule raised its findings', () => {
     const cusumUp = fe.cusum!.points.filter((p) => p.upper > fe.cusum!.h).map((p) => p.sampleId);
-    const cusumDown = fe.cusum!.points.filter((p) => p.lower > fe.cusum!.h).map((p) => p.sampleId);
+    const cusumDown = fe.cusum!.points.filter((p) => p.lower > fe.cusum!.hFall).map((p) => p.sampleId);
     const ewmaUp = fe.ewma!.points.filter((p) => p.ewma > p.ucl).map((p) => p.sampleId);
     const ewmaDown = fe.ewma!.points.filter((p) => p.ewma < p.lcl).map((p) => p.sampleId);
     // An upward signal is a finding of the detector's family; a fall one of the sampling family (check rate-fall).

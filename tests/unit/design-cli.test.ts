@@ -69,10 +69,11 @@ describe('wearshift design cusum', () => {
 
   it('with a budget, answers the h and L the worker uses with the configuration: its charts, budget share and one-sided design', async () => {
     const { loadConfig } = await import('../../src/runtime/loadConfig.ts');
-    const { changeBudgetShare, detectionLimits } = await import('../../src/analysis/budget.ts');
+    const { changeDesign } = await import('../../src/analysis/budget.ts');
     const config = loadConfig(new URL('../../demo/config.yaml', import.meta.url).pathname);
     const detection = { ...config.detection, budget: { ...config.detection.budget, sampleIntervalHours: 250 } };
-    const worker = detectionLimits(detection, changeBudgetShare(config.population));
+    // The rise side: an upward signal opens a wear incident (a fall has its own part of the budget).
+    const worker = changeDesign(detection, config.population).rise;
     const demo = new URL('../../demo/config.yaml', import.meta.url).pathname;
     const cusum = await designJson(['cusum', '--budget', '1 per component per 5 years', '--every', '250', '--config', demo, '--shifts', '0']);
     expect(cusum).toMatchObject({ sided: 'one' });
@@ -88,10 +89,11 @@ describe('wearshift design cusum', () => {
   it('without --config or --charts, follows the built-in configuration the worker runs with (its 14 charts), not one chart', async () => {
     vi.stubEnv('WEARSHIFT_CONFIG', undefined);
     const { ConfigSchema } = await import('../../src/domain/config.ts');
-    const { changeBudgetShare, detectionLimits } = await import('../../src/analysis/budget.ts');
+    const { changeDesign } = await import('../../src/analysis/budget.ts');
     const config = ConfigSchema.parse({});
     const detection = { ...config.detection, budget: { ...config.detection.budget, sampleIntervalHours: 250 } };
-    const worker = detectionLimits(detection, changeBudgetShare(config.population));
+    // The rise side: an upward signal opens a wear incident (a fall has its own part of the budget).
+    const worker = changeDesign(detection, config.population).rise;
     expect(worker.charts).toBe(14);
     // The command the reliability engineer typed: once it answered the h of a single chart, far below the worker's.
     const cusum = await designJson(['cusum', '--budget', '1 per component per 5 years', '--every', '250', '--shifts', '0']);

@@ -27,11 +27,18 @@ describe('design noise from the configuration', () => {
   it('with the built-in defaults the derivable families add up to the false-alarm budget (1 per component per 5 years = 20 per 100 component-years)', () => {
     const n = designNoise(ConfigSchema.parse({}));
     expect(n.budgetPer100ComponentYears).toBe(20);
-    // Change detectors get 1 − peers.budgetShare (0.8) of it, split over EWMA and CUSUM; the peers the rest.
-    expect(n.byFamily.ewma.per100ComponentYears! + n.byFamily.cusum.per100ComponentYears!).toBeCloseTo(16, 2);
+    // Change detectors get 1 − peers.budgetShare (0.8) of it: their rise side (wear incidents, split over EWMA and
+    // CUSUM) all but detection.fallShare (0.1) of that, their fall side (sampling incidents) the rest; the peers 0.2.
+    expect(n.byFamily.ewma.per100ComponentYears! + n.byFamily.cusum.per100ComponentYears!).toBeCloseTo(16 * 0.9, 2);
+    expect(n.byFamily.sampling.per100ComponentYears).toBeCloseTo(16 * 0.1, 2);
+    expect(n.byFamily.sampling.basis).toMatch(/^at least: the fall side/);
     expect(n.byFamily.population.per100ComponentYears).toBeCloseTo(4, 6);
     expect(n.per100ComponentYears).toBeCloseTo(20, 2);
-    for (const f of ['limit', 'rate', 'condition', 'cleanliness', 'sampling'] as const) expect(n.byFamily[f].per100ComponentYears).toBeNull();
+    for (const f of ['limit', 'rate', 'condition', 'cleanliness'] as const) expect(n.byFamily[f].per100ComponentYears).toBeNull();
+    // One-sided charts raise no fall: the rise side has the change detectors' whole share.
+    const up = designNoise(ConfigSchema.parse({ detection: { sided: 'up' } }));
+    expect(up.byFamily.ewma.per100ComponentYears! + up.byFamily.cusum.per100ComponentYears!).toBeCloseTo(16, 2);
+    expect(up.byFamily.sampling.per100ComponentYears).toBeNull();
   });
 
   it('a CUSUM given as k = 0.5, h = 5 raises about one false signal in 938 samples (Siegmund\'s approximation, NIST/SEMATECH e-Handbook 6.3.2.3.1; Lucas & Crosier 1982 tabulate ~930, from memory)', () => {
@@ -92,7 +99,8 @@ describe('wearshift design noise', () => {
 
   it('prints a table with the advisory line, and refuses an unknown group or a fractional fleet', async () => {
     const text = await run([]);
-    expect(text).toMatch(/CUSUM\s+8/);
+    expect(text).toMatch(/CUSUM\s+7\.2/);
+    expect(text).toMatch(/sampling check\s+1\.6/);
     expect(text).toContain('wearshift advises');
     await expect(run(['--group', 'nope'])).rejects.toThrow(InputError);
     await expect(run(['--components', '2.5'])).rejects.toThrow(/whole number/);

@@ -10,7 +10,7 @@ import type { Sample } from '../../domain/event.ts';
 import { findingKey, type Finding } from '../../domain/finding.ts';
 import { MEASURANDS, type Measurand } from '../../domain/measurands.ts';
 import type { ComponentSettings } from '../../domain/settings.ts';
-import { changeBudgetShare, detectionLimits } from '../budget.ts';
+import { changeDesign } from '../budget.ts';
 import type { BaselineSums, GroupStats, Interval, RateBaseline, SampleMark, SampleStatus, Step } from '../model.ts';
 import { changeVerdicts } from '../rules/change.ts';
 import { cleanlinessVerdicts } from '../rules/cleanliness.ts';
@@ -109,8 +109,8 @@ export class AnalysisFold {
     this.s = (options.adoptState === true ? state : structuredClone(state)) as AnalysisFold['s'];
     const d = settings.detection;
     this.detecting = d.ewma.enabled || d.cusum.enabled;
-    const l = detectionLimits(d, changeBudgetShare(settings.population));
-    this.limits = { cusumH: l.cusumH, ewmaL: l.ewmaL };
+    const { rise, fall } = changeDesign(d, settings.population);
+    this.limits = { cusumH: rise.cusumH, ewmaL: rise.ewmaL, cusumHFall: fall?.cusumH ?? rise.cusumH, ewmaLFall: fall?.ewmaL ?? rise.ewmaL };
     this.hold = options.holdRateWhileSignalling ?? true;
     const forecast = settings.forecast ?? DEFAULT_FORECAST;
     this.trendMeasurands = forecast.enabled

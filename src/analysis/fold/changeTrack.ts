@@ -81,9 +81,12 @@ export interface ChangeTrack {
   readonly peerFlagged?: boolean;
 }
 
+/** The rise side's limits and the fall side's (budget.ts changeDesign: each side has its part of the budget). */
 export interface DetectorLimits {
   readonly cusumH: number;
   readonly ewmaL: number;
+  readonly cusumHFall: number;
+  readonly ewmaLFall: number;
 }
 
 /** What the detectors saw at one interval. */
@@ -95,7 +98,8 @@ export interface ChangePoint {
   /** The in-control rate the interval was judged against (ppm/h), and where it came from. */
   readonly baselineRate: number;
   readonly source: 'own' | 'group';
-  readonly cusum?: { readonly upper: number; readonly lower: number; readonly h: number };
+  /** h: the upper statistic's decision interval; hFall: the lower one's. */
+  readonly cusum?: { readonly upper: number; readonly lower: number; readonly h: number; readonly hFall: number };
   readonly ewma?: { readonly value: number; readonly ucl: number; readonly lcl: number };
   /** True while the filter's rate learning is paused by an upward signal. */
   readonly learningPaused: boolean;
@@ -145,7 +149,11 @@ export function advanceChange(t: ChangeTrack, iv: Interval, input: ChangeInput):
     track = {
       ...emptyChangeTrack(detection),
       life: t.life + 1,
-      cusum: cusumStart({ k: detection.cusum.k, h: limits.cusumH, headstart: detection.cusum.headstart }),
+      // A headstart is a fraction of each side's own decision interval.
+      cusum: {
+        upper: cusumStart({ k: detection.cusum.k, h: limits.cusumH, headstart: detection.cusum.headstart }).upper,
+        lower: cusumStart({ k: detection.cusum.k, h: limits.cusumHFall, headstart: detection.cusum.headstart }).lower,
+      },
       ...(index > 0 && last && !last.censored && { filter: settled(last.level, noise, undefined) }),
       ...(t.previousTo !== undefined && { previousTo: t.previousTo }),
     };
@@ -211,7 +219,7 @@ export function advanceChange(t: ChangeTrack, iv: Interval, input: ChangeInput):
   if (detection.cusum.enabled) {
     const next = cusumStep(cusumState, z, { k: detection.cusum.k, h: limits.cusumH, headstart: detection.cusum.headstart });
     cusumState = { upper: next.upper, lower: next.lower };
-    cusumOut = { upper: next.upper, lower: next.lower, h: limits.cusumH };
+    cusumOut = { upper: next.upper, lower: next.lower, h: limits.cusumH, hFall: limits.cusumHFall };
   }
   let ewmaState = track.ewma;
   let ewmaOut: ChangePoint['ewma'];
@@ -220,7 +228,7 @@ export function advanceChange(t: ChangeTrack, iv: Interval, input: ChangeInput):
     const value = detection.ewma.lambda * z + (1 - detection.ewma.lambda) * ewmaState.value;
     const half = limits.ewmaL * ewmaLimitFactor(detection.ewma.lambda, n, true);
     ewmaState = { value, n };
-    ewmaOut = { value, ucl: half, lcl: -half };
+    ewmaOut = { value, ucl: half, lcl: -limits.ewmaLFall * ewmaLimitFactor(detection.ewma.lambda, n, true) };
   }
   const signalling = (cusumOut !== undefined && cusumOut.upper > cusumOut.h) || (ewmaOut !== undefined && ewmaOut.value > ewmaOut.ucl);
   const signalSince = signalling ? (track.signalSince ?? { sampleId: iv.to.sampleId, sampledAt: iv.to.sampledAt }) : undefined;

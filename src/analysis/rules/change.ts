@@ -34,7 +34,7 @@ export function changeVerdicts(input: SampleInput, points: readonly ChangePoint[
     };
     if (p.cusum !== undefined) {
       if (p.cusum.upper > p.cusum.h) report('cusum', 'up', p.cusum.upper, p.cusum.h);
-      if (p.cusum.lower > p.cusum.h) report('cusum', 'down', p.cusum.lower, p.cusum.h);
+      if (p.cusum.lower > p.cusum.hFall) report('cusum', 'down', p.cusum.lower, p.cusum.hFall);
     }
     if (p.ewma !== undefined) {
       if (p.ewma.value > p.ewma.ucl) report('ewma', 'up', p.ewma.value, p.ewma.ucl);

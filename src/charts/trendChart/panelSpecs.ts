@@ -42,7 +42,7 @@ export function panelsOf(m: MeasurandSeries): PanelSpec[] {
   if (m.cusum !== null && m.cusum.points.length > 0) {
     const two = m.cusum.sided === 'two';
     const hi = max([m.cusum.h, ...m.cusum.points.map((p) => p.upper)])!;
-    const lo = two ? -max([m.cusum.h, ...m.cusum.points.map((p) => p.lower)])! : 0;
+    const lo = two ? -max([m.cusum.hFall, ...m.cusum.points.map((p) => p.lower)])! : 0;
     panels.push({ key: 'cusum', heading: `CUSUM of the standardised wear (σ), decision interval h = ${fmt(m.cusum.h)}`, height: two ? 120 : 95, domain: [lo, hi] });
   }
   if (m.ewma !== null && m.ewma.points.length > 0) {

@@ -115,7 +115,10 @@ function readable(s: BacktestSummary, out: string | undefined): string {
     const prefix = s.runs.length > 1 ? `[${r.label}] ` : '';
     lines.push(`${prefix}configuration: ${r.configFile ?? 'built-in defaults'}${r.budget ? `, budget "${r.budget.text}"` : ''}`);
     for (const p of r.parameters) {
-      lines.push(`${prefix}  ${p.groups.join(', ')}: ${p.charts} charts, per-chart ARL0 ${fmt(p.arl0)}, CUSUM h = ${p.cusum.enabled ? fmt(p.cusum.h) : 'off'}, EWMA L = ${p.ewma.enabled ? fmt(p.ewma.L) : 'off'}`);
+      lines.push(
+        `${prefix}  ${p.groups.join(', ')}: ${p.charts} charts, per-chart ARL0 ${fmt(p.arl0)}, CUSUM h = ${p.cusum.enabled ? fmt(p.cusum.h) : 'off'}, EWMA L = ${p.ewma.enabled ? fmt(p.ewma.L) : 'off'}` +
+          (p.fall === null ? '' : `; a fall (sampling incident): ARL0 ${fmt(p.fall.arl0)}, h = ${fmt(p.fall.h)}, L = ${fmt(p.fall.L)}`),
+      );
     }
     const fam = Object.entries(r.incidents.byFamily).filter(([, v]) => v.incidents > 0).map(([f, v]) => `${f} ${v.incidents}`).join(', ');
     lines.push(`${prefix}incidents: ${r.incidents.total} (${r.incidents.per100ComponentYears === null ? '-' : fmt(r.incidents.per100ComponentYears)} per 100 component-years)${fam ? `; with ${fam}` : ''}`);

@@ -9,7 +9,7 @@ import { cusumArl } from '../../analysis/arl/cusumArl.ts';
 import { ewmaArl } from '../../analysis/arl/ewmaArl.ts';
 import { cusumDecisionInterval } from '../../analysis/arl/solveCusum.ts';
 import { ewmaLimitWidth } from '../../analysis/arl/solveEwma.ts';
-import { changeBudgetShare, detectionLimits, parseBudget, samplesPerBudgetPeriod, targetArl } from '../../analysis/budget.ts';
+import { changeDesign, parseBudget, samplesPerBudgetPeriod, targetArl } from '../../analysis/budget.ts';
 import type { Budget, BudgetSchema, Config } from '../../domain/config.ts';
 import { DEFAULT_HOURS_PER_YEAR, DEFAULT_SAMPLE_INTERVAL_HOURS } from '../../domain/budgetDefaults.ts';
 import { InputError } from '../../domain/errors.ts';
@@ -99,9 +99,10 @@ async function budgetContext(opts: CommonOptions): Promise<BudgetContext | undef
 /** How the worker designs its charts from the configuration's top-level detection settings. */
 function workerDesign(config: Config): { charts: number; share: number; measurands: number; detectors: number } {
   const d = config.detection;
-  const share = changeBudgetShare(config.population);
+  // The rise side's design, which opens wear incidents (a fall has its own part of the budget: budget.ts changeDesign).
+  const { rise, riseShare } = changeDesign(d, config.population);
   const detectors = (d.ewma.enabled ? 1 : 0) + (d.cusum.enabled ? 1 : 0);
-  return { charts: Math.max(1, detectionLimits(d, share).charts), share, measurands: d.measurands.length, detectors };
+  return { charts: Math.max(1, rise.charts), share: riseShare, measurands: d.measurands.length, detectors };
 }
 
 function conversionLines(c: BudgetConversion, opts: CommonOptions, config: Config): string {
@@ -155,8 +156,10 @@ watch the upper side, so negative shifts make them slower), from the chart's sta
 and --charts N: each chart's ARL0 = Y · hours-per-year / every / A · N / share, because the false-alarm rates of a
 component's charts add up. A "chart" is one wear metal watched by one detector; with a budget, --charts, --share,
 --sided, --k, --headstart, --lambda and the limits default to what the worker does with the configuration (--config,
-else WEARSHIFT_CONFIG, else the built-in defaults: 7 wear metals × EWMA and CUSUM = 14 charts, 0.8 of the budget, one-sided),
-so the answer is the h or L the worker uses. The conversion is printed.
+else WEARSHIFT_CONFIG, else the built-in defaults: 7 wear metals × EWMA and CUSUM = 14 charts, one-sided, 0.72 of the
+budget: the change detectors' 0.8 less the fall side's part, detection.fallShare 0.1 of it), so the answer is the h or L
+the worker uses for a rise. A fall is judged against its own limits: --share with the fall side's part (0.08 by default)
+gives them. The conversion is printed.
 Run lengths are in samples; with --every (or a budget) also in operating hours. --json prints one JSON object.`;
 
 function common(c: Command, parameter: string): Command {
@@ -168,7 +171,7 @@ function common(c: Command, parameter: string): Command {
     .option('--every <hours>', 'with --budget: operating hours between samples', numberOption('every'))
     .option('--hours-per-year <hours>', 'with --budget: operating hours per year', numberOption('hours-per-year'))
     .option('--charts <N>', 'with --budget: charts (wear metal × detector) per component sharing the budget (default: from the configuration)', numberOption('charts'))
-    .option('--share <fraction>', 'with --budget: the part of the budget these charts get (default: from the configuration)', numberOption('share'))
+    .option('--share <fraction>', 'with --budget: the part of the budget these charts get (default: from the configuration, its rise side)', numberOption('share'))
     .option('--config <file>', 'with --budget: the configuration whose detection settings to follow (default: WEARSHIFT_CONFIG)')
     .option('--json', 'machine-readable output (one JSON object)')
     .addHelpText('after', COMMON_HELP);

@@ -70,6 +70,7 @@ function readable(file: string | undefined, rows: readonly DesignNoise[]): strin
       ],
     ).trimEnd(),
   );
+  out.push("-: set by the site's levels and the data (wearshift backtest measures it on a history); sampling check: only the fall side of the change detectors' charts, the other checks depend on the data");
   for (const r of rows) {
     const f = r.fleet;
     if (f === null) continue;
