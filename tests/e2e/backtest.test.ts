@@ -126,8 +126,9 @@ describe('wearshift backtest', { timeout: 600_000 }, () => {
 
   it('designs h and L from a budget as wearshift design does for the same target', async () => {
     // Fe watched by EWMA and CUSUM: two charts share the change detectors' part of the component's budget (0.8: the
-    // comparison with peers takes the rest), each designed on its upper side; samples every 250 h (the configured default).
-    const common = ['--budget', BUDGET, '--every', '250', '--charts', '2', '--share', '0.8', '--sided', 'one', '--json'];
+    // comparison with peers takes the rest), the rise side 0.9 of it (0.72; a fall the other 0.08), each side designed
+    // one-sided; samples every 250 h (the configured default).
+    const common = ['--budget', BUDGET, '--every', '250', '--charts', '2', '--share', '0.72', '--sided', 'one', '--json'];
     const [bt, plain, cusumRun, ewmaRun] = await Promise.all([
       runCli(['backtest', file('fleet.jsonl'), '--config', file('config.yaml'), '--budget', BUDGET, '--json', ...NOW]),
       runCli(['backtest', file('fleet.jsonl'), '--config', file('config.yaml'), '--json', ...NOW]),
@@ -150,7 +151,7 @@ describe('wearshift backtest', { timeout: 600_000 }, () => {
     });
     // The commands the report shows print the same numbers.
     const shown = await Promise.all(p.designCommands.map((c) => runCli([...words(c).slice(1), '--json'])));
-    expect(shown.map((r) => JSON.parse(r.stdout)).map((j) => j.h ?? j.L)).toEqual([p.cusum.h, p.ewma.L]);
+    expect(shown.map((r) => JSON.parse(r.stdout)).map((j) => j.h ?? j.L)).toEqual([p.cusum.h, p.ewma.L, p.fall!.h, p.fall!.L]);
     // One false alarm in 3 years allows more per sample than the configured one in 5 years: a lower h.
     expect((JSON.parse(plain.stdout) as BacktestSummary).runs[0]!.parameters[0]!.cusum.h).toBeGreaterThan(p.cusum.h);
   }, 180_000);
