@@ -8,8 +8,9 @@
  * peers' upper prediction limit, mean + t₁₋α,ₙ₋₁ · sd · √(1 + 1/n) of the n peers' log rates (the limit a new unit
  * exchangeable with them stays under with probability 1 − α; Student's t from its Cornish–Fisher expansion), with α
  * the share of the false-alarm budget given to this check per component-year (population.peers.budgetShare ×
- * detection.budget.alarms / years), and its rate is at least population.peers.minRatio times the peers' typical
- * rate. It fires once, when the comparison first turns (one incident, not a standing one), and re-arms only after
+ * detection.budget.alarms / years) shared by the watched metals, each compared on its own (Bonferroni: a component
+ * with 7 metals compared at α each would be flagged up to 7 times as often as the budget allows), and its rate is at
+ * least population.peers.minRatio times the peers' typical rate. It fires once, when the comparison first turns (one incident, not a standing one), and re-arms only after
  * the rate has come back 0.5 standard deviations inside the limit.
  */
 import { probit } from 'simple-statistics';
@@ -20,10 +21,13 @@ import type { RateBaseline } from '../model.ts';
 import type { OwnBaselineState } from '../fold/changeTrack.ts';
 import { findingAt, formatNumber, type SampleInput } from './ruleInput.ts';
 
-/** Probability that a healthy component is flagged, per component life (taken as one year). */
+/**
+ * Probability that one watched metal of a healthy component is flagged, per component life (taken as one year): the
+ * check's part of the budget shared by the detection measurands, so that the component's chance stays within it.
+ */
 export function peerAlpha(settings: ComponentSettings): number {
-  const { budget } = settings.detection;
-  return Math.min(0.5, (settings.population.peers.budgetShare * budget.alarms) / budget.years);
+  const { budget, measurands } = settings.detection;
+  return Math.min(0.5, (settings.population.peers.budgetShare * budget.alarms) / budget.years) / Math.max(1, measurands.length);
 }
 
 /**
