@@ -114,7 +114,7 @@ function populationNoise(settings: ComponentSettings, samplesPerYear: number): F
   let perYear = 0;
   if (p.peers.enabled) {
     perYear += (p.peers.budgetShare * settings.detection.budget.alarms) / settings.detection.budget.years;
-    parts.push(`comparison with peers: ${p.peers.budgetShare} of the budget`);
+    parts.push(`comparison with peers: ${p.peers.budgetShare} of the budget, shared by the watched metals (an upper bound)`);
   }
   if (p.opensIncidents) {
     const tail = p.method === 'sigma' ? 1 - normalCdf(p.sigma.caution) : 1 - p.percentile.caution / 100;
