@@ -241,7 +241,8 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
     row.n += 1;
     const view = await componentView(injectedRun.store, injectedRun.store, config, { unit: u.unit, component: u.component });
     const step = view?.evaluation.steps.find((s) => s.sampleId === fault.sampleId);
-    if (step?.findings.some((f) => f.rule === 'sampling')) row.flagged += 1;
+    const flagged = step?.findings.some((f) => f.rule === 'sampling') === true;
+    if (flagged) row.flagged += 1;
     const order = (view?.evaluation.history.samples ?? []).map((s) => s.sampleId);
     const from = order.indexOf(fault.sampleId);
     const window = new Set(order.slice(from, from + FAULT_WINDOW + 1));
@@ -251,7 +252,7 @@ export async function runQuiet(options: QuietOptions = {}): Promise<PartResult> 
     if (TARGET_FAULTS.includes(fault.kind)) {
       const f = fleetFigures.get(p.seed)!;
       f.faults += 1;
-      if (step?.findings.some((x) => x.rule === 'sampling')) f.flagged += 1;
+      if (flagged) f.flagged += 1;
       if (wear) f.wear += 1;
     }
   }

@@ -10,8 +10,9 @@
  * the share of the false-alarm budget given to this check per component-year (population.peers.budgetShare ×
  * detection.budget.alarms / years) shared by the watched metals, each compared on its own (Bonferroni: a component
  * with 7 metals compared at α each would be flagged up to 7 times as often as the budget allows), and its rate is at
- * least population.peers.minRatio times the peers' typical rate. It fires once, when the comparison first turns (one incident, not a standing one), and re-arms only after
- * the rate has come back 0.5 standard deviations inside the limit.
+ * least population.peers.minRatio times the peers' typical rate. It fires once, when the comparison first turns (one
+ * incident, not a standing one), and re-arms only after the rate has come back 0.5 standard deviations inside the
+ * limit.
  */
 import { probit } from 'simple-statistics';
 import type { Finding } from '../../domain/finding.ts';
