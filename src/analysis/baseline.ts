@@ -51,12 +51,21 @@ export function poolBaselines(all: Iterable<BaselineSums>): BaselineSums {
  * Floors on the wear-process variance. Where lab noise dominates, a Kalman filter averages many past readings
  * and extrapolates them with the baseline rate; the error of a rate learnt from a short baseline then grows
  * into a bias of the prediction errors (amplified by 1/gain) and the false-alarm rate rises well above design.
- * So the filter is never allowed to trust its extrapolation more than one fresh reading: over a typical
- * interval the process variance is at least the variance of one reading (gain ≥ about 0.6), and at least a
- * tenth of the typical interval's wear as one standard deviation. Where the true process is smoother, the
- * floor makes the detectors conservative (fewer false alarms than designed), never more alarm-prone.
+ * So the filter is never allowed to trust its extrapolation much more than one fresh reading: over a typical
+ * interval the process variance is at least half the variance of one reading (steady-state gain ≥ 0.5: the
+ * local level model with q = R/2 gives P = R, gain P/(P + R)), and at least a tenth of the typical interval's wear
+ * as one standard deviation. Where the true process is smoother, the floor makes the detectors conservative (fewer
+ * false alarms than designed), never more alarm-prone.
+ *
+ * Why half a reading and not a whole one (the floor until December 2026): with a whole reading, healthy invented
+ * fleets raised a third of the EWMA and CUSUM false alarms their part of the budget allows (the `quiet` benchmark:
+ * 2.1 and 1.4 against 7.2 each per 100 component-years) while copper and aluminium, where lab noise dominates, were
+ * learnt so fast that doublings were caught late; with half, 4.8 and 4.2, doublings caught a sample earlier
+ * (BENCHMARKS.md, "The process-variance floor"). A quarter went past the design (EWMA 10.5).
  */
 const PROCESS_SPREAD_FLOOR = 0.1;
+/** The lab floor: the share of one reading's variance the wear process adds at least over a typical interval. */
+const LAB_FLOOR_SHARE = 0.5;
 
 export function rateBaseline(s: BaselineSums, components: number, typicalIntervalHours: number, options: { predictive?: boolean } = {}): RateBaseline | undefined {
   if (s.intervals === 0 || s.sumHours <= 0) return undefined;
@@ -65,7 +74,7 @@ export function rateBaseline(s: BaselineSums, components: number, typicalInterva
   const moment = options.predictive === true ? predictiveProcessVariance(s, rss) : (rss - s.sumLabVariance) / s.sumHours;
   const wearFloor = (PROCESS_SPREAD_FLOOR * Math.abs(rate)) ** 2 * typicalIntervalHours;
   const readingVariance = s.sumLabVariance / (2 * s.intervals);
-  const labFloor = readingVariance / typicalIntervalHours;
+  const labFloor = (LAB_FLOOR_SHARE * readingVariance) / typicalIntervalHours;
   return { rate, processVariance: Math.max(moment, wearFloor, labFloor, 1e-9), intervals: s.intervals, components };
 }
 

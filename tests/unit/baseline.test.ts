@@ -11,10 +11,10 @@ describe('baselines', () => {
     expect(b.processVariance).toBeCloseTo(32 / 750, 12);
   });
 
-  it('lab variance is taken out of the residuals, down to the floor of one reading per typical interval', () => {
+  it('lab variance is taken out of the residuals, down to the floor of half a reading per typical interval', () => {
     const b = rateBaseline(sums([[250, 10], [250, 14], [250, 6]], 20), 1, 250)!;
-    // (32 − 3·20)/750 < 0, so the floor holds: one reading's variance (20/2) per 250 h.
-    expect(b.processVariance).toBeCloseTo(10 / 250, 12);
+    // (32 − 3·20)/750 < 0, so the floor holds: half of one reading's variance (20/2) per 250 h.
+    expect(b.processVariance).toBeCloseTo(5 / 250, 12);
   });
 
   it('an own baseline predicts with the unbiased process variance widened for its few degrees of freedom (Student t)', () => {
