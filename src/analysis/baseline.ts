@@ -61,7 +61,9 @@ export function poolBaselines(all: Iterable<BaselineSums>): BaselineSums {
  * fleets raised a third of the EWMA and CUSUM false alarms their part of the budget allows (the `quiet` benchmark:
  * 2.1 and 1.4 against 7.2 each per 100 component-years) while copper and aluminium, where lab noise dominates, were
  * learnt so fast that doublings were caught late; with half, 4.8 and 4.2, doublings caught a sample earlier
- * (BENCHMARKS.md, "The process-variance floor"). A quarter went past the design (EWMA 10.5).
+ * (BENCHMARKS.md, "The process-variance floor"). A quarter went past the design (EWMA 10.5). The price: where the
+ * wear process rather than the lab dominates, a 12-interval own baseline leaves the CUSUM about 13 % more alarm-prone
+ * than designed (the bench's design-check part; about 6 % with a whole reading).
  */
 const PROCESS_SPREAD_FLOOR = 0.1;
 /** The lab floor: the share of one reading's variance the wear process adds at least over a typical interval. */
