@@ -226,9 +226,10 @@ export function advanceChange(t: ChangeTrack, iv: Interval, input: ChangeInput):
   if (detection.ewma.enabled) {
     const n = ewmaState.n + 1;
     const value = detection.ewma.lambda * z + (1 - detection.ewma.lambda) * ewmaState.value;
-    const half = limits.ewmaL * ewmaLimitFactor(detection.ewma.lambda, n, true);
+    // The limits' width at sample n in sigma units; each side scales it by its own L.
+    const factor = ewmaLimitFactor(detection.ewma.lambda, n, true);
     ewmaState = { value, n };
-    ewmaOut = { value, ucl: half, lcl: -limits.ewmaLFall * ewmaLimitFactor(detection.ewma.lambda, n, true) };
+    ewmaOut = { value, ucl: limits.ewmaL * factor, lcl: -limits.ewmaLFall * factor };
   }
   const signalling = (cusumOut !== undefined && cusumOut.upper > cusumOut.h) || (ewmaOut !== undefined && ewmaOut.value > ewmaOut.ucl);
   const signalSince = signalling ? (track.signalSince ?? { sampleId: iv.to.sampleId, sampledAt: iv.to.sampledAt }) : undefined;
