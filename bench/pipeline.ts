@@ -129,9 +129,12 @@ function child(args: readonly string[], env: NodeJS.ProcessEnv, name: string): C
   };
 }
 
-/** `node bin/wearshift.js worker` with the given configuration file, logging warnings only. */
+/** `node bin/wearshift.js worker` with the given configuration file, logging warnings only (and profiled, see below). */
 export function startWorkerProcess(redisUrl: string, configFile: string, args: readonly string[] = []): ChildWorker {
-  return child([CLI, 'worker', ...args], { REDIS_URL: redisUrl, WEARSHIFT_CONFIG: configFile, LOG_LEVEL: 'warn' }, 'wearshift worker');
+  // BENCH_WORKER_PROFILE_DIR: write each worker process's CPU profile there (node --cpu-prof) when it stops.
+  const profile = process.env.BENCH_WORKER_PROFILE_DIR;
+  const node = profile ? ['--cpu-prof', `--cpu-prof-dir=${profile}`] : [];
+  return child([...node, CLI, 'worker', ...args], { REDIS_URL: redisUrl, WEARSHIFT_CONFIG: configFile, LOG_LEVEL: 'warn' }, 'wearshift worker');
 }
 
 /** The same, on a Redis Cluster named by its seed nodes (REDIS_CLUSTER_NODES). */

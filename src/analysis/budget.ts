@@ -11,8 +11,9 @@
  * designed for exactly that input: h for the CUSUM with its configured k and headstart, L for the EWMA with exact
  * time-varying limits, which is what the detectors draw.
  */
-import type { Budget, Detection, Population } from '../domain/config.ts';
+import type { Budget, Config, Detection, Population } from '../domain/config.ts';
 import { InputError } from '../domain/errors.ts';
+import { resolveSettings } from '../domain/settings.ts';
 import { cusumDecisionInterval } from './arl/solveCusum.ts';
 import { ewmaLimitWidth } from './arl/solveEwma.ts';
 
@@ -88,4 +89,18 @@ export function changeDesign(d: Detection, population: Pick<Population, 'peers'>
   const fallShare = share * d.fallShare;
   const riseShare = share - fallShare;
   return { rise: detectionLimits(d, riseShare), riseShare, fall: detectionLimits(d, fallShare), fallShare };
+}
+
+/**
+ * Designs the charts of the built-in settings and of every configured group once. The limits are solved numerically
+ * and remembered (arl/memo.ts), so a worker calls this at start: the first result of a group then does not wait for
+ * the solvers (about 0.1–0.2 s on two cores). Returns the designs by group name ('' for the built-in settings).
+ */
+export function designConfiguredCharts(config: Config): Map<string, ChangeDesign> {
+  const out = new Map<string, ChangeDesign>();
+  for (const group of ['', ...config.groups.map((g) => g.name)]) {
+    const settings = resolveSettings(config, { unit: '', component: '', ...(group !== '' && { group }) });
+    out.set(group, changeDesign(settings.detection, settings.population));
+  }
+  return out;
 }

@@ -6,6 +6,7 @@
  */
 import { hostname } from 'node:os';
 import { UnrecoverableError, Worker, type Processor, type Queue } from 'bullmq';
+import { designConfiguredCharts } from '../analysis/budget.ts';
 import type { Config } from '../domain/config.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
 import { incidentRules } from '../incidents/policy.ts';
@@ -108,6 +109,7 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   const now = deps.now ?? Date.now;
   const partitions = new Partitions(queueSettings.prefix, s.partitions);
   const { logger, metrics } = deps;
+  designConfiguredCharts(deps.config);
   const store = deps.store ?? new RedisStore(deps.connection, { prefix: queueSettings.prefix, partitions: s.partitions, config: deps.config });
   const incidents = new RedisIncidents(deps.connection, { rules: incidentRules(deps.config), prefix: queueSettings.prefix, partitions: s.partitions });
   const evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, deps.connection, queueSettings, partitions);

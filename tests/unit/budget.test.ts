@@ -1,9 +1,11 @@
 import { describe, expect, it } from 'vitest';
 import { cusumArl } from '../../src/analysis/arl/cusumArl.ts';
 import { ewmaArl } from '../../src/analysis/arl/ewmaArl.ts';
-import { changeBudgetShare, changeDesign, detectionLimits, parseBudget, targetArl } from '../../src/analysis/budget.ts';
+import { changeBudgetShare, changeDesign, designConfiguredCharts, detectionLimits, parseBudget, targetArl } from '../../src/analysis/budget.ts';
 import { BudgetSchema, ConfigSchema, DetectionSchema } from '../../src/domain/config.ts';
+import { parseConfig } from '../../src/domain/configFile.ts';
 import { InputError } from '../../src/domain/errors.ts';
+import { resolveSettings } from '../../src/domain/settings.ts';
 
 describe('parseBudget', () => {
   it('reads the documented forms', () => {
@@ -90,5 +92,24 @@ describe('detectionLimits', () => {
     const d = DetectionSchema.parse({ ewma: { lambda: 0.15 } });
     const first = detectionLimits(d);
     for (let i = 0; i < 100; i++) expect(detectionLimits(d)).toEqual(first);
+  });
+});
+
+describe('designConfiguredCharts', () => {
+  it('designs the built-in settings and each group with its own budget, as its components will use them', () => {
+    const config = parseConfig(`
+groups:
+  - name: strict-gearboxes
+    detection: { budget: { alarms: 1, years: 20 } }
+  - name: plain-engines
+`);
+    const designs = designConfiguredCharts(config);
+    expect([...designs.keys()]).toEqual(['', 'strict-gearboxes', 'plain-engines']);
+    const s = resolveSettings(config, { unit: 'X', component: 'gearbox', group: 'strict-gearboxes' });
+    expect(designs.get('strict-gearboxes')).toEqual(changeDesign(s.detection, s.population));
+    // Four times the period for one false alarm: a run length four times as long, so wider limits.
+    expect(designs.get('strict-gearboxes')!.rise.arl0).toBeCloseTo(4 * designs.get('')!.rise.arl0, 6);
+    expect(designs.get('strict-gearboxes')!.rise.cusumH).toBeGreaterThan(designs.get('')!.rise.cusumH);
+    expect(designs.get('plain-engines')).toEqual(designs.get(''));
   });
 });
