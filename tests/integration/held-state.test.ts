@@ -6,7 +6,6 @@
  * worker's commit, a responder's action) makes the held copy stale, so that it is read again.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { parseConfig } from '../../src/domain/configFile.ts';
 import { componentKey, type ResultEvent } from '../../src/domain/event.ts';
 import type { Incident } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
@@ -19,21 +18,11 @@ import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
 import { seededRandom } from '../../src/simulation/random.ts';
 import { inventedFleet } from '../helpers/fleetCsv.ts';
+import { fleetWithRevisions, ORDER_CONFIG, ORDER_NOW, verdictOf } from '../helpers/orderFleet.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
-const CONFIG = parseConfig(`
-detection:
-  measurands: [Fe, Cu]
-  runningInHours: 0
-  baselineIntervals: 4
-population: { minResults: 6, bandHours: [0, 500], peers: { minComponents: 3 } }
-groups:
-  - name: lift-gearboxes
-    match: { component: gearbox, unit: "^LS" }
-    sumpLitres: 40
-    limits: { Fe: { caution: 45, alarm: 70 }, Si: { caution: 15, alarm: 25 } }
-`);
-const NOW = Date.parse('2026-06-01T00:00:00Z');
+const CONFIG = ORDER_CONFIG;
+const NOW = ORDER_NOW;
 const RULES = incidentRules(CONFIG);
 
 let server: RedisServer;
@@ -47,19 +36,6 @@ afterAll(async () => {
 });
 
 type Store = ComponentStore & GroupLedger;
-
-/** The verdict of an incident: everything but what was told to whom. */
-function verdict(i: Incident) {
-  const { announced: _a, eventSeq: _e, escalation: _s, told: _t, notifications: _n, ...rest } = i;
-  return rest;
-}
-
-/** Five gearboxes (one with a tripled iron wear rate), with revisions of a few samples. */
-function fleetWithRevisions(): ResultEvent[] {
-  const base = inventedFleet({ units: 5, samplesPerUnit: 18, seed: 7 });
-  const revised = base.filter((_, i) => i % 11 === 3).map((e) => ({ ...e, revision: 1, readings: { ...e.readings, Fe: Number(e.readings.Fe) + 6 } }));
-  return [...base, ...revised];
-}
 
 function shuffled<T>(items: readonly T[], seed: number): T[] {
   const rng = seededRandom(seed);
@@ -106,7 +82,7 @@ async function run(store: Store, records: readonly ResultEvent[], mode: 'one-by-
   const incidents = (await Promise.all(components.map((c) => store.incidentsOpenedAfter(c, null))))
     .flat()
     .filter((i) => i.closed?.how !== 'withdrawn')
-    .map(verdict)
+    .map(verdictOf)
     .sort((a, b) => (a.id < b.id ? -1 : 1));
   return { findings, incidents };
 }

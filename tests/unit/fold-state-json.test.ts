@@ -9,7 +9,7 @@ import { AnalysisFold, emptyAnalysisState } from '../../src/analysis/fold/analys
 import { parseConfig } from '../../src/domain/configFile.ts';
 import { parseResultEvent, type Sample } from '../../src/domain/event.ts';
 import { resolveSettings } from '../../src/domain/settings.ts';
-import { inventedFleet } from '../helpers/fleetCsv.ts';
+import { FLEET_CONFIG, inventedFleet } from '../helpers/fleetCsv.ts';
 import { SIM_CONFIG, simulatedSamples, steppedFe } from '../helpers/wearFleet.ts';
 
 function roundTrips(settings: ReturnType<typeof resolveSettings>, samples: readonly Sample[]): number {
@@ -26,17 +26,7 @@ function roundTrips(settings: ReturnType<typeof resolveSettings>, samples: reado
 
 describe('the analysis state', () => {
   it('is plain JSON at every sample of a history with oil changes, top-ups, a wear-rate step and a contaminant excursion', () => {
-    const config = parseConfig(`
-detection:
-  measurands: [Fe, Cu]
-  runningInHours: 0
-  baselineIntervals: 6
-groups:
-  - name: lift-gearboxes
-    match: { component: gearbox, unit: "^LS" }
-    sumpLitres: 40
-    limits: { Fe: { caution: 45, alarm: 70 }, Si: { caution: 15, alarm: 25 } }
-`);
+    const config = parseConfig(FLEET_CONFIG);
     const events = inventedFleet({ units: 3, samplesPerUnit: 40, seed: 11 });
     let checked = 0;
     for (const unit of new Set(events.map((e) => e.unit))) {
