@@ -4,7 +4,7 @@
  * component store and the group ledger of src/pipeline/ports.ts; the incident API (list, get, actions) over the
  * same keys is redisIncidents.ts.
  */
-import { randomUUID } from 'node:crypto';
+import { randomBytes, randomUUID } from 'node:crypto';
 import type { GroupStats, SampleMark } from '../analysis/model.ts';
 import type { Config } from '../domain/config.ts';
 import { ConfigSchema } from '../domain/config.ts';
@@ -375,7 +375,8 @@ export class RedisStore implements ComponentStore, GroupLedger {
     const { tag, c, p } = this.keysOf(ref);
     const g = groupKeys(tag, commit.group);
     const settings = resolveSettings(this.config, { unit: ref.unit, component: ref.component, group: commit.group });
-    const stamp = randomUUID();
+    // 72 random bits: another commit's stamp never matches by chance.
+    const stamp = randomBytes(9).toString('base64url');
     const payload0 = {
       latest: compactText(JSON.stringify(commit.latest)),
       sparse: commit.sparse.map((cp) => [`cp|${String(cp.count).padStart(10, '0')}|${positionText(cp.position!)}`, compactText(JSON.stringify(cp))]),
