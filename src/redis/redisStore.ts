@@ -4,7 +4,7 @@
  * component store and the group ledger of src/pipeline/ports.ts; the incident API (list, get, actions) over the
  * same keys is redisIncidents.ts.
  */
-import { randomBytes, randomUUID } from 'node:crypto';
+import { randomUUID } from 'node:crypto';
 import type { GroupStats, SampleMark } from '../analysis/model.ts';
 import type { Config } from '../domain/config.ts';
 import { ConfigSchema } from '../domain/config.ts';
@@ -56,17 +56,10 @@ export interface RedisStoreOptions {
    * 1000 (0: none).
    */
   readonly groupStatsMemo?: number;
-  /**
-   * Components whose latest checkpoint and incident state this process keeps decoded after committing them (the
-   * least recently committed go first), so that its next evaluation of the component, when nothing else wrote them
-   * since (the commit's stamp still stored), neither reads nor decodes them again. Default 1000 (0: none).
-   */
-  readonly heldStates?: number;
 }
 
 export const DEFAULT_FINDINGS_LOG_LIMIT = 200;
 export const DEFAULT_GROUP_STATS_MEMO = 1000;
-export const DEFAULT_HELD_STATES = 1000;
 /** Months kept per component in the memo of group statistics. */
 const MEMO_MONTHS = 4;
 
@@ -118,13 +111,6 @@ function incidentArguments(commit: EvaluationCommit, first: number) {
   };
 }
 
-/** A component's latest checkpoint and incident state as this process committed them, named by the commit's stamp. */
-interface HeldState {
-  readonly stamp: string;
-  readonly latest: Checkpoint;
-  readonly incidents: ComponentIncidents;
-}
-
 export class RedisStore implements ComponentStore, GroupLedger {
   readonly partitions: Partitions;
   private readonly findingsLogLimit: number;
@@ -138,9 +124,6 @@ export class RedisStore implements ComponentStore, GroupLedger {
    */
   private readonly statsMemo = new Map<string, Array<{ month: string; signature: string; sum: MonthBucket; stats: GroupStats }>>();
   private readonly statsMemoLimit: number;
-  /** Decoded states by component key (least recently committed first): see RedisStoreOptions.heldStates. */
-  private readonly held = new Map<string, HeldState>();
-  private readonly heldLimit: number;
 
   constructor(
     private readonly redis: RedisConnection,
@@ -149,7 +132,6 @@ export class RedisStore implements ComponentStore, GroupLedger {
     this.partitions = new Partitions(options.prefix, options.partitions ?? 1);
     this.findingsLogLimit = options.findingsLogLimit ?? DEFAULT_FINDINGS_LOG_LIMIT;
     this.statsMemoLimit = options.groupStatsMemo ?? DEFAULT_GROUP_STATS_MEMO;
-    this.heldLimit = options.heldStates ?? DEFAULT_HELD_STATES;
     this.config = options.config ?? ConfigSchema.parse({});
     const define = (name: string, numberOfKeys: number, lua: string): ScriptCall => {
       const commandName = `wearshift_${name}`;
@@ -292,43 +274,18 @@ export class RedisStore implements ComponentStore, GroupLedger {
       this.redis.zrange(c.order, -1, -1, 'WITHSCORES'),
       this.redis.hmget(c.evaluation, 'mark', 'dirty', 'latest', 'incidents', 'version', 'marks'),
     ]);
-    return this.inputOf(ref, head, count, last, fields.map((f) => f ?? ''), undefined);
+    return inputOf(ref, head, count, last, fields.map((f) => f ?? ''));
   }
 
   async acquireWithInput(ref: ComponentRef, ttlMs: number): Promise<{ lease: Lease; input: EvaluationInput | undefined } | undefined> {
     const { c, p } = this.keysOf(ref);
     const token = randomUUID();
-    const key = componentKey(ref);
-    // Taken out: the evaluation works on it in place, and only its own commit puts it back.
-    const held = this.held.get(key);
-    this.held.delete(key);
-    const reply = (await this.scripts.acquireWithInput(c.lock, p.registry, c.order, c.evaluation, token, String(ttlMs), key, held?.stamp ?? '')) as Array<string | number>;
+    const reply = (await this.scripts.acquireWithInput(c.lock, p.registry, c.order, c.evaluation, token, String(ttlMs), componentKey(ref))) as Array<string | number>;
     if (reply[0] === 0) return undefined;
     const [, head, count, lastId, lastTime, ...fields] = reply as [number, string, number, string, string, ...string[]];
     return {
       lease: { key: c.lock, token },
-      input: this.inputOf(ref, head === '' ? null : head, count, lastId === '' ? [] : [lastId, lastTime], fields, held),
-    };
-  }
-
-  /** An evaluation's input from the stored fields (mark, dirty, latest, incidents, version, marks); '=' : the held one. */
-  private inputOf(ref: ComponentRef, head: string | null, count: number, last: string[], fields: readonly string[], held: HeldState | undefined): EvaluationInput | undefined {
-    if (head === null || count === 0) return undefined;
-    const [mark, dirty, latest, incidents, version, marks] = fields;
-    if ((latest === '=' || incidents === '=') && held === undefined) throw new Error(`${componentKey(ref)}: the store answered with a state this process does not hold`);
-    let incidentState: ComponentIncidents;
-    if (incidents === '=') incidentState = held!.incidents;
-    else if (incidents) incidentState = JSON.parse(expandText(incidents)) as ComponentIncidents;
-    else incidentState = emptyComponentIncidents(ref.unit, ref.component);
-    const checkpoint = latest === '=' ? held!.latest : latest ? (JSON.parse(expandText(latest)) as Checkpoint) : undefined;
-    return {
-      entry: entryOf(JSON.parse(head) as RegistryHead, count, last),
-      mark: Number(mark || 0),
-      ...(dirty && { dirtyFrom: parsePosition(dirty) }),
-      ...(checkpoint && { latest: checkpoint }),
-      marks: new Map(Object.entries(JSON.parse(marks || '{}') as Record<string, SampleMark>)),
-      incidents: incidentState,
-      incidentsVersion: Number(version || 0),
+      input: inputOf(ref, head === '' ? null : head, count, lastId === '' ? [] : [lastId, lastTime], fields),
     };
   }
 
@@ -375,8 +332,6 @@ export class RedisStore implements ComponentStore, GroupLedger {
     const { tag, c, p } = this.keysOf(ref);
     const g = groupKeys(tag, commit.group);
     const settings = resolveSettings(this.config, { unit: ref.unit, component: ref.component, group: commit.group });
-    // 72 random bits: another commit's stamp never matches by chance.
-    const stamp = randomBytes(9).toString('base64url');
     const payload0 = {
       latest: compactText(JSON.stringify(commit.latest)),
       sparse: commit.sparse.map((cp) => [`cp|${String(cp.count).padStart(10, '0')}|${positionText(cp.position!)}`, compactText(JSON.stringify(cp))]),
@@ -401,7 +356,6 @@ export class RedisStore implements ComponentStore, GroupLedger {
       ...incidentArguments(commit, FIRST_RECORD_ARGUMENT),
       outbox: commit.effects.map((e) => JSON.stringify(e)),
       release: commit.releaseWhenSettled === true ? 1 : 0,
-      stamp,
     };
     const { texts, ...head } = payload0;
     const payload = { head, texts };
@@ -424,17 +378,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
     )) as [number, string?, number?];
     if (result[0] === 0) return { ok: false, reason: 'lost-lock' };
     if (result[0] === -1) return { ok: false, reason: 'incidents-changed' };
-    this.hold(ref, { stamp, latest: commit.latest, incidents: commit.incidents });
     return { ok: true, settled: result[2] === 1, ...(result[1] && { changedMonth: result[1] }) };
-  }
-
-  /** Keeps a committed state decoded for the component's next evaluation in this process. */
-  private hold(ref: ComponentRef, state: HeldState): void {
-    if (this.heldLimit <= 0) return;
-    const key = componentKey(ref);
-    this.held.delete(key);
-    this.held.set(key, state);
-    if (this.held.size > this.heldLimit) this.held.delete(this.held.keys().next().value as string);
   }
 
   async markDirty(marks: readonly { readonly ref: ComponentRef; readonly from: StepPosition }[]): Promise<void> {
@@ -652,6 +596,21 @@ interface RegistryHead {
 
 function entryOf(h: RegistryHead, count: number, last: string[]): ComponentEntry {
   return { unit: h.unit, component: h.component, group: h.group, samples: count, lastSampledAt: new Date(Number(last[1] ?? 0)).toISOString() };
+}
+
+/** The evaluation input from the registry entry, the sample count, the last sample and the evaluation fields ('' missing). */
+function inputOf(ref: ComponentRef, head: string | null, count: number, last: string[], fields: readonly string[]): EvaluationInput | undefined {
+  if (head === null || count === 0) return undefined;
+  const [mark, dirty, latest, incidents, version, marks] = fields;
+  return {
+    entry: entryOf(JSON.parse(head) as RegistryHead, count, last),
+    mark: Number(mark || 0),
+    ...(dirty && { dirtyFrom: parsePosition(dirty) }),
+    ...(latest && { latest: JSON.parse(expandText(latest)) as Checkpoint }),
+    marks: new Map(Object.entries(JSON.parse(marks || '{}') as Record<string, SampleMark>)),
+    incidents: incidents ? (JSON.parse(expandText(incidents)) as ComponentIncidents) : emptyComponentIncidents(ref.unit, ref.component),
+    incidentsVersion: Number(version || 0),
+  };
 }
 
 /**

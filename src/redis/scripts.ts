@@ -101,24 +101,18 @@ return 0
 
 /**
  * Takes a component's evaluation lock and reads what an evaluation starts from, in one step.
- * KEYS: lock, registry, order, evaluation. ARGV: token, lock lifetime (ms), component key, the stamp of the latest
- * checkpoint and incident state the caller still holds decoded ('' none).
+ * KEYS: lock, registry, order, evaluation. ARGV: token, lock lifetime (ms), component key.
  * Returns {0} when another holds the lock, else {1, registry entry, samples, last sample, its time, mark, dirty,
- * latest checkpoint, incidents, incidents version, marks, stamp} ('' for what is missing); the checkpoint and the
- * incidents come back as '=' when the stored stamp is the caller's (it holds them already).
+ * latest checkpoint, incidents, incidents version, marks} ('' for what is missing).
  */
 export const ACQUIRE_WITH_INPUT = `
 if not redis.call('SET', KEYS[1], ARGV[1], 'PX', ARGV[2], 'NX') then return { 0 } end
 local head = redis.call('HGET', KEYS[2], ARGV[3]) or ''
 local count = redis.call('ZCARD', KEYS[3])
 local last = redis.call('ZRANGE', KEYS[3], -1, -1, 'WITHSCORES')
-local f = redis.call('HMGET', KEYS[4], 'mark', 'dirty', 'latest', 'incidents', 'version', 'marks', 'stamp')
-if ARGV[4] ~= '' and f[7] == ARGV[4] then
-  f[3] = '='
-  f[4] = '='
-end
+local f = redis.call('HMGET', KEYS[4], 'mark', 'dirty', 'latest', 'incidents', 'version', 'marks')
 local out = { 1, head, count, last[1] or '', last[2] or '' }
-for i = 1, 7 do out[5 + i] = f[i] or '' end
+for i = 1, 6 do out[5 + i] = f[i] or '' end
 return out
 `;
 
@@ -215,8 +209,6 @@ export const UPDATE_INCIDENTS = `${INCIDENT_RECORDS}
 if (redis.call('HGET', KEYS[1], 'version') or '0') ~= ARGV[1] then return 0 end
 local p = cjson.decode(ARGV[2])
 redis.call('HSET', KEYS[1], 'incidents', p.state, 'version', tostring(tonumber(ARGV[1]) + 1))
--- An evaluation's decoded copy of the incidents (stamped by its commit) is no longer what is stored.
-redis.call('HDEL', KEYS[1], 'stamp')
 write_incidents(p, KEYS[2], KEYS[3], KEYS[4], KEYS[5], KEYS[6])
 return 1
 `;
@@ -229,9 +221,8 @@ return 1
  *   latest, sparse [[field, json]], rewound ('' none, 'start', or a position), steps [[field, json or '']], limit,
  *   shares [[sampleId, share or '']] (share: month;field=value,...), baselines {measurand: entry or ''}
  *   (entry: month;v1,...,v13), group, groupPrefix, member, horizon, registry, keepValues (0|1), componentKey,
- *   version, state (the component's incident state, stored as given: compact), records [[id, argument,
- *   open|closed, score, openedTime]], outbox, stamp (a fresh token naming this checkpoint and incident
- *   state, which the committer may keep decoded: ACQUIRE_WITH_INPUT);
+ *   version, state (the component's incident state, stored as given: compact), records [[id, argument, open|closed,
+ *   score, openedTime]], outbox;
  * then the incidents' JSON texts, one argument each (ARGV[4] on), which records name.
  * With release 1 in the payload, the lock goes too when nothing changed since the evaluation's input (settled).
  * Returns {1, earliest changed month or '', settled (0|1)}, {0} when the lock was lost, {-1} when the incidents
@@ -247,7 +238,7 @@ if (redis.call('HGET', ev, 'version') or '0') ~= p.version then return { -1 } en
 if tonumber(ARGV[2]) > tonumber(redis.call('HGET', ev, 'done') or '0') then redis.call('HSET', ev, 'done', ARGV[2]) end
 local settled = redis.call('HGET', ev, 'mark') == ARGV[2]
 if settled then redis.call('HDEL', ev, 'dirty') end
-redis.call('HSET', ev, 'latest', p.latest, 'stamp', p.stamp)
+redis.call('HSET', ev, 'latest', p.latest)
 local fields = redis.call('HKEYS', ev)
 if p.rewound ~= '' then
   for _, f in ipairs(fields) do

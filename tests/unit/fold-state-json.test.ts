@@ -1,8 +1,8 @@
 /**
  * The analysis state is plain JSON at every sample: stored as a checkpoint and read back, it is the very state the
- * fold holds (no undefined members, no NaN or Infinity, no Map, Date or class instance). A worker relies on it when it
- * keeps the state it committed for the component's next evaluation instead of reading it back
- * (tests/integration/held-state.test.ts): both must give the same verdicts.
+ * fold holds (no undefined members, no NaN or Infinity, no Map, Date or class instance). An evaluation that resumes
+ * from a checkpoint relies on it to reach the steps of one fold from the start (the order property test,
+ * tests/unit/pipeline-order.property.test.ts, checks the outcome; this checks the state itself).
  */
 import { describe, expect, it } from 'vitest';
 import { AnalysisFold, emptyAnalysisState } from '../../src/analysis/fold/analysisFold.ts';

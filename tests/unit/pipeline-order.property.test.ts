@@ -6,18 +6,36 @@
  */
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
+import { parseConfig } from '../../src/domain/configFile.ts';
 import type { ResultEvent } from '../../src/domain/event.ts';
+import type { Incident } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import type { EvaluationDeps } from '../../src/pipeline/evaluateStored.ts';
 import { MemoryStore } from '../../src/pipeline/memory/memoryStore.ts';
 import { settleComponent } from '../../src/pipeline/settleComponent.ts';
 import { storeResult } from '../../src/pipeline/storeResult.ts';
 import { componentView } from '../../src/pipeline/componentView.ts';
-import { fleetWithRevisions, ORDER_CONFIG, ORDER_NOW, verdictOf } from '../helpers/orderFleet.ts';
+import { inventedFleet } from '../helpers/fleetCsv.ts';
 
-const CONFIG = ORDER_CONFIG;
-const NOW = ORDER_NOW;
-const verdict = verdictOf;
+const CONFIG = parseConfig(`
+detection:
+  measurands: [Fe, Cu]
+  runningInHours: 0
+  baselineIntervals: 4
+population: { minResults: 6, bandHours: [0, 500], peers: { minComponents: 3 } }
+groups:
+  - name: lift-gearboxes
+    match: { component: gearbox, unit: "^LS" }
+    sumpLitres: 40
+    limits: { Fe: { caution: 45, alarm: 70 }, Si: { caution: 15, alarm: 25 } }
+`);
+const NOW = Date.parse('2026-06-01T00:00:00Z');
+
+/** The verdict of an incident: everything but what was told to whom. */
+function verdict(i: Incident) {
+  const { announced: _a, eventSeq: _e, escalation: _s, told: _t, notifications: _n, ...rest } = i;
+  return rest;
+}
 
 async function run(records: readonly ResultEvent[], mode: 'one-by-one' | 'rebuild') {
   const store = new MemoryStore({ config: CONFIG, now: () => NOW });
@@ -34,6 +52,13 @@ async function run(records: readonly ResultEvent[], mode: 'one-by-one' | 'rebuil
     .filter((i) => i.closed?.how !== 'withdrawn')
     .map(verdict);
   return { store, findings, incidents };
+}
+
+/** An invented fleet of five gearboxes (one with a tripled iron wear rate), with revisions of a few samples. */
+function fleetWithRevisions(): ResultEvent[] {
+  const base = inventedFleet({ units: 5, samplesPerUnit: 18, seed: 7 });
+  const revised = base.filter((_, i) => i % 11 === 3).map((e) => ({ ...e, revision: 1, readings: { ...e.readings, Fe: Number(e.readings.Fe) + 6 } }));
+  return [...base, ...revised];
 }
 
 describe('arrival order', () => {
