@@ -169,7 +169,7 @@ export function openApiDocument(): Json {
       '/v1/events': {
         get: {
           operationId: 'streamEvents',
-          summary: 'Server-sent events: incident changes and new results (the board\u2019s live feed).',
+          summary: 'Server-sent events: incident changes and new results (the board\u2019s live feed); a history import\u2019s results once per component and job, its latest.',
           tags: ['incidents'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
           responses: { '200': { description: 'An event stream; each data line is a JSON live event.', content: { 'text/event-stream': { schema: { type: 'string' } } } }, ...AUTH_ERRORS },

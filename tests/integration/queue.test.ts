@@ -7,6 +7,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import type { ResultEvent } from '../../src/domain/event.ts';
 import type { Incident } from '../../src/incidents/model.ts';
+import type { LiveEvent } from '../../src/pipeline/liveEvent.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { createResultProducer } from '../../src/queue/producer.ts';
 import { HISTORY_JOB, openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
@@ -45,11 +46,14 @@ interface Line {
   close(): Promise<void>;
 }
 
-/** `historyThreads`: threads that evaluate the months of history jobs (each its own connection to the same Redis). */
-async function pipeline(historyThreads = 0): Promise<Line> {
+/**
+ * `historyThreads`: threads that evaluate the months of history jobs (each its own connection to the same Redis);
+ * `live`: hears the live events the workers publish for the boards.
+ */
+async function pipeline(historyThreads = 0, live?: (event: LiveEvent) => void): Promise<Line> {
   const prefix = `{q${++prefixes}}`;
   const connection = server.client();
-  const workers = startWorkers({ connection, config, logger: silentLogger(), target: { kind: 'single', url: server.url } }, { prefix, backoffMs: 50, historyThreads });
+  const workers = startWorkers({ connection, config, logger: silentLogger(), target: { kind: 'single', url: server.url }, ...(live && { live }) }, { prefix, backoffMs: 50, historyThreads });
   const settings = resolveQueueSettings({ prefix });
   const history = openQueue(QUEUE_NAMES.history, connection, settings);
   const queues = [openQueue(QUEUE_NAMES.results, connection, settings), openQueue(QUEUE_NAMES.evaluate, connection, settings), history];
@@ -207,8 +211,9 @@ describe('live pipeline', () => {
   });
 
   it('a history sent as history jobs, in order or shuffled, reaches the state of one job per result', async () => {
-    const single = await pipeline();
-    const inOrder = await pipeline();
+    const heard = { single: [] as LiveEvent[], inOrder: [] as LiveEvent[] };
+    const single = await pipeline(0, (e) => heard.single.push(e));
+    const inOrder = await pipeline(0, (e) => heard.inOrder.push(e));
     const shuffled = await pipeline();
     try {
       await single.send(fleet);
@@ -222,6 +227,15 @@ describe('live pipeline', () => {
       expect(await storedState(shuffled)).toEqual(expected);
       // Completed history jobs are removed (their data is the whole batch); none failed.
       expect(await inOrder.history.getJobCounts('completed', 'failed')).toEqual({ completed: 0, failed: 0 });
+      // The boards hear of every live result, but of a history job's results once per component (its latest).
+      const results = (events: LiveEvent[]) => events.filter((e): e is Extract<LiveEvent, { type: 'result' }> => e.type === 'result');
+      expect(results(heard.single)).toHaveLength(fleet.length);
+      const jobs = Math.ceil(byTime.length / 20);
+      const perJob = Array.from({ length: jobs }, (_, j) => new Set(byTime.slice(j * 20, (j + 1) * 20).map((e) => e.unit)).size);
+      expect(results(heard.inOrder)).toHaveLength(perJob.reduce((a, b) => a + b, 0));
+      for (const unit of new Set(fleet.map((e) => e.unit))) {
+        expect(results(heard.inOrder).filter((e) => e.unit === unit).at(-1)?.sampleId).toBe(byTime.filter((e) => e.unit === unit).at(-1)!.sampleId);
+      }
     } finally {
       await single.close();
       await inOrder.close();

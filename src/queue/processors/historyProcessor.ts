@@ -6,6 +6,9 @@
  * are still to come, so the group's cascade (a commit that changes statistics of a month others have passed) does
  * not arise from the job itself. The verdicts are those of one job per result: the same storing and evaluation.
  *
+ * The boards hear of the job's results once per component, when the job ends (its latest result stored), not once per
+ * result: a backfill of years of history does not redraw every open board's charts for each of its results.
+ *
  * A record the job cannot take (it fails validation with the worker's clock, or its sampleId and revision are
  * stored with other content) does not stop the others: they are stored and evaluated, and the job then fails
  * without retry, naming each such record and the reason (`wearshift failed list`).
@@ -53,41 +56,51 @@ async function processHistory(deps: EvaluationRunnerDeps, job: Job, retryMs: num
   samples.sort((a, b) => comparePosition(positionOf(a), positionOf(b)));
   let months = 0;
   let evaluations = 0;
-  for (let from = 0; from < samples.length; ) {
-    const month = monthOf(samples[from]!.time);
-    let to = from;
-    while (to < samples.length && monthOf(samples[to]!.time) === month) to++;
-    const slice = samples.slice(from, to);
-    from = to;
-    months += 1;
-    const stored = await storeSamples(deps.store, deps.config, slice, now);
-    const due = new Map<string, ComponentRef>();
-    for (const { sample, outcome } of stored) {
-      deps.metrics?.stored(outcome.status);
-      if (outcome.status === 'conflict') {
-        refused.push(`${sample.unit} / ${sample.component}: ${conflictReason(sample.sampleId, sample.revision, 'stored')}; this result was not stored`);
-        continue;
-      }
-      if (outcome.status === 'new' || outcome.status === 'replacement') {
-        deps.live?.({ type: 'result', unit: sample.unit, component: sample.component, sampleId: sample.sampleId, sampledAt: sample.sampledAt });
-      }
-      if (outcome.evaluationDue) due.set(componentKey(sample), { unit: sample.unit, component: sample.component });
+  // Each component's latest result this job stored (new or a replacement), announced once the job is done with it.
+  const announce = new Map<string, Sample>();
+  try {
+    await processMonths();
+  } finally {
+    for (const sample of announce.values()) {
+      deps.live?.({ type: 'result', unit: sample.unit, component: sample.component, sampleId: sample.sampleId, sampledAt: sample.sampledAt });
     }
-    const refs = [...due.values()];
-    evaluations += refs.length;
-    let next = 0;
-    await Promise.all(
-      Array.from({ length: Math.min(atOnce, refs.length) }, async () => {
-        while (next < refs.length) {
-          const ref = refs[next++]!;
-          if ((await runEvaluation(deps, ref)) === 'busy') await scheduleEvaluation(deps.evaluateQueues[deps.partitions.of(ref)]!, ref, retryMs);
-        }
-      }),
-    );
-    await job.updateProgress(Math.round((100 * from) / samples.length));
   }
   if (refused.length > 0) {
     throw new UnrecoverableError(`${refused.length} of ${data.records.length} results of this history were not stored: ${refused.join('; ')}`);
   }
   return { results: samples.length, months, evaluations };
+
+  async function processMonths(): Promise<void> {
+    for (let from = 0; from < samples.length; ) {
+      const month = monthOf(samples[from]!.time);
+      let to = from;
+      while (to < samples.length && monthOf(samples[to]!.time) === month) to++;
+      const slice = samples.slice(from, to);
+      from = to;
+      months += 1;
+      const stored = await storeSamples(deps.store, deps.config, slice, now);
+      const due = new Map<string, ComponentRef>();
+      for (const { sample, outcome } of stored) {
+        deps.metrics?.stored(outcome.status);
+        if (outcome.status === 'conflict') {
+          refused.push(`${sample.unit} / ${sample.component}: ${conflictReason(sample.sampleId, sample.revision, 'stored')}; this result was not stored`);
+          continue;
+        }
+        if (outcome.status === 'new' || outcome.status === 'replacement') announce.set(componentKey(sample), sample);
+        if (outcome.evaluationDue) due.set(componentKey(sample), { unit: sample.unit, component: sample.component });
+      }
+      const refs = [...due.values()];
+      evaluations += refs.length;
+      let next = 0;
+      await Promise.all(
+        Array.from({ length: Math.min(atOnce, refs.length) }, async () => {
+          while (next < refs.length) {
+            const ref = refs[next++]!;
+            if ((await runEvaluation(deps, ref)) === 'busy') await scheduleEvaluation(deps.evaluateQueues[deps.partitions.of(ref)]!, ref, retryMs);
+          }
+        }),
+      );
+      await job.updateProgress(Math.round((100 * from) / samples.length));
+    }
+  }
 }
