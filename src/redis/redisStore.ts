@@ -464,7 +464,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
     // shares were last committed to another group (they move, and the versions of this group with them, at its next
     // commit).
     const memoized = !keepValues && this.statsMemoLimit > 0 && (!withoutOwn || committedPrefix === groupKeys(this.tagOf(self), group).versions.slice(0, -2));
-    let own: Promise<Map<string, MonthBucket>> | undefined;
+    let own: Promise<OwnShares> | undefined;
     // Without the memo, the month before serves as the base of the next.
     let previous: { month: string; signature: string; sum: MonthBucket } | undefined;
     const out = new Map<string, GroupStats>();
@@ -511,8 +511,9 @@ export class RedisStore implements ComponentStore, GroupLedger {
         }),
       );
       if (withoutOwn) {
-        own ??= this.ownBuckets(selfKeys);
-        for (const [m, bucket] of await own) if (wanted(m)) parts.push([bucket, -1]);
+        own ??= this.ownShares(selfKeys);
+        const shares = await own;
+        for (const m of shares.months()) if (wanted(m)) parts.push([shares.bucket(m), -1]);
       }
       if (this.bucketCache.size > 10_000) this.bucketCache.clear();
       const sum = combineBuckets(parts, keepValues);
@@ -540,39 +541,53 @@ export class RedisStore implements ComponentStore, GroupLedger {
 
   /**
    * The component's own shares of its group's month buckets, by month: the population shares of its winners and its
-   * baseline entries (what its commits added to the buckets of the group it was last committed to).
+   * baseline entries (what its commits added to the buckets of the group it was last committed to). A month's shares
+   * are parsed when asked for: an evaluation subtracts those of the few months since its base, of a history of many.
    */
-  private async ownBuckets(c: ReturnType<typeof componentKeys>): Promise<Map<string, MonthBucket>> {
+  private async ownShares(c: ReturnType<typeof componentKeys>): Promise<OwnShares> {
     const [winners, fields] = await Promise.all([this.redis.hgetall(c.winners), this.redis.hkeys(c.evaluation)]);
     const blFields = fields.filter((f) => f.startsWith('bl|'));
     const blValues = blFields.length === 0 ? [] : await this.redis.hmget(c.evaluation, ...blFields);
-    const out = new Map<string, { population: Record<string, PopulationCell>; baselines: Partial<Record<Measurand, BaselineBucket>> }>();
-    const bucket = (month: string) => {
-      let b = out.get(month);
-      if (b === undefined) out.set(month, (b = { population: {}, baselines: {} }));
-      return b;
-    };
+    // By month: the winners' population shares (`month;field=value,...`) and the baseline entries ([measurand, values]).
+    const raw = new Map<string, { population: string[]; baselines: Array<[Measurand, string]> }>();
+    const rawOf = (month: string) => raw.get(month) ?? raw.set(month, { population: [], baselines: [] }).get(month)!;
     for (const winner of Object.values(winners)) {
-      const share = winner.split('|').slice(3).join('|');
+      // `revision|time|unitHours|share`: the share is what follows the third bar.
+      let bar = -1;
+      for (let i = 0; i < 3 && (bar = winner.indexOf('|', bar + 1)) >= 0; i++);
+      if (bar < 0) continue;
+      const share = winner.slice(bar + 1);
       if (share === '') continue;
       const semi = share.indexOf(';');
-      const values: Record<string, number> = {};
-      for (const item of share.slice(semi + 1).split(',')) {
-        const eq = item.lastIndexOf('=');
-        values[item.slice(0, eq)] = Number(item.slice(eq + 1));
-      }
-      addPopulation(bucket(share.slice(0, semi)).population, values, 1, false);
+      rawOf(share.slice(0, semi)).population.push(share.slice(semi + 1));
     }
     blFields.forEach((field, i) => {
       const entry = blValues[i];
       if (entry === null || entry === undefined) return;
       const semi = entry.indexOf(';');
-      const b = baselineOfValues(entry.slice(semi + 1).split(',').map(Number));
-      const m = field.slice(3) as Measurand;
-      const target = bucket(entry.slice(0, semi)).baselines;
-      target[m] = addBaseline(target[m], b, 1)!;
+      rawOf(entry.slice(0, semi)).baselines.push([field.slice(3) as Measurand, entry.slice(semi + 1)]);
     });
-    return out;
+    const parsed = new Map<string, MonthBucket>();
+    return {
+      months: () => raw.keys(),
+      bucket(month) {
+        const done = parsed.get(month);
+        if (done !== undefined) return done;
+        const b: { population: Record<string, PopulationCell>; baselines: Partial<Record<Measurand, BaselineBucket>> } = { population: {}, baselines: {} };
+        const r = raw.get(month);
+        for (const list of r?.population ?? []) {
+          const values: Record<string, number> = {};
+          for (const item of list.split(',')) {
+            const eq = item.lastIndexOf('=');
+            values[item.slice(0, eq)] = Number(item.slice(eq + 1));
+          }
+          addPopulation(b.population, values, 1, false);
+        }
+        for (const [m, list] of r?.baselines ?? []) b.baselines[m] = addBaseline(b.baselines[m], baselineOfValues(list.split(',').map(Number)), 1)!;
+        parsed.set(month, b);
+        return b;
+      },
+    };
   }
 
   /** The values of a month bucket, for the percentile method (one sorted set per field). */
@@ -586,6 +601,12 @@ export class RedisStore implements ComponentStore, GroupLedger {
       }),
     );
   }
+}
+
+/** A component's own shares of its group's month buckets (RedisStore.ownShares). */
+interface OwnShares {
+  months(): Iterable<string>;
+  bucket(month: string): MonthBucket;
 }
 
 interface RegistryHead {
