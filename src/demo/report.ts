@@ -69,7 +69,10 @@ export function formatReport(r: DemoReport, outDir: string): string[] {
   lines.push(`  Escalated          ${escalated.length === 0 ? 'nothing' : escalated.map((i) => `${i.unit} ${i.component} to tier ${i.highestTierTold}${i.acknowledgedBy ? ' (before it was acknowledged)' : ' (never acknowledged)'}`).join('; ')}`);
 
   lines.push('', 'How the demo plays the feed');
-  lines.push(`  Dates: the fleet's dates are moved ${Math.abs(r.shiftDays)} days ${r.shiftDays <= 0 ? 'back' : 'forward'} so that its last report arrived yesterday (samples ${r.samplePeriod.from.slice(0, 10)} … ${r.samplePeriod.to.slice(0, 10)}).`);
+  lines.push(
+    `  Dates: the fleet's calendar is moved ${Math.abs(r.shiftMonths)} month${Math.abs(r.shiftMonths) === 1 ? '' : 's'} ${r.shiftMonths <= 0 ? 'back' : 'forward'} so that its last report arrived within the last month (samples ${r.samplePeriod.from.slice(0, 10)} … ${r.samplePeriod.to.slice(0, 10)});`,
+  );
+  lines.push("    each date keeps its place within its month, so every run tells the same story (the group's statistics go by calendar month).");
   lines.push(`  Backfill: findings on samples older than backfill.quietAfterDays page nobody. Every demo sample is old by the time it is`);
   lines.push(`  fed, so demo/config.yaml sets quietAfterDays: ${r.quietAfterDays} and each report is treated as if it had just arrived. A real site keeps 30.`);
   lines.push(`  Escalation tiers are seconds apart here (0.1 and 0.2 minutes); a real policy waits hours.`);

@@ -81,7 +81,7 @@ export interface DemoReport {
   readonly redis: 'embedded' | 'REDIS_URL';
   readonly prefix: string;
   readonly apiUrl: string;
-  readonly shiftDays: number;
+  readonly shiftMonths: number;
   readonly quietAfterDays: number;
   readonly samplePeriod: { readonly from: string; readonly to: string };
   readonly resultsSent: number;
@@ -221,7 +221,7 @@ export async function runDemo(options: DemoOptions): Promise<DemoRun> {
       redis: redis === undefined ? 'REDIS_URL' : 'embedded',
       prefix,
       apiUrl,
-      shiftDays: plan.shiftDays,
+      shiftMonths: plan.shiftMonths,
       quietAfterDays: config.backfill.quietAfterDays,
       samplePeriod: { from: plan.firstSampledAt, to: plan.lastSampledAt },
       resultsSent: plan.results.length,

@@ -1,8 +1,11 @@
 /**
  * The demo's headline: for each component, when each rule family first spoke (by sample date), and how many
- * samples earlier than the fixed limit the first upward change was seen.
+ * samples earlier than the fixed limit the first upward change opened or escalated an incident. Advisory findings
+ * (the group limits by default) are listed but do not count as caught: they page nobody, and where the group's
+ * statistics of a month cross their limit depends on where the month boundaries fall in the fleet's calendar, which
+ * the demo moves to end the day before each run.
  */
-import { RULE_FAMILY_LABELS, type Finding, type RuleFamily, type Severity } from '../domain/finding.ts';
+import { RULE_FAMILY_LABELS, type Disposition, type Finding, type RuleFamily, type Severity } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
 import type { StepRecord } from '../pipeline/ports.ts';
 
@@ -11,6 +14,8 @@ export interface FirstFinding {
   readonly measurand: Measurand;
   readonly severity: Severity;
   readonly direction?: 'up' | 'down';
+  /** Whether the finding opens or escalates an incident ('incident') or only informs ('advisory'). */
+  readonly disposition: Disposition;
   readonly sampleId: string;
   readonly sampledAt: string;
 }
@@ -26,7 +31,10 @@ export interface ComponentTimeline {
   readonly firsts: readonly FirstFinding[];
   /** The first finding of the fixed-limit family. */
   readonly fixedLimit?: FirstFinding;
-  /** The first rise (not a fall: a fall in wear rate points to a sampling fault) of the episode that reached the fixed limit. */
+  /**
+   * The first rise (not a fall: a fall in wear rate points to a sampling fault) of the episode that reached the fixed
+   * limit that opened or escalated an incident (not an advisory).
+   */
   readonly earliest?: FirstFinding;
   /** Samples from the earliest finding up to (not including) the fixed limit's sample. */
   readonly samplesAhead?: number;
@@ -74,7 +82,7 @@ export function componentTimeline(input: TimelineInput): ComponentTimeline {
   const episode = steps.filter((st) => byDate(st, from) >= 0);
   const firsts = firstsOf(episode);
   const fixedLimit = firsts.find((f) => f.rule === 'limit')!;
-  const earliest = firsts.find((f) => f.direction !== 'down') ?? fixedLimit;
+  const earliest = firstIncidentRise(episode) ?? fixedLimit;
   const samplesAhead = samples.filter((s) => byDate(s, earliest) >= 0 && byDate(s, fixedLimit) < 0).length;
   const daysAhead = Math.round((Date.parse(fixedLimit.sampledAt) - Date.parse(earliest.sampledAt)) / 86_400_000);
   return { ...base, firsts, fixedLimit, earliest, samplesAhead, daysAhead };
@@ -91,16 +99,36 @@ function firstsOf(steps: readonly StepRecord[]): FirstFinding[] {
   return [...firsts.values()].sort(byDate);
 }
 
+/** The first rising finding, in sample order, that opens or escalates an incident. */
+function firstIncidentRise(steps: readonly StepRecord[]): FirstFinding | undefined {
+  for (const step of steps) {
+    const f = step.findings.find((x) => x.direction !== 'down' && x.disposition === 'incident' && x.rule !== 'sampling');
+    if (f !== undefined) return firstOf(f, step);
+  }
+  return undefined;
+}
+
 function firstOf(f: Finding, step: StepRecord): FirstFinding {
-  return { rule: f.rule, measurand: f.measurand, severity: f.severity, ...(f.direction && { direction: f.direction }), sampleId: step.sampleId, sampledAt: step.sampledAt };
+  return {
+    rule: f.rule,
+    measurand: f.measurand,
+    severity: f.severity,
+    ...(f.direction && { direction: f.direction }),
+    disposition: f.disposition,
+    sampleId: step.sampleId,
+    sampledAt: step.sampledAt,
+  };
 }
 
 const RULE_LABEL: Record<RuleFamily, string> = RULE_FAMILY_LABELS;
 
-/** e.g. "Fe cusum watch 2026-04-10 · Fe rate caution 2026-06-19 · Fe fixed limit caution 2026-06-30 → caught 8 samples (81 days) before the fixed limit" */
+/**
+ * e.g. "Fe group limit caution (advisory) 2026-03-17 · Fe CUSUM watch 2026-03-25 · Fe rate limit caution 2026-05-26 ·
+ * Fe fixed limit caution 2026-06-06 → caught 7 samples (72 days) before the fixed limit"
+ */
 export function formatTimeline(t: ComponentTimeline): string {
   if (t.firsts.length === 0) return 'no findings';
-  const parts = t.firsts.map((f) => `${f.measurand} ${RULE_LABEL[f.rule]}${f.direction === 'down' ? ' (fall)' : ''} ${f.severity} ${f.sampledAt.slice(0, 10)}`);
+  const parts = t.firsts.map((f) => `${f.measurand} ${RULE_LABEL[f.rule]}${f.direction === 'down' ? ' (fall)' : ''} ${f.severity}${f.disposition === 'advisory' ? ' (advisory)' : ''} ${f.sampledAt.slice(0, 10)}`);
   return `${parts.join(' · ')}${verdict(t)}`;
 }
 
