@@ -1,9 +1,9 @@
 /**
  * The demo's headline: for each component, when each rule family first spoke (by sample date), and how many
  * samples earlier than the fixed limit the first upward change opened or escalated an incident. Advisory findings
- * (the group limits by default) are listed but do not count as caught: they page nobody, and where the group's
- * statistics of a month cross their limit depends on where the month boundaries fall in the fleet's calendar, which
- * the demo moves to end the day before each run.
+ * (the group limits by default) are listed but do not count as caught: they page nobody, and where a group limit
+ * is first crossed depends on where the month boundaries fall in the fleet's calendar (the group's statistics are
+ * taken as of each sample's month).
  */
 import { RULE_FAMILY_LABELS, type Disposition, type Finding, type RuleFamily, type Severity } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
