@@ -245,7 +245,7 @@ function annunciateOne(inc: DraftIncident, work: Work): void {
     announce(inc, work, 'wearshift.incident.opened', announcementReason(inc, 'wearshift.incident.opened'), true);
   } else if (inc.alarm === 'active' && (inc.lastLive || shelvingEnded)) {
     const news = newEvidence(inc);
-    if (news !== null) announce(inc, work, 'wearshift.incident.updated', `new evidence: ${news}`, ackWithdrawn || shelvingEnded);
+    if (news !== null) announce(inc, work, 'wearshift.incident.updated', `new evidence: ${news}${ackWithdrawn ? '; acknowledgement withdrawn, acknowledge again' : ''}`, ackWithdrawn || shelvingEnded);
     else if (ackWithdrawn) {
       // Evidence beyond what was acknowledged, though not beyond what was ever announced (the severity fell before the
       // acknowledgement and rose again): the acknowledgement is withdrawn, so the chain starts again — an

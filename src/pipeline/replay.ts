@@ -21,7 +21,8 @@ export type FindingLine = { readonly type: 'finding'; readonly quiet: boolean } 
 
 /**
  * One timeline entry of an incident, flat: the entry's own fields, its kind as `change`, and the incident's state and
- * severity after the evaluation as `incidentState` and `incidentSeverity`.
+ * severity after the evaluation as `incidentState` and `incidentSeverity`. A `notified` entry's message type
+ * (`wearshift.incident.opened`, ...) is `event`.
  */
 export type IncidentLine = {
   readonly type: 'incident';
@@ -32,6 +33,8 @@ export type IncidentLine = {
   readonly change: TimelineEntry['kind'] | NotifiedEntry['kind'];
   /** For a `finding` entry: raised, severity-changed or cleared. */
   readonly findingChange?: 'raised' | 'severity-changed' | 'cleared';
+  /** For a `notified` entry: the message's event type, e.g. `wearshift.incident.opened`. */
+  readonly event?: string;
   readonly incidentState: string;
   readonly incidentSeverity: string;
 } & Record<string, unknown>;
@@ -97,7 +100,9 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
         for (const f of changedFindings(step, printed)) keyed.push({ key: Date.parse(f.sampledAt), line: { type: 'finding', ...f, quiet: Date.parse(f.sampledAt) < quietBefore } });
       }
       for (const c of result.changes) {
-        const { kind, ...entry } = c.entry;
+        // A notified entry's own `type` (the message's event type) travels as `event`: `type` names the line.
+        const { kind, ...withType } = c.entry;
+        const { type: event, ...entry } = withType as typeof withType & { type?: string };
         keyed.push({
           key,
           line: {
@@ -106,6 +111,7 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
             unit: c.unit,
             component: c.component,
             ...entry,
+            ...(event !== undefined && { event }),
             // A finding entry has a `change` of its own (raised, severity-changed, cleared): it moves aside for the kind.
             ...('change' in entry && { findingChange: entry.change }),
             change: kind,

@@ -69,6 +69,8 @@ describe('wearshift backtest', { timeout: 600_000 }, () => {
       const replay = await runCli(['replay', file('fleet.jsonl'), '--config', file('config.yaml'), '--json', ...NOW]);
       expect(replay.code).toBe(0);
       const lines = replay.stdout.trim().split('\n').map((l) => JSON.parse(l) as { type: string; incidentId?: string; change?: string; sampleId?: string; rule?: string });
+      // Every line says what it is by `type`, as README's Replay section lists them.
+      expect(new Set(lines.map((l) => l.type))).toEqual(new Set(['finding', 'incident', 'verdict', 'readiness']));
       const opened = lines.filter((l) => l.type === 'incident' && l.change === 'opened').map((l) => l.incidentId).sort();
       expect(summary.runs[0]!.episodes.map((e) => e.incidentId).sort()).toEqual(opened);
       const flagged = new Map<string, Set<string>>();

@@ -99,6 +99,10 @@ describe('the live worker, replay and backtest', () => {
       const replayed = await runCli(['replay', file, '--config', configFile, '--json'], env, 300_000);
       expect(replayed.code).toBe(0);
       const lines = replayed.stdout.trim().split('\n').map((l) => JSON.parse(l) as { type: string } & Record<string, unknown>);
+      // A message the annunciation sent is an incident line like the others, its event type beside it.
+      const notified = lines.filter((l) => l.change === 'notified');
+      expect(notified.length).toBeGreaterThan(0);
+      for (const l of notified) expect(l).toMatchObject({ type: 'incident', event: expect.stringMatching(/^wearshift\.incident\.[a-z]+$/) });
       const verdicts = (lines.filter((l) => l.type === 'verdict') as unknown as VerdictLine[])
         .map(({ incidentId, state, peakSeverity, openedAt, lastSampledAt, closed }) => ({ incidentId, state, peakSeverity, openedAt, lastSampledAt, closed }))
         .sort((a, b) => (a.incidentId < b.incidentId ? -1 : 1));

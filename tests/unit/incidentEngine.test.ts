@@ -164,6 +164,8 @@ describe('incident life cycle', () => {
     expect(only(state).acknowledged).toBeNull();
     expect(only(state).timeline.some((t) => t.kind === 'unacknowledged')).toBe(true);
     expect(notifies(news.effects).map((e) => e.type)).toEqual(['wearshift.incident.updated', 'wearshift.incident.updated']);
+    // The message says that the acknowledgement no longer holds, not only what is new.
+    for (const n of notifies(news.effects)) expect(n.incident.reason).toMatch(/^new evidence: Pb joined.*; acknowledgement withdrawn, acknowledge again$/);
     expect(news.effects.some((e) => e.kind === 'schedule-escalation' && e.tier === 1)).toBe(true);
   });
 

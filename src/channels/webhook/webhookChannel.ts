@@ -17,7 +17,7 @@ export const webhookChannel: ChannelDefinition = {
         if (disabled !== undefined) return `webhook ${c.name}: not sent, the endpoint is disabled (${disabled})`;
         const endpoint = { url: c.url, secrets: c.secrets.map((s) => secretFrom(s, env, `channels.webhooks ${c.name}`)), timeoutMs: c.timeoutMs };
         const result = await deliverWebhook(endpoint, toCloudEvent(message, { time: effect.at }), { now: new Date(), attempt });
-        const what = `webhook ${c.name}: ${result.status ?? result.error ?? 'no response'}`;
+        const what = `webhook ${c.name}: ${result.error ?? result.status ?? 'no response'}`;
         switch (result.outcome) {
           case 'delivered':
             return what;
@@ -36,7 +36,7 @@ export const webhookChannel: ChannelDefinition = {
         const endpoint = { url: c.url, secrets: c.secrets.map((x) => secretFrom(x, env, `channels.webhooks ${c.name}`)), timeoutMs: c.timeoutMs };
         // The delivery signs and posts any CloudEvent; only its id and body are read.
         const result = await deliverWebhook(endpoint, floodSummaryEvent(s, window) as unknown as IncidentCloudEvent, { now: new Date(), attempt });
-        const what = `flood summary by webhook ${c.name}: ${result.status ?? result.error ?? 'no response'}`;
+        const what = `flood summary by webhook ${c.name}: ${result.error ?? result.status ?? 'no response'}`;
         if (result.outcome === 'delivered') return what;
         if (result.outcome === 'retry') throw new DeliveryRetry(what, result.retryAfterMs);
         throw new DeliveryRefused(what);
