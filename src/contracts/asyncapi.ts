@@ -6,7 +6,7 @@
  */
 import { z } from 'zod';
 import { API_VERSION } from './openapi.ts';
-import { IncidentCloudEventSchema, WebhookHeadersSchema } from './eventSchemas.ts';
+import { FloodSummaryCloudEventSchema, IncidentCloudEventSchema, WebhookHeadersSchema } from './eventSchemas.ts';
 
 type Json = Record<string, unknown>;
 
@@ -19,13 +19,14 @@ export const DEFAULT_MQTT_TOPIC = 'plant/{unit}/{component}/oil';
 
 export function asyncApiDocument(): Json {
   const message = { $ref: '#/components/messages/incidentEvent' };
+  const summary = { $ref: '#/components/messages/floodSummary' };
   return {
     asyncapi: '3.0.0',
     info: {
       title: 'wearshift incident events',
       version: API_VERSION,
       description:
-        'Incident changes (opened, updated, escalated, acknowledged, returned, closed) as CloudEvents 1.0 in structured JSON mode. Receivers de-duplicate on source + id; a retry carries the same bytes. wearshift advises: the laboratory\u2019s diagnosis, the equipment maker\u2019s limits, local codes and licensed practice decide.',
+        'Incident changes (opened, updated, escalated, acknowledged, returned, closed), and the summary that ends an alarm flood\u2019s window, as CloudEvents 1.0 in structured JSON mode. Receivers de-duplicate on source + id; a retry carries the same bytes. wearshift advises: the laboratory\u2019s diagnosis, the equipment maker\u2019s limits, local codes and licensed practice decide.',
     },
     defaultContentType: 'application/cloudevents+json',
     servers: {
@@ -38,7 +39,7 @@ export function asyncApiDocument(): Json {
         title: 'Webhook endpoint',
         description: 'POST to the configured URL. 2xx is delivered; 410 disables the endpoint; 429 and 503 are retried after Retry-After; other 5xx, timeouts and network errors are retried with exponential backoff.',
         servers: [{ $ref: '#/servers/webhookReceiver' }],
-        messages: { incidentEvent: message },
+        messages: { incidentEvent: message, floodSummary: summary },
         bindings: { http: { bindingVersion: '0.3.0' } },
       },
       mqtt: {
@@ -47,20 +48,20 @@ export function asyncApiDocument(): Json {
         description: 'The topic template of channels.mqtt[].topic (placeholders {unit}, {component}, {group}, percent-encoded so that they add no level or wildcard).',
         servers: [{ $ref: '#/servers/mqttBroker' }],
         parameters: { unit: { description: 'The unit, percent-encoded.' }, component: { description: 'The component, percent-encoded.' } },
-        messages: { incidentEvent: message },
+        messages: { incidentEvent: message, floodSummary: summary },
       },
     },
     operations: {
       sendWebhook: {
         action: 'send',
         channel: { $ref: '#/channels/webhook' },
-        messages: [{ $ref: '#/channels/webhook/messages/incidentEvent' }],
+        messages: [{ $ref: '#/channels/webhook/messages/incidentEvent' }, { $ref: '#/channels/webhook/messages/floodSummary' }],
         bindings: { http: { method: 'POST', bindingVersion: '0.3.0' } },
       },
       publishMqtt: {
         action: 'send',
         channel: { $ref: '#/channels/mqtt' },
-        messages: [{ $ref: '#/channels/mqtt/messages/incidentEvent' }],
+        messages: [{ $ref: '#/channels/mqtt/messages/incidentEvent' }, { $ref: '#/channels/mqtt/messages/floodSummary' }],
         bindings: { mqtt: { qos: 1, retain: false, bindingVersion: '0.2.0' } },
       },
     },
@@ -73,8 +74,17 @@ export function asyncApiDocument(): Json {
           headers: { ...schemaOf(WebhookHeadersSchema), description: 'Standard Webhooks headers (webhooks only; MQTT carries the event alone).' },
           payload: { $ref: '#/components/schemas/IncidentCloudEvent' },
         },
+        floodSummary: {
+          name: 'floodSummary',
+          title: 'Alarm-flood summary',
+          summary:
+            'At the end of a window in which a target was sent channels.floodControl.maxMessages messages: every incident message held back, in one event. On MQTT it goes to the topic template with unit "wearshift" and component "flood-summary" (by default plant/wearshift/flood-summary/oil).',
+          contentType: 'application/cloudevents+json',
+          headers: { ...schemaOf(WebhookHeadersSchema), description: 'Standard Webhooks headers (webhooks only; MQTT carries the event alone).' },
+          payload: { $ref: '#/components/schemas/FloodSummaryCloudEvent' },
+        },
       },
-      schemas: { IncidentCloudEvent: schemaOf(IncidentCloudEventSchema) },
+      schemas: { IncidentCloudEvent: schemaOf(IncidentCloudEventSchema), FloodSummaryCloudEvent: schemaOf(FloodSummaryCloudEventSchema) },
     },
   };
 }

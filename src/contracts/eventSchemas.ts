@@ -3,6 +3,7 @@
  * structured JSON mode around the incident message (src/notify/message.ts, src/notify/cloudEvent.ts).
  */
 import { z } from 'zod';
+import { CHANNEL_KINDS } from '../domain/escalationConfig.ts';
 import { SEVERITIES } from '../domain/finding.ts';
 import { INCIDENT_MESSAGE_TYPES } from '../notify/message.ts';
 
@@ -83,6 +84,45 @@ export const IncidentCloudEventSchema = z
     datacontenttype: z.literal('application/json'),
     subject: z.string().describe('The incident id.'),
     data: IncidentMessageSchema,
+  })
+  .strict();
+
+/** The summary that ends an alarm flood's window (src/notify/floodControl.ts, `floodSummaryEvent`). */
+export const FloodSummaryCloudEventSchema = z
+  .object({
+    specversion: z.literal('1.0'),
+    id: z.string().min(1).describe('flood-summary-<key of target and window>: receivers de-duplicate on source + id.'),
+    source: z.literal('/wearshift/flood-control'),
+    type: z.literal('wearshift.incidents.flood-summary'),
+    time: isoTime.describe('The end of the window.'),
+    datacontenttype: z.literal('application/json'),
+    subject: z.string().describe('The target: a webhook or MQTT channel name.'),
+    data: z
+      .object({
+        headline: z.string().describe('One line: how many messages on how many components were held back.'),
+        channel: z.enum(CHANNEL_KINDS),
+        target: z.string(),
+        window: z.object({ from: isoTime, until: isoTime }).strict(),
+        maxMessages: z.number().int().positive().describe('Messages per target and window (channels.floodControl.maxMessages).'),
+        held: z
+          .array(
+            z
+              .object({
+                incidentId: z.string(),
+                unit: z.string(),
+                component: z.string(),
+                severity: z.enum(SEVERITIES),
+                type: z.enum(INCIDENT_MESSAGE_TYPES),
+                url: z.string().describe('The incident page on the board.'),
+                at: isoTime,
+              })
+              .strict(),
+          )
+          .min(1)
+          .describe('Every message held back, most severe first, then in time order.'),
+        caution: z.string().describe('The tool advises; the lab, the equipment maker, local codes and licensed practice decide.'),
+      })
+      .strict(),
   })
   .strict();
 

@@ -102,7 +102,7 @@ export function openApiDocument(): Json {
       '/v1/incidents': {
         get: {
           operationId: 'listIncidents',
-          summary: 'Incidents, most severe and oldest first.',
+          summary: 'Incidents: open ones most severe first, then the most recently opened; closed ones the most recently closed first.',
           tags: ['incidents'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
           parameters: queryParameters(IncidentFilterSchema),

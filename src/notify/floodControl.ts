@@ -8,6 +8,7 @@
 import { createHash } from 'node:crypto';
 import type { IncidentMessage, IncidentMessageType, MessageSeverity } from './message.ts';
 import { ADVISORY_CAUTION } from '../domain/caution.ts';
+import type { ChannelKind } from '../domain/escalationConfig.ts';
 
 export interface FloodControlSettings {
   /** Messages per target per window. Default 10. */
@@ -29,7 +30,7 @@ export interface HeldMessage {
 
 /** Where the message would have gone: the channel and its target. */
 export interface FloodTarget {
-  readonly channel: 'email' | 'webhook' | 'mqtt';
+  readonly channel: ChannelKind;
   readonly target: string;
 }
 

@@ -25,6 +25,7 @@ import type { Step } from '../../src/analysis/model.ts';
 import { ADVISORY_CAUTION } from '../../src/domain/caution.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import { asyncApiDocument } from '../../src/contracts/asyncapi.ts';
+import { floodSummaryEvent, floodWindow } from '../../src/notify/floodControl.ts';
 import { openApiDocument } from '../../src/contracts/openapi.ts';
 import { buildServer, type WearshiftServer } from '../../src/http/server.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
@@ -360,5 +361,27 @@ describe('real deliveries match the AsyncAPI document', () => {
     }
     // Not a rubber stamp: a message with an unknown event type is refused.
     expect(ajv.compile(payloadSchema)({ ...event, type: 'wearshift.incident.exploded' })).toBe(false);
+  });
+
+  it('the alarm-flood summary as webhooks and MQTT carry it', () => {
+    const summarySchema = asyncapi.components.schemas.FloodSummaryCloudEvent as Json;
+    const held = (['caution', 'alarm'] as const).map((severity, i) => ({
+      incidentId: `PS7-P${i + 1}/gearbox@C-20${i}`,
+      unit: `PS7-P${i + 1}`,
+      component: 'gearbox',
+      severity,
+      type: 'opened' as const,
+      url: `http://127.0.0.1:8080/incidents/PS7-P${i + 1}%2Fgearbox%40C-20${i}`,
+      at: new Date(NOW.getTime() + i * 60_000).toISOString(),
+    }));
+    const window = floodWindow(NOW.getTime(), { maxMessages: 10, windowMinutes: 10 });
+    const event = floodSummaryEvent({ channel: 'webhook', target: 'plant-events', window: { from: new Date(window.startsAt).toISOString(), until: new Date(window.endsAt).toISOString() }, maxMessages: 10, held }, window.index);
+    expectValid(summarySchema, JSON.parse(JSON.stringify(event)), 'the flood summary');
+    expect(event.data.held.map((h) => h.severity)).toEqual(['alarm', 'caution']);
+    expect(event.data.caution).toBe(ADVISORY_CAUTION);
+    expect(ajv.compile(summarySchema)({ ...event, data: { ...event.data, held: [] } })).toBe(false);
+    // Both channels list it beside the incident events.
+    expect(Object.keys(asyncapi.channels.webhook.messages)).toEqual(['incidentEvent', 'floodSummary']);
+    expect(Object.keys(asyncapi.channels.mqtt.messages)).toEqual(['incidentEvent', 'floodSummary']);
   });
 });
