@@ -53,4 +53,9 @@ export interface ChannelDefinition {
   configured(channels: Channels): boolean;
   /** Opens the channel for the configuration (no connection is made before the first delivery). */
   open(channels: Channels, context: ChannelContext): Channel;
+  /**
+   * The configuration's references to this channel's secrets (names of environment variables, or `whsec_` values),
+   * so that every log line is scrubbed of them (src/telemetry/redactText.ts).
+   */
+  secretRefs(channels: Channels): readonly string[];
 }

@@ -14,6 +14,11 @@ export const CHANNELS = {
   mqtt: mqttChannel,
 } as const satisfies Record<ChannelKind, ChannelDefinition>;
 
+/** Every channel's secret references in the configuration (for the log's scrubbing). */
+export function channelSecretRefs(channels: Channels): string[] {
+  return CHANNEL_KINDS.flatMap((kind) => [...CHANNELS[kind].secretRefs(channels)]);
+}
+
 /** The kinds the configuration names targets for; without any, no notify worker is started. */
 export function configuredChannels(channels: Channels): ChannelKind[] {
   return CHANNEL_KINDS.filter((kind) => CHANNELS[kind].configured(channels));

@@ -3,6 +3,7 @@ import { availableParallelism } from 'node:os';
 import { loadConfig } from './loadConfig.ts';
 import { InputError } from '../domain/errors.ts';
 import type { Config } from '../domain/config.ts';
+import { channelSecretRefs } from '../channels/registry.ts';
 import { createLogger, type Logger } from '../telemetry/logger.ts';
 import { secretsFromEnv, secretsOfConfig } from '../telemetry/redactText.ts';
 import { DEFAULT_PORT, startServices } from './services.ts';
@@ -38,7 +39,7 @@ export function portNumber(raw: string, what: string): number {
 
 /** The logger of a service: every line scrubbed of the API tokens and of the passwords and secrets the configuration names. */
 export function serviceLogger(kind: ServiceKind, config: Config, env: NodeJS.ProcessEnv, destination?: NodeJS.WritableStream): Logger {
-  return createLogger({ base: { role: kind }, secrets: [...secretsFromEnv(env), ...secretsOfConfig(config, env)], ...(destination !== undefined && { destination }) });
+  return createLogger({ base: { role: kind }, secrets: [...secretsFromEnv(env), ...secretsOfConfig(config, env, channelSecretRefs(config.channels))], ...(destination !== undefined && { destination }) });
 }
 
 export async function runService(kind: ServiceKind, opts: ServiceCommandOptions, env: NodeJS.ProcessEnv = process.env): Promise<void> {

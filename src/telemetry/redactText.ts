@@ -34,17 +34,15 @@ export function secretsFromEnv(env: NodeJS.ProcessEnv = process.env): string[] {
 }
 
 /**
- * The credentials a configuration refers to, for `redactText`'s `known`: the values of the environment variables it
- * names for the SMTP, MQTT and OPC UA passwords, the webhook signing secrets and the acknowledgement-link secret,
- * literal `whsec_` webhook secrets, and the password in the Redis URL.
+ * The credentials a configuration refers to, for `redactText`'s `known`: the values behind `channelRefs` (each
+ * notification channel's secret references, which its registration names: `channelSecretRefs` in
+ * src/channels/registry.ts — environment variable names, or literal `whsec_` webhook secrets), of the variables named
+ * for the OPC UA passwords and the acknowledgement-link secret, and the password in the Redis URL.
  */
-export function secretsOfConfig(config: Pick<Config, 'channels' | 'opcua' | 'redis'>, env: NodeJS.ProcessEnv = process.env): string[] {
-  const { email, webhooks, mqtt, ackLinks } = config.channels;
+export function secretsOfConfig(config: Pick<Config, 'channels' | 'opcua' | 'redis'>, env: NodeJS.ProcessEnv = process.env, channelRefs: readonly string[] = []): string[] {
   const refs = [
-    email?.smtp.passwordEnv,
-    ...webhooks.flatMap((w) => w.secrets),
-    ...mqtt.map((m) => m.passwordEnv),
-    ackLinks?.secretEnv,
+    ...channelRefs,
+    config.channels.ackLinks?.secretEnv,
     ...(config.opcua?.users ?? []).map((u) => u.passwordEnv),
   ].filter((r): r is string => r !== undefined);
   const values = refs.flatMap((r) => (r.startsWith('whsec_') ? [r] : (env[r] ?? '').split(',')));

@@ -21,6 +21,7 @@ function smtpTransport(smtp: Smtp, env: NodeJS.ProcessEnv) {
 }
 
 export const emailChannel: ChannelDefinition = {
+  secretRefs: (channels) => (channels.email?.smtp.passwordEnv === undefined ? [] : [channels.email.smtp.passwordEnv]),
   configured: (channels) => channels.email !== undefined,
   open(channels, { env, timeZone }) {
     return {

@@ -8,6 +8,7 @@ import { secretFrom } from '../secrets.ts';
 import { createMqttPublisher, type MqttPublisher } from './mqttPublisher.ts';
 
 export const mqttChannel: ChannelDefinition = {
+  secretRefs: (channels) => channels.mqtt.flatMap((m) => (m.passwordEnv === undefined ? [] : [m.passwordEnv])),
   configured: (channels) => channels.mqtt.length > 0,
   open(channels, { env, logger, mqttTimeoutMs }) {
     const publishers = new Map<string, MqttPublisher>();

@@ -7,6 +7,7 @@ import { secretFrom } from '../secrets.ts';
 import { deliverWebhook } from './webhookDelivery.ts';
 
 export const webhookChannel: ChannelDefinition = {
+  secretRefs: (channels) => channels.webhooks.flatMap((w) => w.secrets),
   configured: (channels) => channels.webhooks.length > 0,
   open(channels, { env, disabledEndpoints }) {
     return {
