@@ -403,4 +403,12 @@ table.bad-actors caption { text-align: left; font-weight: 600; padding: 4px 0; }
 #alarm-figures .pair { align-items: start; }
 #alarm-figures table { margin-bottom: 12px; }
 @media print { details.component { break-inside: avoid; } }
+/* On a phone: wide tables and the charts scroll sideways inside the page, which itself never does; a chart keeps a
+   size at which its labels can be read. */
+@media (max-width: 700px) {
+  body { overflow-wrap: anywhere; }
+  table { display: block; overflow-x: auto; max-width: 100%; }
+  figure.chart { overflow-x: auto; }
+  figure.chart svg { max-width: none; width: 640px; }
+}
 `;

@@ -32,7 +32,8 @@ function renderBoard(incidents) {
   for (const i of incidents) counts[i.severity] += 1;
   const summary = $('summary');
   summary.replaceChildren(
-    ...['alarm', 'caution', 'watch'].map((s) => el('span', {}, severityBadge(s), `: ${counts[s]}`)),
+    // Each part ends with a separator a screen reader reads (the live region is read out at every reload).
+    ...['alarm', 'caution', 'watch'].map((s) => el('span', {}, severityBadge(s), `: ${counts[s]}`, el('span', { class: 'visually-hidden', text: '; ' }))),
     el('span', { text: `${incidents.filter((i) => !i.acknowledged).length} waiting for acknowledgement` }),
   );
   $('empty').hidden = incidents.length > 0;

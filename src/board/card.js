@@ -1,6 +1,7 @@
 /*
  * An incident card, on the board and on the incident page: its severity, state, evidence and forecasts, the trend
- * of its leading measurand, and acknowledge / shelve / resolve with a note (enabled for a responder token only).
+ * of its leading measurand, and acknowledge / shelve (unshelve while shelved) / resolve with a note (enabled for a
+ * responder token only).
  */
 import { setStatus } from './cardStatus.js';
 import { loadChart } from './chart.js';
@@ -40,9 +41,10 @@ export function createCard(incident) {
   const buttons = {
     ack: el('button', { type: 'button', 'data-action': 'ack', text: 'Acknowledge' }),
     shelve: el('button', { type: 'button', 'data-action': 'shelve', text: 'Shelve' }),
+    unshelve: el('button', { type: 'button', 'data-action': 'unshelve', text: 'Unshelve', hidden: true }),
     resolve: el('button', { type: 'button', 'data-action': 'resolve', text: 'Resolve' }),
   };
-  const viewerNote = el('p', { class: 'hint', id: `${id}-why`, hidden: true, text: 'Acknowledge, shelve and resolve need a responder token; this token is a viewer token.' });
+  const viewerNote = el('p', { class: 'hint', id: `${id}-why`, hidden: true, text: 'Acknowledge, shelve, unshelve and resolve need a responder token; this token is a viewer token.' });
   // A sampling incident asks whoever takes samples, or the lab, whether the sample in doubt is genuine.
   const { verdicts, sampleQuestion, sampleRow } = createSampleVerdict();
   const actions = el(
@@ -50,7 +52,8 @@ export function createCard(incident) {
     { class: 'actions', role: 'group', 'aria-label': 'Respond' },
     el('label', { for: `${id}-note`, text: 'Note' }, el('span', { class: 'hint', text: ' (required to shelve or resolve)' })),
     note,
-    el('div', { class: 'action-row' }, buttons.ack, buttons.shelve, shelveFor, buttons.resolve),
+    // The duration comes before its button, so that a keyboard reaches the choice before the action.
+    el('div', { class: 'action-row' }, buttons.ack, shelveFor, buttons.shelve, buttons.unshelve, buttons.resolve),
     sampleRow,
     viewerNote,
     status,
@@ -81,9 +84,9 @@ export function updateCard(card, incident) {
   const forecasts = (incident.forecast ?? []).slice(0, 4);
   card.evidence.replaceChildren(
     ...shown.map((f) => el('li', { 'data-severity': f.severity }, el('strong', { text: `${f.measurand} · ${f.severity} · ${f.rule}: ` }), f.explanation)),
-    evidence.length > shown.length
-      ? el('li', { class: 'more' }, el('a', { href: incidentPagePath(incident.id), text: `${evidence.length - shown.length} more ${evidence.length - shown.length === 1 ? 'finding' : 'findings'} on the incident page` }))
-      : null,
+    ...(evidence.length > shown.length
+      ? [el('li', { class: 'more' }, el('a', { href: incidentPagePath(incident.id), text: `${evidence.length - shown.length} more ${evidence.length - shown.length === 1 ? 'finding' : 'findings'} on the incident page` }))]
+      : []),
     ...forecasts.map((f) => el('li', { class: 'forecast', 'data-forecast': f.outcome }, el('strong', { text: 'time to limit: ' }), f.text)),
     ...(forecasts.length > 0 ? [el('li', { class: 'forecast-caution', text: FORECAST_CAUTION })] : []),
   );
@@ -94,6 +97,14 @@ export function updateCard(card, incident) {
     else button.setAttribute('aria-describedby', card.viewerNote.id);
   }
   card.buttons.ack.disabled = !enabled || Boolean(incident.acknowledged);
+  // While shelved, the card offers to unshelve instead of shelving again; inputs follow the buttons.
+  const shelved = Boolean(incident.shelved) && !incident.closed;
+  card.buttons.shelve.hidden = shelved;
+  card.shelveFor.hidden = shelved;
+  card.buttons.unshelve.hidden = !shelved;
+  card.note.disabled = !canAct();
+  card.shelveFor.disabled = !enabled;
+  node.dataset.shelved = String(shelved);
   updateSampleVerdict(card, incident, enabled);
   card.viewerNote.hidden = canAct();
   // The chart follows the incident's latest sample; a new result redraws it.
@@ -136,6 +147,7 @@ async function act(card, action) {
   const by = session.name.trim() || 'board user';
   let body;
   if (action === 'ack') body = note === '' ? { by } : { by, note };
+  else if (action === 'unshelve') body = { by };
   else if (note === '') {
     setStatus(card, 'error', `Write a note first: ${action === 'shelve' ? 'the reason for shelving' : 'how it was resolved'}.`);
     card.note.focus();
@@ -148,7 +160,7 @@ async function act(card, action) {
     setStatus(card, 'error', problemText(result));
     return;
   }
-  const verb = { ack: 'Acknowledged', shelve: 'Shelved', resolve: 'Resolved' }[action];
+  const verb = { ack: 'Acknowledged', shelve: 'Shelved', unshelve: 'Unshelved', resolve: 'Resolved' }[action];
   card.note.value = '';
   setStatus(card, 'done', `${verb}.`);
   announce(`${verb}: ${card.incident.unit} / ${card.incident.component}.`);

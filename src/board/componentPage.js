@@ -6,7 +6,7 @@
 import { loadChart } from './chart.js';
 import { $, el } from './dom.js';
 import { formatTime } from './format.js';
-import { FORECAST_CAUTION, measurandsOf, severityBadge, stateWords, timelineText } from './incidentText.js';
+import { FORECAST_CAUTION, measurandsOf, mergedTimeline, severityBadge, stateWords, timelineText } from './incidentText.js';
 import { page } from './page.js';
 import { apiComponentPath, incidentPagePath, incidentPath } from './paths.js';
 import { api, problemText } from './session.js';
@@ -30,7 +30,14 @@ function renderReadiness(result) {
   const list = $('readiness');
   const rows = result.ok ? (result.body.readiness ?? []) : [];
   $('readiness-empty').hidden = rows.length > 0;
-  list.replaceChildren(...rows.map((r) => el('li', { 'data-measurand': r.measurand }, el('strong', { text: `${r.measurand}: ` }), r.summary)));
+  // The summary names its measurand first ("Fe: change detection …"): that name is set in bold, not repeated.
+  list.replaceChildren(
+    ...rows.map((r) => {
+      const lead = `${r.measurand}: `;
+      const rest = String(r.summary).startsWith(lead) ? String(r.summary).slice(lead.length) : r.summary;
+      return el('li', { 'data-measurand': r.measurand }, el('strong', { text: lead }), rest);
+    }),
+  );
 }
 
 function renderHistory(result) {
@@ -49,7 +56,7 @@ function renderHistory(result) {
         if (!details.open || timeline.childElementCount > 0) return;
         const full = await api(incidentPath(incident.id));
         if (!full.ok) return timeline.replaceChildren(el('li', { text: problemText(full) }));
-        timeline.replaceChildren(...full.body.incident.timeline.map((entry) => el('li', { text: timelineText(entry) })));
+        timeline.replaceChildren(...mergedTimeline(full.body.incident).map((entry) => el('li', { text: timelineText(entry) })));
       });
       return el(
         'li',

@@ -6,7 +6,7 @@
 import { cards, createCard, updateCard } from './card.js';
 import { loadChart } from './chart.js';
 import { $, el } from './dom.js';
-import { measurandsOf, severityWords, timelineText } from './incidentText.js';
+import { measurandsOf, mergedTimeline, severityWords, timelineText } from './incidentText.js';
 import { page } from './page.js';
 import { componentPath, incidentPath } from './paths.js';
 import { api, problemText } from './session.js';
@@ -35,7 +35,7 @@ export async function loadIncidentPage() {
   }
   updateCard(card, incident);
   card.node.dataset.closed = String(Boolean(incident.closed));
-  $('incident-timeline').replaceChildren(...incident.timeline.map((entry) => el('li', { text: timelineText(entry) })));
+  $('incident-timeline').replaceChildren(...mergedTimeline(incident).map((entry) => el('li', { text: timelineText(entry) })));
   const charts = $('incident-charts');
   const wanted = measurandsOf(incident);
   if (charts.dataset.measurands !== wanted.join(',')) {

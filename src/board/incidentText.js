@@ -49,20 +49,43 @@ export function measurandsOf(incident) {
   return seen;
 }
 
+/** The incident's timeline and the messages sent about it, in time order (the command line's `incidents show` too). */
+export function mergedTimeline(incident) {
+  const all = [...(incident.timeline ?? []), ...(incident.notifications ?? [])];
+  return all
+    .map((e, i) => ({ e, i, t: Date.parse(e.at) }))
+    .sort((a, b) => a.t - b.t || a.i - b.i)
+    .map((x) => x.e);
+}
+
 export function timelineText(entry) {
   const at = formatTime(entry.at);
+  const sample = entry.sampleId ? ` (sample ${entry.sampleId})` : '';
   switch (entry.kind) {
+    case 'opened':
+      return `${at}: opened at sample ${entry.sampleId}, ${entry.severity}`;
     case 'finding':
-      return `${at}: ${entry.measurand} ${entry.rule} ${entry.change.replace('-', ' ')} (${entry.severity})${entry.explanation ? ` — ${entry.explanation}` : ''}`;
+      return `${at}: ${entry.measurand} ${entry.rule} ${entry.change.replace('-', ' ')} (${entry.severity})${sample}${entry.explanation ? ` — ${entry.explanation}` : ''}`;
+    case 'returned':
+      return `${at}: returned to normal${sample}`;
+    case 'active-again':
+      return `${at}: ${entry.reopened ? 'reopened' : 'active again'}${sample}`;
     case 'acknowledged':
       return `${at}: acknowledged by ${entry.by}${entry.note ? ` — ${entry.note}` : ''}`;
+    case 'unacknowledged':
+      return `${at}: acknowledgement withdrawn — ${entry.reason}`;
     case 'shelved':
       return `${at}: shelved by ${entry.by} until ${formatTime(entry.until)} — ${entry.reason}`;
+    case 'unshelved':
+      return `${at}: ${entry.by ? `unshelved by ${entry.by}` : 'shelving ended'}`;
     case 'closed':
       return `${at}: closed (${entry.how})${entry.by ? ` by ${entry.by}` : ''}${entry.note ? ` — ${entry.note}` : ''}`;
-    case 'notified':
-      return `${at}: told tier ${entry.tier} (${entry.targets.length} recipients)`;
+    case 'notified': {
+      const what = String(entry.type ?? '').replace('wearshift.incident.', '');
+      const who = entry.targets.length > 0 ? `tier ${entry.tier}: ${entry.targets.join(', ')}` : 'nobody (no escalation policy names anyone for it)';
+      return `${at}: message "${what}" to ${who} — ${entry.reason}`;
+    }
     default:
-      return `${at}: ${entry.kind.replace('-', ' ')}${entry.by ? ` by ${entry.by}` : ''}${entry.note ? ` — ${entry.note}` : ''}`;
+      return `${at}: ${entry.kind.replace('-', ' ')}${entry.by ? ` by ${entry.by}` : ''}${entry.reason ? ` — ${entry.reason}` : ''}${entry.note ? ` — ${entry.note}` : ''}`;
   }
 }

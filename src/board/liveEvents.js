@@ -5,6 +5,7 @@
 /* global EventSource */
 import { cards, updateCard } from './card.js';
 import { $, announce } from './dom.js';
+import { formatTime } from './format.js';
 import { page, view } from './page.js';
 import { scheduleReload } from './reload.js';
 
@@ -30,7 +31,9 @@ export function connectEvents() {
     const event = JSON.parse(message.data);
     if (view === 'component' && (event.unit !== page.unit || event.component !== page.component)) return;
     if (view === 'incident' && event.incidentId !== undefined && event.incidentId !== page.incidentId) return;
-    announce(`Incident ${event.change}: ${event.unit} / ${event.component}, ${event.severity}, ${event.state}.`);
+    // The state may name a time ("shelved until …"): read out in the board's one time format.
+    const state = String(event.state ?? '').replace(/\d{4}-\d\d-\d\dT\d\d:\d\d(:\d\d(\.\d+)?)?Z/g, (t) => formatTime(t));
+    announce(`Incident ${event.change}: ${event.unit} / ${event.component}, ${event.severity}, ${state}.`);
     scheduleReload();
   });
   events.addEventListener('result', (message) => {

@@ -8,6 +8,7 @@ import type { Config } from '../domain/config.ts';
 import { describeState, type Incident } from '../incidents/model.ts';
 import type { IncidentRoutesStore } from './incidentRoutes.ts';
 import type { AckIncidentSummary } from '../notify/ackPage.ts';
+import { bySeverity } from '../notify/message.ts';
 import type { Logger } from '../telemetry/logger.ts';
 import type { Metrics } from '../telemetry/metrics.ts';
 import { componentInput } from '../render/componentInput.ts';
@@ -150,7 +151,8 @@ async function answers(ping: () => Promise<unknown>): Promise<boolean> {
 
 /** The incident as the acknowledgement pages show it. */
 export function ackSummary(incident: Incident, timeZone: string | undefined): AckIncidentSummary {
-  const latest = incident.evidence[0];
+  // Most severe first, as the board, e-mail and API list the evidence: the first one carries the incident's severity.
+  const latest = bySeverity(incident.evidence)[0];
   return {
     id: incident.id,
     unit: incident.unit,

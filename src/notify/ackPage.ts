@@ -71,7 +71,7 @@ export function renderAckPage(view: AckPageView): string {
     }
     case 'done':
       return page(`Incident ${view.incident.id} acknowledged`, [
-        `<p>Incident ${escapeHtml(oneLine(view.incident.id))} is acknowledged by ${escapeHtml(view.by)}. Escalation stops; the incident stays open until its readings return to normal and it is resolved.</p>`,
+        `<p>Incident ${escapeHtml(oneLine(view.incident.id))} is acknowledged by ${escapeHtml(view.by)}. Escalation stops. The incident closes by itself once its readings have returned to normal (or when a responder resolves it with a note).</p>`,
         describe(view.incident),
       ]);
     case 'already-acknowledged':

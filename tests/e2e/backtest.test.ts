@@ -114,6 +114,12 @@ describe('wearshift backtest', { timeout: 600_000 }, () => {
         await page.locator('details.component[open] > summary').first().click();
         await expect.poll(() => page.locator('details.component[open]').count(), { timeout: 120_000 }).toBe(withIncident - 1);
         expect(JSON.parse((await page.locator('#summary').textContent())!)).toEqual(summary);
+        // On a phone the page itself never scrolls sideways (wide tables and charts scroll inside it), and a chart
+        // keeps a size at which its labels can be read.
+        await page.setViewportSize({ width: 390, height: 844 });
+        await page.locator('details.component:not([open]) > summary').first().click();
+        expect(await page.evaluate('document.documentElement.scrollWidth')).toBeLessThanOrEqual(390);
+        expect((await page.locator('details.component[open] figure.chart svg').first().boundingBox())!.width).toBeGreaterThanOrEqual(600);
       } finally {
         await context.close();
         rmSync(profile, { recursive: true, force: true });

@@ -93,6 +93,8 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     const ranks = shown.map((s) => SEVERITY_RANK[s.severity!]!);
     expect([...ranks].sort((a, b) => b - a)).toEqual(ranks);
     // Severity in words and shape, not colour alone.
+    // No evidence line stands for nothing (a card with three findings or fewer has no "more" line).
+    expect(await page.locator('.incident .evidence li').allInnerTexts()).not.toContain('null');
     const first = cards.first();
     await poll(() => first.locator('.sev').first().innerText()).toMatch(/^[◇▲■]\s+(watch|caution|alarm)$/);
     await poll(() => first.locator('.state').innerText()).toMatch(/unacknowledged · waiting \d+ min/);
@@ -158,6 +160,13 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     expect(shelved.shelved).toMatchObject({ by: 'R. Tanaka', reason: 'Filter change booked for the next stop.' });
     const hours = (Date.parse(shelved.shelved.until) - Date.parse(shelved.shelved.at)) / 3_600_000;
     expect(hours).toBeCloseTo(8, 1);
+    // A shelved card offers to unshelve instead; a shelving made by mistake is undone from the page.
+    await poll(() => card.locator('button[data-action="unshelve"]').isVisible()).toBe(true);
+    expect(await card.locator('button[data-action="shelve"]').isHidden()).toBe(true);
+    await card.locator('button[data-action="unshelve"]').click();
+    await poll(() => card.locator('.state').innerText()).not.toMatch(/shelved until/);
+    expect((await api(`/v1/incidents/${encodeURIComponent(id)}`)).incident.shelved).toBeNull();
+    await poll(() => card.locator('button[data-action="shelve"]').isVisible()).toBe(true);
 
     await card.locator('textarea').fill('Filter replaced; bypass valve reseated.');
     await card.locator('button[data-action="resolve"]').click();

@@ -46,7 +46,7 @@ describe.skipIf(!HAVE_CHROMIUM)("following an incident e-mail's links in Chromiu
 
   const apiIncident = async (id: string) => {
     const response = await fixture.app.inject({ method: 'GET', url: `/v1/incidents/${encodeURIComponent(id)}`, headers: { authorization: `Bearer ${TOKENS.viewer}` } });
-    return response.json().incident as { id: string; severity: 'watch' | 'caution' | 'alarm'; peakSeverity: 'watch' | 'caution' | 'alarm'; openedAt: string; acknowledged: { by: string } | null };
+    return response.json().incident as { id: string; severity: 'watch' | 'caution' | 'alarm'; peakSeverity: 'watch' | 'caution' | 'alarm'; openedAt: string; acknowledged: { by: string } | null; timeline: unknown[]; notifications: unknown[] };
   };
 
   /** The line after `label` in the plain-text part: links stand alone on their line. */
@@ -151,6 +151,14 @@ describe.skipIf(!HAVE_CHROMIUM)("following an incident e-mail's links in Chromiu
     await card.locator('.chart svg[role="img"]').waitFor();
     expect(await card.locator('.chart svg').getAttribute('data-measurand')).toBe(measurand);
     await poll(() => page.locator('#incident-timeline li').count()).toBeGreaterThan(0);
+    // The timeline holds the verdict's entries and every message sent about the incident, in time order.
+    const timeline = await page.locator('#incident-timeline li').allInnerTexts();
+    expect(timeline.length).toBe(incident.timeline.length + incident.notifications.length);
+    expect(timeline.some((t) => /message "opened" to tier 0: email:/.test(t))).toBe(true);
+    const times = timeline.map((t) => t.slice(0, t.indexOf(': ')));
+    expect([...times].sort()).toEqual(times);
+    // Nothing stands in the evidence that is not a finding, a link to more, or a forecast.
+    expect(await card.locator('.evidence li').allInnerTexts()).not.toContain('null');
     expect(await page.locator('#incident-component').getAttribute('href')).toBe('/units/PS2-P3/components/gearbox');
     await page.locator('#incident-charts figure svg[role="img"]').first().waitFor();
     mkdirSync(OUT, { recursive: true });

@@ -432,3 +432,14 @@ describe('action errors', () => {
     expect(noted.incident.timeline.at(-1)).toMatchObject({ kind: 'note', note: 'lab confirmed' });
   });
 });
+
+describe('the acknowledgement page summary', () => {
+  it('names the most severe finding as what changed, as the board, e-mail and API list the evidence', async () => {
+    const { ackSummary } = await import('../../src/http/server.ts');
+    // The evidence as recorded lists the caution first; the alarm sets the incident's severity.
+    const state = feed(emptyComponentIncidents(UNIT, COMPONENT), step(1, finding('K', 'caution', 'limit'), finding('water', 'alarm', 'condition'))).state;
+    const incident = only(state);
+    expect(incident.severity).toBe('alarm');
+    expect(ackSummary(incident, 'UTC')).toMatchObject({ severity: 'alarm', whatChanged: 'water condition' });
+  });
+});
