@@ -20,6 +20,8 @@ export async function loadComponentPage() {
     api(`${apiComponentPath(page.unit, page.component)}/series`),
   ]);
   if (history.status === 401 || series.status === 401) return showSignIn('The token is no longer accepted; please sign in again.');
+  // A component nobody has sent results for: the problem alone, not an empty history beside it.
+  $('component-body').hidden = series.status === 404;
   renderHistory(history);
   renderReadiness(series);
   renderCharts(series);

@@ -17,11 +17,16 @@ export async function loadIncidentPage() {
   if (result.status === 401) return showSignIn('The token is no longer accepted; please sign in again.');
   const problem = $('incident-problem');
   if (!result.ok) {
+    // Nothing of an incident to show: no empty timeline or trends under the problem, no link to a component.
+    $('incident-body').hidden = true;
+    $('incident-component-crumb').hidden = true;
     problem.hidden = false;
     problem.textContent = result.status === 404 ? `No incident "${page.incidentId}" is known here.` : `The incident could not be loaded. ${problemText(result)}`;
     return;
   }
   problem.hidden = true;
+  $('incident-body').hidden = false;
+  $('incident-component-crumb').hidden = false;
   const incident = result.body.incident;
   $('view-title').textContent = `Incident on ${incident.unit} / ${incident.component}`;
   document.title = `${incident.unit} / ${incident.component}: ${severityWords(incident.severity, incident.peakSeverity)} · wearshift`;

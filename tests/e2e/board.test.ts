@@ -270,4 +270,15 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     await page.screenshot({ path: join(OUT, 'board-phone.png'), fullPage: true });
     expect(problems).toEqual([]);
   });
+
+  it('says plainly when an incident or a component is not known, with nothing empty beside it', async () => {
+    await page.setViewportSize({ width: 1280, height: 800 });
+    await page.goto(`${fixture.url}/incidents/${encodeURIComponent('NOPE/pump@X-1')}`);
+    await poll(() => page.locator('#incident-problem').innerText()).toBe('No incident "NOPE/pump@X-1" is known here.');
+    expect(await page.locator('#incident-body').isHidden()).toBe(true);
+    expect(await page.locator('#incident-component').isVisible()).toBe(false);
+    await page.goto(`${fixture.url}/units/NOPE/components/pump`);
+    await poll(() => page.locator('#series-note').innerText()).toMatch(/^No trends: /);
+    expect(await page.locator('#component-body').isHidden()).toBe(true);
+  });
 });
