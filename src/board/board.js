@@ -61,6 +61,8 @@ $('sign-in-form').addEventListener('submit', async (event) => {
   }
   $('token').value = '';
   await start();
+  // After signing in, the keyboard starts at the view's title instead of the top of the document.
+  $('view-title').focus();
 });
 $('sign-out').addEventListener('click', signOut);
 
