@@ -2,6 +2,7 @@
 import { escapeHtml, oneLine } from '../domain/safeText.ts';
 import { ADVISORY_CAUTION, severityWords } from './message.ts';
 import { formatTime, timeZoneNote } from './format.ts';
+import { SEVERITY_STYLE } from '../charts/severityStyle.ts';
 
 /** What the confirmation page tells about an incident; supplied by whoever stores incidents. */
 export interface AckIncidentSummary {
@@ -96,13 +97,16 @@ export function renderAckPage(view: AckPageView): string {
 function describe(inc: AckIncidentSummary): string {
   const rows: Array<[string, string]> = [
     ['Unit / component', `${oneLine(inc.unit)} / ${oneLine(inc.component)}`],
-    ['Severity', severityWords(inc.severity, inc.peakSeverity)],
+    // Shape and word, as the board and the charts show a severity: never colour alone.
+    ['Severity', `${SEVERITY_STYLE[inc.severity].glyph} ${severityWords(inc.severity, inc.peakSeverity)}`],
     ['State', oneLine(inc.state)],
     ['Open since', formatTime(inc.openedAt, inc.timeZone)],
   ];
   if (inc.whatChanged) rows.push(['What changed', oneLine(inc.whatChanged)]);
   if (inc.acknowledgedBy) rows.push(['Acknowledged by', oneLine(inc.acknowledgedBy)]);
-  return `<table>${rows.map(([k, v]) => `<tr><th>${escapeHtml(k)}</th><td>${escapeHtml(v)}</td></tr>`).join('')}</table>`;
+  // The board's page of the incident, relative to this link (/ack/<token>), so that it holds under any mount prefix.
+  const board = `<p><a href="../incidents/${escapeHtml(encodeURIComponent(inc.id))}">The incident on the board: its evidence, timeline and trends</a> (asks for a board token)</p>`;
+  return `<table>${rows.map(([k, v]) => `<tr><th>${escapeHtml(k)}</th><td>${escapeHtml(v)}</td></tr>`).join('')}</table>\n${board}`;
 }
 
 function page(title: string, body: string[]): string {
@@ -112,7 +116,7 @@ function page(title: string, body: string[]): string {
     '<meta name="viewport" content="width=device-width, initial-scale=1">',
     '<meta name="robots" content="noindex">',
     `<title>${escapeHtml(oneLine(title))} · wearshift</title>`,
-    '<style>body{font-family:sans-serif;line-height:1.4;max-width:40em;margin:2em auto;padding:0 1em}th{text-align:left;padding-right:1em;vertical-align:top}.quiet{color:#555}</style>',
+    '<style>body{font-family:sans-serif;line-height:1.4;max-width:40em;margin:2em auto;padding:0 1em}th{text-align:left;padding-right:1em;vertical-align:top}.quiet{color:#555}input,textarea{font:inherit;max-width:100%;box-sizing:border-box}button{font:inherit;min-height:44px;padding:.5em 1.5em}</style>',
     '</head><body>',
     `<h1>${escapeHtml(oneLine(title))}</h1>`,
     ...body.filter((b) => b !== ''),

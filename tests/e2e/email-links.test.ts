@@ -174,8 +174,9 @@ describe.skipIf(!HAVE_CHROMIUM)("following an incident e-mail's links in Chromiu
     await poll(() => page.locator('h1').textContent()).toContain('acknowledged');
     await poll(async () => (await apiIncident(effect.incidentId)).acknowledged?.by).toBe('K. Osei');
 
-    // Back to the board's page for the incident (the token stays in this tab).
-    await page.goto(`${fixture.url}/incidents/${encodeURIComponent(effect.incidentId)}`);
+    // Back to the board's page for the incident by the page's own link (the token stays in this tab).
+    await page.locator('a', { hasText: 'The incident on the board' }).click();
+    await page.waitForURL(`${fixture.url}/incidents/${encodeURIComponent(effect.incidentId)}`);
     const card = page.locator(`#incident-card .incident[data-incident="${effect.incidentId}"]`);
     await poll(() => card.getAttribute('data-acknowledged')).toBe('true');
     await poll(() => card.locator('.state').textContent()).toContain('by K. Osei');

@@ -66,6 +66,9 @@ describe('acknowledgement link pages', () => {
       expect(res.body).toContain('<form method="post">');
       expect(res.body).toContain('value="oncall@plant.example"');
       expect(res.body).toContain('2026-03-04T08:00Z');
+      // The severity by shape and word, and a way to the incident's page on the board (relative to the link).
+      expect(res.body).toMatch(/<td>[◇▲■] (watch|caution|alarm)/);
+      expect(res.body).toMatch(/<a href="\.\.\/incidents\/[^"]+">The incident on the board/);
     }
     const head = await app.inject({ method: 'HEAD', url: `/ack/${token()}` });
     expect(head.statusCode).toBe(200);
