@@ -36,7 +36,7 @@ import type { RedisConnection } from './connection.ts';
 import { changedIncidents } from './changedIncidents.ts';
 import { compactText, expandText } from './compactText.ts';
 import { COMMON_FIELD, componentKeys, groupKeys, partitionKeys, Partitions } from './keys.ts';
-import { ACQUIRE_WITH_INPUT, COMMIT_EVALUATION, MARK_DIRTY, MARK_SAMPLE, RELEASE_LOCK, RENEW_LOCK, SAMPLES_AFTER, STORE_SAMPLE } from './scripts.ts';
+import { ACQUIRE_WITH_INPUT, COMMIT_EVALUATION, MARK_DIRTY, MARK_SAMPLE, OWN_SHARES, RELEASE_LOCK, RENEW_LOCK, SAMPLES_AFTER, STORE_SAMPLE } from './scripts.ts';
 
 export type { RedisConnection };
 
@@ -115,7 +115,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
   readonly partitions: Partitions;
   private readonly findingsLogLimit: number;
   private readonly config: Config;
-  private readonly scripts: Record<'store' | 'acquireWithInput' | 'samplesAfter' | 'renew' | 'release' | 'commit' | 'markDirty' | 'markSample', ScriptCall>;
+  private readonly scripts: Record<'store' | 'acquireWithInput' | 'samplesAfter' | 'renew' | 'release' | 'commit' | 'markDirty' | 'markSample' | 'ownShares', ScriptCall>;
   /** Month buckets read before, by `partition|group|month` with the version they were read at. */
   private readonly bucketCache = new Map<string, { version: string; bucket: MonthBucket }>();
   /**
@@ -148,6 +148,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
       commit: define('commit', 11, COMMIT_EVALUATION),
       markDirty: define('markDirty', 1, MARK_DIRTY),
       markSample: define('markSample', 2, MARK_SAMPLE),
+      ownShares: define('ownShares', 2, OWN_SHARES),
     };
   }
 
@@ -464,11 +465,13 @@ export class RedisStore implements ComponentStore, GroupLedger {
     // shares were last committed to another group (they move, and the versions of this group with them, at its next
     // commit).
     const memoized = !keepValues && this.statsMemoLimit > 0 && (!withoutOwn || committedPrefix === groupKeys(this.tagOf(self), group).versions.slice(0, -2));
-    let own: Promise<OwnShares> | undefined;
+    let own: { readonly from: string; readonly shares: Promise<OwnShares> } | undefined;
+    const ordered = [...new Set(months)].sort();
+    const lastMonth = ordered.at(-1) ?? '';
     // Without the memo, the month before serves as the base of the next.
     let previous: { month: string; signature: string; sum: MonthBucket } | undefined;
     const out = new Map<string, GroupStats>();
-    for (const month of [...new Set(months)].sort()) {
+    for (const month of ordered) {
       const signature = signatureBefore(month);
       const kept = memoized ? this.statsMemo.get(memoKey) : undefined;
       if (kept !== undefined) {
@@ -511,8 +514,11 @@ export class RedisStore implements ComponentStore, GroupLedger {
         }),
       );
       if (withoutOwn) {
-        own ??= this.ownShares(selfKeys);
-        const shares = await own;
+        // The months this and the later months of the evaluation subtract: from the base on (a later month's base is
+        // never earlier), before the last month asked.
+        const from = base?.month ?? '';
+        if (own === undefined || from < own.from) own = { from, shares: this.ownShares(selfKeys, from, lastMonth) };
+        const shares = await own.shares;
         for (const m of shares.months()) if (wanted(m)) parts.push([shares.bucket(m), -1]);
       }
       if (this.bucketCache.size > 10_000) this.bucketCache.clear();
@@ -540,33 +546,28 @@ export class RedisStore implements ComponentStore, GroupLedger {
   }
 
   /**
-   * The component's own shares of its group's month buckets, by month: the population shares of its winners and its
-   * baseline entries (what its commits added to the buckets of the group it was last committed to). A month's shares
-   * are parsed when asked for: an evaluation subtracts those of the few months since its base, of a history of many.
+   * The component's own shares of its group's month buckets from month `from` ('' for all) up to, not including,
+   * `to`, by month: the population shares of its winners and its baseline entries (what its commits added to the
+   * buckets of the group it was last committed to), filtered by month in Redis (scripts.ts, OWN_SHARES). A month's
+   * shares are parsed when asked for.
    */
-  private async ownShares(c: ReturnType<typeof componentKeys>): Promise<OwnShares> {
-    const [winners, fields] = await Promise.all([this.redis.hgetall(c.winners), this.redis.hkeys(c.evaluation)]);
-    const blFields = fields.filter((f) => f.startsWith('bl|'));
-    const blValues = blFields.length === 0 ? [] : await this.redis.hmget(c.evaluation, ...blFields);
+  private async ownShares(c: ReturnType<typeof componentKeys>, from: string, to: string): Promise<OwnShares> {
+    const reply = (await this.scripts.ownShares(c.winners, c.evaluation, from, to)) as [number, ...string[]];
     // By month: the winners' population shares (`month;field=value,...`) and the baseline entries ([measurand, values]).
     const raw = new Map<string, { population: string[]; baselines: Array<[Measurand, string]> }>();
     const rawOf = (month: string) => raw.get(month) ?? raw.set(month, { population: [], baselines: [] }).get(month)!;
-    for (const winner of Object.values(winners)) {
-      // `revision|time|unitHours|share`: the share is what follows the third bar.
-      let bar = -1;
-      for (let i = 0; i < 3 && (bar = winner.indexOf('|', bar + 1)) >= 0; i++);
-      if (bar < 0) continue;
-      const share = winner.slice(bar + 1);
-      if (share === '') continue;
+    const populationEnd = 1 + reply[0];
+    for (let i = 1; i < populationEnd; i++) {
+      const share = reply[i] as string;
       const semi = share.indexOf(';');
       rawOf(share.slice(0, semi)).population.push(share.slice(semi + 1));
     }
-    blFields.forEach((field, i) => {
-      const entry = blValues[i];
-      if (entry === null || entry === undefined) return;
+    for (let i = populationEnd; i < reply.length; i += 2) {
+      const field = reply[i] as string;
+      const entry = reply[i + 1] as string;
       const semi = entry.indexOf(';');
       rawOf(entry.slice(0, semi)).baselines.push([field.slice(3) as Measurand, entry.slice(semi + 1)]);
-    });
+    }
     const parsed = new Map<string, MonthBucket>();
     return {
       months: () => raw.keys(),

@@ -161,6 +161,47 @@ end
 return out
 `;
 
+/**
+ * A component's own shares of its group's month buckets for the months from ARGV[1] ('' for all) up to, not
+ * including, ARGV[2] ('' for no end): its winners' population shares (`month;field=value,...`, what follows the third
+ * bar of a winner entry) and its baseline entries (`bl|measurand` → `month;values`). Filtered here by the month each
+ * share names, so that a reply carries the few months an evaluation subtracts rather than the whole history.
+ * KEYS: winners, evaluation. Returns {number of population shares, the shares, then baseline field and entry pairs}.
+ */
+export const OWN_SHARES = `
+local from, to = ARGV[1], ARGV[2]
+local function wanted(month)
+  return month >= from and (to == '' or month < to)
+end
+local out = { 0 }
+for _, winner in ipairs(redis.call('HVALS', KEYS[1])) do
+  local share = string.match(winner, '^[^|]*|[^|]*|[^|]*|(.*)$')
+  if share and share ~= '' then
+    local month = string.match(share, '^([^;]*);')
+    if month and wanted(month) then out[#out + 1] = share end
+  end
+end
+out[1] = #out - 1
+local fields = {}
+for _, f in ipairs(redis.call('HKEYS', KEYS[2])) do
+  if string.sub(f, 1, 3) == 'bl|' then fields[#fields + 1] = f end
+end
+if #fields > 0 then
+  local entries = redis.call('HMGET', KEYS[2], unpack(fields))
+  for i = 1, #fields do
+    local entry = entries[i]
+    if entry then
+      local month = string.match(entry, '^([^;]*);')
+      if month and wanted(month) then
+        out[#out + 1] = fields[i]
+        out[#out + 1] = entry
+      end
+    end
+  end
+end
+return out
+`;
+
 /** KEYS: evaluation. ARGV: position. Marks the component for evaluation from the position. */
 export const MARK_DIRTY = `${POSITION}
 mark_dirty(KEYS[1], ARGV[1])

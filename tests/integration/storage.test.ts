@@ -272,6 +272,41 @@ describe.each(implementations)('%s store', (_name, make) => {
     expect(await fe(u1)).toMatchObject({ n: 2, mean: 35 });
   });
 
+  it('takes out its own shares of exactly the months it is judged against, also of a sample a revision moved to another month', async () => {
+    const u1 = { unit: 'U-1', component: 'gearbox' };
+    const fe = (stats: Awaited<ReturnType<Store['asOf']>>) => stats.bands.Fe!.find((x) => x.fromHours === 0)!;
+    const own = [
+      sample({ unit: 'U-1', sampleId: 'A-1', sampledAt: '2025-01-05T00:00:00Z', oilHours: 100, readings: { Fe: 10 } }),
+      sample({ unit: 'U-1', sampleId: 'A-2', sampledAt: '2025-02-05T00:00:00Z', oilHours: 100, readings: { Fe: 12 } }),
+      sample({ unit: 'U-1', sampleId: 'A-3', sampledAt: '2025-03-05T00:00:00Z', oilHours: 100, readings: { Fe: 14 } }),
+    ];
+    const others = [
+      sample({ unit: 'U-2', sampleId: 'B-1', sampledAt: '2025-01-10T00:00:00Z', oilHours: 100, readings: { Fe: 100 } }),
+      sample({ unit: 'U-2', sampleId: 'B-2', sampledAt: '2025-02-10T00:00:00Z', oilHours: 100, readings: { Fe: 200 } }),
+    ];
+    for (const samples of [own, others]) {
+      for (const s of samples) await store.store(s, GROUP, 1);
+      const input = (await store.evaluationInput(samples[0]!))!;
+      const lease = (await store.acquire(samples[0]!, 10_000))!;
+      expect((await store.commit(samples[0]!, lease, commitOf(samples, input.mark))).ok).toBe(true);
+      await store.release(lease);
+    }
+    // Several months at once (one evaluation's samples span them): each from the other unit only.
+    const months = await store.asOfMonths(GROUP, ['2025-02', '2025-03', '2025-04'], u1);
+    expect([...months.keys()]).toEqual(['2025-02', '2025-03', '2025-04']);
+    expect(fe(months.get('2025-02')!)).toMatchObject({ n: 1, mean: 100 });
+    expect(fe(months.get('2025-03')!)).toMatchObject({ n: 2, mean: 150 });
+    expect(fe(months.get('2025-04')!)).toMatchObject({ n: 2, mean: 150 });
+    // A revision moves A-1 from January to March. Until the component's next commit its January share stays in the
+    // group's January bucket, and it is still its own: taken out, not counted as another unit's.
+    await store.store(sample({ unit: 'U-1', sampleId: 'A-1', revision: 2, sampledAt: '2025-03-20T00:00:00Z', oilHours: 100, readings: { Fe: 10 } }), GROUP, 1);
+    expect(fe(await store.asOf(GROUP, '2025-02', u1))).toMatchObject({ n: 1, mean: 100 });
+    expect(fe(await store.asOf(GROUP, '2025-05', u1))).toMatchObject({ n: 2, mean: 150 });
+    // And the other unit sees all three of U-1's shares where they were committed.
+    expect(fe(await store.asOf(GROUP, '2025-02', { unit: 'U-2', component: 'gearbox' }))).toMatchObject({ n: 1, mean: 10 });
+    expect(fe(await store.asOf(GROUP, '2025-04', { unit: 'U-2', component: 'gearbox' }))).toMatchObject({ n: 3, mean: 12 });
+  });
+
   it('keeps sparse checkpoints, drops those after a rewind, and finds the latest one before a position', async () => {
     const samples = Array.from({ length: 6 }, (_, i) => sample({ sampleId: `C-${i}`, sampledAt: `2025-01-0${i + 1}T00:00:00Z` }));
     for (const s of samples) await store.store(s, GROUP, 1);
