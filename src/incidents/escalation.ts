@@ -84,6 +84,14 @@ export function shelvedAt(inc: Pick<DraftIncident, 'shelved'>, now: Date): boole
   return inc.shelved !== null && Date.parse(inc.shelved.until) > now.getTime();
 }
 
+/** A chain with more to tell (a tier or a reminder) and no check scheduled: it rested while the incident had returned. */
+function restingChain(inc: DraftIncident, work: Work): boolean {
+  const policy = chainPolicy(inc, work);
+  const esc = inc.escalation;
+  if (policy === undefined || esc.startedAt === null || esc.dueAt !== null) return false;
+  return esc.nextTier < policy.tiers.length || (policy.repeatMinutes !== undefined && esc.reachedTier >= 0);
+}
+
 /** Tiers are told while the incident stays active, unacknowledged and not shelved; tier 0 (the announcement) also once it has returned. */
 function mayEscalate(inc: DraftIncident, now: Date): boolean {
   return inc.closed === null && !shelvedAt(inc, now) && inc.acknowledged === null && (inc.alarm === 'active' || inc.escalation.nextTier === 0);
@@ -244,8 +252,11 @@ function annunciateOne(inc: DraftIncident, work: Work): void {
     if (!inc.live || !(inc.lastLive || shelvingEnded)) return;
     announce(inc, work, 'wearshift.incident.opened', announcementReason(inc, 'wearshift.incident.opened'), true);
   } else if (inc.alarm === 'active' && (inc.lastLive || shelvingEnded)) {
+    // Those told of a return to normal hear that it is active again, once.
+    const activeAgain = told.returnedAt !== null;
+    told.returnedAt = null;
     const news = newEvidence(inc);
-    if (news !== null) announce(inc, work, 'wearshift.incident.updated', `new evidence: ${news}${ackWithdrawn ? '; acknowledgement withdrawn, acknowledge again' : ''}`, ackWithdrawn || shelvingEnded);
+    if (news !== null) announce(inc, work, 'wearshift.incident.updated', `new evidence: ${news}${activeAgain ? '; active again after it had returned to normal' : ''}${ackWithdrawn ? '; acknowledgement withdrawn, acknowledge again' : ''}`, ackWithdrawn || shelvingEnded);
     else if (ackWithdrawn) {
       // Evidence beyond what was acknowledged, though not beyond what was ever announced (the severity fell before the
       // acknowledgement and rose again): the acknowledgement is withdrawn, so the chain starts again — an
@@ -253,6 +264,12 @@ function annunciateOne(inc: DraftIncident, work: Work): void {
       const withdrawn = [...inc.timeline].reverse().find((e) => e.kind === 'unacknowledged');
       announce(inc, work, 'wearshift.incident.updated', `acknowledgement withdrawn: ${withdrawn?.reason ?? 'new evidence'}; acknowledge again`, true);
     } else if (ack === null && shelvingEnded) announce(inc, work, 'wearshift.incident.updated', 'shelving ended; still active and unacknowledged', true);
+    else if (ack === null && (activeAgain || restingChain(inc, work))) {
+      // Active again after a return to normal, still unacknowledged: the chain, whose checks found nothing to tell
+      // while it had returned, goes on (a tier that fell due meanwhile is told at once).
+      if (activeAgain) tellReached(inc, work, 'wearshift.incident.updated', 'active again after it had returned to normal; still not acknowledged');
+      advanceEscalation(inc, work);
+    }
   }
   if (inc.alarm === 'returned') {
     const returned = lastReturn(inc);

@@ -336,6 +336,45 @@ describe('incident life cycle', () => {
     expect(notifies(end.effects)[0]!.incident.reason).toContain('severity rose from caution to alarm');
   });
 
+  it('an unacknowledged incident active again after a return to normal is told so, and its escalation goes on', () => {
+    // Tier 1 falls due while the incident has returned to normal: its check finds nothing to tell then.
+    const rules = rulesFrom({
+      channels: RULES_CHANNELS,
+      escalation: {
+        policies: [
+          {
+            name: 'gearboxes',
+            tiers: [
+              { afterMinutes: 0, email: ['oncall@plant.example'], webhooks: ['ops'] },
+              { afterMinutes: 25 * 24 * 60, email: ['supervisor@plant.example'] },
+            ],
+          },
+        ],
+      },
+    });
+    const s1 = step(1, finding('Fe', 'alarm'));
+    let state = feed(emptyComponentIncidents(UNIT, COMPONENT), s1, rules).state;
+    const id = only(state).id;
+    state = feed(state, step(2), rules).state;
+    state = feed(state, step(3), rules).state;
+    expect(only(state).alarm).toBe('returned');
+    const check = applyEscalationCheck(state, { incidentId: id, now: new Date(liveAt(s1).getTime() + 25 * DAY) }, rules);
+    expect(check.effects).toEqual([]);
+    state = check.state;
+
+    const back = feed(state, step(4, finding('Fe', 'alarm')), rules);
+    expect(only(back.state).alarm).toBe('active');
+    const sent = notifies(back.effects).map((e) => [e.type, e.target, e.tier]);
+    expect(sent).toEqual([
+      ['wearshift.incident.updated', 'oncall@plant.example', 0],
+      ['wearshift.incident.updated', 'ops', 0],
+      ['wearshift.incident.escalated', 'supervisor@plant.example', 1],
+    ]);
+    expect(only(back.state).notifications.filter((n) => n.type === 'wearshift.incident.updated').map((n) => n.reason)).toEqual(['active again after it had returned to normal; still not acknowledged']);
+    // Told once: the next sample of the same evidence is silent.
+    expect(notifies(feed(back.state, step(5, finding('Fe', 'alarm')), rules).effects)).toEqual([]);
+  });
+
   it('escalates tier by tier while unacknowledged, reminds, and ignores stale or repeated checks', () => {
     const s1 = step(1, finding('Fe', 'alarm'));
     const announcedAt = liveAt(s1).getTime();
