@@ -11,6 +11,13 @@ export interface BackoffPolicy {
 export const DEFAULT_BACKOFF: BackoffPolicy = { baseMs: 5_000, maxMs: 3_600_000 };
 
 /**
+ * The shortest wait a receiver's Retry-After can ask for. A proxy that answers 503 with `Retry-After: 0` (or a date
+ * already past) would otherwise have every attempt of a message made within seconds, and an alarm lost to a
+ * passing outage.
+ */
+export const MIN_RETRY_AFTER_MS = 5_000;
+
+/**
  * Exponential backoff with "full jitter": a delay drawn uniformly from [0, min(maxMs, baseMs·2^(attempt−1))).
  * Spreading retries over the whole window keeps many senders from hitting a recovering receiver in step.
  * `attempt` counts the attempts made so far (1 after the first failure); `random` returns values in [0, 1).
@@ -38,7 +45,12 @@ export function parseRetryAfter(value: string | null | undefined, now: Date): nu
   return Number.isNaN(at) ? undefined : Math.max(0, at - now.getTime());
 }
 
-/** The wait before the next attempt after a failed one: the receiver's Retry-After wins over the backoff. */
+/**
+ * The wait before the next attempt after a failed one: the receiver's Retry-After wins over the backoff, held
+ * between `MIN_RETRY_AFTER_MS` (5 s) and the backoff's `maxMs` (one hour by default), so that a receiver can
+ * neither make the attempts run out at once nor hold an alarm back for longer than the backoff ever would.
+ */
 export function delayBeforeNextAttempt(result: { attempt: number; retryAfterMs?: number }, policy: BackoffPolicy, random: () => number): number {
-  return result.retryAfterMs ?? nextRetryDelay(result.attempt, policy, random);
+  if (result.retryAfterMs === undefined || Number.isNaN(result.retryAfterMs)) return nextRetryDelay(result.attempt, policy, random);
+  return Math.min(policy.maxMs, Math.max(Math.min(MIN_RETRY_AFTER_MS, policy.maxMs), result.retryAfterMs));
 }

@@ -194,7 +194,7 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
         {
         ...options(partitions.sharedTag(), s.notifyConcurrency),
         settings: {
-          // The receiver's Retry-After wins; otherwise exponential backoff with full jitter.
+          // The receiver's Retry-After wins (held between 5 s and an hour); otherwise exponential backoff with full jitter.
           backoffStrategy: (attemptsMade: number, _type?: string, err?: Error) =>
             delayBeforeNextAttempt({ attempt: Math.max(1, attemptsMade), ...(err instanceof DeliveryRetry && err.retryAfterMs !== undefined && { retryAfterMs: err.retryAfterMs }) }, DEFAULT_BACKOFF, Math.random),
           },

@@ -1,6 +1,6 @@
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import { delayBeforeNextAttempt, nextRetryDelay, parseRetryAfter } from '../../src/notify/retryTiming.ts';
+import { DEFAULT_BACKOFF, delayBeforeNextAttempt, MIN_RETRY_AFTER_MS, nextRetryDelay, parseRetryAfter } from '../../src/notify/retryTiming.ts';
 
 const policy = { baseMs: 1000, maxMs: 60_000 };
 
@@ -49,8 +49,29 @@ describe('retry backoff with full jitter', () => {
   });
 
   it('lets the receiver’s Retry-After win over the backoff', () => {
-    expect(delayBeforeNextAttempt({ attempt: 3, retryAfterMs: 120_000 }, policy, () => 0.5)).toBe(120_000);
+    expect(delayBeforeNextAttempt({ attempt: 3, retryAfterMs: 45_000 }, policy, () => 0.5)).toBe(45_000);
     expect(delayBeforeNextAttempt({ attempt: 3 }, policy, () => 0.5)).toBe(2000);
+  });
+
+  it('holds a Retry-After between 5 s and the backoff’s longest wait', () => {
+    const now = new Date('2026-03-01T08:00:00Z');
+    // A year asked for waits an hour (the default backoff's longest wait), not a year.
+    const year = parseRetryAfter('31536000', now)!;
+    expect(delayBeforeNextAttempt({ attempt: 1, retryAfterMs: year }, DEFAULT_BACKOFF, () => 0.5)).toBe(DEFAULT_BACKOFF.maxMs);
+    // "At once", or a date already past, waits 5 s: twenty attempts cannot be spent within seconds.
+    for (const header of ['0', 'Sun, 01 Mar 2026 07:00:00 GMT']) {
+      expect(delayBeforeNextAttempt({ attempt: 1, retryAfterMs: parseRetryAfter(header, now)! }, DEFAULT_BACKOFF, () => 0.5), header).toBe(MIN_RETRY_AFTER_MS);
+    }
+    expect(MIN_RETRY_AFTER_MS).toBe(5000);
+    fc.assert(
+      fc.property(fc.integer({ min: 0, max: 10 * 365 * 86_400_000 }), fc.integer({ min: 1, max: 20 }), (asked, attempt) => {
+        const d = delayBeforeNextAttempt({ attempt, retryAfterMs: asked }, DEFAULT_BACKOFF, () => 0.5);
+        expect(d).toBeGreaterThanOrEqual(MIN_RETRY_AFTER_MS);
+        expect(d).toBeLessThanOrEqual(DEFAULT_BACKOFF.maxMs);
+        // Within the bounds, the receiver's wait is kept as asked.
+        if (asked >= MIN_RETRY_AFTER_MS && asked <= DEFAULT_BACKOFF.maxMs) expect(d).toBe(asked);
+      }),
+    );
   });
 });
 
