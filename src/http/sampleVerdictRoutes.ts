@@ -8,7 +8,8 @@
  * - `withdrawn`: takes an earlier word back; the sampling rule judges the sample again.
  *
  * The component is evaluated again from that sample on. Answers 202 with the verdict taken, 404 when the component
- * holds no such sample, 400 naming the field and reason for a bad body.
+ * holds no such sample, 409 when nothing questioned the sample (confirmed or rejected only: only a sample in doubt
+ * takes a word), 400 naming the field and reason for a bad body.
  */
 import type { FastifyPluginAsync } from 'fastify';
 import { z } from 'zod';
@@ -16,9 +17,13 @@ import type { SampleMark } from '../analysis/model.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
 import { requireRole, type AccessTokens } from './auth.ts';
 
-/** What the route needs: stores the mark and has the component evaluated again; false for an unknown sample. */
+/**
+ * What the route needs: stores the mark and has the component evaluated again (`taken`), or says that the component
+ * holds no such sample (`unknown`) or that nothing questioned it (`not-in-doubt`: only a sample a sampling finding put in
+ * doubt takes a word; taking a word back always does).
+ */
 export interface SampleVerdictTaker {
-  mark(ref: ComponentRef, sampleId: string, mark: SampleMark | null): Promise<boolean>;
+  mark(ref: ComponentRef, sampleId: string, mark: SampleMark | null): Promise<'taken' | 'unknown' | 'not-in-doubt'>;
 }
 
 export interface SampleVerdictRoutesOptions {
@@ -52,8 +57,14 @@ export const sampleVerdictRoutes: FastifyPluginAsync<SampleVerdictRoutesOptions>
       }
       const { unit, component, sampleId } = request.params;
       const mark: SampleMark | null = body.data.verdict === 'withdrawn' ? null : body.data.verdict;
-      const known = await options.verdicts.mark({ unit, component }, sampleId, mark);
-      if (!known) return reply.code(404).send({ error: 'not-found', message: `component "${component}" of unit "${unit}" holds no sample "${sampleId}"` });
+      const outcome = await options.verdicts.mark({ unit, component }, sampleId, mark);
+      if (outcome === 'unknown') return reply.code(404).send({ error: 'not-found', message: `component "${component}" of unit "${unit}" holds no sample "${sampleId}"` });
+      if (outcome === 'not-in-doubt') {
+        return reply.code(409).send({
+          error: 'not-in-doubt',
+          message: `sample "${sampleId}" of ${unit}/${component} is not in doubt: no sampling finding questioned it, so it takes no verdict; a wrong reading is corrected by the lab's revision of the result`,
+        });
+      }
       request.log.info({ unit, component, sampleId, verdict: body.data.verdict, by: body.data.by }, 'sample verdict taken');
       return reply.code(202).send({ unit, component, sampleId, verdict: body.data.verdict, by: body.data.by });
     },

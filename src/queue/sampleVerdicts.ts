@@ -1,8 +1,11 @@
 /**
  * What a responder says of a sample in doubt (a sampling finding: a bottle of new oil, a mixed-up label, a duplicated
  * bottle): `confirmed` puts it back into the trend and the baselines, `rejected` keeps it out for good, `null` takes
- * the word back. The mark is stored with the component and the component is evaluated again from that sample on, so
- * the findings and incidents follow as if the mark had been there when the sample arrived.
+ * the word back. Only a sample in doubt takes a word: one that a sampling finding questioned (or that holds a word
+ * already); a sample nothing questioned is corrected by the lab's revision of the result, never by a verdict, so that
+ * no responder can take a machine's evidence out of its history. The mark is stored with the component and the
+ * component is evaluated again from that sample on, so the findings and incidents follow as if the mark had been
+ * there when the sample arrived.
  */
 import type { Queue } from 'bullmq';
 import type { SampleMark } from '../analysis/model.ts';
@@ -10,18 +13,26 @@ import type { ComponentRef, ComponentStore } from '../pipeline/ports.ts';
 import type { Partitions } from '../redis/keys.ts';
 import { scheduleEvaluation } from './queues.ts';
 
+/** `taken`: stored, the component is evaluated again; `unknown`: no such sample; `not-in-doubt`: nothing questioned it. */
+export type VerdictOutcome = 'taken' | 'unknown' | 'not-in-doubt';
+
 export class SampleVerdicts {
   constructor(
-    private readonly store: Pick<ComponentStore, 'markSample'>,
+    private readonly store: Pick<ComponentStore, 'markSample' | 'findings' | 'revisions'>,
     private readonly evaluateQueues: readonly Queue[],
     private readonly partitions: Partitions,
   ) {}
 
-  /** Stores the mark and schedules the evaluation; false when the component holds no such sample. */
-  async mark(ref: ComponentRef, sampleId: string, mark: SampleMark | null): Promise<boolean> {
+  /** Stores the mark and schedules the evaluation, for a sample in doubt. Taking a word back is always allowed. */
+  async mark(ref: ComponentRef, sampleId: string, mark: SampleMark | null): Promise<VerdictOutcome> {
+    if (mark !== null) {
+      const record = (await this.store.findings(ref)).find((r) => r.sampleId === sampleId);
+      const inDoubt = record !== undefined && (record.status !== undefined || record.findings.some((f) => f.rule === 'sampling'));
+      if (!inDoubt) return (await this.store.revisions(ref)).some((r) => r.sample.sampleId === sampleId) ? 'not-in-doubt' : 'unknown';
+    }
     const known = await this.store.markSample(ref, sampleId, mark);
-    if (!known) return false;
+    if (!known) return 'unknown';
     await scheduleEvaluation(this.evaluateQueues[this.partitions.of(ref)]!, ref);
-    return true;
+    return 'taken';
   }
 }

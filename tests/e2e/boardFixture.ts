@@ -117,14 +117,14 @@ export async function startBoardFixture(components: readonly [string, string][],
     verdicts: {
       async mark(ref, sampleId, mark) {
         const key = componentKey(ref);
-        if (!(samples.get(key) ?? []).some((s) => s.sampleId === sampleId)) return false;
+        if (!(samples.get(key) ?? []).some((s) => s.sampleId === sampleId)) return 'unknown';
         const kept = marksOf(key);
         if (mark === null) kept.delete(sampleId);
         else kept.set(sampleId, mark);
         marks.set(key, kept);
         verdicts.push({ unit: ref.unit, component: ref.component, sampleId, mark });
         await feed(ref.unit, ref.component);
-        return true;
+        return 'taken';
       },
     },
   });

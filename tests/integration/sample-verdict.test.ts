@@ -119,6 +119,13 @@ describe('a responder marks a sample in doubt', () => {
     expect((await post('V-6', { verdict: 'confirmed', by: 'viewer' }, VIEWER)).status).toBe(403);
     expect((await post('V-6', { verdict: 'confirmed', by: 'nobody' }, 'no-such-token')).status).toBe(401);
     expect((await post('V-99', { verdict: 'confirmed', by: 'shift lead' })).status).toBe(404);
+    // A sample nothing questioned takes no verdict: a machine's evidence is not taken out of its history by a word.
+    const unquestioned = await post('V-7', { verdict: 'rejected', by: 'shift lead' });
+    expect(unquestioned.status).toBe(409);
+    expect(((await unquestioned.json()) as { error: string; message: string })).toMatchObject({ error: 'not-in-doubt', message: expect.stringMatching(/V-7.*not in doubt/) });
+    const v7 = await statusOf('V-7');
+    expect(v7.status).toBeUndefined();
+    expect((await store.evaluationInput(ref))!.marks.has('V-7')).toBe(false);
 
     const confirmed = await post('V-6', { verdict: 'confirmed', by: 'shift lead' });
     expect(confirmed.status).toBe(202);
