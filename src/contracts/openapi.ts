@@ -95,7 +95,7 @@ export function openApiDocument(): Json {
             '409': { description: 'No record was accepted and every one was refused as a conflict: the same sampleId and revision is already stored with other content (a correction needs a higher revision).', content: json('ResultOutcomes') },
             '413': error('The body exceeds the limit (5 MB by default; `maxBytes`), or holds more records than one request may (5 000 by default; error too-many-records, `maxRecords`). Nothing was accepted.'),
             '422': { description: 'No record was accepted.', content: json('ResultOutcomes') },
-            '503': error('The results queue is unavailable; nothing was accepted.'),
+            '503': error('The results queue is unavailable, or Redis did not answer within the command timeout (2 s); send the records again after Retry-After (a result sent twice is stored once).'),
           },
         },
       },

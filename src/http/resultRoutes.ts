@@ -3,7 +3,8 @@
  * (application/x-ndjson). Every record gets an outcome; valid records are enqueued even when others in the
  * same request are rejected. 202 when at least one record was accepted, 422 when none was (same body);
  * 413 above the body limit or above `maxRecords` records (the message names the limit; nothing was accepted);
- * 503 when the queue cannot take the records (then none was accepted). The reply stays small whatever is sent:
+ * 503 with Retry-After when the queue cannot take the records (then none was accepted) or does not answer within the
+ * command timeout (then some may yet arrive: sending them again is harmless). The reply stays small whatever is sent:
  * every rejected record names its first problems, the first `detailedRejections` of them all their problems.
  */
 import type { FastifyError, FastifyPluginAsync } from 'fastify';
@@ -11,6 +12,7 @@ import type { RecordOutcome } from '../intake/validate.ts';
 import type { Metrics } from '../telemetry/metrics.ts';
 import { requireRole, type AccessTokens } from './auth.ts';
 import { DEFAULT_HTTP_LIMITS, formatBytes } from './limits.ts';
+import { UNAVAILABLE_RETRY_AFTER_S } from './unavailable.ts';
 
 export interface ResultRoutesOptions {
   /** The API's bearer tokens. */
@@ -101,7 +103,10 @@ export const resultRoutes: FastifyPluginAsync<ResultRoutesOptions> = async (app,
       enqueued = await options.producer.add(parsed.map((r) => r.value));
     } catch (e) {
       request.log.error({ err: (e as Error).message }, 'results queue unavailable');
-      return reply.code(503).header('retry-after', '5').send({ error: 'unavailable', message: 'the results queue is unavailable; nothing was accepted, send again later' });
+      return reply
+        .code(503)
+        .header('retry-after', String(UNAVAILABLE_RETRY_AFTER_S))
+        .send({ error: 'unavailable', message: `the results queue is unavailable; send the records again in ${UNAVAILABLE_RETRY_AFTER_S} s (a result sent twice is stored once)` });
     }
     const byPosition = new Map(parsed.map((r, i) => [r.position, enqueued[i]!]));
     let rejections = 0;

@@ -29,7 +29,7 @@ export type ThreadRequest = { readonly id: number; readonly ref: ComponentRef; r
 const port = parentPort;
 if (port === null) throw new Error('evaluationThread.ts runs as a worker thread (EvaluationThreadPool)');
 const data = workerData as EvaluationThreadData;
-const connection = connectRedis(data.target, 'worker', undefined, EVALUATION_THREAD_CONNECTION);
+const connection = connectRedis(data.target, 'worker', undefined, { name: EVALUATION_THREAD_CONNECTION });
 const store = new RedisStore(connection, { prefix: data.prefix, partitions: data.partitions, config: data.config });
 const rules = incidentRules(data.config);
 

@@ -19,13 +19,20 @@ export interface ResultProducerOptions extends Pick<QueueSettings, 'prefix' | 'a
   now?: () => number;
   /** How far ahead of the clock a sampledAt may lie. Default one day. */
   maxAheadMs?: ValidationOptions['maxAheadMs'];
+  /**
+   * With a URL or seed nodes: how long one Redis command may wait for its answer before `add` rejects (a Redis that
+   * holds the socket open but does not answer). Default 2 000 ms (`REQUEST_COMMAND_TIMEOUT_MS`). A connection the
+   * caller hands over keeps its own settings.
+   */
+  commandTimeoutMs?: number;
 }
 
 export interface ResultProducer {
   /**
    * Validates and enqueues one result event or an array of them. Resolves with one outcome per record, in
    * order: `accepted` records are on the queue; `rejected` ones carry `errors: [{ path, reason }]` and were
-   * not enqueued. Rejects only when Redis cannot take the accepted records (then none of them was enqueued).
+   * not enqueued. Rejects only when Redis cannot take the accepted records or does not answer within the command
+   * timeout (then none of them was enqueued, or, after a timeout, the jobs may yet arrive: adding again is harmless).
    */
   add(events: unknown): Promise<RecordOutcome[]>;
   /**
@@ -68,7 +75,9 @@ export interface ResultProducer {
 export function createResultProducer(options: ResultProducerOptions): ResultProducer {
   const given = options.connection;
   const ownConnection = typeof given === 'string' || (typeof given === 'object' && 'kind' in given);
-  const redis = ownConnection ? connectRedis(given as string | RedisTarget, 'request') : (given as RedisConnection);
+  const redis = ownConnection
+    ? connectRedis(given as string | RedisTarget, 'request', undefined, { ...(options.commandTimeoutMs !== undefined && { commandTimeoutMs: options.commandTimeoutMs }) })
+    : (given as RedisConnection);
   const settings = resolveQueueSettings(options);
   const partitions = new Partitions(settings.prefix, options.partitions ?? 1);
   const queues: Queue[] = openPartitionedQueues(QUEUE_NAMES.results, redis, settings, partitions);

@@ -1,7 +1,9 @@
 /**
  * Redis connections, to one Redis or to a Redis Cluster. BullMQ workers block on Redis and must retry for ever
  * (`maxRetriesPerRequest: null`); request paths (HTTP intake, readiness probe) must fail fast instead of queueing
- * commands while Redis is away, so they get a connection without the offline queue.
+ * commands while Redis is away, so they get a connection without the offline queue, and a command timeout: a Redis
+ * that keeps the socket open but does not answer (a stopped or wedged process) fails each command after
+ * `REQUEST_COMMAND_TIMEOUT_MS` instead of holding the request for ever.
  */
 import { Cluster, Redis, type ClusterOptions, type RedisOptions } from 'ioredis';
 import { InputError } from '../domain/errors.ts';
@@ -17,22 +19,36 @@ export type ConnectionRole = 'worker' | 'request';
 /** How long a cluster client waits for the slot map (CLUSTER SLOTS); ioredis's 1 s fails on a busy node. */
 export const SLOTS_REFRESH_TIMEOUT_MS = 5000;
 
-function roleOptions(role: ConnectionRole): RedisOptions {
-  return role === 'worker'
-    ? { maxRetriesPerRequest: null, enableReadyCheck: true }
-    : { maxRetriesPerRequest: 1, enableOfflineQueue: false, connectTimeout: 2000 };
+/**
+ * How long one command of a request connection may wait for its answer; then it fails ("Command timed out") and
+ * the HTTP API answers 503 with Retry-After. Workers have none: their blocking commands wait by design.
+ */
+export const REQUEST_COMMAND_TIMEOUT_MS = 2000;
+
+export interface ConnectOptions {
+  /** The connection's name in Redis (CLIENT LIST), for connections an operator may want to tell apart. */
+  readonly name?: string;
+  /** Request connections only: the longest wait for one command's answer. Default `REQUEST_COMMAND_TIMEOUT_MS`. */
+  readonly commandTimeoutMs?: number;
 }
 
-/** `name`: the connection's name in Redis (CLIENT LIST), for connections an operator may want to tell apart. */
-export function connectRedis(target: string | RedisTarget, role: ConnectionRole, logger?: Logger, name?: string): RedisConnection {
+function roleOptions(role: ConnectionRole, commandTimeoutMs: number): RedisOptions {
+  return role === 'worker'
+    ? { maxRetriesPerRequest: null, enableReadyCheck: true }
+    : { maxRetriesPerRequest: 1, enableOfflineQueue: false, connectTimeout: 2000, commandTimeout: commandTimeoutMs };
+}
+
+export function connectRedis(target: string | RedisTarget, role: ConnectionRole, logger?: Logger, options: ConnectOptions = {}): RedisConnection {
   const t: RedisTarget = typeof target === 'string' ? { kind: 'single', url: target } : target;
-  const options: RedisOptions = { ...roleOptions(role), ...(name !== undefined && { connectionName: name }) };
+  const { name, commandTimeoutMs = REQUEST_COMMAND_TIMEOUT_MS } = options;
+  if (!(Number.isFinite(commandTimeoutMs) && commandTimeoutMs > 0)) throw new TypeError(`commandTimeoutMs: expected a number of milliseconds above 0, got ${String(commandTimeoutMs)}`);
+  const redisOptions: RedisOptions = { ...roleOptions(role, commandTimeoutMs), ...(name !== undefined && { connectionName: name }) };
   const retryStrategy = (attempt: number) => Math.min(200 * attempt, 2000);
   const redis: RedisConnection =
     t.kind === 'single'
-      ? new Redis(t.url, { ...options, retryStrategy, lazyConnect: false })
+      ? new Redis(t.url, { ...redisOptions, retryStrategy, lazyConnect: false })
       : new Cluster([...t.nodes], {
-          redisOptions: options,
+          redisOptions,
           clusterRetryStrategy: retryStrategy,
           enableReadyCheck: true,
           slotsRefreshTimeout: SLOTS_REFRESH_TIMEOUT_MS,

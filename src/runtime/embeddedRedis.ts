@@ -29,6 +29,12 @@ export interface EmbeddedRedis {
   start(): Promise<void>;
   /** Stops the server (SIGTERM, waits for exit); the directory stays until dispose(). */
   stop(): Promise<void>;
+  /**
+   * Freezes the process (SIGSTOP): its sockets stay open but nothing is answered, as with a wedged or swapped-out
+   * Redis. resume() (SIGCONT) lets it go on; stop() and dispose() resume it first.
+   */
+  pause(): void;
+  resume(): void;
   /** A client of this server (no retry limit, errors swallowed: the caller watches the commands), closed by dispose(). */
   client(): Redis;
   /** Closes the clients, stops the server and removes its directory. */
@@ -73,6 +79,7 @@ export async function startEmbeddedRedis(options: EmbeddedRedisOptions = {}): Pr
   const port = await freePort();
   const startTimeoutMs = options.startTimeoutMs ?? 10_000;
   let child: ChildProcess | undefined;
+  let paused = false;
 
   const start = async () => {
     const args = [
@@ -90,10 +97,19 @@ export async function startEmbeddedRedis(options: EmbeddedRedisOptions = {}): Pr
     await untilReady(proc, startTimeoutMs, `redis-server on port ${port}`);
   };
 
+  const running = () => (child !== undefined && child.exitCode === null && child.signalCode === null ? child : undefined);
+  const resume = () => {
+    if (!paused) return;
+    paused = false;
+    running()?.kill('SIGCONT');
+  };
+
   const stop = async () => {
-    const proc = child;
+    // A stopped process would hold SIGTERM until continued.
+    resume();
+    const proc = running();
     child = undefined;
-    if (proc === undefined || proc.exitCode !== null || proc.signalCode !== null) return;
+    if (proc === undefined) return;
     await new Promise<void>((resolve) => {
       proc.once('exit', () => resolve());
       proc.kill('SIGTERM');
@@ -114,6 +130,13 @@ export async function startEmbeddedRedis(options: EmbeddedRedisOptions = {}): Pr
     dir,
     start,
     stop,
+    pause() {
+      const proc = running();
+      if (proc === undefined) throw new Error(`redis-server on port ${port} is not running`);
+      proc.kill('SIGSTOP');
+      paused = true;
+    },
+    resume,
     client() {
       const c = new Redis(port, '127.0.0.1', { maxRetriesPerRequest: null, lazyConnect: false });
       c.on('error', () => {});
