@@ -181,6 +181,7 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
           apiBaseUrl: deps.apiBaseUrl ?? 'http://localhost:8080',
           logger,
           deliveries: new DeliveryLedger(deps.connection, queueSettings.prefix),
+          incidents,
           now,
           flood: {
             settings: deps.config.channels.floodControl ?? DEFAULT_FLOOD_CONTROL,

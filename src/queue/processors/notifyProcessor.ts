@@ -8,7 +8,7 @@ import { UnrecoverableError, type Job, type Processor } from 'bullmq';
 import { DeliveryRefused } from '../../channels/errors.ts';
 import type { NotificationChannels } from '../../channels/openChannels.ts';
 import type { Config } from '../../domain/config.ts';
-import type { NotifyEffect } from '../../incidents/model.ts';
+import type { Incident, NotifyEffect } from '../../incidents/model.ts';
 import { floodKey, floodWindow, heldMessage, type FloodControlSettings, type FloodTarget } from '../../notify/floodControl.ts';
 import type { ComponentStore, GroupLedger } from '../../pipeline/ports.ts';
 import type { DeliveryLedger } from '../../redis/deliveryLedger.ts';
@@ -36,7 +36,13 @@ export interface NotifyDeps {
    * twice after its first job was removed) sends nothing. Without it, every job is delivered.
    */
   readonly deliveries?: Pick<DeliveryLedger, 'delivered' | 'record'>;
-  /** The clock a delivery is recorded with. Default `Date.now`. */
+  /**
+   * The incidents as they stand now, read before each message goes out: a message the incident has outrun since it
+   * was queued (an escalation after the acknowledgement, anything after shelving or closing) is not sent
+   * (`withdrawnBecause`). Without it, every message is sent as it was queued.
+   */
+  readonly incidents?: { get(incidentId: string): Promise<Incident | undefined> };
+  /** The clock a delivery is recorded with, and shelving is judged by. Default `Date.now`. */
   readonly now?: () => number;
   /** Alarm-flood handling; without it every message is delivered. */
   readonly flood?: {
@@ -80,6 +86,12 @@ export function notifyProcessor(deps: NotifyDeps): Processor<NotifyEffect | Floo
     }
     const effect = job.data as NotifyEffect;
     if (await deps.deliveries?.delivered(effect.key)) return `${effect.channel} ${effect.target}: delivered before; not sent again`;
+    const current = await deps.incidents?.get(effect.incidentId);
+    const withdrawn = current === undefined ? undefined : withdrawnBecause(effect, current, (deps.now ?? Date.now)());
+    if (withdrawn !== undefined) {
+      deps.logger.info({ channel: effect.channel, incidentId: effect.incidentId, type: effect.type, tier: effect.tier, reason: withdrawn }, 'queued message not sent: the incident has changed since');
+      return `${effect.channel} ${effect.target}: not sent, ${withdrawn}`;
+    }
     const samples = (await deps.store.revisions(effect.incident)).map((s) => s.sample);
     const message = incidentMessage(effect, samples, deps.apiBaseUrl);
     if (flood !== undefined) {
@@ -105,6 +117,30 @@ export function notifyProcessor(deps: NotifyDeps): Processor<NotifyEffect | Floo
     await deps.deliveries?.record(messageKey, (deps.now ?? Date.now)());
     return outcome;
   }
+}
+
+/**
+ * Why a queued message no longer goes out, judged on the incident as it stands when the message is about to be sent
+ * (a message waits in the queue for its retries, up to hours): undefined when it still goes.
+ *
+ * - An escalation or reminder (`escalated`) asks someone new to act: only while the incident is still active,
+ *   unacknowledged, not shelved and not closed.
+ * - An announcement (`opened`, `updated`) tells tier 0 of the incident or of new evidence: not while it is shelved or
+ *   once it is closed. An acknowledgement that came meanwhile does not stop it: the others on tier 0 still learn of
+ *   the incident, the message shows the state it was sent for, and its acknowledgement link then opens a page that
+ *   says who acknowledged it.
+ * - `acknowledged`, `returned` and `closed` report a change of state that has happened: they always go.
+ */
+export function withdrawnBecause(effect: Pick<NotifyEffect, 'type'>, incident: Pick<Incident, 'alarm' | 'acknowledged' | 'shelved' | 'closed'>, now: number): string | undefined {
+  const escalation = effect.type === 'wearshift.incident.escalated';
+  const announcement = effect.type === 'wearshift.incident.opened' || effect.type === 'wearshift.incident.updated';
+  if (!escalation && !announcement) return undefined;
+  if (incident.closed !== null) return `the incident was closed at ${incident.closed.at}`;
+  if (incident.shelved !== null && Date.parse(incident.shelved.until) > now) return `the incident is shelved until ${incident.shelved.until}`;
+  if (!escalation) return undefined;
+  if (incident.acknowledged !== null) return `the incident was acknowledged by ${incident.acknowledged.by} at ${incident.acknowledged.at}`;
+  if (incident.alarm !== 'active') return 'the incident has returned to normal';
+  return undefined;
 }
 
 /** A refusal will come again: no retry (BullMQ's UnrecoverableError); anything else is retried with backoff. */

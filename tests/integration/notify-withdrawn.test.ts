@@ -1,0 +1,181 @@
+/**
+ * A message waits in the notify queue (for a busy worker, for its retries); by the time it is sent, the incident may
+ * have been acknowledged, shelved or closed. The worker reads the incident again just before sending: an escalation
+ * that nobody needs any more, or anything about a shelved or closed incident, is not sent. The messages are held
+ * back from the queue while the incident changes, then handed to a live worker that delivers to a real HTTP
+ * receiver.
+ */
+import { randomBytes } from 'node:crypto';
+import { createServer, type Server } from 'node:http';
+import type { AddressInfo } from 'node:net';
+import { Writable } from 'node:stream';
+import { Queue } from 'bullmq';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { Step } from '../../src/analysis/model.ts';
+import { notificationChannels } from '../../src/channels/openChannels.ts';
+import { parseConfig } from '../../src/domain/configFile.ts';
+import type { IncidentEffect, NotifyEffect } from '../../src/incidents/model.ts';
+import { incidentRules } from '../../src/incidents/policy.ts';
+import { effectJobId, relayEffects } from '../../src/queue/outboxRelay.ts';
+import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
+import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
+import { createLogger, silentLogger } from '../../src/telemetry/logger.ts';
+import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+
+const prefix = '{withdrawn}';
+const SECRET = `whsec_${randomBytes(32).toString('base64')}`;
+
+let redis: RedisServer;
+let receiver: Server;
+/** Every delivery the receiver got: which endpoint, which event type, which incident. */
+const received: Array<{ endpoint: string; type: string; incidentId: string }> = [];
+const logLines: Array<Record<string, unknown>> = [];
+let workers: RunningWorkers | undefined;
+
+beforeAll(async () => {
+  redis = await startRedisServer();
+  receiver = createServer((req, res) => {
+    const chunks: Buffer[] = [];
+    req.on('data', (c: Buffer) => chunks.push(c));
+    req.on('end', () => {
+      const event = JSON.parse(Buffer.concat(chunks).toString('utf8')) as { type: string; subject: string };
+      received.push({ endpoint: req.url ?? '', type: event.type, incidentId: event.subject });
+      res.writeHead(204).end();
+    });
+  });
+  await new Promise<void>((resolve) => receiver.listen(0, '127.0.0.1', () => resolve()));
+});
+
+afterAll(async () => {
+  await workers?.close();
+  receiver.closeAllConnections();
+  await new Promise<void>((resolve) => receiver.close(() => resolve()));
+  await redis?.dispose();
+});
+
+function finding(unit: string, sampleId: string, sampledAt: string): Step['findings'][number] {
+  return { unit, component: 'gearbox', group: 'gearboxes', measurand: 'Fe', rule: 'limit', disposition: 'incident', severity: 'alarm', value: 95, threshold: 80, basis: 'reading', sampleId, sampledAt, explanation: 'Fe 95 ppm is above the alarm level of 80 ppm.' };
+}
+
+/** Waits for a notify job to finish; generous, so that a busy machine only makes it slower. */
+async function finished(queue: Queue, jobId: string): Promise<{ state: string; returnvalue: unknown }> {
+  const deadline = Date.now() + 120_000;
+  for (;;) {
+    const job = await queue.getJob(jobId);
+    const state = job === undefined ? 'missing' : await job.getState();
+    if (state === 'completed' || state === 'failed') {
+      const done = await queue.getJob(jobId);
+      return { state, returnvalue: done?.returnvalue };
+    }
+    if (Date.now() > deadline) throw new Error(`timed out waiting for notify job ${jobId} (${state})`);
+    await new Promise((r) => setTimeout(r, 100));
+  }
+}
+
+describe('a queued message is judged on the incident as it stands when it is sent', () => {
+  it('no escalation after the acknowledgement, nothing about a shelved or closed incident', async () => {
+    const { port } = receiver.address() as AddressInfo;
+    const config = parseConfig(`
+redis: { prefix: "${prefix}" }
+escalation:
+  policies:
+    - name: gearbox-on-call
+      tiers:
+        - { afterMinutes: 0, webhooks: [first-line] }
+        - { afterMinutes: 0, webhooks: [duty-manager] }
+channels:
+  webhooks:
+    - { name: first-line, url: "http://127.0.0.1:${port}/first-line", secrets: ["${SECRET}"] }
+    - { name: duty-manager, url: "http://127.0.0.1:${port}/duty-manager", secrets: ["${SECRET}"] }
+`);
+    const connection = redis.client();
+    const incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix });
+    const sampledAt = new Date(Date.now() - 86_400_000).toISOString();
+    const units = { acknowledged: 'PS1-Acked', shelved: 'PS2-Shelved', resolved: 'PS3-Resolved', untouched: 'PS4-Untouched' } as const;
+    for (const unit of Object.values(units)) {
+      await incidents.applySteps({ unit, component: 'gearbox' }, [{ sampleId: `${unit}-1`, sampledAt, findings: [finding(unit, `${unit}-1`, sampledAt)] }], {
+        group: 'gearboxes',
+        now: new Date(),
+        quietBefore: new Date(0),
+      });
+    }
+    // The messages of the four new incidents, held back from the queue: tier 0 is told, tier 1 escalated to at once.
+    const held: IncidentEffect[] = [];
+    await incidents.drainOutbox(async (effects) => {
+      held.push(...effects);
+    });
+    const messages = held.filter((e): e is NotifyEffect => e.kind === 'notify');
+    const idOf = (unit: string) => `${unit}/gearbox@${unit}-1`;
+    for (const unit of Object.values(units)) {
+      expect(messages.filter((m) => m.incidentId === idOf(unit)).map((m) => m.type).sort()).toEqual(['wearshift.incident.escalated', 'wearshift.incident.opened']);
+    }
+
+    // Meanwhile, on the board: one incident acknowledged, one shelved, one resolved, one left alone.
+    const now = new Date();
+    await incidents.applyAction({ kind: 'acknowledge', incidentId: idOf(units.acknowledged), by: 'R. Okafor', now });
+    await incidents.applyAction({ kind: 'shelve', incidentId: idOf(units.shelved), by: 'R. Okafor', now, until: new Date(now.getTime() + 8 * 3_600_000), reason: 'gearbox out for overhaul' });
+    await incidents.applyAction({ kind: 'resolve', incidentId: idOf(units.resolved), by: 'R. Okafor', now, note: 'sample bottle mislabelled; re-sampled clean' });
+
+    const notify = new Queue('notify', { connection, prefix });
+    const escalate = new Queue('escalate', { connection, prefix });
+    try {
+      await relayEffects(held, { notify, escalate }, Date.now());
+      const sink = new Writable({
+        write(chunk: Buffer, _encoding, done) {
+          for (const line of chunk.toString('utf8').split('\n')) if (line.trim() !== '') logLines.push(JSON.parse(line) as Record<string, unknown>);
+          done();
+        },
+      });
+      workers = startWorkers(
+        { connection, config, logger: createLogger({ destination: sink, level: 'info' }), channels: notificationChannels(config.channels, { logger: silentLogger(), env: {} }), apiBaseUrl: 'https://wearshift.plant.example' },
+        { prefix, outboxIntervalMs: 200 },
+      );
+      const outcome = new Map<NotifyEffect, { state: string; returnvalue: unknown }>();
+      for (const m of messages) outcome.set(m, await finished(notify, effectJobId(m.key)));
+      const result = (unit: string, type: string) => {
+        const m = messages.find((x) => x.incidentId === idOf(unit) && x.type === type)!;
+        return outcome.get(m)!;
+      };
+      for (const m of messages) expect(outcome.get(m)!.state, `${m.incidentId} ${m.type}`).toBe('completed');
+
+      // Acknowledged: the escalation to the duty manager is dropped; the announcement to tier 0 still goes.
+      expect(String(result(units.acknowledged, 'wearshift.incident.escalated').returnvalue)).toMatch(/^webhook duty-manager: not sent, the incident was acknowledged by R\. Okafor at /);
+      expect(String(result(units.acknowledged, 'wearshift.incident.opened').returnvalue)).toBe('webhook first-line: 204');
+      // Shelved or closed: nothing about it goes out.
+      for (const type of ['wearshift.incident.opened', 'wearshift.incident.escalated']) {
+        expect(String(result(units.shelved, type).returnvalue)).toMatch(/not sent, the incident is shelved until /);
+        expect(String(result(units.resolved, type).returnvalue)).toMatch(/not sent, the incident was closed at /);
+      }
+      // The untouched incident shows the path works: both its messages arrive.
+      expect(received.filter((r) => r.incidentId === idOf(units.untouched)).map((r) => `${r.endpoint} ${r.type}`).sort()).toEqual([
+        '/duty-manager wearshift.incident.escalated',
+        '/first-line wearshift.incident.opened',
+      ]);
+
+      // What the receiver saw of the others: the announcement of the acknowledged incident, and the news of the
+      // acknowledgement and the closing (those report what happened and always go), never an escalation.
+      const about = (unit: string) => received.filter((r) => r.incidentId === idOf(unit));
+      expect(about(units.acknowledged).map((r) => r.type)).not.toContain('wearshift.incident.escalated');
+      expect(about(units.acknowledged).filter((r) => r.type === 'wearshift.incident.opened')).toHaveLength(1);
+      expect(about(units.shelved).map((r) => r.type).filter((t) => t === 'wearshift.incident.opened' || t === 'wearshift.incident.escalated')).toEqual([]);
+      expect(about(units.resolved).map((r) => r.type).filter((t) => t === 'wearshift.incident.opened' || t === 'wearshift.incident.escalated')).toEqual([]);
+
+      // Each message not sent says so in the log, with the reason.
+      const notSent = logLines.filter((l) => l.msg === 'queued message not sent: the incident has changed since');
+      expect(notSent.map((l) => `${String(l.incidentId)} ${String(l.type)}`).sort()).toEqual(
+        [
+          `${idOf(units.acknowledged)} wearshift.incident.escalated`,
+          `${idOf(units.resolved)} wearshift.incident.escalated`,
+          `${idOf(units.resolved)} wearshift.incident.opened`,
+          `${idOf(units.shelved)} wearshift.incident.escalated`,
+          `${idOf(units.shelved)} wearshift.incident.opened`,
+        ].sort(),
+      );
+    } finally {
+      await workers?.close();
+      workers = undefined;
+      await notify.close();
+      await escalate.close();
+    }
+  });
+});
