@@ -9,7 +9,7 @@
  * is honoured on this read-only stream alone; every changing request still needs the bearer header, so a forged
  * cross-site request can do nothing with it.
  */
-import type { FastifyPluginAsync, preHandlerAsyncHookHandler } from 'fastify';
+import type { FastifyPluginAsync, onRequestAsyncHookHandler } from 'fastify';
 import type { ServerResponse } from 'node:http';
 import { requireRole, type AccessTokens } from './auth.ts';
 import type { EventHub } from './eventHub.ts';
@@ -21,8 +21,8 @@ export interface EventRoutesOptions {
   /** The API's bearer tokens. */
   readonly tokens: AccessTokens;
   hub: EventHub;
-  /** Default: a viewer or responder token, from the bearer header or the `wearshift_token` cookie. */
-  authorize?: preHandlerAsyncHookHandler;
+  /** Checked on request. Default: a viewer or responder token, from the bearer header or the `wearshift_token` cookie. */
+  authorize?: onRequestAsyncHookHandler;
   /** Interval of the keep-alive comment. Default 20 000 ms. */
   heartbeatMs?: number;
   /**
@@ -51,12 +51,14 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
   });
 
   app.get('/v1/events', {
-    onRequest: async (request) => {
-      if (request.headers.authorization !== undefined) return;
-      const token = cookieValue(request.headers.cookie, EVENT_TOKEN_COOKIE);
-      if (token !== undefined) request.headers.authorization = `Bearer ${token}`;
-    },
-    preHandler: authorize,
+    onRequest: [
+      async (request) => {
+        if (request.headers.authorization !== undefined) return;
+        const token = cookieValue(request.headers.cookie, EVENT_TOKEN_COOKIE);
+        if (token !== undefined) request.headers.authorization = `Bearer ${token}`;
+      },
+      authorize,
+    ],
     handler: async (request, reply) => {
       if (open.size >= maxClients) {
         return reply.code(503).header('retry-after', '30').send({ error: 'unavailable', message: `${open.size} live-event clients are connected, the most this process serves; try again later` });

@@ -95,8 +95,9 @@ function failed(reply: FastifyReply, e: unknown) {
 
 export const incidentRoutes: FastifyPluginAsync<IncidentRoutesOptions> = async (app, options) => {
   const now = options.now ?? (() => new Date());
-  const read = { preHandler: requireRole(options.tokens, 'viewer', 'responder') };
-  const act = { preHandler: requireRole(options.tokens, 'responder') };
+  // On request, before the body is read: a refused request costs no parsing and cannot hold the socket with a slow body.
+  const read = { onRequest: requireRole(options.tokens, 'viewer', 'responder') };
+  const act = { onRequest: requireRole(options.tokens, 'responder') };
 
   app.get('/v1/incidents', read, async (request, reply) => {
     const query = IncidentFilterSchema.safeParse(request.query ?? {});

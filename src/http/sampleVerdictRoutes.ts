@@ -48,7 +48,7 @@ interface Params {
 export const sampleVerdictRoutes: FastifyPluginAsync<SampleVerdictRoutesOptions> = async (app, options) => {
   app.post<{ Params: Params }>(
     '/v1/units/:unit/components/:component/samples/:sampleId/verdict',
-    { preHandler: requireRole(options.tokens, 'responder') },
+    { onRequest: requireRole(options.tokens, 'responder') },
     async (request, reply) => {
       const body = VerdictBodySchema.safeParse(request.body);
       if (!body.success) {

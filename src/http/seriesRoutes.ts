@@ -9,7 +9,7 @@
  * bounded in time and in number at once: a very long history answers 503 with Retry-After rather than stall the
  * process, and a chart draws at most the pool's sample budget (the latest samples; the heading says so).
  */
-import type { FastifyPluginAsync, FastifyReply, FastifyRequest, preHandlerAsyncHookHandler } from 'fastify';
+import type { FastifyPluginAsync, FastifyReply, FastifyRequest, onRequestAsyncHookHandler } from 'fastify';
 import { DEFAULT_CHART_WIDTH } from '../charts/trendChart/trendChart.ts';
 import { isMeasurand, type Measurand } from '../domain/measurands.ts';
 import type { ChartJob, ChartJobResult } from '../render/chartJob.ts';
@@ -25,8 +25,8 @@ export interface SeriesRoutesOptions {
   loadInput(unit: string, component: string): Promise<ComponentInput | undefined>;
   /** Where the evaluation and drawing run, off the event loop and bounded. Default: a pool of one thread, closed with the app. */
   pool?: ChartPool;
-  /** Guards every route. Default: a viewer or responder bearer token (see auth.ts). */
-  authorize?: preHandlerAsyncHookHandler;
+  /** Guards every route, on request. Default: a viewer or responder bearer token (see auth.ts). */
+  authorize?: onRequestAsyncHookHandler;
 }
 
 const CHART_WIDTH = { min: 320, max: 2000 };
@@ -48,7 +48,7 @@ interface Params {
 type Query = Record<string, string | string[] | undefined>;
 
 export const seriesRoutes: FastifyPluginAsync<SeriesRoutesOptions> = async (app, options) => {
-  const preHandler = options.authorize ?? requireRole(options.tokens, 'viewer', 'responder');
+  const onRequest = options.authorize ?? requireRole(options.tokens, 'viewer', 'responder');
   const base = '/v1/units/:unit/components/:component';
   const pool = options.pool ?? new ChartPool();
   if (options.pool === undefined) app.addHook('onClose', async () => pool.close());
@@ -71,7 +71,7 @@ export const seriesRoutes: FastifyPluginAsync<SeriesRoutesOptions> = async (app,
     }
   }
 
-  app.get<{ Params: Params; Querystring: Query }>(`${base}/series`, { preHandler }, async (request, reply) => {
+  app.get<{ Params: Params; Querystring: Query }>(`${base}/series`, { onRequest }, async (request, reply) => {
     const measurands = parseMeasurands(request.query.measurand);
     if (typeof measurands === 'string') return reply.code(400).send({ error: 'invalid-request', message: measurands });
     const result = await compute(request, reply, (input) => ({ kind: 'series', input, ...(measurands !== undefined && { measurands }) }));
@@ -96,8 +96,8 @@ export const seriesRoutes: FastifyPluginAsync<SeriesRoutesOptions> = async (app,
     if (result.kind === 'png') return reply.headers({ 'content-type': 'image/png', 'cache-control': 'no-store', 'x-content-type-options': 'nosniff' }).send(Buffer.from(result.png));
     throw new Error(`unexpected chart result ${result.kind}`);
   };
-  app.get<{ Params: Params; Querystring: Query }>(`${base}/chart.svg`, { preHandler }, chart('svg'));
-  app.get<{ Params: Params; Querystring: Query }>(`${base}/chart.png`, { preHandler }, chart('png'));
+  app.get<{ Params: Params; Querystring: Query }>(`${base}/chart.svg`, { onRequest }, chart('svg'));
+  app.get<{ Params: Params; Querystring: Query }>(`${base}/chart.png`, { onRequest }, chart('png'));
 };
 
 /** A query parameter given more than once counts by its first value, for parameters that take one. */

@@ -1,0 +1,160 @@
+/**
+ * How the whole API (buildServer over a real port, a private redis-server behind it) refuses what it cannot take:
+ * a request without a usable token is refused before its body is read, whatever the body holds.
+ */
+import { connect } from 'node:net';
+import type { AddressInfo } from 'node:net';
+import type { Queue } from 'bullmq';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { Step } from '../../src/analysis/model.ts';
+import { ConfigSchema } from '../../src/domain/config.ts';
+import { createEventHub } from '../../src/http/eventHub.ts';
+import { buildServer, type WearshiftServer } from '../../src/http/server.ts';
+import { incidentRules } from '../../src/incidents/policy.ts';
+import { openApiDocument } from '../../src/contracts/openapi.ts';
+import { createResultProducer, type ResultProducer } from '../../src/queue/producer.ts';
+import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
+import { SampleVerdicts } from '../../src/queue/sampleVerdicts.ts';
+import { connectRedis, type RedisConnection } from '../../src/redis/connection.ts';
+import { Partitions } from '../../src/redis/keys.ts';
+import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
+import { RedisStore } from '../../src/redis/redisStore.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
+import { silentLogger } from '../../src/telemetry/logger.ts';
+import { createMetrics } from '../../src/telemetry/metrics.ts';
+import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+
+const prefix = '{refusals}';
+const TOKENS = { ingest: 'ingest-refusals-0b4e', responder: 'resp-refusals-71c9', viewer: 'view-refusals-5a3d' };
+const BODY_LIMIT = 64 * 1024;
+const NOW = new Date();
+const ID = 'PS4-P2/gearbox@LAB-4001';
+const INCIDENT = `/v1/incidents/${encodeURIComponent(ID)}`;
+const COMPONENT = '/v1/units/PS4-P2/components/gearbox';
+/** Every POST that needs a token and takes a JSON body. */
+const POSTS = [
+  ...['ack', 'shelve', 'unshelve', 'resolve', 'note'].map((verb) => `${INCIDENT}/${verb}`),
+  `${COMPONENT}/samples/LAB-4001/verdict`,
+  '/v1/results',
+];
+/** Generous: a busy two-core machine. A refused request is answered at once, long before this. */
+const ANSWER_WITHIN_MS = 30_000;
+
+let redis: RedisServer;
+let request: RedisConnection;
+let producer: ResultProducer;
+let evaluateQueues: Queue[] = [];
+let app: WearshiftServer;
+let base: string;
+let port: number;
+
+const auth = (role: keyof typeof TOKENS) => ({ authorization: `Bearer ${TOKENS[role]}` });
+
+beforeAll(async () => {
+  redis = await startRedisServer();
+  request = connectRedis(redis.url, 'request');
+  await new Promise((resolve) => request.once('ready', resolve));
+  const incidents = new RedisIncidents(request, { rules: incidentRules(ConfigSchema.parse({})), prefix });
+  const sampledAt = new Date(NOW.getTime() - 86_400_000).toISOString();
+  const step: Step = {
+    sampleId: 'LAB-4001',
+    sampledAt,
+    findings: [{ unit: 'PS4-P2', component: 'gearbox', group: 'gearboxes', measurand: 'Fe', rule: 'limit', disposition: 'incident', severity: 'alarm', value: 90, threshold: 60, basis: 'limit', direction: 'up', sampleId: 'LAB-4001', sampledAt, explanation: 'Fe above the alarm level' }],
+  };
+  await incidents.applySteps({ unit: 'PS4-P2', component: 'gearbox' }, [step], { group: 'gearboxes', now: NOW, quietBefore: new Date(0) });
+  producer = createResultProducer({ connection: request, prefix });
+  const store = new RedisStore(request, { prefix });
+  const partitions = new Partitions(prefix, 1);
+  evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, request, resolveQueueSettings({ prefix }), partitions);
+  app = await buildServer({
+    tokens: accessTokensFromEnv({ WEARSHIFT_TOKEN_INGEST: TOKENS.ingest, WEARSHIFT_TOKEN_RESPONDER: TOKENS.responder, WEARSHIFT_TOKEN_VIEWER: TOKENS.viewer }),
+    logger: silentLogger(),
+    metrics: createMetrics({ defaultMetrics: false }),
+    ping: () => request.ping(),
+    producer,
+    incidents,
+    histories: { store, ledger: store, config: ConfigSchema.parse({}) },
+    sampleVerdicts: new SampleVerdicts(store, evaluateQueues, partitions),
+    hub: createEventHub(),
+    openApi: openApiDocument(),
+    bodyLimitBytes: BODY_LIMIT,
+    // A request whose body never comes is cut off well before the test's bound, so a late check shows as a failure.
+    limits: { requestTimeoutMs: 10_000, headersTimeoutMs: 10_000, keepAliveTimeoutMs: 60_000 },
+  });
+  base = await app.listen({ host: '127.0.0.1', port: 0 });
+  port = (app.server.address() as AddressInfo).port;
+}, 60_000);
+
+afterAll(async () => {
+  await app?.close();
+  await producer?.close();
+  await Promise.all(evaluateQueues.map((q) => q.close()));
+  request?.disconnect();
+  await redis?.dispose();
+});
+
+/**
+ * Sends the request head and `bodyStart` over a raw socket, never the rest of the declared body; resolves with the
+ * status line of the first answer, or with what happened instead.
+ */
+function headOnly(path: string, headers: Record<string, string>, declaredLength: number, bodyStart: string): Promise<string> {
+  return new Promise((resolve) => {
+    const socket = connect({ host: '127.0.0.1', port });
+    let text = '';
+    const done = (what: string) => {
+      clearTimeout(timer);
+      socket.destroy();
+      resolve(what);
+    };
+    const timer = setTimeout(() => done(`no answer within ${ANSWER_WITHIN_MS} ms`), ANSWER_WITHIN_MS);
+    socket.on('error', (e) => done(`socket error ${e.message}`));
+    socket.on('data', (d) => {
+      text += d.toString('latin1');
+      const line = text.indexOf('\r\n');
+      if (line !== -1) done(text.slice(0, line));
+    });
+    socket.on('close', () => done(`closed after ${JSON.stringify(text.slice(0, 40))}`));
+    const head = Object.entries({ host: '127.0.0.1', 'content-type': 'application/json', 'content-length': String(declaredLength), ...headers }).map(([k, v]) => `${k}: ${v}\r\n`);
+    socket.write(`POST ${path} HTTP/1.1\r\n${head.join('')}\r\n${bodyStart}`);
+  });
+}
+
+describe('a request without a usable token', () => {
+  it('is refused with 401 before its body is read: invalid JSON, an empty body, a body over the limit', async () => {
+    for (const path of POSTS) {
+      const bad = await fetch(`${base}${path}`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: '{bad' });
+      expect(`${path} ${bad.status}`).toBe(`${path} 401`);
+      expect(bad.headers.get('www-authenticate')).toMatch(/^Bearer/);
+      expect(((await bad.json()) as { error: string }).error).toBe('unauthorized');
+      const empty = await fetch(`${base}${path}`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: '' });
+      expect(`${path} ${empty.status}`).toBe(`${path} 401`);
+      await empty.text();
+      // Over the limit, sent whole (in-process, so that the close after the refusal cannot cut the upload short).
+      const whole = await app.inject({ method: 'POST', url: path, headers: { 'content-type': 'application/json' }, payload: `[${'1,'.repeat(BODY_LIMIT)}1]` });
+      expect(`${path} ${whole.statusCode}`).toBe(`${path} 401`);
+      // Over the limit by its declared length, and the body never comes: answered at once, not after a timeout.
+      expect(await headOnly(path, {}, 6_000_000, '{')).toBe('HTTP/1.1 401 Unauthorized');
+      expect(await headOnly(path, { authorization: 'Bearer not-a-token' }, 6_000_000, '{')).toBe('HTTP/1.1 401 Unauthorized');
+    }
+  });
+
+  it('whose role does not permit the route is refused with 403 before its body is read', async () => {
+    for (const path of POSTS) {
+      const role = path === '/v1/results' ? 'viewer' : 'ingest';
+      const bad = await fetch(`${base}${path}`, { method: 'POST', headers: { ...auth(role), 'content-type': 'application/json' }, body: '{bad' });
+      expect(`${path} ${bad.status}`).toBe(`${path} 403`);
+      await bad.text();
+      expect(await headOnly(path, auth(role), 6_000_000, '{')).toBe('HTTP/1.1 403 Forbidden');
+    }
+  });
+
+  it('is refused on every guarded GET as well, and a good token still gets through', async () => {
+    for (const path of ['/v1/incidents', INCIDENT, `${COMPONENT}/series`, `${COMPONENT}/chart.svg?measurand=Fe`, '/v1/events', '/metrics']) {
+      const res = await fetch(`${base}${path}`);
+      expect(`${path} ${res.status}`).toBe(`${path} 401`);
+      await res.text();
+    }
+    const note = await fetch(`${base}${INCIDENT}/note`, { method: 'POST', headers: { ...auth('responder'), 'content-type': 'application/json' }, body: JSON.stringify({ by: 'R. Tanaka', note: 'checked the breather' }) });
+    expect(note.status).toBe(200);
+  });
+});
