@@ -32,7 +32,8 @@ export interface IncidentRoutesOptions {
 const CONTROLS_IN_A_LINE = /[\u0000-\u001f\u007f-\u009f\u2028\u2029\u202a-\u202e\u2066-\u2069]/;
 // eslint-disable-next-line no-control-regex
 const CONTROLS_IN_TEXT = /[\u0000-\u0008\u000b-\u001f\u007f-\u009f\u2028\u2029\u202a-\u202e\u2066-\u2069]/;
-const by = z
+/** Who acts: one line of at most 80 characters, no control characters (the sample-verdict route takes the same). */
+export const ActorNameSchema = z
   .string()
   .trim()
   .normalize('NFKC')
@@ -40,6 +41,7 @@ const by = z
   .max(80, 'at most 80 characters')
   .refine((s) => !CONTROLS_IN_A_LINE.test(s), 'must be one line without control characters')
   .describe('Who acts.');
+const by = ActorNameSchema;
 const text = (max: number) =>
   z
     .string()

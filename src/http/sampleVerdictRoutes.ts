@@ -16,6 +16,7 @@ import { z } from 'zod';
 import type { SampleMark } from '../analysis/model.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
 import { requireRole, type AccessTokens } from './auth.ts';
+import { ActorNameSchema } from './incidentRoutes.ts';
 
 /**
  * What the route needs: stores the mark and has the component evaluated again (`taken`), or says that the component
@@ -35,7 +36,7 @@ export interface SampleVerdictRoutesOptions {
 export const VerdictBodySchema = z
   .object({
     verdict: z.enum(['confirmed', 'rejected', 'withdrawn']).describe('confirmed: genuine, back into the trend; rejected: kept out for good; withdrawn: the sampling rule judges it again.'),
-    by: z.string().trim().min(1, 'required').max(80, 'at most 80 characters').describe('Who gives the verdict.'),
+    by: ActorNameSchema.describe('Who gives the verdict.'),
   })
   .strict();
 

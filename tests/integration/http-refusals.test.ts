@@ -1,6 +1,7 @@
 /**
  * How the whole API (buildServer over a real port, a private redis-server behind it) refuses what it cannot take:
- * a request without a usable token is refused before its body is read, whatever the body holds.
+ * a request without a usable token is refused before its body is read, whatever the body holds; a name with control
+ * characters is refused naming the field.
  */
 import { connect } from 'node:net';
 import type { AddressInfo } from 'node:net';
@@ -156,5 +157,26 @@ describe('a request without a usable token', () => {
     }
     const note = await fetch(`${base}${INCIDENT}/note`, { method: 'POST', headers: { ...auth('responder'), 'content-type': 'application/json' }, body: JSON.stringify({ by: 'R. Tanaka', note: 'checked the breather' }) });
     expect(note.status).toBe(200);
+  });
+});
+
+describe('who acts', () => {
+  it('is one line without control characters on every route that records a name, the sample verdict as the incident actions', async () => {
+    const hostile = 'x\u001b[2J\u202e';
+    for (const [path, body] of [
+      [`${COMPONENT}/samples/LAB-4001/verdict`, { verdict: 'confirmed', by: hostile }],
+      [`${INCIDENT}/note`, { by: hostile, note: 'checked' }],
+    ] as const) {
+      const res = await fetch(`${base}${path}`, { method: 'POST', headers: { ...auth('responder'), 'content-type': 'application/json' }, body: JSON.stringify(body) });
+      expect(`${path} ${res.status}`).toBe(`${path} 400`);
+      const answer = (await res.json()) as { error: string; message: string; issues: { field: string; message: string }[] };
+      expect(answer.error).toBe('invalid-request');
+      expect(answer.issues).toEqual([{ field: 'body.by', message: 'must be one line without control characters' }]);
+      expect(answer.message).toBe('body.by: must be one line without control characters');
+    }
+    // An over-long name is refused the same way.
+    const long = await fetch(`${base}${COMPONENT}/samples/LAB-4001/verdict`, { method: 'POST', headers: { ...auth('responder'), 'content-type': 'application/json' }, body: JSON.stringify({ verdict: 'confirmed', by: 'n'.repeat(81) }) });
+    expect(long.status).toBe(400);
+    expect(((await long.json()) as { issues: { field: string }[] }).issues.map((i) => i.field)).toEqual(['body.by']);
   });
 });
