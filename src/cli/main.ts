@@ -5,6 +5,13 @@ import { Command, CommanderError, Help } from 'commander';
 import { InputError } from '../domain/errors.ts';
 import { COMMANDS, type CommandEntry } from './commandIndex.ts';
 
+/** The exit code of an error the user can fix: a usage error, bad input, bad configuration. */
+export const EXIT_USAGE = 2;
+
+const EXIT_CODES = `Exit codes: 0 done; 1 some records were rejected (import, replay, backtest: the others were taken), the demo's
+own checks failed, or an unexpected failure (printed with its stack trace); 2 a usage or input error (unknown option,
+missing argument, bad value, unreadable file, bad configuration), printed without a stack trace.`;
+
 /**
  * The program with every command listed and `load` (or, by default, none) loaded in full. A command not loaded is
  * there by name and summary only: enough for `wearshift --help`, for "did you mean" and for `help <command>` to
@@ -14,7 +21,7 @@ export async function buildProgram(load: (entry: CommandEntry) => boolean = () =
   const program = new Command('wearshift')
     .description('Early warnings from used-oil analysis: wear-rate change detection beside classic limits, incidents and escalation.')
     .version(packageVersion(), '-V, --version', 'print the version of wearshift')
-    .addHelpText('after', `\nEnvironment: REDIS_URL, REDIS_CLUSTER_NODES (host:port,… of a Redis Cluster), WEARSHIFT_CONFIG, PORT, WEARSHIFT_TOKEN_INGEST, WEARSHIFT_TOKEN_RESPONDER, WEARSHIFT_TOKEN_VIEWER.\n\n${ADVISORY_CAUTION}`)
+    .addHelpText('after', `\nEnvironment: REDIS_URL, REDIS_CLUSTER_NODES (host:port,… of a Redis Cluster), WEARSHIFT_CONFIG, PORT, WEARSHIFT_TOKEN_INGEST, WEARSHIFT_TOKEN_RESPONDER, WEARSHIFT_TOKEN_VIEWER.\n\n${EXIT_CODES}\n\n${ADVISORY_CAUTION}`)
     .showHelpAfterError()
     .exitOverride();
   const usage = new Map(COMMANDS.map((c) => [c.name, c.usage]));
@@ -50,10 +57,13 @@ export async function main(argv: string[]): Promise<number> {
     await program.parseAsync(argv, { from: 'user' });
     return typeof process.exitCode === 'number' ? process.exitCode : 0;
   } catch (e) {
-    if (e instanceof CommanderError) return e.exitCode;
+    // Commander has printed its message (and the usage). --help and --version end with 0; an unknown option, a missing
+    // argument or a value an option parser refused is a usage error: 2, like every other error the user can fix, so
+    // that 1 keeps meaning "some records were rejected".
+    if (e instanceof CommanderError) return e.exitCode === 0 ? 0 : EXIT_USAGE;
     if (e instanceof InputError) {
       process.stderr.write(`wearshift: ${e.message}\n`);
-      return 2;
+      return EXIT_USAGE;
     }
     process.stderr.write(`wearshift: ${e instanceof Error ? (e.stack ?? e.message) : String(e)}\n`);
     return 1;
