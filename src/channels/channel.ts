@@ -10,10 +10,14 @@ import type { IncidentMessage } from '../notify/message.ts';
 import type { FloodSummary } from '../notify/floodControl.ts';
 import type { EmailChart } from '../notify/incidentChart.ts';
 
-/** Webhook endpoints (or other targets) a receiver asked never to call again, kept where every process sees them. */
+/**
+ * Webhook endpoints (or other targets) a receiver asked never to call again, kept where every process sees them. A
+ * mark holds for the name at the URL that asked: a name given another URL is called again.
+ */
 export interface DisabledEndpoints {
-  reason(name: string): Promise<string | undefined>;
-  disable(name: string, reason: string): Promise<void>;
+  /** Why the endpoint of this name at this URL is disabled; undefined while it is not. */
+  reason(name: string, url: string): Promise<string | undefined>;
+  disable(name: string, url: string, reason: string): Promise<void>;
 }
 
 /** What every channel may use. */

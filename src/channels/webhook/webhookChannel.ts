@@ -1,4 +1,9 @@
-/** The webhook channel: a CloudEvent signed by Standard Webhooks, POSTed to each named endpoint; 410 Gone disables it. */
+/**
+ * The webhook channel: a CloudEvent signed by Standard Webhooks, POSTed to each named endpoint. 410 Gone disables the
+ * endpoint at that URL: later messages to it fail without a request (each with a warning), so that
+ * `wearshift failed list` shows them and `wearshift failed retry` sends them once the endpoint is enabled again
+ * (`wearshift failed enable-webhook NAME`, or another URL in the configuration).
+ */
 import { toCloudEvent, type IncidentCloudEvent } from '../../notify/cloudEvent.ts';
 import { floodSummaryEvent } from '../../notify/floodControl.ts';
 import type { ChannelDefinition } from '../channel.ts';
@@ -9,13 +14,21 @@ import { deliverWebhook } from './webhookDelivery.ts';
 export const webhookChannel: ChannelDefinition = {
   secretRefs: (channels) => channels.webhooks.flatMap((w) => w.secrets),
   configured: (channels) => channels.webhooks.length > 0,
-  open(channels, { env, disabledEndpoints }) {
+  open(channels, { env, disabledEndpoints, logger }) {
+    /** Refuses a message to an endpoint that answered 410 Gone at its configured URL. */
+    const refuseIfDisabled = async (c: { name: string; url: string }, what: Record<string, unknown>) => {
+      const disabled = await disabledEndpoints?.reason(c.name, c.url);
+      if (disabled === undefined) return;
+      logger.warn({ channel: `webhook:${c.name}`, ...what, disabled }, 'webhook endpoint disabled by 410 Gone: message not sent');
+      throw new DeliveryRefused(
+        `webhook ${c.name}: not sent, the endpoint is disabled (${disabled}); \`wearshift failed enable-webhook ${c.name}\` enables it again, then \`wearshift failed retry\` sends this message`,
+      );
+    };
     return {
       async deliver({ effect, message, attempt }) {
         const c = channels.webhooks.find((w) => w.name === effect.target);
         if (c === undefined) throw new DeliveryRefused(`no webhook named "${effect.target}" in channels.webhooks`);
-        const disabled = await disabledEndpoints?.reason(c.name);
-        if (disabled !== undefined) return `webhook ${c.name}: not sent, the endpoint is disabled (${disabled})`;
+        await refuseIfDisabled(c, { incidentId: effect.incidentId, type: effect.type });
         const endpoint = { url: c.url, secrets: c.secrets.map((s) => secretFrom(s, env, `channels.webhooks ${c.name}`)), timeoutMs: c.timeoutMs };
         const result = await deliverWebhook(endpoint, toCloudEvent(message, { time: effect.at }), { now: new Date(), attempt });
         const what = `webhook ${c.name}: ${result.error ?? result.status ?? 'no response'}`;
@@ -25,8 +38,10 @@ export const webhookChannel: ChannelDefinition = {
           case 'retry':
             throw new DeliveryRetry(what, result.retryAfterMs);
           case 'disable':
-            await disabledEndpoints?.disable(c.name, `410 Gone at ${new Date().toISOString()}`);
-            throw new DeliveryRefused(`${what}: the receiver answered 410 Gone and asks not to be called again; the endpoint is disabled until removed from the configuration`);
+            await disabledEndpoints?.disable(c.name, c.url, `410 Gone at ${new Date().toISOString()}`);
+            throw new DeliveryRefused(
+              `${what}: the receiver answered 410 Gone and asks not to be called again; the endpoint is disabled until its URL changes in the configuration or \`wearshift failed enable-webhook ${c.name}\``,
+            );
           case 'give-up':
             throw new DeliveryRefused(`${what}: the receiver refused the delivery`);
         }
@@ -34,12 +49,14 @@ export const webhookChannel: ChannelDefinition = {
       async deliverSummary(s, window, attempt) {
         const c = channels.webhooks.find((w) => w.name === s.target);
         if (c === undefined) throw new DeliveryRefused(`no webhook named "${s.target}" in channels.webhooks`);
+        await refuseIfDisabled(c, { floodSummary: window });
         const endpoint = { url: c.url, secrets: c.secrets.map((x) => secretFrom(x, env, `channels.webhooks ${c.name}`)), timeoutMs: c.timeoutMs };
         // The delivery signs and posts any CloudEvent; only its id and body are read.
         const result = await deliverWebhook(endpoint, floodSummaryEvent(s, window) as unknown as IncidentCloudEvent, { now: new Date(), attempt });
         const what = `flood summary by webhook ${c.name}: ${result.error ?? result.status ?? 'no response'}`;
         if (result.outcome === 'delivered') return what;
         if (result.outcome === 'retry') throw new DeliveryRetry(what, result.retryAfterMs);
+        if (result.outcome === 'disable') await disabledEndpoints?.disable(c.name, c.url, `410 Gone at ${new Date().toISOString()}`);
         throw new DeliveryRefused(what);
       },
       async close() {},

@@ -1,4 +1,7 @@
-/** `wearshift failed list|retry`: failed jobs with their reasons, and retrying them once the cause is fixed. */
+/**
+ * `wearshift failed list|retry|webhooks|enable-webhook`: failed jobs with their reasons, retrying them once the cause
+ * is fixed, and the webhook endpoints a 410 Gone disabled, which fail every message to them until enabled again.
+ */
 import type { Command } from 'commander';
 import type { Config } from '../../domain/config.ts';
 import { loadConfig } from '../../runtime/loadConfig.ts';
@@ -6,6 +9,7 @@ import { InputError } from '../../domain/errors.ts';
 import { ALL_QUEUES, isQueueName, listFailedJobs, retryAllFailedJobs, retryFailedJob } from '../../queue/failedJobs.ts';
 import type { QueueName } from '../../queue/queues.ts';
 import { closeQuietly, connectForCommand, redisTarget, type RedisConnection as Redis } from '../../redis/connection.ts';
+import { enableEndpoint, listDisabledEndpoints, type DisabledEndpoint } from '../../redis/disabledEndpoints.ts';
 import { formatTable, writeJsonLine, redisChoice } from '../output.ts';
 import { terminalText } from '../terminalText.ts';
 
@@ -33,6 +37,13 @@ function queuesOf(opts: FailedOptions): QueueName[] {
   return [opts.queue];
 }
 
+/** Where a disabled endpoint stands against the configuration: still disabled, or no longer (its URL changed, or it is gone). */
+function standing(endpoint: DisabledEndpoint, config: Config): 'disabled' | 'url changed' | 'not configured' {
+  const configured = config.channels.webhooks.find((w) => w.name === endpoint.name);
+  if (configured === undefined) return 'not configured';
+  return endpoint.appliesTo(configured.url) ? 'disabled' : 'url changed';
+}
+
 export function registerFailed(program: Command): void {
   const failed = program.command('failed');
   failed
@@ -45,10 +56,17 @@ export function registerFailed(program: Command): void {
       withRedis(opts, async (redis, config) => {
         const jobs = await listFailedJobs(redis, config.redis.prefix, queuesOf(opts), 1000, config.redis.partitions);
         if (opts.json) return jobs.forEach((j) => writeJsonLine(j));
-        if (jobs.length === 0) return void process.stdout.write('no failed jobs\n');
-        const rows = jobs.map((j) => [j.ref, j.subject ?? '', j.failedAt?.slice(0, 19).replace('T', ' ') ?? '', j.attempts, j.reason]);
-        // What a job is about and why it failed can quote what a producer sent: shown escaped, never acting on the terminal.
-        process.stdout.write(terminalText(formatTable(['job', 'about', 'failed at', 'attempts', 'reason'], rows)));
+        if (jobs.length === 0) process.stdout.write('no failed jobs\n');
+        else {
+          const rows = jobs.map((j) => [j.ref, j.subject ?? '', j.failedAt?.slice(0, 19).replace('T', ' ') ?? '', j.attempts, j.reason]);
+          // What a job is about and why it failed can quote what a producer sent: shown escaped, never acting on the terminal.
+          process.stdout.write(terminalText(formatTable(['job', 'about', 'failed at', 'attempts', 'reason'], rows)));
+        }
+        const disabled = (await listDisabledEndpoints(redis, config.redis.prefix)).filter((e) => standing(e, config) === 'disabled');
+        if (disabled.length > 0) {
+          const names = disabled.map((e) => e.name).join(', ');
+          process.stdout.write(terminalText(`webhook endpoints disabled by 410 Gone, every message to them fails: ${names} (see \`wearshift failed webhooks\`)\n`));
+        }
       }),
     );
   failed
@@ -75,6 +93,32 @@ export function registerFailed(program: Command): void {
         if (!(await retryFailedJob(redis, config.redis.prefix, queue, id, config.redis.partitions, partition))) throw new InputError(`${job}: no such failed job`);
         if (opts.json) writeJsonLine({ retried: 1, job });
         else process.stdout.write(`${job} back on the queue\n`);
+      }),
+    );
+  failed
+    .command('webhooks')
+    .description('list the webhook endpoints a 410 Gone disabled: every message to one fails until it is enabled again or its URL changes')
+    .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
+    .option('--json', 'one JSON object per endpoint')
+    .action((opts: FailedOptions) =>
+      withRedis(opts, async (redis, config) => {
+        const endpoints = (await listDisabledEndpoints(redis, config.redis.prefix)).map((e) => ({ name: e.name, url: e.where ?? '', reason: e.reason, state: standing(e, config) }));
+        if (opts.json) return endpoints.forEach((e) => writeJsonLine(e));
+        if (endpoints.length === 0) return void process.stdout.write('no disabled webhook endpoints\n');
+        process.stdout.write(terminalText(formatTable(['webhook', 'url', 'state', 'why'], endpoints.map((e) => [e.name, e.url, e.state, e.reason]))));
+      }),
+    );
+  failed
+    .command('enable-webhook')
+    .description('enable a webhook endpoint a 410 Gone disabled (then `failed retry` sends the messages that failed meanwhile)')
+    .argument('<name>', 'the webhook name in channels.webhooks')
+    .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
+    .option('--json', 'a JSON summary')
+    .action((name: string, opts: FailedOptions) =>
+      withRedis(opts, async (redis, config) => {
+        if (!(await enableEndpoint(redis, config.redis.prefix, name))) throw new InputError(`${name}: no disabled webhook endpoint of that name (\`wearshift failed webhooks\` lists them)`);
+        if (opts.json) writeJsonLine({ enabled: name });
+        else process.stdout.write(terminalText(`${name} enabled: messages go to it again\n`));
       }),
     );
 }
