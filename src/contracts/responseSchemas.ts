@@ -19,7 +19,7 @@ export const RecordOutcomeSchema = z
     sampleId: z.string().optional(),
     status: z.enum(['accepted', 'rejected']),
     errors: z.array(FieldIssueSchema).optional(),
-    moreErrors: z.number().int().min(0).optional().describe('Problems of this record not listed (beyond the first 100 rejected records, three are listed per record).'),
+    moreErrors: z.number().int().min(0).optional().describe('Problems of this record not listed: the first 100 rejected records list up to 20 problems each, later ones three.'),
     conflict: z.literal(true).optional().describe('Refused because the same sampleId and revision is stored (or earlier in the request) with other content; a correction needs a higher revision.'),
     warnings: z.array(FieldIssueSchema).optional().describe('Accepted, but worth a look: e.g. a name that mixes scripts or is written in letters that look Latin.'),
   })

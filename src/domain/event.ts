@@ -36,6 +36,12 @@ const readingValue = z.union([z.number(), z.string().max(40, 'a reading string m
 /** The start of the reason given for a sampledAt ahead of the server clock (counted as its own kind of rejection). */
 export const FUTURE_REASON = 'lies in the future';
 
+/** Most entries one record's readings may hold: one per measurand of the catalogue. */
+export const MAX_READINGS = MEASURAND_NAMES.length;
+
+/** Longest measurand name a record may give; a longer one is echoed in a problem's path cut to this length. */
+const MAX_NAME_CHARS = 40;
+
 export const ResultEventSchema = z
   .object({
     sampleId: identifier('sampleId').describe('The laboratory sample number; with revision, the identity of a result.'),
@@ -56,8 +62,10 @@ export const ResultEventSchema = z
     topUpLitres: z.number().finite().min(0, 'topUpLitres must not be negative').max(1e6).default(0).describe('Make-up oil added since the previous sample, in litres.'),
     lab: identifier('lab').optional().describe('The reporting laboratory.'),
     readings: z
-      .record(z.string().max(40), readingValue)
+      .record(z.string().max(MAX_NAME_CHARS), readingValue, { error: (i) => (i.code === 'invalid_key' ? `a measurand name is at most ${MAX_NAME_CHARS} characters` : undefined) })
       .refine((r) => Object.keys(r).length > 0, 'readings must hold at least one measurand')
+      .refine((r) => Object.keys(r).length <= MAX_READINGS, { error: (i) => tooManyReadings(Object.keys(i.input as object).length) })
+      .meta({ maxProperties: MAX_READINGS })
       .describe(`Readings by measurand: a number, a censored string such as "<1", or for iso4406 a code "18/16/13". Known measurands: ${MEASURAND_NAMES.join(', ')}.`),
   })
   .strict();
@@ -91,20 +99,65 @@ export interface FieldIssue {
 
 export type ParsedEvent = { ok: true; sample: Sample } | { ok: false; issues: FieldIssue[] };
 
-/** Validates one event. Every problem is reported with its field path; nothing is guessed or dropped. */
+const FIELDS = new Set(Object.keys(ResultEventSchema.shape));
+const WITHOUT_READINGS = ResultEventSchema.omit({ readings: true });
+/** Unknown fields named in the reason; the rest are counted. */
+const UNKNOWN_FIELDS_NAMED = 5;
+
+function tooManyReadings(count: number): string {
+  return `readings hold ${count} entries, more than the ${MAX_READINGS} measurands of the catalogue: each measurand may appear once (see the measurand catalogue in the README)`;
+}
+
+/** A name as a problem echoes it: cut to MAX_NAME_CHARS characters, so that the answer stays small whatever was sent. */
+function shown(name: string): string {
+  return name.length > MAX_NAME_CHARS ? `${name.slice(0, MAX_NAME_CHARS)}…` : name;
+}
+
+const isPlainObject = (v: unknown): v is Record<string, unknown> => typeof v === 'object' && v !== null && !Array.isArray(v);
+
+/**
+ * Validates one event. Every problem is reported with its field path; nothing is guessed or dropped. The problems
+ * of a record are bounded whatever it holds: unknown fields are named (the first few) and counted in one problem, and
+ * readings with more entries than the catalogue has measurands are refused on their count without judging each.
+ */
 export function parseResultEvent(input: unknown): ParsedEvent {
-  const parsed = ResultEventSchema.safeParse(input);
-  if (!parsed.success) {
+  let record = input;
+  const early: FieldIssue[] = [];
+  let schema: z.ZodType = ResultEventSchema;
+  if (isPlainObject(input)) {
+    const names = Object.keys(input);
+    const known = [...FIELDS].filter((f) => Object.hasOwn(input, f));
+    const unknownCount = names.length - known.length;
+    if (unknownCount > 0) {
+      const named: string[] = [];
+      for (let i = 0; i < names.length && named.length < UNKNOWN_FIELDS_NAMED; i++) if (!FIELDS.has(names[i]!)) named.push(`"${shown(names[i]!)}"`);
+      const more = unknownCount > named.length ? ` and ${unknownCount - named.length} more` : '';
+      early.push({ path: '', reason: `unknown field${unknownCount > 1 ? 's' : ''} ${named.join(', ')}${more} (a result event holds ${[...FIELDS].join(', ')})` });
+      record = Object.fromEntries(known.map((f) => [f, input[f]]));
+    }
+    const readings = (record as { readings?: unknown }).readings;
+    if (isPlainObject(readings)) {
+      const count = Object.keys(readings).length;
+      if (count > MAX_READINGS) {
+        early.push({ path: 'readings', reason: tooManyReadings(count) });
+        const { readings: _refused, ...rest } = record as Record<string, unknown>;
+        record = rest;
+        schema = WITHOUT_READINGS;
+      }
+    }
+  }
+  const parsed = schema.safeParse(record);
+  if (!parsed.success || early.length > 0) {
     // Every problem of the record at once: the readings are judged too, so that one correction round is enough.
-    const issues = parsed.error.issues.map((i) => ({ path: i.path.join('.'), reason: i.message }));
-    const raw = typeof input === 'object' && input !== null ? (input as { readings?: unknown }).readings : undefined;
-    if (typeof raw === 'object' && raw !== null && !Array.isArray(raw)) {
+    const issues = [...early, ...(parsed.error?.issues ?? []).map((i) => ({ path: i.path.map((p) => shown(String(p))).join('.'), reason: i.message }))];
+    const raw = (record as { readings?: unknown } | undefined)?.readings;
+    if (schema === ResultEventSchema && isPlainObject(raw)) {
       const reported = new Set(issues.map((i) => i.path));
-      for (const issue of readingIssues(raw as Record<string, unknown>)) if (!reported.has(issue.path)) issues.push(issue);
+      for (const issue of readingIssues(raw)) if (!reported.has(issue.path)) issues.push(issue);
     }
     return { ok: false, issues };
   }
-  const e = parsed.data;
+  const e = parsed.data as z.output<typeof ResultEventSchema>;
   const issues: FieldIssue[] = [];
   const readings: Partial<Record<Measurand, Reading>> = {};
   for (const [name, raw] of Object.entries(e.readings)) {
@@ -140,7 +193,7 @@ export function parseResultEvent(input: unknown): ParsedEvent {
 function readingIssues(readings: Record<string, unknown>): FieldIssue[] {
   const issues: FieldIssue[] = [];
   for (const [name, raw] of Object.entries(readings)) {
-    if (!isMeasurand(name)) issues.push({ path: `readings.${name}`, reason: 'unknown measurand (see the measurand catalogue in the README)' });
+    if (!isMeasurand(name)) issues.push({ path: `readings.${shown(name)}`, reason: 'unknown measurand (see the measurand catalogue in the README)' });
     else if (typeof raw === 'number' || typeof raw === 'string') {
       const r = parseReading(raw, name);
       if (!r.ok) issues.push({ path: `readings.${name}`, reason: r.reason });

@@ -5,7 +5,8 @@
  * 413 above the body limit or above `maxRecords` records (the message names the limit; nothing was accepted);
  * 503 with Retry-After when the queue cannot take the records (then none was accepted) or does not answer within the
  * command timeout (then some may yet arrive: sending them again is harmless). The reply stays small whatever is sent:
- * every rejected record names its first problems, the first `detailedRejections` of them all their problems.
+ * the first `detailedRejections` rejected records list up to `ISSUES_PER_DETAILED_RECORD` problems each, later ones their
+ * first `ISSUES_PER_RECORD`, and `moreErrors` counts the rest (a record's problems are bounded too: see parseResultEvent).
  */
 import type { FastifyError, FastifyPluginAsync } from 'fastify';
 import type { RecordOutcome } from '../intake/validate.ts';
@@ -24,13 +25,15 @@ export interface ResultRoutesOptions {
   bodyLimitBytes?: number;
   /** Most records in one request. Default 5 000 (limits.ts). */
   maxRecords?: number;
-  /** Rejected records whose every problem is listed; later ones list their first `ISSUES_PER_RECORD`. Default 100. */
+  /** Rejected records that list up to `ISSUES_PER_DETAILED_RECORD` problems; later ones list `ISSUES_PER_RECORD`. Default 100. */
   detailedRejections?: number;
 }
 
 export const DEFAULT_BODY_LIMIT_BYTES = DEFAULT_HTTP_LIMITS.bodyLimitBytes;
 /** Problems listed per rejected record beyond the first `detailedRejections` ones (the rest are counted). */
 export const ISSUES_PER_RECORD = 3;
+/** Problems listed per rejected record among the first `detailedRejections` ones (the rest are counted). */
+export const ISSUES_PER_DETAILED_RECORD = 20;
 
 const NDJSON = 'application/x-ndjson';
 
@@ -114,9 +117,11 @@ export const resultRoutes: FastifyPluginAsync<ResultRoutesOptions> = async (app,
       const line = r.line === undefined ? {} : { line: r.line };
       const outcome: RecordOutcome =
         r.notJson !== undefined ? { index: r.position, ...line, status: 'rejected', errors: [{ path: '', reason: r.notJson }] } : { ...byPosition.get(r.position)!, index: r.position, ...line };
+      if (outcome.status !== 'rejected') return outcome;
       const errors = outcome.errors ?? [];
-      if (outcome.status !== 'rejected' || ++rejections <= detailed || errors.length <= ISSUES_PER_RECORD) return outcome;
-      return { ...outcome, errors: errors.slice(0, ISSUES_PER_RECORD), moreErrors: errors.length - ISSUES_PER_RECORD };
+      const listed = ++rejections <= detailed ? ISSUES_PER_DETAILED_RECORD : ISSUES_PER_RECORD;
+      if (errors.length <= listed) return outcome;
+      return { ...outcome, errors: errors.slice(0, listed), moreErrors: errors.length - listed };
     });
     const accepted = outcomes.filter((o) => o.status === 'accepted').length;
     options.metrics?.accepted('http', accepted);

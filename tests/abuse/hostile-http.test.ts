@@ -1,6 +1,6 @@
 /**
  * The API under hostile load over a real port on 127.0.0.1, with a private redis-server: record caps per request,
- * slow bodies and idle sockets cut off (with and without a token), incident ids of the longest valid length acted
+ * problems per record bounded however wide the record, slow bodies and idle sockets cut off (with and without a token), incident ids of the longest valid length acted
  * on, slow live-event clients dropped and their number capped, secrets kept out of the captured log, who
  * acknowledged recorded by credential, and 503 with Retry-After while Redis is away. Each attack runs beside a
  * /healthz poller; memory and probe latency are measured and bounded generously (a busy two-core machine).
@@ -41,7 +41,7 @@ const CONFIG_SECRETS = {
   HOSTILE_MQTT_PASSWORD: 'mqtt-password-hostile-41bb',
   HOSTILE_ACK_SECRET: ACK_SECRET,
 };
-const LITERAL_WEBHOOK_SECRET = 'whsec_aG9zdGlsZS1saXRlcmFsLXNlY3JldA==';
+const LITERAL_WEBHOOK_SECRET = 'whsec_aG9zdGlsZS1saXRlcmFsLXNlY3JldCEh';
 const SERVICE_CONFIG = parseConfig(`
 channels:
   email:
@@ -205,6 +205,35 @@ describe('records per request', () => {
     expect(outcomes.every((o) => o.status === 'rejected' && o.errors.length > 0)).toBe(true);
     expect(outcomes[499]!.errors.length).toBeLessThanOrEqual(3);
     expect(text.length).toBeLessThan(500 * 400);
+    const health = await probe.stop();
+    expect(health.failures).toEqual([]);
+    expect(health.slowest).toBeLessThan(HEALTHZ_MAX_MS);
+    expect(process.memoryUsage().rss - rssBefore).toBeLessThan(MEMORY_GROWTH_MAX);
+  }, 120_000);
+});
+
+describe('problems per record', () => {
+  it('stay bounded however wide a record is: readings over the catalogue refused on their count, at most 20 problems listed', async () => {
+    const rssBefore = process.memoryUsage().rss;
+    const probe = startProbe();
+    const record = { sampleId: 'WIDE-1', unit: 'PS7', component: 'gearbox', sampledAt: NOW.toISOString() };
+    // 300 000 unknown measurands in one record (about 4 MB): one problem naming the field and the count.
+    const readings = Object.fromEntries(Array.from({ length: 300_000 }, (_, i) => [`m${i}`, i]));
+    const body = JSON.stringify({ ...record, readings });
+    expect(body.length).toBeGreaterThan(3_000_000);
+    const wide = await fetch(`${base}/v1/results`, { method: 'POST', headers: { ...auth('ingest'), 'content-type': 'application/json' }, body });
+    expect(wide.status).toBe(422);
+    const text = await wide.text();
+    expect(text.length).toBeLessThan(2000);
+    expect(JSON.parse(text)).toEqual([{ index: 0, sampleId: 'WIDE-1', status: 'rejected', errors: [{ path: 'readings', reason: expect.stringMatching(/^readings hold 300000 entries, more than the \d+ measurands of the catalogue/) }] }]);
+    // Within the catalogue's size but every entry wrong: the first 20 listed, the rest counted.
+    const wrong = Object.fromEntries(Array.from({ length: 30 }, (_, i) => [`Zz${i}`, 1]));
+    const many = await fetch(`${base}/v1/results`, { method: 'POST', headers: { ...auth('ingest'), 'content-type': 'application/json' }, body: JSON.stringify({ ...record, sampleId: 'WIDE-2', readings: wrong }) });
+    expect(many.status).toBe(422);
+    const [outcome] = (await many.json()) as { errors: { path: string }[]; moreErrors?: number }[];
+    expect(outcome!.errors).toHaveLength(20);
+    expect(outcome!.errors[0]!.path).toBe('readings.Zz0');
+    expect(outcome!.moreErrors).toBe(10);
     const health = await probe.stop();
     expect(health.failures).toEqual([]);
     expect(health.slowest).toBeLessThan(HEALTHZ_MAX_MS);
