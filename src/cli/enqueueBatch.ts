@@ -6,6 +6,7 @@ import { InputError } from '../domain/errors.ts';
 import type { FieldIssue } from '../domain/event.ts';
 import type { ValidatedRecord } from '../intake/validate.ts';
 import type { ResultProducer } from '../queue/producer.ts';
+import { FileReadError } from '../intake/fileRecords.ts';
 
 export interface ImportCounts {
   accepted: number;
@@ -37,4 +38,10 @@ export async function enqueueBatch(
       refused(o.index, o.sampleId, o.errors ?? []);
     }
   }
+}
+
+/** A file that could not be read to its end says what was enqueued before: those results are in, and stay once if imported again. */
+export function withEnqueuedSoFar(e: unknown, counts: ImportCounts): unknown {
+  if (!(e instanceof FileReadError) || counts.enqueued === 0) return e;
+  return new FileReadError(`${e.message}; the ${counts.enqueued} results read before it were enqueued (a result imported again is stored once)`);
 }

@@ -7,7 +7,7 @@
  * componentChanged then default to false). Numbers and the booleans true/false are converted; anything else is
  * passed on as text for validation to judge (so "no", "0" or "yes" in oilChanged is rejected, not guessed), and a
  * censored reading "<1" or an ISO 4406 code "18/16/13" stays as the lab wrote it.
- * JSONL: one JSON event per line; blank lines are skipped.
+ * JSONL: one JSON event per line; blank lines are skipped, and so is a UTF-8 byte-order mark before the first (as in CSV).
  */
 import { createReadStream, type ReadStream } from 'node:fs';
 import { createInterface } from 'node:readline';
@@ -31,13 +31,37 @@ export function formatOf(path: string, explicit?: string): FileFormat {
 
 export function readRecordFile(path: string, format: FileFormat): { records: AsyncIterable<SourceRecord>; stream: ReadStream } {
   const stream = createReadStream(path);
-  return { stream, records: format === 'csv' ? csvRecords(stream) : jsonlRecords(stream) };
+  return { stream, records: stoppingAtReadError(path, stream, format === 'csv' ? csvRecords(stream) : jsonlRecords(stream)) };
+}
+
+/** A file that could not be read (on): the user's to fix, printed without a stack (exit 2). */
+export class FileReadError extends InputError {}
+
+/**
+ * `records`, read from `stream`, until the file cannot be read on (a directory, a device, an I/O error): then an
+ * InputError "FILE: cannot read the file: reason" (exit 2, no stack) after the records read before it, instead of an
+ * unhandled stream error. The listener is on the stream from the start, so an error before the first record is caught too.
+ */
+export function stoppingAtReadError<T>(path: string, stream: Readable, records: AsyncIterable<T>): AsyncIterable<T> {
+  let failure: Error | undefined;
+  stream.on('error', (e: Error) => (failure ??= e));
+  const refusal = () => new FileReadError(`${path}: cannot read the file: ${failure!.message}`);
+  return (async function* () {
+    try {
+      yield* records;
+    } catch (e) {
+      if (failure === undefined) throw e;
+    }
+    if (failure !== undefined) throw refusal();
+  })();
 }
 
 export async function* jsonlRecords(input: Readable): AsyncIterable<SourceRecord> {
   let line = 0;
-  for await (const text of createInterface({ input, crlfDelay: Infinity })) {
+  for await (const raw of createInterface({ input, crlfDelay: Infinity })) {
     line += 1;
+    // A byte-order mark (as some Windows tools write UTF-8) belongs to no record: without this, the first one is lost.
+    const text = line === 1 && raw.startsWith('\uFEFF') ? raw.slice(1) : raw;
     if (text.trim() === '') continue;
     try {
       yield { line, record: JSON.parse(text) as unknown };
@@ -85,12 +109,15 @@ export type ParsedRow = { record: string[]; line: number } | { error: string; li
 
 /**
  * The parser's rows, then its error if any. A stream's own async iterator drops rows still buffered when the
- * stream fails, and every row before a syntax error must still be imported or reported.
+ * stream fails, and every row before a syntax error must still be imported or reported. When the input itself fails
+ * (the file cannot be read on), the rows parsed before are given, then the input's error is thrown.
  */
 export async function* parsedRows(input: Readable, options: { delimiter?: string; skip_empty_lines?: boolean } = {}): AsyncIterable<ParsedRow> {
+  if (input.errored) throw input.errored;
   const parser = input.pipe(parse({ bom: true, relax_column_count: true, skip_empty_lines: true, trim: true, ...options, info: true }));
   const queue: ParsedRow[] = [];
   let finished = false;
+  let readFailure: Error | undefined;
   let wake: (() => void) | undefined;
   const notify = () => {
     wake?.();
@@ -110,6 +137,13 @@ export async function* parsedRows(input: Readable, options: { delimiter?: string
     finished = true;
     notify();
   });
+  // pipe() does not pass the input's error on: without this the parser would wait for an end that never comes.
+  input.once('error', (e: Error) => {
+    readFailure = e;
+    finished = true;
+    parser.destroy();
+    notify();
+  });
   for (;;) {
     const next = queue.shift();
     if (next !== undefined) {
@@ -118,6 +152,7 @@ export async function* parsedRows(input: Readable, options: { delimiter?: string
       if ('error' in next) return;
       continue;
     }
+    if (readFailure !== undefined) throw readFailure;
     if (finished) return;
     await new Promise<void>((resolve) => (wake = resolve));
   }

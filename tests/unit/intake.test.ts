@@ -1,7 +1,7 @@
 /** Reading result files (CSV, JSONL) into records, and the validation every intake path shares. */
 import { Readable } from 'node:stream';
 import { describe, expect, it } from 'vitest';
-import { csvRecords, formatOf, jsonlRecords, type SourceRecord } from '../../src/intake/fileRecords.ts';
+import { csvRecords, FileReadError, formatOf, jsonlRecords, stoppingAtReadError, type SourceRecord } from '../../src/intake/fileRecords.ts';
 import { validateBatch, validateResult } from '../../src/intake/validate.ts';
 
 async function all(it: AsyncIterable<SourceRecord>): Promise<SourceRecord[]> {
@@ -83,10 +83,56 @@ describe('JSONL records', () => {
     ]);
   });
 
+  it('reads the first record of a file that starts with a UTF-8 byte-order mark', async () => {
+    const records = await all(jsonlRecords(Readable.from([Buffer.from('\uFEFF{"sampleId":"A"}\n{"sampleId":"B"}\n', 'utf8')])));
+    expect(records).toEqual([
+      { line: 1, record: { sampleId: 'A' } },
+      { line: 2, record: { sampleId: 'B' } },
+    ]);
+    // Only before the first record: elsewhere it is part of the line, and the line is reported.
+    const inside = await all(jsonlRecords(Readable.from(['{"sampleId":"A"}\n\uFEFF{"sampleId":"B"}\n'])));
+    expect(inside[1]).toMatchObject({ line: 2, issues: [{ reason: expect.stringMatching(/^not valid JSON/) }] });
+  });
+
   it('tells the format by the file name', () => {
     expect(formatOf('a/b.CSV')).toBe('csv');
     expect(formatOf('x.ndjson')).toBe('jsonl');
     expect(() => formatOf('x.txt')).toThrow(/--format/);
+  });
+});
+
+describe('a file that cannot be read to its end', () => {
+  /** A stream that gives `text`, then fails as a disk or a directory does. */
+  function failingAfter(text: string): Readable {
+    const stream = new Readable({ read() {} });
+    stream.push(text);
+    setImmediate(() => stream.destroy(Object.assign(new Error('EIO: i/o error, read'), { code: 'EIO' })));
+    return stream;
+  }
+
+  for (const [format, read, text] of [
+    ['CSV', csvRecords, 'sampleId,unit,component,sampledAt,Fe\nA,U,c,2026-03-01T08:00:00Z,1\nB,U,c,2026-03-01T09:00:00Z,2\nC,U,c,2026-03-01T1'],
+    ['JSONL', jsonlRecords, '{"sampleId":"A"}\n{"sampleId":"B"}\n{"sampleId":"C","read'],
+  ] as const) {
+    it(`${format}: gives the whole records read before, not the cut one, then an InputError naming the file and the reason`, async () => {
+      const stream = failingAfter(text);
+      const got: SourceRecord[] = [];
+      const reading = (async () => {
+        for await (const r of stoppingAtReadError('lab.file', stream, read(stream))) got.push(r);
+      })();
+      await expect(reading).rejects.toThrow(FileReadError);
+      await expect(reading).rejects.toThrow('lab.file: cannot read the file: EIO: i/o error, read');
+      expect(got.map((r) => ('record' in r ? (r.record as { sampleId: string }).sampleId : 'issue'))).toEqual(['A', 'B']);
+    });
+  }
+
+  it('passes other errors of the reader on as they are', async () => {
+    const stream = Readable.from(['x']);
+    // eslint-disable-next-line require-yield
+    const broken = (async function* () {
+      throw new TypeError('a bug, not the file');
+    })();
+    await expect(all(stoppingAtReadError('lab.file', stream, broken))).rejects.toThrow(TypeError);
   });
 });
 

@@ -15,7 +15,7 @@ import { claimedSampleId, validateResult, type ValidatedRecord } from '../../int
 import { closeQuietly, connectForCommand, redisTarget, type RedisTarget } from '../../redis/connection.ts';
 import { redisChoice, writeJsonLine } from '../output.ts';
 import { importLabFile } from './importLabFile.ts';
-import { enqueueBatch } from '../enqueueBatch.ts';
+import { enqueueBatch, withEnqueuedSoFar } from '../enqueueBatch.ts';
 import { importProgress } from '../importProgress.ts';
 import { terminalText } from '../terminalText.ts';
 import { confusableWarnings } from '../../intake/confusableNames.ts';
@@ -125,6 +125,8 @@ async function importFile(file: string, opts: ImportOptions): Promise<number> {
       bar?.update(stream.bytesRead, counts);
     }
     await flush();
+  } catch (e) {
+    throw withEnqueuedSoFar(e, counts);
   } finally {
     bar?.stop(size, counts);
     await producer?.close();

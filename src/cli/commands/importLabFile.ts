@@ -13,7 +13,7 @@ import { readLabFile } from '../../intake/labFiles/readLabFile.ts';
 import type { ResultProducer } from '../../queue/producer.ts';
 import { validateResult, type ValidatedRecord } from '../../intake/validate.ts';
 import { writeJsonLine } from '../output.ts';
-import { enqueueBatch } from '../enqueueBatch.ts';
+import { enqueueBatch, withEnqueuedSoFar } from '../enqueueBatch.ts';
 import { importProgress } from '../importProgress.ts';
 import { terminalText } from '../terminalText.ts';
 import { confusableWarnings } from '../../intake/confusableNames.ts';
@@ -94,6 +94,8 @@ export async function importLabFile(file: string, opts: LabImportOptions): Promi
       bar?.update(stream.bytesRead, counts);
     }
     await flush();
+  } catch (e) {
+    throw withEnqueuedSoFar(e, counts);
   } finally {
     stream.destroy();
     bar?.stop(size, counts);

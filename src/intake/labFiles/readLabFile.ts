@@ -8,6 +8,7 @@ import type { ParsedEvent } from '../../domain/event.ts';
 import { LabRecordReader, type LabRecord } from './labRecordReader.ts';
 import type { LabMapping } from './mappingSchema.ts';
 import { csvRows, labFileKind, xlsxRows } from './rowSources.ts';
+import { stoppingAtReadError } from '../fileRecords.ts';
 
 export interface LabFileOptions {
   /** csv or xlsx; default from the file name. */
@@ -21,5 +22,6 @@ export function readLabFile(path: string, mapping: LabMapping, options: LabFileO
   const reader = new LabRecordReader(mapping, { validate: options.validate });
   const stream = createReadStream(path);
   const rows = kind === 'csv' ? csvRows(stream, mapping.delimiter) : xlsxRows(stream, mapping.sheet);
-  return { stream, records: reader.records(rows) };
+  // A file that cannot be read (a directory, an I/O error): "FILE: cannot read the file: reason", not a crash.
+  return { stream, records: stoppingAtReadError(path, stream, reader.records(rows)) };
 }

@@ -5,7 +5,7 @@
  * them) is first spooled to a temporary file by the reader and parsed from there, so a workbook of any
  * length is read in bounded memory either way (its shared-string table aside).
  */
-import type { Readable } from 'node:stream';
+import { PassThrough, type Readable } from 'node:stream';
 import ExcelJS from 'exceljs';
 import { parsedRows } from '../fileRecords.ts';
 
@@ -34,7 +34,12 @@ export async function* csvRows(input: Readable, delimiter: string): AsyncIterabl
 }
 
 export async function* xlsxRows(input: Readable, sheet: string | number): AsyncIterable<SourceRow> {
-  const reader = new ExcelJS.stream.xlsx.WorkbookReader(input, { worksheets: 'emit', sharedStrings: 'cache', styles: 'cache', hyperlinks: 'ignore', entries: 'ignore' });
+  // The workbook reader pipes its input on and never hears of the input's error: it would wait for ever. Ended here
+  // instead, it finishes with what it has, and the caller reports the read error (stoppingAtReadError).
+  const source = new PassThrough();
+  input.once('error', () => source.end());
+  input.pipe(source);
+  const reader = new ExcelJS.stream.xlsx.WorkbookReader(source, { worksheets: 'emit', sharedStrings: 'cache', styles: 'cache', hyperlinks: 'ignore', entries: 'ignore' });
   let position = 0;
   let found = false;
   try {
