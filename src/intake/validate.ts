@@ -19,17 +19,26 @@ export const DEFAULT_MAX_AHEAD_MS = 24 * 60 * 60 * 1000;
 export { FUTURE_REASON } from '../domain/event.ts';
 import { FUTURE_REASON } from '../domain/event.ts';
 
+/** Every problem of the record at once: a sampledAt in the future is reported beside the schema's and the readings' problems. */
 export function validateResult(input: unknown, options: ValidationOptions): ParsedEvent {
   const parsed = parseResultEvent(input);
-  if (!parsed.ok) return parsed;
-  const limit = options.now + (options.maxAheadMs ?? DEFAULT_MAX_AHEAD_MS);
-  if (parsed.sample.time > limit) {
-    return {
-      ok: false,
-      issues: [{ path: 'sampledAt', reason: `${FUTURE_REASON} (${parsed.sample.sampledAt} is more than ${formatHours(options.maxAheadMs ?? DEFAULT_MAX_AHEAD_MS)} after the server clock ${new Date(options.now).toISOString()})` }],
-    };
-  }
-  return parsed;
+  const time = parsed.ok ? parsed.sample.time : claimedTime(input, parsed.issues);
+  const maxAheadMs = options.maxAheadMs ?? DEFAULT_MAX_AHEAD_MS;
+  const future: FieldIssue | undefined =
+    time !== undefined && time > options.now + maxAheadMs
+      ? { path: 'sampledAt', reason: `${FUTURE_REASON} (${new Date(time).toISOString()} is more than ${formatHours(maxAheadMs)} after the server clock ${new Date(options.now).toISOString()})` }
+      : undefined;
+  if (future === undefined) return parsed;
+  return { ok: false, issues: parsed.ok ? [future] : [...parsed.issues, future] };
+}
+
+/** The sampledAt of a record the schema refused for other reasons, when that field itself is a valid time. */
+function claimedTime(record: unknown, issues: readonly FieldIssue[]): number | undefined {
+  if (typeof record !== 'object' || record === null || issues.some((i) => i.path === 'sampledAt')) return undefined;
+  const sampledAt = (record as { sampledAt?: unknown }).sampledAt;
+  if (typeof sampledAt !== 'string') return undefined;
+  const time = Date.parse(sampledAt);
+  return Number.isFinite(time) ? time : undefined;
 }
 
 export interface RecordOutcome {

@@ -41,4 +41,26 @@ describe('the problems of one record', () => {
     const longField = validateResult({ ...event, [longName]: 1 }, { now: NOW });
     expect(!longField.ok && JSON.stringify(longField.issues).length).toBeLessThan(1000);
   });
+
+  it('reports a sampledAt in the future beside the other problems of the record, not instead of them', () => {
+    const future = '2026-03-05T08:00:00Z';
+    const both = validateResult({ ...event, sampledAt: future, readings: { Fe: -5 } }, { now: NOW });
+    expect(!both.ok && both.issues).toEqual([
+      { path: 'readings.Fe', reason: 'must not be negative (got -5)' },
+      { path: 'sampledAt', reason: 'lies in the future (2026-03-05T08:00:00.000Z is more than 1 day after the server clock 2026-03-02T00:00:00.000Z)' },
+    ]);
+    const three = validateResult({ ...event, unit: undefined, sampledAt: future, readings: { Fe: 1, Zz: 2 }, colour: 'amber' }, { now: NOW });
+    expect(!three.ok && three.issues.map((i) => i.path)).toEqual(['', 'unit', 'readings.Zz', 'sampledAt']);
+    // On its own it is the one problem; a sampledAt that is not a time is reported as such, not as in the future.
+    const alone = validateResult({ ...event, sampledAt: future }, { now: NOW });
+    expect(!alone.ok && alone.issues.map((i) => i.path)).toEqual(['sampledAt']);
+    const notATime = validateResult({ ...event, sampledAt: '2099-13-45', readings: { Fe: -5 } }, { now: NOW });
+    expect(!notATime.ok && notATime.issues.map((i) => [i.path, i.reason.startsWith('lies in the future')])).toEqual([
+      ['sampledAt', false],
+      ['readings.Fe', false],
+    ]);
+    // Inside the allowance nothing is added.
+    const fine = validateResult({ ...event, sampledAt: '2026-03-02T23:00:00Z', readings: { Fe: -5 } }, { now: NOW });
+    expect(!fine.ok && fine.issues.map((i) => i.path)).toEqual(['readings.Fe']);
+  });
 });
