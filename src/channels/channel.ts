@@ -59,7 +59,18 @@ export interface ChannelDefinition {
   open(channels: Channels, context: ChannelContext): Channel;
   /**
    * The configuration's references to this channel's secrets (names of environment variables, or `whsec_` values),
-   * so that every log line is scrubbed of them (src/telemetry/redactText.ts).
+   * so that every log line is scrubbed of them (src/telemetry/redactText.ts) and the worker refuses to start while
+   * one is missing or unusable (`checkChannelSecrets` in registry.ts).
    */
-  secretRefs(channels: Channels): readonly string[];
+  secretRefs(channels: Channels): readonly ChannelSecret[];
+}
+
+/** One secret a channel needs, as the configuration refers to it. */
+export interface ChannelSecret {
+  /** The name of the environment variable that holds it, or a literal `whsec_` value (webhooks). */
+  readonly ref: string;
+  /** Who needs it, as the configuration names it: `channels.webhooks "plant-events"`. */
+  readonly usedBy: string;
+  /** Why a value will not do (too short, not a key); undefined when it will. Absent: any value that is not empty. */
+  readonly problem?: (value: string) => string | undefined;
 }

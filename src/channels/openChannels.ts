@@ -8,7 +8,7 @@ import type { Logger } from '../telemetry/logger.ts';
 import type { FloodSummary } from '../notify/floodControl.ts';
 import type { Channel, Delivery, DisabledEndpoints } from './channel.ts';
 import { DeliveryRefused } from './errors.ts';
-import { CHANNELS, configuredChannels } from './registry.ts';
+import { CHANNELS, checkChannelSecrets, configuredChannels } from './registry.ts';
 
 export interface NotificationChannels {
   /** Delivers one message over the channel of its effect; resolves with a line for the job's return value. */
@@ -32,7 +32,12 @@ export interface NotificationChannelOptions {
 
 export const DEFAULT_MQTT_TIMEOUT_MS = 30_000;
 
+/**
+ * Opens every configured channel. Throws an `InputError` naming each channel secret that is missing or unusable
+ * (`checkChannelSecrets`), so that a worker with a bad secret does not start.
+ */
 export function notificationChannels(channels: Channels, options: NotificationChannelOptions): NotificationChannels {
+  checkChannelSecrets(channels, options.env ?? process.env);
   const context = {
     logger: options.logger,
     env: options.env ?? process.env,

@@ -2,6 +2,7 @@
  * Every notification channel, by kind: the one place a channel is registered. `satisfies` makes `tsc` fail while a
  * kind of CHANNEL_KINDS (src/domain/escalationConfig.ts) has no definition here.
  */
+import { InputError } from '../domain/errors.ts';
 import { CHANNEL_KINDS, type ChannelKind, type Channels } from '../domain/escalationConfig.ts';
 import type { ChannelDefinition } from './channel.ts';
 import { emailChannel } from './email/emailChannel.ts';
@@ -16,7 +17,35 @@ export const CHANNELS = {
 
 /** Every channel's secret references in the configuration (for the log's scrubbing). */
 export function channelSecretRefs(channels: Channels): string[] {
-  return CHANNEL_KINDS.flatMap((kind) => [...CHANNELS[kind].secretRefs(channels)]);
+  return CHANNEL_KINDS.flatMap((kind) => CHANNELS[kind].secretRefs(channels).map((s) => s.ref));
+}
+
+/**
+ * What is wrong with the secrets of the configured channels, one line each, naming who needs the secret, the
+ * environment variable and the reason: a variable that is not set or empty, a webhook key of the wrong size, an
+ * acknowledgement-link secret too short. Empty when every secret will do.
+ */
+export function channelSecretProblems(channels: Channels, env: NodeJS.ProcessEnv): string[] {
+  return configuredChannels(channels).flatMap((kind) =>
+    CHANNELS[kind].secretRefs(channels).flatMap(({ ref, usedBy, problem }) => {
+      const literal = ref.startsWith('whsec_');
+      const value = literal ? ref : env[ref];
+      const source = literal ? 'the literal secret' : `environment variable ${ref}`;
+      if (value === undefined) return [`${usedBy}: ${source} is not set`];
+      if (value === '') return [`${usedBy}: ${source} is empty`];
+      const reason = problem?.(value);
+      return reason === undefined ? [] : [`${usedBy}: ${source}: ${reason}`];
+    }),
+  );
+}
+
+/**
+ * Refuses to go on while a configured channel's secret is missing or unusable: found when the worker starts, not
+ * by the first alarm, whose message could then not be sent.
+ */
+export function checkChannelSecrets(channels: Channels, env: NodeJS.ProcessEnv): void {
+  const problems = channelSecretProblems(channels, env);
+  if (problems.length > 0) throw new InputError(`notification channels: secrets missing or unusable\n${problems.map((p) => `  ${p}`).join('\n')}`);
 }
 
 /** The kinds the configuration names targets for; without any, no notify worker is started. */

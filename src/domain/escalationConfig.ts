@@ -4,6 +4,7 @@
  */
 import { z } from 'zod';
 import { SEVERITIES } from './finding.ts';
+import { webhookSecretProblem } from './webhookSecret.ts';
 
 const positive = z.number().finite().positive();
 const name = z.string().min(1).max(80).regex(/^[A-Za-z0-9][A-Za-z0-9._-]*$/, 'a name may hold letters, digits, . _ - only');
@@ -86,8 +87,13 @@ export type Escalation = z.infer<typeof EscalationSchema>;
 
 const webhookSecret = z
   .string()
-  .refine((s) => /^whsec_[A-Za-z0-9+/=]+$/.test(s) || /^[A-Z_][A-Z0-9_]*$/.test(s), {
+  .refine((s) => s.startsWith('whsec_') || /^[A-Z_][A-Z0-9_]*$/.test(s), {
     message: 'expected an environment variable name (such as WEBHOOK_SECRET) or a literal secret "whsec_<base64>"',
+  })
+  // A literal secret is checked here; one from the environment when the worker starts (src/channels/registry.ts).
+  .superRefine((s, ctx) => {
+    const problem = s.startsWith('whsec_') ? webhookSecretProblem(s) : undefined;
+    if (problem !== undefined) ctx.addIssue({ code: 'custom', message: `${problem} (make one with: echo "whsec_$(openssl rand -base64 32)")` });
   });
 
 /** Alarm-flood handling by default: ten messages per target per ten minutes, then one summary. */

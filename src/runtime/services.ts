@@ -12,7 +12,7 @@ import { incidentRules } from '../incidents/policy.ts';
 import { createResultProducer } from '../queue/producer.ts';
 import { redisDisabledEndpoints } from '../redis/disabledEndpoints.ts';
 import { notificationChannels } from '../channels/openChannels.ts';
-import { configuredChannels } from '../channels/registry.ts';
+import { checkChannelSecrets, configuredChannels } from '../channels/registry.ts';
 import { openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings } from '../queue/queues.ts';
 import { Partitions } from '../redis/keys.ts';
 import { openApiDocument } from '../contracts/openapi.ts';
@@ -76,6 +76,8 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
   const partitionCount = config.redis.partitions;
   const prefix = config.redis.prefix;
   const port = options.port ?? DEFAULT_PORT;
+  // A worker whose channels lack a usable secret does not start: found now, not by the first alarm.
+  if (options.workers) checkChannelSecrets(config.channels, env);
   const stopWorkers: Closer[] = [];
   const stopHttp: Closer[] = [];
   const connections: RedisConnection[] = [];

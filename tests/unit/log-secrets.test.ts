@@ -16,7 +16,7 @@ channels:
     from: "wearshift <alerts@plant.example>"
     smtp: { host: 127.0.0.1, user: alerts, passwordEnv: SMTP_PASSWORD }
   webhooks:
-    - { name: plant-events, url: "http://127.0.0.1:9000/hook", secrets: [HOOK_SECRET, "whsec_bGl0ZXJhbC1zZWNyZXQtdmFsdWUtOTk="] }
+    - { name: plant-events, url: "http://127.0.0.1:9000/hook", secrets: [HOOK_SECRET, "whsec_bGl0ZXJhbC1zZWNyZXQtdmFsdWUtOTk5"] }
   mqtt:
     - { name: plant-bus, url: "mqtt://127.0.0.1:1883", username: wearshift, passwordEnv: MQTT_PASSWORD }
   ackLinks: { secretEnv: ACK_SECRET, baseUrl: "https://wearshift.plant.example" }
@@ -24,12 +24,12 @@ channels:
 
 const ENV = {
   SMTP_PASSWORD: 'smtp-pass-1234',
-  HOOK_SECRET: 'whsec_ZW52LXNlY3JldC12YWx1ZS0xMjM0NTY=',
+  HOOK_SECRET: 'whsec_ZW52LXNlY3JldC12YWx1ZS0xMjM0NTY3',
   MQTT_PASSWORD: 'mqtt-pass-5678',
   ACK_SECRET: 'ack-secret-9012,ack-secret-old-3456',
   WEARSHIFT_TOKEN_INGEST: 'ingest-token-abcdef',
 };
-const SECRETS = ['smtp-pass-1234', 'whsec_ZW52LXNlY3JldC12YWx1ZS0xMjM0NTY=', 'whsec_bGl0ZXJhbC1zZWNyZXQtdmFsdWUtOTk=', 'mqtt-pass-5678', 'ack-secret-9012', 'ack-secret-old-3456', 'ingest-token-abcdef', 'redis-pass-7781'];
+const SECRETS = ['smtp-pass-1234', 'whsec_ZW52LXNlY3JldC12YWx1ZS0xMjM0NTY3', 'whsec_bGl0ZXJhbC1zZWNyZXQtdmFsdWUtOTk5', 'mqtt-pass-5678', 'ack-secret-9012', 'ack-secret-old-3456', 'ingest-token-abcdef', 'redis-pass-7781'];
 
 describe('the service log', () => {
   it('scrubs every secret the configuration names, whichever channel it belongs to', () => {
@@ -49,6 +49,6 @@ describe('the service log', () => {
 
   it('asks every registered channel for its secret references', () => {
     const channels = parseConfig(CONFIG).channels;
-    expect(channelSecretRefs(channels).sort()).toEqual(['HOOK_SECRET', 'MQTT_PASSWORD', 'SMTP_PASSWORD', 'whsec_bGl0ZXJhbC1zZWNyZXQtdmFsdWUtOTk='].sort());
+    expect(channelSecretRefs(channels).sort()).toEqual(['ACK_SECRET', 'HOOK_SECRET', 'MQTT_PASSWORD', 'SMTP_PASSWORD', 'whsec_bGl0ZXJhbC1zZWNyZXQtdmFsdWUtOTk5'].sort());
   });
 });

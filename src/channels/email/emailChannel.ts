@@ -1,5 +1,5 @@
 /** The e-mail channel: renders the incident message (with its chart and acknowledgement link) and sends it by SMTP. */
-import { ackLinkUrl, signAckLink } from '../../notify/ackLink.ts';
+import { ACK_SECRET_MIN_LENGTH, ackLinkUrl, signAckLink } from '../../notify/ackLink.ts';
 import { asksForAcknowledgement } from '../../notify/message.ts';
 import { renderFloodSummaryEmail } from './floodSummaryEmail.ts';
 import type { Channels } from '../../domain/escalationConfig.ts';
@@ -20,8 +20,20 @@ function smtpTransport(smtp: Smtp, env: NodeJS.ProcessEnv) {
   };
 }
 
+/** The variable may list several secrets during a rotation (comma-separated): each must be long enough. */
+function ackSecretsProblem(value: string): string | undefined {
+  const secrets = value.split(',').map((x) => x.trim());
+  if (secrets[0] === '') return 'the first secret (the one links are signed with) is empty';
+  const short = secrets.filter((x) => x !== '' && x.length < ACK_SECRET_MIN_LENGTH).length;
+  return short === 0 ? undefined : `${short === 1 ? 'a secret' : `${short} secrets`} shorter than ${ACK_SECRET_MIN_LENGTH} characters (shorter ones can be guessed from one captured link)`;
+}
+
 export const emailChannel: ChannelDefinition = {
-  secretRefs: (channels) => (channels.email?.smtp.passwordEnv === undefined ? [] : [channels.email.smtp.passwordEnv]),
+  secretRefs: (channels) => [
+    ...(channels.email?.smtp.passwordEnv === undefined ? [] : [{ ref: channels.email.smtp.passwordEnv, usedBy: 'channels.email.smtp (the SMTP password)' }]),
+    // The acknowledgement links in e-mails are signed with it.
+    ...(channels.email === undefined || channels.ackLinks === undefined ? [] : [{ ref: channels.ackLinks.secretEnv, usedBy: 'channels.ackLinks (the link-signing secret)', problem: ackSecretsProblem }]),
+  ],
   configured: (channels) => channels.email !== undefined,
   open(channels, { env, timeZone }) {
     return {

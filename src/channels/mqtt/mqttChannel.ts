@@ -8,7 +8,7 @@ import { secretFrom } from '../secrets.ts';
 import { createMqttPublisher, type MqttPublisher } from './mqttPublisher.ts';
 
 export const mqttChannel: ChannelDefinition = {
-  secretRefs: (channels) => channels.mqtt.flatMap((m) => (m.passwordEnv === undefined ? [] : [m.passwordEnv])),
+  secretRefs: (channels) => channels.mqtt.flatMap((m) => (m.passwordEnv === undefined ? [] : [{ ref: m.passwordEnv, usedBy: `channels.mqtt "${m.name}" (the broker password)` }])),
   configured: (channels) => channels.mqtt.length > 0,
   open(channels, { env, logger, mqttTimeoutMs }) {
     const publishers = new Map<string, MqttPublisher>();

@@ -8,11 +8,12 @@ import { toCloudEvent, type IncidentCloudEvent } from '../../notify/cloudEvent.t
 import { floodSummaryEvent } from '../../notify/floodControl.ts';
 import type { ChannelDefinition } from '../channel.ts';
 import { DeliveryRefused, DeliveryRetry } from '../errors.ts';
+import { webhookSecretProblem } from '../../domain/webhookSecret.ts';
 import { secretFrom } from '../secrets.ts';
 import { deliverWebhook } from './webhookDelivery.ts';
 
 export const webhookChannel: ChannelDefinition = {
-  secretRefs: (channels) => channels.webhooks.flatMap((w) => w.secrets),
+  secretRefs: (channels) => channels.webhooks.flatMap((w) => w.secrets.map((ref) => ({ ref, usedBy: `channels.webhooks "${w.name}"`, problem: webhookSecretProblem }))),
   configured: (channels) => channels.webhooks.length > 0,
   open(channels, { env, disabledEndpoints, logger }) {
     /** Refuses a message to an endpoint that answered 410 Gone at its configured URL. */

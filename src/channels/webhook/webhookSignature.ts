@@ -4,21 +4,13 @@
  * space-separated, and a receiver accepts the message when any one matches a key it holds.
  */
 import { createHmac, timingSafeEqual } from 'node:crypto';
+import { WEBHOOK_SECRET_PREFIX, webhookSecretProblem } from '../../domain/webhookSecret.ts';
 
-/** The Standard Webhooks specification asks for keys of 24 to 64 bytes. */
-const KEY_BYTES = { min: 24, max: 64 };
-const PREFIX = 'whsec_';
-
-/** The key bytes of a `whsec_<base64>` secret; throws a clear error for anything else. */
+/** The key bytes of a `whsec_<base64>` secret (24 to 64 of them); throws a clear error for anything else. */
 export function webhookKey(secret: string): Buffer {
-  if (!secret.startsWith(PREFIX)) throw new TypeError(`a webhook secret must look like "${PREFIX}<base64>"`);
-  const encoded = secret.slice(PREFIX.length);
-  if (!/^[A-Za-z0-9+/]+={0,2}$/.test(encoded) || encoded.length % 4 !== 0) throw new TypeError('a webhook secret must be base64 after "whsec_"');
-  const key = Buffer.from(encoded, 'base64');
-  if (key.length < KEY_BYTES.min || key.length > KEY_BYTES.max) {
-    throw new TypeError(`a webhook secret must hold ${KEY_BYTES.min} to ${KEY_BYTES.max} bytes, this one holds ${key.length}`);
-  }
-  return key;
+  const problem = webhookSecretProblem(secret);
+  if (problem !== undefined) throw new TypeError(problem);
+  return Buffer.from(secret.slice(WEBHOOK_SECRET_PREFIX.length), 'base64');
 }
 
 export interface WebhookHeaders {
