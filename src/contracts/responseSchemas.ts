@@ -5,6 +5,7 @@
  * that adding a field is not a breaking change.
  */
 import { z } from 'zod';
+import { ADVISORY_CAUTION } from '../domain/caution.ts';
 import { SEVERITIES } from '../domain/finding.ts';
 import { ROLES } from '../http/auth.ts';
 
@@ -83,8 +84,10 @@ export const IncidentSchema = IncidentSummarySchema.extend({
   notifications: z.array(z.object({ kind: z.literal('notified'), at: isoTime }).loose()),
 }).loose();
 
-export const IncidentListSchema = z.object({ incidents: z.array(IncidentSummarySchema) }).strict();
-export const IncidentEnvelopeSchema = z.object({ incident: IncidentSchema }).strict();
+const advisory = z.string().describe(`The caution that goes with every finding: "${ADVISORY_CAUTION}"`);
+
+export const IncidentListSchema = z.object({ incidents: z.array(IncidentSummarySchema), advisory }).strict();
+export const IncidentEnvelopeSchema = z.object({ incident: IncidentSchema, advisory }).strict();
 
 export const SessionSchema = z
   .object({ roles: z.array(z.enum(ROLES)).describe('The roles the token holds.'), timeZone: z.string().describe('display.timeZone: the zone times are shown in for people.') })

@@ -1,9 +1,11 @@
 /**
  * The incident API (fastify 5 plugin): list and show for viewers and responders; acknowledge, shelve,
  * unshelve, resolve and note for responders. Incident ids hold '/' and must be percent-encoded in the path.
+ * Every answer that carries incidents carries the caution beside them (`advisory`), as webhooks and the CLI do.
  */
 import type { FastifyPluginAsync, FastifyReply } from 'fastify';
 import { z } from 'zod';
+import { ADVISORY_CAUTION } from '../domain/caution.ts';
 import { InputError } from '../domain/errors.ts';
 import type { IncidentAction } from '../incidents/applyAction.ts';
 import { IncidentConflictError, IncidentNotFoundError } from '../incidents/errors.ts';
@@ -104,13 +106,13 @@ export const incidentRoutes: FastifyPluginAsync<IncidentRoutesOptions> = async (
   app.get('/v1/incidents', read, async (request, reply) => {
     const query = IncidentFilterSchema.safeParse(request.query ?? {});
     if (!query.success) return invalid(reply, 'query', query.error);
-    return { incidents: await options.store.list(query.data) };
+    return { incidents: await options.store.list(query.data), advisory: ADVISORY_CAUTION };
   });
 
   app.get<{ Params: { id: string } }>('/v1/incidents/:id', read, async (request, reply) => {
     const incident = await options.store.get(request.params.id);
     if (incident === undefined) return reply.code(404).send({ error: 'not-found', message: `no incident "${request.params.id}"` });
-    return { incident };
+    return { incident, advisory: ADVISORY_CAUTION };
   });
 
   for (const verb of Object.keys(INCIDENT_ACTION_BODIES) as Verb[]) {
@@ -122,7 +124,7 @@ export const incidentRoutes: FastifyPluginAsync<IncidentRoutesOptions> = async (
       const action: IncidentAction = parsed.kind === 'acknowledge' && credential !== undefined ? { ...parsed, credential } : parsed;
       try {
         const { incident } = await options.store.applyAction(action);
-        return { incident };
+        return { incident, advisory: ADVISORY_CAUTION };
       } catch (e) {
         return failed(reply, e);
       }

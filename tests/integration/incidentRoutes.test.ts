@@ -3,6 +3,7 @@ import { createHash } from 'node:crypto';
 import Fastify, { type FastifyInstance } from 'fastify';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Step } from '../../src/analysis/model.ts';
+import { ADVISORY_CAUTION } from '../../src/domain/caution.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import { incidentRoutes } from '../../src/http/incidentRoutes.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
@@ -69,6 +70,9 @@ describe('incident routes', () => {
     const show = await app.inject({ method: 'GET', url: PATH, headers: auth('resp-1') });
     expect(show.statusCode).toBe(200);
     expect(show.json().incident.timeline[0]).toMatchObject({ kind: 'opened', sampleId: 'LAB-0100' });
+    // The caution goes with the incidents, as in webhooks and `incidents --json`.
+    expect(list.json().advisory).toBe(ADVISORY_CAUTION);
+    expect(show.json().advisory).toBe(ADVISORY_CAUTION);
 
     const denied = await app.inject({ method: 'POST', url: `${PATH}/ack`, headers: auth('view-1'), payload: { by: 'R. Tanaka' } });
     expect(denied.statusCode).toBe(403);
@@ -100,6 +104,7 @@ describe('incident routes', () => {
   it('acknowledges, shelves, resolves; acting on a closed incident is a 409', async () => {
     const ack = await app.inject({ method: 'POST', url: `${PATH}/ack`, headers: auth('resp-1'), payload: { by: 'R. Tanaka', note: 'on my way' } });
     expect(ack.statusCode).toBe(200);
+    expect(ack.json().advisory).toBe(ADVISORY_CAUTION);
     // The token that acted is recorded beside the typed name: its role and the first bytes of its SHA-256.
     const credential = `responder token ${createHash('sha256').update('resp-1').digest('hex').slice(0, 8)}`;
     expect(ack.json().incident.acknowledged).toEqual({ by: 'R. Tanaka', at: NOW.toISOString(), note: 'on my way', credential, severity: 'alarm', measurands: ['Fe'] });
