@@ -20,7 +20,8 @@ interface Request {
   verdict: 'verified' | string;
 }
 
-type Behaviour = (req: Request) => { status: number; headers?: Record<string, string>; body?: string; delayMs?: number };
+/** `holdBodyMs`: the status, the headers and `body` go out at once, and the response ends only after this wait. */
+type Behaviour = (req: Request) => { status: number; headers?: Record<string, string>; body?: string; delayMs?: number; holdBodyMs?: number };
 
 const currentSecret = `whsec_${randomBytes(32).toString('base64')}`;
 const previousSecret = `whsec_${randomBytes(32).toString('base64')}`;
@@ -48,7 +49,11 @@ beforeAll(async () => {
       const answer = behaviour(request);
       setTimeout(() => {
         if (res.destroyed) return;
-        res.writeHead(answer.status, answer.headers).end(answer.body ?? '');
+        if (answer.holdBodyMs === undefined) return void res.writeHead(answer.status, answer.headers).end(answer.body ?? '');
+        res.writeHead(answer.status, answer.headers);
+        res.write(answer.body ?? '');
+        const end = setTimeout(() => res.end(), answer.holdBodyMs);
+        res.on('close', () => clearTimeout(end));
       }, answer.delayMs ?? 0);
     });
   });
@@ -167,6 +172,26 @@ describe('webhook delivery', () => {
     expect(result.status).toBeUndefined();
     expect(result.durationMs).toBeGreaterThanOrEqual(250);
     expect(result.durationMs).toBeLessThan(60_000);
+  });
+
+  it('decides on the status: a 2xx is delivered without waiting for its body; only an error’s start is read', async () => {
+    // The receiver took the event and answers 200 at once, then takes minutes over the rest of its answer: waiting
+    // for that body would run into the timeout and send the event again.
+    behaviour = () => ({ status: 200, body: '{"accepted":', holdBodyMs: 600_000 });
+    const delivered = await deliverWebhook({ ...endpoint(), timeoutMs: 60_000 }, event, { now: new Date() });
+    expect(delivered).toMatchObject({ outcome: 'delivered', status: 200 });
+    expect(delivered.durationMs).toBeLessThan(60_000);
+    // An error's body is read only as far as the excerpt needs, not to its end.
+    behaviour = () => ({ status: 503, body: `maintenance window ${'.'.repeat(400)}`, holdBodyMs: 600_000 });
+    const refused = await deliverWebhook({ ...endpoint(), timeoutMs: 60_000 }, event, { now: new Date() });
+    expect(refused).toMatchObject({ outcome: 'retry', status: 503 });
+    expect(refused.error).toMatch(/^HTTP 503: maintenance window \.+$/);
+    expect(refused.durationMs).toBeLessThan(60_000);
+    // An error whose body stops coming is still judged by its status when the timeout ends the read.
+    behaviour = () => ({ status: 500, body: 'database ', holdBodyMs: 600_000 });
+    const cut = await deliverWebhook({ ...endpoint(), timeoutMs: 1_000 }, event, { now: new Date() });
+    if (cut.status !== undefined) expect(cut).toMatchObject({ outcome: 'retry', status: 500, error: 'HTTP 500: database' });
+    else expect(cut).toMatchObject({ outcome: 'retry', error: 'no response within 1000 ms' });
   });
 
   it('asks for a retry when nobody listens, and says why without the URL’s secrets', async () => {

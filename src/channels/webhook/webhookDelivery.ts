@@ -66,18 +66,23 @@ export async function deliverWebhook(endpoint: WebhookEndpoint, event: IncidentC
   const started = performance.now();
   const elapsed = () => Math.round(performance.now() - started);
   let response: Response;
-  let excerpt: string;
   try {
     // Redirects are not followed: the signature was made for this receiver, and a redirect may lead anywhere.
     response = await (options.fetch ?? fetch)(url, { method: 'POST', headers, body, redirect: 'manual', signal: AbortSignal.timeout(timeoutMs) });
-    excerpt = await responseExcerpt(response);
   } catch (e) {
     const error = isTimeout(e) ? `no response within ${timeoutMs} ms` : `no response: ${networkReason(e)}`;
     return { outcome: 'retry', attempt, durationMs: elapsed(), error };
   }
-  const durationMs = elapsed();
   const status = response.status;
-  if (status >= 200 && status < 300) return { outcome: 'delivered', status, attempt, durationMs };
+  // The status decides. A 2xx is delivered as soon as it arrives: its body is not waited for (a receiver that took
+  // the event and then dawdles over its answer must not have it sent again).
+  if (status >= 200 && status < 300) {
+    void response.body?.cancel().catch(() => undefined);
+    return { outcome: 'delivered', status, attempt, durationMs: elapsed() };
+  }
+  // Only an error's body is read, and only its start, within what is left of the timeout.
+  const excerpt = await responseExcerpt(response);
+  const durationMs = elapsed();
   const error = `HTTP ${status}${excerpt ? `: ${excerpt}` : ''}`;
   if (status === 410) return { outcome: 'disable', status, attempt, durationMs, disable: true, error };
   if (status === 429 || status === 503) {
@@ -92,16 +97,21 @@ export async function deliverWebhook(endpoint: WebhookEndpoint, event: IncidentC
   return { outcome: 'give-up', status, attempt, durationMs, error };
 }
 
+/** The start of an error response's body; what arrived before the timeout or a broken connection, if it ends early. */
 async function responseExcerpt(response: Response): Promise<string> {
   if (response.body === null) return '';
   const reader = response.body.getReader();
   const chunks: Uint8Array[] = [];
   let size = 0;
-  while (size < EXCERPT_BYTES) {
-    const { done, value } = await reader.read();
-    if (done) break;
-    chunks.push(value);
-    size += value.byteLength;
+  try {
+    while (size < EXCERPT_BYTES) {
+      const { done, value } = await reader.read();
+      if (done) break;
+      chunks.push(value);
+      size += value.byteLength;
+    }
+  } catch {
+    // The status has decided already; the excerpt only explains it.
   }
   await reader.cancel().catch(() => undefined);
   const text = Buffer.concat(chunks).subarray(0, EXCERPT_BYTES).toString('utf8');
