@@ -16,6 +16,7 @@ import type { EvaluationDeps } from './evaluateStored.ts';
 import { MemoryStore } from './memory/memoryStore.ts';
 import { settleComponent } from './settleComponent.ts';
 import { InvalidResultError, storeResult } from './storeResult.ts';
+import { fileConflictReason, FileRevisions } from './fileRevisions.ts';
 
 export type FindingLine = { readonly type: 'finding'; readonly quiet: boolean } & Finding;
 
@@ -79,6 +80,8 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
     options.onRejected?.(r);
   };
   const quietBefore = now - config.backfill.quietAfterDays * DAY_MS;
+  // Which line first held each result, to name it when the store refuses a later one with other content.
+  const revisions = new FileRevisions('line');
   for await (const r of records) {
     count += 1;
     if ('issues' in r) {
@@ -91,6 +94,15 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
     } catch (e) {
       if (!(e instanceof InvalidResultError)) throw e;
       reject({ line: r.line, ...(e.sampleId !== undefined && { sampleId: e.sampleId }), errors: e.issues });
+      continue;
+    }
+    const repeat = revisions.check(r.line, stored.sample);
+    if (stored.outcome.status === 'conflict') {
+      // The store keeps the first and refuses this one, as the live intake does: a rejected record, named with the first.
+      const { sampleId, revision } = stored.sample;
+      // The store begins empty, so an earlier line holds it; said plainly should that ever not be found.
+      const reason = repeat.kind === 'first' ? `sample ${sampleId} revision ${revision} is already stored with different content; a correction needs a higher revision (e.g. ${revision + 1})` : fileConflictReason(stored.sample, 'line', repeat.of);
+      reject({ line: r.line, sampleId: stored.sample.sampleId, errors: [{ path: 'revision', reason }] });
       continue;
     }
     if (!stored.outcome.evaluationDue) continue;

@@ -59,7 +59,7 @@ describe('wearshift import', { timeout: 600_000 }, () => {
     writeFileSync(clean, fleet.map((e) => JSON.stringify(e)).join('\n'));
     const ok = await runCli(['import', clean, '--dry-run', '--json']);
     expect(ok.code).toBe(0);
-    expect(JSON.parse(ok.stdout)).toEqual({ type: 'summary', file: clean, records: 12, accepted: 12, rejected: 0, enqueued: 0, withoutOilChanged: fleet.filter((e) => !('oilChanged' in e)).length, dryRun: true });
+    expect(JSON.parse(ok.stdout)).toEqual({ type: 'summary', file: clean, records: 12, accepted: 12, rejected: 0, enqueued: 0, duplicates: 0, withoutOilChanged: fleet.filter((e) => !('oilChanged' in e)).length, dryRun: true });
 
     const bad = join(dir, 'bad-json.csv');
     writeFileSync(bad, withErrors());
@@ -124,6 +124,49 @@ describe('wearshift import', { timeout: 600_000 }, () => {
     const out = r.stdout.trim().split('\n').map((l) => JSON.parse(l) as Record<string, unknown>);
     expect(out.filter((o) => o.type === 'rejected')).toEqual([{ type: 'rejected', line: 5, sampleId: fleet[2]!.sampleId, errors: [expect.objectContaining({ path: 'revision' })] }]);
     expect(out.at(-1)).toMatchObject({ type: 'summary', records: 4, accepted: 3, rejected: 1, enqueued: 3 });
+  });
+
+  /** Lines 2–3: two results; line 4: line 2's sampleId and revision with another Fe; line 5: line 3 again as it was. */
+  function reissued(): string {
+    const lines = fleetCsv(fleet.slice(0, 2)).trimEnd().split('\n');
+    const fe = lines[0]!.split(',').indexOf('Fe');
+    const changed = lines[1]!.split(',');
+    changed[fe] = String(Number(changed[fe]) + 50);
+    return `${[...lines, changed.join(','), lines[2]!].join('\n')}\n`;
+  }
+
+  it('--dry-run: a later line with an earlier line\'s sampleId and revision is rejected naming both lines when its content differs, and taken once when it is the same', async () => {
+    const file = join(dir, 'reissued.csv');
+    writeFileSync(file, reissued());
+    const r = await runCli(['import', file, '--dry-run']);
+    expect(r.code).toBe(1);
+    expect(r.stderr.trim().split('\n')).toEqual([
+      `line 4 (sampleId ${fleet[0]!.sampleId}): revision: sample ${fleet[0]!.sampleId} revision 0 is already on line 2 with different content; a correction needs a higher revision (e.g. 1)`,
+      `line 5 (sampleId ${fleet[1]!.sampleId}): repeats line 3 (same sampleId, revision and content): taken once`,
+    ]);
+    expect(r.stdout.split('\n')[0]).toBe(`${file}: 3 valid, 1 rejected of 4 records; 1 repeats an earlier line, taken once (dry run: nothing enqueued)`);
+  });
+
+  it('finds the conflict across batches (--batch-size 1): the first line is enqueued, the conflicting one refused, the repeat enqueued once', async () => {
+    const file = join(dir, 'reissued-batches.csv');
+    writeFileSync(file, reissued());
+    const prefix = '{import-reissued}';
+    const config = join(dir, 'reissued.yaml');
+    writeFileSync(config, `redis:\n  prefix: "${prefix}"\n`);
+    const r = await runCli(['import', file, '--config', config, '--batch-size', '1', '--json'], { REDIS_URL: server.url });
+    expect(r.code).toBe(1);
+    const out = r.stdout.trim().split('\n').map((l) => JSON.parse(l) as Record<string, unknown>);
+    expect(out.filter((o) => o.type !== 'summary')).toEqual([
+      { type: 'rejected', line: 4, sampleId: fleet[0]!.sampleId, errors: [{ path: 'revision', reason: expect.stringContaining('is already on line 2 with different content') }] },
+      { type: 'duplicate', line: 5, sampleId: fleet[1]!.sampleId, of: 3 },
+    ]);
+    expect(out.at(-1)).toMatchObject({ type: 'summary', records: 4, accepted: 3, rejected: 1, enqueued: 2, duplicates: 1 });
+    const queue = openQueue(QUEUE_NAMES.results, server.client(), resolveQueueSettings({ prefix }));
+    const jobs = (await queue.getWaiting(0, 100)).map((j) => j.data as { sampleId: string; readings: Record<string, unknown> });
+    await queue.close();
+    expect(jobs.map((j) => j.sampleId).sort()).toEqual([fleet[0]!.sampleId, fleet[1]!.sampleId].sort());
+    // The first line's reading is what went, not the conflicting one's.
+    expect(jobs.find((j) => j.sampleId === fleet[0]!.sampleId)!.readings.Fe).toBe(fleet[0]!.readings.Fe);
   });
 
   it('says clearly when Redis cannot be reached', async () => {

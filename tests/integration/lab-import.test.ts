@@ -52,6 +52,20 @@ describe('wearshift import --map', () => {
     expect(r.stdout).toContain(`${file}: 19 valid, 1 rejected of 20 samples (dry run: nothing enqueued)`);
   });
 
+  it('rejects a row with an earlier row\'s sampleId and revision but other readings, naming both rows, whatever the batches', async () => {
+    const lines = readFileSync('demo/labs/engine-lab.csv', 'utf8').trimEnd().split('\n');
+    // The last row again (same charge) with another iron reading: a correction without a higher revision.
+    const last = lines.at(-1)!;
+    const again = last.replace(/;18,0;/, ';98,0;');
+    expect(again).not.toBe(last);
+    const file = join(dir, 'engine-reissued.csv');
+    writeFileSync(file, `${[...lines, again].join('\n')}\n`);
+    const r = await runCli(['import', '--map', 'demo/labs/engine-lab.map.yaml', '--dry-run', '--show', '0', '--batch-size', '1', file]);
+    expect(r.code).toBe(1);
+    expect(r.stderr).toBe(`row ${lines.length + 1} (revision): sample EL-4120 revision 0 is already on row ${lines.length} with different content; a correction needs a higher revision (e.g. 1) [sampleId EL-4120]\n`);
+    expect(r.stdout).toContain(`${file}: 20 valid, 1 rejected of 21 samples (dry run: nothing enqueued)`);
+  });
+
   it.skipIf(!hasScript)('on a terminal it draws the same progress bar as a plain import, to the end of the file, and every rejected record is written above it', async () => {
     const lines = readFileSync('demo/labs/engine-lab.csv', 'utf8').split('\n');
     lines[4] = lines[4]!.replace(/;\d\d\.\d\d\.2026 \d\d:\d\d;/, ';2026/13/01;');

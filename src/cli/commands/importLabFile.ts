@@ -17,6 +17,7 @@ import { enqueueBatch, withEnqueuedSoFar } from '../enqueueBatch.ts';
 import { importProgress } from '../importProgress.ts';
 import { terminalText } from '../terminalText.ts';
 import { confusableWarnings } from '../../intake/confusableNames.ts';
+import { FileRevisions } from '../../pipeline/fileRevisions.ts';
 
 export interface LabImportOptions {
   readonly map: string;
@@ -49,7 +50,9 @@ export async function importLabFile(file: string, opts: LabImportOptions): Promi
   const { records, stream } = readLabFile(file, mapping, { ...(opts.format !== undefined && { format: opts.format }), validate: (e) => validateResult(e, { now: opts.now }) });
   const producer = opts.dryRun ? undefined : await opts.connect();
   const bar = importProgress(size, opts.json);
-  const counts = { records: 0, accepted: 0, rejected: 0, enqueued: 0, shown: 0 };
+  const counts = { records: 0, accepted: 0, rejected: 0, enqueued: 0, duplicates: 0, shown: 0 };
+  // Across the whole file, not per batch: a repeat is taken once, the same identity with other content refused.
+  const revisions = new FileRevisions('row');
   // Cells from the lab's file are echoed in reasons: shown with their control characters escaped, never acted on.
   const say = (text: string) => (bar ? bar.log(terminalText(text)) : process.stderr.write(`${terminalText(text)}\n`));
   // Each sample is validated once, by the reader (so that an error names its row and column); the producer only
@@ -74,8 +77,16 @@ export async function importLabFile(file: string, opts: LabImportOptions): Promi
   try {
     for await (const r of records) {
       counts.records += 1;
+      const repeat = r.status === 'rejected' ? undefined : revisions.check(r.row, r.sample);
       if (r.status === 'rejected') reject(r.row, r.sampleId, r.issues);
-      else {
+      else if (repeat?.kind === 'conflict') reject(r.row, r.sample.sampleId, [{ row: r.row, field: 'revision', reason: repeat.reason }]);
+      else if (repeat?.kind === 'duplicate') {
+        // The same result again, as a redelivery: accepted, and enqueued once (with the earlier row).
+        counts.accepted += 1;
+        counts.duplicates += 1;
+        if (opts.json) writeJsonLine({ type: 'duplicate', row: r.row, sampleId: r.sample.sampleId, of: repeat.of });
+        else say(`row ${r.row} (sampleId ${r.sample.sampleId}): repeats row ${repeat.of} (same sampleId, revision and content): taken once`);
+      } else {
         counts.accepted += 1;
         for (const w of confusableWarnings(r.sample)) {
           if (opts.json) writeJsonLine({ type: 'warning', row: r.row, sampleId: r.sample.sampleId, warning: w });
@@ -101,13 +112,15 @@ export async function importLabFile(file: string, opts: LabImportOptions): Promi
     bar?.stop(size, counts);
     await producer?.close();
   }
-  const summary = { type: 'summary', file, map: opts.map, records: counts.records, accepted: counts.accepted, rejected: counts.rejected, enqueued: counts.enqueued, dryRun: Boolean(opts.dryRun) };
+  const summary = { type: 'summary', file, map: opts.map, records: counts.records, accepted: counts.accepted, rejected: counts.rejected, enqueued: counts.enqueued, duplicates: counts.duplicates, dryRun: Boolean(opts.dryRun) };
   if (opts.json) writeJsonLine(summary);
-  else
+  else {
+    const repeats = counts.duplicates === 0 ? '' : `; ${counts.duplicates} ${counts.duplicates === 1 ? 'repeats an earlier row' : 'repeat earlier rows'}, taken once`;
     process.stdout.write(
       opts.dryRun
-        ? terminalText(`${file}: ${counts.accepted} valid, ${counts.rejected} rejected of ${counts.records} samples (dry run: nothing enqueued)\n`)
-        : terminalText(`${file}: ${counts.enqueued} enqueued, ${counts.rejected} rejected of ${counts.records} samples\n`),
+        ? terminalText(`${file}: ${counts.accepted} valid, ${counts.rejected} rejected of ${counts.records} samples${repeats} (dry run: nothing enqueued)\n`)
+        : terminalText(`${file}: ${counts.enqueued} enqueued, ${counts.rejected} rejected of ${counts.records} samples${repeats}\n`),
     );
+  }
   return counts.rejected > 0 ? 1 : 0;
 }
