@@ -8,6 +8,11 @@ import { connectAsync, type MqttClient } from 'mqtt';
 import { afterEach, describe, expect, it } from 'vitest';
 import { toCloudEvent, type IncidentCloudEvent } from '../../src/notify/cloudEvent.ts';
 import { createMqttPublisher, type MqttPublisher } from '../../src/channels/mqtt/mqttPublisher.ts';
+import { mqttClientId } from '../../src/channels/mqtt/mqttChannel.ts';
+import { notificationChannels } from '../../src/channels/openChannels.ts';
+import { ChannelsSchema } from '../../src/domain/escalationConfig.ts';
+import type { NotifyEffect } from '../../src/incidents/model.ts';
+import { silentLogger } from '../../src/telemetry/logger.ts';
 import { incidentMessage } from '../unit/notify-fixtures.ts';
 
 interface Broker {
@@ -186,6 +191,58 @@ describe('MQTT publishing', () => {
       if (client?.id === 'wearshift-test-4') seen.push(packet.topic);
     });
     await waitFor(() => seen.length === 1, WAIT_MS, 'the message given up on to still go out');
+  });
+
+  it('does not queue a copy for each retry while the broker is away: the broker gets the message once', async () => {
+    const first = await startBroker();
+    const port = first.port;
+    await stopBroker(first);
+    const publisher = publisherFor(port, 'wearshift-test-5');
+    // The notify worker's attempts: each gives up waiting, and the next tries the same message again.
+    for (let attempt = 1; attempt <= 3; attempt++) {
+      const error = await publisher.publish(event, { signal: AbortSignal.timeout(200) }).catch((e: unknown) => e);
+      expect((error as Error).name, `attempt ${attempt}`).toBe('TimeoutError');
+    }
+    // The broker comes back empty, listening before the port opens: all it sees comes from the publisher's queue.
+    const seen: string[] = [];
+    const back = await startBroker(port, {}, (aedes) => new Promise<void>((resolve) => {
+      aedes.subscribe('plant/#', (packet, done) => {
+        seen.push((JSON.parse(packet.payload.toString()) as IncidentCloudEvent).id);
+        done();
+      }, resolve);
+    }));
+    cleanup.push(() => stopBroker(back));
+    // A fourth attempt waits for the pending publish and resolves with its PUBACK.
+    await publisher.publish(event);
+    // A later message from the same client comes after anything queued before it: once it is in, every copy is.
+    const marker = toCloudEvent(incidentMessage({ idempotencyKey: 'after-the-outage' }), { time: '2026-03-01T08:06:00Z' });
+    await publisher.publish(marker);
+    await waitFor(() => seen.includes(marker.id), WAIT_MS, 'the later message');
+    expect(seen).toEqual([event.id, marker.id]);
+  });
+
+  it('keeps one client id per channel and worker across restarts, with a persistent session', async () => {
+    const broker = await startBroker();
+    cleanup.push(() => stopBroker(broker));
+    const sessions: Array<{ id: string; clean: boolean }> = [];
+    broker.aedes.on('client', (c) => sessions.push({ id: c.id, clean: c.clean }));
+    const channels = ChannelsSchema.parse({ mqtt: [{ name: 'plant-bus', url: `mqtt://127.0.0.1:${broker.port}` }] });
+    const effect = { channel: 'mqtt', target: 'plant-bus', incidentId: 'INC-2026-0007', at: '2026-03-01T08:05:00Z' } as NotifyEffect;
+    const env = { WEARSHIFT_WORKER_ID: 'pump house 2' };
+    // A worker, then the same worker after a restart.
+    for (let run = 0; run < 2; run++) {
+      const open = notificationChannels(channels, { logger: silentLogger(), env, mqttTimeoutMs: WAIT_MS });
+      await expect(open.deliver({ effect, message: incidentMessage(), attempt: 1 })).resolves.toMatch(/^mqtt plant-bus: plant\//);
+      await open.close();
+    }
+    expect(sessions).toEqual([
+      { id: 'wearshift-plant-bus-pump-house-2', clean: false },
+      { id: 'wearshift-plant-bus-pump-house-2', clean: false },
+    ]);
+    // Without WEARSHIFT_WORKER_ID the host name names the worker; the process id never does.
+    expect(mqttClientId('plant-bus', {}, 'gw-01.plant')).toBe('wearshift-plant-bus-gw-01.plant');
+    expect(mqttClientId('plant-bus', { WEARSHIFT_WORKER_ID: ' ' }, 'gw-01.plant')).toBe('wearshift-plant-bus-gw-01.plant');
+    expect(mqttClientId('plant-bus', {})).not.toContain(String(process.pid));
   });
 
   it('refuses a template that would publish to wildcards', () => {

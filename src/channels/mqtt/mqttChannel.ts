@@ -1,4 +1,4 @@
-/** The MQTT channel: the CloudEvent published to each named broker, one session per broker and process. */
+/** The MQTT channel: the CloudEvent published to each named broker, one session per broker and worker. */
 import { hostname } from 'node:os';
 import { toCloudEvent } from '../../notify/cloudEvent.ts';
 import { floodSummaryEvent } from '../../notify/floodControl.ts';
@@ -6,6 +6,18 @@ import type { ChannelDefinition } from '../channel.ts';
 import { DeliveryRefused, DeliveryRetry } from '../errors.ts';
 import { secretFrom } from '../secrets.ts';
 import { createMqttPublisher, type MqttPublisher } from './mqttPublisher.ts';
+
+/**
+ * The client id a worker publishes to a channel's broker with: `wearshift-<channel>-<worker>`, the worker being
+ * `WEARSHIFT_WORKER_ID` or else the host name; characters other than letters, digits, `.`, `_` and `-` become `-`.
+ * It stays the same across restarts, so that the broker finds the worker's persistent session (`clean: false`) again
+ * instead of keeping one more abandoned session per restart. Two processes must not share it (the broker would hand
+ * the session back and forth between them): several workers on one host need a `WEARSHIFT_WORKER_ID` each.
+ */
+export function mqttClientId(channel: string, env: NodeJS.ProcessEnv, host: string = hostname()): string {
+  const worker = env.WEARSHIFT_WORKER_ID?.trim() || host;
+  return `wearshift-${channel}-${worker}`.replace(/[^A-Za-z0-9._-]/g, '-');
+}
 
 export const mqttChannel: ChannelDefinition = {
   secretRefs: (channels) => channels.mqtt.flatMap((m) => (m.passwordEnv === undefined ? [] : [{ ref: m.passwordEnv, usedBy: `channels.mqtt "${m.name}" (the broker password)` }])),
@@ -19,8 +31,7 @@ export const mqttChannel: ChannelDefinition = {
       if (c === undefined) throw new DeliveryRefused(`no MQTT channel named "${name}" in channels.mqtt`);
       const created = createMqttPublisher({
         url: c.url,
-        // One session per process: two processes sharing a client id would keep taking the session from each other.
-        clientId: `wearshift-${name}-${hostname()}-${process.pid}`,
+        clientId: mqttClientId(name, env),
         topicTemplate: c.topic,
         qos: c.qos === 0 ? 1 : c.qos,
         ...(c.username !== undefined && { username: c.username }),

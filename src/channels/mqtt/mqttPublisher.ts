@@ -6,6 +6,11 @@
  * `clean: false` asks the broker to keep our session (its in-flight state for us) across reconnects.
  * The outgoing store lives in memory: what has not been acknowledged when the process ends is not sent, so the
  * queue must treat a publish as done only when its promise resolves.
+ *
+ * A caller that stopped waiting (its signal aborted) leaves the message in the outgoing store, where it still goes
+ * out once the broker is back. A retry of the same message (the same CloudEvent id) while that publish is pending
+ * waits for it instead of queueing a copy: however many attempts a broker outage takes, the broker gets the message
+ * once from this client.
  */
 import { connect, type IClientOptions, type IClientPublishOptions, type MqttClient } from 'mqtt';
 import type { IncidentCloudEvent } from '../../notify/cloudEvent.ts';
@@ -71,6 +76,8 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
   });
   // Without a listener an 'error' event would end the process; a refused connection is routine here.
   client.on('error', (e) => options.onError?.(e));
+  /** Publishes waiting for their PUBACK, by CloudEvent id. */
+  const pending = new Map<string, Promise<unknown>>();
 
   return {
     get connected() {
@@ -90,15 +97,26 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
     },
   };
 
-  async function send(topic: string, event: unknown, publishOptions: { signal?: AbortSignal } | undefined): Promise<{ topic: string }> {
+  /** The pending publish of the event, or a new one: never a second copy in the outgoing store. */
+  function publishOnce(topic: string, event: { id: string }): Promise<unknown> {
+    const waiting = pending.get(event.id);
+    if (waiting !== undefined) return waiting;
     const publishOpts: IClientPublishOptions = {
       qos,
       retain: options.retain ?? false,
       ...(protocolVersion === 5 && { properties: { contentType: 'application/cloudevents+json; charset=utf-8' } }),
     };
+    const acknowledged = client.publishAsync(topic, JSON.stringify(event), publishOpts).finally(() => {
+      if (pending.get(event.id) === acknowledged) pending.delete(event.id);
+    });
+    pending.set(event.id, acknowledged);
+    return acknowledged;
+  }
+
+  async function send(topic: string, event: { id: string }, publishOptions: { signal?: AbortSignal } | undefined): Promise<{ topic: string }> {
     const signal = publishOptions?.signal;
     signal?.throwIfAborted();
-    const acknowledged = client.publishAsync(topic, JSON.stringify(event), publishOpts);
+    const acknowledged = publishOnce(topic, event);
     if (signal === undefined) {
       await acknowledged;
     } else {
@@ -111,7 +129,7 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
         await Promise.race([acknowledged, aborted]);
       } finally {
         if (onAbort) signal.removeEventListener('abort', onAbort);
-        // The message stays in the outgoing store and may still go out; receivers de-duplicate on its id.
+        // The message stays in the outgoing store and still goes out; a retry of it waits for this publish.
         acknowledged.catch(() => undefined);
       }
     }
