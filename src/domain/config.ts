@@ -250,6 +250,14 @@ export const ConfigSchema = z
   .strict()
   .superRefine((c, ctx) => {
     for (const issue of escalationChannelIssues(c.escalation, c.channels)) ctx.addIssue({ code: 'custom', ...issue });
+    // A component's settings are looked up by its group's name: a second group of the same name would silently get
+    // the first one's limits and detection settings.
+    const firstOfName = new Map<string, number>();
+    c.groups.forEach((g, i) => {
+      const first = firstOfName.get(g.name);
+      if (first === undefined) firstOfName.set(g.name, i);
+      else ctx.addIssue({ code: 'custom', path: ['groups', i, 'name'], message: `"${g.name}" is also the name of groups.${first}; group names must be unique (groups.${i} would get the settings of groups.${first})` });
+    });
     c.groups.forEach((g, i) => {
       if (g.match?.unit === undefined) return;
       try {
