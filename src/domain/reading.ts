@@ -2,6 +2,7 @@
  * One lab reading. Results below (or above) the method's reporting range are kept as censored values,
  * never silently turned into numbers: "<1" means "below 1", not 0 and not 1.
  */
+import { isMeasurand, MEASURANDS } from './measurands.ts';
 
 export type Reading =
   | { readonly kind: 'value'; readonly value: number }
@@ -16,10 +17,50 @@ export interface Iso4406Code {
 }
 
 /**
- * No measurand reaches this in its unit (a million ppm is pure metal; particle counts per mL stay below 1e7).
- * Larger numbers are typing or unit errors, and near the float limit the rules' arithmetic overflows.
+ * The bound of earlier versions for every measurand alike. Still what a stored reading is read back with: it was
+ * accepted under it, and a history must stay readable. New readings are held to their unit's bound (below).
  */
 export const MAX_READING = 1e9;
+
+/**
+ * The largest plausible reading in each unit of the measurand catalogue. More is a typing or unit error (ppm written
+ * as ppb, a fraction as ppm), and near the float limit the rules' arithmetic overflows. Each bound lies above anything
+ * a lab reports in that unit, so that no true reading is refused:
+ * - `%` (fuel, soot, glycol): 100, the whole sample.
+ * - `ppm` (elements, water): 1 000 000, the whole sample.
+ * - `per mL` (particle counts): 10 000 000, four times the top of ISO 4406's highest scale number, 28 (2 500 000 per mL).
+ * - `mm²/s` (viscosity): 100 000, some thirty times the thickest ISO 3448 grade (VG 3200: at most 3 520 mm²/s at 40 °C).
+ * - `mg KOH/g` (base and acid number): 1 000, the alkalinity of pure potassium hydroxide; the most alkaline oils,
+ *   marine cylinder oils, are near 140 (common practice).
+ * - `A/cm` (FTIR oxidation, nitration): 1 000; a spectrometer reads absorbances up to about 3, which over a 0.1 mm
+ *   transmission cell is 300 A/cm (from memory).
+ * - `index` (PQ, ferrous debris): 100 000; the index has no fixed top, and the worst samples read a few thousand
+ *   (from memory).
+ * - `code` (ISO 4406): never a number; the code's scale numbers are checked on their own (0 to 28).
+ */
+export const MAX_BY_UNIT: Readonly<Record<string, number>> = {
+  '%': 100,
+  ppm: 1e6,
+  'per mL': 1e7,
+  'mm²/s': 1e5,
+  'mg KOH/g': 1000,
+  'A/cm': 1000,
+  index: 1e5,
+  code: 28,
+};
+
+/**
+ * The largest plausible reading of a measurand, in its unit (MAX_READING for a name outside the catalogue, or a unit
+ * without a bound — a test keeps every unit of the catalogue bound).
+ */
+export function maxReading(measurand: string): number {
+  return (isMeasurand(measurand) ? MAX_BY_UNIT[MEASURANDS[measurand].unit] : undefined) ?? MAX_READING;
+}
+
+export interface ParseReadingOptions {
+  /** The largest number taken; default the measurand's `maxReading`. Stored readings are read back with MAX_READING. */
+  readonly max?: number;
+}
 
 const CENSORED = /^\s*([<>])\s*=?\s*(\d+(?:\.\d+)?)\s*$/;
 const NUMBER = /^\s*[-+]?\d+(?:\.\d+)?(?:[eE][-+]?\d+)?\s*$/;
@@ -28,13 +69,15 @@ const ISO_CODE = /^\s*(-|\d{1,2})\s*\/\s*(\d{1,2})\s*\/\s*(\d{1,2})\s*$/;
 export type ParsedReading = { ok: true; reading: Reading } | { ok: false; reason: string };
 
 /** Parses a reading as labs send it: a number, a censored string such as "<1", or an ISO 4406 code "18/16/13". */
-export function parseReading(raw: unknown, measurand: string): ParsedReading {
+export function parseReading(raw: unknown, measurand: string, options: ParseReadingOptions = {}): ParsedReading {
+  const max = options.max ?? maxReading(measurand);
+  const unit = isMeasurand(measurand) ? ` ${MEASURANDS[measurand].unit}` : '';
   if (typeof raw === 'number') {
     // A bare number is no cleanliness code; accepted, it would be stored and never judged.
     if (measurand === 'iso4406') return { ok: false, reason: `expected an ISO 4406 code such as "18/16/13" or "-/16/13", got the number ${raw}` };
     if (!Number.isFinite(raw)) return { ok: false, reason: 'must be a finite number' };
     if (raw < 0) return { ok: false, reason: `must not be negative (got ${raw})` };
-    if (raw > MAX_READING) return { ok: false, reason: `is implausibly large (got ${raw}, at most ${MAX_READING})` };
+    if (raw > max) return { ok: false, reason: `is implausibly large (got ${raw}, at most ${max}${unit})` };
     return { ok: true, reading: { kind: 'value', value: raw } };
   }
   if (typeof raw !== 'string') return { ok: false, reason: `expected a number or a string such as "<1", got ${describe(raw)}` };
@@ -48,10 +91,10 @@ export function parseReading(raw: unknown, measurand: string): ParsedReading {
   const c = CENSORED.exec(raw);
   if (c) {
     const limit = Number(c[2]);
-    if (limit > MAX_READING) return { ok: false, reason: `is implausibly large (got "${clip(raw)}", at most ${MAX_READING})` };
+    if (limit > max) return { ok: false, reason: `is implausibly large (got "${clip(raw)}", at most ${max}${unit})` };
     return { ok: true, reading: { kind: 'censored', bound: c[1] === '<' ? 'below' : 'above', limit } };
   }
-  if (NUMBER.test(raw)) return parseReading(Number(raw), measurand);
+  if (NUMBER.test(raw)) return parseReading(Number(raw), measurand, options);
   return { ok: false, reason: `expected a number or a censored value such as "<1" or ">5000", got "${clip(raw)}"` };
 }
 

@@ -8,7 +8,7 @@
  */
 import type { Sample } from '../domain/event.ts';
 import { isMeasurand, type Measurand } from '../domain/measurands.ts';
-import { formatReading, parseReading, type Reading } from '../domain/reading.ts';
+import { formatReading, MAX_READING, parseReading, type Reading } from '../domain/reading.ts';
 
 type Encoded = [string, number, number, number | null, number | null, number, number, string | null, string | null, string];
 
@@ -27,7 +27,8 @@ function parseReadings(readingText: string, sampleId: string): Partial<Record<Me
       const m = part.slice(0, eq);
       const raw = part.slice(eq + 1);
       if (!isMeasurand(m)) throw new Error(`stored sample ${sampleId}: unknown measurand ${m}`);
-      const parsed = parseReading(m === 'iso4406' ? raw : /^[<>]/.test(raw) ? raw : Number(raw), m);
+      // Read back with the bound it was accepted under: a reading stored before the bounds by unit stays readable.
+      const parsed = parseReading(m === 'iso4406' ? raw : /^[<>]/.test(raw) ? raw : Number(raw), m, { max: MAX_READING });
       if (!parsed.ok) throw new Error(`stored sample ${sampleId}: ${m}: ${parsed.reason}`);
       readings[m] = parsed.reading;
     }

@@ -41,7 +41,8 @@ const hours = mostly(
 );
 
 const readingValue = mostly(
-  fc.oneof(fc.double({ min: 0, max: 500, noNaN: true }), fc.constantFrom(0, 5e-324, 1e9, '<1', '< 0.5', '>5000', '<=3', '12', ' 7.5 ', '1e3', '>1000000000')),
+  // The largest readings accepted in ppm (1e6) and per mL (1e7); the bounds by unit refuse them in %, A/cm and mg KOH/g.
+  fc.oneof(fc.double({ min: 0, max: 500, noNaN: true }), fc.constantFrom(0, 5e-324, 100, 1e6, 1e7, '<1', '< 0.5', '>5000', '<=3', '12', ' 7.5 ', '1e3', '>1000000')),
   fc.oneof(fc.constantFrom('1e999', '12,5', '18/16/13', '', '<1e5', 'trace', '-0', 1e9 + 1, 1e300, Number.MAX_VALUE, '>1000000001'), fc.double(), fc.jsonValue()),
 );
 
@@ -189,7 +190,7 @@ const wearSeries = fc
     fc.record({
       days: fc.oneof(fc.integer({ min: 0, max: 40 }), fc.constant(0)),
       hours: fc.oneof(fc.integer({ min: 0, max: 400 }), fc.constantFrom(0, 1e7)),
-      Fe: fc.oneof(fc.double({ min: 0, max: 300, noNaN: true }), fc.constantFrom(0, 1e9, '<1', '>500')),
+      Fe: fc.oneof(fc.double({ min: 0, max: 300, noNaN: true }), fc.constantFrom(0, 1e6, '<1', '>500')),
       Cu: fc.oneof(fc.double({ min: 0, max: 50, noNaN: true }), fc.constant('<1')),
       oilChanged: fc.nat(7).map((n) => n === 0),
       componentChanged: fc.nat(20).map((n) => n === 0),
