@@ -30,11 +30,16 @@ export const ResultOutcomesSchema = z.array(RecordOutcomeSchema).describe('One o
 
 export const ErrorBodySchema = z
   .object({
-    error: z.string().describe('A machine-readable word: invalid-request, not-found, conflict, unauthorized, forbidden, payload-too-large, too-many-records, unavailable, bad-request, internal.'),
+    error: z
+      .string()
+      .describe(
+        'A machine-readable word: invalid-request (a field, named in issues), bad-request (a body that is not JSON or empty, a path that is not valid percent-encoding), unauthorized, forbidden, not-found, conflict, not-in-doubt, payload-too-large, too-many-records, uri-too-long, unsupported-media-type, unavailable, internal.',
+      ),
     message: z.string(),
     issues: z.array(z.object({ field: z.string(), message: z.string() }).strict()).optional(),
     maxBytes: z.number().int().positive().optional().describe('With payload-too-large: the body limit in bytes.'),
     maxRecords: z.number().int().positive().optional().describe('With too-many-records: the most records one request may hold.'),
+    accepted: z.array(z.string()).optional().describe('With unsupported-media-type: the content types the route takes.'),
   })
   .strict();
 

@@ -21,6 +21,8 @@ export interface AckLinkRoutesOptions {
 }
 
 const FORM = 'application/x-www-form-urlencoded';
+/** The largest acknowledgement form: a name and a note, percent-encoded. */
+const ACK_FORM_MAX_BYTES = 8192;
 
 const PAGE_HEADERS = {
   'content-type': 'text/html; charset=utf-8',
@@ -37,7 +39,7 @@ export const ackLinkRoutes: FastifyPluginAsync<AckLinkRoutesOptions> = async (ap
   const now = options.now ?? (() => new Date());
 
   if (!app.hasContentTypeParser(FORM)) {
-    app.addContentTypeParser(FORM, { parseAs: 'string', bodyLimit: 8192 }, (_req, body, done) => {
+    app.addContentTypeParser(FORM, { parseAs: 'string', bodyLimit: ACK_FORM_MAX_BYTES }, (_req, body, done) => {
       done(null, Object.fromEntries(new URLSearchParams(String(body))));
     });
   }
@@ -69,7 +71,8 @@ export const ackLinkRoutes: FastifyPluginAsync<AckLinkRoutesOptions> = async (ap
     return send(reply, 200, { kind: 'confirm', incident, name: claims.recipient, expiresAt: claims.expiresAt });
   });
 
-  app.post('/ack/*', async (request, reply) => {
+  // The form is a name and a note: the route takes no more than its parser does, whatever the content type.
+  app.post('/ack/*', { bodyLimit: ACK_FORM_MAX_BYTES }, async (request, reply) => {
     const found = await resolve(request, reply);
     if (!found) return reply;
     const { claims, incident } = found;

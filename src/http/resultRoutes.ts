@@ -14,6 +14,7 @@ import type { Metrics } from '../telemetry/metrics.ts';
 import { requireRole, type AccessTokens } from './auth.ts';
 import { DEFAULT_HTTP_LIMITS, formatBytes } from './limits.ts';
 import { UNAVAILABLE_RETRY_AFTER_S } from './unavailable.ts';
+import { clientError } from './clientErrors.ts';
 
 export interface ResultRoutesOptions {
   /** The API's bearer tokens. */
@@ -82,9 +83,8 @@ export const resultRoutes: FastifyPluginAsync<ResultRoutesOptions> = async (app,
     if (error.code === 'FST_ERR_CTP_BODY_TOO_LARGE') {
       return reply.code(413).send({ error: 'payload-too-large', message: `the request body exceeds the limit of ${formatBytes(bodyLimit)}; send the results in smaller batches`, maxBytes: bodyLimit });
     }
-    if (error.statusCode !== undefined && error.statusCode >= 400 && error.statusCode < 500) {
-      return reply.code(error.statusCode).send({ error: 'bad-request', message: error.message });
-    }
+    const refused = clientError(error, request);
+    if (refused !== undefined) return reply.code(refused.status).send(refused.body);
     request.log.error({ err: error }, 'result intake failed');
     return reply.code(500).send({ error: 'internal', message: 'the results could not be taken; nothing was accepted' });
   });

@@ -3,7 +3,7 @@
  * result intake, the incident API and acknowledgement-link pages, the component series and charts, and the
  * live event stream. JSON in and out; bearer tokens per role (auth.ts).
  */
-import Fastify from 'fastify';
+import Fastify, { type FastifyError, type FastifyReply, type FastifyRequest } from 'fastify';
 import type { Config } from '../domain/config.ts';
 import { describeState, type Incident } from '../incidents/model.ts';
 import type { IncidentRoutesStore } from './incidentRoutes.ts';
@@ -28,6 +28,7 @@ import { seriesRoutes } from './seriesRoutes.ts';
 import { sampleVerdictRoutes, type SampleVerdictTaker } from './sampleVerdictRoutes.ts';
 import { ChartPool } from '../render/chartPool.ts';
 import { isStoreUnavailable, UNAVAILABLE_RETRY_AFTER_S } from './unavailable.ts';
+import { clientError, notFound } from './clientErrors.ts';
 
 export interface ServerOptions {
   /** The API's bearer tokens by role (the runtime reads them from the environment: src/runtime/accessTokensFromEnv.ts). */
@@ -77,6 +78,12 @@ export async function buildServer(options: ServerOptions) {
     keepAliveTimeout: limits.keepAliveTimeoutMs,
     connectionTimeout: limits.idleSocketTimeoutMs,
     http: { headersTimeout: limits.headersTimeoutMs, connectionsCheckingInterval: limits.timeoutCheckIntervalMs },
+    // A path parameter over the limit (414) or a path that is not valid percent-encoding (400): refused by the
+    // router before any route, in the documented Error shape and without echoing the whole path.
+    frameworkErrors: (error, request, reply) => {
+      const refused = clientError(error, request as FastifyRequest, { maxParamLength: limits.maxParamLength }) ?? { status: 400, body: { error: 'bad-request', message: 'the request was refused' } };
+      void (reply as FastifyReply).code(refused.status).send(refused.body);
+    },
   });
   app.server.maxConnections = limits.maxConnections;
   // A refused request (no token, too large) gets its answer and then the socket is closed, whatever the client
@@ -84,9 +91,12 @@ export async function buildServer(options: ServerOptions) {
   app.addHook('onSend', async (_request, reply) => {
     if ([401, 403, 408, 413].includes(reply.statusCode)) reply.header('connection', 'close');
   });
-  app.setErrorHandler(async (error: Error & { statusCode?: number }, request, reply) => {
-    const status = error.statusCode;
-    if (status !== undefined && status >= 400 && status < 500) throw error;
+  // Every refusal in the documented Error shape: the body parsers' (invalid or empty JSON, too large, a content type no
+  // route takes) as the routes' own.
+  app.setNotFoundHandler(async (request, reply) => reply.code(404).send(notFound(request)));
+  app.setErrorHandler(async (error: FastifyError, request, reply) => {
+    const refused = clientError(error, request);
+    if (refused !== undefined) return reply.code(refused.status).send(refused.body);
     if (isStoreUnavailable(error) || !(await answers(options.ping))) {
       request.log.warn({ err: error.message }, 'store unavailable');
       return reply

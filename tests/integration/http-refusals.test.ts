@@ -1,11 +1,16 @@
 /**
  * How the whole API (buildServer over a real port, a private redis-server behind it) refuses what it cannot take:
  * a request without a usable token is refused before its body is read, whatever the body holds; a name with control
- * characters is refused naming the field.
+ * characters is refused naming the field; what the framework refuses before any route (a body that is not JSON,
+ * empty or too large, a content type no route takes, an over-long or badly encoded path, a path no route serves)
+ * comes in the documented Error shape, validated with Ajv against the published schemas/openapi.json.
  */
+import { readFileSync } from 'node:fs';
 import { connect } from 'node:net';
 import type { AddressInfo } from 'node:net';
 import type { Queue } from 'bullmq';
+import { Ajv2020 } from 'ajv/dist/2020.js';
+import formats from 'ajv-formats';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Step } from '../../src/analysis/model.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
@@ -77,6 +82,7 @@ beforeAll(async () => {
     histories: { store, ledger: store, config: ConfigSchema.parse({}) },
     sampleVerdicts: new SampleVerdicts(store, evaluateQueues, partitions),
     hub: createEventHub(),
+    ackLinkSecrets: ['ack-secret-refusals-62f1c0a9d4'],
     openApi: openApiDocument(),
     bodyLimitBytes: BODY_LIMIT,
     // A request whose body never comes is cut off well before the test's bound, so a late check shows as a failure.
@@ -178,5 +184,132 @@ describe('who acts', () => {
     const long = await fetch(`${base}${COMPONENT}/samples/LAB-4001/verdict`, { method: 'POST', headers: { ...auth('responder'), 'content-type': 'application/json' }, body: JSON.stringify({ verdict: 'confirmed', by: 'n'.repeat(81) }) });
     expect(long.status).toBe(400);
     expect(((await long.json()) as { issues: { field: string }[] }).issues.map((i) => i.field)).toEqual(['body.by']);
+  });
+});
+
+// ajv-formats is CommonJS: its plugin is the default export's default.
+const addFormats = formats as unknown as typeof formats.default;
+const published = JSON.parse(readFileSync(new URL('../../schemas/openapi.json', import.meta.url), 'utf8')) as { components: { schemas: Record<string, object> } };
+const ajv = new Ajv2020({ strict: false, allErrors: true });
+addFormats(ajv);
+const validError = ajv.compile(published.components.schemas.Error!);
+
+interface Answer {
+  status: number;
+  headers: Record<string, string>;
+  body: string;
+}
+
+/**
+ * One request over a raw socket: the head, then `body` (which may be shorter than `declaredLength`: the rest never
+ * comes); resolves with the first answer, read to the end of its Content-Length.
+ */
+function rawRequest(method: string, path: string, headers: Record<string, string>, body = '', declaredLength = Buffer.byteLength(body)): Promise<Answer> {
+  return new Promise((resolve, reject) => {
+    const socket = connect({ host: '127.0.0.1', port });
+    let data = Buffer.alloc(0);
+    const timer = setTimeout(() => finish(new Error(`no whole answer to ${method} ${path.slice(0, 60)} within ${ANSWER_WITHIN_MS} ms`)), ANSWER_WITHIN_MS);
+    const finish = (outcome: Answer | Error) => {
+      clearTimeout(timer);
+      socket.destroy();
+      if (outcome instanceof Error) reject(outcome);
+      else resolve(outcome);
+    };
+    const tryParse = () => {
+      const end = data.indexOf('\r\n\r\n');
+      if (end === -1) return;
+      const [statusLine, ...lines] = data.subarray(0, end).toString('latin1').split('\r\n');
+      const head = Object.fromEntries(lines.map((l) => [l.slice(0, l.indexOf(':')).toLowerCase(), l.slice(l.indexOf(':') + 1).trim()]));
+      const length = Number(head['content-length'] ?? 0);
+      if (data.length - end - 4 < length) return;
+      finish({ status: Number(statusLine!.split(' ')[1]), headers: head, body: data.subarray(end + 4, end + 4 + length).toString('utf8') });
+    };
+    socket.on('error', () => tryParse());
+    socket.on('data', (d: Buffer) => {
+      data = Buffer.concat([data, d]);
+      tryParse();
+    });
+    socket.on('close', () => finish(new Error(`closed before a whole answer: ${JSON.stringify(data.toString('latin1').slice(0, 80))}`)));
+    const head = Object.entries({ host: '127.0.0.1', connection: 'close', ...(method === 'POST' && { 'content-length': String(declaredLength) }), ...headers }).map(([k, v]) => `${k}: ${v}\r\n`);
+    socket.write(`${method} ${path} HTTP/1.1\r\n${head.join('')}\r\n${body}`);
+  });
+}
+
+/** The answer is JSON in the documented Error shape; returns it. */
+function documentedError(answer: Answer, what: string): { error: string; message: string; maxBytes?: number; accepted?: string[] } {
+  expect(answer.headers['content-type'], what).toMatch(/^application\/json/);
+  const body = JSON.parse(answer.body) as unknown;
+  expect(validError(body), `${what}: ${ajv.errorsText(validError.errors)} in ${answer.body}`).toBe(true);
+  return body as { error: string; message: string; maxBytes?: number; accepted?: string[] };
+}
+
+describe('what the framework refuses before any route', () => {
+  const json = { ...auth('responder'), 'content-type': 'application/json' };
+
+  it('a body that is not JSON, or empty: 400 bad-request', async () => {
+    for (const path of [`${INCIDENT}/note`, `${COMPONENT}/samples/LAB-4001/verdict`]) {
+      const bad = await rawRequest('POST', path, json, '{bad');
+      expect(bad.status).toBe(400);
+      expect(documentedError(bad, `${path} {bad`)).toEqual({ error: 'bad-request', message: 'the body is not valid JSON, but the content type says it is' });
+      const empty = await rawRequest('POST', path, json, '');
+      expect(empty.status).toBe(400);
+      expect(documentedError(empty, `${path} empty`)).toMatchObject({ error: 'bad-request', message: expect.stringMatching(/empty/) });
+    }
+    const results = await rawRequest('POST', '/v1/results', { ...auth('ingest'), 'content-type': 'application/json' }, '{bad');
+    expect(results.status).toBe(400);
+    expect(documentedError(results, '/v1/results {bad').error).toBe('bad-request');
+  });
+
+  it('a body over the limit: 413 payload-too-large with the limit in maxBytes, on every route that takes one', async () => {
+    for (const [path, headers, maxBytes] of [
+      [`${INCIDENT}/ack`, json, BODY_LIMIT],
+      [`${COMPONENT}/samples/LAB-4001/verdict`, json, BODY_LIMIT],
+      ['/v1/results', { ...auth('ingest'), 'content-type': 'application/json' }, BODY_LIMIT],
+      ['/v1/results', { ...auth('ingest'), 'content-type': 'application/x-ndjson' }, BODY_LIMIT],
+      // The acknowledgement form of an e-mail link takes a name and a note, no more.
+      ['/ack/any-token', { 'content-type': 'application/x-www-form-urlencoded' }, 8192],
+    ] as const) {
+      const answer = await rawRequest('POST', path, headers, '{', 6_000_000);
+      expect(`${path} ${answer.status}`).toBe(`${path} 413`);
+      const body = documentedError(answer, `${path} 413`);
+      expect(body).toMatchObject({ error: 'payload-too-large', maxBytes });
+      expect(answer.headers.connection).toBe('close');
+    }
+  });
+
+  it('a content type no route takes: 415 naming the types the route takes', async () => {
+    const note = await rawRequest('POST', `${INCIDENT}/note`, { ...auth('responder'), 'content-type': 'application/xml' }, '<note/>');
+    expect(note.status).toBe(415);
+    const body = documentedError(note, 'note 415');
+    expect(body).toMatchObject({ error: 'unsupported-media-type', accepted: ['application/json'] });
+    expect(body.message).toContain('"application/xml"');
+    expect(body.message).toContain('send application/json');
+    const results = await rawRequest('POST', '/v1/results', { ...auth('ingest'), 'content-type': 'text/csv' }, 'sampleId,Fe\nA,1\n');
+    expect(results.status).toBe(415);
+    expect(documentedError(results, 'results 415')).toMatchObject({ error: 'unsupported-media-type', accepted: ['application/json', 'application/x-ndjson'] });
+  });
+
+  it('an over-long path parameter: 414 uri-too-long, without echoing the path', async () => {
+    const path = `/v1/incidents/${'x'.repeat(3000)}`;
+    const answer = await rawRequest('GET', path, auth('viewer'));
+    expect(answer.status).toBe(414);
+    const body = documentedError(answer, '414');
+    expect(body.error).toBe('uri-too-long');
+    expect(answer.body.length).toBeLessThan(500);
+  });
+
+  it('a path no route serves: 404 not-found, with a hint for an incident id sent without percent-encoding', async () => {
+    const unencoded = await rawRequest('GET', '/v1/incidents/PS4-P2/gearbox@LAB-4001', auth('viewer'));
+    expect(unencoded.status).toBe(404);
+    expect(documentedError(unencoded, 'unencoded id').message).toMatch(/^no route for GET \/v1\/incidents\/PS4-P2\/gearbox@LAB-4001; an incident id holds "\/" and must be percent-encoded/);
+    const nowhere = await rawRequest('GET', `/v2/${'x'.repeat(5000)}?token=abc`, {});
+    expect(nowhere.status).toBe(404);
+    const body = documentedError(nowhere, 'unknown route');
+    expect(body.error).toBe('not-found');
+    expect(body.message.length).toBeLessThan(200);
+    expect(body.message).not.toContain('token=');
+    const badEncoding = await rawRequest('GET', '/v1/incidents/%E0%A4%A', auth('viewer'));
+    expect(badEncoding.status).toBe(400);
+    expect(documentedError(badEncoding, 'bad percent-encoding').error).toBe('bad-request');
   });
 });
