@@ -13,6 +13,8 @@ import { ErrorBodySchema, HealthSchema, SessionSchema, IncidentEnvelopeSchema, I
 
 export const API_VERSION = '1';
 
+const CHART_UNAVAILABLE = 'The chart threads are busy (more requests wait than the queue holds), the chart took longer than its limit, or the store is away; try again after Retry-After.';
+
 type Json = Record<string, unknown>;
 
 /** A zod schema as a JSON Schema for a component: no `$schema`, definitions inlined. */
@@ -24,7 +26,21 @@ function schemaOf(schema: z.ZodType, io: 'input' | 'output'): Json {
 const ref = (name: string) => ({ $ref: `#/components/schemas/${name}` });
 const json = (name: string) => ({ 'application/json': { schema: ref(name) } });
 const error = (description: string) => ({ description, content: json('Error') });
-const AUTH_ERRORS = { '401': error('No or unknown bearer token.'), '403': error("The token's role does not permit this.") };
+/** A 503 with the Retry-After header (seconds). */
+const unavailable = (description: string) => ({ description, headers: { 'Retry-After': { $ref: '#/components/headers/RetryAfter' } }, content: json('Error') });
+const AUTH_ERRORS = {
+  '401': error('No or unknown bearer token (answered before the body is read).'),
+  '403': error("The token's role does not permit this (answered before the body is read)."),
+};
+/** Redis away or not answering within the command timeout (2 s): nothing was changed. */
+const STORE_UNAVAILABLE = { '503': unavailable('The store (Redis) is away or did not answer within 2 s; nothing was changed. Retry after Retry-After (5 s).') };
+/** What every route with a path parameter may answer before the route runs. */
+const PATH_ERRORS = { '414': error('A path parameter is longer than 2 304 characters (uri-too-long).') };
+/** What every route that takes a JSON body may answer before the route runs. */
+const BODY_ERRORS = {
+  '413': error('The body exceeds the limit (5 MB by default; payload-too-large with `maxBytes`).'),
+  '415': error('A content type the route does not take (unsupported-media-type; `accepted` names those it takes).'),
+};
 
 const VERB_TEXT: Record<keyof typeof INCIDENT_ACTION_BODIES, string> = {
   ack: 'Acknowledge (ISA-18.2): someone owns it; escalation stops. Acknowledging a returned incident closes it.',
@@ -58,7 +74,16 @@ export function openApiDocument(): Json {
           security: [{ bearer: ['responder'] }],
           parameters: [incidentId],
           requestBody: { required: true, content: json(`${verb[0]!.toUpperCase()}${verb.slice(1)}Body`) },
-          responses: { '200': { description: 'The incident after the action.', content: json('IncidentEnvelope') }, '400': error('A field is missing or invalid.'), ...AUTH_ERRORS, '404': error('No such incident.'), '409': error('The incident changed meanwhile or the action does not apply to its state.') },
+          responses: {
+            '200': { description: 'The incident after the action.', content: json('IncidentEnvelope') },
+            '400': error('A field is missing or invalid (invalid-request, naming it), or the body is not JSON (bad-request).'),
+            ...AUTH_ERRORS,
+            '404': error('No such incident.'),
+            '409': error('The incident changed meanwhile or the action does not apply to its state.'),
+            ...BODY_ERRORS,
+            ...PATH_ERRORS,
+            ...STORE_UNAVAILABLE,
+          },
         },
       },
     ]),
@@ -90,12 +115,13 @@ export function openApiDocument(): Json {
           },
           responses: {
             '202': { description: 'At least one record was accepted (rejected ones carry their errors).', content: json('ResultOutcomes') },
-            '400': error('The body holds no result.'),
+            '400': error('The body holds no result, or is not JSON (bad-request).'),
             ...AUTH_ERRORS,
             '409': { description: 'No record was accepted and every one was refused as a conflict: the same sampleId and revision is already stored with other content (a correction needs a higher revision).', content: json('ResultOutcomes') },
             '413': error('The body exceeds the limit (5 MB by default; `maxBytes`), or holds more records than one request may (5 000 by default; error too-many-records, `maxRecords`). Nothing was accepted.'),
+            '415': BODY_ERRORS['415'],
             '422': { description: 'No record was accepted.', content: json('ResultOutcomes') },
-            '503': error('The results queue is unavailable, or Redis did not answer within the command timeout (2 s); send the records again after Retry-After (a result sent twice is stored once).'),
+            '503': unavailable('The results queue is unavailable, or Redis did not answer within the command timeout (2 s); send the records again after Retry-After (a result sent twice is stored once).'),
           },
         },
       },
@@ -106,7 +132,7 @@ export function openApiDocument(): Json {
           tags: ['incidents'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
           parameters: queryParameters(IncidentFilterSchema),
-          responses: { '200': { description: 'The incidents that match.', content: json('IncidentList') }, '400': error('A query parameter is invalid.'), ...AUTH_ERRORS },
+          responses: { '200': { description: 'The incidents that match.', content: json('IncidentList') }, '400': error('A query parameter is invalid.'), ...AUTH_ERRORS, ...STORE_UNAVAILABLE },
         },
       },
       '/v1/incidents/{id}': {
@@ -116,7 +142,13 @@ export function openApiDocument(): Json {
           tags: ['incidents'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
           parameters: [incidentId],
-          responses: { '200': { description: 'The incident.', content: json('IncidentEnvelope') }, ...AUTH_ERRORS, '404': error('No such incident.') },
+          responses: {
+            '200': { description: 'The incident.', content: json('IncidentEnvelope') },
+            ...AUTH_ERRORS,
+            '404': error('No such incident (an id sent without percent-encoding matches no route and is told so).'),
+            ...PATH_ERRORS,
+            ...STORE_UNAVAILABLE,
+          },
         },
       },
       ...actions,
@@ -127,7 +159,14 @@ export function openApiDocument(): Json {
           tags: ['components'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
           parameters: [...component, { name: 'measurand', in: 'query', required: false, description: 'Comma-separated measurands (or the parameter repeated); default all.', schema: { type: 'string' } }],
-          responses: { '200': { description: 'The series.', content: json('Series') }, '400': error('Unknown measurand.'), ...AUTH_ERRORS, '404': error('No such component.') },
+          responses: {
+            '200': { description: 'The series.', content: json('Series') },
+            '400': error('Unknown measurand.'),
+            ...AUTH_ERRORS,
+            '404': error('No such component.'),
+            ...PATH_ERRORS,
+            '503': unavailable(CHART_UNAVAILABLE),
+          },
         },
       },
       '/v1/units/{unit}/components/{component}/samples/{sampleId}/verdict': {
@@ -140,9 +179,13 @@ export function openApiDocument(): Json {
           requestBody: { required: true, content: json('VerdictBody') },
           responses: {
             '202': { description: 'The verdict taken.', content: { 'application/json': { schema: { type: 'object', properties: { unit: { type: 'string' }, component: { type: 'string' }, sampleId: { type: 'string' }, verdict: { type: 'string' }, by: { type: 'string' } }, required: ['unit', 'component', 'sampleId', 'verdict', 'by'] } } } },
-            '400': error('A field is missing or invalid.'),
+            '400': error('A field is missing or invalid (invalid-request, naming it), or the body is not JSON (bad-request).'),
             ...AUTH_ERRORS,
             '404': error('The component holds no such sample.'),
+            '409': error('The sample is not in doubt: no sampling finding questioned it, so it takes no verdict (not-in-doubt).'),
+            ...BODY_ERRORS,
+            ...PATH_ERRORS,
+            ...STORE_UNAVAILABLE,
           },
         },
       },
@@ -153,7 +196,14 @@ export function openApiDocument(): Json {
           tags: ['components'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
           parameters: [...component, { name: 'measurand', in: 'query', required: true, schema: { type: 'string' } }, { name: 'width', in: 'query', required: false, schema: { type: 'integer' } }, chartTitle],
-          responses: { '200': { description: 'The chart.', content: { 'image/svg+xml': { schema: { type: 'string' } } } }, '400': error('Missing or unknown measurand.'), ...AUTH_ERRORS, '404': error('No readings.') },
+          responses: {
+            '200': { description: 'The chart.', content: { 'image/svg+xml': { schema: { type: 'string' } } } },
+            '400': error('Missing or unknown measurand.'),
+            ...AUTH_ERRORS,
+            '404': error('No readings.'),
+            ...PATH_ERRORS,
+            '503': unavailable(CHART_UNAVAILABLE),
+          },
         },
       },
       '/v1/units/{unit}/components/{component}/chart.png': {
@@ -163,7 +213,14 @@ export function openApiDocument(): Json {
           tags: ['components'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
           parameters: [...component, { name: 'measurand', in: 'query', required: true, schema: { type: 'string' } }, { name: 'width', in: 'query', required: false, schema: { type: 'integer' } }, chartTitle],
-          responses: { '200': { description: 'The chart.', content: { 'image/png': { schema: { type: 'string', contentEncoding: 'binary' } } } }, '400': error('Missing or unknown measurand.'), ...AUTH_ERRORS, '404': error('No readings.') },
+          responses: {
+            '200': { description: 'The chart.', content: { 'image/png': { schema: { type: 'string', contentEncoding: 'binary' } } } },
+            '400': error('Missing or unknown measurand.'),
+            ...AUTH_ERRORS,
+            '404': error('No readings.'),
+            ...PATH_ERRORS,
+            '503': unavailable(CHART_UNAVAILABLE),
+          },
         },
       },
       '/v1/events': {
@@ -172,7 +229,11 @@ export function openApiDocument(): Json {
           summary: 'Server-sent events: incident changes and new results (the board\u2019s live feed); a history import\u2019s results once per component and job, its latest.',
           tags: ['incidents'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
-          responses: { '200': { description: 'An event stream; each data line is a JSON live event.', content: { 'text/event-stream': { schema: { type: 'string' } } } }, ...AUTH_ERRORS },
+          responses: {
+            '200': { description: 'An event stream; each data line is a JSON live event.', content: { 'text/event-stream': { schema: { type: 'string' } } } },
+            ...AUTH_ERRORS,
+            '503': unavailable('As many live-event streams are open as the process serves (500 by default); try again after Retry-After.'),
+          },
         },
       },
       '/v1/session': {
@@ -186,14 +247,21 @@ export function openApiDocument(): Json {
       },
       '/healthz': { get: { operationId: 'healthz', summary: 'The process is alive.', tags: ['operations'], security: [], responses: { '200': { description: 'Alive.', content: json('Health') } } } },
       '/readyz': {
-        get: { operationId: 'readyz', summary: 'Redis answers.', tags: ['operations'], security: [], responses: { '200': { description: 'Ready.', content: json('Health') }, '503': { description: 'Redis does not answer.', content: json('Health') } } },
+        get: {
+          operationId: 'readyz',
+          summary: 'Redis answers.',
+          tags: ['operations'],
+          security: [],
+          responses: { '200': { description: 'Ready.', content: json('Health') }, '503': { description: 'Redis does not answer.', headers: { 'Retry-After': { $ref: '#/components/headers/RetryAfter' } }, content: json('Health') } },
+        },
       },
       '/metrics': {
-        get: { operationId: 'metrics', summary: 'Prometheus text exposition.', tags: ['operations'], security: [{ bearer: ['viewer'] }], responses: { '200': { description: 'Metrics.', content: { 'text/plain': { schema: { type: 'string' } } } }, ...AUTH_ERRORS } },
+        get: { operationId: 'metrics', summary: 'Prometheus text exposition (without a token when WEARSHIFT_METRICS_PUBLIC=1).', tags: ['operations'], security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }], responses: { '200': { description: 'Metrics.', content: { 'text/plain': { schema: { type: 'string' } } } }, ...AUTH_ERRORS } },
       },
       '/openapi.json': { get: { operationId: 'openapi', summary: 'This document.', tags: ['operations'], security: [], responses: { '200': { description: 'The OpenAPI document.', content: { 'application/json': { schema: { type: 'object' } } } } } } },
     },
     components: {
+      headers: { RetryAfter: { description: 'Seconds to wait before trying again.', schema: { type: 'integer', minimum: 1 } } },
       securitySchemes: { bearer: { type: 'http', scheme: 'bearer', description: 'Tokens from WEARSHIFT_TOKEN_INGEST, WEARSHIFT_TOKEN_RESPONDER, WEARSHIFT_TOKEN_VIEWER.' } },
       schemas: {
         ResultEvent: schemaOf(ResultEventSchema, 'input'),

@@ -235,6 +235,12 @@ function rawRequest(method: string, path: string, headers: Record<string, string
   });
 }
 
+const paths = (openApiDocument() as { paths: Record<string, Record<string, { security?: { bearer: string[] }[]; responses: Record<string, unknown> }>> }).paths;
+/** Whether the OpenAPI document lists `status` for the route `template`. */
+const documented = (template: string, method: string, status: number) => paths[template]?.[method.toLowerCase()]?.responses[String(status)] !== undefined;
+const INCIDENT_ROUTE = '/v1/incidents/{id}';
+const VERDICT_ROUTE = '/v1/units/{unit}/components/{component}/samples/{sampleId}/verdict';
+
 /** The answer is JSON in the documented Error shape; returns it. */
 function documentedError(answer: Answer, what: string): { error: string; message: string; maxBytes?: number; accepted?: string[] } {
   expect(answer.headers['content-type'], what).toMatch(/^application\/json/);
@@ -261,16 +267,17 @@ describe('what the framework refuses before any route', () => {
   });
 
   it('a body over the limit: 413 payload-too-large with the limit in maxBytes, on every route that takes one', async () => {
-    for (const [path, headers, maxBytes] of [
-      [`${INCIDENT}/ack`, json, BODY_LIMIT],
-      [`${COMPONENT}/samples/LAB-4001/verdict`, json, BODY_LIMIT],
-      ['/v1/results', { ...auth('ingest'), 'content-type': 'application/json' }, BODY_LIMIT],
-      ['/v1/results', { ...auth('ingest'), 'content-type': 'application/x-ndjson' }, BODY_LIMIT],
-      // The acknowledgement form of an e-mail link takes a name and a note, no more.
-      ['/ack/any-token', { 'content-type': 'application/x-www-form-urlencoded' }, 8192],
+    for (const [path, headers, maxBytes, template] of [
+      [`${INCIDENT}/ack`, json, BODY_LIMIT, `${INCIDENT_ROUTE}/ack`],
+      [`${COMPONENT}/samples/LAB-4001/verdict`, json, BODY_LIMIT, VERDICT_ROUTE],
+      ['/v1/results', { ...auth('ingest'), 'content-type': 'application/json' }, BODY_LIMIT, '/v1/results'],
+      ['/v1/results', { ...auth('ingest'), 'content-type': 'application/x-ndjson' }, BODY_LIMIT, '/v1/results'],
+      // The acknowledgement form of an e-mail link takes a name and a note, no more (a page, not in the API document).
+      ['/ack/any-token', { 'content-type': 'application/x-www-form-urlencoded' }, 8192, undefined],
     ] as const) {
       const answer = await rawRequest('POST', path, headers, '{', 6_000_000);
       expect(`${path} ${answer.status}`).toBe(`${path} 413`);
+      if (template !== undefined) expect(documented(template, 'POST', 413), `413 of POST ${template} documented`).toBe(true);
       const body = documentedError(answer, `${path} 413`);
       expect(body).toMatchObject({ error: 'payload-too-large', maxBytes });
       expect(answer.headers.connection).toBe('close');
@@ -284,6 +291,9 @@ describe('what the framework refuses before any route', () => {
     expect(body).toMatchObject({ error: 'unsupported-media-type', accepted: ['application/json'] });
     expect(body.message).toContain('"application/xml"');
     expect(body.message).toContain('send application/json');
+    for (const template of [...['ack', 'shelve', 'unshelve', 'resolve', 'note'].map((v) => `${INCIDENT_ROUTE}/${v}`), VERDICT_ROUTE, '/v1/results']) {
+      expect(documented(template, 'POST', 415), `415 of POST ${template} documented`).toBe(true);
+    }
     const results = await rawRequest('POST', '/v1/results', { ...auth('ingest'), 'content-type': 'text/csv' }, 'sampleId,Fe\nA,1\n');
     expect(results.status).toBe(415);
     expect(documentedError(results, 'results 415')).toMatchObject({ error: 'unsupported-media-type', accepted: ['application/json', 'application/x-ndjson'] });
@@ -296,6 +306,9 @@ describe('what the framework refuses before any route', () => {
     const body = documentedError(answer, '414');
     expect(body.error).toBe('uri-too-long');
     expect(answer.body.length).toBeLessThan(500);
+    for (const [template, method] of Object.entries(paths).flatMap(([t, ops]) => (t.includes('{') ? Object.keys(ops).map((m) => [t, m] as const) : []))) {
+      expect(documented(template, method, 414), `414 of ${method.toUpperCase()} ${template} documented`).toBe(true);
+    }
   });
 
   it('a path no route serves: 404 not-found, with a hint for an incident id sent without percent-encoding', async () => {
@@ -311,5 +324,19 @@ describe('what the framework refuses before any route', () => {
     const badEncoding = await rawRequest('GET', '/v1/incidents/%E0%A4%A', auth('viewer'));
     expect(badEncoding.status).toBe(400);
     expect(documentedError(badEncoding, 'bad percent-encoding').error).toBe('bad-request');
+  });
+});
+
+describe('the metrics', () => {
+  it('admit a viewer or a responder token, as the OpenAPI document says', async () => {
+    for (const role of ['viewer', 'responder'] as const) {
+      const res = await fetch(`${base}/metrics`, { headers: auth(role) });
+      expect(`${role} ${res.status}`).toBe(`${role} 200`);
+      await res.text();
+    }
+    const ingest = await fetch(`${base}/metrics`, { headers: auth('ingest') });
+    expect(ingest.status).toBe(403);
+    await ingest.text();
+    expect(paths['/metrics']!.get!.security).toEqual([{ bearer: ['viewer'] }, { bearer: ['responder'] }]);
   });
 });

@@ -6,6 +6,7 @@
 import type { Queue } from 'bullmq';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Step } from '../../src/analysis/model.ts';
+import { openApiDocument } from '../../src/contracts/openapi.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import { buildServer, type WearshiftServer } from '../../src/http/server.ts';
 import { UNAVAILABLE_RETRY_AFTER_S } from '../../src/http/unavailable.ts';
@@ -87,14 +88,18 @@ describe('a Redis that does not answer', () => {
     expect(REQUEST_COMMAND_TIMEOUT_MS).toBeLessThan(ANSWER_WITHIN_MS / 10);
     const incident = `/v1/incidents/${encodeURIComponent(ID)}`;
     const component = '/v1/units/PS9-P1/components/gearbox';
-    const routes: [string, string, RequestInit][] = [
-      ['GET', '/v1/incidents', { headers: auth('viewer') }],
-      ['GET', incident, { headers: auth('viewer') }],
-      ['POST', `${incident}/note`, json('responder', { by: 'R. Tanaka', note: 'checking' })],
-      ['POST', '/v1/results', json('ingest', { sampleId: 'LAB-9003', unit: 'PS9-P1', component: 'gearbox', sampledAt: NOW.toISOString(), readings: { Fe: 13 } })],
-      ['GET', `${component}/series`, { headers: auth('viewer') }],
-      ['POST', `${component}/samples/LAB-9002/verdict`, json('responder', { verdict: 'confirmed', by: 'R. Tanaka' })],
+    // Each request with the path of its route in the OpenAPI document, which must list the 503 and its Retry-After.
+    const routes: [string, string, RequestInit, string][] = [
+      ['GET', '/v1/incidents', { headers: auth('viewer') }, '/v1/incidents'],
+      ['GET', incident, { headers: auth('viewer') }, '/v1/incidents/{id}'],
+      ['POST', `${incident}/note`, json('responder', { by: 'R. Tanaka', note: 'checking' }), '/v1/incidents/{id}/note'],
+      ['POST', '/v1/results', json('ingest', { sampleId: 'LAB-9003', unit: 'PS9-P1', component: 'gearbox', sampledAt: NOW.toISOString(), readings: { Fe: 13 } }), '/v1/results'],
+      ['GET', `${component}/series`, { headers: auth('viewer') }, '/v1/units/{unit}/components/{component}/series'],
+      ['GET', `${component}/chart.svg?measurand=Fe`, { headers: auth('viewer') }, '/v1/units/{unit}/components/{component}/chart.svg'],
+      ['POST', `${component}/samples/LAB-9002/verdict`, json('responder', { verdict: 'confirmed', by: 'R. Tanaka' }), '/v1/units/{unit}/components/{component}/samples/{sampleId}/verdict'],
     ];
+    const paths = (openApiDocument() as { paths: Record<string, Record<string, { responses: Record<string, { headers?: Record<string, unknown> }> }>> }).paths;
+    for (const [method, , , template] of routes) expect(paths[template]?.[method.toLowerCase()]?.responses['503']?.headers?.['Retry-After'], `${method} ${template}`).toBeDefined();
     redis.pause();
     try {
       const answers = await Promise.all(
