@@ -21,7 +21,7 @@ export async function buildProgram(load: (entry: CommandEntry) => boolean = () =
   const program = new Command('wearshift')
     .description('Early warnings from used-oil analysis: wear-rate change detection beside classic limits, incidents and escalation.')
     .version(packageVersion(), '-V, --version', 'print the version of wearshift')
-    .addHelpText('after', `\nEnvironment: REDIS_URL, REDIS_CLUSTER_NODES (host:port,… of a Redis Cluster), WEARSHIFT_CONFIG, PORT, WEARSHIFT_TOKEN_INGEST, WEARSHIFT_TOKEN_RESPONDER, WEARSHIFT_TOKEN_VIEWER, WEARSHIFT_WORKER_ID (names a worker's MQTT sessions; default the host name).\n\n${EXIT_CODES}\n\n${ADVISORY_CAUTION}`)
+    .addHelpText('after', `\nEnvironment: REDIS_URL, REDIS_CLUSTER_NODES (host:port,… of a Redis Cluster), WEARSHIFT_CONFIG, PORT, WEARSHIFT_TOKEN_INGEST, WEARSHIFT_TOKEN_RESPONDER, WEARSHIFT_TOKEN_VIEWER, WEARSHIFT_WORKER_ID (names a worker's MQTT sessions; default the host name), LOG_LEVEL (default info).\n\n${EXIT_CODES}\n\n${ADVISORY_CAUTION}`)
     .showHelpAfterError()
     .exitOverride();
   const usage = new Map(COMMANDS.map((c) => [c.name, c.usage]));

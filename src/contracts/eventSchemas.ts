@@ -120,7 +120,7 @@ export const FloodSummaryCloudEventSchema = z
           )
           .min(1)
           .describe('Every message held back, most severe first, then in time order.'),
-        caution: z.string().describe('The tool advises; the lab, the equipment maker, local codes and licensed practice decide.'),
+        advisory: z.string().describe('The tool advises; the lab, the equipment maker, local codes and licensed practice decide.'),
       })
       .strict(),
   })

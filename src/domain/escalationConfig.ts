@@ -110,9 +110,13 @@ export const ChannelsSchema = z
             port: z.number().int().min(1).max(65535).default(587),
             secure: z.boolean().optional().describe('TLS from the start (port 465); absent: STARTTLS when the server offers it.'),
             user: z.string().optional(),
-            passwordEnv: envName.optional().describe('Environment variable holding the SMTP password.'),
+            passwordEnv: envName.optional().describe('Environment variable holding the SMTP password; needs user.'),
           })
-          .strict(),
+          .strict()
+          .refine((smtp) => smtp.passwordEnv === undefined || smtp.user !== undefined, {
+            message: 'passwordEnv needs user: SMTP authentication sends the password only with a user name',
+            path: ['user'],
+          }),
       })
       .strict()
       .optional(),
@@ -145,7 +149,10 @@ export const ChannelsSchema = z
               .refine((t) => (t.match(/\{[^}]*\}/g) ?? []).every((p) => ['{unit}', '{component}', '{group}'].includes(p)), {
                 message: 'topic placeholders are {unit}, {component} and {group}',
               }),
-            qos: z.union([z.literal(0), z.literal(1), z.literal(2)]).default(1),
+            qos: z
+              .union([z.literal(1), z.literal(2)], { error: 'qos is 1 (at least once) or 2 (exactly once); 0 is refused, as it may lose an alarm' })
+              .default(1)
+              .describe('1: at least once, receivers drop repeats by the CloudEvent id; 2: exactly once between wearshift and the broker. 0 is refused: it may lose a message.'),
             username: z.string().optional(),
             passwordEnv: envName.optional(),
           })

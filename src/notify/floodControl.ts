@@ -88,6 +88,7 @@ export function floodSummaryEvent(summary: FloodSummary, window: number) {
     time: summary.window.until,
     datacontenttype: 'application/json' as const,
     subject: summary.target,
-    data: { headline: summaryHeadline(summary), ...summary, held: summaryOrder(summary.held), caution: ADVISORY_CAUTION },
+    // `advisory`, as in every incident event: integrators pass it on with what the summary lists.
+    data: { headline: summaryHeadline(summary), ...summary, held: summaryOrder(summary.held), advisory: ADVISORY_CAUTION },
   };
 }

@@ -378,7 +378,7 @@ describe('real deliveries match the AsyncAPI document', () => {
     const event = floodSummaryEvent({ channel: 'webhook', target: 'plant-events', window: { from: new Date(window.startsAt).toISOString(), until: new Date(window.endsAt).toISOString() }, maxMessages: 10, held }, window.index);
     expectValid(summarySchema, JSON.parse(JSON.stringify(event)), 'the flood summary');
     expect(event.data.held.map((h) => h.severity)).toEqual(['alarm', 'caution']);
-    expect(event.data.caution).toBe(ADVISORY_CAUTION);
+    expect(event.data.advisory).toBe(ADVISORY_CAUTION);
     expect(ajv.compile(summarySchema)({ ...event, data: { ...event.data, held: [] } })).toBe(false);
     // Both channels list it beside the incident events.
     expect(Object.keys(asyncapi.channels.webhook.messages)).toEqual(['incidentEvent', 'floodSummary']);

@@ -10,6 +10,10 @@ import { signAckLink, ackLinkUrl } from '../../src/notify/ackLink.ts';
 import { renderIncidentEmail } from '../../src/channels/email/emailRender.ts';
 import { EmailDeliveryError, sendEmail } from '../../src/channels/email/emailSend.ts';
 import { incidentMessage } from '../unit/notify-fixtures.ts';
+import { notificationChannels } from '../../src/channels/openChannels.ts';
+import { ChannelsSchema } from '../../src/domain/escalationConfig.ts';
+import type { FloodSummary } from '../../src/notify/floodControl.ts';
+import { silentLogger } from '../../src/telemetry/logger.ts';
 
 const receivers: MailReceiver[] = [];
 afterEach(async () => {
@@ -106,6 +110,35 @@ describe('sending incident e-mail over SMTP', () => {
     expect(permanent.message).toContain('SMTP 550');
     expect(busy.received).toHaveLength(0);
     expect(refusing.received).toHaveLength(0);
+  });
+});
+
+describe('the alarm-flood summary by e-mail', () => {
+  it('carries a Message-ID of the sender’s domain that a resend keeps and another window does not share', async () => {
+    const smtp = await startSmtp();
+    const channels = notificationChannels(ChannelsSchema.parse({ email: { from: 'wearshift <alerts@plant.example>', smtp: { host: '127.0.0.1', port: smtp.port, secure: false } } }), {
+      logger: silentLogger(),
+      env: {},
+    });
+    const summary = (from: string, until: string): FloodSummary => ({
+      channel: 'email',
+      target: 'oncall@plant.example',
+      window: { from, until },
+      maxMessages: 10,
+      held: [{ incidentId: 'PS2-P3/gearbox@LAB-0042', unit: 'PS2-P3', component: 'gearbox', severity: 'alarm', type: 'opened', url: 'https://wearshift.plant.example/incidents/x', at: from }],
+    });
+    const first = summary('2026-03-01T08:00:00.000Z', '2026-03-01T08:10:00.000Z');
+    // A retry after a lost reply: the same summary again.
+    await channels.deliverSummary(first, 0, 1);
+    await channels.deliverSummary(first, 0, 2);
+    await channels.deliverSummary(summary('2026-03-01T08:10:00.000Z', '2026-03-01T08:20:00.000Z'), 1, 1);
+    await channels.close();
+    const ids = smtp.received.map((m) => m.parsed.messageId);
+    expect(ids).toHaveLength(3);
+    expect(ids[0]).toMatch(/^<[0-9a-f]{32}\.flood-summary@plant\.example>$/);
+    expect(ids[1]).toBe(ids[0]);
+    expect(ids[2]).not.toBe(ids[0]);
+    expect(smtp.received[0]!.parsed.headers.get('x-wearshift-type')).toBe('flood-summary');
   });
 });
 

@@ -261,7 +261,7 @@ function digest(text: string): string {
 }
 
 /** The domain of the sender's address; RFC 5322 wants a Message-ID the sender's domain vouches for. */
-function mailDomain(from: string): string {
+export function mailDomain(from: string): string {
   const m = /@([A-Za-z0-9](?:[A-Za-z0-9-]*[A-Za-z0-9])?(?:\.[A-Za-z0-9](?:[A-Za-z0-9-]*[A-Za-z0-9])?)*)>?\s*$/.exec(from.trim());
   return m?.[1]?.toLowerCase() ?? 'wearshift.invalid';
 }

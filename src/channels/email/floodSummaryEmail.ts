@@ -2,7 +2,8 @@
 import { ADVISORY_CAUTION } from '../../domain/caution.ts';
 import { escapeHtml, headerValue, oneLine } from '../../domain/safeText.ts';
 import { summaryHeadline, summaryOrder, type FloodSummary, type HeldMessage } from '../../notify/floodControl.ts';
-import type { RenderedEmail } from './emailRender.ts';
+import { createHash } from 'node:crypto';
+import { mailDomain, type RenderedEmail } from './emailRender.ts';
 
 /** The summary e-mail: one line per held incident, with its link. */
 export function renderFloodSummaryEmail(summary: FloodSummary, options: { from: string; to: string }): RenderedEmail {
@@ -28,7 +29,12 @@ export function renderFloodSummaryEmail(summary: FloodSummary, options: { from: 
     subject: headerValue(`[wearshift] ${headline}`, 180),
     text,
     html,
-    headers: { 'Auto-Submitted': 'auto-generated', 'X-Wearshift-Type': 'flood-summary' },
+    headers: {
+      // One summary per target and window: a resend (a retry after a lost reply) keeps its Message-ID.
+      'Message-ID': `<${createHash('sha256').update(`${summary.channel}\u0000${summary.target}\u0000${summary.window.from}`).digest('hex').slice(0, 32)}.flood-summary@${mailDomain(options.from)}>`,
+      'Auto-Submitted': 'auto-generated',
+      'X-Wearshift-Type': 'flood-summary',
+    },
     attachments: [],
   };
 }

@@ -33,7 +33,7 @@ export const mqttChannel: ChannelDefinition = {
         url: c.url,
         clientId: mqttClientId(name, env),
         topicTemplate: c.topic,
-        qos: c.qos === 0 ? 1 : c.qos,
+        qos: c.qos,
         ...(c.username !== undefined && { username: c.username }),
         ...(c.passwordEnv !== undefined && { password: secretFrom(c.passwordEnv, env, `channels.mqtt ${name}`) }),
         onError: (e) => logger.warn({ channel: `mqtt:${name}`, err: e.message }, 'MQTT connection error'),
