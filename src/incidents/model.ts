@@ -299,11 +299,14 @@ export function mergedTimeline(incident: Pick<Incident, 'timeline' | 'notificati
   return all.map((e, i) => ({ e, i, t: Date.parse(e.at) })).sort((a, b) => a.t - b.t || a.i - b.i).map((x) => x.e);
 }
 
-/** The state in the standards' words, for people. */
-export function describeState(incident: Pick<Incident, 'alarm' | 'acknowledged' | 'shelved' | 'closed'>): string {
+/**
+ * The state in the standards' words, for people. `time` writes the end of a shelving (default: the stored ISO 8601
+ * text); the command line passes the site zone's format, as for every time it shows.
+ */
+export function describeState(incident: Pick<Incident, 'alarm' | 'acknowledged' | 'shelved' | 'closed'>, time: (iso: string) => string = (iso) => iso): string {
   if (incident.closed !== null) return 'closed';
   const parts = [incident.alarm === 'active' ? 'active' : 'returned to normal', incident.acknowledged ? 'acknowledged' : 'unacknowledged'];
-  if (incident.shelved !== null) parts.push(`shelved until ${incident.shelved.until}`);
+  if (incident.shelved !== null) parts.push(`shelved until ${time(incident.shelved.until)}`);
   return parts.join(', ');
 }
 

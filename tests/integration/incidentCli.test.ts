@@ -9,6 +9,7 @@ import { ADVISORY_CAUTION } from '../../src/domain/caution.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import type { Severity } from '../../src/domain/finding.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
+import { formatTime } from '../../src/notify/format.ts';
 import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
@@ -122,8 +123,30 @@ describe('wearshift incidents', { timeout: 600_000 }, () => {
     const badState = await run('incidents', 'list', '--state', 'gone', '--config', configFile);
     expect(badState.err).toContain('--state: unknown state "gone"');
     const missingBy = await run('incidents', 'ack', 'GEN-1/engine@GEN-1-1', '--config', configFile);
-    expect(missingBy.code).not.toBe(0);
+    expect(missingBy.code).toBe(2);
     expect(missingBy.err).toContain("required option '--by <name>'");
+  });
+
+  it('writes the end of a shelving in the site zone with its offset, in shelve, list and show alike', async () => {
+    const berlin = join(dir, 'berlin.yaml');
+    writeFileSync(berlin, "redis:\n  prefix: '{cli}'\ndisplay:\n  timeZone: Europe/Berlin\n");
+    const id = 'GEN-1/engine@GEN-1-1';
+    const until = new Date(Math.ceil((Date.now() + 2 * 3_600_000) / 60_000) * 60_000).toISOString();
+    const local = formatTime(until, 'Europe/Berlin');
+    expect(local).toMatch(/T\d\d:\d\d\+0[12]:00$/);
+    const shelve = await run('incidents', 'shelve', id, '--until', until, '--reason', 'crane lift', '--by', 'R. Tanaka', '--config', berlin);
+    expect(shelve).toMatchObject({ code: 0, out: `${id}: active, unacknowledged, shelved until ${local}\n` });
+    const list = await run('incidents', 'list', '--config', berlin);
+    expect(list.out).toContain(`shelved until ${local}`);
+    expect(list.out).toContain('Times are ISO 8601 in the site zone Europe/Berlin');
+    const show = await run('incidents', 'show', id, '--config', berlin);
+    expect(show.out).toContain(`· active, unacknowledged, shelved until ${local}\n`);
+    expect(show.out).toContain(`shelved by R. Tanaka until ${local}: crane lift`);
+    for (const out of [shelve.out, list.out, show.out]) expect(out).not.toContain(until.slice(0, 16));
+    // JSON keeps the stored instant as it is.
+    const json = await run('incidents', 'show', id, '--json', '--config', berlin);
+    expect((JSON.parse(json.out) as { shelved: { until: string } }).shelved.until).toBe(until);
+    await run('incidents', 'unshelve', id, '--by', 'R. Tanaka', '--config', berlin);
   });
 
   it('says where it tried when Redis cannot be reached', async () => {

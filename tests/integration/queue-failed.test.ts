@@ -4,6 +4,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
+import { formatTime } from '../../src/notify/format.ts';
 import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
 import { startWorkers } from '../../src/queue/workers.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
@@ -20,7 +21,7 @@ beforeAll(async () => {
   server = await startRedisServer();
   dir = mkdtempSync(join(tmpdir(), 'wearshift-failed-'));
   configFile = join(dir, 'config.yaml');
-  writeFileSync(configFile, `redis: { prefix: "${prefix}" }\n`);
+  writeFileSync(configFile, `redis: { prefix: "${prefix}" }\ndisplay: { timeZone: Europe/Berlin }\n`);
 });
 afterAll(async () => {
   await server?.dispose();
@@ -43,13 +44,29 @@ describe('wearshift failed', () => {
     const env = { REDIS_URL: server.url };
     const listed = await runCli(['failed', 'list', '--config', configFile, '--json'], env);
     expect(listed.code).toBe(0);
-    const jobs = listed.stdout.trim().split('\n').map((l) => JSON.parse(l) as { ref: string; subject: string; reason: string; attempts: number });
+    const jobs = listed.stdout.trim().split('\n').map((l) => JSON.parse(l) as { ref: string; subject: string; reason: string; attempts: number; failedAt: string });
     expect(jobs).toHaveLength(1);
     expect(jobs[0]).toMatchObject({ subject: 'DP-2', attempts: 1 });
     expect(jobs[0]!.reason).toBe('invalid result (sampleId DP-2): readings.Qq: unknown measurand (see the measurand catalogue in the README)');
 
     const table = await runCli(['failed', 'list', '--config', configFile], env);
     expect(table.stdout).toMatch(new RegExp(`${jobs[0]!.ref.replace(/[{}]/g, '\\$&')}\\s+DP-2 .*readings\\.Qq: unknown measurand`));
+    // When it failed, in the configured site zone with its offset, and the zone said once.
+    const failedAt = formatTime(jobs[0]!.failedAt, 'Europe/Berlin');
+    expect(failedAt).toMatch(/T\d\d:\d\d\+0[12]:00$/);
+    expect(table.stdout).toContain(`DP-2  ${failedAt}`);
+    expect(table.stdout).toContain('Times are ISO 8601 in the site zone Europe/Berlin, offset written with each time.');
+
+    // Contradictions are refused (exit 2) and retry nothing: a named job with --all, --queue without --all.
+    const both = await runCli(['failed', 'retry', jobs[0]!.ref, '--all', '--config', configFile], env);
+    expect(both.code).toBe(2);
+    expect(both.stderr).toContain(`wearshift: name a job or give --all, not both: --all retries every failed job, not only ${jobs[0]!.ref}`);
+    for (const args of [[jobs[0]!.ref, '--queue', 'results'], ['--queue', 'results']]) {
+      const queueAlone = await runCli(['failed', 'retry', ...args, '--config', configFile], env);
+      expect(queueAlone.code).toBe(2);
+      expect(queueAlone.stderr).toMatch(/wearshift: --queue goes with --all/);
+    }
+    expect(await (await results.getJob(jobs[0]!.ref.split('/')[1]!))!.getState()).toBe('failed');
 
     const retried = await runCli(['failed', 'retry', jobs[0]!.ref, '--config', configFile], env);
     expect(retried.code).toBe(0);

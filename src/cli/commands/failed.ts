@@ -12,6 +12,7 @@ import { closeQuietly, connectForCommand, redisTarget, type RedisConnection as R
 import { enableEndpoint, listDisabledEndpoints, type DisabledEndpoint } from '../../redis/disabledEndpoints.ts';
 import { formatTable, writeJsonLine, redisChoice } from '../output.ts';
 import { terminalText } from '../terminalText.ts';
+import { formatTime, timeZoneNote } from '../../notify/format.ts';
 
 interface FailedOptions {
   config?: string;
@@ -58,9 +59,12 @@ export function registerFailed(program: Command): void {
         if (opts.json) return jobs.forEach((j) => writeJsonLine(j));
         if (jobs.length === 0) process.stdout.write('no failed jobs\n');
         else {
-          const rows = jobs.map((j) => [j.ref, j.subject ?? '', j.failedAt?.slice(0, 19).replace('T', ' ') ?? '', j.attempts, j.reason]);
+          const zone = config.display.timeZone;
+          // When it failed in the site zone with its offset, as every time the command line shows.
+          const rows = jobs.map((j) => [j.ref, j.subject ?? '', j.failedAt === undefined ? '' : formatTime(j.failedAt, zone), j.attempts, j.reason]);
           // What a job is about and why it failed can quote what a producer sent: shown escaped, never acting on the terminal.
           process.stdout.write(terminalText(formatTable(['job', 'about', 'failed at', 'attempts', 'reason'], rows)));
+          process.stdout.write(`${timeZoneNote(zone)}\n`);
         }
         const disabled = (await listDisabledEndpoints(redis, config.redis.prefix)).filter((e) => standing(e, config) === 'disabled');
         if (disabled.length > 0) {
@@ -73,28 +77,34 @@ export function registerFailed(program: Command): void {
     .command('retry')
     .description('retry one failed job (QUEUE/ID as listed, or ID of the results queue) or all of them')
     .argument('[job]', 'QUEUE/ID as `failed list` shows it')
-    .option('--all', 'retry every failed job (of --queue, or of every queue)')
-    .option('--queue <name>', `with --all: only this queue: ${ALL_QUEUES.join(', ')}`)
+    .option('--all', 'retry every failed job (of --queue, or of every queue); not with a named job')
+    .option('--queue <name>', `with --all only: only this queue: ${ALL_QUEUES.join(', ')}`)
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--json', 'a JSON summary')
-    .action((job: string | undefined, opts: FailedOptions) =>
-      withRedis(opts, async (redis, config) => {
-        if (opts.all) {
-          const n = await retryAllFailedJobs(redis, config.redis.prefix, queuesOf(opts), config.redis.partitions);
+    .action((job: string | undefined, opts: FailedOptions) => {
+      // Contradictions are refused before Redis is asked: a named job and --all together would retry every failed job,
+      // not the one named, and --queue alone would be ignored.
+      if (opts.all && job !== undefined) throw new InputError(`name a job or give --all, not both: --all retries every failed job${opts.queue === undefined ? '' : ` of ${opts.queue}`}, not only ${job}`);
+      if (opts.all) {
+        const queues = queuesOf(opts);
+        return withRedis(opts, async (redis, config) => {
+          const n = await retryAllFailedJobs(redis, config.redis.prefix, queues, config.redis.partitions);
           if (opts.json) writeJsonLine({ retried: n });
           else process.stdout.write(`${n} failed job${n === 1 ? '' : 's'} back on the queue\n`);
-          return;
-        }
-        if (job === undefined) throw new InputError('name a job (QUEUE/ID as `failed list` shows it) or give --all');
-        const [label, id] = job.includes('/') ? [job.slice(0, job.indexOf('/')), job.slice(job.indexOf('/') + 1)] : ['results', job];
-        const [queue, part] = label.split('.');
-        if (queue === undefined || !isQueueName(queue)) throw new InputError(`${job}: unknown queue "${label}"; expected one of ${ALL_QUEUES.join(', ')}`);
-        const partition = part === undefined ? undefined : Number(part);
+        });
+      }
+      if (opts.queue !== undefined) throw new InputError(`--queue goes with --all; a named job carries its queue in its name (QUEUE/ID, e.g. ${opts.queue}/ID)`);
+      if (job === undefined) throw new InputError('name a job (QUEUE/ID as `failed list` shows it) or give --all');
+      const [label, id] = job.includes('/') ? [job.slice(0, job.indexOf('/')), job.slice(job.indexOf('/') + 1)] : ['results', job];
+      const [queue, part] = label.split('.');
+      if (queue === undefined || !isQueueName(queue)) throw new InputError(`${job}: unknown queue "${label}"; expected one of ${ALL_QUEUES.join(', ')}`);
+      const partition = part === undefined ? undefined : Number(part);
+      return withRedis(opts, async (redis, config) => {
         if (!(await retryFailedJob(redis, config.redis.prefix, queue, id, config.redis.partitions, partition))) throw new InputError(`${job}: no such failed job`);
         if (opts.json) writeJsonLine({ retried: 1, job });
         else process.stdout.write(`${job} back on the queue\n`);
-      }),
-    );
+      });
+    });
   failed
     .command('webhooks')
     .description('list the webhook endpoints a 410 Gone disabled: every message to one fails until it is enabled again or its URL changes')

@@ -50,7 +50,7 @@ function measurands(i: IncidentSummary): string {
 function printList(list: IncidentSummary[], json: boolean, zone: string): void {
   if (json) return list.forEach((i) => writeJsonLine({ ...i, advisory: ADVISORY_CAUTION }));
   if (list.length === 0) return void process.stdout.write('no incidents match\n');
-  const rows = list.map((i) => [i.id, severityWords(i.severity, i.peakSeverity), describeState(i), measurands(i), formatTime(i.openedAt, zone), i.lastSampleId]);
+  const rows = list.map((i) => [i.id, severityWords(i.severity, i.peakSeverity), describeState(i, (t) => formatTime(t, zone)), measurands(i), formatTime(i.openedAt, zone), i.lastSampleId]);
   process.stdout.write(terminalText(formatTable(['incident', 'severity', 'state', 'measurands', 'opened (sample)', 'last sample'], rows)));
   process.stdout.write(`\n${timeZoneNote(zone)}\n${ADVISORY_CAUTION}\n`);
 }
@@ -87,7 +87,7 @@ function printIncident(i: Incident, json: boolean, zone: string): void {
   const lines = [
     `${i.id}`,
     `  ${i.unit} / ${i.component}${i.measurand ? ` / ${i.measurand}` : ''} · group ${i.group}`,
-    `  ${severityWords(i.severity, i.peakSeverity)} · ${describeState(i)}`,
+    `  ${severityWords(i.severity, i.peakSeverity)} · ${describeState(i, (t) => formatTime(t, zone))}`,
     `  opened ${formatTime(i.openedAt, zone)} at sample ${i.openedBySampleId}; last sample ${i.lastSampleId} (${formatTime(i.lastSampledAt, zone)})`,
     ...(i.escalation.policy
       ? [`  escalation: policy ${i.escalation.policy}, tier ${Math.max(0, i.escalation.reachedTier)}${i.escalation.dueAt ? `, next check ${formatTime(i.escalation.dueAt, zone)}` : ''}`]
@@ -114,9 +114,9 @@ function actionCommand(parent: Command, name: string, description: string, confi
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--json', 'print the incident as one JSON line')
     .action(async (id: string, opts: CommonOptions & Record<string, unknown>) => {
-      const { incident } = await withStore(opts, (store) => store.applyAction(build(id, opts, new Date())));
+      const { incident, zone } = await withStore(opts, async (store, config) => ({ ...(await store.applyAction(build(id, opts, new Date()))), zone: config.display.timeZone }));
       if (opts.json) writeJsonLine(incident);
-      else process.stdout.write(`${terminalText(incident.id)}: ${describeState(incident)}\n`);
+      else process.stdout.write(`${terminalText(incident.id)}: ${describeState(incident, (t) => formatTime(t, zone))}\n`);
     });
 }
 
