@@ -131,7 +131,8 @@ export function openApiDocument(): Json {
           summary: 'Incidents: open ones most severe first, then the most recently opened; closed ones the most recently closed first.',
           tags: ['incidents'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
-          parameters: queryParameters(IncidentFilterSchema),
+          // A repeated severity means the list (the routes join it); any other parameter takes one value.
+          parameters: queryParameters(IncidentFilterSchema).map((p) => (p.name === 'severity' ? { ...p, description: `${String(p.description ?? '')} The parameter may also be repeated (severity=alarm&severity=watch).`.trim() } : p)),
           responses: { '200': { description: 'The incidents that match.', content: json('IncidentList') }, '400': error('A query parameter is invalid.'), ...AUTH_ERRORS, ...STORE_UNAVAILABLE },
         },
       },

@@ -85,9 +85,27 @@ function toAction(verb: Verb, incidentId: string, body: unknown, now: Date): Inc
   }
 }
 
-function invalid(reply: FastifyReply, where: 'body' | 'query', error: z.ZodError) {
-  const issues = error.issues.map((i) => ({ field: [where, ...i.path].join('.'), message: i.message }));
+function invalid(reply: FastifyReply, where: 'body' | 'query', error: z.ZodError | { issues: readonly { path: readonly PropertyKey[]; message: string }[] }) {
+  const issues = error.issues.map((i) => ({ field: [where, ...i.path.map(String)].join('.'), message: i.message }));
   return reply.code(400).send({ error: 'invalid-request', message: issues.map((i) => `${i.field}: ${i.message}`).join('; '), issues });
+}
+
+/** Query parameters that take a list: repeated (severity=alarm&severity=watch), they mean the comma-separated list. */
+const LIST_PARAMETERS = new Set(['severity']);
+
+/**
+ * The query as the filter reads it: a repeated list parameter joined, any other parameter given more than once
+ * refused naming it (which of its values was meant cannot be told).
+ */
+function singleValues(query: Record<string, unknown>): { ok: true; query: Record<string, unknown> } | { ok: false; issues: { path: string[]; message: string }[] } {
+  const issues: { path: string[]; message: string }[] = [];
+  const out: Record<string, unknown> = {};
+  for (const [name, value] of Object.entries(query)) {
+    if (!Array.isArray(value)) out[name] = value;
+    else if (LIST_PARAMETERS.has(name)) out[name] = value.join(',');
+    else issues.push({ path: [name], message: `given ${value.length} times; it takes one value` });
+  }
+  return issues.length > 0 ? { ok: false, issues } : { ok: true, query: out };
 }
 
 function failed(reply: FastifyReply, e: unknown) {
@@ -104,7 +122,9 @@ export const incidentRoutes: FastifyPluginAsync<IncidentRoutesOptions> = async (
   const act = { onRequest: requireRole(options.tokens, 'responder') };
 
   app.get('/v1/incidents', read, async (request, reply) => {
-    const query = IncidentFilterSchema.safeParse(request.query ?? {});
+    const given = singleValues((request.query ?? {}) as Record<string, unknown>);
+    if (!given.ok) return invalid(reply, 'query', given);
+    const query = IncidentFilterSchema.safeParse(given.query);
     if (!query.success) return invalid(reply, 'query', query.error);
     return { incidents: await options.store.list(query.data), advisory: ADVISORY_CAUTION };
   });

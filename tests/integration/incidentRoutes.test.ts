@@ -101,6 +101,23 @@ describe('incident routes', () => {
     expect((await app.inject({ method: 'POST', url: `/v1/incidents/${unknown}/ack`, headers: auth('resp-1'), payload: { by: 'x' } })).statusCode).toBe(404);
   });
 
+  it('takes a repeated severity as the list; refuses any other parameter given twice, naming it', async () => {
+    const ids = async (query: string) => {
+      const res = await app.inject({ method: 'GET', url: `/v1/incidents?${query}`, headers: auth('view-1') });
+      expect(res.statusCode, query).toBe(200);
+      return res.json().incidents.map((i: { id: string }) => i.id);
+    };
+    expect(await ids('severity=alarm&severity=watch')).toEqual([ID]);
+    expect(await ids('severity=watch&severity=caution')).toEqual([]);
+    expect(await ids('severity=watch,alarm')).toEqual([ID]);
+    const twice = await app.inject({ method: 'GET', url: '/v1/incidents?state=open&state=closed&limit=5', headers: auth('view-1') });
+    expect(twice.statusCode).toBe(400);
+    expect(twice.json()).toEqual({ error: 'invalid-request', message: 'query.state: given 2 times; it takes one value', issues: [{ field: 'query.state', message: 'given 2 times; it takes one value' }] });
+    const unknown = await app.inject({ method: 'GET', url: '/v1/incidents?severity=alarm&severity=high', headers: auth('view-1') });
+    expect(unknown.statusCode).toBe(400);
+    expect(unknown.json().message).toMatch(/^query\.severity\.1: unknown severity "high"/);
+  });
+
   it('acknowledges, shelves, resolves; acting on a closed incident is a 409', async () => {
     const ack = await app.inject({ method: 'POST', url: `${PATH}/ack`, headers: auth('resp-1'), payload: { by: 'R. Tanaka', note: 'on my way' } });
     expect(ack.statusCode).toBe(200);
