@@ -11,6 +11,9 @@ const severityList = z
   .transform((s) => s.split(',').map((p) => p.trim()))
   .pipe(z.array(z.enum(SEVERITIES, { error: (i) => `unknown severity "${String(i.input)}" (watch, caution, alarm)` })));
 
+/** The most incidents one list gives. */
+export const MAX_LIST_LIMIT = 1000;
+
 /** Query-string shape: every value arrives as a string. */
 export const IncidentFilterSchema = z
   .object({
@@ -21,7 +24,7 @@ export const IncidentFilterSchema = z
     severity: severityList.optional().describe('One severity or a comma-separated list.'),
     unit: z.string().min(1).optional(),
     group: z.string().min(1).optional(),
-    limit: z.coerce.number().int().min(1).max(1000).default(100),
+    limit: z.coerce.number().int().min(1).max(MAX_LIST_LIMIT).default(100),
   })
   .strict();
 export type IncidentFilter = z.infer<typeof IncidentFilterSchema>;

@@ -133,6 +133,37 @@ export class RedisIncidents {
   }
 
   /**
+   * How many incidents `filter` matches in all, whatever its limit, so that a list cut at the limit can say so. A filter
+   * by open or closed alone is answered by the sizes of the indexes (ZCARD); a narrower one (a state within the open
+   * ones, severity, unit, group) reads the records of the indexes it needs, a page at a time.
+   */
+  async count(filter: IncidentFilter): Promise<number> {
+    const wantOpen = filter.state !== 'closed';
+    const wantClosed = filter.state === 'closed' || filter.state === 'all';
+    const byIndexAlone = filter.severity === undefined && filter.unit === undefined && filter.group === undefined && ['open', 'closed', 'all'].includes(filter.state);
+    const counts = await Promise.all(
+      this.partitions.all().flatMap((n) => {
+        const p = partitionKeys(this.partitions.tag(n));
+        const zsets = [...(wantOpen ? [p.open] : []), ...(wantClosed ? [p.closed] : [])];
+        return zsets.map((zset) => (byIndexAlone ? this.redis.zcard(zset) : this.countMatching(p.records, zset, filter)));
+      }),
+    );
+    return counts.reduce((a, b) => a + b, 0);
+  }
+
+  private async countMatching(records: string, zset: string, filter: IncidentFilter): Promise<number> {
+    const page = 500;
+    let matching = 0;
+    for (let start = 0; ; start += page) {
+      const ids = await this.redis.zrange(zset, start, start + page - 1);
+      if (ids.length === 0) break;
+      for (const raw of await this.redis.hmget(records, ...ids)) if (raw !== null && matchesFilter(summarize(JSON.parse(raw) as Incident), filter)) matching += 1;
+      if (ids.length < page) break;
+    }
+    return matching;
+  }
+
+  /**
    * Hands the outbox of every partition to `handler` in batches until it is empty; returns how many effects were
    * handed over. An effect leaves the outbox only after its handler resolved; a failed or interrupted batch is handed
    * out again (after the claim timeout), so the handler must be idempotent — effect keys make that easy.

@@ -149,6 +149,29 @@ describe('wearshift incidents', { timeout: 600_000 }, () => {
     await run('incidents', 'unshelve', id, '--by', 'R. Tanaka', '--config', berlin);
   });
 
+  it('says when a list is cut at --limit, with how many match in all (on stderr with --json)', async () => {
+    const store = new RedisIncidentStore(server.client(), { rules: incidentRules(ConfigSchema.parse({})), prefix: '{cli}' });
+    for (const [n, severity] of (['alarm', 'alarm', 'caution', 'watch'] as const).entries()) {
+      const unit = `LIM-${n + 1}`;
+      await store.applySteps({ unit, component: 'engine' }, [step(unit, 1, severity)], { group: 'engines', now: new Date('2026-02-03T00:00:00Z'), quietBefore: new Date(0) });
+    }
+    const all = async (...filter: string[]) => (await run('incidents', 'list', ...filter, '--limit', '1000', '--json', '--config', configFile)).out.trim().split('\n').length;
+    const open = await all();
+    expect(open).toBeGreaterThanOrEqual(5);
+    const cut = await run('incidents', 'list', '--limit', '2', '--config', configFile);
+    expect(cut.code).toBe(0);
+    expect(cut.out.split('\n').filter((l) => /^(LIM|GEN)-\d\/engine@/.test(l))).toHaveLength(2);
+    expect(cut.out).toContain(`showing 2 of ${open} incidents; use --limit (at most 1000) for more, or narrow the list with --state, --severity, --unit or --group\n`);
+    // Narrowed by severity: the total is of the matching ones, not of the index.
+    const alarms = await all('--severity', 'alarm');
+    const cutAlarms = await run('incidents', 'list', '--severity', 'alarm', '--limit', '1', '--json', '--config', configFile);
+    expect(cutAlarms.out.trim().split('\n')).toHaveLength(1);
+    expect(cutAlarms.err).toContain(`wearshift: showing 1 of ${alarms} incidents;`);
+    // Whole lists say nothing of the kind.
+    const whole = await run('incidents', 'list', '--limit', String(open), '--config', configFile);
+    expect(whole.out).not.toContain('showing');
+  });
+
   it('says where it tried when Redis cannot be reached', async () => {
     const saved = process.env.REDIS_URL;
     process.env.REDIS_URL = 'redis://127.0.0.1:1';

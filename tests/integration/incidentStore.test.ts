@@ -153,6 +153,28 @@ describe('RedisIncidentStore', () => {
     expect(listed[0]).not.toHaveProperty('timeline');
   });
 
+  it('counts what a filter matches in all, whatever the limit, across partitions: by the indexes alone or by the records', async () => {
+    const store = new RedisIncidentStore(a, { rules: RULES, prefix: '{t4count}', partitions: 3 });
+    const severities: Severity[] = ['alarm', 'caution', 'watch', 'alarm', 'caution', 'alarm', 'watch'];
+    for (const [i, severity] of severities.entries()) {
+      const unit = `C${i + 1}`;
+      const s = step(unit, 'engine', i + 1, ['Fe', severity]);
+      await store.applySteps({ unit, component: 'engine' }, [s], live(s));
+    }
+    const now = new Date(T0 + 10 * DAY);
+    await store.applyAction({ kind: 'resolve', incidentId: 'C3/engine@C3-S3', by: 'R. Tanaka', note: 'bottle mislabelled', now });
+    await store.applyAction({ kind: 'acknowledge', incidentId: 'C1/engine@C1-S1', by: 'R. Tanaka', now });
+    // Every count equals the length of the whole list, and does not depend on the limit asked for.
+    const queries: Record<string, string>[] = [{}, { state: 'closed' }, { state: 'all' }, { severity: 'alarm' }, { state: 'acknowledged' }, { state: 'all', severity: 'watch' }, { unit: 'C2' }, { group: 'none' }];
+    for (const q of queries) {
+      const whole = await store.list(filter({ ...q, limit: '1000' }));
+      expect(await store.count(filter({ ...q, limit: '1' })), JSON.stringify(q)).toBe(whole.length);
+    }
+    expect(await store.count(filter({}))).toBe(6);
+    expect(await store.count(filter({ severity: 'alarm' }))).toBe(3);
+    expect(await store.count(filter({ state: 'all' }))).toBe(7);
+  });
+
   it('refuses unknown and archived incidents clearly', async () => {
     const store = new RedisIncidentStore(a, { rules: incidentRules(ConfigSchema.parse({ incidents: { reopenWithinSamples: 0, returnAfterSamples: 1 } })), prefix: '{t5}' });
     const ref = { unit: 'U5', component: 'engine' };

@@ -8,7 +8,7 @@ import type { Config } from '../../domain/config.ts';
 import { loadConfig } from '../../runtime/loadConfig.ts';
 import { InputError } from '../../domain/errors.ts';
 import type { IncidentAction } from '../../incidents/applyAction.ts';
-import { IncidentFilterSchema } from '../../incidents/listFilter.ts';
+import { IncidentFilterSchema, MAX_LIST_LIMIT } from '../../incidents/listFilter.ts';
 import { describeState, mergedTimeline, type Incident, type IncidentSummary, type NotifiedEntry, type TimelineEntry } from '../../incidents/model.ts';
 import { incidentRules } from '../../incidents/policy.ts';
 import { closeQuietly, connectForCommand, redisTarget } from '../../redis/connection.ts';
@@ -47,11 +47,21 @@ function measurands(i: IncidentSummary): string {
   return [...new Set(i.evidence.map((f) => f.measurand))].join(',');
 }
 
-function printList(list: IncidentSummary[], json: boolean, zone: string): void {
-  if (json) return list.forEach((i) => writeJsonLine({ ...i, advisory: ADVISORY_CAUTION }));
+/**
+ * The list, and when it was cut at --limit, how many it shows of how many: after the table, or on stderr with --json
+ * (stdout stays one incident per line).
+ */
+function printList(list: IncidentSummary[], json: boolean, zone: string, total: number): void {
+  const cut = total > list.length ? `showing ${list.length} of ${total} incidents; use --limit (at most ${MAX_LIST_LIMIT}) for more, or narrow the list with --state, --severity, --unit or --group` : undefined;
+  if (json) {
+    list.forEach((i) => writeJsonLine({ ...i, advisory: ADVISORY_CAUTION }));
+    if (cut !== undefined) process.stderr.write(`wearshift: ${cut}\n`);
+    return;
+  }
   if (list.length === 0) return void process.stdout.write('no incidents match\n');
   const rows = list.map((i) => [i.id, severityWords(i.severity, i.peakSeverity), describeState(i, (t) => formatTime(t, zone)), measurands(i), formatTime(i.openedAt, zone), i.lastSampleId]);
   process.stdout.write(terminalText(formatTable(['incident', 'severity', 'state', 'measurands', 'opened (sample)', 'last sample'], rows)));
+  if (cut !== undefined) process.stdout.write(`${cut}\n`);
   process.stdout.write(`\n${timeZoneNote(zone)}\n${ADVISORY_CAUTION}\n`);
 }
 
@@ -130,9 +140,9 @@ export function registerIncidents(program: Command): void {
     .option('--severity <list>', 'watch, caution, alarm (comma-separated)')
     .option('--unit <unit>', 'one unit only')
     .option('--group <group>', 'one group only')
-    .option('--limit <n>', 'at most this many', '100')
+    .option('--limit <n>', `at most this many (up to ${MAX_LIST_LIMIT}); a list cut here says "showing N of M"`, '100')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
-    .option('--json', 'one JSON line per incident')
+    .option('--json', 'one JSON line per incident; "showing N of M" of a cut list goes to stderr')
     .action(async (opts: CommonOptions & { state: string; severity?: string; unit?: string; group?: string; limit: string }) => {
       const parsed = IncidentFilterSchema.safeParse({
         state: opts.state,
@@ -142,8 +152,12 @@ export function registerIncidents(program: Command): void {
         ...(opts.group !== undefined && { group: opts.group }),
       });
       if (!parsed.success) throw new InputError(parsed.error.issues.map((i) => `--${String(i.path[0])}: ${i.message}`).join('; '));
-      const { list, zone } = await withStore(opts, async (store, config) => ({ list: await store.list(parsed.data), zone: config.display.timeZone }));
-      printList(list, opts.json === true, zone);
+      const { list, total, zone } = await withStore(opts, async (store, config) => {
+        const list = await store.list(parsed.data);
+        // Counted only when the list is full: then there may be more than it shows.
+        return { list, total: list.length < parsed.data.limit ? list.length : await store.count(parsed.data), zone: config.display.timeZone };
+      });
+      printList(list, opts.json === true, zone, total);
     });
 
   incidents
