@@ -114,7 +114,30 @@ export async function connectForCommand(target: string | RedisTarget): Promise<R
     redis.disconnect();
     throw new InputError(`cannot reach Redis at ${maskUrl(t.url)} (REDIS_URL or redis.url): ${(e as Error).message}`);
   }
+  const refused = await databaseRefused(redis);
+  if (refused !== undefined) {
+    redis.disconnect();
+    throw new InputError(`Redis at ${maskUrl(t.url)} (REDIS_URL or redis.url) has no database ${redis.options.db}: ${refused}`);
+  }
   return redis;
+}
+
+/**
+ * Why the database the URL names (`redis://host:port/N`) cannot be used, or undefined when it can. ioredis selects it
+ * when it connects, but a refused SELECT (`DB index is out of range`) only raises an error event and leaves the
+ * connection on database 0, where every later command would then go: so it is selected again here and the answer
+ * read.
+ */
+export async function databaseRefused(redis: RedisConnection): Promise<string | undefined> {
+  if (redis instanceof Cluster) return undefined;
+  const db = redis.options.db ?? 0;
+  if (db === 0) return undefined;
+  try {
+    await redis.select(db);
+    return undefined;
+  } catch (e) {
+    return (e as Error).message;
+  }
 }
 
 export async function closeQuietly(redis: RedisConnection): Promise<void> {

@@ -27,7 +27,7 @@ import { createMetrics } from '../telemetry/metrics.ts';
 import { tierZeroResponders } from '../incidents/responders.ts';
 import { readRecentIncidents } from '../redis/recentIncidents.ts';
 import { registerAlarmGauges } from './alarmGauges.ts';
-import { checkEvictionPolicy, connectRedis, describeTarget, redisTarget, type RedisConnection } from '../redis/connection.ts';
+import { checkEvictionPolicy, connectRedis, databaseRefused, describeTarget, redisTarget, type RedisConnection } from '../redis/connection.ts';
 import { closeAll, DEFAULT_SHUTDOWN_TIMEOUT_MS, type Closer } from './shutdown.ts';
 
 export interface ServiceOptions {
@@ -97,7 +97,12 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
   // Requests fail fast while Redis is away; workers wait for it.
   const request = connectRedis(target, 'request', logger);
   connections.push(request);
-  request.once('ready', () => void checkEvictionPolicy(request, logger));
+  request.once('ready', () => {
+    void checkEvictionPolicy(request, logger);
+    void databaseRefused(request).then((refused) => {
+      if (refused !== undefined) logger.error({ redis: describeTarget(target), err: refused }, 'the Redis database the URL names cannot be selected: fix REDIS_URL (commands would go to database 0)');
+    });
+  });
   const metrics = createMetrics();
   const queueSettings = resolveQueueSettings({ ...options.workerSettings, prefix });
   const partitions = new Partitions(prefix, partitionCount);
