@@ -10,7 +10,7 @@ export const EXIT_USAGE = 2;
 
 const EXIT_CODES = `Exit codes: 0 done; 1 some records were rejected (import, replay, backtest: the others were taken), the demo's
 own checks failed, or an unexpected failure (printed with its stack trace); 2 a usage or input error (unknown option,
-missing argument, bad value, unreadable file, bad configuration), printed without a stack trace.`;
+missing argument, bad value, unreadable file, bad configuration, a port in use), printed without a stack trace.`;
 
 /**
  * The program with every command listed and `load` (or, by default, none) loaded in full. A command not loaded is

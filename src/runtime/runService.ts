@@ -8,6 +8,7 @@ import { createLogger, type Logger } from '../telemetry/logger.ts';
 import { secretsFromEnv, secretsOfConfig } from '../telemetry/redactText.ts';
 import { DEFAULT_PORT, startServices } from './services.ts';
 import { DEFAULT_SHUTDOWN_TIMEOUT_MS, onShutdownSignals } from './shutdown.ts';
+import { listenRefusal, sharedPort, type Listener } from './listenRefusal.ts';
 
 export interface ServiceCommandOptions {
   config?: string;
@@ -52,17 +53,34 @@ export async function runService(kind: ServiceKind, opts: ServiceCommandOptions,
   if (historyThreads !== undefined && !(Number.isInteger(historyThreads) && historyThreads >= 0 && historyThreads <= MAX_HISTORY_THREADS)) {
     throw new InputError(`--history-threads: expected a whole number from 0 to ${MAX_HISTORY_THREADS}, got "${opts.historyThreads}"`);
   }
-  const running = await startServices({
-    workers: kind !== 'api',
-    http: kind !== 'worker',
-    config,
-    logger,
-    port,
-    env,
-    ...(opts.metricsPort !== undefined && { metricsPort: portNumber(opts.metricsPort, '--metrics-port') }),
-    ...(opts.opcuaPort !== undefined && { opcuaPort: portNumber(opts.opcuaPort, '--opcua-port') }),
-    ...(historyThreads !== undefined && { workerSettings: { historyThreads } }),
-  });
+  const metricsPort = opts.metricsPort === undefined ? undefined : portNumber(opts.metricsPort, '--metrics-port');
+  const opcuaPort = opts.opcuaPort === undefined ? undefined : portNumber(opts.opcuaPort, '--opcua-port');
+  // Each port with how it was chosen, for a message that names it if the port is refused.
+  const listeners: Listener[] = [];
+  if (kind !== 'worker') {
+    listeners.push({ what: opts.port !== undefined ? `--port ${port}` : env.PORT !== undefined && env.PORT !== '' ? `PORT ${port}` : `port ${port} (the default; choose another with --port or PORT)`, port });
+    if (opcuaPort !== undefined) listeners.push({ what: `--opcua-port ${opcuaPort}`, port: opcuaPort });
+    else if (config.opcua?.port !== undefined) listeners.push({ what: `opcua.port ${config.opcua.port} in the configuration`, port: config.opcua.port });
+  } else if (metricsPort !== undefined) listeners.push({ what: `--metrics-port ${metricsPort}`, port: metricsPort });
+  const shared = sharedPort(listeners);
+  if (shared !== undefined) throw shared;
+  let running;
+  try {
+    running = await startServices({
+      workers: kind !== 'api',
+      http: kind !== 'worker',
+      config,
+      logger,
+      port,
+      env,
+      ...(metricsPort !== undefined && { metricsPort }),
+      ...(opcuaPort !== undefined && { opcuaPort }),
+      ...(historyThreads !== undefined && { workerSettings: { historyThreads } }),
+    });
+  } catch (e) {
+    // What did start is closed by then; a port in use is the user's to fix, not a stack trace.
+    throw listenRefusal(e, listeners);
+  }
   if (running.url !== undefined) logger.info({ url: running.url }, 'listening');
   onShutdownSignals(running.closers, { logger, timeoutMs });
 }
