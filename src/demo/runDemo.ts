@@ -8,6 +8,7 @@
 import { randomBytes } from 'node:crypto';
 import { mkdirSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
 import type { Queue } from 'bullmq';
 import type { Config } from '../domain/config.ts';
 import { loadConfig } from '../runtime/loadConfig.ts';
@@ -32,7 +33,7 @@ import { startWebhookReceiver } from './webhookReceiver.ts';
 export interface DemoOptions {
   /** Where the received e-mails (.eml) and webhook deliveries (.json) are written. */
   readonly outDir: string;
-  /** The demo configuration. Default `demo/config.yaml`. */
+  /** The demo configuration. Default `demo/config.yaml` of the package (DEMO_CONFIG_FILE), wherever the command runs. */
   readonly configFile?: string;
   /** How long the playback of the 18 months of lab reports takes. Default 30 s. */
   readonly feedSeconds?: number;
@@ -55,7 +56,13 @@ export class DemoInterrupted extends Error {
   }
 }
 
-export const DEMO_DEFAULTS = { configFile: 'demo/config.yaml', feedSeconds: 30, settleSeconds: 60 } as const;
+/**
+ * The demo configuration comes with the package: found next to the sources (src/ or the build in dist/), so that
+ * `wearshift demo` runs from any directory.
+ */
+export const DEMO_CONFIG_FILE = fileURLToPath(new URL('../../demo/config.yaml', import.meta.url));
+
+export const DEMO_DEFAULTS = { configFile: DEMO_CONFIG_FILE, feedSeconds: 30, settleSeconds: 60 } as const;
 
 /** Who answers the PS2-P3 gearbox mails in the demo (a role, not a person). */
 export const DEMO_RESPONDER = 'pump-station on-call';
@@ -136,6 +143,8 @@ export async function runDemo(options: DemoOptions): Promise<DemoRun> {
     if (options.signal?.aborted) throw new DemoInterrupted();
   };
   try {
+    // Read first: a configuration that cannot be read stops the demo before it starts anything.
+    const fileConfig = loadConfig(options.configFile ?? DEMO_DEFAULTS.configFile);
     // Redis: a private server unless REDIS_URL names one; then a key prefix of this run's own keeps every
     // other key out of reach, and only keys under that prefix are removed at the end.
     let redis: EmbeddedRedis | undefined;
@@ -156,7 +165,6 @@ export async function runDemo(options: DemoOptions): Promise<DemoRun> {
     const port = await freePort();
     const apiUrl = `http://127.0.0.1:${port}`;
 
-    const fileConfig = loadConfig(options.configFile ?? DEMO_DEFAULTS.configFile);
     const config = demoConfig(fileConfig, { prefix, smtpPort: mail.port, webhookUrl: hooks.url, apiUrl });
     const tokens = { ingest: token(), responder: token(), viewer: token() };
     // The services take the API's tokens from the environment they are handed, not from the process's.

@@ -14,6 +14,7 @@ import { afterAll, describe, expect, it } from 'vitest';
 import type { DemoReport } from '../../src/demo/runDemo.ts';
 import { formatTimeline } from '../../src/demo/timeline.ts';
 import { redisServerAvailable } from '../../src/runtime/embeddedRedis.ts';
+import { BIN } from '../helpers/cli.ts';
 import { startRedisServer } from '../helpers/redisServer.ts';
 
 interface Run {
@@ -22,9 +23,10 @@ interface Run {
   stderr: string;
 }
 
+/** Run outside the checkout, as after `npm link`: the demo finds its configuration in the package wherever it runs. */
 function wearshift(args: string[], env: NodeJS.ProcessEnv, timeoutMs: number): Promise<Run> {
   return new Promise((resolve) => {
-    const child = spawn(process.execPath, ['bin/wearshift.js', ...args], { env, stdio: ['ignore', 'pipe', 'pipe'] });
+    const child = spawn(process.execPath, [BIN, ...args], { env, cwd: tempDir(), stdio: ['ignore', 'pipe', 'pipe'] });
     let stdout = '';
     let stderr = '';
     child.stdout.on('data', (d: Buffer) => (stdout += d.toString()));

@@ -9,7 +9,7 @@ interface DemoCommandOptions {
   keepOpen?: boolean;
   json?: boolean;
   out: string;
-  config: string;
+  config?: string;
   feedSeconds: string;
   settleSeconds: string;
 }
@@ -19,8 +19,8 @@ export function registerDemo(program: Command): void {
     .command('demo')
     .option('--keep-open', 'leave the API running afterwards (Ctrl-C ends it) and print its address, a viewer token and a responder token')
     .option('--json', 'print the report as one JSON line instead of text')
-    .option('--out <dir>', 'where the received e-mails (.eml) and webhook deliveries (.json) go', 'demo/out')
-    .option('--config <file>', 'the demo configuration', DEMO_DEFAULTS.configFile)
+    .option('--out <dir>', 'where the received e-mails (.eml) and webhook deliveries (.json) go, relative to the working directory', 'demo/out')
+    .option('--config <file>', 'the demo configuration (default: demo/config.yaml of the wearshift package, from any directory)')
     .option('--feed-seconds <s>', 'how long the playback of the 18 months of lab reports takes', String(DEMO_DEFAULTS.feedSeconds))
     .option('--settle-seconds <s>', 'how long to wait after the feed for the queues to empty and the escalation to play out (ends as soon as it has)', String(DEMO_DEFAULTS.settleSeconds))
     .addHelpText('after', '\nWithout REDIS_URL the demo starts a private redis-server from PATH; with it, it uses a key prefix of its own and removes only its keys.')
@@ -42,7 +42,7 @@ async function demo(opts: DemoCommandOptions): Promise<void> {
   process.once('SIGTERM', abort);
   let run;
   try {
-    run = await runDemo({ outDir: opts.out, configFile: opts.config, feedSeconds, settleSeconds, ...(opts.keepOpen && { keepOpen: true }), progress: print, signal: interrupt.signal });
+    run = await runDemo({ outDir: opts.out, ...(opts.config !== undefined && { configFile: opts.config }), feedSeconds, settleSeconds, ...(opts.keepOpen && { keepOpen: true }), progress: print, signal: interrupt.signal });
   } catch (e) {
     if (e instanceof RedisServerMissingError || e instanceof DemoInterrupted) {
       process.stderr.write(`wearshift demo: ${e.message}\n`);
