@@ -46,12 +46,21 @@ export function asInputError<T>(run: () => T): T {
   }
 }
 
+/**
+ * A date-time option: ISO 8601 with its zone (Z or ±hh:mm), as epoch ms. One without a zone is refused, not read in
+ * whatever zone the machine runs in.
+ */
+export function zonedTime(option: string, text: string): number {
+  const t = Date.parse(text);
+  if (!/(Z|[+-]\d\d:?\d\d)$/i.test(text.trim()) || Number.isNaN(t)) {
+    throw new InputError(`--${option}: expected an ISO 8601 date-time with a time zone, such as 2026-03-01T18:00:00Z; got "${text}"`);
+  }
+  return t;
+}
+
 /** `--now`: the processing time a command judges against (future dates, backfill); default the clock. */
 export function processingTime(text: string | undefined): number {
-  if (text === undefined) return Date.now();
-  const now = Date.parse(text);
-  if (Number.isNaN(now)) throw new InputError(`--now: expected an ISO 8601 date-time, got "${text}"`);
-  return now;
+  return text === undefined ? Date.now() : zonedTime('now', text);
 }
 
 /** The caution every human-readable output that carries findings ends with. */

@@ -52,3 +52,29 @@ describe('exit codes', { timeout: 600_000 }, () => {
     expect(version.stdout.trim()).toMatch(/^\d+\.\d+\.\d+/);
   });
 });
+
+describe('input errors the user can fix: one line, exit 2', { timeout: 600_000 }, () => {
+  it('--now without a time zone is refused by replay and backtest, not read in the machine\'s zone', async () => {
+    const file = join(dir, 'one.jsonl');
+    writeFileSync(file, `${JSON.stringify({ sampleId: 'N-1', unit: 'U', component: 'gearbox', sampledAt: '2026-01-05T08:00:00Z', readings: { Fe: 3 } })}\n`);
+    for (const command of [['replay', file], ['backtest', file, '--json']]) {
+      const r = await runCli([...command, '--now', '2026-02-01T12:00']);
+      expect(r.stderr).toBe('wearshift: --now: expected an ISO 8601 date-time with a time zone, such as 2026-03-01T18:00:00Z; got "2026-02-01T12:00"\n');
+      expect(r.code).toBe(2);
+    }
+    // With its zone it is taken.
+    expect((await runCli(['replay', file, '--now', '2026-02-01T12:00+01:00', '--json'])).code).toBe(0);
+  });
+
+  it('docs with a README that is missing or lacks the reference markers', async () => {
+    const missing = join(dir, 'missing.md');
+    const r = await runCli(['docs', '--readme', missing, '--schemas', join(dir, 'schemas')]);
+    expect(r.stderr).toBe(`wearshift: ${missing}: cannot read it: ENOENT: no such file or directory, open '${missing}'\n`);
+    expect(r.code).toBe(2);
+    const plain = join(dir, 'plain.md');
+    writeFileSync(plain, '# a README without the generated sections\n');
+    const unmarked = await runCli(['docs', '--readme', plain, '--schemas', join(dir, 'schemas')]);
+    expect(unmarked.stderr).toMatch(new RegExp(`^wearshift: ${plain.replace(/[.*+?^${}()|[\]\\]/g, '\\$&')}: README has no markers .*\n$`));
+    expect(unmarked.code).toBe(2);
+  });
+});

@@ -51,7 +51,7 @@ export function registerBacktest(program: Command): void {
     .option('--compare <file>', 'a second configuration, backtested on the same history and shown side by side')
     .option('--out <file>', 'write the HTML report here')
     .option('--json', 'print the summary as one JSON object')
-    .option('--now <time>', 'processing time, ISO 8601: samples after it are rejected as lying in the future, older ones count as backfill (default: now)')
+    .option('--now <time>', 'processing time, ISO 8601 with a time zone (e.g. 2027-01-01T00:00:00Z): samples after it are rejected as lying in the future, older ones count as backfill (default: now)')
     .addHelpText('after', HELP)
     .action(async (file: string, opts: BacktestCommandOptions) => {
       if (opts.out === undefined && !opts.json) throw new InputError('give --out report.html, --json, or both');

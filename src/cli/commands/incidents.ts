@@ -15,7 +15,7 @@ import { closeQuietly, connectForCommand, redisTarget } from '../../redis/connec
 import { RedisIncidents } from '../../redis/redisIncidents.ts';
 import { formatTime, timeZoneNote } from '../../notify/format.ts';
 import { ADVISORY_CAUTION, bySeverity, severityWords } from '../../notify/message.ts';
-import { formatTable, redisChoice, writeJsonLine } from '../output.ts';
+import { formatTable, redisChoice, writeJsonLine, zonedTime } from '../output.ts';
 import { terminalText } from '../terminalText.ts';
 
 interface CommonOptions {
@@ -36,11 +36,7 @@ async function withStore<T>(opts: CommonOptions, work: (store: RedisIncidents, c
 }
 
 function instant(name: string) {
-  return (raw: string): Date => {
-    const t = Date.parse(raw);
-    if (!/(Z|[+-]\d\d:?\d\d)$/i.test(raw.trim()) || Number.isNaN(t)) throw new InputError(`--${name}: expected an ISO 8601 date-time with a time zone, such as 2026-03-01T18:00:00Z; got "${raw}"`);
-    return new Date(t);
-  };
+  return (raw: string): Date => new Date(zonedTime(name, raw));
 }
 
 function measurands(i: IncidentSummary): string {

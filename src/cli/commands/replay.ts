@@ -32,7 +32,7 @@ export function registerReplay(program: Command): void {
     .argument('<file>', 'CSV or JSONL, as for import')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--format <format>', 'csv or jsonl (default: from the file name)')
-    .option('--now <time>', 'processing time for the backfill rule, ISO 8601 (default: now)')
+    .option('--now <time>', 'processing time for the backfill rule, ISO 8601 with a time zone, e.g. 2026-02-01T12:00:00Z (default: now)')
     .option('--json', 'JSON lines: {"type":"finding",...} and {"type":"incident",...}')
     .action(async (file: string, opts: ReplayCommandOptions) => {
       const format = formatOf(file, opts.format);

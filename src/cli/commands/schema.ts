@@ -8,6 +8,7 @@ import { ResultEventSchema } from '../../domain/event.ts';
 import { LabMappingSchema } from '../../intake/labFiles/mappingSchema.ts';
 import { asyncApiDocument } from '../../contracts/asyncapi.ts';
 import { openApiDocument } from '../../contracts/openapi.ts';
+import { InputError } from '../../domain/errors.ts';
 
 export function publishedSchemas(): Record<string, unknown> {
   return {
@@ -43,9 +44,14 @@ export function schemaFileText(schema: unknown): string {
 }
 
 export function writeSchemas(dir: string): void {
-  mkdirSync(dir, { recursive: true });
   for (const [name, schema] of Object.entries(publishedSchemas())) {
-    writeFileSync(join(dir, name), schemaFileText(schema));
+    try {
+      mkdirSync(dir, { recursive: true });
+      writeFileSync(join(dir, name), schemaFileText(schema));
+    } catch (e) {
+      // A directory that cannot be written is the user's to fix: one line, exit 2.
+      throw new InputError(`${join(dir, name)}: cannot write it: ${(e as Error).message}`);
+    }
     process.stdout.write(`${join(dir, name)}\n`);
   }
 }
