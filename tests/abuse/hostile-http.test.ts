@@ -10,7 +10,6 @@ import { connect, type Socket } from 'node:net';
 import { Writable } from 'node:stream';
 import type { AddressInfo } from 'node:net';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { Step } from '../../src/analysis/model.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import { createEventHub, type EventHub, type LiveEvent } from '../../src/http/eventHub.ts';
 import { buildServer, type WearshiftServer } from '../../src/http/server.ts';
@@ -19,14 +18,11 @@ import { createResultProducer, type ResultProducer } from '../../src/queue/produ
 import { signAckLink } from '../../src/notify/ackLink.ts';
 import { connectRedis, type RedisConnection } from '../../src/redis/connection.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
-import { RedisStore } from '../../src/redis/redisStore.ts';
-import { Partitions } from '../../src/redis/keys.ts';
-import { openPartitionedQueues, resolveQueueSettings, QUEUE_NAMES } from '../../src/queue/queues.ts';
-import { SampleVerdicts } from '../../src/queue/sampleVerdicts.ts';
 import type { Queue } from 'bullmq';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import { serviceLogger } from '../../src/runtime/runService.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
+import { historyParts, openAlarmIncident } from '../helpers/apiParts.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { healthProbe } from '../helpers/healthProbe.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
@@ -91,28 +87,6 @@ let redisGone = false;
 const logLines: string[] = [];
 const saved = { ...process.env };
 
-const step = (unit: string, component: string, sampleId: string): Step => ({
-  sampleId,
-  sampledAt: new Date(NOW.getTime() - 86_400_000).toISOString(),
-  findings: [
-    {
-      unit,
-      component,
-      group: 'gearboxes',
-      measurand: 'Fe',
-      rule: 'limit',
-      disposition: 'incident',
-      severity: 'alarm',
-      value: 90,
-      threshold: 60,
-      basis: 'limit',
-      direction: 'up',
-      sampleId,
-      sampledAt: new Date(NOW.getTime() - 86_400_000).toISOString(),
-      explanation: 'Fe above the alarm level',
-    },
-  ],
-});
 
 beforeAll(async () => {
   redis = await startRedisServer();
@@ -121,13 +95,12 @@ beforeAll(async () => {
   request.on('error', () => {});
   await new Promise((resolve) => request.once('ready', resolve));
   const incidents = new RedisIncidents(request, { rules: incidentRules(ConfigSchema.parse({})), prefix });
-  await incidents.applySteps({ unit: LONG_UNIT, component: LONG_COMPONENT }, [step(LONG_UNIT, LONG_COMPONENT, LONG_SAMPLE)], { group: 'gearboxes', now: NOW, quietBefore: new Date(0) });
-  await incidents.applySteps({ unit: 'PS7-Quarry Road', component: 'gearbox' }, [step('PS7-Quarry Road', 'gearbox', 'LAB-7001')], { group: 'gearboxes', now: NOW, quietBefore: new Date(0) });
+  await openAlarmIncident(incidents, LONG_UNIT, LONG_COMPONENT, LONG_SAMPLE, NOW);
+  await openAlarmIncident(incidents, 'PS7-Quarry Road', 'gearbox', 'LAB-7001', NOW);
   producer = createResultProducer({ connection: request, prefix });
   hub = createEventHub();
-  const store = new RedisStore(request, { prefix });
-  const partitions = new Partitions(prefix, 1);
-  evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, request, resolveQueueSettings({ prefix }), partitions);
+  const parts = historyParts(request, prefix);
+  evaluateQueues = parts.evaluateQueues;
   const capture = new Writable({
     write(chunk, _encoding, done) {
       logLines.push(String(chunk));
@@ -141,8 +114,7 @@ beforeAll(async () => {
     ping: () => request.ping(),
     producer,
     incidents,
-    histories: { store, ledger: store, config: ConfigSchema.parse({}) },
-    sampleVerdicts: new SampleVerdicts(store, evaluateQueues, partitions),
+    ...parts.server,
     hub,
     ackLinkSecrets: [ACK_SECRET],
     limits: LIMITS,

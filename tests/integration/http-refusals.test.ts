@@ -12,22 +12,18 @@ import type { Queue } from 'bullmq';
 import { Ajv2020 } from 'ajv/dist/2020.js';
 import formats from 'ajv-formats';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { Step } from '../../src/analysis/model.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import { createEventHub } from '../../src/http/eventHub.ts';
 import { buildServer, type WearshiftServer } from '../../src/http/server.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { openApiDocument } from '../../src/contracts/openapi.ts';
 import { createResultProducer, type ResultProducer } from '../../src/queue/producer.ts';
-import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
-import { SampleVerdicts } from '../../src/queue/sampleVerdicts.ts';
 import { connectRedis, type RedisConnection } from '../../src/redis/connection.ts';
-import { Partitions } from '../../src/redis/keys.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
-import { RedisStore } from '../../src/redis/redisStore.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
+import { historyParts, openAlarmIncident } from '../helpers/apiParts.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const prefix = '{refusals}';
@@ -61,17 +57,10 @@ beforeAll(async () => {
   request = connectRedis(redis.url, 'request');
   await new Promise((resolve) => request.once('ready', resolve));
   const incidents = new RedisIncidents(request, { rules: incidentRules(ConfigSchema.parse({})), prefix });
-  const sampledAt = new Date(NOW.getTime() - 86_400_000).toISOString();
-  const step: Step = {
-    sampleId: 'LAB-4001',
-    sampledAt,
-    findings: [{ unit: 'PS4-P2', component: 'gearbox', group: 'gearboxes', measurand: 'Fe', rule: 'limit', disposition: 'incident', severity: 'alarm', value: 90, threshold: 60, basis: 'limit', direction: 'up', sampleId: 'LAB-4001', sampledAt, explanation: 'Fe above the alarm level' }],
-  };
-  await incidents.applySteps({ unit: 'PS4-P2', component: 'gearbox' }, [step], { group: 'gearboxes', now: NOW, quietBefore: new Date(0) });
+  await openAlarmIncident(incidents, 'PS4-P2', 'gearbox', 'LAB-4001', NOW);
   producer = createResultProducer({ connection: request, prefix });
-  const store = new RedisStore(request, { prefix });
-  const partitions = new Partitions(prefix, 1);
-  evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, request, resolveQueueSettings({ prefix }), partitions);
+  const parts = historyParts(request, prefix);
+  evaluateQueues = parts.evaluateQueues;
   app = await buildServer({
     tokens: accessTokensFromEnv({ WEARSHIFT_TOKEN_INGEST: TOKENS.ingest, WEARSHIFT_TOKEN_RESPONDER: TOKENS.responder, WEARSHIFT_TOKEN_VIEWER: TOKENS.viewer }),
     logger: silentLogger(),
@@ -79,8 +68,7 @@ beforeAll(async () => {
     ping: () => request.ping(),
     producer,
     incidents,
-    histories: { store, ledger: store, config: ConfigSchema.parse({}) },
-    sampleVerdicts: new SampleVerdicts(store, evaluateQueues, partitions),
+    ...parts.server,
     hub: createEventHub(),
     ackLinkSecrets: ['ack-secret-refusals-62f1c0a9d4'],
     openApi: openApiDocument(),

@@ -5,22 +5,18 @@
  */
 import type { Queue } from 'bullmq';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { Step } from '../../src/analysis/model.ts';
 import { openApiDocument } from '../../src/contracts/openapi.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import { buildServer, type WearshiftServer } from '../../src/http/server.ts';
 import { UNAVAILABLE_RETRY_AFTER_S } from '../../src/http/unavailable.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { createResultProducer, type ResultProducer } from '../../src/queue/producer.ts';
-import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
-import { SampleVerdicts } from '../../src/queue/sampleVerdicts.ts';
 import { connectRedis, REQUEST_COMMAND_TIMEOUT_MS, type RedisConnection } from '../../src/redis/connection.ts';
-import { Partitions } from '../../src/redis/keys.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
-import { RedisStore } from '../../src/redis/redisStore.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
+import { historyParts, openAlarmIncident } from '../helpers/apiParts.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const prefix = '{hung}';
@@ -45,18 +41,11 @@ beforeAll(async () => {
   request = connectRedis(redis.url, 'request');
   await new Promise((resolve) => request.once('ready', resolve));
   const incidents = new RedisIncidents(request, { rules: incidentRules(ConfigSchema.parse({})), prefix });
-  const sampledAt = new Date(NOW.getTime() - 86_400_000).toISOString();
-  const step: Step = {
-    sampleId: 'LAB-9001',
-    sampledAt,
-    findings: [{ unit: 'PS9-P1', component: 'gearbox', group: 'gearboxes', measurand: 'Fe', rule: 'limit', disposition: 'incident', severity: 'alarm', value: 90, threshold: 60, basis: 'limit', direction: 'up', sampleId: 'LAB-9001', sampledAt, explanation: 'Fe above the alarm level' }],
-  };
-  await incidents.applySteps({ unit: 'PS9-P1', component: 'gearbox' }, [step], { group: 'gearboxes', now: NOW, quietBefore: new Date(0) });
+  await openAlarmIncident(incidents, 'PS9-P1', 'gearbox', 'LAB-9001', NOW);
   // The producer opens its own request connection, as an integrator's code would.
   producer = createResultProducer({ connection: redis.url, prefix });
-  const store = new RedisStore(request, { prefix });
-  const partitions = new Partitions(prefix, 1);
-  evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, request, resolveQueueSettings({ prefix }), partitions);
+  const parts = historyParts(request, prefix);
+  evaluateQueues = parts.evaluateQueues;
   app = await buildServer({
     tokens: accessTokensFromEnv({ WEARSHIFT_TOKEN_INGEST: TOKENS.ingest, WEARSHIFT_TOKEN_RESPONDER: TOKENS.responder, WEARSHIFT_TOKEN_VIEWER: TOKENS.viewer }),
     logger: silentLogger(),
@@ -64,8 +53,7 @@ beforeAll(async () => {
     ping: () => request.ping(),
     producer,
     incidents,
-    histories: { store, ledger: store, config: ConfigSchema.parse({}) },
-    sampleVerdicts: new SampleVerdicts(store, evaluateQueues, partitions),
+    ...parts.server,
   });
   base = await app.listen({ host: '127.0.0.1', port: 0 });
   // Everything is in place while Redis answers: the producer's queue is ready and a first result goes in.

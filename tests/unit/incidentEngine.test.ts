@@ -48,27 +48,18 @@ const RULES_CHANNELS = {
   webhooks: [{ name: 'ops', url: 'https://ops.example/hooks', secrets: ['WEBHOOK_SECRET'] }],
 };
 
-const RULES = rulesFrom({
-  channels: RULES_CHANNELS,
-  escalation: {
-    policies: [
-      {
-        name: 'gearboxes',
-        tiers: [
-          { afterMinutes: 0, email: ['oncall@plant.example'], webhooks: ['ops'] },
-          { afterMinutes: 30, email: ['supervisor@plant.example'] },
-        ],
-        repeatMinutes: 60,
-      },
-    ],
-  },
-});
+/** One escalation policy for the gearboxes: tier 0 is the on-call engineer's e-mail and the ops webhook. */
+function gearboxPolicy(laterTiers: object[], extra: object = {}): IncidentRules {
+  return rulesFrom({
+    channels: RULES_CHANNELS,
+    escalation: { policies: [{ name: 'gearboxes', tiers: [{ afterMinutes: 0, email: ['oncall@plant.example'], webhooks: ['ops'] }, ...laterTiers], ...extra }] },
+  });
+}
+
+const RULES = gearboxPolicy([{ afterMinutes: 30, email: ['supervisor@plant.example'] }], { repeatMinutes: 60 });
 
 /** Tier 0 only: no escalation timers between samples that lie days apart. */
-const TIER0_ONLY = rulesFrom({
-  channels: RULES_CHANNELS,
-  escalation: { policies: [{ name: 'gearboxes', tiers: [{ afterMinutes: 0, email: ['oncall@plant.example'], webhooks: ['ops'] }] }] },
-});
+const TIER0_ONLY = gearboxPolicy([]);
 
 function ctx(now: Date, rules: IncidentRules = RULES): StepContext {
   return { group: 'gearboxes', now, quietBefore: new Date(now.getTime() - 30 * DAY), rules };
@@ -338,20 +329,7 @@ describe('incident life cycle', () => {
 
   it('an unacknowledged incident active again after a return to normal is told so, and its escalation goes on', () => {
     // Tier 1 falls due while the incident has returned to normal: its check finds nothing to tell then.
-    const rules = rulesFrom({
-      channels: RULES_CHANNELS,
-      escalation: {
-        policies: [
-          {
-            name: 'gearboxes',
-            tiers: [
-              { afterMinutes: 0, email: ['oncall@plant.example'], webhooks: ['ops'] },
-              { afterMinutes: 25 * 24 * 60, email: ['supervisor@plant.example'] },
-            ],
-          },
-        ],
-      },
-    });
+    const rules = gearboxPolicy([{ afterMinutes: 25 * 24 * 60, email: ['supervisor@plant.example'] }]);
     const s1 = step(1, finding('Fe', 'alarm'));
     let state = feed(emptyComponentIncidents(UNIT, COMPONENT), s1, rules).state;
     const id = only(state).id;
