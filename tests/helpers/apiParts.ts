@@ -8,10 +8,22 @@ import type { Step } from '../../src/analysis/model.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
 import { SampleVerdicts } from '../../src/queue/sampleVerdicts.ts';
-import type { RedisConnection } from '../../src/redis/connection.ts';
+import { connectRedis, type RedisConnection } from '../../src/redis/connection.ts';
+import { incidentRules } from '../../src/incidents/policy.ts';
 import { Partitions } from '../../src/redis/keys.ts';
-import type { RedisIncidents } from '../../src/redis/redisIncidents.ts';
+import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
+import type { ResultProducer } from '../../src/queue/producer.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
+import { silentLogger } from '../../src/telemetry/logger.ts';
+import { createMetrics } from '../../src/telemetry/metrics.ts';
+
+/** A request connection to `url`, ready, and the incidents over it (built-in rules). */
+export async function requestWithIncidents(url: string, prefix: string): Promise<{ request: RedisConnection; incidents: RedisIncidents }> {
+  const request = connectRedis(url, 'request');
+  await new Promise((resolve) => request.once('ready', resolve));
+  return { request, incidents: new RedisIncidents(request, { rules: incidentRules(ConfigSchema.parse({})), prefix }) };
+}
 
 /** The histories and sample verdicts of `buildServer`, and the evaluate queues to close at the end. */
 export function historyParts(request: RedisConnection, prefix: string) {
@@ -21,6 +33,32 @@ export function historyParts(request: RedisConnection, prefix: string) {
   return {
     evaluateQueues,
     server: { histories: { store, ledger: store, config: ConfigSchema.parse({}) }, sampleVerdicts: new SampleVerdicts(store, evaluateQueues, partitions) },
+  };
+}
+
+/**
+ * What every API test's server is built from: the three roles' tokens, a silent logger, its own metrics, the readiness
+ * ping, the producer, the incidents and `historyParts`. The evaluate queues are for the caller to close.
+ */
+export function serverOptions(parts: {
+  readonly request: RedisConnection;
+  readonly prefix: string;
+  readonly tokens: { readonly ingest: string; readonly responder: string; readonly viewer: string };
+  readonly producer: ResultProducer;
+  readonly incidents: RedisIncidents;
+}) {
+  const { evaluateQueues, server } = historyParts(parts.request, parts.prefix);
+  return {
+    evaluateQueues,
+    options: {
+      tokens: accessTokensFromEnv({ WEARSHIFT_TOKEN_INGEST: parts.tokens.ingest, WEARSHIFT_TOKEN_RESPONDER: parts.tokens.responder, WEARSHIFT_TOKEN_VIEWER: parts.tokens.viewer }),
+      logger: silentLogger(),
+      metrics: createMetrics({ defaultMetrics: false }),
+      ping: () => parts.request.ping(),
+      producer: parts.producer,
+      incidents: parts.incidents,
+      ...server,
+    },
   };
 }
 

@@ -12,18 +12,12 @@ import type { Queue } from 'bullmq';
 import { Ajv2020 } from 'ajv/dist/2020.js';
 import formats from 'ajv-formats';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { ConfigSchema } from '../../src/domain/config.ts';
 import { createEventHub } from '../../src/http/eventHub.ts';
 import { buildServer, type WearshiftServer } from '../../src/http/server.ts';
-import { incidentRules } from '../../src/incidents/policy.ts';
 import { openApiDocument } from '../../src/contracts/openapi.ts';
 import { createResultProducer, type ResultProducer } from '../../src/queue/producer.ts';
-import { connectRedis, type RedisConnection } from '../../src/redis/connection.ts';
-import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
-import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
-import { silentLogger } from '../../src/telemetry/logger.ts';
-import { createMetrics } from '../../src/telemetry/metrics.ts';
-import { historyParts, openAlarmIncident } from '../helpers/apiParts.ts';
+import type { RedisConnection } from '../../src/redis/connection.ts';
+import { openAlarmIncident, requestWithIncidents, serverOptions } from '../helpers/apiParts.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const prefix = '{refusals}';
@@ -54,21 +48,15 @@ const auth = (role: keyof typeof TOKENS) => ({ authorization: `Bearer ${TOKENS[r
 
 beforeAll(async () => {
   redis = await startRedisServer();
-  request = connectRedis(redis.url, 'request');
-  await new Promise((resolve) => request.once('ready', resolve));
-  const incidents = new RedisIncidents(request, { rules: incidentRules(ConfigSchema.parse({})), prefix });
+  const opened = await requestWithIncidents(redis.url, prefix);
+  request = opened.request;
+  const incidents = opened.incidents;
   await openAlarmIncident(incidents, 'PS4-P2', 'gearbox', 'LAB-4001', NOW);
   producer = createResultProducer({ connection: request, prefix });
-  const parts = historyParts(request, prefix);
+  const parts = serverOptions({ request, prefix, tokens: TOKENS, producer, incidents });
   evaluateQueues = parts.evaluateQueues;
   app = await buildServer({
-    tokens: accessTokensFromEnv({ WEARSHIFT_TOKEN_INGEST: TOKENS.ingest, WEARSHIFT_TOKEN_RESPONDER: TOKENS.responder, WEARSHIFT_TOKEN_VIEWER: TOKENS.viewer }),
-    logger: silentLogger(),
-    metrics: createMetrics({ defaultMetrics: false }),
-    ping: () => request.ping(),
-    producer,
-    incidents,
-    ...parts.server,
+    ...parts.options,
     hub: createEventHub(),
     ackLinkSecrets: ['ack-secret-refusals-62f1c0a9d4'],
     openApi: openApiDocument(),

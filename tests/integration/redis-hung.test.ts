@@ -6,17 +6,11 @@
 import type { Queue } from 'bullmq';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { openApiDocument } from '../../src/contracts/openapi.ts';
-import { ConfigSchema } from '../../src/domain/config.ts';
 import { buildServer, type WearshiftServer } from '../../src/http/server.ts';
 import { UNAVAILABLE_RETRY_AFTER_S } from '../../src/http/unavailable.ts';
-import { incidentRules } from '../../src/incidents/policy.ts';
 import { createResultProducer, type ResultProducer } from '../../src/queue/producer.ts';
-import { connectRedis, REQUEST_COMMAND_TIMEOUT_MS, type RedisConnection } from '../../src/redis/connection.ts';
-import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
-import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
-import { silentLogger } from '../../src/telemetry/logger.ts';
-import { createMetrics } from '../../src/telemetry/metrics.ts';
-import { historyParts, openAlarmIncident } from '../helpers/apiParts.ts';
+import { REQUEST_COMMAND_TIMEOUT_MS, type RedisConnection } from '../../src/redis/connection.ts';
+import { openAlarmIncident, requestWithIncidents, serverOptions } from '../helpers/apiParts.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const prefix = '{hung}';
@@ -38,22 +32,16 @@ const json = (role: keyof typeof TOKENS, body: unknown): RequestInit => ({ metho
 
 beforeAll(async () => {
   redis = await startRedisServer();
-  request = connectRedis(redis.url, 'request');
-  await new Promise((resolve) => request.once('ready', resolve));
-  const incidents = new RedisIncidents(request, { rules: incidentRules(ConfigSchema.parse({})), prefix });
+  const opened = await requestWithIncidents(redis.url, prefix);
+  request = opened.request;
+  const incidents = opened.incidents;
   await openAlarmIncident(incidents, 'PS9-P1', 'gearbox', 'LAB-9001', NOW);
   // The producer opens its own request connection, as an integrator's code would.
   producer = createResultProducer({ connection: redis.url, prefix });
-  const parts = historyParts(request, prefix);
+  const parts = serverOptions({ request, prefix, tokens: TOKENS, producer, incidents });
   evaluateQueues = parts.evaluateQueues;
   app = await buildServer({
-    tokens: accessTokensFromEnv({ WEARSHIFT_TOKEN_INGEST: TOKENS.ingest, WEARSHIFT_TOKEN_RESPONDER: TOKENS.responder, WEARSHIFT_TOKEN_VIEWER: TOKENS.viewer }),
-    logger: silentLogger(),
-    metrics: createMetrics({ defaultMetrics: false }),
-    ping: () => request.ping(),
-    producer,
-    incidents,
-    ...parts.server,
+    ...parts.options,
   });
   base = await app.listen({ host: '127.0.0.1', port: 0 });
   // Everything is in place while Redis answers: the producer's queue is ready and a first result goes in.
