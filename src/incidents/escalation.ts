@@ -135,7 +135,9 @@ export function advanceEscalation(inc: DraftIncident, work: Work, firstReason?: 
   if (due === null || (esc.dueAt !== null && Date.parse(esc.dueAt) === due)) return;
   esc.dueAt = new Date(due).toISOString();
   const tier = reason === 'tier' ? esc.nextTier : esc.reachedTier;
-  work.effects.push({ kind: 'schedule-escalation', key: `${inc.id}:${reason}:${tier}:${due}`, incidentId: inc.id, tier, at: esc.dueAt, reason });
+  // The event sequence tells apart the checks of two chains that fall due at the same instant (a chain started again
+  // in the same millisecond as the one before it, as an unshelving right after a shelving does).
+  work.effects.push({ kind: 'schedule-escalation', key: `${inc.id}:${reason}:${tier}:${due}:${inc.eventSeq}`, incidentId: inc.id, tier, at: esc.dueAt, reason });
 }
 
 function measurandsOf(inc: DraftIncident): Measurand[] {

@@ -123,6 +123,20 @@ describe.each(['component', 'measurand'] as const)('incident engine properties (
     );
   });
 
+  it('an unshelving in the same millisecond as its shelving starts a chain whose checks keep apart from the first one\'s', () => {
+    const ops: Op[] = [
+      { kind: 'step', gapHours: 1, findings: [{ measurand: 'Fe', rule: 'cusum', severity: 'watch' }], quiet: false },
+      { kind: 'shelve', gapHours: 0, pick: 0 },
+      { kind: 'unshelve', gapHours: 0, pick: 0 },
+    ];
+    const effects = run(ops, scope).effects;
+    const checks = effects.filter((e) => e.kind === 'schedule-escalation' && e.reason === 'tier');
+    // Both chains ask for tier 1 at the same instant: two checks, told apart.
+    expect(checks).toHaveLength(2);
+    expect(checks[0]!.key).not.toBe(checks[1]!.key);
+    expect(new Set(effects.map((e) => e.key)).size).toBe(effects.length);
+  });
+
   it('every effect key is unique over a whole run', () => {
     fc.assert(
       fc.property(fc.array(opArb, { maxLength: 60 }), (ops) => {
