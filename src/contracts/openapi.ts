@@ -6,7 +6,7 @@
  */
 import { z } from 'zod';
 import { ResultEventSchema } from '../domain/event.ts';
-import { IncidentFilterSchema } from '../incidents/listFilter.ts';
+import { IncidentListQuerySchema } from '../incidents/listPage.ts';
 import { VerdictBodySchema } from '../http/sampleVerdictRoutes.ts';
 import { INCIDENT_ACTION_BODIES } from '../http/incidentRoutes.ts';
 import { ErrorBodySchema, HealthSchema, SessionSchema, IncidentEnvelopeSchema, IncidentListSchema, ResultOutcomesSchema, SeriesSchema } from './responseSchemas.ts';
@@ -129,11 +129,13 @@ export function openApiDocument(): Json {
         get: {
           operationId: 'listIncidents',
           summary: 'Incidents: open ones most severe first, then the most recently opened; closed ones the most recently closed first.',
+          description:
+            'One page at a time: `next` is a cursor while more incidents match, and `cursor` continues strictly after the previous page in the same order (ties by id), without repeating or skipping an incident: one opened meanwhile shows where the order places it, once, or not at all when that is before the cursor. An incident whose severity or state changed between pages moves to its new place in the order. A cursor is bound to the state, severity, unit and group it was given for; with others, or altered, it is refused (400 naming `query.cursor`).',
           tags: ['incidents'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
           // A repeated severity means the list (the routes join it); any other parameter takes one value.
-          parameters: queryParameters(IncidentFilterSchema).map((p) => (p.name === 'severity' ? { ...p, description: `${String(p.description ?? '')} The parameter may also be repeated (severity=alarm&severity=watch).`.trim() } : p)),
-          responses: { '200': { description: 'The incidents that match.', content: json('IncidentList') }, '400': error('A query parameter is invalid.'), ...AUTH_ERRORS, ...STORE_UNAVAILABLE },
+          parameters: queryParameters(IncidentListQuerySchema).map((p) => (p.name === 'severity' ? { ...p, description: `${String(p.description ?? '')} The parameter may also be repeated (severity=alarm&severity=watch).`.trim() } : p)),
+          responses: { '200': { description: 'The incidents that match.', content: json('IncidentList') }, '400': error('A query parameter is invalid, given more than once, or a cursor is malformed or was given for another filter (issues name the parameter, such as query.cursor).'), ...AUTH_ERRORS, ...STORE_UNAVAILABLE },
         },
       },
       '/v1/incidents/{id}': {

@@ -91,7 +91,24 @@ export const IncidentSchema = IncidentSummarySchema.extend({
 
 const advisory = z.string().describe(`The caution that goes with every finding: "${ADVISORY_CAUTION}"`);
 
-export const IncidentListSchema = z.object({ incidents: z.array(IncidentSummarySchema), advisory }).strict();
+export const IncidentListSchema = z
+  .object({
+    incidents: z.array(IncidentSummarySchema).describe('One page of the list, in its order; at most `limit` incidents.'),
+    next: z
+      .string()
+      .nullable()
+      .describe('An opaque cursor when more incidents match after this page: pass it as `cursor` with the same filter for the next page. Null on the last page.'),
+    total: z
+      .number()
+      .int()
+      .nonnegative()
+      .nullable()
+      .describe(
+        'How many incidents match the filter in all, now: always for a filter by state open, closed or all alone, and when the first page holds every match; null when it would take reading every incident (a state within the open ones, severity, unit, group).',
+      ),
+    advisory,
+  })
+  .strict();
 export const IncidentEnvelopeSchema = z.object({ incident: IncidentSchema, advisory }).strict();
 
 export const SessionSchema = z

@@ -1,6 +1,7 @@
 /**
- * The incident API (fastify 5 plugin): list and show for viewers and responders; acknowledge, shelve,
- * unshelve, resolve and note for responders. Incident ids hold '/' and must be percent-encoded in the path.
+ * The incident API (fastify 5 plugin): list (a page at a time, continued by an opaque cursor) and show for viewers
+ * and responders; acknowledge, shelve, unshelve, resolve and note for responders. Incident ids hold '/' and must be
+ * percent-encoded in the path.
  * Every answer that carries incidents carries the caution beside them (`advisory`), as webhooks and the CLI do.
  */
 import type { FastifyPluginAsync, FastifyReply } from 'fastify';
@@ -9,7 +10,8 @@ import { ADVISORY_CAUTION } from '../domain/caution.ts';
 import { InputError } from '../domain/errors.ts';
 import type { IncidentAction } from '../incidents/applyAction.ts';
 import { IncidentConflictError, IncidentNotFoundError } from '../incidents/errors.ts';
-import { IncidentFilterSchema, type IncidentFilter } from '../incidents/listFilter.ts';
+import type { IncidentFilter } from '../incidents/listFilter.ts';
+import { decodeCursor, encodeCursor, IncidentListQuerySchema, type IncidentPage, type ListPosition } from '../incidents/listPage.ts';
 import type { Incident, IncidentSummary } from '../incidents/model.ts';
 import { credentialOf, requireRole, type AccessTokens } from './auth.ts';
 
@@ -17,6 +19,8 @@ import { credentialOf, requireRole, type AccessTokens } from './auth.ts';
 export interface IncidentRoutesStore {
   get(incidentId: string): Promise<Incident | undefined>;
   list(filter: IncidentFilter): Promise<IncidentSummary[]>;
+  /** One page of the list, strictly after `after` when given (see RedisIncidents.page). */
+  page(filter: IncidentFilter, after?: ListPosition): Promise<IncidentPage>;
   applyAction(action: IncidentAction): Promise<{ incident: Incident }>;
 }
 
@@ -124,9 +128,13 @@ export const incidentRoutes: FastifyPluginAsync<IncidentRoutesOptions> = async (
   app.get('/v1/incidents', read, async (request, reply) => {
     const given = singleValues((request.query ?? {}) as Record<string, unknown>);
     if (!given.ok) return invalid(reply, 'query', given);
-    const query = IncidentFilterSchema.safeParse(given.query);
+    const query = IncidentListQuerySchema.safeParse(given.query);
     if (!query.success) return invalid(reply, 'query', query.error);
-    return { incidents: await options.store.list(query.data), advisory: ADVISORY_CAUTION };
+    const { cursor, ...filter } = query.data;
+    const after = cursor === undefined ? undefined : decodeCursor(filter, cursor);
+    if (after !== undefined && !after.ok) return invalid(reply, 'query', { issues: [{ path: ['cursor'], message: after.reason }] });
+    const page = await options.store.page(filter, after?.position);
+    return { incidents: page.incidents, next: page.next === null ? null : encodeCursor(filter, page.next), total: page.total, advisory: ADVISORY_CAUTION };
   });
 
   app.get<{ Params: { id: string } }>('/v1/incidents/:id', read, async (request, reply) => {

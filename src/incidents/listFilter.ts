@@ -24,7 +24,7 @@ export const IncidentFilterSchema = z
     severity: severityList.optional().describe('One severity or a comma-separated list.'),
     unit: z.string().min(1).optional(),
     group: z.string().min(1).optional(),
-    limit: z.coerce.number().int().min(1).max(MAX_LIST_LIMIT).default(100),
+    limit: z.coerce.number().int().min(1).max(MAX_LIST_LIMIT).default(100).describe(`The most incidents one list (one page) gives: 1 to ${MAX_LIST_LIMIT}, default 100.`),
   })
   .strict();
 export type IncidentFilter = z.infer<typeof IncidentFilterSchema>;

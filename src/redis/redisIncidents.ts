@@ -11,13 +11,14 @@ import { applyEscalationCheck, type EscalationCheck } from '../incidents/applyEs
 import { applySteps } from '../incidents/applySteps.ts';
 import { IncidentConflictError, IncidentNotFoundError } from '../incidents/errors.ts';
 import { matchesFilter, type IncidentFilter } from '../incidents/listFilter.ts';
+import { listIndexes, type IncidentPage, type ListIndex, type ListPosition } from '../incidents/listPage.ts';
 import { emptyComponentIncidents, findIncident, summarize, type ComponentIncidents, type Incident, type IncidentEffect, type IncidentSummary } from '../incidents/model.ts';
 import type { IncidentRules } from '../incidents/policy.ts';
 import { changedIncidents } from './changedIncidents.ts';
 import { compactText, expandText } from './compactText.ts';
 import { componentKeys, partitionKeys, Partitions } from './keys.ts';
 import { incidentRecordRows, type RedisConnection } from './redisStore.ts';
-import { CLAIM_OUTBOX, UPDATE_INCIDENTS } from './scripts.ts';
+import { CLAIM_OUTBOX, RANGE_AFTER, UPDATE_INCIDENTS } from './scripts.ts';
 
 export interface RedisIncidentsOptions {
   readonly rules: IncidentRules;
@@ -62,6 +63,23 @@ export function ownerOf(incidentId: string): ComponentRef | undefined {
   const [unit, component] = incidentId.slice(0, at).split('/');
   return unit && component ? { unit, component } : undefined;
 }
+
+/** An incident of the list with its place in the order. */
+interface Listed {
+  readonly position: ListPosition;
+  readonly summary: IncidentSummary;
+}
+
+/** Byte order of the ids' UTF-8, as Redis orders the members of a sorted set that share a score. */
+function compareIds(a: string, b: string): number {
+  return Buffer.compare(Buffer.from(a, 'utf8'), Buffer.from(b, 'utf8'));
+}
+
+/** The list's order within each index, as the sorted sets give it: open ascending, closed its exact reverse. */
+const ORDER: Record<ListIndex, (a: Listed, b: Listed) => number> = {
+  open: (a, b) => a.position.key - b.position.key || compareIds(a.position.id, b.position.id),
+  closed: (a, b) => b.position.key - a.position.key || compareIds(b.position.id, a.position.id),
+};
 
 export class RedisIncidents {
   readonly partitions: Partitions;
@@ -124,12 +142,25 @@ export class RedisIncidents {
 
   /** Open incidents by severity (highest first), then newest first; closed ones newest closing first. */
   async list(filter: IncidentFilter): Promise<IncidentSummary[]> {
-    const wantOpen = filter.state !== 'closed';
-    const wantClosed = filter.state === 'closed' || filter.state === 'all';
-    const out: IncidentSummary[] = [];
-    if (wantOpen) out.push(...(await this.scanAll('open', false, filter)));
-    if (wantClosed && out.length < filter.limit) out.push(...(await this.scanAll('closed', true, filter)).slice(0, filter.limit - out.length));
-    return out.slice(0, filter.limit);
+    return (await this.collect(filter, undefined, filter.limit)).map((x) => x.summary);
+  }
+
+  /**
+   * One page of the list: up to `filter.limit` incidents strictly after `after` (from the start without it) in the
+   * list's order, where it ended when more match, and how many match in all when the indexes' sizes tell it. The
+   * order is the indexes' (open: severity, then newest opened; closed: newest closing; ties by id), so a page
+   * continues exactly where the last one ended: an incident opened meanwhile shows where the order places it, once
+   * or (before the position) not at all, and displaces nothing. One whose severity or state changed meanwhile moves
+   * to its new place in the order.
+   */
+  async page(filter: IncidentFilter, after?: ListPosition): Promise<IncidentPage> {
+    const [found, indexTotal] = await Promise.all([this.collect(filter, after, filter.limit + 1), this.countByIndexes(filter)]);
+    const shown = found.slice(0, filter.limit);
+    const more = found.length > filter.limit;
+    const last = shown[shown.length - 1];
+    // A first page that holds every match has counted them too.
+    const total = indexTotal ?? (after === undefined && !more ? shown.length : null);
+    return { incidents: shown.map((x) => x.summary), next: more && last !== undefined ? last.position : null, total };
   }
 
   /**
@@ -138,14 +169,25 @@ export class RedisIncidents {
    * ones, severity, unit, group) reads the records of the indexes it needs, a page at a time.
    */
   async count(filter: IncidentFilter): Promise<number> {
-    const wantOpen = filter.state !== 'closed';
-    const wantClosed = filter.state === 'closed' || filter.state === 'all';
-    const byIndexAlone = filter.severity === undefined && filter.unit === undefined && filter.group === undefined && ['open', 'closed', 'all'].includes(filter.state);
+    const byIndexes = await this.countByIndexes(filter);
+    if (byIndexes !== undefined) return byIndexes;
     const counts = await Promise.all(
       this.partitions.all().flatMap((n) => {
         const p = partitionKeys(this.partitions.tag(n));
-        const zsets = [...(wantOpen ? [p.open] : []), ...(wantClosed ? [p.closed] : [])];
-        return zsets.map((zset) => (byIndexAlone ? this.redis.zcard(zset) : this.countMatching(p.records, zset, filter)));
+        return listIndexes(filter).map((index) => this.countMatching(p.records, p[index], filter));
+      }),
+    );
+    return counts.reduce((a, b) => a + b, 0);
+  }
+
+  /** How many incidents a filter by open, closed or all alone matches (ZCARD of its indexes); undefined for a narrower one. */
+  private async countByIndexes(filter: IncidentFilter): Promise<number | undefined> {
+    const byIndexAlone = filter.severity === undefined && filter.unit === undefined && filter.group === undefined && ['open', 'closed', 'all'].includes(filter.state);
+    if (!byIndexAlone) return undefined;
+    const counts = await Promise.all(
+      this.partitions.all().flatMap((n) => {
+        const p = partitionKeys(this.partitions.tag(n));
+        return listIndexes(filter).map((index) => this.redis.zcard(p[index]));
       }),
     );
     return counts.reduce((a, b) => a + b, 0);
@@ -198,35 +240,50 @@ export class RedisIncidents {
     return { waiting: sizes.reduce((a, [w]) => a + w, 0), claimed: sizes.reduce((a, [, c]) => a + c, 0) };
   }
 
-  /** Every partition's index merged in order (scores: open by severity and age ascending, closed newest first). */
-  private async scanAll(which: 'open' | 'closed', newestFirst: boolean, filter: IncidentFilter): Promise<IncidentSummary[]> {
-    const lists = await Promise.all(this.partitions.all().map((n) => this.scan(n, which, newestFirst, filter)));
-    const all = lists.flat();
-    all.sort((a, b) => (newestFirst ? b.score - a.score : a.score - b.score) || (a.summary.id < b.summary.id ? -1 : 1));
-    return all.slice(0, filter.limit).map((x) => x.summary);
+  /**
+   * Up to `want` incidents matching `filter` strictly after `after`, in the list's order: the open index, then (for
+   * closed and all) the closed one, each read from every partition and merged.
+   */
+  private async collect(filter: IncidentFilter, after: ListPosition | undefined, want: number): Promise<Listed[]> {
+    const out: Listed[] = [];
+    const indexes = listIndexes(filter);
+    for (const index of indexes.slice(after === undefined ? 0 : Math.max(0, indexes.indexOf(after.index)))) {
+      if (out.length >= want) break;
+      const from = after?.index === index ? after : undefined;
+      const lists = await Promise.all(this.partitions.all().map((n) => this.scan(n, index, from, filter, want - out.length)));
+      out.push(...lists.flat().sort(ORDER[index]).slice(0, want - out.length));
+    }
+    return out;
   }
 
-  private async scan(n: number, which: 'open' | 'closed', newestFirst: boolean, filter: IncidentFilter): Promise<Array<{ score: number; summary: IncidentSummary }>> {
+  /** Up to `want` matching incidents of one partition's index, in its order, strictly after `from` if given. */
+  private async scan(n: number, index: ListIndex, from: ListPosition | undefined, filter: IncidentFilter, want: number): Promise<Listed[]> {
     const p = partitionKeys(this.partitions.tag(n));
-    const zset = which === 'open' ? p.open : p.closed;
-    const out: Array<{ score: number; summary: IncidentSummary }> = [];
-    const page = 200;
-    for (let start = 0; out.length < filter.limit; start += page) {
-      const flat = newestFirst ? await this.redis.zrevrange(zset, start, start + page - 1, 'WITHSCORES') : await this.redis.zrange(zset, start, start + page - 1, 'WITHSCORES');
+    const zset = p[index];
+    const reverse = index === 'closed';
+    const out: Listed[] = [];
+    const batch = 200;
+    let position = from;
+    while (out.length < want) {
+      // Each batch continues after the last entry read, whatever changed in the index meanwhile.
+      const flat = (
+        position === undefined
+          ? reverse
+            ? await this.redis.zrevrange(zset, 0, batch - 1, 'WITHSCORES')
+            : await this.redis.zrange(zset, 0, batch - 1, 'WITHSCORES')
+          : await this.redis.eval(RANGE_AFTER, 1, zset, String(position.key), position.id, String(batch), reverse ? '1' : '0')
+      ) as string[];
       if (flat.length === 0) break;
-      const ids: string[] = [];
-      const scores: number[] = [];
-      for (let i = 0; i < flat.length; i += 2) {
-        ids.push(flat[i]!);
-        scores.push(Number(flat[i + 1]));
-      }
-      const records = await this.redis.hmget(p.records, ...ids);
+      const entries: ListPosition[] = [];
+      for (let i = 0; i < flat.length; i += 2) entries.push({ index, id: flat[i]!, key: Number(flat[i + 1]) });
+      const records = await this.redis.hmget(p.records, ...entries.map((e) => e.id));
       records.forEach((raw, i) => {
-        if (raw === null || out.length >= filter.limit) return;
+        if (raw === null || out.length >= want) return;
         const summary = summarize(JSON.parse(raw) as Incident);
-        if (matchesFilter(summary, filter)) out.push({ score: scores[i]!, summary });
+        if (matchesFilter(summary, filter)) out.push({ position: entries[i]!, summary });
       });
-      if (ids.length < page) break;
+      if (entries.length < batch) break;
+      position = entries[entries.length - 1];
     }
     return out;
   }

@@ -446,3 +446,34 @@ if rest > 0 then
 end
 return out
 `;
+
+/**
+ * Reads a sorted set after a position: up to ARGV[3] entries (member, score, …) strictly after (score ARGV[1], member
+ * ARGV[2]) in the set's order (score, then member byte by byte, as Redis orders ties), or in its exact reverse with
+ * ARGV[4] = '1'. The member need not be in the set any more, nor at that score: the entries after the position are
+ * the same either way. Read in one step, so that a change meanwhile cannot shift the start.
+ * KEYS: the sorted set.
+ */
+export const RANGE_AFTER = `
+local key, score, member, count = KEYS[1], tonumber(ARGV[1]), ARGV[2], tonumber(ARGV[3])
+local reverse = ARGV[4] == '1'
+local start
+local own = redis.call('ZSCORE', key, member)
+if own and tonumber(own) == score then
+  start = redis.call(reverse and 'ZREVRANK' or 'ZRANK', key, member) + 1
+else
+  -- Byte order, as the sorted set compares members (Lua's own comparison follows the server's locale).
+  local function less(a, b)
+    for i = 1, math.min(#a, #b) do
+      local x, y = string.byte(a, i), string.byte(b, i)
+      if x ~= y then return x < y end
+    end
+    return #a < #b
+  end
+  if reverse then start = redis.call('ZCOUNT', key, '(' .. ARGV[1], '+inf') else start = redis.call('ZCOUNT', key, '-inf', '(' .. ARGV[1]) end
+  for _, m in ipairs(redis.call('ZRANGEBYSCORE', key, ARGV[1], ARGV[1])) do
+    if (reverse and less(member, m)) or (not reverse and less(m, member)) then start = start + 1 end
+  end
+end
+return redis.call(reverse and 'ZREVRANGE' or 'ZRANGE', key, start, start + count - 1, 'WITHSCORES')
+`;

@@ -111,7 +111,7 @@ describe('GET /v1/events', () => {
 
   it('announces operator actions done through the store', async () => {
     const incident = { id: 'X/y@S1', unit: 'X', component: 'y', severity: 'caution', alarm: 'active', acknowledged: { by: 'R. Tanaka', at: '2026-03-01T09:00:00.000Z' }, shelved: null, closed: null, timeline: [{ kind: 'acknowledged', at: '2026-03-01T09:00:00.000Z', by: 'R. Tanaka' }] } as unknown as Incident;
-    const store = { get: async () => incident, list: async () => [], applyAction: async () => ({ incident }) };
+    const store = { get: async () => incident, list: async () => [], page: async () => ({ incidents: [], next: null, total: 0 }), applyAction: async () => ({ incident }) };
     const heard: LiveEvent[] = [];
     const stop = hub.subscribe((e) => heard.push(e));
     await announcingActions(store, (e) => hub.publish(e)).applyAction({ kind: 'acknowledge', incidentId: 'X/y@S1', by: 'R. Tanaka', now: new Date() });

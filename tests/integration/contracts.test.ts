@@ -215,13 +215,17 @@ describe('real HTTP answers match the OpenAPI document', () => {
     expectValid(responseSchema('/v1/results', 'post', 413), tooLargeBody, 'POST /v1/results 413 payload-too-large');
   });
 
-  it('incidents: list, show, acknowledge, a bad body and an unknown id', async () => {
+  it('incidents: list, show, acknowledge, a bad cursor, a bad body and an unknown id', async () => {
     await incidents.applySteps({ unit: 'PS2-P3', component: 'gearbox' }, [step('C-100')], { group: 'gearboxes', now: NOW, quietBefore: new Date(0) });
     const list = await fetch(`${base}/v1/incidents`, { headers: auth('view-c') });
     expect(list.status).toBe(200);
     const listed = (await list.json()) as { incidents: { id: string }[] };
     expect(listed.incidents).toHaveLength(1);
     expectValid(responseSchema('/v1/incidents', 'get', 200), listed, 'GET /v1/incidents');
+    expect(listed).toMatchObject({ next: null, total: 1 });
+    const paged = await fetch(`${base}/v1/incidents?limit=1&cursor=not-a-cursor`, { headers: auth('view-c') });
+    expect(paged.status).toBe(400);
+    expectValid(responseSchema('/v1/incidents', 'get', 400), await paged.json(), 'GET /v1/incidents 400 (cursor)');
     const id = encodeURIComponent(listed.incidents[0]!.id);
     const show = await fetch(`${base}/v1/incidents/${id}`, { headers: auth('view-c') });
     expectValid(responseSchema('/v1/incidents/{id}', 'get', 200), await show.json(), 'GET /v1/incidents/{id}');
