@@ -4,9 +4,10 @@
  */
 import { InputError } from '../domain/errors.ts';
 import { CHANNEL_KINDS, type ChannelKind, type Channels } from '../domain/escalationConfig.ts';
-import type { ChannelDefinition } from './channel.ts';
+import type { ChannelDefinition, ChannelSecret } from './channel.ts';
 import { emailChannel } from './email/emailChannel.ts';
 import { mqttChannel } from './mqtt/mqttChannel.ts';
+import { ackLinkSecretRefs } from './secrets.ts';
 import { webhookChannel } from './webhook/webhookChannel.ts';
 
 export const CHANNELS = {
@@ -26,17 +27,19 @@ export function channelSecretRefs(channels: Channels): string[] {
  * acknowledgement-link secret too short. Empty when every secret will do.
  */
 export function channelSecretProblems(channels: Channels, env: NodeJS.ProcessEnv): string[] {
-  return configuredChannels(channels).flatMap((kind) =>
-    CHANNELS[kind].secretRefs(channels).flatMap(({ ref, usedBy, problem }) => {
-      const literal = ref.startsWith('whsec_');
-      const value = literal ? ref : env[ref];
-      const source = literal ? 'the literal secret' : `environment variable ${ref}`;
-      if (value === undefined) return [`${usedBy}: ${source} is not set`];
-      if (value === '') return [`${usedBy}: ${source} is empty`];
-      const reason = problem?.(value);
-      return reason === undefined ? [] : [`${usedBy}: ${source}: ${reason}`];
-    }),
-  );
+  return configuredChannels(channels).flatMap((kind) => secretProblems(CHANNELS[kind].secretRefs(channels), env));
+}
+
+function secretProblems(secrets: readonly ChannelSecret[], env: NodeJS.ProcessEnv): string[] {
+  return secrets.flatMap(({ ref, usedBy, problem }) => {
+    const literal = ref.startsWith('whsec_');
+    const value = literal ? ref : env[ref];
+    const source = literal ? 'the literal secret' : `environment variable ${ref}`;
+    if (value === undefined) return [`${usedBy}: ${source} is not set`];
+    if (value === '') return [`${usedBy}: ${source} is empty`];
+    const reason = problem?.(value);
+    return reason === undefined ? [] : [`${usedBy}: ${source}: ${reason}`];
+  });
 }
 
 /**
@@ -46,6 +49,17 @@ export function channelSecretProblems(channels: Channels, env: NodeJS.ProcessEnv
 export function checkChannelSecrets(channels: Channels, env: NodeJS.ProcessEnv): void {
   const problems = channelSecretProblems(channels, env);
   if (problems.length > 0) throw new InputError(`notification channels: secrets missing or unusable\n${problems.map((p) => `  ${p}`).join('\n')}`);
+}
+
+/**
+ * Refuses to go on while the acknowledgement-link secret is missing or unusable: the HTTP API serves the pages behind
+ * the e-mailed links whenever `channels.ackLinks` is configured, and could not check a single link without it.
+ */
+export function checkAckLinkSecret(channels: Channels, env: NodeJS.ProcessEnv): void {
+  const problems = secretProblems(ackLinkSecretRefs(channels), env);
+  if (problems.length > 0) {
+    throw new InputError(`acknowledgement links: the secret is missing or unusable (the API serves the acknowledgement pages while channels.ackLinks is configured)\n${problems.map((p) => `  ${p}`).join('\n')}`);
+  }
 }
 
 /** The kinds the configuration names targets for; without any, no notify worker is started. */

@@ -5,7 +5,7 @@
  * previews follow links, so a GET must never acknowledge. `POST /ack/<token>` from that form acknowledges.
  */
 import type { FastifyPluginAsync, FastifyReply, FastifyRequest } from 'fastify';
-import { verifyAckLink, type AckLinkClaims } from '../notify/ackLink.ts';
+import { ACK_SECRET_MIN_LENGTH, verifyAckLink, type AckLinkClaims } from '../notify/ackLink.ts';
 import { ACK_NAME_MAX, ACK_NOTE_MAX, renderAckPage, type AckIncidentSummary, type AckPageView } from '../notify/ackPage.ts';
 import { oneLine } from '../domain/safeText.ts';
 
@@ -36,6 +36,9 @@ const PAGE_HEADERS = {
 
 export const ackLinkRoutes: FastifyPluginAsync<AckLinkRoutesOptions> = async (app, options) => {
   if (options.secrets.length === 0) throw new TypeError('ackLinkRoutes: at least one secret is needed');
+  // Refused when the server is built, not by every link followed: a secret the links cannot be checked with would
+  // otherwise fail each request.
+  if (options.secrets.some((s) => s.length < ACK_SECRET_MIN_LENGTH)) throw new TypeError(`ackLinkRoutes: every secret must be at least ${ACK_SECRET_MIN_LENGTH} characters long`);
   const now = options.now ?? (() => new Date());
 
   if (!app.hasContentTypeParser(FORM)) {

@@ -99,6 +99,9 @@ export function clientError(error: FastifyError, request: FastifyRequest, option
 /** The answer to a path no route serves. */
 export function notFound(request: FastifyRequest): ErrorBody {
   const path = pathOf(request);
+  // The pages are registered for every /ack/… path whenever they are served: here they are not. The token is a
+  // credential and is not echoed.
+  if (path.startsWith('/ack/')) return { error: 'not-found', message: `no route for ${request.method} /ack/…: this server serves no acknowledgement pages (wearshift api and serve do, while channels.ackLinks is configured)` };
   // An incident id holds "/": sent as it is, it splits into segments no route knows.
   const hint = /^\/v1\/incidents\/[^/]+\/./.test(path) ? '; an incident id holds "/" and must be percent-encoded in the path (%2F)' : '';
   return { error: 'not-found', message: `no route for ${request.method} ${path}${hint}` };

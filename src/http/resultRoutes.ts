@@ -3,8 +3,10 @@
  * (application/x-ndjson). Every record gets an outcome; valid records are enqueued even when others in the
  * same request are rejected. 202 when at least one record was accepted, 422 when none was (same body);
  * 413 above the body limit or above `maxRecords` records (the message names the limit; nothing was accepted);
- * 503 with Retry-After when the queue cannot take the records (then none was accepted) or does not answer within the
- * command timeout (then some may yet arrive: sending them again is harmless). The reply stays small whatever is sent:
+ * 503 with Retry-After when the queue cannot take the records or does not answer within the command timeout: the
+ * producer writes a batch in parts, so the parts before the failure are on the queue and, after a timeout, the part at
+ * hand may yet arrive; sending the whole request again is harmless, a result sent twice is stored once (see
+ * `WRITE_PART_RECORDS` in src/queue/producer.ts). The reply stays small whatever is sent:
  * the first `detailedRejections` rejected records list up to `ISSUES_PER_DETAILED_RECORD` problems each, later ones their
  * first `ISSUES_PER_RECORD`, and `moreErrors` counts the rest (a record's problems are bounded too: see parseResultEvent).
  */

@@ -17,6 +17,25 @@ export type AckLinkVerdict = { ok: true; claims: AckLinkClaims } | { ok: false; 
 /** Shorter secrets are guessable offline from one captured link. */
 export const ACK_SECRET_MIN_LENGTH = 16;
 
+/**
+ * The secrets an environment variable holds: several, comma-separated, during a rotation (links are signed with the
+ * first, accepted with any); blanks around them and empty entries are dropped.
+ */
+export function ackLinkSecrets(value: string | undefined): string[] {
+  return (value ?? '').split(',').map((x) => x.trim()).filter((x) => x !== '');
+}
+
+/**
+ * Why the value of the secret's variable will not do, or undefined when it will: every secret of a rotation must be
+ * long enough, and the first (the one links are signed with) must be there.
+ */
+export function ackSecretsProblem(value: string): string | undefined {
+  const secrets = value.split(',').map((x) => x.trim());
+  if (secrets[0] === '') return 'the first secret (the one links are signed with) is empty';
+  const short = secrets.filter((x) => x !== '' && x.length < ACK_SECRET_MIN_LENGTH).length;
+  return short === 0 ? undefined : `${short === 1 ? 'a secret' : `${short} secrets`} shorter than ${ACK_SECRET_MIN_LENGTH} characters (shorter ones can be guessed from one captured link)`;
+}
+
 /** Token version: a new format gets a new version so that old links are refused as malformed, not misread. */
 const VERSION = 1;
 const MAC_BYTES = 32;

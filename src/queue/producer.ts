@@ -32,7 +32,9 @@ export interface ResultProducer {
    * Validates and enqueues one result event or an array of them. Resolves with one outcome per record, in
    * order: `accepted` records are on the queue; `rejected` ones carry `errors: [{ path, reason }]` and were
    * not enqueued. Rejects only when Redis cannot take the accepted records or does not answer within the command
-   * timeout (then none of them was enqueued, or, after a timeout, the jobs may yet arrive: adding again is harmless).
+   * timeout; a large batch is written in parts (`WRITE_PART_RECORDS`), so some of its records may be on the queue by
+   * then, and after a timeout the part at hand may yet arrive: adding the batch again is harmless, a result enqueued
+   * twice is stored once.
    */
   add(events: unknown): Promise<RecordOutcome[]>;
   /**
@@ -52,6 +54,34 @@ export interface ResultProducer {
   enqueueHistory(records: readonly ValidatedRecord[], perJob?: number): Promise<RecordOutcome[]>;
   /** Closes the queue, and the connection when the producer opened it. */
   close(): Promise<void>;
+}
+
+/**
+ * Most results written to Redis by one command (a part's bulk add, one transaction per partition): a batch of any size
+ * (5 000 records in one HTTP request, a whole file from `enqueue`) is written in parts of at most this many, one after
+ * the other. Each command then costs what a small request costs, far within the command timeout of a request
+ * connection (`REQUEST_COMMAND_TIMEOUT_MS`, 2 s) however large the batch, and a timeout still means a Redis that does
+ * not answer, not a batch that is merely long. A history job holds more results and is written by itself.
+ */
+export const WRITE_PART_RECORDS = 250;
+
+/** Consecutive parts of `items` holding at most `WRITE_PART_RECORDS` results each; an item over that is a part of its own. */
+function writeParts<T>(items: readonly T[], results: (item: T) => number): T[][] {
+  const parts: T[][] = [];
+  let part: T[] = [];
+  let size = 0;
+  for (const item of items) {
+    const n = results(item);
+    if (part.length > 0 && size + n > WRITE_PART_RECORDS) {
+      parts.push(part);
+      part = [];
+      size = 0;
+    }
+    part.push(item);
+    size += n;
+  }
+  if (part.length > 0) parts.push(part);
+  return parts;
 }
 
 /**
@@ -92,22 +122,27 @@ export function createResultProducer(options: ResultProducerOptions): ResultProd
     await queues[0]!.waitUntilReady();
     const conflicts = await revisionConflicts(redis, partitions, records);
     const accepted = records.filter((r) => !conflicts.has(r.index));
+    // Written part by part, one after the other, so that no Redis command grows with the batch (see WRITE_PART_RECORDS).
+    // When a part fails, the parts before it stay on the queue: the caller sends the batch again, and a result that
+    // arrives twice is stored once.
     if (perJob !== undefined) {
       // History jobs, in the order given, whatever the partitions: one queue for all of them. A completed history job
       // is removed at once: its data is the whole batch of results, stored by then.
       const jobs: Array<{ name: string; data: HistoryJobData; opts: { removeOnComplete: true } }> = [];
       for (let i = 0; i < accepted.length; i += perJob) jobs.push({ name: HISTORY_JOB, data: { records: accepted.slice(i, i + perJob).map((r) => r.event) }, opts: { removeOnComplete: true } });
-      await historyQueue.addBulk(jobs);
+      for (const part of writeParts(jobs, (job) => job.data.records.length)) await historyQueue.addBulk(part);
     } else {
-      // Each result goes to its component's partition (one bulk add per partition).
-      const byPartition = new Map<number, ValidatedRecord[]>();
-      for (const r of accepted) {
-        const p = partitions.of(r.sample);
-        const list = byPartition.get(p);
-        if (list === undefined) byPartition.set(p, [r]);
-        else list.push(r);
+      for (const part of writeParts(accepted, () => 1)) {
+        // Each result goes to its component's partition (one bulk add per partition).
+        const byPartition = new Map<number, ValidatedRecord[]>();
+        for (const r of part) {
+          const p = partitions.of(r.sample);
+          const list = byPartition.get(p);
+          if (list === undefined) byPartition.set(p, [r]);
+          else list.push(r);
+        }
+        await Promise.all([...byPartition].map(([p, list]) => queues[p]!.addBulk(list.map((r) => ({ name: 'result', data: r.event })))));
       }
-      await Promise.all([...byPartition].map(([p, list]) => queues[p]!.addBulk(list.map((r) => ({ name: 'result', data: r.event })))));
     }
     const issues = new Map<number, RecordOutcome>();
     for (const [index, issue] of conflicts) {

@@ -114,12 +114,33 @@ export async function connectForCommand(target: string | RedisTarget): Promise<R
     redis.disconnect();
     throw new InputError(`cannot reach Redis at ${maskUrl(t.url)} (REDIS_URL or redis.url): ${(e as Error).message}`);
   }
-  const refused = await databaseRefused(redis);
-  if (refused !== undefined) {
+  const refusal = await databaseRefusal(redis, t);
+  if (refusal !== undefined) {
     redis.disconnect();
-    throw new InputError(`Redis at ${maskUrl(t.url)} (REDIS_URL or redis.url) has no database ${redis.options.db}: ${refused}`);
+    throw refusal;
   }
   return redis;
+}
+
+/**
+ * `databaseRefused` as the error a command or a service ends with: which Redis, where its URL came from, the database
+ * and the server's reason. Undefined when the database can be used.
+ */
+export async function databaseRefusal(redis: RedisConnection, target: RedisTarget): Promise<InputError | undefined> {
+  const refused = await databaseRefused(redis);
+  if (refused === undefined || redis instanceof Cluster) return undefined;
+  return new InputError(`Redis at ${describeTarget(target)} (REDIS_URL or redis.url) has no database ${redis.options.db}: ${refused}`);
+}
+
+/**
+ * Waits until the connection is first ready, then `databaseRefusal`. A service awaits it before anything uses Redis: a
+ * database the server does not have would otherwise send every command to database 0. While Redis cannot be reached,
+ * this waits for it, as the workers would; a connection whose URL names no database (or a cluster's) resolves at once.
+ */
+export async function databaseRefusalOnceReady(redis: RedisConnection, target: RedisTarget): Promise<InputError | undefined> {
+  if (redis instanceof Cluster || (redis.options.db ?? 0) === 0) return undefined;
+  if (redis.status !== 'ready') await new Promise((resolve) => redis.once('ready', resolve));
+  return databaseRefusal(redis, target);
 }
 
 /**

@@ -24,18 +24,28 @@ function sameAsStored(value: string, common: string | undefined, sample: Sample,
   return common !== undefined && body === composeStoredSample(encodeSampleCore(sample), sample.group, sample.lab, common);
 }
 
+/**
+ * Revisions read at once: a large batch is read in parts, one after the other, so that the last answer of a part never
+ * waits behind thousands of others (each read has a request connection's command timeout).
+ */
+export const READ_PART_RECORDS = 500;
+
 /** The index of every conflicting record with its issue. */
 export async function revisionConflicts(redis: RedisConnection, partitions: Partitions, records: readonly ValidatedRecord[]): Promise<Map<number, FieldIssue>> {
   const conflicts = new Map<number, FieldIssue>();
   if (records.length === 0) return conflicts;
   const encoded = records.map((r) => encodeSample(r.sample));
-  const stored = await Promise.all(
-    records.map(async (r, i) => {
-      const tag = partitions.tag(partitions.of(r.sample));
-      const [value, common] = await redis.hmget(componentKeys(tag, r.sample).revisions, `${r.sample.sampleId}\u001f${r.sample.revision}`, COMMON_FIELD);
-      return value === null || value === undefined ? null : sameAsStored(value, common ?? undefined, r.sample, encoded[i]!);
-    }),
-  );
+  const stored: (boolean | null)[] = [];
+  for (let start = 0; start < records.length; start += READ_PART_RECORDS) {
+    const part = await Promise.all(
+      records.slice(start, start + READ_PART_RECORDS).map(async (r, j) => {
+        const tag = partitions.tag(partitions.of(r.sample));
+        const [value, common] = await redis.hmget(componentKeys(tag, r.sample).revisions, `${r.sample.sampleId}\u001f${r.sample.revision}`, COMMON_FIELD);
+        return value === null || value === undefined ? null : sameAsStored(value, common ?? undefined, r.sample, encoded[start + j]!);
+      }),
+    );
+    stored.push(...part);
+  }
   const seen = new Map<string, string>();
   records.forEach((r, i) => {
     const { sample } = r;

@@ -12,11 +12,12 @@ import { incidentRules } from '../incidents/policy.ts';
 import { createResultProducer } from '../queue/producer.ts';
 import { redisDisabledEndpoints } from '../redis/disabledEndpoints.ts';
 import { notificationChannels } from '../channels/openChannels.ts';
-import { checkChannelSecrets, configuredChannels } from '../channels/registry.ts';
+import { checkAckLinkSecret, checkChannelSecrets, configuredChannels } from '../channels/registry.ts';
 import { openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings } from '../queue/queues.ts';
 import { Partitions } from '../redis/keys.ts';
 import { openApiDocument } from '../contracts/openapi.ts';
 import { accessTokensFromEnv } from './accessTokensFromEnv.ts';
+import { ackLinkSecrets as ackLinkSecretsOf } from '../notify/ackLink.ts';
 import { SampleVerdicts } from '../queue/sampleVerdicts.ts';
 import { startWorkers, type WorkerSettings } from '../queue/workers.ts';
 import { RedisIncidents } from '../redis/redisIncidents.ts';
@@ -27,7 +28,7 @@ import { createMetrics } from '../telemetry/metrics.ts';
 import { tierZeroResponders } from '../incidents/responders.ts';
 import { readRecentIncidents } from '../redis/recentIncidents.ts';
 import { registerAlarmGauges } from './alarmGauges.ts';
-import { checkEvictionPolicy, connectRedis, databaseRefused, describeTarget, redisTarget, type RedisConnection } from '../redis/connection.ts';
+import { checkEvictionPolicy, connectRedis, databaseRefusalOnceReady, describeTarget, redisTarget, type RedisConnection } from '../redis/connection.ts';
 import { closeAll, DEFAULT_SHUTDOWN_TIMEOUT_MS, type Closer } from './shutdown.ts';
 
 export interface ServiceOptions {
@@ -78,6 +79,8 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
   const port = options.port ?? DEFAULT_PORT;
   // A worker whose channels lack a usable secret does not start: found now, not by the first alarm.
   if (options.workers) checkChannelSecrets(config.channels, env);
+  // Nor does an API that would serve the acknowledgement pages without a secret to check the links with.
+  if (options.http) checkAckLinkSecret(config.channels, env);
   const stopWorkers: Closer[] = [];
   const stopHttp: Closer[] = [];
   const connections: RedisConnection[] = [];
@@ -97,12 +100,11 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
   // Requests fail fast while Redis is away; workers wait for it.
   const request = connectRedis(target, 'request', logger);
   connections.push(request);
-  request.once('ready', () => {
-    void checkEvictionPolicy(request, logger);
-    void databaseRefused(request).then((refused) => {
-      if (refused !== undefined) logger.error({ redis: describeTarget(target), err: refused }, 'the Redis database the URL names cannot be selected: fix REDIS_URL (commands would go to database 0)');
-    });
-  });
+  request.once('ready', () => void checkEvictionPolicy(request, logger));
+  // A database the server does not have ends the start here, before a worker takes a job or the API listens: every
+  // command would otherwise go to database 0.
+  const refusal = await databaseRefusalOnceReady(request, target);
+  if (refusal !== undefined) throw refusal;
   const metrics = createMetrics();
   const queueSettings = resolveQueueSettings({ ...options.workerSettings, prefix });
   const partitions = new Partitions(prefix, partitionCount);
@@ -168,8 +170,10 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
       const subscriber = connectRedis(target, 'worker', logger);
       connections.push(subscriber);
       subscriber.once('ready', () => void bridgeLiveEvents(subscriber, prefix, hub, logger).catch((e: Error) => logger.warn({ err: e.message }, 'live events unavailable')));
+      // Checked above: with channels.ackLinks configured there is at least one, and every one is long enough.
       const ackSecretEnv = config.channels.ackLinks?.secretEnv;
-      const ackLinkSecrets = ackSecretEnv === undefined ? [] : (env[ackSecretEnv] ?? '').split(',').map((x) => x.trim()).filter((x) => x !== '');
+      const ackLinkSecrets = ackSecretEnv === undefined ? [] : ackLinkSecretsOf(env[ackSecretEnv]);
+      if (ackSecretEnv === undefined) logger.info('acknowledgement pages not served: channels.ackLinks is not configured, so no e-mail carries an acknowledgement link');
       const httpStore = new RedisStore(request, { prefix, partitions: partitionCount, config });
       const incidents = new RedisIncidents(request, { rules: incidentRules(config), prefix, partitions: partitionCount });
       server = await buildServer({

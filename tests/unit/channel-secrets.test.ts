@@ -6,7 +6,7 @@
 import { randomBytes } from 'node:crypto';
 import { describe, expect, it } from 'vitest';
 import { notificationChannels } from '../../src/channels/openChannels.ts';
-import { channelSecretProblems, channelSecretRefs } from '../../src/channels/registry.ts';
+import { channelSecretProblems, channelSecretRefs, checkAckLinkSecret } from '../../src/channels/registry.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import { InputError } from '../../src/domain/errors.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
@@ -80,6 +80,31 @@ channels:
     // No e-mail channel: the link secret is the API's business, not the worker's.
     expect(channelSecretProblems(webhookOnly.channels, { CONTROL_ROOM_SECRET: GOOD.CONTROL_ROOM_SECRET })).toEqual([]);
     expect(channelSecretRefs(webhookOnly.channels)).toEqual(['CONTROL_ROOM_SECRET']);
+  });
+});
+
+describe('the acknowledgement-link secret, checked when the API starts', () => {
+  it('is needed whenever channels.ackLinks is configured, with or without an e-mail channel', () => {
+    const linksOnly = parseConfig(`
+channels:
+  ackLinks: { baseUrl: "https://wearshift.plant.example", secretEnv: ACK_LINK_SECRET }
+`);
+    const refused = (env: NodeJS.ProcessEnv) => {
+      try {
+        checkAckLinkSecret(linksOnly.channels, env);
+      } catch (e) {
+        expect(e).toBeInstanceOf(InputError);
+        return (e as Error).message.split('\n');
+      }
+      return [];
+    };
+    const header = 'acknowledgement links: the secret is missing or unusable (the API serves the acknowledgement pages while channels.ackLinks is configured)';
+    expect(refused({})).toEqual([header, '  channels.ackLinks (the link-signing secret): environment variable ACK_LINK_SECRET is not set']);
+    expect(refused({ ACK_LINK_SECRET: `,${GOOD.ACK_LINK_SECRET}` })).toEqual([header, '  channels.ackLinks (the link-signing secret): environment variable ACK_LINK_SECRET: the first secret (the one links are signed with) is empty']);
+    expect(refused({ ACK_LINK_SECRET: GOOD.ACK_LINK_SECRET })).toEqual([]);
+    expect(refused({ ACK_LINK_SECRET: `${GOOD.ACK_LINK_SECRET}, ${GOOD.ACK_LINK_SECRET.toUpperCase()}` })).toEqual([]);
+    // Without channels.ackLinks the API serves no pages and needs no secret.
+    expect(() => checkAckLinkSecret(parseConfig('').channels, {})).not.toThrow();
   });
 });
 

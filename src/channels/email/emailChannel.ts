@@ -1,11 +1,11 @@
 /** The e-mail channel: renders the incident message (with its chart and acknowledgement link) and sends it by SMTP. */
-import { ACK_SECRET_MIN_LENGTH, ackLinkUrl, signAckLink } from '../../notify/ackLink.ts';
+import { ackLinkUrl, signAckLink } from '../../notify/ackLink.ts';
 import { asksForAcknowledgement } from '../../notify/message.ts';
 import { renderFloodSummaryEmail } from './floodSummaryEmail.ts';
 import type { Channels } from '../../domain/escalationConfig.ts';
 import type { ChannelDefinition } from '../channel.ts';
 import { DeliveryRefused, DeliveryRetry } from '../errors.ts';
-import { secretFrom } from '../secrets.ts';
+import { ackLinkSecretRefs, secretFrom } from '../secrets.ts';
 import { renderIncidentEmail } from './emailRender.ts';
 import { EmailDeliveryError, sendEmail } from './emailSend.ts';
 
@@ -20,19 +20,11 @@ function smtpTransport(smtp: Smtp, env: NodeJS.ProcessEnv) {
   };
 }
 
-/** The variable may list several secrets during a rotation (comma-separated): each must be long enough. */
-function ackSecretsProblem(value: string): string | undefined {
-  const secrets = value.split(',').map((x) => x.trim());
-  if (secrets[0] === '') return 'the first secret (the one links are signed with) is empty';
-  const short = secrets.filter((x) => x !== '' && x.length < ACK_SECRET_MIN_LENGTH).length;
-  return short === 0 ? undefined : `${short === 1 ? 'a secret' : `${short} secrets`} shorter than ${ACK_SECRET_MIN_LENGTH} characters (shorter ones can be guessed from one captured link)`;
-}
-
 export const emailChannel: ChannelDefinition = {
   secretRefs: (channels) => [
     ...(channels.email?.smtp.passwordEnv === undefined ? [] : [{ ref: channels.email.smtp.passwordEnv, usedBy: 'channels.email.smtp (the SMTP password)' }]),
     // The acknowledgement links in e-mails are signed with it.
-    ...(channels.email === undefined || channels.ackLinks === undefined ? [] : [{ ref: channels.ackLinks.secretEnv, usedBy: 'channels.ackLinks (the link-signing secret)', problem: ackSecretsProblem }]),
+    ...(channels.email === undefined ? [] : ackLinkSecretRefs(channels)),
   ],
   configured: (channels) => channels.email !== undefined,
   open(channels, { env, timeZone }) {
