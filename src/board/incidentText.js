@@ -49,13 +49,34 @@ export function measurandsOf(incident) {
   return seen;
 }
 
-/** The incident's timeline and the messages sent about it, in time order (the command line's `incidents show` too). */
+/** The incident's timeline and the messages about it (sent or not), in time order (the command line's `incidents show` too). */
 export function mergedTimeline(incident) {
   const all = [...(incident.timeline ?? []), ...(incident.notifications ?? [])];
   return all
     .map((e, i) => ({ e, i, t: Date.parse(e.at) }))
     .sort((a, b) => a.t - b.t || a.i - b.i)
     .map((x) => x.e);
+}
+
+/** A sample verdict in the timeline (as sampleVerdictText in src/incidents/model.ts). */
+const VERDICT_WORDS = {
+  confirmed: (sampleId, by) => `sample ${sampleId} confirmed by ${by}: genuine, back into the trend`,
+  rejected: (sampleId, by) => `sample ${sampleId} rejected by ${by}: wrong, kept out of the trend`,
+  withdrawn: (sampleId, by) => `verdict on sample ${sampleId} taken back by ${by}: the sampling check judges it again`,
+};
+export function sampleVerdictText(entry) {
+  return (VERDICT_WORDS[entry.verdict] ?? ((sampleId, by) => `sample ${sampleId}: ${entry.verdict} by ${by}`))(entry.sampleId, entry.by);
+}
+
+/** A message event's targets, each one held back marked so, with why (as notifiedTargetsText in src/incidents/model.ts). */
+const WITHDRAWN_WORDS = { acknowledged: 'acknowledged', shelved: 'shelved', closed: 'closed', returned: 'returned to normal' };
+export function notifiedTargetsText(entry) {
+  return entry.targets
+    .map((target) => {
+      const held = (entry.withdrawn ?? []).find((w) => w.target === target);
+      return held === undefined ? target : `${target} (not sent: ${WITHDRAWN_WORDS[held.because] ?? held.because} meanwhile)`;
+    })
+    .join(', ');
 }
 
 export function timelineText(entry) {
@@ -80,9 +101,11 @@ export function timelineText(entry) {
       return `${at}: ${entry.by ? `unshelved by ${entry.by}` : 'shelving ended'}`;
     case 'closed':
       return `${at}: closed (${entry.how})${entry.by ? ` by ${entry.by}` : ''}${entry.note ? ` — ${entry.note}` : ''}`;
+    case 'sample-verdict':
+      return `${at}: ${sampleVerdictText(entry)}`;
     case 'notified': {
       const what = String(entry.type ?? '').replace('wearshift.incident.', '');
-      const who = entry.targets.length > 0 ? `tier ${entry.tier}: ${entry.targets.join(', ')}` : 'nobody (no escalation policy names anyone for it)';
+      const who = entry.targets.length > 0 ? `tier ${entry.tier}: ${notifiedTargetsText(entry)}` : 'nobody (no escalation policy names anyone for it)';
       return `${at}: message "${what}" to ${who} — ${entry.reason}`;
     }
     default:

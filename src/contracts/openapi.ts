@@ -175,7 +175,7 @@ export function openApiDocument(): Json {
       '/v1/units/{unit}/components/{component}/samples/{sampleId}/verdict': {
         post: {
           operationId: 'judgeSample',
-          summary: 'A responder\u2019s word on a sample a sampling finding put in doubt: confirmed (back into the trend), rejected (kept out), or withdrawn; the component is evaluated again from it.',
+          summary: 'A responder\u2019s word on a sample a sampling finding put in doubt: confirmed (back into the trend), rejected (kept out), or withdrawn; the component is evaluated again from it, and who gave the word, and when, shows in the timeline of every incident that holds the sample.',
           tags: ['components'],
           security: [{ bearer: ['responder'] }],
           parameters: [...component, { name: 'sampleId', in: 'path', required: true, schema: { type: 'string' } }],

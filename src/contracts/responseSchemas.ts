@@ -85,8 +85,38 @@ export const IncidentSummarySchema = z
   .loose();
 
 export const IncidentSchema = IncidentSummarySchema.extend({
-  timeline: z.array(z.object({ kind: z.string(), at: isoTime }).loose()).describe('The verdict: findings, returns, operator actions.'),
-  notifications: z.array(z.object({ kind: z.literal('notified'), at: isoTime }).loose()),
+  timeline: z
+    .array(z.object({ kind: z.string(), at: isoTime }).loose())
+    .describe(
+      'The verdict: findings, returns, operator actions, and each word a responder gave on a sample of the incident that a sampling finding put in doubt (kind sample-verdict: sampleId, verdict confirmed, rejected or withdrawn, by, and at, when it was given).',
+    ),
+  notifications: z
+    .array(
+      z
+        .object({
+          kind: z.literal('notified'),
+          at: z.string().describe('RFC 3339 date-time: when the event was queued.'),
+          targets: z.array(z.string()).describe('channel:target of every message queued for the event.'),
+          withdrawn: z
+            .array(
+              z
+                .object({
+                  target: z.string().describe('channel:target, one of targets.'),
+                  tier: z.number().int().min(0),
+                  at: z.string().describe('RFC 3339 date-time: when the message was held back.'),
+                  because: z.enum(['acknowledged', 'shelved', 'closed', 'returned']).describe('What had changed meanwhile.'),
+                  reason: z.string().describe('In full, e.g. "the incident was acknowledged by R. Okafor at …".'),
+                })
+                .loose(),
+            )
+            .optional()
+            .describe(
+              'Messages of targets not sent after all, because the incident had changed by the time each was about to go out: shelved or closed (an announcement or an escalation), acknowledged or returned to normal (an escalation). Absent while none was held back.',
+            ),
+        })
+        .loose(),
+    )
+    .describe('The messages about the incident: one entry per event, with the messages withdrawn before they went out.'),
 }).loose();
 
 const advisory = z.string().describe(`The caution that goes with every finding: "${ADVISORY_CAUTION}"`);

@@ -7,7 +7,8 @@
  * - `rejected`: the sample is wrong (new oil sent by mistake, another unit's bottle); it stays out for good.
  * - `withdrawn`: takes an earlier word back; the sampling rule judges the sample again.
  *
- * The component is evaluated again from that sample on. Answers 202 with the verdict taken, 404 when the component
+ * The component is evaluated again from that sample on, and who gave the word shows in the timeline of every incident
+ * that holds the sample. Answers 202 with the verdict taken, 404 when the component
  * holds no such sample, 409 when nothing questioned the sample (confirmed or rejected only: only a sample in doubt
  * takes a word), 400 naming the field and reason for a bad body.
  */
@@ -19,12 +20,13 @@ import { requireRole, type AccessTokens } from './auth.ts';
 import { ActorNameSchema } from './incidentRoutes.ts';
 
 /**
- * What the route needs: stores the mark and has the component evaluated again (`taken`), or says that the component
- * holds no such sample (`unknown`) or that nothing questioned it (`not-in-doubt`: only a sample a sampling finding put in
- * doubt takes a word; taking a word back always does).
+ * What the route needs: stores the mark, records who gave it (`by`) in the timelines of the incidents concerned and
+ * has the component evaluated again (`taken`), or says that the component holds no such sample (`unknown`) or that
+ * nothing questioned it (`not-in-doubt`: only a sample a sampling finding put in doubt takes a word; taking a word back
+ * always does).
  */
 export interface SampleVerdictTaker {
-  mark(ref: ComponentRef, sampleId: string, mark: SampleMark | null): Promise<'taken' | 'unknown' | 'not-in-doubt'>;
+  mark(ref: ComponentRef, sampleId: string, mark: SampleMark | null, by: string): Promise<'taken' | 'unknown' | 'not-in-doubt'>;
 }
 
 export interface SampleVerdictRoutesOptions {
@@ -58,7 +60,7 @@ export const sampleVerdictRoutes: FastifyPluginAsync<SampleVerdictRoutesOptions>
       }
       const { unit, component, sampleId } = request.params;
       const mark: SampleMark | null = body.data.verdict === 'withdrawn' ? null : body.data.verdict;
-      const outcome = await options.verdicts.mark({ unit, component }, sampleId, mark);
+      const outcome = await options.verdicts.mark({ unit, component }, sampleId, mark, body.data.by);
       if (outcome === 'unknown') return reply.code(404).send({ error: 'not-found', message: `component "${component}" of unit "${unit}" holds no sample "${sampleId}"` });
       if (outcome === 'not-in-doubt') {
         return reply.code(409).send({

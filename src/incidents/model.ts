@@ -94,7 +94,36 @@ export type TimelineEntry =
   | { readonly kind: 'shelved'; readonly at: string; readonly by: string; readonly until: string; readonly reason: string }
   | { readonly kind: 'unshelved'; readonly at: string; readonly by?: string }
   | { readonly kind: 'closed'; readonly at: string; readonly how: ClosedHow; readonly by?: string; readonly note?: string }
-  | { readonly kind: 'note'; readonly at: string; readonly by: string; readonly note: string };
+  | { readonly kind: 'note'; readonly at: string; readonly by: string; readonly note: string }
+  | {
+      /** A responder's word on a sample of this incident that a sampling finding put in doubt (`at`: when it was given). */
+      readonly kind: 'sample-verdict';
+      readonly at: string;
+      readonly sampleId: string;
+      readonly verdict: SampleVerdict;
+      readonly by: string;
+    };
+
+/**
+ * What a responder says of a sample in doubt: `confirmed` (genuine: back into the trend), `rejected` (wrong: kept out
+ * for good) or `withdrawn` (an earlier word taken back: the sampling check judges the sample again).
+ */
+export type SampleVerdict = 'confirmed' | 'rejected' | 'withdrawn';
+
+/** What had changed when a queued message was about to go out (see `withdrawnBecause` in withdrawal.ts). */
+export type WithdrawnBecause = 'acknowledged' | 'shelved' | 'closed' | 'returned';
+
+/** One message of an event that was not sent: by the time it was about to go out, the incident had changed. */
+export interface WithdrawnMessage {
+  /** `channel:target`, one of the entry's `targets`. */
+  readonly target: string;
+  readonly tier: number;
+  /** When the notify worker held it back. */
+  readonly at: string;
+  readonly because: WithdrawnBecause;
+  /** In full, as the worker logs it: "the incident was acknowledged by R. Okafor at …". */
+  readonly reason: string;
+}
 
 /** One message event: who was told what, when. The annunciation's record, kept beside the verdict's timeline. */
 export interface NotifiedEntry {
@@ -104,9 +133,11 @@ export interface NotifiedEntry {
   readonly type: IncidentEventType;
   readonly tier: number;
   readonly eventSeq: number;
-  /** `channel:target` of every message sent; empty when the policy names nobody for this event. */
+  /** `channel:target` of every message queued; empty when the policy names nobody for this event. */
   readonly targets: readonly string[];
   readonly reason: string;
+  /** The messages of `targets` not sent after all, each with why; absent while none was held back. */
+  readonly withdrawn?: readonly WithdrawnMessage[];
 }
 
 /** What the annunciation has passed on of the verdict so far, so that it tells each change once. */
@@ -201,7 +232,8 @@ export type RecordedAction =
   | { readonly kind: 'shelve'; readonly incidentId: string; readonly by: string; readonly at: string; readonly until: string; readonly reason: string }
   | { readonly kind: 'unshelve'; readonly incidentId: string; readonly by?: string; readonly at: string }
   | { readonly kind: 'resolve'; readonly incidentId: string; readonly by: string; readonly at: string; readonly note: string }
-  | { readonly kind: 'note'; readonly incidentId: string; readonly by: string; readonly at: string; readonly note: string };
+  | { readonly kind: 'note'; readonly incidentId: string; readonly by: string; readonly at: string; readonly note: string }
+  | { readonly kind: 'sample-verdict'; readonly incidentId: string; readonly by: string; readonly at: string; readonly sampleId: string; readonly verdict: SampleVerdict };
 
 /** The incident state of one component: its current (or most recently closed) incident per key. */
 export interface ComponentIncidents {
@@ -308,6 +340,32 @@ export function describeState(incident: Pick<Incident, 'alarm' | 'acknowledged' 
   const parts = [incident.alarm === 'active' ? 'active' : 'returned to normal', incident.acknowledged ? 'acknowledged' : 'unacknowledged'];
   if (incident.shelved !== null) parts.push(`shelved until ${time(incident.shelved.until)}`);
   return parts.join(', ');
+}
+
+const VERDICT_WORDS: Record<SampleVerdict, (sampleId: string, by: string) => string> = {
+  confirmed: (sampleId, by) => `sample ${sampleId} confirmed by ${by}: genuine, back into the trend`,
+  rejected: (sampleId, by) => `sample ${sampleId} rejected by ${by}: wrong, kept out of the trend`,
+  withdrawn: (sampleId, by) => `verdict on sample ${sampleId} taken back by ${by}: the sampling check judges it again`,
+};
+
+/** A sample verdict in the timeline, for people: who said what of which sample (the board carries a copy). */
+export function sampleVerdictText(entry: Pick<Extract<TimelineEntry, { kind: 'sample-verdict' }>, 'sampleId' | 'verdict' | 'by'>): string {
+  return VERDICT_WORDS[entry.verdict](entry.sampleId, entry.by);
+}
+
+const WITHDRAWN_WORDS: Record<WithdrawnBecause, string> = { acknowledged: 'acknowledged', shelved: 'shelved', closed: 'closed', returned: 'returned to normal' };
+
+/**
+ * A message event's targets for people, each one held back marked so, with why: "webhook:duty-manager (not sent:
+ * acknowledged meanwhile)". The board carries a copy.
+ */
+export function notifiedTargetsText(entry: Pick<NotifiedEntry, 'targets' | 'withdrawn'>): string {
+  return entry.targets
+    .map((target) => {
+      const held = entry.withdrawn?.find((w) => w.target === target);
+      return held === undefined ? target : `${target} (not sent: ${WITHDRAWN_WORDS[held.because]} meanwhile)`;
+    })
+    .join(', ');
 }
 
 export function findIncident(state: ComponentIncidents, incidentId: string): Incident | undefined {

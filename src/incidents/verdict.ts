@@ -14,7 +14,7 @@ import { findingKey, incidentKindOf, maxSeverity, type Finding, type IncidentKin
 import type { Measurand } from '../domain/measurands.ts';
 import type { DraftIncident, DraftState } from './draft.ts';
 import { IncidentConflictError, IncidentNotFoundError } from './errors.ts';
-import type { Closure, RecordedAction, StepPosition } from './model.ts';
+import type { Closure, RecordedAction, StepPosition, TimelineEntry } from './model.ts';
 import type { IncidentRules } from './policy.ts';
 import type { ComponentForecast, LimitForecast } from '../analysis/forecast/model.ts';
 import { compareOrder } from '../analysis/fold/analysisFold.ts';
@@ -270,7 +270,8 @@ const HOUR = 3_600_000;
  * history again) skips what no longer applies instead of failing: the action stays in the log all the same.
  */
 export function judgeAction(draft: DraftState, action: RecordedAction, rules: IncidentRules, replaying = false): DraftIncident | undefined {
-  const inc = target(draft, action.incidentId, replaying);
+  // A sample verdict belongs to the incidents that hold the sample, never to another incident of the same key.
+  const inc = target(draft, action.incidentId, replaying && action.kind !== 'sample-verdict');
   if (inc === undefined) {
     if (replaying) return undefined;
     throw new IncidentNotFoundError(action.incidentId);
@@ -336,8 +337,19 @@ export function judgeAction(draft: DraftState, action: RecordedAction, rules: In
       push(inc, { kind: 'note', at, by: action.by, note: action.note });
       break;
     }
+    case 'sample-verdict': {
+      // The same word from the same person again (a retried request) changes nothing.
+      if (!sameVerdictAsLast(inc, action)) push(inc, { kind: 'sample-verdict', at, sampleId: action.sampleId, verdict: action.verdict, by: action.by });
+      break;
+    }
   }
   return inc;
+}
+
+/** Whether the incident's latest word on the sample is this one, from the same person. */
+export function sameVerdictAsLast(inc: { readonly timeline: readonly TimelineEntry[] }, word: { readonly sampleId: string; readonly verdict: string; readonly by: string }): boolean {
+  const last = [...inc.timeline].reverse().find((e) => e.kind === 'sample-verdict' && e.sampleId === word.sampleId);
+  return last?.kind === 'sample-verdict' && last.verdict === word.verdict && last.by === word.by;
 }
 
 /** The incident an action names; in a refold whose ids changed, the open incident of the same key. */

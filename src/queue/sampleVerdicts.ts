@@ -5,13 +5,26 @@
  * already); a sample nothing questioned is corrected by the lab's revision of the result, never by a verdict, so that
  * no responder can take a machine's evidence out of its history. The mark is stored with the component and the
  * component is evaluated again from that sample on, so the findings and incidents follow as if the mark had been
- * there when the sample arrived.
+ * there when the sample arrived. Who said what, and when, goes into the timeline of every incident that holds the
+ * sample (src/incidents/sampleVerdict.ts).
  */
 import type { Queue } from 'bullmq';
 import type { SampleMark } from '../analysis/model.ts';
+import { describeState, type Incident } from '../incidents/model.ts';
+import type { SampleVerdictWord } from '../incidents/sampleVerdict.ts';
+import type { LiveEvent } from '../pipeline/liveEvent.ts';
 import type { ComponentRef, ComponentStore } from '../pipeline/ports.ts';
 import type { Partitions } from '../redis/keys.ts';
 import { scheduleEvaluation } from './queues.ts';
+
+export interface SampleVerdictTimeline {
+  /** The incidents whose timeline takes the word (RedisIncidents). */
+  readonly incidents: { recordSampleVerdict(ref: ComponentRef, word: SampleVerdictWord): Promise<readonly Incident[]> };
+  /** Told of each incident whose timeline changed, for live views. */
+  readonly live?: (event: LiveEvent) => void;
+  /** When the word is given. Default: the system clock. */
+  readonly now?: () => Date;
+}
 
 /** `taken`: stored, the component is evaluated again; `unknown`: no such sample; `not-in-doubt`: nothing questioned it. */
 export type VerdictOutcome = 'taken' | 'unknown' | 'not-in-doubt';
@@ -21,10 +34,14 @@ export class SampleVerdicts {
     private readonly store: Pick<ComponentStore, 'markSample' | 'findings' | 'revisions'>,
     private readonly evaluateQueues: readonly Queue[],
     private readonly partitions: Partitions,
+    private readonly timeline: SampleVerdictTimeline,
   ) {}
 
-  /** Stores the mark and schedules the evaluation, for a sample in doubt. Taking a word back is always allowed. */
-  async mark(ref: ComponentRef, sampleId: string, mark: SampleMark | null): Promise<VerdictOutcome> {
+  /**
+   * Stores the mark, writes who gave it into the timelines of the incidents concerned, and schedules the evaluation,
+   * for a sample in doubt. Taking a word back is always allowed.
+   */
+  async mark(ref: ComponentRef, sampleId: string, mark: SampleMark | null, by: string): Promise<VerdictOutcome> {
     if (mark !== null) {
       const record = (await this.store.findings(ref)).find((r) => r.sampleId === sampleId);
       const inDoubt = record !== undefined && (record.status !== undefined || record.findings.some((f) => f.rule === 'sampling'));
@@ -32,7 +49,16 @@ export class SampleVerdicts {
     }
     const known = await this.store.markSample(ref, sampleId, mark);
     if (!known) return 'unknown';
-    await scheduleEvaluation(this.evaluateQueues[this.partitions.of(ref)]!, ref);
+    // The word is in force once stored: the timeline says so after it (never of a word not taken), and the component
+    // is judged again even when the timeline could not be written.
+    try {
+      const word: SampleVerdictWord = { sampleId, verdict: mark ?? 'withdrawn', by, now: (this.timeline.now ?? (() => new Date()))() };
+      for (const incident of await this.timeline.incidents.recordSampleVerdict(ref, word)) {
+        this.timeline.live?.({ type: 'incident', incidentId: incident.id, unit: incident.unit, component: incident.component, severity: incident.severity, state: describeState(incident), change: 'sample-verdict', at: word.now.toISOString() });
+      }
+    } finally {
+      await scheduleEvaluation(this.evaluateQueues[this.partitions.of(ref)]!, ref);
+    }
     return 'taken';
   }
 }

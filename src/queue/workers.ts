@@ -183,6 +183,7 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
           deliveries: new DeliveryLedger(deps.connection, queueSettings.prefix),
           incidents,
           now,
+          ...(deps.live && { live: deps.live }),
           flood: {
             settings: deps.config.channels.floodControl ?? DEFAULT_FLOOD_CONTROL,
             ledger: new FloodLedger(deps.connection, queueSettings.prefix),

@@ -1,9 +1,12 @@
 /**
- * Which notifications have been delivered, shared by every worker process. BullMQ drops a job id's memory when the
+ * Which notifications have been delivered, or withdrawn, shared by every worker process. BullMQ drops a job id's memory when the
  * completed job is removed (queue option `keepCompleted`); an effect handed to the notify queue again after that
  * (an outbox relay that died between handing over and confirming, a re-run evaluation) would become a new job and
  * a second message. The notify processor asks this ledger first and records a delivery as soon as the channel took
  * it, so only a message in flight when its worker died can go out twice (with the same idempotency key).
+ *
+ * A message withdrawn before it went out (its incident changed while it waited, recorded on the incident) is noted
+ * here too, so that no later attempt sends it, whatever the incident says by then.
  */
 import type { RedisConnection } from './connection.ts';
 
@@ -27,8 +30,18 @@ export class DeliveryLedger {
     await this.redis.set(this.key(messageKey), String(at), 'EX', this.keepS);
   }
 
-  private key(messageKey: string): string {
+  /** Why the message with this idempotency key was withdrawn, when it was; undefined otherwise. */
+  async withdrawn(messageKey: string): Promise<string | undefined> {
+    return (await this.redis.get(this.key(messageKey, 'withdrawn'))) ?? undefined;
+  }
+
+  /** Notes that the message with this idempotency key is not to be sent, and why. */
+  async recordWithdrawn(messageKey: string, reason: string): Promise<void> {
+    await this.redis.set(this.key(messageKey, 'withdrawn'), reason, 'EX', this.keepS);
+  }
+
+  private key(messageKey: string, what: 'delivered' | 'withdrawn' = 'delivered'): string {
     // Under the prefix's hash tag, as every key of the program.
-    return `${this.prefix}:delivered:${messageKey}`;
+    return `${this.prefix}:${what}:${messageKey}`;
   }
 }

@@ -12,8 +12,10 @@ import { applySteps } from '../incidents/applySteps.ts';
 import { IncidentConflictError, IncidentNotFoundError } from '../incidents/errors.ts';
 import { matchesFilter, type IncidentFilter } from '../incidents/listFilter.ts';
 import { listIndexes, type IncidentPage, type ListIndex, type ListPosition } from '../incidents/listPage.ts';
-import { emptyComponentIncidents, findIncident, summarize, type ComponentIncidents, type Incident, type IncidentEffect, type IncidentSummary } from '../incidents/model.ts';
+import { emptyComponentIncidents, findIncident, summarize, type ComponentIncidents, type Incident, type IncidentEffect, type IncidentSummary, type NotifyEffect } from '../incidents/model.ts';
 import type { IncidentRules } from '../incidents/policy.ts';
+import { applySampleVerdict, type SampleVerdictWord } from '../incidents/sampleVerdict.ts';
+import { withdrawMessage, type MessageWithdrawal } from '../incidents/withdrawal.ts';
 import { changedIncidents } from './changedIncidents.ts';
 import { compactText, expandText } from './compactText.ts';
 import { componentKeys, partitionKeys, Partitions } from './keys.ts';
@@ -127,6 +129,37 @@ export class RedisIncidents {
     if (ref === undefined) return { effects: [] };
     const r = await this.update(ref, (state) => applyEscalationCheck(state, check, this.rules));
     return { effects: r.effects };
+  }
+
+  /**
+   * A responder's word on a sample in doubt, in the timeline of every incident of the component that holds the sample
+   * (sampleVerdict.ts); returns those incidents as they stand with it. Giving the same word again changes nothing.
+   */
+  async recordSampleVerdict(ref: ComponentRef, word: SampleVerdictWord): Promise<readonly Incident[]> {
+    const result = await this.update(ref, async (state) => applySampleVerdict(state, await this.onRecord(ref), word, this.rules));
+    return result.concerned;
+  }
+
+  /**
+   * Judges a queued message on its incident as it stands (withdrawal.ts) and, when it no longer goes, records it as
+   * withdrawn on the incident, in the same compare-and-set as every other change of the component's incidents.
+   * Undefined when the message goes (or its incident is unknown); a message recorded as withdrawn before is
+   * returned as such (`before`) and not recorded again.
+   */
+  async withdrawMessage(effect: NotifyEffect, now: Date): Promise<MessageWithdrawal | undefined> {
+    const ref = ownerOf(effect.incidentId);
+    if (ref === undefined) return undefined;
+    let outcome: MessageWithdrawal | undefined;
+    await this.update(ref, async (state) => {
+      const key = Object.keys(state.incidents).find((k) => state.incidents[k]!.id === effect.incidentId);
+      // An incident no longer in the state (closed, then replaced or withdrawn) is judged and marked on its record.
+      const incident = key !== undefined ? state.incidents[key]! : await this.get(effect.incidentId);
+      outcome = incident === undefined ? undefined : withdrawMessage(incident, effect, now);
+      if (outcome === undefined || outcome.before) return { state, effects: [] };
+      if (key === undefined) return { state, effects: [], archived: [outcome.incident] };
+      return { state: { ...state, incidents: { ...state.incidents, [key]: outcome.incident } }, effects: [] };
+    });
+    return outcome;
   }
 
   async component(ref: ComponentRef): Promise<ComponentIncidents> {
@@ -288,6 +321,14 @@ export class RedisIncidents {
     return out;
   }
 
+  /** The component's incidents on record, the closed ones no longer in its state among them. */
+  private async onRecord(ref: ComponentRef): Promise<Incident[]> {
+    const { c, p } = this.keysOf(ref);
+    const ids = await this.redis.zrange(c.incidents, 0, -1);
+    if (ids.length === 0) return [];
+    return (await this.redis.hmget(p.records, ...ids)).filter((r): r is string => r !== null).map((r) => JSON.parse(r) as Incident);
+  }
+
   private async read(ref: ComponentRef): Promise<{ version: string; state: ComponentIncidents }> {
     const [version, raw] = await this.redis.hmget(this.keysOf(ref).c.evaluation, 'version', 'incidents');
     return { version: version ?? '0', state: raw === null || raw === undefined ? emptyComponentIncidents(ref.unit, ref.component) : (JSON.parse(expandText(raw)) as ComponentIncidents) };
@@ -295,12 +336,13 @@ export class RedisIncidents {
 
   private async update<R extends { state: ComponentIncidents; effects: readonly IncidentEffect[]; archived?: readonly Incident[] }>(
     ref: ComponentRef,
-    operate: (state: ComponentIncidents) => R,
+    operate: (state: ComponentIncidents) => R | Promise<R>,
   ): Promise<R> {
     const { c, p } = this.keysOf(ref);
     for (let attempt = 1; ; attempt++) {
+      // Whatever `operate` reads besides the state (records) is covered too: every write of them changes the version.
       const { version, state } = await this.read(ref);
-      const result = operate(state);
+      const result = await operate(state);
       const changed = [...changedIncidents(state, result.state), ...(result.archived ?? [])];
       if (changed.length === 0 && result.effects.length === 0 && JSON.stringify(state) === JSON.stringify(result.state)) return result;
       const payload = { state: compactText(JSON.stringify(result.state)), records: incidentRecordRows(changed), outbox: result.effects.map((e) => JSON.stringify(e)) };

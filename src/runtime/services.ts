@@ -186,7 +186,7 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
         producer,
         incidents,
         histories: { store: httpStore, ledger: httpStore, config },
-        sampleVerdicts: new SampleVerdicts(httpStore, evaluateQueues, partitions),
+        sampleVerdicts: new SampleVerdicts(httpStore, evaluateQueues, partitions, { incidents, live: livePublisher(request, prefix, logger) }),
         hub,
         ackLinkSecrets,
         announce: livePublisher(request, prefix, logger),

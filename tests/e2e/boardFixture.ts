@@ -112,10 +112,11 @@ export async function startBoardFixture(components: readonly [string, string][],
       return inputOf({ unit, component, group: settings.group, samples: list.length, lastSampledAt: list.at(-1)!.sampledAt }, settings, list, () => undefined, marksOf(componentKey({ unit, component })));
     },
   });
-  // As the worker does after a verdict: the mark is kept and the component judged again from the start.
+  // As the API and the worker do after a verdict: the mark is kept, who gave it goes into the timelines of the
+  // incidents that hold the sample, and the component is judged again from the start.
   await app.register(sampleVerdictRoutes, { tokens: accessTokensFromEnv(tokenEnv),
     verdicts: {
-      async mark(ref, sampleId, mark) {
+      async mark(ref, sampleId, mark, by) {
         const key = componentKey(ref);
         if (!(samples.get(key) ?? []).some((s) => s.sampleId === sampleId)) return 'unknown';
         const kept = marksOf(key);
@@ -123,6 +124,7 @@ export async function startBoardFixture(components: readonly [string, string][],
         else kept.set(sampleId, mark);
         marks.set(key, kept);
         verdicts.push({ unit: ref.unit, component: ref.component, sampleId, mark });
+        await store.recordSampleVerdict(ref, { sampleId, verdict: mark ?? 'withdrawn', by, now: new Date() });
         await feed(ref.unit, ref.component);
         return 'taken';
       },

@@ -25,14 +25,17 @@ export async function requestWithIncidents(url: string, prefix: string): Promise
   return { request, incidents: new RedisIncidents(request, { rules: incidentRules(ConfigSchema.parse({})), prefix }) };
 }
 
-/** The histories and sample verdicts of `buildServer`, and the evaluate queues to close at the end. */
-export function historyParts(request: RedisConnection, prefix: string) {
+/**
+ * The histories and sample verdicts of `buildServer`, and the evaluate queues to close at the end. The verdicts go into
+ * the timelines of `incidents` (default: the incidents over `request`, built-in rules).
+ */
+export function historyParts(request: RedisConnection, prefix: string, incidents: RedisIncidents = new RedisIncidents(request, { rules: incidentRules(ConfigSchema.parse({})), prefix })) {
   const store = new RedisStore(request, { prefix });
   const partitions = new Partitions(prefix, 1);
   const evaluateQueues: Queue[] = openPartitionedQueues(QUEUE_NAMES.evaluate, request, resolveQueueSettings({ prefix }), partitions);
   return {
     evaluateQueues,
-    server: { histories: { store, ledger: store, config: ConfigSchema.parse({}) }, sampleVerdicts: new SampleVerdicts(store, evaluateQueues, partitions) },
+    server: { histories: { store, ledger: store, config: ConfigSchema.parse({}) }, sampleVerdicts: new SampleVerdicts(store, evaluateQueues, partitions, { incidents }) },
   };
 }
 
@@ -47,7 +50,7 @@ export function serverOptions(parts: {
   readonly producer: ResultProducer;
   readonly incidents: RedisIncidents;
 }) {
-  const { evaluateQueues, server } = historyParts(parts.request, parts.prefix);
+  const { evaluateQueues, server } = historyParts(parts.request, parts.prefix, parts.incidents);
   return {
     evaluateQueues,
     options: {

@@ -3,18 +3,26 @@
  * have been acknowledged, shelved or closed. The worker reads the incident again just before sending: an escalation
  * that nobody needs any more, or anything about a shelved or closed incident, is not sent. The messages are held
  * back from the queue while the incident changes, then handed to a live worker that delivers to a real HTTP
- * receiver.
+ * receiver. A message not sent is recorded on the incident as withdrawn, with why: the API's record and `wearshift
+ * incidents show` say so, and no later attempt of it sends it or records it again.
  */
 import { randomBytes } from 'node:crypto';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { createServer, type Server } from 'node:http';
 import type { AddressInfo } from 'node:net';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { Writable } from 'node:stream';
 import { Queue } from 'bullmq';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import Fastify from 'fastify';
+import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import type { Step } from '../../src/analysis/model.ts';
 import { notificationChannels } from '../../src/channels/openChannels.ts';
+import { main } from '../../src/cli/main.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
-import type { IncidentEffect, NotifyEffect } from '../../src/incidents/model.ts';
+import { incidentRoutes } from '../../src/http/incidentRoutes.ts';
+import type { Incident, IncidentEffect, NotifyEffect } from '../../src/incidents/model.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { effectJobId, relayEffects } from '../../src/queue/outboxRelay.ts';
 import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
@@ -27,19 +35,21 @@ const SECRET = `whsec_${randomBytes(32).toString('base64')}`;
 
 let redis: RedisServer;
 let receiver: Server;
-/** Every delivery the receiver got: which endpoint, which event type, which incident. */
-const received: Array<{ endpoint: string; type: string; incidentId: string }> = [];
+/** Every delivery the receiver got: which endpoint, which event type, which incident, and the message's key. */
+const received: Array<{ endpoint: string; type: string; incidentId: string; key: string }> = [];
 const logLines: Array<Record<string, unknown>> = [];
 let workers: RunningWorkers | undefined;
+let dir: string;
 
 beforeAll(async () => {
   redis = await startRedisServer();
+  dir = mkdtempSync(join(tmpdir(), 'wearshift-withdrawn-'));
   receiver = createServer((req, res) => {
     const chunks: Buffer[] = [];
     req.on('data', (c: Buffer) => chunks.push(c));
     req.on('end', () => {
-      const event = JSON.parse(Buffer.concat(chunks).toString('utf8')) as { type: string; subject: string };
-      received.push({ endpoint: req.url ?? '', type: event.type, incidentId: event.subject });
+      const event = JSON.parse(Buffer.concat(chunks).toString('utf8')) as { id: string; type: string; subject: string };
+      received.push({ endpoint: req.url ?? '', type: event.type, incidentId: event.subject, key: decodeURIComponent(event.id) });
       res.writeHead(204).end();
     });
   });
@@ -51,10 +61,29 @@ afterAll(async () => {
   receiver.closeAllConnections();
   await new Promise<void>((resolve) => receiver.close(() => resolve()));
   await redis?.dispose();
+  if (dir) rmSync(dir, { recursive: true, force: true });
 });
 
 function finding(unit: string, sampleId: string, sampledAt: string): Step['findings'][number] {
   return { unit, component: 'gearbox', group: 'gearboxes', measurand: 'Fe', rule: 'limit', disposition: 'incident', severity: 'alarm', value: 95, threshold: 80, basis: 'reading', sampleId, sampledAt, explanation: 'Fe 95 ppm is above the alarm level of 80 ppm.' };
+}
+
+/** `wearshift incidents show`, run in-process through the real command parser against the private server. */
+async function show(id: string, configFile: string): Promise<{ code: number; out: string }> {
+  let out = '';
+  const o = vi.spyOn(process.stdout, 'write').mockImplementation((s) => ((out += String(s)), true));
+  const e = vi.spyOn(process.stderr, 'write').mockImplementation(() => true);
+  const url = process.env.REDIS_URL;
+  process.env.REDIS_URL = redis.url;
+  try {
+    return { code: await main(['incidents', 'show', id, '--config', configFile]), out };
+  } finally {
+    o.mockRestore();
+    e.mockRestore();
+    if (url === undefined) delete process.env.REDIS_URL;
+    else process.env.REDIS_URL = url;
+    process.exitCode = undefined;
+  }
 }
 
 /** Waits for a notify job to finish; generous, so that a busy machine only makes it slower. */
@@ -171,6 +200,56 @@ channels:
           `${idOf(units.shelved)} wearshift.incident.opened`,
         ].sort(),
       );
+
+      // The record says the same: on each message's entry, the target it was not sent to, what had changed and why.
+      const api = Fastify();
+      await api.register(incidentRoutes, { tokens: accessTokensFromEnv({ WEARSHIFT_TOKEN_VIEWER: 'view-withdrawn' }), store: incidents });
+      const record = async (unit: string): Promise<Incident> => {
+        const res = await api.inject({ method: 'GET', url: `/v1/incidents/${encodeURIComponent(idOf(unit))}`, headers: { authorization: 'Bearer view-withdrawn' } });
+        expect(res.statusCode).toBe(200);
+        return (res.json() as { incident: Incident }).incident;
+      };
+      const entryOf = (incident: Incident, type: string) => incident.notifications.find((n) => n.type === type && n.eventSeq === messages.find((m) => m.incidentId === incident.id && m.type === type)!.eventSeq)!;
+      const acknowledged = await record(units.acknowledged);
+      expect(entryOf(acknowledged, 'wearshift.incident.escalated').withdrawn).toEqual([
+        { target: 'webhook:duty-manager', tier: 1, at: expect.any(String), because: 'acknowledged', reason: expect.stringMatching(/^the incident was acknowledged by R\. Okafor at /) },
+      ]);
+      expect(entryOf(acknowledged, 'wearshift.incident.opened').withdrawn).toBeUndefined();
+      for (const [unit, because] of [[units.shelved, 'shelved'], [units.resolved, 'closed']] as const) {
+        const incident = await record(unit);
+        expect(entryOf(incident, 'wearshift.incident.opened').withdrawn).toEqual([{ target: 'webhook:first-line', tier: 0, at: expect.any(String), because, reason: expect.any(String) }]);
+        expect(entryOf(incident, 'wearshift.incident.escalated').withdrawn).toEqual([{ target: 'webhook:duty-manager', tier: 1, at: expect.any(String), because, reason: expect.any(String) }]);
+      }
+      for (const entry of (await record(units.untouched)).notifications) expect(entry.withdrawn).toBeUndefined();
+
+      // `wearshift incidents show` marks the message not sent, with what changed; the one sent stays as it was.
+      const configFile = join(dir, 'site.yaml');
+      writeFileSync(configFile, `redis:\n  prefix: '${prefix}'\n`);
+      const shown = await show(idOf(units.acknowledged), configFile);
+      expect(shown.code).toBe(0);
+      const lines = shown.out.split('\n');
+      expect(lines.filter((l) => / {2}escalated → webhook:duty-manager \(not sent: acknowledged meanwhile\) \(/.test(l))).toHaveLength(1);
+      expect(lines.filter((l) => / {2}opened → webhook:first-line \(/.test(l))).toHaveLength(1);
+      expect((await show(idOf(units.resolved), configFile)).out).toMatch(/ {2}opened → webhook:first-line \(not sent: closed meanwhile\) \(/);
+
+      // Once recorded, the message stays withdrawn: the shelving is lifted (the incident would let it go now) and
+      // the message is handed to the queue again, as a relay that died before confirming would. It is not sent, and
+      // the record holds its withdrawal once — also when the worker died between recording it on the incident and
+      // noting it in the delivery ledger (the ledger's note gone).
+      await incidents.applyAction({ kind: 'unshelve', incidentId: idOf(units.shelved), by: 'R. Okafor', now: new Date() });
+      const shelvedEscalation = messages.find((m) => m.incidentId === idOf(units.shelved) && m.type === 'wearshift.incident.escalated')!;
+      const withdrawnBefore = entryOf(await record(units.shelved), 'wearshift.incident.escalated').withdrawn;
+      for (const attempt of ['again', 'after-ledger-lost']) {
+        if (attempt === 'after-ledger-lost') expect(await connection.del(`${prefix}:withdrawn:${shelvedEscalation.key}`)).toBe(1);
+        const jobId = `${effectJobId(shelvedEscalation.key)}-${attempt}`;
+        await notify.add(shelvedEscalation.type, shelvedEscalation, { jobId, backoff: { type: 'delivery' } });
+        const again = await finished(notify, jobId);
+        expect(again.state).toBe('completed');
+        expect(String(again.returnvalue)).toMatch(/^webhook duty-manager: not sent, the incident is shelved until /);
+        expect(entryOf(await record(units.shelved), 'wearshift.incident.escalated').withdrawn).toEqual(withdrawnBefore);
+      }
+      expect(received.filter((r) => r.key === shelvedEscalation.key)).toEqual([]);
+      await api.close();
     } finally {
       await workers?.close();
       workers = undefined;

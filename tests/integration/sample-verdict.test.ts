@@ -2,11 +2,19 @@
  * A responder's word on a sample in doubt, end to end on a private redis-server: a bottle of new oil sent in the
  * middle of a charge is held as a sampling finding; `POST …/samples/:sampleId/verdict` with a responder token
  * confirms it, rejects it or takes the word back, and the worker evaluates the component again from that sample.
+ * Who said what of the sample, and when, stays in the incident's timeline: in the API's record and in `wearshift
+ * incidents show`, through every evaluation the words cause.
  */
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import type { AddressInfo } from 'node:net';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import type { Queue } from 'bullmq';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
+import { main } from '../../src/cli/main.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
+import type { Incident } from '../../src/incidents/model.ts';
+import { formatTime } from '../../src/notify/format.ts';
 import { buildServer } from '../../src/http/server.ts';
 import { createResultProducer, type ResultProducer } from '../../src/queue/producer.ts';
 import { openPartitionedQueues, openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
@@ -44,7 +52,12 @@ let queues: Queue[];
 let app: Awaited<ReturnType<typeof buildServer>>;
 let store: RedisStore;
 let base: string;
+let incidents: RedisIncidents;
+let dir: string;
 const saved = { ...process.env };
+/** The clock the words are given by: each one a minute after the last, from a fixed instant. */
+let verdictClock = Date.parse('2026-06-01T09:00:00.000Z');
+const verdictTimes: string[] = [];
 
 function event(i: number, readings: Record<string, number | string>) {
   return {
@@ -69,12 +82,22 @@ beforeAll(async () => {
   queues = [openQueue(QUEUE_NAMES.results, client, settings), ...evaluateQueues];
   producer = createResultProducer({ connection: client, prefix });
   store = new RedisStore(client, { prefix, config });
+  incidents = new RedisIncidents(client, { rules: incidentRules(config), prefix });
+  const now = () => {
+    verdictClock += 60_000;
+    const at = new Date(verdictClock);
+    verdictTimes.push(at.toISOString());
+    return at;
+  };
   app = await buildServer({ tokens: accessTokensFromEnv(tokenEnv),
     logger: silentLogger(),
     metrics: createMetrics({ defaultMetrics: false }),
     ping: () => client.ping(),
-    sampleVerdicts: new SampleVerdicts(store, evaluateQueues, partitions),
+    incidents,
+    sampleVerdicts: new SampleVerdicts(store, evaluateQueues, partitions, { incidents, now }),
   });
+  dir = mkdtempSync(join(tmpdir(), 'wearshift-verdict-'));
+  writeFileSync(join(dir, 'site.yaml'), `redis:\n  prefix: '${prefix}'\n`);
   await app.listen({ port: 0, host: '127.0.0.1' });
   base = `http://127.0.0.1:${(app.server.address() as AddressInfo).port}`;
 });
@@ -86,6 +109,7 @@ afterAll(async () => {
   await workers?.close();
   await Promise.all((queues ?? []).map((q) => q.close()));
   await redis?.dispose();
+  if (dir) rmSync(dir, { recursive: true, force: true });
 });
 
 const post = (sampleId: string, body: unknown, token = RESPONDER) =>
@@ -94,6 +118,33 @@ const post = (sampleId: string, body: unknown, token = RESPONDER) =>
     headers: { authorization: `Bearer ${token}`, 'content-type': 'application/json' },
     body: JSON.stringify(body),
   });
+
+/** The incident as the API answers it. */
+async function record(id: string): Promise<Incident> {
+  const res = await fetch(`${base}/v1/incidents/${encodeURIComponent(id)}`, { headers: { authorization: `Bearer ${VIEWER}` } });
+  expect(res.status).toBe(200);
+  return ((await res.json()) as { incident: Incident }).incident;
+}
+
+const wordsOf = (incident: Incident) => incident.timeline.filter((e) => e.kind === 'sample-verdict');
+
+/** `wearshift incidents show`, run in-process through the real command parser against the private server. */
+async function show(id: string): Promise<{ code: number; out: string }> {
+  let out = '';
+  const o = vi.spyOn(process.stdout, 'write').mockImplementation((s) => ((out += String(s)), true));
+  const e = vi.spyOn(process.stderr, 'write').mockImplementation(() => true);
+  const url = process.env.REDIS_URL;
+  process.env.REDIS_URL = redis.url;
+  try {
+    return { code: await main(['incidents', 'show', id, '--config', join(dir, 'site.yaml')]), out };
+  } finally {
+    o.mockRestore();
+    e.mockRestore();
+    if (url === undefined) delete process.env.REDIS_URL;
+    else process.env.REDIS_URL = url;
+    process.exitCode = undefined;
+  }
+}
 
 async function statusOf(sampleId: string) {
   const records = await store.findings(ref);
@@ -127,10 +178,22 @@ describe('a responder marks a sample in doubt', () => {
     expect(v7.status).toBeUndefined();
     expect((await store.evaluationInput(ref))!.marks.has('V-7')).toBe(false);
 
+    // The incident the bottle opened, before any word: nothing said of the sample yet.
+    const bottleIncident = `${ref.unit}/${ref.component}/sampling@V-6`;
+    expect(wordsOf(await record(bottleIncident))).toEqual([]);
+    // The refused requests above left no word in any timeline.
+    expect(verdictTimes).toEqual([]);
+
     const confirmed = await post('V-6', { verdict: 'confirmed', by: 'shift lead' });
     expect(confirmed.status).toBe(202);
     await drained(queues, 120_000);
     expect((await statusOf('V-6')).status).toBe('confirmed');
+    const firstWord = { kind: 'sample-verdict', sampleId: 'V-6', verdict: 'confirmed', by: 'shift lead', at: verdictTimes[0] };
+    expect(wordsOf(await record(bottleIncident))).toEqual([firstWord]);
+    // The same word again (a request sent twice) is not written twice.
+    expect((await post('V-6', { verdict: 'confirmed', by: 'shift lead' })).status).toBe(202);
+    await drained(queues, 120_000);
+    expect(wordsOf(await record(bottleIncident))).toEqual([firstWord]);
 
     expect((await post('V-6', { verdict: 'withdrawn', by: 'shift lead' })).status).toBe(202);
     await drained(queues, 120_000);
@@ -140,10 +203,40 @@ describe('a responder marks a sample in doubt', () => {
     await drained(queues, 120_000);
     expect((await statusOf('V-6')).status).toBe('rejected');
     // The sampling incident the bottle opened no longer stands: withdrawn, with the sample.
-    const incidents = new RedisIncidents(redis.client(), { rules: incidentRules(config), prefix });
     const all = await incidents.list(IncidentFilterSchema.parse({ state: 'all', unit: ref.unit }));
     const sampling = all.filter((i) => i.id.includes('sampling'));
     expect(sampling.length).toBeGreaterThan(0);
     expect(sampling.filter((i) => i.closed === null)).toEqual([]);
+
+    // Its record says who marked the sample how, and when, in the order the words were given, through the
+    // evaluations each word caused (the withdrawn incident keeps them too).
+    const final = await record(bottleIncident);
+    expect(final.closed).not.toBeNull();
+    expect(wordsOf(final)).toEqual([
+      firstWord,
+      { kind: 'sample-verdict', sampleId: 'V-6', verdict: 'withdrawn', by: 'shift lead', at: verdictTimes[2] },
+      { kind: 'sample-verdict', sampleId: 'V-6', verdict: 'rejected', by: 'lab desk', at: verdictTimes[3] },
+    ]);
+    // The command line shows the same, each word at its time in the site zone.
+    const shown = await show(bottleIncident);
+    expect(shown.code).toBe(0);
+    const timeline = shown.out.split('\n');
+    expect(timeline).toContain(`  ${formatTime(verdictTimes[0]!, 'UTC')}  sample V-6 confirmed by shift lead: genuine, back into the trend`);
+    expect(timeline).toContain(`  ${formatTime(verdictTimes[2]!, 'UTC')}  verdict on sample V-6 taken back by shift lead: the sampling check judges it again`);
+    expect(timeline).toContain(`  ${formatTime(verdictTimes[3]!, 'UTC')}  sample V-6 rejected by lab desk: wrong, kept out of the trend`);
+
+    // Taking the rejection back reaches the withdrawn incident's record, and the evaluation it causes brings the
+    // incident back (the same sample opens it, so the same id) with every word in its timeline.
+    expect((await post('V-6', { verdict: 'withdrawn', by: 'lab desk' })).status).toBe(202);
+    await drained(queues, 120_000);
+    expect((await statusOf('V-6')).status).toBe('in-doubt');
+    const back = await record(bottleIncident);
+    expect(back.closed).toBeNull();
+    expect(wordsOf(back).map((w) => w.kind === 'sample-verdict' && `${w.verdict} by ${w.by} at ${w.at}`)).toEqual([
+      `confirmed by shift lead at ${verdictTimes[0]}`,
+      `withdrawn by shift lead at ${verdictTimes[2]}`,
+      `rejected by lab desk at ${verdictTimes[3]}`,
+      `withdrawn by lab desk at ${verdictTimes[4]}`,
+    ]);
   });
 });

@@ -1,18 +1,23 @@
 /**
- * The board runs in the browser and carries its own copies of the one severity rule, the evidence order and the one
- * time format (src/board/incidentText.js, src/board/format.js). They must read exactly as the server's
- * (src/notify/message.ts, src/notify/format.ts) that e-mails, pages and the command line use, for every severity
- * pair and for instants across zones with and without summer time.
+ * The board runs in the browser and carries its own copies of the one severity rule, the evidence order, the one
+ * time format and the words for sample verdicts and messages held back (src/board/incidentText.js,
+ * src/board/format.js). They must read exactly as the server's (src/notify/message.ts, src/notify/format.ts,
+ * src/incidents/model.ts) that e-mails, pages and the command line use, for every severity pair, every verdict and
+ * reason, and for instants across zones with and without summer time.
  */
 import { beforeAll, describe, expect, it } from 'vitest';
 import { bySeverity, severityWords, type MessageSeverity } from '../../src/notify/message.ts';
 import { formatTime, timeZoneNote } from '../../src/notify/format.ts';
 import { FORECAST_CAUTION } from '../../src/domain/caution.ts';
+import { notifiedTargetsText, sampleVerdictText, type NotifiedEntry, type SampleVerdict, type WithdrawnBecause } from '../../src/incidents/model.ts';
 
 interface BoardText {
   FORECAST_CAUTION: string;
   severityWords(severity: string, peak?: string): string;
   bySeverity<T>(findings: readonly T[]): T[];
+  sampleVerdictText(entry: object): string;
+  notifiedTargetsText(entry: object): string;
+  timelineText(entry: object): string;
 }
 interface BoardFormat {
   formatTime(iso: string): string;
@@ -59,6 +64,30 @@ describe("the board's copies", () => {
     const order = (list: readonly { id: string }[]) => list.map((f) => f.id).join('');
     expect(order(text.bySeverity(findings))).toBe(order(bySeverity(findings)));
     expect(order(bySeverity(findings))).toBe('cdbae');
+  });
+
+  it('write a sample verdict and a message held back as the command line does', () => {
+    for (const verdict of ['confirmed', 'rejected', 'withdrawn'] as SampleVerdict[]) {
+      const entry = { kind: 'sample-verdict', at: '2026-03-01T08:00:00Z', sampleId: 'LAB-0042', verdict, by: 'R. Tanaka' } as const;
+      expect(text.sampleVerdictText(entry), verdict).toBe(sampleVerdictText(entry));
+      expect(text.timelineText(entry)).toContain(`: ${sampleVerdictText(entry)}`);
+    }
+    for (const because of ['acknowledged', 'shelved', 'closed', 'returned'] as WithdrawnBecause[]) {
+      const entry: NotifiedEntry = {
+        kind: 'notified',
+        at: '2026-03-01T08:00:00Z',
+        type: 'wearshift.incident.escalated',
+        tier: 1,
+        eventSeq: 3,
+        targets: ['email:duty@plant.example', 'webhook:ops'],
+        reason: 'not acknowledged 30 min after it was announced: escalated to tier 1',
+        withdrawn: [{ target: 'webhook:ops', tier: 1, at: '2026-03-01T08:05:00Z', because, reason: 'the incident changed' }],
+      };
+      expect(text.notifiedTargetsText(entry), because).toBe(notifiedTargetsText(entry));
+      expect(notifiedTargetsText(entry)).toMatch(/^email:duty@plant\.example, webhook:ops \(not sent: [a-z ]+ meanwhile\)$/);
+    }
+    expect(notifiedTargetsText({ targets: ['webhook:ops'], withdrawn: [{ target: 'webhook:ops', tier: 1, at: '2026-03-01T08:05:00Z', because: 'acknowledged', reason: '' }] })).toBe('webhook:ops (not sent: acknowledged meanwhile)');
+    expect(text.notifiedTargetsText({ targets: ['webhook:ops'] })).toBe('webhook:ops');
   });
 
   it('write times in the site zone exactly as e-mails and the command line do', () => {

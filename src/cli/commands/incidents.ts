@@ -9,7 +9,7 @@ import { loadConfig } from '../../runtime/loadConfig.ts';
 import { InputError } from '../../domain/errors.ts';
 import type { IncidentAction } from '../../incidents/applyAction.ts';
 import { IncidentFilterSchema, MAX_LIST_LIMIT } from '../../incidents/listFilter.ts';
-import { describeState, mergedTimeline, type Incident, type IncidentSummary, type NotifiedEntry, type TimelineEntry } from '../../incidents/model.ts';
+import { describeState, mergedTimeline, notifiedTargetsText, sampleVerdictText, type Incident, type IncidentSummary, type NotifiedEntry, type TimelineEntry } from '../../incidents/model.ts';
 import { incidentRules } from '../../incidents/policy.ts';
 import { closeQuietly, connectForCommand, redisTarget } from '../../redis/connection.ts';
 import { RedisIncidents } from '../../redis/redisIncidents.ts';
@@ -83,8 +83,10 @@ function entryText(e: TimelineEntry | NotifiedEntry, zone: string): string {
       return `closed (${e.how})${e.by ? ` by ${e.by}` : ''}${e.note ? `: ${e.note}` : ''}`;
     case 'note':
       return `note by ${e.by}: ${e.note}`;
+    case 'sample-verdict':
+      return sampleVerdictText(e);
     case 'notified':
-      return `${e.type.replace('wearshift.incident.', '')} → ${e.targets.length > 0 ? e.targets.join(', ') : 'nobody'} (${e.reason})`;
+      return `${e.type.replace('wearshift.incident.', '')} → ${e.targets.length > 0 ? notifiedTargetsText(e) : 'nobody'} (${e.reason})`;
   }
 }
 

@@ -8,8 +8,10 @@ import { UnrecoverableError, type Job, type Processor } from 'bullmq';
 import { DeliveryRefused } from '../../channels/errors.ts';
 import type { NotificationChannels } from '../../channels/openChannels.ts';
 import type { Config } from '../../domain/config.ts';
-import type { Incident, NotifyEffect } from '../../incidents/model.ts';
+import { describeState, type NotifyEffect } from '../../incidents/model.ts';
+import type { MessageWithdrawal } from '../../incidents/withdrawal.ts';
 import { floodKey, floodWindow, heldMessage, type FloodControlSettings, type FloodTarget } from '../../notify/floodControl.ts';
+import type { LiveEvent } from '../../pipeline/liveEvent.ts';
 import type { ComponentStore, GroupLedger } from '../../pipeline/ports.ts';
 import type { DeliveryLedger } from '../../redis/deliveryLedger.ts';
 import type { FloodLedger } from '../../redis/floodLedger.ts';
@@ -32,16 +34,20 @@ export interface NotifyDeps {
   readonly apiBaseUrl: string;
   readonly logger: Logger;
   /**
-   * Deliveries already made, by idempotency key: a job that comes again for a delivered message (handed over
-   * twice after its first job was removed) sends nothing. Without it, every job is delivered.
+   * Deliveries already made, and messages withdrawn, by idempotency key: a job that comes again for a delivered or
+   * withdrawn message (a retry, or handed over twice after its first job was removed) sends nothing. Without it,
+   * every job is delivered.
    */
-  readonly deliveries?: Pick<DeliveryLedger, 'delivered' | 'record'>;
+  readonly deliveries?: Pick<DeliveryLedger, 'delivered' | 'record' | 'withdrawn' | 'recordWithdrawn'>;
   /**
-   * The incidents as they stand now, read before each message goes out: a message the incident has outrun since it
-   * was queued (an escalation after the acknowledgement, anything after shelving or closing) is not sent
-   * (`withdrawnBecause`). Without it, every message is sent as it was queued.
+   * The incidents as they stand now, asked before each message goes out: a message the incident has outrun since it
+   * was queued (an escalation after the acknowledgement, anything after shelving or closing: `withdrawnBecause` in
+   * src/incidents/withdrawal.ts) is recorded on the incident as not sent, with why, and is not sent. Without it,
+   * every message is sent as it was queued.
    */
-  readonly incidents?: { get(incidentId: string): Promise<Incident | undefined> };
+  readonly incidents?: { withdrawMessage(effect: NotifyEffect, now: Date): Promise<MessageWithdrawal | undefined> };
+  /** Told when a message is withdrawn (the incident's record changed), for live views. */
+  readonly live?: (event: LiveEvent) => void;
   /** The clock a delivery is recorded with, and shelving is judged by. Default `Date.now`. */
   readonly now?: () => number;
   /** Alarm-flood handling; without it every message is delivered. */
@@ -86,11 +92,19 @@ export function notifyProcessor(deps: NotifyDeps): Processor<NotifyEffect | Floo
     }
     const effect = job.data as NotifyEffect;
     if (await deps.deliveries?.delivered(effect.key)) return `${effect.channel} ${effect.target}: delivered before; not sent again`;
-    const current = await deps.incidents?.get(effect.incidentId);
-    const withdrawn = current === undefined ? undefined : withdrawnBecause(effect, current, (deps.now ?? Date.now)());
-    if (withdrawn !== undefined) {
-      deps.logger.info({ channel: effect.channel, incidentId: effect.incidentId, type: effect.type, tier: effect.tier, reason: withdrawn }, 'queued message not sent: the incident has changed since');
-      return `${effect.channel} ${effect.target}: not sent, ${withdrawn}`;
+    const noted = await deps.deliveries?.withdrawn(effect.key);
+    if (noted !== undefined) return `${effect.channel} ${effect.target}: not sent, ${noted}`;
+    const withdrawal = await deps.incidents?.withdrawMessage(effect, new Date((deps.now ?? Date.now)()));
+    if (withdrawal !== undefined) {
+      const { reason } = withdrawal.withdrawn;
+      // Recorded on the incident first (that record decides); the ledger then spares later attempts the judging.
+      await deps.deliveries?.recordWithdrawn(effect.key, reason);
+      if (!withdrawal.before) {
+        deps.logger.info({ channel: effect.channel, incidentId: effect.incidentId, type: effect.type, tier: effect.tier, reason }, 'queued message not sent: the incident has changed since');
+        const incident = withdrawal.incident;
+        deps.live?.({ type: 'incident', incidentId: incident.id, unit: incident.unit, component: incident.component, severity: incident.severity, state: describeState(incident), change: 'message withdrawn', at: withdrawal.withdrawn.at });
+      }
+      return `${effect.channel} ${effect.target}: not sent, ${reason}`;
     }
     const samples = (await deps.store.revisions(effect.incident)).map((s) => s.sample);
     const message = incidentMessage(effect, samples, deps.apiBaseUrl);
@@ -117,30 +131,6 @@ export function notifyProcessor(deps: NotifyDeps): Processor<NotifyEffect | Floo
     await deps.deliveries?.record(messageKey, (deps.now ?? Date.now)());
     return outcome;
   }
-}
-
-/**
- * Why a queued message no longer goes out, judged on the incident as it stands when the message is about to be sent
- * (a message waits in the queue for its retries, up to hours): undefined when it still goes.
- *
- * - An escalation or reminder (`escalated`) asks someone new to act: only while the incident is still active,
- *   unacknowledged, not shelved and not closed.
- * - An announcement (`opened`, `updated`) tells tier 0 of the incident or of new evidence: not while it is shelved or
- *   once it is closed. An acknowledgement that came meanwhile does not stop it: the others on tier 0 still learn of
- *   the incident, the message shows the state it was sent for, and its acknowledgement link then opens a page that
- *   says who acknowledged it.
- * - `acknowledged`, `returned` and `closed` report a change of state that has happened: they always go.
- */
-export function withdrawnBecause(effect: Pick<NotifyEffect, 'type'>, incident: Pick<Incident, 'alarm' | 'acknowledged' | 'shelved' | 'closed'>, now: number): string | undefined {
-  const escalation = effect.type === 'wearshift.incident.escalated';
-  const announcement = effect.type === 'wearshift.incident.opened' || effect.type === 'wearshift.incident.updated';
-  if (!escalation && !announcement) return undefined;
-  if (incident.closed !== null) return `the incident was closed at ${incident.closed.at}`;
-  if (incident.shelved !== null && Date.parse(incident.shelved.until) > now) return `the incident is shelved until ${incident.shelved.until}`;
-  if (!escalation) return undefined;
-  if (incident.acknowledged !== null) return `the incident was acknowledged by ${incident.acknowledged.by} at ${incident.acknowledged.at}`;
-  if (incident.alarm !== 'active') return 'the incident has returned to normal';
-  return undefined;
 }
 
 /** A refusal will come again: no retry (BullMQ's UnrecoverableError); anything else is retried with backoff. */
