@@ -12,6 +12,7 @@
  * time-varying limits, which is what the detectors draw.
  */
 import type { Budget, Config, Detection, Population } from '../domain/config.ts';
+import { changeBudgetShare, samplesPerBudgetPeriod, sideShares } from '../domain/configBudget.ts';
 import { InputError } from '../domain/errors.ts';
 import { resolveSettings } from '../domain/settings.ts';
 import { cusumDecisionInterval } from './arl/solveCusum.ts';
@@ -31,10 +32,7 @@ export function parseBudget(text: string): { alarms: number; years: number } {
   return { alarms, years };
 }
 
-/** Samples one component gives in the budget period. */
-export function samplesPerBudgetPeriod(b: Budget): number {
-  return (b.years * b.hoursPerYear) / b.sampleIntervalHours;
-}
+export { changeBudgetShare, samplesPerBudgetPeriod };
 
 /** In-control ARL (in samples) each of `charts` charts of one component needs to keep within the budget. */
 export function targetArl(b: Budget, charts: number): number {
@@ -61,11 +59,6 @@ export function detectionLimits(d: Detection, share = 1): { arl0: number; charts
   return { arl0, charts, ewmaL, cusumH, share };
 }
 
-/** The part of the false-alarm budget the change detectors get: all of it unless the comparison with peers takes a share. */
-export function changeBudgetShare(population: Pick<Population, 'peers'>): number {
-  return population.peers.enabled ? 1 - population.peers.budgetShare : 1;
-}
-
 export type DetectorDesign = ReturnType<typeof detectionLimits>;
 
 /** Both sides of the change detectors' charts, each designed for its part of the budget. */
@@ -84,11 +77,9 @@ export interface ChangeDesign {
  * two-sided. Configured h and L apply to both sides as given.
  */
 export function changeDesign(d: Detection, population: Pick<Population, 'peers'>): ChangeDesign {
-  const share = changeBudgetShare(population);
-  if (d.sided !== 'two') return { rise: detectionLimits(d, share), riseShare: share, fallShare: 0 };
-  const fallShare = share * d.fallShare;
-  const riseShare = share - fallShare;
-  return { rise: detectionLimits(d, riseShare), riseShare, fall: detectionLimits(d, fallShare), fallShare };
+  const shares = sideShares(d, population);
+  if (shares.fall === undefined) return { rise: detectionLimits(d, shares.rise), riseShare: shares.rise, fallShare: 0 };
+  return { rise: detectionLimits(d, shares.rise), riseShare: shares.rise, fall: detectionLimits(d, shares.fall), fallShare: shares.fall };
 }
 
 /**

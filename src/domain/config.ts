@@ -10,6 +10,8 @@ import { AlarmFiguresSchema } from './alarmFiguresConfig.ts';
 import { ChannelsSchema, DEFAULT_FLOOD_CONTROL, EscalationSchema, escalationChannelIssues, IncidentsConfigSchema } from './escalationConfig.ts';
 import { OpcuaConfigSchema } from './opcuaConfig.ts';
 import { DEFAULT_FORECAST, ForecastSchema } from './forecastConfig.ts';
+import { budgetIssue, DESIGNABLE_RUN_LENGTH } from './configBudget.ts';
+import { resolveSettings } from './settings.ts';
 
 const measurandName = z.enum(MEASURAND_NAMES as [Measurand, ...Measurand[]], { error: (i) => `unknown measurand "${String(i.input)}"` });
 const positive = z.number().finite().positive();
@@ -48,7 +50,9 @@ export type Budget = z.infer<typeof BudgetSchema>;
 export const DetectionSchema = z
   .object({
     measurands: z.array(measurandName).default(['Fe', 'Cu', 'Al', 'Cr', 'Pb', 'Sn', 'Ni']).describe('Wear metals whose wear rate is watched by EWMA and CUSUM.'),
-    budget: BudgetSchema.default(BudgetSchema.parse({})).describe('The false-alarm budget from which h and L are derived when not given.'),
+    budget: BudgetSchema.default(BudgetSchema.parse({})).describe(
+      `The false-alarm budget from which h and L are derived when not given. Each side of a chart must get an in-control run length of ${DESIGNABLE_RUN_LENGTH.min} to ${DESIGNABLE_RUN_LENGTH.max} samples from it (years × hoursPerYear / sampleIntervalHours / alarms × charts / the side's share of the budget); the configuration is refused otherwise.`,
+    ),
     ewma: z
       .object({
         enabled: z.boolean().default(true),
@@ -257,6 +261,15 @@ export const ConfigSchema = z
       const first = firstOfName.get(g.name);
       if (first === undefined) firstOfName.set(g.name, i);
       else ctx.addIssue({ code: 'custom', path: ['groups', i, 'name'], message: `"${g.name}" is also the name of groups.${first}; group names must be unique (groups.${i} would get the settings of groups.${first})` });
+    });
+    // The worker derives h and L from each budget when it starts; a budget no limit can meet is refused here, naming it.
+    const topLevel = budgetIssue(c.detection, c.population);
+    if (topLevel !== undefined) ctx.addIssue({ code: 'custom', path: ['detection', 'budget'], message: topLevel });
+    c.groups.forEach((g, i) => {
+      if (g.detection === undefined && g.population === undefined) return;
+      const s = resolveSettings(c, { unit: '', component: '', group: g.name });
+      const issue = budgetIssue(s.detection, s.population);
+      if (issue !== undefined && issue !== topLevel) ctx.addIssue({ code: 'custom', path: ['groups', i, 'detection', 'budget'], message: `with this group's settings, ${issue}` });
     });
     c.groups.forEach((g, i) => {
       if (g.match?.unit === undefined) return;

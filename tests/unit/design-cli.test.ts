@@ -1,3 +1,6 @@
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { PassThrough } from 'node:stream';
 import { Command } from 'commander';
 import { afterEach, describe, expect, it, vi } from 'vitest';
@@ -27,6 +30,34 @@ afterEach(() => {
   vi.restoreAllMocks();
   vi.unstubAllEnvs();
 });
+
+/** A configuration file in a fresh temporary directory; removed with `dispose`. */
+function configFile(yaml: string): { path: string; dispose: () => void } {
+  const dir = mkdtempSync(join(tmpdir(), 'wearshift-design-'));
+  const path = join(dir, 'config.yaml');
+  writeFileSync(path, yaml);
+  return { path, dispose: () => rmSync(dir, { recursive: true, force: true }) };
+}
+
+/** What main writes to stdout and stderr, and its exit code. */
+async function runMain(args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
+  const out: string[] = [];
+  const err: string[] = [];
+  vi.spyOn(process.stdout, 'write').mockImplementation((chunk: string | Uint8Array) => {
+    out.push(String(chunk));
+    return true;
+  });
+  vi.spyOn(process.stderr, 'write').mockImplementation((chunk: string | Uint8Array) => {
+    err.push(String(chunk));
+    return true;
+  });
+  try {
+    const code = await main(args);
+    return { code, stdout: out.join(''), stderr: err.join('') };
+  } finally {
+    vi.restoreAllMocks();
+  }
+}
 
 describe('wearshift design cusum', () => {
   it('prints run lengths in the documented JSON shape, two-sided and zero-state by default', async () => {
@@ -58,12 +89,12 @@ describe('wearshift design cusum', () => {
     expect(out.arl0).toBeCloseTo(2452.8, 8);
     expect(cusumArl({ k: 0.5, h: out.h as number, shift: 0, sided: 'two' })).toBeCloseTo(2452.8, 4);
 
-    const text = await runDesign(['cusum', '--budget', '2 per component per year', '--every', '500', '--hours-per-year', '4000', '--charts', '1', '--share', '1']);
-    expect(text).toContain('1 × 4000 / 500 = 8 samples per component; / 2 = component in-control ARL 4');
-    expect(text).toMatch(/decision interval h = [\d.]+ for an in-control ARL of 4 samples\n/);
-    // Run lengths in samples and, with the sample interval known, in operating hours (ARL × 500 h).
-    expect(text).toMatch(/ARL \(samples\)\s+ARL \(operating hours, a sample every 500 h\)/);
-    expect(text).toMatch(/^0\s+4\s+2000$/m);
+    const text = await runDesign(['cusum', '--budget', '2 per component per year', '--every', '50', '--hours-per-year', '4000', '--charts', '1', '--share', '1']);
+    expect(text).toContain('1 × 4000 / 50 = 80 samples per component; / 2 = component in-control ARL 40');
+    expect(text).toMatch(/decision interval h = [\d.]+ for an in-control ARL of 40 samples\n/);
+    // Run lengths in samples and, with the sample interval known, in operating hours (ARL × 50 h).
+    expect(text).toMatch(/ARL \(samples\)\s+ARL \(operating hours, a sample every 50 h\)/);
+    expect(text).toMatch(/^0\s+40\s+2000$/m);
     expect(text).toContain('wearshift advises');
   });
 
@@ -101,6 +132,83 @@ describe('wearshift design cusum', () => {
     expect(cusum.h as number).toBeCloseTo(worker.cusumH, 6);
     const oneChart = await designJson(['cusum', '--budget', '1 per component per 5 years', '--every', '250', '--charts', '1', '--shifts', '0']);
     expect(cusum.h as number).toBeGreaterThan(oneChart.h as number);
+  });
+
+  it('with a budget and no --every / --hours-per-year, counts with the configuration\'s sample interval and hours per year, as the worker does', async () => {
+    vi.stubEnv('WEARSHIFT_CONFIG', undefined);
+    const file = configFile('detection:\n  budget: { alarms: 1, years: 5, sampleIntervalHours: 500, hoursPerYear: 6000 }\n');
+    try {
+      const { loadConfig } = await import('../../src/runtime/loadConfig.ts');
+      const { changeDesign } = await import('../../src/analysis/budget.ts');
+      const config = loadConfig(file.path);
+      const worker = changeDesign(config.detection, config.population).rise;
+      // 5 × 6000 / 500 = 60 samples per component, not 5 × 8760 / 250 = 175.2.
+      const cusum = await designJson(['cusum', '--budget', '1 per component per 5 years', '--config', file.path, '--shifts', '0']);
+      expect(cusum.budget).toMatchObject({ sampleIntervalHours: 500, hoursPerYear: 6000, samplesPerComponent: 60, charts: 14 });
+      expect(cusum.h as number).toBeCloseTo(worker.cusumH, 6);
+      const ewma = await designJson(['ewma', '--budget', '1 per component per 5 years', '--config', file.path, '--shifts', '0']);
+      expect(ewma.L as number).toBeCloseTo(worker.ewmaL, 6);
+      const text = await runDesign(['cusum', '--budget', '1 per component per 5 years', '--config', file.path]);
+      expect(text).toContain('a sample every 500 operating hours (detection.budget.sampleIntervalHours of the configuration), 6000 hours per year (detection.budget.hoursPerYear of the configuration)');
+      expect(text).toContain('ARL (operating hours, a sample every 500 h)');
+      // An option given still wins over the configuration.
+      const given = await designJson(['cusum', '--budget', '1 per component per 5 years', '--config', file.path, '--every', '250', '--hours-per-year', '8760', '--shifts', '0']);
+      expect(given.budget).toMatchObject({ sampleIntervalHours: 250, hoursPerYear: 8760, samplesPerComponent: 175.2 });
+      expect(given.h as number).toBeGreaterThan(cusum.h as number);
+    } finally {
+      file.dispose();
+    }
+  });
+
+  it('with --group, follows the group\'s resolved detection settings; an unknown group is a usage error naming it', async () => {
+    vi.stubEnv('WEARSHIFT_CONFIG', undefined);
+    const file = configFile(
+      [
+        'detection:',
+        '  budget: { sampleIntervalHours: 500, hoursPerYear: 6000 }',
+        'groups:',
+        '  - name: mills',
+        '    detection: { measurands: [Fe, Cu], budget: { sampleIntervalHours: 100 }, cusum: { k: 0.75 }, ewma: { lambda: 0.1 } }',
+        '',
+      ].join('\n'),
+    );
+    try {
+      const { loadConfig } = await import('../../src/runtime/loadConfig.ts');
+      const { changeDesign } = await import('../../src/analysis/budget.ts');
+      const { resolveSettings } = await import('../../src/domain/settings.ts');
+      const s = resolveSettings(loadConfig(file.path), { unit: 'M1', component: 'gearbox', group: 'mills' });
+      const worker = changeDesign(s.detection, s.population).rise;
+      const cusum = await designJson(['cusum', '--budget', '1 per component per 5 years', '--config', file.path, '--group', 'mills', '--shifts', '0']);
+      // The group's own sample interval, the top level's hours per year, the group's 2 metals × 2 detectors and k.
+      expect(cusum).toMatchObject({ group: 'mills', k: 0.75, budget: { sampleIntervalHours: 100, hoursPerYear: 6000, samplesPerComponent: 300, charts: 4 } });
+      expect(cusum.h as number).toBeCloseTo(worker.cusumH, 6);
+      const ewma = await designJson(['ewma', '--budget', '1 per component per 5 years', '--config', file.path, '--group', 'mills', '--shifts', '0']);
+      expect(ewma).toMatchObject({ lambda: 0.1 });
+      expect(ewma.L as number).toBeCloseTo(worker.ewmaL, 6);
+      expect(await runDesign(['ewma', '--budget', '1 per component per 5 years', '--config', file.path, '--group', 'mills'])).toContain('group mills watches 2 wear metal(s)');
+
+      await expect(runDesign(['cusum', '--budget', '1 per component per 5 years', '--config', file.path, '--group', 'nope'])).rejects.toThrow(`--group: no group "nope" in ${file.path} (groups: mills)`);
+      await expect(runDesign(['cusum', '--arl0', '500', '--group', 'mills'])).rejects.toThrow(/--group applies only with --budget/);
+      const refused = await runMain(['design', 'cusum', '--budget', '1 per component per 5 years', '--config', file.path, '--group', 'nope']);
+      expect(refused.code).toBe(2);
+      expect(refused.stderr).toBe(`wearshift: --group: no group "nope" in ${file.path} (groups: mills)\n`);
+    } finally {
+      file.dispose();
+    }
+  });
+
+  it('refuses a budget no chart limit can meet as a usage error naming --budget, exit 2, not a stack trace', async () => {
+    vi.stubEnv('WEARSHIFT_CONFIG', undefined);
+    // 35.04 samples a year / 1000 alarms × 14 charts / 0.72: 0.68 samples per false alarm of a chart.
+    await expect(runDesign(['cusum', '--budget', '1000 per component per year'])).rejects.toThrow(InputError);
+    const low = await runMain(['design', 'cusum', '--budget', '1000 per component per year']);
+    expect(low.code).toBe(2);
+    expect(low.stderr).toMatch(/^wearshift: --budget "1000 per component per year" gives each chart an in-control run length of 0\.6813 samples \(.*\); chart limits can be derived for 20 to 100000000 samples: allow fewer false alarms or a longer period\n$/);
+    // 200000 × 35.04 × 14 / 0.72 = 136 million samples, past where the run-length equations stay reliable.
+    const high = await runMain(['design', 'ewma', '--budget', '1 per component per 200000 years']);
+    expect(high.code).toBe(2);
+    expect(high.stderr).toMatch(/^wearshift: --budget "1 per component per 200000 years" gives each chart an in-control run length of 136300000 samples .*allow more false alarms or a shorter period\n$/);
+    expect(high.stderr).not.toMatch(/\n\s+at /);
   });
 
   it('prints a table of run lengths without --json, with "> 1e9" for a run that never ends in practice', async () => {

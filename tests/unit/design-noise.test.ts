@@ -6,7 +6,7 @@
 import { PassThrough } from 'node:stream';
 import { Command } from 'commander';
 import { describe, expect, it } from 'vitest';
-import { designNoise } from '../../src/backtest/designNoise.ts';
+import { designNoise, type ResponderNoise } from '../../src/backtest/designNoise.ts';
 import { registerDesign } from '../../src/cli/commands/design.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import { InputError } from '../../src/domain/errors.ts';
@@ -60,6 +60,24 @@ describe('design noise from the configuration', () => {
     const n = designNoise(config);
     expect(n.byFamily.population.per100ComponentYears).toBeCloseTo(100 * 2 * SAMPLES_PER_YEAR * 0.158655, 1);
     expect(n.per100ComponentYears).toBeGreaterThan(50 * n.budgetPer100ComponentYears);
+    // Above mean + 2σ (2.275 %, standard normal table) the finding is an alarm; between the levels a caution.
+    const bySeverity = Object.fromEntries(n.loads.map((l) => [l.severity, l.per100ComponentYears]));
+    expect(bySeverity.alarm).toBeCloseTo(100 * 2 * SAMPLES_PER_YEAR * 0.02275, 1);
+    expect(bySeverity.caution).toBeCloseTo(100 * 2 * SAMPLES_PER_YEAR * (0.158655 - 0.02275), 1);
+    expect(n.loads.every((l) => l.family === 'population' && l.kind === 'machine')).toBe(true);
+  });
+
+  it('says what its total adds and what it leaves out: not the configuration\'s whole noise', () => {
+    const n = designNoise(ConfigSchema.parse({}));
+    expect(n.total.families).toEqual(['population', 'ewma', 'cusum', 'sampling']);
+    expect(n.total.inPart).toEqual(['sampling']);
+    expect(n.total.excludes).toEqual(['limit', 'rate', 'condition', 'cleanliness']);
+    expect(n.total.basis).toContain('it excludes fixed limit, rate limit, oil condition, cleanliness and the other sampling checks');
+    expect(n.total.basis).not.toMatch(/upper bound/);
+    // One-sided charts: the sampling family has no figure at all and is left out whole.
+    const up = designNoise(ConfigSchema.parse({ detection: { sided: 'up' } }));
+    expect(up.total.excludes).toContain('sampling');
+    expect(up.total.inPart).toEqual([]);
   });
 
   it('a group override is used for its group', () => {
@@ -68,7 +86,7 @@ describe('design noise from the configuration', () => {
     expect(designNoise(config, { group: 'mills' }).per100ComponentYears).toBeCloseTo(10, 2);
   });
 
-  it('the fleet load per tier-0 responder of the policy that covers the group', () => {
+  it('the fleet load per tier-0 responder of the policy that matches each part: machine incidents of the group, sampling incidents by kind', () => {
     const config = ConfigSchema.parse({
       channels: { email: { from: 'wearshift <alerts@plant.example>', smtp: { host: 'localhost' } } },
       groups: [{ name: 'mills' }],
@@ -83,9 +101,53 @@ describe('design noise from the configuration', () => {
     // 20 per 100 component-years × 45 components = 9 a year.
     expect(n.fleet!.incidentsPerDay).toBeCloseTo(9 / 365.25, 4);
     expect(n.fleet!.incidentsPerWeek).toBeCloseTo((9 * 7) / 365.25, 4);
-    expect(n.fleet!.responders).toEqual(['email:mill@plant.example']);
-    expect(n.fleet!.perResponderPerDay).toBeLessThan(n.fleet!.acceptablePerDay);
-    expect(designNoise(config, { components: 45 }).fleet!.responders).toEqual([]);
+    const perDay = (per100: number) => (per100 / 100) * (45 / 365.25);
+    // The machine incidents (18.4 per 100 component-years: the rises 14.4, the peers 4) go to the mills policy; the
+    // falls (1.6, sampling incidents) to the policy that matches kinds: [sampling], not to the mill.
+    expect(n.fleet!.responders.map((r) => r.responder)).toEqual(['email:lab@plant.example', 'email:mill@plant.example']);
+    const [lab, mill] = n.fleet!.responders;
+    expect(mill!.perDay).toBeCloseTo(perDay(18.4), 5);
+    expect(mill!.heardOf.map((h) => h.family).sort()).toEqual(['cusum', 'ewma', 'population']);
+    expect(lab!.perDay).toBeCloseTo(perDay(1.6), 5);
+    expect(lab!.heardOf).toEqual([{ family: 'sampling', severity: 'watch', kind: 'sampling' }]);
+    expect(n.fleet!.unrouted).toBeNull();
+    expect(mill!.perDay).toBeLessThan(n.fleet!.acceptablePerDay);
+    // Outside the group only the sampling policy matches: the machine incidents are heard of by nobody.
+    const top = designNoise(config, { components: 45 }).fleet!;
+    expect(top.responders.map((r) => r.responder)).toEqual(['email:lab@plant.example']);
+    expect(top.unrouted!.perDay).toBeCloseTo(perDay(18.4), 5);
+  });
+
+  it('splits the load by severity: a watch desk hears only of the EWMA and CUSUM rises, a caution/alarm desk of the rest', () => {
+    const config = ConfigSchema.parse({
+      channels: { email: { from: 'wearshift <alerts@plant.example>', smtp: { host: 'localhost' } } },
+      population: { opensIncidents: true, measurands: ['Fe'], sigma: { caution: 3, alarm: 4 } },
+      escalation: {
+        policies: [
+          { name: 'early', match: { severities: ['watch'] }, tiers: [{ afterMinutes: 0, email: ['watch@plant.example'] }] },
+          { name: 'levels', match: { severities: ['caution', 'alarm'] }, tiers: [{ afterMinutes: 0, email: ['desk@plant.example'] }] },
+        ],
+      },
+    });
+    const n = designNoise(config, { components: 100 });
+    const perDay = (per100: number) => (per100 / 100) * (100 / 365.25);
+    const share = (family: string, severity?: string) => n.loads.filter((l) => l.family === family && (severity === undefined || l.severity === severity)).reduce((s, l) => s + l.per100ComponentYears, 0);
+    const byTarget: Record<string, ResponderNoise> = Object.fromEntries(n.fleet!.responders.map((r) => [r.responder, r]));
+    expect(Object.keys(byTarget)).toEqual(['email:desk@plant.example', 'email:watch@plant.example']);
+    expect(byTarget['email:watch@plant.example']!.heardOf.map((h) => h.family)).toEqual(['ewma', 'cusum']);
+    expect(byTarget['email:watch@plant.example']!.perDay).toBeCloseTo(perDay(share('ewma') + share('cusum')), 6);
+    // The comparison with peers and the single results above mean + 3σ are cautions, those above mean + 4σ alarms.
+    expect(byTarget['email:desk@plant.example']!.heardOf).toEqual([
+      { family: 'population', severity: 'caution', kind: 'machine' },
+      { family: 'population', severity: 'alarm', kind: 'machine' },
+    ]);
+    expect(byTarget['email:desk@plant.example']!.perDay).toBeCloseTo(perDay(share('population')), 6);
+    // Neither policy matches sampling incidents (kinds default to machine): the falls are heard of by nobody.
+    expect(n.fleet!.unrouted!.heardOf).toEqual([{ family: 'sampling', severity: 'watch', kind: 'sampling' }]);
+    expect(n.fleet!.unrouted!.perDay).toBeCloseTo(perDay(share('sampling')), 6);
+    // Nobody hears of every incident: the parts add up to the whole.
+    const heard = n.fleet!.responders.reduce((s, r) => s + r.perDay, 0) + n.fleet!.unrouted!.perDay;
+    expect(heard).toBeCloseTo(n.fleet!.incidentsPerDay, 5);
   });
 });
 
@@ -101,6 +163,10 @@ describe('wearshift design noise', () => {
     const text = await run([]);
     expect(text).toMatch(/CUSUM\s+7\.2/);
     expect(text).toMatch(/sampling check\s+1\.6/);
+    // The total is what it can derive, not a bound on the configuration's noise.
+    expect(text).toMatch(/^total \(derived families\)\s+20$/m);
+    expect(text).not.toContain('upper bound');
+    expect(text).toContain('total: adds group limit, EWMA, CUSUM and sampling check (only the fall side of the charts), the families it can derive; it excludes fixed limit');
     expect(text).toContain('wearshift advises');
     await expect(run(['--group', 'nope'])).rejects.toThrow(InputError);
     await expect(run(['--components', '2.5'])).rejects.toThrow(/whole number/);
