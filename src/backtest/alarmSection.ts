@@ -6,17 +6,17 @@ import { RULE_FAMILY_LABELS } from '../domain/finding.ts';
 import { ALARM_BENCHMARKS } from '../incidents/alarmBenchmarks.ts';
 import type { AlarmFigures } from '../incidents/alarmFigures.ts';
 import { escapeHtml } from '../domain/safeText.ts';
-import type { BacktestSummary } from './summary.ts';
+import type { BacktestSummary, EscalationIfUnanswered } from './summary.ts';
 
 export function alarmSection(s: BacktestSummary): string {
   const out = [
     '<section aria-labelledby="h-alarm" id="alarm-figures">',
     '<h2 id="h-alarm">Expected noise: alarm-management key figures</h2>',
-    '<p>What the incidents of this history would ask of people, in the terms of ISA-18.2 / IEC 62682 and EEMUA 191. An annunciation is an incident opening or becoming active again; each tier-0 target of the matching escalation policy hears of it. Nobody acknowledges in a backtest, so the stale figure shows what would go stale if nobody answered.</p>',
+    '<p>What the incidents of this history would ask of people, in the terms of ISA-18.2 / IEC 62682 and EEMUA 191, with every result arriving live at its sampling time. An annunciation is an incident opening or becoming active again; the tier-0 targets of the escalation chain running at that point hear of it (the policy matching the incident\u2019s severity when it was announced, and any policy a rise in severity brings in before it returns to normal), counted on the day of the annunciation. Nobody acknowledges in a backtest, so the stale figure shows what would go stale if nobody answered, and the later tiers are listed apart with what they would hear of if nobody acknowledged within their delay. Reminders (repeatMinutes) are not counted.</p>',
   ];
   for (const r of s.runs) {
     if (s.runs.length > 1) out.push(`<h3>${e(r.label)}</h3>`);
-    out.push(figuresBlock(r.alarmFigures));
+    out.push(figuresBlock(r.alarmFigures), escalationBlock(r.escalation));
   }
   out.push(
     '<details><summary>Published reference figures (control rooms of process plants; recalled from memory)</summary>',
@@ -64,6 +64,16 @@ function figuresBlock(f: AlarmFigures): string {
     listTable('bad-actor rule and measurand pairs', ['rule', 'measurand', 'incidents'], f.badActors.pairs.map((p) => [RULE_FAMILY_LABELS[p.rule], p.measurand, String(p.incidents)])),
     '</div>',
     '</div>',
+  ].join('\n');
+}
+
+function escalationBlock(x: EscalationIfUnanswered): string {
+  if (x.responders.length === 0) return '<p class="empty" data-escalation="none">No escalation policy has a tier after the first: nobody else would be told if nobody acknowledged.</p>';
+  return [
+    `<table class="escalation"><caption>Later tiers if nobody acknowledges: ${x.annunciations} ${x.annunciations === 1 ? 'annunciation' : 'annunciations'} would go beyond tier 0</caption>`,
+    '<thead><tr><th scope="col">responder (later tier)</th><th scope="col">annunciations</th></tr></thead><tbody>',
+    ...x.responders.map((r) => `<tr><th scope="row">${e(r.responder)}</th><td class="n">${r.annunciations}</td></tr>`),
+    '</tbody></table>',
   ].join('\n');
 }
 

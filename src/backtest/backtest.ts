@@ -3,7 +3,7 @@
  * when one is given) replays the same records through the worker's pipeline, and the runs are summarised side by side.
  */
 import type { Config } from '../domain/config.ts';
-import { tierZeroResponders } from '../incidents/responders.ts';
+import { annunciationReach, laterTierTargets, tierZeroResponders } from '../incidents/responders.ts';
 import type { SourceRecord } from '../intake/fileRecords.ts';
 import type { RejectedRecord } from '../pipeline/replay.ts';
 import { detectorParameters, withBudget, type BudgetText } from './parameters.ts';
@@ -24,6 +24,7 @@ export interface BacktestOptions {
   readonly configurations: readonly BacktestConfiguration[];
   /** Replaces the configured false-alarm budget (alarms and period) in every configuration. */
   readonly budget?: BudgetText;
+  /** Processing time: samples dated more than a day after it are rejected as lying in the future. Default: now. */
   readonly now?: number;
   /** Told about each rejected record once (during the first run). */
   readonly onRejected?: (r: RejectedRecord) => void;
@@ -52,7 +53,11 @@ export async function backtest(records: readonly SourceRecord[], options: Backte
       budget: options.budget ?? null,
       parameters: detectorParameters(config, run.components),
       components: run.components,
-      alarm: { thresholds: config.alarmFigures, responders: tierZeroResponders(config.escalation.policies) },
+      alarm: {
+        thresholds: config.alarmFigures,
+        responders: tierZeroResponders(config.escalation.policies),
+        escalation: { targets: laterTierTargets(config.escalation.policies), reach: annunciationReach(config.escalation.policies) },
+      },
     });
   }
   const summary = buildBacktestSummary({ file: options.file, records: runs[0]!.records, rejected: runs[0]!.rejected, runs: inputs });

@@ -57,7 +57,7 @@ export function renderBacktestReport(summary: BacktestSummary, components: reado
     episodesSection(main),
     componentsSection(summary, main, components),
     '</main>',
-    `<footer><p>${e(CAUTION)}</p><p>The history was replayed in-process through the worker\u2019s own storing, evaluation and incident code, without Redis.</p></footer>`,
+    `<footer><p>${e(CAUTION)}</p><p>The history was replayed in-process through the worker\u2019s own storing, evaluation and incident code, without Redis, every result arriving live at its sampling time (none taken as quiet backfill).</p></footer>`,
     `<script type="application/json" id="summary">${embeddedJson(summary)}</script>`,
     '</body>',
     '</html>',
@@ -86,7 +86,7 @@ function headline(s: BacktestSummary, r: RunSummary): string {
     '<section aria-labelledby="h-headline" class="headline">',
     `<h2 id="h-headline">At a glance${s.runs.length > 1 ? ` (${e(r.label)})` : ''}</h2>`,
     '<div class="cards">',
-    card(String(r.incidents.total), 'incidents', r.incidents.per100ComponentYears === null ? 'no component-years' : `${num(r.incidents.per100ComponentYears, 3)} per 100 component-years`, 'incidents'),
+    card(String(r.incidents.total), 'incidents', r.incidents.per100ComponentYears === null ? tooShort(r) : `${num(r.incidents.per100ComponentYears, 3)} per 100 component-years`, 'incidents'),
     card(String(cls.episodes), 'caught by both sides', 'EWMA/CUSUM and a classic rule in one incident', 'both'),
     card(
       lim.medianSamples === null ? '–' : `${num(lim.medianSamples, 3)} samples`,
@@ -104,6 +104,12 @@ function headline(s: BacktestSummary, r: RunSummary): string {
     '</div>',
     '</section>',
   ].join('\n');
+}
+
+/** Why a rate per 100 component-years is not given. */
+function tooShort(r: RunSummary): string {
+  const x = r.incidents;
+  return `exposure ${num(x.componentYears, 3)} component-years, too short for a rate (at least ${num(x.minComponentYears, 3)})`;
 }
 
 function comparison(s: BacktestSummary): string {
@@ -173,7 +179,8 @@ function families(s: BacktestSummary): string {
   return [
     '<section aria-labelledby="h-families" id="families">',
     '<h2 id="h-families">Incidents per rule family</h2>',
-    '<p>An incident counts for every family that raised a finding in it, so the rows add up to more than the total.</p>',
+    '<p>An incident counts for every family that raised a finding in it, so the rows add up to more than the total. The exposure is counted in component-years, each component from its first to its last sample (a component with a single sample adds none, though its incidents count).</p>',
+    s.runs[0]!.incidents.per100ComponentYears === null ? `<p class="empty" data-exposure="too-short">No rate per 100 component-years: ${e(tooShort(s.runs[0]!))}.</p>` : '',
     '<table>',
     `<thead>${head}</thead>`,
     '<tbody>',
@@ -398,7 +405,7 @@ figure.chart figcaption { font-weight: 600; margin-bottom: 2px; }
 figure.chart svg { max-width: 100%; height: auto; border-radius: 4px; }
 a { color: #1f3f7a; }
 footer { padding: 14px 32px 28px; color: var(--muted); font-size: 13px; border-top: 1px solid #c9c9c7; }
-table.bad-actors caption { text-align: left; font-weight: 600; padding: 4px 0; }
+table.bad-actors caption, table.escalation caption { text-align: left; font-weight: 600; padding: 4px 0; }
 #alarm-figures details { margin-top: 10px; }
 #alarm-figures .pair { align-items: start; }
 #alarm-figures table { margin-bottom: 12px; }

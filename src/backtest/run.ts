@@ -1,8 +1,10 @@
 /**
  * One backtest run: the live worker's own pipeline run in-process (replayRecords: storing, evaluation, cascades
  * and the incident engine on in-memory storage, no Redis) over the records, and its final state read back — the
- * findings of every sample and every incident as the verdict stands after the last result, which depends on the set
- * of results only, so it is what production reaches with the same results. The charts come from the component view.
+ * findings of every sample and every incident as the verdict stands after the last result. Every result is taken as
+ * arriving live, at its own sampling time (replay's arrival `sampled`): none is quiet backfill, whatever its age, the
+ * processing time and backfill.quietAfterDays, so the incidents are those production keeps when the same results
+ * come in as they are sampled. The charts come from the component view.
  */
 import type { FullEvaluation } from '../analysis/evaluate.ts';
 import type { GroupStats } from '../analysis/model.ts';
@@ -39,7 +41,7 @@ export interface BacktestRun {
 
 export interface BacktestRunOptions {
   readonly config: Config;
-  /** Processing time for the backfill rule; it decides only who would have been told, not what is found. Default: now. */
+  /** Processing time: a sample dated more than a day after it is rejected as lying in the future; nothing else depends on it. Default: now. */
   readonly now?: number;
   readonly onRejected?: (r: RejectedRecord) => void;
 }
@@ -47,7 +49,7 @@ export interface BacktestRunOptions {
 export async function runBacktest(records: readonly SourceRecord[], options: BacktestRunOptions): Promise<BacktestRun> {
   const { config } = options;
   const now = options.now ?? Date.now();
-  const outcome = await replayRecords(records, { config, now, ...(options.onRejected !== undefined && { onRejected: options.onRejected }) });
+  const outcome = await replayRecords(records, { config, now, arrival: 'sampled', ...(options.onRejected !== undefined && { onRejected: options.onRejected }) });
   const store = outcome.store;
   // The incidents the final verdict holds (those a late result withdrew along the way are not production's).
   const incidents = new Map<string, IncidentRecord[]>();

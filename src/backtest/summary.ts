@@ -9,15 +9,23 @@
  * - classic families are `limit` (fixed), `rate` and `population`; `condition` and `cleanliness` count for neither side;
  * - a lead is counted in samples of the component (from the detector's sample up to, not including, the limit's), in
  *   operating hours (unit-hours meter; null when a sample has none) and in calendar days; negative when the limit came first;
- * - component-years are the span from each component's first to its last sample, in years of 365.25 days;
+ * - the exposure is counted in component-years: each component from its first to its last sample, in years of
+ *   365.25 days, summed over the components (a component with a single sample adds none, though its incidents
+ *   count); a rate per 100 component-years is given only from MIN_COMPONENT_YEARS of exposure on, since below it one
+ *   incident more or less moves the rate by more than 100 and a history of hours would give rates in the hundreds of
+ *   thousands (null otherwise, beside the exposure);
+ * - every result is taken as arriving live at its sampling time (run.ts), so no incident is quiet backfill;
  * - the alarm-management key figures (incidents/alarmFigures.ts) run over the fleet's span, from its first to its last
- *   sample; nobody acknowledges in a backtest, so `stale` counts what would go stale if nobody answered (an incident
- *   seen only in quiet backfill, by the processing time, closes on its return to normal as in production).
+ *   sample; nobody acknowledges in a backtest, so `stale` counts what would go stale if nobody answered, and
+ *   `escalation` lists who of the later escalation tiers would be told if nobody answered (the load per responder
+ *   counts tier 0: responders.ts).
  */
 import type { Sample } from '../domain/event.ts';
 import { RULE_FAMILIES, SEVERITIES, type IncidentKind, type RuleFamily, type Severity } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
-import { alarmFigures, type AlarmFigures, type FigureThresholds, type ResponderMap } from '../incidents/alarmFigures.ts';
+import { ADVISORY_CAUTION } from '../domain/caution.ts';
+import { alarmFigures, type AlarmFigures, type FigureIncident, type FigureThresholds, type ResponderMap } from '../incidents/alarmFigures.ts';
+import type { AnnunciationReach } from '../incidents/responders.ts';
 import type { TimelineEntry } from '../incidents/model.ts';
 import type { BudgetText, DetectorParameters } from './parameters.ts';
 
@@ -26,6 +34,9 @@ export const CLASSIC_FAMILIES: readonly RuleFamily[] = ['limit', 'rate', 'popula
 
 const YEAR_MS = 365.25 * 86_400_000;
 const DAY_MS = 86_400_000;
+
+/** The least exposure, in component-years, from which rates per 100 component-years are given. */
+export const MIN_COMPONENT_YEARS = 1;
 
 export interface Firing {
   readonly rule: RuleFamily;
@@ -90,7 +101,11 @@ export interface RunSummary {
   readonly parameters: readonly DetectorParameters[];
   readonly incidents: {
     readonly total: number;
+    /** Null when the exposure is below `minComponentYears` (too short for a rate) or nil. */
     readonly per100ComponentYears: number | null;
+    /** The exposure the rates are taken over (the fleet's component-years), and the least from which they are given. */
+    readonly componentYears: number;
+    readonly minComponentYears: number;
     readonly bySeverity: Readonly<Record<Severity, number>>;
     readonly byFamily: Readonly<Record<RuleFamily, { readonly incidents: number; readonly per100ComponentYears: number | null }>>;
   };
@@ -102,6 +117,21 @@ export interface RunSummary {
   readonly oneSided: { readonly changeOnly: readonly string[]; readonly classicOnly: readonly string[]; readonly neither: readonly string[] };
   /** The alarm-management key figures (ISA-18.2 / IEC 62682, EEMUA 191) over the fleet's span. */
   readonly alarmFigures: AlarmFigures;
+  /** Who of the escalation tiers after the first would be told if nobody acknowledged. */
+  readonly escalation: EscalationIfUnanswered;
+}
+
+/**
+ * The later tiers of the escalation policies as a backtest, in which nobody acknowledges, would reach them: a tier is
+ * told of an annunciation when its delay after its chain's start passes before the incident returns to normal. The
+ * load per responder (alarmFigures.responders) counts tier 0 only; a target counted here for an annunciation is not
+ * also tier 0 of it.
+ */
+export interface EscalationIfUnanswered {
+  /** Annunciations in the period that would go beyond tier 0. */
+  readonly annunciations: number;
+  /** Every target of a later tier, with the annunciations it would hear of that way, most first. */
+  readonly responders: readonly { readonly responder: string; readonly annunciations: number }[];
 }
 
 export interface ComponentSpan {
@@ -122,6 +152,8 @@ export interface ComparisonRow {
 
 export interface BacktestSummary {
   readonly kind: 'wearshift.backtest';
+  /** The tool advises; people decide (the caution that goes with every finding). */
+  readonly advisory: string;
   readonly file: string;
   readonly records: number;
   readonly rejected: number;
@@ -167,8 +199,15 @@ export interface RunInput {
   readonly budget: BudgetText | null;
   readonly parameters: readonly DetectorParameters[];
   readonly components: readonly ComponentOutcome[];
-  /** Thresholds (config `alarmFigures`) and who hears of what (tier 0 of the escalation policies). */
-  readonly alarm: { readonly thresholds: FigureThresholds; readonly responders: ResponderMap };
+  /**
+   * Thresholds (config `alarmFigures`), who hears of what (tier 0 of the escalation policies), and who of the later
+   * tiers would be told of each annunciation if nobody acknowledged.
+   */
+  readonly alarm: {
+    readonly thresholds: FigureThresholds;
+    readonly responders: ResponderMap;
+    readonly escalation?: { readonly targets: readonly string[]; readonly reach: (i: FigureIncident) => readonly AnnunciationReach[] };
+  };
 }
 
 export interface SummaryInput {
@@ -188,6 +227,7 @@ export function buildBacktestSummary(input: SummaryInput): BacktestSummary {
   const runs = input.runs.map((r) => runSummary(r, componentYears, span));
   return {
     kind: 'wearshift.backtest',
+    advisory: ADVISORY_CAUTION,
     file: input.file,
     records: input.records,
     rejected: input.rejected,
@@ -213,7 +253,8 @@ function spanOf(c: ComponentOutcome): ComponentSpan {
 
 function runSummary(run: RunInput, componentYears: number, span: { from: number; to: number } | null): RunSummary {
   const episodes = run.components.flatMap((c) => c.incidents.map((i) => episodeOf(c, i))).sort((a, b) => (a.openedAt < b.openedAt ? -1 : a.openedAt > b.openedAt ? 1 : a.incidentId < b.incidentId ? -1 : 1));
-  const per100 = (n: number) => (componentYears > 0 ? round((100 * n) / componentYears, 4) : null);
+  const exposed = componentYears >= MIN_COMPONENT_YEARS;
+  const per100 = (n: number) => (exposed ? round((100 * n) / componentYears, 4) : null);
   const byFamily = Object.fromEntries(
     RULE_FAMILIES.map((f) => {
       const n = episodes.filter((e) => e.families.includes(f)).length;
@@ -228,25 +269,52 @@ function runSummary(run: RunInput, componentYears: number, span: { from: number;
     }
   }
   const ids = (by: CaughtBy) => episodes.filter((e) => e.caughtBy === by).map((e) => e.incidentId);
+  const incidents: FigureIncident[] = run.components.flatMap((c) => c.incidents.map((i) => ({ ...i, timeline: i.entries })));
+  const from = span?.from ?? 0;
+  const to = span?.to ?? 0;
   return {
     label: run.label,
     configFile: run.configFile,
     budget: run.budget,
     parameters: run.parameters,
-    incidents: { total: episodes.length, per100ComponentYears: per100(episodes.length), bySeverity, byFamily },
+    incidents: {
+      total: episodes.length,
+      per100ComponentYears: per100(episodes.length),
+      componentYears: round(componentYears, 4),
+      minComponentYears: MIN_COMPONENT_YEARS,
+      bySeverity,
+      byFamily,
+    },
     samplesFlagged,
     episodes,
     earliness: { vsLimit: earliness(episodes, 'limit'), vsClassic: earliness(episodes, 'classic') },
     oneSided: { changeOnly: ids('change-only'), classicOnly: ids('classic-only'), neither: ids('neither') },
     alarmFigures: alarmFigures({
-      incidents: run.components.flatMap((c) => c.incidents.map((i) => ({ ...i, timeline: i.entries }))),
-      from: span?.from ?? 0,
-      to: span?.to ?? 0,
+      incidents,
+      from,
+      to,
       thresholds: run.alarm.thresholds,
       responders: run.alarm.responders,
-      componentYears,
+      componentYears: exposed ? componentYears : null,
     }),
+    escalation: escalationIfUnanswered(incidents, run.alarm.escalation, from, to),
   };
+}
+
+function escalationIfUnanswered(incidents: readonly FigureIncident[], escalation: RunInput['alarm']['escalation'], from: number, to: number): EscalationIfUnanswered {
+  const counts = new Map((escalation?.targets ?? []).map((t) => [t, 0]));
+  let annunciations = 0;
+  if (escalation !== undefined) {
+    for (const i of incidents) {
+      for (const r of escalation.reach(i)) {
+        if (r.t < from || r.t > to || r.unanswered.length === 0) continue;
+        annunciations += 1;
+        for (const t of r.unanswered) counts.set(t, (counts.get(t) ?? 0) + 1);
+      }
+    }
+  }
+  const responders = [...counts.entries()].map(([responder, n]) => ({ responder, annunciations: n })).sort((a, b) => b.annunciations - a.annunciations || (a.responder < b.responder ? -1 : 1));
+  return { annunciations, responders };
 }
 
 function episodeOf(c: ComponentOutcome, incident: IncidentRecord): EpisodeSummary {
@@ -357,6 +425,7 @@ function comparisonRows(runs: readonly RunSummary[]): ComparisonRow[] {
     row('standing incidents at most at once', (r) => r.alarmFigures.standing.peak),
     row('stale incidents at most at once (nobody acknowledges)', (r) => r.alarmFigures.stale.peak),
     row('chattering incidents', (r) => r.alarmFigures.chattering.incidents),
+    row('annunciations beyond tier 0 if nobody acknowledges', (r) => r.escalation.annunciations),
   ];
 }
 

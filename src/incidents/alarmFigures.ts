@@ -4,8 +4,9 @@
  *
  * - An annunciation is an incident going into the alarm state: its opening, or its becoming active again after a
  *   return to normal or a closing. Its time is the sampling time of the sample that caused it.
- * - Load per responder: the annunciations each tier-0 target of the escalation policy hears of, per calendar day
- *   (UTC) and per week (Monday to Sunday, UTC): the average over the period and the peak day or week.
+ * - Load per responder: the annunciations each responder hears of (the ResponderMap says who hears of which; for the
+ *   escalation policies, responders.ts), per calendar day (UTC) and per week (Monday to Sunday, UTC), counted at the
+ *   annunciation's time: the average over the period and the peak day or week.
  * - Standing: in the active alarm state (acknowledged or not) for longer than `standingAfterDays`.
  * - Stale: open, unacknowledged and not shelved for longer than `staleAfterDays` (still asking for a response).
  * - An incident only ever seen in quiet backfill (`live: false`) asked nobody: it loads no responder and is not stale.
@@ -42,11 +43,12 @@ export interface FigureIncident {
 
 export type FigureThresholds = Pick<AlarmFiguresConfig, 'standingAfterDays' | 'staleAfterDays' | 'chatteringWithinDays' | 'topBadActors'>;
 
-/** Who hears of an incident first: the tier-0 targets of its escalation policy. */
+/** Who hears of an annunciation first: the tier-0 targets of the escalation chain running at that point. */
 export interface ResponderMap {
   /** Every tier-0 target the configuration names, so that a responder who heard nothing is listed with 0. */
   readonly all: readonly string[];
-  readonly of: (incident: FigureIncident) => readonly string[];
+  /** @param at the annunciation's time (ms since the epoch), which decides the escalation chain that tells of it. */
+  readonly of: (incident: FigureIncident, at?: number) => readonly string[];
 }
 
 export interface AlarmFigureInput {
@@ -158,7 +160,7 @@ export function alarmFigures(input: AlarmFigureInput): AlarmFigures {
       quiet += 1;
       continue;
     }
-    const targets = input.responders.of(a.incident);
+    const targets = input.responders.of(a.incident, a.t);
     if (targets.length === 0) unrouted += 1;
     for (const r of targets) {
       const times = heard.get(r);

@@ -3,7 +3,9 @@
  * evaluation code as in the live worker (storeResult, evaluateStored), on in-memory storage, and every component a
  * late result re-judges is evaluated again before the next record. The timeline it returns lists the findings of
  * each newly judged step and every incident change, in sample-time order; the store it hands back holds the
- * final state (histories, incidents), which depends only on the set of records.
+ * final state (histories, incidents), which depends only on the set of records and on when each arrived (`arrival`):
+ * a result older than backfill.quietAfterDays when it arrives is quiet backfill, and an incident only ever seen in
+ * quiet backfill closes on its return to normal, so that a later finding opens a new one.
  */
 import type { Step } from '../analysis/model.ts';
 import type { Config } from '../domain/config.ts';
@@ -15,7 +17,8 @@ import type { SourceRecord } from '../intake/fileRecords.ts';
 import type { EvaluationDeps } from './evaluateStored.ts';
 import { MemoryStore } from './memory/memoryStore.ts';
 import { settleComponent } from './settleComponent.ts';
-import { InvalidResultError, storeResult } from './storeResult.ts';
+import { InvalidResultError, storeResult, storeSample, type StoredResult } from './storeResult.ts';
+import { claimedSampleId, validateResult } from '../intake/validate.ts';
 import { fileConflictReason, FileRevisions } from './fileRevisions.ts';
 
 export type FindingLine = { readonly type: 'finding'; readonly quiet: boolean } & Finding;
@@ -48,10 +51,23 @@ export interface RejectedRecord {
   readonly errors: readonly FieldIssue[];
 }
 
+/**
+ * When each result arrives:
+ * - `now`: every record at the processing time, as when the file is imported now; a result sampled more than
+ *   backfill.quietAfterDays before it is quiet backfill (recorded, nobody told);
+ * - `sampled`: each result at its own sampling time, as if the lab's results had come in live one by one: none is
+ *   backfill, whatever its age and backfill.quietAfterDays, and the processing clock (the time of notifications) is
+ *   the latest sampling time met so far in the file. The processing time then only decides which sampling dates lie
+ *   in the future.
+ */
+export type Arrival = 'now' | 'sampled';
+
 export interface ReplayOptions {
   readonly config: Config;
-  /** The processing time: each record's arrival, and what decides backfill (quiet). Default: the clock when replay starts. */
+  /** The processing time: what a sampling date in the future is judged by and, with arrival `now`, each record's arrival. Default: the clock when replay starts. */
   readonly now?: number;
+  /** When each result arrives (see Arrival). Default `now`. */
+  readonly arrival?: Arrival;
   /** Told about each rejected record as it is met. */
   readonly onRejected?: (r: RejectedRecord) => void;
 }
@@ -69,8 +85,11 @@ const DAY_MS = 86_400_000;
 export async function replayRecords(records: AsyncIterable<SourceRecord> | Iterable<SourceRecord>, options: ReplayOptions): Promise<ReplayOutcome> {
   const { config } = options;
   const now = options.now ?? Date.now();
+  const live = options.arrival === 'sampled';
+  // With arrival `sampled`, the processing clock follows the sampling times met in the file (never going back).
+  let clock = live ? Number.NEGATIVE_INFINITY : now;
   const store = new MemoryStore({ config, now: () => now });
-  const deps: EvaluationDeps = { store, ledger: store, config, rules: incidentRules(config), now: () => now };
+  const deps: EvaluationDeps = { store, ledger: store, config, rules: incidentRules(config), now: () => clock };
   const printed = new Map<string, string>();
   const keyed: Array<{ key: number; line: TimelineLine }> = [];
   let count = 0;
@@ -88,9 +107,9 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
       reject({ line: r.line, ...(r.sampleId !== undefined && { sampleId: r.sampleId }), errors: r.issues });
       continue;
     }
-    let stored;
+    let stored: StoredResult;
     try {
-      stored = await storeResult(store, config, r.record, now);
+      stored = live ? await storeOnArrival(store, config, r.record, now) : await storeResult(store, config, r.record, now);
     } catch (e) {
       if (!(e instanceof InvalidResultError)) throw e;
       reject({ line: r.line, ...(e.sampleId !== undefined && { sampleId: e.sampleId }), errors: e.issues });
@@ -105,11 +124,12 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
       reject({ line: r.line, sampleId: stored.sample.sampleId, errors: [{ path: 'revision', reason }] });
       continue;
     }
+    if (live) clock = Math.max(clock, stored.sample.time);
     if (!stored.outcome.evaluationDue) continue;
     await settleComponent(deps, stored.sample, (result) => {
       const key = Math.max(...result.steps.map((s) => Date.parse(s.sampledAt)));
       for (const step of result.steps) {
-        for (const f of changedFindings(step, printed)) keyed.push({ key: Date.parse(f.sampledAt), line: { type: 'finding', ...f, quiet: Date.parse(f.sampledAt) < quietBefore } });
+        for (const f of changedFindings(step, printed)) keyed.push({ key: Date.parse(f.sampledAt), line: { type: 'finding', ...f, quiet: !live && Date.parse(f.sampledAt) < quietBefore } });
       }
       for (const c of result.changes) {
         // A notified entry's own `type` (the message's event type) travels as `event`: `type` names the line.
@@ -137,6 +157,13 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
   // Array.prototype.sort is stable: lines of one instant keep the order they were produced in.
   const timeline = keyed.sort((a, b) => a.key - b.key).map((k) => k.line);
   return { timeline, records: count, rejected, store };
+}
+
+/** Validates a record by the processing time (dates in the future) and stores it as received at its own sampling time. */
+async function storeOnArrival(store: MemoryStore, config: Config, record: unknown, now: number): Promise<StoredResult> {
+  const parsed = validateResult(record, { now });
+  if (!parsed.ok) throw new InvalidResultError(parsed.issues, claimedSampleId(record));
+  return storeSample(store, config, parsed.sample, parsed.sample.time);
 }
 
 /** The step's findings unless exactly these were listed for its sample before (a step folded again). */

@@ -90,6 +90,9 @@ describe('wearshift backtest: alarm-management key figures', () => {
     expect(north.perDay.average).toBeCloseTo(north.annunciations / f.period.days, 3);
     expect(north.perWeek.peak).toBeGreaterThanOrEqual(north.perDay.peak);
     expect(f.annunciations).toBeGreaterThanOrEqual(f.incidents);
+    // Nobody acknowledges in a backtest: the lead, two hours behind north, would hear of every north annunciation
+    // (each stays active for weeks, until samples come back clean), listed apart from the tier-0 load.
+    expect(summary.runs[0]!.escalation).toEqual({ annunciations: north.annunciations, responders: [{ responder: 'email:lead@plant.example', annunciations: north.annunciations }] });
   });
 
   it('the injected steps are never repaired, so their incidents stand at the end; only active incidents stand', () => {
@@ -125,6 +128,7 @@ describe('wearshift backtest: alarm-management key figures', () => {
     expect(embedded(html)).toEqual(summary);
     expect(html).toContain('id="alarm-figures"');
     expect(html).toContain('email:north@plant.example');
+    expect(html).toMatch(/<table class="escalation">[\s\S]*email:lead@plant\.example/);
     expect(html).toMatch(/ISA-18\.2/);
     expect(html).toContain('the equipment maker&#39;s limits');
   });

@@ -106,6 +106,10 @@ describe('wearshift backtest', { timeout: 600_000 }, () => {
         expect(await page.locator('details.component').count()).toBe(summary.fleet.components);
         // The caution and the summary come first, before any list or chart.
         expect(await page.locator('header.page .caution').innerText()).toContain('wearshift advises');
+        expect(summary.advisory).toContain('wearshift advises');
+        // The history is long enough for a rate (at least the stated minimum of component-years).
+        expect(summary.runs[0]!.incidents.componentYears).toBeGreaterThanOrEqual(summary.runs[0]!.incidents.minComponentYears);
+        expect(await page.locator('.card[data-metric="incidents"] .note').innerText()).toMatch(/per 100 component-years$/);
         expect(await page.locator('main > section').first().getAttribute('class')).toBe('headline');
         // Long sections fold: components without an incident are folded, and a click folds an open one.
         const withIncident = new Set(summary.runs[0]!.episodes.map((x) => `${x.unit}/${x.component}`)).size;

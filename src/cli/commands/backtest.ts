@@ -11,12 +11,12 @@ import { backtest, type BacktestConfiguration } from '../../backtest/backtest.ts
 import { componentCharts } from '../../backtest/charts.ts';
 import { readBudget } from '../../backtest/parameters.ts';
 import { renderBacktestReport } from '../../backtest/reportHtml.ts';
-import type { BacktestSummary } from '../../backtest/summary.ts';
+import { MIN_COMPONENT_YEARS, type BacktestSummary } from '../../backtest/summary.ts';
 import { loadConfig } from '../../runtime/loadConfig.ts';
 import { InputError } from '../../domain/errors.ts';
 import { formatOf, readRecordFile, type SourceRecord } from '../../intake/fileRecords.ts';
 import type { RejectedRecord } from '../../pipeline/replay.ts';
-import { processingTime, writeJsonLine } from '../output.ts';
+import { ADVISORY_LINE, processingTime, writeJsonLine } from '../output.ts';
 
 interface BacktestCommandOptions {
   config?: string;
@@ -30,11 +30,18 @@ interface BacktestCommandOptions {
 
 const HELP = `
 Each configuration replays the whole file on its own, in file order, through the same storing, evaluation and incident
-code as the worker. An incident is one episode; EWMA/CUSUM count on rises only, classic rules are limit, rate and
-population. Leads are in samples of the component, operating hours (unit-hours meter) and days.
+code as the worker. Every result is taken as arriving live, at its sampling time: none is quiet backfill
+(backfill.quietAfterDays does not apply), so the incidents are those production keeps when the results come in as they
+are sampled, whatever --now and the age of the history. An incident is one episode; EWMA/CUSUM count on rises only,
+classic rules are limit, rate and population. Leads are in samples of the component, operating hours (unit-hours meter)
+and days. Exposure is counted in component-years, each component from its first to its last sample; rates per 100
+component-years are given from ${MIN_COMPONENT_YEARS} component-year of exposure on (below it the summary says the exposure
+is too short, and the JSON gives null beside the exposure).
 The alarm-management key figures (ISA-18.2 / IEC 62682, EEMUA 191) count annunciations (an incident opening or becoming
-active again) per tier-0 responder of the escalation policies, per day and per week (average and peak), and standing,
-stale and chattering incidents by the thresholds of the alarmFigures section; nobody acknowledges in a backtest.
+active again) per tier-0 responder of the escalation chain running at that point (the policy matching the incident's
+severity when it was announced), per day and per week (average and peak), and standing, stale and chattering incidents
+by the thresholds of the alarmFigures section. Nobody acknowledges in a backtest: stale shows what would go stale, and
+the later tiers are listed apart with what they would hear of if nobody acknowledged within their delay.
 --budget "A per component per Y years" replaces the configured false-alarm budget (alarms and period; the sample
 interval and hours per year stay as configured) in every configuration; the report shows the h and L it gives and the
 "wearshift design" commands that print the same numbers.
@@ -51,7 +58,7 @@ export function registerBacktest(program: Command): void {
     .option('--compare <file>', 'a second configuration, backtested on the same history and shown side by side')
     .option('--out <file>', 'write the HTML report here')
     .option('--json', 'print the summary as one JSON object')
-    .option('--now <time>', 'processing time, ISO 8601 with a time zone (e.g. 2027-01-01T00:00:00Z): samples after it are rejected as lying in the future, older ones count as backfill (default: now)')
+    .option('--now <time>', 'processing time, ISO 8601 with a time zone (e.g. 2027-01-01T00:00:00Z): samples dated more than a day after it are rejected as lying in the future; nothing else depends on it (default: now)')
     .addHelpText('after', HELP)
     .action(async (file: string, opts: BacktestCommandOptions) => {
       if (opts.out === undefined && !opts.json) throw new InputError('give --out report.html, --json, or both');
@@ -121,7 +128,11 @@ function readable(s: BacktestSummary, out: string | undefined): string {
       );
     }
     const fam = Object.entries(r.incidents.byFamily).filter(([, v]) => v.incidents > 0).map(([f, v]) => `${f} ${v.incidents}`).join(', ');
-    lines.push(`${prefix}incidents: ${r.incidents.total} (${r.incidents.per100ComponentYears === null ? '-' : fmt(r.incidents.per100ComponentYears)} per 100 component-years)${fam ? `; with ${fam}` : ''}`);
+    const rate =
+      r.incidents.per100ComponentYears === null
+        ? `exposure ${fmt(r.incidents.componentYears)} component-years: too short for a rate per 100 component-years, which needs at least ${fmt(r.incidents.minComponentYears)}`
+        : `${fmt(r.incidents.per100ComponentYears)} per 100 component-years`;
+    lines.push(`${prefix}incidents: ${r.incidents.total} (${rate})${fam ? `; with ${fam}` : ''}`);
     const lim = r.earliness.vsLimit;
     const cls = r.earliness.vsClassic;
     lines.push(
@@ -133,9 +144,16 @@ function readable(s: BacktestSummary, out: string | undefined): string {
     lines.push(
       `${prefix}alarm figures: ${a.annunciations} annunciations, ${busiest}; standing ${a.standing.peak} at most at once, stale ${a.stale.peak} (nobody acknowledges), chattering ${a.chattering.incidents}`,
     );
+    const later = r.escalation.responders;
+    if (later.length > 0) {
+      lines.push(
+        `${prefix}escalation if nobody acknowledges: ${r.escalation.annunciations} annunciations would reach later tiers: ${later.map((x) => `${x.responder} ${x.annunciations}`).join(', ')} (the load above counts tier 0)`,
+      );
+    }
   }
   for (const row of s.comparison ?? []) if (row.differs) lines.push(`differs: ${row.metric}: ${row.values.map((v) => (v === null ? '-' : String(v))).join(' vs ')}`);
   if (out !== undefined) lines.push(`report: ${out}`);
+  lines.push(ADVISORY_LINE);
   return `${lines.join('\n')}\n`;
 }
 

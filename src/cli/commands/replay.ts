@@ -14,6 +14,7 @@ import { FORECAST_CAUTION } from '../../domain/caution.ts';
 import { formatTime, timeZoneNote } from '../../notify/format.ts';
 import { ADVISORY_CAUTION, severityWords } from '../../notify/message.ts';
 import type { Config } from '../../domain/config.ts';
+import type { Disposition } from '../../domain/finding.ts';
 import { describeState, type Incident } from '../../incidents/model.ts';
 import { componentView } from '../../pipeline/componentView.ts';
 import type { MemoryStore } from '../../pipeline/memory/memoryStore.ts';
@@ -32,7 +33,10 @@ export function registerReplay(program: Command): void {
     .argument('<file>', 'CSV or JSONL, as for import')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--format <format>', 'csv or jsonl (default: from the file name)')
-    .option('--now <time>', 'processing time for the backfill rule, ISO 8601 with a time zone, e.g. 2026-02-01T12:00:00Z (default: now)')
+    .option(
+      '--now <time>',
+      'processing time, ISO 8601 with a time zone, e.g. 2026-02-01T12:00:00Z (default: now): every record arrives at it, as when the file is imported then, so a result sampled more than backfill.quietAfterDays before it is quiet backfill (nobody told, and an incident only seen so closes on its return to normal); a sample dated more than a day after it is rejected as lying in the future',
+    )
     .option('--json', 'JSON lines: {"type":"finding",...} and {"type":"incident",...}')
     .action(async (file: string, opts: ReplayCommandOptions) => {
       const format = formatOf(file, opts.format);
@@ -110,11 +114,14 @@ function reportRejected(r: RejectedRecord, json: boolean): void {
   for (const e of r.errors) process.stderr.write(terminalText(`line ${r.line}${r.sampleId === undefined ? '' : ` (sampleId ${r.sampleId})`}: ${e.path || '(record)'}: ${e.reason}\n`));
 }
 
+/** A finding that opens nothing says so beside its severity: only an incident finding asks for a response. */
+const DISPOSITION_MARK: Record<Disposition, string> = { incident: '', advisory: ' (advisory)', held: ' (held: sample in doubt)' };
+
 function readable(line: TimelineLine, zone: string): string {
   const where = `${line.unit}/${line.component}`;
   if (line.type === 'finding') {
     const rule = `${line.measurand} ${line.rule}${line.direction ? ` ${line.direction}` : ''}`;
-    return `${formatTime(line.sampledAt, zone)}  ${where}  ${line.sampleId}  ${rule}  ${line.severity}${line.quiet ? ' (quiet)' : ''}  ${line.explanation}`;
+    return `${formatTime(line.sampledAt, zone)}  ${where}  ${line.sampleId}  ${rule}  ${line.severity}${DISPOSITION_MARK[line.disposition]}${line.quiet ? ' (quiet)' : ''}  ${line.explanation}`;
   }
   const l = line as unknown as Record<string, unknown>;
   const detail = typeof l.explanation === 'string' ? `  ${l.explanation}` : typeof l.how === 'string' ? `  ${l.how}` : '';

@@ -1,0 +1,126 @@
+/**
+ * What `wearshift backtest` and `wearshift replay` print for people, through the real command line: the backtest's
+ * summary ends with the caution (and its --json carries it), says when the history is too short for a rate per 100
+ * component-years instead of printing one; replay marks the findings that open nothing — advisory ones, and held
+ * ones whose sample is in doubt — so that they do not read like incident findings; and both --help texts say what
+ * --now decides.
+ */
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { BacktestSummary } from '../../src/backtest/summary.ts';
+import { ADVISORY_CAUTION } from '../../src/domain/caution.ts';
+import { runCli, type CliResult } from '../helpers/cli.ts';
+
+const DAY = 86_400_000;
+const T0 = Date.parse('2025-01-06T08:00:00Z');
+
+/**
+ * Six pump gearboxes sampled every 14 days with iron near 20 ppm. P1's 11th sample has 60 ppm: far above the group's
+ * population levels, a finding that opens nothing by default (advisory). P2's 11th sample has water above its caution
+ * level but unit hours below the previous sample's: a sampling check puts the sample in doubt, so the water findings
+ * are held.
+ */
+function fleet(): string {
+  const lines = [];
+  for (const [u, unit] of ['P1', 'P2', 'P3', 'P4', 'P5', 'P6'].entries()) {
+    for (let i = 0; i < 12; i++) {
+      const fe = 20 + ((i * 7 + u * 3) % 5) - 2;
+      let readings: Record<string, number> = { Fe: fe, water: 100 };
+      let unitHours = 1000 + i * 250;
+      if (unit === 'P1' && i === 10) readings = { Fe: 60, water: 100 };
+      if (unit === 'P2' && i === 10) {
+        readings = { Fe: fe, water: 800 };
+        unitHours = 1000 + 5 * 250;
+      }
+      const sampledAt = new Date(T0 + i * 14 * DAY + u * 3_600_000).toISOString();
+      lines.push({ sampleId: `${unit}-${String(i).padStart(2, '0')}`, unit, component: 'gearbox', sampledAt, unitHours, oilHours: 250 * (i + 1), readings });
+    }
+  }
+  return lines
+    .sort((a, b) => (a.sampledAt < b.sampledAt ? -1 : 1))
+    .map((l) => JSON.stringify(l))
+    .join('\n');
+}
+
+const CONFIG = `
+detection: { measurands: [] }
+population: { measurands: [Fe], minResults: 10, sigma: { caution: 3, alarm: 4 } }
+groups:
+  - name: pumps
+    match: { component: gearbox }
+    limits:
+      water: { caution: 500, alarm: 1000 }
+`;
+
+/** Two samples two hours apart, the second above the water alarm level. */
+const TWO = [
+  { sampleId: 'S1', unit: 'U1', component: 'gearbox', sampledAt: '2026-03-01T08:00:00Z', unitHours: 1000, oilHours: 250, readings: { Fe: 5, water: 100 } },
+  { sampleId: 'S2', unit: 'U1', component: 'gearbox', sampledAt: '2026-03-01T10:00:00Z', unitHours: 1002, oilHours: 252, readings: { Fe: 5, water: 1500 } },
+]
+  .map((l) => JSON.stringify(l))
+  .join('\n');
+
+const NOW = ['--now', '2026-06-01T00:00:00Z'];
+
+describe('backtest and replay output', { timeout: 600_000 }, () => {
+  let dir: string;
+  const file = (name: string) => join(dir, name);
+  let replay: CliResult;
+  let text: CliResult;
+  let json: CliResult;
+  let help: CliResult;
+  let replayHelp: CliResult;
+
+  beforeAll(async () => {
+    dir = mkdtempSync(join(tmpdir(), 'wearshift-output-'));
+    writeFileSync(file('fleet.jsonl'), `${fleet()}\n`);
+    writeFileSync(file('two.jsonl'), `${TWO}\n`);
+    writeFileSync(file('config.yaml'), CONFIG);
+    [replay, text, json, help, replayHelp] = await Promise.all([
+      runCli(['replay', file('fleet.jsonl'), '--config', file('config.yaml'), ...NOW]),
+      runCli(['backtest', file('two.jsonl'), '--config', file('config.yaml'), ...NOW, '--out', file('two.html')]),
+      runCli(['backtest', file('two.jsonl'), '--config', file('config.yaml'), ...NOW, '--json']),
+      runCli(['backtest', '--help']),
+      runCli(['replay', '--help']),
+    ]);
+  }, 600_000);
+  afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+  it('replay marks advisory and held findings, and leaves incident findings as they are', () => {
+    expect(replay.code).toBe(0);
+    const line = (sampleId: string, rule: string) => replay.stdout.split('\n').find((l) => l.includes(`  ${sampleId}  ${rule}  `));
+    expect(line('P1-10', 'Fe population')).toMatch(/ alarm \(advisory\)/);
+    expect(line('P2-10', 'water limit')).toMatch(/ caution \(held: sample in doubt\)/);
+    expect(line('P2-10', 'water condition')).toMatch(/ caution \(held: sample in doubt\)/);
+    // The sampling finding itself opens the sampling incident: no mark.
+    const sampling = line('P2-10', 'Fe sampling')!;
+    expect(sampling).toMatch(/ caution /);
+    expect(sampling).not.toMatch(/\((advisory|held)/);
+  });
+
+  it('the backtest summary says the history is too short for a rate and ends with the caution', () => {
+    expect(text.code).toBe(0);
+    expect(text.stdout).toMatch(/^incidents: 1 \(exposure 0\.000\d+ component-years: too short for a rate per 100 component-years, which needs at least 1\)/m);
+    expect(text.stdout).not.toMatch(/\d per 100 component-years/);
+    expect(text.stdout.trim().split('\n').at(-1)).toBe(ADVISORY_CAUTION);
+  });
+
+  it('--json carries the caution, and a null rate beside the exposure it would be taken over', () => {
+    expect(json.code).toBe(0);
+    const s = JSON.parse(json.stdout) as BacktestSummary;
+    expect(s.advisory).toBe(ADVISORY_CAUTION);
+    expect(s.runs[0]!.incidents).toMatchObject({ total: 1, per100ComponentYears: null, minComponentYears: 1 });
+    expect(s.runs[0]!.incidents.componentYears).toBe(s.fleet.componentYears);
+    expect(s.runs[0]!.incidents.componentYears).toBeGreaterThan(0);
+  });
+
+  it('--help says what --now decides', () => {
+    // Commander wraps the option texts: compared with the line breaks as spaces.
+    const flat = (r: CliResult) => r.stdout.replace(/\s+/g, ' ');
+    expect(flat(help)).toMatch(/arriving live, at its sampling time/);
+    expect(flat(help)).toMatch(/--now .* nothing else depends on it/);
+    expect(flat(replayHelp)).toMatch(/--now .* every record arrives at it, .* backfill\.quietAfterDays/);
+  });
+});
