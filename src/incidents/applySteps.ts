@@ -32,6 +32,8 @@ export interface IncidentStep {
   readonly forecast?: ComponentForecast;
   /** The sample arrived as backfill; default: sampled before the context's quietBefore. */
   readonly quiet?: boolean;
+  /** The sample is in doubt (a sampling finding, not yet confirmed): it does not count as a clean sample of a machine incident. */
+  readonly inDoubt?: boolean;
 }
 
 export function applySteps(state: ComponentIncidents, steps: readonly IncidentStep[], ctx: StepContext): IncidentResult {

@@ -28,6 +28,11 @@ export interface VerdictStep {
   readonly findings: readonly Finding[];
   /** The component's time-to-limit forecasts after this step (analysis/forecast); absent when not made. */
   readonly forecast?: ComponentForecast;
+  /**
+   * The sample is in doubt: its findings other than alarms were held back, so it does not count as a clean sample of
+   * a machine incident (a bottle of new oil must not bring an incident back to normal).
+   */
+  readonly inDoubt?: boolean;
 }
 
 export interface StepOptions {
@@ -72,7 +77,7 @@ export function judgeStep(draft: DraftState, step: VerdictStep, options: StepOpt
       const kind = incidentKindOf(findings[0]!);
       const context = step.findings.filter((f) => f.disposition !== 'incident' && incidentKindOf(f) === kind);
       draft.incidents[key] = withFindings(draft, key, existing, findings, context, step, options, rules);
-    } else if (existing !== undefined) {
+    } else if (existing !== undefined && !(step.inDoubt === true && existing.kind === 'machine')) {
       cleanStep(existing, step, options, rules);
     }
   }

@@ -127,6 +127,7 @@ async function evaluateUnderLease(deps: EvaluationDeps, ref: ComponentRef, lease
       time: sample.time,
       ...(sample.unitHours !== undefined && { unitHours: sample.unitHours }),
       quiet: s.receivedAt - sample.time > quietAfter,
+      ...(step.status === 'in-doubt' && { inDoubt: true }),
       ...(forecast !== undefined && { forecast }),
     });
     const included = step.status === undefined || step.status === 'confirmed';

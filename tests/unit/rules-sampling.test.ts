@@ -90,6 +90,59 @@ describe('sampling checks', () => {
     expect(run([...low, lowCensored]).sampling(lowCensored.sampleId)).toEqual([]);
   });
 
+  it('a replaced hour meter: the second sample that agrees with the first one in doubt is accepted, and the ones after it are judged again', () => {
+    const healthy = charge([10, 20, 30, 40, 50]);
+    // The unit hours restart near zero and go on from there; the wear goes on as before.
+    const after = [60, 70, 80, 90].map((day, i) =>
+      sample(day, { unitHours: 10 + i * 250, oilHours: 1500 + i * 250, readings: { Fe: 38 + 6 * i, Cu: 7 + i, Ca: 2400, Zn: 1100, P: 950, Si: 4 } }),
+    );
+    const { at, sampling } = run([...healthy, ...after]);
+    expect(checks(sampling(after[0]!.sampleId))).toEqual(['unit-hours-back']);
+    expect(at(after[0]!.sampleId).status).toBe('in-doubt');
+    for (const later of after.slice(1)) {
+      expect(sampling(later.sampleId)).toEqual([]);
+      expect(at(later.sampleId).status).toBeUndefined();
+    }
+    // Iron passes the caution level of 45 ppm on the accepted samples: an incident finding, not a held one.
+    const fe = at(after[2]!.sampleId).findings.find((f) => f.rule === 'limit' && f.measurand === 'Fe');
+    expect(fe).toMatchObject({ disposition: 'incident', severity: 'caution' });
+  });
+
+  it('a change of oil through top-ups: the second sample of the new oil is accepted, the first one stays in doubt until confirmed', () => {
+    const healthy = charge([10, 20, 30, 40, 50]);
+    const newOil = [60, 70, 80].map((day, i) =>
+      sample(day, { unitHours: 2500 + i * 250, oilHours: 1500 + i * 250, readings: { Fe: 38 + 6 * i, Cu: 7 + i, Ca: 3900, Zn: 300, P: 950, Si: 4 } }),
+    );
+    const { at, sampling } = run([...healthy, ...newOil]);
+    expect(checks(sampling(newOil[0]!.sampleId))).toEqual(['foreign-oil']);
+    expect(at(newOil[0]!.sampleId).status).toBe('in-doubt');
+    expect(at(newOil[1]!.sampleId).status).toBeUndefined();
+    expect(at(newOil[2]!.sampleId).status).toBeUndefined();
+  });
+
+  it('two faults in a row that do not agree with each other both stay in doubt', () => {
+    const healthy = charge([10, 20, 30, 40, 50]);
+    const bottle = sample(60, { unitHours: 2500, oilHours: 1500, readings: { Fe: 1, Cu: '<1', Ca: 2400, Zn: 1100, P: 950, Si: 4 } });
+    const foreign = sample(70, { unitHours: 2750, oilHours: 1750, readings: { Fe: 44, Cu: 8, Ca: 3900, Zn: 300, P: 950, Si: 4 } });
+    const { at } = run([...healthy, bottle, foreign]);
+    expect(at(bottle.sampleId).status).toBe('in-doubt');
+    expect(at(foreign.sampleId).status).toBe('in-doubt');
+  });
+
+  it('a reading at an alarm level on a sample in doubt is not held back: it opens its incident and says the sample is in doubt', () => {
+    const healthy = charge([10, 20, 30, 40, 50]);
+    const back = sample(60, { unitHours: 1500, oilHours: 1500, readings: { Fe: 80, Cu: 7, Ca: 2400, Zn: 1100, P: 950, Si: 4 } });
+    const { at } = run([...healthy, back]);
+    expect(at(back.sampleId).status).toBe('in-doubt');
+    const fe = at(back.sampleId).findings.find((f) => f.rule === 'limit' && f.measurand === 'Fe')!;
+    expect(fe).toMatchObject({ severity: 'alarm', disposition: 'incident' });
+    expect(fe.explanation).toMatch(/in doubt/);
+    // A caution-level reading on a sample in doubt stays held.
+    const cautious = sample(60, { unitHours: 1500, oilHours: 1500, readings: { Fe: 50, Cu: 7, Ca: 2400, Zn: 1100, P: 950, Si: 4 } });
+    const held = run([...healthy, cautious]).at(cautious.sampleId).findings.find((f) => f.rule === 'limit' && f.measurand === 'Fe')!;
+    expect(held).toMatchObject({ severity: 'caution', disposition: 'held' });
+  });
+
   it('a duplicated bottle: identical readings under two sample numbers', () => {
     const healthy = charge([10, 20, 30, 40, 50]);
     const twin = sample(60, { sampleId: 'S-TWIN', unitHours: 2250, oilHours: 1250, readings: { Fe: 32, Cu: 6, Ca: 2400, Zn: 1100, P: 950, Si: 4 } });
@@ -149,11 +202,11 @@ describe('sampling checks', () => {
 
   it('holds the other findings of a sample in doubt, and counts them once a responder confirms it', () => {
     const healthy = charge([10, 20, 30, 40, 50]);
-    // Another unit's bottle: other oil, and iron above the fixed alarm level of the group.
-    const foreign = sample(60, { unitHours: 2500, oilHours: 1500, readings: { Fe: 90, Cu: 7, Ca: 3900, Zn: 300, P: 950, Si: 4 } });
+    // Another unit's bottle: other oil, and iron above the fixed caution level of the group.
+    const foreign = sample(60, { unitHours: 2500, oilHours: 1500, readings: { Fe: 50, Cu: 7, Ca: 3900, Zn: 300, P: 950, Si: 4 } });
     const doubt = run([...healthy, foreign]);
     const limit = doubt.at(foreign.sampleId).findings.find((f) => f.rule === 'limit')!;
-    expect(limit).toMatchObject({ severity: 'alarm', disposition: 'held' });
+    expect(limit).toMatchObject({ severity: 'caution', disposition: 'held' });
 
     const confirmed = run([...healthy, foreign], { [foreign.sampleId]: 'confirmed' });
     expect(confirmed.sampling(foreign.sampleId)).toEqual([]);

@@ -153,15 +153,25 @@ export class AnalysisFold {
     const s = this.s;
     const base = { unit: s.unit, component: s.component, settings: this.settings, ...(group !== undefined && { group }), sample };
     const prior = s.charge;
-    const verdict =
-      mark === undefined
-        ? samplingChecks({ ...base, intervals: NO_INTERVALS }, s.sampling, {
-            ...(prior?.lastOilHours !== undefined && { lastOilHours: prior.lastOilHours }),
-            continuesCharge: prior !== undefined && chargeStart(sample, prior.lastOilHours) === undefined,
-            changeReported: sample.oilChanged || sample.componentChanged,
-            carryOver: () => carryOverOf(sample, this.settings.sumpLitres),
-          })
-        : { findings: [], inDoubt: false };
+    const checks = (track: SamplingTrack, lastOilHours: number | undefined) =>
+      samplingChecks({ ...base, intervals: NO_INTERVALS }, track, {
+        ...(lastOilHours !== undefined && { lastOilHours }),
+        continuesCharge: prior !== undefined && chargeStart(sample, lastOilHours) === undefined,
+        changeReported: sample.oilChanged || sample.componentChanged,
+        carryOver: () => carryOverOf(sample, this.settings.sumpLitres),
+      });
+    let verdict = mark === undefined ? checks(s.sampling, prior?.lastOilHours) : { findings: [], inDoubt: false };
+    // In doubt against the accepted history but not against the sample in doubt just before it: the two agree on a
+    // new level, and this one is accepted (see SamplingTrack.doubted).
+    const doubted = s.sampling.doubted;
+    let reference = s.sampling;
+    if (mark === undefined && verdict.inDoubt && doubted !== undefined) {
+      const again = checks(doubted.track, doubted.oilHours ?? prior?.lastOilHours);
+      if (!again.inDoubt) {
+        verdict = again;
+        reference = doubted.track;
+      }
+    }
     const status: SampleStatus = mark ?? (verdict.inDoubt ? 'in-doubt' : 'accepted');
     const included = status === 'accepted' || status === 'confirmed';
     const intervals = new Map<Measurand, Interval>();
@@ -179,7 +189,7 @@ export class AnalysisFold {
         if (interval !== undefined) intervals.set(m, interval);
       }
     }
-    s.sampling = advanceSampling(s.sampling, sample, included, newCharge);
+    s.sampling = advanceSampling(reference, sample, included, newCharge, verdict.findings.some((f) => f.check === 'foreign-oil'));
     const input: SampleInput = { ...base, intervals };
     if (included && this.detecting) {
       for (const m of this.settings.detection.measurands) {
@@ -224,7 +234,9 @@ export class AnalysisFold {
             ...changeVerdicts(input, points, s.change),
             ...peerFindings,
           ];
-    if (status === 'in-doubt') findings = findings.map((f) => (f.disposition === 'incident' ? { ...f, disposition: 'held' as const } : f));
+    // A sample in doubt holds its findings back until confirmed, except an alarm: a reading at an alarm level is not
+    // left waiting for someone to confirm the bottle; it says the sample is in doubt beside it.
+    if (status === 'in-doubt') findings = findings.map(inDoubtFinding);
     findings = [...findings, ...verdict.findings].sort(byKey);
     s.samples += 1;
     s.last = { sampleId: sample.sampleId, time: sample.time, ...(sample.unitHours !== undefined && { unitHours: sample.unitHours }) };
@@ -265,4 +277,10 @@ export function compareOrder(a: OrderKey, b: OrderKey): number {
   if (x !== undefined && y !== undefined && x !== y) return x < y ? -1 : 1;
   if ((x === undefined) !== (y === undefined)) return x === undefined ? 1 : -1;
   return a.sampleId < b.sampleId ? -1 : a.sampleId > b.sampleId ? 1 : 0;
+}
+
+function inDoubtFinding(f: Finding): Finding {
+  if (f.disposition !== 'incident') return f;
+  if (f.severity !== 'alarm') return { ...f, disposition: 'held' };
+  return { ...f, explanation: `${f.explanation} The sample itself is in doubt (see its sampling finding): re-sample to confirm.` };
 }

@@ -6,8 +6,8 @@
  *
  * A sample with a finding of this family (other than the two that describe a genuine event: an unreported drain
  * whose metals fell with it, and a wear rate falling over several samples) is *in doubt*: it is kept out of the
- * wear analysis, the baselines and the group statistics, and the findings of other families at it are held, until
- * a responder confirms it. Findings of this family open a sampling incident, for whoever takes the samples and for
+ * wear analysis, the baselines and the group statistics, and the findings of other families at it (but alarms) are
+ * held, until a responder confirms it; the next sample may agree with it on a new level (`SamplingTrack.doubted`). Findings of this family open a sampling incident, for whoever takes the samples and for
  * the lab, never a machine incident. The thresholds below are our own choices (documented in the README); the lab
  * decides what a sample really was.
  */
@@ -33,6 +33,13 @@ export interface SamplingTrack {
   readonly fingerprints: readonly { readonly sampleId: string; readonly fp: string }[];
   /** Latest accepted additive readings on the current charge, per element (oldest first). */
   readonly additives: Readonly<Partial<Record<Measurand, readonly number[]>>>;
+  /**
+   * The latest sample, when it was put in doubt: the track as if it had been accepted, and its oil hours. A next
+   * sample in doubt against the accepted history but not against this one shows the same new level (a replaced hour
+   * meter, a change of oil through top-ups, an unreported drain): it is accepted and becomes the reference, so that
+   * one doubtful sample never holds back the samples after it.
+   */
+  readonly doubted?: { readonly track: SamplingTrack; readonly oilHours?: number };
 }
 
 export const EMPTY_SAMPLING_TRACK: SamplingTrack = { fingerprints: [], additives: {} };
@@ -225,11 +232,20 @@ export function samplingChecks(input: SampleInput, track: SamplingTrack, ctx: Sa
   return { findings, inDoubt };
 }
 
-/** The track after a sample: an accepted one becomes the reference; every sample's fingerprint is kept. */
-export function advanceSampling(track: SamplingTrack, sample: Sample, accepted: boolean, newCharge: boolean): SamplingTrack {
+/**
+ * The track after a sample: an accepted one becomes the reference; every sample's fingerprint is kept; a sample in
+ * doubt is kept beside the reference as the level a next sample may agree with (`doubted`; `otherOil`: it was in
+ * doubt for its additive elements).
+ */
+export function advanceSampling(track: SamplingTrack, sample: Sample, accepted: boolean, newCharge: boolean, otherOil = false): SamplingTrack {
   const fp = fingerprint(sample);
   const fingerprints = fp === undefined ? track.fingerprints : [...track.fingerprints, { sampleId: sample.sampleId, fp }].slice(-FINGERPRINTS_KEPT);
-  if (!accepted) return { ...track, fingerprints };
+  if (!accepted) {
+    const { doubted: _, ...reference } = track;
+    // A sample of another oil starts the reference of its oil afresh, should the next sample show the same oil.
+    const asAccepted = advanceSampling(otherOil ? { ...reference, additives: {} } : reference, sample, true, false);
+    return { ...reference, fingerprints, doubted: { track: asAccepted, ...(sample.oilHours !== undefined && { oilHours: sample.oilHours }) } };
+  }
   const wear: Partial<Record<Measurand, number>> = {};
   for (const m of WEAR) {
     const v = valueOf(sample.readings[m]);
