@@ -128,7 +128,7 @@ export function samplingChecks(input: SampleInput, track: SamplingTrack, ctx: Sa
       true,
       s.unitHours,
       'unit hours',
-      `Unit hours ${formatNumber(s.unitHours)} are lower than the ${formatNumber(last.unitHours)} of the previous sample ${last.sampleId}: ` +
+      `Unit hours ${formatNumber(s.unitHours)} are lower than the ${formatNumber(last.unitHours)} of the last accepted sample, ${last.sampleId}: ` +
         'a wrong label or a replaced hour meter. Check the label; if the meter was replaced, confirm the sample.',
       last.unitHours,
     );
