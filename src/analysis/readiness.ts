@@ -1,8 +1,11 @@
 /**
  * What the analysis cannot judge yet about a component, and what it needs (first-day behaviour): per measurand,
  * how far its own baseline, the group baseline, the comparison with peers and the population band of its latest
- * sample are from being usable. Pure: from the fold's state, the settings and the group statistics at the latest
- * sample.
+ * sample are from being usable, and what the samples or the configuration lack for a rule to judge at all (oil
+ * hours for the population bands, a new-oil value for TBN, TAN and viscosity). Measurands the component's samples
+ * never carried are left out: nothing is judged on them, and listing every metal a lab does not report would bury
+ * the gaps that matter. Pure: from the fold's state, the settings, the group statistics at the latest sample and
+ * the samples.
  */
 import type { Sample } from '../domain/event.ts';
 import type { Measurand } from '../domain/measurands.ts';
@@ -17,33 +20,62 @@ export interface Progress {
   readonly need: number;
 }
 
+/** What the samples or the configuration lack for a rule to judge the measurand at all. */
+export type ReadinessNeed = 'oil hours' | 'oil or unit hours' | 'new-oil value';
+
 export interface MeasurandReadiness {
   readonly measurand: Measurand;
   /** Detection measurands: stable intervals of the component's own baseline (in its current life). */
   readonly ownBaseline?: Progress;
   /** Detection measurands: other components of the group with a complete own baseline, for the group baseline. */
   readonly groupBaseline?: Progress;
-  /** Detection measurands: other components with a complete own baseline, for the comparison with peers. */
-  readonly peers?: Progress;
+  /**
+   * Detection measurands, for the comparison with peers: `have` other components with a complete own baseline;
+   * `measurable` how many of them wear measurably (a learnt rate above zero), the ones the comparison is made with:
+   * it needs `need` of those.
+   */
+  readonly peers?: Progress & { readonly measurable: number };
   /** Population measurands: results in the oil-hours band of the latest sample (other units, as of its sampling time). */
   readonly band?: Progress & { readonly name: string };
   /** Change detection judges against: the component's own baseline, its group's, or nothing yet. */
   readonly changeDetection?: 'own baseline' | 'group baseline' | 'waiting';
+  /** What a rule needs before it can judge the measurand at all (see ReadinessNeed); absent when nothing is lacking. */
+  readonly needs?: readonly ReadinessNeed[];
   /** One sentence: what is judged and what is still missing. */
   readonly summary: string;
 }
 
-export function readinessOf(state: AnalysisState, settings: ComponentSettings, group: GroupStats | undefined, latest: Sample | undefined): MeasurandReadiness[] {
+/**
+ * The oil-condition measurands the condition rule judges against the group's new-oil value only (rules/condition.ts:
+ * TBN and viscosity need a value above zero, TAN any value); without one they stay silent.
+ */
+const NEW_OIL_MEASURANDS = ['tbn', 'tan', 'v40', 'v100'] as const satisfies readonly Measurand[];
+
+function hasNewOilValue(m: (typeof NEW_OIL_MEASURANDS)[number], settings: ComponentSettings): boolean {
+  const value = settings.newOil[m];
+  return m === 'tan' ? value !== undefined : value !== undefined && value > 0;
+}
+
+/**
+ * @param samples the component's samples in time order as the view holds them (a long history: its latest ones), the
+ *   last being the latest sample; a wear metal read before them is still known from the fold's state.
+ */
+export function readinessOf(state: AnalysisState, settings: ComponentSettings, group: GroupStats | undefined, samples: readonly Sample[]): MeasurandReadiness[] {
   const out: MeasurandReadiness[] = [];
+  const latest = samples.at(-1);
   const detection = settings.detection;
   const detecting = detection.ewma.enabled || detection.cusum.enabled;
   const population = new Set(populationMeasurands(settings.population));
-  const measurands = [...new Set<Measurand>([...(detecting ? detection.measurands : []), ...population])];
-  for (const m of measurands) {
+  const read = new Set<Measurand>(Object.keys(state.wear) as Measurand[]);
+  for (const s of samples) for (const m of Object.keys(s.readings) as Measurand[]) read.add(m);
+  const candidates = new Set<Measurand>([...(detecting ? detection.measurands : []), ...population, ...NEW_OIL_MEASURANDS]);
+  for (const m of candidates) {
+    if (!read.has(m)) continue;
     const parts: string[] = [];
+    const needs: ReadinessNeed[] = [];
     let own: Progress | undefined;
     let groupBaseline: Progress | undefined;
-    let peers: Progress | undefined;
+    let peers: MeasurandReadiness['peers'];
     let changeDetection: MeasurandReadiness['changeDetection'];
     if (detecting && detection.measurands.includes(m)) {
       const track = state.change[m];
@@ -54,7 +86,10 @@ export function readinessOf(state: AnalysisState, settings: ComponentSettings, g
       changeDetection = complete ? 'own baseline' : components >= MIN_GROUP_COMPONENTS ? 'group baseline' : 'waiting';
       if (settings.population.peers.enabled) {
         const need = settings.population.peers.minComponents;
-        peers = { have: Math.min(group?.baselines[m]?.peers?.components ?? 0, need), need };
+        // Only peers whose learnt rate is above zero are compared (on a log scale): a metal the group's units hardly
+        // shed leaves fewer of them than have a baseline.
+        const measurable = group?.baselines[m]?.peers?.components ?? 0;
+        peers = { have: Math.min(components, need), need, measurable: Math.min(measurable, components) };
       }
       parts.push(
         changeDetection === 'own baseline'
@@ -63,16 +98,37 @@ export function readinessOf(state: AnalysisState, settings: ComponentSettings, g
             ? `change detection against the group baseline (own baseline ${own.have} of ${own.need} intervals)`
             : `change detection waits: own baseline ${own.have} of ${own.need} intervals, group baseline ${groupBaseline.have} of ${groupBaseline.need} components`,
       );
+      if (latest !== undefined && latest.oilHours === undefined && latest.unitHours === undefined) {
+        needs.push('oil or unit hours');
+        parts.push('no wear rate at the latest sample: it needs oil hours or unit hours');
+      }
       if (peers !== undefined && peers.have < peers.need) parts.push(`comparison with peers ${peers.have} of ${peers.need} components`);
+      else if (peers !== undefined && peers.measurable < peers.need)
+        parts.push(`comparison with peers: ${peers.measurable} of the ${components} other components with a baseline wear measurably (rate above zero), it needs ${peers.need}`);
     }
     let band: MeasurandReadiness['band'];
-    if (population.has(m) && latest?.oilHours !== undefined) {
-      const b = group?.bands[m] ? bandFor(group.bands[m]!, latest.oilHours) : undefined;
-      if (b !== undefined) {
-        const name = b.toHours === null ? `from ${b.fromHours} h` : `${b.fromHours}–${b.toHours} h`;
-        band = { name, have: Math.min(b.n, settings.population.minResults), need: settings.population.minResults };
-        if (b.n < settings.population.minResults) parts.push(`population limits: band ${name} ${b.n} of ${settings.population.minResults} results`);
+    if (population.has(m) && latest !== undefined) {
+      const minResults = settings.population.minResults;
+      if (latest.oilHours === undefined) {
+        needs.push('oil hours');
+        parts.push('population limits need oil hours (the latest sample has none)');
+      } else {
+        const edges = [...settings.population.bandHours].sort((a, b) => a - b);
+        const i = edges.findLastIndex((e) => latest.oilHours! >= e);
+        if (i < 0) parts.push(`population limits: no oil-hours band holds the latest sample's ${latest.oilHours} h (the first starts at ${edges[0]} h)`);
+        else {
+          const to = edges[i + 1];
+          const name = to === undefined ? `from ${edges[i]} h` : `${edges[i]}–${to} h`;
+          const stats = group?.bands[m] ? bandFor(group.bands[m]!, latest.oilHours) : undefined;
+          const n = stats?.n ?? 0;
+          band = { name, have: Math.min(n, minResults), need: minResults };
+          if (n < minResults) parts.push(`population limits: band ${name} ${n} of ${minResults} results`);
+        }
       }
+    }
+    if ((NEW_OIL_MEASURANDS as readonly Measurand[]).includes(m) && !hasNewOilValue(m as (typeof NEW_OIL_MEASURANDS)[number], settings)) {
+      needs.push('new-oil value');
+      parts.push(`not judged: needs a new-oil value (set newOil.${m} for group ${settings.group}, or under defaults)`);
     }
     out.push({
       measurand: m,
@@ -81,8 +137,14 @@ export function readinessOf(state: AnalysisState, settings: ComponentSettings, g
       ...(peers && { peers }),
       ...(band && { band }),
       ...(changeDetection && { changeDetection }),
-      summary: `${m}: ${parts.length === 0 ? 'judged by every rule' : parts.join('; ')}.`,
+      ...(needs.length > 0 && { needs }),
+      summary: `${m}: ${parts.length === 0 ? 'judged by every rule that applies to it' : parts.join('; ')}.`,
     });
   }
   return out;
+}
+
+/** Whether a rule cannot judge the measurand yet: change detection waits, its population band is short, or a rule lacks what it needs. */
+export function notJudgedYet(r: MeasurandReadiness): boolean {
+  return r.changeDetection === 'waiting' || (r.band !== undefined && r.band.have < r.band.need) || (r.needs?.length ?? 0) > 0;
 }

@@ -53,5 +53,5 @@ export function viewOf(
   const evaluation = evaluateComponent(samples, settings, groupAt, { marks, ...(start !== undefined && { start }) });
   const latest = evaluation.history.samples.at(-1);
   const group = latest === undefined ? undefined : groupAt(latest);
-  return { entry, settings, evaluation, group, readiness: readinessOf(evaluation.state, settings, group, latest) };
+  return { entry, settings, evaluation, group, readiness: readinessOf(evaluation.state, settings, group, evaluation.history.samples) };
 }

@@ -57,7 +57,7 @@ describe('a sustained doubling of the wear rate', () => {
     const samples = simulatedSamples({ samples: STEP_AT + AFTER, metals: steppedFe(STEP_AT * IN_CONTROL.intervalHours, 2) }, 101);
     const ev = evaluateComponent(samples, settings);
     const later = ev.steps.at(-1)!.findings.find((f) => f.rule === 'cusum' || f.rule === 'ewma')!;
-    expect(later.explanation).toMatch(/what this component's own samples SIM-101-gearbox-0002 to SIM-101-gearbox-0013 showed \(12 intervals\)/);
+    expect(later.explanation).toMatch(/what this component's own samples SIM-101-gearbox-0001 to SIM-101-gearbox-0013 \(12 intervals\) showed/);
     expect(later.explanation).toMatch(/held since sample SIM-101-gearbox-00\d\d where the change was first signalled/);
     expect(later.explanation).toMatch(/next: re-sample to confirm/);
     // It claims no more than the model knows: a usual rate, learnt from the samples, not a proven healthy one.

@@ -7,7 +7,7 @@
  * against its binomial spread.
  */
 import { describe, expect, it } from 'vitest';
-import { peerAlpha, peerLimitZ, peerScore } from '../../src/analysis/rules/peers.ts';
+import { peerAlpha, peerLimitZ, peerScore, peerVerdict } from '../../src/analysis/rules/peers.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import { resolveSettings } from '../../src/domain/settings.ts';
 import { seededRandom } from '../../src/simulation/random.ts';
@@ -54,5 +54,26 @@ describe('comparison with peers', () => {
     expect(peerScore(0.01, { components: 2, meanLogRate: Math.log(0.01), sdLogRate: 0.3 }, settings)).toBeUndefined();
     expect(peerScore(0.01, { components: 10, meanLogRate: Math.log(0.01), sdLogRate: 0 }, settings)).toBeUndefined();
     expect(peerScore(0.02, { components: 10, meanLogRate: Math.log(0.01), sdLogRate: 0.4 }, settings)).toBeCloseTo(Math.log(2) / 0.4, 12);
+  });
+});
+
+describe('the peer finding\u2019s explanation', () => {
+  const sums = { intervals: 12, sumHours: 3000, sumHoursSq: 3000 * 250, sumIncrement: 300, sumIncrementSq: 7600, sumIncrementHours: 75_000, sumLabVariance: 24 };
+  const own = { sums, start: { sampleId: 'S00', sampledAt: '2025-01-01T00:00:00.000Z' }, completedAt: 11, completedSampleId: 'S12', completedSampledAt: '2025-05-06T00:00:00.000Z' };
+  const peers = { components: 8, meanLogRate: Math.log(0.02), sdLogRate: 0.3 };
+  const verdict = (m: 'Fe' | 'pq') => {
+    const s = resolveSettings(ConfigSchema.parse({ detection: { measurands: [m] } }), { unit: 'U1', component: 'gearbox' });
+    const sample = { sampleId: 'S20', sampledAt: '2025-08-01T00:00:00.000Z' } as Parameters<typeof peerVerdict>[0]['sample'];
+    return peerVerdict({ unit: 'U1', component: 'gearbox', settings: s, sample, intervals: new Map() }, m, own, peers, false).finding!;
+  };
+
+  it('names the own baseline\u2019s samples from the reading its first interval starts at', () => {
+    expect(verdict('Fe').explanation).toContain('its own usual rate 10 ppm/100 h, learnt from its samples S00 to S12 (12 intervals), against their typical 2 ppm/100 h');
+  });
+
+  it('gives the rates of the PQ index in index points, not ppm', () => {
+    const text = verdict('pq').explanation;
+    expect(text).toContain('its own usual rate 10 index points/100 h');
+    expect(text).not.toContain('ppm');
   });
 });

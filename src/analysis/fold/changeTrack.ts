@@ -49,6 +49,15 @@ export type BaselineSource = 'own' | 'group' | null;
 /** The samples the own baseline was learnt from. */
 export interface OwnBaselineState {
   readonly sums: BaselineSums;
+  /**
+   * Where the baseline's first interval starts: the sample before it, or new oil when the interval started from fresh
+   * oil (a new component: no earlier reading counts). Absent in states stored before it was recorded (see firstSampleId).
+   */
+  readonly start?: { readonly sampleId: string; readonly sampledAt: string } | 'new oil';
+  /**
+   * In states stored before `start` was recorded: the sample that *ended* the baseline's first interval (one sample
+   * later than where the baseline starts). Read for those states only; no longer written.
+   */
   readonly firstSampleId?: string;
   readonly firstSampledAt?: string;
   /** Set once complete: the interval (index) and sample that completed it. */
@@ -95,9 +104,14 @@ export interface ChangePoint {
   readonly life: number;
   /** Standardised prediction error. */
   readonly z: number;
-  /** The in-control rate the interval was judged against (ppm/h), and where it came from. */
+  /**
+   * The in-control rate the interval was judged against (in the measurand's unit per hour): the filter's rate, learnt
+   * for this component from its readings starting from its source's rate.
+   */
   readonly baselineRate: number;
   readonly source: 'own' | 'group';
+  /** The source's own rate (per hour): the group's pooled rate, or the rate of the component's own baseline. */
+  readonly sourceRate: number;
   /** h: the upper statistic's decision interval; hFall: the lower one's. */
   readonly cusum?: { readonly upper: number; readonly lower: number; readonly h: number; readonly hFall: number };
   readonly ewma?: { readonly value: number; readonly ucl: number; readonly lcl: number };
@@ -242,6 +256,7 @@ export function advanceChange(t: ChangeTrack, iv: Interval, input: ChangeInput):
       z,
       baselineRate: state.rate,
       source: source as 'own' | 'group',
+      sourceRate: baseline.rate,
       ...(cusumOut && { cusum: cusumOut }),
       ...(ewmaOut && { ewma: ewmaOut }),
       learningPaused: paused,
@@ -258,7 +273,24 @@ function grownOwn(own: OwnBaselineState, iv: Interval, index: number, detection:
     return { ...own, later: addInterval(later, iv, incrementLabVariance(iv, detection.labNoise)) };
   }
   const sums = addInterval(own.sums, iv, incrementLabVariance(iv, detection.labNoise));
-  const first = own.firstSampleId === undefined ? { firstSampleId: iv.to.sampleId, firstSampledAt: iv.to.sampledAt } : {};
-  const base = { ...own, ...first, sums };
+  // The first interval taken: the baseline starts where it starts (its first reading), not at the sample ending it.
+  const start = own.sums.intervals === 0 ? { start: intervalStart(iv) } : {};
+  const base = { ...own, ...start, sums };
   return sums.intervals >= detection.baselineIntervals ? { ...base, completedAt: index, completedSampleId: iv.to.sampleId, completedSampledAt: iv.to.sampledAt } : base;
+}
+
+function intervalStart(iv: Interval): NonNullable<OwnBaselineState['start']> {
+  return iv.carryOver === 0 || iv.from === undefined ? 'new oil' : { sampleId: iv.from.sampleId, sampledAt: iv.from.sampledAt };
+}
+
+/**
+ * The samples a complete own baseline was learnt from, in words: "samples S00 to S12 (12 intervals)". A state stored
+ * before the start was recorded knows only the sample that ended the first interval, and says so.
+ */
+export function ownBaselineSpan(own: OwnBaselineState): string {
+  const n = `${own.sums.intervals} intervals`;
+  const to = own.completedSampleId;
+  if (own.start === 'new oil') return `samples since new oil up to ${to} (${n})`;
+  if (own.start !== undefined) return `samples ${own.start.sampleId} to ${to} (${n})`;
+  return own.firstSampleId === undefined ? `samples up to ${to} (${n})` : `samples up to ${to} (${n}, the first ending at ${own.firstSampleId})`;
 }

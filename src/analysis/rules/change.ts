@@ -10,7 +10,7 @@
 import type { Finding } from '../../domain/finding.ts';
 import { MEASURANDS, originOf, type Measurand } from '../../domain/measurands.ts';
 import type { ComponentSettings } from '../../domain/settings.ts';
-import type { ChangePoint, ChangeTrack } from '../fold/changeTrack.ts';
+import { ownBaselineSpan, type ChangePoint, type ChangeTrack } from '../fold/changeTrack.ts';
 import { findingAt, type SampleInput } from './ruleInput.ts';
 
 export function changeVerdicts(input: SampleInput, points: readonly ChangePoint[], tracks: Readonly<Partial<Record<Measurand, ChangeTrack>>>): Finding[] {
@@ -48,30 +48,46 @@ function statistic(rule: 'ewma' | 'cusum', value: number, threshold: number): st
   return rule === 'cusum' ? `CUSUM ${fmt(value)} beyond its decision interval ${fmt(threshold)}` : `EWMA ${fmt(value)} beyond its limit ${fmt(threshold)}`;
 }
 
-/** Where the in-control rate the interval was judged against comes from, in words. */
+/**
+ * Where the in-control rate the interval was judged against comes from, in words. The rate is the filter's, learnt for
+ * this component from its readings: against a group baseline it starts from the group's rate and moves towards this
+ * component's own, so the text names both when they differ.
+ */
 export function baselineProvenance(p: ChangePoint, track: ChangeTrack | undefined, settings: ComponentSettings): string {
+  const m = p.interval.measurand;
   const own = track?.own;
-  const rate = `${fmt(p.baselineRate * 100)} ppm/100 h`;
+  const rate = perHundredHours(m, p.baselineRate);
   let text: string;
   if (p.source === 'own' && own?.completedSampleId !== undefined) {
     const held = p.learningPaused && track?.signalSince !== undefined;
     text =
-      `the reference rate ${rate}: what this component's own samples ${own.firstSampleId} to ${own.completedSampleId} showed (${own.sums.intervals} intervals), ` +
+      `the reference rate ${rate}: what this component's own ${ownBaselineSpan(own)} showed, ` +
       (held ? `updated with later samples and held since sample ${track.signalSince!.sampleId} where the change was first signalled` : 'updated with each sample since') +
       ` (its usual rate, not a proven healthy one: a slow change before then may be in it)`;
     return text;
   }
   const have = own?.sums.intervals ?? 0;
-  text = `the reference rate ${rate} of group ${settings.group}, typical of its components, not of this one (this component's own baseline has ${have} of ${settings.detection.baselineIntervals} intervals)`;
+  const ownProgress = `this component's own baseline has ${have} of ${settings.detection.baselineIntervals} intervals`;
+  const groupRate = perHundredHours(m, p.sourceRate);
+  text =
+    rate === groupRate
+      ? `the reference rate ${rate} of group ${settings.group}, typical of its components, not of this one (${ownProgress})`
+      : `the reference rate ${rate}, learnt for this component from its readings starting from group ${settings.group}'s rate of ${groupRate} (${ownProgress})`;
   if (p.learningPaused && track?.signalSince !== undefined) text += `, held since sample ${track.signalSince.sampleId} where the change was first signalled`;
   return text;
+}
+
+/** A wear rate per 100 operating hours in the measurand's unit from the catalogue: "4.2 ppm/100 h", "3 index points/100 h" (PQ). */
+export function perHundredHours(m: Measurand, ratePerHour: number): string {
+  const unit: string = MEASURANDS[m].unit;
+  return `${fmt(ratePerHour * 100)} ${unit === 'index' ? 'index points' : unit}/100 h`;
 }
 
 function explainRise(m: Measurand, rule: 'ewma' | 'cusum', value: number, threshold: number, p: ChangePoint, track: ChangeTrack | undefined, settings: ComponentSettings): string {
   const origin = originOf(m);
   return (
     `${m} (${MEASURANDS[m].label}) is accumulating faster than before: ${statistic(rule, value, threshold)}; the latest interval gained ` +
-    `${fmt(p.interval.rate * 100)} ppm/100 h against ${baselineProvenance(p, track, settings)}. ` +
+    `${perHundredHours(m, p.interval.rate)} against ${baselineProvenance(p, track, settings)}. ` +
     `It may point to ${origin ?? 'the parts this metal comes from'} wearing faster, or to a change in sampling or duty; next: re-sample to confirm (same sample point, machine at working temperature), and ask the lab to review the trend.` +
     residualHint(p, settings, 'more')
   );
@@ -94,7 +110,7 @@ function residualHint(p: ChangePoint, settings: ComponentSettings, direction: 'm
 function explainFall(m: Measurand, rule: 'ewma' | 'cusum', value: number, threshold: number, p: ChangePoint, track: ChangeTrack | undefined, settings: ComponentSettings): string {
   return (
     `${m} (${MEASURANDS[m].label}) is rising more slowly than this component's wear can explain: ${statistic(rule, value, threshold)}; the latest interval gained ` +
-    `${fmt(p.interval.rate * 100)} ppm/100 h against ${baselineProvenance(p, track, settings)}. ` +
+    `${perHundredHours(m, p.interval.rate)} against ${baselineProvenance(p, track, settings)}. ` +
     'A wear rate does not fall by itself: check the sample point and the oil-change records (an unreported drain or top-up), and ask the lab.' +
     residualHint(p, settings, 'less')
   );

@@ -19,7 +19,8 @@ import type { Finding } from '../../domain/finding.ts';
 import { MEASURANDS, originOf, type Measurand } from '../../domain/measurands.ts';
 import type { ComponentSettings } from '../../domain/settings.ts';
 import type { RateBaseline } from '../model.ts';
-import type { OwnBaselineState } from '../fold/changeTrack.ts';
+import { ownBaselineSpan, type OwnBaselineState } from '../fold/changeTrack.ts';
+import { perHundredHours } from './change.ts';
 import { findingAt, formatNumber, type SampleInput } from './ruleInput.ts';
 
 /**
@@ -84,8 +85,8 @@ export function peerVerdict(input: SampleInput, m: Measurand, own: OwnBaselineSt
       basis: 'peer rate',
       explanation:
         `${m} (${MEASURANDS[m].label}) wears ${formatNumber(ratio)} times as fast as the other ${peers!.components} units of group ${settings.group}: ` +
-        `its own usual rate ${formatNumber(ownRate * 100)} ppm/100 h (learnt from samples ${own.firstSampleId} to ${own.completedSampleId}) against their typical ` +
-        `${formatNumber(peerRate * 100)} ppm/100 h, ${formatNumber(score)} standard deviations above their mean on a log scale (prediction limit ${formatNumber(limit)}). ` +
+        `its own usual rate ${perHundredHours(m, ownRate)}, learnt from its ${ownBaselineSpan(own)}, against their typical ` +
+        `${perHundredHours(m, peerRate)}, ${formatNumber(score)} standard deviations above their mean on a log scale (prediction limit ${formatNumber(limit)}). ` +
         `It points to ${origin ?? 'the parts this metal comes from'} wearing faster than on like-for-like units; next: ask the lab to review the history ` +
         'and compare the unit\u2019s duty, oil and filtration with its peers.',
     }),
