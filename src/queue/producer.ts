@@ -8,6 +8,7 @@ import { connectRedis, type RedisConnection, type RedisTarget } from '../redis/c
 import { Partitions } from '../redis/keys.ts';
 import { DEFAULT_HISTORY_JOB_SIZE, HISTORY_JOB, openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings, type HistoryJobData, type QueueSettings } from './queues.ts';
 import { validateBatch, type RecordOutcome, type ValidatedRecord, type ValidationOptions } from '../intake/validate.ts';
+import { intakeJobName, type IntakePath } from './intakePaths.ts';
 import { revisionConflicts } from '../redis/revisionConflicts.ts';
 
 export interface ResultProducerOptions extends Pick<QueueSettings, 'prefix' | 'attempts' | 'backoffMs' | 'keepCompleted' | 'keepFailed'> {
@@ -25,6 +26,12 @@ export interface ResultProducerOptions extends Pick<QueueSettings, 'prefix' | 'a
    * caller hands over keeps its own settings.
    */
   commandTimeoutMs?: number;
+  /**
+   * The way the results come in, carried by every job this producer enqueues: the worker counts the records of
+   * `import` and `producer` jobs in `wearshift_results_accepted_total{path}` (the API counts its own, `http`, as it
+   * accepts them). Default `producer`.
+   */
+  origin?: IntakePath;
 }
 
 export interface ResultProducer {
@@ -115,6 +122,7 @@ export function createResultProducer(options: ResultProducerOptions): ResultProd
   // Set once per producer, before its first history job: one history job at a time across all workers.
   let historyReady: Promise<unknown> | undefined;
   const now = options.now ?? Date.now;
+  const origin = options.origin ?? 'producer';
   const enqueue = async (records: readonly ValidatedRecord[], perJob?: number): Promise<Map<number, RecordOutcome>> => {
     // A sampleId and revision already stored (or earlier in the request) with other content is refused, not lost silently.
     // Once the connection is ready, as the queue waits for it: a request connection has no offline queue.
@@ -129,7 +137,7 @@ export function createResultProducer(options: ResultProducerOptions): ResultProd
       // History jobs, in the order given, whatever the partitions: one queue for all of them. A completed history job
       // is removed at once: its data is the whole batch of results, stored by then.
       const jobs: Array<{ name: string; data: HistoryJobData; opts: { removeOnComplete: true } }> = [];
-      for (let i = 0; i < accepted.length; i += perJob) jobs.push({ name: HISTORY_JOB, data: { records: accepted.slice(i, i + perJob).map((r) => r.event) }, opts: { removeOnComplete: true } });
+      for (let i = 0; i < accepted.length; i += perJob) jobs.push({ name: intakeJobName(HISTORY_JOB, origin), data: { records: accepted.slice(i, i + perJob).map((r) => r.event) }, opts: { removeOnComplete: true } });
       for (const part of writeParts(jobs, (job) => job.data.records.length)) await historyQueue.addBulk(part);
     } else {
       for (const part of writeParts(accepted, () => 1)) {
@@ -141,7 +149,7 @@ export function createResultProducer(options: ResultProducerOptions): ResultProd
           if (list === undefined) byPartition.set(p, [r]);
           else list.push(r);
         }
-        await Promise.all([...byPartition].map(([p, list]) => queues[p]!.addBulk(list.map((r) => ({ name: 'result', data: r.event })))));
+        await Promise.all([...byPartition].map(([p, list]) => queues[p]!.addBulk(list.map((r) => ({ name: intakeJobName('result', origin), data: r.event })))));
       }
     }
     const issues = new Map<number, RecordOutcome>();

@@ -7,6 +7,7 @@
  */
 import { Gauge, type Registry } from 'prom-client';
 import type { AlarmFiguresConfig } from '../domain/alarmFiguresConfig.ts';
+import { ADVISORY_CAUTION } from '../domain/caution.ts';
 import { RULE_FAMILIES } from '../domain/finding.ts';
 import { alarmFigures, componentYearsOf, type AlarmFigures, type FigureIncident, type ResponderMap } from '../incidents/alarmFigures.ts';
 
@@ -59,10 +60,11 @@ export function registerAlarmGauges(registry: Registry, options: AlarmGaugeOptio
     return last;
   };
 
+  // Every gauge of the figures says in its HELP that the tool advises: a dashboard that shows them may show the caution.
   const gauge = (name: string, help: string, labelNames: readonly string[], fill: (g: Gauge<string>, c: Computed, f: AlarmFigures) => void) =>
     new Gauge({
       name,
-      help,
+      help: `${help} ${ADVISORY_CAUTION}`,
       labelNames,
       registers: [registry],
       async collect() {
@@ -76,7 +78,7 @@ export function registerAlarmGauges(registry: Registry, options: AlarmGaugeOptio
 
   new Gauge({
     name: 'wearshift_alarm_figures_up',
-    help: '1 when the last computation of the alarm figures could read the incident store, else 0.',
+    help: `1 when the last computation of the alarm figures could read the incident store, else 0. ${ADVISORY_CAUTION}`,
     registers: [registry],
     async collect() {
       this.set((await current()).figures === null ? 0 : 1);

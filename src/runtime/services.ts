@@ -165,7 +165,7 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
     const metricsPublic = env.WEARSHIFT_METRICS_PUBLIC === '1';
     let server;
     if (options.http) {
-      const producer = createResultProducer({ connection: request, prefix, partitions: partitionCount });
+      const producer = createResultProducer({ connection: request, prefix, partitions: partitionCount, origin: 'http' });
       const hub = createEventHub();
       const subscriber = connectRedis(target, 'worker', logger);
       connections.push(subscriber);

@@ -1,18 +1,23 @@
 /**
- * Prometheus metrics of one process (prom-client). Workers count what they store and evaluate, the HTTP
- * intake what it accepts and rejects; queue depth is read from Redis when the metrics are scraped.
+ * Prometheus metrics of one process (prom-client). Workers count what they store and evaluate, and the results of
+ * `wearshift import` and of integrators' producers as they take their jobs (those processes serve no /metrics); the
+ * HTTP intake what it accepts and rejects. Queue depth is read from Redis when the metrics are scraped.
  */
 import { Counter, Gauge, Histogram, Registry, collectDefaultMetrics } from 'prom-client';
 import type { FieldIssue } from '../domain/event.ts';
 import type { Finding } from '../domain/finding.ts';
 import { FUTURE_REASON } from '../domain/event.ts';
+import { ADVISORY_CAUTION } from '../domain/caution.ts';
 
 /** Reads the job counts of the queues; wired by whoever owns the queues. */
 export type QueueDepthSource = () => Promise<Record<string, Record<string, number>>>;
 
 export interface Metrics {
   readonly registry: Registry;
-  /** A record accepted at intake (`path`: http, import, producer). */
+  /**
+   * Records accepted, by `path`: `http` counted by the API as it accepts them; `import`, `producer` and `queue` (a job
+   * put on the queue by other means) by the worker whose validation accepts the job's records, once per job.
+   */
   accepted(path: string, count?: number): void;
   /** A record rejected at intake or by the results worker; the reason is coarse so that the label set stays small. */
   rejected(path: string, issues: readonly FieldIssue[]): void;
@@ -26,7 +31,7 @@ export interface Metrics {
 export function createMetrics(options: { defaultMetrics?: boolean } = {}): Metrics {
   const registry = new Registry();
   if (options.defaultMetrics ?? true) collectDefaultMetrics({ register: registry, prefix: 'wearshift_' });
-  const accepted = new Counter({ name: 'wearshift_results_accepted_total', help: 'Result records accepted at intake.', labelNames: ['path'], registers: [registry] });
+  const accepted = new Counter({ name: 'wearshift_results_accepted_total', help: 'Result records accepted, by the way they came in (path): http counted by the API as it accepts them; import, producer and queue (a job added by other means) by the worker that takes their job, once per job.', labelNames: ['path'], registers: [registry] });
   const rejected = new Counter({
     name: 'wearshift_results_rejected_total',
     help: 'Result records rejected, by intake path, reason (schema, reading, future) and top-level field.',
@@ -41,7 +46,7 @@ export function createMetrics(options: { defaultMetrics?: boolean } = {}): Metri
     buckets: [0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1, 2.5, 5, 10],
     registers: [registry],
   });
-  const findings = new Counter({ name: 'wearshift_findings_total', help: 'Findings on newly evaluated samples, by rule family and severity.', labelNames: ['rule', 'severity'], registers: [registry] });
+  const findings = new Counter({ name: 'wearshift_findings_total', help: `Findings on newly evaluated samples, by rule family and severity. ${ADVISORY_CAUTION}`, labelNames: ['rule', 'severity'], registers: [registry] });
   let source: QueueDepthSource | undefined;
   new Gauge({
     name: 'wearshift_queue_jobs',

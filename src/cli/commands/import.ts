@@ -173,7 +173,7 @@ async function connectProducer(target: RedisTarget, prefix: string, partitions: 
   const redis = await connectForCommand(target).catch((e: Error) => {
     throw new InputError(`${e.message}; use --dry-run to validate without Redis`);
   });
-  const producer = createResultProducer({ connection: redis, prefix, partitions });
+  const producer = createResultProducer({ connection: redis, prefix, partitions, origin: 'import' });
   return {
     add: (events) => producer.add(events),
     enqueue: (records) => producer.enqueue(records),

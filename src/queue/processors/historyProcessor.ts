@@ -22,6 +22,7 @@ import type { ComponentRef } from '../../pipeline/ports.ts';
 import { storeSamples } from '../../pipeline/storeResult.ts';
 import { conflictReason } from '../../redis/revisionConflicts.ts';
 import { runEvaluation, type EvaluationRunnerDeps } from '../evaluationRunner.ts';
+import { countAccepted } from '../intakePaths.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, scheduleEvaluation, type HistoryJobData } from '../queues.ts';
 
 /** Evaluations of one month run this many at a time per evaluating thread (they wait on Redis in turn). */
@@ -53,6 +54,7 @@ async function processHistory(deps: EvaluationRunnerDeps, job: Job, retryMs: num
       refused.push(`record ${i + 1}${id === undefined ? '' : ` (sampleId ${id})`}: ${describeIssues(parsed.issues)}`);
     }
   });
+  countAccepted(deps.metrics, job, samples.length);
   samples.sort((a, b) => comparePosition(positionOf(a), positionOf(b)));
   let months = 0;
   let evaluations = 0;

@@ -6,22 +6,23 @@
  */
 import { UnrecoverableError, type Job, type Processor } from 'bullmq';
 import { conflictReason } from '../../redis/revisionConflicts.ts';
-import { InvalidResultError, storeResult } from '../../pipeline/storeResult.ts';
+import { claimedSampleId, validateResult } from '../../intake/validate.ts';
+import { InvalidResultError, storeSample } from '../../pipeline/storeResult.ts';
 import { runEvaluation, type EvaluationRunnerDeps } from '../evaluationRunner.ts';
+import { countAccepted } from '../intakePaths.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, scheduleEvaluation } from '../queues.ts';
 
 export function resultsProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_EVALUATE_RETRY_MS): Processor {
   return async (job: Job) => {
-    let stored;
-    try {
-      stored = await storeResult(deps.store, deps.config, job.data, deps.now());
-    } catch (e) {
-      if (e instanceof InvalidResultError) {
-        deps.metrics?.rejected('queue', e.issues);
-        throw new UnrecoverableError(e.message);
-      }
-      throw e;
+    const now = deps.now();
+    const parsed = validateResult(job.data, { now });
+    if (!parsed.ok) {
+      deps.metrics?.rejected('queue', parsed.issues);
+      throw new UnrecoverableError(new InvalidResultError(parsed.issues, claimedSampleId(job.data)).message);
     }
+    // Counted once validation has accepted it, before anything that may fail and be retried.
+    countAccepted(deps.metrics, job, 1);
+    const stored = await storeSample(deps.store, deps.config, parsed.sample, now);
     deps.metrics?.stored(stored.outcome.status);
     if (stored.outcome.status === 'conflict') {
       // Two different results with one sampleId and revision raced past the intake's check: the first stands, and the
