@@ -1,12 +1,13 @@
 /**
  * The AsyncAPI 3.0 document of the events wearshift sends: incident messages to webhooks (HTTP POST, Standard
- * Webhooks signatures) and to MQTT (QoS 1, topic from a template, default plant/{unit}/{component}/oil), both a
- * CloudEvents 1.0 event in structured JSON. Generated from the zod schemas in eventSchemas.ts; written to
+ * Webhooks signatures) and to MQTT (QoS 1, or 2 where the channel's configuration says so; topic from a template,
+ * default plant/{unit}/{component}/oil), both a CloudEvents 1.0 event in structured JSON; and the live events of the
+ * API's server-sent event stream (`GET /v1/events`). Generated from the zod schemas in eventSchemas.ts; written to
  * schemas/asyncapi.json by `wearshift schema`.
  */
 import { z } from 'zod';
 import { API_VERSION } from './openapi.ts';
-import { FloodSummaryCloudEventSchema, IncidentCloudEventSchema, WebhookHeadersSchema } from './eventSchemas.ts';
+import { FloodSummaryCloudEventSchema, IncidentCloudEventSchema, LiveIncidentEventSchema, LiveResultEventSchema, WebhookHeadersSchema } from './eventSchemas.ts';
 
 type Json = Record<string, unknown>;
 
@@ -17,21 +18,28 @@ function schemaOf(schema: z.ZodType): Json {
 
 export const DEFAULT_MQTT_TOPIC = 'plant/{unit}/{component}/oil';
 
+/** How an MQTT channel's QoS is chosen (channels.mqtt[].qos), in the words of the document. */
+const MQTT_QOS =
+  'QoS 1 (at least once: receivers drop repeats by the CloudEvent id) by default, or QoS 2 (exactly once between wearshift and the broker) for a channel configured with qos: 2 (channels.mqtt[].qos). Never QoS 0, which may lose a message.';
+
 export function asyncApiDocument(): Json {
   const message = { $ref: '#/components/messages/incidentEvent' };
   const summary = { $ref: '#/components/messages/floodSummary' };
+  const liveIncident = { $ref: '#/components/messages/liveIncident' };
+  const liveResult = { $ref: '#/components/messages/liveResult' };
   return {
     asyncapi: '3.0.0',
     info: {
       title: 'wearshift incident events',
       version: API_VERSION,
       description:
-        'Incident changes (opened, updated, escalated, acknowledged, returned, closed), and the summary that ends an alarm flood\u2019s window, as CloudEvents 1.0 in structured JSON mode. Receivers de-duplicate on source + id; a retry carries the same bytes. wearshift advises: the laboratory\u2019s diagnosis, the equipment maker\u2019s limits, local codes and licensed practice decide.',
+        'Incident changes (opened, updated, escalated, acknowledged, returned, closed), and the summary that ends an alarm flood\u2019s window, as CloudEvents 1.0 in structured JSON mode to webhooks and MQTT. Receivers de-duplicate on source + id; a retry carries the same bytes. The API\u2019s live event stream (GET /v1/events, server-sent events) tells of incident changes and stored results as they happen. wearshift advises: the laboratory\u2019s diagnosis, the equipment maker\u2019s limits, local codes and licensed practice decide.',
     },
     defaultContentType: 'application/cloudevents+json',
     servers: {
       webhookReceiver: { host: 'receiver.example', protocol: 'https', description: 'Each configured webhook endpoint (channels.webhooks[].url).' },
       mqttBroker: { host: 'broker.example:8883', protocol: 'mqtt', description: 'Each configured broker (channels.mqtt[].url).' },
+      api: { host: 'wearshift.example:8080', protocol: 'http', description: 'The wearshift HTTP API (wearshift serve or wearshift api).' },
     },
     channels: {
       webhook: {
@@ -45,10 +53,18 @@ export function asyncApiDocument(): Json {
       mqtt: {
         address: DEFAULT_MQTT_TOPIC,
         title: 'MQTT topic',
-        description: 'The topic template of channels.mqtt[].topic (placeholders {unit}, {component}, {group}, percent-encoded so that they add no level or wildcard).',
+        description: `The topic template of channels.mqtt[].topic (placeholders {unit}, {component}, {group}, percent-encoded so that they add no level or wildcard). ${MQTT_QOS}`,
         servers: [{ $ref: '#/servers/mqttBroker' }],
         parameters: { unit: { description: 'The unit, percent-encoded.' }, component: { description: 'The component, percent-encoded.' } },
         messages: { incidentEvent: message, floodSummary: summary },
+      },
+      liveEvents: {
+        address: '/v1/events',
+        title: 'Live event stream',
+        description:
+          'GET /v1/events with a viewer or responder bearer token (or the wearshift_token cookie): text/event-stream, each event as "id: <n>", "event: incident|result" and "data: <JSON>", the data being one of these messages. Best effort: a client that reconnects reloads what it shows.',
+        servers: [{ $ref: '#/servers/api' }],
+        messages: { liveIncident, liveResult },
       },
     },
     operations: {
@@ -61,8 +77,15 @@ export function asyncApiDocument(): Json {
       publishMqtt: {
         action: 'send',
         channel: { $ref: '#/channels/mqtt' },
+        description: MQTT_QOS,
         messages: [{ $ref: '#/channels/mqtt/messages/incidentEvent' }, { $ref: '#/channels/mqtt/messages/floodSummary' }],
-        bindings: { mqtt: { qos: 1, retain: false, bindingVersion: '0.2.0' } },
+        // The binding holds one QoS; a channel's is configured (1 or 2), so the binding leaves it to the description.
+        bindings: { mqtt: { retain: false, bindingVersion: '0.2.0' } },
+      },
+      streamLiveEvents: {
+        action: 'send',
+        channel: { $ref: '#/channels/liveEvents' },
+        messages: [{ $ref: '#/channels/liveEvents/messages/liveIncident' }, { $ref: '#/channels/liveEvents/messages/liveResult' }],
       },
     },
     components: {
@@ -83,8 +106,27 @@ export function asyncApiDocument(): Json {
           headers: { ...schemaOf(WebhookHeadersSchema), description: 'Standard Webhooks headers (webhooks only; MQTT carries the event alone).' },
           payload: { $ref: '#/components/schemas/FloodSummaryCloudEvent' },
         },
+        liveIncident: {
+          name: 'liveIncident',
+          title: 'Incident change (live event stream)',
+          summary: 'event: incident. One change of an incident, with the caution (advisory) beside its severity.',
+          contentType: 'application/json',
+          payload: { $ref: '#/components/schemas/LiveIncidentEvent' },
+        },
+        liveResult: {
+          name: 'liveResult',
+          title: 'Stored result (live event stream)',
+          summary: 'event: result. A result stored (a history import\u2019s results once per component and job, its latest).',
+          contentType: 'application/json',
+          payload: { $ref: '#/components/schemas/LiveResultEvent' },
+        },
       },
-      schemas: { IncidentCloudEvent: schemaOf(IncidentCloudEventSchema), FloodSummaryCloudEvent: schemaOf(FloodSummaryCloudEventSchema) },
+      schemas: {
+        IncidentCloudEvent: schemaOf(IncidentCloudEventSchema),
+        FloodSummaryCloudEvent: schemaOf(FloodSummaryCloudEventSchema),
+        LiveIncidentEvent: schemaOf(LiveIncidentEventSchema),
+        LiveResultEvent: schemaOf(LiveResultEventSchema),
+      },
     },
   };
 }

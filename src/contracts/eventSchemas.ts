@@ -1,8 +1,10 @@
 /**
  * The messages webhooks and MQTT deliver, as zod schemas for the AsyncAPI document: a CloudEvents 1.0 envelope in
- * structured JSON mode around the incident message (src/notify/message.ts, src/notify/cloudEvent.ts).
+ * structured JSON mode around the incident message (src/notify/message.ts, src/notify/cloudEvent.ts); and the live
+ * events of the `GET /v1/events` stream (src/pipeline/liveEvent.ts, src/http/eventRoutes.ts).
  */
 import { z } from 'zod';
+import { FORECAST_OUTCOMES } from '../analysis/forecast/model.ts';
 import { CHANNEL_KINDS } from '../domain/escalationConfig.ts';
 import { SEVERITIES } from '../domain/finding.ts';
 import { INCIDENT_MESSAGE_TYPES } from '../notify/message.ts';
@@ -55,7 +57,11 @@ export const IncidentMessageSchema = z
               source: z.string().describe('fixed, population or condition.'),
               side: z.enum(['above', 'below']),
               level: z.number(),
-              outcome: z.string().describe('crossing, after-oil-change or not-enough-history.'),
+              outcome: z
+                .enum(FORECAST_OUTCOMES)
+                .describe(
+                  'crossing: the central estimate falls within the horizon; already: the present estimate is beyond the level (an incident leaves such levels out, its findings say so); after-oil-change: beyond the planned oil change or the horizon, or the trend does not head towards the level; not-enough-history: no reliable forecast yet.',
+                ),
               text: z.string(),
               central: forecastTime.optional(),
               early: forecastTime.optional().describe('10th percentile.'),
@@ -135,3 +141,32 @@ export const WebhookHeadersSchema = z
     'content-type': z.string().regex(/^application\/cloudevents\+json/),
   })
   .loose();
+
+/**
+ * An incident change on the `GET /v1/events` stream (`event: incident`). The stream adds `advisory` to every one: a
+ * board or gateway that shows the severity shows the caution with it.
+ */
+export const LiveIncidentEventSchema = z
+  .object({
+    type: z.literal('incident'),
+    incidentId: z.string(),
+    unit: z.string(),
+    component: z.string(),
+    severity: z.enum(SEVERITIES).describe('The highest severity of the current evidence.'),
+    state: z.string().describe('The state after the change, in words, e.g. "active, unacknowledged".'),
+    change: z.string().describe('What happened: the timeline entry\u2019s kind ("opened", "acknowledged", "finding", ...).'),
+    at: isoTime,
+    advisory: z.string().describe('The tool advises; the lab, the equipment maker, local codes and licensed practice decide.'),
+  })
+  .strict();
+
+/** A stored result on the `GET /v1/events` stream (`event: result`). */
+export const LiveResultEventSchema = z
+  .object({
+    type: z.literal('result'),
+    unit: z.string(),
+    component: z.string(),
+    sampleId: z.string(),
+    sampledAt: isoTime,
+  })
+  .strict();

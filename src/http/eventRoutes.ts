@@ -1,7 +1,9 @@
 /**
  * `GET /v1/events`: live updates as server-sent events (fastify 5 plugin), for the viewer role. Each event of the hub
- * becomes `id: <n>`, `event: incident|result` and `data: <JSON>`; a comment line every `heartbeatMs` keeps proxies
- * from closing an idle stream.
+ * becomes `id: <n>`, `event: incident|result` and `data: <JSON>` (the `LiveIncidentEvent` and `LiveResultEvent`
+ * schemas of the AsyncAPI document); a comment line every `heartbeatMs` keeps proxies from closing an idle stream.
+ * Every incident event carries `advisory`, the caution, beside its severity: whatever publishes the change (a worker,
+ * an operator action, another process through the Redis bridge), the stream adds it as the event leaves.
  *
  * Authentication: a browser's EventSource cannot send an Authorization header, so besides the bearer header the
  * token is accepted from the `wearshift_token` cookie, which the board sets for this path only (SameSite=Strict).
@@ -11,8 +13,9 @@
  */
 import type { FastifyPluginAsync, onRequestAsyncHookHandler } from 'fastify';
 import type { ServerResponse } from 'node:http';
+import { ADVISORY_CAUTION } from '../domain/caution.ts';
 import { requireRole, type AccessTokens } from './auth.ts';
-import type { EventHub } from './eventHub.ts';
+import type { EventHub, LiveEvent } from './eventHub.ts';
 import { DEFAULT_HTTP_LIMITS } from './limits.ts';
 
 export const EVENT_TOKEN_COOKIE = 'wearshift_token';
@@ -87,7 +90,7 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
         }
         res.write(chunk);
       };
-      const unsubscribe = options.hub.subscribe((event, id) => send(`id: ${id}\nevent: ${event.type}\ndata: ${JSON.stringify(event)}\n\n`));
+      const unsubscribe = options.hub.subscribe((event, id) => send(`id: ${id}\nevent: ${event.type}\ndata: ${JSON.stringify(streamed(event))}\n\n`));
       const heartbeat = setInterval(() => send(': keep-alive\n\n'), heartbeatMs);
       heartbeat.unref();
       res.on('close', () => {
@@ -98,6 +101,11 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
     },
   });
 };
+
+/** An event as the stream sends it: an incident change with the caution beside its severity. */
+function streamed(event: LiveEvent): LiveEvent | (LiveEvent & { advisory: string }) {
+  return event.type === 'incident' ? { ...event, advisory: ADVISORY_CAUTION } : event;
+}
 
 function cookieValue(header: string | undefined, name: string): string | undefined {
   if (header === undefined) return undefined;

@@ -3,6 +3,8 @@
  * internals: the queue maps an incident effect onto it, and every channel (e-mail, webhook, MQTT) renders it.
  */
 
+import type { ForecastOutcome } from '../analysis/forecast/model.ts';
+
 export const INCIDENT_MESSAGE_TYPES = ['opened', 'updated', 'escalated', 'acknowledged', 'returned', 'closed'] as const;
 export type IncidentMessageType = (typeof INCIDENT_MESSAGE_TYPES)[number];
 
@@ -80,8 +82,7 @@ export interface IncidentMessage {
       source: string;
       side: 'above' | 'below';
       level: number;
-      /** crossing, after-oil-change or not-enough-history. */
-      outcome: string;
+      outcome: ForecastOutcome;
       text: string;
       central?: ForecastTimeMessage;
       early?: ForecastTimeMessage;

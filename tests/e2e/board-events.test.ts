@@ -5,6 +5,7 @@
  */
 import Fastify, { type FastifyInstance } from 'fastify';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { ADVISORY_CAUTION } from '../../src/domain/caution.ts';
 import { announcingActions, createEventHub, type EventHub, type LiveEvent } from '../../src/http/eventHub.ts';
 import { eventRoutes } from '../../src/http/eventRoutes.ts';
 import type { Incident } from '../../src/incidents/model.ts';
@@ -97,7 +98,8 @@ describe('GET /v1/events', () => {
     for (const e of sent) hub.publish(e);
     const got = events(await read(response, (t) => events(t).length >= 2));
     expect(got.map((e) => e.event)).toEqual(['result', 'incident']);
-    expect(got.map((e) => JSON.parse(e.data))).toEqual(sent);
+    // An incident change goes out with the caution beside its severity.
+    expect(got.map((e) => JSON.parse(e.data))).toEqual([sent[0], { ...sent[1], advisory: ADVISORY_CAUTION }]);
     expect(Number(got[1]!.id)).toBe(Number(got[0]!.id) + 1);
     await until(() => hub.subscribers === 0);
   });

@@ -15,7 +15,8 @@ export type LimitSource = 'fixed' | 'population' | 'condition';
  *   or the trend does not head towards the limit;
  * - `not-enough-history`: the forecast would be unreliable (see `reason`).
  */
-export type ForecastOutcome = 'crossing' | 'already' | 'after-oil-change' | 'not-enough-history';
+export const FORECAST_OUTCOMES = ['crossing', 'already', 'after-oil-change', 'not-enough-history'] as const;
+export type ForecastOutcome = (typeof FORECAST_OUTCOMES)[number];
 
 /** A time in three forms: oil hours on the present charge, operating hours from the latest sample, calendar date. */
 export interface ForecastTime {
