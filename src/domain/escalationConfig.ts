@@ -156,7 +156,15 @@ export const ChannelsSchema = z
             username: z.string().optional(),
             passwordEnv: envName.optional(),
           })
-          .strict(),
+          .strict()
+          .superRefine((m, ctx) => {
+            // What the publisher refuses (src/channels/mqtt/mqttTopic.ts) is refused here, when the configuration is read,
+            // rather than by every delivery: MQTT 3.1.1 §4.7.2 leaves topics starting with "$" to the broker, §1.5.3
+            // allows no NUL in a topic.
+            const topicIssue = (problem: string) => ctx.addIssue({ code: 'custom', path: ['topic'], message: `MQTT channel "${m.name}": the topic ${problem}` });
+            if (m.topic.startsWith('$')) topicIssue(`"${m.topic}" starts with "$": such topics are reserved for the broker`);
+            if (m.topic.includes('\u0000')) topicIssue('holds a NUL character, which MQTT does not allow in a topic');
+          }),
       )
       .default([]),
     floodControl: z

@@ -65,4 +65,29 @@ channels:
     expect(message).toContain('channels.webhooks.0.url');
     expect(message).toContain('channels.webhooks.0.secrets.0: expected an environment variable name');
   });
+
+  it('refuses an MQTT topic the publisher could never send to, naming the channel and the field', () => {
+    const withTopic = (topic: string) => `
+channels:
+  mqtt:
+    - { name: plant-bus, url: 'mqtt://broker.plant.example' }
+    - { name: historian, url: 'mqtt://broker.plant.example', topic: ${JSON.stringify(topic)} }
+`;
+    const refusal = (topic: string) => {
+      try {
+        parseConfig(withTopic(topic), 'site.yaml');
+      } catch (e) {
+        return (e as Error).message;
+      }
+      return 'accepted';
+    };
+    // MQTT 3.1.1 §4.7.2: topics starting with "$" are the broker's.
+    expect(refusal('$SYS/wearshift/{unit}')).toContain('channels.mqtt.1.topic: MQTT channel "historian": the topic "$SYS/wearshift/{unit}" starts with "$"');
+    expect(refusal('$plant/{unit}/{component}')).toMatch(/^site\.yaml: invalid configuration/);
+    // §1.5.3: no NUL in a topic.
+    expect(refusal('plant/\u0000/{unit}')).toContain('channels.mqtt.1.topic: MQTT channel "historian": the topic holds a NUL character');
+    // A "$" after the first character, and a unit name starting with one (percent-encoded when filled in), are fine.
+    expect(refusal('plant/$meters/{unit}')).toBe('accepted');
+    expect(refusal('{unit}/{component}/oil')).toBe('accepted');
+  });
 });
