@@ -28,6 +28,13 @@ describe('incident e-mail', () => {
     expect(mail.html).toContain(ADVISORY_CAUTION.replace(/'/g, '&#39;'));
   });
 
+  it('gives a PQ wear rate in index points per 100 h, the catalogue unit of PQ, not in ppm', () => {
+    const pqRate = { measurand: 'pq', rule: 'rate', severity: 'caution', value: 12, threshold: 10, basis: 'rate', sampleId: 'LAB-0042', sampledAt: '2026-03-01T08:00:00Z', explanation: 'PQ rose.' } as const;
+    const { text } = renderIncidentEmail(incidentMessage({ findings: [pqRate] }), options);
+    expect(text).toContain('wear rate 12 index points per 100 h against its limit 10 index points per 100 h');
+    expect(text).not.toContain('ppm per 100 h');
+  });
+
   it('tabulates the last results with the findings’ measurands first', () => {
     const { text } = renderIncidentEmail(incidentMessage(), options);
     const lines = text.split('\n');

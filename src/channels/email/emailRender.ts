@@ -196,12 +196,14 @@ function statement(f: MessageFinding): string {
   const value = formatNumber(f.value);
   const unit = isMeasurand(f.measurand) ? MEASURANDS[f.measurand].unit : '';
   const withUnit = (x: string, u: string) => (u === '' ? x : u === '%' ? `${x} %` : `${x} ${u}`);
+  // A wear rate is in the reading's unit per 100 h (ppm for the elements, index points for PQ).
+  const rateUnit = `${unit === 'index' ? 'index points' : unit || 'ppm'} per 100 h`;
   const measured = (() => {
     switch (f.basis) {
       case 'reading':
         return `reading ${withUnit(value, unit)}`;
       case 'rate':
-        return `wear rate ${value} ppm per 100 h`;
+        return `wear rate ${withUnit(value, rateUnit)}`;
       case 'ewma':
         return `EWMA statistic ${value}`;
       case 'cusum':
@@ -216,7 +218,7 @@ function statement(f: MessageFinding): string {
     }
   })();
   if (f.threshold === undefined) return measured;
-  const limitUnit = f.basis === 'change' ? '%' : f.basis === 'reading' ? unit : f.basis === 'rate' ? 'ppm per 100 h' : '';
+  const limitUnit = f.basis === 'change' ? '%' : f.basis === 'reading' ? unit : f.basis === 'rate' ? rateUnit : '';
   return `${measured} against its limit ${withUnit(formatNumber(f.threshold), limitUnit)}`;
 }
 
