@@ -33,7 +33,7 @@ export function asyncApiDocument(): Json {
       title: 'wearshift incident events',
       version: API_VERSION,
       description:
-        'Incident changes (opened, updated, escalated, acknowledged, returned, closed), and the summary that ends an alarm flood\u2019s window, as CloudEvents 1.0 in structured JSON mode to webhooks and MQTT. Receivers de-duplicate on source + id; a retry carries the same bytes. The API\u2019s live event stream (GET /v1/events, server-sent events) tells of incident changes and stored results as they happen. wearshift advises: the laboratory\u2019s diagnosis, the equipment maker\u2019s limits, local codes and licensed practice decide.',
+        'Incident changes (opened, updated, escalated, acknowledged, returned, closed), and the summary that ends an alarm flood\u2019s window, as CloudEvents 1.0 in structured JSON mode to webhooks and MQTT. Receivers de-duplicate on source + id; a retry carries the same id and time, and the recent results as they stand at that attempt. The API\u2019s live event stream (GET /v1/events, server-sent events) tells of incident changes and stored results as they happen. wearshift advises: the laboratory\u2019s diagnosis, the equipment maker\u2019s limits, local codes and licensed practice decide.',
     },
     defaultContentType: 'application/cloudevents+json',
     servers: {
