@@ -271,6 +271,14 @@ export const ConfigSchema = z
       const issue = budgetIssue(s.detection, s.population);
       if (issue !== undefined && issue !== topLevel) ctx.addIssue({ code: 'custom', path: ['groups', i, 'detection', 'budget'], message: `with this group's settings, ${issue}` });
     });
+    // Every shelving is held to incidents.maxShelveHours: a OneShotShelve that promises longer would be refused by the store on every call.
+    if (c.opcua !== undefined && c.opcua.oneShotShelveHours > c.incidents.maxShelveHours) {
+      ctx.addIssue({
+        code: 'custom',
+        path: ['opcua', 'oneShotShelveHours'],
+        message: `${c.opcua.oneShotShelveHours} h is longer than incidents.maxShelveHours (${c.incidents.maxShelveHours} h), the longest any shelving may last; set opcua.oneShotShelveHours to at most ${c.incidents.maxShelveHours}`,
+      });
+    }
     c.groups.forEach((g, i) => {
       if (g.match?.unit === undefined) return;
       try {

@@ -21,6 +21,7 @@ import { ackLinkSecrets as ackLinkSecretsOf } from '../notify/ackLink.ts';
 import { SampleVerdicts } from '../queue/sampleVerdicts.ts';
 import { startWorkers, type WorkerSettings } from '../queue/workers.ts';
 import { RedisIncidents } from '../redis/redisIncidents.ts';
+import { readComponentRegistry } from '../redis/componentRegistry.ts';
 import { RedisStore } from '../redis/redisStore.ts';
 import { bridgeLiveEvents, livePublisher } from './liveBridge.ts';
 import type { Logger } from '../telemetry/logger.ts';
@@ -203,6 +204,8 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
           subscribe: (listener) => hub.subscribe((event) => listener(event)),
           logger,
           env,
+          incidentMaxShelveHours: config.incidents.maxShelveHours,
+          components: (limit) => readComponentRegistry(request, partitions, limit),
         });
         stopHttp.unshift({ name: 'opc ua', close: () => opcua.stop() });
         logger.info({ url: await opcua.start() }, 'OPC UA alarm server listening');
