@@ -17,14 +17,25 @@ function sortIncidents(list) {
   );
 }
 
+/** Open incidents the board shows at most: the API's order (most severe, then most recently opened) decides which. */
+const BOARD_LIMIT = 500;
+
 export async function loadBoard() {
-  const result = await api('/v1/incidents?state=open&limit=500');
+  const result = await api(`/v1/incidents?state=open&limit=${BOARD_LIMIT}`);
   if (!result.ok) {
     if (result.status === 401) return showSignIn('The token is no longer accepted; please sign in again.');
     $('summary').textContent = `Incidents could not be loaded. ${problemText(result)}`;
     return;
   }
-  renderBoard(sortIncidents(result.body.incidents));
+  const { incidents, next, total } = result.body;
+  renderBoard(sortIncidents(incidents));
+  // More open incidents than the board holds: say so, and where the rest are, instead of letting the counts pass for all.
+  const more = $('more-incidents');
+  more.hidden = next === null || next === undefined;
+  more.textContent = more.hidden
+    ? ''
+    : `Showing ${incidents.length} of ${typeof total === 'number' ? total : 'more than ' + incidents.length} open incidents: the most severe, then the most recently opened. ` +
+      'The counts above are of those shown; the full list pages through GET /v1/incidents?state=open.';
 }
 
 function renderBoard(incidents) {

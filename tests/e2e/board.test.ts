@@ -174,6 +174,25 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     expect((await api(`/v1/incidents/${encodeURIComponent(id)}`)).incident.closed).toMatchObject({ how: 'resolved', by: 'R. Tanaka' });
   });
 
+  it('says when more incidents are open than the board holds, and shows no such note otherwise', async () => {
+    expect(await page.locator('#more-incidents').isHidden()).toBe(true);
+    const capped = await context.newPage();
+    const cappedProblems: string[] = [];
+    watch(capped, cappedProblems);
+    // The API answers the board's page with a cursor to a further page, as it does beyond the board's 500.
+    await capped.route('**/v1/incidents?state=open&limit=500', async (route) => {
+      const response = await route.fetch();
+      const body = await response.json();
+      await route.fulfill({ response, json: { ...body, next: 'further-page', total: 1234 } });
+    });
+    await signIn(capped, TOKENS.viewer, 'A. Viewer');
+    const shown = ((await api('/v1/incidents?state=open&limit=500')).incidents as unknown[]).length;
+    await poll(() => capped.locator('#incidents > li.incident').count()).toBe(shown);
+    await poll(() => capped.locator('#more-incidents').innerText()).toContain(`Showing ${shown} of 1234 open incidents`);
+    expect(cappedProblems).toEqual([]);
+    await capped.close();
+  });
+
   it('keeps a viewer token from acknowledging, and says so plainly', async () => {
     const viewer = await context.newPage();
     const viewerProblems: string[] = [];
