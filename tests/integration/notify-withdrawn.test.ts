@@ -15,10 +15,9 @@ import { join } from 'node:path';
 import { Writable } from 'node:stream';
 import { Queue } from 'bullmq';
 import Fastify from 'fastify';
-import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Step } from '../../src/analysis/model.ts';
 import { notificationChannels } from '../../src/channels/openChannels.ts';
-import { main } from '../../src/cli/main.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import { incidentRoutes } from '../../src/http/incidentRoutes.ts';
 import type { Incident, IncidentEffect, NotifyEffect } from '../../src/incidents/model.ts';
@@ -28,6 +27,7 @@ import { effectJobId, relayEffects } from '../../src/queue/outboxRelay.ts';
 import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { createLogger, silentLogger } from '../../src/telemetry/logger.ts';
+import { runCliInProcess } from '../helpers/cliInProcess.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const prefix = '{withdrawn}';
@@ -69,21 +69,8 @@ function finding(unit: string, sampleId: string, sampledAt: string): Step['findi
 }
 
 /** `wearshift incidents show`, run in-process through the real command parser against the private server. */
-async function show(id: string, configFile: string): Promise<{ code: number; out: string }> {
-  let out = '';
-  const o = vi.spyOn(process.stdout, 'write').mockImplementation((s) => ((out += String(s)), true));
-  const e = vi.spyOn(process.stderr, 'write').mockImplementation(() => true);
-  const url = process.env.REDIS_URL;
-  process.env.REDIS_URL = redis.url;
-  try {
-    return { code: await main(['incidents', 'show', id, '--config', configFile]), out };
-  } finally {
-    o.mockRestore();
-    e.mockRestore();
-    if (url === undefined) delete process.env.REDIS_URL;
-    else process.env.REDIS_URL = url;
-    process.exitCode = undefined;
-  }
+function show(id: string, configFile: string): Promise<{ code: number; out: string }> {
+  return runCliInProcess(['incidents', 'show', id, '--config', configFile], { REDIS_URL: redis.url });
 }
 
 /** Waits for a notify job to finish; generous, so that a busy machine only makes it slower. */

@@ -10,8 +10,7 @@ import type { AddressInfo } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { Queue } from 'bullmq';
-import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
-import { main } from '../../src/cli/main.ts';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import type { Incident } from '../../src/incidents/model.ts';
 import { formatTime } from '../../src/notify/format.ts';
@@ -28,6 +27,7 @@ import { IncidentFilterSchema } from '../../src/incidents/listFilter.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { drained } from '../helpers/queueDrain.ts';
+import { runCliInProcess } from '../helpers/cliInProcess.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 
@@ -129,21 +129,8 @@ async function record(id: string): Promise<Incident> {
 const wordsOf = (incident: Incident) => incident.timeline.filter((e) => e.kind === 'sample-verdict');
 
 /** `wearshift incidents show`, run in-process through the real command parser against the private server. */
-async function show(id: string): Promise<{ code: number; out: string }> {
-  let out = '';
-  const o = vi.spyOn(process.stdout, 'write').mockImplementation((s) => ((out += String(s)), true));
-  const e = vi.spyOn(process.stderr, 'write').mockImplementation(() => true);
-  const url = process.env.REDIS_URL;
-  process.env.REDIS_URL = redis.url;
-  try {
-    return { code: await main(['incidents', 'show', id, '--config', join(dir, 'site.yaml')]), out };
-  } finally {
-    o.mockRestore();
-    e.mockRestore();
-    if (url === undefined) delete process.env.REDIS_URL;
-    else process.env.REDIS_URL = url;
-    process.exitCode = undefined;
-  }
+function show(id: string): Promise<{ code: number; out: string }> {
+  return runCliInProcess(['incidents', 'show', id, '--config', join(dir, 'site.yaml')], { REDIS_URL: redis.url });
 }
 
 async function statusOf(sampleId: string) {
