@@ -74,7 +74,10 @@ export function notifiedTargetsText(entry) {
   return entry.targets
     .map((target) => {
       const held = (entry.withdrawn ?? []).find((w) => w.target === target);
-      return held === undefined ? target : `${target} (not sent: ${WITHDRAWN_WORDS[held.because] ?? held.because} meanwhile)`;
+      if (held === undefined) return target;
+      const why = WITHDRAWN_WORDS[held.because] ?? held.because;
+      if (held.attemptedAt === undefined) return `${target} (not sent: ${why} meanwhile)`;
+      return `${target} (not sent again: ${why} meanwhile; an attempt begun at ${held.attemptedAt} may have reached it)`;
     })
     .join(', ');
 }

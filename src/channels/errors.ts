@@ -7,6 +7,12 @@ export class DeliveryRetry extends Error {
     message: string,
     /** The receiver asked for this wait before the next attempt. */
     readonly retryAfterMs?: number,
+    /**
+     * The attempt ended with an answer that the message was not taken (the receiver answered with an error, or no
+     * connection was made). False (the default) when it may have arrived: no answer came in time, or the connection
+     * broke after the message was handed over.
+     */
+    readonly notTaken: boolean = false,
   ) {
     super(message);
   }

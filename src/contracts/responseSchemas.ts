@@ -106,6 +106,12 @@ export const IncidentSchema = IncidentSummarySchema.extend({
                   at: z.string().describe('RFC 3339 date-time: when the message was held back.'),
                   because: z.enum(['acknowledged', 'shelved', 'closed', 'returned']).describe('What had changed meanwhile.'),
                   reason: z.string().describe('In full, e.g. "the incident was acknowledged by R. Okafor at …".'),
+                  attemptedAt: z
+                    .string()
+                    .optional()
+                    .describe(
+                      'RFC 3339 date-time: an earlier attempt of this message began then and ended without the channel answering (its worker stopped, or the receiver did not answer in time), so it may have reached the target. Absent when no such attempt was made.',
+                    ),
                 })
                 .loose(),
             )

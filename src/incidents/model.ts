@@ -123,6 +123,12 @@ export interface WithdrawnMessage {
   readonly because: WithdrawnBecause;
   /** In full, as the worker logs it: "the incident was acknowledged by R. Okafor at …". */
   readonly reason: string;
+  /**
+   * When an earlier attempt of the message began that ended without the channel's answer (its worker stopped, or the
+   * receiver took the message but did not answer in time): the message may have reached the target then. Absent when
+   * no attempt had begun, or every earlier one was refused before anything was handed over.
+   */
+  readonly attemptedAt?: string;
 }
 
 /** One message event: who was told what, when. The annunciation's record, kept beside the verdict's timeline. */
@@ -357,13 +363,16 @@ const WITHDRAWN_WORDS: Record<WithdrawnBecause, string> = { acknowledged: 'ackno
 
 /**
  * A message event's targets for people, each one held back marked so, with why: "webhook:duty-manager (not sent:
- * acknowledged meanwhile)". The board carries a copy.
+ * acknowledged meanwhile)", or, when an earlier attempt ended without an answer, "(not sent again: … meanwhile; an
+ * attempt begun at … may have reached it)". The board carries a copy.
  */
 export function notifiedTargetsText(entry: Pick<NotifiedEntry, 'targets' | 'withdrawn'>): string {
   return entry.targets
     .map((target) => {
       const held = entry.withdrawn?.find((w) => w.target === target);
-      return held === undefined ? target : `${target} (not sent: ${WITHDRAWN_WORDS[held.because]} meanwhile)`;
+      if (held === undefined) return target;
+      if (held.attemptedAt === undefined) return `${target} (not sent: ${WITHDRAWN_WORDS[held.because]} meanwhile)`;
+      return `${target} (not sent again: ${WITHDRAWN_WORDS[held.because]} meanwhile; an attempt begun at ${held.attemptedAt} may have reached it)`;
     })
     .join(', ');
 }

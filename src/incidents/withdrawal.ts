@@ -59,13 +59,22 @@ export function recordedWithdrawal(incident: Pick<Incident, 'notifications'>, me
  * Judges a queued message on the incident now: undefined when it still goes; else the incident with the message
  * recorded as withdrawn on its entry (an entry the bounded record has dropped meanwhile is written again for it).
  * A message recorded before stays withdrawn, whatever the incident says now, and is not recorded twice.
+ * `attemptedAt`: an earlier attempt began then and ended without the channel's answer; the record says the message
+ * may have reached its target then, and that it is not sent again.
  */
-export function withdrawMessage(incident: Incident, message: WithdrawableMessage, now: Date): MessageWithdrawal | undefined {
+export function withdrawMessage(incident: Incident, message: WithdrawableMessage, now: Date, attemptedAt?: Date): MessageWithdrawal | undefined {
   const earlier = recordedWithdrawal(incident, message);
   if (earlier !== undefined) return { incident, withdrawn: earlier, before: true };
   const why = withdrawnBecause(message, incident, now.getTime());
   if (why === undefined) return undefined;
-  const withdrawn: WithdrawnMessage = { target: `${message.channel}:${message.target}`, tier: message.tier, at: now.toISOString(), ...why };
+  const withdrawn: WithdrawnMessage = {
+    target: `${message.channel}:${message.target}`,
+    tier: message.tier,
+    at: now.toISOString(),
+    because: why.because,
+    reason: attemptedAt === undefined ? why.reason : `${why.reason}; not sent again (an attempt begun at ${attemptedAt.toISOString()} ended without an answer and may have reached it)`,
+    ...(attemptedAt !== undefined && { attemptedAt: attemptedAt.toISOString() }),
+  };
   const notifications: NotifiedEntry[] = [...incident.notifications];
   const at = notifications.findIndex((e) => e.eventSeq === message.eventSeq);
   if (at >= 0) {

@@ -30,6 +30,26 @@ export class DeliveryLedger {
     await this.redis.set(this.key(messageKey), String(at), 'EX', this.keepS);
   }
 
+  /**
+   * Notes that an attempt of the message begins (before the channel is called), unless an earlier one is noted: an
+   * attempt that ends without the channel's answer (its worker stopped, the receiver did not answer in time) leaves
+   * the note, so a later judgement knows the message may have gone out. Returns whether this call made the note.
+   */
+  async attempting(messageKey: string, at: number): Promise<boolean> {
+    return (await this.redis.set(this.key(messageKey, 'attempt'), String(at), 'EX', this.keepS, 'NX')) === 'OK';
+  }
+
+  /** When an attempt of the message began that may have reached its target (see `attempting`); undefined when none. */
+  async attempted(messageKey: string): Promise<number | undefined> {
+    const at = await this.redis.get(this.key(messageKey, 'attempt'));
+    return at === null ? undefined : Number(at);
+  }
+
+  /** Takes back the note of `attempting`: the attempt ended with an answer that the message was not taken. */
+  async notTaken(messageKey: string): Promise<void> {
+    await this.redis.del(this.key(messageKey, 'attempt'));
+  }
+
   /** Why the message with this idempotency key was withdrawn, when it was; undefined otherwise. */
   async withdrawn(messageKey: string): Promise<string | undefined> {
     return (await this.redis.get(this.key(messageKey, 'withdrawn'))) ?? undefined;
@@ -40,7 +60,7 @@ export class DeliveryLedger {
     await this.redis.set(this.key(messageKey, 'withdrawn'), reason, 'EX', this.keepS);
   }
 
-  private key(messageKey: string, what: 'delivered' | 'withdrawn' = 'delivered'): string {
+  private key(messageKey: string, what: 'delivered' | 'withdrawn' | 'attempt' = 'delivered'): string {
     // Under the prefix's hash tag, as every key of the program.
     return `${this.prefix}:${what}:${messageKey}`;
   }

@@ -144,9 +144,10 @@ export class RedisIncidents {
    * Judges a queued message on its incident as it stands (withdrawal.ts) and, when it no longer goes, records it as
    * withdrawn on the incident, in the same compare-and-set as every other change of the component's incidents.
    * Undefined when the message goes (or its incident is unknown); a message recorded as withdrawn before is
-   * returned as such (`before`) and not recorded again.
+   * returned as such (`before`) and not recorded again. `attemptedAt`: an earlier attempt of the message ended without
+   * the channel's answer then (withdrawal.ts).
    */
-  async withdrawMessage(effect: NotifyEffect, now: Date): Promise<MessageWithdrawal | undefined> {
+  async withdrawMessage(effect: NotifyEffect, now: Date, attemptedAt?: Date): Promise<MessageWithdrawal | undefined> {
     const ref = ownerOf(effect.incidentId);
     if (ref === undefined) return undefined;
     let outcome: MessageWithdrawal | undefined;
@@ -154,7 +155,7 @@ export class RedisIncidents {
       const key = Object.keys(state.incidents).find((k) => state.incidents[k]!.id === effect.incidentId);
       // An incident no longer in the state (closed, then replaced or withdrawn) is judged and marked on its record.
       const incident = key !== undefined ? state.incidents[key]! : await this.get(effect.incidentId);
-      outcome = incident === undefined ? undefined : withdrawMessage(incident, effect, now);
+      outcome = incident === undefined ? undefined : withdrawMessage(incident, effect, now, attemptedAt);
       if (outcome === undefined || outcome.before) return { state, effects: [] };
       if (key === undefined) return { state, effects: [], archived: [outcome.incident] };
       return { state: { ...state, incidents: { ...state.incidents, [key]: outcome.incident } }, effects: [] };

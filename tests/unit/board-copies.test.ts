@@ -88,6 +88,10 @@ describe("the board's copies", () => {
     }
     expect(notifiedTargetsText({ targets: ['webhook:ops'], withdrawn: [{ target: 'webhook:ops', tier: 1, at: '2026-03-01T08:05:00Z', because: 'acknowledged', reason: '' }] })).toBe('webhook:ops (not sent: acknowledged meanwhile)');
     expect(text.notifiedTargetsText({ targets: ['webhook:ops'] })).toBe('webhook:ops');
+    // An earlier attempt that ended without an answer: the message may have arrived, and both copies say so.
+    const uncertain = { targets: ['webhook:ops'], withdrawn: [{ target: 'webhook:ops', tier: 1, at: '2026-03-01T08:05:00Z', because: 'acknowledged' as const, reason: '', attemptedAt: '2026-03-01T08:01:00.000Z' }] };
+    expect(notifiedTargetsText(uncertain)).toBe('webhook:ops (not sent again: acknowledged meanwhile; an attempt begun at 2026-03-01T08:01:00.000Z may have reached it)');
+    expect(text.notifiedTargetsText(uncertain)).toBe(notifiedTargetsText(uncertain));
   });
 
   it('write times in the site zone exactly as e-mails and the command line do', () => {

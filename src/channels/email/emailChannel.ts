@@ -49,7 +49,7 @@ export const emailChannel: ChannelDefinition = {
           if (sent.accepted.length === 0) throw new DeliveryRefused(`e-mail to ${effect.target}: the server refused the recipient`);
           return `email ${effect.target}: ${sent.messageId}`;
         } catch (e) {
-          if (e instanceof EmailDeliveryError) throw e.retryable ? new DeliveryRetry(e.message) : new DeliveryRefused(e.message);
+          if (e instanceof EmailDeliveryError) throw e.retryable ? new DeliveryRetry(e.message, undefined, e.notTaken) : new DeliveryRefused(e.message);
           throw e;
         }
       },
@@ -60,7 +60,7 @@ export const emailChannel: ChannelDefinition = {
           const sent = await sendEmail(smtpTransport(cfg.smtp, env), renderFloodSummaryEmail(s, { from: cfg.from, to: s.target }));
           return `flood summary by email ${s.target}: ${s.held.length} held back, ${sent.messageId}`;
         } catch (e) {
-          if (e instanceof EmailDeliveryError) throw e.retryable ? new DeliveryRetry(e.message) : new DeliveryRefused(e.message);
+          if (e instanceof EmailDeliveryError) throw e.retryable ? new DeliveryRetry(e.message, undefined, e.notTaken) : new DeliveryRefused(e.message);
           throw e;
         }
       },

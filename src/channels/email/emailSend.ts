@@ -30,6 +30,14 @@ export class EmailDeliveryError extends Error {
   ) {
     super(message, options);
   }
+
+  /**
+   * The server answered with a refusal (an SMTP reply code), or no connection was made: the message was not taken.
+   * False when it may have been (a timeout or a broken connection, possibly after the message's data went out).
+   */
+  get notTaken(): boolean {
+    return this.responseCode !== undefined || this.code === 'EDNS' || /\b(ECONNREFUSED|ENOTFOUND|EAI_AGAIN|EHOSTUNREACH|ENETUNREACH)\b/.test(this.message);
+  }
 }
 
 /**

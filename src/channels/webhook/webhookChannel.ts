@@ -37,7 +37,7 @@ export const webhookChannel: ChannelDefinition = {
           case 'delivered':
             return what;
           case 'retry':
-            throw new DeliveryRetry(what, result.retryAfterMs);
+            throw new DeliveryRetry(what, result.retryAfterMs, result.status !== undefined || result.notConnected === true);
           case 'disable':
             await disabledEndpoints?.disable(c.name, c.url, `410 Gone at ${new Date().toISOString()}`);
             throw new DeliveryRefused(
@@ -56,7 +56,7 @@ export const webhookChannel: ChannelDefinition = {
         const result = await deliverWebhook(endpoint, floodSummaryEvent(s, window) as unknown as IncidentCloudEvent, { now: new Date(), attempt });
         const what = `flood summary by webhook ${c.name}: ${result.error ?? result.status ?? 'no response'}`;
         if (result.outcome === 'delivered') return what;
-        if (result.outcome === 'retry') throw new DeliveryRetry(what, result.retryAfterMs);
+        if (result.outcome === 'retry') throw new DeliveryRetry(what, result.retryAfterMs, result.status !== undefined || result.notConnected === true);
         if (result.outcome === 'disable') await disabledEndpoints?.disable(c.name, c.url, `410 Gone at ${new Date().toISOString()}`);
         throw new DeliveryRefused(what);
       },

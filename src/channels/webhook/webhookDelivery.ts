@@ -40,6 +40,11 @@ export interface DeliveryResult {
   /** True on 410 Gone: the receiver asks not to be called again. */
   disable?: boolean;
   error?: string;
+  /**
+   * No connection was made (refused, unknown host, no route): the receiver cannot have the event. Absent when it may
+   * have it (no answer within the timeout, a connection broken after the request went out) or when it answered.
+   */
+  notConnected?: boolean;
 }
 
 /** Enough of an error response to tell what went wrong, not enough to bloat the delivery log. */
@@ -71,7 +76,7 @@ export async function deliverWebhook(endpoint: WebhookEndpoint, event: IncidentC
     response = await (options.fetch ?? fetch)(url, { method: 'POST', headers, body, redirect: 'manual', signal: AbortSignal.timeout(timeoutMs) });
   } catch (e) {
     const error = isTimeout(e) ? `no response within ${timeoutMs} ms` : `no response: ${networkReason(e)}`;
-    return { outcome: 'retry', attempt, durationMs: elapsed(), error };
+    return { outcome: 'retry', attempt, durationMs: elapsed(), error, ...(!isTimeout(e) && NOT_CONNECTED.has(networkCode(e) ?? '') && { notConnected: true }) };
   }
   const status = response.status;
   // The status decides. A 2xx is delivered as soon as it arrives: its body is not waited for (a receiver that took
@@ -120,6 +125,14 @@ async function responseExcerpt(response: Response): Promise<string> {
 
 function isTimeout(e: unknown): boolean {
   return e instanceof Error && (e.name === 'TimeoutError' || (e.cause instanceof Error && e.cause.name === 'TimeoutError'));
+}
+
+/** Errors of a connection that was never made: nothing of the request reached the receiver. */
+const NOT_CONNECTED = new Set(['ECONNREFUSED', 'ENOTFOUND', 'EAI_AGAIN', 'EHOSTUNREACH', 'ENETUNREACH', 'EADDRNOTAVAIL']);
+
+function networkCode(e: unknown): string | undefined {
+  const cause = e instanceof Error ? (e.cause as (Error & { code?: string }) | undefined) : undefined;
+  return cause instanceof Error && typeof cause.code === 'string' ? cause.code : undefined;
 }
 
 /** fetch says only "fetch failed"; the reason (ECONNREFUSED, a DNS failure ...) is in its cause. */

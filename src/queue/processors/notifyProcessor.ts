@@ -5,7 +5,7 @@
  * summary job per target and window, delayed to the window's end, lists all it held.
  */
 import { UnrecoverableError, type Job, type Processor } from 'bullmq';
-import { DeliveryRefused } from '../../channels/errors.ts';
+import { DeliveryRefused, DeliveryRetry } from '../../channels/errors.ts';
 import type { NotificationChannels } from '../../channels/openChannels.ts';
 import type { Config } from '../../domain/config.ts';
 import { describeState, type NotifyEffect } from '../../incidents/model.ts';
@@ -38,14 +38,14 @@ export interface NotifyDeps {
    * withdrawn message (a retry, or handed over twice after its first job was removed) sends nothing. Without it,
    * every job is delivered.
    */
-  readonly deliveries?: Pick<DeliveryLedger, 'delivered' | 'record' | 'withdrawn' | 'recordWithdrawn'>;
+  readonly deliveries?: Pick<DeliveryLedger, 'delivered' | 'record' | 'withdrawn' | 'recordWithdrawn' | 'attempting' | 'attempted' | 'notTaken'>;
   /**
    * The incidents as they stand now, asked before each message goes out: a message the incident has outrun since it
    * was queued (an escalation after the acknowledgement, anything after shelving or closing: `withdrawnBecause` in
    * src/incidents/withdrawal.ts) is recorded on the incident as not sent, with why, and is not sent. Without it,
    * every message is sent as it was queued.
    */
-  readonly incidents?: { withdrawMessage(effect: NotifyEffect, now: Date): Promise<MessageWithdrawal | undefined> };
+  readonly incidents?: { withdrawMessage(effect: NotifyEffect, now: Date, attemptedAt?: Date): Promise<MessageWithdrawal | undefined> };
   /** Told when a message is withdrawn (the incident's record changed), for live views. */
   readonly live?: (event: LiveEvent) => void;
   /** The clock a delivery is recorded with, and shelving is judged by. Default `Date.now`. */
@@ -94,7 +94,9 @@ export function notifyProcessor(deps: NotifyDeps): Processor<NotifyEffect | Floo
     if (await deps.deliveries?.delivered(effect.key)) return `${effect.channel} ${effect.target}: delivered before; not sent again`;
     const noted = await deps.deliveries?.withdrawn(effect.key);
     if (noted !== undefined) return `${effect.channel} ${effect.target}: not sent, ${noted}`;
-    const withdrawal = await deps.incidents?.withdrawMessage(effect, new Date((deps.now ?? Date.now)()));
+    // An earlier attempt that ended without an answer may have reached the target: the withdrawal says so.
+    const attempted = deps.incidents === undefined ? undefined : await deps.deliveries?.attempted(effect.key);
+    const withdrawal = await deps.incidents?.withdrawMessage(effect, new Date((deps.now ?? Date.now)()), attempted === undefined ? undefined : new Date(attempted));
     if (withdrawal !== undefined) {
       const { reason } = withdrawal.withdrawn;
       // Recorded on the incident first (that record decides); the ledger then spares later attempts the judging.
@@ -125,9 +127,21 @@ export function notifyProcessor(deps: NotifyDeps): Processor<NotifyEffect | Floo
     return once(effect.key, () => deps.channels.deliver({ effect, message, attempt: job.attemptsMade + 1, ...(chart && { chart }) }));
   };
 
-  /** Delivers a message and records it as delivered as soon as the channel took it. */
+  /**
+   * Delivers a message and records it as delivered as soon as the channel took it. The attempt is noted before the
+   * channel is called, and the note taken back only when the channel's answer shows the message was not taken: an
+   * attempt cut short (the worker stopped, no answer in time) leaves it, for the withdrawal to tell (see above).
+   */
   async function once(messageKey: string, deliver: () => Promise<string>): Promise<string> {
-    const outcome = await refusedForGood(deliver);
+    const noted = (await deps.deliveries?.attempting(messageKey, (deps.now ?? Date.now)())) === true;
+    let outcome: string;
+    try {
+      outcome = await refusedForGood(deliver);
+    } catch (e) {
+      const notTaken = e instanceof UnrecoverableError || (e instanceof DeliveryRetry && e.notTaken);
+      if (noted && notTaken) await deps.deliveries?.notTaken(messageKey);
+      throw e;
+    }
     await deps.deliveries?.record(messageKey, (deps.now ?? Date.now)());
     return outcome;
   }
