@@ -131,6 +131,14 @@ export interface EvaluationCommit {
   readonly releaseWhenSettled?: boolean;
 }
 
+/**
+ * What a history run (componentRun.ts) writes of its progress at the end of each sampling month, so that other units
+ * judged later are judged with it: the component's shares of its group's statistics and its horizon, nothing else.
+ */
+export type SharesCommit = Pick<EvaluationCommit, 'group' | 'shares' | 'baselines' | 'horizon'>;
+
+export type SharesOutcome = { readonly ok: true; readonly changedMonth?: string } | { readonly ok: false; readonly reason: 'lost-lock' };
+
 export type CommitOutcome =
   | {
       readonly ok: true;
@@ -172,6 +180,11 @@ export interface ComponentStore {
   renew(lease: Lease, ttlMs: number): Promise<boolean>;
   release(lease: Lease): Promise<void>;
   commit(ref: ComponentRef, lease: Lease, commit: EvaluationCommit): Promise<CommitOutcome>;
+  /**
+   * Writes only the group shares and the horizon of an evaluation still under way, while the lock holds: the
+   * component's checkpoint, findings, incidents and change mark stay as they were until its `commit`.
+   */
+  commitShares(ref: ComponentRef, lease: Lease, commit: SharesCommit): Promise<SharesOutcome>;
   /** Marks each component for evaluation from its `from` (a late result of another component changed its group's past). */
   markDirty(marks: readonly { readonly ref: ComponentRef; readonly from: StepPosition }[]): Promise<void>;
   /** Records what a responder said of a sample and marks the component for evaluation from it. */

@@ -26,6 +26,8 @@ import type {
   EvaluationInput,
   GroupLedger,
   Lease,
+  SharesCommit,
+  SharesOutcome,
   StepRecord,
   StoredSample,
   StoreOutcome,
@@ -329,16 +331,11 @@ export class RedisStore implements ComponentStore, GroupLedger {
     await this.scripts.release(lease.key, lease.token);
   }
 
-  async commit(ref: ComponentRef, lease: Lease, commit: EvaluationCommit): Promise<CommitOutcome> {
-    const { tag, c, p } = this.keysOf(ref);
-    const g = groupKeys(tag, commit.group);
+  /** The group part of a commit's payload: shares, baselines, horizon and where they go. */
+  private sharesPayload(ref: ComponentRef, commit: SharesCommit) {
+    const g = groupKeys(this.keysOf(ref).tag, commit.group);
     const settings = resolveSettings(this.config, { unit: ref.unit, component: ref.component, group: commit.group });
-    const payload0 = {
-      latest: compactText(JSON.stringify(commit.latest)),
-      sparse: commit.sparse.map((cp) => [`cp|${String(cp.count).padStart(10, '0')}|${positionText(cp.position!)}`, compactText(JSON.stringify(cp))]),
-      rewound: commit.rewoundTo === undefined ? '' : commit.rewoundTo === null ? 'start' : positionText(commit.rewoundTo),
-      steps: commit.steps.map((s) => [`${String(Date.parse(s.sampledAt)).padStart(15, '0')}|${s.sampleId}`, s.findings.length === 0 && s.status === undefined ? '' : compactText(JSON.stringify(s))]),
-      limit: this.findingsLogLimit,
+    return {
       shares: commit.shares.map((s) => [s.sampleId, s.values === null ? '' : `${s.month};${Object.entries(s.values).map(([f, v]) => `${f}=${v}`).join(',')}`]),
       baselines: Object.fromEntries(
         (settings.detection.measurands as Measurand[]).map((m) => {
@@ -353,6 +350,30 @@ export class RedisStore implements ComponentStore, GroupLedger {
       registry: JSON.stringify({ unit: ref.unit, component: ref.component, group: commit.group }),
       keepValues: settings.population.method === 'percentile' ? 1 : 0,
       componentKey: componentKey(ref),
+    };
+  }
+
+  /** The commit script's keys for a component. */
+  private commitKeys(ref: ComponentRef, lease: Lease): string[] {
+    const { c, p } = this.keysOf(ref);
+    return [lease.key, c.evaluation, c.winners, c.steps, c.incidents, c.own, p.registry, p.records, p.open, p.closed, p.outbox];
+  }
+
+  async commitShares(ref: ComponentRef, lease: Lease, commit: SharesCommit): Promise<SharesOutcome> {
+    const head = { partial: 1, ...this.sharesPayload(ref, commit) };
+    const result = (await this.scripts.commit(...this.commitKeys(ref, lease), lease.token, '0', JSON.stringify(head))) as [number, string?];
+    if (result[0] !== 1) return { ok: false, reason: 'lost-lock' };
+    return { ok: true, ...(result[1] && { changedMonth: result[1] }) };
+  }
+
+  async commit(ref: ComponentRef, lease: Lease, commit: EvaluationCommit): Promise<CommitOutcome> {
+    const payload0 = {
+      latest: compactText(JSON.stringify(commit.latest)),
+      sparse: commit.sparse.map((cp) => [`cp|${String(cp.count).padStart(10, '0')}|${positionText(cp.position!)}`, compactText(JSON.stringify(cp))]),
+      rewound: commit.rewoundTo === undefined ? '' : commit.rewoundTo === null ? 'start' : positionText(commit.rewoundTo),
+      steps: commit.steps.map((s) => [`${String(Date.parse(s.sampledAt)).padStart(15, '0')}|${s.sampleId}`, s.findings.length === 0 && s.status === undefined ? '' : compactText(JSON.stringify(s))]),
+      limit: this.findingsLogLimit,
+      ...this.sharesPayload(ref, commit),
       version: String(commit.incidentsVersion),
       ...incidentArguments(commit, FIRST_RECORD_ARGUMENT),
       outbox: commit.effects.map((e) => JSON.stringify(e)),
@@ -360,23 +381,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
     };
     const { texts, ...head } = payload0;
     const payload = { head, texts };
-    const result = (await this.scripts.commit(
-      lease.key,
-      c.evaluation,
-      c.winners,
-      c.steps,
-      c.incidents,
-      c.own,
-      p.registry,
-      p.records,
-      p.open,
-      p.closed,
-      p.outbox,
-      lease.token,
-      String(commit.mark),
-      JSON.stringify(payload.head),
-      ...payload.texts,
-    )) as [number, string?, number?];
+    const result = (await this.scripts.commit(...this.commitKeys(ref, lease), lease.token, String(commit.mark), JSON.stringify(payload.head), ...payload.texts)) as [number, string?, number?];
     if (result[0] === 0) return { ok: false, reason: 'lost-lock' };
     if (result[0] === -1) return { ok: false, reason: 'incidents-changed' };
     return { ok: true, settled: result[2] === 1, ...(result[1] && { changedMonth: result[1] }) };

@@ -266,6 +266,8 @@ return 1
  *   score, openedTime]], outbox;
  * then the incidents' JSON texts, one argument each (ARGV[4] on), which records name.
  * With release 1 in the payload, the lock goes too when nothing changed since the evaluation's input (settled).
+ * With partial 1 (SharesCommit), only the group shares, baselines, horizon and registry entry are written (the payload
+ * then holds only those, with group, groupPrefix, member, keepValues and componentKey): no version check, no mark.
  * Returns {1, earliest changed month or '', settled (0|1)}, {0} when the lock was lost, {-1} when the incidents
  * changed.
  */
@@ -273,14 +275,18 @@ export const COMMIT_EVALUATION = `${POSITION}${INCIDENT_RECORDS}
 if redis.call('GET', KEYS[1]) ~= ARGV[1] then return { 0 } end
 local ev = KEYS[2]
 local p = cjson.decode(ARGV[3])
-if (redis.call('HGET', ev, 'version') or '0') ~= p.version then return { -1 } end
+-- A partial commit (of an evaluation still under way) writes the group shares, the horizon and the registry entry only.
+local partial = p.partial == 1
+if not partial and (redis.call('HGET', ev, 'version') or '0') ~= p.version then return { -1 } end
+local fields = redis.call('HKEYS', ev)
+local settled = false
 
+if not partial then
 -- The component's change mark and the checkpoints.
 if tonumber(ARGV[2]) > tonumber(redis.call('HGET', ev, 'done') or '0') then redis.call('HSET', ev, 'done', ARGV[2]) end
-local settled = redis.call('HGET', ev, 'mark') == ARGV[2]
+settled = redis.call('HGET', ev, 'mark') == ARGV[2]
 if settled then redis.call('HDEL', ev, 'dirty') end
 redis.call('HSET', ev, 'latest', p.latest)
-local fields = redis.call('HKEYS', ev)
 if p.rewound ~= '' then
   for _, f in ipairs(fields) do
     if string.sub(f, 1, 3) == 'cp|' then
@@ -313,6 +319,7 @@ if excess > 0 then
   local names = redis.call('HKEYS', KEYS[4])
   table.sort(names)
   for i = 1, excess do redis.call('HDEL', KEYS[4], names[i]) end
+end
 end
 
 -- The group's month buckets in this partition. The component's own shares of them are its winners' population
@@ -420,6 +427,7 @@ for m, entry in pairs(p.baselines) do
 end
 redis.call('ZADD', p.groupPrefix .. ':h', 'GT', p.horizon, p.member)
 redis.call('HSET', KEYS[7], p.componentKey, p.registry)
+if partial then return { 1, changed or '', 0 } end
 
 -- The incidents, their records and their messages: each incident's JSON text is an argument of its own.
 for _, r in ipairs(p.records) do r[2] = ARGV[r[2]] end

@@ -34,6 +34,8 @@ import type {
   GroupLedger,
   Lease,
   SampleShare,
+  SharesCommit,
+  SharesOutcome,
   StepRecord,
   StoredSample,
   StoreOutcome,
@@ -252,6 +254,32 @@ export class MemoryStore implements ComponentStore, GroupLedger {
     }
     const kept = [...c.steps.values()].sort(byTimeThenId);
     for (const old of kept.slice(0, Math.max(0, kept.length - this.findingsLogLimit))) c.steps.delete(old.sampleId);
+    const changed = this.applyShares(c, commit);
+    c.incidents = JSON.stringify(commit.incidents);
+    c.incidentsVersion += 1;
+    for (const inc of [...Object.values(commit.incidents.incidents), ...commit.archived, ...commit.withdrawn]) this.records.set(inc.id, structuredClone(inc));
+    this.outboxList.push(...commit.effects);
+    this.advanceHorizon(ref, c.group, commit.horizon);
+    if (settled && commit.releaseWhenSettled === true) this.locks.delete(lease.key);
+    return { ok: true, settled, ...(changed !== undefined && { changedMonth: changed }) };
+  }
+
+  async commitShares(ref: ComponentRef, lease: Lease, commit: SharesCommit): Promise<SharesOutcome> {
+    if (this.locks.get(lease.key)?.token !== lease.token) return { ok: false, reason: 'lost-lock' };
+    const c = this.byKey.get(componentKey(ref));
+    if (c === undefined) return { ok: false, reason: 'lost-lock' };
+    const changed = this.applyShares(c, commit);
+    this.advanceHorizon(ref, c.group, commit.horizon);
+    return { ok: true, ...(changed !== undefined && { changedMonth: changed }) };
+  }
+
+  private advanceHorizon(ref: ComponentRef, group: string, horizon: number): void {
+    const horizons = this.group(group).horizons;
+    horizons.set(componentKey(ref), { ref: { unit: ref.unit, component: ref.component }, time: Math.max(horizons.get(componentKey(ref))?.time ?? 0, horizon) });
+  }
+
+  /** Moves the component's shares of its group's month buckets to those of the commit; the earliest month changed. */
+  private applyShares(c: ComponentState, commit: SharesCommit): string | undefined {
     let changed: string | undefined;
     const touch = (month: string) => {
       if (changed === undefined || month < changed) changed = month;
@@ -292,13 +320,7 @@ export class MemoryStore implements ComponentStore, GroupLedger {
       if (next) c.baselines[m] = next;
       else delete c.baselines[m];
     }
-    c.incidents = JSON.stringify(commit.incidents);
-    c.incidentsVersion += 1;
-    for (const inc of [...Object.values(commit.incidents.incidents), ...commit.archived, ...commit.withdrawn]) this.records.set(inc.id, structuredClone(inc));
-    this.outboxList.push(...commit.effects);
-    this.group(c.group).horizons.set(componentKey(ref), { ref: { unit: ref.unit, component: ref.component }, time: Math.max(this.group(c.group).horizons.get(componentKey(ref))?.time ?? 0, commit.horizon) });
-    if (settled && commit.releaseWhenSettled === true) this.locks.delete(lease.key);
-    return { ok: true, settled, ...(changed !== undefined && { changedMonth: changed }) };
+    return changed;
   }
 
   async markDirty(marks: readonly { readonly ref: ComponentRef; readonly from: StepPosition }[]): Promise<void> {
