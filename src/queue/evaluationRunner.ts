@@ -30,6 +30,26 @@ export interface EvaluationRunnerDeps extends EvaluationDeps {
 
 export type RunOutcome = 'done' | 'busy';
 
+/**
+ * What follows a committed evaluation on the calling thread: metrics, live events, the outbox relay woken for its
+ * messages, and the group's cascade marked and scheduled.
+ */
+export async function takeEvaluation(deps: EvaluationRunnerDeps, ref: ComponentRef, result: Extract<EvaluationSummary, { kind: 'evaluated' }>): Promise<void> {
+  deps.metrics?.evaluated(result.durationMs / 1000, 'evaluated');
+  deps.metrics?.findings(result.findings);
+  for (const change of result.changes) deps.live?.(incidentEvent(change));
+  if (result.effects.length > 0) deps.onEffects?.();
+  await takeCascade(deps, ref, result.cascade);
+}
+
+/** Marks the other units a commit's group shares changed the past of, and schedules their evaluation. */
+export async function takeCascade(deps: EvaluationRunnerDeps, ref: ComponentRef, cascade: Extract<EvaluationSummary, { kind: 'evaluated' }>['cascade']): Promise<void> {
+  if (cascade.length === 0) return;
+  await deps.store.markDirty(cascade);
+  await scheduleEvaluations(deps.evaluateQueues, deps.partitions, cascade.map((c) => c.ref));
+  deps.logger.debug({ component: componentKey(ref), cascade: cascade.length }, 'group statistics changed: later samples of other units judged again');
+}
+
 /** Evaluations of one component in a row before it lets others have a turn (a flood of one component's results). */
 const MAX_ROUNDS = 50;
 
@@ -46,13 +66,7 @@ export async function runEvaluation(deps: EvaluationRunnerDeps, ref: ComponentRe
       case 'unchanged':
         return 'done';
       case 'evaluated': {
-        deps.metrics?.evaluated(result.durationMs / 1000, 'evaluated');
-        deps.metrics?.findings(result.findings);
-        for (const change of result.changes) deps.live?.(incidentEvent(change));
-        if (result.effects.length > 0) deps.onEffects?.();
-        await deps.store.markDirty(result.cascade);
-        await scheduleEvaluations(deps.evaluateQueues, deps.partitions, result.cascade.map((c) => c.ref));
-        if (result.cascade.length > 0) deps.logger.debug({ component: componentKey(ref), cascade: result.cascade.length }, 'group statistics changed: later samples of other units judged again');
+        await takeEvaluation(deps, ref, result);
         if (result.settled) return 'done';
       }
     }

@@ -161,15 +161,35 @@ describe('wearshift incidents', { timeout: 600_000 }, () => {
     const cut = await run('incidents', 'list', '--limit', '2', '--config', configFile);
     expect(cut.code).toBe(0);
     expect(cut.out.split('\n').filter((l) => /^(LIM|GEN)-\d\/engine@/.test(l))).toHaveLength(2);
-    expect(cut.out).toContain(`showing 2 of ${open} incidents; use --limit (at most 1000) for more, or narrow the list with --state, --severity, --unit or --group\n`);
+    expect(cut.out).toMatch(new RegExp(`showing 2 of ${open} incidents; the next page: --cursor (\\S+) \\(with the same --state, --severity, --unit and --group\\), or narrow the list with --state, --severity, --unit or --group; --limit up to 1000\n`));
+    // Following the cursors page by page gives every incident of the whole list once, in its order, and the last page says so.
+    const whole = (await run('incidents', 'list', '--limit', '1000', '--json', '--config', configFile)).out.trim().split('\n').map((l) => (JSON.parse(l) as { id: string }).id);
+    const paged: string[] = [];
+    let cursor: string | undefined;
+    for (let pages = 0; pages < 10; pages++) {
+      const page = await run('incidents', 'list', '--limit', '2', '--json', ...(cursor === undefined ? [] : ['--cursor', cursor]), '--config', configFile);
+      expect(page.code).toBe(0);
+      paged.push(...page.out.trim().split('\n').map((l) => (JSON.parse(l) as { id: string }).id));
+      cursor = /--cursor (\S+) /.exec(page.err)?.[1];
+      if (cursor === undefined) {
+        expect(page.err).toContain('(the last page)');
+        break;
+      }
+    }
+    expect(paged).toEqual(whole);
+    // A cursor of another list is refused, saying why.
+    const first = /--cursor (\S+) /.exec((await run('incidents', 'list', '--limit', '1', '--json', '--config', configFile)).err)![1]!;
+    const other = await run('incidents', 'list', '--severity', 'alarm', '--cursor', first, '--config', configFile);
+    expect(other.code).not.toBe(0);
+    expect(other.err).toMatch(/--cursor: /);
     // Narrowed by severity: the total is of the matching ones, not of the index.
     const alarms = await all('--severity', 'alarm');
     const cutAlarms = await run('incidents', 'list', '--severity', 'alarm', '--limit', '1', '--json', '--config', configFile);
     expect(cutAlarms.out.trim().split('\n')).toHaveLength(1);
     expect(cutAlarms.err).toContain(`wearshift: showing 1 of ${alarms} incidents;`);
     // Whole lists say nothing of the kind.
-    const whole = await run('incidents', 'list', '--limit', String(open), '--config', configFile);
-    expect(whole.out).not.toContain('showing');
+    const complete = await run('incidents', 'list', '--limit', String(open), '--config', configFile);
+    expect(complete.out).not.toContain('showing');
   });
 
   it('says where it tried when Redis cannot be reached', async () => {

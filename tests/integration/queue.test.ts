@@ -243,6 +243,68 @@ describe('live pipeline', () => {
     }
   });
 
+  it('revisions inside history jobs (of a sample a month before, or of one in the same month) reach the state of one job per result', async () => {
+    const single = await pipeline();
+    const history = await pipeline();
+    try {
+      // Revised readings of three samples of each unit: one early, one in the middle, one near the end.
+      const byTime = [...fleet].sort((a, b) => Date.parse(a.sampledAt) - Date.parse(b.sampledAt));
+      const revised = (e: ResultEvent): ResultEvent => ({ ...e, revision: 1, readings: { ...e.readings, Fe: Number(e.readings.Fe ?? 0) + 60 } });
+      const targets = new Set(['0', '9', '17'].flatMap((n) => [...new Set(fleet.map((e) => e.unit))].map((u) => fleet.filter((e) => e.unit === u)[Number(n)]!.sampleId)));
+      const corrections = byTime.filter((e) => targets.has(e.sampleId)).map(revised);
+      // As one job per result: the originals in order, each correction after the sample two months later.
+      const stream: ResultEvent[] = [];
+      for (const e of byTime) {
+        stream.push(e);
+        for (const c of corrections) {
+          if (Date.parse(c.sampledAt) + 60 * 86_400_000 <= Date.parse(e.sampledAt) && !stream.includes(c)) stream.push(c);
+        }
+      }
+      for (const c of corrections) if (!stream.includes(c)) stream.push(c);
+      await single.send(stream);
+      // As history jobs: the same stream in jobs of 40 (a job puts its results in history order, so a correction lands
+      // beside its original when both are in one job, and months after the run has folded it when not).
+      await history.sendHistory(stream, 40);
+      const expected = await storedState(single);
+      expect(expected.incidents.length).toBeGreaterThan(0);
+      expect(expected.perComponent.flatMap((c) => c.revisions).filter((r) => r.endsWith('#1'))).toHaveLength(corrections.length);
+      expect(await storedState(history)).toEqual(expected);
+      expect(await history.history.getJobCounts('completed', 'failed')).toEqual({ completed: 0, failed: 0 });
+    } finally {
+      await single.close();
+      await history.close();
+    }
+  });
+
+  it('a history job whose run has folded past a result of a later month (an earlier job held later samples, a revision moved a sample) gives way to an evaluation that goes back', async () => {
+    // One unit alone in its group: no other unit's shares mark it for evaluation again.
+    const own = inventedFleet({ units: 1, samplesPerUnit: 24 }).sort((a, b) => Date.parse(a.sampledAt) - Date.parse(b.sampledAt));
+    // A corrected sampling date: revision 1 of the fourth sample, dated a month after the seventh, with more iron.
+    const moved: ResultEvent = { ...own[3]!, revision: 1, sampledAt: new Date(Date.parse(own[6]!.sampledAt) + 30 * 86_400_000).toISOString(), readings: { ...own[3]!.readings, Fe: Number(own[3]!.readings.Fe ?? 0) + 80 } };
+    const cases: Array<{ what: string; single: ResultEvent[]; jobs: ResultEvent[][] }> = [
+      // The later half first, then the earlier half: the second job's run folds the stored later half at its first
+      // month, and then meets results before what it folded.
+      { what: 'an earlier job held later samples', single: [...own.slice(12), ...own.slice(0, 12)], jobs: [own.slice(12), own.slice(0, 12)] },
+      // All in one job in order, the correction with them: at the correction's month the run has folded the sample it
+      // replaces.
+      { what: 'a revision moved a sample', single: [...own, moved], jobs: [[...own, moved]] },
+    ];
+    for (const c of cases) {
+      const single = await pipeline();
+      const history = await pipeline();
+      try {
+        await single.send(c.single);
+        for (const job of c.jobs) await history.sendHistory(job, job.length);
+        const expected = await storedState(single);
+        expect(expected.perComponent[0]!.findings.length, c.what).toBeGreaterThan(0);
+        expect(await storedState(history), c.what).toEqual(expected);
+      } finally {
+        await single.close();
+        await history.close();
+      }
+    }
+  });
+
   it('history jobs evaluated on history threads reach the state of one job per result', async () => {
     const single = await pipeline();
     const threaded = await pipeline(2);

@@ -8,7 +8,8 @@ import type { Config } from '../../domain/config.ts';
 import { loadConfig } from '../../runtime/loadConfig.ts';
 import { InputError } from '../../domain/errors.ts';
 import type { IncidentAction } from '../../incidents/applyAction.ts';
-import { IncidentFilterSchema, MAX_LIST_LIMIT } from '../../incidents/listFilter.ts';
+import { MAX_LIST_LIMIT } from '../../incidents/listFilter.ts';
+import { decodeCursor, encodeCursor, IncidentListQuerySchema } from '../../incidents/listPage.ts';
 import { describeState, mergedTimeline, notifiedTargetsText, sampleVerdictText, type Incident, type IncidentSummary, type NotifiedEntry, type TimelineEntry } from '../../incidents/model.ts';
 import { incidentRules } from '../../incidents/policy.ts';
 import { closeQuietly, connectForCommand, redisTarget } from '../../redis/connection.ts';
@@ -47,8 +48,14 @@ function measurands(i: IncidentSummary): string {
  * The list, and when it was cut at --limit, how many it shows of how many: after the table, or on stderr with --json
  * (stdout stays one incident per line).
  */
-function printList(list: IncidentSummary[], json: boolean, zone: string, total: number): void {
-  const cut = total > list.length ? `showing ${list.length} of ${total} incidents; use --limit (at most ${MAX_LIST_LIMIT}) for more, or narrow the list with --state, --severity, --unit or --group` : undefined;
+/** `next`: the cursor of the page after this one, when there is one. `before`: incidents on the pages before this one. */
+function printList(list: IncidentSummary[], json: boolean, zone: string, total: number, next: string | null, before: boolean): void {
+  const more = next === null ? '' : `; the next page: --cursor ${next} (with the same --state, --severity, --unit and --group)`;
+  const shown = before ? `showing ${list.length} more of ${total} incidents` : `showing ${list.length} of ${total} incidents`;
+  const cut =
+    next !== null || before
+      ? `${shown}${more}${next === null ? ' (the last page)' : `, or narrow the list with --state, --severity, --unit or --group; --limit up to ${MAX_LIST_LIMIT}`}`
+      : undefined;
   if (json) {
     list.forEach((i) => writeJsonLine({ ...i, advisory: ADVISORY_CAUTION }));
     if (cut !== undefined) process.stderr.write(`wearshift: ${cut}\n`);
@@ -138,24 +145,30 @@ export function registerIncidents(program: Command): void {
     .option('--severity <list>', 'watch, caution, alarm (comma-separated)')
     .option('--unit <unit>', 'one unit only')
     .option('--group <group>', 'one group only')
-    .option('--limit <n>', `at most this many (up to ${MAX_LIST_LIMIT}); a list cut here says "showing N of M"`, '100')
+    .option('--limit <n>', `at most this many (up to ${MAX_LIST_LIMIT}); a list cut here says "showing N of M" and how to ask for the next page`, '100')
+    .option('--cursor <next>', 'the next page of a list cut before: the cursor its "next page" line gave, with the same --state, --severity, --unit and --group')
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
-    .option('--json', 'one JSON line per incident; "showing N of M" of a cut list goes to stderr')
-    .action(async (opts: CommonOptions & { state: string; severity?: string; unit?: string; group?: string; limit: string }) => {
-      const parsed = IncidentFilterSchema.safeParse({
+    .option('--json', 'one JSON line per incident; "showing N of M" and the next page\'s cursor of a cut list go to stderr')
+    .action(async (opts: CommonOptions & { state: string; severity?: string; unit?: string; group?: string; limit: string; cursor?: string }) => {
+      const parsed = IncidentListQuerySchema.safeParse({
         state: opts.state,
         limit: opts.limit,
         ...(opts.severity !== undefined && { severity: opts.severity }),
         ...(opts.unit !== undefined && { unit: opts.unit }),
         ...(opts.group !== undefined && { group: opts.group }),
+        ...(opts.cursor !== undefined && { cursor: opts.cursor }),
       });
       if (!parsed.success) throw new InputError(parsed.error.issues.map((i) => `--${String(i.path[0])}: ${i.message}`).join('; '));
-      const { list, total, zone } = await withStore(opts, async (store, config) => {
-        const list = await store.list(parsed.data);
-        // Counted only when the list is full: then there may be more than it shows.
-        return { list, total: list.length < parsed.data.limit ? list.length : await store.count(parsed.data), zone: config.display.timeZone };
+      const { cursor, ...filter } = parsed.data;
+      const after = cursor === undefined ? undefined : decodeCursor(filter, cursor);
+      if (after !== undefined && !after.ok) throw new InputError(`--cursor: ${after.reason}`);
+      const { page, total, zone } = await withStore(opts, async (store, config) => {
+        const page = await store.page(filter, after?.position);
+        // Counted only when it may be more than the page shows and the page did not say.
+        const total = page.total ?? (page.next === null && after === undefined ? page.incidents.length : await store.count(filter));
+        return { page, total, zone: config.display.timeZone };
       });
-      printList(list, opts.json === true, zone, total);
+      printList(page.incidents, opts.json === true, zone, total, page.next === null ? null : encodeCursor(filter, page.next), after !== undefined);
     });
 
   incidents

@@ -8,7 +8,7 @@ export function registerServe(program: Command): void {
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .option('--port <n>', 'HTTP port (default: PORT, else 8080)')
     .option('--opcua-port <n>', 'also serve OPC UA Alarms & Conditions on this opc.tcp port (default: opcua.port of the configuration, else off)')
-    .option('--history-threads <n>', 'threads that evaluate the components of a history import (`import --history`), each with its own Redis connection, started when a history job comes and ended a minute after; 0: the main thread does; by default the number of cores, at most 4 (0 on one core)', String(defaultHistoryThreads()))
+    .option('--history-threads <n>', 'threads for the evaluations a history import (`import --history`) hands off (a component whose month brings a revision of a result already judged, or an earlier result), each with its own Redis connection, started at the first and ended a minute after the last; 0: the main thread does; by default the number of cores, at most 4 (0 on one core)', String(defaultHistoryThreads()))
     .option('--shutdown-timeout <seconds>', 'longest wait for active jobs and connections at shutdown', '10')
     .action((opts: ServiceCommandOptions) => runService('serve', opts));
 }
