@@ -35,7 +35,7 @@ export async function loadBoard() {
   more.textContent = more.hidden
     ? ''
     : `Showing ${incidents.length} of ${typeof total === 'number' ? total : 'more than ' + incidents.length} open incidents: the most severe, then the most recently opened. ` +
-      'The counts above are of those shown; the full list pages through GET /v1/incidents?state=open.';
+      'The counts above are of those shown; the full list pages through GET /v1/incidents?state=open, or `wearshift incidents list --cursor …` page by page.';
 }
 
 function renderBoard(incidents) {

@@ -30,7 +30,7 @@ import { DEFAULT_FLOOD_CONTROL } from '../domain/escalationConfig.ts';
 import { DeliveryLedger } from '../redis/deliveryLedger.ts';
 import { FloodLedger } from '../redis/floodLedger.ts';
 import { EvaluationThreadPool } from './evaluationThreadPool.ts';
-import { HISTORY_EVALUATIONS_PER_THREAD, historyProcessor } from './processors/historyProcessor.ts';
+import { historyProcessor } from './processors/historyProcessor.ts';
 import type { RedisTarget } from '../redis/target.ts';
 import { resultsProcessor } from './processors/resultsProcessor.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from './queues.ts';
@@ -157,7 +157,6 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   }
   const threads = pool;
   const historyRunner: EvaluationRunnerDeps = threads === undefined ? runner : { ...runner, evaluator: (ref) => threads.evaluate(ref, now()) };
-  const historyAtOnce = HISTORY_EVALUATIONS_PER_THREAD * Math.max(1, s.historyThreads);
 
   const workers: Worker[] = [];
   for (const p of partitions.all()) {
@@ -166,7 +165,7 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
     workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs), options(prefix, s.evaluateConcurrency)));
   }
   // One history job at a time, for every partition (the producer sets the queue's global concurrency to 1 as well).
-  workers.push(new Worker(QUEUE_NAMES.history, historyProcessor(historyRunner, s.busyRetryMs, historyAtOnce), options(partitions.sharedTag(), 1)));
+  workers.push(new Worker(QUEUE_NAMES.history, historyProcessor(historyRunner, s.busyRetryMs), options(partitions.sharedTag(), 1)));
   workers.push(new Worker(QUEUE_NAMES.escalate, escalateProcessor(incidents, now, () => relay.kick()) as Processor, options(partitions.sharedTag(), s.notifyConcurrency)));
   const channels = deps.channels;
   if (channels !== undefined) {
