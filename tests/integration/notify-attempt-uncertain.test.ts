@@ -11,10 +11,8 @@ import { createServer, type ServerResponse, type Server } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import type { Job } from 'bullmq';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { Step } from '../../src/analysis/model.ts';
 import { DeliveryRetry } from '../../src/channels/errors.ts';
 import { notificationChannels } from '../../src/channels/openChannels.ts';
-import { parseConfig } from '../../src/domain/configFile.ts';
 import { notifiedTargetsText, type IncidentEffect, type NotifyEffect } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { notifyProcessor } from '../../src/queue/processors/notifyProcessor.ts';
@@ -23,6 +21,7 @@ import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { gearboxIronAlarm, webhookEscalationConfig } from '../helpers/webhookEscalation.ts';
 
 const prefix = '{attempt}';
 const SECRET = `whsec_${randomBytes(32).toString('base64')}`;
@@ -54,34 +53,17 @@ afterAll(async () => {
   await redis?.dispose();
 });
 
-function finding(unit: string, sampleId: string, sampledAt: string): Step['findings'][number] {
-  return { unit, component: 'gearbox', group: 'gearboxes', measurand: 'Fe', rule: 'limit', disposition: 'incident', severity: 'alarm', value: 95, threshold: 80, basis: 'reading', sampleId, sampledAt, explanation: 'Fe 95 ppm is above the alarm level of 80 ppm.' };
-}
-
 describe('a message whose attempt ended without an answer', () => {
   it('is not sent again after the acknowledgement, and its record says it may have reached the target', async () => {
     const { port } = receiver.address() as AddressInfo;
-    const config = parseConfig(`
-redis: { prefix: "${prefix}" }
-escalation:
-  policies:
-    - name: gearbox-on-call
-      tiers:
-        - { afterMinutes: 0, webhooks: [first-line] }
-        - { afterMinutes: 0, webhooks: [silent, busy] }
-channels:
-  webhooks:
-    - { name: first-line, url: "http://127.0.0.1:${port}/first-line", secrets: ["${SECRET}"] }
-    - { name: silent, url: "http://127.0.0.1:${port}/silent", secrets: ["${SECRET}"], timeoutMs: 300 }
-    - { name: busy, url: "http://127.0.0.1:${port}/busy", secrets: ["${SECRET}"] }
-`);
+    const config = webhookEscalationConfig(prefix, port, SECRET, [['first-line'], ['silent', 'busy']], [{ name: 'first-line' }, { name: 'silent', timeoutMs: 300 }, { name: 'busy' }]);
     const connection = redis.client();
     const incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix });
     const store = new RedisStore(connection, { prefix, config });
     const deliveries = new DeliveryLedger(connection, prefix);
     const unit = 'PS7-Gearbox';
     const sampledAt = new Date(Date.now() - 86_400_000).toISOString();
-    await incidents.applySteps({ unit, component: 'gearbox' }, [{ sampleId: `${unit}-1`, sampledAt, findings: [finding(unit, `${unit}-1`, sampledAt)] }], {
+    await incidents.applySteps({ unit, component: 'gearbox' }, [{ sampleId: `${unit}-1`, sampledAt, findings: [gearboxIronAlarm(unit, `${unit}-1`, sampledAt)] }], {
       group: 'gearboxes',
       now: new Date(),
       quietBefore: new Date(0),

@@ -16,9 +16,7 @@ import { Writable } from 'node:stream';
 import { Queue } from 'bullmq';
 import Fastify from 'fastify';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { Step } from '../../src/analysis/model.ts';
 import { notificationChannels } from '../../src/channels/openChannels.ts';
-import { parseConfig } from '../../src/domain/configFile.ts';
 import { incidentRoutes } from '../../src/http/incidentRoutes.ts';
 import type { Incident, IncidentEffect, NotifyEffect } from '../../src/incidents/model.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
@@ -29,6 +27,7 @@ import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { createLogger, silentLogger } from '../../src/telemetry/logger.ts';
 import { runCliInProcess } from '../helpers/cliInProcess.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { gearboxIronAlarm, webhookEscalationConfig } from '../helpers/webhookEscalation.ts';
 
 const prefix = '{withdrawn}';
 const SECRET = `whsec_${randomBytes(32).toString('base64')}`;
@@ -64,10 +63,6 @@ afterAll(async () => {
   if (dir) rmSync(dir, { recursive: true, force: true });
 });
 
-function finding(unit: string, sampleId: string, sampledAt: string): Step['findings'][number] {
-  return { unit, component: 'gearbox', group: 'gearboxes', measurand: 'Fe', rule: 'limit', disposition: 'incident', severity: 'alarm', value: 95, threshold: 80, basis: 'reading', sampleId, sampledAt, explanation: 'Fe 95 ppm is above the alarm level of 80 ppm.' };
-}
-
 /** `wearshift incidents show`, run in-process through the real command parser against the private server. */
 function show(id: string, configFile: string): Promise<{ code: number; out: string }> {
   return runCliInProcess(['incidents', 'show', id, '--config', configFile], { REDIS_URL: redis.url });
@@ -91,25 +86,13 @@ async function finished(queue: Queue, jobId: string): Promise<{ state: string; r
 describe('a queued message is judged on the incident as it stands when it is sent', () => {
   it('no escalation after the acknowledgement, nothing about a shelved or closed incident', async () => {
     const { port } = receiver.address() as AddressInfo;
-    const config = parseConfig(`
-redis: { prefix: "${prefix}" }
-escalation:
-  policies:
-    - name: gearbox-on-call
-      tiers:
-        - { afterMinutes: 0, webhooks: [first-line] }
-        - { afterMinutes: 0, webhooks: [duty-manager] }
-channels:
-  webhooks:
-    - { name: first-line, url: "http://127.0.0.1:${port}/first-line", secrets: ["${SECRET}"] }
-    - { name: duty-manager, url: "http://127.0.0.1:${port}/duty-manager", secrets: ["${SECRET}"] }
-`);
+    const config = webhookEscalationConfig(prefix, port, SECRET, [['first-line'], ['duty-manager']], [{ name: 'first-line' }, { name: 'duty-manager' }]);
     const connection = redis.client();
     const incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix });
     const sampledAt = new Date(Date.now() - 86_400_000).toISOString();
     const units = { acknowledged: 'PS1-Acked', shelved: 'PS2-Shelved', resolved: 'PS3-Resolved', untouched: 'PS4-Untouched' } as const;
     for (const unit of Object.values(units)) {
-      await incidents.applySteps({ unit, component: 'gearbox' }, [{ sampleId: `${unit}-1`, sampledAt, findings: [finding(unit, `${unit}-1`, sampledAt)] }], {
+      await incidents.applySteps({ unit, component: 'gearbox' }, [{ sampleId: `${unit}-1`, sampledAt, findings: [gearboxIronAlarm(unit, `${unit}-1`, sampledAt)] }], {
         group: 'gearboxes',
         now: new Date(),
         quietBefore: new Date(0),
