@@ -13,7 +13,7 @@ import type { Job } from 'bullmq';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { DeliveryRetry } from '../../src/channels/errors.ts';
 import { notificationChannels } from '../../src/channels/openChannels.ts';
-import { notifiedTargetsText, type IncidentEffect, type NotifyEffect } from '../../src/incidents/model.ts';
+import { notifiedTargetsText, type NotifyEffect } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { notifyProcessor } from '../../src/queue/processors/notifyProcessor.ts';
 import { DeliveryLedger } from '../../src/redis/deliveryLedger.ts';
@@ -21,7 +21,7 @@ import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
-import { gearboxIronAlarm, webhookEscalationConfig } from '../helpers/webhookEscalation.ts';
+import { openIronAlarms, webhookEscalationConfig } from '../helpers/webhookEscalation.ts';
 
 const prefix = '{attempt}';
 const SECRET = `whsec_${randomBytes(32).toString('base64')}`;
@@ -61,17 +61,7 @@ describe('a message whose attempt ended without an answer', () => {
     const incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix });
     const store = new RedisStore(connection, { prefix, config });
     const deliveries = new DeliveryLedger(connection, prefix);
-    const unit = 'PS7-Gearbox';
-    const sampledAt = new Date(Date.now() - 86_400_000).toISOString();
-    await incidents.applySteps({ unit, component: 'gearbox' }, [{ sampleId: `${unit}-1`, sampledAt, findings: [gearboxIronAlarm(unit, `${unit}-1`, sampledAt)] }], {
-      group: 'gearboxes',
-      now: new Date(),
-      quietBefore: new Date(0),
-    });
-    const held: IncidentEffect[] = [];
-    await incidents.drainOutbox(async (effects) => {
-      held.push(...effects);
-    });
+    const held = await openIronAlarms(incidents, ['PS7-Gearbox']);
     const escalations = held.filter((e): e is NotifyEffect => e.kind === 'notify' && e.type === 'wearshift.incident.escalated');
     const to = (target: string) => escalations.find((e) => e.target === target)!;
     expect(escalations.map((e) => e.target).sort()).toEqual(['busy', 'silent']);

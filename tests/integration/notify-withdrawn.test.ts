@@ -18,7 +18,7 @@ import Fastify from 'fastify';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { notificationChannels } from '../../src/channels/openChannels.ts';
 import { incidentRoutes } from '../../src/http/incidentRoutes.ts';
-import type { Incident, IncidentEffect, NotifyEffect } from '../../src/incidents/model.ts';
+import type { Incident, NotifyEffect } from '../../src/incidents/model.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { effectJobId, relayEffects } from '../../src/queue/outboxRelay.ts';
@@ -27,7 +27,7 @@ import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { createLogger, silentLogger } from '../../src/telemetry/logger.ts';
 import { runCliInProcess } from '../helpers/cliInProcess.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
-import { gearboxIronAlarm, webhookEscalationConfig } from '../helpers/webhookEscalation.ts';
+import { openIronAlarms, webhookEscalationConfig } from '../helpers/webhookEscalation.ts';
 
 const prefix = '{withdrawn}';
 const SECRET = `whsec_${randomBytes(32).toString('base64')}`;
@@ -89,20 +89,9 @@ describe('a queued message is judged on the incident as it stands when it is sen
     const config = webhookEscalationConfig(prefix, port, SECRET, [['first-line'], ['duty-manager']], [{ name: 'first-line' }, { name: 'duty-manager' }]);
     const connection = redis.client();
     const incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix });
-    const sampledAt = new Date(Date.now() - 86_400_000).toISOString();
     const units = { acknowledged: 'PS1-Acked', shelved: 'PS2-Shelved', resolved: 'PS3-Resolved', untouched: 'PS4-Untouched' } as const;
-    for (const unit of Object.values(units)) {
-      await incidents.applySteps({ unit, component: 'gearbox' }, [{ sampleId: `${unit}-1`, sampledAt, findings: [gearboxIronAlarm(unit, `${unit}-1`, sampledAt)] }], {
-        group: 'gearboxes',
-        now: new Date(),
-        quietBefore: new Date(0),
-      });
-    }
     // The messages of the four new incidents, held back from the queue: tier 0 is told, tier 1 escalated to at once.
-    const held: IncidentEffect[] = [];
-    await incidents.drainOutbox(async (effects) => {
-      held.push(...effects);
-    });
+    const held = await openIronAlarms(incidents, Object.values(units));
     const messages = held.filter((e): e is NotifyEffect => e.kind === 'notify');
     const idOf = (unit: string) => `${unit}/gearbox@${unit}-1`;
     for (const unit of Object.values(units)) {
