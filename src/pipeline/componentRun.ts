@@ -93,16 +93,6 @@ export class ComponentRun {
     return this.last !== undefined ? positionOf(this.last) : this.start.position;
   }
 
-  /** Nothing folded yet. */
-  get idle(): boolean {
-    return this.steps.length === 0;
-  }
-
-  /** The lock was lost: the run must not write. */
-  get lost(): boolean {
-    return this.renewal.lost;
-  }
-
   /** The caller stored `changes` more results of this component after the last folded one: the commit covers them. */
   covers(changes: number): void {
     this.mark += changes;
