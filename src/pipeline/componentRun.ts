@@ -18,7 +18,7 @@ import { comparePosition, positionOf } from '../incidents/verdict.ts';
 import { monthOf, populationShare, startOfNextMonth } from './groupShares.ts';
 import { incidentChanges } from './incidentChanges.ts';
 import { keepRenewed, type Renewal } from './keepRenewed.ts';
-import type { BaselineShare, Checkpoint, ComponentRef, EvaluationCommit, EvaluationInput, Lease, SampleShare } from './ports.ts';
+import type { BaselineShare, Checkpoint, ComponentRef, EvaluationCommit, EvaluationInput, Lease, SampleShare, StoredSample } from './ports.ts';
 import { emptyCheckpoint, DEFAULT_CHECKPOINT_EVERY, DEFAULT_LOCK_TTL_MS, type EvaluationDeps, type EvaluationResult } from './evaluationResult.ts';
 
 const DAY_MS = 86_400_000;
@@ -32,6 +32,8 @@ export class ComponentRun {
   private unshared: SampleShare[] = [];
   private count: number;
   private last: Sample | undefined;
+  /** Stored samples read after the last folded one and not folded yet; undefined: to be read. */
+  private tail: StoredSample[] | undefined;
   private readonly fold: AnalysisFold;
   private readonly incidents: IncidentFold;
 
@@ -96,12 +98,29 @@ export class ComponentRun {
   /** The caller stored `changes` more results of this component after the last folded one: the commit covers them. */
   covers(changes: number): void {
     this.mark += changes;
+    if (changes > 0) this.tail = undefined;
   }
 
-  /** Folds the stored samples after the last folded one; returns how many. */
-  async foldStored(): Promise<number> {
-    const { store, ledger } = this.deps;
-    const stored = await store.samplesAfter(this.ref, this.position);
+  /**
+   * Reads the stored samples after the last folded one, which the next folds take (a run judged month by month reads
+   * them once, right after opening; a read after the input's covers every change the input's mark counts).
+   */
+  async readStored(): Promise<void> {
+    this.tail = await this.deps.store.samplesAfter(this.ref, this.position);
+  }
+
+  /**
+   * Folds the stored samples after the last folded one, those sampled before `until` (epoch ms) when given (a run
+   * taken month by month with later months already stored); returns how many. They are read first unless a read since
+   * the last `covers` holds them (`readStored`); what is left of that read stays due after the commit.
+   */
+  async foldStored(until?: number): Promise<number> {
+    const { ledger } = this.deps;
+    if (this.tail === undefined) await this.readStored();
+    const tail = this.tail!;
+    let take = 0;
+    while (take < tail.length && (until === undefined || tail[take]!.sample.time < until)) take++;
+    const stored = tail.splice(0, take);
     if (stored.length === 0) return 0;
     const group = this.settings.group;
     await ledger.touch(group, this.ref, stored.at(-1)!.sample.time);
@@ -170,6 +189,8 @@ export class ComponentRun {
         archived: verdict.archived,
         withdrawn: verdict.withdrawn,
         horizon: this.last?.time ?? 0,
+        // What is left of the last read stays due from its first sample (a run judged up to a month's end).
+        ...(this.tail !== undefined && this.tail.length > 0 && { dueFrom: positionOf(this.tail[0]!.sample) }),
         releaseWhenSettled: true,
       };
       const outcome = await store.commit(ref, this.lease, commit);

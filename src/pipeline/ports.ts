@@ -125,6 +125,11 @@ export interface EvaluationCommit {
   /** The latest sampling time folded, for the group's cascade. */
   readonly horizon: number;
   /**
+   * Stored samples from this position on were read but not folded (a run judged up to the end of a month): they stay
+   * due from there, and the commit is not settled. Default: everything read was folded.
+   */
+  readonly dueFrom?: StepPosition;
+  /**
    * Let go of the lease in the same write when nothing changed since the input was read (the evaluation is then
    * complete, and a second look would find nothing to do). Default false.
    */

@@ -38,7 +38,11 @@ import { DEFAULT_EVALUATE_RETRY_MS, openPartitionedQueues, openSharedQueue, QUEU
 export interface WorkerSettings extends QueueSettings {
   /** Key partitions, as configured (`redis.partitions`). Default 1. */
   partitions?: number;
-  /** Results this process stores (and evaluates, when the component is free) at once, per partition. Default 8. */
+  /**
+   * Results jobs this process takes at once, per partition: each is stored at once, and their evaluations are judged
+   * together in batches (resultBatches.ts), so that a backlog costs about one commit per component and batch. A
+   * job is done when its batch has committed. Default 1000 (BENCHMARKS.md, *Live results judged in batches*).
+   */
   resultsConcurrency?: number;
   /** Components this process evaluates at once from the evaluate queue, per partition. Default 2. */
   evaluateConcurrency?: number;
@@ -66,7 +70,7 @@ export interface WorkerSettings extends QueueSettings {
 
 export const WORKER_DEFAULTS = {
   partitions: 1,
-  resultsConcurrency: 8,
+  resultsConcurrency: 1000,
   evaluateConcurrency: 2,
   lockTtlMs: DEFAULT_LOCK_TTL_MS,
   busyRetryMs: DEFAULT_EVALUATE_RETRY_MS,

@@ -98,7 +98,7 @@ export function componentKeys(tag: string, ref: ComponentRefLike) {
     winners: `${c}:win`,
     /** sorted set sampleId by sampling time of the revision in force. */
     order: `${c}:ord`,
-    /** hash: mark, done, dirty, latest checkpoint, sparse checkpoints (cp|…), incidents (compact, compactText.ts), version, marks, baseline shares (bl|…), group. */
+    /** hash: mark, done, dirty, later (changes since the input an evaluation read), latest checkpoint, sparse checkpoints (cp|…), incidents (compact, compactText.ts), version, marks, baseline shares (bl|…), group. */
     evaluation: `${c}:ev`,
     /**
      * An earlier layout's hash `month|field` → number of the component's own shares of its group's month buckets; they

@@ -371,6 +371,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
       latest: compactText(JSON.stringify(commit.latest)),
       sparse: commit.sparse.map((cp) => [`cp|${String(cp.count).padStart(10, '0')}|${positionText(cp.position!)}`, compactText(JSON.stringify(cp))]),
       rewound: commit.rewoundTo === undefined ? '' : commit.rewoundTo === null ? 'start' : positionText(commit.rewoundTo),
+      due: commit.dueFrom === undefined ? '' : positionText(commit.dueFrom),
       steps: commit.steps.map((s) => [`${String(Date.parse(s.sampledAt)).padStart(15, '0')}|${s.sampleId}`, s.findings.length === 0 && s.status === undefined ? '' : compactText(JSON.stringify(s))]),
       limit: this.findingsLogLimit,
       ...this.sharesPayload(ref, commit),

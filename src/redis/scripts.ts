@@ -21,9 +21,13 @@ local function pos_cmp(a, b)
   if ia == ib then return 0 end
   return ia < ib and -1 or 1
 end
+-- dirty: the earliest position changed since the last settled commit; later: the same since the last input read
+-- under the lock, which a commit that does not cover every change leaves as the component's dirty position.
 local function mark_dirty(ev, pos)
   local cur = redis.call('HGET', ev, 'dirty')
   if not cur or pos_cmp(pos, cur) < 0 then redis.call('HSET', ev, 'dirty', pos) end
+  local later = redis.call('HGET', ev, 'later')
+  if not later or pos_cmp(pos, later) < 0 then redis.call('HSET', ev, 'later', pos) end
 end
 `;
 
@@ -111,6 +115,8 @@ local head = redis.call('HGET', KEYS[2], ARGV[3]) or ''
 local count = redis.call('ZCARD', KEYS[3])
 local last = redis.call('ZRANGE', KEYS[3], -1, -1, 'WITHSCORES')
 local f = redis.call('HMGET', KEYS[4], 'mark', 'dirty', 'latest', 'incidents', 'version', 'marks')
+-- Changes from here on are what a commit of this evaluation may leave due (mark_dirty).
+redis.call('HDEL', KEYS[4], 'later')
 local out = { 1, head, count, last[1] or '', last[2] or '' }
 for i = 1, 6 do out[5 + i] = f[i] or '' end
 return out
@@ -259,7 +265,8 @@ return 1
  * KEYS: lock, evaluation, winners, steps, component incident index, own shares of an earlier layout (deleted), registry,
  * records, open, closed, outbox.
  * ARGV: token, mark, payload JSON:
- *   latest, sparse [[field, json]], rewound ('' none, 'start', or a position), steps [[field, json or '']], limit,
+ *   latest, sparse [[field, json]], rewound ('' none, 'start', or a position), due ('' or the position from which
+ *   read samples were not folded), steps [[field, json or '']], limit,
  *   shares [[sampleId, share or '']] (share: month;field=value,...), baselines {measurand: entry or ''}
  *   (entry: month;v1,...,v13), group, groupPrefix, member, horizon, registry, keepValues (0|1), componentKey,
  *   version, state (the component's incident state, stored as given: compact), records [[id, argument, open|closed,
@@ -283,9 +290,16 @@ local settled = false
 
 if not partial then
 -- The component's change mark and the checkpoints.
-if tonumber(ARGV[2]) > tonumber(redis.call('HGET', ev, 'done') or '0') then redis.call('HSET', ev, 'done', ARGV[2]) end
-settled = redis.call('HGET', ev, 'mark') == ARGV[2]
-if settled then redis.call('HDEL', ev, 'dirty') end
+-- A commit that leaves read samples due does not count as covering the changes: a result stored again is still due.
+if (p.due or '') == '' and tonumber(ARGV[2]) > tonumber(redis.call('HGET', ev, 'done') or '0') then redis.call('HSET', ev, 'done', ARGV[2]) end
+-- Not settled: what changed after the input was read, and what the evaluation read but did not fold (due), is still
+-- due from its earliest position on (what the evaluation folded before it stays committed).
+local due = p.due or ''
+settled = redis.call('HGET', ev, 'mark') == ARGV[2] and due == ''
+local later = redis.call('HGET', ev, 'later')
+if due ~= '' and (not later or pos_cmp(due, later) < 0) then later = due end
+if settled then redis.call('HDEL', ev, 'dirty') elseif later then redis.call('HSET', ev, 'dirty', later) end
+redis.call('HDEL', ev, 'later')
 redis.call('HSET', ev, 'latest', p.latest)
 if p.rewound ~= '' then
   for _, f in ipairs(fields) do

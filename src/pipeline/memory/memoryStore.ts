@@ -52,6 +52,8 @@ interface ComponentState {
   mark: number;
   evaluated: number;
   dirtyFrom?: StepPosition;
+  /** The earliest position changed since the last input read under the lock (left due by a commit that does not cover it). */
+  dirtyLater?: StepPosition;
   latest?: string;
   sparse: Map<number, string>;
   marks: Map<string, SampleMark>;
@@ -217,7 +219,11 @@ export class MemoryStore implements ComponentStore, GroupLedger {
 
   async acquireWithInput(ref: ComponentRef, ttlMs: number): Promise<{ lease: Lease; input: EvaluationInput | undefined } | undefined> {
     const lease = await this.acquire(ref, ttlMs);
-    return lease === undefined ? undefined : { lease, input: await this.evaluationInput(ref) };
+    if (lease === undefined) return undefined;
+    const input = await this.evaluationInput(ref);
+    const c = this.byKey.get(componentKey(ref));
+    if (c !== undefined) delete c.dirtyLater;
+    return { lease, input };
   }
 
   async renew(lease: Lease, ttlMs: number): Promise<boolean> {
@@ -236,9 +242,13 @@ export class MemoryStore implements ComponentStore, GroupLedger {
     const c = this.byKey.get(componentKey(ref));
     if (c === undefined) return { ok: false, reason: 'lost-lock' };
     if (c.incidentsVersion !== commit.incidentsVersion) return { ok: false, reason: 'incidents-changed' };
-    c.evaluated = Math.max(c.evaluated, commit.mark);
-    const settled = c.mark === commit.mark;
+    // A commit that leaves read samples due does not count as covering the changes: a result stored again is still due.
+    if (commit.dueFrom === undefined) c.evaluated = Math.max(c.evaluated, commit.mark);
+    const settled = c.mark === commit.mark && commit.dueFrom === undefined;
+    const later = commit.dueFrom !== undefined && (c.dirtyLater === undefined || comparePosition(commit.dueFrom, c.dirtyLater) < 0) ? commit.dueFrom : c.dirtyLater;
     if (settled) delete c.dirtyFrom;
+    else if (later !== undefined) c.dirtyFrom = later;
+    delete c.dirtyLater;
     c.latest = JSON.stringify(commit.latest);
     if (commit.rewoundTo !== undefined) {
       for (const [count, json] of c.sparse) {
@@ -463,6 +473,7 @@ function openedUnitHours(c: ComponentState | undefined, sampleId: string): { uni
 
 function dirty(c: ComponentState, at: StepPosition): void {
   if (c.dirtyFrom === undefined || comparePosition(at, c.dirtyFrom) < 0) c.dirtyFrom = at;
+  if (c.dirtyLater === undefined || comparePosition(at, c.dirtyLater) < 0) c.dirtyLater = at;
 }
 
 /**

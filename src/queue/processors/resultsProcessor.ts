@@ -1,18 +1,21 @@
 /**
- * The results processor: stores one lab result and, when the component is free, evaluates it in the same job (one
- * job per result on the hot path). A result whose component another worker is evaluating leaves an evaluate job
- * behind, which usually finds nothing left to do: the holder evaluates again before letting go. Histories (many old
- * results at once) have a queue of their own (historyProcessor.ts).
+ * The results processor: stores one lab result and evaluates its component in the same job (one job per result on
+ * the hot path). The evaluation goes through the process's result batches (resultBatches.ts): alone and at once when
+ * nothing else is being judged, else together with the other components whose results arrived meanwhile. A result
+ * whose component another worker is evaluating leaves an evaluate job behind, which usually finds nothing left to
+ * do: the holder evaluates again before letting go. Histories (many old results at once) have a queue of their own
+ * (historyProcessor.ts).
  */
 import { UnrecoverableError, type Job, type Processor } from 'bullmq';
 import { conflictReason } from '../../redis/revisionConflicts.ts';
 import { claimedSampleId, validateResult } from '../../intake/validate.ts';
 import { InvalidResultError, storeSample } from '../../pipeline/storeResult.ts';
-import { runEvaluation, type EvaluationRunnerDeps } from '../evaluationRunner.ts';
+import type { EvaluationRunnerDeps } from '../evaluationRunner.ts';
 import { countAccepted } from '../intakePaths.ts';
-import { DEFAULT_EVALUATE_RETRY_MS, scheduleEvaluation } from '../queues.ts';
+import { DEFAULT_EVALUATE_RETRY_MS } from '../queues.ts';
+import { ResultBatches } from '../resultBatches.ts';
 
-export function resultsProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_EVALUATE_RETRY_MS): Processor {
+export function resultsProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_EVALUATE_RETRY_MS, batches = new ResultBatches(deps, { retryMs })): Processor {
   return async (job: Job) => {
     const now = deps.now();
     const parsed = validateResult(job.data, { now });
@@ -33,10 +36,7 @@ export function resultsProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_E
     if (stored.outcome.status === 'new' || stored.outcome.status === 'replacement') {
       deps.live?.({ type: 'result', unit: sample.unit, component: sample.component, sampleId: sample.sampleId, sampledAt: sample.sampledAt });
     }
-    if (stored.outcome.evaluationDue) {
-      const outcome = await runEvaluation(deps, sample);
-      if (outcome === 'busy') await scheduleEvaluation(deps.evaluateQueues[deps.partitions.of(sample)]!, sample, retryMs);
-    }
+    if (stored.outcome.evaluationDue) await batches.judge(sample);
     return { sampleId: sample.sampleId, revision: sample.revision, unit: sample.unit, component: sample.component, status: stored.outcome.status };
   };
 }

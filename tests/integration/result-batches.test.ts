@@ -1,0 +1,126 @@
+/**
+ * Live results taken in batches (src/queue/resultBatches.ts) on a private redis-server: the results that arrive while
+ * a batch is being judged are judged together in the next one, each component by one run across the batch's months,
+ * and the findings, group statistics and incidents are those of judging every result on its own as it arrives.
+ */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { parseConfig } from '../../src/domain/configFile.ts';
+import type { Sample } from '../../src/domain/event.ts';
+import type { Incident } from '../../src/incidents/model.ts';
+import { incidentRules } from '../../src/incidents/policy.ts';
+import { validateResult } from '../../src/intake/validate.ts';
+import { storeSample } from '../../src/pipeline/storeResult.ts';
+import type { EvaluationRunnerDeps } from '../../src/queue/evaluationRunner.ts';
+import { openPartitionedQueues, resolveQueueSettings, QUEUE_NAMES } from '../../src/queue/queues.ts';
+import { ResultBatches } from '../../src/queue/resultBatches.ts';
+import { Partitions } from '../../src/redis/keys.ts';
+import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
+import { RedisStore } from '../../src/redis/redisStore.ts';
+import { silentLogger } from '../../src/telemetry/logger.ts';
+import { FLEET_CONFIG, inventedFleet } from '../helpers/fleetCsv.ts';
+import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+
+const config = parseConfig(FLEET_CONFIG);
+const NOW = Date.parse('2026-12-01T00:00:00Z');
+let server: RedisServer;
+let prefixes = 0;
+
+beforeAll(async () => {
+  server = await startRedisServer();
+});
+afterAll(async () => {
+  await server?.dispose();
+});
+
+function line() {
+  const prefix = `{rb${++prefixes}}`;
+  const connection = server.client();
+  const store = new RedisStore(connection, { prefix, config });
+  const partitions = new Partitions(prefix, 1);
+  const evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, connection, resolveQueueSettings({ prefix }), partitions);
+  const deps: EvaluationRunnerDeps = { store, ledger: store, config, rules: incidentRules(config), now: () => NOW, partitions, evaluateQueues, logger: silentLogger() };
+  const batches = new ResultBatches(deps);
+  const incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix });
+  return {
+    batches,
+    async store(sample: Sample) {
+      const stored = await storeSample(store, config, sample, NOW);
+      expect(stored.outcome.status).toBe('new');
+    },
+    /** Findings, group statistics and incident verdicts: what the way results were judged must not change. */
+    async state() {
+      const components = await store.components();
+      const perComponent = await Promise.all(
+        components.map(async (c) => ({ entry: c, findings: await store.findings(c), group: await store.asOf(c.group, '9999-12', c), input: await store.evaluationInput(c) })),
+      );
+      const ids = (await incidents.list({ state: 'all', limit: 1000 })).map((i) => i.id).sort();
+      const records = await Promise.all(ids.map(async (id) => verdict((await incidents.get(id))!)));
+      return { perComponent: perComponent.map(({ input, ...rest }) => ({ ...rest, dirtyFrom: input?.dirtyFrom, folded: input?.latest?.count })), incidents: records };
+    },
+    async close() {
+      await Promise.all(evaluateQueues.map((q) => q.close()));
+    },
+  };
+}
+
+function verdict(i: Incident) {
+  const { announced: _a, eventSeq: _e, escalation: _s, told: _t, notifications: _n, ...rest } = i;
+  return rest;
+}
+
+const samples = inventedFleet({ units: 4, samplesPerUnit: 20 }).map((e) => {
+  const parsed = validateResult(e, { now: NOW });
+  if (!parsed.ok) throw new Error(JSON.stringify(parsed.issues));
+  return parsed.sample;
+});
+
+describe('live results judged in batches', () => {
+  it('a backlog is judged in one batch after the first result, with the verdicts of one result at a time', async () => {
+    const one = line();
+    const backlog = line();
+    try {
+      for (const s of samples) {
+        await one.store(s);
+        await one.batches.judge(s);
+      }
+      expect(one.batches.counts).toEqual({ batches: samples.length, components: samples.length });
+
+      // Every result stored, then handed over at once: the first is judged alone as it arrives, the other 79 wait for
+      // it and are judged together, each of the 4 components by one run over the fleet's months.
+      for (const s of samples) await backlog.store(s);
+      await Promise.all(samples.map((s) => backlog.batches.judge(s)));
+      expect(backlog.batches.counts).toEqual({ batches: 2, components: 1 + 4 });
+
+      const a = await one.state();
+      const b = await backlog.state();
+      expect(a.incidents.length).toBeGreaterThan(0);
+      expect(a.perComponent.every((c) => c.dirtyFrom === undefined && c.folded === 20)).toBe(true);
+      expect(b).toEqual(a);
+    } finally {
+      await one.close();
+      await backlog.close();
+    }
+  });
+
+  it('results stored while a batch is judged stay due from their position and are judged by the next batch', async () => {
+    const one = line();
+    const split = line();
+    try {
+      for (const s of samples) {
+        await one.store(s);
+        await one.batches.judge(s);
+      }
+      // The first half in a batch; the second half stored while it is under way (before its runs read their samples
+      // or after), then handed over: whatever a run read but did not fold stays due and is folded by the next batch.
+      const half = samples.length / 2;
+      for (const s of samples.slice(0, half)) await split.store(s);
+      const first = Promise.all(samples.slice(0, half).map((s) => split.batches.judge(s)));
+      for (const s of samples.slice(half)) await split.store(s);
+      await Promise.all([first, ...samples.slice(half).map((s) => split.batches.judge(s))]);
+      expect(await split.state()).toEqual(await one.state());
+    } finally {
+      await one.close();
+      await split.close();
+    }
+  });
+});
