@@ -90,7 +90,11 @@ export class ResultBatches {
       retryMs: this.retryMs,
       ...(this.options.atOnce !== undefined && { atOnce: this.options.atOnce }),
       onFailure: (ref, e) => failures.set(componentKey(ref), e),
-      judgedSoon: (ref) => this.waiting.has(componentKey(ref)),
+      // A commit left unsettled by changes after its run's read needs no evaluation here: every change has its own
+      // coming (a results job's batch, in this process or another; a scheduled evaluation for a cascade or a
+      // responder's mark), and an evaluation of everything stored would judge the component past the months of the
+      // next batch, whose group shares would then judge it again.
+      judgedSoon: () => true,
     });
     try {
       await judgement.openAll(batch.map((w) => w.ref));
