@@ -244,6 +244,7 @@ export async function runThroughput(o: RunOptions): Promise<PartResult> {
         `${events.length} results (${components} components × ${perComponent}, interleaved by sampling time, 10 % with a tripling iron wear rate), enqueued by the result producer in batches of 100 as fast as it goes;`,
         `  end to end: stored, evaluated, findings fed to the incident store (results and evaluate queues drained; every component's last sample fed: ${lag === 0 ? 'yes' : `NO, ${lag} behind`})`,
         `bare: one BullMQ worker process, no-op processor, the same events added with addBulk (no validation), at the results worker's concurrency (${WORKER_DEFAULTS.resultsConcurrency}) and at ${BARE_SMALL_CONCURRENCY}; the faster (concurrency ${bare.concurrency}) is the baseline`,
+        `notifications: notify jobs on the notify queue once the results are judged (waiting, delayed, active, failed, and the completed ones the queue keeps: its last 100), not every message sent`,
         `intake alone (validation + enqueue, 1 worker running): ${fmt(one.intakePerSec)} results/s`,
         `per result, 1 / 2 worker processes: worker CPU ${fmt(one.workerCpuMs)} / ${fmt(two.workerCpuMs)} ms, Redis server time ${fmt(one.redisUs)} / ${fmt(two.redisUs)} µs ` +
           `in ${fmt(one.redisScripts)} / ${fmt(two.redisScripts)} Lua script calls (INFO commandstats; includes the producer's and BullMQ's)`,
