@@ -18,6 +18,15 @@ export const OpcuaLimitsSchema = z
       .default(10)
       .describe('Sessions kept for responders: viewer and anonymous sessions together may hold at most maxSessions minus this many, so that they cannot lock the control room out.'),
     maxSessionsPerUser: count(1, 1000).default(10).describe('Sessions one user name may hold at once; all anonymous sessions together count as one user.'),
+    idleChannelSeconds: z
+      .number()
+      .min(1)
+      .max(600)
+      .default(10)
+      .describe('A secure channel without an activated session (just opened, or its last session closed) is closed after this many seconds, so that connections nobody uses cannot fill the endpoint.'),
+    pendingChannelsPerAddress: count(1, 1000)
+      .default(4)
+      .describe('Secure channels without an activated session one remote address may hold at once; a further one is closed at once. Clients activate their session a moment after connecting, so clients behind one address that connect in turn are not held back.'),
     sessionTimeoutSeconds: z
       .number()
       .min(10)

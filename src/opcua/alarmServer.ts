@@ -197,6 +197,7 @@ export class OpcuaAlarmServer {
         anonymous: c.anonymous !== 'none',
         roleOf: (userName) => this.users.roleOf(userName),
         onRefused: (refusal, userName) => logger.warn({ refusal, user: userName ?? '(anonymous)' }, 'OPC UA session refused: opcua.limits reached'),
+        onChannelClosed: (why, address) => logger.warn({ why, address }, 'OPC UA connection closed: no session on it (opcua.limits.idleChannelSeconds, pendingChannelsPerAddress)'),
       },
     );
     this.server = server;
@@ -217,6 +218,7 @@ export class OpcuaAlarmServer {
     this.unsubscribe?.();
     await this.refreshing;
     await this.chain.catch(() => undefined);
+    this.server?.stopGuard();
     await this.server?.shutdown(0);
     this.server = undefined;
   }

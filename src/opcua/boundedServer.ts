@@ -6,6 +6,8 @@
  *   self-made certificate past `anonymous: none`; they, and issued tokens, are neither offered nor accepted;
  * - sessions: `SessionQuota` admits each activated session (per user, and responders' reserved share), and no client
  *   gets a session timeout above `limits.sessionTimeoutSeconds`, so an abandoned session frees its slot soon;
+ * - connections: `ChannelGuard` closes a secure channel left without an activated session for
+ *   `limits.idleChannelSeconds`, and any beyond `limits.pendingChannelsPerAddress` such channels from one address;
  * - subscriptions and monitored items: the limits go to ServerCapabilities, where the library enforces them;
  * - listeners: no node of the address space has Node's listener limit (see `liftNodeListenerLimit`).
  */
@@ -19,11 +21,13 @@ import {
   UserTokenType,
   type AddressSpace,
   type OPCUAServerOptions,
+  type ServerSecureChannelLayer,
   type ServerSession,
   type StatusCode,
 } from 'node-opcua';
 import type { OpcuaLimits } from '../domain/opcuaConfig.ts';
 import type { OpcuaRole } from './opcuaUsers.ts';
+import { ChannelGuard, type ChannelClosing } from './channelGuard.ts';
 import { SessionQuota, type QuotaRefusal } from './sessionQuota.ts';
 
 export interface ServerBounds {
@@ -34,12 +38,15 @@ export interface ServerBounds {
   readonly roleOf: (userName: string | undefined) => OpcuaRole | undefined;
   /** Told of every session refused by the quota. */
   readonly onRefused?: (refusal: QuotaRefusal, userName: string | undefined) => void;
+  /** Told of every secure channel closed for holding no session. */
+  readonly onChannelClosed?: (why: ChannelClosing, address: string) => void;
 }
 
 type AuthorizedCallback = (err: Error | null, isAuthorized?: boolean, statusCode?: StatusCode) => void;
 
 export class BoundedOpcuaServer extends OPCUAServer {
   private readonly quota: SessionQuota<ServerSession>;
+  private readonly channels: ChannelGuard<ServerSecureChannelLayer, ServerSession>;
   private readonly bounds: ServerBounds;
 
   constructor(options: OPCUAServerOptions, bounds: ServerBounds) {
@@ -74,7 +81,26 @@ export class BoundedOpcuaServer extends OPCUAServer {
     this.on('request', (request) => {
       if (request instanceof CreateSessionRequest && request.requestedSessionTimeout > longest) request.requestedSessionTimeout = longest;
     });
-    this.on('session_closed', (session) => this.quota.release(session));
+    this.channels = new ChannelGuard(l, bounds.onChannelClosed);
+    this.on('newChannel', (channel) => this.channels.opened(channel));
+    this.on('closeChannel', (channel) => this.channels.channelClosed(channel));
+    this.on('session_activated', (session) => {
+      if (session.channel !== undefined) this.channels.activated(session, session.channel);
+    });
+    this.on('session_closed', (session) => {
+      this.quota.release(session);
+      this.channels.sessionClosed(session);
+    });
+  }
+
+  /** Secure channels waiting for a session. */
+  get waitingChannels(): number {
+    return this.channels.waitingChannels;
+  }
+
+  /** Stops watching channels (before `shutdown`). */
+  stopGuard(): void {
+    this.channels.stop();
   }
 
   /** Sessions admitted and not closed. */

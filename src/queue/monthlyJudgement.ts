@@ -58,6 +58,12 @@ export interface MonthlyJudgementOptions {
    * settled because of them, is then not followed by an evaluation of its own. Default: never.
    */
   readonly judgedSoon?: (ref: ComponentRef) => boolean;
+  /**
+   * Before its commit, a run folds what is left of its read: everything, or what was sampled before the time this
+   * gives (epoch ms; results of the component waiting to be judged next, from whose month on the rest stays due).
+   * Default: everything.
+   */
+  readonly foldUntil?: (ref: ComponentRef) => number | undefined;
 }
 
 export class MonthlyJudgement {
@@ -202,6 +208,12 @@ export class MonthlyJudgement {
     const run = this.runs.get(key);
     if (run === undefined) return;
     this.runs.delete(key);
+    try {
+      await run.foldStored(this.options.foldUntil?.(run.ref));
+    } catch (e) {
+      await run.abandon().catch(() => undefined);
+      throw e;
+    }
     const result = summarizeEvaluation(await run.commit());
     if (result.kind === 'evaluated') {
       await takeEvaluation(this.deps, run.ref, result);

@@ -90,11 +90,17 @@ export class ResultBatches {
       retryMs: this.retryMs,
       ...(this.options.atOnce !== undefined && { atOnce: this.options.atOnce }),
       onFailure: (ref, e) => failures.set(componentKey(ref), e),
-      // A commit left unsettled by changes after its run's read needs no evaluation here: every change has its own
-      // coming (a results job's batch, in this process or another; a scheduled evaluation for a cascade or a
-      // responder's mark), and an evaluation of everything stored would judge the component past the months of the
-      // next batch, whose group shares would then judge it again.
+      // A commit left unsettled needs no evaluation here: what it read and did not fold waits for the next batch
+      // (foldUntil), and every change after its read has a judgement of its own coming (a results job's batch, in this
+      // process or another; a scheduled evaluation for a cascade or a responder's mark). An evaluation of everything
+      // stored would judge the component past the months of the next batch, whose group shares would judge it again.
       judgedSoon: () => true,
+      // What a run read beyond the batch's months is folded now (a late result rewound it over results judged before),
+      // except from the month of the component's results waiting for the next batch, which judges them.
+      foldUntil: (ref) => {
+        const next = this.waiting.get(componentKey(ref));
+        return next === undefined ? undefined : Math.min(...[...next.months].map((m) => Date.parse(`${m}-01T00:00:00Z`)));
+      },
     });
     try {
       await judgement.openAll(batch.map((w) => w.ref));

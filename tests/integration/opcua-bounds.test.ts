@@ -2,7 +2,7 @@
  * The OPC UA alarm server's bounds, against real OPC UA clients (node-opcua-client) over opc.tcp on 127.0.0.1 and a
  * real Redis: many subscribers on one node, monitored items and sessions beyond the configured limits, sessions per
  * user and for responders, the session timeout, the user tokens offered and accepted, the advertised endpoint,
- * shelving within incidents.maxShelveHours, the refresh that pages through every open incident, the tree built from
+ * connections that hold no session, shelving within incidents.maxShelveHours, the refresh that pages through every open incident, the tree built from
  * the components on record, and conditions that leave nothing behind when they close.
  */
 import { mkdtempSync, rmSync } from 'node:fs';
@@ -136,6 +136,42 @@ async function session(url: string, user?: { userName: string; password: string 
   }
 }
 
+/** Whether the server has closed the client's connection (or refused it), as the client sees it. */
+function closing(client: OPCUAClient): { readonly closed: Promise<void>; isClosed(): boolean } {
+  let done = false;
+  let settle: () => void = () => undefined;
+  const closed = new Promise<void>((resolve) => {
+    settle = () => {
+      done = true;
+      resolve();
+    };
+  });
+  client.once('connection_lost', () => settle());
+  client.once('close', () => settle());
+  return { closed, isClosed: () => done };
+}
+
+/** A client that opens a secure channel and no session; refused or not, it says when the channel is gone. */
+async function channelOnly(url: string): Promise<{ client: OPCUAClient } & ReturnType<typeof closing>> {
+  const client = newClient();
+  const watch = closing(client);
+  let refused = false;
+  await client.connect(url).catch(() => {
+    refused = true;
+  });
+  return { client, closed: refused ? Promise.resolve() : watch.closed, isClosed: () => refused || watch.isClosed() };
+}
+
+/** Settles within EVENT_WAIT_MS or fails naming `what`. */
+async function within<T>(what: string, promise: Promise<T>): Promise<T> {
+  let timer: NodeJS.Timeout | undefined;
+  try {
+    return await Promise.race([promise, new Promise<never>((_, reject) => (timer = setTimeout(() => reject(new Error(`timed out waiting for ${what}`)), EVENT_WAIT_MS)))]);
+  } finally {
+    clearTimeout(timer);
+  }
+}
+
 /** The status a refused session was answered with (the client's error names it). */
 async function refusal(url: string, user?: { userName: string; password: string }): Promise<string> {
   const attempt = await session(url, user).then(
@@ -251,6 +287,32 @@ describe('OPC UA server bounds', () => {
     await held[0]!.session.close();
     await held[0]!.client.disconnect();
     await waitFor('a free place for a viewer', async () => (await refusal(url, historian)) === 'accepted', EVENT_WAIT_MS, 200);
+  }, 300_000);
+
+  it('connections without a session: one address holds at most limits.pendingChannelsPerAddress, a further one is closed at once; a closed one frees its place', async () => {
+    const { url } = await startServer({ anonymous: 'viewer', limits: { idleChannelSeconds: 600, pendingChannelsPerAddress: 2 } });
+    const first = await channelOnly(url);
+    const second = await channelOnly(url);
+    const third = await channelOnly(url);
+    await within('the third connection without a session to be closed', third.closed);
+    // The idle time is ten minutes: the two first are still open.
+    expect([first.isClosed(), second.isClosed()]).toEqual([false, false]);
+    await first.client.disconnect();
+    // A client from the same address that activates a session gets in, and keeps its connection.
+    await waitFor('a place for a new connection', async () => (await refusal(url)) === 'accepted', EVENT_WAIT_MS, 200);
+  }, 300_000);
+
+  it('a connection left without a session for limits.idleChannelSeconds is closed; a session keeps its connection, and closing the session starts the clock again', async () => {
+    const { url } = await startServer({ anonymous: 'viewer', limits: { idleChannelSeconds: 5 } });
+    const held = await session(url);
+    const heldConnection = closing(held.client);
+    const idle = await channelOnly(url);
+    await within('the connection without a session to be closed', idle.closed);
+    // The session's connection outlived the idle time and still serves.
+    expect(heldConnection.isClosed()).toBe(false);
+    expect((await held.session.read({ nodeId: `i=${VariableIds.Server_ServerStatus_State}`, attributeId: AttributeIds.Value })).value.value).toBe(0 /* Running */);
+    await held.session.close();
+    await within('the connection whose session closed to be closed', heldConnection.closed);
   }, 300_000);
 
   it('only user-name tokens are offered (and anonymous ones with anonymous: viewer); an X509 user token with a self-made certificate is refused', async () => {

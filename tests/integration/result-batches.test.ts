@@ -10,7 +10,7 @@ import type { Incident } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { validateResult } from '../../src/intake/validate.ts';
 import { storeSample } from '../../src/pipeline/storeResult.ts';
-import type { EvaluationRunnerDeps } from '../../src/queue/evaluationRunner.ts';
+import { runEvaluation, type EvaluationRunnerDeps } from '../../src/queue/evaluationRunner.ts';
 import { openPartitionedQueues, resolveQueueSettings, QUEUE_NAMES } from '../../src/queue/queues.ts';
 import { ResultBatches } from '../../src/queue/resultBatches.ts';
 import { Partitions } from '../../src/redis/keys.ts';
@@ -47,8 +47,13 @@ function line() {
       const stored = await storeSample(store, config, sample, NOW);
       expect(stored.outcome.status).toBe('new');
     },
-    /** Findings, group statistics and incident verdicts: what the way results were judged must not change. */
+    /**
+     * Findings, group statistics and incident verdicts: what the way results were judged must not change. The other
+     * units a late result's group shares marked (the group's cascade, which the evaluate queue's worker takes) are
+     * judged first.
+     */
     async state() {
+      for (const c of await store.components()) expect(await runEvaluation(deps, c)).toBe('done');
       const components = await store.components();
       const perComponent = await Promise.all(
         components.map(async (c) => ({ entry: c, findings: await store.findings(c), group: await store.asOf(c.group, '9999-12', c), input: await store.evaluationInput(c) })),
@@ -57,6 +62,8 @@ function line() {
       const records = await Promise.all(ids.map(async (id) => verdict((await incidents.get(id))!)));
       return { perComponent: perComponent.map(({ input, ...rest }) => ({ ...rest, dirtyFrom: input?.dirtyFrom, folded: input?.latest?.count })), incidents: records };
     },
+    /** What the component's next evaluation would start from. */
+    input: (ref: { unit: string; component: string }) => store.evaluationInput(ref),
     async close() {
       await Promise.all(evaluateQueues.map((q) => q.close()));
     },
@@ -99,6 +106,33 @@ describe('live results judged in batches', () => {
     } finally {
       await one.close();
       await backlog.close();
+    }
+  });
+
+  it('a late result judged alone folds again the results after it that were judged before, to the last one', async () => {
+    const one = line();
+    const late = line();
+    try {
+      for (const s of samples) {
+        await one.store(s);
+        await one.batches.judge(s);
+      }
+      const held = samples.filter((s) => s.unit === samples[0]!.unit)[6]!;
+      for (const s of samples.filter((x) => x !== held)) {
+        await late.store(s);
+        await late.batches.judge(s);
+      }
+      // Its batch covers its own month only; nothing else waits: the run folds on to the component's last result.
+      await late.store(held);
+      await late.batches.judge(held);
+      // Judged to its last result by this batch, not left due for an evaluation that nothing would ask for.
+      const input = await late.input(held);
+      expect(input?.dirtyFrom).toBeUndefined();
+      expect(input?.latest?.count).toBe(20);
+      expect(await late.state()).toEqual(await one.state());
+    } finally {
+      await one.close();
+      await late.close();
     }
   });
 
