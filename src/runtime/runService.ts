@@ -17,9 +17,13 @@ export interface ServiceCommandOptions {
   shutdownTimeout?: string;
   opcuaPort?: string;
   historyThreads?: string;
+  resultsAtOnce?: string;
 }
 
 export type ServiceKind = 'serve' | 'worker' | 'api';
+
+/** `--results-at-once` at most: each results job in flight holds its record in memory until its batch commits. */
+export const MAX_RESULTS_AT_ONCE = 100_000;
 
 /** More evaluation threads than this would only wait on one Redis in turn. */
 export const MAX_HISTORY_THREADS = 16;
@@ -53,6 +57,10 @@ export async function runService(kind: ServiceKind, opts: ServiceCommandOptions,
   if (historyThreads !== undefined && !(Number.isInteger(historyThreads) && historyThreads >= 0 && historyThreads <= MAX_HISTORY_THREADS)) {
     throw new InputError(`--history-threads: expected a whole number from 0 to ${MAX_HISTORY_THREADS}, got "${opts.historyThreads}"`);
   }
+  const resultsAtOnce = opts.resultsAtOnce === undefined ? undefined : Number(opts.resultsAtOnce);
+  if (resultsAtOnce !== undefined && !(Number.isInteger(resultsAtOnce) && resultsAtOnce >= 1 && resultsAtOnce <= MAX_RESULTS_AT_ONCE)) {
+    throw new InputError(`--results-at-once: expected a whole number from 1 to ${MAX_RESULTS_AT_ONCE}, got "${opts.resultsAtOnce}"`);
+  }
   const metricsPort = opts.metricsPort === undefined ? undefined : portNumber(opts.metricsPort, '--metrics-port');
   const opcuaPort = opts.opcuaPort === undefined ? undefined : portNumber(opts.opcuaPort, '--opcua-port');
   // Each port with how it was chosen, for a message that names it if the port is refused.
@@ -75,7 +83,7 @@ export async function runService(kind: ServiceKind, opts: ServiceCommandOptions,
       env,
       ...(metricsPort !== undefined && { metricsPort }),
       ...(opcuaPort !== undefined && { opcuaPort }),
-      ...(historyThreads !== undefined && { workerSettings: { historyThreads } }),
+      workerSettings: { ...(historyThreads !== undefined && { historyThreads }), ...(resultsAtOnce !== undefined && { resultsConcurrency: resultsAtOnce }) },
     });
   } catch (e) {
     // What did start is closed by then; a port in use is the user's to fix, not a stack trace.

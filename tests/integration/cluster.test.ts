@@ -90,7 +90,8 @@ describe('two worker processes on a Redis Cluster of 3 masters', () => {
     const workers: WearshiftProcess[] = [];
     try {
       // The second evaluates history months on a thread of its own too (its own connection to the cluster).
-      for (let i = 0; i < 2; i++) workers.push(await startWearshift('worker', { env, args: ['--config', configFile, '--history-threads', String(i)], readyTimeoutMs: 120_000 }));
+      // A few results at a time each (`--results-at-once`), so that the redelivery below is shared by both processes.
+      for (let i = 0; i < 2; i++) workers.push(await startWearshift('worker', { env, args: ['--config', configFile, '--history-threads', String(i), '--results-at-once', '8'], readyTimeoutMs: 120_000 }));
       // Both processes take jobs from every partition before the results arrive.
       const deadline = Date.now() + 60_000;
       while ((await Promise.all(resultQueues.map((q) => q.getWorkersCount()))).some((n) => n < 2)) {

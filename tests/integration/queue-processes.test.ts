@@ -12,13 +12,13 @@ import { incidentRules } from '../../src/incidents/policy.ts';
 import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
 import { createResultProducer } from '../../src/queue/producer.ts';
 import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
-import type { Incident } from '../../src/incidents/model.ts';
 import type { RedisConnection as Redis } from '../../src/redis/connection.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
 import { startCli } from '../helpers/cli.ts';
 import { inventedFleet } from '../helpers/fleetCsv.ts';
 import { drained } from '../helpers/queueDrain.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { verdict } from '../helpers/incidentVerdict.ts';
 
 // Groups of two components, population limits within reach: group statistics are read as of each sample's month.
 const config = (prefix: string) => `
@@ -50,7 +50,9 @@ const fleet = inventedFleet({ units: 4, samplesPerUnit: 24, seed: 7 });
 async function runWith(processes: number, prefix: string, redis: Redis) {
   const file = join(dir, `${processes}.yaml`);
   writeFileSync(file, config(prefix));
-  const workers = Array.from({ length: processes }, () => startCli(['worker', '--config', file], { REDIS_URL: server.url, LOG_LEVEL: 'warn' }));
+  // A few results at a time each (`--results-at-once`; 1 000 by default), so that a burst of this size is shared by both
+  // processes rather than taken whole by the first to wake.
+  const workers = Array.from({ length: processes }, () => startCli(['worker', '--config', file, '--results-at-once', '8'], { REDIS_URL: server.url, LOG_LEVEL: 'warn' }));
   const settings = resolveQueueSettings({ prefix });
   const queues = [QUEUE_NAMES.results, QUEUE_NAMES.evaluate].map((n) => openQueue(n, redis, settings));
   try {
@@ -73,12 +75,6 @@ async function runWith(processes: number, prefix: string, redis: Redis) {
     await Promise.all(queues.map((q) => q.close()));
     for (const w of workers) expect(await w.stop()).toBe(0);
   }
-}
-
-/** The verdict of an incident: everything but what was told to whom. */
-function verdict(i: Incident) {
-  const { announced: _a, eventSeq: _e, escalation: _s, told: _t, notifications: _n, ...rest } = i;
-  return rest;
 }
 
 async function snapshot(redis: Redis, prefix: string) {

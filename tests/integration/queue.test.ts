@@ -6,7 +6,6 @@ import type { Queue } from 'bullmq';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import type { ResultEvent } from '../../src/domain/event.ts';
-import type { Incident } from '../../src/incidents/model.ts';
 import type { LiveEvent } from '../../src/pipeline/liveEvent.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { createResultProducer } from '../../src/queue/producer.ts';
@@ -20,6 +19,7 @@ import { silentLogger } from '../../src/telemetry/logger.ts';
 import { FLEET_CONFIG, inventedFleet } from '../helpers/fleetCsv.ts';
 import { drained } from '../helpers/queueDrain.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { verdict } from '../helpers/incidentVerdict.ts';
 
 const config = parseConfig(FLEET_CONFIG);
 let server: RedisServer;
@@ -84,12 +84,6 @@ async function pipeline(historyThreads = 0, live?: (event: LiveEvent) => void): 
       await Promise.all(queues.map((q) => q.close()));
     },
   };
-}
-
-/** The verdict of an incident: everything but what was told to whom. */
-function verdict(i: Incident) {
-  const { announced: _a, eventSeq: _e, escalation: _s, told: _t, notifications: _n, ...rest } = i;
-  return rest;
 }
 
 /** Everything the store holds that the order of arrival must not change. */

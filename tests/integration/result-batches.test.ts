@@ -6,7 +6,6 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import type { Sample } from '../../src/domain/event.ts';
-import type { Incident } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { validateResult } from '../../src/intake/validate.ts';
 import { storeSample } from '../../src/pipeline/storeResult.ts';
@@ -19,6 +18,7 @@ import { RedisStore } from '../../src/redis/redisStore.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { FLEET_CONFIG, inventedFleet } from '../helpers/fleetCsv.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { verdict } from '../helpers/incidentVerdict.ts';
 
 const config = parseConfig(FLEET_CONFIG);
 const NOW = Date.parse('2026-12-01T00:00:00Z');
@@ -70,26 +70,27 @@ function line() {
   };
 }
 
-function verdict(i: Incident) {
-  const { announced: _a, eventSeq: _e, escalation: _s, told: _t, notifications: _n, ...rest } = i;
-  return rest;
-}
-
 const samples = inventedFleet({ units: 4, samplesPerUnit: 20 }).map((e) => {
   const parsed = validateResult(e, { now: NOW });
   if (!parsed.ok) throw new Error(JSON.stringify(parsed.issues));
   return parsed.sample;
 });
 
+/** The reference: every result judged on its own as it arrives. */
+async function oneAtATime(of: readonly Sample[] = samples) {
+  const one = line();
+  for (const s of of) {
+    await one.store(s);
+    await one.batches.judge(s);
+  }
+  return one;
+}
+
 describe('live results judged in batches', () => {
   it('a backlog is judged in one batch after the first result, with the verdicts of one result at a time', async () => {
-    const one = line();
+    const one = await oneAtATime();
     const backlog = line();
     try {
-      for (const s of samples) {
-        await one.store(s);
-        await one.batches.judge(s);
-      }
       expect(one.batches.counts).toEqual({ batches: samples.length, components: samples.length });
 
       // Every result stored, then handed over at once: the first is judged alone as it arrives, the other 79 wait for
@@ -110,18 +111,10 @@ describe('live results judged in batches', () => {
   });
 
   it('a late result judged alone folds again the results after it that were judged before, to the last one', async () => {
-    const one = line();
-    const late = line();
+    const one = await oneAtATime();
+    const held = samples.filter((s) => s.unit === samples[0]!.unit)[6]!;
+    const late = await oneAtATime(samples.filter((x) => x !== held));
     try {
-      for (const s of samples) {
-        await one.store(s);
-        await one.batches.judge(s);
-      }
-      const held = samples.filter((s) => s.unit === samples[0]!.unit)[6]!;
-      for (const s of samples.filter((x) => x !== held)) {
-        await late.store(s);
-        await late.batches.judge(s);
-      }
       // Its batch covers its own month only; nothing else waits: the run folds on to the component's last result.
       await late.store(held);
       await late.batches.judge(held);
@@ -137,13 +130,9 @@ describe('live results judged in batches', () => {
   });
 
   it('results stored while a batch is judged stay due from their position and are judged by the next batch', async () => {
-    const one = line();
+    const one = await oneAtATime();
     const split = line();
     try {
-      for (const s of samples) {
-        await one.store(s);
-        await one.batches.judge(s);
-      }
       // The first half in a batch; the second half stored while it is under way (before its runs read their samples
       // or after), then handed over: whatever a run read but did not fold stays due and is folded by the next batch.
       const half = samples.length / 2;
