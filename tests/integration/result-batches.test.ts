@@ -20,7 +20,19 @@ import { FLEET_CONFIG, inventedFleet } from '../helpers/fleetCsv.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { verdict } from '../helpers/incidentVerdict.ts';
 
-const config = parseConfig(FLEET_CONFIG);
+// Every finding pages (nothing is quiet backfill) a webhook tier, so that the messages can be compared too; nothing is
+// delivered here, the messages stay in the outbox.
+const config = parseConfig(`${FLEET_CONFIG}
+backfill: { quietAfterDays: 100000 }
+escalation:
+  policies:
+    - name: gearbox-on-call
+      tiers:
+        - { afterMinutes: 0, webhooks: [control-room] }
+channels:
+  webhooks:
+    - { name: control-room, url: "http://127.0.0.1:9/hook", secrets: [BATCHES_WEBHOOK_SECRET] }
+`);
 const NOW = Date.parse('2026-12-01T00:00:00Z');
 let server: RedisServer;
 let prefixes = 0;
@@ -62,6 +74,14 @@ function line() {
       const records = await Promise.all(ids.map(async (id) => verdict((await incidents.get(id))!)));
       return { perComponent: perComponent.map(({ input, ...rest }) => ({ ...rest, dirtyFrom: input?.dirtyFrom, folded: input?.latest?.count })), incidents: records };
     },
+    /** The messages the evaluations put in the outbox, taken out: per incident, its event types in order. */
+    async messages() {
+      const out = new Map<string, string[]>();
+      await incidents.drainOutbox(async (effects) => {
+        for (const e of effects) if (e.kind === 'notify') (out.get(e.incidentId) ?? out.set(e.incidentId, []).get(e.incidentId)!).push(`${e.eventSeq} ${e.type.replace('wearshift.incident.', '')}`);
+      });
+      return new Map([...out].map(([id, events]) => [id, events.sort((a, b) => parseInt(a) - parseInt(b)).map((e) => e.split(' ')[1]!)]));
+    },
     /** What the component's next evaluation would start from. */
     input: (ref: { unit: string; component: string }) => store.evaluationInput(ref),
     async close() {
@@ -87,7 +107,7 @@ async function oneAtATime(of: readonly Sample[] = samples) {
 }
 
 describe('live results judged in batches', () => {
-  it('a backlog is judged in one batch after the first result, with the verdicts of one result at a time', async () => {
+  it('a backlog is judged in one batch after the first result, with the verdicts of one result at a time and its net messages', async () => {
     const one = await oneAtATime();
     const backlog = line();
     try {
@@ -99,6 +119,20 @@ describe('live results judged in batches', () => {
       await Promise.all(samples.map((s) => backlog.batches.judge(s)));
       expect(backlog.batches.counts).toEqual({ batches: 2, components: 1 + 4 });
 
+      // What each incident's people are told: one result at a time, every change as it comes (opened, returned,
+      // active again...); a backlog judged in one batch, the difference its commit makes to what was told, so the
+      // same incidents, each opened, and each left told in the condition it ends in, with no more messages.
+      const condition = (type: string) => (type === 'returned' ? 'normal' : type === 'closed' ? 'closed' : 'active');
+      const told = await one.messages();
+      const batched = await backlog.messages();
+      expect(told.size).toBeGreaterThan(0);
+      expect([...batched.keys()].sort()).toEqual([...told.keys()].sort());
+      for (const [id, events] of told) {
+        const mine = batched.get(id)!;
+        expect(mine[0]).toBe('opened');
+        expect(condition(mine.at(-1)!)).toBe(condition(events.at(-1)!));
+        expect(mine.length).toBeLessThanOrEqual(events.length);
+      }
       const a = await one.state();
       const b = await backlog.state();
       expect(a.incidents.length).toBeGreaterThan(0);
