@@ -22,7 +22,7 @@
  * spent on the one changed metal (the most generous), and the budget shared by the watched metals, as the product
  * shares it.
  */
-import { normalCdf } from '../src/analysis/arl/normal.ts';
+import { normalCdf } from '../src/domain/normal.ts';
 import { normalQuantile } from '../src/analysis/forecast/quantile.ts';
 import type { FleetKind, SimulatedUnit, WearChange } from './quietFleet.ts';
 import { LAB_NOISE, PROCESS_VARIANCE_PER_RATE } from './quietFleet.ts';

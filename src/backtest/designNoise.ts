@@ -23,7 +23,7 @@
  */
 import { cusumArl } from '../analysis/arl/cusumArl.ts';
 import { ewmaArl } from '../analysis/arl/ewmaArl.ts';
-import { normalCdf } from '../analysis/arl/normal.ts';
+import { normalCdf } from '../domain/normal.ts';
 import { changeDesign, type DetectorDesign } from '../analysis/budget.ts';
 import { populationMeasurands } from '../analysis/populationStats.ts';
 import type { Config } from '../domain/config.ts';

@@ -4,6 +4,7 @@
  * it when it is parsed, and analysis/budget.ts designs the limits from the same figures.
  */
 import type { Budget, Detection, Population } from './config.ts';
+import { normalCdf } from './normal.ts';
 
 /**
  * Per-chart in-control run lengths, in samples, for which h and L are derived from the budget.
@@ -15,6 +16,15 @@ import type { Budget, Detection, Population } from './config.ts';
  * about 13 at λ = 0.01. A chart asked to alarm falsely every few samples is no change detector either.
  */
 export const DESIGNABLE_RUN_LENGTH = { min: 20, max: 1e8 } as const;
+
+/**
+ * The shortest in-control run length a one-sided CUSUM with reference value `k` (in sigma) can be designed for: with
+ * the decision interval h → 0 it signals whenever one standardised value exceeds k, once in 1 / (1 − Φ(k)) samples
+ * (Φ the standard normal distribution function). About 3.2 samples at k = 0.5, 15 at k = 1.5, 741 at k = 3.
+ */
+export function cusumShortestRunLength(k: number): number {
+  return 1 / normalCdf(-k);
+}
 
 /** Samples one component gives in the budget period. */
 export function samplesPerBudgetPeriod(b: Budget): number {
@@ -83,8 +93,17 @@ export function budgetIssue(d: Detection, population: Pick<Population, 'peers'>)
   ];
   for (const [side, share] of sides) {
     if (share === undefined) continue;
-    const issue = runLengthOutOfRange(chartRunLength(b, charts, share), `each chart's ${side}`, runLengthDerivation(b, charts, share));
+    const arl0 = chartRunLength(b, charts, share);
+    const issue = runLengthOutOfRange(arl0, `each chart's ${side}`, runLengthDerivation(b, charts, share));
     if (issue !== undefined) return `a budget of ${figure(b.alarms)} false alarm(s) per component per ${figure(b.years)} year(s) ${issue}, or set detection.cusum.h and detection.ewma.L`;
+    const shortest = d.cusum.enabled && d.cusum.h === undefined ? cusumShortestRunLength(d.cusum.k) : 0;
+    if (arl0 < shortest) {
+      return (
+        `a budget of ${figure(b.alarms)} false alarm(s) per component per ${figure(b.years)} year(s) gives each chart's ${side} an in-control run length of ${figure(arl0)} samples ` +
+        `(${runLengthDerivation(b, charts, share)}); a CUSUM with reference value k = ${figure(d.cusum.k)} alarms falsely every ${figure(shortest)} samples at the most, ` +
+        'even with the smallest decision interval: allow fewer false alarms or a longer period, choose a smaller detection.cusum.k, or set detection.cusum.h'
+      );
+    }
   }
   return undefined;
 }

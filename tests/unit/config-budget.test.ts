@@ -11,7 +11,7 @@ import { cusumDecisionInterval } from '../../src/analysis/arl/solveCusum.ts';
 import { ewmaLimitWidth } from '../../src/analysis/arl/solveEwma.ts';
 import { changeDesign, designConfiguredCharts } from '../../src/analysis/budget.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
-import { budgetIssue, DESIGNABLE_RUN_LENGTH } from '../../src/domain/configBudget.ts';
+import { budgetIssue, cusumShortestRunLength, DESIGNABLE_RUN_LENGTH } from '../../src/domain/configBudget.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import { InputError } from '../../src/domain/errors.ts';
 
@@ -41,6 +41,23 @@ describe('detection.budget when the configuration is parsed', () => {
     expect(issues({ detection: { fallShare: 1e-6 } })).toEqual([expect.stringMatching(/^detection\.budget: .*each chart's fall side an in-control run length of 3066000000 samples .* \/ 8e-7 of the budget\)/)]);
     // One-sided charts have no fall side to design.
     expect(issues({ detection: { fallShare: 1e-6, sided: 'up' } })).toEqual([]);
+  });
+
+  it('refuses a budget shorter than the shortest run length a CUSUM with the configured k can be designed for', () => {
+    // With h → 0 a one-sided CUSUM signals when one standardised value exceeds k: once in 1 / (1 − Φ(k)) samples.
+    // Standard normal table (any statistics handbook): Φ(1.5) = 0.93319, Φ(3) = 0.99865.
+    expect(cusumShortestRunLength(1.5)).toBeCloseTo(1 / (1 - 0.93319), 1);
+    expect(cusumShortestRunLength(3)).toBeCloseTo(1 / (1 - 0.99865), 0);
+    // 35.04 samples a year / 20 alarms × 14 charts / 0.72 = 34 samples per chart: in range, but not with k = 3.
+    expect(issues({ detection: { budget: { alarms: 20, years: 1 }, cusum: { k: 3 } } })).toEqual([
+      expect.stringMatching(/^detection\.budget: .* run length of 34\.07 samples .*a CUSUM with reference value k = 3 alarms falsely every 740\.8 samples at the most, even with the smallest decision interval: .*choose a smaller detection\.cusum\.k, or set detection\.cusum\.h$/),
+    ]);
+    // The designer agrees on either side of that figure.
+    expect(() => cusumDecisionInterval({ k: 3, arl0: 700, sided: 'one' })).toThrow(/no decision interval h/);
+    expect(cusumDecisionInterval({ k: 3, arl0: 760, sided: 'one' })).toBeGreaterThan(0);
+    // The same budget with the usual k, or with h set, is taken.
+    expect(issues({ detection: { budget: { alarms: 20, years: 1 }, cusum: { k: 0.5 } } })).toEqual([]);
+    expect(issues({ detection: { budget: { alarms: 20, years: 1 }, cusum: { k: 3, h: 1 } } })).toEqual([]);
   });
 
   it('checks each group with its resolved settings, once where the group changes nothing', () => {

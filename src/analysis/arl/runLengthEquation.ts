@@ -12,7 +12,7 @@
  * number of nodes (Vance 1986 for CUSUM; Crowder 1987 and Knoth 2005 for EWMA) and no Richardson extrapolation is needed.
  */
 import { gaussLegendre, type QuadratureRule } from './gaussLegendre.ts';
-import { normalCdf, normalDensity } from './normal.ts';
+import { normalCdf, normalDensity } from '../../domain/normal.ts';
 import { solveLinear } from './solveLinear.ts';
 
 export interface GaussianStep {

@@ -22,7 +22,7 @@
  * found the same way.
  */
 
-import { normalCdf } from '../arl/normal.ts';
+import { normalCdf } from '../../domain/normal.ts';
 import { normalQuantile as normalQuantileOf } from './quantile.ts';
 
 export interface ProjectedTrend {

@@ -1,5 +1,5 @@
 /** Quantiles of the standard normal and Student's t distribution, for the forecast intervals. */
-import { normalCdf, normalDensity } from '../arl/normal.ts';
+import { normalCdf, normalDensity } from '../../domain/normal.ts';
 import { studentT } from '../rules/peers.ts';
 
 /** Acklam's coefficients. */
@@ -11,7 +11,7 @@ const LOW = 0.02425;
 
 /**
  * Φ⁻¹(p): Acklam's rational approximation (relative error below 1.2e-9), refined by one Halley step on Hart's Φ
- * (arl/normal.ts), so that the result is good to about 1e-15.
+ * (domain/normal.ts), so that the result is good to about 1e-15.
  */
 export function normalQuantile(p: number): number {
   if (!(p > 0 && p < 1)) {
