@@ -54,10 +54,11 @@ export interface MonthlyJudgementOptions {
    */
   readonly onFailure?: (ref: ComponentRef, error: unknown) => void;
   /**
-   * Whether the component will be judged again soon anyway (results of it wait for the next batch): its commit, not
-   * settled because of them, is then not followed by an evaluation of its own. Default: never.
+   * A commit left unsettled by changes after its run's read is not followed by an evaluation of its own: every such
+   * change has a judgement of its own coming (live results: their batch; cascades and responders' marks: their
+   * scheduled evaluation). Default false (a history job evaluates such a component before it ends).
    */
-  readonly judgedSoon?: (ref: ComponentRef) => boolean;
+  readonly unsettledJudgedElsewhere?: boolean;
   /**
    * Before its commit, a run folds what is left of its read: everything, or what was sampled before the time this
    * gives (epoch ms; results of the component waiting to be judged next, from whose month on the rest stays due).
@@ -217,7 +218,7 @@ export class MonthlyJudgement {
     const result = summarizeEvaluation(await run.commit());
     if (result.kind === 'evaluated') {
       await takeEvaluation(this.deps, run.ref, result);
-      if (result.settled || this.options.judgedSoon?.(run.ref) === true) return;
+      if (result.settled || this.options.unsettledJudgedElsewhere === true) return;
     }
     await this.evaluateAlone(run.ref);
   }

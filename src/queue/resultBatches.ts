@@ -94,7 +94,7 @@ export class ResultBatches {
       // (foldUntil), and every change after its read has a judgement of its own coming (a results job's batch, in this
       // process or another; a scheduled evaluation for a cascade or a responder's mark). An evaluation of everything
       // stored would judge the component past the months of the next batch, whose group shares would judge it again.
-      judgedSoon: () => true,
+      unsettledJudgedElsewhere: true,
       // What a run read beyond the batch's months is folded now (a late result rewound it over results judged before),
       // except from the month of the component's results waiting for the next batch, which judges them.
       foldUntil: (ref) => {
