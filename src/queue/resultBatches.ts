@@ -69,6 +69,7 @@ export class ResultBatches {
         this.waiting = new Map();
         this.counts.batches += 1;
         this.counts.components += batch.length;
+        this.deps.metrics?.batched(batch.length, batch.reduce((n, w) => n + w.waiters.length, 0));
         const failures = await this.judgeBatch(batch).catch((e: unknown) => new Map(batch.map((w) => [componentKey(w.ref), e])));
         for (const w of batch) {
           const key = componentKey(w.ref);

@@ -23,6 +23,8 @@ export interface Metrics {
   rejected(path: string, issues: readonly FieldIssue[]): void;
   stored(status: string): void;
   evaluated(seconds: number, outcome: string): void;
+  /** A batch of live results judged together (queue/resultBatches.ts): its components and results. */
+  batched(components: number, results: number): void;
   findings(findings: readonly Finding[]): void;
   /** Sets where queue depth comes from; read at every scrape. */
   watchQueues(source: QueueDepthSource): void;
@@ -44,6 +46,18 @@ export function createMetrics(options: { defaultMetrics?: boolean } = {}): Metri
     help: 'Time to evaluate one component (load, evaluate, feed incidents, commit), by outcome.',
     labelNames: ['outcome'],
     buckets: [0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1, 2.5, 5, 10],
+    registers: [registry],
+  });
+  const batchResults = new Histogram({
+    name: 'wearshift_result_batch_results',
+    help: 'Live results judged together in one batch (one commit per component and batch): 1 when the feed keeps pace, more under a backlog.',
+    buckets: [1, 2, 5, 10, 25, 50, 100, 250, 500, 1000, 5000],
+    registers: [registry],
+  });
+  const batchComponents = new Histogram({
+    name: 'wearshift_result_batch_components',
+    help: 'Components judged in one batch of live results.',
+    buckets: [1, 2, 5, 10, 25, 50, 100, 250, 500, 1000, 5000],
     registers: [registry],
   });
   const findings = new Counter({ name: 'wearshift_findings_total', help: `Findings on newly evaluated samples, by rule family and severity. ${ADVISORY_CAUTION}`, labelNames: ['rule', 'severity'], registers: [registry] });
@@ -71,6 +85,10 @@ export function createMetrics(options: { defaultMetrics?: boolean } = {}): Metri
     },
     stored: (status) => stored.inc({ status }),
     evaluated: (seconds, outcome) => evaluation.observe({ outcome }, seconds),
+    batched: (components, results) => {
+      batchComponents.observe(components);
+      batchResults.observe(results);
+    },
     findings: (list) => {
       for (const f of list) findings.inc({ rule: f.rule, severity: f.severity });
     },

@@ -16,6 +16,7 @@ import { Partitions } from '../../src/redis/keys.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
+import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { FLEET_CONFIG, inventedFleet } from '../helpers/fleetCsv.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { verdict } from '../helpers/incidentVerdict.ts';
@@ -50,11 +51,14 @@ function line() {
   const store = new RedisStore(connection, { prefix, config });
   const partitions = new Partitions(prefix, 1);
   const evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, connection, resolveQueueSettings({ prefix }), partitions);
-  const deps: EvaluationRunnerDeps = { store, ledger: store, config, rules: incidentRules(config), now: () => NOW, partitions, evaluateQueues, logger: silentLogger() };
+  const metrics = createMetrics({ defaultMetrics: false });
+  const deps: EvaluationRunnerDeps = { store, ledger: store, config, rules: incidentRules(config), now: () => NOW, partitions, evaluateQueues, logger: silentLogger(), metrics };
   const batches = new ResultBatches(deps);
   const incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix });
   return {
     batches,
+    /** The /metrics text of the batches. */
+    metricsText: () => metrics.registry.metrics(),
     async store(sample: Sample) {
       const stored = await storeSample(store, config, sample, NOW);
       expect(stored.outcome.status).toBe('new');
@@ -118,6 +122,12 @@ describe('live results judged in batches', () => {
       for (const s of samples) await backlog.store(s);
       await Promise.all(samples.map((s) => backlog.batches.judge(s)));
       expect(backlog.batches.counts).toEqual({ batches: 2, components: 1 + 4 });
+      // The same on /metrics: 2 batches, of 1 and 79 results, 1 and 4 components.
+      const text = await backlog.metricsText();
+      expect(text).toMatch(/^wearshift_result_batch_results_count 2$/m);
+      expect(text).toMatch(/^wearshift_result_batch_results_sum 80$/m);
+      expect(text).toMatch(/^wearshift_result_batch_results_bucket\{le="1"\} 1$/m);
+      expect(text).toMatch(/^wearshift_result_batch_components_sum 5$/m);
 
       // What each incident's people are told: one result at a time, every change as it comes (opened, returned,
       // active again...); a backlog judged in one batch, the difference its commit makes to what was told, so the
