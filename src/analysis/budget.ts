@@ -54,9 +54,19 @@ export function detectionLimits(d: Detection, share = 1): { arl0: number; charts
   const detectors = (d.ewma.enabled ? 1 : 0) + (d.cusum.enabled ? 1 : 0);
   const charts = d.measurands.length * detectors;
   const arl0 = targetArl(d.budget, Math.max(1, charts)) / share;
-  const ewmaL = d.ewma.L ?? ewmaLimitWidth({ lambda: d.ewma.lambda, arl0, sided: 'one', exactLimits: true });
-  const cusumH = d.cusum.h ?? cusumDecisionInterval({ k: d.cusum.k, arl0, sided: 'one', headstart: d.cusum.headstart });
+  const ewmaL = d.ewma.L ?? designed(`an EWMA with λ = ${d.ewma.lambda}`, 'a larger detection.ewma.lambda, or set detection.ewma.L', () => ewmaLimitWidth({ lambda: d.ewma.lambda, arl0, sided: 'one', exactLimits: true }));
+  const cusumH = d.cusum.h ?? designed(`a CUSUM with k = ${d.cusum.k}`, 'a smaller detection.cusum.k, or set detection.cusum.h', () => cusumDecisionInterval({ k: d.cusum.k, arl0, sided: 'one', headstart: d.cusum.headstart }));
   return { arl0, charts, ewmaL, cusumH, share };
+}
+
+/** A limit derived from the budget; a run length the chart cannot give is refused naming the chart and what to change. */
+function designed(chart: string, instead: string, solve: () => number): number {
+  try {
+    return solve();
+  } catch (e) {
+    if (!(e instanceof RangeError)) throw e;
+    throw new RangeError(`detection.budget: ${chart}: ${e.message}; allow fewer false alarms or a longer period, ${instead}`);
+  }
 }
 
 export type DetectorDesign = ReturnType<typeof detectionLimits>;

@@ -9,7 +9,7 @@ import { ewmaArl } from '../../src/analysis/arl/ewmaArl.ts';
 import { checkTargetRunLength } from '../../src/analysis/arl/runLengthEquation.ts';
 import { cusumDecisionInterval } from '../../src/analysis/arl/solveCusum.ts';
 import { ewmaLimitWidth } from '../../src/analysis/arl/solveEwma.ts';
-import { changeDesign, designConfiguredCharts } from '../../src/analysis/budget.ts';
+import { changeDesign, designConfiguredCharts, detectionLimits } from '../../src/analysis/budget.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import { budgetIssue, cusumShortestRunLength, DESIGNABLE_RUN_LENGTH } from '../../src/domain/configBudget.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
@@ -55,6 +55,12 @@ describe('detection.budget when the configuration is parsed', () => {
     // The designer agrees on either side of that figure.
     expect(() => cusumDecisionInterval({ k: 3, arl0: 700, sided: 'one' })).toThrow(/no decision interval h/);
     expect(cusumDecisionInterval({ k: 3, arl0: 760, sided: 'one' })).toBeGreaterThan(0);
+    // Where the limits are designed (a worker's start), the refusal names the chart and what to change as well: here
+    // the whole budget on one side, 35.04 / 20 × 14 = 24.53 samples.
+    const detection = ConfigSchema.parse({ detection: { budget: { alarms: 20, years: 1 } } }).detection;
+    expect(() => detectionLimits({ ...detection, cusum: { ...detection.cusum, k: 3 } })).toThrow(
+      /^detection\.budget: a CUSUM with k = 3: no decision interval h gives a run length as short as 24\.528; allow fewer false alarms or a longer period, a smaller detection\.cusum\.k, or set detection\.cusum\.h$/,
+    );
     // The same budget with the usual k, or with h set, is taken.
     expect(issues({ detection: { budget: { alarms: 20, years: 1 }, cusum: { k: 0.5 } } })).toEqual([]);
     expect(issues({ detection: { budget: { alarms: 20, years: 1 }, cusum: { k: 3, h: 1 } } })).toEqual([]);
