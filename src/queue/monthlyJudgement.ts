@@ -112,9 +112,8 @@ export class MonthlyJudgement {
       this.isolated(ref, async () => {
         const key = componentKey(ref);
         if (this.runs.has(key)) return;
-        const opened = await ComponentRun.open(this.deps, ref);
-        if (!(opened instanceof ComponentRun)) {
-          if (opened.kind === 'busy') await this.scheduleLater(ref);
+        const opened = await this.openRun(ref);
+        if (opened === undefined) {
           this.closed.add(key);
           return;
         }
@@ -179,11 +178,8 @@ export class MonthlyJudgement {
     if (run === undefined && !month.inOrder) return this.evaluateAlone(ref);
     if (run === undefined) {
       if (this.runs.size >= this.maxOpenRuns) await this.commitRun(this.runs.keys().next().value!);
-      const opened = await ComponentRun.open(this.deps, ref);
-      if (!(opened instanceof ComponentRun)) {
-        if (opened.kind === 'busy') await this.scheduleLater(ref);
-        return;
-      }
+      const opened = await this.openRun(ref);
+      if (opened === undefined) return;
       // Its input was read after this month's results were stored: its change mark covers them.
       run = opened;
     } else {
@@ -221,6 +217,14 @@ export class MonthlyJudgement {
       if (result.settled || this.options.unsettledJudgedElsewhere === true) return;
     }
     await this.evaluateAlone(run.ref);
+  }
+
+  /** Opens a component's run; undefined when there is nothing to do or another worker holds it (then scheduled for later). */
+  private async openRun(ref: ComponentRef): Promise<ComponentRun | undefined> {
+    const opened = await ComponentRun.open(this.deps, ref);
+    if (opened instanceof ComponentRun) return opened;
+    if (opened.kind === 'busy') await this.scheduleLater(ref);
+    return undefined;
   }
 
   private async evaluateAlone(ref: ComponentRef): Promise<void> {
