@@ -10,7 +10,7 @@ import { AlarmFiguresSchema } from './alarmFiguresConfig.ts';
 import { ChannelsSchema, DEFAULT_FLOOD_CONTROL, EscalationSchema, escalationChannelIssues, IncidentsConfigSchema } from './escalationConfig.ts';
 import { OpcuaConfigSchema } from './opcuaConfig.ts';
 import { DEFAULT_FORECAST, ForecastSchema } from './forecastConfig.ts';
-import { budgetIssue, DESIGNABLE_RUN_LENGTH } from './configBudget.ts';
+import { budgetIssue, DESIGNABLE_EWMA_LAMBDA, DESIGNABLE_RUN_LENGTH } from './configBudget.ts';
 import { resolveSettings } from './settings.ts';
 
 const measurandName = z.enum(MEASURAND_NAMES as [Measurand, ...Measurand[]], { error: (i) => `unknown measurand "${String(i.input)}"` });
@@ -56,7 +56,12 @@ export const DetectionSchema = z
     ewma: z
       .object({
         enabled: z.boolean().default(true),
-        lambda: z.number().gt(0).max(1).default(0.2),
+        lambda: z
+          .number()
+          .min(DESIGNABLE_EWMA_LAMBDA.min, `must be at least ${DESIGNABLE_EWMA_LAMBDA.min}, the smallest smoothing constant of the published EWMA design tables (a smaller one remembers decades of samples, and designing its limits takes minutes)`)
+          .max(DESIGNABLE_EWMA_LAMBDA.max)
+          .default(0.2)
+          .describe(`Smoothing constant, ${DESIGNABLE_EWMA_LAMBDA.min} to ${DESIGNABLE_EWMA_LAMBDA.max}: the weight of the newest sample.`),
         L: positive.optional().describe('Limit width in sigma; derived from the budget when absent.'),
       })
       .strict()

@@ -18,6 +18,21 @@ import { normalCdf } from './normal.ts';
 export const DESIGNABLE_RUN_LENGTH = { min: 20, max: 1e8 } as const;
 
 /**
+ * The EWMA smoothing constants whose run lengths are computed (limits designed, ARL tables shown): from 0.01, the
+ * smallest of the published design tables (Lucas & Saccucci 1990 tabulate λ from 0.03; from memory, later tables go to
+ * 0.01), to 1. Below it the exact time-varying limits take thousands of steps to settle and one design takes minutes of
+ * CPU (85 s at λ = 0.001 measured on 2 cores), while a chart that remembers hundreds of samples (decades of oil samples)
+ * is no early warning.
+ */
+export const DESIGNABLE_EWMA_LAMBDA = { min: 0.01, max: 1 } as const;
+
+/** Why an EWMA smoothing constant cannot be designed for (names where it was given), or undefined when it can. */
+export function ewmaLambdaIssue(lambda: number, where: string): string | undefined {
+  if (lambda >= DESIGNABLE_EWMA_LAMBDA.min && lambda <= DESIGNABLE_EWMA_LAMBDA.max) return undefined;
+  return `${where} must be from ${DESIGNABLE_EWMA_LAMBDA.min} to ${DESIGNABLE_EWMA_LAMBDA.max} (the range of the published EWMA design tables), got ${lambda}`;
+}
+
+/**
  * The shortest in-control run length a one-sided CUSUM with reference value `k` (in sigma) can be designed for: with
  * the decision interval h → 0 it signals whenever one standardised value exceeds k, once in 1 / (1 − Φ(k)) samples
  * (Φ the standard normal distribution function). About 3.2 samples at k = 0.5, 15 at k = 1.5, 741 at k = 3.

@@ -58,6 +58,13 @@ describe('a false-alarm budget no chart limit can meet', () => {
   });
 });
 
+describe('an EWMA smoothing constant outside the published design tables', () => {
+  it('design ewma --lambda below 0.01 is a usage error naming the option and the range', async () => {
+    const r = await runCli(['design', 'ewma', '--lambda', '0.001', '--arl0', '370'], { WEARSHIFT_CONFIG: undefined });
+    expectUsageError(r, 'wearshift: --lambda must be from 0.01 to 1 (the range of the published EWMA design tables), got 0.001');
+  });
+});
+
 describe('wearshift design noise --components', () => {
   it('counts for each tier-0 target only the parts its policy matches', async () => {
     const r = await runCli(['design', 'noise', '--config', file('split.yaml'), '--components', '45'], { WEARSHIFT_CONFIG: undefined });

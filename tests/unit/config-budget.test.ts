@@ -66,6 +66,19 @@ describe('detection.budget when the configuration is parsed', () => {
     expect(issues({ detection: { budget: { alarms: 20, years: 1 }, cusum: { k: 3, h: 1 } } })).toEqual([]);
   });
 
+  it('refuses an EWMA smoothing constant below the published design tables at load, in a group too', () => {
+    // λ = 0.001 took 85 s of CPU in the limit design before it gave up; now the file is refused as it is read.
+    expect(issues({ detection: { ewma: { lambda: 0.001 } } })).toEqual([expect.stringMatching(/^detection\.ewma\.lambda: must be at least 0\.01, the smallest smoothing constant of the published EWMA design tables/)]);
+    expect(issues({ groups: [{ name: 'slow', detection: { ewma: { lambda: 0.005 } } }] })).toEqual([expect.stringMatching(/^groups\.0\.detection\.ewma\.lambda: must be at least 0\.01/)]);
+    expect(issues({ detection: { ewma: { lambda: 0.01 } } })).toEqual([]);
+    // The analysis core refuses it as well, at once, naming the range.
+    const started = process.hrtime.bigint();
+    expect(() => ewmaLimitWidth({ lambda: 0.001, arl0: 500, sided: 'one', exactLimits: true })).toThrow(/λ must be from 0\.01 to 1 .*got 0\.001/);
+    expect(() => ewmaArl({ lambda: 0.009, L: 3, shift: 0, sided: 'two' })).toThrow(RangeError);
+    // Not a timing claim: the refusal comes before any run-length integral is set up (seconds, not the minute and more of the solver).
+    expect(Number(process.hrtime.bigint() - started) / 1e9).toBeLessThan(30);
+  });
+
   it('checks each group with its resolved settings, once where the group changes nothing', () => {
     const found = issues({
       detection: { budget: { alarms: 1, years: 200000 } },

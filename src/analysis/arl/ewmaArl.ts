@@ -13,6 +13,7 @@
  * min(−c, shift), where the statistic is held instead. Reaching that barrier takes so long that moving it further changes the
  * run length by less than 1e-9 (relative) in the cases checked (λ from 0.03 to 1).
  */
+import { ewmaLambdaIssue } from '../../domain/configBudget.ts';
 import { type ContinuationRegion, type GaussianStep, type RunLengthTable, nodeCount, reliableRunLength, runLengthFrom, solveRunLength, tabulateRunLength } from './runLengthEquation.ts';
 
 export interface EwmaArlOptions {
@@ -35,7 +36,8 @@ export function ewmaArl(o: EwmaArlOptions): number {
 
 function computeEwmaArl(o: EwmaArlOptions): number {
   const { lambda, L, shift } = o;
-  if (!(lambda > 0 && lambda <= 1)) throw new RangeError(`EWMA smoothing constant lambda must be in (0, 1], got ${lambda}`);
+  const lambdaIssue = ewmaLambdaIssue(lambda, 'the EWMA smoothing constant λ');
+  if (lambdaIssue !== undefined) throw new RangeError(lambdaIssue);
   if (!(Number.isFinite(L) && L > 0)) throw new RangeError(`EWMA limit width L must be a number > 0, got ${L}`);
   if (!Number.isFinite(shift)) throw new RangeError(`shift must be a finite number, got ${shift}`);
   const steadySd = Math.sqrt(lambda / (2 - lambda));

@@ -13,7 +13,7 @@ import { ewmaLimitWidth } from '../../analysis/arl/solveEwma.ts';
 import { changeDesign, parseBudget, samplesPerBudgetPeriod, targetArl } from '../../analysis/budget.ts';
 import type { Budget, BudgetSchema, Config, Detection, Population } from '../../domain/config.ts';
 import { DEFAULT_HOURS_PER_YEAR, DEFAULT_SAMPLE_INTERVAL_HOURS } from '../../domain/budgetDefaults.ts';
-import { DESIGNABLE_RUN_LENGTH, runLengthDerivation, runLengthOutOfRange } from '../../domain/configBudget.ts';
+import { DESIGNABLE_EWMA_LAMBDA, DESIGNABLE_RUN_LENGTH, ewmaLambdaIssue, runLengthDerivation, runLengthOutOfRange } from '../../domain/configBudget.ts';
 import { InputError } from '../../domain/errors.ts';
 import { registerDesignNoise } from './designNoise.ts';
 import { ADVISORY_LINE, asInputError, formatTable, numberListOption, numberOption, round, tidy, writeJsonLine } from '../output.ts';
@@ -260,7 +260,7 @@ export function registerDesign(program: Command, output: NodeJS.WritableStream =
       .description(
         'EWMA run lengths (Crowder\'s integral equation by Nyström quadrature; steady-state limits as in the published tables unless --exact-limits), or the limit width L for a target ARL0',
       )
-      .option('--lambda <λ>', 'smoothing constant, 0 < λ ≤ 1 (required without --budget; with it, default the configuration\'s)', numberOption('lambda'))
+      .option('--lambda <λ>', `smoothing constant, ${DESIGNABLE_EWMA_LAMBDA.min} ≤ λ ≤ ${DESIGNABLE_EWMA_LAMBDA.max} (required without --budget; with it, default the configuration's)`, numberOption('lambda'))
       .option('--L <L>', 'limit width in standard deviations of the EWMA: show its ARLs', numberOption('L'))
       .option('--exact-limits', 'time-varying exact limits from the start, as the detectors draw them (default: steady-state limits; with --budget, exact)'),
     'L',
@@ -268,6 +268,8 @@ export function registerDesign(program: Command, output: NodeJS.WritableStream =
     const ctx = await budgetContext(given);
     const lambda = given.lambda ?? ctx?.settings.detection.ewma.lambda;
     if (lambda === undefined) throw new InputError('--lambda is required (or give --budget to follow the configuration)');
+    const lambdaIssue = ewmaLambdaIssue(lambda, '--lambda');
+    if (lambdaIssue !== undefined) throw new InputError(lambdaIssue);
     const opts = { ...given, lambda, sided: given.sided ?? (given.budget === undefined ? 'two' : 'one') } as const;
     const target = targetFrom(opts, 'L', opts.L !== undefined, ctx);
     const exactLimits = opts.exactLimits ?? opts.budget !== undefined;
