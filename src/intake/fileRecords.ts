@@ -10,7 +10,6 @@
  * JSONL: one JSON event per line; blank lines are skipped, and so is a UTF-8 byte-order mark before the first (as in CSV).
  */
 import { createReadStream, type ReadStream } from 'node:fs';
-import { createInterface } from 'node:readline';
 import type { Readable } from 'node:stream';
 import { parse } from 'csv-parse';
 import { InputError } from '../domain/errors.ts';
@@ -56,10 +55,21 @@ export function stoppingAtReadError<T>(path: string, stream: Readable, records: 
   })();
 }
 
+/**
+ * The longest line or CSV record read, in bytes (characters for CSV): a result is a few hundred bytes; a line past
+ * this is reported and skipped (JSONL) or stops the reading with its line number (CSV), instead of the whole file
+ * being held in memory (a 600 MB line ended the import with an uncaught RangeError and lost the lines before it).
+ */
+export const MAX_RECORD_BYTES = 1 << 20;
+
 export async function* jsonlRecords(input: Readable): AsyncIterable<SourceRecord> {
   let line = 0;
-  for await (const raw of createInterface({ input, crlfDelay: Infinity })) {
+  for await (const raw of boundedLines(input, MAX_RECORD_BYTES)) {
     line += 1;
+    if (raw === undefined) {
+      yield { line, issues: [{ path: '', reason: `longer than ${MAX_RECORD_BYTES} bytes; the line was not read (one result per line)` }] };
+      continue;
+    }
     // A byte-order mark (as some Windows tools write UTF-8) belongs to no record: without this, the first one is lost.
     const text = line === 1 && raw.startsWith('\uFEFF') ? raw.slice(1) : raw;
     if (text.trim() === '') continue;
@@ -69,6 +79,49 @@ export async function* jsonlRecords(input: Readable): AsyncIterable<SourceRecord
       yield { line, issues: [{ path: '', reason: `not valid JSON: ${(e as Error).message}` }] };
     }
   }
+}
+
+/**
+ * The lines of `input` (split at LF, a CR before it dropped) as UTF-8 text; undefined for a line longer than `max`
+ * bytes, whose bytes are skipped to its end without being kept.
+ */
+export async function* boundedLines(input: Readable, max: number): AsyncIterable<string | undefined> {
+  let parts: Buffer[] = [];
+  let length = 0;
+  let tooLong = false;
+  const take = (): string | undefined => {
+    const whole = Buffer.concat(parts, length);
+    parts = [];
+    length = 0;
+    if (tooLong) {
+      tooLong = false;
+      return undefined;
+    }
+    const end = whole.length > 0 && whole[whole.length - 1] === 0x0d ? whole.length - 1 : whole.length;
+    return whole.toString('utf8', 0, end);
+  };
+  const add = (piece: Buffer): void => {
+    if (tooLong) return;
+    if (length + piece.length > max + 1) {
+      tooLong = true;
+      parts = [];
+      length = 0;
+      return;
+    }
+    parts.push(piece);
+    length += piece.length;
+  };
+  for await (const chunk of input as AsyncIterable<Buffer | string>) {
+    const buffer = typeof chunk === 'string' ? Buffer.from(chunk) : chunk;
+    let start = 0;
+    for (let at = buffer.indexOf(0x0a); at >= 0; at = buffer.indexOf(0x0a, start)) {
+      add(buffer.subarray(start, at));
+      yield take();
+      start = at + 1;
+    }
+    if (start < buffer.length) add(buffer.subarray(start));
+  }
+  if (length > 0 || tooLong) yield take();
 }
 
 const NUMERIC_FIELDS = new Set(['revision', 'unitHours', 'oilHours', 'topUpLitres']);
@@ -89,6 +142,14 @@ export async function* csvRecords(input: Readable): AsyncIterable<SourceRecord> 
       const twice = record.find((name, i) => record.indexOf(name) !== i);
       if (twice !== undefined) {
         yield { line, issues: [{ path: '', reason: `column "${twice}" appears twice in the header; nothing was read` }] };
+        return;
+      }
+      // "Fe" and "readings.Fe" are one field: the later column would silently overwrite the earlier one.
+      const targets = record.map(csvTarget);
+      const again = targets.findIndex((t, i) => targets.indexOf(t) !== i);
+      if (again >= 0) {
+        const first = record[targets.indexOf(targets[again]!)]!;
+        yield { line, issues: [{ path: '', reason: `columns "${first}" and "${record[again]}" are both ${targets[again]}; nothing was read` }] };
         return;
       }
       header = record;
@@ -114,7 +175,7 @@ export type ParsedRow = { record: string[]; line: number } | { error: string; li
  */
 export async function* parsedRows(input: Readable, options: { delimiter?: string; skip_empty_lines?: boolean } = {}): AsyncIterable<ParsedRow> {
   if (input.errored) throw input.errored;
-  const parser = input.pipe(parse({ bom: true, relax_column_count: true, skip_empty_lines: true, trim: true, ...options, info: true }));
+  const parser = input.pipe(parse({ bom: true, relax_column_count: true, skip_empty_lines: true, trim: true, max_record_size: MAX_RECORD_BYTES, ...options, info: true }));
   const queue: ParsedRow[] = [];
   let finished = false;
   let readFailure: Error | undefined;
@@ -156,6 +217,12 @@ export async function* parsedRows(input: Readable, options: { delimiter?: string
     if (finished) return;
     await new Promise<void>((resolve) => (wake = resolve));
   }
+}
+
+/** The event field a CSV column fills: a named field, else a reading ("Fe" and "readings.Fe" both readings.Fe). */
+function csvTarget(name: string): string {
+  if (TEXT_FIELDS.has(name) || NUMERIC_FIELDS.has(name) || BOOLEAN_FIELDS.has(name)) return name;
+  return name.startsWith('readings.') ? name : `readings.${name}`;
 }
 
 function csvEvent(header: readonly string[], cells: readonly string[]): Record<string, unknown> {

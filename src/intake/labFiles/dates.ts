@@ -117,7 +117,22 @@ export function wallClockOfCell(d: Date): WallClock {
   return { year: d.getUTCFullYear(), month: d.getUTCMonth() + 1, day: d.getUTCDate(), hour: d.getUTCHours(), minute: d.getUTCMinutes(), second: d.getUTCSeconds() };
 }
 
-const ISO_WITH_ZONE = /^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}(:\d{2}(\.\d+)?)?(Z|[+-]\d{2}:\d{2})$/;
+const ISO_WITH_ZONE = /^(\d{4})-(\d{2})-(\d{2})T(\d{2}):(\d{2})(?::(\d{2})(\.\d+)?)?(Z|[+-]\d{2}:\d{2})$/;
+
+/**
+ * An ISO 8601 date-time with its zone, only when the date and time exist (no 30 February, no 24:00) and the offset is
+ * one the world uses (−12:00 to +14:00): Date.parse alone would move 2026-02-30 to 2 March.
+ */
+function readIsoWithZone(t: string): number | undefined | null {
+  const m = ISO_WITH_ZONE.exec(t);
+  if (!m) return null;
+  const w: WallClock = { year: Number(m[1]), month: Number(m[2]), day: Number(m[3]), hour: Number(m[4]), minute: Number(m[5]), second: Number(m[6] ?? 0) };
+  if (!isValid(w)) return undefined;
+  const zone = m[8]!;
+  const offset = OFFSET.exec(zone);
+  if (offset && (Number(offset[2]) * 60 + Number(offset[3]) > 14 * 60 || Number(offset[3]) > 59)) return undefined;
+  return toEpoch(w, zone) + Math.round(Number(m[7] ?? 0) * 1000);
+}
 const ISO_LOCAL = compileFormat('YYYY-MM-DDTHH:mm:ss');
 const ISO_LOCAL_MIN = compileFormat('YYYY-MM-DDTHH:mm');
 const ISO_DATE = compileFormat('YYYY-MM-DD');
@@ -138,7 +153,8 @@ export function readDate(text: string, formats: readonly string[], zone: string)
   const t = text.trim();
   for (const f of formats) {
     if (f === 'iso') {
-      if (ISO_WITH_ZONE.test(t)) return Date.parse(t);
+      const zoned = readIsoWithZone(t);
+      if (zoned !== null) return zoned;
       const w = readWallClock(t, [ISO_LOCAL, ISO_LOCAL_MIN, ISO_DATE]);
       if (w) return toEpoch(w, zone);
       continue;

@@ -95,14 +95,17 @@ export class LabRecordReader {
         yield this.finish(draft);
         continue;
       }
-      const key = text(this.cell(r.cells, this.fieldColumn('sampleId')!)) ?? '';
+      const key = this.sampleKey(r.cells);
       if (pending !== undefined && pending.key !== key) {
         yield this.finish(pending.draft);
         pending = undefined;
       }
       if (pending === undefined) {
         const draft = this.newDraft(r.row, r.cells);
-        if (key !== '' && seenKeys.has(key)) draft.issues.push({ row: r.row, column: this.fieldColumn('sampleId')!, reason: `the rows of sample "${key}" are not next to each other; sort the file by sample` });
+        if (key !== '' && seenKeys.has(key)) {
+          const sampleId = text(this.cell(r.cells, this.fieldColumn('sampleId')!)) ?? '';
+          draft.issues.push({ row: r.row, column: this.fieldColumn('sampleId')!, reason: `the rows of sample "${sampleId}" are not next to each other; sort the file by sample (and revision)` });
+        }
         if (key !== '') seenKeys.add(key);
         pending = { key, draft };
       }
@@ -136,6 +139,30 @@ export class LabRecordReader {
     if (unmapped.length > 0) {
       throw new InputError(`row ${row}: ${unmapped.map((n) => `column "${n}"`).join(', ')} ${unmapped.length === 1 ? 'is' : 'are'} not mapped; add ${unmapped.length === 1 ? 'it' : 'them'} to a measurand's names or to ignore in the mapping`);
     }
+    // Two columns read as one measurand: the later would silently overwrite the earlier in every row.
+    const columnOf = new Map<Measurand, string>();
+    for (const n of names) {
+      if (n === '' || used.has(n) || this.ignored.has(n.toLowerCase())) continue;
+      const m = this.aliases.get(n.toLowerCase())!.measurand;
+      const first = columnOf.get(m);
+      if (first !== undefined) throw new InputError(`row ${row}: columns "${first}" and "${n}" are both ${m}; ignore one of them in the mapping, nothing was read`);
+      columnOf.set(m, n);
+    }
+  }
+
+  /**
+   * The rows of one sample in the long layout: the same sampleId and, where the mapping has them as columns, the same
+   * revision, unit and component, so that a sample and its correction in one file are two samples, not one whose
+   * readings appear twice. Empty when the row has no sampleId.
+   */
+  private sampleKey(cells: readonly Cell[]): string {
+    const sampleId = text(this.cell(cells, this.fieldColumn('sampleId')!)) ?? '';
+    if (sampleId === '') return '';
+    const parts = (['revision', 'unit', 'component'] as const).map((f) => {
+      const column = this.fieldColumn(f);
+      return column === undefined ? '' : (text(this.cell(cells, column)) ?? '');
+    });
+    return JSON.stringify([sampleId, ...parts]);
   }
 
   private usedColumns(): string[] {
@@ -194,7 +221,7 @@ export class LabRecordReader {
     if (NUMBER_FIELDS.has(field)) {
       if (typeof c === 'number') return { ok: true, value: c };
       const n = typeof c === 'string' ? parseNumber(c, this.style) : undefined;
-      return n === undefined ? { ok: false, reason: `expected a number (decimal mark "${this.style.decimal}"), got "${clip(String(c))}"` } : { ok: true, value: n };
+      return n === undefined ? { ok: false, reason: `expected a number (${styleWords(this.style)}), got ${gotWords(String(c))}` } : { ok: true, value: n };
     }
     if (typeof c === 'boolean') return { ok: true, value: c };
     const word = String(c).trim().toLowerCase();
@@ -293,7 +320,7 @@ export class LabRecordReader {
     }
     const n = parseNumber(t, this.style);
     if (n === undefined) {
-      draft.issues.push({ ...origin, field, reason: `expected a number (decimal mark "${this.style.decimal}") or a censored value such as "<1", got "${clip(t)}"` });
+      draft.issues.push({ ...origin, field, reason: `expected a number (${styleWords(this.style)}) or a censored value such as "<1", got ${gotWords(t)}` });
       return;
     }
     draft.readings[m] = tidy(n * f);
@@ -345,6 +372,12 @@ function pad(n: number): string {
   return String(n).padStart(2, '0');
 }
 
+/** The cell as the user wrote it, and what a formula without a saved value needs. */
+function gotWords(t: string): string {
+  const got = `"${clip(t)}"`;
+  return t.startsWith('=') ? `${got}, a formula without a saved value: open and save the workbook in a spreadsheet program so that its values are stored` : got;
+}
+
 function clip(s: string): string {
   return s.length > 40 ? `${s.slice(0, 40)}…` : s;
 }
@@ -354,3 +387,8 @@ function tidy(x: number): number {
   return Number(x.toPrecision(12));
 }
 
+
+/** How the mapping says numbers are written, for an error about a cell that is none. */
+function styleWords(style: NumberStyle): string {
+  return style.thousands === '' ? `decimal mark "${style.decimal}"` : `decimal mark "${style.decimal}", thousands "${style.thousands}" between groups of three digits`;
+}

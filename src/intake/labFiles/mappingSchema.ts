@@ -27,7 +27,7 @@ export const LabMappingSchema = z
     headerRow: z.number().int().min(1).default(1).describe('Row (1-based, counting every row of the file or sheet) that holds the column names; rows above it are skipped.'),
     delimiter: z.string().min(1).max(1).default(',').describe('CSV: the cell separator (labs with decimal commas often use ";").'),
     decimal: z.enum(['.', ',']).default('.').describe('The decimal mark of numbers written as text.'),
-    thousands: z.enum(['', ' ', '.', ',', "'"]).default('').describe('A thousands separator to drop from numbers written as text; empty for none.'),
+    thousands: z.enum(['', ' ', '.', ',', "'"]).default('').describe('A thousands separator between groups of three digits before the decimal mark, dropped from numbers written as text ("1.234,5"); a separator elsewhere makes the cell no number. Empty for none; never the decimal mark.'),
     sampledAt: z
       .object({
         column: columnName.describe('The column with the sampling date (or date and time).'),
@@ -89,6 +89,9 @@ export const LabMappingSchema = z
   .superRefine((m, ctx) => {
     for (const f of ['sampleId', 'unit', 'component'] as const) {
       if (m.fields[f] === undefined) ctx.addIssue({ code: 'custom', path: ['fields', f], message: `${f} is required: give { column: NAME } or { value: CONSTANT }` });
+    }
+    if (m.thousands === m.decimal) {
+      ctx.addIssue({ code: 'custom', path: ['thousands'], message: `"${m.thousands}" is also the decimal mark: one character cannot be both (1${m.decimal}5 would read as 15)` });
     }
     if (m.layout === 'long' && m.long === undefined) ctx.addIssue({ code: 'custom', path: ['long'], message: 'the long layout needs long.measurandColumn and long.valueColumn' });
     if (m.charge !== undefined && m.fields.oilChanged !== undefined) ctx.addIssue({ code: 'custom', path: ['charge'], message: 'give either charge or fields.oilChanged, not both' });

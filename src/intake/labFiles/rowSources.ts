@@ -73,6 +73,9 @@ export function cellOf(v: unknown): Cell {
     const o = v as { richText?: { text: string }[]; result?: unknown; text?: unknown; error?: string };
     if (Array.isArray(o.richText)) return o.richText.map((r) => r.text).join('');
     if ('result' in o) return cellOf(o.result);
+    // A formula the writing program did not calculate: its text, which the reader reports as a formula.
+    const formula = (v as { formula?: unknown; sharedFormula?: unknown }).formula ?? (v as { sharedFormula?: unknown }).sharedFormula;
+    if (typeof formula === 'string') return `=${formula}`;
     if (typeof o.text === 'string') return o.text;
     if (typeof o.error === 'string') return o.error;
   }
