@@ -115,7 +115,7 @@ describe('the long layout', () => {
       mapping,
     );
     expect(records.map((r) => r.status)).toEqual(['accepted', 'accepted']);
-    expect(records.map((r) => (r.status === 'accepted' ? [r.event.revision, r.event.readings.Fe] : undefined))).toEqual([
+    expect(records.map((r) => (r.status === 'accepted' ? [r.event.revision, (r.event.readings as Record<string, unknown>).Fe] : undefined))).toEqual([
       [0, 12],
       [1, 21],
     ]);
