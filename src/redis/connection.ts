@@ -92,24 +92,50 @@ export async function checkEvictionPolicy(redis: RedisConnection, logger: Logger
   }
 }
 
+/**
+ * How long a command line waits for Redis to answer: its first reply after connecting (a server that accepts the
+ * connection but never answers, e.g. stopped or swapping, would otherwise hold `import` for ever), and any one command
+ * after that (generous: a batch of a thousand results is one pipeline).
+ */
+export const COMMAND_LINE_READY_TIMEOUT_MS = 10_000;
+export const COMMAND_LINE_COMMAND_TIMEOUT_MS = 30_000;
+
+/** `connecting`, or a rejection when it has not settled within `ms`. */
+async function within<T>(connecting: Promise<T>, ms: number): Promise<T> {
+  let timer: NodeJS.Timeout | undefined;
+  const late = new Promise<never>((_, reject) => {
+    timer = setTimeout(() => reject(new Error(`no answer within ${ms / 1000} s of connecting (the server accepts connections but does not reply)`)), ms);
+  });
+  try {
+    return await Promise.race([connecting, late]);
+  } finally {
+    clearTimeout(timer);
+  }
+}
+
 /** A connection for a command line: it fails at once when Redis is away instead of retrying for ever. */
 export async function connectForCommand(target: string | RedisTarget): Promise<RedisConnection> {
   const t: RedisTarget = typeof target === 'string' ? { kind: 'single', url: target } : target;
   if (t.kind === 'cluster') {
-    const cluster = new Cluster([...t.nodes], { lazyConnect: true, slotsRefreshTimeout: SLOTS_REFRESH_TIMEOUT_MS, redisOptions: { maxRetriesPerRequest: 1, connectTimeout: 3000 }, clusterRetryStrategy: () => null });
+    const cluster = new Cluster([...t.nodes], {
+      lazyConnect: true,
+      slotsRefreshTimeout: SLOTS_REFRESH_TIMEOUT_MS,
+      redisOptions: { maxRetriesPerRequest: 1, connectTimeout: 3000, commandTimeout: COMMAND_LINE_COMMAND_TIMEOUT_MS },
+      clusterRetryStrategy: () => null,
+    });
     cluster.on('error', () => {});
     try {
-      await cluster.connect();
+      await within(cluster.connect(), COMMAND_LINE_READY_TIMEOUT_MS);
     } catch (e) {
       cluster.disconnect();
       throw new InputError(`cannot reach the Redis Cluster at ${describeTarget(t)} (REDIS_CLUSTER_NODES or redis.cluster.nodes): ${(e as Error).message}`);
     }
     return cluster;
   }
-  const redis = new Redis(t.url, { lazyConnect: true, maxRetriesPerRequest: 1, connectTimeout: 3000, retryStrategy: () => null });
+  const redis = new Redis(t.url, { lazyConnect: true, maxRetriesPerRequest: 1, connectTimeout: 3000, commandTimeout: COMMAND_LINE_COMMAND_TIMEOUT_MS, retryStrategy: () => null });
   redis.on('error', () => {});
   try {
-    await redis.connect();
+    await within(redis.connect(), COMMAND_LINE_READY_TIMEOUT_MS);
   } catch (e) {
     redis.disconnect();
     throw new InputError(`cannot reach Redis at ${maskUrl(t.url)} (REDIS_URL or redis.url): ${(e as Error).message}`);

@@ -47,7 +47,7 @@ export function registerImport(program: Command): void {
     .option('--batch-size <n>', 'records enqueued per round trip; with --history, results per history job (default 500; with --history 10000)')
     .addHelpText(
       'after',
-      '\nA line with the unit, component, sampleId and revision of an earlier line of the file is taken once when its content is the same, and rejected, naming both lines, when it differs: a correction needs a higher revision. Exit code 1 when any line was rejected (the others are still enqueued), 2 for a usage or input error (a file or mapping that cannot be read, Redis out of reach).',
+      '\nA line with the unit, component, sampleId and revision of an earlier line of the file is taken once when its content is the same, and rejected, naming both lines, when it differs: a correction needs a higher revision. Exit code 1 when any line was rejected (the others are still enqueued), 2 for a usage or input error (a file or mapping that cannot be read, Redis out of reach or not answering within 10 s of connecting).',
     )
     .action(async (file: string, opts: ImportOptions) => {
       process.exitCode = await importFile(file, opts);
