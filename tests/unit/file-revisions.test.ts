@@ -32,6 +32,21 @@ describe('FileRevisions', () => {
     expect(seen.check(12, sample(base))).toEqual({ kind: 'duplicate', of: 2 });
   });
 
+  it('refuses one sampleId and revision under two spellings (letter case) of a unit or component, naming both', () => {
+    const seen = new FileRevisions('line');
+    expect(seen.check(1, sample(base))).toEqual({ kind: 'first' });
+    expect(seen.check(2, sample({ ...base, unit: 'ps1' }))).toEqual({
+      kind: 'conflict',
+      of: 1,
+      reason: 'sample S-1 revision 0 is on line 1 under PS1 / gearbox, here under ps1 / gearbox; the names differ only in letter case, which makes another component: write them one way',
+    });
+    expect(seen.check(3, sample({ ...base, component: 'Gearbox' }))).toMatchObject({ kind: 'conflict', of: 1 });
+    // Its revision, and other samples of the unit, are no conflict; the first spelling stays the owner.
+    expect(seen.check(4, sample({ ...base, revision: 1, readings: { Fe: 13, Cu: 3 } }))).toEqual({ kind: 'first' });
+    expect(seen.check(5, sample({ ...base, sampleId: 'S-2', unit: 'ps1' }))).toEqual({ kind: 'first' });
+    expect(seen.check(6, sample(base))).toEqual({ kind: 'duplicate', of: 1 });
+  });
+
   it('refuses other content under the same sampleId and revision, naming both records and the way out', () => {
     const seen = new FileRevisions('row');
     seen.check(4, sample(base));
