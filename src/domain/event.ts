@@ -33,6 +33,9 @@ const readingValue = z.union([z.number(), z.string().max(40, 'a reading string m
   error: 'expected a finite number, a censored value such as "<1", or an ISO 4406 code such as "18/16/13"',
 });
 
+/** The earliest sampling time taken: 1970-01-01T00:00:00Z. */
+export const EARLIEST_SAMPLED_AT = Date.UTC(1970, 0, 1);
+
 /** The start of the reason given for a sampledAt ahead of the server clock (counted as its own kind of rejection). */
 export const FUTURE_REASON = 'lies in the future';
 
@@ -54,7 +57,9 @@ export const ResultEventSchema = z
         offset: true,
         error: (i) => (i.input === undefined ? 'sampledAt is required (missing or empty)' : 'sampledAt must be an ISO 8601 date-time with a time zone, such as 2026-03-01T08:00:00Z'),
       })
-      .describe('When the oil was drawn.'),
+      // A year typed wrong (0202, 1026) would sort first in the history and start its baseline.
+      .refine((v) => !(Date.parse(v) < EARLIEST_SAMPLED_AT), `sampledAt lies before ${new Date(EARLIEST_SAMPLED_AT).toISOString().slice(0, 10)}: no used-oil sample is that old (a typing slip in the year?)`)
+      .describe('When the oil was drawn (from 1970 on).'),
     unitHours: hours('unitHours').optional().describe("Hours on the unit's meter."),
     oilHours: hours('oilHours').optional().describe('Hours on the current oil charge.'),
     oilChanged: z.boolean({ error: 'oilChanged must be true or false' }).default(false).describe('The oil was changed at this sample (this sample is on a new charge).'),

@@ -63,4 +63,11 @@ describe('the problems of one record', () => {
     const fine = validateResult({ ...event, sampledAt: '2026-03-02T23:00:00Z', readings: { Fe: -5 } }, { now: NOW });
     expect(!fine.ok && fine.issues.map((i) => i.path)).toEqual(['readings.Fe']);
   });
+
+  it('refuses a sampledAt before 1970 as a slip in the year, naming the field', () => {
+    const typo = validateResult({ ...event, sampledAt: '0202-03-01T08:00:00Z' }, { now: NOW });
+    expect(!typo.ok && typo.issues).toEqual([{ path: 'sampledAt', reason: 'sampledAt lies before 1970-01-01: no used-oil sample is that old (a typing slip in the year?)' }]);
+    expect(validateResult({ ...event, sampledAt: '1969-12-31T23:59:59Z' }, { now: NOW }).ok).toBe(false);
+    expect(validateResult({ ...event, sampledAt: '1970-01-01T00:00:00Z' }, { now: NOW }).ok).toBe(true);
+  });
 });
