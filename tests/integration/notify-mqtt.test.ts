@@ -143,6 +143,28 @@ describe('MQTT publishing', () => {
     expect(resolvedAt).toBeGreaterThanOrEqual(release);
   });
 
+  it('closes within its grace time when the broker never acknowledges, where it waited for ever', async () => {
+    // authorizePublish never answering: the broker took the message and sends no PUBACK.
+    const broker = await startBroker(0, { authorizePublish: () => undefined });
+    cleanup.push(() => stopBroker(broker));
+    const publisher = createMqttPublisher({ url: `mqtt://127.0.0.1:${broker.port}`, clientId: 'wearshift-test-close', reconnectPeriodMs: 100, connectTimeoutMs: 2000, closeGraceMs: 500 });
+    cleanup.push(() => publisher.close({ force: true }));
+    await waitFor(() => publisher.connected, WAIT_MS, 'the publisher to connect');
+    let settled = false;
+    void publisher.publish(event).then(
+      () => (settled = true),
+      () => (settled = true),
+    );
+    await waitFor(() => broker.aedes.connectedClients === 1, WAIT_MS, 'the broker to hold the connection');
+    await new Promise((r) => setTimeout(r, 100));
+    expect(settled).toBe(false);
+    // The grace time is half a second; a close still waiting after a minute waits for ever.
+    const closed = publisher.close().then(() => 'closed' as const);
+    const outcome = await Promise.race([closed, new Promise((r) => setTimeout(() => r('still waiting'), WAIT_MS))]);
+    expect(outcome).toBe('closed');
+    expect(publisher.connected).toBe(false);
+  });
+
   it('queues a message while the broker is down and sends it after the broker comes back on the same port', async () => {
     let broker = await startBroker();
     const port = broker.port;

@@ -41,7 +41,14 @@ export interface MqttPublisherOptions {
   tls?: Pick<IClientOptions, 'ca' | 'cert' | 'key' | 'rejectUnauthorized' | 'servername'>;
   /** Connection errors; the client keeps reconnecting after each. Default: ignored. */
   onError?: (error: Error) => void;
+  /**
+   * How long `close()` waits for the broker to acknowledge what is in flight before it drops it and closes anyway: a
+   * broker that accepts messages but never acknowledges them would otherwise hold a shutdown for ever. Default 5 000 ms.
+   */
+  closeGraceMs?: number;
 }
+
+export const DEFAULT_MQTT_CLOSE_GRACE_MS = 5_000;
 
 export interface MqttPublisher {
   /** Resolves with the topic once the broker has acknowledged the message; rejects when `signal` aborts first. */
@@ -52,7 +59,7 @@ export interface MqttPublisher {
    */
   publishSummary(event: { id: string; data: { held: readonly { severity: string }[] } }, options?: { signal?: AbortSignal }): Promise<{ topic: string }>;
   readonly connected: boolean;
-  /** Waits for in-flight messages when connected; `force` drops them. */
+  /** Waits for in-flight messages when connected, at most `closeGraceMs`; `force` drops them at once. */
   close(options?: { force?: boolean }): Promise<void>;
 }
 
@@ -93,7 +100,25 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
       return send(incidentTopic(template, pseudo), event, publishOptions);
     },
     async close(closeOptions) {
-      await client.endAsync(closeOptions?.force ?? false);
+      if (closeOptions?.force === true) {
+        await client.endAsync(true);
+        return;
+      }
+      // Waits for the broker's acknowledgements itself (mqtt.js's own graceful end waits for ever and cannot be forced
+      // once begun). Unacknowledged messages are not lost by dropping them: their notify jobs are not done and run again.
+      const inFlight = (): boolean => Object.keys(client.outgoing).length > 0;
+      if (inFlight()) {
+        let timer: NodeJS.Timeout | undefined;
+        let onEmpty: (() => void) | undefined;
+        await new Promise<void>((resolve) => {
+          onEmpty = resolve;
+          client.once('outgoingEmpty', onEmpty);
+          timer = setTimeout(resolve, options.closeGraceMs ?? DEFAULT_MQTT_CLOSE_GRACE_MS);
+        });
+        clearTimeout(timer);
+        client.removeListener('outgoingEmpty', onEmpty!);
+      }
+      await client.endAsync(inFlight());
     },
   };
 
