@@ -1,6 +1,6 @@
 /**
  * Chart and series work off the event loop, bounded: at most `concurrency` worker threads compute at once, at most
- * `queue` requests wait for one (further ones are refused at once as busy), and a job that runs longer than
+ * `queue` requests wait for one, each at most `waitMs` (further ones are refused at once as busy), and a job that runs longer than
  * `timeoutMs` is abandoned — its thread is terminated and replaced — and reported as timed out. However long a
  * history, the process keeps answering HTTP and running its queue workers meanwhile.
  */
@@ -16,12 +16,15 @@ export interface ChartPoolOptions {
   readonly queue?: number;
   /** Longest a job may run, from when its thread takes it (a new thread's start-up is bounded at three times this). Default 20 000 ms. */
   readonly timeoutMs?: number;
+  /** Longest a job may wait for a thread; then it is refused as busy (its request holds a socket meanwhile). Default `timeoutMs`. */
+  readonly waitMs?: number;
   /** Most samples a chart draws (src/charts/chartWindow.ts). Default 1 000. */
   readonly sampleBudget?: number;
 }
 
 interface Waiting {
   readonly job: ChartJob;
+  timer?: NodeJS.Timeout;
   resolve(result: ChartJobResult): void;
   reject(error: Error): void;
 }
@@ -55,6 +58,7 @@ export class ChartPool {
   readonly concurrency: number;
   readonly queueLimit: number;
   readonly timeoutMs: number;
+  readonly waitMs: number;
   readonly sampleBudget: number;
   private readonly idle: Slot[] = [];
   private readonly waiting: Waiting[] = [];
@@ -67,6 +71,7 @@ export class ChartPool {
     this.concurrency = Math.max(1, Math.floor(options.concurrency ?? 1));
     this.queueLimit = Math.max(0, Math.floor(options.queue ?? 16));
     this.timeoutMs = options.timeoutMs ?? 20_000;
+    this.waitMs = options.waitMs ?? this.timeoutMs;
     this.sampleBudget = options.sampleBudget ?? 1000;
     for (let i = 0; i < this.concurrency; i++) {
       const slot: Slot = { worker: undefined, ready: undefined };
@@ -90,12 +95,22 @@ export class ChartPool {
         return reject(new ChartUnavailableError(`${this.running} charts are being drawn and ${this.waiting.length} are waiting, the most this process takes; ask again shortly`, 'busy', 2));
       }
       this.waiting.push(w);
+      w.timer = setTimeout(() => {
+        const at = this.waiting.indexOf(w);
+        if (at < 0) return;
+        this.waiting.splice(at, 1);
+        reject(new ChartUnavailableError(`waited ${this.waitMs} ms for one of the ${this.concurrency} chart threads, the longest a chart waits; ask again shortly`, 'busy', 5));
+      }, this.waitMs);
+      w.timer.unref();
     });
   }
 
   async close(): Promise<void> {
     this.closed = true;
-    for (const w of this.waiting.splice(0)) w.reject(new ChartUnavailableError('the chart pool is closed', 'closed', 5));
+    for (const w of this.waiting.splice(0)) {
+      clearTimeout(w.timer);
+      w.reject(new ChartUnavailableError('the chart pool is closed', 'closed', 5));
+    }
     await Promise.all(this.slots.map((s) => s.worker?.terminate()));
   }
 
@@ -175,6 +190,7 @@ export class ChartPool {
 
   private release(slot: Slot): void {
     const next = this.waiting.shift();
+    clearTimeout(next?.timer);
     if (next !== undefined && !this.closed) this.start(slot, next);
     else this.idle.push(slot);
   }
