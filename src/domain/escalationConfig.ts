@@ -111,6 +111,15 @@ export const ChannelsSchema = z
             secure: z.boolean().optional().describe('TLS from the start (port 465); absent: STARTTLS when the server offers it.'),
             user: z.string().optional(),
             passwordEnv: envName.optional().describe('Environment variable holding the SMTP password; needs user.'),
+            deadlineMs: z
+              .number()
+              .int()
+              .min(1000)
+              .max(3_600_000)
+              .optional()
+              .describe(
+                'Longest time in milliseconds one e-mail delivery attempt may take in all, from connecting to the answer to the message; default 60000 (60 s). The idle timeouts restart with every byte a slow server sends; this does not. Then the connection is closed and the message retried later with backoff; an attempt cut off after its data went out is recorded as possibly arrived.',
+              ),
           })
           .strict()
           .refine((smtp) => smtp.passwordEnv === undefined || smtp.user !== undefined, {

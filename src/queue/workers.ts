@@ -22,6 +22,7 @@ import type { Metrics } from '../telemetry/metrics.ts';
 import type { EvaluationRunnerDeps } from './evaluationRunner.ts';
 import { DeliveryRetry } from '../channels/errors.ts';
 import type { NotificationChannels } from '../channels/openChannels.ts';
+import { configuredChannels } from '../channels/registry.ts';
 import { startOutboxRelay, type EscalateJobData } from './outboxRelay.ts';
 import { escalateProcessor } from './processors/escalateProcessor.ts';
 import { evaluateProcessor } from './processors/evaluateProcessor.ts';
@@ -52,7 +53,11 @@ export interface WorkerSettings extends QueueSettings {
   busyRetryMs?: number;
   /** A sparse checkpoint every this many samples of a component. Default 50. */
   checkpointEvery?: number;
-  /** Notifications this process delivers at once. Default 4. */
+  /**
+   * Notifications of one channel kind (e-mail, webhook, MQTT) this process delivers at once; each configured kind has
+   * this many slots of its own, so that a receiver that hangs holds only its own kind's (notifyProcessor.ts,
+   * `channelSlots`). Also the escalation checks run at once. Default 4.
+   */
   notifyConcurrency?: number;
   /** Delivery attempts of one notification (backoff from 5 s, doubling, at most an hour apart). Default 20. */
   notifyAttempts?: number;
@@ -187,6 +192,7 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
           incidents,
           now,
           ...(deps.live && { live: deps.live }),
+          channelSlots: { perKind: s.notifyConcurrency },
           flood: {
             settings: deps.config.channels.floodControl ?? DEFAULT_FLOOD_CONTROL,
             ledger: new FloodLedger(deps.connection, queueSettings.prefix),
@@ -197,7 +203,9 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
           },
         }) as Processor,
         {
-        ...options(partitions.sharedTag(), s.notifyConcurrency),
+        // Every configured kind's share, so that each may fill its own while another's are stuck; a job of a kind
+        // whose share is full is put back at once and frees its slot for the next.
+        ...options(partitions.sharedTag(), s.notifyConcurrency * Math.max(1, configuredChannels(deps.config.channels).length)),
         settings: {
           // The receiver's Retry-After wins (held between 5 s and an hour); otherwise exponential backoff with full jitter.
           backoffStrategy: (attemptsMade: number, _type?: string, err?: Error) =>

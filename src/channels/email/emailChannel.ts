@@ -45,7 +45,7 @@ export const emailChannel: ChannelDefinition = {
             : {};
         const mail = renderIncidentEmail(message, { from: cfg.from, to: effect.target, ...ack, ...(chart && { chart }), ...(timeZone !== undefined && { timeZone }) });
         try {
-          const sent = await sendEmail(smtpTransport(cfg.smtp, env), mail);
+          const sent = await sendEmail(smtpTransport(cfg.smtp, env), mail, { deadlineMs: cfg.smtp.deadlineMs });
           if (sent.accepted.length === 0) throw new DeliveryRefused(`e-mail to ${effect.target}: the server refused the recipient`);
           return `email ${effect.target}: ${sent.messageId}`;
         } catch (e) {
@@ -57,7 +57,7 @@ export const emailChannel: ChannelDefinition = {
         const cfg = channels.email;
         if (cfg === undefined) throw new DeliveryRefused('a flood summary by e-mail, but channels.email is not configured');
         try {
-          const sent = await sendEmail(smtpTransport(cfg.smtp, env), renderFloodSummaryEmail(s, { from: cfg.from, to: s.target }));
+          const sent = await sendEmail(smtpTransport(cfg.smtp, env), renderFloodSummaryEmail(s, { from: cfg.from, to: s.target }), { deadlineMs: cfg.smtp.deadlineMs });
           return `flood summary by email ${s.target}: ${s.held.length} held back, ${sent.messageId}`;
         } catch (e) {
           if (e instanceof EmailDeliveryError) throw e.retryable ? new DeliveryRetry(e.message, undefined, e.notTaken) : new DeliveryRefused(e.message);

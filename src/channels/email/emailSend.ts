@@ -11,6 +11,21 @@ import type { RenderedEmail } from './emailRender.ts';
  */
 export const SMTP_TIMEOUT_DEFAULTS = { connectionTimeout: 10_000, greetingTimeout: 10_000, socketTimeout: 30_000 } as const;
 
+/**
+ * The longest one message's attempt may take in all, from connecting to the server's answer to the data: 60 s.
+ * The timeouts above are idle timeouts, and a server that trickles its replies (a byte every few seconds) resets
+ * them with every byte; this deadline does not move. Configured as `channels.email.smtp.deadlineMs`.
+ */
+export const SMTP_DEADLINE_DEFAULT_MS = 60_000;
+
+/** The error code of an attempt ended by its deadline. */
+export const DEADLINE_CODE = 'EDEADLINE';
+
+export interface SendEmailOptions {
+  /** The attempt's deadline in milliseconds; then the connection is closed and the send fails as retryable. Default `SMTP_DEADLINE_DEFAULT_MS`. */
+  readonly deadlineMs?: number;
+}
+
 export interface SentEmail {
   messageId: string;
   accepted: string[];
@@ -43,16 +58,45 @@ export class EmailDeliveryError extends Error {
 /**
  * Sends one message. Give SMTP options to open (and close) a connection for this message, or a transporter
  * (a pooled one, say) to reuse connections. Throws an `EmailDeliveryError`.
+ *
+ * The attempt ends at its deadline whatever the server does: the send is aborted (nodemailer closes the
+ * connection) and the error is retryable, with `notTaken` false: the data may have gone out and the server's
+ * answer may have been all that was missing, so the queue records the attempt as possibly arrived.
  */
-export async function sendEmail(transport: SMTPTransportOptions | Transporter, mail: RenderedEmail): Promise<SentEmail> {
+export async function sendEmail(transport: SMTPTransportOptions | Transporter, mail: RenderedEmail, options: SendEmailOptions = {}): Promise<SentEmail> {
+  const deadlineMs = options.deadlineMs ?? SMTP_DEADLINE_DEFAULT_MS;
   const own = !isTransporter(transport);
   const transporter = isTransporter(transport) ? transport : createTransport({ ...SMTP_TIMEOUT_DEFAULTS, ...transport });
+  const abort = new AbortController();
+  let timer: NodeJS.Timeout | undefined;
+  // Raced as well as signalled, so that the deadline holds for a transporter that ignores the signal.
+  const deadline = new Promise<never>((_, reject) => {
+    timer = setTimeout(() => {
+      const error = new EmailDeliveryError(`e-mail not sent (${DEADLINE_CODE}): no answer to the message within the deadline of ${deadlineMs} ms; connection closed`, true, DEADLINE_CODE);
+      reject(error);
+      abort.abort(error);
+    }, deadlineMs);
+  });
   try {
-    const info = await transporter.sendMail({ from: mail.from, to: mail.to, subject: mail.subject, text: mail.text, html: mail.html, headers: mail.headers, attachments: mail.attachments });
+    const sending = transporter.sendMail({
+      from: mail.from,
+      to: mail.to,
+      subject: mail.subject,
+      text: mail.text,
+      html: mail.html,
+      headers: mail.headers,
+      attachments: mail.attachments,
+      // nodemailer ≥ 10 closes the connection of an aborted send (SMTPTransport.supportsAbortSignal).
+      signal: abort.signal,
+    } as Parameters<Transporter['sendMail']>[0]);
+    const info = await Promise.race([sending, deadline]);
     return { messageId: String(info.messageId), accepted: addresses(info.accepted), rejected: addresses(info.rejected) };
   } catch (e) {
+    // nodemailer's own error for the aborted send (EABORT) may come first; the deadline's says what happened.
+    if (abort.signal.aborted) throw abort.signal.reason as EmailDeliveryError;
     throw classifySmtpError(e);
   } finally {
+    clearTimeout(timer);
     if (own) transporter.close();
   }
 }

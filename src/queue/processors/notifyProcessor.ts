@@ -3,11 +3,16 @@
  * Failures the receiver may get over are retried with backoff, or after its Retry-After. Alarm floods are handled
  * here (src/notify/floodControl.ts): beyond the target's allowance in the window, the message is held back and one
  * summary job per target and window, delayed to the window's end, lists all it held.
+ *
+ * Each channel kind has its own share of the process's deliveries (`NotifyDeps.channelSlots`): a job of a kind whose
+ * share is taken is put back on the queue for a while, without counting as an attempt, so that a receiver that hangs
+ * (an SMTP server trickling its replies, say) holds only its own channel's slots, never the webhooks' or MQTT's.
  */
-import { UnrecoverableError, type Job, type Processor } from 'bullmq';
+import { DelayedError, UnrecoverableError, type Job, type Processor } from 'bullmq';
 import { DeliveryRefused, DeliveryRetry } from '../../channels/errors.ts';
 import type { NotificationChannels } from '../../channels/openChannels.ts';
 import type { Config } from '../../domain/config.ts';
+import type { ChannelKind } from '../../domain/escalationConfig.ts';
 import { describeState, type NotifyEffect } from '../../incidents/model.ts';
 import type { MessageWithdrawal } from '../../incidents/withdrawal.ts';
 import { floodKey, floodWindow, heldMessage, type FloodControlSettings, type FloodTarget } from '../../notify/floodControl.ts';
@@ -50,6 +55,13 @@ export interface NotifyDeps {
   readonly live?: (event: LiveEvent) => void;
   /** The clock a delivery is recorded with, and shelving is judged by. Default `Date.now`. */
   readonly now?: () => number;
+  /**
+   * Each channel kind's share of this process's deliveries: at most `perKind` jobs of one kind (e-mail, webhook, MQTT)
+   * run at once; another job of that kind is moved back to the delayed set (BullMQ's `DelayedError`, not an attempt)
+   * and comes again after `putBackMs` (see there). The worker's concurrency must exceed `perKind` for the other kinds
+   * to get slots (src/queue/workers.ts gives every configured kind `perKind`). Without it, no kind is limited.
+   */
+  readonly channelSlots?: ChannelSlots;
   /** Alarm-flood handling; without it every message is delivered. */
   readonly flood?: {
     readonly settings: FloodControlSettings;
@@ -61,7 +73,49 @@ export interface NotifyDeps {
   };
 }
 
+export interface ChannelSlots {
+  /** Jobs of one channel kind this process runs at once. */
+  readonly perKind: number;
+  /**
+   * How long a job put back waits before it is taken again: `baseMs` doubling with each time it was put back, at most
+   * `maxMs`, the second half at random (so that thousands of waiting messages of a stuck channel spread out instead of
+   * coming back together). Default `PUT_BACK_DEFAULTS`.
+   */
+  readonly putBackMs?: { readonly baseMs: number; readonly maxMs: number };
+  /** Default `Math.random`. */
+  readonly random?: () => number;
+}
+
+/** 1 s, doubling, at most 30 s: a stuck channel's backlog costs a few moves per second, and a freed slot is used soon. */
+export const PUT_BACK_DEFAULTS = { baseMs: 1000, maxMs: 30_000 } as const;
+
 export function notifyProcessor(deps: NotifyDeps): Processor<NotifyEffect | FloodSummaryJob> {
+  const deliver = notifyJob(deps);
+  const slots = deps.channelSlots;
+  if (slots === undefined) return (job) => deliver(job);
+  const active = new Map<ChannelKind, number>();
+  return async (job, token) => {
+    const kind = (job.data as { channel: ChannelKind }).channel;
+    const running = active.get(kind) ?? 0;
+    if (running >= slots.perKind) {
+      // Taken before this one: each start of a job counts (attemptsStarted), each failed attempt too (attemptsMade).
+      const putBack = Math.max(0, (job.attemptsStarted ?? 1) - job.attemptsMade - 1);
+      const { baseMs, maxMs } = slots.putBackMs ?? PUT_BACK_DEFAULTS;
+      const wait = Math.min(maxMs, baseMs * 2 ** Math.min(putBack, 30));
+      // BullMQ's delayed set runs on the wall clock, whatever clock the processor judges with.
+      await job.moveToDelayed(Date.now() + Math.round(wait / 2 + (slots.random ?? Math.random)() * (wait / 2)), token);
+      throw new DelayedError(`${kind}: all ${slots.perKind} of the channel's delivery slots are busy; put back`);
+    }
+    active.set(kind, running + 1);
+    try {
+      return await deliver(job);
+    } finally {
+      active.set(kind, (active.get(kind) ?? 1) - 1);
+    }
+  };
+}
+
+function notifyJob(deps: NotifyDeps): (job: Job<NotifyEffect | FloodSummaryJob>) => Promise<string> {
   // The chart is a help, not the message: a history it cannot draw sends the mail without it.
   const emailChart = async (effect: NotifyEffect) => {
     try {
