@@ -1,9 +1,10 @@
 /*
  * An incident card, on the board and on the incident page: its severity, state, evidence and forecasts, the trend
  * of its leading measurand, and acknowledge / shelve (unshelve while shelved) / resolve with a note (enabled for a
- * responder token only).
+ * responder token only). While one of its requests is on its way, the card's actions are marked unavailable and
+ * ignore presses, so that nothing is sent twice.
  */
-import { setStatus } from './cardStatus.js';
+import { markPending, sendFor, setStatus } from './cardStatus.js';
 import { loadChart } from './chart.js';
 import { announce, el } from './dom.js';
 import { duration, formatTime } from './format.js';
@@ -13,6 +14,7 @@ import { componentPath, incidentPagePath, incidentPath } from './paths.js';
 import { scheduleReload } from './reload.js';
 import { createSampleVerdict, listenForVerdicts, updateSampleVerdict } from './sampleVerdict.js';
 import { api, canAct, problemText, session } from './session.js';
+import { loadWhenSeen } from './whenSeen.js';
 
 /** Findings a card on the board shows; the rest are a link away, on the incident page. */
 const CARD_EVIDENCE = 3;
@@ -26,9 +28,14 @@ const SHELVE_CHOICES = [
 /** Incidents on the page by id, with the DOM of their card. */
 export const cards = new Map();
 
+/** Numbers the cards of this page: never reused, unlike the count of cards, which falls when one is removed. */
+let cardsMade = 0;
+
 export function createCard(incident) {
-  const id = `inc-${cards.size}-${Date.now().toString(36)}`;
-  const title = el('h3', { id: `${id}-title` });
+  cardsMade += 1;
+  const id = `inc-${cardsMade}`;
+  // Focusable by script only: where the keyboard goes when the card holding it is removed (boardView.js).
+  const title = el('h3', { id: `${id}-title`, tabindex: '-1' });
   const node = el('li', { class: 'incident', 'aria-labelledby': `${id}-title`, 'data-incident': incident.id });
   const badge = el('span');
   const state = el('p', { class: 'state' });
@@ -59,8 +66,10 @@ export function createCard(incident) {
     status,
   );
   node.append(el('div', { class: 'incident-head' }, badge, title), state, evidence, chartCaption, chart, actions);
-  const card = { node, title, badge, state, evidence, chartCaption, chart, note, shelveFor, status, buttons, viewerNote, incident, chartKey: '', verdicts, sampleRow, sampleQuestion };
-  for (const [action, button] of Object.entries(buttons)) button.addEventListener('click', () => act(card, action));
+  const card = { node, title, badge, state, evidence, chartCaption, chart, note, shelveFor, status, buttons, viewerNote, incident, chartKey: '', verdicts, sampleRow, sampleQuestion, pending: false };
+  // Drawn again after every answer to one of its requests (cardStatus.js sendFor).
+  card.redraw = () => updateCard(card, card.incident);
+  for (const [action, button] of Object.entries(buttons)) button.addEventListener('click', () => void act(card, action));
   listenForVerdicts(card);
   return card;
 }
@@ -106,6 +115,7 @@ export function updateCard(card, incident) {
   card.shelveFor.disabled = !enabled;
   node.dataset.shelved = String(shelved);
   updateSampleVerdict(card, incident, enabled);
+  markPending(card);
   card.viewerNote.hidden = canAct();
   // The chart follows the incident's latest sample; a new result redraws it.
   // The chart shows the measurand of the most severe finding, and says so.
@@ -114,7 +124,8 @@ export function updateCard(card, incident) {
   card.chart.dataset.measurand = measurands[0] ?? '';
   if (measurands.length > 0 && chartKey !== card.chartKey) {
     card.chartKey = chartKey;
-    void loadChart(card.chart, incident.unit, incident.component, measurands[0]);
+    // Drawn when the card comes near the window, a few at a time (whenSeen.js).
+    loadWhenSeen(card.chart, () => loadChart(card.chart, incident.unit, incident.component, measurands[0]));
   } else if (measurands.length === 0) {
     card.chart.replaceChildren(el('p', { class: 'chart-problem', text: 'No measurand to chart.' }));
   }
@@ -143,6 +154,7 @@ export function renderState(card) {
 }
 
 async function act(card, action) {
+  if (card.pending) return;
   const note = card.note.value.trim();
   const by = session.name.trim() || 'board user';
   let body;
@@ -154,8 +166,11 @@ async function act(card, action) {
     return;
   } else if (action === 'shelve') body = { by, until: new Date(Date.now() + Number(card.shelveFor.value) * 3_600_000).toISOString(), reason: note };
   else body = { by, note };
-  setStatus(card, 'busy', 'Sending…');
-  const result = await api(`${incidentPath(card.incident.id)}/${action}`, { method: 'POST', body });
+  const result = await sendFor(card, () => {
+    setStatus(card, 'busy', 'Sending…');
+    return api(`${incidentPath(card.incident.id)}/${action}`, { method: 'POST', body });
+  });
+  if (result === undefined) return;
   if (!result.ok) {
     setStatus(card, 'error', problemText(result));
     return;

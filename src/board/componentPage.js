@@ -9,6 +9,7 @@ import { formatTime } from './format.js';
 import { FORECAST_CAUTION, measurandsOf, mergedTimeline, severityBadge, stateWords, timelineText } from './incidentText.js';
 import { page } from './page.js';
 import { apiComponentPath, incidentPagePath, incidentPath } from './paths.js';
+import { markLoaded } from './reload.js';
 import { api, problemText } from './session.js';
 import { showSignIn } from './signInView.js';
 
@@ -20,6 +21,7 @@ export async function loadComponentPage() {
     api(`${apiComponentPath(page.unit, page.component)}/series`),
   ]);
   if (history.status === 401 || series.status === 401) return showSignIn('The token is no longer accepted; please sign in again.');
+  if (history.ok && series.ok) markLoaded();
   // A component nobody has sent results for: the problem alone, not an empty history beside it.
   $('component-body').hidden = series.status === 404;
   renderHistory(history);

@@ -9,6 +9,7 @@ import { $, el } from './dom.js';
 import { measurandsOf, mergedTimeline, severityWords, timelineText } from './incidentText.js';
 import { page } from './page.js';
 import { componentPath, incidentPath } from './paths.js';
+import { markLoaded } from './reload.js';
 import { api, problemText } from './session.js';
 import { showSignIn } from './signInView.js';
 
@@ -24,6 +25,7 @@ export async function loadIncidentPage() {
     problem.textContent = result.status === 404 ? `No incident "${page.incidentId}" is known here.` : `The incident could not be loaded. ${problemText(result)}`;
     return;
   }
+  markLoaded();
   problem.hidden = true;
   $('incident-body').hidden = false;
   $('incident-component-crumb').hidden = false;

@@ -28,9 +28,18 @@ const json = (name: string) => ({ 'application/json': { schema: ref(name) } });
 const error = (description: string) => ({ description, content: json('Error') });
 /** A 503 with the Retry-After header (seconds). */
 const unavailable = (description: string) => ({ description, headers: { 'Retry-After': { $ref: '#/components/headers/RetryAfter' } }, content: json('Error') });
+/** Too many unknown tokens from the client's address within the window: every request with a token waits. */
+const GUESSING = {
+  '429': {
+    description: 'Too many unknown tokens were presented from this address (20 a minute by default); every request with a token from it is refused (too-many-requests) until Retry-After.',
+    headers: { 'Retry-After': { $ref: '#/components/headers/RetryAfter' } },
+    content: json('Error'),
+  },
+};
 const AUTH_ERRORS = {
   '401': error('No or unknown bearer token (answered before the body is read).'),
   '403': error("The token's role does not permit this (answered before the body is read)."),
+  ...GUESSING,
 };
 /** Redis away or not answering within the command timeout (2 s): nothing was changed. */
 const STORE_UNAVAILABLE = { '503': unavailable('The store (Redis) is away or did not answer within 2 s; nothing was changed. Retry after Retry-After (5 s).') };
@@ -130,12 +139,19 @@ export function openApiDocument(): Json {
           operationId: 'listIncidents',
           summary: 'Incidents: open ones most severe first, then the most recently opened; closed ones the most recently closed first.',
           description:
-            'One page at a time: `next` is a cursor while more incidents match, and `cursor` continues strictly after the previous page in the same order (ties by id), without repeating or skipping an incident: one opened meanwhile shows where the order places it, once, or not at all when that is before the cursor. An incident whose severity or state changed between pages moves to its new place in the order. A cursor is bound to the state, severity, unit and group it was given for; with others, or altered, it is refused (400 naming `query.cursor`).',
+            'One page at a time: `next` is a cursor while more incidents may match, and `cursor` continues strictly after the previous page in the same order (ties by id), without repeating or skipping an incident: one opened meanwhile shows where the order places it, once, or not at all when that is before the cursor. An incident whose severity or state changed between pages moves to its new place in the order. A cursor is bound to the state, severity, unit and group it was given for; with others, or altered, it is refused (400 naming `query.cursor`). A filtered list (severity, unit, group, a state within the open ones) reads at most 2 000 incident records per request by default: a page that reached that bound ends early, with fewer than `limit` incidents or none, and `next` continues after the last record read; follow `next` until it is null.',
           tags: ['incidents'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }],
           // A repeated severity means the list (the routes join it); any other parameter takes one value.
           parameters: queryParameters(IncidentListQuerySchema).map((p) => (p.name === 'severity' ? { ...p, description: `${String(p.description ?? '')} The parameter may also be repeated (severity=alarm&severity=watch).`.trim() } : p)),
-          responses: { '200': { description: 'The incidents that match.', content: json('IncidentList') }, '400': error('A query parameter is invalid, given more than once, or a cursor is malformed or was given for another filter (issues name the parameter, such as query.cursor).'), ...AUTH_ERRORS, ...STORE_UNAVAILABLE },
+          responses: {
+            '200': { description: 'The incidents that match.', content: json('IncidentList') },
+            '400': error('A query parameter is invalid, given more than once, or a cursor is malformed or was given for another filter (issues name the parameter, such as query.cursor).'),
+            ...AUTH_ERRORS,
+            '503': unavailable(
+              'The store (Redis) is away or did not answer within 2 s (Retry-After 5 s); or, for a filtered list (severity, unit, group, a state within the open ones), as many such lists are being read as the process reads at once (4 by default; Retry-After 1 s).',
+            ),
+          },
         },
       },
       '/v1/incidents/{id}': {
@@ -235,6 +251,11 @@ export function openApiDocument(): Json {
           responses: {
             '200': { description: 'An event stream; each data line is a JSON live event.', content: { 'text/event-stream': { schema: { type: 'string' } } } },
             ...AUTH_ERRORS,
+            '429': {
+              description: 'The token already holds as many live-event streams as one token may (8 by default), or the address as many as one address may (16 by default), or too many unknown tokens came from the address (too-many-requests); try again after Retry-After.',
+              headers: { 'Retry-After': { $ref: '#/components/headers/RetryAfter' } },
+              content: json('Error'),
+            },
             '503': unavailable('As many live-event streams are open as the process serves (500 by default); try again after Retry-After.'),
           },
         },
@@ -245,7 +266,7 @@ export function openApiDocument(): Json {
           summary: 'What a token may do: its roles, and the time zone times are shown in (the board signs in with it).',
           tags: ['operations'],
           security: [{ bearer: ['viewer'] }, { bearer: ['responder'] }, { bearer: ['ingest'] }],
-          responses: { '200': { description: 'The roles of the token.', content: json('Session') }, '401': error('No or unknown bearer token.') },
+          responses: { '200': { description: 'The roles of the token.', content: json('Session') }, '401': error('No or unknown bearer token.'), ...GUESSING },
         },
       },
       '/healthz': { get: { operationId: 'healthz', summary: 'The process is alive.', tags: ['operations'], security: [], responses: { '200': { description: 'Alive.', content: json('Health') } } } },

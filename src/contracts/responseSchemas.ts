@@ -33,7 +33,7 @@ export const ErrorBodySchema = z
     error: z
       .string()
       .describe(
-        'A machine-readable word: invalid-request (a field, named in issues), bad-request (a body that is not JSON or empty, a path that is not valid percent-encoding), unauthorized, forbidden, not-found, conflict, not-in-doubt, payload-too-large, too-many-records, uri-too-long, unsupported-media-type, unavailable, internal.',
+        'A machine-readable word: invalid-request (a field, named in issues), bad-request (a body that is not JSON or empty, a path that is not valid percent-encoding), unauthorized, forbidden, not-found, conflict, not-in-doubt, payload-too-large, too-many-records, too-many-requests, uri-too-long, unsupported-media-type, unavailable, internal.',
       ),
     message: z.string(),
     issues: z.array(z.object({ field: z.string(), message: z.string() }).strict()).optional(),
@@ -133,7 +133,9 @@ export const IncidentListSchema = z
     next: z
       .string()
       .nullable()
-      .describe('An opaque cursor when more incidents match after this page: pass it as `cursor` with the same filter for the next page. Null on the last page.'),
+      .describe(
+        'An opaque cursor when more incidents may match after this page: pass it as `cursor` with the same filter for the next page. Null on the last page. A filtered list (severity, unit, group, a state within the open ones) reads at most 2 000 incident records per request (by default): a page that reached that bound ends early, with fewer than `limit` incidents or none, and `next` continues after the last record read.',
+      ),
     total: z
       .number()
       .int()

@@ -244,6 +244,30 @@ export const ConfigSchema = z
     escalation: EscalationSchema.default({ policies: [] }),
     channels: ChannelsSchema.default({ webhooks: [], mqtt: [], floodControl: DEFAULT_FLOOD_CONTROL }),
     opcua: OpcuaConfigSchema.optional().describe('The OPC UA Alarms & Conditions server for control rooms (see the README).'),
+    http: z
+      .object({
+        maxConnectionsPerAddress: z
+          .number()
+          .int()
+          .min(1)
+          .optional()
+          .describe('Most open sockets of the HTTP API from one remote address; a further connection from it is closed at once. Default 64. Behind a reverse proxy every client has the proxy\'s address: raise it to what the proxy holds open.'),
+        maxEventClientsPerAddress: z
+          .number()
+          .int()
+          .min(1)
+          .optional()
+          .describe('Most live-event streams (GET /v1/events) from one remote address; a further one gets 429. Default 16. Behind a reverse proxy, raise it to the boards it serves (at most the 500 a process serves).'),
+        maxFailedAuthPerAddress: z
+          .number()
+          .int()
+          .min(1)
+          .optional()
+          .describe('Unknown tokens one remote address may present in a minute; beyond it every request with a token from it gets 429 until the minute ends. Default 20. Behind a reverse proxy one client guessing locks out every client of the proxy: raise it, and slow guessing at the proxy.'),
+      })
+      .strict()
+      .optional()
+      .describe('Per-address bounds of the HTTP API (`wearshift serve`, `wearshift api`); see the README, "Limits under load".'),
     display: z
       .object({
         timeZone: z

@@ -63,7 +63,7 @@ export function announcingActions(store: IncidentRoutesStore, publish: (event: L
   return {
     get: (incidentId) => store.get(incidentId),
     list: (filter) => store.list(filter),
-    page: (filter, after) => store.page(filter, after),
+    page: (filter, after, options) => store.page(filter, after, options),
     async applyAction(action) {
       const result = await store.applyAction(action);
       const { incident } = result;

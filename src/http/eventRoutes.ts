@@ -14,7 +14,7 @@
 import type { FastifyPluginAsync, onRequestAsyncHookHandler } from 'fastify';
 import type { ServerResponse } from 'node:http';
 import { ADVISORY_CAUTION } from '../domain/caution.ts';
-import { requireRole, type AccessTokens } from './auth.ts';
+import { requireRole, tokenDigestOf, type AccessTokens } from './auth.ts';
 import type { EventHub, LiveEvent } from './eventHub.ts';
 import { DEFAULT_HTTP_LIMITS } from './limits.ts';
 
@@ -35,6 +35,13 @@ export interface EventRoutesOptions {
   maxBufferedBytes?: number;
   /** Most open streams; a further client gets 503 with Retry-After. Default 500. */
   maxClients?: number;
+  /**
+   * Most open streams of one token (by its digest) and of one remote address: a further one gets 429 with Retry-After
+   * and a message naming the bound; the streams already open are kept (a board that reconnects gets its stream back
+   * once its old one has closed). Defaults 8 and 16.
+   */
+  maxClientsPerToken?: number;
+  maxClientsPerAddress?: number;
   /** Told of every client cut off for falling behind (metrics, tests). */
   onSlowClient?: (bufferedBytes: number) => void;
   /** The reconnection delay the stream asks browsers for. Default 3000 ms. */
@@ -46,7 +53,18 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
   const heartbeatMs = options.heartbeatMs ?? 20_000;
   const maxBuffered = options.maxBufferedBytes ?? DEFAULT_HTTP_LIMITS.maxEventBufferBytes;
   const maxClients = options.maxClients ?? DEFAULT_HTTP_LIMITS.maxEventClients;
+  const maxPerToken = options.maxClientsPerToken ?? DEFAULT_HTTP_LIMITS.maxEventClientsPerToken;
+  const maxPerAddress = options.maxClientsPerAddress ?? DEFAULT_HTTP_LIMITS.maxEventClientsPerAddress;
   const open = new Set<ServerResponse>();
+  // Open streams by token digest and by remote address; an entry leaves when its count falls to 0, so both maps stay
+  // within the number of open streams.
+  const byToken = new Map<string, number>();
+  const byAddress = new Map<string, number>();
+  const add = (map: Map<string, number>, key: string, n: number) => {
+    const next = (map.get(key) ?? 0) + n;
+    if (next > 0) map.set(key, next);
+    else map.delete(key);
+  };
 
   // Streams never end by themselves: without this, closing the server would wait for every browser to leave.
   app.addHook('preClose', async () => {
@@ -66,6 +84,15 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
       if (open.size >= maxClients) {
         return reply.code(503).header('retry-after', '30').send({ error: 'unavailable', message: `${open.size} live-event clients are connected, the most this process serves; try again later` });
       }
+      // One token or one address must not take the slots every board shares.
+      const token = tokenDigestOf(request) ?? '';
+      const address = request.socket.remoteAddress ?? '';
+      if ((byToken.get(token) ?? 0) >= maxPerToken) {
+        return reply.code(429).header('retry-after', '30').send({ error: 'too-many-requests', message: `this token already holds ${maxPerToken} live-event streams, the most one token may; close one (another tab or board) and try again` });
+      }
+      if ((byAddress.get(address) ?? 0) >= maxPerAddress) {
+        return reply.code(429).header('retry-after', '30').send({ error: 'too-many-requests', message: `this address already holds ${maxPerAddress} live-event streams, the most one address may; close one and try again` });
+      }
       const res = reply.raw;
       reply.hijack();
       res.writeHead(200, {
@@ -77,6 +104,8 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
       });
       res.write(`retry: ${options.retryMs ?? 3000}\n: connected\n\n`);
       open.add(res);
+      add(byToken, token, 1);
+      add(byAddress, address, 1);
       // What the client has not taken yet: the response's buffer, which counts the socket's (data the kernel would not take).
       const behind = () => Math.max(res.writableLength, res.socket?.writableLength ?? 0);
       const send = (chunk: string) => {
@@ -96,7 +125,10 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
       res.on('close', () => {
         clearInterval(heartbeat);
         unsubscribe();
-        open.delete(res);
+        if (open.delete(res)) {
+          add(byToken, token, -1);
+          add(byAddress, address, -1);
+        }
       });
     },
   });

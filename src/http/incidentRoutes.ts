@@ -14,13 +14,17 @@ import type { IncidentFilter } from '../incidents/listFilter.ts';
 import { decodeCursor, encodeCursor, IncidentListQuerySchema, type IncidentPage, type ListPosition } from '../incidents/listPage.ts';
 import type { Incident, IncidentSummary } from '../incidents/model.ts';
 import { credentialOf, requireRole, type AccessTokens } from './auth.ts';
+import { DEFAULT_HTTP_LIMITS } from './limits.ts';
 
 /** What the routes need of the incident store (the Redis store provides it). */
 export interface IncidentRoutesStore {
   get(incidentId: string): Promise<Incident | undefined>;
   list(filter: IncidentFilter): Promise<IncidentSummary[]>;
-  /** One page of the list, strictly after `after` when given (see RedisIncidents.page). */
-  page(filter: IncidentFilter, after?: ListPosition): Promise<IncidentPage>;
+  /**
+   * One page of the list, strictly after `after` when given, reading at most `examineAtMost` records when given (a
+   * page cut short by it continues with `next`; see RedisIncidents.page).
+   */
+  page(filter: IncidentFilter, after?: ListPosition, options?: { readonly examineAtMost?: number }): Promise<IncidentPage>;
   applyAction(action: IncidentAction): Promise<{ incident: Incident }>;
 }
 
@@ -30,7 +34,22 @@ export interface IncidentRoutesOptions {
   readonly store: IncidentRoutesStore;
   /** Default: the system clock. */
   readonly now?: () => Date;
+  /** Most incident records one list request reads looking for matches; the page then ends early with `next`. Default 2 000. */
+  readonly scanRecords?: number;
+  /**
+   * Lists with a filter that reads records (unit, group, severity, or a state within the open ones) answered at once;
+   * a further one gets 503 with Retry-After. Default 4.
+   */
+  readonly scanConcurrency?: number;
 }
+
+/** Whether a list needs incident records read (more than the indexes' order) to find its matches. */
+function readsRecords(filter: IncidentFilter): boolean {
+  return filter.severity !== undefined || filter.unit !== undefined || filter.group !== undefined || !['open', 'closed', 'all'].includes(filter.state);
+}
+
+/** Seconds a list refused for want of a scan slot is asked to wait. */
+const SCAN_RETRY_AFTER_S = 1;
 
 // Control characters (ESC, CR, C1) and bidirectional overrides would act on a terminal that prints the history, or
 // make a line read differently from what it holds: refused, naming the field. Notes may hold line breaks and tabs.
@@ -121,6 +140,9 @@ function failed(reply: FastifyReply, e: unknown) {
 
 export const incidentRoutes: FastifyPluginAsync<IncidentRoutesOptions> = async (app, options) => {
   const now = options.now ?? (() => new Date());
+  const scanRecords = options.scanRecords ?? DEFAULT_HTTP_LIMITS.incidentScanRecords;
+  const scanConcurrency = options.scanConcurrency ?? DEFAULT_HTTP_LIMITS.incidentScanConcurrency;
+  let scanning = 0;
   // On request, before the body is read: a refused request costs no parsing and cannot hold the socket with a slow body.
   const read = { onRequest: requireRole(options.tokens, 'viewer', 'responder') };
   const act = { onRequest: requireRole(options.tokens, 'responder') };
@@ -133,7 +155,21 @@ export const incidentRoutes: FastifyPluginAsync<IncidentRoutesOptions> = async (
     const { cursor, ...filter } = query.data;
     const after = cursor === undefined ? undefined : decodeCursor(filter, cursor);
     if (after !== undefined && !after.ok) return invalid(reply, 'query', { issues: [{ path: ['cursor'], message: after.reason }] });
-    const page = await options.store.page(filter, after?.position);
+    const scans = readsRecords(filter);
+    if (scans && scanning >= scanConcurrency) {
+      return reply
+        .code(503)
+        .header('retry-after', String(SCAN_RETRY_AFTER_S))
+        .send({ error: 'unavailable', message: `${scanning} filtered incident lists are being read, the most this process reads at once; try again in ${SCAN_RETRY_AFTER_S} s` });
+    }
+    if (scans) scanning += 1;
+    let page: IncidentPage;
+    try {
+      // A list by state alone shows every record it reads (up to limit + 1); only a filter reads records it does not show.
+      page = await options.store.page(filter, after?.position, scans ? { examineAtMost: scanRecords } : {});
+    } finally {
+      if (scans) scanning -= 1;
+    }
     return { incidents: page.incidents, next: page.next === null ? null : encodeCursor(filter, page.next), total: page.total, advisory: ADVISORY_CAUTION };
   });
 

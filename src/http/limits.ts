@@ -22,10 +22,36 @@ export interface HttpLimits {
   readonly timeoutCheckIntervalMs: number;
   /** Most open sockets; further connections are refused at once. Default 4 096. */
   readonly maxConnections: number;
+  /**
+   * Most open sockets from one remote address; a further connection from it is closed at once, so one address cannot
+   * take every socket. Behind a reverse proxy every client has the proxy's address: raise it there. Default 64.
+   */
+  readonly maxConnectionsPerAddress: number;
+  /**
+   * Requests that presented an unknown token (401) from one remote address within `failedAuthWindowMs`; beyond it
+   * every request with a token from that address gets 429 with Retry-After until the window ends. Default 20.
+   */
+  readonly maxFailedAuthPerAddress: number;
+  /** The window failed authentications are counted in, per address. Default 60 000 ms. */
+  readonly failedAuthWindowMs: number;
+  /** Most addresses whose failed authentications are remembered (least recently failed forgotten first). Default 10 000. */
+  readonly failedAuthAddresses: number;
+  /**
+   * Incident records one GET /v1/incidents reads at most looking for its page's matches (a filter by unit, group,
+   * severity or a state within the open ones); the page then ends early and `next` continues after the last record read.
+   * Default 2 000.
+   */
+  readonly incidentScanRecords: number;
+  /** GET /v1/incidents with such a filter answered at once per process; a further one gets 503 with Retry-After. Default 4. */
+  readonly incidentScanConcurrency: number;
   /** Longest path parameter in characters (an incident id percent-encoded). Default 2 304: 256 characters of 3-byte UTF-8. */
   readonly maxParamLength: number;
   /** Most open live-event streams (GET /v1/events); further ones get 503. Default 500. */
   readonly maxEventClients: number;
+  /** Most open live-event streams per token (by its digest); a further one from that token gets 429 with Retry-After. Default 8. */
+  readonly maxEventClientsPerToken: number;
+  /** Most open live-event streams per remote address; a further one from that address gets 429 with Retry-After. Default 16. */
+  readonly maxEventClientsPerAddress: number;
   /** A live-event client whose unsent data exceeds this is disconnected (it reconnects and reloads). Default 256 KiB. */
   readonly maxEventBufferBytes: number;
   /** Charts and series computed at once per process; others wait. Default 1. */
@@ -50,9 +76,17 @@ export const DEFAULT_HTTP_LIMITS: HttpLimits = {
   idleSocketTimeoutMs: 60_000,
   timeoutCheckIntervalMs: 1000,
   maxConnections: 4096,
+  maxConnectionsPerAddress: 64,
+  maxFailedAuthPerAddress: 20,
+  failedAuthWindowMs: 60_000,
+  failedAuthAddresses: 10_000,
+  incidentScanRecords: 2000,
+  incidentScanConcurrency: 4,
   // A character of 3-byte UTF-8 is 9 characters percent-encoded.
   maxParamLength: MAX_INCIDENT_ID_CHARS * 9,
   maxEventClients: 500,
+  maxEventClientsPerToken: 8,
+  maxEventClientsPerAddress: 16,
   maxEventBufferBytes: 256 * 1024,
   chartConcurrency: 1,
   chartQueue: 16,

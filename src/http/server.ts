@@ -29,6 +29,7 @@ import { sampleVerdictRoutes, type SampleVerdictTaker } from './sampleVerdictRou
 import { ChartPool } from '../render/chartPool.ts';
 import { isStoreUnavailable, UNAVAILABLE_RETRY_AFTER_S } from './unavailable.ts';
 import { clientError, notFound } from './clientErrors.ts';
+import { addressOf, FailedAuthGuard, limitConnectionsPerAddress, presentsToken } from './addressLimits.ts';
 
 export interface ServerOptions {
   /** The API's bearer tokens by role (the runtime reads them from the environment: src/runtime/accessTokensFromEnv.ts). */
@@ -63,6 +64,8 @@ export interface ServerOptions {
   readonly announce?: (event: LiveEvent) => void;
   /** The site zone the board and the acknowledgement pages show times in (`display.timeZone`). Default UTC. */
   readonly timeZone?: string;
+  /** Milliseconds since the epoch, for the failed-authentication window (tests). Default `Date.now`. */
+  readonly clock?: () => number;
 }
 
 export async function buildServer(options: ServerOptions) {
@@ -86,6 +89,22 @@ export async function buildServer(options: ServerOptions) {
     },
   });
   app.server.maxConnections = limits.maxConnections;
+  limitConnectionsPerAddress(app.server, limits.maxConnectionsPerAddress);
+  // Guessing tokens is slowed down per address: after too many unknown tokens, 429 until the window ends.
+  const guesses = new FailedAuthGuard({ max: limits.maxFailedAuthPerAddress, windowMs: limits.failedAuthWindowMs, addresses: limits.failedAuthAddresses, ...(options.clock !== undefined && { now: options.clock }) });
+  app.addHook('onRequest', async (request, reply) => {
+    if (!presentsToken(request)) return;
+    const waitS = guesses.lockedFor(addressOf(request));
+    if (waitS === undefined) return;
+    await reply
+      .code(429)
+      .header('retry-after', String(waitS))
+      .header('connection', 'close')
+      .send({ error: 'too-many-requests', message: `too many unknown tokens from this address; try again in ${waitS} s` });
+  });
+  app.addHook('onResponse', async (request, reply) => {
+    if (reply.statusCode === 401 && presentsToken(request)) guesses.failed(addressOf(request));
+  });
   // A refused request (no token, too large) gets its answer and then the socket is closed, whatever the client
   // still sends: a refused body is not read to its end.
   app.addHook('onSend', async (_request, reply) => {
@@ -113,7 +132,12 @@ export async function buildServer(options: ServerOptions) {
   if (options.producer !== undefined) {
     await app.register(resultRoutes, { tokens: options.tokens, producer: options.producer, metrics: options.metrics, bodyLimitBytes: bodyLimit, maxRecords: limits.maxRecordsPerRequest });
   }
-  if (options.hub !== undefined) await app.register(eventRoutes, { tokens: options.tokens, hub: options.hub, maxBufferedBytes: limits.maxEventBufferBytes, maxClients: limits.maxEventClients });
+  if (options.hub !== undefined) await app.register(eventRoutes, { tokens: options.tokens, hub: options.hub,
+      maxBufferedBytes: limits.maxEventBufferBytes,
+      maxClients: limits.maxEventClients,
+      maxClientsPerToken: limits.maxEventClientsPerToken,
+      maxClientsPerAddress: limits.maxEventClientsPerAddress,
+    });
   const histories = options.histories;
   if (histories !== undefined) {
     const pool = options.chartPool ?? new ChartPool({ concurrency: limits.chartConcurrency, queue: limits.chartQueue, timeoutMs: limits.chartTimeoutMs, sampleBudget: limits.chartSampleBudget });
@@ -128,7 +152,7 @@ export async function buildServer(options: ServerOptions) {
   if (options.sampleVerdicts !== undefined) await app.register(sampleVerdictRoutes, { tokens: options.tokens, verdicts: options.sampleVerdicts });
   // Acknowledgements from the API, the board or an e-mail link are announced like the worker's incident changes.
   const store = options.incidents && (options.announce ? announcingActions(options.incidents, options.announce) : options.incidents);
-  if (store !== undefined) await app.register(incidentRoutes, { tokens: options.tokens, store });
+  if (store !== undefined) await app.register(incidentRoutes, { tokens: options.tokens, store, scanRecords: limits.incidentScanRecords, scanConcurrency: limits.incidentScanConcurrency });
   if (options.producer !== undefined) await app.register(boardRoutes, { tokens: options.tokens, ...(options.timeZone !== undefined && { timeZone: options.timeZone }) });
   if (store !== undefined && (options.ackLinkSecrets?.length ?? 0) > 0) {
     await app.register(ackLinkRoutes, {

@@ -67,6 +67,12 @@ export function ownerOf(incidentId: string): ComponentRef | undefined {
 }
 
 /** An incident of the list with its place in the order. */
+/** Bounds of one page's reading (the HTTP API's; the command line reads without them). */
+export interface PageOptions {
+  /** Most incident records read looking for the page's matches; the page ends early after them. Default: no bound. */
+  readonly examineAtMost?: number;
+}
+
 interface Listed {
   readonly position: ListPosition;
   readonly summary: IncidentSummary;
@@ -176,7 +182,7 @@ export class RedisIncidents {
 
   /** Open incidents by severity (highest first), then newest first; closed ones newest closing first. */
   async list(filter: IncidentFilter): Promise<IncidentSummary[]> {
-    return (await this.collect(filter, undefined, filter.limit)).map((x) => x.summary);
+    return (await this.collect(filter, undefined, filter.limit)).listed.map((x) => x.summary);
   }
 
   /**
@@ -185,16 +191,20 @@ export class RedisIncidents {
    * order is the indexes' (open: severity, then newest opened; closed: newest closing; ties by id), so a page
    * continues exactly where the last one ended: an incident opened meanwhile shows where the order places it, once
    * or (before the position) not at all, and displaces nothing. One whose severity or state changed meanwhile moves
-   * to its new place in the order.
+   * to its new place in the order. With `options.examineAtMost`, a page whose reading ends on that bound holds the
+   * matches up to the last record read and `next` continues after it (a page may then hold fewer than `limit`
+   * incidents, none even, with `next` set).
    */
-  async page(filter: IncidentFilter, after?: ListPosition): Promise<IncidentPage> {
-    const [found, indexTotal] = await Promise.all([this.collect(filter, after, filter.limit + 1), this.countByIndexes(filter)]);
-    const shown = found.slice(0, filter.limit);
-    const more = found.length > filter.limit;
+  async page(filter: IncidentFilter, after?: ListPosition, options: PageOptions = {}): Promise<IncidentPage> {
+    const [found, indexTotal] = await Promise.all([this.collect(filter, after, filter.limit + 1, options.examineAtMost), this.countByIndexes(filter)]);
+    const shown = found.listed.slice(0, filter.limit);
+    const more = found.listed.length > filter.limit;
     const last = shown[shown.length - 1];
     // A first page that holds every match has counted them too.
-    const total = indexTotal ?? (after === undefined && !more ? shown.length : null);
-    return { incidents: shown.map((x) => x.summary), next: more && last !== undefined ? last.position : null, total };
+    const total = indexTotal ?? (after === undefined && !more && found.stoppedAt === undefined ? shown.length : null);
+    // A page cut short by the reading budget continues after the last record read, matching or not.
+    const next = more && last !== undefined ? last.position : (found.stoppedAt ?? null);
+    return { incidents: shown.map((x) => x.summary), next, total };
   }
 
   /**
@@ -276,29 +286,47 @@ export class RedisIncidents {
 
   /**
    * Up to `want` incidents matching `filter` strictly after `after`, in the list's order: the open index, then (for
-   * closed and all) the closed one, each read from every partition and merged.
+   * closed and all) the closed one, each read from every partition and merged. With `examineAtMost`, the records read
+   * are bounded (shared out between the partitions): when the bound ends the reading before `want` matches were found,
+   * `stoppedAt` is the position up to which every partition was read, and `listed` holds the matches up to it only.
    */
-  private async collect(filter: IncidentFilter, after: ListPosition | undefined, want: number): Promise<Listed[]> {
+  private async collect(filter: IncidentFilter, after: ListPosition | undefined, want: number, examineAtMost = Infinity): Promise<{ listed: Listed[]; stoppedAt?: ListPosition }> {
     const out: Listed[] = [];
     const indexes = listIndexes(filter);
+    const partitions = this.partitions.all();
+    let budget = examineAtMost;
     for (const index of indexes.slice(after === undefined ? 0 : Math.max(0, indexes.indexOf(after.index)))) {
       if (out.length >= want) break;
       const from = after?.index === index ? after : undefined;
-      const lists = await Promise.all(this.partitions.all().map((n) => this.scan(n, index, from, filter, want - out.length)));
-      out.push(...lists.flat().sort(ORDER[index]).slice(0, want - out.length));
+      const share = Math.max(1, Math.ceil(budget / partitions.length));
+      const scans = await Promise.all(partitions.map((n) => this.scan(n, index, from, filter, want - out.length, share)));
+      budget -= scans.reduce((a, x) => a + x.examined, 0);
+      // Every partition is read up to the earliest position where one stopped on the budget; matches beyond it wait
+      // for the next page, so that none is skipped.
+      const order = (a: ListPosition, b: ListPosition) => ORDER[index]({ position: a } as Listed, { position: b } as Listed);
+      const stoppedAt = scans.flatMap((x) => (x.stoppedAt === undefined ? [] : [x.stoppedAt])).sort(order)[0];
+      const merged = scans.flatMap((x) => x.listed).sort(ORDER[index]);
+      const within = stoppedAt === undefined ? merged : merged.filter((x) => order(x.position, stoppedAt) <= 0);
+      out.push(...within.slice(0, want - out.length));
+      if (stoppedAt !== undefined && out.length < want) return { listed: out, stoppedAt };
     }
-    return out;
+    return { listed: out };
   }
 
-  /** Up to `want` matching incidents of one partition's index, in its order, strictly after `from` if given. */
-  private async scan(n: number, index: ListIndex, from: ListPosition | undefined, filter: IncidentFilter, want: number): Promise<Listed[]> {
+  /**
+   * Up to `want` matching incidents of one partition's index, in its order, strictly after `from` if given, reading at
+   * most `examineAtMost` records: `stoppedAt` is the last one read when that bound ended the reading first.
+   */
+  private async scan(n: number, index: ListIndex, from: ListPosition | undefined, filter: IncidentFilter, want: number, examineAtMost: number): Promise<{ listed: Listed[]; examined: number; stoppedAt?: ListPosition }> {
     const p = partitionKeys(this.partitions.tag(n));
     const zset = p[index];
     const reverse = index === 'closed';
     const out: Listed[] = [];
-    const batch = 200;
+    let examined = 0;
     let position = from;
     while (out.length < want) {
+      if (examined >= examineAtMost) return { listed: out, examined, ...(position !== undefined && { stoppedAt: position }) };
+      const batch = Math.min(200, examineAtMost - examined);
       // Each batch continues after the last entry read, whatever changed in the index meanwhile.
       const flat = (
         position === undefined
@@ -311,15 +339,17 @@ export class RedisIncidents {
       const entries: ListPosition[] = [];
       for (let i = 0; i < flat.length; i += 2) entries.push({ index, id: flat[i]!, key: Number(flat[i + 1]) });
       const records = await this.redis.hmget(p.records, ...entries.map((e) => e.id));
-      records.forEach((raw, i) => {
-        if (raw === null || out.length >= want) return;
+      for (let i = 0; i < records.length && out.length < want; i++) {
+        examined += 1;
+        position = entries[i];
+        const raw = records[i];
+        if (raw === null || raw === undefined) continue;
         const summary = summarize(JSON.parse(raw) as Incident);
         if (matchesFilter(summary, filter)) out.push({ position: entries[i]!, summary });
-      });
+      }
       if (entries.length < batch) break;
-      position = entries[entries.length - 1];
     }
-    return out;
+    return { listed: out, examined };
   }
 
   /** The component's incidents on record, the closed ones no longer in its state among them. */

@@ -8,5 +8,5 @@ export const TOKEN_VARIABLES: Readonly<Record<Role, string>> = {
 };
 
 export function accessTokensFromEnv(env: NodeJS.ProcessEnv): AccessTokens {
-  return new AccessTokens(Object.fromEntries(ROLES.map((role) => [role, (env[TOKEN_VARIABLES[role]] ?? '').split(',')])));
+  return new AccessTokens(Object.fromEntries(ROLES.map((role) => [role, (env[TOKEN_VARIABLES[role]] ?? '').split(',')])), TOKEN_VARIABLES);
 }

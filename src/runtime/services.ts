@@ -180,6 +180,7 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
       server = await buildServer({
         tokens,
         metricsPublic,
+        ...(config.http !== undefined && { limits: config.http }),
         logger,
         metrics,
         ping,

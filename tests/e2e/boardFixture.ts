@@ -41,6 +41,8 @@ export interface BoardFixture {
   readonly verdicts: { unit: string; component: string; sampleId: string; mark: SampleMark | null }[];
   /** Feeds a component's evaluated history to the incident store and publishes what changed, as the worker does. */
   feed(unit: string, component: string): Promise<number>;
+  /** Stores an invented component's samples (all of one unit and component) and feeds it. */
+  feedSamples(samples: readonly Sample[]): Promise<number>;
   /** The effects (messages to send) of every feed so far, as the worker's outbox holds them. */
   readonly effects: IncidentEffect[];
   /** The stored samples of a component, as the notify worker reads them for a message. */
@@ -56,14 +58,18 @@ const config = loadConfig(new URL('../../demo/config.yaml', import.meta.url).pat
  */
 export const SAMPLE_DOUBT = { unit: 'PS9-P1', component: 'gearbox', sampleId: 'PS9-P1-G-6' } as const;
 
-function sampleInDoubtHistory(): Sample[] {
+/**
+ * The history of SAMPLE_DOUBT; for another invented unit (`PS9-P1` → its sample ids follow) shifted by whole days,
+ * so that many such units open their incidents one after another.
+ */
+export function sampleInDoubtHistory(unit: string = SAMPLE_DOUBT.unit, shiftDays = 0): Sample[] {
   return [1, 2, 3, 4, 5, 6, 7].map((i) => {
     const readings = i === 6 ? { Fe: 1, Cu: '<1', Si: 4 } : { Fe: 8 + 6 * i, Cu: 2 + i, Si: 4 };
     const parsed = parseResultEvent({
-      sampleId: `PS9-P1-G-${i}`,
-      unit: SAMPLE_DOUBT.unit,
+      sampleId: `${unit}-G-${i}`,
+      unit,
       component: SAMPLE_DOUBT.component,
-      sampledAt: new Date(Date.UTC(2026, 0, 1 + i * 14, 8)).toISOString(),
+      sampledAt: new Date(Date.UTC(2026, 0, 1 + i * 14 + shiftDays, 8)).toISOString(),
       unitHours: 1000 + i * 250,
       oilHours: i * 250,
       readings,
@@ -174,6 +180,11 @@ export async function startBoardFixture(components: readonly [string, string][],
     store,
     verdicts,
     feed,
+    async feedSamples(list) {
+      const first = list[0]!;
+      samples.set(componentKey(first), [...list]);
+      return feed(first.unit, first.component);
+    },
     effects,
     samples: (unit, component) => samples.get(componentKey({ unit, component })) ?? [],
     async close() {

@@ -103,9 +103,9 @@ function step(sampleId: string): Step {
 }
 
 beforeAll(async () => {
-  tokenEnv.WEARSHIFT_TOKEN_INGEST = 'ingest-c';
-  tokenEnv.WEARSHIFT_TOKEN_RESPONDER = 'resp-c';
-  tokenEnv.WEARSHIFT_TOKEN_VIEWER = 'view-c';
+  tokenEnv.WEARSHIFT_TOKEN_INGEST = 'ingest-c-token-61d0e3';
+  tokenEnv.WEARSHIFT_TOKEN_RESPONDER = 'resp-c-token-a27f95';
+  tokenEnv.WEARSHIFT_TOKEN_VIEWER = 'view-c-token-4be813';
   redis = await startRedisServer();
   const connection = redis.client();
   incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix: '{contracts}' });
@@ -170,14 +170,14 @@ describe('real HTTP answers match the OpenAPI document', () => {
 
   it('POST /v1/results: 202 with outcomes, 422 when none is accepted, 401 without a token', async () => {
     const good = { sampleId: 'C-1', unit: 'PS2-P3', component: 'gearbox', sampledAt: new Date(NOW.getTime() - 86_400_000).toISOString(), readings: { Fe: 12, Si: '<1' } };
-    const r = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c'), body: JSON.stringify([good, { ...good, sampleId: 'C-2', readings: { Fe: -1 } }]) });
+    const r = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c-token-61d0e3'), body: JSON.stringify([good, { ...good, sampleId: 'C-2', readings: { Fe: -1 } }]) });
     expect(r.status).toBe(202);
     const body = (await r.json()) as { status: string }[];
     expect(body.map((o) => o.status)).toEqual(['accepted', 'rejected']);
     expectValid(responseSchema('/v1/results', 'post', 202), body, 'POST /v1/results 202');
     // The request itself is what the document says a result event is.
     expectValid(openapi.components.schemas.ResultEvent, good, 'the result event');
-    const none = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c'), body: JSON.stringify({ ...good, unit: '' }) });
+    const none = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c-token-61d0e3'), body: JSON.stringify({ ...good, unit: '' }) });
     expect(none.status).toBe(422);
     expectValid(responseSchema('/v1/results', 'post', 422), await none.json(), 'POST /v1/results 422');
     const anonymous = await fetch(`${base}/v1/results`, { method: 'POST', body: '{}', headers: { 'content-type': 'application/json' } });
@@ -188,7 +188,7 @@ describe('real HTTP answers match the OpenAPI document', () => {
   it('POST /v1/results under careless and hostile input: conflict, warnings, errors left out, too many records, too large', async () => {
     const good = { sampleId: 'C-50', unit: 'PS2-P3', component: 'gearbox', sampledAt: new Date(NOW.getTime() - 86_400_000).toISOString(), readings: { Fe: 12 } };
     // Two versions of one sampleId and revision in one request: the second is a conflict.
-    const twice = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c'), body: JSON.stringify([good, { ...good, readings: { Fe: 13 } }]) });
+    const twice = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c-token-61d0e3'), body: JSON.stringify([good, { ...good, readings: { Fe: 13 } }]) });
     const outcomes = (await twice.json()) as { status: string; conflict?: boolean }[];
     expect([twice.status, outcomes[1]?.conflict]).toEqual([202, true]);
     expectValid(responseSchema('/v1/results', 'post', 202), outcomes, 'POST /v1/results 202 with a conflict');
@@ -196,20 +196,20 @@ describe('real HTTP answers match the OpenAPI document', () => {
     // tests/abuse/intake-hardening.test.ts): the document describes it.
     expectValid(responseSchema('/v1/results', 'post', 409), [outcomes[1]], 'POST /v1/results 409');
     // A unit name in letters that look Latin (a Cyrillic Р): accepted with a warning.
-    const lookAlike = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c'), body: JSON.stringify({ ...good, sampleId: 'C-51', unit: '\u0420S2-P3' }) });
+    const lookAlike = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c-token-61d0e3'), body: JSON.stringify({ ...good, sampleId: 'C-51', unit: '\u0420S2-P3' }) });
     const warned = (await lookAlike.json()) as { warnings?: unknown[] }[];
     expect([lookAlike.status, warned[0]?.warnings?.length]).toEqual([202, 1]);
     expectValid(responseSchema('/v1/results', 'post', 202), warned, 'POST /v1/results 202 with a warning');
     // Beyond the first 100 rejected records, three problems are listed per record and the rest counted.
-    const empty = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c'), body: JSON.stringify(Array.from({ length: 120 }, () => ({}))) });
+    const empty = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c-token-61d0e3'), body: JSON.stringify(Array.from({ length: 120 }, () => ({}))) });
     const rejected = (await empty.json()) as { moreErrors?: number }[];
     expect([empty.status, rejected[119]!.moreErrors! > 0]).toEqual([422, true]);
     expectValid(responseSchema('/v1/results', 'post', 422), rejected, 'POST /v1/results 422 with errors left out');
-    const tooMany = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c'), body: JSON.stringify(Array.from({ length: 5001 }, () => ({}))) });
+    const tooMany = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c-token-61d0e3'), body: JSON.stringify(Array.from({ length: 5001 }, () => ({}))) });
     const tooManyBody = (await tooMany.json()) as { error: string; maxRecords: number };
     expect([tooMany.status, tooManyBody.error, tooManyBody.maxRecords]).toEqual([413, 'too-many-records', 5000]);
     expectValid(responseSchema('/v1/results', 'post', 413), tooManyBody, 'POST /v1/results 413 too-many-records');
-    const tooLarge = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c'), body: JSON.stringify([{ sampleId: 'x'.repeat(6 * 1024 * 1024) }]) });
+    const tooLarge = await fetch(`${base}/v1/results`, { method: 'POST', headers: auth('ingest-c-token-61d0e3'), body: JSON.stringify([{ sampleId: 'x'.repeat(6 * 1024 * 1024) }]) });
     const tooLargeBody = (await tooLarge.json()) as { maxBytes: number };
     expect([tooLarge.status, tooLargeBody.maxBytes]).toEqual([413, 5 * 1024 * 1024]);
     expectValid(responseSchema('/v1/results', 'post', 413), tooLargeBody, 'POST /v1/results 413 payload-too-large');
@@ -217,34 +217,34 @@ describe('real HTTP answers match the OpenAPI document', () => {
 
   it('incidents: list, show, acknowledge, a bad cursor, a bad body and an unknown id', async () => {
     await incidents.applySteps({ unit: 'PS2-P3', component: 'gearbox' }, [step('C-100')], { group: 'gearboxes', now: NOW, quietBefore: new Date(0) });
-    const list = await fetch(`${base}/v1/incidents`, { headers: auth('view-c') });
+    const list = await fetch(`${base}/v1/incidents`, { headers: auth('view-c-token-4be813') });
     expect(list.status).toBe(200);
     const listed = (await list.json()) as { incidents: { id: string }[] };
     expect(listed.incidents).toHaveLength(1);
     expectValid(responseSchema('/v1/incidents', 'get', 200), listed, 'GET /v1/incidents');
     expect(listed).toMatchObject({ next: null, total: 1 });
-    const paged = await fetch(`${base}/v1/incidents?limit=1&cursor=not-a-cursor`, { headers: auth('view-c') });
+    const paged = await fetch(`${base}/v1/incidents?limit=1&cursor=not-a-cursor`, { headers: auth('view-c-token-4be813') });
     expect(paged.status).toBe(400);
     expectValid(responseSchema('/v1/incidents', 'get', 400), await paged.json(), 'GET /v1/incidents 400 (cursor)');
     const id = encodeURIComponent(listed.incidents[0]!.id);
-    const show = await fetch(`${base}/v1/incidents/${id}`, { headers: auth('view-c') });
+    const show = await fetch(`${base}/v1/incidents/${id}`, { headers: auth('view-c-token-4be813') });
     expectValid(responseSchema('/v1/incidents/{id}', 'get', 200), await show.json(), 'GET /v1/incidents/{id}');
-    const ack = await fetch(`${base}/v1/incidents/${id}/ack`, { method: 'POST', headers: auth('resp-c'), body: JSON.stringify({ by: 'R. Tanaka', note: 'on it' }) });
+    const ack = await fetch(`${base}/v1/incidents/${id}/ack`, { method: 'POST', headers: auth('resp-c-token-a27f95'), body: JSON.stringify({ by: 'R. Tanaka', note: 'on it' }) });
     expect(ack.status).toBe(200);
     const acked = (await ack.json()) as { incident: { acknowledged: { by: string } } };
     expect(acked.incident.acknowledged.by).toBe('R. Tanaka');
     expectValid(responseSchema('/v1/incidents/{id}/ack', 'post', 200), acked, 'POST ack');
     expectValid(openapi.components.schemas.AckBody, { by: 'R. Tanaka', note: 'on it' }, 'the ack body');
-    const bad = await fetch(`${base}/v1/incidents/${id}/shelve`, { method: 'POST', headers: auth('resp-c'), body: JSON.stringify({ by: 'R. Tanaka' }) });
+    const bad = await fetch(`${base}/v1/incidents/${id}/shelve`, { method: 'POST', headers: auth('resp-c-token-a27f95'), body: JSON.stringify({ by: 'R. Tanaka' }) });
     expect(bad.status).toBe(400);
     expectValid(responseSchema('/v1/incidents/{id}/shelve', 'post', 400), await bad.json(), 'POST shelve 400');
-    const missing = await fetch(`${base}/v1/incidents/${encodeURIComponent('X/y@z')}`, { headers: auth('view-c') });
+    const missing = await fetch(`${base}/v1/incidents/${encodeURIComponent('X/y@z')}`, { headers: auth('view-c-token-4be813') });
     expect(missing.status).toBe(404);
     expectValid(responseSchema('/v1/incidents/{id}', 'get', 404), await missing.json(), 'GET 404');
   });
 
   it('session: the roles of a token, 401 without one', async () => {
-    const session = await fetch(`${base}/v1/session`, { headers: auth('resp-c') });
+    const session = await fetch(`${base}/v1/session`, { headers: auth('resp-c-token-a27f95') });
     expect(session.status).toBe(200);
     const body = (await session.json()) as { roles: string[] };
     expect(body.roles).toEqual(['responder']);
@@ -275,18 +275,18 @@ describe('real HTTP answers match the OpenAPI document', () => {
       const query = (p: string) => (openapi.paths[p].get.parameters as { name: string; in: string }[]).filter((x) => x.in === 'query').map((x) => x.name);
       const url = (p: string, q: string) => `${p.replace('{unit}', 'PS2-P3').replace('{component}', 'gearbox')}?${q}`;
       const [filter] = query(path);
-      const one = await series.inject({ method: 'GET', url: url(path, `${filter}=Si`), headers: { authorization: 'Bearer view-c' } });
+      const one = await series.inject({ method: 'GET', url: url(path, `${filter}=Si`), headers: { authorization: 'Bearer view-c-token-4be813' } });
       expect(one.statusCode).toBe(200);
       expectValid(responseSchema(path, 'get', 200), one.json(), 'GET series');
       // The documented parameter takes effect: only the measurand asked for comes back.
       expect(one.json().measurands.map((m: { measurand: string }) => m.measurand)).toEqual(['Si']);
-      const unknown = await series.inject({ method: 'GET', url: url(path, `${filter}=Xx`), headers: { authorization: 'Bearer view-c' } });
+      const unknown = await series.inject({ method: 'GET', url: url(path, `${filter}=Xx`), headers: { authorization: 'Bearer view-c-token-4be813' } });
       expect(unknown.statusCode).toBe(400);
       expectValid(responseSchema(path, 'get', 400), unknown.json(), 'GET series 400');
       for (const chart of ['/v1/units/{unit}/components/{component}/chart.svg', '/v1/units/{unit}/components/{component}/chart.png']) {
         const names = query(chart);
         expect(names).toContain('measurand');
-        const res = await series.inject({ method: 'GET', url: url(chart, 'measurand=Fe&width=640&title=none'), headers: { authorization: 'Bearer view-c' } });
+        const res = await series.inject({ method: 'GET', url: url(chart, 'measurand=Fe&width=640&title=none'), headers: { authorization: 'Bearer view-c-token-4be813' } });
         expect(res.statusCode).toBe(200);
         // Every parameter the route reads is documented.
         expect(names.sort()).toEqual(['measurand', 'title', 'width']);

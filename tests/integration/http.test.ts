@@ -30,7 +30,7 @@ const good = (n: number) => ({ sampleId: `H-${n}`, unit: 'LS7-Quarry Road', comp
 
 beforeAll(async () => {
   server = await startRedisServer();
-  tokenEnv.WEARSHIFT_TOKEN_INGEST = `unused-one, ${INGEST}`;
+  tokenEnv.WEARSHIFT_TOKEN_INGEST = `unused-one-token-4d2a, ${INGEST}`;
   tokenEnv.WEARSHIFT_TOKEN_VIEWER = VIEWER;
   pingRedis = connectRedis(server.url, 'request');
   producer = createResultProducer({ connection: server.url, prefix });

@@ -36,9 +36,9 @@ beforeAll(async () => {
     ],
   };
   await store.applySteps({ unit: 'PS2-P3', component: 'gearbox' }, [step], { group: 'gearboxes', now: NOW, quietBefore: new Date(0) });
-  tokenEnv.WEARSHIFT_TOKEN_VIEWER = 'view-1, view-2';
-  tokenEnv.WEARSHIFT_TOKEN_RESPONDER = 'resp-1';
-  tokenEnv.WEARSHIFT_TOKEN_INGEST = 'ingest-1';
+  tokenEnv.WEARSHIFT_TOKEN_VIEWER = 'view-1-token-9a4f2c, view-2-token-3e8b1d';
+  tokenEnv.WEARSHIFT_TOKEN_RESPONDER = 'resp-1-token-7c2d0e';
+  tokenEnv.WEARSHIFT_TOKEN_INGEST = 'ingest-1-token-5b9e4a';
   app = Fastify();
   await app.register(incidentRoutes, { tokens: accessTokensFromEnv(tokenEnv), store, now: () => NOW });
   await app.ready();
@@ -63,75 +63,75 @@ describe('incident routes', () => {
   });
 
   it('viewers read, and only responders act', async () => {
-    const list = await app.inject({ method: 'GET', url: '/v1/incidents', headers: auth('view-2') });
+    const list = await app.inject({ method: 'GET', url: '/v1/incidents', headers: auth('view-2-token-3e8b1d') });
     expect(list.statusCode).toBe(200);
     expect(list.json().incidents.map((i: { id: string }) => i.id)).toEqual([ID]);
-    expect((await app.inject({ method: 'GET', url: '/v1/incidents', headers: auth('ingest-1') })).statusCode).toBe(403);
-    const show = await app.inject({ method: 'GET', url: PATH, headers: auth('resp-1') });
+    expect((await app.inject({ method: 'GET', url: '/v1/incidents', headers: auth('ingest-1-token-5b9e4a') })).statusCode).toBe(403);
+    const show = await app.inject({ method: 'GET', url: PATH, headers: auth('resp-1-token-7c2d0e') });
     expect(show.statusCode).toBe(200);
     expect(show.json().incident.timeline[0]).toMatchObject({ kind: 'opened', sampleId: 'LAB-0100' });
     // The caution goes with the incidents, as in webhooks and `incidents --json`.
     expect(list.json().advisory).toBe(ADVISORY_CAUTION);
     expect(show.json().advisory).toBe(ADVISORY_CAUTION);
 
-    const denied = await app.inject({ method: 'POST', url: `${PATH}/ack`, headers: auth('view-1'), payload: { by: 'R. Tanaka' } });
+    const denied = await app.inject({ method: 'POST', url: `${PATH}/ack`, headers: auth('view-1-token-9a4f2c'), payload: { by: 'R. Tanaka' } });
     expect(denied.statusCode).toBe(403);
     expect(denied.json().message).toContain('responder');
   });
 
   it('400 names the field; 404 for an unknown incident', async () => {
-    const bad = await app.inject({ method: 'POST', url: `${PATH}/shelve`, headers: auth('resp-1'), payload: { by: 'R. Tanaka', reason: 'pump swap' } });
+    const bad = await app.inject({ method: 'POST', url: `${PATH}/shelve`, headers: auth('resp-1-token-7c2d0e'), payload: { by: 'R. Tanaka', reason: 'pump swap' } });
     expect(bad.statusCode).toBe(400);
     expect(bad.json().issues).toEqual([{ field: 'body.until', message: expect.any(String) }]);
-    const extra = await app.inject({ method: 'POST', url: `${PATH}/ack`, headers: auth('resp-1'), payload: { by: 'R. Tanaka', who: 'x' } });
+    const extra = await app.inject({ method: 'POST', url: `${PATH}/ack`, headers: auth('resp-1-token-7c2d0e'), payload: { by: 'R. Tanaka', who: 'x' } });
     expect(extra.statusCode).toBe(400);
     expect(extra.json().message).toContain('who');
-    const noBody = await app.inject({ method: 'POST', url: `${PATH}/resolve`, headers: auth('resp-1') });
+    const noBody = await app.inject({ method: 'POST', url: `${PATH}/resolve`, headers: auth('resp-1-token-7c2d0e') });
     expect(noBody.statusCode).toBe(400);
-    const query = await app.inject({ method: 'GET', url: '/v1/incidents?severity=high', headers: auth('view-1') });
+    const query = await app.inject({ method: 'GET', url: '/v1/incidents?severity=high', headers: auth('view-1-token-9a4f2c') });
     expect(query.statusCode).toBe(400);
     expect(query.json().message).toContain('query.severity');
     // The engine's own checks come back as 400 too: shelving beyond the limit.
-    const long = await app.inject({ method: 'POST', url: `${PATH}/shelve`, headers: auth('resp-1'), payload: { by: 'R. Tanaka', reason: 'x', until: '2026-05-30T00:00:00Z' } });
+    const long = await app.inject({ method: 'POST', url: `${PATH}/shelve`, headers: auth('resp-1-token-7c2d0e'), payload: { by: 'R. Tanaka', reason: 'x', until: '2026-05-30T00:00:00Z' } });
     expect(long.statusCode).toBe(400);
     expect(long.json().message).toContain('maxShelveHours');
 
     const unknown = encodeURIComponent('PS2-P3/gearbox@LAB-9999');
-    expect((await app.inject({ method: 'GET', url: `/v1/incidents/${unknown}`, headers: auth('view-1') })).statusCode).toBe(404);
-    expect((await app.inject({ method: 'POST', url: `/v1/incidents/${unknown}/ack`, headers: auth('resp-1'), payload: { by: 'x' } })).statusCode).toBe(404);
+    expect((await app.inject({ method: 'GET', url: `/v1/incidents/${unknown}`, headers: auth('view-1-token-9a4f2c') })).statusCode).toBe(404);
+    expect((await app.inject({ method: 'POST', url: `/v1/incidents/${unknown}/ack`, headers: auth('resp-1-token-7c2d0e'), payload: { by: 'x' } })).statusCode).toBe(404);
   });
 
   it('takes a repeated severity as the list; refuses any other parameter given twice, naming it', async () => {
     const ids = async (query: string) => {
-      const res = await app.inject({ method: 'GET', url: `/v1/incidents?${query}`, headers: auth('view-1') });
+      const res = await app.inject({ method: 'GET', url: `/v1/incidents?${query}`, headers: auth('view-1-token-9a4f2c') });
       expect(res.statusCode, query).toBe(200);
       return res.json().incidents.map((i: { id: string }) => i.id);
     };
     expect(await ids('severity=alarm&severity=watch')).toEqual([ID]);
     expect(await ids('severity=watch&severity=caution')).toEqual([]);
     expect(await ids('severity=watch,alarm')).toEqual([ID]);
-    const twice = await app.inject({ method: 'GET', url: '/v1/incidents?state=open&state=closed&limit=5', headers: auth('view-1') });
+    const twice = await app.inject({ method: 'GET', url: '/v1/incidents?state=open&state=closed&limit=5', headers: auth('view-1-token-9a4f2c') });
     expect(twice.statusCode).toBe(400);
     expect(twice.json()).toEqual({ error: 'invalid-request', message: 'query.state: given 2 times; it takes one value', issues: [{ field: 'query.state', message: 'given 2 times; it takes one value' }] });
-    const unknown = await app.inject({ method: 'GET', url: '/v1/incidents?severity=alarm&severity=high', headers: auth('view-1') });
+    const unknown = await app.inject({ method: 'GET', url: '/v1/incidents?severity=alarm&severity=high', headers: auth('view-1-token-9a4f2c') });
     expect(unknown.statusCode).toBe(400);
     expect(unknown.json().message).toMatch(/^query\.severity\.1: unknown severity "high"/);
   });
 
   it('acknowledges, shelves, resolves; acting on a closed incident is a 409', async () => {
-    const ack = await app.inject({ method: 'POST', url: `${PATH}/ack`, headers: auth('resp-1'), payload: { by: 'R. Tanaka', note: 'on my way' } });
+    const ack = await app.inject({ method: 'POST', url: `${PATH}/ack`, headers: auth('resp-1-token-7c2d0e'), payload: { by: 'R. Tanaka', note: 'on my way' } });
     expect(ack.statusCode).toBe(200);
     expect(ack.json().advisory).toBe(ADVISORY_CAUTION);
     // The token that acted is recorded beside the typed name: its role and the first bytes of its SHA-256.
-    const credential = `responder token ${createHash('sha256').update('resp-1').digest('hex').slice(0, 8)}`;
+    const credential = `responder token ${createHash('sha256').update('resp-1-token-7c2d0e').digest('hex').slice(0, 8)}`;
     expect(ack.json().incident.acknowledged).toEqual({ by: 'R. Tanaka', at: NOW.toISOString(), note: 'on my way', credential, severity: 'alarm', measurands: ['Fe'] });
-    const shelve = await app.inject({ method: 'POST', url: `${PATH}/shelve`, headers: auth('resp-1'), payload: { by: 'R. Tanaka', reason: 'oil change booked', until: '2026-04-03T10:00:00Z' } });
+    const shelve = await app.inject({ method: 'POST', url: `${PATH}/shelve`, headers: auth('resp-1-token-7c2d0e'), payload: { by: 'R. Tanaka', reason: 'oil change booked', until: '2026-04-03T10:00:00Z' } });
     expect(shelve.json().incident.shelved).toMatchObject({ until: '2026-04-03T10:00:00.000Z', reason: 'oil change booked' });
-    const resolve = await app.inject({ method: 'POST', url: `${PATH}/resolve`, headers: auth('resp-1'), payload: { by: 'R. Tanaka', note: 'bearing replaced' } });
+    const resolve = await app.inject({ method: 'POST', url: `${PATH}/resolve`, headers: auth('resp-1-token-7c2d0e'), payload: { by: 'R. Tanaka', note: 'bearing replaced' } });
     expect(resolve.json().incident.closed).toMatchObject({ how: 'resolved', note: 'bearing replaced' });
-    const again = await app.inject({ method: 'POST', url: `${PATH}/ack`, headers: auth('resp-1'), payload: { by: 'R. Tanaka' } });
+    const again = await app.inject({ method: 'POST', url: `${PATH}/ack`, headers: auth('resp-1-token-7c2d0e'), payload: { by: 'R. Tanaka' } });
     expect(again.statusCode).toBe(409);
-    const closed = await app.inject({ method: 'GET', url: '/v1/incidents?state=closed', headers: auth('view-1') });
+    const closed = await app.inject({ method: 'GET', url: '/v1/incidents?state=closed', headers: auth('view-1-token-9a4f2c') });
     expect(closed.json().incidents.map((i: { id: string }) => i.id)).toEqual([ID]);
   });
 
@@ -140,10 +140,10 @@ describe('incident routes', () => {
     await live.register(incidentRoutes, { tokens: accessTokensFromEnv(tokenEnv), store });
     const address = await live.listen({ port: 0, host: '127.0.0.1' });
     try {
-      const r = await fetch(`${address}${PATH}`, { headers: auth('view-1') });
+      const r = await fetch(`${address}${PATH}`, { headers: auth('view-1-token-9a4f2c') });
       expect(r.status).toBe(200);
       expect(((await r.json()) as { incident: { id: string } }).incident.id).toBe(ID);
-      const post = await fetch(`${address}${PATH}/note`, { method: 'POST', headers: { ...auth('resp-1'), 'content-type': 'application/json' }, body: JSON.stringify({ by: 'R. Tanaka', note: 'lab confirmed' }) });
+      const post = await fetch(`${address}${PATH}/note`, { method: 'POST', headers: { ...auth('resp-1-token-7c2d0e'), 'content-type': 'application/json' }, body: JSON.stringify({ by: 'R. Tanaka', note: 'lab confirmed' }) });
       expect(post.status).toBe(200);
       const unauthorised = await fetch(`${address}/v1/incidents`);
       expect(unauthorised.status).toBe(401);

@@ -14,7 +14,7 @@ import { openAlarmIncident, requestWithIncidents, serverOptions } from '../helpe
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const prefix = '{hung}';
-const TOKENS = { ingest: 'ingest-hung-4c1e', responder: 'resp-hung-8d20', viewer: 'view-hung-3f7b' };
+const TOKENS = { ingest: 'ingest-hung-4c1e', responder: 'resp-hung-8d20a1b7', viewer: 'view-hung-3f7b92c4' };
 const NOW = new Date();
 const ID = 'PS9-P1/gearbox@LAB-9001';
 /** Far above the command timeout, far below "no answer at all": a busy machine, never the speed of this one. */
