@@ -122,9 +122,11 @@ describe('a flood of results for one component', () => {
     const unit = FLOOD_UNIT;
     const events = inventedFleet({ units: 1, samplesPerUnit: FLOOD, seed: 3 });
     expect(new Set(events.map((e) => e.sampleId)).size).toBe(FLOOD);
-    // The simulated dates run for decades; the flood is a backfill, all of it in the past.
-    const shift = Date.parse(events.at(-1)!.sampledAt) - (Date.now() - 86_400_000);
-    const flood = events.map((e) => ({ ...e, sampledAt: new Date(Date.parse(e.sampledAt) - shift).toISOString() }));
+    // The simulated dates run for 57 years; the flood is a backfill, all of it in the past and, at half the spacing,
+    // after 1970 (earlier sampling times are refused as slips in the year).
+    const last = Date.parse(events.at(-1)!.sampledAt);
+    const end = Date.now() - 86_400_000;
+    const flood = events.map((e) => ({ ...e, sampledAt: new Date(end - (last - Date.parse(e.sampledAt)) / 2).toISOString() }));
 
     const started = Date.now();
     const res = await fetch(`${base}/v1/results`, { method: 'POST', headers: { authorization: `Bearer ${INGEST}`, 'content-type': 'application/json' }, body: JSON.stringify(flood) });
