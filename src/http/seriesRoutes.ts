@@ -53,10 +53,27 @@ export const seriesRoutes: FastifyPluginAsync<SeriesRoutesOptions> = async (app,
   const pool = options.pool ?? new ChartPool();
   if (options.pool === undefined) app.addHook('onClose', async () => pool.close());
 
+  /** Requests reading their history from Redis, not yet handed to the pool. */
+  let loading = 0;
+
   /** Loads the input and runs the job on the pool; answers 404 or 503 itself and then returns undefined. */
   async function compute(request: FastifyRequest<{ Params: Params }>, reply: FastifyReply, job: (input: ComponentInput) => ChartJob): Promise<ChartJobResult | undefined> {
     const { unit, component } = request.params;
-    const input = await options.loadInput(unit, component);
+    // Refused before its history is read when the pool could not take it anyway: a flood of chart requests for long
+    // histories would otherwise read them all from Redis at once, only to be refused as busy afterwards.
+    const { running, waiting } = pool.load;
+    if (loading + running + waiting >= pool.concurrency + pool.queueLimit) {
+      const message = `${running} charts are being drawn, ${waiting} are waiting and ${loading} are being read, the most this process takes; ask again shortly`;
+      await reply.code(503).header('retry-after', '2').send({ error: 'unavailable', message });
+      return undefined;
+    }
+    loading++;
+    let input: ComponentInput | undefined;
+    try {
+      input = await options.loadInput(unit, component);
+    } finally {
+      loading--;
+    }
     if (input === undefined) {
       await reply.code(404).send({ error: 'not-found', message: `no component "${component}" of unit "${unit}" is known` });
       return undefined;
