@@ -55,6 +55,17 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
   const maxClients = options.maxClients ?? DEFAULT_HTTP_LIMITS.maxEventClients;
   const maxPerToken = options.maxClientsPerToken ?? DEFAULT_HTTP_LIMITS.maxEventClientsPerToken;
   const maxPerAddress = options.maxClientsPerAddress ?? DEFAULT_HTTP_LIMITS.maxEventClientsPerAddress;
+  // The hub hands one event to every stream in turn: it is written out once, not once per stream (500 boards and a
+  // batch of a thousand results were half a million encodings).
+  let lastId = -1;
+  let lastChunk = '';
+  const chunkOf = (event: LiveEvent, id: number): string => {
+    if (id !== lastId) {
+      lastId = id;
+      lastChunk = `id: ${id}\nevent: ${event.type}\ndata: ${JSON.stringify(streamed(event))}\n\n`;
+    }
+    return lastChunk;
+  };
   const open = new Set<ServerResponse>();
   // Open streams by token digest and by remote address; an entry leaves when its count falls to 0, so both maps stay
   // within the number of open streams.
@@ -119,7 +130,7 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
         }
         res.write(chunk);
       };
-      const unsubscribe = options.hub.subscribe((event, id) => send(`id: ${id}\nevent: ${event.type}\ndata: ${JSON.stringify(streamed(event))}\n\n`));
+      const unsubscribe = options.hub.subscribe((event, id) => send(chunkOf(event, id)));
       const heartbeat = setInterval(() => send(': keep-alive\n\n'), heartbeatMs);
       heartbeat.unref();
       res.on('close', () => {
