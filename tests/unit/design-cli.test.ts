@@ -269,6 +269,6 @@ describe('wearshift design ewma', () => {
     const code = await main(['design', 'ewma', '--lambda', '1.5', '--L', '3']);
     vi.restoreAllMocks();
     expect(code).toBe(2);
-    expect(errors.join('')).toBe('wearshift: EWMA smoothing constant lambda must be in (0, 1], got 1.5\n');
+    expect(errors.join('')).toBe('wearshift: --lambda must be from 0.01 to 1 (the range of the published EWMA design tables), got 1.5\n');
   });
 });
