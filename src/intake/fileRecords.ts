@@ -21,11 +21,31 @@ export type SourceRecord =
   | { readonly line: number; readonly record: unknown }
   | { readonly line: number; readonly issues: readonly FieldIssue[]; readonly sampleId?: string };
 
+/** Where a person reads how a lab's own export is mapped, named in every message that sends them there. */
+export const LAB_FILES_SECTION = 'README, "Lab files as they come" and "Lab mapping reference"';
+
+/** Workbook file names: read only through a lab mapping, which reads .xlsx. */
+const SPREADSHEETS = new Set(['xlsx', 'xlsm', 'xls', 'ods']);
+
+/**
+ * The format of a plain result file (event field names as columns, or one JSON event per line): `--format` when
+ * given, else the file name's ending. A spreadsheet is refused with the way it can be read (a lab mapping), and an
+ * unknown `--format` with the formats accepted.
+ */
 export function formatOf(path: string, explicit?: string): FileFormat {
   const f = (explicit ?? path.split('.').pop() ?? '').toLowerCase();
   if (f === 'csv') return 'csv';
   if (f === 'jsonl' || f === 'ndjson') return 'jsonl';
-  throw new InputError(`${path}: cannot tell the format from the name; use --format csv or --format jsonl`);
+  if (SPREADSHEETS.has(f)) {
+    const convert = f === 'xlsx' ? '' : ' (saved as .xlsx or CSV first)';
+    throw new InputError(
+      `${path}: a lab's spreadsheet export needs a column mapping that says which column is what: wearshift import --map <mapping.yaml> ${path}${convert}; see ${LAB_FILES_SECTION}`,
+    );
+  }
+  if (explicit !== undefined) {
+    throw new InputError(`--format "${explicit}": unknown format; accepted: csv, jsonl (or ndjson); a lab's own CSV or .xlsx export is read with wearshift import --map <mapping.yaml> (${LAB_FILES_SECTION})`);
+  }
+  throw new InputError(`${path}: cannot tell the format from the name; use --format csv or --format jsonl, or wearshift import --map <mapping.yaml> for a lab's own export (${LAB_FILES_SECTION})`);
 }
 
 export function readRecordFile(path: string, format: FileFormat): { records: AsyncIterable<SourceRecord>; stream: ReadStream } {
@@ -134,7 +154,9 @@ export async function* csvRecords(input: Readable): AsyncIterable<SourceRecord> 
   let header: string[] | undefined;
   for await (const item of parsedRows(input)) {
     if ('error' in item) {
-      yield { line: item.line, issues: [{ path: '', reason: `CSV syntax error, reading stopped here: ${item.error}` }] };
+      // A quoted ";"-separated header ("Probe";"Fe") fails the parser at its first ";" before it is a header.
+      const semicolon = header === undefined && /\bgot ";"/.test(item.error) ? `; ${SEMICOLON_ADVICE}` : '';
+      yield { line: item.line, issues: [{ path: '', reason: `CSV syntax error, reading stopped here: ${item.error}${semicolon}` }] };
       return;
     }
     const { record, line } = item;
@@ -152,6 +174,11 @@ export async function* csvRecords(input: Readable): AsyncIterable<SourceRecord> 
         yield { line, issues: [{ path: '', reason: `columns "${first}" and "${record[again]}" are both ${targets[again]}; nothing was read` }] };
         return;
       }
+      const unknown = headerWithoutFields(record);
+      if (unknown !== undefined) {
+        yield { line, issues: [{ path: '', reason: `${unknown}; nothing was read` }] };
+        return;
+      }
       header = record;
       continue;
     }
@@ -164,6 +191,26 @@ export async function* csvRecords(input: Readable): AsyncIterable<SourceRecord> 
     }
     yield { line, record: csvEvent(header, record) };
   }
+}
+
+/**
+ * Why a header names no event field, or undefined when it names one. A lab's own export read as a plain CSV gives
+ * every line a reason of its own (no sampleId, a reading named "Datum;Probe;Fe"); this says once what the file looks
+ * like and how it can be read instead: a `;`-separated file (the usual export where numbers have decimal commas) by a
+ * mapping with `delimiter` and `decimal`, any other by a mapping naming its columns.
+ */
+const SEMICOLON_ADVICE =
+  'the file looks ";"-separated, as lab exports with decimal commas are; a plain import reads ","-separated CSV with the event field names ' +
+  `(sampleId, unit, component, sampledAt, ...) as columns. Read the lab's export through a mapping: wearshift import --map <mapping.yaml> with delimiter: ";" ` +
+  `(and decimal: "," when numbers are written 12,5) and its columns named (${LAB_FILES_SECTION})`;
+
+function headerWithoutFields(header: readonly string[]): string | undefined {
+  if (header.some((name) => TEXT_FIELDS.has(name) || NUMERIC_FIELDS.has(name) || BOOLEAN_FIELDS.has(name))) return undefined;
+  if (header.length === 1 && header[0]!.includes(';')) return `the header holds ";" and no ",": ${SEMICOLON_ADVICE}`;
+  return (
+    `no column is an event field (sampleId, unit, component, sampledAt, ...; readings are the other columns): a lab's own export is read ` +
+    `through a mapping that names its columns: wearshift import --map <mapping.yaml>, with delimiter and decimal for a file separated by another character than "," (${LAB_FILES_SECTION})`
+  );
 }
 
 export type ParsedRow = { record: string[]; line: number } | { error: string; line: number };

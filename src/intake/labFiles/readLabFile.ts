@@ -18,7 +18,13 @@ export interface LabFileOptions {
 
 export function readLabFile(path: string, mapping: LabMapping, options: LabFileOptions): { records: AsyncIterable<LabRecord>; stream: ReadStream } {
   const kind = labFileKind(path, options.format);
-  if (kind === undefined) throw new InputError(`${path}: cannot tell the format from the name; use --format csv or --format xlsx`);
+  if (kind === undefined) {
+    throw new InputError(
+      options.format === undefined
+        ? `${path}: cannot tell the format from the name; use --format csv or --format xlsx`
+        : `--format "${options.format}": unknown format for a lab file read with --map; accepted: csv (or txt), xlsx`,
+    );
+  }
   const reader = new LabRecordReader(mapping, { validate: options.validate });
   const stream = createReadStream(path);
   const rows = kind === 'csv' ? csvRows(stream, mapping.delimiter) : xlsxRows(stream, mapping.sheet);
