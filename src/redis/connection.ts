@@ -5,6 +5,7 @@
  * that keeps the socket open but does not answer (a stopped or wedged process) fails each command after
  * `REQUEST_COMMAND_TIMEOUT_MS` instead of holding the request for ever.
  */
+import { createConnection } from 'node:net';
 import { Cluster, Redis, type ClusterOptions, type RedisOptions } from 'ioredis';
 import { InputError } from '../domain/errors.ts';
 import { maskUrl, type Logger } from '../telemetry/logger.ts';
@@ -113,9 +114,52 @@ async function within<T>(connecting: Promise<T>, ms: number): Promise<T> {
   }
 }
 
+/** What a person can do when a command finds no Redis: where the address comes from, and how to start one. */
+export const REDIS_HINT =
+  'give the address of a running Redis in REDIS_URL (redis://host:6379) or redis.url, or the nodes of a Redis Cluster in REDIS_CLUSTER_NODES (host:port,…), or start one here with `redis-server`';
+
+/** A socket or DNS error as Node gives it: its code and the address it was trying. */
+interface SystemError extends Error {
+  readonly code?: string;
+  readonly address?: string;
+  readonly port?: number;
+  /** A cluster's "all nodes failed" error: the last node's own error. */
+  readonly lastNodeError?: Error;
+}
+
+/**
+ * Why the connection failed, with the code and address: ioredis rejects `connect()` with "Connection is closed." once
+ * its retry strategy gives up, and the cause (ECONNREFUSED, ENOTFOUND, ETIMEDOUT, a refused password) only comes as an
+ * error event before it.
+ */
+export function connectFailure(rejection: Error, cause: SystemError | undefined): string {
+  const e = cause?.lastNodeError ?? cause;
+  if (e === undefined) return rejection.message;
+  const s = e as SystemError;
+  const code = s.code !== undefined && !e.message.includes(s.code) ? ` (${s.code})` : '';
+  const where = s.address !== undefined && !e.message.includes(s.address) ? ` at ${s.address}${s.port !== undefined ? `:${s.port}` : ''}` : '';
+  return `${e.message}${code}${where}`;
+}
+
+/** The error of one plain TCP connection to `host:port`, or undefined when it opens (then the cause lies beyond the socket). */
+function socketRefusal(host: string, port: number): Promise<SystemError | undefined> {
+  return new Promise((resolve) => {
+    const socket = createConnection({ host, port });
+    socket.setTimeout(3000, () => socket.destroy(Object.assign(new Error(`connect ETIMEDOUT ${host}:${port}`), { code: 'ETIMEDOUT' })));
+    socket.once('connect', () => {
+      socket.destroy();
+      resolve(undefined);
+    });
+    socket.once('error', (e: SystemError) => resolve(e));
+  });
+}
+
 /** A connection for a command line: it fails at once when Redis is away instead of retrying for ever. */
 export async function connectForCommand(target: string | RedisTarget): Promise<RedisConnection> {
   const t: RedisTarget = typeof target === 'string' ? { kind: 'single', url: target } : target;
+  // The first error event: the cause of the failure, not the "Connection is closed." that follows it.
+  let cause: SystemError | undefined;
+  const keep = (e: SystemError) => (cause ??= e);
   if (t.kind === 'cluster') {
     const cluster = new Cluster([...t.nodes], {
       lazyConnect: true,
@@ -128,17 +172,20 @@ export async function connectForCommand(target: string | RedisTarget): Promise<R
       await within(cluster.connect(), COMMAND_LINE_READY_TIMEOUT_MS);
     } catch (e) {
       cluster.disconnect();
-      throw new InputError(`cannot reach the Redis Cluster at ${describeTarget(t)} (REDIS_CLUSTER_NODES or redis.cluster.nodes): ${(e as Error).message}`);
+      // A cluster's node errors arrive only as "Connection is closed.": the first node is tried once more for the cause.
+      const first = t.nodes[0];
+      const refused = first === undefined ? undefined : await socketRefusal(first.host, first.port);
+      throw new InputError(`cannot reach the Redis Cluster at ${describeTarget(t)} (REDIS_CLUSTER_NODES or redis.cluster.nodes): ${connectFailure(e as Error, refused)}; ${REDIS_HINT}`);
     }
     return cluster;
   }
   const redis = new Redis(t.url, { lazyConnect: true, maxRetriesPerRequest: 1, connectTimeout: 3000, commandTimeout: COMMAND_LINE_COMMAND_TIMEOUT_MS, retryStrategy: () => null });
-  redis.on('error', () => {});
+  redis.on('error', keep);
   try {
     await within(redis.connect(), COMMAND_LINE_READY_TIMEOUT_MS);
   } catch (e) {
     redis.disconnect();
-    throw new InputError(`cannot reach Redis at ${maskUrl(t.url)} (REDIS_URL or redis.url): ${(e as Error).message}`);
+    throw new InputError(`cannot reach Redis at ${maskUrl(t.url)} (REDIS_URL or redis.url): ${connectFailure(e as Error, cause)}; ${REDIS_HINT}`);
   }
   const refusal = await databaseRefusal(redis, t);
   if (refusal !== undefined) {
