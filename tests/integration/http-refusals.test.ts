@@ -1,9 +1,10 @@
 /**
  * How the whole API (buildServer over a real port, a private redis-server behind it) refuses what it cannot take:
- * a request without a usable token is refused before its body is read, whatever the body holds; a name with control
- * characters is refused naming the field; what the framework refuses before any route (a body that is not JSON,
- * empty or too large, a content type no route takes, an over-long or badly encoded path, a path no route serves)
- * comes in the documented Error shape, validated with Ajv against the published schemas/openapi.json.
+ * a request without a usable token, or to an acknowledgement link the server did not sign, is refused before its body
+ * is read, whatever the body holds; a name with control characters is refused naming the field; what the framework
+ * refuses before any route (a body that is not JSON, empty or too large, a content type no route takes, an over-long
+ * or badly encoded path, a path no route serves) comes in the documented Error shape, validated with Ajv against the
+ * published schemas/openapi.json.
  */
 import { readFileSync } from 'node:fs';
 import { connect } from 'node:net';
@@ -15,12 +16,14 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createEventHub } from '../../src/http/eventHub.ts';
 import { buildServer, type WearshiftServer } from '../../src/http/server.ts';
 import { openApiDocument } from '../../src/contracts/openapi.ts';
+import { signAckLink } from '../../src/notify/ackLink.ts';
 import { createResultProducer, type ResultProducer } from '../../src/queue/producer.ts';
 import type { RedisConnection } from '../../src/redis/connection.ts';
 import { openAlarmIncident, requestWithIncidents, serverOptions } from '../helpers/apiParts.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const prefix = '{refusals}';
+const ACK_SECRET = 'ack-secret-refusals-62f1c0a9d4';
 const TOKENS = { ingest: 'ingest-refusals-0b4e', responder: 'resp-refusals-71c9', viewer: 'view-refusals-5a3d' };
 const BODY_LIMIT = 64 * 1024;
 const NOW = new Date();
@@ -33,6 +36,8 @@ const POSTS = [
   `${COMPONENT}/samples/LAB-4001/verdict`,
   '/v1/results',
 ];
+/** A link this server signed, to the incident above. */
+const ACK_LINK = signAckLink({ incidentId: ID, recipient: 'oncall@plant.example', expiresAt: new Date(NOW.getTime() + 86_400_000) }, ACK_SECRET);
 /** Generous: a busy two-core machine. A refused request is answered at once, long before this. */
 const ANSWER_WITHIN_MS = 30_000;
 
@@ -58,7 +63,7 @@ beforeAll(async () => {
   app = await buildServer({
     ...parts.options,
     hub: createEventHub(),
-    ackLinkSecrets: ['ack-secret-refusals-62f1c0a9d4'],
+    ackLinkSecrets: [ACK_SECRET],
     openApi: openApiDocument(),
     bodyLimitBytes: BODY_LIMIT,
     // A request whose body never comes is cut off well before the test's bound, so a late check shows as a failure.
@@ -139,6 +144,61 @@ describe('a request without a usable token', () => {
     }
     const note = await fetch(`${base}${INCIDENT}/note`, { method: 'POST', headers: { ...auth('responder'), 'content-type': 'application/json' }, body: JSON.stringify({ by: 'R. Tanaka', note: 'checked the breather' }) });
     expect(note.status).toBe(200);
+  });
+});
+
+/**
+ * Sends a request head and `bodyStart` over a raw socket, never the rest of the declared body; resolves with all the
+ * server sent once it ends the socket, or with what happened instead.
+ */
+function untilServerCloses(path: string, headers: Record<string, string>, declaredLength: number, bodyStart: string): Promise<string> {
+  return new Promise((resolve) => {
+    const socket = connect({ host: '127.0.0.1', port });
+    let text = '';
+    const done = (what: string) => {
+      clearTimeout(timer);
+      socket.destroy();
+      resolve(what);
+    };
+    const timer = setTimeout(() => done(`not closed within ${ANSWER_WITHIN_MS} ms after ${JSON.stringify(text.slice(0, 40))}`), ANSWER_WITHIN_MS);
+    socket.on('error', (e) => done(`socket error ${e.message} after ${JSON.stringify(text.slice(0, 40))}`));
+    socket.on('data', (d) => (text += d.toString('latin1')));
+    socket.on('end', () => done(text));
+    const head = Object.entries({ host: '127.0.0.1', 'content-length': String(declaredLength), ...headers }).map(([k, v]) => `${k}: ${v}\r\n`);
+    socket.write(`POST ${path} HTTP/1.1\r\n${head.join('')}\r\n${bodyStart}`);
+  });
+}
+
+describe('the acknowledgement form of an e-mail link', () => {
+  const form = { 'content-type': 'application/x-www-form-urlencoded' };
+  const forged = signAckLink({ incidentId: ID, recipient: 'oncall@plant.example', expiresAt: new Date(NOW.getTime() + 86_400_000) }, 'not-the-servers-secret-4e1b');
+  const expired = signAckLink({ incidentId: ID, recipient: 'oncall@plant.example', expiresAt: new Date(NOW.getTime() - 60_000) }, ACK_SECRET);
+
+  it('is refused before its body is read when the link is unknown, malformed or expired: answered and closed while the body never comes', async () => {
+    for (const [token, status] of [
+      ['any-token', '403 Forbidden'],
+      [forged, '403 Forbidden'],
+      [`${ACK_LINK.slice(0, 30)}`, '403 Forbidden'],
+      [expired, '410 Gone'],
+    ] as const) {
+      // Within the form's limit and far over it: the same refusal page, not a wait for the body (408) nor 413.
+      for (const declared of [4000, 6_000_000]) {
+        const what = `${token.slice(0, 12)}… declaring ${declared} bytes`;
+        const answer = await untilServerCloses(`/ack/${token}`, form, declared, 'name=R.');
+        expect(answer.slice(0, answer.indexOf('\r\n')), what).toBe(`HTTP/1.1 ${status}`);
+        expect(answer, what).toMatch(/\r\nconnection: close\r\n/i);
+        expect(answer, what).toMatch(/\r\ncontent-type: text\/html/i);
+      }
+    }
+  });
+
+  it('of a valid link is read: declared over the limit it gets 413, sent whole within it the page answers the form', async () => {
+    // Over the limit by its declared length: refused at once (the payload-too-large case above shows the answer).
+    expect(await headOnly(`/ack/${ACK_LINK}`, form, 6_000_000, 'name=')).toBe('HTTP/1.1 413 Payload Too Large');
+    // Within it and sent whole: the form is read and the page answers it (no name given: asked again, nothing recorded).
+    const page = await fetch(`${base}/ack/${ACK_LINK}`, { method: 'POST', headers: form, body: 'note=' });
+    expect(page.status).toBe(400);
+    expect(await page.text()).toContain('Please give your name');
   });
 });
 
@@ -248,8 +308,8 @@ describe('what the framework refuses before any route', () => {
       [`${COMPONENT}/samples/LAB-4001/verdict`, json, BODY_LIMIT, VERDICT_ROUTE],
       ['/v1/results', { ...auth('ingest'), 'content-type': 'application/json' }, BODY_LIMIT, '/v1/results'],
       ['/v1/results', { ...auth('ingest'), 'content-type': 'application/x-ndjson' }, BODY_LIMIT, '/v1/results'],
-      // The acknowledgement form of an e-mail link takes a name and a note, no more (a page, not in the API document).
-      ['/ack/any-token', { 'content-type': 'application/x-www-form-urlencoded' }, 8192, undefined],
+      // The acknowledgement form of a valid e-mail link takes a name and a note, no more (a page, not in the API document).
+      [`/ack/${ACK_LINK}`, { 'content-type': 'application/x-www-form-urlencoded' }, 8192, undefined],
     ] as const) {
       const answer = await rawRequest('POST', path, headers, '{', 6_000_000);
       expect(`${path} ${answer.status}`).toBe(`${path} 413`);
