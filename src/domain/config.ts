@@ -12,6 +12,7 @@ import { OpcuaConfigSchema } from './opcuaConfig.ts';
 import { DEFAULT_FORECAST, ForecastSchema } from './forecastConfig.ts';
 import { budgetIssue, DESIGNABLE_EWMA_LAMBDA, DESIGNABLE_RUN_LENGTH } from './configBudget.ts';
 import { resolveSettings } from './settings.ts';
+import { addressRangeProblem } from './addressRange.ts';
 
 const measurandName = z.enum(MEASURAND_NAMES as [Measurand, ...Measurand[]], { error: (i) => `unknown measurand "${String(i.input)}"` });
 const positive = z.number().finite().positive();
@@ -251,23 +252,31 @@ export const ConfigSchema = z
           .int()
           .min(1)
           .optional()
-          .describe('Most open sockets of the HTTP API from one remote address; a further connection from it is closed at once. Default 64. Behind a reverse proxy every client has the proxy\'s address: raise it to what the proxy holds open.'),
+          .describe('Most open sockets of the HTTP API from one socket peer; a further connection from it is closed at once. Default 64. Behind a reverse proxy every socket comes from the proxy (trustedProxies does not change that): raise it to what the proxy holds open.'),
         maxEventClientsPerAddress: z
           .number()
           .int()
           .min(1)
           .optional()
-          .describe('Most live-event streams (GET /v1/events) from one remote address; a further one gets 429. Default 16. Behind a reverse proxy, raise it to the boards it serves (at most the 500 a process serves).'),
+          .describe('Most live-event streams (GET /v1/events) from one client address; a further one gets 429. Default 16. Behind a reverse proxy not listed in trustedProxies, raise it to the boards it serves (at most the 500 a process serves).'),
         maxFailedAuthPerAddress: z
           .number()
           .int()
           .min(1)
           .optional()
-          .describe('Unknown tokens one remote address may present in a minute; beyond it every request with a token from it gets 429 until the minute ends. Default 20. Behind a reverse proxy one client guessing locks out every client of the proxy: raise it, and slow guessing at the proxy.'),
+          .describe('Unknown tokens one client address may present in a minute; beyond it every request with a token from it gets 429 until the minute ends. Default 20. Behind a reverse proxy not listed in trustedProxies every client has the proxy\'s address, and one client guessing locks out all of them: list the proxy there.'),
+        trustedProxies: z
+          .array(z.string().superRefine((range, ctx) => {
+            const problem = addressRangeProblem(range);
+            if (problem !== undefined) ctx.addIssue({ code: 'custom', message: problem });
+          }))
+          .max(256)
+          .optional()
+          .describe('Reverse proxies (IP addresses or CIDR ranges, such as 10.0.0.7 or 10.0.0.0/8) whose X-Forwarded-For header is believed. A request from one of them counts, for maxFailedAuthPerAddress and maxEventClientsPerAddress, under the right-most address of X-Forwarded-For that is not itself a listed proxy; the proxy must append the address of its own peer to the header. From any other peer the header is ignored. maxConnectionsPerAddress still counts the proxy\'s own sockets: raise it to what the proxy holds open. At most 256 entries. Default none: X-Forwarded-For is ignored.'),
       })
       .strict()
       .optional()
-      .describe('Per-address bounds of the HTTP API (`wearshift serve`, `wearshift api`); see the README, "Limits under load".'),
+      .describe('Per-address bounds of the HTTP API (`wearshift serve`, `wearshift api`) and the reverse proxies it believes; see the README, "Limits under load".'),
     display: z
       .object({
         timeZone: z

@@ -1,16 +1,24 @@
 /**
  * Bounds per remote address: open sockets (so one address sending headers slowly and reconnecting cannot hold every
- * socket of the process) and failed authentications (so tokens cannot be guessed at full speed). Both key on the
- * socket's peer address: behind a reverse proxy every client shares the proxy's address, and the limits apply to the
- * proxy as a whole (README, "Limits under load").
+ * socket of the process) and failed authentications (so tokens cannot be guessed at full speed). Sockets are counted
+ * per socket peer, before any request is read. Requests are counted per client address: the socket's peer, or, when
+ * that peer is one of the configured trusted proxies (`limits.trustedProxies`, the framework's trustProxy), the
+ * right-most hop of X-Forwarded-For that is not a trusted proxy. Without trusted proxies every client behind a reverse
+ * proxy shares its address, and the limits apply to the proxy as a whole (README, "Limits under load").
  */
 import type { Server } from 'node:http';
-import type { Socket } from 'node:net';
+import { isIP, type Socket } from 'node:net';
 import type { FastifyRequest } from 'fastify';
 
-/** The peer address of a socket or request ("" when the socket has already gone). */
+/**
+ * The client address of a request: its socket's peer, or the one a trusted proxy forwarded for ("" when the socket has
+ * already gone). A forwarded hop that is not an IP address (a proxy's "unknown", or text passed on unchecked) counts as
+ * the socket's peer, so the per-address maps never key on arbitrary text.
+ */
 export function addressOf(request: FastifyRequest): string {
-  return request.socket.remoteAddress ?? '';
+  const peer = request.socket.remoteAddress ?? '';
+  const client = request.ip;
+  return client !== undefined && client !== peer && isIP(client) !== 0 ? client : peer;
 }
 
 /** Whether a request presents a token: a bearer header, or the live-event stream's cookie. */

@@ -14,6 +14,7 @@
 import type { FastifyPluginAsync, onRequestAsyncHookHandler } from 'fastify';
 import type { ServerResponse } from 'node:http';
 import { ADVISORY_CAUTION } from '../domain/caution.ts';
+import { addressOf } from './addressLimits.ts';
 import { requireRole, tokenDigestOf, type AccessTokens } from './auth.ts';
 import type { EventHub, LiveEvent } from './eventHub.ts';
 import { DEFAULT_HTTP_LIMITS } from './limits.ts';
@@ -36,7 +37,8 @@ export interface EventRoutesOptions {
   /** Most open streams; a further client gets 503 with Retry-After. Default 500. */
   maxClients?: number;
   /**
-   * Most open streams of one token (by its digest) and of one remote address: a further one gets 429 with Retry-After
+   * Most open streams of one token (by its digest) and of one client address (addressLimits.ts: the socket's peer, or
+   * the client a trusted proxy forwarded for): a further one gets 429 with Retry-After
    * and a message naming the bound; the streams already open are kept (a board that reconnects gets its stream back
    * once its old one has closed). Defaults 8 and 16.
    */
@@ -67,7 +69,7 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
     return lastChunk;
   };
   const open = new Set<ServerResponse>();
-  // Open streams by token digest and by remote address; an entry leaves when its count falls to 0, so both maps stay
+  // Open streams by token digest and by client address; an entry leaves when its count falls to 0, so both maps stay
   // within the number of open streams.
   const byToken = new Map<string, number>();
   const byAddress = new Map<string, number>();
@@ -97,7 +99,7 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
       }
       // One token or one address must not take the slots every board shares.
       const token = tokenDigestOf(request) ?? '';
-      const address = request.socket.remoteAddress ?? '';
+      const address = addressOf(request);
       if ((byToken.get(token) ?? 0) >= maxPerToken) {
         return reply.code(429).header('retry-after', '30').send({ error: 'too-many-requests', message: `this token already holds ${maxPerToken} live-event streams, the most one token may; close one (another tab or board) and try again` });
       }

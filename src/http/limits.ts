@@ -4,6 +4,7 @@
  * chart work one process does at once. Every field has a documented default (README, "Limits under load");
  * `resolveHttpLimits` fills in the ones not given.
  */
+import { addressRangeProblem } from '../domain/addressRange.ts';
 
 export interface HttpLimits {
   /** Largest request body in bytes (413 above it). Default 5 MiB. */
@@ -23,15 +24,25 @@ export interface HttpLimits {
   /** Most open sockets; further connections are refused at once. Default 4 096. */
   readonly maxConnections: number;
   /**
-   * Most open sockets from one remote address; a further connection from it is closed at once, so one address cannot
-   * take every socket. Behind a reverse proxy every client has the proxy's address: raise it there. Default 64.
+   * Most open sockets from one socket peer; a further connection from it is closed at once, so one address cannot
+   * take every socket. Counted before any request is read, so `trustedProxies` does not change it: behind a reverse
+   * proxy every socket comes from the proxy, so raise it to the connections the proxy keeps open. Default 64.
    */
   readonly maxConnectionsPerAddress: number;
   /**
-   * Requests that presented an unknown token (401) from one remote address within `failedAuthWindowMs`; beyond it
-   * every request with a token from that address gets 429 with Retry-After until the window ends. Default 20.
+   * Requests that presented an unknown token (401) from one client address (the socket's peer, or the client a trusted
+   * proxy forwarded for) within `failedAuthWindowMs`; beyond it every request with a token from that address gets 429
+   * with Retry-After until the window ends. Default 20.
    */
   readonly maxFailedAuthPerAddress: number;
+  /**
+   * Reverse proxies (IP addresses or CIDR ranges) whose X-Forwarded-For is believed. A request whose socket comes from
+   * one of them is counted, for the unknown tokens and the live-event streams per address, under its client's address:
+   * the right-most hop of X-Forwarded-For that is not itself one of them. From any other peer the header is ignored.
+   * Open sockets are counted per socket peer all the same: `maxConnectionsPerAddress` holds for the proxy as a whole.
+   * Default none: X-Forwarded-For is ignored, and every bound counts the socket's peer.
+   */
+  readonly trustedProxies: readonly string[];
   /** The window failed authentications are counted in, per address. Default 60 000 ms. */
   readonly failedAuthWindowMs: number;
   /** Most addresses whose failed authentications are remembered (least recently failed forgotten first). Default 10 000. */
@@ -50,7 +61,7 @@ export interface HttpLimits {
   readonly maxEventClients: number;
   /** Most open live-event streams per token (by its digest); a further one from that token gets 429 with Retry-After. Default 8. */
   readonly maxEventClientsPerToken: number;
-  /** Most open live-event streams per remote address; a further one from that address gets 429 with Retry-After. Default 16. */
+  /** Most open live-event streams per client address (as for `maxFailedAuthPerAddress`); a further one from it gets 429 with Retry-After. Default 16. */
   readonly maxEventClientsPerAddress: number;
   /** A live-event client whose unsent data exceeds this is disconnected (it reconnects and reloads). Default 256 KiB. */
   readonly maxEventBufferBytes: number;
@@ -78,6 +89,7 @@ export const DEFAULT_HTTP_LIMITS: HttpLimits = {
   maxConnections: 4096,
   maxConnectionsPerAddress: 64,
   maxFailedAuthPerAddress: 20,
+  trustedProxies: [],
   failedAuthWindowMs: 60_000,
   failedAuthAddresses: 10_000,
   incidentScanRecords: 2000,
@@ -97,7 +109,13 @@ export const DEFAULT_HTTP_LIMITS: HttpLimits = {
 export function resolveHttpLimits(given: Partial<HttpLimits> = {}): HttpLimits {
   const limits = { ...DEFAULT_HTTP_LIMITS, ...Object.fromEntries(Object.entries(given).filter(([, v]) => v !== undefined)) } as HttpLimits;
   for (const [name, value] of Object.entries(limits)) {
+    if (name === 'trustedProxies') continue;
     if (!Number.isFinite(value) || value < 0) throw new TypeError(`http limit ${name}: expected a number not below 0, got ${String(value)}`);
+  }
+  if (!Array.isArray(limits.trustedProxies)) throw new TypeError('http trustedProxies: expected a list of IP addresses or CIDR ranges');
+  for (const range of limits.trustedProxies) {
+    const problem = typeof range === 'string' ? addressRangeProblem(range) : 'expected a string';
+    if (problem !== undefined) throw new TypeError(`http trustedProxies: ${problem}`);
   }
   // Node refuses a headers timeout above the request timeout.
   return limits.headersTimeoutMs > limits.requestTimeoutMs ? { ...limits, headersTimeoutMs: limits.requestTimeoutMs } : limits;

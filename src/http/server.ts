@@ -42,7 +42,7 @@ export interface ServerOptions {
   readonly producer?: ResultRoutesOptions['producer'];
   /** Largest request body in bytes. Default 5 MiB (the same as `limits.bodyLimitBytes`). */
   readonly bodyLimitBytes?: number;
-  /** Request, socket, live-stream and chart bounds; see limits.ts for each default. */
+  /** Request, socket, live-stream and chart bounds, and the proxies whose X-Forwarded-For is believed; see limits.ts for each default. */
   readonly limits?: Partial<HttpLimits>;
   /** Where charts and series are computed; default: a pool of `limits.chartConcurrency` threads of this process. */
   readonly chartPool?: ChartPool;
@@ -76,6 +76,9 @@ export async function buildServer(options: ServerOptions) {
     bodyLimit,
     // Incident ids run to 256 characters, more when percent-encoded; the router's default of 100 refused them (414).
     routerOptions: { maxParamLength: limits.maxParamLength },
+    // X-Forwarded-For is believed only from the configured proxies (none by default); the per-address bounds of
+    // requests count the client it names (addressLimits.ts).
+    ...(limits.trustedProxies.length > 0 && { trustProxy: [...limits.trustedProxies] }),
     // A body sent a byte at a time, or a socket opened and left idle, is cut off instead of holding a descriptor.
     requestTimeout: limits.requestTimeoutMs,
     keepAliveTimeout: limits.keepAliveTimeoutMs,

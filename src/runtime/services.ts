@@ -16,7 +16,7 @@ import { checkAckLinkSecret, checkChannelSecrets, configuredChannels } from '../
 import { openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings } from '../queue/queues.ts';
 import { Partitions } from '../redis/keys.ts';
 import { openApiDocument } from '../contracts/openapi.ts';
-import { accessTokensFromEnv } from './accessTokensFromEnv.ts';
+import { accessTokensFromEnv, TOKEN_VARIABLES } from './accessTokensFromEnv.ts';
 import { ackLinkSecrets as ackLinkSecretsOf } from '../notify/ackLink.ts';
 import { SampleVerdicts } from '../queue/sampleVerdicts.ts';
 import { startWorkers, type WorkerSettings } from '../queue/workers.ts';
@@ -59,6 +59,21 @@ export interface RunningServices {
 }
 
 export const DEFAULT_PORT = 8080;
+
+/**
+ * The one line an API started without any token says: nothing but the probes, the OpenAPI document and the
+ * acknowledgement links is served then, so an operator who forgot the variables learns it at start, not from the
+ * board's sign-in. Undefined while one token variable holds a token.
+ */
+export function missingTokensWarning(env: NodeJS.ProcessEnv): string | undefined {
+  const variables = Object.values(TOKEN_VARIABLES);
+  if (variables.some((v) => (env[v] ?? '').split(',').some((t) => t.trim() !== ''))) return undefined;
+  return (
+    `no API tokens: none of ${variables.join(', ')} is set, so every /v1 request and the board's sign-in are refused with 401 ` +
+    '(no results posted over HTTP, no incidents viewed or acknowledged there, /metrics too unless WEARSHIFT_METRICS_PUBLIC=1); ' +
+    'set them to tokens of at least 16 characters, e.g. `openssl rand -base64 24`'
+  );
+}
 
 export async function startServices(options: ServiceOptions): Promise<RunningServices> {
   const started: Closer[][] = [];
@@ -163,6 +178,10 @@ async function start(options: ServiceOptions, started: Closer[][]): Promise<Runn
     const ping = () => request.ping();
     // Tokens and the metrics switch come from the environment here, and are handed to the server.
     const tokens = accessTokensFromEnv(env);
+    if (options.http) {
+      const warning = missingTokensWarning(env);
+      if (warning !== undefined) logger.warn(warning);
+    }
     const metricsPublic = env.WEARSHIFT_METRICS_PUBLIC === '1';
     let server;
     if (options.http) {
