@@ -24,14 +24,18 @@ export function selectPolicy(policies: readonly EscalationPolicy[], group: strin
 }
 
 /**
- * E-mail carries what asks a person to act or tells them the matter is settled; the return to normal alone is
- * news for the systems that mirror incident state (webhooks, MQTT), not for someone's inbox.
+ * E-mail carries what asks a person to act or tells them where the matter stands. That includes the return to
+ * normal: the engine announces it only while nobody has acknowledged the incident (escalation.ts), and a returned,
+ * unacknowledged alarm still asks for acknowledgement (ISA-18.2), so the people already told hear that the readings
+ * are back to normal and that the incident still waits for one of them. Webhooks and MQTT, which mirror incident
+ * state, get every event (`TIER_TARGETS`).
  */
 const PERSON_EVENTS: ReadonlySet<IncidentEventType> = new Set([
   'wearshift.incident.opened',
   'wearshift.incident.updated',
   'wearshift.incident.escalated',
   'wearshift.incident.acknowledged',
+  'wearshift.incident.returned',
   'wearshift.incident.closed',
 ]);
 

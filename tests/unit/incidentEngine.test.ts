@@ -194,8 +194,13 @@ describe('incident life cycle', () => {
     state = second.state;
     expect(only(state).alarm).toBe('returned');
     expect(only(state).closed).toBeNull();
-    // The return to normal goes to the systems that mirror incident state, not to inboxes.
-    expect(notifies(second.effects).map((e) => [e.type, e.channel])).toEqual([['wearshift.incident.returned', 'webhook']]);
+    // Nobody has acknowledged it: whoever was told hears of the return, by e-mail as well as by the webhook, and the
+    // message says it still waits for acknowledgement.
+    expect(notifies(second.effects).map((e) => [e.type, e.channel, e.target, e.tier])).toEqual([
+      ['wearshift.incident.returned', 'email', 'oncall@plant.example', 0],
+      ['wearshift.incident.returned', 'webhook', 'ops', 0],
+    ]);
+    expect(notifies(second.effects)[0]!.incident.reason).toMatch(/^returned to normal after 2 samples without findings; still unacknowledged/);
 
     // Returned but unacknowledged stays open through further clean samples.
     state = feed(state, step(4)).state;

@@ -127,6 +127,32 @@ describe('incident e-mail', () => {
     expect(text).toContain('reading 5.5 mg KOH/g against its limit 6 mg KOH/g');
   });
 
+  it('tells of a return to normal that nobody has acknowledged: still open, how to close it, the caution, and the link', () => {
+    const msg = incidentMessage(
+      { type: 'returned', whatChanged: 'returned to normal after 2 samples without findings; still unacknowledged', idempotencyKey: 'INC-2026-0007:returned:3' },
+      { state: 'returned to normal, unacknowledged' },
+    );
+    const mail = renderIncidentEmail(msg, options);
+    expect(mail.subject).toBe('[wearshift caution] PS2-P3 / gearbox: Readings back to normal, still to be acknowledged — earlier evidence Fe: cusum, rate');
+    expect(mail.headers['X-Wearshift-Event']).toBe('returned');
+    for (const part of [mail.text, mail.html.replace(/&#39;/g, "'")]) {
+      expect(part).toContain('Readings back to normal, still to be acknowledged.');
+      expect(part).toContain('nobody has acknowledged the incident yet: it stays open until someone does, and acknowledging it now closes it.');
+      expect(part).toContain('Readings back to normal do not show that the cause is gone');
+      // The findings are shown as what raised the incident, not as what the latest samples say.
+      expect(part).toContain('Evidence that raised it (not seen in the latest samples)');
+      expect(part).toContain('returned to normal after 2 samples without findings; still unacknowledged');
+      expect(part).toContain(ADVISORY_CAUTION);
+    }
+    // It still asks for acknowledgement, so it carries the link.
+    expect(mail.text).toContain(options.ackUrl);
+    expect(mail.html).toContain('href="https://wearshift.plant.example/ack/eyJ2IjoxfQ.sig?x=1&amp;y=2"');
+    // The other messages keep their plain heading and say nothing of a return.
+    const opened = renderIncidentEmail(incidentMessage(), options).text;
+    expect(opened).not.toContain('not seen in the latest samples');
+    expect(opened).not.toContain('stays open until someone does');
+  });
+
   it('shows times in the configured site zone with their offset, and names the zone', () => {
     // Europe/Berlin is UTC+1 in March 2026 (before the change to summer time on 29 March): IANA tz database.
     const { text } = renderIncidentEmail(incidentMessage(), { ...options, timeZone: 'Europe/Berlin' });

@@ -73,14 +73,19 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
   const table = resultsTable(msg, formatTime);
   const expiry = options.ackExpiresAt ? ` The link works until ${formatTime(options.ackExpiresAt.toISOString())}.` : '';
   const context = `Open since ${formatTime(inc.openedAt)} · group ${oneLine(inc.group)} · state ${oneLine(inc.state)} · escalation tier ${inc.tier}. ${timeZoneNote(zone)}`;
+  const returned = msg.type === 'returned';
+  // A return to normal is no verdict on the cause: the evidence that raised the incident is shown as what it was.
+  const standing = returned ? returnedNote(msg) : undefined;
+  const evidenceHeading = returned ? 'Evidence that raised it (not seen in the latest samples)' : 'Evidence';
 
   const text = [
     `Incident ${oneLine(inc.id)} on ${where}: ${severity}. ${what}.`,
+    ...(standing ? ['', standing] : []),
     '',
     'What changed',
     whatChanged,
     '',
-    'Evidence',
+    evidenceHeading,
     ...(evidence.length === 0 ? ['(no findings attached)'] : evidence.flatMap((e) => [`- ${e.title} (${e.since}).`, `  ${e.explanation}`])),
     ...(forecasts.length > 0 ? ['', 'Time to limit', ...forecasts.map((f) => `- ${f}`), `  ${FORECAST_CAUTION}`] : []),
     ...(options.chart ? ['', 'Trend', oneLine(options.chart.alt)] : []),
@@ -104,9 +109,10 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
     '<html lang="en"><head><meta charset="utf-8"><title>' + escapeHtml(`${where}: ${what}`) + '</title></head>',
     '<body style="font-family:sans-serif;line-height:1.4;max-width:46em">',
     `<p><strong>Incident ${escapeHtml(oneLine(inc.id))} on ${escapeHtml(where)}: ${escapeHtml(severity)}.</strong> ${escapeHtml(what)}.</p>`,
+    ...(standing ? [`<p>${escapeHtml(standing)}</p>`] : []),
     '<h3>What changed</h3>',
     `<p>${escapeHtml(whatChanged)}</p>`,
-    '<h3>Evidence</h3>',
+    `<h3>${escapeHtml(evidenceHeading)}</h3>`,
     evidence.length === 0
       ? '<p>(no findings attached)</p>'
       : `<ul>${evidence.map((e) => `<li><strong>${escapeHtml(e.title)}</strong> (${escapeHtml(e.since)}).<br>${escapeHtml(e.explanation)}</li>`).join('')}</ul>`,
@@ -130,7 +136,7 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
   return {
     from: options.from,
     to: options.to,
-    subject: headerValue(`[wearshift ${severity}] ${where}: ${what} — ${evidenceSummary(msg)}`, SUBJECT_MAX),
+    subject: headerValue(`[wearshift ${severity}] ${where}: ${what} — ${returned ? 'earlier evidence ' : ''}${evidenceSummary(msg)}`, SUBJECT_MAX),
     text,
     html,
     headers: {
@@ -164,6 +170,20 @@ function headline(msg: IncidentMessage): string {
     case 'closed':
       return 'Closed';
   }
+}
+
+/**
+ * What a return to normal means for the reader. The engine tells of a return only while nobody has acknowledged the
+ * incident (ISA-18.2: a returned, unacknowledged alarm still asks for acknowledgement).
+ */
+function returnedNote(msg: IncidentMessage): string {
+  const by = msg.incident.acknowledgedBy;
+  if (by !== undefined) return `The latest samples show none of the findings below; ${oneLine(by)} has acknowledged the incident.`;
+  return (
+    'The latest samples show none of the findings below, but nobody has acknowledged the incident yet: it stays open until ' +
+    'someone does, and acknowledging it now closes it. Readings back to normal do not show that the cause is gone; ' +
+    'whether to look further is for you to decide, with the lab.'
+  );
 }
 
 type MessageFinding = IncidentMessage['findings'][number];
