@@ -140,6 +140,29 @@ describe('the alarm-flood summary by e-mail', () => {
     expect(ids[2]).not.toBe(ids[0]);
     expect(smtp.received[0]!.parsed.headers.get('x-wearshift-type')).toBe('flood-summary');
   });
+
+  it('shows its window in the site zone the channels were opened with (display.timeZone), as the incident e-mails do', async () => {
+    const smtp = await startSmtp();
+    const channels = notificationChannels(ChannelsSchema.parse({ email: { from: 'wearshift <alerts@plant.example>', smtp: { host: '127.0.0.1', port: smtp.port, secure: false } } }), {
+      logger: silentLogger(),
+      env: {},
+      timeZone: 'Europe/Berlin',
+    });
+    const summary: FloodSummary = {
+      channel: 'email',
+      target: 'oncall@plant.example',
+      window: { from: '2026-03-01T08:00:00.000Z', until: '2026-03-01T08:10:00.000Z' },
+      maxMessages: 10,
+      held: [{ incidentId: 'PS2-P3/gearbox@LAB-0042', unit: 'PS2-P3', component: 'gearbox', severity: 'alarm', type: 'opened', url: 'https://wearshift.plant.example/incidents/x', at: '2026-03-01T08:04:00.000Z' }],
+    };
+    await channels.deliverSummary(summary, 0, 1);
+    await channels.close();
+    expect(smtp.received).toHaveLength(1);
+    // Europe/Berlin is UTC+1 in March 2026 (IANA tz database).
+    const text = smtp.received[0]!.parsed.text ?? '';
+    expect(text).toContain('between 2026-03-01T09:00+01:00 and 2026-03-01T09:10+01:00');
+    expect(text).toContain('site zone Europe/Berlin');
+  });
 });
 
 /** A port that was free a moment ago: bind to 0, read it, close. */

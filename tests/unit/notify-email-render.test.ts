@@ -1,5 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { ADVISORY_CAUTION, renderIncidentEmail } from '../../src/channels/email/emailRender.ts';
+import { renderFloodSummaryEmail } from '../../src/channels/email/floodSummaryEmail.ts';
+import type { FloodSummary } from '../../src/notify/floodControl.ts';
 import { incidentMessage } from './notify-fixtures.ts';
 
 const options = {
@@ -158,5 +160,32 @@ describe('incident e-mail', () => {
     const { text } = renderIncidentEmail(incidentMessage(), { ...options, timeZone: 'Europe/Berlin' });
     expect(text).toContain('drawn 2026-03-01T09:00+01:00');
     expect(text).toContain('site zone Europe/Berlin');
+  });
+});
+
+describe('alarm-flood summary e-mail', () => {
+  const summary: FloodSummary = {
+    channel: 'email',
+    target: 'oncall@plant.example',
+    window: { from: '2026-03-01T08:00:00.000Z', until: '2026-03-01T08:10:00.000Z' },
+    maxMessages: 10,
+    held: [{ incidentId: 'PS2-P3/gearbox@LAB-0042', unit: 'PS2-P3', component: 'gearbox', severity: 'alarm', type: 'opened', url: 'https://wearshift.plant.example/incidents/x', at: '2026-03-01T08:04:00.000Z' }],
+  };
+
+  it('writes its window in the configured site zone with the offset, and names the zone, as the incident e-mails do', () => {
+    // Europe/Berlin is UTC+1 in March 2026 (before the change to summer time on 29 March): IANA tz database.
+    const mail = renderFloodSummaryEmail(summary, { from: options.from, to: summary.target, timeZone: 'Europe/Berlin' });
+    for (const part of [mail.text, mail.html]) {
+      expect(part).toContain('between 2026-03-01T09:00+01:00 and 2026-03-01T09:10+01:00');
+      expect(part).toContain('Times are ISO 8601 in the site zone Europe/Berlin, offset written with each time.');
+      expect(part).not.toContain('2026-03-01T08:00:00.000Z');
+    }
+    expect(mail.text).toContain(ADVISORY_CAUTION);
+  });
+
+  it('writes its window in UTC, to the minute, when no zone is configured', () => {
+    const { text } = renderFloodSummaryEmail(summary, { from: options.from, to: summary.target });
+    expect(text).toContain('between 2026-03-01T08:00Z and 2026-03-01T08:10Z');
+    expect(text).toContain('Times are ISO 8601 in UTC (Z).');
   });
 });

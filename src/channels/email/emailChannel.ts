@@ -57,7 +57,9 @@ export const emailChannel: ChannelDefinition = {
         const cfg = channels.email;
         if (cfg === undefined) throw new DeliveryRefused('a flood summary by e-mail, but channels.email is not configured');
         try {
-          const sent = await sendEmail(smtpTransport(cfg.smtp, env), renderFloodSummaryEmail(s, { from: cfg.from, to: s.target }), { deadlineMs: cfg.smtp.deadlineMs });
+          // Its times in the site zone, as in the incident e-mails.
+          const mail = renderFloodSummaryEmail(s, { from: cfg.from, to: s.target, ...(timeZone !== undefined && { timeZone }) });
+          const sent = await sendEmail(smtpTransport(cfg.smtp, env), mail, { deadlineMs: cfg.smtp.deadlineMs });
           return `flood summary by email ${s.target}: ${s.held.length} held back, ${sent.messageId}`;
         } catch (e) {
           if (e instanceof EmailDeliveryError) throw e.retryable ? new DeliveryRetry(e.message, undefined, e.notTaken) : new DeliveryRefused(e.message);

@@ -1,15 +1,26 @@
 /** The e-mail that lists an alarm flood's held-back messages (src/notify/floodControl.ts) for one address. */
 import { ADVISORY_CAUTION } from '../../domain/caution.ts';
 import { escapeHtml, headerValue, oneLine } from '../../domain/safeText.ts';
+import { DEFAULT_TIME_ZONE, formatTime, timeZoneNote } from '../../notify/format.ts';
 import { summaryHeadline, summaryOrder, type FloodSummary, type HeldMessage } from '../../notify/floodControl.ts';
 import { createHash } from 'node:crypto';
 import { mailDomain, type RenderedEmail } from './emailRender.ts';
 
+export interface FloodSummaryEmailOptions {
+  from: string;
+  to: string;
+  /** The site zone the window's times are shown in (`display.timeZone`), as in the incident e-mails. Default UTC. */
+  timeZone?: string;
+}
+
 /** The summary e-mail: one line per held incident, with its link. */
-export function renderFloodSummaryEmail(summary: FloodSummary, options: { from: string; to: string }): RenderedEmail {
+export function renderFloodSummaryEmail(summary: FloodSummary, options: FloodSummaryEmailOptions): RenderedEmail {
   const held = summaryOrder(summary.held);
   const headline = summaryHeadline(summary);
-  const limit = `At most ${summary.maxMessages} messages go to one recipient between ${summary.window.from} and ${summary.window.until}; these came on top and are listed here instead.`;
+  const zone = options.timeZone ?? DEFAULT_TIME_ZONE;
+  const limit =
+    `At most ${summary.maxMessages} messages go to one recipient between ${formatTime(summary.window.from, zone)} and ${formatTime(summary.window.until, zone)}; ` +
+    `these came on top and are listed here instead. ${timeZoneNote(zone)}`;
   const line = (h: HeldMessage) => `${oneLine(h.severity)} · ${oneLine(h.unit)} / ${oneLine(h.component)} · ${oneLine(h.type)} · ${oneLine(h.incidentId)}`;
   const text = [headline, '', limit, '', ...held.flatMap((h) => [`- ${line(h)}`, `  ${h.url}`]), '', ADVISORY_CAUTION, ''].join('\n');
   const html = [
