@@ -108,7 +108,10 @@ export interface WorkerDeps {
 
 export interface RunningWorkers {
   readonly workers: readonly Worker[];
-  /** Stops taking jobs, waits for the active ones to finish, closes the queues this process opened. */
+  /**
+   * Stops taking jobs, closes the channels (ending deliveries in flight, which are retried later), waits for the
+   * active jobs to finish, closes the queues this process opened.
+   */
   close(): Promise<void>;
 }
 
@@ -234,11 +237,15 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   return {
     workers,
     async close() {
-      await Promise.all(workers.map((w) => w.close()));
+      // The workers stop taking jobs at once; the channels then end the deliveries in flight (an e-mail to a server
+      // that does not answer would otherwise hold the shutdown up to its deadline), whose jobs fail as retryable and
+      // run again later, before the workers wait for their active jobs to finish.
+      const stopping = Promise.all(workers.map((w) => w.close()));
+      await channels?.close();
+      await stopping;
       await pool?.close();
       await relay.close();
       await Promise.all([...evaluateQueues, notifyQueue, escalateQueue].map((q: Queue) => q.close()));
-      await channels?.close();
     },
   };
 }

@@ -5,7 +5,9 @@
  * - the attempt ends at its deadline (`channels.email.smtp.deadlineMs`, here 2 s) with a retryable error, the
  *   connection is closed, and the live worker schedules the retry, the attempt noted as possibly arrived;
  * - while every e-mail slot hangs on that server (deadline 10 minutes), a webhook to a real HTTP receiver is still
- *   delivered: each channel kind has its own share of the notify slots.
+ *   delivered: each channel kind has its own share of the notify slots;
+ * - closing the channel, or the worker, while an attempt hangs there (deadline 10 minutes) ends the attempt at once:
+ *   its job stays pending for a retry, not recorded as delivered, and the next worker delivers it once.
  * Nothing here depends on speed: every wait is for an event, bounded generously.
  */
 import { randomBytes } from 'node:crypto';
@@ -17,6 +19,8 @@ import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
 import type { Step } from '../../src/analysis/model.ts';
 import { renderIncidentEmail } from '../../src/channels/email/emailRender.ts';
 import { EmailDeliveryError, sendEmail } from '../../src/channels/email/emailSend.ts';
+import { DeliveryRetry } from '../../src/channels/errors.ts';
+import { startMailReceiver, type MailReceiver } from '../../src/demo/mailReceiver.ts';
 import { notificationChannels } from '../../src/channels/openChannels.ts';
 import type { Config } from '../../src/domain/config.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
@@ -33,6 +37,8 @@ import { incidentMessage } from '../unit/notify-fixtures.ts';
 const TRICKLE_PAUSE_MS = 500;
 /** How long a test waits for something that should happen within a few seconds. */
 const BOUND_MS = 60_000;
+/** The attempt's deadline where a test closes the channel: far beyond every wait of the test. */
+const LONG_DEADLINE_MS = 600_000;
 
 interface TrickleSmtp {
   readonly port: number;
@@ -281,6 +287,103 @@ describe('a stuck e-mail channel', () => {
       // The third e-mail was put back while the share was taken: that is not a delivery attempt.
       expect(emails.map((j) => j.attemptsMade)).toEqual([0, 0, 0]);
       expect(await notify.getFailedCount()).toBe(0);
+    } finally {
+      await notify.close();
+    }
+  });
+});
+
+/** Resolves with `done`'s value, or with 'still waiting' after `ms`. */
+function within<T>(done: Promise<T>, ms: number): Promise<T | 'still waiting'> {
+  let timer: NodeJS.Timeout | undefined;
+  return Promise.race([done, new Promise<'still waiting'>((r) => (timer = setTimeout(() => r('still waiting'), ms)))]).finally(() => clearTimeout(timer));
+}
+
+describe('closing while an e-mail attempt hangs on a server that does not answer', () => {
+  let good: MailReceiver | undefined;
+
+  afterEach(async () => {
+    await good?.close();
+    good = undefined;
+  });
+
+  it('the channel’s close ends the attempt at once as retryable, possibly arrived; later deliveries are refused for a retry without connecting', async () => {
+    smtp = await trickleSmtp();
+    const cfg = config('{close-channel}', smtp.port, LONG_DEADLINE_MS, ['oncall@plant.example']);
+    const channels = notificationChannels(cfg.channels, { logger: silentLogger(), env: {} });
+    const delivery = { effect: { channel: 'email', target: 'oncall@plant.example', incidentId: 'INC-2026-0007' } as NotifyEffect, message: incidentMessage(), attempt: 1 };
+    const outcome = channels.deliver(delivery).then(
+      () => 'sent',
+      (e: unknown) => e,
+    );
+    await until('the attempt hanging on the trickling server', () => smtp!.trickling.size === 1);
+
+    expect(await within(channels.close().then(() => 'closed'), BOUND_MS)).toBe('closed');
+    const error = await within(outcome, BOUND_MS);
+    expect(error).toBeInstanceOf(DeliveryRetry);
+    expect((error as DeliveryRetry).message).toMatch(/ECLOSED.*channel closed/);
+    // The data might have gone out: the attempt may have arrived, as at the deadline.
+    expect((error as DeliveryRetry).notTaken).toBe(false);
+    await until('the client closing the trickled connection', () => smtp!.closedByClient() === 1);
+
+    const after = await channels.deliver(delivery).then(
+      () => 'sent',
+      (e: unknown) => e,
+    );
+    expect(after).toBeInstanceOf(DeliveryRetry);
+    expect((after as DeliveryRetry).notTaken).toBe(true);
+    expect(smtp.connections()).toBe(1);
+  });
+
+  it('the worker’s close returns long before the deadline, the job left pending for a retry that the next worker delivers once', async () => {
+    const prefix = '{close-worker}';
+    smtp = await trickleSmtp();
+    const connection = redis.client();
+    const cfg = config(prefix, smtp.port, LONG_DEADLINE_MS, ['oncall@plant.example']);
+    const incidents = new RedisIncidents(connection, { rules: incidentRules(cfg), prefix });
+    running = startWorkers(
+      { connection, config: cfg, logger: silentLogger(), channels: notificationChannels(cfg.channels, { logger: silentLogger(), env: {} }), apiBaseUrl: 'https://wearshift.plant.example' },
+      { prefix, outboxIntervalMs: 200 },
+    );
+    await openIncident(incidents, 'PS7-P4', 'alarm');
+    await until('the e-mail attempt hanging on the trickling server', () => smtp!.trickling.size === 1);
+
+    // Without the channel ending the attempt, the close would wait for the job, up to the 10-minute deadline.
+    expect(await within(running.close().then(() => 'closed'), BOUND_MS)).toBe('closed');
+    running = undefined;
+    await until('the client closing the trickled connection', () => smtp!.closedByClient() === 1);
+
+    const notify = new Queue('notify', { connection, prefix });
+    const ledger = new DeliveryLedger(connection, prefix);
+    try {
+      const jobs = (await notify.getJobs(['active', 'waiting', 'delayed', 'prioritized', 'completed', 'failed'])).filter((j) => (j.data as NotifyEffect).channel === 'email');
+      expect(jobs).toHaveLength(1);
+      const job = jobs[0]!;
+      const effect = job.data as NotifyEffect;
+      // Pending for a retry with backoff, not done and not given up.
+      expect(await job.getState()).toBe('delayed');
+      expect(job.attemptsMade).toBe(1);
+      expect(job.failedReason).toMatch(/ECLOSED/);
+      expect(await notify.getCompletedCount()).toBe(0);
+      expect(await notify.getFailedCount()).toBe(0);
+      expect(await ledger.delivered(effect.key)).toBe(false);
+      // The attempt stays noted as possibly arrived.
+      expect(await ledger.attempted(effect.key)).toEqual(expect.any(Number));
+
+      // The next worker, with a server that answers, delivers it: once, with the message's own Message-ID.
+      good = await startMailReceiver();
+      const next = config(prefix, good.port, LONG_DEADLINE_MS, ['oncall@plant.example']);
+      await job.promote();
+      running = startWorkers(
+        { connection, config: next, logger: silentLogger(), channels: notificationChannels(next.channels, { logger: silentLogger(), env: {} }), apiBaseUrl: 'https://wearshift.plant.example' },
+        { prefix, outboxIntervalMs: 200 },
+      );
+      await until('the retried e-mail recorded as delivered', () => ledger.delivered(effect.key));
+      await until('the job completed', async () => (await notify.getCompletedCount()) === 1);
+      expect(good.received).toHaveLength(1);
+      expect(good.received[0]!.to).toEqual(['oncall@plant.example']);
+      expect(good.received[0]!.parsed.headers.get('x-wearshift-incident')).toBe(effect.incidentId);
+      expect(smtp.connections()).toBe(1);
     } finally {
       await notify.close();
     }

@@ -6,7 +6,7 @@ import type { Channels } from '../../domain/escalationConfig.ts';
 import type { ChannelDefinition } from '../channel.ts';
 import { DeliveryRefused, DeliveryRetry } from '../errors.ts';
 import { ackLinkSecretRefs, secretFrom } from '../secrets.ts';
-import { renderIncidentEmail } from './emailRender.ts';
+import { renderIncidentEmail, type RenderedEmail } from './emailRender.ts';
 import { EmailDeliveryError, sendEmail } from './emailSend.ts';
 
 type Smtp = NonNullable<Channels['email']>['smtp'];
@@ -28,6 +28,26 @@ export const emailChannel: ChannelDefinition = {
   ],
   configured: (channels) => channels.email !== undefined,
   open(channels, { env, timeZone }) {
+    // Aborted by close(): an attempt in flight ends at once instead of holding a stopping worker up to its deadline.
+    const closing = new AbortController();
+    const inFlight = new Set<Promise<unknown>>();
+
+    /** One attempt; its job is failed for a retry when the channel closes meanwhile, never recorded as sent. */
+    async function send(smtp: Smtp, mail: RenderedEmail, what: string) {
+      // No connection is made: the message was certainly not taken.
+      if (closing.signal.aborted) throw new DeliveryRetry(`${what}: not sent, the e-mail channel is closed (the worker is stopping)`, undefined, true);
+      const attempt = sendEmail(smtpTransport(smtp, env), mail, { deadlineMs: smtp.deadlineMs, signal: closing.signal });
+      inFlight.add(attempt);
+      try {
+        return await attempt;
+      } catch (e) {
+        if (e instanceof EmailDeliveryError) throw e.retryable ? new DeliveryRetry(e.message, undefined, e.notTaken) : new DeliveryRefused(e.message);
+        throw e;
+      } finally {
+        inFlight.delete(attempt);
+      }
+    }
+
     return {
       async deliver({ effect, message, chart }) {
         const cfg = channels.email;
@@ -44,29 +64,26 @@ export const emailChannel: ChannelDefinition = {
               })()
             : {};
         const mail = renderIncidentEmail(message, { from: cfg.from, to: effect.target, ...ack, ...(chart && { chart }), ...(timeZone !== undefined && { timeZone }) });
-        try {
-          const sent = await sendEmail(smtpTransport(cfg.smtp, env), mail, { deadlineMs: cfg.smtp.deadlineMs });
-          if (sent.accepted.length === 0) throw new DeliveryRefused(`e-mail to ${effect.target}: the server refused the recipient`);
-          return `email ${effect.target}: ${sent.messageId}`;
-        } catch (e) {
-          if (e instanceof EmailDeliveryError) throw e.retryable ? new DeliveryRetry(e.message, undefined, e.notTaken) : new DeliveryRefused(e.message);
-          throw e;
-        }
+        const sent = await send(cfg.smtp, mail, `e-mail to ${effect.target}`);
+        if (sent.accepted.length === 0) throw new DeliveryRefused(`e-mail to ${effect.target}: the server refused the recipient`);
+        return `email ${effect.target}: ${sent.messageId}`;
       },
       async deliverSummary(s, _window, _attempt) {
         const cfg = channels.email;
         if (cfg === undefined) throw new DeliveryRefused('a flood summary by e-mail, but channels.email is not configured');
-        try {
-          // Its times in the site zone, as in the incident e-mails.
-          const mail = renderFloodSummaryEmail(s, { from: cfg.from, to: s.target, ...(timeZone !== undefined && { timeZone }) });
-          const sent = await sendEmail(smtpTransport(cfg.smtp, env), mail, { deadlineMs: cfg.smtp.deadlineMs });
-          return `flood summary by email ${s.target}: ${s.held.length} held back, ${sent.messageId}`;
-        } catch (e) {
-          if (e instanceof EmailDeliveryError) throw e.retryable ? new DeliveryRetry(e.message, undefined, e.notTaken) : new DeliveryRefused(e.message);
-          throw e;
-        }
+        // Its times in the site zone, as in the incident e-mails.
+        const mail = renderFloodSummaryEmail(s, { from: cfg.from, to: s.target, ...(timeZone !== undefined && { timeZone }) });
+        const sent = await send(cfg.smtp, mail, `flood summary to ${s.target}`);
+        return `flood summary by email ${s.target}: ${s.held.length} held back, ${sent.messageId}`;
       },
-      async close() {},
+      /**
+       * Ends every attempt in flight (its connection closed, its delivery failed as retryable, so that the notify job
+       * stays pending and runs again) and refuses new ones; resolves once the attempts have ended.
+       */
+      async close() {
+        closing.abort();
+        await Promise.allSettled([...inFlight]);
+      },
     };
   },
 };

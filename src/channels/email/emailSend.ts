@@ -21,9 +21,18 @@ export const SMTP_DEADLINE_DEFAULT_MS = 60_000;
 /** The error code of an attempt ended by its deadline. */
 export const DEADLINE_CODE = 'EDEADLINE';
 
+/** The error code of an attempt ended because its channel closed (the worker stopping). */
+export const CLOSED_CODE = 'ECLOSED';
+
 export interface SendEmailOptions {
   /** The attempt's deadline in milliseconds; then the connection is closed and the send fails as retryable. Default `SMTP_DEADLINE_DEFAULT_MS`. */
   readonly deadlineMs?: number;
+  /**
+   * Ends the attempt when it aborts (the channel closing, src/channels/email/emailChannel.ts): the connection is
+   * closed at once and the send fails as retryable, as at the deadline, so that a stopping worker is not held by a
+   * server that does not answer and the message is left to a later attempt.
+   */
+  readonly signal?: AbortSignal;
 }
 
 export interface SentEmail {
@@ -59,24 +68,34 @@ export class EmailDeliveryError extends Error {
  * Sends one message. Give SMTP options to open (and close) a connection for this message, or a transporter
  * (a pooled one, say) to reuse connections. Throws an `EmailDeliveryError`.
  *
- * The attempt ends at its deadline whatever the server does: the send is aborted (nodemailer closes the
- * connection) and the error is retryable, with `notTaken` false: the data may have gone out and the server's
- * answer may have been all that was missing, so the queue records the attempt as possibly arrived.
+ * The attempt ends at its deadline whatever the server does, and at once when `options.signal` aborts: the send is
+ * aborted (nodemailer closes the connection) and the error is retryable, with `notTaken` false: the data may have
+ * gone out and the server's answer may have been all that was missing, so the queue records the attempt as possibly
+ * arrived.
  */
 export async function sendEmail(transport: SMTPTransportOptions | Transporter, mail: RenderedEmail, options: SendEmailOptions = {}): Promise<SentEmail> {
   const deadlineMs = options.deadlineMs ?? SMTP_DEADLINE_DEFAULT_MS;
   const own = !isTransporter(transport);
   const transporter = isTransporter(transport) ? transport : createTransport({ ...SMTP_TIMEOUT_DEFAULTS, ...transport });
   const abort = new AbortController();
-  let timer: NodeJS.Timeout | undefined;
-  // Raced as well as signalled, so that the deadline holds for a transporter that ignores the signal.
-  const deadline = new Promise<never>((_, reject) => {
-    timer = setTimeout(() => {
-      const error = new EmailDeliveryError(`e-mail not sent (${DEADLINE_CODE}): no answer to the message within the deadline of ${deadlineMs} ms; connection closed`, true, DEADLINE_CODE);
+  let stop: (error: EmailDeliveryError) => void = () => {};
+  // Raced as well as signalled, so that the deadline (or the channel's closing) holds for a transporter that ignores the signal.
+  const stopped = new Promise<never>((_, reject) => {
+    stop = (error) => {
+      if (abort.signal.aborted) return;
       reject(error);
       abort.abort(error);
-    }, deadlineMs);
+    };
   });
+  // Awaited only by the race below; a send that throws before it must not leave this rejection unhandled.
+  stopped.catch(() => {});
+  const timer = setTimeout(
+    () => stop(new EmailDeliveryError(`e-mail not sent (${DEADLINE_CODE}): no answer to the message within the deadline of ${deadlineMs} ms; connection closed`, true, DEADLINE_CODE)),
+    deadlineMs,
+  );
+  const onClose = () => stop(new EmailDeliveryError(`e-mail not sent (${CLOSED_CODE}): the channel closed during the attempt (the worker is stopping); connection closed`, true, CLOSED_CODE));
+  if (options.signal?.aborted === true) onClose();
+  else options.signal?.addEventListener('abort', onClose, { once: true });
   try {
     const sending = transporter.sendMail({
       from: mail.from,
@@ -89,14 +108,15 @@ export async function sendEmail(transport: SMTPTransportOptions | Transporter, m
       // nodemailer ≥ 10 closes the connection of an aborted send (SMTPTransport.supportsAbortSignal).
       signal: abort.signal,
     } as Parameters<Transporter['sendMail']>[0]);
-    const info = await Promise.race([sending, deadline]);
+    const info = await Promise.race([sending, stopped]);
     return { messageId: String(info.messageId), accepted: addresses(info.accepted), rejected: addresses(info.rejected) };
   } catch (e) {
-    // nodemailer's own error for the aborted send (EABORT) may come first; the deadline's says what happened.
+    // nodemailer's own error for the aborted send (EABORT) may come first; the deadline's (or the closing's) says what happened.
     if (abort.signal.aborted) throw abort.signal.reason as EmailDeliveryError;
     throw classifySmtpError(e);
   } finally {
     clearTimeout(timer);
+    options.signal?.removeEventListener('abort', onClose);
     if (own) transporter.close();
   }
 }
