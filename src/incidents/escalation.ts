@@ -100,14 +100,19 @@ function mayEscalate(inc: DraftIncident, now: Date): boolean {
 /**
  * Tells every tier that is due, then schedules the check for the next one (or the next reminder). Calling it
  * again at the same time changes nothing, which keeps redelivered checks harmless.
+ *
+ * @param dueBy what falls due by this instant counts as due although `work.now` is a little earlier: the pending
+ *   check of this chain, run by a clock slightly behind the one that let it fall due (applyEscalationCheck). What is
+ *   told is stamped `work.now` all the same.
  */
-export function advanceEscalation(inc: DraftIncident, work: Work, firstReason?: string): void {
+export function advanceEscalation(inc: DraftIncident, work: Work, firstReason?: string, dueBy?: number): void {
   const policy = chainPolicy(inc, work);
   const esc = inc.escalation;
   if (policy === undefined || esc.startedAt === null || !mayEscalate(inc, work.now)) return;
   const now = work.now.getTime();
+  const reached = Math.max(now, dueBy ?? now);
   const started = Date.parse(esc.startedAt);
-  while (esc.nextTier < policy.tiers.length && started + policy.tiers[esc.nextTier]!.afterMinutes * MINUTE <= now) {
+  while (esc.nextTier < policy.tiers.length && started + policy.tiers[esc.nextTier]!.afterMinutes * MINUTE <= reached) {
     const tier = esc.nextTier;
     const first = tier === 0;
     const reason = first
@@ -126,7 +131,7 @@ export function advanceEscalation(inc: DraftIncident, work: Work, firstReason?: 
   } else if (policy.repeatMinutes !== undefined && esc.reachedTier >= 0 && esc.lastSentAt !== null) {
     reason = 'repeat';
     due = Date.parse(esc.lastSentAt) + policy.repeatMinutes * MINUTE;
-    if (due <= now) {
+    if (due <= reached) {
       esc.lastSentAt = isoOf(work.now);
       sendEvent(inc, work, policy, 'wearshift.incident.escalated', esc.reachedTier, esc.reachedTier, `still not acknowledged: tier ${esc.reachedTier} reminded`);
       due = now + policy.repeatMinutes * MINUTE;

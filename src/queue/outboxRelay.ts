@@ -6,14 +6,16 @@
  */
 import { createHash } from 'node:crypto';
 import type { Queue } from 'bullmq';
-import type { IncidentEffect, NotifyEffect } from '../incidents/model.ts';
+import type { IncidentEffect, NotifyEffect, ScheduleEscalationEffect } from '../incidents/model.ts';
 import type { RedisIncidents } from '../redis/redisIncidents.ts';
 import type { Logger } from '../telemetry/logger.ts';
 
 export interface EscalateJobData {
   readonly incidentId: string;
   readonly tier: number;
-  readonly reason: string;
+  readonly reason: ScheduleEscalationEffect['reason'];
+  /** The effect's `at`: the check acts only while the incident's pending escalation is still due then. Absent on jobs queued before it was passed on. */
+  readonly dueAt?: string;
 }
 
 export type NotifyJobData = NotifyEffect;
@@ -41,7 +43,7 @@ export async function relayEffects(effects: readonly IncidentEffect[], queues: {
   if (notify.length > 0) await queues.notify.addBulk(notify.map((e) => ({ name: e.type, data: e, opts: { jobId: effectJobId(e.key), backoff: { type: 'delivery' } } })));
   for (const e of effects) {
     if (e.kind !== 'schedule-escalation') continue;
-    const data: EscalateJobData = { incidentId: e.incidentId, tier: e.tier, reason: e.reason };
+    const data: EscalateJobData = { incidentId: e.incidentId, tier: e.tier, reason: e.reason, dueAt: e.at };
     await queues.escalate.add('check', data, { jobId: effectJobId(e.key), delay: Math.max(0, Date.parse(e.at) - now) });
   }
   // cancel-escalations needs no job: a delayed check re-reads the incident and finds nothing due.

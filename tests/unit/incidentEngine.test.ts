@@ -364,15 +364,19 @@ describe('incident life cycle', () => {
     let state = feed(emptyComponentIncidents(UNIT, COMPONENT), s1).state;
     const id = only(state).id;
 
-    expect(applyEscalationCheck(state, { incidentId: id, now: new Date(announcedAt + 10 * MIN) }, RULES).effects).toEqual([]);
+    // Too early (beyond the clock-skew tolerance): nobody is told, and the check is scheduled again for its time.
+    const early = applyEscalationCheck(state, { incidentId: id, now: new Date(announcedAt + 10 * MIN) }, RULES);
+    expect(notifies(early.effects)).toEqual([]);
+    expect(early.effects).toMatchObject([{ kind: 'schedule-escalation', tier: 1, reason: 'tier', at: new Date(announcedAt + 30 * MIN).toISOString() }]);
 
     const tier1 = applyEscalationCheck(state, { incidentId: id, now: new Date(announcedAt + 30 * MIN) }, RULES);
     state = tier1.state;
     expect(notifies(tier1.effects).map((e) => [e.type, e.target, e.tier])).toEqual([['wearshift.incident.escalated', 'supervisor@plant.example', 1]]);
     expect(tier1.effects.find((e) => e.kind === 'schedule-escalation')).toMatchObject({ reason: 'repeat', tier: 1, at: new Date(announcedAt + 90 * MIN).toISOString() });
 
-    // The same check delivered twice tells nobody twice.
-    expect(applyEscalationCheck(state, { incidentId: id, now: new Date(announcedAt + 30 * MIN + 5) }, RULES).effects).toEqual([]);
+    // The same check delivered twice (as the escalate worker passes it on: its tier, reason and due time) tells nobody twice.
+    const tier1Check = { incidentId: id, tier: 1, reason: 'tier', dueAt: new Date(announcedAt + 30 * MIN).toISOString() } as const;
+    expect(applyEscalationCheck(state, { ...tier1Check, now: new Date(announcedAt + 30 * MIN + 5) }, RULES).effects).toEqual([]);
 
     const reminder = applyEscalationCheck(state, { incidentId: id, now: new Date(announcedAt + 90 * MIN) }, RULES);
     const keys = notifies(reminder.effects).map((e) => e.key);
