@@ -12,6 +12,7 @@ import type { EscalationPolicy } from '../domain/escalationConfig.ts';
 import { isoOf, type DraftIncident, type Work } from './draft.ts';
 import { describeState, type ClosedHow, type IncidentEventType, type IncidentSnapshot } from './model.ts';
 import { recipients, selectPolicy } from './policy.ts';
+import { REOPENED } from './verdict.ts';
 
 const MINUTE = 60_000;
 
@@ -201,6 +202,16 @@ export function cancelEscalations(inc: DraftIncident, work: Work, reason: 'ackno
   work.effects.push({ kind: 'cancel-escalations', key: `${inc.id}:cancel:${reason}:${work.now.getTime()}`, incidentId: inc.id, reason });
 }
 
+/** What the message of a reopening says: whether it withdrew an acknowledgement (verdict.ts), and what else is new. */
+function reopenedReason(inc: DraftIncident, news: string | null): string {
+  const lastWord = [...inc.timeline].reverse().find((e) => e.kind === 'acknowledged' || e.kind === 'unacknowledged');
+  const withdrawn = lastWord?.kind === 'unacknowledged' && lastWord.reason === REOPENED;
+  const parts = [REOPENED, withdrawn ? 'acknowledgement withdrawn, acknowledge again' : 'not acknowledged'];
+  if (inc.alarm === 'returned') parts.push('returned to normal since, still unacknowledged');
+  if (news !== null) parts.push(`new evidence: ${news}`);
+  return parts.join('; ');
+}
+
 /** The sample of the latest return to normal, from the timeline. */
 function lastReturn(inc: DraftIncident): string | null {
   for (let i = inc.timeline.length - 1; i >= 0; i--) {
@@ -212,8 +223,8 @@ function lastReturn(inc: DraftIncident): string | null {
 }
 
 /**
- * Tells what the verdict of every incident adds to what has been told: a new incident or new evidence is
- * announced (if its latest sample arrived live), an acknowledgement, a return to normal and a closing go to
+ * Tells what the verdict of every incident adds to what has been told: a new incident, new evidence or the reopening
+ * of a closed incident is announced (if its latest sample arrived live), an acknowledgement, a return to normal and a closing go to
  * everyone told so far, shelving cancels the escalation until its time is up; the escalation itself goes on by its
  * scheduled checks.
  */
@@ -231,10 +242,12 @@ function annunciateOne(inc: DraftIncident, work: Work): void {
     if (inc.announced !== null) tellReached(inc, work, 'wearshift.incident.closed', `${CLOSED_BECAUSE[inc.closed.how]}${note}`);
     return;
   }
-  // Reopened after a closing that was told: its next closing is news again.
-  told.closed = false;
   const ack = inc.acknowledged;
   const shelved = shelvedAt(inc, work.now);
+  // Reopened after a closing that was told (`told.closed` still set): those told of the closing hear of the reopening
+  // with its first live sample (below), and until then it stays told as closed. Acknowledged or shelved since, someone
+  // has seen it open; never announced, its announcement covers it.
+  if (told.closed && (ack !== null || shelved || inc.announced === null)) told.closed = false;
   let ackWithdrawn = false;
   if (ack !== null && told.acknowledgedAt !== ack.at) {
     told.acknowledgedAt = ack.at;
@@ -258,6 +271,13 @@ function annunciateOne(inc: DraftIncident, work: Work): void {
   if (inc.announced === null) {
     if (!inc.live || !(inc.lastLive || shelvingEnded)) return;
     announce(inc, work, 'wearshift.incident.opened', announcementReason(inc, 'wearshift.incident.opened'), true);
+  } else if (told.closed && inc.lastLive) {
+    // A closed incident that came back is a new unacknowledged alarm situation (ISA-18.2): announced to tier 0 as
+    // news, its escalation chain started again from tier 0 — also when it has returned to normal since (the later
+    // tiers then wait for it to turn active). Its next closing is news again.
+    told.closed = false;
+    told.returnedAt = inc.alarm === 'returned' ? lastReturn(inc) : null;
+    announce(inc, work, 'wearshift.incident.updated', reopenedReason(inc, newEvidence(inc)), true);
   } else if (inc.alarm === 'active' && (inc.lastLive || shelvingEnded)) {
     // Those told of a return to normal hear that it is active again, once.
     const activeAgain = told.returnedAt !== null;

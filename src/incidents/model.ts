@@ -152,6 +152,7 @@ export interface Told {
   readonly acknowledgedAt: string | null;
   /** sampleId of the return to normal last told; null when none. */
   readonly returnedAt: string | null;
+  /** The closing was passed on (told to everyone told of the incident); still set after a reopening until the reopening is told (escalation.ts). */
   readonly closed: boolean;
   /** `until` of the shelving whose escalations were last cancelled; null when none. */
   readonly shelvedUntil: string | null;

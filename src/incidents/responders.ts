@@ -2,8 +2,8 @@
  * Who hears of an annunciation (an incident opening or becoming active again), for the load figures, as the live
  * annunciation (escalation.ts) tells it. An incident's escalation chain is that of the policy matching its group,
  * kind and severity when it was announced: at its opening, and again whenever new evidence went beyond what had been
- * announced (a higher severity than ever told, a new measurand) or an acknowledgement was withdrawn; becoming active
- * again without such news goes on with the chain already running. So an annunciation is heard by the tier-0 targets
+ * announced (a higher severity than ever told, a new measurand), an acknowledgement was withdrawn or the incident
+ * reopened after it had been closed; becoming active again without such news goes on with the chain already running. So an annunciation is heard by the tier-0 targets
  * of the chain running at that point of the timeline, and by those of any chain that new evidence starts before the
  * incident returns to normal; each target once per annunciation.
  *
@@ -94,6 +94,7 @@ function reachOf(policies: readonly EscalationPolicy[], i: FigureIncident): Annu
     let began = false;
     let ended = false;
     let ackWithdrawn = false;
+    let reopened = false;
     let openedAt: Severity | undefined;
     for (const e of entries) {
       switch (e.kind) {
@@ -109,6 +110,7 @@ function reachOf(policies: readonly EscalationPolicy[], i: FigureIncident): Annu
           break;
         case 'active-again':
           began = true;
+          reopened ||= e.reopened;
           break;
         case 'returned':
         case 'closed':
@@ -133,12 +135,12 @@ function reachOf(policies: readonly EscalationPolicy[], i: FigureIncident): Annu
       const severity = held.length > 0 ? held.map((f) => f.severity).reduce(maxSeverity) : (openedAt ?? i.peakSeverity);
       const measurands = new Set(held.map((f) => f.measurand));
       const news = told.severity === null || severityRank(severity) > severityRank(told.severity) || [...measurands].some((m) => !told.measurands.has(m));
-      if (news || ackWithdrawn) {
+      if (news || ackWithdrawn || reopened) {
         told.severity = told.severity === null ? severity : maxSeverity(told.severity, severity);
         for (const m of measurands) told.measurands.add(m);
         const policy = selectPolicy(policies, i.group, severity, i.kind);
-        // A chain of the same policy goes on; another policy, or a withdrawn acknowledgement, starts one.
-        if (chain === null || chain.policy !== policy || ackWithdrawn) chain = { policy, start: t };
+        // A chain of the same policy goes on; another policy, a withdrawn acknowledgement or a reopening starts one.
+        if (chain === null || chain.policy !== policy || ackWithdrawn || reopened) chain = { policy, start: t };
       }
       if (stretch !== null && chain !== null && !stretch.chains.includes(chain)) stretch.chains.push(chain);
     }

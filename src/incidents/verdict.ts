@@ -7,7 +7,8 @@
  * A step with findings that ask for an incident opens or updates the incident of its key (one per unit/component,
  * or per measurand; sampling findings have their own key); consecutive clean steps return it to normal; a finding
  * soon after the return reopens it rather than opening a new one. New evidence beyond what was acknowledged (a
- * higher severity, a new measurand) withdraws the acknowledgement: it needs a fresh look (ISA-18.2 practice).
+ * higher severity, a new measurand) withdraws the acknowledgement: it needs a fresh look (ISA-18.2 practice); so does
+ * a reopening, live or in backfill: the closed alarm's acknowledgement does not cover the new situation.
  */
 import { InputError } from '../domain/errors.ts';
 import { findingKey, incidentKindOf, maxSeverity, type Finding, type IncidentKind, type Severity } from '../domain/finding.ts';
@@ -98,6 +99,9 @@ function measurandsOf(findings: readonly Finding[]): Measurand[] {
   return [...new Set(findings.map((f) => f.measurand))].sort();
 }
 
+/** Why a reopening withdraws the acknowledgement, in the timeline and in the message that tells it. */
+export const REOPENED = 'reopened after it had been closed';
+
 function withFindings(
   draft: DraftState,
   key: string,
@@ -119,6 +123,12 @@ function withFindings(
     inc.alarm = 'active';
     inc.stepsSinceEnd = null;
     push(inc, { kind: 'active-again', at: step.sampledAt, sampleId: step.sampleId, reopened: true });
+    // A closed alarm that comes back is a new alarm situation (ISA-18.2): the acknowledgement of the old one does
+    // not cover it.
+    if (inc.acknowledged !== null) {
+      inc.acknowledged = null;
+      push(inc, { kind: 'unacknowledged', at: step.sampledAt, reason: REOPENED });
+    }
   } else if (inc.alarm === 'returned') {
     inc.alarm = 'active';
     inc.stepsSinceEnd = null;

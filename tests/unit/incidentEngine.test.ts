@@ -239,9 +239,17 @@ describe('incident life cycle', () => {
     expect(only(state).id).toBe(id);
     expect(only(state).closed).toBeNull();
     expect(only(state).timeline.some((t) => t.kind === 'active-again' && t.reopened)).toBe(true);
-    expect(back.effects).toEqual([]);
+    // A closed alarm that comes back is a new unacknowledged alarm situation: the old acknowledgement is withdrawn,
+    // tier 0 hears of it and the escalation chain starts again (tests/unit/incident-reopen.test.ts).
+    expect(only(state).acknowledged).toBeNull();
+    expect(notifies(back.effects).map((e) => [e.type, e.tier])).toEqual([
+      ['wearshift.incident.updated', 0],
+      ['wearshift.incident.updated', 0],
+    ]);
 
-    // Closed again, then more clean samples than reopenWithinSamples (3): the next finding is a new incident.
+    // Acknowledged again and closed again, then more clean samples than reopenWithinSamples (3): the next finding is a
+    // new incident.
+    state = applyAction(state, { kind: 'acknowledge', incidentId: id, by: 'R. Tanaka', now: new Date(T0 + 51 * DAY) }, RULES).state;
     state = feed(state, step(6)).state;
     state = feed(state, step(7)).state;
     expect(only(state).closed).not.toBeNull();

@@ -121,6 +121,23 @@ describe('later tiers if nobody acknowledges', () => {
     // A one-hour delay passes long before the return to normal.
     expect(annunciationReach(policies(60))(i).map((r) => r.unanswered)).toEqual([[LEAD], [LEAD]]);
   });
+
+  it('a closed incident that reopens starts its chain again: a tier is reached by its delay after the reopening', () => {
+    const twoWeeks = 14 * 24 * 60;
+    // Closed (resolved by hand, nobody acknowledged) on day 10, reopened on day 40 without news, returned on day 50:
+    // the chain that started on day 0 does not go on (its lead would be long due), a new one starts on day 40 and its
+    // second tier (day 54) is not reached before the return.
+    const reopened: TimelineEntry[] = [
+      ...opened(0, 'alarm'),
+      { kind: 'closed', at: at(10), how: 'resolved', by: 'R. Tanaka', note: 'breather replaced' },
+      ...again(40, 'alarm').map((e) => (e.kind === 'active-again' ? { ...e, reopened: true } : e)),
+      ...returned(50, 'alarm'),
+    ];
+    expect(annunciationReach(policies(twoWeeks))(incident(reopened, 'alarm')).map((r) => [r.first, r.unanswered])).toEqual([
+      [[ONCALL], []],
+      [[ONCALL], []],
+    ]);
+  });
 });
 
 describe('the same responders as the annunciation tells, on a history replayed through the pipeline', () => {
