@@ -129,6 +129,18 @@ describe('incident e-mail', () => {
     expect(text).toContain('reading 5.5 mg KOH/g against its limit 6 mg KOH/g');
   });
 
+  it('headlines a closed incident that came back as reopened, not as more evidence, and says the rest once', () => {
+    const mail = renderIncidentEmail(
+      incidentMessage({ type: 'updated', whatChanged: 'reopened after it had been closed; acknowledgement withdrawn, acknowledge again' }),
+      options,
+    );
+    expect(mail.subject).toContain(': Reopened after it had been closed, acknowledge again — ');
+    expect(mail.subject).not.toContain('New evidence');
+    expect(mail.text.split('reopened after it had been closed').length - 1).toBe(0);
+    expect(mail.text).toContain('acknowledgement withdrawn, acknowledge again');
+    expect(mail.text).toContain('advises');
+  });
+
   it('tells of a return to normal that nobody has acknowledged: still open, how to close it, the caution, and the link', () => {
     const msg = incidentMessage(
       { type: 'returned', whatChanged: 'returned to normal after 2 samples without findings; still unacknowledged', idempotencyKey: 'INC-2026-0007:returned:3' },

@@ -8,6 +8,7 @@ import { ADVISORY_CAUTION, FORECAST_CAUTION } from '../../domain/caution.ts';
 import { asksForAcknowledgement, bySeverity, severityWords, type IncidentMessage } from '../../notify/message.ts';
 import { DEFAULT_TIME_ZONE, formatNumber, formatTime as formatTimeIn, timeZoneNote } from '../../notify/format.ts';
 import { escapeHtml, headerValue, httpUrl, oneLine } from '../../domain/safeText.ts';
+import { REOPENED } from '../../incidents/verdict.ts';
 
 export { ADVISORY_CAUTION };
 
@@ -160,7 +161,8 @@ function headline(msg: IncidentMessage): string {
     case 'opened':
       return 'New incident';
     case 'updated':
-      return 'New evidence';
+      // A closed incident that came back is a new alarm situation for the reader, not more of the same.
+      return msg.whatChanged.startsWith(REOPENED) ? 'Reopened after it had been closed, acknowledge again' : 'New evidence';
     case 'escalated':
       return `Escalated to tier ${msg.incident.tier}, still not acknowledged`;
     case 'acknowledged':
@@ -206,6 +208,7 @@ function evidenceSummary(msg: IncidentMessage): string {
  * those once, in the headline.
  */
 function withoutHeadline(reason: string, headline: string): string {
+  if (reason.startsWith(REOPENED) && headline.startsWith('Reopened')) return reason.slice(REOPENED.length).replace(/^; /, '');
   const m = /^(new incident|new evidence)(, (watch|caution|alarm))?: /i.exec(reason);
   if (m !== null && headline.toLowerCase().startsWith(m[1]!.toLowerCase())) return reason.slice(m[0].length);
   return reason;
