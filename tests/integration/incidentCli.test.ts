@@ -11,6 +11,10 @@ import type { Severity } from '../../src/domain/finding.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { formatTime } from '../../src/notify/format.ts';
 import { RedisIncidents as RedisIncidentStore } from '../../src/redis/redisIncidents.ts';
+import { createEventHub, type LiveEvent } from '../../src/http/eventHub.ts';
+import { bridgeLiveEvents } from '../../src/runtime/liveBridge.ts';
+import { silentLogger } from '../../src/telemetry/logger.ts';
+import { runCli } from '../helpers/cli.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 let server: RedisServer;
@@ -88,12 +92,14 @@ describe('wearshift incidents', { timeout: 600_000 }, () => {
   it('acknowledges, shelves and resolves, and shows the timeline', async () => {
     const id = 'GEN-2/engine@GEN-2-1';
     const ack = await run('incidents', 'ack', id, '--by', 'R. Tanaka', '--note', 'on site at 14:00', '--config', configFile);
-    expect(ack).toMatchObject({ code: 0, out: `${id}: active, acknowledged\n` });
+    // The state, then the caution: the tool advises, people decide.
+    expect(ack).toMatchObject({ code: 0, out: `${id}: active, acknowledged\n${ADVISORY_CAUTION}\n` });
     const until = new Date(Date.now() + 3_600_000).toISOString();
     const shelve = await run('incidents', 'shelve', id, '--until', until, '--reason', 'crane lift today', '--by', 'R. Tanaka', '--json', '--config', configFile);
     expect(JSON.parse(shelve.out).shelved).toMatchObject({ until, reason: 'crane lift today' });
+    expect(JSON.parse(shelve.out).advisory).toBe(ADVISORY_CAUTION);
     const resolve = await run('incidents', 'resolve', id, '--note', 'filter element replaced', '--by', 'R. Tanaka', '--config', configFile);
-    expect(resolve.out).toBe(`${id}: closed\n`);
+    expect(resolve.out).toBe(`${id}: closed\n${ADVISORY_CAUTION}\n`);
 
     const show = await run('incidents', 'show', id, '--config', configFile);
     expect(show.code).toBe(0);
@@ -135,7 +141,7 @@ describe('wearshift incidents', { timeout: 600_000 }, () => {
     const local = formatTime(until, 'Europe/Berlin');
     expect(local).toMatch(/T\d\d:\d\d\+0[12]:00$/);
     const shelve = await run('incidents', 'shelve', id, '--until', until, '--reason', 'crane lift', '--by', 'R. Tanaka', '--config', berlin);
-    expect(shelve).toMatchObject({ code: 0, out: `${id}: active, unacknowledged, shelved until ${local}\n` });
+    expect(shelve).toMatchObject({ code: 0, out: `${id}: active, unacknowledged, shelved until ${local}\n${ADVISORY_CAUTION}\n` });
     const list = await run('incidents', 'list', '--config', berlin);
     expect(list.out).toContain(`shelved until ${local}`);
     expect(list.out).toContain('Times are ISO 8601 in the site zone Europe/Berlin');
@@ -202,5 +208,41 @@ describe('wearshift incidents', { timeout: 600_000 }, () => {
     } finally {
       process.env.REDIS_URL = saved;
     }
+  });
+});
+
+// The real command line as its own process: the announcement must be out before the process ends, not only before
+// `main` returns. Bounded by the test's timeout; the subscriber waits for the event, never for a guessed time.
+describe('wearshift incidents actions and open boards', { timeout: 600_000 }, () => {
+  it('announces ack and resolve on the live channel, as the API does, so that an open board updates', async () => {
+    const unit = 'LIVE-1';
+    const store = new RedisIncidentStore(server.client(), { rules: incidentRules(ConfigSchema.parse({})), prefix: '{cli}' });
+    await store.applySteps({ unit, component: 'engine' }, [step(unit, 1, 'alarm')], { group: 'engines', now: new Date('2026-02-03T00:00:00Z'), quietBefore: new Date(0) });
+    const id = `${unit}/engine@${unit}-1`;
+    // What a board's API process receives: the channel bridged into its hub.
+    const hub = createEventHub();
+    const received: LiveEvent[] = [];
+    let arrived: (() => void) | undefined;
+    hub.subscribe((e) => {
+      received.push(e);
+      arrived?.();
+    });
+    await bridgeLiveEvents(server.client(), '{cli}', hub, silentLogger());
+    const next = (count: number) =>
+      new Promise<void>((resolve) => {
+        arrived = () => received.length >= count && resolve();
+        arrived();
+      });
+
+    const ack = await runCli(['incidents', 'ack', id, '--by', 'R. Tanaka', '--config', configFile], { REDIS_URL: server.url });
+    expect(ack.code).toBe(0);
+    await next(1);
+    expect(received[0]).toMatchObject({ type: 'incident', incidentId: id, unit, component: 'engine', severity: 'alarm', change: 'acknowledged', state: 'active, acknowledged' });
+
+    const resolved = await runCli(['incidents', 'resolve', id, '--note', 'bearing replaced', '--by', 'R. Tanaka', '--json', '--config', configFile], { REDIS_URL: server.url });
+    expect(resolved.code).toBe(0);
+    expect(JSON.parse(resolved.stdout)).toMatchObject({ id, advisory: ADVISORY_CAUTION });
+    await next(2);
+    expect(received[1]).toMatchObject({ type: 'incident', incidentId: id, change: 'closed', state: 'closed' });
   });
 });

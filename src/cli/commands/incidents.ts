@@ -1,6 +1,7 @@
 /**
  * `wearshift incidents list|show|ack|shelve|unshelve|resolve|note`: the on-call engineer's commands, straight
- * against the Redis incident store. Messages that an action causes go to the outbox, which the worker sends.
+ * against the Redis incident store. Messages that an action causes go to the outbox, which the worker sends; the
+ * action is announced on the live channel, as the API's actions are, so that open boards show it.
  */
 import { FORECAST_CAUTION } from '../../domain/caution.ts';
 import type { Command } from 'commander';
@@ -12,7 +13,10 @@ import { MAX_LIST_LIMIT } from '../../incidents/listFilter.ts';
 import { decodeCursor, encodeCursor, IncidentListQuerySchema } from '../../incidents/listPage.ts';
 import { describeState, mergedTimeline, notifiedTargetsText, sampleVerdictText, type Incident, type IncidentSummary, type NotifiedEntry, type TimelineEntry } from '../../incidents/model.ts';
 import { incidentRules } from '../../incidents/policy.ts';
-import { closeQuietly, connectForCommand, redisTarget } from '../../redis/connection.ts';
+import { closeQuietly, connectForCommand, redisTarget, type RedisConnection } from '../../redis/connection.ts';
+import { announcingActions } from '../../http/eventHub.ts';
+import { livePublisher } from '../../runtime/liveBridge.ts';
+import { createLogger } from '../../telemetry/logger.ts';
 import { RedisIncidents } from '../../redis/redisIncidents.ts';
 import { formatTime, timeZoneNote } from '../../notify/format.ts';
 import { ADVISORY_CAUTION, bySeverity, severityWords } from '../../notify/message.ts';
@@ -24,13 +28,13 @@ interface CommonOptions {
   json?: boolean;
 }
 
-async function withStore<T>(opts: CommonOptions, work: (store: RedisIncidents, config: Config) => Promise<T>): Promise<T> {
+async function withStore<T>(opts: CommonOptions, work: (store: RedisIncidents, config: Config, redis: RedisConnection) => Promise<T>): Promise<T> {
   const config: Config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
   // Which Redis, on stderr: the output itself stays the incidents (and one JSON object per line with --json).
   process.stderr.write(`wearshift: ${redisChoice(config)}\n`);
   const redis = await connectForCommand(redisTarget(config));
   try {
-    return await work(new RedisIncidents(redis, { rules: incidentRules(config), prefix: config.redis.prefix, partitions: config.redis.partitions }), config);
+    return await work(new RedisIncidents(redis, { rules: incidentRules(config), prefix: config.redis.prefix, partitions: config.redis.partitions }), config, redis);
   } finally {
     await closeQuietly(redis);
   }
@@ -127,11 +131,20 @@ type ActionBuilder = (id: string, opts: Record<string, unknown>, now: Date) => I
 function actionCommand(parent: Command, name: string, description: string, configure: (c: Command) => Command, build: ActionBuilder): void {
   configure(parent.command(`${name} <id>`).description(description).requiredOption('--by <name>', 'who acts'))
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
-    .option('--json', 'print the incident as one JSON line')
+    .option('--json', 'print the incident as one JSON line, with the caution as its advisory field')
     .action(async (id: string, opts: CommonOptions & Record<string, unknown>) => {
-      const { incident, zone } = await withStore(opts, async (store, config) => ({ ...(await store.applyAction(build(id, opts, new Date()))), zone: config.display.timeZone }));
-      if (opts.json) writeJsonLine(incident);
-      else process.stdout.write(`${terminalText(incident.id)}: ${describeState(incident, (t) => formatTime(t, zone))}\n`);
+      const { incident, zone } = await withStore(opts, async (store, config, redis) => {
+        // Announced on the live channel as the API announces its actions, so that every open board shows it at once.
+        // A failed announcement is logged at debug level (LOG_LEVEL=debug): the action itself is stored either way.
+        const live = livePublisher(redis, config.redis.prefix, createLogger({ level: process.env.LOG_LEVEL ?? 'warn' }));
+        const result = await announcingActions(store, live).applyAction(build(id, opts, new Date()));
+        // The publisher sends at the end of this turn of the event loop: one turn later its PUBLISH is on the connection,
+        // ahead of the QUIT that closes it.
+        await new Promise((resolve) => setImmediate(resolve));
+        return { ...result, zone: config.display.timeZone };
+      });
+      if (opts.json) writeJsonLine({ ...incident, advisory: ADVISORY_CAUTION });
+      else process.stdout.write(`${terminalText(incident.id)}: ${describeState(incident, (t) => formatTime(t, zone))}\n${ADVISORY_CAUTION}\n`);
     });
 }
 
