@@ -23,6 +23,12 @@ async function all(records: AsyncIterable<SourceRecord>): Promise<SourceRecord[]
   return out;
 }
 
+/** The reason of a record the reader refused; fails the test for a record it read. */
+function reasonOf(r: SourceRecord | undefined): string {
+  if (r === undefined || !('issues' in r)) throw new Error(`expected a refusal, got ${JSON.stringify(r)}`);
+  return r.issues[0]!.reason;
+}
+
 function thrown(f: () => unknown): Error {
   try {
     f();
@@ -67,7 +73,7 @@ describe('a lab export read as a plain CSV', () => {
     expect(records).toHaveLength(1);
     const [header] = records;
     expect(header).toMatchObject({ line: 1 });
-    const reason = (header as { issues: { reason: string }[] }).issues[0]!.reason;
+    const reason = reasonOf(header);
     expect(reason).toMatch(/^the header holds ";" and no ",": the file looks ";"-separated/);
     expect(reason).toContain('wearshift import --map <mapping.yaml> with delimiter: ";"');
     expect(reason).toContain('decimal: ","');
@@ -77,7 +83,7 @@ describe('a lab export read as a plain CSV', () => {
 
   it('gives the same advice when the ";"-separated header is quoted and the parser stops at it', async () => {
     const [only] = await all(csvRecords(Readable.from(['"Probe";"Anlage";"Fe"\n"EL-1";"GEN-1";"12,5"\n'])));
-    const reason = (only as { issues: { reason: string }[] }).issues[0]!.reason;
+    const reason = reasonOf(only);
     expect(reason).toMatch(/^CSV syntax error, reading stopped here: .*; the file looks ";"-separated/);
     expect(reason).toContain('delimiter: ";"');
   });
@@ -85,7 +91,7 @@ describe('a lab export read as a plain CSV', () => {
   it('says when no column is an event field, instead of rejecting each line for a missing sampleId', async () => {
     const records = await all(csvRecords(Readable.from(['Probe,Anlage,Fe\nEL-1,GEN-1,12\nEL-2,GEN-1,13\n'])));
     expect(records).toHaveLength(1);
-    expect((records[0] as { issues: { reason: string }[] }).issues[0]!.reason).toMatch(/^no column is an event field \(sampleId, unit, component, sampledAt, .*wearshift import --map <mapping.yaml>/);
+    expect(reasonOf(records[0])).toMatch(/^no column is an event field \(sampleId, unit, component, sampledAt, .*wearshift import --map <mapping.yaml>/);
     // A header with an event field is read as before, row by row.
     const plain = await all(csvRecords(Readable.from(['sampleId,unit,component,sampledAt,Fe\nA,U,c,2026-03-01T08:00:00Z,1\n'])));
     expect(plain).toEqual([{ line: 2, record: { sampleId: 'A', unit: 'U', component: 'c', sampledAt: '2026-03-01T08:00:00Z', readings: { Fe: 1 } } }]);
