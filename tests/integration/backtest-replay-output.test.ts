@@ -72,18 +72,22 @@ describe('backtest and replay output', { timeout: 600_000 }, () => {
   let json: CliResult;
   let help: CliResult;
   let replayHelp: CliResult;
+  let replayJson: CliResult;
 
   beforeAll(async () => {
     dir = mkdtempSync(join(tmpdir(), 'wearshift-output-'));
     writeFileSync(file('fleet.jsonl'), `${fleet()}\n`);
     writeFileSync(file('two.jsonl'), `${TWO}\n`);
     writeFileSync(file('config.yaml'), CONFIG);
-    [replay, text, json, help, replayHelp] = await Promise.all([
+    // The fleet with one record that cannot be read, so that every kind of JSON line is printed.
+    writeFileSync(file('fleet-and-one-bad.jsonl'), `${fleet()}\n{"sampleId":"BAD-1","unit":"P1"}\n`);
+    [replay, text, json, help, replayHelp, replayJson] = await Promise.all([
       runCli(['replay', file('fleet.jsonl'), '--config', file('config.yaml'), ...NOW]),
       runCli(['backtest', file('two.jsonl'), '--config', file('config.yaml'), ...NOW, '--out', file('two.html')]),
       runCli(['backtest', file('two.jsonl'), '--config', file('config.yaml'), ...NOW, '--json']),
       runCli(['backtest', '--help']),
       runCli(['replay', '--help']),
+      runCli(['replay', file('fleet-and-one-bad.jsonl'), '--config', file('config.yaml'), ...NOW, '--json']),
     ]);
   }, 600_000);
   afterAll(() => rmSync(dir, { recursive: true, force: true }));
@@ -122,5 +126,24 @@ describe('backtest and replay output', { timeout: 600_000 }, () => {
     expect(flat(help)).toMatch(/arriving live, at its sampling time/);
     expect(flat(help)).toMatch(/--now .* nothing else depends on it/);
     expect(flat(replayHelp)).toMatch(/--now .* every record arrives at it, .* backfill\.quietAfterDays/);
+  });
+
+  it('replay --help describes every kind of JSON line replay --json prints, in the order printed', () => {
+    expect(replayJson.code).toBe(1);
+    const types = replayJson.stdout.trim().split('\n').map((l) => (JSON.parse(l) as { type: string }).type);
+    const kinds = [...new Set(types)];
+    // The fleet gives all five: the refused record, findings and incident changes, the verdicts and the readiness.
+    expect(new Set(kinds)).toEqual(new Set(['rejected', 'finding', 'incident', 'verdict', 'readiness']));
+    const described = [...replayHelp.stdout.matchAll(/^ {2}\{"type":"(\w+)",\.\.\.\}/gm)].map((m) => m[1]);
+    expect(new Set(described)).toEqual(new Set(kinds));
+    // In the order printed: each kind's first line comes after the first line of the kinds described before it
+    // (finding and incident lines are interleaved by sample time, so only their first lines are compared).
+    const firstAt = (kind: string) => types.indexOf(kind);
+    const order = described.map((k) => firstAt(k!));
+    expect(order).toEqual([...order].sort((a, b) => a - b));
+    expect(replayHelp.stdout).toContain('the caution as "advisory"');
+    for (const line of replayJson.stdout.trim().split('\n').map((l) => JSON.parse(l) as { type: string; advisory?: string })) {
+      if (line.type === 'verdict') expect(line.advisory).toBe(ADVISORY_CAUTION);
+    }
   });
 });

@@ -38,7 +38,25 @@ export function registerReplay(program: Command): void {
       '--now <time>',
       'processing time, ISO 8601 with a time zone, e.g. 2026-02-01T12:00:00Z (default: now): every record arrives at it, as when the file is imported then, so a result sampled more than backfill.quietAfterDays before it is quiet backfill (nobody told, and an incident only seen so closes on its return to normal); a sample dated more than a day after it is rejected as lying in the future',
     )
-    .option('--json', 'JSON lines: {"type":"finding",...} and {"type":"incident",...}')
+    .option('--json', 'JSON lines, one object each, told apart by "type": rejected, finding, incident, verdict, readiness (below)')
+    .addHelpText(
+      'after',
+      [
+        '',
+        'With --json, one JSON object per line, in this order:',
+        '  {"type":"rejected",...}   a record refused, as it is read: line, sampleId, errors [{path, reason}]',
+        '  {"type":"finding",...}    a finding of a newly judged sample: unit, component, measurand, rule,',
+        '                            severity, disposition, sampleId, sampledAt, explanation, quiet',
+        '  {"type":"incident",...}   an incident change (a timeline entry): incidentId, change (opened, finding,',
+        '                            notified, acknowledged, returned, closed, ...), at, incidentState,',
+        '                            incidentSeverity; finding and incident lines together in sample-time order',
+        '  {"type":"verdict",...}    each incident as it stands after the last record (withdrawn ones left out):',
+        '                            incidentId, kind, state, severity, peakSeverity, evidence, closed, the',
+        '                            time-to-limit forecast of an open one, and the caution as "advisory"',
+        '  {"type":"readiness",...}  per component, what it cannot judge yet: unit, component, measurands',
+        'Exit code 1 when a record was rejected (the others are still replayed), 2 for a usage or input error.',
+      ].join('\n'),
+    )
     .action(async (file: string, opts: ReplayCommandOptions) => {
       const format = formatOf(file, opts.format);
       const now = processingTime(opts.now);
