@@ -425,6 +425,12 @@ export class OpcuaAlarmServer {
       optionals: ['ConfirmedState', 'Confirm', 'ShelvingState'],
       maxTimeShelved: this.maxShelveMs,
     });
+    // The library fills SourceName with the source's browse name ("1:gearbox"), the same for a component of that
+    // name on every unit; an alarm list tells its alarms apart by it.
+    cond.setSourceName(`${view.unit}/${view.component}`);
+    // The library starts AckedState with Id false and no text, and applyView sets it only when it changes: set here,
+    // it reads "Unacknowledged" from the first event on (applyView sets ActiveState and ConfirmedState every time).
+    cond.currentBranch().setAckedState(false);
     // The instance's own method nodes (which clients find by browsing) act on the incident too.
     const methods = cond as unknown as Record<string, UAMethod | undefined>;
     const shelving = cond.shelvingState as unknown as Record<string, UAMethod | undefined> | undefined;

@@ -9,6 +9,7 @@ import { join } from 'node:path';
 import {
   AttributeIds,
   BrowseDirection,
+  makeBrowsePath,
   ClientMonitoredItem,
   ClientSubscription,
   DataType,
@@ -42,7 +43,7 @@ import { freePort, startRedisServer, type RedisServer } from '../helpers/redisSe
 
 const PREFIX = '{opcua}';
 const logger = createLogger({ level: "silent" });
-const FIELDS = ['EventId', 'ConditionId', 'SourceName', 'Message', 'Severity', 'Retain', 'ActiveState.Id', 'AckedState.Id', 'ConfirmedState.Id', 'ShelvingState.CurrentState', '1:IncidentId', '1:Evidence', 'EventType'];
+const FIELDS = ['EventId', 'ConditionId', 'SourceName', 'Message', 'Severity', 'Retain', 'ActiveState', 'ActiveState.Id', 'AckedState', 'AckedState.Id', 'ConfirmedState', 'ConfirmedState.Id', 'ShelvingState.CurrentState', '1:IncidentId', '1:Evidence', 'EventType'];
 type Fields = Record<string, unknown>;
 
 let redis: RedisServer;
@@ -115,6 +116,16 @@ async function events(session: ClientSession) {
       });
     },
   };
+}
+
+/** The text of a LocalizedText field or value (null when it has none). */
+const textOf = (v: unknown) => (v as { text?: string | null } | null | undefined)?.text ?? null;
+
+/** Reads a variable of a condition by its browse path below the condition (as an alarm list reads the condition's state). */
+async function readBelow(session: ClientSession, conditionId: NodeId, path: string): Promise<unknown> {
+  const found = await session.translateBrowsePath(makeBrowsePath(conditionId, path));
+  expect(found.statusCode).toEqual(StatusCodes.Good);
+  return (await session.read({ nodeId: found.targets![0]!.targetId, attributeId: AttributeIds.Value })).value.value;
 }
 
 const ofIncident = (id: string) => (f: Fields) => f['1:IncidentId'] === id;
@@ -198,6 +209,57 @@ describe('OPC UA alarms and conditions', () => {
     // Acknowledging again is refused as the standard says.
     const again = await feed.next((f) => ofIncident(ID)(f) && f['AckedState.Id'] === true);
     expect(await session.acknowledgeCondition(again.ConditionId as NodeId, again.EventId as Buffer, 'twice')).toEqual(StatusCodes.BadConditionBranchAlreadyAcked);
+    await close();
+  }, 240_000);
+
+  it('the two-state texts read Unacknowledged, Active, Unconfirmed on a new condition and follow its state; SourceName names unit and component, in the events and on the condition', async () => {
+    const { session, close } = await connect({ userName: 'operator', password: env.WS_OPCUA_OPERATOR });
+    const feed = await events(session);
+    // Two units with a component of the same name: an alarm list must tell their alarms apart by SourceName.
+    const first = 'PS7-P1/gearbox@LAB-0500';
+    const second = 'PS7-P2/gearbox@LAB-0501';
+    await judge([step('LAB-0500', '2026-05-03T08:00:00Z', 'alarm', 'PS7-P1')], new Date(), 'PS7-P1');
+    await judge([step('LAB-0501', '2026-05-03T09:00:00Z', 'caution', 'PS7-P2')], new Date(), 'PS7-P2');
+    const raised = await feed.next((f) => ofIncident(first)(f) && f['ActiveState.Id'] === true);
+    const other = await feed.next((f) => ofIncident(second)(f) && f['ActiveState.Id'] === true);
+    for (const event of [raised, other]) {
+      expect(event['AckedState.Id']).toBe(false);
+      expect(textOf(event.AckedState)).toBe('Unacknowledged');
+      expect(textOf(event.ActiveState)).toBe('Active');
+      expect(event['ConfirmedState.Id']).toBe(false);
+      expect(textOf(event.ConfirmedState)).toBe('Unconfirmed');
+    }
+    expect(raised.SourceName).toBe('PS7-P1/gearbox');
+    expect(other.SourceName).toBe('PS7-P2/gearbox');
+
+    // The condition's own variables say the same (a client that reads instead of subscribing).
+    const conditionId = raised.ConditionId as NodeId;
+    expect(await readBelow(session, conditionId, '.SourceName')).toBe('PS7-P1/gearbox');
+    expect(textOf(await readBelow(session, conditionId, '/AckedState'))).toBe('Unacknowledged');
+    expect(textOf(await readBelow(session, conditionId, '/ConfirmedState'))).toBe('Unconfirmed');
+    expect(textOf(await readBelow(session, conditionId, '/ActiveState'))).toBe('Active');
+
+    // A client that connects later and asks for the retained conditions gets the same texts and name.
+    const late = await connect({ userName: 'watcher', password: env.WS_OPCUA_WATCHER });
+    const lateFeed = await events(late.session);
+    expect(await callConditionRefresh(late.session, lateFeed.subscription.subscriptionId)).toEqual(StatusCodes.Good);
+    const refreshed = await lateFeed.next(ofIncident(second));
+    expect(textOf(refreshed.AckedState)).toBe('Unacknowledged');
+    expect(refreshed.SourceName).toBe('PS7-P2/gearbox');
+    await late.close();
+
+    // Acknowledged, then confirmed (resolved): the texts follow, and SourceName stays.
+    expect(await session.acknowledgeCondition(conditionId, raised.EventId as Buffer, 'seen')).toEqual(StatusCodes.Good);
+    const acked = await feed.next((f) => ofIncident(first)(f) && f['AckedState.Id'] === true);
+    expect(textOf(acked.AckedState)).toBe('Acknowledged');
+    expect(textOf(acked.ConfirmedState)).toBe('Unconfirmed');
+    expect(acked.SourceName).toBe('PS7-P1/gearbox');
+    expect(textOf(await readBelow(session, conditionId, '/AckedState'))).toBe('Acknowledged');
+    expect(await session.confirmCondition(conditionId, acked.EventId as Buffer, 'gearbox flushed')).toEqual(StatusCodes.Good);
+    const closed = await feed.next((f) => ofIncident(first)(f) && f['ConfirmedState.Id'] === true);
+    expect(textOf(closed.ConfirmedState)).toBe('Confirmed');
+    expect(textOf(closed.ActiveState)).toBe('Inactive');
+    expect(closed.SourceName).toBe('PS7-P1/gearbox');
     await close();
   }, 240_000);
 
