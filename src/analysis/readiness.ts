@@ -2,10 +2,11 @@
  * What the analysis cannot judge yet about a component, and what it needs (first-day behaviour): per measurand,
  * how far its own baseline, the group baseline, the comparison with peers and the population band of its latest
  * sample are from being usable, and what the samples or the configuration lack for a rule to judge at all (oil
- * hours for the population bands, a new-oil value for TBN, TAN and viscosity). Measurands the component's samples
- * never carried are left out: nothing is judged on them, and listing every metal a lab does not report would bury
- * the gaps that matter. Pure: from the fold's state, the settings, the group statistics at the latest sample and
- * the samples.
+ * hours for the population bands, a new-oil value for TBN, TAN and viscosity, a cleanliness target for the ISO 4406
+ * code). Measurands the component's samples never carried are left out (the ISO 4406 code counts as carried where it
+ * can be worked out from the particle counts, as the cleanliness rule does): nothing is judged on them, and listing
+ * every metal a lab does not report would bury the gaps that matter. Pure: from the fold's state, the settings, the
+ * group statistics at the latest sample and the samples.
  */
 import type { Sample } from '../domain/event.ts';
 import type { Measurand } from '../domain/measurands.ts';
@@ -13,6 +14,7 @@ import type { ComponentSettings } from '../domain/settings.ts';
 import type { AnalysisState } from './fold/analysisFold.ts';
 import { MIN_GROUP_COMPONENTS } from './fold/analysisFold.ts';
 import type { GroupStats } from './model.ts';
+import { sampleIso4406Code } from './iso4406.ts';
 import { bandFor, populationMeasurands } from './populationStats.ts';
 
 export interface Progress {
@@ -21,7 +23,7 @@ export interface Progress {
 }
 
 /** What the samples or the configuration lack for a rule to judge the measurand at all. */
-export type ReadinessNeed = 'oil hours' | 'oil or unit hours' | 'new-oil value';
+export type ReadinessNeed = 'oil hours' | 'oil or unit hours' | 'new-oil value' | 'cleanliness target';
 
 export interface MeasurandReadiness {
   readonly measurand: Measurand;
@@ -68,7 +70,9 @@ export function readinessOf(state: AnalysisState, settings: ComponentSettings, g
   const population = new Set(populationMeasurands(settings.population));
   const read = new Set<Measurand>(Object.keys(state.wear) as Measurand[]);
   for (const s of samples) for (const m of Object.keys(s.readings) as Measurand[]) read.add(m);
-  const candidates = new Set<Measurand>([...(detecting ? detection.measurands : []), ...population, ...NEW_OIL_MEASURANDS]);
+  // The cleanliness rule judges the lab's code, else the code of the particle counts (p6 and p14).
+  if (samples.some((s) => sampleIso4406Code(s) !== undefined)) read.add('iso4406');
+  const candidates = new Set<Measurand>([...(detecting ? detection.measurands : []), ...population, ...NEW_OIL_MEASURANDS, 'iso4406']);
   for (const m of candidates) {
     if (!read.has(m)) continue;
     const parts: string[] = [];
@@ -129,6 +133,11 @@ export function readinessOf(state: AnalysisState, settings: ComponentSettings, g
     if ((NEW_OIL_MEASURANDS as readonly Measurand[]).includes(m) && !hasNewOilValue(m as (typeof NEW_OIL_MEASURANDS)[number], settings)) {
       needs.push('new-oil value');
       parts.push(`not judged: needs a new-oil value (set newOil.${m} for group ${settings.group}, or under defaults)`);
+    }
+    // The cleanliness rule compares the code with the group's target only: without one it stays silent.
+    if (m === 'iso4406' && settings.cleanlinessTarget === undefined) {
+      needs.push('cleanliness target');
+      parts.push(`not judged: needs a cleanliness target (set cleanliness.target for group ${settings.group}, or under defaults)`);
     }
     out.push({
       measurand: m,

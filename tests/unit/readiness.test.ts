@@ -1,7 +1,8 @@
 /**
  * What the analysis says it cannot judge yet (src/analysis/readiness.ts), as the board, the series API and replay
  * show it: it claims no rule judges a measurand the samples lack what that rule needs for (oil hours for the
- * population bands, a new-oil value for TBN, TAN and viscosity), it leaves out measurands the lab never reported, and
+ * population bands, a new-oil value for TBN, TAN and viscosity, a cleanliness target for the ISO 4406 code), it
+ * leaves out measurands the lab never reported, and
  * it counts the peers a comparison can be made with. Invented samples with exact readings.
  */
 import { describe, expect, it } from 'vitest';
@@ -91,6 +92,36 @@ describe('readiness', () => {
       expect(withNewOil.of(m)!.needs).toBeUndefined();
       expect(withNewOil.of(m)!.summary).toBe(`${m}: judged by every rule that applies to it.`);
     }
+  });
+
+  it('says the ISO 4406 code needs a cleanliness target, which the cleanliness rule judges it against', () => {
+    // Three steps worse than any usual target, and yet no finding without one: the rule has nothing to compare with.
+    const samples = samplesOf(3, () => ({ oilHours: 300, readings: { iso4406: '22/20/17' } }));
+    const bare = readiness('', samples);
+    expect(bare.of('iso4406')!.needs).toEqual(['cleanliness target']);
+    expect(bare.of('iso4406')!.summary).toBe('iso4406: not judged: needs a cleanliness target (set cleanliness.target for group gearbox, or under defaults).');
+    expect(notJudgedYet(bare.of('iso4406')!)).toBe(true);
+    const settings = resolveSettings(parseConfig(''), samples[0]!);
+    expect(evaluateComponent(samples, settings).steps.flatMap((s) => s.findings).filter((f) => f.rule === 'cleanliness')).toEqual([]);
+
+    for (const config of ['defaults:\n  cleanliness: { target: 17/15/12 }\n', 'groups:\n  - name: gearbox\n    match: { component: gearbox }\n    cleanliness: { target: 17/15/12 }\n']) {
+      const withTarget = readiness(config, samples);
+      expect(withTarget.of('iso4406')!.needs).toBeUndefined();
+      expect(withTarget.of('iso4406')!.summary).toBe('iso4406: judged by every rule that applies to it.');
+      expect(notJudgedYet(withTarget.of('iso4406')!)).toBe(false);
+    }
+  });
+
+  it('counts an ISO 4406 code worked out from the particle counts as carried, and leaves it out without code or counts', () => {
+    const counts = samplesOf(2, () => ({ oilHours: 300, readings: { p4: 2000, p6: 600, p14: 70 } }));
+    const fromCounts = readiness('', counts);
+    expect(fromCounts.of('iso4406')!.needs).toEqual(['cleanliness target']);
+    expect(fromCounts.of('iso4406')!.summary).toContain('needs a cleanliness target');
+    // p14 missing: no code can be worked out, and nothing is said of one.
+    const partial = readiness('', samplesOf(2, () => ({ oilHours: 300, readings: { p6: 600 } })));
+    expect(partial.of('iso4406')).toBeUndefined();
+    const none = readiness('', samplesOf(2, () => ({ oilHours: 300, readings: { Fe: 5 } })));
+    expect(none.of('iso4406')).toBeUndefined();
   });
 
   it('counts the peers with a baseline, and says when too few of them wear measurably to compare with', () => {
