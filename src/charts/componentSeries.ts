@@ -4,6 +4,7 @@
  * their limits, the fixed and population limits, and a mark wherever a rule fired. Pure: built from an evaluation
  * and the settings and group statistics it ran with, so the chart shows exactly what the worker judged.
  */
+import { ADVISORY_CAUTION } from '../domain/caution.ts';
 import type { Levels } from '../domain/config.ts';
 import type { Finding, RuleFamily, Severity } from '../domain/finding.ts';
 import { MEASURAND_NAMES, MEASURANDS, type Measurand } from '../domain/measurands.ts';
@@ -32,6 +33,11 @@ export interface ComponentSeries {
    */
   readonly forecast: Omit<ComponentForecast, 'measurands'> | null;
   readonly measurands: readonly MeasurandSeries[];
+  /**
+   * The caution that goes with the marks' findings wherever they reach a person or another system (ADVISORY_CAUTION):
+   * always present, whether forecasts are enabled or not, and drawn on every chart.
+   */
+  readonly advisory: typeof ADVISORY_CAUTION;
 }
 
 export interface MeasurandSeries {
@@ -176,6 +182,7 @@ export function buildComponentSeries(
       ...measurandSeries(input, evaluation.steps, m, findings.filter((f) => f.measurand === m)),
       forecast: perMeasurand.find((f) => f.measurand === m) ?? null,
     })),
+    advisory: ADVISORY_CAUTION,
   };
 }
 

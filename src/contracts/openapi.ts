@@ -180,7 +180,7 @@ export function openApiDocument(): Json {
           parameters: [...component, { name: 'measurand', in: 'query', required: false, description: 'Comma-separated measurands (or the parameter repeated); default all.', schema: { type: 'string' } }],
           responses: {
             '200': { description: 'The series.', content: json('Series') },
-            '400': error('Unknown measurand.'),
+            '400': error('Unknown measurand (invalid-request; issues name query.measurand).'),
             ...AUTH_ERRORS,
             '404': error('No such component.'),
             ...PATH_ERRORS,
@@ -217,7 +217,7 @@ export function openApiDocument(): Json {
           parameters: [...component, { name: 'measurand', in: 'query', required: true, schema: { type: 'string' } }, { name: 'width', in: 'query', required: false, schema: { type: 'integer' } }, chartTitle],
           responses: {
             '200': { description: 'The chart.', content: { 'image/svg+xml': { schema: { type: 'string' } } } },
-            '400': error('Missing or unknown measurand.'),
+            '400': error('Missing or unknown measurand, or a width that is not a whole number from 320 to 2000 (invalid-request; issues name query.measurand, query.width).'),
             ...AUTH_ERRORS,
             '404': error('No readings.'),
             ...PATH_ERRORS,
@@ -234,7 +234,7 @@ export function openApiDocument(): Json {
           parameters: [...component, { name: 'measurand', in: 'query', required: true, schema: { type: 'string' } }, { name: 'width', in: 'query', required: false, schema: { type: 'integer' } }, chartTitle],
           responses: {
             '200': { description: 'The chart.', content: { 'image/png': { schema: { type: 'string', contentEncoding: 'binary' } } } },
-            '400': error('Missing or unknown measurand.'),
+            '400': error('Missing or unknown measurand, or a width that is not a whole number from 320 to 2000 (invalid-request; issues name query.measurand, query.width).'),
             ...AUTH_ERRORS,
             '404': error('No readings.'),
             ...PATH_ERRORS,

@@ -156,6 +156,8 @@ export const SessionSchema = z
 export const HealthSchema = z.object({ status: z.enum(['ok', 'ready', 'unavailable']), redis: z.string().optional() }).strict();
 
 export const SeriesSchema = z
-  .object({ unit: z.string(), component: z.string() })
+  .object({ unit: z.string(), component: z.string(), advisory })
   .loose()
-  .describe('Chart data of a component: readings per charge, wear rates, detector statistics against their limits, fixed and group limits, where each rule fired.');
+  .describe(
+    'Chart data of a component: readings per charge, wear rates, detector statistics against their limits, fixed and group limits, where each rule fired (`marks`, with severity and explanation), and `advisory`, the caution that goes with those findings.',
+  );

@@ -4,28 +4,43 @@
  */
 import { z } from 'zod';
 import { isMeasurand, MEASURAND_NAMES, type Measurand } from './measurands.ts';
-import { parseReading, type Reading } from './reading.ts';
+import { parseReading, readingJsonSchema, type Reading } from './reading.ts';
+
+/** Characters a name may hold after its first, which is a letter or digit; and "/", except in unit and component names. */
+const NAME_CHARS = String.raw`\p{L}\p{N} ._:#()+\-`;
+const MAX_NAME_LENGTH = 80;
+
+/**
+ * A name as the published JSON Schema states it: what the server takes before it trims, so surrounding white space
+ * (which trimming removes, and JSON Schema's `\s` matches the same characters as ECMAScript's trim) around a name
+ * of at most 80 characters that starts with a letter or digit.
+ */
+const namePattern = (slash: boolean) => String.raw`^\s*[\p{L}\p{N}][${NAME_CHARS}${slash ? '/' : ''}]{0,${MAX_NAME_LENGTH - 1}}\s*$`;
 
 /**
  * Names travel into e-mail headers, Redis keys and URLs: printable characters only, bounded length. Trimmed and in
  * Unicode normal form NFKC, so that "PS1 " and "ＰＳ1" (full-width) are the unit PS1, not new units that read like it.
+ * The published schema states the same with surrounding white space allowed (namePattern): a name with a leading or
+ * trailing space is taken, as the name without it.
  */
-const identifier = (what: string) =>
+const identifier = (what: string, slash = true) =>
   z
     .string({ error: (i) => (i.input === undefined ? `${what} is required (missing or empty)` : `${what} must be text`) })
     .trim()
     .normalize('NFKC')
     // An empty name gets one plain reason, not the character rule as well.
     .min(1, { error: `${what} must not be empty`, abort: true })
-    .max(80, `${what} must be at most 80 characters`)
-    .regex(/^[\p{L}\p{N}][\p{L}\p{N} ._:#()+\-/]*$/u, `${what} may hold letters, digits, spaces and . _ : # ( ) + - / only, starting with a letter or digit`);
+    .max(MAX_NAME_LENGTH, `${what} must be at most ${MAX_NAME_LENGTH} characters`)
+    .regex(new RegExp(`^[\\p{L}\\p{N}][${NAME_CHARS}/]*$`, 'u'), `${what} may hold letters, digits, spaces and . _ : # ( ) + - / only, starting with a letter or digit`)
+    // The lengths are counted after trimming, which the pattern says; minLength and maxLength would count before it.
+    .meta({ pattern: namePattern(slash), minLength: undefined, maxLength: undefined });
 
 /**
  * Unit and component names make up a component's identity (`unit/component`) in keys, incident ids and URLs,
  * so they may not contain the slash that separates them: otherwise "Line 2" + "Pump 3/gearbox" and
  * "Line 2/Pump 3" + "gearbox" would be one history.
  */
-const partName = (what: string) => identifier(what).refine((v) => !v.includes('/'), `${what} may not contain "/" (it separates unit and component in incident ids and keys)`);
+const partName = (what: string) => identifier(what, false).refine((v) => !v.includes('/'), `${what} may not contain "/" (it separates unit and component in incident ids and keys)`);
 
 const hours = (what: string) => z.number().finite().min(0, `${what} must not be negative`).max(1e7, `${what} is implausibly large`);
 
@@ -59,7 +74,9 @@ export const ResultEventSchema = z
       })
       // A year typed wrong (0202, 1026) would sort first in the history and start its baseline.
       .refine((v) => !(Date.parse(v) < EARLIEST_SAMPLED_AT), `sampledAt lies before ${new Date(EARLIEST_SAMPLED_AT).toISOString().slice(0, 10)}: no used-oil sample is that old (a typing slip in the year?)`)
-      .describe('When the oil was drawn (from 1970 on).'),
+      // The year from 1970 on, as far as a pattern can say it (EARLIEST_SAMPLED_AT); the description names the rest.
+      .meta({ allOf: [{ pattern: '^(?:19[7-9][0-9]|[2-9][0-9]{3})-' }] })
+      .describe('When the oil was drawn: from 1970-01-01T00:00:00Z on (a time on 1970-01-01 whose offset puts it before then is refused by the server too).'),
     unitHours: hours('unitHours').optional().describe("Hours on the unit's meter."),
     oilHours: hours('oilHours').optional().describe('Hours on the current oil charge.'),
     oilChanged: z.boolean({ error: 'oilChanged must be true or false' }).default(false).describe('The oil was changed at this sample (this sample is on a new charge).'),
@@ -70,10 +87,23 @@ export const ResultEventSchema = z
       .record(z.string().max(MAX_NAME_CHARS), readingValue, { error: (i) => (i.code === 'invalid_key' ? `a measurand name is at most ${MAX_NAME_CHARS} characters` : undefined) })
       .refine((r) => Object.keys(r).length > 0, 'readings must hold at least one measurand')
       .refine((r) => Object.keys(r).length <= MAX_READINGS, { error: (i) => tooManyReadings(Object.keys(i.input as object).length) })
-      .meta({ maxProperties: MAX_READINGS })
-      .describe(`Readings by measurand: a number, a censored string such as "<1", or for iso4406 a code "18/16/13". Known measurands: ${MEASURAND_NAMES.join(', ')}.`),
+      // The catalogue's names (case-sensitive: "fe" and "TBN" are unknown) and each one's forms, which parseResultEvent
+      // checks after the shape; the published schema states them here.
+      .meta({
+        propertyNames: { enum: MEASURAND_NAMES },
+        properties: Object.fromEntries(MEASURAND_NAMES.map((m) => [m, readingJsonSchema(m)])),
+        additionalProperties: undefined,
+        minProperties: 1,
+        maxProperties: MAX_READINGS,
+      })
+      .describe(
+        `Readings by measurand (names of the catalogue, case-sensitive): a number, a censored string such as "<1", or for iso4406 a code "18/16/13". Known measurands: ${MEASURAND_NAMES.join(', ')}.`,
+      ),
   })
-  .strict();
+  .strict()
+  .describe(
+    'One lab result. The server checks more than this schema states: a reading written as a string (a number or a censored bound such as "<5000") within the bound of its unit, a number string that is finite; names counted and checked after trimming and Unicode NFKC normalisation (a character NFKC turns into one outside the allowed set is refused); and a sampledAt on 1970-01-01 with an offset that puts it before 1970-01-01T00:00:00Z. The schema states names as sent: a name written with compatibility characters that NFKC turns into allowed ones (full-width punctuation such as "－") is taken by the server in its normal form.',
+  );
 
 export type ResultEvent = z.input<typeof ResultEventSchema>;
 

@@ -2,7 +2,7 @@
  * One lab reading. Results below (or above) the method's reporting range are kept as censored values,
  * never silently turned into numbers: "<1" means "below 1", not 0 and not 1.
  */
-import { isMeasurand, MEASURANDS } from './measurands.ts';
+import { isMeasurand, MEASURANDS, type Measurand } from './measurands.ts';
 
 export type Reading =
   | { readonly kind: 'value'; readonly value: number }
@@ -67,6 +67,32 @@ const NUMBER = /^\s*[-+]?\d+(?:\.\d+)?(?:[eE][-+]?\d+)?\s*$/;
 const ISO_CODE = /^\s*(-|\d{1,2})\s*\/\s*(\d{1,2})\s*\/\s*(\d{1,2})\s*$/;
 
 export type ParsedReading = { ok: true; reading: Reading } | { ok: false; reason: string };
+
+/** An ISO 4406 scale number as the JSON Schema states it: 0 to 28, one or two digits. */
+const SCALE_NUMBER = String.raw`(?:[0-9]|[01][0-9]|2[0-8])`;
+
+/**
+ * What a reading of the measurand may be, as JSON Schema 2020-12 states it for the published result-event schema:
+ * the same forms parseReading takes (its patterns, the unit's bound for a number), except what a pattern cannot
+ * compare: the bound of a number or a censored bound written as a string (the server checks it). A number is never
+ * an ISO 4406 code; a numeric string may be negative only as zero ("-0"), as a negative reading is refused.
+ */
+export function readingJsonSchema(measurand: Measurand): Record<string, unknown> {
+  if (measurand === 'iso4406') {
+    return { type: 'string', maxLength: 40, pattern: String.raw`^\s*(?:-|${SCALE_NUMBER})\s*/\s*${SCALE_NUMBER}\s*/\s*${SCALE_NUMBER}\s*$` };
+  }
+  const max = maxReading(measurand);
+  return {
+    anyOf: [
+      { type: 'number', minimum: 0, maximum: max },
+      {
+        type: 'string',
+        maxLength: 40,
+        pattern: String.raw`^\s*(?:[<>]\s*=?\s*\d+(?:\.\d+)?|\+?\d+(?:\.\d+)?(?:[eE][-+]?\d+)?|-0+(?:\.0+)?(?:[eE][-+]?\d+)?)\s*$`,
+      },
+    ],
+  };
+}
 
 /** Parses a reading as labs send it: a number, a censored string such as "<1", or an ISO 4406 code "18/16/13". */
 export function parseReading(raw: unknown, measurand: string, options: ParseReadingOptions = {}): ParsedReading {

@@ -131,10 +131,16 @@ function singleValues(query: Record<string, unknown>): { ok: true; query: Record
   return issues.length > 0 ? { ok: false, issues } : { ok: true, query: out };
 }
 
-function failed(reply: FastifyReply, e: unknown) {
+function failed(reply: FastifyReply, verb: Verb, e: unknown) {
   if (e instanceof IncidentNotFoundError) return reply.code(404).send({ error: 'not-found', message: e.message });
   if (e instanceof IncidentConflictError) return reply.code(409).send({ error: 'conflict', message: e.message });
-  if (e instanceof InputError) return reply.code(400).send({ error: 'invalid-request', message: e.message });
+  if (e instanceof InputError) {
+    // The incident rules name the action's field first ("until: shelving is limited to …"): a field of the body is
+    // named as the body's schema problems are, in issues; anything else is the action's, told in the message alone.
+    const named = /^(\w+): ([\s\S]+)$/.exec(e.message);
+    if (named !== null && Object.hasOwn(INCIDENT_ACTION_BODIES[verb].shape, named[1]!)) return invalid(reply, 'body', { issues: [{ path: [named[1]!], message: named[2]! }] });
+    return reply.code(400).send({ error: 'invalid-request', message: e.message });
+  }
   throw e;
 }
 
@@ -190,7 +196,7 @@ export const incidentRoutes: FastifyPluginAsync<IncidentRoutesOptions> = async (
         const { incident } = await options.store.applyAction(action);
         return { incident, advisory: ADVISORY_CAUTION };
       } catch (e) {
-        return failed(reply, e);
+        return failed(reply, verb, e);
       }
     });
   }

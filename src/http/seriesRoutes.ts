@@ -90,7 +90,7 @@ export const seriesRoutes: FastifyPluginAsync<SeriesRoutesOptions> = async (app,
 
   app.get<{ Params: Params; Querystring: Query }>(`${base}/series`, { onRequest }, async (request, reply) => {
     const measurands = parseMeasurands(request.query.measurand);
-    if (typeof measurands === 'string') return reply.code(400).send({ error: 'invalid-request', message: measurands });
+    if (typeof measurands === 'string') return invalidQuery(reply, [{ field: 'query.measurand', message: measurands }]);
     const result = await compute(request, reply, (input) => ({ kind: 'series', input, ...(measurands !== undefined && { measurands }) }));
     if (result === undefined) return reply;
     if (result.kind !== 'series') throw new Error(`unexpected chart result ${result.kind}`);
@@ -99,11 +99,15 @@ export const seriesRoutes: FastifyPluginAsync<SeriesRoutesOptions> = async (app,
 
   const chart = (format: 'svg' | 'png') => async (request: FastifyRequest<{ Params: Params; Querystring: Query }>, reply: FastifyReply) => {
     const measurand = single(request.query.measurand);
-    if (measurand === undefined || !isMeasurand(measurand)) {
-      return reply.code(400).send({ error: 'invalid-request', message: `measurand: ${measurand === undefined ? 'required' : `unknown measurand "${measurand}"`}, e.g. ?measurand=Fe` });
-    }
     const width = parseWidth(single(request.query.width), format === 'svg' ? DEFAULT_CHART_WIDTH : PNG_DEFAULT_WIDTH);
-    if (typeof width === 'string') return reply.code(400).send({ error: 'invalid-request', message: width });
+    // Both parameters judged at once, so that one correction round is enough.
+    if (measurand === undefined || !isMeasurand(measurand) || typeof width === 'string') {
+      const issues: FieldIssue[] = [];
+      if (measurand === undefined) issues.push({ field: 'query.measurand', message: 'required, e.g. ?measurand=Fe' });
+      else if (!isMeasurand(measurand)) issues.push({ field: 'query.measurand', message: `unknown measurand "${clip(measurand)}" (names are case-sensitive), e.g. ?measurand=Fe` });
+      if (typeof width === 'string') issues.push({ field: 'query.width', message: width });
+      return invalidQuery(reply, issues);
+    }
     const title = single(request.query.title) !== 'none';
     const result = await compute(request, reply, (input) => ({ kind: 'chart', format, input, measurand, width, title }));
     if (result === undefined) return reply;
@@ -117,27 +121,45 @@ export const seriesRoutes: FastifyPluginAsync<SeriesRoutesOptions> = async (app,
   app.get<{ Params: Params; Querystring: Query }>(`${base}/chart.png`, { onRequest }, chart('png'));
 };
 
+interface FieldIssue {
+  readonly field: string;
+  readonly message: string;
+}
+
+/** 400 invalid-request in the API's one shape: every field named in `issues`, and the message lists them. */
+function invalidQuery(reply: FastifyReply, issues: readonly FieldIssue[]) {
+  return reply.code(400).send({ error: 'invalid-request', message: issues.map((i) => `${i.field}: ${i.message}`).join('; '), issues });
+}
+
+/** A query value as an answer echoes it: at most 40 characters. */
+function clip(s: string): string {
+  return s.length > 40 ? `${s.slice(0, 40)}…` : s;
+}
+
 /** A query parameter given more than once counts by its first value, for parameters that take one. */
 function single(raw: string | string[] | undefined): string | undefined {
   return Array.isArray(raw) ? raw[0] : raw;
 }
 
 /**
- * "Fe,Cu" (or `measurand=Fe&measurand=Cu`) → the measurands; an error message naming the field when one is unknown;
- * undefined when absent.
+ * "Fe,Cu" (or `measurand=Fe&measurand=Cu`) → the measurands; the reason when one is unknown (the field is
+ * `query.measurand`); undefined when absent.
  */
 function parseMeasurands(raw: string | string[] | undefined): Measurand[] | string | undefined {
   const joined = Array.isArray(raw) ? raw.join(',') : raw;
   if (joined === undefined || joined.trim() === '') return undefined;
   const names = joined.split(',').map((s) => s.trim()).filter((s) => s !== '');
   const unknown = names.filter((n) => !isMeasurand(n));
-  if (unknown.length > 0) return `measurand: unknown measurand${unknown.length > 1 ? 's' : ''} ${unknown.map((n) => `"${n}"`).join(', ')}`;
+  if (unknown.length > 0) {
+    const named = unknown.slice(0, 5).map((n) => `"${clip(n)}"`).join(', ');
+    return `unknown measurand${unknown.length > 1 ? 's' : ''} ${named}${unknown.length > 5 ? ` and ${unknown.length - 5} more` : ''} (names are case-sensitive, e.g. Fe, tbn)`;
+  }
   return [...new Set(names as Measurand[])];
 }
 
 function parseWidth(raw: string | undefined, fallback: number): number | string {
   if (raw === undefined) return fallback;
   const n = Number(raw);
-  if (!Number.isInteger(n) || n < CHART_WIDTH.min || n > CHART_WIDTH.max) return `width: expected a whole number of pixels from ${CHART_WIDTH.min} to ${CHART_WIDTH.max}, got "${raw}"`;
+  if (raw.trim() === '' || !Number.isInteger(n) || n < CHART_WIDTH.min || n > CHART_WIDTH.max) return `expected a whole number of pixels from ${CHART_WIDTH.min} to ${CHART_WIDTH.max}, got "${clip(raw)}"`;
   return n;
 }

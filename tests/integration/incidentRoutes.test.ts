@@ -91,10 +91,18 @@ describe('incident routes', () => {
     const query = await app.inject({ method: 'GET', url: '/v1/incidents?severity=high', headers: auth('view-1-token-9a4f2c') });
     expect(query.statusCode).toBe(400);
     expect(query.json().message).toContain('query.severity');
-    // The engine's own checks come back as 400 too: shelving beyond the limit.
+    // The engine's own checks come back as 400 too, in the same shape, naming the body's field: shelving beyond the
+    // limit (168 h by default; NOW + 1 392 h here), and until a time already past.
     const long = await app.inject({ method: 'POST', url: `${PATH}/shelve`, headers: auth('resp-1-token-7c2d0e'), payload: { by: 'R. Tanaka', reason: 'x', until: '2026-05-30T00:00:00Z' } });
     expect(long.statusCode).toBe(400);
-    expect(long.json().message).toContain('maxShelveHours');
+    expect(long.json()).toEqual({
+      error: 'invalid-request',
+      message: expect.stringMatching(/^body\.until: shelving is limited to 168 h \(incidents\.maxShelveHours\)/),
+      issues: [{ field: 'body.until', message: expect.stringMatching(/^shelving is limited to 168 h/) }],
+    });
+    const past = await app.inject({ method: 'POST', url: `${PATH}/shelve`, headers: auth('resp-1-token-7c2d0e'), payload: { by: 'R. Tanaka', reason: 'x', until: '2026-04-01T00:00:00Z' } });
+    expect(past.statusCode).toBe(400);
+    expect(past.json().issues).toEqual([{ field: 'body.until', message: '2026-04-01T00:00:00.000Z is not in the future' }]);
 
     const unknown = encodeURIComponent('PS2-P3/gearbox@LAB-9999');
     expect((await app.inject({ method: 'GET', url: `/v1/incidents/${unknown}`, headers: auth('view-1-token-9a4f2c') })).statusCode).toBe(404);

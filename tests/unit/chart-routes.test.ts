@@ -1,6 +1,7 @@
 import Fastify, { type FastifyInstance } from 'fastify';
 import { PNG } from 'pngjs';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { ADVISORY_CAUTION } from '../../src/domain/caution.ts';
 import { seriesRoutes } from '../../src/http/seriesRoutes.ts';
 import { boardRoutes } from '../../src/http/boardRoutes.ts';
 import { inputOf } from '../../src/render/componentInput.ts';
@@ -41,6 +42,8 @@ describe('series and chart routes', () => {
     expect(res.statusCode).toBe(200);
     const { readiness, ...series } = res.json();
     expect(series).toEqual(JSON.parse(JSON.stringify(fixtureSeries().series)));
+    // The findings of the marks go out with the caution, forecasts enabled or not.
+    expect(series.advisory).toBe(ADVISORY_CAUTION);
     // What the analysis cannot judge yet, per measurand (first-day behaviour).
     expect(readiness.find((r: { measurand: string }) => r.measurand === 'Fe')?.summary).toMatch(/^Fe: /);
     const one = await app.inject({ method: 'GET', url: `${base}/series?measurand=Si`, headers: { authorization: 'Bearer resp-1-token-7c2d0e' } });
@@ -56,14 +59,25 @@ describe('series and chart routes', () => {
     const missing = await app.inject({ method: 'GET', url: '/v1/units/PS9/components/gearbox/series', headers: viewer });
     expect(missing.statusCode).toBe(404);
     expect(missing.json().message).toBe('no component "gearbox" of unit "PS9" is known');
+    // Every refusal of a field in the API's one shape: issues name it as query.<parameter>, and the message lists them.
     const unknown = await app.inject({ method: 'GET', url: `${base}/series?measurand=Fe,Xx`, headers: viewer });
     expect(unknown.statusCode).toBe(400);
-    expect(unknown.json().message).toBe('measurand: unknown measurand "Xx"');
+    expect(unknown.json()).toEqual({
+      error: 'invalid-request',
+      message: 'query.measurand: unknown measurand "Xx" (names are case-sensitive, e.g. Fe, tbn)',
+      issues: [{ field: 'query.measurand', message: 'unknown measurand "Xx" (names are case-sensitive, e.g. Fe, tbn)' }],
+    });
     const noMeasurand = await app.inject({ method: 'GET', url: `${base}/chart.svg`, headers: viewer });
-    expect(noMeasurand.json().message).toMatch(/^measurand: required/);
+    expect(noMeasurand.json().issues).toEqual([{ field: 'query.measurand', message: 'required, e.g. ?measurand=Fe' }]);
     const width = await app.inject({ method: 'GET', url: `${base}/chart.svg?measurand=Fe&width=10`, headers: viewer });
     expect(width.statusCode).toBe(400);
-    expect(width.json().message).toMatch(/^width: expected a whole number of pixels from 320 to 2000/);
+    expect(width.json().message).toMatch(/^query\.width: expected a whole number of pixels from 320 to 2000, got "10"$/);
+    const notNumber = await app.inject({ method: 'GET', url: `${base}/chart.png?measurand=Fe&width=abc`, headers: viewer });
+    expect(notNumber.statusCode).toBe(400);
+    expect(notNumber.json().issues).toEqual([{ field: 'query.width', message: 'expected a whole number of pixels from 320 to 2000, got "abc"' }]);
+    // Both parameters wrong: both named at once.
+    const both = await app.inject({ method: 'GET', url: `${base}/chart.svg?measurand=fe&width=`, headers: viewer });
+    expect(both.json().issues.map((i: { field: string }) => i.field)).toEqual(['query.measurand', 'query.width']);
     const noReadings = await app.inject({ method: 'GET', url: `${base}/chart.svg?measurand=Cu`, headers: viewer });
     expect(noReadings.statusCode).toBe(404);
     expect(noReadings.json().message).toBe('no Cu readings for PS2-P3 / gearbox');

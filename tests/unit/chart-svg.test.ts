@@ -4,6 +4,7 @@ import { describe, expect, it } from 'vitest';
 type Element = ReturnType<typeof DomUtils.findAll>[number];
 
 import { chartAltText } from '../../src/charts/altText.ts';
+import { ADVISORY_CAUTION } from '../../src/domain/caution.ts';
 import type { ComponentSeries } from '../../src/charts/componentSeries.ts';
 import { renderTrendChart } from '../../src/charts/trendChart/trendChart.ts';
 import { evaluateComponent } from '../../src/analysis/evaluate.ts';
@@ -110,7 +111,7 @@ describe('trend chart SVG', () => {
     const root = all((e) => e.name === 'svg')[0]!;
     expect(root.attribs.role).toBe('img');
     expect(root.attribs['aria-label']).toBe(chartAltText(series, 'Fe'));
-    expect(DomUtils.textContent(all((e) => e.name === 'desc')[0]!)).toBe(chartAltText(series, 'Fe'));
+    expect(DomUtils.textContent(all((e) => e.name === 'desc')[0]!)).toBe(`${chartAltText(series, 'Fe')} ${ADVISORY_CAUTION}`);
     const odd = renderTrendChart({ ...series, unit: 'P&1 <b>' }, 'Fe');
     expect(odd).not.toContain('<b>');
     expect(() => new Resvg(odd)).not.toThrow();

@@ -1,7 +1,8 @@
 /**
  * The trend chart of one measurand of one component, as an SVG string: the readings per oil charge with the fixed
  * and population limits, the wear rate per interval with its rate limits, and each change detector's statistic
- * against its limit, all on one time axis, with a mark wherever a rule fired. Scales, ticks and paths come from d3;
+ * against its limit, all on one time axis, with a mark wherever a rule fired, and under the legend the caution that
+ * goes with every finding (the tool advises; the lab, the maker's limits, local codes and licensed practice decide). Scales, ticks and paths come from d3;
  * the drawing is plain SVG so that the same string goes inline into the board and through resvg into an e-mail PNG.
  *
  * Visual language (ISA-101 high-performance HMI): grey data on a calm grey ground, colour only on the marks of
@@ -15,6 +16,7 @@ import { scaleLinear, scaleUtc, type ScaleTime } from 'd3-scale';
 import type { Measurand } from '../../domain/measurands.ts';
 import { escapeHtml as escapeXml } from '../../domain/safeText.ts';
 import { chartAltText } from '../altText.ts';
+import { advisoryLines } from './advisoryLines.ts';
 import type { ComponentSeries, MarkPanel, MeasurandSeries } from '../componentSeries.ts';
 import { NEUTRAL } from '../severityStyle.ts';
 import { drawCodes } from './cleanlinessPanel.ts';
@@ -57,7 +59,9 @@ export function renderTrendChart(series: ComponentSeries, measurand: Measurand, 
     top += p.height;
   }
   const axisBottom = top;
-  const height = axisBottom + 62;
+  // The caution under the legend: the marks' severities are advice, on the chart as wherever else findings go.
+  const advisory = advisoryLines(series.advisory, axisBottom + 64, width);
+  const height = axisBottom + 76 + advisory.height;
 
   const projection = projectionOf(m);
   const [t0, tLast] = extent(sampleTimes(m)) as [number, number];
@@ -72,7 +76,7 @@ export function renderTrendChart(series: ComponentSeries, measurand: Measurand, 
   const out: string[] = [
     `<svg xmlns="http://www.w3.org/2000/svg" width="${width}" height="${height}" viewBox="0 0 ${width} ${height}" role="img" aria-label="${escapeXml(alt)}" font-family="${FONT}" font-size="13" data-measurand="${escapeXml(m.measurand)}">`,
     `<title>${escapeXml(title === false ? `${series.unit} / ${series.component} — ${m.measurand}` : title)}</title>`,
-    `<desc>${escapeXml(alt)}</desc>`,
+    `<desc>${escapeXml(`${alt} ${series.advisory}`)}</desc>`,
     `<rect width="${width}" height="${height}" fill="${NEUTRAL.background}"/>`,
   ];
   if (title !== false) out.push(text(MARGIN.left, 24, title, { size: 17, weight: 'bold' }));
@@ -91,6 +95,7 @@ export function renderTrendChart(series: ComponentSeries, measurand: Measurand, 
   }
   out.push(...xAxis(x, xTicks, axisBottom));
   out.push(...legend(axisBottom + 44, width, projection.length > 0 ? m.forecast?.projection.length ?? 0 : 0));
+  out.push(...advisory.svg);
   out.push('</svg>');
   return out.join('\n');
 }
