@@ -1,8 +1,9 @@
 /**
  * The whole pipeline in one process without Redis: every record, in file order, goes through the same storing and
  * evaluation code as in the live worker (storeResult, evaluateStored), on in-memory storage, and every component a
- * late result re-judges is evaluated again before the next record. The timeline it returns lists the findings of
- * each newly judged step and every incident change, in sample-time order; the store it hands back holds the
+ * late result re-judges is evaluated again before the next record. The timeline it returns lists every incident change
+ * and each sample's findings as its last judgement gives them (once each; see FindingLine), in sample-time order; the
+ * store it hands back holds the
  * final state (histories, incidents), which depends only on the set of records and on when each arrived (`arrival`):
  * a result older than backfill.quietAfterDays when it arrives is quiet backfill, and an incident only ever seen in
  * quiet backfill closes on its return to normal, so that a later finding opens a new one.
@@ -10,7 +11,7 @@
 import type { Step } from '../analysis/model.ts';
 import type { Config } from '../domain/config.ts';
 import type { FieldIssue } from '../domain/event.ts';
-import type { Finding } from '../domain/finding.ts';
+import { findingKey, type Finding } from '../domain/finding.ts';
 import { incidentRules } from '../incidents/policy.ts';
 import type { NotifiedEntry, TimelineEntry } from '../incidents/model.ts';
 import type { SourceRecord } from '../intake/fileRecords.ts';
@@ -21,7 +22,15 @@ import { InvalidResultError, storeResult, storeSample, type StoredResult } from 
 import { claimedSampleId, validateResult } from '../intake/validate.ts';
 import { fileConflictReason, FileRevisions } from './fileRevisions.ts';
 
-export type FindingLine = { readonly type: 'finding'; readonly quiet: boolean } & Finding;
+/**
+ * One finding of a sample as the sample's last judgement gives it: a sample is judged again when a result sampled
+ * before it arrives later (another unit's from an earlier month changes the group statistics it is judged with; its
+ * own component's is folded before it) or when it is corrected, and only that last judgement is
+ * listed, each finding once (by unit, component, sample and finding key). `revised` marks a finding an earlier
+ * judgement of the sample gave otherwise or not at all: incident lines made at that earlier judgement may show it
+ * otherwise. A finding only earlier judgements gave is not listed (the incident lines keep what it changed).
+ */
+export type FindingLine = { readonly type: 'finding'; readonly quiet: boolean; readonly revised?: true } & Finding;
 
 /**
  * One timeline entry of an incident, flat: the entry's own fields, its kind as `change`, and the incident's state and
@@ -90,7 +99,7 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
   let clock = live ? Number.NEGATIVE_INFINITY : now;
   const store = new MemoryStore({ config, now: () => now });
   const deps: EvaluationDeps = { store, ledger: store, config, rules: incidentRules(config), now: () => clock };
-  const printed = new Map<string, string>();
+  const judged = new Map<string, SampleJudgement>();
   const keyed: Array<{ key: number; line: TimelineLine }> = [];
   let count = 0;
   let rejected = 0;
@@ -126,11 +135,9 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
     }
     if (live) clock = Math.max(clock, stored.sample.time);
     if (!stored.outcome.evaluationDue) continue;
-    await settleComponent(deps, stored.sample, (result) => {
+    await settleComponent(deps, stored.sample, (result, ref) => {
       const key = Math.max(...result.steps.map((s) => Date.parse(s.sampledAt)));
-      for (const step of result.steps) {
-        for (const f of changedFindings(step, printed)) keyed.push({ key: Date.parse(f.sampledAt), line: { type: 'finding', ...f, quiet: !live && Date.parse(f.sampledAt) < quietBefore } });
-      }
+      for (const step of result.steps) judge(judged, ref.unit, ref.component, step);
       for (const c of result.changes) {
         // A notified entry's own `type` (the message's event type) travels as `event`: `type` names the line.
         const { kind, ...withType } = c.entry;
@@ -154,8 +161,16 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
       }
     });
   }
-  // Array.prototype.sort is stable: lines of one instant keep the order they were produced in.
-  const timeline = keyed.sort((a, b) => a.key - b.key).map((k) => k.line);
+  for (const { findings, revised } of judged.values()) {
+    for (const f of findings) {
+      const at = Date.parse(f.sampledAt);
+      keyed.push({ key: at, line: { type: 'finding', ...f, quiet: !live && at < quietBefore, ...(revised.has(findingKey(f)) && { revised: true as const }) } });
+    }
+  }
+  // A sample's findings come before the incident changes of the same instant, which they explain. Array.prototype.sort
+  // is stable: otherwise lines of one instant keep the order they were produced in.
+  const rank = (l: TimelineLine) => (l.type === 'finding' ? 0 : 1);
+  const timeline = keyed.sort((a, b) => a.key - b.key || rank(a.line) - rank(b.line)).map((k) => k.line);
   return { timeline, records: count, rejected, store };
 }
 
@@ -166,10 +181,21 @@ async function storeOnArrival(store: MemoryStore, config: Config, record: unknow
   return storeSample(store, config, parsed.sample, parsed.sample.time);
 }
 
-/** The step's findings unless exactly these were listed for its sample before (a step folded again). */
-function changedFindings(step: Step, printed: Map<string, string>): readonly Finding[] {
-  const fingerprint = JSON.stringify(step.findings);
-  if (printed.get(step.sampleId) === fingerprint) return [];
-  printed.set(step.sampleId, fingerprint);
-  return step.findings;
+/** A sample's last judgement, and the keys of the findings in it an earlier judgement gave otherwise or not at all. */
+interface SampleJudgement {
+  findings: readonly Finding[];
+  readonly revised: Set<string>;
+}
+
+/** Records a step as its sample's last judgement: a step folded again replaces the one before, finding by finding. */
+function judge(judged: Map<string, SampleJudgement>, unit: string, component: string, step: Step): void {
+  const id = JSON.stringify([unit, component, step.sampleId]);
+  const before = judged.get(id);
+  if (before === undefined) {
+    judged.set(id, { findings: step.findings, revised: new Set() });
+    return;
+  }
+  const earlier = new Map(before.findings.map((f) => [findingKey(f), JSON.stringify(f)]));
+  for (const f of step.findings) if (earlier.get(findingKey(f)) !== JSON.stringify(f)) before.revised.add(findingKey(f));
+  before.findings = step.findings;
 }

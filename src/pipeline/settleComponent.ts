@@ -7,7 +7,7 @@ import { componentKey } from '../domain/event.ts';
 import { evaluateStored, type EvaluationDeps, type EvaluationResult } from './evaluateStored.ts';
 import type { ComponentRef } from './ports.ts';
 
-export async function settleComponent(deps: EvaluationDeps, ref: ComponentRef, onEvaluated?: (r: Extract<EvaluationResult, { kind: 'evaluated' }>) => void): Promise<number> {
+export async function settleComponent(deps: EvaluationDeps, ref: ComponentRef, onEvaluated?: (r: Extract<EvaluationResult, { kind: 'evaluated' }>, ref: ComponentRef) => void): Promise<number> {
   const queue: ComponentRef[] = [ref];
   const queued = new Set([componentKey(ref)]);
   let evaluations = 0;
@@ -20,7 +20,7 @@ export async function settleComponent(deps: EvaluationDeps, ref: ComponentRef, o
       if (result.kind === 'busy' || result.kind === 'lost-lock') throw new Error(`${componentKey(next)}: the component is held by another evaluation`);
       if (result.kind !== 'evaluated') break;
       evaluations += 1;
-      onEvaluated?.(result);
+      onEvaluated?.(result, next);
       await deps.store.markDirty(result.cascade);
       for (const c of result.cascade) {
         if (!queued.has(componentKey(c.ref))) {

@@ -2,8 +2,9 @@
  * What `wearshift backtest` and `wearshift replay` print for people, through the real command line: the backtest's
  * summary ends with the caution (and its --json carries it), says when the history is too short for a rate per 100
  * component-years instead of printing one; replay marks the findings that open nothing — advisory ones, and held
- * ones whose sample is in doubt — so that they do not read like incident findings; and both --help texts say what
- * --now decides.
+ * ones whose sample is in doubt — so that they do not read like incident findings; a file ordered unit by unit prints
+ * each finding once, as in time order, a re-judged one marked revised in the text and the JSON alike; and both --help
+ * texts say what --now decides.
  */
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -22,7 +23,7 @@ const T0 = Date.parse('2025-01-06T08:00:00Z');
  * level but unit hours below the previous sample's: a sampling check puts the sample in doubt, so the water findings
  * are held.
  */
-function fleet(): string {
+function fleet(order: 'time' | 'unit' = 'time'): string {
   const lines = [];
   for (const [u, unit] of ['P1', 'P2', 'P3', 'P4', 'P5', 'P6'].entries()) {
     for (let i = 0; i < 12; i++) {
@@ -38,8 +39,9 @@ function fleet(): string {
       lines.push({ sampleId: `${unit}-${String(i).padStart(2, '0')}`, unit, component: 'gearbox', sampledAt, unitHours, oilHours: 250 * (i + 1), readings });
     }
   }
-  return lines
-    .sort((a, b) => (a.sampledAt < b.sampledAt ? -1 : 1))
+  // Ordered unit by unit: P1's results, its outlier among them, arrive before the other units' earlier ones.
+  const ordered = lines.sort(order === 'time' ? (a, b) => (a.sampledAt < b.sampledAt ? -1 : 1) : (a, b) => (a.unit < b.unit ? -1 : a.unit > b.unit ? 1 : 0));
+  return ordered
     .map((l) => JSON.stringify(l))
     .join('\n');
 }
@@ -73,6 +75,9 @@ describe('backtest and replay output', { timeout: 600_000 }, () => {
   let help: CliResult;
   let replayHelp: CliResult;
   let replayJson: CliResult;
+  let byUnitText: CliResult;
+  let byUnitJson: CliResult;
+  let byTimeJson: CliResult;
 
   beforeAll(async () => {
     dir = mkdtempSync(join(tmpdir(), 'wearshift-output-'));
@@ -81,13 +86,17 @@ describe('backtest and replay output', { timeout: 600_000 }, () => {
     writeFileSync(file('config.yaml'), CONFIG);
     // The fleet with one record that cannot be read, so that every kind of JSON line is printed.
     writeFileSync(file('fleet-and-one-bad.jsonl'), `${fleet()}\n{"sampleId":"BAD-1","unit":"P1"}\n`);
-    [replay, text, json, help, replayHelp, replayJson] = await Promise.all([
+    writeFileSync(file('fleet-by-unit.jsonl'), `${fleet('unit')}\n`);
+    [replay, text, json, help, replayHelp, replayJson, byUnitText, byUnitJson, byTimeJson] = await Promise.all([
       runCli(['replay', file('fleet.jsonl'), '--config', file('config.yaml'), ...NOW]),
       runCli(['backtest', file('two.jsonl'), '--config', file('config.yaml'), ...NOW, '--out', file('two.html')]),
       runCli(['backtest', file('two.jsonl'), '--config', file('config.yaml'), ...NOW, '--json']),
       runCli(['backtest', '--help']),
       runCli(['replay', '--help']),
       runCli(['replay', file('fleet-and-one-bad.jsonl'), '--config', file('config.yaml'), ...NOW, '--json']),
+      runCli(['replay', file('fleet-by-unit.jsonl'), '--config', file('config.yaml'), ...NOW]),
+      runCli(['replay', file('fleet-by-unit.jsonl'), '--config', file('config.yaml'), ...NOW, '--json']),
+      runCli(['replay', file('fleet.jsonl'), '--config', file('config.yaml'), ...NOW, '--json']),
     ]);
   }, 600_000);
   afterAll(() => rmSync(dir, { recursive: true, force: true }));
@@ -102,6 +111,29 @@ describe('backtest and replay output', { timeout: 600_000 }, () => {
     const sampling = line('P2-10', 'Fe sampling')!;
     expect(sampling).toMatch(/ caution /);
     expect(sampling).not.toMatch(/\((advisory|held)/);
+  });
+
+  it('replay of a file ordered unit by unit prints each finding once, the same as in time order, text and JSON alike', () => {
+    expect(byUnitJson.code).toBe(0);
+    expect(byUnitText.code).toBe(0);
+    type Line = { type: string; unit: string; component: string; sampleId: string; measurand: string; rule: string; check?: string; direction?: string; revised?: boolean };
+    const findings = (r: CliResult) => r.stdout.trim().split('\n').map((l) => JSON.parse(l) as Line).filter((l) => l.type === 'finding');
+    const byUnit = findings(byUnitJson);
+    const byTime = findings(byTimeJson);
+    const ids = byUnit.map((f) => [f.unit, f.component, f.sampleId, f.measurand, f.rule, f.check ?? '', f.direction ?? ''].join('|'));
+    expect(ids.length).toBeGreaterThan(0);
+    expect(new Set(ids).size).toBe(ids.length);
+    const content = ({ revised: _r, ...f }: Line) => JSON.stringify(f);
+    expect(byUnit.map(content).sort()).toEqual(byTime.map(content).sort());
+    expect(byTime.filter((f) => f.revised)).toEqual([]);
+    // P1-10 was judged before the other units' earlier results came, with no population level to compare with.
+    expect(byUnit.filter((f) => f.revised).map((f) => `${f.sampleId} ${f.measurand} ${f.rule}`)).toContain('P1-10 Fe population');
+    // The text prints the same findings, a revised one marked as such.
+    const textFindings = byUnit.map((f) => byUnitText.stdout.split('\n').filter((l) => l.includes(`  ${f.unit}/${f.component}  ${f.sampleId}  ${f.measurand} ${f.rule}`)));
+    for (const [i, lines] of textFindings.entries()) {
+      expect(lines).toHaveLength(1);
+      expect(lines[0]!.includes('(revised)')).toBe(byUnit[i]!.revised === true);
+    }
   });
 
   it('the backtest summary says the history is too short for a rate and ends with the caution', () => {

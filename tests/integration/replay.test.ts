@@ -109,7 +109,8 @@ describe('the live worker, replay and backtest', () => {
       expect(live.length).toBeGreaterThan(3);
       expect(verdicts).toEqual(live);
 
-      // The findings as the verdict stands: the findings log live, and the last finding lines per sample in replay.
+      // The findings as the verdict stands: the findings log live, and replay's finding lines (each sample's last
+      // judgement, each finding once).
       const replayFindings = new Map<string, Finding[]>();
       for (const l of lines.filter((x) => x.type === 'finding') as unknown as Finding[]) replayFindings.set(`${l.unit}/${l.component}/${l.sampleId}`, []);
       for (const l of lines.filter((x) => x.type === 'finding') as unknown as Finding[]) replayFindings.get(`${l.unit}/${l.component}/${l.sampleId}`)!.push(l);

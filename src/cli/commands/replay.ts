@@ -1,7 +1,7 @@
 /**
  * `wearshift replay FILE`: the whole pipeline in-process on a history, no Redis: the same storing,
- * evaluation and incident code as the live worker, records taken in file order. Prints the findings of each
- * newly judged sample and every incident change, in time order; then the incidents as the verdict stands after the
+ * evaluation and incident code as the live worker, records taken in file order. Prints each sample's findings as its
+ * last judgement gives them and every incident change, in time order; then the incidents as the verdict stands after the
  * last record with the time-to-limit forecasts of their evidence, and what each component cannot be judged on yet.
  */
 import type { Command } from 'commander';
@@ -45,11 +45,16 @@ export function registerReplay(program: Command): void {
         '',
         'With --json, one JSON object per line, in this order:',
         '  {"type":"rejected",...}   a record refused, as it is read: line, sampleId, errors [{path, reason}]',
-        '  {"type":"finding",...}    a finding of a newly judged sample: unit, component, measurand, rule,',
-        '                            severity, disposition, sampleId, sampledAt, explanation, quiet',
+        '  {"type":"finding",...}    a finding of a sample as its last judgement gives it, once: unit, component,',
+        '                            measurand, rule, severity, disposition, sampleId, sampledAt, explanation,',
+        '                            quiet; "revised": true when an earlier judgement of the sample (before a',
+        '                            result sampled earlier arrived, or a correction) gave it otherwise or not at',
+        '                            all, so incident lines may show it otherwise; one only an earlier judgement',
+        '                            gave is not printed',
         '  {"type":"incident",...}   an incident change (a timeline entry): incidentId, change (opened, finding,',
         '                            notified, acknowledged, returned, closed, ...), at, incidentState,',
         '                            incidentSeverity; finding and incident lines together in sample-time order',
+        '                            (a sample\'s findings before the incident changes of the same time)',
         '  {"type":"verdict",...}    each incident as it stands after the last record (withdrawn ones left out):',
         '                            incidentId, kind, state, severity, peakSeverity, evidence, closed, the',
         '                            time-to-limit forecast of an open one, and the caution as "advisory"',
@@ -140,7 +145,7 @@ function readable(line: TimelineLine, zone: string): string {
   const where = `${line.unit}/${line.component}`;
   if (line.type === 'finding') {
     const rule = `${line.measurand} ${line.rule}${line.direction ? ` ${line.direction}` : ''}`;
-    return `${formatTime(line.sampledAt, zone)}  ${where}  ${line.sampleId}  ${rule}  ${line.severity}${DISPOSITION_MARK[line.disposition]}${line.quiet ? ' (quiet)' : ''}  ${line.explanation}`;
+    return `${formatTime(line.sampledAt, zone)}  ${where}  ${line.sampleId}  ${rule}  ${line.severity}${DISPOSITION_MARK[line.disposition]}${line.quiet ? ' (quiet)' : ''}${line.revised ? ' (revised)' : ''}  ${line.explanation}`;
   }
   const l = line as unknown as Record<string, unknown>;
   const detail = typeof l.explanation === 'string' ? `  ${l.explanation}` : typeof l.how === 'string' ? `  ${l.how}` : '';
