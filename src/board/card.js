@@ -1,14 +1,14 @@
 /*
- * An incident card, on the board and on the incident page: its severity, state, evidence and forecasts, the trend
- * of its leading measurand, and acknowledge / shelve (unshelve while shelved) / resolve with a note (enabled for a
- * responder token only). While one of its requests is on its way, the card's actions are marked unavailable and
+ * An incident card, on the board and on the incident page: its severity, state, evidence and forecasts, the advisory
+ * findings of the evidence's sample (which open nothing), the trend of its leading measurand, and acknowledge /
+ * shelve (unshelve while shelved) / resolve with a note (enabled for a responder token only). While one of its requests is on its way, the card's actions are marked unavailable and
  * ignore presses, so that nothing is sent twice.
  */
 import { markPending, sendFor, setStatus } from './cardStatus.js';
 import { loadChart } from './chart.js';
 import { announce, el } from './dom.js';
 import { duration, formatTime } from './format.js';
-import { bySeverity, FORECAST_CAUTION, measurandsOf, severityBadge, stateWords, waitingSince } from './incidentText.js';
+import { ADVISORY_HEADING, bySeverity, FORECAST_CAUTION, measurandsOf, severityBadge, stateWords, waitingSince } from './incidentText.js';
 import { view } from './page.js';
 import { componentPath, incidentPagePath, incidentPath } from './paths.js';
 import { scheduleReload } from './reload.js';
@@ -40,6 +40,9 @@ export function createCard(incident) {
   const badge = el('span');
   const state = el('p', { class: 'state' });
   const evidence = el('ul', { class: 'evidence', 'aria-label': 'Evidence, most severe first' });
+  // The advisory findings of the evidence's sample, under a heading of their own: they open nothing and set no severity.
+  const advisoryList = el('ul', { class: 'evidence advisory-findings', 'aria-labelledby': `${id}-advisory` });
+  const advisory = el('div', { class: 'advisory', hidden: true }, el('p', { class: 'advisory-heading', id: `${id}-advisory`, text: ADVISORY_HEADING }), advisoryList);
   const chartCaption = el('p', { class: 'chart-caption' });
   const chart = el('div', { class: 'chart' }, el('p', { class: 'loading', text: 'Loading the trend chart…' }));
   const note = el('textarea', { id: `${id}-note`, maxlength: '2000', rows: '2' });
@@ -65,8 +68,8 @@ export function createCard(incident) {
     viewerNote,
     status,
   );
-  node.append(el('div', { class: 'incident-head' }, badge, title), state, evidence, chartCaption, chart, actions);
-  const card = { node, title, badge, state, evidence, chartCaption, chart, note, shelveFor, status, buttons, viewerNote, incident, chartKey: '', verdicts, sampleRow, sampleQuestion, pending: false };
+  node.append(el('div', { class: 'incident-head' }, badge, title), state, evidence, advisory, chartCaption, chart, actions);
+  const card = { node, title, badge, state, evidence, advisory, advisoryList, chartCaption, chart, note, shelveFor, status, buttons, viewerNote, incident, chartKey: '', verdicts, sampleRow, sampleQuestion, pending: false };
   // Drawn again after every answer to one of its requests (cardStatus.js sendFor).
   card.redraw = () => updateCard(card, card.incident);
   for (const [action, button] of Object.entries(buttons)) button.addEventListener('click', () => void act(card, action));
@@ -98,6 +101,16 @@ export function updateCard(card, incident) {
       : []),
     ...forecasts.map((f) => el('li', { class: 'forecast', 'data-forecast': f.outcome }, el('strong', { text: 'time to limit: ' }), f.text)),
     ...(forecasts.length > 0 ? [el('li', { class: 'forecast-caution', text: FORECAST_CAUTION })] : []),
+  );
+  // Advisory findings (the API's `context`): the board's cards show the first few, the incident page every one.
+  const advisories = bySeverity(incident.context);
+  const advisoriesShown = view === 'incident' ? advisories : advisories.slice(0, CARD_EVIDENCE);
+  card.advisory.hidden = advisories.length === 0;
+  card.advisoryList.replaceChildren(
+    ...advisoriesShown.map((f) => el('li', { 'data-severity': f.severity, 'data-rule': f.rule }, `${f.measurand} · ${f.severity} · ${f.rule}: `, f.explanation)),
+    ...(advisories.length > advisoriesShown.length
+      ? [el('li', { class: 'more' }, el('a', { href: incidentPagePath(incident.id), text: `${advisories.length - advisoriesShown.length} more on the incident page` }))]
+      : []),
   );
   const enabled = canAct() && !incident.closed;
   for (const button of Object.values(card.buttons)) {

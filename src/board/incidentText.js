@@ -8,6 +8,9 @@ import { formatTime } from './format.js';
 export const SEVERITY_RANK = { watch: 0, caution: 1, alarm: 2 };
 const GLYPH = { watch: '◇', caution: '▲', alarm: '■' };
 
+/** Above the advisory findings of the evidence's sample, as in the e-mail (src/channels/email/emailRender.ts). */
+export const ADVISORY_HEADING = 'Also on this sample (advisory, opens no incident)';
+
 /** Beside every forecast, as in the e-mail (src/domain/caution.ts). */
 export const FORECAST_CAUTION = 'A forecast assumes the present trend continues; wear can speed up or settle at any time.';
 
@@ -68,6 +71,17 @@ export function sampleVerdictText(entry) {
   return (VERDICT_WORDS[entry.verdict] ?? ((sampleId, by) => `sample ${sampleId}: ${entry.verdict} by ${by}`))(entry.sampleId, entry.by);
 }
 
+/** An incident closed by a responder's word on its opening sample (as closureText in src/incidents/model.ts). */
+const CLOSING_VERDICT_WORDS = {
+  rejected: (by) => `rejected by ${by} (sample judged wrong; kept out of the trend)`,
+  confirmed: (by) => `confirmed as genuine by ${by} (back into the trend)`,
+};
+export function closingVerdictText(closure) {
+  const by = closure.by ?? 'a responder';
+  const words = CLOSING_VERDICT_WORDS[closure.verdict]?.(by) ?? `judged by ${by}`;
+  return `closed: sample ${closure.sampleId ?? '(unknown)'} ${words}`;
+}
+
 /** A message event's targets, each one held back marked so, with why (as notifiedTargetsText in src/incidents/model.ts). */
 const WITHDRAWN_WORDS = { acknowledged: 'acknowledged', shelved: 'shelved', closed: 'closed', returned: 'returned to normal' };
 export function notifiedTargetsText(entry) {
@@ -103,6 +117,7 @@ export function timelineText(entry) {
     case 'unshelved':
       return `${at}: ${entry.by ? `unshelved by ${entry.by}` : 'shelving ended'}`;
     case 'closed':
+      if (entry.how === 'sample-verdict') return `${at}: ${closingVerdictText(entry)}`;
       return `${at}: closed (${entry.how})${entry.by ? ` by ${entry.by}` : ''}${entry.note ? ` — ${entry.note}` : ''}`;
     case 'sample-verdict':
       return `${at}: ${sampleVerdictText(entry)}`;

@@ -12,6 +12,20 @@ import { INCIDENT_MESSAGE_TYPES } from '../notify/message.ts';
 const isoTime = z.string().describe('RFC 3339 date-time.');
 const forecastTime = z.object({ oilHours: z.number(), hoursFromNow: z.number(), date: z.string().optional() }).strict();
 
+const messageFinding = z
+  .object({
+    measurand: z.string(),
+    rule: z.string(),
+    severity: z.string(),
+    value: z.number(),
+    threshold: z.number().optional(),
+    basis: z.string().describe("What value is: 'reading', 'rate', 'ewma', 'cusum', 'change', 'steps'."),
+    sampleId: z.string(),
+    sampledAt: isoTime,
+    explanation: z.string(),
+  })
+  .strict();
+
 export const IncidentMessageSchema = z
   .object({
     type: z.enum(INCIDENT_MESSAGE_TYPES),
@@ -31,21 +45,12 @@ export const IncidentMessageSchema = z
         apiUrl: z.string().describe("The incident's address in the JSON API."),
       })
       .strict(),
-    findings: z.array(
-      z
-        .object({
-          measurand: z.string(),
-          rule: z.string(),
-          severity: z.string(),
-          value: z.number(),
-          threshold: z.number().optional(),
-          basis: z.string().describe("What value is: 'reading', 'rate', 'ewma', 'cusum', 'change', 'steps'."),
-          sampleId: z.string(),
-          sampledAt: isoTime,
-          explanation: z.string(),
-        })
-        .strict(),
-    ),
+    findings: z.array(messageFinding).describe('The evidence: the findings that opened or updated the incident; the severity is the highest of theirs.'),
+    advisoryFindings: z
+      .array(messageFinding)
+      .describe(
+        'Also on the evidence\u2019s sample: advisory findings (e.g. population band limits), which open no incident and take no part in the severity. Empty when there are none.',
+      ),
     forecast: z
       .object({
         caution: z.string().describe('A forecast assumes the present trend continues.'),

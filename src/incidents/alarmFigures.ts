@@ -19,6 +19,7 @@ import type { AlarmFiguresConfig } from '../domain/alarmFiguresConfig.ts';
 import { RULE_FAMILIES, type IncidentKind, type RuleFamily, type Severity } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
 import type { TimelineEntry } from './model.ts';
+import { closingVerdict } from './sampleVerdict.ts';
 
 const DAY_MS = 86_400_000;
 const YEAR_MS = 365.25 * DAY_MS;
@@ -131,10 +132,24 @@ interface Annunciation {
   readonly chattering: boolean;
 }
 
+/**
+ * An incident a late or corrected result withdrew: the history no longer produces it, nobody answered it, and it is
+ * left out of every figure. An incident a responder's verdict on its sample closed was answered by a person after it
+ * was announced and counts like any other; so does a record written before that closure had a kind of its own, closed
+ * as withdrawn after a verdict on its opening sample that explains why (sampleVerdict.ts `closingVerdict`).
+ */
+export function withdrawnByLateResult(incident: Pick<FigureIncident, 'kind' | 'timeline'>): boolean {
+  const withdrawn = incident.timeline.find((e) => e.kind === 'closed' && e.how === 'withdrawn');
+  if (withdrawn === undefined) return false;
+  // The word must come before the closing: a word given to a record already withdrawn explains nothing.
+  const word = closingVerdict(incident);
+  return word === undefined || Date.parse(word.at) > Date.parse(withdrawn.at);
+}
+
 export function alarmFigures(input: AlarmFigureInput): AlarmFigures {
   const { from, to, thresholds } = input;
   if (!(Number.isFinite(from) && Number.isFinite(to) && from <= to)) throw new RangeError(`alarm figures need a period with from ≤ to, got ${from} and ${to}`);
-  const incidents = input.incidents.filter((i) => !i.timeline.some((e) => e.kind === 'closed' && e.how === 'withdrawn'));
+  const incidents = input.incidents.filter((i) => !withdrawnByLateResult(i));
   const inPeriod = (t: number) => t >= from && t <= to;
   const days = (to - from) / DAY_MS;
   const componentYears = input.componentYears ?? null;

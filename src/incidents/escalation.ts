@@ -10,7 +10,7 @@ import { maxSeverity, severityRank } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
 import type { EscalationPolicy } from '../domain/escalationConfig.ts';
 import { isoOf, type DraftIncident, type Work } from './draft.ts';
-import { describeState, type ClosedHow, type IncidentEventType, type IncidentSnapshot } from './model.ts';
+import { closureText, describeState, type IncidentEventType, type IncidentSnapshot } from './model.ts';
 import { recipients, selectPolicy } from './policy.ts';
 import { REOPENED } from './verdict.ts';
 
@@ -38,6 +38,7 @@ export function snapshot(inc: DraftIncident, reason: string): IncidentSnapshot {
     lastSampledAt: inc.lastSampledAt,
     tier: Math.max(0, inc.escalation.reachedTier),
     findings: structuredClone(inc.evidence),
+    advisoryFindings: structuredClone(inc.context),
     ...(inc.forecast !== undefined && { forecast: structuredClone(inc.forecast) }),
     reason,
   };
@@ -189,13 +190,6 @@ function announce(inc: DraftIncident, work: Work, type: IncidentEventType, reaso
   advanceEscalation(inc, work, reason);
 }
 
-const CLOSED_BECAUSE: Record<ClosedHow, string> = {
-  'acknowledged-and-returned': 'returned to normal and acknowledged',
-  resolved: 'resolved by hand',
-  'returned-unannounced': 'returned to normal before anyone was told',
-  withdrawn: 'withdrawn: a late or corrected result changed the history so that this incident no longer stands',
-};
-
 export function cancelEscalations(inc: DraftIncident, work: Work, reason: 'acknowledged' | 'shelved' | 'closed'): void {
   if (inc.escalation.dueAt === null) return;
   inc.escalation.dueAt = null;
@@ -239,7 +233,7 @@ function annunciateOne(inc: DraftIncident, work: Work): void {
     told.closed = true;
     cancelEscalations(inc, work, 'closed');
     const note = inc.closed.note === undefined ? '' : `: ${inc.closed.note}`;
-    if (inc.announced !== null) tellReached(inc, work, 'wearshift.incident.closed', `${CLOSED_BECAUSE[inc.closed.how]}${note}`);
+    if (inc.announced !== null) tellReached(inc, work, 'wearshift.incident.closed', `${closureText(inc.closed)}${note}`);
     return;
   }
   const ack = inc.acknowledged;

@@ -6,17 +6,22 @@
  *
  * What was told is not rewound: at the end each incident takes the annunciation record of the incident of the same
  * id now, and the annunciation tells the difference — a new incident, new evidence — as news. An open incident the
- * new verdict no longer holds is withdrawn: closed, and everyone told of it is told so.
+ * new verdict no longer holds is closed, and everyone told of it is told so: as answered when a responder's word on
+ * the sample that opened it took it away (`sample-verdict`), else as withdrawn by the changed history.
  */
 import { draftOf, type DraftIncident, type DraftState, type Work } from './draft.ts';
 import { annunciate } from './escalation.ts';
 import type { IncidentStep, StepContext } from './applySteps.ts';
-import type { ComponentIncidents, Incident, IncidentResult, LoggedAction } from './model.ts';
+import type { Closure, ComponentIncidents, Incident, IncidentResult, LoggedAction } from './model.ts';
+import { closingVerdict } from './sampleVerdict.ts';
 import { endExpiredShelving } from './shelving.ts';
 import { close, comparePosition, judgeAction, judgeStep, positionOf } from './verdict.ts';
 
 export interface IncidentFoldResult extends IncidentResult {
-  /** Incidents that no longer stand, closed as withdrawn (they leave the component's state). */
+  /**
+   * Incidents that no longer stand (they leave the component's state): closed as withdrawn, or as `sample-verdict`
+   * when a responder's word on their opening sample took them away.
+   */
   readonly withdrawn: readonly Incident[];
   readonly archived: readonly Incident[];
 }
@@ -75,12 +80,13 @@ export class IncidentFold {
     }
     const withdrawn: DraftIncident[] = [];
     for (const before of told.values()) {
-      if (produced.has(before.id) || before.closed?.how === 'withdrawn') continue;
+      if (produced.has(before.id) || before.closed?.how === 'withdrawn' || before.closed?.how === 'sample-verdict') continue;
       const gone = structuredClone(before) as DraftIncident;
-      if (gone.closed === null) close(gone, { at: this.ctx.now.toISOString(), how: 'withdrawn' });
+      const closure = goneBecause(before, this.ctx.now);
+      if (gone.closed === null) close(gone, closure);
       else {
-        gone.closed = { ...gone.closed, how: 'withdrawn' };
-        gone.timeline.push({ kind: 'closed', at: this.ctx.now.toISOString(), how: 'withdrawn' });
+        gone.closed = closure;
+        gone.timeline.push({ kind: 'closed', ...closure });
       }
       withdrawn.push(gone);
     }
@@ -97,6 +103,17 @@ export class IncidentFold {
       this.next += 1;
     }
   }
+}
+
+/**
+ * Why an incident the history no longer produces is gone: a responder's word on the sample that opened it (closed as
+ * `sample-verdict`, at the time the word was given, so a refold with the same words closes it the same way), or else a
+ * late or corrected result (`withdrawn`, now).
+ */
+function goneBecause(incident: Incident, now: Date): Closure {
+  const word = closingVerdict(incident);
+  if (word === undefined) return { at: now.toISOString(), how: 'withdrawn' };
+  return { at: word.at, how: 'sample-verdict', by: word.by, sampleId: word.sampleId, verdict: word.verdict };
 }
 
 function carryAnnunciation(inc: DraftIncident, before: Incident): void {

@@ -50,14 +50,26 @@ export type ClosedHow =
   /** Only ever seen in quiet backfill, so nobody was asked to acknowledge it. */
   | 'returned-unannounced'
   /** A late or corrected result changed the history so that this incident no longer stands; see the incident that replaced it. */
-  | 'withdrawn';
+  | 'withdrawn'
+  /**
+   * A responder answered it: the sample that opened it, put in doubt, was judged (`sampleId`, `verdict`, `by`; `at`:
+   * when the word was given) — rejected, or, for a sampling incident, confirmed as genuine — so it no longer stands.
+   */
+  | 'sample-verdict';
 
 export interface Closure {
   readonly at: string;
   readonly how: ClosedHow;
   readonly by?: string;
   readonly note?: string;
+  /** With `sample-verdict`: the sample judged. */
+  readonly sampleId?: string;
+  /** With `sample-verdict`: the word that closed it. */
+  readonly verdict?: ClosingVerdict;
 }
+
+/** The words on a sample in doubt that can close an incident (see ClosedHow `sample-verdict`). */
+export type ClosingVerdict = 'confirmed' | 'rejected';
 
 /** Where an incident's escalation chain stands. A chain starts when the incident is announced to tier 0. */
 export interface EscalationProgress {
@@ -93,7 +105,7 @@ export type TimelineEntry =
   | { readonly kind: 'unacknowledged'; readonly at: string; readonly reason: string }
   | { readonly kind: 'shelved'; readonly at: string; readonly by: string; readonly until: string; readonly reason: string }
   | { readonly kind: 'unshelved'; readonly at: string; readonly by?: string }
-  | { readonly kind: 'closed'; readonly at: string; readonly how: ClosedHow; readonly by?: string; readonly note?: string }
+  | { readonly kind: 'closed'; readonly at: string; readonly how: ClosedHow; readonly by?: string; readonly note?: string; readonly sampleId?: string; readonly verdict?: ClosingVerdict }
   | { readonly kind: 'note'; readonly at: string; readonly by: string; readonly note: string }
   | {
       /** A responder's word on a sample of this incident that a sampling finding put in doubt (`at`: when it was given). */
@@ -276,6 +288,11 @@ export interface IncidentSnapshot {
   /** Highest escalation tier told; 0 before the first escalation. */
   readonly tier: number;
   readonly findings: readonly Finding[];
+  /**
+   * The advisory and held findings of the evidence's sample (Incident.context): shown beside the evidence, never part
+   * of it, so they take no part in the severity. Absent from messages queued before they were carried.
+   */
+  readonly advisoryFindings?: readonly Finding[];
   /** Time-to-limit forecasts of the evidence's measurands (see Incident.forecast). */
   readonly forecast?: readonly LimitForecast[];
   /** One sentence: why this message goes out. */
@@ -358,6 +375,29 @@ const VERDICT_WORDS: Record<SampleVerdict, (sampleId: string, by: string) => str
 /** A sample verdict in the timeline, for people: who said what of which sample (the board carries a copy). */
 export function sampleVerdictText(entry: Pick<Extract<TimelineEntry, { kind: 'sample-verdict' }>, 'sampleId' | 'verdict' | 'by'>): string {
   return VERDICT_WORDS[entry.verdict](entry.sampleId, entry.by);
+}
+
+const CLOSED_WORDS: Record<Exclude<ClosedHow, 'sample-verdict'>, string> = {
+  'acknowledged-and-returned': 'returned to normal and acknowledged',
+  resolved: 'resolved by hand',
+  'returned-unannounced': 'returned to normal before anyone was told',
+  withdrawn: 'withdrawn: a late or corrected result changed the history so that this incident no longer stands',
+};
+
+const CLOSING_VERDICT_WORDS: Record<ClosingVerdict, (by: string) => string> = {
+  rejected: (by) => `rejected by ${by} (sample judged wrong; kept out of the trend)`,
+  confirmed: (by) => `confirmed as genuine by ${by} (back into the trend)`,
+};
+
+/**
+ * Why an incident was closed, for people and in the closing message: "resolved by hand", "closed: sample QX-1-026
+ * rejected by Jo Sampler (sample judged wrong; kept out of the trend)". The board carries a copy.
+ */
+export function closureText(closure: Pick<Closure, 'how' | 'by' | 'sampleId' | 'verdict'>): string {
+  if (closure.how !== 'sample-verdict') return CLOSED_WORDS[closure.how];
+  const by = closure.by ?? 'a responder';
+  const words = closure.verdict === undefined ? `judged by ${by}` : CLOSING_VERDICT_WORDS[closure.verdict](by);
+  return `closed: sample ${closure.sampleId ?? '(unknown)'} ${words}`;
 }
 
 const WITHDRAWN_WORDS: Record<WithdrawnBecause, string> = { acknowledged: 'acknowledged', shelved: 'shelved', closed: 'closed', returned: 'returned to normal' };

@@ -9,7 +9,7 @@
 import { InputError } from '../domain/errors.ts';
 import { logAction } from './actionLog.ts';
 import { draftOf, findDraft, isoOf, type DraftIncident } from './draft.ts';
-import type { ComponentIncidents, Incident, IncidentResult, RecordedAction, SampleVerdict } from './model.ts';
+import type { ClosingVerdict, ComponentIncidents, Incident, IncidentResult, RecordedAction, SampleVerdict } from './model.ts';
 import type { IncidentRules } from './policy.ts';
 import { judgeAction, sameVerdictAsLast, TIMELINE_LIMIT } from './verdict.ts';
 
@@ -34,6 +34,32 @@ export function concernsSample(incident: Pick<Incident, 'timeline' | 'evidence' 
     incident.timeline.some((e) => 'sampleId' in e && e.sampleId === sampleId) ||
     [...incident.evidence, ...incident.context, ...incident.activeFindings].some((f) => f.sampleId === sampleId)
   );
+}
+
+/** The responder's word that ended an incident (see `closingVerdict`). */
+export interface ClosingWord {
+  readonly sampleId: string;
+  readonly verdict: ClosingVerdict;
+  readonly by: string;
+  /** When the word was given. */
+  readonly at: string;
+}
+
+/**
+ * The word that makes the incident no longer stand, from its timeline alone: the latest word on the sample that opened
+ * it, when that is `rejected` (the sample is kept out, its findings with it), or `confirmed` for a sampling incident
+ * (a sample judged genuine raises no sampling finding). Neither lets the history produce the incident again, so a
+ * person answered it; undefined otherwise (a word taken back, a word on another sample, or none).
+ */
+export function closingVerdict(incident: Pick<Incident, 'kind' | 'timeline'>): ClosingWord | undefined {
+  const opening = incident.timeline.find((e) => e.kind === 'opened');
+  if (opening?.kind !== 'opened') return undefined;
+  const last = [...incident.timeline].reverse().find((e) => e.kind === 'sample-verdict' && e.sampleId === opening.sampleId);
+  if (last?.kind !== 'sample-verdict') return undefined;
+  if (last.verdict === 'rejected' || (last.verdict === 'confirmed' && incident.kind === 'sampling')) {
+    return { sampleId: last.sampleId, verdict: last.verdict, by: last.by, at: last.at };
+  }
+  return undefined;
 }
 
 /**

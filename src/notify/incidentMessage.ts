@@ -4,7 +4,8 @@ import { buildHistory } from '../analysis/history.ts';
 import type { Sample } from '../domain/event.ts';
 import { formatReading } from '../domain/reading.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
-import type { IncidentMessage, IncidentMessageType } from './message.ts';
+import type { Finding } from '../domain/finding.ts';
+import type { IncidentMessage, IncidentMessageType, MessageFinding } from './message.ts';
 import { ADVISORY_CAUTION, FORECAST_CAUTION } from '../domain/caution.ts';
 
 /** About five recent results, as the message format asks. */
@@ -31,17 +32,9 @@ export function incidentMessage(effect: NotifyEffect, revisions: readonly Sample
       url: `${apiBaseUrl.replace(/\/+$/, '')}/incidents/${encodeURIComponent(s.id)}`,
       apiUrl: `${apiBaseUrl.replace(/\/+$/, '')}/v1/incidents/${encodeURIComponent(s.id)}`,
     },
-    findings: s.findings.map((f) => ({
-      measurand: f.measurand,
-      rule: f.rule,
-      severity: f.severity,
-      value: f.value,
-      ...(f.threshold !== undefined && { threshold: f.threshold }),
-      basis: f.basis,
-      sampleId: f.sampleId,
-      sampledAt: f.sampledAt,
-      explanation: f.explanation,
-    })),
+    findings: s.findings.map(messageFinding),
+    // Beside the evidence, never in it: the severity stays the evidence's.
+    advisoryFindings: (s.advisoryFindings ?? []).map(messageFinding),
     ...(s.forecast !== undefined &&
       s.forecast.length > 0 && {
         forecast: {
@@ -69,6 +62,20 @@ export function incidentMessage(effect: NotifyEffect, revisions: readonly Sample
     whatChanged: s.reason,
     idempotencyKey: idempotencyKey(effect.key),
     advisory: ADVISORY_CAUTION,
+  };
+}
+
+function messageFinding(f: Finding): MessageFinding {
+  return {
+    measurand: f.measurand,
+    rule: f.rule,
+    severity: f.severity,
+    value: f.value,
+    ...(f.threshold !== undefined && { threshold: f.threshold }),
+    basis: f.basis,
+    sampleId: f.sampleId,
+    sampledAt: f.sampledAt,
+    explanation: f.explanation,
   };
 }
 

@@ -56,18 +56,13 @@ export interface IncidentMessage {
     /** The incident in the JSON API (a bearer token), for integrations. */
     apiUrl: string;
   };
-  findings: Array<{
-    measurand: string;
-    rule: string;
-    severity: string;
-    value: number;
-    threshold?: number;
-    /** What `value` is: 'reading', 'rate', 'ewma', 'cusum', 'change', 'steps'. */
-    basis: string;
-    sampleId: string;
-    sampledAt: string;
-    explanation: string;
-  }>;
+  /** The evidence: the findings that opened or updated the incident and set its severity. */
+  findings: MessageFinding[];
+  /**
+   * Also on the evidence's sample: advisory findings (e.g. population band limits), which open no incident and take
+   * no part in its severity, shown the way a lab report shows them. Empty when there are none.
+   */
+  advisoryFindings: MessageFinding[];
   /**
    * How long until the evidence's measurands cross their limits at the present trend (central estimate and
    * interval, in operating hours and as a date), or why there is no forecast; with the caution that a forecast
@@ -97,6 +92,20 @@ export interface IncidentMessage {
   idempotencyKey: string;
   /** Always ADVISORY_CAUTION: integrators that pass the severity on pass this with it. */
   advisory: string;
+}
+
+/** One finding as a message carries it. */
+export interface MessageFinding {
+  measurand: string;
+  rule: string;
+  severity: string;
+  value: number;
+  threshold?: number;
+  /** What `value` is: 'reading', 'rate', 'ewma', 'cusum', 'change', 'steps'. */
+  basis: string;
+  sampleId: string;
+  sampledAt: string;
+  explanation: string;
 }
 
 /** A forecast time: oil hours on the charge, operating hours from the latest sample, date (YYYY-MM-DD) when known. */

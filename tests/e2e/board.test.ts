@@ -307,4 +307,43 @@ describe.skipIf(!HAVE_CHROMIUM)('control-room board in Chromium', () => {
     await poll(() => page.locator('#series-note').innerText()).toMatch(/^No trends: /);
     expect(await page.locator('#component-body').isHidden()).toBe(true);
   });
+
+  it("shows the advisory findings of the evidence's sample on the card, under a heading of their own, apart from the evidence", async () => {
+    // A later sample of an invented gearbox: iron past its alarm limit, and four population band findings that open nothing.
+    const ref = { unit: 'PS2-P3', component: 'gearbox' };
+    const sampledAt = new Date(Date.parse(fixture.samples(ref.unit, ref.component).at(-1)!.sampledAt) + 7 * 86_400_000).toISOString();
+    const group = ((await api('/v1/incidents?state=open')).incidents as { id: string; group: string }[]).find((i) => i.id.startsWith('PS2-P3/gearbox'))!.group;
+    const base = { ...ref, group, sampleId: 'PS2-P3-ADV-1', sampledAt, basis: 'reading' } as const;
+    const evidence = { ...base, measurand: 'Fe', rule: 'limit', disposition: 'incident', severity: 'alarm', value: 250, threshold: 200, explanation: 'Fe above its alarm limit.' } as const;
+    const bands = (['Cu', 'Pb', 'Sn', 'Al'] as const).map((m, i) => ({ ...base, measurand: m, rule: 'population', disposition: 'advisory', severity: 'watch', value: 30 + i, threshold: 20, explanation: `${m} above the population band for its oil hours.` }) as const);
+    await fixture.store.applySteps(ref, [{ sampleId: base.sampleId, sampledAt, findings: [evidence, ...bands] }], { group, now: new Date(), quietBefore: new Date(0) });
+    const open = (await api('/v1/incidents?state=open')).incidents as { id: string; severity: string; evidence: { rule: string; sampleId: string }[]; context: { measurand: string }[] }[];
+    const incident = open.find((i) => i.evidence.some((f) => f.sampleId === base.sampleId))!;
+    expect(incident.context.map((f) => f.measurand).sort()).toEqual(['Al', 'Cu', 'Pb', 'Sn']);
+    expect(incident.severity).toBe('alarm');
+
+    await page.goto(fixture.url);
+    if (await page.locator('#token').isVisible()) await signIn(page, TOKENS.viewer, 'A. Viewer');
+    const card = page.locator(`#incidents > li.incident[data-incident="${incident.id}"]`);
+    await card.waitFor();
+    const advisory = card.locator('.advisory');
+    expect(await advisory.isVisible()).toBe(true);
+    expect(await advisory.locator('.advisory-heading').innerText()).toBe('Also on this sample (advisory, opens no incident)');
+    // The card shows the first three and links to the rest; the evidence holds none of them, and the severity is the evidence's.
+    const items = advisory.locator('li');
+    await poll(() => items.count()).toBe(4);
+    expect(await items.nth(0).innerText()).toMatch(/^(Cu|Pb|Sn|Al) · watch · population: \1 above the population band for its oil hours\.$/);
+    expect(await items.nth(3).innerText()).toBe('1 more on the incident page');
+    expect(await card.locator('ul.evidence[aria-label^="Evidence"] li').allInnerTexts()).not.toContainEqual(expect.stringContaining('population'));
+    expect(await card.getAttribute('data-severity')).toBe('alarm');
+    // Other cards, with no advisory findings, show no such heading.
+    const others = page.locator(`#incidents > li.incident:not([data-incident="${incident.id}"])`);
+    expect(await others.count()).toBeGreaterThan(0);
+    for (const other of await others.all()) expect(await other.locator('.advisory').isHidden()).toBe(true);
+
+    // The incident page shows every one.
+    await page.goto(`${fixture.url}/incidents/${encodeURIComponent(incident.id)}`);
+    await poll(() => page.locator('#incident-card .advisory-findings li').count()).toBe(4);
+    expect(await page.locator('#incident-card .advisory-findings li.more').count()).toBe(0);
+  });
 });

@@ -325,10 +325,18 @@ describe('real deliveries match the AsyncAPI document', () => {
   });
 
   it('a webhook delivery and an MQTT publish of a real incident message', async () => {
-    const result = await incidents.applySteps({ unit: 'PS7-P1', component: 'gearbox' }, [{ ...step('C-200'), findings: step('C-200').findings.map((f) => ({ ...f, unit: 'PS7-P1' })) }], { group: 'gearboxes', now: NOW, quietBefore: new Date(0) });
+    // Beside the evidence, a population band finding of the same sample: advisory, it opens nothing.
+    const evidence = step('C-200').findings.map((f) => ({ ...f, unit: 'PS7-P1' }));
+    const { direction: _up, ...opening } = evidence[0]!;
+    const advisoryBand = { ...opening, measurand: 'Cu', rule: 'population', disposition: 'advisory', severity: 'caution', value: 31, threshold: 24, basis: 'reading', explanation: 'Cu above the population band' } as const;
+    const result = await incidents.applySteps({ unit: 'PS7-P1', component: 'gearbox' }, [{ ...step('C-200'), findings: [...evidence, advisoryBand] }], { group: 'gearboxes', now: NOW, quietBefore: new Date(0) });
     const effects = result.effects.filter((e): e is NotifyEffect => e.kind === 'notify');
     expect(effects.map((e) => e.channel).sort()).toEqual(['mqtt', 'webhook']);
     const event = toCloudEvent(incidentMessage(effects[0]!, [], 'http://127.0.0.1:8080'), { time: effects[0]!.at });
+    // The advisory finding travels in a field of its own; the evidence, and the severity it sets, stay the cusum's.
+    expect(event.data.findings.map((f) => f.rule)).toEqual(['cusum']);
+    expect(event.data.advisoryFindings).toEqual([{ measurand: 'Cu', rule: 'population', severity: 'caution', value: 31, threshold: 24, basis: 'reading', sampleId: 'C-200', sampledAt: evidence[0]!.sampledAt, explanation: 'Cu above the population band' }]);
+    expect(event.data.incident.severity).toBe('alarm');
 
     const url = `http://127.0.0.1:${(receiver.address() as AddressInfo).port}/wearshift`;
     const delivery = await deliverWebhook({ url, secrets: [`whsec_${randomBytes(32).toString('base64')}`] }, event, { now: new Date() });
@@ -363,8 +371,10 @@ describe('real deliveries match the AsyncAPI document', () => {
       broker.close();
       await new Promise<void>((resolve) => aedes.close(() => resolve()));
     }
-    // Not a rubber stamp: a message with an unknown event type is refused.
+    // Not a rubber stamp: a message with an unknown event type is refused, and so is one without its advisory findings.
     expect(ajv.compile(payloadSchema)({ ...event, type: 'wearshift.incident.exploded' })).toBe(false);
+    const { advisoryFindings: _left, ...withoutAdvisories } = event.data;
+    expect(ajv.compile(payloadSchema)({ ...event, data: withoutAdvisories })).toBe(false);
   });
 
   it('the alarm-flood summary as webhooks and MQTT carry it', () => {

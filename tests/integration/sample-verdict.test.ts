@@ -189,16 +189,19 @@ describe('a responder marks a sample in doubt', () => {
     expect((await post('V-6', { verdict: 'rejected', by: 'lab desk' })).status).toBe(202);
     await drained(queues, 120_000);
     expect((await statusOf('V-6')).status).toBe('rejected');
-    // The sampling incident the bottle opened no longer stands: withdrawn, with the sample.
+    // The sampling incident the bottle opened no longer stands: a responder answered it, and it is closed so — who
+    // judged which sample how, at the time the word was given — not withdrawn as if a late result had changed the history.
     const all = await incidents.list(IncidentFilterSchema.parse({ state: 'all', unit: ref.unit }));
     const sampling = all.filter((i) => i.id.includes('sampling'));
     expect(sampling.length).toBeGreaterThan(0);
     expect(sampling.filter((i) => i.closed === null)).toEqual([]);
 
     // Its record says who marked the sample how, and when, in the order the words were given, through the
-    // evaluations each word caused (the withdrawn incident keeps them too).
+    // evaluations each word caused (the closed incident keeps them too).
     const final = await record(bottleIncident);
-    expect(final.closed).not.toBeNull();
+    const closure = { at: verdictTimes[3], how: 'sample-verdict', by: 'lab desk', sampleId: 'V-6', verdict: 'rejected' };
+    expect(final.closed).toEqual(closure);
+    expect(final.timeline.at(-1)).toEqual({ kind: 'closed', ...closure });
     expect(wordsOf(final)).toEqual([
       firstWord,
       { kind: 'sample-verdict', sampleId: 'V-6', verdict: 'withdrawn', by: 'shift lead', at: verdictTimes[2] },
@@ -211,8 +214,9 @@ describe('a responder marks a sample in doubt', () => {
     expect(timeline).toContain(`  ${formatTime(verdictTimes[0]!, 'UTC')}  sample V-6 confirmed by shift lead: genuine, back into the trend`);
     expect(timeline).toContain(`  ${formatTime(verdictTimes[2]!, 'UTC')}  verdict on sample V-6 taken back by shift lead: the sampling check judges it again`);
     expect(timeline).toContain(`  ${formatTime(verdictTimes[3]!, 'UTC')}  sample V-6 rejected by lab desk: wrong, kept out of the trend`);
+    expect(timeline).toContain(`  ${formatTime(verdictTimes[3]!, 'UTC')}  closed: sample V-6 rejected by lab desk (sample judged wrong; kept out of the trend)`);
 
-    // Taking the rejection back reaches the withdrawn incident's record, and the evaluation it causes brings the
+    // Taking the rejection back reaches the closed incident's record, and the evaluation it causes brings the
     // incident back (the same sample opens it, so the same id) with every word in its timeline.
     expect((await post('V-6', { verdict: 'withdrawn', by: 'lab desk' })).status).toBe(202);
     await drained(queues, 120_000);

@@ -216,6 +216,27 @@ describe('incidents per 100 component-years, per rule family and in total (this 
     expect(f).toMatchObject({ incidents: 0, annunciations: 0, openAtEnd: 0, standing: { incidents: 0 }, stale: { incidents: 0 } });
   });
 
+  it("an incident a responder's verdict on its sample closed was answered by a person: counted like any other", () => {
+    const sampling = (timeline: TimelineEntry[]) => incident('Q', timeline, { kind: 'sampling', key: 'Q/gearbox/sampling' });
+    const open = opened(0);
+    const sampleId = open.kind === 'opened' ? open.sampleId : '';
+    const word: TimelineEntry = { kind: 'sample-verdict', at: at(2), sampleId, verdict: 'rejected', by: 'Jo Sampler' };
+    const answered = sampling([open, finding(0, 'sampling', 'Fe'), word, { kind: 'closed', at: at(2), how: 'sample-verdict', by: 'Jo Sampler', sampleId, verdict: 'rejected' }]);
+    const counted = { incidents: 1, annunciations: 1, openAtEnd: 0 };
+    const period = { from: T0, to: T0 + 30 * DAY, thresholds, responders: everyone('email:samplers@plant.example') };
+    expect(alarmFigures({ incidents: [answered], ...period })).toMatchObject({ ...counted, byFamily: { sampling: { incidents: 1 } } });
+    // A record closed as withdrawn after the word on its opening sample (written before such a closing had a kind of
+    // its own) counts too; a word given to a record a late result had already withdrawn explains nothing.
+    const before = sampling([open, finding(0, 'sampling', 'Fe'), word, closed(3, 'withdrawn')]);
+    expect(alarmFigures({ incidents: [before], ...period })).toMatchObject(counted);
+    const after = sampling([open, finding(0, 'sampling', 'Fe'), closed(1, 'withdrawn'), word]);
+    expect(alarmFigures({ incidents: [after], ...period })).toMatchObject({ incidents: 0, annunciations: 0 });
+    // A word taken back, or a word on another sample, did not end it.
+    const takenBack = sampling([open, word, { ...word, at: at(2.5), verdict: 'withdrawn' } as TimelineEntry, closed(3, 'withdrawn')]);
+    const otherSample = sampling([open, { ...word, sampleId: 'elsewhere' } as TimelineEntry, closed(3, 'withdrawn')]);
+    expect(alarmFigures({ incidents: [takenBack, otherSample], ...period })).toMatchObject({ incidents: 0, annunciations: 0 });
+  });
+
   it('refuses a period that ends before it starts', () => {
     expect(() => alarmFigures({ incidents: [], from: T0 + DAY, to: T0, thresholds, responders: nobody })).toThrow(/from ≤ to/);
   });

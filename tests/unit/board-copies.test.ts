@@ -9,13 +9,16 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import { bySeverity, severityWords, type MessageSeverity } from '../../src/notify/message.ts';
 import { formatTime, timeZoneNote } from '../../src/notify/format.ts';
 import { FORECAST_CAUTION } from '../../src/domain/caution.ts';
-import { notifiedTargetsText, sampleVerdictText, type NotifiedEntry, type SampleVerdict, type WithdrawnBecause } from '../../src/incidents/model.ts';
+import { ADVISORY_HEADING } from '../../src/channels/email/emailRender.ts';
+import { closureText, notifiedTargetsText, sampleVerdictText, type ClosingVerdict, type NotifiedEntry, type SampleVerdict, type WithdrawnBecause } from '../../src/incidents/model.ts';
 
 interface BoardText {
   FORECAST_CAUTION: string;
+  ADVISORY_HEADING: string;
   severityWords(severity: string, peak?: string): string;
   bySeverity<T>(findings: readonly T[]): T[];
   sampleVerdictText(entry: object): string;
+  closingVerdictText(closure: object): string;
   notifiedTargetsText(entry: object): string;
   timelineText(entry: object): string;
 }
@@ -53,6 +56,10 @@ describe("the board's copies", () => {
     expect(text.FORECAST_CAUTION).toBe(FORECAST_CAUTION);
   });
 
+  it('head the advisory findings of a sample as the e-mail does', () => {
+    expect(text.ADVISORY_HEADING).toBe(ADVISORY_HEADING);
+  });
+
   it('order evidence most severe first, then furthest beyond its limit, as the server does', () => {
     const findings = [
       { id: 'a', severity: 'watch', value: 9, threshold: 3 },
@@ -72,6 +79,13 @@ describe("the board's copies", () => {
       expect(text.sampleVerdictText(entry), verdict).toBe(sampleVerdictText(entry));
       expect(text.timelineText(entry)).toContain(`: ${sampleVerdictText(entry)}`);
     }
+    // An incident a verdict on its opening sample closed: who judged which sample how, never "withdrawn".
+    for (const verdict of ['confirmed', 'rejected'] as ClosingVerdict[]) {
+      const entry = { kind: 'closed', at: '2026-03-01T08:00:00Z', how: 'sample-verdict', by: 'Jo Sampler', sampleId: 'QX-1-026', verdict } as const;
+      expect(text.closingVerdictText(entry), verdict).toBe(closureText(entry));
+      expect(text.timelineText(entry)).toContain(`: ${closureText(entry)}`);
+    }
+    expect(closureText({ how: 'sample-verdict', by: 'Jo Sampler', sampleId: 'QX-1-026', verdict: 'rejected' })).toBe('closed: sample QX-1-026 rejected by Jo Sampler (sample judged wrong; kept out of the trend)');
     for (const because of ['acknowledged', 'shelved', 'closed', 'returned'] as WithdrawnBecause[]) {
       const entry: NotifiedEntry = {
         kind: 'notified',

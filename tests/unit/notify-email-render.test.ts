@@ -30,6 +30,30 @@ describe('incident e-mail', () => {
     expect(mail.html).toContain(ADVISORY_CAUTION.replace(/'/g, '&#39;'));
   });
 
+  it('shows the advisory findings of the same sample under a heading of their own, apart from the evidence and the severity', () => {
+    const band = { measurand: 'Cu', rule: 'population', severity: 'caution', value: 31, threshold: 24, basis: 'reading', sampleId: 'LAB-0042', sampledAt: '2026-03-01T08:00:00Z', explanation: 'Cu above the gearbox population band for 750 oil hours (mean + 2σ).' } as const;
+    const mail = renderIncidentEmail(incidentMessage({ advisoryFindings: [band] }), options);
+    const heading = 'Also on this sample (advisory, opens no incident)';
+    const lines = mail.text.split('\n');
+    const at = lines.indexOf(heading);
+    // After the evidence, before the results: one line of what it is, one of what it points to.
+    expect(at).toBeGreaterThan(lines.indexOf('Evidence'));
+    expect(at).toBeLessThan(lines.indexOf('Last results'));
+    expect(lines.slice(at + 1, at + 3)).toEqual([
+      '- Cu, population rule, caution: reading 31 ppm against its limit 24 ppm (sample LAB-0042, drawn 2026-03-01T08:00Z).',
+      '  Cu above the gearbox population band for 750 oil hours (mean + 2σ).',
+    ]);
+    expect(mail.html).toContain(`<h3>${heading}</h3><ul><li>Cu, population rule, caution: reading 31 ppm against its limit 24 ppm (sample LAB-0042, drawn 2026-03-01T08:00Z).<br>Cu above the gearbox population band for 750 oil hours (mean + 2σ).</li></ul>`.replace('</h3><ul>', '</h3>\n<ul>'));
+    // The subject names the evidence only, and the caution stays in both parts.
+    expect(mail.subject).toBe('[wearshift caution] PS2-P3 / gearbox: New incident — Fe: cusum, rate');
+    expect(mail.text).toContain(ADVISORY_CAUTION);
+    expect(mail.html).toContain(ADVISORY_CAUTION.replace(/'/g, '&#39;'));
+    // Without advisory findings there is no such heading.
+    const plain = renderIncidentEmail(incidentMessage(), options);
+    expect(plain.text).not.toContain(heading);
+    expect(plain.html).not.toContain(heading);
+  });
+
   it('gives a PQ wear rate in index points per 100 h, the catalogue unit of PQ, not in ppm', () => {
     const pqRate = { measurand: 'pq', rule: 'rate', severity: 'caution', value: 12, threshold: 10, basis: 'rate', sampleId: 'LAB-0042', sampledAt: '2026-03-01T08:00:00Z', explanation: 'PQ rose.' } as const;
     const { text } = renderIncidentEmail(incidentMessage({ findings: [pqRate] }), options);

@@ -42,6 +42,7 @@ export function incidentMessage(overrides: Partial<IncidentMessage> = {}, incide
         explanation: 'Fe wear rate 4.5 ppm per 100 h.',
       },
     ],
+    advisoryFindings: [],
     recentResults: [
       { sampleId: 'LAB-0038', sampledAt: '2026-01-05T08:00:00Z', oilHours: 250, readings: { Fe: '12', Cu: '3', Si: '<1' } },
       { sampleId: 'LAB-0040', sampledAt: '2026-02-02T08:00:00Z', oilHours: 500, readings: { Fe: '17', Cu: '3', Si: '2' } },

@@ -5,7 +5,7 @@
 import { createHash } from 'node:crypto';
 import { MEASURANDS, isMeasurand } from '../../domain/measurands.ts';
 import { ADVISORY_CAUTION, FORECAST_CAUTION } from '../../domain/caution.ts';
-import { asksForAcknowledgement, bySeverity, severityWords, type IncidentMessage } from '../../notify/message.ts';
+import { asksForAcknowledgement, bySeverity, severityWords, type IncidentMessage, type MessageFinding } from '../../notify/message.ts';
 import { DEFAULT_TIME_ZONE, formatNumber, formatTime as formatTimeIn, timeZoneNote } from '../../notify/format.ts';
 import { escapeHtml, headerValue, httpUrl, oneLine } from '../../domain/safeText.ts';
 import { REOPENED } from '../../incidents/verdict.ts';
@@ -50,6 +50,9 @@ export interface RenderedEmail {
 
 const CHART_CID = 'trend-chart@wearshift';
 
+/** Above the advisory findings of the evidence's sample (IncidentMessage.advisoryFindings). */
+export const ADVISORY_HEADING = 'Also on this sample (advisory, opens no incident)';
+
 /** Most mail clients show about this much of a subject line. */
 const SUBJECT_MAX = 180;
 /** More columns than this do not fit a phone screen; the findings' measurands come first. */
@@ -65,11 +68,14 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
   const where = `${oneLine(inc.unit)} / ${oneLine(inc.component)}`;
   const what = headline(msg);
   const whatChanged = withoutHeadline(oneLine(msg.whatChanged), what);
-  const evidence = bySeverity(msg.findings).map((f) => ({
+  const described = (f: MessageFinding) => ({
     title: `${oneLine(f.measurand)}, ${oneLine(f.rule)} rule, ${oneLine(f.severity)}: ${statement(f)}`,
     since: `sample ${oneLine(f.sampleId)}, drawn ${formatTime(f.sampledAt)}`,
     explanation: oneLine(f.explanation),
-  }));
+  });
+  const evidence = bySeverity(msg.findings).map(described);
+  // Shown beside the evidence, under a heading of their own: they open nothing and set no severity.
+  const advisories = bySeverity(msg.advisoryFindings).map(described);
   const forecasts = (msg.forecast?.items ?? []).map((f) => oneLine(f.text));
   const table = resultsTable(msg, formatTime);
   const expiry = options.ackExpiresAt ? ` The link works until ${formatTime(options.ackExpiresAt.toISOString())}.` : '';
@@ -88,6 +94,7 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
     '',
     evidenceHeading,
     ...(evidence.length === 0 ? ['(no findings attached)'] : evidence.flatMap((e) => [`- ${e.title} (${e.since}).`, `  ${e.explanation}`])),
+    ...(advisories.length > 0 ? ['', ADVISORY_HEADING, ...advisories.flatMap((e) => [`- ${e.title} (${e.since}).`, `  ${e.explanation}`])] : []),
     ...(forecasts.length > 0 ? ['', 'Time to limit', ...forecasts.map((f) => `- ${f}`), `  ${FORECAST_CAUTION}`] : []),
     ...(options.chart ? ['', 'Trend', oneLine(options.chart.alt)] : []),
     '',
@@ -117,6 +124,9 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
     evidence.length === 0
       ? '<p>(no findings attached)</p>'
       : `<ul>${evidence.map((e) => `<li><strong>${escapeHtml(e.title)}</strong> (${escapeHtml(e.since)}).<br>${escapeHtml(e.explanation)}</li>`).join('')}</ul>`,
+    ...(advisories.length > 0
+      ? [`<h3>${escapeHtml(ADVISORY_HEADING)}</h3>`, `<ul>${advisories.map((e) => `<li>${escapeHtml(e.title)} (${escapeHtml(e.since)}).<br>${escapeHtml(e.explanation)}</li>`).join('')}</ul>`]
+      : []),
     ...(forecasts.length > 0
       ? ['<h3>Time to limit</h3>', `<ul>${forecasts.map((f) => `<li>${escapeHtml(f)}</li>`).join('')}</ul>`, `<p style="color:#555"><em>${escapeHtml(FORECAST_CAUTION)}</em></p>`]
       : []),
@@ -188,7 +198,6 @@ function returnedNote(msg: IncidentMessage): string {
   );
 }
 
-type MessageFinding = IncidentMessage['findings'][number];
 
 /** "Fe: cusum, rate; Cu: limit": what the evidence is about, most severe first, for the subject line. */
 function evidenceSummary(msg: IncidentMessage): string {

@@ -11,7 +11,7 @@ import { InputError } from '../../domain/errors.ts';
 import type { IncidentAction } from '../../incidents/applyAction.ts';
 import { MAX_LIST_LIMIT } from '../../incidents/listFilter.ts';
 import { decodeCursor, encodeCursor, IncidentListQuerySchema } from '../../incidents/listPage.ts';
-import { describeState, mergedTimeline, notifiedTargetsText, sampleVerdictText, type Incident, type IncidentSummary, type NotifiedEntry, type TimelineEntry } from '../../incidents/model.ts';
+import { closureText, describeState, mergedTimeline, notifiedTargetsText, sampleVerdictText, type Incident, type IncidentSummary, type NotifiedEntry, type TimelineEntry } from '../../incidents/model.ts';
 import { incidentRules } from '../../incidents/policy.ts';
 import { closeQuietly, connectForCommand, redisTarget, type RedisConnection } from '../../redis/connection.ts';
 import { announcingActions } from '../../http/eventHub.ts';
@@ -91,6 +91,7 @@ function entryText(e: TimelineEntry | NotifiedEntry, zone: string): string {
     case 'unshelved':
       return e.by ? `unshelved by ${e.by}` : 'shelving ended';
     case 'closed':
+      if (e.how === 'sample-verdict') return closureText(e);
       return `closed (${e.how})${e.by ? ` by ${e.by}` : ''}${e.note ? `: ${e.note}` : ''}`;
     case 'note':
       return `note by ${e.by}: ${e.note}`;
