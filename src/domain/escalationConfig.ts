@@ -99,6 +99,9 @@ const webhookSecret = z
 /** Alarm-flood handling by default: ten messages per target per ten minutes, then one summary. */
 export const DEFAULT_FLOOD_CONTROL = { maxMessages: 10, windowMinutes: 10 };
 
+/** The longest `channels.webhooks[].timeoutMs`: 5 minutes. */
+export const WEBHOOK_TIMEOUT_MAX_MS = 300_000;
+
 export const ChannelsSchema = z
   .object({
     email: z
@@ -139,7 +142,15 @@ export const ChannelsSchema = z
               .array(webhookSecret)
               .min(1)
               .describe('Standard Webhooks signing secrets; several during a rotation. Each is an environment variable name or a literal whsec_ value.'),
-            timeoutMs: z.number().int().positive().default(10_000),
+            timeoutMs: z
+              .number()
+              .int()
+              .positive()
+              .max(WEBHOOK_TIMEOUT_MAX_MS, { error: `timeoutMs is at most ${WEBHOOK_TIMEOUT_MAX_MS} (5 minutes): a receiver that has not answered by then is called again later` })
+              .default(10_000)
+              .describe(
+                `How long one delivery attempt waits for the receiver's answer, in milliseconds; default 10000, at most ${WEBHOOK_TIMEOUT_MAX_MS} (5 minutes), since each waiting attempt holds one of the webhook channel's delivery slots. Then the message is retried later with backoff; the attempt is recorded as possibly arrived.`,
+              ),
           })
           .strict(),
       )

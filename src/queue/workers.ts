@@ -71,6 +71,23 @@ export interface WorkerSettings extends QueueSettings {
    * after a minute without one.
    */
   historyThreads?: number;
+  /**
+   * How often a job may be taken over from a worker that stopped renewing its lock (the process died or was killed
+   * mid-job, or its event loop stood still longer than `jobLockMs`) before it is failed with "job stalled more than
+   * allowable limit", which `wearshift failed list` shows and the worker logs as a final failure. A take-over is no
+   * failed attempt and spends none of the job's attempts; BullMQ's default of 1 would fail a notification whose
+   * workers die twice during its delivery with most of its attempts left. Default: the queue's attempt budget,
+   * `notifyAttempts` (20) for notify and `attempts` (5) for results, history, evaluate and escalate; still a limit,
+   * so that a job that brings down every worker taking it ends in the failed list instead of going round for ever.
+   */
+  maxStalledCount?: number;
+  /**
+   * How long a job's lock lasts unless its worker renews it (every half of it): a worker that died leaves its jobs to
+   * the others this long after its last renewal, at most `stalledCheckMs` later. Default 30 000 ms (BullMQ's).
+   */
+  jobLockMs?: number;
+  /** How often a worker looks for jobs whose lock has lapsed, to hand them to the next worker. Default 30 000 ms (BullMQ's). */
+  stalledCheckMs?: number;
 }
 
 export const WORKER_DEFAULTS = {
@@ -84,6 +101,8 @@ export const WORKER_DEFAULTS = {
   notifyAttempts: 20,
   outboxIntervalMs: 1000,
   historyThreads: 0,
+  jobLockMs: 30_000,
+  stalledCheckMs: 30_000,
 } as const;
 
 export interface WorkerDeps {
@@ -129,7 +148,7 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   const escalateQueue = openSharedQueue(QUEUE_NAMES.escalate, deps.connection, queueSettings, partitions);
   const relay = startOutboxRelay(incidents, { notify: notifyQueue, escalate: escalateQueue }, logger, { intervalMs: s.outboxIntervalMs });
   const name = `${hostname()}:${process.pid}`;
-  const options = (prefix: string, concurrency: number) => ({
+  const options = (prefix: string, concurrency: number, attempts: number) => ({
     connection: deps.connection,
     prefix,
     removeOnComplete: queueSettings.keepCompleted,
@@ -137,6 +156,9 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
     // Stored on every job this process handles, so that an operator can tell which process did what.
     name,
     concurrency,
+    lockDuration: s.jobLockMs,
+    stalledInterval: s.stalledCheckMs,
+    maxStalledCount: s.maxStalledCount ?? attempts,
   });
   const runner: EvaluationRunnerDeps = {
     store,
@@ -173,12 +195,12 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   const workers: Worker[] = [];
   for (const p of partitions.all()) {
     const prefix = partitions.tag(p);
-    workers.push(new Worker(QUEUE_NAMES.results, resultsProcessor(runner, s.busyRetryMs), options(prefix, s.resultsConcurrency)));
-    workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs), options(prefix, s.evaluateConcurrency)));
+    workers.push(new Worker(QUEUE_NAMES.results, resultsProcessor(runner, s.busyRetryMs), options(prefix, s.resultsConcurrency, queueSettings.attempts)));
+    workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs), options(prefix, s.evaluateConcurrency, queueSettings.attempts)));
   }
   // One history job at a time, for every partition (the producer sets the queue's global concurrency to 1 as well).
-  workers.push(new Worker(QUEUE_NAMES.history, historyProcessor(historyRunner, s.busyRetryMs), options(partitions.sharedTag(), 1)));
-  workers.push(new Worker(QUEUE_NAMES.escalate, escalateProcessor(incidents, now, () => relay.kick()) as Processor, options(partitions.sharedTag(), s.notifyConcurrency)));
+  workers.push(new Worker(QUEUE_NAMES.history, historyProcessor(historyRunner, s.busyRetryMs), options(partitions.sharedTag(), 1, queueSettings.attempts)));
+  workers.push(new Worker(QUEUE_NAMES.escalate, escalateProcessor(incidents, now, () => relay.kick()) as Processor, options(partitions.sharedTag(), s.notifyConcurrency, queueSettings.attempts)));
   const channels = deps.channels;
   if (channels !== undefined) {
     workers.push(
@@ -208,7 +230,7 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
         {
         // Every configured kind's share, so that each may fill its own while another's are stuck; a job of a kind
         // whose share is full is put back at once and frees its slot for the next.
-        ...options(partitions.sharedTag(), s.notifyConcurrency * Math.max(1, configuredChannels(deps.config.channels).length)),
+        ...options(partitions.sharedTag(), s.notifyConcurrency * Math.max(1, configuredChannels(deps.config.channels).length), s.notifyAttempts),
         settings: {
           // The receiver's Retry-After wins (held between 5 s and an hour); otherwise exponential backoff with full jitter.
           backoffStrategy: (attemptsMade: number, _type?: string, err?: Error) =>

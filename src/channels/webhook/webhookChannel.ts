@@ -10,7 +10,7 @@ import type { ChannelDefinition } from '../channel.ts';
 import { DeliveryRefused, DeliveryRetry } from '../errors.ts';
 import { webhookSecretProblem } from '../../domain/webhookSecret.ts';
 import { secretFrom } from '../secrets.ts';
-import { deliverWebhook } from './webhookDelivery.ts';
+import { deliverWebhook, type DeliveryResult, type WebhookEndpoint } from './webhookDelivery.ts';
 
 export const webhookChannel: ChannelDefinition = {
   secretRefs: (channels) => channels.webhooks.flatMap((w) => w.secrets.map((ref) => ({ ref, usedBy: `channels.webhooks "${w.name}"`, problem: webhookSecretProblem }))),
@@ -25,13 +25,26 @@ export const webhookChannel: ChannelDefinition = {
         `webhook ${c.name}: not sent, the endpoint is disabled (${disabled}); \`wearshift failed enable-webhook ${c.name}\` enables it again, then \`wearshift failed retry\` sends this message`,
       );
     };
+    // Aborted by close(): a request in flight ends at once instead of holding a stopping worker up to its timeout.
+    const closing = new AbortController();
+    const inFlight = new Set<Promise<DeliveryResult>>();
+    /** One request; one the closing ends, or that finds the channel closed, is retryable and never counted as delivered. */
+    const post = async (endpoint: WebhookEndpoint, event: IncidentCloudEvent, attempt: number) => {
+      const request = deliverWebhook(endpoint, event, { now: new Date(), attempt, signal: closing.signal });
+      inFlight.add(request);
+      try {
+        return await request;
+      } finally {
+        inFlight.delete(request);
+      }
+    };
     return {
       async deliver({ effect, message, attempt }) {
         const c = channels.webhooks.find((w) => w.name === effect.target);
         if (c === undefined) throw new DeliveryRefused(`no webhook named "${effect.target}" in channels.webhooks`);
         await refuseIfDisabled(c, { incidentId: effect.incidentId, type: effect.type });
         const endpoint = { url: c.url, secrets: c.secrets.map((s) => secretFrom(s, env, `channels.webhooks ${c.name}`)), timeoutMs: c.timeoutMs };
-        const result = await deliverWebhook(endpoint, toCloudEvent(message, { time: effect.at }), { now: new Date(), attempt });
+        const result = await post(endpoint, toCloudEvent(message, { time: effect.at }), attempt);
         const what = `webhook ${c.name}: ${result.error ?? result.status ?? 'no response'}`;
         switch (result.outcome) {
           case 'delivered':
@@ -53,14 +66,22 @@ export const webhookChannel: ChannelDefinition = {
         await refuseIfDisabled(c, { floodSummary: window });
         const endpoint = { url: c.url, secrets: c.secrets.map((x) => secretFrom(x, env, `channels.webhooks ${c.name}`)), timeoutMs: c.timeoutMs };
         // The delivery signs and posts any CloudEvent; only its id and body are read.
-        const result = await deliverWebhook(endpoint, floodSummaryEvent(s, window) as unknown as IncidentCloudEvent, { now: new Date(), attempt });
+        const result = await post(endpoint, floodSummaryEvent(s, window) as unknown as IncidentCloudEvent, attempt);
         const what = `flood summary by webhook ${c.name}: ${result.error ?? result.status ?? 'no response'}`;
         if (result.outcome === 'delivered') return what;
         if (result.outcome === 'retry') throw new DeliveryRetry(what, result.retryAfterMs, result.status !== undefined || result.notConnected === true);
         if (result.outcome === 'disable') await disabledEndpoints?.disable(c.name, c.url, `410 Gone at ${new Date().toISOString()}`);
         throw new DeliveryRefused(what);
       },
-      async close() {},
+      /**
+       * Ends every request in flight (aborted, its connection closed, its delivery failed as retryable, so that the
+       * notify job stays pending and runs again; it may have reached the receiver, which drops the repeat by its
+       * `webhook-id`) and refuses new ones for a retry without a request; resolves once the requests have ended.
+       */
+      async close() {
+        closing.abort();
+        await Promise.allSettled([...inFlight]);
+      },
     };
   },
 };

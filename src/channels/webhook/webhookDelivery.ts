@@ -25,6 +25,12 @@ export interface DeliverOptions {
   attempt?: number;
   /** Default: the global fetch. */
   fetch?: typeof fetch;
+  /**
+   * Ends the attempt when it aborts (the channel closing, webhookChannel.ts): the request is aborted and its
+   * connection closed at once, and the attempt is retryable as at the timeout, so that a stopping worker is not held
+   * by a receiver that does not answer. Already aborted: no request is made.
+   */
+  signal?: AbortSignal;
 }
 
 export type DeliveryOutcome = 'delivered' | 'retry' | 'give-up' | 'disable';
@@ -46,6 +52,8 @@ export interface DeliveryResult {
    */
   notConnected?: boolean;
 }
+
+const CLOSED = 'the webhook channel closed (the worker is stopping)';
 
 /** Enough of an error response to tell what went wrong, not enough to bloat the delivery log. */
 const EXCERPT_BYTES = 300;
@@ -70,36 +78,46 @@ export async function deliverWebhook(endpoint: WebhookEndpoint, event: IncidentC
   };
   const started = performance.now();
   const elapsed = () => Math.round(performance.now() - started);
-  let response: Response;
+  if (aborted(options.signal)) return { outcome: 'retry', attempt, durationMs: 0, error: `not sent: ${CLOSED}`, notConnected: true };
+  // The timeout also bounds the reading of an error's body; the closing ends the attempt wherever it is.
+  const { signal, release } = attemptSignal(timeoutMs, options.signal);
   try {
-    // Redirects are not followed: the signature was made for this receiver, and a redirect may lead anywhere.
-    response = await (options.fetch ?? fetch)(url, { method: 'POST', headers, body, redirect: 'manual', signal: AbortSignal.timeout(timeoutMs) });
-  } catch (e) {
-    const error = isTimeout(e) ? `no response within ${timeoutMs} ms` : `no response: ${networkReason(e)}`;
-    return { outcome: 'retry', attempt, durationMs: elapsed(), error, ...(!isTimeout(e) && NOT_CONNECTED.has(networkCode(e) ?? '') && { notConnected: true }) };
+    let response: Response;
+    try {
+      // Redirects are not followed: the signature was made for this receiver, and a redirect may lead anywhere.
+      response = await (options.fetch ?? fetch)(url, { method: 'POST', headers, body, redirect: 'manual', signal });
+    } catch (e) {
+      // Ended by the timeout or by the closing: the request may have reached the receiver either way.
+      const timedOut = isTimeout(e);
+      const closed = !timedOut && aborted(options.signal);
+      const error = timedOut ? `no response within ${timeoutMs} ms` : closed ? `no response: ${CLOSED}; request aborted` : `no response: ${networkReason(e)}`;
+      return { outcome: 'retry', attempt, durationMs: elapsed(), error, ...(!timedOut && !closed && NOT_CONNECTED.has(networkCode(e) ?? '') && { notConnected: true }) };
+    }
+    const status = response.status;
+    // The status decides. A 2xx is delivered as soon as it arrives: its body is not waited for (a receiver that took
+    // the event and then dawdles over its answer must not have it sent again).
+    if (status >= 200 && status < 300) {
+      void response.body?.cancel().catch(() => undefined);
+      return { outcome: 'delivered', status, attempt, durationMs: elapsed() };
+    }
+    // Only an error's body is read, and only its start, within what is left of the timeout.
+    const excerpt = await responseExcerpt(response);
+    const durationMs = elapsed();
+    const error = `HTTP ${status}${excerpt ? `: ${excerpt}` : ''}`;
+    if (status === 410) return { outcome: 'disable', status, attempt, durationMs, disable: true, error };
+    if (status === 429 || status === 503) {
+      const retryAfterMs = parseRetryAfter(response.headers.get('retry-after'), options.now);
+      return { outcome: 'retry', status, attempt, durationMs, error, ...(retryAfterMs !== undefined && { retryAfterMs }) };
+    }
+    // 408 is the receiver's own timeout: as retryable as ours.
+    if (status >= 500 || status === 408) return { outcome: 'retry', status, attempt, durationMs, error };
+    if (status >= 300 && status < 400) {
+      return { outcome: 'give-up', status, attempt, durationMs, error: `HTTP ${status}: redirect to ${oneLine(response.headers.get('location') ?? '(no location)')} not followed` };
+    }
+    return { outcome: 'give-up', status, attempt, durationMs, error };
+  } finally {
+    release();
   }
-  const status = response.status;
-  // The status decides. A 2xx is delivered as soon as it arrives: its body is not waited for (a receiver that took
-  // the event and then dawdles over its answer must not have it sent again).
-  if (status >= 200 && status < 300) {
-    void response.body?.cancel().catch(() => undefined);
-    return { outcome: 'delivered', status, attempt, durationMs: elapsed() };
-  }
-  // Only an error's body is read, and only its start, within what is left of the timeout.
-  const excerpt = await responseExcerpt(response);
-  const durationMs = elapsed();
-  const error = `HTTP ${status}${excerpt ? `: ${excerpt}` : ''}`;
-  if (status === 410) return { outcome: 'disable', status, attempt, durationMs, disable: true, error };
-  if (status === 429 || status === 503) {
-    const retryAfterMs = parseRetryAfter(response.headers.get('retry-after'), options.now);
-    return { outcome: 'retry', status, attempt, durationMs, error, ...(retryAfterMs !== undefined && { retryAfterMs }) };
-  }
-  // 408 is the receiver's own timeout: as retryable as ours.
-  if (status >= 500 || status === 408) return { outcome: 'retry', status, attempt, durationMs, error };
-  if (status >= 300 && status < 400) {
-    return { outcome: 'give-up', status, attempt, durationMs, error: `HTTP ${status}: redirect to ${oneLine(response.headers.get('location') ?? '(no location)')} not followed` };
-  }
-  return { outcome: 'give-up', status, attempt, durationMs, error };
 }
 
 /** The start of an error response's body; what arrived before the timeout or a broken connection, if it ends early. */
@@ -121,6 +139,32 @@ async function responseExcerpt(response: Response): Promise<string> {
   await reader.cancel().catch(() => undefined);
   const text = Buffer.concat(chunks).subarray(0, EXCERPT_BYTES).toString('utf8');
   return oneLine(text.replace(/\uFFFD+$/, ''));
+}
+
+/**
+ * The attempt's signal: aborted at the timeout (a TimeoutError) or when `closing` aborts. `release` unhooks it from
+ * `closing`, which lives as long as the channel, so that finished attempts are not kept by it.
+ */
+function attemptSignal(timeoutMs: number, closing: AbortSignal | undefined): { signal: AbortSignal; release: () => void } {
+  const timeout = AbortSignal.timeout(timeoutMs);
+  if (closing === undefined) return { signal: timeout, release: () => {} };
+  const either = new AbortController();
+  const onTimeout = () => either.abort(timeout.reason);
+  const onClose = () => either.abort(closing.reason);
+  timeout.addEventListener('abort', onTimeout, { once: true });
+  closing.addEventListener('abort', onClose, { once: true });
+  return {
+    signal: either.signal,
+    release: () => {
+      timeout.removeEventListener('abort', onTimeout);
+      closing.removeEventListener('abort', onClose);
+    },
+  };
+}
+
+/** Read through a call: the signal is aborted by others while the request waits. */
+function aborted(signal: AbortSignal | undefined): boolean {
+  return signal?.aborted === true;
 }
 
 function isTimeout(e: unknown): boolean {
