@@ -15,7 +15,6 @@ import type { AddressInfo } from 'node:net';
 import { Queue } from 'bullmq';
 import { Webhook } from 'standardwebhooks';
 import { afterEach, describe, expect, it } from 'vitest';
-import type { Step } from '../../src/analysis/model.ts';
 import { notificationChannels } from '../../src/channels/openChannels.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import type { NotifyEffect } from '../../src/incidents/model.ts';
@@ -27,6 +26,7 @@ import { silentLogger } from '../../src/telemetry/logger.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { webhookSecret } from './peers.ts';
 import { effectKeyOf, recordedNotifications } from './scenario.ts';
+import { openIronAlarm } from '../helpers/ironAlarm.ts';
 
 const PREFIX = '{double-stall}';
 const UNITS = ['PS8-P1', 'PS8-P2', 'PS8-P3', 'PS8-P4'];
@@ -102,31 +102,6 @@ async function until(what: string, probe: () => boolean | Promise<boolean>, time
   }
 }
 
-/** Opens an iron alarm on the unit's gearbox; a worker's outbox relay queues its message. */
-async function openIncident(incidents: RedisIncidents, unit: string): Promise<void> {
-  const sampledAt = new Date(Date.now() - 86_400_000).toISOString();
-  const finding: Step['findings'][number] = {
-    unit,
-    component: 'gearbox',
-    group: 'gearboxes',
-    measurand: 'Fe',
-    rule: 'limit',
-    disposition: 'incident',
-    severity: 'alarm',
-    value: 95,
-    threshold: 80,
-    basis: 'reading',
-    sampleId: `${unit}-1`,
-    sampledAt,
-    explanation: 'Fe 95 ppm is above the alarm level of 80 ppm.',
-  };
-  await incidents.applySteps({ unit, component: 'gearbox' }, [{ sampleId: `${unit}-1`, sampledAt, findings: [finding] }], {
-    group: 'gearboxes',
-    now: new Date(),
-    quietBefore: new Date(0),
-  });
-}
-
 let redis: RedisServer | undefined;
 let hooks: Receiver | undefined;
 const started: RunningWorkers[] = [];
@@ -175,7 +150,7 @@ channels:
     const attemptsOf = (id: string) => hooks!.requests.filter((q) => q.id === id).length;
     try {
       const w1 = worker();
-      for (const unit of UNITS) await openIncident(incidents, unit);
+      for (const unit of UNITS) await openIronAlarm(incidents, unit);
       await until('w1 holding the four messages at the hanging receiver', () => hooks!.held() === UNITS.length);
       const ids = [...new Set(hooks.requests.map((q) => q.id))];
       expect(ids).toHaveLength(UNITS.length);

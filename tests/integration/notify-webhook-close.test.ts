@@ -12,7 +12,6 @@ import { randomBytes } from 'node:crypto';
 import { Queue } from 'bullmq';
 import { Webhook } from 'standardwebhooks';
 import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
-import type { Step } from '../../src/analysis/model.ts';
 import { DeliveryRetry } from '../../src/channels/errors.ts';
 import { notificationChannels } from '../../src/channels/openChannels.ts';
 import type { Config } from '../../src/domain/config.ts';
@@ -26,6 +25,7 @@ import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { incidentMessage } from '../unit/notify-fixtures.ts';
+import { openIronAlarm } from '../helpers/ironAlarm.ts';
 
 /** How long a test waits for something that should happen within a few seconds. */
 const BOUND_MS = 60_000;
@@ -119,31 +119,6 @@ channels:
 `);
 }
 
-/** Opens an iron alarm on the unit's gearbox; the worker's outbox relay queues its message. */
-async function openIncident(incidents: RedisIncidents, unit: string): Promise<void> {
-  const sampledAt = new Date(Date.now() - 86_400_000).toISOString();
-  const finding: Step['findings'][number] = {
-    unit,
-    component: 'gearbox',
-    group: 'gearboxes',
-    measurand: 'Fe',
-    rule: 'limit',
-    disposition: 'incident',
-    severity: 'alarm',
-    value: 95,
-    threshold: 80,
-    basis: 'reading',
-    sampleId: `${unit}-1`,
-    sampledAt,
-    explanation: 'Fe 95 ppm is above the alarm level of 80 ppm.',
-  };
-  await incidents.applySteps({ unit, component: 'gearbox' }, [{ sampleId: `${unit}-1`, sampledAt, findings: [finding] }], {
-    group: 'gearboxes',
-    now: new Date(),
-    quietBefore: new Date(0),
-  });
-}
-
 let redis: RedisServer;
 let hooks: Receiver | undefined;
 let running: RunningWorkers | undefined;
@@ -200,7 +175,7 @@ describe('closing while a webhook delivery hangs on a receiver that does not ans
     const cfg = config(prefix, hooks.url);
     const incidents = new RedisIncidents(connection, { rules: incidentRules(cfg), prefix });
     running = startWorkers({ connection, config: cfg, logger: silentLogger(), channels: notificationChannels(cfg.channels, { logger: silentLogger(), env: ENV }) }, { prefix, outboxIntervalMs: 200 });
-    await openIncident(incidents, 'PS9-P1');
+    await openIronAlarm(incidents, 'PS9-P1');
     await until('the delivery held by the receiver', () => hooks!.held.size === 1);
 
     // Without the channel ending the request, the close would wait for the job, up to the 5-minute timeout.
