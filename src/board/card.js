@@ -8,7 +8,7 @@ import { markPending, sendFor, setStatus } from './cardStatus.js';
 import { loadChart } from './chart.js';
 import { announce, el } from './dom.js';
 import { duration, formatTime } from './format.js';
-import { ADVISORY_HEADING, bySeverity, FORECAST_CAUTION, measurandsOf, severityBadge, stateWords, waitingSince } from './incidentText.js';
+import { ADVISORY_HEADING, bySeverity, closureText, FORECAST_CAUTION, measurandsOf, severityBadge, stateWords, waitingSince, withdrawnFindingText } from './incidentText.js';
 import { view } from './page.js';
 import { componentPath, incidentPagePath, incidentPath } from './paths.js';
 import { scheduleReload } from './reload.js';
@@ -102,6 +102,10 @@ export function updateCard(card, incident) {
     ...forecasts.map((f) => el('li', { class: 'forecast', 'data-forecast': f.outcome }, el('strong', { text: 'time to limit: ' }), f.text)),
     ...(forecasts.length > 0 ? [el('li', { class: 'forecast-caution', text: FORECAST_CAUTION })] : []),
   );
+  // Findings the incident stood on that no longer hold (withdrawn, or answered by a sample verdict): marked so.
+  card.evidence.append(
+    ...bySeverity(incident.withdrawnEvidence).map((f) => el('li', { class: 'withdrawn', 'data-severity': f.severity }, el('strong', { text: `${f.measurand} · ${f.severity} · ${f.rule}: ` }), withdrawnFindingText(f))),
+  );
   // Advisory findings (the API's `context`): the board's cards show the first few, the incident page every one.
   const advisories = bySeverity(incident.context);
   const advisoriesShown = view === 'incident' ? advisories : advisories.slice(0, CARD_EVIDENCE);
@@ -153,11 +157,13 @@ export function renderState(card) {
   const incident = card.incident;
   const words = stateWords(incident);
   const parts = [el('strong', { text: words })];
+  // Closed: how, in the words of the closing message (a withdrawn incident says that nothing of it stands).
+  if (incident.closed) parts.push(` — ${closureText(incident.closed)}`);
   if (incident.acknowledged) {
     const ack = incident.acknowledged;
     parts.push(` · by ${ack.by} at ${formatTime(ack.at)}`);
     if (ack.note) parts.push(` — “${ack.note}”`);
-  } else {
+  } else if (!incident.closed) {
     parts.push(' · ', el('span', { class: 'waiting', text: `waiting ${duration(Date.now() - Date.parse(waitingSince(incident)))}` }));
     if (incident.escalation && incident.escalation.reachedTier > 0) parts.push(` · escalated to tier ${incident.escalation.reachedTier}`);
   }

@@ -52,6 +52,20 @@ export function measurandsOf(incident) {
   return seen;
 }
 
+
+/** As NO_LONGER_HOLD and withdrawnEvidenceText in src/incidents/model.ts. */
+export const NO_LONGER_HOLD = 'the findings it stood on no longer hold';
+export function withdrawnEvidenceText(findings) {
+  if (!findings || findings.length === 0) return '';
+  const samples = [...new Set(findings.map((f) => f.sampleId))];
+  const of = samples.map((id) => `${findings.filter((f) => f.sampleId === id).map((f) => `${f.measurand} (${f.rule}, ${f.severity})`).join(', ')} of sample ${id}`);
+  return `${NO_LONGER_HOLD}: ${of.join('; ')}`;
+}
+
+/** A finding an incident stood on that no longer holds (`withdrawnEvidence`), never shown as current evidence. */
+export function withdrawnFindingText(f) {
+  return `no longer holds (the results as they stand now do not give it); as first reported for sample ${f.sampleId}: ${f.explanation}`;
+}
 /** The incident's timeline and the messages about it (sent or not), in time order (the command line's `incidents show` too). */
 export function mergedTimeline(incident) {
   const all = [...(incident.timeline ?? []), ...(incident.notifications ?? [])];
@@ -82,6 +96,18 @@ export function closingVerdictText(closure) {
   return `closed: sample ${closure.sampleId ?? '(unknown)'} ${words}`;
 }
 
+/** Why an incident was closed (as closureText in src/incidents/model.ts). */
+const CLOSED_WORDS = {
+  'acknowledged-and-returned': 'returned to normal and acknowledged',
+  resolved: 'resolved by hand',
+  'returned-unannounced': 'returned to normal before anyone was told',
+  withdrawn: 'withdrawn: a late or corrected result changed the history so that this incident no longer stands',
+};
+export function closureText(closure) {
+  if (closure.how === 'sample-verdict') return closingVerdictText(closure);
+  return CLOSED_WORDS[closure.how] ?? `closed (${closure.how})`;
+}
+
 /** A message event's targets, each one held back marked so, with why (as notifiedTargetsText in src/incidents/model.ts). */
 const WITHDRAWN_WORDS = { acknowledged: 'acknowledged', shelved: 'shelved', closed: 'closed', returned: 'returned to normal' };
 export function notifiedTargetsText(entry) {
@@ -105,7 +131,7 @@ export function timelineText(entry) {
     case 'finding':
       return `${at}: ${entry.measurand} ${entry.rule} ${entry.change.replace('-', ' ')} (${entry.severity})${sample}${entry.explanation ? ` — ${entry.explanation}` : ''}`;
     case 'returned':
-      return `${at}: returned to normal${sample}`;
+      return `${at}: returned to normal${sample}${typeof entry.cleanSamples === 'number' ? `, after ${entry.cleanSamples} ${entry.cleanSamples === 1 ? 'sample' : 'samples'} without findings` : ''}`;
     case 'active-again':
       return `${at}: ${entry.reopened ? 'reopened' : 'active again'}${sample}`;
     case 'acknowledged':
@@ -117,7 +143,8 @@ export function timelineText(entry) {
     case 'unshelved':
       return `${at}: ${entry.by ? `unshelved by ${entry.by}` : 'shelving ended'}`;
     case 'closed':
-      if (entry.how === 'sample-verdict') return `${at}: ${closingVerdictText(entry)}`;
+      // Withdrawn or answered by a sample verdict: why, in the words of the closing message.
+      if (entry.how === 'sample-verdict' || entry.how === 'withdrawn') return `${at}: ${closureText(entry)}`;
       return `${at}: closed (${entry.how})${entry.by ? ` by ${entry.by}` : ''}${entry.note ? ` — ${entry.note}` : ''}`;
     case 'sample-verdict':
       return `${at}: ${sampleVerdictText(entry)}`;

@@ -78,6 +78,12 @@ export const IncidentSummarySchema = z
     peakSeverity: z.enum(SEVERITIES),
     evidence: z.array(findingSchema),
     activeFindings: z.array(findingSchema),
+    withdrawnEvidence: z
+      .array(findingSchema)
+      .optional()
+      .describe(
+        'Of an incident closed because the history no longer produces it (closed.how withdrawn or sample-verdict): the findings it stood on, which no longer hold; never current evidence (evidence is then empty and alarm returned). Absent otherwise.',
+      ),
     acknowledged: actor.nullable(),
     shelved: actor.extend({ until: isoTime, reason: z.string() }).nullable(),
     closed: z.object({ at: isoTime, how: z.string() }).loose().nullable(),

@@ -10,7 +10,7 @@ import { maxSeverity, severityRank } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
 import type { EscalationPolicy } from '../domain/escalationConfig.ts';
 import { isoOf, type DraftIncident, type Work } from './draft.ts';
-import { closureText, describeState, type IncidentEventType, type IncidentSnapshot } from './model.ts';
+import { closureText, describeState, withdrawnEvidenceText, type IncidentEventType, type IncidentSnapshot, type TimelineEntry } from './model.ts';
 import { recipients, selectPolicy } from './policy.ts';
 import { REOPENED } from './verdict.ts';
 
@@ -206,14 +206,30 @@ function reopenedReason(inc: DraftIncident, news: string | null): string {
   return parts.join('; ');
 }
 
-/** The sample of the latest return to normal, from the timeline. */
-function lastReturn(inc: DraftIncident): string | null {
+type ReturnEntry = Extract<TimelineEntry, { kind: 'returned' }>;
+
+/** The latest return to normal, from the timeline; null when the incident has been active again since. */
+function lastReturnEntry(inc: DraftIncident): ReturnEntry | null {
   for (let i = inc.timeline.length - 1; i >= 0; i--) {
     const e = inc.timeline[i]!;
-    if (e.kind === 'returned') return e.sampleId;
+    if (e.kind === 'returned') return e;
     if (e.kind === 'active-again') return null;
   }
   return null;
+}
+
+/** The sample of the latest return to normal. */
+function lastReturn(inc: DraftIncident): string | null {
+  return lastReturnEntry(inc)?.sampleId ?? null;
+}
+
+/**
+ * The return as the verdict recorded it, not as the incident stands when it is told: results judged together after
+ * the return (a batch, a backfill) add clean samples that did not bring it back.
+ */
+function returnedReason(entry: ReturnEntry): string {
+  const count = entry.cleanSamples === undefined ? '' : `, after ${entry.cleanSamples} ${entry.cleanSamples === 1 ? 'sample' : 'samples'} without findings`;
+  return `returned to normal at sample ${entry.sampleId}${count}; still unacknowledged`;
 }
 
 /**
@@ -233,7 +249,9 @@ function annunciateOne(inc: DraftIncident, work: Work): void {
     told.closed = true;
     cancelEscalations(inc, work, 'closed');
     const note = inc.closed.note === undefined ? '' : `: ${inc.closed.note}`;
-    if (inc.announced !== null) tellReached(inc, work, 'wearshift.incident.closed', `${closureText(inc.closed)}${note}`);
+    // An incident the history no longer produces carries no findings (incidentFold.ts): the message names what it stood on.
+    const setAside = withdrawnEvidenceText(inc.withdrawnEvidence);
+    if (inc.announced !== null) tellReached(inc, work, 'wearshift.incident.closed', `${closureText(inc.closed)}${note}${setAside === '' ? '' : `; ${setAside}`}`);
     return;
   }
   const ack = inc.acknowledged;
@@ -293,10 +311,10 @@ function annunciateOne(inc: DraftIncident, work: Work): void {
     }
   }
   if (inc.alarm === 'returned') {
-    const returned = lastReturn(inc);
-    if (returned !== null && told.returnedAt !== returned && ack === null && inc.lastLive) {
-      told.returnedAt = returned;
-      tellReached(inc, work, 'wearshift.incident.returned', `returned to normal after ${inc.cleanSteps} samples without findings; still unacknowledged`);
+    const returned = lastReturnEntry(inc);
+    if (returned !== null && told.returnedAt !== returned.sampleId && ack === null && inc.lastLive) {
+      told.returnedAt = returned.sampleId;
+      tellReached(inc, work, 'wearshift.incident.returned', returnedReason(returned));
     }
   }
   // Otherwise the escalation goes on by its scheduled checks (applyEscalationCheck).

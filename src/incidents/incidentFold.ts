@@ -7,7 +7,9 @@
  * What was told is not rewound: at the end each incident takes the annunciation record of the incident of the same
  * id now, and the annunciation tells the difference — a new incident, new evidence — as news. An open incident the
  * new verdict no longer holds is closed, and everyone told of it is told so: as answered when a responder's word on
- * the sample that opened it took it away (`sample-verdict`), else as withdrawn by the changed history.
+ * the sample that opened it took it away (`sample-verdict`), else as withdrawn by the changed history. Either way its
+ * alarm is no longer active and its findings are set aside as no longer holding (`withdrawnEvidence`), never left as
+ * its current evidence.
  */
 import { draftOf, type DraftIncident, type DraftState, type Work } from './draft.ts';
 import { annunciate } from './escalation.ts';
@@ -88,6 +90,7 @@ export class IncidentFold {
         gone.closed = closure;
         gone.timeline.push({ kind: 'closed', ...closure });
       }
+      setEvidenceAside(gone);
       withdrawn.push(gone);
     }
     endExpiredShelving(draft, work);
@@ -114,6 +117,20 @@ function goneBecause(incident: Incident, now: Date): Closure {
   const word = closingVerdict(incident);
   if (word === undefined) return { at: now.toISOString(), how: 'withdrawn' };
   return { at: word.at, how: 'sample-verdict', by: word.by, sampleId: word.sampleId, verdict: word.verdict };
+}
+
+/**
+ * An incident the history no longer produces stands on nothing: its alarm is no longer active, and the findings it
+ * stood on, which the history no longer gives, leave its evidence (and with them the advisory findings and forecasts
+ * of their sample) for `withdrawnEvidence`, so that no closing message, page or condition shows them as current.
+ */
+function setEvidenceAside(gone: DraftIncident): void {
+  if (gone.evidence.length > 0) gone.withdrawnEvidence = gone.evidence;
+  gone.alarm = 'returned';
+  gone.evidence = [];
+  gone.activeFindings = [];
+  gone.context = [];
+  delete gone.forecast;
 }
 
 function carryAnnunciation(inc: DraftIncident, before: Incident): void {

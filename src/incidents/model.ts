@@ -99,7 +99,13 @@ export type TimelineEntry =
       readonly previousSeverity?: Severity;
       readonly explanation?: string;
     }
-  | { readonly kind: 'returned'; readonly at: string; readonly sampleId: string }
+  | {
+      readonly kind: 'returned';
+      readonly at: string;
+      readonly sampleId: string;
+      /** Consecutive samples without findings that returned it (`incidents.returnAfterSamples` when it returned); absent from entries recorded before it was kept. */
+      readonly cleanSamples?: number;
+    }
   | { readonly kind: 'active-again'; readonly at: string; readonly sampleId: string; readonly reopened: boolean }
   | { readonly kind: 'acknowledged'; readonly at: string; readonly by: string; readonly note?: string; readonly recipient?: string; readonly credential?: string }
   | { readonly kind: 'unacknowledged'; readonly at: string; readonly reason: string }
@@ -196,6 +202,12 @@ export interface Incident {
   readonly evidence: readonly Finding[];
   /** Advisory and held findings of the same sample, shown beside the evidence the way a lab report shows them. */
   readonly context: readonly Finding[];
+  /**
+   * Of an incident the history no longer produces (closed as `withdrawn` or `sample-verdict`): the evidence it stood
+   * on, which no longer holds, set aside so that nothing shows it as current (`evidence` is then empty). Absent
+   * otherwise. `severity` and `peakSeverity` stay as they were told.
+   */
+  readonly withdrawnEvidence?: readonly Finding[];
   /**
    * How long until the evidence's measurands cross their limits, as of the evidence's sample (analysis/forecast);
    * absent when forecasts are disabled. A forecast assumes the present trend continues.
@@ -398,6 +410,21 @@ export function closureText(closure: Pick<Closure, 'how' | 'by' | 'sampleId' | '
   const by = closure.by ?? 'a responder';
   const words = closure.verdict === undefined ? `judged by ${by}` : CLOSING_VERDICT_WORDS[closure.verdict](by);
   return `closed: sample ${closure.sampleId ?? '(unknown)'} ${words}`;
+}
+
+/** How a closing message starts its account of what no longer holds (see `withdrawnEvidenceText`). */
+export const NO_LONGER_HOLD = 'the findings it stood on no longer hold';
+
+/**
+ * What a closed incident stood on and no longer holds (Incident.withdrawnEvidence), for people and in the closing
+ * message: "the findings it stood on no longer hold: Fe (limit, caution) of sample D-16-2". Empty when there is
+ * nothing set aside. The board carries a copy.
+ */
+export function withdrawnEvidenceText(findings: readonly Pick<Finding, 'measurand' | 'rule' | 'severity' | 'sampleId'>[] | undefined): string {
+  if (findings === undefined || findings.length === 0) return '';
+  const samples = [...new Set(findings.map((f) => f.sampleId))];
+  const of = samples.map((id) => `${findings.filter((f) => f.sampleId === id).map((f) => `${f.measurand} (${f.rule}, ${f.severity})`).join(', ')} of sample ${id}`);
+  return `${NO_LONGER_HOLD}: ${of.join('; ')}`;
 }
 
 const WITHDRAWN_WORDS: Record<WithdrawnBecause, string> = { acknowledged: 'acknowledged', shelved: 'shelved', closed: 'closed', returned: 'returned to normal' };

@@ -266,7 +266,7 @@ function cleanStep(inc: DraftIncident, step: VerdictStep, options: StepOptions, 
   if (inc.cleanSteps < rules.incidents.returnAfterSamples) return;
   inc.alarm = 'returned';
   inc.stepsSinceEnd = 0;
-  push(inc, { kind: 'returned', at: step.sampledAt, sampleId: step.sampleId });
+  push(inc, { kind: 'returned', at: step.sampledAt, sampleId: step.sampleId, cleanSamples: inc.cleanSteps });
   if (inc.acknowledged !== null) close(inc, { at: step.sampledAt, how: 'acknowledged-and-returned' });
   else if (!inc.live) close(inc, { at: step.sampledAt, how: 'returned-unannounced' });
 }

@@ -10,7 +10,18 @@ import { bySeverity, severityWords, type MessageSeverity } from '../../src/notif
 import { formatTime, timeZoneNote } from '../../src/notify/format.ts';
 import { FORECAST_CAUTION } from '../../src/domain/caution.ts';
 import { ADVISORY_HEADING } from '../../src/channels/email/emailRender.ts';
-import { closureText, notifiedTargetsText, sampleVerdictText, type ClosingVerdict, type NotifiedEntry, type SampleVerdict, type WithdrawnBecause } from '../../src/incidents/model.ts';
+import {
+  closureText,
+  NO_LONGER_HOLD,
+  notifiedTargetsText,
+  sampleVerdictText,
+  withdrawnEvidenceText,
+  type ClosedHow,
+  type ClosingVerdict,
+  type NotifiedEntry,
+  type SampleVerdict,
+  type WithdrawnBecause,
+} from '../../src/incidents/model.ts';
 
 interface BoardText {
   FORECAST_CAUTION: string;
@@ -19,6 +30,10 @@ interface BoardText {
   bySeverity<T>(findings: readonly T[]): T[];
   sampleVerdictText(entry: object): string;
   closingVerdictText(closure: object): string;
+  closureText(closure: object): string;
+  NO_LONGER_HOLD: string;
+  withdrawnEvidenceText(findings: readonly object[] | undefined): string;
+  withdrawnFindingText(finding: object): string;
   notifiedTargetsText(entry: object): string;
   timelineText(entry: object): string;
 }
@@ -106,6 +121,27 @@ describe("the board's copies", () => {
     const uncertain = { targets: ['webhook:ops'], withdrawn: [{ target: 'webhook:ops', tier: 1, at: '2026-03-01T08:05:00Z', because: 'acknowledged' as const, reason: '', attemptedAt: '2026-03-01T08:01:00.000Z' }] };
     expect(notifiedTargetsText(uncertain)).toBe('webhook:ops (not sent again: acknowledged meanwhile; an attempt begun at 2026-03-01T08:01:00.000Z may have reached it)');
     expect(text.notifiedTargetsText(uncertain)).toBe(notifiedTargetsText(uncertain));
+  });
+
+  it('write why an incident was closed, and what a withdrawn one stood on, as the closing message does', () => {
+    for (const how of ['acknowledged-and-returned', 'resolved', 'returned-unannounced', 'withdrawn'] as ClosedHow[]) {
+      expect(text.closureText({ how }), how).toBe(closureText({ how }));
+    }
+    const withdrawn = { kind: 'closed', at: '2026-05-04T09:00:00Z', how: 'withdrawn' } as const;
+    expect(text.timelineText(withdrawn)).toContain(`: ${closureText(withdrawn)}`);
+    expect(text.NO_LONGER_HOLD).toBe(NO_LONGER_HOLD);
+    const stood = [
+      { measurand: 'Fe', rule: 'limit', severity: 'caution', sampleId: 'D-16-2', explanation: 'Fe 60 ppm is above the caution level 50 ppm.' },
+      { measurand: 'Cu', rule: 'rate', severity: 'watch', sampleId: 'D-16-2', explanation: 'Cu rises.' },
+    ] as const;
+    expect(text.withdrawnEvidenceText(stood)).toBe(withdrawnEvidenceText(stood));
+    expect(withdrawnEvidenceText(stood)).toBe('the findings it stood on no longer hold: Fe (limit, caution), Cu (rate, watch) of sample D-16-2');
+    expect(text.withdrawnEvidenceText([])).toBe(withdrawnEvidenceText([]));
+    expect(text.withdrawnEvidenceText(undefined)).toBe('');
+    // A finding set aside is never shown as current: the card says it no longer holds before what it first said.
+    expect(text.withdrawnFindingText(stood[0])).toMatch(/^no longer holds .*as first reported for sample D-16-2: Fe 60 ppm/);
+    // A return to normal with the clean samples that returned it.
+    expect(text.timelineText({ kind: 'returned', at: '2026-05-04T09:00:00Z', sampleId: 'R-4', cleanSamples: 2 })).toMatch(/: returned to normal \(sample R-4\), after 2 samples without findings$/);
   });
 
   it('write times in the site zone exactly as e-mails and the command line do', () => {

@@ -200,7 +200,7 @@ describe('incident life cycle', () => {
       ['wearshift.incident.returned', 'email', 'oncall@plant.example', 0],
       ['wearshift.incident.returned', 'webhook', 'ops', 0],
     ]);
-    expect(notifies(second.effects)[0]!.incident.reason).toMatch(/^returned to normal after 2 samples without findings; still unacknowledged/);
+    expect(notifies(second.effects)[0]!.incident.reason).toBe('returned to normal at sample LAB-0003, after 2 samples without findings; still unacknowledged');
 
     // Returned but unacknowledged stays open through further clean samples.
     state = feed(state, step(4)).state;

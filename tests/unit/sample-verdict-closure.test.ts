@@ -1,8 +1,9 @@
 /**
  * An incident a responder answered (pure engine): the word on the sample in doubt that opened it takes it out of the
  * history, and the fold closes it as `sample-verdict` — who said what of which sample, at the time the word was
- * given — not as withdrawn by a late result. Everyone told of it hears why in those words; a fold of the same history
- * with the same words closes it the same way, whenever it runs.
+ * given — not as withdrawn by a late result. Everyone told of it hears why in those words, and what it stood on that
+ * no longer holds, with no finding sent as current; a fold of the same history with the same words closes it the same
+ * way, whenever it runs.
  */
 import { describe, expect, it } from 'vitest';
 import { ConfigSchema } from '../../src/domain/config.ts';
@@ -67,15 +68,25 @@ describe("an incident a responder's word on its sample answered", () => {
     expect(gone!.timeline.at(-1)).toEqual({ kind: 'closed', ...closure });
     const closing = r.effects.filter((e): e is NotifyEffect => e.kind === 'notify' && e.type === 'wearshift.incident.closed');
     expect(closing.map((e) => [e.incidentId, e.target])).toEqual([[SAMPLING_ID, 'samplers']]);
-    expect(closing[0]!.incident.reason).toBe('closed: sample QX-1-026 rejected by Jo Sampler (sample judged wrong; kept out of the trend)');
+    expect(closing[0]!.incident.reason).toBe(
+      'closed: sample QX-1-026 rejected by Jo Sampler (sample judged wrong; kept out of the trend); the findings it stood on no longer hold: Fe (sampling, caution) of sample QX-1-026',
+    );
     expect(closing[0]!.incident.reason).not.toMatch(/withdrawn|late or corrected/);
+    // Its finding no longer holds: set aside, never sent as current evidence; its alarm is no longer active.
+    expect(closing[0]!.incident.findings).toEqual([]);
+    expect(closing[0]!.incident.alarm).toBe('returned');
+    expect(gone!.evidence).toEqual([]);
+    expect(gone!.withdrawnEvidence?.map((f) => [f.rule, f.sampleId])).toEqual([['sampling', 'QX-1-026']]);
   });
 
   it('closes as sample-verdict when the sample is confirmed as genuine', () => {
     const r = answer(asked, 'confirmed', new Date(T0 + 282 * DAY));
     expect(r.withdrawn[0]!.closed).toMatchObject({ how: 'sample-verdict', verdict: 'confirmed', by: 'Jo Sampler' });
     const closing = r.effects.find((e): e is NotifyEffect => e.kind === 'notify' && e.type === 'wearshift.incident.closed')!;
-    expect(closing.incident.reason).toBe('closed: sample QX-1-026 confirmed as genuine by Jo Sampler (back into the trend)');
+    expect(closing.incident.reason).toBe(
+      'closed: sample QX-1-026 confirmed as genuine by Jo Sampler (back into the trend); the findings it stood on no longer hold: Fe (sampling, caution) of sample QX-1-026',
+    );
+    expect(closing.incident.findings).toEqual([]);
   });
 
   it('closes the same way whenever the fold runs (the closing time is the word’s, not the clock’s)', () => {
@@ -91,7 +102,11 @@ describe("an incident a responder's word on its sample answered", () => {
     const late = noWord.finish();
     expect(late.withdrawn[0]!.closed).toEqual({ at: new Date(T0 + 282 * DAY).toISOString(), how: 'withdrawn' });
     const closing = late.effects.find((e): e is NotifyEffect => e.kind === 'notify' && e.type === 'wearshift.incident.closed')!;
-    expect(closing.incident.reason).toBe('withdrawn: a late or corrected result changed the history so that this incident no longer stands');
+    expect(closing.incident.reason).toBe(
+      'withdrawn: a late or corrected result changed the history so that this incident no longer stands; the findings it stood on no longer hold: Fe (sampling, caution) of sample QX-1-026',
+    );
+    expect(closing.incident.findings).toEqual([]);
+    expect(late.withdrawn[0]!.alarm).toBe('returned');
     expect(answer(asked, 'withdrawn', new Date(T0 + 282 * DAY)).withdrawn[0]!.closed?.how).toBe('withdrawn');
   });
 

@@ -9,6 +9,7 @@ import { asksForAcknowledgement, bySeverity, severityWords, type IncidentMessage
 import { DEFAULT_TIME_ZONE, formatNumber, formatTime as formatTimeIn, timeZoneNote } from '../../notify/format.ts';
 import { escapeHtml, headerValue, httpUrl, oneLine } from '../../domain/safeText.ts';
 import { REOPENED } from '../../incidents/verdict.ts';
+import { closureText, NO_LONGER_HOLD } from '../../incidents/model.ts';
 
 export { ADVISORY_CAUTION };
 
@@ -81,9 +82,13 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
   const expiry = options.ackExpiresAt ? ` The link works until ${formatTime(options.ackExpiresAt.toISOString())}.` : '';
   const context = `Open since ${formatTime(inc.openedAt)} · group ${oneLine(inc.group)} · state ${oneLine(inc.state)} · escalation tier ${inc.tier}. ${timeZoneNote(zone)}`;
   const returned = msg.type === 'returned';
+  // Closed because the history no longer gives its findings (withdrawn, or a sample verdict): the message carries none,
+  // and says so rather than "no findings attached".
+  const setAside = msg.type === 'closed' && msg.findings.length === 0 && msg.whatChanged.includes(NO_LONGER_HOLD);
   // A return to normal is no verdict on the cause: the evidence that raised the incident is shown as what it was.
-  const standing = returned ? returnedNote(msg) : undefined;
+  const standing = returned ? returnedNote(msg) : setAside ? SET_ASIDE_NOTE : undefined;
   const evidenceHeading = returned ? 'Evidence that raised it (not seen in the latest samples)' : 'Evidence';
+  const noEvidence = setAside ? `(none: ${NO_LONGER_HOLD}, see What changed)` : '(no findings attached)';
 
   const text = [
     `Incident ${oneLine(inc.id)} on ${where}: ${severity}. ${what}.`,
@@ -93,7 +98,7 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
     whatChanged,
     '',
     evidenceHeading,
-    ...(evidence.length === 0 ? ['(no findings attached)'] : evidence.flatMap((e) => [`- ${e.title} (${e.since}).`, `  ${e.explanation}`])),
+    ...(evidence.length === 0 ? [noEvidence] : evidence.flatMap((e) => [`- ${e.title} (${e.since}).`, `  ${e.explanation}`])),
     ...(advisories.length > 0 ? ['', ADVISORY_HEADING, ...advisories.flatMap((e) => [`- ${e.title} (${e.since}).`, `  ${e.explanation}`])] : []),
     ...(forecasts.length > 0 ? ['', 'Time to limit', ...forecasts.map((f) => `- ${f}`), `  ${FORECAST_CAUTION}`] : []),
     ...(options.chart ? ['', 'Trend', oneLine(options.chart.alt)] : []),
@@ -122,7 +127,7 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
     `<p>${escapeHtml(whatChanged)}</p>`,
     `<h3>${escapeHtml(evidenceHeading)}</h3>`,
     evidence.length === 0
-      ? '<p>(no findings attached)</p>'
+      ? `<p>${escapeHtml(noEvidence)}</p>`
       : `<ul>${evidence.map((e) => `<li><strong>${escapeHtml(e.title)}</strong> (${escapeHtml(e.since)}).<br>${escapeHtml(e.explanation)}</li>`).join('')}</ul>`,
     ...(advisories.length > 0
       ? [`<h3>${escapeHtml(ADVISORY_HEADING)}</h3>`, `<ul>${advisories.map((e) => `<li>${escapeHtml(e.title)} (${escapeHtml(e.since)}).<br>${escapeHtml(e.explanation)}</li>`).join('')}</ul>`]
@@ -180,9 +185,17 @@ function headline(msg: IncidentMessage): string {
     case 'returned':
       return by === undefined ? 'Readings back to normal, still to be acknowledged' : 'Readings back to normal';
     case 'closed':
-      return 'Closed';
+      return msg.whatChanged.startsWith(WITHDRAWN) ? 'Withdrawn, no longer stands' : 'Closed';
   }
 }
+
+/** How the closing message of an incident withdrawn by a late or corrected result begins (model.ts `closureText`). */
+const WITHDRAWN = closureText({ how: 'withdrawn' });
+
+/** Above the message of an incident closed because the history no longer gives the findings it stood on. */
+const SET_ASIDE_NOTE =
+  'The results as they stand now no longer give the findings this incident was raised on (named under What changed): ' +
+  'none is shown as evidence, and nothing is asked of you.';
 
 /**
  * What a return to normal means for the reader. The engine tells of a return only while nobody has acknowledged the
