@@ -8,7 +8,7 @@ import { markPending, sendFor, setStatus } from './cardStatus.js';
 import { loadChart } from './chart.js';
 import { announce, el } from './dom.js';
 import { duration, formatTime } from './format.js';
-import { ADVISORY_HEADING, bySeverity, closureText, FORECAST_CAUTION, measurandsOf, severityBadge, stateWords, waitingSince, withdrawnFindingText } from './incidentText.js';
+import { ADVISORY_HEADING, bySeverity, closureText, FORECAST_CAUTION, measurandsOf, severityBadge, stateWords, subjectOf, subjectsOf, waitingSince, withdrawnFindingText } from './incidentText.js';
 import { view } from './page.js';
 import { componentPath, incidentPagePath, incidentPath } from './paths.js';
 import { scheduleReload } from './reload.js';
@@ -84,9 +84,10 @@ export function updateCard(card, incident) {
   node.dataset.acknowledged = String(Boolean(incident.acknowledged));
   card.badge.replaceChildren(severityBadge(incident.severity, incident.peakSeverity));
   const measurands = measurandsOf(incident);
+  const subjects = subjectsOf(incident);
   card.title.replaceChildren(
     el('a', { href: componentPath(incident.unit, incident.component), text: `${incident.unit} / ${incident.component}` }),
-    measurands.length > 0 ? ` — ${measurands.join(', ')}` : '',
+    subjects.length > 0 ? ` — ${subjects.join(', ')}` : '',
   );
   renderState(card);
   // Most severe first: the first one always carries the incident's severity. The board's cards show the first
@@ -95,7 +96,7 @@ export function updateCard(card, incident) {
   const shown = view === 'incident' ? evidence : evidence.slice(0, CARD_EVIDENCE);
   const forecasts = (incident.forecast ?? []).slice(0, 4);
   card.evidence.replaceChildren(
-    ...shown.map((f) => el('li', { 'data-severity': f.severity }, el('strong', { text: `${f.measurand} · ${f.severity} · ${f.rule}: ` }), f.explanation)),
+    ...shown.map((f) => el('li', { 'data-severity': f.severity }, el('strong', { text: `${subjectOf(f)} · ${f.severity} · ${f.rule}: ` }), f.explanation)),
     ...(evidence.length > shown.length
       ? [el('li', { class: 'more' }, el('a', { href: incidentPagePath(incident.id), text: `${evidence.length - shown.length} more ${evidence.length - shown.length === 1 ? 'finding' : 'findings'} on the incident page` }))]
       : []),
@@ -104,14 +105,14 @@ export function updateCard(card, incident) {
   );
   // Findings the incident stood on that no longer hold (withdrawn, or answered by a sample verdict): marked so.
   card.evidence.append(
-    ...bySeverity(incident.withdrawnEvidence).map((f) => el('li', { class: 'withdrawn', 'data-severity': f.severity }, el('strong', { text: `${f.measurand} · ${f.severity} · ${f.rule}: ` }), withdrawnFindingText(f))),
+    ...bySeverity(incident.withdrawnEvidence).map((f) => el('li', { class: 'withdrawn', 'data-severity': f.severity }, el('strong', { text: `${subjectOf(f)} · ${f.severity} · ${f.rule}: ` }), withdrawnFindingText(f))),
   );
   // Advisory findings (the API's `context`): the board's cards show the first few, the incident page every one.
   const advisories = bySeverity(incident.context);
   const advisoriesShown = view === 'incident' ? advisories : advisories.slice(0, CARD_EVIDENCE);
   card.advisory.hidden = advisories.length === 0;
   card.advisoryList.replaceChildren(
-    ...advisoriesShown.map((f) => el('li', { 'data-severity': f.severity, 'data-rule': f.rule }, `${f.measurand} · ${f.severity} · ${f.rule}: `, f.explanation)),
+    ...advisoriesShown.map((f) => el('li', { 'data-severity': f.severity, 'data-rule': f.rule }, `${subjectOf(f)} · ${f.severity} · ${f.rule}: `, f.explanation)),
     ...(advisories.length > advisoriesShown.length
       ? [el('li', { class: 'more' }, el('a', { href: incidentPagePath(incident.id), text: `${advisories.length - advisoriesShown.length} more on the incident page` }))]
       : []),
@@ -144,7 +145,9 @@ export function updateCard(card, incident) {
     // Drawn when the card comes near the window, a few at a time (whenSeen.js).
     loadWhenSeen(card.chart, () => loadChart(card.chart, incident.unit, incident.component, measurands[0]));
   } else if (measurands.length === 0) {
-    card.chart.replaceChildren(el('p', { class: 'chart-problem', text: 'No measurand to chart.' }));
+    // A fault of the whole sample (a duplicated bottle, hours going back…) is no metal's trend.
+    const text = subjects.includes('sample') ? 'A fault of the whole sample: no measurand to chart (every trend is on the component page).' : 'No measurand to chart.';
+    card.chart.replaceChildren(el('p', { class: 'chart-problem', text }));
   }
 }
 

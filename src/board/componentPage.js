@@ -6,7 +6,7 @@
 import { loadChart } from './chart.js';
 import { $, el } from './dom.js';
 import { formatTime } from './format.js';
-import { closingVerdictText, FORECAST_CAUTION, measurandsOf, mergedTimeline, severityBadge, stateWords, timelineText } from './incidentText.js';
+import { closingVerdictText, FORECAST_CAUTION, mergedTimeline, severityBadge, stateWords, subjectsOf, timelineText } from './incidentText.js';
 import { page } from './page.js';
 import { apiComponentPath, incidentPagePath, incidentPath } from './paths.js';
 import { markLoaded } from './reload.js';
@@ -65,7 +65,7 @@ function renderHistory(result) {
       return el(
         'li',
         { class: 'incident', 'data-severity': incident.severity, 'data-acknowledged': String(Boolean(incident.acknowledged)) },
-        el('div', { class: 'incident-head' }, severityBadge(incident.severity, incident.peakSeverity), el('h3', {}, el('a', { href: incidentPagePath(incident.id), text: `${measurandsOf(incident).join(', ') || 'Incident'} — opened ${formatTime(incident.openedAt)}` }))),
+        el('div', { class: 'incident-head' }, severityBadge(incident.severity, incident.peakSeverity), el('h3', {}, el('a', { href: incidentPagePath(incident.id), text: `${subjectsOf(incident).join(', ') || 'Incident'} — opened ${formatTime(incident.openedAt)}` }))),
         el('p', { class: 'state' }, el('strong', { text: stateWords(incident) }), incident.closed ? ` · ${incident.closed.how === 'sample-verdict' ? closingVerdictText(incident.closed) : incident.closed.how} ${formatTime(incident.closed.at)}` : ''),
         details,
       );

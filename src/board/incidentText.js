@@ -44,21 +44,29 @@ export function stateWords(incident) {
   return parts.join(', ');
 }
 
-/** The incident's measurands, the one that sets its severity first (an incident kept per measurand: that one). */
-export function measurandsOf(incident) {
+/** The sampling checks that judge the whole sample, not one measurand (a copy of src/domain/finding.ts). */
+export const SAMPLE_WIDE_CHECKS = ['duplicate-bottle', 'unit-hours-back', 'oil-hours-back', 'new-oil-mid-charge', 'foreign-oil'];
+
+/** What a finding (or timeline entry) is about: its measurand, or "sample" for a sample-wide check (as `subjectOf` in src/domain/finding.ts). */
+export const subjectOf = (f) => (f.rule === 'sampling' && SAMPLE_WIDE_CHECKS.includes(f.check) ? 'sample' : f.measurand);
+
+/** What the incident is about, the subject that sets its severity first (an incident kept per measurand: that one). */
+export function subjectsOf(incident) {
   const seen = [];
   if (incident.measurand) seen.push(incident.measurand);
-  for (const f of bySeverity(incident.evidence)) if (!seen.includes(f.measurand)) seen.push(f.measurand);
+  for (const f of bySeverity(incident.evidence)) if (!seen.includes(subjectOf(f))) seen.push(subjectOf(f));
   return seen;
 }
 
+/** The incident's measurands to chart: its subjects but the whole sample, which has no trend of its own. */
+export const measurandsOf = (incident) => subjectsOf(incident).filter((s) => s !== 'sample');
 
 /** As NO_LONGER_HOLD and withdrawnEvidenceText in src/incidents/model.ts. */
 export const NO_LONGER_HOLD = 'the findings it stood on no longer hold';
 export function withdrawnEvidenceText(findings) {
   if (!findings || findings.length === 0) return '';
   const samples = [...new Set(findings.map((f) => f.sampleId))];
-  const of = samples.map((id) => `${findings.filter((f) => f.sampleId === id).map((f) => `${f.measurand} (${f.rule}, ${f.severity})`).join(', ')} of sample ${id}`);
+  const of = samples.map((id) => `${findings.filter((f) => f.sampleId === id).map((f) => `${subjectOf(f)} (${f.rule}, ${f.severity})`).join(', ')} of sample ${id}`);
   return `${NO_LONGER_HOLD}: ${of.join('; ')}`;
 }
 
@@ -66,6 +74,7 @@ export function withdrawnEvidenceText(findings) {
 export function withdrawnFindingText(f) {
   return `no longer holds (the results as they stand now do not give it); as first reported for sample ${f.sampleId}: ${f.explanation}`;
 }
+
 /** The incident's timeline and the messages about it (sent or not), in time order (the command line's `incidents show` too). */
 export function mergedTimeline(incident) {
   const all = [...(incident.timeline ?? []), ...(incident.notifications ?? [])];
@@ -129,7 +138,7 @@ export function timelineText(entry) {
     case 'opened':
       return `${at}: opened at sample ${entry.sampleId}, ${entry.severity}`;
     case 'finding':
-      return `${at}: ${entry.measurand} ${entry.rule} ${entry.change.replace('-', ' ')} (${entry.severity})${sample}${entry.explanation ? ` — ${entry.explanation}` : ''}`;
+      return `${at}: ${subjectOf(entry)} ${entry.rule} ${entry.change.replace('-', ' ')} (${entry.severity})${sample}${entry.explanation ? ` — ${entry.explanation}` : ''}`;
     case 'returned':
       return `${at}: returned to normal${sample}${typeof entry.cleanSamples === 'number' ? `, after ${entry.cleanSamples} ${entry.cleanSamples === 1 ? 'sample' : 'samples'} without findings` : ''}`;
     case 'active-again':

@@ -6,7 +6,7 @@
 import { z } from 'zod';
 import { FORECAST_OUTCOMES } from '../analysis/forecast/model.ts';
 import { CHANNEL_KINDS } from '../domain/escalationConfig.ts';
-import { SEVERITIES } from '../domain/finding.ts';
+import { SAMPLE_SUBJECT, SAMPLING_CHECKS, SEVERITIES } from '../domain/finding.ts';
 import { INCIDENT_MESSAGE_TYPES } from '../notify/message.ts';
 
 const isoTime = z.string().describe('RFC 3339 date-time.');
@@ -14,8 +14,12 @@ const forecastTime = z.object({ oilHours: z.number(), hoursFromNow: z.number(), 
 
 const messageFinding = z
   .object({
-    measurand: z.string(),
+    measurand: z.string().describe(`The measurand the finding is filed under; when subject is "${SAMPLE_SUBJECT}", not what the finding is about.`),
+    subject: z
+      .string()
+      .describe(`What the finding is about: its measurand, or "${SAMPLE_SUBJECT}" for a sampling check that judges the whole sample (a duplicated bottle, hours going back, a new-oil bottle, another unit's sample).`),
     rule: z.string(),
+    check: z.enum(SAMPLING_CHECKS).optional().describe('For the sampling rule: which check fired.'),
     severity: z.string(),
     value: z.number(),
     threshold: z.number().optional(),

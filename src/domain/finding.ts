@@ -43,6 +43,39 @@ export const SAMPLING_CHECKS = [
 ] as const;
 export type SamplingCheck = (typeof SAMPLING_CHECKS)[number];
 
+/**
+ * The sampling checks that judge the whole sample (its label, its hours, its bottle, its oil), not one measurand. A
+ * finding of these still carries a `measurand`, which only files it (its key, stored data); people and systems are
+ * shown its subject, `SAMPLE_SUBJECT`, never that measurand as if it were what the fault is about. `reading-drop` and
+ * `rate-fall` are about one metal and keep it.
+ */
+export const SAMPLE_WIDE_CHECKS = ['duplicate-bottle', 'unit-hours-back', 'oil-hours-back', 'new-oil-mid-charge', 'foreign-oil'] as const satisfies readonly SamplingCheck[];
+
+/** What a sample-wide finding is about, in place of a measurand. */
+export const SAMPLE_SUBJECT = 'sample';
+
+/** What a finding is about: a measurand, or the whole sample. */
+export type FindingSubject = Measurand | typeof SAMPLE_SUBJECT;
+
+/** Whether a finding is about the whole sample (a sample-wide check of the `sampling` family). */
+export function sampleWide(f: { readonly rule: string; readonly check?: string | undefined }): boolean {
+  return f.rule === 'sampling' && f.check !== undefined && (SAMPLE_WIDE_CHECKS as readonly string[]).includes(f.check);
+}
+
+/**
+ * What joined an incident's evidence, in words ("Fe joined", "foreign-oil of the sample joined"): the findings'
+ * subjects among those filed under `measurands`, a sample-wide one by its check.
+ */
+export function joinedWords(findings: readonly Pick<Finding, 'measurand' | 'rule' | 'check'>[], measurands: readonly Measurand[]): string {
+  const words = findings.filter((f) => measurands.includes(f.measurand)).map((f) => (sampleWide(f) ? `${f.check} of the sample` : f.measurand));
+  return [...new Set(words)].sort().join(', ');
+}
+
+/** What a finding is about, as people and systems are shown it: its measurand, or `sample` for a sample-wide check. */
+export function subjectOf<M extends string = Measurand>(f: { readonly measurand: M; readonly rule: string; readonly check?: string | undefined }): M | typeof SAMPLE_SUBJECT {
+  return sampleWide(f) ? SAMPLE_SUBJECT : f.measurand;
+}
+
 export const SEVERITIES = ['watch', 'caution', 'alarm'] as const;
 export type Severity = (typeof SEVERITIES)[number];
 

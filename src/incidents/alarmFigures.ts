@@ -12,12 +12,12 @@
  * - An incident only ever seen in quiet backfill (`live: false`) asked nobody: it loads no responder and is not stale.
  * - Chattering: active again within `chatteringWithinDays` of the return to normal (or of the closing of an incident
  *   closed while active), or a new incident of the same key opened within that time of the previous one's end.
- * - Bad actors: the components with the most annunciations and the rule/measurand pairs raised in the most incidents.
+ * - Bad actors: the components with the most annunciations and the rule/measurand pairs raised in the most incidents;
+ *   a sampling check that judges the whole sample pairs with `sample`, not with the measurand it is filed under.
  * Incidents a late result withdrew are not counted (they are not what production keeps).
  */
 import type { AlarmFiguresConfig } from '../domain/alarmFiguresConfig.ts';
-import { RULE_FAMILIES, type IncidentKind, type RuleFamily, type Severity } from '../domain/finding.ts';
-import type { Measurand } from '../domain/measurands.ts';
+import { RULE_FAMILIES, subjectOf, type FindingSubject, type IncidentKind, type RuleFamily, type Severity } from '../domain/finding.ts';
 import type { TimelineEntry } from './model.ts';
 import { closingVerdict } from './sampleVerdict.ts';
 
@@ -120,7 +120,8 @@ export interface AlarmFigures {
   };
   readonly badActors: {
     readonly components: readonly { readonly unit: string; readonly component: string; readonly annunciations: number; readonly incidents: number }[];
-    readonly pairs: readonly { readonly rule: RuleFamily; readonly measurand: Measurand; readonly incidents: number }[];
+    /** `measurand`: the finding's subject, a measurand or `sample` (see `subjectOf`). */
+    readonly pairs: readonly { readonly rule: RuleFamily; readonly measurand: FindingSubject; readonly incidents: number }[];
     /** Share of all annunciations that the listed components caused; null without annunciations. */
     readonly topComponentsShare: number | null;
   };
@@ -205,7 +206,7 @@ export function alarmFigures(input: AlarmFigureInput): AlarmFigures {
     .map((c) => ({ unit: c.unit, component: c.component, annunciations: c.annunciations, incidents: c.ids.size }))
     .sort((a, b) => b.annunciations - a.annunciations || b.incidents - a.incidents || compare(`${a.unit}/${a.component}`, `${b.unit}/${b.component}`))
     .slice(0, thresholds.topBadActors);
-  const byPair = new Map<string, { rule: RuleFamily; measurand: Measurand; ids: Set<string> }>();
+  const byPair = new Map<string, { rule: RuleFamily; measurand: FindingSubject; ids: Set<string> }>();
   for (const i of incidents) {
     for (const p of raisedPairs(i, from, to)) {
       const k = `${p.rule}|${p.measurand}`;
@@ -306,12 +307,14 @@ function isOpenAt(i: FigureIncident, t: number): boolean {
 }
 
 /** Rule/measurand pairs the incident raised (or changed the severity of) between `from` and `to`. */
-function raisedPairs(i: FigureIncident, from: number, to: number): Array<{ rule: RuleFamily; measurand: Measurand }> {
-  const seen = new Map<string, { rule: RuleFamily; measurand: Measurand }>();
+function raisedPairs(i: FigureIncident, from: number, to: number): Array<{ rule: RuleFamily; measurand: FindingSubject }> {
+  const seen = new Map<string, { rule: RuleFamily; measurand: FindingSubject }>();
   for (const { e, t } of ordered(i)) {
     if (e.kind !== 'finding' || e.change === 'cleared') continue;
     if (t < from || t > to) continue;
-    seen.set(`${e.rule}|${e.measurand}`, { rule: e.rule, measurand: e.measurand });
+    // An entry recorded before timeline entries kept their check has only its measurand to go by.
+    const subject = subjectOf(e);
+    seen.set(`${e.rule}|${subject}`, { rule: e.rule, measurand: subject });
   }
   return [...seen.values()];
 }

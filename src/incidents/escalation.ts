@@ -6,7 +6,7 @@
  * Every message is an effect with a key derived from the incident's own event counter, so the same input always
  * yields the same keys and the queue de-duplicates.
  */
-import { maxSeverity, severityRank } from '../domain/finding.ts';
+import { joinedWords, maxSeverity, sampleWide, severityRank, subjectOf } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
 import type { EscalationPolicy } from '../domain/escalationConfig.ts';
 import { isoOf, type DraftIncident, type Work } from './draft.ts';
@@ -152,7 +152,8 @@ function measurandsOf(inc: DraftIncident): Measurand[] {
 }
 
 function announcementReason(inc: DraftIncident, type: IncidentEventType): string {
-  const what = inc.evidence.map((f) => `${f.measurand} (${f.rule}, ${f.severity})`).join(', ');
+  // A finding about the whole sample is told by its check: "sample (duplicate-bottle, caution)".
+  const what = inc.evidence.map((f) => `${subjectOf(f)} (${sampleWide(f) ? f.check : f.rule}, ${f.severity})`).join(', ');
   return type === 'wearshift.incident.opened' ? `new incident, ${inc.severity}: ${what}` : `new evidence, ${inc.severity}: ${what}`;
 }
 
@@ -163,7 +164,7 @@ function newEvidence(inc: DraftIncident): string | null {
   const reasons: string[] = [];
   if (severityRank(inc.severity) > severityRank(told.severity)) reasons.push(`severity rose from ${told.severity} to ${inc.severity}`);
   const joined = measurandsOf(inc).filter((m) => !told.measurands.includes(m));
-  if (joined.length > 0) reasons.push(`${joined.join(', ')} joined`);
+  if (joined.length > 0) reasons.push(`${joinedWords(inc.evidence, joined)} joined`);
   return reasons.length > 0 ? reasons.join('; ') : null;
 }
 

@@ -3,7 +3,7 @@
  * IEC 62682: an incident is active or returned to normal, acknowledged or unacknowledged, may be shelved until a
  * time, and is finally closed. Everything here is plain JSON so that the store can keep it as it is.
  */
-import type { Finding, IncidentKind, Severity } from '../domain/finding.ts';
+import { subjectOf, type Finding, type IncidentKind, type Severity } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
 import type { LimitForecast } from '../analysis/forecast/model.ts';
 
@@ -94,6 +94,8 @@ export type TimelineEntry =
       readonly change: 'raised' | 'severity-changed' | 'cleared';
       readonly measurand: Measurand;
       readonly rule: Finding['rule'];
+      /** For the `sampling` family: which check (absent in entries recorded before it was kept). */
+      readonly check?: Finding['check'];
       readonly direction?: 'up' | 'down';
       readonly severity: Severity;
       readonly previousSeverity?: Severity;
@@ -420,10 +422,10 @@ export const NO_LONGER_HOLD = 'the findings it stood on no longer hold';
  * message: "the findings it stood on no longer hold: Fe (limit, caution) of sample D-16-2". Empty when there is
  * nothing set aside. The board carries a copy.
  */
-export function withdrawnEvidenceText(findings: readonly Pick<Finding, 'measurand' | 'rule' | 'severity' | 'sampleId'>[] | undefined): string {
+export function withdrawnEvidenceText(findings: readonly Pick<Finding, 'measurand' | 'rule' | 'check' | 'severity' | 'sampleId'>[] | undefined): string {
   if (findings === undefined || findings.length === 0) return '';
   const samples = [...new Set(findings.map((f) => f.sampleId))];
-  const of = samples.map((id) => `${findings.filter((f) => f.sampleId === id).map((f) => `${f.measurand} (${f.rule}, ${f.severity})`).join(', ')} of sample ${id}`);
+  const of = samples.map((id) => `${findings.filter((f) => f.sampleId === id).map((f) => `${subjectOf(f)} (${f.rule}, ${f.severity})`).join(', ')} of sample ${id}`);
   return `${NO_LONGER_HOLD}: ${of.join('; ')}`;
 }
 

@@ -11,7 +11,7 @@
  * a reopening, live or in backfill: the closed alarm's acknowledgement does not cover the new situation.
  */
 import { InputError } from '../domain/errors.ts';
-import { findingKey, incidentKindOf, maxSeverity, type Finding, type IncidentKind, type Severity } from '../domain/finding.ts';
+import { findingKey, incidentKindOf, joinedWords, maxSeverity, type Finding, type IncidentKind, type Severity } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
 import type { DraftIncident, DraftState } from './draft.ts';
 import { IncidentConflictError, IncidentNotFoundError } from './errors.ts';
@@ -156,7 +156,7 @@ function withFindings(
     const severityNow = inc.severity;
     if (severityNow !== ack.severity && maxSeverity(severityNow, ack.severity) === severityNow) reasons.push(`severity rose from ${ack.severity} to ${severityNow}`);
     const joined = measurandsOf(findings).filter((m) => !ack.measurands.includes(m));
-    if (joined.length > 0) reasons.push(`${joined.join(', ')} joined`);
+    if (joined.length > 0) reasons.push(`${joinedWords(findings, joined)} joined`);
     if (reasons.length > 0) {
       inc.acknowledged = null;
       push(inc, { kind: 'unacknowledged', at: step.sampledAt, reason: `new evidence: ${reasons.join('; ')}` });
@@ -236,13 +236,13 @@ function recordFindingChanges(inc: DraftIncident, findings: readonly Finding[], 
   const base = { at: step.sampledAt, sampleId: step.sampleId } as const;
   for (const [k, f] of after) {
     const old = before.get(k);
-    const what = { measurand: f.measurand, rule: f.rule, ...(f.direction !== undefined && { direction: f.direction }), severity: f.severity, explanation: f.explanation };
+    const what = { measurand: f.measurand, rule: f.rule, ...(f.check !== undefined && { check: f.check }), ...(f.direction !== undefined && { direction: f.direction }), severity: f.severity, explanation: f.explanation };
     if (old === undefined) push(inc, { kind: 'finding', ...base, change: 'raised', ...what });
     else if (old.severity !== f.severity) push(inc, { kind: 'finding', ...base, change: 'severity-changed', ...what, previousSeverity: old.severity });
   }
   for (const [k, f] of before) {
     if (after.has(k)) continue;
-    push(inc, { kind: 'finding', ...base, change: 'cleared', measurand: f.measurand, rule: f.rule, ...(f.direction !== undefined && { direction: f.direction }), severity: f.severity });
+    push(inc, { kind: 'finding', ...base, change: 'cleared', measurand: f.measurand, rule: f.rule, ...(f.check !== undefined && { check: f.check }), ...(f.direction !== undefined && { direction: f.direction }), severity: f.severity });
   }
 }
 

@@ -1,11 +1,13 @@
 /**
  * The trend chart an incident e-mail carries inline: the component's history evaluated as the worker judges
- * it, drawn for the measurand behind the incident (its own measurand, else its most severe finding's). Drawn on a
+ * it, drawn for the measurand behind the incident (its own measurand, else its most severe finding's). A sampling
+ * check that judges the whole sample (a duplicated bottle, hours going back…) is about no metal: an incident with only
+ * such evidence gets no chart, rather than the trend of the measurand those findings are filed under. Drawn on a
  * chart thread with a time limit and a sample budget (src/render/chartPool.ts), so a very long history delays no
  * other job of this process; a chart that cannot be drawn in time is left out of the mail.
  */
 import type { Config } from '../domain/config.ts';
-import { severityRank } from '../domain/finding.ts';
+import { sampleWide, severityRank } from '../domain/finding.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
 import type { ComponentStore, GroupLedger } from '../pipeline/ports.ts';
 import type { ChartPool } from '../render/chartPool.ts';
@@ -25,7 +27,8 @@ export interface EmailChart {
 }
 
 export async function incidentChart(store: ComponentStore, ledger: GroupLedger, config: Config, effect: NotifyEffect, pool: ChartPool = sharedChartPool()): Promise<EmailChart | undefined> {
-  const measurand = effect.incident.measurand ?? [...effect.incident.findings].sort((a, b) => severityRank(b.severity) - severityRank(a.severity))[0]?.measurand;
+  const ofMetals = effect.incident.findings.filter((f) => !sampleWide(f));
+  const measurand = effect.incident.measurand ?? [...ofMetals].sort((a, b) => severityRank(b.severity) - severityRank(a.severity))[0]?.measurand;
   if (measurand === undefined) return undefined;
   const input = await componentInput(store, ledger, config, effect.incident, { latestSamples: pool.sampleBudget });
   if (input === undefined) return undefined;

@@ -4,7 +4,7 @@ import { buildHistory } from '../analysis/history.ts';
 import type { Sample } from '../domain/event.ts';
 import { formatReading } from '../domain/reading.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
-import type { Finding } from '../domain/finding.ts';
+import { subjectOf, type Finding } from '../domain/finding.ts';
 import type { IncidentMessage, IncidentMessageType, MessageFinding } from './message.ts';
 import { ADVISORY_CAUTION, FORECAST_CAUTION } from '../domain/caution.ts';
 
@@ -68,7 +68,9 @@ export function incidentMessage(effect: NotifyEffect, revisions: readonly Sample
 function messageFinding(f: Finding): MessageFinding {
   return {
     measurand: f.measurand,
+    subject: subjectOf(f),
     rule: f.rule,
+    ...(f.check !== undefined && { check: f.check }),
     severity: f.severity,
     value: f.value,
     ...(f.threshold !== undefined && { threshold: f.threshold }),

@@ -96,8 +96,13 @@ export interface IncidentMessage {
 
 /** One finding as a message carries it. */
 export interface MessageFinding {
+  /** The measurand the finding is filed under; for a sample-wide sampling check not what it is about (see `subject`). */
   measurand: string;
+  /** What the finding is about: its measurand, or `sample` for a sampling check that judges the whole sample. */
+  subject: string;
   rule: string;
+  /** For the `sampling` family: which check fired. */
+  check?: string;
   severity: string;
   value: number;
   threshold?: number;

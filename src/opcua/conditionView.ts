@@ -14,7 +14,7 @@
  */
 import { ADVISORY_TEXT } from './advisory.ts';
 import type { Incident } from '../incidents/model.ts';
-import type { Severity } from '../domain/finding.ts';
+import { subjectOf, type Severity } from '../domain/finding.ts';
 
 export const OPCUA_SEVERITY: Readonly<Record<Severity, number>> = { watch: 300, caution: 500, alarm: 700 };
 
@@ -50,7 +50,7 @@ export function conditionView(incident: Incident): ConditionView {
   const shelving: ShelvingStateName = incident.shelved === null ? 'Unshelved' : incident.shelved.reason.startsWith(ONE_SHOT_REASON) ? 'OneShotShelved' : 'TimedShelved';
   const where = `${incident.unit}/${incident.component}${incident.measurand !== undefined ? ` ${incident.measurand}` : ''}`;
   const lead = incident.evidence[0]?.explanation ?? 'no finding on the latest sample';
-  const evidence = incident.evidence.map((f) => `${f.measurand} ${f.rule} ${f.severity}: ${f.explanation}`);
+  const evidence = incident.evidence.map((f) => `${subjectOf(f)} ${f.rule} ${f.severity}: ${f.explanation}`);
   const lastNote = [...incident.timeline].reverse().find((e) => e.kind === 'note' || e.kind === 'acknowledged') as { note?: string } | undefined;
   const last = incident.timeline[incident.timeline.length - 1];
   return {

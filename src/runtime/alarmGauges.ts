@@ -126,7 +126,7 @@ export function registerAlarmGauges(registry: Registry, options: AlarmGaugeOptio
   gauge('wearshift_alarm_bad_actor_annunciations', 'Annunciations in the window of the components with the most (the top alarmFigures.topBadActors).', ['unit', 'component'], (g, _c, f) => {
     for (const c of f.badActors.components) g.set({ unit: c.unit, component: c.component }, c.annunciations);
   });
-  gauge('wearshift_alarm_bad_actor_pair_incidents', 'Incidents in the window per rule/measurand pair, for the pairs with the most (the top alarmFigures.topBadActors).', ['rule', 'measurand'], (g, _c, f) => {
+  gauge('wearshift_alarm_bad_actor_pair_incidents', 'Incidents in the window per rule/measurand pair, for the pairs with the most (the top alarmFigures.topBadActors); measurand "sample" for a sampling check that judges the whole sample.', ['rule', 'measurand'], (g, _c, f) => {
     for (const p of f.badActors.pairs) g.set({ rule: p.rule, measurand: p.measurand }, p.incidents);
   });
 }

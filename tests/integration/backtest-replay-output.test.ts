@@ -12,6 +12,7 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { BacktestSummary } from '../../src/backtest/summary.ts';
 import { ADVISORY_CAUTION } from '../../src/domain/caution.ts';
+import { subjectOf } from '../../src/domain/finding.ts';
 import { runCli, type CliResult } from '../helpers/cli.ts';
 
 const DAY = 86_400_000;
@@ -107,8 +108,10 @@ describe('backtest and replay output', { timeout: 600_000 }, () => {
     expect(line('P1-10', 'Fe population')).toMatch(/ alarm \(advisory\)/);
     expect(line('P2-10', 'water limit')).toMatch(/ caution \(held: sample in doubt\)/);
     expect(line('P2-10', 'water condition')).toMatch(/ caution \(held: sample in doubt\)/);
-    // The sampling finding itself opens the sampling incident: no mark.
-    const sampling = line('P2-10', 'Fe sampling')!;
+    // The sampling finding itself opens the sampling incident: no mark. It judges the whole sample, so the text
+    // names the sample, not the metal its JSON line is filed under.
+    expect(replay.stdout).not.toContain('  P2-10  Fe sampling  ');
+    const sampling = line('P2-10', 'sample sampling')!;
     expect(sampling).toMatch(/ caution /);
     expect(sampling).not.toMatch(/\((advisory|held)/);
   });
@@ -128,8 +131,8 @@ describe('backtest and replay output', { timeout: 600_000 }, () => {
     expect(byTime.filter((f) => f.revised)).toEqual([]);
     // P1-10 was judged before the other units' earlier results came, with no population level to compare with.
     expect(byUnit.filter((f) => f.revised).map((f) => `${f.sampleId} ${f.measurand} ${f.rule}`)).toContain('P1-10 Fe population');
-    // The text prints the same findings, a revised one marked as such.
-    const textFindings = byUnit.map((f) => byUnitText.stdout.split('\n').filter((l) => l.includes(`  ${f.unit}/${f.component}  ${f.sampleId}  ${f.measurand} ${f.rule}`)));
+    // The text prints the same findings, a revised one marked as such; a finding about the whole sample names the sample.
+    const textFindings = byUnit.map((f) => byUnitText.stdout.split('\n').filter((l) => l.includes(`  ${f.unit}/${f.component}  ${f.sampleId}  ${subjectOf(f)} ${f.rule}`)));
     for (const [i, lines] of textFindings.entries()) {
       expect(lines).toHaveLength(1);
       expect(lines[0]!.includes('(revised)')).toBe(byUnit[i]!.revised === true);

@@ -335,7 +335,7 @@ describe('real deliveries match the AsyncAPI document', () => {
     const event = toCloudEvent(incidentMessage(effects[0]!, [], 'http://127.0.0.1:8080'), { time: effects[0]!.at });
     // The advisory finding travels in a field of its own; the evidence, and the severity it sets, stay the cusum's.
     expect(event.data.findings.map((f) => f.rule)).toEqual(['cusum']);
-    expect(event.data.advisoryFindings).toEqual([{ measurand: 'Cu', rule: 'population', severity: 'caution', value: 31, threshold: 24, basis: 'reading', sampleId: 'C-200', sampledAt: evidence[0]!.sampledAt, explanation: 'Cu above the population band' }]);
+    expect(event.data.advisoryFindings).toEqual([{ measurand: 'Cu', subject: 'Cu', rule: 'population', severity: 'caution', value: 31, threshold: 24, basis: 'reading', sampleId: 'C-200', sampledAt: evidence[0]!.sampledAt, explanation: 'Cu above the population band' }]);
     expect(event.data.incident.severity).toBe('alarm');
 
     const url = `http://127.0.0.1:${(receiver.address() as AddressInfo).port}/wearshift`;

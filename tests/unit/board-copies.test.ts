@@ -9,6 +9,7 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import { bySeverity, severityWords, type MessageSeverity } from '../../src/notify/message.ts';
 import { formatTime, timeZoneNote } from '../../src/notify/format.ts';
 import { FORECAST_CAUTION } from '../../src/domain/caution.ts';
+import { SAMPLE_WIDE_CHECKS, SAMPLING_CHECKS, subjectOf } from '../../src/domain/finding.ts';
 import { ADVISORY_HEADING } from '../../src/channels/email/emailRender.ts';
 import {
   closureText,
@@ -36,6 +37,9 @@ interface BoardText {
   withdrawnFindingText(finding: object): string;
   notifiedTargetsText(entry: object): string;
   timelineText(entry: object): string;
+  SAMPLE_WIDE_CHECKS: readonly string[];
+  subjectOf(f: object): string;
+  measurandsOf(incident: object): string[];
 }
 interface BoardFormat {
   formatTime(iso: string): string;
@@ -73,6 +77,16 @@ describe("the board's copies", () => {
 
   it('head the advisory findings of a sample as the e-mail does', () => {
     expect(text.ADVISORY_HEADING).toBe(ADVISORY_HEADING);
+  });
+
+  it('say what a finding is about as the server does: the sample for a sampling check of the whole sample', () => {
+    expect(text.SAMPLE_WIDE_CHECKS).toEqual([...SAMPLE_WIDE_CHECKS]);
+    for (const rule of ['sampling', 'limit']) {
+      for (const check of [undefined, ...SAMPLING_CHECKS]) expect(text.subjectOf({ measurand: 'Cu', rule, check }), `${rule} ${check}`).toBe(subjectOf({ measurand: 'Cu', rule, check }));
+    }
+    const entry = { kind: 'finding', at: '2026-05-04T09:00:00Z', sampleId: 'S-7', change: 'raised', measurand: 'Cu', rule: 'sampling', check: 'duplicate-bottle', severity: 'caution' };
+    expect(text.timelineText(entry)).toMatch(/: sample sampling raised \(caution\) \(sample S-7\)$/);
+    expect(text.measurandsOf({ evidence: [entry] })).toEqual([]);
   });
 
   it('order evidence most severe first, then furthest beyond its limit, as the server does', () => {
@@ -136,6 +150,10 @@ describe("the board's copies", () => {
     ] as const;
     expect(text.withdrawnEvidenceText(stood)).toBe(withdrawnEvidenceText(stood));
     expect(withdrawnEvidenceText(stood)).toBe('the findings it stood on no longer hold: Fe (limit, caution), Cu (rate, watch) of sample D-16-2');
+    // A sampling finding about the whole sample stood on the sample, not on the metal it is filed under.
+    const bottle = [{ measurand: 'Cu', rule: 'sampling', check: 'duplicate-bottle', severity: 'caution', sampleId: 'D-16-3', explanation: 'All 9 readings are identical.' }] as const;
+    expect(text.withdrawnEvidenceText(bottle)).toBe(withdrawnEvidenceText(bottle));
+    expect(withdrawnEvidenceText(bottle)).toBe('the findings it stood on no longer hold: sample (sampling, caution) of sample D-16-3');
     expect(text.withdrawnEvidenceText([])).toBe(withdrawnEvidenceText([]));
     expect(text.withdrawnEvidenceText(undefined)).toBe('');
     // A finding set aside is never shown as current: the card says it no longer holds before what it first said.

@@ -42,7 +42,7 @@ describe('advisory findings in the notification', () => {
     const msg = incidentMessage(effect, [], 'https://wearshift.plant.example');
     expect(msg.findings.map((f) => f.measurand)).toEqual(['Fe']);
     expect(msg.advisoryFindings).toEqual([
-      { measurand: 'Cu', rule: 'population', severity: 'alarm', value: 40, threshold: 24, basis: 'reading', sampleId: 'LAB-0042', sampledAt, explanation: 'Cu above the gearbox population band for 750 oil hours (mean + 2σ).' },
+      { measurand: 'Cu', subject: 'Cu', rule: 'population', severity: 'alarm', value: 40, threshold: 24, basis: 'reading', sampleId: 'LAB-0042', sampledAt, explanation: 'Cu above the gearbox population band for 750 oil hours (mean + 2σ).' },
     ]);
     expect(msg.incident.severity).toBe('watch');
     expect(msg.advisory).toBe(ADVISORY_CAUTION);

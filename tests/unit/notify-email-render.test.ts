@@ -31,7 +31,7 @@ describe('incident e-mail', () => {
   });
 
   it('shows the advisory findings of the same sample under a heading of their own, apart from the evidence and the severity', () => {
-    const band = { measurand: 'Cu', rule: 'population', severity: 'caution', value: 31, threshold: 24, basis: 'reading', sampleId: 'LAB-0042', sampledAt: '2026-03-01T08:00:00Z', explanation: 'Cu above the gearbox population band for 750 oil hours (mean + 2σ).' } as const;
+    const band = { measurand: 'Cu', subject: 'Cu', rule: 'population', severity: 'caution', value: 31, threshold: 24, basis: 'reading', sampleId: 'LAB-0042', sampledAt: '2026-03-01T08:00:00Z', explanation: 'Cu above the gearbox population band for 750 oil hours (mean + 2σ).' } as const;
     const mail = renderIncidentEmail(incidentMessage({ advisoryFindings: [band] }), options);
     const heading = 'Also on this sample (advisory, opens no incident)';
     const lines = mail.text.split('\n');
@@ -55,7 +55,7 @@ describe('incident e-mail', () => {
   });
 
   it('gives a PQ wear rate in index points per 100 h, the catalogue unit of PQ, not in ppm', () => {
-    const pqRate = { measurand: 'pq', rule: 'rate', severity: 'caution', value: 12, threshold: 10, basis: 'rate', sampleId: 'LAB-0042', sampledAt: '2026-03-01T08:00:00Z', explanation: 'PQ rose.' } as const;
+    const pqRate = { measurand: 'pq', subject: 'pq', rule: 'rate', severity: 'caution', value: 12, threshold: 10, basis: 'rate', sampleId: 'LAB-0042', sampledAt: '2026-03-01T08:00:00Z', explanation: 'PQ rose.' } as const;
     const { text } = renderIncidentEmail(incidentMessage({ findings: [pqRate] }), options);
     expect(text).toContain('wear rate 12 index points per 100 h against its limit 10 index points per 100 h');
     expect(text).not.toContain('ppm per 100 h');
@@ -144,8 +144,8 @@ describe('incident e-mail', () => {
   it('writes a viscosity change and its limit as percentages, a reading and its limit in the same unit', () => {
     const msg = incidentMessage();
     msg.findings = [
-      { measurand: 'v40', rule: 'condition', severity: 'alarm', value: 47.55, threshold: 20, basis: 'change', sampleId: 'LAB-0042', sampledAt: '2026-03-01T08:00:00Z', explanation: 'Viscosity rose.' },
-      { measurand: 'tbn', rule: 'condition', severity: 'caution', value: 5.5, threshold: 6, basis: 'reading', sampleId: 'LAB-0042', sampledAt: '2026-03-01T08:00:00Z', explanation: 'TBN fell.' },
+      { measurand: 'v40', subject: 'v40', rule: 'condition', severity: 'alarm', value: 47.55, threshold: 20, basis: 'change', sampleId: 'LAB-0042', sampledAt: '2026-03-01T08:00:00Z', explanation: 'Viscosity rose.' },
+      { measurand: 'tbn', subject: 'tbn', rule: 'condition', severity: 'caution', value: 5.5, threshold: 6, basis: 'reading', sampleId: 'LAB-0042', sampledAt: '2026-03-01T08:00:00Z', explanation: 'TBN fell.' },
     ];
     const { text } = renderIncidentEmail(msg, options);
     expect(text).toContain('change from new oil 47.55 % against its limit 20 %');

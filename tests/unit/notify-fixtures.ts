@@ -22,6 +22,7 @@ export function incidentMessage(overrides: Partial<IncidentMessage> = {}, incide
     findings: [
       {
         measurand: 'Fe',
+        subject: 'Fe',
         rule: 'cusum',
         severity: 'caution',
         value: 5.6123,
@@ -33,6 +34,7 @@ export function incidentMessage(overrides: Partial<IncidentMessage> = {}, incide
       },
       {
         measurand: 'Fe',
+        subject: 'Fe',
         rule: 'rate',
         severity: 'watch',
         value: 4.5,

@@ -8,7 +8,7 @@ import { describe, expect, it } from 'vitest';
 import { evaluateComponent } from '../../src/analysis/evaluate.ts';
 import type { SampleMark } from '../../src/analysis/model.ts';
 import type { Sample } from '../../src/domain/event.ts';
-import type { Finding } from '../../src/domain/finding.ts';
+import { sampleWide, subjectOf, type Finding } from '../../src/domain/finding.ts';
 import { sample, settingsFrom } from './history-fixtures.ts';
 
 const settings = settingsFrom(`
@@ -215,6 +215,39 @@ describe('sampling checks', () => {
 
     const rejected = run([...healthy, foreign], { [foreign.sampleId]: 'rejected' });
     expect(rejected.at(foreign.sampleId)).toMatchObject({ status: 'rejected', findings: [] });
+  });
+
+  it('a fault of the whole sample is about the sample, not about the metal it is filed under; a fault of one metal names that metal', () => {
+    const healthy = charge([10, 20, 30, 40, 50]);
+    // Readings in the stored (alphabetical) order, as the fault was met: Cu comes before Fe.
+    const stored = (s: Sample): Sample => ({ ...s, readings: Object.fromEntries(Object.entries(s.readings).sort(([a], [b]) => (a < b ? -1 : 1))) });
+    const only = (s: Sample, check: string) => {
+      const found = run([...healthy, s].map(stored)).sampling(s.sampleId).filter((f) => f.check === check);
+      expect(found).toHaveLength(1);
+      return found[0]!;
+    };
+    const readings = { Fe: 38, Cu: 7, Ca: 2400, Zn: 1100, P: 950, Si: 4 };
+    const wholeSample = [
+      only(sample(60, { sampleId: 'S-TWIN', unitHours: 2250, oilHours: 1250, readings: { Fe: 32, Cu: 6, Ca: 2400, Zn: 1100, P: 950, Si: 4 } }), 'duplicate-bottle'),
+      only(sample(60, { unitHours: 1500, oilHours: 1500, readings }), 'unit-hours-back'),
+      only(sample(60, { unitHours: 2500, oilHours: 40, readings: { ...readings, Fe: 32, Cu: 6 } }), 'oil-hours-back'),
+      only(sample(60, { unitHours: 2500, oilHours: 1500, readings: { Fe: 1, Cu: '<1', Ca: 2400, Zn: 1100, P: 950, Si: 4 } }), 'new-oil-mid-charge'),
+      only(sample(60, { unitHours: 2500, oilHours: 1500, readings: { ...readings, Ca: 3900, Zn: 300 } }), 'foreign-oil'),
+    ];
+    for (const f of wholeSample) {
+      expect(sampleWide(f), f.check).toBe(true);
+      expect(subjectOf(f), f.check).toBe('sample');
+    }
+    // The two that were filed under copper say nothing of copper or of any other metal.
+    const [twin, back] = wholeSample;
+    expect(twin!.measurand).toBe('Cu');
+    expect(back!.measurand).toBe('Cu');
+    for (const f of [twin!, back!]) expect(f.explanation).not.toMatch(/\b(Cu|Fe)\b/);
+    // A single metal far below the charge, and a falling wear rate, are about that metal.
+    const drop = only(sample(60, { unitHours: 2500, oilHours: 1500, readings: { ...readings, Fe: 9 } }), 'reading-drop');
+    expect(subjectOf(drop)).toBe('Fe');
+    expect(subjectOf({ measurand: 'Fe', rule: 'sampling', check: 'rate-fall' })).toBe('Fe');
+    expect(subjectOf({ measurand: 'Cu', rule: 'limit' })).toBe('Cu');
   });
 
   it('a healthy charge raises no sampling finding', () => {

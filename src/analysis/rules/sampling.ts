@@ -307,6 +307,10 @@ function valueOf(r: Reading | undefined): number | undefined {
   return r.kind === 'value' ? r.value : r.limit;
 }
 
+/**
+ * The measurand a sample-wide finding is filed under (its key, stored data): not what the finding is about, which is
+ * the whole sample (`subjectOf` in domain/finding.ts says so wherever the finding is shown).
+ */
 function firstMeasurand(s: Sample): Measurand {
   const names = Object.keys(s.readings) as Measurand[];
   return names.find((m) => MEASURANDS[m].kind === 'wear') ?? names.sort()[0]!;

@@ -10,6 +10,7 @@ import { DEFAULT_TIME_ZONE, formatNumber, formatTime as formatTimeIn, timeZoneNo
 import { escapeHtml, headerValue, httpUrl, oneLine } from '../../domain/safeText.ts';
 import { REOPENED } from '../../incidents/verdict.ts';
 import { closureText, NO_LONGER_HOLD } from '../../incidents/model.ts';
+import { SAMPLE_SUBJECT } from '../../domain/finding.ts';
 
 export { ADVISORY_CAUTION };
 
@@ -70,7 +71,7 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
   const what = headline(msg);
   const whatChanged = withoutHeadline(oneLine(msg.whatChanged), what);
   const described = (f: MessageFinding) => ({
-    title: `${oneLine(f.measurand)}, ${oneLine(f.rule)} rule, ${oneLine(f.severity)}: ${statement(f)}`,
+    title: `${oneLine(f.subject)}, ${oneLine(f.rule)} rule, ${oneLine(f.severity)}: ${statement(f)}`,
     since: `sample ${oneLine(f.sampleId)}, drawn ${formatTime(f.sampledAt)}`,
     explanation: oneLine(f.explanation),
   });
@@ -212,13 +213,14 @@ function returnedNote(msg: IncidentMessage): string {
 }
 
 
-/** "Fe: cusum, rate; Cu: limit": what the evidence is about, most severe first, for the subject line. */
+/** "Fe: cusum, rate; Cu: limit" ("sample: duplicated bottle"): what the evidence is about, most severe first, for the subject line. */
 function evidenceSummary(msg: IncidentMessage): string {
   const rules = new Map<string, string[]>();
   for (const f of bySeverity(msg.findings)) {
-    const list = rules.get(oneLine(f.measurand)) ?? [];
-    if (!list.includes(oneLine(f.rule))) list.push(oneLine(f.rule));
-    rules.set(oneLine(f.measurand), list);
+    const what = oneLine(f.subject === SAMPLE_SUBJECT && f.check !== undefined ? (SAMPLE_WIDE_WORDS[f.check] ?? f.check) : f.rule);
+    const list = rules.get(oneLine(f.subject)) ?? [];
+    if (!list.includes(what)) list.push(what);
+    rules.set(oneLine(f.subject), list);
   }
   if (rules.size === 0) return 'no findings attached';
   const parts = [...rules].map(([m, r]) => `${m}: ${r.join(', ')}`);
@@ -236,8 +238,44 @@ function withoutHeadline(reason: string, headline: string): string {
   return reason;
 }
 
+/** A sample-wide sampling check in words, for the subject line and the evidence. */
+const SAMPLE_WIDE_WORDS: Readonly<Record<string, string>> = {
+  'duplicate-bottle': 'duplicated bottle',
+  'unit-hours-back': 'unit hours back',
+  'oil-hours-back': 'oil hours back',
+  'new-oil-mid-charge': 'new-oil bottle mid-charge',
+  'foreign-oil': "another unit's sample",
+};
+
+/**
+ * A sample-wide finding's value in words: what it counts or the hours it compares; for a new-oil bottle the metal
+ * its value is the reading of (the first of those that read like new oil).
+ */
+function sampleWideStatement(f: MessageFinding): string {
+  const words = (f.check !== undefined ? SAMPLE_WIDE_WORDS[f.check] : undefined) ?? oneLine(f.check ?? f.rule);
+  const value = formatNumber(f.value);
+  const was = f.threshold === undefined ? undefined : formatNumber(f.threshold);
+  switch (f.check) {
+    case 'duplicate-bottle':
+      return `${words}, all ${value} readings identical to an earlier sample`;
+    case 'unit-hours-back':
+      return `unit hours ${value}${was === undefined ? '' : `, lower than ${was} of the last sample`}`;
+    case 'oil-hours-back':
+      return `oil hours ${value}${was === undefined ? '' : `, lower than ${was} before on this charge`}`;
+    case 'new-oil-mid-charge': {
+      const unit = isMeasurand(f.measurand) ? ` ${MEASURANDS[f.measurand].unit}` : '';
+      return `${words}, ${oneLine(f.measurand)} ${value}${unit}${was === undefined ? '' : ` after ${was}${unit}`}`;
+    }
+    case 'foreign-oil':
+      return `${words}, ${value} additive elements unlike this charge's oil`;
+    default:
+      return words;
+  }
+}
+
 /** The value in the words of its basis, against its limit where the rule has one, both in the same unit. */
 function statement(f: MessageFinding): string {
+  if (f.subject === SAMPLE_SUBJECT) return sampleWideStatement(f);
   const value = formatNumber(f.value);
   const unit = isMeasurand(f.measurand) ? MEASURANDS[f.measurand].unit : '';
   const withUnit = (x: string, u: string) => (u === '' ? x : u === '%' ? `${x} %` : `${x} ${u}`);
@@ -274,7 +312,7 @@ interface ResultsTable {
 
 function resultsTable(msg: IncidentMessage, formatTime: (iso: string) => string): ResultsTable {
   const measurands: string[] = [];
-  for (const name of [...msg.findings.map((f) => f.measurand), ...msg.recentResults.flatMap((r) => Object.keys(r.readings))]) {
+  for (const name of [...msg.findings.filter((f) => f.subject !== SAMPLE_SUBJECT).map((f) => f.measurand), ...msg.recentResults.flatMap((r) => Object.keys(r.readings))]) {
     if (!measurands.includes(name) && measurands.length < TABLE_MAX_MEASURANDS) measurands.push(name);
   }
   return {

@@ -4,6 +4,7 @@
  * action is announced on the live channel, as the API's actions are, so that open boards show it.
  */
 import { FORECAST_CAUTION } from '../../domain/caution.ts';
+import { subjectOf } from '../../domain/finding.ts';
 import type { Command } from 'commander';
 import type { Config } from '../../domain/config.ts';
 import { loadConfig } from '../../runtime/loadConfig.ts';
@@ -44,8 +45,9 @@ function instant(name: string) {
   return (raw: string): Date => new Date(zonedTime(name, raw));
 }
 
+/** What the evidence is about: its measurands, `sample` for a sampling check that judges the whole sample. */
 function measurands(i: IncidentSummary): string {
-  return [...new Set(i.evidence.map((f) => f.measurand))].join(',');
+  return [...new Set(i.evidence.map((f) => subjectOf(f)))].join(',');
 }
 
 /**
@@ -77,7 +79,7 @@ function entryText(e: TimelineEntry | NotifiedEntry, zone: string): string {
     case 'opened':
       return `opened at sample ${e.sampleId}, ${e.severity}`;
     case 'finding':
-      return `${e.measurand} ${e.rule}${e.direction ? ` ${e.direction}` : ''}: ${e.change === 'cleared' ? 'cleared' : e.change === 'raised' ? `raised, ${e.severity}` : `${e.previousSeverity} → ${e.severity}`} (sample ${e.sampleId})${e.explanation ? ` — ${e.explanation}` : ''}`;
+      return `${subjectOf(e)} ${e.rule}${e.direction ? ` ${e.direction}` : ''}: ${e.change === 'cleared' ? 'cleared' : e.change === 'raised' ? `raised, ${e.severity}` : `${e.previousSeverity} → ${e.severity}`} (sample ${e.sampleId})${e.explanation ? ` — ${e.explanation}` : ''}`;
     case 'returned':
       return `returned to normal (sample ${e.sampleId})`;
     case 'active-again':
@@ -114,7 +116,7 @@ function printIncident(i: Incident, json: boolean, zone: string): void {
       : []),
     '',
     'evidence (most severe first)',
-    ...bySeverity(i.evidence).map((f) => `  ${f.measurand} ${f.rule} ${f.severity}: ${f.explanation}`),
+    ...bySeverity(i.evidence).map((f) => `  ${subjectOf(f)} ${f.rule} ${f.severity}: ${f.explanation}`),
     ...((i.forecast?.length ?? 0) > 0 ? ['', 'time to limit', ...i.forecast!.map((f) => `  ${f.text}`), `  (${FORECAST_CAUTION})`] : []),
     '',
     'timeline',

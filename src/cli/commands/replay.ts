@@ -14,7 +14,7 @@ import { FORECAST_CAUTION } from '../../domain/caution.ts';
 import { formatTime, timeZoneNote } from '../../notify/format.ts';
 import { ADVISORY_CAUTION, severityWords } from '../../notify/message.ts';
 import type { Config } from '../../domain/config.ts';
-import type { Disposition } from '../../domain/finding.ts';
+import { subjectOf, type Disposition } from '../../domain/finding.ts';
 import { describeState, type Incident } from '../../incidents/model.ts';
 import { componentView } from '../../pipeline/componentView.ts';
 import { notJudgedYet } from '../../analysis/readiness.ts';
@@ -46,11 +46,12 @@ export function registerReplay(program: Command): void {
         'With --json, one JSON object per line, in this order:',
         '  {"type":"rejected",...}   a record refused, as it is read: line, sampleId, errors [{path, reason}]',
         '  {"type":"finding",...}    a finding of a sample as its last judgement gives it, once: unit, component,',
-        '                            measurand, rule, severity, disposition, sampleId, sampledAt, explanation,',
-        '                            quiet; "revised": true when an earlier judgement of the sample (before a',
-        '                            result sampled earlier arrived, or a correction) gave it otherwise or not at',
-        '                            all, so incident lines may show it otherwise; one only an earlier judgement',
-        '                            gave is not printed',
+        '                            measurand, rule, check (of a sampling finding), severity, disposition,',
+        '                            sampleId, sampledAt, explanation, quiet (the measurand only files a sampling',
+        '                            check of the whole sample: the verdict\'s evidence says "sample"); "revised":',
+        '                            true when an earlier judgement of the sample (before a result sampled earlier',
+        '                            arrived, or a correction) gave it otherwise or not at all, so incident lines',
+        '                            may show it otherwise; one only an earlier judgement gave is not printed',
         '  {"type":"incident",...}   an incident change (a timeline entry): incidentId, change (opened, finding,',
         '                            notified, acknowledged, returned, closed, ...), at, incidentState,',
         '                            incidentSeverity; finding and incident lines together in sample-time order',
@@ -118,7 +119,7 @@ function verdictLine(i: Incident) {
     lastSampleId: i.lastSampleId,
     lastSampledAt: i.lastSampledAt,
     closed: i.closed?.how ?? null,
-    evidence: i.evidence.map((f) => `${f.measurand}:${f.rule}${f.check ? `:${f.check}` : ''}:${f.severity}`),
+    evidence: i.evidence.map((f) => `${subjectOf(f)}:${f.rule}${f.check ? `:${f.check}` : ''}:${f.severity}`),
     /** Time-to-limit forecasts of the evidence's measurands as of the incident's latest evidence; they assume the present trend continues. */
     ...(i.forecast !== undefined && { forecast: i.forecast }),
   };
@@ -144,7 +145,7 @@ const DISPOSITION_MARK: Record<Disposition, string> = { incident: '', advisory: 
 function readable(line: TimelineLine, zone: string): string {
   const where = `${line.unit}/${line.component}`;
   if (line.type === 'finding') {
-    const rule = `${line.measurand} ${line.rule}${line.direction ? ` ${line.direction}` : ''}`;
+    const rule = `${subjectOf(line)} ${line.rule}${line.direction ? ` ${line.direction}` : ''}`;
     return `${formatTime(line.sampledAt, zone)}  ${where}  ${line.sampleId}  ${rule}  ${line.severity}${DISPOSITION_MARK[line.disposition]}${line.quiet ? ' (quiet)' : ''}${line.revised ? ' (revised)' : ''}  ${line.explanation}`;
   }
   const l = line as unknown as Record<string, unknown>;
