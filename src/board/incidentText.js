@@ -58,8 +58,20 @@ export function subjectsOf(incident) {
   return seen;
 }
 
-/** The incident's measurands to chart: its subjects but the whole sample, which has no trend of its own. */
-export const measurandsOf = (incident) => subjectsOf(incident).filter((s) => s !== 'sample');
+/** The sample-wide checks filed under a metal that does not show them (as CHARTLESS_CHECKS in src/domain/finding.ts). */
+export const CHARTLESS_CHECKS = ['duplicate-bottle', 'unit-hours-back'];
+const chartable = (f) => !(f.rule === 'sampling' && CHARTLESS_CHECKS.includes(f.check));
+
+/**
+ * The incident's measurands to chart, the one that sets its severity first: a sample-wide finding's metal where it
+ * shows the fault (a new-oil bottle: the metal that fell), none for a duplicated bottle or hours going back.
+ */
+export function measurandsOf(incident) {
+  const seen = [];
+  if (incident.measurand) seen.push(incident.measurand);
+  for (const f of bySeverity(incident.evidence).filter(chartable)) if (!seen.includes(f.measurand)) seen.push(f.measurand);
+  return seen;
+}
 
 /** As NO_LONGER_HOLD and withdrawnEvidenceText in src/incidents/model.ts. */
 export const NO_LONGER_HOLD = 'the findings it stood on no longer hold';

@@ -51,6 +51,19 @@ export type SamplingCheck = (typeof SAMPLING_CHECKS)[number];
  */
 export const SAMPLE_WIDE_CHECKS = ['duplicate-bottle', 'unit-hours-back', 'oil-hours-back', 'new-oil-mid-charge', 'foreign-oil'] as const satisfies readonly SamplingCheck[];
 
+/**
+ * The sample-wide checks whose `measurand` files them only (the first wear metal of the readings): no trend of that
+ * metal shows the fault. The others file theirs under the metal that shows it (a new-oil bottle: the metal that fell
+ * to new-oil level; hours going back: a metal compared; another oil: the additive that differs), whose trend is what
+ * a person judging the sample needs to see beside it.
+ */
+export const CHARTLESS_CHECKS = ['duplicate-bottle', 'unit-hours-back'] as const satisfies readonly SamplingCheck[];
+
+/** Whether a finding's measurand is a trend worth charting beside it (every finding but a `CHARTLESS_CHECKS` one). */
+export function chartable(f: { readonly rule: string; readonly check?: string | undefined }): boolean {
+  return !(f.rule === 'sampling' && f.check !== undefined && (CHARTLESS_CHECKS as readonly string[]).includes(f.check));
+}
+
 /** What a sample-wide finding is about, in place of a measurand. */
 export const SAMPLE_SUBJECT = 'sample';
 

@@ -7,7 +7,7 @@
  * other job of this process; a chart that cannot be drawn in time is left out of the mail.
  */
 import type { Config } from '../domain/config.ts';
-import { sampleWide, severityRank } from '../domain/finding.ts';
+import { chartable, severityRank } from '../domain/finding.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
 import type { ComponentStore, GroupLedger } from '../pipeline/ports.ts';
 import type { ChartPool } from '../render/chartPool.ts';
@@ -27,7 +27,7 @@ export interface EmailChart {
 }
 
 export async function incidentChart(store: ComponentStore, ledger: GroupLedger, config: Config, effect: NotifyEffect, pool: ChartPool = sharedChartPool()): Promise<EmailChart | undefined> {
-  const ofMetals = effect.incident.findings.filter((f) => !sampleWide(f));
+  const ofMetals = effect.incident.findings.filter(chartable);
   const measurand = effect.incident.measurand ?? [...ofMetals].sort((a, b) => severityRank(b.severity) - severityRank(a.severity))[0]?.measurand;
   if (measurand === undefined) return undefined;
   const input = await componentInput(store, ledger, config, effect.incident, { latestSamples: pool.sampleBudget });

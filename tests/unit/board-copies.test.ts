@@ -9,7 +9,7 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import { bySeverity, severityWords, type MessageSeverity } from '../../src/notify/message.ts';
 import { formatTime, timeZoneNote } from '../../src/notify/format.ts';
 import { FORECAST_CAUTION } from '../../src/domain/caution.ts';
-import { SAMPLE_WIDE_CHECKS, SAMPLING_CHECKS, subjectOf } from '../../src/domain/finding.ts';
+import { CHARTLESS_CHECKS, SAMPLE_WIDE_CHECKS, SAMPLING_CHECKS, subjectOf } from '../../src/domain/finding.ts';
 import { ADVISORY_HEADING } from '../../src/channels/email/emailRender.ts';
 import {
   closureText,
@@ -38,6 +38,7 @@ interface BoardText {
   notifiedTargetsText(entry: object): string;
   timelineText(entry: object): string;
   SAMPLE_WIDE_CHECKS: readonly string[];
+  CHARTLESS_CHECKS: readonly string[];
   subjectOf(f: object): string;
   measurandsOf(incident: object): string[];
 }
@@ -87,6 +88,16 @@ describe("the board's copies", () => {
     const entry = { kind: 'finding', at: '2026-05-04T09:00:00Z', sampleId: 'S-7', change: 'raised', measurand: 'Cu', rule: 'sampling', check: 'duplicate-bottle', severity: 'caution' };
     expect(text.timelineText(entry)).toMatch(/: sample sampling raised \(caution\) \(sample S-7\)$/);
     expect(text.measurandsOf({ evidence: [entry] })).toEqual([]);
+  });
+
+  it('chart a sample-wide finding by its metal where that metal shows the fault, as the e-mail does, and none where it only files it', () => {
+    expect(text.CHARTLESS_CHECKS).toEqual([...CHARTLESS_CHECKS]);
+    const newOil = { measurand: 'Fe', rule: 'sampling', check: 'new-oil-mid-charge', severity: 'caution' };
+    const twin = { measurand: 'Cu', rule: 'sampling', check: 'duplicate-bottle', severity: 'caution' };
+    expect(text.subjectOf(newOil)).toBe('sample');
+    expect(text.measurandsOf({ evidence: [newOil] })).toEqual(['Fe']);
+    expect(text.measurandsOf({ evidence: [twin, newOil] })).toEqual(['Fe']);
+    expect(text.measurandsOf({ evidence: [twin] })).toEqual([]);
   });
 
   it('order evidence most severe first, then furthest beyond its limit, as the server does', () => {
