@@ -114,7 +114,7 @@ export const FloodSummaryCloudEventSchema = z
     subject: z.string().describe('The target: a webhook or MQTT channel name.'),
     data: z
       .object({
-        headline: z.string().describe('One line: how many messages on how many components were held back.'),
+        headline: z.string().describe('One line: how many messages on how many components were held back, and how many distinct incidents among them are at alarm (an incident held twice counts once).'),
         channel: z.enum(CHANNEL_KINDS),
         target: z.string(),
         window: z.object({ from: isoTime, until: isoTime }).strict(),

@@ -70,11 +70,16 @@ export function summaryOrder(held: readonly HeldMessage[]): HeldMessage[] {
   return [...held].sort((a, b) => RANK[b.severity] - RANK[a.severity] || a.at.localeCompare(b.at));
 }
 
+/**
+ * One line: the messages held back, the components they are about, and how many distinct incidents among them are
+ * at alarm. One incident can be held more than once in a window (opened, then escalated), so the alarm figure counts
+ * incidents, not messages: otherwise 30 incidents would read as more alarms than components.
+ */
 export function summaryHeadline(summary: FloodSummary): string {
   const n = summary.held.length;
-  const alarms = summary.held.filter((h) => h.severity === 'alarm').length;
+  const alarms = new Set(summary.held.filter((h) => h.severity === 'alarm').map((h) => h.incidentId)).size;
   const components = new Set(summary.held.map((h) => `${h.unit}/${h.component}`)).size;
-  return `Alarm flood: ${n} more incident message${n === 1 ? '' : 's'} on ${components} component${components === 1 ? '' : 's'} held back${alarms > 0 ? ` (${alarms} alarm${alarms === 1 ? '' : 's'})` : ''}`;
+  return `Alarm flood: ${n} more incident message${n === 1 ? '' : 's'} on ${components} component${components === 1 ? '' : 's'} held back${alarms > 0 ? ` (${alarms} incident${alarms === 1 ? '' : 's'} at alarm)` : ''}`;
 }
 
 

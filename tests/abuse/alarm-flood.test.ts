@@ -170,7 +170,7 @@ describe('alarm flood', () => {
     }
     // The summary says what happened and keeps the advisory caution. How many it holds depends on where the flood
     // falls in the allowance's window: one message is said in the singular.
-    expect(summaryTexts[0]).toMatch(/^Alarm flood: \d+ more incident messages? on \d+ components? held back \(\d+ alarms?\)/);
+    expect(summaryTexts[0]).toMatch(/^Alarm flood: \d+ more incident messages? on \d+ components? held back \(\d+ incidents? at alarm\)/);
     expect(summaryTexts[0]).toContain('https://wearshift.waterworks.example/incidents/');
     expect(summaryTexts[0]).toContain('wearshift advises');
   }, 6 * 60_000);
