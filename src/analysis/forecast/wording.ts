@@ -38,7 +38,7 @@ export function forecastText(m: Measurand, spec: LimitSpec, f: Parts, ctx: Wordi
       return `${title} is already ${f.side} ${level} by the present estimate${estimate === undefined ? '' : ` (${quantity(m, estimate)})`}.`;
     case 'crossing': {
       const c = f.central!;
-      const range = f.late === undefined ? `${roundHours(f.early!.hoursFromNow)} h or later, past the ${ctx.chargeHours !== null ? 'planned oil change' : 'forecast horizon'}` : `${roundHours(f.early!.hoursFromNow)}–${roundHours(f.late.hoursFromNow)} h`;
+      const range = f.late === undefined ? `${roundHours(f.early!.hoursFromNow)} h or later, past the ${openEnd(ctx)}` : `${roundHours(f.early!.hoursFromNow)}–${roundHours(f.late.hoursFromNow)} h`;
       return `At the present trend, ${title} ${reach} ${level} in about ${roundHours(c.hoursFromNow)} operating hours (${range})${dateText(c)}.`;
     }
     case 'after-oil-change': {
@@ -57,6 +57,12 @@ export function forecastText(m: Measurand, spec: LimitSpec, f: Parts, ctx: Wordi
       return `At the present trend, ${title} does not ${verb} ${level} within this charge (oil change ${when})${after}.`;
     }
   }
+}
+
+/** Where an interval open above ends: the planned oil change, the one expected from past charges (said so), or the horizon. */
+function openEnd(ctx: WordingContext): string {
+  if (ctx.chargeHours === null) return 'forecast horizon';
+  return ctx.planned ? 'planned oil change' : `oil change expected at about ${formatNumber(ctx.chargeHours)} oil hours, as on past charges`;
 }
 
 function dateText(t: ForecastTime): string {
