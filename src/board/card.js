@@ -4,11 +4,12 @@
  * shelve (unshelve while shelved) / resolve with a note (enabled for a responder token only). While one of its requests is on its way, the card's actions are marked unavailable and
  * ignore presses, so that nothing is sent twice.
  */
+/* global document */
 import { markPending, sendFor, setStatus } from './cardStatus.js';
 import { loadChart } from './chart.js';
 import { announce, el } from './dom.js';
 import { duration, formatTime } from './format.js';
-import { ADVISORY_HEADING, bySeverity, closureText, FORECAST_CAUTION, measurandsOf, severityBadge, stateWords, subjectOf, subjectsOf, waitingSince, withdrawnFindingText } from './incidentText.js';
+import { ADVISORY_HEADING, bySeverity, closureText, FORECAST_CAUTION, measurandsOf, noChartText, severityBadge, stateWords, subjectOf, subjectsOf, waitingSince, withdrawnFindingText } from './incidentText.js';
 import { view } from './page.js';
 import { componentPath, incidentPagePath, incidentPath } from './paths.js';
 import { scheduleReload } from './reload.js';
@@ -145,9 +146,7 @@ export function updateCard(card, incident) {
     // Drawn when the card comes near the window, a few at a time (whenSeen.js).
     loadWhenSeen(card.chart, () => loadChart(card.chart, incident.unit, incident.component, measurands[0]));
   } else if (measurands.length === 0) {
-    // A fault of the whole sample (a duplicated bottle, hours going back…) is no metal's trend.
-    const text = subjects.includes('sample') ? 'A fault of the whole sample: no measurand to chart (every trend is on the component page).' : 'No measurand to chart.';
-    card.chart.replaceChildren(el('p', { class: 'chart-problem', text }));
+    card.chart.replaceChildren(el('p', { class: 'chart-problem', text: noChartText(incident) }));
   }
 }
 
@@ -203,5 +202,16 @@ async function act(card, action) {
   announce(`${verb}: ${card.incident.unit} / ${card.incident.component}.`);
   if (result.body.incident.closed) scheduleReload(0);
   else updateCard(card, { ...card.incident, ...result.body.incident });
+  keepFocus(card, card.buttons[action]);
+}
+
+/**
+ * A focused button the answer disabled or hid (Acknowledge once acknowledged, Shelve while shelved) would drop the
+ * keyboard focus to the page (the browser moves it there a moment later): it goes to the card's title instead, as
+ * when a card holding it is removed.
+ */
+function keepFocus(card, button) {
+  const lost = document.activeElement === button || document.activeElement === document.body;
+  if (button.isConnected && (button.disabled || button.hidden) && lost) card.title.focus();
 }
 

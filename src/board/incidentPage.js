@@ -6,7 +6,7 @@
 import { cards, createCard, updateCard } from './card.js';
 import { loadChart } from './chart.js';
 import { $, el } from './dom.js';
-import { measurandsOf, mergedTimeline, severityWords, timelineText } from './incidentText.js';
+import { measurandsOf, mergedTimeline, noChartText, severityWords, timelineText } from './incidentText.js';
 import { page } from './page.js';
 import { componentPath, incidentPath } from './paths.js';
 import { markLoaded } from './reload.js';
@@ -45,7 +45,11 @@ export async function loadIncidentPage() {
   $('incident-timeline').replaceChildren(...mergedTimeline(incident).map((entry) => el('li', { text: timelineText(entry) })));
   const charts = $('incident-charts');
   const wanted = measurandsOf(incident);
-  if (charts.dataset.measurands !== wanted.join(',')) {
+  if (wanted.length === 0) {
+    // Nothing to chart (a fault of the whole sample, or findings that no longer hold): why, not an empty section.
+    delete charts.dataset.measurands;
+    charts.replaceChildren(el('p', { class: 'chart-problem', text: noChartText(incident) }));
+  } else if (charts.dataset.measurands !== wanted.join(',')) {
     charts.dataset.measurands = wanted.join(',');
     charts.replaceChildren(
       ...wanted.map((m) => {

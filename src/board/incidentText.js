@@ -73,6 +73,12 @@ export function measurandsOf(incident) {
   return seen;
 }
 
+/** Where an incident has no measurand to chart, why (on its card and on its incident page alike). */
+export function noChartText(incident) {
+  // A fault of the whole sample (a duplicated bottle, hours going back…) is no metal's trend.
+  return subjectsOf(incident).includes('sample') ? 'A fault of the whole sample: no measurand to chart (every trend is on the component page).' : 'No measurand to chart.';
+}
+
 /** As NO_LONGER_HOLD and withdrawnEvidenceText in src/incidents/model.ts. */
 export const NO_LONGER_HOLD = 'the findings it stood on no longer hold';
 export function withdrawnEvidenceText(findings) {
