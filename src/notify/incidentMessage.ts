@@ -13,9 +13,13 @@ const RECENT_RESULTS = 5;
 
 export function incidentMessage(effect: NotifyEffect, revisions: readonly Sample[], apiBaseUrl: string): IncidentMessage {
   const s = effect.incident;
-  // Up to the sample the event is about: results stored later would change the message between retries.
-  const until = Date.parse(s.lastSampledAt);
-  const recent = buildHistory(revisions).samples.filter((x) => x.time <= until).slice(-RECENT_RESULTS);
+  // Up to the sample the event is about, as its latest revision stands (a correction may move its time): results
+  // stored later would change the message between retries. An incident closed with its evidence set aside stands on
+  // no sample any more: its closing shows the latest stored results.
+  const samples = buildHistory(revisions).samples;
+  const latest = samples.find((x) => x.sampleId === s.lastSampleId);
+  const until = s.closed && s.findings.length === 0 ? Infinity : (latest?.time ?? Date.parse(s.lastSampledAt));
+  const recent = samples.filter((x) => x.time <= until).slice(-RECENT_RESULTS);
   return {
     type: effect.type.slice('wearshift.incident.'.length) as IncidentMessageType,
     incident: {
