@@ -84,9 +84,20 @@ export const NO_LONGER_HOLD = 'the findings it stood on no longer hold';
 export function withdrawnEvidenceText(findings) {
   if (!findings || findings.length === 0) return '';
   const samples = [...new Set(findings.map((f) => f.sampleId))];
-  const of = samples.map((id) => `${findings.filter((f) => f.sampleId === id).map((f) => `${subjectOf(f)} (${f.rule}, ${f.severity})`).join(', ')} of sample ${id}`);
+  const of = samples.map((id) => `${findings.filter((f) => f.sampleId === id).map((f) => `${subjectOf(f)} (${foundByWords(f)}, ${f.severity})`).join(', ')} of sample ${id}`);
   return `${NO_LONGER_HOLD}: ${of.join('; ')}`;
 }
+
+/** A sample-wide sampling check in words (a copy of SAMPLE_WIDE_WORDS in src/domain/finding.ts). */
+export const SAMPLE_WIDE_WORDS = {
+  'duplicate-bottle': 'duplicated bottle',
+  'unit-hours-back': 'unit hours back',
+  'oil-hours-back': 'oil hours back',
+  'new-oil-mid-charge': 'new-oil bottle mid-charge',
+  'foreign-oil': "another unit's sample",
+};
+/** What found it, in words (as `foundByWords` in src/domain/finding.ts). */
+export const foundByWords = (f) => (subjectOf(f) === 'sample' ? SAMPLE_WIDE_WORDS[f.check] : f.rule);
 
 /** A finding an incident stood on that no longer holds (`withdrawnEvidence`), never shown as current evidence. */
 export function withdrawnFindingText(f) {

@@ -8,6 +8,7 @@ import { FORECAST_OUTCOMES } from '../analysis/forecast/model.ts';
 import { CHANNEL_KINDS } from '../domain/escalationConfig.ts';
 import { SAMPLE_SUBJECT, SAMPLING_CHECKS, SEVERITIES } from '../domain/finding.ts';
 import { INCIDENT_MESSAGE_TYPES } from '../notify/message.ts';
+import { CLOSED_HOWS, CLOSING_VERDICTS } from '../incidents/model.ts';
 
 const isoTime = z.string().describe('RFC 3339 date-time.');
 const forecastTime = z.object({ oilHours: z.number(), hoursFromNow: z.number(), date: z.string().optional() }).strict();
@@ -39,7 +40,11 @@ export const IncidentMessageSchema = z
         unit: z.string(),
         component: z.string(),
         group: z.string(),
-        severity: z.enum(SEVERITIES).describe('The highest severity of the current evidence.'),
+        severity: z
+          .enum(SEVERITIES)
+          .describe(
+            'The highest severity of the current evidence. In a closing whose evidence was set aside (closed.how withdrawn or sample-verdict; findings empty), the severity as last announced: such a message asks nothing.',
+          ),
         peakSeverity: z.enum(SEVERITIES).describe('The highest severity the incident has reached.'),
         state: z.string().describe('In words, e.g. "active, unacknowledged".'),
         openedAt: isoTime,
@@ -47,9 +52,25 @@ export const IncidentMessageSchema = z
         tier: z.number().int().min(0).describe('Escalation tier reached; 0 before the first escalation.'),
         url: z.string().describe("The incident's page on the board."),
         apiUrl: z.string().describe("The incident's address in the JSON API."),
+        closed: z
+          .object({
+            how: z
+              .enum(CLOSED_HOWS)
+              .describe(
+                'acknowledged-and-returned; resolved (by hand); returned-unannounced; withdrawn (a late or corrected result took it out of the history: its findings no longer hold); sample-verdict (a responder judged the sample that opened it: rejected, its sampling findings were borne out and any other finding of it no longer holds; confirmed as genuine, its sampling findings no longer hold).',
+              ),
+            at: isoTime.describe('When it was closed (for sample-verdict: when the word was given).'),
+            by: z.string().optional(),
+            note: z.string().optional(),
+            sampleId: z.string().optional().describe('With sample-verdict: the sample judged.'),
+            verdict: z.enum(CLOSING_VERDICTS).optional().describe('With sample-verdict: the word on the sample.'),
+          })
+          .strict()
+          .optional()
+          .describe('How the incident was closed; present in closed messages only.'),
       })
       .strict(),
-    findings: z.array(messageFinding).describe('The evidence: the findings that opened or updated the incident; the severity is the highest of theirs.'),
+    findings: z.array(messageFinding).describe('The evidence, most severe first: the findings that opened or updated the incident; the severity is the highest of theirs.'),
     advisoryFindings: z
       .array(messageFinding)
       .describe(
@@ -81,7 +102,7 @@ export const IncidentMessageSchema = z
       })
       .strict()
       .optional()
-      .describe('Time-to-limit forecasts of the evidence measurands; absent when forecasts are disabled.'),
+      .describe('Time-to-limit forecasts of the evidence measurands, as of the evidence\u2019s sample; absent when forecasts are disabled, and in returned and closed messages (a forecast would not speak for the later results they show).'),
     recentResults: z.array(z.object({ sampleId: z.string(), sampledAt: isoTime, oilHours: z.number().optional(), readings: z.record(z.string(), z.string()) }).strict()).describe('The last few results, newest last.'),
     whatChanged: z.string().describe('One sentence of what changed.'),
     idempotencyKey: z.string().min(1).describe('The same key means the same message.'),

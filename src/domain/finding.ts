@@ -84,6 +84,20 @@ export function joinedWords(findings: readonly Pick<Finding, 'measurand' | 'rule
   return [...new Set(words)].sort().join(', ');
 }
 
+/** A sample-wide sampling check in words, wherever people read of one (messages, e-mail, the board carries a copy). */
+export const SAMPLE_WIDE_WORDS: Readonly<Record<(typeof SAMPLE_WIDE_CHECKS)[number], string>> = {
+  'duplicate-bottle': 'duplicated bottle',
+  'unit-hours-back': 'unit hours back',
+  'oil-hours-back': 'oil hours back',
+  'new-oil-mid-charge': 'new-oil bottle mid-charge',
+  'foreign-oil': "another unit's sample",
+};
+
+/** What found it, in words: a sample-wide finding by its check ("duplicated bottle"), any other by its rule. */
+export function foundByWords(f: { readonly rule: string; readonly check?: string | undefined }): string {
+  return sampleWide(f) ? SAMPLE_WIDE_WORDS[f.check as (typeof SAMPLE_WIDE_CHECKS)[number]] : f.rule;
+}
+
 /** What a finding is about, as people and systems are shown it: its measurand, or `sample` for a sample-wide check. */
 export function subjectOf<M extends string = Measurand>(f: { readonly measurand: M; readonly rule: string; readonly check?: string | undefined }): M | typeof SAMPLE_SUBJECT {
   return sampleWide(f) ? SAMPLE_SUBJECT : f.measurand;

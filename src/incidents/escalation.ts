@@ -6,11 +6,11 @@
  * Every message is an effect with a key derived from the incident's own event counter, so the same input always
  * yields the same keys and the queue de-duplicates.
  */
-import { joinedWords, maxSeverity, sampleWide, severityRank, subjectOf } from '../domain/finding.ts';
+import { foundByWords, joinedWords, maxSeverity, severityRank, subjectOf, type Finding } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
 import type { EscalationPolicy } from '../domain/escalationConfig.ts';
 import { isoOf, type DraftIncident, type Work } from './draft.ts';
-import { closureText, describeState, withdrawnEvidenceText, type IncidentEventType, type IncidentSnapshot, type TimelineEntry } from './model.ts';
+import { borneOutText, closureText, describeState, withdrawnEvidenceText, type Closure, type IncidentEventType, type IncidentSnapshot, type TimelineEntry } from './model.ts';
 import { recipients, selectPolicy } from './policy.ts';
 import { REOPENED } from './verdict.ts';
 
@@ -33,6 +33,7 @@ export function snapshot(inc: DraftIncident, reason: string): IncidentSnapshot {
     ...(inc.acknowledged !== null && { acknowledgedBy: inc.acknowledged.by }),
     ...(inc.shelved !== null && { shelvedUntil: inc.shelved.until }),
     closed: inc.closed !== null,
+    ...(inc.closed !== null && { closure: structuredClone(inc.closed) }),
     openedAt: inc.openedAt,
     lastSampleId: inc.lastSampleId,
     lastSampledAt: inc.lastSampledAt,
@@ -152,8 +153,8 @@ function measurandsOf(inc: DraftIncident): Measurand[] {
 }
 
 function announcementReason(inc: DraftIncident, type: IncidentEventType): string {
-  // A finding about the whole sample is told by its check: "sample (duplicate-bottle, caution)".
-  const what = inc.evidence.map((f) => `${subjectOf(f)} (${sampleWide(f) ? f.check : f.rule}, ${f.severity})`).join(', ');
+  // A finding about the whole sample is told by its check in words: "sample (duplicated bottle, caution)".
+  const what = inc.evidence.map((f) => `${subjectOf(f)} (${foundByWords(f)}, ${f.severity})`).join(', ');
   return type === 'wearshift.incident.opened' ? `new incident, ${inc.severity}: ${what}` : `new evidence, ${inc.severity}: ${what}`;
 }
 
@@ -207,6 +208,18 @@ function reopenedReason(inc: DraftIncident, news: string | null): string {
   return parts.join('; ');
 }
 
+/**
+ * What the findings set aside at a closing mean now. A sample rejected by a responder bears out the sampling findings
+ * that put it in doubt (the responder agreed with them), while any other finding of that sample no longer holds; a
+ * withdrawal, or a sample confirmed as genuine, leaves none of them holding.
+ */
+function setAsideText(closure: Closure, findings: readonly Finding[]): string {
+  if (closure.how !== 'sample-verdict' || closure.verdict !== 'rejected') return withdrawnEvidenceText(findings);
+  const borne = findings.filter((f) => f.rule === 'sampling' && f.sampleId === closure.sampleId);
+  const parts = [borneOutText(borne), withdrawnEvidenceText(findings.filter((f) => !borne.includes(f)))];
+  return parts.filter((p) => p !== '').join('; ');
+}
+
 type ReturnEntry = Extract<TimelineEntry, { kind: 'returned' }>;
 
 /** The latest return to normal, from the timeline; null when the incident has been active again since. */
@@ -251,7 +264,7 @@ function annunciateOne(inc: DraftIncident, work: Work): void {
     cancelEscalations(inc, work, 'closed');
     const note = inc.closed.note === undefined ? '' : `: ${inc.closed.note}`;
     // An incident the history no longer produces carries no findings (incidentFold.ts): the message names what it stood on.
-    const setAside = withdrawnEvidenceText(inc.withdrawnEvidence);
+    const setAside = setAsideText(inc.closed, inc.withdrawnEvidence ?? []);
     if (inc.announced !== null) tellReached(inc, work, 'wearshift.incident.closed', `${closureText(inc.closed)}${note}${setAside === '' ? '' : `; ${setAside}`}`);
     return;
   }

@@ -3,7 +3,7 @@
  * IEC 62682: an incident is active or returned to normal, acknowledged or unacknowledged, may be shelved until a
  * time, and is finally closed. Everything here is plain JSON so that the store can keep it as it is.
  */
-import { subjectOf, type Finding, type IncidentKind, type Severity } from '../domain/finding.ts';
+import { foundByWords, subjectOf, type Finding, type IncidentKind, type Severity } from '../domain/finding.ts';
 import type { Measurand } from '../domain/measurands.ts';
 import type { LimitForecast } from '../analysis/forecast/model.ts';
 
@@ -41,6 +41,11 @@ export interface Shelving {
   readonly until: string;
   readonly reason: string;
 }
+
+/** Every way an incident closes (ClosedHow), for the published schemas. */
+export const CLOSED_HOWS = ['acknowledged-and-returned', 'resolved', 'returned-unannounced', 'withdrawn', 'sample-verdict'] as const satisfies readonly ClosedHow[];
+/** Every word on a sample that can close an incident (ClosingVerdict). */
+export const CLOSING_VERDICTS = ['confirmed', 'rejected'] as const satisfies readonly ClosingVerdict[];
 
 export type ClosedHow =
   /** Returned to normal and acknowledged, in either order. */
@@ -296,6 +301,8 @@ export interface IncidentSnapshot {
   readonly acknowledgedBy?: string;
   readonly shelvedUntil?: string;
   readonly closed: boolean;
+  /** How it was closed, when it is (absent from messages queued before it was carried). */
+  readonly closure?: Closure;
   readonly openedAt: string;
   readonly lastSampleId: string;
   readonly lastSampledAt: string;
@@ -423,10 +430,28 @@ export const NO_LONGER_HOLD = 'the findings it stood on no longer hold';
  * nothing set aside. The board carries a copy.
  */
 export function withdrawnEvidenceText(findings: readonly Pick<Finding, 'measurand' | 'rule' | 'check' | 'severity' | 'sampleId'>[] | undefined): string {
+  const listed = findingsOfSamples(findings);
+  return listed === '' ? '' : `${NO_LONGER_HOLD}: ${listed}`;
+}
+
+/** How a closing message starts its account of sampling findings a rejected sample bore out (see `borneOutText`). */
+export const BORNE_OUT = 'the sampling findings it was raised on were borne out';
+
+/**
+ * Of an incident closed because a responder rejected its sample: the sampling findings that put the sample in doubt,
+ * which the word agreed with, in the closing message: "the sampling findings it was raised on were borne out: sample
+ * (duplicated bottle, caution) of sample GB-8-L1". Empty when there are none.
+ */
+export function borneOutText(findings: readonly Pick<Finding, 'measurand' | 'rule' | 'check' | 'severity' | 'sampleId'>[] | undefined): string {
+  const listed = findingsOfSamples(findings);
+  return listed === '' ? '' : `${BORNE_OUT}: ${listed}`;
+}
+
+/** "Fe (limit, caution), sample (duplicated bottle, caution) of sample D-16-2": a sample-wide finding by its check in words. */
+function findingsOfSamples(findings: readonly Pick<Finding, 'measurand' | 'rule' | 'check' | 'severity' | 'sampleId'>[] | undefined): string {
   if (findings === undefined || findings.length === 0) return '';
   const samples = [...new Set(findings.map((f) => f.sampleId))];
-  const of = samples.map((id) => `${findings.filter((f) => f.sampleId === id).map((f) => `${subjectOf(f)} (${f.rule}, ${f.severity})`).join(', ')} of sample ${id}`);
-  return `${NO_LONGER_HOLD}: ${of.join('; ')}`;
+  return samples.map((id) => `${findings.filter((f) => f.sampleId === id).map((f) => `${subjectOf(f)} (${foundByWords(f)}, ${f.severity})`).join(', ')} of sample ${id}`).join('; ');
 }
 
 const WITHDRAWN_WORDS: Record<WithdrawnBecause, string> = { acknowledged: 'acknowledged', shelved: 'shelved', closed: 'closed', returned: 'returned to normal' };

@@ -5,7 +5,7 @@ import type { Sample } from '../domain/event.ts';
 import { formatReading } from '../domain/reading.ts';
 import type { NotifyEffect } from '../incidents/model.ts';
 import { subjectOf, type Finding } from '../domain/finding.ts';
-import type { IncidentMessage, IncidentMessageType, MessageFinding } from './message.ts';
+import { bySeverity, type IncidentMessage, type IncidentMessageType, type MessageFinding } from './message.ts';
 import { ADVISORY_CAUTION, FORECAST_CAUTION } from '../domain/caution.ts';
 
 /** About five recent results, as the message format asks. */
@@ -20,8 +20,13 @@ export function incidentMessage(effect: NotifyEffect, revisions: readonly Sample
   const latest = samples.find((x) => x.sampleId === s.lastSampleId);
   const until = s.closed && s.findings.length === 0 ? Infinity : (latest?.time ?? Date.parse(s.lastSampledAt));
   const recent = samples.filter((x) => x.time <= until).slice(-RECENT_RESULTS);
+  const type = effect.type.slice('wearshift.incident.'.length) as IncidentMessageType;
+  // A forecast is as of the evidence's sample: after a return to normal or a closing it no longer speaks for the
+  // results the message shows (a charge drained since, say), so those messages carry none.
+  const forecast = type === 'returned' || type === 'closed' ? undefined : s.forecast;
+  const closure = s.closure;
   return {
-    type: effect.type.slice('wearshift.incident.'.length) as IncidentMessageType,
+    type,
     incident: {
       id: s.id,
       unit: s.unit,
@@ -35,15 +40,26 @@ export function incidentMessage(effect: NotifyEffect, revisions: readonly Sample
       tier: s.tier,
       url: `${apiBaseUrl.replace(/\/+$/, '')}/incidents/${encodeURIComponent(s.id)}`,
       apiUrl: `${apiBaseUrl.replace(/\/+$/, '')}/v1/incidents/${encodeURIComponent(s.id)}`,
+      ...(closure !== undefined && {
+        closed: {
+          how: closure.how,
+          at: closure.at,
+          ...(closure.by !== undefined && { by: closure.by }),
+          ...(closure.note !== undefined && { note: closure.note }),
+          ...(closure.sampleId !== undefined && { sampleId: closure.sampleId }),
+          ...(closure.verdict !== undefined && { verdict: closure.verdict }),
+        },
+      }),
     },
-    findings: s.findings.map(messageFinding),
+    // Most severe first, as the e-mail shows them: the first finding is the one that sets the severity.
+    findings: bySeverity(s.findings).map(messageFinding),
     // Beside the evidence, never in it: the severity stays the evidence's.
-    advisoryFindings: (s.advisoryFindings ?? []).map(messageFinding),
-    ...(s.forecast !== undefined &&
-      s.forecast.length > 0 && {
+    advisoryFindings: bySeverity(s.advisoryFindings ?? []).map(messageFinding),
+    ...(forecast !== undefined &&
+      forecast.length > 0 && {
         forecast: {
           caution: `${FORECAST_CAUTION} ${ADVISORY_CAUTION}`,
-          items: s.forecast.map((f) => ({
+          items: forecast.map((f) => ({
             measurand: f.measurand,
             severity: f.severity,
             source: f.source,

@@ -42,7 +42,11 @@ export interface IncidentMessage {
     unit: string;
     component: string;
     group: string;
-    /** The highest severity among the findings below: see `severityWords`. */
+    /**
+     * The highest severity among the findings below: see `severityWords`. When a closing leaves no findings because the
+     * evidence was set aside (`closed.how` `withdrawn` or `sample-verdict`), the severity as last announced: it asks
+     * nothing any more.
+     */
     severity: MessageSeverity;
     /** The highest severity the incident has had. */
     peakSeverity: MessageSeverity;
@@ -55,6 +59,8 @@ export interface IncidentMessage {
     url: string;
     /** The incident in the JSON API (a bearer token), for integrations. */
     apiUrl: string;
+    /** Of a closed incident: how, when and, where the closing names them, by whom and on which sample's verdict. */
+    closed?: MessageClosure;
   };
   /** The evidence: the findings that opened or updated the incident and set its severity. */
   findings: MessageFinding[];
@@ -66,7 +72,8 @@ export interface IncidentMessage {
   /**
    * How long until the evidence's measurands cross their limits at the present trend (central estimate and
    * interval, in operating hours and as a date), or why there is no forecast; with the caution that a forecast
-   * assumes the present trend continues. Absent when forecasts are disabled.
+   * assumes the present trend continues. Absent when forecasts are disabled, and from returned and closed messages
+   * (made on the evidence's sample, the forecast would contradict the later results those messages show).
    */
   forecast?: {
     caution: string;
@@ -92,6 +99,24 @@ export interface IncidentMessage {
   idempotencyKey: string;
   /** Always ADVISORY_CAUTION: integrators that pass the severity on pass this with it. */
   advisory: string;
+}
+
+/** How an incident was closed, for receivers that act on it without reading the sentence of what changed. */
+export interface MessageClosure {
+  /** acknowledged-and-returned, resolved, returned-unannounced, withdrawn or sample-verdict. */
+  how: string;
+  at: string;
+  by?: string;
+  note?: string;
+  /** With `sample-verdict`: the sample judged and the word on it (confirmed or rejected). */
+  sampleId?: string;
+  verdict?: string;
+}
+
+/** Closed because the findings it stood on were set aside (withdrawn, or answered by a sample verdict): `findings` is empty. */
+export function evidenceSetAside(msg: Pick<IncidentMessage, 'type' | 'incident'>): boolean {
+  const how = msg.incident.closed?.how;
+  return msg.type === 'closed' && (how === 'withdrawn' || how === 'sample-verdict');
 }
 
 /** One finding as a message carries it. */

@@ -9,7 +9,7 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import { bySeverity, severityWords, type MessageSeverity } from '../../src/notify/message.ts';
 import { formatTime, timeZoneNote } from '../../src/notify/format.ts';
 import { FORECAST_CAUTION } from '../../src/domain/caution.ts';
-import { CHARTLESS_CHECKS, SAMPLE_WIDE_CHECKS, SAMPLING_CHECKS, subjectOf } from '../../src/domain/finding.ts';
+import { CHARTLESS_CHECKS, SAMPLE_WIDE_CHECKS, SAMPLE_WIDE_WORDS, SAMPLING_CHECKS, subjectOf } from '../../src/domain/finding.ts';
 import { ADVISORY_HEADING } from '../../src/channels/email/emailRender.ts';
 import {
   closureText,
@@ -38,6 +38,7 @@ interface BoardText {
   notifiedTargetsText(entry: object): string;
   timelineText(entry: object): string;
   SAMPLE_WIDE_CHECKS: readonly string[];
+  SAMPLE_WIDE_WORDS: Readonly<Record<string, string>>;
   CHARTLESS_CHECKS: readonly string[];
   subjectOf(f: object): string;
   measurandsOf(incident: object): string[];
@@ -164,7 +165,13 @@ describe("the board's copies", () => {
     // A sampling finding about the whole sample stood on the sample, not on the metal it is filed under.
     const bottle = [{ measurand: 'Cu', rule: 'sampling', check: 'duplicate-bottle', severity: 'caution', sampleId: 'D-16-3', explanation: 'All 9 readings are identical.' }] as const;
     expect(text.withdrawnEvidenceText(bottle)).toBe(withdrawnEvidenceText(bottle));
-    expect(withdrawnEvidenceText(bottle)).toBe('the findings it stood on no longer hold: sample (sampling, caution) of sample D-16-3');
+    // …and is named by its check in words, as the e-mail subject names it.
+    expect(withdrawnEvidenceText(bottle)).toBe('the findings it stood on no longer hold: sample (duplicated bottle, caution) of sample D-16-3');
+    expect(text.SAMPLE_WIDE_WORDS).toEqual(SAMPLE_WIDE_WORDS);
+    for (const check of SAMPLING_CHECKS) {
+      const f = { measurand: 'Cu', rule: 'sampling', check, severity: 'watch', sampleId: 'D-16-4' } as const;
+      expect(text.withdrawnEvidenceText([f]), check).toBe(withdrawnEvidenceText([f]));
+    }
     expect(text.withdrawnEvidenceText([])).toBe(withdrawnEvidenceText([]));
     expect(text.withdrawnEvidenceText(undefined)).toBe('');
     // A finding set aside is never shown as current: the card says it no longer holds before what it first said.

@@ -69,9 +69,12 @@ describe("an incident a responder's word on its sample answered", () => {
     const closing = r.effects.filter((e): e is NotifyEffect => e.kind === 'notify' && e.type === 'wearshift.incident.closed');
     expect(closing.map((e) => [e.incidentId, e.target])).toEqual([[SAMPLING_ID, 'samplers']]);
     expect(closing[0]!.incident.reason).toBe(
-      'closed: sample QX-1-026 rejected by Jo Sampler (sample judged wrong; kept out of the trend); the findings it stood on no longer hold: sample (sampling, caution) of sample QX-1-026',
+      'closed: sample QX-1-026 rejected by Jo Sampler (sample judged wrong; kept out of the trend); the sampling findings it was raised on were borne out: sample (new-oil bottle mid-charge, caution) of sample QX-1-026',
     );
-    expect(closing[0]!.incident.reason).not.toMatch(/withdrawn|late or corrected/);
+    // The responder agreed with the sampling finding: it is not reported as no longer holding.
+    expect(closing[0]!.incident.reason).not.toMatch(/withdrawn|late or corrected|no longer hold/);
+    // Receivers read how it closed without parsing the sentence.
+    expect(closing[0]!.incident.closure).toEqual(closure);
     // Its finding no longer holds: set aside, never sent as current evidence; its alarm is no longer active.
     expect(closing[0]!.incident.findings).toEqual([]);
     expect(closing[0]!.incident.alarm).toBe('returned');
@@ -84,7 +87,7 @@ describe("an incident a responder's word on its sample answered", () => {
     expect(r.withdrawn[0]!.closed).toMatchObject({ how: 'sample-verdict', verdict: 'confirmed', by: 'Jo Sampler' });
     const closing = r.effects.find((e): e is NotifyEffect => e.kind === 'notify' && e.type === 'wearshift.incident.closed')!;
     expect(closing.incident.reason).toBe(
-      'closed: sample QX-1-026 confirmed as genuine by Jo Sampler (back into the trend); the findings it stood on no longer hold: sample (sampling, caution) of sample QX-1-026',
+      'closed: sample QX-1-026 confirmed as genuine by Jo Sampler (back into the trend); the findings it stood on no longer hold: sample (new-oil bottle mid-charge, caution) of sample QX-1-026',
     );
     expect(closing.incident.findings).toEqual([]);
   });
@@ -103,7 +106,7 @@ describe("an incident a responder's word on its sample answered", () => {
     expect(late.withdrawn[0]!.closed).toEqual({ at: new Date(T0 + 282 * DAY).toISOString(), how: 'withdrawn' });
     const closing = late.effects.find((e): e is NotifyEffect => e.kind === 'notify' && e.type === 'wearshift.incident.closed')!;
     expect(closing.incident.reason).toBe(
-      'withdrawn: a late or corrected result changed the history so that this incident no longer stands; the findings it stood on no longer hold: sample (sampling, caution) of sample QX-1-026',
+      'withdrawn: a late or corrected result changed the history so that this incident no longer stands; the findings it stood on no longer hold: sample (new-oil bottle mid-charge, caution) of sample QX-1-026',
     );
     expect(closing.incident.findings).toEqual([]);
     expect(late.withdrawn[0]!.alarm).toBe('returned');

@@ -71,7 +71,7 @@ describe('findings about the whole sample', () => {
     for (const part of [mail.text, mail.html.replace(/<[^>]+>/g, '')]) {
       expect(part).toContain('sample, sampling rule, caution: duplicated bottle, all 9 readings identical to an earlier sample (sample LAB-0107');
       expect(part).toContain('sample, sampling rule, caution: unit hours 13887, lower than 16637 of the last sample (sample LAB-0107');
-      expect(part).toContain('sample (duplicate-bottle, caution), sample (unit-hours-back, caution)');
+      expect(part).toContain('sample (duplicated bottle, caution), sample (unit hours back, caution)');
       expect(part).not.toContain('against its limit');
       expect(part).not.toMatch(/\bCu\b/);
     }
@@ -84,7 +84,7 @@ describe('findings about the whole sample', () => {
     const { effect } = opened([hoursBack]);
     const msg = incidentMessage(effect, [], 'https://wearshift.plant.example');
     expect(msg.findings).toMatchObject([{ measurand: 'Cu', subject: 'sample', rule: 'sampling', check: 'unit-hours-back' }]);
-    expect(msg.whatChanged).toBe('new incident, caution: sample (unit-hours-back, caution)');
+    expect(msg.whatChanged).toBe('new incident, caution: sample (unit hours back, caution)');
     expect(IncidentMessageSchema.safeParse(msg).success).toBe(true);
     expect(IncidentMessageSchema.safeParse({ ...msg, findings: [{ ...msg.findings[0], subject: undefined }] }).success).toBe(false);
   });

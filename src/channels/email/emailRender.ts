@@ -5,12 +5,12 @@
 import { createHash } from 'node:crypto';
 import { MEASURANDS, isMeasurand } from '../../domain/measurands.ts';
 import { ADVISORY_CAUTION, FORECAST_CAUTION } from '../../domain/caution.ts';
-import { asksForAcknowledgement, bySeverity, severityWords, type IncidentMessage, type MessageFinding } from '../../notify/message.ts';
+import { asksForAcknowledgement, bySeverity, evidenceSetAside, severityWords, type IncidentMessage, type MessageFinding } from '../../notify/message.ts';
 import { DEFAULT_TIME_ZONE, formatNumber, formatTime as formatTimeIn, timeZoneNote } from '../../notify/format.ts';
 import { escapeHtml, headerValue, httpUrl, oneLine } from '../../domain/safeText.ts';
 import { REOPENED } from '../../incidents/verdict.ts';
-import { closureText, NO_LONGER_HOLD } from '../../incidents/model.ts';
-import { SAMPLE_SUBJECT } from '../../domain/finding.ts';
+import { BORNE_OUT, closureText, NO_LONGER_HOLD } from '../../incidents/model.ts';
+import { SAMPLE_SUBJECT, SAMPLE_WIDE_WORDS } from '../../domain/finding.ts';
 
 export { ADVISORY_CAUTION };
 
@@ -64,7 +64,13 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
   const inc = msg.incident;
   const zone = options.timeZone ?? DEFAULT_TIME_ZONE;
   const formatTime = (iso: string) => formatTimeIn(iso, zone);
-  const severity = severityWords(inc.severity, inc.peakSeverity);
+  const returned = msg.type === 'returned';
+  // Closed because the history no longer gives its findings (withdrawn, or a sample verdict): the message carries none,
+  // and says so rather than "no findings attached". (Messages queued before the closing was carried: by their words.)
+  const setAside = evidenceSetAside(msg) || (msg.type === 'closed' && msg.incident.closed === undefined && msg.findings.length === 0 && msg.whatChanged.includes(NO_LONGER_HOLD));
+  // Such a closing asks nothing: it carries no severity that a mail rule would page on, only the one last told.
+  const severity = setAside ? `closed (last announced as ${inc.severity})` : severityWords(inc.severity, inc.peakSeverity);
+  const subjectTag = setAside ? 'closed' : severityWords(inc.severity, inc.peakSeverity);
   const incidentUrl = httpUrl(inc.url, 'incident.url');
   const ackUrl = options.ackUrl !== undefined && asksForAcknowledgement(msg) ? httpUrl(options.ackUrl, 'ackUrl') : undefined;
   const where = `${oneLine(inc.unit)} / ${oneLine(inc.component)}`;
@@ -78,18 +84,17 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
   const evidence = bySeverity(msg.findings).map(described);
   // Shown beside the evidence, under a heading of their own: they open nothing and set no severity.
   const advisories = bySeverity(msg.advisoryFindings).map(described);
-  const forecasts = (msg.forecast?.items ?? []).map((f) => oneLine(f.text));
+  // As of the evidence's sample: a return to normal or a closing shows later results that it does not speak for.
+  const forecasts = returned || msg.type === 'closed' ? [] : (msg.forecast?.items ?? []).map((f) => oneLine(f.text));
   const table = resultsTable(msg, formatTime);
   const expiry = options.ackExpiresAt ? ` The link works until ${formatTime(options.ackExpiresAt.toISOString())}.` : '';
   const context = `Open since ${formatTime(inc.openedAt)} · group ${oneLine(inc.group)} · state ${oneLine(inc.state)} · escalation tier ${inc.tier}. ${timeZoneNote(zone)}`;
-  const returned = msg.type === 'returned';
-  // Closed because the history no longer gives its findings (withdrawn, or a sample verdict): the message carries none,
-  // and says so rather than "no findings attached".
-  const setAside = msg.type === 'closed' && msg.findings.length === 0 && msg.whatChanged.includes(NO_LONGER_HOLD);
+  // A sample rejected as the sampling findings said: those findings were borne out, not found wrong.
+  const borneOut = setAside && msg.whatChanged.includes(BORNE_OUT) && !msg.whatChanged.includes(NO_LONGER_HOLD);
   // A return to normal is no verdict on the cause: the evidence that raised the incident is shown as what it was.
-  const standing = returned ? returnedNote(msg) : setAside ? SET_ASIDE_NOTE : undefined;
+  const standing = returned ? returnedNote(msg) : borneOut ? BORNE_OUT_NOTE : setAside ? SET_ASIDE_NOTE : undefined;
   const evidenceHeading = returned ? 'Evidence that raised it (not seen in the latest samples)' : 'Evidence';
-  const noEvidence = setAside ? `(none: ${NO_LONGER_HOLD}, see What changed)` : '(no findings attached)';
+  const noEvidence = borneOut ? '(none: the sample was judged wrong and kept out of the trend, see What changed)' : setAside ? `(none: ${NO_LONGER_HOLD}, see What changed)` : '(no findings attached)';
 
   const text = [
     `Incident ${oneLine(inc.id)} on ${where}: ${severity}. ${what}.`,
@@ -153,7 +158,7 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
   return {
     from: options.from,
     to: options.to,
-    subject: headerValue(`[wearshift ${severity}] ${where}: ${what} — ${returned ? 'earlier evidence ' : ''}${evidenceSummary(msg)}`, SUBJECT_MAX),
+    subject: headerValue(`[wearshift ${subjectTag}] ${where}: ${what}${setAside ? '' : ` — ${returned ? 'earlier evidence ' : ''}${evidenceSummary(msg)}`}`, SUBJECT_MAX),
     text,
     html,
     headers: {
@@ -163,7 +168,8 @@ export function renderIncidentEmail(msg: IncidentMessage, options: EmailRenderOp
       References: `<${digest(inc.id)}.incident@${domain}>`,
       'X-Wearshift-Incident': headerValue(inc.id, 120),
       'X-Wearshift-Event': msg.type,
-      'X-Wearshift-Severity': inc.severity,
+      // `none` for a closing whose evidence was set aside: it asks nothing (ISA-18.2), so nothing should page on it.
+      'X-Wearshift-Severity': setAside ? 'none' : inc.severity,
       // RFC 3834: an automatic message; auto-responders should not answer it.
       'Auto-Submitted': 'auto-generated',
     },
@@ -185,8 +191,14 @@ function headline(msg: IncidentMessage): string {
       return by === undefined ? 'Acknowledged' : `Acknowledged by ${oneLine(by)}`;
     case 'returned':
       return by === undefined ? 'Readings back to normal, still to be acknowledged' : 'Readings back to normal';
-    case 'closed':
-      return msg.whatChanged.startsWith(WITHDRAWN) ? 'Withdrawn, no longer stands' : 'Closed';
+    case 'closed': {
+      const closed = msg.incident.closed;
+      if (closed?.how === 'sample-verdict') {
+        const word = closed.verdict === undefined ? 'judged' : oneLine(closed.verdict);
+        return `Closed by a sample verdict: ${oneLine(closed.sampleId ?? '(unknown sample)')} ${word} by ${oneLine(closed.by ?? 'a responder')}`;
+      }
+      return closed?.how === 'withdrawn' || (closed === undefined && msg.whatChanged.startsWith(WITHDRAWN)) ? 'Withdrawn, no longer stands' : 'Closed';
+    }
   }
 }
 
@@ -197,6 +209,11 @@ const WITHDRAWN = closureText({ how: 'withdrawn' });
 const SET_ASIDE_NOTE =
   'The results as they stand now no longer give the findings this incident was raised on (named under What changed): ' +
   'none is shown as evidence, and nothing is asked of you.';
+
+/** Above the message of an incident closed because a responder rejected its sample, as its sampling findings said. */
+const BORNE_OUT_NOTE =
+  'A responder judged the sample wrong, as the sampling findings named under What changed said: it is kept out of the ' +
+  'trend, and nothing more is asked of you.';
 
 /**
  * What a return to normal means for the reader. The engine tells of a return only while nobody has acknowledged the
@@ -217,7 +234,7 @@ function returnedNote(msg: IncidentMessage): string {
 function evidenceSummary(msg: IncidentMessage): string {
   const rules = new Map<string, string[]>();
   for (const f of bySeverity(msg.findings)) {
-    const what = oneLine(f.subject === SAMPLE_SUBJECT && f.check !== undefined ? (SAMPLE_WIDE_WORDS[f.check] ?? f.check) : f.rule);
+    const what = oneLine(f.subject === SAMPLE_SUBJECT && f.check !== undefined ? ((SAMPLE_WIDE_WORDS as Readonly<Record<string, string>>)[f.check] ?? f.check) : f.rule);
     const list = rules.get(oneLine(f.subject)) ?? [];
     if (!list.includes(what)) list.push(what);
     rules.set(oneLine(f.subject), list);
@@ -238,21 +255,12 @@ function withoutHeadline(reason: string, headline: string): string {
   return reason;
 }
 
-/** A sample-wide sampling check in words, for the subject line and the evidence. */
-const SAMPLE_WIDE_WORDS: Readonly<Record<string, string>> = {
-  'duplicate-bottle': 'duplicated bottle',
-  'unit-hours-back': 'unit hours back',
-  'oil-hours-back': 'oil hours back',
-  'new-oil-mid-charge': 'new-oil bottle mid-charge',
-  'foreign-oil': "another unit's sample",
-};
-
 /**
  * A sample-wide finding's value in words: what it counts or the hours it compares; for a new-oil bottle the metal
  * its value is the reading of (the first of those that read like new oil).
  */
 function sampleWideStatement(f: MessageFinding): string {
-  const words = (f.check !== undefined ? SAMPLE_WIDE_WORDS[f.check] : undefined) ?? oneLine(f.check ?? f.rule);
+  const words = (f.check !== undefined ? (SAMPLE_WIDE_WORDS as Readonly<Record<string, string>>)[f.check] : undefined) ?? oneLine(f.check ?? f.rule);
   const value = formatNumber(f.value);
   const was = f.threshold === undefined ? undefined : formatNumber(f.threshold);
   switch (f.check) {
