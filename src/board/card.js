@@ -106,7 +106,7 @@ export function updateCard(card, incident) {
   );
   // Findings the incident stood on that no longer hold (withdrawn, or answered by a sample verdict): marked so.
   card.evidence.append(
-    ...bySeverity(incident.withdrawnEvidence).map((f) => el('li', { class: 'withdrawn', 'data-severity': f.severity }, el('strong', { text: `${subjectOf(f)} · ${f.severity} · ${f.rule}: ` }), withdrawnFindingText(f))),
+    ...bySeverity(incident.withdrawnEvidence).map((f) => el('li', { class: 'withdrawn', 'data-severity': f.severity }, el('strong', { text: `${subjectOf(f)} · ${f.severity} · ${f.rule}: ` }), withdrawnFindingText(f, incident.closed))),
   );
   // Advisory findings (the API's `context`): the board's cards show the first few, the incident page every one.
   const advisories = bySeverity(incident.context);

@@ -99,8 +99,15 @@ export const SAMPLE_WIDE_WORDS = {
 /** What found it, in words (as `foundByWords` in src/domain/finding.ts). */
 export const foundByWords = (f) => (subjectOf(f) === 'sample' ? SAMPLE_WIDE_WORDS[f.check] : f.rule);
 
-/** A finding an incident stood on that no longer holds (`withdrawnEvidence`), never shown as current evidence. */
-export function withdrawnFindingText(f) {
+/**
+ * A finding an incident stood on that no longer holds (`withdrawnEvidence`), never shown as current evidence. A
+ * sampling finding of a sample a responder rejected was borne out, not withdrawn: the sample is wrong, as it said (as
+ * `borneOutText` in src/incidents/model.ts).
+ */
+export function withdrawnFindingText(f, closure) {
+  if (closure?.how === 'sample-verdict' && closure.verdict === 'rejected' && f.rule === 'sampling' && f.sampleId === closure.sampleId) {
+    return `borne out: ${closure.by ?? 'a responder'} judged sample ${f.sampleId} wrong, as this finding said, and it is kept out of the trend; reported: ${f.explanation}`;
+  }
   return `no longer holds (the results as they stand now do not give it); as first reported for sample ${f.sampleId}: ${f.explanation}`;
 }
 

@@ -34,7 +34,7 @@ interface BoardText {
   closureText(closure: object): string;
   NO_LONGER_HOLD: string;
   withdrawnEvidenceText(findings: readonly object[] | undefined): string;
-  withdrawnFindingText(finding: object): string;
+  withdrawnFindingText(finding: object, closure?: object): string;
   notifiedTargetsText(entry: object): string;
   timelineText(entry: object): string;
   SAMPLE_WIDE_CHECKS: readonly string[];
@@ -176,6 +176,12 @@ describe("the board's copies", () => {
     expect(text.withdrawnEvidenceText(undefined)).toBe('');
     // A finding set aside is never shown as current: the card says it no longer holds before what it first said.
     expect(text.withdrawnFindingText(stood[0])).toMatch(/^no longer holds .*as first reported for sample D-16-2: Fe 60 ppm/);
+    // A sampling finding of a sample a responder rejected was borne out, not withdrawn (as the closing message says).
+    const twin = { measurand: 'Cu', rule: 'sampling', check: 'duplicate-bottle', severity: 'caution', sampleId: 'GB-8-L1', explanation: 'All 5 readings are identical.' };
+    const rejected = { how: 'sample-verdict', at: '2026-05-04T09:00:00Z', by: 'Ben Sampler', sampleId: 'GB-8-L1', verdict: 'rejected' };
+    expect(text.withdrawnFindingText(twin, rejected)).toMatch(/^borne out: Ben Sampler judged sample GB-8-L1 wrong, as this finding said/);
+    expect(text.withdrawnFindingText(twin, { ...rejected, verdict: 'confirmed' })).toMatch(/^no longer holds /);
+    expect(text.withdrawnFindingText(stood[0], rejected)).toMatch(/^no longer holds /);
     // A return to normal with the clean samples that returned it.
     expect(text.timelineText({ kind: 'returned', at: '2026-05-04T09:00:00Z', sampleId: 'R-4', cleanSamples: 2 })).toMatch(/: returned to normal \(sample R-4\), after 2 samples without findings$/);
   });
