@@ -76,11 +76,11 @@ export function sampleWide(f: { readonly rule: string; readonly check?: string |
 }
 
 /**
- * What joined an incident's evidence, in words ("Fe joined", "foreign-oil of the sample joined"): the findings'
- * subjects among those filed under `measurands`, a sample-wide one by its check.
+ * What joined an incident's evidence, in words ("Fe joined", "sample (another unit's sample) joined"): the findings'
+ * subjects among those filed under `measurands`, a sample-wide one by its check in words (`foundByWords`).
  */
 export function joinedWords(findings: readonly Pick<Finding, 'measurand' | 'rule' | 'check'>[], measurands: readonly Measurand[]): string {
-  const words = findings.filter((f) => measurands.includes(f.measurand)).map((f) => (sampleWide(f) ? `${f.check} of the sample` : f.measurand));
+  const words = findings.filter((f) => measurands.includes(f.measurand)).map((f) => (sampleWide(f) ? `${SAMPLE_SUBJECT} (${foundByWords(f)})` : f.measurand));
   return [...new Set(words)].sort().join(', ');
 }
 

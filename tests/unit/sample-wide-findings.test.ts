@@ -11,7 +11,7 @@ import { IncidentMessageSchema } from '../../src/contracts/eventSchemas.ts';
 import { ADVISORY_CAUTION } from '../../src/domain/caution.ts';
 import { AlarmFiguresSchema } from '../../src/domain/alarmFiguresConfig.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
-import { SAMPLE_WIDE_CHECKS, SAMPLING_CHECKS, subjectOf, type Finding } from '../../src/domain/finding.ts';
+import { joinedWords, SAMPLE_WIDE_CHECKS, SAMPLING_CHECKS, subjectOf, type Finding } from '../../src/domain/finding.ts';
 import { alarmFigures } from '../../src/incidents/alarmFigures.ts';
 import { applySteps } from '../../src/incidents/applySteps.ts';
 import { emptyComponentIncidents, type NotifyEffect } from '../../src/incidents/model.ts';
@@ -87,6 +87,18 @@ describe('findings about the whole sample', () => {
     expect(msg.whatChanged).toBe('new incident, caution: sample (unit hours back, caution)');
     expect(IncidentMessageSchema.safeParse(msg).success).toBe(true);
     expect(IncidentMessageSchema.safeParse({ ...msg, findings: [{ ...msg.findings[0], subject: undefined }] }).success).toBe(false);
+  });
+
+  it('says what joined an incident in words: a metal by its name, a fault of the whole sample by its check in words', () => {
+    const joined = joinedWords(
+      [
+        { measurand: 'Cu', rule: 'sampling', check: 'duplicate-bottle' },
+        { measurand: 'Fe', rule: 'limit' },
+      ],
+      ['Cu', 'Fe'],
+    );
+    expect(joined).toBe('Fe, sample (duplicated bottle)');
+    expect(joined).not.toContain('duplicate-bottle');
   });
 
   it('an e-mail about the whole sample carries no metal trend chart: nothing is read to draw one', async () => {
