@@ -5,7 +5,7 @@
  */
 import Fastify, { type FastifyError, type FastifyReply, type FastifyRequest } from 'fastify';
 import type { Config } from '../domain/config.ts';
-import { describeState, type Incident } from '../incidents/model.ts';
+import { closureText, describeState, type Incident } from '../incidents/model.ts';
 import type { IncidentRoutesStore } from './incidentRoutes.ts';
 import type { AckIncidentSummary } from '../notify/ackPage.ts';
 import { bySeverity } from '../notify/message.ts';
@@ -196,7 +196,11 @@ export function ackSummary(incident: Incident, timeZone: string | undefined): Ac
     component: incident.component,
     severity: incident.severity,
     peakSeverity: incident.peakSeverity,
-    state: describeState(incident),
+    // Closed: how, in the words of the closing message (withdrawn, a sample verdict, resolved…).
+    state: incident.closed === null ? describeState(incident) : `closed — ${closureText(incident.closed)}`,
+    // A closing whose evidence was set aside (withdrawn, or a sample verdict) stands on nothing: its severity is only
+    // what was last announced.
+    ...(incident.closed !== null && (incident.withdrawnEvidence?.length ?? 0) > 0 && incident.evidence.length === 0 && { setAside: true }),
     ...(timeZone !== undefined && { timeZone }),
     openedAt: incident.openedAt,
     ...(latest !== undefined && { whatChanged: latest.explanation }),

@@ -19,6 +19,8 @@ export interface AckIncidentSummary {
   whatChanged?: string;
   acknowledgedBy?: string;
   closed?: boolean;
+  /** Closed with its evidence set aside (withdrawn, or a sample verdict): the severity is only what was last announced. */
+  setAside?: boolean;
 }
 
 export type AckRefusal = 'expired' | 'tampered' | 'malformed' | 'unknown-incident';
@@ -98,7 +100,12 @@ function describe(inc: AckIncidentSummary): string {
   const rows: Array<[string, string]> = [
     ['Unit / component', `${oneLine(inc.unit)} / ${oneLine(inc.component)}`],
     // Shape and word, as the board and the charts show a severity: never colour alone.
-    ['Severity', `${SEVERITY_STYLE[inc.severity].glyph} ${severityWords(inc.severity, inc.peakSeverity)}`],
+    [
+      'Severity',
+      inc.setAside === true
+        ? `none: nothing of it stands (last announced as ${severityWords(inc.severity, inc.peakSeverity)})`
+        : `${SEVERITY_STYLE[inc.severity].glyph} ${severityWords(inc.severity, inc.peakSeverity)}`,
+    ],
     ['State', oneLine(inc.state)],
     ['Open since', formatTime(inc.openedAt, inc.timeZone)],
   ];

@@ -8,6 +8,8 @@ import { describe, expect, it } from 'vitest';
 import { IncidentMessageSchema } from '../../src/contracts/eventSchemas.ts';
 import { IncidentSchema } from '../../src/contracts/responseSchemas.ts';
 import { renderIncidentEmail } from '../../src/channels/email/emailRender.ts';
+import { ackSummary } from '../../src/http/server.ts';
+import { renderAckPage } from '../../src/notify/ackPage.ts';
 import { ADVISORY_CAUTION } from '../../src/domain/caution.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import type { ResultEvent } from '../../src/domain/event.ts';
@@ -65,6 +67,18 @@ describe('an incident a corrected result withdraws', () => {
     expect(incident.context).toEqual([]);
     expect(incident.withdrawnEvidence).toMatchObject([{ measurand: 'Fe', rule: 'limit', severity: 'caution', value: 60, sampleId: 'D-16-2' }]);
     expect(IncidentSchema.safeParse(incident).success).toBe(true);
+  });
+
+  it('shows on the acknowledgement page how it was closed and that no severity of it stands', async () => {
+    const { incident } = await withdrawnByRevision();
+    const summary = ackSummary(incident, 'UTC');
+    expect(summary.state).toMatch(/^closed — withdrawn: a late or corrected result/);
+    expect(summary.setAside).toBe(true);
+    const html = renderAckPage({ kind: 'closed', incident: summary });
+    expect(html).toContain('none: nothing of it stands (last announced as caution)');
+    expect(html).not.toMatch(/<th>Severity<\/th><td>▲/);
+    // An incident not closed shows its severity as any other.
+    expect(ackSummary({ ...incident, closed: null }, 'UTC').setAside).toBeUndefined();
   });
 
   it('tells those told of it with no finding as current: the reason names what no longer holds, beside the corrected result', async () => {
