@@ -104,7 +104,10 @@ export function updateCard(card, incident) {
     ...forecasts.map((f) => el('li', { class: 'forecast', 'data-forecast': f.outcome }, el('strong', { text: 'time to limit: ' }), f.text)),
     ...(forecasts.length > 0 ? [el('li', { class: 'forecast-caution', text: FORECAST_CAUTION })] : []),
   );
-  // Findings the incident stood on that no longer hold (withdrawn, or answered by a sample verdict): marked so.
+  // Findings the incident stood on that no longer hold (withdrawn, or answered by a sample verdict): marked so, and
+  // the list named for what it then holds, so that a screen reader does not announce them as evidence.
+  const setAside = evidence.length === 0 && (incident.withdrawnEvidence ?? []).length > 0;
+  card.evidence.setAttribute('aria-label', setAside ? 'Findings it stood on, none of which stands now' : 'Evidence, most severe first');
   card.evidence.append(
     ...bySeverity(incident.withdrawnEvidence).map((f) => el('li', { class: 'withdrawn', 'data-severity': f.severity }, el('strong', { text: `${subjectOf(f)} · ${f.severity} · ${f.rule}: ` }), withdrawnFindingText(f, incident.closed))),
   );
