@@ -27,6 +27,7 @@ import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { webhookSecret } from './peers.ts';
 import { effectKeyOf, recordedNotifications } from './scenario.ts';
 import { openIronAlarm } from '../helpers/ironAlarm.ts';
+import { waitFor } from '../helpers/processes.ts';
 
 const PREFIX = '{double-stall}';
 const UNITS = ['PS8-P1', 'PS8-P2', 'PS8-P3', 'PS8-P4'];
@@ -94,13 +95,8 @@ async function receiver(): Promise<Receiver> {
   };
 }
 
-async function until(what: string, probe: () => boolean | Promise<boolean>, timeoutMs = BOUND_MS): Promise<void> {
-  const deadline = Date.now() + timeoutMs;
-  while (!(await probe())) {
-    if (Date.now() > deadline) throw new Error(`timed out after ${timeoutMs} ms waiting for ${what}`);
-    await new Promise((r) => setTimeout(r, 50));
-  }
-}
+/** Polls every 50 ms until `probe` holds, failing with `what` after the test's bound. */
+const until = (what: string, probe: () => boolean | Promise<boolean>): Promise<void> => waitFor(what, probe, BOUND_MS, 50);
 
 let redis: RedisServer | undefined;
 let hooks: Receiver | undefined;

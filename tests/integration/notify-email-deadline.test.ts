@@ -32,6 +32,7 @@ import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { incidentMessage } from '../unit/notify-fixtures.ts';
+import { waitFor } from '../helpers/processes.ts';
 
 /** Pause between the bytes of the endless EHLO reply: far below every idle timeout (10 s greeting, 30 s socket). */
 const TRICKLE_PAUSE_MS = 500;
@@ -94,13 +95,8 @@ async function trickleSmtp(): Promise<TrickleSmtp> {
   };
 }
 
-async function until(what: string, probe: () => boolean | Promise<boolean>, timeoutMs = BOUND_MS): Promise<void> {
-  const deadline = Date.now() + timeoutMs;
-  while (!(await probe())) {
-    if (Date.now() > deadline) throw new Error(`timed out after ${timeoutMs} ms waiting for ${what}`);
-    await new Promise((r) => setTimeout(r, 50));
-  }
-}
+/** Polls every 50 ms until `probe` holds, failing with `what` after the test's bound. */
+const until = (what: string, probe: () => boolean | Promise<boolean>): Promise<void> => waitFor(what, probe, BOUND_MS, 50);
 
 function finding(unit: string, severity: 'alarm' | 'caution', sampledAt: string): Step['findings'][number] {
   const [value, threshold] = severity === 'alarm' ? [95, 80] : [55, 40];

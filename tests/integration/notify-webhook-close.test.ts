@@ -26,6 +26,7 @@ import { silentLogger } from '../../src/telemetry/logger.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { incidentMessage } from '../unit/notify-fixtures.ts';
 import { openIronAlarm } from '../helpers/ironAlarm.ts';
+import { waitFor } from '../helpers/processes.ts';
 
 /** How long a test waits for something that should happen within a few seconds. */
 const BOUND_MS = 60_000;
@@ -91,13 +92,8 @@ async function receiver(): Promise<Receiver> {
   };
 }
 
-async function until(what: string, probe: () => boolean | Promise<boolean>, timeoutMs = BOUND_MS): Promise<void> {
-  const deadline = Date.now() + timeoutMs;
-  while (!(await probe())) {
-    if (Date.now() > deadline) throw new Error(`timed out after ${timeoutMs} ms waiting for ${what}`);
-    await new Promise((r) => setTimeout(r, 50));
-  }
-}
+/** Polls every 50 ms until `probe` holds, failing with `what` after the test's bound. */
+const until = (what: string, probe: () => boolean | Promise<boolean>): Promise<void> => waitFor(what, probe, BOUND_MS, 50);
 
 /** Resolves with `done`'s value, or with 'still waiting' after `ms`. */
 function within<T>(done: Promise<T>, ms: number): Promise<T | 'still waiting'> {
