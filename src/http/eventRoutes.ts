@@ -14,7 +14,7 @@
 import type { FastifyPluginAsync, onRequestAsyncHookHandler } from 'fastify';
 import type { ServerResponse } from 'node:http';
 import { ADVISORY_CAUTION } from '../domain/caution.ts';
-import { addressOf } from './addressLimits.ts';
+import { addressKey, addressOf } from './addressLimits.ts';
 import { requireRole, tokenDigestOf, type AccessTokens } from './auth.ts';
 import type { EventHub, LiveEvent } from './eventHub.ts';
 import { DEFAULT_HTTP_LIMITS } from './limits.ts';
@@ -38,9 +38,9 @@ export interface EventRoutesOptions {
   maxClients?: number;
   /**
    * Most open streams of one token (by its digest) and of one client address (addressLimits.ts: the socket's peer, or
-   * the client a trusted proxy forwarded for): a further one gets 429 with Retry-After
-   * and a message naming the bound; the streams already open are kept (a board that reconnects gets its stream back
-   * once its old one has closed). Defaults 8 and 16.
+   * the client a trusted proxy forwarded for; every address of one IPv6 /64 counts as one): a further one gets 429
+   * with Retry-After and a message naming the bound; the streams already open are kept (a board that reconnects gets
+   * its stream back once its old one has closed). Defaults 8 and 16.
    */
   maxClientsPerToken?: number;
   maxClientsPerAddress?: number;
@@ -99,11 +99,12 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
       }
       // One token or one address must not take the slots every board shares.
       const token = tokenDigestOf(request) ?? '';
-      const address = addressOf(request);
+      // Counted under the address's key: every address of one IPv6 /64 is one client.
+      const client = addressKey(addressOf(request));
       if ((byToken.get(token) ?? 0) >= maxPerToken) {
         return reply.code(429).header('retry-after', '30').send({ error: 'too-many-requests', message: `this token already holds ${maxPerToken} live-event streams, the most one token may; close one (another tab or board) and try again` });
       }
-      if ((byAddress.get(address) ?? 0) >= maxPerAddress) {
+      if ((byAddress.get(client) ?? 0) >= maxPerAddress) {
         return reply.code(429).header('retry-after', '30').send({ error: 'too-many-requests', message: `this address already holds ${maxPerAddress} live-event streams, the most one address may; close one and try again` });
       }
       const res = reply.raw;
@@ -118,7 +119,7 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
       res.write(`retry: ${options.retryMs ?? 3000}\n: connected\n\n`);
       open.add(res);
       add(byToken, token, 1);
-      add(byAddress, address, 1);
+      add(byAddress, client, 1);
       // What the client has not taken yet: the response's buffer, which counts the socket's (data the kernel would not take).
       const behind = () => Math.max(res.writableLength, res.socket?.writableLength ?? 0);
       const send = (chunk: string) => {
@@ -140,7 +141,7 @@ export const eventRoutes: FastifyPluginAsync<EventRoutesOptions> = async (app, o
         unsubscribe();
         if (open.delete(res)) {
           add(byToken, token, -1);
-          add(byAddress, address, -1);
+          add(byAddress, client, -1);
         }
       });
     },

@@ -93,7 +93,8 @@ export async function buildServer(options: ServerOptions) {
   });
   app.server.maxConnections = limits.maxConnections;
   limitConnectionsPerAddress(app.server, limits.maxConnectionsPerAddress);
-  // Guessing tokens is slowed down per address: after too many unknown tokens, 429 until the window ends.
+  // Guessing tokens is slowed down per address (every address of one IPv6 /64 counts as one, addressKey): after too
+  // many unknown tokens, 429 until the window ends.
   const guesses = new FailedAuthGuard({ max: limits.maxFailedAuthPerAddress, windowMs: limits.failedAuthWindowMs, addresses: limits.failedAuthAddresses, ...(options.clock !== undefined && { now: options.clock }) });
   app.addHook('onRequest', async (request, reply) => {
     if (!presentsToken(request)) return;
