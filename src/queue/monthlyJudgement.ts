@@ -15,10 +15,12 @@
  * due: they are judged again from their last commit.
  */
 import { componentKey } from '../domain/event.ts';
+import { groupOf } from '../domain/settings.ts';
 import type { StepPosition } from '../incidents/model.ts';
 import { ComponentRun } from '../pipeline/componentRun.ts';
 import { summarizeEvaluation } from '../pipeline/evaluationSummary.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
+import type { EarlierMonths } from './earlierMonths.ts';
 import { runEvaluation, takeCascade, takeEvaluation, type EvaluationRunnerDeps } from './evaluationRunner.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, scheduleEvaluation } from './queues.ts';
 
@@ -39,6 +41,8 @@ export interface ComponentMonth {
   readonly changes: number;
   /** Only new results after everything the component's run has folded. */
   readonly inOrder: boolean;
+  /** The component's group, when the caller knows it (else its run's, or the configuration's). */
+  readonly group?: string;
 }
 
 export interface MonthlyJudgementOptions {
@@ -65,6 +69,11 @@ export interface MonthlyJudgementOptions {
    * Default: everything.
    */
   readonly foldUntil?: (ref: ComponentRef) => number | undefined;
+  /**
+   * Before judging a month, wait while results of earlier months of the groups' other components are stored and not
+   * yet judged elsewhere (earlierMonths.ts). Default: no wait.
+   */
+  readonly earlier?: EarlierMonths;
 }
 
 export class MonthlyJudgement {
@@ -98,6 +107,14 @@ export class MonthlyJudgement {
    * month's group shares are left to the commit (the last month before `commitAll`). Default true.
    */
   async month(components: readonly ComponentMonth[], until: number, share = true): Promise<void> {
+    const { earlier } = this.options;
+    if (earlier !== undefined && components.length > 0) {
+      const end = new Date(until - 1);
+      const monthStart = Date.UTC(end.getUTCFullYear(), end.getUTCMonth(), 1);
+      const mine = new Set(components.map((c) => componentKey(c.ref)));
+      const groups = components.map((c) => c.group ?? this.runs.get(componentKey(c.ref))?.group ?? groupOf(this.deps.config, c.ref));
+      await earlier.wait(groups, monthStart, (key) => mine.has(key) || this.runs.has(key) || this.closed.has(key) || this.failed.has(key));
+    }
     this.judged += components.length;
     await this.inTurn(components, (c) => this.isolated(c.ref, () => this.judgeMonth(c, until, share)));
   }

@@ -12,14 +12,17 @@
  * A component whose judgement fails fails the jobs waiting for it (they are retried); the batch's others go on.
  */
 import { componentKey, type Sample } from '../domain/event.ts';
+import { groupOf } from '../domain/settings.ts';
 import { monthOf, startOfNextMonth } from '../pipeline/groupShares.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
+import type { EarlierMonths } from './earlierMonths.ts';
 import type { EvaluationRunnerDeps } from './evaluationRunner.ts';
 import { MonthlyJudgement } from './monthlyJudgement.ts';
 import { DEFAULT_EVALUATE_RETRY_MS } from './queues.ts';
 
 interface Waiting {
   readonly ref: ComponentRef;
+  readonly group: string;
   /** Sampling months (`YYYY-MM`) of the results waiting. */
   readonly months: Set<string>;
   readonly waiters: { resolve(): void; reject(e: unknown): void }[];
@@ -30,6 +33,11 @@ export interface ResultBatchesOptions {
   readonly retryMs?: number;
   /** Components of one month judged at a time. Default JUDGEMENTS_AT_ONCE (monthlyJudgement.ts). */
   readonly atOnce?: number;
+  /**
+   * The process's wait for earlier months other processes hold (earlierMonths.ts), shared by its batches and its
+   * history jobs. Default: no wait (one process alone judges month by month already).
+   */
+  readonly earlier?: EarlierMonths;
 }
 
 export class ResultBatches {
@@ -51,8 +59,9 @@ export class ResultBatches {
     const key = componentKey(sample);
     let entry = this.waiting.get(key);
     if (entry === undefined) {
-      entry = { ref: { unit: sample.unit, component: sample.component }, months: new Set(), waiters: [] };
+      entry = { ref: { unit: sample.unit, component: sample.component }, group: groupOf(this.deps.config, sample), months: new Set(), waiters: [] };
       this.waiting.set(key, entry);
+      this.options.earlier?.hold(entry.ref);
     }
     entry.months.add(monthOf(sample.time));
     const waiters = entry.waiters;
@@ -67,6 +76,7 @@ export class ResultBatches {
       while (this.waiting.size > 0) {
         const batch = [...this.waiting.values()];
         this.waiting = new Map();
+        for (const w of batch) this.options.earlier?.release(w.ref);
         this.counts.batches += 1;
         this.counts.components += batch.length;
         this.deps.metrics?.batched(batch.length, batch.reduce((n, w) => n + w.waiters.length, 0));
@@ -90,6 +100,7 @@ export class ResultBatches {
     const judgement = new MonthlyJudgement(this.deps, {
       retryMs: this.retryMs,
       ...(this.options.atOnce !== undefined && { atOnce: this.options.atOnce }),
+      ...(this.options.earlier !== undefined && { earlier: this.options.earlier }),
       onFailure: (ref, e) => failures.set(componentKey(ref), e),
       // A commit left unsettled needs no evaluation here: what it read and did not fold waits for the next batch
       // (foldUntil), and every change after its read has a judgement of its own coming (a results job's batch, in this
@@ -108,7 +119,7 @@ export class ResultBatches {
       const months = [...new Set(batch.flatMap((w) => [...w.months]))].sort();
       for (const [i, month] of months.entries()) {
         // Every result of the batch was stored before its component's run opened and read its stored samples.
-        const components = batch.filter((w) => w.months.has(month)).map((w) => ({ ref: w.ref, changes: 0, inOrder: true }));
+        const components = batch.filter((w) => w.months.has(month)).map((w) => ({ ref: w.ref, changes: 0, inOrder: true, group: w.group }));
         await judgement.month(components, startOfNextMonth(month), i < months.length - 1);
       }
       await judgement.commitAll();
