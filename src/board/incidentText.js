@@ -153,6 +153,21 @@ export function closureText(closure) {
   return CLOSED_WORDS[closure.how] ?? `closed (${closure.how})`;
 }
 
+/**
+ * A live incident event read out (the announcer): "Incident acknowledged: PS2-P3 / gearbox, caution, active,
+ * acknowledged." The closing of an incident whose evidence was set aside carries severity `none` (src/pipeline/
+ * liveEvent.ts): it says how it was closed and that no severity stands, with the one last announced.
+ */
+export function liveIncidentText(event, state) {
+  const where = `${event.unit} / ${event.component}`;
+  if (event.severity === 'none') {
+    const how = event.closed !== undefined ? `${closureText(event.closed)}; ` : '';
+    const last = event.lastAnnouncedSeverity !== undefined ? ` (last announced as ${event.lastAnnouncedSeverity})` : '';
+    return `Incident ${event.change}: ${where}, ${how}severity none: nothing of it stands${last}, ${state}.`;
+  }
+  return `Incident ${event.change}: ${where}, ${event.severity}, ${state}.`;
+}
+
 /** A message event's targets, each one held back marked so, with why (as notifiedTargetsText in src/incidents/model.ts). */
 const WITHDRAWN_WORDS = { acknowledged: 'acknowledged', shelved: 'shelved', closed: 'closed', returned: 'returned to normal' };
 export function notifiedTargetsText(entry) {

@@ -11,6 +11,7 @@
 import { cards, updateCard } from './card.js';
 import { $, announce } from './dom.js';
 import { formatTime } from './format.js';
+import { liveIncidentText } from './incidentText.js';
 import { page, view } from './page.js';
 import { loadedAt, scheduleReload } from './reload.js';
 import { api } from './session.js';
@@ -54,7 +55,7 @@ function open() {
     if (view === 'incident' && event.incidentId !== undefined && event.incidentId !== page.incidentId) return;
     // The state may name a time ("shelved until …"): read out in the board's one time format.
     const state = String(event.state ?? '').replace(/\d{4}-\d\d-\d\dT\d\d:\d\d(:\d\d(\.\d+)?)?Z/g, (t) => formatTime(t));
-    announce(`Incident ${event.change}: ${event.unit} / ${event.component}, ${event.severity}, ${state}.`);
+    announce(liveIncidentText(event, state));
     scheduleReload();
   });
   source.addEventListener('result', (message) => {

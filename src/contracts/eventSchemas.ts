@@ -182,10 +182,29 @@ export const LiveIncidentEventSchema = z
     incidentId: z.string(),
     unit: z.string(),
     component: z.string(),
-    severity: z.enum(SEVERITIES).describe('The highest severity of the current evidence.'),
+    severity: z
+      .enum([...SEVERITIES, 'none'])
+      .describe(
+        'The highest severity of the current evidence. `none` on the closing of an incident whose evidence was set aside (closed.how withdrawn or sample-verdict): nothing of it stands and it asks nothing, as the e-mail\u2019s X-Wearshift-Severity says.',
+      ),
+    lastAnnouncedSeverity: z.enum(SEVERITIES).optional().describe('With severity `none`: the severity the incident had as last announced, which no longer stands.'),
     state: z.string().describe('The state after the change, in words, e.g. "active, unacknowledged".'),
     change: z.string().describe('What happened: the timeline entry\u2019s kind ("opened", "acknowledged", "finding", ...).'),
     at: isoTime,
+    closed: z
+      .object({
+        how: z
+          .enum(CLOSED_HOWS)
+          .describe(
+            'acknowledged-and-returned; resolved (by hand); returned-unannounced; withdrawn (a late or corrected result took its findings away); sample-verdict (a responder judged the sample in doubt that opened it). With withdrawn and sample-verdict the evidence was set aside: severity is `none`.',
+          ),
+        by: z.string().optional(),
+        sampleId: z.string().optional().describe('With sample-verdict: the sample judged.'),
+        verdict: z.enum(CLOSING_VERDICTS).optional().describe('With sample-verdict: the word on it.'),
+      })
+      .strict()
+      .optional()
+      .describe('On the event of a closing (change "closed"): how the incident was closed, as data.incident.closed of the webhook and MQTT messages (without the note).'),
     advisory: z.string().describe('The tool advises; the lab, the equipment maker, local codes and licensed practice decide.'),
   })
   .strict();
