@@ -114,7 +114,7 @@ export const IncidentCloudEventSchema = z
   .object({
     specversion: z.literal('1.0'),
     id: z.string().min(1).describe('The idempotency key: receivers de-duplicate on source + id.'),
-    source: z.string().min(1).describe('URI reference /wearshift/{unit}/{component}, the unit and component percent-encoded (no configuration key changes it).'),
+    source: z.string().min(1).describe('URI reference: the channel\'s source template (channels.webhooks[].source, channels.mqtt[].source; default /wearshift/{unit}/{component}) filled with the incident\'s names, percent-encoded.'),
     type: z.enum(INCIDENT_MESSAGE_TYPES.map((t) => `wearshift.incident.${t}`) as [string, ...string[]]),
     time: isoTime.describe('When the incident changed (the same on every retry).'),
     datacontenttype: z.literal('application/json'),

@@ -3,6 +3,7 @@
  * and `channels` sections). The incident engine reads the first two; the notification channels read the third.
  */
 import { z } from 'zod';
+import { DEFAULT_SOURCE_TEMPLATE, sourceTemplateProblem, TEMPLATE_FIELDS } from './addressTemplate.ts';
 import { SEVERITIES } from './finding.ts';
 import { webhookSecretProblem } from './webhookSecret.ts';
 
@@ -96,6 +97,22 @@ const webhookSecret = z
     if (problem !== undefined) ctx.addIssue({ code: 'custom', message: `${problem} (make one with: echo "whsec_$(openssl rand -base64 32)")` });
   });
 
+/**
+ * The CloudEvents `source` of the incident events a webhook or MQTT channel sends. A template that would not give a
+ * URI reference is refused here, naming the channel's field, rather than by every delivery.
+ */
+const cloudEventSource = (sentTo: string) =>
+  z
+    .string()
+    .superRefine((template, ctx) => {
+      const problem = sourceTemplateProblem(template);
+      if (problem !== undefined) ctx.addIssue({ code: 'custom', message: `the CloudEvents source template ${JSON.stringify(template)} ${problem}` });
+    })
+    .default(DEFAULT_SOURCE_TEMPLATE)
+    .describe(
+      `The CloudEvents \`source\` of the incident events ${sentTo}: a URI reference (RFC 3986) such as \`/plant-north/{unit}/{component}\` or \`urn:plant-north:{group}:{unit}\`, with the placeholders ${TEMPLATE_FIELDS.map((f) => `\`{${f}}\``).join(' ')}, each filled in percent-encoded. Default \`${DEFAULT_SOURCE_TEMPLATE}\`. Receivers de-duplicate on source + id: a message retried after the template changed carries the new source. The flood summary keeps its own source, \`/wearshift/flood-control\`.`,
+    );
+
 /** Alarm-flood handling by default: ten messages per target per ten minutes, then one summary. */
 export const DEFAULT_FLOOD_CONTROL = { maxMessages: 10, windowMinutes: 10 };
 
@@ -151,6 +168,7 @@ export const ChannelsSchema = z
               .describe(
                 `How long one delivery attempt waits for the receiver's answer, in milliseconds; default 10000, at most ${WEBHOOK_TIMEOUT_MAX_MS} (5 minutes), since each waiting attempt holds one of the webhook channel's delivery slots. Then the message is retried later with backoff; the attempt is recorded as possibly arrived.`,
               ),
+            source: cloudEventSource('sent to this webhook'),
           })
           .strict(),
       )
@@ -173,6 +191,7 @@ export const ChannelsSchema = z
               .union([z.literal(1), z.literal(2)], { error: 'qos is 1 (at least once) or 2 (exactly once); 0 is refused, as it may lose an alarm' })
               .default(1)
               .describe('1: at least once, receivers drop repeats by the CloudEvent id; 2: exactly once between wearshift and the broker. 0 is refused: it may lose a message.'),
+            source: cloudEventSource('published on this channel'),
             username: z.string().optional(),
             passwordEnv: envName.optional(),
           })

@@ -2,8 +2,11 @@
  * The CloudEvents 1.0 envelope (structured JSON mode) that webhooks and MQTT carry. Built only from the
  * message and the given time, so that every retry of one message carries byte-for-byte the same event.
  */
+import { DEFAULT_SOURCE_TEMPLATE } from '../domain/addressTemplate.ts';
 import type { IncidentMessage, IncidentMessageType } from './message.ts';
 import { fillTemplate } from './template.ts';
+
+export { DEFAULT_SOURCE_TEMPLATE };
 
 export interface IncidentCloudEvent {
   specversion: '1.0';
@@ -18,12 +21,14 @@ export interface IncidentCloudEvent {
   data: IncidentMessage;
 }
 
-export const DEFAULT_SOURCE_TEMPLATE = '/wearshift/{unit}/{component}';
-
 export interface CloudEventOptions {
   /** When the incident changed (not when this attempt is made), as a Date or an RFC 3339 string. */
   time: Date | string;
-  /** URI reference with placeholders {unit} {component} {group} {severity} {type}. Default `/wearshift/{unit}/{component}`. */
+  /**
+   * URI reference with placeholders {unit} {component} {group} {severity} {type}, each value percent-encoded. Default
+   * `/wearshift/{unit}/{component}`. A configured one (`channels.webhooks[].source`, `channels.mqtt[].source`) is
+   * checked when the configuration is read (`sourceTemplateProblem`, src/domain/addressTemplate.ts).
+   */
   sourceTemplate?: string;
 }
 

@@ -1,8 +1,8 @@
 /** `{name}` placeholders in configured addresses (CloudEvents source, MQTT topic), filled from an incident. */
+import { knownPlaceholdersText, TEMPLATE_FIELDS, type TemplateField } from '../domain/addressTemplate.ts';
 import type { IncidentMessage } from './message.ts';
 
-export const TEMPLATE_FIELDS = ['unit', 'component', 'group', 'severity', 'type'] as const;
-export type TemplateField = (typeof TEMPLATE_FIELDS)[number];
+export { TEMPLATE_FIELDS, type TemplateField };
 
 const PLACEHOLDER = /\{([^{}]*)\}/g;
 
@@ -10,7 +10,7 @@ const PLACEHOLDER = /\{([^{}]*)\}/g;
 export function checkTemplate(template: string, what: string): void {
   for (const [, name] of template.matchAll(PLACEHOLDER)) {
     if (!(TEMPLATE_FIELDS as readonly string[]).includes(name ?? '')) {
-      throw new TypeError(`${what} "${template}": unknown placeholder {${name}}; known: ${TEMPLATE_FIELDS.map((f) => `{${f}}`).join(' ')}`);
+      throw new TypeError(`${what} "${template}": unknown placeholder {${name}}; known: ${knownPlaceholdersText()}`);
     }
   }
 }

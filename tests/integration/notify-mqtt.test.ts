@@ -1,7 +1,9 @@
 /**
  * MQTT publishing against a real broker: aedes in-process on a net server, reached over TCP by mqtt.js
- * clients, the way a plant gateway would be.
+ * clients, the way a plant gateway would be; the configured CloudEvents source through the Mosquitto broker at
+ * 127.0.0.1:1883, under a topic prefix of its own.
  */
+import { randomUUID } from 'node:crypto';
 import { createServer, type AddressInfo, type Server, type Socket } from 'node:net';
 import { Aedes, type AedesOptions } from 'aedes';
 import { connectAsync, type MqttClient } from 'mqtt';
@@ -11,6 +13,7 @@ import { createMqttPublisher, type MqttPublisher } from '../../src/channels/mqtt
 import { mqttClientId } from '../../src/channels/mqtt/mqttChannel.ts';
 import { notificationChannels } from '../../src/channels/openChannels.ts';
 import { ChannelsSchema } from '../../src/domain/escalationConfig.ts';
+import { parseConfig } from '../../src/domain/configFile.ts';
 import type { NotifyEffect } from '../../src/incidents/model.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { incidentMessage } from '../unit/notify-fixtures.ts';
@@ -270,5 +273,47 @@ describe('MQTT publishing', () => {
   it('refuses a template that would publish to wildcards', () => {
     expect(() => createMqttPublisher({ url: 'mqtt://127.0.0.1:1', clientId: 'x', topicTemplate: 'plant/+/oil' })).toThrow(/"\+", "#"/);
     expect(() => createMqttPublisher({ url: 'mqtt://127.0.0.1:1', clientId: '' })).toThrow(/clientId/);
+  });
+});
+
+describe('the CloudEvents source an MQTT channel is configured with', () => {
+  it('is the source of the event a subscriber gets through the Mosquitto broker; a channel that names none keeps the default', async () => {
+    const url = 'mqtt://127.0.0.1:1883';
+    // A topic prefix and worker id of this run's own on the shared broker.
+    const prefix = `wearshift-test-${randomUUID()}`;
+    const env = { WEARSHIFT_WORKER_ID: randomUUID() };
+    const config = parseConfig(`
+channels:
+  mqtt:
+    - { name: north-bus, url: "${url}", topic: "${prefix}/north/{unit}/{component}", source: "/plant-north/{unit}/{component}?severity={severity}" }
+    - { name: south-bus, url: "${url}", topic: "${prefix}/south/{unit}/{component}" }
+`);
+    const received: Array<{ topic: string; payload: string }> = [];
+    const subscriber = await connectAsync(url, { clientId: `${prefix}-sub`, clean: true });
+    cleanup.push(() => subscriber.endAsync(true));
+    subscriber.on('message', (topic, payload) => received.push({ topic, payload: payload.toString('utf8') }));
+    await subscriber.subscribeAsync(`${prefix}/#`, { qos: 1 });
+    const open = notificationChannels(config.channels, { logger: silentLogger(), env, mqttTimeoutMs: WAIT_MS });
+    cleanup.push(async () => {
+      // The channels keep persistent sessions on the broker; this test's are ended.
+      for (const name of ['north-bus', 'south-bus']) await (await connectAsync(url, { clientId: mqttClientId(name, env), clean: true })).endAsync();
+    });
+    const message = incidentMessage({}, { unit: 'Line 2/P3' });
+    const effect = (target: string) => ({ channel: 'mqtt', target, incidentId: message.incident.id, at: '2026-03-01T08:05:00Z' }) as NotifyEffect;
+    try {
+      await expect(open.deliver({ effect: effect('north-bus'), message, attempt: 1 })).resolves.toBe(`mqtt north-bus: ${prefix}/north/Line 2%2FP3/gearbox`);
+      await expect(open.deliver({ effect: effect('south-bus'), message, attempt: 1 })).resolves.toBe(`mqtt south-bus: ${prefix}/south/Line 2%2FP3/gearbox`);
+    } finally {
+      await open.close();
+    }
+    await waitFor(() => received.length === 2, WAIT_MS, 'the subscriber to receive both events');
+    const byTopic = new Map(received.map((r) => [r.topic, r.payload]));
+    const north = JSON.parse(byTopic.get(`${prefix}/north/Line 2%2FP3/gearbox`)!) as IncidentCloudEvent;
+    expect(north.source).toBe('/plant-north/Line%202%2FP3/gearbox?severity=caution');
+    expect(north.id).toBe(message.idempotencyKey);
+    // Without the option the payload is exactly what it was before the option existed.
+    const south = byTopic.get(`${prefix}/south/Line 2%2FP3/gearbox`)!;
+    expect((JSON.parse(south) as IncidentCloudEvent).source).toBe('/wearshift/Line%202%2FP3/gearbox');
+    expect(south).toBe(JSON.stringify(toCloudEvent(message, { time: '2026-03-01T08:05:00Z' })));
   });
 });

@@ -8,9 +8,13 @@ import { createServer, type IncomingHttpHeaders, type Server } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { Webhook, WebhookVerificationError } from 'standardwebhooks';
 import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest';
-import { toCloudEvent } from '../../src/notify/cloudEvent.ts';
+import { DEFAULT_SOURCE_TEMPLATE, toCloudEvent } from '../../src/notify/cloudEvent.ts';
 import { delayBeforeNextAttempt } from '../../src/notify/retryTiming.ts';
 import { deliverWebhook } from '../../src/channels/webhook/webhookDelivery.ts';
+import { notificationChannels } from '../../src/channels/openChannels.ts';
+import { parseConfig } from '../../src/domain/configFile.ts';
+import type { NotifyEffect } from '../../src/incidents/model.ts';
+import { silentLogger } from '../../src/telemetry/logger.ts';
 import { incidentMessage } from '../unit/notify-fixtures.ts';
 
 interface Request {
@@ -230,5 +234,40 @@ describe('webhook delivery of a time-to-limit forecast', () => {
     expect(body.data.forecast.caution).toContain(FORECAST_CAUTION);
     expect(body.data.forecast.items.map((i) => i.text)).toEqual(items.map((i) => i.text));
     expect(body.data.forecast.items.some((i) => i.outcome === 'crossing')).toBe(true);
+  });
+});
+
+describe('the CloudEvents source a webhook is configured with', () => {
+  it('reaches the receiver in the signed event; a webhook that names none keeps the default source, byte for byte', async () => {
+    // Two sites' receivers routing by source: one webhook sets its own, the other leaves the default.
+    const config = parseConfig(`
+channels:
+  webhooks:
+    - { name: north-site, url: '${base}/north', secrets: ['${currentSecret}'], source: 'urn:plant-north:{group}:{unit}/{component}' }
+    - { name: south-site, url: '${base}/south', secrets: ['${currentSecret}'] }
+`);
+    expect(config.channels.webhooks.map((w) => w.source)).toEqual(['urn:plant-north:{group}:{unit}/{component}', DEFAULT_SOURCE_TEMPLATE]);
+    const channels = notificationChannels(config.channels, { logger: silentLogger(), env: {} });
+    const message = incidentMessage({}, { unit: 'Line 2/P3' });
+    const effect = (target: string) =>
+      ({ kind: 'notify', channel: 'webhook', target, incidentId: message.incident.id, tier: 0, type: 'wearshift.incident.opened', at: '2026-03-01T08:05:00Z' }) as NotifyEffect;
+    try {
+      await expect(channels.deliver({ effect: effect('north-site'), message, attempt: 1 })).resolves.toBe('webhook north-site: 204');
+      await expect(channels.deliver({ effect: effect('south-site'), message, attempt: 1 })).resolves.toBe('webhook south-site: 204');
+    } finally {
+      await channels.close();
+    }
+    expect(requests.map((r) => [r.path, r.verdict])).toEqual([
+      ['/north', 'verified'],
+      ['/south', 'verified'],
+    ]);
+    const [north, south] = requests.map((r) => JSON.parse(r.body) as typeof event);
+    // The names are percent-encoded, so that a "/" in a unit stays inside its part of the source.
+    expect(north!.source).toBe('urn:plant-north:pump-gearboxes:Line%202%2FP3/gearbox');
+    expect(north!.id).toBe(message.idempotencyKey);
+    expect(requests[0]!.headers['webhook-id']).toBe(message.idempotencyKey);
+    // Without the option the body is exactly what it was before the option existed.
+    expect(south!.source).toBe('/wearshift/Line%202%2FP3/gearbox');
+    expect(requests[1]!.body).toBe(JSON.stringify(toCloudEvent(message, { time: '2026-03-01T08:05:00Z' })));
   });
 });

@@ -44,8 +44,10 @@ export const mqttChannel: ChannelDefinition = {
     return {
       async deliver({ effect, message }) {
         const target = publisher(effect.target);
+        // publisher() has found the channel, or refused the delivery.
+        const { source } = channels.mqtt.find((m) => m.name === effect.target)!;
         try {
-          const { topic } = await target.publish(toCloudEvent(message, { time: effect.at }), { signal: AbortSignal.timeout(mqttTimeoutMs) });
+          const { topic } = await target.publish(toCloudEvent(message, { time: effect.at, sourceTemplate: source }), { signal: AbortSignal.timeout(mqttTimeoutMs) });
           return `mqtt ${effect.target}: ${topic}`;
         } catch (e) {
           throw new DeliveryRetry(`mqtt ${effect.target}: ${(e as Error).message}`);

@@ -44,7 +44,7 @@ export const webhookChannel: ChannelDefinition = {
         if (c === undefined) throw new DeliveryRefused(`no webhook named "${effect.target}" in channels.webhooks`);
         await refuseIfDisabled(c, { incidentId: effect.incidentId, type: effect.type });
         const endpoint = { url: c.url, secrets: c.secrets.map((s) => secretFrom(s, env, `channels.webhooks ${c.name}`)), timeoutMs: c.timeoutMs };
-        const result = await post(endpoint, toCloudEvent(message, { time: effect.at }), attempt);
+        const result = await post(endpoint, toCloudEvent(message, { time: effect.at, sourceTemplate: c.source }), attempt);
         const what = `webhook ${c.name}: ${result.error ?? result.status ?? 'no response'}`;
         switch (result.outcome) {
           case 'delivered':
