@@ -82,14 +82,17 @@ export class EarlierMonths {
   /**
    * Resolves when no result of the `groups` sampled before `before` (epoch ms) is stored and unjudged, other than those
    * of the components `own` (judged by the caller in month order) and those held here; or when `maxWaitMs` has passed.
+   * `clear`: nothing earlier is left unjudged elsewhere; `gave-up`: the wait ran out; `regroup`: a component waited for
+   * has meanwhile come to the caller's own next batch (`heldByCaller`; a dead worker's job taken again by this process):
+   * the caller may end its batch uncommitted and judge it again together with that component, in month order.
    */
-  async wait(groups: Iterable<string>, before: number, own: (key: string) => boolean): Promise<void> {
-    if (this.maxWaitMs <= 0) return;
+  async wait(groups: Iterable<string>, before: number, own: (key: string) => boolean, heldByCaller?: (key: string) => boolean): Promise<'clear' | 'gave-up' | 'regroup'> {
+    if (this.maxWaitMs <= 0) return 'clear';
     const names = [...new Set(groups)];
-    if (names.length === 0) return;
+    if (names.length === 0) return 'clear';
     const started = this.now();
     let pause = this.firstPauseMs;
-    let waited = false;
+    const waitedFor = new Set<string>();
     for (;;) {
       const blocking = await this.blocking(names, before, own);
       if (blocking.length === 0) break;
@@ -97,16 +100,16 @@ export class EarlierMonths {
         for (const r of blocking) this.giveUp(r);
         this.counts.givenUp += blocking.length;
         this.options.onWait?.(this.now() - started, blocking.length);
-        return;
+        return 'gave-up';
       }
-      waited = true;
+      for (const r of blocking) waitedFor.add(componentKey(r.ref));
       await this.sleep(Math.min(pause, Math.max(1, this.maxWaitMs - (this.now() - started))));
       pause = Math.min(pause * 2, this.maxPauseMs);
     }
-    if (waited) {
-      this.counts.waits += 1;
-      this.options.onWait?.(this.now() - started, 0);
-    }
+    if (waitedFor.size === 0) return 'clear';
+    this.counts.waits += 1;
+    this.options.onWait?.(this.now() - started, 0);
+    return heldByCaller !== undefined && [...waitedFor].some(heldByCaller) ? 'regroup' : 'clear';
   }
 
   private async blocking(groups: readonly string[], before: number, own: (key: string) => boolean): Promise<UnjudgedResult[]> {

@@ -21,6 +21,7 @@ import { ComponentRun } from '../pipeline/componentRun.ts';
 import { summarizeEvaluation } from '../pipeline/evaluationSummary.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
 import type { EarlierMonths } from './earlierMonths.ts';
+import { RegroupBatch } from './regroupBatch.ts';
 import { runEvaluation, takeCascade, takeEvaluation, type EvaluationRunnerDeps } from './evaluationRunner.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, scheduleEvaluation } from './queues.ts';
 
@@ -74,6 +75,11 @@ export interface MonthlyJudgementOptions {
    * yet judged elsewhere (earlierMonths.ts). Default: no wait.
    */
   readonly earlier?: EarlierMonths;
+  /**
+   * Components whose results wait for the caller's next batch: when a result waited for (`earlier`) comes to one of
+   * them, `month` throws RegroupBatch instead of judging the month without it. Default: none (the month is judged).
+   */
+  readonly regroupFor?: (key: string) => boolean;
 }
 
 export class MonthlyJudgement {
@@ -113,7 +119,8 @@ export class MonthlyJudgement {
       const monthStart = Date.UTC(end.getUTCFullYear(), end.getUTCMonth(), 1);
       const mine = new Set(components.map((c) => componentKey(c.ref)));
       const groups = components.map((c) => c.group ?? this.runs.get(componentKey(c.ref))?.group ?? groupOf(this.deps.config, c.ref));
-      await earlier.wait(groups, monthStart, (key) => mine.has(key) || this.runs.has(key) || this.closed.has(key) || this.failed.has(key));
+      const own = (key: string) => mine.has(key) || this.runs.has(key) || this.closed.has(key) || this.failed.has(key);
+      if ((await earlier.wait(groups, monthStart, own, this.options.regroupFor)) === 'regroup') throw new RegroupBatch(new Date(monthStart).toISOString().slice(0, 7));
     }
     this.judged += components.length;
     await this.inTurn(components, (c) => this.isolated(c.ref, () => this.judgeMonth(c, until, share)));

@@ -2,8 +2,10 @@
  * The wait for earlier months (src/queue/earlierMonths.ts) on a private redis-server, with two result batches standing
  * for two worker processes: one has stored January results of a unit and not yet judged them, the other is to judge a
  * February result of another unit of the group. The February judgement waits until January is judged, so that the
- * group's statistics as of February hold January (no cascade is needed to put it right); a wait bounded at zero judges
- * at once and leaves the cascade to do it, as before; a wait that runs out gives up on what it waited for.
+ * group's statistics as of February hold January (no cascade is needed to put it right). When January's jobs come back
+ * to the waiting process itself (a worker that died), its batch ends uncommitted and is judged again with them, January
+ * first. A wait bounded at zero judges at once and leaves the cascade to do it, as before; a wait that runs out gives up
+ * on what it waited for.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
@@ -102,6 +104,26 @@ describe('a month is judged once the earlier months of its group are', () => {
       expect(l.a.earlier.counts).toEqual({ waits: 1, givenUp: 0 });
       expect(await l.a.store.unjudgedBefore('lift-gearboxes', Number.MAX_SAFE_INTEGER, 10)).toEqual([]);
       // No component was judged past a month whose statistics changed afterwards: nothing for the cascade.
+      expect(await l.cascaded()).toBe(0);
+    } finally {
+      await l.close();
+    }
+  }, 120_000);
+
+  it('a batch waiting for results of a worker that died takes them in when their jobs come back to it, and judges them first', async () => {
+    const l = line(600_000);
+    try {
+      // January stored by a worker that died before judging it; nobody judges it until its jobs are taken again.
+      for (const s of january) await l.store(s);
+      await l.store(february);
+      const feb = l.a.batches.judge(february);
+      await new Promise((r) => setTimeout(r, 300));
+      // The dead worker's jobs come back to this process: its waiting batch ends uncommitted and is judged again with
+      // them, January first.
+      const jan = Promise.all(january.map((s) => l.a.batches.judge(s)));
+      await Promise.all([feb, jan]);
+      expect(l.a.batches.counts.regroups).toBe(1);
+      expect(await l.a.store.unjudgedBefore('lift-gearboxes', Number.MAX_SAFE_INTEGER, 10)).toEqual([]);
       expect(await l.cascaded()).toBe(0);
     } finally {
       await l.close();
