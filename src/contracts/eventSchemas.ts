@@ -185,11 +185,13 @@ export const LiveIncidentEventSchema = z
     severity: z
       .enum([...SEVERITIES, 'none'])
       .describe(
-        'The highest severity of the current evidence. `none` on the closing of an incident whose evidence was set aside (closed.how withdrawn or sample-verdict): nothing of it stands and it asks nothing, as the e-mail\u2019s X-Wearshift-Severity says.',
+        'The highest severity of the current evidence. `none` on every event about an incident closed because its evidence was set aside (closed.how withdrawn or sample-verdict), whoever sends it: its closing and every change after it (the closing message\u2019s notified entry, a message withdrawn, a later word on its sample). Nothing of it stands and it asks nothing, as the e-mail\u2019s X-Wearshift-Severity says.',
       ),
     lastAnnouncedSeverity: z.enum(SEVERITIES).optional().describe('With severity `none`: the severity the incident had as last announced, which no longer stands.'),
     state: z.string().describe('The state after the change, in words, e.g. "active, unacknowledged".'),
-    change: z.string().describe('What happened: the timeline entry\u2019s kind ("opened", "acknowledged", "finding", ...).'),
+    change: z
+      .string()
+      .describe('What happened: the timeline entry\u2019s kind ("opened", "acknowledged", "finding", "notified", "sample-verdict", ...), or "message withdrawn" when a queued message was not sent after all.'),
     at: isoTime,
     closed: z
       .object({
@@ -204,7 +206,7 @@ export const LiveIncidentEventSchema = z
       })
       .strict()
       .optional()
-      .describe('On the event of a closing (change "closed"): how the incident was closed, as data.incident.closed of the webhook and MQTT messages (without the note).'),
+      .describe('On every event about a closed incident (its closing, change "closed", and any change after it): how the incident was closed, as data.incident.closed of the webhook and MQTT messages (without the note).'),
     advisory: z.string().describe('The tool advises; the lab, the equipment maker, local codes and licensed practice decide.'),
   })
   .strict();

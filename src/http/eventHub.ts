@@ -4,8 +4,7 @@
  * reconnects reloads the incident list, so nothing depends on an event arriving. Across processes (`wearshift
  * worker` and `wearshift api` apart), a bridge forwards Redis pub/sub messages into the API process's hub.
  */
-import { describeState } from '../incidents/model.ts';
-import type { LiveEvent } from '../pipeline/liveEvent.ts';
+import { incidentLiveEvent, type LiveEvent } from '../pipeline/liveEvent.ts';
 import type { IncidentRoutesStore } from './incidentRoutes.ts';
 
 export type { LiveEvent };
@@ -56,7 +55,8 @@ export function createEventHub(options: EventHubOptions = {}): EventHub {
 /**
  * The incident store with every operator action (acknowledge, shelve, resolve, ...) announced, so that every open
  * board sees what one responder did. `publish` is the hub's (one process) or the Redis live channel's (several API
- * processes, each bridging the channel into its own hub). For `incidentRoutes`:
+ * processes, each bridging the channel into its own hub). The event is made as every incident event is
+ * (src/pipeline/liveEvent.ts): a closed incident's says how it was closed. For `incidentRoutes`:
  * `{ store: announcingActions(store, (e) => hub.publish(e)) }`.
  */
 export function announcingActions(store: IncidentRoutesStore, publish: (event: LiveEvent) => void): IncidentRoutesStore {
@@ -68,16 +68,7 @@ export function announcingActions(store: IncidentRoutesStore, publish: (event: L
       const result = await store.applyAction(action);
       const { incident } = result;
       const last = incident.timeline[incident.timeline.length - 1];
-      publish({
-        type: 'incident',
-        incidentId: incident.id,
-        unit: incident.unit,
-        component: incident.component,
-        severity: incident.severity,
-        state: describeState(incident),
-        change: last?.kind ?? action.kind,
-        at: last?.at ?? action.now.toISOString(),
-      });
+      publish(incidentLiveEvent(incident, last?.kind ?? action.kind, last?.at ?? action.now.toISOString()));
       return result;
     },
   };

@@ -1,6 +1,6 @@
 /** What an incident operation changed, read off the timelines: every entry the operation appended. */
 import type { Measurand } from '../domain/measurands.ts';
-import { describeState, type ComponentIncidents, type Incident, type NotifiedEntry, type TimelineEntry } from '../incidents/model.ts';
+import { describeState, type Closure, type ComponentIncidents, type Incident, type NotifiedEntry, type TimelineEntry } from '../incidents/model.ts';
 
 /** One new entry of an incident's timeline (or of its notifications), with the incident it belongs to. */
 export interface IncidentChange {
@@ -10,7 +10,14 @@ export interface IncidentChange {
   readonly measurand?: Measurand;
   /** The incident's state after the change, in words ("active, unacknowledged", "closed"). */
   readonly state: string;
+  /** The incident's severity after the change (for one whose evidence was set aside, the one last told). */
   readonly severity: string;
+  /**
+   * How the incident was closed, when it is closed after the change (`state` "closed"): every change of an incident
+   * closed because its evidence was set aside, the closing's own and those after it (the closing message's
+   * `notified`, say), is shown with no severity standing (liveEvent.ts).
+   */
+  readonly closed?: Closure;
   readonly entry: TimelineEntry | NotifiedEntry;
 }
 
@@ -29,6 +36,7 @@ export function incidentChanges(before: ComponentIncidents, after: ComponentInci
         ...(incident.measurand !== undefined && { measurand: incident.measurand }),
         state,
         severity: incident.severity,
+        ...(incident.closed !== null && { closed: incident.closed }),
         entry,
       });
     }

@@ -10,9 +10,9 @@
  */
 import type { Queue } from 'bullmq';
 import type { SampleMark } from '../analysis/model.ts';
-import { describeState, type Incident } from '../incidents/model.ts';
+import type { Incident } from '../incidents/model.ts';
 import type { SampleVerdictWord } from '../incidents/sampleVerdict.ts';
-import type { LiveEvent } from '../pipeline/liveEvent.ts';
+import { incidentLiveEvent, type LiveEvent } from '../pipeline/liveEvent.ts';
 import type { ComponentRef, ComponentStore } from '../pipeline/ports.ts';
 import type { Partitions } from '../redis/keys.ts';
 import { scheduleEvaluation } from './queues.ts';
@@ -20,7 +20,10 @@ import { scheduleEvaluation } from './queues.ts';
 export interface SampleVerdictTimeline {
   /** The incidents whose timeline takes the word (RedisIncidents). */
   readonly incidents: { recordSampleVerdict(ref: ComponentRef, word: SampleVerdictWord): Promise<readonly Incident[]> };
-  /** Told of each incident whose timeline changed, for live views. */
+  /**
+   * Told of each incident whose timeline changed, for live views: one closed because its evidence was set aside (a
+   * late result withdrew it, or an earlier word answered it) with no severity standing.
+   */
   readonly live?: (event: LiveEvent) => void;
   /** When the word is given. Default: the system clock. */
   readonly now?: () => Date;
@@ -54,7 +57,7 @@ export class SampleVerdicts {
     try {
       const word: SampleVerdictWord = { sampleId, verdict: mark ?? 'withdrawn', by, now: (this.timeline.now ?? (() => new Date()))() };
       for (const incident of await this.timeline.incidents.recordSampleVerdict(ref, word)) {
-        this.timeline.live?.({ type: 'incident', incidentId: incident.id, unit: incident.unit, component: incident.component, severity: incident.severity, state: describeState(incident), change: 'sample-verdict', at: word.now.toISOString() });
+        this.timeline.live?.(incidentLiveEvent(incident, 'sample-verdict', word.now.toISOString()));
       }
     } finally {
       await scheduleEvaluation(this.evaluateQueues[this.partitions.of(ref)]!, ref);

@@ -13,10 +13,10 @@ import { DeliveryRefused, DeliveryRetry } from '../../channels/errors.ts';
 import type { NotificationChannels } from '../../channels/openChannels.ts';
 import type { Config } from '../../domain/config.ts';
 import type { ChannelKind } from '../../domain/escalationConfig.ts';
-import { describeState, type NotifyEffect } from '../../incidents/model.ts';
+import type { NotifyEffect } from '../../incidents/model.ts';
 import type { MessageWithdrawal } from '../../incidents/withdrawal.ts';
 import { floodKey, floodWindow, heldMessage, type FloodControlSettings, type FloodTarget } from '../../notify/floodControl.ts';
-import type { LiveEvent } from '../../pipeline/liveEvent.ts';
+import { incidentLiveEvent, type LiveEvent } from '../../pipeline/liveEvent.ts';
 import type { ComponentStore, GroupLedger } from '../../pipeline/ports.ts';
 import type { DeliveryLedger } from '../../redis/deliveryLedger.ts';
 import type { FloodLedger } from '../../redis/floodLedger.ts';
@@ -51,7 +51,10 @@ export interface NotifyDeps {
    * every message is sent as it was queued.
    */
   readonly incidents?: { withdrawMessage(effect: NotifyEffect, now: Date, attemptedAt?: Date): Promise<MessageWithdrawal | undefined> };
-  /** Told when a message is withdrawn (the incident's record changed), for live views. */
+  /**
+   * Told when a message is withdrawn (the incident's record changed), for live views: of an incident closed because
+   * its evidence was set aside, with no severity standing.
+   */
   readonly live?: (event: LiveEvent) => void;
   /** The clock a delivery is recorded with, and shelving is judged by. Default `Date.now`. */
   readonly now?: () => number;
@@ -157,8 +160,7 @@ function notifyJob(deps: NotifyDeps): (job: Job<NotifyEffect | FloodSummaryJob>)
       await deps.deliveries?.recordWithdrawn(effect.key, reason);
       if (!withdrawal.before) {
         deps.logger.info({ channel: effect.channel, incidentId: effect.incidentId, type: effect.type, tier: effect.tier, reason }, 'queued message not sent: the incident has changed since');
-        const incident = withdrawal.incident;
-        deps.live?.({ type: 'incident', incidentId: incident.id, unit: incident.unit, component: incident.component, severity: incident.severity, state: describeState(incident), change: 'message withdrawn', at: withdrawal.withdrawn.at });
+        deps.live?.(incidentLiveEvent(withdrawal.incident, 'message withdrawn', withdrawal.withdrawn.at));
       }
       return `${effect.channel} ${effect.target}: not sent, ${reason}`;
     }
