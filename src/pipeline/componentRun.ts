@@ -90,11 +90,6 @@ export class ComponentRun {
     }
   }
 
-  /** The component's group, as its settings name it. */
-  get group(): string {
-    return this.settings.group;
-  }
-
   /** The position of the last sample folded (the checkpoint's when none). */
   get position(): StepPosition | null {
     return this.last !== undefined ? positionOf(this.last) : this.start.position;

@@ -214,17 +214,4 @@ export interface GroupLedger {
   touch(group: string, self: ComponentRef, horizon: number): Promise<void>;
   /** Components of the group evaluated up to `from` (epoch ms) or later. */
   membersAfter(group: string, from: number): Promise<ComponentRef[]>;
-  /**
-   * Results of the group stored and not yet judged (their group shares not yet written), sampled before `before`
-   * (epoch ms), earliest first, at most `limit`: what the group's statistics as of a later month still lack.
-   */
-  unjudgedBefore(group: string, before: number, limit: number): Promise<UnjudgedResult[]>;
-}
-
-/** A result stored and not yet judged (GroupLedger.unjudgedBefore). */
-export interface UnjudgedResult {
-  readonly ref: ComponentRef;
-  readonly sampleId: string;
-  /** Sampling time, epoch ms. */
-  readonly time: number;
 }

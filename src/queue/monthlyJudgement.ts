@@ -15,13 +15,10 @@
  * due: they are judged again from their last commit.
  */
 import { componentKey } from '../domain/event.ts';
-import { groupOf } from '../domain/settings.ts';
 import type { StepPosition } from '../incidents/model.ts';
 import { ComponentRun } from '../pipeline/componentRun.ts';
 import { summarizeEvaluation } from '../pipeline/evaluationSummary.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
-import type { EarlierMonths } from './earlierMonths.ts';
-import { RegroupBatch } from './regroupBatch.ts';
 import { runEvaluation, takeCascade, takeEvaluation, type EvaluationRunnerDeps } from './evaluationRunner.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, scheduleEvaluation } from './queues.ts';
 
@@ -42,8 +39,6 @@ export interface ComponentMonth {
   readonly changes: number;
   /** Only new results after everything the component's run has folded. */
   readonly inOrder: boolean;
-  /** The component's group, when the caller knows it (else its run's, or the configuration's). */
-  readonly group?: string;
 }
 
 export interface MonthlyJudgementOptions {
@@ -70,16 +65,6 @@ export interface MonthlyJudgementOptions {
    * Default: everything.
    */
   readonly foldUntil?: (ref: ComponentRef) => number | undefined;
-  /**
-   * Before judging a month, wait while results of earlier months of the groups' other components are stored and not
-   * yet judged elsewhere (earlierMonths.ts). Default: no wait.
-   */
-  readonly earlier?: EarlierMonths;
-  /**
-   * Components whose results wait for the caller's next batch: when a result waited for (`earlier`) comes to one of
-   * them, `month` throws RegroupBatch instead of judging the month without it. Default: none (the month is judged).
-   */
-  readonly regroupFor?: (key: string) => boolean;
 }
 
 export class MonthlyJudgement {
@@ -113,15 +98,6 @@ export class MonthlyJudgement {
    * month's group shares are left to the commit (the last month before `commitAll`). Default true.
    */
   async month(components: readonly ComponentMonth[], until: number, share = true): Promise<void> {
-    const { earlier } = this.options;
-    if (earlier !== undefined && components.length > 0) {
-      const end = new Date(until - 1);
-      const monthStart = Date.UTC(end.getUTCFullYear(), end.getUTCMonth(), 1);
-      const mine = new Set(components.map((c) => componentKey(c.ref)));
-      const groups = components.map((c) => c.group ?? this.runs.get(componentKey(c.ref))?.group ?? groupOf(this.deps.config, c.ref));
-      const own = (key: string) => mine.has(key) || this.runs.has(key) || this.closed.has(key) || this.failed.has(key);
-      if ((await earlier.wait(groups, monthStart, own, this.options.regroupFor)) === 'regroup') throw new RegroupBatch(new Date(monthStart).toISOString().slice(0, 7));
-    }
     this.judged += components.length;
     await this.inTurn(components, (c) => this.isolated(c.ref, () => this.judgeMonth(c, until, share)));
   }

@@ -12,22 +12,16 @@
  * A component whose judgement fails fails the jobs waiting for it (they are retried); the batch's others go on.
  */
 import { componentKey, type Sample } from '../domain/event.ts';
-import { groupOf } from '../domain/settings.ts';
 import { monthOf, startOfNextMonth } from '../pipeline/groupShares.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
-import type { EarlierMonths } from './earlierMonths.ts';
 import type { EvaluationRunnerDeps } from './evaluationRunner.ts';
 import { MonthlyJudgement } from './monthlyJudgement.ts';
-import { RegroupBatch } from './regroupBatch.ts';
 import { DEFAULT_EVALUATE_RETRY_MS } from './queues.ts';
 
 interface Waiting {
   readonly ref: ComponentRef;
-  readonly group: string;
   /** Sampling months (`YYYY-MM`) of the results waiting. */
   readonly months: Set<string>;
-  /** Batches that ended uncommitted to take in earlier results that came meanwhile (RegroupBatch). */
-  regroups: number;
   readonly waiters: { resolve(): void; reject(e: unknown): void }[];
 }
 
@@ -36,25 +30,14 @@ export interface ResultBatchesOptions {
   readonly retryMs?: number;
   /** Components of one month judged at a time. Default JUDGEMENTS_AT_ONCE (monthlyJudgement.ts). */
   readonly atOnce?: number;
-  /**
-   * The process's wait for earlier months other processes hold (earlierMonths.ts), shared by its batches and its
-   * history jobs. Default: no wait (one process alone judges month by month already).
-   */
-  readonly earlier?: EarlierMonths;
 }
-
-/** Times a batch may end uncommitted to take in earlier results that came meanwhile; then it is judged without them. */
-export const MAX_REGROUPS = 2;
 
 export class ResultBatches {
   private waiting = new Map<string, Waiting>();
   private underWay = false;
   private readonly retryMs: number;
-  /**
-   * Batches judged, components judged in them, and batches ended uncommitted to be judged again with earlier results
-   * (for the benchmark's and the tests' view of the coalescing).
-   */
-  readonly counts = { batches: 0, components: 0, regroups: 0 };
+  /** Batches judged, and components judged in them (for the benchmark's and the tests' view of the coalescing). */
+  readonly counts = { batches: 0, components: 0 };
 
   constructor(
     private readonly deps: EvaluationRunnerDeps,
@@ -68,9 +51,8 @@ export class ResultBatches {
     const key = componentKey(sample);
     let entry = this.waiting.get(key);
     if (entry === undefined) {
-      entry = { ref: { unit: sample.unit, component: sample.component }, group: groupOf(this.deps.config, sample), months: new Set(), waiters: [], regroups: 0 };
+      entry = { ref: { unit: sample.unit, component: sample.component }, months: new Set(), waiters: [] };
       this.waiting.set(key, entry);
-      this.options.earlier?.hold(entry.ref);
     }
     entry.months.add(monthOf(sample.time));
     const waiters = entry.waiters;
@@ -85,15 +67,10 @@ export class ResultBatches {
       while (this.waiting.size > 0) {
         const batch = [...this.waiting.values()];
         this.waiting = new Map();
-        for (const w of batch) this.options.earlier?.release(w.ref);
         this.counts.batches += 1;
         this.counts.components += batch.length;
         this.deps.metrics?.batched(batch.length, batch.reduce((n, w) => n + w.waiters.length, 0));
         const failures = await this.judgeBatch(batch).catch((e: unknown) => new Map(batch.map((w) => [componentKey(w.ref), e])));
-        if (failures === 'regroup') {
-          this.regroup(batch);
-          continue;
-        }
         for (const w of batch) {
           const key = componentKey(w.ref);
           for (const waiter of w.waiters) {
@@ -107,44 +84,12 @@ export class ResultBatches {
     }
   }
 
-  /**
-   * Puts a batch that ended uncommitted back with the results that came meanwhile, to be judged together in the next
-   * batch (its waiters first: they are older).
-   */
-  private regroup(batch: readonly Waiting[]): void {
-    this.counts.regroups += 1;
-    const later = this.waiting;
-    this.waiting = new Map();
-    for (const w of batch) {
-      w.regroups += 1;
-      this.waiting.set(componentKey(w.ref), w);
-      this.options.earlier?.hold(w.ref);
-    }
-    for (const [key, w] of later) {
-      const entry = this.waiting.get(key);
-      if (entry === undefined) {
-        this.waiting.set(key, w);
-        continue;
-      }
-      // Held once already for the entry that stays.
-      this.options.earlier?.release(w.ref);
-      for (const m of w.months) entry.months.add(m);
-      entry.waiters.push(...w.waiters);
-    }
-  }
-
-  /**
-   * Judges a batch; the components whose judgement failed, with the error. `regroup`: it ended uncommitted to be judged
-   * again with earlier results that came to this process meanwhile (a batch does so at most MAX_REGROUPS times).
-   */
-  private async judgeBatch(batch: readonly Waiting[]): Promise<Map<string, unknown> | 'regroup'> {
+  /** Judges a batch; the components whose judgement failed, with the error. */
+  private async judgeBatch(batch: readonly Waiting[]): Promise<Map<string, unknown>> {
     const failures = new Map<string, unknown>();
-    const mayRegroup = batch.every((w) => w.regroups < MAX_REGROUPS);
     const judgement = new MonthlyJudgement(this.deps, {
       retryMs: this.retryMs,
       ...(this.options.atOnce !== undefined && { atOnce: this.options.atOnce }),
-      ...(this.options.earlier !== undefined && { earlier: this.options.earlier }),
-      ...(mayRegroup && { regroupFor: (key: string) => this.waiting.has(key) }),
       onFailure: (ref, e) => failures.set(componentKey(ref), e),
       // A commit left unsettled needs no evaluation here: what it read and did not fold waits for the next batch
       // (foldUntil), and every change after its read has a judgement of its own coming (a results job's batch, in this
@@ -163,13 +108,10 @@ export class ResultBatches {
       const months = [...new Set(batch.flatMap((w) => [...w.months]))].sort();
       for (const [i, month] of months.entries()) {
         // Every result of the batch was stored before its component's run opened and read its stored samples.
-        const components = batch.filter((w) => w.months.has(month)).map((w) => ({ ref: w.ref, changes: 0, inOrder: true, group: w.group }));
+        const components = batch.filter((w) => w.months.has(month)).map((w) => ({ ref: w.ref, changes: 0, inOrder: true }));
         await judgement.month(components, startOfNextMonth(month), i < months.length - 1);
       }
       await judgement.commitAll();
-    } catch (e) {
-      if (e instanceof RegroupBatch) return 'regroup';
-      throw e;
     } finally {
       await judgement.abandonAll();
     }

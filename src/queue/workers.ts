@@ -34,8 +34,6 @@ import { EvaluationThreadPool } from './evaluationThreadPool.ts';
 import { historyProcessor } from './processors/historyProcessor.ts';
 import type { RedisTarget } from '../redis/target.ts';
 import { resultsProcessor } from './processors/resultsProcessor.ts';
-import { ResultBatches } from './resultBatches.ts';
-import { DEFAULT_EARLIER_MONTHS_WAIT_MS, EarlierMonths } from './earlierMonths.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from './queues.ts';
 
 export interface WorkerSettings extends QueueSettings {
@@ -90,12 +88,6 @@ export interface WorkerSettings extends QueueSettings {
   jobLockMs?: number;
   /** How often a worker looks for jobs whose lock has lapsed, to hand them to the next worker. Default 30 000 ms (BullMQ's). */
   stalledCheckMs?: number;
-  /**
-   * Longest wait of a batch or a history job before judging a month while results of earlier months of its groups,
-   * stored by another process (or by a worker that died), are not yet judged (earlierMonths.ts). 0: no wait (an
-   * incident opened meanwhile on statistics still lacking them is withdrawn once they are judged). Default 60 000 ms.
-   */
-  earlierMonthsWaitMs?: number;
 }
 
 export const WORKER_DEFAULTS = {
@@ -111,7 +103,6 @@ export const WORKER_DEFAULTS = {
   historyThreads: 0,
   jobLockMs: 30_000,
   stalledCheckMs: 30_000,
-  earlierMonthsWaitMs: DEFAULT_EARLIER_MONTHS_WAIT_MS,
 } as const;
 
 export interface WorkerDeps {
@@ -201,22 +192,14 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   const threads = pool;
   const historyRunner: EvaluationRunnerDeps = threads === undefined ? runner : { ...runner, evaluator: (ref) => threads.evaluate(ref, now()) };
 
-  // One for the process: what its batches hold for their next turn is not waited for by its others.
-  const earlier = new EarlierMonths(runner.ledger, {
-    maxWaitMs: s.earlierMonthsWaitMs,
-    onWait: (waitedMs, givenUp) => {
-      if (givenUp > 0) deps.logger.warn({ waitedMs, givenUp }, 'judging a month without earlier results of its group that are stored and not yet judged elsewhere; what they change is judged again when they are');
-    },
-  });
   const workers: Worker[] = [];
   for (const p of partitions.all()) {
     const prefix = partitions.tag(p);
-    const batches = new ResultBatches(runner, { retryMs: s.busyRetryMs, earlier });
-    workers.push(new Worker(QUEUE_NAMES.results, resultsProcessor(runner, s.busyRetryMs, batches), options(prefix, s.resultsConcurrency, queueSettings.attempts)));
+    workers.push(new Worker(QUEUE_NAMES.results, resultsProcessor(runner, s.busyRetryMs), options(prefix, s.resultsConcurrency, queueSettings.attempts)));
     workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs), options(prefix, s.evaluateConcurrency, queueSettings.attempts)));
   }
   // One history job at a time, for every partition (the producer sets the queue's global concurrency to 1 as well).
-  workers.push(new Worker(QUEUE_NAMES.history, historyProcessor(historyRunner, s.busyRetryMs, undefined, earlier), options(partitions.sharedTag(), 1, queueSettings.attempts)));
+  workers.push(new Worker(QUEUE_NAMES.history, historyProcessor(historyRunner, s.busyRetryMs), options(partitions.sharedTag(), 1, queueSettings.attempts)));
   workers.push(new Worker(QUEUE_NAMES.escalate, escalateProcessor(incidents, now, () => relay.kick()) as Processor, options(partitions.sharedTag(), s.notifyConcurrency, queueSettings.attempts)));
   const channels = deps.channels;
   if (channels !== undefined) {

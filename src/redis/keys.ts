@@ -140,11 +140,6 @@ export function groupKeys(tag: string, group: string) {
     bucket: (month: string) => `${g}:m:${month}`,
     /** sorted set of the partition's components of the group by the sampling time they were evaluated up to. */
     horizons: `${g}:h`,
-    /**
-     * sorted set of the partition's results of the group stored and not yet judged (`component key \u001f sampleId`,
-     * by sampling time): added by the store script, taken out when a commit writes the result's group share.
-     */
-    unjudged: `${g}:u`,
   };
 }
 

@@ -32,7 +32,6 @@ import type {
   StoredSample,
   StoreOutcome,
   StoreStatus,
-  UnjudgedResult,
 } from '../pipeline/ports.ts';
 import { decodeCompactSample, decodeSample, encodeSample, encodeSampleCore, isCompactSample } from '../pipeline/sampleCodec.ts';
 import type { RedisConnection } from './connection.ts';
@@ -143,7 +142,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
       return (...args) => command.apply(redis, args);
     };
     this.scripts = {
-      store: define('store', 6, STORE_SAMPLE),
+      store: define('store', 5, STORE_SAMPLE),
       acquireWithInput: define('acquireWithInput', 4, ACQUIRE_WITH_INPUT),
       samplesAfter: define('samplesAfter', 3, SAMPLES_AFTER),
       renew: define('renewLock', 1, RENEW_LOCK),
@@ -203,7 +202,6 @@ export class RedisStore implements ComponentStore, GroupLedger {
       c.order,
       c.evaluation,
       p.registry,
-      groupKeys(this.tagOf(sample), group).unjudged,
       sample.sampleId,
       String(sample.revision),
       encodeSampleCore(sample),
@@ -546,23 +544,6 @@ export class RedisStore implements ComponentStore, GroupLedger {
   async touch(group: string, self: ComponentRef, horizon: number): Promise<void> {
     const g = groupKeys(this.tagOf(self), group);
     await this.redis.zadd(g.horizons, 'GT', horizon, JSON.stringify({ unit: self.unit, component: self.component }));
-  }
-
-  async unjudgedBefore(group: string, before: number, limit: number): Promise<UnjudgedResult[]> {
-    const lists = await Promise.all(
-      this.partitions.all().map((n) => this.redis.zrangebyscore(groupKeys(this.partitions.tag(n), group).unjudged, '-inf', `(${before}`, 'WITHSCORES', 'LIMIT', 0, limit)),
-    );
-    const out: UnjudgedResult[] = [];
-    for (const list of lists) {
-      for (let i = 0; i + 1 < list.length; i += 2) {
-        // `unit/component \u001f sampleId`: neither name may hold a slash (domain/event.ts).
-        const member = list[i]!;
-        const cut = member.indexOf('\u001f');
-        const [unit, component] = member.slice(0, cut).split('/') as [string, string];
-        out.push({ ref: { unit, component }, sampleId: member.slice(cut + 1), time: Number(list[i + 1]) });
-      }
-    }
-    return out.sort((a, b) => a.time - b.time).slice(0, limit);
   }
 
   async membersAfter(group: string, from: number): Promise<ComponentRef[]> {

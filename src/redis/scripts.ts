@@ -32,7 +32,7 @@ end
 `;
 
 /**
- * KEYS: revisions, winners, order, evaluation, registry, the group's unjudged results (keys.ts, groupKeys).
+ * KEYS: revisions, winners, order, evaluation, registry.
  * ARGV: sampleId, revision, sample core (encodeSampleCore), receivedAt (base 36), time, unitHours or '', component
  * key, registry JSON, group or '', lab or '', the sample in the earlier stored form (encodeSample).
  * The revisions hash keeps the component's common group and lab under the field `*` (set by the first sample stored
@@ -86,7 +86,6 @@ if status ~= 'superseded' then
   redis.call('HSET', KEYS[2], ARGV[1], ARGV[2] .. '|' .. ARGV[5] .. '|' .. ARGV[6] .. '|' .. share)
   redis.call('ZADD', KEYS[3], ARGV[5], ARGV[1])
   redis.call('HSET', KEYS[5], ARGV[7], ARGV[8])
-  redis.call('ZADD', KEYS[6], ARGV[5], ARGV[7] .. '\\31' .. ARGV[1])
 end
 redis.call('HINCRBY', KEYS[4], 'mark', 1)
 return { status, due() and 1 or 0 }
@@ -405,9 +404,6 @@ if oldPrefix and oldPrefix ~= p.groupPrefix then
 end
 redis.call('HSET', ev, 'gp', p.groupPrefix)
 for _, s in ipairs(p.shares) do
-  -- Judged: no longer what the group's statistics of later months wait for (in the group it was stored under too).
-  redis.call('ZREM', p.groupPrefix .. ':u', p.componentKey .. '\\31' .. s[1])
-  if oldPrefix and oldPrefix ~= p.groupPrefix then redis.call('ZREM', oldPrefix .. ':u', p.componentKey .. '\\31' .. s[1]) end
   local winner = redis.call('HGET', KEYS[3], s[1])
   if winner then
     local head, old = string.match(winner, '^([^|]*|[^|]*|[^|]*)|(.*)$')

@@ -18,7 +18,6 @@ export interface ServiceCommandOptions {
   opcuaPort?: string;
   historyThreads?: string;
   resultsAtOnce?: string;
-  earlierMonthsWait?: string;
 }
 
 export type ServiceKind = 'serve' | 'worker' | 'api';
@@ -62,10 +61,6 @@ export async function runService(kind: ServiceKind, opts: ServiceCommandOptions,
   if (resultsAtOnce !== undefined && !(Number.isInteger(resultsAtOnce) && resultsAtOnce >= 1 && resultsAtOnce <= MAX_RESULTS_AT_ONCE)) {
     throw new InputError(`--results-at-once: expected a whole number from 1 to ${MAX_RESULTS_AT_ONCE}, got "${opts.resultsAtOnce}"`);
   }
-  const earlierMonthsWaitMs = opts.earlierMonthsWait === undefined ? undefined : Number(opts.earlierMonthsWait) * 1000;
-  if (earlierMonthsWaitMs !== undefined && !(Number.isFinite(earlierMonthsWaitMs) && earlierMonthsWaitMs >= 0 && earlierMonthsWaitMs <= 3_600_000)) {
-    throw new InputError(`--earlier-months-wait: expected a number of seconds from 0 to 3600, got "${opts.earlierMonthsWait}"`);
-  }
   const metricsPort = opts.metricsPort === undefined ? undefined : portNumber(opts.metricsPort, '--metrics-port');
   const opcuaPort = opts.opcuaPort === undefined ? undefined : portNumber(opts.opcuaPort, '--opcua-port');
   // Each port with how it was chosen, for a message that names it if the port is refused.
@@ -88,9 +83,7 @@ export async function runService(kind: ServiceKind, opts: ServiceCommandOptions,
       env,
       ...(metricsPort !== undefined && { metricsPort }),
       ...(opcuaPort !== undefined && { opcuaPort }),
-      workerSettings: { ...(historyThreads !== undefined && { historyThreads }), ...(resultsAtOnce !== undefined && { resultsConcurrency: resultsAtOnce }),
-        ...(earlierMonthsWaitMs !== undefined && { earlierMonthsWaitMs }),
-      },
+      workerSettings: { ...(historyThreads !== undefined && { historyThreads }), ...(resultsAtOnce !== undefined && { resultsConcurrency: resultsAtOnce }) },
     });
   } catch (e) {
     // What did start is closed by then; a port in use is the user's to fix, not a stack trace.

@@ -115,13 +115,13 @@ describe('live results judged in batches', () => {
     const one = await oneAtATime();
     const backlog = line();
     try {
-      expect(one.batches.counts).toEqual({ batches: samples.length, components: samples.length, regroups: 0 });
+      expect(one.batches.counts).toEqual({ batches: samples.length, components: samples.length });
 
       // Every result stored, then handed over at once: the first is judged alone as it arrives, the other 79 wait for
       // it and are judged together, each of the 4 components by one run over the fleet's months.
       for (const s of samples) await backlog.store(s);
       await Promise.all(samples.map((s) => backlog.batches.judge(s)));
-      expect(backlog.batches.counts).toEqual({ batches: 2, components: 1 + 4, regroups: 0 });
+      expect(backlog.batches.counts).toEqual({ batches: 2, components: 1 + 4 });
       // The same on /metrics: 2 batches, of 1 and 79 results, 1 and 4 components.
       const text = await backlog.metricsText();
       expect(text).toMatch(/^wearshift_result_batch_results_count 2$/m);

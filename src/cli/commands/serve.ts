@@ -11,7 +11,6 @@ export function registerServe(program: Command): void {
     .option('--opcua-port <n>', 'also serve OPC UA Alarms & Conditions on this opc.tcp port (default: opcua.port of the configuration, else off)')
     .option('--history-threads <n>', 'threads for the evaluations a history import (`import --history`) hands off (a component whose month brings a revision of a result already judged, or an earlier result), each with its own Redis connection, started at the first and ended a minute after the last; 0: the main thread does; by default the number of cores, at most 4 (0 on one core)', String(defaultHistoryThreads()))
     .option('--results-at-once <n>', 'results jobs this process takes at once per partition; each is stored at once and their evaluations judged together in batches, one commit per component and batch: more make bigger batches under a backlog, fewer spread a burst over more worker processes', String(WORKER_DEFAULTS.resultsConcurrency))
-    .option('--earlier-months-wait <seconds>', 'longest wait before judging a sampling month while results of earlier months of the same group, stored by another worker process (or by one that died), are not yet judged; the verdicts then do not depend on which process judged what; 0: no wait (an incident opened meanwhile is withdrawn once those are judged)', String(WORKER_DEFAULTS.earlierMonthsWaitMs / 1000))
     .option('--shutdown-timeout <seconds>', 'longest wait for active jobs and connections at shutdown', '10')
     .action((opts: ServiceCommandOptions) => runService('serve', opts));
 }

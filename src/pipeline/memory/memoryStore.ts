@@ -39,7 +39,6 @@ import type {
   StepRecord,
   StoredSample,
   StoreOutcome,
-  UnjudgedResult,
 } from '../ports.ts';
 
 interface ComponentState {
@@ -73,8 +72,6 @@ interface MutableBucket {
 interface GroupState {
   months: Map<string, MutableBucket>;
   horizons: Map<string, { ref: ComponentRef; time: number }>;
-  /** Results stored and not yet judged, by `component key \u001f sampleId`. */
-  unjudged: Map<string, UnjudgedResult>;
 }
 
 export interface MemoryStoreOptions {
@@ -139,7 +136,6 @@ export class MemoryStore implements ComponentStore, GroupLedger {
       c.winners.set(sample.sampleId, { revision: sample.revision, position });
       c.group = group;
       dirty(c, winner !== undefined && comparePosition(winner.position, position) < 0 ? winner.position : position);
-      this.group(group).unjudged.set(`${key}\u001f${sample.sampleId}`, { ref: { unit: sample.unit, component: sample.component }, sampleId: sample.sampleId, time: sample.time });
     }
     c.mark += 1;
     return { status, evaluationDue: c.mark > c.evaluated };
@@ -300,9 +296,7 @@ export class MemoryStore implements ComponentStore, GroupLedger {
     };
     if (c.group !== commit.group) this.moveGroup(c, commit.group);
     const keepValues = this.keepValues(c);
-    const unjudged = this.group(commit.group).unjudged;
     for (const share of commit.shares) {
-      unjudged.delete(`${componentKey(c)}\u001f${share.sampleId}`);
       const old = c.shares.get(share.sampleId);
       if (old !== undefined && old.month === share.month && JSON.stringify(old.values) === JSON.stringify(share.values)) continue;
       if (old?.values) {
@@ -403,11 +397,6 @@ export class MemoryStore implements ComponentStore, GroupLedger {
     return [...(this.groups.get(group)?.horizons.values() ?? [])].filter((h) => h.time >= from).map((h) => h.ref);
   }
 
-  async unjudgedBefore(group: string, before: number, limit: number): Promise<UnjudgedResult[]> {
-    const all = [...(this.groups.get(group)?.unjudged.values() ?? [])].filter((u) => u.time < before);
-    return all.sort((a, b) => a.time - b.time).slice(0, limit);
-  }
-
   /** Every incident ever recorded (closed and withdrawn ones too), by id. */
   incidents(): Incident[] {
     return [...this.records.values()].sort((a, b) => (a.id < b.id ? -1 : a.id > b.id ? 1 : 0));
@@ -420,7 +409,7 @@ export class MemoryStore implements ComponentStore, GroupLedger {
 
   private group(name: string): GroupState {
     let g = this.groups.get(name);
-    if (g === undefined) this.groups.set(name, (g = { months: new Map(), horizons: new Map(), unjudged: new Map() }));
+    if (g === undefined) this.groups.set(name, (g = { months: new Map(), horizons: new Map() }));
     return g;
   }
 

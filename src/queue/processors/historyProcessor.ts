@@ -24,7 +24,6 @@ import { claimedSampleId, describeIssues, validateResult } from '../../intake/va
 import { monthOf, startOfNextMonth } from '../../pipeline/groupShares.ts';
 import { storeSamples } from '../../pipeline/storeResult.ts';
 import { conflictReason } from '../../redis/revisionConflicts.ts';
-import type { EarlierMonths } from '../earlierMonths.ts';
 import type { EvaluationRunnerDeps } from '../evaluationRunner.ts';
 import { countAccepted } from '../intakePaths.ts';
 import { JUDGEMENTS_AT_ONCE, MonthlyJudgement, type ComponentMonth } from '../monthlyJudgement.ts';
@@ -39,15 +38,12 @@ export interface HistoryOutcome {
   readonly evaluations: number;
 }
 
-/**
- * `atOnce`: components of one month judged at a time. Default JUDGEMENTS_AT_ONCE (monthlyJudgement.ts). `earlier`:
- * the process's wait for earlier months other processes hold (earlierMonths.ts); without it, none.
- */
-export function historyProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_EVALUATE_RETRY_MS, atOnce = JUDGEMENTS_AT_ONCE, earlier?: EarlierMonths): Processor {
-  return (job: Job) => processHistory(deps, job, retryMs, atOnce, earlier);
+/** `atOnce`: components of one month judged at a time. Default JUDGEMENTS_AT_ONCE (monthlyJudgement.ts). */
+export function historyProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_EVALUATE_RETRY_MS, atOnce = JUDGEMENTS_AT_ONCE): Processor {
+  return (job: Job) => processHistory(deps, job, retryMs, atOnce);
 }
 
-async function processHistory(deps: EvaluationRunnerDeps, job: Job, retryMs: number, atOnce: number, earlier: EarlierMonths | undefined): Promise<HistoryOutcome> {
+async function processHistory(deps: EvaluationRunnerDeps, job: Job, retryMs: number, atOnce: number): Promise<HistoryOutcome> {
   const data = job.data as Partial<HistoryJobData> | null;
   if (!Array.isArray(data?.records)) throw new UnrecoverableError('history job: data must be {"records": [result, ...]}');
   const now = deps.now();
@@ -67,7 +63,7 @@ async function processHistory(deps: EvaluationRunnerDeps, job: Job, retryMs: num
   let months = 0;
   // Each component's latest result this job stored (new or a replacement), announced once the job is done with it.
   const announce = new Map<string, Sample>();
-  const judgement = new MonthlyJudgement(deps, { atOnce, retryMs, ...(earlier !== undefined && { earlier }) });
+  const judgement = new MonthlyJudgement(deps, { atOnce, retryMs });
   try {
     await processMonths();
     await judgement.commitAll();
@@ -93,7 +89,7 @@ async function processHistory(deps: EvaluationRunnerDeps, job: Job, retryMs: num
       months += 1;
       const stored = await storeSamples(deps.store, deps.config, slice, now);
       const due = new Map<string, MonthOfComponent>();
-      for (const { sample, group, outcome } of stored) {
+      for (const { sample, outcome } of stored) {
         deps.metrics?.stored(outcome.status);
         if (outcome.status === 'conflict') {
           refused.push(`${sample.unit} / ${sample.component}: ${conflictReason(sample.sampleId, sample.revision, 'stored')}; this result was not stored`);
@@ -101,7 +97,7 @@ async function processHistory(deps: EvaluationRunnerDeps, job: Job, retryMs: num
         }
         if (outcome.status === 'new' || outcome.status === 'replacement') announce.set(componentKey(sample), sample);
         const key = componentKey(sample);
-        const seen = due.get(key) ?? { ref: { unit: sample.unit, component: sample.component }, changes: 0, inOrder: true, group };
+        const seen = due.get(key) ?? { ref: { unit: sample.unit, component: sample.component }, changes: 0, inOrder: true };
         if (outcome.status !== 'duplicate') seen.changes += 1;
         const folded = judgement.folded(sample);
         if (outcome.status === 'replacement' || (outcome.status === 'new' && folded != null && comparePosition(positionOf(sample), folded) <= 0)) seen.inOrder = false;
