@@ -23,6 +23,8 @@ export interface HttpLimits {
   readonly timeoutCheckIntervalMs: number;
   /** Most open sockets; further connections are refused at once. Default 4 096. */
   readonly maxConnections: number;
+  // Every bound "per address" below counts an IPv6 address by its /64 (addressKey in addressLimits.ts: one client
+  // commonly holds a whole /64), and an IPv4 address, or an IPv4-mapped IPv6 one, by itself.
   /**
    * Most open sockets from one socket peer; a further connection from it is closed at once, so one address cannot
    * take every socket. Counted before any request is read, so `trustedProxies` does not change it: behind a reverse

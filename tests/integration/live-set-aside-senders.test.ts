@@ -37,6 +37,7 @@ import { bridgeLiveEvents, livePublisher } from '../../src/runtime/liveBridge.ts
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+import { incidentEventStream } from '../helpers/liveIncidentStream.ts';
 
 type Json = Record<string, any>; // eslint-disable-line @typescript-eslint/no-explicit-any
 
@@ -144,52 +145,11 @@ function hookArrived(pred: (h: { type: string; incidentId: string }) => boolean)
   });
 }
 
-/** Reads the server-sent events of the stream; `next(pred)` resolves with the first incident event (seen or coming) that matches. */
-function stream(body: ReadableStream<Uint8Array>) {
-  const seen: Json[] = [];
-  const waiters: { pred: (e: Json) => boolean; resolve: (e: Json) => void }[] = [];
-  const reader = body.getReader();
-  const decoder = new TextDecoder();
-  let text = '';
-  void (async () => {
-    for (;;) {
-      const { value, done } = await reader.read().catch(() => ({ value: undefined, done: true }));
-      if (done) return;
-      text += decoder.decode(value, { stream: true });
-      let end: number;
-      while ((end = text.indexOf('\n\n')) >= 0) {
-        const block = text.slice(0, end);
-        text = text.slice(end + 2);
-        const fields = Object.fromEntries(block.split('\n').filter((l) => !l.startsWith(':') && l.includes(': ')).map((l) => [l.slice(0, l.indexOf(': ')), l.slice(l.indexOf(': ') + 2)]));
-        if (fields.event !== 'incident') continue;
-        const event = JSON.parse(fields.data!) as Json;
-        seen.push(event);
-        for (const w of [...waiters]) {
-          if (!w.pred(event)) continue;
-          waiters.splice(waiters.indexOf(w), 1);
-          w.resolve(event);
-        }
-      }
-    }
-  })();
-  return {
-    seen,
-    next(pred: (e: Json) => boolean): Promise<Json> {
-      const already = seen.find(pred);
-      if (already) return Promise.resolve(already);
-      return new Promise((resolve, reject) => {
-        const timer = setTimeout(() => reject(new Error(`no matching live event; saw ${JSON.stringify(seen.map((e) => [e.incidentId, e.change, e.severity, e.state]))}`)), WAIT_MS);
-        waiters.push({ pred, resolve: (e) => (clearTimeout(timer), resolve(e)) });
-      });
-    },
-    close: () => reader.cancel(),
-  };
-}
 
 async function openStream() {
   const res = await fetch(`${base}/v1/events`, { headers: { authorization: `Bearer ${VIEWER}` } });
   expect(res.status).toBe(200);
-  return stream(res.body!);
+  return incidentEventStream(res.body!, WAIT_MS);
 }
 
 function expectPublished(event: Json): void {
