@@ -21,6 +21,7 @@ import { settleComponent } from './settleComponent.ts';
 import { InvalidResultError, storeResult, storeSample, type StoredResult } from './storeResult.ts';
 import { claimedSampleId, validateResult } from '../intake/validate.ts';
 import { fileConflictReason, FileRevisions } from './fileRevisions.ts';
+import { NO_SEVERITY, setAsideClosing } from './liveEvent.ts';
 
 /**
  * One finding of a sample as the sample's last judgement gives it: a sample is judged again when a result sampled
@@ -34,7 +35,8 @@ export type FindingLine = { readonly type: 'finding'; readonly quiet: boolean; r
 
 /**
  * One timeline entry of an incident, flat: the entry's own fields, its kind as `change`, and the incident's state and
- * severity after the evaluation as `incidentState` and `incidentSeverity`. A `notified` entry's message type
+ * severity after the evaluation as `incidentState` and `incidentSeverity` (`none` once it is closed because its evidence
+ * was set aside, with the severity last told as `lastAnnouncedSeverity`). A `notified` entry's message type
  * (`wearshift.incident.opened`, ...) is `event`.
  */
 export type IncidentLine = {
@@ -155,7 +157,9 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
             ...('change' in entry && { findingChange: entry.change }),
             change: kind,
             incidentState: c.state,
-            incidentSeverity: c.severity,
+            // Closed because its evidence was set aside (withdrawn, a sample verdict): nothing of it stands, as every
+            // other view says; the severity last told goes beside it.
+            ...(setAsideClosing(c.closed?.how) ? { incidentSeverity: NO_SEVERITY, lastAnnouncedSeverity: c.severity } : { incidentSeverity: c.severity }),
           } as IncidentLine,
         });
       }
