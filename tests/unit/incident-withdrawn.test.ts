@@ -11,8 +11,6 @@ import { renderIncidentEmail } from '../../src/channels/email/emailRender.ts';
 import { ackSummary } from '../../src/http/server.ts';
 import { renderAckPage } from '../../src/notify/ackPage.ts';
 import { ADVISORY_CAUTION } from '../../src/domain/caution.ts';
-import { parseConfig } from '../../src/domain/configFile.ts';
-import type { ResultEvent } from '../../src/domain/event.ts';
 import type { Incident, NotifyEffect } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { incidentMessage } from '../../src/notify/incidentMessage.ts';
@@ -20,20 +18,9 @@ import type { EvaluationDeps } from '../../src/pipeline/evaluateStored.ts';
 import { MemoryStore } from '../../src/pipeline/memory/memoryStore.ts';
 import { settleComponent } from '../../src/pipeline/settleComponent.ts';
 import { storeResult } from '../../src/pipeline/storeResult.ts';
+import type { ResultEvent } from '../../src/domain/event.ts';
+import { CONFIG, NOW, REF, result } from '../helpers/engineIronLimit.ts';
 
-const CONFIG = parseConfig(`
-channels:
-  webhooks: [{ name: ops, url: "https://ops.example/hooks", secrets: [WEBHOOK_SECRET] }]
-escalation:
-  policies: [{ name: all, tiers: [{ afterMinutes: 0, webhooks: [ops] }] }]
-groups:
-  - name: dump-trucks
-    match: { component: engine }
-    limits: { Fe: { caution: 50, alarm: 100 } }
-`);
-const NOW = Date.parse('2026-05-04T09:00:00Z');
-const REF = { unit: 'D-16', component: 'engine' };
-const result = (sampleId: string, day: number, fe: number, revision = 0): ResultEvent => ({ ...REF, sampleId, revision, sampledAt: `2026-05-0${day}T08:00:00Z`, readings: { Fe: fe } });
 
 async function withdrawnByRevision() {
   const store = new MemoryStore({ config: CONFIG, now: () => NOW });

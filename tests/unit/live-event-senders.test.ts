@@ -12,8 +12,6 @@ import { describe, expect, it } from 'vitest';
 import type { NotificationChannels } from '../../src/channels/openChannels.ts';
 import { LiveIncidentEventSchema } from '../../src/contracts/eventSchemas.ts';
 import { ADVISORY_CAUTION } from '../../src/domain/caution.ts';
-import { parseConfig } from '../../src/domain/configFile.ts';
-import type { ResultEvent } from '../../src/domain/event.ts';
 import { announcingActions } from '../../src/http/eventHub.ts';
 import type { IncidentRoutesStore } from '../../src/http/incidentRoutes.ts';
 import type { Incident, NotifyEffect } from '../../src/incidents/model.ts';
@@ -29,21 +27,10 @@ import { notifyProcessor } from '../../src/queue/processors/notifyProcessor.ts';
 import { SampleVerdicts } from '../../src/queue/sampleVerdicts.ts';
 import { Partitions } from '../../src/redis/keys.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
+import type { ResultEvent } from '../../src/domain/event.ts';
+import { CONFIG, NOW, REF, result } from '../helpers/engineIronLimit.ts';
 
-const CONFIG = parseConfig(`
-channels:
-  webhooks: [{ name: ops, url: "https://ops.example/hooks", secrets: [WEBHOOK_SECRET] }]
-escalation:
-  policies: [{ name: all, tiers: [{ afterMinutes: 0, webhooks: [ops] }] }]
-groups:
-  - name: dump-trucks
-    match: { component: engine }
-    limits: { Fe: { caution: 50, alarm: 100 } }
-`);
-const NOW = Date.parse('2026-05-04T09:00:00Z');
-const REF = { unit: 'D-16', component: 'engine' };
 const INCIDENT = 'D-16/engine@D-16-2';
-const result = (sampleId: string, day: number, fe: number, revision = 0): ResultEvent => ({ ...REF, sampleId, revision, sampledAt: `2026-05-0${day}T08:00:00Z`, readings: { Fe: fe } });
 
 /** As the stream sends it: the caution added beside the severity (src/http/eventRoutes.ts). */
 const streamed = (e: LiveEvent) => ({ ...e, advisory: ADVISORY_CAUTION });
