@@ -10,53 +10,119 @@
  * taken again (their components stay due).
  *
  * A component whose judgement fails fails the jobs waiting for it (they are retried); the batch's others go on.
+ *
+ * Several worker processes judge in arrival order (arrivalOrder.ts): a batch takes only the results that arrived
+ * before every result another process holds and has not judged yet, and waits for those (looking every
+ * `ARRIVAL_POLL_MS`, at most `arrivalWaitMs`); the rest waits for the next batch. The process that holds the earliest
+ * result not yet judged never waits, so the processes take turns, and a burst spanning months is judged month by
+ * month across them as one process judges it: no component is judged past a month whose results another process
+ * still holds. A batch's commit folds no stored result beyond the batch's last month of the component (those belong to
+ * a later batch, here or in another process) other than the ones it had judged before.
  */
 import { componentKey, type Sample } from '../domain/event.ts';
 import { monthOf, startOfNextMonth } from '../pipeline/groupShares.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
+import { monthStart, type ActiveJob, type ActiveJobs } from './arrivalOrder.ts';
 import type { EvaluationRunnerDeps } from './evaluationRunner.ts';
 import { MonthlyJudgement } from './monthlyJudgement.ts';
 import { DEFAULT_EVALUATE_RETRY_MS } from './queues.ts';
 
+/** One result waiting to be judged. */
+interface Pending {
+  /** The arrival order of its job (its BullMQ id); undefined: none known, judged in the next batch. */
+  readonly order: number | undefined;
+  readonly time: number;
+  readonly resolve: () => void;
+  readonly reject: (e: unknown) => void;
+}
+
 interface Waiting {
   readonly ref: ComponentRef;
-  /** Sampling months (`YYYY-MM`) of the results waiting. */
-  readonly months: Set<string>;
-  readonly waiters: { resolve(): void; reject(e: unknown): void }[];
+  readonly pending: Pending[];
 }
+
+/** A component's share of a batch. */
+interface Batched {
+  readonly ref: ComponentRef;
+  /** Sampling months (`YYYY-MM`) of its results in the batch. */
+  readonly months: ReadonlySet<string>;
+  readonly pending: readonly Pending[];
+}
+
+/** How often a batch waiting for results another process holds looks again. */
+export const ARRIVAL_POLL_MS = 5;
+
+/** Default of `arrivalWaitMs`: a batch judges without the earlier results another process holds after this long. */
+export const DEFAULT_ARRIVAL_WAIT_MS = 30_000;
 
 export interface ResultBatchesOptions {
   /** Delay of the evaluation scheduled for a component another worker holds. Default 200 ms. */
   readonly retryMs?: number;
   /** Components of one month judged at a time. Default JUDGEMENTS_AT_ONCE (monthlyJudgement.ts). */
   readonly atOnce?: number;
+  /**
+   * The partition's active results jobs in every process (arrivalOrder.ts `activeJobs`): a result then waits for those
+   * that arrived before it, are held by another process, and are of an earlier sampling month or of its own component.
+   * Default: none (one process).
+   */
+  readonly activeJobs?: ActiveJobs;
+  /**
+   * Longest wait of a batch for earlier results another process holds (a process that hangs without dying keeps its
+   * jobs active; one that dies gives them up after its job lock lapses): after it, the batch judges without them, and
+   * their judgement later judges again what they change (an incident opened meanwhile may be withdrawn).
+   * Default DEFAULT_ARRIVAL_WAIT_MS (30 000 ms).
+   */
+  readonly arrivalWaitMs?: number;
 }
 
 export class ResultBatches {
   private waiting = new Map<string, Waiting>();
+  /** Arrival orders of the results jobs this process holds (from `hold` to its release). */
+  private readonly held = new Map<number, number>();
   private underWay = false;
   private readonly retryMs: number;
+  private readonly arrivalWaitMs: number;
   /** Batches judged, and components judged in them (for the benchmark's and the tests' view of the coalescing). */
-  readonly counts = { batches: 0, components: 0 };
+  readonly counts = { batches: 0, components: 0, arrivalWaits: 0 };
 
   constructor(
     private readonly deps: EvaluationRunnerDeps,
     private readonly options: ResultBatchesOptions = {},
   ) {
     this.retryMs = options.retryMs ?? DEFAULT_EVALUATE_RETRY_MS;
+    this.arrivalWaitMs = options.arrivalWaitMs ?? DEFAULT_ARRIVAL_WAIT_MS;
   }
 
-  /** Resolves when an evaluation covering `sample` (stored before this call) has committed, or has been scheduled. */
-  judge(sample: Sample): Promise<void> {
+  /**
+   * Counts a results job of arrival order `order` as this process's until the returned release is called (from when
+   * its job starts to when it ends), so that a batch does not wait for it as for another process's.
+   */
+  hold(order: number | undefined): () => void {
+    if (order === undefined) return () => undefined;
+    this.held.set(order, (this.held.get(order) ?? 0) + 1);
+    let released = false;
+    return () => {
+      if (released) return;
+      released = true;
+      const n = this.held.get(order)! - 1;
+      if (n === 0) this.held.delete(order);
+      else this.held.set(order, n);
+    };
+  }
+
+  /**
+   * Resolves when an evaluation covering `sample` (stored before this call) has committed, or has been scheduled.
+   * `order`: the arrival order of its job (arrivalOrder.ts `arrivalOf`), when the batches wait for other processes.
+   */
+  judge(sample: Sample, order?: number): Promise<void> {
     const key = componentKey(sample);
     let entry = this.waiting.get(key);
     if (entry === undefined) {
-      entry = { ref: { unit: sample.unit, component: sample.component }, months: new Set(), waiters: [] };
+      entry = { ref: { unit: sample.unit, component: sample.component }, pending: [] };
       this.waiting.set(key, entry);
     }
-    entry.months.add(monthOf(sample.time));
-    const waiters = entry.waiters;
-    const done = new Promise<void>((resolve, reject) => waiters.push({ resolve, reject }));
+    const pending = entry.pending;
+    const done = new Promise<void>((resolve, reject) => pending.push({ order, time: sample.time, resolve, reject }));
     if (!this.underWay) void this.drain();
     return done;
   }
@@ -65,15 +131,14 @@ export class ResultBatches {
     this.underWay = true;
     try {
       while (this.waiting.size > 0) {
-        const batch = [...this.waiting.values()];
-        this.waiting = new Map();
+        const batch = this.options.activeJobs === undefined ? this.split([], Infinity) : await this.takeReady(this.options.activeJobs);
         this.counts.batches += 1;
         this.counts.components += batch.length;
-        this.deps.metrics?.batched(batch.length, batch.reduce((n, w) => n + w.waiters.length, 0));
+        this.deps.metrics?.batched(batch.length, batch.reduce((n, w) => n + w.pending.length, 0));
         const failures = await this.judgeBatch(batch).catch((e: unknown) => new Map(batch.map((w) => [componentKey(w.ref), e])));
         for (const w of batch) {
           const key = componentKey(w.ref);
-          for (const waiter of w.waiters) {
+          for (const waiter of w.pending) {
             if (failures.has(key)) waiter.reject(failures.get(key));
             else waiter.resolve();
           }
@@ -84,9 +149,104 @@ export class ResultBatches {
     }
   }
 
+  /**
+   * Takes the waiting results no result held by another process must come before (all of them with one process, or
+   * once `arrivalWaitMs` has passed); the others stay waiting, with those arriving meanwhile.
+   */
+  private async takeReady(activeJobs: ActiveJobs): Promise<Batched[]> {
+    const started = performance.now();
+    let waited = false;
+    for (;;) {
+      const { elsewhere, checked } = await this.heldElsewhere(activeJobs);
+      const ready = this.split(elsewhere, checked);
+      if (ready.length > 0) return ready;
+      // Results that arrived here during the look are looked at again at once.
+      if (this.unchecked(checked)) continue;
+      if (performance.now() - started >= this.arrivalWaitMs) {
+        this.deps.logger.warn({ waitedMs: Math.round(performance.now() - started), results: [...this.waiting.values()].reduce((n, w) => n + w.pending.length, 0) }, 'results judged without earlier ones another worker process still holds');
+        return this.split([], Infinity);
+      }
+      if (!waited) this.counts.arrivalWaits += 1;
+      waited = true;
+      await new Promise((resolve) => setTimeout(resolve, ARRIVAL_POLL_MS));
+    }
+  }
+
+  /**
+   * The active results jobs another process holds that arrived before a result waiting here, and the latest arrival
+   * order they were looked up for (`checked`: the results waiting here then; those handed over during the look arrived
+   * later). None, and every result checked, when Redis does not answer.
+   */
+  private async heldElsewhere(activeJobs: ActiveJobs): Promise<{ readonly elsewhere: readonly ActiveJob[]; readonly checked: number }> {
+    let latest = -Infinity;
+    const waiting = new Set<number>();
+    for (const w of this.waiting.values())
+      for (const p of w.pending)
+        if (p.order !== undefined) {
+          waiting.add(p.order);
+          if (p.order > latest) latest = p.order;
+        }
+    if (latest === -Infinity) return { elsewhere: [], checked: latest };
+    try {
+      // Its own results are told apart once the list is in: a job of this process that ended meanwhile has left it.
+      return { elsewhere: await activeJobs(latest, (order) => this.held.has(order) || waiting.has(order)), checked: latest };
+    } catch {
+      // Redis does not answer: the batch's own reads fail the same way, and its jobs are retried.
+      return { elsewhere: [], checked: Infinity };
+    }
+  }
+
+  /** Whether a result waiting here arrived after `checked` (handed over while the active jobs were looked up). */
+  private unchecked(checked: number): boolean {
+    for (const w of this.waiting.values()) for (const p of w.pending) if (p.order !== undefined && p.order > checked) return true;
+    return false;
+  }
+
+  /**
+   * Takes out of the waiting results, by component, those that no result of `elsewhere` must come before: one that
+   * arrived earlier must be judged first when it is of an earlier sampling month (the group statistics a result is
+   * judged with are those of the months before its own) or of the same component. Results without an order are taken;
+   * those that arrived after `checked` (the latest order `elsewhere` was looked up for) stay for the next look.
+   */
+  private split(elsewhere: readonly ActiveJob[], checked: number): Batched[] {
+    const blockers = [...elsewhere].sort((x, y) => x.order - y.order);
+    // The earliest month among the first i blockers, and the earliest order held elsewhere per component.
+    const earliestMonth: number[] = [Infinity];
+    for (const b of blockers) earliestMonth.push(Math.min(earliestMonth.at(-1)!, b.month));
+    const firstOfComponent = new Map<string | undefined, number>();
+    for (const b of blockers) if (!firstOfComponent.has(b.component)) firstOfComponent.set(b.component, b.order);
+    const anyComponent = firstOfComponent.get(undefined) ?? Infinity;
+    const blocked = (key: string, p: Pending): boolean => {
+      if (p.order === undefined) return false;
+      const order = p.order;
+      if (order > checked) return true;
+      if (Math.min(firstOfComponent.get(key) ?? Infinity, anyComponent) < order) return true;
+      // Blockers that arrived before it: the first `before` of them.
+      let lo = 0;
+      let hi = blockers.length;
+      while (lo < hi) {
+        const mid = (lo + hi) >> 1;
+        if (blockers[mid]!.order < order) lo = mid + 1;
+        else hi = mid;
+      }
+      return earliestMonth[lo]! < monthStart(p.time);
+    };
+    const batch: Batched[] = [];
+    for (const [key, w] of this.waiting) {
+      const ready = w.pending.filter((p) => !blocked(key, p));
+      if (ready.length === 0) continue;
+      batch.push({ ref: w.ref, months: new Set(ready.map((p) => monthOf(p.time))), pending: ready });
+      if (ready.length === w.pending.length) this.waiting.delete(key);
+      else this.waiting.set(key, { ref: w.ref, pending: w.pending.filter((p) => !ready.includes(p)) });
+    }
+    return batch;
+  }
+
   /** Judges a batch; the components whose judgement failed, with the error. */
-  private async judgeBatch(batch: readonly Waiting[]): Promise<Map<string, unknown>> {
+  private async judgeBatch(batch: readonly Batched[]): Promise<Map<string, unknown>> {
     const failures = new Map<string, unknown>();
+    // The end of each component's last month in the batch.
+    const batchEnd = new Map(batch.map((w) => [componentKey(w.ref), startOfNextMonth([...w.months].sort().at(-1)!)]));
     const judgement = new MonthlyJudgement(this.deps, {
       retryMs: this.retryMs,
       ...(this.options.atOnce !== undefined && { atOnce: this.options.atOnce }),
@@ -96,11 +256,15 @@ export class ResultBatches {
       // process or another; a scheduled evaluation for a cascade or a responder's mark). An evaluation of everything
       // stored would judge the component past the months of the next batch, whose group shares would judge it again.
       unsettledJudgedElsewhere: true,
-      // What a run read beyond the batch's months is folded now (a late result rewound it over results judged before),
-      // except from the month of the component's results waiting for the next batch, which judges them.
-      foldUntil: (ref) => {
-        const next = this.waiting.get(componentKey(ref));
-        return next === undefined ? undefined : Math.min(...[...next.months].map((m) => Date.parse(`${m}-01T00:00:00Z`)));
+      // What a run read beyond the batch's months is folded now as far as it was judged before (a late result rewound
+      // it over them), except from the month of the component's results waiting for the next batch, which judges them;
+      // results stored after the batch's months and not judged yet are left to the batch that holds them.
+      foldUntil: (ref, judgedTo) => {
+        const key = componentKey(ref);
+        const next = this.waiting.get(key);
+        const nextMonth = next === undefined ? Infinity : Math.min(...next.pending.map((p) => Date.parse(`${monthOf(p.time)}-01T00:00:00Z`)));
+        const judged = judgedTo === undefined ? -Infinity : judgedTo + 1;
+        return Math.min(nextMonth, Math.max(batchEnd.get(key) ?? -Infinity, judged));
       },
     });
     try {

@@ -34,6 +34,8 @@ import { EvaluationThreadPool } from './evaluationThreadPool.ts';
 import { historyProcessor } from './processors/historyProcessor.ts';
 import type { RedisTarget } from '../redis/target.ts';
 import { resultsProcessor } from './processors/resultsProcessor.ts';
+import { activeJobs } from './arrivalOrder.ts';
+import { DEFAULT_ARRIVAL_WAIT_MS, ResultBatches } from './resultBatches.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from './queues.ts';
 
 export interface WorkerSettings extends QueueSettings {
@@ -45,6 +47,12 @@ export interface WorkerSettings extends QueueSettings {
    * job is done when its batch has committed. Default 1000 (BENCHMARKS.md, *Live results judged in batches*).
    */
   resultsConcurrency?: number;
+  /**
+   * Longest wait of a batch of results for results that arrived before it and that another worker process holds
+   * (resultBatches.ts): processes judge a partition's results in arrival order, so that a burst spanning sampling
+   * months gives the verdicts of one process. After the wait a batch judges without them. Default 30 000 ms.
+   */
+  arrivalWaitMs?: number;
   /** Components this process evaluates at once from the evaluate queue, per partition. Default 2. */
   evaluateConcurrency?: number;
   /** Lifetime of a component's evaluation lock, renewed at a third of it. Default 30 000 ms. */
@@ -93,6 +101,7 @@ export interface WorkerSettings extends QueueSettings {
 export const WORKER_DEFAULTS = {
   partitions: 1,
   resultsConcurrency: 1000,
+  arrivalWaitMs: DEFAULT_ARRIVAL_WAIT_MS,
   evaluateConcurrency: 2,
   lockTtlMs: DEFAULT_LOCK_TTL_MS,
   busyRetryMs: DEFAULT_EVALUATE_RETRY_MS,
@@ -195,7 +204,9 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   const workers: Worker[] = [];
   for (const p of partitions.all()) {
     const prefix = partitions.tag(p);
-    workers.push(new Worker(QUEUE_NAMES.results, resultsProcessor(runner, s.busyRetryMs), options(prefix, s.resultsConcurrency, queueSettings.attempts)));
+    // The partition's results are judged in the order they arrived on its queue, across processes (arrivalOrder.ts).
+    const batches = new ResultBatches(runner, { retryMs: s.busyRetryMs, activeJobs: activeJobs(deps.connection, `${prefix}:${QUEUE_NAMES.results}`), arrivalWaitMs: s.arrivalWaitMs });
+    workers.push(new Worker(QUEUE_NAMES.results, resultsProcessor(runner, s.busyRetryMs, batches), options(prefix, s.resultsConcurrency, queueSettings.attempts)));
     workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs), options(prefix, s.evaluateConcurrency, queueSettings.attempts)));
   }
   // One history job at a time, for every partition (the producer sets the queue's global concurrency to 1 as well).

@@ -1,17 +1,20 @@
 /**
  * Live results taken in batches (src/queue/resultBatches.ts) on a private redis-server: the results that arrive while
  * a batch is being judged are judged together in the next one, each component by one run across the batch's months,
- * and the findings, group statistics and incidents are those of judging every result on its own as it arrives.
+ * and the findings, group statistics and incidents are those of judging every result on its own as it arrives. Two
+ * batch lines on one store stand for two worker processes: they judge in arrival order, each waiting for the earlier
+ * results the other holds.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
-import type { Sample } from '../../src/domain/event.ts';
+import { componentKey, type Sample } from '../../src/domain/event.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { validateResult } from '../../src/intake/validate.ts';
 import { storeSample } from '../../src/pipeline/storeResult.ts';
+import { monthStart } from '../../src/queue/arrivalOrder.ts';
 import { runEvaluation, type EvaluationRunnerDeps } from '../../src/queue/evaluationRunner.ts';
 import { openPartitionedQueues, resolveQueueSettings, QUEUE_NAMES } from '../../src/queue/queues.ts';
-import { ResultBatches } from '../../src/queue/resultBatches.ts';
+import { ResultBatches, type ResultBatchesOptions } from '../../src/queue/resultBatches.ts';
 import { Partitions } from '../../src/redis/keys.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
@@ -45,17 +48,18 @@ afterAll(async () => {
   await server?.dispose();
 });
 
-function line() {
-  const prefix = `{rb${++prefixes}}`;
+/** A batch line on its own prefix, or on `prefix` (another process on the same store), with `options`. */
+function line(prefix = `{rb${++prefixes}}`, options: ResultBatchesOptions = {}) {
   const connection = server.client();
   const store = new RedisStore(connection, { prefix, config });
   const partitions = new Partitions(prefix, 1);
   const evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, connection, resolveQueueSettings({ prefix }), partitions);
   const metrics = createMetrics({ defaultMetrics: false });
   const deps: EvaluationRunnerDeps = { store, ledger: store, config, rules: incidentRules(config), now: () => NOW, partitions, evaluateQueues, logger: silentLogger(), metrics };
-  const batches = new ResultBatches(deps);
+  const batches = new ResultBatches(deps, options);
   const incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix });
   return {
+    prefix,
     batches,
     /** The /metrics text of the batches. */
     metricsText: () => metrics.registry.metrics(),
@@ -115,13 +119,13 @@ describe('live results judged in batches', () => {
     const one = await oneAtATime();
     const backlog = line();
     try {
-      expect(one.batches.counts).toEqual({ batches: samples.length, components: samples.length });
+      expect(one.batches.counts).toEqual({ batches: samples.length, components: samples.length, arrivalWaits: 0 });
 
       // Every result stored, then handed over at once: the first is judged alone as it arrives, the other 79 wait for
       // it and are judged together, each of the 4 components by one run over the fleet's months.
       for (const s of samples) await backlog.store(s);
       await Promise.all(samples.map((s) => backlog.batches.judge(s)));
-      expect(backlog.batches.counts).toEqual({ batches: 2, components: 1 + 4 });
+      expect(backlog.batches.counts).toEqual({ batches: 2, components: 1 + 4, arrivalWaits: 0 });
       // The same on /metrics: 2 batches, of 1 and 79 results, 1 and 4 components.
       const text = await backlog.metricsText();
       expect(text).toMatch(/^wearshift_result_batch_results_count 2$/m);
@@ -188,6 +192,61 @@ describe('live results judged in batches', () => {
     } finally {
       await one.close();
       await split.close();
+    }
+  });
+
+  it('two processes judge in arrival order: a batch waits for the earlier results the other holds, and nothing opened is withdrawn', async () => {
+    const one = await oneAtATime();
+    // A burst of the fleet in sampling order, taken ten at a time by each process in turn; every result is stored
+    // before either process judges any (the worst case: each process holds later months the other has not judged).
+    const ordered = [...samples].sort((x, y) => x.time - y.time);
+    // The results jobs active in either process, by arrival order (the queue's job ids), as the queue would tell them.
+    const active = new Set<number>();
+    const options: ResultBatchesOptions = {
+      activeJobs: async (before, skip) =>
+        [...active].filter((o) => o < before && !skip(o)).map((o) => ({ order: o, component: componentKey(ordered[o - 1]!), month: monthStart(ordered[o - 1]!.time) })),
+    };
+    const a = line(undefined, options);
+    const b = line(a.prefix, options);
+    try {
+      for (const [i, s] of ordered.entries()) {
+        active.add(i + 1);
+        await a.store(s);
+      }
+      const judged = ordered.map((s, i) => {
+        const holder = Math.floor(i / 10) % 2 === 0 ? a : b;
+        return holder.batches.judge(s, i + 1).then(() => active.delete(i + 1));
+      });
+      await Promise.all(judged);
+      // A process waited for the earlier months the other held.
+      expect(a.batches.counts.arrivalWaits + b.batches.counts.arrivalWaits).toBeGreaterThan(0);
+      // The incidents of one result at a time, and none of them opened and withdrawn on the way.
+      const told = await one.messages();
+      const both = new Map([...(await a.messages())]);
+      expect([...both.keys()].sort()).toEqual([...told.keys()].sort());
+      for (const events of both.values()) expect(events[0]).toBe('opened');
+      const state = await a.state();
+      expect(state.incidents.length).toBeGreaterThan(0);
+      expect(state.incidents.filter((i) => i.closed?.how === 'withdrawn')).toEqual([]);
+      expect(state).toEqual(await one.state());
+    } finally {
+      await one.close();
+      await a.close();
+      await b.close();
+    }
+  });
+
+  it('a batch judges without an earlier result another process holds once its wait is over', async () => {
+    const waits = line(undefined, { activeJobs: async () => [{ order: 1, component: undefined, month: -Infinity }], arrivalWaitMs: 50 });
+    try {
+      const s = samples[0]!;
+      await waits.store(s);
+      // Order 1 stays active elsewhere for good (a process that hangs): the result of order 2 is judged after the wait.
+      await waits.batches.judge(s, 2);
+      expect(waits.batches.counts).toEqual({ batches: 1, components: 1, arrivalWaits: 1 });
+      expect((await waits.input(s))?.latest?.count).toBe(1);
+    } finally {
+      await waits.close();
     }
   });
 });

@@ -1,0 +1,85 @@
+/**
+ * Arrival order across worker processes: a results job's BullMQ id counts up as results arrive on its partition's
+ * queue (the queue numbers the jobs it is given), so the active jobs other processes hold tell a batch which results
+ * arrived before its own and are not judged yet (resultBatches.ts). A results job stays active until the batch that
+ * judged it has committed, so a job that has left the active list holds a result judged (or refused).
+ */
+import { componentKey } from '../domain/event.ts';
+import type { RedisConnection } from '../redis/connection.ts';
+
+/** A results job active in some process: its arrival order, and the component and sampling month of its result. */
+export interface ActiveJob {
+  readonly order: number;
+  /** `componentKey` of the result; undefined when its data does not name one (it is refused when taken). */
+  readonly component: string | undefined;
+  /** The first instant (epoch ms, UTC) of the result's sampling month; -Infinity when its data has no sampling time. */
+  readonly month: number;
+}
+
+/**
+ * The results jobs active on a partition's queue, in any process, that arrived before `before` and are not among
+ * `skip` (this process's own).
+ */
+export type ActiveJobs = (before: number, skip: (order: number) => boolean) => Promise<readonly ActiveJob[]>;
+
+/** The first instant (epoch ms, UTC) of the month of `time`. */
+export function monthStart(time: number): number {
+  const d = new Date(time);
+  return Date.UTC(d.getUTCFullYear(), d.getUTCMonth(), 1);
+}
+
+/** The number of a results job's id, or undefined for an id of its own (no arrival order). */
+export function arrivalOf(jobId: string | undefined): number | undefined {
+  if (jobId === undefined) return undefined;
+  const n = Number(jobId);
+  return Number.isSafeInteger(n) ? n : undefined;
+}
+
+/**
+ * The active jobs of the queue whose BullMQ keys start with `queueKey` (`<prefix>:<queue name>`): ids from the queue's
+ * active list, the component and month of each from its job's data (read once per job; a job's data does not change).
+ * Ids that are not numbers (a job added with an id of its own) are left out: they carry no order.
+ */
+/** Jobs described at most before those not active now are forgotten. */
+const KNOWN_AT_MOST = 20_000;
+
+export function activeJobs(redis: RedisConnection, queueKey: string): ActiveJobs {
+  const activeKey = `${queueKey}:active`;
+  const known = new Map<number, ActiveJob>();
+  return async (before, skip) => {
+    const ids: number[] = [];
+    for (const id of await redis.lrange(activeKey, 0, -1)) {
+      const n = arrivalOf(id);
+      if (n !== undefined && n < before && !skip(n)) ids.push(n);
+    }
+    const unknown = ids.filter((n) => !known.has(n));
+    if (unknown.length > 0) {
+      const pipeline = redis.pipeline();
+      for (const n of unknown) pipeline.hget(`${queueKey}:${n}`, 'data');
+      const answers = (await pipeline.exec()) ?? [];
+      unknown.forEach((n, i) => known.set(n, describe(n, answers[i]?.[1])));
+    }
+    // Jobs no longer active are forgotten (all of them now and then, should later ones pile up).
+    const current = new Set(ids);
+    for (const n of known.keys()) if (!current.has(n) && n < before) known.delete(n);
+    if (known.size > KNOWN_AT_MOST) for (const n of known.keys()) if (!current.has(n)) known.delete(n);
+    return ids.map((n) => known.get(n)!);
+  };
+}
+
+/** What a job's data says of its result, as far as it can be read (the worker validates it when it takes the job). */
+function describe(order: number, data: unknown): ActiveJob {
+  let component: string | undefined;
+  let month = -Infinity;
+  if (typeof data === 'string') {
+    try {
+      const event = JSON.parse(data) as { unit?: unknown; component?: unknown; sampledAt?: unknown };
+      if (typeof event.unit === 'string' && typeof event.component === 'string') component = componentKey({ unit: event.unit, component: event.component });
+      const time = typeof event.sampledAt === 'string' ? Date.parse(event.sampledAt) : NaN;
+      if (Number.isFinite(time)) month = monthStart(time);
+    } catch {
+      // Not JSON: neither is known, and the job is waited for as one that may touch anything.
+    }
+  }
+  return { order, component, month };
+}

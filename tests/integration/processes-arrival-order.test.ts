@@ -1,0 +1,151 @@
+/**
+ * Two `wearshift worker` processes that find a burst already waiting: an invented fleet's file, in sampling order and
+ * spanning many sampling months, is imported with `wearshift import` (one job per result) before any worker runs, the
+ * results queue held (paused) until both processes are taking jobs, and then both take the burst at once, 50 results
+ * each at a time. The group's population limits open incidents, so a month judged on group statistics that still lack
+ * another process's earlier results would open an incident that replay never opens, withdrawn
+ * (`closed.how === 'withdrawn'`) once those results are judged. The processes judge the results in the order they
+ * arrived, across processes: in each of three rounds (a fresh pair of processes on a fresh prefix) no incident is
+ * opened and later withdrawn, the incidents are exactly those of `wearshift replay --json` on the same file, and both
+ * processes stored part of the burst.
+ */
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { parseConfig } from '../../src/domain/configFile.ts';
+import { describeState } from '../../src/incidents/model.ts';
+import { incidentRules } from '../../src/incidents/policy.ts';
+import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
+import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
+import { runCli } from '../helpers/cli.ts';
+import { fleetCsv, inventedFleet } from '../helpers/fleetCsv.ts';
+import { startWearshift, stopAll, waitFor, type WearshiftProcess } from '../helpers/processes.ts';
+import { drained } from '../helpers/queueDrain.ts';
+import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+
+// One group whose population limits open incidents and are trusted early (12 results per band): what the group's
+// statistics hold as of each month decides incidents.
+const config = (prefix: string) => `
+redis: { prefix: "${prefix}" }
+detection: { measurands: [Fe, Cu], runningInHours: 0, baselineIntervals: 6 }
+population: { minResults: 12, bandHours: [0, 500], opensIncidents: true, peers: { minComponents: 3 } }
+backfill: { quietAfterDays: 100000 }
+groups:
+  - name: lift-gearboxes
+    match: { component: gearbox, unit: "^LS" }
+    sumpLitres: 40
+    limits: { Fe: { caution: 45, alarm: 70 }, Si: { caution: 15, alarm: 25 } }
+`;
+// Ten units sampled about every 250 h: some 30 results a month, so 50 results at a time reach into the next month.
+const UNITS = 10;
+const SAMPLES = 30;
+const SEED = 7;
+const RESULTS = UNITS * SAMPLES;
+// Which process takes which results varies from run to run; every round is a fresh pair of processes on a fresh prefix.
+const ROUNDS = 3;
+
+interface Verdict {
+  incidentId: string;
+  state: string;
+  peakSeverity: string;
+  openedAt: string;
+  lastSampledAt: string;
+  closed: string | null;
+}
+const byId = (a: Verdict, b: Verdict) => (a.incidentId < b.incidentId ? -1 : 1);
+
+let server: RedisServer;
+let dir: string;
+beforeAll(async () => {
+  server = await startRedisServer();
+  dir = mkdtempSync(join(tmpdir(), 'wearshift-arrival-'));
+});
+afterAll(async () => {
+  await stopAll();
+  await server?.dispose();
+  if (dir) rmSync(dir, { recursive: true, force: true });
+});
+
+/** Results a worker process stored, new ones only (its /metrics; a redelivered result counts as a duplicate). */
+async function storedBy(worker: WearshiftProcess): Promise<number> {
+  const text = await (await fetch(`${worker.url}/metrics`)).text();
+  const line = text.split('\n').find((l) => l.startsWith('wearshift_results_stored_total{status="new"}'));
+  return line === undefined ? 0 : Number(line.split(' ').pop());
+}
+
+/** One round: the burst imported with no worker running, then taken by two fresh worker processes. */
+async function round(n: number, file: string) {
+  const prefix = `{arrival${n}}`;
+  const configFile = join(dir, `config-${n}.yaml`);
+  writeFileSync(configFile, config(prefix));
+  // /metrics without a token: each process's count of results stored says it took part.
+  const env = { REDIS_URL: server.url, LOG_LEVEL: 'warn', WEARSHIFT_METRICS_PUBLIC: '1' };
+  const redis = server.client();
+  const settings = resolveQueueSettings({ prefix });
+  const results = openQueue(QUEUE_NAMES.results, redis, settings);
+  const evaluate = openQueue(QUEUE_NAMES.evaluate, redis, settings);
+  const workers: WearshiftProcess[] = [];
+  try {
+    // The burst waits on the queue, held (paused) until both processes take jobs: neither starts on it alone,
+    // whichever comes up first.
+    await results.pause();
+    const imported = await runCli(['import', file, '--config', configFile], env, 300_000);
+    expect(imported.code).toBe(0);
+    expect(imported.stdout).toContain(`${RESULTS} enqueued`);
+    expect(await results.isPaused()).toBe(true);
+    expect(await results.getJobCounts('waiting', 'active', 'completed')).toEqual({ waiting: RESULTS, active: 0, completed: 0 });
+
+    workers.push(...(await Promise.all([0, 1].map(() => startWearshift('worker', { env, args: ['--config', configFile, '--results-at-once', '50'], readyTimeoutMs: 180_000 })))));
+    await waitFor('both workers taking results jobs', async () => (await results.getWorkersCount()) === 2, 180_000, 200);
+    await results.resume();
+    await drained([results, evaluate], 600_000);
+    expect(await results.getFailedCount()).toBe(0);
+    expect(await evaluate.getFailedCount()).toBe(0);
+    const stored = await Promise.all(workers.map(storedBy));
+
+    // Every incident, withdrawn ones too.
+    const store = new RedisIncidents(redis, { rules: incidentRules(parseConfig(config(prefix))), prefix });
+    const incidents: Verdict[] = [];
+    for (const summary of await store.list({ state: 'all', limit: 10_000 })) {
+      const i = (await store.get(summary.id))!;
+      incidents.push({ incidentId: i.id, state: describeState(i), peakSeverity: i.peakSeverity, openedAt: i.openedAt, lastSampledAt: i.lastSampledAt, closed: i.closed?.how ?? null });
+    }
+    return { stored, incidents: incidents.sort(byId) };
+  } finally {
+    await Promise.all([results.close(), evaluate.close()]);
+    for (const w of workers) expect(await w.stop()).toBe(0);
+  }
+}
+
+describe('two worker processes taking a burst that spans many sampling months', () => {
+  it('open only the incidents of replay, none withdrawn later, and both take part', async () => {
+    const file = join(dir, 'fleet.csv');
+    writeFileSync(file, fleetCsv(inventedFleet({ units: UNITS, samplesPerUnit: SAMPLES, seed: SEED })));
+    const replayConfig = join(dir, 'replay.yaml');
+    writeFileSync(replayConfig, config('{replay}'));
+    const replayed = await runCli(['replay', file, '--config', replayConfig, '--json'], { REDIS_URL: server.url }, 300_000);
+    expect(replayed.code).toBe(0);
+    const verdicts = replayed.stdout
+      .trim()
+      .split('\n')
+      .map((l) => JSON.parse(l) as { type: string })
+      .filter((l): l is Verdict & { type: 'verdict' } => l.type === 'verdict')
+      .map(({ incidentId, state, peakSeverity, openedAt, lastSampledAt, closed }) => ({ incidentId, state, peakSeverity, openedAt, lastSampledAt, closed }))
+      .sort(byId);
+    expect(verdicts.length).toBeGreaterThan(2);
+
+    const rounds = [];
+    for (let n = 1; n <= ROUNDS; n++) rounds.push(await round(n, file));
+    console.info(`withdrawn incidents per round: ${rounds.map((r) => r.incidents.filter((i) => i.closed === 'withdrawn').length).join(', ')}`);
+
+    // Both processes stored part of the burst in every round, every result once.
+    for (const r of rounds) {
+      expect(r.stored.every((n) => n > 0)).toBe(true);
+      expect(r.stored[0]! + r.stored[1]!).toBe(RESULTS);
+    }
+    // No incident opened and later withdrawn, in any round; the incidents are replay's.
+    expect(rounds.map((r) => r.incidents.filter((i) => i.closed === 'withdrawn'))).toEqual(rounds.map(() => []));
+    for (const r of rounds) expect(r.incidents).toEqual(verdicts);
+  }, 900_000);
+});
