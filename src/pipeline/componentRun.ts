@@ -90,11 +90,6 @@ export class ComponentRun {
     }
   }
 
-  /** The sampling time of the last result the component's previous commit judged; undefined when none was. */
-  get judgedTo(): number | undefined {
-    return this.input.latest?.position?.time;
-  }
-
   /** The position of the last sample folded (the checkpoint's when none). */
   get position(): StepPosition | null {
     return this.last !== undefined ? positionOf(this.last) : this.start.position;

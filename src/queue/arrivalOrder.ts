@@ -16,11 +16,8 @@ export interface ActiveJob {
   readonly month: number;
 }
 
-/**
- * The results jobs active on a partition's queue, in any process, that arrived before `before` and are not among
- * `skip` (this process's own).
- */
-export type ActiveJobs = (before: number, skip: (order: number) => boolean) => Promise<readonly ActiveJob[]>;
+/** The results jobs active on a partition's queue, in any process, but those of `skip` (this process's own). */
+export type ActiveJobs = (skip: (order: number) => boolean) => Promise<readonly ActiveJob[]>;
 
 /** The first instant (epoch ms, UTC) of the month of `time`. */
 export function monthStart(time: number): number {
@@ -40,17 +37,14 @@ export function arrivalOf(jobId: string | undefined): number | undefined {
  * active list, the component and month of each from its job's data (read once per job; a job's data does not change).
  * Ids that are not numbers (a job added with an id of its own) are left out: they carry no order.
  */
-/** Jobs described at most before those not active now are forgotten. */
-const KNOWN_AT_MOST = 20_000;
-
 export function activeJobs(redis: RedisConnection, queueKey: string): ActiveJobs {
   const activeKey = `${queueKey}:active`;
   const known = new Map<number, ActiveJob>();
-  return async (before, skip) => {
+  return async (skip) => {
     const ids: number[] = [];
     for (const id of await redis.lrange(activeKey, 0, -1)) {
       const n = arrivalOf(id);
-      if (n !== undefined && n < before && !skip(n)) ids.push(n);
+      if (n !== undefined && !skip(n)) ids.push(n);
     }
     const unknown = ids.filter((n) => !known.has(n));
     if (unknown.length > 0) {
@@ -59,10 +53,9 @@ export function activeJobs(redis: RedisConnection, queueKey: string): ActiveJobs
       const answers = (await pipeline.exec()) ?? [];
       unknown.forEach((n, i) => known.set(n, describe(n, answers[i]?.[1])));
     }
-    // Jobs no longer active are forgotten (all of them now and then, should later ones pile up).
+    // Jobs no longer active (or this process's own now) are forgotten.
     const current = new Set(ids);
-    for (const n of known.keys()) if (!current.has(n) && n < before) known.delete(n);
-    if (known.size > KNOWN_AT_MOST) for (const n of known.keys()) if (!current.has(n)) known.delete(n);
+    for (const n of known.keys()) if (!current.has(n)) known.delete(n);
     return ids.map((n) => known.get(n)!);
   };
 }

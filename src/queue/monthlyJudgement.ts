@@ -62,10 +62,9 @@ export interface MonthlyJudgementOptions {
   /**
    * Before its commit, a run folds what is left of its read: everything, or what was sampled before the time this
    * gives (epoch ms; results of the component waiting to be judged next, from whose month on the rest stays due).
-   * `judgedTo`: the sampling time of the last result the component's previous commit had judged (undefined: none).
    * Default: everything.
    */
-  readonly foldUntil?: (ref: ComponentRef, judgedTo: number | undefined) => number | undefined;
+  readonly foldUntil?: (ref: ComponentRef) => number | undefined;
 }
 
 export class MonthlyJudgement {
@@ -207,7 +206,7 @@ export class MonthlyJudgement {
     if (run === undefined) return;
     this.runs.delete(key);
     try {
-      await run.foldStored(this.options.foldUntil?.(run.ref, run.judgedTo));
+      await run.foldStored(this.options.foldUntil?.(run.ref));
     } catch (e) {
       await run.abandon().catch(() => undefined);
       throw e;

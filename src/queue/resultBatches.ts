@@ -16,8 +16,8 @@
  * `ARRIVAL_POLL_MS`, at most `arrivalWaitMs`); the rest waits for the next batch. The process that holds the earliest
  * result not yet judged never waits, so the processes take turns, and a burst spanning months is judged month by
  * month across them as one process judges it: no component is judged past a month whose results another process
- * still holds. A batch's commit folds no stored result beyond the batch's last month of the component (those belong to
- * a later batch, here or in another process) other than the ones it had judged before.
+ * still holds. A batch's commit folds no stored result of a component from the month of its earliest result another
+ * process holds (that process's batch judges them).
  */
 import { componentKey, type Sample } from '../domain/event.ts';
 import { monthOf, startOfNextMonth } from '../pipeline/groupShares.ts';
@@ -39,6 +39,13 @@ interface Pending {
 interface Waiting {
   readonly ref: ComponentRef;
   readonly pending: Pending[];
+}
+
+/** A batch: what it judges, and where another process holds results of its components. */
+interface Taken {
+  readonly batch: Batched[];
+  /** By `componentKey`: the first instant of the earliest sampling month of its results another process holds. */
+  readonly heldFrom: ReadonlyMap<string, number>;
 }
 
 /** A component's share of a batch. */
@@ -131,11 +138,11 @@ export class ResultBatches {
     this.underWay = true;
     try {
       while (this.waiting.size > 0) {
-        const batch = this.options.activeJobs === undefined ? this.split([], Infinity) : await this.takeReady(this.options.activeJobs);
+        const { batch, heldFrom } = this.options.activeJobs === undefined ? { batch: this.split([], Infinity), heldFrom: new Map<string, number>() } : await this.takeReady(this.options.activeJobs);
         this.counts.batches += 1;
         this.counts.components += batch.length;
         this.deps.metrics?.batched(batch.length, batch.reduce((n, w) => n + w.pending.length, 0));
-        const failures = await this.judgeBatch(batch).catch((e: unknown) => new Map(batch.map((w) => [componentKey(w.ref), e])));
+        const failures = await this.judgeBatch(batch, heldFrom).catch((e: unknown) => new Map(batch.map((w) => [componentKey(w.ref), e])));
         for (const w of batch) {
           const key = componentKey(w.ref);
           for (const waiter of w.pending) {
@@ -153,18 +160,18 @@ export class ResultBatches {
    * Takes the waiting results no result held by another process must come before (all of them with one process, or
    * once `arrivalWaitMs` has passed); the others stay waiting, with those arriving meanwhile.
    */
-  private async takeReady(activeJobs: ActiveJobs): Promise<Batched[]> {
+  private async takeReady(activeJobs: ActiveJobs): Promise<Taken> {
     const started = performance.now();
     let waited = false;
     for (;;) {
       const { elsewhere, checked } = await this.heldElsewhere(activeJobs);
       const ready = this.split(elsewhere, checked);
-      if (ready.length > 0) return ready;
+      if (ready.length > 0) return { batch: ready, heldFrom: heldFrom(elsewhere) };
       // Results that arrived here during the look are looked at again at once.
       if (this.unchecked(checked)) continue;
       if (performance.now() - started >= this.arrivalWaitMs) {
         this.deps.logger.warn({ waitedMs: Math.round(performance.now() - started), results: [...this.waiting.values()].reduce((n, w) => n + w.pending.length, 0) }, 'results judged without earlier ones another worker process still holds');
-        return this.split([], Infinity);
+        return { batch: this.split([], Infinity), heldFrom: heldFrom(elsewhere) };
       }
       if (!waited) this.counts.arrivalWaits += 1;
       waited = true;
@@ -173,9 +180,9 @@ export class ResultBatches {
   }
 
   /**
-   * The active results jobs another process holds that arrived before a result waiting here, and the latest arrival
-   * order they were looked up for (`checked`: the results waiting here then; those handed over during the look arrived
-   * later). None, and every result checked, when Redis does not answer.
+   * The active results jobs another process holds, and the latest arrival order of the results waiting here when they
+   * were looked up (`checked`; those handed over during the look arrived later). None, and every result checked, when
+   * Redis does not answer.
    */
   private async heldElsewhere(activeJobs: ActiveJobs): Promise<{ readonly elsewhere: readonly ActiveJob[]; readonly checked: number }> {
     let latest = -Infinity;
@@ -186,10 +193,9 @@ export class ResultBatches {
           waiting.add(p.order);
           if (p.order > latest) latest = p.order;
         }
-    if (latest === -Infinity) return { elsewhere: [], checked: latest };
     try {
       // Its own results are told apart once the list is in: a job of this process that ended meanwhile has left it.
-      return { elsewhere: await activeJobs(latest, (order) => this.held.has(order) || waiting.has(order)), checked: latest };
+      return { elsewhere: await activeJobs((order) => this.held.has(order) || waiting.has(order)), checked: latest };
     } catch {
       // Redis does not answer: the batch's own reads fail the same way, and its jobs are retried.
       return { elsewhere: [], checked: Infinity };
@@ -243,10 +249,8 @@ export class ResultBatches {
   }
 
   /** Judges a batch; the components whose judgement failed, with the error. */
-  private async judgeBatch(batch: readonly Batched[]): Promise<Map<string, unknown>> {
+  private async judgeBatch(batch: readonly Batched[], heldFrom: ReadonlyMap<string, number>): Promise<Map<string, unknown>> {
     const failures = new Map<string, unknown>();
-    // The end of each component's last month in the batch.
-    const batchEnd = new Map(batch.map((w) => [componentKey(w.ref), startOfNextMonth([...w.months].sort().at(-1)!)]));
     const judgement = new MonthlyJudgement(this.deps, {
       retryMs: this.retryMs,
       ...(this.options.atOnce !== undefined && { atOnce: this.options.atOnce }),
@@ -256,15 +260,14 @@ export class ResultBatches {
       // process or another; a scheduled evaluation for a cascade or a responder's mark). An evaluation of everything
       // stored would judge the component past the months of the next batch, whose group shares would judge it again.
       unsettledJudgedElsewhere: true,
-      // What a run read beyond the batch's months is folded now as far as it was judged before (a late result rewound
-      // it over them), except from the month of the component's results waiting for the next batch, which judges them;
-      // results stored after the batch's months and not judged yet are left to the batch that holds them.
-      foldUntil: (ref, judgedTo) => {
+      // What a run read beyond the batch's months is folded now (a late result rewound it over results judged before),
+      // except from the month of the component's results waiting for the next batch, which judges them, or held by
+      // another process, whose batch judges them.
+      foldUntil: (ref) => {
         const key = componentKey(ref);
         const next = this.waiting.get(key);
-        const nextMonth = next === undefined ? Infinity : Math.min(...next.pending.map((p) => Date.parse(`${monthOf(p.time)}-01T00:00:00Z`)));
-        const judged = judgedTo === undefined ? -Infinity : judgedTo + 1;
-        return Math.min(nextMonth, Math.max(batchEnd.get(key) ?? -Infinity, judged));
+        const until = Math.min(next === undefined ? Infinity : Math.min(...next.pending.map((p) => monthStart(p.time))), heldFrom.get(key) ?? Infinity);
+        return until === Infinity ? undefined : until;
       },
     });
     try {
@@ -281,4 +284,11 @@ export class ResultBatches {
     }
     return failures;
   }
+}
+
+/** By component: the first instant of the earliest sampling month of its results held by another process. */
+function heldFrom(elsewhere: readonly ActiveJob[]): Map<string, number> {
+  const out = new Map<string, number>();
+  for (const job of elsewhere) if (job.component !== undefined && job.month < (out.get(job.component) ?? Infinity)) out.set(job.component, job.month);
+  return out;
 }

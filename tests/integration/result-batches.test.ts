@@ -203,8 +203,8 @@ describe('live results judged in batches', () => {
     // The results jobs active in either process, by arrival order (the queue's job ids), as the queue would tell them.
     const active = new Set<number>();
     const options: ResultBatchesOptions = {
-      activeJobs: async (before, skip) =>
-        [...active].filter((o) => o < before && !skip(o)).map((o) => ({ order: o, component: componentKey(ordered[o - 1]!), month: monthStart(ordered[o - 1]!.time) })),
+      activeJobs: async (skip) =>
+        [...active].filter((o) => !skip(o)).map((o) => ({ order: o, component: componentKey(ordered[o - 1]!), month: monthStart(ordered[o - 1]!.time) })),
     };
     const a = line(undefined, options);
     const b = line(a.prefix, options);
