@@ -6,6 +6,7 @@
  * incidents once Redis answers.
  */
 import { spawn } from 'node:child_process';
+import { createServer, type Server } from 'node:net';
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -138,6 +139,10 @@ describe('wearshift serve with OPC UA', () => {
       const inStopped = await openIncident(stopped.client(), '{downatstart}', 'PS9-D1');
       const inFrozen = await openIncident(frozen.client(), '{hungatstart}', 'PS9-H1');
       await stopped.stop();
+      // The stopped Redis's port stays taken while it is down, by a listener that drops every connection at once (to a
+      // client, a Redis that is not there): otherwise another test file's freshly started server could take the port
+      // and answer in its place.
+      const placeholder = await holdPort(stopped.port);
       frozen.pause();
       const refresh = ['  refreshSeconds: 1'];
       const served = await startAlive('serve', { REDIS_URL: stopped.url, WEARSHIFT_CONFIG: configFile('downatstart', serveOpcua, refresh) }, []);
@@ -147,6 +152,7 @@ describe('wearshift serve with OPC UA', () => {
         expect(await browseNames(`opc.tcp://127.0.0.1:${opcuaPort}/wearshift`, 'ns=1;s=Wearshift')).toEqual(expect.any(Array));
       }
       expect(served.output()).toContain('OPC UA: the open incidents could not be read');
+      await new Promise<void>((resolve) => placeholder.close(() => resolve()));
       await stopped.start();
       frozen.resume();
       for (const [proc, opcuaPort, unit, id] of [[served, serveOpcua, 'PS9-D1', inStopped], [api, apiOpcua, 'PS9-H1', inFrozen]] as const) {
@@ -161,3 +167,12 @@ describe('wearshift serve with OPC UA', () => {
     }
   }, 600_000);
 });
+
+/** A listener on `port` (127.0.0.1) that drops every connection as soon as it is made. */
+function holdPort(port: number): Promise<Server> {
+  return new Promise((resolve, reject) => {
+    const server = createServer((socket) => socket.destroy());
+    server.on('error', reject);
+    server.listen(port, '127.0.0.1', () => resolve(server));
+  });
+}
