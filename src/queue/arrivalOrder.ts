@@ -14,6 +14,8 @@ export interface ActiveJob {
   readonly component: string | undefined;
   /** The first instant (epoch ms, UTC) of the result's sampling month; -Infinity when its data has no sampling time. */
   readonly month: number;
+  /** Waiting to be taken (at the head of the wait list), not held by any worker. */
+  readonly queued: boolean;
 }
 
 /** The results jobs active on a partition's queue, in any process, but those of `skip` (this process's own). */
@@ -33,18 +35,39 @@ export function arrivalOf(jobId: string | undefined): number | undefined {
 }
 
 /**
- * The active jobs of the queue whose BullMQ keys start with `queueKey` (`<prefix>:<queue name>`): ids from the queue's
- * active list, the component and month of each from its job's data (read once per job; a job's data does not change).
- * Ids that are not numbers (a job added with an id of its own) are left out: they carry no order.
+ * Jobs at the head of the wait list looked at besides the active ones: a job taken back from a worker that died (its
+ * lock lapsed, and a stall check put it back at the head of the line) arrived before the results that others hold, and
+ * is waited for until another worker has taken and judged it. In the normal course every waiting job arrived after
+ * every active one, and none of them holds anything up.
+ */
+export const WAIT_HEAD_LOOKED_AT = 100;
+
+/**
+ * The active jobs of the queue whose BullMQ keys start with `queueKey` (`<prefix>:<queue name>`), and those at the
+ * head of its wait list (`WAIT_HEAD_LOOKED_AT`): ids from the lists, the component and month of each from its job's
+ * data (read once per job; a job's data does not change). Ids that are not numbers (a job added with an id of its own)
+ * are left out: they carry no order.
  */
 export function activeJobs(redis: RedisConnection, queueKey: string): ActiveJobs {
   const activeKey = `${queueKey}:active`;
-  const known = new Map<number, ActiveJob>();
+  const waitKey = `${queueKey}:wait`;
+  const known = new Map<number, Omit<ActiveJob, 'queued'>>();
   return async (skip) => {
     const ids: number[] = [];
-    for (const id of await redis.lrange(activeKey, 0, -1)) {
+    const queued = new Set<number>();
+    const [active, head] = ((await redis.pipeline().lrange(activeKey, 0, -1).lrange(waitKey, -WAIT_HEAD_LOOKED_AT, -1).exec()) ?? []).map(([err, list]) => {
+      if (err) throw err;
+      return list as string[];
+    });
+    for (const id of active ?? []) {
       const n = arrivalOf(id);
       if (n !== undefined && !skip(n)) ids.push(n);
+    }
+    for (const id of head ?? []) {
+      const n = arrivalOf(id);
+      if (n === undefined || skip(n)) continue;
+      ids.push(n);
+      queued.add(n);
     }
     const unknown = ids.filter((n) => !known.has(n));
     if (unknown.length > 0) {
@@ -56,12 +79,12 @@ export function activeJobs(redis: RedisConnection, queueKey: string): ActiveJobs
     // Jobs no longer active (or this process's own now) are forgotten.
     const current = new Set(ids);
     for (const n of known.keys()) if (!current.has(n)) known.delete(n);
-    return ids.map((n) => known.get(n)!);
+    return ids.map((n) => ({ ...known.get(n)!, queued: queued.has(n) }));
   };
 }
 
 /** What a job's data says of its result, as far as it can be read (the worker validates it when it takes the job). */
-function describe(order: number, data: unknown): ActiveJob {
+function describe(order: number, data: unknown): Omit<ActiveJob, 'queued'> {
   let component: string | undefined;
   let month = -Infinity;
   if (typeof data === 'string') {

@@ -60,7 +60,7 @@ interface Batched {
 export const ARRIVAL_POLL_MS = 5;
 
 /** Default of `arrivalWaitMs`: a batch judges without the earlier results another process holds after this long. */
-export const DEFAULT_ARRIVAL_WAIT_MS = 30_000;
+export const DEFAULT_ARRIVAL_WAIT_MS = 90_000;
 
 export interface ResultBatchesOptions {
   /** Delay of the evaluation scheduled for a component another worker holds. Default 200 ms. */
@@ -74,12 +74,18 @@ export interface ResultBatchesOptions {
    */
   readonly activeJobs?: ActiveJobs;
   /**
-   * Longest wait of a batch for earlier results another process holds (a process that hangs without dying keeps its
-   * jobs active; one that dies gives them up after its job lock lapses): after it, the batch judges without them, and
-   * their judgement later judges again what they change (an incident opened meanwhile may be withdrawn).
-   * Default DEFAULT_ARRIVAL_WAIT_MS (30 000 ms).
+   * Longest wait of a batch for earlier results another process holds or that wait to be taken (a process that hangs
+   * without dying keeps its jobs active; one that dies gives them up once its job lock lapses and a stall check puts
+   * them back at the head of the line, within about a minute with BullMQ's defaults): after it, the batch judges
+   * without them, and their judgement later judges again what they change (an incident opened meanwhile may be
+   * withdrawn). Default DEFAULT_ARRIVAL_WAIT_MS (90 000 ms).
    */
   readonly arrivalWaitMs?: number;
+  /**
+   * Results jobs this process takes at once (the worker's concurrency): while it holds that many, it cannot take the
+   * earlier results waiting to be taken, and does not wait for them. Default: no limit.
+   */
+  readonly takesAtOnce?: number;
 }
 
 export class ResultBatches {
@@ -195,7 +201,10 @@ export class ResultBatches {
         }
     try {
       // Its own results are told apart once the list is in: a job of this process that ended meanwhile has left it.
-      return { elsewhere: await activeJobs((order) => this.held.has(order) || waiting.has(order)), checked: latest };
+      const elsewhere = await activeJobs((order) => this.held.has(order) || waiting.has(order));
+      // With every slot taken, results waiting to be taken are left to the other processes (or to the next batch).
+      const full = this.held.size >= (this.options.takesAtOnce ?? Infinity);
+      return { elsewhere: full ? elsewhere.filter((job) => !job.queued) : elsewhere, checked: latest };
     } catch {
       // Redis does not answer: the batch's own reads fail the same way, and its jobs are retried.
       return { elsewhere: [], checked: Infinity };

@@ -50,7 +50,8 @@ export interface WorkerSettings extends QueueSettings {
   /**
    * Longest wait of a batch of results for results that arrived before it and that another worker process holds
    * (resultBatches.ts): processes judge a partition's results in arrival order, so that a burst spanning sampling
-   * months gives the verdicts of one process. After the wait a batch judges without them. Default 30 000 ms.
+   * months gives the verdicts of one process. After the wait a batch judges without them. Default 90 000 ms (a dead
+   * worker's jobs come back within about a minute: `jobLockMs` plus up to two stall checks).
    */
   arrivalWaitMs?: number;
   /** Components this process evaluates at once from the evaluate queue, per partition. Default 2. */
@@ -205,7 +206,7 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   for (const p of partitions.all()) {
     const prefix = partitions.tag(p);
     // The partition's results are judged in the order they arrived on its queue, across processes (arrivalOrder.ts).
-    const batches = new ResultBatches(runner, { retryMs: s.busyRetryMs, activeJobs: activeJobs(deps.connection, `${prefix}:${QUEUE_NAMES.results}`), arrivalWaitMs: s.arrivalWaitMs });
+    const batches = new ResultBatches(runner, { retryMs: s.busyRetryMs, activeJobs: activeJobs(deps.connection, `${prefix}:${QUEUE_NAMES.results}`), arrivalWaitMs: s.arrivalWaitMs, takesAtOnce: s.resultsConcurrency });
     workers.push(new Worker(QUEUE_NAMES.results, resultsProcessor(runner, s.busyRetryMs, batches), options(prefix, s.resultsConcurrency, queueSettings.attempts)));
     workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs), options(prefix, s.evaluateConcurrency, queueSettings.attempts)));
   }

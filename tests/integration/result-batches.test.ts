@@ -204,7 +204,7 @@ describe('live results judged in batches', () => {
     const active = new Set<number>();
     const options: ResultBatchesOptions = {
       activeJobs: async (skip) =>
-        [...active].filter((o) => !skip(o)).map((o) => ({ order: o, component: componentKey(ordered[o - 1]!), month: monthStart(ordered[o - 1]!.time) })),
+        [...active].filter((o) => !skip(o)).map((o) => ({ order: o, component: componentKey(ordered[o - 1]!), month: monthStart(ordered[o - 1]!.time), queued: false })),
     };
     const a = line(undefined, options);
     const b = line(a.prefix, options);
@@ -237,7 +237,7 @@ describe('live results judged in batches', () => {
   });
 
   it('a batch judges without an earlier result another process holds once its wait is over', async () => {
-    const waits = line(undefined, { activeJobs: async () => [{ order: 1, component: undefined, month: -Infinity }], arrivalWaitMs: 50 });
+    const waits = line(undefined, { activeJobs: async () => [{ order: 1, component: undefined, month: -Infinity, queued: false }], arrivalWaitMs: 50 });
     try {
       const s = samples[0]!;
       await waits.store(s);
