@@ -144,20 +144,31 @@ export interface ToldOnce {
   /** `incidentId:eventSeq:channel:tier:target` of every message the timelines say went out. */
   readonly keys: string[];
   readonly byChannel: { email: string[]; webhook: string[] };
+  /**
+   * Messages the timelines say were held back after an attempt had begun (`withdrawn[].attemptedAt`): they may have
+   * reached their target then, or not. Held back before any attempt, a message is not sent, and counted nowhere.
+   */
+  readonly mayHaveArrived: { email: string[]; webhook: string[] };
 }
 
 /** The notifications the incidents record (the effect keys, which are the messages' idempotency keys). */
 export function recordedNotifications(incidents: readonly Incident[]): ToldOnce {
   const keys: string[] = [];
+  const uncertain: string[] = [];
   for (const inc of incidents) {
     for (const entry of inc.notifications) {
+      const heldBack = new Map((entry.withdrawn ?? []).map((w) => [w.target, w]));
       for (const target of entry.targets) {
         const [channel, ...rest] = target.split(':');
-        keys.push(`${inc.id}:${entry.eventSeq}:${channel}:${entry.tier}:${rest.join(':')}`);
+        const key = `${inc.id}:${entry.eventSeq}:${channel}:${entry.tier}:${rest.join(':')}`;
+        const held = heldBack.get(target);
+        if (held === undefined) keys.push(key);
+        else if (held.attemptedAt !== undefined) uncertain.push(key);
       }
     }
   }
-  return { keys, byChannel: { email: keys.filter((k) => k.includes(':email:')), webhook: keys.filter((k) => k.includes(':webhook:')) } };
+  const byChannel = (list: string[]) => ({ email: list.filter((k) => k.includes(':email:')), webhook: list.filter((k) => k.includes(':webhook:')) });
+  return { keys, byChannel: byChannel(keys), mayHaveArrived: byChannel(uncertain) };
 }
 
 /**

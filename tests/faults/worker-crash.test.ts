@@ -2,8 +2,9 @@
  * A worker process killed with SIGKILL in the middle of a backfill, and another started in its place: the
  * jobs it held stall and BullMQ hands them to the new worker. Once with one job per result, once with the backfill
  * sent as history jobs (a killed history job is taken up again whole: its results already stored are recognised). Every accepted result must be stored once,
- * and every notification the incident timelines record must reach the real SMTP server and the real
- * webhook receiver under its idempotency key exactly once. Both receivers record raw deliveries; a raw repeat
+ * and every notification the incident timelines record as sent must reach the real SMTP server and the real
+ * webhook receiver under its idempotency key exactly once (a message the timeline records as held back, its incident
+ * having changed meanwhile, is not sent; one held back after an attempt had begun may have arrived). Both receivers record raw deliveries; a raw repeat
  * is allowed only for a message the dead worker was delivering when it was killed (at-least-once delivery:
  * the repeat carries the same Message-ID / webhook-id, for the receiver to drop).
  */
@@ -95,8 +96,11 @@ async function crashMidBackfill(sending: Sending, seed: number): Promise<void> {
   expect(told.byChannel.webhook.length).toBeGreaterThan(0);
 
   // Webhooks: the webhook-id is the notification's idempotency key (the effect key, percent-encoded).
+  // Every message the timelines say went out, and beside them only messages held back after an attempt had begun.
   const delivered = hooks.delivered();
-  expect([...delivered.keys()].map(effectKeyOf).sort()).toEqual([...told.byChannel.webhook].sort());
+  const deliveredKeys = [...delivered.keys()].map(effectKeyOf);
+  expect(deliveredKeys.filter((k) => told.byChannel.webhook.includes(k)).sort()).toEqual([...told.byChannel.webhook].sort());
+  expect(deliveredKeys.filter((k) => !told.byChannel.webhook.includes(k) && !told.mayHaveArrived.webhook.includes(k))).toEqual([]);
   expect(hooks.attempts.every((a) => a.verified)).toBe(true);
   // As for e-mail below: only a delivery the dead worker had made but not recorded may come twice.
   const hookRepeats = [...delivered.entries()].filter(([, n]) => n > 1).map(([id]) => id);
@@ -109,10 +113,16 @@ async function crashMidBackfill(sending: Sending, seed: number): Promise<void> {
 
   // E-mail: one Message-ID per recorded e-mail notification (the Message-ID derives from the idempotency
   // key), each about a known incident.
+  // A message held back after an attempt had begun may have arrived or not (`mayHaveArrived`).
   const distinct = [...new Map(smtp.mails.map((m) => [m.messageId, m])).values()];
-  expect(distinct).toHaveLength(told.byChannel.email.length);
+  expect(distinct.length).toBeGreaterThanOrEqual(told.byChannel.email.length);
+  expect(distinct.length).toBeLessThanOrEqual(told.byChannel.email.length + told.mayHaveArrived.email.length);
   const mailsPerIncident = (id: string) => distinct.filter((m) => m.incidentId === id).length;
-  for (const inc of incidents) expect(mailsPerIncident(inc.id)).toBe(told.byChannel.email.filter((k) => k.startsWith(`${inc.id}:`)).length);
+  for (const inc of incidents) {
+    const of = (keys: string[]) => keys.filter((k) => k.startsWith(`${inc.id}:`)).length;
+    expect(mailsPerIncident(inc.id)).toBeGreaterThanOrEqual(of(told.byChannel.email));
+    expect(mailsPerIncident(inc.id)).toBeLessThanOrEqual(of(told.byChannel.email) + of(told.mayHaveArrived.email));
+  }
   // Delivery is at least once: a message the dead worker had sent but not yet recorded as sent goes out
   // again, with the same Message-ID. Only such messages may repeat, once: the job among those the dead worker
   // held, the repeat from the worker started after the kill. (The job names the event in full, `wearshift.incident.opened`;
