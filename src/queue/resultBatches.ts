@@ -59,6 +59,12 @@ interface Batched {
 /** How often a batch waiting for results another process holds looks again. */
 export const ARRIVAL_POLL_MS = 5;
 
+/**
+ * How long an earlier result waiting to be taken is waited for while no worker takes it (every process that could is
+ * holding as many results jobs as it takes at once, each waiting in turn); once taken, it is waited for as any other.
+ */
+export const QUEUED_GRACE_MS = 5_000;
+
 /** Default of `arrivalWaitMs`: a batch judges without the earlier results another process holds after this long. */
 export const DEFAULT_ARRIVAL_WAIT_MS = 90_000;
 
@@ -81,15 +87,12 @@ export interface ResultBatchesOptions {
    * withdrawn). Default DEFAULT_ARRIVAL_WAIT_MS (90 000 ms).
    */
   readonly arrivalWaitMs?: number;
-  /**
-   * Results jobs this process takes at once (the worker's concurrency): while it holds that many, it cannot take the
-   * earlier results waiting to be taken, and does not wait for them. Default: no limit.
-   */
-  readonly takesAtOnce?: number;
 }
 
 export class ResultBatches {
   private waiting = new Map<string, Waiting>();
+  /** When each earlier result waiting to be taken was first seen so (performance.now()), by arrival order. */
+  private queuedSince = new Map<number, number>();
   /** Arrival orders of the results jobs this process holds (from `hold` to its release). */
   private readonly held = new Map<number, number>();
   private underWay = false;
@@ -202,9 +205,17 @@ export class ResultBatches {
     try {
       // Its own results are told apart once the list is in: a job of this process that ended meanwhile has left it.
       const elsewhere = await activeJobs((order) => this.held.has(order) || waiting.has(order));
-      // With every slot taken, results waiting to be taken are left to the other processes (or to the next batch).
-      const full = this.held.size >= (this.options.takesAtOnce ?? Infinity);
-      return { elsewhere: full ? elsewhere.filter((job) => !job.queued) : elsewhere, checked: latest };
+      // A result waiting to be taken that no worker takes within QUEUED_GRACE_MS is not waited for any longer.
+      const now = performance.now();
+      const since = new Map<number, number>();
+      const kept = elsewhere.filter((job) => {
+        if (!job.queued) return true;
+        const first = this.queuedSince.get(job.order) ?? now;
+        since.set(job.order, first);
+        return now - first < QUEUED_GRACE_MS;
+      });
+      this.queuedSince = since;
+      return { elsewhere: kept, checked: latest };
     } catch {
       // Redis does not answer: the batch's own reads fail the same way, and its jobs are retried.
       return { elsewhere: [], checked: Infinity };

@@ -206,7 +206,7 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   for (const p of partitions.all()) {
     const prefix = partitions.tag(p);
     // The partition's results are judged in the order they arrived on its queue, across processes (arrivalOrder.ts).
-    const batches = new ResultBatches(runner, { retryMs: s.busyRetryMs, activeJobs: activeJobs(deps.connection, `${prefix}:${QUEUE_NAMES.results}`), arrivalWaitMs: s.arrivalWaitMs, takesAtOnce: s.resultsConcurrency });
+    const batches = new ResultBatches(runner, { retryMs: s.busyRetryMs, activeJobs: activeJobs(deps.connection, `${prefix}:${QUEUE_NAMES.results}`), arrivalWaitMs: s.arrivalWaitMs });
     workers.push(new Worker(QUEUE_NAMES.results, resultsProcessor(runner, s.busyRetryMs, batches), options(prefix, s.resultsConcurrency, queueSettings.attempts)));
     workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs), options(prefix, s.evaluateConcurrency, queueSettings.attempts)));
   }
