@@ -11,7 +11,6 @@ import { join } from 'node:path';
 import type { Cluster } from 'ioredis';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
-import { describeState } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
 import { hashSlot } from '../../src/redis/hashSlot.ts';
@@ -22,6 +21,7 @@ import { runCli } from '../helpers/cli.ts';
 import { fleetCsv, inventedFleet } from '../helpers/fleetCsv.ts';
 import { startWearshift, stopAll, type WearshiftProcess } from '../helpers/processes.ts';
 import { drained } from '../helpers/queueDrain.ts';
+import { replayVerdictRows, storedVerdictRows } from '../helpers/incidentVerdict.ts';
 import { startRedisCluster, type RedisCluster } from '../../src/runtime/embeddedRedisCluster.ts';
 
 const PREFIX = '{ws}';
@@ -57,16 +57,6 @@ afterAll(async () => {
   await cluster?.dispose();
   if (dir) rmSync(dir, { recursive: true, force: true });
 });
-
-interface VerdictLine {
-  type: 'verdict';
-  incidentId: string;
-  state: string;
-  peakSeverity: string;
-  openedAt: string;
-  lastSampledAt: string;
-  closed: string | null;
-}
 
 describe('two worker processes on a Redis Cluster of 3 masters', () => {
   it('store every result once, reach the incidents of replay, and spread the keys over the shards', async () => {
@@ -127,22 +117,10 @@ describe('two worker processes on a Redis Cluster of 3 masters', () => {
 
       // The incidents of replay on the same file.
       const store = new RedisIncidents(redis, { rules: incidentRules(config), prefix: PREFIX, partitions: PARTITIONS });
-      const live = [];
-      for (const summary of await store.list({ state: 'all', limit: 1000 })) {
-        const i = (await store.get(summary.id))!;
-        if (i.closed?.how === 'withdrawn') continue;
-        live.push({ incidentId: i.id, state: describeState(i), peakSeverity: i.peakSeverity, openedAt: i.openedAt, lastSampledAt: i.lastSampledAt, closed: i.closed?.how ?? null });
-      }
-      live.sort((a, b) => (a.incidentId < b.incidentId ? -1 : 1));
+      const live = await storedVerdictRows(store, { withoutWithdrawn: true });
       const replayed = await runCli(['replay', file, '--config', configFile, '--json'], env, 300_000);
       expect(replayed.code).toBe(0);
-      const verdicts = replayed.stdout
-        .trim()
-        .split('\n')
-        .map((l) => JSON.parse(l) as { type: string })
-        .filter((l): l is VerdictLine => l.type === 'verdict')
-        .map(({ incidentId, state, peakSeverity, openedAt, lastSampledAt, closed }) => ({ incidentId, state, peakSeverity, openedAt, lastSampledAt, closed }))
-        .sort((a, b) => (a.incidentId < b.incidentId ? -1 : 1));
+      const verdicts = replayVerdictRows(replayed.stdout);
       expect(live.length).toBeGreaterThan(2);
       expect(live).toEqual(verdicts);
 

@@ -14,7 +14,6 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
-import { describeState } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
@@ -22,6 +21,7 @@ import { runCli } from '../helpers/cli.ts';
 import { fleetCsv, inventedFleet } from '../helpers/fleetCsv.ts';
 import { startWearshift, stopAll, waitFor, type WearshiftProcess } from '../helpers/processes.ts';
 import { drained } from '../helpers/queueDrain.ts';
+import { replayVerdictRows, storedVerdictRows } from '../helpers/incidentVerdict.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 // One group whose population limits open incidents and are trusted early (12 results per band): what the group's
@@ -44,16 +44,6 @@ const SEED = 7;
 const RESULTS = UNITS * SAMPLES;
 // Which process takes which results varies from run to run; every round is a fresh pair of processes on a fresh prefix.
 const ROUNDS = 3;
-
-interface Verdict {
-  incidentId: string;
-  state: string;
-  peakSeverity: string;
-  openedAt: string;
-  lastSampledAt: string;
-  closed: string | null;
-}
-const byId = (a: Verdict, b: Verdict) => (a.incidentId < b.incidentId ? -1 : 1);
 
 let server: RedisServer;
 let dir: string;
@@ -106,12 +96,7 @@ async function round(n: number, file: string) {
 
     // Every incident, withdrawn ones too.
     const store = new RedisIncidents(redis, { rules: incidentRules(parseConfig(config(prefix))), prefix });
-    const incidents: Verdict[] = [];
-    for (const summary of await store.list({ state: 'all', limit: 10_000 })) {
-      const i = (await store.get(summary.id))!;
-      incidents.push({ incidentId: i.id, state: describeState(i), peakSeverity: i.peakSeverity, openedAt: i.openedAt, lastSampledAt: i.lastSampledAt, closed: i.closed?.how ?? null });
-    }
-    return { stored, incidents: incidents.sort(byId) };
+    return { stored, incidents: await storedVerdictRows(store) };
   } finally {
     await Promise.all([results.close(), evaluate.close()]);
     for (const w of workers) expect(await w.stop()).toBe(0);
@@ -126,13 +111,7 @@ describe('two worker processes taking a burst that spans many sampling months', 
     writeFileSync(replayConfig, config('{replay}'));
     const replayed = await runCli(['replay', file, '--config', replayConfig, '--json'], { REDIS_URL: server.url }, 300_000);
     expect(replayed.code).toBe(0);
-    const verdicts = replayed.stdout
-      .trim()
-      .split('\n')
-      .map((l) => JSON.parse(l) as { type: string })
-      .filter((l): l is Verdict & { type: 'verdict' } => l.type === 'verdict')
-      .map(({ incidentId, state, peakSeverity, openedAt, lastSampledAt, closed }) => ({ incidentId, state, peakSeverity, openedAt, lastSampledAt, closed }))
-      .sort(byId);
+    const verdicts = replayVerdictRows(replayed.stdout);
     expect(verdicts.length).toBeGreaterThan(2);
 
     const rounds = [];
