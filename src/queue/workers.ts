@@ -48,6 +48,12 @@ export interface WorkerSettings extends QueueSettings {
    */
   resultsConcurrency?: number;
   /**
+   * Several worker processes judge each partition's results in the order they arrived (resultBatches.ts, arrivalOrder.ts;
+   * `wearshift worker --arrival-order`). Default false: off until a worker killed mid-burst no longer loses an `opened`
+   * message now and then (README, *Several worker processes judge in arrival order*).
+   */
+  arrivalOrder?: boolean;
+  /**
    * Longest wait of a batch of results for results that arrived before it and that another worker process holds
    * (resultBatches.ts): processes judge a partition's results in arrival order, so that a burst spanning sampling
    * months gives the verdicts of one process. After the wait a batch judges without them. Default 90 000 ms (a dead
@@ -102,6 +108,7 @@ export interface WorkerSettings extends QueueSettings {
 export const WORKER_DEFAULTS = {
   partitions: 1,
   resultsConcurrency: 1000,
+  arrivalOrder: false,
   arrivalWaitMs: DEFAULT_ARRIVAL_WAIT_MS,
   evaluateConcurrency: 2,
   lockTtlMs: DEFAULT_LOCK_TTL_MS,
@@ -205,8 +212,8 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   const workers: Worker[] = [];
   for (const p of partitions.all()) {
     const prefix = partitions.tag(p);
-    // The partition's results are judged in the order they arrived on its queue, across processes (arrivalOrder.ts).
-    const batches = new ResultBatches(runner, { retryMs: s.busyRetryMs, activeJobs: activeJobs(deps.connection, `${prefix}:${QUEUE_NAMES.results}`), arrivalWaitMs: s.arrivalWaitMs });
+    // With arrivalOrder, the partition's results are judged in the order they arrived on its queue, across processes.
+    const batches = new ResultBatches(runner, { retryMs: s.busyRetryMs, ...(s.arrivalOrder && { activeJobs: activeJobs(deps.connection, `${prefix}:${QUEUE_NAMES.results}`) }), arrivalWaitMs: s.arrivalWaitMs });
     workers.push(new Worker(QUEUE_NAMES.results, resultsProcessor(runner, s.busyRetryMs, batches), options(prefix, s.resultsConcurrency, queueSettings.attempts)));
     workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs), options(prefix, s.evaluateConcurrency, queueSettings.attempts)));
   }

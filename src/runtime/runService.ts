@@ -18,6 +18,7 @@ export interface ServiceCommandOptions {
   opcuaPort?: string;
   historyThreads?: string;
   resultsAtOnce?: string;
+  arrivalOrder?: boolean;
 }
 
 export type ServiceKind = 'serve' | 'worker' | 'api';
@@ -83,7 +84,7 @@ export async function runService(kind: ServiceKind, opts: ServiceCommandOptions,
       env,
       ...(metricsPort !== undefined && { metricsPort }),
       ...(opcuaPort !== undefined && { opcuaPort }),
-      workerSettings: { ...(historyThreads !== undefined && { historyThreads }), ...(resultsAtOnce !== undefined && { resultsConcurrency: resultsAtOnce }) },
+      workerSettings: { ...(historyThreads !== undefined && { historyThreads }), ...(resultsAtOnce !== undefined && { resultsConcurrency: resultsAtOnce }), ...(opts.arrivalOrder === true && { arrivalOrder: true }) },
     });
   } catch (e) {
     // What did start is closed by then; a port in use is the user's to fix, not a stack trace.

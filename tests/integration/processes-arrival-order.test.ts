@@ -86,7 +86,7 @@ async function round(n: number, file: string) {
     expect(await results.isPaused()).toBe(true);
     expect(await results.getJobCounts('waiting', 'active', 'completed')).toEqual({ waiting: RESULTS, active: 0, completed: 0 });
 
-    workers.push(...(await Promise.all([0, 1].map(() => startWearshift('worker', { env, args: ['--config', configFile, '--results-at-once', '50'], readyTimeoutMs: 180_000 })))));
+    workers.push(...(await Promise.all([0, 1].map(() => startWearshift('worker', { env, args: ['--config', configFile, '--results-at-once', '50', '--arrival-order'], readyTimeoutMs: 180_000 })))));
     await waitFor('both workers taking results jobs', async () => (await results.getWorkersCount()) === 2, 180_000, 200);
     await results.resume();
     await drained([results, evaluate], 600_000);
