@@ -11,13 +11,14 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import type { Finding } from '../../src/domain/finding.ts';
-import { describeState } from '../../src/incidents/model.ts';
+
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
 import { runCli, startCli } from '../helpers/cli.ts';
 import { fleetCsv, inventedFleet } from '../helpers/fleetCsv.ts';
+import { replayVerdictRows, storedVerdictRows } from '../helpers/incidentVerdict.ts';
 import { drained } from '../helpers/queueDrain.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
@@ -50,16 +51,6 @@ afterAll(async () => {
 
 const findingKey = (f: Finding) => JSON.stringify([f.unit, f.component, f.sampleId, f.measurand, f.rule, f.check ?? '', f.direction ?? '', f.severity, f.disposition, f.value, f.threshold ?? null]);
 
-interface VerdictLine {
-  type: 'verdict';
-  incidentId: string;
-  state: string;
-  peakSeverity: string;
-  openedAt: string;
-  lastSampledAt: string;
-  closed: string | null;
-}
-
 describe('the live worker, replay and backtest', () => {
   it('give identical incidents and findings on the same file (2 400 results)', async () => {
     const file = join(dir, 'fleet.csv');
@@ -88,13 +79,7 @@ describe('the live worker, replay and backtest', () => {
       expect(components.reduce((n, c) => n + c.samples, 0)).toBe(2400);
       const liveFindings = (await Promise.all(components.map((c) => storage.findings(c)))).flat().flatMap((s) => s.findings);
       const store = new RedisIncidents(redis, { rules: incidentRules(config), prefix });
-      const live = [];
-      for (const summary of await store.list({ state: 'all', limit: 1000 })) {
-        const i = (await store.get(summary.id))!;
-        if (i.closed?.how === 'withdrawn') continue;
-        live.push({ incidentId: i.id, state: describeState(i), peakSeverity: i.peakSeverity, openedAt: i.openedAt, lastSampledAt: i.lastSampledAt, closed: i.closed?.how ?? null });
-      }
-      live.sort((a, b) => (a.incidentId < b.incidentId ? -1 : 1));
+      const live = await storedVerdictRows(store, { withoutWithdrawn: true });
 
       const replayed = await runCli(['replay', file, '--config', configFile, '--json'], env, 300_000);
       expect(replayed.code).toBe(0);
@@ -103,9 +88,7 @@ describe('the live worker, replay and backtest', () => {
       const notified = lines.filter((l) => l.change === 'notified');
       expect(notified.length).toBeGreaterThan(0);
       for (const l of notified) expect(l).toMatchObject({ type: 'incident', event: expect.stringMatching(/^wearshift\.incident\.[a-z]+$/) });
-      const verdicts = (lines.filter((l) => l.type === 'verdict') as unknown as VerdictLine[])
-        .map(({ incidentId, state, peakSeverity, openedAt, lastSampledAt, closed }) => ({ incidentId, state, peakSeverity, openedAt, lastSampledAt, closed }))
-        .sort((a, b) => (a.incidentId < b.incidentId ? -1 : 1));
+      const verdicts = replayVerdictRows(replayed.stdout);
       expect(live.length).toBeGreaterThan(3);
       expect(verdicts).toEqual(live);
 
