@@ -63,8 +63,11 @@ export class IncidentFold {
   /**
    * @param recorded incidents of the component on record that opened after the checkpoint (a refold may no longer
    *   produce them: they are withdrawn)
+   * @param leftDue ids of incidents opened by samples after the last one folded (a run judged up to a month's end left
+   *   them due): not this fold's to judge, they are neither withdrawn nor kept in its state, and stay on record as
+   *   they stand for the run that folds their samples (which reads them back with `recorded`)
    */
-  finish(recorded: readonly Incident[] = []): IncidentFoldResult {
+  finish(recorded: readonly Incident[] = [], leftDue: ReadonlySet<string> = new Set()): IncidentFoldResult {
     const draft = this.draft;
     const work: Work = { now: this.ctx.now, rules: this.ctx.rules, effects: [] };
     // Actions logged after a step the history no longer reaches still apply, at the end.
@@ -82,7 +85,7 @@ export class IncidentFold {
     }
     const withdrawn: DraftIncident[] = [];
     for (const before of told.values()) {
-      if (produced.has(before.id) || before.closed?.how === 'withdrawn' || before.closed?.how === 'sample-verdict') continue;
+      if (produced.has(before.id) || leftDue.has(before.id) || before.closed?.how === 'withdrawn' || before.closed?.how === 'sample-verdict') continue;
       const gone = structuredClone(before) as DraftIncident;
       const closure = goneBecause(before, this.ctx.now);
       if (gone.closed === null) close(gone, closure);

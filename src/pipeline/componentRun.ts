@@ -170,7 +170,15 @@ export class ComponentRun {
     const { store } = this.deps;
     let result: EvaluationResult | undefined;
     try {
-      const verdict = this.incidents.finish(this.incremental ? [] : await store.incidentsOpenedAfter(this.ref, this.start.position));
+      // What was left due (a run judged up to a month's end) is judged by the run that folds it.
+      const dueFrom = this.tail !== undefined && this.tail.length > 0 ? positionOf(this.tail[0]!.sample) : undefined;
+      // The incidents on record opened after the start: those the run no longer produces are withdrawn, and those it
+      // produces again keep what was told of them. Read also when the run went on from its latest checkpoint: a run
+      // before it that left samples due left their incidents on record but not in its state, and an incident produced
+      // again without what was told of it would tell it as new, under message keys already used.
+      const recorded = await store.incidentsOpenedAfter(this.ref, this.start.position, dueFrom);
+      const leftDue = dueFrom === undefined ? [] : await store.incidentsOpenedAfter(this.ref, this.position);
+      const verdict = this.incidents.finish(recorded, new Set(leftDue.map((i) => i.id)));
       if (this.renewal.lost) return (result = { kind: 'lost-lock' });
       const ref = this.ref;
       const commit: EvaluationCommit = {
@@ -190,7 +198,7 @@ export class ComponentRun {
         withdrawn: verdict.withdrawn,
         horizon: this.last?.time ?? 0,
         // What is left of the last read stays due from its first sample (a run judged up to a month's end).
-        ...(this.tail !== undefined && this.tail.length > 0 && { dueFrom: positionOf(this.tail[0]!.sample) }),
+        ...(dueFrom !== undefined && { dueFrom }),
         releaseWhenSettled: true,
       };
       const outcome = await store.commit(ref, this.lease, commit);

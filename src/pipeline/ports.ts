@@ -196,8 +196,11 @@ export interface ComponentStore {
   markSample(ref: ComponentRef, sampleId: string, mark: SampleMark | null): Promise<boolean>;
   /** The findings log of the component, in time order (steps with findings, the latest ones). */
   findings(ref: ComponentRef): Promise<StepRecord[]>;
-  /** The component's incidents on record that opened after `position` (all when null). */
-  incidentsOpenedAfter(ref: ComponentRef, position: StepPosition | null): Promise<Incident[]>;
+  /**
+   * The component's incidents on record that opened after `position` (all when null) and, given `before`, before that
+   * position (an incident opened by a sample an evaluation left due is not that evaluation's to judge).
+   */
+  incidentsOpenedAfter(ref: ComponentRef, position: StepPosition | null, before?: StepPosition): Promise<Incident[]>;
 }
 
 /**

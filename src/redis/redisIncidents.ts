@@ -89,6 +89,9 @@ const ORDER: Record<ListIndex, (a: Listed, b: Listed) => number> = {
   closed: (a, b) => b.position.key - a.position.key || compareIds(b.position.id, a.position.id),
 };
 
+/** Why an action on an open incident waits: the sample that opened it is about to be judged again. */
+export const JUDGED_AGAIN = 'is being judged again with results that arrived before it (its sample waits for them); try again in a few seconds';
+
 export class RedisIncidents {
   readonly partitions: Partitions;
   private readonly rules: IncidentRules;
@@ -119,22 +122,34 @@ export class RedisIncidents {
   /** An operator action (acknowledge, shelve, unshelve, resolve, note); errors name the field or the conflict. */
   async applyAction(action: IncidentAction): Promise<ActionResult> {
     const ref = ownerOf(action.incidentId);
-    if (ref === undefined || (await this.get(action.incidentId)) === undefined) throw new IncidentNotFoundError(action.incidentId);
+    const onRecord = ref === undefined ? undefined : await this.get(action.incidentId);
+    if (ref === undefined || onRecord === undefined) throw new IncidentNotFoundError(action.incidentId);
     return this.update(ref, (state) => {
       if (findIncident(state, action.incidentId) === undefined) {
-        // Only a closed incident leaves the component's state: a later one of the same key replaced it.
+        // An open one is out of the state only while the sample that opened it waits to be judged again (an
+        // evaluation judged up to a month's end before it: incidentFold.ts, leftDue).
+        if (onRecord.closed === null) throw new IncidentConflictError(action.incidentId, JUDGED_AGAIN);
+        // Else it is closed: a later one of the same key replaced it.
         throw new IncidentConflictError(action.incidentId, 'is closed and archived; its timeline is final');
       }
       return applyAction(state, action, this.rules);
     });
   }
 
-  /** A delayed escalation check; an incident the store does not know is a stale job and yields nothing. */
-  async applyEscalationCheck(check: EscalationCheck): Promise<{ effects: readonly IncidentEffect[] }> {
+  /**
+   * A delayed escalation check; an incident the store does not know is a stale job and yields nothing. `later`: the
+   * incident is open on record but out of the component's state while the sample that opened it waits to be judged
+   * again (incidentFold.ts, leftDue); the check is to come again once it is back.
+   */
+  async applyEscalationCheck(check: EscalationCheck): Promise<{ effects: readonly IncidentEffect[]; later?: true }> {
     const ref = ownerOf(check.incidentId);
     if (ref === undefined) return { effects: [] };
-    const r = await this.update(ref, (state) => applyEscalationCheck(state, check, this.rules));
-    return { effects: r.effects };
+    let later: boolean = false as boolean;
+    const r = await this.update(ref, async (state) => {
+      later = findIncident(state, check.incidentId) === undefined && (await this.get(check.incidentId))?.closed === null;
+      return later ? { state, effects: [] } : applyEscalationCheck(state, check, this.rules);
+    });
+    return { effects: r.effects, ...(later && { later: true as const }) };
   }
 
   /**

@@ -419,18 +419,18 @@ export class RedisStore implements ComponentStore, GroupLedger {
       .map((k) => JSON.parse(expandText(all[k]!)) as StepRecord);
   }
 
-  async incidentsOpenedAfter(ref: ComponentRef, position: StepPosition | null): Promise<Incident[]> {
+  async incidentsOpenedAfter(ref: ComponentRef, position: StepPosition | null, before?: StepPosition): Promise<Incident[]> {
     const { c, p } = this.keysOf(ref);
-    const ids = position === null ? await this.redis.zrange(c.incidents, 0, -1) : await this.redis.zrangebyscore(c.incidents, position.time, '+inf');
+    const ids = await this.redis.zrangebyscore(c.incidents, position === null ? '-inf' : position.time, before === undefined ? '+inf' : before.time);
     if (ids.length === 0) return [];
     const raw = await this.redis.hmget(p.records, ...ids);
     const incidents = raw.filter((r): r is string => r !== null).map((r) => JSON.parse(r) as Incident);
-    if (position === null) return incidents;
+    if (position === null && before === undefined) return incidents;
     const openers = await this.redis.hmget(c.winners, ...incidents.map((i) => i.openedBySampleId));
     return incidents.filter((inc, i) => {
       const unitHours = openers[i]?.split('|')[2];
       const opened: StepPosition = { sampleId: inc.openedBySampleId, time: Date.parse(inc.openedAt), ...(unitHours && { unitHours: Number(unitHours) }) };
-      return comparePosition(opened, position) > 0;
+      return (position === null || comparePosition(opened, position) > 0) && (before === undefined || comparePosition(opened, before) < 0);
     });
   }
 

@@ -358,12 +358,12 @@ export class MemoryStore implements ComponentStore, GroupLedger {
     return c === undefined ? [] : [...c.steps.values()].sort(byTimeThenId).map(({ time: _time, ...step }) => step);
   }
 
-  async incidentsOpenedAfter(ref: ComponentRef, position: StepPosition | null): Promise<Incident[]> {
+  async incidentsOpenedAfter(ref: ComponentRef, position: StepPosition | null, before?: StepPosition): Promise<Incident[]> {
     const out: Incident[] = [];
     for (const inc of this.records.values()) {
       if (inc.unit !== ref.unit || inc.component !== ref.component) continue;
       const opened = { sampleId: inc.openedBySampleId, time: Date.parse(inc.openedAt), ...openedUnitHours(this.byKey.get(componentKey(ref)), inc.openedBySampleId) };
-      if (position === null || comparePosition(opened, position) > 0) out.push(structuredClone(inc));
+      if ((position === null || comparePosition(opened, position) > 0) && (before === undefined || comparePosition(opened, before) < 0)) out.push(structuredClone(inc));
     }
     return out;
   }
