@@ -81,6 +81,11 @@ export interface EvaluationInput {
   /** The component's incidents now, and the version a commit must still find. */
   readonly incidents: ComponentIncidents;
   readonly incidentsVersion: number;
+  /**
+   * When the component's latest incident on record opened (sampling time, ms); null when it has none. Undefined when
+   * the store does not say: the run then reads the incidents on record after its start whatever it is.
+   */
+  readonly lastOpenedAt?: number | null;
 }
 
 /** One sample's share of its group's population statistics: per `measurand|band edge`, the value; null: no share. */

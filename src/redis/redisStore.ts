@@ -143,7 +143,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
     };
     this.scripts = {
       store: define('store', 5, STORE_SAMPLE),
-      acquireWithInput: define('acquireWithInput', 4, ACQUIRE_WITH_INPUT),
+      acquireWithInput: define('acquireWithInput', 5, ACQUIRE_WITH_INPUT),
       samplesAfter: define('samplesAfter', 3, SAMPLES_AFTER),
       renew: define('renewLock', 1, RENEW_LOCK),
       release: define('releaseLock', 1, RELEASE_LOCK),
@@ -271,19 +271,20 @@ export class RedisStore implements ComponentStore, GroupLedger {
 
   async evaluationInput(ref: ComponentRef): Promise<EvaluationInput | undefined> {
     const { c, p } = this.keysOf(ref);
-    const [head, count, last, fields] = await Promise.all([
+    const [head, count, last, fields, opened] = await Promise.all([
       this.redis.hget(p.registry, componentKey(ref)),
       this.redis.zcard(c.order),
       this.redis.zrange(c.order, -1, -1, 'WITHSCORES'),
       this.redis.hmget(c.evaluation, 'mark', 'dirty', 'latest', 'incidents', 'version', 'marks'),
+      this.redis.zrange(c.incidents, -1, -1, 'WITHSCORES'),
     ]);
-    return inputOf(ref, head, count, last, fields.map((f) => f ?? ''));
+    return inputOf(ref, head, count, last, [...fields.map((f) => f ?? ''), opened[1] ?? '']);
   }
 
   async acquireWithInput(ref: ComponentRef, ttlMs: number): Promise<{ lease: Lease; input: EvaluationInput | undefined } | undefined> {
     const { c, p } = this.keysOf(ref);
     const token = randomUUID();
-    const reply = (await this.scripts.acquireWithInput(c.lock, p.registry, c.order, c.evaluation, token, String(ttlMs), componentKey(ref))) as Array<string | number>;
+    const reply = (await this.scripts.acquireWithInput(c.lock, p.registry, c.order, c.evaluation, c.incidents, token, String(ttlMs), componentKey(ref))) as Array<string | number>;
     if (reply[0] === 0) return undefined;
     const [, head, count, lastId, lastTime, ...fields] = reply as [number, string, number, string, string, ...string[]];
     return {
@@ -629,7 +630,7 @@ function entryOf(h: RegistryHead, count: number, last: string[]): ComponentEntry
 /** The evaluation input from the registry entry, the sample count, the last sample and the evaluation fields ('' missing). */
 function inputOf(ref: ComponentRef, head: string | null, count: number, last: string[], fields: readonly string[]): EvaluationInput | undefined {
   if (head === null || count === 0) return undefined;
-  const [mark, dirty, latest, incidents, version, marks] = fields;
+  const [mark, dirty, latest, incidents, version, marks, lastOpened] = fields;
   return {
     entry: entryOf(JSON.parse(head) as RegistryHead, count, last),
     mark: Number(mark || 0),
@@ -638,6 +639,7 @@ function inputOf(ref: ComponentRef, head: string | null, count: number, last: st
     marks: new Map(Object.entries(JSON.parse(marks || '{}') as Record<string, SampleMark>)),
     incidents: incidents ? (JSON.parse(expandText(incidents)) as ComponentIncidents) : emptyComponentIncidents(ref.unit, ref.component),
     incidentsVersion: Number(version || 0),
+    ...(lastOpened !== undefined && { lastOpenedAt: lastOpened === '' ? null : Number(lastOpened) }),
   };
 }
 

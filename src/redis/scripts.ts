@@ -105,9 +105,9 @@ return 0
 
 /**
  * Takes a component's evaluation lock and reads what an evaluation starts from, in one step.
- * KEYS: lock, registry, order, evaluation. ARGV: token, lock lifetime (ms), component key.
+ * KEYS: lock, registry, order, evaluation, incident index. ARGV: token, lock lifetime (ms), component key.
  * Returns {0} when another holds the lock, else {1, registry entry, samples, last sample, its time, mark, dirty,
- * latest checkpoint, incidents, incidents version, marks} ('' for what is missing).
+ * latest checkpoint, incidents, incidents version, marks, latest incident opening time} ('' for what is missing).
  */
 export const ACQUIRE_WITH_INPUT = `
 if not redis.call('SET', KEYS[1], ARGV[1], 'PX', ARGV[2], 'NX') then return { 0 } end
@@ -115,10 +115,13 @@ local head = redis.call('HGET', KEYS[2], ARGV[3]) or ''
 local count = redis.call('ZCARD', KEYS[3])
 local last = redis.call('ZRANGE', KEYS[3], -1, -1, 'WITHSCORES')
 local f = redis.call('HMGET', KEYS[4], 'mark', 'dirty', 'latest', 'incidents', 'version', 'marks')
+-- The opening time of the component's latest incident on record (KEYS[5], by opening time), or ''.
+local opened = redis.call('ZRANGE', KEYS[5], -1, -1, 'WITHSCORES')
 -- Changes from here on are what a commit of this evaluation may leave due (mark_dirty).
 redis.call('HDEL', KEYS[4], 'later')
 local out = { 1, head, count, last[1] or '', last[2] or '' }
 for i = 1, 6 do out[5 + i] = f[i] or '' end
+out[12] = opened[2] or ''
 return out
 `;
 
