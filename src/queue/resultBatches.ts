@@ -65,6 +65,12 @@ export const ARRIVAL_POLL_MS = 5;
  */
 export const QUEUED_GRACE_MS = 5_000;
 
+/**
+ * How long an earlier result waits to be taken before this process, finding it blocks results it holds, takes it
+ * itself outside its worker slots (`takeQueued`): every slot of every process may be held by results waiting for it.
+ */
+export const TAKE_QUEUED_AFTER_MS = 500;
+
 /** Default of `arrivalWaitMs`: a batch judges without the earlier results another process holds after this long. */
 export const DEFAULT_ARRIVAL_WAIT_MS = 90_000;
 
@@ -87,19 +93,29 @@ export interface ResultBatchesOptions {
    * withdrawn). Default DEFAULT_ARRIVAL_WAIT_MS (90 000 ms).
    */
   readonly arrivalWaitMs?: number;
+  /**
+   * Takes the results job at the head of the wait list outside the worker's slots and runs it (queuedResultTaker.ts);
+   * called for an earlier result waiting to be taken longer than TAKE_QUEUED_AFTER_MS that results held here wait
+   * for, once per such result at a time. Without it, such a result is waited for QUEUED_GRACE_MS only.
+   */
+  readonly takeQueued?: () => Promise<void>;
 }
 
 export class ResultBatches {
   private waiting = new Map<string, Waiting>();
   /** When each earlier result waiting to be taken was first seen so (performance.now()), by arrival order. */
   private queuedSince = new Map<number, number>();
+  /** Of those, the ones no longer waited for (QUEUED_GRACE_MS), for the log. */
+  private givenUp = new Set<number>();
   /** Arrival orders of the results jobs this process holds (from `hold` to its release). */
   private readonly held = new Map<number, number>();
   private underWay = false;
+  /** Jobs being taken outside the worker's slots (`takeQueued`). */
+  private taking = 0;
   private readonly retryMs: number;
   private readonly arrivalWaitMs: number;
   /** Batches judged, and components judged in them (for the benchmark's and the tests' view of the coalescing). */
-  readonly counts = { batches: 0, components: 0, arrivalWaits: 0 };
+  readonly counts = { batches: 0, components: 0, arrivalWaits: 0, takenOutsideSlots: 0 };
 
   constructor(
     private readonly deps: EvaluationRunnerDeps,
@@ -184,6 +200,7 @@ export class ResultBatches {
       }
       if (!waited) this.counts.arrivalWaits += 1;
       waited = true;
+      this.takeStuck(elsewhere);
       await new Promise((resolve) => setTimeout(resolve, ARRIVAL_POLL_MS));
     }
   }
@@ -208,17 +225,44 @@ export class ResultBatches {
       // A result waiting to be taken that no worker takes within QUEUED_GRACE_MS is not waited for any longer.
       const now = performance.now();
       const since = new Map<number, number>();
+      const givenUp = new Set<number>();
       const kept = elsewhere.filter((job) => {
         if (!job.queued) return true;
         const first = this.queuedSince.get(job.order) ?? now;
         since.set(job.order, first);
-        return now - first < QUEUED_GRACE_MS;
+        if (now - first < QUEUED_GRACE_MS) return true;
+        givenUp.add(job.order);
+        return false;
       });
       this.queuedSince = since;
+      // Said only of those that results held here arrived after (others hold nothing up).
+      const newly = [...givenUp].filter((order) => !this.givenUp.has(order) && order < latest);
+      this.givenUp = givenUp;
+      if (newly.length > 0) this.deps.logger.warn({ results: newly.length, firstJob: Math.min(...newly) }, 'earlier results waiting to be taken that no worker takes are not waited for any longer');
       return { elsewhere: kept, checked: latest };
     } catch {
       // Redis does not answer: the batch's own reads fail the same way, and its jobs are retried.
       return { elsewhere: [], checked: Infinity };
+    }
+  }
+
+  /**
+   * Takes, outside the worker's slots, as many results jobs from the head of the wait list as there are earlier results
+   * waiting there longer than TAKE_QUEUED_AFTER_MS that results held here arrived after (those taken meanwhile count).
+   */
+  private takeStuck(elsewhere: readonly ActiveJob[]): void {
+    const take = this.options.takeQueued;
+    if (take === undefined) return;
+    let latest = -Infinity;
+    for (const w of this.waiting.values()) for (const p of w.pending) if (p.order !== undefined && p.order > latest) latest = p.order;
+    const now = performance.now();
+    const stuck = elsewhere.filter((job) => job.queued && job.order < latest && now - (this.queuedSince.get(job.order) ?? now) >= TAKE_QUEUED_AFTER_MS).length;
+    while (this.taking < stuck) {
+      this.taking += 1;
+      this.counts.takenOutsideSlots += 1;
+      void take()
+        .catch((e: unknown) => this.deps.logger.warn({ err: (e as Error).message }, 'taking a waiting result outside the worker slots failed'))
+        .finally(() => (this.taking -= 1));
     }
   }
 

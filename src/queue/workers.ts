@@ -24,6 +24,7 @@ import { DeliveryRetry } from '../channels/errors.ts';
 import type { NotificationChannels } from '../channels/openChannels.ts';
 import { configuredChannels } from '../channels/registry.ts';
 import { startOutboxRelay, type EscalateJobData } from './outboxRelay.ts';
+import { queuedResultTaker, type QueuedResultTaker } from './queuedResultTaker.ts';
 import { escalateProcessor } from './processors/escalateProcessor.ts';
 import { evaluateProcessor } from './processors/evaluateProcessor.ts';
 import { FLOOD_SUMMARY_JOB, notifyProcessor } from './processors/notifyProcessor.ts';
@@ -210,11 +211,21 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   const historyRunner: EvaluationRunnerDeps = threads === undefined ? runner : { ...runner, evaluator: (ref) => threads.evaluate(ref, now()) };
 
   const workers: Worker[] = [];
+  const takers: QueuedResultTaker[] = [];
   for (const p of partitions.all()) {
     const prefix = partitions.tag(p);
     // With arrivalOrder, the partition's results are judged in the order they arrived on its queue, across processes.
-    const batches = new ResultBatches(runner, { retryMs: s.busyRetryMs, ...(s.arrivalOrder && { activeJobs: activeJobs(deps.connection, `${prefix}:${QUEUE_NAMES.results}`) }), arrivalWaitMs: s.arrivalWaitMs });
-    workers.push(new Worker(QUEUE_NAMES.results, resultsProcessor(runner, s.busyRetryMs, batches), options(prefix, s.resultsConcurrency, queueSettings.attempts)));
+    const resultsOptions = options(prefix, s.resultsConcurrency, queueSettings.attempts);
+    // A result given back by a dead worker that no slot frees for is taken outside the slots (queuedResultTaker.ts).
+    let taker: QueuedResultTaker | undefined;
+    const batches = new ResultBatches(runner, {
+      retryMs: s.busyRetryMs,
+      ...(s.arrivalOrder && { activeJobs: activeJobs(deps.connection, `${prefix}:${QUEUE_NAMES.results}`), takeQueued: () => taker!.take() }),
+      arrivalWaitMs: s.arrivalWaitMs,
+    });
+    const processor = resultsProcessor(runner, s.busyRetryMs, batches);
+    if (s.arrivalOrder) takers.push((taker = queuedResultTaker(QUEUE_NAMES.results, processor, resultsOptions, logger)));
+    workers.push(new Worker(QUEUE_NAMES.results, processor, resultsOptions));
     workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs), options(prefix, s.evaluateConcurrency, queueSettings.attempts)));
   }
   // One history job at a time, for every partition (the producer sets the queue's global concurrency to 1 as well).
@@ -281,7 +292,7 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
       // The workers stop taking jobs at once; the channels then end the deliveries in flight (an e-mail to a server
       // that does not answer would otherwise hold the shutdown up to its deadline), whose jobs fail as retryable and
       // run again later, before the workers wait for their active jobs to finish.
-      const stopping = Promise.all(workers.map((w) => w.close()));
+      const stopping = Promise.all([...workers.map((w) => w.close()), ...takers.map((t) => t.close())]);
       await channels?.close();
       await stopping;
       await pool?.close();

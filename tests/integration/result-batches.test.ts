@@ -98,6 +98,11 @@ function line(prefix = `{rb${++prefixes}}`, options: ResultBatchesOptions = {}) 
   };
 }
 
+/** Resolves once `done` holds, looking every 10 ms (at most a minute). */
+async function waitUntil(done: () => boolean): Promise<void> {
+  for (let i = 0; i < 6000 && !done(); i++) await new Promise((r) => setTimeout(r, 10));
+}
+
 const samples = inventedFleet({ units: 4, samplesPerUnit: 20 }).map((e) => {
   const parsed = validateResult(e, { now: NOW });
   if (!parsed.ok) throw new Error(JSON.stringify(parsed.issues));
@@ -119,13 +124,13 @@ describe('live results judged in batches', () => {
     const one = await oneAtATime();
     const backlog = line();
     try {
-      expect(one.batches.counts).toEqual({ batches: samples.length, components: samples.length, arrivalWaits: 0 });
+      expect(one.batches.counts).toEqual({ batches: samples.length, components: samples.length, arrivalWaits: 0, takenOutsideSlots: 0 });
 
       // Every result stored, then handed over at once: the first is judged alone as it arrives, the other 79 wait for
       // it and are judged together, each of the 4 components by one run over the fleet's months.
       for (const s of samples) await backlog.store(s);
       await Promise.all(samples.map((s) => backlog.batches.judge(s)));
-      expect(backlog.batches.counts).toEqual({ batches: 2, components: 1 + 4, arrivalWaits: 0 });
+      expect(backlog.batches.counts).toEqual({ batches: 2, components: 1 + 4, arrivalWaits: 0, takenOutsideSlots: 0 });
       // The same on /metrics: 2 batches, of 1 and 79 results, 1 and 4 components.
       const text = await backlog.metricsText();
       expect(text).toMatch(/^wearshift_result_batch_results_count 2$/m);
@@ -236,6 +241,49 @@ describe('live results judged in batches', () => {
     }
   });
 
+  it('an earlier result waiting to be taken, which no slot frees for, is taken outside the slots and judged first', async () => {
+    // Two results of one component: the earlier (order 1) waits at the head of the queue, given back by a worker that
+    // died, while this process holds the later one (order 2) in its only slot. Its batch takes order 1 itself
+    // (takeQueued), once, and judges it with order 2, both folded; the queued job is then no longer listed.
+    const [first, second] = samples.filter((s) => s.unit === samples[0]!.unit).slice(0, 2) as [Sample, Sample];
+    let queued = true;
+    let taken = 0;
+    const judgedInOrder: number[] = [];
+    let taker: ReturnType<typeof line> | undefined;
+    const takes = line(undefined, {
+      activeJobs: async (skip) => (queued && !skip(1) ? [{ order: 1, component: componentKey(first), month: monthStart(first.time), queued: true }] : []),
+      takeQueued: async () => {
+        taken += 1;
+        queued = false;
+        const release = taker!.batches.hold(1);
+        try {
+          await taker!.store(first);
+          await taker!.batches.judge(first, 1);
+          judgedInOrder.push(1);
+        } finally {
+          release();
+        }
+      },
+      // Far longer than the test: only the take can end the wait.
+      arrivalWaitMs: 600_000,
+    });
+    taker = takes;
+    try {
+      await takes.store(second);
+      const release = takes.batches.hold(2);
+      await takes.batches.judge(second, 2).then(() => judgedInOrder.push(2));
+      release();
+      await waitUntil(() => judgedInOrder.length === 2);
+      expect(taken).toBe(1);
+      // Judged together (one batch) or the earlier first: the wait of 600 s ended with the take.
+      expect(judgedInOrder.sort()).toEqual([1, 2]);
+      expect(takes.batches.counts.takenOutsideSlots).toBe(1);
+      expect((await takes.input(second))?.latest?.count).toBe(2);
+    } finally {
+      await takes.close();
+    }
+  });
+
   it('a batch judges without an earlier result another process holds once its wait is over', async () => {
     const waits = line(undefined, { activeJobs: async () => [{ order: 1, component: undefined, month: -Infinity, queued: false }], arrivalWaitMs: 50 });
     try {
@@ -243,7 +291,7 @@ describe('live results judged in batches', () => {
       await waits.store(s);
       // Order 1 stays active elsewhere for good (a process that hangs): the result of order 2 is judged after the wait.
       await waits.batches.judge(s, 2);
-      expect(waits.batches.counts).toEqual({ batches: 1, components: 1, arrivalWaits: 1 });
+      expect(waits.batches.counts).toEqual({ batches: 1, components: 1, arrivalWaits: 1, takenOutsideSlots: 0 });
       expect((await waits.input(s))?.latest?.count).toBe(1);
     } finally {
       await waits.close();
