@@ -50,8 +50,8 @@ export interface WorkerSettings extends QueueSettings {
   resultsConcurrency?: number;
   /**
    * Several worker processes judge each partition's results in the order they arrived (resultBatches.ts, arrivalOrder.ts;
-   * `wearshift worker --arrival-order`). Default false: off until a worker killed mid-burst no longer loses an `opened`
-   * message now and then (README, *Several worker processes judge in arrival order*).
+   * off with `wearshift worker --no-arrival-order`). Default true; with one process it changes nothing but a read of
+   * the queue's active jobs per batch (README, *Several worker processes judge in arrival order*).
    */
   arrivalOrder?: boolean;
   /**
@@ -109,7 +109,7 @@ export interface WorkerSettings extends QueueSettings {
 export const WORKER_DEFAULTS = {
   partitions: 1,
   resultsConcurrency: 1000,
-  arrivalOrder: false,
+  arrivalOrder: true,
   arrivalWaitMs: DEFAULT_ARRIVAL_WAIT_MS,
   evaluateConcurrency: 2,
   lockTtlMs: DEFAULT_LOCK_TTL_MS,

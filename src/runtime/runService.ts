@@ -84,7 +84,7 @@ export async function runService(kind: ServiceKind, opts: ServiceCommandOptions,
       env,
       ...(metricsPort !== undefined && { metricsPort }),
       ...(opcuaPort !== undefined && { opcuaPort }),
-      workerSettings: { ...(historyThreads !== undefined && { historyThreads }), ...(resultsAtOnce !== undefined && { resultsConcurrency: resultsAtOnce }), ...(opts.arrivalOrder === true && { arrivalOrder: true }) },
+      workerSettings: { ...(historyThreads !== undefined && { historyThreads }), ...(resultsAtOnce !== undefined && { resultsConcurrency: resultsAtOnce }), ...(opts.arrivalOrder === false && { arrivalOrder: false }) },
     });
   } catch (e) {
     // What did start is closed by then; a port in use is the user's to fix, not a stack trace.

@@ -10,7 +10,8 @@ export function registerWorker(program: Command): void {
     .option('--metrics-port <n>', 'also serve /healthz, /readyz and /metrics on this port')
     .option('--history-threads <n>', 'threads for the evaluations a history import (`import --history`) hands off (a component whose month brings a revision of a result already judged, or an earlier result), each with its own Redis connection, started at the first and ended a minute after the last; 0: the main thread does; by default the number of cores, at most 4 (0 on one core)', String(defaultHistoryThreads()))
     .option('--results-at-once <n>', 'results jobs this process takes at once per partition; each is stored at once and their evaluations judged together in batches, one commit per component and batch: more make bigger batches under a backlog, fewer spread a burst over more worker processes', String(WORKER_DEFAULTS.resultsConcurrency))
-    .option('--arrival-order', 'judge each partition\'s results in the order they arrived across worker processes: a batch waits (at most 90 s) for earlier results of an earlier sampling month or of the same component that another process holds, so that several processes give the verdicts of one; off by default (see the README)')
+    .option('--arrival-order', 'judge each partition\'s results in the order they arrived across worker processes (the default): a batch waits (at most 90 s) for earlier results of an earlier sampling month or of the same component that another process holds, so that several processes give the verdicts of one')
+    .option('--no-arrival-order', 'judge each batch at once, without waiting for earlier results other worker processes hold (several processes may then open incidents on a burst that are withdrawn later)')
     .option('--shutdown-timeout <seconds>', 'longest wait for active jobs and connections at shutdown', '10')
     .action((opts: ServiceCommandOptions) => runService('worker', opts));
 }
