@@ -257,6 +257,7 @@ export class ResultBatches {
     for (const w of this.waiting.values()) for (const p of w.pending) if (p.order !== undefined && p.order > latest) latest = p.order;
     const now = performance.now();
     const stuck = elsewhere.filter((job) => job.queued && job.order < latest && now - (this.queuedSince.get(job.order) ?? now) >= TAKE_QUEUED_AFTER_MS).length;
+    if (this.taking < stuck) this.deps.logger.info({ results: stuck - this.taking }, 'earlier results waiting to be taken that results held here wait for: taken outside the worker slots');
     while (this.taking < stuck) {
       this.taking += 1;
       this.counts.takenOutsideSlots += 1;
