@@ -176,10 +176,11 @@ export class ComponentRun {
       // produces again keep what was told of them. Read also when the run went on from its latest checkpoint: a run
       // before it that left samples due left their incidents on record but not in its state, and an incident produced
       // again without what was told of it would tell it as new, under message keys already used.
+      // None opened at or after the start (the lock script says when the latest opened): nothing to read.
       const opened = this.input.lastOpenedAt;
       const none = opened === null || (opened !== undefined && this.start.position !== null && opened < this.start.position.time);
       const recorded = none ? [] : await store.incidentsOpenedAfter(this.ref, this.start.position, dueFrom);
-      const leftDue = dueFrom === undefined ? [] : await store.incidentsOpenedAfter(this.ref, this.position);
+      const leftDue = dueFrom === undefined || none ? [] : await store.incidentsOpenedAfter(this.ref, this.position);
       const verdict = this.incidents.finish(recorded, new Set(leftDue.map((i) => i.id)));
       if (this.renewal.lost) return (result = { kind: 'lost-lock' });
       const ref = this.ref;
