@@ -249,16 +249,15 @@ describe('live results judged in batches', () => {
     let queued = true;
     let taken = 0;
     const judgedInOrder: number[] = [];
-    let taker: ReturnType<typeof line> | undefined;
     const takes = line(undefined, {
       activeJobs: async (skip) => (queued && !skip(1) ? [{ order: 1, component: componentKey(first), month: monthStart(first.time), queued: true }] : []),
       takeQueued: async () => {
         taken += 1;
         queued = false;
-        const release = taker!.batches.hold(1);
+        const release = takes.batches.hold(1);
         try {
-          await taker!.store(first);
-          await taker!.batches.judge(first, 1);
+          await takes.store(first);
+          await takes.batches.judge(first, 1);
           judgedInOrder.push(1);
         } finally {
           release();
@@ -267,7 +266,6 @@ describe('live results judged in batches', () => {
       // Far longer than the test: only the take can end the wait.
       arrivalWaitMs: 600_000,
     });
-    taker = takes;
     try {
       await takes.store(second);
       const release = takes.batches.hold(2);
