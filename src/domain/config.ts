@@ -252,7 +252,7 @@ export const ConfigSchema = z
           .int()
           .min(1)
           .optional()
-          .describe('Most open sockets of the HTTP API from one socket peer; a further connection from it is closed at once. Default 64. Behind a reverse proxy every socket comes from the proxy (trustedProxies does not change that): raise it to what the proxy holds open.'),
+          .describe('Most open sockets of the HTTP API from one socket peer; a further connection from it is closed at once. Default 64. Behind a reverse proxy every socket comes from the proxy (trustedProxies does not change that): raise it to what the proxy holds open. A peer listed in trustedProxies is counted by its own address, other IPv6 peers by their /64.'),
         maxEventClientsPerAddress: z
           .number()
           .int()

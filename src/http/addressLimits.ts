@@ -13,7 +13,7 @@
  * prefix per host) share these bounds too.
  */
 import type { Server } from 'node:http';
-import { isIP, isIPv6, type Socket } from 'node:net';
+import { BlockList, isIP, isIPv6, type Socket } from 'node:net';
 import type { FastifyRequest } from 'fastify';
 
 /**
@@ -70,15 +70,41 @@ export function presentsToken(request: FastifyRequest): boolean {
 }
 
 /**
- * Closes a new connection at once while its peer's `addressKey` (the address, an IPv6 peer's /64) already holds `max`
- * open sockets. The count per key leaves the map when it falls to 0, so the map holds at most as many entries as there
- * are open sockets.
+ * Whether an address is one of `ranges` (IP addresses and CIDR ranges, as `limits.trustedProxies` lists them, checked
+ * before); an IPv4-mapped IPv6 address is matched as its IPv4 address.
  */
-export function limitConnectionsPerAddress(server: Server, max: number): void {
+export function addressMatcher(ranges: readonly string[]): (address: string) => boolean {
+  if (ranges.length === 0) return () => false;
+  const list = new BlockList();
+  for (const range of ranges) {
+    const [address, prefix] = range.split('/') as [string, string | undefined];
+    const type = isIPv6(address) ? 'ipv6' : 'ipv4';
+    if (prefix === undefined) list.addAddress(address, type);
+    else list.addSubnet(address, Number(prefix), type);
+  }
+  return (address) => {
+    const bare = address.replace(/%.*$/, '');
+    const mapped = /^::ffff:(\d+\.\d+\.\d+\.\d+)$/i.exec(bare);
+    if (mapped !== null) return list.check(mapped[1]!, 'ipv4');
+    const family = isIP(bare);
+    return family !== 0 && list.check(bare, family === 6 ? 'ipv6' : 'ipv4');
+  };
+}
+
+/**
+ * Closes a new connection at once while its peer's `addressKey` (the address, an IPv6 peer's /64) already holds `max`
+ * open sockets. A peer that `exact` takes (a trusted reverse proxy) is counted by its own address, not with the rest
+ * of its /64: two proxies of one network do not share one allowance. The count per key leaves the map when it falls to
+ * 0, so the map holds at most as many entries as there are open sockets.
+ */
+export function limitConnectionsPerAddress(server: Server, max: number, exact: (address: string) => boolean = () => false): void {
   const open = new Map<string, number>();
   // Before the HTTP server's own listener: a refused socket is never parsed.
   server.prependListener('connection', (socket: Socket) => {
-    const key = addressKey(socket.remoteAddress ?? '');
+    const peer = socket.remoteAddress ?? '';
+    const grouped = addressKey(peer);
+    // IPv4 peers (and IPv4-mapped ones) are counted by their address anyway.
+    const key = grouped.endsWith('/64') && exact(peer) ? peer.replace(/%.*$/, '').toLowerCase() : grouped;
     const held = open.get(key) ?? 0;
     if (held >= max) {
       socket.destroy();

@@ -28,7 +28,8 @@ export interface HttpLimits {
   /**
    * Most open sockets from one socket peer; a further connection from it is closed at once, so one address cannot
    * take every socket. Counted before any request is read, so `trustedProxies` does not change it: behind a reverse
-   * proxy every socket comes from the proxy, so raise it to the connections the proxy keeps open. Default 64.
+   * proxy every socket comes from the proxy, so raise it to the connections the proxy keeps open. A peer listed in
+   * `trustedProxies` is counted by its own address, not with the rest of its /64. Default 64.
    */
   readonly maxConnectionsPerAddress: number;
   /**

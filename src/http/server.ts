@@ -29,7 +29,7 @@ import { sampleVerdictRoutes, type SampleVerdictTaker } from './sampleVerdictRou
 import { ChartPool } from '../render/chartPool.ts';
 import { isStoreUnavailable, UNAVAILABLE_RETRY_AFTER_S } from './unavailable.ts';
 import { clientError, notFound } from './clientErrors.ts';
-import { addressOf, FailedAuthGuard, limitConnectionsPerAddress, presentsToken } from './addressLimits.ts';
+import { addressMatcher, addressOf, FailedAuthGuard, limitConnectionsPerAddress, presentsToken } from './addressLimits.ts';
 
 export interface ServerOptions {
   /** The API's bearer tokens by role (the runtime reads them from the environment: src/runtime/accessTokensFromEnv.ts). */
@@ -92,7 +92,8 @@ export async function buildServer(options: ServerOptions) {
     },
   });
   app.server.maxConnections = limits.maxConnections;
-  limitConnectionsPerAddress(app.server, limits.maxConnectionsPerAddress);
+  // A trusted proxy's sockets count by its own address (not its /64): each proxy has the allowance to itself.
+  limitConnectionsPerAddress(app.server, limits.maxConnectionsPerAddress, addressMatcher(limits.trustedProxies));
   // Guessing tokens is slowed down per address (every address of one IPv6 /64 counts as one, addressKey): after too
   // many unknown tokens, 429 until the window ends.
   const guesses = new FailedAuthGuard({ max: limits.maxFailedAuthPerAddress, windowMs: limits.failedAuthWindowMs, addresses: limits.failedAuthAddresses, ...(options.clock !== undefined && { now: options.clock }) });

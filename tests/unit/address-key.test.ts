@@ -9,7 +9,7 @@ import { EventEmitter } from 'node:events';
 import { createServer } from 'node:http';
 import type { Socket } from 'node:net';
 import { describe, expect, it } from 'vitest';
-import { addressKey, FailedAuthGuard, limitConnectionsPerAddress } from '../../src/http/addressLimits.ts';
+import { addressKey, addressMatcher, FailedAuthGuard, limitConnectionsPerAddress } from '../../src/http/addressLimits.ts';
 
 describe('addressKey', () => {
   it('gives every spelling of the addresses of one IPv6 /64 the same key', () => {
@@ -135,5 +135,38 @@ describe('limitConnectionsPerAddress', () => {
     first.emit('close');
     expect(connect('2001:db8:0:7::99').refused).toBe(false);
     expect(connect('2001:db8:0:7::100').refused).toBe(true);
+  });
+
+  it('counts each trusted proxy by its own address, not with the rest of its /64; other peers of that /64 as before', () => {
+    const server = createServer();
+    limitConnectionsPerAddress(server, 2, addressMatcher(['2001:db8:0:9::10', '2001:db8:0:9::11', '10.0.0.0/8']));
+    const connect = (address: string) => {
+      const socket = socketFrom(address);
+      server.emit('connection', socket);
+      return socket;
+    };
+    // Two proxies of one /64: two sockets each.
+    for (const proxy of ['2001:db8:0:9::10', '2001:db8:0:9::11']) {
+      expect(connect(proxy).refused).toBe(false);
+      expect(connect(proxy).refused).toBe(false);
+      expect(connect(proxy).refused).toBe(true);
+    }
+    // Another address of that /64 is no proxy: it has the /64's own allowance, which the proxies do not use.
+    expect(connect('2001:db8:0:9::12').refused).toBe(false);
+    expect(connect('2001:db8:0:9::13').refused).toBe(false);
+    expect(connect('2001:db8:0:9::14').refused).toBe(true);
+    // A range: each of its addresses by itself (IPv4 is counted per address anyway), the mapped form too.
+    expect(connect('10.1.2.3').refused).toBe(false);
+    expect(connect('::ffff:10.1.2.3').refused).toBe(false);
+    expect(connect('10.1.2.3').refused).toBe(true);
+  });
+});
+
+describe('addressMatcher', () => {
+  it('matches addresses and CIDR ranges of both families, IPv4-mapped and zoned spellings, and nothing else', () => {
+    const trusted = addressMatcher(['192.0.2.7', '10.0.0.0/8', 'fd00::/8', '2001:db8::1']);
+    expect(['192.0.2.7', '::ffff:192.0.2.7', '10.255.0.1', 'fd12:3456::1', '2001:db8::1', '2001:DB8:0:0:0:0:0:1', 'fd00::1%eth0'].map(trusted)).toEqual([true, true, true, true, true, true, true]);
+    expect(['192.0.2.8', '11.0.0.1', 'fe80::1', '2001:db8::2', '', 'unknown'].map(trusted)).toEqual([false, false, false, false, false, false]);
+    expect(addressMatcher([])('10.0.0.1')).toBe(false);
   });
 });
