@@ -16,13 +16,23 @@ export interface QueuedResultTaker {
 }
 
 export function queuedResultTaker(queueName: string, processor: Processor, options: WorkerOptions, logger: Logger): QueuedResultTaker {
-  // A worker that runs nothing by itself: only what `take` fetches.
-  const manual = new Worker(queueName, null, { ...options, autorun: false });
-  manual.on('error', (err) => logger.warn({ queue: queueName, err: err.message }, 'taking a waiting result outside the worker slots failed'));
+  // A worker that runs nothing by itself, only what `take` fetches; made at the first take (after a worker died), so
+  // that until then the process holds no connection for it and counts as one worker of the queue.
+  let manual: Worker | undefined;
+  let closed = false;
+  const worker = (): Worker => {
+    if (manual === undefined) {
+      manual = new Worker(queueName, null, { ...options, autorun: false });
+      manual.on('error', (err) => logger.warn({ queue: queueName, err: err.message }, 'taking a waiting result outside the worker slots failed'));
+    }
+    return manual;
+  };
   const lockMs = options.lockDuration ?? 30_000;
   let taken = 0;
   return {
     async take() {
+      if (closed) return;
+      const manual = worker();
       const token = `${manual.id}:waiting-${++taken}`;
       const job = (await manual.getNextJob(token, { block: false })) as Job | undefined;
       if (job === undefined) return;
@@ -40,6 +50,9 @@ export function queuedResultTaker(queueName: string, processor: Processor, optio
         clearInterval(renew);
       }
     },
-    close: () => manual.close(),
+    async close() {
+      closed = true;
+      await manual?.close();
+    },
   };
 }

@@ -45,6 +45,8 @@ describe('a results job taken outside the worker slots', () => {
         { name: 'result', data: { sampleId: 'S-1' } },
         { name: 'result', data: { sampleId: 'S-2' } },
       ]);
+      // Until its first take the taker holds no worker connection: the process counts as its own worker only.
+      expect(await t.queue.getWorkersCount()).toBe(0);
       await t.taker.take();
       expect(t.seen).toEqual([a!.id]);
       expect(await (await t.queue.getJob(a!.id!))!.getState()).toBe('completed');
