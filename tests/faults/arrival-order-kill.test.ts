@@ -1,5 +1,5 @@
 /**
- * Two `wearshift worker --arrival-order` processes judge an import of an invented fleet while it arrives; one is
+ * Two `wearshift worker` processes (arrival order is their default) judge an import of an invented fleet while it arrives; one is
  * killed with SIGKILL a third of the way in and another started in its place. The dead worker's jobs come back only
  * when their locks run out (30 s), after the surviving worker has judged later results of the same months; arrival
  * order makes it wait for them. The incidents at the end are exactly those of `wearshift replay --json` on the same
@@ -15,29 +15,13 @@ import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/qu
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
 import { runCli } from '../helpers/cli.ts';
-import { fleetCsv, inventedFleet } from '../helpers/fleetCsv.ts';
-import { replayVerdictRows, storedVerdictRows } from '../helpers/incidentVerdict.ts';
+import { storedVerdictRows } from '../helpers/incidentVerdict.ts';
+import { populationConfig, populationFleetReplayed, POPULATION_FLEET_RESULTS } from '../helpers/populationFleet.ts';
 import { startWearshift, stopAll, waitFor } from '../helpers/processes.ts';
 import { drained } from '../helpers/queueDrain.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
-// The group's population limits open incidents and are trusted early (12 results per band): what the group's
-// statistics hold as of each month decides incidents (as in tests/integration/processes-arrival-order.test.ts).
-const config = (prefix: string) => `
-redis: { prefix: "${prefix}" }
-detection: { measurands: [Fe, Cu], runningInHours: 0, baselineIntervals: 6 }
-population: { minResults: 12, bandHours: [0, 500], opensIncidents: true, peers: { minComponents: 3 } }
-backfill: { quietAfterDays: 100000 }
-groups:
-  - name: lift-gearboxes
-    match: { component: gearbox, unit: "^LS" }
-    sumpLitres: 40
-    limits: { Fe: { caution: 45, alarm: 70 }, Si: { caution: 15, alarm: 25 } }
-`;
-const UNITS = 10;
-const SAMPLES = 30;
-const SEED = 7;
-const RESULTS = UNITS * SAMPLES;
+const RESULTS = POPULATION_FLEET_RESULTS;
 
 let server: RedisServer;
 let dir: string;
@@ -53,25 +37,19 @@ afterAll(async () => {
 
 describe('arrival order across worker processes, one killed mid-import', () => {
   it('ends with the incidents of replay, none withdrawn, every result stored once', async () => {
-    const file = join(dir, 'fleet.csv');
-    writeFileSync(file, fleetCsv(inventedFleet({ units: UNITS, samplesPerUnit: SAMPLES, seed: SEED })));
-    const replayConfig = join(dir, 'replay.yaml');
-    writeFileSync(replayConfig, config('{replay}'));
-    const replayed = await runCli(['replay', file, '--config', replayConfig, '--json'], { REDIS_URL: server.url }, 300_000);
-    expect(replayed.code).toBe(0);
-    const verdicts = replayVerdictRows(replayed.stdout);
-    expect(verdicts.length).toBeGreaterThan(2);
+    const { file, verdicts } = await populationFleetReplayed(dir, server.url);
 
     const prefix = '{arrivalkill}';
     const configFile = join(dir, 'config.yaml');
-    writeFileSync(configFile, config(prefix));
+    writeFileSync(configFile, populationConfig(prefix));
     const env = { REDIS_URL: server.url, LOG_LEVEL: 'info' };
-    const args = ['--config', configFile, '--results-at-once', '50', '--arrival-order'];
+    // Arrival order is the default.
+    const args = ['--config', configFile, '--results-at-once', '50'];
     const redis = server.client();
     const settings = resolveQueueSettings({ prefix });
     const results = openQueue(QUEUE_NAMES.results, redis, settings);
     const evaluate = openQueue(QUEUE_NAMES.evaluate, redis, settings);
-    const storage = new RedisStore(redis, { prefix, config: parseConfig(config(prefix)) });
+    const storage = new RedisStore(redis, { prefix, config: parseConfig(populationConfig(prefix)) });
     const stored = async () => (await storage.components()).reduce((n, c) => n + c.samples, 0);
     try {
       const [first, second] = await Promise.all([0, 1].map(() => startWearshift('worker', { env, args, readyTimeoutMs: 180_000 })));
@@ -86,7 +64,7 @@ describe('arrival order across worker processes, one killed mid-import', () => {
       expect(await evaluate.getFailedCount()).toBe(0);
       expect(await stored()).toBe(RESULTS);
 
-      const store = new RedisIncidents(redis, { rules: incidentRules(parseConfig(config(prefix))), prefix });
+      const store = new RedisIncidents(redis, { rules: incidentRules(parseConfig(populationConfig(prefix))), prefix });
       const incidents = await storedVerdictRows(store);
       // What the batches said of earlier results they waited for: taken outside the slots, or not waited for any longer.
       const warnings = [second!, replacement].flatMap((w) => w.output().split('\n').filter((l) => l.includes('"level":40') || l.includes('outside the worker slots')));

@@ -18,30 +18,15 @@ import { incidentRules } from '../../src/incidents/policy.ts';
 import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { runCli } from '../helpers/cli.ts';
-import { fleetCsv, inventedFleet } from '../helpers/fleetCsv.ts';
 import { startWearshift, stopAll, waitFor, type WearshiftProcess } from '../helpers/processes.ts';
 import { drained } from '../helpers/queueDrain.ts';
-import { replayVerdictRows, storedVerdictRows } from '../helpers/incidentVerdict.ts';
+import { storedVerdictRows } from '../helpers/incidentVerdict.ts';
+import { populationConfig, populationFleetReplayed, POPULATION_FLEET_RESULTS } from '../helpers/populationFleet.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
-// One group whose population limits open incidents and are trusted early (12 results per band): what the group's
-// statistics hold as of each month decides incidents.
-const config = (prefix: string) => `
-redis: { prefix: "${prefix}" }
-detection: { measurands: [Fe, Cu], runningInHours: 0, baselineIntervals: 6 }
-population: { minResults: 12, bandHours: [0, 500], opensIncidents: true, peers: { minComponents: 3 } }
-backfill: { quietAfterDays: 100000 }
-groups:
-  - name: lift-gearboxes
-    match: { component: gearbox, unit: "^LS" }
-    sumpLitres: 40
-    limits: { Fe: { caution: 45, alarm: 70 }, Si: { caution: 15, alarm: 25 } }
-`;
-// Ten units sampled about every 250 h: some 30 results a month, so 50 results at a time reach into the next month.
-const UNITS = 10;
-const SAMPLES = 30;
-const SEED = 7;
-const RESULTS = UNITS * SAMPLES;
+// The fleet's ten units are sampled about every 250 h: some 30 results a month, so 50 results at a time reach into
+// the next month.
+const RESULTS = POPULATION_FLEET_RESULTS;
 // Which process takes which results varies from run to run; every round is a fresh pair of processes on a fresh prefix.
 const ROUNDS = 3;
 
@@ -68,7 +53,7 @@ async function storedBy(worker: WearshiftProcess): Promise<number> {
 async function round(n: number, file: string) {
   const prefix = `{arrival${n}}`;
   const configFile = join(dir, `config-${n}.yaml`);
-  writeFileSync(configFile, config(prefix));
+  writeFileSync(configFile, populationConfig(prefix));
   // /metrics without a token: each process's count of results stored says it took part.
   const env = { REDIS_URL: server.url, LOG_LEVEL: 'warn', WEARSHIFT_METRICS_PUBLIC: '1' };
   const redis = server.client();
@@ -95,7 +80,7 @@ async function round(n: number, file: string) {
     const stored = await Promise.all(workers.map(storedBy));
 
     // Every incident, withdrawn ones too.
-    const store = new RedisIncidents(redis, { rules: incidentRules(parseConfig(config(prefix))), prefix });
+    const store = new RedisIncidents(redis, { rules: incidentRules(parseConfig(populationConfig(prefix))), prefix });
     return { stored, incidents: await storedVerdictRows(store) };
   } finally {
     await Promise.all([results.close(), evaluate.close()]);
@@ -105,14 +90,7 @@ async function round(n: number, file: string) {
 
 describe('two worker processes taking a burst that spans many sampling months', () => {
   it('open only the incidents of replay, none withdrawn later, and both take part', async () => {
-    const file = join(dir, 'fleet.csv');
-    writeFileSync(file, fleetCsv(inventedFleet({ units: UNITS, samplesPerUnit: SAMPLES, seed: SEED })));
-    const replayConfig = join(dir, 'replay.yaml');
-    writeFileSync(replayConfig, config('{replay}'));
-    const replayed = await runCli(['replay', file, '--config', replayConfig, '--json'], { REDIS_URL: server.url }, 300_000);
-    expect(replayed.code).toBe(0);
-    const verdicts = replayVerdictRows(replayed.stdout);
-    expect(verdicts.length).toBeGreaterThan(2);
+    const { file, verdicts } = await populationFleetReplayed(dir, server.url);
 
     const rounds = [];
     for (let n = 1; n <= ROUNDS; n++) rounds.push(await round(n, file));

@@ -1,0 +1,43 @@
+/**
+ * The invented fleet of the tests of several worker processes judging one import: ten lift gearboxes (seed 7), thirty
+ * results each, in one group whose population limits open incidents and are trusted early (12 results per band), so
+ * that what the group's statistics hold as of each month decides incidents; and the incidents `wearshift replay --json`
+ * finds in it, which every way of judging the same results must end with.
+ */
+import { writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { expect } from 'vitest';
+import { runCli } from './cli.ts';
+import { fleetCsv, inventedFleet } from './fleetCsv.ts';
+import { replayVerdictRows, type VerdictRow } from './incidentVerdict.ts';
+
+export const POPULATION_FLEET = { units: 10, samplesPerUnit: 30, seed: 7 } as const;
+export const POPULATION_FLEET_RESULTS = POPULATION_FLEET.units * POPULATION_FLEET.samplesPerUnit;
+
+/** The configuration (YAML) under `prefix`. */
+export function populationConfig(prefix: string): string {
+  return `
+redis: { prefix: "${prefix}" }
+detection: { measurands: [Fe, Cu], runningInHours: 0, baselineIntervals: 6 }
+population: { minResults: 12, bandHours: [0, 500], opensIncidents: true, peers: { minComponents: 3 } }
+backfill: { quietAfterDays: 100000 }
+groups:
+  - name: lift-gearboxes
+    match: { component: gearbox, unit: "^LS" }
+    sumpLitres: 40
+    limits: { Fe: { caution: 45, alarm: 70 }, Si: { caution: 15, alarm: 25 } }
+`;
+}
+
+/** Writes the fleet's file in `dir` and replays it on the Redis at `redisUrl`: the file and replay's incidents. */
+export async function populationFleetReplayed(dir: string, redisUrl: string): Promise<{ file: string; verdicts: VerdictRow[] }> {
+  const file = join(dir, 'fleet.csv');
+  writeFileSync(file, fleetCsv(inventedFleet(POPULATION_FLEET)));
+  const replayConfig = join(dir, 'replay.yaml');
+  writeFileSync(replayConfig, populationConfig('{replay}'));
+  const replayed = await runCli(['replay', file, '--config', replayConfig, '--json'], { REDIS_URL: redisUrl }, 300_000);
+  expect(replayed.code).toBe(0);
+  const verdicts = replayVerdictRows(replayed.stdout);
+  expect(verdicts.length).toBeGreaterThan(2);
+  return { file, verdicts };
+}
