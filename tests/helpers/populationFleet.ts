@@ -14,12 +14,15 @@ import { replayVerdictRows, type VerdictRow } from './incidentVerdict.ts';
 export const POPULATION_FLEET = { units: 10, samplesPerUnit: 30, seed: 7 } as const;
 export const POPULATION_FLEET_RESULTS = POPULATION_FLEET.units * POPULATION_FLEET.samplesPerUnit;
 
-/** The configuration (YAML) under `prefix`. */
-export function populationConfig(prefix: string): string {
+/**
+ * The judging part of the configuration (YAML, no `redis` section): iron and copper watched from the first hour, the
+ * group's population statistics trusted at 12 results per band (opening incidents when `opens`), nothing quiet, and
+ * the lift gearboxes' group with its site limits.
+ */
+export function liftGearboxJudging(opens: boolean): string {
   return `
-redis: { prefix: "${prefix}" }
 detection: { measurands: [Fe, Cu], runningInHours: 0, baselineIntervals: 6 }
-population: { minResults: 12, bandHours: [0, 500], opensIncidents: true, peers: { minComponents: 3 } }
+population: { minResults: 12, bandHours: [0, 500], ${opens ? 'opensIncidents: true, ' : ''}peers: { minComponents: 3 } }
 backfill: { quietAfterDays: 100000 }
 groups:
   - name: lift-gearboxes
@@ -27,6 +30,11 @@ groups:
     sumpLitres: 40
     limits: { Fe: { caution: 45, alarm: 70 }, Si: { caution: 15, alarm: 25 } }
 `;
+}
+
+/** The configuration (YAML) under `prefix`, population limits opening incidents. */
+export function populationConfig(prefix: string): string {
+  return `redis: { prefix: "${prefix}" }${liftGearboxJudging(true)}`;
 }
 
 /** Writes the fleet's file in `dir` and replays it on the Redis at `redisUrl`: the file and replay's incidents. */

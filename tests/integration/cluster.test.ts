@@ -21,25 +21,14 @@ import { runCli } from '../helpers/cli.ts';
 import { fleetCsv, inventedFleet } from '../helpers/fleetCsv.ts';
 import { startWearshift, stopAll, type WearshiftProcess } from '../helpers/processes.ts';
 import { drained } from '../helpers/queueDrain.ts';
+import { liftGearboxJudging } from '../helpers/populationFleet.ts';
 import { replayVerdictRows, storedVerdictRows } from '../helpers/incidentVerdict.ts';
 import { startRedisCluster, type RedisCluster } from '../../src/runtime/embeddedRedisCluster.ts';
 
 const PREFIX = '{ws}';
 const PARTITIONS = 12;
 const CONFIG = `
-redis: { prefix: "${PREFIX}", partitions: ${PARTITIONS} }
-detection:
-  measurands: [Fe, Cu]
-  runningInHours: 0
-  baselineIntervals: 6
-population: { minResults: 12, bandHours: [0, 500], peers: { minComponents: 3 } }
-backfill: { quietAfterDays: 100000 }
-groups:
-  - name: lift-gearboxes
-    match: { component: gearbox, unit: "^LS" }
-    sumpLitres: 40
-    limits: { Fe: { caution: 45, alarm: 70 }, Si: { caution: 15, alarm: 25 } }
-`;
+redis: { prefix: "${PREFIX}", partitions: ${PARTITIONS} }${liftGearboxJudging(false)}`;
 const UNITS = 18;
 const SAMPLES = 30;
 

@@ -20,22 +20,11 @@ import { runCli, startCli } from '../helpers/cli.ts';
 import { fleetCsv, inventedFleet } from '../helpers/fleetCsv.ts';
 import { replayVerdictRows, storedVerdictRows } from '../helpers/incidentVerdict.ts';
 import { drained } from '../helpers/queueDrain.ts';
+import { liftGearboxJudging } from '../helpers/populationFleet.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const CONFIG = `
-redis: { prefix: "{replay}" }
-detection:
-  measurands: [Fe, Cu]
-  runningInHours: 0
-  baselineIntervals: 6
-population: { minResults: 12, bandHours: [0, 500], peers: { minComponents: 3 } }
-backfill: { quietAfterDays: 100000 }
-groups:
-  - name: lift-gearboxes
-    match: { component: gearbox, unit: "^LS" }
-    sumpLitres: 40
-    limits: { Fe: { caution: 45, alarm: 70 }, Si: { caution: 15, alarm: 25 } }
-`;
+redis: { prefix: "{replay}" }${liftGearboxJudging(false)}`;
 
 let server: RedisServer;
 let dir: string;
