@@ -111,14 +111,19 @@ describe('limitConnectionsPerAddress', () => {
     return Object.assign(socket, { destroy: () => ((socket.refused = true), socket) }) as unknown as Socket & { refused: boolean };
   }
 
-  it('counts the sockets of every address of one /64 together, and those of another /64 and of IPv4 peers apart', () => {
+  /** A server with the bound: connecting from an address hands it a socket, which says whether it was refused. */
+  function limitedServer(max: number, exact?: (address: string) => boolean): (address: string) => Socket & { refused: boolean } {
     const server = createServer();
-    limitConnectionsPerAddress(server, 2);
-    const connect = (address: string) => {
+    limitConnectionsPerAddress(server, max, exact);
+    return (address) => {
       const socket = socketFrom(address);
       server.emit('connection', socket);
       return socket;
     };
+  }
+
+  it('counts the sockets of every address of one /64 together, and those of another /64 and of IPv4 peers apart', () => {
+    const connect = limitedServer(2);
     const first = connect('2001:db8:0:7::1');
     connect('2001:db8:0:7::2');
     // A third address of the same /64 is closed at once, however it is spelled.
@@ -138,13 +143,7 @@ describe('limitConnectionsPerAddress', () => {
   });
 
   it('counts each trusted proxy by its own address, not with the rest of its /64; other peers of that /64 as before', () => {
-    const server = createServer();
-    limitConnectionsPerAddress(server, 2, addressMatcher(['2001:db8:0:9::10', '2001:db8:0:9::11', '10.0.0.0/8']));
-    const connect = (address: string) => {
-      const socket = socketFrom(address);
-      server.emit('connection', socket);
-      return socket;
-    };
+    const connect = limitedServer(2, addressMatcher(['2001:db8:0:9::10', '2001:db8:0:9::11', '10.0.0.0/8']));
     // Two proxies of one /64: two sockets each.
     for (const proxy of ['2001:db8:0:9::10', '2001:db8:0:9::11']) {
       expect(connect(proxy).refused).toBe(false);
