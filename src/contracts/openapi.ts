@@ -88,7 +88,12 @@ export function openApiDocument(): Json {
             '400': error('A field is missing or invalid (invalid-request, naming it), or the body is not JSON (bad-request).'),
             ...AUTH_ERRORS,
             '404': error('No such incident.'),
-            '409': error('The incident changed meanwhile or the action does not apply to its state.'),
+            '409': {
+              description:
+                'The incident changed meanwhile or the action does not apply to its state. With Retry-After (5 s): the incident is being judged again with results that arrived before the sample that opened it; the same action is likely to be taken then.',
+              headers: { 'Retry-After': { $ref: '#/components/headers/RetryAfter' } },
+              content: json('Error'),
+            },
             ...BODY_ERRORS,
             ...PATH_ERRORS,
             ...STORE_UNAVAILABLE,

@@ -133,7 +133,10 @@ function singleValues(query: Record<string, unknown>): { ok: true; query: Record
 
 function failed(reply: FastifyReply, verb: Verb, e: unknown) {
   if (e instanceof IncidentNotFoundError) return reply.code(404).send({ error: 'not-found', message: e.message });
-  if (e instanceof IncidentConflictError) return reply.code(409).send({ error: 'conflict', message: e.message });
+  if (e instanceof IncidentConflictError) {
+    if (e.retryAfterSeconds !== undefined) void reply.header('Retry-After', String(e.retryAfterSeconds));
+    return reply.code(409).send({ error: 'conflict', message: e.message });
+  }
   if (e instanceof InputError) {
     // The incident rules name the action's field first ("until: shelving is limited to …"): a field of the body is
     // named as the body's schema problems are, in issues; anything else is the action's, told in the message alone.

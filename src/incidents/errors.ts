@@ -7,11 +7,15 @@ export class IncidentNotFoundError extends InputError {
   }
 }
 
-/** The action does not fit the incident's state, e.g. acknowledging a closed incident. */
+/**
+ * The action does not fit the incident's state, e.g. acknowledging a closed incident. `retryAfterSeconds`: the state
+ * is passing (the incident is being judged again), and the same action is likely to be taken after that long.
+ */
 export class IncidentConflictError extends InputError {
   constructor(
     readonly incidentId: string,
     reason: string,
+    readonly retryAfterSeconds?: number,
   ) {
     super(`incident "${incidentId}": ${reason}`);
   }

@@ -91,6 +91,8 @@ const ORDER: Record<ListIndex, (a: Listed, b: Listed) => number> = {
 
 /** Why an action on an open incident waits: the sample that opened it is about to be judged again. */
 export const JUDGED_AGAIN = 'is being judged again with results that arrived before it (its sample waits for them); try again in a few seconds';
+/** The Retry-After of that refusal, in seconds. */
+export const JUDGED_AGAIN_RETRY_S = 5;
 
 export class RedisIncidents {
   readonly partitions: Partitions;
@@ -128,7 +130,7 @@ export class RedisIncidents {
       if (findIncident(state, action.incidentId) === undefined) {
         // An open one is out of the state only while the sample that opened it waits to be judged again (an
         // evaluation judged up to a month's end before it: incidentFold.ts, leftDue).
-        if (onRecord.closed === null) throw new IncidentConflictError(action.incidentId, JUDGED_AGAIN);
+        if (onRecord.closed === null) throw new IncidentConflictError(action.incidentId, JUDGED_AGAIN, JUDGED_AGAIN_RETRY_S);
         // Else it is closed: a later one of the same key replaced it.
         throw new IncidentConflictError(action.incidentId, 'is closed and archived; its timeline is final');
       }

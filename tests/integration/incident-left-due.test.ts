@@ -2,12 +2,14 @@
  * On a private redis-server: an evaluation that judges a component up to a month's end while a later stored sample
  * opened an incident leaves that incident on record as it stands (tests/unit/incident-left-due.test.ts shows the
  * verdict). Until the run that folds the sample again brings it back into the component's state, an acknowledgement
- * is refused with a conflict that says to try again shortly, and an escalation check asks to come again (`later`)
+ * is refused with a conflict that says to try again shortly (over HTTP a 409 with Retry-After), and an escalation check asks to come again (`later`)
  * instead of finding nothing and dropping the escalation. Afterwards both act as on any incident, and no message key
  * was handed out twice.
  */
+import Fastify from 'fastify';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { ResultEvent } from '../../src/domain/event.ts';
+import { incidentRoutes } from '../../src/http/incidentRoutes.ts';
 import { IncidentConflictError } from '../../src/incidents/errors.ts';
 import type { IncidentEffect } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
@@ -15,8 +17,9 @@ import { ComponentRun } from '../../src/pipeline/componentRun.ts';
 import type { EvaluationDeps } from '../../src/pipeline/evaluateStored.ts';
 import { settleComponent } from '../../src/pipeline/settleComponent.ts';
 import { storeResult } from '../../src/pipeline/storeResult.ts';
-import { JUDGED_AGAIN, RedisIncidents } from '../../src/redis/redisIncidents.ts';
+import { JUDGED_AGAIN, JUDGED_AGAIN_RETRY_S, RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
+import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
 import { CONFIG, NOW, REF } from '../helpers/engineIronLimit.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
@@ -64,6 +67,17 @@ describe('an incident left due by a run judged up to a month end, on Redis', () 
     const refused = await incidents.applyAction({ kind: 'acknowledge', incidentId: id, by: 'on-call', now }).catch((e: unknown) => e);
     expect(refused).toBeInstanceOf(IncidentConflictError);
     expect((refused as Error).message).toContain(JUDGED_AGAIN);
+    // Over HTTP: 409 with the reason and when to try again (RFC 9110 §10.2.3 Retry-After, in seconds).
+    const app = Fastify();
+    await app.register(incidentRoutes, { tokens: accessTokensFromEnv({ WEARSHIFT_TOKEN_RESPONDER: 'resp-leftdue-4c1f9a' }), store: incidents, now: () => now });
+    try {
+      const answer = await app.inject({ method: 'POST', url: `/v1/incidents/${encodeURIComponent(id)}/ack`, headers: { authorization: 'Bearer resp-leftdue-4c1f9a' }, payload: { by: 'on-call' } });
+      expect(answer.statusCode).toBe(409);
+      expect(answer.headers['retry-after']).toBe(String(JUDGED_AGAIN_RETRY_S));
+      expect(answer.json()).toEqual({ error: 'conflict', message: `incident "${id}": ${JUDGED_AGAIN}` });
+    } finally {
+      await app.close();
+    }
     expect(await incidents.applyEscalationCheck({ incidentId: id, now })).toEqual({ effects: [], later: true });
 
     await settleComponent(deps, REF);
