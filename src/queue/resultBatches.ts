@@ -200,7 +200,7 @@ export class ResultBatches {
       }
       if (!waited) this.counts.arrivalWaits += 1;
       waited = true;
-      this.takeStuck(elsewhere);
+      this.takeStuck(elsewhere, checked);
       await new Promise((resolve) => setTimeout(resolve, ARRIVAL_POLL_MS));
     }
   }
@@ -248,13 +248,12 @@ export class ResultBatches {
 
   /**
    * Takes, outside the worker's slots, as many results jobs from the head of the wait list as there are earlier results
-   * waiting there longer than TAKE_QUEUED_AFTER_MS that results held here arrived after (those taken meanwhile count).
+   * waiting there longer than TAKE_QUEUED_AFTER_MS that results held here arrived after (`latest`: the latest arrival
+   * order of those, as the look that found `elsewhere` had them; those taken meanwhile count).
    */
-  private takeStuck(elsewhere: readonly ActiveJob[]): void {
+  private takeStuck(elsewhere: readonly ActiveJob[], latest: number): void {
     const take = this.options.takeQueued;
     if (take === undefined) return;
-    let latest = -Infinity;
-    for (const w of this.waiting.values()) for (const p of w.pending) if (p.order !== undefined && p.order > latest) latest = p.order;
     const now = performance.now();
     const stuck = elsewhere.filter((job) => job.queued && job.order < latest && now - (this.queuedSince.get(job.order) ?? now) >= TAKE_QUEUED_AFTER_MS).length;
     if (this.taking < stuck) this.deps.logger.info({ results: stuck - this.taking }, 'earlier results waiting to be taken that results held here wait for: taken outside the worker slots');

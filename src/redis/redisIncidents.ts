@@ -146,12 +146,11 @@ export class RedisIncidents {
   async applyEscalationCheck(check: EscalationCheck): Promise<{ effects: readonly IncidentEffect[]; later?: true }> {
     const ref = ownerOf(check.incidentId);
     if (ref === undefined) return { effects: [] };
-    let later: boolean = false as boolean;
-    const r = await this.update(ref, async (state) => {
-      later = findIncident(state, check.incidentId) === undefined && (await this.get(check.incidentId))?.closed === null;
-      return later ? { state, effects: [] } : applyEscalationCheck(state, check, this.rules);
+    const r = await this.update(ref, async (state): Promise<{ state: ComponentIncidents; effects: readonly IncidentEffect[]; later?: true }> => {
+      const waiting = findIncident(state, check.incidentId) === undefined && (await this.get(check.incidentId))?.closed === null;
+      return waiting ? { state, effects: [], later: true } : applyEscalationCheck(state, check, this.rules);
     });
-    return { effects: r.effects, ...(later && { later: true as const }) };
+    return { effects: r.effects, ...(r.later && { later: true as const }) };
   }
 
   /**
