@@ -84,6 +84,8 @@ export interface RateBaseline {
   readonly rateDrift?: number;
   /** For a group baseline: the spread of the pooled components' own rates on a log scale (ln ppm/h). */
   readonly peers?: { readonly components: number; readonly meanLogRate: number; readonly sdLogRate: number };
+  /** For a group baseline: the wear-process variance within its units (baseline.ts withinProcessVariance). */
+  readonly within?: { readonly processVariance: number; readonly degrees: number };
   readonly intervals: number;
   readonly components: number;
 }

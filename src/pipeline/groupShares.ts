@@ -9,7 +9,7 @@
  *   Σr, Σr², Σln r, Σ(ln r)² of their rates, from which the pooled rate, the unit-to-unit spread and the peers'
  *   log-rate spread follow (baseline.ts).
  */
-import { EMPTY_SUMS, rateBaseline } from '../analysis/baseline.ts';
+import { EMPTY_SUMS, rateBaseline, withinProcessVariance } from '../analysis/baseline.ts';
 import type { BaselineSums, GroupStats, RateBaseline } from '../analysis/model.ts';
 import { populationMeasurands } from '../analysis/populationStats.ts';
 import type { Sample } from '../domain/event.ts';
@@ -197,7 +197,8 @@ export function groupStatsOf(group: string, bucket: MonthBucket, settings: Compo
             sdLogRate: Math.sqrt(Math.max(0, (settle(b.sumLogSq) - settle(b.sumLog) ** 2 / b.positive) / (b.positive - 1))),
           }
         : undefined;
-    baselines[m] = { ...pooled, rateVariance: spread, ...(peers && { peers }) };
+    const within = withinProcessVariance(settledSums(b.sums), n, settle(b.sumRate), settle(b.sumRateSq));
+    baselines[m] = { ...pooled, rateVariance: spread, ...(peers && { peers }), ...(within && { within }) };
   }
   return { group, bands: bandStatsFromSums(sums, settings.population), baselines };
 }

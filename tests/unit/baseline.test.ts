@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { addInterval, EMPTY_SUMS, groupBaseline, ownRateBaseline, poolBaselines, rateBaseline } from '../../src/analysis/baseline.ts';
+import { addInterval, EMPTY_SUMS, groupBaseline, ownRateBaseline, poolBaselines, PRIOR_DEGREES, rateBaseline, withinProcessVariance } from '../../src/analysis/baseline.ts';
+import { seededRandom } from '../../src/simulation/random.ts';
 
 const sums = (intervals: [hours: number, increment: number][], labVar = 0) => intervals.reduce((s, [hours, increment]) => addInterval(s, { hours, increment }, labVar), EMPTY_SUMS);
 
@@ -47,5 +48,63 @@ describe('baselines', () => {
     expect(g.rateVariance).toBeCloseTo(0.0001, 12);
     expect(g.components).toBe(3);
     expect(poolBaselines([a, b, c]).intervals).toBe(3);
+  });
+});
+
+describe('the wear-process variance a group tells its units', () => {
+  // Invented units of one design: rates spread 40 % about 0.008 ppm/h, wear-process variance q = 0.0032 ppm²/h, lab
+  // variance 1 ppm² per reading (2 per increment), intervals of 150–350 h, 12 per unit.
+  const q = 0.0032;
+  const labVar = 2;
+  const units = (seed: number, n: number) => {
+    const rng = seededRandom(seed);
+    return Array.from({ length: n }, () => {
+      const rate = 0.008 * Math.exp(0.39 * rng.normal() - 0.076);
+      let s = EMPTY_SUMS;
+      // Readings on one charge: consecutive increments share a reading, whose lab noise telescopes.
+      let noise = Math.sqrt(labVar / 2) * rng.normal();
+      for (let i = 0; i < 12; i++) {
+        const hours = rng.uniform(150, 350);
+        const next = Math.sqrt(labVar / 2) * rng.normal();
+        s = addInterval(s, { hours, increment: rate * hours + Math.sqrt(q * hours) * rng.normal() + next - noise }, labVar);
+        noise = next;
+      }
+      return s;
+    });
+  };
+
+  it('takes the units’ rate differences out of the pooled residuals, where one rate for the group overstates the variance', () => {
+    const all = units(7, 400);
+    const pooled = poolBaselines(all);
+    const rates = all.map((s) => s.sumIncrement / s.sumHours);
+    const within = withinProcessVariance(pooled, all.length, rates.reduce((a, r) => a + r, 0), rates.reduce((a, r) => a + r * r, 0))!;
+    expect(within.degrees).toBe(400 * 11);
+    // The method of moments within units recovers q; the residuals about the group's one rate carry the spread too.
+    expect(within.processVariance).toBeGreaterThan(q * 0.8);
+    expect(within.processVariance).toBeLessThan(q * 1.2);
+    const oneRate = (rateBaseline(pooled, all.length, 250)!.processVariance * pooled.sumHours) / (pooled.sumHours - pooled.sumHoursSq / pooled.sumHours);
+    expect(oneRate).toBeGreaterThan(q * 1.5);
+    expect(withinProcessVariance(all[0]!, 1, rates[0]!, rates[0]! ** 2)).toBeUndefined();
+  });
+
+  it('moderates a component’s own estimate, weighing the group’s as PRIOR_DEGREES intervals, with t of both degrees', () => {
+    // The six intervals of the Student-t example above: unbiased 40/1250, ν = 5.
+    const s = sums([[250, 10], [250, 14], [250, 6], [250, 12], [250, 8], [250, 10]]);
+    const prior = { processVariance: 0.01, degrees: 1000 };
+    const nu = 5 + PRIOR_DEGREES;
+    const expected = ((5 * (40 / 1250) + PRIOR_DEGREES * 0.01) / nu) * (nu / (nu - 2));
+    expect(ownRateBaseline(s, 250, undefined, prior)!.processVariance).toBeCloseTo(expected, 12);
+    // A group of few intervals counts for no more than it has.
+    const small = { processVariance: 0.01, degrees: 10 };
+    expect(ownRateBaseline(s, 250, undefined, small)!.processVariance).toBeCloseTo(((5 * (40 / 1250) + 10 * 0.01) / 15) * (15 / 13), 12);
+    // Over many units, moderated estimates scatter far less about q than each unit's own.
+    const all = units(11, 200);
+    const rates = all.map((u) => u.sumIncrement / u.sumHours);
+    const pooled = poolBaselines(all);
+    const within = withinProcessVariance(pooled, all.length, rates.reduce((a, r) => a + r, 0), rates.reduce((a, r) => a + r * r, 0))!;
+    const spread = (xs: number[]) => Math.sqrt(xs.reduce((a, x) => a + (x - q) ** 2, 0) / xs.length);
+    const alone = all.map((u) => ownRateBaseline(u, 250)!.processVariance);
+    const moderated = all.map((u) => ownRateBaseline(u, 250, undefined, within)!.processVariance);
+    expect(spread(moderated)).toBeLessThan(spread(alone) / 2);
   });
 });

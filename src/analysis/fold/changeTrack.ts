@@ -19,7 +19,8 @@
  * complete it restarts from the own estimate with that estimate's uncertainty and a slow drift, so the filter
  * keeps refining it over a long memory: a real shift shows for many samples before it is learnt, while the first
  * estimate's error does not stay frozen into a standing bias. The wear-process variance is refined the same way,
- * by the stable intervals after the baseline (none while an upward change is signalled; baseline.ts).
+ * by the stable intervals after the baseline (none while an upward change is signalled; baseline.ts), and weighed
+ * with the variance within the units of its group where the group is trusted (baseline.ts withinProcessVariance).
  *
  * While an upward change is signalled, the filter does not learn the rate from the intervals that raise it:
  * the in-control rate stays what it was learnt from before the change, so a sustained shift stays flagged for
@@ -173,7 +174,7 @@ export function advanceChange(t: ChangeTrack, iv: Interval, input: ChangeInput):
     };
   }
   const own = track.own;
-  const ownRate = own.completedAt !== undefined ? ownRateBaseline(own.sums, detection.budget.sampleIntervalHours, own.later) : undefined;
+  const ownRate = own.completedAt !== undefined ? ownRateBaseline(own.sums, detection.budget.sampleIntervalHours, own.later, input.group?.within) : undefined;
   const source: BaselineSource = ownRate !== undefined && index > own.completedAt! ? 'own' : input.group !== undefined ? 'group' : null;
   const baseline = source === 'own' ? ownRate : source === 'group' ? input.group : undefined;
   const continuous = track.filter !== undefined && iv.from !== undefined && iv.from.sampleId === track.previousTo;
