@@ -69,10 +69,15 @@ const PROCESS_SPREAD_FLOOR = 0.1;
 /** The lab floor: the share of one reading's variance the wear process adds at least over a typical interval. */
 const LAB_FLOOR_SHARE = 0.5;
 
-export function rateBaseline(s: BaselineSums, components: number, typicalIntervalHours: number, options: { predictive?: boolean; prior?: ProcessVariancePrior } = {}): RateBaseline | undefined {
+export function rateBaseline(
+  s: BaselineSums,
+  components: number,
+  typicalIntervalHours: number,
+  options: { predictive?: boolean; prior?: ProcessVariancePrior } = {},
+): RateBaseline | undefined {
   if (s.intervals === 0 || s.sumHours <= 0) return undefined;
   const rate = s.sumIncrement / s.sumHours;
-  const rss = s.sumIncrementSq - 2 * rate * s.sumIncrementHours + rate ** 2 * s.sumHoursSq;
+  const rss = residualSquares(s, rate);
   const moment = options.predictive === true ? predictiveProcessVariance(s, rss, options.prior) : (rss - s.sumLabVariance) / s.sumHours;
   const wearFloor = (PROCESS_SPREAD_FLOOR * Math.abs(rate)) ** 2 * typicalIntervalHours;
   const readingVariance = s.sumLabVariance / (2 * s.intervals);
@@ -109,6 +114,11 @@ function predictiveProcessVariance(s: BaselineSums, rss: number, prior?: Process
   return nu > 2 ? (moderated * nu) / (nu - 2) : moderated;
 }
 
+/** Σ(increment − rate·hours)² of a baseline's intervals about `rate`. */
+function residualSquares(s: BaselineSums, rate: number): number {
+  return s.sumIncrementSq - 2 * rate * s.sumIncrementHours + rate ** 2 * s.sumHoursSq;
+}
+
 /** What a group tells of its units' wear-process variance: the variance within units, pooled, and its degrees of freedom. */
 export interface ProcessVariancePrior {
   /** ppm²/h. */
@@ -133,7 +143,7 @@ export const PRIOR_DEGREES = 48;
 export function withinProcessVariance(pooled: BaselineSums, components: number, sumRate: number, sumRateSq: number): ProcessVariancePrior | undefined {
   if (components < 2 || !(pooled.sumHours > 0)) return undefined;
   const rate = pooled.sumIncrement / pooled.sumHours;
-  const rss = pooled.sumIncrementSq - 2 * rate * pooled.sumIncrementHours + rate ** 2 * pooled.sumHoursSq;
+  const rss = residualSquares(pooled, rate);
   const between = Math.max(0, sumRateSq - 2 * rate * sumRate + components * rate ** 2) * (pooled.sumHoursSq / components);
   const effectiveHours = pooled.sumHours - (components * pooled.sumHoursSq) / pooled.sumHours;
   const degrees = pooled.intervals - components;
