@@ -24,8 +24,8 @@
  *
  * While an upward change is signalled, the filter does not learn the rate from the intervals that raise it:
  * the in-control rate stays what it was learnt from before the change, so a sustained shift stays flagged for
- * as long as it lasts instead of being absorbed into the baseline. Learning resumes once both detectors are
- * back within their limits.
+ * as long as it lasts instead of being absorbed into the baseline; nor does an own baseline still forming take them.
+ * Learning resumes once both detectors are back within their limits.
  */
 import type { Detection } from '../../domain/config.ts';
 import { addInterval, EMPTY_SUMS, OWN_RATE_MEMORY, ownRateBaseline } from '../baseline.ts';
@@ -265,9 +265,15 @@ export function advanceChange(t: ChangeTrack, iv: Interval, input: ChangeInput):
   };
 }
 
-/** The own baseline takes the life's first stable intervals until it is complete; then it is fixed, and later stable intervals go on refining the process variance (OwnBaselineState.later). */
+/**
+ * The own baseline takes the life's first stable intervals until it is complete (none while an upward change is
+ * signalled against the group: it would take the faulty rate as the component's usual one); then it is fixed, and
+ * later stable intervals go on refining the process variance (OwnBaselineState.later).
+ */
 function grownOwn(own: OwnBaselineState, iv: Interval, index: number, detection: Detection, paused: boolean): OwnBaselineState {
   if (!isStable(iv)) return own;
+  // While a rise is signalled against the group, the forming baseline takes none of the intervals that raise it.
+  if (paused && own.completedAt === undefined) return own;
   if (own.completedAt !== undefined) {
     const later = own.later ?? EMPTY_SUMS;
     if (paused || index <= own.completedAt || own.sums.intervals + later.intervals >= OWN_RATE_MEMORY * detection.baselineIntervals) return own;
