@@ -181,7 +181,8 @@ export function groupStatsOf(group: string, bucket: MonthBucket, settings: Compo
   for (const m of settings.detection.measurands) {
     const b = bucket.baselines[m];
     if (b === undefined) continue;
-    const pooled = rateBaseline(settledSums(b.sums), b.components, settings.detection.budget.sampleIntervalHours);
+    const pooledSums = settledSums(b.sums);
+    const pooled = rateBaseline(pooledSums, b.components, settings.detection.budget.sampleIntervalHours);
     if (pooled === undefined) continue;
     if (b.components < 2) {
       baselines[m] = pooled;
@@ -197,7 +198,7 @@ export function groupStatsOf(group: string, bucket: MonthBucket, settings: Compo
             sdLogRate: Math.sqrt(Math.max(0, (settle(b.sumLogSq) - settle(b.sumLog) ** 2 / b.positive) / (b.positive - 1))),
           }
         : undefined;
-    const within = withinProcessVariance(settledSums(b.sums), n, settle(b.sumRate), settle(b.sumRateSq));
+    const within = withinProcessVariance(pooledSums, n, settle(b.sumRate), settle(b.sumRateSq));
     baselines[m] = { ...pooled, rateVariance: spread, ...(peers && { peers }), ...(within && { within }) };
   }
   return { group, bands: bandStatsFromSums(sums, settings.population), baselines };
