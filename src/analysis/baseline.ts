@@ -7,7 +7,7 @@
  * readings. g is the ratio estimator Σincrement/Σhours (least squares for a variance growing with hours);
  * q comes from the residuals by the method of moments: Σ(increment − g·h)² = ΣlabVar + q·Σh.
  */
-import type { BaselineSums, Interval, RateBaseline } from './model.ts';
+import type { BaselineSums, Interval, ProcessVariancePrior, RateBaseline } from './model.ts';
 
 export const EMPTY_SUMS: BaselineSums = {
   intervals: 0,
@@ -117,13 +117,6 @@ function predictiveProcessVariance(s: BaselineSums, rss: number, prior?: Process
 /** Σ(increment − rate·hours)² of a baseline's intervals about `rate`. */
 function residualSquares(s: BaselineSums, rate: number): number {
   return s.sumIncrementSq - 2 * rate * s.sumIncrementHours + rate ** 2 * s.sumHoursSq;
-}
-
-/** What a group tells of its units' wear-process variance: the variance within units, pooled, and its degrees of freedom. */
-export interface ProcessVariancePrior {
-  /** ppm²/h. */
-  readonly processVariance: number;
-  readonly degrees: number;
 }
 
 /**

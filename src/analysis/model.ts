@@ -70,6 +70,13 @@ export interface BandStats {
 }
 
 /** In-control wear rate of a group, pooled from its components' stable history. */
+/** What a group tells of its units' wear-process variance: the variance within units, pooled, and its degrees of freedom. */
+export interface ProcessVariancePrior {
+  /** ppm²/h. */
+  readonly processVariance: number;
+  readonly degrees: number;
+}
+
 export interface RateBaseline {
   /** ppm per operating hour. */
   readonly rate: number;
@@ -85,7 +92,7 @@ export interface RateBaseline {
   /** For a group baseline: the spread of the pooled components' own rates on a log scale (ln ppm/h). */
   readonly peers?: { readonly components: number; readonly meanLogRate: number; readonly sdLogRate: number };
   /** For a group baseline: the wear-process variance within its units (baseline.ts withinProcessVariance). */
-  readonly within?: { readonly processVariance: number; readonly degrees: number };
+  readonly within?: ProcessVariancePrior;
   readonly intervals: number;
   readonly components: number;
 }

@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { addInterval, EMPTY_SUMS, groupBaseline, ownRateBaseline, poolBaselines, PRIOR_DEGREES, rateBaseline, withinProcessVariance } from '../../src/analysis/baseline.ts';
+import type { BaselineSums } from '../../src/analysis/model.ts';
 import { seededRandom } from '../../src/simulation/random.ts';
 
 const sums = (intervals: [hours: number, increment: number][], labVar = 0) => intervals.reduce((s, [hours, increment]) => addInterval(s, { hours, increment }, labVar), EMPTY_SUMS);
@@ -73,18 +74,24 @@ describe('the wear-process variance a group tells its units', () => {
     });
   };
 
+  /** The variance within `all`, from their pooled sums and the sum and sum of squares of their own rates. */
+  const withinOf = (all: readonly BaselineSums[]) => {
+    const rates = all.map((s) => s.sumIncrement / s.sumHours);
+    return withinProcessVariance(poolBaselines(all), all.length, rates.reduce((a, r) => a + r, 0), rates.reduce((a, r) => a + r * r, 0))!;
+  };
+
   it('takes the units’ rate differences out of the pooled residuals, where one rate for the group overstates the variance', () => {
     const all = units(7, 400);
     const pooled = poolBaselines(all);
-    const rates = all.map((s) => s.sumIncrement / s.sumHours);
-    const within = withinProcessVariance(pooled, all.length, rates.reduce((a, r) => a + r, 0), rates.reduce((a, r) => a + r * r, 0))!;
+    const within = withinOf(all);
     expect(within.degrees).toBe(400 * 11);
     // The method of moments within units recovers q; the residuals about the group's one rate carry the spread too.
     expect(within.processVariance).toBeGreaterThan(q * 0.8);
     expect(within.processVariance).toBeLessThan(q * 1.2);
     const oneRate = (rateBaseline(pooled, all.length, 250)!.processVariance * pooled.sumHours) / (pooled.sumHours - pooled.sumHoursSq / pooled.sumHours);
     expect(oneRate).toBeGreaterThan(q * 1.5);
-    expect(withinProcessVariance(all[0]!, 1, rates[0]!, rates[0]! ** 2)).toBeUndefined();
+    const rate = all[0]!.sumIncrement / all[0]!.sumHours;
+    expect(withinProcessVariance(all[0]!, 1, rate, rate ** 2)).toBeUndefined();
   });
 
   it('moderates a component’s own estimate, weighing the group’s as PRIOR_DEGREES intervals, with t of both degrees', () => {
@@ -99,9 +106,7 @@ describe('the wear-process variance a group tells its units', () => {
     expect(ownRateBaseline(s, 250, undefined, small)!.processVariance).toBeCloseTo(((5 * (40 / 1250) + 10 * 0.01) / 15) * (15 / 13), 12);
     // Over many units, moderated estimates scatter far less about q than each unit's own.
     const all = units(11, 200);
-    const rates = all.map((u) => u.sumIncrement / u.sumHours);
-    const pooled = poolBaselines(all);
-    const within = withinProcessVariance(pooled, all.length, rates.reduce((a, r) => a + r, 0), rates.reduce((a, r) => a + r * r, 0))!;
+    const within = withinOf(all);
     const spread = (xs: number[]) => Math.sqrt(xs.reduce((a, x) => a + (x - q) ** 2, 0) / xs.length);
     const alone = all.map((u) => ownRateBaseline(u, 250)!.processVariance);
     const moderated = all.map((u) => ownRateBaseline(u, 250, undefined, within)!.processVariance);
