@@ -1,8 +1,11 @@
 /**
- * Arrival order across worker processes: a results job's BullMQ id counts up as results arrive on its partition's
- * queue (the queue numbers the jobs it is given), so the active jobs other processes hold tell a batch which results
- * arrived before its own and are not judged yet (resultBatches.ts). A results job stays active until the batch that
- * judged it has committed, so a job that has left the active list holds a result judged (or refused).
+ * Arrival order across worker processes. With one partition, a results job's BullMQ id counts up as results arrive on
+ * the queue (the queue numbers the jobs it is given). With the keys in several partitions, each partition has a
+ * results queue of its own, whose ids say nothing of another's: the producer then numbers the results itself, across
+ * all partitions, from one counter under the shared tag (`arrivalJobId`), and a result's job id is its place in that
+ * order. Either way the active jobs other processes hold, and those waiting at the head of each queue, tell a batch
+ * which results arrived before its own and are not judged yet (resultBatches.ts). A results job stays active until the
+ * batch that judged it has committed, so a job that has left the active list holds a result judged (or refused).
  */
 import { componentKey } from '../domain/event.ts';
 import type { RedisConnection } from '../redis/connection.ts';
@@ -16,9 +19,11 @@ export interface ActiveJob {
   readonly month: number;
   /** Waiting to be taken (at the head of the wait list), not held by any worker. */
   readonly queued: boolean;
+  /** The partition whose results queue holds it. */
+  readonly partition: number;
 }
 
-/** The results jobs active on a partition's queue, in any process, but those of `skip` (this process's own). */
+/** The results jobs active on the partitions' queues, in any process, but those of `skip` (this process's own). */
 export type ActiveJobs = (skip: (order: number) => boolean) => Promise<readonly ActiveJob[]>;
 
 /** The first instant (epoch ms, UTC) of the month of `time`. */
@@ -27,64 +32,85 @@ export function monthStart(time: number): number {
   return Date.UTC(d.getUTCFullYear(), d.getUTCMonth(), 1);
 }
 
-/** The number of a results job's id, or undefined for an id of its own (no arrival order). */
+/**
+ * The job id the producer gives a result when the keys are partitioned: `r` and its place in the arrival order across
+ * all partitions (BullMQ refuses an id of its own that is a whole number).
+ */
+export function arrivalJobId(order: number): string {
+  return `r${order}`;
+}
+
+/** The arrival order of a results job's id (BullMQ's number, or `arrivalJobId`'s), or undefined for another id. */
 export function arrivalOf(jobId: string | undefined): number | undefined {
-  if (jobId === undefined) return undefined;
-  const n = Number(jobId);
-  return Number.isSafeInteger(n) ? n : undefined;
+  const m = jobId === undefined ? null : /^r?(\d{1,15})$/.exec(jobId);
+  return m === null ? undefined : Number(m[1]);
 }
 
 /**
  * Jobs at the head of the wait list looked at besides the active ones: a job taken back from a worker that died (its
  * lock lapsed, and a stall check put it back at the head of the line) arrived before the results that others hold, and
- * is waited for until another worker has taken and judged it. In the normal course every waiting job arrived after
- * every active one, and none of them holds anything up.
+ * is waited for until another worker has taken and judged it. In the normal course every job waiting on a queue arrived
+ * after every active one of the same queue: with one partition none of them holds anything up; with several, a queue
+ * whose workers are behind the others' holds up the results of theirs that arrived after its head.
  */
 export const WAIT_HEAD_LOOKED_AT = 100;
 
 /**
- * The active jobs of the queue whose BullMQ keys start with `queueKey` (`<prefix>:<queue name>`), and those at the
- * head of its wait list (`WAIT_HEAD_LOOKED_AT`): ids from the lists, the component and month of each from its job's
- * data (read once per job; a job's data does not change). Ids that are not numbers (a job added with an id of its own)
- * are left out: they carry no order.
+ * The active jobs of the results queues whose BullMQ keys start with `queueKeys` (`<partition tag>:results`, by
+ * partition), and those at the head of each wait list (`WAIT_HEAD_LOOKED_AT`): ids from the lists, the component and
+ * month of each from its job's data (read once per job; a job's data does not change). Ids without an arrival order (a
+ * job added with an id of its own) are left out. Each queue is read with one pipeline of its own (its keys share a
+ * slot on a Redis Cluster), its wait list before its active list: a job moved from one to the other in between is
+ * seen, in one or both.
+ *
+ * With several partitions, a queue's wait list may hold, beyond the head looked at, results that arrived before some
+ * that other queues have handed out already (its workers are behind). When the head looked at is full, a stand-in
+ * for those follows the latest of it (order half a step after it, any component, any month, waiting to be taken):
+ * every result that arrived after it waits until that queue's line has moved on.
  */
-export function activeJobs(redis: RedisConnection, queueKey: string): ActiveJobs {
-  const activeKey = `${queueKey}:active`;
-  const waitKey = `${queueKey}:wait`;
-  const known = new Map<number, Omit<ActiveJob, 'queued'>>();
-  return async (skip) => {
-    const ids: number[] = [];
-    const queued = new Set<number>();
-    const [active, head] = ((await redis.pipeline().lrange(activeKey, 0, -1).lrange(waitKey, -WAIT_HEAD_LOOKED_AT, -1).exec()) ?? []).map(([err, list]) => {
+export function activeJobs(redis: RedisConnection, queueKeys: readonly string[]): ActiveJobs {
+  const known = new Map<string, Omit<ActiveJob, 'queued' | 'partition'>>();
+  const lookAt = async (queueKey: string, partition: number, skip: (order: number) => boolean) => {
+    const answers = (await redis.pipeline().lrange(`${queueKey}:wait`, -WAIT_HEAD_LOOKED_AT, -1).lrange(`${queueKey}:active`, 0, -1).exec()) ?? [];
+    const [head, active] = answers.map(([err, list]) => {
       if (err) throw err;
       return list as string[];
     });
-    for (const id of active ?? []) {
-      const n = arrivalOf(id);
-      if (n !== undefined && !skip(n)) ids.push(n);
-    }
+    const jobs = new Map<string, { order: number; queued: boolean }>();
+    let latestQueued = -Infinity;
     for (const id of head ?? []) {
-      const n = arrivalOf(id);
-      if (n === undefined || skip(n)) continue;
-      ids.push(n);
-      queued.add(n);
+      const order = arrivalOf(id);
+      if (order === undefined) continue;
+      if (order > latestQueued) latestQueued = order;
+      if (!skip(order)) jobs.set(id, { order, queued: true });
     }
-    const unknown = ids.filter((n) => !known.has(n));
+    // Active now, whatever the wait list said a moment before.
+    for (const id of active ?? []) {
+      const order = arrivalOf(id);
+      if (order !== undefined && !skip(order)) jobs.set(id, { order, queued: false });
+    }
+    const unknown = [...jobs.keys()].filter((id) => !known.has(`${partition}|${id}`));
     if (unknown.length > 0) {
       const pipeline = redis.pipeline();
-      for (const n of unknown) pipeline.hget(`${queueKey}:${n}`, 'data');
-      const answers = (await pipeline.exec()) ?? [];
-      unknown.forEach((n, i) => known.set(n, describe(n, answers[i]?.[1])));
+      for (const id of unknown) pipeline.hget(`${queueKey}:${id}`, 'data');
+      const data = (await pipeline.exec()) ?? [];
+      unknown.forEach((id, i) => known.set(`${partition}|${id}`, describe(jobs.get(id)!.order, data[i]?.[1])));
     }
-    // Jobs no longer active (or this process's own now) are forgotten.
-    const current = new Set(ids);
-    for (const n of known.keys()) if (!current.has(n)) known.delete(n);
-    return ids.map((n) => ({ ...known.get(n)!, queued: queued.has(n) }));
+    const out: ActiveJob[] = [...jobs].map(([id, job]) => ({ ...known.get(`${partition}|${id}`)!, queued: job.queued, partition }));
+    if (queueKeys.length > 1 && (head?.length ?? 0) >= WAIT_HEAD_LOOKED_AT && latestQueued > -Infinity) out.push({ order: latestQueued + 0.5, component: undefined, month: -Infinity, queued: true, partition });
+    return { partition, ids: [...jobs.keys()], out };
+  };
+  return async (skip) => {
+    const looks = await Promise.all(queueKeys.map((queueKey, partition) => lookAt(queueKey, partition, skip)));
+    // Jobs no longer active or waiting at a head (or this process's own now) are forgotten.
+    const current = new Set(looks.flatMap((l) => l.ids.map((id) => `${l.partition}|${id}`)));
+    for (const key of known.keys()) if (!current.has(key)) known.delete(key);
+    return looks.flatMap((l) => l.out);
   };
 }
 
 /** What a job's data says of its result, as far as it can be read (the worker validates it when it takes the job). */
-function describe(order: number, data: unknown): Omit<ActiveJob, 'queued'> {
+function describe(order: number, data: unknown): Omit<ActiveJob, 'queued' | 'partition'> {
   let component: string | undefined;
   let month = -Infinity;
   if (typeof data === 'string') {

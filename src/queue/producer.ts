@@ -5,7 +5,8 @@
  */
 import type { Queue } from 'bullmq';
 import { connectRedis, type RedisConnection, type RedisTarget } from '../redis/connection.ts';
-import { Partitions } from '../redis/keys.ts';
+import { arrivalCounterKey, Partitions } from '../redis/keys.ts';
+import { arrivalJobId } from './arrivalOrder.ts';
 import { DEFAULT_HISTORY_JOB_SIZE, HISTORY_JOB, openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings, type HistoryJobData, type QueueSettings } from './queues.ts';
 import { validateBatch, type RecordOutcome, type ValidatedRecord, type ValidationOptions } from '../intake/validate.ts';
 import { intakeJobName, type IntakePath } from './intakePaths.ts';
@@ -141,15 +142,20 @@ export function createResultProducer(options: ResultProducerOptions): ResultProd
       for (const part of writeParts(jobs, (job) => job.data.records.length)) await historyQueue.addBulk(part);
     } else {
       for (const part of writeParts(accepted, () => 1)) {
+        // With several partitions, the part's results are numbered in the order given, across all partitions' queues,
+        // and that number is each one's job id: the workers judge the results in that order (arrivalOrder.ts). With
+        // one, the queue's own job ids are that order.
+        const first = partitions.count > 1 ? (await redis.incrby(arrivalCounterKey(partitions), part.length)) - part.length + 1 : undefined;
         // Each result goes to its component's partition (one bulk add per partition).
-        const byPartition = new Map<number, ValidatedRecord[]>();
-        for (const r of part) {
+        const byPartition = new Map<number, Array<{ name: string; data: unknown; opts?: { jobId: string } }>>();
+        part.forEach((r, i) => {
           const p = partitions.of(r.sample);
+          const job = { name: intakeJobName('result', origin), data: r.event, ...(first !== undefined && { opts: { jobId: arrivalJobId(first + i) } }) };
           const list = byPartition.get(p);
-          if (list === undefined) byPartition.set(p, [r]);
-          else list.push(r);
-        }
-        await Promise.all([...byPartition].map(([p, list]) => queues[p]!.addBulk(list.map((r) => ({ name: intakeJobName('result', origin), data: r.event })))));
+          if (list === undefined) byPartition.set(p, [job]);
+          else list.push(job);
+        });
+        await Promise.all([...byPartition].map(([p, list]) => queues[p]!.addBulk(list)));
       }
     }
     const issues = new Map<number, RecordOutcome>();

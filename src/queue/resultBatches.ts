@@ -11,8 +11,9 @@
  *
  * A component whose judgement fails fails the jobs waiting for it (they are retried); the batch's others go on.
  *
- * Several worker processes judge in arrival order (arrivalOrder.ts): a batch takes only the results that arrived
- * before every result another process holds and has not judged yet, and waits for those (looking every
+ * Several worker processes judge in arrival order (arrivalOrder.ts): one set of batches takes the results of every
+ * partition's queue, and a batch takes only the results that arrived before every result another process holds and
+ * has not judged yet, or that waits to be taken on a queue behind the others, and waits for those (looking every
  * `ARRIVAL_POLL_MS`, at most `arrivalWaitMs`); the rest waits for the next batch. The process that holds the earliest
  * result not yet judged never waits, so the processes take turns, and a burst spanning months is judged month by
  * month across them as one process judges it: no component is judged past a month whose results another process
@@ -62,6 +63,8 @@ export const ARRIVAL_POLL_MS = 5;
 /**
  * How long an earlier result waiting to be taken is waited for while no worker takes it (every process that could is
  * holding as many results jobs as it takes at once, each waiting in turn); once taken, it is waited for as any other.
+ * Counted only while this process waits for earlier results (`takeReady`), not while it judges a batch: the slots that
+ * batch holds free when it has committed.
  */
 export const QUEUED_GRACE_MS = 5_000;
 
@@ -94,24 +97,27 @@ export interface ResultBatchesOptions {
    */
   readonly arrivalWaitMs?: number;
   /**
-   * Takes the results job at the head of the wait list outside the worker's slots and runs it (queuedResultTaker.ts);
-   * called for an earlier result waiting to be taken longer than TAKE_QUEUED_AFTER_MS that results held here wait
-   * for, once per such result at a time. Without it, such a result is waited for QUEUED_GRACE_MS only.
+   * Takes the results job at the head of partition `partition`'s wait list outside the worker's slots and runs it
+   * (queuedResultTaker.ts); called for an earlier result waiting to be taken longer than TAKE_QUEUED_AFTER_MS that
+   * results held here wait for, once per such result at a time. Without it, such a result is waited for
+   * QUEUED_GRACE_MS only.
    */
-  readonly takeQueued?: () => Promise<void>;
+  readonly takeQueued?: (partition: number) => Promise<void>;
 }
 
 export class ResultBatches {
   private waiting = new Map<string, Waiting>();
-  /** When each earlier result waiting to be taken was first seen so (performance.now()), by arrival order. */
+  /** When each earlier result waiting to be taken was first seen so (`waitClock`), by arrival order. */
   private queuedSince = new Map<number, number>();
+  /** Milliseconds spent waiting for earlier results (in `takeReady`), up to its last look. */
+  private waitClock = 0;
   /** Of those, the ones no longer waited for (QUEUED_GRACE_MS), for the log. */
   private givenUp = new Set<number>();
   /** Arrival orders of the results jobs this process holds (from `hold` to its release). */
   private readonly held = new Map<number, number>();
   private underWay = false;
-  /** Jobs being taken outside the worker's slots (`takeQueued`). */
-  private taking = 0;
+  /** Jobs being taken outside the worker's slots (`takeQueued`), by partition. */
+  private readonly taking = new Map<number, number>();
   private readonly retryMs: number;
   private readonly arrivalWaitMs: number;
   /** Batches judged, and components judged in them (for the benchmark's and the tests' view of the coalescing). */
@@ -187,30 +193,36 @@ export class ResultBatches {
    */
   private async takeReady(activeJobs: ActiveJobs): Promise<Taken> {
     const started = performance.now();
+    const clockAtStart = this.waitClock;
+    const clock = () => clockAtStart + (performance.now() - started);
     let waited = false;
-    for (;;) {
-      const { elsewhere, checked } = await this.heldElsewhere(activeJobs);
-      const ready = this.split(elsewhere, checked);
-      if (ready.length > 0) return { batch: ready, heldFrom: heldFrom(elsewhere) };
-      // Results that arrived here during the look are looked at again at once.
-      if (this.unchecked(checked)) continue;
-      if (performance.now() - started >= this.arrivalWaitMs) {
-        this.deps.logger.warn({ waitedMs: Math.round(performance.now() - started), results: [...this.waiting.values()].reduce((n, w) => n + w.pending.length, 0) }, 'results judged without earlier ones another worker process still holds');
-        return { batch: this.split([], Infinity), heldFrom: heldFrom(elsewhere) };
+    try {
+      for (;;) {
+        const { elsewhere, checked } = await this.heldElsewhere(activeJobs, clock);
+        const ready = this.split(elsewhere, checked);
+        if (ready.length > 0) return { batch: ready, heldFrom: heldFrom(elsewhere) };
+        // Results that arrived here during the look are looked at again at once.
+        if (this.unchecked(checked)) continue;
+        if (performance.now() - started >= this.arrivalWaitMs) {
+          this.deps.logger.warn({ waitedMs: Math.round(performance.now() - started), results: [...this.waiting.values()].reduce((n, w) => n + w.pending.length, 0) }, 'results judged without earlier ones another worker process still holds');
+          return { batch: this.split([], Infinity), heldFrom: heldFrom(elsewhere) };
+        }
+        if (!waited) this.counts.arrivalWaits += 1;
+        waited = true;
+        this.takeStuck(elsewhere, checked, clock());
+        await new Promise((resolve) => setTimeout(resolve, ARRIVAL_POLL_MS));
       }
-      if (!waited) this.counts.arrivalWaits += 1;
-      waited = true;
-      this.takeStuck(elsewhere, checked);
-      await new Promise((resolve) => setTimeout(resolve, ARRIVAL_POLL_MS));
+    } finally {
+      this.waitClock = clock();
     }
   }
 
   /**
    * The active results jobs another process holds, and the latest arrival order of the results waiting here when they
    * were looked up (`checked`; those handed over during the look arrived later). None, and every result checked, when
-   * Redis does not answer.
+   * Redis does not answer. `clock`: the time waited for earlier results (`waitClock`), in milliseconds.
    */
-  private async heldElsewhere(activeJobs: ActiveJobs): Promise<{ readonly elsewhere: readonly ActiveJob[]; readonly checked: number }> {
+  private async heldElsewhere(activeJobs: ActiveJobs, clock: () => number): Promise<{ readonly elsewhere: readonly ActiveJob[]; readonly checked: number }> {
     let latest = -Infinity;
     const waiting = new Set<number>();
     for (const w of this.waiting.values())
@@ -223,7 +235,7 @@ export class ResultBatches {
       // Its own results are told apart once the list is in: a job of this process that ended meanwhile has left it.
       const elsewhere = await activeJobs((order) => this.held.has(order) || waiting.has(order));
       // A result waiting to be taken that no worker takes within QUEUED_GRACE_MS is not waited for any longer.
-      const now = performance.now();
+      const now = clock();
       const since = new Map<number, number>();
       const givenUp = new Set<number>();
       const kept = elsewhere.filter((job) => {
@@ -247,22 +259,27 @@ export class ResultBatches {
   }
 
   /**
-   * Takes, outside the worker's slots, as many results jobs from the head of the wait list as there are earlier results
-   * waiting there longer than TAKE_QUEUED_AFTER_MS that results held here arrived after (`latest`: the latest arrival
-   * order of those, as the look that found `elsewhere` had them; those taken meanwhile count).
+   * Takes, outside the worker's slots, as many results jobs from the head of each partition's wait list as there are
+   * earlier results waiting there longer than TAKE_QUEUED_AFTER_MS that results held here arrived after (`latest`: the
+   * latest arrival order of those, as the look that found `elsewhere` had them; those taken meanwhile count). `now`:
+   * the time waited for earlier results (`waitClock`).
    */
-  private takeStuck(elsewhere: readonly ActiveJob[], latest: number): void {
+  private takeStuck(elsewhere: readonly ActiveJob[], latest: number, now: number): void {
     const take = this.options.takeQueued;
     if (take === undefined) return;
-    const now = performance.now();
-    const stuck = elsewhere.filter((job) => job.queued && job.order < latest && now - (this.queuedSince.get(job.order) ?? now) >= TAKE_QUEUED_AFTER_MS).length;
-    if (this.taking < stuck) this.deps.logger.info({ results: stuck - this.taking }, 'earlier results waiting to be taken that results held here wait for: taken outside the worker slots');
-    while (this.taking < stuck) {
-      this.taking += 1;
-      this.counts.takenOutsideSlots += 1;
-      void take()
-        .catch((e: unknown) => this.deps.logger.warn({ err: (e as Error).message }, 'taking a waiting result outside the worker slots failed'))
-        .finally(() => (this.taking -= 1));
+    const stuck = new Map<number, number>();
+    for (const job of elsewhere) if (job.queued && job.order < latest && now - (this.queuedSince.get(job.order) ?? now) >= TAKE_QUEUED_AFTER_MS) stuck.set(job.partition, (stuck.get(job.partition) ?? 0) + 1);
+    for (const [partition, n] of stuck) {
+      const taking = this.taking.get(partition) ?? 0;
+      if (taking >= n) continue;
+      this.deps.logger.info({ results: n - taking, partition }, 'earlier results waiting to be taken that results held here wait for: taken outside the worker slots');
+      for (let i = taking; i < n; i++) {
+        this.taking.set(partition, (this.taking.get(partition) ?? 0) + 1);
+        this.counts.takenOutsideSlots += 1;
+        void take(partition)
+          .catch((e: unknown) => this.deps.logger.warn({ err: (e as Error).message, partition }, 'taking a waiting result outside the worker slots failed'))
+          .finally(() => this.taking.set(partition, this.taking.get(partition)! - 1));
+      }
     }
   }
 

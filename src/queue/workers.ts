@@ -49,14 +49,14 @@ export interface WorkerSettings extends QueueSettings {
    */
   resultsConcurrency?: number;
   /**
-   * Several worker processes judge each partition's results in the order they arrived (resultBatches.ts, arrivalOrder.ts;
-   * off with `wearshift worker --no-arrival-order`). Default true; with one process it changes nothing but a read of
-   * the queue's active jobs per batch (README, *Several worker processes judge in arrival order*).
+   * Several worker processes judge the results in the order they arrived, across partitions (resultBatches.ts,
+   * arrivalOrder.ts; off with `wearshift worker --no-arrival-order`). Default true; with one process and one partition
+   * it changes nothing but a read of the queue's active jobs per batch (README, *Several worker processes judge in arrival order*).
    */
   arrivalOrder?: boolean;
   /**
    * Longest wait of a batch of results for results that arrived before it and that another worker process holds
-   * (resultBatches.ts): processes judge a partition's results in arrival order, so that a burst spanning sampling
+   * (resultBatches.ts): processes judge the results in arrival order, so that a burst spanning sampling
    * months gives the verdicts of one process. After the wait a batch judges without them. Default 90 000 ms (a dead
    * worker's jobs come back within about a minute: `jobLockMs` plus up to two stall checks).
    */
@@ -211,20 +211,27 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   const historyRunner: EvaluationRunnerDeps = threads === undefined ? runner : { ...runner, evaluator: (ref) => threads.evaluate(ref, now()) };
 
   const workers: Worker[] = [];
+  // A result given back by a dead worker, or waiting on a partition's queue behind the others, that no slot frees for
+  // is taken outside the slots (queuedResultTaker.ts), by partition.
   const takers: QueuedResultTaker[] = [];
+  // One set of batches for every partition's results: with arrivalOrder, the results are judged in the order they
+  // arrived, across the partitions' queues and across processes (arrivalOrder.ts).
+  const batches = new ResultBatches(runner, {
+    retryMs: s.busyRetryMs,
+    ...(s.arrivalOrder && {
+      activeJobs: activeJobs(
+        deps.connection,
+        partitions.all().map((p) => `${partitions.tag(p)}:${QUEUE_NAMES.results}`),
+      ),
+      takeQueued: (p: number) => takers[p]!.take(),
+    }),
+    arrivalWaitMs: s.arrivalWaitMs,
+  });
+  const processor = resultsProcessor(runner, s.busyRetryMs, batches);
   for (const p of partitions.all()) {
     const prefix = partitions.tag(p);
-    // With arrivalOrder, the partition's results are judged in the order they arrived on its queue, across processes.
     const resultsOptions = options(prefix, s.resultsConcurrency, queueSettings.attempts);
-    // A result given back by a dead worker that no slot frees for is taken outside the slots (queuedResultTaker.ts).
-    let taker: QueuedResultTaker | undefined;
-    const batches = new ResultBatches(runner, {
-      retryMs: s.busyRetryMs,
-      ...(s.arrivalOrder && { activeJobs: activeJobs(deps.connection, `${prefix}:${QUEUE_NAMES.results}`), takeQueued: () => taker!.take() }),
-      arrivalWaitMs: s.arrivalWaitMs,
-    });
-    const processor = resultsProcessor(runner, s.busyRetryMs, batches);
-    if (s.arrivalOrder) takers.push((taker = queuedResultTaker(QUEUE_NAMES.results, processor, resultsOptions, logger)));
+    if (s.arrivalOrder) takers.push(queuedResultTaker(QUEUE_NAMES.results, processor, resultsOptions, logger));
     workers.push(new Worker(QUEUE_NAMES.results, processor, resultsOptions));
     workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs), options(prefix, s.evaluateConcurrency, queueSettings.attempts)));
   }

@@ -131,6 +131,14 @@ export function partitionKeys(tag: string) {
   };
 }
 
+/**
+ * The counter that numbers live results across all partitions' results queues as the producer enqueues them (their
+ * arrival order, arrivalOrder.ts), under the shared tag. Used only with more than one partition.
+ */
+export function arrivalCounterKey(partitions: Partitions): string {
+  return `${partitions.sharedTag()}:results:arrival`;
+}
+
 export function groupKeys(tag: string, group: string) {
   const g = `${tag}:g:${encodeURIComponent(group)}`;
   return {

@@ -32,9 +32,9 @@ groups:
 `;
 }
 
-/** The configuration (YAML) under `prefix`, population limits opening incidents. */
-export function populationConfig(prefix: string): string {
-  return `redis: { prefix: "${prefix}" }${liftGearboxJudging(true)}`;
+/** The configuration (YAML) under `prefix`, in `partitions` key partitions (default 1), population limits opening incidents. */
+export function populationConfig(prefix: string, partitions = 1): string {
+  return `redis: { prefix: "${prefix}", partitions: ${partitions} }${liftGearboxJudging(true)}`;
 }
 
 /** Writes the fleet's file in `dir` and replays it on the Redis at `redisUrl`: the file and replay's incidents. */

@@ -7,7 +7,9 @@
  * (`closed.how === 'withdrawn'`) once those results are judged. The processes judge the results in the order they
  * arrived, across processes: in each of three rounds (a fresh pair of processes on a fresh prefix) no incident is
  * opened and later withdrawn, the incidents are exactly those of `wearshift replay --json` on the same file, and both
- * processes stored part of the burst.
+ * processes stored part of the burst. The same holds with the keys and queues in four partitions, where the results of
+ * one sampling month lie on four queues: the processes judge them in the order they arrived across the partitions'
+ * queues (the producer numbers them across partitions).
  */
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -15,7 +17,8 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
-import { openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
+import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
+import { Partitions } from '../../src/redis/keys.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { runCli } from '../helpers/cli.ts';
 import { startWearshift, stopAll, waitFor, type WearshiftProcess } from '../helpers/processes.ts';
@@ -50,51 +53,56 @@ async function storedBy(worker: WearshiftProcess): Promise<number> {
 }
 
 /** One round: the burst imported with no worker running, then taken by two fresh worker processes. */
-async function round(n: number, file: string) {
-  const prefix = `{arrival${n}}`;
-  const configFile = join(dir, `config-${n}.yaml`);
-  writeFileSync(configFile, populationConfig(prefix));
+async function round(n: number, file: string, partitionCount: number) {
+  const prefix = `{arrival${partitionCount}-${n}}`;
+  const configFile = join(dir, `config-${partitionCount}-${n}.yaml`);
+  writeFileSync(configFile, populationConfig(prefix, partitionCount));
   // /metrics without a token: each process's count of results stored says it took part.
   const env = { REDIS_URL: server.url, LOG_LEVEL: 'warn', WEARSHIFT_METRICS_PUBLIC: '1' };
   const redis = server.client();
   const settings = resolveQueueSettings({ prefix });
-  const results = openQueue(QUEUE_NAMES.results, redis, settings);
-  const evaluate = openQueue(QUEUE_NAMES.evaluate, redis, settings);
+  const partitions = new Partitions(prefix, partitionCount);
+  const results = openPartitionedQueues(QUEUE_NAMES.results, redis, settings, partitions);
+  const evaluate = openPartitionedQueues(QUEUE_NAMES.evaluate, redis, settings, partitions);
   const workers: WearshiftProcess[] = [];
   try {
     // The burst waits on the queue, held (paused) until both processes take jobs: neither starts on it alone,
     // whichever comes up first.
-    await results.pause();
+    await Promise.all(results.map((q) => q.pause()));
     const imported = await runCli(['import', file, '--config', configFile], env, 300_000);
     expect(imported.code).toBe(0);
     expect(imported.stdout).toContain(`${RESULTS} enqueued`);
-    expect(await results.isPaused()).toBe(true);
-    expect(await results.getJobCounts('waiting', 'active', 'completed')).toEqual({ waiting: RESULTS, active: 0, completed: 0 });
+    for (const q of results) expect(await q.isPaused()).toBe(true);
+    const counts = await Promise.all(results.map((q) => q.getJobCounts('waiting', 'active', 'completed')));
+    expect(counts.reduce((n, c) => n + c.waiting!, 0)).toBe(RESULTS);
+    expect(counts.map((c) => c.active! + c.completed!)).toEqual(results.map(() => 0));
 
     workers.push(...(await Promise.all([0, 1].map(() => startWearshift('worker', { env, args: ['--config', configFile, '--results-at-once', '50', '--arrival-order'], readyTimeoutMs: 180_000 })))));
-    await waitFor('both workers taking results jobs', async () => (await results.getWorkersCount()) === 2, 180_000, 200);
-    await results.resume();
-    await drained([results, evaluate], 600_000);
-    expect(await results.getFailedCount()).toBe(0);
-    expect(await evaluate.getFailedCount()).toBe(0);
+    await waitFor('both workers taking results jobs', async () => (await Promise.all(results.map((q) => q.getWorkersCount()))).every((w) => w === 2), 180_000, 200);
+    await Promise.all(results.map((q) => q.resume()));
+    await drained([...results, ...evaluate], 600_000);
+    for (const q of [...results, ...evaluate]) expect(await q.getFailedCount()).toBe(0);
     const stored = await Promise.all(workers.map(storedBy));
 
     // Every incident, withdrawn ones too.
-    const store = new RedisIncidents(redis, { rules: incidentRules(parseConfig(populationConfig(prefix))), prefix });
+    const store = new RedisIncidents(redis, { rules: incidentRules(parseConfig(populationConfig(prefix, partitionCount))), prefix, partitions: partitionCount });
     return { stored, incidents: await storedVerdictRows(store) };
   } finally {
-    await Promise.all([results.close(), evaluate.close()]);
+    await Promise.all([...results, ...evaluate].map((q) => q.close()));
     for (const w of workers) expect(await w.stop()).toBe(0);
   }
 }
 
+/** The fleet's file and replay's incidents, once for both partition counts. */
+let replayed: ReturnType<typeof populationFleetReplayed> | undefined;
+
 describe('two worker processes taking a burst that spans many sampling months', () => {
-  it('open only the incidents of replay, none withdrawn later, and both take part', async () => {
-    const { file, verdicts } = await populationFleetReplayed(dir, server.url);
+  it.each([1, 4])('open only the incidents of replay, none withdrawn later, and both take part (%i partitions)', async (partitionCount) => {
+    const { file, verdicts } = await (replayed ??= populationFleetReplayed(dir, server.url));
 
     const rounds = [];
-    for (let n = 1; n <= ROUNDS; n++) rounds.push(await round(n, file));
-    console.info(`withdrawn incidents per round: ${rounds.map((r) => r.incidents.filter((i) => i.closed === 'withdrawn').length).join(', ')}`);
+    for (let n = 1; n <= ROUNDS; n++) rounds.push(await round(n, file, partitionCount));
+    console.info(`${partitionCount} partitions, withdrawn incidents per round: ${rounds.map((r) => r.incidents.filter((i) => i.closed === 'withdrawn').length).join(', ')}`);
 
     // Both processes stored part of the burst in every round, every result once.
     for (const r of rounds) {

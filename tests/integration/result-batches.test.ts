@@ -209,7 +209,7 @@ describe('live results judged in batches', () => {
     const active = new Set<number>();
     const options: ResultBatchesOptions = {
       activeJobs: async (skip) =>
-        [...active].filter((o) => !skip(o)).map((o) => ({ order: o, component: componentKey(ordered[o - 1]!), month: monthStart(ordered[o - 1]!.time), queued: false })),
+        [...active].filter((o) => !skip(o)).map((o) => ({ order: o, component: componentKey(ordered[o - 1]!), month: monthStart(ordered[o - 1]!.time), queued: false, partition: 0 })),
     };
     const a = line(undefined, options);
     const b = line(a.prefix, options);
@@ -250,7 +250,7 @@ describe('live results judged in batches', () => {
     let taken = 0;
     const judgedInOrder: number[] = [];
     const takes = line(undefined, {
-      activeJobs: async (skip) => (queued && !skip(1) ? [{ order: 1, component: componentKey(first), month: monthStart(first.time), queued: true }] : []),
+      activeJobs: async (skip) => (queued && !skip(1) ? [{ order: 1, component: componentKey(first), month: monthStart(first.time), queued: true, partition: 0 }] : []),
       takeQueued: async () => {
         taken += 1;
         queued = false;
@@ -283,7 +283,7 @@ describe('live results judged in batches', () => {
   });
 
   it('a batch judges without an earlier result another process holds once its wait is over', async () => {
-    const waits = line(undefined, { activeJobs: async () => [{ order: 1, component: undefined, month: -Infinity, queued: false }], arrivalWaitMs: 50 });
+    const waits = line(undefined, { activeJobs: async () => [{ order: 1, component: undefined, month: -Infinity, queued: false, partition: 0 }], arrivalWaitMs: 50 });
     try {
       const s = samples[0]!;
       await waits.store(s);
