@@ -111,17 +111,24 @@ export function activeJobs(redis: RedisConnection, queueKeys: readonly string[])
 
 /** What a job's data says of its result, as far as it can be read (the worker validates it when it takes the job). */
 function describe(order: number, data: unknown): Omit<ActiveJob, 'queued' | 'partition'> {
-  let component: string | undefined;
-  let month = -Infinity;
   if (typeof data === 'string') {
     try {
-      const event = JSON.parse(data) as { unit?: unknown; component?: unknown; sampledAt?: unknown };
-      if (typeof event.unit === 'string' && typeof event.component === 'string') component = componentKey({ unit: event.unit, component: event.component });
-      const time = typeof event.sampledAt === 'string' ? Date.parse(event.sampledAt) : NaN;
-      if (Number.isFinite(time)) month = monthStart(time);
+      return { order, ...resultAbout(JSON.parse(data)) };
     } catch {
       // Not JSON: neither is known, and the job is waited for as one that may touch anything.
     }
   }
-  return { order, component, month };
+  return { order, component: undefined, month: -Infinity };
+}
+
+/**
+ * The component (`componentKey`) and the first instant of the sampling month of a result event as far as it can be
+ * read before validation: undefined and -Infinity where it cannot (it is then waited for as one that may touch
+ * anything).
+ */
+export function resultAbout(event: unknown): { readonly component: string | undefined; readonly month: number } {
+  const e = (typeof event === 'object' && event !== null ? event : {}) as { unit?: unknown; component?: unknown; sampledAt?: unknown };
+  const component = typeof e.unit === 'string' && typeof e.component === 'string' ? componentKey({ unit: e.unit, component: e.component }) : undefined;
+  const time = typeof e.sampledAt === 'string' ? Date.parse(e.sampledAt) : NaN;
+  return { component, month: Number.isFinite(time) ? monthStart(time) : -Infinity };
 }

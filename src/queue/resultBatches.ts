@@ -42,6 +42,9 @@ interface Waiting {
   readonly pending: Pending[];
 }
 
+/** A result that arrived before others and is not judged yet: its arrival order, component and sampling month. */
+type Blocker = Pick<ActiveJob, 'order' | 'component' | 'month'>;
+
 /** A batch: what it judges, and where another process holds results of its components. */
 interface Taken {
   readonly batch: Batched[];
@@ -115,6 +118,8 @@ export class ResultBatches {
   private givenUp = new Set<number>();
   /** Arrival orders of the results jobs this process holds (from `hold` to its release). */
   private readonly held = new Map<number, number>();
+  /** What each of those says of its result (`hold`). */
+  private readonly heldAbout = new Map<number, Omit<Blocker, 'order'>>();
   private underWay = false;
   /** Jobs being taken outside the worker's slots (`takeQueued`), by partition. */
   private readonly taking = new Map<number, number>();
@@ -133,19 +138,34 @@ export class ResultBatches {
 
   /**
    * Counts a results job of arrival order `order` as this process's until the returned release is called (from when
-   * its job starts to when it ends), so that a batch does not wait for it as for another process's.
+   * its job starts to when it ends), so that a batch does not wait for it as for another process's. `about`: its
+   * result's component and sampling month (arrivalOrder.ts `resultAbout`): until the job hands its result to `judge`
+   * (while it is being stored), the results that arrived after it wait for it as for another process's, since it may
+   * be of an earlier month; unknown, it holds up every later result.
    */
-  hold(order: number | undefined): () => void {
+  hold(order: number | undefined, about: Omit<Blocker, 'order'> = { component: undefined, month: -Infinity }): () => void {
     if (order === undefined) return () => undefined;
     this.held.set(order, (this.held.get(order) ?? 0) + 1);
+    this.heldAbout.set(order, about);
     let released = false;
     return () => {
       if (released) return;
       released = true;
       const n = this.held.get(order)! - 1;
-      if (n === 0) this.held.delete(order);
-      else this.held.set(order, n);
+      if (n === 0) {
+        this.held.delete(order);
+        this.heldAbout.delete(order);
+      } else this.held.set(order, n);
     };
+  }
+
+  /** The results jobs this process holds that have not handed their result to `judge` yet (being stored). */
+  private beingStored(): Blocker[] {
+    const handed = new Set<number>();
+    for (const w of this.waiting.values()) for (const p of w.pending) if (p.order !== undefined) handed.add(p.order);
+    const out: Blocker[] = [];
+    for (const [order, about] of this.heldAbout) if (!handed.has(order)) out.push({ order, ...about });
+    return out;
   }
 
   /**
@@ -199,7 +219,8 @@ export class ResultBatches {
     try {
       for (;;) {
         const { elsewhere, checked } = await this.heldElsewhere(activeJobs, clock);
-        const ready = this.split(elsewhere, checked);
+        // Results this process holds that are still being stored come first too: they may be of an earlier month.
+        const ready = this.split([...elsewhere, ...this.beingStored()], checked);
         if (ready.length > 0) return { batch: ready, heldFrom: heldFrom(elsewhere) };
         // Results that arrived here during the look are looked at again at once.
         if (this.unchecked(checked)) continue;
@@ -295,7 +316,7 @@ export class ResultBatches {
    * judged with are those of the months before its own) or of the same component. Results without an order are taken;
    * those that arrived after `checked` (the latest order `elsewhere` was looked up for) stay for the next look.
    */
-  private split(elsewhere: readonly ActiveJob[], checked: number): Batched[] {
+  private split(elsewhere: readonly Blocker[], checked: number): Batched[] {
     const blockers = [...elsewhere].sort((x, y) => x.order - y.order);
     // The earliest month among the first i blockers, and the earliest order held elsewhere per component.
     const earliestMonth: number[] = [Infinity];

@@ -11,7 +11,7 @@ import { componentKey, type Sample } from '../../src/domain/event.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { validateResult } from '../../src/intake/validate.ts';
 import { storeSample } from '../../src/pipeline/storeResult.ts';
-import { monthStart } from '../../src/queue/arrivalOrder.ts';
+import { monthStart, resultAbout } from '../../src/queue/arrivalOrder.ts';
 import { runEvaluation, type EvaluationRunnerDeps } from '../../src/queue/evaluationRunner.ts';
 import { openPartitionedQueues, resolveQueueSettings, QUEUE_NAMES } from '../../src/queue/queues.ts';
 import { ResultBatches, type ResultBatchesOptions } from '../../src/queue/resultBatches.ts';
@@ -279,6 +279,34 @@ describe('live results judged in batches', () => {
       expect((await takes.input(second))?.latest?.count).toBe(2);
     } finally {
       await takes.close();
+    }
+  });
+
+  it('a result this process still stores holds up the later results of an earlier-month batch, then both are judged together', async () => {
+    // Two units' results: E (order 1, an earlier month) is taken by this process but still being stored when R (order 2,
+    // a later month, another unit) is handed to the batches. R's batch waits for E (it may change the group's statistics
+    // as of R's month) and both are judged in one batch once E is handed over.
+    const [e, r] = [samples.find((x) => x.unit === samples[0]!.unit)!, samples.find((x) => x.unit !== samples[0]!.unit && monthStart(x.time) > monthStart(samples[0]!.time))!];
+    const waits = line(undefined, { activeJobs: async () => [], arrivalWaitMs: 600_000 });
+    try {
+      const releaseE = waits.batches.hold(1, resultAbout(e));
+      const releaseR = waits.batches.hold(2, resultAbout(r));
+      await waits.store(r);
+      let judgedR = false;
+      const rJudged = waits.batches.judge(r, 2).then(() => (judgedR = true));
+      // However long E takes to store, R stays unjudged (a wait of 600 s would end only with E).
+      await new Promise((resolve) => setTimeout(resolve, 200));
+      expect(judgedR).toBe(false);
+      expect(waits.batches.counts.batches).toBe(0);
+      await waits.store(e);
+      await Promise.all([waits.batches.judge(e, 1), rJudged]);
+      releaseE();
+      releaseR();
+      expect(waits.batches.counts).toMatchObject({ batches: 1, components: 2 });
+      expect((await waits.input(e))?.latest?.count).toBe(1);
+      expect((await waits.input(r))?.latest?.count).toBe(1);
+    } finally {
+      await waits.close();
     }
   });
 

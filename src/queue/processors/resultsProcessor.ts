@@ -10,7 +10,7 @@ import { UnrecoverableError, type Job, type Processor } from 'bullmq';
 import { conflictReason } from '../../redis/revisionConflicts.ts';
 import { claimedSampleId, validateResult } from '../../intake/validate.ts';
 import { InvalidResultError, storeSample } from '../../pipeline/storeResult.ts';
-import { arrivalOf } from '../arrivalOrder.ts';
+import { arrivalOf, resultAbout } from '../arrivalOrder.ts';
 import type { EvaluationRunnerDeps } from '../evaluationRunner.ts';
 import { countAccepted } from '../intakePaths.ts';
 import { DEFAULT_EVALUATE_RETRY_MS } from '../queues.ts';
@@ -18,8 +18,9 @@ import { ResultBatches } from '../resultBatches.ts';
 
 export function resultsProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_EVALUATE_RETRY_MS, batches = new ResultBatches(deps, { retryMs })): Processor {
   return async (job: Job) => {
-    // This process's own from here on: another process's batches wait for it, this one's do not (resultBatches.ts).
-    const release = batches.hold(arrivalOf(job.id));
+    // This process's own from here on: another process's batches wait for it, this one's only while it is being stored
+    // (resultBatches.ts).
+    const release = batches.hold(arrivalOf(job.id), resultAbout(job.data));
     try {
       return await processResult(deps, batches, job);
     } finally {
