@@ -33,17 +33,19 @@ export function monthStart(time: number): number {
 }
 
 /**
- * The job id the producer gives a result when the keys are partitioned: `r` and its place in the arrival order across
- * all partitions (BullMQ refuses an id of its own that is a whole number).
+ * The job id the producer gives a result when the keys are partitioned: `r`, its place in the arrival order across all
+ * partitions, and after a dash `unique`, a text of digits and lower-case letters no other job of the producer's has
+ * (BullMQ refuses an id of its own that is a whole number, and adds no job whose id another job on the queue has: were
+ * the counter ever set back, by a fail-over that lost its last increments, a result must still not be dropped).
  */
-export function arrivalJobId(order: number): string {
-  return `r${order}`;
+export function arrivalJobId(order: number, unique: string): string {
+  return `r${order}-${unique}`;
 }
 
 /** The arrival order of a results job's id (BullMQ's number, or `arrivalJobId`'s), or undefined for another id. */
 export function arrivalOf(jobId: string | undefined): number | undefined {
-  const m = jobId === undefined ? null : /^r?(\d{1,15})$/.exec(jobId);
-  return m === null ? undefined : Number(m[1]);
+  const m = jobId === undefined ? null : /^(?:(\d{1,15})|r(\d{1,15})-[0-9a-z]+)$/.exec(jobId);
+  return m === null ? undefined : Number(m[1] ?? m[2]);
 }
 
 /**

@@ -3,6 +3,7 @@
  * HTTP. It validates every record exactly as the HTTP intake and the worker do, enqueues the valid ones on
  * the `results` queue and tells, record by record, what happened.
  */
+import { randomBytes } from 'node:crypto';
 import type { Queue } from 'bullmq';
 import { connectRedis, type RedisConnection, type RedisTarget } from '../redis/connection.ts';
 import { arrivalCounterKey, Partitions } from '../redis/keys.ts';
@@ -124,6 +125,10 @@ export function createResultProducer(options: ResultProducerOptions): ResultProd
   let historyReady: Promise<unknown> | undefined;
   const now = options.now ?? Date.now;
   const origin = options.origin ?? 'producer';
+  // The unique part of the job ids of results numbered across partitions (`arrivalJobId`): this producer's own tag and
+  // a count of its jobs.
+  const producerTag = randomBytes(5).toString('hex');
+  let jobsNumbered = 0;
   const enqueue = async (records: readonly ValidatedRecord[], perJob?: number): Promise<Map<number, RecordOutcome>> => {
     // A sampleId and revision already stored (or earlier in the request) with other content is refused, not lost silently.
     // Once the connection is ready, as the queue waits for it: a request connection has no offline queue.
@@ -150,7 +155,7 @@ export function createResultProducer(options: ResultProducerOptions): ResultProd
         const byPartition = new Map<number, Array<{ name: string; data: unknown; opts?: { jobId: string } }>>();
         part.forEach((r, i) => {
           const p = partitions.of(r.sample);
-          const job = { name: intakeJobName('result', origin), data: r.event, ...(first !== undefined && { opts: { jobId: arrivalJobId(first + i) } }) };
+          const job = { name: intakeJobName('result', origin), data: r.event, ...(first !== undefined && { opts: { jobId: arrivalJobId(first + i, `${producerTag}${(jobsNumbered++).toString(36)}`) } }) };
           const list = byPartition.get(p);
           if (list === undefined) byPartition.set(p, [job]);
           else list.push(job);

@@ -1,8 +1,9 @@
 /**
  * Arrival order across partitions (src/queue/arrivalOrder.ts, src/queue/producer.ts), on a private redis-server with
  * real BullMQ queues: with the keys in three partitions, the producer numbers the results it enqueues in the order
- * given, across all partitions' queues, one count for every call (job ids `r1`, `r2`, …), so that each queue hands
- * its results out in that order; with one partition the queue's own ids stay. The view of the queues a batch waits on
+ * given, across all partitions' queues, one count for every call (job ids `r1-…`, `r2-…`, …, each unique), so that
+ * each queue hands its results out in that order, and a count set back (a fail-over that lost its last increments)
+ * drops no result; with one partition the queue's own ids stay. The view of the queues a batch waits on
  * lists, from every partition, the active jobs and those waiting at the head of each line, with component, sampling
  * month and partition; and when a line's head is full, a stand-in after its latest that holds up every later result.
  */
@@ -12,7 +13,7 @@ import { componentKey } from '../../src/domain/event.ts';
 import { activeJobs, arrivalJobId, arrivalOf, monthStart, WAIT_HEAD_LOOKED_AT } from '../../src/queue/arrivalOrder.ts';
 import { createResultProducer } from '../../src/queue/producer.ts';
 import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
-import { Partitions } from '../../src/redis/keys.ts';
+import { arrivalCounterKey, Partitions } from '../../src/redis/keys.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 let server: RedisServer;
@@ -46,8 +47,9 @@ function setup(partitionCount: number) {
 describe('arrival order across partitions', () => {
   it('reads the order of both kinds of job id, and nothing from another id', () => {
     expect(arrivalOf('17')).toBe(17);
-    expect(arrivalOf(arrivalJobId(17))).toBe(17);
-    expect([arrivalOf(undefined), arrivalOf(''), arrivalOf('r'), arrivalOf('x17'), arrivalOf('17a'), arrivalOf('r-1'), arrivalOf('1e3')]).toEqual([undefined, undefined, undefined, undefined, undefined, undefined, undefined]);
+    expect(arrivalOf(arrivalJobId(17, 'a3f09c'))).toBe(17);
+    const others = [undefined, '', 'r', 'r17', 'x17', '17a', 'r-1', '1e3', 'r17-', 'r17-A', '17-a3'];
+    expect(others.map(arrivalOf)).toEqual(others.map(() => undefined));
   });
 
   it('the producer numbers the results across the partitions in the order given, and each queue hands them out in it', async () => {
@@ -70,6 +72,21 @@ describe('arrival order across partitions', () => {
         const orders = line.map((j) => arrivalOf(j.id)!);
         expect(orders).toEqual([...orders].sort((x, y) => x - y));
       }
+    } finally {
+      await t.close();
+    }
+  });
+
+  it('a count set back drops no result: the ids stay unique', async () => {
+    const t = setup(2);
+    try {
+      await t.producer.add([result(1, 1, 1), result(2, 2, 2)]);
+      // As after a fail-over that lost the counter's increments.
+      await t.redis.del(arrivalCounterKey(t.partitions));
+      await t.producer.add([result(3, 1, 3), result(4, 2, 4)]);
+      const lines = await t.waiting();
+      expect(lines.flat().map((j) => j.sampleId).sort()).toEqual(['AO-1', 'AO-2', 'AO-3', 'AO-4']);
+      expect(lines.flat().map((j) => arrivalOf(j.id)).sort()).toEqual([1, 1, 2, 2]);
     } finally {
       await t.close();
     }
