@@ -116,10 +116,11 @@ export class ResultBatches {
   private waitClock = 0;
   /** Of those, the ones no longer waited for (QUEUED_GRACE_MS), for the log. */
   private givenUp = new Set<number>();
-  /** Arrival orders of the results jobs this process holds (from `hold` to its release). */
-  private readonly held = new Map<number, number>();
-  /** What each of those says of its result (`hold`). */
-  private readonly heldAbout = new Map<number, Omit<Blocker, 'order'>>();
+  /**
+   * The results jobs this process holds (from `hold` to its release), by arrival order: how many times (a job taken
+   * again while its first run ends), and what each says of its result.
+   */
+  private readonly held = new Map<number, { count: number; readonly about: Omit<Blocker, 'order'> }>();
   private underWay = false;
   /** Jobs being taken outside the worker's slots (`takeQueued`), by partition. */
   private readonly taking = new Map<number, number>();
@@ -145,17 +146,16 @@ export class ResultBatches {
    */
   hold(order: number | undefined, about: Omit<Blocker, 'order'> = { component: undefined, month: -Infinity }): () => void {
     if (order === undefined) return () => undefined;
-    this.held.set(order, (this.held.get(order) ?? 0) + 1);
-    this.heldAbout.set(order, about);
+    const entry = this.held.get(order);
+    if (entry === undefined) this.held.set(order, { count: 1, about });
+    else entry.count += 1;
     let released = false;
     return () => {
       if (released) return;
       released = true;
-      const n = this.held.get(order)! - 1;
-      if (n === 0) {
-        this.held.delete(order);
-        this.heldAbout.delete(order);
-      } else this.held.set(order, n);
+      const entry = this.held.get(order)!;
+      entry.count -= 1;
+      if (entry.count === 0) this.held.delete(order);
     };
   }
 
@@ -164,7 +164,7 @@ export class ResultBatches {
     const handed = new Set<number>();
     for (const w of this.waiting.values()) for (const p of w.pending) if (p.order !== undefined) handed.add(p.order);
     const out: Blocker[] = [];
-    for (const [order, about] of this.heldAbout) if (!handed.has(order)) out.push({ order, ...about });
+    for (const [order, { about }] of this.held) if (!handed.has(order)) out.push({ order, ...about });
     return out;
   }
 
