@@ -71,7 +71,9 @@ export const WAIT_HEAD_LOOKED_AT = 100;
  * every result that arrived after it waits until that queue's line has moved on.
  */
 export function activeJobs(redis: RedisConnection, queueKeys: readonly string[]): ActiveJobs {
-  const known = new Map<string, Omit<ActiveJob, 'queued' | 'partition'>>();
+  // By partition and job id: what its data says (read once per job; a job's data does not change), and the views of
+  // it handed out, waiting and active (built once: a batch waiting for others looks every few milliseconds).
+  const known = queueKeys.map(() => new Map<string, { readonly about: Omit<ActiveJob, 'queued' | 'partition'>; readonly views: Partial<Record<'queued' | 'active', ActiveJob>> }>());
   const lookAt = async (queueKey: string, partition: number, skip: (order: number) => boolean) => {
     const answers = (await redis.pipeline().lrange(`${queueKey}:wait`, -WAIT_HEAD_LOOKED_AT, -1).lrange(`${queueKey}:active`, 0, -1).exec()) ?? [];
     const [head, active] = answers.map(([err, list]) => {
@@ -91,24 +93,26 @@ export function activeJobs(redis: RedisConnection, queueKeys: readonly string[])
       const order = arrivalOf(id);
       if (order !== undefined && !skip(order)) jobs.set(id, { order, queued: false });
     }
-    const unknown = [...jobs.keys()].filter((id) => !known.has(`${partition}|${id}`));
+    const seen = known[partition]!;
+    const unknown = [...jobs.keys()].filter((id) => !seen.has(id));
     if (unknown.length > 0) {
       const pipeline = redis.pipeline();
       for (const id of unknown) pipeline.hget(`${queueKey}:${id}`, 'data');
       const data = (await pipeline.exec()) ?? [];
-      unknown.forEach((id, i) => known.set(`${partition}|${id}`, describe(jobs.get(id)!.order, data[i]?.[1])));
+      unknown.forEach((id, i) => seen.set(id, { about: describe(jobs.get(id)!.order, data[i]?.[1]), views: {} }));
     }
-    const out: ActiveJob[] = [...jobs].map(([id, job]) => ({ ...known.get(`${partition}|${id}`)!, queued: job.queued, partition }));
+    // Jobs no longer active or waiting at the head (or this process's own now) are forgotten.
+    for (const id of seen.keys()) if (!jobs.has(id)) seen.delete(id);
+    const out: ActiveJob[] = [];
+    for (const [id, job] of jobs) {
+      const entry = seen.get(id)!;
+      const view = job.queued ? 'queued' : 'active';
+      out.push((entry.views[view] ??= { ...entry.about, queued: job.queued, partition }));
+    }
     if (queueKeys.length > 1 && (head?.length ?? 0) >= WAIT_HEAD_LOOKED_AT && latestQueued > -Infinity) out.push({ order: latestQueued + 0.5, component: undefined, month: -Infinity, queued: true, partition });
-    return { partition, ids: [...jobs.keys()], out };
+    return out;
   };
-  return async (skip) => {
-    const looks = await Promise.all(queueKeys.map((queueKey, partition) => lookAt(queueKey, partition, skip)));
-    // Jobs no longer active or waiting at a head (or this process's own now) are forgotten.
-    const current = new Set(looks.flatMap((l) => l.ids.map((id) => `${l.partition}|${id}`)));
-    for (const key of known.keys()) if (!current.has(key)) known.delete(key);
-    return looks.flatMap((l) => l.out);
-  };
+  return async (skip) => (await Promise.all(queueKeys.map((queueKey, partition) => lookAt(queueKey, partition, skip)))).flat();
 }
 
 /** What a job's data says of its result, as far as it can be read (the worker validates it when it takes the job). */
