@@ -12,6 +12,9 @@
  * - backfill: 100 000 old results (quiet: nobody is paged) over 1 000 components, sent as history jobs (stored and
  *   evaluated month by month), once on the worker's own thread and once with history threads: wall time, the worker's
  *   peak resident memory, Redis memory per component.
+ * - group-backlog: two worker processes take a backlog of one group's old months, then current results; how long the
+ *   current results wait to be judged when they are of the backlog's group (they must wait for its earlier months) and
+ *   when they are of another group (arrival order waits only for a result's own group).
  */
 import { Queue, QueueEvents, type Job } from 'bullmq';
 import type { Redis } from 'ioredis';
@@ -27,6 +30,7 @@ import { startEmbeddedRedis as startRedisServer, type EmbeddedRedis as RedisServ
 import {
   drainedAt,
   labFeed,
+  PIPELINE_GROUP,
   redisWork,
   pipelineMissing,
   sleep,
@@ -572,4 +576,89 @@ async function memoryByKind(client: Redis, within?: string): Promise<Record<stri
     });
   } while (cursor !== '0');
   return totals;
+}
+
+/** The group of the current results that are not of the backlog's group (not configured: the defaults judge it). */
+const OTHER_GROUP = 'bench-line-two';
+const HOUR_MS = 3_600_000;
+
+interface GroupBacklogPhase {
+  /** From the current results' queuing to each one's component judged up to it, ms. */
+  readonly judged: { readonly p50: number; readonly max: number };
+  /** From the first result queued until both queues drained, ms. */
+  readonly drainedMs: number;
+  readonly lagging: number;
+}
+
+/** Two worker processes; `backlog` queued, then `current`: when is each current result judged, and when is all drained. */
+async function groupBacklogPhase(line: Line, backlog: readonly ResultEvent[], current: readonly ResultEvent[]): Promise<GroupBacklogPhase> {
+  const s = await openSession(line, 2, NEVER_QUIET_DAYS);
+  try {
+    const storage = new RedisStore(s.client, { prefix: PREFIX });
+    const t0 = performance.now();
+    await send(s.producer, backlog, 100);
+    const queued = performance.now();
+    await send(s.producer, current, 100);
+    // Each component's last current result, looked for every 20 ms until judged (its evaluation's position).
+    const last = new Map<string, ResultEvent>();
+    for (const e of current) last.set(`${e.unit}/${e.component}`, e);
+    const waits: number[] = [];
+    const deadline = performance.now() + 600_000;
+    while (last.size > 0 && performance.now() < deadline) {
+      for (const [key, e] of last) {
+        if ((await storage.evaluationInput(e))?.latest?.position?.sampleId !== e.sampleId) continue;
+        waits.push(performance.now() - queued);
+        last.delete(key);
+      }
+      await sleep(20);
+    }
+    if (last.size > 0) throw new Error(`${last.size} current results not judged within 600 s`);
+    const drained = await drainedAt([s.queues.results, s.queues.evaluate], s.workers);
+    return { judged: { p50: percentile(waits, 0.5), max: Math.max(...waits) }, drainedMs: drained - t0, lagging: await lagging(s.client, [...backlog, ...current]) };
+  } finally {
+    await s.close();
+  }
+}
+
+export async function runGroupBacklog(o: RunOptions): Promise<PartResult> {
+  const missing = pipelineMissing();
+  if (missing !== undefined) return skipped('group-backlog', missing);
+  const now = Date.now();
+  const backlog = labFeed({ components: size(o.scale, 80, 10), samplesPerComponent: 25, faultyShare: 0.1, endsBeforeNowMs: 3 * DAY_MS, now, seed: o.seed, unitPrefix: 'GB' });
+  // Two results each over the last weeks, those sampled within the last 20 days up to an hour ago.
+  const current = labFeed({ components: size(o.scale, 40, 5), samplesPerComponent: 2, faultyShare: 0, endsBeforeNowMs: HOUR_MS, now, seed: o.seed + 1, unitPrefix: 'GC' }).filter(
+    (e) => Date.parse(e.sampledAt) > now - 20 * DAY_MS && Date.parse(e.sampledAt) < now - HOUR_MS,
+  );
+  return withLine(async (line) => {
+    const same = await groupBacklogPhase(line, backlog, current);
+    o.log(`group-backlog: current results of the backlog's group judged after ${fmt(same.judged.p50)} ms (median)`);
+    const other = await groupBacklogPhase(
+      line,
+      backlog,
+      current.map((e) => ({ ...e, group: OTHER_GROUP })),
+    );
+    o.log(`group-backlog: current results of another group judged after ${fmt(other.judged.p50)} ms (median)`);
+    const row = (label: string, p: GroupBacklogPhase) => [label, fmt(p.judged.p50), fmt(p.judged.max), fmt(p.drainedMs)];
+    const lag = same.lagging + other.lagging;
+    return {
+      name: 'group-backlog',
+      json: {
+        backlogResults: backlog.length,
+        currentResults: current.length,
+        sameGroup: { judgedP50Ms: round(same.judged.p50), judgedMaxMs: round(same.judged.max), drainedMs: round(same.drainedMs) },
+        otherGroup: { judgedP50Ms: round(other.judged.p50), judgedMaxMs: round(other.judged.max), drainedMs: round(other.drainedMs) },
+        ratio: round(other.judged.p50 / same.judged.p50),
+        componentsNotFullyEvaluated: lag,
+      },
+      table: {
+        columns: ['current results', 'judged after, median ms', 'max ms', 'all drained after, ms'],
+        rows: [row(`of the backlog's group (${PIPELINE_GROUP})`, same), row(`of another group (${OTHER_GROUP})`, other)],
+      },
+      notes: [
+        `2 worker processes; ${backlog.length} results of ${size(o.scale, 80, 10)} gearboxes over about 12 months queued by the result producer, then ${current.length} current results of ${size(o.scale, 40, 5)} others;`,
+        `  judged after: from the current results' queuing until each component's evaluation has reached its last current result`,
+        `another group's current results judged after ${fmt(other.judged.p50 / same.judged.p50)} × the time of the backlog's group's (median); every component's last sample fed: ${lag === 0 ? 'yes' : `NO, ${lag} behind`}`,
+      ],
+    };
+  });
 }

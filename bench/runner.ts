@@ -20,7 +20,7 @@ import { runScaling } from './scaling.ts';
 import { runStartup } from './startup.ts';
 import { runLongChart } from './longChart.ts';
 import { redisServerVersion } from './pipeline.ts';
-import { runBackfill, runLatency, runThroughput } from './pipelineParts.ts';
+import { runBackfill, runGroupBacklog, runLatency, runThroughput } from './pipelineParts.ts';
 
 export interface RunOptions {
   /** Multiplies every size (components, results, durations). */
@@ -50,6 +50,7 @@ export const PARTS: Record<string, Part> = {
   throughput: (o) => runThroughput(o),
   latency: (o) => runLatency(o),
   backfill: (o) => runBackfill(o),
+  'group-backlog': (o) => runGroupBacklog(o),
   'evaluation-cost': (o) => runEvaluationCost(o),
   cluster: (o) => runCluster(o),
   startup: (o) => runStartup(o),

@@ -10,11 +10,13 @@
 import { componentKey } from '../domain/event.ts';
 import type { RedisConnection } from '../redis/connection.ts';
 
-/** A results job active in some process: its arrival order, and the component and sampling month of its result. */
+/** A results job active in some process: its arrival order, and the component, group and sampling month of its result. */
 export interface ActiveJob {
   readonly order: number;
   /** `componentKey` of the result; undefined when its data does not name one (it is refused when taken). */
   readonly component: string | undefined;
+  /** The like-for-like group of its component (`GroupOf`); undefined when its data does not name a component. */
+  readonly group: string | undefined;
   /** The first instant (epoch ms, UTC) of the result's sampling month; -Infinity when its data has no sampling time. */
   readonly month: number;
   /** Waiting to be taken (at the head of the wait list), not held by any worker. */
@@ -22,6 +24,16 @@ export interface ActiveJob {
   /** The partition whose results queue holds it. */
   readonly partition: number;
 }
+
+/**
+ * The like-for-like group a result's component is judged with (domain/settings.ts `groupOf` under the configuration):
+ * a result's verdicts depend on its own component's results and its group's statistics only, so results of other
+ * groups need not come before it.
+ */
+export type GroupOf = (c: { readonly unit: string; readonly component: string; readonly group?: string }) => string;
+
+/** Without a `GroupOf`: every component in one group, so that any earlier result of an earlier month comes first. */
+export const ONE_GROUP: GroupOf = () => '';
 
 /** The results jobs active on the partitions' queues, in any process, but those of `skip` (this process's own). */
 export type ActiveJobs = (skip: (order: number) => boolean) => Promise<readonly ActiveJob[]>;
@@ -70,7 +82,7 @@ export const WAIT_HEAD_LOOKED_AT = 100;
  * for those follows the latest of it (order half a step after it, any component, any month, waiting to be taken):
  * every result that arrived after it waits until that queue's line has moved on.
  */
-export function activeJobs(redis: RedisConnection, queueKeys: readonly string[]): ActiveJobs {
+export function activeJobs(redis: RedisConnection, queueKeys: readonly string[], groupOf: GroupOf = ONE_GROUP): ActiveJobs {
   // By partition and job id: what its data says (read once per job; a job's data does not change), and the views of
   // it handed out, waiting and active (built once: a batch waiting for others looks every few milliseconds).
   const known = queueKeys.map(() => new Map<string, { readonly about: Omit<ActiveJob, 'queued' | 'partition'>; readonly views: Partial<Record<'queued' | 'active', ActiveJob>> }>());
@@ -99,7 +111,7 @@ export function activeJobs(redis: RedisConnection, queueKeys: readonly string[])
       const pipeline = redis.pipeline();
       for (const id of unknown) pipeline.hget(`${queueKey}:${id}`, 'data');
       const data = (await pipeline.exec()) ?? [];
-      unknown.forEach((id, i) => seen.set(id, { about: describe(jobs.get(id)!.order, data[i]?.[1]), views: {} }));
+      unknown.forEach((id, i) => seen.set(id, { about: describe(jobs.get(id)!.order, data[i]?.[1], groupOf), views: {} }));
     }
     // Jobs no longer active or waiting at the head (or this process's own now) are forgotten.
     for (const id of seen.keys()) if (!jobs.has(id)) seen.delete(id);
@@ -109,32 +121,44 @@ export function activeJobs(redis: RedisConnection, queueKeys: readonly string[])
       const view = job.queued ? 'queued' : 'active';
       out.push((entry.views[view] ??= { ...entry.about, queued: job.queued, partition }));
     }
-    if (queueKeys.length > 1 && (head?.length ?? 0) >= WAIT_HEAD_LOOKED_AT && latestQueued > -Infinity) out.push({ order: latestQueued + 0.5, component: undefined, month: -Infinity, queued: true, partition });
+    if (queueKeys.length > 1 && (head?.length ?? 0) >= WAIT_HEAD_LOOKED_AT && latestQueued > -Infinity) out.push({ order: latestQueued + 0.5, component: undefined, group: undefined, month: -Infinity, queued: true, partition });
     return out;
   };
   return async (skip) => (await Promise.all(queueKeys.map((queueKey, partition) => lookAt(queueKey, partition, skip)))).flat();
 }
 
 /** What a job's data says of its result, as far as it can be read (the worker validates it when it takes the job). */
-function describe(order: number, data: unknown): Omit<ActiveJob, 'queued' | 'partition'> {
+function describe(order: number, data: unknown, groupOf: GroupOf): Omit<ActiveJob, 'queued' | 'partition'> {
   if (typeof data === 'string') {
     try {
-      return { order, ...resultAbout(JSON.parse(data)) };
+      return { order, ...resultAbout(JSON.parse(data), groupOf) };
     } catch {
       // Not JSON: neither is known, and the job is waited for as one that may touch anything.
     }
   }
-  return { order, component: undefined, month: -Infinity };
+  return { order, component: undefined, group: undefined, month: -Infinity };
 }
 
+/** A name as validation takes it (domain/event.ts: trimmed, then in Unicode normal form NFKC). */
+const nameOf = (v: unknown): string | undefined => (typeof v === 'string' ? v.trim().normalize('NFKC') : undefined);
+
 /**
- * The component (`componentKey`) and the first instant of the sampling month of a result event as far as it can be
- * read before validation: undefined and -Infinity where it cannot (it is then waited for as one that may touch
- * anything).
+ * The component (`componentKey`), its group (`groupOf`) and the first instant of the sampling month of a result event
+ * as far as it can be read before validation: undefined and -Infinity where it cannot (it is then waited for as one
+ * that may touch anything).
  */
-export function resultAbout(event: unknown): { readonly component: string | undefined; readonly month: number } {
-  const e = (typeof event === 'object' && event !== null ? event : {}) as { unit?: unknown; component?: unknown; sampledAt?: unknown };
-  const component = typeof e.unit === 'string' && typeof e.component === 'string' ? componentKey({ unit: e.unit, component: e.component }) : undefined;
+export function resultAbout(event: unknown, groupOf: GroupOf = ONE_GROUP): { readonly component: string | undefined; readonly group: string | undefined; readonly month: number } {
+  const e = (typeof event === 'object' && event !== null ? event : {}) as { unit?: unknown; component?: unknown; group?: unknown; sampledAt?: unknown };
+  const unit = nameOf(e.unit);
+  const component = nameOf(e.component);
+  const group = nameOf(e.group);
   const time = typeof e.sampledAt === 'string' ? Date.parse(e.sampledAt) : NaN;
-  return { component, month: Number.isFinite(time) ? monthStart(time) : -Infinity };
+  const month = Number.isFinite(time) ? monthStart(time) : -Infinity;
+  if (unit === undefined || component === undefined) return { component: undefined, group: undefined, month };
+  try {
+    return { component: componentKey({ unit, component }), group: groupOf({ unit, component, ...(group !== undefined && { group }) }), month };
+  } catch {
+    // Names its group cannot be found for (validation refuses them): waited for as one that may touch anything.
+    return { component: undefined, group: undefined, month };
+  }
 }

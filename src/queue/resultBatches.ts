@@ -12,18 +12,20 @@
  * A component whose judgement fails fails the jobs waiting for it (they are retried); the batch's others go on.
  *
  * Several worker processes judge in arrival order (arrivalOrder.ts): one set of batches takes the results of every
- * partition's queue, and a batch takes only the results that arrived before every result another process holds and
- * has not judged yet, or that waits to be taken on a queue behind the others, and waits for those (looking every
- * `ARRIVAL_POLL_MS`, at most `arrivalWaitMs`); the rest waits for the next batch. The process that holds the earliest
- * result not yet judged never waits, so the processes take turns, and a burst spanning months is judged month by
- * month across them as one process judges it: no component is judged past a month whose results another process
- * still holds. A batch's commit folds no stored result of a component from the month of its earliest result another
+ * partition's queue, and a batch takes only the results that no earlier result another process holds and has not
+ * judged yet, or that waits to be taken on a queue behind the others, must precede (one of an earlier month of the same
+ * like-for-like group, or of the same component), and waits for those (looking every `ARRIVAL_POLL_MS`, at most
+ * `arrivalWaitMs`); the rest waits for the next batch. The process that holds the earliest result not yet judged never
+ * waits, so the processes take turns, and a burst spanning months is judged month by month across them as one process
+ * judges it: no component is judged past a month whose results of its group another process still holds. Another
+ * group's results do not hold it up: a result's verdicts depend on its own component's results and its own group's
+ * statistics only (tests/integration/result-batches.test.ts judges one group's whole history before the other's). A batch's commit folds no stored result of a component from the month of its earliest result another
  * process holds (that process's batch judges them).
  */
 import { componentKey, type Sample } from '../domain/event.ts';
 import { monthOf, startOfNextMonth } from '../pipeline/groupShares.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
-import { monthStart, type ActiveJob, type ActiveJobs } from './arrivalOrder.ts';
+import { monthStart, ONE_GROUP, resultAbout, type ActiveJob, type ActiveJobs, type GroupOf } from './arrivalOrder.ts';
 import type { EvaluationRunnerDeps } from './evaluationRunner.ts';
 import { MonthlyJudgement } from './monthlyJudgement.ts';
 import { DEFAULT_EVALUATE_RETRY_MS } from './queues.ts';
@@ -33,6 +35,8 @@ interface Pending {
   /** The arrival order of its job (its BullMQ id); undefined: none known, judged in the next batch. */
   readonly order: number | undefined;
   readonly time: number;
+  /** The like-for-like group of its component (`groupOf`). */
+  readonly group: string;
   readonly resolve: () => void;
   readonly reject: (e: unknown) => void;
 }
@@ -42,8 +46,8 @@ interface Waiting {
   readonly pending: Pending[];
 }
 
-/** A result that arrived before others and is not judged yet: its arrival order, component and sampling month. */
-type Blocker = Pick<ActiveJob, 'order' | 'component' | 'month'>;
+/** A result that arrived before others and is not judged yet: its arrival order, component, group and sampling month. */
+type Blocker = Pick<ActiveJob, 'order' | 'component' | 'group' | 'month'>;
 
 /** A batch: what it judges, and where another process holds results of its components. */
 interface Taken {
@@ -87,7 +91,8 @@ export interface ResultBatchesOptions {
   readonly atOnce?: number;
   /**
    * The partition's active results jobs in every process (arrivalOrder.ts `activeJobs`): a result then waits for those
-   * that arrived before it, are held by another process, and are of an earlier sampling month or of its own component.
+   * that arrived before it, are held by another process, and are of an earlier sampling month of its group (`groupOf`)
+   * or of its own component.
    * Default: none (one process).
    */
   readonly activeJobs?: ActiveJobs;
@@ -106,6 +111,12 @@ export interface ResultBatchesOptions {
    * QUEUED_GRACE_MS only.
    */
   readonly takeQueued?: (partition: number) => Promise<void>;
+  /**
+   * The group each result's component is judged with; the same function `activeJobs` and the results jobs' `hold`
+   * describe results with (arrivalOrder.ts `resultAbout`). A result then waits only for earlier results of an earlier
+   * month of its own group (or of its own component). Default ONE_GROUP: every earlier result of an earlier month.
+   */
+  readonly groupOf?: GroupOf;
 }
 
 export class ResultBatches {
@@ -126,6 +137,7 @@ export class ResultBatches {
   private readonly taking = new Map<number, number>();
   private readonly retryMs: number;
   private readonly arrivalWaitMs: number;
+  private readonly groupOf: GroupOf;
   /** Batches judged, and components judged in them (for the benchmark's and the tests' view of the coalescing). */
   readonly counts = { batches: 0, components: 0, arrivalWaits: 0, takenOutsideSlots: 0 };
 
@@ -135,6 +147,7 @@ export class ResultBatches {
   ) {
     this.retryMs = options.retryMs ?? DEFAULT_EVALUATE_RETRY_MS;
     this.arrivalWaitMs = options.arrivalWaitMs ?? DEFAULT_ARRIVAL_WAIT_MS;
+    this.groupOf = options.groupOf ?? ONE_GROUP;
   }
 
   /**
@@ -144,7 +157,7 @@ export class ResultBatches {
    * (while it is being stored), the results that arrived after it wait for it as for another process's, since it may
    * be of an earlier month; unknown, it holds up every later result.
    */
-  hold(order: number | undefined, about: Omit<Blocker, 'order'> = { component: undefined, month: -Infinity }): () => void {
+  hold(order: number | undefined, about: Omit<Blocker, 'order'> = { component: undefined, group: undefined, month: -Infinity }): () => void {
     if (order === undefined) return () => undefined;
     const entry = this.held.get(order);
     if (entry === undefined) this.held.set(order, { count: 1, about });
@@ -157,6 +170,11 @@ export class ResultBatches {
       entry.count -= 1;
       if (entry.count === 0) this.held.delete(order);
     };
+  }
+
+  /** What a results job's data says of its result (arrivalOrder.ts `resultAbout`, with this process's `groupOf`), for `hold`. */
+  about(event: unknown): Omit<Blocker, 'order'> {
+    return resultAbout(event, this.groupOf);
   }
 
   /** The results jobs this process holds that have not handed their result to `judge` yet (being stored). */
@@ -180,7 +198,8 @@ export class ResultBatches {
       this.waiting.set(key, entry);
     }
     const pending = entry.pending;
-    const done = new Promise<void>((resolve, reject) => pending.push({ order, time: sample.time, resolve, reject }));
+    const group = this.groupOf(sample);
+    const done = new Promise<void>((resolve, reject) => pending.push({ order, time: sample.time, group, resolve, reject }));
     if (!this.underWay) void this.drain();
     return done;
   }
@@ -312,32 +331,41 @@ export class ResultBatches {
 
   /**
    * Takes out of the waiting results, by component, those that no result of `elsewhere` must come before: one that
-   * arrived earlier must be judged first when it is of an earlier sampling month (the group statistics a result is
-   * judged with are those of the months before its own) or of the same component. Results without an order are taken;
+   * arrived earlier must be judged first when it is of an earlier sampling month and of the same group (the group
+   * statistics a result is judged with are those of the months before its own) or of the same component. Results without an order are taken;
    * those that arrived after `checked` (the latest order `elsewhere` was looked up for) stay for the next look.
    */
   private split(elsewhere: readonly Blocker[], checked: number): Batched[] {
     const blockers = [...elsewhere].sort((x, y) => x.order - y.order);
-    // The earliest month among the first i blockers, and the earliest order held elsewhere per component.
-    const earliestMonth: number[] = [Infinity];
-    for (const b of blockers) earliestMonth.push(Math.min(earliestMonth.at(-1)!, b.month));
+    // By group, the blockers' arrival orders and the earliest month among the first i of them; and the earliest order
+    // held elsewhere per component (undefined: a result that may be of any component).
+    const byGroup = new Map<string, { readonly orders: number[]; readonly earliestMonth: number[] }>();
     const firstOfComponent = new Map<string | undefined, number>();
-    for (const b of blockers) if (!firstOfComponent.has(b.component)) firstOfComponent.set(b.component, b.order);
+    for (const b of blockers) {
+      if (!firstOfComponent.has(b.component)) firstOfComponent.set(b.component, b.order);
+      if (b.group === undefined) continue;
+      let g = byGroup.get(b.group);
+      if (g === undefined) byGroup.set(b.group, (g = { orders: [], earliestMonth: [Infinity] }));
+      g.orders.push(b.order);
+      g.earliestMonth.push(Math.min(g.earliestMonth.at(-1)!, b.month));
+    }
     const anyComponent = firstOfComponent.get(undefined) ?? Infinity;
     const blocked = (key: string, p: Pending): boolean => {
       if (p.order === undefined) return false;
       const order = p.order;
       if (order > checked) return true;
       if (Math.min(firstOfComponent.get(key) ?? Infinity, anyComponent) < order) return true;
-      // Blockers that arrived before it: the first `before` of them.
+      const g = byGroup.get(p.group);
+      if (g === undefined) return false;
+      // Blockers of its group that arrived before it: the first `before` of them.
       let lo = 0;
-      let hi = blockers.length;
+      let hi = g.orders.length;
       while (lo < hi) {
         const mid = (lo + hi) >> 1;
-        if (blockers[mid]!.order < order) lo = mid + 1;
+        if (g.orders[mid]! < order) lo = mid + 1;
         else hi = mid;
       }
-      return earliestMonth[lo]! < monthStart(p.time);
+      return g.earliestMonth[lo]! < monthStart(p.time);
     };
     const batch: Batched[] = [];
     for (const [key, w] of this.waiting) {

@@ -35,7 +35,8 @@ import { EvaluationThreadPool } from './evaluationThreadPool.ts';
 import { historyProcessor } from './processors/historyProcessor.ts';
 import type { RedisTarget } from '../redis/target.ts';
 import { resultsProcessor } from './processors/resultsProcessor.ts';
-import { activeJobs } from './arrivalOrder.ts';
+import { groupOf } from '../domain/settings.ts';
+import { activeJobs, type GroupOf } from './arrivalOrder.ts';
 import { DEFAULT_ARRIVAL_WAIT_MS, ResultBatches } from './resultBatches.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from './queues.ts';
 
@@ -216,13 +217,17 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   const takers: QueuedResultTaker[] = [];
   // One set of batches for every partition's results: with arrivalOrder, the results are judged in the order they
   // arrived, across the partitions' queues and across processes (arrivalOrder.ts).
+  // A result waits only for earlier results of its own group (or component): the groups as the configuration makes them.
+  const groups: GroupOf = (c) => groupOf(deps.config, c);
   const batches = new ResultBatches(runner, {
     retryMs: s.busyRetryMs,
     ...(s.arrivalOrder && {
       activeJobs: activeJobs(
         deps.connection,
         partitions.all().map((p) => `${partitions.tag(p)}:${QUEUE_NAMES.results}`),
+        groups,
       ),
+      groupOf: groups,
       takeQueued: (p: number) => takers[p]!.take(),
     }),
     arrivalWaitMs: s.arrivalWaitMs,

@@ -103,7 +103,7 @@ describe('arrival order across partitions', () => {
     }
   });
 
-  it('the view of the queues lists every partition’s active jobs and the head of each line, with component, month and partition', async () => {
+  it('the view of the queues lists every partition’s active jobs and the head of each line, with component, group, month and partition', async () => {
     const t = setup(3);
     const taker = new Worker(QUEUE_NAMES.results, null, { connection: t.redis, prefix: t.partitions.tag(1), autorun: false });
     try {
@@ -113,12 +113,13 @@ describe('arrival order across partitions', () => {
       // Partition 1's first result is taken (active), as a worker would.
       const taken = await taker.getNextJob('view-token', { block: false });
       expect(taken?.id).toBe(lines[1]![0]!.id);
-      const view = activeJobs(t.redis, t.queueKeys);
+      // A group per unit here: what the function gives for the names the job's data holds.
+      const view = activeJobs(t.redis, t.queueKeys, (c) => `group of ${c.unit}`);
       const seen = await view(() => false);
       const expected = lines.flatMap((line, partition) =>
         line.map((j) => {
           const e = events.find((x) => x.sampleId === j.sampleId)!;
-          return { order: arrivalOf(j.id)!, component: componentKey(e), month: monthStart(Date.parse(e.sampledAt)), queued: j.id !== taken!.id, partition };
+          return { order: arrivalOf(j.id)!, component: componentKey(e), group: `group of ${e.unit}`, month: monthStart(Date.parse(e.sampledAt)), queued: j.id !== taken!.id, partition };
         }),
       );
       expect([...seen].sort((x, y) => x.order - y.order)).toEqual(expected.sort((x, y) => x.order - y.order));
@@ -143,7 +144,7 @@ describe('arrival order across partitions', () => {
         const head = line.slice(0, WAIT_HEAD_LOOKED_AT).map((j) => arrivalOf(j.id)!);
         const listed = seen.filter((j) => j.partition === partition);
         expect(listed.filter((j) => j.component !== undefined).map((j) => j.order).sort((x, y) => x - y)).toEqual(head);
-        expect(listed.filter((j) => j.component === undefined)).toEqual([{ order: Math.max(...head) + 0.5, component: undefined, month: -Infinity, queued: true, partition }]);
+        expect(listed.filter((j) => j.component === undefined)).toEqual([{ order: Math.max(...head) + 0.5, component: undefined, group: undefined, month: -Infinity, queued: true, partition }]);
       }
     } finally {
       await t.close();

@@ -6,12 +6,14 @@
  * results the other holds.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { Config } from '../../src/domain/config.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import { componentKey, type Sample } from '../../src/domain/event.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { validateResult } from '../../src/intake/validate.ts';
 import { storeSample } from '../../src/pipeline/storeResult.ts';
-import { monthStart, resultAbout } from '../../src/queue/arrivalOrder.ts';
+import { groupOf } from '../../src/domain/settings.ts';
+import { monthStart, resultAbout, type GroupOf } from '../../src/queue/arrivalOrder.ts';
 import { runEvaluation, type EvaluationRunnerDeps } from '../../src/queue/evaluationRunner.ts';
 import { openPartitionedQueues, resolveQueueSettings, QUEUE_NAMES } from '../../src/queue/queues.ts';
 import { ResultBatches, type ResultBatchesOptions } from '../../src/queue/resultBatches.ts';
@@ -21,13 +23,13 @@ import { RedisStore } from '../../src/redis/redisStore.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { FLEET_CONFIG, inventedFleet } from '../helpers/fleetCsv.ts';
+import { liftGearboxJudging, POPULATION_FLEET } from '../helpers/populationFleet.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { verdict } from '../helpers/incidentVerdict.ts';
 
 // Every finding pages (nothing is quiet backfill) a webhook tier, so that the messages can be compared too; nothing is
 // delivered here, the messages stay in the outbox.
-const config = parseConfig(`${FLEET_CONFIG}
-backfill: { quietAfterDays: 100000 }
+const PAGING = `
 escalation:
   policies:
     - name: gearbox-on-call
@@ -36,7 +38,12 @@ escalation:
 channels:
   webhooks:
     - { name: control-room, url: "http://127.0.0.1:9/hook", secrets: [BATCHES_WEBHOOK_SECRET] }
-`);
+`;
+const fleetConfig = parseConfig(`${FLEET_CONFIG}
+backfill: { quietAfterDays: 100000 }${PAGING}`);
+// Population limits that open incidents, trusted at 12 results per band, in every group: what a group's statistics
+// hold as of each month decides incidents (tests/helpers/populationFleet.ts).
+const populationJudging = parseConfig(`${liftGearboxJudging(true)}${PAGING}`);
 const NOW = Date.parse('2026-12-01T00:00:00Z');
 let server: RedisServer;
 let prefixes = 0;
@@ -49,7 +56,7 @@ afterAll(async () => {
 });
 
 /** A batch line on its own prefix, or on `prefix` (another process on the same store), with `options`. */
-function line(prefix = `{rb${++prefixes}}`, options: ResultBatchesOptions = {}) {
+function line(prefix = `{rb${++prefixes}}`, options: ResultBatchesOptions = {}, config = fleetConfig) {
   const connection = server.client();
   const store = new RedisStore(connection, { prefix, config });
   const partitions = new Partitions(prefix, 1);
@@ -103,15 +110,24 @@ async function waitUntil(done: () => boolean): Promise<void> {
   for (let i = 0; i < 6000 && !done(); i++) await new Promise((r) => setTimeout(r, 10));
 }
 
-const samples = inventedFleet({ units: 4, samplesPerUnit: 20 }).map((e) => {
-  const parsed = validateResult(e, { now: NOW });
-  if (!parsed.ok) throw new Error(JSON.stringify(parsed.issues));
-  return parsed.sample;
-});
+const validated = (events: readonly unknown[]) =>
+  events.map((e) => {
+    const parsed = validateResult(e, { now: NOW });
+    if (!parsed.ok) throw new Error(JSON.stringify(parsed.issues));
+    return parsed.sample;
+  });
+const samples = validated(inventedFleet({ units: 4, samplesPerUnit: 20 }));
+
+/**
+ * Two like-for-like groups: the fleet's lift gearboxes (the configuration's `lift-gearboxes`, units "LS…") and the same
+ * results as the gearboxes of other units ("MX…", no rule matches them: the group is the component's name, `gearbox`).
+ */
+const twoGroups = validated(inventedFleet(POPULATION_FLEET).flatMap((e) => [e, { ...e, unit: e.unit.replace(/^LS/, 'MX'), sampleId: `MX-${e.sampleId}` }]));
+const configuredGroupOf: GroupOf = (c) => groupOf(populationJudging, c);
 
 /** The reference: every result judged on its own as it arrives. */
-async function oneAtATime(of: readonly Sample[] = samples) {
-  const one = line();
+async function oneAtATime(of: readonly Sample[] = samples, config = fleetConfig) {
+  const one = line(undefined, {}, config);
   for (const s of of) {
     await one.store(s);
     await one.batches.judge(s);
@@ -200,19 +216,24 @@ describe('live results judged in batches', () => {
     }
   });
 
-  it('two processes judge in arrival order: a batch waits for the earlier results the other holds, and nothing opened is withdrawn', async () => {
-    const one = await oneAtATime();
-    // A burst of the fleet in sampling order, taken ten at a time by each process in turn; every result is stored
-    // before either process judges any (the worst case: each process holds later months the other has not judged).
-    const ordered = [...samples].sort((x, y) => x.time - y.time);
+  /**
+   * A burst of `fleet` in the order of `arrival` (default: sampling order), taken ten at a time by each of two processes
+   * in turn; every result is stored before either process judges any (the worst case: each process holds later months
+   * the other has not judged). The processes tell results' groups with `groups` (arrivalOrder.ts `GroupOf`; default:
+   * all in one).
+   */
+  async function inTurns(fleet: readonly Sample[], { groups, arrival = (s) => s.time, config = fleetConfig }: { groups?: GroupOf; arrival?: (s: Sample) => number; config?: Config } = {}) {
+    const one = await oneAtATime(fleet, config);
+    const ordered = [...fleet].sort((x, y) => arrival(x) - arrival(y));
     // The results jobs active in either process, by arrival order (the queue's job ids), as the queue would tell them.
     const active = new Set<number>();
+    const about = (s: Sample) => ({ component: componentKey(s), group: (groups ?? (() => ''))(s), month: monthStart(s.time) });
     const options: ResultBatchesOptions = {
-      activeJobs: async (skip) =>
-        [...active].filter((o) => !skip(o)).map((o) => ({ order: o, component: componentKey(ordered[o - 1]!), month: monthStart(ordered[o - 1]!.time), queued: false, partition: 0 })),
+      activeJobs: async (skip) => [...active].filter((o) => !skip(o)).map((o) => ({ order: o, ...about(ordered[o - 1]!), queued: false, partition: 0 })),
+      ...(groups !== undefined && { groupOf: groups }),
     };
-    const a = line(undefined, options);
-    const b = line(a.prefix, options);
+    const a = line(undefined, options, config);
+    const b = line(a.prefix, options, config);
     try {
       for (const [i, s] of ordered.entries()) {
         active.add(i + 1);
@@ -234,11 +255,84 @@ describe('live results judged in batches', () => {
       expect(state.incidents.length).toBeGreaterThan(0);
       expect(state.incidents.filter((i) => i.closed?.how === 'withdrawn')).toEqual([]);
       expect(state).toEqual(await one.state());
+      return state;
     } finally {
       await one.close();
       await a.close();
       await b.close();
     }
+  }
+
+  it('two processes judge in arrival order: a batch waits for the earlier results the other holds, and nothing opened is withdrawn', async () => {
+    await inTurns(samples);
+  });
+
+  it('two processes judge a fleet of two groups in arrival order, a result waiting only for its own group and component: the verdicts of one result at a time', async () => {
+    // The "MX" gearboxes' results arrive three months behind the lift gearboxes' of the same time: a process holds one
+    // group's earlier months while the other holds the other group's later ones.
+    const state = await inTurns(twoGroups, { groups: configuredGroupOf, arrival: (s) => s.time + (s.unit.startsWith('MX') ? 90 * 86_400_000 : 0), config: populationJudging });
+    // Both groups were judged, each with statistics of its own.
+    expect(new Set(state.perComponent.map((c) => c.entry.group))).toEqual(new Set(['lift-gearboxes', 'gearbox']));
+  });
+
+  it("a group's verdicts do not depend on when another group's results are judged, while its own order matters", async () => {
+    // What lets a result pass an earlier month of another group: every result judged on its own, one group's whole
+    // history before the other's, gives the incidents and messages of the fleet judged in sampling order.
+    const byTime = [...twoGroups].sort((x, y) => x.time - y.time);
+    const reference = await oneAtATime(byTime, populationJudging);
+    const groupwise = await oneAtATime([...byTime.filter((s) => s.unit.startsWith('MX')), ...byTime.filter((s) => s.unit.startsWith('LS'))], populationJudging);
+    // The control: within one group, one unit's whole history before the next unit's is judged otherwise on the way.
+    const unitwise = await oneAtATime([...byTime].sort((x, y) => (x.unit < y.unit ? -1 : x.unit > y.unit ? 1 : x.time - y.time)), populationJudging);
+    try {
+      const told = await reference.messages();
+      expect(told.size).toBeGreaterThan(0);
+      expect(await groupwise.messages()).toEqual(told);
+      expect(await unitwise.messages()).not.toEqual(told);
+      expect(await groupwise.state()).toEqual(await reference.state());
+    } finally {
+      await Promise.all([reference, groupwise, unitwise].map((l) => l.close()));
+    }
+  });
+
+  it("a result is not held up by an earlier month of another group that another process holds, but is by its own group's", async () => {
+    // Another process holds a lift gearbox's result of the fleet's first month (order 1). This process holds a result
+    // of a later month of an "MX" gearbox (group gearbox, order 2) and one of another lift gearbox (order 3).
+    const first = twoGroups[0]!;
+    const later = twoGroups.filter((x) => monthStart(x.time) > monthStart(first.time));
+    const other = later.find((x) => configuredGroupOf(x) !== configuredGroupOf(first))!;
+    const same = later.find((x) => configuredGroupOf(x) === configuredGroupOf(first) && x.unit !== first.unit)!;
+    const lines = [];
+    for (const groups of [configuredGroupOf, undefined]) {
+      let held = true;
+      const waits = line(
+        undefined,
+        {
+          activeJobs: async (skip) => (held && !skip(1) ? [{ order: 1, ...resultAbout(first, groups), queued: false, partition: 0 }] : []),
+          ...(groups !== undefined && { groupOf: groups }),
+          arrivalWaitMs: 600_000,
+        },
+        populationJudging,
+      );
+      lines.push(waits);
+      await waits.store(other);
+      await waits.store(same);
+      const judged: string[] = [];
+      const both = [waits.batches.judge(other, 2).then(() => judged.push('other')), waits.batches.judge(same, 3).then(() => judged.push('same'))];
+      if (groups === undefined) {
+        // All in one group: neither is judged while order 1 is held (however long: a wait of 600 s).
+        await new Promise((resolve) => setTimeout(resolve, 200));
+        expect(judged).toEqual([]);
+      } else {
+        // The other group's result is judged while order 1 is still held; its own group's waits.
+        await both[0];
+        expect(judged).toEqual(['other']);
+      }
+      held = false;
+      await Promise.all(both);
+      expect(judged.sort()).toEqual(['other', 'same']);
+      expect(waits.batches.counts.arrivalWaits).toBe(1);
+    }
+    await Promise.all(lines.map((l) => l.close()));
   });
 
   it('an earlier result waiting to be taken, which no slot frees for, is taken outside the slots and judged first', async () => {
@@ -250,7 +344,7 @@ describe('live results judged in batches', () => {
     let taken = 0;
     const judgedInOrder: number[] = [];
     const takes = line(undefined, {
-      activeJobs: async (skip) => (queued && !skip(1) ? [{ order: 1, component: componentKey(first), month: monthStart(first.time), queued: true, partition: 0 }] : []),
+      activeJobs: async (skip) => (queued && !skip(1) ? [{ order: 1, component: componentKey(first), group: '', month: monthStart(first.time), queued: true, partition: 0 }] : []),
       takeQueued: async () => {
         taken += 1;
         queued = false;
@@ -311,7 +405,7 @@ describe('live results judged in batches', () => {
   });
 
   it('a batch judges without an earlier result another process holds once its wait is over', async () => {
-    const waits = line(undefined, { activeJobs: async () => [{ order: 1, component: undefined, month: -Infinity, queued: false, partition: 0 }], arrivalWaitMs: 50 });
+    const waits = line(undefined, { activeJobs: async () => [{ order: 1, component: undefined, group: undefined, month: -Infinity, queued: false, partition: 0 }], arrivalWaitMs: 50 });
     try {
       const s = samples[0]!;
       await waits.store(s);

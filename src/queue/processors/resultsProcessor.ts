@@ -10,7 +10,7 @@ import { UnrecoverableError, type Job, type Processor } from 'bullmq';
 import { conflictReason } from '../../redis/revisionConflicts.ts';
 import { claimedSampleId, validateResult } from '../../intake/validate.ts';
 import { InvalidResultError, storeSample } from '../../pipeline/storeResult.ts';
-import { arrivalOf, resultAbout } from '../arrivalOrder.ts';
+import { arrivalOf } from '../arrivalOrder.ts';
 import type { EvaluationRunnerDeps } from '../evaluationRunner.ts';
 import { countAccepted } from '../intakePaths.ts';
 import { DEFAULT_EVALUATE_RETRY_MS } from '../queues.ts';
@@ -20,7 +20,7 @@ export function resultsProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_E
   return async (job: Job) => {
     // This process's own from here on: another process's batches wait for it, this one's only while it is being stored
     // (resultBatches.ts).
-    const release = batches.hold(arrivalOf(job.id), resultAbout(job.data));
+    const release = batches.hold(arrivalOf(job.id), batches.about(job.data));
     try {
       return await processResult(deps, batches, job);
     } finally {
