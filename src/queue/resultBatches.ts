@@ -12,15 +12,16 @@
  * A component whose judgement fails fails the jobs waiting for it (they are retried); the batch's others go on.
  *
  * Several worker processes judge in arrival order (arrivalOrder.ts): one set of batches takes the results of every
- * partition's queue, and a batch takes only the results that no earlier result another process holds and has not
- * judged yet, or that waits to be taken on a queue behind the others, must precede (one of an earlier month of the same
+ * partition's queue, and a batch takes only the results that no earlier result another process holds and has not judged
+ * yet, or that waits to be taken on a queue behind the others, must precede (one of an earlier month of the same
  * like-for-like group, or of the same component), and waits for those (looking every `ARRIVAL_POLL_MS`, at most
  * `arrivalWaitMs`); the rest waits for the next batch. The process that holds the earliest result not yet judged never
  * waits, so the processes take turns, and a burst spanning months is judged month by month across them as one process
  * judges it: no component is judged past a month whose results of its group another process still holds. Another
  * group's results do not hold it up: a result's verdicts depend on its own component's results and its own group's
- * statistics only (tests/integration/result-batches.test.ts judges one group's whole history before the other's). A batch's commit folds no stored result of a component from the month of its earliest result another
- * process holds (that process's batch judges them).
+ * statistics only (tests/integration/result-batches.test.ts judges one group's whole history before the other's). A
+ * batch's commit folds no stored result of a component from the month of its earliest result another process holds
+ * (that process's batch judges them).
  */
 import { componentKey, type Sample } from '../domain/event.ts';
 import { monthOf, startOfNextMonth } from '../pipeline/groupShares.ts';
@@ -332,8 +333,9 @@ export class ResultBatches {
   /**
    * Takes out of the waiting results, by component, those that no result of `elsewhere` must come before: one that
    * arrived earlier must be judged first when it is of an earlier sampling month and of the same group (the group
-   * statistics a result is judged with are those of the months before its own) or of the same component. Results without an order are taken;
-   * those that arrived after `checked` (the latest order `elsewhere` was looked up for) stay for the next look.
+   * statistics a result is judged with are those of the months before its own) or of the same component. Results
+   * without an order are taken; those that arrived after `checked` (the latest order `elsewhere` was looked up for)
+   * stay for the next look.
    */
   private split(elsewhere: readonly Blocker[], checked: number): Batched[] {
     const blockers = [...elsewhere].sort((x, y) => x.order - y.order);
