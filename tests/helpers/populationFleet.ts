@@ -8,6 +8,7 @@ import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { expect } from 'vitest';
 import { runCli } from './cli.ts';
+import type { ResultEvent } from '../../src/domain/event.ts';
 import { fleetCsv, inventedFleet } from './fleetCsv.ts';
 import { replayVerdictRows, type VerdictRow } from './incidentVerdict.ts';
 
@@ -39,8 +40,29 @@ export function populationConfig(prefix: string, partitions = 1): string {
 
 /** Writes the fleet's file in `dir` and replays it on the Redis at `redisUrl`: the file and replay's incidents. */
 export async function populationFleetReplayed(dir: string, redisUrl: string): Promise<{ file: string; verdicts: VerdictRow[] }> {
-  const file = join(dir, 'fleet.csv');
-  writeFileSync(file, fleetCsv(inventedFleet(POPULATION_FLEET)));
+  return replayedFile(dir, redisUrl, 'fleet.csv', inventedFleet(POPULATION_FLEET));
+}
+
+/** Results in the file of `twoGroupFleetReplayed`. */
+export const TWO_GROUP_FLEET_RESULTS = 2 * POPULATION_FLEET_RESULTS;
+
+/**
+ * The fleet and a second group of the same results (units "MX…" instead of "LS…": no rule of the configuration matches
+ * them, so their group is the component's name, `gearbox`), whose results come three months behind the first group's
+ * in the file: a process holds one group's earlier months while another holds the other group's later ones. Written in
+ * `dir` and replayed as `populationFleetReplayed` does.
+ */
+export async function twoGroupFleetReplayed(dir: string, redisUrl: string): Promise<{ file: string; verdicts: VerdictRow[] }> {
+  const behind = (e: ResultEvent) => Date.parse(e.sampledAt) + (e.unit.startsWith('MX') ? 90 * 86_400_000 : 0);
+  const events = inventedFleet(POPULATION_FLEET)
+    .flatMap((e) => [e, { ...e, unit: e.unit.replace(/^LS/, 'MX'), sampleId: `MX-${e.sampleId}` }])
+    .sort((x, y) => behind(x) - behind(y));
+  return replayedFile(dir, redisUrl, 'two-groups.csv', events);
+}
+
+async function replayedFile(dir: string, redisUrl: string, name: string, events: readonly ResultEvent[]): Promise<{ file: string; verdicts: VerdictRow[] }> {
+  const file = join(dir, name);
+  writeFileSync(file, fleetCsv(events));
   const replayConfig = join(dir, 'replay.yaml');
   writeFileSync(replayConfig, populationConfig('{replay}'));
   const replayed = await runCli(['replay', file, '--config', replayConfig, '--json'], { REDIS_URL: redisUrl }, 300_000);

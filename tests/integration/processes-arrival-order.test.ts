@@ -24,12 +24,11 @@ import { runCli } from '../helpers/cli.ts';
 import { startWearshift, stopAll, waitFor, type WearshiftProcess } from '../helpers/processes.ts';
 import { drained } from '../helpers/queueDrain.ts';
 import { storedVerdictRows } from '../helpers/incidentVerdict.ts';
-import { populationConfig, populationFleetReplayed, POPULATION_FLEET_RESULTS } from '../helpers/populationFleet.ts';
+import { populationConfig, populationFleetReplayed, POPULATION_FLEET_RESULTS, twoGroupFleetReplayed, TWO_GROUP_FLEET_RESULTS } from '../helpers/populationFleet.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 // The fleet's ten units are sampled about every 250 h: some 30 results a month, so 50 results at a time reach into
 // the next month.
-const RESULTS = POPULATION_FLEET_RESULTS;
 // Which process takes which results varies from run to run; every round is a fresh pair of processes on a fresh prefix.
 const ROUNDS = 3;
 
@@ -53,42 +52,42 @@ async function storedBy(worker: WearshiftProcess): Promise<number> {
 }
 
 /** One round: the burst imported with no worker running, then taken by two fresh worker processes. */
-async function round(n: number, file: string, partitionCount: number) {
-  const prefix = `{arrival${partitionCount}-${n}}`;
-  const configFile = join(dir, `config-${partitionCount}-${n}.yaml`);
+async function round(n: number, file: string, partitionCount: number, results = POPULATION_FLEET_RESULTS, name = 'one') {
+  const prefix = `{arrival${name}${partitionCount}-${n}}`;
+  const configFile = join(dir, `config-${name}-${partitionCount}-${n}.yaml`);
   writeFileSync(configFile, populationConfig(prefix, partitionCount));
   // /metrics without a token: each process's count of results stored says it took part.
   const env = { REDIS_URL: server.url, LOG_LEVEL: 'warn', WEARSHIFT_METRICS_PUBLIC: '1' };
   const redis = server.client();
   const settings = resolveQueueSettings({ prefix });
   const partitions = new Partitions(prefix, partitionCount);
-  const results = openPartitionedQueues(QUEUE_NAMES.results, redis, settings, partitions);
+  const queues = openPartitionedQueues(QUEUE_NAMES.results, redis, settings, partitions);
   const evaluate = openPartitionedQueues(QUEUE_NAMES.evaluate, redis, settings, partitions);
   const workers: WearshiftProcess[] = [];
   try {
     // The burst waits on the queue, held (paused) until both processes take jobs: neither starts on it alone,
     // whichever comes up first.
-    await Promise.all(results.map((q) => q.pause()));
+    await Promise.all(queues.map((q) => q.pause()));
     const imported = await runCli(['import', file, '--config', configFile], env, 300_000);
     expect(imported.code).toBe(0);
-    expect(imported.stdout).toContain(`${RESULTS} enqueued`);
-    for (const q of results) expect(await q.isPaused()).toBe(true);
-    const counts = await Promise.all(results.map((q) => q.getJobCounts('waiting', 'active', 'completed')));
-    expect(counts.reduce((n, c) => n + c.waiting!, 0)).toBe(RESULTS);
-    expect(counts.map((c) => c.active! + c.completed!)).toEqual(results.map(() => 0));
+    expect(imported.stdout).toContain(`${results} enqueued`);
+    for (const q of queues) expect(await q.isPaused()).toBe(true);
+    const counts = await Promise.all(queues.map((q) => q.getJobCounts('waiting', 'active', 'completed')));
+    expect(counts.reduce((n, c) => n + c.waiting!, 0)).toBe(results);
+    expect(counts.map((c) => c.active! + c.completed!)).toEqual(queues.map(() => 0));
 
     workers.push(...(await Promise.all([0, 1].map(() => startWearshift('worker', { env, args: ['--config', configFile, '--results-at-once', '50', '--arrival-order'], readyTimeoutMs: 180_000 })))));
-    await waitFor('both workers taking results jobs', async () => (await Promise.all(results.map((q) => q.getWorkersCount()))).every((w) => w === 2), 180_000, 200);
-    await Promise.all(results.map((q) => q.resume()));
-    await drained([...results, ...evaluate], 600_000);
-    for (const q of [...results, ...evaluate]) expect(await q.getFailedCount()).toBe(0);
+    await waitFor('both workers taking results jobs', async () => (await Promise.all(queues.map((q) => q.getWorkersCount()))).every((w) => w === 2), 180_000, 200);
+    await Promise.all(queues.map((q) => q.resume()));
+    await drained([...queues, ...evaluate], 600_000);
+    for (const q of [...queues, ...evaluate]) expect(await q.getFailedCount()).toBe(0);
     const stored = await Promise.all(workers.map(storedBy));
 
     // Every incident, withdrawn ones too.
     const store = new RedisIncidents(redis, { rules: incidentRules(parseConfig(populationConfig(prefix, partitionCount))), prefix, partitions: partitionCount });
     return { stored, incidents: await storedVerdictRows(store) };
   } finally {
-    await Promise.all([...results, ...evaluate].map((q) => q.close()));
+    await Promise.all([...queues, ...evaluate].map((q) => q.close()));
     for (const w of workers) expect(await w.stop()).toBe(0);
   }
 }
@@ -107,9 +106,23 @@ describe('two worker processes taking a burst that spans many sampling months', 
     // Both processes stored part of the burst in every round, every result once.
     for (const r of rounds) {
       expect(r.stored.every((n) => n > 0)).toBe(true);
-      expect(r.stored[0]! + r.stored[1]!).toBe(RESULTS);
+      expect(r.stored[0]! + r.stored[1]!).toBe(POPULATION_FLEET_RESULTS);
     }
     // No incident opened and later withdrawn, in any round; the incidents are replay's.
+    expect(rounds.map((r) => r.incidents.filter((i) => i.closed === 'withdrawn'))).toEqual(rounds.map(() => []));
+    for (const r of rounds) expect(r.incidents).toEqual(verdicts);
+  }, 900_000);
+
+  it('open only the incidents of replay with two groups, one three months behind the other, each waiting only for its own', async () => {
+    // A result waits only for earlier results of its own group (or component): one group's later months are judged
+    // while the other process still holds the other group's earlier ones, and the verdicts are still replay's.
+    const { file, verdicts } = await twoGroupFleetReplayed(dir, server.url);
+    // Incidents in both groups (an incident id names its unit).
+    expect(verdicts.some((v) => v.incidentId.includes('MX')) && verdicts.some((v) => v.incidentId.includes('LS'))).toBe(true);
+    const rounds = [];
+    for (let n = 1; n <= 2; n++) rounds.push(await round(n, file, 1, TWO_GROUP_FLEET_RESULTS, 'two'));
+    console.info(`two groups, withdrawn incidents per round: ${rounds.map((r) => r.incidents.filter((i) => i.closed === 'withdrawn').length).join(', ')}`);
+    for (const r of rounds) expect(r.stored[0]! + r.stored[1]!).toBe(TWO_GROUP_FLEET_RESULTS);
     expect(rounds.map((r) => r.incidents.filter((i) => i.closed === 'withdrawn'))).toEqual(rounds.map(() => []));
     for (const r of rounds) expect(r.incidents).toEqual(verdicts);
   }, 900_000);
