@@ -140,7 +140,7 @@ function withFindings(
   inc.evidence = findings;
   inc.context = context;
   // A sampling incident is about the samples, not the machine: no time to limit.
-  const forecast = inc.kind === 'machine' ? forecastOf(step.forecast, measurandsOf(findings)) : undefined;
+  const forecast = inc.kind === 'machine' ? forecastOf(step.forecast, findings) : undefined;
   if (forecast !== undefined) inc.forecast = forecast;
   else delete inc.forecast;
   inc.severity = highest(findings);
@@ -167,18 +167,35 @@ function withFindings(
 
 /**
  * The forecasts an incident carries: those of its evidence's measurands, not the levels already crossed (the
- * findings say so), and one "not enough history" line per measurand rather than one per level.
+ * findings say so), and one "not enough history" line per measurand rather than one per level — none where the
+ * evidence's readings are past every level the forecast would have covered (a first reading far above its alarm level
+ * needs no line saying when it might get there).
  */
-function forecastOf(forecast: ComponentForecast | undefined, measurands: readonly Measurand[]): LimitForecast[] | undefined {
+function forecastOf(forecast: ComponentForecast | undefined, findings: readonly Finding[]): LimitForecast[] | undefined {
   if (forecast === undefined) return undefined;
   const out: LimitForecast[] = [];
-  for (const m of measurands) {
+  for (const m of measurandsOf(findings)) {
     const limits = forecast.measurands.find((x) => x.measurand === m)?.limits ?? [];
-    const unknown = limits.find((l) => l.outcome === 'not-enough-history');
-    if (unknown !== undefined) out.push(unknown);
-    else out.push(...limits.filter((l) => l.outcome === 'crossing' || l.outcome === 'after-oil-change'));
+    const unknown = limits.filter((l) => l.outcome === 'not-enough-history');
+    if (unknown.length > 0) {
+      const ahead = unknown.find((l) => !readingPast(l, findings));
+      if (ahead !== undefined) out.push(ahead);
+    } else out.push(...limits.filter((l) => l.outcome === 'crossing' || l.outcome === 'after-oil-change'));
   }
   return out;
+}
+
+/**
+ * Whether a reading the findings judged is at or past the forecast's level, on its side. A group limit's level depends
+ * on the oil-hours band, so only the group limit's own finding at that severity says it is past.
+ */
+function readingPast(l: LimitForecast, findings: readonly Finding[]): boolean {
+  return findings.some(
+    (f) =>
+      f.measurand === l.measurand &&
+      f.basis === 'reading' &&
+      (l.source === 'population' ? f.rule === 'population' && f.severity === l.severity : l.side === 'above' ? f.value >= l.level : f.value <= l.level),
+  );
 }
 
 function openIncident(

@@ -235,6 +235,33 @@ describe('forecast where it shows', () => {
     expect(JSON.parse(JSON.stringify(event)).data.forecast.items[0].text).toBe(msg.forecast!.items[0]!.text);
   });
 
+  it('carries no "not enough history" line for a measurand whose reading is past every level it would forecast', () => {
+    const first = samples[0]!;
+    const incidentOn = (fe: number) => {
+      const sample: Sample = { ...first, readings: { ...first.readings, Fe: { kind: 'value', value: fe } } };
+      const evaluated = evaluateComponent([sample], settings);
+      const step = evaluated.steps.at(-1)!;
+      expect(step.findings.some((f) => f.rule === 'limit' && f.measurand === 'Fe')).toBe(true);
+      const forecast = forecastComponent(evaluated.state, settings, undefined);
+      expect(forecast.measurands.find((m) => m.measurand === 'Fe')!.status).toBe('not-enough-history');
+      const now = new Date(first.time + 3_600_000);
+      const result = applySteps(emptyComponentIncidents(first.unit, first.component), [{ ...step, forecast }], {
+        group: settings.group,
+        now,
+        quietBefore: new Date(now.getTime() - 30 * 86_400_000),
+        rules: incidentRules(config),
+      });
+      return Object.values(result.state.incidents)[0]!;
+    };
+    // The group's fixed limits (CONFIG): caution 40, alarm 60 ppm.
+    const between = incidentOn(48);
+    expect(between.forecast!.map((f) => [f.severity, f.outcome])).toEqual([['alarm', 'not-enough-history']]);
+    expect(between.forecast![0]!.text).toMatch(/^Fe: not enough history to forecast/);
+    const past = incidentOn(75);
+    expect(past.severity).toBe('alarm');
+    expect(past.forecast).toEqual([]);
+  });
+
   it('is in the series and drawn dashed with its band on the trend chart', () => {
     const series = buildComponentSeries(evaluation, settings, undefined, { measurands: ['Fe'] });
     expect(series.forecast!.caution).toContain(FORECAST_CAUTION);
