@@ -167,9 +167,9 @@ function withFindings(
 
 /**
  * The forecasts an incident carries: those of its evidence's measurands, not the levels already crossed (the
- * findings say so), and one "not enough history" line per measurand rather than one per level — none where the
- * evidence's readings are past every level the forecast would have covered (a first reading far above its alarm level
- * needs no line saying when it might get there).
+ * findings say so), and one "not enough history" line per measurand rather than one per level, about the first level
+ * still ahead — none once a reading is past an alarm level (a reading far above its alarm level needs no line saying
+ * when it might get there, nor when it might fall to the level on the other side).
  */
 function forecastOf(forecast: ComponentForecast | undefined, findings: readonly Finding[]): LimitForecast[] | undefined {
   if (forecast === undefined) return undefined;
@@ -178,7 +178,7 @@ function forecastOf(forecast: ComponentForecast | undefined, findings: readonly 
     const limits = forecast.measurands.find((x) => x.measurand === m)?.limits ?? [];
     const unknown = limits.filter((l) => l.outcome === 'not-enough-history');
     if (unknown.length > 0) {
-      const ahead = unknown.find((l) => !readingPast(l, findings));
+      const ahead = unknown.some((l) => l.severity === 'alarm' && readingPast(l, findings)) ? undefined : unknown.find((l) => !readingPast(l, findings));
       if (ahead !== undefined) out.push(ahead);
     } else out.push(...limits.filter((l) => l.outcome === 'crossing' || l.outcome === 'after-oil-change'));
   }
@@ -187,15 +187,16 @@ function forecastOf(forecast: ComponentForecast | undefined, findings: readonly 
 
 /**
  * Whether a reading the findings judged is at or past the forecast's level, on its side. A group limit's level depends
- * on the oil-hours band, so only the group limit's own finding at that severity says it is past.
+ * on the oil-hours band, so only the group limit's own finding at that severity says it is past; a change from new oil
+ * (viscosity) is past the level of its severity and the lesser one, on the side it moved to.
  */
 function readingPast(l: LimitForecast, findings: readonly Finding[]): boolean {
-  return findings.some(
-    (f) =>
-      f.measurand === l.measurand &&
-      f.basis === 'reading' &&
-      (l.source === 'population' ? f.rule === 'population' && f.severity === l.severity : l.side === 'above' ? f.value >= l.level : f.value <= l.level),
-  );
+  return findings.some((f) => {
+    if (f.measurand !== l.measurand) return false;
+    if (l.source === 'population') return f.rule === 'population' && f.severity === l.severity;
+    if (f.basis === 'reading') return l.side === 'above' ? f.value >= l.level : f.value <= l.level;
+    return f.rule === 'condition' && f.basis === 'change' && (f.value > 0) === (l.side === 'above') && maxSeverity(f.severity, l.severity) === f.severity;
+  });
 }
 
 function openIncident(

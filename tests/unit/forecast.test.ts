@@ -237,29 +237,35 @@ describe('forecast where it shows', () => {
 
   it('carries no "not enough history" line for a measurand whose reading is past every level it would forecast', () => {
     const first = samples[0]!;
-    const incidentOn = (fe: number) => {
-      const sample: Sample = { ...first, readings: { ...first.readings, Fe: { kind: 'value', value: fe } } };
-      const evaluated = evaluateComponent([sample], settings);
+    // The group's fixed Fe limits (CONFIG): caution 40, alarm 60 ppm; with a new-oil viscosity of 14 mm²/s, the
+    // condition levels 10 % (caution) and 20 % (alarm) either way.
+    const withNewOil = parseConfig(CONFIG.replace('chargeHours: 1000', 'chargeHours: 1000\n    newOil: { v100: 14 }'));
+    const oilSettings = { ...resolveSettings(withNewOil, first) };
+    const incidentOn = (m: 'Fe' | 'v100', value: number) => {
+      const sample: Sample = { ...first, readings: { ...first.readings, [m]: { kind: 'value', value } } };
+      const evaluated = evaluateComponent([sample], oilSettings);
       const step = evaluated.steps.at(-1)!;
-      expect(step.findings.some((f) => f.rule === 'limit' && f.measurand === 'Fe')).toBe(true);
-      const forecast = forecastComponent(evaluated.state, settings, undefined);
-      expect(forecast.measurands.find((m) => m.measurand === 'Fe')!.status).toBe('not-enough-history');
+      expect(step.findings.some((f) => f.measurand === m && f.rule === (m === 'Fe' ? 'limit' : 'condition'))).toBe(true);
+      const forecast = forecastComponent(evaluated.state, oilSettings, undefined);
+      expect(forecast.measurands.find((x) => x.measurand === m)!.status).toBe('not-enough-history');
       const now = new Date(first.time + 3_600_000);
       const result = applySteps(emptyComponentIncidents(first.unit, first.component), [{ ...step, forecast }], {
-        group: settings.group,
+        group: oilSettings.group,
         now,
         quietBefore: new Date(now.getTime() - 30 * 86_400_000),
-        rules: incidentRules(config),
+        rules: incidentRules(withNewOil),
       });
       return Object.values(result.state.incidents)[0]!;
     };
-    // The group's fixed limits (CONFIG): caution 40, alarm 60 ppm.
-    const between = incidentOn(48);
-    expect(between.forecast!.map((f) => [f.severity, f.outcome])).toEqual([['alarm', 'not-enough-history']]);
+    const between = incidentOn('Fe', 48);
+    expect(between.forecast!.map((f) => [f.severity, f.side, f.outcome])).toEqual([['alarm', 'above', 'not-enough-history']]);
     expect(between.forecast![0]!.text).toMatch(/^Fe: not enough history to forecast/);
-    const past = incidentOn(75);
+    const past = incidentOn('Fe', 75);
     expect(past.severity).toBe('alarm');
     expect(past.forecast).toEqual([]);
+    // Past the upper alarm level: no line about when it might fall to the lower levels either.
+    expect(incidentOn('v100', 15.8).forecast!.map((f) => [f.severity, f.side])).toEqual([['alarm', 'above']]);
+    expect(incidentOn('v100', 22).forecast).toEqual([]);
   });
 
   it('is in the series and drawn dashed with its band on the trend chart', () => {
