@@ -61,6 +61,7 @@ function levelsText(m: MeasurandSeries): string {
   const out: string[] = [];
   if (m.limits?.caution !== undefined) out.push(`caution level ${fmt(m.limits.caution)}`);
   if (m.limits?.alarm !== undefined) out.push(`alarm level ${fmt(m.limits.alarm)}`);
+  for (const l of m.conditionLevels) out.push(`${l.severity} level ${fmt(l.level)}${l.side === 'below' ? ' below' : ''}`);
   const population = m.population?.[m.population.length - 1]?.status;
   if (population?.kind === 'limits') out.push(`group limits ${fmt(population.caution)} and ${fmt(population.alarm)}`);
   if (population?.kind === 'not-enough-data') out.push('group limits not yet known (not enough data)');

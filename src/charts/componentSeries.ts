@@ -19,6 +19,7 @@ import { populationLimitStatus, type PopulationLimitStatus } from '../analysis/r
 import type { RuleInput } from '../analysis/rules/ruleInput.ts';
 import { detectorTraces, type CusumTrace, type EwmaTrace } from './detectorTraces.ts';
 import { forecastComponent } from '../analysis/forecast/forecastComponent.ts';
+import { conditionSpecs } from '../analysis/forecast/limits.ts';
 import type { ComponentForecast, MeasurandForecast } from '../analysis/forecast/model.ts';
 
 export interface ComponentSeries {
@@ -49,6 +50,12 @@ export interface MeasurandSeries {
   readonly charges: readonly ChargeReadings[];
   /** The fixed caution/alarm levels configured for the group; null when none are set. */
   readonly limits: Levels | null;
+  /**
+   * The oil-condition levels the condition rule judges the readings by (rules/condition.ts): water, fuel, soot,
+   * oxidation and nitration above their levels, TAN above new oil plus its rise, TBN below its share of new oil,
+   * viscosity either way from new. Empty for other measurands, and without the new-oil value a level needs.
+   */
+  readonly conditionLevels: readonly ConditionLevel[];
   /** Population limits at each reading; null when the population rule does not judge this measurand. */
   readonly population: readonly PopulationPoint[] | null;
   /** Wear metals only. */
@@ -68,6 +75,15 @@ export interface MeasurandSeries {
 }
 
 /** The readings of one oil charge; wear-metal series restart at every new charge. */
+export interface ConditionLevel {
+  readonly severity: 'caution' | 'alarm';
+  /** Which way a reading crosses it: up through it, or down through it (TBN, viscosity below new). */
+  readonly side: 'above' | 'below';
+  readonly level: number;
+  /** Where the level comes from: "oil-condition level", "half of the new-oil 10 mg KOH/g". */
+  readonly note: string;
+}
+
 export interface ChargeReadings {
   readonly index: number;
   readonly startedBy: Charge['startedBy'];
@@ -247,6 +263,10 @@ function measurandSeries(input: RuleInput, steps: readonly FoldStep[], m: Measur
     unit: info.unit,
     charges,
     limits: settings.limits[m] ?? null,
+    conditionLevels: conditionSpecs(m, settings)
+      // Ten significant digits: 14 × 1.1 reads 15.4, as the rule's sentence says it, not 15.400000000000002.
+      .map((c) => ({ severity: c.severity, side: c.side, level: Number(c.levelAt(0)!.toPrecision(10)), note: c.note }))
+      .sort((a, b) => (a.side === b.side ? (a.severity === 'caution' ? -1 : 1) : a.side === 'above' ? -1 : 1)),
     population,
     rates,
     cleanliness,

@@ -165,5 +165,5 @@ export const SeriesSchema = z
   .object({ unit: z.string(), component: z.string(), advisory })
   .loose()
   .describe(
-    'Chart data of a component: readings per charge, wear rates, detector statistics against their limits, fixed and group limits, where each rule fired (`marks`, with severity and explanation), and `advisory`, the caution that goes with those findings.',
+    'Chart data of a component: readings per charge, wear rates, detector statistics against their limits, fixed and group limits, the oil-condition levels (`conditionLevels`), where each rule fired (`marks`, with severity and explanation), and `advisory`, the caution that goes with those findings.',
   );

@@ -79,6 +79,50 @@ describe('trend chart SVG', () => {
     expect(named.map((e) => DomUtils.textContent(e))).toEqual(['alarm 600 ↑']);
   });
 
+  it('draws the oil-condition levels the condition rule judges by: water above its levels, TBN and viscosity below', () => {
+    // Levels of the configuration below: water 500 / 1000 ppm (set here); TBN at half of new (the default
+    // tbnFallFraction) and at the midpoint; viscosity 10 % / 20 % either way from new (defaults of rules/condition.ts).
+    const settings = settingsFrom(`
+condition:
+  water: { caution: 500, alarm: 1000 }
+groups:
+  - name: pump-gearboxes
+    newOil: { tbn: 10, v100: 14 }
+`);
+    const oil = [120, 300, 650, 1400].map((water, i) =>
+      sample(10 * (i + 1), { oilHours: 250 * (i + 1), readings: { water, tbn: [9, 8, 7, 6.2][i]!, v100: [14.2, 14.6, 15.5, 16.1][i]! } }),
+    );
+    const series = buildComponentSeries(evaluateComponent(oil, settings), settings);
+    const levelsOf = (m: 'water' | 'tbn' | 'v100') => series.measurands.find((s) => s.measurand === m)!.conditionLevels.map((l) => [l.severity, l.side, l.level]);
+    expect(levelsOf('water')).toEqual([
+      ['caution', 'above', 500],
+      ['alarm', 'above', 1000],
+    ]);
+    expect(levelsOf('tbn')).toEqual([
+      ['caution', 'below', 7.5],
+      ['alarm', 'below', 5],
+    ]);
+    const drawn = (m: 'water' | 'tbn' | 'v100') => {
+      const { all: find } = parse(renderTrendChart(series, m));
+      const readings = find((e) => e.attribs['data-panel'] === 'readings')[0]!;
+      const lines = DomUtils.findAll((e) => e.name === 'line' && e.attribs['data-kind'] === 'condition', [readings]);
+      return { readings, lines, offScale: find((e) => e.name === 'text' && e.attribs['data-off-scale'] === 'true').map((e) => DomUtils.textContent(e)) };
+    };
+    const water = drawn('water');
+    expect(water.lines.map((l) => l.attribs['data-limit'])).toEqual(['caution', 'alarm']);
+    for (const line of water.lines) expect(Number(line.attribs.y1)).toBeCloseTo(yFromTicks(water.readings, Number(line.attribs['data-value'])), 0);
+    const tbn = drawn('tbn');
+    expect(tbn.lines.map((l) => [l.attribs['data-limit'], l.attribs['data-side'], Number(l.attribs['data-value'])])).toEqual([
+      ['caution', 'below', 7.5],
+      ['alarm', 'below', 5],
+    ]);
+    // Viscosity: 14 mm²/s new, so 15.4 / 16.8 above and 12.6 / 11.2 below.
+    const v100 = drawn('v100');
+    expect(v100.lines.map((l) => Number(l.attribs['data-value'])).sort((a, b) => a - b)).toEqual([11.2, 12.6, 15.4, 16.8]);
+    expect(v100.offScale).toEqual([]);
+    expect(chartAltText(series, 'water')).toContain('(caution level 500, alarm level 1000)');
+  });
+
   it('draws the group limits where the band is trusted and says "not enough data" where it is not', () => {
     const readings = panel('readings');
     expect(DomUtils.findAll((e) => e.name === 'path' && e.attribs['data-kind'] === 'population', [readings])).toHaveLength(2);

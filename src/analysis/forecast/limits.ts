@@ -48,7 +48,8 @@ export function limitSpecs(m: Measurand, settings: ComponentSettings, group: Gro
   return specs;
 }
 
-function conditionSpecs(m: Measurand, settings: ComponentSettings): LimitSpec[] {
+/** The oil-condition levels of rules/condition.ts for a measurand, as the forecast looks for them (none without their new-oil reference where they need one). */
+export function conditionSpecs(m: Measurand, settings: ComponentSettings): LimitSpec[] {
   const c = settings.condition;
   const fresh = settings.newOil[m];
   const at = (severity: 'caution' | 'alarm', side: 'above' | 'below', level: number, note: string): LimitSpec => ({ source: 'condition', severity, side, levelAt: () => level, note });

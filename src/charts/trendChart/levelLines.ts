@@ -1,27 +1,61 @@
 import type { Levels } from '../../domain/config.ts';
+import type { ConditionLevel } from '../componentSeries.ts';
 import { NEUTRAL } from '../severityStyle.ts';
 import { fmt } from './formatNumber.ts';
 import { MARGIN, type Frame } from './layout.ts';
 import type { PanelLabels } from './panelLabels.ts';
 import { r } from './round.ts';
 
+/** One horizontal level: its severity, value, and which way a reading crosses it. */
+interface LevelLine {
+  readonly severity: 'caution' | 'alarm';
+  readonly value: number;
+  readonly side: 'above' | 'below';
+}
+
 /** Horizontal caution/alarm lines labelled at the right; a level above the scale is named at the panel's top. */
 export function levelLines(levels: Levels | null, kind: 'fixed' | 'rate', f: Frame, width: number, noun: string, labels: PanelLabels): string[] {
   if (levels === null) return [];
+  const lines = (['caution', 'alarm'] as const).flatMap((severity) => {
+    const value = levels[severity];
+    return value === undefined ? [] : [{ severity, value, side: 'above' as const }];
+  });
+  return drawLevels(lines, kind, f, width, noun, labels);
+}
+
+/**
+ * The oil-condition levels (water, TBN, viscosity, …) drawn like the fixed limits; a level below the scale is named at
+ * the panel's bottom, one above it at the top.
+ */
+export function conditionLines(levels: readonly ConditionLevel[], f: Frame, width: number, labels: PanelLabels): string[] {
+  return drawLevels(
+    levels.map((l) => ({ severity: l.severity, value: l.level, side: l.side })),
+    'condition',
+    f,
+    width,
+    'level',
+    labels,
+  );
+}
+
+function drawLevels(lines: readonly LevelLine[], kind: 'fixed' | 'rate' | 'condition', f: Frame, width: number, noun: string, labels: PanelLabels): string[] {
   const out: string[] = [];
-  const [, hi] = f.y.domain() as [number, number];
-  for (const level of ['caution', 'alarm'] as const) {
-    const v = levels[level];
-    if (v === undefined) continue;
-    if (v > hi) {
-      labels.right(f.top + 8, `${level} ${fmt(v)} ↑`, { fill: NEUTRAL.mutedText, attrs: `data-limit="${level}" data-kind="${kind}" data-off-scale="true"` });
+  const [lo, hi] = f.y.domain() as [number, number];
+  for (const { severity, value: v, side } of lines) {
+    const sideAttr = kind === 'condition' ? ` data-side="${side}"` : '';
+    if (v > hi || v < lo) {
+      const above = v > hi;
+      labels.right(above ? f.top + 8 : f.top + f.height - 4, `${severity} ${fmt(v)} ${above ? '↑' : '↓'}`, {
+        fill: NEUTRAL.mutedText,
+        attrs: `data-limit="${severity}" data-kind="${kind}"${sideAttr} data-off-scale="true"`,
+      });
       continue;
     }
     const y = r(f.y(v));
     out.push(
-      `<line data-limit="${level}" data-kind="${kind}" data-value="${v}" x1="${MARGIN.left}" x2="${width - MARGIN.right}" y1="${y}" y2="${y}" stroke="${NEUTRAL.limit}" stroke-width="${level === 'alarm' ? 2 : 1.4}" stroke-dasharray="${level === 'alarm' ? '8 3' : '4 3'}"/>`,
+      `<line data-limit="${severity}" data-kind="${kind}"${sideAttr} data-value="${v}" x1="${MARGIN.left}" x2="${width - MARGIN.right}" y1="${y}" y2="${y}" stroke="${NEUTRAL.limit}" stroke-width="${severity === 'alarm' ? 2 : 1.4}" stroke-dasharray="${severity === 'alarm' ? '8 3' : '4 3'}"/>`,
     );
-    labels.right(y, `${level} ${noun} ${fmt(v)}`);
+    labels.right(y, `${severity} ${noun} ${fmt(v)}`);
   }
   return out;
 }

@@ -32,7 +32,19 @@ export function panelsOf(m: MeasurandSeries): PanelSpec[] {
       key: 'readings',
       heading: readingsHeading(m),
       height: 170,
-      domain: domainOf([...readings, ...nearLevels(m.limits, readings), ...near(populationLevels, readings), ...near(projected, readings)], fromZero),
+      domain: domainOf(
+        [
+          ...readings,
+          ...nearLevels(m.limits, readings),
+          ...near(populationLevels, readings),
+          ...near(
+            m.conditionLevels.map((l) => l.level),
+            readings,
+          ),
+          ...near(projected, readings),
+        ],
+        fromZero,
+      ),
     },
   ];
   if (m.rates !== null && m.rates.points.length > 0) {

@@ -1,10 +1,10 @@
-/** The readings panel: the values per oil charge, where each charge starts, and the fixed and group limits. */
+/** The readings panel: the values per oil charge, where each charge starts, the fixed and group limits and the oil-condition levels. */
 import type { ScaleTime } from 'd3-scale';
 import { escapeHtml as escapeXml } from '../../domain/safeText.ts';
 import type { MeasurandSeries } from '../componentSeries.ts';
 import { NEUTRAL } from '../severityStyle.ts';
 import type { Frame } from './layout.ts';
-import { levelLines } from './levelLines.ts';
+import { conditionLines, levelLines } from './levelLines.ts';
 import { path } from './linePath.ts';
 import type { PanelLabels } from './panelLabels.ts';
 import { populationLines } from './populationLines.ts';
@@ -20,6 +20,7 @@ export function drawReadings(m: MeasurandSeries, x: ScaleTime<number, number>, f
     if (labelled) labels.inPlot(px + 3, f.top + 12, c.startedBy === 'componentChanged' ? 'component change' : 'oil change', 'start', { fill: NEUTRAL.mutedText });
   }
   out.push(...levelLines(m.limits, 'fixed', f, width, 'limit', labels));
+  out.push(...conditionLines(m.conditionLevels, f, width, labels));
   out.push(...populationLines(m, x, f, width, labels));
   for (const c of m.charges) {
     const pts = c.points.map((p) => ({ sampleId: p.sampleId, time: Date.parse(p.sampledAt), value: p.value }));
