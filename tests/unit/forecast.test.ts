@@ -12,6 +12,7 @@ import { forecastComponent } from '../../src/analysis/forecast/forecastComponent
 import { buildComponentSeries } from '../../src/charts/componentSeries.ts';
 import { renderTrendChart } from '../../src/charts/trendChart/trendChart.ts';
 import { FORECAST_CAUTION } from '../../src/domain/caution.ts';
+import { DEFAULT_FORECAST } from '../../src/domain/forecastConfig.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import type { Sample } from '../../src/domain/event.ts';
 import type { Finding } from '../../src/domain/finding.ts';
@@ -132,6 +133,28 @@ describe('forecast in the analysis core', () => {
     expect(f.chargeHours).toBe(Math.max(...past));
     const alarm = f.measurands[0]!.limits.find((l) => l.severity === 'alarm')!;
     if (alarm.outcome === 'after-oil-change') expect(alarm.text).toContain('as on past charges');
+  });
+
+  it('where the present charge has outlasted the past ones, assumes no oil change and says so beside a crossing', () => {
+    const samples = simulatedSamples({ samples: 33, intervalHours: 120 }, 13);
+    const { chargeHours: _planned, ...unplanned } = settingsOf(samples);
+    const { state } = evaluateComponent(samples, unplanned);
+    const now = state.charge!.lastOilHours!;
+    // The past charges as a drain interval shorter than the present charge has run.
+    const shorter = [0.5, 0.8, 0.7].map((share) => Math.round(share * now));
+    const outlasted = { ...state, forecast: { ...state.forecast!, pastCharges: shorter } };
+    const f = forecastComponent(outlasted, unplanned, undefined, { measurands: ['Fe'] });
+    expect(f.chargeHours).toBeNull();
+    expect(f.horizonOilHours).toBe(now + DEFAULT_FORECAST.horizonHours);
+    const crossings = f.measurands[0]!.limits.filter((l) => l.outcome === 'crossing');
+    expect(crossings.length).toBeGreaterThan(0);
+    for (const c of crossings) {
+      expect(c.text).toContain(`, if the oil is not changed first (this charge, at ${now} oil hours, has run longer than each of the last 3 (at most ${Math.max(...shorter)}))`);
+    }
+    // Within the past charges' length, the oil change is expected there and no crossing carries the clause.
+    const usual = forecastComponent(state, unplanned, undefined, { measurands: ['Fe'] });
+    expect(usual.chargeHoursFrom).toBe('past-charges');
+    for (const l of usual.measurands[0]!.limits) expect(l.text).not.toContain('if the oil is not changed first');
   });
 
   it('says "not enough history to forecast" on a first sample and on a censored latest reading', () => {

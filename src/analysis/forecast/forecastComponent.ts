@@ -86,7 +86,15 @@ export function forecastComponent(state: AnalysisState, settings: ComponentSetti
   const horizonOil = nowOil === null ? null : chargeHours !== null ? Math.max(chargeHours, nowOil) : nowOil + config.horizonHours;
   const hoursPerDay = track === undefined ? null : hoursPerDayOf(track.usage);
   const lastTime = state.last?.time ?? 0;
-  const ctx: WordingContext = { chargeHours, planned: chargeHoursFrom === 'planned', horizonHours: config.horizonHours, residualFraction: settings.residualFraction };
+  // The present charge has run longer than every past charge remembered: no oil change is assumed, and the words say so.
+  const outlasted = settings.chargeHours === undefined && past > 0 && expected === null && nowOil !== null ? { oilHours: nowOil, longest: past, charges: track!.pastCharges!.length } : undefined;
+  const ctx: WordingContext = {
+    chargeHours,
+    planned: chargeHoursFrom === 'planned',
+    horizonHours: config.horizonHours,
+    residualFraction: settings.residualFraction,
+    ...(outlasted !== undefined && { outlasted }),
+  };
   const measurands = options.measurands ?? candidates(state, settings);
   const out: MeasurandForecast[] = [];
   for (const m of measurands) {

@@ -10,6 +10,11 @@ export interface WordingContext {
   readonly planned: boolean;
   readonly horizonHours: number;
   readonly residualFraction: number;
+  /**
+   * Without a planned charge length, where the present charge (`oilHours`) has already run longer than the longest
+   * (`longest`) of the past charges remembered (`charges`): no oil change is assumed, and a crossing says so.
+   */
+  readonly outlasted?: { readonly oilHours: number; readonly longest: number; readonly charges: number };
 }
 
 /** Hours to two significant figures, at least 1: "about 420 h" reads as an estimate, not a count. */
@@ -39,7 +44,7 @@ export function forecastText(m: Measurand, spec: LimitSpec, f: Parts, ctx: Wordi
     case 'crossing': {
       const c = f.central!;
       const range = f.late === undefined ? `${roundHours(f.early!.hoursFromNow)} h or later, past the ${openEnd(ctx)}` : `${roundHours(f.early!.hoursFromNow)}–${roundHours(f.late.hoursFromNow)} h`;
-      return `At the present trend, ${title} ${reach} ${level} in about ${roundHours(c.hoursFromNow)} operating hours (${range})${dateText(c)}.`;
+      return `At the present trend, ${title} ${reach} ${level} in about ${roundHours(c.hoursFromNow)} operating hours (${range})${dateText(c)}${outlastedText(ctx)}.`;
     }
     case 'after-oil-change': {
       const verb = f.side === 'above' ? 'reach' : 'fall to';
@@ -57,6 +62,14 @@ export function forecastText(m: Measurand, spec: LimitSpec, f: Parts, ctx: Wordi
       return `At the present trend, ${title} does not ${verb} ${level} within this charge (oil change ${when})${after}.`;
     }
   }
+}
+
+/** The assumption behind a crossing where the present charge has outlasted the past ones: no oil change before it. */
+function outlastedText(ctx: WordingContext): string {
+  const o = ctx.outlasted;
+  if (o === undefined) return '';
+  const past = o.charges === 1 ? `the last charge (${formatNumber(o.longest)})` : `each of the last ${o.charges} (at most ${formatNumber(o.longest)})`;
+  return `, if the oil is not changed first (this charge, at ${formatNumber(o.oilHours)} oil hours, has run longer than ${past})`;
 }
 
 /** Where an interval open above ends: the planned oil change, the one expected from past charges (said so), or the horizon. */
