@@ -16,7 +16,7 @@ export interface FullEvaluation extends Evaluation {
 }
 
 export interface EvaluateOptions extends AnalysisFoldOptions {
-  /** What responders said of samples in doubt, by sampleId. */
+  /** What responders said of samples (in doubt, or of a usual rate), by sampleId. */
   readonly marks?: ReadonlyMap<string, SampleMark>;
   /**
    * The fold's state after the samples before these (a stored checkpoint): the samples given are then the ones after

@@ -125,6 +125,7 @@ const VERDICT_WORDS = {
   confirmed: (sampleId, by) => `sample ${sampleId} confirmed by ${by}: genuine, back into the trend`,
   rejected: (sampleId, by) => `sample ${sampleId} rejected by ${by}: wrong, kept out of the trend`,
   withdrawn: (sampleId, by) => `verdict on sample ${sampleId} taken back by ${by}: the sampling check judges it again`,
+  'usual-rate': (sampleId, by) => `${by}: the wear rate signalled at sample ${sampleId} is this component's usual one; its change detectors learn a new baseline from there`,
 };
 export function sampleVerdictText(entry) {
   return (VERDICT_WORDS[entry.verdict] ?? ((sampleId, by) => `sample ${sampleId}: ${entry.verdict} by ${by}`))(entry.sampleId, entry.by);

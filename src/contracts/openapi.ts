@@ -196,7 +196,7 @@ export function openApiDocument(): Json {
       '/v1/units/{unit}/components/{component}/samples/{sampleId}/verdict': {
         post: {
           operationId: 'judgeSample',
-          summary: 'A responder\u2019s word on a sample a sampling finding put in doubt: confirmed (back into the trend), rejected (kept out), or withdrawn; the component is evaluated again from it, and who gave the word, and when, shows in the timeline of every incident that holds the sample.',
+          summary: 'A responder\u2019s word on a sample a sampling finding put in doubt: confirmed (back into the trend), rejected (kept out); on a sample at which EWMA or CUSUM signal a rise: usual-rate (the rate is the component\u2019s usual one, its change detectors learn a new baseline from there); or withdrawn (an earlier word taken back). The component is evaluated again from it, and who gave the word, and when, shows in the timeline of every incident that holds the sample.',
           tags: ['components'],
           security: [{ bearer: ['responder'] }],
           parameters: [...component, { name: 'sampleId', in: 'path', required: true, schema: { type: 'string' } }],
@@ -206,7 +206,7 @@ export function openApiDocument(): Json {
             '400': error('A field is missing or invalid (invalid-request, naming it), or the body is not JSON (bad-request).'),
             ...AUTH_ERRORS,
             '404': error('The component holds no such sample.'),
-            '409': error('The sample is not in doubt: no sampling finding questioned it, so it takes no verdict (not-in-doubt).'),
+            '409': error('The sample is not in doubt: no sampling finding questioned it, so it takes no verdict (not-in-doubt); or, for usual-rate, no change detector signals a rise at it (no-rise).'),
             ...BODY_ERRORS,
             ...PATH_ERRORS,
             ...STORE_UNAVAILABLE,

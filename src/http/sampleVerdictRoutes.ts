@@ -1,16 +1,18 @@
 /**
- * A responder's word on a sample that a sampling finding put in doubt (fastify 5 plugin):
- * `POST /v1/units/:unit/components/:component/samples/:sampleId/verdict` with
- * `{"verdict": "confirmed" | "rejected" | "withdrawn", "by": "…"}`.
+ * A responder's word on a sample that a sampling finding put in doubt, or at which a change detector signals a rise
+ * (fastify 5 plugin): `POST /v1/units/:unit/components/:component/samples/:sampleId/verdict` with
+ * `{"verdict": "confirmed" | "rejected" | "usual-rate" | "withdrawn", "by": "…"}`.
  *
  * - `confirmed`: the sample is genuine; it goes back into the trend, the baselines and the group statistics.
  * - `rejected`: the sample is wrong (new oil sent by mistake, another unit's bottle); it stays out for good.
- * - `withdrawn`: takes an earlier word back; the sampling rule judges the sample again.
+ * - `usual-rate`: the wear rate EWMA or CUSUM signal as a rise at the sample is this component's usual one (its
+ *   baseline was learnt low); the detectors of each measurand signalling a rise there learn a new baseline from it on.
+ * - `withdrawn`: takes an earlier word back; the sample is judged again without it.
  *
  * The component is evaluated again from that sample on, and who gave the word shows in the timeline of every incident
  * that holds the sample. Answers 202 with the verdict taken, 404 when the component
- * holds no such sample, 409 when nothing questioned the sample (confirmed or rejected only: only a sample in doubt
- * takes a word), 400 naming the field and reason for a bad body.
+ * holds no such sample, 409 when nothing questioned the sample (confirmed or rejected: only a sample in doubt
+ * takes those) or no detector signals a rise at it (usual-rate), 400 naming the field and reason for a bad body.
  */
 import type { FastifyPluginAsync } from 'fastify';
 import { z } from 'zod';
@@ -26,7 +28,7 @@ import { ActorNameSchema } from './incidentRoutes.ts';
  * always does).
  */
 export interface SampleVerdictTaker {
-  mark(ref: ComponentRef, sampleId: string, mark: SampleMark | null, by: string): Promise<'taken' | 'unknown' | 'not-in-doubt'>;
+  mark(ref: ComponentRef, sampleId: string, mark: SampleMark | null, by: string): Promise<'taken' | 'unknown' | 'not-in-doubt' | 'no-rise'>;
 }
 
 export interface SampleVerdictRoutesOptions {
@@ -37,7 +39,11 @@ export interface SampleVerdictRoutesOptions {
 
 export const VerdictBodySchema = z
   .object({
-    verdict: z.enum(['confirmed', 'rejected', 'withdrawn']).describe('confirmed: genuine, back into the trend; rejected: kept out for good; withdrawn: the sampling rule judges it again.'),
+    verdict: z
+      .enum(['confirmed', 'rejected', 'usual-rate', 'withdrawn'])
+      .describe(
+        'confirmed: genuine, back into the trend; rejected: kept out for good; usual-rate: the rate EWMA or CUSUM signal as a rise at the sample is the component\u2019s usual one, its change detectors learn a new baseline from there; withdrawn: an earlier word taken back.',
+      ),
     by: ActorNameSchema.describe('Who gives the verdict.'),
   })
   .strict();
@@ -62,6 +68,12 @@ export const sampleVerdictRoutes: FastifyPluginAsync<SampleVerdictRoutesOptions>
       const mark: SampleMark | null = body.data.verdict === 'withdrawn' ? null : body.data.verdict;
       const outcome = await options.verdicts.mark({ unit, component }, sampleId, mark, body.data.by);
       if (outcome === 'unknown') return reply.code(404).send({ error: 'not-found', message: `component "${component}" of unit "${unit}" holds no sample "${sampleId}"` });
+      if (outcome === 'no-rise') {
+        return reply.code(409).send({
+          error: 'no-rise',
+          message: `no change detector (EWMA or CUSUM) signals a rise of a wear rate at sample "${sampleId}" of ${unit}/${component}, so it takes no word on a usual rate`,
+        });
+      }
       if (outcome === 'not-in-doubt') {
         return reply.code(409).send({
           error: 'not-in-doubt',

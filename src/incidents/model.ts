@@ -131,9 +131,11 @@ export type TimelineEntry =
 
 /**
  * What a responder says of a sample in doubt: `confirmed` (genuine: back into the trend), `rejected` (wrong: kept out
- * for good) or `withdrawn` (an earlier word taken back: the sampling check judges the sample again).
+ * for good) or `withdrawn` (an earlier word taken back: the sampling check judges the sample again); of a sample at
+ * which the change detectors signal a rise: `usual-rate` (the rate is the component's usual one: its detectors learn
+ * a new baseline from there; analysis/model.ts SampleMark).
  */
-export type SampleVerdict = 'confirmed' | 'rejected' | 'withdrawn';
+export type SampleVerdict = 'confirmed' | 'rejected' | 'withdrawn' | 'usual-rate';
 
 /** What had changed when a queued message was about to go out (see `withdrawnBecause` in withdrawal.ts). */
 export type WithdrawnBecause = 'acknowledged' | 'shelved' | 'closed' | 'returned';
@@ -391,6 +393,7 @@ const VERDICT_WORDS: Record<SampleVerdict, (sampleId: string, by: string) => str
   confirmed: (sampleId, by) => `sample ${sampleId} confirmed by ${by}: genuine, back into the trend`,
   rejected: (sampleId, by) => `sample ${sampleId} rejected by ${by}: wrong, kept out of the trend`,
   withdrawn: (sampleId, by) => `verdict on sample ${sampleId} taken back by ${by}: the sampling check judges it again`,
+  'usual-rate': (sampleId, by) => `${by}: the wear rate signalled at sample ${sampleId} is this component's usual one; its change detectors learn a new baseline from there`,
 };
 
 /** A sample verdict in the timeline, for people: who said what of which sample (the board carries a copy). */

@@ -7,6 +7,10 @@
  * component is evaluated again from that sample on, so the findings and incidents follow as if the mark had been
  * there when the sample arrived. Who said what, and when, goes into the timeline of every incident that holds the
  * sample (src/incidents/sampleVerdict.ts).
+ *
+ * `usual-rate` is said of a sample at which EWMA or CUSUM signal a rise of a wear rate: the rate is this component's
+ * usual one (a baseline learnt low, not a change). Only such a sample takes it; the change detectors of each measurand
+ * signalling a rise there learn a new own baseline from that sample on (analysis/fold/changeTrack.ts `restartChange`).
  */
 import type { Queue } from 'bullmq';
 import type { SampleMark } from '../analysis/model.ts';
@@ -29,8 +33,11 @@ export interface SampleVerdictTimeline {
   readonly now?: () => Date;
 }
 
-/** `taken`: stored, the component is evaluated again; `unknown`: no such sample; `not-in-doubt`: nothing questioned it. */
-export type VerdictOutcome = 'taken' | 'unknown' | 'not-in-doubt';
+/**
+ * `taken`: stored, the component is evaluated again; `unknown`: no such sample; `not-in-doubt`: nothing questioned it
+ * (confirmed, rejected); `no-rise`: no change detector signals a rise at it (usual-rate).
+ */
+export type VerdictOutcome = 'taken' | 'unknown' | 'not-in-doubt' | 'no-rise';
 
 export class SampleVerdicts {
   constructor(
@@ -47,8 +54,14 @@ export class SampleVerdicts {
   async mark(ref: ComponentRef, sampleId: string, mark: SampleMark | null, by: string): Promise<VerdictOutcome> {
     if (mark !== null) {
       const record = (await this.store.findings(ref)).find((r) => r.sampleId === sampleId);
-      const inDoubt = record !== undefined && (record.status !== undefined || record.findings.some((f) => f.rule === 'sampling'));
-      if (!inDoubt) return (await this.store.revisions(ref)).some((r) => r.sample.sampleId === sampleId) ? 'not-in-doubt' : 'unknown';
+      const admitted =
+        mark === 'usual-rate'
+          ? record !== undefined && record.findings.some((f) => (f.rule === 'ewma' || f.rule === 'cusum') && f.direction === 'up')
+          : record !== undefined && (record.status !== undefined || record.findings.some((f) => f.rule === 'sampling'));
+      if (!admitted) {
+        const known = (await this.store.revisions(ref)).some((r) => r.sample.sampleId === sampleId);
+        return !known ? 'unknown' : mark === 'usual-rate' ? 'no-rise' : 'not-in-doubt';
+      }
     }
     const known = await this.store.markSample(ref, sampleId, mark);
     if (!known) return 'unknown';

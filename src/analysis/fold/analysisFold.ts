@@ -22,7 +22,7 @@ import { rateVerdicts } from '../rules/rate.ts';
 import { advanceSampling, EMPTY_SAMPLING_TRACK, samplingChecks, type SamplingTrack } from '../rules/sampling.ts';
 import type { SampleInput } from '../rules/ruleInput.ts';
 import { advanceCharge, chargeStart, type ChargeTrack } from './chargeTrack.ts';
-import { advanceChange, emptyChangeTrack, type ChangePoint, type ChangeTrack, type DetectorLimits } from './changeTrack.ts';
+import { advanceChange, emptyChangeTrack, restartChange, type ChangePoint, type ChangeTrack, type DetectorLimits } from './changeTrack.ts';
 import { advanceWear, EMPTY_WEAR_TRACK, rollOverCharge, type WearTrack } from './wearTrack.ts';
 import { DEFAULT_FORECAST } from '../../domain/forecastConfig.ts';
 import { advanceForecast, type ForecastTrack } from '../forecast/forecastTrack.ts';
@@ -149,8 +149,10 @@ export class AnalysisFold {
    * @param group the group's statistics as they stood when the sample was drawn (other units only)
    * @param mark what a responder said of the sample, if anything
    */
-  advance(sample: Sample, group: GroupStats | undefined, mark?: SampleMark): FoldStep {
+  advance(sample: Sample, group: GroupStats | undefined, word?: SampleMark): FoldStep {
     const s = this.s;
+    // The word on a usual rate says nothing of the sample's validity: the sampling checks judge it as any other.
+    const mark = word === 'usual-rate' ? undefined : word;
     const base = { unit: s.unit, component: s.component, settings: this.settings, ...(group !== undefined && { group }), sample };
     const prior = s.charge;
     const checks = (track: SamplingTrack, lastOilHours: number | undefined) =>
@@ -191,15 +193,24 @@ export class AnalysisFold {
     }
     s.sampling = advanceSampling(reference, sample, included, newCharge, verdict.findings.some((f) => f.check === 'foreign-oil'));
     const input: SampleInput = { ...base, intervals };
+    const restarts: Measurand[] = [];
     if (included && this.detecting) {
       for (const m of this.settings.detection.measurands) {
         const iv = intervals.get(m);
         const before = s.change[m] ?? emptyChangeTrack(this.settings.detection);
         let track = before;
         if (iv !== undefined) {
-          const r = advanceChange(before, iv, { detection: this.settings.detection, limits: this.limits, group: trustedGroupBaseline(group, m), holdRateWhileSignalling: this.hold });
+          const r = advanceChange(before, iv, {
+            detection: this.settings.detection,
+            limits: this.limits,
+            group: trustedGroupBaseline(group, m),
+            holdRateWhileSignalling: this.hold,
+          });
           track = r.track;
           if (r.point !== undefined) points.push(r.point);
+          // A responder's word that the rate signalled here as a rise is this component's usual one (SampleMark): the
+          // detectors learn a new baseline after this sample, whose findings stand as judged (restarted below).
+          if (word === 'usual-rate' && track.signalSince !== undefined) restarts.push(m);
         }
         if (track.own.completedAt !== undefined) {
           const peer = peerVerdict(input, m, track.own, group?.baselines[m]?.peers, track.peerFlagged === true);
@@ -238,6 +249,8 @@ export class AnalysisFold {
     // left waiting for someone to confirm the bottle; it says the sample is in doubt beside it.
     if (status === 'in-doubt') findings = findings.map(inDoubtFinding);
     findings = [...findings, ...verdict.findings].sort(byKey);
+    const at = { sampleId: sample.sampleId, sampledAt: sample.sampledAt };
+    for (const m of restarts) s.change[m] = restartChange(s.change[m]!, at, { detection: this.settings.detection, limits: this.limits });
     s.samples += 1;
     s.last = { sampleId: sample.sampleId, time: sample.time, ...(sample.unitHours !== undefined && { unitHours: sample.unitHours }) };
     return {

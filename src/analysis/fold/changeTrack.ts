@@ -89,6 +89,12 @@ export interface ChangeTrack {
   readonly signalSince?: { readonly sampleId: string; readonly sampledAt: string };
   /** The comparison with peers stands flagged in this life (rules/peers.ts). */
   readonly peerFlagged?: boolean;
+  /**
+   * The sample at which a responder's word that the rate is the component's usual one started this life (ChangeInput
+   * `restart`): until the own baseline is complete again nothing is judged (the group's rate, which the unit's rate
+   * may sit well above, is not used), so that the new baseline forms from the unit's own intervals.
+   */
+  readonly restartedAt?: { readonly sampleId: string; readonly sampledAt: string };
 }
 
 /** The rise side's limits and the fall side's (budget.ts changeDesign: each side has its part of the budget). */
@@ -174,9 +180,12 @@ export function advanceChange(t: ChangeTrack, iv: Interval, input: ChangeInput):
     };
   }
   const own = track.own;
+  // A life a responder's word restarted judges against its own new baseline only, once complete (`restartedAt`); the
+  // group still speaks for the wear process's variance within units.
+  const group = track.restartedAt !== undefined ? undefined : input.group;
   const ownRate = own.completedAt !== undefined ? ownRateBaseline(own.sums, detection.budget.sampleIntervalHours, own.later, input.group?.within) : undefined;
-  const source: BaselineSource = ownRate !== undefined && index > own.completedAt! ? 'own' : input.group !== undefined ? 'group' : null;
-  const baseline = source === 'own' ? ownRate : source === 'group' ? input.group : undefined;
+  const source: BaselineSource = ownRate !== undefined && index > own.completedAt! ? 'own' : group !== undefined ? 'group' : null;
+  const baseline = source === 'own' ? ownRate : source === 'group' ? group : undefined;
   const continuous = track.filter !== undefined && iv.from !== undefined && iv.from.sampleId === track.previousTo;
   const switched = source !== track.previousSource;
   const paused = input.holdRateWhileSignalling && track.signalSince !== undefined;
@@ -262,6 +271,31 @@ export function advanceChange(t: ChangeTrack, iv: Interval, input: ChangeInput):
       ...(ewmaOut && { ewma: ewmaOut }),
       learningPaused: paused,
     },
+  };
+}
+
+/**
+ * A responder's word, at the sample the track's last interval ended at, that the rate signalled there as a rise is the
+ * component's usual one (a baseline learnt low, not a change): a new life starts after that interval, as at a
+ * component change but with the filter following on from the last reading. Its own baseline forms from the stable
+ * intervals after the word, and until it is complete nothing is judged (`restartedAt`: the group's rate, which this
+ * unit's may sit well above, is not used); then the detectors judge against the new baseline.
+ */
+export function restartChange(t: ChangeTrack, at: { readonly sampleId: string; readonly sampledAt: string }, input: Pick<ChangeInput, 'detection' | 'limits'>): ChangeTrack {
+  const { detection, limits } = input;
+  const last = t.last;
+  return {
+    ...emptyChangeTrack(detection),
+    intervals: t.intervals,
+    life: t.life + 1,
+    cusum: {
+      upper: cusumStart({ k: detection.cusum.k, h: limits.cusumH, headstart: detection.cusum.headstart }).upper,
+      lower: cusumStart({ k: detection.cusum.k, h: limits.cusumHFall, headstart: detection.cusum.headstart }).lower,
+    },
+    ...(last && { last }),
+    ...(last && !last.censored && { filter: settled(last.level, detection.labNoise, undefined) }),
+    ...(t.previousTo !== undefined && { previousTo: t.previousTo }),
+    restartedAt: at,
   };
 }
 
