@@ -231,3 +231,60 @@ describe('a responder marks a sample in doubt', () => {
     ]);
   });
 });
+
+describe('a responder says a signalled rate is the usual one', () => {
+  const gearbox = { unit: 'PS7-P2', component: 'gearbox' };
+  /** Iron gains 6 ppm per 250 h up to R-6, then 10 ppm (a lasting change of duty), without lab noise. */
+  const rated = (i: number) => ({
+    sampleId: `R-${i}`,
+    ...gearbox,
+    sampledAt: new Date(Date.UTC(2026, 0, 1 + i * 10, 8)).toISOString(),
+    unitHours: 1000 + i * 250,
+    oilHours: i * 250,
+    readings: { Fe: i <= 6 ? 8 + 6 * i : 44 + 10 * (i - 6), Cu: 2 + i * 0.5, Ca: 2400, Zn: 1100, P: 950, Si: 4 },
+  });
+  const postOn = (sampleId: string, body: unknown) =>
+    fetch(`${base}/v1/units/${gearbox.unit}/components/${gearbox.component}/samples/${sampleId}/verdict`, {
+      method: 'POST',
+      headers: { authorization: `Bearer ${RESPONDER}`, 'content-type': 'application/json' },
+      body: JSON.stringify(body),
+    });
+  const risesAfter = async (from: number) =>
+    (await store.findings(gearbox))
+      .filter((r) => Number(r.sampleId.slice(2)) > from && r.findings.some((f) => (f.rule === 'cusum' || f.rule === 'ewma') && f.direction === 'up'))
+      .map((r) => r.sampleId);
+
+  it('ends the standing watch: the detectors learn a new baseline from the word on; taking the word back restores it', { timeout: 300_000 }, async () => {
+    const feed = async (from: number, to: number) => {
+      const outcomes = await producer.add(Array.from({ length: to - from + 1 }, (_, k) => rated(from + k)));
+      expect(outcomes.filter((o) => o.status !== 'accepted')).toEqual([]);
+      await drained(queues, 120_000);
+    };
+    await feed(1, 16);
+    const watch = `${gearbox.unit}/${gearbox.component}@R-14`;
+    const standing = await record(watch);
+    expect(standing.alarm).toBe('active');
+    expect(standing.evidence.map((f) => `${f.rule} ${f.direction} ${f.measurand}`)).toEqual(['cusum up Fe']);
+
+    // Only a sample where a detector signals a rise takes the word.
+    const early = await postOn('R-10', { verdict: 'usual-rate', by: 'reliability engineer' });
+    expect(early.status).toBe(409);
+    expect((await early.json()) as { error: string }).toMatchObject({ error: 'no-rise' });
+    expect((await store.evaluationInput(gearbox))!.marks.has('R-10')).toBe(false);
+
+    const words = verdictTimes.length;
+    expect((await postOn('R-16', { verdict: 'usual-rate', by: 'reliability engineer' })).status).toBe(202);
+    await drained(queues, 120_000);
+    await feed(17, 22);
+    expect(await risesAfter(16)).toEqual([]);
+    const settled = await record(watch);
+    expect(settled.alarm).toBe('returned');
+    expect(wordsOf(settled)).toEqual([{ kind: 'sample-verdict', sampleId: 'R-16', verdict: 'usual-rate', by: 'reliability engineer', at: verdictTimes[words] }]);
+
+    // Taken back, the history is judged again without it: the held rate flags the new one again.
+    expect((await postOn('R-16', { verdict: 'withdrawn', by: 'reliability engineer' })).status).toBe(202);
+    await drained(queues, 120_000);
+    expect(await risesAfter(16)).toEqual(['R-17', 'R-18', 'R-19', 'R-20', 'R-21', 'R-22']);
+    expect((await record(watch)).alarm).toBe('active');
+  });
+});
