@@ -1,7 +1,8 @@
 /**
  * A card's actions in Chromium against the real routes: one request at a time (a second press while the first is on
  * its way sends nothing), the verdict on a sample in doubt shown once given (who, which, when) with only the taking
- * back offered, the keyboard focus kept on the board when a resolved card goes, and card ids that never repeat.
+ * back offered, the word that a rate a change detector signals as a rise is the component's usual one asked, sent and
+ * shown the same way, the keyboard focus kept on the board when a resolved card goes, and card ids that never repeat.
  */
 import type { Page, Route } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -34,10 +35,13 @@ describe.skipIf(!HAVE_CHROMIUM)('board card actions in Chromium', () => {
       ['PS2-P3', 'gearbox'],
       ['PR-2', 'hydraulic'],
       ['GEN-3', 'engine'],
+      ['GEN-1', 'engine'],
     ]);
     expect(await fixture.feed('PS2-P3', 'gearbox')).toBeGreaterThan(0);
     expect(await fixture.feed('PR-2', 'hydraulic')).toBeGreaterThan(0);
     expect(await fixture.feed(SAMPLE_DOUBT.unit, SAMPLE_DOUBT.component)).toBeGreaterThan(0);
+    // The demo's GEN-1 engine: an aluminium rise CUSUM signals on a steady, healthy trend (a baseline learnt low).
+    expect(await fixture.feed('GEN-1', 'engine')).toBeGreaterThan(0);
     browser = await launchBoardBrowser();
     page = await browser.open();
     await signIn(page, fixture.url, TOKENS.responder, 'R. Tanaka');
@@ -113,6 +117,40 @@ describe.skipIf(!HAVE_CHROMIUM)('board card actions in Chromium', () => {
     expect(await onPage.locator('button[data-verdict="confirmed"]').isVisible()).toBe(true);
     expect(fixture.verdicts.at(-1)).toEqual({ ...SAMPLE_DOUBT, mark: null });
     await incidentPage.close();
+  });
+
+  it('asks of a rise signalled by a change detector whether the rate is usual, sends the word once and shows it', async () => {
+    const target = card(page, 'GEN-1/engine');
+    const row = target.locator('.sample-verdict');
+    // The word given is looked up when the card comes near the window.
+    await target.scrollIntoViewIfNeeded();
+    await poll(() => row.getAttribute('data-question')).toBe('rise');
+    await poll(() => row.getAttribute('data-verdict')).toBe('none');
+    const evidence = (await api(`/v1/incidents/${encodeURIComponent((await target.getAttribute('data-incident'))!)}`)).incident.evidence as { sampleId: string; rule: string; direction?: string; measurand: string }[];
+    const rise = evidence.find((f) => (f.rule === 'cusum' || f.rule === 'ewma') && f.direction === 'up')!;
+    expect(await row.innerText()).toContain(`Sample ${rise.sampleId}`);
+    expect(await row.innerText()).toContain(`signals a rise of the ${rise.measurand} wear rate`);
+    // A machine incident is not asked whether its sample is genuine.
+    expect(await row.locator('button[data-verdict="confirmed"]').isVisible()).toBe(false);
+    expect(await row.locator('button[data-verdict="rejected"]').isVisible()).toBe(false);
+    const usual = row.locator('button[data-verdict="usual-rate"]');
+    const hold = await holdRequests(page, /\/samples\/[^/]+\/verdict$/);
+    await usual.click();
+    await poll(() => hold.seen.length).toBe(1);
+    await usual.dispatchEvent('click');
+    hold.release();
+    await poll(() => target.locator('.action-status').getAttribute('data-kind')).toBe('done');
+    await page.unroute(/\/samples\/[^/]+\/verdict$/);
+    expect(hold.seen).toEqual(['POST']);
+    expect(fixture.verdicts.filter((v) => v.unit === 'GEN-1')).toEqual([{ unit: 'GEN-1', component: 'engine', sampleId: rise.sampleId, mark: 'usual-rate' }]);
+    // As the server keeps it, after a fresh load: who said it, and only the taking back offered.
+    await page.goto(fixture.url);
+    await card(page, 'GEN-1/engine').scrollIntoViewIfNeeded();
+    const again = card(page, 'GEN-1/engine').locator('.sample-verdict');
+    await poll(() => again.getAttribute('data-verdict')).toBe('usual-rate');
+    expect(await again.innerText()).toMatch(new RegExp(`${rise.sampleId} .*was marked as this component's usual rate.* by R\\. Tanaka at \\d{4}-\\d\\d-\\d\\dT\\d\\d:\\d\\dZ`));
+    expect(await again.locator('button[data-verdict="usual-rate"]').isVisible()).toBe(false);
+    expect(await again.locator('button[data-verdict="withdrawn"]').isVisible()).toBe(true);
   });
 
   it('gives every element on the board an id of its own, also after cards come and go within one clock tick', async () => {
