@@ -164,21 +164,8 @@ export function advanceChange(t: ChangeTrack, iv: Interval, input: ChangeInput):
   const noise = detection.labNoise;
   const index = t.intervals;
   let track: ChangeTrack = t;
-  if (index === 0 || iv.to.componentChanged) {
-    // A new life: the own baseline, the filter and the detectors start again.
-    const last = t.last;
-    track = {
-      ...emptyChangeTrack(detection),
-      life: t.life + 1,
-      // A headstart is a fraction of each side's own decision interval.
-      cusum: {
-        upper: cusumStart({ k: detection.cusum.k, h: limits.cusumH, headstart: detection.cusum.headstart }).upper,
-        lower: cusumStart({ k: detection.cusum.k, h: limits.cusumHFall, headstart: detection.cusum.headstart }).lower,
-      },
-      ...(index > 0 && last && !last.censored && { filter: settled(last.level, noise, undefined) }),
-      ...(t.previousTo !== undefined && { previousTo: t.previousTo }),
-    };
-  }
+  // A new life: the own baseline, the filter and the detectors start again.
+  if (index === 0 || iv.to.componentChanged) track = nextLife(t, input, index > 0);
   const own = track.own;
   // A life a responder's word restarted judges against its own new baseline only, once complete (`restartedAt`); the
   // group still speaks for the wear process's variance within units.
@@ -282,20 +269,24 @@ export function advanceChange(t: ChangeTrack, iv: Interval, input: ChangeInput):
  * unit's may sit well above, is not used); then the detectors judge against the new baseline.
  */
 export function restartChange(t: ChangeTrack, at: { readonly sampleId: string; readonly sampledAt: string }, input: Pick<ChangeInput, 'detection' | 'limits'>): ChangeTrack {
-  const { detection, limits } = input;
+  return { ...nextLife(t, input, true), intervals: t.intervals, ...(t.last && { last: t.last }), restartedAt: at };
+}
+
+/**
+ * The next life of a track: an empty own baseline, the detectors at their start (a headstart is a fraction of each
+ * side's own decision interval), the filter following on from the last reading when `followOn` (an uncensored one).
+ */
+function nextLife(t: ChangeTrack, { detection, limits }: Pick<ChangeInput, 'detection' | 'limits'>, followOn: boolean): ChangeTrack {
   const last = t.last;
   return {
     ...emptyChangeTrack(detection),
-    intervals: t.intervals,
     life: t.life + 1,
     cusum: {
       upper: cusumStart({ k: detection.cusum.k, h: limits.cusumH, headstart: detection.cusum.headstart }).upper,
       lower: cusumStart({ k: detection.cusum.k, h: limits.cusumHFall, headstart: detection.cusum.headstart }).lower,
     },
-    ...(last && { last }),
-    ...(last && !last.censored && { filter: settled(last.level, detection.labNoise, undefined) }),
+    ...(followOn && last && !last.censored && { filter: settled(last.level, detection.labNoise, undefined) }),
     ...(t.previousTo !== undefined && { previousTo: t.previousTo }),
-    restartedAt: at,
   };
 }
 
