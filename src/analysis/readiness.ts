@@ -87,7 +87,9 @@ export function readinessOf(state: AnalysisState, settings: ComponentSettings, g
       own = { have: complete ? detection.baselineIntervals : (track?.own.sums.intervals ?? 0), need: detection.baselineIntervals };
       const components = group?.baselines[m]?.components ?? 0;
       groupBaseline = { have: Math.min(components, MIN_GROUP_COMPONENTS), need: MIN_GROUP_COMPONENTS };
-      changeDetection = complete ? 'own baseline' : components >= MIN_GROUP_COMPONENTS ? 'group baseline' : 'waiting';
+      // A life a responder's word on a usual rate restarted waits for its own new baseline (changeTrack.ts restartChange).
+      const restarted = track?.restartedAt;
+      changeDetection = complete ? 'own baseline' : restarted === undefined && components >= MIN_GROUP_COMPONENTS ? 'group baseline' : 'waiting';
       if (settings.population.peers.enabled) {
         const need = settings.population.peers.minComponents;
         // Only peers whose learnt rate is above zero are compared (on a log scale): a metal the group's units hardly
@@ -100,7 +102,9 @@ export function readinessOf(state: AnalysisState, settings: ComponentSettings, g
           ? 'change detection against its own baseline'
           : changeDetection === 'group baseline'
             ? `change detection against the group baseline (own baseline ${own.have} of ${own.need} intervals)`
-            : `change detection waits: own baseline ${own.have} of ${own.need} intervals, group baseline ${groupBaseline.have} of ${groupBaseline.need} components`,
+            : restarted !== undefined
+              ? `change detection waits: own baseline ${own.have} of ${own.need} intervals, learnt again since the word at sample ${restarted.sampleId} that its rate there is usual`
+              : `change detection waits: own baseline ${own.have} of ${own.need} intervals, group baseline ${groupBaseline.have} of ${groupBaseline.need} components`,
       );
       if (latest !== undefined && latest.oilHours === undefined && latest.unitHours === undefined) {
         needs.push('oil or unit hours');

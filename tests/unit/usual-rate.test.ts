@@ -9,6 +9,7 @@
 import { describe, expect, it } from 'vitest';
 import { evaluateComponent } from '../../src/analysis/evaluate.ts';
 import type { SampleMark } from '../../src/analysis/model.ts';
+import { readinessOf } from '../../src/analysis/readiness.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import type { Sample } from '../../src/domain/event.ts';
 import { resolveSettings } from '../../src/domain/settings.ts';
@@ -65,6 +66,11 @@ describe('a responder\'s word on a usual rate', () => {
       expect(track.own.start).not.toBe('new oil');
       const start = track.own.start as { sampleId: string };
       expect(samples.findIndex((s) => s.sampleId === start.sampleId)).toBeGreaterThanOrEqual(first);
+      // A few samples after the word, what the analysis can judge yet says it waits for the new baseline.
+      const soon = samples.slice(0, first + 4);
+      const fe = readinessOf(evaluateComponent(soon, settings, undefined, { marks }).state, settings, undefined, soon).find((r) => r.measurand === 'Fe')!;
+      expect(fe.changeDetection).toBe('waiting');
+      expect(fe.summary).toContain(`learnt again since the word at sample ${samples[first]!.sampleId} that its rate there is usual`);
     });
   }
 
