@@ -193,7 +193,7 @@ export class AnalysisFold {
     }
     s.sampling = advanceSampling(reference, sample, included, newCharge, verdict.findings.some((f) => f.check === 'foreign-oil'));
     const input: SampleInput = { ...base, intervals };
-    const restarts: Measurand[] = [];
+    let restarts: Measurand[] | undefined;
     if (included && this.detecting) {
       for (const m of this.settings.detection.measurands) {
         const iv = intervals.get(m);
@@ -210,7 +210,7 @@ export class AnalysisFold {
           if (r.point !== undefined) points.push(r.point);
           // A responder's word that the rate signalled here as a rise is this component's usual one (SampleMark): the
           // detectors learn a new baseline after this sample, whose findings stand as judged (restarted below).
-          if (word === 'usual-rate' && track.signalSince !== undefined) restarts.push(m);
+          if (word === 'usual-rate' && track.signalSince !== undefined) (restarts ??= []).push(m);
         }
         if (track.own.completedAt !== undefined) {
           const peer = peerVerdict(input, m, track.own, group?.baselines[m]?.peers, track.peerFlagged === true);
@@ -249,8 +249,9 @@ export class AnalysisFold {
     // left waiting for someone to confirm the bottle; it says the sample is in doubt beside it.
     if (status === 'in-doubt') findings = findings.map(inDoubtFinding);
     findings = [...findings, ...verdict.findings].sort(byKey);
-    const at = { sampleId: sample.sampleId, sampledAt: sample.sampledAt };
-    for (const m of restarts) s.change[m] = restartChange(s.change[m]!, at, { detection: this.settings.detection, limits: this.limits });
+    for (const m of restarts ?? []) {
+      s.change[m] = restartChange(s.change[m]!, { sampleId: sample.sampleId, sampledAt: sample.sampledAt }, { detection: this.settings.detection, limits: this.limits });
+    }
     s.samples += 1;
     s.last = { sampleId: sample.sampleId, time: sample.time, ...(sample.unitHours !== undefined && { unitHours: sample.unitHours }) };
     return {
