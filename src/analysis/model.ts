@@ -129,7 +129,7 @@ export type SampleStatus = 'accepted' | 'in-doubt' | 'confirmed' | 'rejected';
  * What a responder said of a sample: of a sample in doubt, `confirmed` or `rejected`; of a sample at which EWMA or
  * CUSUM signal a rise, `usual-rate`: the wear rate seen there is this component's usual one (a baseline learnt low,
  * not a change), so the change detectors of each measurand signalling a rise learn a new own baseline from that sample
- * on (changeTrack.ts `restart`). A `usual-rate` sample goes through the sampling checks as any other.
+ * on (changeTrack.ts `restartChange`). A `usual-rate` sample goes through the sampling checks as any other.
  */
 export type SampleMark = 'confirmed' | 'rejected' | 'usual-rate';
 

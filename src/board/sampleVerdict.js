@@ -26,7 +26,7 @@ export function sampleInDoubt(incident) {
 }
 
 /** A rise of a wear rate EWMA or CUSUM signal in the incident's evidence (its latest sample with findings), if any. */
-export function riseSignalled(incident) {
+function riseSignalled(incident) {
   return (incident.evidence ?? []).find((f) => (f.rule === 'ewma' || f.rule === 'cusum') && f.direction === 'up');
 }
 

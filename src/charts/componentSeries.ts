@@ -74,7 +74,6 @@ export interface MeasurandSeries {
   readonly forecast: MeasurandForecast | null;
 }
 
-/** The readings of one oil charge; wear-metal series restart at every new charge. */
 export interface ConditionLevel {
   readonly severity: 'caution' | 'alarm';
   /** Which way a reading crosses it: up through it, or down through it (TBN, viscosity below new). */
@@ -84,6 +83,7 @@ export interface ConditionLevel {
   readonly note: string;
 }
 
+/** The readings of one oil charge; wear-metal series restart at every new charge. */
 export interface ChargeReadings {
   readonly index: number;
   readonly startedBy: Charge['startedBy'];

@@ -90,8 +90,8 @@ export interface ChangeTrack {
   /** The comparison with peers stands flagged in this life (rules/peers.ts). */
   readonly peerFlagged?: boolean;
   /**
-   * The sample at which a responder's word that the rate is the component's usual one started this life (ChangeInput
-   * `restart`): until the own baseline is complete again nothing is judged (the group's rate, which the unit's rate
+   * The sample at which a responder's word that the rate is the component's usual one started this life
+   * (`restartChange`): until the own baseline is complete again nothing is judged (the group's rate, which the unit's rate
    * may sit well above, is not used), so that the new baseline forms from the unit's own intervals.
    */
   readonly restartedAt?: { readonly sampleId: string; readonly sampledAt: string };

@@ -7,18 +7,14 @@ import type { PanelLabels } from './panelLabels.ts';
 import { r } from './round.ts';
 
 /** One horizontal level: its severity, value, and which way a reading crosses it. */
-interface LevelLine {
-  readonly severity: 'caution' | 'alarm';
-  readonly value: number;
-  readonly side: 'above' | 'below';
-}
+type LevelLine = Pick<ConditionLevel, 'severity' | 'level' | 'side'>;
 
 /** Horizontal caution/alarm lines labelled at the right; a level above the scale is named at the panel's top. */
 export function levelLines(levels: Levels | null, kind: 'fixed' | 'rate', f: Frame, width: number, noun: string, labels: PanelLabels): string[] {
   if (levels === null) return [];
   const lines = (['caution', 'alarm'] as const).flatMap((severity) => {
-    const value = levels[severity];
-    return value === undefined ? [] : [{ severity, value, side: 'above' as const }];
+    const level = levels[severity];
+    return level === undefined ? [] : [{ severity, level, side: 'above' as const }];
   });
   return drawLevels(lines, kind, f, width, noun, labels);
 }
@@ -28,20 +24,13 @@ export function levelLines(levels: Levels | null, kind: 'fixed' | 'rate', f: Fra
  * the panel's bottom, one above it at the top.
  */
 export function conditionLines(levels: readonly ConditionLevel[], f: Frame, width: number, labels: PanelLabels): string[] {
-  return drawLevels(
-    levels.map((l) => ({ severity: l.severity, value: l.level, side: l.side })),
-    'condition',
-    f,
-    width,
-    'level',
-    labels,
-  );
+  return drawLevels(levels, 'condition', f, width, 'level', labels);
 }
 
 function drawLevels(lines: readonly LevelLine[], kind: 'fixed' | 'rate' | 'condition', f: Frame, width: number, noun: string, labels: PanelLabels): string[] {
   const out: string[] = [];
   const [lo, hi] = f.y.domain() as [number, number];
-  for (const { severity, value: v, side } of lines) {
+  for (const { severity, level: v, side } of lines) {
     const sideAttr = kind === 'condition' ? ` data-side="${side}"` : '';
     if (v > hi || v < lo) {
       const above = v > hi;
