@@ -34,9 +34,10 @@ export interface MeasurandReadiness {
   /**
    * Detection measurands, for the comparison with peers: `have` other components with a complete own baseline;
    * `measurable` how many of them wear measurably (a learnt rate above zero), the ones the comparison is made with:
-   * it needs `need` of those.
+   * it needs `need` of those; `others` how many other components the group holds at all (when known), so that a group
+   * too small ever to reach `need` says so.
    */
-  readonly peers?: Progress & { readonly measurable: number };
+  readonly peers?: Progress & { readonly measurable: number; readonly others?: number };
   /** Population measurands: results in the oil-hours band of the latest sample (other units, as of its sampling time). */
   readonly band?: Progress & { readonly name: string };
   /** Change detection judges against: the component's own baseline, its group's, or nothing yet. */
@@ -61,8 +62,9 @@ function hasNewOilValue(m: (typeof NEW_OIL_MEASURANDS)[number], settings: Compon
 /**
  * @param samples the component's samples in time order as the view holds them (a long history: its latest ones), the
  *   last being the latest sample; a wear metal read before them is still known from the fold's state.
+ * @param others how many other components the group holds now (GroupLedger `othersIn`); undefined when not known.
  */
-export function readinessOf(state: AnalysisState, settings: ComponentSettings, group: GroupStats | undefined, samples: readonly Sample[]): MeasurandReadiness[] {
+export function readinessOf(state: AnalysisState, settings: ComponentSettings, group: GroupStats | undefined, samples: readonly Sample[], others?: number): MeasurandReadiness[] {
   const out: MeasurandReadiness[] = [];
   const latest = samples.at(-1);
   const detection = settings.detection;
@@ -95,7 +97,7 @@ export function readinessOf(state: AnalysisState, settings: ComponentSettings, g
         // Only peers whose learnt rate is above zero are compared (on a log scale): a metal the group's units hardly
         // shed leaves fewer of them than have a baseline.
         const measurable = group?.baselines[m]?.peers?.components ?? 0;
-        peers = { have: Math.min(components, need), need, measurable: Math.min(measurable, components) };
+        peers = { have: Math.min(components, need), need, measurable: Math.min(measurable, components), ...(others !== undefined && { others }) };
       }
       parts.push(
         changeDetection === 'own baseline'
@@ -104,13 +106,18 @@ export function readinessOf(state: AnalysisState, settings: ComponentSettings, g
             ? `change detection against the group baseline (own baseline ${own.have} of ${own.need} intervals)`
             : restarted !== undefined
               ? `change detection waits: own baseline ${own.have} of ${own.need} intervals, learnt again since the word at sample ${restarted.sampleId} that its rate there is usual`
-              : `change detection waits: own baseline ${own.have} of ${own.need} intervals, group baseline ${groupBaseline.have} of ${groupBaseline.need} components`,
+              : `change detection waits: own baseline ${own.have} of ${own.need} intervals, group baseline ${groupBaseline.have} of ${groupBaseline.need} components${others !== undefined && others < groupBaseline.need ? ` (${holds(settings.group, others)})` : ''}`,
       );
       if (latest !== undefined && latest.oilHours === undefined && latest.unitHours === undefined) {
         needs.push('oil or unit hours');
         parts.push('no wear rate at the latest sample: it needs oil hours or unit hours');
       }
-      if (peers !== undefined && peers.have < peers.need) parts.push(`comparison with peers ${peers.have} of ${peers.need} components`);
+      if (peers !== undefined && peers.have < peers.need)
+        parts.push(
+          others !== undefined && others < peers.need
+            ? `comparison with peers: not made, ${holds(settings.group, others)} and it needs ${peers.need} with a complete own baseline; it waits for more units in the group (population.peers.minComponents)`
+            : `comparison with peers ${peers.have} of ${peers.need} components`,
+        );
       else if (peers !== undefined && peers.measurable < peers.need)
         parts.push(`comparison with peers: ${peers.measurable} of the ${components} other components with a baseline wear measurably (rate above zero), it needs ${peers.need}`);
     }
@@ -155,6 +162,11 @@ export function readinessOf(state: AnalysisState, settings: ComponentSettings, g
     });
   }
   return out;
+}
+
+/** "group X holds 3 other components so far". */
+function holds(group: string, others: number): string {
+  return `group ${group} holds ${others === 0 ? 'no' : `only ${others}`} other component${others === 1 ? '' : 's'} so far`;
 }
 
 /** Whether a rule cannot judge the measurand yet: change detection waits, its population band is short, or a rule lacks what it needs. */

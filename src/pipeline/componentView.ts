@@ -28,19 +28,22 @@ export async function componentView(store: ComponentStore, ledger: GroupLedger, 
   if (entry === undefined) return undefined;
   const settings = resolveSettings(config, entry);
   const stored = await store.samplesAfter(ref, null);
-  const stats = await ledger.asOfMonths(settings.group, stored.map((s) => monthOf(s.sample.time)), ref);
+  const [stats, others] = await Promise.all([ledger.asOfMonths(settings.group, stored.map((s) => monthOf(s.sample.time)), ref), ledger.othersIn(settings.group, ref)]);
   return viewOf(
     entry,
     settings,
     stored.map((s) => s.sample),
     (s) => stats.get(monthOf(s.time)),
     input?.marks ?? new Map(),
+    undefined,
+    others,
   );
 }
 
 /**
  * The view from its parts (pure): the history folded with the group statistics of each sample; with `start` (a stored
- * checkpoint's state) only the samples after it, which then give the steps the whole history gives.
+ * checkpoint's state) only the samples after it, which then give the steps the whole history gives. `others`: how many
+ * other components the group holds now, for the readiness lines (undefined: not known).
  */
 export function viewOf(
   entry: ComponentEntry,
@@ -49,9 +52,10 @@ export function viewOf(
   groupAt: (s: Sample) => GroupStats | undefined,
   marks: ReadonlyMap<string, SampleMark> = new Map(),
   start?: AnalysisState,
+  others?: number,
 ): ComponentView {
   const evaluation = evaluateComponent(samples, settings, groupAt, { marks, ...(start !== undefined && { start }) });
   const latest = evaluation.history.samples.at(-1);
   const group = latest === undefined ? undefined : groupAt(latest);
-  return { entry, settings, evaluation, group, readiness: readinessOf(evaluation.state, settings, group, evaluation.history.samples) };
+  return { entry, settings, evaluation, group, readiness: readinessOf(evaluation.state, settings, group, evaluation.history.samples, others) };
 }

@@ -222,4 +222,6 @@ export interface GroupLedger {
   touch(group: string, self: ComponentRef, horizon: number): Promise<void>;
   /** Components of the group evaluated up to `from` (epoch ms) or later. */
   membersAfter(group: string, from: number): Promise<ComponentRef[]>;
+  /** How many components other than `self` the group holds now (every component ever evaluated in it). */
+  othersIn(group: string, self: ComponentRef): Promise<number>;
 }

@@ -552,6 +552,18 @@ export class RedisStore implements ComponentStore, GroupLedger {
     return lists.flat().map((j) => JSON.parse(j) as ComponentRef);
   }
 
+  async othersIn(group: string, self: ComponentRef): Promise<number> {
+    const member = JSON.stringify({ unit: self.unit, component: self.component });
+    const counts = await Promise.all(
+      this.partitions.all().map(async (n) => {
+        const key = groupKeys(this.partitions.tag(n), group).horizons;
+        const [size, own] = await Promise.all([this.redis.zcard(key), this.redis.zscore(key, member)]);
+        return size - (own === null ? 0 : 1);
+      }),
+    );
+    return counts.reduce((a, b) => a + b, 0);
+  }
+
   /**
    * The component's own shares of its group's month buckets from month `from` ('' for all) up to, not including,
    * `to`, by month: the population shares of its winners and its baseline entries (what its commits added to the

@@ -27,7 +27,7 @@ export type ChartJobResult =
 
 export function runChartJob(job: ChartJob, sampleBudget: number): ChartJobResult {
   const { input } = job;
-  const view = viewOf(input.entry, input.settings, input.samples, (s) => input.groups.get(monthOf(s.time)), input.marks, input.start?.analysis);
+  const view = viewOf(input.entry, input.settings, input.samples, (s) => input.groups.get(monthOf(s.time)), input.marks, input.start?.analysis, input.others);
   const earlier = input.start?.samples ?? 0;
   if (job.kind === 'series') {
     const series = buildComponentSeries(view.evaluation, view.settings, view.group, job.measurands === undefined ? {} : { measurands: job.measurands });

@@ -19,6 +19,8 @@ export interface ComponentInput {
   /** Group statistics by sampling month ("2026-03"), as of that month. */
   readonly groups: ReadonlyMap<string, GroupStats | undefined>;
   readonly marks: ReadonlyMap<string, SampleMark>;
+  /** How many other components the group holds now (for the readiness lines); undefined when not known. */
+  readonly others?: number;
   /** Where the samples start when they are not the whole history: the analysis state after the earlier ones, and how many those are. */
   readonly start?: { readonly analysis: AnalysisState; readonly samples: number };
 }
@@ -38,8 +40,8 @@ export async function componentInput(store: ComponentStore, ledger: GroupLedger,
   const settings = resolveSettings(config, entry);
   const start = await viewStart(store, ref, input, options.latestSamples);
   const samples = (await store.samplesAfter(ref, start?.position ?? null)).map((s) => s.sample);
-  const groups: Map<string, GroupStats | undefined> = await ledger.asOfMonths(settings.group, samples.map((s) => monthOf(s.time)), ref);
-  return { entry, settings, samples, groups, marks: input?.marks ?? new Map(), ...(start !== undefined && { start: { analysis: start.analysis, samples: start.count } }) };
+  const [groups, others]: [Map<string, GroupStats | undefined>, number] = await Promise.all([ledger.asOfMonths(settings.group, samples.map((s) => monthOf(s.time)), ref), ledger.othersIn(settings.group, ref)]);
+  return { entry, settings, samples, groups, marks: input?.marks ?? new Map(), others, ...(start !== undefined && { start: { analysis: start.analysis, samples: start.count } }) };
 }
 
 /** The input from its parts, the group statistics given per sample (tests, fixtures). */

@@ -209,6 +209,10 @@ describe.each(implementations)('%s store', (_name, make) => {
     expect((await store.asOf(GROUP, '2025-01', { unit: 'U-1', component: 'gearbox' })).bands.Fe!.every((b) => b.n === 0)).toBe(true);
     // Evaluated up to March: all three are found when January changes.
     expect((await store.membersAfter(GROUP, Date.parse('2025-02-01T00:00:00Z'))).map((r) => r.unit).sort()).toEqual(['U-1', 'U-2', 'U-3']);
+    // How many others the group holds, for the readiness lines: a member does not count itself, a stranger counts all.
+    expect(await store.othersIn(GROUP, { unit: 'U-1', component: 'gearbox' })).toBe(2);
+    expect(await store.othersIn(GROUP, { unit: 'U-9', component: 'gearbox' })).toBe(3);
+    expect(await store.othersIn('no-such-group', { unit: 'U-1', component: 'gearbox' })).toBe(0);
   });
 
   it('replaces a sample\u2019s share when its revision or its standing changes, and takes it out when it is left out', async () => {

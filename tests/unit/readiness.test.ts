@@ -28,10 +28,10 @@ function samplesOf(n: number, fields: (i: number) => Record<string, unknown>): S
   });
 }
 
-function readiness(configText: string, samples: readonly Sample[], group?: GroupStats) {
+function readiness(configText: string, samples: readonly Sample[], group?: GroupStats, others?: number) {
   const settings = resolveSettings(parseConfig(configText), samples[0]!);
   const ev = evaluateComponent(samples, settings, group);
-  const rows = readinessOf(ev.state, settings, group, ev.history.samples);
+  const rows = readinessOf(ev.state, settings, group, ev.history.samples, others);
   return { rows, of: (m: string) => rows.find((r) => r.measurand === m) };
 }
 
@@ -138,6 +138,26 @@ describe('readiness', () => {
     const fe = of('Fe')!;
     expect(fe.peers).toEqual({ have: 0, need: 5, measurable: 0 });
     expect(fe.summary).toContain('comparison with peers 0 of 5 components');
+  });
+
+  it('says when the group holds too few other components ever to reach the group baseline or the comparison with peers', () => {
+    const samples = samplesOf(3, (i) => ({ oilHours: 250 * (i + 1), readings: { Fe: 5 + i * 4 } }));
+    // A group of four gearboxes: three others, the comparison needs five with a complete own baseline.
+    const small = readiness('', samples, undefined, 3).of('Fe')!;
+    expect(small.peers).toEqual({ have: 0, need: 5, measurable: 0, others: 3 });
+    expect(small.summary).toContain('comparison with peers: not made, group gearbox holds only 3 other components so far and it needs 5 with a complete own baseline');
+    expect(small.summary).not.toContain('comparison with peers 0 of 5 components');
+    // Enough others, none with a baseline yet: the count of those with one, as before.
+    const large = readiness('', samples, undefined, 8).of('Fe')!;
+    expect(large.summary).toContain('comparison with peers 0 of 5 components');
+    expect(large.summary).not.toContain('holds');
+    // Alone in its group: the group baseline can never form either, and the line says why.
+    const alone = readiness('', samples, undefined, 0).of('Fe')!;
+    expect(alone.summary).toContain('group baseline 0 of 2 components (group gearbox holds no other components so far)');
+    const one = readiness('', samples, undefined, 1).of('Fe')!;
+    expect(one.summary).toContain('group baseline 0 of 2 components (group gearbox holds only 1 other component so far)');
+    // Unknown (a caller that does not count): the lines of before.
+    expect(readiness('', samples).of('Fe')!.summary).toContain('group baseline 0 of 2 components;');
   });
 
   it('says change detection has no wear rate at a sample with neither oil nor unit hours', () => {

@@ -397,6 +397,11 @@ export class MemoryStore implements ComponentStore, GroupLedger {
     return [...(this.groups.get(group)?.horizons.values() ?? [])].filter((h) => h.time >= from).map((h) => h.ref);
   }
 
+  async othersIn(group: string, self: ComponentRef): Promise<number> {
+    const h = this.groups.get(group)?.horizons;
+    return h === undefined ? 0 : h.size - (h.has(componentKey(self)) ? 1 : 0);
+  }
+
   /** Every incident ever recorded (closed and withdrawn ones too), by id. */
   incidents(): Incident[] {
     return [...this.records.values()].sort((a, b) => (a.id < b.id ? -1 : a.id > b.id ? 1 : 0));
