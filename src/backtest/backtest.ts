@@ -5,7 +5,8 @@
 import type { Config } from '../domain/config.ts';
 import { annunciationReach, laterTierTargets, tierZeroResponders } from '../incidents/responders.ts';
 import type { SourceRecord } from '../intake/fileRecords.ts';
-import type { RejectedRecord } from '../pipeline/replay.ts';
+import type { RefusedVerdict, RejectedRecord } from '../pipeline/replay.ts';
+import type { SampleVerdictLine } from '../intake/sampleVerdictFile.ts';
 import { detectorParameters, withBudget, type BudgetText } from './parameters.ts';
 import { runBacktest, type BacktestRun } from './run.ts';
 import { buildBacktestSummary, type BacktestSummary } from './summary.ts';
@@ -28,6 +29,10 @@ export interface BacktestOptions {
   readonly now?: number;
   /** Told about each rejected record once (during the first run). */
   readonly onRejected?: (r: RejectedRecord) => void;
+  /** Responders' words on samples, given in every run as replay gives them (replay.ts). */
+  readonly sampleVerdicts?: readonly SampleVerdictLine[];
+  /** Told about each word a run refused, with the configuration's label. */
+  readonly onRefusedVerdict?: (r: RefusedVerdict, label: string) => void;
 }
 
 export interface Backtest {
@@ -45,6 +50,8 @@ export async function backtest(records: readonly SourceRecord[], options: Backte
       config,
       ...(options.now !== undefined && { now: options.now }),
       ...(i === 0 && options.onRejected !== undefined && { onRejected: options.onRejected }),
+      ...(options.sampleVerdicts !== undefined && { sampleVerdicts: options.sampleVerdicts }),
+      ...(options.onRefusedVerdict !== undefined && { onRefusedVerdict: (r: RefusedVerdict) => options.onRefusedVerdict!(r, c.label) }),
     });
     runs.push(run);
     inputs.push({
@@ -60,6 +67,12 @@ export async function backtest(records: readonly SourceRecord[], options: Backte
       },
     });
   }
-  const summary = buildBacktestSummary({ file: options.file, records: runs[0]!.records, rejected: runs[0]!.rejected, runs: inputs });
+  const summary = buildBacktestSummary({
+    file: options.file,
+    records: runs[0]!.records,
+    rejected: runs[0]!.rejected,
+    ...(options.sampleVerdicts !== undefined && { sampleVerdicts: { words: options.sampleVerdicts.length, refused: runs.map((r) => r.refusedVerdicts) } }),
+    runs: inputs,
+  });
   return { summary, runs };
 }

@@ -74,7 +74,8 @@ function lede(s: BacktestSummary): string {
   const span = s.fleet.from === null ? 'no samples' : `${day(s.fleet.from)} to ${day(s.fleet.to!)}`;
   const configs = s.runs.map((r) => r.configFile ?? 'built-in defaults').join(' vs ');
   const budget = s.runs[0]!.budget ? ` · budget ${s.runs[0]!.budget.text}` : '';
-  return `${s.fleet.components} components · ${s.fleet.samples} samples · ${span} · ${num(s.fleet.componentYears, 3)} component-years · ${s.records} records${s.rejected > 0 ? `, ${s.rejected} rejected` : ''} · configuration ${configs}${budget}`;
+  const words = s.sampleVerdicts === null ? '' : ` · ${s.sampleVerdicts.words} responders\u2019 words on samples${s.sampleVerdicts.refused.some((n) => n > 0) ? ` (refused: ${s.sampleVerdicts.refused.join(' vs ')})` : ''}`;
+  return `${s.fleet.components} components · ${s.fleet.samples} samples · ${span} · ${num(s.fleet.componentYears, 3)} component-years · ${s.records} records${s.rejected > 0 ? `, ${s.rejected} rejected` : ''}${words} · configuration ${configs}${budget}`;
 }
 
 function headline(s: BacktestSummary, r: RunSummary): string {

@@ -15,7 +15,8 @@ import type { ComponentSettings } from '../domain/settings.ts';
 import { describeState, type Incident } from '../incidents/model.ts';
 import type { SourceRecord } from '../intake/fileRecords.ts';
 import { componentView } from '../pipeline/componentView.ts';
-import { replayRecords, type RejectedRecord } from '../pipeline/replay.ts';
+import { replayRecords, type RefusedVerdict, type RejectedRecord } from '../pipeline/replay.ts';
+import type { SampleVerdictLine } from '../intake/sampleVerdictFile.ts';
 import type { IncidentRecord } from './summary.ts';
 
 export interface ComponentRun {
@@ -36,6 +37,8 @@ export interface ComponentRun {
 export interface BacktestRun {
   readonly records: number;
   readonly rejected: number;
+  /** Words of `sampleVerdicts` refused. */
+  readonly refusedVerdicts: number;
   readonly components: readonly ComponentRun[];
 }
 
@@ -44,12 +47,22 @@ export interface BacktestRunOptions {
   /** Processing time: a sample dated more than a day after it is rejected as lying in the future; nothing else depends on it. Default: now. */
   readonly now?: number;
   readonly onRejected?: (r: RejectedRecord) => void;
+  /** Responders' words on samples, given as replay gives them (replay.ts). */
+  readonly sampleVerdicts?: readonly SampleVerdictLine[];
+  readonly onRefusedVerdict?: (r: RefusedVerdict) => void;
 }
 
 export async function runBacktest(records: readonly SourceRecord[], options: BacktestRunOptions): Promise<BacktestRun> {
   const { config } = options;
   const now = options.now ?? Date.now();
-  const outcome = await replayRecords(records, { config, now, arrival: 'sampled', ...(options.onRejected !== undefined && { onRejected: options.onRejected }) });
+  const outcome = await replayRecords(records, {
+    config,
+    now,
+    arrival: 'sampled',
+    ...(options.onRejected !== undefined && { onRejected: options.onRejected }),
+    ...(options.sampleVerdicts !== undefined && { sampleVerdicts: options.sampleVerdicts }),
+    ...(options.onRefusedVerdict !== undefined && { onRefusedVerdict: options.onRefusedVerdict }),
+  });
   const store = outcome.store;
   // The incidents the final verdict holds (those a late result withdrew along the way are not production's).
   const incidents = new Map<string, IncidentRecord[]>();
@@ -75,7 +88,7 @@ export async function runBacktest(records: readonly SourceRecord[], options: Bac
       evaluation: view.evaluation,
     });
   }
-  return { records: outcome.records, rejected: outcome.rejected, components };
+  return { records: outcome.records, rejected: outcome.rejected, refusedVerdicts: outcome.refusedVerdicts, components };
 }
 
 function incidentRecord(inc: Incident): IncidentRecord {

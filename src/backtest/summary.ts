@@ -157,6 +157,12 @@ export interface BacktestSummary {
   readonly file: string;
   readonly records: number;
   readonly rejected: number;
+  /**
+   * With a file of responders' words (--sample-verdicts): how many words it holds, and per configuration how many of
+   * them its run refused (a sample that does not take the word under that configuration, or not in the history).
+   * Null without one: nobody's word is in the backtest.
+   */
+  readonly sampleVerdicts: { readonly words: number; readonly refused: readonly number[] } | null;
   readonly fleet: { readonly components: number; readonly samples: number; readonly componentYears: number; readonly from: string | null; readonly to: string | null };
   readonly components: readonly ComponentSpan[];
   readonly runs: readonly RunSummary[];
@@ -214,6 +220,7 @@ export interface SummaryInput {
   readonly file: string;
   readonly records: number;
   readonly rejected: number;
+  readonly sampleVerdicts?: BacktestSummary['sampleVerdicts'];
   readonly runs: readonly RunInput[];
 }
 
@@ -231,6 +238,7 @@ export function buildBacktestSummary(input: SummaryInput): BacktestSummary {
     file: input.file,
     records: input.records,
     rejected: input.rejected,
+    sampleVerdicts: input.sampleVerdicts ?? null,
     fleet: {
       components: components.length,
       samples: components.reduce((sum, c) => sum + c.samples, 0),

@@ -8,6 +8,7 @@ import type { FastifyPluginAsync, FastifyReply } from 'fastify';
 import { z } from 'zod';
 import { ADVISORY_CAUTION } from '../domain/caution.ts';
 import { InputError } from '../domain/errors.ts';
+import { ActorNameSchema } from '../domain/actorName.ts';
 import type { IncidentAction } from '../incidents/applyAction.ts';
 import { IncidentConflictError, IncidentNotFoundError } from '../incidents/errors.ts';
 import type { IncidentFilter } from '../incidents/listFilter.ts';
@@ -54,18 +55,7 @@ const SCAN_RETRY_AFTER_S = 1;
 // Control characters (ESC, CR, C1) and bidirectional overrides would act on a terminal that prints the history, or
 // make a line read differently from what it holds: refused, naming the field. Notes may hold line breaks and tabs.
 // eslint-disable-next-line no-control-regex
-const CONTROLS_IN_A_LINE = /[\u0000-\u001f\u007f-\u009f\u2028\u2029\u202a-\u202e\u2066-\u2069]/;
-// eslint-disable-next-line no-control-regex
 const CONTROLS_IN_TEXT = /[\u0000-\u0008\u000b-\u001f\u007f-\u009f\u2028\u2029\u202a-\u202e\u2066-\u2069]/;
-/** Who acts: one line of at most 80 characters, no control characters (the sample-verdict route takes the same). */
-export const ActorNameSchema = z
-  .string()
-  .trim()
-  .normalize('NFKC')
-  .min(1, 'required')
-  .max(80, 'at most 80 characters')
-  .refine((s) => !CONTROLS_IN_A_LINE.test(s), 'must be one line without control characters')
-  .describe('Who acts.');
 const by = ActorNameSchema;
 const text = (max: number) =>
   z

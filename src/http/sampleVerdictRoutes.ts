@@ -19,7 +19,7 @@ import { z } from 'zod';
 import type { SampleMark } from '../analysis/model.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
 import { requireRole, type AccessTokens } from './auth.ts';
-import { ActorNameSchema } from './incidentRoutes.ts';
+import { ActorNameSchema } from '../domain/actorName.ts';
 
 /**
  * What the route needs: stores the mark, records who gave it (`by`) in the timelines of the incidents concerned and

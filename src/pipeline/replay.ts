@@ -6,16 +6,22 @@
  * store it hands back holds the
  * final state (histories, incidents), which depends only on the set of records and on when each arrived (`arrival`):
  * a result older than backfill.quietAfterDays when it arrives is quiet backfill, and an incident only ever seen in
- * quiet backfill closes on its return to normal, so that a later finding opens a new one.
+ * quiet backfill closes on its return to normal, so that a later finding opens a new one. Responders' words on samples
+ * (`sampleVerdicts`) are given as the live store takes them, each once the file has brought its sample.
  */
-import type { Step } from '../analysis/model.ts';
+import type { SampleMark, Step } from '../analysis/model.ts';
 import type { Config } from '../domain/config.ts';
-import type { FieldIssue } from '../domain/event.ts';
+import type { FieldIssue, Sample } from '../domain/event.ts';
 import { findingKey, type Finding } from '../domain/finding.ts';
 import { incidentRules } from '../incidents/policy.ts';
 import type { NotifiedEntry, TimelineEntry } from '../incidents/model.ts';
 import type { SourceRecord } from '../intake/fileRecords.ts';
 import type { EvaluationDeps } from './evaluateStored.ts';
+import type { EvaluationResult } from './evaluationResult.ts';
+import type { IncidentChange } from './incidentChanges.ts';
+import type { ComponentRef } from './ports.ts';
+import { wordRefusal } from './wordRefusal.ts';
+import type { SampleVerdictLine } from '../intake/sampleVerdictFile.ts';
 import { MemoryStore } from './memory/memoryStore.ts';
 import { settleComponent } from './settleComponent.ts';
 import { InvalidResultError, storeResult, storeSample, type StoredResult } from './storeResult.ts';
@@ -81,12 +87,45 @@ export interface ReplayOptions {
   readonly arrival?: Arrival;
   /** Told about each rejected record as it is met. */
   readonly onRejected?: (r: RejectedRecord) => void;
+  /**
+   * Responders' words on samples (a file of them, intake/sampleVerdictFile.ts), each given as the API takes it once the
+   * file has brought the sample that was the component's latest when it was given (its `after`, else its own sample;
+   * several waiting for one sample in the file's order): refused where the sample does not take it then
+   * (wordRefusal.ts), else stored with the component, written into the timelines of the incidents that hold the sample,
+   * and the component judged again from that sample on. So the findings, incidents and timelines are the live store's
+   * after the same results and the same words given at the same points of the history. A word whose `after` never
+   * comes is given after the last record; one on a sample the file never brings is refused.
+   */
+  readonly sampleVerdicts?: readonly SampleVerdictLine[];
+  /** Told about each word refused: its sample is not in the records, or does not take it (pipeline/wordRefusal.ts). */
+  readonly onRefusedVerdict?: (r: RefusedVerdict) => void;
 }
+
+/** A word of the file that was not given, and why. */
+export interface RefusedVerdict {
+  readonly line: number;
+  readonly unit: string;
+  readonly component: string;
+  readonly sampleId: string;
+  readonly verdict: SampleMark;
+  readonly reason: string;
+}
+
+/** Who a word without `by` is from, in the timelines. */
+export const WORD_FROM_FILE = 'a file of sample verdicts';
+
+const REFUSAL_TEXT = {
+  unknown: 'no such sample among the records',
+  'no-rise': 'no rise of a wear rate is signalled there (EWMA or CUSUM), so it takes no word on a usual rate',
+  'not-in-doubt': 'the sample is not in doubt (no sampling finding questioned it), so it takes no verdict',
+} as const;
 
 export interface ReplayOutcome {
   readonly timeline: TimelineLine[];
   readonly records: number;
   readonly rejected: number;
+  /** Words of `sampleVerdicts` refused (see onRefusedVerdict). */
+  readonly refusedVerdicts: number;
   /** The final state. */
   readonly store: MemoryStore;
 }
@@ -108,6 +147,64 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
   const reject = (r: RejectedRecord) => {
     rejected += 1;
     options.onRejected?.(r);
+  };
+  const pushChanges = (key: number, changes: readonly IncidentChange[]) => {
+    for (const c of changes) {
+      // A notified entry's own `type` (the message's event type) travels as `event`: `type` names the line.
+      const { kind, ...withType } = c.entry;
+      const { type: event, ...entry } = withType as typeof withType & { type?: string };
+      keyed.push({
+        key,
+        line: {
+          type: 'incident',
+          incidentId: c.incidentId,
+          unit: c.unit,
+          component: c.component,
+          ...entry,
+          ...(event !== undefined && { event }),
+          // A finding entry has a `change` of its own (raised, severity-changed, cleared): it moves aside for the kind.
+          ...('change' in entry && { findingChange: entry.change }),
+          change: kind,
+          incidentState: c.state,
+          // Closed because its evidence was set aside (withdrawn, a sample verdict): nothing of it stands, as every
+          // other view says; the severity last told goes beside it.
+          ...(setAsideClosing(c.closed?.how) ? { incidentSeverity: NO_SEVERITY, lastAnnouncedSeverity: c.severity } : { incidentSeverity: c.severity }),
+        } as IncidentLine,
+      });
+    }
+  };
+  const onEvaluated = (result: Extract<EvaluationResult, { kind: 'evaluated' }>, ref: ComponentRef) => {
+    for (const step of result.steps) judge(judged, ref.unit, ref.component, step);
+    pushChanges(Math.max(...result.steps.map((s) => Date.parse(s.sampledAt))), result.changes);
+  };
+  // The words by the sample they wait for (`after`, else their own), each given once the file has brought it.
+  const keyOf = (unit: string, component: string, sampleId: string) => JSON.stringify([unit, component, sampleId]);
+  const pending = new Map<string, SampleVerdictLine[]>();
+  for (const w of options.sampleVerdicts ?? []) {
+    const key = keyOf(w.unit, w.component, w.after ?? w.sampleId);
+    pending.set(key, [...(pending.get(key) ?? []), w]);
+  }
+  let refusedVerdicts = 0;
+  const refuse = (word: SampleVerdictLine, why: keyof typeof REFUSAL_TEXT) => {
+    refusedVerdicts += 1;
+    options.onRefusedVerdict?.({ line: word.line, unit: word.unit, component: word.component, sampleId: word.sampleId, verdict: word.verdict, reason: REFUSAL_TEXT[why] });
+  };
+  const give = async (word: SampleVerdictLine) => {
+    const ref = { unit: word.unit, component: word.component };
+    const sample = (await store.revisions(ref)).find((r) => r.sample.sampleId === word.sampleId)?.sample;
+    const refusal = sample === undefined ? 'unknown' : wordRefusal((await store.findings(ref)).find((r) => r.sampleId === word.sampleId), word.verdict);
+    if (refusal !== undefined) return refuse(word, refusal);
+    await store.markSample(ref, word.sampleId, word.verdict);
+    const at = word.at !== undefined ? new Date(word.at) : new Date(Number.isFinite(clock) ? clock : now);
+    pushChanges(sample!.time, await store.recordSampleVerdict(ref, { sampleId: word.sampleId, verdict: word.verdict, by: word.by ?? WORD_FROM_FILE, now: at }, deps.rules));
+    await settleComponent(deps, ref, onEvaluated);
+  };
+  const giveWaiting = async (sample: Sample) => {
+    const key = keyOf(sample.unit, sample.component, sample.sampleId);
+    const words = pending.get(key);
+    if (words === undefined) return;
+    pending.delete(key);
+    for (const word of words) await give(word);
   };
   const quietBefore = now - config.backfill.quietAfterDays * DAY_MS;
   // Which line first held each result, to name it when the store refuses a later one with other content.
@@ -136,35 +233,11 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
       continue;
     }
     if (live) clock = Math.max(clock, stored.sample.time);
-    if (!stored.outcome.evaluationDue) continue;
-    await settleComponent(deps, stored.sample, (result, ref) => {
-      const key = Math.max(...result.steps.map((s) => Date.parse(s.sampledAt)));
-      for (const step of result.steps) judge(judged, ref.unit, ref.component, step);
-      for (const c of result.changes) {
-        // A notified entry's own `type` (the message's event type) travels as `event`: `type` names the line.
-        const { kind, ...withType } = c.entry;
-        const { type: event, ...entry } = withType as typeof withType & { type?: string };
-        keyed.push({
-          key,
-          line: {
-            type: 'incident',
-            incidentId: c.incidentId,
-            unit: c.unit,
-            component: c.component,
-            ...entry,
-            ...(event !== undefined && { event }),
-            // A finding entry has a `change` of its own (raised, severity-changed, cleared): it moves aside for the kind.
-            ...('change' in entry && { findingChange: entry.change }),
-            change: kind,
-            incidentState: c.state,
-            // Closed because its evidence was set aside (withdrawn, a sample verdict): nothing of it stands, as every
-            // other view says; the severity last told goes beside it.
-            ...(setAsideClosing(c.closed?.how) ? { incidentSeverity: NO_SEVERITY, lastAnnouncedSeverity: c.severity } : { incidentSeverity: c.severity }),
-          } as IncidentLine,
-        });
-      }
-    });
+    if (stored.outcome.evaluationDue) await settleComponent(deps, stored.sample, onEvaluated);
+    await giveWaiting(stored.sample);
   }
+  // Words whose `after` sample never came: given now, in the file's order (refused if their own sample never came either).
+  for (const word of [...pending.values()].flat().sort((a, b) => a.line - b.line)) await give(word);
   for (const { findings, revised } of judged.values()) {
     for (const f of findings) {
       const at = Date.parse(f.sampledAt);
@@ -175,7 +248,7 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
   // is stable: otherwise lines of one instant keep the order they were produced in.
   const rank = (l: TimelineLine) => (l.type === 'finding' ? 0 : 1);
   const timeline = keyed.sort((a, b) => a.key - b.key || rank(a.line) - rank(b.line)).map((k) => k.line);
-  return { timeline, records: count, rejected, store };
+  return { timeline, records: count, rejected, refusedVerdicts, store };
 }
 
 /** Validates a record by the processing time (dates in the future) and stores it as received at its own sampling time. */

@@ -18,6 +18,7 @@ import type { Incident } from '../incidents/model.ts';
 import type { SampleVerdictWord } from '../incidents/sampleVerdict.ts';
 import { incidentLiveEvent, type LiveEvent } from '../pipeline/liveEvent.ts';
 import type { ComponentRef, ComponentStore } from '../pipeline/ports.ts';
+import { wordRefusal } from '../pipeline/wordRefusal.ts';
 import type { Partitions } from '../redis/keys.ts';
 import { scheduleEvaluation } from './queues.ts';
 
@@ -53,14 +54,10 @@ export class SampleVerdicts {
    */
   async mark(ref: ComponentRef, sampleId: string, mark: SampleMark | null, by: string): Promise<VerdictOutcome> {
     if (mark !== null) {
-      const record = (await this.store.findings(ref)).find((r) => r.sampleId === sampleId);
-      const admitted =
-        mark === 'usual-rate'
-          ? record !== undefined && record.findings.some((f) => (f.rule === 'ewma' || f.rule === 'cusum') && f.direction === 'up')
-          : record !== undefined && (record.status !== undefined || record.findings.some((f) => f.rule === 'sampling'));
-      if (!admitted) {
+      const refusal = wordRefusal((await this.store.findings(ref)).find((r) => r.sampleId === sampleId), mark);
+      if (refusal !== undefined) {
         const known = (await this.store.revisions(ref)).some((r) => r.sample.sampleId === sampleId);
-        return !known ? 'unknown' : mark === 'usual-rate' ? 'no-rise' : 'not-in-doubt';
+        return known ? refusal : 'unknown';
       }
     }
     const known = await this.store.markSample(ref, sampleId, mark);

@@ -27,6 +27,7 @@ import { IncidentFilterSchema } from '../../src/incidents/listFilter.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { drained } from '../helpers/queueDrain.ts';
+import { replayVerdictRows, storedVerdictRows, type VerdictRow } from '../helpers/incidentVerdict.ts';
 import { runCliInProcess } from '../helpers/cliInProcess.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 import { accessTokensFromEnv } from '../../src/runtime/accessTokensFromEnv.ts';
@@ -36,12 +37,13 @@ const tokenEnv: NodeJS.ProcessEnv = {};
 
 const RESPONDER = 'resp-verdict-51c2';
 const VIEWER = 'view-verdict-77aa';
-const config = parseConfig(`
+const CONFIG_TEXT = `
 detection: { measurands: [Fe, Cu], runningInHours: 0, baselineIntervals: 4 }
 groups:
   - name: pump-gearboxes
     match: { component: gearbox }
-`);
+`;
+const config = parseConfig(CONFIG_TEXT);
 const prefix = '{verdict}';
 const ref = { unit: 'PS7-P1', component: 'gearbox' };
 
@@ -286,5 +288,106 @@ describe('a responder says a signalled rate is the usual one', () => {
     await drained(queues, 120_000);
     expect(await risesAfter(16)).toEqual(['R-17', 'R-18', 'R-19', 'R-20', 'R-21', 'R-22']);
     expect((await record(watch)).alarm).toBe('active');
+  });
+});
+
+describe('the words a live store holds, given to replay', () => {
+  const drive = { unit: 'PS7-D1', component: 'drive' };
+  /** Iron gains 6 ppm per 250 h up to D-6, then 10 ppm; D-17 is a bottle of new oil sent in the middle of the charge. */
+  const reading = (i: number) => ({
+    sampleId: `D-${i}`,
+    ...drive,
+    sampledAt: new Date(Date.UTC(2026, 0, 1 + i * 10, 8)).toISOString(),
+    unitHours: 1000 + i * 250,
+    oilHours: i * 250,
+    readings: i === 17 ? { Fe: 1, Cu: '<1', Ca: 2400, Zn: 1100, P: 950, Si: 4 } : { Fe: i <= 6 ? 8 + 6 * i : 44 + 10 * (i - 6), Cu: 2 + i * 0.5, Ca: 2400, Zn: 1100, P: 950, Si: 4 },
+  });
+  const postOn = (sampleId: string, body: unknown) =>
+    fetch(`${base}/v1/units/${drive.unit}/components/${drive.component}/samples/${sampleId}/verdict`, {
+      method: 'POST',
+      headers: { authorization: `Bearer ${RESPONDER}`, 'content-type': 'application/json' },
+      body: JSON.stringify(body),
+    });
+  const mine = (rows: VerdictRow[]) => rows.filter((r) => r.incidentId.startsWith(`${drive.unit}/`));
+
+  it('exported with `wearshift sample-verdicts`, give replay the live verdict; without them replay differs', { timeout: 300_000 }, async () => {
+    const events = Array.from({ length: 20 }, (_, k) => reading(k + 1));
+    const feed = async (from: number, to: number) => {
+      const outcomes = await producer.add(events.slice(from - 1, to));
+      expect(outcomes.filter((o) => o.status !== 'accepted')).toEqual([]);
+      await drained(queues, 120_000);
+    };
+    await feed(1, 16);
+    const rises = (await store.findings(drive)).filter((r) => r.findings.some((f) => (f.rule === 'cusum' || f.rule === 'ewma') && f.direction === 'up')).map((r) => r.sampleId);
+    expect(rises.length).toBeGreaterThan(0);
+    expect((await postOn(rises.at(-1)!, { verdict: 'usual-rate', by: 'reliability engineer' })).status).toBe(202);
+    await drained(queues, 120_000);
+    await feed(17, 20);
+    expect((await store.findings(drive)).find((r) => r.sampleId === 'D-17')?.status).toBe('in-doubt');
+    expect((await postOn('D-17', { verdict: 'rejected', by: 'lab desk' })).status).toBe(202);
+    await drained(queues, 120_000);
+
+    const exported = await runCliInProcess(['sample-verdicts', '--config', join(dir, 'site.yaml')], { REDIS_URL: redis.url });
+    expect(exported.code).toBe(0);
+    const words = exported.out.trim().split('\n').map((l) => JSON.parse(l) as Record<string, string>).filter((w) => w.unit === drive.unit);
+    // In the order given, each with who gave it and when (the times the API's clock gave).
+    // `after`: the latest sample when the word was given, where replay gives it.
+    expect(words.map(({ sampleId, verdict, by, after }) => ({ sampleId, verdict, by, after }))).toEqual([
+      { sampleId: rises.at(-1), verdict: 'usual-rate', by: 'reliability engineer', after: 'D-16' },
+      { sampleId: 'D-17', verdict: 'rejected', by: 'lab desk', after: 'D-20' },
+    ]);
+    expect(words.every((w) => verdictTimes.includes(w.at!))).toBe(true);
+
+    const results = join(dir, 'drive.jsonl');
+    const wordsFile = join(dir, 'words.jsonl');
+    const replayConfig = join(dir, 'replay.yaml');
+    writeFileSync(results, events.map((e) => JSON.stringify(e)).join('\n') + '\n');
+    writeFileSync(wordsFile, words.map((w) => JSON.stringify(w)).join('\n') + '\n');
+    writeFileSync(replayConfig, CONFIG_TEXT);
+    const live = mine(await storedVerdictRows(incidents, { withoutWithdrawn: true }));
+    expect(live.some((r) => r.closed === 'sample-verdict')).toBe(true);
+
+    const withWords = await runCliInProcess(['replay', results, '--config', replayConfig, '--json', '--sample-verdicts', wordsFile]);
+    expect(withWords.code).toBe(0);
+    expect(mine(replayVerdictRows(withWords.out))).toEqual(live);
+    // The words are in the replayed timeline, with who gave them and when.
+    const lines = withWords.out.trim().split('\n').map((l) => JSON.parse(l) as Record<string, unknown>);
+    expect(lines.filter((l) => l.change === 'sample-verdict').map((l) => `${l.sampleId} ${l.verdict} ${l.by} ${l.at}`)).toEqual(
+      expect.arrayContaining(words.map((w) => `${w.sampleId} ${w.verdict} ${w.by} ${w.at}`)),
+    );
+
+    const without = await runCliInProcess(['replay', results, '--config', replayConfig, '--json']);
+    expect(mine(replayVerdictRows(without.out))).not.toEqual(live);
+
+    // The backtest takes the same words: the sampling incident the rejected bottle opened is closed by the word there too.
+    type Summary = { sampleVerdicts: unknown; runs: { episodes: { incidentId: string; state: string }[] }[] };
+    const backtested = async (...extra: string[]) => {
+      const run = await runCliInProcess(['backtest', results, '--config', replayConfig, '--json', ...extra]);
+      expect(run.code).toBe(0);
+      return JSON.parse(run.out) as Summary;
+    };
+    const [withTheWords, withoutWords] = [await backtested('--sample-verdicts', wordsFile), await backtested()];
+    expect(withTheWords.sampleVerdicts).toEqual({ words: 2, refused: [0] });
+    expect(withoutWords.sampleVerdicts).toBeNull();
+    const bottleEpisode = (s: Summary) => s.runs[0]!.episodes.find((e) => e.incidentId === 'PS7-D1/drive/sampling@D-17')?.state;
+    expect(bottleEpisode(withTheWords)).toBe('closed');
+    expect(bottleEpisode(withoutWords)).not.toBe('closed');
+
+    // A word its sample does not take is named and not given: exit code 1, the rest replayed.
+    writeFileSync(wordsFile, [...words, { ...drive, sampleId: 'D-3', verdict: 'confirmed' }, { ...drive, sampleId: 'D-99', verdict: 'rejected' }].map((w) => JSON.stringify(w)).join('\n'));
+    const refused = await runCliInProcess(['replay', results, '--config', replayConfig, '--json', '--sample-verdicts', wordsFile]);
+    expect(refused.code).toBe(1);
+    const refusals = refused.out.trim().split('\n').map((l) => JSON.parse(l) as Record<string, unknown>).filter((l) => l.type === 'refused-verdict');
+    expect(refusals).toEqual([
+      { type: 'refused-verdict', line: 3, ...drive, sampleId: 'D-3', verdict: 'confirmed', reason: expect.stringContaining('not in doubt') },
+      { type: 'refused-verdict', line: 4, ...drive, sampleId: 'D-99', verdict: 'rejected', reason: expect.stringContaining('no such sample') },
+    ]);
+    expect(mine(replayVerdictRows(refused.out))).toEqual(live);
+
+    // A line that is not a word: named by file, line, field and reason, and nothing is replayed.
+    writeFileSync(wordsFile, `${JSON.stringify(words[0])}\n{"unit":"PS7-D1","component":"drive","sampleId":"D-17","verdict":"maybe"}\n`);
+    const bad = await runCliInProcess(['replay', results, '--config', replayConfig, '--json', '--sample-verdicts', wordsFile]);
+    expect(bad.code).toBe(2);
+    expect(bad.out).toBe('');
   });
 });

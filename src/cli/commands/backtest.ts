@@ -15,7 +15,9 @@ import { MIN_COMPONENT_YEARS, type BacktestSummary } from '../../backtest/summar
 import { loadConfig } from '../../runtime/loadConfig.ts';
 import { InputError } from '../../domain/errors.ts';
 import { formatOf, readRecordFile, type SourceRecord } from '../../intake/fileRecords.ts';
-import type { RejectedRecord } from '../../pipeline/replay.ts';
+import type { RefusedVerdict, RejectedRecord } from '../../pipeline/replay.ts';
+import { readSampleVerdictFile } from '../../intake/sampleVerdictFile.ts';
+import { terminalText } from '../terminalText.ts';
 import { ADVISORY_LINE, processingTime, writeJsonLine } from '../output.ts';
 
 interface BacktestCommandOptions {
@@ -26,6 +28,7 @@ interface BacktestCommandOptions {
   out?: string;
   json?: boolean;
   now?: string;
+  sampleVerdicts?: string;
 }
 
 const HELP = `
@@ -45,8 +48,12 @@ the later tiers are listed apart with what they would hear of if nobody acknowle
 --budget "A per component per Y years" replaces the configured false-alarm budget (alarms and period; the sample
 interval and hours per year stay as configured) in every configuration; the report shows the h and L it gives and the
 "wearshift design" commands that print the same numbers.
+--sample-verdicts FILE gives responders' words on samples (JSON lines as \`wearshift sample-verdicts\` writes them from
+the live store) in every configuration, each as the API takes it once the history has brought its sample: a word a configuration's run
+refuses (its sample does not take it there) is named on stderr, and the summary counts them (sampleVerdicts).
 --json prints the summary as one JSON object; the HTML embeds the same object in <script id="summary">.
-Give --out, --json or both. Exit code 1 when records were rejected (the rest is still backtested), 2 on bad input.`;
+Give --out, --json or both. Exit code 1 when records were rejected or words refused (the rest is still backtested), 2 on
+bad input (a line of --sample-verdicts that is not a word: nothing is backtested).`;
 
 export function registerBacktest(program: Command): void {
   program
@@ -56,6 +63,7 @@ export function registerBacktest(program: Command): void {
     .option('--format <format>', 'csv or jsonl (default: from the file name)')
     .option('--budget <text>', 'false-alarm budget to design h and L from, e.g. "1 per component per 3 years"')
     .option('--compare <file>', 'a second configuration, backtested on the same history and shown side by side')
+    .option('--sample-verdicts <file>', "responders' words on samples, JSON lines as `wearshift sample-verdicts` writes them (below)")
     .option('--out <file>', 'write the HTML report here')
     .option('--json', 'print the summary as one JSON object')
     .option('--now <time>', 'processing time, ISO 8601 with a time zone (e.g. 2027-01-01T00:00:00Z): samples dated more than a day after it are rejected as lying in the future; nothing else depends on it (default: now)')
@@ -66,6 +74,7 @@ export function registerBacktest(program: Command): void {
       const now = processingTime(opts.now);
       const budget = opts.budget === undefined ? undefined : readBudget(opts.budget);
       const configurations = configurationsOf(opts);
+      const sampleVerdicts = opts.sampleVerdicts === undefined ? undefined : readSampleVerdictFile(opts.sampleVerdicts);
       const records = await readAll(file, format);
       const { summary, runs } = await backtest(records, {
         file,
@@ -73,6 +82,11 @@ export function registerBacktest(program: Command): void {
         now,
         ...(budget !== undefined && { budget }),
         onRejected: reportRejected,
+        ...(sampleVerdicts !== undefined && {
+          sampleVerdicts,
+          onRefusedVerdict: (r: RefusedVerdict, label: string) =>
+            process.stderr.write(terminalText(`${opts.sampleVerdicts}:${r.line}: ${r.verdict} on sample ${r.sampleId} of ${r.unit}/${r.component} not given with ${label}: ${r.reason}\n`)),
+        }),
       });
       if (summary.fleet.components === 0) throw new InputError(`${file}: no valid result record to backtest (${summary.records} records, ${summary.rejected} rejected)`);
       if (opts.out !== undefined) {
@@ -85,7 +99,7 @@ export function registerBacktest(program: Command): void {
       }
       if (opts.json) writeJsonLine(summary);
       else process.stdout.write(readable(summary, opts.out));
-      process.exitCode = summary.rejected > 0 ? 1 : 0;
+      process.exitCode = summary.rejected > 0 || (summary.sampleVerdicts?.refused.some((n) => n > 0) ?? false) ? 1 : 0;
     });
 }
 

@@ -8,7 +8,8 @@ import type { Command } from 'commander';
 import { loadConfig } from '../../runtime/loadConfig.ts';
 import { InputError } from '../../domain/errors.ts';
 import { formatOf, readRecordFile } from '../../intake/fileRecords.ts';
-import { replayRecords, type RejectedRecord, type TimelineLine } from '../../pipeline/replay.ts';
+import { replayRecords, type RefusedVerdict, type RejectedRecord, type TimelineLine } from '../../pipeline/replay.ts';
+import { readSampleVerdictFile } from '../../intake/sampleVerdictFile.ts';
 import { ADVISORY_LINE, processingTime, writeJsonLine } from '../output.ts';
 import { FORECAST_CAUTION } from '../../domain/caution.ts';
 import { formatTime, timeZoneNote } from '../../notify/format.ts';
@@ -26,6 +27,7 @@ interface ReplayCommandOptions {
   format?: string;
   json?: boolean;
   now?: string;
+  sampleVerdicts?: string;
 }
 
 export function registerReplay(program: Command): void {
@@ -38,13 +40,19 @@ export function registerReplay(program: Command): void {
       '--now <time>',
       'processing time, ISO 8601 with a time zone, e.g. 2026-02-01T12:00:00Z (default: now): every record arrives at it, as when the file is imported then, so a result sampled more than backfill.quietAfterDays before it is quiet backfill (nobody told, and an incident only seen so closes on its return to normal); a sample dated more than a day after it is rejected as lying in the future',
     )
-    .option('--json', 'JSON lines, one object each, told apart by "type": rejected, finding, incident, verdict, readiness (below)')
+    .option(
+      '--sample-verdicts <file>',
+      "responders' words on samples, JSON lines as `wearshift sample-verdicts` writes them from the live store ({unit, component, sampleId, verdict: confirmed | rejected | usual-rate, by?, at?}): each given as the API takes it once the history has brought its sample (right after that record), so the verdict is the live store's after the same results and words",
+    )
+    .option('--json', 'JSON lines, one object each, told apart by "type": rejected, refused-verdict, finding, incident, verdict, readiness (below)')
     .addHelpText(
       'after',
       [
         '',
         'With --json, one JSON object per line, in this order:',
         '  {"type":"rejected",...}   a record refused, as it is read: line, sampleId, errors [{path, reason}]',
+        '  {"type":"refused-verdict",...}  a word of --sample-verdicts not given: line, unit, component, sampleId,',
+        '                            verdict, reason (no such sample, or the sample does not take it)',
         '  {"type":"finding",...}    a finding of a sample as its last judgement gives it, once: unit, component,',
         '                            measurand, rule, check (of a sampling finding), severity, disposition,',
         '                            sampleId, sampledAt, explanation, quiet (the measurand only files a sampling',
@@ -62,20 +70,28 @@ export function registerReplay(program: Command): void {
         '                            incidentId, kind, state, severity, peakSeverity, evidence, closed, the',
         '                            time-to-limit forecast of an open one, and the caution as "advisory"',
         '  {"type":"readiness",...}  per component, what it cannot judge yet: unit, component, measurands',
-        'Exit code 1 when a record was rejected (the others are still replayed), 2 for a usage or input error.',
+        'Exit code 1 when a record was rejected or a word refused (the others are still replayed), 2 for a usage or',
+        'input error (a line of --sample-verdicts that is not a word: nothing is replayed).',
       ].join('\n'),
     )
     .action(async (file: string, opts: ReplayCommandOptions) => {
       const format = formatOf(file, opts.format);
       const now = processingTime(opts.now);
       const config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
+      const sampleVerdicts = opts.sampleVerdicts === undefined ? [] : readSampleVerdictFile(opts.sampleVerdicts);
       const { records, stream } = readRecordFile(file, format);
       const opened = new Promise<void>((resolve, reject) => {
         stream.once('open', () => resolve());
         stream.once('error', (e) => reject(new InputError(`${file}: ${e.message}`)));
       });
       await opened;
-      const outcome = await replayRecords(records, { config, now, onRejected: (r) => reportRejected(r, Boolean(opts.json)) });
+      const outcome = await replayRecords(records, {
+        config,
+        now,
+        sampleVerdicts,
+        onRejected: (r) => reportRejected(r, Boolean(opts.json)),
+        onRefusedVerdict: (r) => reportRefusedVerdict(r, opts.sampleVerdicts!, Boolean(opts.json)),
+      });
       const zone = config.display.timeZone;
       for (const line of outcome.timeline) {
         if (opts.json) writeJsonLine(line);
@@ -99,8 +115,11 @@ export function registerReplay(program: Command): void {
         if (waiting.length > 0) process.stdout.write(terminalText(`\nnot judged yet:\n${waiting.join('\n')}\n`));
         process.stdout.write(`\n${timeZoneNote(zone)}\n${ADVISORY_LINE}\n`);
       }
-      if (!opts.json) process.stderr.write(terminalText(`${file}: ${outcome.records} records, ${outcome.rejected} rejected, ${outcome.timeline.length} timeline lines\n`));
-      process.exitCode = outcome.rejected > 0 ? 1 : 0;
+      if (!opts.json) {
+        const words = opts.sampleVerdicts === undefined ? '' : `, ${sampleVerdicts.length - outcome.refusedVerdicts} of ${sampleVerdicts.length} sample verdicts given`;
+        process.stderr.write(terminalText(`${file}: ${outcome.records} records, ${outcome.rejected} rejected${words}, ${outcome.timeline.length} timeline lines\n`));
+      }
+      process.exitCode = outcome.rejected > 0 || outcome.refusedVerdicts > 0 ? 1 : 0;
     });
 }
 
@@ -134,6 +153,11 @@ async function readinessLines(store: MemoryStore, config: Config) {
     if (view !== undefined) out.push({ type: 'readiness' as const, unit: c.unit, component: c.component, measurands: view.readiness });
   }
   return out;
+}
+
+function reportRefusedVerdict(r: RefusedVerdict, file: string, json: boolean): void {
+  if (json) return writeJsonLine({ type: 'refused-verdict', ...r });
+  process.stderr.write(terminalText(`${file}:${r.line}: ${r.verdict} on sample ${r.sampleId} of ${r.unit}/${r.component} not given: ${r.reason}\n`));
 }
 
 function reportRejected(r: RejectedRecord, json: boolean): void {

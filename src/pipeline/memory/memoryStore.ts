@@ -11,7 +11,10 @@ import { resolveSettings } from '../../domain/settings.ts';
 import { ConfigSchema, type Config } from '../../domain/config.ts';
 import { emptyComponentIncidents, type ComponentIncidents, type Incident, type IncidentEffect, type StepPosition } from '../../incidents/model.ts';
 import { comparePosition, positionOf } from '../../incidents/verdict.ts';
+import type { IncidentRules } from '../../incidents/policy.ts';
+import { applySampleVerdict, type SampleVerdictWord } from '../../incidents/sampleVerdict.ts';
 import { canonicalSampleJson } from '../canonicalSample.ts';
+import { incidentChanges, type IncidentChange } from '../incidentChanges.ts';
 import {
   addBaseline,
   addPopulation,
@@ -400,6 +403,25 @@ export class MemoryStore implements ComponentStore, GroupLedger {
   async othersIn(group: string, self: ComponentRef): Promise<number> {
     const h = this.groups.get(group)?.horizons;
     return h === undefined ? 0 : h.size - (h.has(componentKey(self)) ? 1 : 0);
+  }
+
+  /**
+   * A responder's word on a sample in the timelines of the component's incidents that hold the sample, as the Redis
+   * incident store records it (RedisIncidents `recordSampleVerdict`); returns what that changed in their timelines.
+   */
+  async recordSampleVerdict(ref: ComponentRef, word: SampleVerdictWord, rules: IncidentRules): Promise<IncidentChange[]> {
+    const c = this.byKey.get(componentKey(ref));
+    if (c === undefined) return [];
+    const before = JSON.parse(c.incidents) as ComponentIncidents;
+    const onRecord = [...this.records.values()].filter((i) => i.unit === ref.unit && i.component === ref.component);
+    const result = applySampleVerdict(before, onRecord, word, rules);
+    c.incidents = JSON.stringify(result.state);
+    c.incidentsVersion += 1;
+    for (const inc of [...Object.values(result.state.incidents), ...result.archived]) this.records.set(inc.id, structuredClone(inc));
+    this.outboxList.push(...result.effects);
+    // The records outside the state count as they were, so that only the entry the word added is reported of them.
+    const known = { ...before, incidents: { ...Object.fromEntries(onRecord.map((i) => [`record ${i.id}`, i])), ...before.incidents } };
+    return incidentChanges(known, result.state, result.archived);
   }
 
   /** Every incident ever recorded (closed and withdrawn ones too), by id. */

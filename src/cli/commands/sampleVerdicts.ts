@@ -1,0 +1,83 @@
+/**
+ * `wearshift sample-verdicts`: the responders' words on samples that the live store holds (confirmed, rejected,
+ * usual-rate), one JSON line each, in the order they were given: the file `wearshift replay` and `wearshift backtest`
+ * take with `--sample-verdicts`, so that they judge the same results with the same words as production. Who gave a
+ * word and when come from the timelines of the component's incidents (its latest 1000 of the unit's); a word
+ * found in none says neither.
+ */
+import type { Command } from 'commander';
+import type { Config } from '../../domain/config.ts';
+import { incidentRules } from '../../incidents/policy.ts';
+import type { Incident } from '../../incidents/model.ts';
+import { IncidentFilterSchema, MAX_LIST_LIMIT } from '../../incidents/listFilter.ts';
+import { closeQuietly, connectForCommand, redisTarget } from '../../redis/connection.ts';
+import { RedisIncidents } from '../../redis/redisIncidents.ts';
+import { RedisStore } from '../../redis/redisStore.ts';
+import { loadConfig } from '../../runtime/loadConfig.ts';
+import { redisChoice, writeJsonLine } from '../output.ts';
+
+interface SampleVerdictsOptions {
+  config?: string;
+}
+
+export function registerSampleVerdicts(program: Command): void {
+  program
+    .command('sample-verdicts')
+    .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
+    .addHelpText(
+      'after',
+      [
+        '',
+        'One JSON object per line, in the order the words were given (those whose time is unknown last):',
+        '  {"unit","component","sampleId","verdict":"confirmed"|"rejected"|"usual-rate","after","by","at"}',
+        'after: the component\'s latest sample when the word was given (replay gives the word there); by: who gave it;',
+        'at: when. Each is left out where the store no longer knows it.',
+        'A word taken back is not listed. Save the output and give it to replay or backtest:',
+        '  wearshift sample-verdicts > words.jsonl',
+        '  wearshift replay history.csv --sample-verdicts words.jsonl',
+      ].join('\n'),
+    )
+    .action(async (opts: SampleVerdictsOptions) => {
+      const config: Config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
+      process.stderr.write(`wearshift: ${redisChoice(config)}\n`);
+      const redis = await connectForCommand(redisTarget(config));
+      try {
+        const store = new RedisStore(redis, { prefix: config.redis.prefix, partitions: config.redis.partitions, config });
+        const incidents = new RedisIncidents(redis, { rules: incidentRules(config), prefix: config.redis.prefix, partitions: config.redis.partitions });
+        const words = [];
+        for (const entry of await store.components()) {
+          const ref = { unit: entry.unit, component: entry.component };
+          const marks = (await store.evaluationInput(ref))?.marks;
+          if (marks === undefined || marks.size === 0) continue;
+          // The component's incidents: those its state holds and those on record (a word that closed one leaves it there).
+          const listed = (await incidents.list(IncidentFilterSchema.parse({ state: 'all', unit: ref.unit, limit: MAX_LIST_LIMIT }))).filter((i) => i.component === ref.component);
+          const onRecord = await Promise.all(listed.map((i) => incidents.get(i.id)));
+          const held = [...Object.values((await incidents.component(ref)).incidents), ...onRecord.filter((i): i is Incident => i !== undefined)];
+          const log = (await incidents.component(ref)).actions;
+          for (const [sampleId, verdict] of marks) {
+            // Where in the history it was given, from the action log (its latest 500 actions); who and when also from the timelines.
+            const logged = log.findLast((a) => a.action.kind === 'sample-verdict' && a.action.sampleId === sampleId && a.action.verdict === verdict);
+            const given = logged !== undefined ? { by: logged.action.by!, at: logged.action.at } : lastWord(held, sampleId, verdict);
+            words.push({ ...ref, sampleId, verdict, ...(logged?.after != null && { after: logged.after.sampleId }), ...(given !== undefined && { by: given.by, at: given.at }) });
+          }
+        }
+        // In the order given: a later word may depend on an earlier one (a usual rate said once a rise is signalled).
+        const order = (w: { at?: string; unit: string; component: string; sampleId: string }) => [w.at === undefined ? 1 : 0, w.at ?? '', w.unit, w.component, w.sampleId].join('\u0000');
+        for (const w of words.sort((a, b) => (order(a) < order(b) ? -1 : order(a) > order(b) ? 1 : 0))) writeJsonLine(w);
+        process.stderr.write(`wearshift: ${words.length} sample verdicts\n`);
+      } finally {
+        await closeQuietly(redis);
+      }
+    });
+}
+
+/** The latest timeline entry that gave this word on the sample, in the component's incidents. */
+function lastWord(incidents: readonly Incident[], sampleId: string, verdict: string): { by: string; at: string } | undefined {
+  let found: { by: string; at: string } | undefined;
+  for (const inc of incidents) {
+    for (const e of inc.timeline) {
+      if (e.kind === 'sample-verdict' && e.sampleId === sampleId && e.verdict === verdict && (found === undefined || e.at > found.at)) found = { by: e.by, at: e.at };
+    }
+  }
+  return found;
+}
