@@ -185,18 +185,20 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
     pending.set(key, [...(pending.get(key) ?? []), w]);
   }
   let refusedVerdicts = 0;
+  let latestSampled = Number.NEGATIVE_INFINITY;
   const refuse = (word: SampleVerdictLine, why: keyof typeof REFUSAL_TEXT) => {
     refusedVerdicts += 1;
     options.onRefusedVerdict?.({ line: word.line, unit: word.unit, component: word.component, sampleId: word.sampleId, verdict: word.verdict, reason: REFUSAL_TEXT[why] });
   };
-  const give = async (word: SampleVerdictLine) => {
+  // `at`: the sampling time of the record the word is given after, where its lines go in the timeline.
+  const give = async (word: SampleVerdictLine, at: number) => {
     const ref = { unit: word.unit, component: word.component };
     const sample = (await store.revisions(ref)).find((r) => r.sample.sampleId === word.sampleId)?.sample;
     const refusal = sample === undefined ? 'unknown' : wordRefusal((await store.findings(ref)).find((r) => r.sampleId === word.sampleId), word.verdict);
     if (refusal !== undefined) return refuse(word, refusal);
     await store.markSample(ref, word.sampleId, word.verdict);
-    const at = word.at !== undefined ? new Date(word.at) : new Date(Number.isFinite(clock) ? clock : now);
-    pushChanges(sample!.time, await store.recordSampleVerdict(ref, { sampleId: word.sampleId, verdict: word.verdict, by: word.by ?? WORD_FROM_FILE, now: at }, deps.rules));
+    const given = word.at !== undefined ? new Date(word.at) : new Date(Number.isFinite(clock) ? clock : now);
+    pushChanges(Math.max(at, sample!.time), await store.recordSampleVerdict(ref, { sampleId: word.sampleId, verdict: word.verdict, by: word.by ?? WORD_FROM_FILE, now: given }, deps.rules));
     await settleComponent(deps, ref, onEvaluated);
   };
   const giveWaiting = async (sample: Sample) => {
@@ -204,7 +206,7 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
     const words = pending.get(key);
     if (words === undefined) return;
     pending.delete(key);
-    for (const word of words) await give(word);
+    for (const word of words) await give(word, sample.time);
   };
   const quietBefore = now - config.backfill.quietAfterDays * DAY_MS;
   // Which line first held each result, to name it when the store refuses a later one with other content.
@@ -233,11 +235,12 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
       continue;
     }
     if (live) clock = Math.max(clock, stored.sample.time);
+    latestSampled = Math.max(latestSampled, stored.sample.time);
     if (stored.outcome.evaluationDue) await settleComponent(deps, stored.sample, onEvaluated);
     await giveWaiting(stored.sample);
   }
   // Words whose `after` sample never came: given now, in the file's order (refused if their own sample never came either).
-  for (const word of [...pending.values()].flat().sort((a, b) => a.line - b.line)) await give(word);
+  for (const word of [...pending.values()].flat().sort((a, b) => a.line - b.line)) await give(word, latestSampled);
   for (const { findings, revised } of judged.values()) {
     for (const f of findings) {
       const at = Date.parse(f.sampledAt);

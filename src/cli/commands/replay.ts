@@ -16,7 +16,7 @@ import { formatTime, timeZoneNote } from '../../notify/format.ts';
 import { ADVISORY_CAUTION, severityWords } from '../../notify/message.ts';
 import type { Config } from '../../domain/config.ts';
 import { subjectOf, type Disposition } from '../../domain/finding.ts';
-import { describeState, type Incident } from '../../incidents/model.ts';
+import { describeState, sampleVerdictText, type Incident } from '../../incidents/model.ts';
 import { componentView } from '../../pipeline/componentView.ts';
 import { notJudgedYet } from '../../analysis/readiness.ts';
 import type { MemoryStore } from '../../pipeline/memory/memoryStore.ts';
@@ -175,7 +175,14 @@ function readable(line: TimelineLine, zone: string): string {
     return `${formatTime(line.sampledAt, zone)}  ${where}  ${line.sampleId}  ${rule}  ${line.severity}${DISPOSITION_MARK[line.disposition]}${line.quiet ? ' (quiet)' : ''}${line.revised ? ' (revised)' : ''}  ${line.explanation}`;
   }
   const l = line as unknown as Record<string, unknown>;
-  const detail = typeof l.explanation === 'string' ? `  ${l.explanation}` : typeof l.how === 'string' ? `  ${l.how}` : '';
+  const detail =
+    line.change === 'sample-verdict'
+      ? `  ${sampleVerdictText(l as unknown as Parameters<typeof sampleVerdictText>[0])}`
+      : typeof l.explanation === 'string'
+        ? `  ${l.explanation}`
+        : typeof l.how === 'string'
+          ? `  ${l.how}`
+          : '';
   // The incident's severity by the one rule; a finding entry says its own severity beside its change.
   const change = line.change === 'finding' && typeof l.severity === 'string' ? `finding (${l.severity})` : line.change;
   return `${formatTime(String(l.at), zone)}  ${where}  incident ${line.incidentId}  ${change}  incident ${line.incidentSeverity}  ${line.incidentState}${detail}`;
