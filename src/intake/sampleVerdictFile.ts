@@ -11,7 +11,7 @@
  * timelines. Blank lines are skipped. Every line is checked before any is
  * used: a bad one is an error naming the file, the line, the field and the reason, and nothing is replayed.
  */
-import { readFileSync } from 'node:fs';
+import { readFileSync, statSync } from 'node:fs';
 import { z } from 'zod';
 import { ActorNameSchema } from '../domain/actorName.ts';
 import { InputError } from '../domain/errors.ts';
@@ -33,12 +33,17 @@ export type SampleVerdictLine = z.infer<typeof WordSchema> & { readonly line: nu
 
 /** At most this many lines are read (a file of words is small: one per sample a responder judged). */
 export const MAX_WORD_LINES = 100_000;
+/** At most this many bytes: 100 000 words of about 300 bytes. */
+export const MAX_WORD_FILE_BYTES = 32 * 1024 * 1024;
 
 export function readSampleVerdictFile(path: string): SampleVerdictLine[] {
   let text: string;
   try {
+    const size = statSync(path).size;
+    if (size > MAX_WORD_FILE_BYTES) throw new InputError(`${path}: ${size} bytes, more than the ${MAX_WORD_FILE_BYTES} a file of words may hold`);
     text = readFileSync(path, 'utf8');
   } catch (e) {
+    if (e instanceof InputError) throw e;
     throw new InputError(`${path}: ${(e as Error).message}`);
   }
   const lines = text.replace(/^\uFEFF/, '').split(/\r?\n/);

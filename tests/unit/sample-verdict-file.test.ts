@@ -6,7 +6,7 @@ import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
-import { readSampleVerdictFile } from '../../src/intake/sampleVerdictFile.ts';
+import { MAX_WORD_LINES, readSampleVerdictFile } from '../../src/intake/sampleVerdictFile.ts';
 import { InputError } from '../../src/domain/errors.ts';
 
 const dir = mkdtempSync(join(tmpdir(), 'wearshift-words-'));
@@ -56,6 +56,11 @@ describe('a file of sample verdicts', () => {
     expect(lines).toContain(`${path}:4: by: must be one line without control characters`);
     expect(lines.some((l) => l.startsWith(`${path}:4: (line):`) && l.includes('extra'))).toBe(true);
     expect(lines.some((l) => l.startsWith(`${path}:5: (line):`))).toBe(true);
+  });
+
+  it('refuses a file longer than a file of words can be, before parsing it', () => {
+    const path = file('long.jsonl', '\n'.repeat(MAX_WORD_LINES + 1));
+    expect(() => readSampleVerdictFile(path)).toThrow(`more than ${MAX_WORD_LINES} lines`);
   });
 
   it('says so when the file cannot be read', () => {
