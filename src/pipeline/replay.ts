@@ -11,7 +11,7 @@
  */
 import type { SampleMark, Step } from '../analysis/model.ts';
 import type { Config } from '../domain/config.ts';
-import type { FieldIssue, Sample } from '../domain/event.ts';
+import type { FieldIssue } from '../domain/event.ts';
 import { findingKey, type Finding } from '../domain/finding.ts';
 import { incidentRules } from '../incidents/policy.ts';
 import type { NotifiedEntry, TimelineEntry } from '../incidents/model.ts';
@@ -21,6 +21,7 @@ import type { EvaluationResult } from './evaluationResult.ts';
 import type { IncidentChange } from './incidentChanges.ts';
 import type { ComponentRef } from './ports.ts';
 import { wordRefusal } from './wordRefusal.ts';
+import { WaitingWords } from './waitingWords.ts';
 import type { SampleVerdictLine } from '../intake/sampleVerdictFile.ts';
 import { MemoryStore } from './memory/memoryStore.ts';
 import { settleComponent } from './settleComponent.ts';
@@ -178,12 +179,7 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
     pushChanges(Math.max(...result.steps.map((s) => Date.parse(s.sampledAt))), result.changes);
   };
   // The words by the sample they wait for (`after`, else their own), each given once the file has brought it.
-  const keyOf = (unit: string, component: string, sampleId: string) => JSON.stringify([unit, component, sampleId]);
-  const pending = new Map<string, SampleVerdictLine[]>();
-  for (const w of options.sampleVerdicts ?? []) {
-    const key = keyOf(w.unit, w.component, w.after ?? w.sampleId);
-    pending.set(key, [...(pending.get(key) ?? []), w]);
-  }
+  const waiting = new WaitingWords(options.sampleVerdicts ?? []);
   let refusedVerdicts = 0;
   let latestSampled = Number.NEGATIVE_INFINITY;
   const refuse = (word: SampleVerdictLine, why: keyof typeof REFUSAL_TEXT) => {
@@ -200,13 +196,6 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
     const given = word.at !== undefined ? new Date(word.at) : new Date(Number.isFinite(clock) ? clock : now);
     pushChanges(Math.max(at, sample!.time), await store.recordSampleVerdict(ref, { sampleId: word.sampleId, verdict: word.verdict, by: word.by ?? WORD_FROM_FILE, now: given }, deps.rules));
     await settleComponent(deps, ref, onEvaluated);
-  };
-  const giveWaiting = async (sample: Sample) => {
-    const key = keyOf(sample.unit, sample.component, sample.sampleId);
-    const words = pending.get(key);
-    if (words === undefined) return;
-    pending.delete(key);
-    for (const word of words) await give(word, sample.time);
   };
   const quietBefore = now - config.backfill.quietAfterDays * DAY_MS;
   // Which line first held each result, to name it when the store refuses a later one with other content.
@@ -237,10 +226,10 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
     if (live) clock = Math.max(clock, stored.sample.time);
     latestSampled = Math.max(latestSampled, stored.sample.time);
     if (stored.outcome.evaluationDue) await settleComponent(deps, stored.sample, onEvaluated);
-    await giveWaiting(stored.sample);
+    for (const word of waiting.take(stored.sample)) await give(word, stored.sample.time);
   }
   // Words whose `after` sample never came: given now, in the file's order (refused if their own sample never came either).
-  for (const word of [...pending.values()].flat().sort((a, b) => a.line - b.line)) await give(word, latestSampled);
+  for (const word of waiting.rest()) await give(word, latestSampled);
   for (const { findings, revised } of judged.values()) {
     for (const f of findings) {
       const at = Date.parse(f.sampledAt);
