@@ -29,19 +29,24 @@ export async function loadComponentPage() {
   renderCharts(series);
 }
 
-/** What the analysis cannot judge yet and what it needs, per measurand (first-day behaviour). */
+/**
+ * What the analysis cannot judge yet and what it needs, per measurand (first-day behaviour). Measurands whose line
+ * says the same are listed together ("Fe, Cu, Al: …"), in the order of the first, so that a gap of the whole
+ * component (a group too small for the comparison with peers) reads once.
+ */
 function renderReadiness(result) {
   const list = $('readiness');
   const rows = result.ok ? (result.body.readiness ?? []) : [];
   $('readiness-empty').hidden = rows.length > 0;
-  // The summary names its measurand first ("Fe: change detection …"): that name is set in bold, not repeated.
-  list.replaceChildren(
-    ...rows.map((r) => {
-      const lead = `${r.measurand}: `;
-      const rest = String(r.summary).startsWith(lead) ? String(r.summary).slice(lead.length) : r.summary;
-      return el('li', { 'data-measurand': r.measurand }, el('strong', { text: lead }), rest);
-    }),
-  );
+  // The summary names its measurand first ("Fe: change detection …"): the rest is what measurands share.
+  const byText = new Map();
+  for (const r of rows) {
+    const lead = `${r.measurand}: `;
+    const rest = String(r.summary).startsWith(lead) ? String(r.summary).slice(lead.length) : String(r.summary);
+    if (!byText.has(rest)) byText.set(rest, []);
+    byText.get(rest).push(r.measurand);
+  }
+  list.replaceChildren(...[...byText].map(([rest, measurands]) => el('li', { 'data-measurands': measurands.join(' ') }, el('strong', { text: `${measurands.join(', ')}: ` }), rest)));
 }
 
 function renderHistory(result) {
