@@ -169,6 +169,21 @@ function holds(group: string, others: number): string {
   return `group ${group} holds ${others === 0 ? 'no' : `only ${others}`} other component${others === 1 ? '' : 's'} so far`;
 }
 
+/**
+ * The lines of several measurands, those that say the same merged ("Fe, Cu, Al: …") in the order of the first, so
+ * that a gap of the whole component (a group too small for the comparison with peers) reads once. The board merges
+ * its lines the same way (src/board/componentPage.js).
+ */
+export function sharedReadinessLines(rows: readonly Pick<MeasurandReadiness, 'measurand' | 'summary'>[]): string[] {
+  const byText = new Map<string, Measurand[]>();
+  for (const r of rows) {
+    const lead = `${r.measurand}: `;
+    const rest = r.summary.startsWith(lead) ? r.summary.slice(lead.length) : r.summary;
+    byText.set(rest, [...(byText.get(rest) ?? []), r.measurand]);
+  }
+  return [...byText].map(([rest, measurands]) => `${measurands.join(', ')}: ${rest}`);
+}
+
 /** Whether a rule cannot judge the measurand yet: change detection waits, its population band is short, or a rule lacks what it needs. */
 export function notJudgedYet(r: MeasurandReadiness): boolean {
   return r.changeDetection === 'waiting' || (r.band !== undefined && r.band.have < r.band.need) || (r.needs?.length ?? 0) > 0;

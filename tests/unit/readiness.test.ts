@@ -8,7 +8,7 @@
 import { describe, expect, it } from 'vitest';
 import { evaluateComponent } from '../../src/analysis/evaluate.ts';
 import type { GroupStats } from '../../src/analysis/model.ts';
-import { notJudgedYet, readinessOf } from '../../src/analysis/readiness.ts';
+import { notJudgedYet, readinessOf, sharedReadinessLines } from '../../src/analysis/readiness.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import { parseResultEvent, type Sample } from '../../src/domain/event.ts';
 import { resolveSettings } from '../../src/domain/settings.ts';
@@ -158,6 +158,21 @@ describe('readiness', () => {
     expect(one.summary).toContain('group baseline 0 of 2 components (group gearbox holds only 1 other component so far)');
     // Unknown (a caller that does not count): the lines of before.
     expect(readiness('', samples).of('Fe')!.summary).toContain('group baseline 0 of 2 components;');
+  });
+
+  it('merges the lines of measurands that say the same, in the order of the first', () => {
+    const rows = [
+      { measurand: 'Fe', summary: 'Fe: change detection against its own baseline; comparison with peers: not made.' },
+      { measurand: 'tbn', summary: 'tbn: judged by every rule that applies to it.' },
+      { measurand: 'Cu', summary: 'Cu: change detection against its own baseline; comparison with peers: not made.' },
+      { measurand: 'v100', summary: 'v100: judged by every rule that applies to it.' },
+      { measurand: 'Al', summary: 'Al: change detection waits: own baseline 3 of 12 intervals.' },
+    ] as const;
+    expect(sharedReadinessLines(rows)).toEqual([
+      'Fe, Cu: change detection against its own baseline; comparison with peers: not made.',
+      'tbn, v100: judged by every rule that applies to it.',
+      'Al: change detection waits: own baseline 3 of 12 intervals.',
+    ]);
   });
 
   it('says change detection has no wear rate at a sample with neither oil nor unit hours', () => {

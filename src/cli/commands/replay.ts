@@ -18,7 +18,7 @@ import type { Config } from '../../domain/config.ts';
 import { subjectOf, type Disposition } from '../../domain/finding.ts';
 import { describeState, sampleVerdictText, type Incident } from '../../incidents/model.ts';
 import { componentView } from '../../pipeline/componentView.ts';
-import { notJudgedYet } from '../../analysis/readiness.ts';
+import { notJudgedYet, sharedReadinessLines } from '../../analysis/readiness.ts';
 import type { MemoryStore } from '../../pipeline/memory/memoryStore.ts';
 import { terminalText } from '../terminalText.ts';
 
@@ -111,7 +111,7 @@ export function registerReplay(program: Command): void {
           if (v.closed === null) for (const f of v.forecast ?? []) process.stdout.write(terminalText(`      ${f.text}\n`));
         }
         if (verdicts.some((v) => v.closed === null && (v.forecast?.length ?? 0) > 0)) process.stdout.write(`  (${FORECAST_CAUTION})\n`);
-        const waiting = readiness.flatMap((r) => r.measurands.filter(notJudgedYet).map((m) => `  ${r.unit}/${r.component}  ${m.summary}`));
+        const waiting = readiness.flatMap((r) => sharedReadinessLines(r.measurands.filter(notJudgedYet)).map((line) => `  ${r.unit}/${r.component}  ${line}`));
         if (waiting.length > 0) process.stdout.write(terminalText(`\nnot judged yet:\n${waiting.join('\n')}\n`));
         process.stdout.write(`\n${timeZoneNote(zone)}\n${ADVISORY_LINE}\n`);
       }
