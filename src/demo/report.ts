@@ -4,6 +4,7 @@ import { RULE_FAMILIES } from '../domain/finding.ts';
 import { DEMO_STORIES } from './fleet.ts';
 import type { DemoReport } from './runDemo.ts';
 import { formatTimeline } from './timeline.ts';
+import { USUAL_RATE_UNIT } from './usualRateWord.ts';
 
 /**
  * What `wearshift demo --keep-open` prints once the run is over: where the API and the board are, a viewer token to
@@ -65,6 +66,10 @@ export function formatReport(r: DemoReport, outDir: string): string[] {
     lines.push(`${label}${a.incidentId} by ${a.by}: link in mail #${a.mailSeq} to ${a.recipient}, confirmation page ${a.pageStatus}, form sent ${a.formStatus}`);
   }
   if (acks.length > 1) lines.push('                     (new evidence withdraws an acknowledgement and asks again, so each new mail was answered)');
+  if (r.usualRate !== null) {
+    lines.push(`  Usual rate         ${r.usualRate.incidentId}: ${r.usualRate.by} said the rate signalled at sample ${r.usualRate.sampleId} is the engine's usual one`);
+    lines.push(`                     (the board's "This rate is usual for it"; HTTP ${r.usualRate.status}); the watch is now ${r.usualRate.stateAfter}`);
+  }
   const escalated = r.incidents.filter((i) => i.highestTierTold >= 1);
   lines.push(`  Escalated          ${escalated.length === 0 ? 'nothing' : escalated.map((i) => `${i.unit} ${i.component} to tier ${i.highestTierTold}${i.acknowledgedBy ? ' (before it was acknowledged)' : ' (never acknowledged)'}`).join('; ')}`);
 
@@ -83,6 +88,7 @@ export function formatReport(r: DemoReport, outDir: string): string[] {
   lines.push(`  ${mark(r.checks.caughtBeforeFixedLimit)} ${DEMO_STORIES[0]!.unit} ${DEMO_STORIES[0]!.component} change caught before the fixed limit${story?.samplesAhead ? ` (${story.samplesAhead} samples earlier)` : ''}`);
   lines.push(`  ${mark(r.checks.acknowledged)} ${DEMO_STORIES[0]!.unit} ${DEMO_STORIES[0]!.component} incident acknowledged from its e-mail link`);
   lines.push(`  ${mark(r.checks.escalated)} ${DEMO_STORIES[1]!.unit} ${DEMO_STORIES[1]!.component} left unacknowledged and escalated to tier 2`);
+  lines.push(`  ${mark(r.checks.usualRateEndsWatch)} ${USUAL_RATE_UNIT.unit} ${USUAL_RATE_UNIT.component}'s standing watch returned to normal after the word that its rate is the usual one`);
   lines.push(`  ${mark(r.checks.webhooksVerified)} every webhook delivery verified with standardwebhooks`);
   lines.push(`  ${mark(r.checks.settled)} pipeline settled (queues and outbox empty) within the wait`);
   lines.push(`  ${mark(r.checks.noFailedJobs)} no job failed${r.failedJobs.map((f) => `; ${f.count} ${f.queue} job${f.count === 1 ? '' : 's'} failed: ${f.reason}`).join('')}`);

@@ -3,7 +3,9 @@
  * workers and the HTTP API as `wearshift serve` starts them, a real SMTP server and a webhook endpoint as the
  * receivers. The fleet's lab reports go through POST /v1/results in report order with time compressed; an
  * on-call engineer acknowledges the PS2-P3 gearbox from its e-mail link; nobody answers for the GEN-3 engine,
- * so it escalates. What was found, told, acknowledged and escalated is read back from the store and returned.
+ * so it escalates; once the feed has settled, a reliability engineer says that the rate GEN-1's standing watch is on is
+ * the engine's usual one (usualRateWord.ts). What was found, told, acknowledged and escalated is read back from the
+ * store and returned.
  */
 import { randomBytes } from 'node:crypto';
 import { mkdirSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
@@ -29,6 +31,7 @@ import { startMailReceiver, type ReceivedMail } from './mailReceiver.ts';
 import { acknowledgeByMail, ackLinkOf, incidentIdOf, type AckAttempt } from './mailResponder.ts';
 import { componentTimeline, type ComponentTimeline } from './timeline.ts';
 import { startWebhookReceiver } from './webhookReceiver.ts';
+import { sayUsualRate, USUAL_RATE_UNIT, type UsualRateWord } from './usualRateWord.ts';
 
 export interface DemoOptions {
   /** Where the received e-mails (.eml) and webhook deliveries (.json) are written. */
@@ -101,6 +104,11 @@ export interface DemoReport {
   readonly mails: readonly { readonly seq: number; readonly to: string; readonly subject: string; readonly file: string }[];
   readonly webhooks: readonly { readonly seq: number; readonly type: string; readonly verified: boolean; readonly file: string }[];
   readonly acknowledgements: readonly AckAttempt[];
+  /**
+   * The reliability engineer's word that GEN-1's signalled rate is its usual one, and the watch's state after it; null
+   * when no watch stood on it.
+   */
+  readonly usualRate: (UsualRateWord & { readonly stateAfter: string }) | null;
   /** Jobs that failed for good, per queue, with the first reason. */
   readonly failedJobs: readonly { readonly queue: string; readonly count: number; readonly reason: string }[];
   /** The demo's own checks of its story; all true on a good run. */
@@ -108,6 +116,8 @@ export interface DemoReport {
     readonly caughtBeforeFixedLimit: boolean;
     readonly acknowledged: boolean;
     readonly escalated: boolean;
+    /** The word was taken and the standing watch returned to normal. */
+    readonly usualRateEndsWatch: boolean;
     readonly webhooksVerified: boolean;
     readonly settled: boolean;
     readonly noFailedJobs: boolean;
@@ -213,8 +223,14 @@ export async function runDemo(options: DemoOptions): Promise<DemoRun> {
     const feedSeconds = (Date.now() - feedStarted) / 1000;
 
     say(`Waiting for the pipeline to settle and for ${ESCALATING_UNIT.unit} ${ESCALATING_UNIT.component} to reach tier ${ESCALATION_TIER} (nobody answers its mails) …`);
-    const settled = await settle({ queues, store, settleMs, checkAborted, isDone: async () => (await answering.then(() => true)) && (await storyDone(store)) });
+    const storySettled = await settle({ queues, store, settleMs, checkAborted, isDone: async () => (await answering.then(() => true)) && (await storyDone(store)) });
     await answering;
+
+    // The standing watch on a healthy engine: the reliability engineer's word that its rate is the usual one.
+    checkAborted();
+    const word = await sayUsualRate(store, apiUrl, tokens.responder);
+    if (word !== undefined) say(`  ${seconds(started)}  ${word.by} says the rate signalled at ${word.sampleId} is ${USUAL_RATE_UNIT.unit}'s usual one (${word.incidentId}): HTTP ${word.status}`);
+    const settled = storySettled && (word === undefined || (await settle({ queues, store, settleMs, checkAborted, isDone: async () => true })));
 
     const failedJobs = await readFailedJobs(queues);
     const timelines = await readTimelines(storage, config.incidents.returnAfterSamples);
@@ -224,6 +240,7 @@ export async function runDemo(options: DemoOptions): Promise<DemoRun> {
 
     const ack = incidents.find((i) => i.unit === ACK_UNIT.unit && i.component === ACK_UNIT.component);
     const esc = incidents.find((i) => i.unit === ESCALATING_UNIT.unit && i.component === ESCALATING_UNIT.component);
+    const watched = word === undefined ? undefined : incidents.find((i) => i.id === word.incidentId);
     const story = timelines.find((t) => t.unit === ACK_UNIT.unit && t.component === ACK_UNIT.component);
     const report: DemoReport = {
       redis: redis === undefined ? 'REDIS_URL' : 'embedded',
@@ -241,11 +258,13 @@ export async function runDemo(options: DemoOptions): Promise<DemoRun> {
       mails: files.mails,
       webhooks: files.webhooks,
       acknowledgements,
+      usualRate: word === undefined ? null : { ...word, stateAfter: watched?.state ?? 'unknown' },
       failedJobs,
       checks: {
         caughtBeforeFixedLimit: (story?.samplesAhead ?? 0) > 0,
         acknowledged: ack?.acknowledgedBy === DEMO_RESPONDER,
         escalated: (esc?.highestTierTold ?? 0) >= ESCALATION_TIER && esc?.acknowledgedBy === undefined,
+        usualRateEndsWatch: word?.status === 202 && (watched?.state.startsWith('returned to normal') ?? false),
         webhooksVerified: files.webhooks.length > 0 && files.webhooks.every((w) => w.verified),
         settled,
         noFailedJobs: failedJobs.length === 0,

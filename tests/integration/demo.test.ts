@@ -76,6 +76,14 @@ describe.skipIf(!redisServerAvailable())('wearshift demo', () => {
     expect(report.resultsRejected).toBe(0);
   }, 310_000);
 
+  it('ends the standing watch on GEN-1 with the word that its rate is the usual one', () => {
+    expect(report.usualRate).toMatchObject({ incidentId: expect.stringMatching(/^GEN-1\/engine@/), by: 'fleet reliability engineer', status: 202 });
+    expect(report.usualRate!.stateAfter).toMatch(/^returned to normal/);
+    expect(report.checks.usualRateEndsWatch).toBe(true);
+    // Nothing new opened on GEN-1 after the word: the detectors learnt its rate again.
+    expect(report.incidents.filter((i) => i.unit === 'GEN-1').map((i) => i.id)).toEqual([report.usualRate!.incidentId]);
+  });
+
   it('shows the PS2-P3 gearbox change caught before its fixed limit', () => {
     const gearbox = report.timelines.find((t) => t.unit === 'PS2-P3' && t.component === 'gearbox')!;
     expect(gearbox.fixedLimit?.rule).toBe('limit');
