@@ -234,23 +234,33 @@ describe('a responder marks a sample in doubt', () => {
   });
 });
 
-describe('a responder says a signalled rate is the usual one', () => {
-  const gearbox = { unit: 'PS7-P2', component: 'gearbox' };
-  /** Iron gains 6 ppm per 250 h up to R-6, then 10 ppm (a lasting change of duty), without lab noise. */
-  const rated = (i: number) => ({
-    sampleId: `R-${i}`,
-    ...gearbox,
+/**
+ * Sample `i` of a component whose iron gains 6 ppm per 250 h up to sample 6, then 10 ppm (a lasting change of duty),
+ * without lab noise; at `bottle`, a bottle of new oil sent in the middle of the charge.
+ */
+function changeOfDuty(of: { unit: string; component: string }, prefix: string, i: number, bottle?: number) {
+  return {
+    sampleId: `${prefix}-${i}`,
+    ...of,
     sampledAt: new Date(Date.UTC(2026, 0, 1 + i * 10, 8)).toISOString(),
     unitHours: 1000 + i * 250,
     oilHours: i * 250,
-    readings: { Fe: i <= 6 ? 8 + 6 * i : 44 + 10 * (i - 6), Cu: 2 + i * 0.5, Ca: 2400, Zn: 1100, P: 950, Si: 4 },
+    readings: i === bottle ? { Fe: 1, Cu: '<1', Ca: 2400, Zn: 1100, P: 950, Si: 4 } : { Fe: i <= 6 ? 8 + 6 * i : 44 + 10 * (i - 6), Cu: 2 + i * 0.5, Ca: 2400, Zn: 1100, P: 950, Si: 4 },
+  };
+}
+
+/** A responder's verdict on a sample of the component, through the API. */
+const verdictOn = (of: { unit: string; component: string }) => (sampleId: string, body: unknown) =>
+  fetch(`${base}/v1/units/${of.unit}/components/${of.component}/samples/${sampleId}/verdict`, {
+    method: 'POST',
+    headers: { authorization: `Bearer ${RESPONDER}`, 'content-type': 'application/json' },
+    body: JSON.stringify(body),
   });
-  const postOn = (sampleId: string, body: unknown) =>
-    fetch(`${base}/v1/units/${gearbox.unit}/components/${gearbox.component}/samples/${sampleId}/verdict`, {
-      method: 'POST',
-      headers: { authorization: `Bearer ${RESPONDER}`, 'content-type': 'application/json' },
-      body: JSON.stringify(body),
-    });
+
+describe('a responder says a signalled rate is the usual one', () => {
+  const gearbox = { unit: 'PS7-P2', component: 'gearbox' };
+  const rated = (i: number) => changeOfDuty(gearbox, 'R', i);
+  const postOn = verdictOn(gearbox);
   const risesAfter = async (from: number) =>
     (await store.findings(gearbox))
       .filter((r) => Number(r.sampleId.slice(2)) > from && r.findings.some((f) => (f.rule === 'cusum' || f.rule === 'ewma') && f.direction === 'up'))
@@ -293,21 +303,9 @@ describe('a responder says a signalled rate is the usual one', () => {
 
 describe('the words a live store holds, given to replay', () => {
   const drive = { unit: 'PS7-D1', component: 'drive' };
-  /** Iron gains 6 ppm per 250 h up to D-6, then 10 ppm; D-17 is a bottle of new oil sent in the middle of the charge. */
-  const reading = (i: number) => ({
-    sampleId: `D-${i}`,
-    ...drive,
-    sampledAt: new Date(Date.UTC(2026, 0, 1 + i * 10, 8)).toISOString(),
-    unitHours: 1000 + i * 250,
-    oilHours: i * 250,
-    readings: i === 17 ? { Fe: 1, Cu: '<1', Ca: 2400, Zn: 1100, P: 950, Si: 4 } : { Fe: i <= 6 ? 8 + 6 * i : 44 + 10 * (i - 6), Cu: 2 + i * 0.5, Ca: 2400, Zn: 1100, P: 950, Si: 4 },
-  });
-  const postOn = (sampleId: string, body: unknown) =>
-    fetch(`${base}/v1/units/${drive.unit}/components/${drive.component}/samples/${sampleId}/verdict`, {
-      method: 'POST',
-      headers: { authorization: `Bearer ${RESPONDER}`, 'content-type': 'application/json' },
-      body: JSON.stringify(body),
-    });
+  /** D-17 is a bottle of new oil sent in the middle of the charge. */
+  const reading = (i: number) => changeOfDuty(drive, 'D', i, 17);
+  const postOn = verdictOn(drive);
   const mine = (rows: VerdictRow[]) => rows.filter((r) => r.incidentId.startsWith(`${drive.unit}/`));
 
   it('exported with `wearshift sample-verdicts`, give replay the live verdict; without them replay differs', { timeout: 300_000 }, async () => {
