@@ -241,9 +241,24 @@ function lastReturn(inc: DraftIncident): string | null {
  * The return as the verdict recorded it, not as the incident stands when it is told: results judged together after
  * the return (a batch, a backfill) add clean samples that did not bring it back.
  */
-function returnedReason(entry: ReturnEntry): string {
+function returnedReason(inc: DraftIncident, entry: ReturnEntry): string {
   const count = entry.cleanSamples === undefined ? '' : `, after ${entry.cleanSamples} ${entry.cleanSamples === 1 ? 'sample' : 'samples'} without findings`;
-  return `returned to normal at sample ${entry.sampleId}${count}; still unacknowledged`;
+  const word = usualRateWord(inc);
+  // A return a responder's word on a usual rate brought about says so: the rate did not fall, it is judged afresh.
+  const because = word === undefined ? '' : `, once ${word.by} had said that the rate signalled at sample ${word.sampleId} is this component's usual one (its change detectors learn a new baseline from there)`;
+  return `returned to normal at sample ${entry.sampleId}${count}${because}; still unacknowledged`;
+}
+
+/** The latest word on a usual rate in the timeline that was not taken back since. */
+function usualRateWord(inc: DraftIncident): Extract<TimelineEntry, { kind: 'sample-verdict' }> | undefined {
+  // The last word on each sample stands; of those, the latest given.
+  const latest = new Map<string, Extract<TimelineEntry, { kind: 'sample-verdict' }>>();
+  for (const e of inc.timeline) {
+    if (e.kind !== 'sample-verdict') continue;
+    latest.delete(e.sampleId);
+    latest.set(e.sampleId, e);
+  }
+  return [...latest.values()].filter((e) => e.verdict === 'usual-rate').at(-1);
 }
 
 /**
@@ -328,7 +343,7 @@ function annunciateOne(inc: DraftIncident, work: Work): void {
     const returned = lastReturnEntry(inc);
     if (returned !== null && told.returnedAt !== returned.sampleId && ack === null && inc.lastLive) {
       told.returnedAt = returned.sampleId;
-      tellReached(inc, work, 'wearshift.incident.returned', returnedReason(returned));
+      tellReached(inc, work, 'wearshift.incident.returned', returnedReason(inc, returned));
     }
   }
   // Otherwise the escalation goes on by its scheduled checks (applyEscalationCheck).

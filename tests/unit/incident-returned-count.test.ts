@@ -7,6 +7,7 @@ import { describe, expect, it } from 'vitest';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import type { Finding } from '../../src/domain/finding.ts';
 import { applySteps } from '../../src/incidents/applySteps.ts';
+import { applySampleVerdict } from '../../src/incidents/sampleVerdict.ts';
 import { emptyComponentIncidents, type NotifyEffect } from '../../src/incidents/model.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 
@@ -55,6 +56,19 @@ describe('the message of a return to normal, several results judged at once', ()
   it('follows the configured count', () => {
     const { messages } = returnedTogether(3, [3, 4, 5, 6, 7]);
     expect(messages.map((m) => m.incident.reason)).toEqual(['returned to normal at sample R-5, after 3 samples without findings; still unacknowledged']);
+  });
+
+  it('says so when a responder\u2019s word on a usual rate stands on the incident, and not once it is taken back', () => {
+    const open = applySteps(emptyComponentIncidents(UNIT, COMPONENT), [step(1), step(2, 60)], ctx(2, 2)).state;
+    const word = (verdict: 'usual-rate' | 'withdrawn', minute: number) => ({ sampleId: 'R-2', verdict, by: 'reliability engineer', now: new Date(T0 + 2 * DAY + minute * 60_000) });
+    const reasons = (state: typeof open) =>
+      applySteps(state, [step(3), step(4)], ctx(4, 2)).effects.filter((e): e is NotifyEffect => e.kind === 'notify' && e.type === 'wearshift.incident.returned').map((m) => m.incident.reason);
+    const said = applySampleVerdict(open, [], word('usual-rate', 5), rules(2)).state;
+    expect(reasons(said)).toEqual([
+      "returned to normal at sample R-4, after 2 samples without findings, once reliability engineer had said that the rate signalled at sample R-2 is this component's usual one (its change detectors learn a new baseline from there); still unacknowledged",
+    ]);
+    const takenBack = applySampleVerdict(said, [], word('withdrawn', 10), rules(2)).state;
+    expect(reasons(takenBack)).toEqual(['returned to normal at sample R-4, after 2 samples without findings; still unacknowledged']);
   });
 
   it('says "sample" for one', () => {
