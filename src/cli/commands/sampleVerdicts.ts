@@ -49,15 +49,19 @@ export function registerSampleVerdicts(program: Command): void {
           const ref = { unit: entry.unit, component: entry.component };
           const marks = (await store.evaluationInput(ref))?.marks;
           if (marks === undefined || marks.size === 0) continue;
-          // The component's incidents: those its state holds and those on record (a word that closed one leaves it there).
-          const listed = (await incidents.list(IncidentFilterSchema.parse({ state: 'all', unit: ref.unit, limit: MAX_LIST_LIMIT }))).filter((i) => i.component === ref.component);
-          const onRecord = await Promise.all(listed.map((i) => incidents.get(i.id)));
-          const held = [...Object.values((await incidents.component(ref)).incidents), ...onRecord.filter((i): i is Incident => i !== undefined)];
-          const log = (await incidents.component(ref)).actions;
+          const state = await incidents.component(ref);
+          // Where a word is no longer in the action log (its latest 500 actions), who gave it and when are looked up in
+          // the component's incidents: those its state holds and those on record (a word that closed one leaves it there).
+          let held: Incident[] | undefined;
+          const heldIncidents = async (): Promise<Incident[]> => {
+            if (held !== undefined) return held;
+            const listed = (await incidents.list(IncidentFilterSchema.parse({ state: 'all', unit: ref.unit, limit: MAX_LIST_LIMIT }))).filter((i) => i.component === ref.component);
+            const onRecord = (await Promise.all(listed.map((i) => incidents.get(i.id)))).filter((i): i is Incident => i !== undefined);
+            return (held = [...Object.values(state.incidents), ...onRecord]);
+          };
           for (const [sampleId, verdict] of marks) {
-            // Where in the history it was given, from the action log (its latest 500 actions); who and when also from the timelines.
-            const logged = log.findLast((a) => a.action.kind === 'sample-verdict' && a.action.sampleId === sampleId && a.action.verdict === verdict);
-            const given = logged !== undefined ? { by: logged.action.by!, at: logged.action.at } : lastWord(held, sampleId, verdict);
+            const logged = state.actions.findLast((a) => a.action.kind === 'sample-verdict' && a.action.sampleId === sampleId && a.action.verdict === verdict);
+            const given = logged !== undefined ? { by: logged.action.by!, at: logged.action.at } : lastWord(await heldIncidents(), sampleId, verdict);
             words.push({ ...ref, sampleId, verdict, ...(logged?.after != null && { after: logged.after.sampleId }), ...(given !== undefined && { by: given.by, at: given.at }) });
           }
         }
