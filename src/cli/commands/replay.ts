@@ -42,7 +42,7 @@ export function registerReplay(program: Command): void {
     )
     .option(
       '--sample-verdicts <file>',
-      "responders' words on samples, JSON lines as `wearshift sample-verdicts` writes them from the live store ({unit, component, sampleId, verdict: confirmed | rejected | usual-rate, by?, at?}): each given as the API takes it once the history has brought its sample (right after that record), so the verdict is the live store's after the same results and words",
+      "responders' words on samples, JSON lines as `wearshift sample-verdicts` writes them from the live store ({unit, component, sampleId, verdict: confirmed | rejected | usual-rate, after?, by?, at?}): each given as the API takes it once the history has brought the sample it was given after (its after, else its own), so the verdict is the live store's after the same results and words",
     )
     .option('--json', 'JSON lines, one object each, told apart by "type": rejected, refused-verdict, finding, incident, verdict, readiness (below)')
     .addHelpText(
