@@ -20,6 +20,7 @@ import type { SampleMark } from '../analysis/model.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
 import { requireRole, type AccessTokens } from './auth.ts';
 import { ActorNameSchema } from '../domain/actorName.ts';
+import { refusalText } from '../pipeline/wordRefusal.ts';
 
 /**
  * What the route needs: stores the mark, records who gave it (`by`) in the timelines of the incidents concerned and
@@ -68,18 +69,7 @@ export const sampleVerdictRoutes: FastifyPluginAsync<SampleVerdictRoutesOptions>
       const mark: SampleMark | null = body.data.verdict === 'withdrawn' ? null : body.data.verdict;
       const outcome = await options.verdicts.mark({ unit, component }, sampleId, mark, body.data.by);
       if (outcome === 'unknown') return reply.code(404).send({ error: 'not-found', message: `component "${component}" of unit "${unit}" holds no sample "${sampleId}"` });
-      if (outcome === 'no-rise') {
-        return reply.code(409).send({
-          error: 'no-rise',
-          message: `no change detector (EWMA or CUSUM) signals a rise of a wear rate at sample "${sampleId}" of ${unit}/${component}, so it takes no word on a usual rate`,
-        });
-      }
-      if (outcome === 'not-in-doubt') {
-        return reply.code(409).send({
-          error: 'not-in-doubt',
-          message: `sample "${sampleId}" of ${unit}/${component} is not in doubt: no sampling finding questioned it, so it takes no verdict; a wrong reading is corrected by the lab's revision of the result`,
-        });
-      }
+      if (outcome === 'no-rise' || outcome === 'not-in-doubt') return reply.code(409).send({ error: outcome, message: refusalText(outcome, `sample "${sampleId}" of ${unit}/${component}`) });
       request.log.info({ unit, component, sampleId, verdict: body.data.verdict, by: body.data.by }, 'sample verdict taken');
       return reply.code(202).send({ unit, component, sampleId, verdict: body.data.verdict, by: body.data.by });
     },

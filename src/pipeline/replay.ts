@@ -20,7 +20,7 @@ import type { EvaluationDeps } from './evaluateStored.ts';
 import type { EvaluationResult } from './evaluationResult.ts';
 import type { IncidentChange } from './incidentChanges.ts';
 import type { ComponentRef } from './ports.ts';
-import { wordRefusal } from './wordRefusal.ts';
+import { refusalText, wordRefusal } from './wordRefusal.ts';
 import { WaitingWords } from './waitingWords.ts';
 import type { SampleVerdictLine } from '../intake/sampleVerdictFile.ts';
 import { MemoryStore } from './memory/memoryStore.ts';
@@ -115,11 +115,6 @@ export interface RefusedVerdict {
 /** Who a word without `by` is from, in the timelines. */
 export const WORD_FROM_FILE = 'a file of sample verdicts';
 
-const REFUSAL_TEXT = {
-  unknown: 'no such sample among the records',
-  'no-rise': 'no rise of a wear rate is signalled there (EWMA or CUSUM), so it takes no word on a usual rate',
-  'not-in-doubt': 'the sample is not in doubt (no sampling finding questioned it), so it takes no verdict',
-} as const;
 
 export interface ReplayOutcome {
   readonly timeline: TimelineLine[];
@@ -182,9 +177,10 @@ export async function replayRecords(records: AsyncIterable<SourceRecord> | Itera
   const waiting = new WaitingWords(options.sampleVerdicts ?? []);
   let refusedVerdicts = 0;
   let latestSampled = Number.NEGATIVE_INFINITY;
-  const refuse = (word: SampleVerdictLine, why: keyof typeof REFUSAL_TEXT) => {
+  const refuse = (word: SampleVerdictLine, why: Parameters<typeof refusalText>[0]) => {
     refusedVerdicts += 1;
-    options.onRefusedVerdict?.({ line: word.line, unit: word.unit, component: word.component, sampleId: word.sampleId, verdict: word.verdict, reason: REFUSAL_TEXT[why] });
+    const reason = refusalText(why, `sample "${word.sampleId}" of ${word.unit}/${word.component}`);
+    options.onRefusedVerdict?.({ line: word.line, unit: word.unit, component: word.component, sampleId: word.sampleId, verdict: word.verdict, reason });
   };
   // `at`: the sampling time of the record the word is given after, where its lines go in the timeline.
   const give = async (word: SampleVerdictLine, at: number) => {

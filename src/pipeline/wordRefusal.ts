@@ -14,3 +14,18 @@ export function wordRefusal(record: StepRecord | undefined, mark: SampleMark): '
   }
   return record !== undefined && (record.status !== undefined || record.findings.some((f) => f.rule === 'sampling')) ? undefined : 'not-in-doubt';
 }
+
+/**
+ * Why a word was not taken, in words, for the sample named `where` (e.g. `sample "T-6" of PS7-T1/gearbox`): the API's
+ * answers, replay's refused words and the command line say the same.
+ */
+export function refusalText(why: 'unknown' | 'no-rise' | 'not-in-doubt', where: string): string {
+  switch (why) {
+    case 'unknown':
+      return `no such sample: ${where}`;
+    case 'no-rise':
+      return `no change detector (EWMA or CUSUM) signals a rise of a wear rate at ${where}, so it takes no word on a usual rate`;
+    case 'not-in-doubt':
+      return `${where} is not in doubt: no sampling finding questioned it, so it takes no verdict; a wrong reading is corrected by the lab's revision of the result`;
+  }
+}

@@ -389,3 +389,30 @@ describe('the words a live store holds, given to replay', () => {
     expect(bad.out).toBe('');
   });
 });
+
+describe('a responder gives a word from the terminal', () => {
+  const pump = { unit: 'PS7-T1', component: 'gearbox' };
+  const give = (...args: string[]) => runCliInProcess(['sample-verdicts', 'give', pump.unit, pump.component, ...args, '--config', join(dir, 'site.yaml')], { REDIS_URL: redis.url });
+
+  it('takes it as the API does: stored, in the timeline, the component judged again; refusals exit 2', { timeout: 300_000 }, async () => {
+    const outcomes = await producer.add(Array.from({ length: 8 }, (_, k) => changeOfDuty(pump, 'T', k + 1, 6)));
+    expect(outcomes.filter((o) => o.status !== 'accepted')).toEqual([]);
+    await drained(queues, 120_000);
+    expect((await store.findings(pump)).find((r) => r.sampleId === 'T-6')?.status).toBe('in-doubt');
+
+    // Refused as the API refuses them, and nothing stored.
+    expect((await give('T-7', '--verdict', 'rejected', '--by', 'shift lead')).code).toBe(2);
+    expect((await give('T-99', '--verdict', 'confirmed', '--by', 'shift lead')).code).toBe(2);
+    expect((await give('T-6', '--verdict', 'maybe', '--by', 'shift lead')).code).toBe(2);
+    expect((await give('T-6', '--verdict', 'confirmed', '--by', 'two\nlines')).code).toBe(2);
+    expect((await store.evaluationInput(pump))!.marks.size).toBe(0);
+
+    const taken = await give('T-6', '--verdict', 'confirmed', '--by', 'terminal shift lead', '--json');
+    expect(taken.code).toBe(0);
+    expect(JSON.parse(taken.out)).toEqual({ ...pump, sampleId: 'T-6', verdict: 'confirmed', by: 'terminal shift lead' });
+    await drained(queues, 120_000);
+    expect((await store.findings(pump)).find((r) => r.sampleId === 'T-6')?.status).toBe('confirmed');
+    const bottle = await record(`${pump.unit}/${pump.component}/sampling@T-6`);
+    expect(wordsOf(bottle).map((w) => w.kind === 'sample-verdict' && `${w.verdict} by ${w.by}`)).toEqual(['confirmed by terminal shift lead']);
+  });
+});

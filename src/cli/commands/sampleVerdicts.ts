@@ -1,9 +1,13 @@
 /**
- * `wearshift sample-verdicts`: the responders' words on samples that the live store holds (confirmed, rejected,
- * usual-rate), one JSON line each, in the order they were given: the file `wearshift replay` and `wearshift backtest`
- * take with `--sample-verdicts`, so that they judge the same results with the same words as production. Who gave a
- * word and when come from the timelines of the component's incidents (its latest 1000 of the unit's); a word
- * found in none says neither.
+ * `wearshift sample-verdicts list|give`, straight against the live store:
+ * - `list` (the default): the responders' words on samples that the store holds (confirmed, rejected, usual-rate), one
+ *   JSON line each, in the order they were given: the file `wearshift replay` and `wearshift backtest` take with
+ *   `--sample-verdicts`, so that they judge the same results with the same words as production. Who gave a word and
+ *   when come from the component's action log, else the timelines of its incidents (its latest 1000 of the unit's);
+ *   a word found in neither says neither.
+ * - `give`: a responder's word from the terminal, as the API's `POST …/samples/:sampleId/verdict` takes it (the same
+ *   SampleVerdicts, the same refusals): stored, written into the timelines of the incidents that hold the sample,
+ *   announced on the live channel, and the component queued to be judged again by the workers.
  */
 import type { Command } from 'commander';
 import type { Config } from '../../domain/config.ts';
@@ -15,14 +19,18 @@ import { RedisIncidents } from '../../redis/redisIncidents.ts';
 import { RedisStore } from '../../redis/redisStore.ts';
 import { loadConfig } from '../../runtime/loadConfig.ts';
 import { redisChoice, writeJsonLine } from '../output.ts';
+import { registerGive } from './sampleVerdictGive.ts';
 
 interface SampleVerdictsOptions {
   config?: string;
 }
 
 export function registerSampleVerdicts(program: Command): void {
-  program
-    .command('sample-verdicts')
+  const command = program.command('sample-verdicts');
+  registerGive(command);
+  command
+    .command('list', { isDefault: true })
+    .description("the words the live store holds, as JSON lines: the file replay and backtest take with --sample-verdicts (the default)")
     .option('--config <file>', 'configuration file (default: WEARSHIFT_CONFIG)')
     .addHelpText(
       'after',
