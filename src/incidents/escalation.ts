@@ -10,7 +10,7 @@ import { foundByWords, joinedWords, maxSeverity, severityRank, subjectOf, type F
 import type { Measurand } from '../domain/measurands.ts';
 import type { EscalationPolicy } from '../domain/escalationConfig.ts';
 import { isoOf, type DraftIncident, type Work } from './draft.ts';
-import { borneOutText, closureText, describeState, withdrawnEvidenceText, type Closure, type IncidentEventType, type IncidentSnapshot, type TimelineEntry } from './model.ts';
+import { borneOutText, closureText, describeState, lastWordOn, withdrawnEvidenceText, type Closure, type IncidentEventType, type IncidentSnapshot, type SampleVerdictEntry, type TimelineEntry } from './model.ts';
 import { recipients, selectPolicy } from './policy.ts';
 import { REOPENED } from './verdict.ts';
 
@@ -249,16 +249,9 @@ function returnedReason(inc: DraftIncident, entry: ReturnEntry): string {
   return `returned to normal at sample ${entry.sampleId}${count}${because}; still unacknowledged`;
 }
 
-/** The latest word on a usual rate in the timeline that was not taken back since. */
-function usualRateWord(inc: DraftIncident): Extract<TimelineEntry, { kind: 'sample-verdict' }> | undefined {
-  // The last word on each sample stands; of those, the latest given.
-  const latest = new Map<string, Extract<TimelineEntry, { kind: 'sample-verdict' }>>();
-  for (const e of inc.timeline) {
-    if (e.kind !== 'sample-verdict') continue;
-    latest.delete(e.sampleId);
-    latest.set(e.sampleId, e);
-  }
-  return [...latest.values()].filter((e) => e.verdict === 'usual-rate').at(-1);
+/** The latest word on a usual rate in the timeline that still stands (no later word on its sample). */
+function usualRateWord(inc: DraftIncident): SampleVerdictEntry | undefined {
+  return inc.timeline.findLast((e): e is SampleVerdictEntry => e.kind === 'sample-verdict' && e.verdict === 'usual-rate' && lastWordOn(inc.timeline, e.sampleId) === e);
 }
 
 /**

@@ -396,6 +396,14 @@ const VERDICT_WORDS: Record<SampleVerdict, (sampleId: string, by: string) => str
   'usual-rate': (sampleId, by) => `${by}: the wear rate signalled at sample ${sampleId} is this component's usual one; its change detectors learn a new baseline from there`,
 };
 
+/** A responder's word on a sample, as a timeline holds it. */
+export type SampleVerdictEntry = Extract<TimelineEntry, { kind: 'sample-verdict' }>;
+
+/** The latest word on the sample in the timeline (the one that stands, `withdrawn` included); undefined when none. */
+export function lastWordOn(timeline: readonly TimelineEntry[], sampleId: string): SampleVerdictEntry | undefined {
+  return timeline.findLast((e): e is SampleVerdictEntry => e.kind === 'sample-verdict' && e.sampleId === sampleId);
+}
+
 /** A sample verdict in the timeline, for people: who said what of which sample (the board carries a copy). */
 export function sampleVerdictText(entry: Pick<Extract<TimelineEntry, { kind: 'sample-verdict' }>, 'sampleId' | 'verdict' | 'by'>): string {
   return VERDICT_WORDS[entry.verdict](entry.sampleId, entry.by);

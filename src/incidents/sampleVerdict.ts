@@ -9,7 +9,7 @@
 import { InputError } from '../domain/errors.ts';
 import { logAction } from './actionLog.ts';
 import { draftOf, findDraft, isoOf, type DraftIncident } from './draft.ts';
-import type { ClosingVerdict, ComponentIncidents, Incident, IncidentResult, RecordedAction, SampleVerdict } from './model.ts';
+import { lastWordOn, type ClosingVerdict, type ComponentIncidents, type Incident, type IncidentResult, type RecordedAction, type SampleVerdict } from './model.ts';
 import type { IncidentRules } from './policy.ts';
 import { judgeAction, sameVerdictAsLast, TIMELINE_LIMIT } from './verdict.ts';
 
@@ -54,8 +54,8 @@ export interface ClosingWord {
 export function closingVerdict(incident: Pick<Incident, 'kind' | 'timeline'>): ClosingWord | undefined {
   const opening = incident.timeline.find((e) => e.kind === 'opened');
   if (opening?.kind !== 'opened') return undefined;
-  const last = [...incident.timeline].reverse().find((e) => e.kind === 'sample-verdict' && e.sampleId === opening.sampleId);
-  if (last?.kind !== 'sample-verdict') return undefined;
+  const last = lastWordOn(incident.timeline, opening.sampleId);
+  if (last === undefined) return undefined;
   if (last.verdict === 'rejected' || (last.verdict === 'confirmed' && incident.kind === 'sampling')) {
     return { sampleId: last.sampleId, verdict: last.verdict, by: last.by, at: last.at };
   }

@@ -15,7 +15,7 @@ import { findingKey, incidentKindOf, joinedWords, maxSeverity, type Finding, typ
 import type { Measurand } from '../domain/measurands.ts';
 import type { DraftIncident, DraftState } from './draft.ts';
 import { IncidentConflictError, IncidentNotFoundError } from './errors.ts';
-import type { Closure, RecordedAction, StepPosition, TimelineEntry } from './model.ts';
+import { lastWordOn, type Closure, type RecordedAction, type StepPosition, type TimelineEntry } from './model.ts';
 import type { IncidentRules } from './policy.ts';
 import type { ComponentForecast, LimitForecast } from '../analysis/forecast/model.ts';
 import { compareOrder } from '../analysis/fold/analysisFold.ts';
@@ -381,8 +381,8 @@ export function judgeAction(draft: DraftState, action: RecordedAction, rules: In
 
 /** Whether the incident's latest word on the sample is this one, from the same person. */
 export function sameVerdictAsLast(inc: { readonly timeline: readonly TimelineEntry[] }, word: { readonly sampleId: string; readonly verdict: string; readonly by: string }): boolean {
-  const last = [...inc.timeline].reverse().find((e) => e.kind === 'sample-verdict' && e.sampleId === word.sampleId);
-  return last?.kind === 'sample-verdict' && last.verdict === word.verdict && last.by === word.by;
+  const last = lastWordOn(inc.timeline, word.sampleId);
+  return last !== undefined && last.verdict === word.verdict && last.by === word.by;
 }
 
 /** The incident an action names; in a refold whose ids changed, the open incident of the same key. */
