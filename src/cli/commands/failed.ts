@@ -4,13 +4,12 @@
  */
 import type { Command } from 'commander';
 import type { Config } from '../../domain/config.ts';
-import { loadConfig } from '../../runtime/loadConfig.ts';
 import { InputError } from '../../domain/errors.ts';
 import { ALL_QUEUES, isQueueName, listFailedJobs, retryAllFailedJobs, retryFailedJob } from '../../queue/failedJobs.ts';
 import type { QueueName } from '../../queue/queues.ts';
-import { closeQuietly, connectForCommand, redisTarget, type RedisConnection as Redis } from '../../redis/connection.ts';
+import { withRedis } from '../commandRedis.ts';
 import { enableEndpoint, listDisabledEndpoints, type DisabledEndpoint } from '../../redis/disabledEndpoints.ts';
-import { formatTable, writeJsonLine, redisChoice } from '../output.ts';
+import { formatTable, writeJsonLine } from '../output.ts';
 import { terminalText } from '../terminalText.ts';
 import { formatTime, timeZoneNote } from '../../notify/format.ts';
 
@@ -19,17 +18,6 @@ interface FailedOptions {
   json?: boolean;
   queue?: string;
   all?: boolean;
-}
-
-async function withRedis<T>(opts: FailedOptions, work: (redis: Redis, config: Config) => Promise<T>): Promise<T> {
-  const config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
-  process.stderr.write(`wearshift: ${redisChoice(config)}\n`);
-  const redis = await connectForCommand(redisTarget(config));
-  try {
-    return await work(redis, config);
-  } finally {
-    await closeQuietly(redis);
-  }
 }
 
 function queuesOf(opts: FailedOptions): QueueName[] {

@@ -7,21 +7,21 @@ import { FORECAST_CAUTION } from '../../domain/caution.ts';
 import { subjectOf } from '../../domain/finding.ts';
 import type { Command } from 'commander';
 import type { Config } from '../../domain/config.ts';
-import { loadConfig } from '../../runtime/loadConfig.ts';
 import { InputError } from '../../domain/errors.ts';
 import type { IncidentAction } from '../../incidents/applyAction.ts';
 import { MAX_LIST_LIMIT } from '../../incidents/listFilter.ts';
 import { decodeCursor, encodeCursor, IncidentListQuerySchema } from '../../incidents/listPage.ts';
 import { closureText, describeState, mergedTimeline, notifiedTargetsText, sampleVerdictText, type Incident, type IncidentSummary, type NotifiedEntry, type TimelineEntry } from '../../incidents/model.ts';
 import { incidentRules } from '../../incidents/policy.ts';
-import { closeQuietly, connectForCommand, redisTarget, type RedisConnection } from '../../redis/connection.ts';
+import type { RedisConnection } from '../../redis/connection.ts';
+import { withRedis } from '../commandRedis.ts';
 import { announcingActions } from '../../http/eventHub.ts';
 import { livePublisher } from '../../runtime/liveBridge.ts';
 import { createLogger } from '../../telemetry/logger.ts';
 import { RedisIncidents } from '../../redis/redisIncidents.ts';
 import { formatTime, timeZoneNote } from '../../notify/format.ts';
 import { ADVISORY_CAUTION, bySeverity, severityWords } from '../../notify/message.ts';
-import { formatTable, redisChoice, writeJsonLine, zonedTime } from '../output.ts';
+import { formatTable, writeJsonLine, zonedTime } from '../output.ts';
 import { terminalText } from '../terminalText.ts';
 
 interface CommonOptions {
@@ -30,15 +30,8 @@ interface CommonOptions {
 }
 
 async function withStore<T>(opts: CommonOptions, work: (store: RedisIncidents, config: Config, redis: RedisConnection) => Promise<T>): Promise<T> {
-  const config: Config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
-  // Which Redis, on stderr: the output itself stays the incidents (and one JSON object per line with --json).
-  process.stderr.write(`wearshift: ${redisChoice(config)}\n`);
-  const redis = await connectForCommand(redisTarget(config));
-  try {
-    return await work(new RedisIncidents(redis, { rules: incidentRules(config), prefix: config.redis.prefix, partitions: config.redis.partitions }), config, redis);
-  } finally {
-    await closeQuietly(redis);
-  }
+  // Which Redis goes to stderr: the output itself stays the incidents (and one JSON object per line with --json).
+  return withRedis(opts, (redis, config) => work(new RedisIncidents(redis, { rules: incidentRules(config), prefix: config.redis.prefix, partitions: config.redis.partitions }), config, redis));
 }
 
 function instant(name: string) {

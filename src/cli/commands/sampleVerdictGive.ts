@@ -7,20 +7,18 @@
 import type { Command } from 'commander';
 import type { SampleMark } from '../../analysis/model.ts';
 import { ActorNameSchema } from '../../domain/actorName.ts';
-import type { Config } from '../../domain/config.ts';
 import { InputError } from '../../domain/errors.ts';
 import { incidentRules } from '../../incidents/policy.ts';
 import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings } from '../../queue/queues.ts';
 import { SampleVerdicts } from '../../queue/sampleVerdicts.ts';
 import { refusalText } from '../../pipeline/wordRefusal.ts';
-import { closeQuietly, connectForCommand, redisTarget } from '../../redis/connection.ts';
 import { Partitions } from '../../redis/keys.ts';
 import { RedisIncidents } from '../../redis/redisIncidents.ts';
 import { RedisStore } from '../../redis/redisStore.ts';
 import { livePublisher } from '../../runtime/liveBridge.ts';
-import { loadConfig } from '../../runtime/loadConfig.ts';
 import { createLogger } from '../../telemetry/logger.ts';
-import { redisChoice, writeJsonLine } from '../output.ts';
+import { writeJsonLine } from '../output.ts';
+import { withRedis } from '../commandRedis.ts';
 import { terminalText } from '../terminalText.ts';
 
 const VERDICTS = ['confirmed', 'rejected', 'usual-rate', 'withdrawn'] as const;
@@ -44,27 +42,25 @@ export function registerGive(parent: Command): void {
       if (!(VERDICTS as readonly string[]).includes(opts.verdict)) throw new InputError(`--verdict: expected ${VERDICTS.join(', ')}, got "${opts.verdict}"`);
       const by = ActorNameSchema.safeParse(opts.by);
       if (!by.success) throw new InputError(`--by: ${by.error.issues[0]?.message ?? 'not a name'}`);
-      const config: Config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
-      process.stderr.write(`wearshift: ${redisChoice(config)}\n`);
-      const redis = await connectForCommand(redisTarget(config));
-      const { prefix, partitions: count } = config.redis;
-      const partitions = new Partitions(prefix, count);
-      const evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, redis, resolveQueueSettings({ prefix }), partitions);
-      try {
-        const store = new RedisStore(redis, { prefix, partitions: count, config });
-        const incidents = new RedisIncidents(redis, { rules: incidentRules(config), prefix, partitions: count });
-        // Announced on the live channel as the API announces it, so that every open board shows it at once.
-        const live = livePublisher(redis, prefix, createLogger({ level: process.env.LOG_LEVEL ?? 'warn' }));
-        const mark: SampleMark | null = opts.verdict === 'withdrawn' ? null : (opts.verdict as SampleMark);
-        const outcome = await new SampleVerdicts(store, evaluateQueues, partitions, { incidents, live }).mark({ unit, component }, sampleId, mark, by.data);
-        // The publisher sends at the end of this turn of the event loop: one turn later its PUBLISH is on the connection.
-        await new Promise((resolve) => setImmediate(resolve));
-        if (outcome !== 'taken') throw new InputError(refusalText(outcome, `sample "${sampleId}" of ${unit}/${component}`));
-        if (opts.json) writeJsonLine({ unit, component, sampleId, verdict: opts.verdict, by: by.data });
-        else process.stdout.write(terminalText(`${unit}/${component} sample ${sampleId}: ${opts.verdict} by ${by.data}; the workers judge the component again from this sample\n`));
-      } finally {
-        await Promise.all(evaluateQueues.map((q) => q.close()));
-        await closeQuietly(redis);
-      }
+      await withRedis(opts, async (redis, config) => {
+        const { prefix, partitions: count } = config.redis;
+        const partitions = new Partitions(prefix, count);
+        const evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, redis, resolveQueueSettings({ prefix }), partitions);
+        try {
+          const store = new RedisStore(redis, { prefix, partitions: count, config });
+          const incidents = new RedisIncidents(redis, { rules: incidentRules(config), prefix, partitions: count });
+          // Announced on the live channel as the API announces it, so that every open board shows it at once.
+          const live = livePublisher(redis, prefix, createLogger({ level: process.env.LOG_LEVEL ?? 'warn' }));
+          const mark: SampleMark | null = opts.verdict === 'withdrawn' ? null : (opts.verdict as SampleMark);
+          const outcome = await new SampleVerdicts(store, evaluateQueues, partitions, { incidents, live }).mark({ unit, component }, sampleId, mark, by.data);
+          // The publisher sends at the end of this turn of the event loop: one turn later its PUBLISH is on the connection.
+          await new Promise((resolve) => setImmediate(resolve));
+          if (outcome !== 'taken') throw new InputError(refusalText(outcome, `sample "${sampleId}" of ${unit}/${component}`));
+          if (opts.json) writeJsonLine({ unit, component, sampleId, verdict: opts.verdict, by: by.data });
+          else process.stdout.write(terminalText(`${unit}/${component} sample ${sampleId}: ${opts.verdict} by ${by.data}; the workers judge the component again from this sample\n`));
+        } finally {
+          await Promise.all(evaluateQueues.map((q) => q.close()));
+        }
+      });
     });
 }

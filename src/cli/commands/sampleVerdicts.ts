@@ -10,15 +10,13 @@
  *   announced on the live channel, and the component queued to be judged again by the workers.
  */
 import type { Command } from 'commander';
-import type { Config } from '../../domain/config.ts';
 import { incidentRules } from '../../incidents/policy.ts';
 import type { Incident } from '../../incidents/model.ts';
 import { IncidentFilterSchema, MAX_LIST_LIMIT } from '../../incidents/listFilter.ts';
-import { closeQuietly, connectForCommand, redisTarget } from '../../redis/connection.ts';
 import { RedisIncidents } from '../../redis/redisIncidents.ts';
 import { RedisStore } from '../../redis/redisStore.ts';
-import { loadConfig } from '../../runtime/loadConfig.ts';
-import { redisChoice, writeJsonLine } from '../output.ts';
+import { writeJsonLine } from '../output.ts';
+import { withRedis } from '../commandRedis.ts';
 import { registerGive } from './sampleVerdictGive.ts';
 
 interface SampleVerdictsOptions {
@@ -45,11 +43,8 @@ export function registerSampleVerdicts(program: Command): void {
         '  wearshift replay history.csv --sample-verdicts words.jsonl',
       ].join('\n'),
     )
-    .action(async (opts: SampleVerdictsOptions) => {
-      const config: Config = loadConfig(opts.config ?? process.env.WEARSHIFT_CONFIG);
-      process.stderr.write(`wearshift: ${redisChoice(config)}\n`);
-      const redis = await connectForCommand(redisTarget(config));
-      try {
+    .action((opts: SampleVerdictsOptions) =>
+      withRedis(opts, async (redis, config) => {
         const store = new RedisStore(redis, { prefix: config.redis.prefix, partitions: config.redis.partitions, config });
         const incidents = new RedisIncidents(redis, { rules: incidentRules(config), prefix: config.redis.prefix, partitions: config.redis.partitions });
         const words = [];
@@ -77,10 +72,8 @@ export function registerSampleVerdicts(program: Command): void {
         const order = (w: { at?: string; unit: string; component: string; sampleId: string }) => [w.at === undefined ? 1 : 0, w.at ?? '', w.unit, w.component, w.sampleId].join('\u0000');
         for (const w of words.sort((a, b) => (order(a) < order(b) ? -1 : order(a) > order(b) ? 1 : 0))) writeJsonLine(w);
         process.stderr.write(`wearshift: ${words.length} sample verdicts\n`);
-      } finally {
-        await closeQuietly(redis);
-      }
-    });
+      }),
+    );
 }
 
 /** The latest timeline entry that gave this word on the sample, in the component's incidents. */
