@@ -8,6 +8,7 @@
 import { createConnection } from 'node:net';
 import { Cluster, Redis, type ClusterOptions, type RedisOptions } from 'ioredis';
 import { InputError } from '../domain/errors.ts';
+import { coalesceWrites } from './coalescedWrites.ts';
 import { maskUrl, type Logger } from '../telemetry/logger.ts';
 
 export { DEFAULT_REDIS_URL, describeTarget, redisTarget, redisUrl, type RedisTarget } from './target.ts';
@@ -57,6 +58,7 @@ export function connectRedis(target: string | RedisTarget, role: ConnectionRole,
           ...(role === 'worker' && { enableOfflineQueue: true }),
           ...(role === 'request' && { enableOfflineQueue: false }),
         } satisfies ClusterOptions);
+  coalesceWrites(redis);
   let reported = false;
   const where = describeTarget(t);
   // ioredis emits an error for every failed reconnect; one line per outage is enough.
@@ -168,6 +170,7 @@ export async function connectForCommand(target: string | RedisTarget): Promise<R
       clusterRetryStrategy: () => null,
     });
     cluster.on('error', () => {});
+    coalesceWrites(cluster);
     try {
       await within(cluster.connect(), COMMAND_LINE_READY_TIMEOUT_MS);
     } catch (e) {
@@ -181,6 +184,7 @@ export async function connectForCommand(target: string | RedisTarget): Promise<R
   }
   const redis = new Redis(t.url, { lazyConnect: true, maxRetriesPerRequest: 1, connectTimeout: 3000, commandTimeout: COMMAND_LINE_COMMAND_TIMEOUT_MS, retryStrategy: () => null });
   redis.on('error', keep);
+  coalesceWrites(redis);
   try {
     await within(redis.connect(), COMMAND_LINE_READY_TIMEOUT_MS);
   } catch (e) {
