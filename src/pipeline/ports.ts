@@ -165,6 +165,15 @@ export interface Lease {
   readonly token: string;
 }
 
+/** Where a responder's word on a sample came from: as `wearshift sample-verdicts` exports it for replay. */
+export interface WordGiven {
+  readonly by: string;
+  /** When it was given (ISO 8601). */
+  readonly at: string;
+  /** The component's latest judged sample when it was given; absent when none was judged yet. */
+  readonly after?: string;
+}
+
 export interface ComponentStore {
   /** Stores the revision (idempotent) and marks the component for evaluation from the sample's position. */
   store(sample: Sample, group: string, receivedAt: number): Promise<StoreOutcome>;
@@ -197,8 +206,13 @@ export interface ComponentStore {
   commitShares(ref: ComponentRef, lease: Lease, commit: SharesCommit): Promise<SharesOutcome>;
   /** Marks each component for evaluation from its `from` (a late result of another component changed its group's past). */
   markDirty(marks: readonly { readonly ref: ComponentRef; readonly from: StepPosition }[]): Promise<void>;
-  /** Records what a responder said of a sample and marks the component for evaluation from it. */
-  markSample(ref: ComponentRef, sampleId: string, mark: SampleMark | null): Promise<boolean>;
+  /**
+   * Records what a responder said of a sample and marks the component for evaluation from it; `given` (who, when, and
+   * the component's latest judged sample then) is kept with the mark, and goes with it when the word is taken back.
+   */
+  markSample(ref: ComponentRef, sampleId: string, mark: SampleMark | null, given?: WordGiven): Promise<boolean>;
+  /** Who gave each word the component holds, when, and after which sample, by sample; words stored without it are absent. */
+  wordsGiven(ref: ComponentRef): Promise<Map<string, WordGiven>>;
   /** The findings log of the component, in time order (steps with findings, the latest ones). */
   findings(ref: ComponentRef): Promise<StepRecord[]>;
   /**

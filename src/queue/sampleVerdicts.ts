@@ -14,17 +14,23 @@
  */
 import type { Queue } from 'bullmq';
 import type { SampleMark } from '../analysis/model.ts';
-import type { Incident } from '../incidents/model.ts';
+import type { Incident, StepPosition } from '../incidents/model.ts';
 import type { SampleVerdictWord } from '../incidents/sampleVerdict.ts';
 import { incidentLiveEvent, type LiveEvent } from '../pipeline/liveEvent.ts';
-import type { ComponentRef, ComponentStore } from '../pipeline/ports.ts';
+import type { ComponentRef, ComponentStore, WordGiven } from '../pipeline/ports.ts';
 import { wordRefusal } from '../pipeline/wordRefusal.ts';
 import type { Partitions } from '../redis/keys.ts';
 import { scheduleEvaluation } from './queues.ts';
 
 export interface SampleVerdictTimeline {
-  /** The incidents whose timeline takes the word (RedisIncidents). */
-  readonly incidents: { recordSampleVerdict(ref: ComponentRef, word: SampleVerdictWord): Promise<readonly Incident[]> };
+  /**
+   * The incidents whose timeline takes the word (RedisIncidents), and the component's incident state, whose latest
+   * judged sample is kept with the word (replay gives the word there).
+   */
+  readonly incidents: {
+    recordSampleVerdict(ref: ComponentRef, word: SampleVerdictWord): Promise<readonly Incident[]>;
+    component(ref: ComponentRef): Promise<{ readonly judged: StepPosition | null }>;
+  };
   /**
    * Told of each incident whose timeline changed, for live views: one closed because its evidence was set aside (a
    * late result withdrew it, or an earlier word answered it) with no severity standing.
@@ -60,12 +66,15 @@ export class SampleVerdicts {
         return known ? refusal : 'unknown';
       }
     }
-    const known = await this.store.markSample(ref, sampleId, mark);
+    const now = (this.timeline.now ?? (() => new Date()))();
+    const judged = mark === null ? null : (await this.timeline.incidents.component(ref)).judged;
+    const given: WordGiven = { by, at: now.toISOString(), ...(judged !== null && { after: judged.sampleId }) };
+    const known = await this.store.markSample(ref, sampleId, mark, given);
     if (!known) return 'unknown';
     // The word is in force once stored: the timeline says so after it (never of a word not taken), and the component
     // is judged again even when the timeline could not be written.
     try {
-      const word: SampleVerdictWord = { sampleId, verdict: mark ?? 'withdrawn', by, now: (this.timeline.now ?? (() => new Date()))() };
+      const word: SampleVerdictWord = { sampleId, verdict: mark ?? 'withdrawn', by, now };
       for (const incident of await this.timeline.incidents.recordSampleVerdict(ref, word)) {
         this.timeline.live?.(incidentLiveEvent(incident, 'sample-verdict', word.now.toISOString()));
       }

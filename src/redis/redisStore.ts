@@ -32,6 +32,7 @@ import type {
   StoredSample,
   StoreOutcome,
   StoreStatus,
+  WordGiven,
 } from '../pipeline/ports.ts';
 import { decodeCompactSample, decodeSample, encodeSample, encodeSampleCore, isCompactSample } from '../pipeline/sampleCodec.ts';
 import type { RedisConnection } from './connection.ts';
@@ -407,9 +408,15 @@ export class RedisStore implements ComponentStore, GroupLedger {
     );
   }
 
-  async markSample(ref: ComponentRef, sampleId: string, mark: SampleMark | null): Promise<boolean> {
+  async markSample(ref: ComponentRef, sampleId: string, mark: SampleMark | null, given?: WordGiven): Promise<boolean> {
     const { c } = this.keysOf(ref);
-    return (await this.scripts.markSample(c.evaluation, c.winners, sampleId, mark ?? '')) === 1;
+    return (await this.scripts.markSample(c.evaluation, c.winners, sampleId, mark ?? '', given === undefined ? '' : JSON.stringify(given))) === 1;
+  }
+
+  async wordsGiven(ref: ComponentRef): Promise<Map<string, WordGiven>> {
+    const raw = await this.redis.hget(this.keysOf(ref).c.evaluation, 'words');
+    const byId = JSON.parse(raw ?? '{}') as Record<string, string>;
+    return new Map(Object.entries(byId).map(([sampleId, text]) => [sampleId, JSON.parse(text) as WordGiven]));
   }
 
   async findings(ref: ComponentRef): Promise<StepRecord[]> {

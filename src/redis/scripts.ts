@@ -218,7 +218,10 @@ redis.call('HINCRBY', KEYS[1], 'mark', 1)
 return 1
 `;
 
-/** KEYS: evaluation, winners. ARGV: sampleId, mark ('' clears it). Returns 0 when the component has no such sample. */
+/**
+ * KEYS: evaluation, winners. ARGV: sampleId, mark ('' clears it), who gave it (the JSON text of a WordGiven, or '').
+ * Returns 0 when the component has no such sample.
+ */
 export const MARK_SAMPLE = `${POSITION}
 local winner = redis.call('HGET', KEYS[2], ARGV[1])
 if not winner then return 0 end
@@ -226,6 +229,10 @@ local _, wtime, wuh = string.match(winner, '^([^|]*)|([^|]*)|([^|]*)|')
 local marks = cjson.decode(redis.call('HGET', KEYS[1], 'marks') or '{}')
 if ARGV[2] == '' then marks[ARGV[1]] = nil else marks[ARGV[1]] = ARGV[2] end
 redis.call('HSET', KEYS[1], 'marks', next(marks) == nil and '{}' or cjson.encode(marks))
+-- Who gave the word, when and after which sample (a JSON text kept as it is), or nothing: it goes with the mark.
+local words = cjson.decode(redis.call('HGET', KEYS[1], 'words') or '{}')
+if ARGV[2] == '' or ARGV[3] == '' then words[ARGV[1]] = nil else words[ARGV[1]] = ARGV[3] end
+redis.call('HSET', KEYS[1], 'words', next(words) == nil and '{}' or cjson.encode(words))
 mark_dirty(KEYS[1], wtime .. '|' .. wuh .. '|' .. ARGV[1])
 redis.call('HINCRBY', KEYS[1], 'mark', 1)
 return 1

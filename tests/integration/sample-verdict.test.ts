@@ -19,7 +19,8 @@ import { createResultProducer, type ResultProducer } from '../../src/queue/produ
 import { openPartitionedQueues, openQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
 import { SampleVerdicts } from '../../src/queue/sampleVerdicts.ts';
 import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
-import { Partitions } from '../../src/redis/keys.ts';
+import { componentKeys, Partitions } from '../../src/redis/keys.ts';
+import { compactText, expandText } from '../../src/redis/compactText.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
@@ -387,6 +388,17 @@ describe('the words a live store holds, given to replay', () => {
     const bad = await runCliInProcess(['replay', results, '--config', replayConfig, '--json', '--sample-verdicts', wordsFile]);
     expect(bad.code).toBe(2);
     expect(bad.out).toBe('');
+
+    // Long after, the component's action log (its latest 500 actions) no longer holds the words, and the incidents'
+    // timelines never said after which sample they came: the export still says it, from what was kept with each word.
+    const evaluationKey = componentKeys(new Partitions(prefix, 1).tag(0), drive).evaluation;
+    const client = redis.client();
+    const held = JSON.parse(expandText((await client.hget(evaluationKey, 'incidents'))!)) as { actions: unknown[] };
+    expect(held.actions.length).toBeGreaterThan(0);
+    await client.hset(evaluationKey, 'incidents', compactText(JSON.stringify({ ...held, actions: [] })));
+    const again = await runCliInProcess(['sample-verdicts', '--config', join(dir, 'site.yaml')], { REDIS_URL: redis.url });
+    expect(again.code).toBe(0);
+    expect(again.out.trim().split('\n').map((l) => JSON.parse(l) as Record<string, string>).filter((w) => w.unit === drive.unit)).toEqual(words);
   });
 });
 

@@ -342,13 +342,19 @@ describe.each(implementations)('%s store', (_name, make) => {
     await store.commit(a, lease, commitOf([a, b], input.mark));
     await store.release(lease);
     expect((await store.evaluationInput(a))!.dirtyFrom).toBeUndefined();
-    expect(await store.markSample(a, 'M-2', 'confirmed')).toBe(true);
-    expect(await store.markSample(a, 'no-such-sample', 'rejected')).toBe(false);
+    const given = { by: 'lab desk', at: '2025-01-03T08:00:00.000Z', after: 'M-2' };
+    expect(await store.markSample(a, 'M-2', 'confirmed', given)).toBe(true);
+    expect(await store.markSample(a, 'M-1', 'rejected')).toBe(true);
+    expect(await store.markSample(a, 'no-such-sample', 'rejected', given)).toBe(false);
     const after = (await store.evaluationInput(a))!;
     expect(after.marks.get('M-2')).toBe('confirmed');
-    expect(after.dirtyFrom).toEqual(positionOf(b));
-    await store.markSample(a, 'M-2', null);
+    expect(after.dirtyFrom).toEqual(positionOf(a));
+    // Who gave a word, when and after which sample are kept with it (a word given without them has none).
+    expect(await store.wordsGiven(a)).toEqual(new Map([['M-2', given]]));
+    await store.markSample(a, 'M-2', null, given);
     expect((await store.evaluationInput(a))!.marks.has('M-2')).toBe(false);
+    expect((await store.wordsGiven(a)).size).toBe(0);
+    expect((await store.evaluationInput(a))!.marks.get('M-1')).toBe('rejected');
   });
 });
 

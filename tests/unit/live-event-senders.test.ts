@@ -117,7 +117,10 @@ describe('live events about an incident closed because its evidence was set asid
       [{ add: async () => undefined } as unknown as Queue],
       new Partitions('{unit}', 1),
       {
-        incidents: { recordSampleVerdict: async (_ref, word) => [{ ...incident, timeline: [...incident.timeline, { kind: 'sample-verdict', at: word.now.toISOString(), sampleId: word.sampleId, verdict: word.verdict, by: word.by }] }] },
+        incidents: {
+          recordSampleVerdict: async (_ref, word) => [{ ...incident, timeline: [...incident.timeline, { kind: 'sample-verdict', at: word.now.toISOString(), sampleId: word.sampleId, verdict: word.verdict, by: word.by }] }],
+          component: async () => ({ judged: null }),
+        },
         live: (e) => live.push(e),
         now: () => at,
       },

@@ -2,9 +2,10 @@
  * `wearshift sample-verdicts list|give`, straight against the live store:
  * - `list` (the default): the responders' words on samples that the store holds (confirmed, rejected, usual-rate), one
  *   JSON line each, in the order they were given: the file `wearshift replay` and `wearshift backtest` take with
- *   `--sample-verdicts`, so that they judge the same results with the same words as production. Who gave a word and
- *   when come from the component's action log, else the timelines of its incidents (its latest 1000 of the unit's);
- *   a word found in neither says neither.
+ *   `--sample-verdicts`, so that they judge the same results with the same words as production. Who gave a word,
+ *   when and after which sample are kept with the word; for a word stored before they were, they come from the
+ *   component's action log, else the timelines of its incidents (its latest 1000 of the unit's); a word found in
+ *   neither says neither.
  * - `give`: a responder's word from the terminal, as the API's `POST …/samples/:sampleId/verdict` takes it (the same
  *   SampleVerdicts, the same refusals): stored, written into the timelines of the incidents that hold the sample,
  *   announced on the live channel, and the component queued to be judged again by the workers.
@@ -37,7 +38,8 @@ export function registerSampleVerdicts(program: Command): void {
         'One JSON object per line, in the order the words were given (those whose time is unknown last):',
         '  {"unit","component","sampleId","verdict":"confirmed"|"rejected"|"usual-rate","after","by","at"}',
         'after: the component\'s latest sample when the word was given (replay gives the word there); by: who gave it;',
-        'at: when. Each is left out where the store no longer knows it.',
+        'at: when. All three are kept with the word; for a word given before they were (5 December 2026) they are',
+        'read from the incidents, and each is left out where the store no longer knows it.',
         'A word taken back is not listed. Save the output and give it to replay or backtest:',
         '  wearshift sample-verdicts > words.jsonl',
         '  wearshift replay history.csv --sample-verdicts words.jsonl',
@@ -52,6 +54,8 @@ export function registerSampleVerdicts(program: Command): void {
           const ref = { unit: entry.unit, component: entry.component };
           const marks = (await store.evaluationInput(ref))?.marks;
           if (marks === undefined || marks.size === 0) continue;
+          // Kept with each mark since 5 December 2026; a word stored before is looked up in the incidents.
+          const stored = await store.wordsGiven(ref);
           const state = await incidents.component(ref);
           // Where a word is no longer in the action log (its latest 500 actions), who gave it and when are looked up in
           // the component's incidents: those its state holds and those on record (a word that closed one leaves it there).
@@ -63,6 +67,11 @@ export function registerSampleVerdicts(program: Command): void {
             return (held = [...Object.values(state.incidents), ...onRecord]);
           };
           for (const [sampleId, verdict] of marks) {
+            const kept = stored.get(sampleId);
+            if (kept !== undefined) {
+              words.push({ ...ref, sampleId, verdict, ...(kept.after !== undefined && { after: kept.after }), by: kept.by, at: kept.at });
+              continue;
+            }
             const logged = state.actions.findLast((a) => a.action.kind === 'sample-verdict' && a.action.sampleId === sampleId && a.action.verdict === verdict);
             const given = logged !== undefined ? { by: logged.action.by!, at: logged.action.at } : lastWord(await heldIncidents(), sampleId, verdict);
             words.push({ ...ref, sampleId, verdict, ...(logged?.after != null && { after: logged.after.sampleId }), ...(given !== undefined && { by: given.by, at: given.at }) });

@@ -42,6 +42,7 @@ import type {
   StepRecord,
   StoredSample,
   StoreOutcome,
+  WordGiven,
 } from '../ports.ts';
 
 interface ComponentState {
@@ -60,6 +61,7 @@ interface ComponentState {
   latest?: string;
   sparse: Map<number, string>;
   marks: Map<string, SampleMark>;
+  wordsGiven: Map<string, WordGiven>;
   steps: Map<string, StepRecord & { time: number }>;
   shares: Map<string, SampleShare>;
   baselines: Partial<Record<Measurand, BaselineShare>>;
@@ -116,6 +118,7 @@ export class MemoryStore implements ComponentStore, GroupLedger {
         evaluated: 0,
         sparse: new Map(),
         marks: new Map(),
+        wordsGiven: new Map(),
         steps: new Map(),
         shares: new Map(),
         baselines: {},
@@ -345,15 +348,21 @@ export class MemoryStore implements ComponentStore, GroupLedger {
     }
   }
 
-  async markSample(ref: ComponentRef, sampleId: string, mark: SampleMark | null): Promise<boolean> {
+  async markSample(ref: ComponentRef, sampleId: string, mark: SampleMark | null, given?: WordGiven): Promise<boolean> {
     const c = this.byKey.get(componentKey(ref));
     const w = c?.winners.get(sampleId);
     if (c === undefined || w === undefined) return false;
     if (mark === null) c.marks.delete(sampleId);
     else c.marks.set(sampleId, mark);
+    if (mark === null || given === undefined) c.wordsGiven.delete(sampleId);
+    else c.wordsGiven.set(sampleId, given);
     dirty(c, w.position);
     c.mark += 1;
     return true;
+  }
+
+  async wordsGiven(ref: ComponentRef): Promise<Map<string, WordGiven>> {
+    return new Map(this.byKey.get(componentKey(ref))?.wordsGiven);
   }
 
   async findings(ref: ComponentRef): Promise<StepRecord[]> {
