@@ -36,6 +36,7 @@ import type {
 } from '../pipeline/ports.ts';
 import { decodeCompactSample, decodeSample, encodeSample, encodeSampleCore, isCompactSample } from '../pipeline/sampleCodec.ts';
 import type { RedisConnection } from './connection.ts';
+import { stepRecordOf, stepRecordText } from './stepRecordText.ts';
 import { changedIncidents } from './changedIncidents.ts';
 import { compactText, expandText } from './compactText.ts';
 import { COMMON_FIELD, componentKeys, groupKeys, partitionKeys, Partitions } from './keys.ts';
@@ -374,7 +375,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
       sparse: commit.sparse.map((cp) => [`cp|${String(cp.count).padStart(10, '0')}|${positionText(cp.position!)}`, compactText(JSON.stringify(cp))]),
       rewound: commit.rewoundTo === undefined ? '' : commit.rewoundTo === null ? 'start' : positionText(commit.rewoundTo),
       due: commit.dueFrom === undefined ? '' : positionText(commit.dueFrom),
-      steps: commit.steps.map((s) => [`${String(Date.parse(s.sampledAt)).padStart(15, '0')}|${s.sampleId}`, s.findings.length === 0 && s.status === undefined ? '' : compactText(JSON.stringify(s))]),
+      steps: commit.steps.map((s) => [`${String(Date.parse(s.sampledAt)).padStart(15, '0')}|${s.sampleId}`, s.findings.length === 0 && s.status === undefined ? '' : stepRecordText(ref, s)]),
       limit: this.findingsLogLimit,
       ...this.sharesPayload(ref, commit),
       version: String(commit.incidentsVersion),
@@ -424,7 +425,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
     const all = await this.redis.hgetall(c.steps);
     return Object.keys(all)
       .sort()
-      .map((k) => JSON.parse(expandText(all[k]!)) as StepRecord);
+      .map((k) => stepRecordOf(ref, all[k]!));
   }
 
   async incidentsOpenedAfter(ref: ComponentRef, position: StepPosition | null, before?: StepPosition): Promise<Incident[]> {
