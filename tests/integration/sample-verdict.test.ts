@@ -389,16 +389,25 @@ describe('the words a live store holds, given to replay', () => {
     expect(bad.code).toBe(2);
     expect(bad.out).toBe('');
 
-    // Long after, the component's action log (its latest 500 actions) no longer holds the words, and the incidents'
-    // timelines never said after which sample they came: the export still says it, from what was kept with each word.
     const evaluationKey = componentKeys(new Partitions(prefix, 1).tag(0), drive).evaluation;
     const client = redis.client();
+    const exportedWords = async () => {
+      const run = await runCliInProcess(['sample-verdicts', '--config', join(dir, 'site.yaml')], { REDIS_URL: redis.url });
+      expect(run.code).toBe(0);
+      return run.out.trim().split('\n').map((l) => JSON.parse(l) as Record<string, string>).filter((w) => w.unit === drive.unit);
+    };
+    // Words stored before who gave them was kept with them are read off the component's action log.
+    const kept = (await client.hget(evaluationKey, 'words'))!;
+    await client.hdel(evaluationKey, 'words');
+    expect(await exportedWords()).toEqual(words);
+    await client.hset(evaluationKey, 'words', kept);
+
+    // Long after, the component's action log (its latest 500 actions) no longer holds the words, and the incidents'
+    // timelines never said after which sample they came: the export still says it, from what was kept with each word.
     const held = JSON.parse(expandText((await client.hget(evaluationKey, 'incidents'))!)) as { actions: unknown[] };
     expect(held.actions.length).toBeGreaterThan(0);
     await client.hset(evaluationKey, 'incidents', compactText(JSON.stringify({ ...held, actions: [] })));
-    const again = await runCliInProcess(['sample-verdicts', '--config', join(dir, 'site.yaml')], { REDIS_URL: redis.url });
-    expect(again.code).toBe(0);
-    expect(again.out.trim().split('\n').map((l) => JSON.parse(l) as Record<string, string>).filter((w) => w.unit === drive.unit)).toEqual(words);
+    expect(await exportedWords()).toEqual(words);
   });
 });
 

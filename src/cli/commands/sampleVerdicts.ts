@@ -56,7 +56,8 @@ export function registerSampleVerdicts(program: Command): void {
           if (marks === undefined || marks.size === 0) continue;
           // Kept with each mark since 5 December 2026; a word stored before is looked up in the incidents.
           const stored = await store.wordsGiven(ref);
-          const state = await incidents.component(ref);
+          let state: Awaited<ReturnType<typeof incidents.component>> | undefined;
+          const componentState = async () => (state ??= await incidents.component(ref));
           // Where a word is no longer in the action log (its latest 500 actions), who gave it and when are looked up in
           // the component's incidents: those its state holds and those on record (a word that closed one leaves it there).
           let held: Incident[] | undefined;
@@ -64,7 +65,7 @@ export function registerSampleVerdicts(program: Command): void {
             if (held !== undefined) return held;
             const listed = (await incidents.list(IncidentFilterSchema.parse({ state: 'all', unit: ref.unit, limit: MAX_LIST_LIMIT }))).filter((i) => i.component === ref.component);
             const onRecord = (await Promise.all(listed.map((i) => incidents.get(i.id)))).filter((i): i is Incident => i !== undefined);
-            return (held = [...Object.values(state.incidents), ...onRecord]);
+            return (held = [...Object.values((await componentState()).incidents), ...onRecord]);
           };
           for (const [sampleId, verdict] of marks) {
             const kept = stored.get(sampleId);
@@ -72,7 +73,7 @@ export function registerSampleVerdicts(program: Command): void {
               words.push({ ...ref, sampleId, verdict, ...(kept.after !== undefined && { after: kept.after }), by: kept.by, at: kept.at });
               continue;
             }
-            const logged = state.actions.findLast((a) => a.action.kind === 'sample-verdict' && a.action.sampleId === sampleId && a.action.verdict === verdict);
+            const logged = (await componentState()).actions.findLast((a) => a.action.kind === 'sample-verdict' && a.action.sampleId === sampleId && a.action.verdict === verdict);
             const given = logged !== undefined ? { by: logged.action.by!, at: logged.action.at } : lastWord(await heldIncidents(), sampleId, verdict);
             words.push({ ...ref, sampleId, verdict, ...(logged?.after != null && { after: logged.after.sampleId }), ...(given !== undefined && { by: given.by, at: given.at }) });
           }
