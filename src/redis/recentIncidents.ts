@@ -5,6 +5,7 @@
  */
 import type { Incident } from '../incidents/model.ts';
 import type { RedisConnection } from './connection.ts';
+import { incidentOfRecord } from './incidentRecordText.ts';
 import { partitionKeys, type Partitions } from './keys.ts';
 
 export interface RecentIncidents {
@@ -46,7 +47,7 @@ export async function readRecentIncidents(redis: RedisConnection, partitions: Pa
   for (const { records, ids } of wanted) {
     for (let i = 0; i < ids.length; i += PAGE) {
       const raw = await redis.hmget(records, ...ids.slice(i, i + PAGE));
-      for (const r of raw) if (r !== null) incidents.push(JSON.parse(r) as Incident);
+      for (const r of raw) if (r !== null) incidents.push(incidentOfRecord(r));
     }
   }
   return { incidents, components: perPartition.reduce((s, p) => s + p.components, 0), truncated };

@@ -18,6 +18,7 @@ import { applySampleVerdict, type SampleVerdictWord } from '../incidents/sampleV
 import { withdrawMessage, type MessageWithdrawal } from '../incidents/withdrawal.ts';
 import { changedIncidents } from './changedIncidents.ts';
 import { compactText, expandText } from './compactText.ts';
+import { incidentOfRecord } from './incidentRecordText.ts';
 import { componentKeys, partitionKeys, Partitions } from './keys.ts';
 import { incidentRecordRows, type RedisConnection } from './redisStore.ts';
 import { CLAIM_OUTBOX, RANGE_AFTER, UPDATE_INCIDENTS } from './scripts.ts';
@@ -193,7 +194,7 @@ export class RedisIncidents {
     const ref = ownerOf(incidentId);
     if (ref === undefined) return undefined;
     const raw = await this.redis.hget(this.keysOf(ref).p.records, incidentId);
-    return raw === null ? undefined : (JSON.parse(raw) as Incident);
+    return raw === null ? undefined : incidentOfRecord(raw);
   }
 
   /** Open incidents by severity (highest first), then newest first; closed ones newest closing first. */
@@ -259,7 +260,7 @@ export class RedisIncidents {
     for (let start = 0; ; start += page) {
       const ids = await this.redis.zrange(zset, start, start + page - 1);
       if (ids.length === 0) break;
-      for (const raw of await this.redis.hmget(records, ...ids)) if (raw !== null && matchesFilter(summarize(JSON.parse(raw) as Incident), filter)) matching += 1;
+      for (const raw of await this.redis.hmget(records, ...ids)) if (raw !== null && matchesFilter(summarize(incidentOfRecord(raw)), filter)) matching += 1;
       if (ids.length < page) break;
     }
     return matching;
@@ -360,7 +361,7 @@ export class RedisIncidents {
         position = entries[i];
         const raw = records[i];
         if (raw === null || raw === undefined) continue;
-        const summary = summarize(JSON.parse(raw) as Incident);
+        const summary = summarize(incidentOfRecord(raw));
         if (matchesFilter(summary, filter)) out.push({ position: entries[i]!, summary });
       }
       if (entries.length < batch) break;
@@ -373,7 +374,7 @@ export class RedisIncidents {
     const { c, p } = this.keysOf(ref);
     const ids = await this.redis.zrange(c.incidents, 0, -1);
     if (ids.length === 0) return [];
-    return (await this.redis.hmget(p.records, ...ids)).filter((r): r is string => r !== null).map((r) => JSON.parse(r) as Incident);
+    return (await this.redis.hmget(p.records, ...ids)).filter((r): r is string => r !== null).map(incidentOfRecord);
   }
 
   private async read(ref: ComponentRef): Promise<{ version: string; state: ComponentIncidents }> {

@@ -39,6 +39,7 @@ import type { RedisConnection } from './connection.ts';
 import { stepRecordOf, stepRecordText } from './stepRecordText.ts';
 import { changedIncidents } from './changedIncidents.ts';
 import { compactText, expandText } from './compactText.ts';
+import { incidentOfRecord, incidentRecordText } from './incidentRecordText.ts';
 import { COMMON_FIELD, componentKeys, groupKeys, partitionKeys, Partitions } from './keys.ts';
 import { ACQUIRE_WITH_INPUT, COMMIT_EVALUATION, MARK_DIRTY, MARK_SAMPLE, OWN_SHARES, RELEASE_LOCK, RENEW_LOCK, SAMPLES_AFTER, STORE_SAMPLE } from './scripts.ts';
 
@@ -88,7 +89,7 @@ export function openScore(inc: Incident): string {
 export function incidentRecordRows(incidents: readonly Incident[]): Array<[string, string, 'open' | 'closed', string, string]> {
   return incidents.map((inc) => [
     inc.id,
-    JSON.stringify(inc),
+    incidentRecordText(inc),
     inc.closed === null ? 'open' : 'closed',
     inc.closed === null ? openScore(inc) : String(Date.parse(inc.closed.at)),
     String(Date.parse(inc.openedAt)),
@@ -433,7 +434,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
     const ids = await this.redis.zrangebyscore(c.incidents, position === null ? '-inf' : position.time, before === undefined ? '+inf' : before.time);
     if (ids.length === 0) return [];
     const raw = await this.redis.hmget(p.records, ...ids);
-    const incidents = raw.filter((r): r is string => r !== null).map((r) => JSON.parse(r) as Incident);
+    const incidents = raw.filter((r): r is string => r !== null).map(incidentOfRecord);
     if (position === null && before === undefined) return incidents;
     const openers = await this.redis.hmget(c.winners, ...incidents.map((i) => i.openedBySampleId));
     return incidents.filter((inc, i) => {
