@@ -22,7 +22,7 @@ import type { ResultEvent } from '../src/domain/event.ts';
 import type { NotifyEffect } from '../src/incidents/model.ts';
 import { createResultProducer, type ResultProducer } from '../src/queue/producer.ts';
 import { DEFAULT_HISTORY_JOB_SIZE, defaultJobOptions, openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings } from '../src/queue/queues.ts';
-import { incidentOfRecord } from '../src/redis/incidentRecordText.ts';
+import { incidentOfRecord } from '../src/redis/incidentRecordValue.ts';
 import { Partitions } from '../src/redis/keys.ts';
 import { validateBatch } from '../src/intake/validate.ts';
 import { WORKER_DEFAULTS } from '../src/queue/workers.ts';
@@ -578,14 +578,15 @@ async function incidentRecordFigures(client: Redis): Promise<IncidentRecordFigur
     const [next, keys] = await client.scan(cursor, 'MATCH', `${PREFIX}*:inc:records`, 'COUNT', 1000);
     cursor = next;
     for (const key of keys) {
+      // Read as bytes: the records are stored deflated (compactText.ts, z3).
       let field = '0';
       do {
-        const [after, flat] = await client.hscan(key, field, 'COUNT', 500);
-        field = after;
+        const [after, flat] = await client.hscanBuffer(key, field, 'COUNT', 500);
+        field = after.toString();
         for (let i = 1; i < flat.length; i += 2) {
           const closed = incidentOfRecord(flat[i]!).closed !== null;
           sums[closed ? 'closed' : 'open'] += 1;
-          sums[closed ? 'closedBytes' : 'openBytes'] += Buffer.byteLength(flat[i]!);
+          sums[closed ? 'closedBytes' : 'openBytes'] += flat[i]!.length;
         }
       } while (field !== '0');
     }

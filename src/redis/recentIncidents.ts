@@ -5,7 +5,7 @@
  */
 import type { Incident } from '../incidents/model.ts';
 import type { RedisConnection } from './connection.ts';
-import { incidentOfRecord } from './incidentRecordText.ts';
+import { incidentOfRecord } from './incidentRecordValue.ts';
 import { partitionKeys, type Partitions } from './keys.ts';
 
 export interface RecentIncidents {
@@ -46,7 +46,7 @@ export async function readRecentIncidents(redis: RedisConnection, partitions: Pa
   const incidents: Incident[] = [];
   for (const { records, ids } of wanted) {
     for (let i = 0; i < ids.length; i += PAGE) {
-      const raw = await redis.hmget(records, ...ids.slice(i, i + PAGE));
+      const raw = await redis.hmgetBuffer(records, ...ids.slice(i, i + PAGE));
       for (const r of raw) if (r !== null) incidents.push(incidentOfRecord(r));
     }
   }

@@ -17,10 +17,11 @@ import type { IncidentRules } from '../incidents/policy.ts';
 import { applySampleVerdict, type SampleVerdictWord } from '../incidents/sampleVerdict.ts';
 import { withdrawMessage, type MessageWithdrawal } from '../incidents/withdrawal.ts';
 import { changedIncidents } from './changedIncidents.ts';
-import { compactText, expandText } from './compactText.ts';
-import { incidentOfRecord } from './incidentRecordText.ts';
+import { compactValue, expandValue } from './compactText.ts';
+import { incidentOfRecord } from './incidentRecordValue.ts';
 import { componentKeys, partitionKeys, Partitions } from './keys.ts';
 import { incidentRecordRows, type RedisConnection } from './redisStore.ts';
+import { ScriptValues } from './scriptValues.ts';
 import { CLAIM_OUTBOX, RANGE_AFTER, UPDATE_INCIDENTS } from './scripts.ts';
 
 export interface RedisIncidentsOptions {
@@ -193,7 +194,7 @@ export class RedisIncidents {
   async get(incidentId: string): Promise<Incident | undefined> {
     const ref = ownerOf(incidentId);
     if (ref === undefined) return undefined;
-    const raw = await this.redis.hget(this.keysOf(ref).p.records, incidentId);
+    const raw = await this.redis.hgetBuffer(this.keysOf(ref).p.records, incidentId);
     return raw === null ? undefined : incidentOfRecord(raw);
   }
 
@@ -260,7 +261,7 @@ export class RedisIncidents {
     for (let start = 0; ; start += page) {
       const ids = await this.redis.zrange(zset, start, start + page - 1);
       if (ids.length === 0) break;
-      for (const raw of await this.redis.hmget(records, ...ids)) if (raw !== null && matchesFilter(summarize(incidentOfRecord(raw)), filter)) matching += 1;
+      for (const raw of await this.redis.hmgetBuffer(records, ...ids)) if (raw !== null && matchesFilter(summarize(incidentOfRecord(raw)), filter)) matching += 1;
       if (ids.length < page) break;
     }
     return matching;
@@ -355,7 +356,7 @@ export class RedisIncidents {
       if (flat.length === 0) break;
       const entries: ListPosition[] = [];
       for (let i = 0; i < flat.length; i += 2) entries.push({ index, id: flat[i]!, key: Number(flat[i + 1]) });
-      const records = await this.redis.hmget(p.records, ...entries.map((e) => e.id));
+      const records = await this.redis.hmgetBuffer(p.records, ...entries.map((e) => e.id));
       for (let i = 0; i < records.length && out.length < want; i++) {
         examined += 1;
         position = entries[i];
@@ -374,12 +375,12 @@ export class RedisIncidents {
     const { c, p } = this.keysOf(ref);
     const ids = await this.redis.zrange(c.incidents, 0, -1);
     if (ids.length === 0) return [];
-    return (await this.redis.hmget(p.records, ...ids)).filter((r): r is string => r !== null).map(incidentOfRecord);
+    return (await this.redis.hmgetBuffer(p.records, ...ids)).filter((r): r is Buffer => r !== null).map(incidentOfRecord);
   }
 
   private async read(ref: ComponentRef): Promise<{ version: string; state: ComponentIncidents }> {
-    const [version, raw] = await this.redis.hmget(this.keysOf(ref).c.evaluation, 'version', 'incidents');
-    return { version: version ?? '0', state: raw === null || raw === undefined ? emptyComponentIncidents(ref.unit, ref.component) : (JSON.parse(expandText(raw)) as ComponentIncidents) };
+    const [version, raw] = await this.redis.hmgetBuffer(this.keysOf(ref).c.evaluation, 'version', 'incidents');
+    return { version: version?.toString('utf8') ?? '0', state: raw === null || raw === undefined ? emptyComponentIncidents(ref.unit, ref.component) : (JSON.parse(expandValue(raw)) as ComponentIncidents) };
   }
 
   private async update<R extends { state: ComponentIncidents; effects: readonly IncidentEffect[]; archived?: readonly Incident[] }>(
@@ -393,8 +394,14 @@ export class RedisIncidents {
       const result = await operate(state);
       const changed = [...changedIncidents(state, result.state), ...(result.archived ?? [])];
       if (changed.length === 0 && result.effects.length === 0 && JSON.stringify(state) === JSON.stringify(result.state)) return result;
-      const payload = { state: compactText(JSON.stringify(result.state)), records: incidentRecordRows(changed), outbox: result.effects.map((e) => JSON.stringify(e)) };
-      const committed = await this.redis.eval(UPDATE_INCIDENTS, 6, c.evaluation, p.records, p.open, p.closed, p.outbox, c.incidents, version, JSON.stringify(payload));
+      // The state and the records go as arguments of their own after the payload, which names them (scripts.ts).
+      const values = new ScriptValues(3);
+      const payload = {
+        state: values.add(compactValue(JSON.stringify(result.state))),
+        records: incidentRecordRows(changed).map(([id, value, status, score, opened]) => [id, values.add(value), status, score, opened]),
+        outbox: result.effects.map((e) => JSON.stringify(e)),
+      };
+      const committed = await this.redis.eval(UPDATE_INCIDENTS, 6, c.evaluation, p.records, p.open, p.closed, p.outbox, c.incidents, version, JSON.stringify(payload), ...values.values);
       if (committed === 1) return result;
       if (attempt >= this.maxAttempts) throw new Error(`incidents of ${ref.unit}/${ref.component}: gave up after ${attempt} concurrent updates`);
       await new Promise((r) => setTimeout(r, Math.random() * Math.min(50, 2 ** attempt)));

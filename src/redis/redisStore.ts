@@ -36,10 +36,11 @@ import type {
 } from '../pipeline/ports.ts';
 import { decodeCompactSample, decodeSample, encodeSample, encodeSampleCore, isCompactSample } from '../pipeline/sampleCodec.ts';
 import type { RedisConnection } from './connection.ts';
+import { ScriptValues } from './scriptValues.ts';
 import { stepRecordOf, stepRecordText } from './stepRecordText.ts';
 import { changedIncidents } from './changedIncidents.ts';
-import { compactText, expandText } from './compactText.ts';
-import { incidentOfRecord, incidentRecordText } from './incidentRecordText.ts';
+import { compactValue, expandValue } from './compactText.ts';
+import { incidentOfRecord, incidentRecordValue } from './incidentRecordValue.ts';
 import { COMMON_FIELD, componentKeys, groupKeys, partitionKeys, Partitions } from './keys.ts';
 import { ACQUIRE_WITH_INPUT, COMMIT_EVALUATION, MARK_DIRTY, MARK_SAMPLE, OWN_SHARES, RELEASE_LOCK, RENEW_LOCK, SAMPLES_AFTER, STORE_SAMPLE } from './scripts.ts';
 
@@ -68,7 +69,7 @@ export const DEFAULT_GROUP_STATS_MEMO = 1000;
 /** Months kept per component in the memo of group statistics. */
 const MEMO_MONTHS = 4;
 
-type ScriptCall = (...args: string[]) => Promise<unknown>;
+type ScriptCall = (...args: Array<string | Buffer>) => Promise<unknown>;
 
 const BASELINE_FIELDS = ['components', 'intervals', 'sumHours', 'sumHoursSq', 'sumIncrement', 'sumIncrementSq', 'sumIncrementHours', 'sumLabVariance', 'sumRate', 'sumRateSq', 'positive', 'sumLog', 'sumLogSq'] as const;
 
@@ -86,33 +87,32 @@ export function openScore(inc: Incident): string {
   return String((2 - severityRank(inc.severity)) * 1e13 + (1e13 - Date.parse(inc.openedAt)));
 }
 
-export function incidentRecordRows(incidents: readonly Incident[]): Array<[string, string, 'open' | 'closed', string, string]> {
+/** Per incident: its id, its stored record (incidentRecordValue.ts), open or closed, its score in that index, its opening time. */
+export function incidentRecordRows(incidents: readonly Incident[]): Array<[string, string | Buffer, 'open' | 'closed', string, string]> {
   return incidents.map((inc) => [
     inc.id,
-    incidentRecordText(inc),
+    incidentRecordValue(inc),
     inc.closed === null ? 'open' : 'closed',
     inc.closed === null ? openScore(inc) : String(Date.parse(inc.closed.at)),
     String(Date.parse(inc.openedAt)),
   ]);
 }
 
-/** The commit script's first argument after the payload: the incidents' JSON texts follow as arguments of their own. */
-const FIRST_RECORD_ARGUMENT = 4;
+/** The commit script's first argument after the payload (token, mark, payload): the stored values follow. */
+const FIRST_VALUE_ARGUMENT = 4;
 
 /**
- * The incident part of a commit: each changed incident's JSON text is sent once, as a script argument of its own (not
- * escaped inside the payload), which its record row names; the component's incident state, which holds them too, is
- * stored compact (compactText.ts) and sent so.
+ * The incident part of a commit: each changed incident's record is sent once, as a script argument of its own, which
+ * its record row names; and the component's incident state, which holds them too, in its compact form.
  */
-function incidentArguments(commit: EvaluationCommit, first: number) {
+function incidentArguments(commit: EvaluationCommit, values: ScriptValues) {
   const state = commit.incidents;
   // Records already on file as they are (the input's state, at the version the commit checks) are not sent again.
   const current = commit.recorded === undefined ? Object.values(state.incidents) : changedIncidents(commit.recorded, state);
   const rows = incidentRecordRows([...current, ...commit.archived, ...commit.withdrawn]);
   return {
-    texts: rows.map((r) => r[1]),
-    records: rows.map(([id, , status, score, opened], i) => [id, first + i, status, score, opened] as const),
-    state: compactText(JSON.stringify(state)),
+    records: rows.map(([id, value, status, score, opened]) => [id, values.add(value), status, score, opened] as const),
+    state: values.add(compactValue(JSON.stringify(state))),
   };
 }
 
@@ -144,9 +144,15 @@ export class RedisStore implements ComponentStore, GroupLedger {
       const command = (redis as unknown as Record<string, ScriptCall>)[commandName]!;
       return (...args) => command.apply(redis, args);
     };
+    // The same script with its reply as bytes (the stored values in it are binary, compactText.ts).
+    const defineBytes = (name: string, numberOfKeys: number, lua: string): ScriptCall => {
+      define(name, numberOfKeys, lua);
+      const command = (redis as unknown as Record<string, ScriptCall>)[`wearshift_${name}Buffer`]!;
+      return (...args) => command.apply(redis, args);
+    };
     this.scripts = {
       store: define('store', 5, STORE_SAMPLE),
-      acquireWithInput: define('acquireWithInput', 5, ACQUIRE_WITH_INPUT),
+      acquireWithInput: defineBytes('acquireWithInput', 5, ACQUIRE_WITH_INPUT),
       samplesAfter: define('samplesAfter', 3, SAMPLES_AFTER),
       renew: define('renewLock', 1, RENEW_LOCK),
       release: define('releaseLock', 1, RELEASE_LOCK),
@@ -278,7 +284,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
       this.redis.hget(p.registry, componentKey(ref)),
       this.redis.zcard(c.order),
       this.redis.zrange(c.order, -1, -1, 'WITHSCORES'),
-      this.redis.hmget(c.evaluation, 'mark', 'dirty', 'latest', 'incidents', 'version', 'marks'),
+      this.redis.hmgetBuffer(c.evaluation, 'mark', 'dirty', 'latest', 'incidents', 'version', 'marks'),
       this.redis.zrange(c.incidents, -1, -1, 'WITHSCORES'),
     ]);
     return inputOf(ref, head, count, last, [...fields.map((f) => f ?? ''), opened[1] ?? '']);
@@ -287,12 +293,12 @@ export class RedisStore implements ComponentStore, GroupLedger {
   async acquireWithInput(ref: ComponentRef, ttlMs: number): Promise<{ lease: Lease; input: EvaluationInput | undefined } | undefined> {
     const { c, p } = this.keysOf(ref);
     const token = randomUUID();
-    const reply = (await this.scripts.acquireWithInput(c.lock, p.registry, c.order, c.evaluation, c.incidents, token, String(ttlMs), componentKey(ref))) as Array<string | number>;
+    const reply = (await this.scripts.acquireWithInput(c.lock, p.registry, c.order, c.evaluation, c.incidents, token, String(ttlMs), componentKey(ref))) as Array<Buffer | number>;
     if (reply[0] === 0) return undefined;
-    const [, head, count, lastId, lastTime, ...fields] = reply as [number, string, number, string, string, ...string[]];
+    const [, head, count, lastId, lastTime, ...fields] = reply as [number, Buffer, number, Buffer, Buffer, ...Buffer[]];
     return {
       lease: { key: c.lock, token },
-      input: inputOf(ref, head === '' ? null : head, count, lastId === '' ? [] : [lastId, lastTime], fields),
+      input: inputOf(ref, head.length === 0 ? null : head.toString('utf8'), count, lastId.length === 0 ? [] : [lastId.toString('utf8'), lastTime.toString('utf8')], fields),
     };
   }
 
@@ -316,8 +322,8 @@ export class RedisStore implements ComponentStore, GroupLedger {
       if (best === undefined || count > best.count) best = { count, field };
     }
     if (best === undefined) return undefined;
-    const json = await this.redis.hget(c.evaluation, best.field);
-    return json === null ? undefined : (JSON.parse(expandText(json)) as Checkpoint);
+    const stored = await this.redis.hgetBuffer(c.evaluation, best.field);
+    return stored === null ? undefined : (JSON.parse(expandValue(stored)) as Checkpoint);
   }
 
   async acquire(ref: ComponentRef, ttlMs: number): Promise<Lease | undefined> {
@@ -371,22 +377,21 @@ export class RedisStore implements ComponentStore, GroupLedger {
   }
 
   async commit(ref: ComponentRef, lease: Lease, commit: EvaluationCommit): Promise<CommitOutcome> {
-    const payload0 = {
-      latest: compactText(JSON.stringify(commit.latest)),
-      sparse: commit.sparse.map((cp) => [`cp|${String(cp.count).padStart(10, '0')}|${positionText(cp.position!)}`, compactText(JSON.stringify(cp))]),
+    const values = new ScriptValues(FIRST_VALUE_ARGUMENT);
+    const head = {
+      latest: values.add(compactValue(JSON.stringify(commit.latest))),
+      sparse: commit.sparse.map((cp) => [`cp|${String(cp.count).padStart(10, '0')}|${positionText(cp.position!)}`, values.add(compactValue(JSON.stringify(cp)))]),
       rewound: commit.rewoundTo === undefined ? '' : commit.rewoundTo === null ? 'start' : positionText(commit.rewoundTo),
       due: commit.dueFrom === undefined ? '' : positionText(commit.dueFrom),
-      steps: commit.steps.map((s) => [`${String(Date.parse(s.sampledAt)).padStart(15, '0')}|${s.sampleId}`, s.findings.length === 0 && s.status === undefined ? '' : stepRecordText(ref, s)]),
+      steps: commit.steps.map((s) => [`${String(Date.parse(s.sampledAt)).padStart(15, '0')}|${s.sampleId}`, s.findings.length === 0 && s.status === undefined ? '' : values.add(stepRecordText(ref, s))]),
       limit: this.findingsLogLimit,
       ...this.sharesPayload(ref, commit),
       version: String(commit.incidentsVersion),
-      ...incidentArguments(commit, FIRST_RECORD_ARGUMENT),
+      ...incidentArguments(commit, values),
       outbox: commit.effects.map((e) => JSON.stringify(e)),
       release: commit.releaseWhenSettled === true ? 1 : 0,
     };
-    const { texts, ...head } = payload0;
-    const payload = { head, texts };
-    const result = (await this.scripts.commit(...this.commitKeys(ref, lease), lease.token, String(commit.mark), JSON.stringify(payload.head), ...payload.texts)) as [number, string?, number?];
+    const result = (await this.scripts.commit(...this.commitKeys(ref, lease), lease.token, String(commit.mark), JSON.stringify(head), ...values.values)) as [number, string?, number?];
     if (result[0] === 0) return { ok: false, reason: 'lost-lock' };
     if (result[0] === -1) return { ok: false, reason: 'incidents-changed' };
     return { ok: true, settled: result[2] === 1, ...(result[1] && { changedMonth: result[1] }) };
@@ -423,7 +428,7 @@ export class RedisStore implements ComponentStore, GroupLedger {
 
   async findings(ref: ComponentRef): Promise<StepRecord[]> {
     const { c } = this.keysOf(ref);
-    const all = await this.redis.hgetall(c.steps);
+    const all = await this.redis.hgetallBuffer(c.steps);
     return Object.keys(all)
       .sort()
       .map((k) => stepRecordOf(ref, all[k]!));
@@ -433,8 +438,8 @@ export class RedisStore implements ComponentStore, GroupLedger {
     const { c, p } = this.keysOf(ref);
     const ids = await this.redis.zrangebyscore(c.incidents, position === null ? '-inf' : position.time, before === undefined ? '+inf' : before.time);
     if (ids.length === 0) return [];
-    const raw = await this.redis.hmget(p.records, ...ids);
-    const incidents = raw.filter((r): r is string => r !== null).map(incidentOfRecord);
+    const raw = await this.redis.hmgetBuffer(p.records, ...ids);
+    const incidents = raw.filter((r): r is Buffer => r !== null).map(incidentOfRecord);
     if (position === null && before === undefined) return incidents;
     const openers = await this.redis.hmget(c.winners, ...incidents.map((i) => i.openedBySampleId));
     return incidents.filter((inc, i) => {
@@ -648,17 +653,22 @@ function entryOf(h: RegistryHead, count: number, last: string[]): ComponentEntry
   return { unit: h.unit, component: h.component, group: h.group, samples: count, lastSampledAt: new Date(Number(last[1] ?? 0)).toISOString() };
 }
 
-/** The evaluation input from the registry entry, the sample count, the last sample and the evaluation fields ('' missing). */
-function inputOf(ref: ComponentRef, head: string | null, count: number, last: string[], fields: readonly string[]): EvaluationInput | undefined {
+/**
+ * The evaluation input from the registry entry, the sample count, the last sample and the evaluation fields ('' missing;
+ * read as bytes, since the checkpoint and the incident state are stored so, compactText.ts).
+ */
+function inputOf(ref: ComponentRef, head: string | null, count: number, last: string[], fields: ReadonlyArray<string | Buffer>): EvaluationInput | undefined {
   if (head === null || count === 0) return undefined;
-  const [mark, dirty, latest, incidents, version, marks, lastOpened] = fields;
+  const text = (v: string | Buffer | undefined) => (v === undefined ? undefined : typeof v === 'string' ? v : v.toString('utf8'));
+  const [mark, dirty, version, marks, lastOpened] = [fields[0], fields[1], fields[4], fields[5], fields[6]].map(text);
+  const [latest, incidents] = [fields[2], fields[3]];
   return {
     entry: entryOf(JSON.parse(head) as RegistryHead, count, last),
     mark: Number(mark || 0),
     ...(dirty && { dirtyFrom: parsePosition(dirty) }),
-    ...(latest && { latest: JSON.parse(expandText(latest)) as Checkpoint }),
+    ...(latest && latest.length > 0 && { latest: JSON.parse(expandValue(latest)) as Checkpoint }),
     marks: new Map(Object.entries(JSON.parse(marks || '{}') as Record<string, SampleMark>)),
-    incidents: incidents ? (JSON.parse(expandText(incidents)) as ComponentIncidents) : emptyComponentIncidents(ref.unit, ref.component),
+    incidents: incidents && incidents.length > 0 ? (JSON.parse(expandValue(incidents)) as ComponentIncidents) : emptyComponentIncidents(ref.unit, ref.component),
     incidentsVersion: Number(version || 0),
     ...(lastOpened !== undefined && { lastOpenedAt: lastOpened === '' ? null : Number(lastOpened) }),
   };

@@ -238,11 +238,18 @@ redis.call('HINCRBY', KEYS[1], 'mark', 1)
 return 1
 `;
 
-/** The incident part of a commit: records, indexes and the outbox. */
+/**
+ * The incident part of a commit: records, indexes and the outbox. And `stored`: a stored value the payload names by
+ * its argument number (the compact values travel as arguments of their own, bytes as they are; compactText.ts).
+ */
 const INCIDENT_RECORDS = `
+local function stored(v)
+  if type(v) == 'number' then return ARGV[v] end
+  return v
+end
 local function write_incidents(p, recordsKey, openKey, closedKey, outboxKey, indexKey)
   for _, r in ipairs(p.records) do
-    redis.call('HSET', recordsKey, r[1], r[2])
+    redis.call('HSET', recordsKey, r[1], stored(r[2]))
     if r[3] == 'open' then
       redis.call('ZADD', openKey, r[4], r[1])
       redis.call('ZREM', closedKey, r[1])
@@ -259,13 +266,15 @@ end
 /**
  * An operator's action or an escalation check on a component's incidents: compare-and-set on the version.
  * KEYS: evaluation, records, open, closed, outbox, component incident index.
- * ARGV: expected version, payload JSON {state (compact, compactText.ts), records: [[id, json, open|closed, score, openedTime]], outbox: [json]}.
+ * ARGV: expected version, payload JSON {state, records: [[id, record, open|closed, score, openedTime]], outbox: [json]},
+ * then the stored values (the state and each record, compactText.ts), one argument each (ARGV[3] on), which the
+ * payload names by number.
  * Returns 1, or 0 when the version moved on (someone else changed the incidents: read again and retry).
  */
 export const UPDATE_INCIDENTS = `${INCIDENT_RECORDS}
 if (redis.call('HGET', KEYS[1], 'version') or '0') ~= ARGV[1] then return 0 end
 local p = cjson.decode(ARGV[2])
-redis.call('HSET', KEYS[1], 'incidents', p.state, 'version', tostring(tonumber(ARGV[1]) + 1))
+redis.call('HSET', KEYS[1], 'incidents', stored(p.state), 'version', tostring(tonumber(ARGV[1]) + 1))
 write_incidents(p, KEYS[2], KEYS[3], KEYS[4], KEYS[5], KEYS[6])
 return 1
 `;
@@ -275,13 +284,13 @@ return 1
  * KEYS: lock, evaluation, winners, steps, component incident index, own shares of an earlier layout (deleted), registry,
  * records, open, closed, outbox.
  * ARGV: token, mark, payload JSON:
- *   latest, sparse [[field, json]], rewound ('' none, 'start', or a position), due ('' or the position from which
- *   read samples were not folded), steps [[field, json or '']], limit,
+ *   latest, sparse [[field, checkpoint]], rewound ('' none, 'start', or a position), due ('' or the position from which
+ *   read samples were not folded), steps [[field, record or '']], limit,
  *   shares [[sampleId, share or '']] (share: month;field=value,...), baselines {measurand: entry or ''}
  *   (entry: month;v1,...,v13), group, groupPrefix, member, horizon, registry, keepValues (0|1), componentKey,
- *   version, state (the component's incident state, stored as given: compact), records [[id, argument, open|closed,
- *   score, openedTime]], outbox;
- * then the incidents' JSON texts, one argument each (ARGV[4] on), which records name.
+ *   version, state (the component's incident state), records [[id, record, open|closed, score, openedTime]], outbox;
+ * then the stored values (latest, each checkpoint, step record and incident record, the state: compact, compactText.ts),
+ * one argument each (ARGV[4] on), which the payload names by number.
  * With release 1 in the payload, the lock goes too when nothing changed since the evaluation's input (settled).
  * With partial 1 (SharesCommit), only the group shares, baselines, horizon and registry entry are written (the payload
  * then holds only those, with group, groupPrefix, member, keepValues and componentKey): no version check, no mark.
@@ -310,7 +319,7 @@ local later = redis.call('HGET', ev, 'later')
 if due ~= '' and (not later or pos_cmp(due, later) < 0) then later = due end
 if settled then redis.call('HDEL', ev, 'dirty') elseif later then redis.call('HSET', ev, 'dirty', later) end
 redis.call('HDEL', ev, 'later')
-redis.call('HSET', ev, 'latest', p.latest)
+redis.call('HSET', ev, 'latest', stored(p.latest))
 if p.rewound ~= '' then
   for _, f in ipairs(fields) do
     if string.sub(f, 1, 3) == 'cp|' then
@@ -319,7 +328,7 @@ if p.rewound ~= '' then
     end
   end
 end
-for _, cp in ipairs(p.sparse) do redis.call('HSET', ev, cp[1], cp[2]) end
+for _, cp in ipairs(p.sparse) do redis.call('HSET', ev, cp[1], stored(cp[2])) end
 -- Keep the four latest sparse checkpoints and up to four older ones at every eighth step of their spacing.
 local cps = {}
 for _, f in ipairs(redis.call('HKEYS', ev)) do
@@ -336,7 +345,7 @@ end
 
 -- The findings log: steps with findings, the latest ones.
 for _, s in ipairs(p.steps) do
-  if s[2] == '' then redis.call('HDEL', KEYS[4], s[1]) else redis.call('HSET', KEYS[4], s[1], s[2]) end
+  if s[2] == '' then redis.call('HDEL', KEYS[4], s[1]) else redis.call('HSET', KEYS[4], s[1], stored(s[2])) end
 end
 local excess = redis.call('HLEN', KEYS[4]) - tonumber(p.limit)
 if excess > 0 then
@@ -453,9 +462,8 @@ redis.call('ZADD', p.groupPrefix .. ':h', 'GT', p.horizon, p.member)
 redis.call('HSET', KEYS[7], p.componentKey, p.registry)
 if partial then return { 1, changed or '', 0 } end
 
--- The incidents, their records and their messages: each incident's JSON text is an argument of its own.
-for _, r in ipairs(p.records) do r[2] = ARGV[r[2]] end
-redis.call('HSET', ev, 'incidents', p.state, 'version', tostring(tonumber(p.version) + 1))
+-- The incidents, their records and their messages: each record and the state are arguments of their own.
+redis.call('HSET', ev, 'incidents', stored(p.state), 'version', tostring(tonumber(p.version) + 1))
 write_incidents(p, KEYS[8], KEYS[9], KEYS[10], KEYS[11], KEYS[5])
 if settled and p.release == 1 then redis.call('DEL', KEYS[1]) end
 return { 1, changed or '', settled and 1 or 0 }

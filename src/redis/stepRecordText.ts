@@ -1,5 +1,5 @@
 /**
- * The stored text of a step of the findings log (the component's `steps` hash). Each finding repeats the unit,
+ * The stored form of a step of the findings log (the component's `steps` hash). Each finding repeats the unit,
  * component, group, sample and sampling time, which the step and its component already name: they are left out where
  * they equal the step's (the group: the first finding's, kept once as `g`) and put back when the record is read. A
  * record written before holds them all and reads the same. Deflate already shares most of the repetition within a
@@ -8,7 +8,7 @@
  */
 import type { Finding } from '../domain/finding.ts';
 import type { ComponentRef, StepRecord } from '../pipeline/ports.ts';
-import { compactText, expandText } from './compactText.ts';
+import { compactValue, expandValue } from './compactText.ts';
 
 type Shared = 'unit' | 'component' | 'group' | 'sampleId' | 'sampledAt';
 type StoredFinding = Omit<Finding, Shared> & Partial<Pick<Finding, Shared>>;
@@ -17,7 +17,7 @@ interface StoredStep extends Omit<StepRecord, 'findings'> {
   readonly findings: readonly StoredFinding[];
 }
 
-export function stepRecordText(ref: ComponentRef, step: StepRecord): string {
+export function stepRecordText(ref: ComponentRef, step: StepRecord): string | Buffer {
   const group = step.findings[0]?.group;
   const stored: StoredStep = {
     ...step,
@@ -31,11 +31,11 @@ export function stepRecordText(ref: ComponentRef, step: StepRecord): string {
       ...rest,
     })),
   };
-  return compactText(JSON.stringify(stored));
+  return compactValue(JSON.stringify(stored));
 }
 
-export function stepRecordOf(ref: ComponentRef, text: string): StepRecord {
-  const { g, findings, ...step } = JSON.parse(expandText(text)) as StoredStep;
+export function stepRecordOf(ref: ComponentRef, text: string | Buffer): StepRecord {
+  const { g, findings, ...step } = JSON.parse(expandValue(text)) as StoredStep;
   return {
     ...step,
     findings: findings.map(({ unit, component, group, sampleId, sampledAt, ...rest }) => ({

@@ -20,7 +20,7 @@ import { openPartitionedQueues, openQueue, QUEUE_NAMES, resolveQueueSettings } f
 import { SampleVerdicts } from '../../src/queue/sampleVerdicts.ts';
 import { startWorkers, type RunningWorkers } from '../../src/queue/workers.ts';
 import { componentKeys, Partitions } from '../../src/redis/keys.ts';
-import { compactText, expandText } from '../../src/redis/compactText.ts';
+import { compactValue, expandValue } from '../../src/redis/compactText.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
@@ -404,9 +404,9 @@ describe('the words a live store holds, given to replay', () => {
 
     // Long after, the component's action log (its latest 500 actions) no longer holds the words, and the incidents'
     // timelines never said after which sample they came: the export still says it, from what was kept with each word.
-    const held = JSON.parse(expandText((await client.hget(evaluationKey, 'incidents'))!)) as { actions: unknown[] };
+    const held = JSON.parse(expandValue((await client.hgetBuffer(evaluationKey, 'incidents'))!)) as { actions: unknown[] };
     expect(held.actions.length).toBeGreaterThan(0);
-    await client.hset(evaluationKey, 'incidents', compactText(JSON.stringify({ ...held, actions: [] })));
+    await client.hset(evaluationKey, 'incidents', compactValue(JSON.stringify({ ...held, actions: [] })));
     expect(await exportedWords()).toEqual(words);
   });
 });

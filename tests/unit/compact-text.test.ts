@@ -1,8 +1,11 @@
-/** Stored checkpoints and findings log records: deflated above a size, read back exactly, earlier forms still read. */
+/**
+ * Stored checkpoints, findings log records and incident records: deflated above a size, as bytes (`z3:`), read back
+ * exactly; the earlier text forms (`z2:`, `z1:`, plain JSON) still read, as bytes or as text.
+ */
 import { deflateRawSync, inflateRawSync } from 'node:zlib';
 import { describe, expect, it } from 'vitest';
 import { COMPACT_DICTIONARY_Z2 } from '../../src/redis/compactDictionary.ts';
-import { COMPACT_FROM_CHARS, compactText, expandText } from '../../src/redis/compactText.ts';
+import { COMPACT_FROM_CHARS, compactText, compactValue, expandText, expandValue } from '../../src/redis/compactText.ts';
 
 describe('compactText', () => {
   const long = JSON.stringify({ sampleId: 'MLAB-1-0042', findings: Array.from({ length: 6 }, (_, i) => ({ measurand: 'Fe', rule: 'ewma', value: i * 1.5, explanation: 'Fe (iron) is accumulating faster than before (ünïcode kept)' })) });
@@ -51,5 +54,29 @@ describe('compactText', () => {
     expect(compactText(short)).toBe(short);
     expect(expandText(long)).toBe(long);
     expect(expandText(`z1:${deflateRawSync(Buffer.from(long, 'utf8')).toString('base64')}`)).toBe(long);
+  });
+
+  it('writes the deflated bytes themselves (z3), a quarter shorter than the base64 text form, and any raw-deflate decoder with the dictionary reads them', () => {
+    for (const text of [long, record]) {
+      const stored = compactValue(text);
+      expect(Buffer.isBuffer(stored)).toBe(true);
+      const bytes = stored as Buffer;
+      expect(bytes.subarray(0, 3).toString('latin1')).toBe('z3:');
+      expect(inflateRawSync(bytes.subarray(3), { dictionary: Buffer.from(COMPACT_DICTIONARY_Z2, 'utf8') }).toString('utf8')).toBe(text);
+      expect(expandValue(bytes)).toBe(text);
+      // base64 takes 4 characters for 3 bytes: the bytes are at most three quarters of the text form (and its mark).
+      expect(bytes.length - 3).toBeLessThanOrEqual(Math.ceil(((compactText(text).length - 3) * 3) / 4));
+    }
+  });
+
+  it('reads every earlier form, whether Redis hands it over as bytes or as text', () => {
+    const forms = [compactText(long), `z1:${deflateRawSync(Buffer.from(long, 'utf8')).toString('base64')}`, long];
+    for (const form of forms) {
+      expect(expandValue(form)).toBe(long);
+      expect(expandValue(Buffer.from(form, 'utf8'))).toBe(long);
+    }
+    const short = '{"unit":"PS1-P2"}';
+    expect(compactValue(short)).toBe(short);
+    expect(expandValue(Buffer.from(short, 'utf8'))).toBe(short);
   });
 });

@@ -1,14 +1,15 @@
 /**
- * How an incident record is stored (src/redis/incidentRecordText.ts), against a private redis-server: deflated, open
- * or closed, several times smaller than its JSON, and every way of reading it (one incident, the open and closed
+ * How an incident record is stored (src/redis/incidentRecordValue.ts), against a private redis-server: deflated
+ * bytes (`z3:`), open or closed, several times smaller than its JSON, and every way of reading it (one incident, the open and closed
  * lists, a count by its fields, the recent incidents of the alarm figures) gives the incident exactly as its JSON
- * says. A record written plain, as before this change, reads the same.
+ * says. A record written plain or as deflated text (`z2:`), as before, reads the same.
  */
 import type { Redis } from 'ioredis';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Step } from '../../src/analysis/model.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import type { Finding, Severity } from '../../src/domain/finding.ts';
+import { compactText } from '../../src/redis/compactText.ts';
 import { IncidentFilterSchema } from '../../src/incidents/listFilter.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { partitionKeys, Partitions } from '../../src/redis/keys.ts';
@@ -67,23 +68,23 @@ describe('an incident record as stored', () => {
     const id = `${ref.unit}/${ref.component}@PS3-P1-001`;
     const records = partitionKeys(new Partitions(PREFIX, 1).tag(0)).records;
 
-    const openText = (await redis.hget(records, id))!;
-    expect(openText.startsWith('z2:')).toBe(true);
+    const openStored = (await redis.hgetBuffer(records, id))!;
+    expect(openStored.subarray(0, 3).toString()).toBe('z3:');
     const open = (await store.get(id))!;
     expect(open.closed).toBeNull();
     expect(open.timeline.length).toBeGreaterThan(40);
-    expect(openText.length).toBeLessThan(JSON.stringify(open).length / 3);
+    expect(openStored.length).toBeLessThan(JSON.stringify(open).length / 4);
     expect((await store.list(IncidentFilterSchema.parse({}))).map((i) => i.id)).toEqual([id]);
     expect(await store.count(IncidentFilterSchema.parse({ unit: ref.unit }))).toBe(1);
 
     await store.applyAction({ kind: 'resolve', incidentId: id, by: 'station on-call', note: 'bearing replaced', now: new Date(T0 + 600 * DAY) });
-    const closedText = (await redis.hget(records, id))!;
-    expect(closedText.startsWith('z2:')).toBe(true);
+    const closedStored = (await redis.hgetBuffer(records, id))!;
+    expect(closedStored.subarray(0, 3).toString()).toBe('z3:');
     const closed = (await store.get(id))!;
     expect(closed.closed?.how).toBe('resolved');
     const json = JSON.stringify(closed);
-    // Deflated against the dictionary, the record is a fraction of its JSON (measured: about a sixth).
-    expect(closedText.length).toBeLessThan(json.length / 3);
+    // Deflated against the dictionary, the record is a fraction of its JSON.
+    expect(closedStored.length).toBeLessThan(json.length / 4);
 
     const byList = await store.list(IncidentFilterSchema.parse({ state: 'closed' }));
     expect(byList.map((i) => i.id)).toEqual([id]);
@@ -92,7 +93,10 @@ describe('an incident record as stored', () => {
     const recent = await readRecentIncidents(redis, new Partitions(PREFIX, 1), { closedSince: 0, max: 10 });
     expect(recent.incidents.map((i) => JSON.stringify(i))).toEqual([json]);
 
-    // A closed record written plain (before this change) reads the same.
+    // A closed record written plain or as deflated text (`z2:`, base64), before this change, reads the same.
+    await redis.hset(records, id, compactText(json));
+    expect((await redis.hget(records, id))!.startsWith('z2:')).toBe(true);
+    expect(JSON.stringify(await store.get(id))).toBe(json);
     await redis.hset(records, id, json);
     expect(JSON.stringify(await store.get(id))).toBe(json);
     expect((await store.list(IncidentFilterSchema.parse({ state: 'closed' }))).map((i) => i.id)).toEqual([id]);
