@@ -14,9 +14,10 @@ import { emptyComponentIncidents } from '../../src/incidents/model.ts';
 import { positionOf } from '../../src/incidents/verdict.ts';
 import { populationShare, monthOf } from '../../src/pipeline/groupShares.ts';
 import { MemoryStore } from '../../src/pipeline/memory/memoryStore.ts';
-import type { Checkpoint, ComponentStore, EvaluationCommit, GroupLedger, Lease } from '../../src/pipeline/ports.ts';
+import type { Checkpoint, ComponentStore, EvaluationCommit, GroupLedger, Lease, StepRecord } from '../../src/pipeline/ports.ts';
+import { compactText } from '../../src/redis/compactText.ts';
 import { COMMON_FIELD, componentKeys } from '../../src/redis/keys.ts';
-import { RedisStore } from '../../src/redis/redisStore.ts';
+import { positionText, RedisStore } from '../../src/redis/redisStore.ts';
 import { revisionConflicts } from '../../src/redis/revisionConflicts.ts';
 import { encodeSample } from '../../src/pipeline/sampleCodec.ts';
 import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
@@ -401,9 +402,31 @@ describe('redis store, a store written by the earlier layout', () => {
     expect(input.latest).toEqual(plain.latest);
     expect(input.incidents).toEqual(plain.incidents);
 
+    // And so do the deflated text form (`z2:`, base64) of a checkpoint, the incident state, a sparse checkpoint and a
+    // findings-log step, through every reader, the lock script's among them.
+    const step: StepRecord = {
+      sampleId: old.sampleId,
+      sampledAt: old.sampledAt,
+      findings: [{ unit: old.unit, component: old.component, group: GROUP, sampleId: old.sampleId, sampledAt: old.sampledAt, measurand: 'Fe', rule: 'limit', disposition: 'incident', severity: 'caution', value: 12, threshold: 10, basis: 'reading', explanation: 'Fe 12 ppm is above the caution level of 10 ppm set for the group; re-sample to confirm and ask the lab to review the trend.' }],
+    };
+    const sparse = { ...plain.latest, count: 50 };
+    await client.hset(keys.evaluation, 'latest', compactText(JSON.stringify(plain.latest)), 'incidents', compactText(JSON.stringify(plain.incidents)), `cp|${'50'.padStart(10, '0')}|${positionText(plain.latest.position!)}`, compactText(JSON.stringify(sparse)));
+    await client.hset(keys.steps, `${String(Date.parse(old.sampledAt)).padStart(15, '0')}|${old.sampleId}`, compactText(JSON.stringify(step)));
+    expect((await client.hget(keys.evaluation, 'latest'))!.startsWith('z2:')).toBe(true);
+    expect((await store.evaluationInput(old))!.latest).toEqual(plain.latest);
+    expect((await store.checkpointAtMost(old, 60))!).toEqual(sparse);
+    expect(await store.findings(old)).toEqual([step]);
+    const held = (await store.acquireWithInput(old, 10_000))!;
+    expect(held.input!.latest).toEqual(plain.latest);
+    expect(held.input!.incidents).toEqual(plain.incidents);
+    await store.release(held.lease);
+
     const lease = (await store.acquire(old, 10_000))!;
     expect((await store.commit(old, lease, commitOf([old, next, moved], input.mark))).ok).toBe(true);
     expect(await client.exists(keys.own)).toBe(0);
     expect((await store.evaluationInput(old))!.latest).toEqual(commitOf([old, next, moved], input.mark).latest);
+    // Written now: the deflated bytes themselves (`z3:`), where the text was long enough to deflate.
+    const written = (await client.hgetBuffer(keys.evaluation, 'latest'))!;
+    expect(written.subarray(0, 3).toString('latin1')).toBe('z3:');
   });
 });
