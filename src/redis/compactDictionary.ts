@@ -1,5 +1,5 @@
 /**
- * The preset dictionary of the `z2:` compact form (compactText.ts): typical texts of a checkpoint and of a findings
+ * The preset dictionary of the `z2:` and `z3:` compact forms (compactText.ts): typical texts of a checkpoint and of a findings
  * log record (JSON keys, finding explanations), which deflate refers back to instead of spelling them out, so that
  * even a short record shrinks to a fraction. Frozen: stored values are read with exactly these bytes, so a change
  * needs a new marker (and this one kept for what was written with it).

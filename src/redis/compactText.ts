@@ -33,13 +33,7 @@ export function expandValue(stored: string | Buffer): string {
   return expandText(stored.toString('utf8'));
 }
 
-/** The text form `z2:` (base64), as written before `z3:`. */
-export function compactText(text: string): string {
-  if (text.length < COMPACT_FROM_CHARS) return text;
-  return MARK_Z2 + deflateRawSync(Buffer.from(text, 'utf8'), { level: 9, dictionary: DICTIONARY_Z2 }).toString('base64');
-}
-
-/** Reads the text forms: `z2:`, `z1:` and plain JSON. */
+/** Reads the text forms written before `z3:`: `z2:` (the same deflate in base64), `z1:` and plain JSON. */
 export function expandText(stored: string): string {
   if (stored.startsWith(MARK_Z2)) return inflateRawSync(Buffer.from(stored.slice(MARK_Z2.length), 'base64'), { dictionary: DICTIONARY_Z2 }).toString('utf8');
   if (stored.startsWith(MARK_Z1)) return inflateRawSync(Buffer.from(stored.slice(MARK_Z1.length), 'base64')).toString('utf8');

@@ -24,6 +24,9 @@ import { incidentRecordRows, type RedisConnection } from './redisStore.ts';
 import { ScriptValues } from './scriptValues.ts';
 import { CLAIM_OUTBOX, RANGE_AFTER, UPDATE_INCIDENTS } from './scripts.ts';
 
+/** The incident update script's first argument after the version and the payload: the stored values follow. */
+const FIRST_UPDATE_VALUE_ARGUMENT = 3;
+
 export interface RedisIncidentsOptions {
   readonly rules: IncidentRules;
   /** Key prefix; default `{wearshift}`. Keep a hash tag (braces) for Redis Cluster. */
@@ -394,8 +397,9 @@ export class RedisIncidents {
       const result = await operate(state);
       const changed = [...changedIncidents(state, result.state), ...(result.archived ?? [])];
       if (changed.length === 0 && result.effects.length === 0 && JSON.stringify(state) === JSON.stringify(result.state)) return result;
-      // The state and the records go as arguments of their own after the payload, which names them (scripts.ts).
-      const values = new ScriptValues(3);
+      // The state and the records go as arguments of their own after the version and the payload, which names them
+      // (scripts.ts, UPDATE_INCIDENTS).
+      const values = new ScriptValues(FIRST_UPDATE_VALUE_ARGUMENT);
       const payload = {
         state: values.add(compactValue(JSON.stringify(result.state))),
         records: incidentRecordRows(changed).map(([id, value, status, score, opened]) => [id, values.add(value), status, score, opened]),

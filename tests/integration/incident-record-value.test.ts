@@ -9,7 +9,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Step } from '../../src/analysis/model.ts';
 import { ConfigSchema } from '../../src/domain/config.ts';
 import type { Finding, Severity } from '../../src/domain/finding.ts';
-import { compactText } from '../../src/redis/compactText.ts';
+import { z2Form } from '../helpers/earlierStoredForms.ts';
 import { IncidentFilterSchema } from '../../src/incidents/listFilter.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { partitionKeys, Partitions } from '../../src/redis/keys.ts';
@@ -94,7 +94,7 @@ describe('an incident record as stored', () => {
     expect(recent.incidents.map((i) => JSON.stringify(i))).toEqual([json]);
 
     // A closed record written plain or as deflated text (`z2:`, base64), before this change, reads the same.
-    await redis.hset(records, id, compactText(json));
+    await redis.hset(records, id, z2Form(json));
     expect((await redis.hget(records, id))!.startsWith('z2:')).toBe(true);
     expect(JSON.stringify(await store.get(id))).toBe(json);
     await redis.hset(records, id, json);

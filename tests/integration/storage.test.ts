@@ -15,7 +15,7 @@ import { positionOf } from '../../src/incidents/verdict.ts';
 import { populationShare, monthOf } from '../../src/pipeline/groupShares.ts';
 import { MemoryStore } from '../../src/pipeline/memory/memoryStore.ts';
 import type { Checkpoint, ComponentStore, EvaluationCommit, GroupLedger, Lease, StepRecord } from '../../src/pipeline/ports.ts';
-import { compactText } from '../../src/redis/compactText.ts';
+import { z2Form } from '../helpers/earlierStoredForms.ts';
 import { COMMON_FIELD, componentKeys } from '../../src/redis/keys.ts';
 import { positionText, RedisStore } from '../../src/redis/redisStore.ts';
 import { revisionConflicts } from '../../src/redis/revisionConflicts.ts';
@@ -410,8 +410,8 @@ describe('redis store, a store written by the earlier layout', () => {
       findings: [{ unit: old.unit, component: old.component, group: GROUP, sampleId: old.sampleId, sampledAt: old.sampledAt, measurand: 'Fe', rule: 'limit', disposition: 'incident', severity: 'caution', value: 12, threshold: 10, basis: 'reading', explanation: 'Fe 12 ppm is above the caution level of 10 ppm set for the group; re-sample to confirm and ask the lab to review the trend.' }],
     };
     const sparse = { ...plain.latest, count: 50 };
-    await client.hset(keys.evaluation, 'latest', compactText(JSON.stringify(plain.latest)), 'incidents', compactText(JSON.stringify(plain.incidents)), `cp|${'50'.padStart(10, '0')}|${positionText(plain.latest.position!)}`, compactText(JSON.stringify(sparse)));
-    await client.hset(keys.steps, `${String(Date.parse(old.sampledAt)).padStart(15, '0')}|${old.sampleId}`, compactText(JSON.stringify(step)));
+    await client.hset(keys.evaluation, 'latest', z2Form(JSON.stringify(plain.latest)), 'incidents', z2Form(JSON.stringify(plain.incidents)), `cp|${'50'.padStart(10, '0')}|${positionText(plain.latest.position!)}`, z2Form(JSON.stringify(sparse)));
+    await client.hset(keys.steps, `${String(Date.parse(old.sampledAt)).padStart(15, '0')}|${old.sampleId}`, z2Form(JSON.stringify(step)));
     expect((await client.hget(keys.evaluation, 'latest'))!.startsWith('z2:')).toBe(true);
     expect((await store.evaluationInput(old))!.latest).toEqual(plain.latest);
     expect((await store.checkpointAtMost(old, 60))!).toEqual(sparse);

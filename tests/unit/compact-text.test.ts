@@ -5,9 +5,10 @@
 import { deflateRawSync, inflateRawSync } from 'node:zlib';
 import { describe, expect, it } from 'vitest';
 import { COMPACT_DICTIONARY_Z2 } from '../../src/redis/compactDictionary.ts';
-import { COMPACT_FROM_CHARS, compactText, compactValue, expandText, expandValue } from '../../src/redis/compactText.ts';
+import { COMPACT_FROM_CHARS, compactValue, expandValue } from '../../src/redis/compactText.ts';
+import { z1Form, z2Form } from '../helpers/earlierStoredForms.ts';
 
-describe('compactText', () => {
+describe('compact stored values', () => {
   const long = JSON.stringify({ sampleId: 'MLAB-1-0042', findings: Array.from({ length: 6 }, (_, i) => ({ measurand: 'Fe', rule: 'ewma', value: i * 1.5, explanation: 'Fe (iron) is accumulating faster than before (ünïcode kept)' })) });
   const record = JSON.stringify({
     sampleId: 'MLAB-7-0042',
@@ -32,28 +33,18 @@ describe('compactText', () => {
     ],
   });
 
-  it('stores a long value deflated (RFC 1951) against the preset dictionary, in base64, shorter, and reads it back exactly', () => {
-    const stored = compactText(long);
-    expect(stored.startsWith('z2:')).toBe(true);
-    expect(stored.length).toBeLessThan(long.length / 2);
-    // Any raw-deflate decoder given the dictionary reads it: node's zlib, independent of expandText.
-    expect(inflateRawSync(Buffer.from(stored.slice(3), 'base64'), { dictionary: Buffer.from(COMPACT_DICTIONARY_Z2, 'utf8') }).toString('utf8')).toBe(long);
-    expect(expandText(stored)).toBe(long);
-  });
-
   it('shrinks a single findings log record to a fraction of what deflate alone makes of it', () => {
-    const alone = deflateRawSync(Buffer.from(record, 'utf8')).toString('base64').length;
-    const stored = compactText(record);
-    expect(expandText(stored)).toBe(record);
+    const alone = deflateRawSync(Buffer.from(record, 'utf8')).length;
+    const stored = compactValue(record) as Buffer;
+    expect(expandValue(stored)).toBe(record);
     expect(stored.length).toBeLessThan(alone / 2);
   });
 
-  it('keeps short values and reads plain JSON and the dictionary-less z1 form written before', () => {
+  it('keeps short values as they are', () => {
     const short = '{"a":1}';
     expect(short.length).toBeLessThan(COMPACT_FROM_CHARS);
-    expect(compactText(short)).toBe(short);
-    expect(expandText(long)).toBe(long);
-    expect(expandText(`z1:${deflateRawSync(Buffer.from(long, 'utf8')).toString('base64')}`)).toBe(long);
+    expect(compactValue(short)).toBe(short);
+    expect(expandValue(short)).toBe(short);
   });
 
   it('writes the deflated bytes themselves (z3), a quarter shorter than the base64 text form, and any raw-deflate decoder with the dictionary reads them', () => {
@@ -65,12 +56,12 @@ describe('compactText', () => {
       expect(inflateRawSync(bytes.subarray(3), { dictionary: Buffer.from(COMPACT_DICTIONARY_Z2, 'utf8') }).toString('utf8')).toBe(text);
       expect(expandValue(bytes)).toBe(text);
       // base64 takes 4 characters for 3 bytes: the bytes are at most three quarters of the text form (and its mark).
-      expect(bytes.length - 3).toBeLessThanOrEqual(Math.ceil(((compactText(text).length - 3) * 3) / 4));
+      expect(bytes.length - 3).toBeLessThanOrEqual(Math.ceil(((z2Form(text).length - 3) * 3) / 4));
     }
   });
 
   it('reads every earlier form, whether Redis hands it over as bytes or as text', () => {
-    const forms = [compactText(long), `z1:${deflateRawSync(Buffer.from(long, 'utf8')).toString('base64')}`, long];
+    const forms = [z2Form(long), z1Form(long), long];
     for (const form of forms) {
       expect(expandValue(form)).toBe(long);
       expect(expandValue(Buffer.from(form, 'utf8'))).toBe(long);

@@ -6,7 +6,7 @@
 import { describe, expect, it } from 'vitest';
 import type { Finding } from '../../src/domain/finding.ts';
 import type { StepRecord } from '../../src/pipeline/ports.ts';
-import { compactText } from '../../src/redis/compactText.ts';
+import { z2Form } from '../helpers/earlierStoredForms.ts';
 import { stepRecordOf, stepRecordText } from '../../src/redis/stepRecordText.ts';
 
 const ref = { unit: 'PS4-P2', component: 'gearbox' };
@@ -37,11 +37,11 @@ describe('a findings-log step as stored', () => {
   it('reads back equal, key order included, and shorter than the whole record', () => {
     const text = stepRecordText(ref, step);
     expect(JSON.stringify(stepRecordOf(ref, text))).toBe(JSON.stringify(step));
-    expect(text.length).toBeLessThan(compactText(JSON.stringify(step)).length);
+    expect(text.length).toBeLessThan(z2Form(JSON.stringify(step)).length);
   });
 
   it('reads a record written before, deflated or plain, the same', () => {
-    expect(stepRecordOf(ref, compactText(JSON.stringify(step)))).toEqual(step);
+    expect(stepRecordOf(ref, z2Form(JSON.stringify(step)))).toEqual(step);
     const short: StepRecord = { ...step, findings: [finding({ explanation: 'short' })] };
     expect(stepRecordOf(ref, JSON.stringify(short))).toEqual(short);
   });
