@@ -441,7 +441,7 @@ interface BackfillRun {
   readonly perComponentBytes: number;
   readonly keys: Record<string, number>;
   readonly componentParts: Record<string, number>;
-  /** Incident records on file, open and closed, and their bytes (MEMORY USAGE of each record's field, estimated below). */
+  /** Incident records on file, open and closed, and the mean length of their stored values. */
   readonly incidents: IncidentRecordFigures;
   readonly behind: number;
   readonly notifications: number;

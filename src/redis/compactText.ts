@@ -27,7 +27,7 @@ export function compactValue(text: string): string | Buffer {
 /** The text of a stored value read as bytes (or as text, when it was written as text), whichever form it has. */
 export function expandValue(stored: string | Buffer): string {
   if (typeof stored === 'string') return expandText(stored);
-  if (stored.length >= MARK_Z3.length && stored[0] === MARK_Z3[0] && stored[1] === MARK_Z3[1] && stored[2] === MARK_Z3[2]) {
+  if (stored.subarray(0, MARK_Z3.length).equals(MARK_Z3)) {
     return inflateRawSync(stored.subarray(MARK_Z3.length), { dictionary: DICTIONARY_Z2 }).toString('utf8');
   }
   return expandText(stored.toString('utf8'));

@@ -402,7 +402,7 @@ export class RedisIncidents {
       const values = new ScriptValues(FIRST_UPDATE_VALUE_ARGUMENT);
       const payload = {
         state: values.add(compactValue(JSON.stringify(result.state))),
-        records: incidentRecordRows(changed).map(([id, value, status, score, opened]) => [id, values.add(value), status, score, opened]),
+        records: incidentRecordRows(changed, values),
         outbox: result.effects.map((e) => JSON.stringify(e)),
       };
       const committed = await this.redis.eval(UPDATE_INCIDENTS, 6, c.evaluation, p.records, p.open, p.closed, p.outbox, c.incidents, version, JSON.stringify(payload), ...values.values);

@@ -87,11 +87,14 @@ export function openScore(inc: Incident): string {
   return String((2 - severityRank(inc.severity)) * 1e13 + (1e13 - Date.parse(inc.openedAt)));
 }
 
-/** Per incident: its id, its stored record (incidentRecordValue.ts), open or closed, its score in that index, its opening time. */
-export function incidentRecordRows(incidents: readonly Incident[]): Array<[string, string | Buffer, 'open' | 'closed', string, string]> {
+/**
+ * Per incident: its id, the argument number of its stored record (incidentRecordValue.ts, added to `values`), open or
+ * closed, its score in that index, its opening time.
+ */
+export function incidentRecordRows(incidents: readonly Incident[], values: ScriptValues): Array<[string, number, 'open' | 'closed', string, string]> {
   return incidents.map((inc) => [
     inc.id,
-    incidentRecordValue(inc),
+    values.add(incidentRecordValue(inc)),
     inc.closed === null ? 'open' : 'closed',
     inc.closed === null ? openScore(inc) : String(Date.parse(inc.closed.at)),
     String(Date.parse(inc.openedAt)),
@@ -109,9 +112,8 @@ function incidentArguments(commit: EvaluationCommit, values: ScriptValues) {
   const state = commit.incidents;
   // Records already on file as they are (the input's state, at the version the commit checks) are not sent again.
   const current = commit.recorded === undefined ? Object.values(state.incidents) : changedIncidents(commit.recorded, state);
-  const rows = incidentRecordRows([...current, ...commit.archived, ...commit.withdrawn]);
   return {
-    records: rows.map(([id, value, status, score, opened]) => [id, values.add(value), status, score, opened] as const),
+    records: incidentRecordRows([...current, ...commit.archived, ...commit.withdrawn], values),
     state: values.add(compactValue(JSON.stringify(state))),
   };
 }
