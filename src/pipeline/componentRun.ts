@@ -90,6 +90,16 @@ export class ComponentRun {
     }
   }
 
+  /** The like-for-like group the component is judged with. */
+  get group(): string {
+    return this.settings.group;
+  }
+
+  /** Stored samples read and not folded (a fold stopped at `until`): they stay due after the commit. */
+  get leftDue(): boolean {
+    return this.tail !== undefined && this.tail.length > 0;
+  }
+
   /** The position of the last sample folded (the checkpoint's when none). */
   get position(): StepPosition | null {
     return this.last !== undefined ? positionOf(this.last) : this.start.position;

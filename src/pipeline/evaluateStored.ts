@@ -15,19 +15,27 @@ import type { ComponentRef, StoredSample } from './ports.ts';
 
 export { DEFAULT_CHECKPOINT_EVERY, DEFAULT_LOCK_TTL_MS, emptyCheckpoint, type EvaluationDeps, type EvaluationResult } from './evaluationResult.ts';
 
-export async function evaluateStored(deps: EvaluationDeps, ref: ComponentRef): Promise<EvaluationResult> {
+/**
+ * How far the evaluation may fold, asked once the component's lock is held: the first instant (epoch ms) of the samples
+ * to leave due, given the component's like-for-like group; undefined: every stored sample. The stored samples from it
+ * on stay due after the commit (queue/arrivalLimit.ts: results other workers have not judged yet come first).
+ */
+export type FoldUntil = (group: string) => Promise<number | undefined>;
+
+export async function evaluateStored(deps: EvaluationDeps, ref: ComponentRef, until?: FoldUntil): Promise<EvaluationResult> {
   const run = await ComponentRun.open(deps, ref);
   if (!(run instanceof ComponentRun)) return run;
   let folded: number;
   try {
-    folded = await run.foldStored();
+    folded = await run.foldStored(until === undefined ? undefined : await until(run.group));
   } catch (e) {
     await run.abandon().catch(() => undefined);
     throw e;
   }
   if (folded === 0 && run.incremental) {
+    const leftDue = run.leftDue;
     await run.abandon();
-    return { kind: 'unchanged' };
+    return leftDue ? { kind: 'unchanged', leftDue } : { kind: 'unchanged' };
   }
   return run.commit();
 }

@@ -29,7 +29,8 @@ export const DEFAULT_CHECKPOINT_EVERY = 50;
 export type EvaluationResult =
   | { readonly kind: 'busy' }
   | { readonly kind: 'empty' }
-  | { readonly kind: 'unchanged' }
+  /** Nothing folded; `leftDue`: stored samples after the fold's limit (`evaluateStored`'s `until`) stay due. */
+  | { readonly kind: 'unchanged'; readonly leftDue?: true }
   | { readonly kind: 'lost-lock' }
   | { readonly kind: 'retry' }
   | {

@@ -13,6 +13,7 @@ import type { ComponentRef } from '../pipeline/ports.ts';
 import type { Partitions } from '../redis/keys.ts';
 import type { Logger } from '../telemetry/logger.ts';
 import type { Metrics } from '../telemetry/metrics.ts';
+import type { ArrivalLimit } from './arrivalLimit.ts';
 import { scheduleEvaluation, scheduleEvaluations } from './queues.ts';
 
 export interface EvaluationRunnerDeps extends EvaluationDeps {
@@ -53,9 +54,22 @@ export async function takeCascade(deps: EvaluationRunnerDeps, ref: ComponentRef,
 /** Evaluations of one component in a row before it lets others have a turn (a flood of one component's results). */
 const MAX_ROUNDS = 50;
 
-export async function runEvaluation(deps: EvaluationRunnerDeps, ref: ComponentRef): Promise<RunOutcome> {
+/**
+ * Evaluates the component until nothing is due. `limit` (an evaluate job's, arrivalLimit.ts; on this thread only):
+ * how far each evaluation may fold; when it leaves stored samples due, the outcome is `busy` (try again shortly).
+ */
+export async function runEvaluation(deps: EvaluationRunnerDeps, ref: ComponentRef, limit?: ArrivalLimit): Promise<RunOutcome> {
+  let limited = false;
+  const until =
+    limit === undefined || deps.evaluator !== undefined
+      ? undefined
+      : async (group: string) => {
+          const at = await limit(ref, group);
+          limited = at !== undefined;
+          return at;
+        };
   for (let round = 0; round < MAX_ROUNDS; round++) {
-    const result = deps.evaluator !== undefined ? await deps.evaluator(ref) : summarizeEvaluation(await evaluateStored(deps, ref));
+    const result = deps.evaluator !== undefined ? await deps.evaluator(ref) : summarizeEvaluation(await evaluateStored(deps, ref, until));
     switch (result.kind) {
       case 'busy':
       case 'lost-lock':
@@ -63,11 +77,14 @@ export async function runEvaluation(deps: EvaluationRunnerDeps, ref: ComponentRe
       case 'retry':
         continue;
       case 'empty':
-      case 'unchanged':
         return 'done';
+      case 'unchanged':
+        return result.leftDue === true ? 'busy' : 'done';
       case 'evaluated': {
         await takeEvaluation(deps, ref, result);
         if (result.settled) return 'done';
+        // What the limit left stays due for a later try (evaluating again at once would stop at the same place).
+        if (limited) return 'busy';
       }
     }
   }

@@ -19,6 +19,7 @@ import type { StepPosition } from '../incidents/model.ts';
 import { ComponentRun } from '../pipeline/componentRun.ts';
 import { summarizeEvaluation } from '../pipeline/evaluationSummary.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
+import type { ArrivalLimit } from './arrivalLimit.ts';
 import { runEvaluation, takeCascade, takeEvaluation, type EvaluationRunnerDeps } from './evaluationRunner.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, scheduleEvaluation } from './queues.ts';
 
@@ -65,6 +66,11 @@ export interface MonthlyJudgementOptions {
    * Default: everything.
    */
   readonly foldUntil?: (ref: ComponentRef) => number | undefined;
+  /**
+   * How far the evaluation of a component on its own (after a commit that could not be made, as another stored a
+   * result meanwhile) may fold (arrivalLimit.ts); what it leaves is judged by a scheduled evaluation. Default: everything.
+   */
+  readonly limit?: ArrivalLimit;
 }
 
 export class MonthlyJudgement {
@@ -228,7 +234,7 @@ export class MonthlyJudgement {
   }
 
   private async evaluateAlone(ref: ComponentRef): Promise<void> {
-    if ((await runEvaluation(this.deps, ref)) === 'busy') await this.scheduleLater(ref);
+    if ((await runEvaluation(this.deps, ref, this.options.limit)) === 'busy') await this.scheduleLater(ref);
   }
 
   private async scheduleLater(ref: ComponentRef): Promise<void> {

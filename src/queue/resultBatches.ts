@@ -26,6 +26,7 @@
 import { componentKey, type Sample } from '../domain/event.ts';
 import { monthOf, startOfNextMonth } from '../pipeline/groupShares.ts';
 import type { ComponentRef } from '../pipeline/ports.ts';
+import { limitOf, type ArrivalLimit } from './arrivalLimit.ts';
 import { monthStart, ONE_GROUP, resultAbout, type ActiveJob, type ActiveJobs, type GroupOf } from './arrivalOrder.ts';
 import type { EvaluationRunnerDeps } from './evaluationRunner.ts';
 import { MonthlyJudgement } from './monthlyJudgement.ts';
@@ -380,6 +381,11 @@ export class ResultBatches {
     return batch;
   }
 
+  /** How far a component may be folded before the results other processes hold, read when asked (arrivalLimit.ts). */
+  private elsewhereLimit(activeJobs: ActiveJobs): ArrivalLimit {
+    return async (ref, group) => limitOf(await activeJobs((order) => this.held.has(order)), ref, group);
+  }
+
   /** Judges a batch; the components whose judgement failed, with the error. */
   private async judgeBatch(batch: readonly Batched[], heldFrom: ReadonlyMap<string, number>): Promise<Map<string, unknown>> {
     const failures = new Map<string, unknown>();
@@ -395,6 +401,9 @@ export class ResultBatches {
       // What a run read beyond the batch's months is folded now (a late result rewound it over results judged before),
       // except from the month of the component's results waiting for the next batch, which judges them, or held by
       // another process, whose batch judges them.
+      // A component judged on its own (its commit could not be made) leaves the results another process holds, and
+      // later months of their group, to the batches that judge them (arrivalLimit.ts), as an evaluate job does.
+      ...(this.options.activeJobs !== undefined && { limit: this.elsewhereLimit(this.options.activeJobs) }),
       foldUntil: (ref) => {
         const key = componentKey(ref);
         const next = this.waiting.get(key);

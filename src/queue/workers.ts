@@ -36,6 +36,7 @@ import { historyProcessor } from './processors/historyProcessor.ts';
 import type { RedisTarget } from '../redis/target.ts';
 import { resultsProcessor } from './processors/resultsProcessor.ts';
 import { groupOf } from '../domain/settings.ts';
+import { arrivalLimit } from './arrivalLimit.ts';
 import { activeJobs, type GroupOf } from './arrivalOrder.ts';
 import { DEFAULT_ARRIVAL_WAIT_MS, ResultBatches } from './resultBatches.ts';
 import { DEFAULT_EVALUATE_RETRY_MS, openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings, type QueueSettings } from './queues.ts';
@@ -219,26 +220,31 @@ export function startWorkers(deps: WorkerDeps, settings: WorkerSettings = {}): R
   // arrived, across the partitions' queues and across processes (arrivalOrder.ts).
   // A result waits only for earlier results of its own group (or component): the groups as the configuration makes them.
   const groups: GroupOf = (c) => groupOf(deps.config, c);
+  const resultsQueueKeys = partitions.all().map((p) => `${partitions.tag(p)}:${QUEUE_NAMES.results}`);
   const batches = new ResultBatches(runner, {
     retryMs: s.busyRetryMs,
     ...(s.arrivalOrder && {
-      activeJobs: activeJobs(
-        deps.connection,
-        partitions.all().map((p) => `${partitions.tag(p)}:${QUEUE_NAMES.results}`),
-        groups,
-      ),
+      activeJobs: activeJobs(deps.connection, resultsQueueKeys, groups),
       groupOf: groups,
       takeQueued: (p: number) => takers[p]!.take(),
     }),
     arrivalWaitMs: s.arrivalWaitMs,
   });
   const processor = resultsProcessor(runner, s.busyRetryMs, batches);
+  // Evaluate jobs leave the results other processes (or this one) have not judged yet, and later months of their group,
+  // to the batches that judge them (arrivalLimit.ts).
+  const evaluateInOrder = s.arrivalOrder
+    ? {
+        limit: arrivalLimit(activeJobs(deps.connection, resultsQueueKeys, groups)),
+        waitMs: s.arrivalWaitMs,
+      }
+    : undefined;
   for (const p of partitions.all()) {
     const prefix = partitions.tag(p);
     const resultsOptions = options(prefix, s.resultsConcurrency, queueSettings.attempts);
     if (s.arrivalOrder) takers.push(queuedResultTaker(QUEUE_NAMES.results, processor, resultsOptions, logger));
     workers.push(new Worker(QUEUE_NAMES.results, processor, resultsOptions));
-    workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs), options(prefix, s.evaluateConcurrency, queueSettings.attempts)));
+    workers.push(new Worker(QUEUE_NAMES.evaluate, evaluateProcessor(runner, s.busyRetryMs, evaluateInOrder), options(prefix, s.evaluateConcurrency, queueSettings.attempts)));
   }
   // One history job at a time, for every partition (the producer sets the queue's global concurrency to 1 as well).
   workers.push(new Worker(QUEUE_NAMES.history, historyProcessor(historyRunner, s.busyRetryMs), options(partitions.sharedTag(), 1, queueSettings.attempts)));

@@ -8,6 +8,7 @@ import { parseConfig } from '../../src/domain/configFile.ts';
 import { componentKey } from '../../src/domain/event.ts';
 import { groupOf } from '../../src/domain/settings.ts';
 import { validateResult } from '../../src/intake/validate.ts';
+import { limitOf } from '../../src/queue/arrivalLimit.ts';
 import { arrivalJobId, arrivalOf, monthStart, resultAbout, type GroupOf } from '../../src/queue/arrivalOrder.ts';
 
 const config = parseConfig(`
@@ -59,5 +60,28 @@ describe('arrival order of a results job', () => {
     expect(resultAbout(event({}), failing)).toMatchObject({ component: undefined, group: undefined });
     // Without a group function every component is in one group.
     expect(resultAbout(event({ unit: 'MX4' })).group).toBe(resultAbout(event({})).group);
+  });
+
+  it('limits an evaluation to the month of its own component’s held results and to the end of its group’s earliest', () => {
+    const job = (order: number, unit: string | undefined, sampledAt: string) => {
+      const about = unit === undefined ? { component: undefined, group: undefined, month: monthStart(Date.parse(sampledAt)) } : resultAbout(event({ unit, sampledAt }), groups);
+      return { order, ...about, queued: false, partition: 0 };
+    };
+    const ls1 = { unit: 'LS1', component: 'gearbox' };
+    // Nothing held: no limit.
+    expect(limitOf([], ls1, 'lift-gearboxes')).toBeUndefined();
+    // Its own result of 14 March: up to 1 March (the month's other samples may be judged with it).
+    expect(limitOf([job(1, 'LS1', '2026-03-14T08:00:00Z')], ls1, 'lift-gearboxes')).toBe(Date.UTC(2026, 2, 1));
+    // Another unit of its group in March: its March samples may be judged (a month's statistics are those before it), April may not.
+    expect(limitOf([job(1, 'LS2', '2026-03-14T08:00:00Z')], ls1, 'lift-gearboxes')).toBe(Date.UTC(2026, 3, 1));
+    // December rolls over into the next year.
+    expect(limitOf([job(1, 'LS2', '2025-12-30T08:00:00Z')], ls1, 'lift-gearboxes')).toBe(Date.UTC(2026, 0, 1));
+    // Another group holds nothing up; the earliest of several counts.
+    expect(limitOf([job(1, 'MX2', '2026-01-14T08:00:00Z')], ls1, 'lift-gearboxes')).toBeUndefined();
+    expect(limitOf([job(1, 'LS2', '2026-05-02T08:00:00Z'), job(2, 'LS1', '2026-04-20T08:00:00Z'), job(3, 'LS3', '2026-02-02T08:00:00Z')], ls1, 'lift-gearboxes')).toBe(Date.UTC(2026, 2, 1));
+    // A result whose component cannot be read may be this one: its month; without a sampling time, nothing is folded.
+    expect(limitOf([job(1, undefined, '2026-03-14T08:00:00Z')], ls1, 'lift-gearboxes')).toBe(Date.UTC(2026, 2, 1));
+    expect(limitOf([{ ...job(1, undefined, '2026-03-14T08:00:00Z'), month: -Infinity }], ls1, 'lift-gearboxes')).toBe(-Infinity);
+    expect(limitOf([{ ...job(1, 'LS2', '2026-03-14T08:00:00Z'), month: -Infinity }], ls1, 'lift-gearboxes')).toBe(-Infinity);
   });
 });

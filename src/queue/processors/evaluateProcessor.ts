@@ -1,16 +1,26 @@
 /**
  * The evaluate processor: evaluates a component that a burst left busy or that a late result of another unit of its
- * group re-judges. While another worker holds the component the job comes back shortly.
+ * group re-judges. While another worker holds the component the job comes back shortly; so it does, with arrival
+ * order, while results not judged yet must come first (arrivalLimit.ts).
  */
 import { DelayedError, UnrecoverableError, type Job, type Processor } from 'bullmq';
+import type { ArrivalLimit } from '../arrivalLimit.ts';
 import type { EvaluateJobData } from '../queues.ts';
 import { runEvaluation, type EvaluationRunnerDeps } from '../evaluationRunner.ts';
 import { DEFAULT_EVALUATE_RETRY_MS } from '../queues.ts';
 
-export function evaluateProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_EVALUATE_RETRY_MS): Processor {
+/** Arrival order for evaluate jobs (arrivalLimit.ts): how far one may fold, and for how long the limit holds. */
+export interface EvaluateInArrivalOrder {
+  readonly limit: ArrivalLimit;
+  /** A job older than this (from when it was added, by `deps.now`) folds everything stored (resultBatches.ts `arrivalWaitMs`). */
+  readonly waitMs: number;
+}
+
+export function evaluateProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_EVALUATE_RETRY_MS, arrival?: EvaluateInArrivalOrder): Processor {
   return async (job: Job, token?: string) => {
     const ref = evaluateJobData(job.data);
-    const outcome = await runEvaluation(deps, ref);
+    const limit = arrival !== undefined && deps.now() - job.timestamp < arrival.waitMs ? arrival.limit : undefined;
+    const outcome = await runEvaluation(deps, ref, limit);
     if (outcome === 'busy') {
       await job.moveToDelayed(Date.now() + retryMs, token);
       throw new DelayedError();

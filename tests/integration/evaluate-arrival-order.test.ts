@@ -1,0 +1,184 @@
+/**
+ * Evaluate jobs in arrival order (src/queue/arrivalLimit.ts), on a private redis-server. An evaluate job (a component
+ * another worker held, a group's cascade, a responder's mark) used to fold every stored sample of its component: with
+ * two worker processes, a later result one process had stored was judged while the earlier one, taken by the other
+ * process and not stored yet, was missing. In the invented fleet of the multi-process tests, gearbox LS4's fourth
+ * sample is an oil change and its fifth reads 517 oil hours: judged without the fourth, the fifth reads as oil hours
+ * gone back from the third's 870 and opens a sampling incident, withdrawn once the fourth is judged (the one failure
+ * in 4-partition rounds of tests/integration/processes-arrival-order.test.ts). Now the evaluate job leaves the results
+ * a results job still holds (and later months of its group) to the batches that judge them, comes back shortly, and
+ * folds everything once it is older than the batches' longest wait.
+ */
+import { DelayedError, Worker, type Job } from 'bullmq';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { parseConfig } from '../../src/domain/configFile.ts';
+import type { Sample } from '../../src/domain/event.ts';
+import { groupOf } from '../../src/domain/settings.ts';
+import { incidentRules } from '../../src/incidents/policy.ts';
+import { validateResult } from '../../src/intake/validate.ts';
+import { storeSample } from '../../src/pipeline/storeResult.ts';
+import { arrivalLimit } from '../../src/queue/arrivalLimit.ts';
+import { activeJobs } from '../../src/queue/arrivalOrder.ts';
+import { runEvaluation, type EvaluationRunnerDeps } from '../../src/queue/evaluationRunner.ts';
+import { evaluateProcessor } from '../../src/queue/processors/evaluateProcessor.ts';
+import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings, scheduleEvaluation } from '../../src/queue/queues.ts';
+import { Partitions } from '../../src/redis/keys.ts';
+import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
+import { RedisStore } from '../../src/redis/redisStore.ts';
+import { silentLogger } from '../../src/telemetry/logger.ts';
+import { inventedFleet } from '../helpers/fleetCsv.ts';
+import { storedVerdictRows } from '../helpers/incidentVerdict.ts';
+import { liftGearboxJudging, POPULATION_FLEET } from '../helpers/populationFleet.ts';
+import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
+
+const config = parseConfig(liftGearboxJudging(true));
+const NOW = Date.parse('2026-12-01T00:00:00Z');
+const events = inventedFleet(POPULATION_FLEET);
+const sampleOf = (event: unknown): Sample => {
+  const parsed = validateResult(event, { now: NOW });
+  if (!parsed.ok) throw new Error(JSON.stringify(parsed.issues));
+  return parsed.sample;
+};
+/** The first five results of gearbox LS4, in sampling order: the fourth reports an oil change. */
+const ls4 = events.filter((e) => e.unit.startsWith('LS4')).slice(0, 5);
+const LS4 = { unit: ls4[0]!.unit, component: 'gearbox' };
+
+let server: RedisServer;
+let prefixes = 0;
+const closers: Array<() => Promise<unknown>> = [];
+beforeAll(async () => {
+  server = await startRedisServer();
+});
+afterAll(async () => {
+  for (const close of closers.reverse()) await close();
+  await server?.dispose();
+});
+
+/** A store, its evaluation deps (clock `now`), its results and evaluate queues and the arrival limit, on a fresh prefix. */
+function site(now: () => number = () => NOW) {
+  const prefix = `{ev${++prefixes}}`;
+  const connection = server.client();
+  const store = new RedisStore(connection, { prefix, config });
+  const partitions = new Partitions(prefix, 1);
+  const settings = resolveQueueSettings({ prefix });
+  const evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, connection, settings, partitions);
+  const [results] = openPartitionedQueues(QUEUE_NAMES.results, connection, settings, partitions);
+  const deps: EvaluationRunnerDeps = { store, ledger: store, config, rules: incidentRules(config), now, partitions, evaluateQueues, logger: silentLogger() };
+  const limit = arrivalLimit(activeJobs(connection, [`${partitions.tag(0)}:${QUEUE_NAMES.results}`], (c) => groupOf(config, c)));
+  const incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix });
+  // A worker that takes jobs only when asked, as another process holding them.
+  const taker = (queue: string) => {
+    const worker = new Worker(queue, null, { connection, prefix: partitions.tag(0), autorun: false });
+    closers.push(() => worker.close());
+    return worker;
+  };
+  closers.push(() => Promise.all([...evaluateQueues, results!].map((q) => q.close())));
+  return {
+    deps,
+    limit,
+    incidents,
+    evaluateQueue: evaluateQueues[0]!,
+    async store(event: unknown) {
+      expect((await storeSample(store, config, sampleOf(event), NOW)).outcome.status).toBe('new');
+    },
+    /** A results job of `event` taken by another process (active, its result not stored yet). */
+    async heldElsewhere(event: unknown): Promise<{ job: Job; token: string }> {
+      await results!.add('result', event);
+      const token = `elsewhere-${prefixes}`;
+      const job = (await taker(QUEUE_NAMES.results).getNextJob(token, { block: false })) as Job | undefined;
+      expect(job?.data).toEqual(event);
+      return { job: job!, token };
+    },
+    taker,
+    rows: () => storedVerdictRows(incidents),
+  };
+}
+
+describe('an evaluate job in arrival order', () => {
+  it('leaves a result another process holds to that process, and opens no incident withdrawn later', async () => {
+    // Without the limit (as before): the fifth sample judged without the fourth opens a sampling incident, withdrawn
+    // once the fourth is judged. This is what the limit prevents; were the fleet to change, the test says so here.
+    const before = site();
+    for (const e of ls4.slice(0, 3)) await before.store(e);
+    expect(await runEvaluation(before.deps, LS4)).toBe('done');
+    await before.heldElsewhere(ls4[3]);
+    await before.store(ls4[4]);
+    expect(await runEvaluation(before.deps, LS4)).toBe('done');
+    expect((await before.rows()).map((r) => r.incidentId)).toContain(`${LS4.unit}/gearbox/sampling@${ls4[4]!.sampleId}`);
+    await before.store(ls4[3]);
+    expect(await runEvaluation(before.deps, LS4)).toBe('done');
+    expect((await before.rows()).filter((r) => r.closed === 'withdrawn').map((r) => r.incidentId)).toEqual([`${LS4.unit}/gearbox/sampling@${ls4[4]!.sampleId}`]);
+
+    // The reference: the five results judged in order.
+    const reference = site();
+    for (const e of ls4) await reference.store(e);
+    expect(await runEvaluation(reference.deps, LS4)).toBe('done');
+    const expected = await reference.rows();
+    expect(expected.some((r) => r.incidentId.includes('sampling'))).toBe(false);
+
+    // With the limit: the fifth waits for the fourth, held by another process; the evaluation comes back later.
+    const now = site();
+    for (const e of ls4.slice(0, 3)) await now.store(e);
+    expect(await runEvaluation(now.deps, LS4, now.limit)).toBe('done');
+    const held = await now.heldElsewhere(ls4[3]);
+    await now.store(ls4[4]);
+    expect(await now.limit(LS4, 'lift-gearboxes')).toBe(Date.UTC(2024, 2, 1));
+    expect(await runEvaluation(now.deps, LS4, now.limit)).toBe('busy');
+    expect(await now.rows()).toEqual([]);
+    expect((await now.deps.store.evaluationInput(LS4))?.latest?.count).toBe(3);
+    // The other process stores the fourth and its batch judges it (its job done): everything is judged, in order.
+    await now.store(ls4[3]);
+    await held.job.moveToCompleted('judged', held.token, false);
+    expect(await now.limit(LS4, 'lift-gearboxes')).toBeUndefined();
+    expect(await runEvaluation(now.deps, LS4, now.limit)).toBe('done');
+    expect(await now.rows()).toEqual(expected);
+    expect((await now.deps.store.evaluationInput(LS4))?.latest?.count).toBe(5);
+  });
+
+  it('judges a later month of a component only once the results of its group from before it are judged', async () => {
+    const s = site();
+    const inMonth = (prefix: string, month: string) => events.find((e) => e.unit.startsWith(prefix) && e.sampledAt.startsWith(month))!;
+    // LS2's March result held by another process; LS1's first March and first April results stored.
+    const held = await s.heldElsewhere(inMonth('LS2-', '2024-03'));
+    const march = inMonth('LS1-', '2024-03');
+    const april = inMonth('LS1-', '2024-04');
+    const LS1 = { unit: march.unit, component: 'gearbox' };
+    await s.store(march);
+    await s.store(april);
+    // A month's group statistics are those of the months before it: March is judged, April waits.
+    expect(await s.limit(LS1, 'lift-gearboxes')).toBe(Date.UTC(2024, 3, 1));
+    expect(await runEvaluation(s.deps, LS1, s.limit)).toBe('busy');
+    expect((await s.deps.store.evaluationInput(LS1))?.latest?.count).toBe(1);
+    // Another group's results hold nothing up.
+    expect(await s.limit(LS1, 'another group')).toBeUndefined();
+    await held.job.moveToCompleted('judged', held.token, false);
+    expect(await runEvaluation(s.deps, LS1, s.limit)).toBe('done');
+    expect((await s.deps.store.evaluationInput(LS1))?.latest?.count).toBe(2);
+  });
+
+  it('comes back shortly while held up, and folds everything once older than the longest wait', async () => {
+    let clock = NOW;
+    const s = site(() => clock);
+    for (const e of ls4.slice(0, 3)) await s.store(e);
+    await s.heldElsewhere(ls4[3]);
+    await s.store(ls4[4]);
+    await scheduleEvaluation(s.evaluateQueue, LS4);
+    const taker = s.taker(QUEUE_NAMES.evaluate);
+    const processor = evaluateProcessor(s.deps, 200, { limit: s.limit, waitMs: 60_000 });
+    const job = (await taker.getNextJob('evaluate-1', { block: false })) as Job;
+    // Young: judged up to the month of the held result (the first two results; the third is of its month), then back
+    // on the queue, delayed.
+    clock = job.timestamp + 1_000;
+    await expect(processor(job, 'evaluate-1')).rejects.toBeInstanceOf(DelayedError);
+    expect(await s.evaluateQueue.getDelayedCount()).toBe(1);
+    expect(ls4.map((e) => e.sampledAt.slice(0, 7))).toEqual(['2024-02', '2024-02', '2024-03', '2024-03', '2024-03']);
+    expect((await s.deps.store.evaluationInput(LS4))?.latest?.count).toBe(2);
+    // Older than the longest wait (the holder hangs): everything stored is judged.
+    clock = job.timestamp + 61_000;
+    await s.evaluateQueue.promoteJobs();
+    const again = (await taker.getNextJob('evaluate-2', { block: false })) as Job;
+    expect(again.id).toBe(job.id);
+    expect(await processor(again, 'evaluate-2')).toEqual({ kind: 'done' });
+    expect((await s.deps.store.evaluationInput(LS4))?.latest?.count).toBe(4);
+  });
+});
