@@ -29,7 +29,8 @@ export interface EvaluationRunnerDeps extends EvaluationDeps {
   readonly evaluator?: (ref: ComponentRef) => Promise<EvaluationSummary>;
 }
 
-export type RunOutcome = 'done' | 'busy';
+/** `busy`: another worker holds the component; `held`: the arrival limit left stored samples due (try again later). */
+export type RunOutcome = 'done' | 'busy' | 'held';
 
 /**
  * What follows a committed evaluation on the calling thread: metrics, live events, the outbox relay woken for its
@@ -56,7 +57,7 @@ const MAX_ROUNDS = 50;
 
 /**
  * Evaluates the component until nothing is due. `limit` (an evaluate job's, arrivalLimit.ts; on this thread only):
- * how far each evaluation may fold; when it leaves stored samples due, the outcome is `busy` (try again shortly).
+ * how far each evaluation may fold; when it leaves stored samples due, the outcome is `held` (try again later).
  */
 export async function runEvaluation(deps: EvaluationRunnerDeps, ref: ComponentRef, limit?: ArrivalLimit): Promise<RunOutcome> {
   let limited = false;
@@ -79,12 +80,12 @@ export async function runEvaluation(deps: EvaluationRunnerDeps, ref: ComponentRe
       case 'empty':
         return 'done';
       case 'unchanged':
-        return result.leftDue === true ? 'busy' : 'done';
+        return result.leftDue === true ? 'held' : 'done';
       case 'evaluated': {
         await takeEvaluation(deps, ref, result);
         if (result.settled) return 'done';
         // What the limit left stays due for a later try (evaluating again at once would stop at the same place).
-        if (limited) return 'busy';
+        if (limited) return 'held';
       }
     }
   }

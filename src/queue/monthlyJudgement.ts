@@ -234,7 +234,7 @@ export class MonthlyJudgement {
   }
 
   private async evaluateAlone(ref: ComponentRef): Promise<void> {
-    if ((await runEvaluation(this.deps, ref, this.options.limit)) === 'busy') await this.scheduleLater(ref);
+    if ((await runEvaluation(this.deps, ref, this.options.limit)) !== 'done') await this.scheduleLater(ref);
   }
 
   private async scheduleLater(ref: ComponentRef): Promise<void> {

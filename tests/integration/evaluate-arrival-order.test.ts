@@ -20,7 +20,7 @@ import { storeSample } from '../../src/pipeline/storeResult.ts';
 import { arrivalLimit } from '../../src/queue/arrivalLimit.ts';
 import { activeJobs } from '../../src/queue/arrivalOrder.ts';
 import { runEvaluation, type EvaluationRunnerDeps } from '../../src/queue/evaluationRunner.ts';
-import { evaluateProcessor } from '../../src/queue/processors/evaluateProcessor.ts';
+import { evaluateProcessor, HELD_RETRY_MAX_MS } from '../../src/queue/processors/evaluateProcessor.ts';
 import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings, scheduleEvaluation } from '../../src/queue/queues.ts';
 import { Partitions } from '../../src/redis/keys.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
@@ -74,6 +74,7 @@ function site(now: () => number = () => NOW) {
   };
   closers.push(() => Promise.all([...evaluateQueues, results!].map((q) => q.close())));
   return {
+    connection,
     deps,
     limit,
     incidents,
@@ -123,7 +124,7 @@ describe('an evaluate job in arrival order', () => {
     const held = await now.heldElsewhere(ls4[3]);
     await now.store(ls4[4]);
     expect(await now.limit(LS4, 'lift-gearboxes')).toBe(Date.UTC(2024, 2, 1));
-    expect(await runEvaluation(now.deps, LS4, now.limit)).toBe('busy');
+    expect(await runEvaluation(now.deps, LS4, now.limit)).toBe('held');
     expect(await now.rows()).toEqual([]);
     expect((await now.deps.store.evaluationInput(LS4))?.latest?.count).toBe(3);
     // The other process stores the fourth and its batch judges it (its job done): everything is judged, in order.
@@ -147,7 +148,7 @@ describe('an evaluate job in arrival order', () => {
     await s.store(april);
     // A month's group statistics are those of the months before it: March is judged, April waits.
     expect(await s.limit(LS1, 'lift-gearboxes')).toBe(Date.UTC(2024, 3, 1));
-    expect(await runEvaluation(s.deps, LS1, s.limit)).toBe('busy');
+    expect(await runEvaluation(s.deps, LS1, s.limit)).toBe('held');
     expect((await s.deps.store.evaluationInput(LS1))?.latest?.count).toBe(1);
     // Another group's results hold nothing up.
     expect(await s.limit(LS1, 'another group')).toBeUndefined();
@@ -169,16 +170,35 @@ describe('an evaluate job in arrival order', () => {
     // Young: judged up to the month of the held result (the first two results; the third is of its month), then back
     // on the queue, delayed.
     clock = job.timestamp + 1_000;
-    await expect(processor(job, 'evaluate-1')).rejects.toBeInstanceOf(DelayedError);
-    expect(await s.evaluateQueue.getDelayedCount()).toBe(1);
+    const delayedBy = async (j: Job, token: string) => {
+      const before = Date.now();
+      await expect(processor(j, token)).rejects.toBeInstanceOf(DelayedError);
+      const after = Date.now();
+      expect(await s.evaluateQueue.getDelayedCount()).toBe(1);
+      // BullMQ's delayed set scores a job by its time × 4096 (and a counter).
+      const until = Math.floor(Number(await s.connection.zscore(`${s.evaluateQueue.qualifiedName}:delayed`, j.id!)) / 4096);
+      expect(until).toBeGreaterThanOrEqual(before);
+      return { min: until - after, max: until - before };
+    };
+    // A quarter of its age (1 s), at least the retry delay given (200 ms).
+    const first = await delayedBy(job, 'evaluate-1');
+    expect(first.min).toBeLessThanOrEqual(250);
+    expect(first.max).toBeGreaterThanOrEqual(250);
     expect(ls4.map((e) => e.sampledAt.slice(0, 7))).toEqual(['2024-02', '2024-02', '2024-03', '2024-03', '2024-03']);
+    expect((await s.deps.store.evaluationInput(LS4))?.latest?.count).toBe(2);
+    // Held 20 s: looks again after HELD_RETRY_MAX_MS, not a quarter of its age.
+    clock = job.timestamp + 20_000;
+    await s.evaluateQueue.promoteJobs();
+    const second = await delayedBy((await taker.getNextJob('evaluate-2', { block: false })) as Job, 'evaluate-2');
+    expect(second.min).toBeLessThanOrEqual(HELD_RETRY_MAX_MS);
+    expect(second.max).toBeGreaterThanOrEqual(HELD_RETRY_MAX_MS);
     expect((await s.deps.store.evaluationInput(LS4))?.latest?.count).toBe(2);
     // Older than the longest wait (the holder hangs): everything stored is judged.
     clock = job.timestamp + 61_000;
     await s.evaluateQueue.promoteJobs();
-    const again = (await taker.getNextJob('evaluate-2', { block: false })) as Job;
+    const again = (await taker.getNextJob('evaluate-3', { block: false })) as Job;
     expect(again.id).toBe(job.id);
-    expect(await processor(again, 'evaluate-2')).toEqual({ kind: 'done' });
+    expect(await processor(again, 'evaluate-3')).toEqual({ kind: 'done' });
     expect((await s.deps.store.evaluationInput(LS4))?.latest?.count).toBe(4);
   });
 });

@@ -16,13 +16,20 @@ export interface EvaluateInArrivalOrder {
   readonly waitMs: number;
 }
 
+/** Longest delay between the tries of an evaluate job held for earlier results (arrivalLimit.ts). */
+export const HELD_RETRY_MAX_MS = 2_000;
+
 export function evaluateProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_EVALUATE_RETRY_MS, arrival?: EvaluateInArrivalOrder): Processor {
   return async (job: Job, token?: string) => {
     const ref = evaluateJobData(job.data);
-    const limit = arrival !== undefined && deps.now() - job.timestamp < arrival.waitMs ? arrival.limit : undefined;
+    const age = deps.now() - job.timestamp;
+    const limit = arrival !== undefined && age < arrival.waitMs ? arrival.limit : undefined;
     const outcome = await runEvaluation(deps, ref, limit);
-    if (outcome === 'busy') {
-      await job.moveToDelayed(Date.now() + retryMs, token);
+    if (outcome !== 'done') {
+      // Held for earlier results: the longer it has waited, the longer it waits between looks (a quarter of its age,
+      // at most HELD_RETRY_MAX_MS), so that a group's many cascaded components do not poll a long backlog.
+      const delay = outcome === 'held' ? Math.max(retryMs, Math.min(HELD_RETRY_MAX_MS, Math.round(age / 4))) : retryMs;
+      await job.moveToDelayed(Date.now() + delay, token);
       throw new DelayedError();
     }
     return { kind: outcome };
