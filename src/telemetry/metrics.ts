@@ -25,6 +25,8 @@ export interface Metrics {
   evaluated(seconds: number, outcome: string): void;
   /** A batch of live results judged together (queue/resultBatches.ts): its components and results. */
   batched(components: number, results: number): void;
+  /** An evaluate job that left stored results due for earlier results not judged yet, and comes back (queue/arrivalLimit.ts). */
+  held(): void;
   findings(findings: readonly Finding[]): void;
   /** Sets where queue depth comes from; read at every scrape. */
   watchQueues(source: QueueDepthSource): void;
@@ -60,6 +62,11 @@ export function createMetrics(options: { defaultMetrics?: boolean } = {}): Metri
     buckets: [1, 2, 5, 10, 25, 50, 100, 250, 500, 1000, 5000],
     registers: [registry],
   });
+  const held = new Counter({
+    name: 'wearshift_evaluations_held_total',
+    help: 'Evaluate jobs (a component another worker held, a group\'s cascade, a responder\'s word) that judged a component only up to results not judged yet in arrival order and come back later, once per try; one that keeps rising for minutes points at a worker that holds results without judging them.',
+    registers: [registry],
+  });
   const findings = new Counter({ name: 'wearshift_findings_total', help: `Findings on newly evaluated samples, by rule family and severity. ${ADVISORY_CAUTION}`, labelNames: ['rule', 'severity'], registers: [registry] });
   let source: QueueDepthSource | undefined;
   new Gauge({
@@ -89,6 +96,7 @@ export function createMetrics(options: { defaultMetrics?: boolean } = {}): Metri
       batchComponents.observe(components);
       batchResults.observe(results);
     },
+    held: () => held.inc(),
     findings: (list) => {
       for (const f of list) findings.inc({ rule: f.rule, severity: f.severity });
     },

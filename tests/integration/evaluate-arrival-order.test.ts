@@ -26,6 +26,7 @@ import { Partitions } from '../../src/redis/keys.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
 import { silentLogger } from '../../src/telemetry/logger.ts';
+import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { inventedFleet } from '../helpers/fleetCsv.ts';
 import { storedVerdictRows } from '../helpers/incidentVerdict.ts';
 import { liftGearboxJudging, POPULATION_FLEET } from '../helpers/populationFleet.ts';
@@ -63,7 +64,8 @@ function site(now: () => number = () => NOW) {
   const settings = resolveQueueSettings({ prefix });
   const evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, connection, settings, partitions);
   const [results] = openPartitionedQueues(QUEUE_NAMES.results, connection, settings, partitions);
-  const deps: EvaluationRunnerDeps = { store, ledger: store, config, rules: incidentRules(config), now, partitions, evaluateQueues, logger: silentLogger() };
+  const metrics = createMetrics({ defaultMetrics: false });
+  const deps: EvaluationRunnerDeps = { store, ledger: store, config, rules: incidentRules(config), now, partitions, evaluateQueues, logger: silentLogger(), metrics };
   const limit = arrivalLimit(activeJobs(connection, [`${partitions.tag(0)}:${QUEUE_NAMES.results}`], (c) => groupOf(config, c)));
   const incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix });
   // A worker that takes jobs only when asked, as another process holding them.
@@ -75,6 +77,8 @@ function site(now: () => number = () => NOW) {
   closers.push(() => Promise.all([...evaluateQueues, results!].map((q) => q.close())));
   return {
     connection,
+    /** The count of evaluate jobs held for earlier results, from the /metrics text. */
+    held: async () => Number(/^wearshift_evaluations_held_total (\d+)$/m.exec(await metrics.registry.metrics())?.[1]),
     deps,
     limit,
     incidents,
@@ -199,6 +203,8 @@ describe('an evaluate job in arrival order', () => {
     const again = (await taker.getNextJob('evaluate-3', { block: false })) as Job;
     expect(again.id).toBe(job.id);
     expect(await processor(again, 'evaluate-3')).toEqual({ kind: 'done' });
+    // Held twice, counted twice (/metrics).
+    expect(await s.held()).toBe(2);
     expect((await s.deps.store.evaluationInput(LS4))?.latest?.count).toBe(4);
   });
 });

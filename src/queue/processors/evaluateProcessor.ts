@@ -28,6 +28,7 @@ export function evaluateProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_
     if (outcome !== 'done') {
       // Held for earlier results: the longer it has waited, the longer it waits between looks (a quarter of its age,
       // at most HELD_RETRY_MAX_MS), so that a group's many cascaded components do not poll a long backlog.
+      if (outcome === 'held') deps.metrics?.held();
       const delay = outcome === 'held' ? Math.max(retryMs, Math.min(HELD_RETRY_MAX_MS, Math.round(age / 4))) : retryMs;
       await job.moveToDelayed(Date.now() + delay, token);
       throw new DelayedError();
