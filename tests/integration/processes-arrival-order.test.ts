@@ -44,12 +44,15 @@ afterAll(async () => {
   if (dir) rmSync(dir, { recursive: true, force: true });
 });
 
-/** Results a worker process stored, new ones only (its /metrics; a redelivered result counts as a duplicate). */
-async function storedBy(worker: WearshiftProcess): Promise<number> {
+/** A counter of a worker process's /metrics (0 when not shown). */
+async function counted(worker: WearshiftProcess, series: string): Promise<number> {
   const text = await (await fetch(`${worker.url}/metrics`)).text();
-  const line = text.split('\n').find((l) => l.startsWith('wearshift_results_stored_total{status="new"}'));
+  const line = text.split('\n').find((l) => l.startsWith(`${series} `));
   return line === undefined ? 0 : Number(line.split(' ').pop());
 }
+
+/** Results a worker process stored, new ones only (a redelivered result counts as a duplicate). */
+const storedBy = (worker: WearshiftProcess) => counted(worker, 'wearshift_results_stored_total{status="new"}');
 
 /** One round: the burst imported with no worker running, then taken by two fresh worker processes. */
 async function round(n: number, file: string, partitionCount: number, results = POPULATION_FLEET_RESULTS, name = 'one') {
@@ -82,10 +85,12 @@ async function round(n: number, file: string, partitionCount: number, results = 
     await drained([...queues, ...evaluate], 600_000);
     for (const q of [...queues, ...evaluate]) expect(await q.getFailedCount()).toBe(0);
     const stored = await Promise.all(workers.map(storedBy));
+    // For the log: the evaluate jobs that came back later, holding off results not judged yet (arrivalLimit.ts).
+    const held = (await Promise.all(workers.map((w) => counted(w, 'wearshift_evaluations_held_total')))).reduce((a, b) => a + b, 0);
 
     // Every incident, withdrawn ones too.
     const store = new RedisIncidents(redis, { rules: incidentRules(parseConfig(populationConfig(prefix, partitionCount))), prefix, partitions: partitionCount });
-    return { stored, incidents: await storedVerdictRows(store) };
+    return { stored, held, incidents: await storedVerdictRows(store) };
   } finally {
     await Promise.all([...queues, ...evaluate].map((q) => q.close()));
     for (const w of workers) expect(await w.stop()).toBe(0);
@@ -101,7 +106,7 @@ describe('two worker processes taking a burst that spans many sampling months', 
 
     const rounds = [];
     for (let n = 1; n <= ROUNDS; n++) rounds.push(await round(n, file, partitionCount));
-    console.info(`${partitionCount} partitions, withdrawn incidents per round: ${rounds.map((r) => r.incidents.filter((i) => i.closed === 'withdrawn').length).join(', ')}`);
+    console.info(`${partitionCount} partitions, withdrawn incidents per round: ${rounds.map((r) => r.incidents.filter((i) => i.closed === 'withdrawn').length).join(', ')}; evaluate jobs held: ${rounds.map((r) => r.held).join(', ')}`);
 
     // Both processes stored part of the burst in every round, every result once.
     for (const r of rounds) {
