@@ -90,7 +90,10 @@ async function round(n: number, file: string, partitionCount: number, results = 
 
     // Every incident, withdrawn ones too.
     const store = new RedisIncidents(redis, { rules: incidentRules(parseConfig(populationConfig(prefix, partitionCount))), prefix, partitions: partitionCount });
-    return { stored, held, incidents: await storedVerdictRows(store) };
+    // For the log: the workers' warnings that a wait for earlier results ran out (the other way to open an incident
+    // that is withdrawn later; resultBatches.ts).
+    const waitsRunOut = workers.flatMap((w) => w.output().split('\n')).filter((l) => /results judged without earlier ones|not waited for any longer/.test(l)).length;
+    return { stored, held, waitsRunOut, incidents: await storedVerdictRows(store) };
   } finally {
     await Promise.all([...queues, ...evaluate].map((q) => q.close()));
     for (const w of workers) expect(await w.stop()).toBe(0);
@@ -106,7 +109,7 @@ describe('two worker processes taking a burst that spans many sampling months', 
 
     const rounds = [];
     for (let n = 1; n <= ROUNDS; n++) rounds.push(await round(n, file, partitionCount));
-    console.info(`${partitionCount} partitions, withdrawn incidents per round: ${rounds.map((r) => r.incidents.filter((i) => i.closed === 'withdrawn').length).join(', ')}; evaluate jobs held: ${rounds.map((r) => r.held).join(', ')}`);
+    console.info(`${partitionCount} partitions, withdrawn incidents per round: ${rounds.map((r) => r.incidents.filter((i) => i.closed === 'withdrawn').length).join(', ')}; evaluate jobs held: ${rounds.map((r) => r.held).join(', ')}; waits run out: ${rounds.map((r) => r.waitsRunOut).join(', ')}`);
 
     // Both processes stored part of the burst in every round, every result once.
     for (const r of rounds) {
