@@ -12,14 +12,15 @@
 import { DelayedError, Worker, type Job } from 'bullmq';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
-import type { Sample } from '../../src/domain/event.ts';
+import { componentKey, type Sample } from '../../src/domain/event.ts';
 import { groupOf } from '../../src/domain/settings.ts';
 import { incidentRules } from '../../src/incidents/policy.ts';
 import { validateResult } from '../../src/intake/validate.ts';
 import { storeSample } from '../../src/pipeline/storeResult.ts';
 import { arrivalLimit } from '../../src/queue/arrivalLimit.ts';
-import { activeJobs } from '../../src/queue/arrivalOrder.ts';
+import { activeJobs, arrivalOf, type GroupOf } from '../../src/queue/arrivalOrder.ts';
 import { runEvaluation, type EvaluationRunnerDeps } from '../../src/queue/evaluationRunner.ts';
+import { ResultBatches } from '../../src/queue/resultBatches.ts';
 import { evaluateProcessor, HELD_RETRY_MAX_MS } from '../../src/queue/processors/evaluateProcessor.ts';
 import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings, scheduleEvaluation } from '../../src/queue/queues.ts';
 import { Partitions } from '../../src/redis/keys.ts';
@@ -43,6 +44,7 @@ const sampleOf = (event: unknown): Sample => {
 /** The first five results of gearbox LS4, in sampling order: the fourth reports an oil change. */
 const ls4 = events.filter((e) => e.unit.startsWith('LS4')).slice(0, 5);
 const LS4 = { unit: ls4[0]!.unit, component: 'gearbox' };
+const groups: GroupOf = (c) => groupOf(config, c);
 
 let server: RedisServer;
 let prefixes = 0;
@@ -66,7 +68,8 @@ function site(now: () => number = () => NOW) {
   const [results] = openPartitionedQueues(QUEUE_NAMES.results, connection, settings, partitions);
   const metrics = createMetrics({ defaultMetrics: false });
   const deps: EvaluationRunnerDeps = { store, ledger: store, config, rules: incidentRules(config), now, partitions, evaluateQueues, logger: silentLogger(), metrics };
-  const limit = arrivalLimit(activeJobs(connection, [`${partitions.tag(0)}:${QUEUE_NAMES.results}`], (c) => groupOf(config, c)));
+  const resultsKey = `${partitions.tag(0)}:${QUEUE_NAMES.results}`;
+  const limit = arrivalLimit(activeJobs(connection, [resultsKey], groups));
   const incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix });
   // A worker that takes jobs only when asked, as another process holding them.
   const taker = (queue: string) => {
@@ -77,6 +80,7 @@ function site(now: () => number = () => NOW) {
   closers.push(() => Promise.all([...evaluateQueues, results!].map((q) => q.close())));
   return {
     connection,
+    resultsKey,
     /** The count of evaluate jobs held for earlier results, from the /metrics text. */
     held: async () => Number(/^wearshift_evaluations_held_total (\d+)$/m.exec(await metrics.registry.metrics())?.[1]),
     deps,
@@ -159,6 +163,48 @@ describe('an evaluate job in arrival order', () => {
     await held.job.moveToCompleted('judged', held.token, false);
     expect(await runEvaluation(s.deps, LS1, s.limit)).toBe('done');
     expect((await s.deps.store.evaluationInput(LS1))?.latest?.count).toBe(2);
+  });
+
+  it('in a batch, judges a component on its own after a commit that could not be made only up to what another process holds', async () => {
+    const s = site();
+    for (const e of ls4.slice(0, 2)) await s.store(e);
+    expect(await runEvaluation(s.deps, LS4)).toBe('done');
+    // The third result's job is this process's; the fourth's, which arrived after it, another process's (not stored yet).
+    const third = await s.heldElsewhere(ls4[2]);
+    const fourth = await s.heldElsewhere(ls4[3]);
+    // The batch's commit is refused once (as when a responder acted on an incident meanwhile), after another process
+    // stored the fifth result: the component is then judged on its own.
+    let refused = 0;
+    const store: RedisStore = Object.create(s.deps.store as RedisStore);
+    store.commit = async (ref, lease, commit) => {
+      if (refused++ === 0) {
+        await s.store(ls4[4]);
+        return { ok: false, reason: 'incidents-changed' };
+      }
+      return s.deps.store.commit(ref, lease, commit);
+    };
+    const batches = new ResultBatches({ ...s.deps, store, ledger: store }, { activeJobs: activeJobs(s.connection, [s.resultsKey], groups), groupOf: groups });
+    const release = batches.hold(arrivalOf(third.job.id), batches.about(ls4[2]));
+    await s.store(ls4[2]);
+    await batches.judge(sampleOf(ls4[2]), arrivalOf(third.job.id));
+    release();
+    expect(refused).toBeGreaterThanOrEqual(1);
+    // Not judged against the third with the fourth missing: nothing opened; left due from March, its evaluation scheduled.
+    expect(await s.rows()).toEqual([]);
+    expect((await s.deps.store.evaluationInput(LS4))?.latest?.count).toBe(2);
+    const scheduled = await s.evaluateQueue.getJobs(['delayed', 'waiting']);
+    expect(scheduled.map((j) => j.data)).toEqual([LS4]);
+    // The other process stores the fourth and is done with it: the scheduled evaluation judges the rest in order.
+    await s.store(ls4[3]);
+    await fourth.job.moveToCompleted('judged', fourth.token, false);
+    await third.job.moveToCompleted('judged', third.token, false);
+    expect(await runEvaluation(s.deps, LS4, s.limit)).toBe('done');
+    expect((await s.deps.store.evaluationInput(LS4))?.latest?.count).toBe(5);
+    const reference = site();
+    for (const e of ls4) await reference.store(e);
+    expect(await runEvaluation(reference.deps, LS4)).toBe('done');
+    expect(await s.rows()).toEqual(await reference.rows());
+    expect(componentKey(scheduled[0]!.data)).toBe(componentKey(LS4));
   });
 
   it('comes back shortly while held up, and folds everything once older than the longest wait', async () => {
