@@ -84,6 +84,11 @@ export class MonthlyJudgement {
   private readonly retryMs: number;
   /** Component-months judged. */
   judged = 0;
+  /**
+   * Other components its shares and commits marked to be judged again (the group's cascade): judged past a month
+   * whose group statistics this judgement changed, as live results judged beside a history import are.
+   */
+  rejudged = 0;
 
   constructor(
     private readonly deps: EvaluationRunnerDeps,
@@ -203,6 +208,7 @@ export class MonthlyJudgement {
       await this.scheduleLater(ref);
       return;
     }
+    this.rejudged += shared.cascade.length;
     await takeCascade(this.deps, ref, shared.cascade);
   }
 
@@ -219,6 +225,7 @@ export class MonthlyJudgement {
     }
     const result = summarizeEvaluation(await run.commit());
     if (result.kind === 'evaluated') {
+      this.rejudged += result.cascade.length;
       await takeEvaluation(this.deps, run.ref, result);
       if (result.settled || this.options.unsettledJudgedElsewhere === true) return;
     }

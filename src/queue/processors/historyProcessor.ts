@@ -36,6 +36,8 @@ export interface HistoryOutcome {
   readonly results: number;
   readonly months: number;
   readonly evaluations: number;
+  /** Other components judged again because the job changed group statistics of months they had been judged past. */
+  readonly rejudged: number;
 }
 
 /** `atOnce`: components of one month judged at a time. Default JUDGEMENTS_AT_ONCE (monthlyJudgement.ts). */
@@ -77,7 +79,15 @@ async function processHistory(deps: EvaluationRunnerDeps, job: Job, retryMs: num
   if (refused.length > 0) {
     throw new UnrecoverableError(`${refused.length} of ${data.records.length} results of this history were not stored: ${refused.join('; ')}`);
   }
-  return { results: samples.length, months, evaluations: judgement.judged };
+  if (judgement.rejudged > 0) {
+    // Components judged past the job's months before it came (live results of its groups): judged again now, and an
+    // incident one of them opened meanwhile may be withdrawn (README, Known limit).
+    deps.logger.warn(
+      { job: job.id, components: judgement.rejudged },
+      "a history import changed group statistics of months other components had been judged past: they are judged again, and an incident opened meanwhile may be withdrawn; load a group's history before its live feed",
+    );
+  }
+  return { results: samples.length, months, evaluations: judgement.judged, rejudged: judgement.rejudged };
 
   async function processMonths(): Promise<void> {
     for (let from = 0; from < samples.length; ) {
