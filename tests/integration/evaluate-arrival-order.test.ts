@@ -10,28 +10,25 @@
  * folds everything once it is older than the batches' longest wait.
  */
 import { DelayedError, Worker, type Job } from 'bullmq';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
 import { componentKey, type Sample } from '../../src/domain/event.ts';
 import { groupOf } from '../../src/domain/settings.ts';
-import { incidentRules } from '../../src/incidents/policy.ts';
 import { validateResult } from '../../src/intake/validate.ts';
 import { storeSample } from '../../src/pipeline/storeResult.ts';
 import { arrivalLimit } from '../../src/queue/arrivalLimit.ts';
 import { activeJobs, arrivalOf, type GroupOf } from '../../src/queue/arrivalOrder.ts';
-import { runEvaluation, type EvaluationRunnerDeps } from '../../src/queue/evaluationRunner.ts';
+import { runEvaluation } from '../../src/queue/evaluationRunner.ts';
 import { ResultBatches } from '../../src/queue/resultBatches.ts';
 import { evaluateProcessor, HELD_RETRY_MAX_MS } from '../../src/queue/processors/evaluateProcessor.ts';
-import { openPartitionedQueues, QUEUE_NAMES, resolveQueueSettings, scheduleEvaluation } from '../../src/queue/queues.ts';
-import { Partitions } from '../../src/redis/keys.ts';
+import { openPartitionedQueues, QUEUE_NAMES, scheduleEvaluation } from '../../src/queue/queues.ts';
 import { RedisIncidents } from '../../src/redis/redisIncidents.ts';
 import { RedisStore } from '../../src/redis/redisStore.ts';
-import { silentLogger } from '../../src/telemetry/logger.ts';
 import { createMetrics } from '../../src/telemetry/metrics.ts';
 import { inventedFleet } from '../helpers/fleetCsv.ts';
+import { evaluationSites } from '../helpers/evaluationSites.ts';
 import { storedVerdictRows } from '../helpers/incidentVerdict.ts';
 import { liftGearboxJudging, POPULATION_FLEET } from '../helpers/populationFleet.ts';
-import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const config = parseConfig(liftGearboxJudging(true));
 const NOW = Date.parse('2026-12-01T00:00:00Z');
@@ -46,38 +43,23 @@ const ls4 = events.filter((e) => e.unit.startsWith('LS4')).slice(0, 5);
 const LS4 = { unit: ls4[0]!.unit, component: 'gearbox' };
 const groups: GroupOf = (c) => groupOf(config, c);
 
-let server: RedisServer;
-let prefixes = 0;
-const closers: Array<() => Promise<unknown>> = [];
-beforeAll(async () => {
-  server = await startRedisServer();
-});
-afterAll(async () => {
-  for (const close of closers.reverse()) await close();
-  await server?.dispose();
-});
+const sites = evaluationSites(config, 'ev');
 
 /** A store, its evaluation deps (clock `now`), its results and evaluate queues and the arrival limit, on a fresh prefix. */
 function site(now: () => number = () => NOW) {
-  const prefix = `{ev${++prefixes}}`;
-  const connection = server.client();
-  const store = new RedisStore(connection, { prefix, config });
-  const partitions = new Partitions(prefix, 1);
-  const settings = resolveQueueSettings({ prefix });
-  const evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, connection, settings, partitions);
-  const [results] = openPartitionedQueues(QUEUE_NAMES.results, connection, settings, partitions);
   const metrics = createMetrics({ defaultMetrics: false });
-  const deps: EvaluationRunnerDeps = { store, ledger: store, config, rules: incidentRules(config), now, partitions, evaluateQueues, logger: silentLogger(), metrics };
+  const { prefix, connection, partitions, settings, evaluateQueues, deps } = sites.site({ now, metrics });
+  const [results] = openPartitionedQueues(QUEUE_NAMES.results, connection, settings, partitions);
   const resultsKey = `${partitions.tag(0)}:${QUEUE_NAMES.results}`;
   const limit = arrivalLimit(activeJobs(connection, [resultsKey], groups));
-  const incidents = new RedisIncidents(connection, { rules: incidentRules(config), prefix });
+  const incidents = new RedisIncidents(connection, { rules: deps.rules, prefix });
   // A worker that takes jobs only when asked, as another process holding them.
   const taker = (queue: string) => {
     const worker = new Worker(queue, null, { connection, prefix: partitions.tag(0), autorun: false });
-    closers.push(() => worker.close());
+    sites.closeAfter(() => worker.close());
     return worker;
   };
-  closers.push(() => Promise.all([...evaluateQueues, results!].map((q) => q.close())));
+  sites.closeAfter(() => results!.close());
   return {
     connection,
     resultsKey,
@@ -88,12 +70,12 @@ function site(now: () => number = () => NOW) {
     incidents,
     evaluateQueue: evaluateQueues[0]!,
     async store(event: unknown) {
-      expect((await storeSample(store, config, sampleOf(event), NOW)).outcome.status).toBe('new');
+      expect((await storeSample(deps.store, config, sampleOf(event), NOW)).outcome.status).toBe('new');
     },
     /** A results job of `event` taken by another process (active, its result not stored yet). */
     async heldElsewhere(event: unknown): Promise<{ job: Job; token: string }> {
       await results!.add('result', event);
-      const token = `elsewhere-${prefixes}`;
+      const token = `elsewhere-${prefix}`;
       const job = (await taker(QUEUE_NAMES.results).getNextJob(token, { block: false })) as Job | undefined;
       expect(job?.data).toEqual(event);
       return { job: job!, token };

@@ -7,20 +7,17 @@
  */
 import { Writable } from 'node:stream';
 import { Worker, type Job } from 'bullmq';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/domain/configFile.ts';
-import { incidentRules } from '../../src/incidents/policy.ts';
 import { validateResult } from '../../src/intake/validate.ts';
 import { storeSample } from '../../src/pipeline/storeResult.ts';
-import { runEvaluation, type EvaluationRunnerDeps } from '../../src/queue/evaluationRunner.ts';
+import { runEvaluation } from '../../src/queue/evaluationRunner.ts';
 import { historyProcessor, type HistoryOutcome } from '../../src/queue/processors/historyProcessor.ts';
-import { openPartitionedQueues, openSharedQueue, QUEUE_NAMES, resolveQueueSettings } from '../../src/queue/queues.ts';
-import { Partitions } from '../../src/redis/keys.ts';
-import { RedisStore } from '../../src/redis/redisStore.ts';
+import { openSharedQueue, QUEUE_NAMES } from '../../src/queue/queues.ts';
 import { createLogger } from '../../src/telemetry/logger.ts';
+import { evaluationSites } from '../helpers/evaluationSites.ts';
 import { inventedFleet } from '../helpers/fleetCsv.ts';
 import { liftGearboxJudging, POPULATION_FLEET } from '../helpers/populationFleet.ts';
-import { startRedisServer, type RedisServer } from '../helpers/redisServer.ts';
 
 const config = parseConfig(liftGearboxJudging(true));
 const NOW = Date.parse('2026-12-01T00:00:00Z');
@@ -29,28 +26,10 @@ const events = inventedFleet(POPULATION_FLEET);
 const live = events.filter((e) => e.unit.startsWith('LS1-') && e.sampledAt < '2025-01');
 const history = events.filter((e) => !e.unit.startsWith('LS1-') && e.sampledAt < '2025-01');
 
-let server: RedisServer;
-let prefixes = 0;
-const closers: Array<() => Promise<unknown>> = [];
-beforeAll(async () => {
-  server = await startRedisServer();
-});
-afterAll(async () => {
-  for (const close of closers.reverse()) await close();
-  await server?.dispose();
-});
+const sites = evaluationSites(config, 'hl');
 
 /** A store on a fresh prefix, its deps with a logger whose warnings are kept, and a way to run one history job. */
 function site() {
-  const prefix = `{hl${++prefixes}}`;
-  const connection = server.client();
-  const store = new RedisStore(connection, { prefix, config });
-  const partitions = new Partitions(prefix, 1);
-  const settings = resolveQueueSettings({ prefix });
-  const evaluateQueues = openPartitionedQueues(QUEUE_NAMES.evaluate, connection, settings, partitions);
-  const historyQueue = openSharedQueue(QUEUE_NAMES.history, connection, settings, partitions);
-  const taker = new Worker(QUEUE_NAMES.history, null, { connection, prefix: partitions.sharedTag(), autorun: false });
-  closers.push(() => taker.close(), () => Promise.all([...evaluateQueues, historyQueue].map((q) => q.close())));
   const warnings: string[] = [];
   const logger = createLogger({
     level: 'warn',
@@ -61,7 +40,10 @@ function site() {
       },
     }),
   });
-  const deps: EvaluationRunnerDeps = { store, ledger: store, config, rules: incidentRules(config), now: () => NOW, partitions, evaluateQueues, logger };
+  const { connection, store, partitions, settings, deps } = sites.site({ now: () => NOW, logger });
+  const historyQueue = openSharedQueue(QUEUE_NAMES.history, connection, settings, partitions);
+  const taker = new Worker(QUEUE_NAMES.history, null, { connection, prefix: partitions.sharedTag(), autorun: false });
+  sites.closeAfter(() => Promise.all([taker.close(), historyQueue.close()]));
   return {
     deps,
     warnings,
