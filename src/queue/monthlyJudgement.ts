@@ -67,8 +67,9 @@ export interface MonthlyJudgementOptions {
    */
   readonly foldUntil?: (ref: ComponentRef) => number | undefined;
   /**
-   * How far the evaluation of a component on its own (after a commit that could not be made, as another stored a
-   * result meanwhile) may fold (arrivalLimit.ts); what it leaves is judged by a scheduled evaluation. Default: everything.
+   * How far the evaluation of a component on its own (after its commit was refused: its incidents changed meanwhile,
+   * or its lock lapsed) may fold (arrivalLimit.ts); what it leaves is judged by a scheduled evaluation. Default:
+   * everything.
    */
   readonly limit?: ArrivalLimit;
 }
@@ -85,10 +86,10 @@ export class MonthlyJudgement {
   /** Component-months judged. */
   judged = 0;
   /**
-   * Other components its shares and commits marked to be judged again (the group's cascade): judged past a month
-   * whose group statistics this judgement changed, as live results judged beside a history import are.
+   * Other components its shares and commits marked to be judged again (the group's cascade), by `componentKey`: judged
+   * past a month whose group statistics this judgement changed, as live results judged beside a history import are.
    */
-  rejudged = 0;
+  readonly rejudged = new Set<string>();
 
   constructor(
     private readonly deps: EvaluationRunnerDeps,
@@ -208,7 +209,7 @@ export class MonthlyJudgement {
       await this.scheduleLater(ref);
       return;
     }
-    this.rejudged += shared.cascade.length;
+    for (const c of shared.cascade) this.rejudged.add(componentKey(c.ref));
     await takeCascade(this.deps, ref, shared.cascade);
   }
 
@@ -225,7 +226,7 @@ export class MonthlyJudgement {
     }
     const result = summarizeEvaluation(await run.commit());
     if (result.kind === 'evaluated') {
-      this.rejudged += result.cascade.length;
+      for (const c of result.cascade) this.rejudged.add(componentKey(c.ref));
       await takeEvaluation(this.deps, run.ref, result);
       if (result.settled || this.options.unsettledJudgedElsewhere === true) return;
     }

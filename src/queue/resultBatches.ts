@@ -401,7 +401,7 @@ export class ResultBatches {
       // What a run read beyond the batch's months is folded now (a late result rewound it over results judged before),
       // except from the month of the component's results waiting for the next batch, which judges them, or held by
       // another process, whose batch judges them.
-      // A component judged on its own (its commit could not be made) leaves the results another process holds, and
+      // A component judged on its own (its commit was refused) leaves the results another process holds, and
       // later months of their group, to the batches that judge them (arrivalLimit.ts), as an evaluate job does.
       ...(this.options.activeJobs !== undefined && { limit: this.elsewhereLimit(this.options.activeJobs) }),
       foldUntil: (ref) => {

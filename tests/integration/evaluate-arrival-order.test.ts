@@ -4,10 +4,12 @@
  * two worker processes, a later result one process had stored was judged while the earlier one, taken by the other
  * process and not stored yet, was missing. In the invented fleet of the multi-process tests, gearbox LS4's fourth
  * sample is an oil change and its fifth reads 517 oil hours: judged without the fourth, the fifth reads as oil hours
- * gone back from the third's 870 and opens a sampling incident, withdrawn once the fourth is judged (the one failure
- * in 4-partition rounds of tests/integration/processes-arrival-order.test.ts). Now the evaluate job leaves the results
- * a results job still holds (and later months of its group) to the batches that judge them, comes back shortly, and
- * folds everything once it is older than the batches' longest wait.
+ * gone back from the third's 870 and opens a sampling incident, withdrawn once the fourth is judged (the incident seen
+ * once in the 4-partition rounds of tests/integration/processes-arrival-order.test.ts). Now the evaluate job leaves the
+ * results a results job still holds (and later months of its group) to the batches that judge them, comes back
+ * shortly, and folds everything once it is older than the batches' longest wait. So does a batch's component judged on
+ * its own after a commit that was refused (here a store whose first commit is refused, as when a responder acted on an
+ * incident meanwhile).
  */
 import { DelayedError, Worker, type Job } from 'bullmq';
 import { describe, expect, it } from 'vitest';

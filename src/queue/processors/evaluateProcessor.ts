@@ -25,15 +25,16 @@ export function evaluateProcessor(deps: EvaluationRunnerDeps, retryMs = DEFAULT_
     const age = deps.now() - job.timestamp;
     const limit = arrival !== undefined && age < arrival.waitMs ? arrival.limit : undefined;
     const outcome = await runEvaluation(deps, ref, limit);
-    if (outcome !== 'done') {
+    if (outcome === 'done') return { kind: outcome };
+    let delay = retryMs;
+    if (outcome === 'held') {
       // Held for earlier results: the longer it has waited, the longer it waits between looks (a quarter of its age,
       // at most HELD_RETRY_MAX_MS), so that a group's many cascaded components do not poll a long backlog.
-      if (outcome === 'held') deps.metrics?.held();
-      const delay = outcome === 'held' ? Math.max(retryMs, Math.min(HELD_RETRY_MAX_MS, Math.round(age / 4))) : retryMs;
-      await job.moveToDelayed(Date.now() + delay, token);
-      throw new DelayedError();
+      deps.metrics?.held();
+      delay = Math.max(retryMs, Math.min(HELD_RETRY_MAX_MS, Math.round(age / 4)));
     }
-    return { kind: outcome };
+    await job.moveToDelayed(Date.now() + delay, token);
+    throw new DelayedError();
   };
 }
 

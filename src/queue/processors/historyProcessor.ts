@@ -79,15 +79,15 @@ async function processHistory(deps: EvaluationRunnerDeps, job: Job, retryMs: num
   if (refused.length > 0) {
     throw new UnrecoverableError(`${refused.length} of ${data.records.length} results of this history were not stored: ${refused.join('; ')}`);
   }
-  if (judgement.rejudged > 0) {
+  if (judgement.rejudged.size > 0) {
     // Components judged past the job's months before it came (live results of its groups): judged again now, and an
     // incident one of them opened meanwhile may be withdrawn (README, Known limit).
     deps.logger.warn(
-      { job: job.id, components: judgement.rejudged },
+      { job: job.id, components: judgement.rejudged.size },
       "a history import changed group statistics of months other components had been judged past: they are judged again, and an incident opened meanwhile may be withdrawn; load a group's history before its live feed",
     );
   }
-  return { results: samples.length, months, evaluations: judgement.judged, rejudged: judgement.rejudged };
+  return { results: samples.length, months, evaluations: judgement.judged, rejudged: judgement.rejudged.size };
 
   async function processMonths(): Promise<void> {
     for (let from = 0; from < samples.length; ) {
