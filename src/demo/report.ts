@@ -52,6 +52,9 @@ export function formatReport(r: DemoReport, outDir: string): string[] {
     const tier = i.highestTierTold < 0 ? 'nobody told' : `told up to tier ${i.highestTierTold}`;
     lines.push(`    ${i.id}  ${i.severity}, ${i.state}, ${tier}, ${i.notifications} messages${i.acknowledgedBy ? `, acknowledged by ${i.acknowledgedBy}` : ''}`);
   }
+  if (r.incidents.some((i) => i.state === 'closed (withdrawn)')) {
+    lines.push('                     (withdrawn: a corrected or late result changed the history so that it no longer stands; its findings are gone from the timeline above)');
+  }
   const byRecipient = new Map<string, number>();
   for (const m of r.mails) byRecipient.set(m.to, (byRecipient.get(m.to) ?? 0) + 1);
   lines.push(`  E-mails            ${r.mails.length} received (${[...byRecipient].map(([to, n]) => `${to} ${n}`).join(', ')}) → ${outDir}/mail-*.eml`);

@@ -414,7 +414,7 @@ async function readIncidents(store: RedisIncidents): Promise<DemoIncident[]> {
       unit: i.unit,
       component: i.component,
       severity: i.peakSeverity,
-      state: i.closed !== null ? 'closed' : `${i.alarm === 'active' ? 'active' : 'returned to normal'}, ${i.acknowledged ? 'acknowledged' : 'unacknowledged'}`,
+      state: i.closed !== null ? `closed (${i.closed.how})` : `${i.alarm === 'active' ? 'active' : 'returned to normal'}, ${i.acknowledged ? 'acknowledged' : 'unacknowledged'}`,
       ...(i.acknowledged !== null && { acknowledgedBy: i.acknowledged.by }),
       reachedTier: i.escalation.reachedTier,
       highestTierTold: Math.max(-1, ...notified.filter((t) => t.targets.length > 0).map((t) => t.tier)),

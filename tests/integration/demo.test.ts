@@ -13,6 +13,7 @@ import { Webhook } from 'standardwebhooks';
 import { afterAll, describe, expect, it } from 'vitest';
 import type { DemoReport } from '../../src/demo/runDemo.ts';
 import { formatTimeline } from '../../src/demo/timeline.ts';
+import { formatReport } from '../../src/demo/report.ts';
 import { redisServerAvailable } from '../../src/runtime/embeddedRedis.ts';
 import { BIN } from '../helpers/cli.ts';
 import { startRedisServer } from '../helpers/redisServer.ts';
@@ -82,6 +83,15 @@ describe.skipIf(!redisServerAvailable())('wearshift demo', () => {
     expect(report.checks.usualRateEndsWatch).toBe(true);
     // Nothing new opened on GEN-1 after the word: the detectors learnt its rate again.
     expect(report.incidents.filter((i) => i.unit === 'GEN-1').map((i) => i.id)).toEqual([report.usualRate!.incidentId]);
+  });
+
+  it("withdraws GEN-2's incident once the lab re-issues the iron reading that opened it, and says so", () => {
+    // demo/README.md: the corrected revision withdraws the incident, and its findings leave the timeline.
+    expect(report.incidents.filter((i) => i.unit === 'GEN-2').map((i) => i.state)).toEqual(['closed (withdrawn)']);
+    expect(report.timelines.find((t) => t.unit === 'GEN-2')!.firsts).toEqual([]);
+    const printed = formatReport(report, 'out').join('\n');
+    expect(printed).toMatch(/GEN-2\/engine@\S+ +caution, closed \(withdrawn\)/);
+    expect(printed).toMatch(/withdrawn: a corrected or late result changed the history/);
   });
 
   it('shows the PS2-P3 gearbox change caught before its fixed limit', () => {
