@@ -34,7 +34,7 @@ import { ownRateBaseline } from '../baseline.ts';
 import { labVariance } from '../labNoise.ts';
 import { trustedGroupBaseline, type AnalysisState } from '../fold/analysisFold.ts';
 import type { BaselineSums, GroupStats, RateBaseline } from '../model.ts';
-import { crossingQuantile, mixtureCrossing, mixtureLevelQuantile, projectAt, trendAt, type ProjectedTrend, type TrendMixture } from './crossing.ts';
+import { crossingQuantile, mixtureCrossing, mixtureLevelQuantiles, projectAt, trendAt, type ProjectedTrend, type TrendMixture } from './crossing.ts';
 import type { ForecastTrack, RecentInterval, UsagePoint } from './forecastTrack.ts';
 import { limitSpecs, makeUpLevel, type LimitSpec } from './limits.ts';
 import type { ComponentForecast, ForecastBasis, ForecastTime, LimitForecast, MeasurandForecast, ProjectionPoint } from './model.ts';
@@ -370,13 +370,17 @@ function projection(mix: TrendMixture, t0: number, horizon: number, p: { low: nu
   if (!(horizon > 0)) return [];
   const out: ProjectionPoint[] = [];
   const single = mix.length === 1 ? mix[0]!.trend : undefined;
+  const ps = [0.5, p.low, p.high];
+  let previous: number[] | undefined;
   for (let i = 0; i <= PROJECTION_POINTS; i++) {
     const tau = (horizon * i) / PROJECTION_POINTS;
     if (single !== undefined) {
       const x = projectAt(single, tau);
       out.push({ oilHours: t0 + tau, central: x.mean, low: x.mean + q(p.low) * x.sd, high: x.mean + q(p.high) * x.sd });
     } else {
-      out.push({ oilHours: t0 + tau, central: mixtureLevelQuantile(mix, tau, 0.5), low: mixtureLevelQuantile(mix, tau, p.low), high: mixtureLevelQuantile(mix, tau, p.high) });
+      // Each point's quantiles start from the previous point's: Newton's method then needs a step or two.
+      const [central, low, high] = (previous = mixtureLevelQuantiles(mix, tau, ps, previous)) as [number, number, number];
+      out.push({ oilHours: t0 + tau, central, low, high });
     }
   }
   return out;
