@@ -142,10 +142,10 @@ export class ComponentRun {
       const stats = statsByMonth.get(monthOf(sample.time));
       const step = this.fold.advance(sample, stats, this.input.marks.get(sample.sampleId));
       this.steps.push(step);
-      // The forecast travels with an incident's evidence, so it is made only where a step asks for an incident, and
-      // only for the measurands of that evidence.
+      // The forecast travels with an incident's evidence, so it is made only where a step asks for an incident, only
+      // for the measurands of that evidence, and without the projection a chart draws (the evidence keeps the limits').
       const evidence = [...new Set(step.findings.filter((f) => f.disposition === 'incident' && f.rule !== 'sampling').map((f) => f.measurand))];
-      const forecast = evidence.length > 0 ? this.fold.forecast(stats, { measurands: evidence }) : undefined;
+      const forecast = evidence.length > 0 ? this.fold.forecast(stats, { measurands: evidence, projection: false }) : undefined;
       this.incidents.step({
         ...step,
         time: sample.time,

@@ -99,6 +99,23 @@ describe('forecast: the recent intervals beside the filter', () => {
   }
   const mean = (xs: number[]) => xs.reduce((a, b) => a + b, 0) / xs.length;
 
+  it('without the projection (as an incident step asks) gives the same limits and no projection points', () => {
+    const samples = simulatedSamples({ samples: 40, intervalHours: 120, metals: steppedFe(2400, 3) }, 34);
+    const settings = resolveSettings(CONFIG, samples[0]!);
+    let mixed = 0;
+    for (let n = 10; n <= samples.length; n += 3) {
+      const state = evaluateComponent(samples.slice(0, n), settings).state;
+      const whole = forecastComponent(state, settings, undefined, { measurands: ['Fe'] });
+      const lean = forecastComponent(state, settings, undefined, { measurands: ['Fe'], projection: false });
+      const { projection, ...rest } = whole.measurands[0]!;
+      expect(lean.measurands[0]).toEqual({ ...rest, projection: [] });
+      if (rest.status === 'forecast') expect(projection.length).toBeGreaterThan(0);
+      if (whole.measurands[0]!.basis?.recent !== undefined) mixed += 1;
+    }
+    // Some of these forecasts weigh two trends (the projection's quantiles by Newton's method), some one.
+    expect(mixed).toBeGreaterThan(0);
+  });
+
   it('weighs little on steady wear, and most within the first thousand hours after the rate has tripled', () => {
     for (const seed of [31, 32, 33]) {
       const steady = weights(seed);

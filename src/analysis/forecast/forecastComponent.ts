@@ -59,6 +59,12 @@ export interface ForecastOptions {
    * what the gates hide).
    */
   readonly gates?: boolean;
+  /**
+   * Default true: the projection a chart draws (`projection`, PROJECTION_POINTS + 1 points with their interval). False
+   * leaves it empty: an incident's evidence carries only the limits' forecasts (incidents/verdict.ts), so the
+   * evaluation path does not work it out for every step that asks for an incident.
+   */
+  readonly projection?: boolean;
 }
 
 /** A trend ready to project, or why there is none. */
@@ -161,7 +167,7 @@ export function forecastComponent(state: AnalysisState, settings: ComponentSetti
       const estimate = parts.outcome === 'already' ? projectAt(trend, Math.max(0, nowOil! - t0)).mean : undefined;
       return { ...parts, text: forecastText(m, spec, parts, ctx, estimate) } satisfies LimitForecast;
     });
-    const points = projection(mix ?? [{ weight: 1, trend }], t0, horizon, p, q).map((p) => {
+    const points = (options.projection === false ? [] : projection(mix ?? [{ weight: 1, trend }], t0, horizon, p, q)).map((p) => {
       const at = timeOf(p.oilHours, nowOil!, hoursPerDay, lastTime).date;
       return at === undefined ? p : { ...p, at: atTime(p.oilHours, nowOil!, hoursPerDay!, lastTime) };
     });
