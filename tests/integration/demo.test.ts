@@ -114,6 +114,8 @@ describe.skipIf(!redisServerAvailable())('wearshift demo', () => {
     expect(['cusum', 'ewma', 'rate']).toContain(gearbox.earliest!.rule);
     expect(gearbox.earliest!.disposition).toBe('incident');
     expect(gearbox.samplesAhead).toBeGreaterThan(0);
+    // The README's headline figure of the demo is the one a run prints (the days vary a little with the calendar month).
+    expect(readFileSync('README.md', 'utf8').replace(/\s+/g, ' ')).toContain(`the gearbox change opens an incident ${gearbox.samplesAhead} samples, about`);
     expect(formatTimeline(gearbox)).toMatch(/^(Fe|Cu) (CUSUM|EWMA|rate limit|group limit) .* → caught \d+ samples? \(\d+ days\) before the fixed limit$/);
     // The healthy gearboxes never reach a fixed limit.
     for (const t of report.timelines.filter((x) => x.component === 'gearbox' && x.unit !== 'PS2-P3')) expect(t.fixedLimit).toBeUndefined();
