@@ -7,7 +7,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { evaluateComponent } from '../../src/analysis/evaluate.ts';
-import { crossingQuantile, firstReached, mixtureCrossing, mixtureLevelQuantile, projectAt, trendAt, type ProjectedTrend } from '../../src/analysis/forecast/crossing.ts';
+import { crossingQuantile, firstReached, mixtureCrossing, mixtureLevelQuantiles, projectAt, trendAt, type ProjectedTrend } from '../../src/analysis/forecast/crossing.ts';
 import { forecastComponent } from '../../src/analysis/forecast/forecastComponent.ts';
 import { normalQuantile } from '../../src/analysis/forecast/quantile.ts';
 import { parseConfig } from '../../src/domain/configFile.ts';
@@ -27,7 +27,7 @@ describe('forecast: mixture of trends', () => {
       expect(mixtureCrossing([{ weight: 1, trend: TREND }], ABOVE).quantile(p, single / 2, single + 1)!).toBeCloseTo(single, 6);
       expect(mixtureCrossing([{ weight: 1, trend: TREND }], ABOVE).quantile(p, 0, single / 2)).toBeUndefined();
       const x = projectAt(TREND, 300);
-      expect(mixtureLevelQuantile([{ weight: 1, trend: TREND }], 300, p)).toBeCloseTo(x.mean + normalQuantile(p) * x.sd, 6);
+      expect(mixtureLevelQuantiles([{ weight: 1, trend: TREND }], 300, [p])[0]).toBeCloseTo(x.mean + normalQuantile(p) * x.sd, 6);
     }
   });
 

@@ -18,9 +18,9 @@
  * for a fitted line). The p-quantile of T is the first τ where (E x(τ) − L)/sd x(τ) ≥ F⁻¹(p): found on a grid over
  * the horizon, then within the grid step by regula falsi with the Illinois modification, safeguarded by bisection
  * (firstReached). For a falling quantity the signs turn round. Where the level depends on the oil hours (a population
- * limit by band), L(τ) is read at each τ. For several normal trends weighed together (a
- * mixture) P(T ≤ τ) = Σ w_k·Φ((E_k x(τ) − L)/sd_k x(τ)), and the p-quantile is the first τ where that reaches p,
- * found the same way.
+ * limit by band), L(τ) is read at each τ. For several normal trends weighed together (a mixture)
+ * P(T ≤ τ) = Σ w_k·Φ((E_k x(τ) − L)/sd_k x(τ)), and the p-quantile is the first τ where that reaches p, found the
+ * same way.
  */
 
 import { normalCdf } from '../../domain/normal.ts';
@@ -223,16 +223,10 @@ export function mixtureCrossing(mix: TrendMixture, q: MixtureQuery): { quantile:
 }
 
 /**
- * The p-quantile of the mixture's level τ hours on: Newton's method on the mixture's distribution function from the
- * weighed trends' own quantiles, kept within a bracket that bisection narrows whenever a step would leave it.
- */
-export function mixtureLevelQuantile(mix: TrendMixture, tau: number, p: number): number {
-  return mixtureLevelQuantiles(mix, tau, [p])[0]!;
-}
-
-/**
- * mixtureLevelQuantile for several probabilities at one τ, the trends projected once; `starts` (one per probability,
- * each optional): where Newton's method begins instead, when within the bracket (the quantile at a nearby τ).
+ * The p-quantiles of the mixture's level τ hours on, one per probability of `ps`, the trends projected once: Newton's
+ * method on the mixture's distribution function from the weighed trends' own quantiles (or from `starts`, one per
+ * probability, each optional, when within the bracket: the quantile at a nearby τ), kept within a bracket that
+ * bisection narrows whenever a step would leave it.
  */
 export function mixtureLevelQuantiles(mix: TrendMixture, tau: number, ps: readonly number[], starts?: readonly (number | undefined)[]): number[] {
   const points = mix.map(({ weight, trend }) => ({ weight, ...projectAt(trend, tau) }));
